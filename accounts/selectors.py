@@ -1,0 +1,40 @@
+"""Reads about people and roles."""
+
+from django.db.models import QuerySet
+
+from .models import Membership, Organisation, Role, User
+
+
+def memberships_of(*, user: User) -> QuerySet[Membership]:
+    if not user.is_authenticated:
+        return Membership.objects.none()
+    return Membership.objects.filter(user=user).select_related("organisation")
+
+
+def organisations_where(*, user: User, roles: set[str]) -> QuerySet[Organisation]:
+    """Organisations in which ``user`` holds one of ``roles``."""
+    if not user.is_authenticated:
+        return Organisation.objects.none()
+    return Organisation.objects.filter(memberships__user=user, memberships__role__in=roles).distinct()
+
+
+def user_has_role(*, user: User, roles: set[str], organisation: Organisation | None = None) -> bool:
+    qs = memberships_of(user=user).filter(role__in=roles)
+    if organisation is not None:
+        qs = qs.filter(organisation=organisation)
+    return qs.exists()
+
+
+def is_manager_of(*, user: User, organisation: Organisation) -> bool:
+    """Supervisors and admins run the organisation's registry and work."""
+    return user_has_role(user=user, roles={Role.SUPERVISOR, Role.ADMIN}, organisation=organisation)
+
+
+def primary_role(*, user: User) -> str | None:
+    """The strongest role a person holds, used to pick their home page."""
+    order = [Role.ADMIN, Role.SUPERVISOR, Role.TECHNICIAN, Role.PROPERTY_MANAGER]
+    held = set(memberships_of(user=user).values_list("role", flat=True))
+    for role in order:
+        if role in held:
+            return role
+    return None

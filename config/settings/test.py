@@ -1,0 +1,16 @@
+"""Test settings: fast hashing, in-memory e-mail, no throttling lockout between tests."""
+
+import os
+
+from .base import *  # noqa: F403
+from .base import BASE_DIR
+
+DEBUG = False
+PASSWORD_HASHERS = ["django.contrib.auth.hashers.MD5PasswordHasher"]
+EMAIL_BACKEND = "django.core.mail.backends.locmem.EmailBackend"
+MEDIA_ROOT = BASE_DIR / ".test-media" / os.environ.get("PYTEST_XDIST_WORKER", "main")
+STORAGES = {
+    "default": {"BACKEND": "django.core.files.storage.FileSystemStorage"},
+    "staticfiles": {"BACKEND": "django.contrib.staticfiles.storage.StaticFilesStorage"},
+}
+AXES_ENABLED = os.environ.get("AXES_ENABLED_IN_TESTS", "") == "1"

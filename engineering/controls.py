@@ -1,0 +1,272 @@
+"""Judging readings against limits: verdicts and plain-words reasons.
+
+The thresholds here are defaults of common practice, not values from a
+published standard; every one is a keyword argument so a site or a checklist
+template can set its own.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from enum import Enum
+
+from engineering import _validate as v
+from engineering.errors import EngineeringInputError
+
+__all__ = [
+    "Verdict",
+    "Check",
+    "band_check",
+    "supply_temperature_check",
+    "static_pressure_check",
+    "damper_position_check",
+    "sensor_drift_check",
+    "worst",
+]
+
+# Deviations are rounded before comparison so that 17.9 − 16.9 counts as
+# exactly 1.0 K against a 1.0 K limit, as a technician would read it.
+_ROUND = 9
+
+
+class Verdict(str, Enum):
+    OK = "ok"
+    WATCH = "watch"
+    FAIL = "fail"
+
+    def __str__(self) -> str:
+        return self.value
+
+
+_RANK = {Verdict.OK: 0, Verdict.WATCH: 1, Verdict.FAIL: 2}
+
+
+def worst(*verdicts: Verdict) -> Verdict:
+    """The most severe of the verdicts given (OK when none)."""
+    return max(verdicts, key=_RANK.__getitem__, default=Verdict.OK)
+
+
+@dataclass(frozen=True)
+class Check:
+    """Outcome of one check.
+
+    ``decided`` is False when the measurement's uncertainty band straddles a
+    limit, so no honest verdict exists; ``verdict`` is then WATCH and the
+    reason starts with "cannot decide".
+    """
+
+    verdict: Verdict
+    value: float
+    limits: dict[str, float] = field(default_factory=dict)
+    reason: str = ""
+    decided: bool = True
+
+
+def _grade(deviation: float, watch: float, fail: float) -> Verdict:
+    d = round(abs(deviation), _ROUND)
+    if d > fail:
+        return Verdict.FAIL
+    if d > watch:
+        return Verdict.WATCH
+    return Verdict.OK
+
+
+def _ordered_limits(watch_name: str, watch: float, fail_name: str, fail: float, unit: str) -> None:
+    if fail < watch:
+        raise EngineeringInputError(
+            field=fail_name,
+            value=fail,
+            allowed=f"at least {watch_name}={v.fmt(watch)} {unit}".rstrip(),
+            message=(
+                f"{fail_name}={v.fmt(fail)} is outside at least "
+                f"{watch_name}={v.fmt(watch)} {unit}".rstrip()
+            ),
+            low=watch,
+        )
+
+
+def band_check(
+    *,
+    value: float,
+    ok_low: float | None,
+    ok_high: float | None,
+    watch_low: float | None = None,
+    watch_high: float | None = None,
+    label: str = "value",
+    unit: str = "",
+) -> Check:
+    """OK inside [ok_low, ok_high], WATCH inside [watch_low, watch_high], else FAIL.
+
+    Any limit may be None (open). A missing watch limit means the band goes
+    straight from OK to FAIL on that side. Common practice (no published source).
+    """
+    x = v.finite("value", value)
+    lims = {}
+    for name, lim in (
+        ("watch_low", watch_low), ("ok_low", ok_low), ("ok_high", ok_high), ("watch_high", watch_high)
+    ):
+        if lim is not None:
+            lims[name] = v.finite(name, lim)
+    wl = lims.get("watch_low", lims.get("ok_low"))
+    wh = lims.get("watch_high", lims.get("ok_high"))
+    ordered = [lims[k] for k in ("watch_low", "ok_low", "ok_high", "watch_high") if k in lims]
+    if ordered != sorted(ordered):
+        raise EngineeringInputError(
+            field="ok_low",
+            value=tuple(ordered),
+            allowed="watch_low ≤ ok_low ≤ ok_high ≤ watch_high",
+            message=f"limits {lims} are not in order watch_low ≤ ok_low ≤ ok_high ≤ watch_high",
+        )
+    u = f" {unit}" if unit else ""
+    ok_lo, ok_hi = lims.get("ok_low"), lims.get("ok_high")
+    ok_text = _span_text(ok_lo, ok_hi, u)
+    if (ok_lo is None or x >= ok_lo) and (ok_hi is None or x <= ok_hi):
+        verdict = Verdict.OK
+        reason = f"{label} {v.fmt(x)}{u} is within {ok_text}"
+    elif (wl is None or x >= wl) and (wh is None or x <= wh):
+        verdict = Verdict.WATCH
+        reason = f"{label} {v.fmt(x)}{u} is outside {ok_text} but within {_span_text(wl, wh, u)}"
+    else:
+        verdict = Verdict.FAIL
+        reason = f"{label} {v.fmt(x)}{u} is outside {_span_text(wl, wh, u)}"
+    return Check(verdict=verdict, value=x, limits=lims, reason=reason)
+
+
+def _span_text(low: float | None, high: float | None, u: str) -> str:
+    if low is not None and high is not None:
+        return f"{v.fmt(low)}–{v.fmt(high)}{u}"
+    if low is not None:
+        return f"at least {v.fmt(low)}{u}"
+    if high is not None:
+        return f"at most {v.fmt(high)}{u}"
+    return "any value"
+
+
+def supply_temperature_check(
+    *, measured_c: float, setpoint_c: float, watch_k: float = 1.0, fail_k: float = 2.0
+) -> Check:
+    """Supply-air temperature against its set point: |t − t_set| graded by
+    watch_k / fail_k (defaults 1 K / 2 K: common practice, no published source).
+    """
+    t = v.air_temperature("measured_c", measured_c, label="supply air temperature")
+    sp = v.air_temperature("setpoint_c", setpoint_c, label="supply air set point")
+    watch = v.non_negative("watch_k", watch_k, unit="K")
+    fail = v.non_negative("fail_k", fail_k, unit="K")
+    _ordered_limits("watch_k", watch, "fail_k", fail, "K")
+    dev = t - sp
+    verdict = _grade(dev, watch, fail)
+    side = "above" if dev > 0 else "below"
+    where = "at" if round(dev, 1) == 0 else f"{abs(dev):.1f} K {side}"
+    reason = (
+        f"supply air {t:.1f} °C, {where} set point {sp:.1f} °C "
+        f"(watch above {watch:.1f} K, fail above {fail:.1f} K)"
+    )
+    return Check(
+        verdict=verdict,
+        value=t,
+        limits={"setpoint_c": sp, "watch_k": watch, "fail_k": fail, "deviation_k": dev},
+        reason=reason,
+    )
+
+
+def static_pressure_check(
+    *, measured_pa: float, setpoint_pa: float, watch_pct: float = 10.0, fail_pct: float = 20.0
+) -> Check:
+    """Duct static pressure against its set point, deviation as % of set point
+    (defaults 10 % / 20 %: common practice, no published source)."""
+    p = v.in_range("measured_pa", measured_pa, -5_000.0, 5_000.0, unit="Pa", label="static pressure")
+    sp = v.in_range(
+        "setpoint_pa", setpoint_pa, 0.0, 5_000.0, unit="Pa", label="static pressure set point",
+        low_open=True,
+    )
+    watch = v.non_negative("watch_pct", watch_pct, unit="%")
+    fail = v.non_negative("fail_pct", fail_pct, unit="%")
+    _ordered_limits("watch_pct", watch, "fail_pct", fail, "%")
+    dev_pct = (p - sp) / sp * 100.0
+    verdict = _grade(dev_pct, watch, fail)
+    side = "above" if dev_pct > 0 else "below"
+    reason = (
+        f"static pressure {p:.0f} Pa, {abs(dev_pct):.1f} % {side} set point {sp:.0f} Pa "
+        f"(watch above {watch:g} %, fail above {fail:g} %)"
+    )
+    return Check(
+        verdict=verdict,
+        value=p,
+        limits={"setpoint_pa": sp, "watch_pct": watch, "fail_pct": fail, "deviation_pct": dev_pct},
+        reason=reason,
+    )
+
+
+def damper_position_check(
+    *, commanded_pct: float, measured_pct: float, watch_pct: float = 5.0, fail_pct: float = 10.0
+) -> Check:
+    """Damper position feedback against command, in percentage points of
+    stroke (defaults 5 / 10 points: common practice, no published source)."""
+    cmd = v.in_range("commanded_pct", commanded_pct, 0.0, 100.0, unit="%", label="commanded position")
+    pos = v.in_range("measured_pct", measured_pct, 0.0, 100.0, unit="%", label="measured position")
+    watch = v.non_negative("watch_pct", watch_pct, unit="%")
+    fail = v.non_negative("fail_pct", fail_pct, unit="%")
+    _ordered_limits("watch_pct", watch, "fail_pct", fail, "%")
+    dev = pos - cmd
+    verdict = _grade(dev, watch, fail)
+    side = "more open" if dev > 0 else "more closed"
+    where = "matching" if round(dev, 1) == 0 else f"{abs(dev):.1f} points {side} than"
+    reason = (
+        f"damper at {pos:.0f} %, {where} commanded {cmd:.0f} % "
+        f"(watch above {watch:g} points, fail above {fail:g} points)"
+    )
+    return Check(
+        verdict=verdict,
+        value=pos,
+        limits={"commanded_pct": cmd, "watch_pct": watch, "fail_pct": fail, "deviation_pct": dev},
+        reason=reason,
+    )
+
+
+def sensor_drift_check(
+    *,
+    sensor_value: float,
+    reference_value: float,
+    tolerance_abs: float,
+    tolerance_pct_of_reading: float = 0.0,
+    watch_fraction: float = 0.8,
+    unit: str = "",
+) -> Check:
+    """Installed sensor against a reference meter.
+
+    Allowed error = tolerance_abs + tolerance_pct_of_reading/100 × |reference|
+    (the usual form of a sensor accuracy specification, e.g. a CO2 sensor
+    ±(50 ppm + 3 % of reading) — common practice for NDIR sensors, from
+    memory). FAIL beyond the allowed error, WATCH beyond watch_fraction of it
+    (0.8 by default: an early warning, common practice).
+    """
+    s = v.finite("sensor_value", sensor_value)
+    ref = v.finite("reference_value", reference_value)
+    tol_abs = v.non_negative("tolerance_abs", tolerance_abs, unit=unit)
+    tol_pct = v.in_range("tolerance_pct_of_reading", tolerance_pct_of_reading, 0.0, 100.0, unit="%")
+    frac = v.in_range("watch_fraction", watch_fraction, 0.0, 1.0, label="watch fraction")
+    allowed = tol_abs + tol_pct / 100.0 * abs(ref)
+    if allowed <= 0:
+        raise EngineeringInputError(
+            field="tolerance_abs",
+            value=tol_abs,
+            allowed="a tolerance above 0 (absolute or % of reading)",
+            message="tolerance_abs=0 with tolerance_pct_of_reading=0 allows no error at all",
+            low=0.0,
+        )
+    diff = s - ref
+    verdict = _grade(diff, frac * allowed, allowed)
+    u = f" {unit}" if unit else ""
+    side = "above" if diff > 0 else "below"
+    spec = f"±{v.fmt(tol_abs)}{u}" if tol_pct == 0 else f"±({v.fmt(tol_abs)}{u} + {v.fmt(tol_pct)} %)"
+    reason = (
+        f"sensor reads {v.fmt(s)}{u}, {v.fmt(abs(round(diff, 6)))}{u} {side} reference "
+        f"{v.fmt(ref)}{u}; allowed {spec} = ±{v.fmt(round(allowed, 6))}{u}"
+    )
+    return Check(
+        verdict=verdict,
+        value=s,
+        limits={"reference_value": ref, "allowed_error": allowed, "watch_error": frac * allowed,
+                "error": diff},
+        reason=reason,
+    )

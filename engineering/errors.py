@@ -1,0 +1,68 @@
+"""Exceptions raised by the engineering package.
+
+Every refusal is an ``EngineeringInputError`` (a ``ValueError``) carrying the
+argument name, the value given and what is allowed, so a form can show the
+message beside the field it belongs to.
+"""
+
+from __future__ import annotations
+
+__all__ = [
+    "EngineeringInputError",
+    "IndeterminateError",
+    "InsufficientDataError",
+]
+
+
+class EngineeringInputError(ValueError):
+    """An argument is missing, not finite, or outside its plausible range.
+
+    Attributes:
+        field: the keyword argument's name, e.g. ``"rh_pct"``.
+        value: the value that was given.
+        allowed: plain words for what is allowed, e.g. ``"0–100 %"``.
+        low, high: numeric limits when the rule is a range (else ``None``),
+            in the argument's SI unit, so a caller can restate them in the
+            user's display units.
+        unit: the SI unit of ``value``/``low``/``high`` ("" when unitless).
+    """
+
+    def __init__(
+        self,
+        *,
+        field: str,
+        value: object,
+        allowed: str,
+        message: str | None = None,
+        low: float | None = None,
+        high: float | None = None,
+        unit: str = "",
+    ) -> None:
+        self.field = field
+        self.value = value
+        self.allowed = allowed
+        self.low = low
+        self.high = high
+        self.unit = unit
+        if message is None:
+            message = f"{field}={_fmt(value)} is outside {allowed}"
+        super().__init__(message)
+
+    @property
+    def message(self) -> str:
+        return str(self.args[0])
+
+
+class IndeterminateError(EngineeringInputError):
+    """The inputs are valid but cannot determine the result (e.g. outdoor and
+    return air too alike to compute an outdoor-air fraction)."""
+
+
+class InsufficientDataError(EngineeringInputError):
+    """Too few usable data points, or a trend with no usable slope."""
+
+
+def _fmt(value: object) -> str:
+    if isinstance(value, float):
+        return f"{value:g}"
+    return str(value)

@@ -1,0 +1,254 @@
+"""Sites, buildings, air handling units and their component trees."""
+
+import math
+import secrets
+import zoneinfo
+
+from django.core.exceptions import ValidationError
+from django.core.validators import MaxValueValidator, MinValueValidator
+from django.db import models
+from django.urls import reverse
+
+from accounts.models import Organisation
+
+from .specs import SPECS, SpecErrors, validate_specs
+
+# Label codes avoid letters and digits that are easy to misread on a dusty label.
+LABEL_ALPHABET = "23456789ABCDEFGHJKMNPQRSTUVWXYZ"
+
+
+def new_label_code(prefix: str) -> str:
+    return prefix + "".join(secrets.choice(LABEL_ALPHABET) for _ in range(6))
+
+
+def new_unit_code() -> str:
+    return new_label_code("U")
+
+
+def new_component_code() -> str:
+    return new_label_code("C")
+
+
+def validate_time_zone(value: str) -> None:
+    if value not in zoneinfo.available_timezones():
+        raise ValidationError(f"time_zone={value!r} is not an IANA time zone name such as Europe/Berlin")
+
+
+def validate_monthly_normals(value) -> None:
+    if not isinstance(value, list) or len(value) != 12:
+        raise ValidationError(f"expected 12 monthly values in °C (January to December), got {value!r}")
+    for month, item in enumerate(value, start=1):
+        if isinstance(item, bool) or not isinstance(item, (int, float)) or not math.isfinite(item):
+            raise ValidationError(f"month {month}: {item!r} is not a number in °C")
+        if not -60 <= item <= 50:
+            raise ValidationError(f"month {month}: {item!r} °C is outside −60 to 50 °C")
+
+
+def default_normals_min() -> list[float]:
+    return [-2.0, -1.5, 1.0, 4.5, 8.5, 11.5, 13.5, 13.0, 10.0, 6.0, 2.5, -0.5]
+
+
+def default_normals_max() -> list[float]:
+    return [3.5, 5.0, 9.5, 14.5, 19.0, 22.0, 24.0, 23.5, 19.5, 14.0, 8.0, 4.5]
+
+
+class Site(models.Model):
+    organisation = models.ForeignKey(Organisation, on_delete=models.PROTECT, related_name="sites")
+    client = models.ForeignKey(
+        Organisation,
+        on_delete=models.PROTECT,
+        related_name="client_sites",
+        null=True,
+        blank=True,
+        help_text="The owner the site is maintained for, if not the organisation itself.",
+    )
+    code = models.SlugField(max_length=40, help_text="Short code, unique in the organisation.")
+    name = models.CharField(max_length=200)
+    address = models.TextField(blank=True)
+    latitude = models.FloatField(validators=[MinValueValidator(-90), MaxValueValidator(90)])
+    longitude = models.FloatField(validators=[MinValueValidator(-180), MaxValueValidator(180)])
+    altitude_m = models.FloatField(default=0, validators=[MinValueValidator(-500), MaxValueValidator(5000)])
+    time_zone = models.CharField(max_length=64, default="UTC", validators=[validate_time_zone])
+    normals_min_c = models.JSONField(
+        default=default_normals_min,
+        validators=[validate_monthly_normals],
+        help_text="Mean daily minimum outdoor temperature per month, °C, January first.",
+    )
+    normals_max_c = models.JSONField(
+        default=default_normals_max,
+        validators=[validate_monthly_normals],
+        help_text="Mean daily maximum outdoor temperature per month, °C, January first.",
+    )
+    preheat_threshold_c = models.FloatField(
+        default=5.0,
+        validators=[MinValueValidator(-20), MaxValueValidator(15)],
+        help_text="Daily minimum at which the freeze season starts (about 5 °C is common practice).",
+    )
+    cooling_threshold_c = models.FloatField(
+        default=24.0,
+        validators=[MinValueValidator(10), MaxValueValidator(45)],
+        help_text="Daily maximum at which the cooling season starts.",
+    )
+    freeze_season_start = models.DateField(null=True, blank=True, editable=False)
+    cooling_season_start = models.DateField(null=True, blank=True, editable=False)
+    season_source = models.CharField(max_length=40, blank=True, editable=False)
+    created_at = models.DateTimeField(auto_now_add=True)
+
+    class Meta:
+        ordering = ["name"]
+        constraints = [models.UniqueConstraint(fields=["organisation", "code"], name="site_unique_code_in_org")]
+
+    def __str__(self) -> str:
+        return self.name
+
+    def clean(self) -> None:
+        for name in ("normals_min_c", "normals_max_c"):
+            try:
+                validate_monthly_normals(getattr(self, name))
+            except ValidationError as exc:
+                raise ValidationError({name: exc.messages}) from None
+        bad = [m + 1 for m, (lo, hi) in enumerate(zip(self.normals_min_c, self.normals_max_c)) if lo > hi]
+        if bad:
+            raise ValidationError({"normals_max_c": f"monthly maximum is below the minimum in month(s) {bad}"})
+
+
+class Building(models.Model):
+    site = models.ForeignKey(Site, on_delete=models.CASCADE, related_name="buildings")
+    code = models.SlugField(max_length=40)
+    name = models.CharField(max_length=200)
+    floors = models.PositiveSmallIntegerField(null=True, blank=True)
+
+    class Meta:
+        ordering = ["site__name", "name"]
+        constraints = [models.UniqueConstraint(fields=["site", "code"], name="building_unique_code_in_site")]
+
+    def __str__(self) -> str:
+        return f"{self.site.name} / {self.name}"
+
+
+class AHU(models.Model):
+    class HeatRecovery(models.TextChoices):
+        NONE = "none", "None"
+        WHEEL = "wheel", "Rotary wheel"
+        PLATE = "plate", "Plate exchanger"
+        RUN_AROUND = "run_around", "Run-around coil"
+
+    class Status(models.TextChoices):
+        IN_SERVICE = "in_service", "In service"
+        STANDBY = "standby", "Standby"
+        OUT_OF_SERVICE = "out_of_service", "Out of service"
+        RETIRED = "retired", "Retired"
+
+    building = models.ForeignKey(Building, on_delete=models.CASCADE, related_name="ahus")
+    tag = models.CharField(max_length=40, help_text="The unit's tag as painted on it, e.g. AHU-03.")
+    label_code = models.CharField(max_length=12, unique=True, default=new_unit_code, editable=False)
+    location = models.CharField(max_length=200, blank=True)
+    area_served = models.CharField(max_length=200, blank=True)
+    space_kind = models.CharField(
+        max_length=40, blank=True, help_text="Kind of space served (for the ventilation requirement)."
+    )
+    floor_area_m2 = models.FloatField(null=True, blank=True, validators=[MinValueValidator(0)])
+    design_occupants = models.PositiveIntegerField(null=True, blank=True)
+    design_supply_airflow_m3s = models.FloatField(validators=[MinValueValidator(0.01), MaxValueValidator(100)])
+    design_min_oa_fraction = models.FloatField(
+        validators=[MinValueValidator(0), MaxValueValidator(1)], help_text="Design minimum outdoor-air fraction, 0–1."
+    )
+    full_outdoor_air = models.BooleanField(default=False, help_text="100 % outdoor air: no recirculation.")
+    heat_recovery = models.CharField(max_length=20, choices=HeatRecovery.choices, default=HeatRecovery.NONE)
+    supply_air_setpoint_c = models.FloatField(
+        null=True, blank=True, validators=[MinValueValidator(5), MaxValueValidator(45)]
+    )
+    duct_static_setpoint_pa = models.FloatField(
+        null=True, blank=True, validators=[MinValueValidator(0), MaxValueValidator(3000)]
+    )
+    service_start = models.DateField(null=True, blank=True)
+    status = models.CharField(max_length=20, choices=Status.choices, default=Status.IN_SERVICE)
+    notes = models.TextField(blank=True)
+    created_at = models.DateTimeField(auto_now_add=True)
+
+    class Meta:
+        verbose_name = "air handling unit"
+        ordering = ["building__site__name", "tag"]
+        constraints = [models.UniqueConstraint(fields=["building", "tag"], name="ahu_unique_tag_in_building")]
+
+    def __str__(self) -> str:
+        return f"{self.tag} ({self.building.site.name})"
+
+    def get_absolute_url(self) -> str:
+        return reverse("inventory:label", kwargs={"code": self.label_code})
+
+    def clean(self) -> None:
+        if self.full_outdoor_air and self.design_min_oa_fraction is not None and self.design_min_oa_fraction < 1:
+            raise ValidationError(
+                {
+                    "design_min_oa_fraction": (
+                        f"a 100 % outdoor-air unit has design_min_oa_fraction=1; got {self.design_min_oa_fraction}"
+                    )
+                }
+            )
+
+    @property
+    def site(self) -> Site:
+        return self.building.site
+
+
+class ComponentKind(models.TextChoices):
+    INTAKE_SCREEN = "intake_screen", "Outdoor-air intake screen"
+    DAMPER = "damper", "Damper"
+    FILTER_BANK = "filter_bank", "Filter bank"
+    COIL = "coil", "Coil"
+    FAN = "fan", "Fan"
+    ELECTRIC_PREHEATER = "electric_preheater", "Electric preheater"
+    SENSOR = "sensor", "Sensor"
+    HEAT_RECOVERY = "heat_recovery", "Heat recovery"
+    HUMIDIFIER = "humidifier", "Humidifier"
+    DRAIN_PAN = "drain_pan", "Condensate drain pan"
+
+
+assert set(ComponentKind.values) == set(SPECS), "every component kind needs a spec table"
+
+
+class Component(models.Model):
+    ahu = models.ForeignKey(AHU, on_delete=models.CASCADE, related_name="components")
+    parent = models.ForeignKey(
+        "self", on_delete=models.CASCADE, null=True, blank=True, related_name="children"
+    )
+    kind = models.CharField(max_length=30, choices=ComponentKind.choices)
+    name = models.CharField(max_length=120)
+    label_code = models.CharField(max_length=12, unique=True, default=new_component_code, editable=False)
+    specs = models.JSONField(default=dict, blank=True)
+    position = models.PositiveSmallIntegerField(default=0, help_text="Order along the airstream.")
+    installed_on = models.DateField(null=True, blank=True)
+
+    class Meta:
+        ordering = ["ahu", "position", "id"]
+
+    def __str__(self) -> str:
+        return f"{self.ahu.tag} / {self.name}"
+
+    def get_absolute_url(self) -> str:
+        return reverse("inventory:label", kwargs={"code": self.label_code})
+
+    def clean(self) -> None:
+        errors = {}
+        try:
+            self.specs = validate_specs(kind=self.kind, specs=self.specs)
+        except SpecErrors as exc:
+            errors["specs"] = [f"{k}: {v}" if not v.startswith(k) else v for k, v in exc.errors.items()]
+        if self.parent_id is not None:
+            if self.parent_id == self.pk:
+                errors["parent"] = "a component cannot contain itself"
+            elif self.parent.ahu_id != self.ahu_id:
+                errors["parent"] = "the parent component belongs to another unit"
+            else:
+                node = self.parent
+                while node is not None:
+                    if node.pk == self.pk and self.pk is not None:
+                        errors["parent"] = "this parent would make a loop in the component tree"
+                        break
+                    node = node.parent
+        if errors:
+            raise ValidationError(errors)
+
+    def spec(self, name: str, default=None):
+        return self.specs.get(name, default)

@@ -1,0 +1,105 @@
+"""Reads of the registry. ``sites_visible_to`` is THE tenancy rule.
+
+Every view, API endpoint, report and feed gets its sites, units and
+components through these selectors, never through a bare ``objects.all()``.
+"""
+
+from django.db.models import Q, QuerySet
+
+from accounts.models import Role, SiteGrant, User
+
+from .models import AHU, Building, Component, Site
+
+MANAGING_ROLES = {Role.SUPERVISOR, Role.ADMIN}
+
+
+def _roles_by_org(user: User) -> dict[str, set[int]]:
+    by_role: dict[str, set[int]] = {}
+    for org_id, role in user.memberships.values_list("organisation_id", "role"):
+        by_role.setdefault(role, set()).add(org_id)
+    return by_role
+
+
+def sites_visible_to(*, user: User) -> QuerySet[Site]:
+    """Sites a person may see.
+
+    - supervisor or admin: every site of their organisation;
+    - property manager: only the sites granted to them, inside their organisation;
+    - technician: the sites of work assigned to them;
+    - nobody sees a site of an organisation they are not a member of.
+    """
+    if not getattr(user, "is_authenticated", False):
+        return Site.objects.none()
+    by_role = _roles_by_org(user)
+    condition = Q(pk__in=[])
+    managed = set().union(*(by_role.get(r, set()) for r in MANAGING_ROLES))
+    if managed:
+        condition |= Q(organisation_id__in=managed)
+    if Role.PROPERTY_MANAGER in by_role:
+        granted = SiteGrant.objects.filter(
+            user=user, site__organisation_id__in=by_role[Role.PROPERTY_MANAGER]
+        ).values("site_id")
+        condition |= Q(pk__in=granted)
+    if Role.TECHNICIAN in by_role:
+        assigned = Site.objects.filter(
+            organisation_id__in=by_role[Role.TECHNICIAN],
+            buildings__ahus__work_orders__assignee=user,
+        ).values("pk")
+        condition |= Q(pk__in=assigned)
+    return Site.objects.filter(condition)
+
+
+def site_is_visible(*, user: User, site_id: int) -> bool:
+    return sites_visible_to(user=user).filter(pk=site_id).exists()
+
+
+def sites_managed_by(*, user: User) -> QuerySet[Site]:
+    """Sites whose registry and work the person may change (supervisor/admin)."""
+    if not getattr(user, "is_authenticated", False):
+        return Site.objects.none()
+    orgs = user.memberships.filter(role__in=MANAGING_ROLES).values("organisation_id")
+    return Site.objects.filter(organisation_id__in=orgs)
+
+
+def buildings_visible_to(*, user: User) -> QuerySet[Building]:
+    return Building.objects.filter(site__in=sites_visible_to(user=user)).select_related("site")
+
+
+def ahus_visible_to(*, user: User) -> QuerySet[AHU]:
+    return AHU.objects.filter(building__site__in=sites_visible_to(user=user)).select_related("building__site")
+
+
+def components_visible_to(*, user: User) -> QuerySet[Component]:
+    return Component.objects.filter(ahu__building__site__in=sites_visible_to(user=user)).select_related(
+        "ahu__building__site"
+    )
+
+
+def component_tree(*, ahu: AHU) -> list[dict]:
+    """The unit's components as nested dicts in airstream order, in two queries at most."""
+    nodes = list(ahu.components.all().order_by("position", "id"))
+    by_parent: dict[int | None, list[Component]] = {}
+    for node in nodes:
+        by_parent.setdefault(node.parent_id, []).append(node)
+
+    def build(parent_id):
+        return [{"component": n, "children": build(n.pk)} for n in by_parent.get(parent_id, [])]
+
+    return build(None)
+
+
+def label_lookup(*, user: User, code: str) -> AHU | Component | None:
+    """The visible unit or component behind a label code, or None."""
+    code = code.strip().upper()
+    if code.startswith("U"):
+        return ahus_visible_to(user=user).filter(label_code=code).first()
+    if code.startswith("C"):
+        return components_visible_to(user=user).filter(label_code=code).first()
+    return None
+
+
+def unit_has_component(*, ahu: AHU, kind: str, **spec_filters) -> bool:
+    for comp in ahu.components.all():
+        if comp.kind == kind and all(comp.specs.get(k) == v for k, v in spec_filters.items()):
+            return True
+    return False

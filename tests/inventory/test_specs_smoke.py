@@ -1,0 +1,23 @@
+import pytest
+from django.core.exceptions import ValidationError
+
+from tests.factories import ComponentFactory, make_full_unit
+
+
+@pytest.mark.django_db
+def test_full_unit_builds_with_valid_specs():
+    """A unit with the usual component tree passes spec validation on every component."""
+    ahu = make_full_unit()
+    for component in ahu.components.all():
+        component.full_clean()
+    assert ahu.components.count() == 12
+
+
+@pytest.mark.django_db
+def test_filter_final_below_clean_is_refused():
+    """A filter bank whose final pressure drop is below its clean one is refused, naming both fields."""
+    comp = ComponentFactory.build(ahu=make_full_unit())
+    comp.specs = {**comp.specs, "final_dp_pa": 50}
+    with pytest.raises(ValidationError) as exc:
+        comp.full_clean()
+    assert "final_dp_pa=50 Pa" in str(exc.value)
