@@ -1,0 +1,333 @@
+"""Air-side and water-side heat flows of a coil, and their balance.
+
+Sign conventions (stated once, used everywhere):
+- air side: heat *added to the air*, positive when the air leaves warmer
+  (heating coil), negative when it leaves cooler (cooling coil);
+- water side: heat *picked up by the fluid*, positive when the return is
+  warmer than the supply (cooling coil), negative on a heating coil.
+So on a healthy coil the two have opposite signs; ``coil_balance`` compares
+magnitudes.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import psychrolib
+
+from engineering import _validate as v
+from engineering import psychro  # noqa: F401  (sets psychrolib to SI once)
+from engineering.controls import Verdict
+from engineering.errors import EngineeringInputError
+from engineering.psychro import STANDARD_PRESSURE_PA, AirState
+
+__all__ = [
+    "AirHeat",
+    "CoilBalance",
+    "FLUIDS",
+    "coil_balance",
+    "fluid_properties",
+    "latent_heat_w",
+    "sensible_heat_w",
+    "total_heat_w",
+    "water_side_heat_w",
+]
+
+# ASHRAE Handbook—Fundamentals 2017 ch.1 eq. 32: h = 1.006 t + W (2501 + 1.86 t) kJ/kg.
+CP_DRY_AIR_J_PER_KG_K = 1006.0
+CP_WATER_VAPOUR_J_PER_KG_K = 1860.0
+H_FG_0C_J_PER_KG = 2_501_000.0
+
+HUMIDITY_RATIO_KG_KG = (0.0, 0.1)
+AIRFLOW_MAX_M3S = 100.0  # a very large AHU moves ~50 m³/s; more is a typo.
+
+
+@dataclass(frozen=True)
+class AirHeat:
+    """Heat added to the air stream, W (sensible + latent = total)."""
+
+    sensible_w: float
+    latent_w: float
+    total_w: float
+
+
+def _airflow(name: str, value: object, *, strictly_positive: bool = False) -> float:
+    return v.in_range(
+        name, value, 0.0, AIRFLOW_MAX_M3S, unit="m³/s", label="airflow", low_open=strictly_positive
+    )
+
+
+def _w(name: str, value: object) -> float:
+    return v.in_range(name, value, *HUMIDITY_RATIO_KG_KG, unit="kg/kg", label="humidity ratio")
+
+
+def _dry_air_mass_flow(airflow_m3s: float, t_c: float, w: float, p_pa: float) -> float:
+    return airflow_m3s / psychrolib.GetMoistAirVolume(t_c, w, p_pa)
+
+
+def sensible_heat_w(
+    *,
+    airflow_m3s: float,
+    t_in_c: float,
+    t_out_c: float,
+    pressure_pa: float = STANDARD_PRESSURE_PA,
+    humidity_ratio: float = 0.0,
+) -> float:
+    """Sensible heat added to an air stream, W.
+
+    q_s = ṁ_da (c_p,da + W c_p,v) (t_out − t_in), with ṁ_da = V / v and v the
+    moist-air specific volume at the entering state (ASHRAE Handbook—
+    Fundamentals 2017 ch.1 eq. 28 and 32; c_p,da = 1.006 kJ/kg·K,
+    c_p,v = 1.86 kJ/kg·K from eq. 32). The airflow is taken as measured at the
+    entering condition. The humidity ratio defaults to 0 (dry air), which
+    matches the "standard air" of the 1.08 × cfm × ΔT°F rule of thumb.
+    """
+    q = _airflow("airflow_m3s", airflow_m3s)
+    t_in = v.air_temperature("t_in_c", t_in_c, label="entering air temperature")
+    t_out = v.air_temperature("t_out_c", t_out_c, label="leaving air temperature")
+    p = v.pressure("pressure_pa", pressure_pa)
+    w = _w("humidity_ratio", humidity_ratio)
+    m = _dry_air_mass_flow(q, t_in, w, p)
+    return m * (CP_DRY_AIR_J_PER_KG_K + w * CP_WATER_VAPOUR_J_PER_KG_K) * (t_out - t_in)
+
+
+def latent_heat_w(
+    *,
+    airflow_m3s: float,
+    humidity_ratio_in: float,
+    humidity_ratio_out: float,
+    t_in_c: float,
+    t_out_c: float,
+    pressure_pa: float = STANDARD_PRESSURE_PA,
+) -> float:
+    """Latent heat added to an air stream, W (negative when a coil dehumidifies).
+
+    q_l = ṁ_da (W_out − W_in)(2501 + 1.86 t_out) kJ/kg — the vapour part of
+    ASHRAE Handbook—Fundamentals 2017 ch.1 eq. 32. Together with
+    ``sensible_heat_w`` at W = W_in the two add up exactly to ṁ_da Δh.
+    """
+    q = _airflow("airflow_m3s", airflow_m3s)
+    w_in = _w("humidity_ratio_in", humidity_ratio_in)
+    w_out = _w("humidity_ratio_out", humidity_ratio_out)
+    t_in = v.air_temperature("t_in_c", t_in_c, label="entering air temperature")
+    t_out = v.air_temperature("t_out_c", t_out_c, label="leaving air temperature")
+    p = v.pressure("pressure_pa", pressure_pa)
+    m = _dry_air_mass_flow(q, t_in, w_in, p)
+    return m * (w_out - w_in) * (H_FG_0C_J_PER_KG + CP_WATER_VAPOUR_J_PER_KG_K * t_out)
+
+
+def total_heat_w(*, airflow_m3s: float, state_in: AirState, state_out: AirState) -> AirHeat:
+    """Sensible, latent and total heat added to an air stream, W.
+
+    q_t = ṁ_da (h_out − h_in) (ASHRAE Handbook—Fundamentals 2017 ch.1 eq. 32
+    enthalpies), ṁ_da = V / v_in; split into sensible and latent parts as in
+    ``sensible_heat_w`` and ``latent_heat_w`` so that the parts sum to the total.
+    """
+    for name, state in (("state_in", state_in), ("state_out", state_out)):
+        if not isinstance(state, AirState):
+            raise EngineeringInputError(
+                field=name, value=state, allowed="an AirState from air_state()",
+                message=f"{name}={state!r} is not an AirState from air_state()",
+            )
+    q = _airflow("airflow_m3s", airflow_m3s)
+    m = q / state_in.specific_volume_m3_per_kg
+    total = m * (state_out.enthalpy_j_per_kg - state_in.enthalpy_j_per_kg)
+    sensible = m * (
+        CP_DRY_AIR_J_PER_KG_K + state_in.humidity_ratio * CP_WATER_VAPOUR_J_PER_KG_K
+    ) * (state_out.dry_bulb_c - state_in.dry_bulb_c)
+    return AirHeat(sensible_w=sensible, latent_w=total - sensible, total_w=total)
+
+
+# Density (kg/m³) and specific heat (J/kg·K) by temperature (°C) at 300 kPa.
+# Water: IAPWS-95; glycols (mass fractions 20/30/40 %): Melinder, "Properties
+# of Secondary Working Fluids for Indirect Systems" (IIR, 2010). Both tabulated
+# with CoolProp 7.2 (PropsSI, "Water" and "INCOMP::MEG-/MPG-xx%"). ASHRAE
+# Handbook—Fundamentals ch.31 tabulates the same properties; these figures
+# were not cross-checked against its printed tables.
+# Rows: (temperature °C, density kg/m³, cp J/kg·K).
+FLUIDS: dict[str, tuple[tuple[float, float, float], ...]] = {
+    "water": (
+        (0.0, 999.9, 4218),
+        (10.0, 999.8, 4194),
+        (20.0, 998.3, 4183),
+        (30.0, 995.7, 4179),
+        (40.0, 992.3, 4179),
+        (50.0, 988.1, 4181),
+        (60.0, 983.3, 4185),
+        (70.0, 977.9, 4190),
+        (80.0, 971.9, 4196),
+        (90.0, 965.4, 4205),
+        (100.0, 958.4, 4215),
+    ),
+    "ethylene_glycol_20": (
+        (-5.0, 1029.8, 3852),
+        (0.0, 1029.1, 3861),
+        (10.0, 1026.9, 3878),
+        (20.0, 1024.1, 3896),
+        (30.0, 1020.6, 3914),
+        (40.0, 1016.4, 3933),
+        (50.0, 1011.6, 3951),
+        (60.0, 1006.2, 3969),
+        (70.0, 1000.2, 3987),
+        (80.0, 993.8, 4005),
+        (90.0, 986.8, 4022),
+    ),
+    "ethylene_glycol_30": (
+        (-10.0, 1047.5, 3627),
+        (0.0, 1045.0, 3658),
+        (10.0, 1041.8, 3689),
+        (20.0, 1038.0, 3718),
+        (30.0, 1033.7, 3747),
+        (40.0, 1028.8, 3775),
+        (50.0, 1023.4, 3803),
+        (60.0, 1017.5, 3829),
+        (70.0, 1011.1, 3854),
+        (80.0, 1004.3, 3878),
+        (90.0, 997.0, 3900),
+    ),
+    "ethylene_glycol_40": (
+        (-20.0, 1066.7, 3344),
+        (-10.0, 1063.8, 3390),
+        (0.0, 1060.4, 3434),
+        (10.0, 1056.4, 3477),
+        (20.0, 1051.9, 3519),
+        (30.0, 1046.8, 3559),
+        (40.0, 1041.4, 3598),
+        (50.0, 1035.4, 3635),
+        (60.0, 1029.1, 3670),
+        (70.0, 1022.4, 3703),
+        (80.0, 1015.4, 3734),
+        (90.0, 1008.1, 3763),
+    ),
+    "propylene_glycol_20": (
+        (-5.0, 1020.8, 3926),
+        (0.0, 1020.1, 3936),
+        (10.0, 1017.9, 3956),
+        (20.0, 1014.8, 3977),
+        (30.0, 1010.9, 3998),
+        (40.0, 1006.4, 4019),
+        (50.0, 1001.2, 4040),
+        (60.0, 995.6, 4061),
+        (70.0, 989.5, 4082),
+        (80.0, 983.2, 4102),
+        (90.0, 976.6, 4121),
+    ),
+    "propylene_glycol_30": (
+        (-10.0, 1034.3, 3775),
+        (0.0, 1031.6, 3803),
+        (10.0, 1028.0, 3830),
+        (20.0, 1023.8, 3857),
+        (30.0, 1018.9, 3884),
+        (40.0, 1013.4, 3910),
+        (50.0, 1007.5, 3937),
+        (60.0, 1001.2, 3962),
+        (70.0, 994.5, 3988),
+        (80.0, 987.6, 4012),
+        (90.0, 980.5, 4036),
+    ),
+    "propylene_glycol_40": (
+        (-20.0, 1049.7, 3575),
+        (-10.0, 1046.4, 3609),
+        (0.0, 1042.4, 3642),
+        (10.0, 1037.6, 3674),
+        (20.0, 1032.3, 3707),
+        (30.0, 1026.4, 3739),
+        (40.0, 1020.1, 3771),
+        (50.0, 1013.3, 3802),
+        (60.0, 1006.3, 3834),
+        (70.0, 999.1, 3865),
+        (80.0, 991.6, 3896),
+        (90.0, 984.1, 3926),
+    ),
+}
+
+
+def fluid_properties(*, fluid: str, temperature_c: float) -> tuple[float, float]:
+    """(density kg/m³, specific heat J/kg·K) of a coil fluid, linearly
+    interpolated in the ``FLUIDS`` table (sources given there)."""
+    name = v.choice("fluid", fluid, FLUIDS)
+    rows = FLUIDS[name]
+    t = v.in_range(
+        "temperature_c", temperature_c, rows[0][0], rows[-1][0], unit="°C",
+        label=f"{name.replace('_', ' ')} temperature",
+    )
+    for (t0, d0, c0), (t1, d1, c1) in zip(rows, rows[1:], strict=False):
+        if t <= t1:
+            f = (t - t0) / (t1 - t0)
+            return d0 + f * (d1 - d0), c0 + f * (c1 - c0)
+    return rows[-1][1], rows[-1][2]
+
+
+def water_side_heat_w(
+    *,
+    t_supply_c: float,
+    t_return_c: float,
+    flow_m3s: float | None = None,
+    flow_l_s: float | None = None,
+    fluid: str = "water",
+) -> float:
+    """Heat picked up by the coil fluid, W (positive on a cooling coil).
+
+    q = ρ V c_p (t_return − t_supply), with ρ and c_p at the mean fluid
+    temperature from ``FLUIDS`` (IAPWS-95 / Melinder 2010 via CoolProp).
+    The flow is volumetric as a flow meter or balancing valve reports it;
+    give either flow_m3s or flow_l_s.
+    """
+    if (flow_m3s is None) == (flow_l_s is None):
+        raise EngineeringInputError(
+            field="flow_m3s", value=(flow_m3s, flow_l_s), allowed="exactly one of flow_m3s, flow_l_s",
+            message="give exactly one of flow_m3s, flow_l_s",
+        )
+    if flow_m3s is not None:
+        q = v.in_range("flow_m3s", flow_m3s, 0.0, 1.0, unit="m³/s", label="fluid flow")
+    else:
+        q = v.in_range("flow_l_s", flow_l_s, 0.0, 1000.0, unit="L/s", label="fluid flow") / 1000.0
+    name = v.choice("fluid", fluid, FLUIDS)
+    lo, hi = FLUIDS[name][0][0], FLUIDS[name][-1][0]
+    label = name.replace("_", " ")
+    ts = v.in_range("t_supply_c", t_supply_c, lo, hi, unit="°C", label=f"{label} supply temperature")
+    tr = v.in_range("t_return_c", t_return_c, lo, hi, unit="°C", label=f"{label} return temperature")
+    rho, cp = fluid_properties(fluid=name, temperature_c=(ts + tr) / 2.0)
+    return rho * q * cp * (tr - ts)
+
+
+@dataclass(frozen=True)
+class CoilBalance:
+    difference_pct: float  # (|air| − |water|) / mean magnitude × 100
+    verdict: Verdict
+    reason: str
+
+
+def coil_balance(
+    *, air_side_w: float, water_side_w: float, tolerance_pct: float = 10.0
+) -> CoilBalance:
+    """Compare air-side and water-side heat of one coil.
+
+    difference = (|q_air| − |q_water|) / ((|q_air| + |q_water|)/2) × 100 %.
+    OK within tolerance_pct, WATCH within twice it, FAIL beyond. The 10 %
+    default is common practice for field readings with portable instruments
+    (no published source). Signs are ignored because the two sides carry
+    opposite signs under this module's conventions.
+    """
+    a = abs(v.finite("air_side_w", air_side_w))
+    w = abs(v.finite("water_side_w", water_side_w))
+    tol = v.positive("tolerance_pct", tolerance_pct, unit="%")
+    mean = (a + w) / 2.0
+    if mean < 1.0:
+        raise EngineeringInputError(
+            field="air_side_w", value=air_side_w, allowed="a heat flow of at least 1 W on one side",
+            message="air_side_w and water_side_w are both below 1 W: nothing to balance", low=1.0,
+            unit="W",
+        )
+    diff = (a - w) / mean * 100.0
+    d = round(abs(diff), 9)
+    verdict = Verdict.OK if d <= tol else Verdict.WATCH if d <= 2 * tol else Verdict.FAIL
+    which = "air side higher" if diff > 0 else "water side higher"
+    reason = (
+        f"air side {a / 1000:.1f} kW, water side {w / 1000:.1f} kW: {abs(diff):.1f} % apart "
+        f"({which}; ok within {tol:g} %, watch within {2 * tol:g} %)"
+    )
+    if not math.isfinite(diff):  # pragma: no cover - guarded by the mean check
+        raise EngineeringInputError(field="air_side_w", value=air_side_w, allowed="finite")
+    return CoilBalance(difference_pct=diff, verdict=verdict, reason=reason)
