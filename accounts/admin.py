@@ -1,7 +1,7 @@
 from django.contrib import admin
 from django.contrib.auth.admin import UserAdmin as BaseUserAdmin
 
-from .models import Membership, Organisation, SiteGrant, User
+from .models import AuditEvent, Membership, Organisation, SiteGrant, User
 
 
 class MembershipInline(admin.TabularInline):
@@ -34,3 +34,16 @@ class OrganisationAdmin(admin.ModelAdmin):
 class MembershipAdmin(admin.ModelAdmin):
     list_display = ["user", "organisation", "role"]
     list_filter = ["role", "organisation"]
+
+
+@admin.register(AuditEvent)
+class AuditEventAdmin(admin.ModelAdmin):
+    list_display = ["at", "actor", "action", "object_type", "object_id"]
+    list_filter = ["action", "object_type"]
+    readonly_fields = [f.name for f in AuditEvent._meta.fields]
+
+    def has_change_permission(self, request, obj=None):
+        return False
+
+    def has_delete_permission(self, request, obj=None):
+        return False

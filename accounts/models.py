@@ -78,3 +78,24 @@ class SiteGrant(models.Model):
 
     def __str__(self) -> str:
         return f"{self.user} may see {self.site}"
+
+
+class AuditEvent(models.Model):
+    """One change to a record: who, when, what. Written by the action functions, never edited."""
+
+    actor = models.ForeignKey(User, on_delete=models.SET_NULL, null=True, blank=True, related_name="audit_events")
+    organisation = models.ForeignKey(
+        Organisation, on_delete=models.CASCADE, null=True, blank=True, related_name="audit_events"
+    )
+    at = models.DateTimeField(auto_now_add=True, db_index=True)
+    object_type = models.CharField(max_length=60, help_text="app_label.model")
+    object_id = models.CharField(max_length=64)
+    action = models.CharField(max_length=60)
+    changes = models.JSONField(default=dict, blank=True)
+
+    class Meta:
+        ordering = ["-at", "-id"]
+        indexes = [models.Index(fields=["object_type", "object_id"])]
+
+    def __str__(self) -> str:
+        return f"{self.at:%Y-%m-%d %H:%M} {self.actor} {self.action} {self.object_type}#{self.object_id}"

@@ -40,3 +40,17 @@ def api_token_issue(*, user: User) -> Token:
 def api_token_revoke(*, user: User) -> None:
     """Revoke the user's API token; the next request with it is refused."""
     Token.objects.filter(user=user).delete()
+
+
+def audit_record(*, actor, obj, action: str, changes: dict | None = None, organisation=None) -> None:
+    """Append one event to the audit trail. Call it inside the same transaction as the change."""
+    from .models import AuditEvent
+
+    AuditEvent.objects.create(
+        actor=actor if getattr(actor, "is_authenticated", False) else None,
+        organisation=organisation,
+        object_type=obj._meta.label_lower,
+        object_id=str(obj.pk),
+        action=action,
+        changes=changes or {},
+    )
