@@ -1,0 +1,361 @@
+"""Air-filter pressure drop: correction to design airflow, loading, forecast
+of the day the final pressure drop is reached, and the energy cost of a
+loaded filter.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+from datetime import date, datetime, timedelta
+
+from engineering import _validate as v
+from engineering.controls import Verdict
+from engineering.errors import EngineeringInputError, InsufficientDataError
+from engineering.trends import _as_datetime, robust_rate, run_hours_per_day
+
+__all__ = [
+    "DEFAULT_EXPONENT",
+    "FilterPoint",
+    "FilterLoading",
+    "FilterForecast",
+    "FilterEnergy",
+    "EconomicChangePoint",
+    "corrected_pressure_drop",
+    "filter_loading",
+    "filter_forecast",
+    "filter_extra_energy",
+    "economic_change_point",
+]
+
+# Pressure drop across a filter grows as Q^n with n between 1 (viscous flow
+# through the media, Darcy's law) and 2 (turbulent losses in frame and
+# pleats). 1.5 is a common-practice middle; use a maker's curve fit when
+# known.
+DEFAULT_EXPONENT = 1.5
+# Correcting from far off design amplifies any error in n, so readings taken
+# below half or above 1.5 × design airflow are refused (common practice).
+AIRFLOW_RATIO = (0.5, 1.5)
+FILTER_DP_PA = (0.0, 2_500.0)
+
+
+def _exponent(value: object) -> float:
+    return v.in_range("exponent", value, 1.0, 2.0, label="pressure-drop exponent")
+
+
+def _dp(name: str, value: object, label: str = "filter pressure drop") -> float:
+    return v.in_range(name, value, *FILTER_DP_PA, unit="Pa", label=label)
+
+
+def _ratio(airflow_m3s: float, design_airflow_m3s: float, name: str = "airflow_m3s") -> float:
+    lo, hi = AIRFLOW_RATIO
+    q = v.in_range(name, airflow_m3s, 0.0, 100.0, unit="m³/s", label="airflow", low_open=True)
+    qd = v.in_range("design_airflow_m3s", design_airflow_m3s, 0.0, 100.0, unit="m³/s",
+                    label="design airflow", low_open=True)
+    r = q / qd
+    if not lo <= r <= hi:
+        raise EngineeringInputError(
+            field=name,
+            value=q,
+            allowed=f"{lo:g}–{hi:g} × design airflow ({lo * qd:.3g}–{hi * qd:.3g} m³/s)",
+            message=(
+                f"airflow {name}={v.fmt(q)} is outside {lo * qd:.3g}–{hi * qd:.3g} m³/s "
+                f"({lo:g}–{hi:g} × design {v.fmt(qd)} m³/s): too far from design to correct "
+                "the pressure drop reliably"
+            ),
+            low=lo * qd,
+            high=hi * qd,
+            unit="m³/s",
+        )
+    return r
+
+
+def corrected_pressure_drop(
+    *, dp_pa: float, airflow_m3s: float, design_airflow_m3s: float,
+    exponent: float = DEFAULT_EXPONENT,
+) -> float:
+    """Pressure drop corrected to design airflow, Pa.
+
+    Δp_design = Δp × (Q_design / Q)^n, n = 1.5 by default (between Darcy
+    flow, n = 1, and the square law, n = 2; common practice). Readings taken
+    outside 0.5–1.5 × design airflow are refused.
+    """
+    dp = _dp("dp_pa", dp_pa)
+    n = _exponent(exponent)
+    r = _ratio(airflow_m3s, design_airflow_m3s)
+    return dp * r ** (-n)
+
+
+@dataclass(frozen=True)
+class FilterLoading:
+    corrected_dp_pa: float
+    fraction_of_span: float  # 0 = clean, 1 = final pressure drop
+    verdict: Verdict
+    reason: str
+
+
+def filter_loading(
+    *,
+    dp_pa: float,
+    airflow_m3s: float,
+    design_airflow_m3s: float,
+    clean_dp_pa: float,
+    final_dp_pa: float,
+    exponent: float = DEFAULT_EXPONENT,
+    watch_fraction: float = 0.75,
+    fail_fraction: float = 0.95,
+) -> FilterLoading:
+    """How far a filter has loaded between its clean and final pressure drop.
+
+    fraction = (Δp_corrected − Δp_clean) / (Δp_final − Δp_clean). WATCH at
+    ≥ 0.75 and FAIL at ≥ 0.95 of that span by default (common practice: plan
+    the change at three quarters, change before the final value).
+    """
+    corrected = corrected_pressure_drop(
+        dp_pa=dp_pa, airflow_m3s=airflow_m3s, design_airflow_m3s=design_airflow_m3s,
+        exponent=exponent,
+    )
+    clean = _dp("clean_dp_pa", clean_dp_pa, "clean filter pressure drop")
+    final = _dp("final_dp_pa", final_dp_pa, "final filter pressure drop")
+    if final <= clean:
+        raise EngineeringInputError(
+            field="final_dp_pa", value=final, allowed=f"above clean_dp_pa={v.fmt(clean)} Pa",
+            message=(f"final filter pressure drop final_dp_pa={v.fmt(final)} is outside above "
+                     f"clean_dp_pa={v.fmt(clean)} Pa"),
+            low=clean, unit="Pa",
+        )
+    wf = v.in_range("watch_fraction", watch_fraction, 0.0, 1.0)
+    ff = v.in_range("fail_fraction", fail_fraction, wf, 1.5)
+    frac = (corrected - clean) / (final - clean)
+    f = round(frac, 9)
+    verdict = Verdict.FAIL if f >= ff else Verdict.WATCH if f >= wf else Verdict.OK
+    reason = (
+        f"filter {corrected:.0f} Pa at design airflow, {frac * 100:.0f} % of the way from clean "
+        f"{clean:.0f} Pa to final {final:.0f} Pa (watch from {wf * 100:.0f} %, fail from "
+        f"{ff * 100:.0f} %)"
+    )
+    return FilterLoading(corrected_dp_pa=corrected, fraction_of_span=frac, verdict=verdict,
+                         reason=reason)
+
+
+@dataclass(frozen=True)
+class FilterPoint:
+    run_hours: float
+    dp_pa: float
+    airflow_m3s: float
+    when: date | datetime
+
+
+@dataclass(frozen=True)
+class FilterForecast:
+    run_hours_at_final: float
+    date_at_final: date | datetime | None  # None when no run-hour rate is known
+    run_hours_low: float  # earliest plausible (steepest slope of the interval)
+    run_hours_high: float | None  # latest plausible; None if the slope may be ~0
+    date_low: date | datetime | None
+    date_high: date | datetime | None
+    rate_pa_per_hour: float
+    rate_low_pa_per_hour: float
+    rate_high_pa_per_hour: float
+    hours_per_day: float | None
+    points_used: int
+    method: str
+
+
+def filter_forecast(
+    *,
+    points: Sequence[FilterPoint],
+    design_airflow_m3s: float,
+    final_dp_pa: float,
+    hours_per_day: float | None = None,
+    exponent: float = DEFAULT_EXPONENT,
+    confidence: float = 0.9,
+    min_rise_pa: float = 2.0,
+) -> FilterForecast:
+    """Run-hours and date at which the filter reaches its final pressure drop.
+
+    Each reading is corrected to design airflow (``corrected_pressure_drop``),
+    then a Theil–Sen line Δp(run-hours) is fitted (scipy.stats.theilslopes,
+    Sen's ``confidence`` interval for the band) and extrapolated to
+    final_dp_pa. Readings whose airflow is too far from design are skipped.
+    Run-hours become a date with ``hours_per_day`` or, if not given, the
+    Theil–Sen run-hour rate of the readings themselves.
+
+    Refuses (InsufficientDataError) with fewer than 3 usable readings, fewer
+    than 2 distinct run-hour values, or a flat or falling trend (slope ≤ 0,
+    or a fitted rise over the readings below min_rise_pa = 2 Pa, about a
+    gauge's resolution: common practice). Pass only readings since the last
+    filter change.
+    """
+    final = _dp("final_dp_pa", final_dp_pa, "final filter pressure drop")
+    n = _exponent(exponent)
+    min_rise = v.non_negative("min_rise_pa", min_rise_pa, unit="Pa")
+    hpd = None if hours_per_day is None else v.in_range(
+        "hours_per_day", hours_per_day, 0.0, 24.0, unit="h", label="run-hours per day",
+        low_open=True)
+    usable: list[tuple[float, float, date | datetime]] = []
+    for i, p in enumerate(points):
+        if not isinstance(p, FilterPoint):
+            raise EngineeringInputError(
+                field=f"points[{i}]", value=p, allowed="a FilterPoint",
+                message=f"points[{i}]={p!r} is not a FilterPoint",
+            )
+        h = v.non_negative(f"points[{i}].run_hours", p.run_hours, unit="h", label="run-hours")
+        try:
+            dp = corrected_pressure_drop(dp_pa=p.dp_pa, airflow_m3s=p.airflow_m3s,
+                                         design_airflow_m3s=design_airflow_m3s, exponent=n)
+        except EngineeringInputError as exc:
+            if exc.field != "airflow_m3s":
+                raise
+            continue
+        usable.append((h, dp, p.when))
+    if len(usable) < 3:
+        raise InsufficientDataError(
+            field="points", value=len(usable), allowed="at least 3 usable readings",
+            message=(f"a filter forecast needs at least 3 usable readings (airflow within "
+                     f"{AIRFLOW_RATIO[0]:g}–{AIRFLOW_RATIO[1]:g} × design); got {len(usable)}"),
+            low=3,
+        )
+    hours = [u[0] for u in usable]
+    if len(set(hours)) < 2:
+        raise InsufficientDataError(
+            field="points", value=hours[0], allowed="readings at 2 or more run-hour values",
+            message="all readings are at the same run-hours: no trend can be drawn",
+        )
+    rate = robust_rate(points=[(h, dp) for h, dp, _ in usable], confidence=confidence)
+    rise = rate.slope * (max(hours) - min(hours))
+    if rate.slope <= 0 or rise < min_rise:
+        raise InsufficientDataError(
+            field="points", value=rate.slope, allowed="a rising pressure drop",
+            message=(f"the pressure drop is not rising (trend {rate.slope:.3g} Pa per run-hour, "
+                     f"{rise:.1f} Pa over the readings; at least {min_rise:g} Pa needed): "
+                     "no forecast can be made"),
+            low=min_rise, unit="Pa",
+        )
+    at_final = rate.x_at(final)
+    early = rate.x_at(final, rate.high)
+    late = rate.x_at(final, rate.low) if rate.low > 0 else None
+
+    last_h, _, last_when = max(usable, key=lambda u: u[0])
+    if hpd is None:
+        try:
+            per_day = run_hours_per_day(readings=[(w, h) for h, _, w in usable])
+            hpd = per_day.slope if per_day.slope > 0 else None
+        except InsufficientDataError:
+            hpd = None
+
+    def to_date(h: float | None) -> date | datetime | None:
+        if h is None or hpd is None:
+            return None
+        dt = _as_datetime(last_when) + timedelta(days=(h - last_h) / hpd)
+        return dt if isinstance(last_when, datetime) else dt.date()
+
+    return FilterForecast(
+        run_hours_at_final=at_final,
+        date_at_final=to_date(at_final),
+        run_hours_low=early,
+        run_hours_high=late,
+        date_low=to_date(early),
+        date_high=to_date(late),
+        rate_pa_per_hour=rate.slope,
+        rate_low_pa_per_hour=rate.low,
+        rate_high_pa_per_hour=rate.high,
+        hours_per_day=hpd,
+        points_used=len(usable),
+        method=(f"Theil–Sen line of pressure drop corrected to design airflow (n={n:g}) "
+                f"against run-hours, {confidence * 100:.0f} % interval"),
+    )
+
+
+@dataclass(frozen=True)
+class FilterEnergy:
+    mean_extra_dp_pa: float
+    extra_energy_wh: float
+    extra_cost: float | None
+
+
+def filter_extra_energy(
+    *,
+    airflow_m3s: float,
+    clean_dp_pa: float,
+    final_dp_pa: float,
+    run_hours: float,
+    fan_system_efficiency: float,
+    price_per_kwh: float | None = None,
+) -> FilterEnergy:
+    """Extra fan energy over one filter life caused by its pressure rise.
+
+    E = Q · Δp_mean,extra · t / η with Δp rising linearly from clean to final,
+    so Δp_mean,extra = (Δp_final − Δp_clean)/2. Fan electric power = QΔp/η
+    (ASHRAE Handbook—HVAC Systems and Equipment, Fans chapter); the
+    linear-rise average is the approach of Eurovent 4/21's filter energy
+    rating (from memory). η is fan × motor × drive efficiency.
+    """
+    q = v.in_range("airflow_m3s", airflow_m3s, 0.0, 100.0, unit="m³/s", label="airflow")
+    clean = _dp("clean_dp_pa", clean_dp_pa, "clean filter pressure drop")
+    final = v.in_range("final_dp_pa", final_dp_pa, clean, FILTER_DP_PA[1], unit="Pa",
+                       label="final filter pressure drop")
+    t = v.non_negative("run_hours", run_hours, unit="h", label="run-hours")
+    eta = v.efficiency("fan_system_efficiency", fan_system_efficiency, "fan system efficiency")
+    extra = (final - clean) / 2.0
+    wh = q * extra * t / eta
+    cost = None
+    if price_per_kwh is not None:
+        cost = wh / 1000.0 * v.non_negative("price_per_kwh", price_per_kwh, label="energy price")
+    return FilterEnergy(mean_extra_dp_pa=extra, extra_energy_wh=wh, extra_cost=cost)
+
+
+@dataclass(frozen=True)
+class EconomicChangePoint:
+    run_hours: float  # since the last change
+    extra_cost_at_point: float
+    limited_by_final_dp: bool
+    reason: str
+
+
+def economic_change_point(
+    *,
+    rate_pa_per_hour: float,
+    airflow_m3s: float,
+    fan_system_efficiency: float,
+    price_per_kwh: float,
+    filter_set_cost: float,
+    clean_dp_pa: float | None = None,
+    final_dp_pa: float | None = None,
+) -> EconomicChangePoint:
+    """Run-hours since the last change at which the cumulative extra energy
+    cost equals the cost of a new set of filters (material plus labour).
+
+    With Δp rising linearly at rate r, the extra cost after t hours is
+    C(t) = price · Q r t² / (2 η · 1000), so C(t*) = K gives
+    t* = √(2 η K · 1000 / (price · Q · r)). For a linear rise this is also
+    the interval minimising total cost per run-hour (elementary calculus;
+    common practice in filter life-cycle costing). If clean and final Δp are
+    given and the final Δp is reached first, the final Δp governs.
+    """
+    r = v.positive("rate_pa_per_hour", rate_pa_per_hour, unit="Pa/h", label="pressure-drop rate")
+    q = v.positive("airflow_m3s", airflow_m3s, unit="m³/s", label="airflow")
+    eta = v.efficiency("fan_system_efficiency", fan_system_efficiency, "fan system efficiency")
+    price = v.positive("price_per_kwh", price_per_kwh, label="energy price")
+    k = v.positive("filter_set_cost", filter_set_cost, label="filter set cost")
+    t = math.sqrt(2.0 * eta * k * 1000.0 / (price * q * r))
+    limited = False
+    reason = (f"extra fan energy costs as much as a new set ({k:g}) after {t:,.0f} run-hours")
+    if (clean_dp_pa is None) != (final_dp_pa is None):
+        raise EngineeringInputError(
+            field="final_dp_pa", value=final_dp_pa, allowed="both clean_dp_pa and final_dp_pa, or neither",
+            message="give both clean_dp_pa and final_dp_pa, or neither",
+        )
+    if clean_dp_pa is not None and final_dp_pa is not None:
+        clean = _dp("clean_dp_pa", clean_dp_pa, "clean filter pressure drop")
+        final = v.in_range("final_dp_pa", final_dp_pa, clean, FILTER_DP_PA[1], unit="Pa",
+                           label="final filter pressure drop", low_open=True)
+        t_final = (final - clean) / r
+        if t_final < t:
+            t, limited = t_final, True
+            reason = (f"final pressure drop {final:.0f} Pa is reached after {t:,.0f} run-hours, "
+                      "before the energy cost would pay for a new set")
+    cost = price * q * r * t * t / (2.0 * eta * 1000.0)
+    return EconomicChangePoint(run_hours=t, extra_cost_at_point=cost, limited_by_final_dp=limited,
+                               reason=reason)

@@ -1,0 +1,210 @@
+"""Ventilation requirement (ASHRAE 62.1 ventilation rate procedure) and the
+steady-state CO2 method of ASTM D6245.
+
+Table values below are from memory of ANSI/ASHRAE Standard 62.1-2019,
+Table 6-1 "Minimum Ventilation Rates in Breathing Zone" (SI edition), whose
+figures for these space kinds are unchanged since 62.1-2004. Verify against
+the printed standard adopted by the local code before relying on them.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from engineering import _validate as v
+from engineering.errors import EngineeringInputError
+
+__all__ = [
+    "SpaceKind",
+    "SPACE_KINDS",
+    "ZONE_AIR_DISTRIBUTION_EFFECTIVENESS",
+    "MET_LEVELS",
+    "CO2_GENERATION_OFFICE_L_S",
+    "breathing_zone_outdoor_airflow",
+    "zone_outdoor_airflow",
+    "co2_generation_for_activity",
+    "outdoor_air_per_person_from_co2",
+    "co2_differential_for_outdoor_air",
+]
+
+
+@dataclass(frozen=True)
+class SpaceKind:
+    label: str
+    rp_l_s_person: float  # people outdoor air rate Rp, L/s·person
+    ra_l_s_m2: float  # area outdoor air rate Ra, L/s·m²
+    default_occupants_per_100m2: float | None  # default occupant density
+    source: str
+
+
+_T61 = "ASHRAE 62.1-2019 Table 6-1 (from memory)"
+
+SPACE_KINDS: dict[str, SpaceKind] = {
+    "office": SpaceKind("Office space", 2.5, 0.3, 5, _T61),
+    "reception": SpaceKind("Reception area", 2.5, 0.3, 30, _T61),
+    "office_lobby": SpaceKind("Main entry lobby (office building)", 2.5, 0.3, 10, _T61),
+    "telephone_data_entry": SpaceKind("Telephone/data entry", 2.5, 0.3, 60, _T61),
+    "conference_room": SpaceKind("Conference/meeting room", 2.5, 0.3, 50, _T61),
+    "classroom_age_5_8": SpaceKind("Classroom (ages 5–8)", 5.0, 0.6, 25, _T61),
+    "classroom_age_9_plus": SpaceKind("Classroom (age 9 plus)", 5.0, 0.6, 35, _T61),
+    "lecture_classroom": SpaceKind("Lecture classroom", 3.8, 0.3, 65, _T61),
+    "lecture_hall": SpaceKind("Lecture hall (fixed seats)", 3.8, 0.3, 150, _T61),
+    "computer_lab": SpaceKind("Computer lab", 5.0, 0.6, 25, _T61),
+    "library": SpaceKind("Library", 2.5, 0.6, 10, _T61),
+    "retail_sales": SpaceKind("Sales (retail)", 3.8, 0.6, 15, _T61),
+    "supermarket": SpaceKind("Supermarket", 3.8, 0.3, 8, _T61),
+    "restaurant_dining": SpaceKind("Restaurant dining room", 3.8, 0.9, 70, _T61),
+    "cafeteria_fast_food": SpaceKind("Cafeteria/fast-food dining", 3.8, 0.9, 100, _T61),
+    "bar_lounge": SpaceKind("Bar, cocktail lounge", 3.8, 0.9, 100, _T61),
+    "health_club_aerobics": SpaceKind("Health club/aerobics room", 10.0, 0.3, 40, _T61),
+    "health_club_weights": SpaceKind("Health club/weight room", 10.0, 0.3, 10, _T61),
+    "hotel_bedroom": SpaceKind("Hotel bedroom/living room", 2.5, 0.3, 10, _T61),
+    "hotel_lobby": SpaceKind("Hotel lobby", 3.8, 0.3, 30, _T61),
+    "auditorium": SpaceKind("Auditorium seating area", 2.5, 0.3, 150, _T61),
+    "place_of_worship": SpaceKind("Place of religious worship", 2.5, 0.3, 120, _T61),
+    "museum_gallery": SpaceKind("Museum/gallery", 3.8, 0.3, 40, _T61),
+    "daycare": SpaceKind("Daycare (through age 4)", 5.0, 0.9, 25, _T61),
+    "corridor": SpaceKind("Corridor", 0.0, 0.3, None, _T61),
+}
+
+# Ez, ASHRAE 62.1-2019 section 6.2.2.2, "Zone Air Distribution
+# Effectiveness" table (Table 6-4 in 2016/2019, Table 6-2 in 2010; from
+# memory). "warm" means supply warmer than the space.
+ZONE_AIR_DISTRIBUTION_EFFECTIVENESS: dict[str, tuple[float, str]] = {
+    "ceiling_supply_cool": (1.0, "Ceiling supply of cool air"),
+    "ceiling_supply_warm_floor_return": (1.0, "Ceiling supply of warm air and floor return"),
+    "ceiling_supply_warm_8k_ceiling_return": (
+        0.8, "Ceiling supply of warm air 8 K (15 °F) or more above space and ceiling return"),
+    "ceiling_supply_warm_under_8k_ceiling_return": (
+        1.0, "Ceiling supply of warm air less than 8 K (15 °F) above space and ceiling return, "
+        "with the 0.8 m/s (150 fpm) jet reaching within 1.4 m (4.5 ft) of the floor"),
+    "floor_supply_cool_ceiling_return": (
+        1.0, "Floor supply of cool air and ceiling return, jet 0.8 m/s (150 fpm) reaching "
+        "1.4 m (4.5 ft) or more above the floor (underfloor air distribution)"),
+    "displacement_ventilation": (
+        1.2, "Floor supply of cool air and ceiling return, low-velocity displacement ventilation"),
+    "floor_supply_warm_floor_return": (1.0, "Floor supply of warm air and floor return"),
+    "floor_supply_warm_ceiling_return": (0.7, "Floor supply of warm air and ceiling return"),
+    "makeup_far_from_exhaust": (
+        0.8, "Makeup supply drawn in on the opposite side of the room from the exhaust/return"),
+    "makeup_near_exhaust": (0.5, "Makeup supply drawn in near the exhaust/return"),
+}
+
+# CO2 generation of an adult at about 1.2 met (sedentary office work):
+# 0.0052 L/s (0.31 L/min), the figure used with ASTM D6245 (from memory).
+CO2_GENERATION_OFFICE_L_S = 0.0052
+_OFFICE_MET = 1.2
+
+# Metabolic rates, ASHRAE Handbook—Fundamentals 2017 ch.9 Table 4 (from memory).
+MET_LEVELS: dict[str, float] = {
+    "seated_quiet": 1.0,
+    "reading_seated": 1.0,
+    "typing": 1.1,
+    "office_work": 1.2,
+    "filing_standing": 1.4,
+    "walking_about": 1.7,
+    "light_machine_work": 2.2,
+    "heavy_machine_work": 4.0,
+    "calisthenics": 3.5,
+}
+
+
+def breathing_zone_outdoor_airflow(
+    *, space_kind: str, floor_area_m2: float, occupants: float | None = None
+) -> float:
+    """Breathing-zone outdoor airflow Vbz = Rp·Pz + Ra·Az, in m³/s.
+
+    ASHRAE 62.1-2019 section 6.2.2.1, eq. 6-1, with Rp, Ra and the default
+    occupant density of Table 6-1 (``SPACE_KINDS``; from memory). Without
+    ``occupants`` the zone population Pz is the default density × Az.
+    """
+    kind = SPACE_KINDS[v.choice("space_kind", space_kind, SPACE_KINDS)]
+    az = v.in_range("floor_area_m2", floor_area_m2, 0.0, 1_000_000.0, unit="m²", label="floor area",
+                    low_open=True)
+    if occupants is None:
+        if kind.default_occupants_per_100m2 is None:
+            raise EngineeringInputError(
+                field="occupants", value=None, allowed="a number of people",
+                message=f"occupants is required for {kind.label}: the table gives no default density",
+            )
+        pz = kind.default_occupants_per_100m2 * az / 100.0
+    else:
+        pz = v.in_range("occupants", occupants, 0.0, 100_000.0, unit="people", label="occupants")
+    return (kind.rp_l_s_person * pz + kind.ra_l_s_m2 * az) / 1000.0
+
+
+def zone_outdoor_airflow(*, vbz: float, ez: float | str = 1.0) -> float:
+    """Zone outdoor airflow Voz = Vbz / Ez, m³/s.
+
+    ASHRAE 62.1-2019 section 6.2.2.3, eq. 6-2. ``ez`` is a number or a key
+    of ``ZONE_AIR_DISTRIBUTION_EFFECTIVENESS`` (section 6.2.2.2; from memory).
+    """
+    q = v.non_negative("vbz", vbz, unit="m³/s", label="breathing-zone outdoor airflow")
+    if isinstance(ez, str):
+        e = ZONE_AIR_DISTRIBUTION_EFFECTIVENESS[
+            v.choice("ez", ez, ZONE_AIR_DISTRIBUTION_EFFECTIVENESS)
+        ][0]
+    else:
+        e = v.in_range("ez", ez, 0.1, 2.0, label="zone air distribution effectiveness")
+    return q / e
+
+
+def co2_generation_for_activity(*, met: float | str) -> float:
+    """CO2 generation per person, L/s, scaled in proportion to metabolic rate
+    from 0.0052 L/s at 1.2 met (proportional scaling is common practice;
+    ASTM D6245 and ASHRAE 62.1 Appendix C relate generation to activity).
+    ``met`` is a number or a key of ``MET_LEVELS``."""
+    if isinstance(met, str):
+        m = MET_LEVELS[v.choice("met", met, MET_LEVELS)]
+    else:
+        m = v.in_range("met", met, 0.7, 10.0, unit="met", label="metabolic rate")
+    return CO2_GENERATION_OFFICE_L_S * m / _OFFICE_MET
+
+
+def outdoor_air_per_person_from_co2(
+    *,
+    co2_indoor_ppm: float,
+    co2_outdoor_ppm: float,
+    co2_generation_l_s_per_person: float = CO2_GENERATION_OFFICE_L_S,
+) -> float:
+    """Outdoor air per person from a steady-state indoor–outdoor CO2
+    difference, in m³/s per person.
+
+    Vo = N / (C_in − C_out), ASTM D6245 (steady-state mass balance). Valid
+    only once the space has reached steady state with constant occupancy
+    (roughly three time constants); otherwise it underestimates the
+    difference and overestimates the ventilation. With the default
+    N = 0.0052 L/s, 7.5 L/s per person gives about 700 ppm (from memory).
+    """
+    ci = v.co2("co2_indoor_ppm", co2_indoor_ppm)
+    co = v.co2("co2_outdoor_ppm", co2_outdoor_ppm)
+    n = v.in_range("co2_generation_l_s_per_person", co2_generation_l_s_per_person, 0.0, 0.1,
+                   unit="L/s", label="CO2 generation", low_open=True)
+    if ci - co <= 0:
+        raise EngineeringInputError(
+            field="co2_indoor_ppm",
+            value=ci,
+            allowed=f"above outdoor {v.fmt(co)} ppm",
+            message=(
+                f"CO2 concentration co2_indoor_ppm={v.fmt(ci)} must be above outdoor "
+                f"{v.fmt(co)} ppm for the steady-state method"
+            ),
+            low=co,
+            unit="ppm",
+        )
+    return (n / 1000.0) / ((ci - co) * 1e-6)
+
+
+def co2_differential_for_outdoor_air(
+    *,
+    outdoor_air_per_person_m3s: float,
+    co2_generation_l_s_per_person: float = CO2_GENERATION_OFFICE_L_S,
+) -> float:
+    """Steady-state indoor–outdoor CO2 difference, ppm, for a given outdoor
+    air per person: ΔC = N / Vo (ASTM D6245, inverse of
+    ``outdoor_air_per_person_from_co2``)."""
+    vo = v.in_range("outdoor_air_per_person_m3s", outdoor_air_per_person_m3s, 0.0, 1.0,
+                    unit="m³/s", label="outdoor air per person", low_open=True)
+    n = v.in_range("co2_generation_l_s_per_person", co2_generation_l_s_per_person, 0.0, 0.1,
+                   unit="L/s", label="CO2 generation", low_open=True)
+    return (n / 1000.0) / vo * 1e6
