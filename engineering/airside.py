@@ -11,6 +11,7 @@ magnitudes.
 
 from __future__ import annotations
 
+import itertools
 import math
 from dataclasses import dataclass
 
@@ -23,9 +24,9 @@ from engineering.errors import EngineeringInputError
 from engineering.psychro import STANDARD_PRESSURE_PA, AirState
 
 __all__ = [
+    "FLUIDS",
     "AirHeat",
     "CoilBalance",
-    "FLUIDS",
     "coil_balance",
     "fluid_properties",
     "latent_heat_w",
@@ -53,9 +54,7 @@ class AirHeat:
 
 
 def _airflow(name: str, value: object, *, strictly_positive: bool = False) -> float:
-    return v.in_range(
-        name, value, 0.0, AIRFLOW_MAX_M3S, unit="m³/s", label="airflow", low_open=strictly_positive
-    )
+    return v.in_range(name, value, 0.0, AIRFLOW_MAX_M3S, unit="m³/s", label="airflow", low_open=strictly_positive)
 
 
 def _w(name: str, value: object) -> float:
@@ -127,15 +126,19 @@ def total_heat_w(*, airflow_m3s: float, state_in: AirState, state_out: AirState)
     for name, state in (("state_in", state_in), ("state_out", state_out)):
         if not isinstance(state, AirState):
             raise EngineeringInputError(
-                field=name, value=state, allowed="an AirState from air_state()",
+                field=name,
+                value=state,
+                allowed="an AirState from air_state()",
                 message=f"{name}={state!r} is not an AirState from air_state()",
             )
     q = _airflow("airflow_m3s", airflow_m3s)
     m = q / state_in.specific_volume_m3_per_kg
     total = m * (state_out.enthalpy_j_per_kg - state_in.enthalpy_j_per_kg)
-    sensible = m * (
-        CP_DRY_AIR_J_PER_KG_K + state_in.humidity_ratio * CP_WATER_VAPOUR_J_PER_KG_K
-    ) * (state_out.dry_bulb_c - state_in.dry_bulb_c)
+    sensible = (
+        m
+        * (CP_DRY_AIR_J_PER_KG_K + state_in.humidity_ratio * CP_WATER_VAPOUR_J_PER_KG_K)
+        * (state_out.dry_bulb_c - state_in.dry_bulb_c)
+    )
     return AirHeat(sensible_w=sensible, latent_w=total - sensible, total_w=total)
 
 
@@ -249,10 +252,14 @@ def fluid_properties(*, fluid: str, temperature_c: float) -> tuple[float, float]
     name = v.choice("fluid", fluid, FLUIDS)
     rows = FLUIDS[name]
     t = v.in_range(
-        "temperature_c", temperature_c, rows[0][0], rows[-1][0], unit="°C",
+        "temperature_c",
+        temperature_c,
+        rows[0][0],
+        rows[-1][0],
+        unit="°C",
         label=f"{name.replace('_', ' ')} temperature",
     )
-    for (t0, d0, c0), (t1, d1, c1) in zip(rows, rows[1:], strict=False):
+    for (t0, d0, c0), (t1, d1, c1) in itertools.pairwise(rows):
         if t <= t1:
             f = (t - t0) / (t1 - t0)
             return d0 + f * (d1 - d0), c0 + f * (c1 - c0)
@@ -276,7 +283,9 @@ def water_side_heat_w(
     """
     if (flow_m3s is None) == (flow_l_s is None):
         raise EngineeringInputError(
-            field="flow_m3s", value=(flow_m3s, flow_l_s), allowed="exactly one of flow_m3s, flow_l_s",
+            field="flow_m3s",
+            value=(flow_m3s, flow_l_s),
+            allowed="exactly one of flow_m3s, flow_l_s",
             message="give exactly one of flow_m3s, flow_l_s",
         )
     if flow_m3s is not None:
@@ -299,9 +308,7 @@ class CoilBalance:
     reason: str
 
 
-def coil_balance(
-    *, air_side_w: float, water_side_w: float, tolerance_pct: float = 10.0
-) -> CoilBalance:
+def coil_balance(*, air_side_w: float, water_side_w: float, tolerance_pct: float = 10.0) -> CoilBalance:
     """Compare air-side and water-side heat of one coil.
 
     difference = (|q_air| − |q_water|) / ((|q_air| + |q_water|)/2) × 100 %.
@@ -316,8 +323,11 @@ def coil_balance(
     mean = (a + w) / 2.0
     if mean < 1.0:
         raise EngineeringInputError(
-            field="air_side_w", value=air_side_w, allowed="a heat flow of at least 1 W on one side",
-            message="air_side_w and water_side_w are both below 1 W: nothing to balance", low=1.0,
+            field="air_side_w",
+            value=air_side_w,
+            allowed="a heat flow of at least 1 W on one side",
+            message="air_side_w and water_side_w are both below 1 W: nothing to balance",
+            low=1.0,
             unit="W",
         )
     diff = (a - w) / mean * 100.0

@@ -8,19 +8,19 @@ template can set its own.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from enum import Enum
+from enum import StrEnum
 
 from engineering import _validate as v
 from engineering.errors import EngineeringInputError
 
 __all__ = [
-    "Verdict",
     "Check",
+    "Verdict",
     "band_check",
-    "supply_temperature_check",
-    "static_pressure_check",
     "damper_position_check",
     "sensor_drift_check",
+    "static_pressure_check",
+    "supply_temperature_check",
     "worst",
 ]
 
@@ -29,13 +29,10 @@ __all__ = [
 _ROUND = 9
 
 
-class Verdict(str, Enum):
+class Verdict(StrEnum):
     OK = "ok"
     WATCH = "watch"
     FAIL = "fail"
-
-    def __str__(self) -> str:
-        return self.value
 
 
 _RANK = {Verdict.OK: 0, Verdict.WATCH: 1, Verdict.FAIL: 2}
@@ -77,10 +74,7 @@ def _ordered_limits(watch_name: str, watch: float, fail_name: str, fail: float, 
             field=fail_name,
             value=fail,
             allowed=f"at least {watch_name}={v.fmt(watch)} {unit}".rstrip(),
-            message=(
-                f"{fail_name}={v.fmt(fail)} is outside at least "
-                f"{watch_name}={v.fmt(watch)} {unit}".rstrip()
-            ),
+            message=(f"{fail_name}={v.fmt(fail)} is outside at least {watch_name}={v.fmt(watch)} {unit}".rstrip()),
             low=watch,
         )
 
@@ -102,9 +96,7 @@ def band_check(
     """
     x = v.finite("value", value)
     lims = {}
-    for name, lim in (
-        ("watch_low", watch_low), ("ok_low", ok_low), ("ok_high", ok_high), ("watch_high", watch_high)
-    ):
+    for name, lim in (("watch_low", watch_low), ("ok_low", ok_low), ("ok_high", ok_high), ("watch_high", watch_high)):
         if lim is not None:
             lims[name] = v.finite(name, lim)
     wl = lims.get("watch_low", lims.get("ok_low"))
@@ -158,8 +150,7 @@ def supply_temperature_check(
     side = "above" if dev > 0 else "below"
     where = "at" if round(dev, 1) == 0 else f"{abs(dev):.1f} K {side}"
     reason = (
-        f"supply air {t:.1f} °C, {where} set point {sp:.1f} °C "
-        f"(watch above {watch:.1f} K, fail above {fail:.1f} K)"
+        f"supply air {t:.1f} °C, {where} set point {sp:.1f} °C (watch above {watch:.1f} K, fail above {fail:.1f} K)"
     )
     return Check(
         verdict=verdict,
@@ -176,7 +167,12 @@ def static_pressure_check(
     (defaults 10 % / 20 %: common practice, no published source)."""
     p = v.in_range("measured_pa", measured_pa, -5_000.0, 5_000.0, unit="Pa", label="static pressure")
     sp = v.in_range(
-        "setpoint_pa", setpoint_pa, 0.0, 5_000.0, unit="Pa", label="static pressure set point",
+        "setpoint_pa",
+        setpoint_pa,
+        0.0,
+        5_000.0,
+        unit="Pa",
+        label="static pressure set point",
         low_open=True,
     )
     watch = v.non_negative("watch_pct", watch_pct, unit="%")
@@ -266,7 +262,6 @@ def sensor_drift_check(
     return Check(
         verdict=verdict,
         value=s,
-        limits={"reference_value": ref, "allowed_error": allowed, "watch_error": frac * allowed,
-                "error": diff},
+        limits={"reference_value": ref, "allowed_error": allowed, "watch_error": frac * allowed, "error": diff},
         reason=reason,
     )

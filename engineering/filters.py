@@ -17,16 +17,16 @@ from engineering.trends import _as_datetime, robust_rate, run_hours_per_day
 
 __all__ = [
     "DEFAULT_EXPONENT",
-    "FilterPoint",
-    "FilterLoading",
-    "FilterForecast",
-    "FilterEnergy",
     "EconomicChangePoint",
+    "FilterEnergy",
+    "FilterForecast",
+    "FilterLoading",
+    "FilterPoint",
     "corrected_pressure_drop",
-    "filter_loading",
-    "filter_forecast",
-    "filter_extra_energy",
     "economic_change_point",
+    "filter_extra_energy",
+    "filter_forecast",
+    "filter_loading",
 ]
 
 # Pressure drop across a filter grows as Q^n with n between 1 (viscous flow
@@ -51,8 +51,9 @@ def _dp(name: str, value: object, label: str = "filter pressure drop") -> float:
 def _ratio(airflow_m3s: float, design_airflow_m3s: float, name: str = "airflow_m3s") -> float:
     lo, hi = AIRFLOW_RATIO
     q = v.in_range(name, airflow_m3s, 0.0, 100.0, unit="m³/s", label="airflow", low_open=True)
-    qd = v.in_range("design_airflow_m3s", design_airflow_m3s, 0.0, 100.0, unit="m³/s",
-                    label="design airflow", low_open=True)
+    qd = v.in_range(
+        "design_airflow_m3s", design_airflow_m3s, 0.0, 100.0, unit="m³/s", label="design airflow", low_open=True
+    )
     r = q / qd
     if not lo <= r <= hi:
         raise EngineeringInputError(
@@ -72,7 +73,10 @@ def _ratio(airflow_m3s: float, design_airflow_m3s: float, name: str = "airflow_m
 
 
 def corrected_pressure_drop(
-    *, dp_pa: float, airflow_m3s: float, design_airflow_m3s: float,
+    *,
+    dp_pa: float,
+    airflow_m3s: float,
+    design_airflow_m3s: float,
     exponent: float = DEFAULT_EXPONENT,
 ) -> float:
     """Pressure drop corrected to design airflow, Pa.
@@ -113,17 +117,23 @@ def filter_loading(
     the change at three quarters, change before the final value).
     """
     corrected = corrected_pressure_drop(
-        dp_pa=dp_pa, airflow_m3s=airflow_m3s, design_airflow_m3s=design_airflow_m3s,
+        dp_pa=dp_pa,
+        airflow_m3s=airflow_m3s,
+        design_airflow_m3s=design_airflow_m3s,
         exponent=exponent,
     )
     clean = _dp("clean_dp_pa", clean_dp_pa, "clean filter pressure drop")
     final = _dp("final_dp_pa", final_dp_pa, "final filter pressure drop")
     if final <= clean:
         raise EngineeringInputError(
-            field="final_dp_pa", value=final, allowed=f"above clean_dp_pa={v.fmt(clean)} Pa",
-            message=(f"final filter pressure drop final_dp_pa={v.fmt(final)} is outside above "
-                     f"clean_dp_pa={v.fmt(clean)} Pa"),
-            low=clean, unit="Pa",
+            field="final_dp_pa",
+            value=final,
+            allowed=f"above clean_dp_pa={v.fmt(clean)} Pa",
+            message=(
+                f"final filter pressure drop final_dp_pa={v.fmt(final)} is outside above clean_dp_pa={v.fmt(clean)} Pa"
+            ),
+            low=clean,
+            unit="Pa",
         )
     wf = v.in_range("watch_fraction", watch_fraction, 0.0, 1.0)
     ff = v.in_range("fail_fraction", fail_fraction, wf, 1.5)
@@ -135,8 +145,7 @@ def filter_loading(
         f"{clean:.0f} Pa to final {final:.0f} Pa (watch from {wf * 100:.0f} %, fail from "
         f"{ff * 100:.0f} %)"
     )
-    return FilterLoading(corrected_dp_pa=corrected, fraction_of_span=frac, verdict=verdict,
-                         reason=reason)
+    return FilterLoading(corrected_dp_pa=corrected, fraction_of_span=frac, verdict=verdict, reason=reason)
 
 
 @dataclass(frozen=True)
@@ -191,20 +200,25 @@ def filter_forecast(
     final = _dp("final_dp_pa", final_dp_pa, "final filter pressure drop")
     n = _exponent(exponent)
     min_rise = v.non_negative("min_rise_pa", min_rise_pa, unit="Pa")
-    hpd = None if hours_per_day is None else v.in_range(
-        "hours_per_day", hours_per_day, 0.0, 24.0, unit="h", label="run-hours per day",
-        low_open=True)
+    hpd = (
+        None
+        if hours_per_day is None
+        else v.in_range("hours_per_day", hours_per_day, 0.0, 24.0, unit="h", label="run-hours per day", low_open=True)
+    )
     usable: list[tuple[float, float, date | datetime]] = []
     for i, p in enumerate(points):
         if not isinstance(p, FilterPoint):
             raise EngineeringInputError(
-                field=f"points[{i}]", value=p, allowed="a FilterPoint",
+                field=f"points[{i}]",
+                value=p,
+                allowed="a FilterPoint",
                 message=f"points[{i}]={p!r} is not a FilterPoint",
             )
         h = v.non_negative(f"points[{i}].run_hours", p.run_hours, unit="h", label="run-hours")
         try:
-            dp = corrected_pressure_drop(dp_pa=p.dp_pa, airflow_m3s=p.airflow_m3s,
-                                         design_airflow_m3s=design_airflow_m3s, exponent=n)
+            dp = corrected_pressure_drop(
+                dp_pa=p.dp_pa, airflow_m3s=p.airflow_m3s, design_airflow_m3s=design_airflow_m3s, exponent=n
+            )
         except EngineeringInputError as exc:
             if exc.field != "airflow_m3s":
                 raise
@@ -212,26 +226,37 @@ def filter_forecast(
         usable.append((h, dp, p.when))
     if len(usable) < 3:
         raise InsufficientDataError(
-            field="points", value=len(usable), allowed="at least 3 usable readings",
-            message=(f"a filter forecast needs at least 3 usable readings (airflow within "
-                     f"{AIRFLOW_RATIO[0]:g}–{AIRFLOW_RATIO[1]:g} × design); got {len(usable)}"),
+            field="points",
+            value=len(usable),
+            allowed="at least 3 usable readings",
+            message=(
+                f"a filter forecast needs at least 3 usable readings (airflow within "
+                f"{AIRFLOW_RATIO[0]:g}–{AIRFLOW_RATIO[1]:g} × design); got {len(usable)}"
+            ),
             low=3,
         )
     hours = [u[0] for u in usable]
     if len(set(hours)) < 2:
         raise InsufficientDataError(
-            field="points", value=hours[0], allowed="readings at 2 or more run-hour values",
+            field="points",
+            value=hours[0],
+            allowed="readings at 2 or more run-hour values",
             message="all readings are at the same run-hours: no trend can be drawn",
         )
     rate = robust_rate(points=[(h, dp) for h, dp, _ in usable], confidence=confidence)
     rise = rate.slope * (max(hours) - min(hours))
     if rate.slope <= 0 or rise < min_rise:
         raise InsufficientDataError(
-            field="points", value=rate.slope, allowed="a rising pressure drop",
-            message=(f"the pressure drop is not rising (trend {rate.slope:.3g} Pa per run-hour, "
-                     f"{rise:.1f} Pa over the readings; at least {min_rise:g} Pa needed): "
-                     "no forecast can be made"),
-            low=min_rise, unit="Pa",
+            field="points",
+            value=rate.slope,
+            allowed="a rising pressure drop",
+            message=(
+                f"the pressure drop is not rising (trend {rate.slope:.3g} Pa per run-hour, "
+                f"{rise:.1f} Pa over the readings; at least {min_rise:g} Pa needed): "
+                "no forecast can be made"
+            ),
+            low=min_rise,
+            unit="Pa",
         )
     at_final = rate.x_at(final)
     early = rate.x_at(final, rate.high)
@@ -263,8 +288,10 @@ def filter_forecast(
         rate_high_pa_per_hour=rate.high,
         hours_per_day=hpd,
         points_used=len(usable),
-        method=(f"Theil–Sen line of pressure drop corrected to design airflow (n={n:g}) "
-                f"against run-hours, {confidence * 100:.0f} % interval"),
+        method=(
+            f"Theil–Sen line of pressure drop corrected to design airflow (n={n:g}) "
+            f"against run-hours, {confidence * 100:.0f} % interval"
+        ),
     )
 
 
@@ -294,8 +321,9 @@ def filter_extra_energy(
     """
     q = v.in_range("airflow_m3s", airflow_m3s, 0.0, 100.0, unit="m³/s", label="airflow")
     clean = _dp("clean_dp_pa", clean_dp_pa, "clean filter pressure drop")
-    final = v.in_range("final_dp_pa", final_dp_pa, clean, FILTER_DP_PA[1], unit="Pa",
-                       label="final filter pressure drop")
+    final = v.in_range(
+        "final_dp_pa", final_dp_pa, clean, FILTER_DP_PA[1], unit="Pa", label="final filter pressure drop"
+    )
     t = v.non_negative("run_hours", run_hours, unit="h", label="run-hours")
     eta = v.efficiency("fan_system_efficiency", fan_system_efficiency, "fan system efficiency")
     extra = (final - clean) / 2.0
@@ -341,21 +369,31 @@ def economic_change_point(
     k = v.positive("filter_set_cost", filter_set_cost, label="filter set cost")
     t = math.sqrt(2.0 * eta * k * 1000.0 / (price * q * r))
     limited = False
-    reason = (f"extra fan energy costs as much as a new set ({k:g}) after {t:,.0f} run-hours")
+    reason = f"extra fan energy costs as much as a new set ({k:g}) after {t:,.0f} run-hours"
     if (clean_dp_pa is None) != (final_dp_pa is None):
         raise EngineeringInputError(
-            field="final_dp_pa", value=final_dp_pa, allowed="both clean_dp_pa and final_dp_pa, or neither",
+            field="final_dp_pa",
+            value=final_dp_pa,
+            allowed="both clean_dp_pa and final_dp_pa, or neither",
             message="give both clean_dp_pa and final_dp_pa, or neither",
         )
     if clean_dp_pa is not None and final_dp_pa is not None:
         clean = _dp("clean_dp_pa", clean_dp_pa, "clean filter pressure drop")
-        final = v.in_range("final_dp_pa", final_dp_pa, clean, FILTER_DP_PA[1], unit="Pa",
-                           label="final filter pressure drop", low_open=True)
+        final = v.in_range(
+            "final_dp_pa",
+            final_dp_pa,
+            clean,
+            FILTER_DP_PA[1],
+            unit="Pa",
+            label="final filter pressure drop",
+            low_open=True,
+        )
         t_final = (final - clean) / r
         if t_final < t:
             t, limited = t_final, True
-            reason = (f"final pressure drop {final:.0f} Pa is reached after {t:,.0f} run-hours, "
-                      "before the energy cost would pay for a new set")
+            reason = (
+                f"final pressure drop {final:.0f} Pa is reached after {t:,.0f} run-hours, "
+                "before the energy cost would pay for a new set"
+            )
     cost = price * q * r * t * t / (2.0 * eta * 1000.0)
-    return EconomicChangePoint(run_hours=t, extra_cost_at_point=cost, limited_by_final_dp=limited,
-                               reason=reason)
+    return EconomicChangePoint(run_hours=t, extra_cost_at_point=cost, limited_by_final_dp=limited, reason=reason)

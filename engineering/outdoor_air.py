@@ -17,14 +17,14 @@ from engineering.controls import Check, Verdict
 from engineering.errors import IndeterminateError
 
 __all__ = [
+    "MAX_UNCERTAINTY",
+    "MIN_DIFFERENCE_K",
+    "MIN_DIFFERENCE_PPM",
     "OaFraction",
     "fraction_check",
     "oa_fraction_from_co2",
     "oa_fraction_from_temperatures",
     "outdoor_airflow_m3s",
-    "MIN_DIFFERENCE_K",
-    "MIN_DIFFERENCE_PPM",
-    "MAX_UNCERTAINTY",
 ]
 
 # Below these outdoor–return differences the fraction is dominated by sensor
@@ -88,9 +88,7 @@ def _fraction(
     x = (ret - mixed) / diff
     # ∂x/∂m = −1/(r−o); ∂x/∂o = (r−m)/(r−o)²; ∂x/∂r = (m−o)/(r−o)².
     u = math.sqrt(
-        (acc_m / diff) ** 2
-        + (acc_o * (ret - mixed) / diff**2) ** 2
-        + (acc_r * (mixed - outdoor) / diff**2) ** 2
+        (acc_m / diff) ** 2 + (acc_o * (ret - mixed) / diff**2) ** 2 + (acc_r * (mixed - outdoor) / diff**2) ** 2
     )
     if u >= max_uncertainty:
         raise IndeterminateError(
@@ -156,8 +154,17 @@ def oa_fraction_from_temperatures(
     mind = v.positive("min_difference_k", min_difference_k, unit="K")
     maxu = v.in_range("max_uncertainty", max_uncertainty, 0.0, 1.0, low_open=True)
     return _fraction(
-        method="temperature", unit="°C", diff_unit="K", outdoor=o, ret=r, mixed=m, acc_o=acc, acc_r=acc,
-        acc_m=acc, min_difference=mind, max_uncertainty=maxu,
+        method="temperature",
+        unit="°C",
+        diff_unit="K",
+        outdoor=o,
+        ret=r,
+        mixed=m,
+        acc_o=acc,
+        acc_r=acc,
+        acc_m=acc,
+        min_difference=mind,
+        max_uncertainty=maxu,
         names=("t_outdoor_c", "t_return_c", "t_mixed_c"),
     )
 
@@ -186,10 +193,10 @@ def oa_fraction_from_co2(
     o = v.co2("co2_outdoor_ppm", co2_outdoor_ppm)
     r = v.co2("co2_return_ppm", co2_return_ppm)
     m = v.co2("co2_supply_or_mixed_ppm", co2_supply_or_mixed_ppm)
-    acc = v.in_range("sensor_accuracy_ppm", sensor_accuracy_ppm, 0.0, 1000.0, unit="ppm",
-                     label="sensor accuracy")
-    pct = v.in_range("sensor_accuracy_pct_of_reading", sensor_accuracy_pct_of_reading, 0.0, 50.0,
-                     unit="%", label="sensor accuracy")
+    acc = v.in_range("sensor_accuracy_ppm", sensor_accuracy_ppm, 0.0, 1000.0, unit="ppm", label="sensor accuracy")
+    pct = v.in_range(
+        "sensor_accuracy_pct_of_reading", sensor_accuracy_pct_of_reading, 0.0, 50.0, unit="%", label="sensor accuracy"
+    )
     mind = v.positive("min_difference_ppm", min_difference_ppm, unit="ppm")
     maxu = v.in_range("max_uncertainty", max_uncertainty, 0.0, 1.0, low_open=True)
 
@@ -197,8 +204,17 @@ def oa_fraction_from_co2(
         return acc + pct / 100.0 * c
 
     return _fraction(
-        method="co2", unit="ppm", diff_unit="ppm", outdoor=o, ret=r, mixed=m, acc_o=a(o), acc_r=a(r), acc_m=a(m),
-        min_difference=mind, max_uncertainty=maxu,
+        method="co2",
+        unit="ppm",
+        diff_unit="ppm",
+        outdoor=o,
+        ret=r,
+        mixed=m,
+        acc_o=a(o),
+        acc_r=a(r),
+        acc_m=a(m),
+        min_difference=mind,
+        max_uncertainty=maxu,
         names=("co2_outdoor_ppm", "co2_return_ppm", "co2_supply_or_mixed_ppm"),
     )
 
@@ -207,8 +223,7 @@ def outdoor_airflow_m3s(*, fraction: float, supply_airflow_m3s: float) -> float:
     """Outdoor airflow V_oa = x_oa × V_supply, m³/s (definition of the fraction,
     assuming no leakage between the mixing box and the supply measurement)."""
     x = v.in_range("fraction", fraction, 0.0, 1.0, label="outdoor-air fraction")
-    q = v.in_range("supply_airflow_m3s", supply_airflow_m3s, 0.0, 100.0, unit="m³/s",
-                   label="supply airflow")
+    q = v.in_range("supply_airflow_m3s", supply_airflow_m3s, 0.0, 100.0, unit="m³/s", label="supply airflow")
     return x * q
 
 
@@ -234,7 +249,6 @@ def fraction_check(*, fraction: float, uncertainty: float, minimum: float) -> Ch
         Verdict.WATCH,
         x,
         limits,
-        f"cannot decide: {text} spans the minimum {mn * 100:.0f} %; "
-        "measure again when outdoor and return differ more",
+        f"cannot decide: {text} spans the minimum {mn * 100:.0f} %; measure again when outdoor and return differ more",
         decided=False,
     )

@@ -17,7 +17,7 @@ from engineering.errors import EngineeringInputError
 
 psychrolib.SetUnitSystem(psychrolib.SI)
 
-__all__ = ["AirState", "air_state", "pressure_from_altitude", "STANDARD_PRESSURE_PA"]
+__all__ = ["STANDARD_PRESSURE_PA", "AirState", "air_state", "pressure_from_altitude"]
 
 STANDARD_PRESSURE_PA = 101_325.0
 
@@ -78,11 +78,10 @@ def air_state(
             value=tuple(given) or None,
             allowed="exactly one of rh_pct, wet_bulb_c, dew_point_c",
             message=(
-                "give exactly one of rh_pct, wet_bulb_c, dew_point_c "
-                f"(got {', '.join(given) if given else 'none'})"
+                f"give exactly one of rh_pct, wet_bulb_c, dew_point_c (got {', '.join(given) if given else 'none'})"
             ),
         )
-    (name, raw), = given.items()
+    ((name, raw),) = given.items()
     if name == "rh_pct":
         rh = v.in_range(name, raw, *v.RH_PCT, unit="%", label="relative humidity")
         if rh == 0.0:
@@ -102,13 +101,21 @@ def air_state(
         rh_frac = rh / 100.0
     elif name == "wet_bulb_c":
         twb = v.in_range(
-            name, raw, v.AIR_TEMPERATURE_C[0], t, unit="°C",
+            name,
+            raw,
+            v.AIR_TEMPERATURE_C[0],
+            t,
+            unit="°C",
             label="wet bulb temperature (not above the dry bulb)",
         )
         w, tdp, rh_frac, *_ = psychrolib.CalcPsychrometricsFromTWetBulb(t, twb, p)
     else:
         tdp = v.in_range(
-            name, raw, v.AIR_TEMPERATURE_C[0], t, unit="°C",
+            name,
+            raw,
+            v.AIR_TEMPERATURE_C[0],
+            t,
+            unit="°C",
             label="dew point temperature (not above the dry bulb)",
         )
         w, twb, rh_frac, *_ = psychrolib.CalcPsychrometricsFromTDewPoint(t, tdp, p)

@@ -18,7 +18,7 @@ from scipy import stats
 from engineering import _validate as v
 from engineering.errors import InsufficientDataError
 
-__all__ = ["Rate", "robust_rate", "run_hours_per_day", "days_since"]
+__all__ = ["Rate", "days_since", "robust_rate", "run_hours_per_day"]
 
 
 @dataclass(frozen=True)
@@ -48,7 +48,9 @@ def robust_rate(*, points: Sequence[tuple[float, float]], confidence: float = 0.
         pts = [(float(x), float(y)) for x, y in points]
     except (TypeError, ValueError):
         raise InsufficientDataError(
-            field="points", value=points, allowed="a sequence of (x, y) number pairs",
+            field="points",
+            value=points,
+            allowed="a sequence of (x, y) number pairs",
             message="points must be a sequence of (x, y) number pairs",
         ) from None
     for i, (x, y) in enumerate(pts):
@@ -56,14 +58,19 @@ def robust_rate(*, points: Sequence[tuple[float, float]], confidence: float = 0.
         v.finite(f"points[{i}].y", y)
     if len(pts) < 2:
         raise InsufficientDataError(
-            field="points", value=len(pts), allowed="at least 2 points",
-            message=f"a rate needs at least 2 points; got {len(pts)}", low=2,
+            field="points",
+            value=len(pts),
+            allowed="at least 2 points",
+            message=f"a rate needs at least 2 points; got {len(pts)}",
+            low=2,
         )
     xs = [p[0] for p in pts]
     ys = [p[1] for p in pts]
     if max(xs) == min(xs):
         raise InsufficientDataError(
-            field="points", value=xs[0], allowed="at least two different x values",
+            field="points",
+            value=xs[0],
+            allowed="at least two different x values",
             message=f"all {len(pts)} points have the same x={v.fmt(xs[0])}: no rate can be drawn",
         )
     res = stats.theilslopes(ys, xs, alpha=conf)
@@ -105,8 +112,11 @@ def run_hours_per_day(*, readings: Sequence[tuple[date | datetime, float]]) -> R
     """
     if len(readings) < 2:
         raise InsufficientDataError(
-            field="readings", value=len(readings), allowed="at least 2 readings",
-            message=f"a run-hour rate needs at least 2 readings; got {len(readings)}", low=2,
+            field="readings",
+            value=len(readings),
+            allowed="at least 2 readings",
+            message=f"a run-hour rate needs at least 2 readings; got {len(readings)}",
+            low=2,
         )
     origin = min((r[0] for r in readings), key=_as_datetime)
     return robust_rate(points=[(days_since(when, origin), h) for when, h in readings])

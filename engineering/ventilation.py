@@ -15,16 +15,16 @@ from engineering import _validate as v
 from engineering.errors import EngineeringInputError
 
 __all__ = [
-    "SpaceKind",
+    "CO2_GENERATION_OFFICE_L_S",
+    "MET_LEVELS",
     "SPACE_KINDS",
     "ZONE_AIR_DISTRIBUTION_EFFECTIVENESS",
-    "MET_LEVELS",
-    "CO2_GENERATION_OFFICE_L_S",
+    "SpaceKind",
     "breathing_zone_outdoor_airflow",
-    "zone_outdoor_airflow",
+    "co2_differential_for_outdoor_air",
     "co2_generation_for_activity",
     "outdoor_air_per_person_from_co2",
-    "co2_differential_for_outdoor_air",
+    "zone_outdoor_airflow",
 ]
 
 
@@ -74,19 +74,26 @@ ZONE_AIR_DISTRIBUTION_EFFECTIVENESS: dict[str, tuple[float, str]] = {
     "ceiling_supply_cool": (1.0, "Ceiling supply of cool air"),
     "ceiling_supply_warm_floor_return": (1.0, "Ceiling supply of warm air and floor return"),
     "ceiling_supply_warm_8k_ceiling_return": (
-        0.8, "Ceiling supply of warm air 8 K (15 °F) or more above space and ceiling return"),
+        0.8,
+        "Ceiling supply of warm air 8 K (15 °F) or more above space and ceiling return",
+    ),
     "ceiling_supply_warm_under_8k_ceiling_return": (
-        1.0, "Ceiling supply of warm air less than 8 K (15 °F) above space and ceiling return, "
-        "with the 0.8 m/s (150 fpm) jet reaching within 1.4 m (4.5 ft) of the floor"),
+        1.0,
+        "Ceiling supply of warm air less than 8 K (15 °F) above space and ceiling return, "
+        "with the 0.8 m/s (150 fpm) jet reaching within 1.4 m (4.5 ft) of the floor",
+    ),
     "floor_supply_cool_ceiling_return": (
-        1.0, "Floor supply of cool air and ceiling return, jet 0.8 m/s (150 fpm) reaching "
-        "1.4 m (4.5 ft) or more above the floor (underfloor air distribution)"),
+        1.0,
+        "Floor supply of cool air and ceiling return, jet 0.8 m/s (150 fpm) reaching "
+        "1.4 m (4.5 ft) or more above the floor (underfloor air distribution)",
+    ),
     "displacement_ventilation": (
-        1.2, "Floor supply of cool air and ceiling return, low-velocity displacement ventilation"),
+        1.2,
+        "Floor supply of cool air and ceiling return, low-velocity displacement ventilation",
+    ),
     "floor_supply_warm_floor_return": (1.0, "Floor supply of warm air and floor return"),
     "floor_supply_warm_ceiling_return": (0.7, "Floor supply of warm air and ceiling return"),
-    "makeup_far_from_exhaust": (
-        0.8, "Makeup supply drawn in on the opposite side of the room from the exhaust/return"),
+    "makeup_far_from_exhaust": (0.8, "Makeup supply drawn in on the opposite side of the room from the exhaust/return"),
     "makeup_near_exhaust": (0.5, "Makeup supply drawn in near the exhaust/return"),
 }
 
@@ -109,9 +116,7 @@ MET_LEVELS: dict[str, float] = {
 }
 
 
-def breathing_zone_outdoor_airflow(
-    *, space_kind: str, floor_area_m2: float, occupants: float | None = None
-) -> float:
+def breathing_zone_outdoor_airflow(*, space_kind: str, floor_area_m2: float, occupants: float | None = None) -> float:
     """Breathing-zone outdoor airflow Vbz = Rp·Pz + Ra·Az, in m³/s.
 
     ASHRAE 62.1-2019 section 6.2.2.1, eq. 6-1, with Rp, Ra and the default
@@ -119,12 +124,13 @@ def breathing_zone_outdoor_airflow(
     ``occupants`` the zone population Pz is the default density × Az.
     """
     kind = SPACE_KINDS[v.choice("space_kind", space_kind, SPACE_KINDS)]
-    az = v.in_range("floor_area_m2", floor_area_m2, 0.0, 1_000_000.0, unit="m²", label="floor area",
-                    low_open=True)
+    az = v.in_range("floor_area_m2", floor_area_m2, 0.0, 1_000_000.0, unit="m²", label="floor area", low_open=True)
     if occupants is None:
         if kind.default_occupants_per_100m2 is None:
             raise EngineeringInputError(
-                field="occupants", value=None, allowed="a number of people",
+                field="occupants",
+                value=None,
+                allowed="a number of people",
                 message=f"occupants is required for {kind.label}: the table gives no default density",
             )
         pz = kind.default_occupants_per_100m2 * az / 100.0
@@ -141,9 +147,7 @@ def zone_outdoor_airflow(*, vbz: float, ez: float | str = 1.0) -> float:
     """
     q = v.non_negative("vbz", vbz, unit="m³/s", label="breathing-zone outdoor airflow")
     if isinstance(ez, str):
-        e = ZONE_AIR_DISTRIBUTION_EFFECTIVENESS[
-            v.choice("ez", ez, ZONE_AIR_DISTRIBUTION_EFFECTIVENESS)
-        ][0]
+        e = ZONE_AIR_DISTRIBUTION_EFFECTIVENESS[v.choice("ez", ez, ZONE_AIR_DISTRIBUTION_EFFECTIVENESS)][0]
     else:
         e = v.in_range("ez", ez, 0.1, 2.0, label="zone air distribution effectiveness")
     return q / e
@@ -178,8 +182,15 @@ def outdoor_air_per_person_from_co2(
     """
     ci = v.co2("co2_indoor_ppm", co2_indoor_ppm)
     co = v.co2("co2_outdoor_ppm", co2_outdoor_ppm)
-    n = v.in_range("co2_generation_l_s_per_person", co2_generation_l_s_per_person, 0.0, 0.1,
-                   unit="L/s", label="CO2 generation", low_open=True)
+    n = v.in_range(
+        "co2_generation_l_s_per_person",
+        co2_generation_l_s_per_person,
+        0.0,
+        0.1,
+        unit="L/s",
+        label="CO2 generation",
+        low_open=True,
+    )
     if ci - co <= 0:
         raise EngineeringInputError(
             field="co2_indoor_ppm",
@@ -203,8 +214,22 @@ def co2_differential_for_outdoor_air(
     """Steady-state indoor–outdoor CO2 difference, ppm, for a given outdoor
     air per person: ΔC = N / Vo (ASTM D6245, inverse of
     ``outdoor_air_per_person_from_co2``)."""
-    vo = v.in_range("outdoor_air_per_person_m3s", outdoor_air_per_person_m3s, 0.0, 1.0,
-                    unit="m³/s", label="outdoor air per person", low_open=True)
-    n = v.in_range("co2_generation_l_s_per_person", co2_generation_l_s_per_person, 0.0, 0.1,
-                   unit="L/s", label="CO2 generation", low_open=True)
+    vo = v.in_range(
+        "outdoor_air_per_person_m3s",
+        outdoor_air_per_person_m3s,
+        0.0,
+        1.0,
+        unit="m³/s",
+        label="outdoor air per person",
+        low_open=True,
+    )
+    n = v.in_range(
+        "co2_generation_l_s_per_person",
+        co2_generation_l_s_per_person,
+        0.0,
+        0.1,
+        unit="L/s",
+        label="CO2 generation",
+        low_open=True,
+    )
     return (n / 1000.0) / vo * 1e6
