@@ -3,7 +3,7 @@
 import os
 
 from .base import *  # noqa: F403
-from .base import BASE_DIR
+from .base import BASE_DIR, STATIC_ROOT
 
 DEBUG = False
 PASSWORD_HASHERS = ["django.contrib.auth.hashers.MD5PasswordHasher"]
@@ -14,3 +14,6 @@ STORAGES = {
     "staticfiles": {"BACKEND": "django.contrib.staticfiles.storage.StaticFilesStorage"},
 }
 AXES_ENABLED = os.environ.get("AXES_ENABLED_IN_TESTS", "") == "1"
+
+# whitenoise warns on every request until the folder exists.
+STATIC_ROOT.mkdir(parents=True, exist_ok=True)
