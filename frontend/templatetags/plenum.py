@@ -1,0 +1,41 @@
+"""Template helpers: the navigation for the person's role, readings in their units."""
+
+from django import template
+from django.urls import NoReverseMatch, reverse
+
+from accounts.models import Role
+from accounts.selectors import primary_role
+
+register = template.Library()
+
+NAV_BY_ROLE = {
+    Role.TECHNICIAN: [("frontend:today", "Today"), ("frontend:calculator", "Calculator")],
+    Role.SUPERVISOR: [
+        ("frontend:board", "Board"),
+        ("frontend:registry", "Registry"),
+        ("frontend:findings", "Findings"),
+        ("frontend:corrective", "Corrective work"),
+        ("frontend:flagged", "Flagged forms"),
+        ("frontend:calculator", "Calculator"),
+    ],
+    Role.PROPERTY_MANAGER: [("frontend:dashboard", "Dashboard")],
+}
+NAV_BY_ROLE[Role.ADMIN] = NAV_BY_ROLE[Role.SUPERVISOR]
+
+
+@register.inclusion_tag("frontend/_nav.html", takes_context=True)
+def plenum_nav(context):
+    request = context["request"]
+    links = []
+    if request.user.is_authenticated:
+        role = getattr(request, "_plenum_role", None)
+        if role is None:
+            role = primary_role(user=request.user)
+            request._plenum_role = role
+        for name, text in NAV_BY_ROLE.get(role, []):
+            try:
+                url = reverse(name)
+            except NoReverseMatch:
+                continue
+            links.append({"url": url, "text": text, "current": request.path.startswith(url)})
+    return {"links": links, "request": request}

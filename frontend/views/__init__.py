@@ -1,0 +1,1 @@
+"""Pages of the PWA. Thin: each view asks a selector or a service and renders."""
