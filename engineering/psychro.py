@@ -26,6 +26,9 @@ STANDARD_PRESSURE_PA = 101_325.0
 _PSYCHROLIB_MIN_W = 1e-7
 
 ALTITUDE_M = (-500.0, 5_500.0)
+# Very dry cold air has dew points well below the −60 °C air-temperature band;
+# any dew point this package reports must be accepted back as an input.
+DEW_POINT_MIN_C = -90.0
 
 
 @dataclass(frozen=True)
@@ -113,7 +116,7 @@ def air_state(
         tdp = v.in_range(
             name,
             raw,
-            v.AIR_TEMPERATURE_C[0],
+            DEW_POINT_MIN_C,
             t,
             unit="°C",
             label="dew point temperature (not above the dry bulb)",

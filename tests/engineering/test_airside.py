@@ -1,0 +1,162 @@
+"""Coil heat flows against the trade's textbook forms and fluid data."""
+
+import pytest
+from CoolProp.CoolProp import PropsSI
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from engineering import (
+    FLUIDS,
+    EngineeringInputError,
+    Verdict,
+    air_state,
+    coil_balance,
+    fluid_properties,
+    latent_heat_w,
+    sensible_heat_w,
+    total_heat_w,
+    water_side_heat_w,
+)
+from engineering.units import ureg
+
+Q = ureg.Quantity
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    cfm=st.floats(min_value=100.0, max_value=50_000.0),
+    dt_f=st.floats(min_value=-40.0, max_value=40.0).filter(lambda x: abs(x) > 0.5),
+)
+def test_sensible_heat_matches_1_08_cfm_delta_f_rule(cfm, dt_f):
+    """q = 1.08 × cfm × ΔT°F Btu/h for standard air (0.075 lb/ft³ × 60 min/h ×
+    0.24 Btu/lb·°F; common practice, the US textbook form) agrees with the SI
+    result for dry air entering at 20 °C, 101.325 kPa (ASHRAE standard air,
+    1.204 kg/m³) within 0.5 %."""
+    airflow = Q(cfm, "cfm").to("m**3/s").magnitude
+    dt_k = Q(dt_f, "delta_degF").to("kelvin").magnitude
+    si_w = sensible_heat_w(airflow_m3s=airflow, t_in_c=20.0, t_out_c=20.0 + dt_k)
+    textbook_w = Q(1.08 * cfm * dt_f, "Btu_it/hour").to("watt").magnitude
+    assert si_w == pytest.approx(textbook_w, rel=0.005)
+
+
+def test_sensible_heat_matches_ashrae_si_factor():
+    # ASHRAE Handbook—Fundamentals 2017 ch.18 eq. 9: q_s = 1.23 Q Δt, W with Q in
+    # L/s, for standard air at about 0.0075 kg/kg (from memory). The factor
+    # rounds density and c_p (≈ 1.2 × 1.02), so agreement within 2 % is all
+    # that can be asked of it.
+    q = sensible_heat_w(airflow_m3s=1.0, t_in_c=20.0, t_out_c=30.0, humidity_ratio=0.0075)
+    assert q == pytest.approx(1.23 * 1000 * 10, rel=0.02)
+
+
+def test_sensible_and_latent_add_up_to_total_on_a_cooling_coil():
+    """On a dehumidifying coil both parts are negative and sum exactly to ṁΔh."""
+    s_in = air_state(dry_bulb_c=26.0, rh_pct=55.0)
+    s_out = air_state(dry_bulb_c=12.0, rh_pct=95.0)
+    heat = total_heat_w(airflow_m3s=3.0, state_in=s_in, state_out=s_out)
+    assert heat.sensible_w < 0 and heat.latent_w < 0
+    assert heat.sensible_w + heat.latent_w == pytest.approx(heat.total_w, rel=1e-12)
+    s = sensible_heat_w(airflow_m3s=3.0, t_in_c=26.0, t_out_c=12.0, humidity_ratio=s_in.humidity_ratio)
+    lat = latent_heat_w(
+        airflow_m3s=3.0,
+        humidity_ratio_in=s_in.humidity_ratio,
+        humidity_ratio_out=s_out.humidity_ratio,
+        t_in_c=26.0,
+        t_out_c=12.0,
+    )
+    assert s == pytest.approx(heat.sensible_w, rel=1e-9)
+    assert lat == pytest.approx(heat.latent_w, rel=1e-6)
+
+
+def test_total_heat_matches_ashrae_si_factor():
+    # ASHRAE Handbook—Fundamentals 2017 ch.18 eq. 11: q_t = 1.20 Q Δh, W with Q in
+    # L/s and Δh in kJ/kg (from memory); standard air density 1.2 kg/m³.
+    s_in = air_state(dry_bulb_c=24.0, rh_pct=50.0)
+    s_out = air_state(dry_bulb_c=13.0, rh_pct=90.0)
+    heat = total_heat_w(airflow_m3s=1.0, state_in=s_in, state_out=s_out)
+    dh_kj = (s_out.enthalpy_j_per_kg - s_in.enthalpy_j_per_kg) / 1000
+    assert heat.total_w == pytest.approx(1.20 * 1000 * dh_kj, rel=0.03)
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    gpm=st.floats(min_value=1.0, max_value=2000.0),
+    dt_f=st.floats(min_value=2.0, max_value=30.0),
+)
+def test_water_side_matches_500_gpm_delta_f_rule(gpm, dt_f):
+    """q = 500 × gpm × ΔT°F Btu/h (8.33 lb/gal × 60 min/h × 1 Btu/lb·°F;
+    common practice) agrees with the SI result for chilled water (45 °F supply)
+    within 1 %."""
+    flow = Q(gpm, "gpm").to("m**3/s").magnitude
+    t_supply = Q(45.0, "degF").to("degC").magnitude
+    t_return = t_supply + Q(dt_f, "delta_degF").to("kelvin").magnitude
+    si_w = water_side_heat_w(flow_m3s=flow, t_supply_c=t_supply, t_return_c=t_return)
+    textbook_w = Q(500 * gpm * dt_f, "Btu_it/hour").to("watt").magnitude
+    assert si_w == pytest.approx(textbook_w, rel=0.01)
+
+
+def test_water_side_sign_and_litres_per_second():
+    """A cooling coil's water warms: positive; a heating coil's cools: negative."""
+    cooling = water_side_heat_w(flow_l_s=2.0, t_supply_c=7.0, t_return_c=12.0)
+    heating = water_side_heat_w(flow_m3s=0.002, t_supply_c=70.0, t_return_c=50.0)
+    assert cooling == pytest.approx(2.0 * 0.9997 * 4.19 * 5 * 1000, rel=0.005)  # ρ, cp: IAPWS-95 near 10 °C
+    assert heating < 0
+
+
+@pytest.mark.parametrize(
+    ("fluid", "coolprop_name"),
+    [
+        ("water", "Water"),
+        ("ethylene_glycol_30", "INCOMP::MEG-30%"),
+        ("propylene_glycol_30", "INCOMP::MPG-30%"),
+        ("propylene_glycol_40", "INCOMP::MPG-40%"),
+    ],
+)
+@pytest.mark.parametrize("t_c", [2.5, 17.0, 43.0, 77.0])
+def test_fluid_table_interpolation_matches_coolprop(fluid, coolprop_name, t_c):
+    """Linear interpolation in the 10 K table is within 0.1 % of the fluid data
+    it was tabulated from (IAPWS-95; Melinder 2010 — both via CoolProp)."""
+    rho, cp = fluid_properties(fluid=fluid, temperature_c=t_c)
+    assert rho == pytest.approx(PropsSI("D", "T", t_c + 273.15, "P", 300e3, coolprop_name), rel=1e-3)
+    assert cp == pytest.approx(PropsSI("C", "T", t_c + 273.15, "P", 300e3, coolprop_name), rel=1e-3)
+
+
+def test_glycol_carries_less_heat_than_water_at_the_same_flow():
+    water = water_side_heat_w(flow_l_s=1.0, t_supply_c=7.0, t_return_c=12.0)
+    for fluid in FLUIDS:
+        if fluid != "water":
+            assert water_side_heat_w(flow_l_s=1.0, t_supply_c=7.0, t_return_c=12.0, fluid=fluid) < water
+
+
+def test_glycol_outside_its_table_and_unknown_fluid_are_refused():
+    with pytest.raises(EngineeringInputError) as exc:
+        water_side_heat_w(flow_l_s=1.0, t_supply_c=-15.0, t_return_c=-10.0, fluid="ethylene_glycol_30")
+    assert exc.value.field == "t_supply_c" and "-10–90 °C" in str(exc.value)
+    with pytest.raises(EngineeringInputError, match="fluid='brine'"):
+        water_side_heat_w(flow_l_s=1.0, t_supply_c=7.0, t_return_c=12.0, fluid="brine")
+    with pytest.raises(EngineeringInputError, match="exactly one of flow_m3s, flow_l_s"):
+        water_side_heat_w(t_supply_c=7.0, t_return_c=12.0)
+
+
+@pytest.mark.parametrize(
+    ("air_w", "water_w", "verdict"),
+    [
+        (-52_000.0, 50_000.0, Verdict.OK),  # 3.9 %
+        (-57_000.0, 50_000.0, Verdict.WATCH),  # 13 %
+        (-70_000.0, 50_000.0, Verdict.FAIL),  # 33 %
+    ],
+)
+def test_coil_balance_grades_the_difference(air_w, water_w, verdict):
+    result = coil_balance(air_side_w=air_w, water_side_w=water_w)
+    assert result.verdict is verdict
+    assert "kW" in result.reason and "%" in result.reason
+
+
+def test_coil_balance_with_nothing_to_compare_is_refused():
+    with pytest.raises(EngineeringInputError, match="below 1 W"):
+        coil_balance(air_side_w=0.0, water_side_w=0.0)
+
+
+def test_negative_airflow_is_refused():
+    with pytest.raises(EngineeringInputError) as exc:
+        sensible_heat_w(airflow_m3s=-1.0, t_in_c=20.0, t_out_c=30.0)
+    assert exc.value.field == "airflow_m3s" and "0–100 m³/s" in str(exc.value)
