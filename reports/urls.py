@@ -1,4 +1,8 @@
-from django.urls import path  # noqa: F401
+from django.urls import path
+
+from . import views
 
 app_name = "reports"
-urlpatterns: list = []
+urlpatterns = [
+    path("reports/<uuid:public_id>/download/", views.report_download, name="download"),
+]

@@ -1,0 +1,113 @@
+"""HTML to PDF with WeasyPrint, written so that the same inputs give the same document.
+
+Determinism: the generation time printed and written into the PDF metadata is
+the report's *requested* time, never "now"; the PDF identifier is derived from
+the report's inputs; charts are SVG with fixed ids and no date stamp.
+"""
+
+from __future__ import annotations
+
+import base64
+import hashlib
+import io
+from dataclasses import dataclass
+from datetime import UTC, datetime
+
+from django.conf import settings
+from django.template.loader import render_to_string
+
+# PDF/A-3b: archival, and unlike 1b allows transparency (the charts use it).
+PDFA_VARIANT = "pdf/a-3b"
+
+SAFETY_CAUTIONS = (
+    "Lock out and tag out the unit's electrical supply before opening any access door: supply and return "
+    "fans can start automatically and keep turning after the power is cut, and electric heaters carry "
+    "mains voltage and stay hot.",
+    "Hot water and steam coils, their valves and pipework can burn: isolate and let them cool before "
+    "touching; steam must be isolated and vented by someone competent to do it.",
+    "Wear eye and hand protection when handling loaded filters and cleaning coils and drain pans.",
+)
+PRECEDENCE_NOTE = (
+    "Local codes and regulations, the manufacturer's instructions and licensed practice take precedence "
+    "over anything in this document."
+)
+
+
+@dataclass(frozen=True)
+class RenderedPdf:
+    content: bytes
+    page_count: int
+
+    @property
+    def sha256(self) -> str:
+        return hashlib.sha256(self.content).hexdigest()
+
+
+def css_string(text: str) -> str:
+    """``text`` as a quoted CSS string, every non-alphanumeric character escaped (safe in a stylesheet)."""
+    out = []
+    for ch in text:
+        if ch.isascii() and (ch.isalnum() or ch == " "):
+            out.append(ch)
+        else:
+            out.append(f"\\{ord(ch):06x}")
+    return '"' + "".join(out) + '"'
+
+
+def generated_label(at: datetime) -> str:
+    return at.astimezone(UTC).strftime("%Y-%m-%d %H:%M UTC")
+
+
+def w3c_datetime(at: datetime) -> str:
+    return at.astimezone(UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
+
+
+def svg_data_uri(svg: str) -> str:
+    return "data:image/svg+xml;base64," + base64.b64encode(svg.encode("utf-8")).decode("ascii")
+
+
+def image_thumbnail_data_uri(data: bytes, *, max_px: int = 480) -> str | None:
+    """A JPEG thumbnail of an uploaded photo as a data URI; None when the bytes are not an image."""
+    from PIL import Image, ImageOps, UnidentifiedImageError
+
+    try:
+        with Image.open(io.BytesIO(data)) as img:
+            img = ImageOps.exif_transpose(img)
+            img = img.convert("RGB")
+            img.thumbnail((max_px, max_px))
+            out = io.BytesIO()
+            img.save(out, format="JPEG", quality=80, optimize=False)
+    except (UnidentifiedImageError, OSError, ValueError):
+        return None
+    return "data:image/jpeg;base64," + base64.b64encode(out.getvalue()).decode("ascii")
+
+
+def html_render(*, template: str, context: dict, title: str, generated_at: datetime, subject: str = "") -> str:
+    """The document's HTML: its template inside the shared page frame (fonts, footer, page counter)."""
+    full = {
+        **context,
+        "doc_title": title,
+        "doc_subject": subject,
+        "generated_label": generated_label(generated_at),
+        "generated_w3c": w3c_datetime(generated_at),
+        "footer_css": css_string(f"{title} — generated {generated_label(generated_at)}"),
+        "safety_cautions": SAFETY_CAUTIONS,
+        "precedence_note": PRECEDENCE_NOTE,
+    }
+    return render_to_string(template, full)
+
+
+def pdf_render(*, html: str, identifier: str, pdfa: bool = False) -> RenderedPdf:
+    """Write ``html`` as PDF (PDF/A-3b when ``pdfa``); ``identifier`` seeds the PDF's file id."""
+    from weasyprint import HTML
+
+    base_url = str(settings.BASE_DIR)
+    document = HTML(string=html, base_url=base_url).render()
+    options = {
+        "pdf_identifier": hashlib.md5(identifier.encode("utf-8"), usedforsecurity=False).hexdigest().encode(),
+        "pdf_variant": PDFA_VARIANT if pdfa else None,
+        # Same bytes for the same inputs: uncompressed streams would be too, but big; compression is deterministic.
+        "uncompressed_pdf": False,
+    }
+    content = document.write_pdf(**options)
+    return RenderedPdf(content=content, page_count=len(document.pages))

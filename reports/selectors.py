@@ -1,0 +1,34 @@
+"""Reads of stored reports. A person may open a report only if they may see every site it covers."""
+
+from __future__ import annotations
+
+from accounts.models import User
+from inventory.selectors import sites_visible_to
+
+from .models import Report
+
+
+def report_visible(*, user: User, report: Report) -> bool:
+    if not getattr(user, "is_authenticated", False):
+        return False
+    covered = set(report.site_ids)
+    if not covered:
+        return False
+    visible = set(sites_visible_to(user=user).filter(pk__in=covered).values_list("pk", flat=True))
+    return covered <= visible
+
+
+def report_get(*, user: User, public_id) -> Report | None:
+    """The report with that public id if ``user`` may see all of it, else None (same answer as absent)."""
+    report = Report.objects.filter(public_id=public_id).select_related("requested_by").first()
+    if report is None or not report_visible(user=user, report=report):
+        return None
+    return report
+
+
+def reports_visible_to(*, user: User, limit: int = 100) -> list[Report]:
+    """The person's recent reports that they may still open, newest first."""
+    visible = set(sites_visible_to(user=user).values_list("pk", flat=True))
+    orgs = user.memberships.values("organisation_id")
+    candidates = Report.objects.filter(organisation_id__in=orgs).order_by("-created_at", "-id")[: limit * 3]
+    return [r for r in candidates if r.site_ids and set(r.site_ids) <= visible][:limit]
