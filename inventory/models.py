@@ -107,7 +107,7 @@ class Site(models.Model):
                 validate_monthly_normals(getattr(self, name))
             except ValidationError as exc:
                 raise ValidationError({name: exc.messages}) from None
-        bad = [m + 1 for m, (lo, hi) in enumerate(zip(self.normals_min_c, self.normals_max_c)) if lo > hi]
+        bad = [m + 1 for m, (lo, hi) in enumerate(zip(self.normals_min_c, self.normals_max_c, strict=True)) if lo > hi]
         if bad:
             raise ValidationError({"normals_max_c": f"monthly maximum is below the minimum in month(s) {bad}"})
 
@@ -210,9 +210,7 @@ assert set(ComponentKind.values) == set(SPECS), "every component kind needs a sp
 
 class Component(models.Model):
     ahu = models.ForeignKey(AHU, on_delete=models.CASCADE, related_name="components")
-    parent = models.ForeignKey(
-        "self", on_delete=models.CASCADE, null=True, blank=True, related_name="children"
-    )
+    parent = models.ForeignKey("self", on_delete=models.CASCADE, null=True, blank=True, related_name="children")
     kind = models.CharField(max_length=30, choices=ComponentKind.choices)
     name = models.CharField(max_length=120)
     label_code = models.CharField(max_length=12, unique=True, default=new_component_code, editable=False)

@@ -36,9 +36,9 @@ def sites_visible_to(*, user: User) -> QuerySet[Site]:
     if managed:
         condition |= Q(organisation_id__in=managed)
     if Role.PROPERTY_MANAGER in by_role:
-        granted = SiteGrant.objects.filter(
-            user=user, site__organisation_id__in=by_role[Role.PROPERTY_MANAGER]
-        ).values("site_id")
+        granted = SiteGrant.objects.filter(user=user, site__organisation_id__in=by_role[Role.PROPERTY_MANAGER]).values(
+            "site_id"
+        )
         condition |= Q(pk__in=granted)
     if Role.TECHNICIAN in by_role:
         assigned = Site.objects.filter(

@@ -1,10 +1,16 @@
 """Writes to the registry. Every path in (admin, API, CSV) validates the same way."""
 
+import io
 from typing import Any
 
+import segno
+from django.conf import settings
+from django.core.exceptions import ValidationError
 from django.db import transaction
+from django.urls import reverse
 
 from .models import AHU, Building, Component, Site
+from .specs import SpecErrors, validate_specs
 
 
 def _save_new(instance):
@@ -19,6 +25,28 @@ def _update(instance, fields: dict[str, Any]):
     instance.full_clean()
     instance.save(update_fields=list(fields) if fields else None)
     return instance
+
+
+def component_full_clean(component: Component) -> None:
+    """``full_clean`` with spec problems keyed per spec field (``specs.final_dp_pa``).
+
+    The model's own ``clean`` files every spec problem under ``specs`` so the admin
+    form can show them beside the specs box; API and CSV callers want to know which
+    spec field was wrong, so the spec errors are re-keyed here.
+    """
+    try:
+        component.full_clean()
+    except ValidationError as exc:
+        errors = dict(exc.message_dict)
+        if "specs" in errors:
+            try:
+                validate_specs(kind=component.kind, specs=component.specs)
+            except SpecErrors as spec_exc:
+                errors.pop("specs")
+                for key, message in spec_exc.errors.items():
+                    target = key if key in {"kind", "specs"} else f"specs.{key}"
+                    errors.setdefault(target, []).append(message)
+        raise ValidationError(errors) from None
 
 
 @transaction.atomic
@@ -53,9 +81,36 @@ def ahu_update(*, ahu: AHU, **fields: Any) -> AHU:
 
 @transaction.atomic
 def component_create(**fields: Any) -> Component:
-    return _save_new(Component(**fields))
+    component = Component(**fields)
+    component_full_clean(component)
+    component.save()
+    return component
 
 
 @transaction.atomic
 def component_update(*, component: Component, **fields: Any) -> Component:
-    return _update(component, fields)
+    for name, value in fields.items():
+        setattr(component, name, value)
+    component_full_clean(component)
+    component.save(update_fields=list(fields) if fields else None)
+    return component
+
+
+@transaction.atomic
+def component_delete(*, component: Component) -> None:
+    """Remove a component and the parts it contains (the tree below it)."""
+    component.delete()
+
+
+def label_absolute_url(*, code: str) -> str:
+    """The address printed on a label: the public base URL plus ``/l/<code>/``."""
+    base = settings.PLENUM_PUBLIC_URL.rstrip("/")
+    return base + reverse("inventory:label", kwargs={"code": code})
+
+
+def label_qr_svg(*, code: str, scale: int = 4) -> str:
+    """An SVG QR code of the label's absolute URL (error correction M, survives a scuffed label)."""
+    qr = segno.make(label_absolute_url(code=code), error="m")
+    buffer = io.BytesIO()
+    qr.save(buffer, kind="svg", scale=scale, xmldecl=False, title=f"Label {code}", border=4)
+    return buffer.getvalue().decode("utf-8")

@@ -29,7 +29,8 @@ class SpecField:
             return "one of " + ", ".join(self.choices)
         if self.kind in {"number", "integer"}:
             unit = f" {self.unit}" if self.unit else ""
-            return f"a {'whole ' if self.kind == 'integer' else ''}number from {self.minimum:g} to {self.maximum:g}{unit}"
+            whole = "whole " if self.kind == "integer" else ""
+            return f"a {whole}number from {self.minimum:g} to {self.maximum:g}{unit}"
         if self.kind == "date":
             return "a date as YYYY-MM-DD"
         if self.kind == "bool":
@@ -261,9 +262,8 @@ def _cross_checks(kind: str, s: dict[str, Any]) -> dict[str, str]:
             )
         if "merv" not in s and "iso_16890" not in s:
             errors["merv"] = "give a MERV class (merv) or an ISO 16890 group (iso_16890), or both"
-    if kind == "coil":
-        if s["fluid"] == "glycol" and not s.get("glycol_pct"):
-            errors["glycol_pct"] = "glycol_pct is required when fluid is glycol; allowed: 1 to 60 %"
+    if kind == "coil" and s["fluid"] == "glycol" and not s.get("glycol_pct"):
+        errors["glycol_pct"] = "glycol_pct is required when fluid is glycol; allowed: 1 to 60 %"
     if kind == "sensor":
         lo, hi, unit = SENSOR_PLAUSIBLE[s["measures"]]
         for key in ("range_low", "range_high"):

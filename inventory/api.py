@@ -1,0 +1,393 @@
+"""REST API of the registry: sites, buildings, units, components, kinds, CSV import/export.
+
+Every read goes through ``inventory.selectors`` (the tenancy rule): a row the
+person may not see does not exist for them (404). Writes need a supervisor or
+admin of the row's organisation (``sites_managed_by``), otherwise 403.
+"""
+
+from django.core.exceptions import PermissionDenied
+from django.http import Http404, HttpResponse
+from django.shortcuts import get_object_or_404
+from drf_spectacular.utils import OpenApiParameter, OpenApiResponse, extend_schema
+from rest_framework import serializers, status
+from rest_framework.pagination import LimitOffsetPagination
+from rest_framework.parsers import FormParser, MultiPartParser
+from rest_framework.response import Response
+from rest_framework.views import APIView
+
+from accounts.models import Organisation
+
+from . import csv_io, selectors, services
+from .filters import AHUFilter, BuildingFilter, ComponentFilter, SiteFilter
+from .models import Component
+from .serializers import (
+    AHUInput,
+    AHUOutput,
+    AHUTreeOutput,
+    BuildingInput,
+    BuildingOutput,
+    ComponentInput,
+    ComponentKindOutput,
+    ComponentOutput,
+    ImportFailedOutput,
+    ImportInput,
+    ImportResultOutput,
+    SiteInput,
+    SiteOutput,
+)
+from .specs import SPECS
+
+
+class ErrorOutput(serializers.Serializer):
+    detail = serializers.CharField()
+    errors = serializers.DictField(required=False)
+
+
+R400 = OpenApiResponse(ErrorOutput, description="Bad input: `errors` names each field, the value and what is allowed.")
+R403 = OpenApiResponse(ErrorOutput, description="Signed in, but not a supervisor or admin of the organisation.")
+R404 = OpenApiResponse(ErrorOutput, description="No such record, or not one the person may see.")
+R401 = OpenApiResponse(ErrorOutput, description="Not signed in, or the token is unknown or revoked.")
+
+
+def _require_manages(*, user, site_id: int) -> None:
+    if not selectors.sites_managed_by(user=user).filter(pk=site_id).exists():
+        raise PermissionDenied("Only a supervisor or admin of the site's organisation may change it.")
+
+
+def _filtered(filterset_class, request, queryset):
+    filterset = filterset_class(request.query_params, queryset=queryset, request=request)
+    if not filterset.is_valid():
+        raise serializers.ValidationError(filterset.errors)
+    return filterset.qs
+
+
+def _page(request, view, queryset, output_class):
+    paginator = LimitOffsetPagination()
+    page = paginator.paginate_queryset(queryset, request, view=view)
+    return paginator.get_paginated_response(output_class(page, many=True).data)
+
+
+def _managed_organisation(*, user, slug: str | None) -> Organisation:
+    """The organisation a new site or an import goes into: the named one, or the only one the person manages."""
+    orgs = Organisation.objects.filter(memberships__user=user, memberships__role__in=selectors.MANAGING_ROLES)
+    if slug:
+        org = orgs.filter(slug=slug).first()
+        if org is None:
+            raise PermissionDenied(f"organisation={slug!r} is not an organisation whose registry you manage.")
+        return org
+    orgs = list(orgs)
+    if len(orgs) == 1:
+        return orgs[0]
+    if not orgs:
+        raise PermissionDenied("Only a supervisor or admin may add to the registry.")
+    raise serializers.ValidationError(
+        {"organisation": [f"you manage several organisations; name one of {', '.join(o.slug for o in orgs)}"]}
+    )
+
+
+# ---------------------------------------------------------------------------
+# Sites
+# ---------------------------------------------------------------------------
+class SiteListView(APIView):
+    @extend_schema(
+        summary="List the sites you may see",
+        parameters=[
+            OpenApiParameter("organisation", str, description="organisation slug"),
+            OpenApiParameter("search", str, description="code or name contains"),
+        ],
+        responses={200: SiteOutput(many=True), 400: R400, 401: R401},
+    )
+    def get(self, request):
+        qs = selectors.sites_visible_to(user=request.user).select_related("organisation", "client")
+        return _page(request, self, _filtered(SiteFilter, request, qs), SiteOutput)
+
+    @extend_schema(summary="Add a site", request=SiteInput, responses={201: SiteOutput, 400: R400, 403: R403})
+    def post(self, request):
+        data = SiteInput(data=request.data, context={"request": request})
+        data.is_valid(raise_exception=True)
+        fields = dict(data.validated_data)
+        org = fields.pop("organisation", None)
+        fields["organisation"] = _managed_organisation(user=request.user, slug=org.slug if org else None)
+        site = services.site_create(**fields)
+        return Response(SiteOutput(site).data, status=status.HTTP_201_CREATED)
+
+
+class SiteDetailView(APIView):
+    def _get(self, request, pk):
+        return get_object_or_404(selectors.sites_visible_to(user=request.user).select_related("organisation"), pk=pk)
+
+    @extend_schema(summary="One site", responses={200: SiteOutput, 404: R404})
+    def get(self, request, pk: int):
+        return Response(SiteOutput(self._get(request, pk)).data)
+
+    @extend_schema(
+        summary="Change a site", request=SiteInput, responses={200: SiteOutput, 400: R400, 403: R403, 404: R404}
+    )
+    def patch(self, request, pk: int):
+        site = self._get(request, pk)
+        _require_manages(user=request.user, site_id=site.pk)
+        data = SiteInput(site, data=request.data, partial=True, context={"request": request})
+        data.is_valid(raise_exception=True)
+        fields = dict(data.validated_data)
+        if "organisation" in fields and fields["organisation"].pk != site.organisation_id:
+            raise serializers.ValidationError({"organisation": ["a site cannot move to another organisation"]})
+        fields.pop("organisation", None)
+        site = services.site_update(site=site, **fields)
+        return Response(SiteOutput(site).data)
+
+
+# ---------------------------------------------------------------------------
+# Buildings
+# ---------------------------------------------------------------------------
+class BuildingListView(APIView):
+    @extend_schema(
+        summary="List the buildings you may see",
+        parameters=[OpenApiParameter("search", str, description="code or name contains")],
+        responses={200: BuildingOutput(many=True), 400: R400},
+    )
+    def get(self, request):
+        qs = selectors.buildings_visible_to(user=request.user)
+        return _page(request, self, _filtered(BuildingFilter, request, qs), BuildingOutput)
+
+    @extend_schema(
+        summary="Add a building", request=BuildingInput, responses={201: BuildingOutput, 400: R400, 403: R403}
+    )
+    def post(self, request):
+        data = BuildingInput(data=request.data, context={"request": request})
+        data.is_valid(raise_exception=True)
+        _require_manages(user=request.user, site_id=data.validated_data["site"].pk)
+        building = services.building_create(**data.validated_data)
+        return Response(BuildingOutput(building).data, status=status.HTTP_201_CREATED)
+
+
+class BuildingDetailView(APIView):
+    def _get(self, request, pk):
+        return get_object_or_404(selectors.buildings_visible_to(user=request.user), pk=pk)
+
+    @extend_schema(summary="One building", responses={200: BuildingOutput, 404: R404})
+    def get(self, request, pk: int):
+        return Response(BuildingOutput(self._get(request, pk)).data)
+
+    @extend_schema(
+        summary="Change a building",
+        request=BuildingInput,
+        responses={200: BuildingOutput, 400: R400, 403: R403, 404: R404},
+    )
+    def patch(self, request, pk: int):
+        building = self._get(request, pk)
+        _require_manages(user=request.user, site_id=building.site_id)
+        data = BuildingInput(building, data=request.data, partial=True, context={"request": request})
+        data.is_valid(raise_exception=True)
+        if "site" in data.validated_data:
+            _require_manages(user=request.user, site_id=data.validated_data["site"].pk)
+        building = services.building_update(building=building, **data.validated_data)
+        return Response(BuildingOutput(building).data)
+
+
+# ---------------------------------------------------------------------------
+# Units
+# ---------------------------------------------------------------------------
+class AHUListView(APIView):
+    @extend_schema(
+        summary="List the air handling units you may see",
+        parameters=[OpenApiParameter("search", str, description="tag, label code or area served")],
+        responses={200: AHUOutput(many=True), 400: R400},
+    )
+    def get(self, request):
+        qs = selectors.ahus_visible_to(user=request.user)
+        return _page(request, self, _filtered(AHUFilter, request, qs), AHUOutput)
+
+    @extend_schema(summary="Add a unit", request=AHUInput, responses={201: AHUOutput, 400: R400, 403: R403})
+    def post(self, request):
+        data = AHUInput(data=request.data, context={"request": request})
+        data.is_valid(raise_exception=True)
+        _require_manages(user=request.user, site_id=data.validated_data["building"].site_id)
+        ahu = services.ahu_create(**data.validated_data)
+        return Response(AHUOutput(ahu).data, status=status.HTTP_201_CREATED)
+
+
+class AHUDetailView(APIView):
+    def _get(self, request, pk):
+        return get_object_or_404(selectors.ahus_visible_to(user=request.user), pk=pk)
+
+    @extend_schema(summary="One unit", responses={200: AHUOutput, 404: R404})
+    def get(self, request, pk: int):
+        return Response(AHUOutput(self._get(request, pk)).data)
+
+    @extend_schema(
+        summary="Change a unit", request=AHUInput, responses={200: AHUOutput, 400: R400, 403: R403, 404: R404}
+    )
+    def patch(self, request, pk: int):
+        ahu = self._get(request, pk)
+        _require_manages(user=request.user, site_id=ahu.building.site_id)
+        data = AHUInput(ahu, data=request.data, partial=True, context={"request": request})
+        data.is_valid(raise_exception=True)
+        if "building" in data.validated_data:
+            _require_manages(user=request.user, site_id=data.validated_data["building"].site_id)
+        ahu = services.ahu_update(ahu=ahu, **data.validated_data)
+        return Response(AHUOutput(ahu).data)
+
+
+class AHUTreeView(APIView):
+    @extend_schema(
+        summary="A unit with its nested component tree, in airstream order",
+        responses={200: AHUTreeOutput, 404: R404},
+    )
+    def get(self, request, pk: int):
+        ahu = get_object_or_404(selectors.ahus_visible_to(user=request.user), pk=pk)
+        tree = selectors.component_tree(ahu=ahu)
+        return Response(AHUTreeOutput({"unit": ahu, "components": tree}).data)
+
+
+# ---------------------------------------------------------------------------
+# Components
+# ---------------------------------------------------------------------------
+class ComponentListView(APIView):
+    @extend_schema(
+        summary="List the components you may see",
+        parameters=[OpenApiParameter("search", str, description="name, label code or unit tag")],
+        responses={200: ComponentOutput(many=True), 400: R400},
+    )
+    def get(self, request):
+        qs = selectors.components_visible_to(user=request.user)
+        return _page(request, self, _filtered(ComponentFilter, request, qs), ComponentOutput)
+
+    @extend_schema(
+        summary="Add a component",
+        description="Specs are validated per kind (see component-kinds); errors are keyed `specs.<field>`.",
+        request=ComponentInput,
+        responses={201: ComponentOutput, 400: R400, 403: R403},
+    )
+    def post(self, request):
+        data = ComponentInput(data=request.data, context={"request": request})
+        data.is_valid(raise_exception=True)
+        _require_manages(user=request.user, site_id=data.validated_data["ahu"].building.site_id)
+        component = services.component_create(**data.validated_data)
+        return Response(ComponentOutput(component).data, status=status.HTTP_201_CREATED)
+
+
+class ComponentDetailView(APIView):
+    def _get(self, request, pk):
+        return get_object_or_404(selectors.components_visible_to(user=request.user), pk=pk)
+
+    @extend_schema(summary="One component", responses={200: ComponentOutput, 404: R404})
+    def get(self, request, pk: int):
+        return Response(ComponentOutput(self._get(request, pk)).data)
+
+    @extend_schema(
+        summary="Change a component",
+        request=ComponentInput,
+        responses={200: ComponentOutput, 400: R400, 403: R403, 404: R404},
+    )
+    def patch(self, request, pk: int):
+        component = self._get(request, pk)
+        _require_manages(user=request.user, site_id=component.ahu.building.site_id)
+        data = ComponentInput(component, data=request.data, partial=True, context={"request": request})
+        data.is_valid(raise_exception=True)
+        if "ahu" in data.validated_data:
+            _require_manages(user=request.user, site_id=data.validated_data["ahu"].building.site_id)
+        component = services.component_update(component=component, **data.validated_data)
+        return Response(ComponentOutput(component).data)
+
+    @extend_schema(
+        summary="Remove a component (and the parts inside it)",
+        responses={204: None, 403: R403, 404: R404},
+    )
+    def delete(self, request, pk: int):
+        component = self._get(request, pk)
+        _require_manages(user=request.user, site_id=component.ahu.building.site_id)
+        services.component_delete(component=component)
+        return Response(status=status.HTTP_204_NO_CONTENT)
+
+
+class ComponentKindsView(APIView):
+    @extend_schema(
+        summary="Component kinds and their spec fields (SI units), for building forms",
+        responses={200: ComponentKindOutput(many=True)},
+    )
+    def get(self, request):
+        kinds = []
+        labels = dict(Component._meta.get_field("kind").choices)
+        for kind, fields in SPECS.items():
+            kinds.append(
+                {
+                    "kind": kind,
+                    "label": str(labels[kind]),
+                    "fields": [
+                        {
+                            "name": f.name,
+                            "label": f.label,
+                            "type": f.kind,
+                            "unit": f.unit,
+                            "min": f.minimum,
+                            "max": f.maximum,
+                            "choices": list(f.choices),
+                            "required": f.required,
+                            "allowed": f.allowed(),
+                        }
+                        for f in fields
+                    ],
+                }
+            )
+        return Response(ComponentKindOutput(kinds, many=True).data)
+
+
+# ---------------------------------------------------------------------------
+# CSV import and export
+# ---------------------------------------------------------------------------
+KIND_PARAMETER = OpenApiParameter(
+    "kind", str, location=OpenApiParameter.PATH, enum=list(csv_io.KINDS), description="what the file holds"
+)
+
+
+def _check_kind(kind: str) -> None:
+    if kind not in csv_io.KINDS:
+        raise Http404(f"kind={kind!r} is not one of {', '.join(csv_io.KINDS)}")
+
+
+class ImportView(APIView):
+    parser_classes = [MultiPartParser, FormParser]
+
+    @extend_schema(
+        summary="Import a registry CSV: every row is checked; one bad row imports nothing",
+        parameters=[KIND_PARAMETER],
+        request={"multipart/form-data": ImportInput},
+        responses={
+            200: ImportResultOutput,
+            400: OpenApiResponse(ImportFailedOutput, description="Every bad row: line, column, value, reason."),
+            403: R403,
+            404: R404,
+        },
+    )
+    def post(self, request, kind: str):
+        _check_kind(kind)
+        data = ImportInput(data=request.data)
+        data.is_valid(raise_exception=True)
+        org = _managed_organisation(user=request.user, slug=data.validated_data.get("organisation"))
+        upload = data.validated_data["file"]
+        try:
+            result = csv_io.registry_import(
+                kind=kind, source=csv_io.decode_upload(upload.read()), organisation=org,
+                dry_run=data.validated_data["dry_run"],
+            )  # fmt: skip
+        except csv_io.ImportFailed as exc:
+            body = {"detail": str(exc), "errors": [e.as_dict() for e in exc.errors]}
+            return Response(body, status=status.HTTP_400_BAD_REQUEST)
+        return Response(ImportResultOutput(result.as_dict()).data)
+
+
+class ExportView(APIView):
+    @extend_schema(
+        summary="Export the registry rows you may see as CSV (the import format)",
+        parameters=[KIND_PARAMETER, OpenApiParameter("site", str, description="only this site code")],
+        responses={(200, "text/csv"): OpenApiResponse(str), 404: R404},
+    )
+    def get(self, request, kind: str):
+        _check_kind(kind)
+        sites = selectors.sites_visible_to(user=request.user)
+        if request.query_params.get("site"):
+            sites = sites.filter(code=request.query_params["site"])
+        response = HttpResponse(content_type="text/csv; charset=utf-8")
+        response["Content-Disposition"] = f'attachment; filename="plenum-{kind}.csv"'
+        csv_io.registry_export(kind=kind, sites=sites, out=response)
+        return response

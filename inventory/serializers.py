@@ -1,0 +1,227 @@
+"""Input and output shapes of the registry API. No domain logic here: services validate."""
+
+from rest_framework import serializers
+
+from accounts.models import Organisation
+
+from . import selectors
+from .models import AHU, Building, Component, Site
+from .services import label_absolute_url
+
+
+class NamesValueMixin:
+    """Add the refused value to each field message, so a message names field, value and what is allowed."""
+
+    def to_internal_value(self, data):
+        try:
+            return super().to_internal_value(data)
+        except serializers.ValidationError as exc:
+            detail = exc.detail
+            if isinstance(detail, dict) and hasattr(data, "get"):
+                for name, messages in detail.items():
+                    if name in data and isinstance(messages, list):
+                        value = data.get(name)
+                        detail[name] = [
+                            f"{m} (got {value!r})" if repr(value) not in str(m) else str(m) for m in messages
+                        ]
+            raise serializers.ValidationError(detail) from None
+
+
+class VisiblePrimaryKey(serializers.PrimaryKeyRelatedField):
+    """A reference to a registry row the requesting person may see; others read as 'does not exist'."""
+
+    default_error_messages = {
+        "does_not_exist": "{pk_value} is not the id of a record you may see.",
+        "incorrect_type": "expected a whole-number id, got {data_type}.",
+    }
+
+    def __init__(self, *, selector, **kwargs):
+        self.selector = selector
+        kwargs.setdefault("queryset", None)
+        super().__init__(**kwargs)
+
+    def get_queryset(self):
+        return self.selector(user=self.context["request"].user)
+
+
+def _visible_sites(*, user):
+    return selectors.sites_visible_to(user=user)
+
+
+def _managed_orgs(*, user):
+    return Organisation.objects.filter(memberships__user=user, memberships__role__in=selectors.MANAGING_ROLES)
+
+
+# ---------------------------------------------------------------------------
+# Sites and buildings
+# ---------------------------------------------------------------------------
+SITE_FIELDS = [
+    "code", "name", "address", "latitude", "longitude", "altitude_m", "time_zone",
+    "normals_min_c", "normals_max_c", "preheat_threshold_c", "cooling_threshold_c",
+]  # fmt: skip
+
+
+class SiteOutput(serializers.ModelSerializer):
+    organisation = serializers.SlugRelatedField(slug_field="slug", read_only=True)
+    client = serializers.SlugRelatedField(slug_field="slug", read_only=True)
+
+    class Meta:
+        model = Site
+        fields = ["id", "organisation", "client", *SITE_FIELDS, "freeze_season_start", "cooling_season_start"]
+        read_only_fields = fields
+
+
+class SiteInput(NamesValueMixin, serializers.ModelSerializer):
+    organisation = serializers.SlugRelatedField(
+        slug_field="slug", queryset=Organisation.objects.all(), required=False,
+        help_text="Slug of the maintaining organisation; may be left out by a person who manages only one.",
+    )  # fmt: skip
+    client = serializers.SlugRelatedField(
+        slug_field="slug", queryset=Organisation.objects.all(), required=False, allow_null=True
+    )
+    normals_min_c = serializers.ListField(child=serializers.FloatField(), min_length=12, max_length=12, required=False)
+    normals_max_c = serializers.ListField(child=serializers.FloatField(), min_length=12, max_length=12, required=False)
+
+    class Meta:
+        model = Site
+        fields = ["organisation", "client", *SITE_FIELDS]
+        validators: list = []  # uniqueness is checked by the model's full_clean in the service
+
+
+class BuildingOutput(serializers.ModelSerializer):
+    site_code = serializers.CharField(source="site.code", read_only=True)
+
+    class Meta:
+        model = Building
+        fields = ["id", "site", "site_code", "code", "name", "floors"]
+        read_only_fields = fields
+
+
+class BuildingInput(NamesValueMixin, serializers.ModelSerializer):
+    site = VisiblePrimaryKey(selector=_visible_sites)
+
+    class Meta:
+        model = Building
+        fields = ["site", "code", "name", "floors"]
+        validators: list = []
+
+
+# ---------------------------------------------------------------------------
+# Units and components
+# ---------------------------------------------------------------------------
+AHU_FIELDS = [
+    "tag", "location", "area_served", "space_kind", "floor_area_m2", "design_occupants",
+    "design_supply_airflow_m3s", "design_min_oa_fraction", "full_outdoor_air", "heat_recovery",
+    "supply_air_setpoint_c", "duct_static_setpoint_pa", "service_start", "status", "notes",
+]  # fmt: skip
+
+
+class AHUOutput(serializers.ModelSerializer):
+    site = serializers.IntegerField(source="building.site_id", read_only=True)
+    site_code = serializers.CharField(source="building.site.code", read_only=True)
+    building_code = serializers.CharField(source="building.code", read_only=True)
+    label_url = serializers.SerializerMethodField()
+
+    class Meta:
+        model = AHU
+        fields = ["id", "site", "site_code", "building", "building_code", "label_code", "label_url", *AHU_FIELDS]
+        read_only_fields = fields
+
+    def get_label_url(self, obj) -> str:
+        return label_absolute_url(code=obj.label_code)
+
+
+class AHUInput(NamesValueMixin, serializers.ModelSerializer):
+    building = VisiblePrimaryKey(selector=selectors.buildings_visible_to)
+
+    class Meta:
+        model = AHU
+        fields = ["building", *AHU_FIELDS]
+        validators: list = []
+
+
+COMPONENT_FIELDS = ["kind", "name", "parent", "specs", "position", "installed_on"]
+
+
+class ComponentOutput(serializers.ModelSerializer):
+    kind_label = serializers.CharField(source="get_kind_display", read_only=True)
+    label_url = serializers.SerializerMethodField()
+
+    class Meta:
+        model = Component
+        fields = ["id", "ahu", "label_code", "label_url", "kind_label", *COMPONENT_FIELDS]
+        read_only_fields = fields
+
+    def get_label_url(self, obj) -> str:
+        return label_absolute_url(code=obj.label_code)
+
+
+class ComponentInput(NamesValueMixin, serializers.ModelSerializer):
+    ahu = VisiblePrimaryKey(selector=selectors.ahus_visible_to)
+    parent = VisiblePrimaryKey(selector=selectors.components_visible_to, required=False, allow_null=True)
+    specs = serializers.DictField(
+        required=False, help_text="Spec field: value, in SI units; see /api/inventory/component-kinds/."
+    )
+
+    class Meta:
+        model = Component
+        fields = ["ahu", *COMPONENT_FIELDS]
+
+
+class ComponentNode(serializers.Serializer):
+    component = ComponentOutput()
+    children = serializers.SerializerMethodField()
+
+    def get_children(self, obj) -> list[dict]:
+        return ComponentNode(obj["children"], many=True, context=self.context).data
+
+
+class AHUTreeOutput(serializers.Serializer):
+    unit = AHUOutput()
+    components = ComponentNode(many=True)
+
+
+# ---------------------------------------------------------------------------
+# Component kinds and their spec fields
+# ---------------------------------------------------------------------------
+class SpecFieldOutput(serializers.Serializer):
+    name = serializers.CharField()
+    label = serializers.CharField()
+    type = serializers.CharField(help_text="number, integer, choice, text, date or bool")
+    unit = serializers.CharField(allow_blank=True)
+    min = serializers.FloatField(allow_null=True)
+    max = serializers.FloatField(allow_null=True)
+    choices = serializers.ListField(child=serializers.CharField())
+    required = serializers.BooleanField()
+    allowed = serializers.CharField()
+
+
+class ComponentKindOutput(serializers.Serializer):
+    kind = serializers.CharField()
+    label = serializers.CharField()
+    fields = SpecFieldOutput(many=True)
+
+
+class ImportErrorOutput(serializers.Serializer):
+    line = serializers.IntegerField()
+    column = serializers.CharField()
+    value = serializers.CharField(allow_blank=True)
+    reason = serializers.CharField()
+
+
+class ImportResultOutput(serializers.Serializer):
+    kind = serializers.CharField()
+    created = serializers.IntegerField()
+    updated = serializers.IntegerField()
+    dry_run = serializers.BooleanField()
+
+
+class ImportFailedOutput(serializers.Serializer):
+    detail = serializers.CharField()
+    errors = ImportErrorOutput(many=True)
+
+
+class ImportInput(serializers.Serializer):
+    file = serializers.FileField(help_text="CSV, UTF-8, comma-separated, header row first.")
+    organisation = serializers.SlugField(required=False)
+    dry_run = serializers.BooleanField(required=False, default=False)
