@@ -38,15 +38,17 @@ from .serializers import (
 from .specs import SPECS
 
 
-class ErrorOutput(serializers.Serializer):
+class RegistryErrorOutput(serializers.Serializer):
     detail = serializers.CharField()
     errors = serializers.DictField(required=False)
 
 
-R400 = OpenApiResponse(ErrorOutput, description="Bad input: `errors` names each field, the value and what is allowed.")
-R403 = OpenApiResponse(ErrorOutput, description="Signed in, but not a supervisor or admin of the organisation.")
-R404 = OpenApiResponse(ErrorOutput, description="No such record, or not one the person may see.")
-R401 = OpenApiResponse(ErrorOutput, description="Not signed in, or the token is unknown or revoked.")
+R400 = OpenApiResponse(
+    RegistryErrorOutput, description="Bad input: `errors` names each field, the value and what is allowed."
+)
+R403 = OpenApiResponse(RegistryErrorOutput, description="Signed in, but not a supervisor or admin of the organisation.")
+R404 = OpenApiResponse(RegistryErrorOutput, description="No such record, or not one the person may see.")
+R401 = OpenApiResponse(RegistryErrorOutput, description="Not signed in, or the token is unknown or revoked.")
 
 
 def _require_manages(*, user, site_id: int) -> None:
