@@ -259,8 +259,8 @@ def filter_forecast(
             unit="Pa",
         )
     at_final = rate.x_at(final)
-    early = rate.x_at(final, rate.high)
-    late = rate.x_at(final, rate.low) if rate.low > 0 else None
+    early = rate.x_at(final, "high")
+    late = rate.x_at(final, "low") if rate.low > 0 else None
 
     last_h, _, last_when = max(usable, key=lambda u: u[0])
     if hpd is None:
@@ -274,7 +274,9 @@ def filter_forecast(
         if h is None or hpd is None:
             return None
         dt = _as_datetime(last_when) + timedelta(days=(h - last_h) / hpd)
-        return dt if isinstance(last_when, datetime) else dt.date()
+        if isinstance(last_when, datetime):
+            return dt
+        return (dt + timedelta(hours=12)).date()  # nearest whole day
 
     return FilterForecast(
         run_hours_at_final=at_final,

@@ -24,24 +24,31 @@ __all__ = ["Rate", "days_since", "robust_rate", "run_hours_per_day"]
 @dataclass(frozen=True)
 class Rate:
     slope: float
-    intercept: float  # y at x = 0
+    intercept: float  # y at x = 0: median of y − slope·x
     low: float  # lower bound of the slope's confidence interval
     high: float  # upper bound
     n: int
-    x_median: float
-    y_median: float
+    intercept_low: float  # median of y − low·x, the line drawn with the low slope
+    intercept_high: float  # median of y − high·x
 
-    def x_at(self, y: float, slope: float | None = None) -> float:
-        """x where the line through the medians with ``slope`` reaches y."""
-        s = self.slope if slope is None else slope
-        return self.x_median + (y - self.y_median) / s
+    def x_at(self, y: float, slope: str = "central") -> float:
+        """x where the fitted line (``slope`` "central", "low" or "high") reaches y."""
+        s, b = {
+            "central": (self.slope, self.intercept),
+            "low": (self.low, self.intercept_low),
+            "high": (self.high, self.intercept_high),
+        }[slope]
+        return (y - b) / s
 
 
 def robust_rate(*, points: Sequence[tuple[float, float]], confidence: float = 0.95) -> Rate:
     """Theil–Sen slope of y against x with a ``confidence`` interval.
 
     Median of pairwise slopes (Theil 1950; Sen 1968) via
-    scipy.stats.theilslopes. Refuses fewer than 2 points or all x equal.
+    scipy.stats.theilslopes; the intercept is the median of y − slope·x
+    (scipy's "joint" method), which one wild reading cannot shift the way
+    it shifts the separate medians of x and y. Refuses fewer than 2 points
+    or all x equal.
     """
     conf = v.in_range("confidence", confidence, 0.0, 1.0, low_open=True, high_open=True)
     try:
@@ -73,16 +80,19 @@ def robust_rate(*, points: Sequence[tuple[float, float]], confidence: float = 0.
             allowed="at least two different x values",
             message=f"all {len(pts)} points have the same x={v.fmt(xs[0])}: no rate can be drawn",
         )
-    res = stats.theilslopes(ys, xs, alpha=conf)
-    xs_sorted, ys_sorted = sorted(xs), sorted(ys)
+    res = stats.theilslopes(ys, xs, alpha=conf, method="joint")
+
+    def intercept(s: float) -> float:
+        return float(_median(sorted(y - s * x for x, y in pts)))
+
     return Rate(
         slope=float(res.slope),
         intercept=float(res.intercept),
         low=float(res.low_slope),
         high=float(res.high_slope),
         n=len(pts),
-        x_median=float(_median(xs_sorted)),
-        y_median=float(_median(ys_sorted)),
+        intercept_low=intercept(float(res.low_slope)),
+        intercept_high=intercept(float(res.high_slope)),
     )
 
 

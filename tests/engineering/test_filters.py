@@ -1,0 +1,140 @@
+"""Filter pressure drop: correction, loading, forecast, energy."""
+
+from datetime import date, datetime, timedelta
+
+import pytest
+
+from engineering import (
+    EngineeringInputError,
+    FilterPoint,
+    InsufficientDataError,
+    Verdict,
+    corrected_pressure_drop,
+    economic_change_point,
+    filter_extra_energy,
+    filter_forecast,
+    filter_loading,
+)
+
+
+def test_correction_to_design_airflow():
+    # Δp_d = Δp (Q_d/Q)^n; n = 1.5 default (common practice, between Darcy n=1 and square law n=2).
+    assert corrected_pressure_drop(dp_pa=100.0, airflow_m3s=1.6, design_airflow_m3s=2.0) == pytest.approx(
+        100.0 * 1.25**1.5
+    )
+    assert corrected_pressure_drop(
+        dp_pa=100.0, airflow_m3s=1.6, design_airflow_m3s=2.0, exponent=2.0
+    ) == pytest.approx(156.25)
+
+
+def test_airflow_too_far_from_design_is_refused():
+    with pytest.raises(EngineeringInputError) as exc:
+        corrected_pressure_drop(dp_pa=100.0, airflow_m3s=0.5, design_airflow_m3s=2.0)
+    assert exc.value.field == "airflow_m3s" and "1–3 m³/s" in str(exc.value)
+
+
+@pytest.mark.parametrize(
+    ("dp", "verdict"),
+    [(150.0, Verdict.OK), (210.0, Verdict.WATCH), (245.0, Verdict.FAIL)],
+)
+def test_loading_verdicts_at_75_and_95_percent_of_span(dp, verdict):
+    # Clean 80 Pa, final 250 Pa; watch ≥ 0.75, fail ≥ 0.95 of the span (common practice).
+    result = filter_loading(
+        dp_pa=dp, airflow_m3s=2.0, design_airflow_m3s=2.0, clean_dp_pa=80.0, final_dp_pa=250.0
+    )
+    assert result.verdict is verdict
+    assert result.fraction_of_span == pytest.approx((dp - 80) / 170)
+    assert "Pa" in result.reason
+
+
+def test_final_not_above_clean_is_refused():
+    with pytest.raises(EngineeringInputError, match="final_dp_pa=80"):
+        filter_loading(dp_pa=100, airflow_m3s=2, design_airflow_m3s=2, clean_dp_pa=80, final_dp_pa=80)
+
+
+def _points(rate=0.02, start=80.0, hours_per_day=12.0, n=8, outlier_at=None, airflow=2.0):
+    pts = []
+    for i in range(n):
+        h = i * 500.0
+        dp = start + rate * h + (40.0 if i == outlier_at else 0.0)
+        pts.append(FilterPoint(run_hours=h, dp_pa=dp, airflow_m3s=airflow, when=date(2025, 1, 1) + timedelta(days=h / hours_per_day)))
+    return pts
+
+
+def test_forecast_of_a_linear_rise_with_one_bad_reading():
+    """Theil–Sen ignores a single mistyped reading: 80 Pa + 0.02 Pa/h reaches
+    250 Pa at 8500 h, 8500/12 days after the first reading."""
+    fc = filter_forecast(points=_points(outlier_at=3), design_airflow_m3s=2.0, final_dp_pa=250.0)
+    assert fc.rate_pa_per_hour == pytest.approx(0.02, rel=1e-9)
+    assert fc.run_hours_at_final == pytest.approx(8500, rel=0.01)
+    assert fc.run_hours_low <= fc.run_hours_at_final
+    assert fc.hours_per_day == pytest.approx(12.0)
+    assert abs((fc.date_at_final - date(2025, 1, 1)).days - 8500 / 12) <= 5
+    assert fc.points_used == 8 and "Theil–Sen" in fc.method
+
+
+def test_forecast_corrects_readings_taken_at_low_airflow():
+    pts = [
+        FilterPoint(p.run_hours, p.dp_pa * 0.8**1.5, 1.6, p.when) for p in _points()
+    ]  # the same filter read at 80 % airflow
+    fc = filter_forecast(points=pts, design_airflow_m3s=2.0, final_dp_pa=250.0, hours_per_day=24.0)
+    assert fc.run_hours_at_final == pytest.approx(8500, rel=1e-6)
+    assert fc.date_at_final == pts[-1].when + timedelta(days=round((8500 - 3500) / 24))
+
+
+def test_forecast_with_datetimes_returns_a_datetime():
+    pts = [FilterPoint(p.run_hours, p.dp_pa, p.airflow_m3s, datetime(2025, 1, 1, 8) + (p.when - date(2025, 1, 1))) for p in _points()]
+    fc = filter_forecast(points=pts, design_airflow_m3s=2.0, final_dp_pa=250.0)
+    assert isinstance(fc.date_at_final, datetime)
+
+
+def test_forecast_refuses_fewer_than_three_points():
+    with pytest.raises(InsufficientDataError, match="at least 3 usable readings"):
+        filter_forecast(points=_points(n=2), design_airflow_m3s=2.0, final_dp_pa=250.0)
+
+
+def test_forecast_does_not_count_readings_it_cannot_correct():
+    pts = _points(n=4)
+    pts[1] = FilterPoint(pts[1].run_hours, pts[1].dp_pa, 0.4, pts[1].when)  # 20 % of design airflow
+    pts[2] = FilterPoint(pts[2].run_hours, pts[2].dp_pa, 0.4, pts[2].when)
+    with pytest.raises(InsufficientDataError, match="got 2"):
+        filter_forecast(points=pts, design_airflow_m3s=2.0, final_dp_pa=250.0)
+
+
+@pytest.mark.parametrize("rate", [0.0, -0.01, 0.0001])
+def test_forecast_refuses_flat_or_falling_trend(rate):
+    with pytest.raises(InsufficientDataError, match="not rising"):
+        filter_forecast(points=_points(rate=rate), design_airflow_m3s=2.0, final_dp_pa=250.0)
+
+
+def test_extra_energy_over_a_filter_life():
+    # Eurovent 4/21-style average (from memory): 0.944 m³/s, 6000 h, η = 0.5;
+    # Δp rising linearly 80 → 250 Pa gives a mean extra 85 Pa:
+    # E = 0.944 × 85 × 6000 / 0.5 = 962 880 Wh.
+    e = filter_extra_energy(
+        airflow_m3s=0.944, clean_dp_pa=80, final_dp_pa=250, run_hours=6000, fan_system_efficiency=0.5,
+        price_per_kwh=0.2,
+    )
+    assert e.extra_energy_wh == pytest.approx(962_880)
+    assert e.extra_cost == pytest.approx(192.576)
+
+
+def test_economic_change_point_balances_energy_cost_against_a_new_set():
+    r, q, eta, price, k = 0.02, 2.0, 0.5, 0.2, 300.0
+    ecp = economic_change_point(
+        rate_pa_per_hour=r, airflow_m3s=q, fan_system_efficiency=eta, price_per_kwh=price, filter_set_cost=k
+    )
+    assert ecp.extra_cost_at_point == pytest.approx(k)
+    # The same point minimises total cost per run-hour (K + a t²/2)/t: check numerically.
+    a = price * q * r / (eta * 1000)
+    cost_rate = [(k + a * t * t / 2) / t for t in (ecp.run_hours * 0.9, ecp.run_hours, ecp.run_hours * 1.1)]
+    assert cost_rate[1] < cost_rate[0] and cost_rate[1] < cost_rate[2]
+    assert not ecp.limited_by_final_dp
+
+
+def test_economic_change_point_limited_by_final_pressure_drop():
+    ecp = economic_change_point(
+        rate_pa_per_hour=0.02, airflow_m3s=2.0, fan_system_efficiency=0.5, price_per_kwh=0.2,
+        filter_set_cost=3000.0, clean_dp_pa=80.0, final_dp_pa=250.0,
+    )
+    assert ecp.limited_by_final_dp and ecp.run_hours == pytest.approx(8500)
