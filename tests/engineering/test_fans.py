@@ -21,8 +21,13 @@ def test_fan_laws_at_half_speed():
 
 def test_fan_laws_with_density():
     p = fan_law_scale(
-        flow_m3s=4.0, pressure_pa=800.0, power_w=5000.0, speed_from=1450, speed_to=1450,
-        density_from=1.2, density_to=1.0,
+        flow_m3s=4.0,
+        pressure_pa=800.0,
+        power_w=5000.0,
+        speed_from=1450,
+        speed_to=1450,
+        density_from=1.2,
+        density_to=1.0,
     )
     assert (p.flow_m3s, p.pressure_pa, p.power_w) == pytest.approx((4.0, 800 / 1.2, 5000 / 1.2))
 

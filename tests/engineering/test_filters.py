@@ -22,9 +22,9 @@ def test_correction_to_design_airflow():
     assert corrected_pressure_drop(dp_pa=100.0, airflow_m3s=1.6, design_airflow_m3s=2.0) == pytest.approx(
         100.0 * 1.25**1.5
     )
-    assert corrected_pressure_drop(
-        dp_pa=100.0, airflow_m3s=1.6, design_airflow_m3s=2.0, exponent=2.0
-    ) == pytest.approx(156.25)
+    assert corrected_pressure_drop(dp_pa=100.0, airflow_m3s=1.6, design_airflow_m3s=2.0, exponent=2.0) == pytest.approx(
+        156.25
+    )
 
 
 def test_airflow_too_far_from_design_is_refused():
@@ -39,9 +39,7 @@ def test_airflow_too_far_from_design_is_refused():
 )
 def test_loading_verdicts_at_75_and_95_percent_of_span(dp, verdict):
     # Clean 80 Pa, final 250 Pa; watch ≥ 0.75, fail ≥ 0.95 of the span (common practice).
-    result = filter_loading(
-        dp_pa=dp, airflow_m3s=2.0, design_airflow_m3s=2.0, clean_dp_pa=80.0, final_dp_pa=250.0
-    )
+    result = filter_loading(dp_pa=dp, airflow_m3s=2.0, design_airflow_m3s=2.0, clean_dp_pa=80.0, final_dp_pa=250.0)
     assert result.verdict is verdict
     assert result.fraction_of_span == pytest.approx((dp - 80) / 170)
     assert "Pa" in result.reason
@@ -57,7 +55,11 @@ def _points(rate=0.02, start=80.0, hours_per_day=12.0, n=8, outlier_at=None, air
     for i in range(n):
         h = i * 500.0
         dp = start + rate * h + (40.0 if i == outlier_at else 0.0)
-        pts.append(FilterPoint(run_hours=h, dp_pa=dp, airflow_m3s=airflow, when=date(2025, 1, 1) + timedelta(days=h / hours_per_day)))
+        pts.append(
+            FilterPoint(
+                run_hours=h, dp_pa=dp, airflow_m3s=airflow, when=date(2025, 1, 1) + timedelta(days=h / hours_per_day)
+            )
+        )
     return pts
 
 
@@ -83,7 +85,10 @@ def test_forecast_corrects_readings_taken_at_low_airflow():
 
 
 def test_forecast_with_datetimes_returns_a_datetime():
-    pts = [FilterPoint(p.run_hours, p.dp_pa, p.airflow_m3s, datetime(2025, 1, 1, 8) + (p.when - date(2025, 1, 1))) for p in _points()]
+    pts = [
+        FilterPoint(p.run_hours, p.dp_pa, p.airflow_m3s, datetime(2025, 1, 1, 8) + (p.when - date(2025, 1, 1)))
+        for p in _points()
+    ]
     fc = filter_forecast(points=pts, design_airflow_m3s=2.0, final_dp_pa=250.0)
     assert isinstance(fc.date_at_final, datetime)
 
@@ -112,7 +117,11 @@ def test_extra_energy_over_a_filter_life():
     # Δp rising linearly 80 → 250 Pa gives a mean extra 85 Pa:
     # E = 0.944 × 85 × 6000 / 0.5 = 962 880 Wh.
     e = filter_extra_energy(
-        airflow_m3s=0.944, clean_dp_pa=80, final_dp_pa=250, run_hours=6000, fan_system_efficiency=0.5,
+        airflow_m3s=0.944,
+        clean_dp_pa=80,
+        final_dp_pa=250,
+        run_hours=6000,
+        fan_system_efficiency=0.5,
         price_per_kwh=0.2,
     )
     assert e.extra_energy_wh == pytest.approx(962_880)
@@ -134,7 +143,12 @@ def test_economic_change_point_balances_energy_cost_against_a_new_set():
 
 def test_economic_change_point_limited_by_final_pressure_drop():
     ecp = economic_change_point(
-        rate_pa_per_hour=0.02, airflow_m3s=2.0, fan_system_efficiency=0.5, price_per_kwh=0.2,
-        filter_set_cost=3000.0, clean_dp_pa=80.0, final_dp_pa=250.0,
+        rate_pa_per_hour=0.02,
+        airflow_m3s=2.0,
+        fan_system_efficiency=0.5,
+        price_per_kwh=0.2,
+        filter_set_cost=3000.0,
+        clean_dp_pa=80.0,
+        final_dp_pa=250.0,
     )
     assert ecp.limited_by_final_dp and ecp.run_hours == pytest.approx(8500)

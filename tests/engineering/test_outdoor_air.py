@@ -98,7 +98,7 @@ def test_mixed_slightly_outside_within_accuracy_is_clipped():
 
 def test_outdoor_airflow_and_bad_fraction():
     assert outdoor_airflow_m3s(fraction=0.25, supply_airflow_m3s=4.0) == pytest.approx(1.0)
-    with pytest.raises(EngineeringInputError, match="fraction=1.2 is outside 0–1"):
+    with pytest.raises(EngineeringInputError, match=r"fraction=1\.2 is outside 0–1"):
         outdoor_airflow_m3s(fraction=1.2, supply_airflow_m3s=4.0)
 
 

@@ -1,0 +1,85 @@
+"""Season starts and degree-days. Climate normals here are invented for the
+tests; only their shape (cold winter, warm summer) matters."""
+
+from datetime import date
+
+import pytest
+
+from engineering import (
+    HDD_BASE_65F_C,
+    EngineeringInputError,
+    Verdict,
+    cooling_season_start,
+    daily_minimums_from_normals,
+    freeze_risk,
+    freeze_season_start,
+    heating_degree_days,
+    heating_degree_days_65f,
+)
+
+NORTH_MIN = [-5, -4, 0, 4, 9, 13, 15, 14, 10, 6, 1, -3]  # invented, northern mid-latitude shape
+SOUTH_MIN = [18, 18, 16, 12, 9, 6, 4, 6, 8, 11, 14, 16]  # invented, southern shape
+
+
+def test_normals_are_met_at_mid_month_and_interpolated_between():
+    days = dict(daily_minimums_from_normals(monthly_min_c=NORTH_MIN, start=date(2025, 1, 1), days=365))
+    assert days[date(2025, 1, 16)] == pytest.approx(-5)  # mid-January (31-day month)
+    assert days[date(2025, 7, 16)] == pytest.approx(15)
+    assert -5 < days[date(2025, 2, 1)] < -4
+
+
+def test_interpolation_wraps_over_the_new_year():
+    days = dict(daily_minimums_from_normals(monthly_min_c=NORTH_MIN, start=date(2024, 12, 20), days=20))
+    assert -5 < days[date(2025, 1, 1)] < -3
+
+
+def test_northern_freeze_season_starts_in_autumn_even_when_searched_from_winter():
+    """Searching from January (already cold) finds next autumn, not today."""
+    series = daily_minimums_from_normals(monthly_min_c=NORTH_MIN, start=date(2025, 1, 1), days=730)
+    start = freeze_season_start(daily_minimums=series)
+    assert date(2025, 10, 1) <= start <= date(2025, 11, 15)
+    assert start == freeze_season_start(daily_minimums=series, search_from=date(2025, 6, 1))
+
+
+def test_southern_freeze_season_starts_around_june():
+    series = daily_minimums_from_normals(monthly_min_c=SOUTH_MIN, start=date(2025, 1, 1), days=365)
+    start = freeze_season_start(daily_minimums=series, threshold_c=5.0)
+    assert date(2025, 6, 1) <= start <= date(2025, 7, 31)
+
+
+def test_no_crossing_gives_none():
+    series = daily_minimums_from_normals(monthly_min_c=[20] * 12, start=date(2025, 1, 1), days=365)
+    assert freeze_season_start(daily_minimums=series) is None
+
+
+def test_cooling_season_from_daily_maximums():
+    maxima = [
+        (d, t + 11) for d, t in daily_minimums_from_normals(monthly_min_c=NORTH_MIN, start=date(2025, 1, 1), days=365)
+    ]
+    start = cooling_season_start(daily_maximums=maxima, threshold_c=24.0)
+    assert date(2025, 5, 15) <= start <= date(2025, 7, 16)
+
+
+def test_heating_degree_days_by_daily_mean():
+    # HDD = Σ max(0, base − mean), mean = (min+max)/2 (daily-mean method; from memory of ASHRAE Fundamentals ch.14).
+    assert heating_degree_days(daily_min_max_c=[(0, 10), (20, 30), (15, 17)]) == pytest.approx(13 + 0 + 2)
+    assert heating_degree_days(daily_mean_c=[18, 19]) == 0
+
+
+def test_65f_base_in_fahrenheit_degree_days():
+    # 65 °F = 18.33 °C; a day at 32 °F mean is 33 °F·day on the 65 °F base (definition).
+    assert abs(HDD_BASE_65F_C - 18.3333) < 1e-4
+    assert heating_degree_days_65f(daily_mean_c=[0.0]) == pytest.approx(33.0)
+
+
+def test_freeze_risk_grades():
+    assert freeze_risk(minimum_c=4.0).verdict is Verdict.FAIL
+    assert freeze_risk(minimum_c=7.0).verdict is Verdict.WATCH
+    assert freeze_risk(minimum_c=9.0).verdict is Verdict.OK
+
+
+def test_wrong_number_of_normals_and_nan_are_refused():
+    with pytest.raises(EngineeringInputError, match="12 values"):
+        daily_minimums_from_normals(monthly_min_c=[1.0] * 11, start=date(2025, 1, 1), days=10)
+    with pytest.raises(EngineeringInputError, match="not a finite number"):
+        heating_degree_days(daily_mean_c=[float("nan")])
