@@ -49,16 +49,19 @@ def daily_values_from_normals(*, monthly_c: Sequence[float], start: date, days: 
     interpolated between mid-month dates and wrapping across the new year.
     Mid-month linear interpolation of monthly normals is common practice
     (it does not preserve the monthly mean exactly)."""
+    return _from_normals(monthly_c, start, days, "monthly_c")
+
+
+def _from_normals(monthly_c: Sequence[float], start: date, days: int, field: str) -> list[tuple[date, float]]:
     if len(monthly_c) != 12:
         raise EngineeringInputError(
-            field="monthly_min_c",
+            field=field,
             value=len(monthly_c),
             allowed="12 monthly values, January first",
             message=f"monthly normals must be 12 values, January first; got {len(monthly_c)}",
         )
     vals = [
-        v.in_range(f"monthly_min_c[{i}]", t, *_OUTDOOR, unit="°C", label="monthly normal")
-        for i, t in enumerate(monthly_c)
+        v.in_range(f"{field}[{i}]", t, *_OUTDOOR, unit="°C", label="monthly normal") for i, t in enumerate(monthly_c)
     ]
     if not isinstance(start, date):
         raise EngineeringInputError(
@@ -84,7 +87,7 @@ def daily_minimums_from_normals(*, monthly_min_c: Sequence[float], start: date, 
     """Daily minimum temperatures from 12 monthly mean-minimum normals;
     see ``daily_values_from_normals`` (mid-month linear interpolation,
     common practice)."""
-    return daily_values_from_normals(monthly_c=monthly_min_c, start=start, days=days)
+    return _from_normals(monthly_min_c, start, days, "monthly_min_c")
 
 
 def _series(name: str, values: Iterable[tuple[date, float]]) -> list[tuple[date, float]]:
