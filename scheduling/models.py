@@ -1,12 +1,202 @@
 """Maintenance rules, meters, outdoor temperatures and work orders."""
 
+import secrets
 import uuid
 
 from django.conf import settings
+from django.core.validators import MinValueValidator
 from django.db import models
+from django.db.models import Q
 
 from accounts.models import Organisation
-from inventory.models import AHU
+from inventory.models import AHU, Component, Site
+
+
+class TaskCategory(models.TextChoices):
+    FILTERS = "filters", "Filters"
+    BELTS_DRIVES = "belts_drives", "Belts and drives"
+    FAN_BEARINGS = "fan_bearings", "Fans and bearings"
+    COILS_DRAIN_PANS = "coils_drain_pans", "Coils and drain pans"
+    DAMPERS_ACTUATORS = "dampers_actuators", "Dampers and actuators"
+    PREHEAT_FREEZE = "preheat_freeze", "Preheater and freeze protection"
+    SENSORS = "sensors", "Sensors and calibration"
+    HEAT_RECOVERY = "heat_recovery", "Heat recovery"
+    INTAKE_SCREEN = "intake_screen", "Outdoor-air intake screen"
+    CONTROLS_VENTILATION = "controls_ventilation", "Controls and ventilation"
+    HUMIDIFIER = "humidifier", "Humidifier"
+
+
+class TaskDefinition(models.Model):
+    """One maintenance task of the library (organisation empty) or of one organisation.
+
+    An organisation's row with the same ``code`` as a library row overrides it for
+    that organisation; an organisation's row with a new code is its own task.
+    """
+
+    class Trigger(models.TextChoices):
+        INTERVAL = "interval", "Every N days/weeks/months"
+        RUNTIME = "runtime", "Every N run-hours"
+        SEASON = "season", "Lead time before a season"
+        CONDITION = "condition", "Only when a reading calls for it"
+
+    class IntervalUnit(models.TextChoices):
+        DAYS = "days", "days"
+        WEEKS = "weeks", "weeks"
+        MONTHS = "months", "months"
+
+    class Anchor(models.TextChoices):
+        CALENDAR = "calendar", "Fixed to the calendar"
+        FLOATING = "floating", "From the last completion"
+
+    class Season(models.TextChoices):
+        FREEZE = "freeze", "Freeze season"
+        COOLING = "cooling", "Cooling season"
+
+    class Skill(models.TextChoices):
+        MECHANICAL = "mechanical", "Mechanical"
+        ELECTRICAL = "electrical", "Electrical"
+        CONTROLS = "controls", "Controls"
+
+    organisation = models.ForeignKey(
+        Organisation,
+        on_delete=models.CASCADE,
+        null=True,
+        blank=True,
+        related_name="task_definitions",
+        help_text="Empty for the shipped library.",
+    )
+    code = models.SlugField(max_length=60)
+    name = models.CharField(max_length=200)
+    description = models.TextField(blank=True)
+    category = models.CharField(max_length=30, choices=TaskCategory.choices)
+    component_kind = models.CharField(
+        max_length=30, blank=True, help_text="Component kind the task is done on; empty for the whole unit."
+    )
+    spec_filter = models.JSONField(
+        default=dict,
+        blank=True,
+        help_text='Only components whose specs match, e.g. {"drive": ["belt"]}.',
+    )
+    extra_targets = models.JSONField(
+        default=list,
+        blank=True,
+        help_text='Further component kinds it applies to, e.g. [{"kind": "coil", "specs": {"duty": ["preheat"]}}].',
+    )
+    trigger = models.CharField(max_length=20, choices=Trigger.choices)
+    interval_value = models.PositiveIntegerField(null=True, blank=True, validators=[MinValueValidator(1)])
+    interval_unit = models.CharField(max_length=10, choices=IntervalUnit.choices, blank=True)
+    anchor = models.CharField(max_length=10, choices=Anchor.choices, default=Anchor.CALENDAR)
+    grace_days = models.PositiveIntegerField(default=7, help_text="Days after the due date before it is overdue.")
+    run_hours = models.PositiveIntegerField(null=True, blank=True, validators=[MinValueValidator(1)])
+    season = models.CharField(max_length=10, choices=Season.choices, blank=True)
+    lead_days = models.PositiveIntegerField(null=True, blank=True)
+    condition_code = models.SlugField(max_length=60, blank=True)
+    checklist_code = models.SlugField(max_length=60, help_text="The checklist template used for this task.")
+    estimated_minutes = models.PositiveIntegerField(default=30)
+    skill = models.CharField(max_length=20, choices=Skill.choices, default=Skill.MECHANICAL)
+    safety_notes = models.TextField(blank=True)
+    source = models.TextField(help_text="Where the default frequency comes from.")
+    enabled = models.BooleanField(default=True)
+    created_at = models.DateTimeField(auto_now_add=True)
+    updated_at = models.DateTimeField(auto_now=True)
+
+    class Meta:
+        ordering = ["category", "code"]
+        constraints = [
+            models.UniqueConstraint(
+                fields=["organisation", "code"],
+                name="taskdef_unique_code_in_org",
+            ),
+            models.UniqueConstraint(
+                fields=["code"],
+                condition=Q(organisation__isnull=True),
+                name="taskdef_unique_library_code",
+            ),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.name} ({self.code})"
+
+    @property
+    def is_library(self) -> bool:
+        return self.organisation_id is None
+
+    def targets(self) -> list[dict]:
+        """Every (kind, spec filter) the task applies to; empty list for a unit-level task."""
+        if not self.component_kind:
+            return []
+        return [{"kind": self.component_kind, "specs": self.spec_filter or {}}, *(self.extra_targets or [])]
+
+
+class UnitTaskSetting(models.Model):
+    """A supervisor's choice for one unit: switch a task off for it."""
+
+    ahu = models.ForeignKey(AHU, on_delete=models.CASCADE, related_name="task_settings")
+    task_code = models.SlugField(max_length=60)
+    enabled = models.BooleanField(default=False)
+    reason = models.CharField(max_length=200, blank=True)
+    updated_at = models.DateTimeField(auto_now=True)
+
+    class Meta:
+        constraints = [models.UniqueConstraint(fields=["ahu", "task_code"], name="unittasksetting_unique")]
+
+    def __str__(self) -> str:
+        return f"{self.ahu.tag}: {self.task_code} {'on' if self.enabled else 'off'}"
+
+
+class MeterReading(models.Model):
+    class Source(models.TextChoices):
+        CHECKLIST = "checklist", "Checklist"
+        BAS_CSV = "bas_csv", "Building-automation CSV"
+        API = "api", "API"
+        MANUAL = "manual", "Typed in"
+
+    ahu = models.ForeignKey(AHU, on_delete=models.CASCADE, related_name="meter_readings")
+    component = models.ForeignKey(
+        Component,
+        on_delete=models.CASCADE,
+        null=True,
+        blank=True,
+        related_name="meter_readings",
+        help_text="The fan whose meter this is; empty for the unit's own meter.",
+    )
+    hours = models.FloatField(validators=[MinValueValidator(0)])
+    taken_at = models.DateTimeField()
+    source = models.CharField(max_length=20, choices=Source.choices, default=Source.MANUAL)
+    is_reset = models.BooleanField(default=False, help_text="The meter was replaced or reset at this reading.")
+    recorded_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True, related_name="+"
+    )
+    created_at = models.DateTimeField(auto_now_add=True)
+
+    class Meta:
+        ordering = ["ahu", "taken_at", "id"]
+        indexes = [models.Index(fields=["ahu", "component", "taken_at"])]
+
+    def __str__(self) -> str:
+        return f"{self.ahu.tag}: {self.hours:g} h at {self.taken_at:%Y-%m-%d %H:%M}"
+
+
+class OutdoorTemperature(models.Model):
+    class Source(models.TextChoices):
+        FORECAST = "forecast", "Forecast"
+        CSV = "csv", "Imported CSV"
+        NORMALS = "normals", "Climate normals"
+
+    site = models.ForeignKey(Site, on_delete=models.CASCADE, related_name="outdoor_temperatures")
+    date = models.DateField()
+    min_c = models.FloatField()
+    max_c = models.FloatField()
+    mean_c = models.FloatField(null=True, blank=True)
+    source = models.CharField(max_length=10, choices=Source.choices)
+    fetched_at = models.DateTimeField(auto_now=True)
+
+    class Meta:
+        ordering = ["site", "date"]
+        constraints = [models.UniqueConstraint(fields=["site", "date"], name="outdoortemp_unique_site_date")]
+
+    def __str__(self) -> str:
+        return f"{self.site.code} {self.date}: {self.min_c:.1f}…{self.max_c:.1f} °C ({self.source})"
 
 
 class WorkOrder(models.Model):
@@ -28,13 +218,42 @@ class WorkOrder(models.Model):
         HIGH = "high", "High"
         URGENT = "urgent", "Urgent"
 
+    class Approval(models.TextChoices):
+        NOT_NEEDED = "not_needed", "Not needed"
+        PENDING = "pending", "Awaiting approval"
+        APPROVED = "approved", "Approved"
+        REJECTED = "rejected", "Rejected"
+
+    # The one table of allowed moves; services enforce it, screens read it.
+    TRANSITIONS: dict[str, frozenset[str]] = {
+        State.PLANNED: frozenset({State.ASSIGNED, State.CANCELLED}),
+        State.ASSIGNED: frozenset({State.PLANNED, State.IN_PROGRESS, State.CANCELLED}),
+        State.IN_PROGRESS: frozenset({State.COMPLETED, State.ASSIGNED, State.CANCELLED}),
+        State.COMPLETED: frozenset({State.VERIFIED, State.IN_PROGRESS}),
+        State.VERIFIED: frozenset(),
+        State.CANCELLED: frozenset(),
+    }
+    OPEN_STATES = frozenset({State.PLANNED, State.ASSIGNED, State.IN_PROGRESS})
+
     public_id = models.UUIDField(default=uuid.uuid4, unique=True, editable=False)
     organisation = models.ForeignKey(Organisation, on_delete=models.PROTECT, related_name="work_orders")
     ahu = models.ForeignKey(AHU, on_delete=models.PROTECT, related_name="work_orders")
+    component = models.ForeignKey(
+        Component,
+        on_delete=models.SET_NULL,
+        null=True,
+        blank=True,
+        related_name="corrective_work_orders",
+        help_text="For corrective work: the component at fault.",
+    )
     kind = models.CharField(max_length=20, choices=Kind.choices, default=Kind.PREVENTIVE)
     state = models.CharField(max_length=20, choices=State.choices, default=State.PLANNED)
     priority = models.CharField(max_length=10, choices=Priority.choices, default=Priority.NORMAL)
+    approval = models.CharField(max_length=12, choices=Approval.choices, default=Approval.NOT_NEEDED)
     title = models.CharField(max_length=200)
+    reason = models.TextField(blank=True)
+    condition_code = models.SlugField(max_length=60, blank=True)
+    source_ref = models.CharField(max_length=200, blank=True, help_text="What raised it, e.g. an inspection id.")
     assignee = models.ForeignKey(
         settings.AUTH_USER_MODEL,
         on_delete=models.PROTECT,
@@ -43,15 +262,87 @@ class WorkOrder(models.Model):
         related_name="assigned_work_orders",
     )
     due_date = models.DateField()
+    overdue_on = models.DateField(null=True, blank=True, help_text="First day it counts as overdue (due + grace).")
     scheduled_for = models.DateField(null=True, blank=True)
+    escalated_on = models.DateField(null=True, blank=True, help_text="Last overdue e-mail to the supervisors.")
+    started_at = models.DateTimeField(null=True, blank=True)
     completed_at = models.DateTimeField(null=True, blank=True)
+    verified_at = models.DateTimeField(null=True, blank=True)
+    cancel_reason = models.CharField(max_length=300, blank=True)
     version = models.PositiveIntegerField(default=1, help_text="Raised on every change; optimistic locking.")
     created_at = models.DateTimeField(auto_now_add=True)
     updated_at = models.DateTimeField(auto_now=True)
 
     class Meta:
         ordering = ["due_date", "id"]
-        indexes = [models.Index(fields=["organisation", "state", "due_date"])]
+        indexes = [
+            models.Index(fields=["organisation", "state", "due_date"]),
+            models.Index(fields=["assignee", "state", "due_date"]),
+        ]
 
     def __str__(self) -> str:
         return f"{self.title} — {self.ahu.tag} (due {self.due_date})"
+
+    @property
+    def is_open(self) -> bool:
+        return self.state in self.OPEN_STATES
+
+    def can_move_to(self, state: str) -> bool:
+        return state in self.TRANSITIONS.get(self.state, frozenset())
+
+    def estimated_minutes(self) -> int:
+        """Sum of the tasks' estimates; uses prefetched tasks when present."""
+        return sum(t.task.estimated_minutes for t in self.tasks.all())
+
+
+class WorkOrderTask(models.Model):
+    """One due occurrence of one task on one unit or component, inside a visit.
+
+    ``(ahu, task_code, component_key, occurrence_key)`` is unique in the
+    database, so concurrent generation runs cannot create an occurrence twice.
+    ``component_key`` is the component id or 0 for the unit itself (a NULL would
+    not take part in the uniqueness on every database).
+    """
+
+    work_order = models.ForeignKey(WorkOrder, on_delete=models.CASCADE, related_name="tasks")
+    task = models.ForeignKey(TaskDefinition, on_delete=models.PROTECT, related_name="occurrences")
+    task_code = models.SlugField(max_length=60)
+    ahu = models.ForeignKey(AHU, on_delete=models.CASCADE, related_name="task_occurrences")
+    component = models.ForeignKey(
+        Component, on_delete=models.CASCADE, null=True, blank=True, related_name="task_occurrences"
+    )
+    component_key = models.BigIntegerField(default=0)
+    due_date = models.DateField()
+    occurrence_key = models.CharField(max_length=80)
+    completed_at = models.DateTimeField(null=True, blank=True)
+
+    class Meta:
+        ordering = ["work_order", "due_date", "id"]
+        constraints = [
+            models.UniqueConstraint(
+                fields=["ahu", "task_code", "component_key", "occurrence_key"], name="wotask_unique_occurrence"
+            )
+        ]
+        indexes = [models.Index(fields=["ahu", "task_code", "component_key", "completed_at"])]
+
+    def __str__(self) -> str:
+        return f"{self.task_code} on {self.component_id or 'unit'} due {self.due_date}"
+
+
+def new_feed_token() -> str:
+    return secrets.token_urlsafe(32)
+
+
+class CalendarFeed(models.Model):
+    """A secret URL that serves one technician's assigned visits as iCalendar."""
+
+    user = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.CASCADE, related_name="calendar_feeds")
+    token = models.CharField(max_length=64, unique=True, default=new_feed_token, editable=False)
+    created_at = models.DateTimeField(auto_now_add=True)
+    revoked_at = models.DateTimeField(null=True, blank=True)
+
+    class Meta:
+        ordering = ["-created_at"]
+
+    def __str__(self) -> str:
+        return f"Calendar of {self.user} ({'revoked' if self.revoked_at else 'active'})"

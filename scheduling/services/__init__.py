@@ -1,0 +1,49 @@
+"""Writes of the scheduling app. Import from here: ``from scheduling.services import work_order_assign``."""
+
+from .library import task_definition_create, task_definition_override, task_library_install, unit_task_set
+from .meters import meter_reading_record, meter_readings_import_csv
+from .seasons import outdoor_temperatures_import_csv, outdoor_temperatures_store, site_seasons_refresh
+from .work_orders import (
+    WorkOrderConflict,
+    WorkOrderTransitionError,
+    calendar_feed_issue,
+    calendar_feed_revoke,
+    corrective_work_order_approve,
+    corrective_work_order_propose,
+    corrective_work_order_reject,
+    overdue_escalation_send,
+    work_order_assign,
+    work_order_cancel,
+    work_order_complete,
+    work_order_start,
+    work_order_transition,
+    work_order_unassign,
+    work_order_verify,
+)
+
+__all__ = [
+    "WorkOrderConflict",
+    "WorkOrderTransitionError",
+    "calendar_feed_issue",
+    "calendar_feed_revoke",
+    "corrective_work_order_approve",
+    "corrective_work_order_propose",
+    "corrective_work_order_reject",
+    "meter_reading_record",
+    "meter_readings_import_csv",
+    "outdoor_temperatures_import_csv",
+    "outdoor_temperatures_store",
+    "overdue_escalation_send",
+    "site_seasons_refresh",
+    "task_definition_create",
+    "task_definition_override",
+    "task_library_install",
+    "unit_task_set",
+    "work_order_assign",
+    "work_order_cancel",
+    "work_order_complete",
+    "work_order_start",
+    "work_order_transition",
+    "work_order_unassign",
+    "work_order_verify",
+]

@@ -1,0 +1,163 @@
+"""Writes to the task library: install the shipped defaults, override, add, switch off per unit."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from django.core.exceptions import ValidationError
+from django.db import transaction
+
+from accounts.models import Organisation
+from inventory.models import AHU, ComponentKind
+
+from ..library import LIBRARY
+from ..models import TaskDefinition, UnitTaskSetting
+
+# Fields a supervisor may change on an override; identity fields (code, category) stay.
+OVERRIDABLE = {
+    "name",
+    "description",
+    "interval_value",
+    "interval_unit",
+    "anchor",
+    "grace_days",
+    "run_hours",
+    "lead_days",
+    "estimated_minutes",
+    "skill",
+    "safety_notes",
+    "enabled",
+    "source",
+}
+
+
+def _validate_task(task: TaskDefinition) -> None:
+    errors: dict[str, list[str]] = {}
+    if task.component_kind and task.component_kind not in ComponentKind.values:
+        errors["component_kind"] = [
+            f"component_kind={task.component_kind!r} is not one of {', '.join(ComponentKind.values)} (or empty)"
+        ]
+    trig = task.trigger
+    if trig == TaskDefinition.Trigger.INTERVAL:
+        if not task.interval_value:
+            errors["interval_value"] = [
+                f"interval_value={task.interval_value!r}: an interval task needs a whole number ≥ 1"
+            ]
+        if task.interval_unit not in TaskDefinition.IntervalUnit.values:
+            errors["interval_unit"] = [
+                f"interval_unit={task.interval_unit!r} is not one of {', '.join(TaskDefinition.IntervalUnit.values)}"
+            ]
+    elif trig == TaskDefinition.Trigger.RUNTIME:
+        if not task.run_hours:
+            errors["run_hours"] = [f"run_hours={task.run_hours!r}: a run-hour task needs a whole number of hours ≥ 1"]
+    elif trig == TaskDefinition.Trigger.SEASON:
+        if task.season not in TaskDefinition.Season.values:
+            errors["season"] = [f"season={task.season!r} is not one of {', '.join(TaskDefinition.Season.values)}"]
+        if task.lead_days is None:
+            errors["lead_days"] = ["lead_days is required for a season task (days before the season starts, ≥ 0)"]
+    elif trig == TaskDefinition.Trigger.CONDITION and not task.condition_code:
+        errors["condition_code"] = ["condition_code is required for a task raised only by a condition"]
+    if errors:
+        raise ValidationError(errors)
+    task.full_clean(exclude=["organisation"] if task.organisation_id is None else None, validate_constraints=False)
+
+
+@transaction.atomic
+def task_library_install(*, organisation: Organisation | None = None) -> list[TaskDefinition]:
+    """Install or refresh the shipped library (idempotent).
+
+    Without an organisation the shared library rows are written; every
+    organisation sees them unless it overrides a code. With an organisation,
+    the library is copied into that organisation's own rows (only codes it does
+    not have yet), so its supervisors can edit them freely.
+    """
+    existing = {t.code: t for t in TaskDefinition.objects.filter(organisation=organisation)}
+    out: list[TaskDefinition] = []
+    for item in LIBRARY:
+        fields = {**item, "checklist_code": item["code"]}
+        task = existing.get(item["code"])
+        if task is None:
+            task = TaskDefinition(organisation=organisation, **fields)
+            _validate_task(task)
+            task.save()
+        elif organisation is None:
+            # The shared rows follow the shipped data; organisation copies are the supervisors' own.
+            changed = [k for k, v in fields.items() if getattr(task, k) != v]
+            for k in changed:
+                setattr(task, k, fields[k])
+            if changed:
+                task.save(update_fields=[*changed, "updated_at"])
+        out.append(task)
+    return out
+
+
+@transaction.atomic
+def task_definition_override(*, organisation: Organisation, code: str, by=None, **changes: Any) -> TaskDefinition:
+    """Change a task for one organisation (e.g. its frequency), copying the library row on first change."""
+    bad = set(changes) - OVERRIDABLE
+    if bad:
+        raise ValidationError({sorted(bad)[0]: [f"cannot be changed; allowed: {', '.join(sorted(OVERRIDABLE))}"]})
+    task = TaskDefinition.objects.filter(organisation=organisation, code=code).first()
+    if task is None:
+        base = TaskDefinition.objects.filter(organisation__isnull=True, code=code).first()
+        if base is None:
+            raise ValidationError({"code": [f"code={code!r} is not a task of the library or of {organisation}"]})
+        task = TaskDefinition(
+            **{
+                f.name: getattr(base, f.name)
+                for f in TaskDefinition._meta.concrete_fields
+                if f.name not in {"id", "organisation", "created_at", "updated_at"}
+            },
+            organisation=organisation,
+        )
+    for k, v in changes.items():
+        setattr(task, k, v)
+    if {"interval_value", "interval_unit", "run_hours", "lead_days"} & set(changes) and "source" not in changes:
+        task.source = f"Changed by the organisation{f' ({by})' if by else ''}; library default: {task.source}"
+    _validate_task(task)
+    task.save()
+    if by is not None:
+        from accounts.services import audit_record
+
+        audit_record(actor=by, obj=task, action="task_override", changes=_jsonable(changes), organisation=organisation)
+    return task
+
+
+@transaction.atomic
+def task_definition_create(*, organisation: Organisation, by=None, **fields: Any) -> TaskDefinition:
+    """An organisation's own task. ``checklist_code`` defaults to the code."""
+    fields.setdefault("checklist_code", fields.get("code", ""))
+    fields.setdefault("source", "Set by the organisation")
+    task = TaskDefinition(organisation=organisation, **fields)
+    if TaskDefinition.objects.filter(organisation=organisation, code=task.code).exists():
+        raise ValidationError({"code": [f"code={task.code!r} already exists in {organisation}"]})
+    _validate_task(task)
+    task.save()
+    if by is not None:
+        from accounts.services import audit_record
+
+        audit_record(actor=by, obj=task, action="task_create", changes=_jsonable(fields), organisation=organisation)
+    return task
+
+
+@transaction.atomic
+def unit_task_set(*, ahu: AHU, task_code: str, enabled: bool, reason: str = "", by=None) -> UnitTaskSetting:
+    """Switch one task off (or back on) for one unit."""
+    setting, _ = UnitTaskSetting.objects.update_or_create(
+        ahu=ahu, task_code=task_code, defaults={"enabled": enabled, "reason": reason}
+    )
+    if by is not None:
+        from accounts.services import audit_record
+
+        audit_record(
+            actor=by,
+            obj=setting,
+            action="unit_task_set",
+            changes={"task_code": task_code, "enabled": enabled, "reason": reason},
+            organisation=ahu.building.site.organisation,
+        )
+    return setting
+
+
+def _jsonable(d: dict) -> dict:
+    return {k: v if isinstance(v, (str, int, float, bool, type(None), list, dict)) else str(v) for k, v in d.items()}

@@ -1,0 +1,191 @@
+"""Run-hour meter readings: one at a time, or a building-automation CSV all or nothing."""
+
+from __future__ import annotations
+
+import csv
+import datetime as dt
+import io
+import math
+import zoneinfo
+
+from django.core.exceptions import ValidationError
+from django.db import transaction
+from django.utils import timezone
+from django.utils.dateparse import parse_datetime
+
+from inventory.models import AHU, Component
+
+from ..models import MeterReading
+
+CSV_COLUMNS = ("unit_label", "taken_at", "hours")
+CSV_OPTIONAL = ("component_label", "is_reset")
+
+
+def _previous(*, ahu: AHU, component: Component | None, taken_at: dt.datetime) -> MeterReading | None:
+    return (
+        MeterReading.objects.filter(ahu=ahu, component=component, taken_at__lte=taken_at)
+        .order_by("-taken_at", "-id")
+        .first()
+    )
+
+
+def _next(*, ahu: AHU, component: Component | None, taken_at: dt.datetime) -> MeterReading | None:
+    return (
+        MeterReading.objects.filter(ahu=ahu, component=component, taken_at__gt=taken_at)
+        .order_by("taken_at", "id")
+        .first()
+    )
+
+
+@transaction.atomic
+def meter_reading_record(
+    *,
+    ahu: AHU,
+    hours: float,
+    taken_at: dt.datetime,
+    source: str = MeterReading.Source.MANUAL,
+    component: Component | None = None,
+    is_reset: bool = False,
+    by=None,
+) -> MeterReading:
+    """Store one run-hour reading.
+
+    A reading below the one before it (by time) is refused unless it is marked
+    as a meter replacement or reset; so is one above the next later reading.
+    """
+    try:
+        hours = float(hours)
+    except (TypeError, ValueError):
+        raise ValidationError({"hours": [f"hours={hours!r} is not a number of run-hours"]})
+    if not math.isfinite(hours) or hours < 0:
+        raise ValidationError({"hours": [f"hours={hours!r} must be a finite number of run-hours ≥ 0"]})
+    if timezone.is_naive(taken_at):
+        raise ValidationError({"taken_at": [f"taken_at={taken_at.isoformat()} needs a time zone offset"]})
+    if taken_at > timezone.now() + dt.timedelta(minutes=10):
+        raise ValidationError({"taken_at": [f"taken_at={taken_at.isoformat()} is in the future"]})
+    if source not in MeterReading.Source.values:
+        raise ValidationError({"source": [f"source={source!r} is not one of {', '.join(MeterReading.Source.values)}"]})
+    if component is not None:
+        if component.ahu_id != ahu.pk:
+            raise ValidationError({"component": [f"component {component.label_code} is not part of unit {ahu.tag}"]})
+        if component.kind != "fan":
+            raise ValidationError(
+                {"component": [f"component kind={component.kind!r}: run-hour meters belong to a fan or the unit"]}
+            )
+    # Lock the unit row so two readings for the same meter cannot both pass the check.
+    AHU.objects.select_for_update().filter(pk=ahu.pk).first()
+    if not is_reset:
+        prev = _previous(ahu=ahu, component=component, taken_at=taken_at)
+        if prev is not None and hours < prev.hours:
+            raise ValidationError(
+                {
+                    "hours": [
+                        f"hours={hours:g} is below the previous reading of {prev.hours:g} h taken "
+                        f"{prev.taken_at:%Y-%m-%d %H:%M}; a meter does not run backwards — mark it as a meter "
+                        "replacement/reset (is_reset) if the meter was changed"
+                    ]
+                }
+            )
+        nxt = _next(ahu=ahu, component=component, taken_at=taken_at)
+        if nxt is not None and not nxt.is_reset and hours > nxt.hours:
+            raise ValidationError(
+                {
+                    "hours": [
+                        f"hours={hours:g} is above the later reading of {nxt.hours:g} h "
+                        f"taken {nxt.taken_at:%Y-%m-%d %H:%M}"
+                    ]
+                }
+            )
+    reading = MeterReading(
+        ahu=ahu,
+        component=component,
+        hours=hours,
+        taken_at=taken_at,
+        source=source,
+        is_reset=is_reset,
+        recorded_by=by if getattr(by, "is_authenticated", False) else None,
+    )
+    reading.save()
+    return reading
+
+
+def _parse_time(raw: str, tz: zoneinfo.ZoneInfo) -> dt.datetime | None:
+    value = parse_datetime(raw.strip().replace(" ", "T", 1)) if raw else None
+    if value is None:
+        return None
+    return value.replace(tzinfo=tz) if timezone.is_naive(value) else value
+
+
+@transaction.atomic
+def meter_readings_import_csv(*, organisation, text: str, by=None) -> list[MeterReading]:
+    """Import ``unit_label,taken_at,hours[,component_label,is_reset]`` rows, all or nothing.
+
+    ``taken_at`` without an offset is read in the unit's site time zone. Every
+    row's problem is reported as ``row N: ...``; nothing is stored if any row fails.
+    """
+    reader = csv.DictReader(io.StringIO(text.lstrip("\ufeff")))
+    header = [h.strip() for h in (reader.fieldnames or [])]
+    missing = [c for c in CSV_COLUMNS if c not in header]
+    if missing:
+        raise ValidationError(
+            {
+                "file": [
+                    f"missing column(s) {', '.join(missing)}; expected {', '.join(CSV_COLUMNS)}"
+                    f" and optionally {', '.join(CSV_OPTIONAL)}"
+                ]
+            }
+        )
+    rows = [{(k or "").strip(): (v or "").strip() for k, v in row.items()} for row in reader]
+    units = {
+        a.label_code: a
+        for a in AHU.objects.filter(
+            building__site__organisation=organisation, label_code__in={r["unit_label"].upper() for r in rows}
+        ).select_related("building__site")
+    }
+    comps = {
+        c.label_code: c
+        for c in Component.objects.filter(
+            ahu__in=units.values(), label_code__in={r.get("component_label", "").upper() for r in rows} - {""}
+        )
+    }
+    errors: list[str] = []
+    parsed = []
+    for n, row in enumerate(rows, start=2):
+        ahu = units.get(row["unit_label"].upper())
+        if ahu is None:
+            errors.append(f"row {n}: unit_label={row['unit_label']!r} is not a unit of {organisation}")
+            continue
+        comp = None
+        if row.get("component_label"):
+            comp = comps.get(row["component_label"].upper())
+            if comp is None or comp.ahu_id != ahu.pk:
+                errors.append(f"row {n}: component_label={row['component_label']!r} is not a component of {ahu.tag}")
+                continue
+        when = _parse_time(row["taken_at"], zoneinfo.ZoneInfo(ahu.building.site.time_zone))
+        if when is None:
+            errors.append(f"row {n}: taken_at={row['taken_at']!r} is not a date-time like 2025-03-01 08:00")
+            continue
+        reset = row.get("is_reset", "").lower() in {"1", "true", "yes", "y"}
+        parsed.append((n, ahu, comp, when, row["hours"], reset))
+    parsed.sort(key=lambda p: (p[1].pk, p[2].pk if p[2] else 0, p[3]))
+    out = []
+    for n, ahu, comp, when, hours, reset in parsed:
+        try:
+            with transaction.atomic():
+                out.append(
+                    meter_reading_record(
+                        ahu=ahu,
+                        component=comp,
+                        hours=hours,
+                        taken_at=when,
+                        source=MeterReading.Source.BAS_CSV,
+                        is_reset=reset,
+                        by=by,
+                    )
+                )
+        except ValidationError as exc:
+            for field, msgs in exc.message_dict.items():
+                errors.extend(f"row {n}: {field}: {m}" for m in msgs)
+    if errors:
+        raise ValidationError({"file": errors})
+    return out

@@ -1,0 +1,148 @@
+"""Outdoor temperatures in, season starts out.
+
+A season start is the first crossing of the site's threshold on or after
+``today - SEASON_LOOKBACK_DAYS`` (engineering.freeze), over a series that takes
+stored forecast/CSV days where there are any and the site's monthly normals
+elsewhere. The look-back keeps a season that has just begun visible, so its
+check still falls due at once when the window opened without one.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from collections.abc import Iterable
+from functools import lru_cache
+
+from django.core.exceptions import ValidationError
+from django.db import transaction
+
+from engineering.freeze import cooling_season_start, freeze_season_start
+from inventory.models import Site
+
+from ..models import OutdoorTemperature
+from ..weather import DailyTemperature, HttpForecastProvider, normals_daily, parse_temperature_csv
+
+SEASON_LOOKBACK_DAYS = 30
+SEASON_SEARCH_DAYS = 430
+
+
+@lru_cache(maxsize=512)
+def _normals_starts(
+    normals_min: tuple, normals_max: tuple, freeze_c: float, cooling_c: float, start: dt.date, days: int
+) -> tuple[dt.date | None, dt.date | None]:
+    class _S:
+        normals_min_c = list(normals_min)
+        normals_max_c = list(normals_max)
+
+    series = normals_daily(_S, start=start, days=days)
+    return (
+        freeze_season_start(daily_minimums=[(d.date, d.min_c) for d in series], threshold_c=freeze_c),
+        cooling_season_start(daily_maximums=[(d.date, d.max_c) for d in series], threshold_c=cooling_c),
+    )
+
+
+def season_starts(
+    *, site: Site, today: dt.date, stored: Iterable[tuple[dt.date, float, float, str]] = ()
+) -> tuple[dt.date | None, dt.date | None, str]:
+    """(freeze start, cooling start, source) for the site as seen on ``today``.
+
+    ``stored`` holds (date, min_c, max_c, source) rows from forecasts or CSV;
+    normals fill the rest. The source names what the freeze start came from.
+    """
+    start = today - dt.timedelta(days=SEASON_LOOKBACK_DAYS)
+    measured = {d: (lo, hi, src) for d, lo, hi, src in stored if d >= start}
+    if not measured:
+        freeze, cooling = _normals_starts(
+            tuple(site.normals_min_c),
+            tuple(site.normals_max_c),
+            float(site.preheat_threshold_c),
+            float(site.cooling_threshold_c),
+            start,
+            SEASON_SEARCH_DAYS,
+        )
+        return freeze, cooling, "normals"
+    series: list[DailyTemperature] = []
+    sources: dict[dt.date, str] = {}
+    for day in normals_daily(site, start=start, days=SEASON_SEARCH_DAYS):
+        if day.date in measured:
+            lo, hi, src = measured[day.date]
+            series.append(DailyTemperature(date=day.date, min_c=lo, max_c=hi))
+            sources[day.date] = src
+        else:
+            series.append(day)
+    freeze = freeze_season_start(
+        daily_minimums=[(d.date, d.min_c) for d in series], threshold_c=site.preheat_threshold_c
+    )
+    cooling = cooling_season_start(
+        daily_maximums=[(d.date, d.max_c) for d in series], threshold_c=site.cooling_threshold_c
+    )
+    return freeze, cooling, sources.get(freeze, "normals") if freeze else "normals"
+
+
+@transaction.atomic
+def outdoor_temperatures_store(*, site: Site, days: Iterable[DailyTemperature], source: str) -> int:
+    """Upsert daily outdoor temperatures for a site; a forecast never overwrites an imported (measured) day."""
+    if source not in OutdoorTemperature.Source.values:
+        raise ValidationError(
+            {"source": [f"source={source!r} is not one of {', '.join(OutdoorTemperature.Source.values)}"]}
+        )
+    days = list(days)
+    existing = {o.date: o for o in OutdoorTemperature.objects.filter(site=site, date__in=[d.date for d in days])}
+    new, changed = [], []
+    for d in days:
+        row = existing.get(d.date)
+        if row is None:
+            new.append(
+                OutdoorTemperature(site=site, date=d.date, min_c=d.min_c, max_c=d.max_c, mean_c=d.mean_c, source=source)
+            )
+        elif not (source == OutdoorTemperature.Source.FORECAST and row.source == OutdoorTemperature.Source.CSV):
+            row.min_c, row.max_c, row.mean_c, row.source = d.min_c, d.max_c, d.mean_c, source
+            changed.append(row)
+    OutdoorTemperature.objects.bulk_create(new)
+    OutdoorTemperature.objects.bulk_update(changed, ["min_c", "max_c", "mean_c", "source"])
+    return len(new) + len(changed)
+
+
+@transaction.atomic
+def outdoor_temperatures_import_csv(*, organisation, text: str) -> dict[str, int]:
+    """Import a CSV of daily or hourly outdoor temperatures (see weather.parse_temperature_csv), all or nothing."""
+    try:
+        by_site = parse_temperature_csv(text)
+    except ValueError as exc:
+        raise ValidationError({"file": [str(exc)]}) from None
+    sites = {s.code: s for s in Site.objects.filter(organisation=organisation, code__in=list(by_site))}
+    unknown = sorted(set(by_site) - set(sites))
+    if unknown:
+        raise ValidationError({"file": [f"site_code {', '.join(map(repr, unknown))} is not a site of {organisation}"]})
+    return {
+        code: outdoor_temperatures_store(site=sites[code], days=days, source=OutdoorTemperature.Source.CSV)
+        for code, days in by_site.items()
+    }
+
+
+@transaction.atomic
+def site_seasons_refresh(*, site: Site, today: dt.date, provider=None) -> Site:
+    """Fetch the forecast (when a provider or URL is there), then set the site's season starts.
+
+    A failing forecast is not fatal: the stored days and the normals still give a start.
+    """
+    from ..weather import ForecastError
+
+    if provider is None and HttpForecastProvider().url:
+        provider = HttpForecastProvider()
+    if provider is not None:
+        try:
+            outdoor_temperatures_store(site=site, days=provider.daily(site), source=provider.source)
+        except ForecastError:
+            import logging
+
+            logging.getLogger(__name__).warning(
+                "forecast for site %s failed; using stored days and normals", site.code, exc_info=True
+            )
+    stored = OutdoorTemperature.objects.filter(
+        site=site, date__gte=today - dt.timedelta(days=SEASON_LOOKBACK_DAYS)
+    ).values_list("date", "min_c", "max_c", "source")
+    freeze, cooling, source = season_starts(site=site, today=today, stored=stored)
+    site.freeze_season_start, site.cooling_season_start, site.season_source = freeze, cooling, source
+    site.save(update_fields=["freeze_season_start", "cooling_season_start", "season_source"])
+    return site

@@ -1,0 +1,389 @@
+"""Work-order life cycle: transitions, assignment, corrective proposals, escalation, calendar feeds.
+
+Every change goes through one function here, bumps ``version`` and writes the
+audit trail in the same transaction; e-mails go out after commit.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+
+from django.conf import settings
+from django.core.exceptions import ValidationError
+from django.core.mail import send_mail
+from django.db import transaction
+from django.utils import timezone
+
+from accounts.models import Membership, Role
+from accounts.services import audit_record
+from inventory.models import AHU, Component
+
+from ..models import CalendarFeed, WorkOrder, WorkOrderTask
+from ..selectors import effective_tasks, site_today
+from ..targets import task_targets
+
+State = WorkOrder.State
+
+
+class WorkOrderConflict(Exception):
+    """The work order changed since the caller read it (``expected_version`` is stale)."""
+
+    def __init__(self, *, work_order: WorkOrder, expected_version: int) -> None:
+        self.work_order = work_order
+        self.expected_version = expected_version
+        self.current_version = work_order.version
+        super().__init__(
+            f"work order {work_order.public_id} is at version {work_order.version}, not {expected_version}: "
+            "someone changed it meanwhile; reload and try again"
+        )
+
+
+class WorkOrderTransitionError(ValidationError):
+    """A move the transition table does not allow."""
+
+    def __init__(self, *, work_order: WorkOrder, to_state: str) -> None:
+        allowed = sorted(WorkOrder.TRANSITIONS.get(work_order.state, ()))
+        super().__init__(
+            {
+                "to_state": [
+                    f"to_state={to_state!r} is not allowed from {work_order.state!r}; allowed: "
+                    + (", ".join(allowed) if allowed else "none (final state)")
+                ]
+            }
+        )
+
+
+def _locked(work_order: WorkOrder, expected_version: int | None) -> WorkOrder:
+    fresh = WorkOrder.objects.select_for_update().select_related("ahu__building__site").get(pk=work_order.pk)
+    if expected_version is not None and fresh.version != expected_version:
+        raise WorkOrderConflict(work_order=fresh, expected_version=expected_version)
+    return fresh
+
+
+def _save(wo: WorkOrder, fields: list[str], *, by, action: str, changes: dict) -> WorkOrder:
+    wo.version += 1
+    wo.save(update_fields=[*fields, "version", "updated_at"])
+    audit_record(actor=by, obj=wo, action=action, changes=changes, organisation=wo.organisation)
+    return wo
+
+
+def _move(wo: WorkOrder, to_state: str) -> None:
+    if to_state not in State.values:
+        raise ValidationError({"to_state": [f"to_state={to_state!r} is not one of {', '.join(State.values)}"]})
+    if not wo.can_move_to(to_state):
+        raise WorkOrderTransitionError(work_order=wo, to_state=to_state)
+    if wo.approval in {WorkOrder.Approval.PENDING, WorkOrder.Approval.REJECTED} and to_state != State.CANCELLED:
+        raise ValidationError(
+            {"to_state": [f"corrective work awaiting approval (approval={wo.approval!r}) can only be cancelled"]}
+        )
+
+
+def _check_assignee(wo: WorkOrder, assignee) -> None:
+    if assignee is None:
+        raise ValidationError({"assignee": ["an assigned work order needs an assignee"]})
+    if not Membership.objects.filter(user=assignee, organisation_id=wo.organisation_id, role=Role.TECHNICIAN).exists():
+        raise ValidationError(
+            {"assignee": [f"assignee={assignee.username!r} is not a technician of {wo.organisation}"]}
+        )
+
+
+@transaction.atomic
+def work_order_transition(
+    *,
+    work_order: WorkOrder,
+    to_state: str,
+    by,
+    expected_version: int | None = None,
+    reason: str = "",
+    at: dt.datetime | None = None,
+) -> WorkOrder:
+    """Move a work order along the table in ``WorkOrder.TRANSITIONS``; refuse any other move."""
+    wo = _locked(work_order, expected_version)
+    _move(wo, to_state)
+    now = at or timezone.now()
+    before = wo.state
+    fields = ["state"]
+    wo.state = to_state
+    if to_state == State.ASSIGNED:
+        _check_assignee(wo, wo.assignee)
+    elif to_state == State.PLANNED:
+        wo.assignee = None
+        fields.append("assignee")
+    elif to_state == State.IN_PROGRESS and wo.started_at is None:
+        wo.started_at = now
+        fields.append("started_at")
+    elif to_state == State.COMPLETED:
+        wo.completed_at = now
+        fields.append("completed_at")
+        wo.tasks.update(completed_at=now)
+    elif to_state == State.VERIFIED:
+        wo.verified_at = now
+        fields.append("verified_at")
+    elif to_state == State.CANCELLED:
+        wo.cancel_reason = reason[:300]
+        fields.append("cancel_reason")
+    if before == State.COMPLETED and to_state == State.IN_PROGRESS:
+        # Sent back for rework: the tasks are not done any more.
+        wo.completed_at = None
+        fields.append("completed_at")
+        wo.tasks.update(completed_at=None)
+    _save(wo, fields, by=by, action="transition", changes={"from": before, "to": to_state, "reason": reason})
+    _copy_back(work_order, wo)
+    return wo
+
+
+def _copy_back(target: WorkOrder, source: WorkOrder) -> None:
+    """Keep the caller's instance current, so chained calls with its version work."""
+    for f in WorkOrder._meta.concrete_fields:
+        setattr(target, f.attname, getattr(source, f.attname))
+
+
+@transaction.atomic
+def work_order_assign(*, work_order: WorkOrder, assignee, by, expected_version: int | None = None) -> WorkOrder:
+    """Assign or reassign to a technician of the organisation."""
+    wo = _locked(work_order, expected_version)
+    if wo.state not in WorkOrder.OPEN_STATES:
+        raise WorkOrderTransitionError(work_order=wo, to_state=State.ASSIGNED)
+    if wo.approval in {WorkOrder.Approval.PENDING, WorkOrder.Approval.REJECTED}:
+        raise ValidationError({"assignee": ["corrective work must be approved before it is assigned"]})
+    _check_assignee(wo, assignee)
+    before = wo.assignee_id
+    wo.assignee = assignee
+    wo.state = State.ASSIGNED  # a reassigned visit in progress starts again with the new technician
+    _save(wo, ["assignee", "state"], by=by, action="assign", changes={"from": before, "to": assignee.pk})
+    _copy_back(work_order, wo)
+    return wo
+
+
+def work_order_unassign(*, work_order: WorkOrder, by, expected_version: int | None = None) -> WorkOrder:
+    return work_order_transition(
+        work_order=work_order, to_state=State.PLANNED, by=by, expected_version=expected_version
+    )
+
+
+def work_order_start(
+    *, work_order: WorkOrder, by, expected_version: int | None = None, at: dt.datetime | None = None
+) -> WorkOrder:
+    return work_order_transition(
+        work_order=work_order, to_state=State.IN_PROGRESS, by=by, expected_version=expected_version, at=at
+    )
+
+
+@transaction.atomic
+def work_order_complete(
+    *, work_order: WorkOrder, by, completed_at: dt.datetime | None = None, expected_version: int | None = None
+) -> WorkOrder:
+    """Complete the visit; an assigned visit is started first (a phone may send the finished form at once)."""
+    wo = _locked(work_order, expected_version)
+    if wo.state == State.ASSIGNED:
+        work_order_start(work_order=wo, by=by, at=completed_at)
+    work_order_transition(work_order=wo, to_state=State.COMPLETED, by=by, at=completed_at)
+    _copy_back(work_order, wo)
+    return wo
+
+
+def work_order_verify(*, work_order: WorkOrder, by, expected_version: int | None = None) -> WorkOrder:
+    return work_order_transition(
+        work_order=work_order, to_state=State.VERIFIED, by=by, expected_version=expected_version
+    )
+
+
+def work_order_cancel(*, work_order: WorkOrder, by, reason: str, expected_version: int | None = None) -> WorkOrder:
+    if not reason.strip():
+        raise ValidationError({"reason": ["a cancelled work order needs a reason"]})
+    return work_order_transition(
+        work_order=work_order, to_state=State.CANCELLED, by=by, expected_version=expected_version, reason=reason
+    )
+
+
+def _supervisor_emails(organisation_id: int) -> list[str]:
+    return [
+        e
+        for e in Membership.objects.filter(
+            organisation_id=organisation_id, role__in=[Role.SUPERVISOR, Role.ADMIN]
+        ).values_list("user__email", flat=True)
+        if e
+    ]
+
+
+def _email_supervisors_on_commit(organisation_id: int, subject: str, body: str) -> None:
+    def send() -> None:
+        to = _supervisor_emails(organisation_id)
+        if to:
+            send_mail(subject, body, settings.DEFAULT_FROM_EMAIL, to)
+
+    transaction.on_commit(send)
+
+
+@transaction.atomic
+def corrective_work_order_propose(
+    *,
+    ahu: AHU,
+    title: str,
+    reason: str,
+    condition_code: str = "",
+    priority: str = WorkOrder.Priority.NORMAL,
+    component: Component | None = None,
+    source_ref: str = "",
+    by=None,
+    approved: bool = False,
+) -> WorkOrder:
+    """Corrective work raised by a finding or a person.
+
+    Awaits a supervisor's approval unless ``approved``. With a ``condition_code``
+    the library tasks raised by that condition (e.g. ``filter_loaded`` →
+    ``filter_replace``) are put on the work order, due now; an open corrective
+    work order for the same unit, component and condition is returned instead
+    of a second one.
+    """
+    if priority not in WorkOrder.Priority.values:
+        raise ValidationError(
+            {"priority": [f"priority={priority!r} is not one of {', '.join(WorkOrder.Priority.values)}"]}
+        )
+    if component is not None and component.ahu_id != ahu.pk:
+        raise ValidationError({"component": [f"component {component.pk} belongs to another unit than {ahu.tag}"]})
+    site = ahu.building.site
+    organisation = site.organisation
+    if condition_code:
+        existing = (
+            WorkOrder.objects.select_for_update()
+            .filter(
+                ahu=ahu,
+                component=component,
+                condition_code=condition_code,
+                kind=WorkOrder.Kind.CORRECTIVE,
+                state__in=WorkOrder.OPEN_STATES,
+            )
+            .exclude(approval=WorkOrder.Approval.REJECTED)
+            .first()
+        )
+        if existing is not None:
+            return existing
+    today = site_today(site=site)
+    wo = WorkOrder(
+        organisation=organisation,
+        ahu=ahu,
+        component=component,
+        kind=WorkOrder.Kind.CORRECTIVE,
+        priority=priority,
+        title=title[:200],
+        reason=reason,
+        condition_code=condition_code,
+        source_ref=source_ref[:200],
+        due_date=today,
+        overdue_on=today + dt.timedelta(days=_grace(priority)),
+        approval=WorkOrder.Approval.APPROVED if approved else WorkOrder.Approval.PENDING,
+    )
+    wo.full_clean()
+    wo.save()
+    if condition_code:
+        rows = []
+        components = list(ahu.components.all()) if component is None else [component]
+        for task in effective_tasks(organisation=organisation).values():
+            if task.condition_code != condition_code:
+                continue
+            for target in task_targets(task=task, ahu=ahu, components=components):
+                rows.append(
+                    WorkOrderTask(
+                        work_order=wo,
+                        task=task,
+                        task_code=task.code,
+                        ahu=ahu,
+                        component=target,
+                        component_key=target.pk if target else 0,
+                        due_date=today,
+                        occurrence_key=f"cond:{condition_code}:{wo.public_id.hex[:12]}",
+                    )
+                )
+        WorkOrderTask.objects.bulk_create(rows)
+    audit_record(
+        actor=by,
+        obj=wo,
+        action="corrective_propose",
+        changes={
+            "condition_code": condition_code,
+            "priority": priority,
+            "approved": approved,
+            "source_ref": source_ref,
+        },
+        organisation=organisation,
+    )
+    if approved and priority == WorkOrder.Priority.URGENT:
+        _email_supervisors_on_commit(
+            organisation.pk,
+            f"Urgent corrective work: {ahu.tag} at {site.name}",
+            f"{title}\n\n{reason}\n\nUnit {ahu.tag}, {site.name}. Ready to assign.",
+        )
+    return wo
+
+
+def _grace(priority: str) -> int:
+    return {"urgent": 1, "high": 3, "normal": 14, "low": 30}[priority]
+
+
+@transaction.atomic
+def corrective_work_order_approve(*, work_order: WorkOrder, by, expected_version: int | None = None) -> WorkOrder:
+    wo = _locked(work_order, expected_version)
+    if wo.approval != WorkOrder.Approval.PENDING:
+        raise ValidationError({"approval": [f"approval={wo.approval!r}: only pending corrective work can be approved"]})
+    wo.approval = WorkOrder.Approval.APPROVED
+    _save(wo, ["approval"], by=by, action="corrective_approve", changes={"approval": "approved"})
+    if wo.priority == WorkOrder.Priority.URGENT:
+        _email_supervisors_on_commit(
+            wo.organisation_id, f"Urgent corrective work approved: {wo.ahu.tag}", f"{wo.title}\n\n{wo.reason}"
+        )
+    _copy_back(work_order, wo)
+    return wo
+
+
+@transaction.atomic
+def corrective_work_order_reject(
+    *, work_order: WorkOrder, by, reason: str, expected_version: int | None = None
+) -> WorkOrder:
+    wo = _locked(work_order, expected_version)
+    if wo.approval != WorkOrder.Approval.PENDING:
+        raise ValidationError({"approval": [f"approval={wo.approval!r}: only pending corrective work can be rejected"]})
+    wo.approval = WorkOrder.Approval.REJECTED
+    wo.state = State.CANCELLED
+    wo.cancel_reason = reason[:300]
+    _save(wo, ["approval", "state", "cancel_reason"], by=by, action="corrective_reject", changes={"reason": reason})
+    _copy_back(work_order, wo)
+    return wo
+
+
+@transaction.atomic
+def overdue_escalation_send(*, organisation, today: dt.date, repeat_days: int = 7) -> int:
+    """E-mail the supervisors the open work that is overdue; each order at most once every ``repeat_days``."""
+    qs = (
+        WorkOrder.objects.select_for_update()
+        .filter(organisation=organisation, state__in=WorkOrder.OPEN_STATES, overdue_on__lte=today)
+        .exclude(escalated_on__gt=today - dt.timedelta(days=repeat_days))
+        .select_related("ahu__building__site", "assignee")
+        .order_by("due_date", "id")
+    )
+    orders = list(qs)
+    if not orders:
+        return 0
+    lines = [
+        f"- {wo.ahu.tag} at {wo.ahu.building.site.name}: {wo.title}, due {wo.due_date}"
+        f" ({(today - wo.due_date).days} days ago), {wo.assignee or 'not assigned'}"
+        for wo in orders
+    ]
+    WorkOrder.objects.filter(pk__in=[wo.pk for wo in orders]).update(escalated_on=today)
+    _email_supervisors_on_commit(
+        organisation.pk, f"{len(orders)} overdue work orders", "Overdue maintenance:\n\n" + "\n".join(lines)
+    )
+    return len(orders)
+
+
+@transaction.atomic
+def calendar_feed_issue(*, user) -> CalendarFeed:
+    """A new secret feed URL for the user; older ones are revoked."""
+    CalendarFeed.objects.filter(user=user, revoked_at__isnull=True).update(revoked_at=timezone.now())
+    return CalendarFeed.objects.create(user=user)
+
+
+def calendar_feed_revoke(*, feed: CalendarFeed) -> None:
+    if feed.revoked_at is None:
+        feed.revoked_at = timezone.now()
+        feed.save(update_fields=["revoked_at"])

@@ -1,0 +1,93 @@
+"""The shipped task library and supervisors' changes to it."""
+
+import pytest
+from django.core.exceptions import ValidationError
+
+from scheduling.library import LIBRARY
+from scheduling.models import TaskCategory, TaskDefinition
+from scheduling.selectors import effective_tasks
+from scheduling.services import task_definition_create, task_definition_override, task_library_install
+from tests.factories.accounts import OrganisationFactory
+
+pytestmark = pytest.mark.django_db
+
+CODES = {
+    "filter_check",
+    "filter_replace",
+    "belt_drive",
+    "fan_bearings",
+    "fan_proving",
+    "coil_clean",
+    "drain_pan",
+    "cooling_season_check",
+    "damper_actuator",
+    "preheater_freeze",
+    "sensor_calibration",
+    "heat_recovery",
+    "intake_screen",
+    "humidifier",
+    "controls_check",
+    "ventilation_check",
+}
+
+
+def test_library_installs_every_agreed_code_once():
+    """Installing the library twice gives each agreed task code exactly once, with its checklist code."""
+    task_library_install()
+    task_library_install()
+    rows = TaskDefinition.objects.filter(organisation__isnull=True)
+    assert {t.code for t in rows} == CODES
+    assert rows.count() == len(CODES)
+    for t in rows:
+        assert t.checklist_code == t.code
+        assert t.category in TaskCategory.values
+        assert t.source, f"{t.code} says nowhere where its frequency comes from"
+
+
+def test_every_task_names_its_source_honestly():
+    """Each default frequency is marked as from the standard (from memory) or as common practice."""
+    for item in LIBRARY:
+        assert "from memory" in item["source"] or "Common practice" in item["source"], item["code"]
+
+
+def test_fan_and_heater_tasks_carry_lockout_cautions():
+    """Work inside fan and heater sections starts with lockout/tagout and the precedence line."""
+    task_library_install()
+    for code in ("filter_replace", "belt_drive", "fan_bearings", "coil_clean", "preheater_freeze"):
+        notes = TaskDefinition.objects.get(code=code, organisation__isnull=True).safety_notes
+        assert "Lock out and tag out" in notes
+        assert "take precedence" in notes
+
+
+def test_override_changes_frequency_for_one_organisation_only():
+    """A supervisor's new frequency applies to their organisation; others keep the library value."""
+    task_library_install()
+    mine, other = OrganisationFactory(), OrganisationFactory()
+    task_definition_override(organisation=mine, code="belt_drive", interval_value=2)
+    assert effective_tasks(organisation=mine)["belt_drive"].interval_value == 2
+    assert effective_tasks(organisation=other)["belt_drive"].interval_value == 3
+
+
+def test_own_task_needs_a_valid_trigger():
+    """An organisation's own interval task without an interval is refused, naming the field."""
+    org = OrganisationFactory()
+    with pytest.raises(ValidationError) as exc:
+        task_definition_create(
+            organisation=org,
+            code="roof_walk",
+            name="Roof walk",
+            category="intake_screen",
+            trigger="interval",
+            interval_unit="months",
+        )
+    assert "interval_value" in exc.value.message_dict
+    task = task_definition_create(
+        organisation=org,
+        code="roof_walk",
+        name="Roof walk",
+        category="intake_screen",
+        trigger="interval",
+        interval_value=1,
+        interval_unit="months",
+    )
+    assert effective_tasks(organisation=org)["roof_walk"] == task
