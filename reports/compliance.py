@@ -1,0 +1,397 @@
+"""Compliance figures: the one place they are computed. Screens, APIs and PDFs read them from here.
+
+Rules (all dates are the site's local dates; ``as_of`` is the moment the
+figures are taken, for a report its requested time):
+
+Preventive work in a period ``start``–``end`` (both days included)
+    Counted per *task occurrence* (``scheduling.WorkOrderTask`` of a preventive
+    work order), grouped by the task's category. An occurrence belongs to the
+    period when its ``due_date`` lies inside it. Its *deadline* is
+    ``due_date + grace_days`` of its task; the deadline day itself is still in
+    time. Its completion is the occurrence's own ``completed_at`` or, failing
+    that, the work order's when the work order is completed or verified.
+    Completions up to ``as_of`` count. The cut-off ``evaluated_on`` is the
+    earlier of ``end`` and the date of ``as_of``.
+
+    - **on time**: completed on or before the deadline;
+    - **late**: completed after the deadline;
+    - **missed**: not completed, and the deadline is before ``evaluated_on``;
+    - **not yet due**: not completed, deadline on or after ``evaluated_on``
+      (still inside its grace when the period closes, or the period is not over);
+    - **cancelled**: not completed and its work order was cancelled.
+
+    **On-time share** = on time / (on time + late + missed). Not yet due and
+    cancelled occurrences are left out. With nothing in the denominator the
+    share is ``None`` (shown as "—"), never 0 % or NaN.
+
+Overdue now
+    Open work orders (planned, assigned, in progress), of any kind, whose
+    deadline is before the date of ``as_of``. The deadline of a work order is
+    the scheduler's ``overdue_on`` when set, else ``due_date`` plus the smallest
+    grace of its tasks (0 without tasks).
+
+Open findings by severity and age
+    Findings open at ``as_of`` (state open, opened on or before it). Age in
+    whole days from opening to ``as_of``, in buckets 0–30, 31–90, 91–180 and
+    over 180 days.
+
+Filter status of every unit
+    For each filter bank of each unit, the latest ``filter_loading`` evaluation
+    (inspection finished on or before ``as_of``): verdict, loading %, pressure
+    drop corrected to design airflow and the forecast change date, as the
+    inspection's evaluation stored them (the physics is in engineering.filters).
+
+Freeze-protection readiness before the coming season
+    For each unit with an electric preheater or a preheat coil. The coming
+    season starts on the site's ``freeze_season_start`` (computed by the
+    scheduler). The last season ended on the last day, in the 365 days before
+    that start, whose daily minimum from the site's monthly normals
+    (``engineering.freeze.daily_minimums_from_normals``) is at or below the
+    site's preheat threshold; without such a day the window opens 365 days
+    before the start. A unit is
+
+    - **ready**: ``preheater_freeze`` completed after the last season's end and
+      on or before the season start;
+    - **done late**: completed after the last season's end but after the start;
+    - **due**: not done in that window, season start not reached yet;
+    - **not ready**: not done in that window and the season has started;
+    - **season unknown**: the site has no computed season start.
+"""
+
+from __future__ import annotations
+
+import json
+import zoneinfo
+from collections import defaultdict
+from collections.abc import Iterable
+from dataclasses import dataclass, field
+from datetime import date, datetime, timedelta
+
+from django.db.models import Min, OuterRef, Q, Subquery
+
+from engineering.freeze import daily_minimums_from_normals
+from inspections.models import Evaluation, Finding
+from inventory.models import AHU, Component, ComponentKind, Site
+from scheduling.models import TaskCategory, WorkOrder, WorkOrderTask
+
+ON_TIME, LATE, MISSED, NOT_YET_DUE, CANCELLED = "on_time", "late", "missed", "not_yet_due", "cancelled"
+OUTCOMES = (ON_TIME, LATE, MISSED, NOT_YET_DUE, CANCELLED)
+AGE_BUCKETS = ((0, 30, "0–30 days"), (31, 90, "31–90 days"), (91, 180, "91–180 days"), (181, None, "over 180 days"))
+SEVERITIES = tuple(reversed(Finding.Severity.values))  # critical first
+FREEZE_TASK = "preheater_freeze"
+FREEZE_READY, FREEZE_LATE, FREEZE_DUE, FREEZE_NOT_READY, FREEZE_UNKNOWN = (
+    "ready",
+    "done_late",
+    "due",
+    "not_ready",
+    "season_unknown",
+)
+FREEZE_LABELS = {
+    FREEZE_READY: "Ready",
+    FREEZE_LATE: "Done late",
+    FREEZE_DUE: "Due",
+    FREEZE_NOT_READY: "Not ready",
+    FREEZE_UNKNOWN: "Season unknown",
+}
+
+
+@dataclass(frozen=True)
+class Occurrence:
+    """One due task occurrence, reduced to what the rules need."""
+
+    category: str
+    due_date: date
+    grace_days: int
+    completed_on: date | None
+    cancelled: bool = False
+
+    @property
+    def deadline(self) -> date:
+        return self.due_date + timedelta(days=self.grace_days)
+
+
+def occurrence_outcome(occ: Occurrence, *, evaluated_on: date) -> str:
+    """on_time / late / missed / not_yet_due / cancelled, by the rules in the module docstring."""
+    if occ.completed_on is not None:
+        return ON_TIME if occ.completed_on <= occ.deadline else LATE
+    if occ.cancelled:
+        return CANCELLED
+    return MISSED if occ.deadline < evaluated_on else NOT_YET_DUE
+
+
+@dataclass
+class CategoryFigures:
+    category: str
+    label: str
+    counts: dict[str, int] = field(default_factory=lambda: dict.fromkeys(OUTCOMES, 0))
+
+    @property
+    def due(self) -> int:
+        return sum(self.counts.values())
+
+    @property
+    def judged(self) -> int:
+        return self.counts[ON_TIME] + self.counts[LATE] + self.counts[MISSED]
+
+    @property
+    def on_time_share(self) -> float | None:
+        return self.counts[ON_TIME] / self.judged if self.judged else None
+
+    def __getattr__(self, name: str) -> int:
+        # Templates read figures.on_time, figures.late, ...
+        counts = self.__dict__.get("counts", {})
+        if name in counts:
+            return counts[name]
+        raise AttributeError(name)
+
+
+def preventive_figures(
+    occurrences: Iterable[Occurrence], *, start: date, end: date, as_of: date
+) -> tuple[list[CategoryFigures], CategoryFigures]:
+    """Per-category counts (categories in the library's order, only those with work) and the total."""
+    evaluated_on = min(end, as_of)
+    labels = dict(TaskCategory.choices)
+    by_cat: dict[str, CategoryFigures] = {}
+    total = CategoryFigures("all", "All categories")
+    for occ in occurrences:
+        if not start <= occ.due_date <= end:
+            continue
+        outcome = occurrence_outcome(occ, evaluated_on=evaluated_on)
+        fig = by_cat.setdefault(occ.category, CategoryFigures(occ.category, labels.get(occ.category, occ.category)))
+        fig.counts[outcome] += 1
+        total.counts[outcome] += 1
+    order = {c: i for i, c in enumerate(TaskCategory.values)}
+    rows = sorted(by_cat.values(), key=lambda f: (order.get(f.category, len(order)), f.category))
+    return rows, total
+
+
+def age_bucket(days: int) -> str:
+    for low, high, label in AGE_BUCKETS:
+        if days >= low and (high is None or days <= high):
+            return label
+    return AGE_BUCKETS[0][2]
+
+
+def last_season_end(*, site: Site, season_start: date) -> date:
+    """Last day at or below the preheat threshold in the 365 days before ``season_start`` (normals)."""
+    window_start = season_start - timedelta(days=365)
+    series = daily_minimums_from_normals(monthly_min_c=site.normals_min_c, start=window_start, days=365)
+    cold = [d for d, t in series if d < season_start and t <= site.preheat_threshold_c]
+    return max(cold) if cold else window_start
+
+
+def freeze_status(
+    *, completions: list[date], season_start: date | None, window_opens: date | None, today: date
+) -> tuple[str, date | None]:
+    """Readiness and the completion date that decided it (rules in the module docstring)."""
+    if season_start is None or window_opens is None:
+        return FREEZE_UNKNOWN, max(completions) if completions else None
+    in_window = sorted(d for d in completions if d > window_opens)
+    before = [d for d in in_window if d <= season_start]
+    if before:
+        return FREEZE_READY, before[-1]
+    if in_window:
+        return FREEZE_LATE, in_window[0]
+    return (FREEZE_DUE if today < season_start else FREEZE_NOT_READY), None
+
+
+@dataclass
+class ComplianceFigures:
+    start: date
+    end: date
+    as_of: datetime
+    sites: list[Site]
+    units: list[AHU]
+    categories: list[CategoryFigures]
+    total: CategoryFigures
+    overdue: list[dict]
+    findings_matrix: dict[str, dict[str, int]]
+    findings_total: int
+    filters: list[dict]
+    freeze: list[dict]
+    freeze_counts: dict[str, int]
+
+    @property
+    def age_labels(self) -> list[str]:
+        return [label for _, _, label in AGE_BUCKETS]
+
+
+def _local_date(at: datetime | None, tz: zoneinfo.ZoneInfo) -> date | None:
+    return at.astimezone(tz).date() if at else None
+
+
+def compliance_figures(*, site_ids: list[int], start: date, end: date, as_of: datetime) -> ComplianceFigures:
+    """Every compliance figure for the given sites. Tenancy is the caller's: pass only visible sites.
+
+    A fixed number of queries whatever the number of units (about ten).
+    """
+    sites = list(Site.objects.filter(pk__in=site_ids).order_by("name", "pk"))
+    tz_of = {s.pk: zoneinfo.ZoneInfo(s.time_zone) for s in sites}
+    units = list(
+        AHU.objects.filter(building__site_id__in=site_ids)
+        .select_related("building__site")
+        .order_by("building__site__name", "building__name", "tag", "pk")
+    )
+    today_of = {s.pk: as_of.astimezone(tz_of[s.pk]).date() for s in sites}
+    report_day = max(today_of.values()) if today_of else as_of.date()
+
+    rows = (
+        WorkOrderTask.objects.filter(
+            work_order__kind=WorkOrder.Kind.PREVENTIVE,
+            ahu__building__site_id__in=site_ids,
+            due_date__gte=start,
+            due_date__lte=end,
+        )
+        .values_list(
+            "task__category",
+            "due_date",
+            "task__grace_days",
+            "completed_at",
+            "work_order__state",
+            "work_order__completed_at",
+            "ahu__building__site_id",
+        )
+        .order_by("due_date", "pk")
+    )
+    done_states = {WorkOrder.State.COMPLETED, WorkOrder.State.VERIFIED}
+    occurrences = []
+    for category, due, grace, done_at, wo_state, wo_done_at, site_id in rows:
+        if done_at is None and wo_state in done_states:
+            done_at = wo_done_at
+        if done_at is not None and done_at > as_of:
+            done_at = None
+        occurrences.append(
+            Occurrence(
+                category,
+                due,
+                grace,
+                _local_date(done_at, tz_of[site_id]),
+                cancelled=wo_state == WorkOrder.State.CANCELLED,
+            )
+        )
+    categories, total = preventive_figures(occurrences, start=start, end=end, as_of=report_day)
+
+    overdue = []
+    open_orders = (
+        WorkOrder.objects.filter(
+            ahu__building__site_id__in=site_ids, state__in=WorkOrder.OPEN_STATES, due_date__lte=report_day
+        )
+        .annotate(min_grace=Min("tasks__task__grace_days"))
+        .select_related("ahu__building__site", "assignee")
+        .order_by("due_date", "ahu__building__site__name", "ahu__tag", "pk")
+    )
+    for wo in open_orders:
+        deadline = wo.overdue_on or wo.due_date + timedelta(days=wo.min_grace or 0)
+        today = today_of[wo.ahu.building.site_id]
+        if deadline < today:
+            overdue.append({"work_order": wo, "deadline": deadline, "days_overdue": (today - deadline).days})
+
+    matrix = {sev: {label: 0 for _, _, label in AGE_BUCKETS} for sev in SEVERITIES}
+    findings_total = 0
+    for severity, opened_at in (
+        Finding.objects.filter(ahu__building__site_id__in=site_ids, opened_at__lte=as_of)
+        .filter(Q(state=Finding.State.OPEN) | Q(closed_at__gt=as_of))
+        .values_list("severity", "opened_at")
+    ):
+        matrix.setdefault(severity, {label: 0 for _, _, label in AGE_BUCKETS})
+        matrix[severity][age_bucket(max((as_of - opened_at).days, 0))] += 1
+        findings_total += 1
+
+    filters = _filter_rows(units=units, as_of=as_of)
+    freeze, freeze_counts = _freeze_rows(sites=sites, units=units, as_of=as_of, today_of=today_of)
+    return ComplianceFigures(
+        start=start,
+        end=end,
+        as_of=as_of,
+        sites=sites,
+        units=units,
+        categories=categories,
+        total=total,
+        overdue=overdue,
+        findings_matrix=matrix,
+        findings_total=findings_total,
+        filters=filters,
+        freeze=freeze,
+        freeze_counts=freeze_counts,
+    )
+
+
+def _filter_rows(*, units: list[AHU], as_of: datetime) -> list[dict]:
+    latest = Evaluation.objects.filter(
+        component=OuterRef("pk"), check_name="filter_loading", inspection__finished_at__lte=as_of
+    ).order_by("-inspection__finished_at", "-pk")
+    banks = (
+        Component.objects.filter(ahu__in=units, kind=ComponentKind.FILTER_BANK)
+        .annotate(
+            eval_verdict=Subquery(latest.values("verdict")[:1]),
+            eval_derived=Subquery(latest.values("derived")[:1]),
+            eval_at=Subquery(latest.values("inspection__finished_at")[:1]),
+        )
+        .order_by("position", "pk")
+    )
+    by_unit: dict[int, list[Component]] = defaultdict(list)
+    for bank in banks:
+        by_unit[bank.ahu_id].append(bank)
+    out = []
+    for unit in units:
+        for bank in by_unit.get(unit.pk, []):
+            derived = bank.eval_derived or {}
+            if isinstance(derived, str):  # some backends hand JSON from a subquery back as text
+                derived = json.loads(derived)
+            out.append(
+                {
+                    "unit": unit,
+                    "filter": bank,
+                    "verdict": bank.eval_verdict or "",
+                    "derived": derived,
+                    "at": bank.eval_at,
+                }
+            )
+        if unit.pk not in by_unit:
+            out.append({"unit": unit, "filter": None, "verdict": "", "derived": {}, "at": None})
+    return out
+
+
+def _freeze_rows(*, sites, units, as_of, today_of) -> tuple[list[dict], dict[str, int]]:
+    protected = set(
+        Component.objects.filter(ahu__in=units)
+        .filter(Q(kind=ComponentKind.ELECTRIC_PREHEATER) | Q(kind=ComponentKind.COIL, specs__duty="preheat"))
+        .values_list("ahu_id", flat=True)
+    )
+    done_states = {WorkOrder.State.COMPLETED, WorkOrder.State.VERIFIED}
+    completions: dict[int, list[datetime]] = defaultdict(list)
+    for ahu_id, done_at, wo_state, wo_done_at in WorkOrderTask.objects.filter(
+        ahu_id__in=protected, task_code=FREEZE_TASK
+    ).values_list("ahu_id", "completed_at", "work_order__state", "work_order__completed_at"):
+        at = done_at or (wo_done_at if wo_state in done_states else None)
+        if at is not None and at <= as_of:
+            completions[ahu_id].append(at)
+    window = {}
+    for site in sites:
+        start = site.freeze_season_start
+        window[site.pk] = (start, last_season_end(site=site, season_start=start) if start else None)
+    rows, counts = [], dict.fromkeys(FREEZE_LABELS, 0)
+    for unit in units:
+        if unit.pk not in protected:
+            continue
+        site = unit.building.site
+        tz = zoneinfo.ZoneInfo(site.time_zone)
+        season_start, opens = window[site.pk]
+        status, decided_by = freeze_status(
+            completions=[at.astimezone(tz).date() for at in completions.get(unit.pk, [])],
+            season_start=season_start,
+            window_opens=opens,
+            today=today_of[site.pk],
+        )
+        counts[status] += 1
+        rows.append(
+            {
+                "unit": unit,
+                "status": status,
+                "label": FREEZE_LABELS[status],
+                "done_on": decided_by,
+                "season_start": season_start,
+                "window_opens": opens,
+            }
+        )
+    return rows, counts
