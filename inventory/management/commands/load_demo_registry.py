@@ -1,0 +1,17 @@
+"""manage.py load_demo_registry — the invented demo registry (idempotent) and its logins."""
+
+from django.core.management.base import BaseCommand
+
+from inventory.demo import demo_logins_table, demo_registry_load
+
+
+class Command(BaseCommand):
+    help = "Load the invented demo registry (organisations, people, sites, units). Running it again changes nothing."
+
+    def handle(self, *args, **options):
+        loaded = demo_registry_load()
+        self.stdout.write(
+            f"Demo registry: {len(loaded['sites'])} sites, {len(loaded['buildings'])} buildings, "
+            f"{len(loaded['ahus'])} units; {loaded['changed']} record(s) created or changed."
+        )
+        self.stdout.write(demo_logins_table(loaded["logins"]))
