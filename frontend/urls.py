@@ -1,7 +1,8 @@
 from django.contrib.auth import views as auth_views
 from django.urls import path
 
-from .views import shell
+from . import api
+from .views import calculator, manager, shell, supervisor, technician
 
 app_name = "frontend"
 urlpatterns = [
@@ -11,4 +12,25 @@ urlpatterns = [
     path("manifest.webmanifest", shell.manifest, name="manifest"),
     path("offline/", shell.offline, name="offline"),
     path("", shell.home, name="home"),
+    # technician
+    path("today/", technician.today, name="today"),
+    path("u/", technician.unit_lookup, name="unit_lookup"),
+    path("u/<str:code>/", technician.unit, name="unit"),
+    path("w/<uuid:public_id>/", technician.checklist, name="checklist"),
+    path("calc/", calculator.calculator, name="calculator"),
+    path("api/calc/<slug:name>/", api.CalcView.as_view(), name="calc_api"),
+    # supervisor
+    path("board/", supervisor.board, name="board"),
+    path("board/assign/<uuid:public_id>/", supervisor.assign, name="assign"),
+    path("registry/", supervisor.registry, name="registry"),
+    path("registry/unit/<int:pk>/", supervisor.unit_detail, name="registry_unit"),
+    path("registry/unit/<int:pk>/edit/", supervisor.unit_edit, name="registry_unit_edit"),
+    path("registry/unit/<int:pk>/rules/", supervisor.unit_rules, name="registry_rules"),
+    path("registry/component/<int:pk>/edit/", supervisor.component_edit, name="registry_component_edit"),
+    path("findings/", supervisor.findings, name="findings"),
+    path("corrective/", supervisor.corrective, name="corrective"),
+    path("flagged/", supervisor.flagged, name="flagged"),
+    # property manager
+    path("dashboard/", manager.dashboard, name="dashboard"),
+    path("dashboard/site/<int:pk>/", manager.site_detail, name="dashboard_site"),
 ]

@@ -1,0 +1,64 @@
+// Field calculator: online the server computes (one set of formulas); offline only range checks.
+function csrfToken() {
+  const match = document.cookie.match(/(?:^|;\s*)csrftoken=([^;]+)/);
+  return match ? decodeURIComponent(match[1]) : "";
+}
+
+function rangeProblems(form) {
+  const problems = [];
+  for (const input of form.querySelectorAll("input[type=number]")) {
+    const label = form.querySelector(`label[for="${input.id}"]`).textContent;
+    const v = Number(input.value);
+    if (input.value.trim() === "" || Number.isNaN(v)) { problems.push(`${label}: enter a number in ${input.dataset.unit}`); continue; }
+    const lo = input.dataset.min === undefined ? null : Number(input.dataset.min);
+    const hi = input.dataset.max === undefined ? null : Number(input.dataset.max);
+    if ((lo !== null && v < lo) || (hi !== null && v > hi)) problems.push(`${label}: ${v} ${input.dataset.unit} is outside ${lo} to ${hi} ${input.dataset.unit}`);
+  }
+  return problems;
+}
+
+function show(box, rows, errors, note) {
+  box.replaceChildren();
+  for (const e of errors) { const p = document.createElement("p"); p.className = "errorlist"; p.textContent = e; box.append(p); }
+  if (note) { const p = document.createElement("p"); p.className = "hint"; p.textContent = note; box.append(p); }
+  if (!rows.length) return;
+  const table = document.createElement("table");
+  const body = table.createTBody();
+  for (const r of rows) {
+    const tr = body.insertRow();
+    const th = document.createElement("th"); th.scope = "row"; th.textContent = r.label; tr.append(th);
+    const td = tr.insertCell();
+    if (r.verdict) { const s = document.createElement("span"); s.className = `verdict ${r.verdict}`; s.textContent = r.value; td.append(s); }
+    else td.textContent = `${r.value} ${r.unit}`;
+  }
+  box.append(table);
+}
+
+async function run(form) {
+  const box = form.querySelector("[data-calc-result]");
+  const problems = rangeProblems(form);
+  if (!navigator.onLine) {
+    show(box, [], problems, problems.length ? "" : "Offline: the values are within range. The figure itself is worked out by the server (one set of formulas); it appears when the phone is back online.");
+    return;
+  }
+  if (problems.length) { show(box, [], problems, ""); return; }
+  const values = Object.fromEntries([...form.querySelectorAll("input[type=number]")].map((i) => [i.name, Number(i.value)]));
+  try {
+    const response = await fetch(`/api/calc/${form.dataset.calc}/`, {
+      method: "POST", credentials: "same-origin",
+      headers: { "Content-Type": "application/json", "X-CSRFToken": csrfToken() },
+      body: JSON.stringify({ values }),
+    });
+    const body = await response.json();
+    if (response.ok) show(box, body.results, [], "");
+    else show(box, [], Object.values(body.errors || { detail: [body.detail] }).flat(), "");
+  } catch (error) {
+    show(box, [], [], "No connection: the values are within range; the figure needs the server.");
+  }
+}
+
+export function startCalculator() {
+  for (const form of document.querySelectorAll("form[data-calc]")) {
+    form.addEventListener("submit", (event) => { event.preventDefault(); run(form); });
+  }
+}

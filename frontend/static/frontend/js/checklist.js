@@ -1,0 +1,169 @@
+// The checklist page: instant limit checks, photos, signature, and the finished form into the outbox.
+import { judge } from "./limits.js";
+import { newUuid, outboxAll, outboxPut, resultAll } from "./outbox.js";
+import { attachSignature } from "./signature.js";
+import { announce, syncOutbox } from "./sync.js";
+
+const PHOTO_MAX_SIDE = 1600;
+
+function showVerdict(input) {
+  const out = document.getElementById(`${input.id}-verdict`);
+  if (!out) return;
+  const raw = input.value.trim();
+  const value = raw === "" ? null : Number(raw.replace(",", "."));
+  const { verdict, text } = judge(value, JSON.parse(input.dataset.limits || "null"), input.dataset.unit || "");
+  out.innerHTML = "";
+  if (value === null) return;
+  const badge = document.createElement("span");
+  badge.className = `verdict ${verdict}`;
+  badge.textContent = verdict === "none" ? "no limit" : verdict;
+  out.append(badge, ` ${text} (phone check)`);
+}
+
+async function photoDataUrl(file) {
+  // Downscale on the phone: a smaller picture survives a weak signal and fits the outbox.
+  const bitmap = await createImageBitmap(file);
+  const scale = Math.min(1, PHOTO_MAX_SIDE / Math.max(bitmap.width, bitmap.height));
+  const canvas = document.createElement("canvas");
+  canvas.width = Math.round(bitmap.width * scale);
+  canvas.height = Math.round(bitmap.height * scale);
+  canvas.getContext("2d").drawImage(bitmap, 0, 0, canvas.width, canvas.height);
+  return canvas.toDataURL("image/jpeg", 0.85);
+}
+
+async function collect(form, pad) {
+  const readings = [];
+  const photos = [];
+  for (const block of form.querySelectorAll("[data-item]")) {
+    const item = block.dataset.item;
+    const component = block.dataset.component || null;
+    const kind = block.dataset.kind;
+    const noteInput = block.querySelector("input[name^='n:']");
+    const note = noteInput ? noteInput.value.trim() : "";
+    const fileInput = block.querySelector("input[type=file]");
+    for (const file of fileInput ? fileInput.files : []) {
+      photos.push({ client_uuid: newUuid(), item, component, data: await photoDataUrl(file) });
+    }
+    if (kind === "photo") continue;
+    let value = null;
+    const na = block.querySelector("input[name^='na:']");
+    if (na && na.checked) value = "na";
+    else if (kind === "number") {
+      const raw = block.querySelector("input[type=number]").value.trim();
+      if (raw !== "") value = Number(raw.replace(",", "."));
+    } else if (kind === "text") {
+      const raw = block.querySelector("textarea").value.trim();
+      if (raw !== "") value = raw;
+    } else {
+      const checked = block.querySelector("input[type=radio]:checked");
+      if (checked) value = checked.value;
+    }
+    if (value !== null) readings.push({ item, component, value, note });
+  }
+  const now = new Date().toISOString();
+  return {
+    client_uuid: form.dataset.clientUuid,
+    work_order: form.dataset.workOrder,
+    work_order_version: Number(form.dataset.version),
+    unit_system: form.dataset.unitSystem,
+    started_at: form.elements.started_at.value || now,
+    finished_at: now,
+    readings,
+    photos,
+    signature: { name: form.elements.signature_name.value.trim(), image: pad.toDataUrl(), signed_at: now },
+  };
+}
+
+function el(tag, attrs = {}, ...children) {
+  const node = document.createElement(tag);
+  for (const [k, v] of Object.entries(attrs)) node.setAttribute(k, v);
+  node.append(...children);
+  return node;
+}
+
+function renderResult(box, result) {
+  const section = el("section", { class: "card", "data-server-result": result.status });
+  section.append(el("h2", {}, "Evaluation by the server"));
+  section.append(el("p", {}, "Status: ", el("strong", {}, result.status),
+    result.work_order_state ? ` · work order ${result.work_order_state}` : ""));
+  if (result.flags && result.flags.length) {
+    section.append(el("p", {}, "Flagged for the supervisor:"), el("ul", {}, ...result.flags.map((f) => el("li", {}, f.reason))));
+  }
+  const list = el("ul", { class: "results" });
+  for (const e of result.evaluation || []) {
+    const derived = Object.entries(e.derived || {}).map(([k, v]) => `${k} = ${v}`).join("; ");
+    list.append(el("li", {}, el("span", { class: `verdict ${e.verdict}` }, e.verdict),
+      ` ${e.item}${e.component ? ` (${e.component})` : ""}: ${e.reason}`,
+      ...(derived ? [el("br"), el("span", { class: "muted" }, derived)] : [])));
+  }
+  section.append(list);
+  if (result.findings && result.findings.length) {
+    section.append(el("p", {}, "Findings:"), el("ul", {}, ...result.findings.map((f) => el("li", {}, `${f.severity}: ${f.title}`))));
+  }
+  box.replaceChildren(section);
+}
+
+function renderPending(box, item) {
+  const section = el("section", { class: "card", "data-pending": item.state || "waiting" });
+  section.append(el("h2", {}, "Saved on this phone"));
+  if (item.state === "refused") {
+    section.append(el("p", {}, "The server refused this form; nothing was saved there. Fix and finish again:"));
+    section.append(el("ul", { class: "errorlist" },
+      ...Object.entries(item.errors || {}).map(([k, v]) => el("li", {}, `${k}: ${[].concat(v).join(" ")}`))));
+  } else {
+    section.append(el("p", {}, `Finished ${new Date(item.form.finished_at).toLocaleString()}; waiting in the outbox to be sent.`));
+  }
+  box.replaceChildren(section);
+}
+
+async function showState(form) {
+  const box = document.querySelector("[data-local-result]");
+  const wo = form.dataset.workOrder;
+  const pending = (await outboxAll()).filter((i) => i.form.work_order === wo);
+  const results = (await resultAll()).filter((r) => r.work_order === wo);
+  results.sort((a, b) => (a.received_at < b.received_at ? 1 : -1));
+  if (pending.length) {
+    renderPending(box, pending[pending.length - 1]);
+    if (pending[pending.length - 1].state === "refused") form.dataset.clientUuid = pending[pending.length - 1].client_uuid;
+  } else if (results.length) renderResult(box, results[0]);
+}
+
+export function startChecklist() {
+  const form = document.querySelector("form[data-checklist]");
+  form.dataset.clientUuid = newUuid();
+  const error = form.querySelector("[data-form-error]");
+  for (const input of form.querySelectorAll("input[type=number][data-limits]")) {
+    input.addEventListener("input", () => showVerdict(input));
+    showVerdict(input);
+  }
+  const block = form.querySelector("[data-signature-block]");
+  block.hidden = false;
+  const pad = attachSignature(form.querySelector("canvas.signature"));
+  form.querySelector("[data-signature-clear]").addEventListener("click", () => pad.clear());
+  document.addEventListener("plenum:outbox", () => showState(form));
+  showState(form);
+
+  form.addEventListener("submit", async (event) => {
+    event.preventDefault();
+    error.hidden = true;
+    if (!form.elements.signature_name.value.trim() || pad.isEmpty()) {
+      error.textContent = "Type your name and sign in the box before finishing.";
+      error.hidden = false;
+      return;
+    }
+    const button = form.querySelector("button[type=submit]");
+    button.disabled = true;
+    try {
+      const payload = await collect(form, pad);
+      await outboxPut({ client_uuid: payload.client_uuid, state: "waiting", form: payload, saved_at: payload.finished_at });
+      form.dataset.clientUuid = newUuid();
+      announce();
+      await syncOutbox();
+    } catch (err) {
+      error.textContent = `Could not save the form on the phone: ${err.message || err}`;
+      error.hidden = false;
+    } finally {
+      button.disabled = false;
+    }
+  });
+}

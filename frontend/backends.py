@@ -1,0 +1,65 @@
+"""The one place the pages call other apps' selectors and services.
+
+Pages import from here so a change of name elsewhere is fixed once.
+The inspections app is imported at call time so a page that does not need
+it keeps working while that app changes.
+"""
+
+from __future__ import annotations
+
+from inventory.selectors import ahus_visible_to, label_lookup
+from scheduling.selectors import (  # noqa: F401
+    board_for,
+    technician_load,
+    today_visits_for,
+    work_orders_managed_by,
+    work_orders_visible_to,
+)
+from scheduling.services.work_orders import (  # noqa: F401
+    corrective_work_order_approve,
+    corrective_work_order_reject,
+    work_order_assign,
+)
+
+
+def unit_for_label(*, user, code: str):
+    """(unit, component or None) behind a label code the person may see; (None, None) otherwise."""
+    found = label_lookup(user=user, code=code)
+    if found is None:
+        return None, None
+    if found._meta.model_name == "component":
+        return ahus_visible_to(user=user).get(pk=found.ahu_id), found
+    return found, None
+
+
+def checklist_for(*, user, work_order) -> dict:
+    """The checklist dict of inspections/SYNC.md §1."""
+    from inspections.selectors import checklist_for as real
+
+    return real(work_order=work_order, user=user)
+
+
+def findings_visible_to(*, user):
+    from inspections.selectors import findings_visible_to as real
+
+    return real(user=user)
+
+
+def flagged_forms_for(*, user):
+    from inspections.selectors import flagged_forms_for as real
+
+    return real(user=user)
+
+
+def sync_forms(*, user, forms: list[dict]) -> list[dict]:
+    """The results of inspections/SYNC.md §2, for forms posted without scripts."""
+    from inspections.services import inspection_sync
+
+    return inspection_sync(user=user, forms=forms)
+
+
+def flag_resolve(*, inspection, by, note: str):
+    """inspections' resolve-flag service (SYNC.md §4)."""
+    from inspections.services import flagged_form_resolve
+
+    return flagged_form_resolve(inspection=inspection, by=by, note=note)

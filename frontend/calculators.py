@@ -1,0 +1,200 @@
+"""The field calculator: each figure names its inputs (quantity, SI range) and calls one engineering function.
+
+Formulas live in engineering/ only; this module converts the user's units at
+the edges and shapes the answer for the page and the API.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+
+from engineering import _validate as limits
+from engineering import airside, filters, outdoor_air
+from engineering.errors import EngineeringInputError
+from engineering.units import from_display, to_display, unit_label
+
+
+@dataclass(frozen=True)
+class Input:
+    name: str  # the engineering keyword argument
+    label: str
+    quantity: str
+    low_si: float | None
+    high_si: float | None
+    default_si: float | None = None
+
+
+@dataclass(frozen=True)
+class Calculator:
+    name: str
+    title: str
+    help: str
+    inputs: tuple[Input, ...]
+    compute: Callable[..., list[dict]]
+
+
+def _row(label: str, value: float, quantity: str | None, system: str, decimals: int = 2) -> dict:
+    shown = to_display(value=value, quantity=quantity, system=system) if quantity else value
+    unit = unit_label(quantity=quantity, system=system) if quantity else ""
+    return {"label": label, "value": round(shown, decimals), "unit": unit}
+
+
+def _fraction_rows(result: outdoor_air.OaFraction, system: str) -> list[dict]:
+    return [
+        {"label": "Outdoor-air fraction", "value": round(result.fraction * 100, 1), "unit": "%"},
+        {"label": "Uncertainty (±)", "value": round(result.uncertainty * 100, 1), "unit": "%"},
+        {"label": "Likely range", "value": f"{result.low * 100:.1f}–{result.high * 100:.1f}", "unit": "%"},
+    ]
+
+
+def _oa_temperatures(system: str, **si) -> list[dict]:
+    return _fraction_rows(outdoor_air.oa_fraction_from_temperatures(**si), system)
+
+
+def _oa_co2(system: str, **si) -> list[dict]:
+    return _fraction_rows(outdoor_air.oa_fraction_from_co2(**si), system)
+
+
+def _filter_loading(system: str, **si) -> list[dict]:
+    result = filters.filter_loading(**si)
+    return [
+        _row("Pressure drop at design airflow", result.corrected_dp_pa, "pressure", system),
+        {
+            "label": "Loading (clean = 0 %, final = 100 %)",
+            "value": round(result.fraction_of_span * 100, 1),
+            "unit": "%",
+        },
+        {"label": "Verdict", "value": result.verdict.value, "unit": "", "verdict": result.verdict.value},
+        {"label": "Reason", "value": result.reason, "unit": ""},
+    ]
+
+
+def _sensible_heat(system: str, **si) -> list[dict]:
+    return [_row("Sensible heat added to the air", airside.sensible_heat_w(**si), "heat_rate", system)]
+
+
+T = limits.AIR_TEMPERATURE_C
+DP = filters.FILTER_DP_PA
+Q = (0.0, airside.AIRFLOW_MAX_M3S)
+
+CALCULATORS: dict[str, Calculator] = {
+    c.name: c
+    for c in (
+        Calculator(
+            "oa-temperatures",
+            "Outdoor-air fraction from three temperatures",
+            "Needs at least 3 K between outdoor and return air.",
+            (
+                Input("t_outdoor_c", "Outdoor air", "temperature", *T),
+                Input("t_return_c", "Return air", "temperature", *T),
+                Input("t_mixed_c", "Mixed air", "temperature", *T),
+            ),
+            _oa_temperatures,
+        ),
+        Calculator(
+            "oa-co2",
+            "Outdoor-air fraction from three CO2 readings",
+            "Needs at least 100 ppm between outdoor and return air; the supply reading serves for the mixed one.",
+            (
+                Input("co2_outdoor_ppm", "Outdoor CO2", "co2", *limits.CO2_PPM),
+                Input("co2_return_ppm", "Return CO2", "co2", *limits.CO2_PPM),
+                Input("co2_supply_or_mixed_ppm", "Supply or mixed CO2", "co2", *limits.CO2_PPM),
+            ),
+            _oa_co2,
+        ),
+        Calculator(
+            "filter-loading",
+            "Filter loading corrected to design airflow",
+            "Pressure drop is corrected to the design airflow before it is compared with the clean and final values.",
+            (
+                Input("dp_pa", "Measured pressure drop", "pressure", *DP),
+                Input("airflow_m3s", "Airflow now", "airflow", *Q),
+                Input("design_airflow_m3s", "Design airflow", "airflow", *Q),
+                Input("clean_dp_pa", "Clean pressure drop", "pressure", *DP),
+                Input("final_dp_pa", "Final pressure drop", "pressure", *DP),
+            ),
+            _filter_loading,
+        ),
+        Calculator(
+            "sensible-heat",
+            "Sensible heat of an airstream",
+            "Dry standard air at sea level; positive when the air is heated.",
+            (
+                Input("airflow_m3s", "Airflow", "airflow", *Q),
+                Input("t_in_c", "Entering air", "temperature", *T),
+                Input("t_out_c", "Leaving air", "temperature", *T),
+            ),
+            _sensible_heat,
+        ),
+    )
+}
+
+
+def _display(value_si: float | None, quantity: str, system: str) -> float | None:
+    if value_si is None:
+        return None
+    return round(to_display(value=value_si, quantity=quantity, system=system), 2)
+
+
+def input_fields(calc: Calculator, system: str) -> list[dict]:
+    """Inputs with their display unit and allowed range, for the form and the offline checks."""
+    return [
+        {
+            "name": i.name,
+            "label": i.label,
+            "unit": unit_label(quantity=i.quantity, system=system),
+            "min": _display(i.low_si, i.quantity, system),
+            "max": _display(i.high_si, i.quantity, system),
+            "id": f"{calc.name}-{i.name}",
+        }
+        for i in calc.inputs
+    ]
+
+
+class CalcError(Exception):
+    def __init__(self, errors: dict[str, list[str]]):
+        super().__init__("; ".join(f"{k}: {' '.join(v)}" for k, v in errors.items()))
+        self.errors = errors
+
+
+def _restate(exc: EngineeringInputError, inputs: dict[str, Input], typed: dict, system: str) -> str:
+    spec = inputs.get(exc.field)
+    if spec is None or (exc.low is None and exc.high is None):
+        return exc.message
+    unit = unit_label(quantity=spec.quantity, system=system)
+    lo = _display(exc.low, spec.quantity, system)
+    hi = _display(exc.high, spec.quantity, system)
+    allowed = (
+        f"from {lo} to {hi} {unit}"
+        if lo is not None and hi is not None
+        else (f"at least {lo} {unit}" if lo is not None else f"at most {hi} {unit}")
+    )
+    return f"{spec.label}: {typed.get(exc.field)} {unit} is not allowed; allowed {allowed}"
+
+
+def calculate(*, name: str, values: dict, system: str) -> list[dict]:
+    """Run one calculator on values typed in the user's units; CalcError names each bad field."""
+    calc = CALCULATORS[name]
+    by_name = {i.name: i for i in calc.inputs}
+    si, errors = {}, {}
+    for spec in calc.inputs:
+        raw = values.get(spec.name)
+        unit = unit_label(quantity=spec.quantity, system=system)
+        try:
+            number = float(str(raw).replace(",", "."))
+        except (TypeError, ValueError):
+            errors[spec.name] = [f"{spec.label}: {raw!r} is not a number in {unit}"]
+            continue
+        try:
+            si[spec.name] = from_display(value=number, quantity=spec.quantity, system=system)
+        except EngineeringInputError as exc:
+            errors[spec.name] = [f"{spec.label}: {number} {unit} is not allowed ({exc.allowed})"]
+    if errors:
+        raise CalcError(errors)
+    try:
+        return calc.compute(system, **si)
+    except EngineeringInputError as exc:
+        raise CalcError(
+            {exc.field if exc.field in by_name else "non_field_errors": [_restate(exc, by_name, values, system)]}
+        )

@@ -1,0 +1,80 @@
+"""Small trend charts as inline SVG, drawn by hand so pages stay light and text stays real text."""
+
+from __future__ import annotations
+
+import datetime as dt
+from html import escape
+
+
+def _scale(lo: float, hi: float, a: float, b: float):
+    span = (hi - lo) or 1.0
+    return lambda v: a + (v - lo) / span * (b - a)
+
+
+def line_chart(
+    *,
+    title: str,
+    series: list[tuple[dt.date, float]],
+    unit: str,
+    forecast: list[tuple[dt.date, float]] | None = None,
+    hline: tuple[float, str] | None = None,
+    vline: tuple[dt.date, str] | None = None,
+    width: int = 640,
+    height: int = 240,
+) -> str:
+    """A dated line chart with an optional dashed forecast, a limit line and a marked date."""
+    forecast = forecast or []
+    points = series + forecast
+    if not points:
+        return f'<p class="muted">{escape(title)}: no data yet.</p>'
+    dates = [d for d, _ in points] + ([vline[0]] if vline else [])
+    values = [v for _, v in points] + ([hline[0]] if hline else [])
+    d0, d1 = min(dates), max(dates)
+    if d0 == d1:
+        d1 = d0 + dt.timedelta(days=1)
+    v0, v1 = min(values), max(values)
+    pad = (v1 - v0) * 0.1 or 1.0
+    v0, v1 = v0 - pad, v1 + pad
+    left, right, top, bottom = 56, width - 12, 28, height - 32
+    x = _scale(d0.toordinal(), d1.toordinal(), left, right)
+    y = _scale(v0, v1, bottom, top)
+
+    def path(data):
+        return " ".join(f"{'M' if i == 0 else 'L'}{x(d.toordinal()):.1f},{y(v):.1f}" for i, (d, v) in enumerate(data))
+
+    parts = [
+        f'<svg viewBox="0 0 {width} {height}" role="img" aria-label="{escape(title)}" xmlns="http://www.w3.org/2000/svg">',
+        f"<title>{escape(title)}</title>",
+        f'<text x="{left}" y="16" fill="currentColor" font-size="13">{escape(title)} ({escape(unit)})</text>',
+        f'<line x1="{left}" y1="{bottom}" x2="{right}" y2="{bottom}" stroke="currentColor" stroke-width="1"/>',
+        f'<line x1="{left}" y1="{top}" x2="{left}" y2="{bottom}" stroke="currentColor" stroke-width="1"/>',
+        f'<text x="{left - 6}" y="{top + 4}" text-anchor="end" fill="currentColor" font-size="11">{v1:.0f}</text>',
+        f'<text x="{left - 6}" y="{bottom}" text-anchor="end" fill="currentColor" font-size="11">{v0:.0f}</text>',
+        f'<text x="{left}" y="{height - 12}" fill="currentColor" font-size="11">{d0:%d %b %Y}</text>',
+        f'<text x="{right}" y="{height - 12}" text-anchor="end" fill="currentColor" font-size="11">{d1:%d %b %Y}</text>',
+    ]
+    if hline:
+        parts.append(
+            f'<line x1="{left}" y1="{y(hline[0]):.1f}" x2="{right}" y2="{y(hline[0]):.1f}" stroke="currentColor" stroke-dasharray="2 4"/>'
+        )
+        parts.append(
+            f'<text x="{right}" y="{y(hline[0]) - 4:.1f}" text-anchor="end" fill="currentColor" font-size="11">{escape(hline[1])}</text>'
+        )
+    if vline:
+        vx = x(vline[0].toordinal())
+        parts.append(
+            f'<line x1="{vx:.1f}" y1="{top}" x2="{vx:.1f}" y2="{bottom}" stroke="currentColor" stroke-dasharray="6 3"/>'
+        )
+        parts.append(
+            f'<text x="{vx + 4:.1f}" y="{top + 12}" fill="currentColor" font-size="11">{escape(vline[1])}</text>'
+        )
+    if series:
+        parts.append(f'<path d="{path(series)}" fill="none" stroke="currentColor" stroke-width="2.5"/>')
+        parts += [f'<circle cx="{x(d.toordinal()):.1f}" cy="{y(v):.1f}" r="3" fill="currentColor"/>' for d, v in series]
+    if forecast:
+        joined = ([series[-1]] if series else []) + forecast
+        parts.append(
+            f'<path d="{path(joined)}" fill="none" stroke="currentColor" stroke-width="2" stroke-dasharray="8 5"/>'
+        )
+    parts.append("</svg>")
+    return "".join(parts)

@@ -1,0 +1,138 @@
+"""The checklist as an HTML form, and a posted form as a sync payload (inspections/SYNC.md).
+
+The page works before any script: the same field names are read by the
+server on a plain POST and by checklist.js when it builds the outbox entry.
+"""
+
+from __future__ import annotations
+
+import base64
+import io
+import json
+import uuid
+
+from django.utils import timezone
+
+LOCAL_CODES_FIRST = (
+    "Local codes, the manufacturer's instructions and licensed practice come first; "
+    "where they differ from this checklist, follow them."
+)
+
+
+def field_name(prefix: str, key: str, component: str | None) -> str:
+    return f"{prefix}:{key}:{component or '-'}"
+
+
+def _dom_id(prefix: str, key: str, component: str | None) -> str:
+    return f"{prefix}-{key}-{component or 'unit'}".replace(".", "-").replace(":", "-")
+
+
+def form_sections(checklist: dict) -> list[dict]:
+    """Templates with their items, each with the names and ids the form uses."""
+    sections = []
+    for template in checklist.get("templates", []):
+        items = []
+        for item in template.get("items", []):
+            comp = (item.get("component") or {}).get("label_code")
+            display = (item.get("limits") or {}).get("display") or {}
+            physical = display.get("physical") or {}
+            items.append(
+                {
+                    **item,
+                    "component_code": comp or "",
+                    "name": field_name("r", item["key"], comp),
+                    "note_name": field_name("n", item["key"], comp),
+                    "photo_name": field_name("p", item["key"], comp),
+                    "na_name": field_name("na", item["key"], comp),
+                    "id": _dom_id("r", item["key"], comp),
+                    "limits_json": json.dumps(display),
+                    "min": physical.get("min"),
+                    "max": physical.get("max"),
+                    "step": "any",
+                }
+            )
+        sections.append({**template, "items": items})
+    return sections
+
+
+def cautions_for(checklist: dict) -> list[str]:
+    """Every caution once, the local-codes-first line always last."""
+    seen: list[str] = []
+    for text in [
+        *checklist.get("cautions", []),
+        *(c for t in checklist.get("templates", []) for c in t.get("cautions", [])),
+    ]:
+        if text not in seen:
+            seen.append(text)
+    if not any("local code" in c.lower() for c in seen):
+        seen.append(LOCAL_CODES_FIRST)
+    return seen
+
+
+def _number(raw: str):
+    try:
+        return float(raw.replace(",", "."))
+    except ValueError:
+        # The server names the field, the value and what is allowed.
+        return raw
+
+
+def _data_url(upload) -> str:
+    content = upload.read()
+    kind = upload.content_type or "application/octet-stream"
+    return f"data:{kind};base64,{base64.b64encode(content).decode()}"
+
+
+def typed_signature_png(name: str) -> str:
+    """A PNG of the typed name, the signature when the page runs without scripts."""
+    from PIL import Image, ImageDraw
+
+    image = Image.new("RGB", (600, 150), "white")
+    draw = ImageDraw.Draw(image)
+    draw.line([(20, 120), (580, 120)], fill=(120, 120, 120), width=1)
+    draw.text((24, 70), f"{name} (typed)", fill=(0, 0, 0))
+    buffer = io.BytesIO()
+    image.save(buffer, format="PNG")
+    return "data:image/png;base64," + base64.b64encode(buffer.getvalue()).decode()
+
+
+def payload_from_post(*, checklist: dict, post, files) -> dict:
+    """One sync form from a plain HTML post of the checklist page."""
+    now = timezone.now().isoformat()
+    readings, photos = [], []
+    for section in form_sections(checklist):
+        for item in section["items"]:
+            comp = item["component_code"] or None
+            note = post.get(item["note_name"], "").strip()
+            for upload in files.getlist(item["photo_name"]):
+                photos.append(
+                    {
+                        "client_uuid": str(uuid.uuid4()),
+                        "item": item["key"],
+                        "component": comp,
+                        "data": _data_url(upload),
+                    }
+                )
+            if item["kind"] == "photo":
+                continue
+            if post.get(item["na_name"]):
+                value = "na"
+            else:
+                raw = post.get(item["name"], "").strip()
+                if raw == "":
+                    continue
+                value = _number(raw) if item["kind"] == "number" else raw
+            readings.append({"item": item["key"], "component": comp, "value": value, "note": note})
+    name = post.get("signature_name", "").strip()
+    image = post.get("signature_image", "").strip() or (typed_signature_png(name) if name else "")
+    return {
+        "client_uuid": post.get("client_uuid") or str(uuid.uuid4()),
+        "work_order": checklist["work_order"]["public_id"],
+        "work_order_version": checklist["work_order"]["version"],
+        "unit_system": checklist.get("unit_system", "si"),
+        "started_at": post.get("started_at") or now,
+        "finished_at": now,
+        "readings": readings,
+        "photos": photos,
+        "signature": {"name": name, "image": image, "signed_at": now} if name or image else None,
+    }

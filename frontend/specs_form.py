@@ -1,0 +1,69 @@
+"""Component spec fields as form rows, from the one spec table (inventory.specs), in the user's units."""
+
+from __future__ import annotations
+
+from engineering.errors import EngineeringInputError
+from engineering.units import from_display, to_display, unit_label
+from inventory.specs import SpecField, spec_fields
+
+# Spec units that have a display quantity; the others (rpm, mm, V, A, s, %) read the same in both systems.
+QUANTITY_OF_UNIT = {"Pa": "pressure", "m³/s": "airflow", "°C": "temperature", "W": "heat_rate", "m²": "area"}
+
+
+def _quantity(spec: SpecField) -> str | None:
+    return QUANTITY_OF_UNIT.get(spec.unit)
+
+
+def _shown(spec: SpecField, value, system: str):
+    q = _quantity(spec)
+    if q is None or value is None or isinstance(value, bool) or not isinstance(value, (int, float)):
+        return value
+    return round(to_display(value=value, quantity=q, system=system), 4)
+
+
+def spec_initial(*, component, system: str) -> dict:
+    return {s.name: _shown(s, component.specs.get(s.name), system) for s in spec_fields(component.kind)}
+
+
+def spec_rows(*, fields, values: dict, errors: dict, system: str) -> list[dict]:
+    rows = []
+    for s in fields:
+        q = _quantity(s)
+        unit = unit_label(quantity=q, system=system) if q else s.unit
+        allowed = s.allowed()
+        if q and s.minimum is not None and s.maximum is not None:
+            allowed = f"a number from {_shown(s, s.minimum, system):g} to {_shown(s, s.maximum, system):g} {unit}"
+        value = values.get(s.name)
+        rows.append(
+            {
+                "spec": s,
+                "name": f"spec_{s.name}",
+                "id": f"spec-{s.name}",
+                "unit": unit,
+                "allowed": allowed,
+                "value": "" if value is None else value,
+                "errors": errors.get(s.name, []),
+            }
+        )
+    return rows
+
+
+def specs_from_post(*, kind: str, post, system: str) -> tuple[dict, dict]:
+    """Specs in SI from the posted form; the registry's validator has the last word."""
+    specs, errors = {}, {}
+    for s in spec_fields(kind):
+        raw = post.get(f"spec_{s.name}", "").strip()
+        if s.kind == "bool":
+            specs[s.name] = raw in {"1", "true", "on", "yes"}
+            continue
+        if raw == "":
+            continue
+        q = _quantity(s)
+        if s.kind in {"number", "integer"} and q:
+            try:
+                specs[s.name] = from_display(value=float(raw.replace(",", ".")), quantity=q, system=system)
+            except (ValueError, EngineeringInputError):
+                errors[s.name] = [f"{s.label}: {raw!r} is not a number in {unit_label(quantity=q, system=system)}"]
+        else:
+            specs[s.name] = raw
+    return specs, errors

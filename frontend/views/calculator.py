@@ -1,0 +1,35 @@
+"""The field calculator page. Works without scripts (a plain POST); with scripts it asks the API."""
+
+from django.contrib.auth.decorators import login_required
+from django.shortcuts import render
+
+from ..calculators import CALCULATORS, CalcError, calculate, input_fields
+
+
+@login_required
+def calculator(request):
+    system = request.user.unit_system
+    answered, results, errors, typed = None, None, {}, {}
+    if request.method == "POST" and request.POST.get("calculator") in CALCULATORS:
+        answered = request.POST["calculator"]
+        typed = {k: request.POST.get(k, "") for k in (i.name for i in CALCULATORS[answered].inputs)}
+        try:
+            results = calculate(name=answered, values=typed, system=system)
+        except CalcError as exc:
+            errors = exc.errors
+    calcs = []
+    for calc in CALCULATORS.values():
+        fields = input_fields(calc, system)
+        if calc.name == answered:
+            for f in fields:
+                f["value"] = typed.get(f["name"], "")
+                f["errors"] = errors.get(f["name"], [])
+        calcs.append(
+            {
+                "calc": calc,
+                "fields": fields,
+                "results": results if calc.name == answered else None,
+                "errors": errors.get("non_field_errors", []) if calc.name == answered else [],
+            }
+        )
+    return render(request, "frontend/technician/calculator.html", {"calcs": calcs})

@@ -1,0 +1,303 @@
+"""The supervisor's desk pages: board and assignment, registry, rules per unit, findings, corrective work, flags."""
+
+import datetime as dt
+
+from django.contrib import messages
+from django.contrib.auth.decorators import login_required
+from django.core.exceptions import PermissionDenied, ValidationError
+from django.db.models import Count, Prefetch
+from django.http import Http404
+from django.shortcuts import redirect, render
+from django.urls import reverse
+from django.utils import timezone
+from django.views.decorators.http import require_POST
+
+from accounts.models import Membership, Role
+from accounts.selectors import organisations_where
+from inventory import services as inventory_services
+from inventory.models import AHU, Component
+from inventory.selectors import component_tree, sites_managed_by
+from inventory.specs import spec_fields
+from scheduling.models import UnitTaskSetting, WorkOrder
+from scheduling.selectors import effective_tasks
+from scheduling.services.library import unit_task_set
+
+from .. import backends
+from ..specs_form import spec_initial, spec_rows, specs_from_post
+
+MANAGING = {Role.SUPERVISOR, Role.ADMIN}
+
+
+def _organisation(request):
+    org = organisations_where(user=request.user, roles=MANAGING).order_by("pk").first()
+    if org is None:
+        raise PermissionDenied("Only a supervisor or administrator may open this page.")
+    return org
+
+
+def _week_start(raw: str | None) -> dt.date:
+    today = timezone.localdate()
+    try:
+        day = dt.date.fromisoformat(raw) if raw else today
+    except ValueError:
+        day = today
+    return day - dt.timedelta(days=day.weekday())
+
+
+def _technicians(org):
+    return [m.user for m in Membership.objects.filter(organisation=org, role=Role.TECHNICIAN).select_related("user")]
+
+
+@login_required
+def board(request):
+    org = _organisation(request)
+    week = _week_start(request.GET.get("week"))
+    data = backends.board_for(organisation=org, week_start=week)
+    load = backends.technician_load(organisation=org, start=week, days=7)
+    return render(
+        request,
+        "frontend/supervisor/board.html",
+        {
+            "board": data,
+            "week": week,
+            "week_end": week + dt.timedelta(days=6),
+            "prev_week": week - dt.timedelta(days=7),
+            "next_week": week + dt.timedelta(days=7),
+            "load": load,
+            "days": [week + dt.timedelta(days=k) for k in range(7)],
+            "technicians": _technicians(org),
+            "columns": [("Overdue", data.overdue), ("Due, not assigned", data.due), ("Assigned", data.assigned)],
+        },
+    )
+
+
+@login_required
+@require_POST
+def assign(request, public_id):
+    org = _organisation(request)
+    wo = backends.work_orders_managed_by(user=request.user).filter(public_id=public_id).first()
+    if wo is None:
+        raise Http404("No such work order that you manage.")
+    technician = next((t for t in _technicians(org) if str(t.pk) == request.POST.get("assignee")), None)
+    back = reverse("frontend:board") + f"?week={request.POST.get('week', '')}"
+    if technician is None:
+        messages.error(request, f"assignee={request.POST.get('assignee')!r} is not a technician of {org}.")
+        return redirect(back)
+    try:
+        version = int(request.POST.get("version", ""))
+    except ValueError:
+        version = None
+    try:
+        backends.work_order_assign(work_order=wo, assignee=technician, by=request.user, expected_version=version)
+    except ValidationError as exc:
+        messages.error(request, f"{wo.ahu.tag} {wo.title}: {' '.join(exc.messages)}")
+    else:
+        messages.success(request, f"{wo.ahu.tag} — {wo.title} assigned to {technician}.")
+    return redirect(back)
+
+
+def _managed_ahus(request):
+    return AHU.objects.filter(building__site__in=sites_managed_by(user=request.user)).select_related("building__site")
+
+
+@login_required
+def registry(request):
+    _organisation(request)
+    units = _managed_ahus(request).annotate(n_components=Count("components")).order_by("building__site__name", "tag")
+    return render(request, "frontend/supervisor/registry.html", {"units": units})
+
+
+def _ahu(request, pk):
+    ahu = _managed_ahus(request).filter(pk=pk).first()
+    if ahu is None:
+        raise Http404("No such unit that you manage.")
+    return ahu
+
+
+@login_required
+def unit_detail(request, pk):
+    ahu = _ahu(request, pk)
+    return render(request, "frontend/supervisor/unit.html", {"ahu": ahu, "tree": component_tree(ahu=ahu)})
+
+
+UNIT_FIELDS = (
+    "tag",
+    "location",
+    "area_served",
+    "design_supply_airflow_m3s",
+    "design_min_oa_fraction",
+    "supply_air_setpoint_c",
+    "duct_static_setpoint_pa",
+    "status",
+    "notes",
+)
+
+
+@login_required
+def unit_edit(request, pk):
+    ahu = _ahu(request, pk)
+    errors = {}
+    if request.method == "POST":
+        changes = {}
+        for name in UNIT_FIELDS:
+            field = AHU._meta.get_field(name)
+            raw = request.POST.get(name, "").strip()
+            if field.get_internal_type() == "FloatField":
+                try:
+                    changes[name] = float(raw) if raw else None
+                except ValueError:
+                    errors[name] = [f"{field.verbose_name}: {raw!r} is not a number"]
+            else:
+                changes[name] = raw
+        if not errors:
+            try:
+                inventory_services.ahu_update(ahu=ahu, **changes)
+            except ValidationError as exc:
+                errors = exc.message_dict if hasattr(exc, "error_dict") else {"__all__": exc.messages}
+            else:
+                messages.success(request, f"{ahu.tag} saved.")
+                return redirect("frontend:registry_unit", pk=ahu.pk)
+    fields = []
+    for name in UNIT_FIELDS:
+        field = AHU._meta.get_field(name)
+        fields.append(
+            {
+                "name": name,
+                "label": str(field.verbose_name).capitalize(),
+                "value": request.POST.get(name, getattr(ahu, name) if getattr(ahu, name) is not None else ""),
+                "choices": field.choices,
+                "errors": errors.get(name, []),
+                "help": field.help_text,
+                "number": field.get_internal_type() == "FloatField",
+                "text": name == "notes",
+            }
+        )
+    return render(
+        request,
+        "frontend/supervisor/unit_edit.html",
+        {"ahu": ahu, "fields": fields, "errors": errors.get("__all__", [])},
+    )
+
+
+@login_required
+def component_edit(request, pk):
+    component = Component.objects.filter(ahu__in=_managed_ahus(request), pk=pk).select_related("ahu").first()
+    if component is None:
+        raise Http404("No such component that you manage.")
+    system = request.user.unit_system
+    errors = {}
+    values = spec_initial(component=component, system=system)
+    if request.method == "POST":
+        specs, errors = specs_from_post(kind=component.kind, post=request.POST, system=system)
+        values = {k: request.POST.get(f"spec_{k}", "") for k in values}
+        if not errors:
+            try:
+                inventory_services.component_update(
+                    component=component, name=request.POST.get("name", component.name), specs=specs
+                )
+            except ValidationError as exc:
+                errors = exc.message_dict if hasattr(exc, "error_dict") else {"__all__": exc.messages}
+            else:
+                messages.success(request, f"{component.name} saved.")
+                return redirect("frontend:registry_unit", pk=component.ahu_id)
+    rows = spec_rows(fields=spec_fields(component.kind), values=values, errors=errors, system=system)
+    return render(
+        request,
+        "frontend/supervisor/component_edit.html",
+        {"component": component, "rows": rows, "errors": errors.get("specs", []) + errors.get("__all__", [])},
+    )
+
+
+@login_required
+def unit_rules(request, pk):
+    ahu = _ahu(request, pk)
+    org = ahu.building.site.organisation
+    tasks = effective_tasks(organisation=org)
+    if request.method == "POST":
+        code = request.POST.get("task_code", "")
+        if code in tasks:
+            enabled = request.POST.get("enabled") == "1"
+            unit_task_set(
+                ahu=ahu, task_code=code, enabled=enabled, reason=request.POST.get("reason", ""), by=request.user
+            )
+            messages.success(
+                request, f"{tasks[code].name} {'switched on' if enabled else 'switched off'} for {ahu.tag}."
+            )
+        else:
+            messages.error(request, f"task_code={code!r} is not one of the organisation's tasks.")
+        return redirect("frontend:registry_rules", pk=ahu.pk)
+    settings_by_code = {s.task_code: s for s in UnitTaskSetting.objects.filter(ahu=ahu)}
+    rows = [
+        {
+            "task": t,
+            "setting": settings_by_code.get(code),
+            "enabled": settings_by_code[code].enabled if code in settings_by_code else True,
+        }
+        for code, t in tasks.items()
+    ]
+    return render(request, "frontend/supervisor/rules.html", {"ahu": ahu, "rows": rows})
+
+
+@login_required
+def findings(request):
+    _organisation(request)
+    rows = (
+        backends.findings_visible_to(user=request.user)
+        .filter(state="open")
+        .select_related("ahu__building__site", "component", "corrective_work_order")
+    )
+    order = {"critical": 0, "high": 1, "medium": 2, "low": 3}
+    now = timezone.now()
+    rows = sorted(rows, key=lambda f: (order.get(f.severity, 9), f.opened_at))
+    groups = {}
+    for f in rows:
+        f.age = f.age_days(now=now)
+        groups.setdefault(f.get_severity_display(), []).append(f)
+    return render(request, "frontend/supervisor/findings.html", {"groups": groups})
+
+
+@login_required
+def corrective(request):
+    _organisation(request)
+    pending = backends.work_orders_managed_by(user=request.user).filter(
+        kind=WorkOrder.Kind.CORRECTIVE, approval=WorkOrder.Approval.PENDING
+    )
+    if request.method == "POST":
+        wo = pending.filter(public_id=request.POST.get("work_order", "")).first()
+        if wo is None:
+            raise Http404("No such proposed work order that you manage.")
+        try:
+            if request.POST.get("decision") == "approve":
+                backends.corrective_work_order_approve(work_order=wo, by=request.user)
+                messages.success(request, f"Approved: {wo.title}.")
+            else:
+                backends.corrective_work_order_reject(
+                    work_order=wo, by=request.user, reason=request.POST.get("reason", "")
+                )
+                messages.success(request, f"Rejected: {wo.title}.")
+        except ValidationError as exc:
+            messages.error(request, " ".join(exc.messages))
+        return redirect("frontend:corrective")
+    return render(request, "frontend/supervisor/corrective.html", {"pending": list(pending.order_by("due_date"))})
+
+
+@login_required
+def flagged(request):
+    _organisation(request)
+    forms = (
+        backends.flagged_forms_for(user=request.user)
+        .select_related("ahu__building__site", "technician", "work_order")
+        .prefetch_related(Prefetch("findings"))
+    )
+    if request.method == "POST":
+        form = forms.filter(pk=request.POST.get("inspection", "") or 0).first()
+        if form is None:
+            raise Http404("No such flagged form that you may resolve.")
+        try:
+            backends.flag_resolve(inspection=form, by=request.user, note=request.POST.get("note", ""))
+        except ValidationError as exc:
+            messages.error(request, " ".join(exc.messages))
+        else:
+            messages.success(request, f"Flag on inspection {form.pk} resolved.")
+        return redirect("frontend:flagged")
+    return render(request, "frontend/supervisor/flagged.html", {"forms": list(forms)})

@@ -1,0 +1,97 @@
+"""The technician's phone pages: today's visits, a unit by its label code, the checklist."""
+
+from django.contrib.auth.decorators import login_required
+from django.http import Http404
+from django.shortcuts import redirect, render
+from django.urls import reverse
+from django.utils import timezone
+from django.views.decorators.http import require_GET
+
+from inventory.selectors import component_tree
+from scheduling.models import WorkOrder
+
+from .. import backends
+from ..checklist_form import cautions_for, form_sections, payload_from_post
+
+CHECKLIST_API = "/api/inspections/work-orders/{}/checklist/"
+
+
+def offline_urls(visits) -> list[str]:
+    """The day's pages and checklist JSON the service worker saves for a reload without signal."""
+    urls = [reverse("frontend:today"), reverse("frontend:calculator")]
+    for wo in (wo for visit in visits for wo in visit.work_orders):
+        urls += [
+            reverse("frontend:checklist", kwargs={"public_id": wo.public_id}),
+            CHECKLIST_API.format(wo.public_id),
+            reverse("frontend:unit", kwargs={"code": wo.ahu.label_code}),
+        ]
+    return urls
+
+
+@login_required
+@require_GET
+def today(request):
+    visits = backends.today_visits_for(technician=request.user, day=timezone.localdate())
+    return render(
+        request,
+        "frontend/technician/today.html",
+        {"visits": visits, "today": timezone.localdate(), "offline_urls": offline_urls(visits)},
+    )
+
+
+@login_required
+@require_GET
+def unit_lookup(request):
+    code = request.GET.get("code", "").strip().upper()
+    if not code:
+        return redirect("frontend:today")
+    return redirect("frontend:unit", code=code)
+
+
+@login_required
+@require_GET
+def unit(request, code: str):
+    ahu, component = backends.unit_for_label(user=request.user, code=code)
+    if ahu is None:
+        raise Http404(f"No unit or component with label code {code!r} that you may see.")
+    work = (
+        backends.work_orders_visible_to(user=request.user)
+        .filter(ahu=ahu, state__in=WorkOrder.OPEN_STATES)
+        .order_by("due_date")
+    )
+    return render(
+        request,
+        "frontend/technician/unit.html",
+        {"ahu": ahu, "component": component, "tree": component_tree(ahu=ahu), "work": list(work)},
+    )
+
+
+def _work_order(request, public_id):
+    wo = backends.work_orders_visible_to(user=request.user).filter(public_id=public_id).first()
+    if wo is None:
+        raise Http404("No such work order that you may see.")
+    return wo
+
+
+@login_required
+def checklist(request, public_id):
+    wo = _work_order(request, public_id)
+    data = backends.checklist_for(user=request.user, work_order=wo)
+    result = None
+    if request.method == "POST" and data is not None:
+        form = payload_from_post(checklist=data, post=request.POST, files=request.FILES)
+        result = backends.sync_forms(user=request.user, forms=[form])[0]
+    return render(
+        request,
+        "frontend/technician/checklist.html",
+        {
+            "wo": wo,
+            "checklist": data,
+            "sections": form_sections(data) if data else [],
+            "cautions": cautions_for(data or {}),
+            "started_at": timezone.now().isoformat(),
+            "result": result,
+            "checklist_api": CHECKLIST_API.format(wo.public_id),
+        },
+        status=200 if data is not None else 503,
+    )
