@@ -1,0 +1,423 @@
+"""The checklist library, as data: one template per task code of the maintenance library.
+
+Values are SI storage units (Pa, °C, m³/s, ppm, rev/s, A, s, h, %). Limits:
+``physical`` — outside it the value cannot be true (the form is refused);
+``plausible`` — outside it the value is improbable (accepted, flagged);
+``ok``/``watch`` — the bands of a simple verdict. Where a band depends on the
+unit or the part (a filter's clean and final pressure drop, a motor's
+full-load current, a damper's rated stroke time) ``limits_from`` names the
+rule in ``dynamic_limits`` that sets it. Each limit says where it comes from;
+most are common practice (no published source), said so.
+
+Bump a template's ``version`` whenever its items change; ``checklist_library_load``
+then adds the new version and leaves the old one for the inspections filled
+against it.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from engineering import units as eng_units
+
+LOCKOUT = (
+    "Lock out and tag out the fan motor (and any electric heater) and prove it dead before opening an "
+    "access door: fans coast for minutes after switch-off."
+)
+HOT_COILS = "Heating coils, their valves and pipework can be hot enough to burn; let them cool or wear gloves."
+LOCAL_CODES = (
+    "Local codes, the manufacturer's instructions and licensed practice take precedence over this checklist."
+)
+ELECTRIC = (
+    "Electric preheaters are live at mains voltage: only a qualified person tests stages, "
+    "with the heater isolated except for the test itself."
+)
+GENERAL_CAUTIONS = [LOCKOUT, HOT_COILS, LOCAL_CODES]
+
+# Ranges that no reading in an AHU can leave (SI). Air from −60 to 120 °C
+# covers any climate and a heater outlet; fluids −40 to 200 °C cover brine to
+# steam condensate. Beyond these, the number is a typo or a wrong unit.
+AIR_T_PHYSICAL = (-60.0, 120.0)
+AIR_T_PLAUSIBLE = (-40.0, 60.0)
+FLUID_T_PHYSICAL = (-40.0, 200.0)
+FLUID_T_PLAUSIBLE = (-10.0, 130.0)
+CO2_PHYSICAL = (0.0, 50_000.0)
+PCT = (0.0, 100.0)
+
+OK_CHOICE = "ok"  # marker key in choice dicts
+
+
+def _choice(value: str, label: str, ok: bool = True) -> dict:
+    return {"value": value, "label": label, "ok": ok}
+
+
+def item(
+    key: str,
+    kind: str,
+    label: str,
+    *,
+    quantity: str = "",
+    per: str = "",
+    where: dict | None = None,
+    physical: tuple[float | None, float | None] = (None, None),
+    plausible: tuple[float | None, float | None] = (None, None),
+    ok: tuple[float | None, float | None] = (None, None),
+    watch: tuple[float | None, float | None] = (None, None),
+    limits_from: str = "",
+    source: str = "",
+    required: bool = False,
+    photo: bool = False,
+    note: bool = False,
+    server: bool = False,
+    choices: list[dict] | None = None,
+    help: str = "",
+    decimals: int = 1,
+) -> dict[str, Any]:
+    return {
+        "key": key, "kind": kind, "label": label, "help": help, "quantity": quantity, "decimals": decimals,
+        "component_kind": per, "component_filter": where or {}, "choices": choices or [],
+        "physical_min": physical[0], "physical_max": physical[1],
+        "plausible_min": plausible[0], "plausible_max": plausible[1],
+        "ok_min": ok[0], "ok_max": ok[1], "watch_min": watch[0], "watch_max": watch[1],
+        "limits_from": limits_from, "limits_source": source, "judged_on_server": server,
+        "required": required, "photo_required_when_not_ok": photo, "note_required_when_not_ok": note,
+    }
+
+
+def air_temp(key: str, label: str, **kw) -> dict:
+    return item(key, "number", label, quantity="temperature", physical=AIR_T_PHYSICAL, plausible=AIR_T_PLAUSIBLE,
+                **kw)
+
+
+def fluid_temp(key: str, label: str, **kw) -> dict:
+    return item(key, "number", label, quantity="temperature", physical=FLUID_T_PHYSICAL,
+                plausible=FLUID_T_PLAUSIBLE, **kw)
+
+
+def check(key: str, label: str, **kw) -> dict:
+    return item(key, "check", label, **kw)
+
+
+def photo(key: str = "photo", label: str = "Photo", **kw) -> dict:
+    return item(key, "photo", label, **kw)
+
+
+CP = "common practice, no published source"
+
+# The visit block is added to every checklist: the unit's run-hour meter and
+# the airflow at the time, which filter and coil evaluations need.
+VISIT = {
+    "code": "visit", "version": 1, "title": "Unit at the time of the visit", "cautions": [],
+    "items": [
+        item("run_hours", "number", "Run-hour meter", quantity="run_hours", physical=(0, 1_000_000),
+             plausible=(0, 300_000), decimals=0, required=True,
+             help="Read the unit's run-hour meter (or the BMS run-hour point)."),
+        item("supply_airflow", "number", "Supply airflow now (if measured or shown by the BMS)", quantity="airflow",
+             physical=(0, 100), plausible=(0.05, 50), decimals=2,
+             help="Leave empty if unknown; the fan speed below is used instead."),
+        item("supply_fan_speed", "number", "Supply fan speed now", quantity="rotational_speed",
+             physical=(0, 10_000 / 60), plausible=(50 / 60, 5_000 / 60), decimals=0),
+        item("general_notes", "text", "Anything else seen on the unit"),
+    ],
+}
+
+TEMPLATES: list[dict[str, Any]] = [
+    {
+        "code": "filter_check", "version": 1, "title": "Filter check", "cautions": [LOCKOUT, LOCAL_CODES],
+        "items": [
+            item("dp", "number", "Pressure drop across the bank", quantity="pressure", per="filter_bank",
+                 physical=(0, 5_000), plausible=(5, 1_000), limits_from="filter_span", server=True,
+                 required=True, note=True, decimals=0,
+                 source="bands at 75 % / 95 % of the clean-to-final span, " + CP,
+                 help="Read the gauge across this bank with the fan at its normal speed."),
+            check("seated", "Filters seated; frames and seals tight, no bypass gaps", per="filter_bank",
+                  required=True, photo=True, note=True),
+            item("media", "choice", "Media condition", per="filter_bank", required=True, photo=True,
+                 choices=[_choice("clean", "Clean"), _choice("loaded", "Loaded, intact"),
+                          _choice("damaged", "Torn, wet or collapsed", ok=False)]),
+            photo("photo", "Photo of the bank", per="filter_bank"),
+        ],
+    },
+    {
+        "code": "filter_replace", "version": 1, "title": "Filter replacement", "cautions": [LOCKOUT, LOCAL_CODES],
+        "items": [
+            check("replaced", "Filters replaced with the class and size on the label", per="filter_bank",
+                  required=True, note=True),
+            item("dp_after", "number", "Pressure drop after the change", quantity="pressure", per="filter_bank",
+                 physical=(0, 5_000), plausible=(5, 1_000), limits_from="filter_clean", decimals=0,
+                 required=True, note=True,
+                 source="ok up to 1.2 × the rated clean pressure drop, watch to 1.5 × (" + CP + ")"),
+            check("old_bagged", "Used filters bagged and removed", per="filter_bank"),
+            photo("photo", "Photo of the new filters", per="filter_bank"),
+        ],
+    },
+    {
+        "code": "belt_drive", "version": 1, "title": "Belts and drive", "cautions": [LOCKOUT, LOCAL_CODES],
+        "items": [
+            item("belt_condition", "choice", "Belt condition", per="fan", where={"drive": "belt"}, required=True,
+                 photo=True, note=True,
+                 choices=[_choice("good", "Good"), _choice("worn", "Worn or glazed", ok=False),
+                          _choice("cracked", "Cracked or frayed", ok=False)]),
+            item("belt_tension", "choice", "Belt tension (deflection test)", per="fan", where={"drive": "belt"},
+                 required=True, note=True,
+                 choices=[_choice("correct", "Within the maker's deflection"), _choice("loose", "Loose", ok=False),
+                          _choice("tight", "Too tight", ok=False)]),
+            check("alignment", "Pulleys aligned (straight edge)", per="fan", where={"drive": "belt"}, note=True),
+            check("guard", "Belt guard refitted", per="fan", where={"drive": "belt"}, required=True),
+            photo("photo", "Photo of the drive", per="fan", where={"drive": "belt"}),
+        ],
+    },
+    {
+        "code": "fan_bearings", "version": 1, "title": "Fan and motor bearings", "cautions": [LOCKOUT, LOCAL_CODES],
+        "items": [
+            item("vibration", "choice", "Vibration and bearing noise", per="fan", required=True, note=True,
+                 choices=[_choice("normal", "Normal"), _choice("rough", "Rough or noisy", ok=False),
+                          _choice("severe", "Severe", ok=False)]),
+            check("lubricated", "Bearings lubricated to the maker's schedule (n.a. if sealed)", per="fan"),
+            item("fan_speed", "number", "Fan speed", quantity="rotational_speed", per="fan",
+                 physical=(0, 10_000 / 60), plausible=(50 / 60, 5_000 / 60), decimals=0),
+            item("motor_current", "number", "Motor current (highest phase)", quantity="current", per="fan",
+                 physical=(0, 5_000), plausible=(0.05, 2_000), limits_from="motor_fla", decimals=1, note=True,
+                 source="ok up to the nameplate full-load current, watch to 1.1 × (service factor; " + CP + ")"),
+        ],
+    },
+    {
+        "code": "fan_proving", "version": 1, "title": "Fan proving", "cautions": [LOCAL_CODES],
+        "items": [
+            check("proving_test", "Proving switch / flow status drops out when the fan stops and the alarm shows",
+                  per="fan", required=True, note=True),
+            check("running_status", "Fan status shows running when the fan runs", per="fan", required=True),
+        ],
+    },
+    {
+        "code": "coil_clean", "version": 1, "title": "Coils", "cautions": [LOCKOUT, HOT_COILS, LOCAL_CODES],
+        "items": [
+            item("fins", "choice", "Fin condition", per="coil", required=True, photo=True,
+                 choices=[_choice("clean", "Clean"), _choice("dirty", "Dirty: cleaned now"),
+                          _choice("blocked", "Blocked or damaged", ok=False)]),
+            air_temp("air_in", "Entering air temperature", per="coil"),
+            air_temp("air_out", "Leaving air temperature", per="coil"),
+            fluid_temp("water_in", "Entering water temperature", per="coil", where={"fluid": "water"}),
+            fluid_temp("water_out", "Leaving water temperature", per="coil", where={"fluid": "water"}),
+            item("water_flow", "number", "Water flow (meter or balancing valve)", quantity="water_flow", per="coil",
+                 where={"fluid": "water"}, physical=(0, 1), plausible=(0.000_01, 0.5), decimals=2),
+            photo("photo", "Photo of the coil face", per="coil"),
+        ],
+    },
+    {
+        "code": "drain_pan", "version": 1, "title": "Condensate drain pan", "cautions": [LOCKOUT, LOCAL_CODES],
+        "items": [
+            item("pan_condition", "choice", "Pan condition", per="drain_pan", required=True, photo=True,
+                 note=True,
+                 choices=[_choice("clean", "Clean and dry or draining"),
+                          _choice("slime", "Slime or debris: cleaned now"),
+                          _choice("standing", "Standing water", ok=False),
+                          _choice("corroded", "Corroded or leaking", ok=False)]),
+            check("drains_freely", "Water poured into the pan drains away freely", per="drain_pan", required=True,
+                  note=True),
+            check("trap_primed", "Trap primed (n.a. if no trap)", per="drain_pan"),
+            photo("photo", "Photo of the pan", per="drain_pan"),
+        ],
+    },
+    {
+        "code": "cooling_season_check", "version": 1, "title": "Cooling season check",
+        "cautions": [LOCKOUT, LOCAL_CODES],
+        "items": [
+            air_temp("air_in", "Air entering the cooling coil", per="coil", where={"duty": "cooling"}),
+            air_temp("air_out", "Air leaving the cooling coil", per="coil", where={"duty": "cooling"}),
+            fluid_temp("water_in", "Chilled water entering", per="coil", where={"duty": "cooling", "fluid": "water"}),
+            fluid_temp("water_out", "Chilled water leaving", per="coil", where={"duty": "cooling", "fluid": "water"}),
+            item("water_flow", "number", "Chilled water flow", quantity="water_flow", per="coil",
+                 where={"duty": "cooling", "fluid": "water"}, physical=(0, 1), plausible=(0.000_01, 0.5), decimals=2),
+            air_temp("supply_air", "Supply-air temperature", server=True, required=True),
+            air_temp("supply_setpoint", "Supply-air set point (as shown on the controller)", required=True),
+            check("valve_strokes", "Chilled-water valve strokes fully open and closed", required=True, note=True),
+        ],
+    },
+    {
+        "code": "damper_actuator", "version": 1, "title": "Dampers and actuators", "cautions": [LOCKOUT, LOCAL_CODES],
+        "items": [
+            item("command", "number", "Commanded position", quantity="percent", per="damper", physical=PCT,
+                 plausible=PCT, decimals=0, required=True),
+            item("position", "number", "Measured position (blade or actuator scale)", quantity="percent",
+                 per="damper", physical=PCT, plausible=PCT, decimals=0, required=True, server=True, note=True),
+            item("stroke_time", "number", "Stroke time, closed to open", quantity="time", per="damper",
+                 physical=(0, 3_600), plausible=(1, 900), limits_from="damper_stroke", decimals=0, note=True,
+                 source="ok up to 1.2 × rated stroke time, watch to 1.5 × (" + CP + ")"),
+            check("linkage", "Linkage tight, blades move freely, seals intact", per="damper", required=True,
+                  photo=True),
+            check("fail_safe", "Goes to its fail-safe position on loss of power (n.a. if none)", per="damper"),
+        ],
+    },
+    {
+        "code": "preheater_freeze", "version": 1, "title": "Preheater and freeze protection",
+        "cautions": [LOCKOUT, ELECTRIC, HOT_COILS, LOCAL_CODES],
+        "items": [
+            air_temp("stage_on_temp", "Entering-air temperature at which stage 1 switched on", per="electric_preheater",
+                     limits_from="preheat_threshold", required=True, note=True,
+                     source="ok within 1 K of the set threshold, watch within 2 K (" + CP + ")"),
+            check("stages", "Every stage energises in sequence and its current is drawn", per="electric_preheater",
+                  required=True, note=True),
+            check("high_limit", "High-limit cut-out trips and needs a manual reset", per="electric_preheater",
+                  required=True, note=True),
+            air_temp("freeze_trip_temp", "Freeze-protection trip temperature (air leaving the first coil)",
+                     ok=(2.0, 6.0), watch=(1.0, 7.0), required=True, note=True,
+                     source="frost thermostats are commonly set near 5 °C (41 °F) or 3 °C (38 °F); " + CP),
+            check("freeze_trip_test", "On trip: fan stops, outdoor damper closes, heating valve opens, alarm shows",
+                  required=True, photo=False, note=True),
+        ],
+    },
+    {
+        "code": "sensor_calibration", "version": 1, "title": "Sensor calibration", "cautions": [LOCAL_CODES],
+        "items": [
+            item("co2_sensor", "number", "CO2 sensor reading (BMS)", quantity="co2", per="sensor",
+                 where={"measures": "co2"}, physical=CO2_PHYSICAL, plausible=(300, 5_000), decimals=0,
+                 required=True),
+            item("co2_reference", "number", "Reference meter CO2 beside the sensor", quantity="co2", per="sensor",
+                 where={"measures": "co2"}, physical=CO2_PHYSICAL, plausible=(300, 5_000), decimals=0,
+                 required=True, server=True, note=True),
+            air_temp("temp_sensor", "Temperature sensor reading (BMS)", per="sensor",
+                     where={"measures": "temperature"}, required=True),
+            air_temp("temp_reference", "Reference thermometer beside the sensor", per="sensor",
+                     where={"measures": "temperature"}, required=True, server=True, note=True),
+            item("rh_sensor", "number", "Humidity sensor reading (BMS)", quantity="relative_humidity", per="sensor",
+                 where={"measures": "humidity"}, physical=PCT, plausible=(2, 98), required=True),
+            item("rh_reference", "number", "Reference hygrometer beside the sensor", quantity="relative_humidity",
+                 per="sensor", where={"measures": "humidity"}, physical=PCT, plausible=(2, 98), required=True,
+                 server=True, note=True),
+            item("pressure_sensor", "number", "Pressure sensor reading (BMS)", quantity="pressure", per="sensor",
+                 where={"measures": "pressure"}, physical=(-10_000, 10_000), plausible=(-2_500, 2_500), decimals=0,
+                 required=True),
+            item("pressure_reference", "number", "Reference manometer beside the sensor", quantity="pressure",
+                 per="sensor", where={"measures": "pressure"}, physical=(-10_000, 10_000), plausible=(-2_500, 2_500),
+                 decimals=0, required=True, server=True, note=True),
+        ],
+    },
+    {
+        "code": "heat_recovery", "version": 1, "title": "Heat recovery", "cautions": [LOCKOUT, LOCAL_CODES],
+        "items": [
+            item("condition", "choice", "Exchanger condition", per="heat_recovery", required=True, photo=True,
+                 choices=[_choice("clean", "Clean"), _choice("dirty", "Dirty: cleaned now"),
+                          _choice("damaged", "Damaged or leaking", ok=False)]),
+            check("seals", "Seals and brushes intact", per="heat_recovery", required=True),
+            check("drive", "Wheel turns / bypass damper works (n.a. if none)", per="heat_recovery", note=True),
+            air_temp("outdoor_in", "Outdoor air entering", per="heat_recovery"),
+            air_temp("supply_out", "Outdoor air leaving (after recovery)", per="heat_recovery"),
+            air_temp("extract_in", "Extract air entering", per="heat_recovery"),
+        ],
+    },
+    {
+        "code": "intake_screen", "version": 1, "title": "Outdoor-air intake screen", "cautions": [LOCAL_CODES],
+        "items": [
+            item("screen", "choice", "Screen and louvre", per="intake_screen", required=True, photo=True,
+                 choices=[_choice("clear", "Clear"), _choice("partly", "Partly blocked: cleared now"),
+                          _choice("blocked", "Blocked or damaged", ok=False)]),
+            check("surroundings", "No exhaust, cooling-tower drift or rubbish near the intake", per="intake_screen",
+                  note=True),
+            photo("photo", "Photo of the intake", per="intake_screen"),
+        ],
+    },
+    {
+        "code": "humidifier", "version": 1, "title": "Humidifier", "cautions": [LOCKOUT, HOT_COILS, LOCAL_CODES],
+        "items": [
+            item("condition", "choice", "Cylinder / nozzles / media", per="humidifier", required=True, photo=True,
+                 choices=[_choice("clean", "Clean"), _choice("scaled", "Scaled: cleaned now"),
+                          _choice("fouled", "Fouled, leaking or biofilm", ok=False)]),
+            check("drain", "Drain and flush work", per="humidifier", required=True),
+            item("rh_downstream", "number", "Relative humidity downstream", quantity="relative_humidity",
+                 per="humidifier", physical=PCT, plausible=(5, 95), ok=(None, 80), watch=(None, 90),
+                 source="keep duct air below about 80 % RH to avoid wetting (" + CP + ")"),
+        ],
+    },
+    {
+        "code": "controls_check", "version": 1, "title": "Controls", "cautions": [LOCAL_CODES],
+        "items": [
+            air_temp("supply_air", "Supply-air temperature", required=True, server=True, note=True),
+            air_temp("supply_setpoint", "Supply-air set point (as shown on the controller)", required=True),
+            item("duct_static", "number", "Duct static pressure", quantity="pressure", physical=(-5_000, 5_000),
+                 plausible=(0, 2_500), decimals=0, server=True, note=True),
+            item("duct_static_setpoint", "number", "Duct static set point", quantity="pressure",
+                 physical=(0, 5_000), plausible=(10, 2_500), decimals=0),
+            check("alarms", "No standing alarms on the controller", required=True, note=True),
+            check("schedule", "Time schedule matches the building's hours", required=True),
+        ],
+    },
+    {
+        "code": "ventilation_check", "version": 1, "title": "Outdoor air and ventilation", "cautions": [LOCAL_CODES],
+        "items": [
+            air_temp("outdoor_air", "Outdoor air temperature", required=True),
+            air_temp("return_air", "Return air temperature", required=True),
+            air_temp("mixed_air", "Mixed air temperature", required=True, server=True),
+            item("outdoor_co2", "number", "Outdoor CO2", quantity="co2", physical=CO2_PHYSICAL, plausible=(350, 700),
+                 decimals=0),
+            item("return_co2", "number", "Return CO2", quantity="co2", physical=CO2_PHYSICAL, plausible=(350, 5_000),
+                 decimals=0),
+            item("supply_co2", "number", "Supply (or mixed) CO2", quantity="co2", physical=CO2_PHYSICAL,
+                 plausible=(350, 5_000), decimals=0, server=True),
+            item("oa_damper_position", "number", "Outdoor-air damper position", quantity="percent", physical=PCT,
+                 plausible=PCT, decimals=0),
+        ],
+    },
+]
+
+TASK_CODES = [t["code"] for t in TEMPLATES]
+
+# Quantities whose unit is the same in both systems and not a conversion.
+_PLAIN_UNITS = {"percent": "%", "current": "A", "time": "s", "": ""}
+_STORAGE_LABELS = {
+    "pressure": "Pa", "temperature": "°C", "temperature_difference": "K", "airflow": "m³/s",
+    "water_flow": "m³/s", "co2": "ppm", "relative_humidity": "%", "rotational_speed": "rev/s",
+    "frequency": "Hz", "run_hours": "h", "length": "m",
+}
+
+
+def storage_unit_label(quantity: str) -> str:
+    return _PLAIN_UNITS.get(quantity) or _STORAGE_LABELS.get(quantity, "")
+
+
+def display_unit_label(quantity: str, system: str) -> str:
+    if quantity in _PLAIN_UNITS:
+        return _PLAIN_UNITS[quantity]
+    return eng_units.unit_label(quantity=quantity, system=system)
+
+
+def to_display(value: float | None, quantity: str, system: str) -> float | None:
+    if value is None or quantity in _PLAIN_UNITS:
+        return value
+    return eng_units.to_display(value=value, quantity=quantity, system=system)
+
+
+def from_display(value: float, quantity: str, system: str) -> float:
+    if quantity in _PLAIN_UNITS:
+        return value
+    return eng_units.from_display(value=value, quantity=quantity, system=system)
+
+
+def dynamic_limits(*, rule: str, ahu, component) -> dict[str, float | None]:
+    """ok/watch bands (SI) that depend on the unit or the part; {} when the data is missing."""
+    specs = component.specs if component is not None else {}
+    if rule == "filter_span":
+        clean, final = specs.get("clean_dp_pa"), specs.get("final_dp_pa")
+        if clean is None or final is None:
+            return {}
+        span = final - clean
+        return {"ok_max": clean + 0.75 * span, "watch_max": clean + 0.95 * span}
+    if rule == "filter_clean":
+        clean = specs.get("clean_dp_pa")
+        return {} if clean is None else {"ok_max": 1.2 * clean, "watch_max": 1.5 * clean}
+    if rule == "motor_fla":
+        fla = specs.get("motor_full_load_a")
+        return {} if fla is None else {"ok_max": fla, "watch_max": 1.1 * fla}
+    if rule == "damper_stroke":
+        rated = specs.get("stroke_time_s")
+        return {} if rated is None else {"ok_max": 1.2 * rated, "watch_max": 1.5 * rated}
+    if rule == "preheat_threshold":
+        th = specs.get("switch_on_c")
+        if th is None:
+            return {}
+        return {"ok_min": th - 1.0, "ok_max": th + 1.0, "watch_min": th - 2.0, "watch_max": th + 2.0}
+    return {}
+
+
+def all_templates() -> list[dict[str, Any]]:
+    return [VISIT, *TEMPLATES]

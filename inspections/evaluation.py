@@ -1,0 +1,433 @@
+"""Judging a submitted inspection: every formula through ``engineering``.
+
+``evaluate`` takes the readings of one form (SI values) and the unit, and
+returns one ``Result`` per judgement: a reading against its bands, or a
+check over several readings (filter loading and forecast, outdoor-air
+fraction, coil heat balance, set-point and position deviations, sensor
+drift, fan proving, freeze protection). Each result carries its verdict, a
+plain reason, the method and the derived values (SI, units in the key names).
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import Any
+
+from engineering import controls, filters, outdoor_air, ventilation
+from engineering import units as eng_units
+from engineering.airside import coil_balance, sensible_heat_w, water_side_heat_w
+from engineering.errors import EngineeringInputError
+from engineering.fans import expected_flow_at_speed
+from engineering.filters import FilterPoint
+from engineering.psychro import pressure_from_altitude
+from inspections.checklists import storage_unit_label
+
+OK, WATCH, FAIL, NA = "ok", "watch", "fail", "na"
+
+# Severity of a failed check by what it puts at risk (common practice):
+# frozen coils and unproven fans stop the building; the rest degrades it.
+SEVERITY = {
+    "freeze_protection_failed": "critical",
+    "fan_not_proven": "high",
+    "ventilation_low": "high",
+    "supply_temp_off": "medium",
+    "filter_loaded": "medium",
+    "damper_position": "medium",
+    "sensor_drift": "low",
+    "coil_balance": "low",
+}
+# Checklist answers whose failure names a scheduling condition.
+ITEM_CONDITIONS = {
+    "fan_proving.proving_test": "fan_not_proven",
+    "fan_proving.running_status": "fan_not_proven",
+    "preheater_freeze.freeze_trip_test": "freeze_protection_failed",
+    "preheater_freeze.freeze_trip_temp": "freeze_protection_failed",
+    "damper_actuator.stroke_time": "damper_position",
+    "damper_actuator.linkage": "damper_position",
+}
+# Sensor accuracy when the registry gives none (common practice, from memory):
+# NDIR CO2 ±(50 ppm + 3 % of reading); duct temperature ±0.5 K; RH ±3 points;
+# differential pressure ±(5 Pa + 2 % of reading).
+DRIFT_DEFAULTS = {
+    "co2": (50.0, 3.0, "ppm"),
+    "temp": (0.5, 0.0, "°C"),
+    "rh": (3.0, 0.0, "%"),
+    "pressure": (5.0, 2.0, "Pa"),
+}
+
+
+@dataclass
+class Value:
+    number: float | None = None
+    text: str = ""
+
+    @property
+    def na(self) -> bool:
+        return self.text == "na"
+
+
+@dataclass
+class Result:
+    check: str
+    item: str
+    component: Any = None  # inventory Component or None
+    verdict: str = OK
+    reason: str = ""
+    method: str = ""
+    derived: dict[str, Any] = field(default_factory=dict)
+    condition_code: str = ""
+
+    @property
+    def severity(self) -> str:
+        return SEVERITY.get(self.condition_code or self.check, "medium")
+
+
+@dataclass
+class Form:
+    """What the evaluation needs of one submitted form."""
+
+    ahu: Any
+    components: list[Any]
+    values: dict[tuple[str, int | None], Value]
+    slots: list[Any]  # inspections.selectors.Slot
+    finished_at: dt.datetime
+    # Earlier (run_hours, dp_pa, airflow_m3s, when) points of a filter bank since its last change.
+    filter_points: Callable[[Any], list[FilterPoint]] = lambda component: []
+
+    def num(self, key: str, component=None) -> float | None:
+        v = self.values.get((key, component.pk if component is not None else None))
+        return v.number if v is not None and not v.na else None
+
+    def text(self, key: str, component=None) -> str:
+        v = self.values.get((key, component.pk if component is not None else None))
+        return v.text if v is not None else ""
+
+
+def _fmt_date(d: dt.date | dt.datetime | None) -> str:
+    if d is None:
+        return "no date (run-hour rate unknown)"
+    d = d.date() if isinstance(d, dt.datetime) else d
+    return f"{d.day} {d:%B %Y}"
+
+
+def _fan(form: Form):
+    fans = [c for c in form.components if c.kind == "fan" and c.specs.get("role") == "supply"]
+    return fans[0] if fans else None
+
+
+def supply_airflow(form: Form) -> tuple[float, str]:
+    """Airflow at the time of the visit, m³/s, and how it was found."""
+    measured = form.num("visit.supply_airflow")
+    if measured:
+        return measured, "measured"
+    speed = form.num("visit.supply_fan_speed")
+    fan = _fan(form)
+    if speed and fan is not None and fan.specs.get("design_speed_rpm") and fan.specs.get("design_flow_m3s"):
+        rpm = eng_units.to_display(value=speed, quantity="rotational_speed", system="si")
+        q = expected_flow_at_speed(design_flow_m3s=fan.specs["design_flow_m3s"],
+                                   design_speed=fan.specs["design_speed_rpm"], measured_speed=rpm)
+        return q, f"from fan speed {rpm:.0f} rpm by the first fan law"
+    return form.ahu.design_supply_airflow_m3s, "design airflow assumed (not measured)"
+
+
+# ---------------------------------------------------------------------------
+# Single readings against their bands
+# ---------------------------------------------------------------------------
+
+
+def _reading_result(slot, value: Value) -> Result | None:
+    it = slot.item
+    key = it.api_key
+    res = Result(check=it.kind, item=key, component=slot.component, condition_code=ITEM_CONDITIONS.get(key, ""))
+    if value.na:
+        return None
+    if it.kind == "check":
+        res.verdict = OK if value.text == "ok" else FAIL
+        res.reason = f"{it.label}: {'ok' if res.verdict == OK else 'not ok'}"
+        return res
+    if it.kind == "choice":
+        choice = next((c for c in it.choices if c["value"] == value.text), None)
+        if choice is None:
+            return None
+        res.verdict = OK if choice.get("ok", True) else FAIL
+        res.reason = f"{it.label}: {choice['label']}"
+        return res
+    if it.kind == "number" and value.number is not None:
+        lim = slot.limits
+        if all(lim.get(k) is None for k in ("ok_min", "ok_max")):
+            return None
+        check = controls.band_check(
+            value=value.number, ok_low=lim.get("ok_min"), ok_high=lim.get("ok_max"),
+            watch_low=lim.get("watch_min"), watch_high=lim.get("watch_max"),
+            label=it.label.lower(), unit=_unit(it.quantity),
+        )
+        res.check = "limits"
+        res.verdict = check.verdict.value
+        res.reason = check.reason
+        res.method = "reading against its band; " + (it.limits_source or "common practice")
+        res.derived = {"value": value.number, **{k: v for k, v in lim.items() if v is not None and "_m" in k}}
+        return res
+    return None
+
+
+def _unit(quantity: str) -> str:
+    return storage_unit_label(quantity)
+
+
+# ---------------------------------------------------------------------------
+# Checks over several readings
+# ---------------------------------------------------------------------------
+
+
+def _filter_checks(form: Form, consumed: set) -> list[Result]:
+    out = []
+    q, q_how = supply_airflow(form)
+    for bank in (c for c in form.components if c.kind == "filter_bank"):
+        dp = form.num("filter_check.dp", bank)
+        if dp is None:
+            continue
+        consumed.add(("filter_check.dp", bank.pk))
+        specs = bank.specs
+        design_q = specs.get("design_airflow_m3s") or form.ahu.design_supply_airflow_m3s
+        res = Result(check="filter_loading", item="filter_check.dp", component=bank, condition_code="filter_loaded")
+        try:
+            loading = filters.filter_loading(
+                dp_pa=dp, airflow_m3s=q, design_airflow_m3s=design_q, clean_dp_pa=specs["clean_dp_pa"],
+                final_dp_pa=specs["final_dp_pa"],
+            )
+        except (EngineeringInputError, KeyError) as exc:
+            res.verdict, res.reason = WATCH, f"cannot judge the filter loading: {exc}"
+            out.append(res)
+            continue
+        pct = loading.fraction_of_span * 100
+        res.verdict = loading.verdict.value
+        res.derived = {
+            "dp_pa": dp, "airflow_m3s": q, "airflow_source": q_how, "design_airflow_m3s": design_q,
+            "corrected_dp_pa": round(loading.corrected_dp_pa, 1), "loading_pct": round(pct, 1),
+            "clean_dp_pa": specs["clean_dp_pa"], "final_dp_pa": specs["final_dp_pa"],
+        }
+        res.method = (f"Δp × (Q_design/Q)^{filters.DEFAULT_EXPONENT:g} (engineering.filters.filter_loading); "
+                      f"airflow {q_how}")
+        forecast_text = ""
+        hours = form.num("visit.run_hours")
+        if hours is not None:
+            points = [*form.filter_points(bank), FilterPoint(run_hours=hours, dp_pa=dp, airflow_m3s=q,
+                                                             when=form.finished_at.date())]
+            try:
+                fc = filters.filter_forecast(points=points, design_airflow_m3s=design_q,
+                                             final_dp_pa=specs["final_dp_pa"])
+            except EngineeringInputError as exc:
+                forecast_text = "; no change forecast yet"
+                res.derived["forecast_note"] = str(exc)
+            else:
+                res.derived.update({
+                    "forecast_run_hours": round(fc.run_hours_at_final),
+                    "forecast_change_date": fc.date_at_final.isoformat() if fc.date_at_final else None,
+                    "forecast_earliest_date": fc.date_low.isoformat() if fc.date_low else None,
+                    "forecast_latest_date": fc.date_high.isoformat() if fc.date_high else None,
+                    "rate_pa_per_hour": round(fc.rate_pa_per_hour, 4), "points_used": fc.points_used,
+                })
+                res.method += "; forecast: " + fc.method
+                forecast_text = f"; change forecast {_fmt_date(fc.date_at_final)}"
+        res.reason = (f"{bank.name}: filter at {pct:.0f} % of its span after correcting to design airflow "
+                      f"({loading.corrected_dp_pa:.0f} Pa at design, clean {specs['clean_dp_pa']:g} Pa, final "
+                      f"{specs['final_dp_pa']:g} Pa){forecast_text}")
+        out.append(res)
+    return out
+
+
+def _oa_checks(form: Form, consumed: set) -> list[Result]:
+    out = []
+    ahu = form.ahu
+    q, q_how = supply_airflow(form)
+    pairs = [
+        ("temperature", "ventilation_check.mixed_air",
+         lambda: outdoor_air.oa_fraction_from_temperatures(
+             t_outdoor_c=form.num("ventilation_check.outdoor_air"), t_return_c=form.num("ventilation_check.return_air"),
+             t_mixed_c=form.num("ventilation_check.mixed_air")),
+         ("ventilation_check.outdoor_air", "ventilation_check.return_air", "ventilation_check.mixed_air")),
+        ("co2", "ventilation_check.supply_co2",
+         lambda: outdoor_air.oa_fraction_from_co2(
+             co2_outdoor_ppm=form.num("ventilation_check.outdoor_co2"),
+             co2_return_ppm=form.num("ventilation_check.return_co2"),
+             co2_supply_or_mixed_ppm=form.num("ventilation_check.supply_co2")),
+         ("ventilation_check.outdoor_co2", "ventilation_check.return_co2", "ventilation_check.supply_co2")),
+    ]
+    required_q = None
+    if ahu.space_kind in ventilation.SPACE_KINDS and ahu.floor_area_m2:
+        try:
+            vbz = ventilation.breathing_zone_outdoor_airflow(
+                space_kind=ahu.space_kind, floor_area_m2=ahu.floor_area_m2, occupants=ahu.design_occupants)
+            required_q = ventilation.zone_outdoor_airflow(vbz=vbz, ez=1.0)
+        except EngineeringInputError:
+            required_q = None
+    for method, item, compute, keys in pairs:
+        if any(form.num(k) is None for k in keys):
+            continue
+        res = Result(check=f"oa_fraction_{method}", item=item, condition_code="ventilation_low")
+        try:
+            frac = compute()
+        except EngineeringInputError as exc:
+            res.verdict, res.reason = WATCH, f"outdoor-air fraction by {method}: {exc}"
+            out.append(res)
+            continue
+        oa_q = outdoor_air.outdoor_airflow_m3s(fraction=frac.fraction, supply_airflow_m3s=q)
+        res.derived = {
+            "oa_fraction": round(frac.fraction, 3), "uncertainty": round(frac.uncertainty, 3),
+            "outdoor_airflow_m3s": round(oa_q, 3), "supply_airflow_m3s": q, "airflow_source": q_how,
+            "design_min_oa_fraction": ahu.design_min_oa_fraction,
+            "design_min_outdoor_airflow_m3s": round(ahu.design_min_oa_fraction * ahu.design_supply_airflow_m3s, 3),
+        }
+        label = "temperatures" if method == "temperature" else "CO2"
+        res.method = (f"mixing balance from {label} (engineering.outdoor_air.oa_fraction_from_"
+                      f"{'temperatures' if method == 'temperature' else 'co2'}); outdoor airflow = fraction × "
+                      f"supply airflow ({q_how})")
+        if ahu.full_outdoor_air:
+            res.verdict = OK
+            res.reason = f"100 % outdoor-air unit; measured fraction {frac.fraction * 100:.0f} %"
+            out.append(res)
+            continue
+        chk = outdoor_air.fraction_check(fraction=frac.fraction, uncertainty=frac.uncertainty,
+                                         minimum=ahu.design_min_oa_fraction)
+        verdict, reasons = chk.verdict, [f"by {label}: {chk.reason}, design minimum"]
+        reasons[0] += f" ({oa_q * 1000:.0f} L/s outdoor air)"
+        if required_q is not None and q > 0:
+            res.derived["required_outdoor_airflow_m3s"] = round(required_q, 3)
+            need = min(required_q / q, 1.0)
+            req = outdoor_air.fraction_check(fraction=frac.fraction, uncertainty=frac.uncertainty, minimum=need)
+            verdict = controls.worst(verdict, req.verdict)
+            reasons.append(f"ventilation requirement {required_q * 1000:.0f} L/s (ASHRAE 62.1 ventilation rate "
+                           f"procedure, {ahu.space_kind}): {req.verdict.value}")
+            res.method += "; requirement Vbz = Rp·Pz + Ra·Az, Ez = 1 (engineering.ventilation)"
+        res.verdict = verdict.value
+        res.reason = "; ".join(reasons)
+        out.append(res)
+    return out
+
+
+def _coil_checks(form: Form, consumed: set) -> list[Result]:
+    out = []
+    q, q_how = supply_airflow(form)
+    p = pressure_from_altitude(altitude_m=form.ahu.building.site.altitude_m)
+    for coil in (c for c in form.components if c.kind == "coil"):
+        for template in ("coil_clean", "cooling_season_check"):
+            vals = {k: form.num(f"{template}.{k}", coil) for k in ("air_in", "air_out", "water_in", "water_out",
+                                                                  "water_flow")}
+            if any(v is None for v in vals.values()):
+                continue
+            res = Result(check="coil_balance", item=f"{template}.water_flow", component=coil)
+            airflow = coil.specs.get("design_airflow_m3s") if q_how.startswith("design") else q
+            airflow = airflow or q
+            try:
+                air = sensible_heat_w(airflow_m3s=airflow, t_in_c=vals["air_in"], t_out_c=vals["air_out"],
+                                      pressure_pa=p)
+                fluid = "water"
+                water = water_side_heat_w(t_supply_c=vals["water_in"], t_return_c=vals["water_out"],
+                                          flow_m3s=vals["water_flow"], fluid=fluid)
+                bal = coil_balance(air_side_w=air, water_side_w=water)
+            except EngineeringInputError as exc:
+                res.verdict, res.reason = WATCH, f"{coil.name}: cannot balance the coil: {exc}"
+                out.append(res)
+                break
+            res.derived = {"air_side_w": round(air), "water_side_w": round(water),
+                           "difference_pct": round(bal.difference_pct, 1), "airflow_m3s": airflow,
+                           "airflow_source": q_how}
+            res.method = ("air side q = ṁ·c_p·Δt (sensible, engineering.airside.sensible_heat_w); water side "
+                          "q = ρ·V·c_p·Δt (water_side_heat_w); balance within 10 % ok, 20 % watch")
+            res.verdict = bal.verdict.value
+            res.reason = f"{coil.name}: {bal.reason}"
+            if coil.specs.get("duty") == "cooling" and res.verdict == FAIL:
+                # Latent heat is not measured, so a wet cooling coil reads high on the water side.
+                res.verdict = WATCH
+                res.reason += " (cooling coil: air side is sensible only, latent heat not measured)"
+            out.append(res)
+            break
+    return out
+
+
+def _setpoint_checks(form: Form, consumed: set) -> list[Result]:
+    out = []
+    ahu = form.ahu
+    for template in ("controls_check", "cooling_season_check"):
+        t = form.num(f"{template}.supply_air")
+        if t is None:
+            continue
+        sp = form.num(f"{template}.supply_setpoint")
+        sp = sp if sp is not None else ahu.supply_air_setpoint_c
+        if sp is None:
+            continue
+        consumed.add((f"{template}.supply_air", None))
+        chk = controls.supply_temperature_check(measured_c=t, setpoint_c=sp)
+        out.append(Result(check="supply_temperature", item=f"{template}.supply_air", verdict=chk.verdict.value,
+                          reason=chk.reason, condition_code="supply_temp_off",
+                          method="|t − t_set| against 1 K / 2 K (engineering.controls; common practice)",
+                          derived={"supply_air_c": t, "setpoint_c": sp,
+                                   "deviation_k": round(chk.limits["deviation_k"], 2)}))
+    p = form.num("controls_check.duct_static")
+    if p is not None:
+        sp = form.num("controls_check.duct_static_setpoint")
+        sp = sp if sp is not None else ahu.duct_static_setpoint_pa
+        if sp:
+            consumed.add(("controls_check.duct_static", None))
+            chk = controls.static_pressure_check(measured_pa=p, setpoint_pa=sp)
+            out.append(Result(check="duct_static", item="controls_check.duct_static", verdict=chk.verdict.value,
+                              reason=chk.reason, method="deviation as % of set point, 10 % / 20 % "
+                              "(engineering.controls; common practice)",
+                              derived={"static_pa": p, "setpoint_pa": sp,
+                                       "deviation_pct": round(chk.limits["deviation_pct"], 1)}))
+    for damper in (c for c in form.components if c.kind == "damper"):
+        cmd, pos = form.num("damper_actuator.command", damper), form.num("damper_actuator.position", damper)
+        if cmd is None or pos is None:
+            continue
+        consumed.add(("damper_actuator.position", damper.pk))
+        chk = controls.damper_position_check(commanded_pct=cmd, measured_pct=pos)
+        out.append(Result(check="damper_position", item="damper_actuator.position", component=damper,
+                          verdict=chk.verdict.value, reason=f"{damper.name}: {chk.reason}",
+                          condition_code="damper_position",
+                          method="position − command, 5 / 10 points (engineering.controls; common practice)",
+                          derived={"commanded_pct": cmd, "measured_pct": pos,
+                                   "error_pct": round(chk.limits["deviation_pct"], 1)}))
+    return out
+
+
+def _drift_checks(form: Form, consumed: set) -> list[Result]:
+    out = []
+    for sensor in (c for c in form.components if c.kind == "sensor"):
+        for prefix, (tol_abs, tol_pct, unit) in DRIFT_DEFAULTS.items():
+            s = form.num(f"sensor_calibration.{prefix}_sensor", sensor)
+            r = form.num(f"sensor_calibration.{prefix}_reference", sensor)
+            if s is None or r is None:
+                continue
+            consumed.add((f"sensor_calibration.{prefix}_reference", sensor.pk))
+            source = "the sensor's stated accuracy"
+            if sensor.specs.get("accuracy"):
+                tol_abs, tol_pct = float(sensor.specs["accuracy"]), 0.0
+            else:
+                source = "a typical accuracy (common practice, from memory)"
+            chk = controls.sensor_drift_check(sensor_value=s, reference_value=r, tolerance_abs=tol_abs,
+                                              tolerance_pct_of_reading=tol_pct, unit=unit)
+            out.append(Result(check="sensor_drift", item=f"sensor_calibration.{prefix}_reference", component=sensor,
+                              verdict=chk.verdict.value, reason=f"{sensor.name}: {chk.reason}",
+                              condition_code="sensor_drift",
+                              method=f"sensor − reference against {source} (engineering.controls.sensor_drift_check)",
+                              derived={"sensor": s, "reference": r, "error": round(chk.limits["error"], 3),
+                                       "allowed_error": round(chk.limits["allowed_error"], 3)}))
+    return out
+
+
+def evaluate(form: Form) -> list[Result]:
+    """Every judgement of one form, cross-reading checks first, then the remaining single readings."""
+    consumed: set[tuple[str, int | None]] = set()
+    results: list[Result] = []
+    for fn in (_filter_checks, _oa_checks, _coil_checks, _setpoint_checks, _drift_checks):
+        results.extend(fn(form, consumed))
+    for slot in form.slots:
+        key = (slot.item.api_key, slot.component.pk if slot.component else None)
+        if key in consumed or key not in form.values:
+            continue
+        res = _reading_result(slot, form.values[key])
+        if res is not None:
+            results.append(res)
+    return results

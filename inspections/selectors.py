@@ -1,0 +1,264 @@
+"""Reads of inspections. Tenancy always goes through inventory.selectors."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from django.db.models import QuerySet
+
+from accounts.models import Role, User
+from inventory.models import AHU, Component
+from inventory.selectors import sites_managed_by, sites_visible_to
+from scheduling.models import WorkOrder
+
+from . import checklists
+from .models import ChecklistItem, ChecklistTemplate, Finding, Inspection, Photo, Reading
+from .services.library import templates_current
+
+# A corrective work order without tasks gets the checklist that fixes its condition.
+CONDITION_TEMPLATES = {
+    "filter_loaded": "filter_replace",
+    "sensor_drift": "sensor_calibration",
+    "supply_temp_off": "controls_check",
+    "damper_position": "damper_actuator",
+    "fan_not_proven": "fan_proving",
+    "freeze_protection_failed": "preheater_freeze",
+}
+SUBMITTING_ROLES = {Role.TECHNICIAN, Role.SUPERVISOR, Role.ADMIN}
+
+
+def work_orders_visible_to(*, user: User) -> QuerySet[WorkOrder]:
+    return WorkOrder.objects.filter(ahu__building__site__in=sites_visible_to(user=user)).select_related(
+        "ahu__building__site", "assignee"
+    )
+
+
+def work_order_for_sync(*, user: User, public_id) -> WorkOrder | None:
+    """The work order a form names, if the sender works for its organisation.
+
+    Wider than ``sites_visible_to`` on purpose: a technician whose work order was
+    reassigned meanwhile no longer sees its site, but the finished form must still
+    be stored (and flagged), never dropped.
+    """
+    orgs = user.memberships.filter(role__in=SUBMITTING_ROLES).values("organisation_id")
+    return (
+        WorkOrder.objects.filter(public_id=public_id, organisation_id__in=orgs)
+        .select_related("ahu__building__site", "assignee")
+        .first()
+    )
+
+
+def inspections_visible_to(*, user: User) -> QuerySet[Inspection]:
+    return Inspection.objects.filter(ahu__building__site__in=sites_visible_to(user=user)).select_related(
+        "ahu__building__site", "work_order", "technician"
+    )
+
+
+def flagged_forms_for(*, user: User) -> QuerySet[Inspection]:
+    """Flagged inspections not yet resolved, on the sites the person supervises."""
+    return (
+        Inspection.objects.filter(ahu__building__site__in=sites_managed_by(user=user), flag_resolved_at__isnull=True)
+        .exclude(flags=[])
+        .select_related("ahu__building__site", "work_order", "technician")
+        .order_by("received_at", "id")
+    )
+
+
+def findings_visible_to(*, user: User) -> QuerySet[Finding]:
+    return Finding.objects.filter(ahu__building__site__in=sites_visible_to(user=user)).select_related(
+        "ahu__building__site", "component", "corrective_work_order", "inspection"
+    )
+
+
+def photo_visible_to(*, user: User, client_uuid) -> Photo | None:
+    return Photo.objects.filter(
+        client_uuid=client_uuid, work_order__ahu__building__site__in=sites_visible_to(user=user)
+    ).first()
+
+
+# ---------------------------------------------------------------------------
+# The checklist of one work order
+# ---------------------------------------------------------------------------
+
+
+@dataclass
+class Slot:
+    """One item as it is asked on one unit: once, or once per matching component."""
+
+    item: ChecklistItem
+    template: ChecklistTemplate
+    component: Component | None
+    limits: dict[str, float | None] = field(default_factory=dict)  # SI
+
+    @property
+    def key(self) -> tuple[str, int | None]:
+        return (self.item.api_key, self.component.pk if self.component else None)
+
+
+@dataclass
+class Checklist:
+    work_order: WorkOrder
+    templates: list[ChecklistTemplate]
+    slots: list[Slot]
+
+    def by_key(self) -> dict[tuple[str, str | None], Slot]:
+        """Slots by (api key, component label code or None), as the phone names them."""
+        return {(s.item.api_key, s.component.label_code if s.component else None): s for s in self.slots}
+
+
+def _matches(component: Component, item: ChecklistItem) -> bool:
+    return component.kind == item.component_kind and all(
+        component.specs.get(k) == v for k, v in (item.component_filter or {}).items()
+    )
+
+
+def _template_codes(work_order: WorkOrder) -> dict[str, set[int] | None]:
+    """{template code: component ids the tasks name, or None for every matching component}."""
+    codes: dict[str, set[int] | None] = {}
+    for task in work_order.tasks.all():
+        if task.task_code not in checklists.TASK_CODES:
+            continue
+        if task.component_id is None:
+            codes[task.task_code] = None
+        elif codes.get(task.task_code, set()) is not None:
+            codes.setdefault(task.task_code, set()).add(task.component_id)
+    if not codes and work_order.condition_code in CONDITION_TEMPLATES:
+        codes[CONDITION_TEMPLATES[work_order.condition_code]] = (
+            {work_order.component_id} if work_order.component_id else None
+        )
+    return codes
+
+
+def item_limits(*, item: ChecklistItem, ahu: AHU, component: Component | None) -> dict[str, float | None]:
+    limits = {
+        name: getattr(item, name)
+        for name in ("physical_min", "physical_max", "plausible_min", "plausible_max", "ok_min", "ok_max",
+                     "watch_min", "watch_max")
+    }
+    if item.limits_from:
+        limits.update(checklists.dynamic_limits(rule=item.limits_from, ahu=ahu, component=component))
+    return limits
+
+
+def checklist_build(*, work_order: WorkOrder) -> Checklist:
+    """Templates and items of a work order, items repeated per matching component, limits resolved."""
+    codes = _template_codes(work_order)
+    templates = templates_current(codes=["visit", *codes])
+    components = list(work_order.ahu.components.order_by("position", "id"))
+    ordered = [templates["visit"]] + [templates[c] for c in checklists.TASK_CODES if c in codes and c in templates]
+    used, slots = [], []
+    for template in ordered:
+        wanted = codes.get(template.code)
+        t_slots = []
+        for item in template.items.all():
+            if not item.component_kind:
+                t_slots.append(Slot(item, template, None, item_limits(item=item, ahu=work_order.ahu, component=None)))
+                continue
+            for comp in components:
+                if _matches(comp, item) and (wanted is None or comp.pk in wanted):
+                    t_slots.append(Slot(item, template, comp, item_limits(item=item, ahu=work_order.ahu,
+                                                                          component=comp)))
+        if t_slots:
+            used.append(template)
+            slots.extend(t_slots)
+    return Checklist(work_order=work_order, templates=used, slots=slots)
+
+
+def _band(limits: dict, name: str, quantity: str, system: str | None) -> dict:
+    lo, hi = limits.get(f"{name}_min"), limits.get(f"{name}_max")
+    if system is not None:
+        lo, hi = checklists.to_display(lo, quantity, system), checklists.to_display(hi, quantity, system)
+    return {"min": lo, "max": hi}
+
+
+def checklist_for(*, work_order: WorkOrder, user: User) -> dict:
+    """The checklist document the phone caches (shape in inspections/SYNC.md)."""
+    system = user.unit_system
+    checklist = checklist_build(work_order=work_order)
+    ahu = work_order.ahu
+    by_template: dict[int, list[dict]] = {}
+    for slot in checklist.slots:
+        it = slot.item
+        entry = {
+            "key": it.api_key, "kind": it.kind, "label": it.label, "help": it.help,
+            "component": (
+                {"label_code": slot.component.label_code, "name": slot.component.name, "kind": slot.component.kind}
+                if slot.component else None
+            ),
+            "quantity": it.quantity or None,
+            "unit": checklists.display_unit_label(it.quantity, system) if it.kind == "number" else None,
+            "unit_si": checklists.storage_unit_label(it.quantity) if it.kind == "number" else None,
+            "decimals": it.decimals,
+            "choices": it.choices,
+            "required": it.required,
+            "photo_required_when_not_ok": it.photo_required_when_not_ok,
+            "note_required_when_not_ok": it.note_required_when_not_ok,
+            "limits": None,
+            "limits_source": it.limits_source,
+            "judged_on_server": it.judged_on_server,
+        }
+        if it.kind == "number":
+            entry["limits"] = {
+                scale: {name: _band(slot.limits, name, it.quantity, None if scale == "si" else system)
+                        for name in ("physical", "plausible", "ok", "watch")}
+                for scale in ("si", "display")
+            }
+        by_template.setdefault(slot.template.pk, []).append(entry)
+    cautions: list[str] = []
+    for t in checklist.templates:
+        cautions.extend(c for c in t.cautions if c not in cautions)
+    for c in checklists.GENERAL_CAUTIONS:
+        if c not in cautions:
+            cautions.append(c)
+    assignee = work_order.assignee
+    return {
+        "work_order": {
+            "public_id": str(work_order.public_id), "version": work_order.version, "title": work_order.title,
+            "kind": work_order.kind, "state": work_order.state, "priority": work_order.priority,
+            "due_date": work_order.due_date.isoformat(),
+            "assignee": {"id": assignee.pk, "name": str(assignee)} if assignee else None,
+            "unit": {
+                "tag": ahu.tag, "label_code": ahu.label_code, "location": ahu.location,
+                "area_served": ahu.area_served, "building": ahu.building.name,
+                "site": {"code": ahu.building.site.code, "name": ahu.building.site.name},
+            },
+            "tasks": [{"code": t.code, "title": t.title} for t in checklist.templates if t.code != "visit"],
+        },
+        "unit_system": system,
+        "cautions": cautions,
+        "templates": [
+            {"code": t.code, "version": t.version, "title": t.title, "cautions": t.cautions,
+             "items": by_template.get(t.pk, [])}
+            for t in checklist.templates
+        ],
+    }
+
+
+def filter_history(*, component: Component, before, limit: int = 30) -> list[tuple[Reading, Inspection]]:
+    """Earlier pressure-drop readings of one filter bank since its last replacement, oldest first."""
+    last_change = (
+        Reading.objects.filter(component=component, item__template__code="filter_replace", item__key="replaced",
+                               value_text="ok", inspection__finished_at__lt=before)
+        .order_by("-inspection__finished_at")
+        .values_list("inspection__finished_at", flat=True)
+        .first()
+    )
+    qs = Reading.objects.filter(
+        component=component, item__template__code="filter_check", item__key="dp", value_si__isnull=False,
+        inspection__finished_at__lt=before,
+    ).select_related("inspection")
+    if last_change is not None:
+        qs = qs.filter(inspection__finished_at__gt=last_change)
+    rows = list(qs.order_by("-inspection__finished_at")[:limit])
+    rows.reverse()
+    return [(r, r.inspection) for r in rows]
+
+
+def visit_values(*, inspection_ids: list[int]) -> dict[int, dict[str, float]]:
+    """Run-hours, airflow and fan speed of the given inspections, {inspection id: {key: SI value}}."""
+    out: dict[int, dict[str, float]] = {}
+    for insp_id, key, value in Reading.objects.filter(
+        inspection_id__in=inspection_ids, item__template__code="visit", value_si__isnull=False
+    ).values_list("inspection_id", "item__key", "value_si"):
+        out.setdefault(insp_id, {})[key] = value
+    return out

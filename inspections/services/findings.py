@@ -1,0 +1,91 @@
+"""Findings: every failed evaluation becomes one and proposes corrective work."""
+
+from __future__ import annotations
+
+import datetime as dt
+
+from django.utils import timezone
+
+from engineering.freeze import daily_minimums_from_normals
+
+from ..models import Evaluation, Finding, Inspection
+
+FREEZE_LEAD_DAYS = 30
+PRIORITY = {"critical": "urgent", "high": "high", "medium": "normal", "low": "low"}
+
+
+def freeze_season_near(*, site, on: dt.date, lead_days: int = FREEZE_LEAD_DAYS) -> bool:
+    """Is ``on`` inside the site's freeze season or at most ``lead_days`` before it?
+
+    Uses the site's computed season start when it falls in that window, and
+    otherwise the daily minimums interpolated from the site's monthly normals
+    (engineering.freeze.daily_minimums_from_normals) against its preheat threshold.
+    """
+    start = site.freeze_season_start
+    if start is not None and 0 <= (start - on).days <= lead_days:
+        return True
+    days = daily_minimums_from_normals(monthly_min_c=site.normals_min_c, start=on, days=lead_days + 1)
+    return any(t <= site.preheat_threshold_c for _, t in days)
+
+
+def _title(result, evaluation: Evaluation) -> str:
+    where = f" — {result.component.name}" if result.component is not None else ""
+    words = {
+        "filter_loading": "Filter loaded", "oa_fraction_temperature": "Outdoor air below minimum",
+        "oa_fraction_co2": "Outdoor air below minimum", "coil_balance": "Coil heat balance off",
+        "supply_temperature": "Supply-air temperature off set point", "duct_static": "Duct static off set point",
+        "damper_position": "Damper not at commanded position", "sensor_drift": "Sensor drift",
+    }.get(result.check)
+    if words is None:
+        words = {
+            "fan_not_proven": "Fan not proven", "freeze_protection_failed": "Freeze protection failed",
+        }.get(result.condition_code, "Deficiency: " + result.reason.split(":")[0])
+    return (words + where)[:200]
+
+
+def findings_open(*, inspection: Inspection, evaluations: list[Evaluation], results, by) -> list[Finding]:
+    """One Finding per failed evaluation, each proposing a corrective work order.
+
+    A failed freeze-protection test inside or up to 30 days before the site's
+    freeze season gets an urgent corrective work order, approved at once (the
+    scheduling service e-mails the supervisors after commit); other findings
+    wait for a supervisor's approval.
+    """
+    from scheduling.services import corrective_work_order_propose
+
+    site = inspection.ahu.building.site
+    out = []
+    for ev, res in zip(evaluations, results, strict=True):
+        if ev.verdict != "fail":
+            continue
+        severity = res.severity
+        urgent = res.condition_code == "freeze_protection_failed" and freeze_season_near(
+            site=site, on=timezone.localtime(inspection.finished_at).date()
+        )
+        priority = "urgent" if urgent else PRIORITY[severity]
+        finding = Finding.objects.create(
+            organisation_id=inspection.organisation_id, inspection=inspection, evaluation=ev, ahu=inspection.ahu,
+            component=res.component, severity="critical" if urgent else severity, title=_title(res, ev),
+            reason=res.reason[:500], condition_code=res.condition_code, opened_at=inspection.finished_at,
+        )
+        reason = res.reason
+        if urgent:
+            reason += f" — inside or within {FREEZE_LEAD_DAYS} days of the freeze season at {site.name}"
+        wo = corrective_work_order_propose(
+            ahu=inspection.ahu, title=finding.title, reason=reason, condition_code=_known(res.condition_code),
+            priority=priority, component=res.component, source_ref=f"inspection:{inspection.pk}", by=by,
+            approved=urgent,
+        )
+        finding.corrective_work_order = wo
+        finding.save(update_fields=["corrective_work_order"])
+        out.append(finding)
+    return out
+
+
+# Condition codes the scheduling engine knows; other fails raise corrective work without one.
+KNOWN_CONDITIONS = {"filter_loaded", "sensor_drift", "supply_temp_off", "damper_position", "fan_not_proven",
+                    "freeze_protection_failed"}
+
+
+def _known(code: str) -> str:
+    return code if code in KNOWN_CONDITIONS else ""

@@ -1,0 +1,131 @@
+"""After the form: edits refused, amendments, supervisor verification, flag resolution."""
+
+from __future__ import annotations
+
+from django.core.exceptions import PermissionDenied, ValidationError
+from django.db import transaction
+from django.utils import timezone
+
+from accounts.services import audit_record
+from inventory.selectors import sites_managed_by
+
+from .. import evaluation, selectors
+from ..models import Amendment, Inspection
+
+
+def _is_supervisor(user, inspection: Inspection) -> bool:
+    return sites_managed_by(user=user).filter(pk=inspection.ahu.building.site_id).exists()
+
+
+def inspection_edit(*, inspection: Inspection, by, **changes) -> Inspection:
+    """Signed inspections are never edited; this refuses and points to amendments.
+
+    There is no unsigned state: every stored form is signed on the phone.
+    """
+    raise ValidationError({
+        "inspection": [f"inspection {inspection.pk} was signed by {inspection.signature_name} on "
+                       f"{inspection.signed_at:%Y-%m-%d %H:%M} and cannot be edited; add an amendment instead"]
+    })
+
+
+@transaction.atomic
+def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list, unit_system: str) -> Amendment:
+    """A correction to a signed inspection. The original readings stay untouched beside it.
+
+    ``readings`` has the sync shape ({item, component, value, note}); each
+    corrected value is checked like a synced one (impossible values refused)
+    and the whole form is judged again with the corrections applied.
+    """
+    from .sync import Errors, Parsed, _reading  # same parsing and range rules as the sync
+
+    if not (by.pk == inspection.technician_id or _is_supervisor(by, inspection)):
+        raise PermissionDenied("only the technician who signed it or a supervisor of the site may amend it")
+    if not isinstance(reason, str) or not reason.strip():
+        raise ValidationError({"reason": ["an amendment needs a reason"]})
+    if unit_system not in ("si", "us"):
+        raise ValidationError({"unit_system": [f"unit_system={unit_system!r} is not one of si, us"]})
+    if not isinstance(readings, list) or not readings:
+        raise ValidationError({"readings": ["an amendment corrects at least one reading"]})
+    wo = inspection.work_order
+    parsed = Parsed(client_uuid=inspection.client_uuid, work_order=wo, version_seen=wo.version,
+                    unit_system=unit_system, started_at=inspection.started_at, finished_at=inspection.finished_at,
+                    checklist=selectors.checklist_build(work_order=wo))
+    errors, seen = Errors(), set()
+    for i, raw in enumerate(readings):
+        _reading(parsed, i, raw, seen, errors)
+    if errors:
+        raise ValidationError(dict(errors))
+    original = {(r.item.api_key, r.component_id): r for r in inspection.readings.select_related("item__template")}
+    values = {k: evaluation.Value(number=r.value_si, text=r.value_text) for k, r in original.items()}
+    for r in parsed.readings:
+        values[(r.item.api_key, r.component.pk if r.component else None)] = evaluation.Value(
+            number=r.value_si, text=r.value_text)
+    from .sync import _filter_points_for
+
+    results = evaluation.evaluate(evaluation.Form(
+        ahu=inspection.ahu, components=list(inspection.ahu.components.all()), values=values,
+        slots=parsed.checklist.slots, finished_at=inspection.finished_at,
+        filter_points=_filter_points_for(inspection.ahu, inspection.finished_at),
+    ))
+    by_item = {}
+    for res in results:
+        by_item.setdefault((res.item, res.component.pk if res.component else None), res)
+    changes = []
+    for r in parsed.readings:
+        key = (r.item.api_key, r.component.pk if r.component else None)
+        old = original.get(key)
+        res = by_item.get(key)
+        changes.append({
+            "item": r.item.api_key, "component": r.component.label_code if r.component else None,
+            "before": None if old is None else {"value_si": old.value_si, "value_text": old.value_text,
+                                                "note": old.note, "verdict": old.verdict},
+            "after": {"value_si": r.value_si, "value_text": r.value_text, "note": r.note,
+                      "verdict": res.verdict if res else "", "reason": res.reason if res else ""},
+        })
+    amendment = Amendment.objects.create(inspection=inspection, created_by=by, reason=reason.strip(),
+                                         changes=changes)
+    audit_record(actor=by, obj=inspection, action="inspection_amend", organisation=inspection.organisation,
+                 changes={"amendment": amendment.pk, "items": [c["item"] for c in changes]})
+    return amendment
+
+
+@transaction.atomic
+def inspection_verify(*, inspection: Inspection, by) -> Inspection:
+    """A supervisor verifies the inspection; its completed work order moves to verified."""
+    from scheduling.services import work_order_verify
+
+    if not _is_supervisor(by, inspection):
+        raise PermissionDenied("only a supervisor of the site may verify an inspection")
+    if inspection.verified_at is not None:
+        raise ValidationError({"inspection": [f"inspection {inspection.pk} was verified already"]})
+    if inspection.flag_open:
+        raise ValidationError({"inspection": [f"inspection {inspection.pk} is flagged ({inspection.flag_reason}); "
+                                              "resolve the flag first"]})
+    inspection.state = Inspection.State.VERIFIED
+    inspection.verified_at = timezone.now()
+    inspection.verified_by = by
+    inspection.save(update_fields=["state", "verified_at", "verified_by"])
+    if inspection.work_order.state == "completed":
+        work_order_verify(work_order=inspection.work_order, by=by)
+    audit_record(actor=by, obj=inspection, action="inspection_verify", organisation=inspection.organisation)
+    return inspection
+
+
+@transaction.atomic
+def flagged_form_resolve(*, inspection: Inspection, by, note: str) -> Inspection:
+    """A supervisor has looked at a flagged form and says what was done about it."""
+    if not _is_supervisor(by, inspection):
+        raise PermissionDenied("only a supervisor of the site may resolve a flagged form")
+    if not inspection.flags:
+        raise ValidationError({"inspection": [f"inspection {inspection.pk} is not flagged"]})
+    if inspection.flag_resolved_at is not None:
+        raise ValidationError({"inspection": [f"the flag on inspection {inspection.pk} was resolved already"]})
+    if not isinstance(note, str) or not note.strip():
+        raise ValidationError({"note": ["say what was done about the flag"]})
+    inspection.flag_resolved_at = timezone.now()
+    inspection.flag_resolved_by = by
+    inspection.flag_resolution_note = note.strip()
+    inspection.save(update_fields=["flag_resolved_at", "flag_resolved_by", "flag_resolution_note"])
+    audit_record(actor=by, obj=inspection, action="flag_resolve", organisation=inspection.organisation,
+                 changes={"flags": [f["code"] for f in inspection.flags], "note": inspection.flag_resolution_note})
+    return inspection
