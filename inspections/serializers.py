@@ -1,0 +1,125 @@
+"""Input/output serializers of the inspections API: shapes for the schema, no domain logic."""
+
+from rest_framework import serializers
+
+
+class ErrorSerializer(serializers.Serializer):
+    detail = serializers.CharField()
+    errors = serializers.DictField(child=serializers.ListField(child=serializers.CharField()), required=False)
+
+
+class SyncInputSerializer(serializers.Serializer):
+    forms = serializers.ListField(child=serializers.JSONField(), max_length=50,
+                                  help_text="Finished forms; shape in inspections/SYNC.md.")
+
+
+class SyncResultSerializer(serializers.Serializer):
+    client_uuid = serializers.CharField(allow_null=True)
+    status = serializers.ChoiceField(choices=["stored", "flagged", "duplicate", "refused"])
+    first_status = serializers.CharField(required=False)
+    inspection_id = serializers.IntegerField(allow_null=True)
+    work_order_state = serializers.CharField(allow_null=True)
+    flags = serializers.ListField(child=serializers.DictField())
+    errors = serializers.DictField()
+    evaluation = serializers.ListField(child=serializers.DictField())
+    findings = serializers.ListField(child=serializers.DictField())
+
+
+class SyncOutputSerializer(serializers.Serializer):
+    results = SyncResultSerializer(many=True)
+
+
+class ChecklistOutputSerializer(serializers.Serializer):
+    work_order = serializers.DictField()
+    unit_system = serializers.CharField()
+    cautions = serializers.ListField(child=serializers.CharField())
+    templates = serializers.ListField(child=serializers.DictField())
+
+
+class PhotoUploadInputSerializer(serializers.Serializer):
+    file = serializers.FileField()
+    client_uuid = serializers.UUIDField()
+    work_order = serializers.UUIDField()
+
+
+class PhotoOutputSerializer(serializers.Serializer):
+    client_uuid = serializers.UUIDField()
+    id = serializers.IntegerField()
+    url = serializers.CharField()
+    thumbnail_url = serializers.CharField()
+    width = serializers.IntegerField()
+    height = serializers.IntegerField()
+
+
+class AmendmentInputSerializer(serializers.Serializer):
+    reason = serializers.CharField()
+    unit_system = serializers.ChoiceField(choices=["si", "us"])
+    readings = serializers.ListField(child=serializers.JSONField(), min_length=1)
+
+
+class AmendmentOutputSerializer(serializers.Serializer):
+    id = serializers.IntegerField()
+    public_id = serializers.UUIDField()
+    inspection_id = serializers.IntegerField()
+    reason = serializers.CharField()
+    created_at = serializers.DateTimeField()
+    changes = serializers.ListField(child=serializers.DictField())
+
+
+class NoteInputSerializer(serializers.Serializer):
+    note = serializers.CharField()
+
+
+class InspectionOutputSerializer(serializers.Serializer):
+    id = serializers.IntegerField()
+    client_uuid = serializers.UUIDField()
+    work_order = serializers.UUIDField(source="work_order.public_id")
+    unit = serializers.CharField(source="ahu.tag")
+    technician = serializers.CharField()
+    state = serializers.CharField()
+    template_versions = serializers.DictField()
+    started_at = serializers.DateTimeField()
+    finished_at = serializers.DateTimeField()
+    signature_name = serializers.CharField()
+    signed_at = serializers.DateTimeField()
+    complete = serializers.BooleanField()
+    flags = serializers.ListField(child=serializers.DictField())
+    flag_resolved_at = serializers.DateTimeField()
+    flag_resolution_note = serializers.CharField()
+    verified_at = serializers.DateTimeField()
+    readings = serializers.SerializerMethodField()
+    evaluations = serializers.SerializerMethodField()
+    amendments = serializers.SerializerMethodField()
+
+    def get_readings(self, obj) -> list[dict]:
+        return [
+            {"item": r.item.api_key, "component": r.component.label_code if r.component else None,
+             "value_si": r.value_si, "value_text": r.value_text, "entered": r.entered, "note": r.note,
+             "verdict": r.verdict, "reason": r.reason, "improbable": r.improbable}
+            for r in obj.readings.all()
+        ]
+
+    def get_evaluations(self, obj) -> list[dict]:
+        return [
+            {"check": e.check_name, "item": e.item_key, "component": e.component.label_code if e.component else None,
+             "verdict": e.verdict, "reason": e.reason, "method": e.method, "derived": e.derived}
+            for e in obj.evaluations.all()
+        ]
+
+    def get_amendments(self, obj) -> list[dict]:
+        return [
+            {"id": a.pk, "reason": a.reason, "created_at": a.created_at.isoformat(), "by": str(a.created_by),
+             "changes": a.changes}
+            for a in obj.amendments.all()
+        ]
+
+
+class FlaggedFormSerializer(serializers.Serializer):
+    id = serializers.IntegerField()
+    client_uuid = serializers.UUIDField()
+    work_order = serializers.UUIDField(source="work_order.public_id")
+    unit = serializers.CharField(source="ahu.tag")
+    site = serializers.CharField(source="ahu.building.site.name")
+    technician = serializers.CharField()
+    received_at = serializers.DateTimeField()
+    flags = serializers.ListField(child=serializers.DictField())

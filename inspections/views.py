@@ -1,0 +1,145 @@
+"""API views of the inspections app: thin, one operation each; contract in inspections/SYNC.md."""
+
+from django.conf import settings
+from django.core.exceptions import ValidationError
+from django.http import FileResponse, Http404
+from django.shortcuts import get_object_or_404
+from drf_spectacular.utils import OpenApiResponse, extend_schema
+from rest_framework import status
+from rest_framework.parsers import FormParser, MultiPartParser
+from rest_framework.response import Response
+from rest_framework.views import APIView
+
+from . import selectors, services
+from . import serializers as s
+from .models import Inspection
+
+NOT_FOUND = OpenApiResponse(s.ErrorSerializer, description="Not found or not visible to you.")
+BAD = OpenApiResponse(s.ErrorSerializer, description="Bad input; errors name the field.")
+
+
+class ChecklistView(APIView):
+    @extend_schema(responses={200: s.ChecklistOutputSerializer, 404: NOT_FOUND}, tags=["inspections"])
+    def get(self, request, public_id):
+        wo = get_object_or_404(selectors.work_orders_visible_to(user=request.user), public_id=public_id)
+        return Response(selectors.checklist_for(work_order=wo, user=request.user))
+
+
+class SyncView(APIView):
+    @extend_schema(request=s.SyncInputSerializer, responses={200: s.SyncOutputSerializer, 400: BAD},
+                   tags=["inspections"], description="Store finished forms once each; see inspections/SYNC.md.")
+    def post(self, request):
+        data = s.SyncInputSerializer(data=request.data)
+        data.is_valid(raise_exception=True)
+        results = services.inspection_sync(user=request.user, forms=data.validated_data["forms"])
+        return Response({"results": results})
+
+
+def _photo_json(request, photo) -> dict:
+    return {
+        "client_uuid": str(photo.client_uuid), "id": photo.pk,
+        "url": request.build_absolute_uri(f"/api/inspections/photos/{photo.client_uuid}/"),
+        "thumbnail_url": request.build_absolute_uri(f"/api/inspections/photos/{photo.client_uuid}/thumbnail/"),
+        "width": photo.width, "height": photo.height,
+    }
+
+
+class PhotoUploadView(APIView):
+    parser_classes = [MultiPartParser, FormParser]
+
+    @extend_schema(request=s.PhotoUploadInputSerializer, responses={200: s.PhotoOutputSerializer,
+                   201: s.PhotoOutputSerializer, 400: BAD, 404: NOT_FOUND}, tags=["inspections"])
+    def post(self, request):
+        data = s.PhotoUploadInputSerializer(data=request.data)
+        data.is_valid(raise_exception=True)
+        wo = selectors.work_order_for_sync(user=request.user, public_id=data.validated_data["work_order"])
+        if wo is None:
+            raise Http404("no such work order in your organisation")
+        upload = data.validated_data["file"]
+        if upload.size > settings.PLENUM_PHOTO_MAX_BYTES:
+            raise ValidationError({"file": [f"the image is {upload.size / 1048576:.1f} MB; at most "
+                                            f"{settings.PLENUM_PHOTO_MAX_BYTES / 1048576:.1f} MB is allowed"]})
+        photo, created = services.photo_upload(user=request.user, work_order=wo,
+                                               client_uuid=data.validated_data["client_uuid"], data=upload.read())
+        return Response(_photo_json(request, photo), status=status.HTTP_201_CREATED if created else status.HTTP_200_OK)
+
+
+class PhotoFileView(APIView):
+    thumbnail = False
+
+    @extend_schema(responses={(200, "image/*"): bytes, 404: NOT_FOUND}, tags=["inspections"])
+    def get(self, request, client_uuid):
+        photo = selectors.photo_visible_to(user=request.user, client_uuid=client_uuid)
+        if photo is None:
+            raise Http404("no such photo")
+        f = photo.thumbnail if self.thumbnail else photo.image
+        content_type = "image/jpeg" if self.thumbnail else photo.content_type
+        name = f.name.rsplit("/", 1)[-1]
+        response = FileResponse(f.open("rb"), content_type=content_type)
+        response["X-Content-Type-Options"] = "nosniff"
+        response["Content-Disposition"] = f'inline; filename="{name}"'
+        response["Cache-Control"] = "private, max-age=3600"
+        response["Content-Security-Policy"] = "default-src 'none'; sandbox"
+        return response
+
+
+class TemplatesView(APIView):
+    @extend_schema(responses={200: s.ChecklistOutputSerializer(many=True)}, tags=["inspections"])
+    def get(self, request):
+        out = []
+        for t in services.templates_current().values():
+            out.append({"code": t.code, "version": t.version, "title": t.title, "cautions": t.cautions,
+                        "items": [{"key": i.api_key, "kind": i.kind, "label": i.label, "quantity": i.quantity,
+                                   "component_kind": i.component_kind, "required": i.required}
+                                  for i in t.items.all()]})
+        return Response(out)
+
+
+def _inspection(request, pk) -> Inspection:
+    qs = selectors.inspections_visible_to(user=request.user).prefetch_related(
+        "readings__item__template", "readings__component", "evaluations__component", "amendments__created_by")
+    return get_object_or_404(qs, pk=pk)
+
+
+class InspectionDetailView(APIView):
+    @extend_schema(responses={200: s.InspectionOutputSerializer, 404: NOT_FOUND}, tags=["inspections"])
+    def get(self, request, pk):
+        return Response(s.InspectionOutputSerializer(_inspection(request, pk)).data)
+
+
+class AmendmentCreateView(APIView):
+    @extend_schema(request=s.AmendmentInputSerializer, responses={201: s.AmendmentOutputSerializer, 400: BAD,
+                   403: s.ErrorSerializer, 404: NOT_FOUND}, tags=["inspections"])
+    def post(self, request, pk):
+        inspection = _inspection(request, pk)
+        data = s.AmendmentInputSerializer(data=request.data)
+        data.is_valid(raise_exception=True)
+        a = services.inspection_amend(inspection=inspection, by=request.user, **data.validated_data)
+        return Response({"id": a.pk, "public_id": str(a.public_id), "inspection_id": inspection.pk,
+                         "reason": a.reason, "created_at": a.created_at, "changes": a.changes},
+                        status=status.HTTP_201_CREATED)
+
+
+class FlaggedListView(APIView):
+    @extend_schema(responses={200: s.FlaggedFormSerializer(many=True)}, tags=["inspections"])
+    def get(self, request):
+        return Response(s.FlaggedFormSerializer(selectors.flagged_forms_for(user=request.user), many=True).data)
+
+
+class FlagResolveView(APIView):
+    @extend_schema(request=s.NoteInputSerializer, responses={200: s.InspectionOutputSerializer, 400: BAD,
+                   403: s.ErrorSerializer, 404: NOT_FOUND}, tags=["inspections"])
+    def post(self, request, pk):
+        inspection = _inspection(request, pk)
+        data = s.NoteInputSerializer(data=request.data)
+        data.is_valid(raise_exception=True)
+        services.flagged_form_resolve(inspection=inspection, by=request.user, note=data.validated_data["note"])
+        return Response(s.InspectionOutputSerializer(_inspection(request, pk)).data)
+
+
+class VerifyView(APIView):
+    @extend_schema(request=None, responses={200: s.InspectionOutputSerializer, 400: BAD, 403: s.ErrorSerializer,
+                   404: NOT_FOUND}, tags=["inspections"])
+    def post(self, request, pk):
+        services.inspection_verify(inspection=_inspection(request, pk), by=request.user)
+        return Response(s.InspectionOutputSerializer(_inspection(request, pk)).data)

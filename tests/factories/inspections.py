@@ -1,0 +1,87 @@
+"""Factories for inspections: a visit ready to be filled, and sync forms as the phone sends them."""
+
+from __future__ import annotations
+
+import base64
+import datetime as dt
+import io
+import uuid
+
+from PIL import Image
+
+from accounts.models import Role
+from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
+from scheduling.services import task_library_install
+
+from .accounts import OrganisationFactory, make_person
+from .inventory import BuildingFactory, SiteFactory, make_full_unit
+from .scheduling import WorkOrderFactory
+
+FINISHED = dt.datetime(2025, 3, 3, 9, 30, tzinfo=dt.UTC)
+
+
+def image_bytes(fmt: str = "JPEG", size: tuple[int, int] = (64, 48), exif: bool = False) -> bytes:
+    img = Image.new("RGB", size, (120, 140, 160))
+    out = io.BytesIO()
+    kwargs = {}
+    if exif:
+        e = Image.Exif()
+        e[0x010F] = "Invented Camera Maker"  # Make
+        e[0x0131] = "secret-firmware"  # Software
+        kwargs["exif"] = e.tobytes()
+    img.save(out, format=fmt, **kwargs)
+    return out.getvalue()
+
+
+def data_url(data: bytes, mime: str = "image/jpeg") -> str:
+    return f"data:{mime};base64,{base64.b64encode(data).decode()}"
+
+
+def signature(name: str = "Ana Field", at: dt.datetime = FINISHED) -> dict:
+    return {"name": name, "image": data_url(image_bytes("PNG", (200, 80)), "image/png"),
+            "signed_at": at.isoformat()}
+
+
+def make_visit(*, tasks: list[str], organisation=None, ahu=None, technician=None, **ahu_fields):
+    """An assigned preventive work order on a full unit, with library tasks for ``tasks``."""
+    organisation = organisation or OrganisationFactory()
+    if ahu is None:
+        site = SiteFactory(organisation=organisation)
+        ahu = make_full_unit(building=BuildingFactory(site=site), **ahu_fields)
+    technician = technician or make_person(organisation=organisation, role=Role.TECHNICIAN,
+                                           first_name="Ana", last_name="Field")
+    task_library_install()
+    wo = WorkOrderFactory(ahu=ahu, organisation=organisation, assignee=technician, state=WorkOrder.State.ASSIGNED,
+                          title="Quarterly service", due_date=FINISHED.date())
+    for code in tasks:
+        WorkOrderTask.objects.create(
+            work_order=wo, task=TaskDefinition.objects.get(organisation=None, code=code), task_code=code, ahu=ahu,
+            component=None, component_key=0, due_date=wo.due_date, occurrence_key=f"test:{wo.pk}:{code}",
+        )
+    return wo, technician
+
+
+def component(ahu, name: str):
+    return ahu.components.get(name=name)
+
+
+def sync_form(wo, readings: list[dict], *, client_uuid=None, version=None, unit_system="si", photos=None,
+              finished_at: dt.datetime = FINISHED, sign=True) -> dict:
+    form = {
+        "client_uuid": str(client_uuid or uuid.uuid4()),
+        "work_order": str(wo.public_id),
+        "work_order_version": version if version is not None else wo.version,
+        "unit_system": unit_system,
+        "started_at": (finished_at - dt.timedelta(minutes=45)).isoformat(),
+        "finished_at": finished_at.isoformat(),
+        "readings": readings,
+        "photos": photos or [],
+    }
+    if sign:
+        form["signature"] = signature(at=finished_at)
+    return form
+
+
+def r(item: str, value, component=None, note: str = "") -> dict:
+    return {"item": item, "component": component.label_code if component is not None else None, "value": value,
+            "note": note}
