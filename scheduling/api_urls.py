@@ -1,4 +1,19 @@
-from django.urls import path  # noqa: F401
+from django.urls import path
+
+from . import api
 
 app_name = "scheduling_api"
-urlpatterns: list = []
+urlpatterns = [
+    path("work-orders/", api.WorkOrderList.as_view(), name="work-orders"),
+    path("work-orders/<uuid:public_id>/", api.WorkOrderDetail.as_view(), name="work-order"),
+    path("work-orders/<uuid:public_id>/assign/", api.WorkOrderAssign.as_view(), name="work-order-assign"),
+    path("work-orders/<uuid:public_id>/transition/", api.WorkOrderTransition.as_view(), name="work-order-transition"),
+    path("work-orders/<uuid:public_id>/approve/", api.WorkOrderApprove.as_view(), name="work-order-approve"),
+    path("today/", api.TodayVisits.as_view(), name="today"),
+    path("board/", api.Board.as_view(), name="board"),
+    path("tasks/", api.TaskList.as_view(), name="tasks"),
+    path("tasks/<slug:code>/", api.TaskOverride.as_view(), name="task"),
+    path("meter-readings/", api.MeterReadings.as_view(), name="meter-readings"),
+    path("outdoor-temperatures/", api.OutdoorTemperatures.as_view(), name="outdoor-temperatures"),
+    path("calendar-feed/", api.CalendarFeedIssue.as_view(), name="calendar-feed"),
+]

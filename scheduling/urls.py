@@ -1,4 +1,8 @@
-from django.urls import path  # noqa: F401
+from django.urls import path
+
+from . import views
 
 app_name = "scheduling"
-urlpatterns: list = []
+urlpatterns = [
+    path("calendar/<str:token>.ics", views.calendar_feed, name="calendar"),
+]

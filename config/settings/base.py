@@ -7,6 +7,7 @@ import os
 from pathlib import Path
 
 import dj_database_url
+from celery.schedules import crontab
 
 BASE_DIR = Path(__file__).resolve().parent.parent.parent
 
@@ -181,7 +182,24 @@ CELERY_TASK_ACKS_LATE = True
 CELERY_TASK_REJECT_ON_WORKER_LOST = True
 CELERY_WORKER_PREFETCH_MULTIPLIER = 1
 CELERY_TIMEZONE = "UTC"
-CELERY_BEAT_SCHEDULE: dict = {}
+CELERY_BEAT_SCHEDULE: dict = {
+    # scheduling: season starts from forecasts first, then the nightly generation, then overdue e-mails (UTC).
+    "scheduling-nightly-seasons": {
+        "task": "scheduling.nightly_seasons",
+        "schedule": crontab(hour=1, minute=0),
+        "options": {"expires": 3 * 3600},
+    },
+    "scheduling-nightly-generation": {
+        "task": "scheduling.nightly_generation",
+        "schedule": crontab(hour=2, minute=0),
+        "options": {"expires": 3 * 3600},
+    },
+    "scheduling-daily-escalation": {
+        "task": "scheduling.daily_escalation",
+        "schedule": crontab(hour=6, minute=30),
+        "options": {"expires": 3 * 3600},
+    },
+}
 
 # ---------------------------------------------------------------------------
 # E-mail  https://docs.djangoproject.com/en/5.2/topics/email/

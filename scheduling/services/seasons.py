@@ -121,16 +121,16 @@ def outdoor_temperatures_import_csv(*, organisation, text: str) -> dict[str, int
 
 
 @transaction.atomic
-def site_seasons_refresh(*, site: Site, today: dt.date, provider=None) -> Site:
+def site_seasons_refresh(*, site: Site, today: dt.date, provider=None, fetch: bool = True) -> Site:
     """Fetch the forecast (when a provider or URL is there), then set the site's season starts.
 
     A failing forecast is not fatal: the stored days and the normals still give a start.
     """
     from ..weather import ForecastError
 
-    if provider is None and HttpForecastProvider().url:
+    if fetch and provider is None and HttpForecastProvider().url:
         provider = HttpForecastProvider()
-    if provider is not None:
+    if fetch and provider is not None:
         try:
             outdoor_temperatures_store(site=site, days=provider.daily(site), source=provider.source)
         except ForecastError:

@@ -1,0 +1,296 @@
+"""Scheduling API: one small view per operation; tenancy through the selectors."""
+
+from __future__ import annotations
+
+import datetime as dt
+
+from django.conf import settings
+from django.core.exceptions import ValidationError
+from django.http import Http404
+from django.urls import reverse
+from django.utils import timezone
+from drf_spectacular.utils import OpenApiParameter, extend_schema
+from rest_framework import status
+from rest_framework.response import Response
+from rest_framework.views import APIView
+
+from accounts.models import Membership, Role, User
+from inventory.selectors import ahus_visible_to, sites_visible_to
+
+from . import serializers as s
+from .models import MeterReading, OutdoorTemperature, WorkOrder
+from .selectors import (
+    board_for,
+    effective_tasks,
+    today_visits_for,
+    work_orders_managed_by,
+    work_orders_visible_to,
+)
+from .services import (
+    WorkOrderConflict,
+    calendar_feed_issue,
+    corrective_work_order_approve,
+    meter_reading_record,
+    task_definition_override,
+    work_order_assign,
+    work_order_transition,
+)
+
+ERRORS = {400: s.SchedulingErrorOut, 403: s.SchedulingErrorOut, 404: s.SchedulingErrorOut}
+SELF_SERVICE_STATES = {WorkOrder.State.IN_PROGRESS, WorkOrder.State.COMPLETED}
+
+
+def _conflict(exc: WorkOrderConflict) -> Response:
+    return Response({"detail": str(exc), "current_version": exc.current_version}, status=status.HTTP_409_CONFLICT)
+
+
+def _organisation_for(user, *, managing: bool = False):
+    roles = [Role.SUPERVISOR, Role.ADMIN] if managing else list(Role.values)
+    m = Membership.objects.filter(user=user, role__in=roles).select_related("organisation").order_by("id").first()
+    return m.organisation if m else None
+
+
+class WorkOrderList(APIView):
+    @extend_schema(
+        responses={200: s.WorkOrderOut(many=True)},
+        parameters=[OpenApiParameter("state", str), OpenApiParameter("site", str, description="site code")],
+        summary="Work orders the caller may see",
+    )
+    def get(self, request):
+        qs = work_orders_visible_to(user=request.user)
+        if request.query_params.get("state"):
+            qs = qs.filter(state=request.query_params["state"])
+        if request.query_params.get("site"):
+            qs = qs.filter(ahu__building__site__code=request.query_params["site"])
+        qs = qs.order_by("due_date", "id")[:500]
+        return Response(s.WorkOrderOut(qs, many=True).data)
+
+
+def _visible(request, public_id) -> WorkOrder:
+    wo = work_orders_visible_to(user=request.user).filter(public_id=public_id).first()
+    if wo is None:
+        raise Http404("no such work order")
+    return wo
+
+
+class WorkOrderDetail(APIView):
+    @extend_schema(responses={200: s.WorkOrderOut, **ERRORS}, summary="One work order with its tasks")
+    def get(self, request, public_id):
+        return Response(s.WorkOrderOut(_visible(request, public_id)).data)
+
+
+class WorkOrderAssign(APIView):
+    @extend_schema(
+        request=s.AssignIn,
+        responses={200: s.WorkOrderOut, 409: s.ConflictOut, **ERRORS},
+        summary="Assign or reassign to a technician",
+    )
+    def post(self, request, public_id):
+        _visible(request, public_id)
+        wo = work_orders_managed_by(user=request.user).filter(public_id=public_id).first()
+        if wo is None:
+            return Response({"detail": "only a supervisor of the organisation may assign"}, status=403)
+        data = s.AssignIn(data=request.data)
+        data.is_valid(raise_exception=True)
+        assignee = User.objects.filter(username=data.validated_data["assignee"]).first()
+        if assignee is None:
+            raise ValidationError({"assignee": [f"assignee={data.validated_data['assignee']!r} is not a user"]})
+        try:
+            work_order_assign(
+                work_order=wo, assignee=assignee, by=request.user, expected_version=data.validated_data["version"]
+            )
+        except WorkOrderConflict as exc:
+            return _conflict(exc)
+        return Response(s.WorkOrderOut(_visible(request, public_id)).data)
+
+
+class WorkOrderTransition(APIView):
+    @extend_schema(
+        request=s.TransitionIn,
+        responses={200: s.WorkOrderOut, 409: s.ConflictOut, **ERRORS},
+        summary="Move a work order to another state (start, complete, verify, cancel, unassign)",
+    )
+    def post(self, request, public_id):
+        wo = _visible(request, public_id)
+        data = s.TransitionIn(data=request.data)
+        data.is_valid(raise_exception=True)
+        to_state = data.validated_data["to_state"]
+        managed = work_orders_managed_by(user=request.user).filter(pk=wo.pk).exists()
+        own = wo.assignee_id == request.user.pk and to_state in SELF_SERVICE_STATES
+        if not (managed or own):
+            return Response({"detail": f"you may not move this work order to {to_state}"}, status=403)
+        try:
+            work_order_transition(
+                work_order=wo,
+                to_state=to_state,
+                by=request.user,
+                expected_version=data.validated_data["version"],
+                reason=data.validated_data["reason"],
+            )
+        except WorkOrderConflict as exc:
+            return _conflict(exc)
+        return Response(s.WorkOrderOut(_visible(request, public_id)).data)
+
+
+class WorkOrderApprove(APIView):
+    @extend_schema(
+        request=s.VersionIn,
+        responses={200: s.WorkOrderOut, 409: s.ConflictOut, **ERRORS},
+        summary="Approve proposed corrective work",
+    )
+    def post(self, request, public_id):
+        _visible(request, public_id)
+        wo = work_orders_managed_by(user=request.user).filter(public_id=public_id).first()
+        if wo is None:
+            return Response({"detail": "only a supervisor of the organisation may approve"}, status=403)
+        data = s.VersionIn(data=request.data)
+        data.is_valid(raise_exception=True)
+        try:
+            corrective_work_order_approve(
+                work_order=wo, by=request.user, expected_version=data.validated_data["version"]
+            )
+        except WorkOrderConflict as exc:
+            return _conflict(exc)
+        return Response(s.WorkOrderOut(_visible(request, public_id)).data)
+
+
+class TodayVisits(APIView):
+    @extend_schema(
+        responses={200: s.VisitOut(many=True)},
+        parameters=[
+            OpenApiParameter("day", dt.date, description="default: today"),
+            OpenApiParameter("lat", float),
+            OpenApiParameter("lon", float),
+        ],
+        summary="The caller's visits for the day, in a suggested order",
+    )
+    def get(self, request):
+        day = _date_param(request, "day") or timezone.localdate()
+        start = None
+        if request.query_params.get("lat") and request.query_params.get("lon"):
+            try:
+                start = (float(request.query_params["lat"]), float(request.query_params["lon"]))
+            except ValueError:
+                raise ValidationError({"lat": ["lat and lon must be decimal degrees"]}) from None
+        visits = today_visits_for(technician=request.user, day=day, start=start)
+        return Response(s.VisitOut(visits, many=True).data)
+
+
+def _date_param(request, name: str) -> dt.date | None:
+    raw = request.query_params.get(name)
+    if not raw:
+        return None
+    try:
+        return dt.date.fromisoformat(raw)
+    except ValueError:
+        raise ValidationError({name: [f"{name}={raw!r} is not a date as YYYY-MM-DD"]}) from None
+
+
+class Board(APIView):
+    @extend_schema(
+        responses={200: s.BoardOut, **ERRORS},
+        parameters=[OpenApiParameter("week", dt.date)],
+        summary="Supervisor's board: due, overdue and assigned for a week",
+    )
+    def get(self, request):
+        org = _organisation_for(request.user, managing=True)
+        if org is None:
+            return Response({"detail": "the board is for supervisors"}, status=403)
+        week = _date_param(request, "week") or timezone.localdate()
+        week = week - dt.timedelta(days=week.weekday())
+        board = board_for(organisation=org, week_start=week)
+        return Response(s.BoardOut(board).data)
+
+
+class TaskList(APIView):
+    @extend_schema(responses={200: s.TaskDefinitionOut(many=True)}, summary="Maintenance rules in force")
+    def get(self, request):
+        org = _organisation_for(request.user)
+        if org is None:
+            return Response([])
+        tasks = sorted(
+            effective_tasks(organisation=org, include_disabled=True).values(), key=lambda t: (t.category, t.code)
+        )
+        return Response(s.TaskDefinitionOut(tasks, many=True).data)
+
+
+class TaskOverride(APIView):
+    @extend_schema(
+        request=s.TaskOverrideIn,
+        responses={200: s.TaskDefinitionOut, **ERRORS},
+        summary="Change a rule for the caller's organisation",
+    )
+    def patch(self, request, code):
+        org = _organisation_for(request.user, managing=True)
+        if org is None:
+            return Response({"detail": "only a supervisor may change the rules"}, status=403)
+        data = s.TaskOverrideIn(data=request.data)
+        data.is_valid(raise_exception=True)
+        task = task_definition_override(organisation=org, code=code, by=request.user, **data.validated_data)
+        return Response(s.TaskDefinitionOut(task).data)
+
+
+class MeterReadings(APIView):
+    @extend_schema(
+        responses={200: s.MeterReadingOut(many=True)},
+        parameters=[OpenApiParameter("unit", str)],
+        summary="Run-hour readings of a unit",
+    )
+    def get(self, request):
+        ahu = ahus_visible_to(user=request.user).filter(label_code=request.query_params.get("unit", "")).first()
+        if ahu is None:
+            return Response([])
+        rows = MeterReading.objects.filter(ahu=ahu).select_related("ahu").order_by("-taken_at")[:200]
+        return Response(s.MeterReadingOut(rows, many=True).data)
+
+    @extend_schema(
+        request=s.MeterReadingIn, responses={201: s.MeterReadingOut, **ERRORS}, summary="Push a run-hour reading"
+    )
+    def post(self, request):
+        data = s.MeterReadingIn(data=request.data)
+        data.is_valid(raise_exception=True)
+        v = data.validated_data
+        ahu = ahus_visible_to(user=request.user).filter(label_code=v["unit_label"].upper()).first()
+        if ahu is None:
+            raise ValidationError({"unit_label": [f"unit_label={v['unit_label']!r} is not a unit you can see"]})
+        component = None
+        if v["component_label"]:
+            component = ahu.components.filter(label_code=v["component_label"].upper()).first()
+            if component is None:
+                raise ValidationError({"component_label": [f"{v['component_label']!r} is not a part of {ahu.tag}"]})
+        reading = meter_reading_record(
+            ahu=ahu,
+            hours=v["hours"],
+            taken_at=v["taken_at"],
+            component=component,
+            is_reset=v["is_reset"],
+            source=MeterReading.Source.API,
+            by=request.user,
+        )
+        return Response(s.MeterReadingOut(reading).data, status=201)
+
+
+class OutdoorTemperatures(APIView):
+    @extend_schema(
+        responses={200: s.OutdoorTemperatureOut(many=True)},
+        parameters=[OpenApiParameter("site", str)],
+        summary="Stored outdoor temperatures of a site",
+    )
+    def get(self, request):
+        site = sites_visible_to(user=request.user).filter(code=request.query_params.get("site", "")).first()
+        if site is None:
+            return Response([])
+        rows = OutdoorTemperature.objects.filter(site=site).order_by("-date")[:400]
+        return Response(s.OutdoorTemperatureOut(rows, many=True).data)
+
+
+class CalendarFeedIssue(APIView):
+    @extend_schema(
+        request=None,
+        responses={201: s.CalendarFeedOut},
+        summary="A new secret calendar URL for the caller's assigned visits (revokes the old one)",
+    )
+    def post(self, request):
+        feed = calendar_feed_issue(user=request.user)
+        url = settings.PLENUM_PUBLIC_URL.rstrip("/") + reverse("scheduling:calendar", kwargs={"token": feed.token})
+        return Response({"url": url}, status=201)

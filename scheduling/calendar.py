@@ -1,0 +1,43 @@
+"""iCalendar (RFC 5545) feed of a technician's assigned visits, built with the icalendar library."""
+
+from __future__ import annotations
+
+import datetime as dt
+
+from django.conf import settings
+from icalendar import Calendar, Event
+
+from .models import WorkOrder
+from .selectors import work_orders_visible_to
+
+
+def feed_ics(*, user) -> bytes:
+    """One all-day event per open assigned visit (scheduled date, else due date)."""
+    cal = Calendar()
+    cal.add("prodid", "-//Plenum//Maintenance visits//EN")
+    cal.add("version", "2.0")
+    cal.add("x-wr-calname", f"Plenum visits — {user}")
+    orders = (
+        work_orders_visible_to(user=user)
+        .filter(assignee=user, state__in=[WorkOrder.State.ASSIGNED, WorkOrder.State.IN_PROGRESS])
+        .order_by("due_date", "id")
+    )
+    base = settings.PLENUM_PUBLIC_URL.rstrip("/")
+    for wo in orders:
+        day = wo.scheduled_for or wo.due_date
+        site = wo.ahu.building.site
+        event = Event()
+        event.add("uid", f"{wo.public_id}@plenum")
+        event.add("summary", f"{wo.ahu.tag}: {wo.title}")
+        event.add("dtstart", day)
+        event.add("dtend", day + dt.timedelta(days=1))
+        event.add("dtstamp", wo.updated_at)
+        event.add("location", f"{site.name}, {site.address}".strip(", "))
+        event.add("geo", (site.latitude, site.longitude))
+        tasks = "\n".join(
+            f"- {t.task.name}" + (f" ({t.component.name})" if t.component else "") for t in wo.tasks.all()
+        )
+        event.add("description", f"{tasks}\n\nUnit label {wo.ahu.label_code}. {base}{wo.ahu.get_absolute_url()}")
+        event.add("sequence", wo.version)
+        cal.add_component(event)
+    return cal.to_ical()

@@ -1,0 +1,197 @@
+"""Input and output shapes of the scheduling API. No domain logic here."""
+
+from rest_framework import serializers
+
+from .models import MeterReading, OutdoorTemperature, TaskDefinition, WorkOrder, WorkOrderTask
+
+
+class TaskDefinitionOut(serializers.ModelSerializer):
+    library = serializers.BooleanField(source="is_library", read_only=True)
+
+    class Meta:
+        model = TaskDefinition
+        fields = [
+            "code",
+            "name",
+            "description",
+            "category",
+            "component_kind",
+            "spec_filter",
+            "extra_targets",
+            "trigger",
+            "interval_value",
+            "interval_unit",
+            "anchor",
+            "grace_days",
+            "run_hours",
+            "season",
+            "lead_days",
+            "condition_code",
+            "checklist_code",
+            "estimated_minutes",
+            "skill",
+            "safety_notes",
+            "source",
+            "enabled",
+            "library",
+        ]
+
+
+class TaskOverrideIn(serializers.Serializer):
+    interval_value = serializers.IntegerField(min_value=1, required=False)
+    interval_unit = serializers.ChoiceField(choices=TaskDefinition.IntervalUnit.choices, required=False)
+    anchor = serializers.ChoiceField(choices=TaskDefinition.Anchor.choices, required=False)
+    grace_days = serializers.IntegerField(min_value=0, max_value=365, required=False)
+    run_hours = serializers.IntegerField(min_value=1, required=False)
+    lead_days = serializers.IntegerField(min_value=0, max_value=180, required=False)
+    estimated_minutes = serializers.IntegerField(min_value=1, max_value=24 * 60, required=False)
+    enabled = serializers.BooleanField(required=False)
+
+
+class WorkOrderTaskOut(serializers.ModelSerializer):
+    code = serializers.CharField(source="task_code")
+    name = serializers.CharField(source="task.name")
+    checklist_code = serializers.CharField(source="task.checklist_code")
+    estimated_minutes = serializers.IntegerField(source="task.estimated_minutes")
+    safety_notes = serializers.CharField(source="task.safety_notes")
+    component = serializers.SerializerMethodField()
+
+    class Meta:
+        model = WorkOrderTask
+        fields = [
+            "id",
+            "code",
+            "name",
+            "checklist_code",
+            "component",
+            "due_date",
+            "estimated_minutes",
+            "safety_notes",
+            "completed_at",
+        ]
+
+    def get_component(self, obj) -> dict | None:
+        c = obj.component
+        return None if c is None else {"id": c.pk, "name": c.name, "kind": c.kind, "label_code": c.label_code}
+
+
+class WorkOrderOut(serializers.ModelSerializer):
+    id = serializers.UUIDField(source="public_id")
+    unit = serializers.SerializerMethodField()
+    site = serializers.SerializerMethodField()
+    assignee = serializers.SerializerMethodField()
+    tasks = WorkOrderTaskOut(many=True)
+    allowed_states = serializers.SerializerMethodField()
+
+    class Meta:
+        model = WorkOrder
+        fields = [
+            "id",
+            "kind",
+            "state",
+            "priority",
+            "approval",
+            "title",
+            "reason",
+            "condition_code",
+            "unit",
+            "site",
+            "assignee",
+            "due_date",
+            "overdue_on",
+            "scheduled_for",
+            "started_at",
+            "completed_at",
+            "verified_at",
+            "version",
+            "tasks",
+            "allowed_states",
+        ]
+
+    def get_unit(self, obj) -> dict:
+        return {"id": obj.ahu_id, "tag": obj.ahu.tag, "label_code": obj.ahu.label_code}
+
+    def get_site(self, obj) -> dict:
+        s = obj.ahu.building.site
+        return {"id": s.pk, "code": s.code, "name": s.name, "latitude": s.latitude, "longitude": s.longitude}
+
+    def get_assignee(self, obj) -> dict | None:
+        u = obj.assignee
+        return None if u is None else {"id": u.pk, "username": u.username, "name": str(u)}
+
+    def get_allowed_states(self, obj) -> list[str]:
+        return sorted(WorkOrder.TRANSITIONS.get(obj.state, ()))
+
+
+class VersionIn(serializers.Serializer):
+    version = serializers.IntegerField(min_value=1, help_text="The version you last read (optimistic check).")
+
+
+class AssignIn(VersionIn):
+    assignee = serializers.CharField(help_text="Username of a technician of the organisation.")
+
+
+class TransitionIn(VersionIn):
+    to_state = serializers.ChoiceField(choices=WorkOrder.State.choices)
+    reason = serializers.CharField(required=False, allow_blank=True, default="")
+
+
+class ConflictOut(serializers.Serializer):
+    detail = serializers.CharField()
+    current_version = serializers.IntegerField()
+
+
+class SchedulingErrorOut(serializers.Serializer):
+    detail = serializers.CharField()
+    errors = serializers.DictField(required=False)
+
+
+class MeterReadingIn(serializers.Serializer):
+    unit_label = serializers.CharField()
+    component_label = serializers.CharField(required=False, allow_blank=True, default="")
+    hours = serializers.FloatField(min_value=0)
+    taken_at = serializers.DateTimeField()
+    is_reset = serializers.BooleanField(default=False)
+
+
+class MeterReadingOut(serializers.ModelSerializer):
+    unit_label = serializers.CharField(source="ahu.label_code")
+
+    class Meta:
+        model = MeterReading
+        fields = ["id", "unit_label", "component", "hours", "taken_at", "source", "is_reset"]
+
+
+class OutdoorTemperatureOut(serializers.ModelSerializer):
+    class Meta:
+        model = OutdoorTemperature
+        fields = ["date", "min_c", "max_c", "mean_c", "source"]
+
+
+class VisitOut(serializers.Serializer):
+    order = serializers.IntegerField()
+    leg_km = serializers.FloatField()
+    site = serializers.SerializerMethodField()
+    work_orders = WorkOrderOut(many=True)
+
+    def get_site(self, obj) -> dict:
+        s = obj.site
+        return {
+            "id": s.pk,
+            "code": s.code,
+            "name": s.name,
+            "address": s.address,
+            "latitude": s.latitude,
+            "longitude": s.longitude,
+        }
+
+
+class BoardOut(serializers.Serializer):
+    week_start = serializers.DateField()
+    due = WorkOrderOut(many=True)
+    overdue = WorkOrderOut(many=True)
+    assigned = WorkOrderOut(many=True)
+
+
+class CalendarFeedOut(serializers.Serializer):
+    url = serializers.CharField()
