@@ -29,7 +29,7 @@ OK, WATCH, FAIL, NA = "ok", "watch", "fail", "na"
 # Severity of a failed check by what it puts at risk (common practice):
 # frozen coils and unproven fans stop the building; the rest degrades it.
 SEVERITY = {
-    "freeze_protection_failed": "critical",
+    "freeze_protection_failed": "high",  # critical when inside or just before the freeze season
     "fan_not_proven": "high",
     "ventilation_low": "high",
     "supply_temp_off": "medium",

@@ -1,6 +1,5 @@
 """The sync endpoint: each form stored once, never dropped, impossible values refused whole."""
 
-import datetime as dt
 import threading
 import uuid
 
@@ -15,7 +14,7 @@ from scheduling.models import MeterReading, WorkOrder
 from scheduling.services import work_order_assign, work_order_cancel
 from tests.conftest import service_missing
 from tests.factories.accounts import make_person
-from tests.factories.inspections import FINISHED, component, make_visit, r, sync_form
+from tests.factories.inspections import component, make_visit, r, sync_form
 
 SYNC = "/api/inspections/sync/"
 
@@ -303,11 +302,9 @@ def test_checklist_repeats_items_per_bank_with_limits_in_the_users_units(api_cli
 
 
 def test_batch_over_fifty_forms_is_a_400(api_client, db):
-    wo, tech = make_visit(tasks=["filter_check"])
+    _, tech = make_visit(tasks=["filter_check"])
     api_client.force_authenticate(tech)
     res = api_client.post(SYNC, {"forms": [{}] * 51}, format="json")
     assert res.status_code == 400
     assert "forms" in res.json()["errors"]
 
-
-_ = (dt, FINISHED)

@@ -1,0 +1,253 @@
+"""Evaluation end to end: readings posted through the sync API → stored derived values, verdicts, findings.
+
+Expected numbers are worked by hand from the formula named beside each
+test; the sources of the constants are named there too.
+"""
+
+import datetime as dt
+
+import pytest
+from django.core import mail
+
+from inspections.models import Evaluation, Finding, Reading
+from scheduling.models import WorkOrder
+from tests.factories.inspections import FINISHED, component, make_visit, r, sync_form
+
+SYNC = "/api/inspections/sync/"
+
+
+def submit(client, wo, tech, readings, **kw):
+    client.force_authenticate(tech)
+    res = client.post(SYNC, {"forms": [sync_form(wo, readings, **kw)]}, format="json")
+    assert res.status_code == 200
+    [out] = res.json()["results"]
+    assert out["status"] in {"stored", "flagged"}, out
+    return out
+
+
+def result(out, check, component=None):
+    return next(e for e in out["evaluation"]
+                if e["check"] == check and (component is None or e["component"] == component.label_code))
+
+
+@pytest.mark.django_db
+def test_filter_loading_is_corrected_to_design_airflow(api_client):
+    """160 Pa at 2.4 m³/s on a bank designed for 3.0 m³/s reads 223.6 Pa at design airflow.
+
+    Δp_design = 160 × (3.0/2.4)^1.5 = 223.6 Pa (exponent 1.5 between Darcy flow n=1 and the square law
+    n=2: common practice); loading (223.6 − 90)/(250 − 90) = 84 % of the span → watch (from 75 %).
+    """
+    wo, tech = make_visit(tasks=["filter_check"])
+    bank = component(wo.ahu, "Final filters")
+    out = submit(api_client, wo, tech, [r("visit.run_hours", 1200), r("visit.supply_airflow", 2400),
+                                        r("filter_check.dp", 160, bank)])
+    ev = result(out, "filter_loading", bank)
+    assert ev["derived"]["corrected_dp_pa"] == pytest.approx(223.6, abs=0.1)
+    assert ev["derived"]["loading_pct"] == pytest.approx(83.5, abs=0.1)
+    assert ev["verdict"] == "watch"
+    assert "filter at 84 % of its span after correcting to design airflow" in ev["reason"]
+    stored = Evaluation.objects.get(inspection_id=out["inspection_id"], check_name="filter_loading",
+                                    component=bank)
+    assert "Q_design/Q" in stored.method
+    reading = Reading.objects.get(inspection_id=out["inspection_id"], item__key="dp", component=bank)
+    assert reading.verdict == "watch"
+
+
+@pytest.mark.django_db
+def test_filter_change_is_forecast_from_this_and_earlier_readings(api_client):
+    """Δp rising 20 Pa per 500 run-hours (0.04 Pa/h) from 170 Pa reaches 250 Pa after 2000 more hours.
+
+    The meter runs 500 h per 30 days (16.7 h/day), so 2000 h is 120 days after 3 March 2025: 1 July 2025
+    (straight-line arithmetic; Theil–Sen gives the exact slope on collinear points).
+    """
+    wo, tech = make_visit(tasks=["filter_check"])
+    ahu, bank = wo.ahu, component(wo.ahu, "Final filters")
+    for months_ago, hours, dp in ((3, 1000, 110), (2, 1500, 130), (1, 2000, 150)):
+        earlier, _ = make_visit(tasks=["filter_check"], organisation=wo.organisation, ahu=ahu, technician=tech)
+        submit(api_client, earlier, tech, [r("visit.run_hours", hours), r("filter_check.dp", dp, bank)],
+               finished_at=FINISHED - dt.timedelta(days=30 * months_ago))
+    out = submit(api_client, wo, tech, [r("visit.run_hours", 2500), r("filter_check.dp", 170, bank)])
+    ev = result(out, "filter_loading", bank)
+    assert ev["derived"]["rate_pa_per_hour"] == pytest.approx(0.04)
+    assert ev["derived"]["forecast_run_hours"] == 4500
+    assert ev["derived"]["forecast_change_date"] == "2025-07-01"
+    assert ev["reason"].endswith("change forecast 1 July 2025")
+    assert ev["verdict"] == "ok"  # (170 − 90)/160 = 50 % of the span
+
+
+@pytest.mark.django_db
+def test_outdoor_air_fraction_by_temperature_meets_design_and_ventilation_requirement(api_client):
+    """Outdoor 0 °C, return 22 °C, mixed 15.4 °C: x = (22 − 15.4)/22 = 0.30 (mixing balance, ASHRAE
+    Handbook—Fundamentals ch.1), ±0.03 with ±0.5 K sensors; 0.9 m³/s of the 3.0 m³/s design supply.
+
+    Requirement of 1200 m² of office with 60 people: 2.5 L/s·person × 60 + 0.3 L/s·m² × 1200 = 510 L/s
+    (ASHRAE 62.1 Table 6-1 office rates, from memory) → fraction 0.17 needed; design minimum 0.25. OK.
+    """
+    wo, tech = make_visit(tasks=["ventilation_check"])
+    out = submit(api_client, wo, tech, [r("visit.run_hours", 1200), r("ventilation_check.outdoor_air", 0),
+                                        r("ventilation_check.return_air", 22), r("ventilation_check.mixed_air", 15.4)])
+    ev = result(out, "oa_fraction_temperature")
+    assert ev["derived"]["oa_fraction"] == pytest.approx(0.30, abs=0.001)
+    assert ev["derived"]["uncertainty"] == pytest.approx(0.029, abs=0.001)
+    assert ev["derived"]["outdoor_airflow_m3s"] == pytest.approx(0.9, abs=0.001)
+    assert ev["derived"]["required_outdoor_airflow_m3s"] == pytest.approx(0.51)
+    assert ev["verdict"] == "ok"
+    assert out["findings"] == []
+
+
+@pytest.mark.django_db
+def test_too_little_outdoor_air_is_a_finding_with_proposed_corrective_work(api_client):
+    """Mixed 20 °C between 0 °C outdoor and 22 °C return: x = 2/22 = 0.09 ± 0.03, below 0.25 → fail."""
+    wo, tech = make_visit(tasks=["ventilation_check"])
+    out = submit(api_client, wo, tech, [r("visit.run_hours", 1200), r("ventilation_check.outdoor_air", 0),
+                                        r("ventilation_check.return_air", 22), r("ventilation_check.mixed_air", 20)])
+    ev = result(out, "oa_fraction_temperature")
+    assert ev["verdict"] == "fail"
+    assert ev["derived"]["oa_fraction"] == pytest.approx(0.091, abs=0.001)
+    [f] = out["findings"]
+    assert f["severity"] == "high"
+    finding = Finding.objects.get(pk=f["id"])
+    assert finding.age_days(now=finding.opened_at + dt.timedelta(days=3)) == 3
+    cwo = finding.corrective_work_order
+    assert cwo.kind == WorkOrder.Kind.CORRECTIVE and cwo.approval == WorkOrder.Approval.PENDING
+    assert cwo.source_ref == f"inspection:{out['inspection_id']}"
+
+
+@pytest.mark.django_db
+def test_co2_method_reports_the_fraction_but_will_not_decide_within_its_uncertainty(api_client):
+    """CO2 400/900/775 ppm: x = (900 − 775)/(900 − 400) = 0.25; with ±(50 ppm + 3 %) sensors (typical NDIR,
+    from memory) the band is ±0.19, straddling the 0.25 minimum → watch, "cannot decide"."""
+    wo, tech = make_visit(tasks=["ventilation_check"])
+    out = submit(api_client, wo, tech, [r("visit.run_hours", 1200), r("ventilation_check.outdoor_co2", 400),
+                                        r("ventilation_check.return_co2", 900),
+                                        r("ventilation_check.supply_co2", 775)])
+    ev = result(out, "oa_fraction_co2")
+    assert ev["derived"]["oa_fraction"] == pytest.approx(0.25)
+    assert ev["derived"]["uncertainty"] == pytest.approx(0.189, abs=0.002)
+    assert ev["verdict"] == "watch" and "cannot decide" in ev["reason"]
+
+
+@pytest.mark.django_db
+def test_heating_coil_heat_balances_air_and_water_side(api_client):
+    """3.0 m³/s heated 10 → 30 °C: ṁ = 3.0/0.8021 m³/kg = 3.740 kg/s, q = 3.740 × 1.006 × 20 = 75.3 kW
+    (dry-air specific volume and c_p, ASHRAE Handbook—Fundamentals ch.1). Water 0.9 L/s cooled 70 → 50 °C:
+    q = 0.0009 × 983.2 × 4185 × 20 = 74.1 kW (water at 60 °C, IAPWS values from memory). 1.6 % apart → ok."""
+    wo, tech = make_visit(tasks=["coil_clean"])
+    coil = component(wo.ahu, "Heating coil")
+    out = submit(api_client, wo, tech, [
+        r("visit.run_hours", 1200), r("visit.supply_airflow", 3000), r("coil_clean.air_in", 10, coil),
+        r("coil_clean.air_out", 30, coil), r("coil_clean.water_in", 70, coil), r("coil_clean.water_out", 50, coil),
+        r("coil_clean.water_flow", 0.9, coil),
+    ])
+    ev = result(out, "coil_balance", coil)
+    assert ev["derived"]["air_side_w"] == pytest.approx(75_250, rel=0.01)
+    assert abs(ev["derived"]["water_side_w"]) == pytest.approx(74_060, rel=0.01)
+    assert ev["derived"]["difference_pct"] == pytest.approx(1.6, abs=0.3)
+    assert ev["verdict"] == "ok"
+
+
+@pytest.mark.django_db
+def test_damper_short_of_its_command_opens_corrective_work_with_its_condition(api_client):
+    """Commanded 50 %, measured 38 %: 12 points off, beyond the 10-point fail limit (common practice)."""
+    wo, tech = make_visit(tasks=["damper_actuator"])
+    damper = component(wo.ahu, "Outdoor-air damper")
+    out = submit(api_client, wo, tech, [r("visit.run_hours", 1200), r("damper_actuator.command", 50, damper),
+                                        r("damper_actuator.position", 38, damper, note="sticks at 38 %")])
+    ev = result(out, "damper_position", damper)
+    assert ev["verdict"] == "fail" and ev["derived"]["error_pct"] == -12
+    [f] = out["findings"]
+    cwo = Finding.objects.get(pk=f["id"]).corrective_work_order
+    assert cwo.condition_code == "damper_position" and cwo.component == damper
+
+
+@pytest.mark.django_db
+def test_co2_sensor_drift_against_the_reference_meter(api_client):
+    """Sensor 980 ppm beside a reference reading 900 ppm: 80 ppm off, beyond its stated ±50 ppm → fail."""
+    wo, tech = make_visit(tasks=["sensor_calibration"])
+    sensor = component(wo.ahu, "Return CO2 sensor")
+    out = submit(api_client, wo, tech, [r("visit.run_hours", 1200), r("sensor_calibration.co2_sensor", 980, sensor),
+                                        r("sensor_calibration.co2_reference", 900, sensor, note="drifted")])
+    ev = result(out, "sensor_drift", sensor)
+    assert ev["verdict"] == "fail"
+    assert ev["derived"]["error"] == 80 and ev["derived"]["allowed_error"] == 50
+    cwo = Finding.objects.get(pk=out["findings"][0]["id"]).corrective_work_order
+    assert cwo.condition_code == "sensor_drift"
+
+
+@pytest.mark.django_db
+def test_supply_temperature_and_duct_static_against_their_set_points(api_client):
+    """Supply 18.5 °C against 17 °C: 1.5 K → watch (1 K / 2 K); static 300 Pa against 250 Pa: 20 % → watch."""
+    wo, tech = make_visit(tasks=["controls_check"])
+    out = submit(api_client, wo, tech, [
+        r("visit.run_hours", 1200), r("controls_check.supply_air", 18.5), r("controls_check.supply_setpoint", 17),
+        r("controls_check.duct_static", 300), r("controls_check.alarms", "ok"), r("controls_check.schedule", "ok"),
+    ])
+    assert result(out, "supply_temperature")["verdict"] == "watch"
+    static = result(out, "duct_static")
+    assert static["derived"]["setpoint_pa"] == 250.0  # from the unit's registry entry
+    assert static["derived"]["deviation_pct"] == 20.0 and static["verdict"] == "watch"
+    assert out["findings"] == []
+
+
+@pytest.mark.django_db
+def test_fan_not_proven_is_a_high_finding(api_client):
+    wo, tech = make_visit(tasks=["fan_proving"])
+    fan = component(wo.ahu, "Supply fan")
+    out = submit(api_client, wo, tech, [r("visit.run_hours", 1200),
+                                        r("fan_proving.proving_test", "not_ok", fan, note="switch stuck closed"),
+                                        r("fan_proving.running_status", "ok", fan)])
+    [f] = out["findings"]
+    assert f["severity"] == "high"
+    assert Finding.objects.get(pk=f["id"]).corrective_work_order.condition_code == "fan_not_proven"
+
+
+FREEZE_READINGS = [("preheater_freeze.freeze_trip_temp", 4.0), ("preheater_freeze.freeze_trip_test", "not_ok")]
+
+
+@pytest.mark.django_db
+def test_failed_freeze_test_in_the_freeze_season_opens_urgent_approved_work_and_mails_supervisors(
+    api_client, django_capture_on_commit_callbacks
+):
+    """In January (normal daily minimum −2 °C, below the 5 °C preheat threshold) a failed trip test is urgent."""
+    from tests.factories.scheduling import make_supervisor
+
+    wo, tech = make_visit(tasks=["preheater_freeze"])
+    boss = make_supervisor(wo.organisation)
+    jan = dt.datetime(2025, 1, 15, 10, tzinfo=dt.UTC)
+    with django_capture_on_commit_callbacks(execute=True):
+        out = submit(api_client, wo, tech, [r("visit.run_hours", 1200), *(r(k, v, note="damper stayed open")
+                                                                          for k, v in FREEZE_READINGS)],
+                     finished_at=jan)
+    [f] = out["findings"]
+    assert f["severity"] == "critical"
+    cwo = Finding.objects.get(pk=f["id"]).corrective_work_order
+    assert cwo.priority == "urgent" and cwo.approval == WorkOrder.Approval.APPROVED
+    assert cwo.condition_code == "freeze_protection_failed"
+    assert [m.to for m in mail.outbox] == [[boss.email]]
+    assert wo.ahu.tag in mail.outbox[0].subject
+
+
+@pytest.mark.django_db
+def test_failed_freeze_test_in_summer_waits_for_approval(api_client, django_capture_on_commit_callbacks):
+    """In mid-July (normal minimum 13.5 °C, and above 5 °C for the next 30 days) it is high, not urgent."""
+    wo, tech = make_visit(tasks=["preheater_freeze"])
+    july = dt.datetime(2024, 7, 15, 10, tzinfo=dt.UTC)
+    with django_capture_on_commit_callbacks(execute=True):
+        out = submit(api_client, wo, tech, [r("visit.run_hours", 1200), *(r(k, v, note="x")
+                                                                          for k, v in FREEZE_READINGS)],
+                     finished_at=july)
+    cwo = Finding.objects.get(pk=out["findings"][0]["id"]).corrective_work_order
+    assert cwo.priority == "high" and cwo.approval == WorkOrder.Approval.PENDING
+    assert mail.outbox == []
+
+
+@pytest.mark.django_db
+def test_freeze_trip_temperature_too_low_fails(api_client):
+    """A frost thermostat tripping at 0 °C acts too late (ok 2–6 °C, watch 1–7 °C: common practice)."""
+    wo, tech = make_visit(tasks=["preheater_freeze"])
+    out = submit(api_client, wo, tech, [r("visit.run_hours", 1200), r("preheater_freeze.freeze_trip_temp", 0,
+                                                                        note="set too low"),
+                                        r("preheater_freeze.freeze_trip_test", "ok")],
+                 finished_at=dt.datetime(2024, 7, 15, 10, tzinfo=dt.UTC))
+    ev = result(out, "limits")
+    assert ev["item"] == "preheater_freeze.freeze_trip_temp" and ev["verdict"] == "fail"
