@@ -1,0 +1,152 @@
+"""Scheduling API and the calendar feed, driven through real endpoints."""
+
+import datetime as dt
+
+import pytest
+from django.db import connection
+from django.test.utils import CaptureQueriesContext
+from icalendar import Calendar
+
+from scheduling.engine import work_orders_generate
+from scheduling.models import WorkOrder
+from scheduling.services import calendar_feed_issue, calendar_feed_revoke, work_order_assign
+from tests.factories.inventory import make_full_unit
+from tests.factories.scheduling import make_supervisor, make_technician
+
+pytestmark = pytest.mark.django_db
+TODAY = dt.date(2025, 3, 3)
+
+
+@pytest.fixture
+def world(library):
+    ahu = make_full_unit(service_start=dt.date(2024, 1, 15))
+    org = ahu.building.site.organisation
+    work_orders_generate(organisation=org, today=TODAY)
+    other = make_full_unit(service_start=dt.date(2024, 1, 15))
+    work_orders_generate(organisation=other.building.site.organisation, today=TODAY)
+    return {"ahu": ahu, "org": org, "sup": make_supervisor(org), "tech": make_technician(org), "other": other}
+
+
+def test_work_orders_of_another_organisation_are_invisible(api_client, world):
+    """A supervisor lists only their organisation's work; another tenant's order is a 404."""
+    api_client.force_authenticate(world["sup"])
+    rows = api_client.get("/api/scheduling/work-orders/").json()
+    assert rows and {r["unit"]["tag"] for r in rows} == {world["ahu"].tag}
+    foreign = WorkOrder.objects.filter(ahu=world["other"]).first()
+    assert api_client.get(f"/api/scheduling/work-orders/{foreign.public_id}/").status_code == 404
+
+
+def test_technician_sees_only_own_assigned_work(api_client, world):
+    """A technician sees nothing until work is assigned to them, then exactly that."""
+    api_client.force_authenticate(world["tech"])
+    assert api_client.get("/api/scheduling/work-orders/").json() == []
+    wo = WorkOrder.objects.filter(ahu=world["ahu"]).first()
+    work_order_assign(work_order=wo, assignee=world["tech"], by=world["sup"])
+    rows = api_client.get("/api/scheduling/work-orders/").json()
+    assert [r["id"] for r in rows] == [str(wo.public_id)]
+
+
+def test_assign_and_transition_with_version(api_client, world):
+    """Assigning needs the current version; a stale one is a 409; the technician may start their own visit."""
+    wo = WorkOrder.objects.filter(ahu=world["ahu"]).first()
+    api_client.force_authenticate(world["sup"])
+    url = f"/api/scheduling/work-orders/{wo.public_id}/"
+    r = api_client.post(url + "assign/", {"assignee": world["tech"].username, "version": 1}, format="json")
+    assert r.status_code == 200 and r.json()["state"] == "assigned" and r.json()["version"] == 2
+    r = api_client.post(url + "assign/", {"assignee": world["tech"].username, "version": 1}, format="json")
+    assert r.status_code == 409 and r.json()["current_version"] == 2
+    api_client.force_authenticate(world["tech"])
+    r = api_client.post(url + "transition/", {"to_state": "verified", "version": 2}, format="json")
+    assert r.status_code == 403
+    r = api_client.post(url + "transition/", {"to_state": "in_progress", "version": 2}, format="json")
+    assert r.status_code == 200 and r.json()["state"] == "in_progress"
+    r = api_client.post(url + "transition/", {"to_state": "planned", "version": 3}, format="json")
+    assert r.status_code == 403
+
+
+def test_illegal_transition_gives_a_field_error(api_client, world):
+    """An illegal move answers 400 naming to_state and what is allowed."""
+    wo = WorkOrder.objects.filter(ahu=world["ahu"]).first()
+    api_client.force_authenticate(world["sup"])
+    r = api_client.post(
+        f"/api/scheduling/work-orders/{wo.public_id}/transition/",
+        {"to_state": "completed", "version": 1},
+        format="json",
+    )
+    assert r.status_code == 400
+    assert "not allowed from 'planned'" in r.json()["errors"]["to_state"][0]
+
+
+def test_list_and_board_take_a_constant_number_of_queries(api_client, world):
+    """Listing work orders costs the same number of queries for one unit or three."""
+    api_client.force_authenticate(world["sup"])
+    with CaptureQueriesContext(connection) as one:
+        api_client.get("/api/scheduling/work-orders/")
+    for _ in range(2):
+        make_full_unit(building=world["ahu"].building, service_start=dt.date(2024, 1, 15))
+    work_orders_generate(organisation=world["org"], today=TODAY)
+    with CaptureQueriesContext(connection) as three:
+        rows = api_client.get("/api/scheduling/work-orders/").json()
+    assert len({r["unit"]["tag"] for r in rows}) == 3
+    assert len(three) == len(one)
+    r = api_client.get("/api/scheduling/board/?week=2025-03-10")
+    assert r.status_code == 200 and r.json()["week_start"] == "2025-03-10"
+
+
+def test_today_lists_visits_with_tasks_in_order(api_client, world):
+    """The technician's day lists each site once with its work orders and tasks."""
+    wo = WorkOrder.objects.filter(ahu=world["ahu"]).order_by("due_date").first()
+    work_order_assign(work_order=wo, assignee=world["tech"], by=world["sup"])
+    api_client.force_authenticate(world["tech"])
+    r = api_client.get(f"/api/scheduling/today/?day={wo.due_date.isoformat()}")
+    assert r.status_code == 200
+    visits = r.json()
+    assert [v["order"] for v in visits] == [1]
+    assert visits[0]["work_orders"][0]["tasks"]
+
+
+def test_calendar_feed_lists_assigned_visits_and_revoked_token_is_404(client, world):
+    """The secret feed carries the technician's visits; after revocation the URL answers 404."""
+    wo = WorkOrder.objects.filter(ahu=world["ahu"]).order_by("due_date").first()
+    work_order_assign(work_order=wo, assignee=world["tech"], by=world["sup"])
+    feed = calendar_feed_issue(user=world["tech"])
+    r = client.get(f"/calendar/{feed.token}.ics")
+    assert r.status_code == 200 and r["Content-Type"].startswith("text/calendar")
+    events = [c for c in Calendar.from_ical(r.content).walk("VEVENT")]
+    assert len(events) == 1
+    assert events[0]["uid"] == f"{wo.public_id}@plenum"
+    assert events[0].decoded("dtstart") == wo.due_date
+    assert world["ahu"].tag in str(events[0]["summary"])
+    calendar_feed_revoke(feed=feed)
+    assert client.get(f"/calendar/{feed.token}.ics").status_code == 404
+    assert client.get("/calendar/not-a-token.ics").status_code == 404
+
+
+def test_meter_reading_api_refuses_backwards(api_client, world):
+    """Pushing a lower reading through the API is a 400 naming hours."""
+    api_client.force_authenticate(world["sup"])
+    label = world["ahu"].label_code
+    ok = api_client.post(
+        "/api/scheduling/meter-readings/",
+        {"unit_label": label, "hours": 100, "taken_at": "2025-01-01T08:00:00Z"},
+        format="json",
+    )
+    assert ok.status_code == 201
+    bad = api_client.post(
+        "/api/scheduling/meter-readings/",
+        {"unit_label": label, "hours": 50, "taken_at": "2025-01-02T08:00:00Z"},
+        format="json",
+    )
+    assert bad.status_code == 400 and "below the previous reading" in bad.json()["errors"]["hours"][0]
+
+
+def test_generate_command_prints_counts(world, capsys):
+    """The command reports created, moved and unchanged; a second run creates nothing."""
+    from django.core.management import call_command
+
+    call_command("generate_work_orders", organisation=world["org"].slug, dry_run=True)
+    out = capsys.readouterr().out
+    assert "created" in out and "(dry run)" in out
+    call_command("generate_work_orders", organisation=world["org"].slug, horizon=30)
+    call_command("generate_work_orders", organisation=world["org"].slug, horizon=30)
+    assert f"{world['org'].slug}: created 0, moved 0" in capsys.readouterr().out.splitlines()[-2]
