@@ -50,7 +50,8 @@ def css_string(text: str) -> str:
         if ch.isascii() and (ch.isalnum() or ch == " "):
             out.append(ch)
         else:
-            out.append(f"\\{ord(ch):06x}")
+            # A hex escape eats one following space, so each gets its own terminating space.
+            out.append(f"\\{ord(ch):06x} ")
     return '"' + "".join(out) + '"'
 
 

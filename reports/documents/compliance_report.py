@@ -1,11 +1,97 @@
-"""Placeholder until the document is written."""
+"""Site compliance report for a period: one site or a whole portfolio.
+
+A one-page summary first, then preventive work by task category (table and
+chart), overdue work, open findings by severity and age, the filter status of
+every unit and freeze-protection readiness. Figures come from
+``reports.compliance`` only.
+"""
+
+from __future__ import annotations
+
+from datetime import datetime, timedelta
 
 from django.core.exceptions import ValidationError
 
+from accounts.models import Organisation
+from inventory.selectors import sites_visible_to
+from reports import charts
+from reports.compliance import FREEZE_LABELS, compliance_figures
+from reports.rendering import html_render, svg_data_uri
 
-def prepare(*, user, parameters: dict, requested_at):
-    raise ValidationError({"kind": "not available yet"})
+from . import Built, Prepared, id_list, period, refuse_missing, single_organisation
+from .common import percent, shown, unit_system
+
+MAX_SITES = 200
 
 
-def build(*, report):
-    raise NotImplementedError
+def prepare(*, user, parameters: dict, requested_at: datetime) -> Prepared:
+    site_ids = id_list(parameters, "sites")
+    visible = sites_visible_to(user=user)
+    if site_ids:
+        rows = list(visible.filter(pk__in=site_ids).values_list("pk", "organisation_id"))
+        refuse_missing("sites", site_ids, {r[0] for r in rows}, "site")
+    else:
+        rows = list(visible.values_list("pk", "organisation_id"))
+        if not rows:
+            raise ValidationError({"sites": "you may see no site, so there is nothing to report on"})
+    if len(rows) > MAX_SITES:
+        raise ValidationError({"sites": f"{len(rows)} sites: at most {MAX_SITES} in one report"})
+    today = requested_at.date()
+    start, end = period(parameters, default_start=today - timedelta(days=365), default_end=today)
+    return Prepared(
+        parameters={
+            "sites": sorted(r[0] for r in rows),
+            "start": start.isoformat(),
+            "end": end.isoformat(),
+            "unit_system": unit_system(parameters, user),
+        },
+        site_ids=sorted(r[0] for r in rows),
+        organisation_id=single_organisation({r[1] for r in rows}, "sites"),
+    )
+
+
+def build(*, report) -> Built:
+    from datetime import date
+
+    p = report.parameters
+    system = p["unit_system"]
+    figures = compliance_figures(
+        site_ids=p["sites"],
+        start=date.fromisoformat(p["start"]),
+        end=date.fromisoformat(p["end"]),
+        as_of=report.created_at,
+    )
+    organisation = Organisation.objects.get(pk=report.organisation_id)
+    for row in figures.filters:
+        d = row["derived"]
+        row["corrected_dp"] = shown(d.get("corrected_dp_pa"), "pressure", system)
+        row["loading"] = f"{d['loading_pct']:.0f} %" if isinstance(d.get("loading_pct"), int | float) else "—"
+        row["forecast"] = d.get("forecast_change_date") or "—"
+    filter_counts = {"ok": 0, "watch": 0, "fail": 0, "none": 0}
+    for row in figures.filters:
+        filter_counts[row["verdict"] if row["verdict"] in filter_counts else "none"] += 1
+    high_findings = sum(sum(figures.findings_matrix.get(s, {}).values()) for s in ("critical", "high"))
+    single = len(figures.sites) == 1
+    scope = figures.sites[0].name if single else f"{len(figures.sites)} sites"
+    title = f"Compliance report — {scope}, {p['start']} to {p['end']}"
+    html = html_render(
+        template="reports/compliance.html",
+        context={
+            "organisation": organisation,
+            "f": figures,
+            "single": single,
+            "scope": scope,
+            "share": percent(figures.total.on_time_share, 1),
+            "category_rows": [(c, percent(c.on_time_share)) for c in figures.categories],
+            "chart": svg_data_uri(charts.compliance_bars(figures.categories)),
+            "filter_counts": filter_counts,
+            "high_findings": high_findings,
+            "freeze_labels": FREEZE_LABELS,
+            "system": system,
+            "unit_count": len(figures.units),
+        },
+        title=title,
+        generated_at=report.created_at,
+        subject=f"Preventive maintenance compliance of {scope}",
+    )
+    return Built(html=html, title=title)

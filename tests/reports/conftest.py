@@ -61,6 +61,14 @@ def pdf_text(report: Report) -> str:
     return "\n".join(page.extract_text() for page in reader.pages)
 
 
+def pdf_xmp(report: Report) -> str:
+    """The XMP metadata packet of the PDF as text ("" when it has none)."""
+    root = PdfReader(io.BytesIO(pdf_bytes(report))).trailer["/Root"]
+    if "/Metadata" not in root:
+        return ""
+    return root["/Metadata"].get_object().get_data().decode("utf-8")
+
+
 def pdf_pages(report: Report) -> int:
     return len(PdfReader(io.BytesIO(pdf_bytes(report))).pages)
 

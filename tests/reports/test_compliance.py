@@ -64,7 +64,7 @@ def test_hand_worked_period_by_category():
 def test_period_still_running_judges_at_as_of():
     """Mid-period, an occurrence still inside its grace is not yet due, not missed."""
     cases = [occ("filters", "2025-03-01", 7), occ("filters", "2025-03-10", 7)]
-    rows, total = preventive_figures(cases, start=D("2025-03-01"), end=D("2025-03-31"), as_of=D("2025-03-12"))
+    _rows, total = preventive_figures(cases, start=D("2025-03-01"), end=D("2025-03-31"), as_of=D("2025-03-12"))
     assert total.counts[MISSED] == 1  # deadline 8 March < 12 March
     assert total.counts[NOT_YET_DUE] == 1  # deadline 17 March
 

@@ -1,0 +1,164 @@
+"""Site compliance report: figures from the database, and the PDF that shows them."""
+
+import datetime as dt
+import re
+
+import pytest
+
+from accounts.models import Role
+from inventory.models import Site
+from reports.compliance import FREEZE_DUE, FREEZE_READY, LATE, MISSED, ON_TIME, compliance_figures
+from tests.factories.accounts import OrganisationFactory, make_person
+from tests.factories.inventory import AHUFactory, BuildingFactory, ComponentFactory, SiteFactory
+
+from . import builders as b
+from .conftest import pdf_pages, pdf_text, rasterise
+
+pytestmark = pytest.mark.django_db
+AS_OF = b.at("2025-05-10", 9)
+
+
+@pytest.fixture
+def estate(site, supervisor):
+    """Two units on one site: a small hand-checkable history (period Q1 2025, figures on 10 May 2025)."""
+    Site.objects.filter(pk=site.pk).update(freeze_season_start=dt.date(2025, 10, 25))
+    site.refresh_from_db()
+    lib = b.library()
+    building = BuildingFactory(site=site, name="Main block")
+    a1 = AHUFactory(building=building, tag="AHU-01")
+    a2 = AHUFactory(building=building, tag="AHU-02")
+    bank = ComponentFactory(ahu=a1, name="Final filters", position=1)
+    ComponentFactory(
+        ahu=a1,
+        kind="electric_preheater",
+        name="Preheater",
+        position=0,
+        specs={"power_w": 12000, "stages": 2, "switch_on_c": 3},
+    )
+    ComponentFactory(
+        ahu=a2,
+        kind="coil",
+        name="Preheat coil",
+        position=0,
+        specs={"duty": "preheat", "fluid": "water", "design_capacity_w": 30000},
+    )
+    filt, coil, freeze = lib["filter_check"], lib["coil_clean"], lib["preheater_freeze"]
+    b.preventive(a1, filt, "2025-01-10", done="2025-01-15")  # on time (grace 7)
+    b.preventive(a1, filt, "2025-03-01", done="2025-03-20")  # late
+    b.preventive(a2, filt, "2025-03-05")  # missed, still open: overdue now
+    b.preventive(a2, coil, "2025-02-01", done="2025-02-20")  # on time
+    b.preventive(a2, filt, "2025-06-01")  # outside the period
+    b.preventive(a1, freeze, "2025-10-11", done="2025-05-02")  # freeze check after last season's end: AHU-01 ready
+    b.preventive(a2, freeze, "2024-10-11", done="2025-01-20")  # done in the last season only: AHU-02 due
+    tech = make_person(organisation=site.organisation, role=Role.TECHNICIAN, first_name="Ana", last_name="Field")
+    visit = b.preventive(a1, filt, "2025-03-25", done="2025-03-25")  # on time
+    insp = b.inspection(visit, tech, finished="2025-03-25")
+    ev = b.evaluation(
+        insp,
+        "filter_loading",
+        "filter_check.dp",
+        component=bank,
+        verdict="watch",
+        reason="Final filters: filter at 86 % of its span",
+        derived={"corrected_dp_pa": 228.0, "loading_pct": 86.0, "forecast_change_date": "2025-05-02"},
+    )
+    b.finding(insp, ev, severity="high", title="Filters nearly loaded", opened="2025-03-25")
+    ev2 = b.evaluation(insp, "damper_position", "damper_actuator.position", verdict="fail", reason="stuck")
+    b.finding(insp, ev2, severity="medium", title="Damper stuck", opened="2024-11-01")
+    ev3 = b.evaluation(insp, "supply_temperature", "controls_check.supply_air", verdict="fail", reason="off")
+    b.finding(insp, ev3, severity="low", title="Closed already", opened="2025-01-01", closed="2025-02-01")
+    return {"site": site, "a1": a1, "a2": a2, "bank": bank}
+
+
+def test_figures_from_database_match_hand_count(estate, django_assert_max_num_queries):
+    """Q1 2025: filters 2 on time (15 Jan, 25 Mar), 1 late, 1 missed; coils 1 on time → 3/5 on time overall."""
+    with django_assert_max_num_queries(12):
+        f = compliance_figures(
+            site_ids=[estate["site"].pk], start=dt.date(2025, 1, 1), end=dt.date(2025, 3, 31), as_of=AS_OF
+        )
+    by = {c.category: c for c in f.categories}
+    assert by["filters"].counts[ON_TIME] == 2 and by["filters"].counts[LATE] == 1
+    assert by["filters"].counts[MISSED] == 1
+    assert by["coils_drain_pans"].counts[ON_TIME] == 1
+    assert f.total.on_time_share == pytest.approx(3 / 5)
+    assert [o["work_order"].ahu.tag for o in f.overdue] == ["AHU-02"]
+    assert f.overdue[0]["days_overdue"] == (dt.date(2025, 5, 10) - dt.date(2025, 3, 12)).days
+    assert f.findings_total == 2  # the closed one is not open
+    assert f.findings_matrix["high"]["31–90 days"] == 1  # 25 Mar → 10 May: 46 days
+    assert f.findings_matrix["medium"]["over 180 days"] == 1  # 1 Nov → 10 May: 190 days
+    filt = [r for r in f.filters if r["filter"] is not None]
+    assert filt[0]["verdict"] == "watch" and filt[0]["derived"]["loading_pct"] == 86.0
+    assert {r["unit"].tag: r["status"] for r in f.freeze} == {"AHU-01": FREEZE_READY, "AHU-02": FREEZE_DUE}
+
+
+def test_queries_do_not_grow_with_units(estate, django_assert_max_num_queries):
+    """Twenty more units with filters cost no extra queries (the 500-unit report depends on it)."""
+    building = estate["a1"].building
+    for i in range(20):
+        ComponentFactory(ahu=AHUFactory(building=building, tag=f"AHU-X{i:02d}"))
+    with django_assert_max_num_queries(12):
+        f = compliance_figures(
+            site_ids=[estate["site"].pk], start=dt.date(2025, 1, 1), end=dt.date(2025, 3, 31), as_of=AS_OF
+        )
+    assert len(f.units) == 22
+
+
+@pytest.mark.parametrize(("system", "dp_text"), [("si", "228 Pa"), ("us", "0.92 in. w.c.")])
+def test_compliance_pdf_shows_figures(estate, supervisor, make_report, time_machine, system, dp_text):
+    """The PDF: summary first, on-time share, the overdue unit, filters in the reader's units, freeze status."""
+    time_machine.move_to(AS_OF, tick=False)
+    report = make_report(
+        user=supervisor,
+        kind="compliance",
+        parameters={"sites": [estate["site"].pk], "start": "2025-01-01", "end": "2025-03-31", "unit_system": system},
+    )
+    text = pdf_text(report)
+    first_page = text.split("Page 1 of")[0]
+    assert "Summary" in first_page and "60.0 %" in first_page  # 3 of 5 on time
+    assert "Harbour View Offices" in first_page and "2025-01-01 to 2025-03-31" in first_page
+    assert "Filters" in text and "Coils and drain pans" in text
+    assert "Overdue now (1)" in text
+    assert dp_text in text and "86 %" in text and "2025-05-02" in text
+    assert "Ready" in text and "Due" in text
+    assert "Local codes" in text
+    assert "generated 2025-05-10 09:00 UTC" in text
+    pages = pdf_pages(report)
+    assert pages >= 2 and f"Page {pages} of {pages}" in text
+    rasterise(report, f"compliance-{system}")
+
+
+def test_portfolio_defaults_to_every_visible_site(estate, org, supervisor, make_report):
+    """Without sites, the report covers every site the person may see (and lists the site on each row)."""
+    other = SiteFactory(organisation=org, name="Riverside Clinic")
+    AHUFactory(building=BuildingFactory(site=other), tag="AHU-R1")
+    report = make_report(user=supervisor, kind="compliance", parameters={"start": "2025-01-01", "end": "2025-03-31"})
+    assert report.site_ids == sorted([estate["site"].pk, other.pk])
+    text = pdf_text(report)
+    assert "2 sites" in text and "Riverside Clinic" in text and "AHU-R1" in text
+
+
+def test_site_of_another_organisation_refused(estate, supervisor, api_client):
+    """A compliance report naming another organisation's site is 404 and nothing is stored."""
+    from reports.models import Report
+
+    foreign = SiteFactory(organisation=OrganisationFactory())
+    api_client.force_authenticate(supervisor)
+    response = api_client.post(
+        "/api/reports/", {"kind": "compliance", "parameters": {"sites": [estate["site"].pk, foreign.pk]}}, format="json"
+    )
+    assert response.status_code == 404
+    assert f"sites: no site with id {foreign.pk}" in response.json()["detail"]
+    assert not Report.objects.exists()
+
+
+def test_pdfa_variant_is_archival(estate, supervisor, make_report):
+    """Asked for PDF/A, the file declares PDF/A-3B in its XMP metadata; without, it declares nothing."""
+    from .conftest import pdf_xmp
+
+    params = {"sites": [estate["site"].pk], "start": "2025-01-01", "end": "2025-03-31"}
+    archival = make_report(user=supervisor, kind="compliance", parameters=params, pdfa=True)
+    xmp = pdf_xmp(archival)
+    assert "pdfaid" in xmp
+    assert re.search(r'pdfaid:part="3"', xmp) and re.search(r'pdfaid:conformance="B"', xmp)
+    plain = make_report(user=supervisor, kind="compliance", parameters=params)
+    assert "pdfaid" not in pdf_xmp(plain)
