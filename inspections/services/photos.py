@@ -35,6 +35,8 @@ class CleanImage:
 
 
 def _mb(n: int) -> str:
+    if n < 1024 * 1024:
+        return f"{n / 1024:.0f} kB"
     return f"{n / (1024 * 1024):.1f} MB"
 
 
@@ -65,7 +67,7 @@ def image_clean(
     """
     max_bytes = settings.PLENUM_PHOTO_MAX_BYTES if max_bytes is None else max_bytes
     max_pixels = settings.PLENUM_PHOTO_MAX_PIXELS if max_pixels is None else max_pixels
-    allowed = ", ".join(sorted(k.replace("JPEG", "JPEG").lower() for k in formats))
+    allowed = ", ".join(sorted(formats))
     if len(data) > max_bytes:
         raise ValidationError({field: [f"the image is {_mb(len(data))}; at most {_mb(max_bytes)} is allowed"]})
     try:
