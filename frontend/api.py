@@ -27,7 +27,7 @@ class CalcOutput(serializers.Serializer):
     results = CalcRow(many=True)
 
 
-class ErrorOutput(serializers.Serializer):
+class CalcErrorOutput(serializers.Serializer):
     detail = serializers.CharField()
     errors = serializers.DictField(child=serializers.ListField(child=serializers.CharField()))
 
@@ -40,7 +40,7 @@ class CalcView(APIView):
         request=CalcInput,
         responses={
             200: CalcOutput,
-            400: OpenApiResponse(ErrorOutput, description="a value is missing, not a number or out of range"),
+            400: OpenApiResponse(CalcErrorOutput, description="a value is missing, not a number or out of range"),
             404: OpenApiResponse(description="no calculator of that name"),
         },
     )

@@ -1,0 +1,57 @@
+"""Playwright against Debian's Chromium (never a downloaded browser) and Django's live server."""
+
+import os
+from pathlib import Path
+
+import pytest
+
+from tests.conftest import OUTPUT_DIR, service_missing
+from tests.frontend import scenario as scenario_module
+
+# Playwright's sync API runs an event loop in the test thread; the ORM calls in tests are still synchronous.
+os.environ["DJANGO_ALLOW_ASYNC_UNSAFE"] = "true"
+
+CHROMIUM = "/usr/bin/chromium"
+CHROMIUM_ARGS = [
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+    "--no-first-run",
+    "--disable-quic",
+]
+SCREENSHOTS = OUTPUT_DIR / "screenshots"
+PHONE = {"width": 360, "height": 780}
+DESKTOP = {"width": 1280, "height": 900}
+
+
+@pytest.fixture(scope="session")
+def browser_type_launch_args(browser_type_launch_args):
+    if not Path(CHROMIUM).exists():
+        service_missing(f"Chromium is not installed at {CHROMIUM} (apt-get install chromium)")
+    return {**browser_type_launch_args, "executable_path": CHROMIUM, "args": CHROMIUM_ARGS, "headless": True}
+
+
+@pytest.fixture
+def world(transactional_db):
+    return scenario_module.build()
+
+
+@pytest.fixture
+def screenshots():
+    SCREENSHOTS.mkdir(parents=True, exist_ok=True)
+    return SCREENSHOTS
+
+
+@pytest.fixture
+def sign_in(live_server):
+    def _sign_in(page, user):
+        page.goto(f"{live_server.url}/login/")
+        page.get_by_label("Username").fill(user.username)
+        page.get_by_label("Password").fill(scenario_module.PASSWORD)
+        page.get_by_role("button", name="Sign in").click()
+        page.wait_for_load_state("load")
+        return page
+
+    return _sign_in
