@@ -17,6 +17,45 @@ def in_ci() -> bool:
     return bool(os.environ.get("CI"))
 
 
+def on_postgres() -> bool:
+    return os.environ.get("DATABASE_URL", "").startswith(("postgres://", "postgresql://"))
+
+
+def broker_configured() -> bool:
+    return bool(os.environ.get("CELERY_BROKER_URL"))
+
+
+def pytest_collection_modifyitems(config, items):
+    """Tests marked ``postgres`` or ``redis`` belong to the run configured for those services.
+
+    `.ci/run` runs the suite twice: on the embedded defaults (SQLite, Celery
+    in-process), where these tests are deselected by design, and with
+    ``DATABASE_URL`` and ``CELERY_BROKER_URL`` set, where they run — and fail,
+    under CI, if the configured service does not answer.
+    """
+    keep, dropped = [], []
+    for item in items:
+        if (item.get_closest_marker("postgres") and not on_postgres()) or (
+            item.get_closest_marker("redis") and not broker_configured()
+        ):
+            dropped.append(item)
+        else:
+            keep.append(item)
+    if dropped:
+        config.hook.pytest_deselected(items=dropped)
+        items[:] = keep
+        config._plenum_service_deselected = len(dropped)
+
+
+def pytest_terminal_summary(terminalreporter, exitstatus, config):
+    count = getattr(config, "_plenum_service_deselected", 0)
+    if count:
+        terminalreporter.write_line(
+            f"{count} tests need PostgreSQL or Redis; they run when DATABASE_URL / CELERY_BROKER_URL are set "
+            "(the second pass of .ci/run)."
+        )
+
+
 def service_missing(reason: str) -> None:
     """Skip locally; fail under CI, where every service must be there."""
     if in_ci():
