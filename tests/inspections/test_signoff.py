@@ -26,7 +26,7 @@ def stored_inspection(api_client):
 @pytest.mark.django_db
 def test_a_signed_inspection_refuses_edits(api_client):
     insp, tech = stored_inspection(api_client)
-    with pytest.raises(ValidationError, match="signed by Ana Field .* cannot be edited; add an amendment"):
+    with pytest.raises(ValidationError, match=r"signed by Ana Field .* cannot be edited; add an amendment"):
         inspection_edit(inspection=insp, by=tech, signature_name="Someone else")
     insp.signature_name = "Someone else"
     with pytest.raises(ValidationError, match="cannot be edited"):

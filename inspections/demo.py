@@ -1,0 +1,185 @@
+"""Twelve months (or more) of invented inspection history for the demo scenario.
+
+Deterministic: the random numbers are seeded from the organisation and unit,
+so the same call gives the same history. Every form goes through the real
+sync service, so evaluations, findings, corrective work orders, meter
+readings and completions are exactly what the live system would produce.
+"""
+
+from __future__ import annotations
+
+import base64
+import datetime as dt
+import io
+import random
+import uuid
+
+from PIL import Image, ImageDraw
+
+from accounts.models import Membership, Role
+from inventory.models import AHU
+from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
+from scheduling.services import task_library_install
+
+from .services.sync import inspection_submit
+
+NAMESPACE = uuid.UUID("6f1d1c52-2a55-4d0e-9a57-0c3b1d7e5a10")
+HOURS_PER_DAY = 14.0  # offices: about 14 h/day, seven days of weekday-plus-weekend running averaged (invented)
+VISIT_DAYS = 30
+
+
+def _signature_png(name: str) -> str:
+    img = Image.new("RGB", (240, 80), "white")
+    draw = ImageDraw.Draw(img)
+    draw.line([(10, 60), (60, 20), (100, 55), (150, 25), (230, 50)], fill="black", width=3)
+    draw.text((10, 64), name[:30], fill="black")
+    out = io.BytesIO()
+    img.save(out, format="PNG")
+    return "data:image/png;base64," + base64.b64encode(out.getvalue()).decode()
+
+
+def _work_order(*, ahu: AHU, organisation, technician, due: dt.date, codes: list[str],
+                targets: dict[str, list] | None = None) -> WorkOrder:
+    title = f"Monthly service {due:%Y-%m}"
+    wo = WorkOrder.objects.filter(ahu=ahu, title=title, due_date=due).first()
+    if wo is not None:
+        return wo
+    wo = WorkOrder.objects.create(organisation=organisation, ahu=ahu, title=title, due_date=due, scheduled_for=due,
+                                  assignee=technician, state=WorkOrder.State.ASSIGNED)
+    tasks = {t.code: t for t in TaskDefinition.objects.filter(organisation=None, code__in=codes)}
+    targets = targets or {}
+    WorkOrderTask.objects.bulk_create(
+        WorkOrderTask(work_order=wo, task=tasks[c], task_code=c, ahu=ahu, component=comp,
+                      component_key=comp.pk if comp else 0, due_date=due,
+                      occurrence_key=f"demo:{due:%Y-%m}:{wo.public_id.hex[:8]}")
+        for c in codes if c in tasks
+        for comp in targets.get(c, [None])
+    )
+    return wo
+
+
+def _outdoor_c(site, when: dt.date, rng: random.Random) -> float:
+    m = when.month - 1
+    return round((site.normals_min_c[m] + site.normals_max_c[m]) / 2 + rng.uniform(-3, 3), 1)
+
+
+def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict[str, int]:
+    """Monthly visits on every unit of the organisation for ``months`` months before ``today``.
+
+    Filters load with run-hours (Δp rising by about 0.02–0.04 Pa per run-hour
+    above the clean value, invented but typical) and are changed when they
+    pass about 85 % of their span; outdoor temperatures follow the site's
+    monthly normals; one unit develops a sticking outdoor-air damper and a
+    drifting CO2 sensor, which become findings with corrective work.
+    """
+    task_library_install()
+    tech_ms = (Membership.objects.filter(organisation=organisation, role=Role.TECHNICIAN)
+               .select_related("user").order_by("id").first())
+    if tech_ms is None:
+        raise ValueError(f"organisation {organisation} has no technician to sign the demo visits")
+    tech = tech_ms.user
+    sig = _signature_png(str(tech))
+    counts = {"work_orders": 0, "inspections": 0, "findings": 0}
+    ahus = AHU.objects.filter(building__site__organisation=organisation).select_related("building__site")
+    for unit_no, ahu in enumerate(ahus.order_by("id")):
+        rng = random.Random(f"{organisation.slug}:{ahu.tag}:{ahu.pk}")
+        site = ahu.building.site
+        banks = list(ahu.components.filter(kind="filter_bank").order_by("position", "id"))
+        dampers = list(ahu.components.filter(kind="damper").order_by("position", "id"))
+        sensors = list(ahu.components.filter(kind="sensor", specs__measures="co2"))
+        temp_sensors = list(ahu.components.filter(kind="sensor", specs__measures="temperature"))
+        loading = {b.pk: rng.uniform(0.0, 0.3) for b in banks}
+        rate = {b.pk: rng.uniform(0.00015, 0.00030) for b in banks}  # fraction of span per run-hour
+        hours = 5_000.0 + 1_000 * unit_no
+        change_due = set()
+        for m in range(months, 0, -1):
+            due = today - dt.timedelta(days=VISIT_DAYS * m)
+            hours += HOURS_PER_DAY * VISIT_DAYS * rng.uniform(0.9, 1.1)
+            codes = ["filter_check", "ventilation_check"]
+            if m % 3 == 0:
+                codes += ["controls_check", "damper_actuator"]
+            if m % 6 == 0 and (sensors or temp_sensors):
+                codes.append("sensor_calibration")
+            if change_due:
+                codes.append("filter_replace")
+            wo = _work_order(ahu=ahu, organisation=organisation, technician=tech, due=due, codes=codes,
+                             targets={"filter_replace": [b for b in banks if b.pk in change_due]})
+            finished = dt.datetime.combine(due, dt.time(9, 30), tzinfo=dt.UTC) + dt.timedelta(minutes=7 * unit_no)
+            readings = [{"item": "visit.run_hours", "component": None, "value": round(hours)}]
+            for b in banks:
+                clean, final = b.specs["clean_dp_pa"], b.specs["final_dp_pa"]
+                if b.pk in change_due:
+                    loading[b.pk] = 0.0
+                    after = round(clean * rng.uniform(0.98, 1.08))
+                    readings += [{"item": "filter_replace.replaced", "component": b.label_code, "value": "ok"},
+                                 {"item": "filter_replace.dp_after", "component": b.label_code, "value": after}]
+                else:
+                    loading[b.pk] += rate[b.pk] * HOURS_PER_DAY * VISIT_DAYS
+                dp = clean + loading[b.pk] * (final - clean) + rng.uniform(-3, 3)
+                readings += [
+                    {"item": "filter_check.dp", "component": b.label_code, "value": round(max(dp, 1)),
+                     "note": "loaded: change raised" if loading[b.pk] > 0.9 else ""},
+                    {"item": "filter_check.seated", "component": b.label_code, "value": "ok"},
+                    {"item": "filter_check.media", "component": b.label_code,
+                     "value": "clean" if loading[b.pk] < 0.2 else "loaded"},
+                ]
+            change_due = {b.pk for b in banks if loading[b.pk] > 0.85}
+            t_out = _outdoor_c(site, due, rng)
+            t_ret = round(22 + rng.uniform(-1, 1), 1)
+            x = max(ahu.design_min_oa_fraction, 0.1) + rng.uniform(0.02, 0.08)
+            readings += [
+                {"item": "ventilation_check.outdoor_air", "component": None, "value": t_out},
+                {"item": "ventilation_check.return_air", "component": None, "value": t_ret},
+                {"item": "ventilation_check.mixed_air", "component": None,
+                 "value": round(t_ret - x * (t_ret - t_out) + rng.uniform(-0.2, 0.2), 1)},
+            ]
+            faulty = unit_no == 0 and m <= max(months // 3, 1)
+            if "controls_check" in codes:
+                sp = ahu.supply_air_setpoint_c or 17.0
+                readings += [
+                    {"item": "controls_check.supply_air", "component": None,
+                     "value": round(sp + rng.uniform(-0.6, 0.6), 1)},
+                    {"item": "controls_check.supply_setpoint", "component": None, "value": sp},
+                    {"item": "controls_check.alarms", "component": None, "value": "ok"},
+                    {"item": "controls_check.schedule", "component": None, "value": "ok"},
+                ]
+                for d in dampers:
+                    cmd = 40
+                    pos = cmd - (14 if faulty and d.specs.get("role") == "outdoor" else rng.randint(-2, 2))
+                    readings += [
+                        {"item": "damper_actuator.command", "component": d.label_code, "value": cmd},
+                        {"item": "damper_actuator.position", "component": d.label_code, "value": pos,
+                         "note": "actuator slipping on the shaft" if cmd - pos > 10 else ""},
+                        {"item": "damper_actuator.linkage", "component": d.label_code, "value": "ok"},
+                    ]
+            if "sensor_calibration" in codes:
+                for s in sensors:
+                    ref = round(rng.uniform(650, 900))
+                    drift = 120 if faulty else rng.randint(-20, 20)
+                    readings += [
+                        {"item": "sensor_calibration.co2_sensor", "component": s.label_code, "value": ref + drift},
+                        {"item": "sensor_calibration.co2_reference", "component": s.label_code, "value": ref,
+                         "note": "reads high against the reference" if drift > 50 else ""},
+                    ]
+                for s in temp_sensors:
+                    ref = round(rng.uniform(15, 19), 1)
+                    readings += [
+                        {"item": "sensor_calibration.temp_sensor", "component": s.label_code,
+                         "value": round(ref + rng.uniform(-0.2, 0.2), 1)},
+                        {"item": "sensor_calibration.temp_reference", "component": s.label_code, "value": ref},
+                    ]
+            form = {
+                "client_uuid": str(uuid.uuid5(NAMESPACE, f"{organisation.pk}:{ahu.pk}:{due.isoformat()}")),
+                "work_order": str(wo.public_id), "work_order_version": wo.version, "unit_system": "si",
+                "started_at": (finished - dt.timedelta(minutes=50)).isoformat(),
+                "finished_at": finished.isoformat(), "readings": readings, "photos": [],
+                "signature": {"name": str(tech), "image": sig, "signed_at": finished.isoformat()},
+            }
+            result = inspection_submit(user=tech, form=form)
+            if result["status"] == "refused":
+                raise ValueError(f"demo form for {ahu.tag} {due} refused: {result['errors']}")
+            if result["status"] != "duplicate":
+                counts["work_orders"] += 1
+                counts["inspections"] += 1
+                counts["findings"] += len(result["findings"])
+    return counts
