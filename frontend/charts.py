@@ -51,14 +51,17 @@ def line_chart(
         f'<text x="{left - 6}" y="{top + 4}" text-anchor="end" fill="currentColor" font-size="11">{v1:.0f}</text>',
         f'<text x="{left - 6}" y="{bottom}" text-anchor="end" fill="currentColor" font-size="11">{v0:.0f}</text>',
         f'<text x="{left}" y="{height - 12}" fill="currentColor" font-size="11">{d0:%d %b %Y}</text>',
-        f'<text x="{right}" y="{height - 12}" text-anchor="end" fill="currentColor" font-size="11">{d1:%d %b %Y}</text>',
+        f'<text x="{right}" y="{height - 12}" text-anchor="end" fill="currentColor" font-size="11">'
+        f"{d1:%d %b %Y}</text>",
     ]
     if hline:
+        hy = y(hline[0])
         parts.append(
-            f'<line x1="{left}" y1="{y(hline[0]):.1f}" x2="{right}" y2="{y(hline[0]):.1f}" stroke="currentColor" stroke-dasharray="2 4"/>'
+            f'<line x1="{left}" y1="{hy:.1f}" x2="{right}" y2="{hy:.1f}" stroke="currentColor" stroke-dasharray="2 4"/>'
         )
         parts.append(
-            f'<text x="{right}" y="{y(hline[0]) - 4:.1f}" text-anchor="end" fill="currentColor" font-size="11">{escape(hline[1])}</text>'
+            f'<text x="{right}" y="{hy - 4:.1f}" text-anchor="end" fill="currentColor" font-size="11">'
+            f"{escape(hline[1])}</text>"
         )
     if vline:
         vx = x(vline[0].toordinal())

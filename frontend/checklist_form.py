@@ -69,6 +69,14 @@ def cautions_for(checklist: dict) -> list[str]:
     return seen
 
 
+def caution_blocks(cautions: list[str]) -> list[dict]:
+    """Safety lines first, the codes-first line last, each with its heading."""
+    codes = [c for c in cautions if "local code" in c.lower()]
+    return [{"heading": "Safety", "text": c} for c in cautions if c not in codes] + [
+        {"heading": "Codes first", "text": c} for c in codes
+    ]
+
+
 def _number(raw: str):
     try:
         return float(raw.replace(",", "."))

@@ -11,7 +11,7 @@ from inventory.selectors import component_tree
 from scheduling.models import WorkOrder
 
 from .. import backends
-from ..checklist_form import cautions_for, form_sections, payload_from_post
+from ..checklist_form import caution_blocks, cautions_for, form_sections, payload_from_post
 
 CHECKLIST_API = "/api/inspections/work-orders/{}/checklist/"
 
@@ -89,6 +89,7 @@ def checklist(request, public_id):
             "checklist": data,
             "sections": form_sections(data) if data else [],
             "cautions": cautions_for(data or {}),
+            "caution_blocks": caution_blocks(cautions_for(data or {})),
             "started_at": timezone.now().isoformat(),
             "result": result,
             "checklist_api": CHECKLIST_API.format(wo.public_id),

@@ -12,7 +12,7 @@ FOREGROUND = (244, 241, 232)
 
 def draw_icon(size: int, *, maskable: bool) -> Image.Image:
     # A maskable icon keeps its mark inside the central 80 % safe zone and fills the square edge to edge.
-    image = Image.new("RGBA", (size, size), BACKGROUND + (255,) if maskable else (0, 0, 0, 0))
+    image = Image.new("RGBA", (size, size), (*BACKGROUND, 255) if maskable else (0, 0, 0, 0))
     draw = ImageDraw.Draw(image)
     if not maskable:
         draw.rounded_rectangle([0, 0, size - 1, size - 1], radius=size // 5, fill=BACKGROUND)

@@ -1,0 +1,138 @@
+"""Staff pages: role homes, the installable shell, tenancy on every page, steady query counts."""
+
+import pytest
+from django.urls import reverse
+
+from tests.frontend.scenario import make_work
+
+pytestmark = pytest.mark.django_db
+
+
+def test_anonymous_visitor_is_sent_to_sign_in(client):
+    """A page behind sign-in redirects to the login page with the way back."""
+    response = client.get("/today/")
+    assert response.status_code == 302
+    assert response["Location"].startswith(reverse("frontend:login"))
+
+
+@pytest.mark.parametrize(
+    ("who", "target"), [("technician", "/today/"), ("supervisor", "/board/"), ("manager_a", "/dashboard/")]
+)
+def test_home_sends_each_role_to_its_page(scenario, login, who, target):
+    """Technicians land on today's visits, supervisors on the board, property managers on their dashboard."""
+    response = login(getattr(scenario, who)).get("/")
+    assert response.status_code == 302 and response["Location"] == target
+
+
+def test_service_worker_is_served_for_the_whole_scope(client):
+    """/sw.js is JavaScript, allowed to control '/', and names its cache version and precache list."""
+    response = client.get("/sw.js")
+    assert response["Content-Type"].startswith("application/javascript")
+    assert response["Service-Worker-Allowed"] == "/"
+    body = response.content.decode()
+    assert "const VERSION" in body and "/static/frontend/js/app.js" in body and "/offline/" in body
+
+
+def test_manifest_names_the_app_and_its_icons(client):
+    data = client.get("/manifest.webmanifest").json()
+    assert data["name"] == "Plenum" and data["start_url"] == "/"
+    assert {i["purpose"] for i in data["icons"]} == {"any", "maskable"}
+
+
+def test_today_lists_own_work_and_saves_it_for_offline(scenario, login):
+    """The technician sees their visit and the page names its checklist JSON for the service worker."""
+    response = login(scenario.technician).get("/today/")
+    html = response.content.decode()
+    assert "Quarterly service" in html and "Filter round" not in html
+    assert f"/api/inspections/work-orders/{scenario.work_a.public_id}/checklist/" in html
+
+
+def test_checklist_page_is_a_plain_form_with_units_and_cautions(scenario, login):
+    """The checklist works before scripts: a POST form with labelled inputs, units, camera input, cautions."""
+    html = login(scenario.technician).get(f"/w/{scenario.work_a.public_id}/").content.decode()
+    assert 'method="post"' in html and 'enctype="multipart/form-data"' in html
+    assert 'capture="environment"' in html and 'accept="image/*"' in html
+    assert '<span class="unit">Pa</span>' in html
+    assert "Lock out" in html or "lock out" in html
+    assert "Codes first" in html
+
+
+def test_checklist_of_another_technicians_work_is_not_found(scenario, login):
+    assert login(scenario.technician).get(f"/w/{scenario.work_b.public_id}/").status_code == 404
+
+
+@pytest.mark.parametrize("path", ["/dashboard/site/{site_b}/", "/u/{unit_b}/", "/w/{work_b}/"])
+def test_property_manager_cannot_open_another_site(scenario, login, path):
+    """A manager of one site gets 404 for the other site's pages, and the dashboard lists only their own."""
+    client = login(scenario.manager_a)
+    url = path.format(site_b=scenario.site_b.pk, unit_b=scenario.unit_b.label_code, work_b=scenario.work_b.public_id)
+    assert client.get(url).status_code == 404
+    html = client.get("/dashboard/").content.decode()
+    assert "Harbour House" in html and "Linden Court" not in html
+
+
+def test_supervisor_pages_refuse_other_roles(scenario, login):
+    assert login(scenario.manager_a).get("/board/").status_code == 403
+    assert login(scenario.technician).get("/registry/").status_code == 403
+
+
+def test_supervisor_assigns_from_the_board(scenario, login):
+    """Posting the board's assign form gives the work to the chosen technician."""
+    wo = make_work(ahu=scenario.unit_a, title="Belt check")
+    client = login(scenario.supervisor)
+    client.post(
+        reverse("frontend:assign", kwargs={"public_id": wo.public_id}),
+        {"assignee": scenario.technician.pk, "version": wo.version},
+    )
+    wo.refresh_from_db()
+    assert wo.assignee == scenario.technician and wo.state == "assigned"
+
+
+def test_calculator_api_answers_in_the_users_units(scenario, login):
+    """Mixed 16 °C between outdoor 0 °C and return 20 °C is 20 % outdoor air."""
+    client = login(scenario.technician)
+    response = client.post(
+        "/api/calc/oa-temperatures/",
+        {"values": {"t_outdoor_c": 0, "t_return_c": 20, "t_mixed_c": 16}},
+        content_type="application/json",
+    )
+    assert response.status_code == 200
+    assert response.json()["results"][0]["value"] == pytest.approx(20.0)
+
+
+def test_calculator_api_names_a_bad_field(scenario, login):
+    client = login(scenario.technician)
+    response = client.post(
+        "/api/calc/sensible-heat/",
+        {"values": {"airflow_m3s": "lots", "t_in_c": 10, "t_out_c": 20}},
+        content_type="application/json",
+    )
+    assert response.status_code == 400
+    assert "airflow_m3s" in response.json()["errors"]
+
+
+def test_calculator_page_works_without_scripts(scenario, login):
+    html = login(scenario.technician).post(
+        "/calc/",
+        {"calculator": "oa-co2", "co2_outdoor_ppm": "400", "co2_return_ppm": "900", "co2_supply_or_mixed_ppm": "800"},
+    )
+    assert "20.0 %" in html.content.decode()
+
+
+@pytest.mark.parametrize(
+    ("who", "path"),
+    [("technician", "/today/"), ("supervisor", "/board/"), ("supervisor", "/registry/"), ("manager_a", "/dashboard/")],
+)
+def test_list_pages_use_a_steady_number_of_queries(scenario, login, django_assert_max_num_queries, who, path):
+    """Ten more work orders do not add queries to the list pages."""
+    client = login(getattr(scenario, who))
+    client.get(path)
+    from django.db import connection
+    from django.test.utils import CaptureQueriesContext
+
+    with CaptureQueriesContext(connection) as before:
+        client.get(path)
+    for _ in range(10):
+        make_work(ahu=scenario.unit_a, assignee=scenario.technician, title="More work")
+    with django_assert_max_num_queries(len(before.captured_queries)):
+        assert client.get(path).status_code == 200
