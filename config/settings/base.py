@@ -54,6 +54,7 @@ INSTALLED_APPS = [
     "inspections",
     "reports",
     "frontend",
+    "bench",  # benchmark generator command only; no models
 ]
 
 MIDDLEWARE = [

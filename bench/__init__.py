@@ -1,0 +1,1 @@
+"""Benchmarks at portfolio scale: a synthetic data generator and a harness (``python -m bench``)."""

@@ -1,0 +1,156 @@
+"""``python -m bench [--large] [--runs N]`` (``make bench``): every scenario at two sizes.
+
+Each size runs in its own process against its own throwaway database: a
+temporary SQLite file by default, or — when ``DATABASE_URL`` names a
+PostgreSQL server — a ``plenum_bench`` database created on that server and
+dropped afterwards. The developer's own database is never touched. Results go
+to ``bench/results.json`` and ``bench/results.md``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import datetime as dt
+import json
+import os
+import platform
+import shutil
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+from urllib.parse import urlsplit, urlunsplit
+
+from .results import results_markdown
+
+HERE = Path(__file__).resolve().parent
+ROOT = HERE.parent
+SMALL = [50, 200]
+LARGE = [500, 5000]
+PG_BENCH_DB = "plenum_bench"
+
+
+def sites_for(ahus: int) -> int:
+    return max(5, ahus // 10)
+
+
+def _pg_admin(url: str):
+    import psycopg
+
+    return psycopg.connect(url, autocommit=True)
+
+
+def _pg_url(url: str, dbname: str) -> str:
+    parts = urlsplit(url)
+    return urlunsplit((parts.scheme, parts.netloc, "/" + dbname, parts.query, parts.fragment))
+
+
+class Database:
+    """A fresh database for one size; removed on exit."""
+
+    def __init__(self, *, server_url: str | None, scratch: Path):
+        self.server_url = server_url
+        self.scratch = scratch
+
+    @property
+    def vendor(self) -> str:
+        return "postgresql" if self.server_url else "sqlite"
+
+    def __enter__(self) -> str:
+        if self.server_url:
+            with _pg_admin(self.server_url) as conn:
+                conn.execute(f'DROP DATABASE IF EXISTS "{PG_BENCH_DB}" WITH (FORCE)')
+                conn.execute(f'CREATE DATABASE "{PG_BENCH_DB}"')
+            return _pg_url(self.server_url, PG_BENCH_DB)
+        path = self.scratch / "bench.sqlite3"
+        path.unlink(missing_ok=True)
+        return f"sqlite:///{path}"
+
+    def __exit__(self, *exc) -> None:
+        if self.server_url:
+            with _pg_admin(self.server_url) as conn:
+                conn.execute(f'DROP DATABASE IF EXISTS "{PG_BENCH_DB}" WITH (FORCE)')
+        else:
+            for suffix in ("", "-wal", "-shm", "-journal"):
+                (self.scratch / f"bench.sqlite3{suffix}").unlink(missing_ok=True)
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(prog="python -m bench", description=__doc__.split("\n\n")[0])
+    parser.add_argument("--large", action="store_true", help=f"sizes {LARGE} units instead of {SMALL}")
+    parser.add_argument("--sizes", help="comma-separated unit counts, e.g. 50,200 (overrides --large)")
+    parser.add_argument("--runs", type=int, default=3, help="runs per figure; the median is reported")
+    parser.add_argument("--sync-forms", type=int, default=1000)
+    parser.add_argument("--years", type=int, default=2)
+    parser.add_argument("--out", default=str(HERE), help="folder for results.md and results.json")
+    args = parser.parse_args(argv)
+
+    sizes = [int(s) for s in args.sizes.split(",")] if args.sizes else (LARGE if args.large else SMALL)
+    env_url = os.environ.get("DATABASE_URL", "")
+    server_url = env_url if env_url.startswith(("postgres://", "postgresql://")) else None
+    out_dir = Path(args.out)
+    out_dir.mkdir(parents=True, exist_ok=True)
+    scratch = Path(tempfile.mkdtemp(prefix="plenum-bench-"))
+    started = time.perf_counter()
+    runs = []
+    try:
+        for ahus in sizes:
+            print(f"bench: {ahus} units on {'PostgreSQL' if server_url else 'SQLite'} …", flush=True)
+            child_out = scratch / f"size-{ahus}.json"
+            with Database(server_url=server_url, scratch=scratch) as db_url:
+                env = {
+                    **os.environ,
+                    "DATABASE_URL": db_url,
+                    "BENCH_SCRATCH": str(scratch),
+                    "DJANGO_SETTINGS_MODULE": "bench.settings",
+                    "DATABASE_CONN_MAX_AGE": "60",
+                }
+                cmd = [
+                    sys.executable,
+                    "-m",
+                    "bench.run",
+                    "--ahus",
+                    str(ahus),
+                    "--sites",
+                    str(sites_for(ahus)),
+                    "--years",
+                    str(args.years),
+                    "--runs",
+                    str(args.runs),
+                    "--sync-forms",
+                    str(args.sync_forms),
+                    "--out",
+                    str(child_out),
+                ]
+                t0 = time.perf_counter()
+                proc = subprocess.run(cmd, cwd=ROOT, env=env, check=False)
+                took = round(time.perf_counter() - t0, 1)
+            if proc.returncode != 0 or not child_out.exists():
+                runs.append({"ahus": ahus, "sites": sites_for(ahus), "error": f"bench.run exited {proc.returncode}"})
+            else:
+                result = json.loads(child_out.read_text())
+                result["wall_s"] = took
+                runs.append(result)
+            log = child_out.with_suffix(".gunicorn.log")
+            if log.exists() and log.stat().st_size:
+                print(f"bench: gunicorn said:\n{log.read_text()[-2000:]}", flush=True)
+    finally:
+        shutil.rmtree(scratch, ignore_errors=True)
+
+    document = {
+        "generated_at": dt.datetime.now(dt.UTC).replace(microsecond=0).isoformat(),
+        "database": "postgresql" if server_url else "sqlite",
+        "machine": {"cpus": os.cpu_count(), "python": platform.python_version(), "platform": platform.platform()},
+        "runs_per_figure": args.runs,
+        "total_s": round(time.perf_counter() - started, 1),
+        "sizes": runs,
+    }
+    (out_dir / "results.json").write_text(json.dumps(document, indent=1, default=str) + "\n")
+    (out_dir / "results.md").write_text(results_markdown(document))
+    print(f"bench: wrote {out_dir / 'results.md'} and results.json in {document['total_s']} s", flush=True)
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,254 @@
+"""``bench/results.md`` from the figures: one table per scenario, one row per size, each target judged plainly."""
+
+from __future__ import annotations
+
+import math
+
+MET, MISSED = "met", "**MISSED**"
+
+
+def _verdict(ok: bool | None) -> str:
+    if ok is None:
+        return "—"
+    return MET if ok else MISSED
+
+
+def _num(value, fmt: str = "{:.3f}") -> str:
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return "—"
+    return fmt.format(value)
+
+
+def _skipped(section: dict | None) -> str | None:
+    if section is None:
+        return "not run: the harness did not reach this scenario"
+    if "not_run" in section:
+        return f"not run: {section['not_run']}"
+    if "error" in section:
+        return f"not run: error — {section['error']}"
+    return None
+
+
+def _growth(sizes: list[dict], getter) -> str:
+    """How a figure grows from the smallest to the largest size, beside how the unit count grows."""
+    points = []
+    for s in sizes:
+        try:
+            value = getter(s)
+        except (KeyError, TypeError):
+            value = None
+        if value:
+            points.append((s["ahus"], value))
+    if len(points) < 2:
+        return ""
+    (a0, v0), (a1, v1) = points[0], points[-1]
+    return f"Growth from {a0} to {a1} units (×{a1 / a0:g}): ×{v1 / v0:.2f}."
+
+
+def results_markdown(doc: dict) -> str:
+    sizes = [s for s in doc["sizes"] if "error" not in s]
+    lines = [
+        "# Benchmark results",
+        "",
+        f"Generated {doc['generated_at']} by `make bench` on {doc['database']} "
+        f"({doc['machine']['cpus']} CPUs, Python {doc['machine']['python']}); median of "
+        f"{doc['runs_per_figure']} runs per figure; whole run {doc['total_s']} s.",
+        "Every figure is a ratio to a baseline measured in the same run, on the same database. "
+        "A target that is not reached says **MISSED**; targets are as set in issue 8 and are not relaxed.",
+        "",
+    ]
+    for s in doc["sizes"]:
+        if "error" in s:
+            lines += [f"- {s['ahus']} units: not run: {s['error']}", ""]
+    lines += [
+        "## Portfolio",
+        "",
+        "| units | sites | components | inspections | readings | findings | meter readings "
+        "| outdoor temperatures | generate s | whole size s |",
+        "|---|---|---|---|---|---|---|---|---|---|",
+    ]
+    for s in sizes:
+        p = s.get("portfolio", {})
+        lines.append(
+            f"| {s['ahus']} (+{p.get('ahus', 0) - s['ahus']} other org) | {s['sites']} | "
+            f"{p.get('components')} | {p.get('inspections')} | {p.get('readings')} | {p.get('findings')} | "
+            f"{p.get('meter_readings')} | {p.get('outdoor_temperatures')} | {s.get('generate_s')} | "
+            f"{s.get('wall_s', '—')} |"
+        )
+    lines += [
+        "",
+        *_work_orders(sizes),
+        "",
+        *_load(sizes, doc),
+        "",
+        *_sync(sizes),
+        "",
+        *_reports(sizes),
+        "",
+        *_shell(sizes),
+        "",
+    ]
+    return "\n".join(lines)
+
+
+def _work_orders(sizes: list[dict]) -> list[str]:
+    out = [
+        "## Work-order generation (whole portfolio, 90-day horizon)",
+        "",
+        "Baseline: inserting the same number of work-order and task rows with one `bulk_create` each, in one "
+        "transaction. Targets: first run ≤ 3× baseline; second (idempotent) run < 20 % of the first and "
+        "creates nothing.",
+        "",
+        "| units | rows (orders + tasks) | baseline s | first s | first ÷ baseline | ≤ 3× | second s | "
+        "second ÷ first | < 20 % | second run created |",
+        "|---|---|---|---|---|---|---|---|---|---|",
+    ]
+    for s in sizes:
+        w = s.get("work_order_generation")
+        why = _skipped(w)
+        if why:
+            out.append(f"| {s['ahus']} | {why} |||||||||")
+            continue
+        t = w["targets"]
+        out.append(
+            f"| {s['ahus']} | {w['rows']['work_orders']} + {w['rows']['work_order_tasks']} | "
+            f"{_num(w['baseline_s'])} | {_num(w['first_s'])} | {_num(w['first_over_baseline'], '{:.2f}')}× | "
+            f"{_verdict(t['first_over_baseline <= 3'])} | {_num(w['second_s'])} | "
+            f"{_num(w['second_over_first'] * 100, '{:.1f}')} % | {_verdict(t['second_over_first < 0.2'])} | "
+            f"{w['second_run_created']} ({_verdict(t['second run creates nothing'])}) |"
+        )
+    growth = _growth(sizes, lambda s: s["work_order_generation"]["first_s"])
+    return out + (["", f"First run: {growth}"] if growth else [])
+
+
+def _load(sizes: list[dict], doc: dict) -> list[str]:
+    out = [
+        "## Technician's today and supervisor's board under concurrent clients",
+        "",
+        "gunicorn (sync workers) on 127.0.0.1 against the bench database; each client thread sends a bounded "
+        "number of GETs with a token. Baseline: a bare Django JSON view in the same server "
+        "(`/bench/baseline/`, no database). Targets: throughput ≥ 50 % of the baseline's and p95 < 100 ms, "
+        "at 5,000 units on PostgreSQL; at other sizes and on SQLite the same targets are judged as a guide.",
+        "",
+        "| units | endpoint | clients | requests | errors | req/s | ÷ baseline | ≥ 50 % | p50 ms | p95 ms | < 100 ms |",
+        "|---|---|---|---|---|---|---|---|---|---|---|",
+    ]
+    for s in sizes:
+        ld = s.get("load")
+        why = _skipped(ld)
+        if why:
+            out.append(f"| {s['ahus']} | {why} ||||||||||")
+            continue
+        for name in ("today", "board", "baseline"):
+            r = ld[name]
+            ratio = r.get("throughput_over_baseline")
+            out.append(
+                f"| {s['ahus']} | {name} | {ld['clients']} | {r['requests']} | {r['errors']} | "
+                f"{_num(r['throughput_rps'], '{:.1f}')} | {_num(ratio, '{:.3f}') if ratio is not None else '1'} | "
+                f"{_verdict(ratio >= 0.5) if ratio is not None else '—'} | {_num(r['p50_ms'], '{:.1f}')} | "
+                f"{_num(r['p95_ms'], '{:.1f}')} | {_verdict(r['p95_ms'] < 100) if name != 'baseline' else '—'} |"
+            )
+        errs = [f"{n}: {ld[n]['first_error']}" for n in ("today", "board", "baseline") if ld[n].get("first_error")]
+        if errs:
+            out.append(f"| {s['ahus']} | first errors: {'; '.join(errs)[:300]} ||||||||||")
+    samples = [
+        f"{s['ahus']} units: today {s['load'].get('today_visits_sample')} visits for one technician, "
+        f"board {s['load'].get('board_sample')}"
+        for s in sizes
+        if s.get("load") and not _skipped(s["load"])
+    ]
+    if samples:
+        out += ["", "What the answers held: " + "; ".join(samples) + "."]
+    for name in ("today", "board"):
+        growth = _growth(sizes, lambda s, n=name: s["load"][n]["p95_ms"])
+        if growth:
+            out.append(f"{name} p95: {growth}")
+    return out
+
+
+def _sync(sizes: list[dict]) -> list[str]:
+    out = [
+        "## Sync endpoint: 1,000 forms, then the same 1,000 replayed",
+        "",
+        "Forms are built from each work order's checklist as the phone builds them, 50 to a request, one "
+        "technician a request, posted one request after another. Baseline: the same bodies posted to the bare "
+        "JSON view (it parses them). Targets: the replay is faster than the first post and stores nothing.",
+        "",
+        "| units | forms | first s | per form ms | first ÷ baseline | replay s | replay ÷ first | faster | "
+        "stored first | stored on replay | nothing new | statuses |",
+        "|---|---|---|---|---|---|---|---|---|---|---|---|",
+    ]
+    for s in sizes:
+        y = s.get("sync")
+        why = _skipped(y)
+        if why:
+            out.append(f"| {s['ahus']} | {why} |||||||||||")
+            continue
+        base = y["baseline_s"] or float("nan")
+        out.append(
+            f"| {s['ahus']} | {y['forms']} | {_num(y['first_s'])} | {_num(y['first_s'] * 1000 / y['forms'], '{:.1f}')} "
+            f"| {_num(y['first_s'] / base, '{:.0f}')}× | {_num(y['replay_s'])} | "
+            f"{_num(y['replay_s'] / y['first_s'], '{:.3f}')} | {_verdict(y['replay_s'] < y['first_s'])} | "
+            f"{y['stored_first']} | {y['stored_replay']} | {_verdict(y['stored_replay'] == 0)} | "
+            f"first {y['statuses_first']}, replay {y['statuses_replay']} |"
+        )
+        if y.get("first_refusal"):
+            out.append(f"| {s['ahus']} | first refusal: {str(y['first_refusal'])[:300]} |||||||||||")
+    return out
+
+
+def _reports(sizes: list[dict]) -> list[str]:
+    out = [
+        "## PDF reports",
+        "",
+        "Time to request and render through `reports.services.report_request` (the render task runs "
+        "in-process). Baseline: `reports.rendering.pdf_render` of a one-page minimal HTML with the same "
+        "WeasyPrint. No numeric target is set; the ratio is the figure to watch.",
+        "",
+        "| units | report | pages | seconds | ÷ baseline | status |",
+        "|---|---|---|---|---|---|",
+    ]
+    for s in sizes:
+        r = s.get("reports")
+        why = _skipped(r)
+        if why:
+            out.append(f"| {s['ahus']} | {why} |||||")
+            continue
+        out.append(f"| {s['ahus']} | baseline (minimal one page) | 1 | {_num(r['baseline_s'])} | 1 | — |")
+        for kind in ("inspection", "compliance"):
+            k = r.get(kind) or {"not_run": "missing"}
+            label = kind if kind == "inspection" else f"compliance, {r['compliance_units']} units"
+            if "not_run" in k:
+                out.append(f"| {s['ahus']} | {label} | not run: {k['not_run']} ||||")
+            else:
+                status = k["status"] + (f" ({k['error']})" if k.get("error") else "")
+                out.append(
+                    f"| {s['ahus']} | {label} | {k['pages']} | {_num(k['seconds'])} | "
+                    f"{_num(k['over_baseline'], '{:.1f}')}× | {status} |"
+                )
+    return out
+
+
+def _shell(sizes: list[dict]) -> list[str]:
+    out = [
+        "## PWA app shell, first load",
+        "",
+        "Bytes a phone downloads on first load, without photos: the technician's first page, `/sw.js` and "
+        "everything in its precache list; text gzip-compressed (level 9, as whitenoise stores it), images as "
+        "they are. Target: < 150 kB (150,000 bytes).",
+        "",
+    ]
+    shell = next((s.get("pwa_shell") for s in reversed(sizes) if s.get("pwa_shell")), None)
+    why = _skipped(shell)
+    if why:
+        return [*out, why]
+    out += ["| file | bytes | transferred |", "|---|---|---|"]
+    for f in shell["files"]:
+        out.append(f"| {f['path']}{' (missing)' if f.get('missing') else ''} | {f['bytes']} | {f['transferred']} |")
+    total = shell["transferred_bytes"]
+    out += [
+        f"| **total** | {shell['total_bytes']} | **{total}** |",
+        "",
+        f"{total / 1000:.1f} kB transferred against 150 kB: {_verdict(total < 150_000)}.",
+    ]
+    return out

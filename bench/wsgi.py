@@ -1,0 +1,8 @@
+"""WSGI entry point of a benchmark server: bench settings, bench URLconf (config.urls + /bench/baseline/)."""
+
+import os
+
+from django.core.wsgi import get_wsgi_application
+
+os.environ.setdefault("DJANGO_SETTINGS_MODULE", "bench.settings")
+application = get_wsgi_application()
