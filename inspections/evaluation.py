@@ -291,8 +291,8 @@ def _oa_checks(form: Form, consumed: set) -> list[Result]:
             continue
         chk = outdoor_air.fraction_check(fraction=frac.fraction, uncertainty=frac.uncertainty,
                                          minimum=ahu.design_min_oa_fraction)
-        verdict, reasons = chk.verdict, [f"by {label}: {chk.reason}, design minimum"]
-        reasons[0] += f" ({oa_q * 1000:.0f} L/s outdoor air)"
+        verdict = chk.verdict
+        reasons = [f"by {label}: {chk.reason} (design minimum; {oa_q * 1000:.0f} L/s outdoor air)"]
         if required_q is not None and q > 0:
             res.derived["required_outdoor_airflow_m3s"] = round(required_q, 3)
             need = min(required_q / q, 1.0)
