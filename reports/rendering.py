@@ -74,6 +74,12 @@ def image_thumbnail_data_uri(data: bytes, *, max_px: int = 480) -> str | None:
     try:
         with Image.open(io.BytesIO(data)) as img:
             img = ImageOps.exif_transpose(img)
+            if img.mode in ("RGBA", "LA", "P"):
+                # Transparent areas (a signature pad's background) become paper white, not black.
+                img = img.convert("RGBA")
+                flat = Image.new("RGB", img.size, (255, 255, 255))
+                flat.paste(img, mask=img.getchannel("A"))
+                img = flat
             img = img.convert("RGB")
             img.thumbnail((max_px, max_px))
             out = io.BytesIO()
@@ -81,6 +87,18 @@ def image_thumbnail_data_uri(data: bytes, *, max_px: int = 480) -> str | None:
     except (UnidentifiedImageError, OSError, ValueError):
         return None
     return "data:image/jpeg;base64," + base64.b64encode(out.getvalue()).decode("ascii")
+
+
+def stored_file_data_uri(field, *, max_px: int = 480) -> str | None:
+    """A stored image file (photo, signature) as a thumbnail data URI; None when missing or unreadable."""
+    if not field:
+        return None
+    try:
+        with field.open("rb") as fh:
+            data = fh.read()
+    except (OSError, ValueError):
+        return None
+    return image_thumbnail_data_uri(data, max_px=max_px)
 
 
 def html_render(*, template: str, context: dict, title: str, generated_at: datetime, subject: str = "") -> str:

@@ -1,11 +1,269 @@
-"""Placeholder until the document is written."""
+"""Inspection report for one work order: the record of a visit, for the client's file.
+
+Readings are shown in the reader's units (the requester's unit system, stored
+with the report so the text never changes), with verdicts and reasons,
+derived values, photos, findings and the corrective work they opened,
+signatures, verification, amendments and the safety cautions.
+"""
+
+from __future__ import annotations
 
 from django.core.exceptions import ValidationError
+from django.db.models import Prefetch
+from django.http import Http404
+
+from inspections import checklists
+from inspections.models import Amendment, Evaluation, Finding, Inspection, Photo, Reading, Verdict
+from inspections.selectors import work_orders_visible_to
+from reports.rendering import html_render, stored_file_data_uri
+from scheduling.models import WorkOrder, WorkOrderTask
+
+from . import Built, Prepared
+from .common import shown, unit_system
+
+CHECK_VALUES = {"ok": "OK", "not_ok": "Not OK", "na": "N/A"}
+VERDICTS = dict(Verdict.choices)
+# Names for the derived values the evaluation stores; keys name their SI unit.
+DERIVED_NAMES = {
+    "dp_pa": "measured pressure drop",
+    "corrected_dp_pa": "pressure drop at design airflow",
+    "clean_dp_pa": "clean pressure drop",
+    "final_dp_pa": "final pressure drop",
+    "loading_pct": "loading",
+    "airflow_m3s": "airflow",
+    "design_airflow_m3s": "design airflow",
+    "airflow_source": "airflow from",
+    "forecast_change_date": "change forecast",
+    "forecast_earliest_date": "earliest",
+    "forecast_latest_date": "latest",
+    "forecast_run_hours": "forecast at run-hours",
+    "rate_pa_per_hour": "loading rate",
+    "points_used": "readings used",
+    "oa_fraction": "outdoor-air fraction",
+    "design_min_oa_fraction": "design minimum",
+    "supply_air_c": "supply air",
+    "setpoint_c": "set point",
+    "deviation_k": "deviation",
+    "static_pa": "duct static",
+    "setpoint_pa": "set point",
+    "air_side_w": "air-side heat",
+    "water_side_w": "water-side heat",
+    "difference_pct": "difference",
+}
 
 
-def prepare(*, user, parameters: dict, requested_at):
-    raise ValidationError({"kind": "not available yet"})
+def prepare(*, user, parameters: dict, requested_at) -> Prepared:
+    raw = parameters.get("work_order")
+    try:
+        wo = work_orders_visible_to(user=user).filter(public_id=str(raw)).first() if raw else None
+    except ValidationError:
+        wo = None  # not a UUID
+    if raw in (None, ""):
+        raise ValidationError({"work_order": "work_order: the work order's public id is required"})
+    if wo is None:
+        raise Http404(f"work_order: no work order {raw} among those you may see")
+    return Prepared(
+        parameters={"work_order": str(wo.public_id), "unit_system": unit_system(parameters, user)},
+        site_ids=[wo.ahu.building.site_id],
+        organisation_id=wo.organisation_id,
+    )
 
 
-def build(*, report):
-    raise NotImplementedError
+def derived_rows(derived: dict, system: str) -> list[tuple[str, str]]:
+    """(name, value in the reader's units) for each derived value, in a stable order."""
+    out = []
+    for key in sorted(derived):
+        value = derived[key]
+        if key in {"forecast_note"} or value is None:
+            continue
+        name = DERIVED_NAMES.get(key, key.replace("_", " "))
+        if isinstance(value, bool) or not isinstance(value, int | float):
+            out.append((name, str(value)))
+        elif key == "rate_pa_per_hour":
+            out.append((name, shown(value, "pressure", system, decimals=4 if system == "us" else 3) + "/h"))
+        elif key.endswith("oa_fraction"):
+            out.append((name, f"{value * 100:.0f} %"))
+        elif key.endswith("_pct"):
+            out.append((name, f"{value:.1f} %"))
+        elif key.endswith("_pa"):
+            out.append((name, shown(value, "pressure", system)))
+        elif key.endswith("_c"):
+            out.append((name, shown(value, "temperature", system)))
+        elif key.endswith("_k"):
+            out.append((name, shown(value, "temperature_difference", system)))
+        elif key.endswith("_w"):
+            out.append((name, shown(value, "heat_rate", system)))
+        elif key.endswith("_m3s"):
+            out.append((name, shown(value, "water_flow" if "water" in key else "airflow", system)))
+        else:
+            out.append((name, f"{value:g}"))
+    return out
+
+
+def reading_value(reading: Reading, system: str) -> str:
+    item = reading.item
+    if reading.value_text == "na":
+        return "N/A"
+    if item.kind == item.Kind.NUMBER:
+        if reading.value_si is None:
+            return "—"
+        value = checklists.to_display(reading.value_si, item.quantity, system)
+        label = checklists.display_unit_label(item.quantity, system)
+        decimals = item.decimals
+        if system == "us" and item.quantity == "pressure":
+            decimals = max(decimals, 2)
+        return f"{value:.{decimals}f} {label}".strip()
+    if item.kind == item.Kind.CHECK:
+        return CHECK_VALUES.get(reading.value_text, reading.value_text)
+    if item.kind == item.Kind.CHOICE:
+        labels = {c.get("value"): c.get("label") for c in item.choices or []}
+        return labels.get(reading.value_text, reading.value_text)
+    return reading.value_text or "—"
+
+
+def _inspections(wo: WorkOrder) -> list[Inspection]:
+    return list(
+        Inspection.objects.filter(work_order=wo)
+        .select_related("technician", "verified_by")
+        .prefetch_related(
+            Prefetch(
+                "readings",
+                queryset=Reading.objects.select_related("item__template", "component").order_by(
+                    "item__template__code", "item__position", "component__position", "pk"
+                ),
+            ),
+            Prefetch("evaluations", queryset=Evaluation.objects.select_related("component").order_by("pk")),
+            Prefetch(
+                "findings",
+                queryset=Finding.objects.select_related("component", "corrective_work_order").order_by(
+                    "opened_at", "pk"
+                ),
+            ),
+            Prefetch("photos", queryset=Photo.objects.select_related("component").order_by("uploaded_at", "pk")),
+            Prefetch(
+                "amendments", queryset=Amendment.objects.select_related("created_by").order_by("created_at", "pk")
+            ),
+        )
+        .order_by("finished_at", "pk")
+    )
+
+
+def build(*, report) -> Built:
+    p = report.parameters
+    system = p["unit_system"]
+    wo = WorkOrder.objects.select_related("organisation", "ahu__building__site", "assignee").get(
+        public_id=p["work_order"]
+    )
+    tasks = list(
+        WorkOrderTask.objects.filter(work_order=wo)
+        .select_related("task", "component")
+        .order_by("task__category", "task__code", "pk")
+    )
+    visits = []
+    components: dict[int, object] = {}
+    template_cautions: list[str] = []
+    for insp in _inspections(wo):
+        groups: dict[str, list] = {}
+        for r in insp.readings.all():
+            if r.component_id:
+                components[r.component_id] = r.component
+            groups.setdefault(r.item.template.title, []).append(
+                {
+                    "label": r.item.label,
+                    "component": r.component,
+                    "value": reading_value(r, system),
+                    "verdict": VERDICTS.get(r.verdict, ""),
+                    "verdict_code": r.verdict,
+                    "reason": r.reason,
+                    "note": r.note,
+                    "improbable": r.improbable,
+                }
+            )
+        for r in insp.readings.all():
+            for c in r.item.template.cautions or []:
+                if c not in template_cautions:
+                    template_cautions.append(c)
+        visits.append(
+            {
+                "inspection": insp,
+                "groups": list(groups.items()),
+                "evaluations": [
+                    {
+                        "e": e,
+                        "verdict": VERDICTS.get(e.verdict, e.verdict),
+                        "check": e.check_name.replace("_", " ").capitalize(),
+                        "derived": derived_rows(e.derived or {}, system),
+                    }
+                    for e in insp.evaluations.all()
+                ],
+                "findings": list(insp.findings.all()),
+                "photos": [
+                    {"p": ph, "src": stored_file_data_uri(ph.thumbnail or ph.image, max_px=360)}
+                    for ph in insp.photos.all()
+                ],
+                "signature": stored_file_data_uri(insp.signature_image, max_px=400),
+                "amendments": [{"a": a, "changes": _changes(a, system)} for a in insp.amendments.all()],
+            }
+        )
+    task_notes = []
+    for t in tasks:
+        if t.task.safety_notes and t.task.safety_notes not in task_notes:
+            task_notes.append(t.task.safety_notes)
+    ahu = wo.ahu
+    title = f"Inspection report — {ahu.tag}, {ahu.building.site.name}, {wo.title}"
+    html = html_render(
+        template="reports/inspection.html",
+        context={
+            "wo": wo,
+            "ahu": ahu,
+            "site": ahu.building.site,
+            "organisation": wo.organisation,
+            "tasks": tasks,
+            "visits": visits,
+            "components": sorted(components.values(), key=lambda c: (c.position, c.pk)),
+            "task_notes": task_notes,
+            "template_cautions": template_cautions,
+            "system_label": "US customary (in. w.c., °F, cfm)" if system == "us" else "SI (Pa, °C, L/s)",
+        },
+        title=title,
+        generated_at=report.created_at,
+        subject=f"Record of work order {wo.public_id}",
+    )
+    return Built(html=html, title=title)
+
+
+def _changes(amendment: Amendment, system: str) -> list[str]:
+    """Each change of an amendment as one line: item, before → after (numbers in the reader's units)."""
+    from inspections.models import ChecklistItem
+
+    lines = []
+    for change in amendment.changes or []:
+        if not isinstance(change, dict):
+            lines.append(str(change))
+            continue
+        key = str(change.get("item", ""))
+        quantity, decimals = "", 1
+        if "." in key:
+            code, item_key = key.split(".", 1)
+            item = (
+                ChecklistItem.objects.filter(template__code=code, key=item_key).order_by("-template__version").first()
+            )
+            quantity = item.quantity if item else ""
+            decimals = max(item.decimals, 2 if system == "us" and quantity == "pressure" else 0) if item else 1
+
+        before = _change_value(change.get("before"), quantity, decimals, system)
+        after = _change_value(change.get("after"), quantity, decimals, system)
+        line = f"{key}: {before} → {after}"
+        if change.get("note"):
+            line += f" ({change['note']})"
+        lines.append(line)
+    return lines
+
+
+def _change_value(value, quantity: str, decimals: int, system: str) -> str:
+    if isinstance(value, dict):
+        value = value.get("value_si", value.get("value", value))
+    if isinstance(value, int | float) and not isinstance(value, bool) and quantity:
+        shown_value = checklists.to_display(value, quantity, system)
+        return f"{shown_value:.{decimals}f} {checklists.display_unit_label(quantity, system)}".strip()
+    return "—" if value in (None, "") else str(value)
