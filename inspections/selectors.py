@@ -100,10 +100,13 @@ class Checklist:
     work_order: WorkOrder
     templates: list[ChecklistTemplate]
     slots: list[Slot]
+    _by_key: dict | None = field(default=None, repr=False)
 
     def by_key(self) -> dict[tuple[str, str | None], Slot]:
         """Slots by (api key, component label code or None), as the phone names them."""
-        return {(s.item.api_key, s.component.label_code if s.component else None): s for s in self.slots}
+        if self._by_key is None:
+            self._by_key = {(s.item.api_key, s.component.label_code if s.component else None): s for s in self.slots}
+        return self._by_key
 
 
 def _matches(component: Component, item: ChecklistItem) -> bool:

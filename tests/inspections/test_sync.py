@@ -308,3 +308,15 @@ def test_batch_over_fifty_forms_is_a_400(api_client, db):
     assert res.status_code == 400
     assert "forms" in res.json()["errors"]
 
+
+
+@pytest.mark.django_db
+def test_checklist_query_count_does_not_grow_with_items(api_client, django_assert_max_num_queries):
+    """No N+1: the full checklist of a unit with every task is a handful of queries."""
+    from tests.flows.test_inspection_visit import ALL_TASKS
+
+    wo, tech = make_visit(tasks=ALL_TASKS)
+    api_client.force_authenticate(tech)
+    api_client.get(f"/api/inspections/work-orders/{wo.public_id}/checklist/")  # installs the library once
+    with django_assert_max_num_queries(12):
+        assert api_client.get(f"/api/inspections/work-orders/{wo.public_id}/checklist/").status_code == 200
