@@ -1,0 +1,71 @@
+"""The whole invented demo, chained: registry, a year of history, the schedule, today's assignments.
+
+Each step is idempotent, so ``load_demo`` can run on every ``make run``.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from typing import Any
+
+from django.db import transaction
+from django.utils import timezone
+
+from accounts.models import Membership, Role
+from inspections.demo import demo_history_load
+from inventory.demo import demo_registry_load
+from scheduling.demo import demo_schedule_load
+from scheduling.models import WorkOrder
+from scheduling.services import work_order_assign
+
+# Open work due within this many days is handed to the demo technicians, so a
+# technician who signs in sees a day's round at once.
+ASSIGN_AHEAD_DAYS = 10
+
+
+def demo_load(*, today: dt.date | None = None) -> dict[str, Any]:
+    """Load the demo and return what the command prints: counts and the logins."""
+    today = today or timezone.localdate()
+    registry = demo_registry_load()
+    summary: dict[str, Any] = {"registry": registry, "history": {}, "generated": {}, "assigned": 0}
+    for organisation in registry["organisations"].values():
+        if not organisation.sites.exists():
+            continue
+        summary["history"][organisation.slug] = demo_history_load(organisation=organisation, today=today)
+        summary["generated"][organisation.slug] = demo_schedule_load(organisation=organisation, today=today)
+        summary["assigned"] += _assign_upcoming(organisation=organisation, today=today)
+    return summary
+
+
+@transaction.atomic
+def _assign_upcoming(*, organisation, today: dt.date) -> int:
+    """Give unassigned work due soon to the organisation's technicians, one site per technician."""
+    technicians = [
+        m.user
+        for m in Membership.objects.filter(organisation=organisation, role=Role.TECHNICIAN)
+        .select_related("user")
+        .order_by("user__username")
+    ]
+    supervisor = (
+        Membership.objects.filter(organisation=organisation, role=Role.SUPERVISOR).select_related("user").first()
+    )
+    if not technicians or supervisor is None:
+        return 0
+    site_ids = sorted(organisation.sites.values_list("pk", flat=True))
+    owner = {site_id: technicians[n % len(technicians)] for n, site_id in enumerate(site_ids)}
+    open_orders = (
+        WorkOrder.objects.filter(
+            organisation=organisation,
+            state=WorkOrder.State.PLANNED,
+            assignee__isnull=True,
+            due_date__lte=today + dt.timedelta(days=ASSIGN_AHEAD_DAYS),
+        )
+        .exclude(kind=WorkOrder.Kind.CORRECTIVE, approval="pending")
+        .select_related("ahu__building")
+        .order_by("due_date", "id")
+    )
+    count = 0
+    for wo in open_orders:
+        work_order_assign(work_order=wo, assignee=owner[wo.ahu.building.site_id], by=supervisor.user)
+        count += 1
+    return count
