@@ -83,6 +83,9 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--runs", type=int, default=3, help="runs per figure; the median is reported")
     parser.add_argument("--sync-forms", type=int, default=1000)
     parser.add_argument("--years", type=int, default=2)
+    parser.add_argument("--clients", type=int, default=20, help="concurrent clients of the load scenario")
+    parser.add_argument("--per-client", type=int, default=25, help="requests each client sends (bounded)")
+    parser.add_argument("--max-seconds", type=float, default=20.0, help="time bound of one load loop")
     parser.add_argument("--out", default=str(HERE), help="folder for results.md and results.json")
     args = parser.parse_args(argv)
 
@@ -120,6 +123,12 @@ def main(argv: list[str] | None = None) -> int:
                     str(args.runs),
                     "--sync-forms",
                     str(args.sync_forms),
+                    "--clients",
+                    str(args.clients),
+                    "--per-client",
+                    str(args.per_client),
+                    "--max-seconds",
+                    str(args.max_seconds),
                     "--out",
                     str(child_out),
                 ]

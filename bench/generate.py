@@ -759,7 +759,10 @@ def _org_build(
     counts["work_orders_history"] = counts.get("work_orders_history", 0) + len(wos)
 
     inspections = []
-    for wo, (ahu, tech, _q, _due, done) in zip(wos, plan, strict=True):
+    for n, (wo, (ahu, tech, q, _due, done)) in enumerate(zip(wos, plan, strict=True)):
+        # One in ten of the latest visits is left flagged for a supervisor, as real rounds leave some.
+        flagged = q == 1 and n % 10 == 0
+        flags = [{"code": "improbable_value", "reason": "a reading outside the plausible range"}] if flagged else []
         inspections.append(
             Inspection(
                 client_uuid=uuid.UUID(int=rng.getrandbits(128), version=4),
@@ -767,7 +770,9 @@ def _org_build(
                 work_order=wo,
                 ahu=ahu,
                 technician=tech,
-                state=Inspection.State.VERIFIED,
+                state=Inspection.State.SUBMITTED if flagged else Inspection.State.VERIFIED,
+                flags=flags,
+                flag_reason=flags[0]["reason"] if flags else "",
                 template_versions={"visit": 1, "filter_check": 1},
                 unit_system="si",
                 work_order_version_seen=4,
@@ -779,8 +784,8 @@ def _org_build(
                 signature_name=str(tech),
                 signature_image="signatures/bench.png",
                 signed_at=done,
-                verified_at=done + dt.timedelta(days=1),
-                verified_by=supervisor,
+                verified_at=None if flagged else done + dt.timedelta(days=1),
+                verified_by=None if flagged else supervisor,
             )
         )
     inspections = _bulk(Inspection, inspections)
@@ -876,12 +881,14 @@ def _org_build(
 
 
 def portfolio_generate(
-    *, sites: int, ahus: int, years: int = 2, seed: int = 1, today: dt.date | None = None
+    *, sites: int, ahus: int, years: int = 2, seed: int = 1, today: dt.date | None = None, prefix: str = ""
 ) -> Portfolio:
     """Write a synthetic portfolio of ``sites`` sites and ``ahus`` units for one organisation, plus a
     second, twentieth-sized organisation (to see that tenancy holds at scale).
 
-    Installs the shipped task and checklist libraries first (idempotent).
+    Installs the shipped task and checklist libraries first (idempotent). ``prefix`` keeps the usernames
+    and organisation slugs of two portfolios in one database apart (``main-supervisor`` without it,
+    ``<prefix>-main-supervisor`` with it).
     """
     from accounts.models import Organisation
     from inspections.services.library import checklist_library_install
@@ -899,11 +906,12 @@ def portfolio_generate(
     with transaction.atomic():
         task_library_install()
         checklist_library_install()
-        main = Organisation.objects.create(name="Bench Air Services", slug=f"bench-main-{seed}")
-        other = Organisation.objects.create(name="Bench Other Contractor", slug=f"bench-other-{seed}")
+        head = f"{prefix}-" if prefix else ""
+        main = Organisation.objects.create(name="Bench Air Services", slug=f"{head}bench-main-{seed}")
+        other = Organisation.objects.create(name="Bench Other Contractor", slug=f"{head}bench-other-{seed}")
         main_summary = _org_build(
             org=main,
-            slug="main",
+            slug=f"{head}main",
             n_sites=sites,
             n_ahus=ahus,
             years=years,
@@ -915,7 +923,7 @@ def portfolio_generate(
         )
         other_summary = _org_build(
             org=other,
-            slug="other",
+            slug=f"{head}other",
             n_sites=max(1, sites // 20),
             n_ahus=max(1, ahus // 20),
             years=years,

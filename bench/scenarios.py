@@ -75,6 +75,8 @@ def work_order_generation(*, portfolio: Portfolio, runs: int) -> dict:
         after_second = (WorkOrder.objects.count(), WorkOrderTask.objects.count())
         second_created.append(sum(after_second) - sum(before_second))
         rows = {"work_orders": n_wo, "work_order_tasks": n_task}
+        if not n_wo:
+            raise NotRun("the first generation run created no work orders, so there is nothing to compare")
 
         def baseline(n_wo=n_wo, n_task=n_task, run=run) -> None:
             with transaction.atomic():

@@ -1,0 +1,82 @@
+"""``python -m bench`` end to end at a tiny size: every scenario runs and the results files are written."""
+
+import json
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+from bench.results import results_markdown
+
+ROOT = Path(__file__).resolve().parents[2]
+
+
+def test_a_tiny_run_writes_both_results_files(tmp_path):
+    """Each scenario reports figures (or says plainly why it did not run); markdown and JSON agree."""
+    env = {k: v for k, v in os.environ.items() if k not in {"DATABASE_URL", "DJANGO_SETTINGS_MODULE"}}
+    cmd = [
+        sys.executable,
+        "-m",
+        "bench",
+        "--sizes",
+        "3",
+        "--runs",
+        "1",
+        "--sync-forms",
+        "10",
+        "--clients",
+        "2",
+        "--per-client",
+        "3",
+        "--max-seconds",
+        "5",
+        "--out",
+        str(tmp_path),
+    ]
+    proc = subprocess.run(cmd, cwd=ROOT, env=env, capture_output=True, text=True, timeout=240, check=False)
+    assert proc.returncode == 0, proc.stdout[-2000:] + proc.stderr[-2000:]
+    doc = json.loads((tmp_path / "results.json").read_text())
+    assert doc["database"] == "sqlite"
+    (size,) = doc["sizes"]
+    for name in ("work_order_generation", "load", "sync", "reports", "pwa_shell"):
+        assert name in size and "error" not in size[name], (name, size.get(name))
+    assert size["sync"]["stored_replay"] == 0
+    assert size["sync"]["stored_first"] == 10
+    md = (tmp_path / "results.md").read_text()
+    assert md == results_markdown(doc)
+    assert "## Work-order generation" in md and "## PWA app shell" in md
+
+
+def test_a_missed_target_is_said_plainly():
+    """A first generation run over 3× its baseline shows MISSED, and a scenario that could not run says why."""
+    size = {
+        "ahus": 10,
+        "sites": 5,
+        "portfolio": {"ahus": 11},
+        "work_order_generation": {
+            "rows": {"work_orders": 5, "work_order_tasks": 9},
+            "first_s": 4.0,
+            "second_s": 0.1,
+            "baseline_s": 1.0,
+            "first_over_baseline": 4.0,
+            "second_over_first": 0.025,
+            "second_run_created": 0,
+            "targets": {
+                "first_over_baseline <= 3": False,
+                "second_over_first < 0.2": True,
+                "second run creates nothing": True,
+            },
+        },
+        "load": {"not_run": "URL 'scheduling_api:today' does not exist yet"},
+    }
+    doc = {
+        "generated_at": "2025-03-03T00:00:00+00:00",
+        "database": "sqlite",
+        "runs_per_figure": 3,
+        "total_s": 1,
+        "machine": {"cpus": 2, "python": "3.11"},
+        "sizes": [size],
+    }
+    md = results_markdown(doc)
+    assert "| 4.00× | **MISSED** |" in md
+    assert "not run: URL 'scheduling_api:today' does not exist yet" in md
