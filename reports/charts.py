@@ -95,7 +95,7 @@ def time_series(
             ax.fill_between(band[0], band[1], band[2], color=LATE_C, alpha=0.35, linewidth=0, label="Forecast range")
         for y, name in hlines:
             ax.axhline(y, color="#333333", linewidth=0.8, linestyle=":")
-            ax.annotate(name, xy=(1, y), xycoords=("axes fraction", "data"), ha="right", va="bottom", fontsize=7)
+            ax.annotate(name, xy=(0.01, y), xycoords=("axes fraction", "data"), ha="left", va="bottom", fontsize=7)
         for x, name in markers:
             ax.axvline(x, color="#777777", linewidth=0.6)
             ax.annotate(
@@ -104,5 +104,5 @@ def time_series(
         ax.set_ylabel(y_label)
         ax.xaxis.set_major_formatter(mdates.DateFormatter("%Y-%m-%d"))
         fig.autofmt_xdate()
-        ax.legend(loc="upper left", frameon=False, fontsize=7)
+        ax.legend(loc="best", frameon=True, framealpha=0.9, edgecolor="#cccccc", fontsize=7)
         return _svg(fig)

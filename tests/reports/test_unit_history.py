@@ -1,0 +1,116 @@
+"""Unit history: work orders, readings and findings of one unit over a period, with trend charts."""
+
+import datetime as dt
+
+import pytest
+from django.http import Http404
+
+from accounts.models import Role
+from engineering.filters import FilterPoint, filter_forecast
+from reports.services import report_request
+from tests.factories.accounts import OrganisationFactory, make_person
+from tests.factories.inventory import BuildingFactory, make_full_unit
+
+from . import builders as b
+from .conftest import pdf_text, rasterise
+
+pytestmark = pytest.mark.django_db
+# Monthly visits: run-hours and the final filters' pressure drop at design airflow (3.0 m³/s) rising.
+VISITS = [
+    ("2025-01-15", 1000, 120.0, 18.0),
+    ("2025-02-15", 1500, 140.0, 17.5),
+    ("2025-03-15", 2000, 160.0, 19.4),
+    ("2025-04-15", 2500, 181.0, 16.2),
+    ("2025-05-15", 3000, 200.0, 17.1),
+]
+
+
+@pytest.fixture
+def history(site):
+    lib = b.library()
+    ahu = make_full_unit(building=BuildingFactory(site=site), tag="AHU-05")
+    final = ahu.components.get(name="Final filters")
+    tech = make_person(organisation=site.organisation, role=Role.TECHNICIAN, first_name="Ana", last_name="Field")
+    for day, hours, dp, supply in VISITS:
+        wo = b.preventive(ahu, lib["filter_check"], day, done=day, title=f"Monthly check {day[:7]}")
+        insp = b.inspection(wo, tech, finished=day)
+        b.reading(insp, "visit.run_hours", value_si=hours)
+        b.reading(insp, "filter_check.dp", component=final, value_si=dp, verdict="ok")
+        b.evaluation(
+            insp,
+            "filter_loading",
+            "filter_check.dp",
+            component=final,
+            verdict="ok",
+            reason="ok",
+            derived={"dp_pa": dp, "airflow_m3s": 3.0, "design_airflow_m3s": 3.0, "corrected_dp_pa": dp},
+        )
+        ev = b.evaluation(
+            insp,
+            "supply_temperature",
+            "controls_check.supply_air",
+            verdict="fail" if abs(supply - 17) > 2 else "ok",
+            reason=f"supply {supply} °C",
+            derived={"supply_air_c": supply, "setpoint_c": 17.0},
+        )
+        if abs(supply - 17) > 2:
+            b.finding(insp, ev, severity="medium", title="Supply air off set point", opened=day)
+    return ahu
+
+
+def test_history_lists_everything_with_forecast(history, supervisor, make_report):
+    """Every visit's work order and reading is listed; the filter chart carries the engineering forecast date."""
+    report = make_report(
+        user=supervisor,
+        kind="unit_history",
+        parameters={"unit": history.pk, "start": "2025-01-01", "end": "2025-06-30"},
+    )
+    rasterise(report, "unit-history-si")
+    text = pdf_text(report)
+    flat = " ".join(text.split())
+    expected = filter_forecast(
+        points=[
+            FilterPoint(run_hours=h, dp_pa=dp, airflow_m3s=3.0, when=dt.date.fromisoformat(d)) for d, h, dp, _ in VISITS
+        ],
+        design_airflow_m3s=3.0,
+        final_dp_pa=250,
+    )
+    assert f"forecast for {expected.date_at_final:%Y-%m-%d}" in flat
+    for day, *_ in VISITS:
+        assert f"Monthly check {day[:7]}" in text
+    assert "5 work orders, 5 visits, 10 readings, 1 finding" in flat
+    assert "Supply air off set point" in text
+    assert "200 Pa" in text and "Filter pressure drop — Final filters" in text
+    assert "Pre-filters" in text and "No filter readings in the period." in flat
+
+
+def test_history_in_us_units(history, us_supervisor, make_report):
+    report = make_report(
+        user=us_supervisor,
+        kind="unit_history",
+        parameters={"unit": history.pk, "start": "2025-01-01", "end": "2025-06-30"},
+    )
+    rasterise(report, "unit-history-us")
+    text = pdf_text(report)
+    assert "0.80 in. w.c." in text and "Pressure drop (in. w.c.)" in text
+    assert "Deviation (Δ°F)" in text
+    assert "6357 cfm" in text  # 3.0 m³/s design supply airflow
+
+
+def test_period_limits_the_listing(history, supervisor, make_report):
+    """Only the period's visits are listed (earlier ones still feed the forecast)."""
+    report = make_report(
+        user=supervisor,
+        kind="unit_history",
+        parameters={"unit": history.pk, "start": "2025-04-01", "end": "2025-05-31"},
+    )
+    flat = " ".join(pdf_text(report).split())
+    assert "2 work orders, 2 visits, 4 readings, 0 findings" in flat
+    assert "Monthly check 2025-01" not in flat
+    assert "forecast for" in flat
+
+
+def test_unit_of_another_organisation_refused(history):
+    outsider = make_person(organisation=OrganisationFactory(), role=Role.SUPERVISOR)
+    with pytest.raises(Http404, match="unit"):
+        report_request(user=outsider, kind="unit_history", parameters={"unit": history.pk})
