@@ -54,7 +54,9 @@ class WorkOrderTransitionError(ValidationError):
 
 
 def _locked(work_order: WorkOrder, expected_version: int | None) -> WorkOrder:
-    fresh = WorkOrder.objects.select_for_update().select_related("ahu__building__site").get(pk=work_order.pk)
+    fresh = (
+        WorkOrder.objects.select_for_update(of=("self",)).select_related("ahu__building__site").get(pk=work_order.pk)
+    )
     if expected_version is not None and fresh.version != expected_version:
         raise WorkOrderConflict(work_order=fresh, expected_version=expected_version)
     return fresh
@@ -355,7 +357,7 @@ def corrective_work_order_reject(
 def overdue_escalation_send(*, organisation, today: dt.date, repeat_days: int = 7) -> int:
     """E-mail the supervisors the open work that is overdue; each order at most once every ``repeat_days``."""
     qs = (
-        WorkOrder.objects.select_for_update()
+        WorkOrder.objects.select_for_update(of=("self",))
         .filter(organisation=organisation, state__in=WorkOrder.OPEN_STATES, overdue_on__lte=today)
         .exclude(escalated_on__gt=today - dt.timedelta(days=repeat_days))
         .select_related("ahu__building__site", "assignee")

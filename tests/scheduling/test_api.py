@@ -112,7 +112,7 @@ def test_calendar_feed_lists_assigned_visits_and_revoked_token_is_404(client, wo
     feed = calendar_feed_issue(user=world["tech"])
     r = client.get(f"/calendar/{feed.token}.ics")
     assert r.status_code == 200 and r["Content-Type"].startswith("text/calendar")
-    events = [c for c in Calendar.from_ical(r.content).walk("VEVENT")]
+    events = list(Calendar.from_ical(r.content).walk("VEVENT"))
     assert len(events) == 1
     assert events[0]["uid"] == f"{wo.public_id}@plenum"
     assert events[0].decoded("dtstart") == wo.due_date
