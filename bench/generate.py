@@ -759,9 +759,11 @@ def _org_build(
     counts["work_orders_history"] = counts.get("work_orders_history", 0) + len(wos)
 
     inspections = []
-    for n, (wo, (ahu, tech, q, _due, done)) in enumerate(zip(wos, plan, strict=True)):
-        # One in ten of the latest visits is left flagged for a supervisor, as real rounds leave some.
-        flagged = q == 1 and n % 10 == 0
+    latest_visits = 0
+    for wo, (ahu, tech, q, _due, done) in zip(wos, plan, strict=True):
+        # One in five of the latest visits (the first of them always) is left flagged for a supervisor.
+        flagged = q == 1 and latest_visits % 5 == 0
+        latest_visits += q == 1
         flags = [{"code": "improbable_value", "reason": "a reading outside the plausible range"}] if flagged else []
         inspections.append(
             Inspection(
@@ -792,6 +794,7 @@ def _org_build(
     counts["inspections"] = counts.get("inspections", 0) + len(inspections)
 
     readings, evaluations, eval_meta = [], [], []
+    latest_banks = 0
     dp_item, seated, media, run_item = (
         items[("filter_check", "dp")],
         items.get(("filter_check", "seated")),
@@ -812,6 +815,11 @@ def _org_build(
         for comp in filters_by_ahu.get(ahu.pk, []):
             clean, final = comp.specs["clean_dp_pa"], comp.specs["final_dp_pa"]
             loading = ((visits - q) % 4 + rng.random()) / 4  # filters loaded over a year, then changed
+            if q == 1:
+                # Every fourth bank on the latest visit (the first always) is at its change value: open findings.
+                if latest_banks % 4 == 0:
+                    loading = 0.97
+                latest_banks += 1
             dp = round(clean + loading * (final - clean), 0)
             verdict = "fail" if loading > 0.95 else ("watch" if loading > 0.75 else "ok")
             readings.append(
@@ -847,6 +855,33 @@ def _org_build(
     _bulk(Reading, readings)
     counts["readings"] = counts.get("readings", 0) + len(readings)
     evaluations = _bulk(Evaluation, evaluations)
+    # An open finding has its corrective work proposed, awaiting a supervisor's approval.
+    proposals = [
+        WorkOrder(
+            public_id=uuid.UUID(int=rng.getrandbits(128), version=4),
+            organisation=org,
+            ahu=ahu,
+            component=comp,
+            kind=WorkOrder.Kind.CORRECTIVE,
+            approval=WorkOrder.Approval.PENDING,
+            title=f"Replace {comp.name.lower()}",
+            reason=ev.reason,
+            condition_code="filter_loaded",
+            source_ref=f"inspection {insp.pk}",
+            due_date=today + dt.timedelta(days=7),
+            overdue_on=today + dt.timedelta(days=14),
+        )
+        for ev, (insp, ahu, comp, q) in zip(evaluations, eval_meta, strict=True)
+        if q == 1
+    ]
+    proposal_of = dict(
+        zip(
+            [ev.pk for ev, m in zip(evaluations, eval_meta, strict=True) if m[3] == 1],
+            _bulk(WorkOrder, proposals),
+            strict=True,
+        )
+    )
+    counts["corrective_proposed"] = counts.get("corrective_proposed", 0) + len(proposals)
     findings = []
     for ev, (insp, ahu, comp, q) in zip(evaluations, eval_meta, strict=True):
         closed = q > 1
@@ -864,6 +899,7 @@ def _org_build(
                 state=Finding.State.CLOSED if closed else Finding.State.OPEN,
                 opened_at=insp.finished_at,
                 closed_at=insp.finished_at + dt.timedelta(days=14) if closed else None,
+                corrective_work_order=proposal_of.get(ev.pk),
             )
         )
     _bulk(Finding, findings)

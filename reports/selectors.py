@@ -30,5 +30,9 @@ def reports_visible_to(*, user: User, limit: int = 100) -> list[Report]:
     """The person's recent reports that they may still open, newest first."""
     visible = set(sites_visible_to(user=user).values_list("pk", flat=True))
     orgs = user.memberships.values("organisation_id")
-    candidates = Report.objects.filter(organisation_id__in=orgs).order_by("-created_at", "-id")[: limit * 3]
+    candidates = (
+        Report.objects.filter(organisation_id__in=orgs)
+        .select_related("requested_by")
+        .order_by("-created_at", "-id")[: limit * 3]
+    )
     return [r for r in candidates if r.site_ids and set(r.site_ids) <= visible][:limit]
