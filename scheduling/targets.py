@@ -19,8 +19,7 @@ def _spec_matches(specs: dict, wanted: dict) -> bool:
     return True
 
 
-def component_applies(*, task, ahu, component) -> bool:
-    """Whether ``task`` is done on ``component`` of ``ahu``."""
+def _applies(targets: list[dict], ahu, component) -> bool:
     if (
         ahu.full_outdoor_air
         and component.kind == "damper"
@@ -29,12 +28,19 @@ def component_applies(*, task, ahu, component) -> bool:
         return False
     return any(
         component.kind == target["kind"] and _spec_matches(component.specs or {}, target.get("specs") or {})
-        for target in task.targets()
+        for target in targets
     )
+
+
+def component_applies(*, task, ahu, component) -> bool:
+    """Whether ``task`` is done on ``component`` of ``ahu``."""
+    return _applies(task.targets(), ahu, component)
 
 
 def task_targets(*, task, ahu, components: Iterable) -> list:
     """The components the task is done on; ``[None]`` for a unit-level task; ``[]`` when it does not apply."""
     if not task.component_kind:
         return [None]
-    return [c for c in components if component_applies(task=task, ahu=ahu, component=c)]
+    targets = task.targets()
+    kinds = {t["kind"] for t in targets}
+    return [c for c in components if c.kind in kinds and _applies(targets, ahu, c)]
