@@ -14,6 +14,8 @@ from typing import Any
 from django.core.exceptions import ValidationError
 from django.http import Http404
 
+MAX_ID = 2**63 - 1  # the database's largest key; bigger numbers cannot name a row
+
 
 @dataclass(frozen=True)
 class Prepared:
@@ -34,7 +36,9 @@ def id_list(parameters: dict, name: str, *, required: bool = False) -> list[int]
     raw = parameters.get(name, [])
     if raw in (None, ""):
         raw = []
-    if not isinstance(raw, list) or not all(isinstance(x, int) and not isinstance(x, bool) and x > 0 for x in raw):
+    if not isinstance(raw, list) or not all(
+        isinstance(x, int) and not isinstance(x, bool) and 0 < x <= MAX_ID for x in raw
+    ):
         raise ValidationError({name: f"{name}={raw!r}: expected a list of ids (positive whole numbers)"})
     if required and not raw:
         raise ValidationError({name: f"{name}: give at least one id"})
@@ -43,7 +47,7 @@ def id_list(parameters: dict, name: str, *, required: bool = False) -> list[int]
 
 def one_id(parameters: dict, name: str) -> int:
     raw = parameters.get(name)
-    if not isinstance(raw, int) or isinstance(raw, bool) or raw <= 0:
+    if not isinstance(raw, int) or isinstance(raw, bool) or not 0 < raw <= MAX_ID:
         raise ValidationError({name: f"{name}={raw!r}: expected the id (a positive whole number)"})
     return raw
 

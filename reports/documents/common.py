@@ -28,7 +28,7 @@ DECIMALS = {
 
 def unit_system(parameters: dict, user) -> str:
     raw = parameters.get("unit_system") or getattr(user, "unit_system", "si") or "si"
-    if raw not in UNIT_SYSTEMS:
+    if not isinstance(raw, str) or raw not in UNIT_SYSTEMS:
         raise ValidationError({"unit_system": f"unit_system={raw!r}: allowed are si, us"})
     return raw
 

@@ -91,7 +91,7 @@ def prepare(*, user, parameters: dict, requested_at) -> Prepared:
     if len(unit_ids) + len(component_ids) > MAX_LABELS:
         raise ValidationError({"units": f"at most {MAX_LABELS} labels on one sheet run"})
     layout = parameters.get("layout") or "a4-3x8"
-    if layout not in LAYOUTS:
+    if not isinstance(layout, str) or layout not in LAYOUTS:
         raise ValidationError({"layout": f"layout={layout!r}: allowed are {', '.join(sorted(LAYOUTS))}"})
     units = list(
         inv.ahus_visible_to(user=user)

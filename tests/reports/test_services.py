@@ -159,3 +159,24 @@ def test_download_needs_sign_in(client, supervisor, unit, make_report):
     report = make_report(user=supervisor, kind="labels", parameters={"units": [unit.pk]})
     response = client.get(report.get_absolute_url())
     assert response.status_code == 302
+
+
+@pytest.mark.parametrize(
+    ("kind", "parameters", "field"),
+    [
+        ("labels", {"units": [2**70]}, "units"),
+        ("labels", {"units": "UNIT", "layout": ["a4-3x8"]}, "layout"),
+        ("compliance", {"unit_system": {"x": 1}}, "unit_system"),
+        ("compliance", {"start": "last week"}, "start"),
+        ("labels", {"units": [True]}, "units"),
+        ("unit_history", {"unit": "UNIT", "start": "2025-05-01", "end": "2025-01-01"}, "end"),
+        ("inspection", {}, "work_order"),
+    ],
+)
+def test_odd_inputs_are_400_not_500(api_client, supervisor, unit, kind, parameters, field):
+    """Huge ids, lists where a word is expected, booleans as ids, bad dates: a 400 naming the field, never a crash."""
+    parameters = {k: ([unit.pk] if k == "units" else unit.pk) if v == "UNIT" else v for k, v in parameters.items()}
+    api_client.force_authenticate(supervisor)
+    response = api_client.post("/api/reports/", {"kind": kind, "parameters": parameters}, format="json")
+    assert response.status_code == 400, response.content
+    assert field in response.json()["errors"]
