@@ -1,6 +1,7 @@
 """The supervisor's desk pages: board and assignment, registry, rules per unit, findings, corrective work, flags."""
 
 import datetime as dt
+import uuid
 
 from django.contrib import messages
 from django.contrib.auth.decorators import login_required
@@ -263,7 +264,10 @@ def corrective(request):
         kind=WorkOrder.Kind.CORRECTIVE, approval=WorkOrder.Approval.PENDING
     )
     if request.method == "POST":
-        wo = pending.filter(public_id=request.POST.get("work_order", "")).first()
+        try:
+            wo = pending.filter(public_id=uuid.UUID(request.POST.get("work_order", ""))).first()
+        except ValueError:  # not a UUID: the same answer as an unknown one, not a server error
+            wo = None
         if wo is None:
             raise Http404("No such proposed work order that you manage.")
         try:
@@ -290,7 +294,8 @@ def flagged(request):
         .prefetch_related(Prefetch("findings"))
     )
     if request.method == "POST":
-        form = forms.filter(pk=request.POST.get("inspection", "") or 0).first()
+        raw = request.POST.get("inspection", "")
+        form = forms.filter(pk=int(raw)).first() if raw.isdigit() else None
         if form is None:
             raise Http404("No such flagged form that you may resolve.")
         try:
