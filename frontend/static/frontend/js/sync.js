@@ -29,14 +29,23 @@ async function postBatch(url, items) {
   return (await response.json()).results || [];
 }
 
-async function apply(item, result) {
+// Only these answers say the server holds the form (inspections/SYNC.md); any other answer keeps it.
+export const KEPT_BY_SERVER = ["stored", "flagged", "duplicate"];
+
+export async function apply(item, result) {
   if (result.status === "refused") {
     // Nothing was saved: keep the form, show why, resend later with the same client UUID.
     await outboxPut({ ...item, state: "refused", errors: result.errors || {}, tried_at: new Date().toISOString() });
-    return;
+    return false;
+  }
+  if (!KEPT_BY_SERVER.includes(result.status)) {
+    // An answer this phone does not know (or a per-form server error): keep the form and send it again later.
+    await outboxPut({ ...item, state: "waiting", tried_at: new Date().toISOString() });
+    return false;
   }
   await resultPut({ ...result, work_order: item.form.work_order, received_at: new Date().toISOString() });
   await outboxDelete(item.client_uuid);
+  return true;
 }
 
 async function replay(url) {
