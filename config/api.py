@@ -1,9 +1,21 @@
 """API glue shared by every app: one error shape that names the field."""
 
+import logging
+
 from django.core.exceptions import ValidationError as DjangoValidationError
+from django.db import DatabaseError, DataError, IntegrityError, NotSupportedError, ProgrammingError
 from rest_framework import exceptions, status
 from rest_framework.response import Response
 from rest_framework.views import exception_handler as drf_exception_handler
+from rest_framework.views import set_rollback
+
+logger = logging.getLogger(__name__)
+# These say the code or the data is wrong; sending again would not help, so they stay server errors.
+BUGS_NOT_OUTAGES = (IntegrityError, DataError, ProgrammingError, NotSupportedError)
+DATABASE_BUSY = (
+    "The database could not store this just now ({kind}); nothing that was not confirmed stored was saved. "
+    "Keep the data and send it again in a moment."
+)
 
 
 def exception_handler(exc, context):
@@ -12,6 +24,16 @@ def exception_handler(exc, context):
     Services raise Django's ValidationError (with a field dict); the API answers
     ``{"errors": {field: [message, ...]}, "detail": "..."}``.
     """
+    if isinstance(exc, DatabaseError) and not isinstance(exc, BUGS_NOT_OUTAGES):
+        # A refused or lost database write is the server's trouble, not the phone's: 503 and a retry hint,
+        # so an offline outbox keeps the form (inspections/SYNC.md) instead of showing a bare 500.
+        logger.exception("database refused a write")
+        set_rollback()
+        return Response(
+            {"detail": DATABASE_BUSY.format(kind=type(exc).__name__), "errors": {}},
+            status=status.HTTP_503_SERVICE_UNAVAILABLE,
+            headers={"Retry-After": "30"},
+        )
     if isinstance(exc, DjangoValidationError):
         if hasattr(exc, "error_dict"):
             errors = {field: [str(m) for m in msgs] for field, msgs in exc.message_dict.items()}
