@@ -22,7 +22,10 @@ from engineering.errors import EngineeringInputError
 from engineering.fans import expected_flow_at_speed
 from engineering.filters import FilterPoint
 from engineering.psychro import pressure_from_altitude
+from inspections import reasons as rs
 from inspections.checklists import storage_unit_label
+from inspections.reasons import q as qty
+from inspections.reasons import span
 
 OK, WATCH, FAIL, NA = "ok", "watch", "fail", "na"
 
@@ -50,6 +53,13 @@ ITEM_CONDITIONS = {
 # Sensor accuracy when the registry gives none (common practice, from memory):
 # NDIR CO2 ±(50 ppm + 3 % of reading); duct temperature ±0.5 K; RH ±3 points;
 # differential pressure ±(5 Pa + 2 % of reading).
+COIL_TOLERANCE_PCT = 10.0  # air vs water side, field instruments: common practice
+DRIFT_QUANTITIES = {  # (quantity of the readings, quantity of their difference)
+    "co2": ("co2", "co2"),
+    "temp": ("temperature", "temperature_difference"),
+    "rh": ("relative_humidity", "relative_humidity"),
+    "pressure": ("pressure", "pressure"),
+}
 DRIFT_DEFAULTS = {
     "co2": (50.0, 3.0, "ppm"),
     "temp": (0.5, 0.0, "°C"),
@@ -78,6 +88,20 @@ class Result:
     method: str = ""
     derived: dict[str, Any] = field(default_factory=dict)
     condition_code: str = ""
+    # The reason as text and quantities (inspections.reasons), for readers in other units.
+    parts: list = field(default_factory=list)
+
+    def say(self, *pieces) -> None:
+        """Set the reason from text and quantity parts; ``reason`` is their SI rendering."""
+        self.parts = rs.flatten(*pieces)
+        self.reason = rs.render(self.parts, "si")
+
+    @property
+    def reason_parts(self) -> list:
+        # A reason set as plain text (no quantities) is its own single part.
+        if self.parts and rs.render(self.parts, "si") == self.reason:
+            return self.parts
+        return [self.reason] if self.reason else []
 
     @property
     def severity(self) -> str:
@@ -165,7 +189,7 @@ def _reading_result(slot, value: Value) -> Result | None:
         )
         res.check = "limits"
         res.verdict = check.verdict.value
-        res.reason = check.reason
+        res.say(_band_parts(it, value.number, lim, check.verdict.value))
         res.method = "reading against its band; " + (it.limits_source or "common practice")
         res.derived = {"value": value.number, **{k: v for k, v in lim.items() if v is not None and "_m" in k}}
         return res
@@ -174,6 +198,21 @@ def _reading_result(slot, value: Value) -> Result | None:
 
 def _unit(quantity: str) -> str:
     return storage_unit_label(quantity)
+
+
+def _band_parts(it, x: float, lim: dict, verdict: str) -> list:
+    """The words of engineering.controls.band_check, with the numbers as quantities."""
+    d = it.decimals
+    ok_lo, ok_hi = lim.get("ok_min"), lim.get("ok_max")
+    w_lo = lim.get("watch_min") if lim.get("watch_min") is not None else ok_lo
+    w_hi = lim.get("watch_max") if lim.get("watch_max") is not None else ok_hi
+    head = [f"{it.label.lower()} ", qty(x, it.quantity, d)]
+    if verdict == OK:
+        return [*head, " is within ", span(ok_lo, ok_hi, it.quantity, d)]
+    if verdict == WATCH:
+        return [*head, " is outside ", span(ok_lo, ok_hi, it.quantity, d), " but within ",
+                span(w_lo, w_hi, it.quantity, d)]
+    return [*head, " is outside ", span(w_lo, w_hi, it.quantity, d)]
 
 
 # ---------------------------------------------------------------------------
@@ -231,9 +270,9 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
                 })
                 res.method += "; forecast: " + fc.method
                 forecast_text = f"; change forecast {_fmt_date(fc.date_at_final)}"
-        res.reason = (f"{bank.name}: filter at {pct:.0f} % of its span after correcting to design airflow "
-                      f"({loading.corrected_dp_pa:.0f} Pa at design, clean {specs['clean_dp_pa']:g} Pa, final "
-                      f"{specs['final_dp_pa']:g} Pa){forecast_text}")
+        res.say(f"{bank.name}: filter at {pct:.0f} % of its span after correcting to design airflow (",
+                qty(loading.corrected_dp_pa, "pressure"), " at design, clean ", qty(specs["clean_dp_pa"], "pressure"),
+                ", final ", qty(specs["final_dp_pa"], "pressure"), f"){forecast_text}")
         out.append(res)
     return out
 
@@ -292,17 +331,17 @@ def _oa_checks(form: Form, consumed: set) -> list[Result]:
         chk = outdoor_air.fraction_check(fraction=frac.fraction, uncertainty=frac.uncertainty,
                                          minimum=ahu.design_min_oa_fraction)
         verdict = chk.verdict
-        reasons = [f"by {label}: {chk.reason} (design minimum; {oa_q * 1000:.0f} L/s outdoor air)"]
+        parts = [f"by {label}: {chk.reason} (design minimum; ", qty(oa_q, "airflow"), " outdoor air)"]
         if required_q is not None and q > 0:
             res.derived["required_outdoor_airflow_m3s"] = round(required_q, 3)
             need = min(required_q / q, 1.0)
             req = outdoor_air.fraction_check(fraction=frac.fraction, uncertainty=frac.uncertainty, minimum=need)
             verdict = controls.worst(verdict, req.verdict)
-            reasons.append(f"ventilation requirement {required_q * 1000:.0f} L/s (ASHRAE 62.1 ventilation rate "
-                           f"procedure, {ahu.space_kind}): {req.verdict.value}")
+            parts += ["; ventilation requirement ", qty(required_q, "airflow"),
+                      f" (ASHRAE 62.1 ventilation rate procedure, {ahu.space_kind}): {req.verdict.value}"]
             res.method += "; requirement Vbz = Rp·Pz + Ra·Az, Ez = 1 (engineering.ventilation)"
         res.verdict = verdict.value
-        res.reason = "; ".join(reasons)
+        res.say(parts)
         out.append(res)
     return out
 
@@ -326,7 +365,7 @@ def _coil_checks(form: Form, consumed: set) -> list[Result]:
                 fluid = "water"
                 water = water_side_heat_w(t_supply_c=vals["water_in"], t_return_c=vals["water_out"],
                                           flow_m3s=vals["water_flow"], fluid=fluid)
-                bal = coil_balance(air_side_w=air, water_side_w=water)
+                bal = coil_balance(air_side_w=air, water_side_w=water, tolerance_pct=COIL_TOLERANCE_PCT)
             except EngineeringInputError as exc:
                 res.verdict, res.reason = WATCH, f"{coil.name}: cannot balance the coil: {exc}"
                 out.append(res)
@@ -337,11 +376,16 @@ def _coil_checks(form: Form, consumed: set) -> list[Result]:
             res.method = ("air side q = ṁ·c_p·Δt (sensible, engineering.airside.sensible_heat_w); water side "
                           "q = ρ·V·c_p·Δt (water_side_heat_w); balance within 10 % ok, 20 % watch")
             res.verdict = bal.verdict.value
-            res.reason = f"{coil.name}: {bal.reason}"
+            which = "air side higher" if bal.difference_pct > 0 else "water side higher"
+            parts = [f"{coil.name}: air side ", qty(abs(air), "heat_rate"), ", water side ",
+                     qty(abs(water), "heat_rate"),
+                     f": {abs(bal.difference_pct):.1f} % apart ({which}; ok within {COIL_TOLERANCE_PCT:g} %, "
+                     f"watch within {2 * COIL_TOLERANCE_PCT:g} %)"]
             if coil.specs.get("duty") == "cooling" and res.verdict == FAIL:
                 # Latent heat is not measured, so a wet cooling coil reads high on the water side.
                 res.verdict = WATCH
-                res.reason += " (cooling coil: air side is sensible only, latent heat not measured)"
+                parts.append(" (cooling coil: air side is sensible only, latent heat not measured)")
+            res.say(parts)
             out.append(res)
             break
     return out
@@ -360,11 +404,18 @@ def _setpoint_checks(form: Form, consumed: set) -> list[Result]:
             continue
         consumed.add((f"{template}.supply_air", None))
         chk = controls.supply_temperature_check(measured_c=t, setpoint_c=sp)
-        out.append(Result(check="supply_temperature", item=f"{template}.supply_air", verdict=chk.verdict.value,
-                          reason=chk.reason, condition_code="supply_temp_off",
-                          method="|t − t_set| against 1 K / 2 K (engineering.controls; common practice)",
-                          derived={"supply_air_c": t, "setpoint_c": sp,
-                                   "deviation_k": round(chk.limits["deviation_k"], 2)}))
+        res = Result(check="supply_temperature", item=f"{template}.supply_air", verdict=chk.verdict.value,
+                     condition_code="supply_temp_off",
+                     method="|t − t_set| against 1 K / 2 K (engineering.controls; common practice)",
+                     derived={"supply_air_c": t, "setpoint_c": sp,
+                              "deviation_k": round(chk.limits["deviation_k"], 2)})
+        dev = chk.limits["deviation_k"]
+        where = ["at"] if round(dev, 1) == 0 else [qty(abs(dev), "temperature_difference"),
+                                                   " above" if dev > 0 else " below"]
+        res.say("supply air ", qty(t, "temperature"), ", ", where, " set point ", qty(sp, "temperature"),
+                " (watch above ", qty(chk.limits["watch_k"], "temperature_difference"), ", fail above ",
+                qty(chk.limits["fail_k"], "temperature_difference"), ")")
+        out.append(res)
     p = form.num("controls_check.duct_static")
     if p is not None:
         sp = form.num("controls_check.duct_static_setpoint")
@@ -372,11 +423,15 @@ def _setpoint_checks(form: Form, consumed: set) -> list[Result]:
         if sp:
             consumed.add(("controls_check.duct_static", None))
             chk = controls.static_pressure_check(measured_pa=p, setpoint_pa=sp)
-            out.append(Result(check="duct_static", item="controls_check.duct_static", verdict=chk.verdict.value,
-                              reason=chk.reason, method="deviation as % of set point, 10 % / 20 % "
-                              "(engineering.controls; common practice)",
-                              derived={"static_pa": p, "setpoint_pa": sp,
-                                       "deviation_pct": round(chk.limits["deviation_pct"], 1)}))
+            res = Result(check="duct_static", item="controls_check.duct_static", verdict=chk.verdict.value,
+                         method="deviation as % of set point, 10 % / 20 % (engineering.controls; common practice)",
+                         derived={"static_pa": p, "setpoint_pa": sp,
+                                  "deviation_pct": round(chk.limits["deviation_pct"], 1)})
+            dev = chk.limits["deviation_pct"]
+            res.say("static pressure ", qty(p, "pressure"), f", {abs(dev):.1f} % {'above' if dev > 0 else 'below'} "
+                    "set point ", qty(sp, "pressure"),
+                    f" (watch above {chk.limits['watch_pct']:g} %, fail above {chk.limits['fail_pct']:g} %)")
+            out.append(res)
     for damper in (c for c in form.components if c.kind == "damper"):
         cmd, pos = form.num("damper_actuator.command", damper), form.num("damper_actuator.position", damper)
         if cmd is None or pos is None:
@@ -408,12 +463,19 @@ def _drift_checks(form: Form, consumed: set) -> list[Result]:
                 source = "a typical accuracy (common practice, from memory)"
             chk = controls.sensor_drift_check(sensor_value=s, reference_value=r, tolerance_abs=tol_abs,
                                               tolerance_pct_of_reading=tol_pct, unit=unit)
-            out.append(Result(check="sensor_drift", item=f"sensor_calibration.{prefix}_reference", component=sensor,
-                              verdict=chk.verdict.value, reason=f"{sensor.name}: {chk.reason}",
-                              condition_code="sensor_drift",
-                              method=f"sensor − reference against {source} (engineering.controls.sensor_drift_check)",
-                              derived={"sensor": s, "reference": r, "error": round(chk.limits["error"], 3),
-                                       "allowed_error": round(chk.limits["allowed_error"], 3)}))
+            res = Result(check="sensor_drift", item=f"sensor_calibration.{prefix}_reference", component=sensor,
+                         verdict=chk.verdict.value, condition_code="sensor_drift",
+                         method=f"sensor − reference against {source} (engineering.controls.sensor_drift_check)",
+                         derived={"sensor": s, "reference": r, "error": round(chk.limits["error"], 3),
+                                  "allowed_error": round(chk.limits["allowed_error"], 3)})
+            value_q, diff_q = DRIFT_QUANTITIES[prefix]
+            diff = chk.limits["error"]
+            spec = ([qty(tol_abs, diff_q)] if tol_pct == 0
+                    else ["(", qty(tol_abs, diff_q), f" + {tol_pct:g} % of reading)"])
+            res.say(f"{sensor.name}: sensor reads ", qty(s, value_q), ", ", qty(abs(diff), diff_q),
+                    f" {'above' if diff > 0 else 'below'} reference ", qty(r, value_q), "; allowed ±", spec,
+                    " = ±", qty(chk.limits["allowed_error"], diff_q))
+            out.append(res)
     return out
 
 

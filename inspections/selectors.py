@@ -265,3 +265,22 @@ def visit_values(*, inspection_ids: list[int]) -> dict[int, dict[str, float]]:
     ).values_list("inspection_id", "item__key", "value_si"):
         out.setdefault(insp_id, {})[key] = value
     return out
+
+
+def reason_for(*, evaluation, unit_system: str) -> str:
+    """The reason of an evaluation (or a reading's verdict) in the reader's units ("si" or "us").
+
+    Renders ``reason_parts`` through engineering.units (inspections.reasons);
+    rows stored before reasons had parts fall back to the stored SI text.
+    Accepts an Evaluation, a Reading, or a Finding (its evaluation's reason).
+    """
+    from . import reasons
+
+    if isinstance(evaluation, Finding):
+        evaluation = evaluation.evaluation
+    if unit_system not in ("si", "us"):
+        unit_system = "si"
+    parts = getattr(evaluation, "reason_parts", None)
+    if not parts:
+        return evaluation.reason
+    return reasons.render(parts, unit_system)

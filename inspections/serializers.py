@@ -2,6 +2,8 @@
 
 from rest_framework import serializers
 
+from .selectors import reason_for
+
 
 class ErrorSerializer(serializers.Serializer):
     detail = serializers.CharField()
@@ -91,18 +93,24 @@ class InspectionOutputSerializer(serializers.Serializer):
     evaluations = serializers.SerializerMethodField()
     amendments = serializers.SerializerMethodField()
 
+    def _system(self) -> str:
+        # Reasons in the reader's units; reason_si keeps the SI text as recorded.
+        return self.context.get("unit_system", "si")
+
     def get_readings(self, obj) -> list[dict]:
         return [
             {"item": r.item.api_key, "component": r.component.label_code if r.component else None,
              "value_si": r.value_si, "value_text": r.value_text, "entered": r.entered, "note": r.note,
-             "verdict": r.verdict, "reason": r.reason, "improbable": r.improbable}
+             "verdict": r.verdict, "reason": reason_for(evaluation=r, unit_system=self._system()),
+             "reason_si": r.reason, "improbable": r.improbable}
             for r in obj.readings.all()
         ]
 
     def get_evaluations(self, obj) -> list[dict]:
         return [
             {"check": e.check_name, "item": e.item_key, "component": e.component.label_code if e.component else None,
-             "verdict": e.verdict, "reason": e.reason, "method": e.method, "derived": e.derived}
+             "verdict": e.verdict, "reason": reason_for(evaluation=e, unit_system=self._system()),
+             "reason_si": e.reason, "method": e.method, "derived": e.derived}
             for e in obj.evaluations.all()
         ]
 

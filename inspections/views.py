@@ -95,6 +95,10 @@ class TemplatesView(APIView):
         return Response(out)
 
 
+def _reader(request) -> dict:
+    return {"unit_system": getattr(request.user, "unit_system", "si")}
+
+
 def _inspection(request, pk) -> Inspection:
     qs = selectors.inspections_visible_to(user=request.user).prefetch_related(
         "readings__item__template", "readings__component", "evaluations__component", "amendments__created_by")
@@ -104,7 +108,7 @@ def _inspection(request, pk) -> Inspection:
 class InspectionDetailView(APIView):
     @extend_schema(responses={200: s.InspectionOutputSerializer, 404: NOT_FOUND}, tags=["inspections"])
     def get(self, request, pk):
-        return Response(s.InspectionOutputSerializer(_inspection(request, pk)).data)
+        return Response(s.InspectionOutputSerializer(_inspection(request, pk), context=_reader(request)).data)
 
 
 class AmendmentCreateView(APIView):
@@ -134,7 +138,7 @@ class FlagResolveView(APIView):
         data = s.NoteInputSerializer(data=request.data)
         data.is_valid(raise_exception=True)
         services.flagged_form_resolve(inspection=inspection, by=request.user, note=data.validated_data["note"])
-        return Response(s.InspectionOutputSerializer(_inspection(request, pk)).data)
+        return Response(s.InspectionOutputSerializer(_inspection(request, pk), context=_reader(request)).data)
 
 
 class VerifyView(APIView):
@@ -142,4 +146,4 @@ class VerifyView(APIView):
                    404: NOT_FOUND}, tags=["inspections"])
     def post(self, request, pk):
         services.inspection_verify(inspection=_inspection(request, pk), by=request.user)
-        return Response(s.InspectionOutputSerializer(_inspection(request, pk)).data)
+        return Response(s.InspectionOutputSerializer(_inspection(request, pk), context=_reader(request)).data)

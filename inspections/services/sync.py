@@ -366,7 +366,9 @@ def _flags(parsed: Parsed, user, wo: WorkOrder, results) -> list[dict]:
     return flags
 
 
-def _result_json(inspection: Inspection, status: str, flags, evals, found, wo: WorkOrder) -> dict:
+def _result_json(inspection: Inspection, status: str, flags, evals, found, wo: WorkOrder, *,
+                 unit_system: str = "si") -> dict:
+    """The answer to the phone; reasons in ``unit_system`` (the sender's), ``reason_si`` as recorded."""
     return {
         "client_uuid": str(inspection.client_uuid),
         "status": status,
@@ -377,7 +379,8 @@ def _result_json(inspection: Inspection, status: str, flags, evals, found, wo: W
         "evaluation": [
             {"check": e.check_name, "item": e.item_key,
              "component": e.component.label_code if e.component else None, "verdict": e.verdict,
-             "reason": e.reason, "method": e.method, "derived": e.derived}
+             "reason": selectors.reason_for(evaluation=e, unit_system=unit_system), "reason_si": e.reason,
+             "method": e.method, "derived": e.derived}
             for e in evals
         ],
         "findings": [
@@ -439,7 +442,7 @@ def _store(parsed: Parsed, user, results) -> dict:
         if r.value_text == "na":
             r.verdict = "na"
         elif res is not None:
-            r.verdict, r.reason = res.verdict, res.reason[:500]
+            r.verdict, r.reason, r.reason_parts = res.verdict, res.reason[:500], res.reason_parts
     try:
         with transaction.atomic():
             wo = WorkOrder.objects.select_for_update().get(pk=parsed.work_order.pk)
@@ -456,7 +459,8 @@ def _store(parsed: Parsed, user, results) -> dict:
                 p.save()
             evals = [
                 Evaluation(inspection=inspection, check_name=res.check, item_key=res.item, component=res.component,
-                           verdict=res.verdict, reason=res.reason[:500], method=res.method[:300],
+                           verdict=res.verdict, reason=res.reason[:500], reason_parts=res.reason_parts,
+                           method=res.method[:300],
                            derived=res.derived, condition_code=res.condition_code)
                 for res in results
             ]
@@ -485,7 +489,8 @@ def _store(parsed: Parsed, user, results) -> dict:
             inspection.flags = flags
             inspection.flag_reason = "; ".join(f["reason"] for f in flags)[:5000]
             status = "flagged" if flags else "stored"
-            inspection.sync_result = _result_json(inspection, status, flags, evals, found, wo)
+            inspection.sync_result = _result_json(inspection, status, flags, evals, found, wo,
+                                                  unit_system=getattr(user, "unit_system", "si"))
             # flags and flag_reason change only inside this creating transaction.
             Inspection.objects.filter(pk=inspection.pk).update(
                 flags=flags, flag_reason=inspection.flag_reason, sync_result=inspection.sync_result,

@@ -1,0 +1,113 @@
+"""Evaluation reasons a reader can see in their own units.
+
+A reason is kept twice: as SI text (``reason``, the record as judged) and as
+``reason_parts``, a JSON list whose items are either plain text or a quantity
+in SI, rendered at read time in the reader's unit system through
+``engineering.units``:
+
+- ``{"value": 223.6, "quantity": "pressure"}`` — one value with its unit;
+- ``{"low": 2.0, "high": 6.0, "quantity": "temperature"}`` — a band
+  ("2.0–6.0 °C", "at least 2.0 °C", "at most 6.0 °C").
+
+Temperature differences use the quantity ``temperature_difference`` so that
+1.5 K reads 2.7 Δ°F, never 34.7 °F. ``decimals`` on a part sets the SI
+precision; the US precision comes from ``US_DECIMALS`` (a value in in. w.c.
+needs two decimals where Pa needs none).
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from inspections import checklists
+
+# Display precision per quantity: (SI, US). Common practice for field readings.
+DECIMALS: dict[str, tuple[int, int]] = {
+    "pressure": (0, 2),
+    "temperature": (1, 1),
+    "temperature_difference": (1, 1),
+    "airflow": (0, 0),
+    "water_flow": (2, 1),
+    "heat_rate": (1, 0),
+    "co2": (0, 0),
+    "relative_humidity": (0, 0),
+    "percent": (0, 0),
+    "current": (1, 1),
+    "time": (0, 0),
+    "rotational_speed": (0, 0),
+    "frequency": (1, 1),
+    "run_hours": (0, 0),
+    "length": (2, 1),
+}
+
+
+def q(value: float, quantity: str, decimals: int | None = None) -> dict[str, Any]:
+    """A quantity part (SI value)."""
+    part: dict[str, Any] = {"value": float(value), "quantity": quantity}
+    if decimals is not None:
+        part["decimals"] = decimals
+    return part
+
+
+def span(low: float | None, high: float | None, quantity: str, decimals: int | None = None) -> dict[str, Any]:
+    """A band part (SI bounds; either may be None = open)."""
+    part: dict[str, Any] = {"low": low, "high": high, "quantity": quantity}
+    if decimals is not None:
+        part["decimals"] = decimals
+    return part
+
+
+def _decimals(part: dict, system: str) -> int:
+    si, us = DECIMALS.get(part["quantity"], (1, 1))
+    if system == "us":
+        return us
+    return part.get("decimals", si)
+
+
+def _number(value_si: float, quantity: str, system: str, decimals: int) -> str:
+    x = checklists.to_display(value_si, quantity, system)
+    # Thousands grouped only where a number gets long (e.g. 154,000 Btu/h).
+    text = f"{x:,.{decimals}f}" if abs(x) >= 10_000 else f"{x:.{decimals}f}"
+    if float(text.replace(",", "")) == 0:
+        text = text.lstrip("-")
+    return text.replace("-", "−")
+
+
+def _with_unit(text: str, quantity: str, system: str) -> str:
+    unit = checklists.display_unit_label(quantity, system)
+    return f"{text} {unit}" if unit else text
+
+
+def render_part(part: Any, system: str) -> str:
+    if isinstance(part, str):
+        return part
+    quantity = part["quantity"]
+    d = _decimals(part, system)
+    if "value" in part:
+        return _with_unit(_number(part["value"], quantity, system, d), quantity, system)
+    low, high = part.get("low"), part.get("high")
+    if low is not None and high is not None:
+        return _with_unit(f"{_number(low, quantity, system, d)}–{_number(high, quantity, system, d)}", quantity,
+                          system)
+    if low is not None:
+        return "at least " + _with_unit(_number(low, quantity, system, d), quantity, system)
+    if high is not None:
+        return "at most " + _with_unit(_number(high, quantity, system, d), quantity, system)
+    return "any value"
+
+
+def render(parts: list, system: str) -> str:
+    """The reason in ``system`` ("si" or "us")."""
+    return "".join(render_part(p, system) for p in parts)
+
+
+def flatten(*pieces: Any) -> list:
+    """Parts from strings, parts and lists of parts; adjacent strings are joined."""
+    out: list = []
+    for p in pieces:
+        for x in (p if isinstance(p, list) else [p]):
+            if isinstance(x, str) and out and isinstance(out[-1], str):
+                out[-1] += x
+            elif x != "":
+                out.append(x)
+    return out
