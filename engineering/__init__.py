@@ -59,6 +59,7 @@ from engineering.freeze import (
     heating_degree_days,
     heating_degree_days_65f,
 )
+from engineering.heat_recovery import HeatRecovery, heat_recovery_check, heat_recovery_effectiveness
 from engineering.outdoor_air import (
     OaFraction,
     fraction_check,
@@ -96,6 +97,7 @@ __all__ = [
     "FilterForecast",
     "FilterLoading",
     "FilterPoint",
+    "HeatRecovery",
     "IndeterminateError",
     "InsufficientDataError",
     "OaFraction",
@@ -127,6 +129,8 @@ __all__ = [
     "freeze_risk",
     "freeze_season_start",
     "from_display",
+    "heat_recovery_check",
+    "heat_recovery_effectiveness",
     "heating_degree_days",
     "heating_degree_days_65f",
     "latent_heat_w",

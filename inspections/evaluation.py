@@ -15,7 +15,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
-from engineering import controls, filters, outdoor_air, ventilation
+from engineering import controls, filters, heat_recovery, outdoor_air, ventilation
 from engineering import units as eng_units
 from engineering.airside import coil_balance, sensible_heat_w, water_side_heat_w
 from engineering.errors import EngineeringInputError
@@ -40,6 +40,7 @@ SEVERITY = {
     "damper_position": "medium",
     "sensor_drift": "low",
     "coil_balance": "low",
+    "heat_recovery_low": "medium",
 }
 # Checklist answers whose failure names a scheduling condition.
 ITEM_CONDITIONS = {
@@ -479,11 +480,53 @@ def _drift_checks(form: Form, consumed: set) -> list[Result]:
     return out
 
 
+def _heat_recovery_checks(form: Form, consumed: set) -> list[Result]:
+    out = []
+    for hx in (c for c in form.components if c.kind == "heat_recovery"):
+        t_o, t_s, t_e = (form.num(f"heat_recovery.{k}", hx) for k in ("outdoor_in", "supply_out", "extract_in"))
+        if t_o is None or t_s is None or t_e is None:
+            continue
+        res = Result(check="heat_recovery", item="heat_recovery.supply_out", component=hx,
+                     condition_code="heat_recovery_low",
+                     method=("ε = (t_supply − t_outdoor)/(t_extract − t_outdoor), temperature ratio per EN 308 / "
+                             "ASHRAE HVAC Systems and Equipment (from memory; engineering.heat_recovery), ±0.5 K "
+                             "sensors; against design: watch beyond 5, fail beyond 15 points below (common "
+                             "practice)"))
+        try:
+            hr = heat_recovery.heat_recovery_effectiveness(t_outdoor_c=t_o, t_supply_after_recovery_c=t_s,
+                                                           t_extract_c=t_e)
+        except EngineeringInputError as exc:
+            res.verdict = WATCH
+            res.say(f"{hx.name}: {exc}")
+            out.append(res)
+            continue
+        pct, u_pct = hr.effectiveness * 100, hr.uncertainty * 100
+        res.derived = {"outdoor_c": t_o, "supply_after_recovery_c": t_s, "extract_c": t_e,
+                       "effectiveness_pct": round(pct, 1), "uncertainty_pct": round(u_pct, 1)}
+        temps = [" (outdoor ", qty(t_o, "temperature"), ", after recovery ", qty(t_s, "temperature"), ", extract ",
+                 qty(t_e, "temperature"), ")"]
+        design = hx.specs.get("design_effectiveness_pct")
+        if design is None:
+            res.verdict = WATCH
+            res.say(f"{hx.name}: effectiveness {pct:.0f} % ± {u_pct:.0f} points", temps,
+                    "; no design effectiveness in the registry to judge it against")
+            out.append(res)
+            continue
+        chk = heat_recovery.heat_recovery_check(effectiveness=hr.effectiveness, uncertainty=hr.uncertainty,
+                                                design_effectiveness_pct=design)
+        res.verdict = chk.verdict.value
+        res.derived.update({"design_effectiveness_pct": design,
+                            "below_design_points": round(chk.limits["below_design_points"], 1)})
+        res.say(f"{hx.name}: {chk.reason}", temps)
+        out.append(res)
+    return out
+
+
 def evaluate(form: Form) -> list[Result]:
     """Every judgement of one form, cross-reading checks first, then the remaining single readings."""
     consumed: set[tuple[str, int | None]] = set()
     results: list[Result] = []
-    for fn in (_filter_checks, _oa_checks, _coil_checks, _setpoint_checks, _drift_checks):
+    for fn in (_filter_checks, _oa_checks, _coil_checks, _setpoint_checks, _drift_checks, _heat_recovery_checks):
         results.extend(fn(form, consumed))
     for slot in form.slots:
         key = (slot.item.api_key, slot.component.pk if slot.component else None)

@@ -35,6 +35,7 @@ def _title(result, evaluation: Evaluation) -> str:
         "oa_fraction_co2": "Outdoor air below minimum", "coil_balance": "Coil heat balance off",
         "supply_temperature": "Supply-air temperature off set point", "duct_static": "Duct static off set point",
         "damper_position": "Damper not at commanded position", "sensor_drift": "Sensor drift",
+        "heat_recovery": "Heat recovery below design",
     }.get(result.check)
     if words is None:
         words = {

@@ -251,3 +251,61 @@ def test_freeze_trip_temperature_too_low_fails(api_client):
                  finished_at=dt.datetime(2024, 7, 15, 10, tzinfo=dt.UTC))
     ev = result(out, "limits")
     assert ev["item"] == "preheater_freeze.freeze_trip_temp" and ev["verdict"] == "fail"
+
+
+def _exchanger(ahu, design_pct):
+    from tests.factories.inventory import ComponentFactory
+
+    specs = {"recovery_type": "plate"}
+    if design_pct is not None:
+        specs["design_effectiveness_pct"] = design_pct
+    return ComponentFactory(ahu=ahu, kind="heat_recovery", name="Plate exchanger", specs=specs, position=20)
+
+
+def _recovery_readings(hx, outdoor, supply, extract):
+    return [r("visit.run_hours", 1200), r("heat_recovery.condition", "clean", hx), r("heat_recovery.seals", "ok", hx),
+            r("heat_recovery.outdoor_in", outdoor, hx), r("heat_recovery.supply_out", supply, hx),
+            r("heat_recovery.extract_in", extract, hx)]
+
+
+@pytest.mark.django_db
+@pytest.mark.parametrize(("design_pct", "verdict"), [(72, "ok"), (80, "watch"), (90, "fail")])
+def test_heat_recovery_effectiveness_against_the_units_design(api_client, design_pct, verdict):
+    """Outdoor 0 °C, extract 22 °C, after the exchanger 15.4 °C: ε = 15.4/22 = 70 % ± 3 points (EN 308 temperature
+    ratio / ASHRAE HVAC Systems and Equipment, from memory; ±0.5 K sensors, GUM). Against design 72 % (2 points
+    below) ok; 80 % (10 below) watch; 90 % (20 below, 17 even at the top of the band) fail (5 / 15 points:
+    common practice)."""
+    wo, tech = make_visit(tasks=["heat_recovery"])
+    hx = _exchanger(wo.ahu, design_pct)
+    out = submit(api_client, wo, tech, _recovery_readings(hx, 0, 15.4, 22))
+    ev = result(out, "heat_recovery", hx)
+    assert ev["derived"]["effectiveness_pct"] == pytest.approx(70.0)
+    assert ev["derived"]["uncertainty_pct"] == pytest.approx(2.9)
+    assert ev["verdict"] == verdict
+    assert f"against design {design_pct} %" in ev["reason"]
+    if verdict == "fail":
+        [f] = out["findings"]
+        assert f["title"] == "Heat recovery below design — Plate exchanger"
+        cwo = Finding.objects.get(pk=f["id"]).corrective_work_order
+        assert cwo.component == hx and cwo.approval == WorkOrder.Approval.PENDING
+    else:
+        assert out["findings"] == []
+
+
+@pytest.mark.django_db
+def test_heat_recovery_is_not_judged_when_outdoor_and_extract_are_too_close(api_client):
+    """Outdoor 19 °C, extract 22 °C: 3 K apart, under the 5 K minimum → watch with the refusal, no finding."""
+    wo, tech = make_visit(tasks=["heat_recovery"])
+    hx = _exchanger(wo.ahu, 75)
+    out = submit(api_client, wo, tech, _recovery_readings(hx, 19, 21, 22))
+    ev = result(out, "heat_recovery", hx)
+    assert ev["verdict"] == "watch" and "at least 5 K" in ev["reason"]
+    assert out["findings"] == []
+
+
+@pytest.mark.django_db
+def test_heat_recovery_without_a_design_value_says_so(api_client):
+    wo, tech = make_visit(tasks=["heat_recovery"])
+    hx = _exchanger(wo.ahu, None)
+    ev = result(submit(api_client, wo, tech, _recovery_readings(hx, 0, 15.4, 22)), "heat_recovery", hx)
+    assert ev["verdict"] == "watch" and "no design effectiveness" in ev["reason"]
