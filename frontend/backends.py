@@ -19,6 +19,7 @@ from scheduling.services.work_orders import (  # noqa: F401
     corrective_work_order_approve,
     corrective_work_order_reject,
     work_order_assign,
+    work_order_verify,
 )
 
 
@@ -63,3 +64,23 @@ def flag_resolve(*, inspection, by, note: str):
     from inspections.services import flagged_form_resolve
 
     return flagged_form_resolve(inspection=inspection, by=by, note=note)
+
+
+def report_request(*, user, kind: str, parameters: dict, pdfa: bool = False):
+    """reports' request service: checks tenancy (Http404 for a site the person may not see) and queues the PDF."""
+    from reports.services import report_request as real
+
+    return real(user=user, kind=kind, parameters=parameters, pdfa=pdfa)
+
+
+def reports_visible_to(*, user, limit: int = 50):
+    from reports.selectors import reports_visible_to as real
+
+    return real(user=user, limit=limit)
+
+
+def inspection_verify(*, inspection, by):
+    """inspections' verify service: the inspection and its completed work order become verified."""
+    from inspections.services import inspection_verify as real
+
+    return real(inspection=inspection, by=by)

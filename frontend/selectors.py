@@ -1,97 +1,95 @@
-"""Reads for the property manager's dashboard. Every site comes through inventory.selectors.sites_visible_to."""
+"""Reads for the property manager's dashboard. Every site comes through inventory.selectors.sites_visible_to.
+
+Compliance figures (on-time share, overdue, findings, filters, freeze readiness) are
+reports.compliance's; this module only picks the sites and splits them per site.
+"""
 
 from __future__ import annotations
 
 import datetime as dt
 
-from django.db.models import Q
 from django.utils import timezone
 
-from inspections.models import Evaluation, Finding, Reading
+from inspections.models import Evaluation, Inspection, Reading
 from inventory.models import ComponentKind, Site
 from inventory.selectors import sites_visible_to
-from scheduling.models import OutdoorTemperature, TaskCategory, WorkOrder, WorkOrderTask
+from reports import compliance
+from reports.documents.inspection_report import derived_rows
+from scheduling.models import OutdoorTemperature
 
-SEVERITIES = ("critical", "high", "medium", "low")
+SEVERITIES = compliance.SEVERITIES
+PERIOD_DAYS = 365  # the compliance report's default period: the last 12 months
 
 
-def site_summaries(*, user, today: dt.date | None = None, days: int = 365) -> list[dict]:
-    """Per visible site: preventive work done on time, overdue, open findings, freeze readiness.
-
-    A constant number of queries however many sites there are.
-    """
+def default_period(*, today: dt.date | None = None) -> tuple[dt.date, dt.date]:
+    """The period the pages show and the report forms ask for unless the person picks another."""
     today = today or timezone.localdate()
-    sites = list(sites_visible_to(user=user).order_by("name"))
-    ids = [s.pk for s in sites]
-    since = today - dt.timedelta(days=days)
-    out = {
+    return today - dt.timedelta(days=PERIOD_DAYS), today
+
+
+def figures_for(*, user, site_ids: list[int] | None = None, start=None, end=None, as_of=None):
+    """reports.compliance figures for the sites ``user`` may see (all of them, or those of ``site_ids``).
+
+    The figures themselves are computed only in reports.compliance, so pages and PDFs agree.
+    """
+    visible = sites_visible_to(user=user)
+    if site_ids is not None:
+        visible = visible.filter(pk__in=site_ids)
+    ids = list(visible.values_list("pk", flat=True))
+    default_start, default_end = default_period()
+    return compliance.compliance_figures(
+        site_ids=ids, start=start or default_start, end=end or default_end, as_of=as_of or timezone.now()
+    )
+
+
+def site_summaries(*, user, as_of: dt.datetime | None = None) -> tuple[compliance.ComplianceFigures, list[dict]]:
+    """The figures of all visible sites together, and per site what those figures hold unit by unit.
+
+    Per site: units, overdue work, filter verdicts and freeze readiness, split from one
+    ``compliance_figures`` call, so a constant number of queries however many sites there are.
+    """
+    figures = figures_for(user=user, as_of=as_of)
+    rows = {
         s.pk: {
             "site": s,
-            "done": 0,
-            "on_time": 0,
+            "units": 0,
             "overdue": 0,
-            "findings": dict.fromkeys(SEVERITIES, 0),
-            "oldest_finding_days": None,
-            "freeze_ready": [],
-            "freeze_open": 0,
+            "filters": dict.fromkeys(("fail", "watch", "ok", "none"), 0),
+            "freeze": dict.fromkeys(compliance.FREEZE_LABELS, 0),
         }
-        for s in sites
+        for s in figures.sites
     }
-    done = WorkOrder.objects.filter(
-        ahu__building__site_id__in=ids,
-        kind=WorkOrder.Kind.PREVENTIVE,
-        state__in=[WorkOrder.State.COMPLETED, WorkOrder.State.VERIFIED],
-        completed_at__date__gte=since,
-    ).values_list("ahu__building__site_id", "completed_at", "due_date", "overdue_on")
-    for site_id, completed_at, due, overdue_on in done:
-        row = out[site_id]
-        row["done"] += 1
-        if completed_at.date() < (overdue_on or due + dt.timedelta(days=1)):
-            row["on_time"] += 1
-    overdue = (
-        WorkOrder.objects.filter(ahu__building__site_id__in=ids, state__in=WorkOrder.OPEN_STATES)
-        .filter(Q(overdue_on__lte=today) | Q(overdue_on__isnull=True, due_date__lt=today))
-        .values_list("ahu__building__site_id", flat=True)
-    )
-    for site_id in overdue:
-        out[site_id]["overdue"] += 1
-    now = timezone.now()
-    for site_id, severity, opened in Finding.objects.filter(
-        ahu__building__site_id__in=ids, state=Finding.State.OPEN
-    ).values_list("ahu__building__site_id", "severity", "opened_at"):
-        row = out[site_id]
-        row["findings"][severity] = row["findings"].get(severity, 0) + 1
-        age = (now - opened).days
-        row["oldest_finding_days"] = max(row["oldest_finding_days"] or 0, age)
-    freeze = WorkOrderTask.objects.filter(ahu__building__site_id__in=ids, task__category=TaskCategory.PREHEAT_FREEZE)
-    for site_id, completed_at, state in freeze.values_list(
-        "ahu__building__site_id", "completed_at", "work_order__state"
-    ):
-        row = out[site_id]
-        if completed_at:
-            row["freeze_ready"].append(completed_at.date())
-        elif state in WorkOrder.OPEN_STATES:
-            row["freeze_open"] += 1
-    result = []
-    for row in out.values():
-        row["on_time_pct"] = round(100 * row["on_time"] / row["done"]) if row["done"] else None
-        row["open_findings"] = sum(row["findings"].values())
-        row["last_freeze_check"] = max(row["freeze_ready"]) if row["freeze_ready"] else None
-        season = row["site"].freeze_season_start
-        row["freeze_status"] = _freeze_status(row["last_freeze_check"], row["freeze_open"], season, today)
-        result.append(row)
-    return result
+    for unit in figures.units:
+        rows[unit.building.site_id]["units"] += 1
+    for item in figures.overdue:
+        rows[item["work_order"].ahu.building.site_id]["overdue"] += 1
+    for item in figures.filters:
+        if item["filter"] is not None:
+            verdict = item["verdict"] if item["verdict"] in ("fail", "watch", "ok") else "none"
+            rows[item["unit"].building.site_id]["filters"][verdict] += 1
+    for item in figures.freeze:
+        rows[item["unit"].building.site_id]["freeze"][item["status"]] += 1
+    for row in rows.values():
+        row["freeze_text"] = freeze_text(row["freeze"])
+    return figures, list(rows.values())
 
 
-def _freeze_status(last: dt.date | None, open_count: int, season: dt.date | None, today: dt.date) -> str:
-    # Proven within the 60 days before the season counts as ready (common practice: test shortly before it starts).
-    if season and last and season - dt.timedelta(days=60) <= last <= season + dt.timedelta(days=120):
-        return "proven for this season"
-    if last and season is None and (today - last).days <= 180:
-        return "proven recently"
-    if open_count:
-        return "test scheduled"
-    return "not proven yet"
+def freeze_text(counts: dict[str, int]) -> str:
+    """Readiness counts per unit as text, such as '2 ready, 1 due'."""
+    parts = [f"{n} {compliance.FREEZE_LABELS[status].lower()}" for status, n in counts.items() if n]
+    return ", ".join(parts) if parts else "no preheat to prove"
+
+
+def findings_rows(figures: compliance.ComplianceFigures) -> list[dict]:
+    """Open findings by severity (critical first) and age bucket, with a total per severity."""
+    return [
+        {
+            "severity": severity,
+            "by_age": [figures.findings_matrix.get(severity, {}).get(label, 0) for label in figures.age_labels],
+            "total": sum(figures.findings_matrix.get(severity, {}).values()),
+        }
+        for severity in SEVERITIES
+    ]
 
 
 def site_for(*, user, pk: int) -> Site | None:
@@ -131,3 +129,28 @@ def outdoor_temperatures(*, site: Site, today: dt.date | None = None, days_back:
         .order_by("date")
         .values_list("date", "min_c")
     )
+
+
+def latest_inspection(*, work_order):
+    """The newest stored form of the work order (amendments point to it), or None."""
+    return (
+        Inspection.objects.filter(work_order=work_order)
+        .select_related("verified_by", "technician")
+        .order_by("-finished_at", "-id")
+        .first()
+    )
+
+
+def result_for_display(*, result: dict | None, system: str) -> dict | None:
+    """The server's answer to a synced form, with each evaluation's derived values in the reader's units.
+
+    The reasons are kept as the inspections app wrote them (SI, see inspections/SYNC.md);
+    the derived values beside them are converted by the same rules the inspection PDF uses.
+    """
+    if not result:
+        return None
+    shown_result = dict(result)
+    shown_result["evaluation"] = [
+        {**e, "derived_display": derived_rows(e.get("derived") or {}, system)} for e in result.get("evaluation") or []
+    ]
+    return shown_result

@@ -2,7 +2,7 @@ from django.contrib.auth import views as auth_views
 from django.urls import path
 
 from . import api
-from .views import calculator, manager, shell, supervisor, technician
+from .views import calculator, manager, records, shell, supervisor, technician
 
 app_name = "frontend"
 urlpatterns = [
@@ -17,6 +17,8 @@ urlpatterns = [
     path("u/", technician.unit_lookup, name="unit_lookup"),
     path("u/<str:code>/", technician.unit, name="unit"),
     path("w/<uuid:public_id>/", technician.checklist, name="checklist"),
+    path("w/<uuid:public_id>/result/", technician.checklist_result, name="checklist_result"),
+    path("w/<uuid:public_id>/verify/", supervisor.verify, name="verify"),
     path("calc/", calculator.calculator, name="calculator"),
     path("api/calc/<slug:name>/", api.CalcView.as_view(), name="calc_api"),
     # supervisor
@@ -33,4 +35,7 @@ urlpatterns = [
     # property manager
     path("dashboard/", manager.dashboard, name="dashboard"),
     path("dashboard/site/<int:pk>/", manager.site_detail, name="dashboard_site"),
+    # PDF records (rendered and served by reports)
+    path("records/", records.records, name="records"),
+    path("records/request/", records.record_request, name="record_request"),
 ]

@@ -23,15 +23,27 @@ NAV_BY_ROLE = {
 NAV_BY_ROLE[Role.ADMIN] = NAV_BY_ROLE[Role.SUPERVISOR]
 
 
+def _role(request) -> str | None:
+    role = getattr(request, "_plenum_role", None)
+    if role is None:
+        role = primary_role(user=request.user)
+        request._plenum_role = role
+    return role
+
+
+@register.simple_tag(takes_context=True)
+def plenum_role(context) -> str | None:
+    """The person's strongest role (read once per request)."""
+    request = context["request"]
+    return _role(request) if request.user.is_authenticated else None
+
+
 @register.inclusion_tag("frontend/_nav.html", takes_context=True)
 def plenum_nav(context):
     request = context["request"]
     links = []
     if request.user.is_authenticated:
-        role = getattr(request, "_plenum_role", None)
-        if role is None:
-            role = primary_role(user=request.user)
-            request._plenum_role = role
+        role = _role(request)
         for name, text in NAV_BY_ROLE.get(role, []):
             try:
                 url = reverse(name)

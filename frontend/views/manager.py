@@ -1,39 +1,45 @@
-"""The property manager's read-only dashboard: own sites only, through inventory.selectors.sites_visible_to."""
+"""The property manager's read-only dashboard: own sites only, through inventory.selectors.sites_visible_to.
+
+Compliance figures come from reports.compliance (through frontend.selectors), the same as in the PDFs.
+"""
 
 import datetime as dt
 
 from django.contrib.auth.decorators import login_required
 from django.http import Http404
 from django.shortcuts import render
-from django.urls import NoReverseMatch, reverse
 from django.utils import timezone
 from django.views.decorators.http import require_GET
 
 from engineering.units import to_display, unit_label
+from reports.documents.common import percent, shown
 
 from .. import selectors
 from ..charts import line_chart
+from . import records
 
 
-def _report_links(site) -> list[dict]:
-    """PDF records of the reports app, where its pages exist."""
-    links = []
-    for name, text in (
-        ("reports:site_records", "Maintenance records (PDF)"),
-        ("reports:compliance", "Compliance summary (PDF)"),
-    ):
-        try:
-            links.append({"url": reverse(name, kwargs={"site_id": site.pk}), "text": text})
-        except NoReverseMatch:
-            continue
-    return links
+def _records_context(*, form_id: str) -> dict:
+    start, end = selectors.default_period()
+    return {"form_id": form_id, "period_start": start, "period_end": end, "layouts": records.LAYOUTS}
 
 
 @login_required
 @require_GET
 def dashboard(request):
-    rows = selectors.site_summaries(user=request.user)
-    return render(request, "frontend/manager/dashboard.html", {"rows": rows, "severities": selectors.SEVERITIES})
+    figures, rows = selectors.site_summaries(user=request.user)
+    return render(
+        request,
+        "frontend/manager/dashboard.html",
+        {
+            "f": figures,
+            "rows": rows,
+            "share": percent(figures.total.on_time_share),
+            "findings": selectors.findings_rows(figures),
+            "site_ids": [s.pk for s in figures.sites],
+            **_records_context(form_id="all"),
+        },
+    )
 
 
 @login_required
@@ -83,7 +89,11 @@ def site_detail(request, pk: int):
         hline=(threshold, f"preheat threshold {threshold:.0f} {t_unit}"),
         vline=(site.freeze_season_start, "freeze season starts") if site.freeze_season_start else None,
     )
-    summary = next((r for r in selectors.site_summaries(user=request.user) if r["site"].pk == site.pk), None)
+    figures = selectors.figures_for(user=request.user, site_ids=[site.pk])
+    for row in figures.filters:
+        d = row["derived"]
+        row["corrected_dp"] = shown(d.get("corrected_dp_pa"), "pressure", system)
+        row["loading"] = f"{d['loading_pct']:.0f} %" if isinstance(d.get("loading_pct"), int | float) else "—"
     return render(
         request,
         "frontend/manager/site.html",
@@ -91,8 +101,15 @@ def site_detail(request, pk: int):
             "site": site,
             "charts": charts,
             "temp_chart": temp_chart,
-            "summary": summary,
-            "reports": _report_links(site),
-            "severities": selectors.SEVERITIES,
+            "f": figures,
+            "share": percent(figures.total.on_time_share),
+            "category_rows": [(c, percent(c.on_time_share)) for c in figures.categories],
+            "findings": selectors.findings_rows(figures),
+            "freeze_text": selectors.freeze_text(figures.freeze_counts),
+            "site_ids": [site.pk],
+            "label_site": site,
+            "label_what": f"One label for each of the {len(figures.units)} units of {site.name}.",
+            "default_layout": "letter-3x10" if system == "us" else "a4-3x8",
+            **_records_context(form_id="site"),
         },
     )

@@ -23,8 +23,9 @@ from scheduling.models import UnitTaskSetting, WorkOrder
 from scheduling.selectors import effective_tasks
 from scheduling.services.library import unit_task_set
 
-from .. import backends
+from .. import backends, selectors
 from ..specs_form import spec_initial, spec_rows, specs_from_post
+from .technician import unit_records_context
 
 MANAGING = {Role.SUPERVISOR, Role.ADMIN}
 
@@ -118,7 +119,15 @@ def _ahu(request, pk):
 @login_required
 def unit_detail(request, pk):
     ahu = _ahu(request, pk)
-    return render(request, "frontend/supervisor/unit.html", {"ahu": ahu, "tree": component_tree(ahu=ahu)})
+    return render(
+        request,
+        "frontend/supervisor/unit.html",
+        {
+            "ahu": ahu,
+            "tree": component_tree(ahu=ahu),
+            **unit_records_context(ahu=ahu, system=request.user.unit_system),
+        },
+    )
 
 
 UNIT_FIELDS = (
@@ -306,3 +315,27 @@ def flagged(request):
             messages.success(request, f"Flag on inspection {form.pk} resolved.")
         return redirect("frontend:flagged")
     return render(request, "frontend/supervisor/flagged.html", {"forms": list(forms)})
+
+
+@login_required
+@require_POST
+def verify(request, public_id):
+    """A supervisor verifies completed work: its latest form through inspections, else the work order itself."""
+    wo = backends.work_orders_managed_by(user=request.user).filter(public_id=public_id).first()
+    if wo is None:
+        raise Http404("No such work order that you manage.")
+    inspection = selectors.latest_inspection(work_order=wo)
+    try:
+        if inspection is not None:
+            backends.inspection_verify(inspection=inspection, by=request.user)
+        else:
+            try:
+                version = int(request.POST.get("version", ""))
+            except ValueError:
+                version = None
+            backends.work_order_verify(work_order=wo, by=request.user, expected_version=version)
+    except ValidationError as exc:
+        messages.error(request, f"{wo.ahu.tag} {wo.title}: {' '.join(exc.messages)}")
+    else:
+        messages.success(request, f"{wo.ahu.tag} — {wo.title} verified.")
+    return redirect("frontend:checklist", public_id=wo.public_id)

@@ -10,10 +10,25 @@ from django.views.decorators.http import require_GET
 from inventory.selectors import component_tree
 from scheduling.models import WorkOrder
 
-from .. import backends
+from .. import backends, selectors
 from ..checklist_form import caution_blocks, cautions_for, form_sections, payload_from_post
+from .records import LAYOUTS
 
 CHECKLIST_API = "/api/inspections/work-orders/{}/checklist/"
+
+
+def unit_records_context(*, ahu, system: str) -> dict:
+    """What the unit history and label forms of a unit page need."""
+    start, end = selectors.default_period()
+    return {
+        "form_id": f"unit-{ahu.pk}",
+        "period_start": start,
+        "period_end": end,
+        "layouts": LAYOUTS,
+        "label_units": [ahu.pk],
+        "label_what": f"The label of {ahu.tag}, to print and stick on the unit.",
+        "default_layout": "letter-3x10" if system == "us" else "a4-3x8",
+    }
 
 
 def offline_urls(visits) -> list[str]:
@@ -50,6 +65,18 @@ def unit_lookup(request):
 
 @login_required
 @require_GET
+def checklist_result(request, public_id):
+    """The server's evaluation of the work order's latest form, in the reader's units (fetched after a sync)."""
+    wo = _work_order(request, public_id)
+    inspection = selectors.latest_inspection(work_order=wo)
+    if inspection is None:
+        raise Http404("No form of this work order has reached the server yet.")
+    result = selectors.result_for_display(result=inspection.sync_result, system=request.user.unit_system)
+    return render(request, "frontend/technician/_result.html", {"result": result})
+
+
+@login_required
+@require_GET
 def unit(request, code: str):
     ahu, component = backends.unit_for_label(user=request.user, code=code)
     if ahu is None:
@@ -62,7 +89,13 @@ def unit(request, code: str):
     return render(
         request,
         "frontend/technician/unit.html",
-        {"ahu": ahu, "component": component, "tree": component_tree(ahu=ahu), "work": list(work)},
+        {
+            "ahu": ahu,
+            "component": component,
+            "tree": component_tree(ahu=ahu),
+            "work": list(work),
+            **unit_records_context(ahu=ahu, system=request.user.unit_system),
+        },
     )
 
 
@@ -77,10 +110,16 @@ def _work_order(request, public_id):
 def checklist(request, public_id):
     wo = _work_order(request, public_id)
     data = backends.checklist_for(user=request.user, work_order=wo)
+    system = request.user.unit_system
     result = None
     if request.method == "POST" and data is not None:
         form = payload_from_post(checklist=data, post=request.POST, files=request.FILES)
         result = backends.sync_forms(user=request.user, forms=[form])[0]
+        wo.refresh_from_db()
+    inspection = selectors.latest_inspection(work_order=wo)
+    if result is None and inspection is not None:
+        result = inspection.sync_result
+    done = wo.state in (WorkOrder.State.COMPLETED, WorkOrder.State.VERIFIED)
     return render(
         request,
         "frontend/technician/checklist.html",
@@ -91,8 +130,12 @@ def checklist(request, public_id):
             "cautions": cautions_for(data or {}),
             "caution_blocks": caution_blocks(cautions_for(data or {})),
             "started_at": timezone.now().isoformat(),
-            "result": result,
+            "result": selectors.result_for_display(result=result, system=system),
             "checklist_api": CHECKLIST_API.format(wo.public_id),
+            "inspection": inspection,
+            "can_report": done and inspection is not None,
+            "can_verify": wo.state == WorkOrder.State.COMPLETED
+            and backends.work_orders_managed_by(user=request.user).filter(pk=wo.pk).exists(),
         },
         status=200 if data is not None else 503,
     )

@@ -20,6 +20,11 @@ export async function renderOutbox() {
   bar.querySelector("[data-outbox-error]").textContent =
     refused ? `${refused} form(s) need fixing` + (error ? `; ${error}` : "") : error;
   bar.dataset.count = String(items.length);
+  if ("outboxOptional" in bar.dataset) {
+    // Not a technician: the bar is only in the way unless a form of theirs is waiting.
+    bar.hidden = items.length === 0;
+    document.body.classList.toggle("no-outbox", bar.hidden);
+  }
 }
 
 function askWorker(message) {

@@ -81,7 +81,7 @@ function el(tag, attrs = {}, ...children) {
   return node;
 }
 
-function renderResult(box, result) {
+async function renderResult(box, result) {
   const section = el("section", { class: "card", "data-server-result": result.status });
   section.append(el("h2", {}, "Evaluation by the server"));
   section.append(el("p", {}, "Status: ", el("strong", {}, result.status),
@@ -91,7 +91,8 @@ function renderResult(box, result) {
   }
   const list = el("ul", { class: "results" });
   for (const e of result.evaluation || []) {
-    const derived = Object.entries(e.derived || {}).map(([k, v]) => `${k} = ${v}`).join("; ");
+    // Only until the server's own rendering (in the person's units) arrives: the raw values are SI.
+    const derived = Object.entries(e.derived || {}).map(([k, v]) => `${k} = ${v}`).join("; ") + (e.derived ? " (SI)" : "");
     list.append(el("li", {}, el("span", { class: `verdict ${e.verdict}` }, e.verdict),
       ` ${e.item}${e.component ? ` (${e.component})` : ""}: ${e.reason}`,
       ...(derived ? [el("br"), el("span", { class: "muted" }, derived)] : [])));
@@ -101,6 +102,16 @@ function renderResult(box, result) {
     section.append(el("p", {}, "Findings:"), el("ul", {}, ...result.findings.map((f) => el("li", {}, `${f.severity}: ${f.title}`))));
   }
   box.replaceChildren(section);
+  await showServerResult(box);
+}
+
+async function showServerResult(box) {
+  // The server renders its evaluation with derived values in the person's units; the phone keeps its copy offline.
+  if (!navigator.onLine || !box.dataset.resultUrl) return;
+  try {
+    const response = await fetch(box.dataset.resultUrl, { credentials: "same-origin", headers: { Accept: "text/html" } });
+    if (response.ok) box.innerHTML = await response.text();
+  } catch (error) { /* offline after all: the phone's copy stays */ }
 }
 
 function renderPending(box, item) {
@@ -125,7 +136,10 @@ async function showState(form) {
   if (pending.length) {
     renderPending(box, pending[pending.length - 1]);
     if (pending[pending.length - 1].state === "refused") form.dataset.clientUuid = pending[pending.length - 1].client_uuid;
-  } else if (results.length) renderResult(box, results[0]);
+  } else if (results.length) {
+    const rendered = box.querySelector("[data-rendered=server]");
+    if (!rendered || rendered.dataset.inspection !== String(results[0].inspection_id)) await renderResult(box, results[0]);
+  }
 }
 
 export function startChecklist() {

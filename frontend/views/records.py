@@ -1,0 +1,89 @@
+"""PDF records from the pages: ask for one (a POST form), then the list of reports with their state.
+
+The inputs are checked, tenancy included, by reports.services.report_request; a site,
+unit or work order the person may not see is a 404 there, and so here. The PDF itself
+is served by reports' own download view.
+"""
+
+from django.contrib import messages
+from django.contrib.auth.decorators import login_required
+from django.core.exceptions import ValidationError
+from django.shortcuts import redirect, render
+from django.urls import reverse
+from django.utils.http import url_has_allowed_host_and_scheme
+from django.views.decorators.http import require_GET, require_POST
+
+from inventory.selectors import ahus_visible_to
+
+from .. import backends
+
+KINDS = ("compliance", "unit_history", "inspection", "labels")
+PDFA_KINDS = ("compliance", "inspection")
+LAYOUTS = (("a4-3x8", "A4 (3 × 8 labels)"), ("letter-3x10", "US Letter (3 × 10 labels)"))
+
+
+def _ids(post, name: str) -> list[int]:
+    raw = [v for v in post.getlist(name) if v != ""]
+    try:
+        return [int(v) for v in raw]
+    except ValueError:
+        raise ValidationError({name: f"{name}={raw!r}: expected ids (whole numbers)"})
+
+
+def _one_id(post, name: str) -> int:
+    ids = _ids(post, name)
+    if len(ids) != 1:
+        raise ValidationError({name: f"{name}: give exactly one id"})
+    return ids[0]
+
+
+def parameters_from_post(*, user, kind: str, post) -> dict:
+    """The report's parameters from a page's form; reports checks them again, tenancy included."""
+    period = {k: post.get(k, "").strip() for k in ("start", "end") if post.get(k, "").strip()}
+    if kind == "compliance":
+        return {"sites": _ids(post, "sites"), **period}
+    if kind == "unit_history":
+        return {"unit": _one_id(post, "unit"), **period}
+    if kind == "inspection":
+        return {"work_order": post.get("work_order", "").strip()}
+    if kind == "labels":
+        units = _ids(post, "units")
+        if post.get("site"):
+            site = _one_id(post, "site")
+            units += list(ahus_visible_to(user=user).filter(building__site_id=site).values_list("pk", flat=True))
+            if not units:
+                raise ValidationError({"site": f"site={site}: no unit that you may see"})
+        return {"units": sorted(set(units)), "layout": post.get("layout", "")}
+    raise ValidationError({"kind": f"kind={kind!r}: allowed are {', '.join(KINDS)}"})
+
+
+def _back(request) -> str:
+    target = request.POST.get("next", "")
+    if target and url_has_allowed_host_and_scheme(target, allowed_hosts={request.get_host()}):
+        return target
+    return reverse("frontend:records")
+
+
+@login_required
+@require_POST
+def record_request(request):
+    kind = request.POST.get("kind", "")
+    pdfa = kind in PDFA_KINDS and request.POST.get("pdfa") == "1"
+    try:
+        params = parameters_from_post(user=request.user, kind=kind, post=request.POST)
+        report = backends.report_request(user=request.user, kind=kind, parameters=params, pdfa=pdfa)
+    except ValidationError as exc:
+        text = "; ".join(f"{m}" for m in exc.messages)
+        messages.error(request, f"The report was not requested: {text}")
+        return redirect(_back(request))
+    report.refresh_from_db(fields=["status"])  # rendered already when Celery runs in-process
+    messages.success(request, f"{report.get_kind_display()} requested ({report.get_status_display().lower()}).")
+    return redirect(reverse("frontend:records") + f"#report-{report.public_id}")
+
+
+@login_required
+@require_GET
+def records(request):
+    rows = backends.reports_visible_to(user=request.user, limit=50)
+    waiting = any(r.status in ("queued", "running") for r in rows)
+    return render(request, "frontend/records.html", {"reports": rows, "waiting": waiting})
