@@ -138,27 +138,27 @@ def today_work_assign(*, portfolio: Portfolio, per_technician: int = 8) -> int:
     from scheduling.models import WorkOrder
 
     techs = list(User.objects.filter(username__in=portfolio.main.technicians).order_by("username"))
-    open_ids = list(
+    planned = list(
         WorkOrder.objects.filter(
-            organisation_id=portfolio.main.organisation_id, state=WorkOrder.State.PLANNED, assignee__isnull=True
+            organisation_id=portfolio.main.organisation_id,
+            kind=WorkOrder.Kind.PREVENTIVE,
+            state=WorkOrder.State.PLANNED,
+            assignee__isnull=True,
         )
         .order_by("due_date", "pk")
-        .values_list("pk", flat=True)[: per_technician * len(techs)]
+        .values_list("pk", flat=True)
     )
+    # Every third planned visit from the earliest goes to a technician for today, so the board still shows
+    # unassigned work due this week beside the assigned.
+    open_ids = planned[::3][: per_technician * len(techs)]
     for i, tech in enumerate(techs):
         chunk = open_ids[i * per_technician : (i + 1) * per_technician]
         WorkOrder.objects.filter(pk__in=chunk).update(
             assignee=tech, state=WorkOrder.State.ASSIGNED, scheduled_for=portfolio.today
         )
-    # A further tenth of the open work assigned but not for today, as a board would show.
-    rest = (
-        WorkOrder.objects.filter(
-            organisation_id=portfolio.main.organisation_id, state=WorkOrder.State.PLANNED, assignee__isnull=True
-        )
-        .order_by("pk")
-        .values_list("pk", flat=True)
-    )
-    rest = list(rest)[::10]
+    # A further tenth of the rest assigned but not for today, as a board would show.
+    taken = set(open_ids)
+    rest = [pk for pk in planned if pk not in taken][1::10]
     for i, tech in enumerate(techs):
         WorkOrder.objects.filter(pk__in=rest[i :: len(techs)]).update(assignee=tech, state=WorkOrder.State.ASSIGNED)
     return len(open_ids)
