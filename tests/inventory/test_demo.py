@@ -86,10 +86,10 @@ def test_logins_work(demo, client):
 
 
 def test_command_prints_logins_twice_the_same(db, capsys):
-    """load_demo prints the login table, the same on a second run, and says nothing changed."""
-    call_command("load_demo")
+    """load_demo_registry prints the login table, the same on a second run, and says nothing changed."""
+    call_command("load_demo_registry")
     first = capsys.readouterr().out
-    call_command("load_demo")
+    call_command("load_demo_registry")
     second = capsys.readouterr().out
     assert "role" in first and "ruth.supervisor" in first and "plenum-demo-1" in first
     assert first.splitlines()[1:] == second.splitlines()[1:]
