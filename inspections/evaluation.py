@@ -48,6 +48,9 @@ ITEM_CONDITIONS = {
     "fan_proving.running_status": "fan_not_proven",
     "preheater_freeze.freeze_trip_test": "freeze_protection_failed",
     "preheater_freeze.freeze_trip_temp": "freeze_protection_failed",
+    # A preheater that does not switch on in time, or misses a stage, lets the first coil freeze.
+    "preheater_freeze.stage_on_temp": "freeze_protection_failed",
+    "preheater_freeze.stages": "freeze_protection_failed",
     "damper_actuator.stroke_time": "damper_position",
     "damper_actuator.linkage": "damper_position",
 }

@@ -1,0 +1,122 @@
+"""Electric preheater stage test and freeze-protection trip on a unit that has a preheater.
+
+Bands: stage 1 should switch on within 1 K of the set threshold (watch within 2 K), the frost
+thermostat should trip at 2–6 °C (watch 1–7 °C): common practice, no published source. A failed
+preheater or freeze-protection test inside or up to 30 days before the site's freeze season is urgent
+and approved at once (inspections/SYNC.md).
+"""
+
+import datetime as dt
+
+import pytest
+from django.core import mail
+
+from inspections.models import Finding
+from inventory.models import Site
+from scheduling.models import WorkOrder
+from tests.factories.inspections import make_visit, r, sync_form
+from tests.factories.inventory import ComponentFactory
+from tests.factories.scheduling import make_supervisor
+
+SYNC = "/api/inspections/sync/"
+THRESHOLD_C = -3.0
+SEASON_START = dt.date(2024, 10, 5)
+
+
+def _visit():
+    """A unit with a 3-stage 24 kW electric preheater switching on at −3 °C; freeze season from 5 October.
+
+    The site's monthly normals are kept mild (10 °C) so only the season start decides "near the season".
+    """
+    wo, tech = make_visit(tasks=["preheater_freeze"])
+    Site.objects.filter(pk=wo.ahu.building.site_id).update(
+        freeze_season_start=SEASON_START, normals_min_c=[10.0] * 12, normals_max_c=[20.0] * 12)
+    heater = ComponentFactory(ahu=wo.ahu, kind="electric_preheater", name="Electric preheater", position=1,
+                              specs={"power_w": 24_000, "stages": 3, "switch_on_c": THRESHOLD_C})
+    return wo, tech, heater
+
+
+def _submit(client, wo, tech, heater, *, stage_on, stages="ok", trip_temp=4.0, trip_test="ok", on: dt.date):
+    client.force_authenticate(tech)
+    readings = [
+        r("visit.run_hours", 1200),
+        r("preheater_freeze.stage_on_temp", stage_on, heater, note="stage 1 in"),
+        r("preheater_freeze.stages", stages, heater, note="stage currents"),
+        r("preheater_freeze.high_limit", "ok", heater),
+        r("preheater_freeze.freeze_trip_temp", trip_temp),
+        r("preheater_freeze.freeze_trip_test", trip_test, note="trip test"),
+    ]
+    finished = dt.datetime.combine(on, dt.time(10), tzinfo=dt.UTC)
+    res = client.post(SYNC, {"forms": [sync_form(wo, readings, finished_at=finished)]}, format="json")
+    [out] = res.json()["results"]
+    assert out["status"] in {"stored", "flagged"}, out
+    return out
+
+
+def _verdict(out, item):
+    return next(e for e in out["evaluation"] if e["item"] == item)
+
+
+@pytest.mark.django_db
+@pytest.mark.parametrize(("stage_on", "verdict"), [(-3.0, "ok"), (-2.0, "ok"), (-1.5, "watch"), (0.0, "fail")])
+def test_stage_one_switch_on_is_judged_against_the_heaters_threshold(api_client, stage_on, verdict):
+    """Threshold −3 °C: at −3 and −2 °C (1 K) ok; −1.5 °C (1.5 K) watch; 0 °C (3 K late) fail."""
+    wo, tech, heater = _visit()
+    out = _submit(api_client, wo, tech, heater, stage_on=stage_on, on=dt.date(2024, 7, 15))
+    ev = _verdict(out, "preheater_freeze.stage_on_temp")
+    assert ev["verdict"] == verdict and ev["component"] == heater.label_code
+    assert ev["derived"]["ok_min"] == -4.0 and ev["derived"]["ok_max"] == -2.0
+
+
+@pytest.mark.django_db
+def test_a_passing_preheater_and_trip_test_raise_no_work(api_client):
+    wo, tech, heater = _visit()
+    out = _submit(api_client, wo, tech, heater, stage_on=THRESHOLD_C, on=dt.date(2024, 9, 20))
+    assert {e["verdict"] for e in out["evaluation"]} == {"ok"}
+    assert out["findings"] == [] and out["work_order_state"] == "completed"
+
+
+@pytest.mark.django_db
+def test_failed_trip_test_25_days_before_the_freeze_season_opens_urgent_approved_work(
+    api_client, django_capture_on_commit_callbacks
+):
+    """10 September is 25 days before the 5 October season start: inside the 30-day lead → urgent, approved,
+    supervisors e-mailed."""
+    wo, tech, heater = _visit()
+    boss = make_supervisor(wo.organisation)
+    with django_capture_on_commit_callbacks(execute=True):
+        out = _submit(api_client, wo, tech, heater, stage_on=THRESHOLD_C, trip_test="not_ok",
+                      on=dt.date(2024, 9, 10))
+    assert _verdict(out, "preheater_freeze.freeze_trip_test")["verdict"] == "fail"
+    [f] = out["findings"]
+    assert f["severity"] == "critical"
+    cwo = Finding.objects.get(pk=f["id"]).corrective_work_order
+    assert cwo.priority == "urgent" and cwo.approval == WorkOrder.Approval.APPROVED
+    assert cwo.condition_code == "freeze_protection_failed"
+    assert "within 30 days of the freeze season" in cwo.reason
+    assert [m.to for m in mail.outbox] == [[boss.email]]
+
+
+@pytest.mark.django_db
+def test_preheater_switching_on_too_late_before_the_season_is_urgent_too(api_client):
+    """Stage 1 at +1 °C against −3 °C (4 K late) on 20 September, 15 days before the season: urgent."""
+    wo, tech, heater = _visit()
+    out = _submit(api_client, wo, tech, heater, stage_on=1.0, on=dt.date(2024, 9, 20))
+    assert _verdict(out, "preheater_freeze.stage_on_temp")["verdict"] == "fail"
+    [f] = out["findings"]
+    finding = Finding.objects.get(pk=f["id"])
+    assert finding.component == heater and finding.severity == "critical"
+    assert finding.corrective_work_order.priority == "urgent"
+
+
+@pytest.mark.django_db
+def test_failed_trip_test_65_days_before_the_season_waits_for_approval(api_client):
+    """1 August is 65 days before 5 October (and the normals stay at 10 °C): high priority, awaiting approval."""
+    wo, tech, heater = _visit()
+    out = _submit(api_client, wo, tech, heater, stage_on=THRESHOLD_C, trip_temp=0.0, trip_test="not_ok",
+                  on=dt.date(2024, 8, 1))
+    assert _verdict(out, "preheater_freeze.freeze_trip_temp")["verdict"] == "fail"
+    cwos = {Finding.objects.get(pk=f["id"]).corrective_work_order for f in out["findings"]}
+    assert len(cwos) == 1  # both trip failures share one open corrective work order for the condition
+    [cwo] = cwos
+    assert cwo.priority == "high" and cwo.approval == WorkOrder.Approval.PENDING
