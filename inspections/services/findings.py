@@ -72,11 +72,13 @@ def findings_open(*, inspection: Inspection, evaluations: list[Evaluation], resu
         reason = res.reason
         if urgent:
             reason += f" — inside or within {FREEZE_LEAD_DAYS} days of the freeze season at {site.name}"
-        wo = corrective_work_order_propose(
-            ahu=inspection.ahu, title=finding.title, reason=reason, condition_code=_known(res.condition_code),
-            priority=priority, component=res.component, source_ref=f"inspection:{inspection.pk}", by=by,
-            approved=urgent,
-        )
+        wo = None if _known(res.condition_code) else _open_corrective_for(finding=finding, item_key=ev.item_key)
+        if wo is None:
+            wo = corrective_work_order_propose(
+                ahu=inspection.ahu, title=finding.title, reason=reason, condition_code=_known(res.condition_code),
+                priority=priority, component=res.component, source_ref=f"inspection:{inspection.pk}", by=by,
+                approved=urgent,
+            )
         finding.corrective_work_order = wo
         finding.save(update_fields=["corrective_work_order"])
         out.append(finding)
@@ -86,6 +88,30 @@ def findings_open(*, inspection: Inspection, evaluations: list[Evaluation], resu
 # Condition codes the scheduling engine knows; other fails raise corrective work without one.
 KNOWN_CONDITIONS = {"filter_loaded", "sensor_drift", "supply_temp_off", "damper_position", "fan_not_proven",
                     "freeze_protection_failed"}
+
+
+def _open_corrective_for(*, finding: Finding, item_key: str):
+    """An open corrective work order raised earlier for the same unit, part and problem, if any.
+
+    For failures without a scheduling condition (drain pan, belt, low outdoor air, coil balance, duct
+    static, heat recovery…) scheduling cannot find the duplicate itself, so the earlier findings say
+    what was raised: the same condition code, or for failures without one the same checklist item.
+    Open means not completed, verified or cancelled, and not rejected by a supervisor.
+    """
+    from scheduling.models import WorkOrder
+
+    earlier = Finding.objects.filter(
+        ahu_id=finding.ahu_id, component=finding.component, corrective_work_order__kind=WorkOrder.Kind.CORRECTIVE,
+        corrective_work_order__state__in=WorkOrder.OPEN_STATES,
+    ).exclude(pk=finding.pk).exclude(corrective_work_order__approval=WorkOrder.Approval.REJECTED)
+    if finding.condition_code:
+        earlier = earlier.filter(condition_code=finding.condition_code)
+    else:
+        earlier = earlier.filter(condition_code="", evaluation__item_key=item_key)
+    wo_id = earlier.order_by("-opened_at", "-pk").values_list("corrective_work_order_id", flat=True).first()
+    if wo_id is None:
+        return None
+    return WorkOrder.objects.select_for_update().get(pk=wo_id)
 
 
 def _known(code: str) -> str:
