@@ -15,6 +15,11 @@ Occurrence keys (unique per unit, task code and component in the database):
   moves with the rate (the row is updated, not duplicated);
 * season: ``<season>:<year of the season start>`` — due its lead time before the
   start, or at once when that window has already opened; moves with the forecast.
+
+Speed: a nightly run over thousands of units is mostly idempotent, so the loop
+works on light rows read with ``values_list`` (no model instances), reads each
+meter's rate and each task's target rule once, and reads back only the stored
+occurrences a run could want again.
 """
 
 from __future__ import annotations
@@ -24,6 +29,7 @@ import datetime as dt
 import zoneinfo
 from collections import defaultdict
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 from django.db import transaction
 from django.db.models import Max, Q
@@ -31,18 +37,21 @@ from django.utils import timezone
 
 from engineering.errors import EngineeringInputError
 from engineering.trends import run_hours_per_day
-from inventory.models import AHU
+from inventory.models import AHU, Component
 
 from .models import MeterReading, TaskDefinition, UnitTaskSetting, WorkOrder, WorkOrderTask
 from .selectors import effective_tasks
 from .services.seasons import SEASON_LOOKBACK_DAYS, season_starts
-from .targets import task_targets
+from .targets import TaskTargets
 
 BUNDLE_DAYS = 14
 RATE_WINDOW_DAYS = 120  # "recent" run-hour rate: readings of the last four months (common practice)
 RATE_MAX_READINGS = 20
+METER_HISTORY_DAYS = 800
 MOVABLE_STATES = frozenset({WorkOrder.State.PLANNED, WorkOrder.State.ASSIGNED})
 Trigger = TaskDefinition.Trigger
+_MONTHS = TaskDefinition.IntervalUnit.MONTHS
+_WEEKS = TaskDefinition.IntervalUnit.WEEKS
 
 
 @dataclass
@@ -54,11 +63,34 @@ class GenerationResult:
     lines: list[str] = field(default_factory=list)
 
 
-@dataclass
+@dataclass(slots=True)
+class _Part:
+    """A component as the engine needs it (what ``targets`` reads: kind, specs)."""
+
+    pk: int
+    kind: str
+    specs: dict
+    position: int
+
+
+@dataclass(slots=True)
+class _Unit:
+    """An in-service AHU as the engine needs it."""
+
+    pk: int
+    tag: str
+    site_id: int
+    full_outdoor_air: bool
+    anchor: dt.date
+    parts: list[_Part] = field(default_factory=list)
+    by_kind: dict[str, list[_Part]] = field(default_factory=dict)
+
+
+@dataclass(slots=True)
 class _Occ:
-    ahu: AHU
+    unit: _Unit
     task: TaskDefinition
-    component: object
+    ck: int  # component id, 0 for the unit itself
     due: dt.date
     key: str
     movable: bool
@@ -66,7 +98,7 @@ class _Occ:
 
     @property
     def ident(self) -> tuple:
-        return (self.ahu.pk, self.task.code, self.component.pk if self.component else 0, self.key)
+        return (self.unit.pk, self.task.code, self.ck, self.key)
 
 
 def add_months(day: dt.date, months: int) -> dt.date:
@@ -76,19 +108,19 @@ def add_months(day: dt.date, months: int) -> dt.date:
 
 
 def add_interval(day: dt.date, value: int, unit: str, times: int = 1) -> dt.date:
-    if unit == TaskDefinition.IntervalUnit.MONTHS:
+    if unit == _MONTHS:
         return add_months(day, value * times)
-    step = value * (7 if unit == TaskDefinition.IntervalUnit.WEEKS else 1)
+    step = value * (7 if unit == _WEEKS else 1)
     return day + dt.timedelta(days=step * times)
 
 
 def calendar_occurrences(*, anchor: dt.date, value: int, unit: str, start: dt.date, end: dt.date) -> list[dt.date]:
     """Dates anchor + k·interval (k ≥ 1) falling in [start, end]."""
-    if unit == TaskDefinition.IntervalUnit.MONTHS:
+    if unit == _MONTHS:
         months = (start.year - anchor.year) * 12 + start.month - anchor.month
         k = max(1, months // value - 1)
     else:
-        step = value * (7 if unit == TaskDefinition.IntervalUnit.WEEKS else 1)
+        step = value * (7 if unit == _WEEKS else 1)
         k = max(1, (start - anchor).days // step)
     out = []
     while True:
@@ -104,13 +136,29 @@ def _local(when: dt.datetime, tz: zoneinfo.ZoneInfo) -> dt.date:
     return when.astimezone(tz).date()
 
 
+@lru_cache(maxsize=20_000)
+def _rate_per_day(readings: tuple[tuple[dt.datetime, float], ...]) -> float | None:
+    """Robust run-hour rate (h/day) of the readings, None when none can be drawn.
+
+    A pure function of the readings, kept across runs: a unit's recent readings
+    rarely change between two nightly runs, and the Theil–Sen fit is the
+    engine's costliest step per unit.
+    """
+    try:
+        return run_hours_per_day(readings=list(readings)).slope
+    except EngineeringInputError:
+        return None
+
+
 class _Meters:
     """Run-hour readings of the units, grouped per meter, since each meter's last reset."""
 
-    def __init__(self, ahu_ids: list[int], now: dt.datetime):
+    def __init__(self, ahu_ids, now: dt.datetime):
+        self.now = now
         self.by_meter: dict[tuple[int, int], list[tuple[dt.datetime, float, bool, int]]] = defaultdict(list)
+        self._rates: dict[tuple[int, int], float | None] = {}
         rows = (
-            MeterReading.objects.filter(ahu_id__in=ahu_ids, taken_at__gte=now - dt.timedelta(days=800))
+            MeterReading.objects.filter(ahu_id__in=ahu_ids, taken_at__gte=now - dt.timedelta(days=METER_HISTORY_DAYS))
             .order_by("taken_at", "id")
             .values_list("ahu_id", "component_id", "taken_at", "hours", "is_reset", "id")
         )
@@ -120,28 +168,31 @@ class _Meters:
                 series.clear()
             series.append((taken_at, hours, is_reset, pk))
 
-    def meter_for(self, ahu: AHU, components) -> tuple[int, int] | None:
-        if self.by_meter.get((ahu.pk, 0)):
-            return (ahu.pk, 0)
-        fans = [c for c in components if c.kind == "fan"]
-        fans.sort(key=lambda c: (c.specs.get("role") != "supply", c.pk))
+    def meter_for(self, unit: _Unit) -> tuple[int, int] | None:
+        if self.by_meter.get((unit.pk, 0)):
+            return (unit.pk, 0)
+        fans = sorted(unit.by_kind.get("fan", ()), key=lambda c: (c.specs.get("role") != "supply", c.pk))
         for fan in fans:
-            if self.by_meter.get((ahu.pk, fan.pk)):
-                return (ahu.pk, fan.pk)
+            if self.by_meter.get((unit.pk, fan.pk)):
+                return (unit.pk, fan.pk)
         return None
 
-    def projection(self, meter, *, run_hours: int, last_done: dt.datetime | None, now: dt.datetime):
+    def rate(self, meter) -> float | None:
+        if meter not in self._rates:
+            series = self.by_meter[meter]
+            since = self.now - dt.timedelta(days=RATE_WINDOW_DAYS)
+            recent = [r for r in series if r[0] >= since][-RATE_MAX_READINGS:]
+            if len(recent) < 2:
+                recent = series[-2:]
+            self._rates[meter] = _rate_per_day(tuple((r[0], r[1]) for r in recent))
+        return self._rates[meter]
+
+    def projection(self, meter, *, run_hours: int, last_done: dt.datetime | None):
         """(key part, projected date-time when the next ``run_hours`` are reached) or None without a rate."""
+        slope = self.rate(meter)
+        if slope is None or slope <= 0:
+            return None
         series = self.by_meter[meter]
-        recent = [r for r in series if r[0] >= now - dt.timedelta(days=RATE_WINDOW_DAYS)][-RATE_MAX_READINGS:]
-        if len(recent) < 2:
-            recent = series[-2:]
-        try:
-            rate = run_hours_per_day(readings=[(r[0], r[1]) for r in recent])
-        except EngineeringInputError:
-            return None
-        if rate.slope <= 0:
-            return None
         reset_id = series[0][3] if series[0][2] else 0
         if last_done is not None and last_done >= series[0][0]:
             before = [r for r in series if r[0] <= last_done]
@@ -150,7 +201,7 @@ class _Meters:
         else:
             target = (int(series[-1][1] // run_hours) + 1) * run_hours
         last_at, last_hours = series[-1][0], series[-1][1]
-        when = last_at + dt.timedelta(days=max(0.0, (target - last_hours) / rate.slope))
+        when = last_at + dt.timedelta(days=max(0.0, (target - last_hours) / slope))
         return f"h:{reset_id}:{round(target)}", when
 
 
@@ -165,47 +216,81 @@ def _season_starts_for(site, today: dt.date) -> tuple[dt.date | None, dt.date | 
     return freeze, cooling
 
 
-def _occurrences(*, ahu, components, task, today, end, last_done, meters, seasons, now) -> list[_Occ]:
-    site = ahu.building.site
-    tz = zoneinfo.ZoneInfo(site.time_zone)
-    targets = task_targets(task=task, ahu=ahu, components=components)
+@dataclass(slots=True)
+class _SiteDay:
+    tz: zoneinfo.ZoneInfo
+    today: dt.date
+    end: dt.date
+    seasons: dict[str, tuple[dt.date | None, str]]  # season -> (start, occurrence key)
+
+
+class _Rules:
+    """The organisation's generated tasks with what the loop needs of each, worked out once per run."""
+
+    def __init__(self, tasks: list[TaskDefinition]):
+        self.items = [(task, TaskTargets(task)) for task in tasks]
+        self._grid: dict[tuple, list[dt.date]] = {}
+
+    def grid(self, anchor: dt.date, task: TaskDefinition, start: dt.date, end: dt.date) -> list[dt.date]:
+        key = (anchor, task.interval_value, task.interval_unit, start, end)
+        days = self._grid.get(key)
+        if days is None:
+            days = self._grid[key] = calendar_occurrences(
+                anchor=anchor, value=task.interval_value, unit=task.interval_unit, start=start, end=end
+            )
+        return days
+
+
+def _occurrences(*, unit: _Unit, site: _SiteDay, rules: _Rules, disabled, last_done, meters) -> list[_Occ]:
+    """Every due occurrence of every (enabled) task on one unit within the site's horizon."""
     out: list[_Occ] = []
-    anchor = ahu.service_start or _local(ahu.created_at, tz)
-    for comp in targets:
-        ck = comp.pk if comp else 0
-        done = last_done.get((ahu.pk, task.code, ck))
-        if task.trigger == Trigger.INTERVAL:
+    today, end = site.today, site.end
+    meter = False  # not looked up yet
+    for task, targets in rules.items:
+        if (unit.pk, task.code) in disabled:
+            continue
+        comps = targets.components_grouped(ahu=unit, components_by_kind=unit.by_kind, order=lambda c: c.position)
+        if not comps:
+            continue
+        trigger = task.trigger
+        if trigger == Trigger.INTERVAL:
             if task.anchor == TaskDefinition.Anchor.FLOATING:
-                basis = _local(done, tz) if done else anchor
-                due = max(add_interval(basis, task.interval_value, task.interval_unit), today)
-                if due <= end:
-                    out.append(_Occ(ahu, task, comp, due, f"after:{basis.isoformat()}", False))
+                for comp in comps:
+                    ck = comp.pk if comp else 0
+                    done = last_done.get((unit.pk, task.code, ck))
+                    basis = _local(done, site.tz) if done else unit.anchor
+                    due = max(add_interval(basis, task.interval_value, task.interval_unit), today)
+                    if due <= end:
+                        out.append(_Occ(unit, task, ck, due, f"after:{basis.isoformat()}", False))
             else:
-                for due in calendar_occurrences(
-                    anchor=anchor, value=task.interval_value, unit=task.interval_unit, start=today, end=end
-                ):
-                    out.append(_Occ(ahu, task, comp, due, f"c:{due.isoformat()}", False))
-        elif task.trigger == Trigger.RUNTIME:
-            meter = meters.meter_for(ahu, components)
+                days = rules.grid(unit.anchor, task, today, end)
+                for comp in comps:
+                    ck = comp.pk if comp else 0
+                    out.extend(_Occ(unit, task, ck, due, f"c:{due.isoformat()}", False) for due in days)
+        elif trigger == Trigger.RUNTIME:
+            if meter is False:
+                meter = meters.meter_for(unit)
             if meter is None:
                 continue
-            proj = meters.projection(meter, run_hours=task.run_hours, last_done=done, now=now)
-            if proj is None:
-                continue
-            key, when = proj
-            natural = _local(when, tz)
-            if natural <= end:
-                out.append(_Occ(ahu, task, comp, max(natural, today), key, True, natural < today))
-        elif task.trigger == Trigger.SEASON:
-            freeze, cooling = seasons[site.pk]
-            start = freeze if task.season == TaskDefinition.Season.FREEZE else cooling
+            for comp in comps:
+                ck = comp.pk if comp else 0
+                proj = meters.projection(
+                    meter, run_hours=task.run_hours, last_done=last_done.get((unit.pk, task.code, ck))
+                )
+                if proj is None:
+                    continue
+                key, when = proj
+                natural = _local(when, site.tz)
+                if natural <= end:
+                    out.append(_Occ(unit, task, ck, max(natural, today), key, True, natural < today))
+        elif trigger == Trigger.SEASON:
+            start, key = site.seasons.get(task.season, (None, ""))
             if start is None or start < today - dt.timedelta(days=SEASON_LOOKBACK_DAYS):
                 continue
             natural = start - dt.timedelta(days=task.lead_days or 0)
             if natural <= end:
-                out.append(
-                    _Occ(ahu, task, comp, max(natural, today), f"{task.season}:{start.year}", True, natural < today)
-                )
+                due, clamped = max(natural, today), natural < today
+                out.extend(_Occ(unit, task, comp.pk if comp else 0, due, key, True, clamped) for comp in comps)
     return out
 
 
@@ -213,6 +298,35 @@ def _title(tasks: list[TaskDefinition]) -> str:
     names = ", ".join(sorted({t.name for t in tasks}))
     title = f"Preventive maintenance: {names}"
     return title if len(title) <= 200 else title[:197] + "…"
+
+
+def _units(ahus_qs) -> tuple[list[_Unit], dict[int, object]]:
+    """Light rows of the in-service units and their components, plus the sites they are on (3 queries)."""
+    from inventory.models import Site
+
+    rows = list(
+        ahus_qs.values_list("pk", "tag", "building__site_id", "full_outdoor_air", "service_start", "created_at")
+    )
+    sites = {s.pk: s for s in Site.objects.filter(pk__in={r[2] for r in rows})}
+    units: dict[int, _Unit] = {}
+    zones: dict[int, zoneinfo.ZoneInfo] = {}
+    for pk, tag, site_id, full_oa, service_start, created_at in rows:
+        if site_id not in zones:
+            zones[site_id] = zoneinfo.ZoneInfo(sites[site_id].time_zone)
+        units[pk] = _Unit(pk, tag, site_id, full_oa, service_start or _local(created_at, zones[site_id]))
+    parts = (
+        Component.objects.filter(ahu_id__in=ahus_qs.values("pk"))
+        .order_by("ahu_id", "position", "id")
+        .values_list("ahu_id", "pk", "kind", "specs")
+    )
+    for ahu_id, pk, kind, specs in parts:
+        unit = units.get(ahu_id)
+        if unit is None:
+            continue
+        part = _Part(pk, kind, specs or {}, len(unit.parts))
+        unit.parts.append(part)
+        unit.by_kind.setdefault(kind, []).append(part)
+    return list(units.values()), sites
 
 
 def work_orders_generate(
@@ -231,19 +345,16 @@ def work_orders_generate(
     """
     now = timezone.now()
     tasks = [t for t in effective_tasks(organisation=organisation).values() if t.trigger != Trigger.CONDITION]
-    ahus_qs = (
-        AHU.objects.filter(building__site__organisation=organisation, status=AHU.Status.IN_SERVICE)
-        .select_related("building__site")
-        .prefetch_related("components")
-        .order_by("pk")
-    )
+    ahus_qs = AHU.objects.filter(building__site__organisation=organisation, status=AHU.Status.IN_SERVICE).order_by("pk")
     if site is not None:
         ahus_qs = ahus_qs.filter(building__site=site)
-    ahus = list(ahus_qs)
-    ahu_ids = [a.pk for a in ahus]
     result = GenerationResult()
-    if not ahus or not tasks:
+    if not tasks:
         return result
+    units, sites = _units(ahus_qs)
+    if not units:
+        return result
+    ahu_ids = ahus_qs.values("pk")
     disabled = set(UnitTaskSetting.objects.filter(ahu_id__in=ahu_ids, enabled=False).values_list("ahu_id", "task_code"))
     last_done = {
         (r["ahu_id"], r["task_code"], r["component_key"]): r["last"]
@@ -252,41 +363,48 @@ def work_orders_generate(
         .annotate(last=Max("completed_at"))
     }
     meters = _Meters(ahu_ids, now)
-    site_today: dict[int, dt.date] = {}
-    seasons: dict[int, tuple] = {}
-    for a in ahus:
-        s = a.building.site
-        if s.pk not in site_today:
-            site_today[s.pk] = today or now.astimezone(zoneinfo.ZoneInfo(s.time_zone)).date()
-            seasons[s.pk] = _season_starts_for(s, site_today[s.pk])
+    days: dict[int, _SiteDay] = {}
+    for s in sites.values():
+        tz = zoneinfo.ZoneInfo(s.time_zone)
+        day = today or now.astimezone(tz).date()
+        freeze, cooling = _season_starts_for(s, day)
+        days[s.pk] = _SiteDay(
+            tz=tz,
+            today=day,
+            end=day + dt.timedelta(days=horizon_days),
+            seasons={
+                TaskDefinition.Season.FREEZE: (
+                    freeze,
+                    f"{TaskDefinition.Season.FREEZE}:{freeze.year}" if freeze else "",
+                ),
+                TaskDefinition.Season.COOLING: (
+                    cooling,
+                    f"{TaskDefinition.Season.COOLING}:{cooling.year}" if cooling else "",
+                ),
+            },
+        )
 
+    rules = _Rules(tasks)
     wanted: list[_Occ] = []
-    for a in ahus:
-        comps = list(a.components.all())
-        day = site_today[a.building.site_id]
-        end = day + dt.timedelta(days=horizon_days)
-        for task in tasks:
-            if (a.pk, task.code) in disabled:
-                continue
-            wanted.extend(
-                _occurrences(
-                    ahu=a,
-                    components=comps,
-                    task=task,
-                    today=day,
-                    end=end,
-                    last_done=last_done,
-                    meters=meters,
-                    seasons=seasons,
-                    now=now,
-                )
+    for unit in units:
+        wanted.extend(
+            _occurrences(
+                unit=unit, site=days[unit.site_id], rules=rules, disabled=disabled, last_done=last_done, meters=meters
             )
+        )
 
-    earliest = min(site_today.values()) - dt.timedelta(days=800)
+    # Stored occurrences a run could want again: every open one; of the completed ones, calendar keys only
+    # from the earliest site's today on (a calendar key is its due date, and none earlier is wanted), the
+    # others (seasons, run-hours, floating) over the meter history.
+    first_day = min(d.today for d in days.values())
     existing = {
         (ahu_id, code, ck, key): (pk, due, wo_id, state)
         for pk, ahu_id, code, ck, key, due, wo_id, state in WorkOrderTask.objects.filter(ahu_id__in=ahu_ids)
-        .filter(Q(completed_at__isnull=True) | Q(due_date__gte=earliest))
+        .filter(
+            Q(completed_at__isnull=True)
+            | Q(due_date__gte=first_day)
+            | (Q(due_date__gte=first_day - dt.timedelta(days=METER_HISTORY_DAYS)) & ~Q(occurrence_key__startswith="c:"))
+        )
         .values_list(
             "id",
             "ahu_id",
@@ -298,11 +416,6 @@ def work_orders_generate(
             "work_order__state",
         )
     }
-    open_visits: dict[int, list[list]] = defaultdict(list)  # ahu -> [[wo_id, due, created_here]]
-    for wo_id, ahu_id, due in WorkOrder.objects.filter(
-        ahu_id__in=ahu_ids, kind=WorkOrder.Kind.PREVENTIVE, state__in=MOVABLE_STATES
-    ).values_list("id", "ahu_id", "due_date"):
-        open_visits[ahu_id].append([wo_id, due, False])
 
     new: list[_Occ] = []
     moves: list[tuple[int, dt.date, int]] = []
@@ -322,89 +435,94 @@ def work_orders_generate(
     result.moved = len(moves)
     result.created = len(new)
     if dry_run:
-        result.lines = [f"would create {o.task.code} on {o.ahu.tag} due {o.due}" for o in new]
+        result.lines = [f"would create {o.task.code} on {o.unit.tag} due {o.due}" for o in new]
+        return result
+    if not new and not moves:
         return result
 
     with transaction.atomic():
-        # Bundle per unit: attach to an open visit within the window, else start a new visit.
-        new.sort(key=lambda o: (o.ahu.pk, o.due, o.task.code))
-        fresh: list[tuple[WorkOrder, list[_Occ]]] = []
-        attach: list[tuple[int, _Occ]] = []
-        for occ in new:
-            visits = open_visits[occ.ahu.pk]
-            home = next((v for v in visits if abs((v[1] - occ.due).days) <= bundle_days), None)
-            if home is None:
-                wo = WorkOrder(
-                    organisation=organisation,
-                    ahu=occ.ahu,
-                    kind=WorkOrder.Kind.PREVENTIVE,
-                    due_date=occ.due,
-                    title="",
-                    overdue_on=occ.due + dt.timedelta(days=occ.task.grace_days),
-                )
-                fresh.append((wo, [occ]))
-                visits.append([wo, occ.due, True])
-            elif home[2]:
-                next(f for f in fresh if f[0] is home[0])[1].append(occ)
-            else:
-                attach.append((home[0], occ))
-        for wo, occs in fresh:
-            wo.title = _title([o.task for o in occs])
-            wo.due_date = min(o.due for o in occs)
-            wo.overdue_on = min(o.due + dt.timedelta(days=o.task.grace_days) for o in occs)
-        WorkOrder.objects.bulk_create([wo for wo, _ in fresh])
-        rows = [
-            WorkOrderTask(
-                work_order_id=wo.pk,
-                task=o.task,
-                task_code=o.task.code,
-                ahu=o.ahu,
-                component=o.component,
-                component_key=o.component.pk if o.component else 0,
-                due_date=o.due,
-                occurrence_key=o.key,
-            )
-            for wo, occs in fresh
-            for o in occs
-        ]
-        rows += [
-            WorkOrderTask(
-                work_order_id=wo_id,
-                task=o.task,
-                task_code=o.task.code,
-                ahu=o.ahu,
-                component=o.component,
-                component_key=o.component.pk if o.component else 0,
-                due_date=o.due,
-                occurrence_key=o.key,
-            )
-            for wo_id, o in attach
-        ]
-        WorkOrderTask.objects.bulk_create(rows, ignore_conflicts=True, batch_size=2000)
-        fresh_ids = [wo.pk for wo, _ in fresh]
-        if fresh_ids:
-            # A concurrent run may have created some occurrences first; its rows won, so drop empty visits.
-            empty = list(WorkOrder.objects.filter(pk__in=fresh_ids, tasks__isnull=True).values_list("pk", flat=True))
-            if empty:
-                lost = sum(len(occs) for wo, occs in fresh if wo.pk in set(empty))
-                WorkOrder.objects.filter(pk__in=empty).delete()
-                result.created -= lost
-                result.unchanged += lost
-            result.work_orders_created = len(fresh_ids) - len(empty)
+        _write_new(organisation=organisation, new=new, ahu_ids=ahu_ids, bundle_days=bundle_days, result=result)
         if moves:
-            task_rows = [WorkOrderTask(pk=pk, due_date=due) for pk, due, _ in moves]
-            WorkOrderTask.objects.bulk_update(task_rows, ["due_date"])
-            touched = {wo_id for _, _, wo_id in moves}
-            firsts = {}
-            for wo_id, due in WorkOrderTask.objects.filter(work_order_id__in=touched).values_list(
-                "work_order_id", "due_date"
-            ):
-                firsts[wo_id] = min(due, firsts.get(wo_id, due))
-            orders = list(WorkOrder.objects.filter(pk__in=touched).only("id", "due_date", "overdue_on", "version"))
-            for wo in orders:
-                shift = firsts[wo.pk] - wo.due_date
-                wo.due_date = firsts[wo.pk]
-                wo.overdue_on = (wo.overdue_on or wo.due_date) + shift
-                wo.version += 1
-            WorkOrder.objects.bulk_update(orders, ["due_date", "overdue_on", "version"])
+            _write_moves(moves)
     return result
+
+
+def _write_new(*, organisation, new: list[_Occ], ahu_ids, bundle_days: int, result: GenerationResult) -> None:
+    """Bundle per unit: attach to an open visit within the window, else start a new visit; insert in bulk."""
+    if not new:
+        return
+    open_visits: dict[int, list[list]] = defaultdict(list)  # ahu -> [[wo or wo_id, due, occurrences or None]]
+    for wo_id, ahu_id, due in WorkOrder.objects.filter(
+        ahu_id__in=ahu_ids, kind=WorkOrder.Kind.PREVENTIVE, state__in=MOVABLE_STATES
+    ).values_list("id", "ahu_id", "due_date"):
+        open_visits[ahu_id].append([wo_id, due, None])
+    new.sort(key=lambda o: (o.unit.pk, o.due, o.task.code))
+    fresh: list[tuple[WorkOrder, list[_Occ]]] = []
+    attach: list[tuple[int, _Occ]] = []
+    for occ in new:
+        visits = open_visits[occ.unit.pk]
+        home = next((v for v in visits if abs((v[1] - occ.due).days) <= bundle_days), None)
+        if home is None:
+            wo = WorkOrder(
+                organisation=organisation,
+                ahu_id=occ.unit.pk,
+                kind=WorkOrder.Kind.PREVENTIVE,
+                due_date=occ.due,
+                title="",
+                overdue_on=occ.due + dt.timedelta(days=occ.task.grace_days),
+            )
+            occs = [occ]
+            fresh.append((wo, occs))
+            visits.append([wo, occ.due, occs])
+        elif home[2] is not None:
+            home[2].append(occ)
+        else:
+            attach.append((home[0], occ))
+    for wo, occs in fresh:
+        wo.title = _title([o.task for o in occs])
+        wo.due_date = min(o.due for o in occs)
+        wo.overdue_on = min(o.due + dt.timedelta(days=o.task.grace_days) for o in occs)
+    WorkOrder.objects.bulk_create([wo for wo, _ in fresh], batch_size=1000)
+
+    def row(wo_id: int, o: _Occ) -> WorkOrderTask:
+        return WorkOrderTask(
+            work_order_id=wo_id,
+            task_id=o.task.pk,
+            task_code=o.task.code,
+            ahu_id=o.unit.pk,
+            component_id=o.ck or None,
+            component_key=o.ck,
+            due_date=o.due,
+            occurrence_key=o.key,
+        )
+
+    rows = [row(wo.pk, o) for wo, occs in fresh for o in occs]
+    rows += [row(wo_id, o) for wo_id, o in attach]
+    WorkOrderTask.objects.bulk_create(rows, ignore_conflicts=True, batch_size=2000)
+    fresh_ids = [wo.pk for wo, _ in fresh]
+    if fresh_ids:
+        # A concurrent run may have created some occurrences first; its rows won, so drop empty visits.
+        empty = set(WorkOrder.objects.filter(pk__in=fresh_ids, tasks__isnull=True).values_list("pk", flat=True))
+        if empty:
+            lost = sum(len(occs) for wo, occs in fresh if wo.pk in empty)
+            WorkOrder.objects.filter(pk__in=empty).delete()
+            result.created -= lost
+            result.unchanged += lost
+        result.work_orders_created = len(fresh_ids) - len(empty)
+
+
+def _write_moves(moves: list[tuple[int, dt.date, int]]) -> None:
+    """Move projected occurrences to their new dates; each touched visit follows its first task."""
+    task_rows = [WorkOrderTask(pk=pk, due_date=due) for pk, due, _ in moves]
+    WorkOrderTask.objects.bulk_update(task_rows, ["due_date"], batch_size=1000)
+    touched = {wo_id for _, _, wo_id in moves}
+    firsts = {}
+    for wo_id, due in WorkOrderTask.objects.filter(work_order_id__in=touched).values_list("work_order_id", "due_date"):
+        firsts[wo_id] = min(due, firsts.get(wo_id, due))
+    orders = list(WorkOrder.objects.filter(pk__in=touched).only("id", "due_date", "overdue_on", "version"))
+    for wo in orders:
+        shift = firsts[wo.pk] - wo.due_date
+        wo.due_date = firsts[wo.pk]
+        wo.overdue_on = (wo.overdue_on or wo.due_date) + shift
+        wo.version += 1
+    WorkOrder.objects.bulk_update(orders, ["due_date", "overdue_on", "version"], batch_size=1000)

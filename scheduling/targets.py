@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Iterable
+from collections.abc import Iterable, Mapping
 
 # Recirculation dampers make no sense on a 100 % outdoor-air unit, whatever the registry says.
 RECIRCULATION_DAMPER_ROLES = frozenset({"return", "mixing"})
@@ -39,8 +39,40 @@ def component_applies(*, task, ahu, component) -> bool:
 
 def task_targets(*, task, ahu, components: Iterable) -> list:
     """The components the task is done on; ``[None]`` for a unit-level task; ``[]`` when it does not apply."""
-    if not task.component_kind:
-        return [None]
-    targets = task.targets()
-    kinds = {t["kind"] for t in targets}
-    return [c for c in components if c.kind in kinds and _applies(targets, ahu, c)]
+    return TaskTargets(task).components(ahu=ahu, components=components)
+
+
+class TaskTargets:
+    """``task_targets`` with the task's target list read once, for loops over many units.
+
+    ``components_by_kind`` (kind -> components in the unit's order) lets a caller
+    that groups a unit's components once skip the scan over the other kinds.
+    """
+
+    __slots__ = ("kinds", "targets", "unit_level")
+
+    def __init__(self, task) -> None:
+        self.unit_level = not task.component_kind
+        self.targets = task.targets()
+        self.kinds = tuple(dict.fromkeys(t["kind"] for t in self.targets))
+
+    def components(self, *, ahu, components: Iterable) -> list:
+        if self.unit_level:
+            return [None]
+        return [c for c in components if c.kind in self.kinds and _applies(self.targets, ahu, c)]
+
+    def components_grouped(self, *, ahu, components_by_kind: Mapping[str, list], order=None) -> list:
+        """Same answer as ``components`` from the unit's components grouped by kind.
+
+        ``order`` (component -> position in the unit) keeps the unit's order when the
+        task spans several kinds.
+        """
+        if self.unit_level:
+            return [None]
+        if len(self.kinds) == 1:
+            candidates = components_by_kind.get(self.kinds[0], ())
+        else:
+            candidates = [c for k in self.kinds for c in components_by_kind.get(k, ())]
+            if order is not None:
+                candidates.sort(key=order)
+        return [c for c in candidates if _applies(self.targets, ahu, c)]
