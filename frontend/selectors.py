@@ -141,7 +141,18 @@ def latest_inspection(*, work_order):
     )
 
 
-def result_for_display(*, result: dict | None, system: str) -> dict | None:
+def item_labels(checklist: dict | None) -> dict[tuple[str, str | None], str]:
+    """{(item key, component label code): "Label — component name"} from a checklist (inspections/SYNC.md §1)."""
+    labels = {}
+    for template in (checklist or {}).get("templates", []):
+        for item in template.get("items", []):
+            comp = item.get("component") or {}
+            text = item.get("label") or item.get("key")
+            labels[(item.get("key"), comp.get("label_code"))] = f"{text} — {comp['name']}" if comp.get("name") else text
+    return labels
+
+
+def result_for_display(*, result: dict | None, system: str, labels: dict | None = None) -> dict | None:
     """The server's answer to a synced form, with each evaluation's derived values in the reader's units.
 
     The reasons are kept as the inspections app wrote them (SI, see inspections/SYNC.md);
@@ -151,6 +162,11 @@ def result_for_display(*, result: dict | None, system: str) -> dict | None:
         return None
     shown_result = dict(result)
     shown_result["evaluation"] = [
-        {**e, "derived_display": derived_rows(e.get("derived") or {}, system)} for e in result.get("evaluation") or []
+        {
+            **e,
+            "label": (labels or {}).get((e.get("item"), e.get("component"))),
+            "derived_display": derived_rows(e.get("derived") or {}, system),
+        }
+        for e in result.get("evaluation") or []
     ]
     return shown_result

@@ -8,12 +8,13 @@ is served by reports' own download view.
 from django.contrib import messages
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import ValidationError
+from django.http import Http404
 from django.shortcuts import redirect, render
 from django.urls import reverse
 from django.utils.http import url_has_allowed_host_and_scheme
 from django.views.decorators.http import require_GET, require_POST
 
-from inventory.selectors import ahus_visible_to
+from inventory.selectors import ahus_visible_to, sites_visible_to
 
 from .. import backends
 
@@ -50,9 +51,11 @@ def parameters_from_post(*, user, kind: str, post) -> dict:
         units = _ids(post, "units")
         if post.get("site"):
             site = _one_id(post, "site")
+            if not sites_visible_to(user=user).filter(pk=site).exists():
+                raise Http404(f"site: no site {site} among those you may see")  # as reports answers for any id
             units += list(ahus_visible_to(user=user).filter(building__site_id=site).values_list("pk", flat=True))
             if not units:
-                raise ValidationError({"site": f"site={site}: no unit that you may see"})
+                raise ValidationError({"site": f"site={site}: the site has no units to label"})
         return {"units": sorted(set(units)), "layout": post.get("layout", "")}
     raise ValidationError({"kind": f"kind={kind!r}: allowed are {', '.join(KINDS)}"})
 

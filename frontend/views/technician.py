@@ -71,7 +71,8 @@ def checklist_result(request, public_id):
     inspection = selectors.latest_inspection(work_order=wo)
     if inspection is None:
         raise Http404("No form of this work order has reached the server yet.")
-    result = selectors.result_for_display(result=inspection.sync_result, system=request.user.unit_system)
+    labels = selectors.item_labels(backends.checklist_for(user=request.user, work_order=wo))
+    result = selectors.result_for_display(result=inspection.sync_result, system=request.user.unit_system, labels=labels)
     return render(request, "frontend/technician/_result.html", {"result": result})
 
 
@@ -130,7 +131,7 @@ def checklist(request, public_id):
             "cautions": cautions_for(data or {}),
             "caution_blocks": caution_blocks(cautions_for(data or {})),
             "started_at": timezone.now().isoformat(),
-            "result": selectors.result_for_display(result=result, system=system),
+            "result": selectors.result_for_display(result=result, system=system, labels=selectors.item_labels(data)),
             "checklist_api": CHECKLIST_API.format(wo.public_id),
             "inspection": inspection,
             "can_report": done and inspection is not None,

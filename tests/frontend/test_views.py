@@ -121,10 +121,18 @@ def test_calculator_page_works_without_scripts(scenario, login):
 
 @pytest.mark.parametrize(
     ("who", "path"),
-    [("technician", "/today/"), ("supervisor", "/board/"), ("supervisor", "/registry/"), ("manager_a", "/dashboard/")],
+    [
+        ("technician", "/today/"),
+        ("supervisor", "/board/"),
+        ("supervisor", "/registry/"),
+        ("manager_a", "/dashboard/"),
+        ("manager_a", "/dashboard/site/{site_a}/"),
+        ("supervisor", "/records/"),
+    ],
 )
 def test_list_pages_use_a_steady_number_of_queries(scenario, login, django_assert_max_num_queries, who, path):
     """Ten more work orders do not add queries to the list pages."""
+    path = path.format(site_a=scenario.site_a.pk)
     client = login(getattr(scenario, who))
     client.get(path)
     from django.db import connection
@@ -136,3 +144,54 @@ def test_list_pages_use_a_steady_number_of_queries(scenario, login, django_asser
         make_work(ahu=scenario.unit_a, assignee=scenario.technician, title="More work")
     with django_assert_max_num_queries(len(before.captured_queries)):
         assert client.get(path).status_code == 200
+
+
+def test_dashboard_queries_do_not_grow_with_sites(scenario, login, django_assert_max_num_queries):
+    """Five more sites with units, findings-free, do not add queries: all figures come from one compliance call."""
+    from accounts.services import site_grant
+    from tests.factories.inventory import BuildingFactory, SiteFactory, make_full_unit
+
+    client = login(scenario.manager_a)
+    client.get("/dashboard/")
+    from django.db import connection
+    from django.test.utils import CaptureQueriesContext
+
+    with CaptureQueriesContext(connection) as before:
+        client.get("/dashboard/")
+    for k in range(5):
+        site = SiteFactory(organisation=scenario.org, name=f"Quay Annex {k}")
+        unit = make_full_unit(building=BuildingFactory(site=site, name="Main"), tag=f"AHU-2{k}")
+        make_work(ahu=unit, title="Quarterly service")
+        site_grant(user=scenario.manager_a, site=site)
+    with django_assert_max_num_queries(len(before.captured_queries)):
+        html = client.get("/dashboard/").content.decode()
+    assert "Quay Annex 4" in html
+
+
+def test_records_list_queries_do_not_grow_with_reports(scenario, login, django_assert_max_num_queries):
+    """Twenty stored reports list in the queries of one."""
+    from reports.models import Report
+
+    def add(n):
+        Report.objects.bulk_create(
+            Report(
+                organisation=scenario.org,
+                kind="compliance",
+                requested_by=scenario.supervisor,
+                site_ids=[scenario.site_a.pk],
+                parameters={"sites": [scenario.site_a.pk]},
+            )
+            for _ in range(n)
+        )
+
+    client = login(scenario.supervisor)
+    add(1)
+    client.get("/records/")
+    from django.db import connection
+    from django.test.utils import CaptureQueriesContext
+
+    with CaptureQueriesContext(connection) as before:
+        client.get("/records/")
+    add(20)
+    with django_assert_max_num_queries(len(before.captured_queries)):
+        assert client.get("/records/").content.decode().count("data-report=") == 21
