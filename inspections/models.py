@@ -209,6 +209,10 @@ class Evaluation(models.Model):
     method = models.CharField(max_length=300, blank=True)
     derived = models.JSONField(default=dict, blank=True, help_text="Derived values in SI, keys name their unit.")
     condition_code = models.CharField(max_length=40, blank=True)
+    amendment = models.ForeignKey(
+        "Amendment", on_delete=models.PROTECT, null=True, blank=True, related_name="evaluations",
+        help_text="Set when this judgement came from re-evaluating an amendment (blank: the original form).",
+    )
 
     class Meta:
         ordering = ["inspection", "id"]
@@ -244,6 +248,10 @@ class Finding(models.Model):
     closed_at = models.DateTimeField(null=True, blank=True)
     corrective_work_order = models.ForeignKey(
         WorkOrder, on_delete=models.PROTECT, null=True, blank=True, related_name="source_findings"
+    )
+    amendment = models.ForeignKey(
+        "Amendment", on_delete=models.PROTECT, null=True, blank=True, related_name="findings",
+        help_text="The amendment whose corrected readings newly failed (blank: found on the original form).",
     )
 
     class Meta:

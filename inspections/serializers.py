@@ -66,6 +66,7 @@ class AmendmentOutputSerializer(serializers.Serializer):
     reason = serializers.CharField()
     created_at = serializers.DateTimeField()
     changes = serializers.ListField(child=serializers.DictField())
+    findings = serializers.ListField(child=serializers.DictField(), help_text="Findings newly failed by it.")
 
 
 class NoteInputSerializer(serializers.Serializer):
@@ -110,14 +111,14 @@ class InspectionOutputSerializer(serializers.Serializer):
         return [
             {"check": e.check_name, "item": e.item_key, "component": e.component.label_code if e.component else None,
              "verdict": e.verdict, "reason": reason_for(evaluation=e, unit_system=self._system()),
-             "reason_si": e.reason, "method": e.method, "derived": e.derived}
+             "reason_si": e.reason, "method": e.method, "derived": e.derived, "amendment": e.amendment_id}
             for e in obj.evaluations.all()
         ]
 
     def get_amendments(self, obj) -> list[dict]:
         return [
             {"id": a.pk, "reason": a.reason, "created_at": a.created_at.isoformat(), "by": str(a.created_by),
-             "changes": a.changes}
+             "changes": a.changes, "findings": [f.pk for f in a.findings.all()]}
             for a in obj.amendments.all()
         ]
 

@@ -101,7 +101,8 @@ def _reader(request) -> dict:
 
 def _inspection(request, pk) -> Inspection:
     qs = selectors.inspections_visible_to(user=request.user).prefetch_related(
-        "readings__item__template", "readings__component", "evaluations__component", "amendments__created_by")
+        "readings__item__template", "readings__component", "evaluations__component", "amendments__created_by",
+        "amendments__findings")
     return get_object_or_404(qs, pk=pk)
 
 
@@ -119,8 +120,12 @@ class AmendmentCreateView(APIView):
         data = s.AmendmentInputSerializer(data=request.data)
         data.is_valid(raise_exception=True)
         a = services.inspection_amend(inspection=inspection, by=request.user, **data.validated_data)
+        found = a.findings.select_related("corrective_work_order").order_by("pk")
         return Response({"id": a.pk, "public_id": str(a.public_id), "inspection_id": inspection.pk,
-                         "reason": a.reason, "created_at": a.created_at, "changes": a.changes},
+                         "reason": a.reason, "created_at": a.created_at, "changes": a.changes,
+                         "findings": [{"id": f.pk, "severity": f.severity, "title": f.title,
+                                       "corrective_work_order": str(f.corrective_work_order.public_id)
+                                       if f.corrective_work_order else None} for f in found]},
                         status=status.HTTP_201_CREATED)
 
 

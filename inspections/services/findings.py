@@ -44,8 +44,12 @@ def _title(result, evaluation: Evaluation) -> str:
     return (words + where)[:200]
 
 
-def findings_open(*, inspection: Inspection, evaluations: list[Evaluation], results, by) -> list[Finding]:
+def findings_open(*, inspection: Inspection, evaluations: list[Evaluation], results, by, amendment=None,
+                  opened_at=None) -> list[Finding]:
     """One Finding per failed evaluation, each proposing a corrective work order.
+
+    With ``amendment`` the findings point to it (the corrected readings failed,
+    not the signed form) and open at ``opened_at`` (the amendment's time).
 
     A failed freeze-protection test inside or up to 30 days before the site's
     freeze season gets an urgent corrective work order, approved at once (the
@@ -55,19 +59,21 @@ def findings_open(*, inspection: Inspection, evaluations: list[Evaluation], resu
     from scheduling.services import corrective_work_order_propose
 
     site = inspection.ahu.building.site
+    opened_at = opened_at or inspection.finished_at
+    source_ref = f"inspection:{inspection.pk}" + (f" amendment:{amendment.pk}" if amendment is not None else "")
     out = []
     for ev, res in zip(evaluations, results, strict=True):
         if ev.verdict != "fail":
             continue
         severity = res.severity
         urgent = res.condition_code == "freeze_protection_failed" and freeze_season_near(
-            site=site, on=timezone.localtime(inspection.finished_at).date()
+            site=site, on=timezone.localtime(opened_at).date()
         )
         priority = "urgent" if urgent else PRIORITY[severity]
         finding = Finding.objects.create(
             organisation_id=inspection.organisation_id, inspection=inspection, evaluation=ev, ahu=inspection.ahu,
             component=res.component, severity="critical" if urgent else severity, title=_title(res, ev),
-            reason=res.reason[:500], condition_code=res.condition_code, opened_at=inspection.finished_at,
+            reason=res.reason[:500], condition_code=res.condition_code, opened_at=opened_at, amendment=amendment,
         )
         reason = res.reason
         if urgent:
@@ -76,7 +82,7 @@ def findings_open(*, inspection: Inspection, evaluations: list[Evaluation], resu
         if wo is None:
             wo = corrective_work_order_propose(
                 ahu=inspection.ahu, title=finding.title, reason=reason, condition_code=_known(res.condition_code),
-                priority=priority, component=res.component, source_ref=f"inspection:{inspection.pk}", by=by,
+                priority=priority, component=res.component, source_ref=source_ref, by=by,
                 approved=urgent,
             )
         finding.corrective_work_order = wo

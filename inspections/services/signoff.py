@@ -10,7 +10,8 @@ from accounts.services import audit_record
 from inventory.selectors import sites_managed_by
 
 from .. import evaluation, selectors
-from ..models import Amendment, Inspection
+from ..models import Amendment, Evaluation, Inspection
+from . import findings as findings_service
 
 
 def _is_supervisor(user, inspection: Inspection) -> bool:
@@ -34,7 +35,11 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
 
     ``readings`` has the sync shape ({item, component, value, note}); each
     corrected value is checked like a synced one (impossible values refused)
-    and the whole form is judged again with the corrections applied.
+    and the whole form is judged again with the corrections applied. A
+    judgement that fails now but did not fail before (on the form or an
+    earlier amendment) is stored as an Evaluation of this amendment and opens
+    a Finding pointing to it, with its corrective work proposed like a synced
+    failure. The original readings, evaluations and findings stay as they were.
     """
     from .sync import Errors, Parsed, _reading  # same parsing and range rules as the sync
 
@@ -80,13 +85,48 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
             "before": None if old is None else {"value_si": old.value_si, "value_text": old.value_text,
                                                 "note": old.note, "verdict": old.verdict},
             "after": {"value_si": r.value_si, "value_text": r.value_text, "note": r.note,
-                      "verdict": res.verdict if res else "", "reason": res.reason if res else ""},
+                      "verdict": res.verdict if res else "", "reason": res.reason if res else "",
+                      "reason_parts": res.reason_parts if res else []},
         })
     amendment = Amendment.objects.create(inspection=inspection, created_by=by, reason=reason.strip(),
                                          changes=changes)
+    found = _newly_failed_open(inspection=inspection, amendment=amendment, results=results, by=by)
+    if found:
+        by_key = {(f.evaluation.item_key, f.component.label_code if f.component else None): f for f in found}
+        for c in changes:
+            if (f := by_key.get((c["item"], c["component"]))) is not None:
+                c["finding"] = f.pk
+        amendment.changes = changes
+        amendment.save(update_fields=["changes"])
     audit_record(actor=by, obj=inspection, action="inspection_amend", organisation=inspection.organisation,
-                 changes={"amendment": amendment.pk, "items": [c["item"] for c in changes]})
+                 changes={"amendment": amendment.pk, "items": [c["item"] for c in changes],
+                          "findings": [f.pk for f in found]})
     return amendment
+
+
+def _newly_failed_open(*, inspection: Inspection, amendment: Amendment, results, by) -> list:
+    """Findings for judgements that fail after the amendment and had not failed on this inspection before."""
+    def key(check, item, component_id):
+        return (check, item, component_id)
+
+    failed_before = {
+        key(e.check_name, e.item_key, e.component_id)
+        for e in inspection.evaluations.filter(verdict="fail").only("check_name", "item_key", "component_id")
+    }
+    new = [res for res in results if res.verdict == "fail"
+           and key(res.check, res.item, res.component.pk if res.component else None) not in failed_before]
+    if not new:
+        return []
+    evals = [
+        Evaluation(inspection=inspection, amendment=amendment, check_name=res.check, item_key=res.item,
+                   component=res.component, verdict=res.verdict, reason=res.reason[:500],
+                   reason_parts=res.reason_parts, method=res.method[:300], derived=res.derived,
+                   condition_code=res.condition_code)
+        for res in new
+    ]
+    Evaluation.objects.bulk_create(evals)
+    return findings_service.findings_open(inspection=inspection, evaluations=evals, results=new, by=by,
+                                          amendment=amendment, opened_at=amendment.created_at)
 
 
 @transaction.atomic

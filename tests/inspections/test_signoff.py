@@ -84,3 +84,62 @@ def test_other_organisation_cannot_read_or_amend(api_client):
     api_client.force_authenticate(outsider)
     assert api_client.get(f"/api/inspections/{insp.pk}/").status_code == 404
     assert api_client.post(f"/api/inspections/{insp.pk}/amendments/", {}, format="json").status_code == 404
+
+
+@pytest.mark.django_db
+def test_an_amendment_that_newly_fails_opens_a_finding_pointing_to_it(api_client):
+    """150 Pa (38 % of the 90–250 Pa span: ok) corrected to 260 Pa: (260 − 90)/160 = 106 % → fail (from 95 %).
+
+    The amendment's failure becomes a finding of this amendment with corrective work proposed; the original
+    reading and its ok judgement stay in the record beside the amended one.
+    """
+    from inspections.models import Evaluation, Finding
+
+    insp, tech = stored_inspection(api_client)
+    final = component(insp.ahu, "Final filters")
+    [original] = Evaluation.objects.filter(inspection=insp, check_name="filter_loading", component=final)
+    assert original.verdict == "ok" and not insp.findings.exists()
+    api_client.force_authenticate(tech)
+    res = api_client.post(f"/api/inspections/{insp.pk}/amendments/", {
+        "reason": "read the wrong gauge", "unit_system": "si", "readings": [r("filter_check.dp", 260, final)]},
+        format="json")
+    assert res.status_code == 201, res.content
+    body = res.json()
+    [found] = body["findings"]
+    finding = Finding.objects.get(pk=found["id"])
+    assert finding.amendment_id == body["id"] and finding.inspection == insp and finding.component == final
+    assert finding.evaluation.amendment_id == body["id"] and finding.evaluation.verdict == "fail"
+    cwo = finding.corrective_work_order
+    assert cwo.condition_code == "filter_loaded" and cwo.approval == WorkOrder.Approval.PENDING
+    assert cwo.source_ref == f"inspection:{insp.pk} amendment:{body['id']}"
+    assert body["changes"][0]["finding"] == finding.pk
+    # Both stay: the original reading and verdict, and the amended judgement.
+    original.refresh_from_db()
+    assert original.verdict == "ok" and original.amendment is None
+    assert insp.readings.get(component=final, item__key="dp").value_si == 150
+    detail = api_client.get(f"/api/inspections/{insp.pk}/").json()
+    verdicts = {(e["verdict"], e["amendment"]) for e in detail["evaluations"] if e["check"] == "filter_loading"
+                and e["component"] == final.label_code}
+    assert verdicts == {("ok", None), ("fail", body["id"])}
+    assert detail["amendments"][0]["findings"] == [finding.pk]
+
+
+@pytest.mark.django_db
+def test_an_amendment_repeating_a_known_failure_opens_no_second_finding(api_client):
+    """A second amendment that still fails the same check adds no finding: it failed already."""
+    insp, tech = stored_inspection(api_client)
+    final = component(insp.ahu, "Final filters")
+    first = inspection_amend(inspection=insp, by=tech, reason="wrong gauge", unit_system="si",
+                             readings=[r("filter_check.dp", 260, final)])
+    second = inspection_amend(inspection=insp, by=tech, reason="re-read", unit_system="si",
+                              readings=[r("filter_check.dp", 270, final)])
+    assert first.findings.count() == 1 and second.findings.count() == 0
+    assert insp.findings.count() == 1
+
+
+@pytest.mark.django_db
+def test_an_amendment_that_clears_or_keeps_ok_opens_nothing(api_client):
+    insp, tech = stored_inspection(api_client)
+    a = inspection_amend(inspection=insp, by=tech, reason="typo", unit_system="si",
+                         readings=[r("filter_check.dp", 160, component(insp.ahu, "Final filters"))])
+    assert a.findings.count() == 0 and a.evaluations.count() == 0
