@@ -149,4 +149,7 @@ def photo_upload(*, user, work_order, client_uuid: uuid.UUID, data: bytes) -> tu
         if first is None:
             raise
         return first, False
+    except BaseException:
+        photo_files_delete(photo)  # the row was not stored (database refused, worker stopped): no orphan files
+        raise
     return photo, True
