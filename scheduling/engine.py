@@ -13,8 +13,11 @@ Occurrence keys (unique per unit, task code and component in the database):
   date of the last completion (else the anchor), so completing it restarts the clock;
 * run-hours: ``h:<meter>:<target hours>`` — the target stays, the projected date
   moves with the rate (the row is updated, not duplicated);
-* season: ``<season>:<year of the season start>`` — due its lead time before the
-  start, or at once when that window has already opened; moves with the forecast.
+* season: ``<season>:<season year>`` (``services.seasons.season_key``: the freeze
+  season of winter 2026/27 in the north is ``freeze:2026`` whether it starts on
+  28 December or 3 January) — due its lead time before the start, or at once when
+  that window has already opened; moves with the forecast. The start comes from
+  the stored forecast/CSV days first, the site's normals elsewhere.
 
 Speed: a nightly run over thousands of units is mostly idempotent, so the loop
 works on light rows read with ``values_list`` (no model instances), reads each
@@ -41,7 +44,7 @@ from inventory.models import AHU, Component
 
 from .models import MeterReading, TaskDefinition, UnitTaskSetting, WorkOrder, WorkOrderTask
 from .selectors import effective_tasks
-from .services.seasons import SEASON_LOOKBACK_DAYS, season_starts
+from .services.seasons import SEASON_LOOKBACK_DAYS, season_key, season_starts_for_sites
 from .targets import TaskTargets
 
 BUNDLE_DAYS = 14
@@ -205,17 +208,6 @@ class _Meters:
         return f"h:{reset_id}:{round(target)}", when
 
 
-def _season_starts_for(site, today: dt.date) -> tuple[dt.date | None, dt.date | None]:
-    floor = today - dt.timedelta(days=SEASON_LOOKBACK_DAYS)
-    stored_ok = site.season_source and all(
-        d is not None and d >= floor for d in (site.freeze_season_start, site.cooling_season_start)
-    )
-    if stored_ok:
-        return site.freeze_season_start, site.cooling_season_start
-    freeze, cooling, _ = season_starts(site=site, today=today)
-    return freeze, cooling
-
-
 @dataclass(slots=True)
 class _SiteDay:
     tz: zoneinfo.ZoneInfo
@@ -363,24 +355,20 @@ def work_orders_generate(
         .annotate(last=Max("completed_at"))
     }
     meters = _Meters(ahu_ids, now)
+    zones = {pk: zoneinfo.ZoneInfo(s.time_zone) for pk, s in sites.items()}
+    local_today = {pk: today or now.astimezone(tz).date() for pk, tz in zones.items()}
+    starts = season_starts_for_sites(sites=sites.values(), today_by_site=local_today)
     days: dict[int, _SiteDay] = {}
-    for s in sites.values():
-        tz = zoneinfo.ZoneInfo(s.time_zone)
-        day = today or now.astimezone(tz).date()
-        freeze, cooling = _season_starts_for(s, day)
-        days[s.pk] = _SiteDay(
-            tz=tz,
+    for pk, s in sites.items():
+        day = local_today[pk]
+        freeze, cooling, _ = starts[pk]
+        days[pk] = _SiteDay(
+            tz=zones[pk],
             today=day,
             end=day + dt.timedelta(days=horizon_days),
             seasons={
-                TaskDefinition.Season.FREEZE: (
-                    freeze,
-                    f"{TaskDefinition.Season.FREEZE}:{freeze.year}" if freeze else "",
-                ),
-                TaskDefinition.Season.COOLING: (
-                    cooling,
-                    f"{TaskDefinition.Season.COOLING}:{cooling.year}" if cooling else "",
-                ),
+                season: (start, season_key(season=season, start=start, latitude=s.latitude) if start else "")
+                for season, start in ((TaskDefinition.Season.FREEZE, freeze), (TaskDefinition.Season.COOLING, cooling))
             },
         )
 

@@ -10,6 +10,7 @@ check still falls due at once when the window opened without one.
 from __future__ import annotations
 
 import datetime as dt
+from collections import defaultdict
 from collections.abc import Iterable
 from functools import lru_cache
 
@@ -26,19 +27,35 @@ SEASON_LOOKBACK_DAYS = 30
 SEASON_SEARCH_DAYS = 430
 
 
-@lru_cache(maxsize=512)
-def _normals_starts(
-    normals_min: tuple, normals_max: tuple, freeze_c: float, cooling_c: float, start: dt.date, days: int
-) -> tuple[dt.date | None, dt.date | None]:
-    class _S:
+Measured = tuple[tuple[dt.date, float, float, str], ...]
+
+
+@lru_cache(maxsize=4096)
+def _starts(
+    normals_min: tuple, normals_max: tuple, freeze_c: float, cooling_c: float, start: dt.date, measured: Measured
+) -> tuple[dt.date | None, dt.date | None, str]:
+    """Season starts over ``SEASON_SEARCH_DAYS`` from ``start``: measured days where given, normals elsewhere.
+
+    A pure function of its arguments, so it is kept across calls: a portfolio's
+    nightly run asks the same question for every site again and the answer only
+    changes when new temperatures arrive or the day moves on.
+    """
+
+    class _Normals:
         normals_min_c = list(normals_min)
         normals_max_c = list(normals_max)
 
-    series = normals_daily(_S, start=start, days=days)
-    return (
-        freeze_season_start(daily_minimums=[(d.date, d.min_c) for d in series], threshold_c=freeze_c),
-        cooling_season_start(daily_maximums=[(d.date, d.max_c) for d in series], threshold_c=cooling_c),
-    )
+    by_day = {d: (lo, hi, src) for d, lo, hi, src in measured}
+    lows: list[tuple[dt.date, float]] = []
+    highs: list[tuple[dt.date, float]] = []
+    for day in normals_daily(_Normals, start=start, days=SEASON_SEARCH_DAYS):
+        lo, hi, _ = by_day.get(day.date, (day.min_c, day.max_c, ""))
+        lows.append((day.date, lo))
+        highs.append((day.date, hi))
+    freeze = freeze_season_start(daily_minimums=lows, threshold_c=freeze_c)
+    cooling = cooling_season_start(daily_maximums=highs, threshold_c=cooling_c)
+    source = by_day[freeze][2] if freeze in by_day else "normals"
+    return freeze, cooling, source
 
 
 def season_starts(
@@ -47,36 +64,55 @@ def season_starts(
     """(freeze start, cooling start, source) for the site as seen on ``today``.
 
     ``stored`` holds (date, min_c, max_c, source) rows from forecasts or CSV;
-    normals fill the rest. The source names what the freeze start came from.
+    they come first, normals fill the rest. The source names what the freeze
+    start came from.
     """
     start = today - dt.timedelta(days=SEASON_LOOKBACK_DAYS)
-    measured = {d: (lo, hi, src) for d, lo, hi, src in stored if d >= start}
-    if not measured:
-        freeze, cooling = _normals_starts(
-            tuple(site.normals_min_c),
-            tuple(site.normals_max_c),
-            float(site.preheat_threshold_c),
-            float(site.cooling_threshold_c),
-            start,
-            SEASON_SEARCH_DAYS,
-        )
-        return freeze, cooling, "normals"
-    series: list[DailyTemperature] = []
-    sources: dict[dt.date, str] = {}
-    for day in normals_daily(site, start=start, days=SEASON_SEARCH_DAYS):
-        if day.date in measured:
-            lo, hi, src = measured[day.date]
-            series.append(DailyTemperature(date=day.date, min_c=lo, max_c=hi))
-            sources[day.date] = src
-        else:
-            series.append(day)
-    freeze = freeze_season_start(
-        daily_minimums=[(d.date, d.min_c) for d in series], threshold_c=site.preheat_threshold_c
+    stop = start + dt.timedelta(days=SEASON_SEARCH_DAYS)
+    measured = tuple(sorted((d, lo, hi, src) for d, lo, hi, src in stored if start <= d < stop))
+    return _starts(
+        tuple(site.normals_min_c),
+        tuple(site.normals_max_c),
+        float(site.preheat_threshold_c),
+        float(site.cooling_threshold_c),
+        start,
+        measured,
     )
-    cooling = cooling_season_start(
-        daily_maximums=[(d.date, d.max_c) for d in series], threshold_c=site.cooling_threshold_c
+
+
+def season_starts_for_sites(
+    *, sites: Iterable[Site], today_by_site: dict[int, dt.date]
+) -> dict[int, tuple[dt.date | None, dt.date | None, str]]:
+    """``season_starts`` for many sites, from their stored forecast/CSV days (one query) and their normals.
+
+    This is what the engine uses, so a new forecast or CSV counts at the next
+    generation run even before the nightly season refresh has stored it on the site.
+    """
+    sites = list(sites)
+    if not sites:
+        return {}
+    floor = min(today_by_site[s.pk] for s in sites) - dt.timedelta(days=SEASON_LOOKBACK_DAYS)
+    stored: dict[int, list[tuple[dt.date, float, float, str]]] = defaultdict(list)
+    rows = OutdoorTemperature.objects.filter(site__in=[s.pk for s in sites], date__gte=floor).values_list(
+        "site_id", "date", "min_c", "max_c", "source"
     )
-    return freeze, cooling, sources.get(freeze, "normals") if freeze else "normals"
+    for site_id, day, lo, hi, src in rows:
+        stored[site_id].append((day, lo, hi, src))
+    return {s.pk: season_starts(site=s, today=today_by_site[s.pk], stored=stored[s.pk]) for s in sites}
+
+
+def season_key(*, season: str, start: dt.date, latitude: float) -> str:
+    """The occurrence key of one season's check: ``<season>:<season year>``.
+
+    A season whose start can fall either side of 1 January in its hemisphere
+    (freeze in the north, cooling in the south) is filed under the year of the
+    July before it, so a start that moves from 28 December to 3 January stays
+    the same season; the other two are filed under the calendar year of their
+    start, whose New Year falls in the opposite season.
+    """
+    spans_new_year = (season == "freeze") == (latitude >= 0)
+    year = start.year - 1 if spans_new_year and start.month < 7 else start.year
+    return f"{season}:{year}"
 
 
 @transaction.atomic

@@ -9,9 +9,10 @@ import time_machine
 
 from engineering.freeze import cooling_season_start, daily_values_from_normals, freeze_season_start
 from scheduling.engine import work_orders_generate
-from scheduling.models import OutdoorTemperature, WorkOrderTask
-from scheduling.services import outdoor_temperatures_import_csv, site_seasons_refresh
-from scheduling.weather import ForecastError, HttpForecastProvider, parse_forecast
+from scheduling.models import OutdoorTemperature, WorkOrder, WorkOrderTask
+from scheduling.services import outdoor_temperatures_import_csv, outdoor_temperatures_store, site_seasons_refresh
+from scheduling.services.seasons import season_key
+from scheduling.weather import DailyTemperature, ForecastError, HttpForecastProvider, parse_forecast
 from tests.factories.inventory import AHUFactory, ComponentFactory, SiteFactory
 
 pytestmark = pytest.mark.django_db
@@ -145,3 +146,72 @@ def test_hourly_csv_import_folds_into_daily_values_and_refuses_bad_rows():
             organisation=site.organisation, text=text.replace("10.0", "warm").replace("10-01", "10-02")
         )
     assert OutdoorTemperature.objects.filter(site=site).count() == 1
+
+
+def mild_unit():
+    """A unit on an invented mild site whose normals never reach 5 °C nor 24 °C: only forecasts bring frost."""
+    site = SiteFactory(
+        normals_min_c=[8.0] * 12,
+        normals_max_c=[15.0] * 12,
+        preheat_threshold_c=5.0,
+        cooling_threshold_c=24.0,
+        latitude=52.0,
+        time_zone="Europe/Amsterdam",
+    )
+    ahu = AHUFactory(building__site=site, service_start=dt.date(2026, 6, 1))
+    ComponentFactory(
+        ahu=ahu, kind="electric_preheater", name="Preheater", specs={"power_w": 24000, "stages": 2, "switch_on_c": 3}
+    )
+    return site, ahu
+
+
+def forecast_with_frost_on(site, frost_day: dt.date):
+    days = [
+        DailyTemperature(date=dt.date(2026, 11, 20) + dt.timedelta(days=k), min_c=8.0, max_c=12.0) for k in range(60)
+    ]
+    days = [DailyTemperature(date=d.date, min_c=2.0, max_c=6.0) if d.date == frost_day else d for d in days]
+    outdoor_temperatures_store(site=site, days=days, source="forecast")
+
+
+def test_stored_forecast_counts_without_a_refresh_and_a_start_moving_past_new_year_moves_the_check(library):
+    """The engine reads the stored forecast itself (no season refresh ran); when the forecast frost moves
+    from 28 December to 3 January the freeze check moves with it and is still due exactly once."""
+    site, ahu = mild_unit()
+    forecast_with_frost_on(site, dt.date(2026, 12, 28))
+    work_orders_generate(organisation=site.organisation, today=dt.date(2026, 12, 1))
+    row = WorkOrderTask.objects.get(ahu=ahu, task_code="preheater_freeze")
+    assert (row.due_date, row.occurrence_key) == (dt.date(2026, 12, 14), "freeze:2026")  # 14 days' lead
+    visits = WorkOrder.objects.filter(ahu=ahu).count()
+
+    forecast_with_frost_on(site, dt.date(2027, 1, 3))
+    result = work_orders_generate(organisation=site.organisation, today=dt.date(2026, 12, 2))
+    assert (result.created, result.moved) == (0, 1)
+    rows = list(WorkOrderTask.objects.filter(ahu=ahu, task_code="preheater_freeze"))
+    assert [(r.pk, r.due_date) for r in rows] == [(row.pk, dt.date(2026, 12, 20))]
+    assert rows[0].work_order_id == row.work_order_id and WorkOrder.objects.filter(ahu=ahu).count() == visits
+
+
+def test_normals_alone_bring_no_freeze_check_on_a_mild_site(library):
+    """Without a forecast the mild site's normals never reach 5 °C, so no freeze check falls due."""
+    site, ahu = mild_unit()
+    work_orders_generate(organisation=site.organisation, today=dt.date(2026, 12, 1))
+    assert not WorkOrderTask.objects.filter(ahu=ahu, task_code="preheater_freeze").exists()
+
+
+@pytest.mark.parametrize(
+    ("season", "start", "latitude", "key"),
+    [
+        ("freeze", dt.date(2026, 12, 28), 52.0, "freeze:2026"),
+        ("freeze", dt.date(2027, 1, 3), 52.0, "freeze:2026"),
+        ("freeze", dt.date(2026, 10, 15), 52.0, "freeze:2026"),
+        ("cooling", dt.date(2027, 6, 20), 52.0, "cooling:2027"),
+        # Southern hemisphere: freeze season around June, cooling around January.
+        ("freeze", dt.date(2026, 6, 28), -33.9, "freeze:2026"),
+        ("freeze", dt.date(2026, 7, 3), -33.9, "freeze:2026"),
+        ("cooling", dt.date(2026, 12, 28), -33.9, "cooling:2026"),
+        ("cooling", dt.date(2027, 1, 3), -33.9, "cooling:2026"),
+    ],
+)
+def test_one_season_keeps_one_key_wherever_its_start_falls(season, start, latitude, key):
+    """A season is filed under one year even when its start moves across the turn of the year."""
+    assert season_key(season=season, start=start, latitude=latitude) == key
