@@ -373,7 +373,9 @@ def overdue_escalation_send(*, organisation, today: dt.date, repeat_days: int = 
     ]
     WorkOrder.objects.filter(pk__in=[wo.pk for wo in orders]).update(escalated_on=today)
     _email_supervisors_on_commit(
-        organisation.pk, f"{len(orders)} overdue work orders", "Overdue maintenance:\n\n" + "\n".join(lines)
+        organisation.pk,
+        f"{len(orders)} overdue work order{'' if len(orders) == 1 else 's'}",
+        "Overdue maintenance:\n\n" + "\n".join(lines),
     )
     return len(orders)
 

@@ -27,4 +27,4 @@ class Command(BaseCommand):
             raise CommandError(f"cannot read {file}: {exc}") from exc
         except ValidationError as exc:
             raise CommandError("nothing imported:\n" + "\n".join(exc.message_dict.get("file", exc.messages))) from exc
-        self.stdout.write(f"imported {len(rows)} readings")
+        self.stdout.write(f"imported {len(rows)} reading{'' if len(rows) == 1 else 's'}")

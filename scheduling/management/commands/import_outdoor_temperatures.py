@@ -28,4 +28,4 @@ class Command(BaseCommand):
         except ValidationError as exc:
             raise CommandError("nothing imported:\n" + "\n".join(exc.message_dict.get("file", exc.messages))) from exc
         for code, n in counts.items():
-            self.stdout.write(f"{code}: {n} days")
+            self.stdout.write(f"{code}: {n} day{'' if n == 1 else 's'}")
