@@ -85,7 +85,9 @@ def findings_rows(figures: compliance.ComplianceFigures) -> list[dict]:
     return [
         {
             "severity": severity,
-            "by_age": [figures.findings_matrix.get(severity, {}).get(label, 0) for label in figures.age_labels],
+            "by_age": [
+                (label, figures.findings_matrix.get(severity, {}).get(label, 0)) for label in figures.age_labels
+            ],
             "total": sum(figures.findings_matrix.get(severity, {}).values()),
         }
         for severity in SEVERITIES

@@ -16,9 +16,10 @@ NAV_BY_ROLE = {
         ("frontend:findings", "Findings"),
         ("frontend:corrective", "Corrective work"),
         ("frontend:flagged", "Flagged forms"),
+        ("frontend:records", "Reports"),
         ("frontend:calculator", "Calculator"),
     ],
-    Role.PROPERTY_MANAGER: [("frontend:dashboard", "Dashboard")],
+    Role.PROPERTY_MANAGER: [("frontend:dashboard", "Dashboard"), ("frontend:records", "Reports")],
 }
 NAV_BY_ROLE[Role.ADMIN] = NAV_BY_ROLE[Role.SUPERVISOR]
 

@@ -108,7 +108,7 @@ def site_detail(request, pk: int):
             "freeze_text": selectors.freeze_text(figures.freeze_counts),
             "site_ids": [site.pk],
             "label_site": site,
-            "label_what": f"One label for each of the {len(figures.units)} units of {site.name}.",
+            "label_what": f"One label for each unit of {site.name} ({len(figures.units)}).",
             "default_layout": "letter-3x10" if system == "us" else "a4-3x8",
             **_records_context(form_id="site"),
         },

@@ -79,8 +79,13 @@ def record_request(request):
         text = "; ".join(f"{m}" for m in exc.messages)
         messages.error(request, f"The report was not requested: {text}")
         return redirect(_back(request))
-    report.refresh_from_db(fields=["status"])  # rendered already when Celery runs in-process
-    messages.success(request, f"{report.get_kind_display()} requested ({report.get_status_display().lower()}).")
+    report.refresh_from_db(fields=["status", "error"])  # rendered already when Celery runs in-process
+    if report.status == "done":
+        messages.success(request, f"{report.get_kind_display()} is ready to download.")
+    elif report.status == "failed":
+        messages.error(request, f"{report.get_kind_display()} could not be made: {report.error[:200]}")
+    else:
+        messages.success(request, f"{report.get_kind_display()} requested; it is listed below while it is made.")
     return redirect(reverse("frontend:records") + f"#report-{report.public_id}")
 
 

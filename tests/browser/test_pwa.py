@@ -129,6 +129,7 @@ def test_supervisor_assignment_shows_on_technician_today(browser, live_server, w
     phone = browser.new_context(viewport=PHONE)
     tech = sign_in(phone.new_page(), world.technician)
     expect(tech.locator(f"[data-work-order='{extra.public_id}']")).to_contain_text("Coil and drain pan check")
+    wait_app(tech)  # the day's pages are saved for offline by now: no request still running at teardown
     phone.close()
 
 
