@@ -293,7 +293,7 @@ class ComponentDetailView(APIView):
 
     @extend_schema(
         summary="Remove a component (and the parts inside it)",
-        responses={204: None, 403: R403, 404: R404},
+        responses={204: None, 400: R400, 403: R403, 404: R404},
     )
     def delete(self, request, pk: int):
         component = self._get(request, pk)

@@ -7,6 +7,7 @@ import segno
 from django.conf import settings
 from django.core.exceptions import ValidationError
 from django.db import transaction
+from django.db.models import ProtectedError
 from django.urls import reverse
 
 from .models import AHU, Building, Component, Site
@@ -98,8 +99,23 @@ def component_update(*, component: Component, **fields: Any) -> Component:
 
 @transaction.atomic
 def component_delete(*, component: Component) -> None:
-    """Remove a component and the parts it contains (the tree below it)."""
-    component.delete()
+    """Remove a component and the parts it contains (the tree below it).
+
+    A component that inspection records or work point to stays: those records are evidence.
+    """
+    try:
+        with transaction.atomic():
+            component.delete()
+    except ProtectedError as exc:
+        kinds = sorted({obj._meta.verbose_name_plural for obj in exc.protected_objects})
+        raise ValidationError(
+            {
+                "component": [
+                    f"{component.name} ({component.label_code}) is named by {', '.join(kinds)}; "
+                    "records that point to it are kept, so it cannot be removed"
+                ]
+            }
+        )
 
 
 def label_absolute_url(*, code: str) -> str:
