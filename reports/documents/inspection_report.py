@@ -14,7 +14,7 @@ from django.http import Http404
 
 from inspections import checklists
 from inspections.models import Amendment, Evaluation, Finding, Inspection, Photo, Reading, Verdict
-from inspections.selectors import work_orders_visible_to
+from inspections.selectors import reason_for, work_orders_visible_to
 from reports.rendering import html_render, stored_file_data_uri
 from scheduling.models import WorkOrder, WorkOrderTask
 
@@ -174,7 +174,7 @@ def build(*, report) -> Built:
                     "value": reading_value(r, system),
                     "verdict": VERDICTS.get(r.verdict, ""),
                     "verdict_code": r.verdict,
-                    "reason": r.reason,
+                    "reason": reason_for(evaluation=r, unit_system=system),
                     "note": r.note,
                     "improbable": r.improbable,
                 }
@@ -192,11 +192,12 @@ def build(*, report) -> Built:
                         "e": e,
                         "verdict": VERDICTS.get(e.verdict, e.verdict),
                         "check": e.check_name.replace("_", " ").capitalize(),
+                        "reason": reason_for(evaluation=e, unit_system=system),
                         "derived": derived_rows(e.derived or {}, system),
                     }
                     for e in insp.evaluations.all()
                 ],
-                "findings": list(insp.findings.all()),
+                "findings": _with_reasons(list(insp.findings.all()), system),
                 "photos": [
                     {"p": ph, "src": stored_file_data_uri(ph.thumbnail or ph.image, max_px=360)}
                     for ph in insp.photos.all()
@@ -230,6 +231,15 @@ def build(*, report) -> Built:
         subject=f"Record of work order {wo.public_id}",
     )
     return Built(html=html, title=title)
+
+
+def _with_reasons(findings: list, system: str) -> list:
+    """Findings with their reason rendered in the reader's units (``reason_display``)."""
+    for finding in findings:
+        finding.reason_display = (
+            reason_for(evaluation=finding, unit_system=system) if finding.evaluation_id else finding.reason
+        )
+    return findings
 
 
 def _changes(amendment: Amendment, system: str) -> list[str]:

@@ -66,8 +66,9 @@ def test_reason_for_renders_the_stored_evaluation_in_any_readers_units(api_clien
     ev = Evaluation.objects.get(inspection_id=out["inspection_id"], check_name="filter_loading")
     assert reason_for(evaluation=ev, unit_system="si") == ev.reason
     assert "224 Pa at design, clean 90 Pa, final 250 Pa" in ev.reason
-    assert "0.90 in. w.c. at design, clean 0.36 in. w.c., final 1.00 in. w.c." in reason_for(evaluation=ev,
-                                                                                                unit_system="us")
+    assert "0.90 in. w.c. at design, clean 0.36 in. w.c., final 1.00 in. w.c." in reason_for(
+        evaluation=ev, unit_system="us"
+    )
     # The detail API answers in the reader's units too.
     api_client.force_authenticate(tech)
     detail = api_client.get(f"/api/inspections/{out['inspection_id']}/").json()
@@ -77,8 +78,40 @@ def test_reason_for_renders_the_stored_evaluation_in_any_readers_units(api_clien
 
 def test_bands_and_differences_convert_as_bands_and_differences():
     """A 2–6 °C band is 35.6–42.8 °F; a 2 K difference is 3.6 Δ°F, never 35.6 °F (pint: 1 K = 1.8 Δ°F)."""
-    parts = ["trip ", q(4.0, "temperature"), " within ", span(2.0, 6.0, "temperature"), ", ",
-             q(2.0, "temperature_difference"), " from the limit"]
+    parts = [
+        "trip ",
+        q(4.0, "temperature"),
+        " within ",
+        span(2.0, 6.0, "temperature"),
+        ", ",
+        q(2.0, "temperature_difference"),
+        " from the limit",
+    ]
     assert render(parts, "si") == "trip 4.0 °C within 2.0–6.0 °C, 2.0 K from the limit"
     assert render(parts, "us") == "trip 39.2 °F within 35.6–42.8 °F, 3.6 Δ°F from the limit"
     assert render([span(None, 250, "pressure")], "us") == "at most 1.00 in. w.c."
+
+
+@pytest.mark.django_db
+def test_the_inspection_report_gives_reasons_in_the_readers_units(api_client, django_capture_on_commit_callbacks):
+    """A US reader's PDF states the supply-air reason in °F and Δ°F (2.7 Δ°F = 1.5 K, pint), not in °C."""
+    import io
+
+    from pypdf import PdfReader
+
+    from reports.models import Report
+    from reports.services import report_request
+
+    out, _, tech = _submit_us(api_client)
+    ev = Evaluation.objects.get(inspection_id=out["inspection_id"], check_name="supply_temperature")
+    supervisor = make_person(organisation=ev.inspection.work_order.organisation, role=Role.SUPERVISOR, unit_system="us")
+    with django_capture_on_commit_callbacks(execute=True):
+        report = report_request(
+            user=supervisor, kind="inspection", parameters={"work_order": str(ev.inspection.work_order.public_id)}
+        )
+    report = Report.objects.get(pk=report.pk)
+    assert report.status == "done", report.error
+    with report.file.open("rb") as fh:
+        text = " ".join(page.extract_text() for page in PdfReader(io.BytesIO(fh.read())).pages)
+    assert "2.7 Δ°F above set point 62.6 °F" in " ".join(text.split())
+    assert "1.5 K above set point" not in text
