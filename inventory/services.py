@@ -107,7 +107,7 @@ def component_delete(*, component: Component) -> None:
         with transaction.atomic():
             component.delete()
     except ProtectedError as exc:
-        kinds = sorted({obj._meta.verbose_name_plural for obj in exc.protected_objects})
+        kinds = sorted({str(obj._meta.verbose_name_plural) for obj in exc.protected_objects})
         raise ValidationError(
             {
                 "component": [
