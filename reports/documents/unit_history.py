@@ -19,6 +19,7 @@ from engineering.errors import EngineeringInputError
 from engineering.filters import FilterPoint, corrected_pressure_drop, filter_forecast
 from engineering.units import to_display, unit_label
 from inspections.models import Evaluation, Finding, Inspection, Reading
+from inspections.selectors import reason_for
 from inventory.models import AHU, ComponentKind
 from inventory.selectors import ahus_visible_to
 from reports import charts
@@ -91,9 +92,13 @@ def build(*, report) -> Built:
     listed = [i for i in inspections if i.finished_at >= lo]
     findings = list(
         Finding.objects.filter(ahu=ahu, opened_at__gte=lo, opened_at__lt=hi)
-        .select_related("component", "corrective_work_order")
+        .select_related("component", "corrective_work_order", "evaluation")
         .order_by("opened_at", "pk")
     )
+    for finding in findings:
+        finding.reason_display = (
+            reason_for(evaluation=finding, unit_system=system) if finding.evaluation_id else finding.reason
+        )
     reading_rows = [
         {
             "at": insp.finished_at,
