@@ -122,6 +122,7 @@ AXES_FAILURE_LIMIT = int(os.environ.get("AXES_FAILURE_LIMIT", "5"))
 AXES_COOLOFF_TIME = 0.25  # hours
 AXES_LOCKOUT_PARAMETERS = [["username", "ip_address"]]
 AXES_RESET_ON_SUCCESS = True
+AXES_VERBOSE = False
 
 # ---------------------------------------------------------------------------
 # Internationalisation  https://docs.djangoproject.com/en/5.2/topics/i18n/
