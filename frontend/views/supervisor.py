@@ -15,6 +15,7 @@ from django.views.decorators.http import require_POST
 
 from accounts.models import Membership, Role
 from accounts.selectors import organisations_where
+from inspections.selectors import reason_for
 from inventory import services as inventory_services
 from inventory.models import AHU, Component
 from inventory.selectors import component_tree, sites_managed_by
@@ -254,7 +255,7 @@ def findings(request):
     rows = (
         backends.findings_visible_to(user=request.user)
         .filter(state="open")
-        .select_related("ahu__building__site", "component", "corrective_work_order")
+        .select_related("ahu__building__site", "component", "corrective_work_order", "evaluation")
     )
     order = {"critical": 0, "high": 1, "medium": 2, "low": 3}
     now = timezone.now()
@@ -262,6 +263,9 @@ def findings(request):
     groups = {}
     for f in rows:
         f.age = f.age_days(now=now)
+        f.reason_display = (
+            reason_for(evaluation=f, unit_system=request.user.unit_system) if f.evaluation_id else f.reason
+        )
         groups.setdefault(f.get_severity_display(), []).append(f)
     return render(request, "frontend/supervisor/findings.html", {"groups": groups})
 
