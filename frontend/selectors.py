@@ -71,6 +71,11 @@ def site_summaries(*, user, as_of: dt.datetime | None = None) -> tuple[complianc
         rows[item["unit"].building.site_id]["freeze"][item["status"]] += 1
     for row in rows.values():
         row["freeze_text"] = freeze_text(row["freeze"])
+        per_site = figures.by_site.get(row["site"].pk, {})
+        row["total"] = per_site.get("total")
+        row["findings_total"] = per_site.get("findings_total", 0)
+        share = row["total"].on_time_share if row["total"] else None
+        row["on_time"] = "—" if share is None else f"{share * 100:.0f} %"
     return figures, list(rows.values())
 
 

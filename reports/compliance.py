@@ -104,6 +104,7 @@ class Occurrence:
     grace_days: int
     completed_on: date | None
     cancelled: bool = False
+    site_id: int | None = None
 
     @property
     def deadline(self) -> date:
@@ -210,6 +211,9 @@ class ComplianceFigures:
     filters: list[dict]
     freeze: list[dict]
     freeze_counts: dict[str, int]
+    # Per site id: "total" (CategoryFigures of all categories) and "findings_total",
+    # filled in the same passes, so a dashboard row per site costs no extra query.
+    by_site: dict[int, dict] = field(default_factory=dict)
 
     @property
     def age_labels(self) -> list[str]:
@@ -267,9 +271,13 @@ def compliance_figures(*, site_ids: list[int], start: date, end: date, as_of: da
                 grace,
                 _local_date(done_at, tz_of[site_id]),
                 cancelled=wo_state == WorkOrder.State.CANCELLED,
+                site_id=site_id,
             )
         )
     categories, total = preventive_figures(occurrences, start=start, end=end, as_of=report_day)
+    by_site = {s.pk: {"total": CategoryFigures("all", "All categories"), "findings_total": 0} for s in sites}
+    for occ in occurrences:
+        by_site[occ.site_id]["total"].counts[occurrence_outcome(occ, evaluated_on=report_day)] += 1
 
     overdue = []
     open_orders = (
@@ -288,14 +296,15 @@ def compliance_figures(*, site_ids: list[int], start: date, end: date, as_of: da
 
     matrix = {sev: {label: 0 for _, _, label in AGE_BUCKETS} for sev in SEVERITIES}
     findings_total = 0
-    for severity, opened_at in (
+    for severity, opened_at, site_id in (
         Finding.objects.filter(ahu__building__site_id__in=site_ids, opened_at__lte=as_of)
         .filter(Q(state=Finding.State.OPEN) | Q(closed_at__gt=as_of))
-        .values_list("severity", "opened_at")
+        .values_list("severity", "opened_at", "ahu__building__site_id")
     ):
         matrix.setdefault(severity, {label: 0 for _, _, label in AGE_BUCKETS})
         matrix[severity][age_bucket(max((as_of - opened_at).days, 0))] += 1
         findings_total += 1
+        by_site[site_id]["findings_total"] += 1
 
     filters = _filter_rows(units=units, as_of=as_of)
     freeze, freeze_counts = _freeze_rows(sites=sites, units=units, as_of=as_of, today_of=today_of)
@@ -313,6 +322,7 @@ def compliance_figures(*, site_ids: list[int], start: date, end: date, as_of: da
         filters=filters,
         freeze=freeze,
         freeze_counts=freeze_counts,
+        by_site=by_site,
     )
 
 

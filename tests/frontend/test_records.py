@@ -176,3 +176,5 @@ def test_site_page_and_dashboard_show_the_compliance_figures_of_the_pdf(scenario
     assert f'data-kpi="on-time">{expected}<' in site
     dashboard = client.get("/dashboard/").content.decode()
     assert f'data-kpi="on-time">{expected}<' in dashboard
+    # The site's own row on the dashboard shows its share too (per-site figures from the same call).
+    assert f'data-kpi="site-on-time">{expected}<' in dashboard

@@ -103,6 +103,23 @@ def test_queries_do_not_grow_with_units(estate, django_assert_max_num_queries):
     assert len(f.units) == 22
 
 
+def test_figures_split_per_site_add_up(estate, django_assert_max_num_queries):
+    """A second site with one on-time visit: per site 3/5 and 1/1, together 4/6, in the same number of queries."""
+    other = SiteFactory(organisation=estate["site"].organisation, name="Second Site")
+    unit = AHUFactory(building=BuildingFactory(site=other))
+    filt = estate["a1"].work_orders.first().tasks.first().task
+    b.preventive(unit, filt, "2025-02-10", done="2025-02-11")
+    with django_assert_max_num_queries(12):
+        f = compliance_figures(
+            site_ids=[estate["site"].pk, other.pk], start=dt.date(2025, 1, 1), end=dt.date(2025, 3, 31), as_of=AS_OF
+        )
+    here, there = f.by_site[estate["site"].pk], f.by_site[other.pk]
+    assert (here["total"].counts[ON_TIME], here["total"].judged) == (3, 5)
+    assert (there["total"].counts[ON_TIME], there["total"].judged) == (1, 1)
+    assert (f.total.counts[ON_TIME], f.total.judged) == (4, 6)
+    assert here["findings_total"] == 2 and there["findings_total"] == 0
+
+
 @pytest.mark.parametrize(("system", "dp_text"), [("si", "228 Pa"), ("us", "0.92 in. w.c.")])
 def test_compliance_pdf_shows_figures(estate, supervisor, make_report, time_machine, system, dp_text):
     """The PDF: summary first, on-time share, the overdue unit, filters in the reader's units, freeze status."""
