@@ -21,6 +21,7 @@ from django.test import Client
 from django.urls import URLPattern, URLResolver, get_resolver
 
 from accounts.models import Role
+from frontend.calculators import CALCULATORS
 from inspections.models import Amendment, Inspection, Photo
 from inventory.csv_io import KINDS
 from inventory.models import AHU, Building, Component, Site
@@ -62,13 +63,15 @@ FILL: dict[str, Fill] = {
     "inventory:label-qr": {"code": lambda c: c.ahu.label_code},
     "frontend:unit": {"code": lambda c: c.ahu.label_code},
     "frontend:checklist": {"public_id": lambda c: c.open_work_order.public_id},
+    "frontend:checklist_result": {"public_id": lambda c: c.work_order.public_id},
+    "frontend:verify": {"public_id": lambda c: c.work_order.public_id},
     "frontend:assign": {"public_id": lambda c: c.open_work_order.public_id},
     "frontend:registry_unit": {"pk": lambda c: c.ahu.pk},
     "frontend:registry_unit_edit": {"pk": lambda c: c.ahu.pk},
     "frontend:registry_rules": {"pk": lambda c: c.ahu.pk},
     "frontend:registry_component_edit": {"pk": lambda c: c.component.pk},
     "frontend:dashboard_site": {"pk": lambda c: c.site.pk},
-    "frontend:calc_api": {"name": lambda c: "airflow"},
+    "frontend:calc_api": {"name": lambda c: next(iter(CALCULATORS))},
 }
 # Component labels open the same views as unit labels: try both.
 ALSO = {
@@ -284,9 +287,9 @@ def test_nothing_of_another_organisation_or_site_leaks(world, role):
     problems: list[str] = []
     client = _client(world, role)
     for route, name, pattern in routes():
-        if name in CAPABILITY:
-            continue
         params = _params(route)
+        if name in CAPABILITY or (params and name not in FILL):
+            continue  # unknown routes fail test_every_route_with_parameters_has_a_fill_rule
         methods = _methods(pattern, name)
         for corner in corners:
             fills = [FILL[name], ALSO[name]] if name in ALSO else [FILL.get(name, {})]
@@ -303,7 +306,8 @@ def test_nothing_of_another_organisation_or_site_leaks(world, role):
                         variants = [{}] if names_record else [{}, *_query_attacks(corner)]
                         for query in variants:
                             res = client.get(url, query)
-                            problems += _judge(res, f"GET {url} {query}", names_record, corners, role)
+                            # A page may repeat the query it was given; that is an echo, not a leak.
+                            problems += _judge(res, f"GET {url} {query}", names_record, corners, role, repr(query))
                         continue
                     hostile = HOSTILE.get(name) if not params else None
                     if hostile is not None and corner is not world.x:
@@ -339,12 +343,12 @@ def _only_own_changed(before, after, world) -> bool:
     return all(old.get(r["pk"]) == r for r in after["work_orders"] if r["pk"] in forbidden)
 
 
-def _judge(res, what: str, names_record: bool, corners, role) -> list[str]:
+def _judge(res, what: str, names_record: bool, corners, role, sent: str = "") -> list[str]:
     if res.status_code >= 500:
         return [f"{role}: {what} -> {res.status_code}"]
     if names_record and res.status_code not in REFUSED and not (role == "anonymous" and res.status_code == 302):
         return [f"{role}: {what} -> {res.status_code}; a forbidden record must be refused"]
-    leaked = _leaks(res, corners)
+    leaked = _leaks(res, corners, sent)
     return [f"{role}: {what} -> {res.status_code} shows {leaked}"] if leaked else []
 
 
