@@ -35,7 +35,7 @@ from dataclasses import dataclass, field
 from functools import lru_cache
 
 from django.db import transaction
-from django.db.models import Max, Q
+from django.db.models import Case, F, JSONField, Max, Q, Value, When
 from django.utils import timezone
 
 from engineering.errors import EngineeringInputError
@@ -292,8 +292,20 @@ def _title(tasks: list[TaskDefinition]) -> str:
     return title if len(title) <= 200 else title[:197] + "…"
 
 
-def _units(ahus_qs) -> tuple[list[_Unit], dict[int, object]]:
-    """Light rows of the in-service units and their components, plus the sites they are on (3 queries)."""
+def _spec_kinds(tasks: list[TaskDefinition]) -> set[str]:
+    """Component kinds whose specs the run reads: spec filters of the tasks, dampers (recirculation on a 100 %
+    outdoor-air unit) and fans (which fan's run-hour meter counts)."""
+    kinds = {"damper", "fan"}
+    for task in tasks:
+        kinds.update(t["kind"] for t in task.targets() if t.get("specs"))
+    return kinds
+
+
+def _units(ahus_qs, spec_kinds: set[str]) -> tuple[list[_Unit], dict[int, object]]:
+    """Light rows of the in-service units and their components, plus the sites they are on (3 queries).
+
+    Specs are read (and decoded) only for the component kinds in ``spec_kinds``; the others get ``{}``.
+    """
     from inventory.models import Site
 
     rows = list(
@@ -309,7 +321,10 @@ def _units(ahus_qs) -> tuple[list[_Unit], dict[int, object]]:
     parts = (
         Component.objects.filter(ahu_id__in=ahus_qs.values("pk"))
         .order_by("ahu_id", "position", "id")
-        .values_list("ahu_id", "pk", "kind", "specs")
+        .annotate(
+            needed_specs=Case(When(kind__in=spec_kinds, then=F("specs")), default=Value(None), output_field=JSONField())
+        )
+        .values_list("ahu_id", "pk", "kind", "needed_specs")
     )
     for ahu_id, pk, kind, specs in parts:
         unit = units.get(ahu_id)
@@ -343,7 +358,7 @@ def work_orders_generate(
     result = GenerationResult()
     if not tasks:
         return result
-    units, sites = _units(ahus_qs)
+    units, sites = _units(ahus_qs, _spec_kinds(tasks))
     if not units:
         return result
     ahu_ids = ahus_qs.values("pk")
@@ -386,27 +401,18 @@ def work_orders_generate(
     # others (seasons, run-hours, floating) over the meter history.
     first_day = min(d.today for d in days.values())
     existing = {
-        (ahu_id, code, ck, key): (pk, due, wo_id, state)
-        for pk, ahu_id, code, ck, key, due, wo_id, state in WorkOrderTask.objects.filter(ahu_id__in=ahu_ids)
+        (ahu_id, code, ck, key): (pk, due, wo_id)
+        for pk, ahu_id, code, ck, key, due, wo_id in WorkOrderTask.objects.filter(ahu_id__in=ahu_ids)
         .filter(
             Q(completed_at__isnull=True)
             | Q(due_date__gte=first_day)
             | (Q(due_date__gte=first_day - dt.timedelta(days=METER_HISTORY_DAYS)) & ~Q(occurrence_key__startswith="c:"))
         )
-        .values_list(
-            "id",
-            "ahu_id",
-            "task_code",
-            "component_key",
-            "occurrence_key",
-            "due_date",
-            "work_order_id",
-            "work_order__state",
-        )
+        .values_list("id", "ahu_id", "task_code", "component_key", "occurrence_key", "due_date", "work_order_id")
     }
 
     new: list[_Occ] = []
-    moves: list[tuple[int, dt.date, int]] = []
+    candidates: list[tuple[int, dt.date, int]] = []
     for occ in wanted:
         found = existing.get(occ.ident)
         if found is None:
@@ -414,12 +420,21 @@ def work_orders_generate(
         elif (
             occ.movable
             and found[1] != occ.due
-            and found[3] in MOVABLE_STATES
             and not (occ.clamped and found[1] <= occ.due)  # already due: a later "today" is no move
         ):
-            moves.append((found[0], occ.due, found[2]))
+            candidates.append((found[0], occ.due, found[2]))
         else:
             result.unchanged += 1
+    # Only a visit nobody has started moves; its state is read for the few candidates alone.
+    movable = set(
+        WorkOrder.objects.filter(pk__in={c[2] for c in candidates}, state__in=MOVABLE_STATES).values_list(
+            "pk", flat=True
+        )
+        if candidates
+        else ()
+    )
+    moves = [c for c in candidates if c[2] in movable]
+    result.unchanged += len(candidates) - len(moves)
     result.moved = len(moves)
     result.created = len(new)
     if dry_run:
