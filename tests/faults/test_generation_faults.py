@@ -150,6 +150,8 @@ def test_a_worker_killed_mid_generation_is_redelivered_and_completes(monkeypatch
         assert WorkOrder.objects.filter(tasks__isnull=True).count() == 0
         assert WorkOrderTask.objects.count() == 0, "a half-made set was committed"
         assert WorkOrder.objects.count() == 0
+        # A new worker hands out unacknowledged messages older than the visibility timeout when it starts.
+        time.sleep(6)
         second = _worker(env, "survivor")
         counts = result.get(timeout=120)
         assert counts is not None
