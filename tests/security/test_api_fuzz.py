@@ -14,7 +14,9 @@ import urllib.parse
 
 import pytest
 import schemathesis
+from django.core import signals
 from django.core.handlers.wsgi import WSGIHandler
+from django.db import close_old_connections
 from django.urls import Resolver404, resolve
 from hypothesis import HealthCheck, settings
 from schemathesis.specs.openapi.checks import status_code_conformance
@@ -34,8 +36,14 @@ def fuzz_world(db) -> World:
 
 @pytest.fixture
 def api_schema(fuzz_world):
+    # Like Django's test client: a bare WSGIHandler would close the test's database connection after each
+    # request (its transaction is not in autocommit), which on PostgreSQL ends the test's data.
+    signals.request_started.disconnect(close_old_connections)
+    signals.request_finished.disconnect(close_old_connections)
     token = api_token_issue(user=fuzz_world.supervisor)
-    return schemathesis.from_wsgi("/api/schema/", WSGIHandler(), headers={"Authorization": f"Token {token.key}"})
+    yield schemathesis.from_wsgi("/api/schema/", WSGIHandler(), headers={"Authorization": f"Token {token.key}"})
+    signals.request_started.connect(close_old_connections)
+    signals.request_finished.connect(close_old_connections)
 
 
 schema = schemathesis.from_pytest_fixture("api_schema")
