@@ -29,13 +29,15 @@ from __future__ import annotations
 
 import calendar
 import datetime as dt
+import json
 import zoneinfo
 from collections import defaultdict
 from dataclasses import dataclass, field
 from functools import lru_cache
 
 from django.db import transaction
-from django.db.models import Case, F, JSONField, Max, Q, Value, When
+from django.db.models import Max, Q, TextField
+from django.db.models.functions import Cast
 from django.utils import timezone
 
 from engineering.errors import EngineeringInputError
@@ -318,18 +320,19 @@ def _units(ahus_qs, spec_kinds: set[str]) -> tuple[list[_Unit], dict[int, object
         if site_id not in zones:
             zones[site_id] = zoneinfo.ZoneInfo(sites[site_id].time_zone)
         units[pk] = _Unit(pk, tag, site_id, full_oa, service_start or _local(created_at, zones[site_id]))
+    # Specs as text, decoded here only where a rule reads them: decoding every component's JSON is most of
+    # this read's cost on a large portfolio.
     parts = (
         Component.objects.filter(ahu_id__in=ahus_qs.values("pk"))
         .order_by("ahu_id", "position", "id")
-        .annotate(
-            needed_specs=Case(When(kind__in=spec_kinds, then=F("specs")), default=Value(None), output_field=JSONField())
-        )
-        .values_list("ahu_id", "pk", "kind", "needed_specs")
+        .annotate(specs_text=Cast("specs", TextField()))
+        .values_list("ahu_id", "pk", "kind", "specs_text")
     )
-    for ahu_id, pk, kind, specs in parts:
+    for ahu_id, pk, kind, text in parts:
         unit = units.get(ahu_id)
         if unit is None:
             continue
+        specs = json.loads(text) if text and kind in spec_kinds else None
         part = _Part(pk, kind, specs or {}, len(unit.parts))
         unit.parts.append(part)
         unit.by_kind.setdefault(kind, []).append(part)

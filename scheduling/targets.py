@@ -49,12 +49,14 @@ class TaskTargets:
     that groups a unit's components once skip the scan over the other kinds.
     """
 
-    __slots__ = ("kinds", "targets", "unit_level")
+    __slots__ = ("every", "kinds", "targets", "unit_level")
 
     def __init__(self, task) -> None:
         self.unit_level = not task.component_kind
         self.targets = task.targets()
         self.kinds = tuple(dict.fromkeys(t["kind"] for t in self.targets))
+        # Kinds where every component applies: a target without a spec filter, and no damper rule to apply.
+        self.every = frozenset(t["kind"] for t in self.targets if not t.get("specs") and t["kind"] != "damper")
 
     def components(self, *, ahu, components: Iterable) -> list:
         if self.unit_level:
@@ -75,4 +77,5 @@ class TaskTargets:
             candidates = [c for k in self.kinds for c in components_by_kind.get(k, ())]
             if order is not None:
                 candidates.sort(key=order)
-        return [c for c in candidates if _applies(self.targets, ahu, c)]
+        every = self.every
+        return [c for c in candidates if c.kind in every or _applies(self.targets, ahu, c)]
