@@ -44,7 +44,7 @@ from engineering.errors import EngineeringInputError
 from engineering.trends import run_hours_per_day
 from inventory.models import AHU, Component
 
-from .models import MeterReading, TaskDefinition, UnitTaskSetting, WorkOrder, WorkOrderTask
+from .models import MeterReading, TaskDefinition, UnitTaskSetting, WorkOrder, WorkOrderTask, overdue_day
 from .selectors import effective_tasks
 from .services.seasons import SEASON_LOOKBACK_DAYS, season_key, season_starts_for_sites
 from .targets import TaskTargets
@@ -475,7 +475,7 @@ def _write_new(*, organisation, new: list[_Occ], ahu_ids, bundle_days: int, resu
                 kind=WorkOrder.Kind.PREVENTIVE,
                 due_date=occ.due,
                 title="",
-                overdue_on=occ.due + dt.timedelta(days=occ.task.grace_days),
+                overdue_on=overdue_day(occ.due, occ.task.grace_days),
             )
             occs = [occ]
             fresh.append((wo, occs))
@@ -487,7 +487,7 @@ def _write_new(*, organisation, new: list[_Occ], ahu_ids, bundle_days: int, resu
     for wo, occs in fresh:
         wo.title = _title([o.task for o in occs])
         wo.due_date = min(o.due for o in occs)
-        wo.overdue_on = min(o.due + dt.timedelta(days=o.task.grace_days) for o in occs)
+        wo.overdue_on = min(overdue_day(o.due, o.task.grace_days) for o in occs)
     WorkOrder.objects.bulk_create([wo for wo, _ in fresh], batch_size=1000)
 
     def row(wo_id: int, o: _Occ) -> WorkOrderTask:

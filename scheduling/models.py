@@ -1,5 +1,6 @@
 """Maintenance rules, meters, outdoor temperatures and work orders."""
 
+import datetime as dt
 import secrets
 import uuid
 
@@ -199,6 +200,15 @@ class OutdoorTemperature(models.Model):
         return f"{self.site.code} {self.date}: {self.min_c:.1f}…{self.max_c:.1f} °C ({self.source})"
 
 
+def overdue_day(due: dt.date, grace_days: int) -> dt.date:
+    """First day work due on ``due`` counts as overdue: the last of ``grace_days`` grace days is still on time.
+
+    Due 1 March with 7 grace days: on time up to 8 March, overdue from 9 March.
+    Compliance figures, the board and the escalation e-mails all read this one day.
+    """
+    return due + dt.timedelta(days=grace_days + 1)
+
+
 class WorkOrder(models.Model):
     class Kind(models.TextChoices):
         PREVENTIVE = "preventive", "Preventive"
@@ -262,7 +272,11 @@ class WorkOrder(models.Model):
         related_name="assigned_work_orders",
     )
     due_date = models.DateField()
-    overdue_on = models.DateField(null=True, blank=True, help_text="First day it counts as overdue (due + grace).")
+    overdue_on = models.DateField(
+        null=True,
+        blank=True,
+        help_text="First day it counts as overdue: the day after the grace window (due + grace + 1 day).",
+    )
     scheduled_for = models.DateField(null=True, blank=True)
     escalated_on = models.DateField(null=True, blank=True, help_text="Last overdue e-mail to the supervisors.")
     started_at = models.DateTimeField(null=True, blank=True)

@@ -18,7 +18,7 @@ from accounts.models import Membership, Role
 from accounts.services import audit_record
 from inventory.models import AHU, Component
 
-from ..models import CalendarFeed, WorkOrder, WorkOrderTask
+from ..models import CalendarFeed, WorkOrder, WorkOrderTask, overdue_day
 from ..selectors import effective_tasks, site_today
 from ..targets import task_targets
 
@@ -273,7 +273,7 @@ def corrective_work_order_propose(
         condition_code=condition_code,
         source_ref=source_ref[:200],
         due_date=today,
-        overdue_on=today + dt.timedelta(days=_grace(priority)),
+        overdue_on=overdue_day(today, _grace(priority)),
         approval=WorkOrder.Approval.APPROVED if approved else WorkOrder.Approval.PENDING,
     )
     wo.full_clean()

@@ -75,8 +75,8 @@ def test_nightly_seasons_sets_each_sites_freeze_start_from_its_normals():
 def test_daily_escalation_mails_the_supervisors_once(django_capture_on_commit_callbacks):
     """Overdue work reaches the organisation's supervisors by e-mail after commit; the same morning again
     sends nothing, and work that is not yet overdue is not mentioned."""
-    late = WorkOrderFactory(due_date=dt.date(2025, 2, 10), overdue_on=dt.date(2025, 2, 17), title="Late visit")
-    WorkOrderFactory(ahu=late.ahu, due_date=dt.date(2025, 3, 1), overdue_on=dt.date(2025, 3, 8), title="Fresh visit")
+    late = WorkOrderFactory(due_date=dt.date(2025, 2, 10), overdue_on=dt.date(2025, 2, 18), title="Late visit")
+    WorkOrderFactory(ahu=late.ahu, due_date=dt.date(2025, 3, 1), overdue_on=dt.date(2025, 3, 9), title="Fresh visit")
     make_supervisor(late.organisation, email="lead@example.invalid")
     with django_capture_on_commit_callbacks(execute=True):
         tasks.daily_escalation.delay().get()

@@ -124,10 +124,10 @@ def test_urgent_approved_corrective_emails_supervisors_after_commit(django_captu
 
 def test_overdue_escalation_once_a_week(django_capture_on_commit_callbacks):
     """Overdue work is e-mailed to the supervisors, and not again the next day."""
-    wo = WorkOrderFactory(due_date=dt.date(2025, 3, 1), overdue_on=dt.date(2025, 3, 8))
+    wo = WorkOrderFactory(due_date=dt.date(2025, 3, 1), overdue_on=dt.date(2025, 3, 9))
     make_supervisor(wo.organisation, email="lead@example.invalid")
     with django_capture_on_commit_callbacks(execute=True):
-        assert overdue_escalation_send(organisation=wo.organisation, today=dt.date(2025, 3, 7)) == 0
+        assert overdue_escalation_send(organisation=wo.organisation, today=dt.date(2025, 3, 8)) == 0
         assert overdue_escalation_send(organisation=wo.organisation, today=dt.date(2025, 3, 9)) == 1
         assert overdue_escalation_send(organisation=wo.organisation, today=dt.date(2025, 3, 10)) == 0
     assert len(mail.outbox) == 1 and wo.ahu.tag in mail.outbox[0].body
