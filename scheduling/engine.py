@@ -40,6 +40,7 @@ from django.db.models import Max, Q, TextField
 from django.db.models.functions import Cast
 from django.utils import timezone
 
+from accounts.models import AuditEvent
 from engineering.errors import EngineeringInputError
 from engineering.trends import run_hours_per_day
 from inventory.models import AHU, Component
@@ -55,6 +56,7 @@ RATE_MAX_READINGS = 20
 METER_HISTORY_DAYS = 800
 MOVABLE_STATES = frozenset({WorkOrder.State.PLANNED, WorkOrder.State.ASSIGNED})
 Trigger = TaskDefinition.Trigger
+_WO_LABEL = WorkOrder._meta.label_lower
 _MONTHS = TaskDefinition.IntervalUnit.MONTHS
 _WEEKS = TaskDefinition.IntervalUnit.WEEKS
 
@@ -289,7 +291,10 @@ def _occurrences(*, unit: _Unit, site: _SiteDay, rules: _Rules, disabled, last_d
 
 
 def _title(tasks: list[TaskDefinition]) -> str:
-    names = ", ".join(sorted({t.name for t in tasks}))
+    return _title_of(", ".join(sorted({t.name for t in tasks})))
+
+
+def _title_of(names: str) -> str:
     title = f"Preventive maintenance: {names}"
     return title if len(title) <= 200 else title[:197] + "…"
 
@@ -415,7 +420,7 @@ def work_orders_generate(
     }
 
     new: list[_Occ] = []
-    candidates: list[tuple[int, dt.date, int]] = []
+    candidates: list[tuple[int, dt.date, int, tuple]] = []
     for occ in wanted:
         found = existing.get(occ.ident)
         if found is None:
@@ -425,7 +430,7 @@ def work_orders_generate(
             and found[1] != occ.due
             and not (occ.clamped and found[1] <= occ.due)  # already due: a later "today" is no move
         ):
-            candidates.append((found[0], occ.due, found[2]))
+            candidates.append((found[0], occ.due, found[2], occ.ident))
         else:
             result.unchanged += 1
     # Only a visit nobody has started moves; its state is read for the few candidates alone.
@@ -447,13 +452,37 @@ def work_orders_generate(
         return result
 
     with transaction.atomic():
-        _write_new(organisation=organisation, new=new, ahu_ids=ahu_ids, bundle_days=bundle_days, result=result)
+        audit: list[AuditEvent] = []
+        _write_new(
+            organisation=organisation, new=new, ahu_ids=ahu_ids, bundle_days=bundle_days, result=result, audit=audit
+        )
         if moves:
-            _write_moves(moves)
+            _write_moves(moves, organisation=organisation, audit=audit)
+        AuditEvent.objects.bulk_create(audit, batch_size=1000)
     return result
 
 
-def _write_new(*, organisation, new: list[_Occ], ahu_ids, bundle_days: int, result: GenerationResult) -> None:
+def _occurrence_ref(ident: tuple) -> list:
+    """An occurrence as the audit trail names it: [task code, component id (0: the unit), occurrence key]."""
+    return [ident[1], ident[2], ident[3]]
+
+
+def _audit_row(*, organisation, wo_id: int, action: str, changes: dict) -> AuditEvent:
+    # audit_record writes one row per call; the engine writes thousands at once, so the same row is built here
+    # and inserted in bulk (actor None: the engine, not a person).
+    return AuditEvent(
+        actor=None,
+        organisation=organisation,
+        object_type=_WO_LABEL,
+        object_id=str(wo_id),
+        action=action,
+        changes=changes,
+    )
+
+
+def _write_new(
+    *, organisation, new: list[_Occ], ahu_ids, bundle_days: int, result: GenerationResult, audit: list
+) -> None:
     """Bundle per unit: attach to an open visit within the window, else start a new visit; insert in bulk."""
     if not new:
         return
@@ -506,6 +535,7 @@ def _write_new(*, organisation, new: list[_Occ], ahu_ids, bundle_days: int, resu
     rows += [row(wo_id, o) for wo_id, o in attach]
     WorkOrderTask.objects.bulk_create(rows, ignore_conflicts=True, batch_size=2000)
     fresh_ids = [wo.pk for wo, _ in fresh]
+    empty: set[int] = set()
     if fresh_ids:
         # A concurrent run may have created some occurrences first; its rows won, so drop empty visits.
         empty = set(WorkOrder.objects.filter(pk__in=fresh_ids, tasks__isnull=True).values_list("pk", flat=True))
@@ -515,20 +545,98 @@ def _write_new(*, organisation, new: list[_Occ], ahu_ids, bundle_days: int, resu
             result.created -= lost
             result.unchanged += lost
         result.work_orders_created = len(fresh_ids) - len(empty)
+    audit.extend(
+        _audit_row(
+            organisation=organisation,
+            wo_id=wo.pk,
+            action="generated",
+            changes={"due_date": wo.due_date.isoformat(), "occurrences": [_occurrence_ref(o.ident) for o in occs]},
+        )
+        for wo, occs in fresh
+        if wo.pk not in empty
+    )
+    if attach:
+        _join_visits(attach, organisation=organisation, audit=audit)
 
 
-def _write_moves(moves: list[tuple[int, dt.date, int]]) -> None:
+def _join_visits(attach: list[tuple[int, _Occ]], *, organisation, audit: list) -> None:
+    """Visits that new occurrences joined follow their tasks: earliest due date, earliest overdue day, title.
+
+    Read back from the stored tasks, so a visit whose joined rows a concurrent run had already written
+    ends up the same, and one that is already right is not touched (no version bump, no audit).
+    """
+    joined: dict[int, list[_Occ]] = defaultdict(list)
+    for wo_id, occ in attach:
+        joined[wo_id].append(occ)
+    stored: dict[int, list[tuple[str, dt.date]]] = defaultdict(list)
+    for wo_id, name, due in WorkOrderTask.objects.filter(work_order_id__in=joined).values_list(
+        "work_order_id", "task__name", "due_date"
+    ):
+        stored[wo_id].append((name, due))
+    now = timezone.now()
+    changed = []
+    for wo in WorkOrder.objects.filter(pk__in=joined).only("id", "due_date", "overdue_on", "title", "version"):
+        occs = joined[wo.pk]
+        tasks = stored.get(wo.pk) or []
+        names = ", ".join(sorted({name for name, _ in tasks}))
+        title = _title_of(names)
+        due = min((d for _, d in tasks), default=wo.due_date)
+        joined_overdue = min(overdue_day(o.due, o.task.grace_days) for o in occs)
+        overdue_on = min(wo.overdue_on, joined_overdue) if wo.overdue_on else joined_overdue
+        before = {"due_date": wo.due_date, "overdue_on": wo.overdue_on, "title": wo.title}
+        after = {"due_date": due, "overdue_on": overdue_on, "title": title}
+        if before == after:
+            continue
+        wo.due_date, wo.overdue_on, wo.title = due, overdue_on, title
+        wo.version += 1
+        wo.updated_at = now
+        changed.append(wo)
+        audit.append(
+            _audit_row(
+                organisation=organisation,
+                wo_id=wo.pk,
+                action="generated",
+                changes={
+                    "joined": True,
+                    "from": {k: str(v) if isinstance(v, dt.date) else v for k, v in before.items()},
+                    "to": {k: str(v) if isinstance(v, dt.date) else v for k, v in after.items()},
+                    "occurrences": [_occurrence_ref(o.ident) for o in occs],
+                },
+            )
+        )
+    WorkOrder.objects.bulk_update(changed, ["due_date", "overdue_on", "title", "version", "updated_at"])
+
+
+def _write_moves(moves: list[tuple[int, dt.date, int, tuple]], *, organisation, audit: list) -> None:
     """Move projected occurrences to their new dates; each touched visit follows its first task."""
-    task_rows = [WorkOrderTask(pk=pk, due_date=due) for pk, due, _ in moves]
+    task_rows = [WorkOrderTask(pk=pk, due_date=due) for pk, due, _, _ in moves]
     WorkOrderTask.objects.bulk_update(task_rows, ["due_date"], batch_size=1000)
-    touched = {wo_id for _, _, wo_id in moves}
+    moved: dict[int, list] = defaultdict(list)
+    for _, due, wo_id, ident in moves:
+        moved[wo_id].append([*_occurrence_ref(ident), due.isoformat()])
     firsts = {}
-    for wo_id, due in WorkOrderTask.objects.filter(work_order_id__in=touched).values_list("work_order_id", "due_date"):
+    for wo_id, due in WorkOrderTask.objects.filter(work_order_id__in=moved).values_list("work_order_id", "due_date"):
         firsts[wo_id] = min(due, firsts.get(wo_id, due))
-    orders = list(WorkOrder.objects.filter(pk__in=touched).only("id", "due_date", "overdue_on", "version"))
+    orders = list(WorkOrder.objects.filter(pk__in=moved).only("id", "due_date", "overdue_on", "version"))
+    now = timezone.now()
     for wo in orders:
         shift = firsts[wo.pk] - wo.due_date
+        before = wo.due_date
         wo.due_date = firsts[wo.pk]
         wo.overdue_on = (wo.overdue_on or wo.due_date) + shift
         wo.version += 1
-    WorkOrder.objects.bulk_update(orders, ["due_date", "overdue_on", "version"], batch_size=1000)
+        wo.updated_at = now
+        audit.append(
+            _audit_row(
+                organisation=organisation,
+                wo_id=wo.pk,
+                action="moved",
+                changes={
+                    "from": before.isoformat(),
+                    "to": wo.due_date.isoformat(),
+                    # [task code, component id, occurrence key, its new due date]
+                    "occurrences": moved[wo.pk],
+                },
+            )
+        )
+    WorkOrder.objects.bulk_update(orders, ["due_date", "overdue_on", "version", "updated_at"], batch_size=1000)
