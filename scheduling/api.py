@@ -6,9 +6,13 @@ import datetime as dt
 
 from django.conf import settings
 from django.core.exceptions import ValidationError
+from django.db import transaction
 from django.http import Http404
 from django.urls import reverse
 from django.utils import timezone
+from django.utils.cache import patch_cache_control, patch_vary_headers
+from django.utils.decorators import method_decorator
+from django.views.decorators.http import conditional_page
 from drf_spectacular.utils import OpenApiParameter, extend_schema
 from rest_framework import status
 from rest_framework.response import Response
@@ -20,9 +24,11 @@ from inventory.selectors import ahus_visible_to, sites_visible_to
 from . import serializers as s
 from .models import MeterReading, OutdoorTemperature, WorkOrder
 from .selectors import (
-    board_for,
+    BOARD_LIMIT_MAX,
+    BOARD_SECTIONS,
+    board_page_for,
     effective_tasks,
-    today_visits_for,
+    today_visit_rows_for,
     work_orders_managed_by,
     work_orders_visible_to,
 )
@@ -33,6 +39,7 @@ from .services import (
     meter_reading_record,
     task_definition_override,
     work_order_assign,
+    work_order_schedule,
     work_order_transition,
 )
 
@@ -96,8 +103,41 @@ class WorkOrderAssign(APIView):
         if assignee is None:
             raise ValidationError({"assignee": [f"assignee={data.validated_data['assignee']!r} is not a user"]})
         try:
-            work_order_assign(
-                work_order=wo, assignee=assignee, by=request.user, expected_version=data.validated_data["version"]
+            # One transaction: a refused day leaves the assignment unsaved too.
+            with transaction.atomic():
+                work_order_assign(
+                    work_order=wo, assignee=assignee, by=request.user, expected_version=data.validated_data["version"]
+                )
+                if "scheduled_for" in data.validated_data:
+                    work_order_schedule(work_order=wo, day=data.validated_data["scheduled_for"], by=request.user)
+        except WorkOrderConflict as exc:
+            return _conflict(exc)
+        return Response(s.WorkOrderOut(_visible(request, public_id)).data)
+
+
+class WorkOrderSchedule(APIView):
+    @extend_schema(
+        request=s.ScheduleIn,
+        responses={200: s.WorkOrderOut, 409: s.ConflictOut, **ERRORS},
+        summary="Plan a work order for a day (or clear the plan)",
+        description=(
+            "Open work only; the day is the site's local date and may not be in the past (400 naming "
+            "scheduled_for). A stale version is a 409."
+        ),
+    )
+    def post(self, request, public_id):
+        _visible(request, public_id)
+        wo = work_orders_managed_by(user=request.user).filter(public_id=public_id).first()
+        if wo is None:
+            return Response({"detail": "only a supervisor of the organisation may plan work"}, status=403)
+        data = s.ScheduleIn(data=request.data)
+        data.is_valid(raise_exception=True)
+        try:
+            work_order_schedule(
+                work_order=wo,
+                day=data.validated_data["scheduled_for"],
+                by=request.user,
+                expected_version=data.validated_data["version"],
             )
         except WorkOrderConflict as exc:
             return _conflict(exc)
@@ -154,13 +194,34 @@ class WorkOrderApprove(APIView):
         return Response(s.WorkOrderOut(_visible(request, public_id)).data)
 
 
+def _revalidated(response: Response) -> Response:
+    """Polled reads: kept only by the caller, and checked each time (the ETag makes an unchanged answer a 304)."""
+    patch_cache_control(response, private=True, no_cache=True)
+    patch_vary_headers(response, ["Authorization"])
+    return response
+
+
+CONDITIONAL = [
+    OpenApiParameter(
+        "If-None-Match",
+        str,
+        OpenApiParameter.HEADER,
+        description="The ETag of an earlier answer; 304 with no body while the answer is the same.",
+    )
+]
+
+
+# The ETag is a hash of the answer itself (ConditionalGetMiddleware's), so it is right whatever changed
+# (a work order, a site's name, a task's estimate); it saves the phone the transfer, not the server the read.
+@method_decorator(conditional_page, name="dispatch")
 class TodayVisits(APIView):
     @extend_schema(
-        responses={200: s.VisitOut(many=True)},
+        responses={200: s.VisitOut(many=True), 304: None, **ERRORS},
         parameters=[
             OpenApiParameter("day", dt.date, description="default: today"),
             OpenApiParameter("lat", float),
             OpenApiParameter("lon", float),
+            *CONDITIONAL,
         ],
         summary="The caller's visits for the day, in a suggested order",
     )
@@ -172,8 +233,7 @@ class TodayVisits(APIView):
                 start = (float(request.query_params["lat"]), float(request.query_params["lon"]))
             except ValueError:
                 raise ValidationError({"lat": ["lat and lon must be decimal degrees"]}) from None
-        visits = today_visits_for(technician=request.user, day=day, start=start)
-        return Response(s.VisitOut(visits, many=True).data)
+        return _revalidated(Response(today_visit_rows_for(technician=request.user, day=day, start=start)))
 
 
 def _date_param(request, name: str) -> dt.date | None:
@@ -186,11 +246,35 @@ def _date_param(request, name: str) -> dt.date | None:
         raise ValidationError({name: [f"{name}={raw!r} is not a date as YYYY-MM-DD"]}) from None
 
 
+def _int_param(request, name: str, *, default: int, low: int, high: int) -> int:
+    raw = request.query_params.get(name)
+    if raw in (None, ""):
+        return default
+    try:
+        value = int(raw)
+    except ValueError:
+        value = None
+    if value is None or not low <= value <= high:
+        raise ValidationError({name: [f"{name}={raw!r} is not a whole number from {low} to {high}"]})
+    return value
+
+
+@method_decorator(conditional_page, name="dispatch")
 class Board(APIView):
     @extend_schema(
-        responses={200: s.BoardOut, **ERRORS},
-        parameters=[OpenApiParameter("week", dt.date)],
-        summary="Supervisor's board: due, overdue and assigned for a week",
+        responses={200: s.BoardOut, 304: None, **ERRORS},
+        parameters=[
+            OpenApiParameter("week", dt.date, description="any day of the week; default: this week"),
+            OpenApiParameter(
+                "limit", int, description=f"rows per section, 0 to {BOARD_LIMIT_MAX} (default 100); counts are for all"
+            ),
+            OpenApiParameter("offset", int, description="rows of each section to skip (default 0)"),
+            OpenApiParameter(
+                "section", str, enum=list(BOARD_SECTIONS), description="only this section's rows (counts stay whole)"
+            ),
+            *CONDITIONAL,
+        ],
+        summary="Supervisor's board: due, overdue and assigned for a week, a page per section with whole counts",
     )
     def get(self, request):
         org = _organisation_for(request.user, managing=True)
@@ -198,8 +282,14 @@ class Board(APIView):
             return Response({"detail": "the board is for supervisors"}, status=403)
         week = _date_param(request, "week") or timezone.localdate()
         week = week - dt.timedelta(days=week.weekday())
-        board = board_for(organisation=org, week_start=week)
-        return Response(s.BoardOut(board).data)
+        limit = _int_param(request, "limit", default=100, low=0, high=BOARD_LIMIT_MAX)
+        offset = _int_param(request, "offset", default=0, low=0, high=10**6)
+        section = request.query_params.get("section") or None
+        if section is not None and section not in BOARD_SECTIONS:
+            allowed = ", ".join(BOARD_SECTIONS)
+            raise ValidationError({"section": [f"section={section!r} is not one of {allowed}"]})
+        board = board_page_for(organisation=org, week_start=week, limit=limit, offset=offset, section=section)
+        return _revalidated(Response(board))
 
 
 class TaskList(APIView):

@@ -129,6 +129,18 @@ class VersionIn(serializers.Serializer):
 
 class AssignIn(VersionIn):
     assignee = serializers.CharField(help_text="Username of a technician of the organisation.")
+    scheduled_for = serializers.DateField(
+        required=False,
+        allow_null=True,
+        help_text="Optionally plan the visit for this day too (the site's local date, today or later).",
+    )
+
+
+class ScheduleIn(VersionIn):
+    scheduled_for = serializers.DateField(
+        allow_null=True,
+        help_text="The day the visit is planned for (site's local date, today or later); null clears it.",
+    )
 
 
 class TransitionIn(VersionIn):
@@ -186,11 +198,66 @@ class VisitOut(serializers.Serializer):
         }
 
 
+class UnitRefOut(serializers.Serializer):
+    id = serializers.IntegerField()
+    tag = serializers.CharField()
+    label_code = serializers.CharField()
+
+
+class SiteRefOut(serializers.Serializer):
+    id = serializers.IntegerField()
+    code = serializers.CharField()
+    name = serializers.CharField()
+
+
+class PersonRefOut(serializers.Serializer):
+    id = serializers.IntegerField()
+    username = serializers.CharField()
+    name = serializers.CharField()
+
+
+class BoardItemOut(serializers.Serializer):
+    """A work order on the board, without its tasks (the work-order endpoint has them)."""
+
+    id = serializers.UUIDField()
+    kind = serializers.ChoiceField(choices=WorkOrder.Kind.choices)
+    state = serializers.ChoiceField(choices=WorkOrder.State.choices)
+    priority = serializers.ChoiceField(choices=WorkOrder.Priority.choices)
+    approval = serializers.ChoiceField(choices=WorkOrder.Approval.choices)
+    title = serializers.CharField()
+    condition_code = serializers.CharField()
+    unit = UnitRefOut()
+    site = SiteRefOut()
+    assignee = PersonRefOut(allow_null=True)
+    due_date = serializers.DateField()
+    overdue_on = serializers.DateField(allow_null=True)
+    scheduled_for = serializers.DateField(allow_null=True)
+    version = serializers.IntegerField()
+    allowed_states = serializers.ListField(child=serializers.CharField())
+
+
+class BoardCountsOut(serializers.Serializer):
+    overdue = serializers.IntegerField(help_text="All overdue work, whatever the page.")
+    due = serializers.IntegerField(help_text="All unassigned work due in the week.")
+    assigned = serializers.IntegerField(help_text="All assigned work due in the week.")
+
+
+class BoardDayOut(serializers.Serializer):
+    date = serializers.DateField()
+    due = serializers.IntegerField(help_text="Unassigned work due that day.")
+    assigned = serializers.IntegerField(help_text="Assigned work due that day.")
+
+
 class BoardOut(serializers.Serializer):
-    week_start = serializers.DateField()
-    due = WorkOrderOut(many=True)
-    overdue = WorkOrderOut(many=True)
-    assigned = WorkOrderOut(many=True)
+    week_start = serializers.DateField(help_text="The Monday of the week shown.")
+    today = serializers.DateField(help_text="The day overdue is judged on.")
+    limit = serializers.IntegerField()
+    offset = serializers.IntegerField()
+    counts = BoardCountsOut(help_text="Totals of each section for the whole week, not only this page.")
+    days = BoardDayOut(many=True, help_text="Totals per day of the week, Monday first.")
+    overdue = BoardItemOut(many=True, help_text="Rows offset to offset + limit of the overdue work, due first.")
+    due = BoardItemOut(many=True, help_text="Rows offset to offset + limit of the unassigned work of the week.")
+    assigned = BoardItemOut(many=True, help_text="Rows offset to offset + limit of the assigned work of the week.")
 
 
 class CalendarFeedOut(serializers.Serializer):
