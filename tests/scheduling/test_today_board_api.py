@@ -1,0 +1,154 @@
+"""The technician's today and the supervisor's board: plain-row reads, board pages and counts, ETags."""
+
+import datetime as dt
+import json
+
+import pytest
+from django.utils import timezone
+from rest_framework.utils.encoders import JSONEncoder
+
+from scheduling import serializers as s
+from scheduling.engine import work_orders_generate
+from scheduling.models import WorkOrder
+from scheduling.selectors import board_for, board_page_for, today_visit_rows_for, today_visits_for
+from scheduling.services import work_order_assign
+from tests.factories.inventory import AHUFactory, make_full_unit
+from tests.factories.scheduling import WorkOrderFactory, make_supervisor, make_technician
+
+pytestmark = pytest.mark.django_db
+TODAY = dt.date(2025, 3, 5)  # a Wednesday
+MONDAY = dt.date(2025, 3, 3)
+
+
+def as_json(data):
+    return json.loads(json.dumps(data, cls=JSONEncoder))
+
+
+@pytest.fixture
+def world(library):
+    ahu = make_full_unit(service_start=dt.date(2024, 1, 15))
+    org = ahu.building.site.organisation
+    work_orders_generate(organisation=org, today=MONDAY)
+    return {"ahu": ahu, "org": org, "sup": make_supervisor(org), "tech": make_technician(org)}
+
+
+def test_today_rows_match_what_the_serializer_showed(world):
+    """The plain today answer is the same JSON the nested serializers gave: sites, order, legs, orders, tasks."""
+    orders = list(WorkOrder.objects.filter(ahu__building__site__organisation=world["org"]).order_by("due_date")[:3])
+    second = make_full_unit(building=AHUFactory(building__site__organisation=world["org"]).building)
+    orders.append(WorkOrderFactory(ahu=second, due_date=orders[0].due_date, title="Loose belt", reason="noise"))
+    for wo in orders:
+        work_order_assign(work_order=wo, assignee=world["tech"], by=world["sup"])
+    day = max(wo.due_date for wo in orders)
+    old = s.VisitOut(today_visits_for(technician=world["tech"], day=day, start=(52.0, 4.0)), many=True).data
+    new = today_visit_rows_for(technician=world["tech"], day=day, start=(52.0, 4.0))
+    assert len(new) == 2 and any(wo["tasks"] for v in new for wo in v["work_orders"])
+    assert any(not wo["tasks"] for v in new for wo in v["work_orders"]), "a work order without tasks is kept"
+    assert as_json(new) == as_json(old)
+
+
+def test_today_lists_only_the_callers_own_open_work(api_client, world):
+    """Another technician's work and finished work stay off a technician's day."""
+    wo, theirs, done = WorkOrder.objects.filter(ahu=world["ahu"]).order_by("due_date")[:3]
+    other = make_technician(world["org"])
+    work_order_assign(work_order=wo, assignee=world["tech"], by=world["sup"])
+    work_order_assign(work_order=theirs, assignee=other, by=world["sup"])
+    WorkOrder.objects.filter(pk=done.pk).update(assignee=world["tech"], state=WorkOrder.State.COMPLETED)
+    api_client.force_authenticate(world["tech"])
+    visits = api_client.get(f"/api/scheduling/today/?day={done.due_date.isoformat()}").json()
+    assert [w["id"] for v in visits for w in v["work_orders"]] == [str(wo.public_id)]
+
+
+def _board_orders(org, ahu, assignee):
+    """Overdue (past the grace window), late but within grace, due this week unassigned and assigned, next week."""
+    make = lambda **kw: WorkOrderFactory(organisation=org, ahu=ahu, **kw)  # noqa: E731
+    return {
+        "overdue": [
+            make(due_date=TODAY - dt.timedelta(days=20), overdue_on=TODAY - dt.timedelta(days=3)),
+            make(due_date=TODAY - dt.timedelta(days=1), overdue_on=None),
+        ],
+        "in_grace": [make(due_date=MONDAY, overdue_on=TODAY + dt.timedelta(days=2))],
+        "due": [make(due_date=TODAY), make(due_date=TODAY + dt.timedelta(days=2)), make(due_date=TODAY)],
+        "assigned": [make(due_date=TODAY + dt.timedelta(days=1), assignee=assignee, state=WorkOrder.State.ASSIGNED)],
+        "later": [make(due_date=MONDAY + dt.timedelta(days=9))],
+        "pending": [make(due_date=TODAY, approval=WorkOrder.Approval.PENDING)],
+    }
+
+
+def test_board_sections_are_the_pages_board(library):
+    """The API's board puts each work order in the same section as the board page does."""
+    ahu = AHUFactory()
+    org = ahu.building.site.organisation
+    made = _board_orders(org, ahu, make_technician(org))
+    page = board_page_for(organisation=org, week_start=MONDAY, today=TODAY)
+    board = board_for(organisation=org, week_start=MONDAY, today=TODAY)
+    for name in ("overdue", "due", "assigned"):
+        assert [r["id"] for r in page[name]] == [wo.public_id for wo in getattr(board, name)], name
+    assert page["counts"] == {"overdue": 2, "due": 4, "assigned": 1}
+    assert {wo.public_id for wo in made["in_grace"]} <= {r["id"] for r in page["due"]}, "late within grace is due"
+    shown = {r["id"] for name in ("overdue", "due", "assigned") for r in page[name]}
+    assert not shown & {wo.public_id for wo in made["later"] + made["pending"]}
+
+
+def test_board_pages_each_section_and_keeps_whole_counts(library):
+    """With limit=1 each section shows one row, the counts still cover the week, and offset pages on."""
+    ahu = AHUFactory()
+    org = ahu.building.site.organisation
+    _board_orders(org, ahu, make_technician(org))
+    whole = board_page_for(organisation=org, week_start=MONDAY, today=TODAY)
+    seen = []
+    for offset in range(5):
+        page = board_page_for(organisation=org, week_start=MONDAY, today=TODAY, limit=1, offset=offset)
+        assert page["counts"] == whole["counts"]
+        assert all(len(page[name]) <= 1 for name in ("overdue", "due", "assigned"))
+        seen += page["due"]
+    assert seen == whole["due"]
+    only = board_page_for(organisation=org, week_start=MONDAY, today=TODAY, section="overdue")
+    assert only["overdue"] == whole["overdue"] and only["due"] == [] and only["assigned"] == []
+    per_day = {d["date"]: (d["due"], d["assigned"]) for d in whole["days"]}
+    assert len(per_day) == 7 and per_day[MONDAY] == (1, 0)
+    assert per_day[TODAY] == (2, 0) and per_day[TODAY + dt.timedelta(days=1)] == (0, 1)
+    assert per_day[TODAY + dt.timedelta(days=2)] == (1, 0)
+
+
+def test_board_api_pages_counts_and_refuses_bad_paging(api_client, world):
+    """The board answers a page with whole counts; a limit out of range is a 400 naming limit and the range."""
+    api_client.force_authenticate(world["sup"])
+    week = timezone.localdate()
+    WorkOrderFactory.create_batch(3, organisation=world["org"], ahu=world["ahu"], due_date=week)
+    body = api_client.get(f"/api/scheduling/board/?week={week.isoformat()}&limit=1").json()
+    assert body["limit"] == 1 and body["counts"]["due"] >= 3 and len(body["due"]) == 1
+    assert set(body["due"][0]) >= {"id", "unit", "site", "assignee", "due_date", "version", "allowed_states"}
+    r = api_client.get("/api/scheduling/board/?limit=501")
+    assert r.status_code == 400 and "limit='501'" in r.json()["errors"]["limit"][0] and "0 to 500" in r.content.decode()
+    r = api_client.get("/api/scheduling/board/?section=later")
+    assert r.status_code == 400 and "overdue, due, assigned" in r.json()["errors"]["section"][0]
+
+
+def test_board_is_for_supervisors_of_their_own_organisation(api_client, world):
+    """A technician gets 403; another organisation's supervisor sees none of this organisation's work."""
+    api_client.force_authenticate(world["tech"])
+    assert api_client.get("/api/scheduling/board/").status_code == 403
+    stranger = make_supervisor(AHUFactory().building.site.organisation)
+    WorkOrderFactory(organisation=world["org"], ahu=world["ahu"], due_date=timezone.localdate())
+    api_client.force_authenticate(stranger)
+    body = api_client.get("/api/scheduling/board/").json()
+    assert body["counts"] == {"overdue": 0, "due": 0, "assigned": 0}
+
+
+@pytest.mark.parametrize("path", ["/api/scheduling/today/", "/api/scheduling/board/"])
+def test_an_unchanged_answer_is_a_304_and_a_change_is_seen(api_client, world, path):
+    """Polling with the last ETag costs no body while nothing changed; after a change the new answer comes."""
+    wo = WorkOrderFactory(organisation=world["org"], ahu=world["ahu"], due_date=timezone.localdate())
+    work_order_assign(work_order=wo, assignee=world["tech"], by=world["sup"])
+    api_client.force_authenticate(world["tech"] if "today" in path else world["sup"])
+    first = api_client.get(path)
+    assert first.status_code == 200 and first["ETag"] and "private" in first["Cache-Control"]
+    again = api_client.get(path, HTTP_IF_NONE_MATCH=first["ETag"])
+    assert again.status_code == 304 and again.content == b""
+    site = world["ahu"].building.site
+    site.name = "Harbour Works Annex"
+    site.save(update_fields=["name"])
+    changed = api_client.get(path, HTTP_IF_NONE_MATCH=first["ETag"])
+    assert changed.status_code == 200 and changed["ETag"] != first["ETag"]
+    assert "Harbour Works Annex" in changed.content.decode()
