@@ -7,6 +7,7 @@ urlpatterns = [
     path("work-orders/", api.WorkOrderList.as_view(), name="work-orders"),
     path("work-orders/<uuid:public_id>/", api.WorkOrderDetail.as_view(), name="work-order"),
     path("work-orders/<uuid:public_id>/assign/", api.WorkOrderAssign.as_view(), name="work-order-assign"),
+    path("work-orders/<uuid:public_id>/schedule/", api.WorkOrderSchedule.as_view(), name="work-order-schedule"),
     path("work-orders/<uuid:public_id>/transition/", api.WorkOrderTransition.as_view(), name="work-order-transition"),
     path("work-orders/<uuid:public_id>/approve/", api.WorkOrderApprove.as_view(), name="work-order-approve"),
     path("today/", api.TodayVisits.as_view(), name="today"),

@@ -157,6 +157,53 @@ def work_order_assign(*, work_order: WorkOrder, assignee, by, expected_version: 
     return wo
 
 
+@transaction.atomic
+def work_order_schedule(
+    *, work_order: WorkOrder, day: dt.date | None, by, expected_version: int | None = None
+) -> WorkOrder:
+    """Plan the visit for ``day`` (the site's local date), or take the plan off with ``None``.
+
+    Only open work can be planned, and not for a day before the site's today.
+    Planning it for the day it already has changes nothing (no new version).
+    """
+    wo = _locked(work_order, expected_version)
+    if wo.state not in WorkOrder.OPEN_STATES:
+        raise ValidationError(
+            {
+                "scheduled_for": [
+                    f"work order is {wo.state!r}: only open work ("
+                    + ", ".join(sorted(WorkOrder.OPEN_STATES))
+                    + ") can be planned for a day"
+                ]
+            }
+        )
+    if day is not None:
+        today = site_today(site=wo.ahu.building.site)
+        if day < today:
+            raise ValidationError(
+                {
+                    "scheduled_for": [
+                        f"scheduled_for={day.isoformat()} is in the past at {wo.ahu.building.site.name}; "
+                        f"allowed: {today.isoformat()} or later"
+                    ]
+                }
+            )
+    if day == wo.scheduled_for:
+        _copy_back(work_order, wo)
+        return wo
+    before = wo.scheduled_for
+    wo.scheduled_for = day
+    _save(
+        wo,
+        ["scheduled_for"],
+        by=by,
+        action="schedule",
+        changes={"from": before.isoformat() if before else None, "to": day.isoformat() if day else None},
+    )
+    _copy_back(work_order, wo)
+    return wo
+
+
 def work_order_unassign(*, work_order: WorkOrder, by, expected_version: int | None = None) -> WorkOrder:
     return work_order_transition(
         work_order=work_order, to_state=State.PLANNED, by=by, expected_version=expected_version
