@@ -176,6 +176,7 @@ SPECTACULAR_SETTINGS = {
         "UnitStatusEnum": "inventory.models.AHU.Status",
         "ReportKindEnum": "reports.models.Report.Kind",
         "WorkOrderStateEnum": "scheduling.models.WorkOrder.State",
+        "WorkOrderKindEnum": "scheduling.models.WorkOrder.Kind",
     },
 }
 
