@@ -6,6 +6,7 @@ import uuid
 from django.contrib import messages
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied, ValidationError
+from django.db import transaction
 from django.db.models import Count, Prefetch
 from django.http import Http404
 from django.shortcuts import redirect, render
@@ -23,6 +24,7 @@ from inventory.specs import spec_fields
 from scheduling.models import UnitTaskSetting, WorkOrder
 from scheduling.selectors import effective_tasks
 from scheduling.services.library import unit_task_set
+from scheduling.services.work_orders import WorkOrderConflict, work_order_schedule
 
 from .. import backends, selectors
 from ..specs_form import spec_initial, spec_rows, specs_from_post
@@ -55,7 +57,11 @@ def _technicians(org):
 def board(request):
     org = _organisation(request)
     week = _week_start(request.GET.get("week"))
+    today = timezone.localdate()
     data = backends.board_for(organisation=org, week_start=week)
+    for wo in (*data.overdue, *data.due, *data.assigned):
+        # The day offered for the visit: its plan, else its due date, never a day already past.
+        wo.plan_default = wo.scheduled_for or max(wo.due_date, today)
     load = backends.technician_load(organisation=org, start=week, days=7)
     return render(
         request,
@@ -63,6 +69,7 @@ def board(request):
         {
             "board": data,
             "week": week,
+            "today": today,
             "week_end": week + dt.timedelta(days=6),
             "prev_week": week - dt.timedelta(days=7),
             "next_week": week + dt.timedelta(days=7),
@@ -77,6 +84,7 @@ def board(request):
 @login_required
 @require_POST
 def assign(request, public_id):
+    """The board's row form: a technician and the day the visit is planned for, saved together or not at all."""
     org = _organisation(request)
     wo = backends.work_orders_managed_by(user=request.user).filter(public_id=public_id).first()
     if wo is None:
@@ -86,16 +94,28 @@ def assign(request, public_id):
     if technician is None:
         messages.error(request, f"assignee={request.POST.get('assignee')!r} is not a technician of {org}.")
         return redirect(back)
+    raw_day = request.POST.get("scheduled_for", "").strip()
+    try:
+        day = dt.date.fromisoformat(raw_day) if raw_day else None
+    except ValueError:
+        messages.error(request, f"scheduled_for={raw_day!r} is not a date as YYYY-MM-DD.")
+        return redirect(back)
     try:
         version = int(request.POST.get("version", ""))
     except ValueError:
         version = None
     try:
-        backends.work_order_assign(work_order=wo, assignee=technician, by=request.user, expected_version=version)
+        with transaction.atomic():
+            backends.work_order_assign(work_order=wo, assignee=technician, by=request.user, expected_version=version)
+            if "scheduled_for" in request.POST:
+                work_order_schedule(work_order=wo, day=day, by=request.user)
     except ValidationError as exc:
         messages.error(request, f"{wo.ahu.tag} {wo.title}: {' '.join(exc.messages)}")
+    except WorkOrderConflict:
+        messages.error(request, f"{wo.ahu.tag} {wo.title}: someone changed it meanwhile; here it is as it is now.")
     else:
-        messages.success(request, f"{wo.ahu.tag} — {wo.title} assigned to {technician}.")
+        planned = f" for {day.day} {day:%b}" if day else ""
+        messages.success(request, f"{wo.ahu.tag} — {wo.title} assigned to {technician}{planned}.")
     return redirect(back)
 
 

@@ -1,0 +1,84 @@
+"""The supervisor's board: a day for each visit beside its technician, and the load table that follows it."""
+
+import datetime as dt
+
+import pytest
+import time_machine
+from django.contrib.messages import get_messages
+from django.urls import reverse
+
+from scheduling.models import WorkOrder
+
+from . import scenario as scenario_module
+from .scenario import add_task, make_work
+
+pytestmark = pytest.mark.django_db
+WEDNESDAY = dt.date(2025, 3, 5)
+
+
+@pytest.fixture
+def scenario(db):
+    with time_machine.travel(dt.datetime(2025, 3, 5, 10, tzinfo=dt.UTC), tick=False):
+        yield scenario_module.build()
+
+
+@pytest.fixture
+def visit(scenario):
+    """Unassigned work due Friday 7 March with a 45-minute filter change and a 10-minute filter check."""
+    wo = make_work(ahu=scenario.unit_a, title="Belt check", due=dt.date(2025, 3, 7))
+    add_task(wo, "filter_replace", scenario.unit_a.components.get(name="Final filters"))
+    return wo
+
+
+def hours_of(response, technician) -> dict:
+    (row,) = [r for r in response.context["load"] if r["technician"] == technician]
+    return {d["date"]: d["hours"] for d in row["days"]}
+
+
+def test_board_offers_the_due_date_as_the_day(scenario, visit, login):
+    """Each row's form has a date field for the visit, filled with its due date, no earlier than today."""
+    html = login(scenario.supervisor).get("/board/").content.decode()
+    assert f'id="plan-{visit.public_id}" name="scheduled_for" value="2025-03-07" min="2025-03-05"' in html
+    assert f'<label for="plan-{visit.public_id}">' in html
+
+
+def test_assigning_with_a_day_plans_it_and_the_load_follows(scenario, visit, login):
+    """Assigning the Friday visit for Thursday puts its 55 minutes on Thursday in the load table, not Friday."""
+    client = login(scenario.supervisor)
+    client.post(
+        reverse("frontend:assign", kwargs={"public_id": visit.public_id}),
+        {"assignee": scenario.technician.pk, "version": visit.version, "scheduled_for": "2025-03-06"},
+    )
+    visit.refresh_from_db()
+    assert (visit.assignee, visit.scheduled_for) == (scenario.technician, dt.date(2025, 3, 6))
+    hours = hours_of(client.get("/board/"), scenario.technician)
+    assert hours[dt.date(2025, 3, 6)] == pytest.approx(55 / 60, abs=0.01)
+    assert hours[dt.date(2025, 3, 7)] == 0
+    page = client.get("/board/").content.decode()
+    assert 'value="2025-03-06"' in page and "planned 6 Mar" in page
+
+
+def test_a_past_day_is_refused_and_nothing_is_saved(scenario, visit, login):
+    """A day before today is refused with a message naming the field and the day; the work stays unassigned."""
+    client = login(scenario.supervisor)
+    response = client.post(
+        reverse("frontend:assign", kwargs={"public_id": visit.public_id}),
+        {"assignee": scenario.technician.pk, "version": visit.version, "scheduled_for": "2025-03-04"},
+    )
+    text = " ".join(str(m) for m in get_messages(response.wsgi_request))
+    assert "scheduled_for=2025-03-04" in text
+    wo = WorkOrder.objects.get(pk=visit.pk)
+    assert (wo.state, wo.assignee_id, wo.scheduled_for) == ("planned", None, None)
+
+
+def test_a_stale_form_is_a_message_not_an_error_page(scenario, visit, login):
+    """A form read before someone else changed the work order says so, and changes nothing."""
+    client = login(scenario.supervisor)
+    response = client.post(
+        reverse("frontend:assign", kwargs={"public_id": visit.public_id}),
+        {"assignee": scenario.technician.pk, "version": visit.version + 5, "scheduled_for": "2025-03-06"},
+    )
+    assert response.status_code == 302
+    text = " ".join(str(m) for m in get_messages(response.wsgi_request))
+    assert "changed it meanwhile" in text
+    assert WorkOrder.objects.get(pk=visit.pk).assignee_id is None
