@@ -6,8 +6,7 @@ import datetime as dt
 import zoneinfo
 from dataclasses import dataclass, field
 
-from django.db.models import Case, CharField, Count, F, Prefetch, Q, QuerySet, Sum, Value, When, Window
-from django.db.models.functions import RowNumber
+from django.db.models import Count, Prefetch, Q, QuerySet, Sum
 from django.utils import timezone
 
 from accounts.models import Membership, Role
@@ -87,12 +86,22 @@ def board_for(*, organisation, week_start: dt.date, today: dt.date | None = None
     )
     board = Board(week_start=week_start)
     for wo in rows:
-        overdue = (wo.overdue_on or wo.due_date) <= today and wo.due_date < today
-        if overdue:
-            board.overdue.append(wo)
-        elif week_start <= wo.due_date < week_end:
-            (board.assigned if wo.assignee_id else board.due).append(wo)
+        name = _board_section_of(wo.due_date, wo.overdue_on, wo.assignee_id, week_start, week_end, today)
+        if name:
+            getattr(board, name).append(wo)
     return board
+
+
+def _board_section_of(
+    due_date: dt.date, overdue_on, assignee_id, week_start: dt.date, week_end: dt.date, today: dt.date
+) -> str | None:
+    """The board's one rule: overdue once past due and past the grace window; else due (unassigned) or
+    assigned if due within the week; else on no section."""
+    if (overdue_on or due_date) <= today and due_date < today:
+        return "overdue"
+    if week_start <= due_date < week_end:
+        return "assigned" if assignee_id else "due"
+    return None
 
 
 def _person(user) -> dict | None:
@@ -107,23 +116,8 @@ BOARD_SECTIONS = ("overdue", "due", "assigned")
 BOARD_LIMIT_MAX = 500
 
 
-def _board_section(*, week_start: dt.date, today: dt.date) -> Case:
-    """The section of a board row, the same rule as ``board_for``'s, in SQL (NULL: on no section)."""
-    week_end = week_start + dt.timedelta(days=7)
-    # Overdue: past due and past the grace window (no window: past due is overdue).
-    overdue = Q(due_date__lt=today) & (Q(overdue_on__lte=today) | Q(overdue_on__isnull=True))
-    in_week = Q(due_date__gte=week_start, due_date__lt=week_end) & (Q(due_date__gte=today) | Q(overdue_on__gt=today))
-    return Case(
-        When(overdue, then=Value("overdue")),
-        When(in_week & Q(assignee__isnull=True), then=Value("due")),
-        When(in_week, then=Value("assigned")),
-        default=None,
-        output_field=CharField(),
-    )
-
-
 _BOARD_COLUMNS = (
-    "section",
+    "id",
     "public_id",
     "kind",
     "state",
@@ -160,41 +154,39 @@ def board_page_for(
     """The board as plain dicts: totals per section and per day of the week for all of it, and the
     rows ``offset`` to ``offset + limit`` of each section (or of ``section`` alone), due date first.
 
-    Two queries: one grouped count, one window-numbered page (no model instances)."""
+    Two queries: four columns of every row on the board (to sort them into sections and count), then
+    the shown rows by primary key with their unit, site and assignee; no model instances."""
     today = today or timezone.localdate()
-    rows = _board_rows(organisation=organisation, week_start=week_start, today=today).annotate(
-        section=_board_section(week_start=week_start, today=today)
+    week_end = week_start + dt.timedelta(days=7)
+    rows = (
+        _board_rows(organisation=organisation, week_start=week_start, today=today)
+        .order_by("due_date", "id")
+        .values_list("id", "due_date", "overdue_on", "assignee_id")
     )
     days = [week_start + dt.timedelta(days=k) for k in range(7)]
     per_day = {d: {"date": d, "due": 0, "assigned": 0} for d in days}
-    counts = dict.fromkeys(BOARD_SECTIONS, 0)
-    grouped = rows.filter(section__isnull=False).order_by().values_list("section", "due_date").annotate(n=Count("id"))
-    for name, due_date, n in grouped:
-        counts[name] += n
-        if name != "overdue" and due_date in per_day:
-            per_day[due_date][name] += n
-    wanted = [section] if section else list(BOARD_SECTIONS)
-    items: dict[str, list[dict]] = {name: [] for name in BOARD_SECTIONS}
-    if limit > 0 and any(counts[name] > offset for name in wanted):
-        page = (
-            rows.filter(section__in=[name for name in wanted if counts[name] > offset])
-            .annotate(
-                position=Window(RowNumber(), partition_by=[F("section")], order_by=[F("due_date").asc(), F("id").asc()])
-            )
-            .filter(position__gt=offset, position__lte=offset + limit)
-            .order_by("due_date", "id")
-            .values_list(*_BOARD_COLUMNS)
-        )
-        for r in page:
-            items[r[0]].append(_board_item(r))
+    ids: dict[str, list[int]] = {name: [] for name in BOARD_SECTIONS}
+    for pk, due_date, overdue_on, assignee_id in rows:
+        name = _board_section_of(due_date, overdue_on, assignee_id, week_start, week_end, today)
+        if name is None:
+            continue
+        ids[name].append(pk)
+        if name != "overdue":
+            per_day[due_date][name] += 1
+    shown = {name: ids[name][offset : offset + limit] if name == section or not section else [] for name in ids}
+    wanted = [pk for page in shown.values() for pk in page]
+    found = {}
+    if wanted:
+        found = {r[0]: r for r in WorkOrder.objects.filter(pk__in=wanted).values_list(*_BOARD_COLUMNS)}
     return {
         "week_start": week_start,
         "today": today,
         "limit": limit,
         "offset": offset,
-        "counts": counts,
+        "counts": {name: len(ids[name]) for name in BOARD_SECTIONS},
         "days": list(per_day.values()),
-        **items,
+        # A row gone between the two reads (deleted) is left out rather than shown half.
+        **{name: [_board_item(found[pk]) for pk in page if pk in found] for name, page in shown.items()},
     }
 
 
