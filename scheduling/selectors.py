@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
+import functools
 import zoneinfo
 from dataclasses import dataclass, field
 
@@ -264,13 +265,19 @@ def _today_orders(*, technician, day: dt.date) -> QuerySet[WorkOrder]:
     ).filter(Q(scheduled_for=day) | Q(scheduled_for__isnull=True, due_date__lte=day))
 
 
+@functools.lru_cache(maxsize=512)
+def _suggest_order(origin: tuple[float, float], coords: tuple[tuple[float, float], ...]) -> tuple[int, ...]:
+    # The exact order of 10 stops costs milliseconds and a phone asks for the same day again and again.
+    return tuple(routing.suggest_order(start=origin, stops=coords))
+
+
 def _route(*, points: dict[int, tuple[float, float]], start: tuple[float, float] | None):
     """(order, site id, leg km) per stop in the suggested order; ``points`` in first-due order."""
     ids = list(points)
-    coords = [points[i] for i in ids]
+    coords = tuple(points[i] for i in ids)
     origin = start or coords[0]
     prev = origin
-    for n, idx in enumerate(routing.suggest_order(start=origin, stops=coords), start=1):
+    for n, idx in enumerate(_suggest_order(origin, coords), start=1):
         here = coords[idx]
         yield n, ids[idx], round(routing.haversine_km(prev, here), 2)
         prev = here
