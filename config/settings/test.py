@@ -17,3 +17,7 @@ AXES_ENABLED = os.environ.get("AXES_ENABLED_IN_TESTS", "") == "1"
 
 # whitenoise warns on every request until the folder exists.
 STATIC_ROOT.mkdir(parents=True, exist_ok=True)
+
+# Tasks run in-process in tests even when CELERY_BROKER_URL is set (the PostgreSQL/Redis pass of
+# .ci/run): the tests that need a real worker start one and send to it with ``send_task``.
+CELERY_TASK_ALWAYS_EAGER = True
