@@ -729,7 +729,7 @@ def _org_build(
                     title="Filter pressure-drop check",
                     assignee=tech,
                     due_date=due,
-                    overdue_on=due + dt.timedelta(days=7),
+                    overdue_on=due + dt.timedelta(days=8),  # first day after a 7-day grace
                     scheduled_for=due,
                     started_at=done - dt.timedelta(minutes=40),
                     completed_at=done,
@@ -869,7 +869,7 @@ def _org_build(
             condition_code="filter_loaded",
             source_ref=f"inspection {insp.pk}",
             due_date=today + dt.timedelta(days=7),
-            overdue_on=today + dt.timedelta(days=14),
+            overdue_on=today + dt.timedelta(days=15),  # first day after a 14-day grace
         )
         for ev, (insp, ahu, comp, q) in zip(evaluations, eval_meta, strict=True)
         if q == 1

@@ -27,8 +27,10 @@ Preventive work in a period ``start``–``end`` (both days included)
 Overdue now
     Open work orders (planned, assigned, in progress), of any kind, whose
     deadline is before the date of ``as_of``. The deadline of a work order is
-    the scheduler's ``overdue_on`` when set, else ``due_date`` plus the smallest
-    grace of its tasks (0 without tasks).
+    the last day of its grace window: the day before the scheduler's
+    ``overdue_on`` (its first overdue day) when set, else ``due_date`` plus the
+    smallest grace of its tasks (0 without tasks). The board, the escalation
+    e-mails and these figures therefore call the same day overdue.
 
 Open findings by severity and age
     Findings open at ``as_of`` (state open, opened on or before it). Age in
@@ -289,7 +291,10 @@ def compliance_figures(*, site_ids: list[int], start: date, end: date, as_of: da
         .order_by("due_date", "ahu__building__site__name", "ahu__tag", "pk")
     )
     for wo in open_orders:
-        deadline = wo.overdue_on or wo.due_date + timedelta(days=wo.min_grace or 0)
+        if wo.overdue_on is not None:
+            deadline = wo.overdue_on - timedelta(days=1)
+        else:
+            deadline = wo.due_date + timedelta(days=wo.min_grace or 0)
         today = today_of[wo.ahu.building.site_id]
         if deadline < today:
             overdue.append({"work_order": wo, "deadline": deadline, "days_overdue": (today - deadline).days})

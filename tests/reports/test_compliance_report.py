@@ -179,3 +179,20 @@ def test_pdfa_variant_is_archival(estate, supervisor, make_report):
     assert re.search(r'pdfaid:part="3"', xmp) and re.search(r'pdfaid:conformance="B"', xmp)
     plain = make_report(user=supervisor, kind="compliance", parameters=params)
     assert "pdfaid" not in pdf_xmp(plain)
+
+
+def test_overdue_now_agrees_with_the_schedulers_first_overdue_day(estate):
+    """Due 1 Apr with 7 grace days: the scheduler's first overdue day is 9 Apr; not overdue on 8 Apr, overdue on 9 Apr."""
+    from scheduling.models import overdue_day
+
+    filt = estate["a1"].work_orders.first().tasks.first().task
+    wo = b.preventive(estate["a1"], filt, "2025-04-01", overdue_on=overdue_day(dt.date(2025, 4, 1), 7))
+    assert wo.overdue_on == dt.date(2025, 4, 9)
+
+    def overdue_on(day):
+        as_of = dt.datetime(day.year, day.month, day.day, 12, tzinfo=dt.UTC)
+        f = compliance_figures(site_ids=[estate["site"].pk], start=dt.date(2025, 1, 1), end=day, as_of=as_of)
+        return wo.pk in {o["work_order"].pk for o in f.overdue}
+
+    assert not overdue_on(dt.date(2025, 4, 8))
+    assert overdue_on(dt.date(2025, 4, 9))
