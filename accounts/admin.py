@@ -17,7 +17,8 @@ class SiteGrantInline(admin.TabularInline):
 
 @admin.register(User)
 class UserAdmin(BaseUserAdmin):
-    fieldsets = BaseUserAdmin.fieldsets + (
+    fieldsets = (
+        *BaseUserAdmin.fieldsets,
         ("Plenum", {"fields": ("unit_system", "phone", "daily_capacity_hours", "skills")}),
     )
     inlines = [MembershipInline, SiteGrantInline]

@@ -77,8 +77,9 @@ def heat_recovery_effectiveness(
     place, or a heater upstream of it).
     """
     o = v.air_temperature("t_outdoor_c", t_outdoor_c, label="outdoor air temperature")
-    s = v.air_temperature("t_supply_after_recovery_c", t_supply_after_recovery_c,
-                          label="supply air after recovery temperature")
+    s = v.air_temperature(
+        "t_supply_after_recovery_c", t_supply_after_recovery_c, label="supply air after recovery temperature"
+    )
     e = v.air_temperature("t_extract_c", t_extract_c, label="extract air temperature")
     acc = v.in_range("sensor_accuracy_k", sensor_accuracy_k, 0.0, 5.0, unit="K", label="sensor accuracy")
     mind = v.positive("min_difference_k", min_difference_k, unit="K")
@@ -152,19 +153,35 @@ def heat_recovery_check(
     """
     x = v.in_range("effectiveness", effectiveness, 0.0, 1.0, label="effectiveness")
     u = v.in_range("uncertainty", uncertainty, 0.0, 1.0, label="uncertainty")
-    design = v.in_range("design_effectiveness_pct", design_effectiveness_pct, 0.0, 100.0, unit="%",
-                        label="design effectiveness", low_open=True)
+    design = v.in_range(
+        "design_effectiveness_pct",
+        design_effectiveness_pct,
+        0.0,
+        100.0,
+        unit="%",
+        label="design effectiveness",
+        low_open=True,
+    )
     watch = v.non_negative("watch_points", watch_points, unit="points")
     fail = v.non_negative("fail_points", fail_points, unit="points")
     if fail < watch:
-        raise EngineeringInputError(field="fail_points", value=fail, allowed=f"at least watch_points={v.fmt(watch)}",
-                                    low=watch)
+        raise EngineeringInputError(
+            field="fail_points", value=fail, allowed=f"at least watch_points={v.fmt(watch)}", low=watch
+        )
     pct, u_pct = x * 100.0, u * 100.0
     below = design - pct
-    limits = {"design_pct": design, "effectiveness_pct": pct, "uncertainty_pct": u_pct, "below_design_points": below,
-              "watch_points": watch, "fail_points": fail}
-    text = (f"effectiveness {pct:.0f} % ± {u_pct:.0f} points against design {design:.0f} % "
-            f"(watch beyond {watch:g} points below, fail beyond {fail:g})")
+    limits = {
+        "design_pct": design,
+        "effectiveness_pct": pct,
+        "uncertainty_pct": u_pct,
+        "below_design_points": below,
+        "watch_points": watch,
+        "fail_points": fail,
+    }
+    text = (
+        f"effectiveness {pct:.0f} % ± {u_pct:.0f} points against design {design:.0f} % "
+        f"(watch beyond {watch:g} points below, fail beyond {fail:g})"
+    )
     if round(below, 9) <= watch:
         return Check(Verdict.OK, x, limits, text)
     if round(design - (pct + u_pct), 9) <= fail:

@@ -38,21 +38,37 @@ def _signature_png(name: str) -> str:
     return "data:image/png;base64," + base64.b64encode(out.getvalue()).decode()
 
 
-def _work_order(*, ahu: AHU, organisation, technician, due: dt.date, codes: list[str],
-                targets: dict[str, list] | None = None) -> WorkOrder:
+def _work_order(
+    *, ahu: AHU, organisation, technician, due: dt.date, codes: list[str], targets: dict[str, list] | None = None
+) -> WorkOrder:
     title = f"Monthly service {due:%Y-%m}"
     wo = WorkOrder.objects.filter(ahu=ahu, title=title, due_date=due).first()
     if wo is not None:
         return wo
-    wo = WorkOrder.objects.create(organisation=organisation, ahu=ahu, title=title, due_date=due, scheduled_for=due,
-                                  assignee=technician, state=WorkOrder.State.ASSIGNED)
+    wo = WorkOrder.objects.create(
+        organisation=organisation,
+        ahu=ahu,
+        title=title,
+        due_date=due,
+        scheduled_for=due,
+        assignee=technician,
+        state=WorkOrder.State.ASSIGNED,
+    )
     tasks = {t.code: t for t in TaskDefinition.objects.filter(organisation=None, code__in=codes)}
     targets = targets or {}
     WorkOrderTask.objects.bulk_create(
-        WorkOrderTask(work_order=wo, task=tasks[c], task_code=c, ahu=ahu, component=comp,
-                      component_key=comp.pk if comp else 0, due_date=due,
-                      occurrence_key=f"demo:{due:%Y-%m}:{wo.public_id.hex[:8]}")
-        for c in codes if c in tasks
+        WorkOrderTask(
+            work_order=wo,
+            task=tasks[c],
+            task_code=c,
+            ahu=ahu,
+            component=comp,
+            component_key=comp.pk if comp else 0,
+            due_date=due,
+            occurrence_key=f"demo:{due:%Y-%m}:{wo.public_id.hex[:8]}",
+        )
+        for c in codes
+        if c in tasks
         for comp in targets.get(c, [None])
     )
     return wo
@@ -73,8 +89,12 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
     drifting CO2 sensor, which become findings with corrective work.
     """
     task_library_install()
-    tech_ms = (Membership.objects.filter(organisation=organisation, role=Role.TECHNICIAN)
-               .select_related("user").order_by("id").first())
+    tech_ms = (
+        Membership.objects.filter(organisation=organisation, role=Role.TECHNICIAN)
+        .select_related("user")
+        .order_by("id")
+        .first()
+    )
     if tech_ms is None:
         raise ValueError(f"organisation {organisation} has no technician to sign the demo visits")
     tech = tech_ms.user
@@ -102,8 +122,14 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                 codes.append("sensor_calibration")
             if change_due:
                 codes.append("filter_replace")
-            wo = _work_order(ahu=ahu, organisation=organisation, technician=tech, due=due, codes=codes,
-                             targets={"filter_replace": [b for b in banks if b.pk in change_due]})
+            wo = _work_order(
+                ahu=ahu,
+                organisation=organisation,
+                technician=tech,
+                due=due,
+                codes=codes,
+                targets={"filter_replace": [b for b in banks if b.pk in change_due]},
+            )
             finished = dt.datetime.combine(due, dt.time(9, 30), tzinfo=dt.UTC) + dt.timedelta(minutes=7 * unit_no)
             readings = [{"item": "visit.run_hours", "component": None, "value": round(hours)}]
             for b in banks:
@@ -111,17 +137,26 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                 if b.pk in change_due:
                     loading[b.pk] = 0.0
                     after = round(clean * rng.uniform(0.98, 1.08))
-                    readings += [{"item": "filter_replace.replaced", "component": b.label_code, "value": "ok"},
-                                 {"item": "filter_replace.dp_after", "component": b.label_code, "value": after}]
+                    readings += [
+                        {"item": "filter_replace.replaced", "component": b.label_code, "value": "ok"},
+                        {"item": "filter_replace.dp_after", "component": b.label_code, "value": after},
+                    ]
                 else:
                     loading[b.pk] += rate[b.pk] * HOURS_PER_DAY * VISIT_DAYS
                 dp = clean + loading[b.pk] * (final - clean) + rng.uniform(-3, 3)
                 readings += [
-                    {"item": "filter_check.dp", "component": b.label_code, "value": round(max(dp, 1)),
-                     "note": "loaded: change raised" if loading[b.pk] > 0.9 else ""},
+                    {
+                        "item": "filter_check.dp",
+                        "component": b.label_code,
+                        "value": round(max(dp, 1)),
+                        "note": "loaded: change raised" if loading[b.pk] > 0.9 else "",
+                    },
                     {"item": "filter_check.seated", "component": b.label_code, "value": "ok"},
-                    {"item": "filter_check.media", "component": b.label_code,
-                     "value": "clean" if loading[b.pk] < 0.2 else "loaded"},
+                    {
+                        "item": "filter_check.media",
+                        "component": b.label_code,
+                        "value": "clean" if loading[b.pk] < 0.2 else "loaded",
+                    },
                 ]
             change_due = {b.pk for b in banks if loading[b.pk] > 0.85}
             t_out = _outdoor_c(site, due, rng)
@@ -130,15 +165,21 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
             readings += [
                 {"item": "ventilation_check.outdoor_air", "component": None, "value": t_out},
                 {"item": "ventilation_check.return_air", "component": None, "value": t_ret},
-                {"item": "ventilation_check.mixed_air", "component": None,
-                 "value": round(t_ret - x * (t_ret - t_out) + rng.uniform(-0.2, 0.2), 1)},
+                {
+                    "item": "ventilation_check.mixed_air",
+                    "component": None,
+                    "value": round(t_ret - x * (t_ret - t_out) + rng.uniform(-0.2, 0.2), 1),
+                },
             ]
             faulty = unit_no == 0 and m <= max(months // 3, 1)
             if "controls_check" in codes:
                 sp = ahu.supply_air_setpoint_c or 17.0
                 readings += [
-                    {"item": "controls_check.supply_air", "component": None,
-                     "value": round(sp + rng.uniform(-0.6, 0.6), 1)},
+                    {
+                        "item": "controls_check.supply_air",
+                        "component": None,
+                        "value": round(sp + rng.uniform(-0.6, 0.6), 1),
+                    },
                     {"item": "controls_check.supply_setpoint", "component": None, "value": sp},
                     {"item": "controls_check.alarms", "component": None, "value": "ok"},
                     {"item": "controls_check.schedule", "component": None, "value": "ok"},
@@ -148,8 +189,12 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                     pos = cmd - (14 if faulty and d.specs.get("role") == "outdoor" else rng.randint(-2, 2))
                     readings += [
                         {"item": "damper_actuator.command", "component": d.label_code, "value": cmd},
-                        {"item": "damper_actuator.position", "component": d.label_code, "value": pos,
-                         "note": "actuator slipping on the shaft" if cmd - pos > 10 else ""},
+                        {
+                            "item": "damper_actuator.position",
+                            "component": d.label_code,
+                            "value": pos,
+                            "note": "actuator slipping on the shaft" if cmd - pos > 10 else "",
+                        },
                         {"item": "damper_actuator.linkage", "component": d.label_code, "value": "ok"},
                     ]
             if "sensor_calibration" in codes:
@@ -158,21 +203,32 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                     drift = 120 if faulty else rng.randint(-20, 20)
                     readings += [
                         {"item": "sensor_calibration.co2_sensor", "component": s.label_code, "value": ref + drift},
-                        {"item": "sensor_calibration.co2_reference", "component": s.label_code, "value": ref,
-                         "note": "reads high against the reference" if drift > 50 else ""},
+                        {
+                            "item": "sensor_calibration.co2_reference",
+                            "component": s.label_code,
+                            "value": ref,
+                            "note": "reads high against the reference" if drift > 50 else "",
+                        },
                     ]
                 for s in temp_sensors:
                     ref = round(rng.uniform(15, 19), 1)
                     readings += [
-                        {"item": "sensor_calibration.temp_sensor", "component": s.label_code,
-                         "value": round(ref + rng.uniform(-0.2, 0.2), 1)},
+                        {
+                            "item": "sensor_calibration.temp_sensor",
+                            "component": s.label_code,
+                            "value": round(ref + rng.uniform(-0.2, 0.2), 1),
+                        },
                         {"item": "sensor_calibration.temp_reference", "component": s.label_code, "value": ref},
                     ]
             form = {
                 "client_uuid": str(uuid.uuid5(NAMESPACE, f"{organisation.pk}:{ahu.pk}:{due.isoformat()}")),
-                "work_order": str(wo.public_id), "work_order_version": wo.version, "unit_system": "si",
+                "work_order": str(wo.public_id),
+                "work_order_version": wo.version,
+                "unit_system": "si",
                 "started_at": (finished - dt.timedelta(minutes=50)).isoformat(),
-                "finished_at": finished.isoformat(), "readings": readings, "photos": [],
+                "finished_at": finished.isoformat(),
+                "readings": readings,
+                "photos": [],
                 "signature": {"name": str(tech), "image": sig, "signed_at": finished.isoformat()},
             }
             result = inspection_submit(user=tech, form=form)

@@ -154,8 +154,9 @@ def supply_airflow(form: Form) -> tuple[float, str]:
     fan = _fan(form)
     if speed and fan is not None and fan.specs.get("design_speed_rpm") and fan.specs.get("design_flow_m3s"):
         rpm = eng_units.to_display(value=speed, quantity="rotational_speed", system="si")
-        q = expected_flow_at_speed(design_flow_m3s=fan.specs["design_flow_m3s"],
-                                   design_speed=fan.specs["design_speed_rpm"], measured_speed=rpm)
+        q = expected_flow_at_speed(
+            design_flow_m3s=fan.specs["design_flow_m3s"], design_speed=fan.specs["design_speed_rpm"], measured_speed=rpm
+        )
         return q, f"from fan speed {rpm:.0f} rpm by the first fan law"
     return form.ahu.design_supply_airflow_m3s, "design airflow assumed (not measured)"
 
@@ -187,9 +188,13 @@ def _reading_result(slot, value: Value) -> Result | None:
         if all(lim.get(k) is None for k in ("ok_min", "ok_max")):
             return None
         check = controls.band_check(
-            value=value.number, ok_low=lim.get("ok_min"), ok_high=lim.get("ok_max"),
-            watch_low=lim.get("watch_min"), watch_high=lim.get("watch_max"),
-            label=it.label.lower(), unit=_unit(it.quantity),
+            value=value.number,
+            ok_low=lim.get("ok_min"),
+            ok_high=lim.get("ok_max"),
+            watch_low=lim.get("watch_min"),
+            watch_high=lim.get("watch_max"),
+            label=it.label.lower(),
+            unit=_unit(it.quantity),
         )
         res.check = "limits"
         res.verdict = check.verdict.value
@@ -214,8 +219,13 @@ def _band_parts(it, x: float, lim: dict, verdict: str) -> list:
     if verdict == OK:
         return [*head, " is within ", span(ok_lo, ok_hi, it.quantity, d)]
     if verdict == WATCH:
-        return [*head, " is outside ", span(ok_lo, ok_hi, it.quantity, d), " but within ",
-                span(w_lo, w_hi, it.quantity, d)]
+        return [
+            *head,
+            " is outside ",
+            span(ok_lo, ok_hi, it.quantity, d),
+            " but within ",
+            span(w_lo, w_hi, it.quantity, d),
+        ]
     return [*head, " is outside ", span(w_lo, w_hi, it.quantity, d)]
 
 
@@ -237,7 +247,10 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
         res = Result(check="filter_loading", item="filter_check.dp", component=bank, condition_code="filter_loaded")
         try:
             loading = filters.filter_loading(
-                dp_pa=dp, airflow_m3s=q, design_airflow_m3s=design_q, clean_dp_pa=specs["clean_dp_pa"],
+                dp_pa=dp,
+                airflow_m3s=q,
+                design_airflow_m3s=design_q,
+                clean_dp_pa=specs["clean_dp_pa"],
                 final_dp_pa=specs["final_dp_pa"],
             )
         except (EngineeringInputError, KeyError) as exc:
@@ -247,36 +260,54 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
         pct = loading.fraction_of_span * 100
         res.verdict = loading.verdict.value
         res.derived = {
-            "dp_pa": dp, "airflow_m3s": q, "airflow_source": q_how, "design_airflow_m3s": design_q,
-            "corrected_dp_pa": round(loading.corrected_dp_pa, 1), "loading_pct": round(pct, 1),
-            "clean_dp_pa": specs["clean_dp_pa"], "final_dp_pa": specs["final_dp_pa"],
+            "dp_pa": dp,
+            "airflow_m3s": q,
+            "airflow_source": q_how,
+            "design_airflow_m3s": design_q,
+            "corrected_dp_pa": round(loading.corrected_dp_pa, 1),
+            "loading_pct": round(pct, 1),
+            "clean_dp_pa": specs["clean_dp_pa"],
+            "final_dp_pa": specs["final_dp_pa"],
         }
-        res.method = (f"Δp × (Q_design/Q)^{filters.DEFAULT_EXPONENT:g} (engineering.filters.filter_loading); "
-                      f"airflow {q_how}")
+        res.method = (
+            f"Δp × (Q_design/Q)^{filters.DEFAULT_EXPONENT:g} (engineering.filters.filter_loading); airflow {q_how}"
+        )
         forecast_text = ""
         hours = form.num("visit.run_hours")
         if hours is not None:
-            points = [*form.filter_points(bank), FilterPoint(run_hours=hours, dp_pa=dp, airflow_m3s=q,
-                                                             when=form.finished_at.date())]
+            points = [
+                *form.filter_points(bank),
+                FilterPoint(run_hours=hours, dp_pa=dp, airflow_m3s=q, when=form.finished_at.date()),
+            ]
             try:
-                fc = filters.filter_forecast(points=points, design_airflow_m3s=design_q,
-                                             final_dp_pa=specs["final_dp_pa"])
+                fc = filters.filter_forecast(
+                    points=points, design_airflow_m3s=design_q, final_dp_pa=specs["final_dp_pa"]
+                )
             except EngineeringInputError as exc:
                 forecast_text = "; no change forecast yet"
                 res.derived["forecast_note"] = str(exc)
             else:
-                res.derived.update({
-                    "forecast_run_hours": round(fc.run_hours_at_final),
-                    "forecast_change_date": fc.date_at_final.isoformat() if fc.date_at_final else None,
-                    "forecast_earliest_date": fc.date_low.isoformat() if fc.date_low else None,
-                    "forecast_latest_date": fc.date_high.isoformat() if fc.date_high else None,
-                    "rate_pa_per_hour": round(fc.rate_pa_per_hour, 4), "points_used": fc.points_used,
-                })
+                res.derived.update(
+                    {
+                        "forecast_run_hours": round(fc.run_hours_at_final),
+                        "forecast_change_date": fc.date_at_final.isoformat() if fc.date_at_final else None,
+                        "forecast_earliest_date": fc.date_low.isoformat() if fc.date_low else None,
+                        "forecast_latest_date": fc.date_high.isoformat() if fc.date_high else None,
+                        "rate_pa_per_hour": round(fc.rate_pa_per_hour, 4),
+                        "points_used": fc.points_used,
+                    }
+                )
                 res.method += "; forecast: " + fc.method
                 forecast_text = f"; change forecast {_fmt_date(fc.date_at_final)}"
-        res.say(f"{bank.name}: filter at {pct:.0f} % of its span after correcting to design airflow (",
-                qty(loading.corrected_dp_pa, "pressure"), " at design, clean ", qty(specs["clean_dp_pa"], "pressure"),
-                ", final ", qty(specs["final_dp_pa"], "pressure"), f"){forecast_text}")
+        res.say(
+            f"{bank.name}: filter at {pct:.0f} % of its span after correcting to design airflow (",
+            qty(loading.corrected_dp_pa, "pressure"),
+            " at design, clean ",
+            qty(specs["clean_dp_pa"], "pressure"),
+            ", final ",
+            qty(specs["final_dp_pa"], "pressure"),
+            f"){forecast_text}",
+        )
         out.append(res)
     return out
 
@@ -286,23 +317,33 @@ def _oa_checks(form: Form, consumed: set) -> list[Result]:
     ahu = form.ahu
     q, q_how = supply_airflow(form)
     pairs = [
-        ("temperature", "ventilation_check.mixed_air",
-         lambda: outdoor_air.oa_fraction_from_temperatures(
-             t_outdoor_c=form.num("ventilation_check.outdoor_air"), t_return_c=form.num("ventilation_check.return_air"),
-             t_mixed_c=form.num("ventilation_check.mixed_air")),
-         ("ventilation_check.outdoor_air", "ventilation_check.return_air", "ventilation_check.mixed_air")),
-        ("co2", "ventilation_check.supply_co2",
-         lambda: outdoor_air.oa_fraction_from_co2(
-             co2_outdoor_ppm=form.num("ventilation_check.outdoor_co2"),
-             co2_return_ppm=form.num("ventilation_check.return_co2"),
-             co2_supply_or_mixed_ppm=form.num("ventilation_check.supply_co2")),
-         ("ventilation_check.outdoor_co2", "ventilation_check.return_co2", "ventilation_check.supply_co2")),
+        (
+            "temperature",
+            "ventilation_check.mixed_air",
+            lambda: outdoor_air.oa_fraction_from_temperatures(
+                t_outdoor_c=form.num("ventilation_check.outdoor_air"),
+                t_return_c=form.num("ventilation_check.return_air"),
+                t_mixed_c=form.num("ventilation_check.mixed_air"),
+            ),
+            ("ventilation_check.outdoor_air", "ventilation_check.return_air", "ventilation_check.mixed_air"),
+        ),
+        (
+            "co2",
+            "ventilation_check.supply_co2",
+            lambda: outdoor_air.oa_fraction_from_co2(
+                co2_outdoor_ppm=form.num("ventilation_check.outdoor_co2"),
+                co2_return_ppm=form.num("ventilation_check.return_co2"),
+                co2_supply_or_mixed_ppm=form.num("ventilation_check.supply_co2"),
+            ),
+            ("ventilation_check.outdoor_co2", "ventilation_check.return_co2", "ventilation_check.supply_co2"),
+        ),
     ]
     required_q = None
     if ahu.space_kind in ventilation.SPACE_KINDS and ahu.floor_area_m2:
         try:
             vbz = ventilation.breathing_zone_outdoor_airflow(
-                space_kind=ahu.space_kind, floor_area_m2=ahu.floor_area_m2, occupants=ahu.design_occupants)
+                space_kind=ahu.space_kind, floor_area_m2=ahu.floor_area_m2, occupants=ahu.design_occupants
+            )
             required_q = ventilation.zone_outdoor_airflow(vbz=vbz, ez=1.0)
         except EngineeringInputError:
             required_q = None
@@ -318,22 +359,28 @@ def _oa_checks(form: Form, consumed: set) -> list[Result]:
             continue
         oa_q = outdoor_air.outdoor_airflow_m3s(fraction=frac.fraction, supply_airflow_m3s=q)
         res.derived = {
-            "oa_fraction": round(frac.fraction, 3), "uncertainty": round(frac.uncertainty, 3),
-            "outdoor_airflow_m3s": round(oa_q, 3), "supply_airflow_m3s": q, "airflow_source": q_how,
+            "oa_fraction": round(frac.fraction, 3),
+            "uncertainty": round(frac.uncertainty, 3),
+            "outdoor_airflow_m3s": round(oa_q, 3),
+            "supply_airflow_m3s": q,
+            "airflow_source": q_how,
             "design_min_oa_fraction": ahu.design_min_oa_fraction,
             "design_min_outdoor_airflow_m3s": round(ahu.design_min_oa_fraction * ahu.design_supply_airflow_m3s, 3),
         }
         label = "temperatures" if method == "temperature" else "CO2"
-        res.method = (f"mixing balance from {label} (engineering.outdoor_air.oa_fraction_from_"
-                      f"{'temperatures' if method == 'temperature' else 'co2'}); outdoor airflow = fraction × "
-                      f"supply airflow ({q_how})")
+        res.method = (
+            f"mixing balance from {label} (engineering.outdoor_air.oa_fraction_from_"
+            f"{'temperatures' if method == 'temperature' else 'co2'}); outdoor airflow = fraction × "
+            f"supply airflow ({q_how})"
+        )
         if ahu.full_outdoor_air:
             res.verdict = OK
             res.reason = f"100 % outdoor-air unit; measured fraction {frac.fraction * 100:.0f} %"
             out.append(res)
             continue
-        chk = outdoor_air.fraction_check(fraction=frac.fraction, uncertainty=frac.uncertainty,
-                                         minimum=ahu.design_min_oa_fraction)
+        chk = outdoor_air.fraction_check(
+            fraction=frac.fraction, uncertainty=frac.uncertainty, minimum=ahu.design_min_oa_fraction
+        )
         verdict = chk.verdict
         parts = [f"by {label}: {chk.reason} (design minimum; ", qty(oa_q, "airflow"), " outdoor air)"]
         if required_q is not None and q > 0:
@@ -341,8 +388,11 @@ def _oa_checks(form: Form, consumed: set) -> list[Result]:
             need = min(required_q / q, 1.0)
             req = outdoor_air.fraction_check(fraction=frac.fraction, uncertainty=frac.uncertainty, minimum=need)
             verdict = controls.worst(verdict, req.verdict)
-            parts += ["; ventilation requirement ", qty(required_q, "airflow"),
-                      f" (ASHRAE 62.1 ventilation rate procedure, {ahu.space_kind}): {req.verdict.value}"]
+            parts += [
+                "; ventilation requirement ",
+                qty(required_q, "airflow"),
+                f" (ASHRAE 62.1 ventilation rate procedure, {ahu.space_kind}): {req.verdict.value}",
+            ]
             res.method += "; requirement Vbz = Rp·Pz + Ra·Az, Ez = 1 (engineering.ventilation)"
         res.verdict = verdict.value
         res.say(parts)
@@ -356,35 +406,49 @@ def _coil_checks(form: Form, consumed: set) -> list[Result]:
     p = pressure_from_altitude(altitude_m=form.ahu.building.site.altitude_m)
     for coil in (c for c in form.components if c.kind == "coil"):
         for template in ("coil_clean", "cooling_season_check"):
-            vals = {k: form.num(f"{template}.{k}", coil) for k in ("air_in", "air_out", "water_in", "water_out",
-                                                                  "water_flow")}
+            vals = {
+                k: form.num(f"{template}.{k}", coil)
+                for k in ("air_in", "air_out", "water_in", "water_out", "water_flow")
+            }
             if any(v is None for v in vals.values()):
                 continue
             res = Result(check="coil_balance", item=f"{template}.water_flow", component=coil)
             airflow = coil.specs.get("design_airflow_m3s") if q_how.startswith("design") else q
             airflow = airflow or q
             try:
-                air = sensible_heat_w(airflow_m3s=airflow, t_in_c=vals["air_in"], t_out_c=vals["air_out"],
-                                      pressure_pa=p)
+                air = sensible_heat_w(
+                    airflow_m3s=airflow, t_in_c=vals["air_in"], t_out_c=vals["air_out"], pressure_pa=p
+                )
                 fluid = "water"
-                water = water_side_heat_w(t_supply_c=vals["water_in"], t_return_c=vals["water_out"],
-                                          flow_m3s=vals["water_flow"], fluid=fluid)
+                water = water_side_heat_w(
+                    t_supply_c=vals["water_in"], t_return_c=vals["water_out"], flow_m3s=vals["water_flow"], fluid=fluid
+                )
                 bal = coil_balance(air_side_w=air, water_side_w=water, tolerance_pct=COIL_TOLERANCE_PCT)
             except EngineeringInputError as exc:
                 res.verdict, res.reason = WATCH, f"{coil.name}: cannot balance the coil: {exc}"
                 out.append(res)
                 break
-            res.derived = {"air_side_w": round(air), "water_side_w": round(water),
-                           "difference_pct": round(bal.difference_pct, 1), "airflow_m3s": airflow,
-                           "airflow_source": q_how}
-            res.method = ("air side q = ṁ·c_p·Δt (sensible, engineering.airside.sensible_heat_w); water side "
-                          "q = ρ·V·c_p·Δt (water_side_heat_w); balance within 10 % ok, 20 % watch")
+            res.derived = {
+                "air_side_w": round(air),
+                "water_side_w": round(water),
+                "difference_pct": round(bal.difference_pct, 1),
+                "airflow_m3s": airflow,
+                "airflow_source": q_how,
+            }
+            res.method = (
+                "air side q = ṁ·c_p·Δt (sensible, engineering.airside.sensible_heat_w); water side "
+                "q = ρ·V·c_p·Δt (water_side_heat_w); balance within 10 % ok, 20 % watch"
+            )
             res.verdict = bal.verdict.value
             which = "air side higher" if bal.difference_pct > 0 else "water side higher"
-            parts = [f"{coil.name}: air side ", qty(abs(air), "heat_rate"), ", water side ",
-                     qty(abs(water), "heat_rate"),
-                     f": {abs(bal.difference_pct):.1f} % apart ({which}; ok within {COIL_TOLERANCE_PCT:g} %, "
-                     f"watch within {2 * COIL_TOLERANCE_PCT:g} %)"]
+            parts = [
+                f"{coil.name}: air side ",
+                qty(abs(air), "heat_rate"),
+                ", water side ",
+                qty(abs(water), "heat_rate"),
+                f": {abs(bal.difference_pct):.1f} % apart ({which}; ok within {COIL_TOLERANCE_PCT:g} %, "
+                f"watch within {2 * COIL_TOLERANCE_PCT:g} %)",
+            ]
             if coil.specs.get("duty") == "cooling" and res.verdict == FAIL:
                 # Latent heat is not measured, so a wet cooling coil reads high on the water side.
                 res.verdict = WATCH
@@ -408,17 +472,33 @@ def _setpoint_checks(form: Form, consumed: set) -> list[Result]:
             continue
         consumed.add((f"{template}.supply_air", None))
         chk = controls.supply_temperature_check(measured_c=t, setpoint_c=sp)
-        res = Result(check="supply_temperature", item=f"{template}.supply_air", verdict=chk.verdict.value,
-                     condition_code="supply_temp_off",
-                     method="|t − t_set| against 1 K / 2 K (engineering.controls; common practice)",
-                     derived={"supply_air_c": t, "setpoint_c": sp,
-                              "deviation_k": round(chk.limits["deviation_k"], 2)})
+        res = Result(
+            check="supply_temperature",
+            item=f"{template}.supply_air",
+            verdict=chk.verdict.value,
+            condition_code="supply_temp_off",
+            method="|t − t_set| against 1 K / 2 K (engineering.controls; common practice)",
+            derived={"supply_air_c": t, "setpoint_c": sp, "deviation_k": round(chk.limits["deviation_k"], 2)},
+        )
         dev = chk.limits["deviation_k"]
-        where = ["at"] if round(dev, 1) == 0 else [qty(abs(dev), "temperature_difference"),
-                                                   " above" if dev > 0 else " below"]
-        res.say("supply air ", qty(t, "temperature"), ", ", where, " set point ", qty(sp, "temperature"),
-                " (watch above ", qty(chk.limits["watch_k"], "temperature_difference"), ", fail above ",
-                qty(chk.limits["fail_k"], "temperature_difference"), ")")
+        where = (
+            ["at"]
+            if round(dev, 1) == 0
+            else [qty(abs(dev), "temperature_difference"), " above" if dev > 0 else " below"]
+        )
+        res.say(
+            "supply air ",
+            qty(t, "temperature"),
+            ", ",
+            where,
+            " set point ",
+            qty(sp, "temperature"),
+            " (watch above ",
+            qty(chk.limits["watch_k"], "temperature_difference"),
+            ", fail above ",
+            qty(chk.limits["fail_k"], "temperature_difference"),
+            ")",
+        )
         out.append(res)
     p = form.num("controls_check.duct_static")
     if p is not None:
@@ -427,14 +507,21 @@ def _setpoint_checks(form: Form, consumed: set) -> list[Result]:
         if sp:
             consumed.add(("controls_check.duct_static", None))
             chk = controls.static_pressure_check(measured_pa=p, setpoint_pa=sp)
-            res = Result(check="duct_static", item="controls_check.duct_static", verdict=chk.verdict.value,
-                         method="deviation as % of set point, 10 % / 20 % (engineering.controls; common practice)",
-                         derived={"static_pa": p, "setpoint_pa": sp,
-                                  "deviation_pct": round(chk.limits["deviation_pct"], 1)})
+            res = Result(
+                check="duct_static",
+                item="controls_check.duct_static",
+                verdict=chk.verdict.value,
+                method="deviation as % of set point, 10 % / 20 % (engineering.controls; common practice)",
+                derived={"static_pa": p, "setpoint_pa": sp, "deviation_pct": round(chk.limits["deviation_pct"], 1)},
+            )
             dev = chk.limits["deviation_pct"]
-            res.say("static pressure ", qty(p, "pressure"), f", {abs(dev):.1f} % {'above' if dev > 0 else 'below'} "
-                    "set point ", qty(sp, "pressure"),
-                    f" (watch above {chk.limits['watch_pct']:g} %, fail above {chk.limits['fail_pct']:g} %)")
+            res.say(
+                "static pressure ",
+                qty(p, "pressure"),
+                f", {abs(dev):.1f} % {'above' if dev > 0 else 'below'} set point ",
+                qty(sp, "pressure"),
+                f" (watch above {chk.limits['watch_pct']:g} %, fail above {chk.limits['fail_pct']:g} %)",
+            )
             out.append(res)
     for damper in (c for c in form.components if c.kind == "damper"):
         cmd, pos = form.num("damper_actuator.command", damper), form.num("damper_actuator.position", damper)
@@ -442,12 +529,18 @@ def _setpoint_checks(form: Form, consumed: set) -> list[Result]:
             continue
         consumed.add(("damper_actuator.position", damper.pk))
         chk = controls.damper_position_check(commanded_pct=cmd, measured_pct=pos)
-        out.append(Result(check="damper_position", item="damper_actuator.position", component=damper,
-                          verdict=chk.verdict.value, reason=f"{damper.name}: {chk.reason}",
-                          condition_code="damper_position",
-                          method="position − command, 5 / 10 points (engineering.controls; common practice)",
-                          derived={"commanded_pct": cmd, "measured_pct": pos,
-                                   "error_pct": round(chk.limits["deviation_pct"], 1)}))
+        out.append(
+            Result(
+                check="damper_position",
+                item="damper_actuator.position",
+                component=damper,
+                verdict=chk.verdict.value,
+                reason=f"{damper.name}: {chk.reason}",
+                condition_code="damper_position",
+                method="position − command, 5 / 10 points (engineering.controls; common practice)",
+                derived={"commanded_pct": cmd, "measured_pct": pos, "error_pct": round(chk.limits["deviation_pct"], 1)},
+            )
+        )
     return out
 
 
@@ -465,20 +558,40 @@ def _drift_checks(form: Form, consumed: set) -> list[Result]:
                 tol_abs, tol_pct = float(sensor.specs["accuracy"]), 0.0
             else:
                 source = "a typical accuracy (common practice, from memory)"
-            chk = controls.sensor_drift_check(sensor_value=s, reference_value=r, tolerance_abs=tol_abs,
-                                              tolerance_pct_of_reading=tol_pct, unit=unit)
-            res = Result(check="sensor_drift", item=f"sensor_calibration.{prefix}_reference", component=sensor,
-                         verdict=chk.verdict.value, condition_code="sensor_drift",
-                         method=f"sensor − reference against {source} (engineering.controls.sensor_drift_check)",
-                         derived={"sensor": s, "reference": r, "error": round(chk.limits["error"], 3),
-                                  "allowed_error": round(chk.limits["allowed_error"], 3)})
+            chk = controls.sensor_drift_check(
+                sensor_value=s, reference_value=r, tolerance_abs=tol_abs, tolerance_pct_of_reading=tol_pct, unit=unit
+            )
+            res = Result(
+                check="sensor_drift",
+                item=f"sensor_calibration.{prefix}_reference",
+                component=sensor,
+                verdict=chk.verdict.value,
+                condition_code="sensor_drift",
+                method=f"sensor − reference against {source} (engineering.controls.sensor_drift_check)",
+                derived={
+                    "sensor": s,
+                    "reference": r,
+                    "error": round(chk.limits["error"], 3),
+                    "allowed_error": round(chk.limits["allowed_error"], 3),
+                },
+            )
             value_q, diff_q = DRIFT_QUANTITIES[prefix]
             diff = chk.limits["error"]
-            spec = ([qty(tol_abs, diff_q)] if tol_pct == 0
-                    else ["(", qty(tol_abs, diff_q), f" + {tol_pct:g} % of reading)"])
-            res.say(f"{sensor.name}: sensor reads ", qty(s, value_q), ", ", qty(abs(diff), diff_q),
-                    f" {'above' if diff > 0 else 'below'} reference ", qty(r, value_q), "; allowed ±", spec,
-                    " = ±", qty(chk.limits["allowed_error"], diff_q))
+            spec = (
+                [qty(tol_abs, diff_q)] if tol_pct == 0 else ["(", qty(tol_abs, diff_q), f" + {tol_pct:g} % of reading)"]
+            )
+            res.say(
+                f"{sensor.name}: sensor reads ",
+                qty(s, value_q),
+                ", ",
+                qty(abs(diff), diff_q),
+                f" {'above' if diff > 0 else 'below'} reference ",
+                qty(r, value_q),
+                "; allowed ±",
+                spec,
+                " = ±",
+                qty(chk.limits["allowed_error"], diff_q),
+            )
             out.append(res)
     return out
 
@@ -489,37 +602,61 @@ def _heat_recovery_checks(form: Form, consumed: set) -> list[Result]:
         t_o, t_s, t_e = (form.num(f"heat_recovery.{k}", hx) for k in ("outdoor_in", "supply_out", "extract_in"))
         if t_o is None or t_s is None or t_e is None:
             continue
-        res = Result(check="heat_recovery", item="heat_recovery.supply_out", component=hx,
-                     condition_code="heat_recovery_low",
-                     method=("ε = (t_supply − t_outdoor)/(t_extract − t_outdoor), temperature ratio per EN 308 / "
-                             "ASHRAE HVAC Systems and Equipment (from memory; engineering.heat_recovery), ±0.5 K "
-                             "sensors; against design: watch beyond 5, fail beyond 15 points below (common "
-                             "practice)"))
+        res = Result(
+            check="heat_recovery",
+            item="heat_recovery.supply_out",
+            component=hx,
+            condition_code="heat_recovery_low",
+            method=(
+                "ε = (t_supply − t_outdoor)/(t_extract − t_outdoor), temperature ratio per EN 308 / "
+                "ASHRAE HVAC Systems and Equipment (from memory; engineering.heat_recovery), ±0.5 K "
+                "sensors; against design: watch beyond 5, fail beyond 15 points below (common "
+                "practice)"
+            ),
+        )
         try:
-            hr = heat_recovery.heat_recovery_effectiveness(t_outdoor_c=t_o, t_supply_after_recovery_c=t_s,
-                                                           t_extract_c=t_e)
+            hr = heat_recovery.heat_recovery_effectiveness(
+                t_outdoor_c=t_o, t_supply_after_recovery_c=t_s, t_extract_c=t_e
+            )
         except EngineeringInputError as exc:
             res.verdict = WATCH
             res.say(f"{hx.name}: {exc}")
             out.append(res)
             continue
         pct, u_pct = hr.effectiveness * 100, hr.uncertainty * 100
-        res.derived = {"outdoor_c": t_o, "supply_after_recovery_c": t_s, "extract_c": t_e,
-                       "effectiveness_pct": round(pct, 1), "uncertainty_pct": round(u_pct, 1)}
-        temps = [" (outdoor ", qty(t_o, "temperature"), ", after recovery ", qty(t_s, "temperature"), ", extract ",
-                 qty(t_e, "temperature"), ")"]
+        res.derived = {
+            "outdoor_c": t_o,
+            "supply_after_recovery_c": t_s,
+            "extract_c": t_e,
+            "effectiveness_pct": round(pct, 1),
+            "uncertainty_pct": round(u_pct, 1),
+        }
+        temps = [
+            " (outdoor ",
+            qty(t_o, "temperature"),
+            ", after recovery ",
+            qty(t_s, "temperature"),
+            ", extract ",
+            qty(t_e, "temperature"),
+            ")",
+        ]
         design = hx.specs.get("design_effectiveness_pct")
         if design is None:
             res.verdict = WATCH
-            res.say(f"{hx.name}: effectiveness {pct:.0f} % ± {u_pct:.0f} points", temps,
-                    "; no design effectiveness in the registry to judge it against")
+            res.say(
+                f"{hx.name}: effectiveness {pct:.0f} % ± {u_pct:.0f} points",
+                temps,
+                "; no design effectiveness in the registry to judge it against",
+            )
             out.append(res)
             continue
-        chk = heat_recovery.heat_recovery_check(effectiveness=hr.effectiveness, uncertainty=hr.uncertainty,
-                                                design_effectiveness_pct=design)
+        chk = heat_recovery.heat_recovery_check(
+            effectiveness=hr.effectiveness, uncertainty=hr.uncertainty, design_effectiveness_pct=design
+        )
         res.verdict = chk.verdict.value
-        res.derived.update({"design_effectiveness_pct": design,
-                            "below_design_points": round(chk.limits["below_design_points"], 1)})
+        res.derived.update(
+            {"design_effectiveness_pct": design, "below_design_points": round(chk.limits["below_design_points"], 1)}
+        )
         res.say(f"{hx.name}: {chk.reason}", temps)
         out.append(res)
     return out

@@ -87,8 +87,7 @@ def render_part(part: Any, system: str) -> str:
         return _with_unit(_number(part["value"], quantity, system, d), quantity, system)
     low, high = part.get("low"), part.get("high")
     if low is not None and high is not None:
-        return _with_unit(f"{_number(low, quantity, system, d)}–{_number(high, quantity, system, d)}", quantity,
-                          system)
+        return _with_unit(f"{_number(low, quantity, system, d)}–{_number(high, quantity, system, d)}", quantity, system)
     if low is not None:
         return "at least " + _with_unit(_number(low, quantity, system, d), quantity, system)
     if high is not None:
@@ -105,7 +104,7 @@ def flatten(*pieces: Any) -> list:
     """Parts from strings, parts and lists of parts; adjacent strings are joined."""
     out: list = []
     for p in pieces:
-        for x in (p if isinstance(p, list) else [p]):
+        for x in p if isinstance(p, list) else [p]:
             if isinstance(x, str) and out and isinstance(out[-1], str):
                 out[-1] += x
             elif x != "":

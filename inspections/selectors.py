@@ -135,8 +135,16 @@ def _template_codes(work_order: WorkOrder) -> dict[str, set[int] | None]:
 def item_limits(*, item: ChecklistItem, ahu: AHU, component: Component | None) -> dict[str, float | None]:
     limits = {
         name: getattr(item, name)
-        for name in ("physical_min", "physical_max", "plausible_min", "plausible_max", "ok_min", "ok_max",
-                     "watch_min", "watch_max")
+        for name in (
+            "physical_min",
+            "physical_max",
+            "plausible_min",
+            "plausible_max",
+            "ok_min",
+            "ok_max",
+            "watch_min",
+            "watch_max",
+        )
     }
     if item.limits_from:
         limits.update(checklists.dynamic_limits(rule=item.limits_from, ahu=ahu, component=component))
@@ -159,8 +167,9 @@ def checklist_build(*, work_order: WorkOrder) -> Checklist:
                 continue
             for comp in components:
                 if _matches(comp, item) and (wanted is None or comp.pk in wanted):
-                    t_slots.append(Slot(item, template, comp, item_limits(item=item, ahu=work_order.ahu,
-                                                                          component=comp)))
+                    t_slots.append(
+                        Slot(item, template, comp, item_limits(item=item, ahu=work_order.ahu, component=comp))
+                    )
         if t_slots:
             used.append(template)
             slots.extend(t_slots)
@@ -183,10 +192,14 @@ def checklist_for(*, work_order: WorkOrder, user: User) -> dict:
     for slot in checklist.slots:
         it = slot.item
         entry = {
-            "key": it.api_key, "kind": it.kind, "label": it.label, "help": it.help,
+            "key": it.api_key,
+            "kind": it.kind,
+            "label": it.label,
+            "help": it.help,
             "component": (
                 {"label_code": slot.component.label_code, "name": slot.component.name, "kind": slot.component.kind}
-                if slot.component else None
+                if slot.component
+                else None
             ),
             "quantity": it.quantity or None,
             "unit": checklists.display_unit_label(it.quantity, system) if it.kind == "number" else None,
@@ -202,8 +215,10 @@ def checklist_for(*, work_order: WorkOrder, user: User) -> dict:
         }
         if it.kind == "number":
             entry["limits"] = {
-                scale: {name: _band(slot.limits, name, it.quantity, None if scale == "si" else system)
-                        for name in ("physical", "plausible", "ok", "watch")}
+                scale: {
+                    name: _band(slot.limits, name, it.quantity, None if scale == "si" else system)
+                    for name in ("physical", "plausible", "ok", "watch")
+                }
                 for scale in ("si", "display")
             }
         by_template.setdefault(slot.template.pk, []).append(entry)
@@ -216,13 +231,20 @@ def checklist_for(*, work_order: WorkOrder, user: User) -> dict:
     assignee = work_order.assignee
     return {
         "work_order": {
-            "public_id": str(work_order.public_id), "version": work_order.version, "title": work_order.title,
-            "kind": work_order.kind, "state": work_order.state, "priority": work_order.priority,
+            "public_id": str(work_order.public_id),
+            "version": work_order.version,
+            "title": work_order.title,
+            "kind": work_order.kind,
+            "state": work_order.state,
+            "priority": work_order.priority,
             "due_date": work_order.due_date.isoformat(),
             "assignee": {"id": assignee.pk, "name": str(assignee)} if assignee else None,
             "unit": {
-                "tag": ahu.tag, "label_code": ahu.label_code, "location": ahu.location,
-                "area_served": ahu.area_served, "building": ahu.building.name,
+                "tag": ahu.tag,
+                "label_code": ahu.label_code,
+                "location": ahu.location,
+                "area_served": ahu.area_served,
+                "building": ahu.building.name,
                 "site": {"code": ahu.building.site.code, "name": ahu.building.site.name},
             },
             "tasks": [{"code": t.code, "title": t.title} for t in checklist.templates if t.code != "visit"],
@@ -230,8 +252,13 @@ def checklist_for(*, work_order: WorkOrder, user: User) -> dict:
         "unit_system": system,
         "cautions": cautions,
         "templates": [
-            {"code": t.code, "version": t.version, "title": t.title, "cautions": t.cautions,
-             "items": by_template.get(t.pk, [])}
+            {
+                "code": t.code,
+                "version": t.version,
+                "title": t.title,
+                "cautions": t.cautions,
+                "items": by_template.get(t.pk, []),
+            }
             for t in checklist.templates
         ],
     }
@@ -240,14 +267,22 @@ def checklist_for(*, work_order: WorkOrder, user: User) -> dict:
 def filter_history(*, component: Component, before, limit: int = 30) -> list[tuple[Reading, Inspection]]:
     """Earlier pressure-drop readings of one filter bank since its last replacement, oldest first."""
     last_change = (
-        Reading.objects.filter(component=component, item__template__code="filter_replace", item__key="replaced",
-                               value_text="ok", inspection__finished_at__lt=before)
+        Reading.objects.filter(
+            component=component,
+            item__template__code="filter_replace",
+            item__key="replaced",
+            value_text="ok",
+            inspection__finished_at__lt=before,
+        )
         .order_by("-inspection__finished_at")
         .values_list("inspection__finished_at", flat=True)
         .first()
     )
     qs = Reading.objects.filter(
-        component=component, item__template__code="filter_check", item__key="dp", value_si__isnull=False,
+        component=component,
+        item__template__code="filter_check",
+        item__key="dp",
+        value_si__isnull=False,
         inspection__finished_at__lt=before,
     ).select_related("inspection")
     if last_change is not None:

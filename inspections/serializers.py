@@ -11,8 +11,9 @@ class ErrorSerializer(serializers.Serializer):
 
 
 class SyncInputSerializer(serializers.Serializer):
-    forms = serializers.ListField(child=serializers.JSONField(), max_length=50,
-                                  help_text="Finished forms; shape in inspections/SYNC.md.")
+    forms = serializers.ListField(
+        child=serializers.JSONField(), max_length=50, help_text="Finished forms; shape in inspections/SYNC.md."
+    )
 
 
 class SyncResultSerializer(serializers.Serializer):
@@ -100,25 +101,47 @@ class InspectionOutputSerializer(serializers.Serializer):
 
     def get_readings(self, obj) -> list[dict]:
         return [
-            {"item": r.item.api_key, "component": r.component.label_code if r.component else None,
-             "value_si": r.value_si, "value_text": r.value_text, "entered": r.entered, "note": r.note,
-             "verdict": r.verdict, "reason": reason_for(evaluation=r, unit_system=self._system()),
-             "reason_si": r.reason, "improbable": r.improbable}
+            {
+                "item": r.item.api_key,
+                "component": r.component.label_code if r.component else None,
+                "value_si": r.value_si,
+                "value_text": r.value_text,
+                "entered": r.entered,
+                "note": r.note,
+                "verdict": r.verdict,
+                "reason": reason_for(evaluation=r, unit_system=self._system()),
+                "reason_si": r.reason,
+                "improbable": r.improbable,
+            }
             for r in obj.readings.all()
         ]
 
     def get_evaluations(self, obj) -> list[dict]:
         return [
-            {"check": e.check_name, "item": e.item_key, "component": e.component.label_code if e.component else None,
-             "verdict": e.verdict, "reason": reason_for(evaluation=e, unit_system=self._system()),
-             "reason_si": e.reason, "method": e.method, "derived": e.derived, "amendment": e.amendment_id}
+            {
+                "check": e.check_name,
+                "item": e.item_key,
+                "component": e.component.label_code if e.component else None,
+                "verdict": e.verdict,
+                "reason": reason_for(evaluation=e, unit_system=self._system()),
+                "reason_si": e.reason,
+                "method": e.method,
+                "derived": e.derived,
+                "amendment": e.amendment_id,
+            }
             for e in obj.evaluations.all()
         ]
 
     def get_amendments(self, obj) -> list[dict]:
         return [
-            {"id": a.pk, "reason": a.reason, "created_at": a.created_at.isoformat(), "by": str(a.created_by),
-             "changes": a.changes, "findings": [f.pk for f in a.findings.all()]}
+            {
+                "id": a.pk,
+                "reason": a.reason,
+                "created_at": a.created_at.isoformat(),
+                "by": str(a.created_by),
+                "changes": a.changes,
+                "findings": [f.pk for f in a.findings.all()],
+            }
             for a in obj.amendments.all()
         ]
 

@@ -26,8 +26,12 @@ class ChecklistView(APIView):
 
 
 class SyncView(APIView):
-    @extend_schema(request=s.SyncInputSerializer, responses={200: s.SyncOutputSerializer, 400: BAD},
-                   tags=["inspections"], description="Store finished forms once each; see inspections/SYNC.md.")
+    @extend_schema(
+        request=s.SyncInputSerializer,
+        responses={200: s.SyncOutputSerializer, 400: BAD},
+        tags=["inspections"],
+        description="Store finished forms once each; see inspections/SYNC.md.",
+    )
     def post(self, request):
         data = s.SyncInputSerializer(data=request.data)
         data.is_valid(raise_exception=True)
@@ -37,18 +41,23 @@ class SyncView(APIView):
 
 def _photo_json(request, photo) -> dict:
     return {
-        "client_uuid": str(photo.client_uuid), "id": photo.pk,
+        "client_uuid": str(photo.client_uuid),
+        "id": photo.pk,
         "url": request.build_absolute_uri(f"/api/inspections/photos/{photo.client_uuid}/"),
         "thumbnail_url": request.build_absolute_uri(f"/api/inspections/photos/{photo.client_uuid}/thumbnail/"),
-        "width": photo.width, "height": photo.height,
+        "width": photo.width,
+        "height": photo.height,
     }
 
 
 class PhotoUploadView(APIView):
     parser_classes = [MultiPartParser, FormParser]
 
-    @extend_schema(request=s.PhotoUploadInputSerializer, responses={200: s.PhotoOutputSerializer,
-                   201: s.PhotoOutputSerializer, 400: BAD, 404: NOT_FOUND}, tags=["inspections"])
+    @extend_schema(
+        request=s.PhotoUploadInputSerializer,
+        responses={200: s.PhotoOutputSerializer, 201: s.PhotoOutputSerializer, 400: BAD, 404: NOT_FOUND},
+        tags=["inspections"],
+    )
     def post(self, request):
         data = s.PhotoUploadInputSerializer(data=request.data)
         data.is_valid(raise_exception=True)
@@ -57,10 +66,17 @@ class PhotoUploadView(APIView):
             raise Http404("no such work order in your organisation")
         upload = data.validated_data["file"]
         if upload.size > settings.PLENUM_PHOTO_MAX_BYTES:
-            raise ValidationError({"file": [f"the image is {upload.size / 1048576:.1f} MB; at most "
-                                            f"{settings.PLENUM_PHOTO_MAX_BYTES / 1048576:.1f} MB is allowed"]})
-        photo, created = services.photo_upload(user=request.user, work_order=wo,
-                                               client_uuid=data.validated_data["client_uuid"], data=upload.read())
+            raise ValidationError(
+                {
+                    "file": [
+                        f"the image is {upload.size / 1048576:.1f} MB; at most "
+                        f"{settings.PLENUM_PHOTO_MAX_BYTES / 1048576:.1f} MB is allowed"
+                    ]
+                }
+            )
+        photo, created = services.photo_upload(
+            user=request.user, work_order=wo, client_uuid=data.validated_data["client_uuid"], data=upload.read()
+        )
         return Response(_photo_json(request, photo), status=status.HTTP_201_CREATED if created else status.HTTP_200_OK)
 
 
@@ -88,10 +104,25 @@ class TemplatesView(APIView):
     def get(self, request):
         out = []
         for t in services.templates_current().values():
-            out.append({"code": t.code, "version": t.version, "title": t.title, "cautions": t.cautions,
-                        "items": [{"key": i.api_key, "kind": i.kind, "label": i.label, "quantity": i.quantity,
-                                   "component_kind": i.component_kind, "required": i.required}
-                                  for i in t.items.all()]})
+            out.append(
+                {
+                    "code": t.code,
+                    "version": t.version,
+                    "title": t.title,
+                    "cautions": t.cautions,
+                    "items": [
+                        {
+                            "key": i.api_key,
+                            "kind": i.kind,
+                            "label": i.label,
+                            "quantity": i.quantity,
+                            "component_kind": i.component_kind,
+                            "required": i.required,
+                        }
+                        for i in t.items.all()
+                    ],
+                }
+            )
         return Response(out)
 
 
@@ -101,8 +132,12 @@ def _reader(request) -> dict:
 
 def _inspection(request, pk) -> Inspection:
     qs = selectors.inspections_visible_to(user=request.user).prefetch_related(
-        "readings__item__template", "readings__component", "evaluations__component", "amendments__created_by",
-        "amendments__findings")
+        "readings__item__template",
+        "readings__component",
+        "evaluations__component",
+        "amendments__created_by",
+        "amendments__findings",
+    )
     return get_object_or_404(qs, pk=pk)
 
 
@@ -113,20 +148,39 @@ class InspectionDetailView(APIView):
 
 
 class AmendmentCreateView(APIView):
-    @extend_schema(request=s.AmendmentInputSerializer, responses={201: s.AmendmentOutputSerializer, 400: BAD,
-                   403: s.ErrorSerializer, 404: NOT_FOUND}, tags=["inspections"])
+    @extend_schema(
+        request=s.AmendmentInputSerializer,
+        responses={201: s.AmendmentOutputSerializer, 400: BAD, 403: s.ErrorSerializer, 404: NOT_FOUND},
+        tags=["inspections"],
+    )
     def post(self, request, pk):
         inspection = _inspection(request, pk)
         data = s.AmendmentInputSerializer(data=request.data)
         data.is_valid(raise_exception=True)
         a = services.inspection_amend(inspection=inspection, by=request.user, **data.validated_data)
         found = a.findings.select_related("corrective_work_order").order_by("pk")
-        return Response({"id": a.pk, "public_id": str(a.public_id), "inspection_id": inspection.pk,
-                         "reason": a.reason, "created_at": a.created_at, "changes": a.changes,
-                         "findings": [{"id": f.pk, "severity": f.severity, "title": f.title,
-                                       "corrective_work_order": str(f.corrective_work_order.public_id)
-                                       if f.corrective_work_order else None} for f in found]},
-                        status=status.HTTP_201_CREATED)
+        return Response(
+            {
+                "id": a.pk,
+                "public_id": str(a.public_id),
+                "inspection_id": inspection.pk,
+                "reason": a.reason,
+                "created_at": a.created_at,
+                "changes": a.changes,
+                "findings": [
+                    {
+                        "id": f.pk,
+                        "severity": f.severity,
+                        "title": f.title,
+                        "corrective_work_order": str(f.corrective_work_order.public_id)
+                        if f.corrective_work_order
+                        else None,
+                    }
+                    for f in found
+                ],
+            },
+            status=status.HTTP_201_CREATED,
+        )
 
 
 class FlaggedListView(APIView):
@@ -136,8 +190,11 @@ class FlaggedListView(APIView):
 
 
 class FlagResolveView(APIView):
-    @extend_schema(request=s.NoteInputSerializer, responses={200: s.InspectionOutputSerializer, 400: BAD,
-                   403: s.ErrorSerializer, 404: NOT_FOUND}, tags=["inspections"])
+    @extend_schema(
+        request=s.NoteInputSerializer,
+        responses={200: s.InspectionOutputSerializer, 400: BAD, 403: s.ErrorSerializer, 404: NOT_FOUND},
+        tags=["inspections"],
+    )
     def post(self, request, pk):
         inspection = _inspection(request, pk)
         data = s.NoteInputSerializer(data=request.data)
@@ -147,8 +204,11 @@ class FlagResolveView(APIView):
 
 
 class VerifyView(APIView):
-    @extend_schema(request=None, responses={200: s.InspectionOutputSerializer, 400: BAD, 403: s.ErrorSerializer,
-                   404: NOT_FOUND}, tags=["inspections"])
+    @extend_schema(
+        request=None,
+        responses={200: s.InspectionOutputSerializer, 400: BAD, 403: s.ErrorSerializer, 404: NOT_FOUND},
+        tags=["inspections"],
+    )
     def post(self, request, pk):
         services.inspection_verify(inspection=_inspection(request, pk), by=request.user)
         return Response(s.InspectionOutputSerializer(_inspection(request, pk), context=_reader(request)).data)

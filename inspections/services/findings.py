@@ -31,21 +31,27 @@ def freeze_season_near(*, site, on: dt.date, lead_days: int = FREEZE_LEAD_DAYS) 
 def _title(result, evaluation: Evaluation) -> str:
     where = f" — {result.component.name}" if result.component is not None else ""
     words = {
-        "filter_loading": "Filter loaded", "oa_fraction_temperature": "Outdoor air below minimum",
-        "oa_fraction_co2": "Outdoor air below minimum", "coil_balance": "Coil heat balance off",
-        "supply_temperature": "Supply-air temperature off set point", "duct_static": "Duct static off set point",
-        "damper_position": "Damper not at commanded position", "sensor_drift": "Sensor drift",
+        "filter_loading": "Filter loaded",
+        "oa_fraction_temperature": "Outdoor air below minimum",
+        "oa_fraction_co2": "Outdoor air below minimum",
+        "coil_balance": "Coil heat balance off",
+        "supply_temperature": "Supply-air temperature off set point",
+        "duct_static": "Duct static off set point",
+        "damper_position": "Damper not at commanded position",
+        "sensor_drift": "Sensor drift",
         "heat_recovery": "Heat recovery below design",
     }.get(result.check)
     if words is None:
         words = {
-            "fan_not_proven": "Fan not proven", "freeze_protection_failed": "Freeze protection failed",
+            "fan_not_proven": "Fan not proven",
+            "freeze_protection_failed": "Freeze protection failed",
         }.get(result.condition_code, "Deficiency: " + result.reason.split(":")[0])
     return (words + where)[:200]
 
 
-def findings_open(*, inspection: Inspection, evaluations: list[Evaluation], results, by, amendment=None,
-                  opened_at=None) -> list[Finding]:
+def findings_open(
+    *, inspection: Inspection, evaluations: list[Evaluation], results, by, amendment=None, opened_at=None
+) -> list[Finding]:
     """One Finding per failed evaluation, each proposing a corrective work order.
 
     With ``amendment`` the findings point to it (the corrected readings failed,
@@ -71,9 +77,17 @@ def findings_open(*, inspection: Inspection, evaluations: list[Evaluation], resu
         )
         priority = "urgent" if urgent else PRIORITY[severity]
         finding = Finding.objects.create(
-            organisation_id=inspection.organisation_id, inspection=inspection, evaluation=ev, ahu=inspection.ahu,
-            component=res.component, severity="critical" if urgent else severity, title=_title(res, ev),
-            reason=res.reason[:500], condition_code=res.condition_code, opened_at=opened_at, amendment=amendment,
+            organisation_id=inspection.organisation_id,
+            inspection=inspection,
+            evaluation=ev,
+            ahu=inspection.ahu,
+            component=res.component,
+            severity="critical" if urgent else severity,
+            title=_title(res, ev),
+            reason=res.reason[:500],
+            condition_code=res.condition_code,
+            opened_at=opened_at,
+            amendment=amendment,
         )
         reason = res.reason
         if urgent:
@@ -81,8 +95,14 @@ def findings_open(*, inspection: Inspection, evaluations: list[Evaluation], resu
         wo = None if _known(res.condition_code) else _open_corrective_for(finding=finding, item_key=ev.item_key)
         if wo is None:
             wo = corrective_work_order_propose(
-                ahu=inspection.ahu, title=finding.title, reason=reason, condition_code=_known(res.condition_code),
-                priority=priority, component=res.component, source_ref=source_ref, by=by,
+                ahu=inspection.ahu,
+                title=finding.title,
+                reason=reason,
+                condition_code=_known(res.condition_code),
+                priority=priority,
+                component=res.component,
+                source_ref=source_ref,
+                by=by,
                 approved=urgent,
             )
         finding.corrective_work_order = wo
@@ -92,8 +112,14 @@ def findings_open(*, inspection: Inspection, evaluations: list[Evaluation], resu
 
 
 # Condition codes the scheduling engine knows; other fails raise corrective work without one.
-KNOWN_CONDITIONS = {"filter_loaded", "sensor_drift", "supply_temp_off", "damper_position", "fan_not_proven",
-                    "freeze_protection_failed"}
+KNOWN_CONDITIONS = {
+    "filter_loaded",
+    "sensor_drift",
+    "supply_temp_off",
+    "damper_position",
+    "fan_not_proven",
+    "freeze_protection_failed",
+}
 
 
 def _open_corrective_for(*, finding: Finding, item_key: str):
@@ -106,10 +132,16 @@ def _open_corrective_for(*, finding: Finding, item_key: str):
     """
     from scheduling.models import WorkOrder
 
-    earlier = Finding.objects.filter(
-        ahu_id=finding.ahu_id, component=finding.component, corrective_work_order__kind=WorkOrder.Kind.CORRECTIVE,
-        corrective_work_order__state__in=WorkOrder.OPEN_STATES,
-    ).exclude(pk=finding.pk).exclude(corrective_work_order__approval=WorkOrder.Approval.REJECTED)
+    earlier = (
+        Finding.objects.filter(
+            ahu_id=finding.ahu_id,
+            component=finding.component,
+            corrective_work_order__kind=WorkOrder.Kind.CORRECTIVE,
+            corrective_work_order__state__in=WorkOrder.OPEN_STATES,
+        )
+        .exclude(pk=finding.pk)
+        .exclude(corrective_work_order__approval=WorkOrder.Approval.REJECTED)
+    )
     if finding.condition_code:
         earlier = earlier.filter(condition_code=finding.condition_code)
     else:

@@ -22,12 +22,15 @@ def checklist_library_install() -> list[ChecklistTemplate]:
             try:
                 with transaction.atomic():
                     template = ChecklistTemplate.objects.create(
-                        code=spec["code"], version=spec["version"], title=spec["title"],
+                        code=spec["code"],
+                        version=spec["version"],
+                        title=spec["title"],
                         cautions=list(spec["cautions"]),
                     )
                     ChecklistItem.objects.bulk_create(
-                        ChecklistItem(template=template, position=i, **{k: v for k, v in it.items()
-                                                                        if k in _ITEM_FIELDS})
+                        ChecklistItem(
+                            template=template, position=i, **{k: v for k, v in it.items() if k in _ITEM_FIELDS}
+                        )
                         for i, it in enumerate(spec["items"])
                     )
             except IntegrityError:  # installed concurrently by another request

@@ -55,7 +55,11 @@ def data_url_decode(value: object, *, field: str, max_bytes: int) -> bytes:
 
 
 def image_clean(
-    data: bytes, *, field: str, max_bytes: int | None = None, max_pixels: int | None = None,
+    data: bytes,
+    *,
+    field: str,
+    max_bytes: int | None = None,
+    max_pixels: int | None = None,
     formats: dict[str, str] = ALLOWED_FORMATS,
 ) -> CleanImage:
     """Verify an uploaded image by decoding it, then re-encode it without metadata.
@@ -77,9 +81,13 @@ def image_clean(
             if fmt not in formats:
                 raise ValidationError({field: [f"images of type {fmt} are not accepted; allowed: {allowed}"]})
             if width * height > max_pixels:
-                raise ValidationError({field: [
-                    f"the image is {width}×{height} = {width * height:,} pixels; at most {max_pixels:,} allowed"
-                ]})
+                raise ValidationError(
+                    {
+                        field: [
+                            f"the image is {width}×{height} = {width * height:,} pixels; at most {max_pixels:,} allowed"
+                        ]
+                    }
+                )
             probe.verify()
         with Image.open(io.BytesIO(data)) as img:
             img.load()
@@ -106,17 +114,27 @@ def image_clean(
 
 def signature_clean(value: object, *, field: str = "signature.image") -> CleanImage:
     data = data_url_decode(value, field=field, max_bytes=SIGNATURE_MAX_BYTES)
-    return image_clean(data, field=field, max_bytes=SIGNATURE_MAX_BYTES, max_pixels=SIGNATURE_MAX_PIXELS,
-                       formats={"PNG": "image/png"})
+    return image_clean(
+        data, field=field, max_bytes=SIGNATURE_MAX_BYTES, max_pixels=SIGNATURE_MAX_PIXELS, formats={"PNG": "image/png"}
+    )
 
 
-def photo_build(*, image: CleanImage, client_uuid: uuid.UUID, work_order, user, item_key: str = "",
-                component=None, inspection=None) -> Photo:
+def photo_build(
+    *, image: CleanImage, client_uuid: uuid.UUID, work_order, user, item_key: str = "", component=None, inspection=None
+) -> Photo:
     """An unsaved Photo with its files written to storage (the caller saves the row)."""
     photo = Photo(
-        client_uuid=client_uuid, organisation_id=work_order.organisation_id, work_order=work_order,
-        inspection=inspection, item_key=item_key, component=component, content_type=image.content_type,
-        width=image.width, height=image.height, size_bytes=len(image.data), uploaded_by=user,
+        client_uuid=client_uuid,
+        organisation_id=work_order.organisation_id,
+        work_order=work_order,
+        inspection=inspection,
+        item_key=item_key,
+        component=component,
+        content_type=image.content_type,
+        width=image.width,
+        height=image.height,
+        size_bytes=len(image.data),
+        uploaded_by=user,
     )
     photo.image.save(f"{client_uuid.hex}.{image.extension}", ContentFile(image.data), save=False)
     photo.thumbnail.save(f"{client_uuid.hex}-thumb.jpg", ContentFile(image.thumbnail), save=False)
@@ -141,8 +159,13 @@ def photo_upload(*, user, work_order, client_uuid: uuid.UUID, data: bytes) -> tu
     try:
         with transaction.atomic():
             photo.save()
-            audit_record(actor=user, obj=photo, action="photo_upload", organisation=work_order.organisation,
-                         changes={"work_order": str(work_order.public_id), "bytes": photo.size_bytes})
+            audit_record(
+                actor=user,
+                obj=photo,
+                action="photo_upload",
+                organisation=work_order.organisation,
+                changes={"work_order": str(work_order.public_id), "bytes": photo.size_bytes},
+            )
     except IntegrityError:
         photo_files_delete(photo)
         first = Photo.objects.filter(client_uuid=client_uuid).first()

@@ -23,10 +23,14 @@ def inspection_edit(*, inspection: Inspection, by, **changes) -> Inspection:
 
     There is no unsigned state: every stored form is signed on the phone.
     """
-    raise ValidationError({
-        "inspection": [f"inspection {inspection.pk} was signed by {inspection.signature_name} on "
-                       f"{inspection.signed_at:%Y-%m-%d %H:%M} and cannot be edited; add an amendment instead"]
-    })
+    raise ValidationError(
+        {
+            "inspection": [
+                f"inspection {inspection.pk} was signed by {inspection.signature_name} on "
+                f"{inspection.signed_at:%Y-%m-%d %H:%M} and cannot be edited; add an amendment instead"
+            ]
+        }
+    )
 
 
 @transaction.atomic
@@ -52,9 +56,15 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
     if not isinstance(readings, list) or not readings:
         raise ValidationError({"readings": ["an amendment corrects at least one reading"]})
     wo = inspection.work_order
-    parsed = Parsed(client_uuid=inspection.client_uuid, work_order=wo, version_seen=wo.version,
-                    unit_system=unit_system, started_at=inspection.started_at, finished_at=inspection.finished_at,
-                    checklist=selectors.checklist_build(work_order=wo))
+    parsed = Parsed(
+        client_uuid=inspection.client_uuid,
+        work_order=wo,
+        version_seen=wo.version,
+        unit_system=unit_system,
+        started_at=inspection.started_at,
+        finished_at=inspection.finished_at,
+        checklist=selectors.checklist_build(work_order=wo),
+    )
     errors, seen = Errors(), set()
     for i, raw in enumerate(readings):
         _reading(parsed, i, raw, seen, errors)
@@ -64,14 +74,20 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
     values = {k: evaluation.Value(number=r.value_si, text=r.value_text) for k, r in original.items()}
     for r in parsed.readings:
         values[(r.item.api_key, r.component.pk if r.component else None)] = evaluation.Value(
-            number=r.value_si, text=r.value_text)
+            number=r.value_si, text=r.value_text
+        )
     from .sync import _filter_points_for
 
-    results = evaluation.evaluate(evaluation.Form(
-        ahu=inspection.ahu, components=list(inspection.ahu.components.all()), values=values,
-        slots=parsed.checklist.slots, finished_at=inspection.finished_at,
-        filter_points=_filter_points_for(inspection.ahu, inspection.finished_at),
-    ))
+    results = evaluation.evaluate(
+        evaluation.Form(
+            ahu=inspection.ahu,
+            components=list(inspection.ahu.components.all()),
+            values=values,
+            slots=parsed.checklist.slots,
+            finished_at=inspection.finished_at,
+            filter_points=_filter_points_for(inspection.ahu, inspection.finished_at),
+        )
+    )
     by_item = {}
     for res in results:
         by_item.setdefault((res.item, res.component.pk if res.component else None), res)
@@ -80,16 +96,24 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
         key = (r.item.api_key, r.component.pk if r.component else None)
         old = original.get(key)
         res = by_item.get(key)
-        changes.append({
-            "item": r.item.api_key, "component": r.component.label_code if r.component else None,
-            "before": None if old is None else {"value_si": old.value_si, "value_text": old.value_text,
-                                                "note": old.note, "verdict": old.verdict},
-            "after": {"value_si": r.value_si, "value_text": r.value_text, "note": r.note,
-                      "verdict": res.verdict if res else "", "reason": res.reason if res else "",
-                      "reason_parts": res.reason_parts if res else []},
-        })
-    amendment = Amendment.objects.create(inspection=inspection, created_by=by, reason=reason.strip(),
-                                         changes=changes)
+        changes.append(
+            {
+                "item": r.item.api_key,
+                "component": r.component.label_code if r.component else None,
+                "before": None
+                if old is None
+                else {"value_si": old.value_si, "value_text": old.value_text, "note": old.note, "verdict": old.verdict},
+                "after": {
+                    "value_si": r.value_si,
+                    "value_text": r.value_text,
+                    "note": r.note,
+                    "verdict": res.verdict if res else "",
+                    "reason": res.reason if res else "",
+                    "reason_parts": res.reason_parts if res else [],
+                },
+            }
+        )
+    amendment = Amendment.objects.create(inspection=inspection, created_by=by, reason=reason.strip(), changes=changes)
     found = _newly_failed_open(inspection=inspection, amendment=amendment, results=results, by=by)
     if found:
         by_key = {(f.evaluation.item_key, f.component.label_code if f.component else None): f for f in found}
@@ -98,14 +122,19 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
                 c["finding"] = f.pk
         amendment.changes = changes
         amendment.save(update_fields=["changes"])
-    audit_record(actor=by, obj=inspection, action="inspection_amend", organisation=inspection.organisation,
-                 changes={"amendment": amendment.pk, "items": [c["item"] for c in changes],
-                          "findings": [f.pk for f in found]})
+    audit_record(
+        actor=by,
+        obj=inspection,
+        action="inspection_amend",
+        organisation=inspection.organisation,
+        changes={"amendment": amendment.pk, "items": [c["item"] for c in changes], "findings": [f.pk for f in found]},
+    )
     return amendment
 
 
 def _newly_failed_open(*, inspection: Inspection, amendment: Amendment, results, by) -> list:
     """Findings for judgements that fail after the amendment and had not failed on this inspection before."""
+
     def key(check, item, component_id):
         return (check, item, component_id)
 
@@ -113,20 +142,39 @@ def _newly_failed_open(*, inspection: Inspection, amendment: Amendment, results,
         key(e.check_name, e.item_key, e.component_id)
         for e in inspection.evaluations.filter(verdict="fail").only("check_name", "item_key", "component_id")
     }
-    new = [res for res in results if res.verdict == "fail"
-           and key(res.check, res.item, res.component.pk if res.component else None) not in failed_before]
+    new = [
+        res
+        for res in results
+        if res.verdict == "fail"
+        and key(res.check, res.item, res.component.pk if res.component else None) not in failed_before
+    ]
     if not new:
         return []
     evals = [
-        Evaluation(inspection=inspection, amendment=amendment, check_name=res.check, item_key=res.item,
-                   component=res.component, verdict=res.verdict, reason=res.reason[:500],
-                   reason_parts=res.reason_parts, method=res.method[:300], derived=res.derived,
-                   condition_code=res.condition_code)
+        Evaluation(
+            inspection=inspection,
+            amendment=amendment,
+            check_name=res.check,
+            item_key=res.item,
+            component=res.component,
+            verdict=res.verdict,
+            reason=res.reason[:500],
+            reason_parts=res.reason_parts,
+            method=res.method[:300],
+            derived=res.derived,
+            condition_code=res.condition_code,
+        )
         for res in new
     ]
     Evaluation.objects.bulk_create(evals)
-    return findings_service.findings_open(inspection=inspection, evaluations=evals, results=new, by=by,
-                                          amendment=amendment, opened_at=amendment.created_at)
+    return findings_service.findings_open(
+        inspection=inspection,
+        evaluations=evals,
+        results=new,
+        by=by,
+        amendment=amendment,
+        opened_at=amendment.created_at,
+    )
 
 
 @transaction.atomic
@@ -139,8 +187,13 @@ def inspection_verify(*, inspection: Inspection, by) -> Inspection:
     if inspection.verified_at is not None:
         raise ValidationError({"inspection": [f"inspection {inspection.pk} was verified already"]})
     if inspection.flag_open:
-        raise ValidationError({"inspection": [f"inspection {inspection.pk} is flagged ({inspection.flag_reason}); "
-                                              "resolve the flag first"]})
+        raise ValidationError(
+            {
+                "inspection": [
+                    f"inspection {inspection.pk} is flagged ({inspection.flag_reason}); resolve the flag first"
+                ]
+            }
+        )
     inspection.state = Inspection.State.VERIFIED
     inspection.verified_at = timezone.now()
     inspection.verified_by = by
@@ -166,6 +219,11 @@ def flagged_form_resolve(*, inspection: Inspection, by, note: str) -> Inspection
     inspection.flag_resolved_by = by
     inspection.flag_resolution_note = note.strip()
     inspection.save(update_fields=["flag_resolved_at", "flag_resolved_by", "flag_resolution_note"])
-    audit_record(actor=by, obj=inspection, action="flag_resolve", organisation=inspection.organisation,
-                 changes={"flags": [f["code"] for f in inspection.flags], "note": inspection.flag_resolution_note})
+    audit_record(
+        actor=by,
+        obj=inspection,
+        action="flag_resolve",
+        organisation=inspection.organisation,
+        changes={"flags": [f["code"] for f in inspection.flags], "note": inspection.flag_resolution_note},
+    )
     return inspection

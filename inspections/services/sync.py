@@ -173,8 +173,9 @@ def _reading(parsed: Parsed, i: int, raw: object, seen: set, errors: Errors) -> 
         if (lim.get("physical_min") is not None and si < lim["physical_min"] - tol) or (
             lim.get("physical_max") is not None and si > lim["physical_max"] + tol
         ):
-            errors.add(f"{at}.value", f"{label}: {_num_text(x)} {unit} is impossible; allowed "
-                                      f"{_range_text(lo, hi, unit)}")
+            errors.add(
+                f"{at}.value", f"{label}: {_num_text(x)} {unit} is impossible; allowed {_range_text(lo, hi, unit)}"
+            )
             return
         reading.value_si = si
         plo, phi = lim.get("plausible_min"), lim.get("plausible_max")
@@ -182,8 +183,10 @@ def _reading(parsed: Parsed, i: int, raw: object, seen: set, errors: Errors) -> 
             reading.improbable = True
             dlo = checklists.to_display(plo, it.quantity, parsed.unit_system)
             dhi = checklists.to_display(phi, it.quantity, parsed.unit_system)
-            parsed.improbable.append(f"{label}: {_num_text(x)} {unit} is outside the plausible "
-                                     f"{_range_text(dlo, dhi, unit)}; please check it")
+            parsed.improbable.append(
+                f"{label}: {_num_text(x)} {unit} is outside the plausible "
+                f"{_range_text(dlo, dhi, unit)}; please check it"
+            )
     parsed.readings.append(reading)
 
 
@@ -202,8 +205,10 @@ def _photos(parsed: Parsed, raw_list: object, errors: Errors) -> None:
         pid = _uuid(raw.get("client_uuid"), f"{at}.client_uuid", errors)
         slot = by_key.get((raw.get("item"), raw.get("component") or None))
         if slot is None:
-            errors.add(f"{at}.item", f"item {raw.get('item')!r} (component {raw.get('component')!r}) is not on "
-                                     "this work order's checklist")
+            errors.add(
+                f"{at}.item",
+                f"item {raw.get('item')!r} (component {raw.get('component')!r}) is not on this work order's checklist",
+            )
             continue
         if pid is None:
             continue
@@ -218,8 +223,9 @@ def _photos(parsed: Parsed, raw_list: object, errors: Errors) -> None:
             errors.add(f"{at}.data", f"photo {pid} was not uploaded before; send its data")
             continue
         try:
-            data = photo_service.data_url_decode(raw["data"], field=f"{at}.data",
-                                                 max_bytes=settings.PLENUM_PHOTO_MAX_BYTES)
+            data = photo_service.data_url_decode(
+                raw["data"], field=f"{at}.data", max_bytes=settings.PLENUM_PHOTO_MAX_BYTES
+            )
             image = photo_service.image_clean(data, field=f"{at}.data")
         except ValidationError as exc:
             for k, msgs in exc.message_dict.items():
@@ -274,8 +280,13 @@ def form_parse(*, user, raw: object) -> tuple[Parsed | None, Errors, uuid.UUID |
     if errors or work_order is None:
         return None, errors, client_uuid
     parsed = Parsed(
-        client_uuid=client_uuid, work_order=work_order, version_seen=version, unit_system=system,
-        started_at=started, finished_at=finished, checklist=selectors.checklist_build(work_order=work_order),
+        client_uuid=client_uuid,
+        work_order=work_order,
+        version_seen=version,
+        unit_system=system,
+        started_at=started,
+        finished_at=finished,
+        checklist=selectors.checklist_build(work_order=work_order),
     )
     seen: set = set()
     for i, r in enumerate(readings):
@@ -300,8 +311,11 @@ def _filter_points_for(ahu, finished_at):
             if "run_hours" not in v:
                 continue
             q = v.get("supply_airflow") or ahu.design_supply_airflow_m3s
-            out.append(FilterPoint(run_hours=v["run_hours"], dp_pa=reading.value_si, airflow_m3s=q,
-                                   when=insp.finished_at.date()))
+            out.append(
+                FilterPoint(
+                    run_hours=v["run_hours"], dp_pa=reading.value_si, airflow_m3s=q, when=insp.finished_at.date()
+                )
+            )
         return out
 
     return points
@@ -310,13 +324,18 @@ def _filter_points_for(ahu, finished_at):
 def _evaluate(parsed: Parsed) -> list[evaluation.Result]:
     wo = parsed.work_order
     values = {
-        (r.item.api_key, r.component.pk if r.component else None): evaluation.Value(number=r.value_si,
-                                                                                    text=r.value_text)
+        (r.item.api_key, r.component.pk if r.component else None): evaluation.Value(
+            number=r.value_si, text=r.value_text
+        )
         for r in parsed.readings
     }
     form = evaluation.Form(
-        ahu=wo.ahu, components=list(wo.ahu.components.all()), values=values, slots=parsed.checklist.slots,
-        finished_at=parsed.finished_at, filter_points=_filter_points_for(wo.ahu, parsed.finished_at),
+        ahu=wo.ahu,
+        components=list(wo.ahu.components.all()),
+        values=values,
+        slots=parsed.checklist.slots,
+        finished_at=parsed.finished_at,
+        filter_points=_filter_points_for(wo.ahu, parsed.finished_at),
     )
     return evaluation.evaluate(form)
 
@@ -328,29 +347,43 @@ def _not_ok(reading: Reading) -> bool:
 def _flags(parsed: Parsed, user, wo: WorkOrder, results) -> list[dict]:
     flags = []
     if wo.state == WorkOrder.State.CANCELLED:
-        flags.append({"code": "work_order_cancelled",
-                      "reason": f"the work order was cancelled ({wo.cancel_reason or 'no reason given'}) before "
-                                "this form arrived"})
+        flags.append(
+            {
+                "code": "work_order_cancelled",
+                "reason": f"the work order was cancelled ({wo.cancel_reason or 'no reason given'}) before "
+                "this form arrived",
+            }
+        )
     elif wo.state in (WorkOrder.State.COMPLETED, WorkOrder.State.VERIFIED):
-        flags.append({"code": "work_order_closed",
-                      "reason": f"the work order was already {wo.state} when this form arrived"})
+        flags.append(
+            {"code": "work_order_closed", "reason": f"the work order was already {wo.state} when this form arrived"}
+        )
     if wo.assignee_id != user.pk and wo.state != WorkOrder.State.CANCELLED:
         to = f"is now assigned to {wo.assignee}" if wo.assignee else "is no longer assigned to anyone"
         flags.append({"code": "work_order_reassigned", "reason": f"sent by {user}, but the work order {to}"})
     if wo.version != parsed.version_seen:
-        flags.append({"code": "work_order_changed",
-                      "reason": f"the work order changed after the phone saw it (version {parsed.version_seen}, "
-                                f"now {wo.version})"})
+        flags.append(
+            {
+                "code": "work_order_changed",
+                "reason": f"the work order changed after the phone saw it (version {parsed.version_seen}, "
+                f"now {wo.version})",
+            }
+        )
     for text in parsed.improbable:
         flags.append({"code": "improbable_value", "reason": text})
     answered = {(r.item.api_key, r.component.pk if r.component else None) for r in parsed.readings}
-    photographed = {(p["slot"].item.api_key, p["slot"].component.pk if p["slot"].component else None)
-                    for p, _ in parsed.photos}
-    missing = [s for s in parsed.checklist.slots if s.item.required
-               and s.key not in (photographed if s.item.kind == "photo" else answered)]
+    photographed = {
+        (p["slot"].item.api_key, p["slot"].component.pk if p["slot"].component else None) for p, _ in parsed.photos
+    }
+    missing = [
+        s
+        for s in parsed.checklist.slots
+        if s.item.required and s.key not in (photographed if s.item.kind == "photo" else answered)
+    ]
     if missing:
-        names = [f"{s.template.title} › {s.item.label}" + (f" ({s.component.name})" if s.component else "")
-                 for s in missing]
+        names = [
+            f"{s.template.title} › {s.item.label}" + (f" ({s.component.name})" if s.component else "") for s in missing
+        ]
         more = f" and {len(names) - 10} more" if len(names) > 10 else ""
         flags.append({"code": "incomplete", "reason": "required items not answered: " + "; ".join(names[:10]) + more})
     slots = {s.key: s for s in parsed.checklist.slots}
@@ -366,8 +399,9 @@ def _flags(parsed: Parsed, user, wo: WorkOrder, results) -> list[dict]:
     return flags
 
 
-def _result_json(inspection: Inspection, status: str, flags, evals, found, wo: WorkOrder, *,
-                 unit_system: str = "si") -> dict:
+def _result_json(
+    inspection: Inspection, status: str, flags, evals, found, wo: WorkOrder, *, unit_system: str = "si"
+) -> dict:
     """The answer to the phone; reasons in ``unit_system`` (the sender's), ``reason_si`` as recorded."""
     return {
         "client_uuid": str(inspection.client_uuid),
@@ -377,15 +411,25 @@ def _result_json(inspection: Inspection, status: str, flags, evals, found, wo: W
         "flags": flags,
         "errors": {},
         "evaluation": [
-            {"check": e.check_name, "item": e.item_key,
-             "component": e.component.label_code if e.component else None, "verdict": e.verdict,
-             "reason": selectors.reason_for(evaluation=e, unit_system=unit_system), "reason_si": e.reason,
-             "method": e.method, "derived": e.derived}
+            {
+                "check": e.check_name,
+                "item": e.item_key,
+                "component": e.component.label_code if e.component else None,
+                "verdict": e.verdict,
+                "reason": selectors.reason_for(evaluation=e, unit_system=unit_system),
+                "reason_si": e.reason,
+                "method": e.method,
+                "derived": e.derived,
+            }
             for e in evals
         ],
         "findings": [
-            {"id": f.pk, "severity": f.severity, "title": f.title,
-             "corrective_work_order": str(f.corrective_work_order.public_id) if f.corrective_work_order else None}
+            {
+                "id": f.pk,
+                "severity": f.severity,
+                "title": f.title,
+                "corrective_work_order": str(f.corrective_work_order.public_id) if f.corrective_work_order else None,
+            }
             for f in found
         ],
     }
@@ -394,16 +438,26 @@ def _result_json(inspection: Inspection, status: str, flags, evals, found, wo: W
 def duplicate_result(inspection: Inspection, *, user) -> dict:
     if inspection.technician_id != user.pk:
         errors = Errors()
-        errors.add("client_uuid", f"client_uuid={str(inspection.client_uuid)!r} is already used by another "
-                                  "person's form; generate a new one")
+        errors.add(
+            "client_uuid",
+            f"client_uuid={str(inspection.client_uuid)!r} is already used by another person's form; generate a new one",
+        )
         return refused_result(inspection.client_uuid, errors)
     first = dict(inspection.sync_result)
     return {**first, "status": "duplicate", "first_status": first.get("status")}
 
 
 def refused_result(client_uuid, errors: Errors) -> dict:
-    return {"client_uuid": str(client_uuid) if client_uuid else None, "status": "refused", "inspection_id": None,
-            "work_order_state": None, "flags": [], "errors": dict(errors), "evaluation": [], "findings": []}
+    return {
+        "client_uuid": str(client_uuid) if client_uuid else None,
+        "status": "refused",
+        "inspection_id": None,
+        "work_order_state": None,
+        "flags": [],
+        "errors": dict(errors),
+        "evaluation": [],
+        "findings": [],
+    }
 
 
 def _store(parsed: Parsed, user, results) -> dict:
@@ -412,12 +466,18 @@ def _store(parsed: Parsed, user, results) -> dict:
     written: list = []
     sig = parsed.signature
     inspection = Inspection(
-        client_uuid=parsed.client_uuid, organisation_id=parsed.work_order.organisation_id,
-        work_order=parsed.work_order, ahu=parsed.work_order.ahu, technician=user,
+        client_uuid=parsed.client_uuid,
+        organisation_id=parsed.work_order.organisation_id,
+        work_order=parsed.work_order,
+        ahu=parsed.work_order.ahu,
+        technician=user,
         template_versions={t.code: t.version for t in parsed.checklist.templates},
-        unit_system=parsed.unit_system, work_order_version_seen=parsed.version_seen,
-        started_at=parsed.started_at, finished_at=parsed.finished_at,
-        signature_name=sig["name"], signed_at=sig["signed_at"],
+        unit_system=parsed.unit_system,
+        work_order_version_seen=parsed.version_seen,
+        started_at=parsed.started_at,
+        finished_at=parsed.finished_at,
+        signature_name=sig["name"],
+        signed_at=sig["signed_at"],
     )
     inspection.signature_image.save(f"{parsed.client_uuid.hex}.png", ContentFile(sig["image"].data), save=False)
     written.append(inspection.signature_image)
@@ -428,9 +488,14 @@ def _store(parsed: Parsed, user, results) -> dict:
             obj.item_key, obj.component = slot.item.api_key, slot.component
             new_photos.append(obj)
             continue
-        photo = photo_service.photo_build(image=obj, client_uuid=uuid.UUID(str(raw["client_uuid"])),
-                                          work_order=parsed.work_order, user=user, item_key=slot.item.api_key,
-                                          component=slot.component)
+        photo = photo_service.photo_build(
+            image=obj,
+            client_uuid=uuid.UUID(str(raw["client_uuid"])),
+            work_order=parsed.work_order,
+            user=user,
+            item_key=slot.item.api_key,
+            component=slot.component,
+        )
         written += [photo.image, photo.thumbnail]
         new_photos.append(photo)
     # Reading verdicts from the evaluation of the reading itself.
@@ -458,25 +523,36 @@ def _store(parsed: Parsed, user, results) -> dict:
                 p.inspection = inspection
                 p.save()
             evals = [
-                Evaluation(inspection=inspection, check_name=res.check, item_key=res.item, component=res.component,
-                           verdict=res.verdict, reason=res.reason[:500], reason_parts=res.reason_parts,
-                           method=res.method[:300],
-                           derived=res.derived, condition_code=res.condition_code)
+                Evaluation(
+                    inspection=inspection,
+                    check_name=res.check,
+                    item_key=res.item,
+                    component=res.component,
+                    verdict=res.verdict,
+                    reason=res.reason[:500],
+                    reason_parts=res.reason_parts,
+                    method=res.method[:300],
+                    derived=res.derived,
+                    condition_code=res.condition_code,
+                )
                 for res in results
             ]
             Evaluation.objects.bulk_create(evals)
-            found = findings_service.findings_open(inspection=inspection, evaluations=evals, results=results,
-                                                   by=user)
-            hours = next((r.value_si for r in parsed.readings
-                          if r.item.api_key == "visit.run_hours" and r.value_si is not None), None)
+            found = findings_service.findings_open(inspection=inspection, evaluations=evals, results=results, by=user)
+            hours = next(
+                (r.value_si for r in parsed.readings if r.item.api_key == "visit.run_hours" and r.value_si is not None),
+                None,
+            )
             if hours is not None:
                 try:
                     with transaction.atomic():
-                        meter_reading_record(ahu=wo.ahu, hours=hours, taken_at=parsed.finished_at,
-                                             source="checklist", by=user)
+                        meter_reading_record(
+                            ahu=wo.ahu, hours=hours, taken_at=parsed.finished_at, source="checklist", by=user
+                        )
                 except ValidationError as exc:
-                    flags.append({"code": "meter_reading_refused",
-                                  "reason": "run-hour meter: " + " ".join(exc.messages)})
+                    flags.append(
+                        {"code": "meter_reading_refused", "reason": "run-hour meter: " + " ".join(exc.messages)}
+                    )
             blocking = {"work_order_cancelled", "work_order_closed", "work_order_reassigned", "incomplete"}
             if not any(f["code"] in blocking for f in flags) and wo.is_open:
                 try:
@@ -484,22 +560,38 @@ def _store(parsed: Parsed, user, results) -> dict:
                         work_order_complete(work_order=wo, by=user, completed_at=parsed.finished_at)
                     inspection.work_order_completed = True
                 except ValidationError as exc:
-                    flags.append({"code": "work_order_not_completed",
-                                  "reason": "the work order could not be completed: " + " ".join(exc.messages)})
+                    flags.append(
+                        {
+                            "code": "work_order_not_completed",
+                            "reason": "the work order could not be completed: " + " ".join(exc.messages),
+                        }
+                    )
             inspection.flags = flags
             inspection.flag_reason = "; ".join(f["reason"] for f in flags)[:5000]
             status = "flagged" if flags else "stored"
-            inspection.sync_result = _result_json(inspection, status, flags, evals, found, wo,
-                                                  unit_system=getattr(user, "unit_system", "si"))
+            inspection.sync_result = _result_json(
+                inspection, status, flags, evals, found, wo, unit_system=getattr(user, "unit_system", "si")
+            )
             # flags and flag_reason change only inside this creating transaction.
             Inspection.objects.filter(pk=inspection.pk).update(
-                flags=flags, flag_reason=inspection.flag_reason, sync_result=inspection.sync_result,
+                flags=flags,
+                flag_reason=inspection.flag_reason,
+                sync_result=inspection.sync_result,
                 work_order_completed=inspection.work_order_completed,
             )
-            audit_record(actor=user, obj=inspection, action="inspection_submit", organisation=wo.organisation,
-                         changes={"client_uuid": str(parsed.client_uuid), "work_order": str(wo.public_id),
-                                  "readings": len(parsed.readings), "flags": [f["code"] for f in flags],
-                                  "findings": [f.pk for f in found]})
+            audit_record(
+                actor=user,
+                obj=inspection,
+                action="inspection_submit",
+                organisation=wo.organisation,
+                changes={
+                    "client_uuid": str(parsed.client_uuid),
+                    "work_order": str(wo.public_id),
+                    "readings": len(parsed.readings),
+                    "flags": [f["code"] for f in flags],
+                    "findings": [f.pk for f in found],
+                },
+            )
             return inspection.sync_result
     except IntegrityError:
         for f in written:

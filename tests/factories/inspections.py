@@ -38,8 +38,7 @@ def data_url(data: bytes, mime: str = "image/jpeg") -> str:
 
 
 def signature(name: str = "Ana Field", at: dt.datetime = FINISHED) -> dict:
-    return {"name": name, "image": data_url(image_bytes("PNG", (200, 80)), "image/png"),
-            "signed_at": at.isoformat()}
+    return {"name": name, "image": data_url(image_bytes("PNG", (200, 80)), "image/png"), "signed_at": at.isoformat()}
 
 
 def make_visit(*, tasks: list[str], organisation=None, ahu=None, technician=None, **ahu_fields):
@@ -48,15 +47,28 @@ def make_visit(*, tasks: list[str], organisation=None, ahu=None, technician=None
     if ahu is None:
         site = SiteFactory(organisation=organisation)
         ahu = make_full_unit(building=BuildingFactory(site=site), **ahu_fields)
-    technician = technician or make_person(organisation=organisation, role=Role.TECHNICIAN,
-                                           first_name="Ana", last_name="Field")
+    technician = technician or make_person(
+        organisation=organisation, role=Role.TECHNICIAN, first_name="Ana", last_name="Field"
+    )
     task_library_install()
-    wo = WorkOrderFactory(ahu=ahu, organisation=organisation, assignee=technician, state=WorkOrder.State.ASSIGNED,
-                          title="Quarterly service", due_date=FINISHED.date())
+    wo = WorkOrderFactory(
+        ahu=ahu,
+        organisation=organisation,
+        assignee=technician,
+        state=WorkOrder.State.ASSIGNED,
+        title="Quarterly service",
+        due_date=FINISHED.date(),
+    )
     for code in tasks:
         WorkOrderTask.objects.create(
-            work_order=wo, task=TaskDefinition.objects.get(organisation=None, code=code), task_code=code, ahu=ahu,
-            component=None, component_key=0, due_date=wo.due_date, occurrence_key=f"test:{wo.pk}:{code}",
+            work_order=wo,
+            task=TaskDefinition.objects.get(organisation=None, code=code),
+            task_code=code,
+            ahu=ahu,
+            component=None,
+            component_key=0,
+            due_date=wo.due_date,
+            occurrence_key=f"test:{wo.pk}:{code}",
         )
     return wo, technician
 
@@ -65,8 +77,17 @@ def component(ahu, name: str):
     return ahu.components.get(name=name)
 
 
-def sync_form(wo, readings: list[dict], *, client_uuid=None, version=None, unit_system="si", photos=None,
-              finished_at: dt.datetime = FINISHED, sign=True) -> dict:
+def sync_form(
+    wo,
+    readings: list[dict],
+    *,
+    client_uuid=None,
+    version=None,
+    unit_system="si",
+    photos=None,
+    finished_at: dt.datetime = FINISHED,
+    sign=True,
+) -> dict:
     form = {
         "client_uuid": str(client_uuid or uuid.uuid4()),
         "work_order": str(wo.public_id),
@@ -83,5 +104,9 @@ def sync_form(wo, readings: list[dict], *, client_uuid=None, version=None, unit_
 
 
 def r(item: str, value, component=None, note: str = "") -> dict:
-    return {"item": item, "component": component.label_code if component is not None else None, "value": value,
-            "note": note}
+    return {
+        "item": item,
+        "component": component.label_code if component is not None else None,
+        "value": value,
+        "note": note,
+    }

@@ -24,8 +24,11 @@ def test_demo_history_has_a_year_of_completed_visits_filter_curves_and_findings(
     assert Inspection.objects.filter(ahu=ahu).count() == 12
     assert WorkOrder.objects.filter(ahu=ahu, kind="preventive", state="completed").count() == 12
     final = ahu.components.get(name="Final filters")
-    dps = list(Reading.objects.filter(component=final, item__key="dp", item__template__code="filter_check")
-               .order_by("inspection__finished_at").values_list("value_si", flat=True))
+    dps = list(
+        Reading.objects.filter(component=final, item__key="dp", item__template__code="filter_check")
+        .order_by("inspection__finished_at")
+        .values_list("value_si", flat=True)
+    )
     assert len(dps) == 12
     rises = sum(1 for a, b in itertools.pairwise(dps) if b > a)
     drops = [a - b for a, b in itertools.pairwise(dps) if b < a - 30]

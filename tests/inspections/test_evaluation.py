@@ -26,8 +26,11 @@ def submit(client, wo, tech, readings, **kw):
 
 
 def result(out, check, component=None):
-    return next(e for e in out["evaluation"]
-                if e["check"] == check and (component is None or e["component"] == component.label_code))
+    return next(
+        e
+        for e in out["evaluation"]
+        if e["check"] == check and (component is None or e["component"] == component.label_code)
+    )
 
 
 @pytest.mark.django_db
@@ -39,15 +42,18 @@ def test_filter_loading_is_corrected_to_design_airflow(api_client):
     """
     wo, tech = make_visit(tasks=["filter_check"])
     bank = component(wo.ahu, "Final filters")
-    out = submit(api_client, wo, tech, [r("visit.run_hours", 1200), r("visit.supply_airflow", 2400),
-                                        r("filter_check.dp", 160, bank)])
+    out = submit(
+        api_client,
+        wo,
+        tech,
+        [r("visit.run_hours", 1200), r("visit.supply_airflow", 2400), r("filter_check.dp", 160, bank)],
+    )
     ev = result(out, "filter_loading", bank)
     assert ev["derived"]["corrected_dp_pa"] == pytest.approx(223.6, abs=0.1)
     assert ev["derived"]["loading_pct"] == pytest.approx(83.5, abs=0.1)
     assert ev["verdict"] == "watch"
     assert "filter at 84 % of its span after correcting to design airflow" in ev["reason"]
-    stored = Evaluation.objects.get(inspection_id=out["inspection_id"], check_name="filter_loading",
-                                    component=bank)
+    stored = Evaluation.objects.get(inspection_id=out["inspection_id"], check_name="filter_loading", component=bank)
     assert "Q_design/Q" in stored.method
     reading = Reading.objects.get(inspection_id=out["inspection_id"], item__key="dp", component=bank)
     assert reading.verdict == "watch"
@@ -64,8 +70,13 @@ def test_filter_change_is_forecast_from_this_and_earlier_readings(api_client):
     ahu, bank = wo.ahu, component(wo.ahu, "Final filters")
     for months_ago, hours, dp in ((3, 1000, 110), (2, 1500, 130), (1, 2000, 150)):
         earlier, _ = make_visit(tasks=["filter_check"], organisation=wo.organisation, ahu=ahu, technician=tech)
-        submit(api_client, earlier, tech, [r("visit.run_hours", hours), r("filter_check.dp", dp, bank)],
-               finished_at=FINISHED - dt.timedelta(days=30 * months_ago))
+        submit(
+            api_client,
+            earlier,
+            tech,
+            [r("visit.run_hours", hours), r("filter_check.dp", dp, bank)],
+            finished_at=FINISHED - dt.timedelta(days=30 * months_ago),
+        )
     out = submit(api_client, wo, tech, [r("visit.run_hours", 2500), r("filter_check.dp", 170, bank)])
     ev = result(out, "filter_loading", bank)
     assert ev["derived"]["rate_pa_per_hour"] == pytest.approx(0.04)
@@ -84,8 +95,17 @@ def test_outdoor_air_fraction_by_temperature_meets_design_and_ventilation_requir
     (ASHRAE 62.1 Table 6-1 office rates, from memory) → fraction 0.17 needed; design minimum 0.25. OK.
     """
     wo, tech = make_visit(tasks=["ventilation_check"])
-    out = submit(api_client, wo, tech, [r("visit.run_hours", 1200), r("ventilation_check.outdoor_air", 0),
-                                        r("ventilation_check.return_air", 22), r("ventilation_check.mixed_air", 15.4)])
+    out = submit(
+        api_client,
+        wo,
+        tech,
+        [
+            r("visit.run_hours", 1200),
+            r("ventilation_check.outdoor_air", 0),
+            r("ventilation_check.return_air", 22),
+            r("ventilation_check.mixed_air", 15.4),
+        ],
+    )
     ev = result(out, "oa_fraction_temperature")
     assert ev["derived"]["oa_fraction"] == pytest.approx(0.30, abs=0.001)
     assert ev["derived"]["uncertainty"] == pytest.approx(0.029, abs=0.001)
@@ -99,8 +119,17 @@ def test_outdoor_air_fraction_by_temperature_meets_design_and_ventilation_requir
 def test_too_little_outdoor_air_is_a_finding_with_proposed_corrective_work(api_client):
     """Mixed 20 °C between 0 °C outdoor and 22 °C return: x = 2/22 = 0.09 ± 0.03, below 0.25 → fail."""
     wo, tech = make_visit(tasks=["ventilation_check"])
-    out = submit(api_client, wo, tech, [r("visit.run_hours", 1200), r("ventilation_check.outdoor_air", 0),
-                                        r("ventilation_check.return_air", 22), r("ventilation_check.mixed_air", 20)])
+    out = submit(
+        api_client,
+        wo,
+        tech,
+        [
+            r("visit.run_hours", 1200),
+            r("ventilation_check.outdoor_air", 0),
+            r("ventilation_check.return_air", 22),
+            r("ventilation_check.mixed_air", 20),
+        ],
+    )
     ev = result(out, "oa_fraction_temperature")
     assert ev["verdict"] == "fail"
     assert ev["derived"]["oa_fraction"] == pytest.approx(0.091, abs=0.001)
@@ -118,9 +147,17 @@ def test_co2_method_reports_the_fraction_but_will_not_decide_within_its_uncertai
     """CO2 400/900/775 ppm: x = (900 − 775)/(900 − 400) = 0.25; with ±(50 ppm + 3 %) sensors (typical NDIR,
     from memory) the band is ±0.19, straddling the 0.25 minimum → watch, "cannot decide"."""
     wo, tech = make_visit(tasks=["ventilation_check"])
-    out = submit(api_client, wo, tech, [r("visit.run_hours", 1200), r("ventilation_check.outdoor_co2", 400),
-                                        r("ventilation_check.return_co2", 900),
-                                        r("ventilation_check.supply_co2", 775)])
+    out = submit(
+        api_client,
+        wo,
+        tech,
+        [
+            r("visit.run_hours", 1200),
+            r("ventilation_check.outdoor_co2", 400),
+            r("ventilation_check.return_co2", 900),
+            r("ventilation_check.supply_co2", 775),
+        ],
+    )
     ev = result(out, "oa_fraction_co2")
     assert ev["derived"]["oa_fraction"] == pytest.approx(0.25)
     assert ev["derived"]["uncertainty"] == pytest.approx(0.189, abs=0.002)
@@ -134,11 +171,20 @@ def test_heating_coil_heat_balances_air_and_water_side(api_client):
     q = 0.0009 × 983.2 × 4185 × 20 = 74.1 kW (water at 60 °C, IAPWS values from memory). 1.6 % apart → ok."""
     wo, tech = make_visit(tasks=["coil_clean"])
     coil = component(wo.ahu, "Heating coil")
-    out = submit(api_client, wo, tech, [
-        r("visit.run_hours", 1200), r("visit.supply_airflow", 3000), r("coil_clean.air_in", 10, coil),
-        r("coil_clean.air_out", 30, coil), r("coil_clean.water_in", 70, coil), r("coil_clean.water_out", 50, coil),
-        r("coil_clean.water_flow", 0.9, coil),
-    ])
+    out = submit(
+        api_client,
+        wo,
+        tech,
+        [
+            r("visit.run_hours", 1200),
+            r("visit.supply_airflow", 3000),
+            r("coil_clean.air_in", 10, coil),
+            r("coil_clean.air_out", 30, coil),
+            r("coil_clean.water_in", 70, coil),
+            r("coil_clean.water_out", 50, coil),
+            r("coil_clean.water_flow", 0.9, coil),
+        ],
+    )
     ev = result(out, "coil_balance", coil)
     assert ev["derived"]["air_side_w"] == pytest.approx(75_250, rel=0.01)
     assert abs(ev["derived"]["water_side_w"]) == pytest.approx(74_060, rel=0.01)
@@ -151,8 +197,16 @@ def test_damper_short_of_its_command_opens_corrective_work_with_its_condition(ap
     """Commanded 50 %, measured 38 %: 12 points off, beyond the 10-point fail limit (common practice)."""
     wo, tech = make_visit(tasks=["damper_actuator"])
     damper = component(wo.ahu, "Outdoor-air damper")
-    out = submit(api_client, wo, tech, [r("visit.run_hours", 1200), r("damper_actuator.command", 50, damper),
-                                        r("damper_actuator.position", 38, damper, note="sticks at 38 %")])
+    out = submit(
+        api_client,
+        wo,
+        tech,
+        [
+            r("visit.run_hours", 1200),
+            r("damper_actuator.command", 50, damper),
+            r("damper_actuator.position", 38, damper, note="sticks at 38 %"),
+        ],
+    )
     ev = result(out, "damper_position", damper)
     assert ev["verdict"] == "fail" and ev["derived"]["error_pct"] == -12
     [f] = out["findings"]
@@ -165,8 +219,16 @@ def test_co2_sensor_drift_against_the_reference_meter(api_client):
     """Sensor 980 ppm beside a reference reading 900 ppm: 80 ppm off, beyond its stated ±50 ppm → fail."""
     wo, tech = make_visit(tasks=["sensor_calibration"])
     sensor = component(wo.ahu, "Return CO2 sensor")
-    out = submit(api_client, wo, tech, [r("visit.run_hours", 1200), r("sensor_calibration.co2_sensor", 980, sensor),
-                                        r("sensor_calibration.co2_reference", 900, sensor, note="drifted")])
+    out = submit(
+        api_client,
+        wo,
+        tech,
+        [
+            r("visit.run_hours", 1200),
+            r("sensor_calibration.co2_sensor", 980, sensor),
+            r("sensor_calibration.co2_reference", 900, sensor, note="drifted"),
+        ],
+    )
     ev = result(out, "sensor_drift", sensor)
     assert ev["verdict"] == "fail"
     assert ev["derived"]["error"] == 80 and ev["derived"]["allowed_error"] == 50
@@ -178,10 +240,19 @@ def test_co2_sensor_drift_against_the_reference_meter(api_client):
 def test_supply_temperature_and_duct_static_against_their_set_points(api_client):
     """Supply 18.5 °C against 17 °C: 1.5 K → watch (1 K / 2 K); static 300 Pa against 250 Pa: 20 % → watch."""
     wo, tech = make_visit(tasks=["controls_check"])
-    out = submit(api_client, wo, tech, [
-        r("visit.run_hours", 1200), r("controls_check.supply_air", 18.5), r("controls_check.supply_setpoint", 17),
-        r("controls_check.duct_static", 300), r("controls_check.alarms", "ok"), r("controls_check.schedule", "ok"),
-    ])
+    out = submit(
+        api_client,
+        wo,
+        tech,
+        [
+            r("visit.run_hours", 1200),
+            r("controls_check.supply_air", 18.5),
+            r("controls_check.supply_setpoint", 17),
+            r("controls_check.duct_static", 300),
+            r("controls_check.alarms", "ok"),
+            r("controls_check.schedule", "ok"),
+        ],
+    )
     assert result(out, "supply_temperature")["verdict"] == "watch"
     static = result(out, "duct_static")
     assert static["derived"]["setpoint_pa"] == 250.0  # from the unit's registry entry
@@ -193,9 +264,16 @@ def test_supply_temperature_and_duct_static_against_their_set_points(api_client)
 def test_fan_not_proven_is_a_high_finding(api_client):
     wo, tech = make_visit(tasks=["fan_proving"])
     fan = component(wo.ahu, "Supply fan")
-    out = submit(api_client, wo, tech, [r("visit.run_hours", 1200),
-                                        r("fan_proving.proving_test", "not_ok", fan, note="switch stuck closed"),
-                                        r("fan_proving.running_status", "ok", fan)])
+    out = submit(
+        api_client,
+        wo,
+        tech,
+        [
+            r("visit.run_hours", 1200),
+            r("fan_proving.proving_test", "not_ok", fan, note="switch stuck closed"),
+            r("fan_proving.running_status", "ok", fan),
+        ],
+    )
     [f] = out["findings"]
     assert f["severity"] == "high"
     assert Finding.objects.get(pk=f["id"]).corrective_work_order.condition_code == "fan_not_proven"
@@ -215,9 +293,13 @@ def test_failed_freeze_test_in_the_freeze_season_opens_urgent_approved_work_and_
     boss = make_supervisor(wo.organisation)
     jan = dt.datetime(2025, 1, 15, 10, tzinfo=dt.UTC)
     with django_capture_on_commit_callbacks(execute=True):
-        out = submit(api_client, wo, tech, [r("visit.run_hours", 1200), *(r(k, v, note="damper stayed open")
-                                                                          for k, v in FREEZE_READINGS)],
-                     finished_at=jan)
+        out = submit(
+            api_client,
+            wo,
+            tech,
+            [r("visit.run_hours", 1200), *(r(k, v, note="damper stayed open") for k, v in FREEZE_READINGS)],
+            finished_at=jan,
+        )
     [f] = out["findings"]
     assert f["severity"] == "critical"
     cwo = Finding.objects.get(pk=f["id"]).corrective_work_order
@@ -233,9 +315,13 @@ def test_failed_freeze_test_in_summer_waits_for_approval(api_client, django_capt
     wo, tech = make_visit(tasks=["preheater_freeze"])
     july = dt.datetime(2024, 7, 15, 10, tzinfo=dt.UTC)
     with django_capture_on_commit_callbacks(execute=True):
-        out = submit(api_client, wo, tech, [r("visit.run_hours", 1200), *(r(k, v, note="x")
-                                                                          for k, v in FREEZE_READINGS)],
-                     finished_at=july)
+        out = submit(
+            api_client,
+            wo,
+            tech,
+            [r("visit.run_hours", 1200), *(r(k, v, note="x") for k, v in FREEZE_READINGS)],
+            finished_at=july,
+        )
     cwo = Finding.objects.get(pk=out["findings"][0]["id"]).corrective_work_order
     assert cwo.priority == "high" and cwo.approval == WorkOrder.Approval.PENDING
     assert mail.outbox == []
@@ -245,10 +331,17 @@ def test_failed_freeze_test_in_summer_waits_for_approval(api_client, django_capt
 def test_freeze_trip_temperature_too_low_fails(api_client):
     """A frost thermostat tripping at 0 °C acts too late (ok 2–6 °C, watch 1–7 °C: common practice)."""
     wo, tech = make_visit(tasks=["preheater_freeze"])
-    out = submit(api_client, wo, tech, [r("visit.run_hours", 1200), r("preheater_freeze.freeze_trip_temp", 0,
-                                                                        note="set too low"),
-                                        r("preheater_freeze.freeze_trip_test", "ok")],
-                 finished_at=dt.datetime(2024, 7, 15, 10, tzinfo=dt.UTC))
+    out = submit(
+        api_client,
+        wo,
+        tech,
+        [
+            r("visit.run_hours", 1200),
+            r("preheater_freeze.freeze_trip_temp", 0, note="set too low"),
+            r("preheater_freeze.freeze_trip_test", "ok"),
+        ],
+        finished_at=dt.datetime(2024, 7, 15, 10, tzinfo=dt.UTC),
+    )
     ev = result(out, "limits")
     assert ev["item"] == "preheater_freeze.freeze_trip_temp" and ev["verdict"] == "fail"
 
@@ -263,9 +356,14 @@ def _exchanger(ahu, design_pct):
 
 
 def _recovery_readings(hx, outdoor, supply, extract):
-    return [r("visit.run_hours", 1200), r("heat_recovery.condition", "clean", hx), r("heat_recovery.seals", "ok", hx),
-            r("heat_recovery.outdoor_in", outdoor, hx), r("heat_recovery.supply_out", supply, hx),
-            r("heat_recovery.extract_in", extract, hx)]
+    return [
+        r("visit.run_hours", 1200),
+        r("heat_recovery.condition", "clean", hx),
+        r("heat_recovery.seals", "ok", hx),
+        r("heat_recovery.outdoor_in", outdoor, hx),
+        r("heat_recovery.supply_out", supply, hx),
+        r("heat_recovery.extract_in", extract, hx),
+    ]
 
 
 @pytest.mark.django_db

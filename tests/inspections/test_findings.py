@@ -13,15 +13,21 @@ from tests.factories.scheduling import make_supervisor
 SYNC = "/api/inspections/sync/"
 
 
-def _drain_pan_visit(api_client, *, organisation=None, ahu=None, technician=None, days_later=0, pan="standing",
-                     drains="ok"):
+def _drain_pan_visit(
+    api_client, *, organisation=None, ahu=None, technician=None, days_later=0, pan="standing", drains="ok"
+):
     wo, tech = make_visit(tasks=["drain_pan"], organisation=organisation, ahu=ahu, technician=technician)
     drain = component(wo.ahu, "Drain pan")
     api_client.force_authenticate(tech)
-    form = sync_form(wo, [r("visit.run_hours", 1000 + 100 * days_later),
-                          r("drain_pan.pan_condition", pan, drain, note="water standing"),
-                          r("drain_pan.drains_freely", drains, drain, note="slow")],
-                     finished_at=FINISHED + dt.timedelta(days=days_later))
+    form = sync_form(
+        wo,
+        [
+            r("visit.run_hours", 1000 + 100 * days_later),
+            r("drain_pan.pan_condition", pan, drain, note="water standing"),
+            r("drain_pan.drains_freely", drains, drain, note="slow"),
+        ],
+        finished_at=FINISHED + dt.timedelta(days=days_later),
+    )
     [out] = api_client.post(SYNC, {"forms": [form]}, format="json").json()["results"]
     assert out["status"] in {"stored", "flagged"}, out
     return wo, tech, drain, [Finding.objects.get(pk=f["id"]) for f in out["findings"]]
@@ -35,8 +41,9 @@ def _corrective(findings, item_key):
 def test_a_repeat_drain_pan_failure_links_to_the_open_corrective_work_order(api_client):
     """Standing water on two visits a week apart: the second finding points to the first, still open, work order."""
     wo, tech, drain, first = _drain_pan_visit(api_client)
-    _, _, _, second = _drain_pan_visit(api_client, organisation=wo.organisation, ahu=wo.ahu, technician=tech,
-                                       days_later=7)
+    _, _, _, second = _drain_pan_visit(
+        api_client, organisation=wo.organisation, ahu=wo.ahu, technician=tech, days_later=7
+    )
     cwo = _corrective(first, "drain_pan.pan_condition")
     assert _corrective(second, "drain_pan.pan_condition") == cwo
     assert second[0].inspection_id != first[0].inspection_id  # two findings, one work order
@@ -48,12 +55,15 @@ def test_a_repeat_drain_pan_failure_links_to_the_open_corrective_work_order(api_
 def test_a_different_item_on_the_same_part_gets_its_own_corrective_work(api_client):
     """Standing water and a blocked drain are two problems: two work orders, each reused on a repeat."""
     wo, tech, _, first = _drain_pan_visit(api_client, drains="not_ok")
-    _, _, _, second = _drain_pan_visit(api_client, organisation=wo.organisation, ahu=wo.ahu, technician=tech,
-                                       days_later=7, drains="not_ok")
+    _, _, _, second = _drain_pan_visit(
+        api_client, organisation=wo.organisation, ahu=wo.ahu, technician=tech, days_later=7, drains="not_ok"
+    )
     pan, drains = _corrective(first, "drain_pan.pan_condition"), _corrective(first, "drain_pan.drains_freely")
     assert pan != drains
     assert {_corrective(second, "drain_pan.pan_condition"), _corrective(second, "drain_pan.drains_freely")} == {
-        pan, drains}
+        pan,
+        drains,
+    }
 
 
 @pytest.mark.django_db
@@ -63,13 +73,15 @@ def test_rejected_or_closed_corrective_work_is_not_reused(api_client):
     boss = make_supervisor(wo.organisation)
     rejected = _corrective(first, "drain_pan.pan_condition")
     corrective_work_order_reject(work_order=rejected, by=boss, reason="cleaned on the visit")
-    _, _, _, second = _drain_pan_visit(api_client, organisation=wo.organisation, ahu=wo.ahu, technician=tech,
-                                       days_later=7)
+    _, _, _, second = _drain_pan_visit(
+        api_client, organisation=wo.organisation, ahu=wo.ahu, technician=tech, days_later=7
+    )
     fresh = _corrective(second, "drain_pan.pan_condition")
     assert fresh != rejected and fresh.approval == WorkOrder.Approval.PENDING
     work_order_cancel(work_order=fresh, by=boss, reason="unit being replaced")
-    _, _, _, third = _drain_pan_visit(api_client, organisation=wo.organisation, ahu=wo.ahu, technician=tech,
-                                      days_later=14)
+    _, _, _, third = _drain_pan_visit(
+        api_client, organisation=wo.organisation, ahu=wo.ahu, technician=tech, days_later=14
+    )
     assert _corrective(third, "drain_pan.pan_condition") not in {rejected, fresh}
 
 
@@ -79,10 +91,18 @@ def test_low_outdoor_air_by_both_methods_on_one_visit_opens_one_work_order(api_c
     ±(50 ppm + 3 %) sensors, top of the band 0.18) both below 0.25: one problem, one work order."""
     wo, tech = make_visit(tasks=["ventilation_check"])
     api_client.force_authenticate(tech)
-    form = sync_form(wo, [r("visit.run_hours", 1200), r("ventilation_check.outdoor_air", 0),
-                          r("ventilation_check.return_air", 22), r("ventilation_check.mixed_air", 20),
-                          r("ventilation_check.outdoor_co2", 400), r("ventilation_check.return_co2", 1400),
-                          r("ventilation_check.supply_co2", 1350)])
+    form = sync_form(
+        wo,
+        [
+            r("visit.run_hours", 1200),
+            r("ventilation_check.outdoor_air", 0),
+            r("ventilation_check.return_air", 22),
+            r("ventilation_check.mixed_air", 20),
+            r("ventilation_check.outdoor_co2", 400),
+            r("ventilation_check.return_co2", 1400),
+            r("ventilation_check.supply_co2", 1350),
+        ],
+    )
     [out] = api_client.post(SYNC, {"forms": [form]}, format="json").json()["results"]
     fails = [e for e in out["evaluation"] if e["verdict"] == "fail"]
     assert {e["check"] for e in fails} == {"oa_fraction_temperature", "oa_fraction_co2"}

@@ -15,9 +15,18 @@ SVG = b'<svg xmlns="http://www.w3.org/2000/svg"><script>alert(1)</script></svg>'
 
 def form_with_photo(wo, data: str, pid=None):
     bank = component(wo.ahu, "Final filters")
-    return sync_form(wo, [r("visit.run_hours", 1200), r("filter_check.dp", 150, bank)], photos=[
-        {"client_uuid": str(pid or uuid.uuid4()), "item": "filter_check.photo", "component": bank.label_code,
-         "data": data}])
+    return sync_form(
+        wo,
+        [r("visit.run_hours", 1200), r("filter_check.dp", 150, bank)],
+        photos=[
+            {
+                "client_uuid": str(pid or uuid.uuid4()),
+                "item": "filter_check.photo",
+                "component": bank.label_code,
+                "data": data,
+            }
+        ],
+    )
 
 
 def post(client, user, form):
@@ -95,8 +104,11 @@ def test_photo_uploaded_separately_is_idempotent_and_can_be_referred_to_by_a_for
     def upload(data, name="p.webp"):
         f = io.BytesIO(data)
         f.name = name
-        return api_client.post("/api/inspections/photos/", {"file": f, "client_uuid": pid,
-                                                            "work_order": str(wo.public_id)}, format="multipart")
+        return api_client.post(
+            "/api/inspections/photos/",
+            {"file": f, "client_uuid": pid, "work_order": str(wo.public_id)},
+            format="multipart",
+        )
 
     first = upload(image_bytes("WEBP"))
     assert first.status_code == 201, first.content
@@ -115,7 +127,10 @@ def test_separate_upload_refuses_a_gif_with_a_400(api_client):
     api_client.force_authenticate(tech)
     f = io.BytesIO(image_bytes("GIF"))
     f.name = "x.gif"
-    res = api_client.post("/api/inspections/photos/", {"file": f, "client_uuid": str(uuid.uuid4()),
-                                                       "work_order": str(wo.public_id)}, format="multipart")
+    res = api_client.post(
+        "/api/inspections/photos/",
+        {"file": f, "client_uuid": str(uuid.uuid4()), "work_order": str(wo.public_id)},
+        format="multipart",
+    )
     assert res.status_code == 400
     assert "GIF are not accepted" in res.json()["errors"]["file"][0]

@@ -30,9 +30,15 @@ def _visit():
     """
     wo, tech = make_visit(tasks=["preheater_freeze"])
     Site.objects.filter(pk=wo.ahu.building.site_id).update(
-        freeze_season_start=SEASON_START, normals_min_c=[10.0] * 12, normals_max_c=[20.0] * 12)
-    heater = ComponentFactory(ahu=wo.ahu, kind="electric_preheater", name="Electric preheater", position=1,
-                              specs={"power_w": 24_000, "stages": 3, "switch_on_c": THRESHOLD_C})
+        freeze_season_start=SEASON_START, normals_min_c=[10.0] * 12, normals_max_c=[20.0] * 12
+    )
+    heater = ComponentFactory(
+        ahu=wo.ahu,
+        kind="electric_preheater",
+        name="Electric preheater",
+        position=1,
+        specs={"power_w": 24_000, "stages": 3, "switch_on_c": THRESHOLD_C},
+    )
     return wo, tech, heater
 
 
@@ -85,8 +91,7 @@ def test_failed_trip_test_25_days_before_the_freeze_season_opens_urgent_approved
     wo, tech, heater = _visit()
     boss = make_supervisor(wo.organisation)
     with django_capture_on_commit_callbacks(execute=True):
-        out = _submit(api_client, wo, tech, heater, stage_on=THRESHOLD_C, trip_test="not_ok",
-                      on=dt.date(2024, 9, 10))
+        out = _submit(api_client, wo, tech, heater, stage_on=THRESHOLD_C, trip_test="not_ok", on=dt.date(2024, 9, 10))
     assert _verdict(out, "preheater_freeze.freeze_trip_test")["verdict"] == "fail"
     [f] = out["findings"]
     assert f["severity"] == "critical"
@@ -113,8 +118,9 @@ def test_preheater_switching_on_too_late_before_the_season_is_urgent_too(api_cli
 def test_failed_trip_test_65_days_before_the_season_waits_for_approval(api_client):
     """1 August is 65 days before 5 October (and the normals stay at 10 °C): high priority, awaiting approval."""
     wo, tech, heater = _visit()
-    out = _submit(api_client, wo, tech, heater, stage_on=THRESHOLD_C, trip_temp=0.0, trip_test="not_ok",
-                  on=dt.date(2024, 8, 1))
+    out = _submit(
+        api_client, wo, tech, heater, stage_on=THRESHOLD_C, trip_temp=0.0, trip_test="not_ok", on=dt.date(2024, 8, 1)
+    )
     assert _verdict(out, "preheater_freeze.freeze_trip_temp")["verdict"] == "fail"
     cwos = {Finding.objects.get(pk=f["id"]).corrective_work_order for f in out["findings"]}
     assert len(cwos) == 1  # both trip failures share one open corrective work order for the condition

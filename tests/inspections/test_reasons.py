@@ -102,7 +102,7 @@ def test_the_inspection_report_gives_reasons_in_the_readers_units(api_client, dj
     from reports.models import Report
     from reports.services import report_request
 
-    out, _, tech = _submit_us(api_client)
+    out, _, _ = _submit_us(api_client)
     ev = Evaluation.objects.get(inspection_id=out["inspection_id"], check_name="supply_temperature")
     supervisor = make_person(organisation=ev.inspection.work_order.organisation, role=Role.SUPERVISOR, unit_system="us")
     with django_capture_on_commit_callbacks(execute=True):

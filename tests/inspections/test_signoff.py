@@ -16,8 +16,11 @@ def stored_inspection(api_client):
     pre, final = component(wo.ahu, "Pre-filters"), component(wo.ahu, "Final filters")
     readings = [r("visit.run_hours", 1200)]
     for bank, dp in ((pre, 80), (final, 150)):
-        readings += [r("filter_check.dp", dp, bank), r("filter_check.seated", "ok", bank),
-                     r("filter_check.media", "loaded", bank)]
+        readings += [
+            r("filter_check.dp", dp, bank),
+            r("filter_check.seated", "ok", bank),
+            r("filter_check.media", "loaded", bank),
+        ]
     api_client.force_authenticate(tech)
     res = api_client.post("/api/inspections/sync/", {"forms": [sync_form(wo, readings)]}, format="json")
     return Inspection.objects.get(pk=res.json()["results"][0]["inspection_id"]), tech
@@ -41,9 +44,11 @@ def test_an_amendment_keeps_the_original_and_the_correction(api_client):
     insp, tech = stored_inspection(api_client)
     final = component(insp.ahu, "Final filters")
     api_client.force_authenticate(tech)
-    res = api_client.post(f"/api/inspections/{insp.pk}/amendments/", {
-        "reason": "gauge read wrong way round", "unit_system": "si",
-        "readings": [r("filter_check.dp", 240, final)]}, format="json")
+    res = api_client.post(
+        f"/api/inspections/{insp.pk}/amendments/",
+        {"reason": "gauge read wrong way round", "unit_system": "si", "readings": [r("filter_check.dp", 240, final)]},
+        format="json",
+    )
     assert res.status_code == 201, res.content
     [change] = res.json()["changes"]
     assert change["before"]["value_si"] == 150 and change["after"]["value_si"] == 240
@@ -59,8 +64,13 @@ def test_an_amendment_keeps_the_original_and_the_correction(api_client):
 def test_an_amendment_with_an_impossible_value_is_refused(api_client):
     insp, tech = stored_inspection(api_client)
     with pytest.raises(ValidationError, match="impossible"):
-        inspection_amend(inspection=insp, by=tech, reason="x", unit_system="si",
-                         readings=[r("filter_check.dp", -5, component(insp.ahu, "Final filters"))])
+        inspection_amend(
+            inspection=insp,
+            by=tech,
+            reason="x",
+            unit_system="si",
+            readings=[r("filter_check.dp", -5, component(insp.ahu, "Final filters"))],
+        )
     assert insp.amendments.count() == 0
 
 
@@ -100,9 +110,11 @@ def test_an_amendment_that_newly_fails_opens_a_finding_pointing_to_it(api_client
     [original] = Evaluation.objects.filter(inspection=insp, check_name="filter_loading", component=final)
     assert original.verdict == "ok" and not insp.findings.exists()
     api_client.force_authenticate(tech)
-    res = api_client.post(f"/api/inspections/{insp.pk}/amendments/", {
-        "reason": "read the wrong gauge", "unit_system": "si", "readings": [r("filter_check.dp", 260, final)]},
-        format="json")
+    res = api_client.post(
+        f"/api/inspections/{insp.pk}/amendments/",
+        {"reason": "read the wrong gauge", "unit_system": "si", "readings": [r("filter_check.dp", 260, final)]},
+        format="json",
+    )
     assert res.status_code == 201, res.content
     body = res.json()
     [found] = body["findings"]
@@ -118,8 +130,11 @@ def test_an_amendment_that_newly_fails_opens_a_finding_pointing_to_it(api_client
     assert original.verdict == "ok" and original.amendment is None
     assert insp.readings.get(component=final, item__key="dp").value_si == 150
     detail = api_client.get(f"/api/inspections/{insp.pk}/").json()
-    verdicts = {(e["verdict"], e["amendment"]) for e in detail["evaluations"] if e["check"] == "filter_loading"
-                and e["component"] == final.label_code}
+    verdicts = {
+        (e["verdict"], e["amendment"])
+        for e in detail["evaluations"]
+        if e["check"] == "filter_loading" and e["component"] == final.label_code
+    }
     assert verdicts == {("ok", None), ("fail", body["id"])}
     assert detail["amendments"][0]["findings"] == [finding.pk]
 
@@ -129,10 +144,12 @@ def test_an_amendment_repeating_a_known_failure_opens_no_second_finding(api_clie
     """A second amendment that still fails the same check adds no finding: it failed already."""
     insp, tech = stored_inspection(api_client)
     final = component(insp.ahu, "Final filters")
-    first = inspection_amend(inspection=insp, by=tech, reason="wrong gauge", unit_system="si",
-                             readings=[r("filter_check.dp", 260, final)])
-    second = inspection_amend(inspection=insp, by=tech, reason="re-read", unit_system="si",
-                              readings=[r("filter_check.dp", 270, final)])
+    first = inspection_amend(
+        inspection=insp, by=tech, reason="wrong gauge", unit_system="si", readings=[r("filter_check.dp", 260, final)]
+    )
+    second = inspection_amend(
+        inspection=insp, by=tech, reason="re-read", unit_system="si", readings=[r("filter_check.dp", 270, final)]
+    )
     assert first.findings.count() == 1 and second.findings.count() == 0
     assert insp.findings.count() == 1
 
@@ -140,6 +157,11 @@ def test_an_amendment_repeating_a_known_failure_opens_no_second_finding(api_clie
 @pytest.mark.django_db
 def test_an_amendment_that_clears_or_keeps_ok_opens_nothing(api_client):
     insp, tech = stored_inspection(api_client)
-    a = inspection_amend(inspection=insp, by=tech, reason="typo", unit_system="si",
-                         readings=[r("filter_check.dp", 160, component(insp.ahu, "Final filters"))])
+    a = inspection_amend(
+        inspection=insp,
+        by=tech,
+        reason="typo",
+        unit_system="si",
+        readings=[r("filter_check.dp", 160, component(insp.ahu, "Final filters"))],
+    )
     assert a.findings.count() == 0 and a.evaluations.count() == 0

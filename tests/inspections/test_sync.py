@@ -24,8 +24,11 @@ def complete_filter_form(wo, **kw):
     pre, final = component(ahu, "Pre-filters"), component(ahu, "Final filters")
     readings = [r("visit.run_hours", 1200)]
     for bank, dp in ((pre, 80), (final, 150)):
-        readings += [r("filter_check.dp", dp, bank), r("filter_check.seated", "ok", bank),
-                     r("filter_check.media", "loaded", bank)]
+        readings += [
+            r("filter_check.dp", dp, bank),
+            r("filter_check.seated", "ok", bank),
+            r("filter_check.media", "loaded", bank),
+        ]
     return sync_form(wo, readings, **kw)
 
 
@@ -160,8 +163,9 @@ def test_form_for_a_changed_work_order_is_stored_flagged_and_completes(api_clien
 def test_impossible_value_refuses_the_whole_form_naming_item_and_range(api_client):
     """−300 °C is refused with the item and the allowed range; nothing of the form is saved."""
     wo, tech = make_visit(tasks=["controls_check"])
-    form = sync_form(wo, [r("visit.run_hours", 1200), r("controls_check.supply_air", -300),
-                          r("controls_check.supply_setpoint", 17)])
+    form = sync_form(
+        wo, [r("visit.run_hours", 1200), r("controls_check.supply_air", -300), r("controls_check.supply_setpoint", 17)]
+    )
     [res] = post(api_client, tech, [form])
     assert res["status"] == "refused"
     assert res["inspection_id"] is None
@@ -188,8 +192,11 @@ def test_impossible_values_in_us_units_name_the_range_in_us_units(api_client):
     assert "'many' is not a number" in res["errors"]["readings[1].value"][0]
     wo2, tech2 = make_visit(tasks=["humidifier"])
     wo2.ahu.components.create(kind="humidifier", name="Steam humidifier", specs={})
-    [res] = post(api_client, tech2, [sync_form(wo2, [r("humidifier.rh_downstream", 104,
-                                                        wo2.ahu.components.get(kind="humidifier"))])])
+    [res] = post(
+        api_client,
+        tech2,
+        [sync_form(wo2, [r("humidifier.rh_downstream", 104, wo2.ahu.components.get(kind="humidifier"))])],
+    )
     assert "104 % is impossible; allowed 0 to 100 %" in res["errors"]["readings[0].value"][0]
 
 
@@ -212,9 +219,16 @@ def test_us_values_are_converted_to_si(api_client):
 def test_improbable_value_is_accepted_and_flagged(api_client):
     """75 °C supply air is possible but improbable: stored and flagged for review."""
     wo, tech = make_visit(tasks=["controls_check"])
-    form = sync_form(wo, [r("visit.run_hours", 1200), r("controls_check.supply_air", 75, note="heater stuck on?"),
-                          r("controls_check.supply_setpoint", 17), r("controls_check.alarms", "ok"),
-                          r("controls_check.schedule", "ok")])
+    form = sync_form(
+        wo,
+        [
+            r("visit.run_hours", 1200),
+            r("controls_check.supply_air", 75, note="heater stuck on?"),
+            r("controls_check.supply_setpoint", 17),
+            r("controls_check.alarms", "ok"),
+            r("controls_check.schedule", "ok"),
+        ],
+    )
     [res] = post(api_client, tech, [form])
     assert res["status"] == "flagged"
     flag = next(f for f in res["flags"] if f["code"] == "improbable_value")
@@ -307,7 +321,6 @@ def test_batch_over_fifty_forms_is_a_400(api_client, db):
     res = api_client.post(SYNC, {"forms": [{}] * 51}, format="json")
     assert res.status_code == 400
     assert "forms" in res.json()["errors"]
-
 
 
 @pytest.mark.django_db

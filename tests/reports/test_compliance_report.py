@@ -182,7 +182,10 @@ def test_pdfa_variant_is_archival(estate, supervisor, make_report):
 
 
 def test_overdue_now_agrees_with_the_schedulers_first_overdue_day(estate):
-    """Due 1 Apr with 7 grace days: the scheduler's first overdue day is 9 Apr; not overdue on 8 Apr, overdue on 9 Apr."""
+    """Due 1 Apr with 7 grace days: the scheduler's first overdue day is 9 Apr.
+
+    Not overdue on 8 Apr (the last grace day), overdue on 9 Apr.
+    """
     from scheduling.models import overdue_day
 
     filt = estate["a1"].work_orders.first().tasks.first().task
