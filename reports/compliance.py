@@ -46,7 +46,11 @@ Filter status of every unit
 Freeze-protection readiness before the coming season
     For each unit with an electric preheater or a preheat coil. The coming
     season starts on the site's ``freeze_season_start`` (computed by the
-    scheduler). The last season ended on the last day, in the 365 days before
+    scheduler). While a season is running — today is after the same day a year
+    before that start and on or before the last day at the threshold in the
+    365 days before it — readiness is judged for the running season instead,
+    so in midwinter the figure says whether this winter's protection was
+    proven before the cold came. A season ended on the last day, in the 365 days before
     that start, whose daily minimum from the site's monthly normals
     (``engineering.freeze.daily_minimums_from_normals``) is at or below the
     site's preheat threshold; without such a day the window opens 365 days
@@ -367,6 +371,20 @@ def _filter_rows(*, units: list[AHU], as_of: datetime) -> list[dict]:
     return out
 
 
+def _season_that_matters(*, site: Site, today: date) -> date | None:
+    """The running freeze season's start while it runs, else the coming one (module docstring)."""
+    coming = site.freeze_season_start
+    if coming is None:
+        return None
+    try:
+        running = coming.replace(year=coming.year - 1)
+    except ValueError:  # 29 February
+        running = coming.replace(year=coming.year - 1, day=28)
+    if running <= today <= last_season_end(site=site, season_start=coming):
+        return running
+    return coming
+
+
 def _freeze_rows(*, sites, units, as_of, today_of) -> tuple[list[dict], dict[str, int]]:
     protected = set(
         Component.objects.filter(ahu__in=units)
@@ -383,7 +401,7 @@ def _freeze_rows(*, sites, units, as_of, today_of) -> tuple[list[dict], dict[str
             completions[ahu_id].append(at)
     window = {}
     for site in sites:
-        start = site.freeze_season_start
+        start = _season_that_matters(site=site, today=today_of[site.pk])
         window[site.pk] = (start, last_season_end(site=site, season_start=start) if start else None)
     rows, counts = [], dict.fromkeys(FREEZE_LABELS, 0)
     for unit in units:

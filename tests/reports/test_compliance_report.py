@@ -199,3 +199,20 @@ def test_overdue_now_agrees_with_the_schedulers_first_overdue_day(estate):
 
     assert not overdue_on(dt.date(2025, 4, 8))
     assert overdue_on(dt.date(2025, 4, 9))
+
+
+def test_in_midwinter_readiness_is_for_the_running_season(estate):
+    """On 15 Jan 2025 the season that began 25 Oct 2024 is running (its last cold day by the normals is in
+    spring): a unit proven on 10 Oct 2024 is ready; one with no check before the cold is not ready."""
+    from reports.compliance import FREEZE_NOT_READY
+
+    freeze = next(t for t in estate["a1"].work_orders.all() if t.tasks.first().task_code == "preheater_freeze")
+    b.preventive(estate["a1"], freeze.tasks.first().task, "2024-10-05", done="2024-10-10")
+    as_of = dt.datetime(2025, 1, 15, 12, tzinfo=dt.UTC)
+    f = compliance_figures(
+        site_ids=[estate["site"].pk], start=dt.date(2024, 7, 1), end=dt.date(2025, 1, 15), as_of=as_of
+    )
+    status = {r["unit"].tag: r for r in f.freeze}
+    assert status["AHU-01"]["status"] == FREEZE_READY
+    assert status["AHU-01"]["season_start"] == dt.date(2024, 10, 25)
+    assert status["AHU-02"]["status"] == FREEZE_NOT_READY
