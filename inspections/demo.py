@@ -17,6 +17,7 @@ import uuid
 from PIL import Image, ImageDraw
 
 from accounts.models import Membership, Role
+from engineering.freeze import daily_minimums_from_normals, freeze_season_start
 from inventory.models import AHU
 from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
 from scheduling.services import task_library_install
@@ -74,6 +75,22 @@ def _work_order(
     return wo
 
 
+def _freeze_starts(site, first: dt.date, last: dt.date) -> list[dt.date]:
+    """The freeze-season starts by the site's normals between ``first`` and ``last`` (one per autumn)."""
+    days = (last - first).days + 400
+    series = daily_minimums_from_normals(
+        monthly_min_c=site.normals_min_c, start=first - dt.timedelta(days=200), days=days
+    )
+    starts, search = [], first - dt.timedelta(days=200)
+    while True:
+        start = freeze_season_start(daily_minimums=series, threshold_c=site.preheat_threshold_c, search_from=search)
+        if start is None or start > last:
+            return starts
+        if start >= first:
+            starts.append(start)
+        search = start + dt.timedelta(days=200)
+
+
 def _outdoor_c(site, when: dt.date, rng: random.Random) -> float:
     m = when.month - 1
     return round((site.normals_min_c[m] + site.normals_max_c[m]) / 2 + rng.uniform(-3, 3), 1)
@@ -108,6 +125,16 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
         dampers = list(ahu.components.filter(kind="damper").order_by("position", "id"))
         sensors = list(ahu.components.filter(kind="sensor", specs__measures="co2"))
         temp_sensors = list(ahu.components.filter(kind="sensor", specs__measures="temperature"))
+        preheaters = list(ahu.components.filter(kind="electric_preheater").order_by("position", "id"))
+        protected = bool(preheaters) or ahu.components.filter(kind="coil", specs__duty="preheat").exists()
+        # Preheat and freeze protection are proven on the last visit before each freeze season.
+        freeze_visits = set()
+        if protected:
+            first = today - dt.timedelta(days=VISIT_DAYS * months)
+            for start in _freeze_starts(site, first, today):
+                before = [today - dt.timedelta(days=VISIT_DAYS * m) for m in range(months, 0, -1)]
+                before = [d for d in before if start - dt.timedelta(days=VISIT_DAYS) <= d < start]
+                freeze_visits.update(before[-1:])
         loading = {b.pk: rng.uniform(0.0, 0.3) for b in banks}
         rate = {b.pk: rng.uniform(0.00015, 0.00030) for b in banks}  # fraction of span per run-hour
         hours = 5_000.0 + 1_000 * unit_no
@@ -122,6 +149,8 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                 codes.append("sensor_calibration")
             if change_due:
                 codes.append("filter_replace")
+            if due in freeze_visits:
+                codes.append("preheater_freeze")
             wo = _work_order(
                 ahu=ahu,
                 organisation=organisation,
@@ -197,6 +226,26 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                         },
                         {"item": "damper_actuator.linkage", "component": d.label_code, "value": "ok"},
                     ]
+            if "preheater_freeze" in codes:
+                for heater in preheaters:
+                    switch_on = heater.specs.get("switch_on_c", site.preheat_threshold_c)
+                    readings += [
+                        {
+                            "item": "preheater_freeze.stage_on_temp",
+                            "component": heater.label_code,
+                            "value": round(switch_on + rng.uniform(-0.5, 0.5), 1),
+                        },
+                        {"item": "preheater_freeze.stages", "component": heater.label_code, "value": "ok"},
+                        {"item": "preheater_freeze.high_limit", "component": heater.label_code, "value": "ok"},
+                    ]
+                readings += [
+                    {
+                        "item": "preheater_freeze.freeze_trip_temp",
+                        "component": None,
+                        "value": round(rng.uniform(4, 5.5), 1),
+                    },
+                    {"item": "preheater_freeze.freeze_trip_test", "component": None, "value": "ok"},
+                ]
             if "sensor_calibration" in codes:
                 for s in sensors:
                     ref = round(rng.uniform(650, 900))

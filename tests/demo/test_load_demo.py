@@ -46,3 +46,24 @@ def test_second_run_changes_nothing(loaded, capsys):
     assert (WorkOrder.objects.count(), Inspection.objects.count()) == counts
     assert "0 record(s) created or changed" in second
     assert loaded.splitlines()[-8:] == second.splitlines()[-8:]
+
+
+def test_demo_preheaters_were_proven_before_this_freeze_season(loaded):
+    """Every demo unit with a preheater or preheat coil had its freeze protection proven before the season began."""
+    from inventory.models import Site
+    from reports.compliance import FREEZE_READY, compliance_figures
+
+    now = timezone.now()
+    today = timezone.localdate()
+    figures = compliance_figures(
+        site_ids=list(Site.objects.values_list("pk", flat=True)),
+        start=today - dt.timedelta(days=365),
+        end=today,
+        as_of=now,
+    )
+    assert figures.freeze, "the demo has preheat to prove"
+    proven = WorkOrder.objects.filter(tasks__task_code="preheater_freeze", state__in=["completed", "verified"])
+    assert proven.exists()
+    for row in figures.freeze:
+        if row["season_start"] <= today:
+            assert row["status"] == FREEZE_READY, row
