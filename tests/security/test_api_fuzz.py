@@ -70,7 +70,7 @@ def real_ids(world: World) -> dict[str, dict[str, object]]:
     }
     for suffix in ("", "amendments/", "resolve-flag/", "verify/"):
         out[f"/api/inspections/{{id}}/{suffix}"] = {"id": a.inspection.pk}
-    for suffix in ("", "approve/", "assign/", "transition/"):
+    for suffix in ("", "approve/", "assign/", "schedule/", "transition/"):
         out[f"/api/scheduling/work-orders/{{public_id}}/{suffix}"] = {"public_id": wo}
     return out
 
