@@ -219,6 +219,8 @@ def _count_items(payload) -> object:
     if isinstance(payload, list):
         return len(payload)
     if isinstance(payload, dict):
+        if isinstance(payload.get("counts"), dict):  # the paged board: whole-week totals per section
+            return payload["counts"]
         return {k: len(v) for k, v in payload.items() if isinstance(v, list)} or sorted(payload)[:8]
     return None
 
