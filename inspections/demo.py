@@ -125,6 +125,9 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
         dampers = list(ahu.components.filter(kind="damper").order_by("position", "id"))
         sensors = list(ahu.components.filter(kind="sensor", specs__measures="co2"))
         temp_sensors = list(ahu.components.filter(kind="sensor", specs__measures="temperature"))
+        other_sensors = {
+            kind: list(ahu.components.filter(kind="sensor", specs__measures=kind)) for kind in ("pressure", "humidity")
+        }
         preheaters = list(ahu.components.filter(kind="electric_preheater").order_by("position", "id"))
         protected = bool(preheaters) or ahu.components.filter(kind="coil", specs__duty="preheat").exists()
         # Preheat and freeze protection are proven on the last visit before each freeze season.
@@ -145,7 +148,7 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
             codes = ["filter_check", "ventilation_check"]
             if m % 3 == 0:
                 codes += ["controls_check", "damper_actuator"]
-            if m % 6 == 0 and (sensors or temp_sensors):
+            if m % 6 == 0 and (sensors or temp_sensors or any(other_sensors.values())):
                 codes.append("sensor_calibration")
             if change_due:
                 codes.append("filter_replace")
@@ -269,6 +272,21 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                         },
                         {"item": "sensor_calibration.temp_reference", "component": s.label_code, "value": ref},
                     ]
+            if "sensor_calibration" in codes:
+                for s in other_sensors["pressure"]:
+                    ref = round(rng.uniform(220, 280))
+                    readings += [
+                        {"item": "sensor_calibration.pressure_sensor", "component": s.label_code,
+                         "value": ref + rng.randint(-5, 5)},
+                        {"item": "sensor_calibration.pressure_reference", "component": s.label_code, "value": ref},
+                    ]  # fmt: skip
+                for s in other_sensors["humidity"]:
+                    ref = round(rng.uniform(35, 55))
+                    readings += [
+                        {"item": "sensor_calibration.rh_sensor", "component": s.label_code,
+                         "value": ref + rng.randint(-2, 2)},
+                        {"item": "sensor_calibration.rh_reference", "component": s.label_code, "value": ref},
+                    ]  # fmt: skip
             form = {
                 "client_uuid": str(uuid.uuid5(NAMESPACE, f"{organisation.pk}:{ahu.pk}:{due.isoformat()}")),
                 "work_order": str(wo.public_id),
