@@ -8,8 +8,9 @@ SYSSTAMP := .system-packages.ok
 HOST   ?= 127.0.0.1
 PORT   ?= 8000
 # Debian packages the app and its tests need: Pango/HarfBuzz for WeasyPrint,
-# fonts, poppler (pdftoppm) for PDF checks, Chromium for browser tests.
-SYSTEM_PACKAGES := libpango-1.0-0 libpangoft2-1.0-0 libharfbuzz-subset0 fonts-dejavu-core poppler-utils chromium
+# fonts, poppler (pdftoppm) for PDF checks, Chromium for browser tests, Node.js to
+# run the phone's sync module under test.
+SYSTEM_PACKAGES := libpango-1.0-0 libpangoft2-1.0-0 libharfbuzz-subset0 fonts-dejavu-core poppler-utils chromium nodejs
 
 .PHONY: help install system run serve demo migrate test test-fast lint format bench clean worker beat
 

@@ -82,6 +82,7 @@ def test_a_form_twice_in_one_batch_is_stored_once(api_client):
     assert a["inspection_id"] == b["inspection_id"]
 
 
+@pytest.mark.postgres
 @pytest.mark.django_db(transaction=True)
 def test_concurrent_posts_of_one_form_store_it_once():
     """Eight phones' retries racing each other store the form once (database unique constraint)."""
