@@ -53,15 +53,29 @@ def _technicians(org):
     return [m.user for m in Membership.objects.filter(organisation=org, role=Role.TECHNICIAN).select_related("user")]
 
 
+BOARD_PAGE = 100
+
+
 @login_required
 def board(request):
     org = _organisation(request)
     week = _week_start(request.GET.get("week"))
     today = timezone.localdate()
     data = backends.board_for(organisation=org, week_start=week)
-    for wo in (*data.overdue, *data.due, *data.assigned):
-        # The day offered for the visit: its plan, else its due date, never a day already past.
-        wo.plan_default = wo.scheduled_for or max(wo.due_date, today)
+    show_all = request.GET.get("all", "")
+    columns = []
+    for key, title, rows in (
+        ("overdue", "Overdue", data.overdue),
+        ("due", "Due, not assigned", data.due),
+        ("assigned", "Assigned", data.assigned),
+    ):
+        # A large portfolio's week can hold a thousand visits: show the first page of each
+        # section, with the whole count and a link to the rest.
+        shown = list(rows) if show_all == key else list(rows[:BOARD_PAGE])
+        for wo in shown:
+            # The day offered for the visit: its plan, else its due date, never a day already past.
+            wo.plan_default = wo.scheduled_for or max(wo.due_date, today)
+        columns.append({"key": key, "title": title, "rows": shown, "total": len(rows)})
     load = backends.technician_load(organisation=org, start=week, days=7)
     return render(
         request,
@@ -76,7 +90,7 @@ def board(request):
             "load": load,
             "days": [week + dt.timedelta(days=k) for k in range(7)],
             "technicians": _technicians(org),
-            "columns": [("Overdue", data.overdue), ("Due, not assigned", data.due), ("Assigned", data.assigned)],
+            "columns": columns,
         },
     )
 

@@ -82,3 +82,32 @@ def test_a_stale_form_is_a_message_not_an_error_page(scenario, visit, login):
     text = " ".join(str(m) for m in get_messages(response.wsgi_request))
     assert "changed it meanwhile" in text
     assert WorkOrder.objects.get(pk=visit.pk).assignee_id is None
+
+
+def test_a_large_week_shows_a_page_of_each_section_and_the_whole_count(client, django_user_model):
+    """With more than a page of unassigned visits, the board shows 100, the full count, and a link to the rest."""
+    import datetime as dt
+
+    from django.utils import timezone
+
+    from accounts.models import Role
+    from frontend.views.supervisor import BOARD_PAGE
+    from scheduling.models import WorkOrder
+    from tests.factories import OrganisationFactory, make_full_unit, make_person
+
+    org = OrganisationFactory()
+    unit = make_full_unit(building__site__organisation=org)
+    supervisor = make_person(organisation=org, role=Role.SUPERVISOR)
+    make_person(organisation=org, role=Role.TECHNICIAN)
+    today = timezone.localdate()
+    WorkOrder.objects.bulk_create(
+        WorkOrder(organisation=org, ahu=unit, title=f"Visit {n}", due_date=today + dt.timedelta(days=1))
+        for n in range(BOARD_PAGE + 5)
+    )
+    client.force_login(supervisor)
+    page = client.get("/board/").content.decode()
+    assert f"Due, not assigned ({BOARD_PAGE + 5})" in page
+    assert f"Showing the first {BOARD_PAGE} of {BOARD_PAGE + 5}" in page
+    assert page.count('data-work-order="') == BOARD_PAGE
+    everything = client.get("/board/?all=due").content.decode()
+    assert everything.count('data-work-order="') == BOARD_PAGE + 5
