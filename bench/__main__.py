@@ -36,9 +36,10 @@ def sites_for(ahus: int) -> int:
 
 
 def _pg_admin(url: str):
+    """A connection to the server's maintenance database: DATABASE_URL's own database need not exist."""
     import psycopg
 
-    return psycopg.connect(url, autocommit=True)
+    return psycopg.connect(_pg_url(url, "postgres"), autocommit=True)
 
 
 def _pg_url(url: str, dbname: str) -> str:
