@@ -15,6 +15,7 @@ from django.utils.decorators import method_decorator
 from django.views.decorators.http import conditional_page
 from drf_spectacular.utils import OpenApiParameter, extend_schema
 from rest_framework import status
+from rest_framework.exceptions import PermissionDenied
 from rest_framework.response import Response
 from rest_framework.views import APIView
 
@@ -80,6 +81,15 @@ def _visible(request, public_id) -> WorkOrder:
     return wo
 
 
+def _managed(request, public_id, *, action: str) -> WorkOrder:
+    """The work order if the person manages it: 404 when they cannot see it, 403 when they may only look."""
+    _visible(request, public_id)
+    wo = work_orders_managed_by(user=request.user).filter(public_id=public_id).first()
+    if wo is None:
+        raise PermissionDenied(f"only a supervisor of the organisation may {action}")
+    return wo
+
+
 class WorkOrderDetail(APIView):
     @extend_schema(responses={200: s.WorkOrderOut, **ERRORS}, summary="One work order with its tasks")
     def get(self, request, public_id):
@@ -93,10 +103,7 @@ class WorkOrderAssign(APIView):
         summary="Assign or reassign to a technician",
     )
     def post(self, request, public_id):
-        _visible(request, public_id)
-        wo = work_orders_managed_by(user=request.user).filter(public_id=public_id).first()
-        if wo is None:
-            return Response({"detail": "only a supervisor of the organisation may assign"}, status=403)
+        wo = _managed(request, public_id, action="assign")
         data = s.AssignIn(data=request.data)
         data.is_valid(raise_exception=True)
         assignee = User.objects.filter(username=data.validated_data["assignee"]).first()
@@ -126,10 +133,7 @@ class WorkOrderSchedule(APIView):
         ),
     )
     def post(self, request, public_id):
-        _visible(request, public_id)
-        wo = work_orders_managed_by(user=request.user).filter(public_id=public_id).first()
-        if wo is None:
-            return Response({"detail": "only a supervisor of the organisation may plan work"}, status=403)
+        wo = _managed(request, public_id, action="plan work")
         data = s.ScheduleIn(data=request.data)
         data.is_valid(raise_exception=True)
         try:
@@ -179,10 +183,7 @@ class WorkOrderApprove(APIView):
         summary="Approve proposed corrective work",
     )
     def post(self, request, public_id):
-        _visible(request, public_id)
-        wo = work_orders_managed_by(user=request.user).filter(public_id=public_id).first()
-        if wo is None:
-            return Response({"detail": "only a supervisor of the organisation may approve"}, status=403)
+        wo = _managed(request, public_id, action="approve")
         data = s.VersionIn(data=request.data)
         data.is_valid(raise_exception=True)
         try:
