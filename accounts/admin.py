@@ -48,3 +48,11 @@ class AuditEventAdmin(admin.ModelAdmin):
 
     def has_delete_permission(self, request, obj=None):
         return False
+
+
+@admin.register(SiteGrant)
+class SiteGrantAdmin(admin.ModelAdmin):
+    list_display = ["user", "site", "granted_at"]
+    list_filter = ["site"]
+    autocomplete_fields = ["user", "site"]
+    search_fields = ["user__username", "site__name"]

@@ -73,3 +73,18 @@ class WorkOrderAdmin(admin.ModelAdmin):
 class CalendarFeedAdmin(admin.ModelAdmin):
     list_display = ["user", "created_at", "revoked_at"]
     readonly_fields = ["token"]
+
+
+@admin.register(WorkOrderTask)
+class WorkOrderTaskAdmin(admin.ModelAdmin):
+    """Task occurrences are written by the engine only; the admin shows them."""
+
+    list_display = ["task_code", "ahu", "component", "due_date", "completed_at", "work_order"]
+    list_filter = ["task_code"]
+    search_fields = ["task_code", "ahu__tag", "occurrence_key"]
+
+    def has_add_permission(self, request, obj=None):
+        return False
+
+    def has_change_permission(self, request, obj=None):
+        return False
