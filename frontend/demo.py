@@ -12,15 +12,18 @@ from django.db import transaction
 from django.utils import timezone
 
 from accounts.models import Membership, Role
+from engineering.freeze import daily_values_from_normals
 from inspections.demo import demo_history_load
 from inventory.demo import demo_registry_load
 from scheduling.demo import demo_schedule_load
 from scheduling.models import WorkOrder
-from scheduling.services import work_order_assign
+from scheduling.services import outdoor_temperatures_store, work_order_assign
+from scheduling.weather import DailyTemperature
 
 # Open work due within this many days is handed to the demo technicians, so a
 # technician who signs in sees a day's round at once.
 ASSIGN_AHEAD_DAYS = 10
+MEASURED_DAYS, FORECAST_DAYS = 30, 14
 
 
 def demo_load(*, today: dt.date | None = None) -> dict[str, Any]:
@@ -32,9 +35,31 @@ def demo_load(*, today: dt.date | None = None) -> dict[str, Any]:
         if not organisation.sites.exists():
             continue
         summary["history"][organisation.slug] = demo_history_load(organisation=organisation, today=today)
+        for site in organisation.sites.all():
+            _outdoor_temperatures(site=site, today=today)
         summary["generated"][organisation.slug] = demo_schedule_load(organisation=organisation, today=today)
         summary["assigned"] += _assign_upcoming(organisation=organisation, today=today)
     return summary
+
+
+def _outdoor_temperatures(*, site, today: dt.date) -> None:
+    """A month of invented measured days and two weeks of invented forecast around the site's normals.
+
+    The noise is seeded by site and date, so a rerun stores the same values (and changes nothing).
+    """
+    import random
+
+    start = today - dt.timedelta(days=MEASURED_DAYS)
+    lows = daily_values_from_normals(monthly_c=site.normals_min_c, start=start, days=MEASURED_DAYS + FORECAST_DAYS)
+    highs = daily_values_from_normals(monthly_c=site.normals_max_c, start=start, days=MEASURED_DAYS + FORECAST_DAYS)
+    measured, forecast = [], []
+    for (day, low), (_, high) in zip(lows, highs, strict=True):
+        rng = random.Random(f"{site.code}:{day.isoformat()}")
+        swing = rng.uniform(-3.0, 3.0)
+        entry = DailyTemperature(date=day, min_c=round(low + swing, 1), max_c=round(high + swing, 1))
+        (measured if day < today else forecast).append(entry)
+    outdoor_temperatures_store(site=site, days=measured, source="csv")
+    outdoor_temperatures_store(site=site, days=forecast, source="forecast")
 
 
 @transaction.atomic

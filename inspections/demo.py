@@ -21,6 +21,8 @@ from engineering.freeze import daily_minimums_from_normals, freeze_season_start
 from inventory.models import AHU
 from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
 from scheduling.services import task_library_install
+from scheduling.services.seasons import season_key
+from scheduling.targets import task_targets
 
 from .services.sync import inspection_submit
 
@@ -40,7 +42,14 @@ def _signature_png(name: str) -> str:
 
 
 def _work_order(
-    *, ahu: AHU, organisation, technician, due: dt.date, codes: list[str], targets: dict[str, list] | None = None
+    *,
+    ahu: AHU,
+    organisation,
+    technician,
+    due: dt.date,
+    codes: list[str],
+    targets: dict[str, list] | None = None,
+    keys: dict[str, str] | None = None,
 ) -> WorkOrder:
     title = f"Monthly service {due:%Y-%m}"
     wo = WorkOrder.objects.filter(ahu=ahu, title=title, due_date=due).first()
@@ -66,7 +75,7 @@ def _work_order(
             component=comp,
             component_key=comp.pk if comp else 0,
             due_date=due,
-            occurrence_key=f"demo:{due:%Y-%m}:{wo.public_id.hex[:8]}",
+            occurrence_key=(keys or {}).get(c) or f"demo:{due:%Y-%m}:{wo.public_id.hex[:8]}",
         )
         for c in codes
         if c in tasks
@@ -131,13 +140,18 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
         preheaters = list(ahu.components.filter(kind="electric_preheater").order_by("position", "id"))
         protected = bool(preheaters) or ahu.components.filter(kind="coil", specs__duty="preheat").exists()
         # Preheat and freeze protection are proven on the last visit before each freeze season.
-        freeze_visits = set()
+        # Filed under the engine's own season key, so the scheduler knows that season's check is done.
+        freeze_visits: dict[dt.date, str] = {}
+        freeze_targets = []
         if protected:
+            freeze_task = TaskDefinition.objects.get(organisation=None, code="preheater_freeze")
+            freeze_targets = task_targets(task=freeze_task, ahu=ahu, components=ahu.components.all())
             first = today - dt.timedelta(days=VISIT_DAYS * months)
             for start in _freeze_starts(site, first, today):
                 before = [today - dt.timedelta(days=VISIT_DAYS * m) for m in range(months, 0, -1)]
                 before = [d for d in before if start - dt.timedelta(days=VISIT_DAYS) <= d < start]
-                freeze_visits.update(before[-1:])
+                for d in before[-1:]:
+                    freeze_visits[d] = season_key(season="freeze", start=start, latitude=site.latitude)
         loading = {b.pk: rng.uniform(0.0, 0.3) for b in banks}
         rate = {b.pk: rng.uniform(0.00015, 0.00030) for b in banks}  # fraction of span per run-hour
         hours = 5_000.0 + 1_000 * unit_no
@@ -160,7 +174,11 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                 technician=tech,
                 due=due,
                 codes=codes,
-                targets={"filter_replace": [b for b in banks if b.pk in change_due]},
+                targets={
+                    "filter_replace": [b for b in banks if b.pk in change_due],
+                    "preheater_freeze": freeze_targets or [None],
+                },
+                keys={"preheater_freeze": freeze_visits[due]} if due in freeze_visits else None,
             )
             finished = dt.datetime.combine(due, dt.time(9, 30), tzinfo=dt.UTC) + dt.timedelta(minutes=7 * unit_no)
             readings = [{"item": "visit.run_hours", "component": None, "value": round(hours)}]

@@ -47,14 +47,15 @@ Freeze-protection readiness before the coming season
     For each unit with an electric preheater or a preheat coil. The coming
     season starts on the site's ``freeze_season_start`` (computed by the
     scheduler). While a season is running — today is after the same day a year
-    before that start and on or before the last day at the threshold in the
-    365 days before it — readiness is judged for the running season instead,
+    before that start and on or before that season's last cold day by the
+    normals — readiness is judged for the running season instead,
     so in midwinter the figure says whether this winter's protection was
-    proven before the cold came. A season ended on the last day, in the 365 days before
-    that start, whose daily minimum from the site's monthly normals
-    (``engineering.freeze.daily_minimums_from_normals``) is at or below the
-    site's preheat threshold; without such a day the window opens 365 days
-    before the start. A unit is
+    proven before the cold came. The season before ended on its last cold day
+    (daily minimum from the site's monthly normals,
+    ``engineering.freeze.daily_minimums_from_normals``, at or below the preheat
+    threshold), found by walking back from the start past the days the normals
+    already call cold and then past the warm season; without one the window
+    opens 365 days before the start. A unit is
 
     - **ready**: ``preheater_freeze`` completed after the last season's end and
       on or before the season start;
@@ -180,11 +181,22 @@ def age_bucket(days: int) -> str:
 
 
 def last_season_end(*, site: Site, season_start: date) -> date:
-    """Last day at or below the preheat threshold in the 365 days before ``season_start`` (normals)."""
+    """The last cold day of the season before ``season_start``, by the site's normals.
+
+    Walking back from the start: first past the days the normals already call cold (a
+    measured or forecast start can come later than the normals' own), then past the warm
+    season; the cold day reached is the last one of the season before. Without one the
+    window opens 365 days before the start.
+    """
     window_start = season_start - timedelta(days=365)
     series = daily_minimums_from_normals(monthly_min_c=site.normals_min_c, start=window_start, days=365)
-    cold = [d for d, t in series if d < season_start and t <= site.preheat_threshold_c]
-    return max(cold) if cold else window_start
+    cold = [t <= site.preheat_threshold_c for _, t in series]
+    i = len(series) - 1
+    while i >= 0 and cold[i]:
+        i -= 1
+    while i >= 0 and not cold[i]:
+        i -= 1
+    return series[i][0] if i >= 0 else window_start
 
 
 def freeze_status(

@@ -125,3 +125,12 @@ def test_last_season_end_from_normals():
     assert last_season_end(site=Site(preheat_threshold_c=5.0), season_start=D("2025-10-25")) == D("2025-04-18")
     mild = Site(preheat_threshold_c=5.0, normals_min_c=[10.0] * 12)
     assert last_season_end(site=mild, season_start=D("2025-10-25")) == D("2024-10-25")  # no cold day: a year back
+
+
+def test_last_season_end_when_the_measured_start_comes_after_the_normals():
+    """A measured start of 20 Nov, later than the normals' own autumn crossing (the default normals are below
+    5 °C from late October): the season before still ended on 18 April, not on the day before the start."""
+    from inventory.models import Site
+    from reports.compliance import last_season_end
+
+    assert last_season_end(site=Site(preheat_threshold_c=5.0), season_start=D("2025-11-20")) == D("2025-04-18")
