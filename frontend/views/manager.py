@@ -101,6 +101,7 @@ def site_detail(request, pk: int):
             "site": site,
             "charts": charts,
             "temp_chart": temp_chart,
+            "season_started": bool(site.freeze_season_start and site.freeze_season_start <= timezone.localdate()),
             "f": figures,
             "share": percent(figures.total.on_time_share),
             "category_rows": [(c, percent(c.on_time_share)) for c in figures.categories],
