@@ -7,7 +7,8 @@ import functools
 import zoneinfo
 from dataclasses import dataclass, field
 
-from django.db.models import Count, Prefetch, Q, QuerySet, Sum
+from django.db.models import Case, CharField, Count, F, Prefetch, Q, QuerySet, Sum, Value, When, Window
+from django.db.models.functions import RowNumber
 from django.utils import timezone
 
 from accounts.models import Membership, Role
@@ -79,30 +80,34 @@ def _board_rows(*, organisation, week_start: dt.date, today: dt.date) -> QuerySe
 def board_for(*, organisation, week_start: dt.date, today: dt.date | None = None) -> Board:
     """The supervisor's week: unassigned work due that week, everything overdue, and what is assigned that week."""
     today = today or timezone.localdate()
-    week_end = week_start + dt.timedelta(days=7)
     rows = (
         _board_rows(organisation=organisation, week_start=week_start, today=today)
         .select_related("ahu__building__site", "assignee", "component")
         .prefetch_related(Prefetch("tasks", queryset=WorkOrderTask.objects.select_related("task", "component")))
     )
     board = Board(week_start=week_start)
-    for wo in rows:
-        name = _board_section_of(wo.due_date, wo.overdue_on, wo.assignee_id, week_start, week_end, today)
-        if name:
-            getattr(board, name).append(wo)
+    for wo in rows.annotate(section=_board_section(week_start=week_start, today=today)):
+        if wo.section:
+            getattr(board, wo.section).append(wo)
     return board
 
 
-def _board_section_of(
-    due_date: dt.date, overdue_on, assignee_id, week_start: dt.date, week_end: dt.date, today: dt.date
-) -> str | None:
-    """The board's one rule: overdue once past due and past the grace window; else due (unassigned) or
-    assigned if due within the week; else on no section."""
-    if (overdue_on or due_date) <= today and due_date < today:
-        return "overdue"
-    if week_start <= due_date < week_end:
-        return "assigned" if assignee_id else "due"
-    return None
+def _board_section(*, week_start: dt.date, today: dt.date) -> Case:
+    """The board's one rule, as SQL so counts and pages come from the database: overdue once past due
+    and past the grace window (``overdue_on``; no grace window set means the due date); else due
+    (unassigned) or assigned if due within the week; else NULL (on no section).
+
+    Both the board page and :func:`board_for` (the board screen) annotate with this; there is no
+    other copy of the rule."""
+    week_end = week_start + dt.timedelta(days=7)
+    in_week = Q(due_date__gte=week_start, due_date__lt=week_end)
+    return Case(
+        When(Q(due_date__lt=today) & (Q(overdue_on__isnull=True) | Q(overdue_on__lte=today)), then=Value("overdue")),
+        When(in_week & Q(assignee__isnull=False), then=Value("assigned")),
+        When(in_week, then=Value("due")),
+        default=Value(None),
+        output_field=CharField(),
+    )
 
 
 def _person(user) -> dict | None:
@@ -143,6 +148,20 @@ _BOARD_COLUMNS = (
 )
 
 
+def _board_sorted(*, organisation, week_start: dt.date, today: dt.date) -> QuerySet[WorkOrder]:
+    """The board's rows with their ``section``, rows on no section left out.
+
+    A row on a section is due before the week ends or before today (see :func:`_board_section`), so
+    that bound changes nothing but lets the (organisation, state, due_date) index skip later work."""
+    week_end = week_start + dt.timedelta(days=7)
+    return (
+        _board_rows(organisation=organisation, week_start=week_start, today=today)
+        .filter(due_date__lt=max(week_end, today))
+        .annotate(section=_board_section(week_start=week_start, today=today))
+        .exclude(section=None)
+    )
+
+
 def board_page_for(
     *,
     organisation,
@@ -155,39 +174,52 @@ def board_page_for(
     """The board as plain dicts: totals per section and per day of the week for all of it, and the
     rows ``offset`` to ``offset + limit`` of each section (or of ``section`` alone), due date first.
 
-    Two queries: four columns of every row on the board (to sort them into sections and count), then
-    the shown rows by primary key with their unit, site and assignee; no model instances."""
+    Two queries, both sorting rows into sections with :func:`_board_section` in the database: one
+    grouped read of the counts, then the shown rows with their unit, site and assignee (numbered
+    within their section, so one query pages all three); no model instances."""
     today = today or timezone.localdate()
-    week_end = week_start + dt.timedelta(days=7)
-    rows = (
-        _board_rows(organisation=organisation, week_start=week_start, today=today)
-        .order_by("due_date", "id")
-        .values_list("id", "due_date", "overdue_on", "assignee_id")
-    )
     days = [week_start + dt.timedelta(days=k) for k in range(7)]
+    rows = _board_sorted(organisation=organisation, week_start=week_start, today=today)
+    # One grouped read: overdue rows in one group whatever their due date, the others per section and day.
+    groups = (
+        rows.annotate(day=Case(When(section="overdue", then=Value(None)), default=F("due_date")))
+        .order_by()
+        .values_list("section", "day")
+        .annotate(n=Count("id"))
+    )
+    totals = dict.fromkeys(BOARD_SECTIONS, 0)
     per_day = {d: {"date": d, "due": 0, "assigned": 0} for d in days}
-    ids: dict[str, list[int]] = {name: [] for name in BOARD_SECTIONS}
-    for pk, due_date, overdue_on, assignee_id in rows:
-        name = _board_section_of(due_date, overdue_on, assignee_id, week_start, week_end, today)
-        if name is None:
-            continue
-        ids[name].append(pk)
-        if name != "overdue":
-            per_day[due_date][name] += 1
-    shown = {name: ids[name][offset : offset + limit] if name == section or not section else [] for name in ids}
-    wanted = [pk for page in shown.values() for pk in page]
-    found = {}
-    if wanted:
-        found = {r[0]: r for r in WorkOrder.objects.filter(pk__in=wanted).values_list(*_BOARD_COLUMNS)}
+    for name, day, n in groups:
+        totals[name] += n
+        if day is not None:
+            per_day[day][name] += n
+    wanted = [section] if section else list(BOARD_SECTIONS)
+    shown: dict[str, list[dict]] = {name: [] for name in BOARD_SECTIONS}
+    if limit and any(totals[name] > offset for name in wanted):
+        # Numbered within each section on the bare rows; only the shown ones are joined to unit, site, person.
+        place = Window(RowNumber(), partition_by=[F("section")], order_by=[F("due_date").asc(), F("id").asc()])
+        shown_ids = (
+            rows.filter(section__in=wanted)
+            .annotate(place=place)
+            .filter(place__gt=offset, place__lte=offset + limit)
+            .values("id")
+        )
+        page = (
+            WorkOrder.objects.filter(pk__in=shown_ids)
+            .annotate(section=_board_section(week_start=week_start, today=today))
+            .order_by("due_date", "id")
+            .values_list(*_BOARD_COLUMNS, "section")
+        )
+        for r in page:
+            shown[r[-1]].append(_board_item(r[:-1]))
     return {
         "week_start": week_start,
         "today": today,
         "limit": limit,
         "offset": offset,
-        "counts": {name: len(ids[name]) for name in BOARD_SECTIONS},
+        "counts": totals,
         "days": list(per_day.values()),
-        # A row gone between the two reads (deleted) is left out rather than shown half.
-        **{name: [_board_item(found[pk]) for pk in page if pk in found] for name, page in shown.items()},
+        **shown,
     }
 
 

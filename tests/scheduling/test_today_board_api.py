@@ -152,3 +152,59 @@ def test_an_unchanged_answer_is_a_304_and_a_change_is_seen(api_client, world, pa
     changed = api_client.get(path, HTTP_IF_NONE_MATCH=first["ETag"])
     assert changed.status_code == 200 and changed["ETag"] != first["ETag"]
     assert "Harbour Works Annex" in changed.content.decode()
+
+
+def _rule(wo, week_start: dt.date, today: dt.date) -> str | None:
+    """The board's rule as the product states it, written out in Python to check the SQL against."""
+    if wo.due_date < today and (wo.overdue_on is None or wo.overdue_on <= today):
+        return "overdue"
+    if week_start <= wo.due_date < week_start + dt.timedelta(days=7):
+        return "assigned" if wo.assignee_id else "due"
+    return None
+
+
+def test_board_counts_and_rows_follow_the_rule_on_mixed_work(library):
+    """Across due dates before, in and after the week, grace windows passed, ending today and still running,
+    and with and without an assignee, the counts, per-day counts and rows are the rule's, row for row."""
+    ahu = AHUFactory()
+    org = ahu.building.site.organisation
+    tech = make_technician(org)
+    made = []
+    for shift in range(-12, 12, 2):
+        due = TODAY + dt.timedelta(days=shift)
+        for grace in (None, 0, 2, 6, 12):
+            overdue_on = None if grace is None else due + dt.timedelta(days=grace)
+            for who in (None, tech):
+                state = WorkOrder.State.ASSIGNED if who else WorkOrder.State.PLANNED
+                made.append(
+                    WorkOrderFactory(
+                        organisation=org, ahu=ahu, due_date=due, overdue_on=overdue_on, assignee=who, state=state
+                    )
+                )
+    made.append(WorkOrderFactory(organisation=org, ahu=ahu, due_date=TODAY, state=WorkOrder.State.COMPLETED))
+    expected = {name: [] for name in ("overdue", "due", "assigned")}
+    for wo in sorted(made[:-1], key=lambda w: (w.due_date, w.pk)):
+        name = _rule(wo, MONDAY, TODAY)
+        if name:
+            expected[name].append(wo.public_id)
+    assert all(len(ids) > 3 for ids in expected.values())
+    in_grace = [wo for wo in made if wo.due_date < TODAY and wo.overdue_on and wo.overdue_on > TODAY]
+    assert any(wo.public_id in expected["due"] for wo in in_grace), "the data set holds late work within grace"
+    page = board_page_for(organisation=org, week_start=MONDAY, today=TODAY, limit=500)
+    assert page["counts"] == {name: len(ids) for name, ids in expected.items()}
+    for name, ids in expected.items():
+        assert [r["id"] for r in page[name]] == ids, name
+    by_id = {wo.public_id: wo for wo in made}
+    for day in page["days"]:
+        for name in ("due", "assigned"):
+            assert day[name] == sum(1 for i in expected[name] if by_id[i].due_date == day["date"]), (day, name)
+    board = board_for(organisation=org, week_start=MONDAY, today=TODAY)
+    assert {name: [wo.public_id for wo in getattr(board, name)] for name in expected} == expected
+    second = board_page_for(organisation=org, week_start=MONDAY, today=TODAY, limit=3, offset=3, section="due")
+    assert [r["id"] for r in second["due"]] == expected["due"][3:6] and second["overdue"] == []
+    for week in (MONDAY - dt.timedelta(days=7), MONDAY + dt.timedelta(days=7)):
+        other = board_page_for(organisation=org, week_start=week, today=TODAY, limit=500)
+        board = board_for(organisation=org, week_start=week, today=TODAY)
+        for name in expected:
+            assert [r["id"] for r in other[name]] == [wo.public_id for wo in getattr(board, name)], (week, name)
+            assert other["counts"][name] == len(getattr(board, name))
