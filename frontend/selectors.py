@@ -112,7 +112,7 @@ def filter_trends(*, site: Site, limit: int = 6) -> list[dict]:
             value_si__isnull=False,
             item__quantity="pressure",
         )
-        .select_related("component__ahu", "inspection")
+        .select_related("component__ahu__building", "inspection")
         .order_by("component_id", "inspection__finished_at")
     )
     by_comp: dict[int, dict] = {}

@@ -12,6 +12,7 @@ from django.utils import timezone
 from django.views.decorators.http import require_GET
 
 from engineering.units import to_display, unit_label
+from inspections.selectors import reason_for
 from reports.documents.common import percent, shown
 
 from .. import selectors
@@ -66,13 +67,14 @@ def site_detail(request, pk: int):
             forecast = [(dt.date.fromisoformat(change), p(final))]
         charts.append(
             {
-                "title": f"{comp.ahu.tag} {comp.name}: pressure drop",
+                "title": f"{comp.ahu.tag} ({comp.ahu.building.name}) {comp.name}: pressure drop",
+                "reason": reason_for(evaluation=ev, unit_system=system) if ev else "",
                 "svg": line_chart(
                     title=f"{comp.ahu.tag} {comp.name} pressure drop",
                     unit=p_unit,
                     series=[(d, p(v)) for d, v in trend["points"]],
                     forecast=forecast,
-                    hline=(p(final), f"final {p(final):.2f} {p_unit}") if final else None,
+                    hline=(p(final), f"final {shown(final, 'pressure', system)}") if final else None,
                 ),
                 "evaluation": ev,
             }
