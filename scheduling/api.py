@@ -48,8 +48,18 @@ ERRORS = {400: s.SchedulingErrorOut, 403: s.SchedulingErrorOut, 404: s.Schedulin
 SELF_SERVICE_STATES = {WorkOrder.State.IN_PROGRESS, WorkOrder.State.COMPLETED}
 
 
-def _conflict(exc: WorkOrderConflict) -> Response:
-    return Response({"detail": str(exc), "current_version": exc.current_version}, status=status.HTTP_409_CONFLICT)
+class WorkOrderChangeView(APIView):
+    """A view that changes a work order: a stale version answers 409 with the current one.
+
+    DRF's own exception hook, so each view just calls its service.
+    """
+
+    def handle_exception(self, exc):
+        if isinstance(exc, WorkOrderConflict):
+            return Response(
+                {"detail": str(exc), "current_version": exc.current_version}, status=status.HTTP_409_CONFLICT
+            )
+        return super().handle_exception(exc)
 
 
 def _organisation_for(user, *, managing: bool = False):
@@ -96,7 +106,7 @@ class WorkOrderDetail(APIView):
         return Response(s.WorkOrderOut(_visible(request, public_id)).data)
 
 
-class WorkOrderAssign(APIView):
+class WorkOrderAssign(WorkOrderChangeView):
     @extend_schema(
         request=s.AssignIn,
         responses={200: s.WorkOrderOut, 409: s.ConflictOut, **ERRORS},
@@ -109,20 +119,17 @@ class WorkOrderAssign(APIView):
         assignee = User.objects.filter(username=data.validated_data["assignee"]).first()
         if assignee is None:
             raise ValidationError({"assignee": [f"assignee={data.validated_data['assignee']!r} is not a user"]})
-        try:
-            # One transaction: a refused day leaves the assignment unsaved too.
-            with transaction.atomic():
-                work_order_assign(
-                    work_order=wo, assignee=assignee, by=request.user, expected_version=data.validated_data["version"]
-                )
-                if "scheduled_for" in data.validated_data:
-                    work_order_schedule(work_order=wo, day=data.validated_data["scheduled_for"], by=request.user)
-        except WorkOrderConflict as exc:
-            return _conflict(exc)
+        # One transaction: a refused day leaves the assignment unsaved too.
+        with transaction.atomic():
+            work_order_assign(
+                work_order=wo, assignee=assignee, by=request.user, expected_version=data.validated_data["version"]
+            )
+            if "scheduled_for" in data.validated_data:
+                work_order_schedule(work_order=wo, day=data.validated_data["scheduled_for"], by=request.user)
         return Response(s.WorkOrderOut(_visible(request, public_id)).data)
 
 
-class WorkOrderSchedule(APIView):
+class WorkOrderSchedule(WorkOrderChangeView):
     @extend_schema(
         request=s.ScheduleIn,
         responses={200: s.WorkOrderOut, 409: s.ConflictOut, **ERRORS},
@@ -136,19 +143,16 @@ class WorkOrderSchedule(APIView):
         wo = _managed(request, public_id, action="plan work")
         data = s.ScheduleIn(data=request.data)
         data.is_valid(raise_exception=True)
-        try:
-            work_order_schedule(
-                work_order=wo,
-                day=data.validated_data["scheduled_for"],
-                by=request.user,
-                expected_version=data.validated_data["version"],
-            )
-        except WorkOrderConflict as exc:
-            return _conflict(exc)
+        work_order_schedule(
+            work_order=wo,
+            day=data.validated_data["scheduled_for"],
+            by=request.user,
+            expected_version=data.validated_data["version"],
+        )
         return Response(s.WorkOrderOut(_visible(request, public_id)).data)
 
 
-class WorkOrderTransition(APIView):
+class WorkOrderTransition(WorkOrderChangeView):
     @extend_schema(
         request=s.TransitionIn,
         responses={200: s.WorkOrderOut, 409: s.ConflictOut, **ERRORS},
@@ -163,20 +167,17 @@ class WorkOrderTransition(APIView):
         own = wo.assignee_id == request.user.pk and to_state in SELF_SERVICE_STATES
         if not (managed or own):
             return Response({"detail": f"you may not move this work order to {to_state}"}, status=403)
-        try:
-            work_order_transition(
-                work_order=wo,
-                to_state=to_state,
-                by=request.user,
-                expected_version=data.validated_data["version"],
-                reason=data.validated_data["reason"],
-            )
-        except WorkOrderConflict as exc:
-            return _conflict(exc)
+        work_order_transition(
+            work_order=wo,
+            to_state=to_state,
+            by=request.user,
+            expected_version=data.validated_data["version"],
+            reason=data.validated_data["reason"],
+        )
         return Response(s.WorkOrderOut(_visible(request, public_id)).data)
 
 
-class WorkOrderApprove(APIView):
+class WorkOrderApprove(WorkOrderChangeView):
     @extend_schema(
         request=s.VersionIn,
         responses={200: s.WorkOrderOut, 409: s.ConflictOut, **ERRORS},
@@ -186,12 +187,7 @@ class WorkOrderApprove(APIView):
         wo = _managed(request, public_id, action="approve")
         data = s.VersionIn(data=request.data)
         data.is_valid(raise_exception=True)
-        try:
-            corrective_work_order_approve(
-                work_order=wo, by=request.user, expected_version=data.validated_data["version"]
-            )
-        except WorkOrderConflict as exc:
-            return _conflict(exc)
+        corrective_work_order_approve(work_order=wo, by=request.user, expected_version=data.validated_data["version"])
         return Response(s.WorkOrderOut(_visible(request, public_id)).data)
 
 
