@@ -135,7 +135,8 @@ def _inspections(wo: WorkOrder) -> list[Inspection]:
             Prefetch("evaluations", queryset=Evaluation.objects.select_related("component").order_by("pk")),
             Prefetch(
                 "findings",
-                queryset=Finding.objects.select_related("component", "corrective_work_order").order_by(
+                # evaluation: each finding's reason is rendered from its evaluation's parts.
+                queryset=Finding.objects.select_related("component", "corrective_work_order", "evaluation").order_by(
                     "opened_at", "pk"
                 ),
             ),
