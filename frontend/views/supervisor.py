@@ -297,9 +297,7 @@ def findings(request):
     groups = {}
     for f in rows:
         f.age = f.age_days(now=now)
-        f.reason_display = (
-            reason_for(evaluation=f, unit_system=request.user.unit_system) if f.evaluation_id else f.reason
-        )
+        f.reason_display = reason_for(evaluation=f, unit_system=request.user.unit_system)
         groups.setdefault(f.get_severity_display(), []).append(f)
     return render(request, "frontend/supervisor/findings.html", {"groups": groups})
 

@@ -237,9 +237,7 @@ def build(*, report) -> Built:
 def _with_reasons(findings: list, system: str) -> list:
     """Findings with their reason rendered in the reader's units (``reason_display``)."""
     for finding in findings:
-        finding.reason_display = (
-            reason_for(evaluation=finding, unit_system=system) if finding.evaluation_id else finding.reason
-        )
+        finding.reason_display = reason_for(evaluation=finding, unit_system=system)
     return findings
 
 

@@ -96,9 +96,7 @@ def build(*, report) -> Built:
         .order_by("opened_at", "pk")
     )
     for finding in findings:
-        finding.reason_display = (
-            reason_for(evaluation=finding, unit_system=system) if finding.evaluation_id else finding.reason
-        )
+        finding.reason_display = reason_for(evaluation=finding, unit_system=system)
     reading_rows = [
         {
             "at": insp.finished_at,
