@@ -383,18 +383,19 @@ def _filter_rows(*, units: list[AHU], as_of: datetime) -> list[dict]:
     return out
 
 
-def _season_that_matters(*, site: Site, today: date) -> date | None:
-    """The running freeze season's start while it runs, else the coming one (module docstring)."""
+def _season_that_matters(*, site: Site, today: date) -> tuple[date | None, date | None]:
+    """The season to judge (the running one while it runs, else the coming one) and the day its window opens."""
     coming = site.freeze_season_start
     if coming is None:
-        return None
+        return None, None
+    coming_opens = last_season_end(site=site, season_start=coming)
     try:
         running = coming.replace(year=coming.year - 1)
     except ValueError:  # 29 February
         running = coming.replace(year=coming.year - 1, day=28)
-    if running <= today <= last_season_end(site=site, season_start=coming):
-        return running
-    return coming
+    if running <= today <= coming_opens:
+        return running, last_season_end(site=site, season_start=running)
+    return coming, coming_opens
 
 
 def _freeze_rows(*, sites, units, as_of, today_of) -> tuple[list[dict], dict[str, int]]:
@@ -413,8 +414,7 @@ def _freeze_rows(*, sites, units, as_of, today_of) -> tuple[list[dict], dict[str
             completions[ahu_id].append(at)
     window = {}
     for site in sites:
-        start = _season_that_matters(site=site, today=today_of[site.pk])
-        window[site.pk] = (start, last_season_end(site=site, season_start=start) if start else None)
+        window[site.pk] = _season_that_matters(site=site, today=today_of[site.pk])
     rows, counts = [], dict.fromkeys(FREEZE_LABELS, 0)
     for unit in units:
         if unit.pk not in protected:
