@@ -17,7 +17,8 @@ from inspections.demo import demo_history_load
 from inventory.demo import demo_registry_load
 from scheduling.demo import demo_schedule_load
 from scheduling.models import WorkOrder
-from scheduling.services import outdoor_temperatures_store, work_order_assign
+from scheduling.selectors import today_visits_for
+from scheduling.services import outdoor_temperatures_store, work_order_assign, work_order_schedule
 from scheduling.weather import DailyTemperature
 
 # Open work due within this many days is handed to the demo technicians, so a
@@ -93,4 +94,16 @@ def _assign_upcoming(*, organisation, today: dt.date) -> int:
     for wo in open_orders:
         work_order_assign(work_order=wo, assignee=owner[wo.ahu.building.site_id], by=supervisor.user)
         count += 1
+    # A technician with nothing due yet gets their soonest visit planned for today, so every demo
+    # technician signs in to a round.
+    for tech in technicians:
+        if today_visits_for(technician=tech, day=today):
+            continue
+        soonest = (
+            WorkOrder.objects.filter(assignee=tech, state=WorkOrder.State.ASSIGNED, due_date__gte=today)
+            .order_by("due_date", "id")
+            .first()
+        )
+        if soonest is not None:
+            work_order_schedule(work_order=soonest, day=today, by=supervisor.user)
     return count
