@@ -99,3 +99,17 @@ class AuditEvent(models.Model):
 
     def __str__(self) -> str:
         return f"{self.at:%Y-%m-%d %H:%M} {self.actor} {self.action} {self.object_type}#{self.object_id}"
+
+
+class ChangeStamp(models.Model):
+    """A counter that moves after every committed write to the project's data (see ``accounts.changes``).
+
+    One row. ``epoch`` is drawn when the row is first written, so a stamp read after the table was
+    emptied (a test flush, a restore into a fresh database) never equals one read before it.
+    """
+
+    value = models.BigIntegerField(default=0)
+    epoch = models.CharField(max_length=32)
+
+    def __str__(self) -> str:
+        return f"change stamp {self.epoch}:{self.value}"

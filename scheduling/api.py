@@ -19,6 +19,7 @@ from rest_framework.exceptions import PermissionDenied
 from rest_framework.response import Response
 from rest_framework.views import APIView
 
+from accounts.answers import json_answer
 from accounts.models import Membership, Role, User
 from inventory.selectors import ahus_visible_to, sites_visible_to
 
@@ -208,8 +209,22 @@ CONDITIONAL = [
 ]
 
 
-# The ETag is a hash of the answer itself (ConditionalGetMiddleware's), so it is right whatever changed
-# (a work order, a site's name, a task's estimate); it saves the phone the transfer, not the server the read.
+# Both polled reads are whole answers from accounts.answers: built once per change of the data, then served
+# from the worker's memory (a token client's repeat costs one read of the change stamp, before DRF is entered).
+# The ETag is a hash of the answer's bytes, so it is right whatever changed (a work order, a site's name, a
+# task's estimate).
+def today_params(query) -> tuple[dt.date, tuple[float, float] | None]:
+    """(day, start) of a today request; the answer depends on nothing else but the caller."""
+    day = _date_param(query, "day") or timezone.localdate()
+    start = None
+    if query.get("lat") and query.get("lon"):
+        try:
+            start = (float(query["lat"]), float(query["lon"]))
+        except ValueError:
+            raise ValidationError({"lat": ["lat and lon must be decimal degrees"]}) from None
+    return day, start
+
+
 @method_decorator(conditional_page, name="dispatch")
 class TodayVisits(APIView):
     @extend_schema(
@@ -223,18 +238,17 @@ class TodayVisits(APIView):
         summary="The caller's visits for the day, in a suggested order",
     )
     def get(self, request):
-        day = _date_param(request, "day") or timezone.localdate()
-        start = None
-        if request.query_params.get("lat") and request.query_params.get("lon"):
-            try:
-                start = (float(request.query_params["lat"]), float(request.query_params["lon"]))
-            except ValueError:
-                raise ValidationError({"lat": ["lat and lon must be decimal degrees"]}) from None
-        return _revalidated(Response(today_visit_rows_for(technician=request.user, day=day, start=start)))
+        day, start = key = today_params(request.query_params)
+
+        def build():
+            return today_visit_rows_for(technician=request.user, day=day, start=start)
+
+        answer = json_answer(request, view="today", key=key, build=build)
+        return _revalidated(answer or Response(build()))
 
 
-def _date_param(request, name: str) -> dt.date | None:
-    raw = request.query_params.get(name)
+def _date_param(query, name: str) -> dt.date | None:
+    raw = query.get(name)
     if not raw:
         return None
     try:
@@ -243,8 +257,8 @@ def _date_param(request, name: str) -> dt.date | None:
         raise ValidationError({name: [f"{name}={raw!r} is not a date as YYYY-MM-DD"]}) from None
 
 
-def _int_param(request, name: str, *, default: int, low: int, high: int) -> int:
-    raw = request.query_params.get(name)
+def _int_param(query, name: str, *, default: int, low: int, high: int) -> int:
+    raw = query.get(name)
     if raw in (None, ""):
         return default
     try:
@@ -254,6 +268,20 @@ def _int_param(request, name: str, *, default: int, low: int, high: int) -> int:
     if value is None or not low <= value <= high:
         raise ValidationError({name: [f"{name}={raw!r} is not a whole number from {low} to {high}"]})
     return value
+
+
+def board_params(query) -> tuple[dt.date, dt.date, int, int, str | None]:
+    """(week start, today, limit, offset, section) of a board request; with the caller, all it depends on."""
+    today = timezone.localdate()
+    week = _date_param(query, "week") or today
+    week = week - dt.timedelta(days=week.weekday())
+    limit = _int_param(query, "limit", default=100, low=0, high=BOARD_LIMIT_MAX)
+    offset = _int_param(query, "offset", default=0, low=0, high=10**6)
+    section = query.get("section") or None
+    if section is not None and section not in BOARD_SECTIONS:
+        allowed = ", ".join(BOARD_SECTIONS)
+        raise ValidationError({"section": [f"section={section!r} is not one of {allowed}"]})
+    return week, today, limit, offset, section
 
 
 @method_decorator(conditional_page, name="dispatch")
@@ -274,19 +302,18 @@ class Board(APIView):
         summary="Supervisor's board: due, overdue and assigned for a week, a page per section with whole counts",
     )
     def get(self, request):
-        org = _organisation_for(request.user, managing=True)
-        if org is None:
-            return Response({"detail": "the board is for supervisors"}, status=403)
-        week = _date_param(request, "week") or timezone.localdate()
-        week = week - dt.timedelta(days=week.weekday())
-        limit = _int_param(request, "limit", default=100, low=0, high=BOARD_LIMIT_MAX)
-        offset = _int_param(request, "offset", default=0, low=0, high=10**6)
-        section = request.query_params.get("section") or None
-        if section is not None and section not in BOARD_SECTIONS:
-            allowed = ", ".join(BOARD_SECTIONS)
-            raise ValidationError({"section": [f"section={section!r} is not one of {allowed}"]})
-        board = board_page_for(organisation=org, week_start=week, limit=limit, offset=offset, section=section)
-        return _revalidated(Response(board))
+        week, today, limit, offset, section = key = board_params(request.query_params)
+
+        def build():
+            org = _organisation_for(request.user, managing=True)
+            if org is None:
+                raise PermissionDenied("the board is for supervisors")
+            return board_page_for(
+                organisation=org, week_start=week, today=today, limit=limit, offset=offset, section=section
+            )
+
+        answer = json_answer(request, view="board", key=key, build=build)
+        return _revalidated(answer or Response(build()))
 
 
 class TaskList(APIView):

@@ -1,5 +1,7 @@
 from django.urls import path
 
+from accounts.answers import answer_fast_path
+
 from . import api
 
 app_name = "scheduling_api"
@@ -10,8 +12,12 @@ urlpatterns = [
     path("work-orders/<uuid:public_id>/schedule/", api.WorkOrderSchedule.as_view(), name="work-order-schedule"),
     path("work-orders/<uuid:public_id>/transition/", api.WorkOrderTransition.as_view(), name="work-order-transition"),
     path("work-orders/<uuid:public_id>/approve/", api.WorkOrderApprove.as_view(), name="work-order-approve"),
-    path("today/", api.TodayVisits.as_view(), name="today"),
-    path("board/", api.Board.as_view(), name="board"),
+    path(
+        "today/",
+        answer_fast_path(api.TodayVisits.as_view(), view="today", key_of=api.today_params),
+        name="today",
+    ),
+    path("board/", answer_fast_path(api.Board.as_view(), view="board", key_of=api.board_params), name="board"),
     path("tasks/", api.TaskList.as_view(), name="tasks"),
     path("tasks/<slug:code>/", api.TaskOverride.as_view(), name="task"),
     path("meter-readings/", api.MeterReadings.as_view(), name="meter-readings"),

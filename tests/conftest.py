@@ -83,3 +83,12 @@ def api_client():
     from rest_framework.test import APIClient
 
     return APIClient()
+
+
+@pytest.fixture(autouse=True)
+def _answers_forgotten():
+    """Each test starts with no kept answers (they live in the process, across tests)."""
+    from accounts.answers import answer_cache_clear
+
+    answer_cache_clear()
+    yield

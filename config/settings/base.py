@@ -151,7 +151,7 @@ DATA_UPLOAD_MAX_MEMORY_SIZE = 12 * 1024 * 1024
 REST_FRAMEWORK = {
     "DEFAULT_AUTHENTICATION_CLASSES": [
         # Token first, so an unauthenticated API call gets 401 with a WWW-Authenticate header.
-        "rest_framework.authentication.TokenAuthentication",
+        "accounts.answers.StampedTokenAuthentication",
         "rest_framework.authentication.SessionAuthentication",
     ],
     "DEFAULT_PERMISSION_CLASSES": ["rest_framework.permissions.IsAuthenticated"],
@@ -224,6 +224,10 @@ PLENUM_PHOTO_MAX_BYTES = int(os.environ.get("PLENUM_PHOTO_MAX_BYTES", str(8 * 10
 PLENUM_PHOTO_MAX_PIXELS = int(os.environ.get("PLENUM_PHOTO_MAX_PIXELS", str(40_000_000)))
 PLENUM_FORECAST_URL = os.environ.get("PLENUM_FORECAST_URL", "")
 PLENUM_PUBLIC_URL = os.environ.get("PLENUM_PUBLIC_URL", "http://127.0.0.1:8000")
+# Polled API answers (today, board) kept per worker until any write moves the change stamp, and never
+# longer than this (the limit covers writes made outside Django); 0 turns the cache off. accounts/answers.py
+PLENUM_ANSWER_CACHE_SECONDS = int(os.environ.get("PLENUM_ANSWER_CACHE_SECONDS", "60"))
+PLENUM_ANSWER_CACHE_BYTES = int(os.environ.get("PLENUM_ANSWER_CACHE_BYTES", str(32 * 1024 * 1024)))
 
 LOGGING = {
     "version": 1,
