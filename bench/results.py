@@ -121,6 +121,15 @@ def _work_orders(sizes: list[dict]) -> list[str]:
     return out + (["", f"First run: {growth}"] if growth else [])
 
 
+LOAD_ROWS = (
+    ("today", "today, kept", True),
+    ("today_after_change", "today, first pass after a change", False),
+    ("board", "board, kept", True),
+    ("board_after_change", "board, first pass after a change", False),
+    ("baseline", "baseline", False),
+)
+
+
 def _load(sizes: list[dict], doc: dict) -> list[str]:
     out = [
         "## Technician's today and supervisor's board under concurrent clients",
@@ -129,6 +138,12 @@ def _load(sizes: list[dict], doc: dict) -> list[str]:
         "number of GETs with a token. Baseline: a bare Django JSON view in the same server "
         "(`/bench/baseline/`, no database). Targets: throughput ≥ 50 % of the baseline's and p95 < 100 ms, "
         "at 5,000 units on PostgreSQL; at other sizes and on SQLite the same targets are judged as a guide.",
+        "",
+        "Both answers are kept per worker until any committed write moves the change stamp "
+        "(`accounts/answers.py`); a kept repeat costs one read of the stamp. *Kept* is the state between "
+        "changes, and the targets are judged on it. *First pass after a change* is measured right after the "
+        "stamp moves, so every worker builds each person's answer once within the pass: the cost of a change, "
+        "shown for the record (no target).",
         "",
         "| units | endpoint | clients | requests | errors | req/s | ÷ baseline | ≥ 50 % | p50 ms | p95 ms | < 100 ms |",
         "|---|---|---|---|---|---|---|---|---|---|---|",
@@ -139,16 +154,19 @@ def _load(sizes: list[dict], doc: dict) -> list[str]:
         if why:
             out.append(f"| {s['ahus']} | {why} ||||||||||")
             continue
-        for name in ("today", "board", "baseline"):
-            r = ld[name]
+        for name, label, judged in LOAD_ROWS:
+            r = ld.get(name)
+            if r is None:
+                continue
             ratio = r.get("throughput_over_baseline")
+            shown_ratio = "1" if ratio is None else _num(ratio, "{:.3f}")
             out.append(
-                f"| {s['ahus']} | {name} | {ld['clients']} | {r['requests']} | {r['errors']} | "
-                f"{_num(r['throughput_rps'], '{:.1f}')} | {_num(ratio, '{:.3f}') if ratio is not None else '1'} | "
-                f"{_verdict(ratio >= 0.5) if ratio is not None else '—'} | {_num(r['p50_ms'], '{:.1f}')} | "
-                f"{_num(r['p95_ms'], '{:.1f}')} | {_verdict(r['p95_ms'] < 100) if name != 'baseline' else '—'} |"
+                f"| {s['ahus']} | {label} | {ld['clients']} | {r['requests']} | {r['errors']} | "
+                f"{_num(r['throughput_rps'], '{:.1f}')} | {shown_ratio} | "
+                f"{_verdict(ratio >= 0.5) if judged else '—'} | {_num(r['p50_ms'], '{:.1f}')} | "
+                f"{_num(r['p95_ms'], '{:.1f}')} | {_verdict(r['p95_ms'] < 100) if judged else '—'} |"
             )
-        errs = [f"{n}: {ld[n]['first_error']}" for n in ("today", "board", "baseline") if ld[n].get("first_error")]
+        errs = [f"{n}: {ld[n]['first_error']}" for n, _, _ in LOAD_ROWS if ld.get(n, {}).get("first_error")]
         if errs:
             out.append(f"| {s['ahus']} | first errors: {'; '.join(errs)[:300]} ||||||||||")
     samples = [
@@ -159,10 +177,10 @@ def _load(sizes: list[dict], doc: dict) -> list[str]:
     ]
     if samples:
         out += ["", "What the answers held: " + "; ".join(samples) + "."]
-    for name in ("today", "board"):
+    for name in ("today", "board", "today_after_change", "board_after_change"):
         growth = _growth(sizes, lambda s, n=name: s["load"][n]["p95_ms"])
         if growth:
-            out.append(f"{name} p95: {growth}")
+            out.append(f"{name.replace('_', ' ')} p95: {growth}")
     return out
 
 

@@ -42,9 +42,12 @@ def test_a_tiny_run_writes_both_results_files(tmp_path):
         assert name in size and "error" not in size[name], (name, size.get(name))
     assert size["sync"]["stored_replay"] == 0
     assert size["sync"]["stored_first"] == 10
+    for name in ("today", "today_after_change", "board", "board_after_change", "baseline"):
+        assert size["load"][name]["requests"] > 0 and not size["load"][name]["errors"], name
     md = (tmp_path / "results.md").read_text()
     assert md == results_markdown(doc)
     assert "## Work-order generation" in md and "## PWA app shell" in md
+    assert "| today, kept |" in md and "| board, first pass after a change |" in md
 
 
 def test_a_missed_target_is_said_plainly():
