@@ -19,7 +19,7 @@ import uuid
 from dataclasses import dataclass, field
 
 from django.contrib.auth.hashers import make_password
-from django.db import transaction
+from django.db import connection, transaction
 from django.utils import timezone
 
 BENCH_PASSWORD = "bench-pass-not-secret-1"  # a throwaway bench database only
@@ -969,4 +969,8 @@ def portfolio_generate(
             password=password,
             counts=counts,
         )
+    # Planner statistics, as any database that has been running has them (autovacuum would gather them
+    # within minutes); without them the first queries of a run are planned for empty tables.
+    with connection.cursor() as cursor:
+        cursor.execute("ANALYZE")
     return Portfolio(main=main_summary, other=other_summary, today=today, counts=counts)
