@@ -70,14 +70,22 @@ class GenerationResult:
     lines: list[str] = field(default_factory=list)
 
 
-@dataclass(slots=True)
 class _Part:
-    """A component as the engine needs it (what ``targets`` reads: kind, specs)."""
+    """A component as the engine needs it (what ``targets`` reads: kind, specs).
 
-    pk: int
-    kind: str
-    specs: dict
-    position: int
+    The specs stay JSON text until a rule reads them: most components are matched on their kind alone,
+    and decoding every component's JSON was most of the registry read on a large portfolio."""
+
+    __slots__ = ("_specs", "_text", "kind", "pk", "position")
+
+    def __init__(self, pk: int, kind: str, text: str | None, position: int) -> None:
+        self.pk, self.kind, self._text, self.position, self._specs = pk, kind, text, position, None
+
+    @property
+    def specs(self) -> dict:
+        if self._specs is None:
+            self._specs = (json.loads(self._text) if self._text else None) or {}
+        return self._specs
 
 
 @dataclass(slots=True)
@@ -317,20 +325,8 @@ def _title_of(names: str) -> str:
     return title if len(title) <= 200 else title[:197] + "…"
 
 
-def _spec_kinds(tasks: list[TaskDefinition]) -> set[str]:
-    """Component kinds whose specs the run reads: spec filters of the tasks, dampers (recirculation on a 100 %
-    outdoor-air unit) and fans (which fan's run-hour meter counts)."""
-    kinds = {"damper", "fan"}
-    for task in tasks:
-        kinds.update(t["kind"] for t in task.targets() if t.get("specs"))
-    return kinds
-
-
-def _units(ahus_qs, spec_kinds: set[str]) -> tuple[list[_Unit], dict[int, object]]:
-    """Light rows of the in-service units and their components, plus the sites they are on (3 queries).
-
-    Specs are read (and decoded) only for the component kinds in ``spec_kinds``; the others get ``{}``.
-    """
+def _units(ahus_qs) -> tuple[list[_Unit], dict[int, object]]:
+    """Light rows of the in-service units and their components, plus the sites they are on (3 queries)."""
     from inventory.models import Site
 
     rows = list(
@@ -343,20 +339,17 @@ def _units(ahus_qs, spec_kinds: set[str]) -> tuple[list[_Unit], dict[int, object
         if site_id not in zones:
             zones[site_id] = zoneinfo.ZoneInfo(sites[site_id].time_zone)
         units[pk] = _Unit(pk, tag, site_id, full_oa, service_start or _local(created_at, zones[site_id]))
-    # Specs as text, decoded here only where a rule reads them: decoding every component's JSON is most of
-    # this read's cost on a large portfolio.
     parts = (
         Component.objects.filter(ahu_id__in=ahus_qs.values("pk"))
         .order_by("ahu_id", "position", "id")
         .annotate(specs_text=Cast("specs", TextField()))
         .values_list("ahu_id", "pk", "kind", "specs_text")
     )
-    for ahu_id, pk, kind, text in parts:
+    for ahu_id, pk, kind, text in _plain_rows(parts):
         unit = units.get(ahu_id)
         if unit is None:
             continue
-        specs = json.loads(text) if text and kind in spec_kinds else None
-        part = _Part(pk, kind, specs or {}, len(unit.parts))
+        part = _Part(pk, kind, text, len(unit.parts))
         unit.parts.append(part)
         unit.by_kind.setdefault(kind, []).append(part)
     return list(units.values()), sites
@@ -384,7 +377,7 @@ def work_orders_generate(
     result = GenerationResult()
     if not tasks:
         return result
-    units, sites = _units(ahus_qs, _spec_kinds(tasks))
+    units, sites = _units(ahus_qs)
     if not units:
         return result
     ahu_ids = ahus_qs.values("pk")

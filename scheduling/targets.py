@@ -26,8 +26,10 @@ def _applies(targets: list[dict], ahu, component) -> bool:
         and (component.specs or {}).get("role") in RECIRCULATION_DAMPER_ROLES
     ):
         return False
+    # The specs are read only for a target that filters on them (the engine decodes them on first read).
     return any(
-        component.kind == target["kind"] and _spec_matches(component.specs or {}, target.get("specs") or {})
+        component.kind == target["kind"]
+        and (not target.get("specs") or _spec_matches(component.specs or {}, target["specs"]))
         for target in targets
     )
 
