@@ -115,14 +115,14 @@ class LoadResult:
     errors: int
     seconds: float
     throughput_rps: float
-    p50_ms: float
-    p95_ms: float
+    p50_ms: float | None  # None when no request succeeded
+    p95_ms: float | None
     first_error: str = ""
 
 
-def percentile(values: list[float], pct: float) -> float:
+def percentile(values: list[float], pct: float) -> float | None:
     if not values:
-        return float("nan")
+        return None
     ordered = sorted(values)
     k = max(0, min(len(ordered) - 1, math.ceil(pct / 100 * len(ordered)) - 1))
     return ordered[k]
@@ -176,7 +176,7 @@ def load_loop(
         errors=len(errors),
         seconds=round(wall, 3),
         throughput_rps=round(len(latencies) / wall, 2) if wall > 0 else 0.0,
-        p50_ms=round(statistics.median(latencies) * 1000, 1) if latencies else float("nan"),
-        p95_ms=round(percentile(latencies, 95) * 1000, 1),
+        p50_ms=round(statistics.median(latencies) * 1000, 1) if latencies else None,
+        p95_ms=round(percentile(latencies, 95) * 1000, 1) if latencies else None,
         first_error=errors[0] if errors else "",
     )

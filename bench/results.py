@@ -19,6 +19,15 @@ def _num(value, fmt: str = "{:.3f}") -> str:
     return fmt.format(value)
 
 
+def _below(value, limit) -> bool | None:
+    """Whether a figure is under its limit; None (shown as —) when there is no figure."""
+    return None if value is None else value < limit
+
+
+def _at_least(value, floor) -> bool | None:
+    return None if value is None else value >= floor
+
+
 def _skipped(section: dict | None) -> str | None:
     if section is None:
         return "not run: the harness did not reach this scenario"
@@ -163,8 +172,8 @@ def _load(sizes: list[dict], doc: dict) -> list[str]:
             out.append(
                 f"| {s['ahus']} | {label} | {ld['clients']} | {r['requests']} | {r['errors']} | "
                 f"{_num(r['throughput_rps'], '{:.1f}')} | {shown_ratio} | "
-                f"{_verdict(ratio >= 0.5) if judged else '—'} | {_num(r['p50_ms'], '{:.1f}')} | "
-                f"{_num(r['p95_ms'], '{:.1f}')} | {_verdict(r['p95_ms'] < 100) if judged else '—'} |"
+                f"{_verdict(_at_least(ratio, 0.5)) if judged else '—'} | {_num(r['p50_ms'], '{:.1f}')} | "
+                f"{_num(r['p95_ms'], '{:.1f}')} | {_verdict(_below(r['p95_ms'], 100)) if judged else '—'} |"
             )
         errs = [f"{n}: {ld[n]['first_error']}" for n, _, _ in LOAD_ROWS if ld.get(n, {}).get("first_error")]
         if errs:

@@ -27,8 +27,10 @@ class NotRun(Exception):
     """A scenario whose feature has not landed (or cannot run here)."""
 
 
-def median(values: list[float]) -> float:
-    return round(statistics.median(values), 4) if values else float("nan")
+def median(values: list[float | None]) -> float | None:
+    """The median of the figures there are; None (null in results.json) when there are none."""
+    values = [v for v in values if v is not None]
+    return round(statistics.median(values), 4) if values else None
 
 
 def timed(fn: Callable[[], object]) -> tuple[float, object]:
@@ -223,7 +225,8 @@ def endpoints_under_load(
             "first_error": next((r.first_error for r in rs if r.first_error), ""),
         }
         if name != "baseline":
-            out[name]["throughput_over_baseline"] = round(out[name]["throughput_rps"] / base_rps, 3)
+            rps = out[name]["throughput_rps"]
+            out[name]["throughput_over_baseline"] = round(rps / base_rps, 3) if rps is not None and base_rps else None
     return out
 
 

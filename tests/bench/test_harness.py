@@ -83,3 +83,28 @@ def test_a_missed_target_is_said_plainly():
     md = results_markdown(doc)
     assert "| 4.00× | **MISSED** |" in md
     assert "not run: URL 'scheduling_api:today' does not exist yet" in md
+
+
+def test_a_pass_with_no_successful_request_is_shown_as_no_figure():
+    """No latencies give null in results.json (standard JSON, never NaN) and — in the table, with the errors."""
+    from bench.load import LoadResult, percentile
+    from bench.scenarios import median
+
+    assert percentile([], 95) is None and median([]) is None and median([None, 2.0, 4.0]) == 3.0
+    failed = {"throughput_rps": 0.0, "p50_ms": None, "p95_ms": None, "requests": 0, "errors": 20, "first_error": "503"}
+    load = {"clients": 20, "today": {**failed, "throughput_over_baseline": 0.0}}
+    load["baseline"] = {**failed, "throughput_rps": 900.0, "errors": 0, "first_error": ""}
+    size = {"ahus": 10, "sites": 5, "portfolio": {"ahus": 11}, "load": load}
+    doc = {
+        "generated_at": "2025-03-03T00:00:00+00:00",
+        "database": "sqlite",
+        "runs_per_figure": 1,
+        "total_s": 1,
+        "machine": {"cpus": 2, "python": "3.11"},
+        "sizes": [size],
+    }
+    json.dumps(doc, allow_nan=False)
+    md = results_markdown(doc)
+    assert "| 10 | today, kept | 20 | 0 | 20 | 0.0 | 0.000 | **MISSED** | — | — | — |" in md
+    assert "first errors: today: 503" in md
+    assert LoadResult(requests=0, errors=1, seconds=0.1, throughput_rps=0.0, p50_ms=None, p95_ms=None).p95_ms is None
