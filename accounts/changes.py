@@ -32,6 +32,8 @@ logger = logging.getLogger(__name__)
 
 # A data-changing statement and the table it changes, as Django (and hand-written SQL) sends them.
 _WRITE = re.compile(r'\s*(?:INSERT\s+(?:OR\s+\w+\s+)?INTO|UPDATE|DELETE\s+FROM|REPLACE\s+INTO)\s+[`"]?(\w+)', re.I)
+_CTE = re.compile(r"\s*WITH\b", re.I)
+_CTE_WRITE = re.compile(r"\b(?:INSERT\s+INTO|UPDATE|DELETE\s+FROM)\b", re.I)
 _TABLE = ChangeStamp._meta.db_table
 _ignored: frozenset[str] | None = None
 _bumpers: dict[str, object] = {}
@@ -84,10 +86,19 @@ def change_mark(*, using: str = "default") -> None:
     transaction.on_commit(_bumper(using), using=using, robust=True)
 
 
+def _writes(sql) -> bool:
+    """Whether a statement changes data in a watched table (a CTE that writes counts, whatever its table)."""
+    if not isinstance(sql, str):
+        return False
+    match = _WRITE.match(sql)
+    if match:
+        return match.group(1).lower() not in _ignored_tables()
+    return bool(_CTE.match(sql)) and bool(_CTE_WRITE.search(sql))
+
+
 def _watch(execute, sql, params, many, context):
     result = execute(sql, params, many, context)
-    match = _WRITE.match(sql) if isinstance(sql, str) else None
-    if match and match.group(1).lower() not in _ignored_tables():
+    if _writes(sql):
         change_mark(using=context["connection"].alias)
     return result
 
