@@ -1,5 +1,7 @@
 """The change stamp: every committed write moves it once, whatever path the write took; nothing else does."""
 
+import contextlib
+
 import pytest
 from django.contrib.sessions.models import Session
 from django.db import connection, transaction
@@ -66,27 +68,23 @@ def test_a_transaction_of_many_writes_moves_the_stamp_once_after_it_commits():
     assert moved(before) == 1
 
 
+def _rename_in_failed_savepoint(wo, title: str) -> None:
+    with contextlib.suppress(ValueError), transaction.atomic():
+        WorkOrder.objects.filter(pk=wo.pk).update(title=title)
+        raise ValueError("roll the savepoint back")
+
+
 def test_a_savepoint_rolled_back_keeps_the_outer_transactions_bump():
     """Writes before a failed savepoint still count; a change first made inside the savepoint does not."""
     wo = WorkOrderFactory()
     before = change_stamp_read()
     with transaction.atomic():
         WorkOrder.objects.filter(pk=wo.pk).update(title="outer")
-        try:
-            with transaction.atomic():
-                WorkOrder.objects.filter(pk=wo.pk).update(title="inner")
-                raise ValueError
-        except ValueError:
-            pass
+        _rename_in_failed_savepoint(wo, "inner")
     assert moved(before) == 1
     before = change_stamp_read()
     with transaction.atomic():
-        try:
-            with transaction.atomic():
-                WorkOrder.objects.filter(pk=wo.pk).update(title="inner only")
-                raise ValueError
-        except ValueError:
-            pass
+        _rename_in_failed_savepoint(wo, "inner only")
         assert not changes_pending()
     assert moved(before) == 0
 

@@ -50,6 +50,18 @@ def test_a_tiny_run_writes_both_results_files(tmp_path):
     assert "| today, kept |" in md and "| board, first pass after a change |" in md
 
 
+def _doc(size: dict) -> dict:
+    """A results document of one size, as ``python -m bench`` writes it."""
+    return {
+        "generated_at": "2025-03-03T00:00:00+00:00",
+        "database": "sqlite",
+        "runs_per_figure": 1,
+        "total_s": 1,
+        "machine": {"cpus": 2, "python": "3.11"},
+        "sizes": [size],
+    }
+
+
 def test_a_missed_target_is_said_plainly():
     """A first generation run over 3× its baseline shows MISSED, and a scenario that could not run says why."""
     size = {
@@ -72,15 +84,7 @@ def test_a_missed_target_is_said_plainly():
         },
         "load": {"not_run": "URL 'scheduling_api:today' does not exist yet"},
     }
-    doc = {
-        "generated_at": "2025-03-03T00:00:00+00:00",
-        "database": "sqlite",
-        "runs_per_figure": 3,
-        "total_s": 1,
-        "machine": {"cpus": 2, "python": "3.11"},
-        "sizes": [size],
-    }
-    md = results_markdown(doc)
+    md = results_markdown(_doc(size))
     assert "| 4.00× | **MISSED** |" in md
     assert "not run: URL 'scheduling_api:today' does not exist yet" in md
 
@@ -95,14 +99,7 @@ def test_a_pass_with_no_successful_request_is_shown_as_no_figure():
     load = {"clients": 20, "today": {**failed, "throughput_over_baseline": 0.0}}
     load["baseline"] = {**failed, "throughput_rps": 900.0, "errors": 0, "first_error": ""}
     size = {"ahus": 10, "sites": 5, "portfolio": {"ahus": 11}, "load": load}
-    doc = {
-        "generated_at": "2025-03-03T00:00:00+00:00",
-        "database": "sqlite",
-        "runs_per_figure": 1,
-        "total_s": 1,
-        "machine": {"cpus": 2, "python": "3.11"},
-        "sizes": [size],
-    }
+    doc = _doc(size)
     json.dumps(doc, allow_nan=False)
     md = results_markdown(doc)
     assert "| 10 | today, kept | 20 | 0 | 20 | 0.0 | 0.000 | **MISSED** | — | — | — |" in md
