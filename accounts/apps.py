@@ -7,8 +7,11 @@ class AccountsConfig(AppConfig):
 
     def ready(self) -> None:
         from django.db.backends.signals import connection_created
+        from django.db.models.signals import post_migrate
 
-        from .changes import watch_install
+        from .changes import migrations_applied, watch_install
 
-        # Not domain logic: every connection gets the write watcher behind the change stamp.
+        # Not domain logic: every connection gets the write watcher behind the change stamp, and a migrate
+        # moves the stamp once at its end.
         connection_created.connect(watch_install, dispatch_uid="accounts.changes.watch_install")
+        post_migrate.connect(migrations_applied, sender=self, dispatch_uid="accounts.changes.migrations_applied")
