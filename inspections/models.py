@@ -247,6 +247,10 @@ class Finding(models.Model):
         OPEN = "open", "Open"
         CLOSED = "closed", "Closed"
 
+    class CloseCause(models.TextChoices):
+        CORRECTED = "corrected", "Corrective work completed"
+        AMENDED = "amended", "Cleared by an amendment"
+
     organisation = models.ForeignKey(Organisation, on_delete=models.PROTECT, related_name="findings")
     inspection = models.ForeignKey(Inspection, on_delete=models.PROTECT, related_name="findings")
     evaluation = models.OneToOneField(Evaluation, on_delete=models.PROTECT, related_name="finding")
@@ -269,6 +273,18 @@ class Finding(models.Model):
         blank=True,
         related_name="findings",
         help_text="The amendment whose corrected readings newly failed (blank: found on the original form).",
+    )
+    close_cause = models.CharField(max_length=20, choices=CloseCause.choices, blank=True)
+    closed_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True, related_name="+"
+    )
+    cleared_by_amendment = models.ForeignKey(
+        "Amendment",
+        on_delete=models.PROTECT,
+        null=True,
+        blank=True,
+        related_name="cleared_findings",
+        help_text="The amendment whose corrected readings no longer fail this check.",
     )
 
     class Meta:

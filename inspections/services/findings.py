@@ -1,4 +1,8 @@
-"""Findings: every failed evaluation becomes one and proposes corrective work."""
+"""Findings: every failed evaluation becomes one and proposes corrective work; done work closes it.
+
+A finding closes when its corrective work order is completed (at the completion time; sent back for
+rework, it opens again), or when an amendment corrects the readings so that its check passes.
+"""
 
 from __future__ import annotations
 
@@ -6,6 +10,7 @@ import datetime as dt
 
 from django.utils import timezone
 
+from accounts.services import audit_record
 from engineering.freeze import daily_minimums_from_normals
 
 from ..models import Evaluation, Finding, Inspection
@@ -154,3 +159,89 @@ def _open_corrective_for(*, finding: Finding, item_key: str):
 
 def _known(code: str) -> str:
     return code if code in KNOWN_CONDITIONS else ""
+
+
+def _actor(by):
+    return by if getattr(by, "is_authenticated", False) else None
+
+
+def _close(finding: Finding, *, at: dt.datetime, cause: str, by, changes: dict) -> None:
+    finding.state, finding.closed_at, finding.close_cause = Finding.State.CLOSED, at, cause
+    finding.closed_by = _actor(by)
+    finding.save(update_fields=["state", "closed_at", "close_cause", "closed_by", "cleared_by_amendment"])
+    audit_record(
+        actor=by,
+        obj=finding,
+        action="finding_close",
+        organisation=finding.organisation,
+        changes={"cause": cause, **changes},
+    )
+
+
+def findings_close_corrected(*, work_order, by) -> list[Finding]:
+    """Close the open findings whose corrective work order has just been completed, at its completion time."""
+    at = work_order.completed_at or timezone.now()
+    found = list(Finding.objects.select_for_update().filter(corrective_work_order=work_order, state=Finding.State.OPEN))
+    for finding in found:
+        _close(
+            finding, at=at, cause=Finding.CloseCause.CORRECTED, by=by, changes={"work_order": str(work_order.public_id)}
+        )
+    return found
+
+
+def findings_reopen_for_rework(*, work_order, by) -> list[Finding]:
+    """Corrective work sent back for rework: the findings its completion closed are open again."""
+    found = list(
+        Finding.objects.select_for_update().filter(
+            corrective_work_order=work_order, state=Finding.State.CLOSED, close_cause=Finding.CloseCause.CORRECTED
+        )
+    )
+    for finding in found:
+        finding.state, finding.closed_at, finding.close_cause, finding.closed_by = Finding.State.OPEN, None, "", None
+        finding.save(update_fields=["state", "closed_at", "close_cause", "closed_by"])
+        audit_record(
+            actor=by,
+            obj=finding,
+            action="finding_reopen",
+            organisation=finding.organisation,
+            changes={"work_order": str(work_order.public_id), "reason": "corrective work sent back for rework"},
+        )
+    return found
+
+
+def findings_close_cleared(*, inspection: Inspection, amendment, results, by) -> list[Finding]:
+    """Close this inspection's open findings whose check the amendment's corrected readings now pass (ok).
+
+    Only an ok clears a finding: a watch (near a limit, or a check that cannot judge) leaves it open for the
+    supervisor. The corrective work it proposed is left as it is; the supervisor may reject or cancel it.
+    """
+    passing = {
+        (res.check, res.item, res.component.pk if res.component else None) for res in results if res.verdict == "ok"
+    }
+    found = [
+        f
+        for f in Finding.objects.select_for_update()
+        .filter(inspection=inspection, state=Finding.State.OPEN)
+        .select_related("evaluation")
+        if (f.evaluation.check_name, f.evaluation.item_key, f.evaluation.component_id) in passing
+    ]
+    for finding in found:
+        finding.cleared_by_amendment = amendment
+        _close(
+            finding,
+            at=amendment.created_at,
+            cause=Finding.CloseCause.AMENDED,
+            by=by,
+            changes={"amendment": amendment.pk},
+        )
+    return found
+
+
+def work_order_moved(sender, *, work_order, before: str, by, **kwargs) -> None:
+    """``scheduling.signals.work_order_moved`` receiver: completion closes findings, rework reopens them."""
+    from scheduling.models import WorkOrder
+
+    if work_order.state == WorkOrder.State.COMPLETED:
+        findings_close_corrected(work_order=work_order, by=by)
+    elif before == WorkOrder.State.COMPLETED and work_order.state == WorkOrder.State.IN_PROGRESS:
+        findings_reopen_for_rework(work_order=work_order, by=by)

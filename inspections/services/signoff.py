@@ -10,7 +10,7 @@ from accounts.services import audit_record
 from inventory.selectors import sites_managed_by
 
 from .. import evaluation, selectors
-from ..models import Amendment, Evaluation, Inspection
+from ..models import Amendment, Evaluation, Finding, Inspection
 from . import findings as findings_service
 
 
@@ -43,7 +43,9 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
     judgement that fails now but did not fail before (on the form or an
     earlier amendment) is stored as an Evaluation of this amendment and opens
     a Finding pointing to it, with its corrective work proposed like a synced
-    failure. The original readings, evaluations and findings stay as they were.
+    failure; an open finding of this inspection whose check is now ok is
+    closed as cleared by the amendment. The original readings and evaluations
+    stay as they were.
     """
     from .sync import Errors, Parsed, _reading  # same parsing and range rules as the sync
 
@@ -115,6 +117,16 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
         )
     amendment = Amendment.objects.create(inspection=inspection, created_by=by, reason=reason.strip(), changes=changes)
     found = _newly_failed_open(inspection=inspection, amendment=amendment, results=results, by=by)
+    cleared = findings_service.findings_close_cleared(
+        inspection=inspection, amendment=amendment, results=results, by=by
+    )
+    cleared_by_key = {(f.evaluation.item_key, f.component.label_code if f.component else None): f for f in cleared}
+    for c in changes:
+        if (f := cleared_by_key.get((c["item"], c["component"]))) is not None:
+            c["cleared_finding"] = f.pk
+    if cleared:
+        amendment.changes = changes
+        amendment.save(update_fields=["changes"])
     if found:
         by_key = {(f.evaluation.item_key, f.component.label_code if f.component else None): f for f in found}
         for c in changes:
@@ -127,7 +139,12 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
         obj=inspection,
         action="inspection_amend",
         organisation=inspection.organisation,
-        changes={"amendment": amendment.pk, "items": [c["item"] for c in changes], "findings": [f.pk for f in found]},
+        changes={
+            "amendment": amendment.pk,
+            "items": [c["item"] for c in changes],
+            "findings": [f.pk for f in found],
+            "cleared_findings": [f.pk for f in cleared],
+        },
     )
     return amendment
 
@@ -138,9 +155,12 @@ def _newly_failed_open(*, inspection: Inspection, amendment: Amendment, results,
     def key(check, item, component_id):
         return (check, item, component_id)
 
+    # A failure whose finding an earlier amendment cleared counts as new if it fails again.
     failed_before = {
         key(e.check_name, e.item_key, e.component_id)
-        for e in inspection.evaluations.filter(verdict="fail").only("check_name", "item_key", "component_id")
+        for e in inspection.evaluations.filter(verdict="fail")
+        .exclude(finding__state=Finding.State.CLOSED)
+        .only("check_name", "item_key", "component_id")
     }
     new = [
         res

@@ -20,6 +20,7 @@ from inventory.models import AHU, Component
 
 from ..models import CalendarFeed, WorkOrder, WorkOrderTask, overdue_day
 from ..selectors import effective_tasks, site_today
+from ..signals import work_order_moved
 from ..targets import task_targets
 
 State = WorkOrder.State
@@ -130,6 +131,7 @@ def work_order_transition(
         fields.append("completed_at")
         wo.tasks.update(completed_at=None)
     _save(wo, fields, by=by, action="transition", changes={"from": before, "to": to_state, "reason": reason})
+    work_order_moved.send(sender=WorkOrder, work_order=wo, before=before, by=by)
     _copy_back(work_order, wo)
     return wo
 

@@ -108,3 +108,81 @@ def test_low_outdoor_air_by_both_methods_on_one_visit_opens_one_work_order(api_c
     assert {e["check"] for e in fails} == {"oa_fraction_temperature", "oa_fraction_co2"}
     cwos = {Finding.objects.get(pk=f["id"]).corrective_work_order_id for f in out["findings"]}
     assert len(out["findings"]) == len(fails) and len(cwos) == 1
+
+
+def _approved_and_assigned(cwo, tech):
+    from scheduling.services import corrective_work_order_approve, work_order_assign
+
+    boss = make_supervisor(cwo.organisation)
+    corrective_work_order_approve(work_order=cwo, by=boss)
+    work_order_assign(work_order=cwo, assignee=tech, by=boss)
+    return boss
+
+
+def _open_findings_total(finding, as_of) -> int:
+    from reports.compliance import compliance_figures
+
+    site_id = finding.ahu.building.site_id
+    start = (as_of - dt.timedelta(days=60)).date()
+    return compliance_figures(site_ids=[site_id], start=start, end=as_of.date(), as_of=as_of).findings_total
+
+
+@pytest.mark.django_db
+def test_completing_the_corrective_work_closes_its_findings_and_rework_reopens_them(api_client):
+    """Done at 14:00: the finding is closed at 14:00 (audited) and leaves the open count; sent back, it is open."""
+    from accounts.models import AuditEvent
+    from scheduling.services import work_order_complete, work_order_transition
+
+    _, tech, _, found = _drain_pan_visit(api_client)
+    finding = next(f for f in found if f.evaluation.item_key == "drain_pan.pan_condition")
+    cwo = finding.corrective_work_order
+    boss = _approved_and_assigned(cwo, tech)
+    done_at = FINISHED + dt.timedelta(days=2, hours=3)
+    assert _open_findings_total(finding, done_at) == 1
+    work_order_complete(work_order=cwo, by=tech, completed_at=done_at)
+    finding.refresh_from_db()
+    assert finding.state == Finding.State.CLOSED and finding.closed_at == done_at
+    assert finding.close_cause == Finding.CloseCause.CORRECTED and finding.closed_by == tech
+    assert AuditEvent.objects.filter(action="finding_close", object_id=str(finding.pk)).exists()
+    assert _open_findings_total(finding, done_at + dt.timedelta(hours=1)) == 0
+    assert _open_findings_total(finding, done_at - dt.timedelta(hours=1)) == 1, "open before it was done"
+    work_order_transition(work_order=cwo, to_state=WorkOrder.State.IN_PROGRESS, by=boss, reason="still wet")
+    finding.refresh_from_db()
+    assert finding.state == Finding.State.OPEN and finding.closed_at is None and finding.close_cause == ""
+
+
+@pytest.mark.django_db
+def test_cancelled_corrective_work_leaves_its_finding_open(api_client):
+    """Nothing was repaired, so the deficiency stands."""
+    _, _, _, found = _drain_pan_visit(api_client)
+    finding = found[0]
+    work_order_cancel(work_order=finding.corrective_work_order, by=make_supervisor(finding.organisation), reason="dup")
+    finding.refresh_from_db()
+    assert finding.state == Finding.State.OPEN
+
+
+@pytest.mark.django_db
+def test_an_amendment_that_clears_a_failure_closes_its_finding_and_a_new_failure_opens_one(api_client):
+    """A mistyped "standing water" corrected to clean closes that finding; corrected back, a new one opens."""
+    from inspections.services import inspection_amend
+
+    _, tech, drain, found = _drain_pan_visit(api_client, drains="not_ok")
+    finding = next(f for f in found if f.evaluation.item_key == "drain_pan.pan_condition")
+    other = next(f for f in found if f.evaluation.item_key != "drain_pan.pan_condition")
+    inspection = finding.inspection
+    fix = [r("drain_pan.pan_condition", "clean", drain)]
+    amendment = inspection_amend(
+        inspection=inspection, by=tech, reason="tapped the wrong choice", readings=fix, unit_system="si"
+    )
+    finding.refresh_from_db()
+    other.refresh_from_db()
+    assert finding.state == Finding.State.CLOSED and finding.close_cause == Finding.CloseCause.AMENDED
+    assert finding.cleared_by_amendment == amendment and finding.closed_at == amendment.created_at
+    assert other.state == Finding.State.OPEN, "the drain that was not corrected still fails"
+    assert [c.get("cleared_finding") for c in amendment.changes] == [finding.pk]
+    back = [r("drain_pan.pan_condition", "standing", drain)]
+    again = inspection_amend(
+        inspection=inspection, by=tech, reason="it was standing after all", readings=back, unit_system="si"
+    )
+    reopened = Finding.objects.get(amendment=again)
+    assert reopened.state == Finding.State.OPEN and reopened.evaluation.item_key == "drain_pan.pan_condition"
