@@ -170,3 +170,19 @@ def test_property_manager_needs_grant(visit, org, make_report, client):
     report = make_report(user=manager, kind="inspection", parameters={"work_order": str(visit.public_id)})
     client.force_login(manager)
     assert client.get(report.get_absolute_url()).status_code == 200
+
+
+def test_a_closed_finding_says_when_and_why(visit, supervisor, make_report):
+    """Once its corrective work is done the finding reads closed, with the day and the cause."""
+    import datetime as dt
+
+    from inspections.models import Finding
+
+    closed_at = dt.datetime(2025, 3, 14, 10, 0, tzinfo=dt.UTC)
+    Finding.objects.filter(inspection__work_order=visit).update(
+        state=Finding.State.CLOSED, closed_at=closed_at, close_cause=Finding.CloseCause.CORRECTED
+    )
+    report = make_report(user=supervisor, kind="inspection", parameters={"work_order": str(visit.public_id)})
+    rasterise(report, "inspection-closed-finding")
+    text = " ".join(pdf_text(report).split())
+    assert "Closed" in text and "2025-03-14: corrective work completed" in text
