@@ -38,7 +38,7 @@ from rest_framework.renderers import JSONRenderer
 from .changes import change_stamp_read, changes_pending
 
 _ATTR = "_plenum_change_stamp"
-TOKEN_ENTRY_BYTES = 1_000  # what a cached token counts against the byte limit
+TOKEN_ENTRY_BYTES = 1_000  # what a kept token or small value counts against the byte limit
 JSON = "application/json"
 PLAIN_JSON_ACCEPTS = frozenset({"", "*/*", JSON})  # what DRF answers with JSONRenderer as application/json
 
@@ -132,6 +132,19 @@ class StampedTokenAuthentication(TokenAuthentication):
         return copy.copy(user), token
 
 
+def kept(request, key: tuple, build: Callable[[], object]):
+    """A small value the answers depend on (a person's time zone…), kept under the request's stamp like them."""
+    stamp = stamp_for(request)
+    if stamp is None:
+        return build()
+    cache_key = ("value", key, stamp)
+    found = _store.get(cache_key)
+    if found is None:
+        found = (build(),)
+        _store.put(cache_key, found)
+    return found[0]
+
+
 def json_answer(request, *, view: str, key: tuple, build: Callable[[], object]) -> HttpResponse | None:
     """The JSON answer of ``view`` for the request's person and ``key`` (every parameter the answer
     depends on), from the cache when the stamp has not moved, else built by ``build()`` and kept.
@@ -177,7 +190,7 @@ def _kept_answer(request, *, view: str, key_of: Callable) -> HttpResponse | None
     if person is None:
         return None
     try:
-        key = key_of(request.GET)
+        key = key_of(request, person[0])
     except (ValidationError, ValueError):
         return None  # the view answers 400 with the field's message
     entry = _store.get(("answer", view, person[0].pk, JSON, key, stamp))
@@ -191,7 +204,7 @@ def _kept_answer(request, *, view: str, key_of: Callable) -> HttpResponse | None
 
 def answer_fast_path(view_func, *, view: str, key_of: Callable):
     """``view_func`` (a DRF view using :func:`json_answer` under the name ``view``) behind the kept-answer
-    check. ``key_of(query)`` must be the view's own parameter reading, so both agree on the key."""
+    check. ``key_of(request, person)`` must be the view's own parameter reading, so both agree on the key."""
 
     @functools.wraps(view_func)  # keeps DRF's .cls and csrf_exempt, which the schema and CSRF read
     def wrapped(request, *args, **kwargs):

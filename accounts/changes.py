@@ -65,12 +65,21 @@ def _bumper(alias: str):
 
 
 def changes_pending(*, using: str = "default") -> bool:
-    """Whether this connection holds writes not yet committed (their bump is still waiting)."""
+    """Whether this connection holds writes not yet committed (their bump is still waiting).
+
+    Asked on every write, so the answer is remembered with the callback list it was found in: Django only
+    appends to that list, and builds a new one when a transaction ends or a savepoint rolls back."""
     conn = connections[using]
     if not conn.in_atomic_block or not conn.run_on_commit:
         return False
+    seen = getattr(conn, "_plenum_pending_in", None)
+    if seen is conn.run_on_commit:
+        return True
     fn = _bumpers.get(using)
-    return fn is not None and any(entry[1] is fn for entry in conn.run_on_commit)
+    if fn is not None and any(entry[1] is fn for entry in conn.run_on_commit):
+        conn._plenum_pending_in = conn.run_on_commit
+        return True
+    return False
 
 
 def change_mark(*, using: str = "default") -> None:
@@ -84,6 +93,8 @@ def change_mark(*, using: str = "default") -> None:
     if changes_pending(using=using):
         return
     transaction.on_commit(_bumper(using), using=using, robust=True)
+    if conn.in_atomic_block:
+        conn._plenum_pending_in = conn.run_on_commit
 
 
 def _writes(sql) -> bool:

@@ -19,7 +19,7 @@ from rest_framework.exceptions import PermissionDenied
 from rest_framework.response import Response
 from rest_framework.views import APIView
 
-from accounts.answers import json_answer
+from accounts.answers import json_answer, kept
 from accounts.models import Membership, Role, User
 from inventory.selectors import ahus_visible_to, sites_visible_to
 
@@ -30,6 +30,8 @@ from .selectors import (
     BOARD_SECTIONS,
     board_page_for,
     effective_tasks,
+    local_today,
+    person_time_zone,
     today_visit_rows_for,
     work_orders_managed_by,
     work_orders_visible_to,
@@ -213,9 +215,14 @@ CONDITIONAL = [
 # from the worker's memory (a token client's repeat costs one read of the change stamp, before DRF is entered).
 # The ETag is a hash of the answer's bytes, so it is right whatever changed (a work order, a site's name, a
 # task's estimate).
-def today_params(query) -> tuple[dt.date, tuple[float, float] | None]:
-    """(day, start) of a today request; the answer depends on nothing else but the caller."""
-    day = _date_param(query, "day") or timezone.localdate()
+def today_params(request, user) -> tuple[dt.date, tuple[float, float] | None]:
+    """(day, start) of a today request; the answer depends on nothing else but the caller. The day defaults
+    to today where the caller's sites are (their time zone kept with the answers: no query on a repeat)."""
+    query = request.GET
+    day = _date_param(query, "day")
+    if day is None:
+        zone = kept(request, ("time_zone", user.pk), lambda: person_time_zone(user=user))
+        day = local_today(time_zone=zone)
     start = None
     if query.get("lat") and query.get("lon"):
         try:
@@ -230,7 +237,7 @@ class TodayVisits(APIView):
     @extend_schema(
         responses={200: s.VisitOut(many=True), 304: None, **ERRORS},
         parameters=[
-            OpenApiParameter("day", dt.date, description="default: today"),
+            OpenApiParameter("day", dt.date, description="default: today where the caller's sites are"),
             OpenApiParameter("lat", float),
             OpenApiParameter("lon", float),
             *CONDITIONAL,
@@ -238,7 +245,7 @@ class TodayVisits(APIView):
         summary="The caller's visits for the day, in a suggested order",
     )
     def get(self, request):
-        day, start = key = today_params(request.query_params)
+        day, start = key = today_params(request, request.user)
 
         def build():
             return today_visit_rows_for(technician=request.user, day=day, start=start)
@@ -270,8 +277,9 @@ def _int_param(query, name: str, *, default: int, low: int, high: int) -> int:
     return value
 
 
-def board_params(query) -> tuple[dt.date, dt.date, int, int, str | None]:
+def board_params(request, user) -> tuple[dt.date, dt.date, int, int, str | None]:
     """(week start, today, limit, offset, section) of a board request; with the caller, all it depends on."""
+    query = request.GET
     today = timezone.localdate()
     week = _date_param(query, "week") or today
     week = week - dt.timedelta(days=week.weekday())
@@ -302,7 +310,7 @@ class Board(APIView):
         summary="Supervisor's board: due, overdue and assigned for a week, a page per section with whole counts",
     )
     def get(self, request):
-        week, today, limit, offset, section = key = board_params(request.query_params)
+        week, today, limit, offset, section = key = board_params(request, request.user)
 
         def build():
             org = _organisation_for(request.user, managing=True)

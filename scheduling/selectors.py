@@ -23,6 +23,37 @@ def site_today(*, site, now: dt.datetime | None = None) -> dt.date:
     return (now or timezone.now()).astimezone(zoneinfo.ZoneInfo(site.time_zone)).date()
 
 
+def person_time_zone(*, user) -> str | None:
+    """The time zone most sites of the person's organisations keep (ties: the zone named first); None without
+    any. Only the zone is read, so every site of the organisation counts, seen by the person or not (a new
+    technician has no assigned sites yet)."""
+    from inventory.models import Site
+
+    orgs = Membership.objects.filter(user=user).values("organisation_id")
+    return (
+        Site.objects.filter(organisation_id__in=orgs)
+        .order_by()
+        .values("time_zone")
+        .annotate(n=Count("id"))
+        .order_by("-n", "time_zone")
+        .values_list("time_zone", flat=True)
+        .first()
+    )
+
+
+def local_today(*, time_zone: str | None, now: dt.datetime | None = None) -> dt.date:
+    """Today's date in ``time_zone`` (the server's without one)."""
+    if time_zone is None:
+        return timezone.localdate(now)
+    return (now or timezone.now()).astimezone(zoneinfo.ZoneInfo(time_zone)).date()
+
+
+def person_today(*, user, now: dt.datetime | None = None) -> dt.date:
+    """Today where the person works (see :func:`person_time_zone`), else the server's date. A technician in
+    Amsterdam starts the next day's round at midnight there, not at midnight UTC."""
+    return local_today(time_zone=person_time_zone(user=user), now=now)
+
+
 def effective_tasks(*, organisation, include_disabled: bool = False) -> dict[str, TaskDefinition]:
     """The organisation's task set: library rows, overridden by its own rows of the same code, plus its own tasks."""
     rows = TaskDefinition.objects.filter(Q(organisation__isnull=True) | Q(organisation=organisation))

@@ -22,7 +22,7 @@ from inventory.models import AHU, Component
 from inventory.selectors import component_tree, sites_managed_by
 from inventory.specs import spec_fields
 from scheduling.models import UnitTaskSetting, WorkOrder
-from scheduling.selectors import effective_tasks
+from scheduling.selectors import effective_tasks, site_today
 from scheduling.services.library import unit_task_set
 from scheduling.services.work_orders import WorkOrderConflict, work_order_schedule
 
@@ -64,6 +64,7 @@ def board(request):
     data = backends.board_for(organisation=org, week_start=week)
     show_all = request.GET.get("all", "")
     columns = []
+    site_days: dict[int, dt.date] = {}
     for key, title, rows in (
         ("overdue", "Overdue", data.overdue),
         ("due", "Due, not assigned", data.due),
@@ -73,8 +74,13 @@ def board(request):
         # section, with the whole count and a link to the rest.
         shown = list(rows) if show_all == key else list(rows[:BOARD_PAGE])
         for wo in shown:
-            # The day offered for the visit: its plan, else its due date, never a day already past.
-            wo.plan_default = wo.scheduled_for or max(wo.due_date, today)
+            # The day offered for the visit: its plan, else its due date, never a day already past where the
+            # unit is (the service refuses a day before the site's today, which may differ from the server's).
+            site = wo.ahu.building.site
+            if site.pk not in site_days:
+                site_days[site.pk] = site_today(site=site)
+            wo.site_today = site_days[site.pk]
+            wo.plan_default = wo.scheduled_for or max(wo.due_date, wo.site_today)
         columns.append({"key": key, "title": title, "rows": shown, "total": len(rows)})
     load = backends.technician_load(organisation=org, start=week, days=7)
     return render(

@@ -9,6 +9,7 @@ from django.views.decorators.http import require_GET
 
 from inventory.selectors import component_tree
 from scheduling.models import WorkOrder
+from scheduling.selectors import person_today
 
 from .. import backends, selectors
 from ..checklist_form import caution_blocks, cautions_for, form_sections, payload_from_post
@@ -46,11 +47,12 @@ def offline_urls(visits) -> list[str]:
 @login_required
 @require_GET
 def today(request):
-    visits = backends.today_visits_for(technician=request.user, day=timezone.localdate())
+    day = person_today(user=request.user)
+    visits = backends.today_visits_for(technician=request.user, day=day)
     return render(
         request,
         "frontend/technician/today.html",
-        {"visits": visits, "today": timezone.localdate(), "offline_urls": offline_urls(visits)},
+        {"visits": visits, "today": day, "offline_urls": offline_urls(visits)},
     )
 
 

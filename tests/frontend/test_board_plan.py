@@ -111,3 +111,24 @@ def test_a_large_week_shows_a_page_of_each_section_and_the_whole_count(client, d
     assert page.count('data-work-order="') == BOARD_PAGE
     everything = client.get("/board/?all=due").content.decode()
     assert everything.count('data-work-order="') == BOARD_PAGE + 5
+
+
+def test_the_day_offered_is_never_before_the_sites_own_today(scenario, login):
+    """At 23:30 UTC it is already the next day in Amsterdam: a visit due that UTC day is offered for the
+    site's today (the service refuses a day past there), and the technician's round is that day's."""
+    late = dt.datetime(2025, 3, 5, 23, 30, tzinfo=dt.UTC)
+    with time_machine.travel(late, tick=False):
+        wo = make_work(ahu=scenario.unit_a, title="Late check", due=dt.date(2025, 3, 5))
+        assert scenario.unit_a.building.site.time_zone == "Europe/Amsterdam"
+        client = login(scenario.supervisor)
+        html = client.get("/board/?week=2025-03-05").content.decode()
+        assert f'id="plan-{wo.public_id}" name="scheduled_for" value="2025-03-06" min="2025-03-06"' in html
+        client.post(
+            reverse("frontend:assign", kwargs={"public_id": wo.public_id}),
+            {"assignee": scenario.technician.pk, "version": wo.version, "scheduled_for": "2025-03-06"},
+        )
+        wo.refresh_from_db()
+        assert (wo.assignee, wo.scheduled_for) == (scenario.technician, dt.date(2025, 3, 6))
+        page = login(scenario.technician).get("/today/")
+        assert page.context["today"] == dt.date(2025, 3, 6)
+        assert str(wo.public_id) in page.content.decode()
