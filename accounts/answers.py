@@ -32,7 +32,7 @@ from django.conf import settings
 from django.core.exceptions import ValidationError
 from django.http import HttpResponse
 from django.utils.cache import get_conditional_response
-from rest_framework.authentication import TokenAuthentication
+from rest_framework.authentication import TokenAuthentication, get_authorization_header
 from rest_framework.renderers import JSONRenderer
 
 from .changes import change_stamp_read, changes_pending
@@ -116,6 +116,9 @@ class StampedTokenAuthentication(TokenAuthentication):
     """DRF's token authentication, remembering a token's person while the change stamp stays the same."""
 
     def authenticate(self, request):
+        parts = get_authorization_header(request).split()
+        if not parts or parts[0].lower() != self.keyword.lower().encode():
+            return None  # as DRF's: not a token request (and no read of the stamp for it)
         self._stamp = stamp_for(request)
         return super().authenticate(request)
 

@@ -169,3 +169,11 @@ def test_the_browsable_api_is_not_served_from_the_cache(world):
     client.get(TODAY_URL)
     page = client.get(TODAY_URL, HTTP_ACCEPT="text/html")
     assert page.status_code == 200 and page["Content-Type"].startswith("text/html")
+
+
+def test_a_request_without_a_token_reads_no_stamp(world):
+    """Only token requests use the kept tokens: an anonymous call is a 401 naming Token, with no stamp read."""
+    with CaptureQueriesContext(connection) as seen:
+        response = APIClient().get(TODAY_URL)
+    assert response.status_code == 401 and response["WWW-Authenticate"].startswith("Token")
+    assert not any("changestamp" in q["sql"] for q in seen.captured_queries)
