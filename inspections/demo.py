@@ -1,7 +1,7 @@
 """Twelve months (or more) of invented inspection history for the demo scenario.
 
-Deterministic: the random numbers are seeded from the organisation and unit,
-so the same call gives the same history. Every form goes through the real
+Deterministic: the random numbers are seeded from the organisation's, site's
+and unit's names (never row ids), so the same registry gives the same history. Every form goes through the real
 sync service, so evaluations, findings, corrective work orders, meter
 readings and completions are exactly what the live system would produce.
 """
@@ -128,7 +128,8 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
     counts = {"work_orders": 0, "inspections": 0, "findings": 0}
     ahus = AHU.objects.filter(building__site__organisation=organisation).select_related("building__site")
     for unit_no, ahu in enumerate(ahus.order_by("id")):
-        rng = random.Random(f"{organisation.slug}:{ahu.tag}:{ahu.pk}")
+        # Seeded by names, not row ids: the same registry gives the same history on any database.
+        rng = random.Random(f"{organisation.slug}:{ahu.building.site.code}:{ahu.tag}")
         site = ahu.building.site
         banks = list(ahu.components.filter(kind="filter_bank").order_by("position", "id"))
         dampers = list(ahu.components.filter(kind="damper").order_by("position", "id"))

@@ -17,8 +17,8 @@ from tests.factories.inventory import BuildingFactory, SiteFactory, make_full_un
 def test_demo_history_has_a_year_of_completed_visits_filter_curves_and_findings():
     org = OrganisationFactory(slug="demo-org")
     make_person(organisation=org, role=Role.TECHNICIAN)
-    site = SiteFactory(organisation=org)
-    ahu = make_full_unit(building=BuildingFactory(site=site))
+    site = SiteFactory(organisation=org, code="DEMO-1")
+    ahu = make_full_unit(building=BuildingFactory(site=site), tag="AHU-01")  # the seed is made of these names
     counts = demo_history_load(organisation=org, today=dt.date(2025, 3, 1), months=12)
     assert counts["inspections"] == 12
     assert Inspection.objects.filter(ahu=ahu).count() == 12
