@@ -116,8 +116,7 @@ class StampedTokenAuthentication(TokenAuthentication):
     """DRF's token authentication, remembering a token's person while the change stamp stays the same."""
 
     def authenticate(self, request):
-        parts = get_authorization_header(request).split()
-        if not parts or parts[0].lower() != self.keyword.lower().encode():
+        if _token_parts(request) is None:
             return None  # as DRF's: not a token request (and no read of the stamp for it)
         self._stamp = stamp_for(request)
         return super().authenticate(request)
@@ -172,12 +171,21 @@ def json_answer(request, *, view: str, key: tuple, build: Callable[[], object]) 
     return response
 
 
+def _token_parts(request) -> list[bytes] | None:
+    """The parts of an ``Authorization: Token …`` header (DRF's keyword), else None. Either kind of request."""
+    parts = get_authorization_header(request).split()
+    return parts if parts and parts[0].lower() == TokenAuthentication.keyword.lower().encode() else None
+
+
 def _token_key(request) -> str | None:
-    """The key of an ``Authorization: Token <key>`` header, as DRF's TokenAuthentication reads it."""
-    parts = request.META.get("HTTP_AUTHORIZATION", "").split()
-    if len(parts) != 2 or parts[0].lower() != "token":
+    """The key of a well-formed token header; anything else is left to DRF's own checks and messages."""
+    parts = _token_parts(request)
+    if parts is None or len(parts) != 2:
         return None
-    return parts[1]
+    try:
+        return parts[1].decode()
+    except UnicodeError:
+        return None
 
 
 def _kept_answer(request, *, view: str, key_of: Callable) -> HttpResponse | None:

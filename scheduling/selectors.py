@@ -12,6 +12,7 @@ from django.db.models.functions import RowNumber
 from django.utils import timezone
 
 from accounts.models import Membership, Role
+from inventory.models import Site
 from inventory.selectors import sites_visible_to
 
 from . import routing
@@ -27,8 +28,6 @@ def person_time_zone(*, user) -> str | None:
     """The time zone most sites of the person's organisations keep (ties: the zone named first); None without
     any. Only the zone is read, so every site of the organisation counts, seen by the person or not (a new
     technician has no assigned sites yet)."""
-    from inventory.models import Site
-
     orgs = Membership.objects.filter(user=user).values("organisation_id")
     return (
         Site.objects.filter(organisation_id__in=orgs)

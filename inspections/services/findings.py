@@ -54,6 +54,28 @@ def _title(result, evaluation: Evaluation) -> str:
     return (words + where)[:200]
 
 
+def evaluations_store(*, inspection: Inspection, results, amendment=None) -> list[Evaluation]:
+    """The judgements of a form (or of an amendment's corrected form) as stored rows, written in one insert."""
+    rows = [
+        Evaluation(
+            inspection=inspection,
+            amendment=amendment,
+            check_name=res.check,
+            item_key=res.item,
+            component=res.component,
+            verdict=res.verdict,
+            reason=res.reason[:500],
+            reason_parts=res.reason_parts,
+            method=res.method[:300],
+            derived=res.derived,
+            condition_code=res.condition_code,
+        )
+        for res in results
+    ]
+    Evaluation.objects.bulk_create(rows)
+    return rows
+
+
 def findings_open(
     *, inspection: Inspection, evaluations: list[Evaluation], results, by, amendment=None, opened_at=None
 ) -> list[Finding]:
@@ -222,7 +244,7 @@ def findings_close_cleared(*, inspection: Inspection, amendment, results, by) ->
         f
         for f in Finding.objects.select_for_update()
         .filter(inspection=inspection, state=Finding.State.OPEN)
-        .select_related("evaluation")
+        .select_related("evaluation", "component")
         if (f.evaluation.check_name, f.evaluation.item_key, f.evaluation.component_id) in passing
     ]
     for finding in found:

@@ -10,7 +10,7 @@ from accounts.services import audit_record
 from inventory.selectors import sites_managed_by
 
 from .. import evaluation, selectors
-from ..models import Amendment, Evaluation, Finding, Inspection
+from ..models import Amendment, Finding, Inspection
 from . import findings as findings_service
 
 
@@ -120,18 +120,13 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
     cleared = findings_service.findings_close_cleared(
         inspection=inspection, amendment=amendment, results=results, by=by
     )
-    cleared_by_key = {(f.evaluation.item_key, f.component.label_code if f.component else None): f for f in cleared}
-    for c in changes:
-        if (f := cleared_by_key.get((c["item"], c["component"]))) is not None:
-            c["cleared_finding"] = f.pk
-    if cleared:
-        amendment.changes = changes
-        amendment.save(update_fields=["changes"])
-    if found:
-        by_key = {(f.evaluation.item_key, f.component.label_code if f.component else None): f for f in found}
-        for c in changes:
-            if (f := by_key.get((c["item"], c["component"]))) is not None:
-                c["finding"] = f.pk
+    if found or cleared:
+        # Each corrected item names the finding it opened or cleared, in the one record of the amendment.
+        for field_name, findings in (("finding", found), ("cleared_finding", cleared)):
+            by_key = {(f.evaluation.item_key, f.component.label_code if f.component else None): f for f in findings}
+            for c in changes:
+                if (f := by_key.get((c["item"], c["component"]))) is not None:
+                    c[field_name] = f.pk
         amendment.changes = changes
         amendment.save(update_fields=["changes"])
     audit_record(
@@ -170,23 +165,7 @@ def _newly_failed_open(*, inspection: Inspection, amendment: Amendment, results,
     ]
     if not new:
         return []
-    evals = [
-        Evaluation(
-            inspection=inspection,
-            amendment=amendment,
-            check_name=res.check,
-            item_key=res.item,
-            component=res.component,
-            verdict=res.verdict,
-            reason=res.reason[:500],
-            reason_parts=res.reason_parts,
-            method=res.method[:300],
-            derived=res.derived,
-            condition_code=res.condition_code,
-        )
-        for res in new
-    ]
-    Evaluation.objects.bulk_create(evals)
+    evals = findings_service.evaluations_store(inspection=inspection, results=new, amendment=amendment)
     return findings_service.findings_open(
         inspection=inspection,
         evaluations=evals,

@@ -28,7 +28,7 @@ from engineering.filters import FilterPoint
 from scheduling.models import WorkOrder
 
 from .. import checklists, evaluation, selectors
-from ..models import Evaluation, Inspection, Photo, Reading
+from ..models import Inspection, Photo, Reading
 from . import findings as findings_service
 from . import photos as photo_service
 
@@ -522,22 +522,7 @@ def _store(parsed: Parsed, user, results) -> dict:
             for p in new_photos:
                 p.inspection = inspection
                 p.save()
-            evals = [
-                Evaluation(
-                    inspection=inspection,
-                    check_name=res.check,
-                    item_key=res.item,
-                    component=res.component,
-                    verdict=res.verdict,
-                    reason=res.reason[:500],
-                    reason_parts=res.reason_parts,
-                    method=res.method[:300],
-                    derived=res.derived,
-                    condition_code=res.condition_code,
-                )
-                for res in results
-            ]
-            Evaluation.objects.bulk_create(evals)
+            evals = findings_service.evaluations_store(inspection=inspection, results=results)
             found = findings_service.findings_open(inspection=inspection, evaluations=evals, results=results, by=user)
             hours = next(
                 (r.value_si for r in parsed.readings if r.item.api_key == "visit.run_hours" and r.value_si is not None),
