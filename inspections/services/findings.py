@@ -242,7 +242,7 @@ def findings_close_cleared(*, inspection: Inspection, amendment, results, by) ->
     }
     found = [
         f
-        for f in Finding.objects.select_for_update()
+        for f in Finding.objects.select_for_update(of=("self",))  # lock the findings, not their (nullable) parts
         .filter(inspection=inspection, state=Finding.State.OPEN)
         .select_related("evaluation", "component")
         if (f.evaluation.check_name, f.evaluation.item_key, f.evaluation.component_id) in passing
