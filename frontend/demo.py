@@ -9,6 +9,7 @@ import datetime as dt
 from typing import Any
 
 from django.db import transaction
+from django.db.models import Q
 from django.utils import timezone
 
 from accounts.models import Membership, Role
@@ -17,7 +18,7 @@ from inspections.demo import demo_history_load
 from inventory.demo import demo_registry_load
 from scheduling.demo import demo_schedule_load
 from scheduling.models import WorkOrder
-from scheduling.selectors import today_visits_for
+from scheduling.selectors import person_today, site_today, today_visits_for
 from scheduling.services import outdoor_temperatures_store, work_order_assign, work_order_schedule
 from scheduling.weather import DailyTemperature
 
@@ -94,16 +95,28 @@ def _assign_upcoming(*, organisation, today: dt.date) -> int:
     for wo in open_orders:
         work_order_assign(work_order=wo, assignee=owner[wo.ahu.building.site_id], by=supervisor.user)
         count += 1
-    # A technician with nothing due yet gets their soonest visit planned for today, so every demo
-    # technician signs in to a round.
+    # A technician with nothing due yet gets the soonest visit on their sites (theirs already, or still
+    # unassigned) planned for today, so every demo technician signs in to a round whatever the date.
     for tech in technicians:
-        if today_visits_for(technician=tech, day=today):
+        if today_visits_for(technician=tech, day=person_today(user=tech)):
             continue
+        theirs = [site_id for site_id, person in owner.items() if person == tech]
         soonest = (
-            WorkOrder.objects.filter(assignee=tech, state=WorkOrder.State.ASSIGNED, due_date__gte=today)
+            WorkOrder.objects.filter(organisation=organisation, due_date__gte=today, ahu__building__site_id__in=theirs)
+            .filter(
+                Q(assignee=tech, state=WorkOrder.State.ASSIGNED)
+                | Q(assignee__isnull=True, state=WorkOrder.State.PLANNED)
+            )
+            .exclude(kind=WorkOrder.Kind.CORRECTIVE, approval="pending")
             .order_by("due_date", "id")
             .first()
         )
-        if soonest is not None:
-            work_order_schedule(work_order=soonest, day=today, by=supervisor.user)
+        if soonest is None:
+            continue
+        if soonest.assignee_id is None:
+            work_order_assign(work_order=soonest, assignee=tech, by=supervisor.user)
+            count += 1
+        # The site's own today: the service refuses a day already past there (after midnight in its zone).
+        day = max(today, site_today(site=soonest.ahu.building.site))
+        work_order_schedule(work_order=soonest, day=day, by=supervisor.user)
     return count
