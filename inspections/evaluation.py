@@ -29,6 +29,23 @@ from inspections.reasons import span
 
 OK, WATCH, FAIL, NA = "ok", "watch", "fail", "na"
 
+# Every check name a Result can carry. The phone's twin (frontend/static/frontend/js/evaluate.js)
+# must judge each of them the same way; tests/inspections/test_phone_agreement.py holds it to that.
+CHECKS = (
+    "check",  # a yes/no answer
+    "choice",  # a choice answer
+    "limits",  # a number against its band
+    "filter_loading",
+    "oa_fraction_temperature",
+    "oa_fraction_co2",
+    "coil_balance",
+    "supply_temperature",
+    "duct_static",
+    "damper_position",
+    "sensor_drift",
+    "heat_recovery",
+)
+
 # Severity of a failed check by what it puts at risk (common practice):
 # frozen coils and unproven fans stop the building; the rest degrades it.
 SEVERITY = {
@@ -312,6 +329,22 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
     return out
 
 
+def required_outdoor_airflow_m3s(ahu) -> float | None:
+    """Outdoor airflow the unit's space needs by the ventilation rate procedure, m³/s; None when unknown.
+
+    The phone receives this number with the checklist (inspections.phone) and judges against it offline.
+    """
+    if ahu.space_kind not in ventilation.SPACE_KINDS or not ahu.floor_area_m2:
+        return None
+    try:
+        vbz = ventilation.breathing_zone_outdoor_airflow(
+            space_kind=ahu.space_kind, floor_area_m2=ahu.floor_area_m2, occupants=ahu.design_occupants
+        )
+        return ventilation.zone_outdoor_airflow(vbz=vbz, ez=1.0)
+    except EngineeringInputError:
+        return None
+
+
 def _oa_checks(form: Form, consumed: set) -> list[Result]:
     out = []
     ahu = form.ahu
@@ -338,15 +371,7 @@ def _oa_checks(form: Form, consumed: set) -> list[Result]:
             ("ventilation_check.outdoor_co2", "ventilation_check.return_co2", "ventilation_check.supply_co2"),
         ),
     ]
-    required_q = None
-    if ahu.space_kind in ventilation.SPACE_KINDS and ahu.floor_area_m2:
-        try:
-            vbz = ventilation.breathing_zone_outdoor_airflow(
-                space_kind=ahu.space_kind, floor_area_m2=ahu.floor_area_m2, occupants=ahu.design_occupants
-            )
-            required_q = ventilation.zone_outdoor_airflow(vbz=vbz, ez=1.0)
-        except EngineeringInputError:
-            required_q = None
+    required_q = required_outdoor_airflow_m3s(ahu)
     for method, item, compute, keys in pairs:
         if any(form.num(k) is None for k in keys):
             continue
