@@ -16,14 +16,20 @@ from engineering.errors import EngineeringInputError, InsufficientDataError
 from engineering.trends import _as_datetime, robust_rate, run_hours_per_day
 
 __all__ = [
+    "AFTER_CHANGE_HIGH_FAIL",
+    "AFTER_CHANGE_TOLERANCE",
+    "BYPASS_FAIL_FRACTION",
+    "BYPASS_WATCH_FRACTION",
     "DEFAULT_EXPONENT",
     "EconomicChangePoint",
+    "FilterAfterChange",
     "FilterEnergy",
     "FilterForecast",
     "FilterLoading",
     "FilterPoint",
     "corrected_pressure_drop",
     "economic_change_point",
+    "filter_after_change",
     "filter_extra_energy",
     "filter_forecast",
     "filter_loading",
@@ -38,6 +44,20 @@ DEFAULT_EXPONENT = 1.5
 # below half or above 1.5 × design airflow are refused (common practice).
 AIRFLOW_RATIO = (0.5, 1.5)
 FILTER_DP_PA = (0.0, 2_500.0)
+# A bank in service never reads much below its rated clean pressure drop at
+# design airflow: air that does not pass through media (a missing or torn
+# filter, a frame that lets air round it) lowers it. Below half the clean
+# value fails as missing, torn or bypassed media; from half to 80 % is
+# watched (common practice; maker's clean values carry roughly ±10–15 %).
+BYPASS_FAIL_FRACTION = 0.5
+BYPASS_WATCH_FRACTION = 0.8
+# Straight after a change the bank should read its rated clean pressure drop:
+# more than 20 % above or below it (at design airflow) is watched (common
+# practice: a different class or size fitted, a gauge line off, or media
+# not seated); below half of it fails as for a bank in service, and above
+# 1.5 × it fails (the band the filter replacement checklist has always used).
+AFTER_CHANGE_TOLERANCE = 0.2
+AFTER_CHANGE_HIGH_FAIL = 1.5
 
 
 def _exponent(value: object) -> float:
@@ -97,6 +117,10 @@ class FilterLoading:
     fraction_of_span: float  # 0 = clean, 1 = final pressure drop
     verdict: Verdict
     reason: str
+    # Corrected pressure drop as a share of the rated clean value (1.0 = clean).
+    fraction_of_clean: float = 1.0
+    # True when the reading is so far below clean that air is likely passing round or through the media.
+    media_bypass_suspected: bool = False
 
 
 def filter_loading(
@@ -115,6 +139,11 @@ def filter_loading(
     fraction = (Δp_corrected − Δp_clean) / (Δp_final − Δp_clean). WATCH at
     ≥ 0.75 and FAIL at ≥ 0.95 of that span by default (common practice: plan
     the change at three quarters, change before the final value).
+
+    A corrected pressure drop below ``BYPASS_FAIL_FRACTION`` (50 %) of the
+    clean value FAILS as missing, torn or bypassed media, and one below
+    ``BYPASS_WATCH_FRACTION`` (80 %) is WATCHED (common practice): a bank
+    cannot read much less than clean unless air goes round the media.
     """
     corrected = corrected_pressure_drop(
         dp_pa=dp_pa,
@@ -139,13 +168,103 @@ def filter_loading(
     ff = v.in_range("fail_fraction", fail_fraction, wf, 1.5)
     frac = (corrected - clean) / (final - clean)
     f = round(frac, 9)
+    of_clean = corrected / clean if clean > 0 else 1.0
+    low = _below_clean(of_clean=of_clean, corrected=corrected, clean=clean)
+    if low is not None:
+        verdict, reason = low
+        return FilterLoading(
+            corrected_dp_pa=corrected,
+            fraction_of_span=frac,
+            verdict=verdict,
+            reason=reason,
+            fraction_of_clean=of_clean,
+            media_bypass_suspected=True,
+        )
     verdict = Verdict.FAIL if f >= ff else Verdict.WATCH if f >= wf else Verdict.OK
     reason = (
         f"filter {corrected:.0f} Pa at design airflow, {frac * 100:.0f} % of the way from clean "
         f"{clean:.0f} Pa to final {final:.0f} Pa (watch from {wf * 100:.0f} %, fail from "
         f"{ff * 100:.0f} %)"
     )
-    return FilterLoading(corrected_dp_pa=corrected, fraction_of_span=frac, verdict=verdict, reason=reason)
+    return FilterLoading(
+        corrected_dp_pa=corrected, fraction_of_span=frac, verdict=verdict, reason=reason, fraction_of_clean=of_clean
+    )
+
+
+def _below_clean(*, of_clean: float, corrected: float, clean: float) -> tuple[Verdict, str] | None:
+    """FAIL below half the clean pressure drop, WATCH below 80 % of it, else None."""
+    r = round(of_clean, 9)
+    if r >= BYPASS_WATCH_FRACTION:
+        return None
+    verdict = Verdict.FAIL if r < BYPASS_FAIL_FRACTION else Verdict.WATCH
+    word = "missing, torn or bypassed media" if verdict is Verdict.FAIL else "possibly torn or bypassed media"
+    reason = (
+        f"filter {corrected:.0f} Pa at design airflow is {of_clean * 100:.0f} % of its clean pressure drop "
+        f"{clean:.0f} Pa: {word} (fail below {BYPASS_FAIL_FRACTION * 100:.0f} %, watch below "
+        f"{BYPASS_WATCH_FRACTION * 100:.0f} % of clean)"
+    )
+    return verdict, reason
+
+
+@dataclass(frozen=True)
+class FilterAfterChange:
+    corrected_dp_pa: float
+    fraction_of_clean: float  # corrected / rated clean (1.0 = as rated)
+    verdict: Verdict
+    reason: str
+    media_bypass_suspected: bool
+
+
+def filter_after_change(
+    *,
+    dp_pa: float,
+    airflow_m3s: float,
+    design_airflow_m3s: float,
+    clean_dp_pa: float,
+    exponent: float = DEFAULT_EXPONENT,
+    tolerance: float = AFTER_CHANGE_TOLERANCE,
+) -> FilterAfterChange:
+    """Pressure drop read just after a filter change, against the rated clean value.
+
+    Corrected to design airflow (``corrected_pressure_drop``). OK within
+    ±``tolerance`` (20 %) of the clean value; FAIL below
+    ``BYPASS_FAIL_FRACTION`` (50 %) of it as missing, torn or bypassed media
+    and above ``AFTER_CHANGE_HIGH_FAIL`` (1.5 ×); WATCH in between, saying
+    whether it reads high (other class or size, gauge) or low (media not
+    seated) (common practice).
+    """
+    corrected = corrected_pressure_drop(
+        dp_pa=dp_pa, airflow_m3s=airflow_m3s, design_airflow_m3s=design_airflow_m3s, exponent=exponent
+    )
+    clean = v.in_range(
+        "clean_dp_pa", clean_dp_pa, *FILTER_DP_PA, unit="Pa", label="clean filter pressure drop", low_open=True
+    )
+    tol = v.in_range("tolerance", tolerance, 0.0, 1.0)
+    of_clean = corrected / clean
+    r = round(of_clean, 9)
+    head = f"new filter {corrected:.0f} Pa at design airflow, {of_clean * 100:.0f} % of its rated clean {clean:.0f} Pa"
+    band = (
+        f"(ok within ±{tol * 100:.0f} %, fail below {BYPASS_FAIL_FRACTION * 100:.0f} % or above "
+        f"{AFTER_CHANGE_HIGH_FAIL * 100:.0f} %)"
+    )
+    high = "higher than a new filter should read: check the class and size fitted and the gauge lines"
+    if r < BYPASS_FAIL_FRACTION:
+        verdict, what = Verdict.FAIL, "missing, torn or bypassed media"
+    elif r < 1.0 - tol:
+        verdict, what = Verdict.WATCH, "lower than a new filter should read: check the media is seated and sealed"
+    elif r > AFTER_CHANGE_HIGH_FAIL:
+        verdict, what = Verdict.FAIL, high
+    elif r > 1.0 + tol:
+        verdict, what = Verdict.WATCH, high
+    else:
+        verdict, what = Verdict.OK, "as rated"
+    return FilterAfterChange(
+        corrected_dp_pa=corrected,
+        fraction_of_clean=of_clean,
+        verdict=verdict,
+        reason=f"{head}: {what} {band}",
+        media_bypass_suspected=r < BYPASS_FAIL_FRACTION,
+    )
 
 
 @dataclass(frozen=True)
@@ -170,6 +289,10 @@ class FilterForecast:
     hours_per_day: float | None
     points_used: int
     method: str
+    # True when the fitted line is at or above the final pressure drop at the
+    # last reading's run-hours: the filter is due now, and every date is the
+    # last reading's (a forecast is never dated before the reading it is made from).
+    at_final_now: bool = False
 
 
 def filter_forecast(
@@ -196,6 +319,10 @@ def filter_forecast(
     or a fitted rise over the readings below min_rise_pa = 2 Pa, about a
     gauge's resolution: common practice). Pass only readings since the last
     filter change.
+
+    No date is earlier than the last reading's: a projection that lands
+    before it (the line already at or over the final value) is given the
+    last reading's date, with ``at_final_now`` set when the central line is.
     """
     final = _dp("final_dp_pa", final_dp_pa, "final filter pressure drop")
     n = _exponent(exponent)
@@ -270,10 +397,13 @@ def filter_forecast(
         except InsufficientDataError:
             hpd = None
 
+    latest = max(_as_datetime(w) for _, _, w in usable)
+
     def to_date(h: float | None) -> date | datetime | None:
         if h is None or hpd is None:
             return None
-        dt = _as_datetime(last_when) + timedelta(days=(h - last_h) / hpd)
+        # Never before the reading the forecast comes from (nor any reading given).
+        dt = max(_as_datetime(last_when) + timedelta(days=max(h - last_h, 0.0) / hpd), latest)
         if isinstance(last_when, datetime):
             return dt
         return (dt + timedelta(hours=12)).date()  # nearest whole day
@@ -290,6 +420,7 @@ def filter_forecast(
         rate_high_pa_per_hour=rate.high,
         hours_per_day=hpd,
         points_used=len(usable),
+        at_final_now=at_final <= last_h,
         method=(
             f"Theil–Sen line of pressure drop corrected to design airflow (n={n:g}) "
             f"against run-hours, {confidence * 100:.0f} % interval"

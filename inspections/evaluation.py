@@ -36,6 +36,7 @@ CHECKS = (
     "choice",  # a choice answer
     "limits",  # a number against its band
     "filter_loading",
+    "filter_after_change",
     "oa_fraction_temperature",
     "oa_fraction_co2",
     "coil_balance",
@@ -285,10 +286,33 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
             "loading_pct": round(pct, 1),
             "clean_dp_pa": specs["clean_dp_pa"],
             "final_dp_pa": specs["final_dp_pa"],
+            "fraction_of_clean_pct": round(loading.fraction_of_clean * 100, 1),
+            "media_bypass_suspected": loading.media_bypass_suspected,
         }
         res.method = (
-            f"Δp × (Q_design/Q)^{filters.DEFAULT_EXPONENT:g} (engineering.filters.filter_loading); airflow {q_how}"
+            f"Δp × (Q_design/Q)^{filters.DEFAULT_EXPONENT:g} against the clean-to-final span; below "
+            f"{filters.BYPASS_FAIL_FRACTION * 100:.0f} % of clean fails, below "
+            f"{filters.BYPASS_WATCH_FRACTION * 100:.0f} % watch (missing, torn or bypassed media; common practice); "
+            f"airflow {q_how}"
         )
+        if loading.media_bypass_suspected:
+            # A reading below clean says nothing about loading: no forecast from it.
+            res.say(
+                f"{bank.name}: filter reads ",
+                qty(loading.corrected_dp_pa, "pressure"),
+                f" at design airflow, {loading.fraction_of_clean * 100:.0f} % of its clean pressure drop ",
+                qty(specs["clean_dp_pa"], "pressure"),
+                ": "
+                + (
+                    "missing, torn or bypassed media"
+                    if res.verdict == FAIL
+                    else "lower than a filter in service should read, check for torn or bypassed media"
+                )
+                + f" (fail below {filters.BYPASS_FAIL_FRACTION * 100:.0f} %, watch below "
+                f"{filters.BYPASS_WATCH_FRACTION * 100:.0f} % of clean)",
+            )
+            out.append(res)
+            continue
         forecast_text = ""
         hours = form.num("visit.run_hours")
         if hours is not None:
@@ -324,6 +348,64 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
             ", final ",
             qty(specs["final_dp_pa"], "pressure"),
             f"){forecast_text}",
+        )
+        out.append(res)
+    return out
+
+
+def _filter_change_checks(form: Form, consumed: set) -> list[Result]:
+    """The pressure drop read just after a filter change, against the bank's rated clean value."""
+    out = []
+    q, q_how = supply_airflow(form)
+    for bank in (c for c in form.components if c.kind == "filter_bank"):
+        dp = form.num("filter_replace.dp_after", bank)
+        clean = bank.specs.get("clean_dp_pa")
+        if dp is None or clean is None:
+            continue
+        consumed.add(("filter_replace.dp_after", bank.pk))
+        design_q = bank.specs.get("design_airflow_m3s") or form.ahu.design_supply_airflow_m3s
+        res = Result(
+            check="filter_after_change", item="filter_replace.dp_after", component=bank, condition_code="filter_loaded"
+        )
+        try:
+            chk = filters.filter_after_change(dp_pa=dp, airflow_m3s=q, design_airflow_m3s=design_q, clean_dp_pa=clean)
+        except EngineeringInputError as exc:
+            res.verdict, res.reason = WATCH, f"{bank.name}: cannot judge the pressure drop after the change: {exc}"
+            out.append(res)
+            continue
+        tol = filters.AFTER_CHANGE_TOLERANCE
+        res.verdict = chk.verdict.value
+        res.derived = {
+            "dp_pa": dp,
+            "airflow_m3s": q,
+            "airflow_source": q_how,
+            "design_airflow_m3s": design_q,
+            "corrected_dp_pa": round(chk.corrected_dp_pa, 1),
+            "clean_dp_pa": clean,
+            "fraction_of_clean_pct": round(chk.fraction_of_clean * 100, 1),
+            "media_bypass_suspected": chk.media_bypass_suspected,
+        }
+        res.method = (
+            f"Δp × (Q_design/Q)^{filters.DEFAULT_EXPONENT:g} against the rated clean pressure drop: ok within "
+            f"±{tol * 100:.0f} %, fail below {filters.BYPASS_FAIL_FRACTION * 100:.0f} % or above "
+            f"{filters.AFTER_CHANGE_HIGH_FAIL * 100:.0f} % (common practice); airflow {q_how}"
+        )
+        r = round(chk.fraction_of_clean, 9)
+        if chk.media_bypass_suspected:
+            what = "missing, torn or bypassed media"
+        elif r < 1.0 - tol:
+            what = "lower than a new filter should read, check the media is seated and sealed"
+        elif r > 1.0 + tol:
+            what = "higher than a new filter should read, check the class and size fitted and the gauge lines"
+        else:
+            what = "as rated"
+        res.say(
+            f"{bank.name}: after the change the filter reads ",
+            qty(chk.corrected_dp_pa, "pressure"),
+            f" at design airflow, {chk.fraction_of_clean * 100:.0f} % of its rated clean pressure drop ",
+            qty(clean, "pressure"),
+            f": {what} (ok within ±{tol * 100:.0f} %, fail below {filters.BYPASS_FAIL_FRACTION * 100:.0f} % "
+            f"or above {filters.AFTER_CHANGE_HIGH_FAIL * 100:.0f} %)",
         )
         out.append(res)
     return out
@@ -691,7 +773,15 @@ def evaluate(form: Form) -> list[Result]:
     """Every judgement of one form, cross-reading checks first, then the remaining single readings."""
     consumed: set[tuple[str, int | None]] = set()
     results: list[Result] = []
-    for fn in (_filter_checks, _oa_checks, _coil_checks, _setpoint_checks, _drift_checks, _heat_recovery_checks):
+    for fn in (
+        _filter_checks,
+        _filter_change_checks,
+        _oa_checks,
+        _coil_checks,
+        _setpoint_checks,
+        _drift_checks,
+        _heat_recovery_checks,
+    ):
         results.extend(fn(form, consumed))
     for slot in form.slots:
         key = (slot.item.api_key, slot.component.pk if slot.component else None)

@@ -11,6 +11,7 @@ from engineering import (
     Verdict,
     corrected_pressure_drop,
     economic_change_point,
+    filter_after_change,
     filter_extra_energy,
     filter_forecast,
     filter_loading,
@@ -43,6 +44,55 @@ def test_loading_verdicts_at_75_and_95_percent_of_span(dp, verdict):
     assert result.verdict is verdict
     assert result.fraction_of_span == pytest.approx((dp - 80) / 170)
     assert "Pa" in result.reason
+
+
+@pytest.mark.parametrize(
+    ("dp", "verdict", "bypass"),
+    [
+        # Thresholds: below 50 % of clean fails, 50–80 % watch (common practice); clean 80 Pa, final 250 Pa.
+        (5.0, Verdict.FAIL, True),  # 6 % of clean: a missing or bypassed filter, passed before this check
+        (39.0, Verdict.FAIL, True),  # 48.75 % of clean
+        (40.0, Verdict.WATCH, True),  # exactly 50 %: watch
+        (63.0, Verdict.WATCH, True),  # 78.75 %
+        (64.0, Verdict.OK, False),  # exactly 80 %: back to the span judgement
+    ],
+)
+def test_reading_far_below_clean_is_missing_torn_or_bypassed_media(dp, verdict, bypass):
+    result = filter_loading(dp_pa=dp, airflow_m3s=2.0, design_airflow_m3s=2.0, clean_dp_pa=80.0, final_dp_pa=250.0)
+    assert result.verdict is verdict
+    assert result.media_bypass_suspected is bypass
+    assert result.fraction_of_clean == pytest.approx(dp / 80.0)
+    if verdict is Verdict.FAIL:
+        assert "missing, torn or bypassed media" in result.reason
+
+
+def test_low_reading_is_judged_after_correcting_to_design_airflow():
+    # 30 Pa at 1.2 m³/s of 2.0 design: 30 × (2.0/1.2)^1.5 = 64.55 Pa = 80.7 % of 80 Pa clean → not bypass.
+    # Hand-worked: (5/3)^1.5 = 2.1517; 30 × 2.1517 = 64.55.
+    result = filter_loading(dp_pa=30.0, airflow_m3s=1.2, design_airflow_m3s=2.0, clean_dp_pa=80.0, final_dp_pa=250.0)
+    assert result.corrected_dp_pa == pytest.approx(64.55, abs=0.01)
+    assert result.verdict is Verdict.OK and not result.media_bypass_suspected
+
+
+@pytest.mark.parametrize(
+    ("dp", "verdict", "words"),
+    [
+        # ±20 % of the rated clean value after a change is ok; below 50 % or above 150 % fails (common practice).
+        (80.0, Verdict.OK, "as rated"),
+        (96.0, Verdict.OK, "as rated"),  # +20 % exactly
+        (97.0, Verdict.WATCH, "higher than a new filter should read"),
+        (64.0, Verdict.OK, "as rated"),  # −20 % exactly
+        (63.0, Verdict.WATCH, "lower than a new filter should read"),
+        (30.0, Verdict.FAIL, "missing, torn or bypassed media"),
+        (120.0, Verdict.WATCH, "higher than a new filter should read"),  # 1.5 × exactly
+        (121.0, Verdict.FAIL, "higher than a new filter should read"),
+    ],
+)
+def test_reading_after_a_change_against_the_rated_clean_value(dp, verdict, words):
+    result = filter_after_change(dp_pa=dp, airflow_m3s=2.0, design_airflow_m3s=2.0, clean_dp_pa=80.0)
+    assert result.verdict is verdict
+    assert words in result.reason
+    assert result.fraction_of_clean == pytest.approx(dp / 80.0)
 
 
 def test_final_not_above_clean_is_refused():

@@ -60,6 +60,58 @@ def test_filter_loading_is_corrected_to_design_airflow(api_client):
 
 
 @pytest.mark.django_db
+def test_filter_reading_far_below_clean_fails_as_missing_torn_or_bypassed_media(api_client):
+    """5 Pa on a bank rated 90 Pa clean, 250 Pa final, at design airflow (3.0 m³/s = 3000 L/s).
+
+    5/90 = 6 % of the clean pressure drop, below the 50 % fail line (common practice): before this
+    check it was judged ok, so a missing or bypassed filter passed; now it opens a finding.
+    """
+    wo, tech = make_visit(tasks=["filter_check"])
+    bank = component(wo.ahu, "Final filters")
+    out = submit(api_client, wo, tech, [r("visit.supply_airflow", 3000), r("filter_check.dp", 5, bank)])
+    ev = result(out, "filter_loading", bank)
+    assert ev["verdict"] == "fail"
+    assert ev["derived"]["media_bypass_suspected"] is True
+    assert ev["derived"]["fraction_of_clean_pct"] == pytest.approx(5.6, abs=0.1)
+    assert "missing, torn or bypassed media" in ev["reason"]
+    assert "forecast" not in ev["reason"]
+    assert Finding.objects.filter(inspection_id=out["inspection_id"], component=bank).exists()
+
+
+@pytest.mark.django_db
+@pytest.mark.parametrize(
+    ("dp", "verdict", "words"),
+    [
+        # Rated clean 90 Pa at design airflow: ok within ±20 % (72–108 Pa), fail below 50 % (45 Pa) or
+        # above 150 % (135 Pa), watch between (common practice).
+        (95, "ok", "as rated"),
+        (115, "watch", "higher than a new filter should read"),
+        (60, "watch", "lower than a new filter should read"),
+        (30, "fail", "missing, torn or bypassed media"),
+    ],
+)
+def test_pressure_drop_after_a_filter_change_against_the_rated_clean_value(api_client, dp, verdict, words):
+    wo, tech = make_visit(tasks=["filter_replace"])
+    bank = component(wo.ahu, "Final filters")
+    out = submit(
+        api_client,
+        wo,
+        tech,
+        [
+            r("visit.supply_airflow", 3000),
+            r("filter_replace.replaced", "ok", bank),
+            r("filter_replace.dp_after", dp, bank),
+        ],
+    )
+    ev = result(out, "filter_after_change", bank)
+    assert ev["verdict"] == verdict
+    assert words in ev["reason"]
+    assert ev["derived"]["fraction_of_clean_pct"] == pytest.approx(dp / 90 * 100, abs=0.1)
+    # The reading is judged once, by this check, not again against its plain band.
+    assert not [e for e in out["evaluation"] if e["check"] == "limits" and e["component"] == bank.label_code]
+
+
+@pytest.mark.django_db
 def test_filter_change_is_forecast_from_this_and_earlier_readings(api_client):
     """Δp rising 20 Pa per 500 run-hours (0.04 Pa/h) from 170 Pa reaches 250 Pa after 2000 more hours.
 
