@@ -17,7 +17,7 @@ from typing import Any
 
 from engineering import controls, filters, heat_recovery, outdoor_air, ventilation
 from engineering import units as eng_units
-from engineering.airside import coil_balance, sensible_heat_w, water_side_heat_w
+from engineering.airside import coil_balance, dry_air_density_kg_m3, sensible_heat_w, water_side_heat_w
 from engineering.errors import EngineeringInputError
 from engineering.fans import expected_flow_at_speed
 from engineering.filters import FilterPoint
@@ -520,11 +520,22 @@ def _coil_checks(form: Form, consumed: set) -> list[Result]:
             if any(v is None for v in vals.values()):
                 continue
             res = Result(check="coil_balance", item=f"{template}.water_flow", component=coil)
-            airflow = coil.specs.get("design_airflow_m3s") if q_how.startswith("design") else q
-            airflow = airflow or q
+            # The supply airflow (measured, from fan speed, or the unit's design) is at the supply fan,
+            # downstream of the coils: its density is the leaving air's. A coil's own design airflow is
+            # rated at its entering air (common practice).
+            airflow, airflow_at = q, "leaving"
+            if q_how.startswith("design") and coil.specs.get("design_airflow_m3s"):
+                airflow, airflow_at = coil.specs["design_airflow_m3s"], "entering"
             try:
                 air = sensible_heat_w(
-                    airflow_m3s=airflow, t_in_c=vals["air_in"], t_out_c=vals["air_out"], pressure_pa=p
+                    airflow_m3s=airflow,
+                    t_in_c=vals["air_in"],
+                    t_out_c=vals["air_out"],
+                    pressure_pa=p,
+                    airflow_at=airflow_at,
+                )
+                rho_air = dry_air_density_kg_m3(
+                    t_c=vals["air_out"] if airflow_at == "leaving" else vals["air_in"], pressure_pa=p
                 )
                 fluid = "water"
                 water = water_side_heat_w(
@@ -541,10 +552,18 @@ def _coil_checks(form: Form, consumed: set) -> list[Result]:
                 "difference_pct": round(bal.difference_pct, 1),
                 "airflow_m3s": airflow,
                 "airflow_source": q_how,
+                "airflow_at": airflow_at,
+                "air_density_kg_m3": round(rho_air, 4),
+                "pressure_pa": round(p),
             }
+            state = (
+                "leaving air (airflow at the supply fan, after the coil)"
+                if airflow_at == "leaving"
+                else "entering air (the coil's design airflow)"
+            )
             res.method = (
-                "air side q = ṁ·c_p·Δt (sensible, engineering.airside.sensible_heat_w); water side "
-                "q = ρ·V·c_p·Δt (water_side_heat_w); balance within 10 % ok, 20 % watch"
+                f"air side q = ρ·V·c_p·Δt, sensible, dry air, ρ = p/(R_da·T) at the {state}; water side "
+                "q = ρ·V·c_p·Δt; balance within 10 % ok, 20 % watch"
             )
             res.verdict = bal.verdict.value
             which = "air side higher" if bal.difference_pct > 0 else "water side higher"

@@ -1,7 +1,7 @@
 """Coil heat flows against the trade's textbook forms and fluid data."""
 
 import pytest
-from CoolProp.CoolProp import PropsSI
+from CoolProp.CoolProp import HAPropsSI, PropsSI
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -17,6 +17,7 @@ from engineering import (
     total_heat_w,
     water_side_heat_w,
 )
+from engineering.airside import dry_air_density_kg_m3
 from engineering.units import ureg
 
 Q = ureg.Quantity
@@ -46,6 +47,34 @@ def test_sensible_heat_matches_ashrae_si_factor():
     # that can be asked of it.
     q = sensible_heat_w(airflow_m3s=1.0, t_in_c=20.0, t_out_c=30.0, humidity_ratio=0.0075)
     assert q == pytest.approx(1.23 * 1000 * 10, rel=0.02)
+
+
+def test_airflow_measured_after_the_coil_takes_the_leaving_air_density():
+    """A preheat coil, −10 → 20 °C, 1.0 m³/s measured at the supply fan after the coil, 101 325 Pa.
+
+    Hand-worked: ρ = p/(R_da·T), R_da = 287.042 J/kg·K (ASHRAE Fundamentals 2017 ch.1):
+    ρ(20 °C) = 101325/(287.042 × 293.15) = 1.2042 kg/m³, ρ(−10 °C) = 101325/(287.042 × 263.15) = 1.3414
+    (CoolProp HAPropsSI('Vda', T, P, W=0) gives 0.8301 and 0.7449 m³/kg,
+    within 0.05 % of the inverses: it counts air as a real gas).
+    q = 1.0 × 1.2042 × 1006 × 30 = 36 342 W at the leaving state; at the entering state it would be
+    1.3414 × 1006 × 30 = 40 484 W, 11.4 % too high.
+    """
+    assert dry_air_density_kg_m3(t_c=20.0) == pytest.approx(1.2042, abs=1e-4)
+    assert dry_air_density_kg_m3(t_c=-10.0) == pytest.approx(1.3414, abs=1e-4)
+    # CoolProp's real-gas air (compressibility included) is within 0.05 % of the ideal-gas value.
+    assert 1 / dry_air_density_kg_m3(t_c=20.0) == pytest.approx(
+        HAPropsSI("Vda", "T", 293.15, "P", 101325, "W", 0), rel=5e-4
+    )
+    leaving = sensible_heat_w(airflow_m3s=1.0, t_in_c=-10.0, t_out_c=20.0, airflow_at="leaving")
+    entering = sensible_heat_w(airflow_m3s=1.0, t_in_c=-10.0, t_out_c=20.0)
+    assert leaving == pytest.approx(36_342, rel=1e-3)
+    assert entering == pytest.approx(40_484, rel=1e-3)
+    # Cooling coil 24 → 12 °C: taken at the entering state the air side would be 4.0 % low (285.15/297.15).
+    cool_in = sensible_heat_w(airflow_m3s=1.0, t_in_c=24.0, t_out_c=12.0)
+    cool_out = sensible_heat_w(airflow_m3s=1.0, t_in_c=24.0, t_out_c=12.0, airflow_at="leaving")
+    assert cool_out / cool_in == pytest.approx(297.15 / 285.15, rel=1e-6)
+    with pytest.raises(EngineeringInputError, match="airflow_at='outlet'"):
+        sensible_heat_w(airflow_m3s=1.0, t_in_c=0.0, t_out_c=10.0, airflow_at="outlet")
 
 
 def test_sensible_and_latent_add_up_to_total_on_a_cooling_coil():
