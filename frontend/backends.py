@@ -84,3 +84,54 @@ def inspection_verify(*, inspection, by):
     from inspections.services import inspection_verify as real
 
     return real(inspection=inspection, by=by)
+
+
+def submission_allowed(*, user, work_order) -> bool:
+    """Whether the person fills forms for the work order (property managers only read)."""
+    from inspections.selectors import submission_allowed as real
+
+    return real(user=user, work_order=work_order)
+
+
+def amendment_allowed(*, user, inspection) -> bool:
+    """The technician who signed the inspection or a supervisor of its site."""
+    from inspections.selectors import amendment_allowed as real
+
+    return real(user=user, inspection=inspection)
+
+
+def inspection_status(*, inspection) -> str:
+    """What a stored form is now: verified, flagged while a flag is unresolved, else stored."""
+    from inspections.selectors import inspection_status as real
+
+    return real(inspection=inspection)
+
+
+def inspection_amend(*, inspection, by, reason: str, readings: list, unit_system: str):
+    """inspections' amend service: a correction beside the signed record, judged again."""
+    from inspections.services import inspection_amend as real
+
+    return real(inspection=inspection, by=by, reason=reason, readings=readings, unit_system=unit_system)
+
+
+def visit_records(*, work_order, system: str, photo_src, signature_src) -> list[dict]:
+    """The record of each stored form of the work order, as the inspection report prints it."""
+    from reports.documents.inspection_report import visit_records as real
+
+    visits, _components, _cautions = real(
+        work_order=work_order, system=system, photo_src=photo_src, signature_src=signature_src
+    )
+    return visits
+
+
+def image_data_uri(stored_file, *, max_px: int) -> str | None:
+    """A stored image (a signature) as a small data URI, as the PDFs embed it."""
+    from reports.rendering import stored_file_data_uri
+
+    return stored_file_data_uri(stored_file, max_px=max_px)
+
+
+def inspections_visible_to(*, user):
+    from inspections.selectors import inspections_visible_to as real
+
+    return real(user=user)

@@ -56,6 +56,7 @@ def site_summaries(*, user, as_of: dt.datetime | None = None) -> tuple[complianc
             "overdue": 0,
             "filters": dict.fromkeys(("fail", "watch", "ok", "none"), 0),
             "freeze": dict.fromkeys(compliance.FREEZE_LABELS, 0),
+            "freeze_not_ready": [],
         }
         for s in figures.sites
     }
@@ -69,6 +70,9 @@ def site_summaries(*, user, as_of: dt.datetime | None = None) -> tuple[complianc
             rows[item["unit"].building.site_id]["filters"][verdict] += 1
     for item in figures.freeze:
         rows[item["unit"].building.site_id]["freeze"][item["status"]] += 1
+        if item["status"] != compliance.FREEZE_READY:
+            # Each unit that is not ready says why (inspections.freeze's words), not only a count.
+            rows[item["unit"].building.site_id]["freeze_not_ready"].append(f"{item['unit'].tag}: {item['reason']}")
     for row in rows.values():
         row["freeze_text"] = freeze_text(row["freeze"])
         per_site = figures.by_site.get(row["site"].pk, {})
@@ -146,6 +150,21 @@ def latest_inspection(*, work_order):
         .order_by("-finished_at", "-id")
         .first()
     )
+
+
+def record_inspection(*, work_order):
+    """The signed record of the work order: the form that completed it, else the newest stored form, or None.
+
+    A later form for the same work order (sent twice, or after completion) is stored and flagged
+    beside it; verification and the page's status follow the form that did the work.
+    """
+    completing = (
+        Inspection.objects.filter(work_order=work_order, work_order_completed=True)
+        .select_related("verified_by", "technician")
+        .order_by("-finished_at", "-id")
+        .first()
+    )
+    return completing or latest_inspection(work_order=work_order)
 
 
 def item_labels(checklist: dict | None) -> dict[tuple[str, str | None], str]:

@@ -19,6 +19,7 @@ urlpatterns = [
     path("w/<uuid:public_id>/", technician.checklist, name="checklist"),
     path("w/<uuid:public_id>/result/", technician.checklist_result, name="checklist_result"),
     path("w/<uuid:public_id>/verify/", supervisor.verify, name="verify"),
+    path("w/<uuid:public_id>/amend/", technician.amend, name="amend"),
     path("calc/", calculator.calculator, name="calculator"),
     path("api/calc/<slug:name>/", api.CalcView.as_view(), name="calc_api"),
     # supervisor

@@ -18,7 +18,6 @@ from __future__ import annotations
 
 from typing import Any
 
-from engineering import filters as eng_filters
 from engineering import units as eng_units
 
 LOCKOUT = (
@@ -58,6 +57,7 @@ def item(
     quantity: str = "",
     per: str = "",
     where: dict | None = None,
+    unit_where: dict | None = None,
     physical: tuple[float | None, float | None] = (None, None),
     plausible: tuple[float | None, float | None] = (None, None),
     ok: tuple[float | None, float | None] = (None, None),
@@ -81,6 +81,7 @@ def item(
         "decimals": decimals,
         "component_kind": per,
         "component_filter": where or {},
+        "unit_filter": unit_where or {},
         "choices": choices or [],
         "physical_min": physical[0],
         "physical_max": physical[1],
@@ -118,6 +119,10 @@ def photo(key: str = "photo", label: str = "Photo", **kw) -> dict:
 
 
 CP = "common practice, no published source"
+
+# ``unit_where``: the unit fields an item needs (value or list of values), so an item whose
+# input the unit cannot have is never asked. A 100 % outdoor-air unit has no return or mixed air.
+RECIRCULATING = {"full_outdoor_air": False}
 
 # The visit block is added to every checklist: the unit's run-hour meter and
 # the airflow at the time, which filter and coil evaluations need.
@@ -181,10 +186,7 @@ TEMPLATES: list[dict[str, Any]] = [
                 required=True,
                 note=True,
                 decimals=0,
-                source=(
-                    "bands at 75 % / 95 % of the clean-to-final span; below 80 % / 50 % of clean "
-                    "(missing, torn or bypassed media), " + CP
-                ),
+                source="bands at 75 % / 95 % of the clean-to-final span, " + CP,
                 help="Read the gauge across this bank with the fan at its normal speed.",
             ),
             check(
@@ -236,7 +238,7 @@ TEMPLATES: list[dict[str, Any]] = [
                 decimals=0,
                 required=True,
                 note=True,
-                source="ok within 0.8–1.2 × the rated clean pressure drop, watch 0.5–1.5 × (" + CP + ")",
+                source="ok up to 1.2 × the rated clean pressure drop, watch to 1.5 × (" + CP + ")",
             ),
             check("old_bagged", "Used filters bagged and removed", per="filter_bank"),
             photo("photo", "Photo of the new filters", per="filter_bank"),
@@ -756,13 +758,13 @@ TEMPLATES: list[dict[str, Any]] = [
     },
     {
         "code": "ventilation_check",
-        "version": 1,
+        "version": 2,
         "title": "Outdoor air and ventilation",
         "cautions": [LOCAL_CODES],
         "items": [
             air_temp("outdoor_air", "Outdoor air temperature", required=True),
-            air_temp("return_air", "Return air temperature", required=True),
-            air_temp("mixed_air", "Mixed air temperature", required=True, server=True),
+            air_temp("return_air", "Return air temperature", required=True, unit_where=RECIRCULATING),
+            air_temp("mixed_air", "Mixed air temperature", required=True, server=True, unit_where=RECIRCULATING),
             item(
                 "outdoor_co2",
                 "number",
@@ -777,6 +779,7 @@ TEMPLATES: list[dict[str, Any]] = [
                 "number",
                 "Return CO2",
                 quantity="co2",
+                unit_where=RECIRCULATING,
                 physical=CO2_PHYSICAL,
                 plausible=(350, 5_000),
                 decimals=0,
@@ -853,24 +856,10 @@ def dynamic_limits(*, rule: str, ahu, component) -> dict[str, float | None]:
         if clean is None or final is None:
             return {}
         span = final - clean
-        # Far below clean means missing, torn or bypassed media (engineering.filters, common practice).
-        return {
-            "ok_min": eng_filters.BYPASS_WATCH_FRACTION * clean,
-            "ok_max": clean + 0.75 * span,
-            "watch_min": eng_filters.BYPASS_FAIL_FRACTION * clean,
-            "watch_max": clean + 0.95 * span,
-        }
+        return {"ok_max": clean + 0.75 * span, "watch_max": clean + 0.95 * span}
     if rule == "filter_clean":
         clean = specs.get("clean_dp_pa")
-        if clean is None:
-            return {}
-        tol = eng_filters.AFTER_CHANGE_TOLERANCE
-        return {
-            "ok_min": (1 - tol) * clean,
-            "ok_max": (1 + tol) * clean,
-            "watch_min": eng_filters.BYPASS_FAIL_FRACTION * clean,
-            "watch_max": eng_filters.AFTER_CHANGE_HIGH_FAIL * clean,
-        }
+        return {} if clean is None else {"ok_max": 1.2 * clean, "watch_max": 1.5 * clean}
     if rule == "motor_fla":
         fla = specs.get("motor_full_load_a")
         return {} if fla is None else {"ok_max": fla, "watch_max": 1.1 * fla}

@@ -62,6 +62,11 @@ class ChecklistItem(models.Model):
         max_length=30, blank=True, help_text="Repeat the item for each component of this kind (blank: once per unit)."
     )
     component_filter = models.JSONField(default=dict, blank=True, help_text="Spec values a component must have.")
+    unit_filter = models.JSONField(
+        default=dict,
+        blank=True,
+        help_text="What the unit must be for the item to be asked: {unit field: value or [values]} (blank: any unit).",
+    )
     choices = models.JSONField(default=list, blank=True, help_text="[{value, label, ok}]")
     physical_min = models.FloatField(null=True, blank=True)
     physical_max = models.FloatField(null=True, blank=True)

@@ -48,6 +48,30 @@ def work_order_for_sync(*, user: User, public_id) -> WorkOrder | None:
     )
 
 
+def submission_allowed(*, user: User, work_order: WorkOrder) -> bool:
+    """Whether the person fills forms for the work order's organisation (property managers only read)."""
+    return user.memberships.filter(role__in=SUBMITTING_ROLES, organisation_id=work_order.organisation_id).exists()
+
+
+def amendment_allowed(*, user: User, inspection: Inspection) -> bool:
+    """The technician who signed the inspection, or a supervisor of its site, may amend it."""
+    if user.pk == inspection.technician_id:
+        return True
+    return sites_managed_by(user=user).filter(pk=inspection.ahu.building.site_id).exists()
+
+
+def inspection_status(*, inspection: Inspection) -> str:
+    """What a stored form is now: "verified", "flagged" while a flag is unresolved, else "stored".
+
+    The sync answer keeps the status the phone was first given; this is the status today.
+    """
+    if inspection.verified_at is not None:
+        return "verified"
+    if inspection.flag_open:
+        return "flagged"
+    return "stored"
+
+
 def inspections_visible_to(*, user: User) -> QuerySet[Inspection]:
     return Inspection.objects.filter(ahu__building__site__in=sites_visible_to(user=user)).select_related(
         "ahu__building__site", "work_order", "technician"
@@ -109,9 +133,19 @@ class Checklist:
         return self._by_key
 
 
+def _allowed(value, wanted) -> bool:
+    """A filter value is one allowed value, or a list of them."""
+    return value in wanted if isinstance(wanted, list) else value == wanted
+
+
+def _unit_matches(ahu: AHU, item: ChecklistItem) -> bool:
+    """Whether the unit can have the item's inputs (``unit_where`` in inspections/checklists.py)."""
+    return all(_allowed(getattr(ahu, k, None), v) for k, v in (item.unit_filter or {}).items())
+
+
 def _matches(component: Component, item: ChecklistItem) -> bool:
     return component.kind == item.component_kind and all(
-        component.specs.get(k) == v for k, v in (item.component_filter or {}).items()
+        _allowed((component.specs or {}).get(k), v) for k, v in (item.component_filter or {}).items()
     )
 
 
@@ -162,6 +196,8 @@ def checklist_build(*, work_order: WorkOrder) -> Checklist:
         wanted = codes.get(template.code)
         t_slots = []
         for item in template.items.all():
+            if not _unit_matches(work_order.ahu, item):
+                continue
             if not item.component_kind:
                 t_slots.append(Slot(item, template, None, item_limits(item=item, ahu=work_order.ahu, component=None)))
                 continue

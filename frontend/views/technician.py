@@ -1,18 +1,20 @@
 """The technician's phone pages: today's visits, a unit by its label code, the checklist."""
 
+from django.contrib import messages
 from django.contrib.auth.decorators import login_required
+from django.core.exceptions import PermissionDenied, ValidationError
 from django.http import Http404
 from django.shortcuts import redirect, render
 from django.urls import reverse
 from django.utils import timezone
-from django.views.decorators.http import require_GET
+from django.views.decorators.http import require_GET, require_POST
 
 from inventory.selectors import component_tree
 from scheduling.models import WorkOrder
 from scheduling.selectors import person_today
 
 from .. import backends, selectors
-from ..checklist_form import caution_blocks, cautions_for, form_sections, payload_from_post
+from ..checklist_form import _number, caution_blocks, cautions_for, form_sections, payload_from_post
 from .records import LAYOUTS
 
 CHECKLIST_API = "/api/inspections/work-orders/{}/checklist/"
@@ -74,7 +76,9 @@ def checklist_result(request, public_id):
     if inspection is None:
         raise Http404("No form of this work order has reached the server yet.")
     labels = selectors.item_labels(backends.checklist_for(user=request.user, work_order=wo))
-    result = selectors.result_for_display(result=inspection.sync_result, system=request.user.unit_system, labels=labels)
+    result = selectors.result_for_display(
+        result=stored_result(inspection=inspection, work_order=wo), system=request.user.unit_system, labels=labels
+    )
     return render(request, "frontend/technician/_result.html", {"result": result})
 
 
@@ -109,36 +113,176 @@ def _work_order(request, public_id):
     return wo
 
 
+DONE_STATES = (WorkOrder.State.COMPLETED, WorkOrder.State.VERIFIED)
+PHOTO_THUMB = "/api/inspections/photos/{}/thumbnail/"
+PHOTO_FULL = "/api/inspections/photos/{}/"
+# Plain words a person may type for a check when amending, and the value stored.
+CHECK_WORDS = {
+    "ok": "ok",
+    "not ok": "not_ok",
+    "not_ok": "not_ok",
+    "n/a": "na",
+    "na": "na",
+    "n.a.": "na",
+    "not applicable": "na",
+}
+
+
+def stored_result(*, inspection, work_order) -> dict:
+    """A stored form's first answer with the status it has now (verified, or flagged only while unresolved)."""
+    return {
+        **(inspection.sync_result or {}),
+        "status": backends.inspection_status(inspection=inspection),
+        "work_order_state": work_order.get_state_display().lower(),
+    }
+
+
+def record_context(*, request, wo) -> dict:
+    """The signed record of each stored form of the work order, in the reader's units and the site's zone."""
+    visits = backends.visit_records(
+        work_order=wo,
+        system=request.user.unit_system,
+        photo_src=lambda ph: {"thumb": PHOTO_THUMB.format(ph.client_uuid), "full": PHOTO_FULL.format(ph.client_uuid)},
+        signature_src=lambda insp: backends.image_data_uri(insp.signature_image, max_px=400),
+    )
+    for visit in visits:
+        insp = visit["inspection"]
+        visit["status"] = backends.inspection_status(inspection=insp)
+        # Each reading shows its own verdict; below it, only the judgements that computed something more.
+        visit["judgements"] = [ev for ev in visit["evaluations"] if ev["derived"] or ev["e"].method]
+        visit["may_amend"] = backends.amendment_allowed(user=request.user, inspection=insp)
+        visit["amendable"] = [
+            {"value": f"{row_key}", "label": row_label} for row_key, row_label in _amendable_readings(insp)
+        ]
+    return {"visits": visits, "site_zone": wo.ahu.building.site.time_zone}
+
+
+def _amendable_readings(inspection) -> list[tuple[str, str]]:
+    """(item|component code, "Label — component") for each reading of the form, in the record's order."""
+    out = []
+    for r in inspection.readings.all():
+        if r.item.kind in ("photo", "text"):
+            continue
+        code = r.component.label_code if r.component else ""
+        label = r.item.label + (f" — {r.component.name}" if r.component else "")
+        out.append((f"{r.item.api_key}|{code}", label))
+    return out
+
+
 @login_required
 def checklist(request, public_id):
+    """A work order's page: its signed record once done (read-only), the form while it is open.
+
+    Only people who fill forms for the organisation get the form; a property manager reads.
+    """
     wo = _work_order(request, public_id)
+    done = wo.state in DONE_STATES
+    may_submit = backends.submission_allowed(user=request.user, work_order=wo)
     data = backends.checklist_for(user=request.user, work_order=wo)
     system = request.user.unit_system
     result = None
-    if request.method == "POST" and data is not None:
+    if request.method == "POST" and data is not None and may_submit and not done:
         form = payload_from_post(checklist=data, post=request.POST, files=request.FILES)
         result = backends.sync_forms(user=request.user, forms=[form])[0]
         wo.refresh_from_db()
-    inspection = selectors.latest_inspection(work_order=wo)
+        done = wo.state in DONE_STATES
+    inspection = selectors.record_inspection(work_order=wo)
     if result is None and inspection is not None:
-        result = inspection.sync_result
-    done = wo.state in (WorkOrder.State.COMPLETED, WorkOrder.State.VERIFIED)
+        result = stored_result(inspection=inspection, work_order=wo)
     return render(
         request,
         "frontend/technician/checklist.html",
         {
             "wo": wo,
+            "done": done,
+            "show_form": not done and may_submit and data is not None,
             "checklist": data,
             "sections": form_sections(data) if data else [],
             "cautions": cautions_for(data or {}),
             "caution_blocks": caution_blocks(cautions_for(data or {})),
             "started_at": timezone.now().isoformat(),
-            "result": selectors.result_for_display(result=result, system=system, labels=selectors.item_labels(data)),
+            "result": None
+            if done
+            else selectors.result_for_display(result=result, system=system, labels=selectors.item_labels(data)),
             "checklist_api": CHECKLIST_API.format(wo.public_id),
             "inspection": inspection,
             "can_report": done and inspection is not None,
             "can_verify": wo.state == WorkOrder.State.COMPLETED
             and backends.work_orders_managed_by(user=request.user).filter(pk=wo.pk).exists(),
+            **(record_context(request=request, wo=wo) if inspection is not None else {"visits": []}),
         },
-        status=200 if data is not None else 503,
+        status=200 if data is not None or done else 503,
     )
+
+
+def _amend_value(raw: str, item):
+    """The corrected value as the sync reads it: a number, or the stored word of a check or choice."""
+    text = raw.strip()
+    if item.kind == "number":
+        return _number(text) if text.lower() not in CHECK_WORDS else "na"
+    if item.kind == "check":
+        return CHECK_WORDS.get(text.lower(), text)
+    if item.kind == "choice":
+        if text.lower() in ("n/a", "na", "n.a.", "not applicable"):
+            return "na"
+        for choice in item.choices or []:
+            if text.lower() in (str(choice.get("label", "")).lower(), str(choice.get("value", "")).lower()):
+                return choice.get("value")
+    return text
+
+
+@login_required
+@require_POST
+def amend(request, public_id):
+    """An amendment to a signed form of the work order, from its record (inspections' amend service)."""
+    wo = _work_order(request, public_id)
+    back = redirect("frontend:checklist", public_id=wo.public_id)
+    inspection = (
+        backends.inspections_visible_to(user=request.user)
+        .filter(
+            work_order=wo,
+            pk=request.POST.get("inspection") if str(request.POST.get("inspection", "")).isdigit() else None,
+        )
+        .first()
+    )
+    if inspection is None:
+        raise Http404("No such signed form of this work order that you may see.")
+    key, _, code = request.POST.get("item", "").partition("|")
+    reading = next(
+        (
+            r
+            for r in inspection.readings.select_related("item__template", "component")
+            if r.item.api_key == key and (r.component.label_code if r.component else "") == code
+        ),
+        None,
+    )
+    if reading is None:
+        messages.error(request, "The amendment was not saved: choose the reading to correct from the list.")
+        return back
+    correction = {
+        "item": key,
+        "component": code or None,
+        "value": _amend_value(request.POST.get("value", ""), reading.item),
+        "note": request.POST.get("note", "").strip(),
+    }
+    try:
+        backends.inspection_amend(
+            inspection=inspection,
+            by=request.user,
+            reason=request.POST.get("reason", ""),
+            readings=[correction],
+            unit_system=request.user.unit_system,
+        )
+    except PermissionDenied:
+        messages.error(request, "Only the technician who signed the form or a supervisor of the site may amend it.")
+    except ValidationError as exc:
+        messages.error(request, "The amendment was not saved: " + " ".join(_plain_errors(exc)))
+    else:
+        messages.success(request, f"Amendment to {reading.item.label} saved beside the signed record.")
+    return back
+
+
+def _plain_errors(exc: ValidationError) -> list[str]:
+    if hasattr(exc, "message_dict"):
+        return [m for msgs in exc.message_dict.values() for m in msgs]
+    return list(exc.messages)

@@ -49,7 +49,7 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
     """
     from .sync import Errors, Parsed, _reading  # same parsing and range rules as the sync
 
-    if not (by.pk == inspection.technician_id or _is_supervisor(by, inspection)):
+    if not selectors.amendment_allowed(user=by, inspection=inspection):
         raise PermissionDenied("only the technician who signed it or a supervisor of the site may amend it")
     if not isinstance(reason, str) or not reason.strip():
         raise ValidationError({"reason": ["an amendment needs a reason"]})

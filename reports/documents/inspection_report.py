@@ -8,6 +8,8 @@ signatures, verification, amendments and the safety cautions.
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 from django.core.exceptions import ValidationError
 from django.db.models import Prefetch
 from django.http import Http404
@@ -149,21 +151,22 @@ def _inspections(wo: WorkOrder) -> list[Inspection]:
     )
 
 
-def build(*, report) -> Built:
-    p = report.parameters
-    system = p["unit_system"]
-    wo = WorkOrder.objects.select_related("organisation", "ahu__building__site", "assignee").get(
-        public_id=p["work_order"]
-    )
-    tasks = list(
-        WorkOrderTask.objects.filter(work_order=wo)
-        .select_related("task", "component")
-        .order_by("task__category", "task__code", "pk")
-    )
+def visit_records(
+    *, work_order: WorkOrder, system: str, photo_src: Callable, signature_src: Callable
+) -> tuple[list[dict], dict[int, object], list[str]]:
+    """Each stored form of the work order as its record, in the reader's units ("si" or "us").
+
+    One visit per inspection, oldest first: readings grouped by template with their values,
+    verdicts and reasons, evaluations with derived values, findings, photos, the signature
+    and amendments. ``photo_src(photo)`` and ``signature_src(inspection)`` say how an image is
+    shown (a data URI in the PDF, the checked photo view on the page). Also the components
+    read and the template cautions met, for the PDF's tables. The PDF and the work order's
+    page both show this, so they tell the same record.
+    """
     visits = []
     components: dict[int, object] = {}
     template_cautions: list[str] = []
-    for insp in _inspections(wo):
+    for insp in _inspections(work_order):
         groups: dict[str, list] = {}
         for r in insp.readings.all():
             if r.component_id:
@@ -199,14 +202,31 @@ def build(*, report) -> Built:
                     for e in insp.evaluations.all()
                 ],
                 "findings": _with_reasons(list(insp.findings.all()), system),
-                "photos": [
-                    {"p": ph, "src": stored_file_data_uri(ph.thumbnail or ph.image, max_px=360)}
-                    for ph in insp.photos.all()
-                ],
-                "signature": stored_file_data_uri(insp.signature_image, max_px=400),
+                "photos": [{"p": ph, "src": photo_src(ph)} for ph in insp.photos.all()],
+                "signature": signature_src(insp),
                 "amendments": [{"a": a, "changes": _changes(a, system)} for a in insp.amendments.all()],
             }
         )
+    return visits, components, template_cautions
+
+
+def build(*, report) -> Built:
+    p = report.parameters
+    system = p["unit_system"]
+    wo = WorkOrder.objects.select_related("organisation", "ahu__building__site", "assignee").get(
+        public_id=p["work_order"]
+    )
+    tasks = list(
+        WorkOrderTask.objects.filter(work_order=wo)
+        .select_related("task", "component")
+        .order_by("task__category", "task__code", "pk")
+    )
+    visits, components, template_cautions = visit_records(
+        work_order=wo,
+        system=system,
+        photo_src=lambda ph: stored_file_data_uri(ph.thumbnail or ph.image, max_px=360),
+        signature_src=lambda insp: stored_file_data_uri(insp.signature_image, max_px=400),
+    )
     task_notes = []
     for t in tasks:
         if t.task.safety_notes and t.task.safety_notes not in task_notes:
@@ -251,18 +271,19 @@ def _changes(amendment: Amendment, system: str) -> list[str]:
             lines.append(str(change))
             continue
         key = str(change.get("item", ""))
-        quantity, decimals = "", 1
+        quantity, decimals, name = "", 1, key
         if "." in key:
             code, item_key = key.split(".", 1)
             item = (
                 ChecklistItem.objects.filter(template__code=code, key=item_key).order_by("-template__version").first()
             )
             quantity = item.quantity if item else ""
+            name = item.label if item else key
             decimals = max(item.decimals, 2 if system == "us" and quantity == "pressure" else 0) if item else 1
 
         before = _change_value(change.get("before"), quantity, decimals, system)
         after = _change_value(change.get("after"), quantity, decimals, system)
-        line = f"{key}: {before} → {after}"
+        line = f"{name}: {before} → {after}"
         if change.get("note"):
             line += f" ({change['note']})"
         lines.append(line)
@@ -271,7 +292,9 @@ def _changes(amendment: Amendment, system: str) -> list[str]:
 
 def _change_value(value, quantity: str, decimals: int, system: str) -> str:
     if isinstance(value, dict):
-        value = value.get("value_si", value.get("value", value))
+        number = value.get("value_si")
+        value = number if number is not None else value.get("value_text", value.get("value"))
+        value = CHECK_VALUES.get(value, value) if isinstance(value, str) else value
     if isinstance(value, int | float) and not isinstance(value, bool) and quantity:
         shown_value = checklists.to_display(value, quantity, system)
         return f"{shown_value:.{decimals}f} {checklists.display_unit_label(quantity, system)}".strip()

@@ -127,12 +127,24 @@ function renderPending(box, item) {
   box.replaceChildren(section);
 }
 
+const DONE_STATES = new Set(["completed", "verified"]);
+
+function showDone(form, results) {
+  // The server has this work order done: no second "Finish and sign" from a stale copy of the page.
+  // Forms already in the outbox still go (the server stores a late one and flags it), so nothing is lost.
+  const done = results.some((r) => DONE_STATES.has(r.work_order_state));
+  form.hidden = done;
+  const note = document.querySelector("[data-server-done]");
+  if (note) note.hidden = !done;
+}
+
 async function showState(form) {
   const box = document.querySelector("[data-local-result]");
   const wo = form.dataset.workOrder;
   const pending = (await outboxAll()).filter((i) => i.form.work_order === wo);
   const results = (await resultAll()).filter((r) => r.work_order === wo);
   results.sort((a, b) => (a.received_at < b.received_at ? 1 : -1));
+  showDone(form, pending.length ? [] : results);
   if (pending.length) {
     renderPending(box, pending[pending.length - 1]);
     if (pending[pending.length - 1].state === "refused") form.dataset.clientUuid = pending[pending.length - 1].client_uuid;
