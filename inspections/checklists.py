@@ -18,6 +18,7 @@ from __future__ import annotations
 
 from typing import Any
 
+from engineering import filters as eng_filters
 from engineering import units as eng_units
 
 LOCKOUT = (
@@ -186,7 +187,10 @@ TEMPLATES: list[dict[str, Any]] = [
                 required=True,
                 note=True,
                 decimals=0,
-                source="bands at 75 % / 95 % of the clean-to-final span, " + CP,
+                source=(
+                    "bands at 75 % / 95 % of the clean-to-final span; below 80 % / 50 % of clean "
+                    "(missing, torn or bypassed media), " + CP
+                ),
                 help="Read the gauge across this bank with the fan at its normal speed.",
             ),
             check(
@@ -238,7 +242,7 @@ TEMPLATES: list[dict[str, Any]] = [
                 decimals=0,
                 required=True,
                 note=True,
-                source="ok up to 1.2 × the rated clean pressure drop, watch to 1.5 × (" + CP + ")",
+                source="ok within 0.8–1.2 × the rated clean pressure drop, watch 0.5–1.5 × (" + CP + ")",
             ),
             check("old_bagged", "Used filters bagged and removed", per="filter_bank"),
             photo("photo", "Photo of the new filters", per="filter_bank"),
@@ -856,10 +860,24 @@ def dynamic_limits(*, rule: str, ahu, component) -> dict[str, float | None]:
         if clean is None or final is None:
             return {}
         span = final - clean
-        return {"ok_max": clean + 0.75 * span, "watch_max": clean + 0.95 * span}
+        # Far below clean means missing, torn or bypassed media (engineering.filters, common practice).
+        return {
+            "ok_min": eng_filters.BYPASS_WATCH_FRACTION * clean,
+            "ok_max": clean + 0.75 * span,
+            "watch_min": eng_filters.BYPASS_FAIL_FRACTION * clean,
+            "watch_max": clean + 0.95 * span,
+        }
     if rule == "filter_clean":
         clean = specs.get("clean_dp_pa")
-        return {} if clean is None else {"ok_max": 1.2 * clean, "watch_max": 1.5 * clean}
+        if clean is None:
+            return {}
+        tol = eng_filters.AFTER_CHANGE_TOLERANCE
+        return {
+            "ok_min": (1 - tol) * clean,
+            "ok_max": (1 + tol) * clean,
+            "watch_min": eng_filters.BYPASS_FAIL_FRACTION * clean,
+            "watch_max": eng_filters.AFTER_CHANGE_HIGH_FAIL * clean,
+        }
     if rule == "motor_fla":
         fla = specs.get("motor_full_load_a")
         return {} if fla is None else {"ok_max": fla, "watch_max": 1.1 * fla}
