@@ -30,6 +30,14 @@ def is_manager_of(*, user: User, organisation: Organisation) -> bool:
     return user_has_role(user=user, roles={Role.SUPERVISOR, Role.ADMIN}, organisation=organisation)
 
 
+def technician_of(*, organisation_id: int, username: str) -> User | None:
+    """The technician of the organisation with this username; None for a username nobody has and for a
+    person of another organisation alike, so the answer never tells which usernames exist elsewhere."""
+    return User.objects.filter(
+        username=username, memberships__organisation_id=organisation_id, memberships__role=Role.TECHNICIAN
+    ).first()
+
+
 def primary_role(*, user: User) -> str | None:
     """The strongest role a person holds, used to pick their home page."""
     order = [Role.ADMIN, Role.SUPERVISOR, Role.TECHNICIAN, Role.PROPERTY_MANAGER]

@@ -18,6 +18,11 @@ DATABASE_BUSY = (
 )
 
 
+def error_body(*, detail: str, errors: dict | None = None) -> dict:
+    """The one error shape of the API: a sentence a person can read, and the fields it concerns."""
+    return {"detail": detail, "errors": errors or {}}
+
+
 def exception_handler(exc, context):
     """Turn model-level validation errors into 400s with per-field messages.
 
@@ -30,7 +35,7 @@ def exception_handler(exc, context):
         logger.exception("database refused a write")
         set_rollback()
         return Response(
-            {"detail": DATABASE_BUSY.format(kind=type(exc).__name__), "errors": {}},
+            error_body(detail=DATABASE_BUSY.format(kind=type(exc).__name__)),
             status=status.HTTP_503_SERVICE_UNAVAILABLE,
             headers={"Retry-After": "30"},
         )
@@ -40,12 +45,12 @@ def exception_handler(exc, context):
         else:
             errors = {"non_field_errors": list(exc.messages)}
         detail = "; ".join(f"{field}: {' '.join(msgs)}" for field, msgs in errors.items())
-        return Response({"detail": detail, "errors": errors}, status=status.HTTP_400_BAD_REQUEST)
+        return Response(error_body(detail=detail, errors=errors), status=status.HTTP_400_BAD_REQUEST)
     response = drf_exception_handler(exc, context)
     if response is not None and isinstance(exc, exceptions.ValidationError) and isinstance(response.data, dict):
         flat = "; ".join(
             f"{field}: {' '.join(str(m) for m in msgs) if isinstance(msgs, list) else msgs}"
             for field, msgs in response.data.items()
         )
-        response.data = {"detail": flat, "errors": response.data}
+        response.data = error_body(detail=flat, errors=response.data)
     return response

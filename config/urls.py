@@ -1,6 +1,5 @@
 """Root URLs. Each app keeps its own ``urls.py`` (pages) and ``api_urls.py`` (REST)."""
 
-from django.conf import settings
 from django.contrib import admin
 from django.urls import include, path
 from drf_spectacular.views import SpectacularAPIView, SpectacularRedocView, SpectacularSwaggerView
@@ -19,10 +18,11 @@ urlpatterns = [
     path("", include("scheduling.urls")),
     path("", include("inspections.urls")),
     path("", include("reports.urls")),
+    path("", include("accounts.urls")),
     path("", include("frontend.urls")),
 ]
+# Stored photos and PDFs are served only through views that check who may see them, never from MEDIA_URL.
 
-if settings.DEBUG:
-    from django.conf.urls.static import static
-
-    urlpatterns += static(settings.MEDIA_URL, document_root=settings.MEDIA_ROOT)
+handler400 = "config.errors.bad_request"
+handler404 = "config.errors.page_not_found"
+handler500 = "config.errors.server_error"

@@ -20,7 +20,8 @@ from rest_framework.response import Response
 from rest_framework.views import APIView
 
 from accounts.answers import json_answer, kept
-from accounts.models import Membership, Role, User
+from accounts.models import Membership, Role
+from accounts.selectors import technician_of
 from inventory.selectors import ahus_visible_to, sites_visible_to
 
 from . import serializers as s
@@ -46,6 +47,7 @@ from .services import (
     work_order_schedule,
     work_order_transition,
 )
+from .services.work_orders import no_technician
 
 ERRORS = {400: s.SchedulingErrorOut, 403: s.SchedulingErrorOut, 404: s.SchedulingErrorOut}
 SELF_SERVICE_STATES = {WorkOrder.State.IN_PROGRESS, WorkOrder.State.COMPLETED}
@@ -119,9 +121,9 @@ class WorkOrderAssign(WorkOrderChangeView):
         wo = _managed(request, public_id, action="assign")
         data = s.AssignIn(data=request.data)
         data.is_valid(raise_exception=True)
-        assignee = User.objects.filter(username=data.validated_data["assignee"]).first()
+        assignee = technician_of(organisation_id=wo.organisation_id, username=data.validated_data["assignee"])
         if assignee is None:
-            raise ValidationError({"assignee": [f"assignee={data.validated_data['assignee']!r} is not a user"]})
+            raise ValidationError({"assignee": [no_technician(data.validated_data["assignee"])]})
         # One transaction: a refused day leaves the assignment unsaved too.
         with transaction.atomic():
             work_order_assign(

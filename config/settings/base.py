@@ -59,6 +59,7 @@ INSTALLED_APPS = [
 
 MIDDLEWARE = [
     "django.middleware.security.SecurityMiddleware",
+    "config.errors.ApiBodyLimitMiddleware",
     "whitenoise.middleware.WhiteNoiseMiddleware",
     "django.contrib.sessions.middleware.SessionMiddleware",
     "django.middleware.common.CommonMiddleware",
@@ -120,9 +121,19 @@ LOGOUT_REDIRECT_URL = "frontend:login"
 # Login throttling  https://django-axes.readthedocs.io/en/latest/4_configuration.html
 AXES_FAILURE_LIMIT = int(os.environ.get("AXES_FAILURE_LIMIT", "5"))
 AXES_COOLOFF_TIME = 0.25  # hours
-AXES_LOCKOUT_PARAMETERS = [["username", "ip_address"]]
+# A lock holds one username from one address only, so nobody can lock a person out from elsewhere.
+AXES_LOCKOUT_PARAMETERS = [["ip_address", "username"]]
 AXES_RESET_ON_SUCCESS = True
 AXES_VERBOSE = False
+# The address comes from the trusted proxies' X-Forwarded-For (PLENUM_TRUSTED_PROXIES), not django-ipware.
+AXES_CLIENT_IP_CALLABLE = "accounts.client_address.client_address"
+AXES_LOCKOUT_CALLABLE = "accounts.views.locked_out"
+# How many proxies in front of the server append to X-Forwarded-For (a TLS proxy: 1); 0 ignores the header.
+PLENUM_TRUSTED_PROXIES = int(os.environ.get("PLENUM_TRUSTED_PROXIES", "0"))
+
+# Password reset by e-mail: links last this long; each address and each client may ask this often per hour.
+PASSWORD_RESET_TIMEOUT = int(os.environ.get("PLENUM_PASSWORD_RESET_SECONDS", str(3 * 3600)))
+PLENUM_PASSWORD_RESETS_PER_HOUR = int(os.environ.get("PLENUM_PASSWORD_RESETS_PER_HOUR", "5"))
 
 # ---------------------------------------------------------------------------
 # Internationalisation  https://docs.djangoproject.com/en/5.2/topics/i18n/

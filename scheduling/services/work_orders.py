@@ -81,13 +81,17 @@ def _move(wo: WorkOrder, to_state: str) -> None:
         )
 
 
+def no_technician(value: object) -> str:
+    """The one refusal for an assignee who is not a technician of the organisation: a username nobody has
+    and a person of another organisation get the same words, so it never tells which usernames exist."""
+    return f"no technician {str(value)!r} in your organisation you can assign"
+
+
 def _check_assignee(wo: WorkOrder, assignee) -> None:
     if assignee is None:
         raise ValidationError({"assignee": ["an assigned work order needs an assignee"]})
     if not Membership.objects.filter(user=assignee, organisation_id=wo.organisation_id, role=Role.TECHNICIAN).exists():
-        raise ValidationError(
-            {"assignee": [f"assignee={assignee.username!r} is not a technician of {wo.organisation}"]}
-        )
+        raise ValidationError({"assignee": [no_technician(assignee.username)]})
 
 
 @transaction.atomic

@@ -83,7 +83,8 @@ ALSO = {
 }
 # The calendar feed's token *is* the key (a capability URL, like a private calendar link):
 # whoever holds it gets the feed, so it is tried with guessed and revoked tokens instead.
-CAPABILITY = {"scheduling:calendar"}
+# A password-reset link is the same kind of key (tests/security/test_signin.py tries wrong and used ones).
+CAPABILITY = {"scheduling:calendar", "accounts:password_reset_confirm"}
 # Not called with POST: they change the caller's own session, not anybody's records.
 NO_POST = {"frontend:logout", "frontend:login"}
 
@@ -125,6 +126,8 @@ HOSTILE: dict[str, Hostile | None] = {
     "accounts_api:token": None,
     "scheduling_api:calendar-feed": None,
     "bench-baseline": None,
+    # Asks for an e-mail to the address's owner, whoever asks, with the same answer whether it exists or not.
+    "accounts:password_reset": None,
 }
 
 

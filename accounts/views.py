@@ -1,0 +1,83 @@
+"""Password reset by e-mail: Django's own views, in the app's pages, with a link to the public address.
+
+The answer never tells whether an address belongs to anybody (Django sends only to active
+people with that address and shows the same page either way). Each client address and each
+e-mail address may ask a few times an hour (``PLENUM_PASSWORD_RESETS_PER_HOUR``); past that the
+client is asked to wait, and extra requests for one e-mail address are dropped without a word.
+"""
+
+import math
+
+from axes.helpers import get_cool_off, get_failure_limit
+from axes.utils import reset as axes_reset
+from django.conf import settings
+from django.contrib.auth import views as auth_views
+from django.core.cache import cache
+from django.http import HttpRequest, HttpResponse
+from django.shortcuts import render
+from django.urls import reverse_lazy
+
+from .client_address import client_address
+
+WINDOW_SECONDS = 3600
+
+
+def _count(key: str) -> int:
+    """One more request under ``key`` in the current hour; how many so far."""
+    if cache.add(key, 1, WINDOW_SECONDS):
+        return 1
+    try:
+        return cache.incr(key)
+    except ValueError:  # expired between add and incr
+        cache.set(key, 1, WINDOW_SECONDS)
+        return 1
+
+
+class PasswordResetView(auth_views.PasswordResetView):
+    template_name = "frontend/password_reset_form.html"
+    email_template_name = "frontend/password_reset_email.txt"
+    subject_template_name = "frontend/password_reset_subject.txt"
+    success_url = reverse_lazy("accounts:password_reset_done")
+
+    def form_valid(self, form):
+        limit = settings.PLENUM_PASSWORD_RESETS_PER_HOUR
+        if _count(f"password-reset:client:{client_address(self.request)}") > limit:
+            return render(
+                self.request,
+                "frontend/password_reset_form.html",
+                {"form": form, "too_many": True, "limit": limit},
+                status=429,
+            )
+        email = form.cleaned_data["email"].strip().lower()
+        if _count(f"password-reset:email:{email}") > limit:
+            return super(auth_views.PasswordResetView, self).form_valid(form)  # the same page, no e-mail
+        # The link points at the public address, never at whatever Host header the request carried.
+        self.extra_email_context = {"public_url": settings.PLENUM_PUBLIC_URL.rstrip("/")}
+        return super().form_valid(form)
+
+
+class PasswordResetDoneView(auth_views.PasswordResetDoneView):
+    template_name = "frontend/password_reset_done.html"
+
+
+class PasswordResetConfirmView(auth_views.PasswordResetConfirmView):
+    template_name = "frontend/password_reset_confirm.html"
+    success_url = reverse_lazy("accounts:password_reset_complete")
+
+    def form_valid(self, form):
+        response = super().form_valid(form)
+        # The person proved they own the address: wrong-password locks on their username no longer apply.
+        axes_reset(username=form.user.get_username())
+        return response
+
+
+class PasswordResetCompleteView(auth_views.PasswordResetCompleteView):
+    template_name = "frontend/password_reset_complete.html"
+
+
+def locked_out(request: HttpRequest, original_response=None, credentials: dict | None = None) -> HttpResponse:
+    """django-axes' answer once a username is paused for this client address (AXES_LOCKOUT_CALLABLE): 429."""
+    cool_off = get_cool_off(request)
+    minutes = max(1, math.ceil(cool_off.total_seconds() / 60)) if cool_off else 0
+    context = {"failure_limit": get_failure_limit(request, credentials), "minutes": minutes}
+    return render(request, "frontend/locked_out.html", context, status=429)
