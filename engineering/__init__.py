@@ -74,11 +74,15 @@ from engineering.trends import Rate, robust_rate, run_hours_per_day
 from engineering.units import QUANTITIES, from_display, to_display, unit_label
 from engineering.ventilation import (
     SPACE_KINDS,
+    VENTILATION_SYSTEMS,
     ZONE_AIR_DISTRIBUTION_EFFECTIVENESS,
+    OutdoorAirIntake,
     breathing_zone_outdoor_airflow,
     co2_differential_for_outdoor_air,
     co2_generation_for_activity,
+    outdoor_air_intake,
     outdoor_air_per_person_from_co2,
+    system_ventilation_efficiency,
     zone_outdoor_airflow,
 )
 
@@ -87,6 +91,7 @@ __all__ = [
     "HDD_BASE_65F_C",
     "QUANTITIES",
     "SPACE_KINDS",
+    "VENTILATION_SYSTEMS",
     "ZONE_AIR_DISTRIBUTION_EFFECTIVENESS",
     "AirHeat",
     "AirState",
@@ -104,6 +109,7 @@ __all__ = [
     "IndeterminateError",
     "InsufficientDataError",
     "OaFraction",
+    "OutdoorAirIntake",
     "Rate",
     "Verdict",
     "air_state",
@@ -140,6 +146,7 @@ __all__ = [
     "latent_heat_w",
     "oa_fraction_from_co2",
     "oa_fraction_from_temperatures",
+    "outdoor_air_intake",
     "outdoor_air_per_person_from_co2",
     "outdoor_airflow_m3s",
     "pressure_from_altitude",
@@ -149,6 +156,7 @@ __all__ = [
     "sensor_drift_check",
     "static_pressure_check",
     "supply_temperature_check",
+    "system_ventilation_efficiency",
     "to_display",
     "total_heat_w",
     "unit_label",

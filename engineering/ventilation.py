@@ -18,12 +18,16 @@ __all__ = [
     "CO2_GENERATION_OFFICE_L_S",
     "MET_LEVELS",
     "SPACE_KINDS",
+    "VENTILATION_SYSTEMS",
     "ZONE_AIR_DISTRIBUTION_EFFECTIVENESS",
+    "OutdoorAirIntake",
     "SpaceKind",
     "breathing_zone_outdoor_airflow",
     "co2_differential_for_outdoor_air",
     "co2_generation_for_activity",
+    "outdoor_air_intake",
     "outdoor_air_per_person_from_co2",
+    "system_ventilation_efficiency",
     "zone_outdoor_airflow",
 ]
 
@@ -151,6 +155,121 @@ def zone_outdoor_airflow(*, vbz: float, ez: float | str = 1.0) -> float:
     else:
         e = v.in_range("ez", ez, 0.1, 2.0, label="zone air distribution effectiveness")
     return q / e
+
+
+# How the outdoor-air intake follows from the zone requirement, ASHRAE 62.1-2019 section 6.2.3
+# (single zone), 6.2.4 (100 % outdoor air) and 6.2.5 (multiple-zone recirculating) (from memory).
+VENTILATION_SYSTEMS: dict[str, str] = {
+    "single_zone": "single-zone system: intake = zone outdoor airflow",
+    "full_outdoor_air": "100 % outdoor-air system: intake = zone outdoor airflow",
+    "multi_zone": "multiple-zone recirculating system: intake = uncorrected intake / system ventilation efficiency",
+}
+# Simplified procedure for Ev (62.1-2016 6.2.5.3.1, 62.1-2019 6.2.4.3.1; from memory):
+# Ev = 0.88·D + 0.22 for D < 0.60, Ev = 0.75 for D ≥ 0.60.
+EV_SIMPLIFIED_D_LIMIT = 0.60
+EV_SIMPLIFIED_HIGH_D = 0.75
+
+
+def system_ventilation_efficiency(*, occupant_diversity: float) -> float:
+    """System ventilation efficiency Ev of a multiple-zone recirculating system by the
+    simplified procedure: Ev = 0.88·D + 0.22 for D < 0.60, 0.75 for D ≥ 0.60, with D the
+    occupant diversity Ps/ΣPz (ASHRAE 62.1-2016 6.2.5.3.1 / 62.1-2019 6.2.4.3.1; from memory)."""
+    d = v.in_range("occupant_diversity", occupant_diversity, 0.0, 1.0, label="occupant diversity", low_open=True)
+    return 0.88 * d + 0.22 if round(d, 9) < EV_SIMPLIFIED_D_LIMIT else EV_SIMPLIFIED_HIGH_D
+
+
+@dataclass(frozen=True)
+class OutdoorAirIntake:
+    """The outdoor air one unit must take in by the ventilation rate procedure (m³/s)."""
+
+    system: str  # a key of VENTILATION_SYSTEMS
+    vbz_m3s: float  # breathing-zone outdoor airflow Rp·Pz + Ra·Az
+    ez: float  # zone air distribution effectiveness
+    voz_m3s: float  # zone outdoor airflow Vbz/Ez
+    occupant_diversity: float | None  # D, multi-zone only
+    vou_m3s: float | None  # uncorrected outdoor-air intake D·Rp·Pz + Ra·Az, multi-zone only
+    ev: float | None  # system ventilation efficiency, multi-zone only
+    ev_given: bool  # Ev taken from the design rather than the simplified procedure
+    vot_m3s: float  # outdoor-air intake the unit must deliver
+    method: str
+
+
+def outdoor_air_intake(
+    *,
+    space_kind: str,
+    floor_area_m2: float,
+    occupants: float | None = None,
+    air_distribution: str | float = "ceiling_supply_cool",
+    system: str = "single_zone",
+    occupant_diversity: float | None = None,
+    ev: float | None = None,
+) -> OutdoorAirIntake:
+    """Outdoor-air intake Vot a unit must deliver to the space it serves, m³/s.
+
+    Vbz = Rp·Pz + Ra·Az (eq. 6-1) and Voz = Vbz/Ez (eq. 6-2) for the one zone the registry
+    knows per unit. Single-zone and 100 % outdoor-air systems: Vot = Voz (62.1-2019 6.2.3,
+    6.2.4). Multiple-zone recirculating systems: Vou = D·Rp·Pz + Ra·Az and Vot = Vou/Ev, with
+    Ev given by the design or found by the simplified procedure from D
+    (``system_ventilation_efficiency``); without D, D = 1 (no diversity: the larger intake).
+    In the simplified procedure Ez does not enter Vot (all from memory of 62.1-2016/2019).
+    """
+    sysname = v.choice("system", system, VENTILATION_SYSTEMS)
+    vbz = breathing_zone_outdoor_airflow(space_kind=space_kind, floor_area_m2=floor_area_m2, occupants=occupants)
+    ez = (
+        ZONE_AIR_DISTRIBUTION_EFFECTIVENESS[
+            v.choice("air_distribution", air_distribution, ZONE_AIR_DISTRIBUTION_EFFECTIVENESS)
+        ][0]
+        if isinstance(air_distribution, str)
+        else v.in_range("air_distribution", air_distribution, 0.1, 2.0, label="zone air distribution effectiveness")
+    )
+    voz = zone_outdoor_airflow(vbz=vbz, ez=ez)
+    if sysname != "multi_zone":
+        for name, value in (("occupant_diversity", occupant_diversity), ("ev", ev)):
+            if value is not None:
+                raise EngineeringInputError(
+                    field=name,
+                    value=value,
+                    allowed="nothing unless the system is multi_zone",
+                    message=f"{name}={v.fmt(value)} applies only to a multiple-zone recirculating system",
+                )
+        return OutdoorAirIntake(
+            system=sysname,
+            vbz_m3s=vbz,
+            ez=ez,
+            voz_m3s=voz,
+            occupant_diversity=None,
+            vou_m3s=None,
+            ev=None,
+            ev_given=False,
+            vot_m3s=voz,
+            method=f"Vbz = Rp·Pz + Ra·Az, Voz = Vbz/Ez with Ez = {ez:g}; {VENTILATION_SYSTEMS[sysname]}",
+        )
+    kind = SPACE_KINDS[space_kind]
+    d = (
+        1.0
+        if occupant_diversity is None
+        else v.in_range("occupant_diversity", occupant_diversity, 0.0, 1.0, label="occupant diversity", low_open=True)
+    )
+    people_part = vbz - kind.ra_l_s_m2 * floor_area_m2 / 1000.0  # Rp·Pz
+    vou = d * people_part + (vbz - people_part)
+    if ev is None:
+        e, given = system_ventilation_efficiency(occupant_diversity=d), False
+        how = f"Ev = {e:.3g} by the simplified procedure from D = {d:g}"
+    else:
+        e, given = v.in_range("ev", ev, 0.1, 1.0, label="system ventilation efficiency", low_open=True), True
+        how = f"Ev = {e:g} from the design"
+    return OutdoorAirIntake(
+        system=sysname,
+        vbz_m3s=vbz,
+        ez=ez,
+        voz_m3s=voz,
+        occupant_diversity=d,
+        vou_m3s=vou,
+        ev=e,
+        ev_given=given,
+        vot_m3s=vou / e,
+        method=f"Vou = D·Rp·Pz + Ra·Az, Vot = Vou/Ev, {how}; {VENTILATION_SYSTEMS[sysname]}",
+    )
 
 
 def co2_generation_for_activity(*, met: float | str) -> float:

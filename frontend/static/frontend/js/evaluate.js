@@ -1,0 +1,890 @@
+// The phone's twin of inspections/evaluation.py: the same judgements, offline, from the
+// evaluation context the server ships with the checklist (inspections/phone.py).
+// Pure: no DOM, no network. SI values in, SI values out; reasons as parts rendered in the
+// person's units (units.js). tests/inspections/test_phone_agreement.py runs both sides on
+// the same cases and fails on any disagreement, or on a server check this file lacks.
+import { render } from "./units.js";
+
+export const OK = "ok";
+export const WATCH = "watch";
+export const FAIL = "fail";
+
+// Every check name of evaluation.CHECKS this twin judges.
+export const CHECKS = [
+  "check", "choice", "limits", "filter_loading", "filter_after_change", "oa_fraction_temperature", "oa_fraction_co2",
+  "coil_balance", "supply_temperature", "duct_static", "damper_position", "sensor_drift", "heat_recovery",
+];
+
+const RANK = { ok: 0, watch: 1, fail: 2 };
+const worst = (...vs) => vs.reduce((a, b) => (RANK[b] > RANK[a] ? b : a), OK);
+
+// ---------------------------------------------------------------------------
+// Numbers as Python computes them
+// ---------------------------------------------------------------------------
+
+/** Python's round(x, d): half to even. */
+export function pyRound(x, d = 0) {
+  const f = 10 ** d;
+  const m = x * f;
+  const r = Math.round(m);
+  const half = Math.abs(m - Math.trunc(m)) === 0.5;
+  const out = half ? (r % 2 === 0 ? r : r - 1) : r;
+  return (out / f) || 0;
+}
+
+function fmtG(x) {
+  // Python's v.fmt / "{:g}" for the short numbers in messages.
+  return Number.isInteger(x) ? String(x) : String(Number(x.toPrecision(6)));
+}
+
+class EngineeringInputError extends Error {
+  constructor(field, message) { super(message); this.field = field; }
+}
+
+function finite(name, value, label = "") {
+  if (typeof value !== "number" || !Number.isFinite(value)) {
+    throw new EngineeringInputError(name, `${label ? `${label} ` : ""}${name}=${value} is not a number`);
+  }
+  return value;
+}
+
+function inRange(name, value, low, high, { unit = "", label = "", lowOpen = false, highOpen = false } = {}) {
+  const x = finite(name, value, label);
+  const below = low !== null && (lowOpen ? x <= low : x < low);
+  const above = high !== null && (highOpen ? x >= high : x > high);
+  if (below || above) {
+    const u = unit ? ` ${unit}` : "";
+    let allowed;
+    if (low !== null && high !== null && !lowOpen && !highOpen) allowed = `${fmtG(low)}–${fmtG(high)}${u}`;
+    else {
+      const parts = [];
+      if (low !== null) parts.push(`${lowOpen ? "above" : "at least"} ${fmtG(low)}${u}`);
+      if (high !== null) parts.push(`${highOpen ? "below" : "at most"} ${fmtG(high)}${u}`);
+      allowed = parts.join(" and ");
+    }
+    throw new EngineeringInputError(name, `${label ? `${label} ` : ""}${name}=${fmtG(x)} is outside ${allowed}`);
+  }
+  return x;
+}
+const airTemperature = (name, value, label) => inRange(name, value, -60, 80, { unit: "°C", label });
+const co2 = (name, value) => inRange(name, value, 0, 50000, { unit: "ppm", label: "CO2 concentration" });
+
+function grade(deviation, watch, fail) {
+  const d = pyRound(Math.abs(deviation), 9);
+  if (d > fail) return FAIL;
+  if (d > watch) return WATCH;
+  return OK;
+}
+
+// ---------------------------------------------------------------------------
+// engineering/ in JavaScript (the formulas named in each Python docstring)
+// ---------------------------------------------------------------------------
+
+export function correctedPressureDrop(ctx, dp, q, qd) {
+  const [lo, hi] = ctx.constants.filter_airflow_ratio;
+  const n = ctx.constants.filter_exponent;
+  inRange("dp_pa", dp, 0, 2500, { unit: "Pa", label: "filter pressure drop" });
+  inRange("airflow_m3s", q, 0, 100, { unit: "m³/s", label: "airflow", lowOpen: true });
+  inRange("design_airflow_m3s", qd, 0, 100, { unit: "m³/s", label: "design airflow", lowOpen: true });
+  const r = q / qd;
+  if (!(lo <= r && r <= hi)) {
+    throw new EngineeringInputError("airflow_m3s",
+      `airflow ${fmtG(q)} m³/s is too far from design ${fmtG(qd)} m³/s (allowed ${lo}–${hi} × design) to correct the pressure drop reliably`);
+  }
+  return dp * r ** (-n);
+}
+
+export function filterLoading(ctx, { dp, q, qd, clean, final, watchFraction = 0.75, failFraction = 0.95 }) {
+  const corrected = correctedPressureDrop(ctx, dp, q, qd);
+  inRange("clean_dp_pa", clean, 0, 2500, { unit: "Pa", label: "clean filter pressure drop" });
+  inRange("final_dp_pa", final, 0, 2500, { unit: "Pa", label: "final filter pressure drop" });
+  if (final <= clean) throw new EngineeringInputError("final_dp_pa", `final filter pressure drop ${fmtG(final)} Pa is not above the clean ${fmtG(clean)} Pa`);
+  const frac = (corrected - clean) / (final - clean);
+  const f = pyRound(frac, 9);
+  const ofClean = clean > 0 ? corrected / clean : 1.0;
+  const r = pyRound(ofClean, 9);
+  const c = ctx.constants;
+  if (r < c.filter_bypass_watch_fraction) {
+    // Air going round or through torn media reads below clean (engineering.filters._below_clean).
+    return { corrected, fraction: frac, ofClean, bypass: true, verdict: r < c.filter_bypass_fail_fraction ? FAIL : WATCH };
+  }
+  const verdict = f >= failFraction ? FAIL : f >= watchFraction ? WATCH : OK;
+  return { corrected, fraction: frac, ofClean, bypass: false, verdict };
+}
+
+/** The pressure drop read just after a change against the rated clean value (engineering.filters.filter_after_change). */
+export function filterAfterChange(ctx, { dp, q, qd, clean }) {
+  const corrected = correctedPressureDrop(ctx, dp, q, qd);
+  inRange("clean_dp_pa", clean, 0, 2500, { unit: "Pa", label: "clean filter pressure drop", lowOpen: true });
+  const c = ctx.constants;
+  const tol = c.filter_after_change_tolerance;
+  const ofClean = corrected / clean;
+  const r = pyRound(ofClean, 9);
+  let verdict = OK;
+  if (r < c.filter_bypass_fail_fraction) verdict = FAIL;
+  else if (r < 1 - tol) verdict = WATCH;
+  else if (r > c.filter_after_change_high_fail) verdict = FAIL;
+  else if (r > 1 + tol) verdict = WATCH;
+  return { corrected, ofClean, verdict, bypass: r < c.filter_bypass_fail_fraction };
+}
+
+// Theil–Sen with Sen's interval, as scipy.stats.theilslopes (method "joint") computes it.
+function median(sorted) {
+  const n = sorted.length;
+  const mid = Math.floor(n / 2);
+  return n % 2 ? sorted[mid] : (sorted[mid - 1] + sorted[mid]) / 2;
+}
+
+function normPpf(p) {
+  // Acklam's rational approximation with one Halley refinement (|relative error| < 1e-12).
+  const a = [-39.69683028665376, 220.9460984245205, -275.9285104469687, 138.357751867269, -30.66479806614716, 2.506628277459239];
+  const b = [-54.47609879822406, 161.5858368580409, -155.6989798598866, 66.80131188771972, -13.28068155288572];
+  const c = [-0.007784894002430293, -0.3223964580411365, -2.400758277161838, -2.549732539343734, 4.374664141464968, 2.938163982698783];
+  const d = [0.007784695709041462, 0.3224671290700398, 2.445134137142996, 3.754408661907416];
+  const pl = 0.02425;
+  let x;
+  if (p < pl) {
+    const q = Math.sqrt(-2 * Math.log(p));
+    x = (((((c[0] * q + c[1]) * q + c[2]) * q + c[3]) * q + c[4]) * q + c[5]) / ((((d[0] * q + d[1]) * q + d[2]) * q + d[3]) * q + 1);
+  } else if (p <= 1 - pl) {
+    const q = p - 0.5; const r = q * q;
+    x = (((((a[0] * r + a[1]) * r + a[2]) * r + a[3]) * r + a[4]) * r + a[5]) * q / (((((b[0] * r + b[1]) * r + b[2]) * r + b[3]) * r + b[4]) * r + 1);
+  } else {
+    const q = Math.sqrt(-2 * Math.log(1 - p));
+    x = -(((((c[0] * q + c[1]) * q + c[2]) * q + c[3]) * q + c[4]) * q + c[5]) / ((((d[0] * q + d[1]) * q + d[2]) * q + d[3]) * q + 1);
+  }
+  const e = 0.5 * erfc(-x / Math.SQRT2) - p;
+  const u = e * Math.sqrt(2 * Math.PI) * Math.exp((x * x) / 2);
+  return x - u / (1 + (x * u) / 2);
+}
+
+function erfc(x) {
+  // Numerical Recipes erfc (Chebyshev), fractional error < 1.2e-7; refined by Halley above.
+  const z = Math.abs(x);
+  const t = 1 / (1 + 0.5 * z);
+  const r = t * Math.exp(-z * z - 1.26551223 + t * (1.00002368 + t * (0.37409196 + t * (0.09678418 + t * (-0.18628806
+    + t * (0.27886807 + t * (-1.13520398 + t * (1.48851587 + t * (-0.82215223 + t * 0.17087277)))))))));
+  return x >= 0 ? r : 2 - r;
+}
+
+function repeats(values) {
+  const counts = new Map();
+  for (const v of values) counts.set(v, (counts.get(v) || 0) + 1);
+  return [...counts.values()].filter((k) => k > 1);
+}
+
+function npRound(x) {
+  // numpy.round: half to even.
+  const r = Math.round(x);
+  return Math.abs(x - Math.trunc(x)) === 0.5 ? (r % 2 === 0 ? r : r - 1) : r;
+}
+
+export function robustRate(points, confidence = 0.95) {
+  const xs = points.map((p) => p[0]);
+  const ys = points.map((p) => p[1]);
+  if (points.length < 2) throw new EngineeringInputError("points", `a rate needs at least 2 points; got ${points.length}`);
+  if (Math.max(...xs) === Math.min(...xs)) throw new EngineeringInputError("points", "all points have the same x: no rate can be drawn");
+  const slopes = [];
+  for (let i = 0; i < xs.length; i++) {
+    for (let j = 0; j < xs.length; j++) {
+      const dx = xs[i] - xs[j];
+      if (dx > 0) slopes.push((ys[i] - ys[j]) / dx);
+    }
+  }
+  slopes.sort((p, q) => p - q);
+  const slope = median(slopes);
+  const interceptFor = (s) => median(points.map(([x, y]) => y - s * x).sort((p, q) => p - q));
+  let alpha = confidence;
+  if (alpha > 0.5) alpha = 1 - alpha;
+  const z = normPpf(alpha / 2);
+  const nt = slopes.length;
+  const ny = ys.length;
+  const term = (k) => k * (k - 1) * (2 * k + 5);
+  const sigsq = (1 / 18) * (term(ny) - repeats(xs).reduce((s, k) => s + term(k), 0) - repeats(ys).reduce((s, k) => s + term(k), 0));
+  const sigma = Math.sqrt(sigsq);
+  const ru = Math.min(npRound((nt - z * sigma) / 2), nt - 1);
+  const rl = Math.max(npRound((nt + z * sigma) / 2) - 1, 0);
+  const low = slopes[rl];
+  const high = slopes[ru];
+  return {
+    slope, low, high, intercept: interceptFor(slope), interceptLow: interceptFor(low), interceptHigh: interceptFor(high),
+    xAt(y, which = "central") {
+      const [s, b] = { central: [slope, this.intercept], low: [low, this.interceptLow], high: [high, this.interceptHigh] }[which];
+      return (y - b) / s;
+    },
+  };
+}
+
+const DAY_MS = 86400000;
+const isoDay = (ms) => new Date(ms).toISOString().slice(0, 10);
+const dayMs = (iso) => Date.parse(`${iso}T00:00:00Z`);
+
+export function filterForecast(ctx, { points, qd, final, confidence = 0.9, minRise = 2.0 }) {
+  inRange("final_dp_pa", final, 0, 2500, { unit: "Pa", label: "final filter pressure drop" });
+  const usable = [];
+  points.forEach((p, i) => {
+    const h = inRange(`points[${i}].run_hours`, p.run_hours, 0, null, { unit: "h", label: "run-hours" });
+    let dp;
+    try {
+      dp = correctedPressureDrop(ctx, p.dp_pa, p.airflow_m3s, qd);
+    } catch (exc) {
+      if (exc.field !== "airflow_m3s") throw exc;
+      return;
+    }
+    usable.push([h, dp, p.when]);
+  });
+  if (usable.length < 3) {
+    throw new EngineeringInputError("points", `a filter forecast needs at least 3 usable readings (airflow within 0.5–1.5 × design); got ${usable.length}`);
+  }
+  const hours = usable.map((u) => u[0]);
+  if (new Set(hours).size < 2) throw new EngineeringInputError("points", "all readings are at the same run-hours: no trend can be drawn");
+  const rate = robustRate(usable.map(([h, dp]) => [h, dp]), confidence);
+  const rise = rate.slope * (Math.max(...hours) - Math.min(...hours));
+  if (rate.slope <= 0 || rise < minRise) {
+    throw new EngineeringInputError("points", `the pressure drop is not rising (trend ${rate.slope.toPrecision(3)} Pa per run-hour, ${rise.toFixed(1)} Pa over the readings; at least ${minRise} Pa needed): no forecast can be made`);
+  }
+  const atFinal = rate.xAt(final);
+  const early = rate.xAt(final, "high");
+  const late = rate.low > 0 ? rate.xAt(final, "low") : null;
+  const last = usable.reduce((a, b) => (b[0] > a[0] ? b : a));
+  const [lastH, , lastWhen] = last;
+  let hpd = null;
+  try {
+    const origin = Math.min(...usable.map((u) => dayMs(u[2])));
+    const perDay = robustRate(usable.map(([h, , w]) => [(dayMs(w) - origin) / DAY_MS, h]));
+    hpd = perDay.slope > 0 ? perDay.slope : null;
+  } catch (exc) {
+    hpd = null;
+  }
+  const latest = Math.max(...usable.map((u) => dayMs(u[2])));
+  const toDate = (h) => {
+    if (h === null || hpd === null) return null;
+    // Never before the reading the forecast comes from (nor any reading given).
+    const at = Math.max(dayMs(lastWhen) + (Math.max(h - lastH, 0) / hpd) * DAY_MS, latest);
+    return isoDay(Math.floor((at + DAY_MS / 2) / DAY_MS) * DAY_MS);
+  };
+  return {
+    runHoursAtFinal: atFinal, dateAtFinal: toDate(atFinal), dateLow: toDate(early), dateHigh: toDate(late),
+    rate: rate.slope, pointsUsed: usable.length, atFinalNow: atFinal <= lastH,
+    method: `Theil–Sen line of pressure drop corrected to design airflow (n=${ctx.constants.filter_exponent}) against run-hours, ${Math.round(confidence * 100)} % interval`,
+  };
+}
+
+function oaFraction({ method, outdoor, ret, mixed, accO, accR, accM, minDifference, maxUncertainty = 0.5, unit }) {
+  const diff = ret - outdoor;
+  if (Math.abs(diff) < minDifference) {
+    throw new EngineeringInputError("outdoor", `cannot compute an outdoor-air fraction by ${method}: outdoor and return differ by ${fmtG(pyRound(Math.abs(diff), 3))} ${unit === "°C" ? "K" : unit}; they must differ by at least ${fmtG(minDifference)} ${unit === "°C" ? "K" : unit}`);
+  }
+  const x = (ret - mixed) / diff;
+  const u = Math.sqrt((accM / diff) ** 2 + ((accO * (ret - mixed)) / diff ** 2) ** 2 + ((accR * (mixed - outdoor)) / diff ** 2) ** 2);
+  if (u >= maxUncertainty) {
+    throw new EngineeringInputError("mixed", `cannot compute an outdoor-air fraction by ${method}: the result would be ${x.toFixed(2)} ± ${u.toFixed(2)}, and an uncertainty of ±${maxUncertainty} or more says nothing`);
+  }
+  if (x < -u || x > 1 + u) {
+    throw new EngineeringInputError("mixed", `mixed ${fmtG(mixed)} ${unit} is not between outdoor ${fmtG(outdoor)} ${unit} and return ${fmtG(ret)} ${unit} (even allowing ±${u.toFixed(2)} for sensor accuracy): check sensor placement, stratification or a heat source upstream`);
+  }
+  return { fraction: Math.min(Math.max(x, 0), 1), uncertainty: u };
+}
+
+export function oaFractionFromTemperatures(o, r, m, accuracy = 0.5) {
+  airTemperature("t_outdoor_c", o, "outdoor air temperature");
+  airTemperature("t_return_c", r, "return air temperature");
+  airTemperature("t_mixed_c", m, "mixed air temperature");
+  return oaFraction({ method: "temperature", outdoor: o, ret: r, mixed: m, accO: accuracy, accR: accuracy, accM: accuracy, minDifference: 3.0, unit: "°C" });
+}
+
+export function oaFractionFromCo2(o, r, m, accPpm = 50, accPct = 3) {
+  co2("co2_outdoor_ppm", o);
+  co2("co2_return_ppm", r);
+  co2("co2_supply_or_mixed_ppm", m);
+  const a = (c) => accPpm + (accPct / 100) * c;
+  return oaFraction({ method: "co2", outdoor: o, ret: r, mixed: m, accO: a(o), accR: a(r), accM: a(m), minDifference: 100.0, unit: "ppm" });
+}
+
+function fractionCheck(x, u, mn) {
+  const lo = x - u;
+  const hi = x + u;
+  const text = `outdoor-air fraction ${(x * 100).toFixed(0)} % ± ${(u * 100).toFixed(0)} points`;
+  if (lo >= mn) return { verdict: OK, reason: `${text} is at or above the minimum ${(mn * 100).toFixed(0)} %` };
+  if (hi < mn) return { verdict: FAIL, reason: `${text} is below the minimum ${(mn * 100).toFixed(0)} %` };
+  return { verdict: WATCH, reason: `cannot decide: ${text} spans the minimum ${(mn * 100).toFixed(0)} %; measure again when outdoor and return differ more` };
+}
+
+/** Density and c_p of a coil fluid at a temperature, interpolated in the server's 1 K table. */
+export function fluidProperties(ctx, fluid, t) {
+  const table = ctx.fluids[fluid];
+  if (!table) throw new EngineeringInputError("fluid", `no properties for ${fluid}`);
+  const { t_min: lo, t_max: hi, step, rows } = table;
+  inRange("temperature_c", t, lo, hi, { unit: "°C", label: `${fluid.replace(/_/g, " ")} temperature` });
+  const pos = (t - lo) / step;
+  const i = Math.min(Math.floor(pos), rows.length - 2);
+  const f = pos - i;
+  return [rows[i][0] + f * (rows[i + 1][0] - rows[i][0]), rows[i][1] + f * (rows[i + 1][1] - rows[i][1])];
+}
+
+// ASHRAE Handbook—Fundamentals 2017 ch.1: v = R_da T (1 + 1.607858 W) / p (psychrolib GetMoistAirVolume),
+// q_s = (V / v)(c_p,da + W c_p,v)(t_out − t_in), c_p,da = 1006, c_p,v = 1860 J/kg·K (eq. 32).
+export function sensibleHeatW({ airflow, tIn, tOut, pressure = 101325, w = 0 }) {
+  inRange("airflow_m3s", airflow, 0, 100, { unit: "m³/s", label: "airflow" });
+  airTemperature("t_in_c", tIn, "entering air temperature");
+  airTemperature("t_out_c", tOut, "leaving air temperature");
+  inRange("pressure_pa", pressure, 50000, 110000, { unit: "Pa", label: "absolute pressure" });
+  const v = (287.042 * (tIn + 273.15) * (1 + 1.607858 * w)) / pressure;
+  return (airflow / v) * (1006.0 + w * 1860.0) * (tOut - tIn);
+}
+
+export function waterSideHeatW(ctx, { tSupply, tReturn, flow, fluid = "water" }) {
+  inRange("flow_m3s", flow, 0, 1, { unit: "m³/s", label: "fluid flow" });
+  const table = ctx.fluids[fluid];
+  if (!table) throw new EngineeringInputError("fluid", `no properties for ${fluid}`);
+  const label = fluid.replace(/_/g, " ");
+  inRange("t_supply_c", tSupply, table.t_min, table.t_max, { unit: "°C", label: `${label} supply temperature` });
+  inRange("t_return_c", tReturn, table.t_min, table.t_max, { unit: "°C", label: `${label} return temperature` });
+  const [rho, cp] = fluidProperties(ctx, fluid, (tSupply + tReturn) / 2);
+  return rho * flow * cp * (tReturn - tSupply);
+}
+
+function coilBalance(air, water, tolerancePct) {
+  const a = Math.abs(air);
+  const w = Math.abs(water);
+  const mean = (a + w) / 2;
+  if (mean < 1.0) throw new EngineeringInputError("air_side_w", "both sides are below 1 W: nothing to compare");
+  const diff = ((a - w) / mean) * 100;
+  const d = pyRound(Math.abs(diff), 9);
+  const verdict = d <= tolerancePct ? OK : d <= 2 * tolerancePct ? WATCH : FAIL;
+  return { differencePct: diff, verdict };
+}
+
+function heatRecoveryEffectiveness(o, s, e, accuracy = 0.5) {
+  airTemperature("t_outdoor_c", o, "outdoor air temperature");
+  airTemperature("t_supply_after_recovery_c", s, "supply air after recovery temperature");
+  airTemperature("t_extract_c", e, "extract air temperature");
+  const diff = e - o;
+  if (Math.abs(diff) < 5.0) {
+    throw new EngineeringInputError("t_extract_c", `cannot compute a heat-recovery effectiveness: outdoor ${fmtG(o)} °C and extract ${fmtG(e)} °C differ by ${fmtG(pyRound(Math.abs(diff), 3))} K; they must differ by at least 5 K (measure on a colder or warmer day)`);
+  }
+  const x = (s - o) / diff;
+  const u = accuracy * Math.sqrt((1 / diff) ** 2 + ((s - e) / diff ** 2) ** 2 + ((s - o) / diff ** 2) ** 2);
+  if (u >= 0.2) {
+    throw new EngineeringInputError("t_extract_c", `cannot compute a heat-recovery effectiveness: with the sensor accuracy given the result would be ${x.toFixed(2)} ± ${u.toFixed(2)}; outdoor and extract differ by only ${fmtG(pyRound(Math.abs(diff), 3))} K`);
+  }
+  if (x < -u || x > 1 + u) {
+    throw new EngineeringInputError("t_supply_after_recovery_c", `supply after recovery ${fmtG(s)} °C is not between outdoor ${fmtG(o)} °C and extract ${fmtG(e)} °C (even allowing ±${u.toFixed(2)}): check that the sensor sits after the exchanger and before any heating or cooling coil`);
+  }
+  return { effectiveness: Math.min(Math.max(x, 0), 1), uncertainty: u };
+}
+
+function heatRecoveryCheck(x, u, design, watch = 5.0, fail = 15.0) {
+  const pct = x * 100;
+  const uPct = u * 100;
+  const below = design - pct;
+  const text = `effectiveness ${pct.toFixed(0)} % ± ${uPct.toFixed(0)} points against design ${design.toFixed(0)} % (watch beyond ${watch} points below, fail beyond ${fail})`;
+  if (pyRound(below, 9) <= watch) return { verdict: OK, below, reason: text };
+  if (pyRound(design - (pct + uPct), 9) <= fail) {
+    const decided = pyRound(below, 9) <= fail;
+    return { verdict: WATCH, below, reason: `${decided ? "" : "cannot decide between watch and fail: "}${text}; ${below.toFixed(0)} points below design` };
+  }
+  return { verdict: FAIL, below, reason: `${text}; ${below.toFixed(0)} points below design` };
+}
+
+// ---------------------------------------------------------------------------
+// The form
+// ---------------------------------------------------------------------------
+
+const q = (value, quantity, decimals) => (decimals === undefined ? { value, quantity } : { value, quantity, decimals });
+const span = (low, high, quantity, decimals) => ({ low: low ?? null, high: high ?? null, quantity, decimals });
+
+/** Key of one reading: item and component label code ("" for the unit itself). */
+export const readingKey = (item, component) => `${item}|${component || ""}`;
+
+class Form {
+  constructor(ctx, readings, finishedOn) {
+    this.ctx = ctx;
+    this.readings = readings;
+    this.finishedOn = finishedOn;
+    this.components = ctx.components;
+    this.unit = ctx.unit;
+  }
+
+  raw(key, component) { return this.readings[readingKey(key, component && component.code)]; }
+
+  has(key, component) { return this.raw(key, component) !== undefined; }
+
+  num(key, component = null) {
+    const v = this.raw(key, component);
+    return typeof v === "number" && Number.isFinite(v) ? v : null;
+  }
+
+  text(key, component = null) {
+    const v = this.raw(key, component);
+    return typeof v === "string" ? v : "";
+  }
+
+  of(kind) { return this.components.filter((c) => c.kind === kind); }
+}
+
+function result(fields) {
+  return { component: null, verdict: OK, reason: "", parts: [], method: "", derived: {}, condition_code: "", ...fields };
+}
+
+function say(res, ...pieces) {
+  const out = [];
+  for (const p of pieces.flat(Infinity)) {
+    if (typeof p === "string" && out.length && typeof out[out.length - 1] === "string") out[out.length - 1] += p;
+    else if (p !== "") out.push(p);
+  }
+  res.parts = out;
+}
+
+function supplyAirflow(form) {
+  const measured = form.num("visit.supply_airflow");
+  if (measured) return [measured, "measured"];
+  const speed = form.num("visit.supply_fan_speed");
+  const fan = form.components.find((c) => c.kind === "fan" && c.specs.role === "supply");
+  if (speed && fan && fan.specs.design_speed_rpm && fan.specs.design_flow_m3s) {
+    const rpm = speed * 60; // stored rev/s, engineering.units rotational_speed
+    const flow = (fan.specs.design_flow_m3s * rpm) / fan.specs.design_speed_rpm; // first fan law
+    return [flow, `from fan speed ${rpm.toFixed(0)} rpm by the first fan law`];
+  }
+  return [form.unit.design_supply_airflow_m3s, "design airflow assumed (not measured)"];
+}
+
+function fmtDate(iso) {
+  if (!iso) return "no date (run-hour rate unknown)";
+  const d = new Date(`${iso}T00:00:00Z`);
+  return `${d.getUTCDate()} ${d.toLocaleString("en-GB", { month: "long", timeZone: "UTC" })} ${d.getUTCFullYear()}`;
+}
+
+function filterChecks(form, consumed) {
+  const out = [];
+  const [flow, how] = supplyAirflow(form);
+  for (const bank of form.of("filter_bank")) {
+    const dp = form.num("filter_check.dp", bank);
+    if (dp === null) continue;
+    consumed.add(readingKey("filter_check.dp", bank.code));
+    const specs = bank.specs;
+    const qd = specs.design_airflow_m3s || form.unit.design_supply_airflow_m3s;
+    const res = result({ check: "filter_loading", item: "filter_check.dp", component: bank.code, condition_code: "filter_loaded" });
+    let loading;
+    try {
+      if (specs.clean_dp_pa === undefined || specs.final_dp_pa === undefined) {
+        throw new EngineeringInputError("specs", `the filter bank has no ${specs.clean_dp_pa === undefined ? "clean" : "final"} pressure drop in the registry`);
+      }
+      loading = filterLoading(form.ctx, { dp, q: flow, qd, clean: specs.clean_dp_pa, final: specs.final_dp_pa });
+    } catch (exc) {
+      if (!(exc instanceof EngineeringInputError)) throw exc;
+      res.verdict = WATCH;
+      res.reason = `cannot judge the filter loading: ${exc.message}`;
+      out.push(res);
+      continue;
+    }
+    const pct = loading.fraction * 100;
+    res.verdict = loading.verdict;
+    res.derived = {
+      dp_pa: dp, airflow_m3s: flow, airflow_source: how, design_airflow_m3s: qd,
+      corrected_dp_pa: pyRound(loading.corrected, 1), loading_pct: pyRound(pct, 1),
+      clean_dp_pa: specs.clean_dp_pa, final_dp_pa: specs.final_dp_pa,
+      fraction_of_clean_pct: pyRound(loading.ofClean * 100, 1), media_bypass_suspected: loading.bypass,
+    };
+    const c = form.ctx.constants;
+    res.method = `Δp × (Q_design/Q)^${c.filter_exponent} against the clean-to-final span; below ${(c.filter_bypass_fail_fraction * 100).toFixed(0)} % of clean fails, below ${(c.filter_bypass_watch_fraction * 100).toFixed(0)} % watch (missing, torn or bypassed media; common practice); airflow ${how}`;
+    if (loading.bypass) {
+      // A reading below clean says nothing about loading: no forecast from it.
+      say(res, `${bank.name}: filter reads `, q(loading.corrected, "pressure"),
+        ` at design airflow, ${(loading.ofClean * 100).toFixed(0)} % of its clean pressure drop `, q(specs.clean_dp_pa, "pressure"),
+        `: ${res.verdict === FAIL ? "missing, torn or bypassed media" : "lower than a filter in service should read, check for torn or bypassed media"}`
+        + ` (fail below ${(c.filter_bypass_fail_fraction * 100).toFixed(0)} %, watch below ${(c.filter_bypass_watch_fraction * 100).toFixed(0)} % of clean)`);
+      out.push(res);
+      continue;
+    }
+    let forecastText = "";
+    const hours = form.num("visit.run_hours");
+    if (hours !== null) {
+      const points = [...(form.ctx.filter_points[bank.code] || []), { run_hours: hours, dp_pa: dp, airflow_m3s: flow, when: form.finishedOn }];
+      try {
+        const fc = filterForecast(form.ctx, { points, qd, final: specs.final_dp_pa });
+        Object.assign(res.derived, {
+          forecast_run_hours: pyRound(fc.runHoursAtFinal), forecast_change_date: fc.dateAtFinal,
+          forecast_earliest_date: fc.dateLow, forecast_latest_date: fc.dateHigh,
+          rate_pa_per_hour: pyRound(fc.rate, 4), points_used: fc.pointsUsed, forecast_at_final_now: fc.atFinalNow,
+        });
+        res.method += `; forecast: ${fc.method}`;
+        forecastText = fc.atFinalNow
+          ? "; at or over its final pressure drop now by the trend: change it"
+          : `; change forecast ${fmtDate(fc.dateAtFinal)}`;
+      } catch (exc) {
+        if (!(exc instanceof EngineeringInputError)) throw exc;
+        forecastText = "; no change forecast yet";
+        res.derived.forecast_note = exc.message;
+      }
+    }
+    say(res, `${bank.name}: filter at ${pct.toFixed(0)} % of its span after correcting to design airflow (`,
+      q(loading.corrected, "pressure"), " at design, clean ", q(specs.clean_dp_pa, "pressure"),
+      ", final ", q(specs.final_dp_pa, "pressure"), `)${forecastText}`);
+    out.push(res);
+  }
+  return out;
+}
+
+function filterChangeChecks(form, consumed) {
+  const out = [];
+  const [flow, how] = supplyAirflow(form);
+  const c = form.ctx.constants;
+  for (const bank of form.of("filter_bank")) {
+    const dp = form.num("filter_replace.dp_after", bank);
+    const clean = bank.specs.clean_dp_pa;
+    if (dp === null || clean === undefined || clean === null) continue;
+    consumed.add(readingKey("filter_replace.dp_after", bank.code));
+    const qd = bank.specs.design_airflow_m3s || form.unit.design_supply_airflow_m3s;
+    const res = result({ check: "filter_after_change", item: "filter_replace.dp_after", component: bank.code, condition_code: "filter_loaded" });
+    let chk;
+    try {
+      chk = filterAfterChange(form.ctx, { dp, q: flow, qd, clean });
+    } catch (exc) {
+      if (!(exc instanceof EngineeringInputError)) throw exc;
+      res.verdict = WATCH;
+      res.reason = `${bank.name}: cannot judge the pressure drop after the change: ${exc.message}`;
+      out.push(res);
+      continue;
+    }
+    const tol = c.filter_after_change_tolerance;
+    res.verdict = chk.verdict;
+    res.derived = {
+      dp_pa: dp, airflow_m3s: flow, airflow_source: how, design_airflow_m3s: qd, corrected_dp_pa: pyRound(chk.corrected, 1),
+      clean_dp_pa: clean, fraction_of_clean_pct: pyRound(chk.ofClean * 100, 1), media_bypass_suspected: chk.bypass,
+    };
+    const pctOf = (x) => (x * 100).toFixed(0);
+    res.method = `Δp × (Q_design/Q)^${c.filter_exponent} against the rated clean pressure drop: ok within ±${pctOf(tol)} %, fail below ${pctOf(c.filter_bypass_fail_fraction)} % or above ${pctOf(c.filter_after_change_high_fail)} % (common practice); airflow ${how}`;
+    const r = pyRound(chk.ofClean, 9);
+    let what = "as rated";
+    if (chk.bypass) what = "missing, torn or bypassed media";
+    else if (r < 1 - tol) what = "lower than a new filter should read, check the media is seated and sealed";
+    else if (r > 1 + tol) what = "higher than a new filter should read, check the class and size fitted and the gauge lines";
+    say(res, `${bank.name}: after the change the filter reads `, q(chk.corrected, "pressure"),
+      ` at design airflow, ${pctOf(chk.ofClean)} % of its rated clean pressure drop `, q(clean, "pressure"),
+      `: ${what} (ok within ±${pctOf(tol)} %, fail below ${pctOf(c.filter_bypass_fail_fraction)} % or above ${pctOf(c.filter_after_change_high_fail)} %)`);
+    out.push(res);
+  }
+  return out;
+}
+
+function oaChecks(form) {
+  const out = [];
+  const u = form.unit;
+  const [flow, how] = supplyAirflow(form);
+  const pairs = [
+    ["temperature", "ventilation_check.mixed_air", ["ventilation_check.outdoor_air", "ventilation_check.return_air", "ventilation_check.mixed_air"],
+      (o, r, m) => oaFractionFromTemperatures(o, r, m)],
+    ["co2", "ventilation_check.supply_co2", ["ventilation_check.outdoor_co2", "ventilation_check.return_co2", "ventilation_check.supply_co2"],
+      (o, r, m) => oaFractionFromCo2(o, r, m)],
+  ];
+  const requiredQ = u.required_outdoor_airflow_m3s;
+  for (const [method, item, keys, compute] of pairs) {
+    const vals = keys.map((k) => form.num(k));
+    if (vals.some((x) => x === null)) continue;
+    const res = result({ check: `oa_fraction_${method}`, item, condition_code: "ventilation_low" });
+    let frac;
+    try {
+      frac = compute(...vals);
+    } catch (exc) {
+      if (!(exc instanceof EngineeringInputError)) throw exc;
+      res.verdict = WATCH;
+      res.reason = `outdoor-air fraction by ${method}: ${exc.message}`;
+      out.push(res);
+      continue;
+    }
+    const oaQ = frac.fraction * flow;
+    res.derived = {
+      oa_fraction: pyRound(frac.fraction, 3), uncertainty: pyRound(frac.uncertainty, 3),
+      outdoor_airflow_m3s: pyRound(oaQ, 3), supply_airflow_m3s: flow, airflow_source: how,
+      design_min_oa_fraction: u.design_min_oa_fraction,
+      design_min_outdoor_airflow_m3s: pyRound(u.design_min_oa_fraction * u.design_supply_airflow_m3s, 3),
+    };
+    const label = method === "temperature" ? "temperatures" : "CO2";
+    res.method = `mixing balance from ${label}; outdoor airflow = fraction × supply airflow (${how})`;
+    if (u.full_outdoor_air) {
+      res.verdict = OK;
+      res.reason = `100 % outdoor-air unit; measured fraction ${(frac.fraction * 100).toFixed(0)} %`;
+      out.push(res);
+      continue;
+    }
+    const chk = fractionCheck(frac.fraction, frac.uncertainty, u.design_min_oa_fraction);
+    let verdict = chk.verdict;
+    const parts = [`by ${label}: ${chk.reason} (design minimum; `, q(oaQ, "airflow"), " outdoor air)"];
+    if (requiredQ !== null && requiredQ !== undefined && flow > 0) {
+      res.derived.required_outdoor_airflow_m3s = pyRound(requiredQ, 3);
+      const need = Math.min(requiredQ / flow, 1.0);
+      const req = fractionCheck(frac.fraction, frac.uncertainty, need);
+      verdict = worst(verdict, req.verdict);
+      parts.push("; ventilation requirement ", q(requiredQ, "airflow"), ` (ASHRAE 62.1 ventilation rate procedure, ${u.space_kind}): ${req.verdict}`);
+      res.method += "; requirement Vbz = Rp·Pz + Ra·Az, Ez = 1";
+    }
+    res.verdict = verdict;
+    say(res, parts);
+    out.push(res);
+  }
+  return out;
+}
+
+function coilChecks(form) {
+  const out = [];
+  const [flow, how] = supplyAirflow(form);
+  const p = form.unit.site_pressure_pa;
+  const tol = form.ctx.constants.coil_tolerance_pct;
+  for (const coil of form.of("coil")) {
+    for (const template of ["coil_clean", "cooling_season_check"]) {
+      const vals = {};
+      for (const k of ["air_in", "air_out", "water_in", "water_out", "water_flow"]) vals[k] = form.num(`${template}.${k}`, coil);
+      if (Object.values(vals).some((x) => x === null)) continue;
+      const res = result({ check: "coil_balance", item: `${template}.water_flow`, component: coil.code });
+      let airflow = how.startsWith("design") ? coil.specs.design_airflow_m3s : flow;
+      airflow = airflow || flow;
+      let air;
+      let water;
+      let bal;
+      try {
+        air = sensibleHeatW({ airflow, tIn: vals.air_in, tOut: vals.air_out, pressure: p });
+        water = waterSideHeatW(form.ctx, { tSupply: vals.water_in, tReturn: vals.water_out, flow: vals.water_flow, fluid: "water" });
+        bal = coilBalance(air, water, tol);
+      } catch (exc) {
+        if (!(exc instanceof EngineeringInputError)) throw exc;
+        res.verdict = WATCH;
+        res.reason = `${coil.name}: cannot balance the coil: ${exc.message}`;
+        out.push(res);
+        break;
+      }
+      res.derived = {
+        air_side_w: pyRound(air), water_side_w: pyRound(water), difference_pct: pyRound(bal.differencePct, 1),
+        airflow_m3s: airflow, airflow_source: how,
+      };
+      res.method = `air side q = ṁ·c_p·Δt (sensible); water side q = ρ·V·c_p·Δt; balance within ${tol} % ok, ${2 * tol} % watch`;
+      res.verdict = bal.verdict;
+      const which = bal.differencePct > 0 ? "air side higher" : "water side higher";
+      const parts = [`${coil.name}: air side `, q(Math.abs(air), "heat_rate"), ", water side ", q(Math.abs(water), "heat_rate"),
+        `: ${Math.abs(bal.differencePct).toFixed(1)} % apart (${which}; ok within ${tol} %, watch within ${2 * tol} %)`];
+      if (coil.specs.duty === "cooling" && res.verdict === FAIL) {
+        res.verdict = WATCH; // latent heat is not measured: a wet cooling coil reads high on the water side
+        parts.push(" (cooling coil: air side is sensible only, latent heat not measured)");
+      }
+      say(res, parts);
+      out.push(res);
+      break;
+    }
+  }
+  return out;
+}
+
+function setpointChecks(form, consumed) {
+  const out = [];
+  const u = form.unit;
+  for (const template of ["controls_check", "cooling_season_check"]) {
+    const t = form.num(`${template}.supply_air`);
+    if (t === null) continue;
+    let sp = form.num(`${template}.supply_setpoint`);
+    sp = sp !== null ? sp : u.supply_air_setpoint_c;
+    if (sp === null || sp === undefined) continue;
+    consumed.add(readingKey(`${template}.supply_air`, null));
+    airTemperature("measured_c", t, "supply air temperature");
+    airTemperature("setpoint_c", sp, "supply air set point");
+    const dev = t - sp;
+    const res = result({
+      check: "supply_temperature", item: `${template}.supply_air`, verdict: grade(dev, 1.0, 2.0), condition_code: "supply_temp_off",
+      method: "|t − t_set| against 1 K / 2 K (common practice)",
+      derived: { supply_air_c: t, setpoint_c: sp, deviation_k: pyRound(dev, 2) },
+    });
+    const where = pyRound(dev, 1) === 0 ? ["at"] : [q(Math.abs(dev), "temperature_difference"), dev > 0 ? " above" : " below"];
+    say(res, "supply air ", q(t, "temperature"), ", ", where, " set point ", q(sp, "temperature"),
+      " (watch above ", q(1.0, "temperature_difference"), ", fail above ", q(2.0, "temperature_difference"), ")");
+    out.push(res);
+  }
+  const p = form.num("controls_check.duct_static");
+  if (p !== null) {
+    let sp = form.num("controls_check.duct_static_setpoint");
+    sp = sp !== null ? sp : u.duct_static_setpoint_pa;
+    if (sp) {
+      consumed.add(readingKey("controls_check.duct_static", null));
+      inRange("measured_pa", p, -5000, 5000, { unit: "Pa", label: "static pressure" });
+      inRange("setpoint_pa", sp, 0, 5000, { unit: "Pa", label: "static pressure set point", lowOpen: true });
+      const dev = ((p - sp) / sp) * 100;
+      const res = result({
+        check: "duct_static", item: "controls_check.duct_static", verdict: grade(dev, 10, 20),
+        method: "deviation as % of set point, 10 % / 20 % (common practice)",
+        derived: { static_pa: p, setpoint_pa: sp, deviation_pct: pyRound(dev, 1) },
+      });
+      say(res, "static pressure ", q(p, "pressure"), `, ${Math.abs(dev).toFixed(1)} % ${dev > 0 ? "above" : "below"} set point `,
+        q(sp, "pressure"), " (watch above 10 %, fail above 20 %)");
+      out.push(res);
+    }
+  }
+  for (const damper of form.of("damper")) {
+    const cmd = form.num("damper_actuator.command", damper);
+    const pos = form.num("damper_actuator.position", damper);
+    if (cmd === null || pos === null) continue;
+    consumed.add(readingKey("damper_actuator.position", damper.code));
+    inRange("commanded_pct", cmd, 0, 100, { unit: "%", label: "commanded position" });
+    inRange("measured_pct", pos, 0, 100, { unit: "%", label: "measured position" });
+    const dev = pos - cmd;
+    const where = pyRound(dev, 1) === 0 ? "matching" : `${Math.abs(dev).toFixed(1)} points ${dev > 0 ? "more open" : "more closed"} than`;
+    out.push(result({
+      check: "damper_position", item: "damper_actuator.position", component: damper.code, verdict: grade(dev, 5, 10),
+      reason: `${damper.name}: damper at ${pos.toFixed(0)} %, ${where} commanded ${cmd.toFixed(0)} % (watch above 5 points, fail above 10 points)`,
+      condition_code: "damper_position", method: "position − command, 5 / 10 points (common practice)",
+      derived: { commanded_pct: cmd, measured_pct: pos, error_pct: pyRound(dev, 1) },
+    }));
+  }
+  return out;
+}
+
+function driftChecks(form, consumed) {
+  const out = [];
+  const defaults = form.ctx.constants.drift_defaults;
+  const quantities = form.ctx.constants.drift_quantities;
+  for (const sensor of form.of("sensor")) {
+    for (const [prefix, [absDefault, pctDefault]] of Object.entries(defaults)) {
+      const s = form.num(`sensor_calibration.${prefix}_sensor`, sensor);
+      const r = form.num(`sensor_calibration.${prefix}_reference`, sensor);
+      if (s === null || r === null) continue;
+      consumed.add(readingKey(`sensor_calibration.${prefix}_reference`, sensor.code));
+      let tolAbs = absDefault;
+      let tolPct = pctDefault;
+      let source = "the sensor's stated accuracy";
+      if (sensor.specs.accuracy) { tolAbs = Number(sensor.specs.accuracy); tolPct = 0; } else source = "a typical accuracy (common practice, from memory)";
+      const allowed = tolAbs + (tolPct / 100) * Math.abs(r);
+      if (!(allowed > 0)) throw new EngineeringInputError("tolerance_abs", "the sensor's tolerance allows no error at all");
+      const diff = s - r;
+      const res = result({
+        check: "sensor_drift", item: `sensor_calibration.${prefix}_reference`, component: sensor.code,
+        verdict: grade(diff, 0.8 * allowed, allowed), condition_code: "sensor_drift",
+        method: `sensor − reference against ${source}`,
+        derived: { sensor: s, reference: r, error: pyRound(diff, 3), allowed_error: pyRound(allowed, 3) },
+      });
+      const [valueQ, diffQ] = quantities[prefix];
+      const spec = tolPct === 0 ? [q(tolAbs, diffQ)] : ["(", q(tolAbs, diffQ), ` + ${tolPct} % of reading)`];
+      say(res, `${sensor.name}: sensor reads `, q(s, valueQ), ", ", q(Math.abs(diff), diffQ), ` ${diff > 0 ? "above" : "below"} reference `,
+        q(r, valueQ), "; allowed ±", spec, " = ±", q(allowed, diffQ));
+      out.push(res);
+    }
+  }
+  return out;
+}
+
+function heatRecoveryChecks(form) {
+  const out = [];
+  for (const hx of form.of("heat_recovery")) {
+    const [o, s, e] = ["outdoor_in", "supply_out", "extract_in"].map((k) => form.num(`heat_recovery.${k}`, hx));
+    if (o === null || s === null || e === null) continue;
+    const res = result({
+      check: "heat_recovery", item: "heat_recovery.supply_out", component: hx.code, condition_code: "heat_recovery_low",
+      method: "ε = (t_supply − t_outdoor)/(t_extract − t_outdoor), temperature ratio per EN 308 (from memory), ±0.5 K sensors; watch beyond 5, fail beyond 15 points below design (common practice)",
+    });
+    let hr;
+    try {
+      hr = heatRecoveryEffectiveness(o, s, e);
+    } catch (exc) {
+      if (!(exc instanceof EngineeringInputError)) throw exc;
+      res.verdict = WATCH;
+      say(res, `${hx.name}: ${exc.message}`);
+      out.push(res);
+      continue;
+    }
+    const pct = hr.effectiveness * 100;
+    const uPct = hr.uncertainty * 100;
+    res.derived = {
+      outdoor_c: o, supply_after_recovery_c: s, extract_c: e, effectiveness_pct: pyRound(pct, 1), uncertainty_pct: pyRound(uPct, 1),
+    };
+    const temps = [" (outdoor ", q(o, "temperature"), ", after recovery ", q(s, "temperature"), ", extract ", q(e, "temperature"), ")"];
+    const design = hx.specs.design_effectiveness_pct;
+    if (design === undefined || design === null) {
+      res.verdict = WATCH;
+      say(res, `${hx.name}: effectiveness ${pct.toFixed(0)} % ± ${uPct.toFixed(0)} points`, temps, "; no design effectiveness in the registry to judge it against");
+      out.push(res);
+      continue;
+    }
+    inRange("design_effectiveness_pct", design, 0, 100, { unit: "%", label: "design effectiveness", lowOpen: true });
+    const chk = heatRecoveryCheck(hr.effectiveness, hr.uncertainty, design);
+    res.verdict = chk.verdict;
+    Object.assign(res.derived, { design_effectiveness_pct: design, below_design_points: pyRound(chk.below, 1) });
+    say(res, `${hx.name}: ${chk.reason}`, temps);
+    out.push(res);
+  }
+  return out;
+}
+
+function bandParts(slot, x, lim, verdict) {
+  const d = slot.decimals;
+  const okLo = lim.ok_min ?? null;
+  const okHi = lim.ok_max ?? null;
+  const wLo = lim.watch_min ?? okLo;
+  const wHi = lim.watch_max ?? okHi;
+  const head = [`${slot.label.toLowerCase()} `, q(x, slot.quantity, d)];
+  if (verdict === OK) return [...head, " is within ", span(okLo, okHi, slot.quantity, d)];
+  if (verdict === WATCH) return [...head, " is outside ", span(okLo, okHi, slot.quantity, d), " but within ", span(wLo, wHi, slot.quantity, d)];
+  return [...head, " is outside ", span(wLo, wHi, slot.quantity, d)];
+}
+
+function readingResult(slot, value) {
+  if (value === "na") return null;
+  const res = result({ check: slot.kind, item: slot.item, component: slot.component, condition_code: slot.condition || "" });
+  if (slot.kind === "check") {
+    res.verdict = value === "ok" ? OK : FAIL;
+    res.reason = `${slot.label}: ${res.verdict === OK ? "ok" : "not ok"}`;
+    return res;
+  }
+  if (slot.kind === "choice") {
+    const choice = slot.choices.find((c) => c.value === value);
+    if (!choice) return null;
+    res.verdict = choice.ok === undefined || choice.ok ? OK : FAIL;
+    res.reason = `${slot.label}: ${choice.label}`;
+    return res;
+  }
+  if (slot.kind === "number" && typeof value === "number") {
+    const lim = slot.limits;
+    const has = (k) => lim[k] !== null && lim[k] !== undefined;
+    if (!has("ok_min") && !has("ok_max")) return null;
+    const okLo = has("ok_min") ? lim.ok_min : -Infinity;
+    const okHi = has("ok_max") ? lim.ok_max : Infinity;
+    const wLo = has("watch_min") ? lim.watch_min : okLo;
+    const wHi = has("watch_max") ? lim.watch_max : okHi;
+    let verdict = FAIL;
+    if (value >= okLo && value <= okHi) verdict = OK;
+    else if (value >= wLo && value <= wHi) verdict = WATCH;
+    res.check = "limits";
+    res.verdict = verdict;
+    say(res, bandParts(slot, value, lim, verdict));
+    res.method = `reading against its band; ${slot.limits_source || "common practice"}`;
+    res.derived = { value };
+    for (const [k, v] of Object.entries(lim)) if (v !== null && v !== undefined && k.includes("_m")) res.derived[k] = v;
+    return res;
+  }
+  return null;
+}
+
+/**
+ * Every judgement of one form, as inspections.evaluation.evaluate gives it.
+ * readings: {readingKey(item, component code): SI number | "ok" | "not_ok" | "na" | choice value | text}.
+ * finishedOn: the ISO date of the visit (the filter forecast's last point).
+ */
+export function evaluate(ctx, readings, { finishedOn = new Date().toISOString().slice(0, 10) } = {}) {
+  const form = new Form(ctx, readings, finishedOn);
+  const consumed = new Set();
+  const results = [
+    ...filterChecks(form, consumed), ...filterChangeChecks(form, consumed), ...oaChecks(form, consumed), ...coilChecks(form, consumed),
+    ...setpointChecks(form, consumed), ...driftChecks(form, consumed), ...heatRecoveryChecks(form, consumed),
+  ];
+  for (const slot of ctx.slots) {
+    const key = readingKey(slot.item, slot.component);
+    if (consumed.has(key) || !(key in readings)) continue;
+    const res = readingResult(slot, readings[key]);
+    if (res) results.push(res);
+  }
+  for (const res of results) {
+    if (res.parts.length) res.reason = render(ctx, res.parts, "si");
+    else if (res.reason) res.parts = [res.reason];
+  }
+  return results;
+}
+
+/** A result's reason in the person's units ("si" or "us"). */
+export function reasonIn(ctx, res, system) {
+  return render(ctx, res.parts, system);
+}

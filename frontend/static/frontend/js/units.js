@@ -1,0 +1,74 @@
+// Display units on the phone: the factors and labels come from the server (inspections/phone.py,
+// built from engineering/units.py), so the phone converts exactly as the server does. No DOM.
+
+const PLAIN = new Set(["percent", "current", "time", ""]);
+
+function spec(units, quantity, system) {
+  const q = units && units[quantity];
+  if (!q || PLAIN.has(quantity)) return null;
+  return q[system === "us" ? "us" : "si"];
+}
+
+/** Stored SI value → the person's display unit. */
+export function toDisplay(units, value, quantity, system) {
+  if (value === null || value === undefined) return value;
+  const s = spec(units, quantity, system);
+  if (!s) return value;
+  const [scale, offset] = s.factor;
+  return scale * value + offset;
+}
+
+/** A value typed in the person's display unit → stored SI value. */
+export function fromDisplay(units, value, quantity, system) {
+  if (value === null || value === undefined) return value;
+  const s = spec(units, quantity, system);
+  if (!s) return value;
+  const [scale, offset] = s.factor;
+  return (value - offset) / scale;
+}
+
+export function unitLabel(units, quantity, system) {
+  const q = units && units[quantity];
+  if (!q) return { percent: "%", current: "A", time: "s" }[quantity] || "";
+  return q[system === "us" ? "us" : "si"].label;
+}
+
+/** Python's f"{x:,.{d}f}" (thousands grouped from 10 000), with a true minus sign. */
+export function formatNumber(x, decimals) {
+  let text = Math.abs(x) >= 10000
+    ? x.toLocaleString("en-US", { minimumFractionDigits: decimals, maximumFractionDigits: decimals })
+    : x.toFixed(decimals);
+  if (Number(text.replace(/,/g, "")) === 0) text = text.replace(/^-/, "");
+  return text.replace("-", "−");
+}
+
+function decimalsOf(decimalsTable, part, system) {
+  const [si, us] = (decimalsTable && decimalsTable[part.quantity]) || [1, 1];
+  if (system === "us") return us;
+  return part.decimals !== undefined && part.decimals !== null ? part.decimals : si;
+}
+
+function withUnit(units, text, quantity, system) {
+  const unit = unitLabel(units, quantity, system);
+  return unit ? `${text} ${unit}` : text;
+}
+
+/** One reason part (inspections/reasons.py): text, a quantity {value, quantity} or a band {low, high, quantity}. */
+export function renderPart(ctx, part, system) {
+  if (typeof part === "string") return part;
+  const { units, decimals } = ctx;
+  const d = decimalsOf(decimals, part, system);
+  const num = (x) => formatNumber(toDisplay(units, x, part.quantity, system), d);
+  if ("value" in part) return withUnit(units, num(part.value), part.quantity, system);
+  const { low, high } = part;
+  if (low !== null && low !== undefined && high !== null && high !== undefined) {
+    return withUnit(units, `${num(low)}–${num(high)}`, part.quantity, system);
+  }
+  if (low !== null && low !== undefined) return `at least ${withUnit(units, num(low), part.quantity, system)}`;
+  if (high !== null && high !== undefined) return `at most ${withUnit(units, num(high), part.quantity, system)}`;
+  return "any value";
+}
+
+export function render(ctx, parts, system) {
+  return (parts || []).map((p) => renderPart(ctx, p, system)).join("");
+}

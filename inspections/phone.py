@@ -1,0 +1,156 @@
+"""What the phone needs to judge a form offline exactly as ``inspections.evaluation`` does.
+
+``evaluation_context`` turns the inputs of ``evaluation.evaluate`` (the unit, its
+components, the checklist slots with their resolved limits, earlier filter
+points) into one JSON document. The phone's twin of ``evaluate``
+(``frontend/static/frontend/js/evaluate.js``) reads only this document and the
+readings; the numbers that need server-side engineering (site pressure from
+altitude, the ventilation requirement, fluid properties, display-unit factors)
+are worked out here by the same functions the server uses, so the phone carries
+results, never second copies of formulas it cannot run.
+
+tests/inspections/test_phone_agreement.py runs both sides on the same cases.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import functools
+import math
+from collections.abc import Callable
+from typing import Any
+
+from engineering import filters
+from engineering import units as eng_units
+from engineering.airside import FLUIDS, fluid_properties
+from engineering.errors import EngineeringInputError
+from engineering.filters import FilterPoint
+from engineering.psychro import pressure_from_altitude
+from inspections import checklists, evaluation, reasons
+
+CONTEXT_VERSION = 1
+# Quantities of readings and reasons; plain ones (percent, current, time) have no conversion.
+_UNIT_QUANTITIES = (*eng_units.QUANTITIES, "percent", "current", "time")
+
+
+def _linear(quantity: str, system: str) -> list[float]:
+    """[scale, offset] with display = scale × SI + offset (every display conversion is linear)."""
+    zero = checklists.to_display(0.0, quantity, system)
+    one = checklists.to_display(1.0, quantity, system)
+    return [one - zero, zero]
+
+
+@functools.cache
+def unit_table() -> dict[str, dict[str, Any]]:
+    """Display conversion and labels per quantity, from engineering.units (pint); read-only."""
+    return {
+        q: {
+            "storage": checklists.storage_unit_label(q),
+            **{s: {"factor": _linear(q, s), "label": checklists.display_unit_label(q, s)} for s in ("si", "us")},
+        }
+        for q in _UNIT_QUANTITIES
+    }
+
+
+@functools.cache
+def fluid_table() -> dict[str, dict[str, Any]]:
+    """Read-only: density and c_p of each coil fluid every 1 K over its range (engineering.airside.fluid_properties)."""
+    out = {}
+    for name, rows in FLUIDS.items():
+        lo, hi = math.ceil(rows[0][0]), math.floor(rows[-1][0])
+        table = []
+        for t in range(lo, hi + 1):
+            rho, cp = fluid_properties(fluid=name, temperature_c=float(t))
+            table.append([round(rho, 4), round(cp, 3)])
+        out[name] = {"t_min": lo, "t_max": hi, "step": 1, "rows": table}
+    return out
+
+
+def _slot(slot) -> dict[str, Any]:
+    it = slot.item
+    return {
+        "item": it.api_key,
+        "component": slot.component.label_code if slot.component is not None else None,
+        "kind": it.kind,
+        "label": it.label,
+        "quantity": it.quantity or "",
+        "decimals": it.decimals,
+        "choices": it.choices or [],
+        "limits_source": it.limits_source or "",
+        "limits": dict(slot.limits or {}),
+        "condition": evaluation.ITEM_CONDITIONS.get(it.api_key, ""),
+    }
+
+
+def _site_pressure(ahu) -> float | None:
+    try:
+        return pressure_from_altitude(altitude_m=ahu.building.site.altitude_m)
+    except EngineeringInputError:
+        return None
+
+
+def evaluation_context(
+    *,
+    ahu,
+    components: list,
+    slots: list,
+    filter_points: Callable[[Any], list[FilterPoint]] = lambda component: [],
+) -> dict[str, Any]:
+    """The phone's evaluation context: the same inputs ``evaluation.Form`` gives ``evaluate``, as JSON (SI)."""
+    points: dict[str, list[dict]] = {}
+    for c in components:
+        if c.kind == "filter_bank":
+            points[c.label_code] = [
+                {
+                    "run_hours": p.run_hours,
+                    "dp_pa": p.dp_pa,
+                    "airflow_m3s": p.airflow_m3s,
+                    "when": (p.when.date() if isinstance(p.when, dt.datetime) else p.when).isoformat(),
+                }
+                for p in filter_points(c)
+            ]
+    return {
+        "version": CONTEXT_VERSION,
+        "unit": {
+            "design_supply_airflow_m3s": ahu.design_supply_airflow_m3s,
+            "design_min_oa_fraction": ahu.design_min_oa_fraction,
+            "full_outdoor_air": bool(ahu.full_outdoor_air),
+            "supply_air_setpoint_c": ahu.supply_air_setpoint_c,
+            "duct_static_setpoint_pa": ahu.duct_static_setpoint_pa,
+            "space_kind": ahu.space_kind or "",
+            "site_pressure_pa": _site_pressure(ahu),
+            "required_outdoor_airflow_m3s": evaluation.required_outdoor_airflow_m3s(ahu),
+        },
+        "components": [
+            {"code": c.label_code, "name": c.name, "kind": c.kind, "specs": c.specs or {}} for c in components
+        ],
+        "slots": [_slot(s) for s in slots],
+        "filter_points": points,
+        "fluids": fluid_table(),
+        "units": unit_table(),
+        "decimals": {q: list(d) for q, d in reasons.DECIMALS.items()},
+        "constants": {
+            "coil_tolerance_pct": evaluation.COIL_TOLERANCE_PCT,
+            "drift_defaults": {k: list(v) for k, v in evaluation.DRIFT_DEFAULTS.items()},
+            "drift_quantities": {k: list(v) for k, v in evaluation.DRIFT_QUANTITIES.items()},
+            "filter_exponent": filters.DEFAULT_EXPONENT,
+            "filter_airflow_ratio": list(filters.AIRFLOW_RATIO),
+            "filter_bypass_fail_fraction": filters.BYPASS_FAIL_FRACTION,
+            "filter_bypass_watch_fraction": filters.BYPASS_WATCH_FRACTION,
+            "filter_after_change_tolerance": filters.AFTER_CHANGE_TOLERANCE,
+            "filter_after_change_high_fail": filters.AFTER_CHANGE_HIGH_FAIL,
+        },
+    }
+
+
+def checklist_context(*, checklist, as_of: dt.datetime) -> dict[str, Any]:
+    """The evaluation context of one work order's checklist (``selectors.checklist_build``), as of a moment."""
+    from inspections.services.sync import _filter_points_for
+
+    ahu = checklist.work_order.ahu
+    return evaluation_context(
+        ahu=ahu,
+        components=list(ahu.components.all()),
+        slots=checklist.slots,
+        filter_points=_filter_points_for(ahu, as_of),
+    )

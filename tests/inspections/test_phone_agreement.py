@@ -1,0 +1,512 @@
+"""The phone judges every reading exactly as the server does.
+
+Seeded random forms (at least 200 per check, spread over ok, watch and fail and
+over the edges: reduced airflow, airflow from fan speed, too little
+outdoor–return difference, missing registry data, altitude, glycol-free and
+cooling coils) go through ``inspections.evaluation.evaluate`` and through its
+JavaScript twin ``frontend/static/frontend/js/evaluate.js`` under Node, fed only
+by ``inspections.phone.evaluation_context``. Verdicts must agree everywhere and
+every derived number within 0.5 %. A check the server can produce
+(``evaluation.CHECKS``) that the twin lacks fails the test, as does a check
+name the server produces that the registry does not list.
+
+The field calculator (``frontend/calculators.py``) and its offline twin
+(``calc.js``) are held to the same agreement at the end of this module.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import json
+import random
+import shutil
+import subprocess
+from collections import Counter
+from pathlib import Path
+from types import SimpleNamespace as NS
+
+import pytest
+
+from engineering import ventilation
+from engineering.filters import FilterPoint
+from inspections import checklists, evaluation, phone
+from inspections.selectors import item_limits
+
+JS = Path(__file__).resolve().parents[2] / "frontend" / "static" / "frontend" / "js"
+FINISHED = dt.datetime(2026, 3, 3, 10, 0, tzinfo=dt.UTC)
+CASES_PER_FOCUS = 260
+REL_TOL = 0.005  # 0.5 % of the larger magnitude
+
+RUNNER = """
+import { readFileSync } from "node:fs";
+import { evaluate, CHECKS } from "./evaluate.js";
+const cases = JSON.parse(readFileSync(process.argv[2], "utf8"));
+const out = cases.map((c) => {
+  try {
+    return { results: evaluate(c.context, c.readings, { finishedOn: c.finished_on }) };
+  } catch (error) {
+    return { error: String(error && error.stack || error) };
+  }
+});
+console.log(JSON.stringify({ checks: CHECKS, out }));
+"""
+
+pytestmark = pytest.mark.skipif(shutil.which("node") is None, reason="node is not installed")
+
+
+# ---------------------------------------------------------------------------
+# A unit built from the real checklist templates, without the database
+# ---------------------------------------------------------------------------
+
+_next_pk = iter(range(1, 10**9))
+
+
+def _component(kind: str, name: str, specs: dict) -> NS:
+    pk = next(_next_pk)
+    return NS(pk=pk, label_code=f"C{pk:05d}", name=name, kind=kind, specs=specs)
+
+
+def _items() -> list[NS]:
+    out = []
+    for t in checklists.all_templates():
+        for raw in t["items"]:
+            out.append(NS(**raw, api_key=f"{t['code']}.{raw['key']}", template_code=t["code"]))
+    return out
+
+
+ITEMS = _items()
+
+
+def _slots(ahu, components) -> list[NS]:
+    slots = []
+    for it in ITEMS:
+        if it.kind == "photo":
+            continue
+        if not it.component_kind:
+            slots.append(NS(item=it, component=None, limits=item_limits(item=it, ahu=ahu, component=None)))
+            continue
+        for c in components:
+            if c.kind == it.component_kind and all(c.specs.get(k) == v for k, v in it.component_filter.items()):
+                slots.append(NS(item=it, component=c, limits=item_limits(item=it, ahu=ahu, component=c)))
+    return slots
+
+
+def _unit(rng: random.Random) -> tuple[NS, list[NS]]:
+    design = rng.choice([0.8, 1.2, 0.8, 2.0, 3.0, 4.5, 0.7999])  # 1,695 cfm ≈ 0.8 m³/s
+    kinds = list(ventilation.SPACE_KINDS)
+    ahu = NS(
+        design_supply_airflow_m3s=design,
+        design_min_oa_fraction=rng.choice([0.1, 0.15, 0.2, 0.3, 0.5]),
+        full_outdoor_air=rng.random() < 0.1,
+        supply_air_setpoint_c=rng.choice([None, 13.0, 16.0, 18.5]),
+        duct_static_setpoint_pa=rng.choice([None, 0.0, 250.0, 400.0]),
+        space_kind=rng.choice(["", *kinds[:6]]),
+        floor_area_m2=rng.choice([None, 0.0, 200.0, 800.0, 2500.0]),
+        design_occupants=rng.choice([None, 5, 20, 80]),
+        building=NS(site=NS(altitude_m=rng.choice([0.0, 0.0, 350.0, 1600.0, 2400.0]))),
+    )
+    clean = rng.choice([40.0, 60.0, 90.0])
+    comps = [
+        _component(
+            "filter_bank",
+            "Final filters",
+            {
+                "clean_dp_pa": clean,
+                "final_dp_pa": clean + rng.choice([100.0, 160.0, 200.0]),
+                **({"design_airflow_m3s": design * rng.choice([0.9, 1.0])} if rng.random() < 0.4 else {}),
+            },
+        ),
+        _component(
+            "filter_bank",
+            "Pre-filters",
+            {"clean_dp_pa": 30.0, "final_dp_pa": 150.0} if rng.random() < 0.8 else {"final_dp_pa": 150.0},
+        ),
+        _component(
+            "fan",
+            "Supply fan",
+            {
+                "role": "supply",
+                "drive": rng.choice(["belt", "direct"]),
+                **(
+                    {"design_speed_rpm": rng.choice([900.0, 1450.0]), "design_flow_m3s": design}
+                    if rng.random() < 0.7
+                    else {}
+                ),
+                "motor_full_load_a": rng.choice([4.2, 11.0]),
+            },
+        ),
+        _component(
+            "coil",
+            "Heating coil",
+            {"fluid": "water", "duty": "heating", **({"design_airflow_m3s": design} if rng.random() < 0.5 else {})},
+        ),
+        _component("coil", "Cooling coil", {"fluid": "water", "duty": "cooling"}),
+        _component("damper", "Outdoor-air damper", {"stroke_time_s": rng.choice([90.0, 150.0])}),
+        _component("damper", "Return damper", {}),
+        _component(
+            "sensor", "Return CO2 sensor", {"measures": "co2", **({"accuracy": 75.0} if rng.random() < 0.3 else {})}
+        ),
+        _component(
+            "sensor",
+            "Supply temperature sensor",
+            {"measures": "temperature", **({"accuracy": 0.3} if rng.random() < 0.3 else {})},
+        ),
+        _component("sensor", "Return humidity sensor", {"measures": "humidity"}),
+        _component("sensor", "Duct pressure sensor", {"measures": "pressure"}),
+        _component(
+            "heat_recovery",
+            "Plate heat exchanger",
+            {"design_effectiveness_pct": rng.choice([55.0, 65.0, 78.0])} if rng.random() < 0.85 else {},
+        ),
+        _component("electric_preheater", "Electric preheater", {"switch_on_c": rng.choice([3.0, 5.0])}),
+        _component("humidifier", "Steam humidifier", {}),
+    ]
+    return ahu, comps
+
+
+# ---------------------------------------------------------------------------
+# Readings that aim at one check each, over its ok / watch / fail range
+# ---------------------------------------------------------------------------
+
+
+def _airflow(rng, ahu, values):
+    roll = rng.random()
+    if roll < 0.45:
+        values[("visit.supply_airflow", None)] = ahu.design_supply_airflow_m3s * rng.uniform(0.4, 1.6)
+    elif roll < 0.75:
+        values[("visit.supply_fan_speed", None)] = rng.uniform(8.0, 26.0)  # rev/s
+
+
+def _filter(rng, ahu, comps, values, points):
+    _airflow(rng, ahu, values)
+    for bank in (c for c in comps if c.kind == "filter_bank"):
+        final = bank.specs.get("final_dp_pa", 200.0)
+        values[("filter_check.dp", bank.pk)] = rng.uniform(0.2, 1.4) * final
+        if rng.random() < 0.5:
+            values[("visit.run_hours", None)] = rng.uniform(3000, 5000)
+            n = rng.choice([0, 1, 2, 3, 5])
+            clean = bank.specs.get("clean_dp_pa", 30.0)
+            slope = rng.choice([0.0, 0.01, 0.04])
+            points[bank.label_code] = [
+                FilterPoint(
+                    run_hours=500.0 * (i + 1),
+                    dp_pa=clean + slope * 500.0 * (i + 1) + rng.uniform(-3, 3),
+                    airflow_m3s=ahu.design_supply_airflow_m3s * rng.uniform(0.45, 1.2),
+                    when=FINISHED.date() - dt.timedelta(days=30 * (n - i)),
+                )
+                for i in range(n)
+            ]
+
+
+def _filter_change(rng, ahu, comps, values, points):
+    _airflow(rng, ahu, values)
+    for bank in (c for c in comps if c.kind == "filter_bank"):
+        values[("filter_replace.replaced", bank.pk)] = "ok"
+        values[("filter_replace.dp_after", bank.pk)] = rng.uniform(0.3, 1.8) * bank.specs.get("clean_dp_pa", 40.0)
+
+
+def _oa(rng, ahu, comps, values, points):
+    _airflow(rng, ahu, values)
+    if rng.random() < 0.9:
+        o, r = rng.uniform(-15, 30), rng.uniform(18, 26)
+        x = rng.uniform(-0.1, 1.1)
+        values[("ventilation_check.outdoor_air", None)] = o
+        values[("ventilation_check.return_air", None)] = r
+        values[("ventilation_check.mixed_air", None)] = r - x * (r - o) + rng.uniform(-0.3, 0.3)
+    if rng.random() < 0.9:
+        o, r = rng.uniform(380, 450), rng.uniform(420, 1400)
+        x = rng.uniform(-0.1, 1.1)
+        values[("ventilation_check.outdoor_co2", None)] = o
+        values[("ventilation_check.return_co2", None)] = r
+        values[("ventilation_check.supply_co2", None)] = r - x * (r - o) + rng.uniform(-10, 10)
+
+
+def _coil(rng, ahu, comps, values, points):
+    _airflow(rng, ahu, values)
+    for coil in (c for c in comps if c.kind == "coil"):
+        template = "cooling_season_check" if coil.specs["duty"] == "cooling" and rng.random() < 0.5 else "coil_clean"
+        q = values.get(("visit.supply_airflow", None), ahu.design_supply_airflow_m3s)
+        if coil.specs["duty"] == "heating":
+            t_in, t_out = rng.uniform(-10, 15), rng.uniform(18, 35)
+            w_in, w_out = rng.uniform(60, 80), rng.uniform(40, 59)
+        else:
+            t_in, t_out = rng.uniform(24, 32), rng.uniform(11, 16)
+            w_in, w_out = rng.uniform(6, 8), rng.uniform(11, 15)
+        air = q * 1.2 * 1006 * abs(t_out - t_in)
+        water = air * rng.uniform(0.7, 1.35)
+        flow = water / (990 * 4190 * abs(w_out - w_in))
+        for k, val in (("air_in", t_in), ("air_out", t_out), ("water_in", w_in), ("water_out", w_out)):
+            values[(f"{template}.{k}", coil.pk)] = val
+        values[(f"{template}.water_flow", coil.pk)] = flow if rng.random() < 0.95 else 0.0
+
+
+def _setpoint(rng, ahu, comps, values, points):
+    for template in ("controls_check", "cooling_season_check"):
+        if rng.random() < 0.7:
+            sp = rng.choice([None, 12.0, 16.0, 20.0])
+            base = sp if sp is not None else (ahu.supply_air_setpoint_c or 16.0)
+            values[(f"{template}.supply_air", None)] = base + rng.uniform(-3.5, 3.5)
+            if sp is not None:
+                values[(f"{template}.supply_setpoint", None)] = sp
+
+
+def _static(rng, ahu, comps, values, points):
+    sp = rng.choice([None, 300.0, 500.0])
+    base = sp or ahu.duct_static_setpoint_pa or 250.0
+    values[("controls_check.duct_static", None)] = base * rng.uniform(0.6, 1.4)
+    if sp is not None:
+        values[("controls_check.duct_static_setpoint", None)] = sp
+
+
+def _damper(rng, ahu, comps, values, points):
+    for d in (c for c in comps if c.kind == "damper"):
+        cmd = rng.choice([0.0, 25.0, 50.0, 100.0, rng.uniform(0, 100)])
+        values[("damper_actuator.command", d.pk)] = cmd
+        values[("damper_actuator.position", d.pk)] = min(100.0, max(0.0, cmd + rng.uniform(-15, 15)))
+        if rng.random() < 0.5:
+            values[("damper_actuator.stroke_time", d.pk)] = rng.uniform(30, 250)
+
+
+def _drift(rng, ahu, comps, values, points):
+    spans = {"co2": (400, 2000, 150), "temp": (5, 35, 1.0), "rh": (20, 80, 6), "pressure": (50, 600, 25)}
+    for s in (c for c in comps if c.kind == "sensor"):
+        prefix = {"co2": "co2", "temperature": "temp", "humidity": "rh", "pressure": "pressure"}[s.specs["measures"]]
+        lo, hi, err = spans[prefix]
+        ref = rng.uniform(lo, hi)
+        values[(f"sensor_calibration.{prefix}_reference", s.pk)] = ref
+        values[(f"sensor_calibration.{prefix}_sensor", s.pk)] = ref + rng.uniform(-err, err)
+
+
+def _hr(rng, ahu, comps, values, points):
+    for hx in (c for c in comps if c.kind == "heat_recovery"):
+        o, e = rng.uniform(-15, 20), rng.uniform(19, 24)
+        eff = rng.uniform(0.2, 0.95)
+        values[("heat_recovery.outdoor_in", hx.pk)] = o
+        values[("heat_recovery.extract_in", hx.pk)] = e
+        values[("heat_recovery.supply_out", hx.pk)] = o + eff * (e - o) + rng.uniform(-0.5, 0.5)
+
+
+def _answers(rng, ahu, comps, values, points):
+    """Yes/no, choice and number answers judged against their bands (freezestat, preheater, humidity ...)."""
+    by_kind = {}
+    for c in comps:
+        by_kind.setdefault(c.kind, []).append(c)
+    for it in ITEMS:
+        if it.kind == "photo" or it.kind == "text":
+            continue
+        targets = [None] if not it.component_kind else by_kind.get(it.component_kind, [])
+        for c in targets:
+            if c is not None and not all(c.specs.get(k) == v for k, v in it.component_filter.items()):
+                continue
+            if rng.random() < 0.6:
+                continue
+            key = (it.api_key, c.pk if c is not None else None)
+            if rng.random() < 0.08:
+                values[key] = "na"
+            elif it.kind == "check":
+                values[key] = rng.choice(["ok", "ok", "not_ok"])
+            elif it.kind == "choice":
+                values[key] = rng.choice(it.choices)["value"]
+            elif it.kind == "number":
+                lim = item_limits(item=it, ahu=ahu, component=c)
+                lo = next((lim[k] for k in ("watch_min", "ok_min") if lim.get(k) is not None), None)
+                hi = next((lim[k] for k in ("watch_max", "ok_max") if lim.get(k) is not None), None)
+                if lo is None and hi is None:
+                    continue
+                lo = lo if lo is not None else 0.0
+                hi = hi if hi is not None else lo + 10
+                width = max(hi - lo, 1.0)
+                values[key] = rng.uniform(lo - 0.4 * width, hi + 0.4 * width)
+
+
+FOCUS = {
+    "filter": _filter,
+    "filter_change": _filter_change,
+    "oa": _oa,
+    "coil": _coil,
+    "setpoint": _setpoint,
+    "static": _static,
+    "damper": _damper,
+    "drift": _drift,
+    "heat_recovery": _hr,
+    "answers": _answers,
+}
+
+
+def _python_value(raw) -> evaluation.Value:
+    if isinstance(raw, str):
+        return evaluation.Value(text=raw)
+    return evaluation.Value(number=raw)
+
+
+def make_case(rng: random.Random, focus: str) -> dict:
+    ahu, comps = _unit(rng)
+    values: dict = {}
+    points: dict = {}
+    FOCUS[focus](rng, ahu, comps, values, points)
+    if rng.random() < 0.3:
+        _answers(rng, ahu, comps, values, points)
+    slots = _slots(ahu, comps)
+    codes = {c.pk: c.label_code for c in comps}
+    return {
+        "focus": focus,
+        "ahu": ahu,
+        "components": comps,
+        "slots": slots,
+        "values": values,
+        "points": points,
+        "codes": codes,
+    }
+
+
+def python_results(case) -> list[dict]:
+    form = evaluation.Form(
+        ahu=case["ahu"],
+        components=case["components"],
+        values={k: _python_value(v) for k, v in case["values"].items()},
+        slots=case["slots"],
+        finished_at=FINISHED,
+        filter_points=lambda c: case["points"].get(c.label_code, []),
+    )
+    return [
+        {
+            "check": r.check,
+            "item": r.item,
+            "component": r.component.label_code if r.component is not None else None,
+            "verdict": r.verdict,
+            "derived": r.derived,
+            "reason": r.reason,
+        }
+        for r in evaluation.evaluate(form)
+    ]
+
+
+def js_input(case) -> dict:
+    context = phone.evaluation_context(
+        ahu=case["ahu"],
+        components=case["components"],
+        slots=case["slots"],
+        filter_points=lambda c: case["points"].get(c.label_code, []),
+    )
+    readings = {f"{item}|{case['codes'].get(pk, '') if pk else ''}": v for (item, pk), v in case["values"].items()}
+    return {
+        "context": json.loads(json.dumps(context)),
+        "readings": readings,
+        "finished_on": FINISHED.date().isoformat(),
+    }
+
+
+def run_js(inputs: list[dict], tmp_path: Path) -> dict:
+    """Run the phone's modules (copied as they ship) under Node on the cases."""
+    for module in JS.glob("*.js"):
+        shutil.copy(module, tmp_path / module.name)
+    (tmp_path / "runner.mjs").write_text(RUNNER)
+    (tmp_path / "package.json").write_text('{"type": "module"}')
+    (tmp_path / "cases.json").write_text(json.dumps(inputs))
+    proc = subprocess.run(
+        ["node", "runner.mjs", "cases.json"], capture_output=True, text=True, timeout=300, cwd=tmp_path, check=False
+    )
+    assert proc.returncode == 0, proc.stderr
+    return json.loads(proc.stdout)
+
+
+def _close(a: float, b: float) -> bool:
+    return abs(a - b) <= REL_TOL * max(abs(a), abs(b)) + 1e-9
+
+
+def compare(case, py: list[dict], js: list[dict]) -> list[str]:
+    """Every disagreement between the two result lists, in words."""
+    problems = []
+    key = lambda r: (r["check"], r["item"], r["component"])  # noqa: E731
+    py_by, js_by = {key(r): r for r in py}, {key(r): r for r in js}
+    for k in py_by.keys() - js_by.keys():
+        problems.append(f"server judged {k} ({py_by[k]['verdict']}: {py_by[k]['reason']}), the phone did not")
+    for k in js_by.keys() - py_by.keys():
+        problems.append(f"phone judged {k} ({js_by[k]['verdict']}: {js_by[k]['reason']}), the server did not")
+    for k in py_by.keys() & js_by.keys():
+        p, j = py_by[k], js_by[k]
+        if p["verdict"] != j["verdict"]:
+            problems.append(f"{k}: server {p['verdict']} ({p['reason']}), phone {j['verdict']} ({j['reason']})")
+        for name, pv in p["derived"].items():
+            jv = j["derived"].get(name, "<missing>")
+            if name == "forecast_note":
+                if jv == "<missing>":
+                    problems.append(f"{k}: phone has no forecast note ({pv})")
+                continue
+            if isinstance(pv, bool) or not isinstance(pv, int | float):
+                if pv != jv:
+                    problems.append(f"{k}: {name} server {pv!r}, phone {jv!r}")
+            elif not isinstance(jv, int | float) or not _close(float(pv), float(jv)):
+                problems.append(f"{k}: {name} server {pv!r}, phone {jv!r}")
+        for name in j["derived"].keys() - p["derived"].keys():
+            problems.append(f"{k}: phone gives {name}={j['derived'][name]!r}, the server does not")
+    return problems
+
+
+@pytest.fixture(scope="module")
+def agreement(tmp_path_factory):
+    rng = random.Random(20261202)
+    cases = [make_case(rng, focus) for focus in FOCUS for _ in range(CASES_PER_FOCUS)]
+    py = [python_results(c) for c in cases]
+    js = run_js([js_input(c) for c in cases], tmp_path_factory.mktemp("agree"))
+    return cases, py, js
+
+
+def test_every_server_check_has_a_phone_twin(agreement):
+    """The phone's evaluate.js lists every check of evaluation.CHECKS, and the server produces no unlisted check."""
+    _, py, js = agreement
+    missing = set(evaluation.CHECKS) - set(js["checks"])
+    assert not missing, f"checks the server makes that the phone cannot: {sorted(missing)}"
+    produced = {r["check"] for results in py for r in results}
+    assert produced <= set(evaluation.CHECKS), (
+        f"checks missing from evaluation.CHECKS: {produced - set(evaluation.CHECKS)}"
+    )
+
+
+def test_phone_and_server_agree_on_every_verdict_and_number(agreement):
+    """0 verdict disagreements and every derived number within 0.5 %, over at least 200 results per check."""
+    cases, py, js = agreement
+    problems, per_check, verdicts = [], Counter(), {}
+    for case, p, j in zip(cases, py, js["out"], strict=True):
+        if "error" in j:
+            problems.append(f"{case['focus']}: the phone failed: {j['error']}")
+            continue
+        problems.extend(f"{case['focus']}: {x}" for x in compare(case, p, j["results"]))
+        for r in p:
+            per_check[r["check"]] += 1
+            verdicts.setdefault(r["check"], set()).add(r["verdict"])
+    assert not problems, f"{len(problems)} disagreements, first ones:\n" + "\n".join(problems[:25])
+    thin = {c: per_check[c] for c in evaluation.CHECKS if per_check[c] < 200}
+    assert not thin, f"fewer than 200 cases for {thin}"
+    for check in evaluation.CHECKS:
+        wanted = {"ok", "fail"} if check == "check" else {"ok", "watch", "fail"}
+        assert wanted <= verdicts[check], f"{check}: only {verdicts[check]} among the cases"
+
+
+def test_the_scenario_reading_fails_on_both(tmp_path):
+    """0.75 in. w.c. (186.8 Pa) at 1,200 cfm on a bank designed for 1,695 cfm: fail on the phone and the server.
+
+    186.8 × (0.800/0.566)^1.5 = 314 Pa at design airflow (n = 1.5, common practice), beyond the final 250 Pa.
+    """
+    rng = random.Random(1)
+    ahu, comps = _unit(rng)
+    ahu.design_supply_airflow_m3s = 1695 * 0.0004719474432  # cfm → m³/s (ft³ = 0.3048³ m³, exact)
+    bank = comps[0]
+    bank.specs = {"clean_dp_pa": 90.0, "final_dp_pa": 250.0}
+    values = {
+        ("visit.supply_airflow", None): 1200 * 0.0004719474432,
+        ("filter_check.dp", bank.pk): 0.75 * 249.0889,  # in. w.c., conventional inch of water
+    }
+    case = {
+        "ahu": ahu,
+        "components": comps,
+        "slots": _slots(ahu, comps),
+        "values": values,
+        "points": {},
+        "codes": {c.pk: c.label_code for c in comps},
+    }
+    [py] = [r for r in python_results(case) if r["check"] == "filter_loading" and r["component"] == bank.label_code]
+    out = run_js([js_input(case)], tmp_path)["out"][0]["results"]
+    [js] = [r for r in out if r["check"] == "filter_loading" and r["component"] == bank.label_code]
+    assert py["verdict"] == js["verdict"] == "fail"
+    assert js["derived"]["loading_pct"] == pytest.approx(137, abs=1)
