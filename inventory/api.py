@@ -2,8 +2,11 @@
 
 Every read goes through ``inventory.selectors`` (the tenancy rule): a row the
 person may not see does not exist for them (404). Writes need a supervisor or
-admin of the row's organisation (``sites_managed_by``), otherwise 403.
+admin of the row's organisation (``sites_managed_by``), otherwise 403; so do CSV
+import and export.
 """
+
+import io
 
 from django.core.exceptions import PermissionDenied
 from django.http import Http404, HttpResponse
@@ -17,7 +20,7 @@ from rest_framework.views import APIView
 
 from accounts.models import Organisation
 
-from . import csv_io, selectors, services
+from . import csv_io, import_jobs, selectors, services
 from .filters import AHUFilter, BuildingFilter, ComponentFilter, SiteFilter
 from .models import Component
 from .serializers import (
@@ -31,6 +34,7 @@ from .serializers import (
     ComponentOutput,
     ImportFailedOutput,
     ImportInput,
+    ImportJobOutput,
     ImportResultOutput,
     SiteInput,
     SiteOutput,
@@ -352,10 +356,16 @@ class ImportView(APIView):
 
     @extend_schema(
         summary="Import a registry CSV: every row is checked; one bad row imports nothing",
+        description=(
+            "Files of 10,000 rows or more (or any file with `background=true`) are imported by a background "
+            "job: the answer is 202 with the job, to be polled at its `url` until its status is `done`, "
+            "`refused` (every bad row listed, nothing imported) or `failed`."
+        ),
         parameters=[KIND_PARAMETER],
         request={"multipart/form-data": ImportInput},
         responses={
             200: ImportResultOutput,
+            202: OpenApiResponse(ImportJobOutput, description="Queued as a background job."),
             400: OpenApiResponse(ImportFailedOutput, description="Every bad row: line, column, value, reason."),
             403: R403,
             404: R404,
@@ -367,26 +377,56 @@ class ImportView(APIView):
         data.is_valid(raise_exception=True)
         org = _managed_organisation(user=request.user, slug=data.validated_data.get("organisation"))
         upload = data.validated_data["file"]
+        dry_run = data.validated_data["dry_run"]
         try:
-            result = csv_io.registry_import(
-                kind=kind, source=csv_io.decode_upload(upload.read()), organisation=org,
-                dry_run=data.validated_data["dry_run"],
-            )  # fmt: skip
+            text = csv_io.decode_upload(upload.read()).read()
+            background = data.validated_data.get("background")
+            if background is None:
+                background = import_jobs.import_runs_in_background(text=text)
+            if background:
+                job = import_jobs.import_job_create(
+                    organisation=org, kind=kind, text=text, by=request.user, dry_run=dry_run, file_name=upload.name
+                )
+                return Response(ImportJobOutput(job).data, status=status.HTTP_202_ACCEPTED)
+            result = csv_io.registry_import(kind=kind, source=io.StringIO(text, newline=""), organisation=org,
+                                            dry_run=dry_run)  # fmt: skip
         except csv_io.ImportFailed as exc:
             body = {"detail": str(exc), "errors": [e.as_dict() for e in exc.errors]}
             return Response(body, status=status.HTTP_400_BAD_REQUEST)
         return Response(ImportResultOutput(result.as_dict()).data)
 
 
+class ImportJobView(APIView):
+    @extend_schema(
+        summary="A background registry import: status, rows checked of the total, and every bad row",
+        responses={200: ImportJobOutput, 404: R404},
+    )
+    def get(self, request, public_id):
+        job = selectors.import_job_for(user=request.user, public_id=public_id)
+        return Response(ImportJobOutput(job).data)
+
+
 class ExportView(APIView):
     @extend_schema(
-        summary="Export the registry rows you may see as CSV (the import format)",
+        summary="Export the registry as CSV (the import format); supervisors and admins only",
+        description=(
+            "UTF-8 with a byte-order mark and CRLF line ends. Text cells a spreadsheet would run as a formula "
+            "(beginning with = + - @ | % or a tab or carriage return) are written with a leading apostrophe; "
+            "numbers stay numbers."
+        ),
         parameters=[KIND_PARAMETER, OpenApiParameter("site", str, description="only this site code")],
-        responses={(200, "text/csv"): OpenApiResponse(str), 404: R404},
+        responses={(200, "text/csv"): OpenApiResponse(str), 403: R403, 404: R404},
     )
     def get(self, request, kind: str):
         _check_kind(kind)
-        sites = selectors.sites_visible_to(user=request.user)
+        if not selectors.organisations_managed_by(user=request.user).exists():
+            # The registry file is a contractor's working tool; property managers get their sites'
+            # records as PDF reports, technicians their units through their work.
+            raise PermissionDenied(
+                "Only a supervisor or admin of the organisation may export the registry; "
+                "property managers download their sites' records as PDF reports."
+            )
+        sites = selectors.sites_managed_by(user=request.user)
         if request.query_params.get("site"):
             sites = sites.filter(code=request.query_params["site"])
         response = HttpResponse(content_type="text/csv; charset=utf-8")

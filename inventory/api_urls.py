@@ -16,4 +16,5 @@ urlpatterns = [
     path("component-kinds/", api.ComponentKindsView.as_view(), name="component-kinds"),
     path("import/<str:kind>/", api.ImportView.as_view(), name="import"),
     path("export/<str:kind>/", api.ExportView.as_view(), name="export"),
+    path("import-jobs/<uuid:public_id>/", api.ImportJobView.as_view(), name="import-job"),
 ]

@@ -5,10 +5,11 @@ components through these selectors, never through a bare ``objects.all()``.
 """
 
 from django.db.models import Q, QuerySet
+from django.http import Http404
 
-from accounts.models import Role, SiteGrant, User
+from accounts.models import Organisation, Role, SiteGrant, User
 
-from .models import AHU, Building, Component, Site
+from .models import AHU, Building, Component, ImportJob, Site
 
 MANAGING_ROLES = {Role.SUPERVISOR, Role.ADMIN}
 
@@ -59,6 +60,23 @@ def sites_managed_by(*, user: User) -> QuerySet[Site]:
         return Site.objects.none()
     orgs = user.memberships.filter(role__in=MANAGING_ROLES).values("organisation_id")
     return Site.objects.filter(organisation_id__in=orgs)
+
+
+def organisations_managed_by(*, user: User) -> QuerySet[Organisation]:
+    """Organisations whose registry the person may change, import and export (supervisor/admin)."""
+    if not getattr(user, "is_authenticated", False):
+        return Organisation.objects.none()
+    return Organisation.objects.filter(memberships__user=user, memberships__role__in=MANAGING_ROLES).distinct()
+
+
+def import_job_for(*, user: User, public_id) -> ImportJob:
+    """A registry import job of an organisation the person manages; any other (or none) is not found."""
+    job = ImportJob.objects.filter(
+        public_id=public_id, organisation__in=organisations_managed_by(user=user).values("pk")
+    ).first()
+    if job is None:
+        raise Http404("No such import job, or not one you may see.")
+    return job
 
 
 def buildings_visible_to(*, user: User) -> QuerySet[Building]:

@@ -1,11 +1,12 @@
 """Input and output shapes of the registry API. No domain logic here: services validate."""
 
+from django.urls import reverse
 from rest_framework import serializers
 
 from accounts.models import Organisation
 
 from . import selectors
-from .models import AHU, Building, Component, Site
+from .models import AHU, Building, Component, ImportJob, Site
 from .services import label_absolute_url
 
 
@@ -111,7 +112,8 @@ class BuildingInput(NamesValueMixin, serializers.ModelSerializer):
 # ---------------------------------------------------------------------------
 AHU_FIELDS = [
     "tag", "location", "area_served", "space_kind", "floor_area_m2", "design_occupants",
-    "design_supply_airflow_m3s", "design_min_oa_fraction", "full_outdoor_air", "heat_recovery",
+    "design_supply_airflow_m3s", "design_min_oa_fraction", "full_outdoor_air", "ventilation_zones",
+    "air_distribution", "occupant_diversity", "system_ventilation_efficiency", "heat_recovery",
     "supply_air_setpoint_c", "duct_static_setpoint_pa", "service_start", "status", "notes",
 ]  # fmt: skip
 
@@ -225,3 +227,31 @@ class ImportInput(serializers.Serializer):
     file = serializers.FileField(help_text="CSV, UTF-8, comma-separated, header row first.")
     organisation = serializers.SlugField(required=False)
     dry_run = serializers.BooleanField(required=False, default=False)
+    background = serializers.BooleanField(
+        required=False,
+        allow_null=True,
+        default=None,
+        help_text="Import as a background job (answer 202 with the job to poll). "
+        "Unset: files of 10,000 rows or more go to a job, smaller ones are imported at once.",
+    )
+
+
+class ImportJobOutput(serializers.Serializer):
+    id = serializers.UUIDField(source="public_id")
+    kind = serializers.CharField()
+    status = serializers.ChoiceField(choices=ImportJob.Status.choices)
+    status_label = serializers.CharField(source="get_status_display")
+    dry_run = serializers.BooleanField()
+    file_name = serializers.CharField()
+    rows_total = serializers.IntegerField()
+    rows_done = serializers.IntegerField()
+    created = serializers.IntegerField()
+    updated = serializers.IntegerField()
+    detail = serializers.CharField()
+    errors = ImportErrorOutput(many=True, help_text="Every bad row; nothing was imported when there is one.")
+    created_at = serializers.DateTimeField()
+    finished_at = serializers.DateTimeField(allow_null=True)
+    url = serializers.SerializerMethodField(help_text="Where to poll the job.")
+
+    def get_url(self, job) -> str:
+        return reverse("inventory_api:import-job", kwargs={"public_id": job.public_id})

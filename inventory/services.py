@@ -28,15 +28,16 @@ def _update(instance, fields: dict[str, Any]):
     return instance
 
 
-def component_full_clean(component: Component) -> None:
+def component_full_clean(component: Component, **options: Any) -> None:
     """``full_clean`` with spec problems keyed per spec field (``specs.final_dp_pa``).
 
     The model's own ``clean`` files every spec problem under ``specs`` so the admin
     form can show them beside the specs box; API and CSV callers want to know which
-    spec field was wrong, so the spec errors are re-keyed here.
+    spec field was wrong, so the spec errors are re-keyed here. ``options`` go to
+    ``full_clean`` (the CSV import checks keys and relations itself, in memory).
     """
     try:
-        component.full_clean()
+        component.full_clean(**options)
     except ValidationError as exc:
         errors = dict(exc.message_dict)
         if "specs" in errors:

@@ -10,7 +10,7 @@ from accounts.models import Role
 from inventory import csv_io
 from inventory.models import AHU, Component, Site
 from tests.factories.accounts import OrganisationFactory
-from tests.factories.inventory import make_full_unit
+from tests.factories.inventory import BuildingFactory, SiteFactory, make_full_unit
 
 SITES_HEADER = "code,name,latitude,longitude,time_zone,normals_min_c\n"
 
@@ -155,7 +155,8 @@ def test_commands(tmp_path, capsys):
 
 
 def test_api_import_reports_rows_and_export_is_tenancy_filtered(world, api_client):
-    """The API import answers 400 with the row errors; export holds only rows the person may see."""
+    """The API import answers 400 with the row errors; export holds only the organisation's rows
+    and is refused to a property manager (it is the contractor's registry, not their records)."""
     api_client.force_authenticate(world.people[Role.SUPERVISOR])
     bad = io.BytesIO((SITES_HEADER + "n,N,91,9,Europe/Berlin,\n").encode())
     bad.name = "sites.csv"
@@ -173,8 +174,106 @@ def test_api_import_reports_rows_and_export_is_tenancy_filtered(world, api_clien
     exported = api_client.get("/api/inventory/export/ahus/").content.decode()
     assert "AHU-own" in exported and "AHU-other" in exported and "AHU-foreign" not in exported
     api_client.force_authenticate(world.people[Role.PROPERTY_MANAGER])
-    exported = api_client.get("/api/inventory/export/ahus/").content.decode()
-    assert "AHU-own" in exported and "AHU-other" not in exported
+    refused = api_client.get("/api/inventory/export/ahus/")
+    assert refused.status_code == 403 and "AHU-own" not in refused.content.decode()
     good.seek(0)
     assert api_client.post("/api/inventory/import/sites/", {"file": good}, format="multipart").status_code == 403
     assert api_client.get("/api/inventory/export/toasters/").status_code == 404
+
+
+# ---------------------------------------------------------------------------
+# A file a spreadsheet opens safely
+# ---------------------------------------------------------------------------
+@pytest.mark.django_db
+@pytest.mark.parametrize(
+    "note",
+    [
+        "=1+2",
+        "+1+2",
+        "-2+3",
+        "@SUM(A1:A2)",
+        "|calc",
+        "%0A=1",
+        '=cmd|" /C calc"!A0',
+        "\t=1+2",
+        "\r=1+2",
+        "'=1+2",  # a person's own apostrophe before a formula character survives the round trip
+    ],
+)
+def test_formula_cells_are_marked_on_export_and_read_back_unchanged(note):
+    """A text cell beginning with = + - @ | % (or a tab/CR/apostrophe before one) gets a leading apostrophe,
+    which a spreadsheet shows as text instead of running; importing the file gives the text back."""
+    ahu = make_full_unit(notes=note, location="Roof")
+    exported = _export("ahus", Site.objects.all())
+    row = next(csv.DictReader(io.StringIO(exported.removeprefix("\ufeff"), newline="")))
+    assert row["notes"].startswith("'")
+    assert row["notes"][1:].replace("\\|", "|") == note
+    assert row["location"] == "Roof"
+    _import("ahus", exported, ahu.building.site.organisation)
+    ahu.refresh_from_db()
+    assert ahu.notes == note.strip()  # import trims spaces, tabs and line breaks around text, as always
+
+
+@pytest.mark.django_db
+def test_numbers_are_written_as_numbers_even_when_negative():
+    """Decision: a number is never a formula, so -5.25 °W or a -3 °C threshold is written bare for a spreadsheet
+    to add up; a text cell that is only a number (a tag of "-5") is left bare too, as defusedcsv does."""
+    site = SiteFactory(longitude=-5.25, altitude_m=-2.0, preheat_threshold_c=-3.0)
+    make_full_unit(building=BuildingFactory(site=site), tag="-5")
+    site_row = next(csv.DictReader(io.StringIO(_export("sites", Site.objects.all()).removeprefix("\ufeff"))))
+    assert (site_row["longitude"], site_row["altitude_m"], site_row["preheat_threshold_c"]) == ("-5.25", "-2", "-3")
+    assert site_row["normals_min_c"].startswith("'-")  # a list of numbers is text: "-2;-1.5;…" gets the mark
+    unit_row = next(csv.DictReader(io.StringIO(_export("ahus", Site.objects.all()).removeprefix("\ufeff"))))
+    assert unit_row["tag"] == "-5"
+
+
+@pytest.mark.django_db
+def test_export_has_a_byte_order_mark_and_crlf_and_import_takes_either():
+    """Export: UTF-8 with BOM and CRLF (accents survive in a spreadsheet). Import: with or without the BOM,
+    with CRLF or LF, the same file imports the same."""
+    site = SiteFactory(name="Gare du Nord – Bâtiment É", code="gare")
+    exported = _export("sites", Site.objects.filter(pk=site.pk))
+    assert exported.startswith("\ufeff")
+    assert exported.count("\r\n") == 2 and "\n" not in exported.replace("\r\n", "")
+    body = exported.removeprefix("\ufeff")
+    variants = {
+        "bom-crlf": exported.encode(),
+        "bom-lf": ("\ufeff" + body.replace("\r\n", "\n")).encode(),
+        "crlf": body.encode(),
+        "lf": body.replace("\r\n", "\n").encode(),
+    }
+    for name, data in variants.items():
+        org = OrganisationFactory()
+        result = csv_io.registry_import(kind="sites", source=csv_io.decode_upload(data), organisation=org)
+        assert result.created == 1, name
+        assert Site.objects.get(organisation=org).name == "Gare du Nord – Bâtiment É", name
+
+
+@pytest.mark.django_db
+@pytest.mark.parametrize("char,name", [("\x00", "NUL"), ("\x07", "U+0007"), ("\x1b", "U+001B"), ("\x7f", "DEL")])
+def test_control_characters_in_a_cell_are_refused(char, name):
+    """A NUL or other control character is refused naming line, column and the character; nothing is saved."""
+    org = OrganisationFactory()
+    text = SITES_HEADER + "north,North Yard,53.1,9.9,Europe/Berlin,\n" + f"south,South{char} Yard,53.1,9.9,UTC,\n"
+    with pytest.raises(csv_io.ImportFailed) as exc:
+        _import("sites", text, org)
+    [error] = exc.value.errors
+    assert (error.line, error.column) == (3, "name")
+    assert name in error.reason
+    assert error.value == f"South\\x{ord(char):02x} Yard"
+    assert Site.objects.count() == 0
+
+
+@pytest.mark.django_db
+def test_label_codes_named_twice_in_a_file_are_refused():
+    """Two rows claiming one label code: the second is refused, nothing imported (checked in memory, not per query)."""
+    site = SiteFactory()
+    text = (
+        "site_code,building_code,tag,label_code,design_supply_airflow_m3s,design_min_oa_fraction\n"
+        f"{site.code},b1,AHU-1,U2345AB,2,0.3\n"
+        f"{site.code},b1,AHU-2,U2345AB,2,0.3\n"
+    )
+    with pytest.raises(csv_io.ImportFailed) as exc:
+        _import("ahus", text, site.organisation)
+    assert [(e.line, e.column) for e in exc.value.errors] == [(3, "label_code")]
+    assert AHU.objects.count() == 0

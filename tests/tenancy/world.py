@@ -26,7 +26,7 @@ from accounts.models import Organisation, Role, User
 from accounts.services import site_grant
 from inspections.models import Inspection, Photo
 from inspections.services import checklist_library_install, inspection_sync, photo_upload
-from inventory.models import AHU, Building, Component, Site
+from inventory.models import AHU, Building, Component, ImportJob, Site
 from reports.models import Report
 from scheduling.models import CalendarFeed, TaskDefinition, WorkOrder, WorkOrderTask
 from scheduling.services import calendar_feed_issue, task_library_install
@@ -56,6 +56,7 @@ class Corner:
     feed: CalendarFeed
     open_work_order: WorkOrder
     markers: list[str] = field(default_factory=list)
+    import_job: ImportJob | None = None  # of the corner's organisation; only its supervisors/admins see it
 
 
 @dataclass
@@ -170,7 +171,11 @@ def _corner(*, org: Organisation, name: str, code: str, tag: str, technician: Us
         str(report.public_id),
         ahu.area_served,
     ]
-    return Corner(site, building, ahu, final, wo, inspection, photo, report, technician, feed, open_wo, markers)
+    job = ImportJob.objects.create(organisation=org, kind="ahus", file_name=f"{code}-units.csv", rows_total=1)
+    markers.append(str(job.public_id))
+    corner = Corner(site, building, ahu, final, wo, inspection, photo, report, technician, feed, open_wo, markers)
+    corner.import_job = job
+    return corner
 
 
 def build() -> World:
