@@ -45,6 +45,7 @@ FILL: dict[str, Fill] = {
     "inventory_api:component-detail": {"pk": lambda c: c.component.pk},
     "inventory_api:import": {"kind": lambda c: KINDS[0] if isinstance(KINDS, list | tuple) else next(iter(KINDS))},
     "inventory_api:export": {"kind": lambda c: KINDS[0] if isinstance(KINDS, list | tuple) else next(iter(KINDS))},
+    "inventory_api:import-job": {"public_id": lambda c: c.import_job.public_id},
     "scheduling_api:work-order": {"public_id": lambda c: c.open_work_order.public_id},
     "scheduling_api:work-order-assign": {"public_id": lambda c: c.open_work_order.public_id},
     "scheduling_api:work-order-transition": {"public_id": lambda c: c.open_work_order.public_id},
