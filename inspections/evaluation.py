@@ -336,10 +336,15 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
                         "forecast_latest_date": fc.date_high.isoformat() if fc.date_high else None,
                         "rate_pa_per_hour": round(fc.rate_pa_per_hour, 4),
                         "points_used": fc.points_used,
+                        "forecast_at_final_now": fc.at_final_now,
                     }
                 )
                 res.method += "; forecast: " + fc.method
-                forecast_text = f"; change forecast {_fmt_date(fc.date_at_final)}"
+                forecast_text = (
+                    "; at or over its final pressure drop now by the trend: change it"
+                    if fc.at_final_now
+                    else f"; change forecast {_fmt_date(fc.date_at_final)}"
+                )
         res.say(
             f"{bank.name}: filter at {pct:.0f} % of its span after correcting to design airflow (",
             qty(loading.corrected_dp_pa, "pressure"),

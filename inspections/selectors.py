@@ -2,11 +2,14 @@
 
 from __future__ import annotations
 
+import datetime as dt
 from dataclasses import dataclass, field
 
-from django.db.models import QuerySet
+from django.db.models import Q, QuerySet
 
 from accounts.models import Role, User
+from engineering.errors import EngineeringInputError
+from engineering.filters import FilterPoint, corrected_pressure_drop
 from inventory.models import AHU, Component
 from inventory.selectors import sites_managed_by, sites_visible_to
 from scheduling.models import WorkOrder
@@ -300,32 +303,161 @@ def checklist_for(*, work_order: WorkOrder, user: User) -> dict:
     }
 
 
-def filter_history(*, component: Component, before, limit: int = 30) -> list[tuple[Reading, Inspection]]:
-    """Earlier pressure-drop readings of one filter bank since its last replacement, oldest first."""
-    last_change = (
-        Reading.objects.filter(
-            component=component,
-            item__template__code="filter_replace",
-            item__key="replaced",
-            value_text="ok",
-            inspection__finished_at__lt=before,
-        )
-        .order_by("-inspection__finished_at")
-        .values_list("inspection__finished_at", flat=True)
-        .first()
+@dataclass(frozen=True)
+class FilterSeriesPoint:
+    """One pressure-drop reading of a filter bank, with the same reading corrected to design airflow."""
+
+    at: dt.datetime  # when the visit's form was finished
+    inspection_id: int
+    dp_pa: float  # as read
+    airflow_m3s: float  # airflow at the visit, by inspections.evaluation.supply_airflow
+    corrected_dp_pa: float  # at the bank's design airflow, by engineering.filters.corrected_pressure_drop
+    run_hours: float | None  # the unit's run-hour meter at the visit
+    after_change: bool  # read just after fitting new filters
+
+
+@dataclass(frozen=True)
+class FilterLife:
+    """The readings of one set of filters, from the change that fitted it (None: fitted before the records)."""
+
+    changed_at: dt.datetime | None
+    points: tuple[FilterSeriesPoint, ...]
+
+    def forecast_points(self) -> list[FilterPoint]:
+        """The points with run-hours, as engineering.filters.filter_forecast takes them."""
+        return [
+            FilterPoint(run_hours=p.run_hours, dp_pa=p.dp_pa, airflow_m3s=p.airflow_m3s, when=p.at.date())
+            for p in self.points
+            if p.run_hours is not None
+        ]
+
+
+@dataclass(frozen=True)
+class FilterSeries:
+    """A filter bank's pressure drop at design airflow, restarting at each filter change, oldest first."""
+
+    component: Component
+    design_airflow_m3s: float
+    lives: tuple[FilterLife, ...]
+
+    @property
+    def current(self) -> FilterLife:
+        """The filters fitted now (the last life); empty before any reading."""
+        return self.lives[-1] if self.lives else FilterLife(changed_at=None, points=())
+
+    @property
+    def points(self) -> list[FilterSeriesPoint]:
+        return [p for life in self.lives for p in life.points]
+
+
+def filter_design_airflow_m3s(*, component: Component, ahu: AHU | None = None) -> float:
+    """The airflow a bank's pressure drop is corrected to: its own design airflow, else the unit's."""
+    return (component.specs or {}).get("design_airflow_m3s") or (ahu or component.ahu).design_supply_airflow_m3s
+
+
+def _series_point(
+    v: dict, dp: float, q: float, design: float, hours: float | None, *, after_change: bool = False
+) -> FilterSeriesPoint | None:
+    try:
+        corrected = corrected_pressure_drop(dp_pa=dp, airflow_m3s=q, design_airflow_m3s=design)
+    except EngineeringInputError:
+        return None  # too far from design airflow to correct: no point on any chart or forecast
+    return FilterSeriesPoint(
+        at=v["at"],
+        inspection_id=v["inspection_id"],
+        dp_pa=dp,
+        airflow_m3s=q,
+        corrected_dp_pa=corrected,
+        run_hours=hours,
+        after_change=after_change,
     )
-    qs = Reading.objects.filter(
-        component=component,
-        item__template__code="filter_check",
-        item__key="dp",
-        value_si__isnull=False,
-        inspection__finished_at__lt=before,
-    ).select_related("inspection")
-    if last_change is not None:
-        qs = qs.filter(inspection__finished_at__gt=last_change)
-    rows = list(qs.order_by("-inspection__finished_at")[:limit])
-    rows.reverse()
-    return [(r, r.inspection) for r in rows]
+
+
+def filter_series_for(*, components: list[Component], before: dt.datetime | None = None) -> dict[int, FilterSeries]:
+    """``filter_series`` of several banks at once, {component id: series}, in a fixed number of queries."""
+    from . import evaluation
+
+    banks = [c for c in components if c.kind == "filter_bank"]
+    rows = (
+        Reading.objects.filter(component__in=banks)
+        .filter(
+            Q(item__template__code="filter_check", item__key="dp", value_si__isnull=False)
+            | Q(item__template__code="filter_replace", item__key="dp_after", value_si__isnull=False)
+            | Q(item__template__code="filter_replace", item__key="replaced", value_text="ok")
+        )
+        .values_list(
+            "component_id", "item__template__code", "item__key", "value_si", "inspection_id", "inspection__finished_at"
+        )
+        .order_by("inspection__finished_at", "inspection_id")
+    )
+    if before is not None:
+        rows = rows.filter(inspection__finished_at__lt=before)
+    # {bank id: {inspection id: {"at", "inspection_id", "<template>.<item>": value}}}, visits in time order.
+    by_visit: dict[int, dict[int, dict]] = {}
+    for comp_id, code, key, value, insp_id, at in rows:
+        v = by_visit.setdefault(comp_id, {}).setdefault(insp_id, {"at": at, "inspection_id": insp_id})
+        v[f"{code}.{key}"] = value if value is not None else True
+    values = visit_values(inspection_ids=sorted({i for visits in by_visit.values() for i in visits}))
+    ahus = {a.pk: a for a in AHU.objects.filter(pk__in={c.ahu_id for c in banks})}
+    fans: dict[int, list[Component]] = {}
+    for fan in Component.objects.filter(ahu_id__in=list(ahus), kind="fan").order_by("position", "pk"):
+        fans.setdefault(fan.ahu_id, []).append(fan)
+    airflow: dict[int, float] = {}
+
+    def airflow_at(bank: Component, insp_id: int) -> float:
+        if insp_id not in airflow:
+            form = evaluation.Form(
+                ahu=ahus[bank.ahu_id],
+                components=fans.get(bank.ahu_id, []),
+                values={(f"visit.{k}", None): evaluation.Value(number=x) for k, x in values.get(insp_id, {}).items()},
+                slots=[],
+                finished_at=dt.datetime.min,
+            )
+            airflow[insp_id] = evaluation.supply_airflow(form)[0]
+        return airflow[insp_id]
+
+    out = {}
+    for bank in banks:
+        design = filter_design_airflow_m3s(component=bank, ahu=ahus[bank.ahu_id])
+        lives: list[FilterLife] = []
+        changed_at, pts = None, []
+
+        for v in by_visit.get(bank.pk, {}).values():
+            q = airflow_at(bank, v["inspection_id"])
+            hours = values.get(v["inspection_id"], {}).get("run_hours")
+            # The check at a changing visit reads the old filters; the reading after the change starts the new set.
+            if "filter_check.dp" in v and (p := _series_point(v, v["filter_check.dp"], q, design, hours)) is not None:
+                pts.append(p)
+            if v.get("filter_replace.replaced"):
+                if pts or changed_at is not None:
+                    lives.append(FilterLife(changed_at=changed_at, points=tuple(pts)))
+                changed_at, pts = v["at"], []
+                after = v.get("filter_replace.dp_after")
+                p = None if after is None else _series_point(v, after, q, design, hours, after_change=True)
+                if p is not None:
+                    pts.append(p)
+        if pts or changed_at is not None:
+            lives.append(FilterLife(changed_at=changed_at, points=tuple(pts)))
+        out[bank.pk] = FilterSeries(component=bank, design_airflow_m3s=design, lives=tuple(lives))
+    return out
+
+
+def filter_series(*, component: Component, before: dt.datetime | None = None) -> FilterSeries:
+    """A filter bank's pressure drop corrected to design airflow, restarting at each filter change.
+
+    The one series of a bank that the manager's chart, the unit history, the
+    evaluation's change forecast and the compliance report all read. Each
+    reading (filter check, and the reading just after a change) is corrected
+    with ``engineering.filters.corrected_pressure_drop`` to the bank's design
+    airflow (its own, else the unit's), from the airflow at that visit as the
+    evaluation finds it (measured, else from fan speed, else design). A
+    change ("filters replaced" answered ok) starts a new life: the filter
+    check of the changing visit belongs to the old filters, the reading
+    after the change is the new set's first point. Readings taken too far
+    from design airflow to correct are left out. Only forms finished before
+    ``before`` count, when given.
+    """
+    return filter_series_for(components=[component], before=before)[component.pk]
 
 
 def visit_values(*, inspection_ids: list[int]) -> dict[int, dict[str, float]]:

@@ -190,6 +190,38 @@ def _reading(parsed: Parsed, i: int, raw: object, seen: set, errors: Errors) -> 
     parsed.readings.append(reading)
 
 
+def _run_hours(parsed: Parsed, raw_readings: list, errors: Errors) -> None:
+    """Refuse a run-hour value the unit's meter cannot have reached since its last reading.
+
+    The same check as every other way a reading comes in
+    (``scheduling.services.meter_reading_check``). A value below an earlier
+    reading is left to the store step, which keeps the form and flags it
+    (``meter_reading_refused``): a replaced meter reads lower, and the office
+    records the replacement.
+    """
+    from scheduling.services import meter_reading_check
+
+    reading = next((r for r in parsed.readings if r.item.api_key == "visit.run_hours" and r.value_si is not None), None)
+    if reading is None:
+        return
+    i = next(
+        (n for n, raw in enumerate(raw_readings) if isinstance(raw, dict) and raw.get("item") == "visit.run_hours"), 0
+    )
+    try:
+        meter_reading_check(
+            ahu=parsed.work_order.ahu,
+            hours=reading.value_si,
+            taken_at=parsed.finished_at,
+            label=reading.item.label,
+            if_replaced="answer “not applicable” here and give the office the new meter's reading",
+        )
+    except ValidationError as exc:
+        for problems in exc.error_dict.values():
+            for problem in problems:
+                if problem.code != "meter_backwards":
+                    errors.add(f"readings[{i}].value", " ".join(problem.messages))
+
+
 def _photos(parsed: Parsed, raw_list: object, errors: Errors) -> None:
     if raw_list in (None, []):
         return
@@ -291,6 +323,7 @@ def form_parse(*, user, raw: object) -> tuple[Parsed | None, Errors, uuid.UUID |
     seen: set = set()
     for i, r in enumerate(readings):
         _reading(parsed, i, r, seen, errors)
+    _run_hours(parsed, readings, errors)
     _photos(parsed, raw.get("photos"), errors)
     _signature(parsed, raw.get("signature"), errors)
     return (None if errors else parsed), errors, client_uuid
@@ -302,21 +335,10 @@ def form_parse(*, user, raw: object) -> tuple[Parsed | None, Errors, uuid.UUID |
 
 
 def _filter_points_for(ahu, finished_at):
+    """Earlier readings of a bank's present filters, for its change forecast (``selectors.filter_series``)."""
+
     def points(component) -> list[FilterPoint]:
-        rows = selectors.filter_history(component=component, before=finished_at)
-        visits = selectors.visit_values(inspection_ids=[insp.pk for _, insp in rows])
-        out = []
-        for reading, insp in rows:
-            v = visits.get(insp.pk, {})
-            if "run_hours" not in v:
-                continue
-            q = v.get("supply_airflow") or ahu.design_supply_airflow_m3s
-            out.append(
-                FilterPoint(
-                    run_hours=v["run_hours"], dp_pa=reading.value_si, airflow_m3s=q, when=insp.finished_at.date()
-                )
-            )
-        return out
+        return selectors.filter_series(component=component, before=finished_at).current.forecast_points()
 
     return points
 

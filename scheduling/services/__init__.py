@@ -1,7 +1,7 @@
 """Writes of the scheduling app. Import from here: ``from scheduling.services import work_order_assign``."""
 
 from .library import task_definition_create, task_definition_override, task_library_install, unit_task_set
-from .meters import meter_reading_record, meter_readings_import_csv
+from .meters import meter_reading_check, meter_reading_record, meter_readings_import_csv
 from .seasons import outdoor_temperatures_import_csv, outdoor_temperatures_store, site_seasons_refresh
 from .work_orders import (
     WorkOrderConflict,
@@ -30,6 +30,7 @@ __all__ = [
     "corrective_work_order_approve",
     "corrective_work_order_propose",
     "corrective_work_order_reject",
+    "meter_reading_check",
     "meter_reading_record",
     "meter_readings_import_csv",
     "outdoor_temperatures_import_csv",

@@ -19,6 +19,16 @@ from ..models import MeterReading
 
 CSV_COLUMNS = ("unit_label", "taken_at", "hours")
 CSV_OPTIONAL = ("component_label", "is_reset")
+# A meter cannot gain more run-hours than hours of clock time passed between two
+# readings. The reading's time is the moment the form was finished or the row
+# was logged, not the instant the counter was read, and many counters show whole
+# hours; so a gain of up to 2 % more than the elapsed time, and never less than
+# 1 h, is let through (common practice).
+GAIN_TOLERANCE_FRACTION = 0.02
+GAIN_TOLERANCE_H = 1.0
+# Clocks of phones and building-automation exports drift a little: a reading up
+# to 10 minutes ahead of the server's clock is accepted (common practice).
+FUTURE_TOLERANCE = dt.timedelta(minutes=10)
 
 
 def _previous(*, ahu: AHU, component: Component | None, taken_at: dt.datetime) -> MeterReading | None:
@@ -37,6 +47,123 @@ def _next(*, ahu: AHU, component: Component | None, taken_at: dt.datetime) -> Me
     )
 
 
+def _hours_text(h: float) -> str:
+    return f"{h:,.0f} h" if abs(h - round(h)) < 0.05 else f"{h:,.1f} h"
+
+
+def _local_text(*, ahu: AHU, at: dt.datetime) -> str:
+    tz = zoneinfo.ZoneInfo(ahu.building.site.time_zone or "UTC")
+    return f"{timezone.localtime(at, tz):%Y-%m-%d %H:%M}"
+
+
+def max_gain_h(*, elapsed: dt.timedelta) -> float:
+    """The most run-hours a meter may gain in ``elapsed`` clock time: elapsed + max(2 %, 1 h)."""
+    hours = max(elapsed.total_seconds(), 0.0) / 3600.0
+    return hours + max(hours * GAIN_TOLERANCE_FRACTION, GAIN_TOLERANCE_H)
+
+
+def meter_reading_check(
+    *,
+    ahu: AHU,
+    hours: float,
+    taken_at: dt.datetime,
+    component: Component | None = None,
+    is_reset: bool = False,
+    now: dt.datetime | None = None,
+    label: str = "Run hours",
+    if_replaced: str = "record this reading as a meter replacement",
+) -> None:
+    """Refuse a run-hour reading no working meter could show; raises ValidationError on ``hours``/``taken_at``.
+
+    Refused: a time later than now (beyond 10 minutes of clock drift); a value
+    below the reading before it (error code ``meter_backwards``); a gain since
+    the reading before it larger than the clock time between them plus 2 %
+    (at least 1 h) (code ``meter_too_fast``); and the same two checks against
+    the next later reading. A reading marked as a meter replacement starts a
+    new meter, so it is not compared with the readings before it. ``label``
+    names the value as the person saw it; ``if_replaced`` says what to do
+    when the meter was in fact replaced.
+    """
+    now = now or timezone.now()
+    if taken_at > now + FUTURE_TOLERANCE:
+        raise ValidationError(
+            {
+                "taken_at": [
+                    ValidationError(
+                        f"Reading time {_local_text(ahu=ahu, at=taken_at)} is later than now "
+                        f"({_local_text(ahu=ahu, at=now)}, site time); a reading cannot come from the future "
+                        "— check the date and the device's clock",
+                        code="meter_future",
+                    )
+                ]
+            }
+        )
+    what = label if component is None else f"{label} of {component.name}"
+    if not is_reset:
+        prev = _previous(ahu=ahu, component=component, taken_at=taken_at)
+        if prev is not None and hours < prev.hours:
+            raise ValidationError(
+                {
+                    "hours": [
+                        ValidationError(
+                            f"hours={hours:g} is below the previous reading of {prev.hours:g} h taken "
+                            f"{prev.taken_at:%Y-%m-%d %H:%M}; a meter does not run backwards — mark it as a meter "
+                            "replacement/reset (is_reset) if the meter was changed",
+                            code="meter_backwards",
+                        )
+                    ]
+                }
+            )
+        if prev is not None:
+            elapsed = taken_at - prev.taken_at
+            most = prev.hours + max_gain_h(elapsed=elapsed)
+            if hours > most + 1e-9:
+                raise ValidationError(
+                    {
+                        "hours": [
+                            ValidationError(
+                                f"{what} {_hours_text(hours)} is more than the meter can have run: the previous "
+                                f"reading was {_hours_text(prev.hours)} on {_local_text(ahu=ahu, at=prev.taken_at)}, "
+                                f"{_hours_text(elapsed.total_seconds() / 3600)} of clock time earlier, so at most "
+                                f"{_hours_text(most)} is possible (the time passed plus 2 %, at least 1 h). Check the "
+                                f"number; if the meter was replaced, {if_replaced}",
+                                code="meter_too_fast",
+                            )
+                        ]
+                    }
+                )
+    nxt = _next(ahu=ahu, component=component, taken_at=taken_at)
+    if nxt is not None and not nxt.is_reset:
+        if not is_reset and hours > nxt.hours:
+            raise ValidationError(
+                {
+                    "hours": [
+                        ValidationError(
+                            f"hours={hours:g} is above the later reading of {nxt.hours:g} h "
+                            f"taken {nxt.taken_at:%Y-%m-%d %H:%M}",
+                            code="meter_backwards",
+                        )
+                    ]
+                }
+            )
+        elapsed = nxt.taken_at - taken_at
+        least = nxt.hours - max_gain_h(elapsed=elapsed)
+        if hours < least - 1e-9:
+            raise ValidationError(
+                {
+                    "hours": [
+                        ValidationError(
+                            f"{what} {_hours_text(hours)} is too low for the later reading of "
+                            f"{_hours_text(nxt.hours)} on {_local_text(ahu=ahu, at=nxt.taken_at)}, "
+                            f"{_hours_text(elapsed.total_seconds() / 3600)} of clock time later: at least "
+                            f"{_hours_text(least)} is possible here (the time passed plus 2 %, at least 1 h)",
+                            code="meter_too_fast",
+                        )
+                    ]
+                }
+            )
+
+
 @transaction.atomic
 def meter_reading_record(
     *,
@@ -50,8 +177,10 @@ def meter_reading_record(
 ) -> MeterReading:
     """Store one run-hour reading.
 
-    A reading below the one before it (by time) is refused unless it is marked
-    as a meter replacement or reset; so is one above the next later reading.
+    Refused as ``meter_reading_check`` says: a time in the future, a value
+    below the reading before it or above the next one, or a gain larger than
+    the clock time between readings (plus 2 %, at least 1 h), unless the
+    reading is marked as a meter replacement or reset.
     """
     try:
         hours = float(hours)
@@ -61,8 +190,6 @@ def meter_reading_record(
         raise ValidationError({"hours": [f"hours={hours!r} must be a finite number of run-hours ≥ 0"]})
     if timezone.is_naive(taken_at):
         raise ValidationError({"taken_at": [f"taken_at={taken_at.isoformat()} needs a time zone offset"]})
-    if taken_at > timezone.now() + dt.timedelta(minutes=10):
-        raise ValidationError({"taken_at": [f"taken_at={taken_at.isoformat()} is in the future"]})
     if source not in MeterReading.Source.values:
         raise ValidationError({"source": [f"source={source!r} is not one of {', '.join(MeterReading.Source.values)}"]})
     if component is not None:
@@ -74,28 +201,7 @@ def meter_reading_record(
             )
     # Lock the unit row so two readings for the same meter cannot both pass the check.
     AHU.objects.select_for_update().filter(pk=ahu.pk).first()
-    if not is_reset:
-        prev = _previous(ahu=ahu, component=component, taken_at=taken_at)
-        if prev is not None and hours < prev.hours:
-            raise ValidationError(
-                {
-                    "hours": [
-                        f"hours={hours:g} is below the previous reading of {prev.hours:g} h taken "
-                        f"{prev.taken_at:%Y-%m-%d %H:%M}; a meter does not run backwards — mark it as a meter "
-                        "replacement/reset (is_reset) if the meter was changed"
-                    ]
-                }
-            )
-        nxt = _next(ahu=ahu, component=component, taken_at=taken_at)
-        if nxt is not None and not nxt.is_reset and hours > nxt.hours:
-            raise ValidationError(
-                {
-                    "hours": [
-                        f"hours={hours:g} is above the later reading of {nxt.hours:g} h "
-                        f"taken {nxt.taken_at:%Y-%m-%d %H:%M}"
-                    ]
-                }
-            )
+    meter_reading_check(ahu=ahu, hours=hours, taken_at=taken_at, component=component, is_reset=is_reset)
     reading = MeterReading(
         ahu=ahu,
         component=component,
