@@ -24,7 +24,7 @@ from inventory.specs import spec_fields
 from scheduling.models import UnitTaskSetting, WorkOrder
 from scheduling.selectors import effective_tasks, site_today
 from scheduling.services.library import unit_task_set
-from scheduling.services.work_orders import WorkOrderConflict, work_order_schedule
+from scheduling.services.work_orders import WorkOrderConflict, no_technician, work_order_schedule
 
 from .. import backends, selectors
 from ..specs_form import spec_initial, spec_rows, specs_from_post
@@ -112,7 +112,9 @@ def assign(request, public_id):
     technician = next((t for t in _technicians(org) if str(t.pk) == request.POST.get("assignee")), None)
     back = reverse("frontend:board") + f"?week={request.POST.get('week', '')}"
     if technician is None:
-        messages.error(request, f"assignee={request.POST.get('assignee')!r} is not a technician of {org}.")
+        messages.error(
+            request, f"Technician: {no_technician(request.POST.get('assignee', ''))}; choose one from the list."
+        )
         return redirect(back)
     raw_day = request.POST.get("scheduled_for", "").strip()
     try:

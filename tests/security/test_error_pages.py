@@ -37,6 +37,16 @@ def test_an_unknown_page_address_shows_the_apps_404_page(client):
 
 
 @pytest.mark.django_db
+def test_a_page_not_open_to_the_role_shows_the_apps_403_page(client):
+    """A technician opening the supervisor's board gets the app's 403 page, not a bare one."""
+    client.force_login(make_person(organisation=OrganisationFactory(), role=Role.TECHNICIAN))
+    response = client.get("/board/")
+    assert response.status_code == 403
+    html = response.content.decode()
+    assert "Not open to you" in html and 'class="brand"' in html and 'href="/"' in html
+
+
+@pytest.mark.django_db
 def test_an_unknown_api_address_answers_json_404(client):
     """A mistyped API address answers 404 in the API's error shape, pointing at the list of addresses."""
     body = _is_error_shape(client.get("/api/scheduling/work-order/"), 404)

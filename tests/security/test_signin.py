@@ -147,7 +147,8 @@ def test_the_board_answers_alike_for_an_unknown_and_a_foreign_technician(client)
         return " ".join(shown).replace(value, "<value>")
 
     made_up = answer("987654321")
-    assert made_up
+    assert "Technician: no technician '<value>' in your organisation you can assign" in made_up
+    assert "assignee" not in made_up  # plain words, no field names
     assert answer(str(foreign.pk)) == made_up
 
 
