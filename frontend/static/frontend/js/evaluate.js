@@ -324,13 +324,22 @@ export function fluidProperties(ctx, fluid, t) {
 
 // ASHRAE Handbook—Fundamentals 2017 ch.1: v = R_da T (1 + 1.607858 W) / p (psychrolib GetMoistAirVolume),
 // q_s = (V / v)(c_p,da + W c_p,v)(t_out − t_in), c_p,da = 1006, c_p,v = 1860 J/kg·K (eq. 32).
-export function sensibleHeatW({ airflow, tIn, tOut, pressure = 101325, w = 0 }) {
+// The airflow is taken at the state where it was measured: "entering" or "leaving" the coil.
+export function sensibleHeatW({ airflow, tIn, tOut, pressure = 101325, w = 0, airflowAt = "entering" }) {
   inRange("airflow_m3s", airflow, 0, 100, { unit: "m³/s", label: "airflow" });
   airTemperature("t_in_c", tIn, "entering air temperature");
   airTemperature("t_out_c", tOut, "leaving air temperature");
   inRange("pressure_pa", pressure, 50000, 110000, { unit: "Pa", label: "absolute pressure" });
-  const v = (287.042 * (tIn + 273.15) * (1 + 1.607858 * w)) / pressure;
+  const t = airflowAt === "entering" ? tIn : tOut;
+  const v = (287.042 * (t + 273.15) * (1 + 1.607858 * w)) / pressure;
   return (airflow / v) * (1006.0 + w * 1860.0) * (tOut - tIn);
+}
+
+/** Dry-air density ρ = p / (R_da·T), R_da = 287.042 J/kg·K (ASHRAE Fundamentals 2017 ch.1). */
+export function dryAirDensity(t, pressure = 101325) {
+  airTemperature("t_c", t, "air temperature");
+  inRange("pressure_pa", pressure, 50000, 110000, { unit: "Pa", label: "absolute pressure" });
+  return pressure / (287.042 * (t + 273.15));
 }
 
 export function waterSideHeatW(ctx, { tSupply, tReturn, flow, fluid = "water" }) {
@@ -637,13 +646,21 @@ function coilChecks(form) {
       for (const k of ["air_in", "air_out", "water_in", "water_out", "water_flow"]) vals[k] = form.num(`${template}.${k}`, coil);
       if (Object.values(vals).some((x) => x === null)) continue;
       const res = result({ check: "coil_balance", item: `${template}.water_flow`, component: coil.code });
-      let airflow = how.startsWith("design") ? coil.specs.design_airflow_m3s : flow;
-      airflow = airflow || flow;
+      // The supply airflow is at the fan, after the coils (leaving state); a coil's own design airflow
+      // is rated at its entering air (common practice).
+      let airflow = flow;
+      let airflowAt = "leaving";
+      if (how.startsWith("design") && coil.specs.design_airflow_m3s) {
+        airflow = coil.specs.design_airflow_m3s;
+        airflowAt = "entering";
+      }
       let air;
       let water;
       let bal;
+      let rhoAir;
       try {
-        air = sensibleHeatW({ airflow, tIn: vals.air_in, tOut: vals.air_out, pressure: p });
+        air = sensibleHeatW({ airflow, tIn: vals.air_in, tOut: vals.air_out, pressure: p, airflowAt });
+        rhoAir = dryAirDensity(airflowAt === "leaving" ? vals.air_out : vals.air_in, p);
         water = waterSideHeatW(form.ctx, { tSupply: vals.water_in, tReturn: vals.water_out, flow: vals.water_flow, fluid: "water" });
         bal = coilBalance(air, water, tol);
       } catch (exc) {
@@ -655,9 +672,10 @@ function coilChecks(form) {
       }
       res.derived = {
         air_side_w: pyRound(air), water_side_w: pyRound(water), difference_pct: pyRound(bal.differencePct, 1),
-        airflow_m3s: airflow, airflow_source: how,
+        airflow_m3s: airflow, airflow_source: how, airflow_at: airflowAt, air_density_kg_m3: pyRound(rhoAir, 4), pressure_pa: pyRound(p),
       };
-      res.method = `air side q = ṁ·c_p·Δt (sensible); water side q = ρ·V·c_p·Δt; balance within ${tol} % ok, ${2 * tol} % watch`;
+      const state = airflowAt === "leaving" ? "leaving air (airflow at the supply fan, after the coil)" : "entering air (the coil's design airflow)";
+      res.method = `air side q = ρ·V·c_p·Δt, sensible, dry air, ρ = p/(R_da·T) at the ${state}; water side q = ρ·V·c_p·Δt; balance within ${tol} % ok, ${2 * tol} % watch`;
       res.verdict = bal.verdict;
       const which = bal.differencePct > 0 ? "air side higher" : "water side higher";
       const parts = [`${coil.name}: air side `, q(Math.abs(air), "heat_rate"), ", water side ", q(Math.abs(water), "heat_rate"),
