@@ -11,6 +11,7 @@ import uuid
 from django.conf import settings
 from django.core.exceptions import ValidationError
 from django.db import models
+from django.db.models.functions import Coalesce
 from django.utils import timezone
 
 from accounts.models import Organisation
@@ -240,7 +241,15 @@ class Evaluation(models.Model):
 
 
 class Finding(models.Model):
-    """A deficiency found on a visit: every failed evaluation becomes one."""
+    """A deficiency: one open finding per unit, part and problem, gathering every visit that saw it.
+
+    ``opened_at`` is the first observation (ages and "findings by age" count from it), ``last_seen_at``
+    the latest, ``times_seen`` the number of visits (inspections) that saw it; ``evaluation`` and
+    ``inspection`` are the first judgement and form, ``latest_evaluation`` and ``latest_inspection`` the
+    latest. A repeat failure while the finding is open updates it; after it is closed a new failure opens
+    a new finding. A design-review finding (the requirement is above what the unit was designed for)
+    proposes no corrective work.
+    """
 
     class Severity(models.TextChoices):
         LOW = "low", "Low"
@@ -252,21 +261,41 @@ class Finding(models.Model):
         OPEN = "open", "Open"
         CLOSED = "closed", "Closed"
 
+    class Kind(models.TextChoices):
+        CORRECTIVE = "corrective", "Corrective work"
+        DESIGN_REVIEW = "design_review", "Design review"
+
     class CloseCause(models.TextChoices):
         CORRECTED = "corrected", "Corrective work completed"
         AMENDED = "amended", "Cleared by an amendment"
+        MERGED = "merged", "Merged into the earlier open finding of the same problem"
 
     organisation = models.ForeignKey(Organisation, on_delete=models.PROTECT, related_name="findings")
     inspection = models.ForeignKey(Inspection, on_delete=models.PROTECT, related_name="findings")
     evaluation = models.OneToOneField(Evaluation, on_delete=models.PROTECT, related_name="finding")
     ahu = models.ForeignKey(AHU, on_delete=models.PROTECT, related_name="findings")
     component = models.ForeignKey(Component, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
+    kind = models.CharField(max_length=20, choices=Kind.choices, default=Kind.CORRECTIVE)
+    problem = models.CharField(
+        max_length=120,
+        blank=True,
+        help_text="What failed (check or checklist step): one open finding per unit, part and problem.",
+    )
     severity = models.CharField(max_length=10, choices=Severity.choices)
     title = models.CharField(max_length=200)
     reason = models.CharField(max_length=500)
+    reason_parts = models.JSONField(
+        default=list,
+        blank=True,
+        help_text="The text as text and SI quantities (inspections.reasons), from the latest observation.",
+    )
     condition_code = models.CharField(max_length=40, blank=True)
     state = models.CharField(max_length=10, choices=State.choices, default=State.OPEN)
-    opened_at = models.DateTimeField()
+    opened_at = models.DateTimeField(help_text="First seen: the first observation.")
+    last_seen_at = models.DateTimeField(null=True, blank=True, help_text="The latest observation.")
+    times_seen = models.PositiveIntegerField(default=1, help_text="Visits (inspections) that saw it.")
+    latest_evaluation = models.ForeignKey(Evaluation, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
+    latest_inspection = models.ForeignKey(Inspection, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
     closed_at = models.DateTimeField(null=True, blank=True)
     corrective_work_order = models.ForeignKey(
         WorkOrder, on_delete=models.PROTECT, null=True, blank=True, related_name="source_findings"
@@ -291,15 +320,37 @@ class Finding(models.Model):
         related_name="cleared_findings",
         help_text="The amendment whose corrected readings no longer fail this check.",
     )
+    merged_into = models.ForeignKey(
+        "self",
+        on_delete=models.PROTECT,
+        null=True,
+        blank=True,
+        related_name="merged",
+        help_text="The earlier open finding of the same problem this duplicate was merged into.",
+    )
 
     class Meta:
         ordering = ["-opened_at", "-id"]
         indexes = [models.Index(fields=["organisation", "state", "severity"])]
+        constraints = [
+            models.UniqueConstraint(
+                models.F("ahu"),
+                Coalesce(models.F("component"), models.Value(0)),
+                models.F("problem"),
+                condition=models.Q(state="open") & ~models.Q(problem=""),
+                name="finding_one_open_per_problem",
+            )
+        ]
 
     def __str__(self) -> str:
         return f"{self.get_severity_display()}: {self.title}"
 
+    @property
+    def first_seen_at(self):
+        return self.opened_at
+
     def age_days(self, *, now=None) -> int:
+        """Days since the first observation (to the close, or ``now``)."""
         end = self.closed_at or now or timezone.now()
         return max((end - self.opened_at).days, 0)
 

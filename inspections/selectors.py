@@ -15,7 +15,7 @@ from inventory.selectors import sites_managed_by, sites_visible_to
 from scheduling.models import WorkOrder
 
 from . import checklists
-from .models import ChecklistItem, ChecklistTemplate, Finding, Inspection, Photo, Reading
+from .models import ChecklistItem, ChecklistTemplate, Evaluation, Finding, Inspection, Photo, Reading
 from .services.library import templates_current
 
 # A corrective work order without tasks gets the checklist that fixes its condition.
@@ -475,15 +475,132 @@ def reason_for(*, evaluation, unit_system: str) -> str:
 
     Renders ``reason_parts`` through engineering.units (inspections.reasons);
     rows stored before reasons had parts fall back to the stored SI text.
-    Accepts an Evaluation, a Reading, or a Finding (its evaluation's reason).
+    Accepts an Evaluation, a Reading, or a Finding (its own text, from its latest observation).
     """
     from . import reasons
 
+    if unit_system not in ("si", "us"):
+        unit_system = "si"
     if isinstance(evaluation, Finding):
-        evaluation = evaluation.evaluation
+        # The finding's own text (its latest observation); findings stored before it had one: the latest
+        # judgement's reason.
+        if evaluation.reason_parts:
+            return reasons.render(evaluation.reason_parts, unit_system)
+        evaluation = evaluation.latest_evaluation or evaluation.evaluation
     if unit_system not in ("si", "us"):
         unit_system = "si"
     parts = getattr(evaluation, "reason_parts", None)
     if not parts:
         return evaluation.reason
     return reasons.render(parts, unit_system)
+
+
+def finding_shape(*, finding: Finding, unit_system: str) -> dict:
+    """One finding as every API answer shows it: plain title and text in the reader's units, first and last
+    seen, how many visits saw it, its kind and its corrective work (none for a design review)."""
+    wo = finding.corrective_work_order
+    return {
+        "id": finding.pk,
+        "kind": finding.kind,
+        "kind_label": finding.get_kind_display(),
+        "severity": finding.severity,
+        "state": finding.state,
+        "title": finding.title,
+        "text": reason_for(evaluation=finding, unit_system=unit_system),
+        "first_seen": finding.opened_at.isoformat(),
+        "last_seen": (finding.last_seen_at or finding.opened_at).isoformat(),
+        "times_seen": finding.times_seen,
+        "corrective_work_order": str(wo.public_id) if wo is not None else None,
+    }
+
+
+# Plain names of the checks over several readings, for people (never the check's code).
+CHECK_LABELS = {
+    "filter_loading": "Filter loading at design airflow",
+    "oa_fraction_temperature": "Outdoor-air fraction by temperatures",
+    "oa_fraction_co2": "Outdoor-air fraction by CO2",
+    "coil_balance": "Coil heat balance",
+    "supply_temperature": "Supply-air temperature against set point",
+    "duct_static": "Duct static pressure against set point",
+    "damper_position": "Damper position against command",
+    "sensor_drift": "Sensor against reference meter",
+    "heat_recovery": "Heat-recovery effectiveness",
+}
+
+
+def item_labels(*, api_keys) -> dict[str, str]:
+    """{"<template code>.<key>": the item's label (latest template version)} for the given api keys."""
+    wanted = {k.partition(".")[0]: set() for k in api_keys if "." in k}
+    for k in api_keys:
+        if "." in k:
+            wanted[k.partition(".")[0]].add(k.partition(".")[2])
+    out: dict[str, str] = {}
+    rows = (
+        ChecklistItem.objects.filter(template__code__in=list(wanted))
+        .order_by("template__code", "key", "template__version")
+        .values_list("template__code", "key", "label")
+    )
+    for code, key, label in rows:  # latest version last, so it wins
+        if key in wanted.get(code, ()):
+            out[f"{code}.{key}"] = label
+    return out
+
+
+def check_label(*, check: str, item: str, labels: dict[str, str]) -> str:
+    """The plain name of a judgement: the check's name, or for a single answer the checklist item's label."""
+    if check in CHECK_LABELS:
+        return CHECK_LABELS[check]
+    return labels.get(item) or "Checklist answer"
+
+
+def findings_seen_on(*, inspections) -> dict[int, list[Finding]]:
+    """{inspection id: the findings its failed judgements observed}, each finding once, oldest first.
+
+    A finding gathers the visits that saw it, so a visit's record lists the finding that was open for each of its
+    failures at the time (same unit, part and problem), not only the findings it opened.
+    """
+    from .services.findings import problem_of
+
+    by_id = {i.pk: i for i in inspections}
+    if not by_id:
+        return {}
+    failed = list(
+        Evaluation.objects.filter(inspection_id__in=by_id, verdict="fail").values_list(
+            "inspection_id", "check_name", "item_key", "component_id"
+        )
+    )
+    ahu_ids = {i.ahu_id for i in by_id.values()}
+    candidates = list(
+        Finding.objects.filter(ahu_id__in=ahu_ids)
+        .exclude(close_cause=Finding.CloseCause.MERGED)
+        .select_related("component", "corrective_work_order", "evaluation", "latest_evaluation")
+        .order_by("opened_at", "pk")
+    )
+    out: dict[int, list[Finding]] = {pk: [] for pk in by_id}
+    for f in candidates:  # the first and the latest visit that saw it
+        for insp_id in {f.inspection_id, f.latest_inspection_id} & set(by_id):
+            out[insp_id].append(f)
+    for insp_id, check, item, component_id in failed:
+        insp = by_id[insp_id]
+        problem = problem_of(check=check, item=item)
+        # Amendment failures open at the amendment's time, after the visit: the finding's own first
+        # inspection counts too.
+        match = next(
+            (
+                f
+                for f in candidates
+                if f.ahu_id == insp.ahu_id
+                and f.component_id == component_id
+                and f.problem == problem
+                and (
+                    f.inspection_id == insp_id
+                    or (f.opened_at <= insp.finished_at and (f.closed_at is None or f.closed_at > insp.finished_at))
+                )
+            ),
+            None,
+        )
+        if match is not None and match not in out[insp_id]:
+            out[insp_id].append(match)
+    for found in out.values():
+        found.sort(key=lambda f: (f.opened_at, f.pk))
+    return out

@@ -168,15 +168,7 @@ class AmendmentCreateView(APIView):
                 "created_at": a.created_at,
                 "changes": a.changes,
                 "findings": [
-                    {
-                        "id": f.pk,
-                        "severity": f.severity,
-                        "title": f.title,
-                        "corrective_work_order": str(f.corrective_work_order.public_id)
-                        if f.corrective_work_order
-                        else None,
-                    }
-                    for f in found
+                    selectors.finding_shape(finding=f, unit_system=_reader(request)["unit_system"]) for f in found
                 ],
             },
             status=status.HTTP_201_CREATED,

@@ -41,6 +41,7 @@ from .services import (
     WorkOrderConflict,
     calendar_feed_issue,
     corrective_work_order_approve,
+    corrective_work_order_reject,
     meter_reading_record,
     task_definition_override,
     work_order_assign,
@@ -193,6 +194,25 @@ class WorkOrderApprove(WorkOrderChangeView):
         data = s.VersionIn(data=request.data)
         data.is_valid(raise_exception=True)
         corrective_work_order_approve(work_order=wo, by=request.user, expected_version=data.validated_data["version"])
+        return Response(s.WorkOrderOut(_visible(request, public_id)).data)
+
+
+class WorkOrderReject(WorkOrderChangeView):
+    @extend_schema(
+        request=s.RejectIn,
+        responses={200: s.WorkOrderOut, 409: s.ConflictOut, **ERRORS},
+        summary="Reject proposed corrective work, with a reason",
+    )
+    def post(self, request, public_id):
+        wo = _managed(request, public_id, action="reject")
+        data = s.RejectIn(data=request.data)
+        data.is_valid(raise_exception=True)
+        corrective_work_order_reject(
+            work_order=wo,
+            by=request.user,
+            reason=data.validated_data["reason"],
+            expected_version=data.validated_data["version"],
+        )
         return Response(s.WorkOrderOut(_visible(request, public_id)).data)
 
 

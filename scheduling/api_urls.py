@@ -12,6 +12,7 @@ urlpatterns = [
     path("work-orders/<uuid:public_id>/schedule/", api.WorkOrderSchedule.as_view(), name="work-order-schedule"),
     path("work-orders/<uuid:public_id>/transition/", api.WorkOrderTransition.as_view(), name="work-order-transition"),
     path("work-orders/<uuid:public_id>/approve/", api.WorkOrderApprove.as_view(), name="work-order-approve"),
+    path("work-orders/<uuid:public_id>/reject/", api.WorkOrderReject.as_view(), name="work-order-reject"),
     path(
         "today/",
         answer_fast_path(api.TodayVisits.as_view(), view="today", key_of=api.today_params),

@@ -127,6 +127,15 @@ class VersionIn(serializers.Serializer):
     version = serializers.IntegerField(min_value=1, help_text="The version you last read (optimistic check).")
 
 
+class RejectIn(VersionIn):
+    reason = serializers.CharField(
+        required=False,
+        allow_blank=True,
+        default="",
+        help_text="Why the proposed work is not needed (required, at most 300 characters); kept in the audit trail.",
+    )
+
+
 class AssignIn(VersionIn):
     assignee = serializers.CharField(help_text="Username of a technician of the organisation.")
     scheduled_for = serializers.DateField(

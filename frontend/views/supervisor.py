@@ -293,11 +293,13 @@ def unit_rules(request, pk):
 
 @login_required
 def findings(request):
+    """Open findings by severity, oldest first: one row per unit, part and problem, its age from the first
+    observation, how often and when last seen, and the corrective work it holds (or that it is a design review)."""
     _organisation(request)
     rows = (
         backends.findings_visible_to(user=request.user)
         .filter(state="open")
-        .select_related("ahu__building__site", "component", "corrective_work_order", "evaluation")
+        .select_related("ahu__building__site", "component", "corrective_work_order", "latest_evaluation", "evaluation")
     )
     order = {"critical": 0, "high": 1, "medium": 2, "low": 3}
     now = timezone.now()
@@ -308,6 +310,28 @@ def findings(request):
         f.reason_display = reason_for(evaluation=f, unit_system=request.user.unit_system)
         groups.setdefault(f.get_severity_display(), []).append(f)
     return render(request, "frontend/supervisor/findings.html", {"groups": groups})
+
+
+def _corrective_page(request, pending, *, errors=None, typed=None, status=200):
+    """The proposals awaiting approval, each with the findings it would fix in the reader's units."""
+    proposals = list(
+        pending.order_by("due_date").prefetch_related(
+            Prefetch(
+                "source_findings",
+                queryset=backends.findings_visible_to(user=request.user)
+                .filter(state="open")
+                .select_related("latest_evaluation", "evaluation", "component")
+                .order_by("opened_at", "pk"),
+                to_attr="open_findings",
+            )
+        )
+    )
+    for wo in proposals:
+        for f in wo.open_findings:
+            f.reason_display = reason_for(evaluation=f, unit_system=request.user.unit_system)
+        wo.field_errors = (errors or {}).get(str(wo.public_id), [])
+        wo.typed_reason = (typed or {}).get(str(wo.public_id), "")
+    return render(request, "frontend/supervisor/corrective.html", {"pending": proposals}, status=status)
 
 
 @login_required
@@ -323,19 +347,27 @@ def corrective(request):
             wo = None
         if wo is None:
             raise Http404("No such proposed work order that you manage.")
+        reason = request.POST.get("reason", "")
         try:
             if request.POST.get("decision") == "approve":
                 backends.corrective_work_order_approve(work_order=wo, by=request.user)
                 messages.success(request, f"Approved: {wo.title}.")
             else:
-                backends.corrective_work_order_reject(
-                    work_order=wo, by=request.user, reason=request.POST.get("reason", "")
-                )
+                backends.corrective_work_order_reject(work_order=wo, by=request.user, reason=reason)
                 messages.success(request, f"Rejected: {wo.title}.")
         except ValidationError as exc:
-            messages.error(request, " ".join(exc.messages))
+            # Refused: the page again, the message beside the field it is about, the typed reason kept.
+            errors = exc.message_dict if hasattr(exc, "error_dict") else {"reason": exc.messages}
+            words = [m for msgs in errors.values() for m in msgs]
+            return _corrective_page(
+                request,
+                pending,
+                errors={str(wo.public_id): words},
+                typed={str(wo.public_id): reason},
+                status=400,
+            )
         return redirect("frontend:corrective")
-    return render(request, "frontend/supervisor/corrective.html", {"pending": list(pending.order_by("due_date"))})
+    return _corrective_page(request, pending)
 
 
 @login_required

@@ -1,4 +1,4 @@
-"""Findings: every failed evaluation becomes one and proposes corrective work; done work closes it.
+"""Findings: one open finding per unit, part and problem gathers every failure of it; done work closes it.
 
 A finding closes when its corrective work order is completed (at the completion time; sent back for
 rework, it opens again), or when an amendment corrects the readings so that its check passes.
@@ -8,11 +8,14 @@ from __future__ import annotations
 
 import datetime as dt
 
+from django.db import IntegrityError, transaction
 from django.utils import timezone
 
 from accounts.services import audit_record
 from engineering.freeze import daily_minimums_from_normals
 
+from .. import reasons as rs
+from ..evaluation import ITEM_CONDITIONS, SEVERITY
 from ..models import Evaluation, Finding, Inspection
 
 FREEZE_LEAD_DAYS = 30
@@ -33,25 +36,154 @@ def freeze_season_near(*, site, on: dt.date, lead_days: int = FREEZE_LEAD_DAYS) 
     return any(t <= site.preheat_threshold_c for _, t in days)
 
 
-def _title(result, evaluation: Evaluation) -> str:
-    where = f" — {result.component.name}" if result.component is not None else ""
-    words = {
-        "filter_loading": "Filter loaded",
-        "oa_fraction_temperature": "Outdoor air below minimum",
-        "oa_fraction_co2": "Outdoor air below minimum",
-        "coil_balance": "Coil heat balance off",
-        "supply_temperature": "Supply-air temperature off set point",
-        "duct_static": "Duct static off set point",
-        "damper_position": "Damper not at commanded position",
-        "sensor_drift": "Sensor drift",
-        "heat_recovery": "Heat recovery below design",
-    }.get(result.check)
+# Plain names of the problems a check or a scheduling condition stands for (titles of findings and work).
+CHECK_TITLES = {
+    "filter_loading": "Filter loaded",
+    "oa_fraction_temperature": "Outdoor air below minimum",
+    "oa_fraction_co2": "Outdoor air below minimum",
+    "coil_balance": "Coil heat balance off",
+    "supply_temperature": "Supply-air temperature off set point",
+    "duct_static": "Duct static pressure off set point",
+    "damper_position": "Damper not at commanded position",
+    "sensor_drift": "Sensor drift",
+    "heat_recovery": "Heat recovery below design",
+}
+CONDITION_TITLES = {
+    "filter_loaded": "Filter loaded",
+    "sensor_drift": "Sensor drift",
+    "supply_temp_off": "Supply-air temperature off set point",
+    "damper_position": "Damper not at commanded position",
+    "fan_not_proven": "Fan not proven",
+    "freeze_protection_failed": "Freeze protection failed",
+}
+# Checks over the outdoor-air fraction: one problem however it was measured.
+OUTDOOR_AIR_CHECKS = {"oa_fraction_temperature", "oa_fraction_co2"}
+# Judgements of single checklist answers (a step of a test) rather than of a calculation.
+STEP_CHECKS = {"check", "choice", "limits"}
+SEVERITY_ORDER = ["low", "medium", "high", "critical"]
+
+
+def _template_conditions() -> dict[str, str]:
+    """{checklist template code: condition} for the tests whose failed steps name a scheduling condition.
+
+    Every failed step of such a test (e.g. the preheater and freeze-protection test) is part of the same
+    problem for corrective work: one work order per unit and condition holds the findings of all its steps.
+    """
+    return {key.split(".", 1)[0]: code for key, code in ITEM_CONDITIONS.items()}
+
+
+def problem_of(*, check: str, item: str) -> str:
+    """The problem a failed judgement is about: one open finding per unit, part and problem.
+
+    A step of a checklist is its own problem (each failed step of a test is one finding); the outdoor-air
+    fraction is one problem whether measured by temperatures or by CO2; other checks by check and reading.
+    """
+    if check in OUTDOOR_AIR_CHECKS:
+        return "outdoor_air"
+    if check in STEP_CHECKS:
+        return item
+    return f"{check}:{item}"[:120]
+
+
+def _step_label(item: str, cache: dict) -> tuple[str, str] | None:
+    """(test title, step label) of a checklist item's api key, from its latest template version."""
+    from ..models import ChecklistItem
+
+    if item not in cache:
+        code, _, key = item.partition(".")
+        cache[item] = (
+            ChecklistItem.objects.filter(template__code=code, key=key)
+            .order_by("-template__version")
+            .values_list("template__title", "label")
+            .first()
+        )
+    return cache[item]
+
+
+def _title(res, condition: str, cache: dict) -> str:
+    """A plain title: the problem's name, or the test and its step; then the part it concerns."""
+    where = f" — {res.component.name}" if res.component is not None else ""
+    words = CHECK_TITLES.get(res.check)
+    if words is None and res.check in STEP_CHECKS:
+        found = _step_label(res.item, cache)
+        if found is not None:
+            test, step = found
+            words = f"{CONDITION_TITLES.get(condition, test)}: {step}"
     if words is None:
-        words = {
-            "fan_not_proven": "Fan not proven",
-            "freeze_protection_failed": "Freeze protection failed",
-        }.get(result.condition_code, "Deficiency: " + result.reason.split(":")[0])
+        words = CONDITION_TITLES.get(condition, "Deficiency")
     return (words + where)[:200]
+
+
+def design_shortfall(derived: dict) -> bool:
+    """Does the ventilation requirement exceed the unit's design minimum outdoor air?
+
+    Uses the evaluation's own ``design_shortfall`` when it carries one, otherwise compares the derived
+    requirement with the design minimum outdoor airflow (both m³/s, as the evaluation recorded them).
+    """
+    if "design_shortfall" in derived:
+        return bool(derived["design_shortfall"])
+    required, design = derived.get("required_outdoor_airflow_m3s"), derived.get("design_min_outdoor_airflow_m3s")
+    return required is not None and design is not None and required > design
+
+
+def _meets_design_minimum(derived: dict) -> bool:
+    """The measured fraction, uncertainty included, is at or above the design minimum (as fraction_check)."""
+    x, u, minimum = derived.get("oa_fraction"), derived.get("uncertainty", 0.0), derived.get("design_min_oa_fraction")
+    return x is not None and minimum is not None and x - u >= minimum
+
+
+def is_design_review(*, check: str, derived: dict) -> bool:
+    """A shortfall from the design, not from the unit's upkeep: the unit delivers its design minimum outdoor
+    air, but the space needs more than that design minimum. Monthly corrective work cannot fix it."""
+    return check in OUTDOOR_AIR_CHECKS and design_shortfall(derived) and _meets_design_minimum(derived)
+
+
+def _outdoor_air_parts(*, check: str, derived: dict, ahu, design_review: bool) -> list | None:
+    """The outdoor-air shortfall in words and quantities: measured, design minimum, requirement, what failed."""
+    from engineering.ventilation import SPACE_KINDS
+
+    try:
+        x, u = derived["oa_fraction"], derived.get("uncertainty", 0.0)
+        oa_q, supply_q = derived["outdoor_airflow_m3s"], derived["supply_airflow_m3s"]
+        dmin, dmin_q = derived["design_min_oa_fraction"], derived["design_min_outdoor_airflow_m3s"]
+    except KeyError:
+        return None
+    by = "temperatures" if check == "oa_fraction_temperature" else "CO2"
+    parts: list = [
+        f"Outdoor air measured by {by}: {x * 100:.0f} % ± {u * 100:.0f} points of the supply air (",
+        rs.q(oa_q, "airflow"),
+        f"); the unit's design minimum is {dmin * 100:.0f} % (",
+        rs.q(dmin_q, "airflow"),
+        ")",
+    ]
+    required = derived.get("required_outdoor_airflow_m3s")
+    if required is not None and supply_q:
+        kind = SPACE_KINDS.get(ahu.space_kind)
+        space = f" for {kind.label.lower()}" if kind is not None else ""
+        parts += [
+            f"; the space needs {min(required / supply_q, 1.0) * 100:.0f} % (",
+            rs.q(required, "airflow"),
+            f"){space} by the ASHRAE 62.1 ventilation rate procedure",
+        ]
+    if x + u < dmin:
+        parts.append(f". Fails: below the design minimum {dmin * 100:.0f} %")
+    elif required is not None and supply_q:
+        parts.append(f". Fails: below the {min(required / supply_q, 1.0) * 100:.0f} % the space needs")
+    if design_review:
+        parts.append(
+            ". The unit delivers its design minimum, which is below what the space needs: a design review, "
+            "not monthly corrective work (no work order is proposed)"
+        )
+    return rs.flatten(parts)
+
+
+def _text_parts(ev: Evaluation, res, *, ahu, design_review: bool) -> list:
+    """The finding's text: the check's numbers and the limit that failed it, from the evaluation's parts."""
+    if res.check in OUTDOOR_AIR_CHECKS:
+        parts = _outdoor_air_parts(check=res.check, derived=ev.derived, ahu=ahu, design_review=design_review)
+        if parts is not None:
+            return parts
+    return list(ev.reason_parts or ([ev.reason] if ev.reason else []))
 
 
 def evaluations_store(*, inspection: Inspection, results, amendment=None) -> list[Evaluation]:
@@ -76,66 +208,190 @@ def evaluations_store(*, inspection: Inspection, results, amendment=None) -> lis
     return rows
 
 
+def _worst(a: str, b: str) -> str:
+    return max(a, b, key=lambda s: SEVERITY_ORDER.index(s) if s in SEVERITY_ORDER else 0)
+
+
+def _observe(*, inspection: Inspection, ev: Evaluation, res, values: dict, seen_at, amendment, by):
+    """Update the open finding of this unit, part and problem with a new observation, or open one.
+
+    Returns (finding, new?). A second failure of the same problem on the same form (the outdoor-air
+    fraction by temperatures and by CO2) is one visit: it updates the values, not the count.
+    """
+    key = {"ahu_id": inspection.ahu_id, "component": res.component, "problem": values["problem"]}
+    finding = Finding.objects.select_for_update(of=("self",)).filter(state=Finding.State.OPEN, **key).first()
+    if finding is None:
+        try:
+            with transaction.atomic():
+                finding = Finding.objects.create(
+                    organisation_id=inspection.organisation_id,
+                    inspection=inspection,
+                    evaluation=ev,
+                    ahu=inspection.ahu,
+                    component=res.component,
+                    opened_at=seen_at,
+                    last_seen_at=seen_at,
+                    times_seen=1,
+                    latest_evaluation=ev,
+                    latest_inspection=inspection,
+                    amendment=amendment,
+                    **{k: v for k, v in values.items() if k != "problem"},
+                    problem=values["problem"],
+                )
+            return finding, True
+        except IntegrityError:  # another form opened it meanwhile: observe that one
+            finding = Finding.objects.select_for_update(of=("self",)).get(state=Finding.State.OPEN, **key)
+    same_visit = finding.latest_inspection_id == inspection.pk
+    if not same_visit:
+        finding.times_seen += 1
+    finding.last_seen_at = max(seen_at, finding.last_seen_at or finding.opened_at)
+    finding.latest_evaluation, finding.latest_inspection = ev, inspection
+    finding.severity = _worst(finding.severity, values["severity"])
+    for name in ("kind", "title", "reason", "reason_parts", "condition_code"):
+        setattr(finding, name, values[name])
+    finding.save(
+        update_fields=[
+            "times_seen",
+            "last_seen_at",
+            "latest_evaluation",
+            "latest_inspection",
+            "severity",
+            "kind",
+            "title",
+            "reason",
+            "reason_parts",
+            "condition_code",
+        ]
+    )
+    audit_record(
+        actor=by,
+        obj=finding,
+        action="finding_observe",
+        organisation=finding.organisation,
+        changes={
+            "inspection": inspection.pk,
+            "evaluation": ev.pk,
+            "amendment": amendment.pk if amendment is not None else None,
+            "times_seen": finding.times_seen,
+        },
+    )
+    return finding, False
+
+
 def findings_open(
     *, inspection: Inspection, evaluations: list[Evaluation], results, by, amendment=None, opened_at=None
 ) -> list[Finding]:
-    """One Finding per failed evaluation, each proposing a corrective work order.
+    """The findings a form's failed evaluations observe, each once, in order; corrective work proposed for them.
 
-    With ``amendment`` the findings point to it (the corrected readings failed,
-    not the signed form) and open at ``opened_at`` (the amendment's time).
+    A failure updates the open finding of the same unit, part and problem (last seen, times seen, latest
+    values) or, when there is none, opens one first seen now. With ``amendment`` the observation points to it
+    and is made at ``opened_at`` (the amendment's time).
 
-    A failed freeze-protection test inside or up to 30 days before the site's
-    freeze season gets an urgent corrective work order, approved at once (the
-    scheduling service e-mails the supervisors after commit); other findings
-    wait for a supervisor's approval.
+    Corrective work: at most one open corrective work order per unit and problem, where every failed step
+    of a test that names a scheduling condition is that condition's problem (the failed steps of the freeze
+    test share one "freeze protection" work order). A design-review finding proposes none. A failed
+    freeze-protection test inside or up to 30 days before the site's freeze season gets an urgent corrective
+    work order, approved at once (the scheduling service e-mails the supervisors after commit); other work
+    waits for a supervisor's approval.
     """
-    from scheduling.services import corrective_work_order_propose
-
     site = inspection.ahu.building.site
-    opened_at = opened_at or inspection.finished_at
-    source_ref = f"inspection:{inspection.pk}" + (f" amendment:{amendment.pk}" if amendment is not None else "")
-    out = []
+    seen_at = opened_at or inspection.finished_at
+    by_template = _template_conditions()
+    labels: dict = {}
+    found: dict[int, Finding] = {}
+    needs_work: dict[str, dict] = {}
     for ev, res in zip(evaluations, results, strict=True):
         if ev.verdict != "fail":
             continue
-        severity = res.severity
-        urgent = res.condition_code == "freeze_protection_failed" and freeze_season_near(
-            site=site, on=timezone.localtime(opened_at).date()
+        condition = res.condition_code
+        if not condition and res.check in STEP_CHECKS:
+            condition = by_template.get(res.item.split(".", 1)[0], "")
+        urgent = condition == "freeze_protection_failed" and freeze_season_near(
+            site=site, on=timezone.localtime(seen_at).date()
         )
-        priority = "urgent" if urgent else PRIORITY[severity]
-        finding = Finding.objects.create(
-            organisation_id=inspection.organisation_id,
+        design_review = is_design_review(check=res.check, derived=ev.derived or {})
+        parts = _text_parts(ev, res, ahu=inspection.ahu, design_review=design_review)
+        values = {
+            "problem": problem_of(check=res.check, item=res.item),
+            "kind": Finding.Kind.DESIGN_REVIEW if design_review else Finding.Kind.CORRECTIVE,
+            "severity": "critical" if urgent else SEVERITY.get(condition, res.severity),
+            "title": _title(res, condition, labels),
+            "reason": rs.render(parts, "si")[:500],
+            "reason_parts": parts,
+            "condition_code": condition,
+        }
+        finding, _ = _observe(
+            inspection=inspection, ev=ev, res=res, values=values, seen_at=seen_at, amendment=amendment, by=by
+        )
+        found[finding.pk] = finding
+        if design_review:
+            continue
+        group = needs_work.setdefault(
+            _known(condition) or f"problem:{finding.problem}", {"findings": {}, "urgent": False}
+        )
+        group["findings"][finding.pk] = finding  # the latest copy of the row, as returned
+        group["urgent"] = group["urgent"] or urgent
+    source_ref = f"inspection:{inspection.pk}" + (f" amendment:{amendment.pk}" if amendment is not None else "")
+    for key, group in needs_work.items():
+        _corrective_for_group(
             inspection=inspection,
-            evaluation=ev,
-            ahu=inspection.ahu,
-            component=res.component,
-            severity="critical" if urgent else severity,
-            title=_title(res, ev),
-            reason=res.reason[:500],
-            condition_code=res.condition_code,
-            opened_at=opened_at,
-            amendment=amendment,
+            condition=key if not key.startswith("problem:") else "",
+            findings=list(group["findings"].values()),
+            urgent=group["urgent"],
+            source_ref=source_ref,
+            site=site,
+            by=by,
         )
-        reason = res.reason
+    return list(found.values())
+
+
+def _is_open_work(wo) -> bool:
+    from scheduling.models import WorkOrder
+
+    return (
+        wo is not None
+        and wo.kind == WorkOrder.Kind.CORRECTIVE
+        and wo.state in WorkOrder.OPEN_STATES
+        and wo.approval != WorkOrder.Approval.REJECTED
+    )
+
+
+def _corrective_for_group(*, inspection, condition: str, findings: list[Finding], urgent: bool, source_ref, site, by):
+    """One corrective work order for the findings of one problem: the open one, or a new proposal."""
+    from scheduling.services import corrective_work_order_propose
+
+    waiting = [f for f in findings if not _is_open_work(f.corrective_work_order)]
+    if not waiting:
+        return
+    components = {f.component_id for f in findings}
+    component = findings[0].component if len(components) == 1 else None
+    wo = _open_corrective_for(
+        ahu_id=inspection.ahu_id, condition=condition, problem=findings[0].problem, component=component
+    )
+    if wo is None:
+        worst = max((f.severity for f in findings), key=SEVERITY_ORDER.index)
+        if condition:
+            title = CONDITION_TITLES.get(condition, findings[0].title)
+            title += f" — {component.name}" if component is not None else ""
+        else:
+            title = findings[0].title
+        reason = "; ".join(f.reason for f in findings)
         if urgent:
             reason += f" — inside or within {FREEZE_LEAD_DAYS} days of the freeze season at {site.name}"
-        wo = None if _known(res.condition_code) else _open_corrective_for(finding=finding, item_key=ev.item_key)
-        if wo is None:
-            wo = corrective_work_order_propose(
-                ahu=inspection.ahu,
-                title=finding.title,
-                reason=reason,
-                condition_code=_known(res.condition_code),
-                priority=priority,
-                component=res.component,
-                source_ref=source_ref,
-                by=by,
-                approved=urgent,
-            )
+        wo = corrective_work_order_propose(
+            ahu=inspection.ahu,
+            title=title,
+            reason=reason,
+            condition_code=condition,
+            priority="urgent" if urgent else PRIORITY[worst],
+            component=component,
+            source_ref=source_ref,
+            by=by,
+            approved=urgent,
+        )
+    for finding in waiting:
         finding.corrective_work_order = wo
         finding.save(update_fields=["corrective_work_order"])
-        out.append(finding)
-    return out
 
 
 # Condition codes the scheduling engine knows; other fails raise corrective work without one.
@@ -149,31 +405,28 @@ KNOWN_CONDITIONS = {
 }
 
 
-def _open_corrective_for(*, finding: Finding, item_key: str):
-    """An open corrective work order raised earlier for the same unit, part and problem, if any.
+def _open_corrective_for(*, ahu_id: int, condition: str, problem: str, component):
+    """The open corrective work order of this unit for the same problem, if any (locked).
 
-    For failures without a scheduling condition (drain pan, belt, low outdoor air, coil balance, duct
-    static, heat recovery…) scheduling cannot find the duplicate itself, so the earlier findings say
-    what was raised: the same condition code, or for failures without one the same checklist item.
-    Open means not completed, verified or cancelled, and not rejected by a supervisor.
+    The same problem is the same scheduling condition, or for failures without one (drain pan, belt, low
+    outdoor air, coil balance, duct static, heat recovery…) the same problem of the findings it holds. A work
+    order for the whole unit serves every part; a failure of the whole unit is served by the work order of
+    any part. Open means not completed, verified or cancelled, and not rejected by a supervisor.
     """
+    from django.db.models import Q
+
     from scheduling.models import WorkOrder
 
-    earlier = (
-        Finding.objects.filter(
-            ahu_id=finding.ahu_id,
-            component=finding.component,
-            corrective_work_order__kind=WorkOrder.Kind.CORRECTIVE,
-            corrective_work_order__state__in=WorkOrder.OPEN_STATES,
-        )
-        .exclude(pk=finding.pk)
-        .exclude(corrective_work_order__approval=WorkOrder.Approval.REJECTED)
-    )
-    if finding.condition_code:
-        earlier = earlier.filter(condition_code=finding.condition_code)
+    qs = WorkOrder.objects.filter(
+        ahu_id=ahu_id, kind=WorkOrder.Kind.CORRECTIVE, state__in=WorkOrder.OPEN_STATES
+    ).exclude(approval=WorkOrder.Approval.REJECTED)
+    if condition:
+        qs = qs.filter(condition_code=condition)
     else:
-        earlier = earlier.filter(condition_code="", evaluation__item_key=item_key)
-    wo_id = earlier.order_by("-opened_at", "-pk").values_list("corrective_work_order_id", flat=True).first()
+        qs = qs.filter(condition_code="", source_findings__problem=problem)
+    if component is not None:
+        qs = qs.filter(Q(component=component) | Q(component__isnull=True))
+    wo_id = qs.order_by("created_at", "pk").values_list("pk", flat=True).first()
     if wo_id is None:
         return None
     return WorkOrder.objects.select_for_update().get(pk=wo_id)
@@ -232,7 +485,8 @@ def findings_reopen_for_rework(*, work_order, by) -> list[Finding]:
 
 
 def findings_close_cleared(*, inspection: Inspection, amendment, results, by) -> list[Finding]:
-    """Close this inspection's open findings whose check the amendment's corrected readings now pass (ok).
+    """Close the open findings last seen on this inspection whose check the amendment's corrected readings
+    now pass (ok). A finding seen again on a later visit stays open: the later failure stands.
 
     Only an ok clears a finding: a watch (near a limit, or a check that cannot judge) leaves it open for the
     supervisor. The corrective work it proposed is left as it is; the supervisor may reject or cancel it.
@@ -243,9 +497,9 @@ def findings_close_cleared(*, inspection: Inspection, amendment, results, by) ->
     found = [
         f
         for f in Finding.objects.select_for_update(of=("self",))  # lock the findings, not their (nullable) parts
-        .filter(inspection=inspection, state=Finding.State.OPEN)
-        .select_related("evaluation", "component")
-        if (f.evaluation.check_name, f.evaluation.item_key, f.evaluation.component_id) in passing
+        .filter(latest_inspection=inspection, state=Finding.State.OPEN)
+        .select_related("latest_evaluation", "component")
+        if (f.latest_evaluation.check_name, f.latest_evaluation.item_key, f.latest_evaluation.component_id) in passing
     ]
     for finding in found:
         finding.cleared_by_amendment = amendment

@@ -445,15 +445,7 @@ def _result_json(
             }
             for e in evals
         ],
-        "findings": [
-            {
-                "id": f.pk,
-                "severity": f.severity,
-                "title": f.title,
-                "corrective_work_order": str(f.corrective_work_order.public_id) if f.corrective_work_order else None,
-            }
-            for f in found
-        ],
+        "findings": [selectors.finding_shape(finding=f, unit_system=unit_system) for f in found],
     }
 
 

@@ -15,8 +15,8 @@ from django.db.models import Prefetch
 from django.http import Http404
 
 from inspections import checklists
-from inspections.models import Amendment, Evaluation, Finding, Inspection, Photo, Reading, Verdict
-from inspections.selectors import reason_for, work_orders_visible_to
+from inspections.models import Amendment, Evaluation, Inspection, Photo, Reading, Verdict
+from inspections.selectors import check_label, findings_seen_on, item_labels, reason_for, work_orders_visible_to
 from reports.rendering import html_render, stored_file_data_uri
 from scheduling.models import WorkOrder, WorkOrderTask
 
@@ -135,13 +135,6 @@ def _inspections(wo: WorkOrder) -> list[Inspection]:
                 ),
             ),
             Prefetch("evaluations", queryset=Evaluation.objects.select_related("component").order_by("pk")),
-            Prefetch(
-                "findings",
-                # evaluation: each finding's reason is rendered from its evaluation's parts.
-                queryset=Finding.objects.select_related("component", "corrective_work_order", "evaluation").order_by(
-                    "opened_at", "pk"
-                ),
-            ),
             Prefetch("photos", queryset=Photo.objects.select_related("component").order_by("uploaded_at", "pk")),
             Prefetch(
                 "amendments", queryset=Amendment.objects.select_related("created_by").order_by("created_at", "pk")
@@ -166,7 +159,14 @@ def visit_records(
     visits = []
     components: dict[int, object] = {}
     template_cautions: list[str] = []
-    for insp in _inspections(work_order):
+    inspections = _inspections(work_order)
+    # Each visit lists the findings its failures observed (a finding gathers every visit that saw it).
+    seen = findings_seen_on(inspections=inspections)
+    labels = item_labels(
+        api_keys={e.item_key for i in inspections for e in i.evaluations.all()}
+        | {ph.item_key for i in inspections for ph in i.photos.all() if ph.item_key}
+    )
+    for insp in inspections:
         groups: dict[str, list] = {}
         for r in insp.readings.all():
             if r.component_id:
@@ -195,14 +195,16 @@ def visit_records(
                     {
                         "e": e,
                         "verdict": VERDICTS.get(e.verdict, e.verdict),
-                        "check": e.check_name.replace("_", " ").capitalize(),
+                        "check": check_label(check=e.check_name, item=e.item_key, labels=labels),
                         "reason": reason_for(evaluation=e, unit_system=system),
                         "derived": derived_rows(e.derived or {}, system),
                     }
                     for e in insp.evaluations.all()
                 ],
-                "findings": _with_reasons(list(insp.findings.all()), system),
-                "photos": [{"p": ph, "src": photo_src(ph)} for ph in insp.photos.all()],
+                "findings": _with_reasons(seen.get(insp.pk, []), system),
+                "photos": [
+                    {"p": ph, "src": photo_src(ph), "label": labels.get(ph.item_key, "")} for ph in insp.photos.all()
+                ],
                 "signature": signature_src(insp),
                 "amendments": [{"a": a, "changes": _changes(a, system)} for a in insp.amendments.all()],
             }

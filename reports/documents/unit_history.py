@@ -1,7 +1,8 @@
 """Unit history: every work order, reading and finding of one AHU over a period, with trend charts.
 
-Charts: filter pressure drop at design airflow per filter bank with its change
-forecast (``engineering.filters.filter_forecast``), and the supply-air
+Charts: filter pressure drop at design airflow per filter bank, one line per set
+of filters (``inspections.selectors.filter_series``), with the change forecast
+(``engineering.filters.filter_forecast``), and the supply-air
 temperature's deviation from its set point with the watch and fail bands of
 ``engineering.controls.supply_temperature_check`` (1 K / 2 K, common practice).
 """
@@ -16,10 +17,10 @@ from django.db.models import Prefetch, Q
 
 from engineering.controls import supply_temperature_check
 from engineering.errors import EngineeringInputError
-from engineering.filters import FilterPoint, corrected_pressure_drop, filter_forecast
+from engineering.filters import filter_forecast
 from engineering.units import to_display, unit_label
 from inspections.models import Evaluation, Finding, Inspection, Reading
-from inspections.selectors import reason_for
+from inspections.selectors import filter_series_for, reason_for
 from inventory.models import AHU, ComponentKind
 from inventory.selectors import ahus_visible_to
 from reports import charts
@@ -91,8 +92,11 @@ def build(*, report) -> Built:
     )
     listed = [i for i in inspections if i.finished_at >= lo]
     findings = list(
-        Finding.objects.filter(ahu=ahu, opened_at__gte=lo, opened_at__lt=hi)
-        .select_related("component", "corrective_work_order", "evaluation")
+        # Seen in the period: first seen in it, or first seen before and seen again in it.
+        Finding.objects.filter(ahu=ahu, opened_at__lt=hi)
+        .filter(Q(opened_at__gte=lo) | Q(last_seen_at__gte=lo))
+        .exclude(close_cause=Finding.CloseCause.MERGED)  # merged into the earlier finding listed beside it
+        .select_related("component", "corrective_work_order", "evaluation", "latest_evaluation")
         .order_by("opened_at", "pk")
     )
     for finding in findings:
@@ -111,7 +115,7 @@ def build(*, report) -> Built:
         for insp in listed
         for r in insp.readings.all()
     ]
-    filter_charts = _filter_charts(ahu=ahu, inspections=inspections, start=start, system=system)
+    filter_charts = _filter_charts(ahu=ahu, lo=lo, hi=hi, system=system)
     supply_chart = _supply_chart(inspections=listed, system=system)
     title = f"Unit history — {ahu.tag}, {ahu.building.site.name}, {p['start']} to {p['end']}"
     html = html_render(
@@ -138,80 +142,76 @@ def build(*, report) -> Built:
     return Built(html=html, title=title)
 
 
-def _run_hours(insp: Inspection) -> float | None:
-    for r in insp.readings.all():
-        if r.item.template.code == "visit" and r.item.key == "run_hours" and r.value_si is not None:
-            return r.value_si
-    return None
+def _filter_charts(*, ahu: AHU, lo: datetime, hi: datetime, system: str) -> list[dict]:
+    """Per filter bank: pressure drop at design airflow in the period, one line per set of filters, and the
+    change forecast of the set fitted at the period's end.
 
-
-def _filter_charts(*, ahu: AHU, inspections: list[Inspection], start: date, system: str) -> list[dict]:
-    """Per filter bank: corrected pressure drop since its last change, and the change forecast."""
+    The numbers are ``inspections.selectors.filter_series``: the same series the manager's chart, the
+    evaluation's forecast and the compliance report read.
+    """
     banks = [c for c in ahu.components.all().order_by("position", "pk") if c.kind == ComponentKind.FILTER_BANK]
+    all_series = filter_series_for(components=banks, before=hi)
     out = []
     p_label = unit_label(quantity="pressure", system=system)
     for bank in banks:
-        points: list[FilterPoint] = []
-        shown_pts: list[tuple[date, float]] = []
-        for insp in inspections:
-            replaced = any(
-                r.component_id == bank.pk and r.item.template.code == "filter_replace" for r in insp.readings.all()
-            )
-            if replaced:
-                points, shown_pts = [], []  # a new filter: the trend starts again
-            ev = next(
-                (e for e in insp.evaluations.all() if e.check_name == "filter_loading" and e.component_id == bank.pk),
-                None,
-            )
-            if ev is None or replaced:
-                continue
-            d = ev.derived or {}
-            dp, q, qd = d.get("dp_pa"), d.get("airflow_m3s"), d.get("design_airflow_m3s")
-            if not all(isinstance(x, int | float) for x in (dp, q, qd)):
-                continue
-            try:
-                corrected = corrected_pressure_drop(dp_pa=dp, airflow_m3s=q, design_airflow_m3s=qd)
-            except EngineeringInputError:
-                continue
-            when = insp.finished_at.date()
-            shown_pts.append((when, corrected))
-            hours = _run_hours(insp)
-            if hours is not None:
-                points.append(FilterPoint(run_hours=hours, dp_pa=dp, airflow_m3s=q, when=when))
+        series = all_series[bank.pk]
+        points = series.current.forecast_points()
         final = bank.specs.get("final_dp_pa")
         forecast, note = None, ""
         if final and points:
             try:
                 forecast = filter_forecast(
-                    points=points,
-                    design_airflow_m3s=bank.specs.get("design_airflow_m3s") or ahu.design_supply_airflow_m3s,
-                    final_dp_pa=final,
+                    points=points, design_airflow_m3s=series.design_airflow_m3s, final_dp_pa=final
                 )
             except EngineeringInputError as exc:
                 note = f"No change forecast: {exc}"
         elif not points:
             note = "No change forecast: no readings with run-hours since the last filter change."
-        if not shown_pts:
+        lines = []
+        for life in series.lives:
+            shown_pts = [(p.at.date(), p.corrected_dp_pa) for p in life.points if p.at >= lo]
+            if shown_pts:
+                name = f"Filters fitted {life.changed_at:%Y-%m-%d}" if life.changed_at else "Earlier filters"
+                lines.append((name, shown_pts))
+        if not lines:
             out.append({"bank": bank, "svg": None, "note": "No filter readings in the period.", "forecast": None})
             continue
-        xs = [d for d, _ in shown_pts]
-        ys = [to_display(value=v, quantity="pressure", system=system) for _, v in shown_pts]
-        series = [("At design airflow", xs, ys, "line")]
-        markers = []
-        if forecast is not None and forecast.date_at_final is not None:
+        if len(lines) == 1 and not any(life.changed_at and life.changed_at >= lo for life in series.lives):
+            lines = [("At design airflow", lines[0][1])]
+        series_out = [
+            (
+                name,
+                [d for d, _ in pts],
+                [to_display(value=v, quantity="pressure", system=system) for _, v in pts],
+                "line",
+            )
+            for name, pts in lines
+        ]
+        markers = [
+            (life.changed_at.date(), "filters changed")
+            for life in series.lives
+            if life.changed_at is not None and lo <= life.changed_at < hi
+        ]
+        last_day, last_value = series_out[-1][1][-1], series_out[-1][2][-1]
+        if forecast is not None and forecast.date_at_final is not None and not forecast.at_final_now:
             fdate = forecast.date_at_final
             fdate = fdate.date() if isinstance(fdate, datetime) else fdate
-            series.append(
+            series_out.append(
                 (
                     "Forecast",
-                    [xs[-1], fdate],
-                    [ys[-1], to_display(value=final, quantity="pressure", system=system)],
+                    [last_day, fdate],
+                    [last_value, to_display(value=final, quantity="pressure", system=system)],
                     "dashed",
                 )
             )
             markers.append((fdate, f"change {fdate.isoformat()}"))
         hlines = [(to_display(value=final, quantity="pressure", system=system), "final")] if final else []
-        svg = charts.time_series(series=series, y_label=f"Pressure drop ({p_label})", hlines=hlines, markers=markers)
+        svg = charts.time_series(
+            series=series_out,
+            y_label=f"Pressure drop at design airflow ({p_label})",
+            hlines=hlines,
+            markers=markers,
+        )
         out.append(
             {
                 "bank": bank,
@@ -219,6 +219,8 @@ def _filter_charts(*, ahu: AHU, inspections: list[Inspection], start: date, syst
                 "note": note,
                 "forecast": forecast,
                 "final": shown(final, "pressure", system),
+                # The plotted numbers (SI), one (name, [(day, Pa at design airflow)]) per set of filters.
+                "lines": lines,
             }
         )
     return out

@@ -391,17 +391,36 @@ def corrective_work_order_approve(*, work_order: WorkOrder, by, expected_version
     return wo
 
 
+REJECT_REASON_MAX = 300  # WorkOrder.cancel_reason holds it
+
+
+def rejection_reason_check(*, reason: object) -> str:
+    """The reason a supervisor gives for rejecting corrective work, trimmed; refused when blank or too long."""
+    text = reason.strip() if isinstance(reason, str) else ""
+    if not text:
+        raise ValidationError(
+            {"reason": ["a reason is needed to reject corrective work: say why the work is not needed"]}
+        )
+    if len(text) > REJECT_REASON_MAX:
+        raise ValidationError(
+            {"reason": [f"the reason is {len(text)} characters long; at most {REJECT_REASON_MAX} are allowed"]}
+        )
+    return text
+
+
 @transaction.atomic
 def corrective_work_order_reject(
     *, work_order: WorkOrder, by, reason: str, expected_version: int | None = None
 ) -> WorkOrder:
+    """Reject proposed corrective work with a reason (kept on the work order and in the audit trail)."""
+    text = rejection_reason_check(reason=reason)
     wo = _locked(work_order, expected_version)
     if wo.approval != WorkOrder.Approval.PENDING:
         raise ValidationError({"approval": [f"approval={wo.approval!r}: only pending corrective work can be rejected"]})
     wo.approval = WorkOrder.Approval.REJECTED
     wo.state = State.CANCELLED
-    wo.cancel_reason = reason[:300]
-    _save(wo, ["approval", "state", "cancel_reason"], by=by, action="corrective_reject", changes={"reason": reason})
+    wo.cancel_reason = text
+    _save(wo, ["approval", "state", "cancel_reason"], by=by, action="corrective_reject", changes={"reason": text})
     _copy_back(work_order, wo)
     return wo
 

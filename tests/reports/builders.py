@@ -14,6 +14,7 @@ from django.core.files.base import ContentFile
 from PIL import Image
 
 from inspections.models import Amendment, Evaluation, Finding, Inspection, Photo, Reading
+from inspections.services.findings import problem_of
 from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
 from scheduling.services.library import task_library_install
 
@@ -160,12 +161,16 @@ def finding(
         evaluation=ev,
         ahu=insp.ahu,
         component=ev.component,
+        problem=problem_of(check=ev.check_name, item=ev.item_key),
         severity=severity,
         title=title,
         reason=ev.reason,
         condition_code=ev.condition_code,
         state=Finding.State.CLOSED if closed else Finding.State.OPEN,
         opened_at=at(opened),
+        last_seen_at=at(opened),
+        latest_evaluation=ev,
+        latest_inspection=insp,
         closed_at=at(closed) if closed else None,
         corrective_work_order=corrective,
     )

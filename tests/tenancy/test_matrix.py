@@ -51,6 +51,7 @@ FILL: dict[str, Fill] = {
     "scheduling_api:work-order-transition": {"public_id": lambda c: c.open_work_order.public_id},
     "scheduling_api:work-order-schedule": {"public_id": lambda c: c.open_work_order.public_id},
     "scheduling_api:work-order-approve": {"public_id": lambda c: c.open_work_order.public_id},
+    "scheduling_api:work-order-reject": {"public_id": lambda c: c.open_work_order.public_id},
     "scheduling_api:task": {"code": lambda c: "filter_check"},
     "inspections_api:checklist": {"public_id": lambda c: c.open_work_order.public_id},
     "inspections_api:photo": {"client_uuid": lambda c: c.photo.client_uuid},
