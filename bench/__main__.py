@@ -83,6 +83,7 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--sizes", help="comma-separated unit counts, e.g. 50,200 (overrides --large)")
     parser.add_argument("--runs", type=int, default=3, help="runs per figure; the median is reported")
     parser.add_argument("--sync-forms", type=int, default=1000)
+    parser.add_argument("--import-rows", type=int, default=100_000, help="rows of the registry import file")
     parser.add_argument("--years", type=int, default=2)
     parser.add_argument("--clients", type=int, default=20, help="concurrent clients of the load scenario")
     parser.add_argument("--per-client", type=int, default=25, help="requests each client sends (bounded)")
@@ -124,6 +125,8 @@ def main(argv: list[str] | None = None) -> int:
                     str(args.runs),
                     "--sync-forms",
                     str(args.sync_forms),
+                    "--import-rows",
+                    str(args.import_rows),
                     "--clients",
                     str(args.clients),
                     "--per-client",

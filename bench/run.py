@@ -42,6 +42,7 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--years", type=int, default=2)
     parser.add_argument("--runs", type=int, default=3)
     parser.add_argument("--sync-forms", type=int, default=1000)
+    parser.add_argument("--import-rows", type=int, default=100_000)
     parser.add_argument("--clients", type=int, default=20)
     parser.add_argument("--per-client", type=int, default=25)
     parser.add_argument("--max-seconds", type=float, default=20.0)
@@ -124,6 +125,11 @@ def main(argv: list[str] | None = None) -> int:
         lambda: scenarios.reports_render(portfolio=portfolio, runs=args.runs, work_order_public_id=wo_public_id),
     )
     _guard(results, "pwa_shell", lambda: scenarios.pwa_shell(portfolio=portfolio))
+    _guard(
+        results,
+        "registry_import",
+        lambda: scenarios.registry_import(portfolio=portfolio, runs=args.runs, rows=args.import_rows),
+    )
     out_path.write_text(json.dumps(results, indent=1, default=str))
     return 0
 

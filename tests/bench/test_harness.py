@@ -24,6 +24,8 @@ def test_a_tiny_run_writes_both_results_files(tmp_path):
         "1",
         "--sync-forms",
         "10",
+        "--import-rows",
+        "250",
         "--clients",
         "2",
         "--per-client",
@@ -38,15 +40,16 @@ def test_a_tiny_run_writes_both_results_files(tmp_path):
     doc = json.loads((tmp_path / "results.json").read_text())
     assert doc["database"] == "sqlite"
     (size,) = doc["sizes"]
-    for name in ("work_order_generation", "load", "sync", "reports", "pwa_shell"):
+    for name in ("work_order_generation", "load", "sync", "reports", "pwa_shell", "registry_import"):
         assert name in size and "error" not in size[name], (name, size.get(name))
     assert size["sync"]["stored_replay"] == 0
     assert size["sync"]["stored_first"] == 10
+    assert (size["registry_import"]["rows"], size["registry_import"]["created"]) == (250, 250)
     for name in ("today", "today_after_change", "board", "board_after_change", "baseline"):
         assert size["load"][name]["requests"] > 0 and not size["load"][name]["errors"], name
     md = (tmp_path / "results.md").read_text()
     assert md == results_markdown(doc)
-    assert "## Work-order generation" in md and "## PWA app shell" in md
+    assert "## Work-order generation" in md and "## PWA app shell" in md and "## Registry CSV import" in md
     assert "| today, kept |" in md and "| board, first pass after a change |" in md
 
 
