@@ -1,6 +1,6 @@
 from django.contrib import admin
 
-from .models import AHU, Building, Component, Site
+from .models import AHU, Building, Component, ImportJob, Site
 
 
 class BuildingInline(admin.TabularInline):
@@ -45,3 +45,18 @@ class ComponentAdmin(admin.ModelAdmin):
     list_filter = ["kind"]
     search_fields = ["name", "label_code", "ahu__tag"]
     readonly_fields = ["label_code"]
+
+
+@admin.register(ImportJob)
+class ImportJobAdmin(admin.ModelAdmin):
+    """Background CSV imports, to look at: they are started and run through the API and Celery only."""
+
+    list_display = ["public_id", "organisation", "kind", "status", "rows_done", "rows_total", "created_at"]
+    list_filter = ["status", "kind", "organisation"]
+    exclude = ["source"]  # the uploaded file can be large; it is emptied when the job finishes
+
+    def has_add_permission(self, request) -> bool:
+        return False
+
+    def has_change_permission(self, request, obj=None) -> bool:
+        return False
