@@ -213,15 +213,16 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
             t_out = _outdoor_c(site, due, rng)
             t_ret = round(22 + rng.uniform(-1, 1), 1)
             x = max(ahu.design_min_oa_fraction, 0.1) + rng.uniform(0.02, 0.08)
-            readings += [
-                {"item": "ventilation_check.outdoor_air", "component": None, "value": t_out},
-                {"item": "ventilation_check.return_air", "component": None, "value": t_ret},
-                {
-                    "item": "ventilation_check.mixed_air",
-                    "component": None,
-                    "value": round(t_ret - x * (t_ret - t_out) + rng.uniform(-0.2, 0.2), 1),
-                },
-            ]
+            readings.append({"item": "ventilation_check.outdoor_air", "component": None, "value": t_out})
+            if not ahu.full_outdoor_air:  # a 100 % outdoor-air unit has no return or mixed air to read
+                readings += [
+                    {"item": "ventilation_check.return_air", "component": None, "value": t_ret},
+                    {
+                        "item": "ventilation_check.mixed_air",
+                        "component": None,
+                        "value": round(t_ret - x * (t_ret - t_out) + rng.uniform(-0.2, 0.2), 1),
+                    },
+                ]
             faulty = unit_no == 0 and m <= max(months // 3, 1)
             if "controls_check" in codes:
                 sp = ahu.supply_air_setpoint_c or 17.0
