@@ -25,6 +25,8 @@ SHELL_STATIC = (
     "frontend/js/sync.js",
     "frontend/js/checklist.js",
     "frontend/js/limits.js",
+    "frontend/js/evaluate.js",
+    "frontend/js/units.js",
     "frontend/js/calculator.js",
     "frontend/js/signature.js",
     "frontend/icons/icon-192.png",

@@ -1,23 +1,112 @@
-// The checklist page: instant limit checks, photos, signature, and the finished form into the outbox.
-import { judge } from "./limits.js";
+// The checklist page: every reading judged on the phone the moment it is entered (evaluate.js, the
+// twin of the server's evaluation), photos, signature, and the finished form into the outbox.
+import { evaluate, readingKey, reasonIn } from "./evaluate.js";
+import { plausibility } from "./limits.js";
 import { newUuid, outboxAll, outboxPut, resultAll } from "./outbox.js";
 import { attachSignature } from "./signature.js";
 import { announce, syncOutbox } from "./sync.js";
+import { fromDisplay } from "./units.js";
 
 const PHOTO_MAX_SIDE = 1600;
 
-function showVerdict(input) {
-  const out = document.getElementById(`${input.id}-verdict`);
-  if (!out) return;
-  const raw = input.value.trim();
-  const value = raw === "" ? null : Number(raw.replace(",", "."));
-  const { verdict, text } = judge(value, JSON.parse(input.dataset.limits || "null"), input.dataset.unit || "");
-  out.innerHTML = "";
-  if (value === null) return;
-  const badge = document.createElement("span");
-  badge.className = `verdict ${verdict}`;
-  badge.textContent = verdict === "none" ? "no limit" : verdict;
-  out.append(badge, ` ${text} (phone check)`);
+function evaluationContext() {
+  const node = document.getElementById("evaluation-context");
+  try { return node ? JSON.parse(node.textContent) : null; } catch (error) { return null; }
+}
+
+function typedNumber(block) {
+  const input = block.querySelector("input[type=number]");
+  const raw = input ? input.value.trim() : "";
+  if (raw === "") return null;
+  const value = Number(raw.replace(",", "."));
+  return Number.isNaN(value) ? null : value;
+}
+
+function answer(block) {
+  const na = block.querySelector("input[name^='na:']");
+  if (na && na.checked) return "na";
+  if (block.dataset.kind === "number") return typedNumber(block);
+  const checked = block.querySelector("input[type=radio]:checked");
+  return checked ? checked.value : null;
+}
+
+function verdictBox(block) {
+  const input = block.querySelector("input[type=number]");
+  if (input) return document.getElementById(`${input.id}-verdict`);
+  let out = block.querySelector("output[data-verdict]");
+  if (!out) {
+    out = document.createElement("output");
+    out.className = "hint";
+    out.dataset.verdict = "";
+    out.setAttribute("aria-live", "polite");
+    (block.querySelector(".choices-set") || block).after(out);
+  }
+  return out;
+}
+
+/** The readings as the server would store them (SI), and per block what the phone knows of each. */
+function readingsOf(form, ctx) {
+  const system = form.dataset.unitSystem || "si";
+  const slots = new Map((ctx ? ctx.slots : []).map((s) => [readingKey(s.item, s.component), s]));
+  const readings = {};
+  const blocks = [];
+  for (const block of form.querySelectorAll("[data-item]")) {
+    const kind = block.dataset.kind;
+    if (kind === "photo" || kind === "text") continue;
+    const key = readingKey(block.dataset.item, block.dataset.component);
+    const value = answer(block);
+    let range = { impossible: false, improbable: false, text: "" };
+    if (typeof value === "number") {
+      const input = block.querySelector("input[type=number]");
+      range = plausibility(value, JSON.parse(input.dataset.limits || "null"), input.dataset.unit || "");
+      const slot = slots.get(key);
+      // Entered in the person's units; judged in SI, converted exactly as the server converts.
+      if (!range.impossible) readings[key] = slot ? fromDisplay(ctx.units, value, slot.quantity, system) : value;
+    } else if (value !== null) readings[key] = value;
+    blocks.push({ block, key, value, range });
+  }
+  return { readings, blocks, system };
+}
+
+function badge(verdict, label) {
+  const span = document.createElement("span");
+  span.className = `verdict ${verdict}`;
+  span.textContent = label || verdict;
+  return span;
+}
+
+function showVerdicts(form, ctx) {
+  const { readings, blocks, system } = readingsOf(form, ctx);
+  let results = [];
+  try {
+    results = ctx ? evaluate(ctx, readings) : [];
+  } catch (error) {
+    results = [];
+  }
+  const byKey = new Map();
+  for (const r of results) {
+    const key = readingKey(r.item, r.component);
+    byKey.set(key, [...(byKey.get(key) || []), r]);
+  }
+  for (const { block, key, value, range } of blocks) {
+    const out = verdictBox(block);
+    if (!out) continue;
+    out.replaceChildren();
+    if (value === null || value === "na") continue;
+    if (range.impossible) {
+      out.append(badge("fail", "impossible"), ` ${range.text}`);
+      continue;
+    }
+    const mine = byKey.get(key) || [];
+    for (const r of mine) {
+      if (out.childNodes.length) out.append(document.createElement("br"));
+      out.append(badge(r.verdict), ` ${reasonIn(ctx, r, system)} (phone check)`);
+      if (r.verdict === "fail") out.append(" — say what you found in the note");
+    }
+    if (!mine.length) out.append(badge("recorded", "recorded"), " recorded; nothing judges this reading on its own");
+    if (range.improbable) out.append(`; ${range.text}`);
+    out.dataset.phoneVerdict = mine.length ? mine.map((r) => r.verdict).join(" ") : "recorded";
+  }
 }
 
 async function photoDataUrl(file) {
@@ -158,10 +247,11 @@ export function startChecklist() {
   const form = document.querySelector("form[data-checklist]");
   form.dataset.clientUuid = newUuid();
   const error = form.querySelector("[data-form-error]");
-  for (const input of form.querySelectorAll("input[type=number][data-limits]")) {
-    input.addEventListener("input", () => showVerdict(input));
-    showVerdict(input);
-  }
+  const ctx = evaluationContext();
+  const judgeAll = () => showVerdicts(form, ctx);
+  form.addEventListener("input", judgeAll);
+  form.addEventListener("change", judgeAll);
+  judgeAll();
   const block = form.querySelector("[data-signature-block]");
   block.hidden = false;
   const pad = attachSignature(form.querySelector("canvas.signature"));

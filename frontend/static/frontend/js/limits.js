@@ -1,6 +1,6 @@
-// Pure limit checks the phone can do offline: the value against the item's bands, in the user's units.
-// The final verdict (anything needing other readings or the unit's data) comes from the server.
-
+// Range checks of one typed number the phone does before any judgement: a value outside the item's
+// physical range is impossible (the server refuses it), one outside its plausible range is unusual.
+// Verdicts themselves come from evaluate.js, the twin of the server's evaluation.
 function present(band) {
   return Boolean(band) && (band.min !== null && band.min !== undefined || band.max !== null && band.max !== undefined);
 }
@@ -20,21 +20,14 @@ export function describe(band, unit) {
   return `at most ${band.max}${u}`;
 }
 
-/** Verdict of one number: "ok" | "watch" | "fail" | "none" (no simple band), plus impossible/improbable. */
-export function judge(value, limits, unit = "") {
-  if (value === null || value === undefined || Number.isNaN(value)) return { verdict: "none", text: "" };
-  if (!limits) return { verdict: "none", text: "judged on the server" };
+/** Impossible / unusual value of one number, in the person's units; text "" when neither. */
+export function plausibility(value, limits, unit = "") {
+  if (value === null || value === undefined || Number.isNaN(value) || !limits) return { impossible: false, improbable: false, text: "" };
   if (!within(limits.physical, value)) {
-    return { verdict: "fail", impossible: true, text: `impossible value; allowed ${describe(limits.physical, unit)}` };
+    return { impossible: true, improbable: false, text: `impossible value; allowed ${describe(limits.physical, unit)}` };
   }
-  let verdict = "none";
-  let text = "no simple limit; judged on the server";
-  if (present(limits.ok)) {
-    if (within(limits.ok, value)) { verdict = "ok"; text = `ok: ${describe(limits.ok, unit)}`; }
-    else if (present(limits.watch) && within(limits.watch, value)) { verdict = "watch"; text = `watch: outside ${describe(limits.ok, unit)}`; }
-    else { verdict = "fail"; text = `fail: outside ${describe(present(limits.watch) ? limits.watch : limits.ok, unit)}`; }
+  if (!within(limits.plausible, value)) {
+    return { impossible: false, improbable: true, text: `unusual value (expected ${describe(limits.plausible, unit)}), please re-check` };
   }
-  const improbable = !within(limits.plausible, value);
-  if (improbable) text += `; unusual value (expected ${describe(limits.plausible, unit)}), please re-check`;
-  return { verdict, improbable, text };
+  return { impossible: false, improbable: false, text: "" };
 }

@@ -1,0 +1,78 @@
+"""The phone judges a reading offline exactly as the server will, in the person's units."""
+
+import re
+
+import pytest
+from playwright.sync_api import expect
+
+from inspections.models import Evaluation, Inspection, Reading
+
+from .conftest import PHONE
+from .test_pwa import draw_signature, wait_app
+
+pytestmark = [pytest.mark.browser, pytest.mark.django_db(transaction=True)]
+
+CFM = 0.0004719474432  # m³/s per ft³/min (1 ft = 0.3048 m, exact)
+
+
+def test_reduced_airflow_filter_reading_fails_on_the_phone_offline_and_on_the_server(page, context, live_server):
+    """0.75 in. w.c. read at 1,200 cfm on a unit designed for 1,695 cfm: "fail" on the phone offline, and after sync.
+
+    186.8 Pa × (1695/1200)^1.5 = 313.6 Pa at design airflow (filter correction exponent 1.5, common
+    practice): (313.6 − 80)/(250 − 80) = 137 % of the clean-to-final span, past the 95 % fail line. The
+    raw 0.75 in. w.c. alone sits below the final 1.00 in. w.c. and used to read "ok" on the phone.
+    """
+    from tests.frontend import scenario as scenario_module
+
+    world = scenario_module.build(unit_system="us")
+    unit = world.unit_a
+    unit.design_supply_airflow_m3s = 1695 * CFM
+    unit.save(update_fields=["design_supply_airflow_m3s"])
+    bank = unit.components.get(name="Final filters")
+    bank.specs = {k: v for k, v in bank.specs.items() if k != "design_airflow_m3s"} | {
+        "clean_dp_pa": 80.0,
+        "final_dp_pa": 250.0,
+    }
+    bank.save(update_fields=["specs"])
+
+    page.set_viewport_size(PHONE)
+    page.goto(f"{live_server.url}/login/")
+    page.get_by_label("Username").fill("tess")
+    page.get_by_label("Password").fill(scenario_module.PASSWORD)
+    page.get_by_role("button", name="Sign in").click()
+    expect(page).to_have_url(re.compile(r"/today/$"))
+    page.wait_for_function("Number(document.documentElement.dataset.offlineSaved) >= 3", timeout=20000)
+    page.get_by_role("link", name=re.compile("AHU-01")).first.click()
+    wait_app(page)
+
+    context.set_offline(True)
+    dp_id = f"r-filter_check-dp-{bank.label_code}"
+    page.locator("#r-visit-supply_airflow-unit").fill("1200")
+    page.locator(f"#{dp_id}").fill("0.75")
+    verdict = page.locator(f"#{dp_id}-verdict")
+    expect(verdict.locator(".verdict")).to_have_text("fail")
+    expect(verdict).to_contain_text("137 % of its span")
+    expect(verdict).to_contain_text("in. w.c.")
+    expect(verdict).not_to_contain_text("no limit")
+    # The airflow itself is only recorded: no badge that reads like a pass.
+    expect(page.locator("#r-visit-supply_airflow-unit-verdict")).to_contain_text("recorded")
+
+    block = page.locator(f"[data-item='filter_check.dp'][data-component='{bank.label_code}']")
+    block.locator("summary").click()
+    block.locator("input[name^='n:']").fill("Bank loaded at reduced airflow; change booked")
+    draw_signature(page)
+    page.get_by_role("button", name="Finish and sign").click()
+    expect(page.locator("[data-outbox-count]")).to_have_text("1")
+    assert not Inspection.objects.filter(work_order=world.work_a).exists()
+
+    context.set_offline(False)
+    page.evaluate("window.dispatchEvent(new Event('online'))")
+    expect(page.locator("[data-outbox-count]")).to_have_text("0", timeout=20000)
+
+    inspection = Inspection.objects.get(work_order=world.work_a)
+    server = Evaluation.objects.get(inspection=inspection, check_name="filter_loading", component=bank)
+    assert server.verdict == "fail"
+    assert server.derived["loading_pct"] == pytest.approx(137.4, abs=0.1)
+    reading = Reading.objects.get(inspection=inspection, item__key="dp", component=bank)
+    assert reading.verdict == "fail"
+    assert not any("note" in f.get("reason", "") for f in inspection.flags)
