@@ -121,6 +121,27 @@ def photo(key: str = "photo", label: str = "Photo", **kw) -> dict:
 
 CP = "common practice, no published source"
 
+# Electric duct heaters (preheaters): NFPA 70 (NEC) Article 424 Part VI — 424.63 the fan circuit is
+# energised whenever a heater circuit is (airflow interlock), 424.64 an integral automatic-reset
+# temperature limit plus an independent supplementary limit that is manually reset or replaced.
+# Checked against published summaries of Art. 424 Part VI; UL 1996 (duct heaters) from memory.
+DUCT_HEATER_SOURCE = (
+    "NFPA 70 (NEC) 424.63 fan interlock, 424.64 automatic-reset limit plus manual-reset supplementary "
+    "limit; UL 1996 from memory"
+)
+# Frost thermostat: commonly set near 3.3 °C (38 °F), common practice. ASHRAE Guideline 36-2021
+# 5.16.12 stages its freeze protection at supply air below 4.4 °C, 3.3 °C and, for the last stage
+# (fans off, outdoor air closed), 3.3 °C for 15 min or 1 °C for 5 min (as summarised in PNNL's
+# ConStrain rule library). A trip below 2 °C leaves too little margin over 1 °C and fails; 2.0–2.5 °C
+# is watch; ok 2.5–5.5 °C covers the 38 °F habit and the 5 °C (41 °F) European one; above 5.5 °C it
+# trips on mild days (watch up to 7 °C, then fail: the fan stops when it need not).
+FREEZE_TRIP_OK = (2.5, 5.5)
+FREEZE_TRIP_WATCH = (2.0, 7.0)
+FREEZE_TRIP_SOURCE = (
+    "ok 2.5–5.5 °C, watch 2–7 °C, fail below 2 °C: usual setting about 3.3 °C (38 °F), common practice; "
+    "ASHRAE Guideline 36-2021 5.16.12 last freeze stage below 1 °C"
+)
+
 # ``unit_where``: the unit fields an item needs (value or list of values), so an item whose
 # input the unit cannot have is never asked. A 100 % outdoor-air unit has no return or mixed air.
 RECIRCULATING = {"full_outdoor_air": False}
@@ -495,7 +516,9 @@ TEMPLATES: list[dict[str, Any]] = [
     },
     {
         "code": "preheater_freeze",
-        "version": 1,
+        # 2: airflow interlock and automatic-reset primary limit added (electric duct heaters); the frost
+        # thermostat fails below 2 °C instead of only asking to watch it.
+        "version": 2,
         "title": "Preheater and freeze protection",
         "cautions": [LOCKOUT, ELECTRIC, HOT_COILS, LOCAL_CODES],
         "items": [
@@ -516,20 +539,38 @@ TEMPLATES: list[dict[str, Any]] = [
                 note=True,
             ),
             check(
+                "airflow_interlock",
+                "Fan stopped or airflow switch open: every stage switches off, none can be energised without airflow",
+                per="electric_preheater",
+                required=True,
+                note=True,
+                source=DUCT_HEATER_SOURCE,
+                help="Stop the fan (or open the airflow switch) with the heater called on: every stage must drop out.",
+            ),
+            check(
+                "primary_limit",
+                "Automatic-reset primary limit opens on overheat and closes again once cooled",
+                per="electric_preheater",
+                required=True,
+                note=True,
+                source=DUCT_HEATER_SOURCE,
+            ),
+            check(
                 "high_limit",
                 "High-limit cut-out trips and needs a manual reset",
                 per="electric_preheater",
                 required=True,
                 note=True,
+                source=DUCT_HEATER_SOURCE,
             ),
             air_temp(
                 "freeze_trip_temp",
                 "Freeze-protection trip temperature (air leaving the first coil)",
-                ok=(2.0, 6.0),
-                watch=(1.0, 7.0),
+                ok=FREEZE_TRIP_OK,
+                watch=FREEZE_TRIP_WATCH,
                 required=True,
                 note=True,
-                source="frost thermostats are commonly set near 5 °C (41 °F) or 3 °C (38 °F); " + CP,
+                source=FREEZE_TRIP_SOURCE,
             ),
             check(
                 "freeze_trip_test",

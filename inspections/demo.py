@@ -259,6 +259,8 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                             "value": round(switch_on + rng.uniform(-0.5, 0.5), 1),
                         },
                         {"item": "preheater_freeze.stages", "component": heater.label_code, "value": "ok"},
+                        {"item": "preheater_freeze.airflow_interlock", "component": heater.label_code, "value": "ok"},
+                        {"item": "preheater_freeze.primary_limit", "component": heater.label_code, "value": "ok"},
                         {"item": "preheater_freeze.high_limit", "component": heater.label_code, "value": "ok"},
                     ]
                 readings += [

@@ -69,6 +69,11 @@ ITEM_CONDITIONS = {
     # A preheater that does not switch on in time, or misses a stage, lets the first coil freeze.
     "preheater_freeze.stage_on_temp": "freeze_protection_failed",
     "preheater_freeze.stages": "freeze_protection_failed",
+    # A heater live without airflow, or without its automatic or manual-reset limit, is not safe to
+    # leave on for the season (NFPA 70 424.63, 424.64): it fails the freeze-protection test too.
+    "preheater_freeze.airflow_interlock": "freeze_protection_failed",
+    "preheater_freeze.primary_limit": "freeze_protection_failed",
+    "preheater_freeze.high_limit": "freeze_protection_failed",
     "damper_actuator.stroke_time": "damper_position",
     "damper_actuator.linkage": "damper_position",
 }

@@ -155,3 +155,16 @@ class FlaggedFormSerializer(serializers.Serializer):
     technician = serializers.CharField()
     received_at = serializers.DateTimeField()
     flags = serializers.ListField(child=serializers.DictField())
+
+
+class FreezeReadinessUnitSerializer(serializers.Serializer):
+    unit = serializers.DictField(help_text="{id, tag, label_code}")
+    site = serializers.DictField(help_text="{id, code, name}")
+    status = serializers.ChoiceField(choices=["ready", "done_late", "due", "not_ready", "season_unknown"])
+    label = serializers.CharField()
+    ready = serializers.BooleanField()
+    reason = serializers.CharField(help_text="Why, in plain words (a failed step, an open fault, never tested…).")
+    tested_on = serializers.DateField(allow_null=True, help_text="The test that decided it, site-local date.")
+    not_passed = serializers.ListField(child=serializers.CharField(), help_text="Steps of that test not passed.")
+    season_start = serializers.DateField(allow_null=True)
+    window_opens = serializers.DateField(allow_null=True)

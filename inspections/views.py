@@ -4,13 +4,14 @@ from django.conf import settings
 from django.core.exceptions import ValidationError
 from django.http import FileResponse, Http404
 from django.shortcuts import get_object_or_404
-from drf_spectacular.utils import OpenApiResponse, extend_schema
+from django.utils import timezone
+from drf_spectacular.utils import OpenApiParameter, OpenApiResponse, extend_schema
 from rest_framework import status
 from rest_framework.parsers import FormParser, MultiPartParser
 from rest_framework.response import Response
 from rest_framework.views import APIView
 
-from . import selectors, services
+from . import freeze, selectors, services
 from . import serializers as s
 from .models import Inspection
 
@@ -204,3 +205,23 @@ class VerifyView(APIView):
     def post(self, request, pk):
         services.inspection_verify(inspection=_inspection(request, pk), by=request.user)
         return Response(s.InspectionOutputSerializer(_inspection(request, pk), context=_reader(request)).data)
+
+
+class FreezeReadinessView(APIView):
+    @extend_schema(
+        parameters=[OpenApiParameter("site", int, description="Only this site (its id); default every site you see.")],
+        responses={200: s.FreezeReadinessUnitSerializer(many=True), 400: BAD},
+        tags=["inspections"],
+        description="Freeze-protection readiness of every unit with preheat, from what its tests found "
+        "(inspections/freeze.py), as the pages and the compliance report show it.",
+    )
+    def get(self, request):
+        site_ids = None
+        raw = request.query_params.get("site")
+        if raw is not None:
+            try:
+                site_ids = [int(raw)]
+            except ValueError:
+                raise ValidationError({"site": [f"site={raw!r} is not a site id (a whole number)"]}) from None
+        rows = freeze.freeze_readiness_for(user=request.user, site_ids=site_ids, as_of=timezone.now())
+        return Response([freeze.readiness_json(r) for r in rows])

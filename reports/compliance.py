@@ -44,25 +44,13 @@ Filter status of every unit
     inspection's evaluation stored them (the physics is in engineering.filters).
 
 Freeze-protection readiness before the coming season
-    For each unit with an electric preheater or a preheat coil. The coming
-    season starts on the site's ``freeze_season_start`` (computed by the
-    scheduler). While a season is running — today is after the same day a year
-    before that start and on or before that season's last cold day by the
-    normals — readiness is judged for the running season instead,
-    so in midwinter the figure says whether this winter's protection was
-    proven before the cold came. The season before ended on its last cold day
-    (daily minimum from the site's monthly normals,
-    ``engineering.freeze.daily_minimums_from_normals``, at or below the preheat
-    threshold), found by walking back from the start past the days the normals
-    already call cold and then past the warm season; without one the window
-    opens 365 days before the start. A unit is
-
-    - **ready**: ``preheater_freeze`` completed after the last season's end and
-      on or before the season start;
-    - **done late**: completed after the last season's end but after the start;
-    - **due**: not done in that window, season start not reached yet;
-    - **not ready**: not done in that window and the season has started;
-    - **season unknown**: the site has no computed season start.
+    For each unit with an electric preheater or a preheat coil, from what its
+    latest freeze-protection test found and the freeze findings still open:
+    ``inspections.freeze.freeze_readiness`` decides it (rules there), these
+    figures only count it. A unit is **ready** (proven, every step passed, on or
+    before the season start), **done late**, **due**, **not ready** (a failed test,
+    an open critical or high freeze finding, or untested once the season began)
+    or **season unknown**, each with its reason in plain words.
 """
 
 from __future__ import annotations
@@ -76,7 +64,8 @@ from datetime import date, datetime, timedelta
 
 from django.db.models import Min, OuterRef, Q, Subquery
 
-from engineering.freeze import daily_minimums_from_normals
+from inspections import freeze as freeze_rules
+from inspections.freeze import last_season_end  # noqa: F401  (re-exported: the window rule lives there)
 from inspections.models import Evaluation, Finding
 from inventory.models import AHU, Component, ComponentKind, Site
 from scheduling.models import TaskCategory, WorkOrder, WorkOrderTask
@@ -85,21 +74,14 @@ ON_TIME, LATE, MISSED, NOT_YET_DUE, CANCELLED = "on_time", "late", "missed", "no
 OUTCOMES = (ON_TIME, LATE, MISSED, NOT_YET_DUE, CANCELLED)
 AGE_BUCKETS = ((0, 30, "0–30 days"), (31, 90, "31–90 days"), (91, 180, "91–180 days"), (181, None, "over 180 days"))
 SEVERITIES = tuple(reversed(Finding.Severity.values))  # critical first
-FREEZE_TASK = "preheater_freeze"
 FREEZE_READY, FREEZE_LATE, FREEZE_DUE, FREEZE_NOT_READY, FREEZE_UNKNOWN = (
-    "ready",
-    "done_late",
-    "due",
-    "not_ready",
-    "season_unknown",
+    freeze_rules.READY,
+    freeze_rules.DONE_LATE,
+    freeze_rules.DUE,
+    freeze_rules.NOT_READY,
+    freeze_rules.UNKNOWN,
 )
-FREEZE_LABELS = {
-    FREEZE_READY: "Ready",
-    FREEZE_LATE: "Done late",
-    FREEZE_DUE: "Due",
-    FREEZE_NOT_READY: "Not ready",
-    FREEZE_UNKNOWN: "Season unknown",
-}
+FREEZE_LABELS = freeze_rules.LABELS
 
 
 @dataclass(frozen=True)
@@ -178,40 +160,6 @@ def age_bucket(days: int) -> str:
         if days >= low and (high is None or days <= high):
             return label
     return AGE_BUCKETS[0][2]
-
-
-def last_season_end(*, site: Site, season_start: date) -> date:
-    """The last cold day of the season before ``season_start``, by the site's normals.
-
-    Walking back from the start: first past the days the normals already call cold (a
-    measured or forecast start can come later than the normals' own), then past the warm
-    season; the cold day reached is the last one of the season before. Without one the
-    window opens 365 days before the start.
-    """
-    window_start = season_start - timedelta(days=365)
-    series = daily_minimums_from_normals(monthly_min_c=site.normals_min_c, start=window_start, days=365)
-    cold = [t <= site.preheat_threshold_c for _, t in series]
-    i = len(series) - 1
-    while i >= 0 and cold[i]:
-        i -= 1
-    while i >= 0 and not cold[i]:
-        i -= 1
-    return series[i][0] if i >= 0 else window_start
-
-
-def freeze_status(
-    *, completions: list[date], season_start: date | None, window_opens: date | None, today: date
-) -> tuple[str, date | None]:
-    """Readiness and the completion date that decided it (rules in the module docstring)."""
-    if season_start is None or window_opens is None:
-        return FREEZE_UNKNOWN, max(completions) if completions else None
-    in_window = sorted(d for d in completions if d > window_opens)
-    before = [d for d in in_window if d <= season_start]
-    if before:
-        return FREEZE_READY, before[-1]
-    if in_window:
-        return FREEZE_LATE, in_window[0]
-    return (FREEZE_DUE if today < season_start else FREEZE_NOT_READY), None
 
 
 @dataclass
@@ -328,7 +276,7 @@ def compliance_figures(*, site_ids: list[int], start: date, end: date, as_of: da
         by_site[site_id]["findings_total"] += 1
 
     filters = _filter_rows(units=units, as_of=as_of)
-    freeze, freeze_counts = _freeze_rows(sites=sites, units=units, as_of=as_of, today_of=today_of)
+    freeze, freeze_counts = _freeze_rows(units=units, as_of=as_of, today_of=today_of)
     return ComplianceFigures(
         start=start,
         end=end,
@@ -383,60 +331,10 @@ def _filter_rows(*, units: list[AHU], as_of: datetime) -> list[dict]:
     return out
 
 
-def _season_that_matters(*, site: Site, today: date) -> tuple[date | None, date | None]:
-    """The season to judge (the running one while it runs, else the coming one) and the day its window opens."""
-    coming = site.freeze_season_start
-    if coming is None:
-        return None, None
-    coming_opens = last_season_end(site=site, season_start=coming)
-    try:
-        running = coming.replace(year=coming.year - 1)
-    except ValueError:  # 29 February
-        running = coming.replace(year=coming.year - 1, day=28)
-    if running <= today <= coming_opens:
-        return running, last_season_end(site=site, season_start=running)
-    return coming, coming_opens
-
-
-def _freeze_rows(*, sites, units, as_of, today_of) -> tuple[list[dict], dict[str, int]]:
-    protected = set(
-        Component.objects.filter(ahu__in=units)
-        .filter(Q(kind=ComponentKind.ELECTRIC_PREHEATER) | Q(kind=ComponentKind.COIL, specs__duty="preheat"))
-        .values_list("ahu_id", flat=True)
-    )
-    done_states = {WorkOrder.State.COMPLETED, WorkOrder.State.VERIFIED}
-    completions: dict[int, list[datetime]] = defaultdict(list)
-    for ahu_id, done_at, wo_state, wo_done_at in WorkOrderTask.objects.filter(
-        ahu_id__in=protected, task_code=FREEZE_TASK
-    ).values_list("ahu_id", "completed_at", "work_order__state", "work_order__completed_at"):
-        at = done_at or (wo_done_at if wo_state in done_states else None)
-        if at is not None and at <= as_of:
-            completions[ahu_id].append(at)
-    window = {}
-    for site in sites:
-        window[site.pk] = _season_that_matters(site=site, today=today_of[site.pk])
+def _freeze_rows(*, units, as_of, today_of) -> tuple[list[dict], dict[str, int]]:
+    """Per protected unit the readiness row (inspections.freeze decides it) and the count per state."""
     rows, counts = [], dict.fromkeys(FREEZE_LABELS, 0)
-    for unit in units:
-        if unit.pk not in protected:
-            continue
-        site = unit.building.site
-        tz = zoneinfo.ZoneInfo(site.time_zone)
-        season_start, opens = window[site.pk]
-        status, decided_by = freeze_status(
-            completions=[at.astimezone(tz).date() for at in completions.get(unit.pk, [])],
-            season_start=season_start,
-            window_opens=opens,
-            today=today_of[site.pk],
-        )
-        counts[status] += 1
-        rows.append(
-            {
-                "unit": unit,
-                "status": status,
-                "label": FREEZE_LABELS[status],
-                "done_on": decided_by,
-                "season_start": season_start,
-                "window_opens": opens,
-            }
-        )
+    for r in freeze_rules.freeze_readiness(units=units, as_of=as_of, today_of=today_of):
+        counts[r.status] += 1
+        rows.append(r.as_row())
     return rows, counts

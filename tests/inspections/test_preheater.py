@@ -1,7 +1,11 @@
 """Electric preheater stage test and freeze-protection trip on a unit that has a preheater.
 
-Bands: stage 1 should switch on within 1 K of the set threshold (watch within 2 K), the frost
-thermostat should trip at 2–6 °C (watch 1–7 °C): common practice, no published source. A failed
+Bands: stage 1 should switch on within 1 K of the set threshold (watch within 2 K): common practice,
+no published source. The frost thermostat should trip at 2.5–5.5 °C (watch 2–7 °C, below 2 °C fails):
+the usual setting is about 3.3 °C (38 °F), common practice; ASHRAE Guideline 36-2021 5.16.12 takes its
+last freeze stage at supply air below 1 °C (as summarised in PNNL's ConStrain rule library). The
+airflow interlock and the automatic-reset primary limit beside the manual-reset high limit follow
+NFPA 70 (NEC) 424.63 and 424.64 (duct heaters); UL 1996 from memory. A failed
 preheater or freeze-protection test inside or up to 30 days before the site's freeze season is urgent
 and approved at once (inspections/SYNC.md).
 """
@@ -42,12 +46,27 @@ def _visit():
     return wo, tech, heater
 
 
-def _submit(client, wo, tech, heater, *, stage_on, stages="ok", trip_temp=4.0, trip_test="ok", on: dt.date):
+def _submit(
+    client,
+    wo,
+    tech,
+    heater,
+    *,
+    stage_on,
+    stages="ok",
+    interlock="ok",
+    primary="ok",
+    trip_temp=4.0,
+    trip_test="ok",
+    on: dt.date,
+):
     client.force_authenticate(tech)
     readings = [
         r("visit.run_hours", 1200),
         r("preheater_freeze.stage_on_temp", stage_on, heater, note="stage 1 in"),
         r("preheater_freeze.stages", stages, heater, note="stage currents"),
+        r("preheater_freeze.airflow_interlock", interlock, heater, note="stages on with the fan stopped"),
+        r("preheater_freeze.primary_limit", primary, heater, note="primary limit stuck closed"),
         r("preheater_freeze.high_limit", "ok", heater),
         r("preheater_freeze.freeze_trip_temp", trip_temp),
         r("preheater_freeze.freeze_trip_test", trip_test, note="trip test"),
@@ -126,3 +145,50 @@ def test_failed_trip_test_65_days_before_the_season_waits_for_approval(api_clien
     assert len(cwos) == 1  # both trip failures share one open corrective work order for the condition
     [cwo] = cwos
     assert cwo.priority == "high" and cwo.approval == WorkOrder.Approval.PENDING
+
+
+@pytest.mark.django_db
+@pytest.mark.parametrize(("trip_temp", "verdict"), [(1.5, "fail"), (2.2, "watch"), (3.3, "ok"), (5.0, "ok")])
+def test_frost_thermostat_tripping_below_2_c_fails_and_opens_a_finding(api_client, trip_temp, verdict):
+    """1.5 °C fails (was only watch before): too little margin over the 1 °C of ASHRAE Guideline 36's last
+    freeze stage (from PNNL's summary); 2.2 °C is watch; 3.3 °C (38 °F, the usual setting, common practice)
+    and 5 °C (41 °F) are ok. Only the failure opens a freeze-protection finding."""
+    wo, tech, heater = _visit()
+    out = _submit(api_client, wo, tech, heater, stage_on=THRESHOLD_C, trip_temp=trip_temp, on=dt.date(2024, 9, 20))
+    assert _verdict(out, "preheater_freeze.freeze_trip_temp")["verdict"] == verdict
+    findings = Finding.objects.filter(inspection_id=out["inspection_id"])
+    if verdict == "fail":
+        [f] = findings
+        assert f.condition_code == "freeze_protection_failed" and f.severity == "critical"
+        assert f.corrective_work_order.priority == "urgent"  # 15 days before the 5 October season start
+    else:
+        assert not findings.exists()
+
+
+@pytest.mark.django_db
+@pytest.mark.parametrize("step", ["interlock", "primary"])
+def test_heater_live_without_airflow_or_without_its_primary_limit_fails_the_freeze_test(api_client, step):
+    """NFPA 70 424.63 (no stage without the fan) and 424.64 (automatic-reset primary limit): either failing
+    opens an urgent freeze-protection finding on the heater 15 days before the season."""
+    wo, tech, heater = _visit()
+    out = _submit(api_client, wo, tech, heater, stage_on=THRESHOLD_C, on=dt.date(2024, 9, 20), **{step: "not_ok"})
+    key = {"interlock": "preheater_freeze.airflow_interlock", "primary": "preheater_freeze.primary_limit"}[step]
+    assert _verdict(out, key)["verdict"] == "fail"
+    [f] = Finding.objects.filter(inspection_id=out["inspection_id"])
+    assert f.component == heater and f.condition_code == "freeze_protection_failed"
+    assert f.severity == "critical" and f.corrective_work_order.priority == "urgent"
+
+
+@pytest.mark.django_db
+def test_the_new_steps_are_required_on_every_electric_preheater(api_client):
+    """The phone's checklist asks the airflow interlock and the primary limit on the heater, required, with
+    their source; the frost-thermostat bands it judges against are the new ones (ok 2.5–5.5 °C, watch 2–7 °C)."""
+    wo, tech, heater = _visit()
+    api_client.force_authenticate(tech)
+    doc = api_client.get(f"/api/inspections/work-orders/{wo.public_id}/checklist/").json()
+    items = {i["key"]: i for t in doc["templates"] for i in t["items"]}
+    for key in ("preheater_freeze.airflow_interlock", "preheater_freeze.primary_limit"):
+        assert items[key]["required"] and items[key]["component"]["label_code"] == heater.label_code
+        assert "424" in items[key]["limits_source"]
+    trip = items["preheater_freeze.freeze_trip_temp"]["limits"]["si"]
+    assert trip["ok"] == {"min": 2.5, "max": 5.5} and trip["watch"] == {"min": 2.0, "max": 7.0}

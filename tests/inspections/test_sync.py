@@ -313,7 +313,8 @@ def test_checklist_repeats_items_per_bank_with_limits_in_the_users_units(api_cli
     assert doc["work_order"]["unit"]["tag"] == wo.ahu.tag
     trip = next(i for t in doc["templates"] for i in t["items"] if i["key"] == "preheater_freeze.freeze_trip_temp")
     assert trip["unit"] == "°F"
-    assert trip["limits"]["display"]["ok"]["min"] == pytest.approx(35.6)
+    # Frost thermostat ok from 2.5 °C = 2.5 × 9/5 + 32 = 36.5 °F (band in inspections.checklists).
+    assert trip["limits"]["display"]["ok"]["min"] == pytest.approx(36.5)
 
 
 def test_batch_over_fifty_forms_is_a_400(api_client, db):

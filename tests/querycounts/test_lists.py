@@ -28,6 +28,7 @@ API = [
     ("technician", f"/api/scheduling/today/?day={DAY}"),
     ("supervisor", f"/api/scheduling/board/?week={DAY}"),
     ("supervisor", "/api/inspections/flagged/"),
+    ("property_manager", "/api/inspections/freeze-readiness/"),
 ]
 PAGES = [
     ("technician", "/today/"),

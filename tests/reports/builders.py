@@ -201,3 +201,29 @@ def amendment(insp: Inspection, user, *, reason: str, changes: list, created: st
     return Amendment.objects.create(
         inspection=insp, created_by=user, reason=reason, changes=changes, created_at=at(created, 15)
     )
+
+
+FREEZE_STEPS_PER_HEATER = ("stage_on_temp", "stages", "airflow_interlock", "primary_limit", "high_limit")
+FREEZE_STEPS_PER_UNIT = ("freeze_trip_temp", "freeze_trip_test")
+
+
+def freeze_test(
+    work_order: WorkOrder, technician, *, finished: str, heaters=(), verdicts: dict | None = None
+) -> Inspection:
+    """A preheater and freeze-protection test: every step of the current template judged ok unless
+    ``verdicts`` ({step key: verdict}) says otherwise; per-heater steps for each of ``heaters``."""
+    verdicts = verdicts or {}
+    insp = inspection(work_order, technician, finished=finished)
+    steps = [(k, h) for h in heaters for k in FREEZE_STEPS_PER_HEATER] + [(k, None) for k in FREEZE_STEPS_PER_UNIT]
+    for key, heater in steps:
+        v = verdicts.get(key, "ok")
+        evaluation(
+            insp,
+            "limits" if key.endswith("temp") else "check",
+            f"preheater_freeze.{key}",
+            component=heater,
+            verdict=v,
+            reason=f"{key.replace('_', ' ')}: {v}",
+            condition_code="freeze_protection_failed",
+        )
+    return insp

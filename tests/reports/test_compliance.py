@@ -6,18 +6,12 @@ import pytest
 
 from reports.compliance import (
     CANCELLED,
-    FREEZE_DUE,
-    FREEZE_LATE,
-    FREEZE_NOT_READY,
-    FREEZE_READY,
-    FREEZE_UNKNOWN,
     LATE,
     MISSED,
     NOT_YET_DUE,
     ON_TIME,
     Occurrence,
     age_bucket,
-    freeze_status,
     preventive_figures,
 )
 
@@ -93,27 +87,6 @@ def test_no_judged_work_gives_no_share_rather_than_zero():
 )
 def test_finding_age_buckets(days, bucket):
     assert age_bucket(days) == bucket
-
-
-def test_freeze_readiness_rules():
-    """Done after last season's end and before the start: ready; after the start: late; not done: due / not ready."""
-    start, opens = D("2025-10-20"), D("2025-04-15")
-    assert freeze_status(
-        completions=[D("2025-10-01")], season_start=start, window_opens=opens, today=D("2025-10-05")
-    ) == (FREEZE_READY, D("2025-10-01"))
-    # done during the last season only: does not count for the coming one
-    assert freeze_status(
-        completions=[D("2025-02-01")], season_start=start, window_opens=opens, today=D("2025-10-05")
-    ) == (FREEZE_DUE, None)
-    assert freeze_status(
-        completions=[D("2025-02-01")], season_start=start, window_opens=opens, today=D("2025-10-21")
-    ) == (FREEZE_NOT_READY, None)
-    assert freeze_status(
-        completions=[D("2025-10-25")], season_start=start, window_opens=opens, today=D("2025-10-30")
-    ) == (FREEZE_LATE, D("2025-10-25"))
-    assert (
-        freeze_status(completions=[], season_start=None, window_opens=None, today=D("2025-10-30"))[0] == FREEZE_UNKNOWN
-    )
 
 
 def test_last_season_end_from_normals():

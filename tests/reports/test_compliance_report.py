@@ -28,7 +28,7 @@ def estate(site, supervisor):
     a1 = AHUFactory(building=building, tag="AHU-01")
     a2 = AHUFactory(building=building, tag="AHU-02")
     bank = ComponentFactory(ahu=a1, name="Final filters", position=1)
-    ComponentFactory(
+    heater = ComponentFactory(
         ahu=a1,
         kind="electric_preheater",
         name="Preheater",
@@ -48,9 +48,12 @@ def estate(site, supervisor):
     b.preventive(a2, filt, "2025-03-05")  # missed, still open: overdue now
     b.preventive(a2, coil, "2025-02-01", done="2025-02-20")  # on time
     b.preventive(a2, filt, "2025-06-01")  # outside the period
-    b.preventive(a1, freeze, "2025-10-11", done="2025-05-02")  # freeze check after last season's end: AHU-01 ready
-    b.preventive(a2, freeze, "2024-10-11", done="2025-01-20")  # done in the last season only: AHU-02 due
     tech = make_person(organisation=site.organisation, role=Role.TECHNICIAN, first_name="Ana", last_name="Field")
+    # Readiness comes from what the tests found (inspections.freeze), not from the task being ticked off.
+    a1_freeze = b.preventive(a1, freeze, "2025-10-11", done="2025-05-02")  # passed after last season's end: ready
+    b.freeze_test(a1_freeze, tech, finished="2025-05-02", heaters=[heater])
+    a2_freeze = b.preventive(a2, freeze, "2024-10-11", done="2025-01-20")  # passed in the last season only: due
+    b.freeze_test(a2_freeze, tech, finished="2025-01-20")
     visit = b.preventive(a1, filt, "2025-03-25", done="2025-03-25")  # on time
     insp = b.inspection(visit, tech, finished="2025-03-25")
     ev = b.evaluation(
@@ -67,7 +70,7 @@ def estate(site, supervisor):
     b.finding(insp, ev2, severity="medium", title="Damper stuck", opened="2024-11-01")
     ev3 = b.evaluation(insp, "supply_temperature", "controls_check.supply_air", verdict="fail", reason="off")
     b.finding(insp, ev3, severity="low", title="Closed already", opened="2025-01-01", closed="2025-02-01")
-    return {"site": site, "a1": a1, "a2": a2, "bank": bank}
+    return {"site": site, "a1": a1, "a2": a2, "bank": bank, "heater": heater, "tech": tech}
 
 
 def test_figures_from_database_match_hand_count(estate, django_assert_max_num_queries):
@@ -207,7 +210,8 @@ def test_in_midwinter_readiness_is_for_the_running_season(estate):
     from reports.compliance import FREEZE_NOT_READY
 
     freeze = next(t for t in estate["a1"].work_orders.all() if t.tasks.first().task_code == "preheater_freeze")
-    b.preventive(estate["a1"], freeze.tasks.first().task, "2024-10-05", done="2024-10-10")
+    proven = b.preventive(estate["a1"], freeze.tasks.first().task, "2024-10-05", done="2024-10-10")
+    b.freeze_test(proven, estate["tech"], finished="2024-10-10", heaters=[estate["heater"]])
     as_of = dt.datetime(2025, 1, 15, 12, tzinfo=dt.UTC)
     f = compliance_figures(
         site_ids=[estate["site"].pk], start=dt.date(2024, 7, 1), end=dt.date(2025, 1, 15), as_of=as_of
