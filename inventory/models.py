@@ -13,6 +13,7 @@ from django.urls import reverse
 from django.utils import timezone
 
 from accounts.models import Organisation
+from engineering.ventilation import ZONE_AIR_DISTRIBUTION_EFFECTIVENESS
 
 from .specs import SPECS, SpecErrors, validate_specs
 
@@ -129,6 +130,18 @@ class Building(models.Model):
         return f"{self.site.name} / {self.name}"
 
 
+# Ways supply and return air are placed in the space, with their zone air distribution
+# effectiveness (ASHRAE 62.1, engineering.ventilation; from memory).
+AIR_DISTRIBUTION_CHOICES = [
+    (key, f"{label} (effectiveness {ez:.1f})") for key, (ez, label) in ZONE_AIR_DISTRIBUTION_EFFECTIVENESS.items()
+]
+
+
+class VentilationZones(models.TextChoices):
+    SINGLE = "single_zone", "One zone"
+    MULTI = "multi_zone", "Several zones with recirculated air"
+
+
 class AHU(models.Model):
     class HeatRecovery(models.TextChoices):
         NONE = "none", "None"
@@ -157,6 +170,45 @@ class AHU(models.Model):
         validators=[MinValueValidator(0), MaxValueValidator(1)], help_text="Design minimum outdoor-air fraction, 0–1."
     )
     full_outdoor_air = models.BooleanField(default=False, help_text="100 % outdoor air: no recirculation.")
+    # Ventilation configuration for ASHRAE 62.1 (engineering.ventilation.outdoor_air_intake): with
+    # full_outdoor_air it gives the system (single zone, 100 % outdoor air, multi-zone recirculating).
+    ventilation_zones = models.CharField(
+        "zones served",
+        max_length=20,
+        choices=VentilationZones.choices,
+        default=VentilationZones.SINGLE,
+        help_text="One zone, or several zones sharing recirculated air (sets how the outdoor air needed is found).",
+        error_messages={"invalid_choice": "Zones served %(value)r is not allowed; choose one zone or several zones."},
+    )
+    air_distribution = models.CharField(
+        "air distribution in the space",
+        max_length=60,
+        choices=AIR_DISTRIBUTION_CHOICES,
+        default="ceiling_supply_cool",
+        help_text="How supply and return air are placed; sets the zone air distribution effectiveness (ASHRAE 62.1).",
+        error_messages={
+            "invalid_choice": (
+                "Air distribution %(value)r is not one of the listed ways supply and return air are placed."
+            )
+        },
+    )
+    occupant_diversity = models.FloatField(
+        "occupant diversity",
+        null=True,
+        blank=True,
+        help_text=(
+            "Several zones only: people present at once ÷ the sum of each zone's peak, 0.05–1 "
+            "(leave empty for 1, no diversity)."
+        ),
+    )
+    system_ventilation_efficiency = models.FloatField(
+        "system ventilation efficiency",
+        null=True,
+        blank=True,
+        help_text=(
+            "Several zones only: from the design calculation, 0.1–1 (leave empty to use the simplified procedure)."
+        ),
+    )
     heat_recovery = models.CharField(max_length=20, choices=HeatRecovery.choices, default=HeatRecovery.NONE)
     supply_air_setpoint_c = models.FloatField(
         null=True, blank=True, validators=[MinValueValidator(5), MaxValueValidator(45)]
@@ -181,6 +233,7 @@ class AHU(models.Model):
         return reverse("inventory:label", kwargs={"code": self.label_code})
 
     def clean(self) -> None:
+        self._clean_ventilation()
         if self.full_outdoor_air and self.design_min_oa_fraction is not None and self.design_min_oa_fraction < 1:
             raise ValidationError(
                 {
@@ -189,6 +242,33 @@ class AHU(models.Model):
                     )
                 }
             )
+
+    def _clean_ventilation(self) -> None:
+        """Occupant diversity and system ventilation efficiency: numbers in range, for several zones only."""
+        errors = {}
+        for name, label, lo, hi in (
+            ("occupant_diversity", "Occupant diversity", 0.05, 1.0),
+            ("system_ventilation_efficiency", "System ventilation efficiency", 0.1, 1.0),
+        ):
+            value = getattr(self, name)
+            if value is None:
+                continue
+            if not isinstance(value, int | float) or isinstance(value, bool):
+                continue  # not a number: the field's own check says so
+            if not math.isfinite(value) or not lo <= value <= hi:
+                errors[name] = f"{label} {value:g} is outside what is allowed: a number from {lo:g} to {hi:g}."
+            elif self.full_outdoor_air or self.ventilation_zones != VentilationZones.MULTI:
+                errors[name] = (
+                    f"{label} {value:g} applies only to a unit serving several zones with recirculated air; "
+                    "leave it empty for a unit serving one zone or taking 100 % outdoor air."
+                )
+        if errors:
+            raise ValidationError(errors)
+
+    @property
+    def ventilation_system(self) -> str:
+        """The ASHRAE 62.1 system kind: full_outdoor_air, single_zone or multi_zone."""
+        return "full_outdoor_air" if self.full_outdoor_air else self.ventilation_zones
 
     @property
     def site(self) -> Site:
