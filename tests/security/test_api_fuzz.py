@@ -57,6 +57,7 @@ def real_ids(world: World) -> dict[str, dict[str, object]]:
         "/api/calc/{name}/": {"name": next(iter(CALCULATORS))},
         "/api/inventory/export/{kind}/": {"kind": next(iter(KINDS))},
         "/api/inventory/import/{kind}/": {"kind": next(iter(KINDS))},
+        "/api/inventory/import-jobs/{public_id}/": {"public_id": str(a.import_job.public_id)},
         "/api/inventory/sites/{id}/": {"id": a.site.pk},
         "/api/inventory/buildings/{id}/": {"id": a.building.pk},
         "/api/inventory/ahus/{id}/": {"id": a.ahu.pk},
