@@ -118,6 +118,7 @@ def evaluation_context(
             "supply_air_setpoint_c": ahu.supply_air_setpoint_c,
             "duct_static_setpoint_pa": ahu.duct_static_setpoint_pa,
             "space_kind": ahu.space_kind or "",
+            "space_label": evaluation.space_label(ahu),
             "site_pressure_pa": _site_pressure(ahu),
             "required_outdoor_airflow_m3s": evaluation.required_outdoor_airflow_m3s(ahu),
         },

@@ -66,6 +66,9 @@ def _shortfall_visits(api_client, *, visits: int = 10):
         [out] = api_client.post(SYNC, {"forms": [form]}, format="json").json()["results"]
         assert out["status"] in {"stored", "flagged"}, out
         [seen] = out["findings"]
+        [judged] = [e for e in out["evaluation"] if e["check"] == "oa_fraction_temperature"]
+        assert "47 % of the supply air for sales (retail)" in judged["reason"] and "not met" in judged["reason"]
+        assert not CODES.search(judged["reason"]), judged["reason"]
         assert seen["times_seen"] == month + 1, "the same finding, seen once more on each visit"
     return org, ahu
 

@@ -16,6 +16,8 @@ export const CHECKS = [
 ];
 
 const RANK = { ok: 0, watch: 1, fail: 2 };
+// How the outdoor-air fraction stands against the ventilation requirement, in words (as inspections/evaluation.py).
+const REQUIREMENT_WORDS = { ok: "met", watch: "cannot decide (the band spans it)", fail: "not met" };
 const worst = (...vs) => vs.reduce((a, b) => (RANK[b] > RANK[a] ? b : a), OK);
 
 // ---------------------------------------------------------------------------
@@ -625,7 +627,11 @@ function oaChecks(form) {
       const need = Math.min(requiredQ / flow, 1.0);
       const req = fractionCheck(frac.fraction, frac.uncertainty, need);
       verdict = worst(verdict, req.verdict);
-      parts.push("; ventilation requirement ", q(requiredQ, "airflow"), ` (ASHRAE 62.1 ventilation rate procedure, ${u.space_kind}): ${req.verdict}`);
+      parts.push(
+        "; ventilation requirement ", q(requiredQ, "airflow"),
+        ` = ${(need * 100).toFixed(0)} % of the supply air for ${u.space_label || "the space served"} ` +
+          `(ASHRAE 62.1 ventilation rate procedure): ${REQUIREMENT_WORDS[req.verdict]}`,
+      );
       res.method += "; requirement Vbz = Rp·Pz + Ra·Az, Ez = 1";
     }
     res.verdict = verdict;
