@@ -437,16 +437,6 @@ def required_outdoor_airflow_m3s(ahu) -> float | None:
         return None
 
 
-def required_outdoor_airflow_m3s(ahu) -> float | None:
-    """Outdoor airflow the unit must take in for its space (Vot of ``ventilation_requirement``), m³/s; None
-    when unknown.
-
-    The phone receives this number with the checklist (inspections.phone) and judges against it offline.
-    """
-    need = ventilation_requirement(ahu)
-    return None if need is None else need.vot_m3s
-
-
 # How the outdoor-air fraction stands against the ventilation requirement, in words (never the verdict's code).
 REQUIREMENT_WORDS = {OK: "met", WATCH: "cannot decide (the band spans it)", FAIL: "not met"}
 
@@ -455,17 +445,6 @@ def space_label(ahu) -> str:
     """The kind of space a unit serves in plain words (lower case), as the ventilation requirement names it."""
     kind = ventilation.SPACE_KINDS.get(ahu.space_kind)
     return kind.label.lower() if kind is not None else "the space served"
-
-
-def _requirement_words(need: ventilation.OutdoorAirIntake) -> str:
-    """How the requirement was found, in plain words with its numbers (Ez, D, Ev)."""
-    if need.system == "multi_zone":
-        ev = f"system ventilation efficiency {need.ev:.2f}" + (
-            " from the design" if need.ev_given else f" for occupant diversity {need.occupant_diversity:g}"
-        )
-        return f"several zones with recirculated air, {ev}"
-    where = "100 % outdoor air" if need.system == "full_outdoor_air" else "one zone"
-    return f"{where}, air distribution effectiveness {need.ez:g}"
 
 
 def _oa_checks(form: Form, consumed: set) -> list[Result]:
@@ -530,22 +509,17 @@ def _oa_checks(form: Form, consumed: set) -> list[Result]:
             fraction=frac.fraction, uncertainty=frac.uncertainty, minimum=ahu.design_min_oa_fraction
         )
         verdict = chk.verdict
-        parts = [
-            f"by {label}: outdoor air {frac.fraction * 100:.0f} % ± {frac.uncertainty * 100:.0f} points (",
-            qty(oa_q, "airflow"),
-            f"); the unit's design minimum {ahu.design_min_oa_fraction * 100:.0f} % (",
-            qty(design_min_q, "airflow"),
-            f"): {REQUIREMENT_WORDS[chk.verdict.value]}",
-        ]
-        if need_vr is not None and q > 0:
+        parts = [f"by {label}: {chk.reason} (design minimum; ", qty(oa_q, "airflow"), " outdoor air)"]
+        if required_q is not None and q > 0:
+            res.derived["required_outdoor_airflow_m3s"] = round(required_q, 3)
             need = min(required_q / q, 1.0)
             req = outdoor_air.fraction_check(fraction=frac.fraction, uncertainty=frac.uncertainty, minimum=need)
             verdict = controls.worst(verdict, req.verdict)
             parts += [
                 "; ventilation requirement ",
                 qty(required_q, "airflow"),
-                f" = {need * 100:.0f} % of the supply air for {space_label(ahu)} ({_requirement_words(need_vr)}, "
-                f"ASHRAE 62.1 ventilation rate procedure): {REQUIREMENT_WORDS[req.verdict.value]}",
+                f" = {need * 100:.0f} % of the supply air for {space_label(ahu)} (ASHRAE 62.1 ventilation rate "
+                f"procedure): {REQUIREMENT_WORDS[req.verdict.value]}",
             ]
             res.method += "; requirement Vbz = Rp·Pz + Ra·Az, Ez = 1 (engineering.ventilation)"
         res.verdict = verdict.value
