@@ -375,6 +375,30 @@ def _control_problem(cell: str) -> str | None:
     )
 
 
+def control_character_errors(text: str) -> list[RowError]:
+    """Every cell of ``text`` holding a control character, as row errors (none when the text has none).
+
+    A background job stores the file before checking it, and PostgreSQL refuses NUL in text:
+    such a file is refused at once, with the same errors the import would give.
+    """
+    if CONTROL_CHARACTERS.search(text) is None:
+        return []
+    reader = csv.reader(io.StringIO(text.removeprefix(BYTE_ORDER_MARK), newline=""))
+    found, columns = [], []
+    try:
+        for record in reader:
+            if not columns:
+                columns = [_visible(c) for c in record]
+            for index, cell in enumerate(record):
+                problem = _control_problem(cell)
+                if problem:
+                    column = columns[index] if index < len(columns) else f"column {index + 1}"
+                    found.append(RowError(reader.line_num, column, _visible(cell), problem))
+    except csv.Error as exc:
+        found.append(RowError(reader.line_num, "", "", f"this line cannot be read as CSV: {exc}"))
+    return found
+
+
 def data_rows(text: str) -> int:
     """How many records (not lines) ``text`` holds below its header; what the import would check."""
     try:
@@ -676,7 +700,7 @@ def _key_cells(text: str, kind: str) -> dict[str, set[str]]:
         for row in csv.DictReader(io.StringIO(text.removeprefix(BYTE_ORDER_MARK), newline="")):
             for column, cells in found.items():
                 cell = _unmark(row.get(column) or "").strip()
-                if cell:
+                if cell and CONTROL_CHARACTERS.search(cell) is None:  # refused per row; never sent in a query
                     cells.add(cell.upper() if column == "label_code" else cell)
     except csv.Error:
         pass  # the checking pass reports the line

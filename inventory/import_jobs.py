@@ -40,9 +40,15 @@ def import_job_create(
     """Store the file as a queued job for ``organisation`` and queue its run after commit.
 
     ``by`` must manage ``organisation`` (the caller checks); ``kind`` is one of ``csv_io.KINDS``.
+    A file with NUL or other control characters in its cells raises ``csv_io.ImportFailed`` at once
+    (naming each cell), since the database may not store such text.
     """
     if kind not in csv_io.KINDS:
         raise ValueError(f"kind={kind!r} is not one of {', '.join(csv_io.KINDS)}")
+    refused = csv_io.control_character_errors(text)
+    if refused:
+        raise csv_io.ImportFailed(refused)
+    file_name = csv_io.CONTROL_CHARACTERS.sub("", file_name)
     job = ImportJob.objects.create(
         organisation=organisation,
         kind=kind,

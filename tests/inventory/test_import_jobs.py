@@ -90,3 +90,12 @@ def test_a_refused_job_lists_every_bad_row_and_imports_nothing(world):
     ]
     assert (job.rows_done, job.rows_total, job.source) == (3, 3, "")
     assert not Site.objects.filter(code="north").exists()
+
+
+def test_a_file_with_a_nul_is_refused_before_any_job_is_stored(world, api_client):
+    """A NUL cannot be stored as text (PostgreSQL refuses it): the upload is refused at once, naming each cell."""
+    text = SITES + "south,South\x00Yard,53.1,9.9,UTC\n"
+    response = _start(api_client, world.people[Role.SUPERVISOR], text, background="true")
+    assert response.status_code == 400
+    assert [(e["line"], e["column"], e["value"]) for e in response.json()["errors"]] == [(3, "name", "South\\x00Yard")]
+    assert not ImportJob.objects.exists()
