@@ -4,6 +4,7 @@ Walked as each person does it: the technician syncs through the API (as the phon
 technician, the supervisor and the property manager open the work order's page.
 """
 
+import io
 import re
 import uuid
 
@@ -232,3 +233,43 @@ def test_no_heat_recovery_items_without_a_heat_recovery_component(api_client):
     wo, tech = make_visit(tasks=["heat_recovery"])
     doc = checklist_doc(api_client, tech, wo)
     assert not [i for t in doc["templates"] for i in t["items"] if i["key"].startswith("heat_recovery.")]
+
+
+@pytest.mark.django_db
+def test_demo_done_work_reads_as_its_record_to_every_role(client):
+    """In the demo, a completed visit on a site the property manager may see: the supervisor verifies it
+    from its page; then the supervisor, the technician who signed it and the property manager each read
+    its record with "verified", and none of them gets the form."""
+    from django.core.management import call_command
+
+    from accounts.models import User
+    from inventory.selectors import sites_visible_to
+
+    call_command("load_demo", stdout=io.StringIO())
+    pm = User.objects.get(username="helena.pm")
+    boss = User.objects.get(username="ruth.supervisor")
+    wo = (
+        WorkOrder.objects.filter(
+            state=WorkOrder.State.COMPLETED,
+            ahu__building__site__in=sites_visible_to(user=pm),
+            inspections__work_order_completed=True,
+            inspections__flags=[],
+        )
+        .order_by("-due_date")
+        .first()
+    )
+    assert wo is not None
+    signer = Inspection.objects.get(work_order=wo, work_order_completed=True).technician
+    for person in (boss, signer, pm):
+        html = page(client, person, wo)
+        assert FINISH not in html and not CHECKLIST_FORM.search(html), person
+        assert "Status: <strong data-status>completed</strong>" in record_section(html)
+    client.force_login(boss)
+    client.post(f"/w/{wo.public_id}/verify/", {"version": wo.version})
+    for person in (boss, signer, pm):
+        html = page(client, person, wo)
+        assert FINISH not in html and not CHECKLIST_FORM.search(html), person
+        assert "Work order verified" in html
+        record = record_section(html)
+        assert "Status: <strong data-status>verified</strong>" in record
+        assert "data-reading" in record and "data-signature" in record
