@@ -1,0 +1,88 @@
+"""Migration 0006 merges the duplicate open findings an older database holds (one per visit) into one."""
+
+import pytest
+from django.db import connection
+from django.db.migrations.executor import MigrationExecutor
+
+from accounts.models import AuditEvent
+from inspections.models import Finding
+from scheduling.models import WorkOrder
+from tests.factories.inspections import make_visit
+from tests.factories.scheduling import WorkOrderFactory
+from tests.reports import builders as b
+
+BEFORE = ("inspections", "0005_checklistitem_unit_filter")
+AFTER = ("inspections", "0006_findings_observations")
+
+
+@pytest.mark.django_db(transaction=True)
+def test_duplicate_open_findings_become_one_seen_on_every_visit():
+    """Three monthly visits each opened a "standing water" finding with its own pending work order: after the
+    migration one finding stays open, first seen on the first visit, last seen on the third, seen three times,
+    holding one pending work order; the other two are closed as merged (at their own opening, so no age figure
+    counts them) and their now empty proposals are cancelled, both audited. A finding on another problem is
+    left alone."""
+    executor = MigrationExecutor(connection)
+    executor.migrate([BEFORE])
+    old = executor.loader.project_state([BEFORE]).apps.get_model("inspections", "Finding")
+    wo, tech = make_visit(tasks=["drain_pan"])
+    ahu, pan = wo.ahu, wo.ahu.components.get(name="Drain pan")
+    rows, proposals = [], []
+    for day in ("2025-01-06", "2025-02-03", "2025-03-03"):
+        insp = b.inspection(wo, tech, finished=day)
+        ev = b.evaluation(
+            insp, "choice", "drain_pan.pan_condition", verdict="fail", reason="Pan: standing water", component=pan
+        )
+        cwo = WorkOrderFactory(
+            ahu=ahu, kind=WorkOrder.Kind.CORRECTIVE, approval=WorkOrder.Approval.PENDING, title="Drain pan"
+        )
+        proposals.append(cwo)
+        rows.append(
+            old.objects.create(
+                organisation_id=wo.organisation_id,
+                inspection_id=insp.pk,
+                evaluation_id=ev.pk,
+                ahu_id=ahu.pk,
+                component_id=pan.pk,
+                severity="medium",
+                title="Drain pan: standing water",
+                reason=ev.reason,
+                opened_at=insp.finished_at,
+                corrective_work_order_id=cwo.pk,
+            )
+        )
+    other_ev = b.evaluation(insp, "check", "drain_pan.drains_freely", verdict="fail", reason="Drains: not ok")
+    other = old.objects.create(
+        organisation_id=wo.organisation_id,
+        inspection_id=insp.pk,
+        evaluation_id=other_ev.pk,
+        ahu_id=ahu.pk,
+        severity="medium",
+        title="Drain blocked",
+        reason="Drains: not ok",
+        opened_at=insp.finished_at,
+    )
+
+    executor = MigrationExecutor(connection)
+    executor.loader.build_graph()
+    executor.migrate([AFTER])
+
+    [kept] = Finding.objects.filter(ahu=ahu, state=Finding.State.OPEN, problem="drain_pan.pan_condition")
+    first, second, third = (Finding.objects.get(pk=r.pk) for r in rows)
+    assert kept == first and kept.times_seen == 3
+    assert kept.opened_at == first.opened_at and kept.last_seen_at == third.opened_at
+    assert kept.latest_inspection_id == third.inspection_id
+    assert kept.corrective_work_order_id == proposals[0].pk
+    for merged in (second, third):
+        assert merged.state == Finding.State.CLOSED and merged.close_cause == Finding.CloseCause.MERGED
+        assert merged.merged_into == kept and merged.closed_at == merged.opened_at
+    states = {p.pk: WorkOrder.objects.get(pk=p.pk).state for p in proposals}
+    assert states == {
+        proposals[0].pk: WorkOrder.State.PLANNED,
+        proposals[1].pk: WorkOrder.State.CANCELLED,
+        proposals[2].pk: WorkOrder.State.CANCELLED,
+    }
+    assert AuditEvent.objects.filter(object_type="inspections.finding", action="finding_close").count() == 2
+    assert AuditEvent.objects.filter(object_type="scheduling.workorder", action="transition").count() == 2
+    other = Finding.objects.get(pk=other.pk)
+    assert other.state == Finding.State.OPEN and other.problem == "drain_pan.drains_freely" and other.times_seen == 1
