@@ -421,20 +421,36 @@ def _filter_change_checks(form: Form, consumed: set) -> list[Result]:
     return out
 
 
+def ventilation_requirement(ahu) -> ventilation.OutdoorAirIntake | None:
+    """The outdoor-air intake the unit's space needs by the ASHRAE 62.1 ventilation rate procedure, from the
+    registry: space kind, floor area, design occupants, the system (one zone, several zones, 100 % outdoor
+    air), the air distribution (Ez) and, for several zones, the occupant diversity or the design's Ev.
+    None when the registry lacks what it needs."""
+    if ahu.space_kind not in ventilation.SPACE_KINDS or not ahu.floor_area_m2:
+        return None
+    multi = ahu.ventilation_system == "multi_zone"
+    try:
+        return ventilation.outdoor_air_intake(
+            space_kind=ahu.space_kind,
+            floor_area_m2=ahu.floor_area_m2,
+            occupants=ahu.design_occupants,
+            air_distribution=ahu.air_distribution or "ceiling_supply_cool",
+            system=ahu.ventilation_system,
+            occupant_diversity=ahu.occupant_diversity if multi else None,
+            ev=ahu.system_ventilation_efficiency if multi else None,
+        )
+    except EngineeringInputError:
+        return None
+
+
 def required_outdoor_airflow_m3s(ahu) -> float | None:
-    """Outdoor airflow the unit's space needs by the ventilation rate procedure, m³/s; None when unknown.
+    """Outdoor airflow the unit must take in for its space (Vot of ``ventilation_requirement``), m³/s; None
+    when unknown.
 
     The phone receives this number with the checklist (inspections.phone) and judges against it offline.
     """
-    if ahu.space_kind not in ventilation.SPACE_KINDS or not ahu.floor_area_m2:
-        return None
-    try:
-        vbz = ventilation.breathing_zone_outdoor_airflow(
-            space_kind=ahu.space_kind, floor_area_m2=ahu.floor_area_m2, occupants=ahu.design_occupants
-        )
-        return ventilation.zone_outdoor_airflow(vbz=vbz, ez=1.0)
-    except EngineeringInputError:
-        return None
+    need = ventilation_requirement(ahu)
+    return None if need is None else need.vot_m3s
 
 
 # How the outdoor-air fraction stands against the ventilation requirement, in words (never the verdict's code).
@@ -445,6 +461,17 @@ def space_label(ahu) -> str:
     """The kind of space a unit serves in plain words (lower case), as the ventilation requirement names it."""
     kind = ventilation.SPACE_KINDS.get(ahu.space_kind)
     return kind.label.lower() if kind is not None else "the space served"
+
+
+def _requirement_words(need: ventilation.OutdoorAirIntake) -> str:
+    """How the requirement was found, in plain words with its numbers (Ez, D, Ev)."""
+    if need.system == "multi_zone":
+        ev = f"system ventilation efficiency {need.ev:.2f}" + (
+            " from the design" if need.ev_given else f" for occupant diversity {need.occupant_diversity:g}"
+        )
+        return f"several zones with recirculated air, {ev}"
+    where = "100 % outdoor air" if need.system == "full_outdoor_air" else "one zone"
+    return f"{where}, air distribution effectiveness {need.ez:g}"
 
 
 def _oa_checks(form: Form, consumed: set) -> list[Result]:
@@ -473,7 +500,9 @@ def _oa_checks(form: Form, consumed: set) -> list[Result]:
             ("ventilation_check.outdoor_co2", "ventilation_check.return_co2", "ventilation_check.supply_co2"),
         ),
     ]
-    required_q = required_outdoor_airflow_m3s(ahu)
+    need_vr = ventilation_requirement(ahu)
+    required_q = None if need_vr is None else need_vr.vot_m3s
+    design_min_q = ahu.design_min_oa_fraction * ahu.design_supply_airflow_m3s
     for method, item, compute, keys in pairs:
         if any(form.num(k) is None for k in keys):
             continue
@@ -494,11 +523,25 @@ def _oa_checks(form: Form, consumed: set) -> list[Result]:
             "design_min_oa_fraction": ahu.design_min_oa_fraction,
             "design_min_outdoor_airflow_m3s": round(ahu.design_min_oa_fraction * ahu.design_supply_airflow_m3s, 3),
         }
+        if need_vr is not None:
+            res.derived.update(
+                {
+                    "required_outdoor_airflow_m3s": round(need_vr.vot_m3s, 3),
+                    "breathing_zone_outdoor_airflow_m3s": round(need_vr.vbz_m3s, 3),
+                    "zone_air_distribution_effectiveness": need_vr.ez,
+                    "zone_outdoor_airflow_m3s": round(need_vr.voz_m3s, 3),
+                    "ventilation_system": need_vr.system,
+                    "occupant_diversity": need_vr.occupant_diversity,
+                    "uncorrected_outdoor_airflow_m3s": (None if need_vr.vou_m3s is None else round(need_vr.vou_m3s, 3)),
+                    "system_ventilation_efficiency": None if need_vr.ev is None else round(need_vr.ev, 3),
+                    # The requirement is above what the unit was designed to take in: the design, not the
+                    # unit's upkeep, falls short (compared unrounded, in m³/s).
+                    "design_shortfall": need_vr.vot_m3s > design_min_q,
+                }
+            )
         label = "temperatures" if method == "temperature" else "CO2"
-        res.method = (
-            f"mixing balance from {label} (engineering.outdoor_air.oa_fraction_from_"
-            f"{'temperatures' if method == 'temperature' else 'co2'}); outdoor airflow = fraction × "
-            f"supply airflow ({q_how})"
+        res.method = f"mixing balance from {label}; outdoor airflow = fraction × supply airflow ({q_how})" + (
+            "" if need_vr is None else f"; requirement by ASHRAE 62.1: {need_vr.method}"
         )
         if ahu.full_outdoor_air:
             res.verdict = OK
@@ -509,19 +552,31 @@ def _oa_checks(form: Form, consumed: set) -> list[Result]:
             fraction=frac.fraction, uncertainty=frac.uncertainty, minimum=ahu.design_min_oa_fraction
         )
         verdict = chk.verdict
-        parts = [f"by {label}: {chk.reason} (design minimum; ", qty(oa_q, "airflow"), " outdoor air)"]
-        if required_q is not None and q > 0:
-            res.derived["required_outdoor_airflow_m3s"] = round(required_q, 3)
+        parts = [
+            f"by {label}: outdoor air {frac.fraction * 100:.0f} % ± {frac.uncertainty * 100:.0f} points (",
+            qty(oa_q, "airflow"),
+            f"); the unit's design minimum {ahu.design_min_oa_fraction * 100:.0f} % (",
+            qty(design_min_q, "airflow"),
+            f"): {REQUIREMENT_WORDS[chk.verdict.value]}",
+        ]
+        if need_vr is not None and q > 0:
             need = min(required_q / q, 1.0)
             req = outdoor_air.fraction_check(fraction=frac.fraction, uncertainty=frac.uncertainty, minimum=need)
             verdict = controls.worst(verdict, req.verdict)
             parts += [
-                "; ventilation requirement ",
+                "; the space needs ",
                 qty(required_q, "airflow"),
-                f" = {need * 100:.0f} % of the supply air for {space_label(ahu)} (ASHRAE 62.1 ventilation rate "
-                f"procedure): {REQUIREMENT_WORDS[req.verdict.value]}",
+                f" = {need * 100:.0f} % of the supply air for {space_label(ahu)} ({_requirement_words(need_vr)}, "
+                f"ASHRAE 62.1 ventilation rate procedure): {REQUIREMENT_WORDS[req.verdict.value]}",
             ]
-            res.method += "; requirement Vbz = Rp·Pz + Ra·Az, Ez = 1 (engineering.ventilation)"
+            if res.derived["design_shortfall"]:
+                parts += [
+                    "; the requirement is above the unit's design minimum outdoor air ",
+                    qty(design_min_q, "airflow"),
+                    ": the design falls short",
+                ]
+            if verdict != chk.verdict:
+                parts.append("; judged by the requirement")
         res.verdict = verdict.value
         res.say(parts)
         out.append(res)
