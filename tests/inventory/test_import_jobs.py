@@ -99,3 +99,18 @@ def test_a_file_with_a_nul_is_refused_before_any_job_is_stored(world, api_client
     assert response.status_code == 400
     assert [(e["line"], e["column"], e["value"]) for e in response.json()["errors"]] == [(3, "name", "South\\x00Yard")]
     assert not ImportJob.objects.exists()
+
+
+def test_a_job_that_breaks_while_writing_stores_nothing_and_says_so(world, monkeypatch):
+    """An unexpected error after some rows were written rolls all of them back; the job says failed, in words."""
+    from inventory import csv_io
+
+    def broken(self, model):
+        raise RuntimeError("disk gone")
+
+    monkeypatch.setattr(csv_io._Plan, "_update", broken)
+    job = import_jobs.import_job_create(organisation=world.org_a, kind="sites", text=SITES, by=None)
+    job = import_jobs.import_job_run(job_id=job.pk)
+    assert job.status == ImportJob.Status.FAILED
+    assert "nothing was imported" in job.detail and "disk" not in job.detail
+    assert not Site.objects.filter(code="north").exists()
