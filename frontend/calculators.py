@@ -198,3 +198,21 @@ def calculate(*, name: str, values: dict, system: str) -> list[dict]:
         raise CalcError(
             {exc.field if exc.field in by_name else "non_field_errors": [_restate(exc, by_name, values, system)]}
         )
+
+
+def calculator_context() -> dict:
+    """What calc.js needs to work every figure offline with the same numbers: the inputs of each
+    calculator (name, label, quantity, SI range), the display-unit factors and the thresholds."""
+    from inspections.phone import constants, unit_table
+
+    return {
+        "calculators": {
+            c.name: [
+                {"name": i.name, "label": i.label, "quantity": i.quantity, "low": i.low_si, "high": i.high_si}
+                for i in c.inputs
+            ]
+            for c in CALCULATORS.values()
+        },
+        "units": unit_table(),
+        "constants": constants(),
+    }

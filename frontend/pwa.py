@@ -28,6 +28,7 @@ SHELL_STATIC = (
     "frontend/js/evaluate.js",
     "frontend/js/units.js",
     "frontend/js/calculator.js",
+    "frontend/js/calc.js",
     "frontend/js/signature.js",
     "frontend/icons/icon-192.png",
     "frontend/icons/icon-512.png",

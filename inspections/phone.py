@@ -82,11 +82,46 @@ def _slot(slot) -> dict[str, Any]:
     }
 
 
+def _requirement(ahu) -> dict[str, Any] | None:
+    """The unit's ventilation requirement (ASHRAE 62.1, worked on the server) as the numbers the phone shows."""
+    need = evaluation.ventilation_requirement(ahu)
+    if need is None:
+        return None
+    return {
+        "vot_m3s": need.vot_m3s,
+        "vbz_m3s": need.vbz_m3s,
+        "ez": need.ez,
+        "voz_m3s": need.voz_m3s,
+        "system": need.system,
+        "occupant_diversity": need.occupant_diversity,
+        "vou_m3s": need.vou_m3s,
+        "ev": need.ev,
+        "method": need.method,
+        "words": evaluation._requirement_words(need),
+    }
+
+
 def _site_pressure(ahu) -> float | None:
     try:
         return pressure_from_altitude(altitude_m=ahu.building.site.altitude_m)
     except EngineeringInputError:
         return None
+
+
+def constants() -> dict[str, Any]:
+    """The thresholds and defaults evaluate() judges with, as the phone (checklist and calculator) needs them."""
+    return {
+        "coil_tolerance_pct": evaluation.COIL_TOLERANCE_PCT,
+        "requirement_words": dict(evaluation.REQUIREMENT_WORDS),
+        "drift_defaults": {k: list(v) for k, v in evaluation.DRIFT_DEFAULTS.items()},
+        "drift_quantities": {k: list(v) for k, v in evaluation.DRIFT_QUANTITIES.items()},
+        "filter_exponent": filters.DEFAULT_EXPONENT,
+        "filter_airflow_ratio": list(filters.AIRFLOW_RATIO),
+        "filter_bypass_fail_fraction": filters.BYPASS_FAIL_FRACTION,
+        "filter_bypass_watch_fraction": filters.BYPASS_WATCH_FRACTION,
+        "filter_after_change_tolerance": filters.AFTER_CHANGE_TOLERANCE,
+        "filter_after_change_high_fail": filters.AFTER_CHANGE_HIGH_FAIL,
+    }
 
 
 def evaluation_context(
@@ -121,6 +156,7 @@ def evaluation_context(
             "space_label": evaluation.space_label(ahu),
             "site_pressure_pa": _site_pressure(ahu),
             "required_outdoor_airflow_m3s": evaluation.required_outdoor_airflow_m3s(ahu),
+            "ventilation_requirement": _requirement(ahu),
         },
         "components": [
             {"code": c.label_code, "name": c.name, "kind": c.kind, "specs": c.specs or {}} for c in components
@@ -130,17 +166,7 @@ def evaluation_context(
         "fluids": fluid_table(),
         "units": unit_table(),
         "decimals": {q: list(d) for q, d in reasons.DECIMALS.items()},
-        "constants": {
-            "coil_tolerance_pct": evaluation.COIL_TOLERANCE_PCT,
-            "drift_defaults": {k: list(v) for k, v in evaluation.DRIFT_DEFAULTS.items()},
-            "drift_quantities": {k: list(v) for k, v in evaluation.DRIFT_QUANTITIES.items()},
-            "filter_exponent": filters.DEFAULT_EXPONENT,
-            "filter_airflow_ratio": list(filters.AIRFLOW_RATIO),
-            "filter_bypass_fail_fraction": filters.BYPASS_FAIL_FRACTION,
-            "filter_bypass_watch_fraction": filters.BYPASS_WATCH_FRACTION,
-            "filter_after_change_tolerance": filters.AFTER_CHANGE_TOLERANCE,
-            "filter_after_change_high_fail": filters.AFTER_CHANGE_HIGH_FAIL,
-        },
+        "constants": constants(),
     }
 
 

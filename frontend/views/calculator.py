@@ -3,7 +3,7 @@
 from django.contrib.auth.decorators import login_required
 from django.shortcuts import render
 
-from ..calculators import CALCULATORS, CalcError, calculate, input_fields
+from ..calculators import CALCULATORS, CalcError, calculate, calculator_context, input_fields
 
 
 @login_required
@@ -32,4 +32,6 @@ def calculator(request):
                 "errors": errors.get("non_field_errors", []) if calc.name == answered else [],
             }
         )
-    return render(request, "frontend/technician/calculator.html", {"calcs": calcs})
+    return render(
+        request, "frontend/technician/calculator.html", {"calcs": calcs, "calculator_context": calculator_context()}
+    )

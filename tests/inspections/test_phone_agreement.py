@@ -94,10 +94,17 @@ def _slots(ahu, components) -> list[NS]:
 def _unit(rng: random.Random) -> tuple[NS, list[NS]]:
     design = rng.choice([0.8, 1.2, 0.8, 2.0, 3.0, 4.5, 0.7999])  # 1,695 cfm ≈ 0.8 m³/s
     kinds = list(ventilation.SPACE_KINDS)
+    full_oa = rng.random() < 0.1
+    zones = rng.choice(["single_zone", "multi_zone"])
     ahu = NS(
         design_supply_airflow_m3s=design,
         design_min_oa_fraction=rng.choice([0.1, 0.15, 0.2, 0.3, 0.5]),
-        full_outdoor_air=rng.random() < 0.1,
+        full_outdoor_air=full_oa,
+        ventilation_zones=zones,
+        ventilation_system="full_outdoor_air" if full_oa else zones,
+        air_distribution=rng.choice(list(ventilation.ZONE_AIR_DISTRIBUTION_EFFECTIVENESS)),
+        occupant_diversity=rng.choice([None, 0.6, 0.9]),
+        system_ventilation_efficiency=rng.choice([None, 0.7]),
         supply_air_setpoint_c=rng.choice([None, 13.0, 16.0, 18.5]),
         duct_static_setpoint_pa=rng.choice([None, 0.0, 250.0, 400.0]),
         space_kind=rng.choice(["", *kinds[:6]]),
@@ -511,3 +518,99 @@ def test_the_scenario_reading_fails_on_both(tmp_path):
     [js] = [r for r in out if r["check"] == "filter_loading" and r["component"] == bank.label_code]
     assert py["verdict"] == js["verdict"] == "fail"
     assert js["derived"]["loading_pct"] == pytest.approx(139.8, abs=0.1)
+
+
+# ---------------------------------------------------------------------------
+# The field calculator: frontend/calculators.py against calc.js
+# ---------------------------------------------------------------------------
+
+CALC_RUNNER = """
+import { readFileSync } from "node:fs";
+import { calculate, CALCULATORS } from "./calc.js";
+const { context, cases } = JSON.parse(readFileSync(process.argv[2], "utf8"));
+const out = cases.map((c) => {
+  try { return calculate(context, c.name, c.values, c.system); }
+  catch (error) { return { crash: String(error.stack || error) }; }
+});
+console.log(JSON.stringify({ calculators: CALCULATORS, out }));
+"""
+
+
+def _calc_case(rng: random.Random, name: str) -> dict:
+    system = rng.choice(["si", "us"])
+    if name == "oa-temperatures":
+        o, r = rng.uniform(-20, 35), rng.uniform(18, 26)
+        si = {"t_outdoor_c": o, "t_return_c": r, "t_mixed_c": r - rng.uniform(-0.2, 1.2) * (r - o)}
+        quantities = dict.fromkeys(si, "temperature")
+    elif name == "oa-co2":
+        o, r = rng.uniform(380, 450), rng.uniform(400, 1500)
+        si = {
+            "co2_outdoor_ppm": o,
+            "co2_return_ppm": r,
+            "co2_supply_or_mixed_ppm": r - rng.uniform(-0.2, 1.2) * (r - o),
+        }
+        quantities = dict.fromkeys(si, "co2")
+    elif name == "filter-loading":
+        qd = rng.uniform(0.5, 5.0)
+        clean = rng.uniform(40, 120)
+        si = {
+            "dp_pa": rng.uniform(10, 400),
+            "airflow_m3s": qd * rng.uniform(0.4, 1.6),
+            "design_airflow_m3s": qd,
+            "clean_dp_pa": clean,
+            "final_dp_pa": clean + rng.uniform(-20, 250),
+        }
+        quantities = {"dp_pa": "pressure", "clean_dp_pa": "pressure", "final_dp_pa": "pressure"}
+        quantities |= {"airflow_m3s": "airflow", "design_airflow_m3s": "airflow"}
+    else:
+        si = {"airflow_m3s": rng.uniform(0.1, 8), "t_in_c": rng.uniform(-30, 40), "t_out_c": rng.uniform(-10, 60)}
+        quantities = {"airflow_m3s": "airflow", "t_in_c": "temperature", "t_out_c": "temperature"}
+    values = {k: f"{checklists.to_display(v, quantities[k], system):.5g}" for k, v in si.items()}
+    if rng.random() < 0.05:
+        values[rng.choice(list(values))] = rng.choice(["", "abc", "1,5"])
+    return {"name": name, "values": values, "system": system}
+
+
+def test_calculator_works_offline_with_the_server_figures(tmp_path):
+    """calc.js gives every calculator's figures as frontend/calculators.py does, in SI and US units, 250 cases each."""
+    from frontend.calculators import CALCULATORS, CalcError, calculate, calculator_context
+
+    rng = random.Random(7)
+    cases = [_calc_case(rng, name) for name in CALCULATORS for _ in range(250)]
+    for module in JS.glob("*.js"):
+        shutil.copy(module, tmp_path / module.name)
+    (tmp_path / "runner.mjs").write_text(CALC_RUNNER)
+    (tmp_path / "package.json").write_text('{"type": "module"}')
+    (tmp_path / "cases.json").write_text(json.dumps({"context": calculator_context(), "cases": cases}))
+    proc = subprocess.run(
+        ["node", "runner.mjs", "cases.json"], capture_output=True, text=True, timeout=300, cwd=tmp_path, check=False
+    )
+    assert proc.returncode == 0, proc.stderr
+    js = json.loads(proc.stdout)
+    assert set(CALCULATORS) <= set(js["calculators"]), "a server calculator has no phone twin"
+    problems, answered = [], Counter()
+    for case, phone_answer in zip(cases, js["out"], strict=True):
+        try:
+            rows, errors = calculate(name=case["name"], values=case["values"], system=case["system"]), None
+        except CalcError as exc:
+            rows, errors = None, exc.errors
+        where = f"{case['name']} {case['system']} {case['values']}"
+        if "crash" in phone_answer:
+            problems.append(f"{where}: the phone failed: {phone_answer['crash']}")
+        elif errors is not None:
+            if set(errors) != set(phone_answer.get("errors") or {}):
+                problems.append(f"{where}: server refuses {errors}, phone {phone_answer}")
+        elif "rows" not in phone_answer:
+            problems.append(f"{where}: server {rows}, phone refuses {phone_answer.get('errors')}")
+        else:
+            answered[case["name"]] += 1
+            for p, j in zip(rows, phone_answer["rows"], strict=True):
+                same = (p["label"], p["unit"], p.get("verdict")) == (j["label"], j["unit"], j.get("verdict"))
+                if isinstance(p["value"], str):
+                    same = same and p["value"] == j["value"]
+                else:
+                    same = same and _close(float(p["value"]), float(j["value"]))
+                if not same:
+                    problems.append(f"{where}: server {p}, phone {j}")
+    assert not problems, f"{len(problems)} disagreements:\n" + "\n".join(problems[:20])
+    assert all(answered[name] >= 100 for name in CALCULATORS), answered

@@ -1,4 +1,12 @@
-// Field calculator: online the server computes (one set of formulas); offline only range checks.
+// Field calculator: every figure worked on the phone by calc.js (the twin of frontend/calculators.py,
+// proven equal by the agreement test), online or offline; the server answers only if the page came without
+// its calculator context.
+import { calculate } from "./calc.js";
+
+function calculatorContext() {
+  const node = document.getElementById("calculator-context");
+  try { return node ? JSON.parse(node.textContent) : null; } catch (error) { return null; }
+}
 function csrfToken() {
   const match = document.cookie.match(/(?:^|;\s*)csrftoken=([^;]+)/);
   return match ? decodeURIComponent(match[1]) : "";
@@ -36,6 +44,14 @@ function show(box, rows, errors, note) {
 
 async function run(form) {
   const box = form.querySelector("[data-calc-result]");
+  const ctx = calculatorContext();
+  if (ctx && ctx.calculators[form.dataset.calc]) {
+    const typed = Object.fromEntries([...form.querySelectorAll("input[type=number]")].map((i) => [i.name, i.value]));
+    const answer = calculate(ctx, form.dataset.calc, typed, document.body.dataset.units || "si");
+    if (answer.rows) show(box, answer.rows, [], "");
+    else show(box, [], Object.values(answer.errors).flat(), "");
+    return;
+  }
   const problems = rangeProblems(form);
   if (!navigator.onLine) {
     show(box, [], problems, problems.length ? "" : "Offline: the values are within range. The figure itself is worked out by the server (one set of formulas); it appears when the phone is back online.");

@@ -3,7 +3,9 @@
 // Pure: no DOM, no network. SI values in, SI values out; reasons as parts rendered in the
 // person's units (units.js). tests/inspections/test_phone_agreement.py runs both sides on
 // the same cases and fails on any disagreement, or on a server check this file lacks.
-import { render } from "./units.js";
+import { fixed, pyRound, render } from "./units.js";
+
+export { fixed, pyRound };
 
 export const OK = "ok";
 export const WATCH = "watch";
@@ -16,31 +18,19 @@ export const CHECKS = [
 ];
 
 const RANK = { ok: 0, watch: 1, fail: 2 };
-// How the outdoor-air fraction stands against the ventilation requirement, in words (as inspections/evaluation.py).
-const REQUIREMENT_WORDS = { ok: "met", watch: "cannot decide (the band spans it)", fail: "not met" };
 const worst = (...vs) => vs.reduce((a, b) => (RANK[b] > RANK[a] ? b : a), OK);
 
 // ---------------------------------------------------------------------------
 // Numbers as Python computes them
 // ---------------------------------------------------------------------------
 
-/** Python's round(x, d): half to even. */
-export function pyRound(x, d = 0) {
-  const f = 10 ** d;
-  const m = x * f;
-  const r = Math.round(m);
-  const half = Math.abs(m - Math.trunc(m)) === 0.5;
-  const out = half ? (r % 2 === 0 ? r : r - 1) : r;
-  return (out / f) || 0;
-}
-
 function fmtG(x) {
   // Python's v.fmt / "{:g}" for the short numbers in messages.
   return Number.isInteger(x) ? String(x) : String(Number(x.toPrecision(6)));
 }
 
-class EngineeringInputError extends Error {
-  constructor(field, message) { super(message); this.field = field; }
+export class EngineeringInputError extends Error {
+  constructor(field, message, { low = null, high = null } = {}) { super(message); this.field = field; this.low = low; this.high = high; }
 }
 
 function finite(name, value, label = "") {
@@ -64,7 +54,7 @@ function inRange(name, value, low, high, { unit = "", label = "", lowOpen = fals
       if (high !== null) parts.push(`${highOpen ? "below" : "at most"} ${fmtG(high)}${u}`);
       allowed = parts.join(" and ");
     }
-    throw new EngineeringInputError(name, `${label ? `${label} ` : ""}${name}=${fmtG(x)} is outside ${allowed}`);
+    throw new EngineeringInputError(name, `${label ? `${label} ` : ""}${name}=${fmtG(x)} is outside ${allowed}`, { low, high });
   }
   return x;
 }
@@ -91,7 +81,8 @@ export function correctedPressureDrop(ctx, dp, q, qd) {
   const r = q / qd;
   if (!(lo <= r && r <= hi)) {
     throw new EngineeringInputError("airflow_m3s",
-      `airflow ${fmtG(q)} m³/s is too far from design ${fmtG(qd)} m³/s (allowed ${lo}–${hi} × design) to correct the pressure drop reliably`);
+      `airflow ${fmtG(q)} m³/s is too far from design ${fmtG(qd)} m³/s (allowed ${lo}–${hi} × design) to correct the pressure drop reliably`,
+      { low: lo * qd, high: hi * qd });
   }
   return dp * r ** (-n);
 }
@@ -100,18 +91,23 @@ export function filterLoading(ctx, { dp, q, qd, clean, final, watchFraction = 0.
   const corrected = correctedPressureDrop(ctx, dp, q, qd);
   inRange("clean_dp_pa", clean, 0, 2500, { unit: "Pa", label: "clean filter pressure drop" });
   inRange("final_dp_pa", final, 0, 2500, { unit: "Pa", label: "final filter pressure drop" });
-  if (final <= clean) throw new EngineeringInputError("final_dp_pa", `final filter pressure drop ${fmtG(final)} Pa is not above the clean ${fmtG(clean)} Pa`);
+  if (final <= clean) throw new EngineeringInputError("final_dp_pa", `final filter pressure drop ${fmtG(final)} Pa is not above the clean ${fmtG(clean)} Pa`, { low: clean });
   const frac = (corrected - clean) / (final - clean);
   const f = pyRound(frac, 9);
   const ofClean = clean > 0 ? corrected / clean : 1.0;
   const r = pyRound(ofClean, 9);
   const c = ctx.constants;
+  const pct = (x) => fixed(x * 100, 0);
   if (r < c.filter_bypass_watch_fraction) {
     // Air going round or through torn media reads below clean (engineering.filters._below_clean).
-    return { corrected, fraction: frac, ofClean, bypass: true, verdict: r < c.filter_bypass_fail_fraction ? FAIL : WATCH };
+    const verdict = r < c.filter_bypass_fail_fraction ? FAIL : WATCH;
+    const word = verdict === FAIL ? "missing, torn or bypassed media" : "possibly torn or bypassed media";
+    const reason = `filter ${fixed(corrected, 0)} Pa at design airflow is ${pct(ofClean)} % of its clean pressure drop ${fixed(clean, 0)} Pa: ${word} (fail below ${pct(c.filter_bypass_fail_fraction)} %, watch below ${pct(c.filter_bypass_watch_fraction)} % of clean)`;
+    return { corrected, fraction: frac, ofClean, bypass: true, verdict, reason };
   }
   const verdict = f >= failFraction ? FAIL : f >= watchFraction ? WATCH : OK;
-  return { corrected, fraction: frac, ofClean, bypass: false, verdict };
+  const reason = `filter ${fixed(corrected, 0)} Pa at design airflow, ${pct(frac)} % of the way from clean ${fixed(clean, 0)} Pa to final ${fixed(final, 0)} Pa (watch from ${pct(watchFraction)} %, fail from ${pct(failFraction)} %)`;
+  return { corrected, fraction: frac, ofClean, bypass: false, verdict, reason };
 }
 
 /** The pressure drop read just after a change against the rated clean value (engineering.filters.filter_after_change). */
@@ -243,7 +239,7 @@ export function filterForecast(ctx, { points, qd, final, confidence = 0.9, minRi
   const rate = robustRate(usable.map(([h, dp]) => [h, dp]), confidence);
   const rise = rate.slope * (Math.max(...hours) - Math.min(...hours));
   if (rate.slope <= 0 || rise < minRise) {
-    throw new EngineeringInputError("points", `the pressure drop is not rising (trend ${rate.slope.toPrecision(3)} Pa per run-hour, ${rise.toFixed(1)} Pa over the readings; at least ${minRise} Pa needed): no forecast can be made`);
+    throw new EngineeringInputError("points", `the pressure drop is not rising (trend ${rate.slope.toPrecision(3)} Pa per run-hour, ${fixed(rise, 1)} Pa over the readings; at least ${minRise} Pa needed): no forecast can be made`);
   }
   const atFinal = rate.xAt(final);
   const early = rate.xAt(final, "high");
@@ -272,27 +268,28 @@ export function filterForecast(ctx, { points, qd, final, confidence = 0.9, minRi
   };
 }
 
-function oaFraction({ method, outdoor, ret, mixed, accO, accR, accM, minDifference, maxUncertainty = 0.5, unit }) {
+function oaFraction({ method, outdoor, ret, mixed, accO, accR, accM, minDifference, maxUncertainty = 0.5, unit, names }) {
   const diff = ret - outdoor;
   if (Math.abs(diff) < minDifference) {
-    throw new EngineeringInputError("outdoor", `cannot compute an outdoor-air fraction by ${method}: outdoor and return differ by ${fmtG(pyRound(Math.abs(diff), 3))} ${unit === "°C" ? "K" : unit}; they must differ by at least ${fmtG(minDifference)} ${unit === "°C" ? "K" : unit}`);
+    throw new EngineeringInputError(names[0], `cannot compute an outdoor-air fraction by ${method}: outdoor and return differ by ${fmtG(pyRound(Math.abs(diff), 3))} ${unit === "°C" ? "K" : unit}; they must differ by at least ${fmtG(minDifference)} ${unit === "°C" ? "K" : unit}`);
   }
   const x = (ret - mixed) / diff;
   const u = Math.sqrt((accM / diff) ** 2 + ((accO * (ret - mixed)) / diff ** 2) ** 2 + ((accR * (mixed - outdoor)) / diff ** 2) ** 2);
   if (u >= maxUncertainty) {
-    throw new EngineeringInputError("mixed", `cannot compute an outdoor-air fraction by ${method}: the result would be ${x.toFixed(2)} ± ${u.toFixed(2)}, and an uncertainty of ±${maxUncertainty} or more says nothing`);
+    throw new EngineeringInputError(names[2], `cannot compute an outdoor-air fraction by ${method}: the result would be ${fixed(x, 2)} ± ${fixed(u, 2)}, and an uncertainty of ±${maxUncertainty} or more says nothing`);
   }
   if (x < -u || x > 1 + u) {
-    throw new EngineeringInputError("mixed", `mixed ${fmtG(mixed)} ${unit} is not between outdoor ${fmtG(outdoor)} ${unit} and return ${fmtG(ret)} ${unit} (even allowing ±${u.toFixed(2)} for sensor accuracy): check sensor placement, stratification or a heat source upstream`);
+    throw new EngineeringInputError(names[2], `mixed ${fmtG(mixed)} ${unit} is not between outdoor ${fmtG(outdoor)} ${unit} and return ${fmtG(ret)} ${unit} (even allowing ±${fixed(u, 2)} for sensor accuracy): check sensor placement, stratification or a heat source upstream`);
   }
-  return { fraction: Math.min(Math.max(x, 0), 1), uncertainty: u };
+  const fraction = Math.min(Math.max(x, 0), 1);
+  return { fraction, uncertainty: u, low: Math.max(fraction - u, 0), high: Math.min(fraction + u, 1) };
 }
 
 export function oaFractionFromTemperatures(o, r, m, accuracy = 0.5) {
   airTemperature("t_outdoor_c", o, "outdoor air temperature");
   airTemperature("t_return_c", r, "return air temperature");
   airTemperature("t_mixed_c", m, "mixed air temperature");
-  return oaFraction({ method: "temperature", outdoor: o, ret: r, mixed: m, accO: accuracy, accR: accuracy, accM: accuracy, minDifference: 3.0, unit: "°C" });
+  return oaFraction({ method: "temperature", outdoor: o, ret: r, mixed: m, accO: accuracy, accR: accuracy, accM: accuracy, minDifference: 3.0, unit: "°C", names: ["t_outdoor_c", "t_return_c", "t_mixed_c"] });
 }
 
 export function oaFractionFromCo2(o, r, m, accPpm = 50, accPct = 3) {
@@ -300,16 +297,16 @@ export function oaFractionFromCo2(o, r, m, accPpm = 50, accPct = 3) {
   co2("co2_return_ppm", r);
   co2("co2_supply_or_mixed_ppm", m);
   const a = (c) => accPpm + (accPct / 100) * c;
-  return oaFraction({ method: "co2", outdoor: o, ret: r, mixed: m, accO: a(o), accR: a(r), accM: a(m), minDifference: 100.0, unit: "ppm" });
+  return oaFraction({ method: "co2", outdoor: o, ret: r, mixed: m, accO: a(o), accR: a(r), accM: a(m), minDifference: 100.0, unit: "ppm", names: ["co2_outdoor_ppm", "co2_return_ppm", "co2_supply_or_mixed_ppm"] });
 }
 
 function fractionCheck(x, u, mn) {
   const lo = x - u;
   const hi = x + u;
-  const text = `outdoor-air fraction ${(x * 100).toFixed(0)} % ± ${(u * 100).toFixed(0)} points`;
-  if (lo >= mn) return { verdict: OK, reason: `${text} is at or above the minimum ${(mn * 100).toFixed(0)} %` };
-  if (hi < mn) return { verdict: FAIL, reason: `${text} is below the minimum ${(mn * 100).toFixed(0)} %` };
-  return { verdict: WATCH, reason: `cannot decide: ${text} spans the minimum ${(mn * 100).toFixed(0)} %; measure again when outdoor and return differ more` };
+  const text = `outdoor-air fraction ${fixed(x * 100, 0)} % ± ${fixed(u * 100, 0)} points`;
+  if (lo >= mn) return { verdict: OK, reason: `${text} is at or above the minimum ${fixed(mn * 100, 0)} %` };
+  if (hi < mn) return { verdict: FAIL, reason: `${text} is below the minimum ${fixed(mn * 100, 0)} %` };
+  return { verdict: WATCH, reason: `cannot decide: ${text} spans the minimum ${fixed(mn * 100, 0)} %; measure again when outdoor and return differ more` };
 }
 
 /** Density and c_p of a coil fluid at a temperature, interpolated in the server's 1 K table. */
@@ -377,10 +374,10 @@ function heatRecoveryEffectiveness(o, s, e, accuracy = 0.5) {
   const x = (s - o) / diff;
   const u = accuracy * Math.sqrt((1 / diff) ** 2 + ((s - e) / diff ** 2) ** 2 + ((s - o) / diff ** 2) ** 2);
   if (u >= 0.2) {
-    throw new EngineeringInputError("t_extract_c", `cannot compute a heat-recovery effectiveness: with the sensor accuracy given the result would be ${x.toFixed(2)} ± ${u.toFixed(2)}; outdoor and extract differ by only ${fmtG(pyRound(Math.abs(diff), 3))} K`);
+    throw new EngineeringInputError("t_extract_c", `cannot compute a heat-recovery effectiveness: with the sensor accuracy given the result would be ${fixed(x, 2)} ± ${fixed(u, 2)}; outdoor and extract differ by only ${fmtG(pyRound(Math.abs(diff), 3))} K`);
   }
   if (x < -u || x > 1 + u) {
-    throw new EngineeringInputError("t_supply_after_recovery_c", `supply after recovery ${fmtG(s)} °C is not between outdoor ${fmtG(o)} °C and extract ${fmtG(e)} °C (even allowing ±${u.toFixed(2)}): check that the sensor sits after the exchanger and before any heating or cooling coil`);
+    throw new EngineeringInputError("t_supply_after_recovery_c", `supply after recovery ${fmtG(s)} °C is not between outdoor ${fmtG(o)} °C and extract ${fmtG(e)} °C (even allowing ±${fixed(u, 2)}): check that the sensor sits after the exchanger and before any heating or cooling coil`);
   }
   return { effectiveness: Math.min(Math.max(x, 0), 1), uncertainty: u };
 }
@@ -389,13 +386,13 @@ function heatRecoveryCheck(x, u, design, watch = 5.0, fail = 15.0) {
   const pct = x * 100;
   const uPct = u * 100;
   const below = design - pct;
-  const text = `effectiveness ${pct.toFixed(0)} % ± ${uPct.toFixed(0)} points against design ${design.toFixed(0)} % (watch beyond ${watch} points below, fail beyond ${fail})`;
+  const text = `effectiveness ${fixed(pct, 0)} % ± ${fixed(uPct, 0)} points against design ${fixed(design, 0)} % (watch beyond ${watch} points below, fail beyond ${fail})`;
   if (pyRound(below, 9) <= watch) return { verdict: OK, below, reason: text };
   if (pyRound(design - (pct + uPct), 9) <= fail) {
     const decided = pyRound(below, 9) <= fail;
-    return { verdict: WATCH, below, reason: `${decided ? "" : "cannot decide between watch and fail: "}${text}; ${below.toFixed(0)} points below design` };
+    return { verdict: WATCH, below, reason: `${decided ? "" : "cannot decide between watch and fail: "}${text}; ${fixed(below, 0)} points below design` };
   }
-  return { verdict: FAIL, below, reason: `${text}; ${below.toFixed(0)} points below design` };
+  return { verdict: FAIL, below, reason: `${text}; ${fixed(below, 0)} points below design` };
 }
 
 // ---------------------------------------------------------------------------
@@ -455,7 +452,7 @@ function supplyAirflow(form) {
   if (speed && fan && fan.specs.design_speed_rpm && fan.specs.design_flow_m3s) {
     const rpm = speed * 60; // stored rev/s, engineering.units rotational_speed
     const flow = (fan.specs.design_flow_m3s * rpm) / fan.specs.design_speed_rpm; // first fan law
-    return [flow, `from fan speed ${rpm.toFixed(0)} rpm by the first fan law`];
+    return [flow, `from fan speed ${fixed(rpm, 0)} rpm by the first fan law`];
   }
   return [form.unit.design_supply_airflow_m3s, "design airflow assumed (not measured)"];
 }
@@ -498,13 +495,13 @@ function filterChecks(form, consumed) {
       fraction_of_clean_pct: pyRound(loading.ofClean * 100, 1), media_bypass_suspected: loading.bypass,
     };
     const c = form.ctx.constants;
-    res.method = `Δp × (Q_design/Q)^${c.filter_exponent} against the clean-to-final span; below ${(c.filter_bypass_fail_fraction * 100).toFixed(0)} % of clean fails, below ${(c.filter_bypass_watch_fraction * 100).toFixed(0)} % watch (missing, torn or bypassed media; common practice); airflow ${how}`;
+    res.method = `Δp × (Q_design/Q)^${c.filter_exponent} against the clean-to-final span; below ${fixed(c.filter_bypass_fail_fraction * 100, 0)} % of clean fails, below ${fixed(c.filter_bypass_watch_fraction * 100, 0)} % watch (missing, torn or bypassed media; common practice); airflow ${how}`;
     if (loading.bypass) {
       // A reading below clean says nothing about loading: no forecast from it.
       say(res, `${bank.name}: filter reads `, q(loading.corrected, "pressure"),
-        ` at design airflow, ${(loading.ofClean * 100).toFixed(0)} % of its clean pressure drop `, q(specs.clean_dp_pa, "pressure"),
+        ` at design airflow, ${fixed(loading.ofClean * 100, 0)} % of its clean pressure drop `, q(specs.clean_dp_pa, "pressure"),
         `: ${res.verdict === FAIL ? "missing, torn or bypassed media" : "lower than a filter in service should read, check for torn or bypassed media"}`
-        + ` (fail below ${(c.filter_bypass_fail_fraction * 100).toFixed(0)} %, watch below ${(c.filter_bypass_watch_fraction * 100).toFixed(0)} % of clean)`);
+        + ` (fail below ${fixed(c.filter_bypass_fail_fraction * 100, 0)} %, watch below ${fixed(c.filter_bypass_watch_fraction * 100, 0)} % of clean)`);
       out.push(res);
       continue;
     }
@@ -529,7 +526,7 @@ function filterChecks(form, consumed) {
         res.derived.forecast_note = exc.message;
       }
     }
-    say(res, `${bank.name}: filter at ${pct.toFixed(0)} % of its span after correcting to design airflow (`,
+    say(res, `${bank.name}: filter at ${fixed(pct, 0)} % of its span after correcting to design airflow (`,
       q(loading.corrected, "pressure"), " at design, clean ", q(specs.clean_dp_pa, "pressure"),
       ", final ", q(specs.final_dp_pa, "pressure"), `)${forecastText}`);
     out.push(res);
@@ -564,7 +561,7 @@ function filterChangeChecks(form, consumed) {
       dp_pa: dp, airflow_m3s: flow, airflow_source: how, design_airflow_m3s: qd, corrected_dp_pa: pyRound(chk.corrected, 1),
       clean_dp_pa: clean, fraction_of_clean_pct: pyRound(chk.ofClean * 100, 1), media_bypass_suspected: chk.bypass,
     };
-    const pctOf = (x) => (x * 100).toFixed(0);
+    const pctOf = (x) => fixed(x * 100, 0);
     res.method = `Δp × (Q_design/Q)^${c.filter_exponent} against the rated clean pressure drop: ok within ±${pctOf(tol)} %, fail below ${pctOf(c.filter_bypass_fail_fraction)} % or above ${pctOf(c.filter_after_change_high_fail)} % (common practice); airflow ${how}`;
     const r = pyRound(chk.ofClean, 9);
     let what = "as rated";
@@ -589,7 +586,6 @@ function oaChecks(form) {
     ["co2", "ventilation_check.supply_co2", ["ventilation_check.outdoor_co2", "ventilation_check.return_co2", "ventilation_check.supply_co2"],
       (o, r, m) => oaFractionFromCo2(o, r, m)],
   ];
-  const requiredQ = u.required_outdoor_airflow_m3s;
   for (const [method, item, keys, compute] of pairs) {
     const vals = keys.map((k) => form.num(k));
     if (vals.some((x) => x === null)) continue;
@@ -605,34 +601,53 @@ function oaChecks(form) {
       continue;
     }
     const oaQ = frac.fraction * flow;
+    const need = u.ventilation_requirement;
+    const designMinQ = u.design_min_oa_fraction * u.design_supply_airflow_m3s;
     res.derived = {
       oa_fraction: pyRound(frac.fraction, 3), uncertainty: pyRound(frac.uncertainty, 3),
       outdoor_airflow_m3s: pyRound(oaQ, 3), supply_airflow_m3s: flow, airflow_source: how,
       design_min_oa_fraction: u.design_min_oa_fraction,
-      design_min_outdoor_airflow_m3s: pyRound(u.design_min_oa_fraction * u.design_supply_airflow_m3s, 3),
+      design_min_outdoor_airflow_m3s: pyRound(designMinQ, 3),
     };
+    if (need) {
+      Object.assign(res.derived, {
+        required_outdoor_airflow_m3s: pyRound(need.vot_m3s, 3),
+        breathing_zone_outdoor_airflow_m3s: pyRound(need.vbz_m3s, 3),
+        zone_air_distribution_effectiveness: need.ez,
+        zone_outdoor_airflow_m3s: pyRound(need.voz_m3s, 3),
+        ventilation_system: need.system,
+        occupant_diversity: need.occupant_diversity,
+        uncorrected_outdoor_airflow_m3s: need.vou_m3s === null ? null : pyRound(need.vou_m3s, 3),
+        system_ventilation_efficiency: need.ev === null ? null : pyRound(need.ev, 3),
+        // Above what the unit was designed to take in: the design, not the upkeep, falls short.
+        design_shortfall: need.vot_m3s > designMinQ,
+      });
+    }
     const label = method === "temperature" ? "temperatures" : "CO2";
-    res.method = `mixing balance from ${label}; outdoor airflow = fraction × supply airflow (${how})`;
+    res.method = `mixing balance from ${label}; outdoor airflow = fraction × supply airflow (${how})${need ? `; requirement by ASHRAE 62.1: ${need.method}` : ""}`;
     if (u.full_outdoor_air) {
       res.verdict = OK;
-      res.reason = `100 % outdoor-air unit; measured fraction ${(frac.fraction * 100).toFixed(0)} %`;
+      res.reason = `100 % outdoor-air unit; measured fraction ${fixed(frac.fraction * 100, 0)} %`;
       out.push(res);
       continue;
     }
+    const words = form.ctx.constants.requirement_words;
     const chk = fractionCheck(frac.fraction, frac.uncertainty, u.design_min_oa_fraction);
     let verdict = chk.verdict;
-    const parts = [`by ${label}: ${chk.reason} (design minimum; `, q(oaQ, "airflow"), " outdoor air)"];
-    if (requiredQ !== null && requiredQ !== undefined && flow > 0) {
-      res.derived.required_outdoor_airflow_m3s = pyRound(requiredQ, 3);
-      const need = Math.min(requiredQ / flow, 1.0);
-      const req = fractionCheck(frac.fraction, frac.uncertainty, need);
+    const parts = [
+      `by ${label}: outdoor air ${fixed(frac.fraction * 100, 0)} % ± ${fixed(frac.uncertainty * 100, 0)} points (`, q(oaQ, "airflow"),
+      `); the unit's design minimum ${fixed(u.design_min_oa_fraction * 100, 0)} % (`, q(designMinQ, "airflow"), `): ${words[chk.verdict]}`,
+    ];
+    if (need && flow > 0) {
+      const share = Math.min(need.vot_m3s / flow, 1.0);
+      const req = fractionCheck(frac.fraction, frac.uncertainty, share);
       verdict = worst(verdict, req.verdict);
-      parts.push(
-        "; ventilation requirement ", q(requiredQ, "airflow"),
-        ` = ${(need * 100).toFixed(0)} % of the supply air for ${u.space_label || "the space served"} ` +
-          `(ASHRAE 62.1 ventilation rate procedure): ${REQUIREMENT_WORDS[req.verdict]}`,
-      );
-      res.method += "; requirement Vbz = Rp·Pz + Ra·Az, Ez = 1";
+      parts.push("; the space needs ", q(need.vot_m3s, "airflow"),
+        ` = ${fixed(share * 100, 0)} % of the supply air for ${u.space_label || "the space served"} (${need.words}, ASHRAE 62.1 ventilation rate procedure): ${words[req.verdict]}`);
+      if (res.derived.design_shortfall) {
+        parts.push("; the requirement is above the unit's design minimum outdoor air ", q(designMinQ, "airflow"), ": the design falls short");
+      }
+      if (verdict !== chk.verdict) parts.push("; judged by the requirement");
     }
     res.verdict = verdict;
     say(res, parts);
@@ -685,7 +700,7 @@ function coilChecks(form) {
       res.verdict = bal.verdict;
       const which = bal.differencePct > 0 ? "air side higher" : "water side higher";
       const parts = [`${coil.name}: air side `, q(Math.abs(air), "heat_rate"), ", water side ", q(Math.abs(water), "heat_rate"),
-        `: ${Math.abs(bal.differencePct).toFixed(1)} % apart (${which}; ok within ${tol} %, watch within ${2 * tol} %)`];
+        `: ${fixed(Math.abs(bal.differencePct), 1)} % apart (${which}; ok within ${tol} %, watch within ${2 * tol} %)`];
       if (coil.specs.duty === "cooling" && res.verdict === FAIL) {
         res.verdict = WATCH; // latent heat is not measured: a wet cooling coil reads high on the water side
         parts.push(" (cooling coil: air side is sensible only, latent heat not measured)");
@@ -735,7 +750,7 @@ function setpointChecks(form, consumed) {
         method: "deviation as % of set point, 10 % / 20 % (common practice)",
         derived: { static_pa: p, setpoint_pa: sp, deviation_pct: pyRound(dev, 1) },
       });
-      say(res, "static pressure ", q(p, "pressure"), `, ${Math.abs(dev).toFixed(1)} % ${dev > 0 ? "above" : "below"} set point `,
+      say(res, "static pressure ", q(p, "pressure"), `, ${fixed(Math.abs(dev), 1)} % ${dev > 0 ? "above" : "below"} set point `,
         q(sp, "pressure"), " (watch above 10 %, fail above 20 %)");
       out.push(res);
     }
@@ -748,10 +763,10 @@ function setpointChecks(form, consumed) {
     inRange("commanded_pct", cmd, 0, 100, { unit: "%", label: "commanded position" });
     inRange("measured_pct", pos, 0, 100, { unit: "%", label: "measured position" });
     const dev = pos - cmd;
-    const where = pyRound(dev, 1) === 0 ? "matching" : `${Math.abs(dev).toFixed(1)} points ${dev > 0 ? "more open" : "more closed"} than`;
+    const where = pyRound(dev, 1) === 0 ? "matching" : `${fixed(Math.abs(dev), 1)} points ${dev > 0 ? "more open" : "more closed"} than`;
     out.push(result({
       check: "damper_position", item: "damper_actuator.position", component: damper.code, verdict: grade(dev, 5, 10),
-      reason: `${damper.name}: damper at ${pos.toFixed(0)} %, ${where} commanded ${cmd.toFixed(0)} % (watch above 5 points, fail above 10 points)`,
+      reason: `${damper.name}: damper at ${fixed(pos, 0)} %, ${where} commanded ${fixed(cmd, 0)} % (watch above 5 points, fail above 10 points)`,
       condition_code: "damper_position", method: "position − command, 5 / 10 points (common practice)",
       derived: { commanded_pct: cmd, measured_pct: pos, error_pct: pyRound(dev, 1) },
     }));
@@ -820,7 +835,7 @@ function heatRecoveryChecks(form) {
     const design = hx.specs.design_effectiveness_pct;
     if (design === undefined || design === null) {
       res.verdict = WATCH;
-      say(res, `${hx.name}: effectiveness ${pct.toFixed(0)} % ± ${uPct.toFixed(0)} points`, temps, "; no design effectiveness in the registry to judge it against");
+      say(res, `${hx.name}: effectiveness ${fixed(pct, 0)} % ± ${fixed(uPct, 0)} points`, temps, "; no design effectiveness in the registry to judge it against");
       out.push(res);
       continue;
     }

@@ -33,11 +33,26 @@ export function unitLabel(units, quantity, system) {
   return q[system === "us" ? "us" : "si"].label;
 }
 
+/** Python's round(x, d): half to even. */
+export function pyRound(x, d = 0) {
+  const f = 10 ** d;
+  const m = x * f;
+  const r = Math.round(m);
+  const half = Math.abs(m - Math.trunc(m)) === 0.5;
+  const out = half ? (r % 2 === 0 ? r : r - 1) : r;
+  return (out / f) || 0;
+}
+
+/** Python's f"{x:.{d}f}": a tie rounds to even, as Python formats it. */
+export function fixed(x, d) {
+  return pyRound(x, d).toFixed(d);
+}
+
 /** Python's f"{x:,.{d}f}" (thousands grouped from 10 000), with a true minus sign. */
 export function formatNumber(x, decimals) {
   let text = Math.abs(x) >= 10000
-    ? x.toLocaleString("en-US", { minimumFractionDigits: decimals, maximumFractionDigits: decimals })
-    : x.toFixed(decimals);
+    ? pyRound(x, decimals).toLocaleString("en-US", { minimumFractionDigits: decimals, maximumFractionDigits: decimals })
+    : fixed(x, decimals);
   if (Number(text.replace(/,/g, "")) === 0) text = text.replace(/^-/, "");
   return text.replace("-", "−");
 }
