@@ -99,7 +99,8 @@ def test_technician_visit_from_checklist_to_completed_work_and_approved_correcti
         "sensor_drift",
     } <= verdicts
     [finding] = first["findings"]
-    assert finding["title"].startswith("Deficiency: Water poured into the pan drains away freely")
+    assert finding["title"] == "Condensate drain pan: Water poured into the pan drains away freely — Drain pan"
+    assert "times_seen" in finding and finding["times_seen"] == 1
     cwo = Finding.objects.get(pk=finding["id"]).corrective_work_order
     assert cwo.approval == WorkOrder.Approval.PENDING
     corrective_work_order_approve(work_order=cwo, by=boss)
