@@ -76,3 +76,37 @@ def test_reduced_airflow_filter_reading_fails_on_the_phone_offline_and_on_the_se
     reading = Reading.objects.get(inspection=inspection, item__key="dp", component=bank)
     assert reading.verdict == "fail"
     assert not any("note" in f.get("reason", "") for f in inspection.flags)
+
+
+def test_calculator_works_offline_in_the_persons_units(page, context, live_server):
+    """Offline, the field calculator still works the filter loading figure in US units, as the server would.
+
+    0.75 in. w.c. at 1,200 cfm, design 1,695 cfm, clean 0.32 and final 1.00 in. w.c.: 186.8 × (1695/1200)^1.5
+    = 313.6 Pa = 1.26 in. w.c. at design airflow (n = 1.5, common practice), 137 % of the span: fail.
+    """
+    from frontend.calculators import calculate
+    from tests.frontend import scenario as scenario_module
+
+    scenario_module.build(unit_system="us")
+    typed = {"dp_pa": "0.75", "airflow_m3s": "1200", "design_airflow_m3s": "1695", "clean_dp_pa": "0.32"}
+    typed["final_dp_pa"] = "1.00"
+    server = {r["label"]: r["value"] for r in calculate(name="filter-loading", values=typed, system="us")}
+
+    page.set_viewport_size(PHONE)
+    page.goto(f"{live_server.url}/login/")
+    page.get_by_label("Username").fill("tess")
+    page.get_by_label("Password").fill(scenario_module.PASSWORD)
+    page.get_by_role("button", name="Sign in").click()
+    expect(page).to_have_url(re.compile(r"/today/$"))
+    page.goto(f"{live_server.url}/calc/")
+    wait_app(page)
+    context.set_offline(True)
+    form = page.locator("form[data-calc='filter-loading']")
+    for name, value in typed.items():
+        form.locator(f"input[name='{name}']").fill(value)
+    form.get_by_role("button", name="Calculate").click()
+    result = form.locator("[data-calc-result]")
+    expect(result.locator(".verdict")).to_have_text("fail")
+    expect(result).to_contain_text(f"{server['Pressure drop at design airflow']} in. w.c.")
+    expect(result).to_contain_text(f"{server['Loading (clean = 0 %, final = 100 %)']} %")
+    assert server["Verdict"] == "fail"

@@ -54,7 +54,7 @@ async function run(form) {
   }
   const problems = rangeProblems(form);
   if (!navigator.onLine) {
-    show(box, [], problems, problems.length ? "" : "Offline: the values are within range. The figure itself is worked out by the server (one set of formulas); it appears when the phone is back online.");
+    show(box, [], problems, problems.length ? "" : "Offline, and this copy of the page has no calculator data: open it once with a connection so the phone keeps it.");
     return;
   }
   if (problems.length) { show(box, [], problems, ""); return; }
