@@ -114,3 +114,31 @@ def test_a_job_that_breaks_while_writing_stores_nothing_and_says_so(world, monke
     assert job.status == ImportJob.Status.FAILED
     assert "nothing was imported" in job.detail and "disk" not in job.detail
     assert not Site.objects.filter(code="north").exists()
+
+
+def test_progress_is_saved_as_rows_are_checked(world, monkeypatch):
+    """The job's rows done move in steps while the file is checked and end at the total."""
+    from inventory import csv_io
+
+    monkeypatch.setattr(csv_io, "PROGRESS_EVERY", 2)
+    seen = []
+    real_update = import_jobs.ImportJob.objects.filter
+
+    def spy(*args, **kwargs):
+        qs = real_update(*args, **kwargs)
+        original = qs.update
+
+        def update(**fields):
+            if "rows_done" in fields:
+                seen.append(fields["rows_done"])
+            return original(**fields)
+
+        qs.update = update
+        return qs
+
+    text = "code,name,latitude,longitude\n" + "".join(f"s{n},Site {n},52,5\n" for n in range(5))
+    job = import_jobs.import_job_create(organisation=world.org_a, kind="sites", text=text, by=None)
+    monkeypatch.setattr(import_jobs.ImportJob.objects, "filter", spy)
+    job = import_jobs.import_job_run(job_id=job.pk)
+    assert seen == [0, 2, 4, 5, 5]
+    assert (job.status, job.rows_done, job.rows_total, job.created) == (ImportJob.Status.DONE, 5, 5, 5)
