@@ -40,10 +40,10 @@ REL_TOL = 0.005  # 0.5 % of the larger magnitude
 RUNNER = """
 import { readFileSync } from "node:fs";
 import { evaluate, CHECKS } from "./evaluate.js";
-const cases = JSON.parse(readFileSync(process.argv[2], "utf8"));
+const { shared, cases } = JSON.parse(readFileSync(process.argv[2], "utf8"));
 const out = cases.map((c) => {
   try {
-    return { results: evaluate(c.context, c.readings, { finishedOn: c.finished_on }) };
+    return { results: evaluate({ ...c.context, ...shared }, c.readings, { finishedOn: c.finished_on }) };
   } catch (error) {
     return { error: String(error && error.stack || error) };
   }
@@ -409,7 +409,12 @@ def run_js(inputs: list[dict], tmp_path: Path) -> dict:
         shutil.copy(module, tmp_path / module.name)
     (tmp_path / "runner.mjs").write_text(RUNNER)
     (tmp_path / "package.json").write_text('{"type": "module"}')
-    (tmp_path / "cases.json").write_text(json.dumps(inputs))
+    # The tables every context carries alike (units, fluids, thresholds) are sent once.
+    shared_keys = ("units", "fluids", "decimals", "constants")
+    shared = {k: inputs[0]["context"][k] for k in shared_keys} if inputs else {}
+    for i in inputs:
+        assert all(i["context"].pop(k) == shared[k] for k in shared_keys)
+    (tmp_path / "cases.json").write_text(json.dumps({"shared": shared, "cases": inputs}))
     proc = subprocess.run(
         ["node", "runner.mjs", "cases.json"], capture_output=True, text=True, timeout=300, cwd=tmp_path, check=False
     )
