@@ -53,7 +53,7 @@ from collections import defaultdict
 from collections.abc import Iterable
 from dataclasses import dataclass, field
 
-from django.db.models import Q
+from django.db.models import Exists, OuterRef, Q
 
 from engineering.freeze import daily_minimums_from_normals
 from inventory.models import AHU, Component, ComponentKind, Site
@@ -311,7 +311,7 @@ def freeze_readiness(
     """Readiness of every unit with freeze protection among ``units`` (in their order), at ``as_of``.
 
     Tenancy is the caller's: pass only visible units, with ``building__site`` selected. A fixed
-    number of queries whatever the number of units (four at most). ``today_of`` gives each site's
+    number of queries whatever the number of units (three; four when a test was amended). ``today_of`` gives each site's
     local date at ``as_of`` ({site id: date}); computed from the sites' time zones when not given.
     """
     protected = protected_units(units=units)
@@ -321,24 +321,35 @@ def freeze_readiness(
     # Step verdicts of every test: the form's judgements, then amendments in order.
     verdicts: dict[int, dict[tuple[str, int | None], str | None]] = defaultdict(dict)
     test_of: dict[int, tuple[int, dt.datetime]] = {}  # inspection id: (unit id, finished at)
-    for insp_id, ahu_id, finished_at, key, comp_id, verdict in (
+    amended: set[int] = set()
+    corrected = Amendment.objects.filter(inspection_id=OuterRef("inspection_id"), created_at__lte=as_of)
+    for insp_id, ahu_id, finished_at, key, comp_id, verdict, has_amendment in (
         Evaluation.objects.filter(
             inspection__ahu_id__in=ids,
             inspection__finished_at__lte=as_of,
             item_key__startswith=f"{TEMPLATE}.",
             amendment__isnull=True,
         )
+        .annotate(has_amendment=Exists(corrected))
         .order_by("pk")
         .values_list(
-            "inspection_id", "inspection__ahu_id", "inspection__finished_at", "item_key", "component_id", "verdict"
+            "inspection_id",
+            "inspection__ahu_id",
+            "inspection__finished_at",
+            "item_key",
+            "component_id",
+            "verdict",
+            "has_amendment",
         )
     ):
         test_of[insp_id] = (ahu_id, finished_at)
         verdicts[insp_id][(key, comp_id)] = verdict
-    if test_of:
+        if has_amendment:
+            amended.add(insp_id)
+    if amended:  # read only when a test was corrected: most portfolios pay no query for it
         labels = {code: pk for parts in protected.values() for pk, _, _, code in parts}
         for insp_id, changes in (
-            Amendment.objects.filter(inspection_id__in=list(test_of), created_at__lte=as_of)
+            Amendment.objects.filter(inspection_id__in=list(amended), created_at__lte=as_of)
             .order_by("created_at", "pk")
             .values_list("inspection_id", "changes")
         ):

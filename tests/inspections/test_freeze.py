@@ -3,9 +3,23 @@
 Season from 20 October 2025; its window opened 15 April 2025 (the last cold day of the season before).
 """
 
+import datetime as dt
 from datetime import date
 
-from inspections.freeze import DONE_LATE, DUE, NOT_READY, READY, UNKNOWN, FreezeTest, OpenFinding, freeze_verdict
+import pytest
+
+from inspections.freeze import (
+    DONE_LATE,
+    DUE,
+    NOT_READY,
+    READY,
+    UNKNOWN,
+    FreezeTest,
+    OpenFinding,
+    freeze_readiness,
+    freeze_verdict,
+)
+from tests.reports import builders as b
 
 D = date.fromisoformat
 START, OPENS = D("2025-10-20"), D("2025-04-15")
@@ -77,3 +91,94 @@ def test_untested_in_the_window_is_due_before_the_season_and_not_ready_after():
 def test_unknown_season_stays_unknown_unless_a_fault_is_known():
     assert verdict([PASSED], D("2025-10-05"), start=None, opens=None).status == UNKNOWN
     assert verdict([FAILED], D("2025-10-05"), start=None, opens=None).status == NOT_READY
+
+
+# ---------------------------------------------------------------------------
+# From the database: which judgements make a test, amendments, query count
+# ---------------------------------------------------------------------------
+
+AS_OF = dt.datetime(2025, 10, 10, 12, tzinfo=dt.UTC)
+
+
+@pytest.fixture
+def unit(db):
+    """A unit with a two-stage electric preheater on a site whose season starts 20 October 2025 (mild normals:
+    the window opens a year before)."""
+    from accounts.models import Role
+    from tests.factories.accounts import OrganisationFactory, make_person
+    from tests.factories.inventory import AHUFactory, BuildingFactory, ComponentFactory, SiteFactory
+
+    org = OrganisationFactory()
+    site = SiteFactory(
+        organisation=org, freeze_season_start=START, normals_min_c=[10.0] * 12, normals_max_c=[20.0] * 12
+    )
+    ahu = AHUFactory(building=BuildingFactory(site=site), tag="AHU-F1")
+    heater = ComponentFactory(
+        ahu=ahu, kind="electric_preheater", name="Preheater", specs={"power_w": 12000, "stages": 2, "switch_on_c": -3}
+    )
+    tech = make_person(organisation=org, role=Role.TECHNICIAN)
+    visit = b.preventive(ahu, b.library()["preheater_freeze"], "2025-10-01", done="2025-10-01")
+    return {"ahu": ahu, "heater": heater, "tech": tech, "visit": visit}
+
+
+def _readiness(ahu):
+    from inventory.models import AHU
+
+    [r] = freeze_readiness(units=list(AHU.objects.filter(pk=ahu.pk).select_related("building__site")), as_of=AS_OF)
+    return r
+
+
+def test_a_test_without_the_airflow_interlock_and_primary_limit_does_not_prove_the_unit(unit):
+    """A form filled against the first template (no interlock, no primary limit) passed all it asked, yet the
+    unit is not ready: those safety steps were never checked."""
+    insp = b.inspection(unit["visit"], unit["tech"], finished="2025-10-01")
+    for key, comp in [
+        ("stage_on_temp", unit["heater"]),
+        ("stages", unit["heater"]),
+        ("high_limit", unit["heater"]),
+        ("freeze_trip_temp", None),
+        ("freeze_trip_test", None),
+    ]:
+        b.evaluation(insp, "check", f"preheater_freeze.{key}", component=comp, verdict="ok", reason="ok")
+    r = _readiness(unit["ahu"])
+    assert r.status == NOT_READY and r.tested_on == D("2025-10-01")
+    assert r.reason.startswith("not ready — test on 1 Oct 2025 not passed: ")
+    assert "every stage switches off" in r.reason and "primary limit" in r.reason and "(not checked)" in r.reason
+
+
+def test_an_amendment_that_corrects_a_failed_step_to_ok_counts(unit):
+    """The trip test was typed as not ok by mistake; the amendment's corrected verdict decides the step."""
+    insp = b.freeze_test(
+        unit["visit"],
+        unit["tech"],
+        finished="2025-10-01",
+        heaters=[unit["heater"]],
+        verdicts={"freeze_trip_test": "fail"},
+    )
+    assert _readiness(unit["ahu"]).status == NOT_READY
+    b.amendment(
+        insp,
+        unit["tech"],
+        reason="typed the wrong answer",
+        changes=[{"item": "preheater_freeze.freeze_trip_test", "component": None, "after": {"verdict": "ok"}}],
+        created="2025-10-02",
+    )
+    r = _readiness(unit["ahu"])
+    assert (r.status, r.reason) == (READY, "ready — every step passed on 1 Oct 2025")
+
+
+def test_readiness_of_many_units_takes_the_queries_of_one(unit, django_assert_num_queries):
+    """Three queries (protected parts, test judgements, freeze findings) for 1 unit or 11."""
+    from inventory.models import AHU
+    from tests.factories.inventory import AHUFactory, ComponentFactory
+
+    b.freeze_test(unit["visit"], unit["tech"], finished="2025-10-01", heaters=[unit["heater"]])
+    for i in range(10):
+        other = AHUFactory(building=unit["ahu"].building, tag=f"AHU-F{i + 2}")
+        heater = ComponentFactory(ahu=other, kind="electric_preheater", specs={"switch_on_c": -3})
+        visit = b.preventive(other, b.library()["preheater_freeze"], "2025-10-01", done="2025-10-01")
+        b.freeze_test(visit, unit["tech"], finished="2025-10-02", heaters=[heater])
+    units = list(AHU.objects.filter(building=unit["ahu"].building).select_related("building__site"))
+    with django_assert_num_queries(3):
+        rows = freeze_readiness(units=units, as_of=AS_OF)
+    assert len(rows) == 11 and {r.status for r in rows} == {READY}
