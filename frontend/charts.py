@@ -19,11 +19,17 @@ def line_chart(
     forecast: list[tuple[dt.date, float]] | None = None,
     hline: tuple[float, str] | None = None,
     vline: tuple[dt.date, str] | None = None,
+    segments: list[list[tuple[dt.date, float]]] | None = None,
     width: int = 640,
     height: int = 240,
 ) -> str:
-    """A dated line chart with an optional dashed forecast, a limit line and a marked date."""
+    """A dated line chart with an optional dashed forecast, a limit line and a marked date.
+
+    ``segments``, when given, are drawn as separate lines (e.g. one per set of filters) in place of ``series``.
+    """
     forecast = forecast or []
+    segments = [seg for seg in (segments or []) if seg] or ([series] if series else [])
+    series = [pt for seg in segments for pt in seg]
     points = series + forecast
     if not points:
         return f'<p class="muted">{escape(title)}: no data yet.</p>'
@@ -71,9 +77,9 @@ def line_chart(
         parts.append(
             f'<text x="{vx + 4:.1f}" y="{top + 12}" fill="currentColor" font-size="11">{escape(vline[1])}</text>'
         )
-    if series:
-        parts.append(f'<path d="{path(series)}" fill="none" stroke="currentColor" stroke-width="2.5"/>')
-        parts += [f'<circle cx="{x(d.toordinal()):.1f}" cy="{y(v):.1f}" r="3" fill="currentColor"/>' for d, v in series]
+    for seg in segments:
+        parts.append(f'<path d="{path(seg)}" fill="none" stroke="currentColor" stroke-width="2.5"/>')
+    parts += [f'<circle cx="{x(d.toordinal()):.1f}" cy="{y(v):.1f}" r="3" fill="currentColor"/>' for d, v in series]
     if forecast:
         joined = ([series[-1]] if series else []) + forecast
         parts.append(

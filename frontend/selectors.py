@@ -10,8 +10,9 @@ import datetime as dt
 
 from django.utils import timezone
 
-from inspections.models import Evaluation, Inspection, Reading
-from inventory.models import ComponentKind, Site
+from inspections.models import Evaluation, Inspection
+from inspections.selectors import filter_series_for
+from inventory.models import Component, ComponentKind, Site
 from inventory.selectors import sites_visible_to
 from reports import compliance
 from reports.documents.inspection_report import derived_rows
@@ -108,27 +109,34 @@ def site_for(*, user, pk: int) -> Site | None:
 
 
 def filter_trends(*, site: Site, limit: int = 6) -> list[dict]:
-    """Per filter bank of the site: pressure-drop readings over time and the latest loading evaluation."""
-    readings = (
-        Reading.objects.filter(
-            inspection__ahu__building__site=site,
-            component__kind=ComponentKind.FILTER_BANK,
-            value_si__isnull=False,
-            item__quantity="pressure",
-        )
-        .select_related("component__ahu__building", "inspection")
-        .order_by("component_id", "inspection__finished_at")
+    """Per filter bank of the site with readings: its pressure drop at design airflow, one list of
+    (day, Pa) per set of filters (``inspections.selectors.filter_series``, restarting at each change),
+    and the latest filter evaluation."""
+    banks = list(
+        Component.objects.filter(ahu__building__site=site, kind=ComponentKind.FILTER_BANK)
+        .select_related("ahu__building")
+        .order_by("pk")
     )
-    by_comp: dict[int, dict] = {}
-    for r in readings:
-        row = by_comp.setdefault(r.component_id, {"component": r.component, "points": [], "evaluation": None})
-        row["points"].append((r.inspection.finished_at.date(), r.value_si))
-    evaluations = Evaluation.objects.filter(component_id__in=list(by_comp), check_name__icontains="filter").order_by(
-        "component_id", "inspection__finished_at", "id"
+    series = filter_series_for(components=banks)
+    rows = [
+        {
+            "component": bank,
+            "lives": [[(p.at.date(), p.corrected_dp_pa) for p in life.points] for life in series[bank.pk].lives],
+            "changes": [life.changed_at.date() for life in series[bank.pk].lives if life.changed_at is not None],
+            "evaluation": None,
+        }
+        for bank in banks
+        if series[bank.pk].points
+    ][:limit]
+    by_comp = {row["component"].pk: row for row in rows}
+    evaluations = (
+        Evaluation.objects.filter(component_id__in=list(by_comp), check_name__icontains="filter")
+        .select_related("inspection")
+        .order_by("component_id", "inspection__finished_at", "id")
     )
     for e in evaluations:
         by_comp[e.component_id]["evaluation"] = e
-    return list(by_comp.values())[:limit]
+    return rows
 
 
 def outdoor_temperatures(*, site: Site, today: dt.date | None = None, days_back: int = 30, days_ahead: int = 60):

@@ -398,10 +398,15 @@ def filter_series_for(*, components: list[Component], before: dt.datetime | None
         v = by_visit.setdefault(comp_id, {}).setdefault(insp_id, {"at": at, "inspection_id": insp_id})
         v[f"{code}.{key}"] = value if value is not None else True
     values = visit_values(inspection_ids=sorted({i for visits in by_visit.values() for i in visits}))
-    ahus = {a.pk: a for a in AHU.objects.filter(pk__in={c.ahu_id for c in banks})}
+    # Units already loaded with their banks (select_related) cost no query.
+    ahus = {c.ahu_id: c.ahu for c in banks if Component.ahu.is_cached(c)}
+    if missing := {c.ahu_id for c in banks} - set(ahus):
+        ahus |= {a.pk: a for a in AHU.objects.filter(pk__in=missing)}
+    # Fans matter only where a visit gave the fan speed and no airflow (the first fan law then gives the airflow).
     fans: dict[int, list[Component]] = {}
-    for fan in Component.objects.filter(ahu_id__in=list(ahus), kind="fan").order_by("position", "pk"):
-        fans.setdefault(fan.ahu_id, []).append(fan)
+    if any("supply_fan_speed" in v and not v.get("supply_airflow") for v in values.values()):
+        for fan in Component.objects.filter(ahu_id__in=list(ahus), kind="fan").order_by("position", "pk"):
+            fans.setdefault(fan.ahu_id, []).append(fan)
     airflow: dict[int, float] = {}
 
     def airflow_at(bank: Component, insp_id: int) -> float:

@@ -39,9 +39,12 @@ Open findings by severity and age
 
 Filter status of every unit
     For each filter bank of each unit, the latest ``filter_loading`` evaluation
-    (inspection finished on or before ``as_of``): verdict, loading %, pressure
-    drop corrected to design airflow and the forecast change date, as the
-    inspection's evaluation stored them (the physics is in engineering.filters).
+    (inspection finished on or before ``as_of``): verdict, loading % and the
+    change forecast as the inspection's evaluation stored them ("now" when the
+    filter was already at or over its final value, never a past date); the
+    pressure drop at design airflow of that reading from
+    ``inspections.selectors.filter_series``, the one series the charts and the
+    unit history read (the physics is in engineering.filters).
 
 Freeze-protection readiness before the coming season
     For each unit with an electric preheater or a preheat coil, from what its
@@ -67,6 +70,7 @@ from django.db.models import Min, OuterRef, Q, Subquery
 from inspections import freeze as freeze_rules
 from inspections.freeze import last_season_end  # noqa: F401  (re-exported: the window rule lives there)
 from inspections.models import Evaluation, Finding
+from inspections.selectors import filter_series_for
 from inventory.models import AHU, Component, ComponentKind, Site
 from scheduling.models import TaskCategory, WorkOrder, WorkOrderTask
 
@@ -301,22 +305,30 @@ def _filter_rows(*, units: list[AHU], as_of: datetime) -> list[dict]:
     ).order_by("-inspection__finished_at", "-pk")
     banks = (
         Component.objects.filter(ahu__in=units, kind=ComponentKind.FILTER_BANK)
+        .select_related("ahu")
         .annotate(
             eval_verdict=Subquery(latest.values("verdict")[:1]),
             eval_derived=Subquery(latest.values("derived")[:1]),
             eval_at=Subquery(latest.values("inspection__finished_at")[:1]),
+            eval_inspection=Subquery(latest.values("inspection_id")[:1]),
         )
         .order_by("position", "pk")
     )
     by_unit: dict[int, list[Component]] = defaultdict(list)
     for bank in banks:
         by_unit[bank.ahu_id].append(bank)
+    # The pressure drop at design airflow is the bank's one series (the charts and the unit history read it too).
+    series = filter_series_for(components=list(banks), before=as_of + timedelta(microseconds=1))
     out = []
     for unit in units:
         for bank in by_unit.get(unit.pk, []):
             derived = bank.eval_derived or {}
             if isinstance(derived, str):  # some backends hand JSON from a subquery back as text
                 derived = json.loads(derived)
+            point = next(
+                (p for p in series[bank.pk].points if p.inspection_id == bank.eval_inspection and not p.after_change),
+                None,
+            )
             out.append(
                 {
                     "unit": unit,
@@ -324,11 +336,30 @@ def _filter_rows(*, units: list[AHU], as_of: datetime) -> list[dict]:
                     "verdict": bank.eval_verdict or "",
                     "derived": derived,
                     "at": bank.eval_at,
+                    "corrected_dp_pa": point.corrected_dp_pa if point else None,
+                    "forecast": filter_forecast_text(derived=derived),
                 }
             )
         if unit.pk not in by_unit:
-            out.append({"unit": unit, "filter": None, "verdict": "", "derived": {}, "at": None})
+            out.append(
+                {
+                    "unit": unit,
+                    "filter": None,
+                    "verdict": "",
+                    "derived": {},
+                    "at": None,
+                    "corrected_dp_pa": None,
+                    "forecast": "—",
+                }
+            )
     return out
+
+
+def filter_forecast_text(*, derived: dict) -> str:
+    """The change forecast of a filter evaluation in words: its date, or "now" when the filter is already due."""
+    if derived.get("forecast_at_final_now"):
+        return "now: at or over its final pressure drop"
+    return derived.get("forecast_change_date") or "—"
 
 
 def _freeze_rows(*, units, as_of, today_of) -> tuple[list[dict], dict[str, int]]:

@@ -62,21 +62,26 @@ def site_detail(request, pk: int):
         ev = trend["evaluation"]
         forecast = []
         final = comp.specs.get("final_dp_pa")
-        change = (ev.derived or {}).get("forecast_change_date") if ev else None
-        if change and final:
+        derived = (ev.derived or {}) if ev else {}
+        change = derived.get("forecast_change_date")
+        # The forecast is of the filters the evaluation judged: none once they have been changed since.
+        current = not trend["changes"] or (ev is not None and ev.inspection.finished_at.date() > trend["changes"][-1])
+        if change and final and current and not derived.get("forecast_at_final_now"):
             forecast = [(dt.date.fromisoformat(change), p(final))]
         charts.append(
             {
-                "title": f"{comp.ahu.tag} ({comp.ahu.building.name}) {comp.name}: pressure drop",
+                "title": f"{comp.ahu.tag} ({comp.ahu.building.name}) {comp.name}: pressure drop at design airflow",
                 "reason": reason_for(evaluation=ev, unit_system=system) if ev else "",
                 "svg": line_chart(
-                    title=f"{comp.ahu.tag} {comp.name} pressure drop",
+                    title=f"{comp.ahu.tag} {comp.name} pressure drop at design airflow",
                     unit=p_unit,
-                    series=[(d, p(v)) for d, v in trend["points"]],
+                    series=[],
+                    segments=[[(d, p(v)) for d, v in life] for life in trend["lives"]],
                     forecast=forecast,
                     hline=(p(final), f"final {shown(final, 'pressure', system)}") if final else None,
                 ),
                 "evaluation": ev,
+                "lives": trend["lives"],
             }
         )
     temps = selectors.outdoor_temperatures(site=site)
@@ -94,7 +99,7 @@ def site_detail(request, pk: int):
     figures = selectors.figures_for(user=request.user, site_ids=[site.pk])
     for row in figures.filters:
         d = row["derived"]
-        row["corrected_dp"] = shown(d.get("corrected_dp_pa"), "pressure", system)
+        row["corrected_dp"] = shown(row["corrected_dp_pa"], "pressure", system)
         row["loading"] = f"{d['loading_pct']:.0f} %" if isinstance(d.get("loading_pct"), int | float) else "—"
     return render(
         request,

@@ -64,9 +64,8 @@ def build(*, report) -> Built:
     organisation = Organisation.objects.get(pk=report.organisation_id)
     for row in figures.filters:
         d = row["derived"]
-        row["corrected_dp"] = shown(d.get("corrected_dp_pa"), "pressure", system)
+        row["corrected_dp"] = shown(row["corrected_dp_pa"], "pressure", system)
         row["loading"] = f"{d['loading_pct']:.0f} %" if isinstance(d.get("loading_pct"), int | float) else "—"
-        row["forecast"] = d.get("forecast_change_date") or "—"
     filter_counts = {"ok": 0, "watch": 0, "fail": 0, "none": 0}
     for row in figures.filters:
         filter_counts[row["verdict"] if row["verdict"] in filter_counts else "none"] += 1

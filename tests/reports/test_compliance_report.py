@@ -56,6 +56,8 @@ def estate(site, supervisor):
     b.freeze_test(a2_freeze, tech, finished="2025-01-20")
     visit = b.preventive(a1, filt, "2025-03-25", done="2025-03-25")  # on time
     insp = b.inspection(visit, tech, finished="2025-03-25")
+    # Read at design airflow (no airflow measured): 228 Pa stands as read in the filter series.
+    b.reading(insp, "filter_check.dp", component=bank, value_si=228.0, verdict="watch")
     ev = b.evaluation(
         insp,
         "filter_loading",

@@ -92,7 +92,7 @@ def test_history_in_us_units(history, us_supervisor, make_report):
     )
     rasterise(report, "unit-history-us")
     text = pdf_text(report)
-    assert "0.80 in. w.c." in text and "Pressure drop (in. w.c.)" in text
+    assert "0.80 in. w.c." in text and "Pressure drop at design airflow (in. w.c.)" in text
     assert "Deviation (Δ°F)" in text
     assert "6357 cfm" in text  # 3.0 m³/s design supply airflow
 

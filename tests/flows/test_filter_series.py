@@ -1,0 +1,114 @@
+"""One filter series: the manager's chart, the unit history and the evaluation read the same numbers.
+
+Scenario: a unit's final filters are read monthly with the supply airflow
+measured below design, changed at the fourth visit, and read twice more. The
+manager's chart, the unit history's chart and the change forecast's points all
+show the pressure drop corrected to design airflow, restarting at the change.
+"""
+
+import datetime as dt
+
+import pytest
+import time_machine
+
+from engineering.filters import corrected_pressure_drop
+from inspections.models import Evaluation
+from inspections.selectors import filter_series
+from inspections.services.sync import _filter_points_for
+from reports.documents.unit_history import _filter_charts
+from tests.factories.accounts import make_person
+from tests.factories.inspections import make_visit, r, sync_form
+
+pytestmark = pytest.mark.django_db
+SYNC = "/api/inspections/sync/"
+DAY0 = dt.datetime(2025, 1, 6, 9, 30, tzinfo=dt.UTC)
+# (days after DAY0, run-hours, measured supply airflow m³/s, final filters Δp Pa, Δp after a change or None)
+VISITS = [
+    (0, 1_000, 2.7, 120, None),
+    (30, 1_300, 2.7, 140, None),
+    (60, 1_600, 3.0, 170, None),
+    (90, 1_900, 2.7, 190, 95),  # filters changed: 190 Pa is the old set, 95 Pa the new one
+    (120, 2_200, 2.7, 110, None),
+    (150, 2_500, 3.0, 125, None),
+]
+# Design airflow 3.0 m³/s, exponent 1.5 (engineering.filters, common practice): at 2.7 m³/s each reading is
+# multiplied by (3.0 / 2.7)^1.5 = 1.171213; worked by hand: 120 Pa → 140.55, 140 → 163.97, 190 → 222.53,
+# 95 → 111.27, 110 → 128.83; at design airflow a reading stands as read.
+BEFORE = [140.55, 163.97, 170.0, 222.53]
+AFTER = [111.27, 128.83, 125.0]
+
+
+def _visit(api_client, ahu, tech, days, hours, q, dp, after):
+    tasks = ["filter_check"] + (["filter_replace"] if after is not None else [])
+    wo, _ = make_visit(tasks=tasks, ahu=ahu, organisation=ahu.building.site.organisation, technician=tech)
+    pre, final = ahu.components.get(name="Pre-filters"), ahu.components.get(name="Final filters")
+    readings = [r("visit.run_hours", hours), r("visit.supply_airflow", q * 1000)]  # the form takes L/s
+    for bank, value in ((pre, 60), (final, dp)):
+        readings += [
+            r("filter_check.dp", value, bank),
+            r("filter_check.seated", "ok", bank),
+            r("filter_check.media", "loaded", bank),
+        ]
+    if after is not None:
+        for bank, value in ((pre, 52), (final, after)):
+            readings += [r("filter_replace.replaced", "ok", bank), r("filter_replace.dp_after", value, bank)]
+    finished = DAY0 + dt.timedelta(days=days)
+    with time_machine.travel(finished + dt.timedelta(hours=1), tick=False):
+        api_client.force_authenticate(tech)
+        res = api_client.post(SYNC, {"forms": [sync_form(wo, readings, finished_at=finished)]}, format="json")
+    [result] = res.json()["results"]
+    assert result["status"] in ("stored", "flagged"), result
+    return result
+
+
+def test_chart_unit_history_and_evaluation_read_one_series_across_a_filter_change(api_client, client):
+    """The same corrected numbers, restarting at the change, on every view of one filter bank."""
+    first, tech = make_visit(tasks=["filter_check"])
+    ahu = first.ahu
+    org = ahu.building.site.organisation
+    for visit in VISITS:
+        _visit(api_client, ahu, tech, *visit)
+    final = ahu.components.get(name="Final filters")
+    changed = DAY0 + dt.timedelta(days=90)
+
+    series = filter_series(component=final)
+    lives = [[round(p.corrected_dp_pa, 2) for p in life.points] for life in series.lives]
+    assert lives == [BEFORE, AFTER]
+    assert series.lives[1].changed_at == changed
+
+    # The evaluation stored each visit's filter judgement from the same corrected value.
+    stored = [
+        e.derived["corrected_dp_pa"]
+        for e in Evaluation.objects.filter(component=final, check_name="filter_loading").order_by(
+            "inspection__finished_at"
+        )
+    ]
+    # (stored to 0.1 Pa; the reading after the change is judged against the clean value, not here)
+    assert stored == [round(p.corrected_dp_pa, 1) for p in series.points if not p.after_change]
+    assert stored == pytest.approx(BEFORE + AFTER[1:], abs=0.06)
+
+    # The evaluation's forecast points for a next visit: the new set only, the same corrected numbers.
+    nxt = DAY0 + dt.timedelta(days=180)
+    points = _filter_points_for(ahu, nxt)(final)
+    assert [
+        round(corrected_pressure_drop(dp_pa=p.dp_pa, airflow_m3s=p.airflow_m3s, design_airflow_m3s=3.0), 2)
+        for p in points
+    ] == AFTER
+    assert [p.run_hours for p in points] == [1_900, 2_200, 2_500]
+
+    # The unit history's chart: one line per set of filters, the same numbers.
+    lo, hi = DAY0 - dt.timedelta(days=1), nxt
+    [chart] = [c for c in _filter_charts(ahu=ahu, lo=lo, hi=hi, system="si") if c["bank"] == final]
+    assert [[round(v, 2) for _, v in pts] for _, pts in chart["lines"]] == [BEFORE, AFTER]
+    assert chart["lines"][1][0] == "Filters fitted 2025-04-06"
+
+    # The manager's chart on the site page: the same lines, labelled at design airflow.
+    manager = make_person(organisation=org, role="supervisor")
+    client.force_login(manager)
+    with time_machine.travel(nxt, tick=False):
+        page = client.get(f"/dashboard/site/{ahu.building.site_id}/")
+    assert page.status_code == 200
+    [c] = [c for c in page.context["charts"] if "Final filters" in c["title"]]
+    assert [[round(v, 2) for _, v in life] for life in c["lives"]] == [BEFORE, AFTER]
+    html = page.content.decode()
+    assert "Final filters pressure drop at design airflow (Pa)" in html
