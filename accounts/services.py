@@ -1,6 +1,12 @@
 """Writes about people and roles."""
 
+from django.conf import settings
+from django.contrib.auth.tokens import default_token_generator
+from django.core.mail import send_mail
 from django.db import transaction
+from django.template.loader import render_to_string
+from django.utils.encoding import force_bytes
+from django.utils.http import urlsafe_base64_encode
 from rest_framework.authtoken.models import Token
 
 from .models import Membership, Organisation, SiteGrant, User
@@ -54,3 +60,27 @@ def audit_record(*, actor, obj, action: str, changes: dict | None = None, organi
         action=action,
         changes=changes or {},
     )
+
+
+RESET_MAIL_SUBJECT_TEMPLATE = "frontend/password_reset_subject.txt"
+RESET_MAIL_BODY_TEMPLATE = "frontend/password_reset_email.txt"
+
+
+def password_reset_email_send(*, user_id: int) -> bool:
+    """E-mail an active person a one-use link to set a new password; False when there is nobody to send to.
+
+    The link is Django's reset token (it stops working once the password changes, or after
+    ``PASSWORD_RESET_TIMEOUT``) under ``PLENUM_PUBLIC_URL``, never under the Host a request carried.
+    """
+    user = User.objects.filter(pk=user_id, is_active=True).first()
+    if user is None or not user.email or not user.has_usable_password():
+        return False
+    context = {
+        "user": user,
+        "uid": urlsafe_base64_encode(force_bytes(user.pk)),
+        "token": default_token_generator.make_token(user),
+        "public_url": settings.PLENUM_PUBLIC_URL.rstrip("/"),
+    }
+    subject = "".join(render_to_string(RESET_MAIL_SUBJECT_TEMPLATE, context).splitlines())
+    send_mail(subject, render_to_string(RESET_MAIL_BODY_TEMPLATE, context), None, [user.email])
+    return True

@@ -1,9 +1,11 @@
 """Password reset by e-mail: Django's own views, in the app's pages, with a link to the public address.
 
-The answer never tells whether an address belongs to anybody (Django sends only to active
-people with that address and shows the same page either way). Each client address and each
-e-mail address may ask a few times an hour (``PLENUM_PASSWORD_RESETS_PER_HOUR``); past that the
-client is asked to wait, and extra requests for one e-mail address are dropped without a word.
+The answer never tells whether an address belongs to anybody: the same page either way, and the
+e-mail (only to active people with that address, as Django chooses) is sent by a Celery worker
+where a broker is configured, so the answer takes no longer when there is someone to write to.
+Each client address and each e-mail address may ask a few times an hour
+(``PLENUM_PASSWORD_RESETS_PER_HOUR``); past that the client is asked to wait, and extra requests
+for one e-mail address are dropped without a word.
 """
 
 import math
@@ -13,11 +15,12 @@ from axes.utils import reset as axes_reset
 from django.conf import settings
 from django.contrib.auth import views as auth_views
 from django.core.cache import cache
-from django.http import HttpRequest, HttpResponse
+from django.http import HttpRequest, HttpResponse, HttpResponseRedirect
 from django.shortcuts import render
 from django.urls import reverse_lazy
 
 from .client_address import client_address
+from .tasks import password_reset_email_send
 
 WINDOW_SECONDS = 3600
 
@@ -35,8 +38,6 @@ def _count(key: str) -> int:
 
 class PasswordResetView(auth_views.PasswordResetView):
     template_name = "frontend/password_reset_form.html"
-    email_template_name = "frontend/password_reset_email.txt"
-    subject_template_name = "frontend/password_reset_subject.txt"
     success_url = reverse_lazy("accounts:password_reset_done")
 
     def form_valid(self, form):
@@ -48,12 +49,13 @@ class PasswordResetView(auth_views.PasswordResetView):
                 {"form": form, "too_many": True, "limit": limit},
                 status=429,
             )
-        email = form.cleaned_data["email"].strip().lower()
-        if _count(f"password-reset:email:{email}") > limit:
-            return super(auth_views.PasswordResetView, self).form_valid(form)  # the same page, no e-mail
-        # The link points at the public address, never at whatever Host header the request carried.
-        self.extra_email_context = {"public_url": settings.PLENUM_PUBLIC_URL.rstrip("/")}
-        return super().form_valid(form)
+        email = form.cleaned_data["email"]
+        if _count(f"password-reset:email:{email.strip().lower()}") <= limit:
+            # Django's choice of recipients (active, usable password, the address matched without case);
+            # the e-mail itself goes from a worker (accounts.tasks), so both answers take as long.
+            for user in form.get_users(email):
+                password_reset_email_send.delay(user_id=user.pk)
+        return HttpResponseRedirect(self.get_success_url())  # the same page whether anybody was found or not
 
 
 class PasswordResetDoneView(auth_views.PasswordResetDoneView):

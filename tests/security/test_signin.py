@@ -208,6 +208,15 @@ def test_asking_for_a_link_never_tells_whether_the_address_has_an_account(client
 
 
 @pytest.mark.django_db
+def test_a_deactivated_person_gets_no_link(client):
+    """Someone whose account was switched off gets no e-mail, and the page answers as for anybody."""
+    user = make_person(organisation=OrganisationFactory(), role=Role.TECHNICIAN, is_active=False)
+    response = _ask_for_a_link(client, user.email)
+    assert response.status_code == 302 and response["Location"] == "/password/reset/sent/"
+    assert mail.outbox == []
+
+
+@pytest.mark.django_db
 @override_settings(PLENUM_PUBLIC_URL="https://plenum.example.invalid/")
 def test_the_link_points_at_the_public_address():
     """The e-mailed link is built from PLENUM_PUBLIC_URL, so a forged Host header cannot redirect it."""
