@@ -25,6 +25,7 @@ from engineering.psychro import STANDARD_PRESSURE_PA, AirState
 
 __all__ = [
     "FLUIDS",
+    "GLYCOLS",
     "AirHeat",
     "CoilBalance",
     "coil_balance",
@@ -165,7 +166,8 @@ def total_heat_w(*, airflow_m3s: float, state_in: AirState, state_out: AirState)
 # with CoolProp 7.2 (PropsSI, "Water" and "INCOMP::MEG-/MPG-xx%"). ASHRAE
 # Handbook—Fundamentals ch.31 tabulates the same properties; these figures
 # were not cross-checked against its printed tables.
-# Rows: (temperature °C, density kg/m³, cp J/kg·K).
+# Rows: (temperature °C, density kg/m³, cp J/kg·K). Glycol tables 10/50/60 % start 10 K or
+# less above the solution's freezing point (CoolProp's T_freeze).
 FLUIDS: dict[str, tuple[tuple[float, float, float], ...]] = {
     "water": (
         (0.0, 999.9, 4218),
@@ -260,13 +262,173 @@ FLUIDS: dict[str, tuple[tuple[float, float, float], ...]] = {
         (80.0, 991.6, 3896),
         (90.0, 984.1, 3926),
     ),
+    "ethylene_glycol_10": (
+        (0.0, 1013.6, 4037),
+        (10.0, 1012.5, 4041),
+        (20.0, 1010.6, 4046),
+        (30.0, 1007.8, 4053),
+        (40.0, 1004.3, 4062),
+        (50.0, 1000.1, 4072),
+        (60.0, 995.2, 4083),
+        (70.0, 989.7, 4095),
+        (80.0, 983.6, 4107),
+        (90.0, 976.8, 4119),
+    ),
+    "ethylene_glycol_50": (
+        (-30.0, 1085.1, 3027),
+        (-20.0, 1082.2, 3087),
+        (-10.0, 1078.7, 3146),
+        (0.0, 1074.6, 3203),
+        (10.0, 1070.0, 3258),
+        (20.0, 1064.9, 3312),
+        (30.0, 1059.4, 3364),
+        (40.0, 1053.4, 3413),
+        (50.0, 1047.1, 3459),
+        (60.0, 1040.5, 3503),
+        (70.0, 1033.6, 3544),
+        (80.0, 1026.4, 3582),
+        (90.0, 1019.0, 3616),
+    ),
+    "ethylene_glycol_60": (
+        (-40.0, 1102.1, 2684),
+        (-30.0, 1099.6, 2757),
+        (-20.0, 1096.3, 2828),
+        (-10.0, 1092.4, 2898),
+        (0.0, 1087.9, 2967),
+        (10.0, 1082.7, 3034),
+        (20.0, 1077.1, 3098),
+        (30.0, 1071.1, 3159),
+        (40.0, 1064.6, 3218),
+        (50.0, 1057.8, 3272),
+        (60.0, 1050.8, 3323),
+        (70.0, 1043.5, 3369),
+        (80.0, 1036.0, 3410),
+        (90.0, 1028.4, 3446),
+    ),
+    "propylene_glycol_10": (
+        (0.0, 1009.3, 4059),
+        (10.0, 1008.3, 4067),
+        (20.0, 1006.2, 4076),
+        (30.0, 1003.2, 4088),
+        (40.0, 999.4, 4101),
+        (50.0, 994.9, 4115),
+        (60.0, 989.8, 4130),
+        (70.0, 984.2, 4146),
+        (80.0, 978.2, 4161),
+        (90.0, 971.9, 4176),
+    ),
+    "propylene_glycol_50": (
+        (-30.0, 1064.1, 3337),
+        (-20.0, 1060.4, 3376),
+        (-10.0, 1056.0, 3414),
+        (0.0, 1050.9, 3453),
+        (10.0, 1045.3, 3492),
+        (20.0, 1039.1, 3530),
+        (30.0, 1032.4, 3569),
+        (40.0, 1025.4, 3607),
+        (50.0, 1018.0, 3645),
+        (60.0, 1010.5, 3683),
+        (70.0, 1002.7, 3722),
+        (80.0, 994.9, 3760),
+        (90.0, 987.1, 3798),
+    ),
+    "propylene_glycol_60": (
+        (-40.0, 1074.6, 3070),
+        (-30.0, 1071.0, 3114),
+        (-20.0, 1066.7, 3159),
+        (-10.0, 1061.7, 3205),
+        (0.0, 1056.0, 3250),
+        (10.0, 1049.7, 3295),
+        (20.0, 1043.0, 3340),
+        (30.0, 1035.9, 3386),
+        (40.0, 1028.4, 3431),
+        (50.0, 1020.7, 3476),
+        (60.0, 1012.8, 3521),
+        (70.0, 1004.8, 3565),
+        (80.0, 996.7, 3610),
+        (90.0, 988.7, 3654),
+    ),
 }
+# Glycol solutions by kind: the mass concentrations (%) tabulated in ``FLUIDS`` (0 % is water).
+GLYCOLS: dict[str, tuple[int, ...]] = {
+    "ethylene_glycol": (10, 20, 30, 40, 50, 60),
+    "propylene_glycol": (10, 20, 30, 40, 50, 60),
+}
+GLYCOL_PCT_MAX = 60.0
 
 
-def fluid_properties(*, fluid: str, temperature_c: float) -> tuple[float, float]:
+def _glycol_pct(kind: str, glycol_pct: object) -> float:
+    return v.in_range(
+        "glycol_pct",
+        glycol_pct,
+        0.0,
+        GLYCOL_PCT_MAX,
+        unit="%",
+        label=f"{kind.replace('_', ' ')} concentration",
+        low_open=True,
+    )
+
+
+def _fluid_range(fluid: str, glycol_pct: float | None = None) -> tuple[float, float]:
+    """Temperature range (°C) a fluid's properties are known over."""
+    if fluid not in GLYCOLS:
+        rows = FLUIDS[fluid]
+        return rows[0][0], rows[-1][0]
+    names = _glycol_tables(fluid, _glycol_pct(fluid, glycol_pct))
+    return max(FLUIDS[n][0][0] for n, _ in names), min(FLUIDS[n][-1][0] for n, _ in names)
+
+
+def _glycol_tables(kind: str, pct: float) -> list[tuple[str, float]]:
+    """The one or two tables around ``pct`` and each one's weight (linear in concentration)."""
+    steps = (0, *GLYCOLS[kind])
+    for lo, hi in itertools.pairwise(steps):
+        if pct <= hi:
+            f = (pct - lo) / (hi - lo)
+            name_lo = "water" if lo == 0 else f"{kind}_{lo}"
+            if f >= 1.0 - 1e-9:
+                return [(f"{kind}_{hi}", 1.0)]
+            return [(name_lo, 1.0 - f), (f"{kind}_{hi}", f)]
+    return [(f"{kind}_{steps[-1]}", 1.0)]
+
+
+def _table_properties(name: str, t: float) -> tuple[float, float]:
+    rows = FLUIDS[name]
+    for (t0, d0, c0), (t1, d1, c1) in itertools.pairwise(rows):
+        if t <= t1:
+            f = (t - t0) / (t1 - t0)
+            return d0 + f * (d1 - d0), c0 + f * (c1 - c0)
+    return rows[-1][1], rows[-1][2]
+
+
+def fluid_properties(*, fluid: str, temperature_c: float, glycol_pct: float | None = None) -> tuple[float, float]:
     """(density kg/m³, specific heat J/kg·K) of a coil fluid, linearly
-    interpolated in the ``FLUIDS`` table (sources given there)."""
-    name = v.choice("fluid", fluid, FLUIDS)
+    interpolated in the ``FLUIDS`` table (sources given there).
+
+    ``fluid`` is a table name ("water", "ethylene_glycol_30", ...) or a glycol
+    kind of ``GLYCOLS`` ("ethylene_glycol", "propylene_glycol") with its mass
+    concentration ``glycol_pct`` (above 0 to 60 %): between tabulated
+    concentrations the properties are interpolated linearly in concentration
+    (0 % is water), within 0.3 % of CoolProp's incompressible MEG/MPG data.
+    """
+    name = v.choice("fluid", fluid, [*FLUIDS, *GLYCOLS])
+    if name in GLYCOLS:
+        pct = _glycol_pct(name, glycol_pct)
+        lo, hi = _fluid_range(name, pct)
+        t = v.in_range(
+            "temperature_c", temperature_c, lo, hi, unit="°C", label=f"{pct:g} % {name.replace('_', ' ')} temperature"
+        )
+        rho = cp = 0.0
+        for table, weight in _glycol_tables(name, pct):
+            d, c = _table_properties(table, t)
+            rho, cp = rho + weight * d, cp + weight * c
+        return rho, cp
+    if glycol_pct is not None:
+        raise EngineeringInputError(
+            field="glycol_pct",
+            value=glycol_pct,
+            allowed=f"nothing for {name}; a concentration goes with one of {', '.join(GLYCOLS)}",
+            message=f"glycol_pct={v.fmt(glycol_pct)} applies only to fluid one of {', '.join(GLYCOLS)}",
+        )
     rows = FLUIDS[name]
     t = v.in_range(
         "temperature_c",
@@ -276,11 +438,7 @@ def fluid_properties(*, fluid: str, temperature_c: float) -> tuple[float, float]
         unit="°C",
         label=f"{name.replace('_', ' ')} temperature",
     )
-    for (t0, d0, c0), (t1, d1, c1) in itertools.pairwise(rows):
-        if t <= t1:
-            f = (t - t0) / (t1 - t0)
-            return d0 + f * (d1 - d0), c0 + f * (c1 - c0)
-    return rows[-1][1], rows[-1][2]
+    return _table_properties(name, t)
 
 
 def water_side_heat_w(
@@ -290,11 +448,13 @@ def water_side_heat_w(
     flow_m3s: float | None = None,
     flow_l_s: float | None = None,
     fluid: str = "water",
+    glycol_pct: float | None = None,
 ) -> float:
     """Heat picked up by the coil fluid, W (positive on a cooling coil).
 
     q = ρ V c_p (t_return − t_supply), with ρ and c_p at the mean fluid
-    temperature from ``FLUIDS`` (IAPWS-95 / Melinder 2010 via CoolProp).
+    temperature from ``fluid_properties`` (IAPWS-95 / Melinder 2010 via
+    CoolProp); a glycol kind takes its concentration ``glycol_pct``.
     The flow is volumetric as a flow meter or balancing valve reports it;
     give either flow_m3s or flow_l_s.
     """
@@ -309,12 +469,14 @@ def water_side_heat_w(
         q = v.in_range("flow_m3s", flow_m3s, 0.0, 1.0, unit="m³/s", label="fluid flow")
     else:
         q = v.in_range("flow_l_s", flow_l_s, 0.0, 1000.0, unit="L/s", label="fluid flow") / 1000.0
-    name = v.choice("fluid", fluid, FLUIDS)
-    lo, hi = FLUIDS[name][0][0], FLUIDS[name][-1][0]
+    name = v.choice("fluid", fluid, [*FLUIDS, *GLYCOLS])
+    lo, hi = _fluid_range(name, glycol_pct)
     label = name.replace("_", " ")
+    if name in GLYCOLS:
+        label = f"{v.fmt(glycol_pct)} % {label}"
     ts = v.in_range("t_supply_c", t_supply_c, lo, hi, unit="°C", label=f"{label} supply temperature")
     tr = v.in_range("t_return_c", t_return_c, lo, hi, unit="°C", label=f"{label} return temperature")
-    rho, cp = fluid_properties(fluid=name, temperature_c=(ts + tr) / 2.0)
+    rho, cp = fluid_properties(fluid=name, temperature_c=(ts + tr) / 2.0, glycol_pct=glycol_pct)
     return rho * q * cp * (tr - ts)
 
 

@@ -105,6 +105,10 @@ def air_temp(key: str, label: str, **kw) -> dict:
     return item(key, "number", label, quantity="temperature", physical=AIR_T_PHYSICAL, plausible=AIR_T_PLAUSIBLE, **kw)
 
 
+# Coil fluids whose heat flow and temperatures give the fluid-side heat (engineering.airside.water_side_heat_w).
+LIQUIDS = ["water", "glycol"]
+
+
 def fluid_temp(key: str, label: str, **kw) -> dict:
     return item(
         key, "number", label, quantity="temperature", physical=FLUID_T_PHYSICAL, plausible=FLUID_T_PLAUSIBLE, **kw
@@ -372,7 +376,8 @@ TEMPLATES: list[dict[str, Any]] = [
     },
     {
         "code": "coil_clean",
-        "version": 1,
+        # 2: the fluid readings are asked of glycol coils too (the heat balance takes the glycol's properties).
+        "version": 2,
         "title": "Coils",
         "cautions": [LOCKOUT, HOT_COILS, LOCAL_CODES],
         "items": [
@@ -391,15 +396,15 @@ TEMPLATES: list[dict[str, Any]] = [
             ),
             air_temp("air_in", "Entering air temperature", per="coil"),
             air_temp("air_out", "Leaving air temperature", per="coil"),
-            fluid_temp("water_in", "Entering water temperature", per="coil", where={"fluid": "water"}),
-            fluid_temp("water_out", "Leaving water temperature", per="coil", where={"fluid": "water"}),
+            fluid_temp("water_in", "Entering water or glycol temperature", per="coil", where={"fluid": LIQUIDS}),
+            fluid_temp("water_out", "Leaving water or glycol temperature", per="coil", where={"fluid": LIQUIDS}),
             item(
                 "water_flow",
                 "number",
-                "Water flow (meter or balancing valve)",
+                "Water or glycol flow (meter or balancing valve)",
                 quantity="water_flow",
                 per="coil",
-                where={"fluid": "water"},
+                where={"fluid": LIQUIDS},
                 physical=(0, 1),
                 plausible=(0.000_01, 0.5),
                 decimals=2,
@@ -441,21 +446,26 @@ TEMPLATES: list[dict[str, Any]] = [
     },
     {
         "code": "cooling_season_check",
-        "version": 1,
+        # 2: chilled-fluid readings asked of glycol cooling coils too.
+        "version": 2,
         "title": "Cooling season check",
         "cautions": [LOCKOUT, LOCAL_CODES],
         "items": [
             air_temp("air_in", "Air entering the cooling coil", per="coil", where={"duty": "cooling"}),
             air_temp("air_out", "Air leaving the cooling coil", per="coil", where={"duty": "cooling"}),
-            fluid_temp("water_in", "Chilled water entering", per="coil", where={"duty": "cooling", "fluid": "water"}),
-            fluid_temp("water_out", "Chilled water leaving", per="coil", where={"duty": "cooling", "fluid": "water"}),
+            fluid_temp(
+                "water_in", "Chilled water or glycol entering", per="coil", where={"duty": "cooling", "fluid": LIQUIDS}
+            ),
+            fluid_temp(
+                "water_out", "Chilled water or glycol leaving", per="coil", where={"duty": "cooling", "fluid": LIQUIDS}
+            ),
             item(
                 "water_flow",
                 "number",
                 "Chilled water flow",
                 quantity="water_flow",
                 per="coil",
-                where={"duty": "cooling", "fluid": "water"},
+                where={"duty": "cooling", "fluid": LIQUIDS},
                 physical=(0, 1),
                 plausible=(0.000_01, 0.5),
                 decimals=2,

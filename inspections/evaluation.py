@@ -583,6 +583,24 @@ def _oa_checks(form: Form, consumed: set) -> list[Result]:
     return out
 
 
+def coil_fluid(specs: dict) -> tuple[str | None, float | None, str]:
+    """(fluid for engineering.airside.water_side_heat_w, glycol %, plain words) of a coil's registry specs.
+
+    Water, or ethylene/propylene glycol at its concentration; (None, None, words) for steam and refrigerant
+    coils, whose heat flow and temperatures do not give. A glycol coil without its kind or concentration in
+    the registry cannot be balanced honestly, so it gets None too.
+    """
+    fluid = specs.get("fluid") or "water"
+    if fluid == "water":
+        return "water", None, "water"
+    if fluid == "glycol":
+        kind, pct = specs.get("glycol_kind"), specs.get("glycol_pct")
+        if kind in ("ethylene", "propylene") and pct:
+            return f"{kind}_glycol", float(pct), f"{float(pct):g} % {kind} glycol"
+        return None, None, "glycol of unknown kind or concentration"
+    return None, None, fluid
+
+
 def _coil_checks(form: Form, consumed: set) -> list[Result]:
     out = []
     q, q_how = supply_airflow(form)
@@ -595,7 +613,17 @@ def _coil_checks(form: Form, consumed: set) -> list[Result]:
             }
             if any(v is None for v in vals.values()):
                 continue
+            fluid, glycol_pct, fluid_words = coil_fluid(coil.specs)
             res = Result(check="coil_balance", item=f"{template}.water_flow", component=coil)
+            if fluid is None:
+                if coil.specs.get("fluid") == "glycol":
+                    res.verdict = WATCH
+                    res.reason = (
+                        f"{coil.name}: cannot balance the coil: the registry does not give the glycol's kind "
+                        "and concentration"
+                    )
+                    out.append(res)
+                break  # steam or refrigerant: flow and temperatures do not give its heat
             # The supply airflow (measured, from fan speed, or the unit's design) is at the supply fan,
             # downstream of the coils: its density is the leaving air's. A coil's own design airflow is
             # rated at its entering air (common practice).
@@ -613,9 +641,12 @@ def _coil_checks(form: Form, consumed: set) -> list[Result]:
                 rho_air = dry_air_density_kg_m3(
                     t_c=vals["air_out"] if airflow_at == "leaving" else vals["air_in"], pressure_pa=p
                 )
-                fluid = "water"
                 water = water_side_heat_w(
-                    t_supply_c=vals["water_in"], t_return_c=vals["water_out"], flow_m3s=vals["water_flow"], fluid=fluid
+                    t_supply_c=vals["water_in"],
+                    t_return_c=vals["water_out"],
+                    flow_m3s=vals["water_flow"],
+                    fluid=fluid,
+                    glycol_pct=glycol_pct,
                 )
                 bal = coil_balance(air_side_w=air, water_side_w=water, tolerance_pct=COIL_TOLERANCE_PCT)
             except EngineeringInputError as exc:
@@ -631,6 +662,8 @@ def _coil_checks(form: Form, consumed: set) -> list[Result]:
                 "airflow_at": airflow_at,
                 "air_density_kg_m3": round(rho_air, 4),
                 "pressure_pa": round(p),
+                "fluid": fluid,
+                "glycol_pct": glycol_pct,
             }
             state = (
                 "leaving air (airflow at the supply fan, after the coil)"
@@ -638,8 +671,9 @@ def _coil_checks(form: Form, consumed: set) -> list[Result]:
                 else "entering air (the coil's design airflow)"
             )
             res.method = (
-                f"air side q = ρ·V·c_p·Δt, sensible, dry air, ρ = p/(R_da·T) at the {state}; water side "
-                "q = ρ·V·c_p·Δt; balance within 10 % ok, 20 % watch"
+                f"air side q = ρ·V·c_p·Δt, sensible, dry air, ρ = p/(R_da·T) at the {state}; fluid side "
+                f"q = ρ·V·c_p·Δt with the properties of {fluid_words} (CoolProp: IAPWS-95, Melinder 2010); "
+                "balance within 10 % ok, 20 % watch"
             )
             res.verdict = bal.verdict.value
             which = "air side higher" if bal.difference_pct > 0 else "water side higher"

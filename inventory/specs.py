@@ -262,8 +262,8 @@ def _cross_checks(kind: str, s: dict[str, Any]) -> dict[str, str]:
             )
         if "merv" not in s and "iso_16890" not in s:
             errors["merv"] = "give a MERV class (merv) or an ISO 16890 group (iso_16890), or both"
-    if kind == "coil" and s["fluid"] == "glycol" and not s.get("glycol_pct"):
-        errors["glycol_pct"] = "glycol_pct is required when fluid is glycol; allowed: 1 to 60 %"
+    if kind == "coil":
+        errors.update(_coil_fluid_checks(s))
     if kind == "sensor":
         lo, hi, unit = SENSOR_PLAUSIBLE[s["measures"]]
         for key in ("range_low", "range_high"):
@@ -271,4 +271,28 @@ def _cross_checks(kind: str, s: dict[str, Any]) -> dict[str, str]:
                 errors[key] = f"{key}={s[key]:g} is outside {lo:g} to {hi:g} {unit} for a {s['measures']} sensor"
         if "range_low" in s and "range_high" in s and s["range_low"] >= s["range_high"]:
             errors["range_high"] = f"range_high={s['range_high']:g} must be above range_low={s['range_low']:g}"
+    return errors
+
+
+def _coil_fluid_checks(s: dict[str, Any]) -> dict[str, str]:
+    """A glycol coil names its glycol kind and concentration (the heat balance needs both); other fluids
+    name neither."""
+    errors: dict[str, str] = {}
+    if s["fluid"] == "glycol":
+        if not s.get("glycol_pct"):
+            errors["glycol_pct"] = (
+                f"Glycol concentration (glycol_pct)={s.get('glycol_pct')!r} is required above 0 when the fluid is "
+                "glycol; allowed: 1 to 60 %"
+            )
+        if not s.get("glycol_kind"):
+            errors["glycol_kind"] = (
+                "Glycol kind (glycol_kind) is required when the fluid is glycol; allowed: one of ethylene, propylene"
+            )
+    else:
+        for name, label in (("glycol_pct", "Glycol concentration"), ("glycol_kind", "Glycol kind")):
+            if s.get(name) not in (None, "", 0):
+                errors[name] = (
+                    f"{label} ({name})={s[name]!r} applies only when the fluid is glycol; the fluid is "
+                    f"{s['fluid']}: leave it empty or set the fluid to glycol"
+                )
     return errors

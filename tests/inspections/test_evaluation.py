@@ -334,6 +334,37 @@ def test_heating_coil_heat_balances_air_and_water_side(api_client):
 
 
 @pytest.mark.django_db
+def test_glycol_heating_coil_is_balanced_with_the_glycols_properties(api_client):
+    """The heating coil runs 30 % propylene glycol: 0.9 L/s cooled 70 → 50 °C, at 60 °C
+    ρ = 1001.2 kg/m³, c_p = 3962 J/kg·K (CoolProp INCOMP::MPG-30%, Melinder 2010):
+    q = 0.0009 × 1001.2 × 3962 × 20 = 71.4 kW (as water it was taken as 74.1 kW). Air side as in the
+    water case, 70.3 kW (leaving-air density): 1.6 % apart → ok."""
+    wo, tech = make_visit(tasks=["coil_clean"])
+    coil = component(wo.ahu, "Heating coil")
+    coil.specs = {**coil.specs, "fluid": "glycol", "glycol_kind": "propylene", "glycol_pct": 30}
+    coil.save()
+    out = submit(
+        api_client,
+        wo,
+        tech,
+        [
+            r("visit.supply_airflow", 3000),
+            r("coil_clean.air_in", 10, coil),
+            r("coil_clean.air_out", 30, coil),
+            r("coil_clean.water_in", 70, coil),
+            r("coil_clean.water_out", 50, coil),
+            r("coil_clean.water_flow", 0.9, coil),
+        ],
+    )
+    ev = result(out, "coil_balance", coil)
+    assert (ev["derived"]["fluid"], ev["derived"]["glycol_pct"]) == ("propylene_glycol", 30.0)
+    assert abs(ev["derived"]["water_side_w"]) == pytest.approx(71_401, rel=0.002)
+    assert ev["derived"]["difference_pct"] == pytest.approx(-1.6, abs=0.2)
+    assert "30 % propylene glycol" in ev["method"]
+    assert ev["verdict"] == "ok"
+
+
+@pytest.mark.django_db
 def test_damper_short_of_its_command_opens_corrective_work_with_its_condition(api_client):
     """Commanded 50 %, measured 38 %: 12 points off, beyond the 10-point fail limit (common practice)."""
     wo, tech = make_visit(tasks=["damper_actuator"])

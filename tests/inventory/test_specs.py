@@ -123,3 +123,26 @@ def test_model_full_clean_refuses_bad_specs():
     with pytest.raises(ValidationError) as exc:
         comp.full_clean()
     assert "drive" in str(exc.value.message_dict["specs"])
+
+
+@pytest.mark.parametrize(
+    ("specs", "field", "words"),
+    [
+        ({"fluid": "glycol", "glycol_pct": 30}, "glycol_kind", "Glycol kind (glycol_kind) is required"),
+        ({"fluid": "glycol", "glycol_kind": "propylene"}, "glycol_pct", "required above 0"),
+        ({"fluid": "water", "glycol_pct": 30}, "glycol_pct", "applies only when the fluid is glycol"),
+        ({"fluid": "water", "glycol_kind": "ethylene"}, "glycol_kind", "the fluid is water"),
+    ],
+)
+def test_glycol_coil_names_kind_and_concentration_and_water_names_neither(specs, field, words):
+    """The coil heat balance needs the glycol's kind and concentration; on a water coil they would mislead."""
+    with pytest.raises(SpecErrors) as exc:
+        validate_specs(kind="coil", specs={**GOOD["coil"], **specs})
+    assert words in exc.value.errors[field]
+
+
+def test_glycol_coil_with_kind_and_concentration_is_accepted():
+    specs = validate_specs(
+        kind="coil", specs={**GOOD["coil"], "fluid": "glycol", "glycol_kind": "ethylene", "glycol_pct": "35"}
+    )
+    assert (specs["glycol_kind"], specs["glycol_pct"]) == ("ethylene", 35)
