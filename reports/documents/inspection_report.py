@@ -74,10 +74,17 @@ def prepare(*, user, parameters: dict, requested_at) -> Prepared:
 def derived_rows(derived: dict, system: str) -> list[tuple[str, str]]:
     """(name, value in the reader's units) for each derived value, in a stable order."""
     out = []
+    due_now = derived.get("forecast_at_final_now") is True
     for key in sorted(derived):
         value = derived[key]
         if key in {"forecast_note"} or value is None:
             continue
+        if key == "forecast_at_final_now":
+            if due_now:
+                out.append(("change forecast", "now: at or over its final pressure drop"))
+            continue
+        if due_now and key in {"forecast_change_date", "forecast_earliest_date", "forecast_latest_date"}:
+            continue  # the filter is due now: no date (it would be the last reading's)
         name = DERIVED_NAMES.get(key, key.replace("_", " "))
         if isinstance(value, bool) or not isinstance(value, int | float):
             out.append((name, str(value)))

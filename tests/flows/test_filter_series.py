@@ -112,3 +112,29 @@ def test_chart_unit_history_and_evaluation_read_one_series_across_a_filter_chang
     assert [[round(v, 2) for _, v in life] for life in c["lives"]] == [BEFORE, AFTER]
     html = page.content.decode()
     assert "Final filters pressure drop at design airflow (Pa)" in html
+
+
+def test_a_filter_past_its_final_value_is_due_now_on_the_phone_and_the_record_never_a_past_date(api_client):
+    """Final filters at 200, 240 and 280 Pa (final 250 Pa) a month apart: the trend crossed 250 Pa before the
+    last visit, so the phone's answer and the inspection record say it is due now, with no date before that visit.
+
+    Worked by hand (linear trend, common practice): 40 Pa per 300 run-hours; 250 Pa is reached at about
+    1,675 h, before the last reading at 1,900 h, i.e. about 22 days before the last visit.
+    """
+    from reports.documents.inspection_report import derived_rows
+
+    first, tech = make_visit(tasks=["filter_check"])
+    ahu = first.ahu
+    results = [
+        _visit(api_client, ahu, tech, days, hours, 3.0, dp, None)
+        for days, hours, dp in ((0, 1_300, 200), (30, 1_600, 240), (60, 1_900, 280))
+    ]
+    last = results[-1]
+    [judged] = [e for e in last["evaluation"] if e["check"] == "filter_loading" and "Final filters" in e["reason"]]
+    assert "at or over its final pressure drop now" in judged["reason"]
+    assert "change forecast" not in judged["reason"]
+    assert judged["derived"]["forecast_at_final_now"] is True
+    last_visit = (DAY0 + dt.timedelta(days=60)).date()
+    assert dt.date.fromisoformat(judged["derived"]["forecast_change_date"]) >= last_visit
+    rows = dict(derived_rows(judged["derived"], "si"))
+    assert rows["change forecast"] == "now: at or over its final pressure drop"
