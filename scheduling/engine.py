@@ -45,6 +45,7 @@ from engineering.errors import EngineeringInputError
 from engineering.trends import run_hours_per_day
 from inventory.models import AHU, Component
 
+from .inputs import task_problem, unit_problem
 from .models import MeterReading, TaskDefinition, UnitTaskSetting, WorkOrder, WorkOrderTask, overdue_day
 from .selectors import effective_tasks
 from .services.seasons import SEASON_LOOKBACK_DAYS, season_key, season_starts_for_sites
@@ -68,6 +69,9 @@ class GenerationResult:
     unchanged: int = 0
     work_orders_created: int = 0
     lines: list[str] = field(default_factory=list)
+    # Units and rules left out of this run, one line each in plain words ("AHU-03 at Site X: service start
+    # 9999-12-31 is outside 2000–2036"); the rest of the organisation's work is generated.
+    skipped: list[str] = field(default_factory=list)
 
 
 class _Part:
@@ -249,8 +253,16 @@ class _SiteDay:
 class _Rules:
     """The organisation's generated tasks with what the loop needs of each, worked out once per run."""
 
-    def __init__(self, tasks: list[TaskDefinition]):
-        self.items = [(task, TaskTargets(task)) for task in tasks]
+    def __init__(self, tasks: list[TaskDefinition], skipped: list[str] | None = None):
+        # A rule stored out of bounds (an interval of 1,000,000 months) is left out and named, not run.
+        self.items = []
+        for task in tasks:
+            problem = task_problem(task)
+            if problem is not None:
+                if skipped is not None:
+                    skipped.append(f"maintenance rule {problem}")
+                continue
+            self.items.append((task, TaskTargets(task)))
         self._grid: dict[tuple, list[dt.date]] = {}
 
     def grid(self, anchor: dt.date, task: TaskDefinition, start: dt.date, end: dt.date) -> list[dt.date]:
@@ -263,57 +275,81 @@ class _Rules:
         return days
 
 
-def _occurrences(*, unit: _Unit, site: _SiteDay, rules: _Rules, disabled, last_done, meters) -> list[_Occ]:
-    """Every due occurrence of every (enabled) task on one unit within the site's horizon."""
+def _occurrences(
+    *, unit: _Unit, site: _SiteDay, rules: _Rules, disabled, last_done, meters, skipped: list[str], where: str = ""
+) -> list[_Occ]:
+    """Every due occurrence of every (enabled) task on one unit within the site's horizon.
+
+    A task whose dates cannot be worked out for this unit (date arithmetic past the calendar's end, from a
+    row stored before the input policy) is left out and named in ``skipped``; the unit's other tasks stay."""
     out: list[_Occ] = []
-    today, end = site.today, site.end
     meter = False  # not looked up yet
     for task, targets in rules.items:
         if (unit.pk, task.code) in disabled:
             continue
-        comps = targets.components_grouped(ahu=unit, components_by_kind=unit.by_kind, order=lambda c: c.position)
-        if not comps:
+        try:
+            found, meter = _task_occurrences(
+                unit=unit,
+                task=task,
+                targets=targets,
+                site=site,
+                rules=rules,
+                last_done=last_done,
+                meters=meters,
+                meter=meter,
+            )
+        except (OverflowError, ValueError) as exc:
+            skipped.append(f"{where or unit.tag}, {task.name}: its next date cannot be worked out ({exc})")
             continue
-        trigger = task.trigger
-        if trigger == Trigger.INTERVAL:
-            if task.anchor == TaskDefinition.Anchor.FLOATING:
-                for comp in comps:
-                    ck = comp.pk if comp else 0
-                    done = last_done.get((unit.pk, task.code, ck))
-                    basis = _local(done, site.tz) if done else unit.anchor
-                    due = max(add_interval(basis, task.interval_value, task.interval_unit), today)
-                    if due <= end:
-                        out.append(_Occ(unit, task, ck, due, f"after:{basis.isoformat()}", False))
-            else:
-                days = rules.grid(unit.anchor, task, today, end)
-                for comp in comps:
-                    ck = comp.pk if comp else 0
-                    out.extend(_Occ(unit, task, ck, due, f"c:{due.isoformat()}", False) for due in days)
-        elif trigger == Trigger.RUNTIME:
-            if meter is False:
-                meter = meters.meter_for(unit)
-            if meter is None:
-                continue
+        out.extend(found)
+    return out
+
+
+def _task_occurrences(*, unit: _Unit, task, targets, site: _SiteDay, rules: _Rules, last_done, meters, meter):
+    """The due occurrences of one task on one unit, and the unit's meter (looked up once, on first need)."""
+    out: list[_Occ] = []
+    today, end = site.today, site.end
+    comps = targets.components_grouped(ahu=unit, components_by_kind=unit.by_kind, order=lambda c: c.position)
+    if not comps:
+        return out, meter
+    trigger = task.trigger
+    if trigger == Trigger.INTERVAL:
+        if task.anchor == TaskDefinition.Anchor.FLOATING:
             for comp in comps:
                 ck = comp.pk if comp else 0
-                proj = meters.projection(
-                    meter, run_hours=task.run_hours, last_done=last_done.get((unit.pk, task.code, ck))
-                )
-                if proj is None:
-                    continue
-                key, when = proj
-                natural = _local(when, site.tz)
-                if natural <= end:
-                    out.append(_Occ(unit, task, ck, max(natural, today), key, True, natural < today))
-        elif trigger == Trigger.SEASON:
-            start, key = site.seasons.get(task.season, (None, ""))
-            if start is None or start < today - dt.timedelta(days=SEASON_LOOKBACK_DAYS):
+                done = last_done.get((unit.pk, task.code, ck))
+                basis = _local(done, site.tz) if done else unit.anchor
+                due = max(add_interval(basis, task.interval_value, task.interval_unit), today)
+                if due <= end:
+                    out.append(_Occ(unit, task, ck, due, f"after:{basis.isoformat()}", False))
+        else:
+            days = rules.grid(unit.anchor, task, today, end)
+            for comp in comps:
+                ck = comp.pk if comp else 0
+                out.extend(_Occ(unit, task, ck, due, f"c:{due.isoformat()}", False) for due in days)
+    elif trigger == Trigger.RUNTIME:
+        if meter is False:
+            meter = meters.meter_for(unit)
+        if meter is None:
+            return out, meter
+        for comp in comps:
+            ck = comp.pk if comp else 0
+            proj = meters.projection(meter, run_hours=task.run_hours, last_done=last_done.get((unit.pk, task.code, ck)))
+            if proj is None:
                 continue
-            natural = start - dt.timedelta(days=task.lead_days or 0)
+            key, when = proj
+            natural = _local(when, site.tz)
             if natural <= end:
-                due, clamped = max(natural, today), natural < today
-                out.extend(_Occ(unit, task, comp.pk if comp else 0, due, key, True, clamped) for comp in comps)
-    return out
+                out.append(_Occ(unit, task, ck, max(natural, today), key, True, natural < today))
+    elif trigger == Trigger.SEASON:
+        start, key = site.seasons.get(task.season, (None, ""))
+        if start is None or start < today - dt.timedelta(days=SEASON_LOOKBACK_DAYS):
+            return out, meter
+        natural = start - dt.timedelta(days=task.lead_days or 0)
+        if natural <= end:
+            due, clamped = max(natural, today), natural < today
+            out.extend(_Occ(unit, task, comp.pk if comp else 0, due, key, True, clamped) for comp in comps)
+    return out, meter
 
 
 def _title(tasks: list[TaskDefinition]) -> str:
@@ -407,12 +443,25 @@ def work_orders_generate(
             },
         )
 
-    rules = _Rules(tasks)
+    rules = _Rules(tasks, result.skipped)
     wanted: list[_Occ] = []
     for unit in units:
+        site_day = days[unit.site_id]
+        where = f"{unit.tag} at {sites[unit.site_id].name}"
+        problem = unit_problem(service_start=unit.anchor, today=site_day.today)
+        if problem is not None:
+            result.skipped.append(f"{where}: {problem}")
+            continue
         wanted.extend(
             _occurrences(
-                unit=unit, site=days[unit.site_id], rules=rules, disabled=disabled, last_done=last_done, meters=meters
+                unit=unit,
+                site=site_day,
+                rules=rules,
+                disabled=disabled,
+                last_done=last_done,
+                meters=meters,
+                skipped=result.skipped,
+                where=where,
             )
         )
 

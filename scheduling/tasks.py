@@ -31,7 +31,12 @@ def work_orders_generate(organisation_id: int, horizon_days: int = 90, today: st
     result = generate(
         organisation=Organisation.objects.get(pk=organisation_id), today=_today(today), horizon_days=horizon_days
     )
-    return {"created": result.created, "moved": result.moved, "unchanged": result.unchanged}
+    return {
+        "created": result.created,
+        "moved": result.moved,
+        "unchanged": result.unchanged,
+        "skipped": result.skipped,
+    }
 
 
 @shared_task(name="scheduling.site_seasons_refresh", **RETRY)

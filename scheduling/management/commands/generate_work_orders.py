@@ -37,6 +37,8 @@ class Command(BaseCommand):
             )
             for line in result.lines:
                 self.stdout.write(f"  {line}")
+            for line in result.skipped:
+                self.stdout.write(f"  skipped: {line}")
         if site and not any(Site.objects.filter(organisation=o, code=site).exists() for o in orgs):
             raise CommandError(f"--site={site!r} is not a site code")
         self.stdout.write(f"total: created {totals[0]}, moved {totals[1]}, unchanged {totals[2]}")

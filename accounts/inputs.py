@@ -1,0 +1,346 @@
+"""One input policy for every way in: numbers, whole numbers, dates, times and text.
+
+Check, then do: each ``check_*`` function takes one raw value as it arrived (form
+text, JSON value, CSV cell or a model attribute), returns the clean value, or
+``None`` after adding a message to ``errors`` under the field's key. A message
+names the field as a person knows it, the value and what is allowed. Nothing here
+writes; services take the clean values only.
+
+The same limits serve the jobs that read rows already stored (generation,
+calendars, the board) and ``manage.py check_data``: ``date_problem`` and
+``number_problem`` say what is wrong with a stored value, or ``None``.
+
+Lowest app layer (accounts), so every app may use it; physics stays in
+``engineering`` (unit conversion for messages comes from ``engineering.units``).
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+import re
+import zoneinfo
+from typing import Any
+
+from django.core.exceptions import ValidationError
+from django.utils.dateparse import parse_datetime
+
+from engineering.errors import EngineeringInputError
+from engineering.units import to_display, unit_label
+
+# ---------------------------------------------------------------------------
+# Limits
+# ---------------------------------------------------------------------------
+# No unit in the registry was started, and no reading or visit dated, before this day (common practice: the
+# product's records begin this century; an earlier date is a typo such as 0025 for 2025 or a reset clock).
+EARLIEST_DATE = dt.date(2000, 1, 1)
+# Plans and service starts reach at most this many years ahead of today (common practice: a maintenance plan
+# or a unit on order is not dated further ahead; 9999-12-31 is a placeholder, not a date).
+PLAN_YEARS_AHEAD = 10
+# Clocks of phones and building-automation exports drift a little: a reading up to 10 minutes ahead of the
+# server's clock is accepted (common practice).
+READING_FUTURE_TOLERANCE = dt.timedelta(minutes=10)
+# The database's integer columns (PostgreSQL integer, smallint, bigint).
+INT32_MAX = 2**31 - 1
+INT16_MAX = 2**15 - 1
+INT64_MAX = 2**63 - 1
+# NUL and the other C0/C1 control characters; multi-line text may keep tab, line feed and carriage return.
+_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f]")
+_CONTROL_LINE = re.compile(r"[\x00-\x1f\x7f-\x9f]")
+
+
+class FieldErrors(dict):
+    """``{field: [message, ...]}``, the shape of ``ValidationError`` with a field dict and of the API's errors."""
+
+    def add(self, key: str, message: str) -> None:
+        self.setdefault(key, []).append(message)
+
+    def raise_if_any(self) -> None:
+        if self:
+            raise ValidationError(dict(self))
+
+
+def shown(raw: object, limit: int = 40) -> str:
+    """A raw value as a person can read it in a message, cut short (a long string is not echoed whole)."""
+    text = str(raw) if isinstance(raw, int | float) and not isinstance(raw, bool) else repr(raw)
+    return text if len(text) <= limit else text[: limit - 1] + "…"
+
+
+def years_after(day: dt.date, years: int) -> dt.date:
+    """The same day ``years`` later (29 February becomes 28 February)."""
+    try:
+        return day.replace(year=day.year + years)
+    except ValueError:
+        return day.replace(year=day.year + years, day=28)
+
+
+def latest_plan_date(*, today: dt.date) -> dt.date:
+    return years_after(today, PLAN_YEARS_AHEAD)
+
+
+# ---------------------------------------------------------------------------
+# Numbers
+# ---------------------------------------------------------------------------
+def _display(value: float, quantity: str | None, system: str) -> tuple[float, str | None]:
+    if quantity is None:
+        return value, None
+    try:
+        return to_display(value=value, quantity=quantity, system=system), unit_label(quantity=quantity, system=system)
+    except (EngineeringInputError, OverflowError):
+        return value, None
+
+
+def number_allowed(
+    *, minimum: float, maximum: float, unit: str = "", quantity: str | None = None, system: str = "si"
+) -> str:
+    """'a number from 0.01 to 100 m³/s' in the person's units (``quantity`` names how to convert SI values)."""
+    lo, label = _display(minimum, quantity, system)
+    hi, _ = _display(maximum, quantity, system)
+    unit_text = label if label is not None else unit
+    return f"a number from {lo:.6g} to {hi:.6g}{f' {unit_text}' if unit_text else ''}"
+
+
+def number_problem(
+    value: Any, *, label: str, minimum: float, maximum: float, unit: str = "", quantity=None, system="si"
+) -> str | None:
+    """What is wrong with a stored or parsed number (not finite, out of range), or None."""
+    if value is None:
+        return None
+    allowed = number_allowed(minimum=minimum, maximum=maximum, unit=unit, quantity=quantity, system=system)
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        return f"{label}: {shown(value)} is not a number; allowed: {allowed}"
+    if not math.isfinite(value):
+        return f"{label}: {shown(value)} is not a finite number; allowed: {allowed}"
+    if not minimum <= value <= maximum:
+        shown_value, display_unit = _display(value, quantity, system)
+        unit_text = display_unit if display_unit is not None else unit
+        return f"{label}: {shown_value:.6g}{f' {unit_text}' if unit_text else ''} is out of range; allowed: {allowed}"
+    return None
+
+
+def parse_number(raw: Any) -> float | None:
+    """A finite float from a JSON number or typed text ('1,5' reads 1.5); None when it is none.
+
+    'nan', 'inf', '1e309' and friends are not numbers a person means."""
+    if isinstance(raw, bool) or raw is None:
+        return None
+    if isinstance(raw, int | float):
+        value = float(raw)
+    elif isinstance(raw, str):
+        text = raw.strip().replace(",", ".")
+        if not text or len(text) > 40:
+            return None
+        try:
+            value = float(text)
+        except ValueError:
+            return None
+    else:
+        return None
+    return value if math.isfinite(value) else None
+
+
+def check_number(
+    raw: Any,
+    *,
+    key: str,
+    label: str,
+    minimum: float,
+    maximum: float,
+    errors: FieldErrors,
+    unit: str = "",
+    quantity: str | None = None,
+    system: str = "si",
+    required: bool = False,
+) -> float | None:
+    """A finite number within [minimum, maximum] (SI), or None with a message in the person's units.
+
+    ``raw`` is taken as SI; a form that shows another unit converts first. Empty is None (an error if required).
+    """
+    allowed = number_allowed(minimum=minimum, maximum=maximum, unit=unit, quantity=quantity, system=system)
+    if raw is None or (isinstance(raw, str) and not raw.strip()):
+        if required:
+            errors.add(key, f"{label} is required; allowed: {allowed}")
+        return None
+    value = parse_number(raw)
+    if value is None:
+        errors.add(key, f"{label}: {shown(raw)} is not a finite number; allowed: {allowed}")
+        return None
+    problem = number_problem(
+        value, label=label, minimum=minimum, maximum=maximum, unit=unit, quantity=quantity, system=system
+    )
+    if problem:
+        errors.add(key, problem)
+        return None
+    return value
+
+
+def check_integer(
+    raw: Any,
+    *,
+    key: str,
+    label: str,
+    errors: FieldErrors,
+    minimum: int = 0,
+    maximum: int = INT32_MAX,
+    unit: str = "",
+    required: bool = False,
+) -> int | None:
+    """A whole number within [minimum, maximum] (default: what a database integer column holds)."""
+    allowed = f"a whole number from {minimum} to {maximum}{f' {unit}' if unit else ''}"
+    if raw is None or (isinstance(raw, str) and not raw.strip()):
+        if required:
+            errors.add(key, f"{label} is required; allowed: {allowed}")
+        return None
+    value: int | None = None
+    if isinstance(raw, int) and not isinstance(raw, bool):
+        value = raw
+    elif (isinstance(raw, float) and math.isfinite(raw) and raw == int(raw)) or (
+        isinstance(raw, str) and re.fullmatch(r"\s*[+-]?\d{1,30}\s*", raw)
+    ):
+        value = int(raw)
+    if value is None:
+        errors.add(key, f"{label}: {shown(raw)} is not a whole number; allowed: {allowed}")
+        return None
+    if not minimum <= value <= maximum:
+        errors.add(key, f"{label}: {shown(value)} is out of range; allowed: {allowed}")
+        return None
+    return value
+
+
+# ---------------------------------------------------------------------------
+# Dates and times
+# ---------------------------------------------------------------------------
+def date_window(*, today: dt.date) -> tuple[dt.date, dt.date]:
+    """Plans, service starts and installation dates: from 2000-01-01 to ten years after today."""
+    return EARLIEST_DATE, latest_plan_date(today=today)
+
+
+def date_problem(day: dt.date | None, *, label: str, today: dt.date) -> str | None:
+    """'service start 9999-12-31 is outside 2000–2036' for a stored date outside the window, else None."""
+    if day is None:
+        return None
+    earliest, latest = date_window(today=today)
+    if earliest <= day <= latest:
+        return None
+    return (
+        f"{label} {day.isoformat()} is outside {earliest.year}–{latest.year}; "
+        f"allowed: {earliest.isoformat()} to {latest.isoformat()}"
+    )
+
+
+def check_date(
+    raw: Any, *, key: str, label: str, today: dt.date, errors: FieldErrors, required: bool = False
+) -> dt.date | None:
+    """A date (``date`` or 'YYYY-MM-DD') within the plan window (see ``date_window``)."""
+    earliest, latest = date_window(today=today)
+    allowed = f"a date as YYYY-MM-DD from {earliest.isoformat()} to {latest.isoformat()}"
+    if raw is None or (isinstance(raw, str) and not raw.strip()):
+        if required:
+            errors.add(key, f"{label} is required; allowed: {allowed}")
+        return None
+    if isinstance(raw, dt.datetime):
+        day = raw.date()
+    elif isinstance(raw, dt.date):
+        day = raw
+    else:
+        try:
+            day = dt.date.fromisoformat(str(raw).strip()[:20])
+        except ValueError:
+            errors.add(key, f"{label}: {shown(raw)} is not a date; allowed: {allowed}")
+            return None
+    problem = date_problem(day, label=label, today=today)
+    if problem:
+        errors.add(key, problem)
+        return None
+    return day
+
+
+def in_zone(when: dt.datetime, tz: zoneinfo.ZoneInfo | str) -> dt.datetime:
+    """A time without a zone is read in ``tz`` (the site's zone); an aware time stays as it is.
+
+    The one rule for every way a reading comes in (API, CSV, forms): '2025-03-01 08:00' at a site in
+    Helsinki is 08:00 in Helsinki, wherever the server is."""
+    if when.tzinfo is not None and when.utcoffset() is not None:
+        return when
+    zone = tz if isinstance(tz, zoneinfo.ZoneInfo) else zoneinfo.ZoneInfo(tz or "UTC")
+    return when.replace(tzinfo=zone)
+
+
+def reading_time_problem(when: dt.datetime, *, label: str, now: dt.datetime, tz=None) -> str | None:
+    """A reading is not dated before 2000 nor later than now (plus 10 minutes of clock drift)."""
+    zone = tz if isinstance(tz, zoneinfo.ZoneInfo) else zoneinfo.ZoneInfo(tz or "UTC")
+    earliest = dt.datetime.combine(EARLIEST_DATE, dt.time(), tzinfo=zone)
+    if when < earliest:
+        return f"{label} {when.astimezone(zone):%Y-%m-%d %H:%M} is before {EARLIEST_DATE.year}; check the date"
+    if when > now + READING_FUTURE_TOLERANCE:
+        return (
+            f"{label} {when.astimezone(zone):%Y-%m-%d %H:%M} is later than now "
+            f"({now.astimezone(zone):%Y-%m-%d %H:%M}, site time); a reading cannot come from the future "
+            "— check the date and the device's clock"
+        )
+    return None
+
+
+def check_reading_time(
+    raw: Any, *, key: str, label: str, tz, now: dt.datetime, errors: FieldErrors
+) -> dt.datetime | None:
+    """A reading's date-time ('2025-03-01 08:00', ISO 8601, or a datetime): without a zone it is read in the
+    site's zone ``tz``; not before 2000, not later than now plus 10 minutes."""
+    allowed = "a date-time like 2025-03-01 08:00 (site time) or with an offset, 2025-03-01T08:00+02:00"
+    if isinstance(raw, dt.datetime):
+        when = raw
+    elif isinstance(raw, str) and raw.strip() and len(raw) <= 40:
+        try:
+            when = parse_datetime(raw.strip().replace(" ", "T", 1))
+        except ValueError:
+            when = None
+    else:
+        when = None
+    if when is None:
+        errors.add(key, f"{label}: {shown(raw)} is not a date-time; allowed: {allowed}")
+        return None
+    when = in_zone(when, tz)
+    problem = reading_time_problem(when, label=label, now=now, tz=tz)
+    if problem:
+        errors.add(key, problem)
+        return None
+    return when
+
+
+# ---------------------------------------------------------------------------
+# Text
+# ---------------------------------------------------------------------------
+def text_problem(value: str, *, label: str, max_length: int, lines: bool = False) -> str | None:
+    if (_CONTROL if lines else _CONTROL_LINE).search(value):
+        return f"{label}: the text contains control characters (such as NUL); remove them"
+    if len(value) > max_length:
+        return f"{label}: {len(value)} characters is too long; allowed: at most {max_length} characters"
+    return None
+
+
+def check_text(
+    raw: Any,
+    *,
+    key: str,
+    label: str,
+    max_length: int,
+    errors: FieldErrors,
+    lines: bool = False,
+    required: bool = False,
+) -> str | None:
+    """Text of at most ``max_length`` characters without NUL or control characters (``lines``: tab and line
+    breaks allowed), stripped; None with a message otherwise."""
+    if raw is None:
+        raw = ""
+    if not isinstance(raw, str):
+        errors.add(key, f"{label}: {shown(raw)} is not text; allowed: text of at most {max_length} characters")
+        return None
+    value = raw.strip()
+    if required and not value:
+        errors.add(key, f"{label} is required; allowed: text of at most {max_length} characters")
+        return None
+    problem = text_problem(value, label=label, max_length=max_length, lines=lines)
+    if problem:
+        errors.add(key, problem)
+        return None
+    return value
