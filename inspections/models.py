@@ -150,6 +150,16 @@ class Inspection(models.Model):
         settings.AUTH_USER_MODEL, on_delete=models.PROTECT, null=True, blank=True, related_name="+"
     )
     sync_result = models.JSONField(default=dict, blank=True, help_text="The first answer given to the phone.")
+    clock_skew = models.DurationField(
+        null=True,
+        blank=True,
+        help_text="The phone's clock minus the server's when the form arrived; empty when unknown.",
+    )
+    phone_times = models.JSONField(
+        default=dict,
+        blank=True,
+        help_text="The times as the phone sent them (its clock), before placing them on the server's timeline.",
+    )
 
     class Meta:
         ordering = ["-finished_at", "-id"]

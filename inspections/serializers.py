@@ -10,9 +10,20 @@ class ErrorSerializer(serializers.Serializer):
     errors = serializers.DictField(child=serializers.ListField(child=serializers.CharField()), required=False)
 
 
+class RawJSONField(serializers.JSONField):
+    """Any parsed JSON value, as it came: each form is judged on its own by the service (inspections/check.py)."""
+
+    def to_internal_value(self, data):
+        return data
+
+
 class SyncInputSerializer(serializers.Serializer):
     forms = serializers.ListField(
-        child=serializers.JSONField(), max_length=50, help_text="Finished forms; shape in inspections/SYNC.md."
+        child=RawJSONField(), max_length=50, help_text="Finished forms; shape in inspections/SYNC.md."
+    )
+    sent_at = RawJSONField(
+        required=False,
+        help_text="The phone's clock when it sent the batch (ISO 8601 with offset); a form's own sent_at wins.",
     )
 
 
@@ -26,6 +37,9 @@ class SyncResultSerializer(serializers.Serializer):
     errors = serializers.DictField()
     evaluation = serializers.ListField(child=serializers.DictField())
     findings = serializers.ListField(child=serializers.DictField())
+    clock_skew_s = serializers.FloatField(
+        allow_null=True, help_text="The phone's clock minus the server's at receipt, in seconds; null when unknown."
+    )
 
 
 class SyncOutputSerializer(serializers.Serializer):
@@ -86,6 +100,9 @@ class InspectionOutputSerializer(serializers.Serializer):
     finished_at = serializers.DateTimeField()
     signature_name = serializers.CharField()
     signed_at = serializers.DateTimeField()
+    received_at = serializers.DateTimeField()
+    clock_skew_s = serializers.SerializerMethodField(help_text="The phone's clock minus the server's, seconds.")
+    phone_times = serializers.DictField(help_text="The times as the phone's clock gave them.")
     complete = serializers.BooleanField()
     flags = serializers.ListField(child=serializers.DictField())
     flag_resolved_at = serializers.DateTimeField()
@@ -98,6 +115,9 @@ class InspectionOutputSerializer(serializers.Serializer):
     def _system(self) -> str:
         # Reasons in the reader's units; reason_si keeps the SI text as recorded.
         return self.context.get("unit_system", "si")
+
+    def get_clock_skew_s(self, obj) -> float | None:
+        return None if obj.clock_skew is None else round(obj.clock_skew.total_seconds(), 1)
 
     def get_readings(self, obj) -> list[dict]:
         return [
@@ -154,7 +174,11 @@ class FlaggedFormSerializer(serializers.Serializer):
     site = serializers.CharField(source="ahu.building.site.name")
     technician = serializers.CharField()
     received_at = serializers.DateTimeField()
+    clock_skew_s = serializers.SerializerMethodField(help_text="The phone's clock minus the server's, seconds.")
     flags = serializers.ListField(child=serializers.DictField())
+
+    def get_clock_skew_s(self, obj) -> float | None:
+        return None if obj.clock_skew is None else round(obj.clock_skew.total_seconds(), 1)
 
 
 class FreezeReadinessUnitSerializer(serializers.Serializer):

@@ -1,17 +1,17 @@
 """API views of the inspections app: thin, one operation each; contract in inspections/SYNC.md."""
 
 from django.conf import settings
-from django.core.exceptions import ValidationError
+from django.core.exceptions import RequestDataTooBig, ValidationError
 from django.http import FileResponse, Http404
 from django.shortcuts import get_object_or_404
 from django.utils import timezone
 from drf_spectacular.utils import OpenApiParameter, OpenApiResponse, extend_schema
 from rest_framework import status
-from rest_framework.parsers import FormParser, MultiPartParser
+from rest_framework.parsers import BaseParser, FormParser, MultiPartParser
 from rest_framework.response import Response
 from rest_framework.views import APIView
 
-from . import freeze, selectors, services
+from . import check, freeze, selectors, services
 from . import serializers as s
 from .models import Inspection
 
@@ -26,7 +26,22 @@ class ChecklistView(APIView):
         return Response(selectors.checklist_for(work_order=wo, user=request.user))
 
 
+class CheckedJSONParser(BaseParser):
+    """JSON read with a size cap and a depth limit (``check.body_parse``): a hostile body is a 4xx, never a 500."""
+
+    media_type = "application/json"
+
+    def parse(self, stream, media_type=None, parser_context=None):
+        limit = settings.DATA_UPLOAD_MAX_MEMORY_SIZE
+        data = stream.read(limit + 1) if stream is not None else b""
+        if len(data) > limit:
+            raise RequestDataTooBig("the body is larger than DATA_UPLOAD_MAX_MEMORY_SIZE")  # config.errors: 413
+        return check.body_parse(data)
+
+
 class SyncView(APIView):
+    parser_classes = [CheckedJSONParser]
+
     @extend_schema(
         request=s.SyncInputSerializer,
         responses={200: s.SyncOutputSerializer, 400: BAD},
@@ -36,7 +51,9 @@ class SyncView(APIView):
     def post(self, request):
         data = s.SyncInputSerializer(data=request.data)
         data.is_valid(raise_exception=True)
-        results = services.inspection_sync(user=request.user, forms=data.validated_data["forms"])
+        results = services.inspection_sync(
+            user=request.user, forms=data.validated_data["forms"], sent_at=data.validated_data.get("sent_at")
+        )
         return Response({"results": results})
 
 
@@ -149,6 +166,8 @@ class InspectionDetailView(APIView):
 
 
 class AmendmentCreateView(APIView):
+    parser_classes = [CheckedJSONParser]
+
     @extend_schema(
         request=s.AmendmentInputSerializer,
         responses={201: s.AmendmentOutputSerializer, 400: BAD, 403: s.ErrorSerializer, 404: NOT_FOUND},

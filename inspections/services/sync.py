@@ -10,7 +10,7 @@ work order's completion.
 from __future__ import annotations
 
 import datetime as dt
-import math
+import logging
 import uuid
 from dataclasses import dataclass, field
 from typing import Any
@@ -18,23 +18,26 @@ from typing import Any
 from django.conf import settings
 from django.core.exceptions import ValidationError
 from django.core.files.base import ContentFile
-from django.db import IntegrityError, transaction
+from django.db import DatabaseError, DataError, IntegrityError, transaction
 from django.utils import timezone
-from django.utils.dateparse import parse_datetime
 
 from accounts.services import audit_record
 from engineering.errors import EngineeringInputError
 from engineering.filters import FilterPoint
 from scheduling.models import WorkOrder
 
-from .. import checklists, evaluation, selectors
+from .. import check, checklists, evaluation, selectors
+from ..check import Errors
 from ..models import Inspection, Photo, Reading
 from . import findings as findings_service
 from . import photos as photo_service
 
+logger = logging.getLogger(__name__)
+
 MAX_FORMS = 50
 MAX_TEXT = 2000
-CLOCK_SKEW = dt.timedelta(minutes=10)
+MAX_NAME = 200
+MAX_READINGS = 2000
 CHECK_VALUES = ("ok", "not_ok", "na")
 
 
@@ -47,15 +50,12 @@ class Parsed:
     started_at: dt.datetime
     finished_at: dt.datetime
     checklist: selectors.Checklist
+    clock: check.Placed | None = None
+    phone_times: dict[str, Any] = field(default_factory=dict)
     readings: list[Reading] = field(default_factory=list)
     improbable: list[str] = field(default_factory=list)
     photos: list[tuple[dict, photo_service.CleanImage | Photo]] = field(default_factory=list)
     signature: dict[str, Any] = field(default_factory=dict)
-
-
-class Errors(dict):
-    def add(self, key: str, message: str) -> None:
-        self.setdefault(key, []).append(message)
 
 
 def _num_text(x: float | None) -> str:
@@ -73,48 +73,18 @@ def _range_text(lo: float | None, hi: float | None, unit: str) -> str:
     return f"at most {_num_text(hi)}{u}"
 
 
-def _time(raw: object, key: str, errors: Errors) -> dt.datetime | None:
-    if not isinstance(raw, str) or (value := parse_datetime(raw)) is None:
-        errors.add(key, f"{key}={raw!r} is not an ISO 8601 date-time such as 2025-03-01T08:55:00Z")
-        return None
-    if timezone.is_naive(value):
-        errors.add(key, f"{key}={raw!r} has no time-zone offset; add Z or +01:00")
-        return None
-    if value > timezone.now() + CLOCK_SKEW:
-        errors.add(key, f"{key}={raw!r} is in the future; check the phone's clock")
-        return None
-    return value
-
-
-def _uuid(raw: object, key: str, errors: Errors) -> uuid.UUID | None:
-    try:
-        return uuid.UUID(str(raw))
-    except (ValueError, TypeError, AttributeError):
-        errors.add(key, f"{key}={raw!r} is not a UUID")
-        return None
-
-
-def _number(raw: object) -> float | None:
-    if isinstance(raw, bool):
-        return None
-    if isinstance(raw, int | float):
-        x = float(raw)
-    elif isinstance(raw, str):
-        try:
-            x = float(raw.strip().replace(",", "."))
-        except ValueError:
-            return None
-    else:
-        return None
-    return x if math.isfinite(x) else None
-
-
 def _reading(parsed: Parsed, i: int, raw: object, seen: set, errors: Errors) -> None:
     at = f"readings[{i}]"
     if not isinstance(raw, dict):
         errors.add(at, "each reading is an object {item, component, value, note}")
         return
-    key, comp_code, value, note = raw.get("item"), raw.get("component"), raw.get("value"), raw.get("note") or ""
+    key, comp_code, value = raw.get("item"), raw.get("component"), raw.get("value")
+    if check.code(key) is None:
+        errors.add(f"{at}.item", f"item {check.shown(key)} is not an item key (text such as filter_check.dp)")
+        return
+    if comp_code is not None and check.code(comp_code) is None:
+        errors.add(f"{at}.component", f"component {check.shown(comp_code)} is not a label code (text) or null")
+        return
     slot = parsed.checklist.by_key().get((key, comp_code or None))
     if slot is None:
         if any(k == key for k, _ in parsed.checklist.by_key()):
@@ -126,43 +96,44 @@ def _reading(parsed: Parsed, i: int, raw: object, seen: set, errors: Errors) -> 
         errors.add(at, f"item {key!r} (component {comp_code!r}) is answered twice in this form")
         return
     seen.add(slot.key)
-    if not isinstance(note, str) or len(note) > MAX_TEXT:
-        errors.add(f"{at}.note", f"a note is text of at most {MAX_TEXT} characters")
-        return
     it = slot.item
-    reading = Reading(item=it, component=slot.component, note=note, entered=value)
     label = it.label + (f" ({slot.component.name})" if slot.component else "")
+    note = check.text(raw.get("note"), f"{at}.note", errors, label=f"{label}, note", max_len=MAX_TEXT)
+    if note is None:
+        return
+    reading = Reading(item=it, component=slot.component, note=note, entered=value)
     if value == "na" and it.kind != "text":
         reading.value_text = "na"
     elif it.kind == "check":
-        if value not in CHECK_VALUES:
-            errors.add(f"{at}.value", f"{label}: {value!r} is not one of ok, not_ok, na")
+        if not isinstance(value, str) or value not in CHECK_VALUES:
+            errors.add(f"{at}.value", f"{label}: {check.shown(value)} is not one of ok, not_ok, na")
             return
         reading.value_text = value
     elif it.kind == "choice":
         allowed = [c["value"] for c in it.choices]
-        if value not in allowed:
-            errors.add(f"{at}.value", f"{label}: {value!r} is not one of {', '.join(allowed)}, na")
+        if not isinstance(value, str) or value not in allowed:
+            errors.add(f"{at}.value", f"{label}: {check.shown(value)} is not one of {', '.join(allowed)}, na")
             return
         reading.value_text = value
     elif it.kind == "text":
-        if not isinstance(value, str) or len(value) > MAX_TEXT:
-            errors.add(f"{at}.value", f"{label}: expected text of at most {MAX_TEXT} characters")
+        if check.text(value, f"{at}.value", errors, label=label, max_len=MAX_TEXT, required=True) is None:
             return
         reading.value_text = value
     elif it.kind == "photo":
-        if value not in (None, "", "ok"):
+        if not (value is None or (isinstance(value, str) and value in ("", "ok"))):
             errors.add(f"{at}.value", f"{label}: a photo item takes no value; send the photo in 'photos'")
             return
         return  # photo items are answered by their photos
     else:
-        x = _number(value)
+        x = check.number(value)
         unit = checklists.display_unit_label(it.quantity, parsed.unit_system)
         lim = slot.limits
         lo = checklists.to_display(lim.get("physical_min"), it.quantity, parsed.unit_system)
         hi = checklists.to_display(lim.get("physical_max"), it.quantity, parsed.unit_system)
         if x is None:
-            errors.add(f"{at}.value", f"{label}: {value!r} is not a number; allowed {_range_text(lo, hi, unit)}")
+            errors.add(
+                f"{at}.value", f"{label}: {check.shown(value)} is not a number; allowed {_range_text(lo, hi, unit)}"
+            )
             return
         try:
             si = checklists.from_display(x, it.quantity, parsed.unit_system)
@@ -234,12 +205,14 @@ def _photos(parsed: Parsed, raw_list: object, errors: Errors) -> None:
         if not isinstance(raw, dict):
             errors.add(at, "each photo is an object {client_uuid, item, component, data}")
             continue
-        pid = _uuid(raw.get("client_uuid"), f"{at}.client_uuid", errors)
-        slot = by_key.get((raw.get("item"), raw.get("component") or None))
+        pid = check.uuid_(raw.get("client_uuid"), f"{at}.client_uuid", errors, label="photo")
+        item, comp = check.code(raw.get("item")), raw.get("component")
+        slot = by_key.get((item, comp or None)) if item and (comp is None or check.code(comp)) else None
         if slot is None:
             errors.add(
                 f"{at}.item",
-                f"item {raw.get('item')!r} (component {raw.get('component')!r}) is not on this work order's checklist",
+                f"item {check.shown(raw.get('item'))} (component {check.shown(comp)}) is not on this work order's "
+                "checklist",
             )
             continue
         if pid is None:
@@ -271,10 +244,16 @@ def _signature(parsed: Parsed, raw: object, errors: Errors) -> None:
     if not isinstance(raw, dict):
         errors.add("signature", "a signed form needs signature {name, image, signed_at}")
         return
-    name = raw.get("name")
-    if not isinstance(name, str) or not name.strip() or len(name) > 200:
-        errors.add("signature.name", "the signer's name is required (at most 200 characters)")
-    signed_at = _time(raw.get("signed_at"), "signature.signed_at", errors)
+    name = check.text(
+        raw.get("name"),
+        "signature.name",
+        errors,
+        label="The signer's name",
+        max_len=MAX_NAME,
+        required=True,
+        lines=False,
+    )
+    signed_at = check.when(raw.get("signed_at"), "signature.signed_at", errors, label="Signed at")
     try:
         image = photo_service.signature_clean(raw.get("image"))
     except ValidationError as exc:
@@ -285,30 +264,64 @@ def _signature(parsed: Parsed, raw: object, errors: Errors) -> None:
     parsed.signature = {"name": (name or "").strip(), "signed_at": signed_at, "image": image}
 
 
-def form_parse(*, user, raw: object) -> tuple[Parsed | None, Errors, uuid.UUID | None]:
-    """Validate one form completely, without writing anything."""
+def _clock(parsed: Parsed, raw: dict, sent_at: object, errors: Errors) -> None:
+    """Place the phone's times on the server's timeline (``check.clock_place``); the phone's clock never refuses."""
+    phone_sent = raw.get("sent_at", sent_at)
+    sent = None
+    if phone_sent is not None:
+        sent = check.when(phone_sent, "sent_at", errors, label="Sent at (the phone's clock)")
+    signed = parsed.signature.get("signed_at")
+    if (sent is None and phone_sent is not None) or signed is None:
+        return
+    received = timezone.now()
+    placed = check.clock_place(
+        started_at=parsed.started_at,
+        finished_at=parsed.finished_at,
+        signed_at=signed,
+        sent_at=sent,
+        received_at=received,
+    )
+    parsed.phone_times = {
+        "started_at": raw.get("started_at"),
+        "finished_at": raw.get("finished_at"),
+        "signed_at": (raw.get("signature") or {}).get("signed_at"),
+        "sent_at": phone_sent,
+        "received_at": received.isoformat(),
+        "skew_from": None if placed.skew is None else ("sent_at" if placed.measured else "times"),
+    }
+    parsed.clock = placed
+    parsed.started_at, parsed.finished_at = placed.started_at, placed.finished_at
+    parsed.signature["signed_at"] = placed.signed_at
+
+
+def form_parse(*, user, raw: object, sent_at: object = None) -> tuple[Parsed | None, Errors, uuid.UUID | None]:
+    """Validate one form completely, without writing anything: clean values, or errors naming each field.
+
+    ``sent_at`` is the phone's clock when it sent the batch (the form's own
+    ``sent_at`` wins); the phone's times are placed on the server's timeline.
+    """
     errors = Errors()
     if not isinstance(raw, dict):
         errors.add("form", "each form is an object; see inspections/SYNC.md")
         return None, errors, None
-    client_uuid = _uuid(raw.get("client_uuid"), "client_uuid", errors)
-    wo_id = _uuid(raw.get("work_order"), "work_order", errors)
+    client_uuid = check.uuid_(raw.get("client_uuid"), "client_uuid", errors, label="The form's id")
+    wo_id = check.uuid_(raw.get("work_order"), "work_order", errors, label="Work order")
     work_order = selectors.work_order_for_sync(user=user, public_id=wo_id) if wo_id else None
     if wo_id and work_order is None:
-        errors.add("work_order", f"work_order={str(wo_id)!r}: no such work order in your organisation")
-    version = raw.get("work_order_version")
-    if isinstance(version, bool) or not isinstance(version, int) or version < 1:
-        errors.add("work_order_version", f"work_order_version={version!r} is not a whole number ≥ 1")
+        errors.add("work_order", f"Work order {str(wo_id)!r}: no such work order in your organisation")
+    version = check.whole(raw.get("work_order_version"), "work_order_version", errors, label="Work order version")
     system = raw.get("unit_system")
-    if system not in ("si", "us"):
-        errors.add("unit_system", f"unit_system={system!r} is not one of si, us")
-    started = _time(raw.get("started_at"), "started_at", errors)
-    finished = _time(raw.get("finished_at"), "finished_at", errors)
-    if started and finished and started > finished:
-        errors.add("finished_at", "finished_at is before started_at")
+    if not isinstance(system, str) or system not in ("si", "us"):
+        errors.add("unit_system", f"Unit system: {check.shown(system)} is not one of si, us")
+    started = check.when(raw.get("started_at"), "started_at", errors, label="Started at")
+    finished = check.when(raw.get("finished_at"), "finished_at", errors, label="Finished at")
     readings = raw.get("readings")
-    if not isinstance(readings, list):
-        errors.add("readings", "readings is a list of {item, component, value, note}")
+    if not isinstance(readings, list) or len(readings) > MAX_READINGS:
+        errors.add(
+            "readings",
+            f"Readings: {check.shown(readings)} is not allowed; allowed a list of at most {MAX_READINGS} readings "
+            "{item, component, value, note}",
+        )
     if errors or work_order is None:
         return None, errors, client_uuid
     parsed = Parsed(
@@ -320,12 +333,13 @@ def form_parse(*, user, raw: object) -> tuple[Parsed | None, Errors, uuid.UUID |
         finished_at=finished,
         checklist=selectors.checklist_build(work_order=work_order),
     )
+    _signature(parsed, raw.get("signature"), errors)
+    _clock(parsed, raw, sent_at, errors)  # before the readings: the meter reading is dated on the server's timeline
     seen: set = set()
     for i, r in enumerate(readings):
         _reading(parsed, i, r, seen, errors)
     _run_hours(parsed, readings, errors)
     _photos(parsed, raw.get("photos"), errors)
-    _signature(parsed, raw.get("signature"), errors)
     return (None if errors else parsed), errors, client_uuid
 
 
@@ -393,6 +407,8 @@ def _flags(parsed: Parsed, user, wo: WorkOrder, results) -> list[dict]:
         )
     for text in parsed.improbable:
         flags.append({"code": "improbable_value", "reason": text})
+    if parsed.clock is not None and parsed.clock.beyond_tolerance:
+        flags.append({"code": "phone_clock", "reason": _clock_reason(parsed.clock)})
     answered = {(r.item.api_key, r.component.pk if r.component else None) for r in parsed.readings}
     photographed = {
         (p["slot"].item.api_key, p["slot"].component.pk if p["slot"].component else None) for p, _ in parsed.photos
@@ -421,6 +437,15 @@ def _flags(parsed: Parsed, user, wo: WorkOrder, results) -> list[dict]:
     return flags
 
 
+def _clock_reason(placed: check.Placed) -> str:
+    how = "" if placed.measured else "at least "
+    return (
+        f"the phone's clock was {how}{check.skew_text(placed.skew)} the server's when the form arrived; "
+        f"its finish and signature times are placed on the server's clock (finished "
+        f"{placed.finished_at:%Y-%m-%d %H:%M} UTC); set the phone to the network time"
+    )
+
+
 def _result_json(
     inspection: Inspection, status: str, flags, evals, found, wo: WorkOrder, *, unit_system: str = "si"
 ) -> dict:
@@ -446,7 +471,12 @@ def _result_json(
             for e in evals
         ],
         "findings": [selectors.finding_shape(finding=f, unit_system=unit_system) for f in found],
+        "clock_skew_s": _skew_seconds(inspection.clock_skew),
     }
+
+
+def _skew_seconds(skew: dt.timedelta | None) -> float | None:
+    return None if skew is None else round(skew.total_seconds(), 1)
 
 
 def duplicate_result(inspection: Inspection, *, user) -> dict:
@@ -471,6 +501,7 @@ def refused_result(client_uuid, errors: Errors) -> dict:
         "errors": dict(errors),
         "evaluation": [],
         "findings": [],
+        "clock_skew_s": None,
     }
 
 
@@ -492,6 +523,8 @@ def _store(parsed: Parsed, user, results) -> dict:
         finished_at=parsed.finished_at,
         signature_name=sig["name"],
         signed_at=sig["signed_at"],
+        clock_skew=parsed.clock.skew if parsed.clock else None,
+        phone_times=parsed.phone_times,
     )
     inspection.signature_image.save(f"{parsed.client_uuid.hex}.png", ContentFile(sig["image"].data), save=False)
     written.append(inspection.signature_image)
@@ -605,24 +638,60 @@ def _store(parsed: Parsed, user, results) -> dict:
         raise
 
 
-def inspection_submit(*, user, form: object) -> dict:
+def inspection_submit(*, user, form: object, sent_at: object = None) -> dict:
     """Store one finished form (or return the first result for its client_uuid, or refuse it whole)."""
     if isinstance(form, dict):
-        try:
-            first = Inspection.objects.filter(client_uuid=uuid.UUID(str(form.get("client_uuid")))).first()
-        except (ValueError, TypeError, AttributeError):
-            first = None
+        first = None
+        if isinstance(raw_id := form.get("client_uuid"), str):
+            try:
+                first = Inspection.objects.filter(client_uuid=uuid.UUID(raw_id)).first()
+            except ValueError:
+                first = None
         if first is not None:
             return duplicate_result(first, user=user)
-    parsed, errors, client_uuid = form_parse(user=user, raw=form)
+    parsed, errors, client_uuid = form_parse(user=user, raw=form, sent_at=sent_at)
     if parsed is None:
         return refused_result(client_uuid, errors)
     results = _evaluate(parsed)
     return _store(parsed, user, results)
 
 
-def inspection_sync(*, user, forms: list) -> list[dict]:
-    """One result per form, in order. Each form is its own transaction."""
+def _failed_result(form: object) -> dict:
+    """A form the server could not handle (a defect, logged): kept on the phone and sent again later."""
+    raw_id = form.get("client_uuid") if isinstance(form, dict) else None
+    return {
+        "client_uuid": raw_id if isinstance(raw_id, str) and len(raw_id) <= 36 else None,
+        "status": "error",
+        "inspection_id": None,
+        "work_order_state": None,
+        "flags": [],
+        "errors": {"form": ["the server could not store this form just now; it stays on the phone and is sent again"]},
+        "evaluation": [],
+        "findings": [],
+        "clock_skew_s": None,
+    }
+
+
+def inspection_sync(*, user, forms: list, sent_at: object = None) -> list[dict]:
+    """One result per form, in order. Each form is its own transaction and never holds back the others.
+
+    A form the server fails on (a defect, not the phone's input) answers
+    ``status: "error"`` and is logged; a database outage still fails the batch
+    (503 from config/api.py) so the phone keeps everything and retries.
+    """
     if not isinstance(forms, list) or len(forms) > MAX_FORMS:
         raise ValidationError({"forms": [f"forms is a list of at most {MAX_FORMS} forms"]})
-    return [inspection_submit(user=user, form=f) for f in forms]
+    out = []
+    for form in forms:
+        try:
+            with transaction.atomic():
+                out.append(inspection_submit(user=user, form=form, sent_at=sent_at))
+        except DatabaseError as exc:
+            if not isinstance(exc, IntegrityError | DataError):
+                raise
+            logger.exception("sync: one form failed in the database")
+            out.append(_failed_result(form))
+        except Exception:
+            logger.exception("sync: one form failed")
+            out.append(_failed_result(form))
+    return out

@@ -71,20 +71,22 @@ def _files_on_disk() -> set[str]:
 
 @pytest.mark.django_db
 def test_a_batch_cut_off_after_form_k_loses_nothing_and_stores_nothing_twice(monkeypatch):
-    """A crash inside form 3 of 5: forms 1–2 stored whole, form 3 not at all; the retry stores 3–5 once."""
+    """A crash inside form 3 of 5: form 3 not stored at all and answered "error" (the phone keeps it); the forms
+    after it are not held back; the retry stores form 3 once."""
     tech, forms = _batch()
     files_before = _files_on_disk()
     _fail_on(monkeypatch, "findings_service.findings_open", 3, RuntimeError("worker killed mid-batch"))
-    with pytest.raises(RuntimeError):
-        inspection_sync(user=tech, forms=forms)
-    assert Inspection.objects.count() == 2
-    assert Reading.objects.count() == 2 * 7
+    results = inspection_sync(user=tech, forms=forms)
+    assert [r["status"] for r in results] == ["stored", "stored", "error", "stored", "stored"]
+    assert results[2]["client_uuid"] == forms[2]["client_uuid"] and results[2]["inspection_id"] is None
+    assert Inspection.objects.count() == 4
+    assert Reading.objects.count() == 4 * 7
     assert not Inspection.objects.filter(client_uuid=forms[2]["client_uuid"]).exists()
     # The signature file written for the cut-off form is removed again.
     assert _files_on_disk() - files_before == _stored_files() - files_before
     monkeypatch.undo()
     results = inspection_sync(user=tech, forms=forms)
-    assert [r["status"] for r in results] == ["duplicate", "duplicate", "stored", "stored", "stored"]
+    assert [r["status"] for r in results] == ["duplicate", "duplicate", "stored", "duplicate", "duplicate"]
     assert Inspection.objects.count() == FORMS
     assert Reading.objects.count() == FORMS * 7
     assert Evaluation.objects.values("inspection_id").distinct().count() == FORMS
