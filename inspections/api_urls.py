@@ -11,6 +11,7 @@ urlpatterns = [
     path("photos/<uuid:client_uuid>/", views.PhotoFileView.as_view(), name="photo"),
     path("photos/<uuid:client_uuid>/thumbnail/", views.PhotoFileView.as_view(thumbnail=True), name="photo-thumb"),
     path("flagged/", views.FlaggedListView.as_view(), name="flagged"),
+    path("findings/", views.FindingListView.as_view(), name="findings"),
     path("freeze-readiness/", views.FreezeReadinessView.as_view(), name="freeze-readiness"),
     path("<int:pk>/", views.InspectionDetailView.as_view(), name="detail"),
     path("<int:pk>/amendments/", views.AmendmentCreateView.as_view(), name="amend"),

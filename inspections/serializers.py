@@ -192,3 +192,19 @@ class FreezeReadinessUnitSerializer(serializers.Serializer):
     not_passed = serializers.ListField(child=serializers.CharField(), help_text="Steps of that test not passed.")
     season_start = serializers.DateField(allow_null=True)
     window_opens = serializers.DateField(allow_null=True)
+
+
+class FindingSerializer(serializers.Serializer):
+    """The shape of ``inspections.selectors.finding_shape`` (for the schema)."""
+
+    id = serializers.IntegerField()
+    kind = serializers.ChoiceField(choices=["corrective", "design_review"])
+    kind_label = serializers.CharField()
+    severity = serializers.ChoiceField(choices=["low", "medium", "high", "critical"])
+    state = serializers.ChoiceField(choices=["open", "closed"])
+    title = serializers.CharField()
+    text = serializers.CharField(help_text="The check, its numbers and the limit that failed it, in your units.")
+    first_seen = serializers.DateTimeField(help_text="The first visit that saw it; its age counts from here.")
+    last_seen = serializers.DateTimeField()
+    times_seen = serializers.IntegerField(help_text="Visits that saw it.")
+    corrective_work_order = serializers.UUIDField(allow_null=True)

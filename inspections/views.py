@@ -244,3 +244,29 @@ class FreezeReadinessView(APIView):
                 raise ValidationError({"site": [f"site={raw!r} is not a site id (a whole number)"]}) from None
         rows = freeze.freeze_readiness_for(user=request.user, site_ids=site_ids, as_of=timezone.now())
         return Response([freeze.readiness_json(r) for r in rows])
+
+
+class FindingListView(APIView):
+    @extend_schema(
+        parameters=[
+            OpenApiParameter("state", str, enum=["open", "closed", "all"], description="Default open."),
+            OpenApiParameter("unit", str, description="Only this unit (its label code)."),
+        ],
+        responses={200: s.FindingSerializer(many=True), 400: BAD},
+        tags=["inspections"],
+        description="Findings you may see, oldest first seen first: one per unit, part and problem, with how many "
+        "visits saw it. The same shape as the findings in sync and amendment answers.",
+    )
+    def get(self, request):
+        state = request.query_params.get("state", "open")
+        if state not in ("open", "closed", "all"):
+            raise ValidationError({"state": [f"state={state!r} is not one of open, closed, all"]})
+        rows = selectors.findings_visible_to(user=request.user).exclude(close_cause="merged")
+        if state != "all":
+            rows = rows.filter(state=state)
+        unit = request.query_params.get("unit")
+        if unit:
+            rows = rows.filter(ahu__label_code=unit)
+        system = _reader(request)["unit_system"]
+        rows = rows.select_related("latest_evaluation", "evaluation").order_by("opened_at", "pk")
+        return Response([selectors.finding_shape(finding=f, unit_system=system) for f in rows])

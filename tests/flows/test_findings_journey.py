@@ -92,6 +92,12 @@ def test_ten_monthly_visits_with_the_same_design_shortfall_leave_one_design_revi
     assert figures.findings_matrix[finding.severity]["over 180 days"] == 1
 
     boss = make_supervisor(org)
+    api_client.force_authenticate(boss)
+    [listed] = api_client.get("/api/inspections/findings/", {"unit": ahu.label_code}).json()
+    assert listed["times_seen"] == 10 and listed["kind"] == "design_review"
+    assert listed["first_seen"] == FINISHED.isoformat() and listed["last_seen"] == last.isoformat()
+    assert listed["corrective_work_order"] is None and "47 %" in listed["text"]
+    assert not CODES.search(listed["title"] + listed["text"]), listed
     client.force_login(boss)
     with time_machine.travel(last + dt.timedelta(hours=2), tick=False):
         page = client.get(reverse("frontend:findings"))
