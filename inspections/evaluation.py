@@ -268,6 +268,15 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
         specs = bank.specs
         design_q = specs.get("design_airflow_m3s") or form.ahu.design_supply_airflow_m3s
         res = Result(check="filter_loading", item="filter_check.dp", component=bank, condition_code="filter_loaded")
+        missing = next((w for k, w in (("clean_dp_pa", "clean"), ("final_dp_pa", "final")) if k not in specs), None)
+        if missing is not None:
+            # Said in plain words: a reader never sees a registry field name.
+            res.verdict = WATCH
+            res.reason = (
+                f"cannot judge the filter loading: the filter bank has no {missing} pressure drop in the registry"
+            )
+            out.append(res)
+            continue
         try:
             loading = filters.filter_loading(
                 dp_pa=dp,
@@ -276,7 +285,7 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
                 clean_dp_pa=specs["clean_dp_pa"],
                 final_dp_pa=specs["final_dp_pa"],
             )
-        except (EngineeringInputError, KeyError) as exc:
+        except EngineeringInputError as exc:
             res.verdict, res.reason = WATCH, f"cannot judge the filter loading: {exc}"
             out.append(res)
             continue

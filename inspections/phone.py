@@ -16,13 +16,12 @@ from __future__ import annotations
 
 import datetime as dt
 import functools
-import math
 from collections.abc import Callable
 from typing import Any
 
 from engineering import filters
 from engineering import units as eng_units
-from engineering.airside import FLUIDS, fluid_properties
+from engineering.airside import fluid_properties
 from engineering.errors import EngineeringInputError
 from engineering.filters import FilterPoint
 from engineering.psychro import pressure_from_altitude
@@ -53,17 +52,35 @@ def unit_table() -> dict[str, dict[str, Any]]:
 
 
 @functools.cache
-def fluid_table() -> dict[str, dict[str, Any]]:
-    """Read-only: density and c_p of each coil fluid every 1 K over its range (engineering.airside.fluid_properties)."""
-    out = {}
-    for name, rows in FLUIDS.items():
-        lo, hi = math.ceil(rows[0][0]), math.floor(rows[-1][0])
-        table = []
-        for t in range(lo, hi + 1):
-            rho, cp = fluid_properties(fluid=name, temperature_c=float(t))
-            table.append([round(rho, 4), round(cp, 3)])
-        out[name] = {"t_min": lo, "t_max": hi, "step": 1, "rows": table}
-    return out
+def property_table(fluid: str, glycol_pct: float | None = None) -> dict[str, Any]:
+    """Density and c_p of one coil fluid every 1 K over the range it is known
+    (engineering.airside.fluid_properties, glycols at their concentration); read-only."""
+    rows: list[list[float]] = []
+    t_min = None
+    for t in range(-60, 201):
+        try:
+            rho, cp = fluid_properties(fluid=fluid, temperature_c=float(t), glycol_pct=glycol_pct)
+        except EngineeringInputError:
+            if t_min is not None:
+                break
+            continue
+        t_min = t if t_min is None else t_min
+        rows.append([round(rho, 4), round(cp, 3)])
+    label = fluid.replace("_", " ")
+    if glycol_pct is not None:
+        label = f"{glycol_pct:g} % {label}"
+    return {"t_min": t_min, "t_max": None if t_min is None else t_min + len(rows) - 1, "rows": rows, "label": label}
+
+
+def _coil_fluid(specs: dict) -> dict[str, Any]:
+    """A coil's fluid as evaluate() takes it (evaluation.coil_fluid), with its property table."""
+    fluid, glycol_pct, words = evaluation.coil_fluid(specs)
+    return {
+        "name": fluid,
+        "glycol_pct": glycol_pct,
+        "words": words,
+        "table": property_table(fluid, glycol_pct) if fluid is not None else None,
+    }
 
 
 def _slot(slot) -> dict[str, Any]:
@@ -159,11 +176,17 @@ def evaluation_context(
             "ventilation_requirement": _requirement(ahu),
         },
         "components": [
-            {"code": c.label_code, "name": c.name, "kind": c.kind, "specs": c.specs or {}} for c in components
+            {
+                "code": c.label_code,
+                "name": c.name,
+                "kind": c.kind,
+                "specs": c.specs or {},
+                **({"fluid": _coil_fluid(c.specs or {})} if c.kind == "coil" else {}),
+            }
+            for c in components
         ],
         "slots": [_slot(s) for s in slots],
         "filter_points": points,
-        "fluids": fluid_table(),
         "units": unit_table(),
         "decimals": {q: list(d) for q, d in reasons.DECIMALS.items()},
         "constants": constants(),

@@ -5,8 +5,8 @@ over the edges: reduced airflow, airflow from fan speed, too little
 outdoor–return difference, missing registry data, altitude, glycol-free and
 cooling coils) go through ``inspections.evaluation.evaluate`` and through its
 JavaScript twin ``frontend/static/frontend/js/evaluate.js`` under Node, fed only
-by ``inspections.phone.evaluation_context``. Verdicts must agree everywhere and
-every derived number within 0.5 %. A check the server can produce
+by ``inspections.phone.evaluation_context``. Verdicts and reasons (as the person
+reads them, SI rendering) must agree everywhere and every derived number within 0.5 %. A check the server can produce
 (``evaluation.CHECKS``) that the twin lacks fails the test, as does a check
 name the server produces that the registry does not list.
 
@@ -30,7 +30,7 @@ import pytest
 from engineering import ventilation
 from engineering.filters import FilterPoint
 from inspections import checklists, evaluation, phone
-from inspections.selectors import item_limits
+from inspections.selectors import _matches, item_limits
 
 JS = Path(__file__).resolve().parents[2] / "frontend" / "static" / "frontend" / "js"
 FINISHED = dt.datetime(2026, 3, 3, 10, 0, tzinfo=dt.UTC)
@@ -86,7 +86,7 @@ def _slots(ahu, components) -> list[NS]:
             slots.append(NS(item=it, component=None, limits=item_limits(item=it, ahu=ahu, component=None)))
             continue
         for c in components:
-            if c.kind == it.component_kind and all(c.specs.get(k) == v for k, v in it.component_filter.items()):
+            if _matches(c, it):  # the server's own rule for which parts an item is asked of
                 slots.append(NS(item=it, component=c, limits=item_limits(item=it, ahu=ahu, component=c)))
     return slots
 
@@ -148,6 +148,19 @@ def _unit(rng: random.Random) -> tuple[NS, list[NS]]:
             {"fluid": "water", "duty": "heating", **({"design_airflow_m3s": design} if rng.random() < 0.5 else {})},
         ),
         _component("coil", "Cooling coil", {"fluid": "water", "duty": "cooling"}),
+        _component(
+            "coil",
+            "Glycol preheat coil",
+            {"fluid": "glycol", "duty": "heating"}
+            | rng.choice(
+                [
+                    {"glycol_kind": "ethylene", "glycol_pct": rng.choice([20, 25, 30, 40])},
+                    {"glycol_kind": "propylene", "glycol_pct": rng.choice([15, 30, 35])},
+                    {},
+                ]
+            ),
+        ),
+        _component("coil", "Steam coil", {"fluid": "steam", "duty": "heating"}),
         _component("damper", "Outdoor-air damper", {"stroke_time_s": rng.choice([90.0, 150.0])}),
         _component("damper", "Return damper", {}),
         _component(
@@ -303,7 +316,7 @@ def _answers(rng, ahu, comps, values, points):
             continue
         targets = [None] if not it.component_kind else by_kind.get(it.component_kind, [])
         for c in targets:
-            if c is not None and not all(c.specs.get(k) == v for k, v in it.component_filter.items()):
+            if c is not None and not _matches(c, it):
                 continue
             if rng.random() < 0.6:
                 continue
@@ -410,7 +423,7 @@ def run_js(inputs: list[dict], tmp_path: Path) -> dict:
     (tmp_path / "runner.mjs").write_text(RUNNER)
     (tmp_path / "package.json").write_text('{"type": "module"}')
     # The tables every context carries alike (units, fluids, thresholds) are sent once.
-    shared_keys = ("units", "fluids", "decimals", "constants")
+    shared_keys = ("units", "decimals", "constants")
     shared = {k: inputs[0]["context"][k] for k in shared_keys} if inputs else {}
     for i in inputs:
         assert all(i["context"].pop(k) == shared[k] for k in shared_keys)
@@ -439,6 +452,8 @@ def compare(case, py: list[dict], js: list[dict]) -> list[str]:
         p, j = py_by[k], js_by[k]
         if p["verdict"] != j["verdict"]:
             problems.append(f"{k}: server {p['verdict']} ({p['reason']}), phone {j['verdict']} ({j['reason']})")
+        elif p["reason"] != j["reason"]:
+            problems.append(f"{k}: the reasons differ:\n  server: {p['reason']}\n  phone:  {j['reason']}")
         for name, pv in p["derived"].items():
             jv = j["derived"].get(name, "<missing>")
             if name == "forecast_note":

@@ -24,6 +24,9 @@ const worst = (...vs) => vs.reduce((a, b) => (RANK[b] > RANK[a] ? b : a), OK);
 // Numbers as Python computes them
 // ---------------------------------------------------------------------------
 
+// Python's "{:.3g}" for the ordinary magnitudes of field readings.
+const g3 = (x) => String(Number(x.toPrecision(3)));
+
 function fmtG(x) {
   // Python's v.fmt / "{:g}" for the short numbers in messages.
   return Number.isInteger(x) ? String(x) : String(Number(x.toPrecision(6)));
@@ -81,7 +84,7 @@ export function correctedPressureDrop(ctx, dp, q, qd) {
   const r = q / qd;
   if (!(lo <= r && r <= hi)) {
     throw new EngineeringInputError("airflow_m3s",
-      `airflow ${fmtG(q)} m³/s is too far from design ${fmtG(qd)} m³/s (allowed ${lo}–${hi} × design) to correct the pressure drop reliably`,
+      `airflow airflow_m3s=${fmtG(q)} is outside ${g3(lo * qd)}–${g3(hi * qd)} m³/s (${lo}–${hi} × design ${fmtG(qd)} m³/s): too far from design to correct the pressure drop reliably`,
       { low: lo * qd, high: hi * qd });
   }
   return dp * r ** (-n);
@@ -271,12 +274,14 @@ export function filterForecast(ctx, { points, qd, final, confidence = 0.9, minRi
 function oaFraction({ method, outdoor, ret, mixed, accO, accR, accM, minDifference, maxUncertainty = 0.5, unit, names }) {
   const diff = ret - outdoor;
   if (Math.abs(diff) < minDifference) {
-    throw new EngineeringInputError(names[0], `cannot compute an outdoor-air fraction by ${method}: outdoor and return differ by ${fmtG(pyRound(Math.abs(diff), 3))} ${unit === "°C" ? "K" : unit}; they must differ by at least ${fmtG(minDifference)} ${unit === "°C" ? "K" : unit}`);
+    const du = unit === "°C" ? "K" : unit;
+    throw new EngineeringInputError(names[0], `cannot compute an outdoor-air fraction by ${method}: outdoor ${fmtG(outdoor)} ${unit} and return ${fmtG(ret)} ${unit} differ by ${fmtG(pyRound(Math.abs(diff), 3))} ${du}; they must differ by at least ${fmtG(minDifference)} ${du}`);
   }
   const x = (ret - mixed) / diff;
   const u = Math.sqrt((accM / diff) ** 2 + ((accO * (ret - mixed)) / diff ** 2) ** 2 + ((accR * (mixed - outdoor)) / diff ** 2) ** 2);
   if (u >= maxUncertainty) {
-    throw new EngineeringInputError(names[2], `cannot compute an outdoor-air fraction by ${method}: the result would be ${fixed(x, 2)} ± ${fixed(u, 2)}, and an uncertainty of ±${maxUncertainty} or more says nothing`);
+    const du = unit === "°C" ? "K" : unit;
+    throw new EngineeringInputError(names[2], `cannot compute an outdoor-air fraction by ${method}: with the sensor accuracies given the result would be ${fixed(x, 2)} ± ${fixed(u, 2)}, and an uncertainty of ±${fmtG(maxUncertainty)} or more says nothing; outdoor and return differ by only ${fmtG(pyRound(Math.abs(diff), 3))} ${du}`);
   }
   if (x < -u || x > 1 + u) {
     throw new EngineeringInputError(names[2], `mixed ${fmtG(mixed)} ${unit} is not between outdoor ${fmtG(outdoor)} ${unit} and return ${fmtG(ret)} ${unit} (even allowing ±${fixed(u, 2)} for sensor accuracy): check sensor placement, stratification or a heat source upstream`);
@@ -309,16 +314,23 @@ function fractionCheck(x, u, mn) {
   return { verdict: WATCH, reason: `cannot decide: ${text} spans the minimum ${fixed(mn * 100, 0)} %; measure again when outdoor and return differ more` };
 }
 
-/** Density and c_p of a coil fluid at a temperature, interpolated in the server's 1 K table. */
-export function fluidProperties(ctx, fluid, t) {
-  const table = ctx.fluids[fluid];
-  if (!table) throw new EngineeringInputError("fluid", `no properties for ${fluid}`);
-  const { t_min: lo, t_max: hi, step, rows } = table;
-  inRange("temperature_c", t, lo, hi, { unit: "°C", label: `${fluid.replace(/_/g, " ")} temperature` });
-  const pos = (t - lo) / step;
-  const i = Math.min(Math.floor(pos), rows.length - 2);
+/** Density and c_p of a coil's fluid at a temperature, interpolated in the server's 1 K table. */
+export function fluidProperties(table, t) {
+  inRange("temperature_c", t, table.t_min, table.t_max, { unit: "°C", label: `${table.label} temperature` });
+  const pos = t - table.t_min;
+  const i = Math.min(Math.floor(pos), table.rows.length - 2);
   const f = pos - i;
+  const { rows } = table;
   return [rows[i][0] + f * (rows[i + 1][0] - rows[i][0]), rows[i][1] + f * (rows[i + 1][1] - rows[i][1])];
+}
+
+/** Heat picked up by the coil fluid, W: q = ρ V c_p (t_return − t_supply) at the mean fluid temperature. */
+export function waterSideHeatW(table, { tSupply, tReturn, flow }) {
+  inRange("flow_m3s", flow, 0, 1, { unit: "m³/s", label: "fluid flow" });
+  inRange("t_supply_c", tSupply, table.t_min, table.t_max, { unit: "°C", label: `${table.label} supply temperature` });
+  inRange("t_return_c", tReturn, table.t_min, table.t_max, { unit: "°C", label: `${table.label} return temperature` });
+  const [rho, cp] = fluidProperties(table, (tSupply + tReturn) / 2);
+  return rho * flow * cp * (tReturn - tSupply);
 }
 
 // ASHRAE Handbook—Fundamentals 2017 ch.1: v = R_da T (1 + 1.607858 W) / p (psychrolib GetMoistAirVolume),
@@ -339,17 +351,6 @@ export function dryAirDensity(t, pressure = 101325) {
   airTemperature("t_c", t, "air temperature");
   inRange("pressure_pa", pressure, 50000, 110000, { unit: "Pa", label: "absolute pressure" });
   return pressure / (287.042 * (t + 273.15));
-}
-
-export function waterSideHeatW(ctx, { tSupply, tReturn, flow, fluid = "water" }) {
-  inRange("flow_m3s", flow, 0, 1, { unit: "m³/s", label: "fluid flow" });
-  const table = ctx.fluids[fluid];
-  if (!table) throw new EngineeringInputError("fluid", `no properties for ${fluid}`);
-  const label = fluid.replace(/_/g, " ");
-  inRange("t_supply_c", tSupply, table.t_min, table.t_max, { unit: "°C", label: `${label} supply temperature` });
-  inRange("t_return_c", tReturn, table.t_min, table.t_max, { unit: "°C", label: `${label} return temperature` });
-  const [rho, cp] = fluidProperties(ctx, fluid, (tSupply + tReturn) / 2);
-  return rho * flow * cp * (tReturn - tSupply);
 }
 
 function coilBalance(air, water, tolerancePct) {
@@ -666,7 +667,16 @@ function coilChecks(form) {
       const vals = {};
       for (const k of ["air_in", "air_out", "water_in", "water_out", "water_flow"]) vals[k] = form.num(`${template}.${k}`, coil);
       if (Object.values(vals).some((x) => x === null)) continue;
+      const fluid = coil.fluid;
       const res = result({ check: "coil_balance", item: `${template}.water_flow`, component: coil.code });
+      if (!fluid.name) {
+        if (coil.specs.fluid === "glycol") {
+          res.verdict = WATCH;
+          res.reason = `${coil.name}: cannot balance the coil: the registry does not give the glycol's kind and concentration`;
+          out.push(res);
+        }
+        break; // steam or refrigerant: flow and temperatures do not give its heat
+      }
       // The supply airflow is at the fan, after the coils (leaving state); a coil's own design airflow
       // is rated at its entering air (common practice).
       let airflow = flow;
@@ -682,7 +692,7 @@ function coilChecks(form) {
       try {
         air = sensibleHeatW({ airflow, tIn: vals.air_in, tOut: vals.air_out, pressure: p, airflowAt });
         rhoAir = dryAirDensity(airflowAt === "leaving" ? vals.air_out : vals.air_in, p);
-        water = waterSideHeatW(form.ctx, { tSupply: vals.water_in, tReturn: vals.water_out, flow: vals.water_flow, fluid: "water" });
+        water = waterSideHeatW(fluid.table, { tSupply: vals.water_in, tReturn: vals.water_out, flow: vals.water_flow });
         bal = coilBalance(air, water, tol);
       } catch (exc) {
         if (!(exc instanceof EngineeringInputError)) throw exc;
@@ -694,9 +704,10 @@ function coilChecks(form) {
       res.derived = {
         air_side_w: pyRound(air), water_side_w: pyRound(water), difference_pct: pyRound(bal.differencePct, 1),
         airflow_m3s: airflow, airflow_source: how, airflow_at: airflowAt, air_density_kg_m3: pyRound(rhoAir, 4), pressure_pa: pyRound(p),
+        fluid: fluid.name, glycol_pct: fluid.glycol_pct,
       };
       const state = airflowAt === "leaving" ? "leaving air (airflow at the supply fan, after the coil)" : "entering air (the coil's design airflow)";
-      res.method = `air side q = ρ·V·c_p·Δt, sensible, dry air, ρ = p/(R_da·T) at the ${state}; water side q = ρ·V·c_p·Δt; balance within ${tol} % ok, ${2 * tol} % watch`;
+      res.method = `air side q = ρ·V·c_p·Δt, sensible, dry air, ρ = p/(R_da·T) at the ${state}; fluid side q = ρ·V·c_p·Δt with the properties of ${fluid.words} (CoolProp: IAPWS-95, Melinder 2010); balance within ${tol} % ok, ${2 * tol} % watch`;
       res.verdict = bal.verdict;
       const which = bal.differencePct > 0 ? "air side higher" : "water side higher";
       const parts = [`${coil.name}: air side `, q(Math.abs(air), "heat_rate"), ", water side ", q(Math.abs(water), "heat_rate"),

@@ -33,19 +33,25 @@ export function unitLabel(units, quantity, system) {
   return q[system === "us" ? "us" : "si"].label;
 }
 
-/** Python's round(x, d): half to even. */
+/**
+ * Python's round(x, d): correctly rounded on the exact binary value (as toFixed), and an exact tie
+ * (only possible when x is a dyadic fraction such as 116.5 or 0.125) to even.
+ */
 export function pyRound(x, d = 0) {
-  const f = 10 ** d;
-  const m = x * f;
-  const r = Math.round(m);
-  const half = Math.abs(m - Math.trunc(m)) === 0.5;
-  const out = half ? (r % 2 === 0 ? r : r - 1) : r;
-  return (out / f) || 0;
+  if (!Number.isFinite(x)) return x;
+  const p = 10 ** d;
+  const m2 = x * 2 * p;
+  if (Number.isInteger(m2) && Math.abs(m2) % 2 === 1 && m2 % 5 ** d === 0 && m2 / (2 * p) === x) {
+    const lo = (m2 - 1) / 2;
+    return (lo % 2 === 0 ? lo : lo + 1) / p || 0;
+  }
+  return Number(x.toFixed(d)) || 0;
 }
 
 /** Python's f"{x:.{d}f}": a tie rounds to even, as Python formats it. */
 export function fixed(x, d) {
-  return pyRound(x, d).toFixed(d);
+  const text = pyRound(x, d).toFixed(d);
+  return x < 0 && Number(text) === 0 ? `-${text}` : text; // Python keeps the sign of a negative that rounds to 0
 }
 
 /** Python's f"{x:,.{d}f}" (thousands grouped from 10 000), with a true minus sign. */
