@@ -244,11 +244,13 @@ def _observe(*, inspection: Inspection, ev: Evaluation, res, values: dict, seen_
     same_visit = finding.latest_inspection_id == inspection.pk
     if not same_visit:
         finding.times_seen += 1
-    finding.last_seen_at = max(seen_at, finding.last_seen_at or finding.opened_at)
-    finding.latest_evaluation, finding.latest_inspection = ev, inspection
     finding.severity = _worst(finding.severity, values["severity"])
-    for name in ("kind", "title", "reason", "reason_parts", "condition_code"):
-        setattr(finding, name, values[name])
+    # The latest values come from the latest observation: an amendment to an older visit adds to the count only.
+    if seen_at >= (finding.last_seen_at or finding.opened_at):
+        finding.last_seen_at = seen_at
+        finding.latest_evaluation, finding.latest_inspection = ev, inspection
+        for name in ("kind", "title", "reason", "reason_parts", "condition_code"):
+            setattr(finding, name, values[name])
     finding.save(
         update_fields=[
             "times_seen",
