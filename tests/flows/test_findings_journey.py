@@ -98,6 +98,10 @@ def test_ten_monthly_visits_with_the_same_design_shortfall_leave_one_design_revi
     assert listed["first_seen"] == FINISHED.isoformat() and listed["last_seen"] == last.isoformat()
     assert listed["corrective_work_order"] is None and "47 %" in listed["text"]
     assert not CODES.search(listed["title"] + listed["text"]), listed
+    api_client.force_authenticate(make_supervisor(org, username="us-boss", unit_system="us"))
+    [in_us] = api_client.get("/api/inspections/findings/", {"unit": ahu.label_code}).json()
+    assert "2975 cfm" in in_us["text"] and "L/s" not in in_us["text"], "1,404 L/s × 2.1189 cfm per L/s"
+    api_client.force_authenticate(boss)
     client.force_login(boss)
     with time_machine.travel(last + dt.timedelta(hours=2), tick=False):
         page = client.get(reverse("frontend:findings"))
