@@ -4,10 +4,14 @@
 stand-in for its IndexedDB module and a scripted ``fetch``: a 503 from the
 server, a dropped connection, a refused form, an unknown per-form answer and a
 missing answer all leave the form in the outbox; only ``stored``, ``flagged``
-and ``duplicate`` remove it.
+and ``duplicate`` remove it. A refused form never holds back the forms after it:
+a body refused whole (400/413) is sent again form by form, and the one the
+server refuses stays marked with its errors. Every batch carries the phone's
+clock (``sent_at``).
 """
 
 import json
+import re
 import shutil
 import subprocess
 from pathlib import Path
@@ -41,11 +45,24 @@ globalThis.CustomEvent = class { constructor(name) { this.name = name; } };
 Object.defineProperty(globalThis, "navigator", { value: { onLine: true }, configurable: true });
 
 const scenario = JSON.parse(process.argv[2]);
+const posts = [];
 globalThis.fetch = async (url, init) => {
   if (scenario.network_error) throw new TypeError("Failed to fetch");
   const body = JSON.parse(init.body);
-  const results = body.forms.map((f, i) => scenario.answers[i] === null ? null
-    : { client_uuid: f.client_uuid, status: scenario.answers[i], errors: {} }).filter(Boolean);
+  posts.push({ sent_at: body.sent_at, forms: body.forms.map((f) => f.client_uuid) });
+  if (scenario.body_refused_with) {
+    // The server refuses any body holding this form whole (e.g. too big): 4xx in the error shape.
+    const bad = body.forms.some((f) => f.client_uuid === scenario.body_refused_with);
+    if (bad) {
+      const payload = { detail: "The request is too large", errors: {} };
+      return { ok: false, status: 413, statusText: "x", json: async () => payload };
+    }
+  }
+  const index = (f) => Number(f.client_uuid.split("-")[1]);
+  const results = body.forms.map((f) => scenario.answers[index(f)] === null ? null
+    : { client_uuid: f.client_uuid, status: scenario.answers[index(f)],
+        errors: scenario.answers[index(f)] === "refused" ? { "readings[1].note": ["Note: remove the NUL"] } : {} })
+    .filter(Boolean);
   const payload = scenario.http === 200 ? { results } : { detail: "The database could not store this just now" };
   return { ok: scenario.http < 300, status: scenario.http, statusText: "x", json: async () => payload };
 };
@@ -57,7 +74,9 @@ await syncOutbox({ url: "/api/inspections/sync/" });
 console.log(JSON.stringify({
   kept: [..._stores.outbox.keys()].sort(),
   states: Object.fromEntries([..._stores.outbox.values()].map((f) => [f.client_uuid, f.state])),
+  errors: Object.fromEntries([..._stores.outbox.values()].map((f) => [f.client_uuid, f.errors || null])),
   error: _stores.meta.get("last_error") || "",
+  posts,
 }));
 """
 
@@ -107,3 +126,28 @@ def test_refused_unknown_and_missing_answers_keep_the_form(run_sync):
     assert res["kept"] == ["form-1", "form-2", "form-3"]
     assert res["states"]["form-1"] == "refused"
     assert res["states"]["form-2"] == "waiting"
+
+
+def test_a_refused_form_in_the_middle_holds_back_nothing(run_sync):
+    """Three forms, the middle one refused: the other two leave the outbox, the refused one stays with its errors."""
+    res = run_sync(answers=["stored", "refused", "stored"])
+    assert res["kept"] == ["form-1"]
+    assert res["states"]["form-1"] == "refused"
+    assert res["errors"]["form-1"] == {"readings[1].note": ["Note: remove the NUL"]}
+
+
+def test_a_body_refused_whole_is_sent_again_form_by_form(run_sync):
+    """A 413 for the batch (one form too big): each form is sent alone; only that form stays, marked refused."""
+    res = run_sync(answers=["stored", "stored", "stored"], body_refused_with="form-1")
+    assert res["kept"] == ["form-1"]
+    assert res["states"]["form-1"] == "refused"
+    assert res["errors"]["form-1"] == {"form": ["The request is too large"]}
+    assert [p["forms"] for p in res["posts"]] == [["form-0", "form-1", "form-2"], ["form-0"], ["form-1"], ["form-2"]]
+    assert res["error"] == ""
+
+
+def test_every_batch_carries_the_phones_clock(run_sync):
+    """sent_at: the phone's clock when sending, ISO 8601 with offset, so the server can measure the skew."""
+    res = run_sync(answers=["stored"])
+    [post] = res["posts"]
+    assert re.fullmatch(r"\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d\.\d{3}Z", post["sent_at"])

@@ -203,13 +203,21 @@ async function showServerResult(box) {
   } catch (error) { /* offline after all: the phone's copy stays */ }
 }
 
+// Where in the form a server error is, in words (the server's messages name the item; never show its field keys).
+function placeOf(key) {
+  const photo = /^photos\[(\d+)\]/.exec(key);
+  if (photo) return `Photo ${Number(photo[1]) + 1}: `;
+  if (key.startsWith("signature")) return "Signature: ";
+  return "";
+}
+
 function renderPending(box, item) {
   const section = el("section", { class: "card", "data-pending": item.state || "waiting" });
   section.append(el("h2", {}, "Saved on this phone"));
   if (item.state === "refused") {
     section.append(el("p", {}, "The server refused this form; nothing was saved there. Fix and finish again:"));
     section.append(el("ul", { class: "errorlist" },
-      ...Object.entries(item.errors || {}).map(([k, v]) => el("li", {}, `${k}: ${[].concat(v).join(" ")}`))));
+      ...Object.entries(item.errors || {}).map(([k, v]) => el("li", {}, placeOf(k) + [].concat(v).join(" ")))));
   } else {
     section.append(el("p", {}, `Finished ${new Date(item.form.finished_at).toLocaleString()}; waiting in the outbox to be sent.`));
   }

@@ -1,4 +1,7 @@
 // Replays the outbox to the sync API. The server stores each client UUID once, so a retry is harmless.
+// Form by form (inspections/SYNC.md): the server answers one result per form; a refused form stays here with its
+// errors for the technician to fix, and never holds back the forms after it. The phone sends its own clock
+// ("sent_at") so the server can place the visit on its timeline when the phone's clock is off.
 import { metaSet, outboxAll, outboxDelete, outboxPut, resultPut } from "./outbox.js";
 
 const BATCH = 50;
@@ -13,20 +16,51 @@ export function announce() {
   document.dispatchEvent(new CustomEvent("plenum:outbox"));
 }
 
+// Answers about the body as a whole (not readable, too big): the server judged no form of it.
+const BODY_REFUSED = [400, 413];
+
 async function postBatch(url, items) {
   const forms = items.map((item) => item.form);
   const response = await fetch(url, {
     method: "POST",
     credentials: "same-origin",
     headers: { "Content-Type": "application/json", "X-CSRFToken": csrfToken(), Accept: "application/json" },
-    body: JSON.stringify({ forms }),
+    body: JSON.stringify({ sent_at: new Date().toISOString(), forms }),
   });
-  if (!response.ok) {
-    let detail = `${response.status} ${response.statusText}`;
-    try { detail = (await response.json()).detail || detail; } catch (error) { /* body was not JSON */ }
-    throw new Error(`sync refused: ${detail}`);
+  let body = null;
+  try { body = await response.json(); } catch (error) { /* body was not JSON */ }
+  return { ok: response.ok, status: response.status, statusText: response.statusText, body: body || {} };
+}
+
+function refusalOf(answer) {
+  // The server's error shape {detail, errors}: keep its field errors, else its sentence.
+  const errors = answer.body.errors && Object.keys(answer.body.errors).length ? answer.body.errors : null;
+  return { status: "refused", errors: errors || { form: [answer.body.detail || `refused (${answer.status})`] } };
+}
+
+// Send some forms; a body refused whole is split so one bad form never holds back the others.
+async function send(url, items) {
+  const answer = await postBatch(url, items);
+  if (answer.ok) {
+    const byUuid = new Map((answer.body.results || []).filter(Boolean).map((r) => [r.client_uuid, r]));
+    let sent = 0;
+    for (const item of items) {
+      const result = byUuid.get(item.client_uuid);
+      if (result) { await apply(item, result); sent += 1; }
+    }
+    return sent;
   }
-  return (await response.json()).results || [];
+  if (BODY_REFUSED.includes(answer.status)) {
+    if (items.length > 1) {
+      let sent = 0;
+      for (const item of items) sent += await send(url, [item]);
+      return sent;
+    }
+    await apply(items[0], { client_uuid: items[0].client_uuid, ...refusalOf(answer) });
+    return 1;
+  }
+  // Signed out, the server or the database unavailable: keep every form and try again later.
+  throw new Error(`sync refused: ${answer.body.detail || `${answer.status} ${answer.statusText}`}`);
 }
 
 // Only these answers say the server holds the form (inspections/SYNC.md); any other answer keeps it.
@@ -51,15 +85,7 @@ export async function apply(item, result) {
 async function replay(url) {
   const pending = (await outboxAll()).filter((item) => item.state !== "refused");
   let sent = 0;
-  for (let i = 0; i < pending.length; i += BATCH) {
-    const items = pending.slice(i, i + BATCH);
-    const results = await postBatch(url, items);
-    const byUuid = new Map(results.map((r) => [r.client_uuid, r]));
-    for (const item of items) {
-      const result = byUuid.get(item.client_uuid);
-      if (result) { await apply(item, result); sent += 1; }
-    }
-  }
+  for (let i = 0; i < pending.length; i += BATCH) sent += await send(url, pending.slice(i, i + BATCH));
   await metaSet("last_sync", new Date().toISOString());
   await metaSet("last_error", "");
   return sent;
