@@ -19,6 +19,7 @@ from __future__ import annotations
 import datetime as dt
 import json
 import random
+import re
 import shutil
 import subprocess
 from collections import Counter
@@ -488,6 +489,18 @@ def test_every_server_check_has_a_phone_twin(agreement):
     assert produced <= set(evaluation.CHECKS), (
         f"checks missing from evaluation.CHECKS: {produced - set(evaluation.CHECKS)}"
     )
+
+
+def test_every_check_name_in_the_server_code_is_registered():
+    """A check name written in evaluation.py (literal, or an f-string's fixed start) is listed in evaluation.CHECKS,
+    so a new server check cannot slip past the phone-twin test above."""
+    source = Path(evaluation.__file__).read_text(encoding="utf-8")
+    literal = set(re.findall(r'check="([a-z_]+)"', source))
+    prefixes = set(re.findall(r'check=f"([a-z_]+)\{', source))
+    assert literal, "no check names found: the scan no longer matches evaluation.py"
+    assert literal <= set(evaluation.CHECKS), f"not in evaluation.CHECKS: {sorted(literal - set(evaluation.CHECKS))}"
+    for prefix in prefixes:
+        assert any(c.startswith(prefix) for c in evaluation.CHECKS), f"no registered check starts with {prefix!r}"
 
 
 def test_phone_and_server_agree_on_every_verdict_and_number(agreement):
