@@ -40,15 +40,6 @@ def checklist_for(*, user, work_order) -> dict:
     return real(work_order=work_order, user=user)
 
 
-def evaluation_context_for(*, work_order) -> dict:
-    """What the phone needs to judge this work order's readings offline (inspections/phone.py)."""
-    from django.utils import timezone
-
-    from inspections.phone import evaluation_context_for as real
-
-    return real(work_order=work_order, as_of=timezone.now())
-
-
 def findings_visible_to(*, user):
     from inspections.selectors import findings_visible_to as real
 

@@ -204,10 +204,3 @@ def checklist_context(*, checklist, as_of: dt.datetime) -> dict[str, Any]:
         slots=checklist.slots,
         filter_points=_filter_points_for(ahu, as_of),
     )
-
-
-def evaluation_context_for(*, work_order, as_of: dt.datetime) -> dict[str, Any]:
-    """The evaluation context of a work order's checklist as the phone caches it with the checklist page."""
-    from inspections.selectors import checklist_build
-
-    return checklist_context(checklist=checklist_build(work_order=work_order), as_of=as_of)

@@ -222,6 +222,14 @@ def _band(limits: dict, name: str, quantity: str, system: str | None) -> dict:
     return {"min": lo, "max": hi}
 
 
+def _evaluation_context(checklist: Checklist) -> dict:
+    from django.utils import timezone
+
+    from .phone import checklist_context
+
+    return checklist_context(checklist=checklist, as_of=timezone.now())
+
+
 def checklist_for(*, work_order: WorkOrder, user: User) -> dict:
     """The checklist document the phone caches (shape in inspections/SYNC.md)."""
     system = user.unit_system
@@ -289,6 +297,8 @@ def checklist_for(*, work_order: WorkOrder, user: User) -> dict:
             "tasks": [{"code": t.code, "title": t.title} for t in checklist.templates if t.code != "visit"],
         },
         "unit_system": system,
+        # What the phone needs to judge the readings offline as the server will (inspections/phone.py).
+        "evaluation": _evaluation_context(checklist),
         "cautions": cautions,
         "templates": [
             {

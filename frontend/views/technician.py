@@ -205,9 +205,7 @@ def checklist(request, public_id):
             if done
             else selectors.result_for_display(result=result, system=system, labels=selectors.item_labels(data)),
             "checklist_api": CHECKLIST_API.format(wo.public_id),
-            "evaluation_context": backends.evaluation_context_for(work_order=wo)
-            if not done and may_submit and data is not None
-            else None,
+            "evaluation_context": (data or {}).get("evaluation") if not done and may_submit else None,
             "inspection": inspection,
             "can_report": done and inspection is not None,
             "can_verify": wo.state == WorkOrder.State.COMPLETED
