@@ -411,7 +411,14 @@ def freeze_readiness(
                 on=finished_at.astimezone(tz).date(),
                 not_passed=tuple(not_passed),
                 failed=failed,
-                corrective=", ".join(sorted(corrective_of_test.get(insp_id, ()))),
+                # A repeat failure may be recorded on the finding already open for it (one per fault):
+                # then that finding's corrective work is the one answering this test.
+                corrective=", ".join(
+                    sorted(
+                        corrective_of_test.get(insp_id)
+                        or {f.corrective for f in open_of_unit.get(ahu_id, []) if f.corrective}
+                    )
+                ),
             )
         )
     windows: dict[int, tuple[dt.date | None, dt.date | None]] = {}
