@@ -266,15 +266,24 @@ def in_zone(when: dt.datetime, tz: zoneinfo.ZoneInfo | str) -> dt.datetime:
     return when.replace(tzinfo=zone)
 
 
+def local_text(when: dt.datetime, zone: zoneinfo.ZoneInfo) -> str:
+    """The time as the site's clock shows it; at the ends of the calendar (year 1, 9999) as it was given."""
+    try:
+        return f"{when.astimezone(zone):%Y-%m-%d %H:%M}"
+    except (OverflowError, ValueError):
+        return when.isoformat(timespec="minutes")
+
+
 def reading_time_problem(when: dt.datetime, *, label: str, now: dt.datetime, tz=None) -> str | None:
     """A reading is not dated before 2000 nor later than now (plus 10 minutes of clock drift)."""
     zone = tz if isinstance(tz, zoneinfo.ZoneInfo) else zoneinfo.ZoneInfo(tz or "UTC")
     earliest = dt.datetime.combine(EARLIEST_DATE, dt.time(), tzinfo=zone)
     if when < earliest:
-        return f"{label} {when.astimezone(zone):%Y-%m-%d %H:%M} is before {EARLIEST_DATE.year}; check the date"
+        year = EARLIEST_DATE.year
+        return f"{label} {local_text(when, zone)} is before {year}; allowed: {year} or later"
     if when > now + READING_FUTURE_TOLERANCE:
         return (
-            f"{label} {when.astimezone(zone):%Y-%m-%d %H:%M} is later than now "
+            f"{label} {local_text(when, zone)} is later than now "
             f"({now.astimezone(zone):%Y-%m-%d %H:%M}, site time); a reading cannot come from the future "
             "— check the date and the device's clock"
         )

@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import math
+
+from accounts.inputs import number_allowed, number_problem, parse_number
 from engineering.errors import EngineeringInputError
 from engineering.units import from_display, to_display, unit_label
 from inventory.specs import SpecField, spec_fields
@@ -59,11 +62,28 @@ def specs_from_post(*, kind: str, post, system: str) -> tuple[dict, dict]:
         if raw == "":
             continue
         q = _quantity(s)
-        if s.kind in {"number", "integer"} and q:
+        if s.kind in {"number", "integer"}:
+            # The input policy: 'nan', 'inf' and 1e308 are refused here, with the range in the person's units.
+            allowed = number_allowed(minimum=s.minimum, maximum=s.maximum, unit=s.unit, quantity=q, system=system)
+            typed = parse_number(raw)
+            if typed is None:
+                errors[s.name] = [f"{s.label}: {raw[:40]!r} is not a finite number; allowed: {allowed}"]
+                continue
             try:
-                specs[s.name] = from_display(value=float(raw.replace(",", ".")), quantity=q, system=system)
-            except (ValueError, EngineeringInputError):
-                errors[s.name] = [f"{s.label}: {raw!r} is not a number in {unit_label(quantity=q, system=system)}"]
+                value = from_display(value=typed, quantity=q, system=system) if q else typed
+            except (EngineeringInputError, OverflowError):
+                value = math.inf
+            if not math.isfinite(value):  # typed finite, too large once in SI: say it as typed
+                unit = unit_label(quantity=q, system=system) if q else s.unit
+                errors[s.name] = [f"{s.label}: {typed:.6g} {unit} is out of range; allowed: {allowed}"]
+                continue
+            problem = number_problem(
+                value, label=s.label, minimum=s.minimum, maximum=s.maximum, unit=s.unit, quantity=q, system=system
+            )
+            if problem:
+                errors[s.name] = [problem]
+                continue
+            specs[s.name] = value
         else:
             specs[s.name] = raw
     return specs, errors

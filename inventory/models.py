@@ -233,6 +233,7 @@ class AHU(models.Model):
         return reverse("inventory:label", kwargs={"code": self.label_code})
 
     def clean(self) -> None:
+        self._clean_policy()
         self._clean_ventilation()
         if self.full_outdoor_air and self.design_min_oa_fraction is not None and self.design_min_oa_fraction < 1:
             raise ValidationError(
@@ -242,6 +243,23 @@ class AHU(models.Model):
                     )
                 }
             )
+
+    def _clean_policy(self) -> None:
+        """The input policy (inventory.inputs): finite numbers in their physical range, a service start from 2000
+        to ten years ahead. A finite value out of a range the field's own validators give is left to them, and
+        the ventilation numbers to ``_clean_ventilation``, so each problem is said once."""
+        from .inputs import ahu_problems
+
+        own = {"occupant_diversity", "system_ventilation_efficiency"}
+        problems = {}
+        for name, message in ahu_problems(self, today=timezone.localdate()).items():
+            value = getattr(self, name)
+            bounded = {type(v) for v in self._meta.get_field(name).validators} >= {MinValueValidator, MaxValueValidator}
+            if name in own or (bounded and isinstance(value, int | float) and math.isfinite(value)):
+                continue
+            problems[name] = message
+        if problems:
+            raise ValidationError(problems)
 
     def _clean_ventilation(self) -> None:
         """Occupant diversity and system ventilation efficiency: numbers in range, for several zones only."""
@@ -311,7 +329,9 @@ class Component(models.Model):
         return reverse("inventory:label", kwargs={"code": self.label_code})
 
     def clean(self) -> None:
-        errors = {}
+        from .inputs import component_date_problems
+
+        errors: dict = dict(component_date_problems(self, today=timezone.localdate()))
         try:
             self.specs = validate_specs(kind=self.kind, specs=self.specs)
         except SpecErrors as exc:

@@ -3,9 +3,11 @@
 from django.urls import reverse
 from rest_framework import serializers
 
+from accounts.inputs import INT64_MAX, FieldErrors, check_integer
 from accounts.models import Organisation
 
 from . import selectors
+from .inputs import ahu_number_check
 from .models import AHU, Building, Component, ImportJob, Site
 from .services import label_absolute_url
 
@@ -43,6 +45,14 @@ class VisiblePrimaryKey(serializers.PrimaryKeyRelatedField):
 
     def get_queryset(self):
         return self.selector(user=self.context["request"].user)
+
+    def to_internal_value(self, data):
+        # 1e309 (infinity once parsed), 1.5 or 10**30 is no row's id: refused before it reaches the database.
+        errors = FieldErrors()
+        check_integer(data, key="id", label="Id", minimum=1, maximum=INT64_MAX, errors=errors)
+        if errors:
+            raise serializers.ValidationError(errors["id"])
+        return super().to_internal_value(data)
 
 
 def _visible_sites(*, user):
@@ -133,8 +143,36 @@ class AHUOutput(serializers.ModelSerializer):
         return label_absolute_url(code=obj.label_code)
 
 
+class PolicyNumber(serializers.FloatField):
+    """A unit's number under the input policy (inventory.inputs.AHU_NUMBERS): finite and within its physical
+    range, the refusal naming the field, the value and the range."""
+
+    def __init__(self, *, policy: str, **kwargs):
+        self.policy = policy
+        super().__init__(**kwargs)
+
+    def to_internal_value(self, data):
+        errors = FieldErrors()
+        value = ahu_number_check(data, name=self.policy, errors=errors)
+        if errors:
+            raise serializers.ValidationError(errors[self.policy])
+        return value
+
+
+def _policy_number(name: str) -> PolicyNumber:
+    model_field = AHU._meta.get_field(name)
+    optional = model_field.null
+    return PolicyNumber(policy=name, required=not optional, allow_null=optional, help_text=model_field.help_text)
+
+
 class AHUInput(NamesValueMixin, serializers.ModelSerializer):
     building = VisiblePrimaryKey(selector=selectors.buildings_visible_to)
+    floor_area_m2 = _policy_number("floor_area_m2")
+    design_supply_airflow_m3s = _policy_number("design_supply_airflow_m3s")
+    design_min_oa_fraction = _policy_number("design_min_oa_fraction")
+    # occupant_diversity and system_ventilation_efficiency: the model's ventilation check says range and zones.
+    supply_air_setpoint_c = _policy_number("supply_air_setpoint_c")
+    duct_static_setpoint_pa = _policy_number("duct_static_setpoint_pa")
 
     class Meta:
         model = AHU

@@ -20,6 +20,7 @@ from rest_framework.response import Response
 from rest_framework.views import APIView
 
 from accounts.answers import json_answer, kept
+from accounts.inputs import FieldErrors, check_reading_time, date_problem
 from accounts.models import Membership, Role
 from accounts.selectors import technician_of
 from inventory.selectors import ahus_visible_to, sites_visible_to
@@ -304,6 +305,9 @@ def board_params(request, user) -> tuple[dt.date, dt.date, int, int, str | None]
     query = request.GET
     today = timezone.localdate()
     week = _date_param(query, "week") or today
+    problem = date_problem(week, label="week", today=today)
+    if problem is not None:
+        raise ValidationError({"week": [problem]})
     week = week - dt.timedelta(days=week.weekday())
     limit = _int_param(query, "limit", default=100, low=0, high=BOARD_LIMIT_MAX)
     offset = _int_param(query, "offset", default=0, low=0, high=10**6)
@@ -402,10 +406,16 @@ class MeterReadings(APIView):
             component = ahu.components.filter(label_code=v["component_label"].upper()).first()
             if component is None:
                 raise ValidationError({"component_label": [f"{v['component_label']!r} is not a part of {ahu.tag}"]})
+        checked = FieldErrors()
+        taken_at = check_reading_time(
+            v["taken_at"], key="taken_at", label="Reading time", tz=ahu.building.site.time_zone,
+            now=timezone.now(), errors=checked,
+        )  # fmt: skip
+        checked.raise_if_any()
         reading = meter_reading_record(
             ahu=ahu,
             hours=v["hours"],
-            taken_at=v["taken_at"],
+            taken_at=taken_at,
             component=component,
             is_reset=v["is_reset"],
             source=MeterReading.Source.API,

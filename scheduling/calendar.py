@@ -5,14 +5,19 @@ from __future__ import annotations
 import datetime as dt
 
 from django.conf import settings
+from django.utils import timezone
 from icalendar import Calendar, Event
 
+from .inputs import visit_problem
 from .models import WorkOrder
 from .selectors import work_orders_visible_to
 
 
 def feed_ics(*, user) -> bytes:
-    """One all-day event per open assigned visit (scheduled date, else due date)."""
+    """One all-day event per open assigned visit (scheduled date, else due date).
+
+    A visit dated outside the plan window (a row stored before the input policy, e.g. planned for 9999-12-31)
+    is left out, so one bad row does not take the technician's whole calendar down; the board names it."""
     cal = Calendar()
     cal.add("prodid", "-//Plenum//Maintenance visits//EN")
     cal.add("version", "2.0")
@@ -23,7 +28,10 @@ def feed_ics(*, user) -> bytes:
         .order_by("due_date", "id")
     )
     base = settings.PLENUM_PUBLIC_URL.rstrip("/")
+    today = timezone.localdate()
     for wo in orders:
+        if visit_problem(wo, today=today) is not None:
+            continue
         day = wo.scheduled_for or wo.due_date
         site = wo.ahu.building.site
         event = Event()

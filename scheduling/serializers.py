@@ -171,7 +171,10 @@ class MeterReadingIn(serializers.Serializer):
     unit_label = serializers.CharField()
     component_label = serializers.CharField(required=False, allow_blank=True, default="")
     hours = serializers.FloatField(min_value=0)
-    taken_at = serializers.DateTimeField()
+    taken_at = serializers.CharField(
+        max_length=40,
+        help_text="ISO 8601 date-time; without an offset it is read in the unit's site time zone (as the CSV is).",
+    )
     is_reset = serializers.BooleanField(default=False)
 
 

@@ -14,13 +14,16 @@ from django.urls import reverse
 from django.utils import timezone
 from django.views.decorators.http import require_POST
 
+from accounts.inputs import FieldErrors, check_text, date_problem
 from accounts.models import Membership, Role
 from accounts.selectors import organisations_where
 from inspections.selectors import reason_for
 from inventory import services as inventory_services
+from inventory.inputs import AHU_NUMBERS, ahu_number_check
 from inventory.models import AHU, Component
 from inventory.selectors import component_tree, sites_managed_by
 from inventory.specs import spec_fields
+from scheduling.inputs import stored_problems
 from scheduling.models import UnitTaskSetting, WorkOrder
 from scheduling.selectors import effective_tasks, site_today
 from scheduling.services.library import unit_task_set
@@ -41,10 +44,13 @@ def _organisation(request):
 
 
 def _week_start(raw: str | None) -> dt.date:
+    """Monday of the asked week; a week outside the plan window (say 9999-12-31) shows this week instead."""
     today = timezone.localdate()
     try:
         day = dt.date.fromisoformat(raw) if raw else today
     except ValueError:
+        day = today
+    if date_problem(day, label="week", today=today) is not None:
         day = today
     return day - dt.timedelta(days=day.weekday())
 
@@ -97,6 +103,7 @@ def board(request):
             "days": [week + dt.timedelta(days=k) for k in range(7)],
             "technicians": _technicians(org),
             "columns": columns,
+            "skipped": stored_problems(organisation=org, today=today),
         },
     )
 
@@ -196,16 +203,19 @@ def unit_edit(request, pk):
     errors = {}
     if request.method == "POST":
         changes = {}
+        checked = FieldErrors()
         for name in UNIT_FIELDS:
             field = AHU._meta.get_field(name)
-            raw = request.POST.get(name, "").strip()
-            if field.get_internal_type() == "FloatField":
-                try:
-                    changes[name] = float(raw) if raw else None
-                except ValueError:
-                    errors[name] = [f"{field.verbose_name}: {raw!r} is not a number"]
+            raw = request.POST.get(name, "")
+            if name in AHU_NUMBERS:
+                changes[name] = ahu_number_check(raw, name=name, errors=checked)
             else:
-                changes[name] = raw
+                limit = field.max_length or 20_000
+                changes[name] = check_text(
+                    raw, key=name, label=str(field.verbose_name).capitalize(), max_length=limit,
+                    errors=checked, lines=name == "notes",
+                )  # fmt: skip
+        errors = dict(checked)
         if not errors:
             try:
                 inventory_services.ahu_update(ahu=ahu, **changes)

@@ -10,6 +10,7 @@ from django.db import transaction
 from accounts.models import Organisation
 from inventory.models import AHU, ComponentKind
 
+from ..inputs import task_problems
 from ..library import LIBRARY
 from ..models import TaskDefinition, UnitTaskSetting
 
@@ -57,6 +58,8 @@ def _validate_task(task: TaskDefinition) -> None:
             errors["lead_days"] = ["lead_days is required for a season task (days before the season starts, ≥ 0)"]
     elif trig == TaskDefinition.Trigger.CONDITION and not task.condition_code:
         errors["condition_code"] = ["condition_code is required for a task raised only by a condition"]
+    for name, message in task_problems(task).items():
+        errors.setdefault(name, []).append(message)
     if errors:
         raise ValidationError(errors)
     task.full_clean(exclude=["organisation"] if task.organisation_id is None else None, validate_constraints=False)

@@ -13,6 +13,7 @@ from django.db import transaction
 from django.utils import timezone
 from django.utils.dateparse import parse_datetime
 
+from accounts.inputs import EARLIEST_DATE, in_zone, local_text, reading_time_problem, shown
 from inventory.models import AHU, Component
 
 from ..models import MeterReading
@@ -29,6 +30,9 @@ GAIN_TOLERANCE_H = 1.0
 # Clocks of phones and building-automation exports drift a little: a reading up
 # to 10 minutes ahead of the server's clock is accepted (common practice).
 FUTURE_TOLERANCE = dt.timedelta(minutes=10)
+# The most run-hours a meter may show: 1,000,000 h is 114 years of running day and night, past any
+# counter's life (common practice: hour meters show at most six or seven digits).
+METER_HOURS_MAX = 1_000_000
 
 
 def _previous(*, ahu: AHU, component: Component | None, taken_at: dt.datetime) -> MeterReading | None:
@@ -52,8 +56,7 @@ def _hours_text(h: float) -> str:
 
 
 def _local_text(*, ahu: AHU, at: dt.datetime) -> str:
-    tz = zoneinfo.ZoneInfo(ahu.building.site.time_zone or "UTC")
-    return f"{timezone.localtime(at, tz):%Y-%m-%d %H:%M}"
+    return local_text(at, zoneinfo.ZoneInfo(ahu.building.site.time_zone or "UTC"))
 
 
 def max_gain_h(*, elapsed: dt.timedelta) -> float:
@@ -186,10 +189,18 @@ def meter_reading_record(
         hours = float(hours)
     except (TypeError, ValueError):
         raise ValidationError({"hours": [f"hours={hours!r} is not a number of run-hours"]})
-    if not math.isfinite(hours) or hours < 0:
-        raise ValidationError({"hours": [f"hours={hours!r} must be a finite number of run-hours ≥ 0"]})
+    if not math.isfinite(hours) or not 0 <= hours <= METER_HOURS_MAX:
+        raise ValidationError(
+            {"hours": [f"Run hours {shown(hours)} is out of range; allowed: a number from 0 to {METER_HOURS_MAX:,} h"]}
+        )
     if timezone.is_naive(taken_at):
         raise ValidationError({"taken_at": [f"taken_at={taken_at.isoformat()} needs a time zone offset"]})
+    if taken_at.date() < EARLIEST_DATE + dt.timedelta(days=1):
+        problem = reading_time_problem(
+            taken_at, label="Reading time", now=timezone.now(), tz=ahu.building.site.time_zone
+        )
+        if problem:
+            raise ValidationError({"taken_at": [problem]})
     if source not in MeterReading.Source.values:
         raise ValidationError({"source": [f"source={source!r} is not one of {', '.join(MeterReading.Source.values)}"]})
     if component is not None:
@@ -216,10 +227,13 @@ def meter_reading_record(
 
 
 def _parse_time(raw: str, tz: zoneinfo.ZoneInfo) -> dt.datetime | None:
-    value = parse_datetime(raw.strip().replace(" ", "T", 1)) if raw else None
+    try:
+        value = parse_datetime(raw.strip().replace(" ", "T", 1)) if raw else None
+    except ValueError:  # well formed but no such day, e.g. 2025-02-30
+        return None
     if value is None:
         return None
-    return value.replace(tzinfo=tz) if timezone.is_naive(value) else value
+    return in_zone(value, tz)  # the one rule: a time without a zone is the site's (the API reads it the same)
 
 
 @transaction.atomic

@@ -14,6 +14,7 @@ from django.core.mail import send_mail
 from django.db import transaction
 from django.utils import timezone
 
+from accounts.inputs import PLAN_YEARS_AHEAD, latest_plan_date
 from accounts.models import Membership, Role
 from accounts.services import audit_record
 from inventory.models import AHU, Component
@@ -185,6 +186,16 @@ def work_order_schedule(
         )
     if day is not None:
         today = site_today(site=wo.ahu.building.site)
+        latest = latest_plan_date(today=today)
+        if day > latest:
+            raise ValidationError(
+                {
+                    "scheduled_for": [
+                        f"Planned day {day.isoformat()} is more than {PLAN_YEARS_AHEAD} years ahead; "
+                        f"allowed: {today.isoformat()} to {latest.isoformat()}"
+                    ]
+                }
+            )
         if day < today:
             raise ValidationError(
                 {

@@ -1,0 +1,215 @@
+"""Nothing a careless or hostile input can break: one input policy on every way in, and jobs that skip a bad row.
+
+Walked as the supervisor and the building-automation client would: the unit edit form, the registry and
+scheduling APIs, the meter CSV, the calendar feed and the board, from a controlled clock (3 March 2025, so
+the plan window is 2000-01-01 to 2035-03-03). Rows stored before the policy are made with
+``queryset.update``, which bypasses every check.
+"""
+
+import datetime as dt
+import html
+import io
+
+import pytest
+import time_machine
+from django.core.management import call_command
+from icalendar import Calendar
+from rest_framework.test import APIClient
+
+from accounts.models import AuditEvent
+from inventory.models import AHU, Component
+from scheduling.models import MeterReading, TaskDefinition, WorkOrder
+from scheduling.services import calendar_feed_issue, task_library_install
+from scheduling.services.meters import meter_readings_import_csv
+from tests.frontend import scenario as scenario_module
+
+pytestmark = pytest.mark.django_db
+NOW = dt.datetime(2025, 3, 3, 9, 0, tzinfo=dt.UTC)
+
+
+@pytest.fixture
+def world(db):
+    with time_machine.travel(NOW, tick=False):
+        task_library_install()
+        yield scenario_module.build()
+
+
+@pytest.fixture
+def api(world):
+    client = APIClient()
+    client.force_authenticate(world.supervisor)
+    return client
+
+
+def _text(response) -> str:
+    return html.unescape(response.content.decode())
+
+
+def _unit_form(ahu: AHU, **changes) -> dict:
+    from frontend.views.supervisor import UNIT_FIELDS
+
+    data = {name: "" if getattr(ahu, name) is None else str(getattr(ahu, name)) for name in UNIT_FIELDS}
+    return {**data, **changes}
+
+
+@pytest.mark.parametrize(
+    ("typed", "said"),
+    [("nan", "'nan' is not a finite number"), ("inf", "'inf' is not a finite number"), ("1e308", "1e+308 m³/s is out")],
+)
+def test_the_unit_form_refuses_nan_inf_and_1e308_naming_field_value_and_range(world, client, typed, said):
+    """'nan', 'inf' and 1e308 typed as the design airflow are refused beside the field, with the range; nothing
+    is saved and the organisation's unit list still answers."""
+    client.force_login(world.supervisor)
+    ahu = world.unit_a
+    before = ahu.design_supply_airflow_m3s
+    with time_machine.travel(NOW, tick=False):
+        r = client.post(f"/registry/unit/{ahu.pk}/edit/", _unit_form(ahu, design_supply_airflow_m3s=typed))
+    assert r.status_code == 200
+    assert f"Design supply airflow: {said}" in _text(r)
+    assert "allowed: a number from 0.01 to 100 m³/s" in _text(r)
+    ahu.refresh_from_db()
+    assert ahu.design_supply_airflow_m3s == before
+    api = APIClient()
+    api.force_authenticate(world.supervisor)
+    assert api.get("/api/inventory/ahus/").status_code == 200
+
+
+@pytest.mark.parametrize(
+    ("field", "value"),
+    [("floor_area_m2", "nan"), ("floor_area_m2", "inf"), ("floor_area_m2", 1e308), ("design_min_oa_fraction", "nan")],
+)
+def test_the_registry_api_refuses_non_finite_and_huge_numbers(world, api, field, value):
+    """The registry API answers 400 with the field's error naming the value and what is allowed; no 500 after."""
+    with time_machine.travel(NOW, tick=False):
+        r = api.patch(f"/api/inventory/ahus/{world.unit_a.pk}/", {field: value}, format="json")
+    assert r.status_code == 400, r.content
+    message = " ".join(r.json()["errors"][field])
+    assert "allowed" in message or "less than or equal" in message
+    assert str(value).lower().replace("1e+308", "1e308") in message.lower().replace("1e+308", "1e308")
+    assert api.get("/api/inventory/ahus/").status_code == 200
+
+
+def test_a_service_start_in_9999_is_refused_through_the_api(world, api):
+    """A service start of 9999-12-31 is refused: 'outside 2000–2035', with the allowed dates."""
+    with time_machine.travel(NOW, tick=False):
+        r = api.patch(f"/api/inventory/ahus/{world.unit_a.pk}/", {"service_start": "9999-12-31"}, format="json")
+    assert r.status_code == 400
+    assert r.json()["errors"]["service_start"] == [
+        "Service start 9999-12-31 is outside 2000–2035; allowed: 2000-01-01 to 2035-03-03"
+    ]
+
+
+def test_an_interval_of_a_million_is_refused(world, api):
+    """A task interval of 1,000,000 months is refused with the most allowed (120 months, ten years)."""
+    code = TaskDefinition.objects.filter(trigger="interval", interval_unit="months").values_list("code", flat=True)[0]
+    r = api.patch(f"/api/scheduling/tasks/{code}/", {"interval_value": 1_000_000}, format="json")
+    assert r.status_code == 400
+    assert r.json()["errors"]["interval_value"] == [
+        "Interval: 1000000 months is out of range; allowed: 1 to 120 months (ten years)"
+    ]
+    assert not TaskDefinition.objects.filter(organisation=world.org, code=code).exists()
+
+
+def test_a_visit_planned_for_9999_breaks_neither_the_calendar_nor_the_board(world, client, api):
+    """A visit stored as planned for 9999-12-31 is left out of the technician's feed and named on the board;
+    the week of 9999-12-27 shows this week's board (page) or a clear 400 (API), never a 500."""
+    WorkOrder.objects.filter(pk=world.work_a.pk).update(scheduled_for=dt.date(9999, 12, 31))
+    feed = calendar_feed_issue(user=world.technician)
+    with time_machine.travel(NOW, tick=False):
+        r = client.get(f"/calendar/{feed.token}.ics")
+        assert r.status_code == 200
+        uids = {str(e["uid"]) for e in Calendar.from_ical(r.content).walk("VEVENT")}
+        assert f"{world.work_a.public_id}@plenum" not in uids
+        client.force_login(world.supervisor)
+        page = client.get("/board/?week=9999-12-27")
+        assert page.status_code == 200
+        assert (
+            f"skipped: AHU-01 at Harbour House, {world.work_a.title}: planned for 9999-12-31 is outside 2000–2035"
+            in _text(page)
+        )
+        board = api.get("/api/scheduling/board/?week=9999-12-27")
+        assert board.status_code == 400
+        assert "week 9999-12-27 is outside 2000–2035" in board.json()["errors"]["week"][0]
+
+
+def test_a_time_without_a_zone_is_the_sites_time_in_the_api_and_the_csv(world, api):
+    """At a site in Helsinki (UTC+2 in March) '2025-03-01 08:00' is 06:00 UTC whether pushed through the API or
+    imported from the CSV."""
+    site = world.site_a
+    site.time_zone = "Europe/Helsinki"
+    site.save(update_fields=["time_zone"])
+    label = world.unit_a.label_code
+    with time_machine.travel(NOW, tick=False):
+        r = api.post(
+            "/api/scheduling/meter-readings/",
+            {"unit_label": label, "hours": 100, "taken_at": "2025-03-01 08:00"},
+            format="json",
+        )
+        assert r.status_code == 201, r.content
+        meter_readings_import_csv(
+            organisation=world.org, text=f"unit_label,taken_at,hours\n{label},2025-03-02 08:00,124\n"
+        )
+    times = sorted(MeterReading.objects.filter(ahu=world.unit_a).values_list("taken_at", flat=True))
+    assert times == [dt.datetime(2025, 3, 1, 6, tzinfo=dt.UTC), dt.datetime(2025, 3, 2, 6, tzinfo=dt.UTC)]
+
+
+@pytest.mark.parametrize(
+    ("payload", "field", "said"),
+    [
+        ({"hours": 1e308, "taken_at": "2025-03-01T08:00Z"}, "hours", "allowed: a number from 0 to 1,000,000 h"),
+        ({"hours": 10, "taken_at": "0001-01-01T00:00Z"}, "taken_at", "is before 2000"),
+        ({"hours": 10, "taken_at": "9999-12-31T23:59Z"}, "taken_at", "is later than now"),
+    ],
+)
+def test_impossible_meter_readings_are_refused(world, api, payload, field, said):
+    """1e308 run-hours, a reading dated year 1 or year 9999 are refused with the field and what is allowed."""
+    with time_machine.travel(NOW, tick=False):
+        r = api.post(
+            "/api/scheduling/meter-readings/", {"unit_label": world.unit_a.label_code, **payload}, format="json"
+        )
+    assert r.status_code == 400, r.content
+    assert said in " ".join(r.json()["errors"][field])
+
+
+def test_the_component_form_refuses_nan_and_1e308_in_the_persons_units(db, client):
+    """A US-units supervisor typing 'nan' or 1e308 as a filter's clean pressure drop is told the range in
+    in. w.c. (5–500 Pa is 0.0201–2.01 in. w.c.: 1 in. w.c. = 248.84 Pa, from memory)."""
+    with time_machine.travel(NOW, tick=False):
+        world = scenario_module.build(unit_system="us")
+        world.supervisor.unit_system = "us"
+        world.supervisor.save(update_fields=["unit_system"])
+        comp = Component.objects.filter(ahu=world.unit_a, kind="filter_bank").first()
+        client.force_login(world.supervisor)
+        for typed, said in (("nan", "'nan' is not a finite number"), ("1e308", "1e+308 in. w.c. is out of range")):
+            post = {"name": comp.name, **{f"spec_{k}": "" for k in comp.specs}, "spec_clean_dp_pa": typed}
+            r = client.post(f"/registry/component/{comp.pk}/edit/", post)
+            assert r.status_code == 200
+            text = _text(r)
+            assert f"Clean (initial) pressure drop: {said}" in text
+            assert "allowed: a number from 0.0200" in text and "in. w.c." in text
+
+
+def test_check_data_finds_poisoned_rows_and_repairs_only_what_may_be_emptied(world):
+    """check_data lists a unit starting 9999-12-31, a visit planned for 9999-12-31 and a rule of 1,000,000
+    months; --repair empties the two dates (audited) and leaves the rule for a person to correct."""
+    AHU.objects.filter(pk=world.unit_a.pk).update(service_start=dt.date(9999, 12, 31))
+    WorkOrder.objects.filter(pk=world.work_a.pk).update(scheduled_for=dt.date(9999, 12, 31))
+    task = TaskDefinition.objects.filter(trigger="interval").first()
+    TaskDefinition.objects.filter(pk=task.pk).update(interval_value=1_000_000)
+    out = io.StringIO()
+    with time_machine.travel(NOW, tick=False):
+        call_command("check_data", stdout=out)
+    report = out.getvalue()
+    assert "problem: AHU-01 at Harbour House: Service start 9999-12-31 is outside 2000–2035" in report
+    assert f"problem: AHU-01 at Harbour House, {world.work_a.title}: planned for 9999-12-31" in report
+    assert f"{task.name}: Interval: 1000000" in report
+    assert "0 repaired" in report
+    assert AHU.objects.get(pk=world.unit_a.pk).service_start == dt.date(9999, 12, 31)
+    out = io.StringIO()
+    with time_machine.travel(NOW, tick=False):
+        call_command("check_data", "--repair", stdout=out)
+    assert "repaired: AHU-01 at Harbour House: service start 9999-12-31 cleared" in out.getvalue()
+    assert AHU.objects.get(pk=world.unit_a.pk).service_start is None
+    assert WorkOrder.objects.get(pk=world.work_a.pk).scheduled_for is None
+    assert TaskDefinition.objects.get(pk=task.pk).interval_value == 1_000_000
+    assert AuditEvent.objects.filter(action="data_repair").count() == 2
