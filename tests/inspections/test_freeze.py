@@ -182,3 +182,22 @@ def test_readiness_of_many_units_takes_the_queries_of_one(unit, django_assert_nu
     with django_assert_num_queries(3):
         rows = freeze_readiness(units=units, as_of=AS_OF)
     assert len(rows) == 11 and {r.status for r in rows} == {READY}
+
+
+def test_the_api_lists_only_visible_units_and_names_a_bad_site_parameter(unit, api_client):
+    """Another organisation's manager sees none of these units; ``site=abc`` is a 400 naming the field and value."""
+    from accounts.models import Role
+    from accounts.services import site_grant
+    from tests.factories.accounts import OrganisationFactory, make_person
+
+    b.freeze_test(unit["visit"], unit["tech"], finished="2025-10-01", heaters=[unit["heater"]])
+    manager = make_person(organisation=unit["ahu"].building.site.organisation, role=Role.PROPERTY_MANAGER)
+    site_grant(user=manager, site=unit["ahu"].building.site)
+    api_client.force_authenticate(manager)
+    [row] = api_client.get(f"/api/inspections/freeze-readiness/?site={unit['ahu'].building.site_id}").json()
+    assert row["unit"]["tag"] == "AHU-F1" and row["tested_on"] == "2025-10-01"
+    bad = api_client.get("/api/inspections/freeze-readiness/?site=abc")
+    assert bad.status_code == 400 and "site='abc'" in bad.json()["errors"]["site"][0]
+    stranger = make_person(organisation=OrganisationFactory(), role=Role.PROPERTY_MANAGER)
+    api_client.force_authenticate(stranger)
+    assert api_client.get("/api/inspections/freeze-readiness/").json() == []
