@@ -31,7 +31,7 @@ def _design_review(check, d):
         req, design = d.get("required_outdoor_airflow_m3s"), d.get("design_min_outdoor_airflow_m3s")
         short = req is not None and design is not None and req > design
     x, u, mn = d.get("oa_fraction"), d.get("uncertainty", 0.0), d.get("design_min_oa_fraction")
-    return short and x is not None and mn is not None and x - u >= mn
+    return short and x is not None and mn is not None and x + u >= mn
 
 
 def merge_open_duplicates(apps, schema_editor):

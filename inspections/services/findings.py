@@ -126,16 +126,18 @@ def design_shortfall(derived: dict) -> bool:
     return required is not None and design is not None and required > design
 
 
-def _meets_design_minimum(derived: dict) -> bool:
-    """The measured fraction, uncertainty included, is at or above the design minimum (as fraction_check)."""
+def _not_below_design_minimum(derived: dict) -> bool:
+    """The measured fraction does not fail the design minimum: its band, uncertainty included, reaches it
+    (engineering.outdoor_air.fraction_check fails only when the whole band is below the minimum)."""
     x, u, minimum = derived.get("oa_fraction"), derived.get("uncertainty", 0.0), derived.get("design_min_oa_fraction")
-    return x is not None and minimum is not None and x - u >= minimum
+    return x is not None and minimum is not None and x + u >= minimum
 
 
 def is_design_review(*, check: str, derived: dict) -> bool:
-    """A shortfall from the design, not from the unit's upkeep: the unit delivers its design minimum outdoor
-    air, but the space needs more than that design minimum. Monthly corrective work cannot fix it."""
-    return check in OUTDOOR_AIR_CHECKS and design_shortfall(derived) and _meets_design_minimum(derived)
+    """A shortfall from the design, not from the unit's upkeep: the unit does not fail its design minimum
+    outdoor air, but the space needs more than that design minimum, so the failure comes from the requirement.
+    Monthly corrective work cannot fix it."""
+    return check in OUTDOOR_AIR_CHECKS and design_shortfall(derived) and _not_below_design_minimum(derived)
 
 
 def _outdoor_air_parts(*, check: str, derived: dict, ahu, design_review: bool) -> list | None:
@@ -171,7 +173,7 @@ def _outdoor_air_parts(*, check: str, derived: dict, ahu, design_review: bool) -
         parts.append(f". Fails: below the {min(required / supply_q, 1.0) * 100:.0f} % the space needs")
     if design_review:
         parts.append(
-            ". The unit delivers its design minimum, which is below what the space needs: a design review, "
+            ". The unit's design minimum is below what the space needs: a design review, "
             "not monthly corrective work (no work order is proposed)"
         )
     return rs.flatten(parts)

@@ -189,3 +189,36 @@ def test_an_amendment_that_clears_a_failure_closes_its_finding_and_a_new_failure
     )
     reopened = Finding.objects.get(amendment=again)
     assert reopened.state == Finding.State.OPEN and reopened.evaluation.item_key == "drain_pan.pan_condition"
+
+
+@pytest.mark.parametrize(
+    ("derived", "expected"),
+    [
+        # 40 % ± 3 against a 25 % design minimum, the space needs 1.404 m³/s but the design gives 0.75: design.
+        ({"oa_fraction": 0.40, "uncertainty": 0.03, "design_min_oa_fraction": 0.25}, True),
+        # 31 % ± 3 straddles a 32 % design minimum (cannot decide there), the requirement fails it: design.
+        ({"oa_fraction": 0.31, "uncertainty": 0.03, "design_min_oa_fraction": 0.32}, True),
+        # 20 % ± 3 is wholly below the 25 % design minimum: the unit itself is short, corrective work.
+        ({"oa_fraction": 0.20, "uncertainty": 0.03, "design_min_oa_fraction": 0.25}, False),
+        # The requirement (0.51 m³/s) is within the design minimum (0.75 m³/s): no design shortfall.
+        (
+            {
+                "oa_fraction": 0.40,
+                "uncertainty": 0.03,
+                "design_min_oa_fraction": 0.25,
+                "required_outdoor_airflow_m3s": 0.51,
+            },
+            False,
+        ),
+        # The evaluation's own flag wins over the comparison.
+        ({"oa_fraction": 0.40, "uncertainty": 0.03, "design_min_oa_fraction": 0.25, "design_shortfall": False}, False),
+    ],
+)
+def test_a_shortfall_from_the_design_is_a_design_review(derived, expected):
+    """Design review only when the requirement exceeds the design minimum outdoor air and the unit does not fail
+    that design minimum (engineering.outdoor_air.fraction_check fails only a band wholly below it)."""
+    from inspections.services.findings import is_design_review
+
+    base = {"required_outdoor_airflow_m3s": 1.404, "design_min_outdoor_airflow_m3s": 0.75}
+    assert is_design_review(check="oa_fraction_temperature", derived={**base, **derived}) is expected
+    assert is_design_review(check="filter_loading", derived={**base, **derived}) is False

@@ -1,5 +1,7 @@
 """Migration 0006 merges the duplicate open findings an older database holds (one per visit) into one."""
 
+import uuid
+
 import pytest
 from django.db import connection
 from django.db.migrations.executor import MigrationExecutor
@@ -12,7 +14,6 @@ from tests.factories.scheduling import WorkOrderFactory
 from tests.reports import builders as b
 
 BEFORE = ("inspections", "0005_checklistitem_unit_filter")
-AFTER = ("inspections", "0006_findings_observations")
 
 
 @pytest.mark.django_db(transaction=True)
@@ -24,15 +25,47 @@ def test_duplicate_open_findings_become_one_seen_on_every_visit():
     left alone."""
     executor = MigrationExecutor(connection)
     executor.migrate([BEFORE])
-    old = executor.loader.project_state([BEFORE]).apps.get_model("inspections", "Finding")
+    old_apps = executor.loader.project_state([BEFORE]).apps
+    old = old_apps.get_model("inspections", "Finding")
+    # The inspections tables as they were before the migration (later migrations of the app are undone too).
+    OldInspection = old_apps.get_model("inspections", "Inspection")
+    OldEvaluation = old_apps.get_model("inspections", "Evaluation")
+
+    def inspection(day: str):
+        at = b.at(day, 11)
+        return OldInspection.objects.create(
+            client_uuid=uuid.uuid4(),
+            organisation_id=wo.organisation_id,
+            work_order_id=wo.pk,
+            ahu_id=wo.ahu_id,
+            technician_id=tech.pk,
+            template_versions={},
+            work_order_version_seen=wo.version,
+            started_at=at,
+            finished_at=at,
+            received_at=at,
+            complete=True,
+            signature_name="Ana Field",
+            signature_image="signatures/test.png",
+            signed_at=at,
+        )
+
+    def evaluation(insp, item: str, check: str, reason: str, component_id=None):
+        return OldEvaluation.objects.create(
+            inspection_id=insp.pk,
+            check_name=check,
+            item_key=item,
+            component_id=component_id,
+            verdict="fail",
+            reason=reason,
+        )
+
     wo, tech = make_visit(tasks=["drain_pan"])
     ahu, pan = wo.ahu, wo.ahu.components.get(name="Drain pan")
     rows, proposals = [], []
     for day in ("2025-01-06", "2025-02-03", "2025-03-03"):
-        insp = b.inspection(wo, tech, finished=day)
-        ev = b.evaluation(
-            insp, "choice", "drain_pan.pan_condition", verdict="fail", reason="Pan: standing water", component=pan
-        )
+        insp = inspection(day)
+        ev = evaluation(insp, "drain_pan.pan_condition", "choice", "Pan: standing water", component_id=pan.pk)
         cwo = WorkOrderFactory(
             ahu=ahu, kind=WorkOrder.Kind.CORRECTIVE, approval=WorkOrder.Approval.PENDING, title="Drain pan"
         )
@@ -51,7 +84,7 @@ def test_duplicate_open_findings_become_one_seen_on_every_visit():
                 corrective_work_order_id=cwo.pk,
             )
         )
-    other_ev = b.evaluation(insp, "check", "drain_pan.drains_freely", verdict="fail", reason="Drains: not ok")
+    other_ev = evaluation(insp, "drain_pan.drains_freely", "check", "Drains: not ok")
     other = old.objects.create(
         organisation_id=wo.organisation_id,
         inspection_id=insp.pk,
@@ -65,7 +98,7 @@ def test_duplicate_open_findings_become_one_seen_on_every_visit():
 
     executor = MigrationExecutor(connection)
     executor.loader.build_graph()
-    executor.migrate([AFTER])
+    executor.migrate(executor.loader.graph.leaf_nodes())
 
     [kept] = Finding.objects.filter(ahu=ahu, state=Finding.State.OPEN, problem="drain_pan.pan_condition")
     first, second, third = (Finding.objects.get(pk=r.pk) for r in rows)
