@@ -680,11 +680,12 @@ def _org_build(
     meters, hours_at = [], {}
     months = years * 12
     for ahu in ahus:
-        rate = rng.choice([250.0, 400.0, 600.0, 720.0])  # run-hours a month
+        # Run-hours a month (30 days = 720 h of clock time): never more than the clock allows.
+        rate = rng.choice([250.0, 400.0, 600.0, 650.0])
         hours = rng.uniform(5_000, 60_000)
         for k in range(months, -1, -1):
             taken = _aware(today - dt.timedelta(days=30 * k), 6)
-            hours += rate * rng.uniform(0.9, 1.1)
+            hours += rate * rng.uniform(0.9, 1.05)
             meters.append(
                 MeterReading(ahu=ahu, hours=round(hours, 1), taken_at=taken, source=MeterReading.Source.BAS_CSV)
             )

@@ -287,7 +287,7 @@ def sync_forms_prepare(*, portfolio: Portfolio, port: int, count: int, tag: str)
     open ones, so even a small portfolio gives 1,000 distinct forms with real checklists.
     """
     from accounts.models import User
-    from scheduling.models import WorkOrder, WorkOrderTask
+    from scheduling.models import MeterReading, WorkOrder, WorkOrderTask
 
     from .load import get_json
 
@@ -335,6 +335,15 @@ def sync_forms_prepare(*, portfolio: Portfolio, port: int, count: int, tag: str)
                 )
         WorkOrderTask.objects.bulk_create(copy_tasks, batch_size=2000)
     tokens = portfolio.main.tokens
+    # The run-hour meter as the technician reads it: the unit's latest reading (never a jump the
+    # plausibility rule refuses, whatever the time of day the bench runs).
+    meter_hours: dict[int, float] = {}
+    for ahu_id, hours in (
+        MeterReading.objects.filter(ahu_id__in={wo.ahu_id for wo in copies})
+        .order_by("ahu_id", "taken_at")
+        .values_list("ahu_id", "hours")
+    ):
+        meter_hours[ahu_id] = hours
     sheets: dict[tuple[int, int], dict] = {}
     pairs = []
     for wo, src in zip(copies, source_of, strict=True):
@@ -347,6 +356,8 @@ def sync_forms_prepare(*, portfolio: Portfolio, port: int, count: int, tag: str)
         for template in sheet["templates"]:
             for item in template["items"]:
                 value = _value_for(item)
+                if item["key"] == "visit.run_hours":
+                    value = meter_hours.get(wo.ahu_id)
                 if value is None:
                     continue
                 readings.append(
