@@ -329,6 +329,7 @@ def findings_open(
         )
         found[finding.pk] = finding
         if design_review:
+            _withdraw_proposal_for_design_review(finding=finding, by=by)
             continue
         group = needs_work.setdefault(
             _known(condition) or f"problem:{finding.problem}", {"findings": {}, "urgent": False}
@@ -347,6 +348,29 @@ def findings_open(
             by=by,
         )
     return list(found.values())
+
+
+DESIGN_REVIEW_WITHDRAWN = (
+    "withdrawn: its findings are now design review items (the unit's design minimum outdoor air is below what "
+    "the space needs), not monthly corrective work"
+)
+
+
+def _withdraw_proposal_for_design_review(*, finding: Finding, by) -> None:
+    """A finding that has become a design review no longer asks for the corrective work proposed for it earlier:
+    a proposal still awaiting approval whose open findings are all design reviews is cancelled (audited).
+    Approved work is left to the supervisor."""
+    from scheduling.models import WorkOrder
+    from scheduling.services import work_order_cancel
+
+    wo = finding.corrective_work_order
+    if wo is None or wo.approval != WorkOrder.Approval.PENDING or wo.state not in WorkOrder.OPEN_STATES:
+        return
+    others = Finding.objects.filter(corrective_work_order=wo, state=Finding.State.OPEN).exclude(pk=finding.pk)
+    if others.exclude(kind=Finding.Kind.DESIGN_REVIEW).exists():
+        return
+    work_order_cancel(work_order=wo, by=by, reason=DESIGN_REVIEW_WITHDRAWN)
+    wo.refresh_from_db()
 
 
 def _is_open_work(wo) -> bool:

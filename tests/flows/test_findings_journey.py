@@ -35,8 +35,9 @@ SYNC = "/api/inspections/sync/"
 CODES = re.compile(r"retail_sales|oa_fraction|ventilation_low|design_review|freeze_protection|[a-z]+_[a-z]+\.[a-z_]+")
 
 
-def _shortfall_visits(api_client, *, visits: int = 10):
-    """``visits`` monthly visits to one retail unit through the sync API, each measuring 40 % outdoor air."""
+def _shortfall_visits(api_client, *, visits: int = 10, mixed=None):
+    """``visits`` monthly visits to one retail unit through the sync API, each measuring 40 % outdoor air
+    (or the mixed-air temperature ``mixed[month]``)."""
     first_wo = None
     org = ahu = tech = None
     for month in range(visits):
@@ -59,7 +60,7 @@ def _shortfall_visits(api_client, *, visits: int = 10):
                 r("visit.run_hours", 1000 + 300 * month),
                 r("ventilation_check.outdoor_air", 0.0),
                 r("ventilation_check.return_air", 22.0),
-                r("ventilation_check.mixed_air", 13.2),
+                r("ventilation_check.mixed_air", (mixed or {}).get(month, 13.2)),
             ],
             finished_at=finished,
         )
@@ -194,3 +195,16 @@ def test_rejecting_corrective_work_needs_a_reason_on_the_page_and_in_the_api(api
         object_type="scheduling.workorder", object_id=str(cwo.pk), action="corrective_reject"
     )
     assert event.changes["reason"] == "Contractor replaced the heater" and event.actor == boss
+
+
+@pytest.mark.django_db
+def test_a_shortfall_that_turns_out_to_be_the_designs_withdraws_its_pending_proposal(api_client):
+    """First visit 20 % ± 3 (mixed 17.6 °C): below the 25 % design minimum, corrective work proposed. Next month
+    40 %: the unit meets its design, the requirement is what fails, so the same finding (seen twice) becomes a
+    design review and the proposal still awaiting approval is cancelled with a reason, audited."""
+    _, ahu = _shortfall_visits(api_client, visits=2, mixed={0: 17.6})
+    [finding] = Finding.objects.filter(ahu=ahu, state=Finding.State.OPEN)
+    assert finding.times_seen == 2 and finding.kind == Finding.Kind.DESIGN_REVIEW
+    cwo = finding.corrective_work_order
+    assert cwo is not None and cwo.state == WorkOrder.State.CANCELLED and "design review" in cwo.cancel_reason
+    assert AuditEvent.objects.filter(object_type="scheduling.workorder", object_id=str(cwo.pk), action="transition")
