@@ -9,6 +9,10 @@ OUTDOOR_AIR = {"oa_fraction_temperature", "oa_fraction_co2"}
 STEPS = {"check", "choice", "limits"}
 SEVERITY_ORDER = ["low", "medium", "high", "critical"]
 OPEN_STATES = {"planned", "assigned", "in_progress"}
+DESIGN_NOTE = (
+    "withdrawn: its findings are now design review items (the unit's design minimum outdoor air is below what "
+    "the space needs), not monthly corrective work"
+)
 MERGED_NOTE = "its findings were merged into the earlier open finding of the same problem"
 
 
@@ -41,7 +45,8 @@ def merge_open_duplicates(apps, schema_editor):
     Open findings of the same unit, part and problem become one: the earliest stays open (first seen
     unchanged, last seen and latest values from the newest, times seen = the visits that saw them, the
     worst severity); the others close as merged at their own opening time (so no age figure counts them)
-    and point to it. Pending corrective work left holding only merged findings is cancelled, audited.
+    and point to it. Pending corrective work left holding only merged findings, or only design-review findings,
+    is cancelled, audited.
     """
     Finding = apps.get_model("inspections", "Finding")
     WorkOrder = apps.get_model("scheduling", "WorkOrder")
@@ -122,6 +127,22 @@ def merge_open_duplicates(apps, schema_editor):
                 action="transition",
                 changes={"to": "cancelled", "reason": MERGED_NOTE},
             )
+
+    # Proposals still awaiting approval whose open findings are all design reviews ask for no monthly work.
+    for wo in WorkOrder.objects.filter(
+        approval="pending", state__in=OPEN_STATES, source_findings__kind="design_review", source_findings__state="open"
+    ).distinct():
+        if Finding.objects.filter(corrective_work_order=wo, state="open").exclude(kind="design_review").exists():
+            continue
+        wo.state, wo.cancel_reason, wo.version = "cancelled", DESIGN_NOTE[:300], wo.version + 1
+        wo.save(update_fields=["state", "cancel_reason", "version"])
+        AuditEvent.objects.create(
+            organisation_id=wo.organisation_id,
+            object_type="scheduling.workorder",
+            object_id=str(wo.pk),
+            action="transition",
+            changes={"to": "cancelled", "reason": DESIGN_NOTE},
+        )
 
 
 class Migration(migrations.Migration):
