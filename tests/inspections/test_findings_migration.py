@@ -22,7 +22,8 @@ def test_duplicate_open_findings_become_one_seen_on_every_visit():
     migration one finding stays open, first seen on the first visit, last seen on the third, seen three times,
     holding one pending work order; the other two are closed as merged (at their own opening, so no age figure
     counts them) and their now empty proposals are cancelled, both audited. A finding on another problem is
-    left alone."""
+    left alone; an outdoor-air finding whose shortfall is the design's becomes a design review and its pending
+    proposal is withdrawn."""
     executor = MigrationExecutor(connection)
     executor.migrate([BEFORE])
     old_apps = executor.loader.project_state([BEFORE]).apps
@@ -50,7 +51,7 @@ def test_duplicate_open_findings_become_one_seen_on_every_visit():
             signed_at=at,
         )
 
-    def evaluation(insp, item: str, check: str, reason: str, component_id=None):
+    def evaluation(insp, item: str, check: str, reason: str, component_id=None, derived=None):
         return OldEvaluation.objects.create(
             inspection_id=insp.pk,
             check_name=check,
@@ -58,6 +59,7 @@ def test_duplicate_open_findings_become_one_seen_on_every_visit():
             component_id=component_id,
             verdict="fail",
             reason=reason,
+            derived=derived or {},
         )
 
     wo, tech = make_visit(tasks=["drain_pan"])
@@ -95,6 +97,34 @@ def test_duplicate_open_findings_become_one_seen_on_every_visit():
         reason="Drains: not ok",
         opened_at=insp.finished_at,
     )
+    # 40 % ± 3 against a 25 % design minimum (0.75 m³/s) on a space that needs 1.404 m³/s: a design matter.
+    oa_ev = evaluation(
+        insp,
+        "ventilation_check.mixed_air",
+        "oa_fraction_temperature",
+        "by temperatures: …: fail",
+        derived={
+            "oa_fraction": 0.40,
+            "uncertainty": 0.03,
+            "design_min_oa_fraction": 0.25,
+            "design_min_outdoor_airflow_m3s": 0.75,
+            "required_outdoor_airflow_m3s": 1.404,
+        },
+    )
+    oa_work = WorkOrderFactory(
+        ahu=ahu, kind=WorkOrder.Kind.CORRECTIVE, approval=WorkOrder.Approval.PENDING, title="Outdoor air"
+    )
+    oa = old.objects.create(
+        organisation_id=wo.organisation_id,
+        inspection_id=insp.pk,
+        evaluation_id=oa_ev.pk,
+        ahu_id=ahu.pk,
+        severity="high",
+        title="Outdoor air below minimum",
+        reason=oa_ev.reason,
+        opened_at=insp.finished_at,
+        corrective_work_order_id=oa_work.pk,
+    )
 
     executor = MigrationExecutor(connection)
     executor.loader.build_graph()
@@ -116,6 +146,10 @@ def test_duplicate_open_findings_become_one_seen_on_every_visit():
         proposals[2].pk: WorkOrder.State.CANCELLED,
     }
     assert AuditEvent.objects.filter(object_type="inspections.finding", action="finding_close").count() == 2
-    assert AuditEvent.objects.filter(object_type="scheduling.workorder", action="transition").count() == 2
+    assert AuditEvent.objects.filter(object_type="scheduling.workorder", action="transition").count() == 3
     other = Finding.objects.get(pk=other.pk)
     assert other.state == Finding.State.OPEN and other.problem == "drain_pan.drains_freely" and other.times_seen == 1
+    oa = Finding.objects.get(pk=oa.pk)
+    assert oa.kind == Finding.Kind.DESIGN_REVIEW and oa.problem == "outdoor_air" and oa.state == Finding.State.OPEN
+    oa_work.refresh_from_db()
+    assert oa_work.state == WorkOrder.State.CANCELLED and "design review" in oa_work.cancel_reason
