@@ -403,10 +403,13 @@ def filter_forecast(
         if h is None or hpd is None:
             return None
         # Never before the reading the forecast comes from (nor any reading given).
-        dt = max(_as_datetime(last_when) + timedelta(days=max(h - last_h, 0.0) / hpd), latest)
-        if isinstance(last_when, datetime):
-            return dt
-        return (dt + timedelta(hours=12)).date()  # nearest whole day
+        try:
+            dt = max(_as_datetime(last_when) + timedelta(days=max(h - last_h, 0.0) / hpd), latest)
+            if isinstance(last_when, datetime):
+                return dt
+            return (dt + timedelta(hours=12)).date()  # nearest whole day
+        except OverflowError:  # past year 9999: no date to give, as with no run-hour rate
+            return None
 
     return FilterForecast(
         run_hours_at_final=at_final,

@@ -1,9 +1,11 @@
 """Input and output shapes of the registry API. No domain logic here: services validate."""
 
+import math
+
 from django.urls import reverse
 from rest_framework import serializers
 
-from accounts.inputs import INT64_MAX, FieldErrors, check_integer
+from accounts.inputs import INT64_MAX, FieldErrors, check_integer, check_text
 from accounts.models import Organisation
 
 from . import selectors
@@ -55,6 +57,18 @@ class VisiblePrimaryKey(serializers.PrimaryKeyRelatedField):
         return super().to_internal_value(data)
 
 
+class OrganisationSlug(serializers.SlugRelatedField):
+    """An organisation named by its slug; NUL, control characters or an overlong slug are refused before the
+    database sees them (PostgreSQL cannot hold NUL in text)."""
+
+    def to_internal_value(self, data):
+        errors = FieldErrors()
+        check_text(data, key="slug", label="Organisation", max_length=50, errors=errors, required=True)
+        if errors:
+            raise serializers.ValidationError(errors["slug"])
+        return super().to_internal_value(data)
+
+
 def _visible_sites(*, user):
     return selectors.sites_visible_to(user=user)
 
@@ -83,13 +97,11 @@ class SiteOutput(serializers.ModelSerializer):
 
 
 class SiteInput(NamesValueMixin, serializers.ModelSerializer):
-    organisation = serializers.SlugRelatedField(
+    organisation = OrganisationSlug(
         slug_field="slug", queryset=Organisation.objects.all(), required=False,
         help_text="Slug of the maintaining organisation; may be left out by a person who manages only one.",
     )  # fmt: skip
-    client = serializers.SlugRelatedField(
-        slug_field="slug", queryset=Organisation.objects.all(), required=False, allow_null=True
-    )
+    client = OrganisationSlug(slug_field="slug", queryset=Organisation.objects.all(), required=False, allow_null=True)
     normals_min_c = serializers.ListField(child=serializers.FloatField(), min_length=12, max_length=12, required=False)
     normals_max_c = serializers.ListField(child=serializers.FloatField(), min_length=12, max_length=12, required=False)
 
@@ -141,6 +153,15 @@ class AHUOutput(serializers.ModelSerializer):
 
     def get_label_url(self, obj) -> str:
         return label_absolute_url(code=obj.label_code)
+
+    def to_representation(self, instance):
+        # A number stored before the input policy (NaN, infinity) is no JSON number: it reads as empty, so one
+        # unit does not take the organisation's list down; manage.py check_data names and repairs it.
+        data = super().to_representation(instance)
+        for name, value in data.items():
+            if isinstance(value, float) and not math.isfinite(value):
+                data[name] = None
+        return data
 
 
 class PolicyNumber(serializers.FloatField):

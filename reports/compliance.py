@@ -101,7 +101,10 @@ class Occurrence:
 
     @property
     def deadline(self) -> date:
-        return self.due_date + timedelta(days=self.grace_days)
+        try:
+            return self.due_date + timedelta(days=self.grace_days)
+        except OverflowError:  # a due date stored at the calendar's end (before the input policy): never late
+            return date.max
 
 
 def occurrence_outcome(occ: Occurrence, *, evaluated_on: date) -> str:

@@ -13,6 +13,9 @@ from typing import Any
 
 from django.core.exceptions import ValidationError
 from django.http import Http404
+from django.utils import timezone
+
+from accounts.inputs import date_problem
 
 MAX_ID = 2**63 - 1  # the database's largest key; bigger numbers cannot name a row
 
@@ -59,9 +62,15 @@ def a_date(parameters: dict, name: str, default: date | None = None) -> date:
             raise ValidationError({name: f"{name}: a date (YYYY-MM-DD) is required"})
         return default
     try:
-        return date.fromisoformat(str(raw))
+        day = date.fromisoformat(str(raw)[:20])
     except ValueError:
-        raise ValidationError({name: f"{name}={raw!r}: expected a date as YYYY-MM-DD"})
+        raise ValidationError({name: f"{name}={str(raw)[:40]!r}: expected a date as YYYY-MM-DD"})
+    # The input policy's window (2000 to ten years ahead): a report of year 9999 is a typo, and its date sums
+    # would run past the calendar.
+    problem = date_problem(day, label=f"Report {name}", today=timezone.localdate())
+    if problem:
+        raise ValidationError({name: problem})
+    return day
 
 
 def period(parameters: dict, *, default_start: date, default_end: date) -> tuple[date, date]:

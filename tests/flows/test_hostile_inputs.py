@@ -213,3 +213,53 @@ def test_check_data_finds_poisoned_rows_and_repairs_only_what_may_be_emptied(wor
     assert WorkOrder.objects.get(pk=world.work_a.pk).scheduled_for is None
     assert TaskDefinition.objects.get(pk=task.pk).interval_value == 1_000_000
     assert AuditEvent.objects.filter(action="data_repair").count() == 2
+
+
+def test_a_unit_stored_with_an_infinite_number_does_not_break_the_unit_list(world, api):
+    """A floor area stored as infinity (before the policy) reads as empty in the unit list, which answers 200."""
+    AHU.objects.filter(pk=world.unit_a.pk).update(floor_area_m2=float("inf"))
+    r = api.get("/api/inventory/ahus/")
+    assert r.status_code == 200
+    rows = r.json()["results"] if isinstance(r.json(), dict) else r.json()
+    assert [row["floor_area_m2"] for row in rows if row["id"] == world.unit_a.pk] == [None]
+
+
+def test_a_nul_in_an_organisation_slug_is_refused(world, api):
+    """An organisation slug with NUL in it is refused naming the field, before the database sees it."""
+    r = api.post(
+        "/api/inventory/sites/",
+        {"organisation": "bright\x00water", "code": "X1", "name": "X", "latitude": 60, "longitude": 24},
+        format="json",
+    )
+    assert r.status_code == 400
+    assert "control characters (such as NUL)" in " ".join(r.json()["errors"]["organisation"])
+
+
+def test_a_report_period_ending_in_9999_is_refused_and_a_visit_due_then_is_never_late():
+    """A report asked up to 9999-12-31 is refused with the allowed dates; a visit stored as due 9999-12-31 has
+    no deadline to miss (no date sum past the calendar)."""
+    from django.core.exceptions import ValidationError
+
+    from reports.compliance import Occurrence
+    from reports.documents import period
+
+    with time_machine.travel(NOW, tick=False), pytest.raises(ValidationError) as refused:
+        period({"end": "9999-12-31"}, default_start=dt.date(2025, 1, 1), default_end=dt.date(2025, 3, 3))
+    assert refused.value.message_dict["end"] == [
+        "Report end 9999-12-31 is outside 2000–2035; allowed: 2000-01-01 to 2035-03-03"
+    ]
+    occ = Occurrence(category="c", due_date=dt.date(9999, 12, 31), grace_days=7, completed_on=None)
+    assert occ.deadline == dt.date.max
+
+
+def test_a_filter_forecast_past_the_calendar_has_no_date():
+    """A run-hour rate so small that the change would fall after year 9999 gives no date, not an error."""
+    from engineering.filters import FilterPoint, filter_forecast
+
+    points = [
+        FilterPoint(run_hours=h, dp_pa=100 + h / 10, airflow_m3s=2.0, when=dt.date(2025, 1, 1) + dt.timedelta(days=d))
+        for d, h in enumerate((0, 100, 200, 300, 400))
+    ]
+    fc = filter_forecast(points=points, design_airflow_m3s=2.0, final_dp_pa=250.0, hours_per_day=1e-9)
+    assert fc.run_hours_at_final == pytest.approx(1500, rel=0.01)
+    assert fc.date_at_final is None
