@@ -5,6 +5,7 @@ import secrets
 import uuid
 
 from django.conf import settings
+from django.core.exceptions import ValidationError
 from django.core.validators import MinValueValidator
 from django.db import models
 from django.db.models import Q
@@ -117,6 +118,14 @@ class TaskDefinition(models.Model):
 
     def __str__(self) -> str:
         return f"{self.name} ({self.code})"
+
+    def clean(self) -> None:
+        # The input policy's bounds (scheduling.inputs): the admin form checks what the services check.
+        from .inputs import task_problems
+
+        problems = task_problems(self)
+        if problems:
+            raise ValidationError(problems)
 
     @property
     def is_library(self) -> bool:

@@ -263,3 +263,16 @@ def test_a_filter_forecast_past_the_calendar_has_no_date():
     fc = filter_forecast(points=points, design_airflow_m3s=2.0, final_dp_pa=250.0, hours_per_day=1e-9)
     assert fc.run_hours_at_final == pytest.approx(1500, rel=0.01)
     assert fc.date_at_final is None
+
+
+def test_the_admin_form_refuses_a_task_interval_of_a_million_as_the_api_does(world):
+    """The admin's form runs the model's check, which is the services' bound: 1,000,000 weeks is refused."""
+    task = TaskDefinition.objects.filter(trigger="interval").first()
+    task.interval_value, task.interval_unit = 1_000_000, "weeks"
+    from django.core.exceptions import ValidationError
+
+    with pytest.raises(ValidationError) as refused:
+        task.full_clean(exclude=["organisation"])
+    assert refused.value.message_dict["interval_value"] == [
+        "Interval: 1000000 weeks is out of range; allowed: 1 to 521 weeks (ten years)"
+    ]
