@@ -276,3 +276,15 @@ def test_the_admin_form_refuses_a_task_interval_of_a_million_as_the_api_does(wor
     assert refused.value.message_dict["interval_value"] == [
         "Interval: 1000000 weeks is out of range; allowed: 1 to 521 weeks (ten years)"
     ]
+
+
+@pytest.mark.parametrize("raw", ["1e309", "1.5", "99999999999999999999999"])
+def test_an_id_no_row_can_have_is_refused_naming_the_field(world, api, raw):
+    """A unit's building given as 1e309 (infinity once parsed), 1.5 or past the database's integer range is a
+    400 on that field, not a database error."""
+    body = '{"building": ID, "tag": "AHU-99", "design_supply_airflow_m3s": 1, "design_min_oa_fraction": 0.2}'
+    body = body.replace("ID", raw)
+    r = api.post("/api/inventory/ahus/", body, content_type="application/json")
+    assert r.status_code == 400, r.content
+    said = " ".join(r.json()["errors"]["building"])
+    assert "is not a whole number" in said or "out of range" in said
