@@ -190,9 +190,10 @@ def test_the_component_form_refuses_nan_and_1e308_in_the_persons_units(db, clien
 
 
 def test_check_data_finds_poisoned_rows_and_repairs_only_what_may_be_emptied(world):
-    """check_data lists a unit starting 9999-12-31, a visit planned for 9999-12-31 and a rule of 1,000,000
-    months; --repair empties the two dates (audited) and leaves the rule for a person to correct."""
-    AHU.objects.filter(pk=world.unit_a.pk).update(service_start=dt.date(9999, 12, 31))
+    """check_data lists a unit starting 9999-12-31 with an infinite floor area, a visit planned for 9999-12-31
+    and a rule of 1,000,000 months; --repair empties the two dates and the number (audited) and leaves the rule
+    for a person to correct."""
+    AHU.objects.filter(pk=world.unit_a.pk).update(service_start=dt.date(9999, 12, 31), floor_area_m2=float("inf"))
     WorkOrder.objects.filter(pk=world.work_a.pk).update(scheduled_for=dt.date(9999, 12, 31))
     task = TaskDefinition.objects.filter(trigger="interval").first()
     TaskDefinition.objects.filter(pk=task.pk).update(interval_value=1_000_000)
@@ -203,6 +204,7 @@ def test_check_data_finds_poisoned_rows_and_repairs_only_what_may_be_emptied(wor
     assert "problem: AHU-01 at Harbour House: Service start 9999-12-31 is outside 2000–2035" in report
     assert f"problem: AHU-01 at Harbour House, {world.work_a.title}: planned for 9999-12-31" in report
     assert f"{task.name}: Interval: 1000000" in report
+    assert "problem: AHU-01 at Harbour House: Floor area served: inf is not a finite number" in report
     assert "0 repaired" in report
     assert AHU.objects.get(pk=world.unit_a.pk).service_start == dt.date(9999, 12, 31)
     out = io.StringIO()
@@ -210,6 +212,7 @@ def test_check_data_finds_poisoned_rows_and_repairs_only_what_may_be_emptied(wor
         call_command("check_data", "--repair", stdout=out)
     assert "repaired: AHU-01 at Harbour House: service start 9999-12-31 cleared" in out.getvalue()
     assert AHU.objects.get(pk=world.unit_a.pk).service_start is None
+    assert AHU.objects.get(pk=world.unit_a.pk).floor_area_m2 is None
     assert WorkOrder.objects.get(pk=world.work_a.pk).scheduled_for is None
     assert TaskDefinition.objects.get(pk=task.pk).interval_value == 1_000_000
     assert AuditEvent.objects.filter(action="data_repair").count() == 2
