@@ -20,7 +20,7 @@ from rest_framework.response import Response
 from rest_framework.views import APIView
 
 from accounts.answers import json_answer, kept
-from accounts.inputs import FieldErrors, check_reading_time, date_problem
+from accounts.inputs import FieldErrors, check_number, check_reading_time, date_problem
 from accounts.models import Membership, Role
 from accounts.selectors import technician_of
 from inventory.selectors import ahus_visible_to, sites_visible_to
@@ -248,10 +248,14 @@ def today_params(request, user) -> tuple[dt.date, tuple[float, float] | None]:
         day = local_today(time_zone=zone)
     start = None
     if query.get("lat") and query.get("lon"):
-        try:
-            start = (float(query["lat"]), float(query["lon"]))
-        except ValueError:
-            raise ValidationError({"lat": ["lat and lon must be decimal degrees"]}) from None
+        # 'nan' or 'inf' would route nowhere and make the answer no JSON: refused with the range.
+        checked = FieldErrors()
+        lat = check_number(query["lat"], key="lat", label="Latitude", minimum=-90, maximum=90, unit="°", errors=checked)
+        lon = check_number(
+            query["lon"], key="lon", label="Longitude", minimum=-180, maximum=180, unit="°", errors=checked
+        )
+        checked.raise_if_any()
+        start = (lat, lon)
     return day, start
 
 

@@ -291,3 +291,15 @@ def test_an_id_no_row_can_have_is_refused_naming_the_field(world, api, raw):
     assert r.status_code == 400, r.content
     said = " ".join(r.json()["errors"]["building"])
     assert "is not a whole number" in said or "out of range" in said
+
+
+def test_the_technicians_day_refuses_a_start_of_nan_degrees(world):
+    """The day's route from lat=nan is a 400 naming latitude and its range, not an answer with no JSON in it."""
+    client = APIClient()
+    client.force_authenticate(world.technician)
+    with time_machine.travel(NOW, tick=False):
+        r = client.get("/api/scheduling/today/?lat=nan&lon=24.9")
+        ok = client.get("/api/scheduling/today/?lat=60.2&lon=24.9")
+    assert r.status_code == 400
+    assert r.json()["errors"]["lat"] == ["Latitude: 'nan' is not a finite number; allowed: a number from -90 to 90 °"]
+    assert ok.status_code == 200
