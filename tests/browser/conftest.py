@@ -1,15 +1,37 @@
 """Playwright against Debian's Chromium (never a downloaded browser) and Django's live server."""
 
 import os
+import time
 from pathlib import Path
 
 import pytest
+from playwright.sync_api import Page
 
 from tests.conftest import OUTPUT_DIR, service_missing
 from tests.frontend import scenario as scenario_module
 
 # Playwright's sync API runs an event loop in the test thread; the ORM calls in tests are still synchronous.
 os.environ["DJANGO_ALLOW_ASYNC_UNSAFE"] = "true"
+
+
+def _wait_for_function(self, expression, *, arg=None, timeout=None, polling=None):
+    """Page.wait_for_function that works under our Content-Security-Policy (no 'unsafe-eval').
+
+    Playwright's own version runs the predicate through the page's eval(), which the policy blocks; this
+    one polls with page.evaluate (sent over the DevTools protocol, which no page policy governs) and returns
+    the truthy value's handle, so every browser test keeps running with the real policy in force.
+    """
+    deadline = time.monotonic() + (30000 if timeout is None else timeout) / 1000
+    interval = polling if isinstance(polling, int | float) else 100
+    while True:
+        if self.evaluate(expression, arg):
+            return self.evaluate_handle(expression, arg)
+        if time.monotonic() > deadline:
+            raise TimeoutError(f"wait_for_function: {expression!r} stayed false for {timeout} ms")
+        self.wait_for_timeout(interval)
+
+
+Page.wait_for_function = _wait_for_function
 
 CHROMIUM = "/usr/bin/chromium"
 CHROMIUM_ARGS = [
