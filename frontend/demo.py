@@ -16,15 +16,28 @@ from accounts.models import Membership, Role
 from engineering.freeze import daily_values_from_normals
 from inspections.demo import demo_history_load
 from inventory.demo import demo_registry_load
-from scheduling.demo import demo_schedule_load
+from inventory.models import AHU, ComponentKind
+from scheduling.demo import ROUND_REF, demo_round_visit, demo_schedule_load
 from scheduling.models import WorkOrder
 from scheduling.selectors import person_today, site_today, today_visits_for
-from scheduling.services import outdoor_temperatures_store, work_order_assign, work_order_schedule
+from scheduling.services import (
+    outdoor_temperatures_store,
+    site_seasons_refresh,
+    work_order_assign,
+    work_order_schedule,
+    work_order_verify,
+)
 from scheduling.weather import DailyTemperature
 
 # Open work due within this many days is handed to the demo technicians, so a
 # technician who signs in sees a day's round at once.
 ASSIGN_AHEAD_DAYS = 10
+# Each technician's round today carries these, on up to ROUND_UNITS units with preheat on their sites: the
+# freeze-protection test, the outdoor-air check, the filter banks (airflow asked) and the coil balance.
+ROUND_TASKS = ("preheater_freeze", "ventilation_check", "filter_check", "coil_clean")
+ROUND_UNITS = 2
+# Completed visits older than this are verified by the supervisor, so the history shows both states.
+VERIFY_AFTER_DAYS = 60
 MEASURED_DAYS, FORECAST_DAYS = 30, 14
 
 
@@ -36,11 +49,15 @@ def demo_load(*, today: dt.date | None = None) -> dict[str, Any]:
     for organisation in registry["organisations"].values():
         if not organisation.sites.exists():
             continue
-        summary["history"][organisation.slug] = demo_history_load(organisation=organisation, today=today)
+        # Seasons first: the history tests freeze protection for the season freeze readiness judges today.
         for site in organisation.sites.all():
             _outdoor_temperatures(site=site, today=today)
+            site_seasons_refresh(site=site, today=today, fetch=False)
+        summary["history"][organisation.slug] = demo_history_load(organisation=organisation, today=today)
         summary["generated"][organisation.slug] = demo_schedule_load(organisation=organisation, today=today)
         summary["assigned"] += _assign_upcoming(organisation=organisation, today=today)
+        summary["assigned"] += _round_today(organisation=organisation, today=today)
+        summary["verified"] = summary.get("verified", 0) + _verify_history(organisation=organisation, today=today)
     return summary
 
 
@@ -64,6 +81,94 @@ def _outdoor_temperatures(*, site, today: dt.date) -> None:
     outdoor_temperatures_store(site=site, days=forecast, source="forecast")
 
 
+def _technicians(*, organisation) -> list:
+    return [
+        m.user
+        for m in Membership.objects.filter(organisation=organisation, role=Role.TECHNICIAN)
+        .select_related("user")
+        .order_by("user__username")
+    ]
+
+
+def _supervisor(*, organisation):
+    ms = Membership.objects.filter(organisation=organisation, role=Role.SUPERVISOR).select_related("user").first()
+    return None if ms is None else ms.user
+
+
+def _site_owners(*, organisation, technicians: list) -> dict[int, Any]:
+    """One technician per site, in turn by the sites' order of creation."""
+    site_ids = sorted(organisation.sites.values_list("pk", flat=True))
+    return {site_id: technicians[n % len(technicians)] for n, site_id in enumerate(site_ids)}
+
+
+@transaction.atomic
+def _round_today(*, organisation, today: dt.date) -> int:
+    """Give each technician today a visit carrying ROUND_TASKS on up to ROUND_UNITS units with preheat.
+
+    The units are the technician's in-service units with an electric preheater or a preheat coil, by
+    site, building and tag. Each gets one open round visit (made once, kept while open), assigned to the
+    technician and scheduled for the site's today through the work-order services; a rerun the same day
+    changes nothing, a rerun on a later day moves the still-open visit to that day.
+    """
+    technicians, supervisor = _technicians(organisation=organisation), _supervisor(organisation=organisation)
+    if not technicians or supervisor is None:
+        return 0
+    owner = _site_owners(organisation=organisation, technicians=technicians)
+    protected = (
+        AHU.objects.filter(building__site__organisation=organisation, status=AHU.Status.IN_SERVICE)
+        .filter(
+            Q(components__kind=ComponentKind.ELECTRIC_PREHEATER)
+            | Q(components__kind=ComponentKind.COIL, components__specs__duty="preheat")
+        )
+        .distinct()
+        .select_related("building__site")
+        .order_by("building__site__code", "building__code", "tag")
+    )
+    chosen: dict[int, list[AHU]] = {}
+    for ahu in protected:
+        tech = owner[ahu.building.site_id]
+        if len(chosen.setdefault(tech.pk, [])) < ROUND_UNITS:
+            chosen[tech.pk].append(ahu)
+    count = 0
+    for tech in technicians:
+        for ahu in chosen.get(tech.pk, []):
+            day = max(today, site_today(site=ahu.building.site))
+            # A task the technician already has on this unit by then (the retest of a failed freeze test)
+            # is not asked twice.
+            held = set(
+                WorkOrder.objects.filter(ahu=ahu, assignee=tech, state__in=WorkOrder.OPEN_STATES, due_date__lte=day)
+                .exclude(source_ref=ROUND_REF)
+                .values_list("tasks__task_code", flat=True)
+            )
+            codes = [c for c in ROUND_TASKS if c not in held]
+            wo, _ = demo_round_visit(ahu=ahu, codes=codes, due=day)
+            if wo.assignee_id != tech.pk:
+                wo = work_order_assign(work_order=wo, assignee=tech, by=supervisor)
+                count += 1
+            if wo.scheduled_for != day:
+                work_order_schedule(work_order=wo, day=day, by=supervisor)
+    return count
+
+
+@transaction.atomic
+def _verify_history(*, organisation, today: dt.date) -> int:
+    """The supervisor verifies the completed preventive visits older than VERIFY_AFTER_DAYS (idempotent)."""
+    supervisor = _supervisor(organisation=organisation)
+    if supervisor is None:
+        return 0
+    done = WorkOrder.objects.filter(
+        organisation=organisation,
+        kind=WorkOrder.Kind.PREVENTIVE,
+        state=WorkOrder.State.COMPLETED,
+        due_date__lt=today - dt.timedelta(days=VERIFY_AFTER_DAYS),
+    ).order_by("due_date", "id")
+    count = 0
+    for wo in done:
+        work_order_verify(work_order=wo, by=supervisor)
+        count += 1
+    return count
+
+
 @transaction.atomic
 def _assign_upcoming(*, organisation, today: dt.date) -> int:
     """Give unassigned work due soon to the organisation's technicians, one site per technician."""
@@ -78,8 +183,7 @@ def _assign_upcoming(*, organisation, today: dt.date) -> int:
     )
     if not technicians or supervisor is None:
         return 0
-    site_ids = sorted(organisation.sites.values_list("pk", flat=True))
-    owner = {site_id: technicians[n % len(technicians)] for n, site_id in enumerate(site_ids)}
+    owner = _site_owners(organisation=organisation, technicians=technicians)
     open_orders = (
         WorkOrder.objects.filter(
             organisation=organisation,

@@ -24,11 +24,15 @@ from scheduling.services import task_library_install
 from scheduling.services.seasons import season_key
 from scheduling.targets import task_targets
 
+from .freeze import season_window
 from .services.sync import inspection_submit
 
 NAMESPACE = uuid.UUID("6f1d1c52-2a55-4d0e-9a57-0c3b1d7e5a10")
 HOURS_PER_DAY = 14.0  # offices: about 14 h/day, seven days of weekday-plus-weekend running averaged (invented)
 VISIT_DAYS = 30
+# Units whose latest freeze-protection test fails (site code, unit tag): "stage_late" = stage 1 of the
+# electric preheater switched on 4.5 K below its set point. The demo's one unit "not ready" for winter.
+FREEZE_FAULTS = {("elderbank", "AHU-L1"): "stage_late"}
 
 
 def _signature_png(name: str) -> str:
@@ -100,6 +104,31 @@ def _freeze_starts(site, first: dt.date, last: dt.date) -> list[dt.date]:
         search = start + dt.timedelta(days=200)
 
 
+def _freeze_visits(*, site, today: dt.date, months: int) -> dict[dt.date, str]:
+    """The visits that test the preheat and freeze protection, each with the season key it proves.
+
+    One visit before each earlier freeze season by the site's normals (the last within a month of its
+    start); and for the season freeze readiness judges today (``inspections.freeze.season_window``, from the
+    site's stored season start) the latest visit in its window up to that start, so the demo's units are
+    ready, or not ready for a reason, whatever the date it is loaded on.
+    """
+    visits = [today - dt.timedelta(days=VISIT_DAYS * m) for m in range(months, 0, -1)]
+    first = visits[0] if visits else today
+    judged, opens = season_window(site=site, today=today)
+    out: dict[dt.date, str] = {}
+    for start in _freeze_starts(site, first, today):
+        before = [d for d in visits if start - dt.timedelta(days=VISIT_DAYS) <= d < start]
+        if opens is not None:
+            before = [d for d in before if d < opens]  # the judged season's test is chosen below
+        for d in before[-1:]:
+            out[d] = season_key(season="freeze", start=start, latitude=site.latitude)
+    if judged is not None and opens is not None:
+        window = [d for d in visits if opens <= d <= judged]
+        for d in window[-1:]:
+            out[d] = season_key(season="freeze", start=judged, latitude=site.latitude)
+    return out
+
+
 def _outdoor_c(site, when: dt.date, rng: random.Random) -> float:
     m = when.month - 1
     return round((site.normals_min_c[m] + site.normals_max_c[m]) / 2 + rng.uniform(-3, 3), 1)
@@ -147,12 +176,7 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
         if protected:
             freeze_task = TaskDefinition.objects.get(organisation=None, code="preheater_freeze")
             freeze_targets = task_targets(task=freeze_task, ahu=ahu, components=ahu.components.all())
-            first = today - dt.timedelta(days=VISIT_DAYS * months)
-            for start in _freeze_starts(site, first, today):
-                before = [today - dt.timedelta(days=VISIT_DAYS * m) for m in range(months, 0, -1)]
-                before = [d for d in before if start - dt.timedelta(days=VISIT_DAYS) <= d < start]
-                for d in before[-1:]:
-                    freeze_visits[d] = season_key(season="freeze", start=start, latitude=site.latitude)
+            freeze_visits = _freeze_visits(site=site, today=today, months=months)
         loading = {b.pk: rng.uniform(0.0, 0.3) for b in banks}
         rate = {b.pk: rng.uniform(0.00015, 0.00030) for b in banks}  # fraction of span per run-hour
         hours = 5_000.0 + 1_000 * unit_no
@@ -250,13 +274,18 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                         {"item": "damper_actuator.linkage", "component": d.label_code, "value": "ok"},
                     ]
             if "preheater_freeze" in codes:
+                # The unit's latest test fails where the demo says so: stage 1 came on far too late.
+                late = FREEZE_FAULTS.get((site.code, ahu.tag)) == "stage_late" and due == max(freeze_visits)
                 for heater in preheaters:
                     switch_on = heater.specs.get("switch_on_c", site.preheat_threshold_c)
                     readings += [
                         {
                             "item": "preheater_freeze.stage_on_temp",
                             "component": heater.label_code,
-                            "value": round(switch_on + rng.uniform(-0.5, 0.5), 1),
+                            "value": round(switch_on - 4.5 if late else switch_on + rng.uniform(-0.5, 0.5), 1),
+                            "note": "stage 1 came on only well below its set point: controller offset suspected"
+                            if late
+                            else "",
                         },
                         {"item": "preheater_freeze.stages", "component": heater.label_code, "value": "ok"},
                         {"item": "preheater_freeze.airflow_interlock", "component": heater.label_code, "value": "ok"},

@@ -1,11 +1,19 @@
-"""Demo schedule: the library and generated work for the demo organisation."""
+"""Demo schedule: the library and generated work for the demo organisation, and the demo's round of the day."""
 
 from __future__ import annotations
 
 import datetime as dt
 
+from django.db import transaction
+
 from .engine import GenerationResult, work_orders_generate
+from .models import WorkOrder, WorkOrderTask, overdue_day
+from .selectors import effective_tasks
 from .services import site_seasons_refresh, task_library_install
+from .targets import task_targets
+
+# What marks the demo's round visit (source_ref), so a rerun finds it instead of making another.
+ROUND_REF = "demo:round"
 
 
 def demo_schedule_load(*, organisation, today: dt.date | None = None) -> GenerationResult:
@@ -17,3 +25,48 @@ def demo_schedule_load(*, organisation, today: dt.date | None = None) -> Generat
     for site in organisation.sites.all():
         site_seasons_refresh(site=site, today=today, fetch=False)
     return work_orders_generate(organisation=organisation, today=today)
+
+
+@transaction.atomic
+def demo_round_visit(*, ahu, codes: list[str], due: dt.date) -> tuple[WorkOrder, bool]:
+    """The unit's open demo round visit carrying the library tasks ``codes``, or a new planned one due ``due``.
+
+    The tasks are the organisation's own (library rows overridden by its rows), on the parts the engine
+    would pick (``task_targets``), so the checklist is the one a generated visit would have. Returns
+    (work order, created?). Assigning and scheduling it is left to the work-order services.
+    """
+    existing = (
+        WorkOrder.objects.filter(ahu=ahu, source_ref=ROUND_REF, state__in=WorkOrder.OPEN_STATES).order_by("-id").first()
+    )
+    if existing is not None:
+        return existing, False
+    organisation = ahu.building.site.organisation
+    tasks = effective_tasks(organisation=organisation)
+    chosen = [tasks[c] for c in codes if c in tasks]
+    wo = WorkOrder(
+        organisation=organisation,
+        ahu=ahu,
+        kind=WorkOrder.Kind.PREVENTIVE,
+        title=f"Preventive maintenance: {', '.join(sorted(t.name for t in chosen))}"[:200],
+        due_date=due,
+        overdue_on=overdue_day(due, min((t.grace_days for t in chosen), default=0)),
+        source_ref=ROUND_REF,
+    )
+    wo.full_clean()
+    wo.save()
+    components = list(ahu.components.all())
+    WorkOrderTask.objects.bulk_create(
+        WorkOrderTask(
+            work_order=wo,
+            task=task,
+            task_code=task.code,
+            ahu=ahu,
+            component=target,
+            component_key=target.pk if target else 0,
+            due_date=due,
+            occurrence_key=f"{ROUND_REF}:{wo.public_id.hex[:12]}",
+        )
+        for task in chosen
+        for target in task_targets(task=task, ahu=ahu, components=components)
+    )
+    return wo, True

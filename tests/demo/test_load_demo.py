@@ -1,68 +1,161 @@
-"""The whole demo: registry, a year of history, the schedule and today's round."""
+"""The whole demo: registry, a year of history, the schedule and today's round, on a controlled clock.
+
+The demo is loaded relative to its ``today``; every test here fixes the clock (a late-October day inside
+the run-up to the freeze season, a July day far from it, a December day inside it), so the demo must walk
+the same scenarios whatever the season.
+"""
 
 import datetime as dt
+import re
 
 import pytest
+import time_machine
 from django.core.management import call_command
-from django.utils import timezone
+from django.urls import reverse
 
 from accounts.models import User
-from inspections.models import Inspection
-from scheduling.models import WorkOrder
+from frontend.demo import ROUND_TASKS, demo_load
+from inspections.freeze import NOT_READY, READY, freeze_readiness
+from inspections.models import Finding, Inspection
+from inventory.models import AHU, Site
+from scheduling.models import WorkOrder, WorkOrderTask
 from scheduling.selectors import person_today, today_visits_for
+
+OCTOBER, JULY, DECEMBER = dt.date(2026, 10, 24), dt.date(2026, 7, 15), dt.date(2026, 12, 2)
+FAILING = ("elderbank", "AHU-L1")  # inspections.demo.FREEZE_FAULTS
+
+
+def _at(day: dt.date):
+    """The clock at 10:00 UTC of ``day`` (noon in the demo sites' zone), standing still."""
+    return time_machine.travel(dt.datetime(day.year, day.month, day.day, 10, tzinfo=dt.UTC), tick=False)
 
 
 @pytest.fixture
 def loaded(db, capsys):
-    call_command("load_demo")
-    return capsys.readouterr().out
+    with _at(DECEMBER):
+        call_command("load_demo")
+        yield capsys.readouterr().out
+
+
+def _today_codes(username: str) -> set[str]:
+    tech = User.objects.get(username=username)
+    visits = today_visits_for(technician=tech, day=person_today(user=tech))
+    return {t.task_code for v in visits for wo in v.work_orders for t in wo.tasks.all()}
 
 
 def test_demo_has_a_year_of_history_and_upcoming_work(loaded):
-    """After load_demo there are completed visits over twelve months and planned work ahead."""
-    today = timezone.localdate()
+    """After load_demo there are completed and verified visits over twelve months and planned work ahead."""
     done = WorkOrder.objects.filter(state__in=["completed", "verified"])
     assert done.count() >= 100
     oldest = min(done.values_list("due_date", flat=True))
-    assert (today - oldest).days >= 330
+    assert (DECEMBER - oldest).days >= 330
     assert Inspection.objects.count() >= 100
-    assert WorkOrder.objects.filter(due_date__gte=today, state__in=["planned", "assigned"]).exists()
+    assert WorkOrder.objects.filter(due_date__gte=DECEMBER, state__in=["planned", "assigned"]).exists()
     assert "plenum-demo-1" in loaded and "helena.pm" in loaded
 
 
-def test_a_demo_technician_has_a_round_today(loaded):
-    """Each demo technician signs in to visits for today (the day their today page shows)."""
-    for username in ("ines.tech", "tomas.tech"):
-        tech = User.objects.get(username=username)
-        assert today_visits_for(technician=tech, day=person_today(user=tech)), username
+def test_history_holds_verified_and_completed_visits_with_their_signed_records(loaded, client):
+    """Older visits are verified by the supervisor, the latest ones only completed; both keep a signed record."""
+    verified = WorkOrder.objects.filter(state="verified", kind="preventive")
+    completed = WorkOrder.objects.filter(state="completed", kind="preventive")
+    assert verified.exists() and completed.exists()
+    assert max(completed.values_list("due_date", flat=True)) > max(verified.values_list("due_date", flat=True))
+    for wo in (verified.order_by("due_date").first(), completed.order_by("-due_date").first()):
+        inspection = Inspection.objects.get(work_order=wo)
+        assert inspection.signature_name and inspection.signature_image, wo
 
 
 def test_second_run_changes_nothing(loaded, capsys):
-    """Running load_demo again creates no records and prints the same logins."""
-    counts = (WorkOrder.objects.count(), Inspection.objects.count())
-    call_command("load_demo")
+    """Running load_demo again the same day creates no records and prints the same logins."""
+    counts = (WorkOrder.objects.count(), WorkOrderTask.objects.count(), Inspection.objects.count())
+    findings = list(Finding.objects.order_by("pk").values_list("pk", "times_seen", "state"))
+    with _at(DECEMBER):
+        call_command("load_demo")
     second = capsys.readouterr().out
-    assert (WorkOrder.objects.count(), Inspection.objects.count()) == counts
+    assert (WorkOrder.objects.count(), WorkOrderTask.objects.count(), Inspection.objects.count()) == counts
+    assert list(Finding.objects.order_by("pk").values_list("pk", "times_seen", "state")) == findings
     assert "0 record(s) created or changed" in second
+    assert "Assigned 0 upcoming" in second
     assert loaded.splitlines()[-8:] == second.splitlines()[-8:]
 
 
-def test_demo_preheaters_were_proven_before_this_freeze_season(loaded):
-    """Every demo unit with a preheater or preheat coil had its freeze protection proven before the season began."""
-    from inventory.models import Site
-    from reports.compliance import FREEZE_READY, compliance_figures
+@pytest.mark.django_db
+@pytest.mark.parametrize("day", [OCTOBER, JULY], ids=["late-october", "july"])
+def test_the_demo_walks_every_scenario_whatever_the_season(day, client):
+    """On a late-October day and a July day alike:
 
-    now = timezone.now()
-    today = timezone.localdate()
-    figures = compliance_figures(
-        site_ids=list(Site.objects.values_list("pk", flat=True)),
-        start=today - dt.timedelta(days=365),
-        end=today,
-        as_of=now,
-    )
-    assert figures.freeze, "the demo has preheat to prove"
-    proven = WorkOrder.objects.filter(tasks__task_code="preheater_freeze", state__in=["completed", "verified"])
-    assert proven.exists()
-    for row in figures.freeze:
-        if row["season_start"] <= today:
-            assert row["status"] == FREEZE_READY, row
+    - each technician's today carries a freeze-protection test, an outdoor-air check, a filter check and
+      a coil check (with the coil balance readings asked);
+    - the property manager's dashboard and site page show the one failing unit not ready, with the step
+      that failed and its corrective work, and every other unit with preheat ready;
+    - each recirculating unit whose ventilation need is above its design minimum has one open
+      design-review finding seen on more than one visit, and no corrective work for it.
+    """
+    with _at(day):
+        demo_load(today=day)
+
+        for username in ("ines.tech", "tomas.tech"):
+            assert set(ROUND_TASKS) <= _today_codes(username), username
+
+        units = list(AHU.objects.select_related("building__site"))
+        readiness = freeze_readiness(units=units, as_of=dt.datetime(day.year, day.month, day.day, 10, tzinfo=dt.UTC))
+        by_unit = {(r.unit.building.site.code, r.unit.tag): r for r in readiness}
+        assert by_unit[FAILING].status == NOT_READY
+        assert "stage 1 switched on" in by_unit[FAILING].reason and "corrective work" in by_unit[FAILING].reason
+        assert {k: r.status for k, r in by_unit.items() if k != FAILING} == {k: READY for k in by_unit if k != FAILING}
+
+        client.force_login(User.objects.get(username="helena.pm"))
+        page = client.get(reverse("frontend:dashboard")).content.decode()
+        visible = Site.objects.filter(code__in=["gullwharf", "elderbank"]).values_list("pk", flat=True)
+        ready_units = sum(1 for (code, _), r in by_unit.items() if code in {"gullwharf", "elderbank"})
+        assert f"{ready_units - 1} of {ready_units}" in re.sub(r"\s+", " ", page)
+        assert "stage 1 switched on" in page
+        elderbank = Site.objects.get(code="elderbank")
+        assert elderbank.pk in visible
+        site_page = client.get(reverse("frontend:dashboard_site", args=[elderbank.pk])).content.decode()
+        assert site_page.count('data-freeze="not_ready"') == 1
+        assert 'data-freeze="ready"' in site_page
+        assert "AHU-L1: <strong>Not ready</strong>" in site_page
+
+        # AHU-L1's reading rooms need about 1.36 m³/s of outdoor air by ASHRAE 62.1 (library, 1,600 m², 160
+        # people), above its design minimum 35 % × 2.4 m³/s = 0.84 m³/s: one design review, seen monthly.
+        l1 = next(a for a in units if (a.building.site.code, a.tag) == FAILING)
+        review = Finding.objects.get(ahu=l1, kind=Finding.Kind.DESIGN_REVIEW, state=Finding.State.OPEN)
+        assert review.times_seen > 1 and review.corrective_work_order_id is None
+        for ahu in units:  # never a pile of repeats: one open design review per unit and problem at most
+            open_reviews = Finding.objects.filter(ahu=ahu, kind=Finding.Kind.DESIGN_REVIEW, state=Finding.State.OPEN)
+            assert open_reviews.count() <= 1, ahu
+
+
+@pytest.mark.django_db
+def test_the_round_asks_the_readings_of_each_scenario():
+    """The round's checklists ask the supply airflow beside the filter reading (the 0.8 m³/s unit among
+    them), the coil balance on a hot-water and a glycol coil, and no return or mixed air of a 100 %
+    outdoor-air unit; one demo technician reads in US units."""
+    from inspections.selectors import checklist_for
+
+    with _at(OCTOBER):
+        demo_load(today=OCTOBER)
+        round_orders = WorkOrder.objects.filter(source_ref="demo:round").select_related("ahu", "assignee")
+        seen = {"airflow_08": False, "water": False, "glycol": False, "full_oa": False}
+        for wo in round_orders:
+            doc = checklist_for(work_order=wo, user=wo.assignee)
+            items = [
+                (it["key"], (it["component"] or {}).get("label_code")) for t in doc["templates"] for it in t["items"]
+            ]
+            keys = {k for k, _ in items}
+            assert "visit.supply_airflow" in keys and "filter_check.dp" in keys, wo
+            if abs(wo.ahu.design_supply_airflow_m3s - 0.8) < 1e-9:
+                seen["airflow_08"] = True
+            fluids = {c.label_code: c.specs.get("fluid") for c in wo.ahu.components.filter(kind="coil")}
+            balanced = {fluids.get(code) for k, code in items if k == "coil_clean.water_flow"}
+            asked = {k for k, code in items if code in fluids and fluids[code] in ("water", "glycol")}
+            assert {"coil_clean.air_in", "coil_clean.air_out", "coil_clean.water_in", "coil_clean.water_out"} <= asked
+            seen["water"] = seen["water"] or "water" in balanced
+            seen["glycol"] = seen["glycol"] or "glycol" in balanced
+            if wo.ahu.full_outdoor_air:
+                seen["full_oa"] = True
+                assert "ventilation_check.outdoor_air" in keys, wo
+                assert not keys & {"ventilation_check.return_air", "ventilation_check.mixed_air"}, wo
+        assert all(seen.values()), seen
+        assert User.objects.get(username="tomas.tech").unit_system == "us"
