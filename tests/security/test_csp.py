@@ -16,7 +16,7 @@ from pathlib import Path
 
 import pytest
 from django.conf import settings
-from django.test import Client
+from django.test import Client, override_settings
 
 from accounts.models import Role
 from tests.tenancy.test_matrix import CAPABILITY, FILL, _params, _url, routes
@@ -151,6 +151,15 @@ def test_error_pages_carry_the_policy(client, db):
     """A missing page (the app's own 404 handler) carries the same policy and has nothing inline."""
     response = client.get("/no-such-page-anywhere/")
     assert response.status_code == 404
+    assert _policy(response) == EXPECTED
+    assert inline_parts(response.content.decode()) == []
+
+
+@override_settings(ROOT_URLCONF="tests.security.boom_urls")
+def test_the_500_page_carries_the_policy(db):
+    """A view that fails: the app's 500 page still carries the policy and has nothing inline."""
+    response = Client(raise_request_exception=False).get("/boom/")
+    assert response.status_code == 500
     assert _policy(response) == EXPECTED
     assert inline_parts(response.content.decode()) == []
 
