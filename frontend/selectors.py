@@ -10,13 +10,14 @@ import datetime as dt
 
 from django.utils import timezone
 
-from inspections.models import Evaluation, Inspection
-from inspections.selectors import filter_series_for
+from inspections import display
+from inspections.models import Evaluation, Finding, Inspection
+from inspections.selectors import check_label, filter_series_for
 from inventory.models import Component, ComponentKind, Site
 from inventory.selectors import sites_visible_to
 from reports import compliance
 from reports.documents.inspection_report import derived_rows
-from scheduling.models import OutdoorTemperature
+from scheduling.models import OutdoorTemperature, WorkOrder
 
 SEVERITIES = compliance.SEVERITIES
 PERIOD_DAYS = 365  # the compliance report's default period: the last 12 months
@@ -195,12 +196,32 @@ def result_for_display(*, result: dict | None, system: str, labels: dict | None 
     if not result:
         return None
     shown_result = dict(result)
+    states = dict(WorkOrder.State.choices)
+    state = result.get("work_order_state")
+    shown_result["status_words"] = display.status_words(result.get("status"))
+    # A stored result already carries the state in words; a fresh answer carries its code.
+    shown_result["work_order_state_words"] = states[state].lower() if state in states else (state or "")
+    # The server's messages name the item in words; the keys of the form's fields are not shown.
+    shown_result["error_lines"] = [
+        " ".join(str(m) for m in (msgs if isinstance(msgs, list | tuple) else [msgs]))
+        for msgs in (result.get("errors") or {}).values()
+    ]
+    severities = dict(Finding.Severity.choices)
+    shown_result["findings"] = [
+        {**f, "severity_words": severities.get(f.get("severity"), "")} for f in result.get("findings") or []
+    ]
     shown_result["evaluation"] = [
         {
             **e,
-            "label": (labels or {}).get((e.get("item"), e.get("component"))),
-            "derived_display": derived_rows(e.get("derived") or {}, system),
+            "label": (labels or {}).get((e.get("item"), e.get("component"))) or _check_words(e),
+            "verdict_words": display.verdict_words(e.get("verdict")),
+            "derived_display": derived_rows(e.get("derived") or {}, system, item=e.get("item") or ""),
         }
         for e in result.get("evaluation") or []
     ]
     return shown_result
+
+
+def _check_words(evaluation: dict) -> str:
+    """A judgement's name when the form's labels do not give one (never the item's key)."""
+    return check_label(check=evaluation.get("check") or "", item="", labels={})

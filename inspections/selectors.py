@@ -532,6 +532,7 @@ def finding_shape(*, finding: Finding, unit_system: str) -> dict:
 # Plain names of the checks over several readings, for people (never the check's code).
 CHECK_LABELS = {
     "filter_loading": "Filter loading at design airflow",
+    "filter_after_change": "Filter pressure drop after change",
     "oa_fraction_temperature": "Outdoor-air fraction by temperatures",
     "oa_fraction_co2": "Outdoor-air fraction by CO2",
     "coil_balance": "Coil heat balance",

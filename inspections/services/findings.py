@@ -39,6 +39,7 @@ def freeze_season_near(*, site, on: dt.date, lead_days: int = FREEZE_LEAD_DAYS) 
 # Plain names of the problems a check or a scheduling condition stands for (titles of findings and work).
 CHECK_TITLES = {
     "filter_loading": "Filter loaded",
+    "filter_after_change": "Filter pressure drop after change outside the clean range",
     "oa_fraction_temperature": "Outdoor air below minimum",
     "oa_fraction_co2": "Outdoor air below minimum",
     "coil_balance": "Coil heat balance off",
@@ -56,6 +57,9 @@ CONDITION_TITLES = {
     "fan_not_proven": "Fan not proven",
     "freeze_protection_failed": "Freeze protection failed",
 }
+# A filter reading below its clean pressure drop is about missing or bypassed media, not loading.
+FILTER_BYPASS_TITLE = "Filter media missing, torn or bypassed"
+FILTER_CHECKS = {"filter_loading", "filter_after_change"}
 # Checks over the outdoor-air fraction: one problem however it was measured.
 OUTDOOR_AIR_CHECKS = {"oa_fraction_temperature", "oa_fraction_co2"}
 # Judgements of single checklist answers (a step of a test) rather than of a calculation.
@@ -104,6 +108,8 @@ def _title(res, condition: str, cache: dict) -> str:
     """A plain title: the problem's name, or the test and its step; then the part it concerns."""
     where = f" — {res.component.name}" if res.component is not None else ""
     words = CHECK_TITLES.get(res.check)
+    if res.check in FILTER_CHECKS and (getattr(res, "derived", None) or {}).get("media_bypass_suspected") is True:
+        words = FILTER_BYPASS_TITLE
     if words is None and res.check in STEP_CHECKS:
         found = _step_label(res.item, cache)
         if found is not None:

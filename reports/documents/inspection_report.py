@@ -14,44 +14,19 @@ from django.core.exceptions import ValidationError
 from django.db.models import Prefetch
 from django.http import Http404
 
-from inspections import checklists
-from inspections.models import Amendment, Evaluation, Inspection, Photo, Reading, Verdict
+from inspections import checklists, display
+from inspections.display import VERDICT_WORDS
+from inspections.models import Amendment, Evaluation, Inspection, Photo, Reading
 from inspections.selectors import check_label, findings_seen_on, item_labels, reason_for, work_orders_visible_to
 from reports.rendering import html_render, stored_file_data_uri
 from scheduling.models import WorkOrder, WorkOrderTask
 
 from . import Built, Prepared
-from .common import shown, unit_system
+from .common import unit_system
 
 CHECK_VALUES = {"ok": "OK", "not_ok": "Not OK", "na": "N/A"}
-VERDICTS = dict(Verdict.choices)
-# Names for the derived values the evaluation stores; keys name their SI unit.
-DERIVED_NAMES = {
-    "dp_pa": "measured pressure drop",
-    "corrected_dp_pa": "pressure drop at design airflow",
-    "clean_dp_pa": "clean pressure drop",
-    "final_dp_pa": "final pressure drop",
-    "loading_pct": "loading",
-    "airflow_m3s": "airflow",
-    "design_airflow_m3s": "design airflow",
-    "airflow_source": "airflow from",
-    "forecast_change_date": "change forecast",
-    "forecast_earliest_date": "earliest",
-    "forecast_latest_date": "latest",
-    "forecast_run_hours": "forecast at run-hours",
-    "rate_pa_per_hour": "loading rate",
-    "points_used": "readings used",
-    "oa_fraction": "outdoor-air fraction",
-    "design_min_oa_fraction": "design minimum",
-    "supply_air_c": "supply air",
-    "setpoint_c": "set point",
-    "deviation_k": "deviation",
-    "static_pa": "duct static",
-    "setpoint_pa": "set point",
-    "air_side_w": "air-side heat",
-    "water_side_w": "water-side heat",
-    "difference_pct": "difference",
-}
+# Verdicts in words, as the phone and the record page say them (inspections.display).
+VERDICTS = {code: words for code, words in VERDICT_WORDS.items() if code}
 
 
 def prepare(*, user, parameters: dict, requested_at) -> Prepared:
@@ -71,42 +46,9 @@ def prepare(*, user, parameters: dict, requested_at) -> Prepared:
     )
 
 
-def derived_rows(derived: dict, system: str) -> list[tuple[str, str]]:
-    """(name, value in the reader's units) for each derived value, in a stable order."""
-    out = []
-    due_now = derived.get("forecast_at_final_now") is True
-    for key in sorted(derived):
-        value = derived[key]
-        if key in {"forecast_note"} or value is None:
-            continue
-        if key == "forecast_at_final_now":
-            if due_now:
-                out.append(("change forecast", "now: at or over its final pressure drop"))
-            continue
-        if due_now and key in {"forecast_change_date", "forecast_earliest_date", "forecast_latest_date"}:
-            continue  # the filter is due now: no date (it would be the last reading's)
-        name = DERIVED_NAMES.get(key, key.replace("_", " "))
-        if isinstance(value, bool) or not isinstance(value, int | float):
-            out.append((name, str(value)))
-        elif key == "rate_pa_per_hour":
-            out.append((name, shown(value, "pressure", system, decimals=4 if system == "us" else 3) + "/h"))
-        elif key.endswith("oa_fraction"):
-            out.append((name, f"{value * 100:.0f} %"))
-        elif key.endswith("_pct"):
-            out.append((name, f"{value:.1f} %"))
-        elif key.endswith("_pa"):
-            out.append((name, shown(value, "pressure", system)))
-        elif key.endswith("_c"):
-            out.append((name, shown(value, "temperature", system)))
-        elif key.endswith("_k"):
-            out.append((name, shown(value, "temperature_difference", system)))
-        elif key.endswith("_w"):
-            out.append((name, shown(value, "heat_rate", system)))
-        elif key.endswith("_m3s"):
-            out.append((name, shown(value, "water_flow" if "water" in key else "airflow", system)))
-        else:
-            out.append((name, f"{value:g}"))
-    return out
+def derived_rows(derived: dict, system: str, *, item: str = "") -> list[tuple[str, str]]:
+    """(label, value in the reader's units) of each derived value a person reads (inspections.display)."""
+    return display.derived_rows(derived, system, item=item)
 
 
 def reading_value(reading: Reading, system: str) -> str:
@@ -204,7 +146,7 @@ def visit_records(
                         "verdict": VERDICTS.get(e.verdict, e.verdict),
                         "check": check_label(check=e.check_name, item=e.item_key, labels=labels),
                         "reason": reason_for(evaluation=e, unit_system=system),
-                        "derived": derived_rows(e.derived or {}, system),
+                        "derived": derived_rows(e.derived or {}, system, item=e.item_key),
                     }
                     for e in insp.evaluations.all()
                 ],

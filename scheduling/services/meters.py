@@ -109,9 +109,9 @@ def meter_reading_check(
                 {
                     "hours": [
                         ValidationError(
-                            f"hours={hours:g} is below the previous reading of {prev.hours:g} h taken "
-                            f"{prev.taken_at:%Y-%m-%d %H:%M}; a meter does not run backwards — mark it as a meter "
-                            "replacement/reset (is_reset) if the meter was changed",
+                            f"{what} {_hours_text(hours)} is below the previous reading of "
+                            f"{_hours_text(prev.hours)} taken {_local_text(ahu=ahu, at=prev.taken_at)}; a meter does "
+                            f"not run backwards — if the meter was replaced, {if_replaced}",
                             code="meter_backwards",
                         )
                     ]
@@ -142,8 +142,8 @@ def meter_reading_check(
                 {
                     "hours": [
                         ValidationError(
-                            f"hours={hours:g} is above the later reading of {nxt.hours:g} h "
-                            f"taken {nxt.taken_at:%Y-%m-%d %H:%M}",
+                            f"{what} {_hours_text(hours)} is above the later reading of {_hours_text(nxt.hours)} "
+                            f"taken {_local_text(ahu=ahu, at=nxt.taken_at)}",
                             code="meter_backwards",
                         )
                     ]

@@ -21,7 +21,8 @@ def test_meter_reading_below_the_last_one_is_refused():
     with pytest.raises(ValidationError) as exc:
         meter_reading_record(ahu=ahu, hours=5100, taken_at=T0 + dt.timedelta(days=3), source="manual")
     message = exc.value.message_dict["hours"][0]
-    assert "hours=5100 is below the previous reading of 5200 h" in message and "is_reset" in message
+    assert "Run hours 5,100 h is below the previous reading of 5,200 h" in message
+    assert "meter replacement" in message and "is_reset" not in message and "hours=" not in message
     assert MeterReading.objects.count() == 1
 
 
@@ -44,7 +45,7 @@ def test_bas_csv_import_is_all_or_nothing(tmp_path):
     bad = good + f"{ahu.label_code},2025-01-30 08:00,900\n"
     path = tmp_path / "bad.csv"
     path.write_text(bad)
-    with pytest.raises(CommandError, match="row 4: hours: hours=900 is below"):
+    with pytest.raises(CommandError, match="row 4: hours: Run hours 900 h is below"):
         call_command("import_meter_readings", str(path), organisation=org.slug)
     assert MeterReading.objects.count() == 0
     path.write_text(good)

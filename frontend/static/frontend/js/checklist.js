@@ -170,25 +170,46 @@ function el(tag, attrs = {}, ...children) {
   return node;
 }
 
+// Words a person reads for the server's codes (as the server's own rendering, inspections/display.py).
+const VERDICT_WORDS = { ok: "ok", watch: "watch", fail: "fail", na: "not applicable" };
+const STATUS_WORDS = {
+  stored: "stored", flagged: "flagged for the supervisor", verified: "verified", duplicate: "already received",
+  refused: "refused: nothing was stored", error: "not stored: the server failed, try again",
+};
+const STATE_WORDS = {
+  planned: "planned", assigned: "assigned", in_progress: "in progress", completed: "completed", verified: "verified",
+  cancelled: "cancelled",
+};
+const SEVERITY_WORDS = { low: "Low", medium: "Medium", high: "High", critical: "Critical" };
+
+function labelOf(item, component) {
+  // The item's label as the form shows it (never its key).
+  for (const block of document.querySelectorAll("[data-item]")) {
+    if (block.dataset.item !== item || (block.dataset.component || null) !== (component || null)) continue;
+    const caption = block.querySelector("label, legend");
+    if (caption) return caption.textContent.replace(/\s*\(required\)\s*$/, "").trim();
+  }
+  return "Evaluation";
+}
+
 async function renderResult(box, result) {
   const section = el("section", { class: "card", "data-server-result": result.status });
   section.append(el("h2", {}, "Evaluation by the server"));
-  section.append(el("p", {}, "Status: ", el("strong", {}, result.status),
-    result.work_order_state ? ` · work order ${result.work_order_state}` : ""));
+  const state = result.work_order_state ? STATE_WORDS[result.work_order_state] || "" : "";
+  section.append(el("p", {}, "Status: ", el("strong", {}, STATUS_WORDS[result.status] || "unknown"),
+    state ? ` · work order ${state}` : ""));
   if (result.flags && result.flags.length) {
     section.append(el("p", {}, "Flagged for the supervisor:"), el("ul", {}, ...result.flags.map((f) => el("li", {}, f.reason))));
   }
   const list = el("ul", { class: "results" });
   for (const e of result.evaluation || []) {
-    // Only until the server's own rendering (in the person's units) arrives: the raw values are SI.
-    const derived = Object.entries(e.derived || {}).map(([k, v]) => `${k} = ${v}`).join("; ") + (e.derived ? " (SI)" : "");
-    list.append(el("li", {}, el("span", { class: `verdict ${e.verdict}` }, e.verdict),
-      ` ${e.item}${e.component ? ` (${e.component})` : ""}: ${e.reason}`,
-      ...(derived ? [el("br"), el("span", { class: "muted" }, derived)] : [])));
+    // The derived values wait for the server's own rendering (labelled, in the person's units).
+    list.append(el("li", {}, el("span", { class: `verdict ${e.verdict}` }, VERDICT_WORDS[e.verdict] || "recorded"),
+      ` ${labelOf(e.item, e.component)}: ${e.reason}`));
   }
   section.append(list);
   if (result.findings && result.findings.length) {
-    section.append(el("p", {}, "Findings:"), el("ul", {}, ...result.findings.map((f) => el("li", {}, `${f.severity}: ${f.title}`))));
+    section.append(el("p", {}, "Findings:"), el("ul", {}, ...result.findings.map((f) => el("li", {}, `${SEVERITY_WORDS[f.severity] || ""}: ${f.title}`))));
   }
   box.replaceChildren(section);
   await showServerResult(box);

@@ -36,6 +36,13 @@ export class EngineeringInputError extends Error {
   constructor(field, message, { low = null, high = null } = {}) { super(message); this.field = field; this.low = low; this.high = high; }
 }
 
+// An engineering refusal without its argument names ("airflow airflow_m3s=0.4 …" reads "airflow 0.4 …"),
+// as the server's inspections.display.plain_message.
+const ARGUMENT = /[A-Za-z_][A-Za-z0-9_]*(?:\[\d+\])?(?:\.[A-Za-z_][A-Za-z0-9_]*)*=/g;
+export function plainMessage(exc) {
+  return String(exc && exc.message !== undefined ? exc.message : exc).replace(ARGUMENT, "");
+}
+
 function finite(name, value, label = "") {
   if (typeof value !== "number" || !Number.isFinite(value)) {
     throw new EngineeringInputError(name, `${label ? `${label} ` : ""}${name}=${value} is not a number`);
@@ -483,7 +490,7 @@ function filterChecks(form, consumed) {
     } catch (exc) {
       if (!(exc instanceof EngineeringInputError)) throw exc;
       res.verdict = WATCH;
-      res.reason = `cannot judge the filter loading: ${exc.message}`;
+      res.reason = `cannot judge the filter loading: ${plainMessage(exc)}`;
       out.push(res);
       continue;
     }
@@ -552,7 +559,7 @@ function filterChangeChecks(form, consumed) {
     } catch (exc) {
       if (!(exc instanceof EngineeringInputError)) throw exc;
       res.verdict = WATCH;
-      res.reason = `${bank.name}: cannot judge the pressure drop after the change: ${exc.message}`;
+      res.reason = `${bank.name}: cannot judge the pressure drop after the change: ${plainMessage(exc)}`;
       out.push(res);
       continue;
     }
@@ -597,7 +604,7 @@ function oaChecks(form) {
     } catch (exc) {
       if (!(exc instanceof EngineeringInputError)) throw exc;
       res.verdict = WATCH;
-      res.reason = `outdoor-air fraction by ${method}: ${exc.message}`;
+      res.reason = `outdoor-air fraction by ${method === "co2" ? "CO2" : "temperatures"}: ${plainMessage(exc)}`;
       out.push(res);
       continue;
     }
@@ -697,7 +704,7 @@ function coilChecks(form) {
       } catch (exc) {
         if (!(exc instanceof EngineeringInputError)) throw exc;
         res.verdict = WATCH;
-        res.reason = `${coil.name}: cannot balance the coil: ${exc.message}`;
+        res.reason = `${coil.name}: cannot balance the coil: ${plainMessage(exc)}`;
         out.push(res);
         break;
       }
@@ -833,7 +840,7 @@ function heatRecoveryChecks(form) {
     } catch (exc) {
       if (!(exc instanceof EngineeringInputError)) throw exc;
       res.verdict = WATCH;
-      say(res, `${hx.name}: ${exc.message}`);
+      say(res, `${hx.name}: ${plainMessage(exc)}`);
       out.push(res);
       continue;
     }

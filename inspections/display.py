@@ -1,0 +1,237 @@
+"""What a person reads of a judgement: verdicts in words and derived values with plain labels.
+
+One place for both, used by the record page, the result of a synced form, the inspection report
+PDF and the unit history. Derived values are stored in SI with the unit in the key
+(``inspections.evaluation``); here each known key gets a label in plain words and its value in
+the reader's units (through ``inspections.reasons``, i.e. ``engineering.units``). A key without a
+label is not shown: a reader never sees a stored key. Yes/no values read as words, or not at all.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import re
+from typing import Any
+
+from engineering import units
+from engineering.ventilation import VENTILATION_SYSTEMS
+
+from . import reasons as rs
+
+# Verdicts as the phone words them (frontend/static/frontend/js/checklist.js badges).
+VERDICT_WORDS = {"ok": "ok", "watch": "watch", "fail": "fail", "na": "not applicable", "": "recorded"}
+
+
+def verdict_words(code: str | None) -> str:
+    """A verdict code in words ("na" reads "not applicable", no verdict reads "recorded")."""
+    return VERDICT_WORDS.get(code or "", "recorded")
+
+
+# A keyword argument's name followed by "=" in an engineering message ("airflow_m3s=0.4",
+# "points[2].run_hours=…"). The phone's twin strips the same (evaluate.js plainMessage).
+_ARGUMENT = re.compile(r"[A-Za-z_][A-Za-z0-9_]*(?:\[\d+\])?(?:\.[A-Za-z_][A-Za-z0-9_]*)*=")
+
+
+def plain_message(message: object) -> str:
+    """An engineering refusal without its argument names: "airflow airflow_m3s=0.4 is outside …" reads
+    "airflow 0.4 is outside …" (the label before the name already says what it is)."""
+    return _ARGUMENT.sub("", str(message))
+
+
+# key: (label, how the value reads). A quantity of engineering.units, or one of:
+# "fraction" (0–1 shown as %), "points" (0–1 shown as ± percentage points), "pct", "number",
+# "count", "date", "words" (text already in plain words), or a {code: words} map.
+_FLUIDS = {
+    "water": "water",
+    "ethylene_glycol": "ethylene glycol",
+    "propylene_glycol": "propylene glycol",
+}
+_AIRFLOW_AT = {"leaving": "the air leaving the coil", "entering": "the air entering the coil"}
+_SYSTEMS = {code: words.split(":")[0] for code, words in VENTILATION_SYSTEMS.items()}
+
+DERIVED: dict[str, tuple[str, Any]] = {
+    # filters
+    "dp_pa": ("measured pressure drop", "pressure"),
+    "corrected_dp_pa": ("pressure drop at design airflow", "pressure"),
+    "clean_dp_pa": ("clean pressure drop", "pressure"),
+    "final_dp_pa": ("final pressure drop", "pressure"),
+    "loading_pct": ("loading between clean and final", "pct"),
+    "fraction_of_clean_pct": ("share of the clean pressure drop", "pct"),
+    "airflow_m3s": ("airflow", "airflow"),
+    "design_airflow_m3s": ("design airflow", "airflow"),
+    "airflow_source": ("airflow from", "words"),
+    "forecast_change_date": ("change forecast", "date"),
+    "forecast_earliest_date": ("earliest", "date"),
+    "forecast_latest_date": ("latest", "date"),
+    "forecast_run_hours": ("forecast at run-hours", "run_hours"),
+    "rate_pa_per_hour": ("loading rate", "rate"),
+    "points_used": ("readings used", "count"),
+    "forecast_note": ("no forecast", "message"),
+    # outdoor air and ventilation requirement
+    "oa_fraction": ("outdoor-air fraction", "fraction"),
+    "uncertainty": ("uncertainty", "points"),
+    "outdoor_airflow_m3s": ("outdoor airflow", "airflow"),
+    "supply_airflow_m3s": ("supply airflow", "airflow"),
+    "design_min_oa_fraction": ("design minimum outdoor air", "fraction"),
+    "design_min_outdoor_airflow_m3s": ("design minimum outdoor airflow", "airflow"),
+    "required_outdoor_airflow_m3s": ("outdoor airflow the space needs", "airflow"),
+    "breathing_zone_outdoor_airflow_m3s": ("breathing-zone outdoor airflow", "airflow"),
+    "zone_air_distribution_effectiveness": ("air distribution effectiveness", "number"),
+    "zone_outdoor_airflow_m3s": ("zone outdoor airflow", "airflow"),
+    "ventilation_system": ("system", _SYSTEMS),
+    "occupant_diversity": ("occupant diversity", "number"),
+    "uncorrected_outdoor_airflow_m3s": ("uncorrected outdoor-air intake", "airflow"),
+    "system_ventilation_efficiency": ("system ventilation efficiency", "number"),
+    # coils
+    "air_side_w": ("air-side heat", "heat_rate"),
+    "water_side_w": ("water-side heat", "heat_rate"),
+    "difference_pct": ("difference", "pct"),
+    "airflow_at": ("air density taken at", _AIRFLOW_AT),
+    "air_density_kg_m3": ("air density", "density"),
+    "pressure_pa": ("atmospheric pressure", "absolute_pressure"),
+    "fluid": ("fluid", _FLUIDS),
+    "glycol_pct": ("glycol concentration", "pct"),
+    # controls
+    "supply_air_c": ("supply air", "temperature"),
+    "setpoint_c": ("set point", "temperature"),
+    "deviation_k": ("deviation", "temperature_difference"),
+    "static_pa": ("duct static pressure", "pressure"),
+    "setpoint_pa": ("set point", "pressure"),
+    "deviation_pct": ("deviation", "pct"),
+    "commanded_pct": ("commanded position", "pct"),
+    "measured_pct": ("measured position", "pct"),
+    "error_pct": ("position error", "pct"),
+    # heat recovery
+    "outdoor_c": ("outdoor air", "temperature"),
+    "supply_after_recovery_c": ("supply air after recovery", "temperature"),
+    "extract_c": ("extract air", "temperature"),
+    "effectiveness_pct": ("effectiveness", "pct"),
+    "uncertainty_pct": ("uncertainty", "pct_points"),
+    "design_effectiveness_pct": ("design effectiveness", "pct"),
+    "below_design_points": ("below design", "pct_points"),
+    # sensor drift: the quantity follows the sensor (see _drift_quantities)
+    "sensor": ("sensor reads", "drift_value"),
+    "reference": ("reference meter reads", "drift_value"),
+    "error": ("difference", "drift_difference"),
+    "allowed_error": ("allowed difference", "drift_difference"),
+}
+# Yes/no values: the words shown when true; false is not shown.
+DERIVED_FLAGS = {
+    "media_bypass_suspected": ("filter media", "missing, torn or bypassed suspected"),
+    "design_shortfall": ("design", "the space needs more outdoor air than the unit's design minimum"),
+    "forecast_at_final_now": ("change forecast", "now: at or over its final pressure drop"),
+}
+# The reading against its band: the reason already states the value and the band.
+DERIVED_HIDDEN = {
+    "value",
+    "ok_min",
+    "ok_max",
+    "watch_min",
+    "watch_max",
+    "plausible_min",
+    "plausible_max",
+    "physical_min",
+    "physical_max",
+}
+
+# Sensor drift readings by the sensor the item names (inspections.evaluation.DRIFT_QUANTITIES).
+_DRIFT = {
+    "co2": ("co2", "co2"),
+    "temp": ("temperature", "temperature_difference"),
+    "rh": ("relative_humidity", "relative_humidity"),
+    "pressure": ("pressure", "pressure"),
+}
+_FORECAST_DATES = {"forecast_change_date", "forecast_earliest_date", "forecast_latest_date"}
+
+
+def _date(value: str) -> str:
+    try:
+        d = dt.date.fromisoformat(str(value)[:10])
+    except ValueError:
+        return ""
+    return f"{d.day} {d:%B %Y}"
+
+
+def _quantity(value: float, quantity: str, system: str, decimals: int | None = None) -> str:
+    return rs.render([rs.q(value, quantity, decimals)], system)
+
+
+def _in_units(value: float, quantity: str, system: str, decimals: int) -> str:
+    """A value in the reader's unit at a set precision (for the few values reasons do not carry)."""
+    shown = units.to_display(value=value, quantity=quantity, system=system)
+    return f"{shown:.{decimals}f} {units.unit_label(quantity=quantity, system=system)}"
+
+
+def _shown(key: str, value: Any, how: Any, system: str, item: str) -> str:
+    if isinstance(how, dict):
+        return how.get(value, "") if isinstance(value, str) else ""
+    if how in ("words", "message"):
+        return plain_message(value) if isinstance(value, str) else ""
+    if how == "date":
+        return _date(value)
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        return ""
+    if how == "fraction":
+        return f"{value * 100:.0f} %"
+    if how == "points":
+        return f"± {value * 100:.0f} points"
+    if how == "pct":
+        return f"{value:.1f} %"
+    if how == "pct_points":
+        return f"{value:.1f} points"
+    if how in ("number", "count"):
+        return f"{value:g}"
+    if how == "rate":
+        return _in_units(value, "pressure", system, 4 if system == "us" else 3) + " per run-hour"
+    if how in ("drift_value", "drift_difference"):
+        prefix = item.rpartition(".")[2].split("_")[0]
+        quantities = _DRIFT.get(prefix)
+        if quantities is None:
+            return ""
+        return _quantity(value, quantities[0 if how == "drift_value" else 1], system)
+    if how == "density":
+        return _in_units(value, "density", system, 3)
+    return _quantity(value, how, system)
+
+
+def derived_rows(derived: dict, system: str, *, item: str = "") -> list[tuple[str, str]]:
+    """(label, value in the reader's units) for each derived value a person should read, in a stable order.
+
+    ``item`` is the judged reading's key (it says which sensor a drift check compared). Keys with no
+    label, empty values and false yes/no values are left out; a filter due now shows no forecast date.
+    """
+    out = []
+    due_now = derived.get("forecast_at_final_now") is True
+    for key in sorted(derived):
+        value = derived[key]
+        if value is None or key in DERIVED_HIDDEN:
+            continue
+        if key in DERIVED_FLAGS:
+            if value is True:
+                out.append(DERIVED_FLAGS[key])
+            continue
+        if due_now and key in _FORECAST_DATES:
+            continue  # the filter is due now: no date (it would be the last reading's)
+        if key not in DERIVED:
+            continue
+        label, how = DERIVED[key]
+        text = _shown(key, value, how, system, item)
+        if text:
+            out.append((label, text))
+    return out
+
+
+# What became of a synced form, in words (the sync answer's status, inspections.services.sync).
+STATUS_WORDS = {
+    "stored": "stored",
+    "flagged": "flagged for the supervisor",
+    "verified": "verified",
+    "duplicate": "already received",
+    "refused": "refused: nothing was stored",
+    "error": "not stored: the server failed, try again",
+}
+
+
+def status_words(status: str | None) -> str:
+    """A synced form's status in words."""
+    return STATUS_WORDS.get(status or "", "unknown")
