@@ -3,6 +3,13 @@
 The service worker's cache name carries ``VERSION`` plus a digest of the
 precached files, so any change to the shell installs a new cache and the
 old one is deleted on activate.
+
+A shared phone: the day's pages are kept in one data cache per person, named
+by ``person_key`` (a keyed digest of the user, never the id itself). The page
+tells the worker whose it is; the worker drops every other person's cache, and
+sign-out drops them all. Finished forms are not in any cache: they stay in the
+outbox (IndexedDB), each marked with the same key, and are sent only while that
+person is signed in.
 """
 
 import hashlib
@@ -14,6 +21,7 @@ from django.conf import settings
 from django.contrib.staticfiles import finders
 from django.templatetags.static import static
 from django.urls import reverse
+from django.utils.crypto import salted_hmac
 
 VERSION = "1"
 SW_TEMPLATE = Path(__file__).resolve().parent / "sw_template.js"
@@ -35,6 +43,11 @@ SHELL_STATIC = (
     "frontend/icons/maskable-192.png",
     "frontend/icons/maskable-512.png",
 )
+
+
+def person_key(*, user) -> str:
+    """The name this phone keeps a person's pages and forms under: stable per user, not guessable from the id."""
+    return salted_hmac("plenum.frontend.pwa.person", str(user.pk)).hexdigest()[:24]
 
 
 def precache_urls() -> list[str]:
@@ -68,6 +81,9 @@ def service_worker_source() -> str:
         .replace("__PRECACHE__", json.dumps(precache_urls()))
         .replace("__STATIC_PREFIX__", json.dumps(static("")))
         .replace("__OFFLINE_URL__", json.dumps(reverse("frontend:offline")))
+        .replace("__START_URLS__", json.dumps([reverse("frontend:start"), reverse("frontend:home")]))
+        .replace("__TODAY_URL__", json.dumps(reverse("frontend:today")))
+        .replace("__SIGN_OUT_URL__", json.dumps(reverse("frontend:logout")))
     )
 
 
@@ -77,7 +93,8 @@ def manifest() -> dict:
         "short_name": "Plenum",
         "description": "Air handling unit maintenance: today's visits, checklists offline, records.",
         "id": "/",
-        "start_url": reverse("frontend:home"),
+        # Not "/" (it redirects by role): opened offline, the worker answers this address from the person's saved day.
+        "start_url": reverse("frontend:start"),
         "scope": "/",
         "display": "standalone",
         "orientation": "any",

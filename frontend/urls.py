@@ -7,11 +7,13 @@ from .views import calculator, manager, records, shell, supervisor, technician
 app_name = "frontend"
 urlpatterns = [
     path("login/", auth_views.LoginView.as_view(template_name="frontend/login.html"), name="login"),
-    path("logout/", auth_views.LogoutView.as_view(), name="logout"),
+    path("logout/", shell.SignOutView.as_view(), name="logout"),
     path("sw.js", shell.service_worker, name="sw"),
     path("manifest.webmanifest", shell.manifest, name="manifest"),
     path("offline/", shell.offline, name="offline"),
     path("", shell.home, name="home"),
+    path("start/", shell.start, name="start"),
+    path("person/", shell.person, name="person"),
     # technician
     path("today/", technician.today, name="today"),
     path("u/", technician.unit_lookup, name="unit_lookup"),

@@ -6,6 +6,8 @@ from django.urls import NoReverseMatch, reverse
 from accounts.models import Role
 from accounts.selectors import primary_role
 
+from ..pwa import person_key
+
 register = template.Library()
 
 NAV_BY_ROLE = {
@@ -37,6 +39,13 @@ def plenum_role(context) -> str | None:
     """The person's strongest role (read once per request)."""
     request = context["request"]
     return _role(request) if request.user.is_authenticated else None
+
+
+@register.simple_tag(takes_context=True)
+def plenum_person(context) -> str:
+    """The key this phone keeps the signed-in person's pages and forms under ("" when nobody is signed in)."""
+    request = context["request"]
+    return person_key(user=request.user) if request.user.is_authenticated else ""
 
 
 @register.inclusion_tag("frontend/_nav.html", takes_context=True)

@@ -7,7 +7,8 @@ missing answer all leave the form in the outbox; only ``stored``, ``flagged``
 and ``duplicate`` remove it. A refused form never holds back the forms after it:
 a body refused whole (400/413) is sent again form by form, and the one the
 server refuses stays marked with its errors. Every batch carries the phone's
-clock (``sent_at``).
+clock (``sent_at``). On a shared phone only the signed-in person's forms are
+sent (each form carries its owner), and only while the session is still theirs.
 """
 
 import json
@@ -40,14 +41,20 @@ RUNNER = """
 import { syncOutbox } from "./sync.js";
 import { _stores, outboxPut } from "./outbox.js";
 
-globalThis.document = { body: { dataset: {} }, cookie: "", dispatchEvent() {} };
+const scenario = JSON.parse(process.argv[2]);
+const person = scenario.person ?? "tess";
+globalThis.document = { body: { dataset: { person, personUrl: "/person/" } }, cookie: "", dispatchEvent() {} };
 globalThis.CustomEvent = class { constructor(name) { this.name = name; } };
 Object.defineProperty(globalThis, "navigator", { value: { onLine: true }, configurable: true });
 
-const scenario = JSON.parse(process.argv[2]);
 const posts = [];
 globalThis.fetch = async (url, init) => {
   if (scenario.network_error) throw new TypeError("Failed to fetch");
+  if (url === "/person/") {
+    // Who the session is now: by default the page's own person.
+    const payload = { person: scenario.session_person ?? person };
+    return { ok: true, status: 200, statusText: "OK", json: async () => payload };
+  }
   const body = JSON.parse(init.body);
   posts.push({ sent_at: body.sent_at, forms: body.forms.map((f) => f.client_uuid) });
   if (scenario.body_refused_with) {
@@ -68,14 +75,19 @@ globalThis.fetch = async (url, init) => {
 };
 
 for (const [i, _] of scenario.answers.entries()) {
-  await outboxPut({ client_uuid: `form-${i}`, state: "waiting", form: { client_uuid: `form-${i}`, work_order: "w" } });
+  // owners[i]: whose form it is (undefined: a form saved before forms carried an owner).
+  const owner = (scenario.owners || [])[i];
+  const form = { client_uuid: `form-${i}`, work_order: "w" };
+  await outboxPut({ client_uuid: `form-${i}`, owner, state: "waiting", form });
 }
 await syncOutbox({ url: "/api/inspections/sync/" });
 console.log(JSON.stringify({
   kept: [..._stores.outbox.keys()].sort(),
   states: Object.fromEntries([..._stores.outbox.values()].map((f) => [f.client_uuid, f.state])),
   errors: Object.fromEntries([..._stores.outbox.values()].map((f) => [f.client_uuid, f.errors || null])),
-  error: _stores.meta.get("last_error") || "",
+  error: _stores.meta.get(`last_error:${person}`) || "",
+  owners: Object.fromEntries([..._stores.outbox.values()].map((f) => [f.client_uuid, f.owner ?? null])),
+  result_owners: Object.fromEntries([..._stores.results.values()].map((r) => [r.client_uuid, r.owner ?? null])),
   posts,
 }));
 """
@@ -151,3 +163,42 @@ def test_every_batch_carries_the_phones_clock(run_sync):
     res = run_sync(answers=["stored"])
     [post] = res["posts"]
     assert re.fullmatch(r"\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d\.\d{3}Z", post["sent_at"])
+
+
+def test_only_the_signed_in_persons_forms_are_sent(run_sync):
+    """A shared phone: Ann's form stays in the outbox untouched while Ben is signed in; Ben's goes, his result his."""
+    res = run_sync(answers=["stored", "stored"], owners=["ann", "ben"], person="ben")
+    assert [p["forms"] for p in res["posts"]] == [["form-1"]]
+    assert res["kept"] == ["form-0"]
+    assert res["owners"]["form-0"] == "ann"
+    assert res["states"]["form-0"] == "waiting"
+    assert res["result_owners"] == {"form-1": "ben"}
+
+
+def test_the_owner_signed_in_again_sends_their_form(run_sync):
+    """Ann signs in again on the same phone: her form waiting since her last session is sent."""
+    res = run_sync(answers=["stored"], owners=["ann"], person="ann")
+    assert [p["forms"] for p in res["posts"]] == [["form-0"]]
+    assert res["kept"] == []
+
+
+def test_nothing_is_sent_when_the_session_is_someone_else(run_sync):
+    """A page still open for Ann while Ben signed in from another window: nothing goes, the form stays Ann's."""
+    res = run_sync(answers=["stored"], owners=["ann"], person="ann", session_person="ben")
+    assert res["posts"] == []
+    assert res["kept"] == ["form-0"]
+    assert "someone else is signed in" in res["error"]
+
+
+def test_nothing_is_sent_when_nobody_is_signed_in(run_sync):
+    """No person on the page (signed out): no form is sent and none is adopted."""
+    res = run_sync(answers=["stored"], owners=["ann"], person="")
+    assert res["posts"] == []
+    assert res["kept"] == ["form-0"]
+
+
+def test_a_form_saved_before_owners_goes_to_the_first_person_signed_in(run_sync):
+    """A form from before forms carried an owner is adopted by the person signed in and sent under their session."""
+    res = run_sync(answers=["stored"], person="ann")
+    assert [p["forms"] for p in res["posts"]] == [["form-0"]]
+    assert res["result_owners"] == {"form-0": "ann"}

@@ -35,8 +35,45 @@ def test_service_worker_is_served_for_the_whole_scope(client):
 
 def test_manifest_names_the_app_and_its_icons(client):
     data = client.get("/manifest.webmanifest").json()
-    assert data["name"] == "Plenum" and data["start_url"] == "/"
+    assert data["name"] == "Plenum" and data["start_url"] == "/start/"
     assert {i["purpose"] for i in data["icons"]} == {"any", "maskable"}
+
+
+def test_start_address_opens_a_technicians_day_without_a_redirect(scenario, login, client):
+    """The installed app's start: a technician's day at once (200, its offline list too); others their home."""
+    response = login(scenario.technician).get("/start/")
+    assert response.status_code == 200
+    html = response.content.decode()
+    assert "Quarterly service" in html and 'id="offline-urls"' in html
+    assert login(scenario.supervisor).get("/start/")["Location"] == "/board/"
+    client.logout()
+    assert client.get("/start/")["Location"].startswith(reverse("frontend:login"))
+
+
+def test_person_key_names_the_session_and_differs_per_person(scenario, login, client):
+    """/person/ says whose session this is, as pages key the outbox; never the user's id, different per person."""
+    tess = login(scenario.technician).get("/person/").json()["person"]
+    assert tess and tess != str(scenario.technician.pk)
+    assert f'data-person="{tess}"' in login(scenario.technician).get("/today/").content.decode()
+    omar = login(scenario.other_technician).get("/person/").json()["person"]
+    assert omar and omar != tess
+    client.logout()
+    assert client.get("/person/").json() == {"person": ""}
+
+
+def test_sign_out_asks_the_browser_to_drop_its_page_cache_but_not_storage(scenario, login):
+    """Clear-Site-Data "cache" only: "storage" would also wipe the outbox of unsent forms."""
+    response = login(scenario.technician).post("/logout/")
+    assert response.status_code == 302
+    assert response["Clear-Site-Data"] == '"cache"'
+
+
+def test_offline_page_is_the_same_for_everyone(scenario, login):
+    """Precached by whoever is signed in when the app installs: it names nobody and carries no person key."""
+    html = login(scenario.technician).get("/offline/").content.decode()
+    assert "data-person" not in html.replace("data-person-url", "")
+    assert scenario.technician.get_full_name() not in html and "Sign out" not in html
+    assert 'href="/login/"' in html
 
 
 def test_today_lists_own_work_and_saves_it_for_offline(scenario, login):

@@ -1,6 +1,6 @@
-// App start: service worker, the outbox bar, replay on start and on reconnect, page modules.
-import { metaGet, outboxAll } from "./outbox.js";
-import { syncOutbox } from "./sync.js";
+// App start: service worker, the outbox bar, replay on start and on reconnect, page modules, sign-out.
+// A shared phone: the bar counts only the signed-in person's forms; the worker keeps only their pages.
+import { currentOwner, myMeta, myOutbox, syncOutbox } from "./sync.js";
 
 function formatTime(iso) {
   if (!iso) return "never";
@@ -11,12 +11,12 @@ function formatTime(iso) {
 export async function renderOutbox() {
   const bar = document.getElementById("outbox-status");
   if (!bar) return;
-  const items = await outboxAll();
+  const items = await myOutbox();
   const refused = items.filter((i) => i.state === "refused").length;
   bar.querySelector("[data-outbox-count]").textContent = String(items.length);
-  bar.querySelector("[data-outbox-last]").textContent = formatTime(await metaGet("last_sync"));
+  bar.querySelector("[data-outbox-last]").textContent = formatTime(await myMeta("last_sync"));
   bar.querySelector("[data-outbox-network]").textContent = navigator.onLine ? "Online" : "Offline";
-  const error = (await metaGet("last_error")) || "";
+  const error = (await myMeta("last_error")) || "";
   bar.querySelector("[data-outbox-error]").textContent =
     refused ? `${refused} form(s) need fixing` + (error ? `; ${error}` : "") : error;
   bar.dataset.count = String(items.length);
@@ -35,11 +35,44 @@ function askWorker(message) {
   }));
 }
 
+// Ask the worker, but never wait on it for long (no worker yet, or one still starting).
+async function tellWorker(message, ms = 3000) {
+  if (!("serviceWorker" in navigator)) return null;
+  const registration = await navigator.serviceWorker.getRegistration();
+  if (!registration || !registration.active) return null;
+  return Promise.race([askWorker(message), new Promise((resolve) => setTimeout(() => resolve(null), ms))]);
+}
+
+// Sign-out: try to send this person's finished forms first; if some cannot go, say so and let them choose.
+// Forms left behind stay in the outbox under their owner and go the next time that person signs in here.
+async function signOut(event) {
+  const form = event.currentTarget;
+  if (form.dataset.confirmed) return;
+  event.preventDefault();
+  let waiting = await myOutbox();
+  if (waiting.length && navigator.onLine) {
+    await syncOutbox({ includeRefused: true });
+    waiting = await myOutbox();
+  }
+  if (waiting.length) {
+    const refused = waiting.filter((i) => i.state === "refused").length;
+    const ok = window.confirm(
+      `${waiting.length} finished form(s) of yours have not reached the server yet` +
+      (refused ? ` (${refused} refused and need fixing)` : "") +
+      ". They stay on this phone, hidden from anyone else, and are sent the next time you sign in here. " +
+      "Sign out anyway? (Cancel to stay and send them.)");
+    if (!ok) return;
+  }
+  await tellWorker({ type: "sign-out" });
+  form.dataset.confirmed = "yes";
+  form.submit();
+}
+
 async function saveDayForOffline() {
   const holder = document.getElementById("offline-urls");
   if (!holder || !("serviceWorker" in navigator) || !navigator.onLine) return;
   const urls = JSON.parse(holder.textContent);
-  const result = await askWorker({ type: "save-for-offline", urls });
+  const result = await askWorker({ type: "save-for-offline", person: currentOwner(), urls });
   document.documentElement.dataset.offlineSaved = String(result.saved);
   const note = document.querySelector("[data-offline-note]");
   if (note) {
@@ -55,6 +88,9 @@ async function registerWorker() {
     await navigator.serviceWorker.register(document.body.dataset.swUrl || "/sw.js", { scope: "/" });
     await navigator.serviceWorker.ready;
     document.documentElement.dataset.sw = "ready";
+    // Whoever is signed in now (or nobody): the worker drops any other person's saved pages. The offline page is
+    // the same for everyone and says nothing of who is signed in (no data-person).
+    if ("person" in document.body.dataset) await tellWorker({ type: "person", person: currentOwner() });
     await saveDayForOffline();
   } catch (error) {
     document.documentElement.dataset.sw = "failed";
@@ -68,6 +104,7 @@ async function start() {
   window.addEventListener("offline", renderOutbox);
   const button = document.querySelector("[data-outbox-sync]");
   if (button) button.addEventListener("click", () => syncOutbox({ includeRefused: true }));
+  for (const form of document.querySelectorAll("form[data-sign-out]")) form.addEventListener("submit", signOut);
   await renderOutbox();
   if (document.querySelector("form[data-checklist]")) (await import("./checklist.js")).startChecklist();
   if (document.querySelector("form[data-calc]")) (await import("./calculator.js")).startCalculator();

@@ -2,9 +2,9 @@
 // twin of the server's evaluation), photos, signature, and the finished form into the outbox.
 import { evaluate, readingKey, reasonIn } from "./evaluate.js";
 import { plausibility } from "./limits.js";
-import { newUuid, outboxAll, outboxPut, resultAll } from "./outbox.js";
+import { newUuid, outboxPut } from "./outbox.js";
 import { attachSignature } from "./signature.js";
-import { announce, syncOutbox } from "./sync.js";
+import { announce, currentOwner, myOutbox, myResults, syncOutbox } from "./sync.js";
 import { fromDisplay } from "./units.js";
 
 const PHOTO_MAX_SIDE = 1600;
@@ -259,8 +259,9 @@ function showDone(form, results) {
 async function showState(form) {
   const box = document.querySelector("[data-local-result]");
   const wo = form.dataset.workOrder;
-  const pending = (await outboxAll()).filter((i) => i.form.work_order === wo);
-  const results = (await resultAll()).filter((r) => r.work_order === wo);
+  // Only the signed-in person's forms and results: another person's work on this phone stays out of sight.
+  const pending = (await myOutbox()).filter((i) => i.form.work_order === wo);
+  const results = (await myResults()).filter((r) => r.work_order === wo);
   results.sort((a, b) => (a.received_at < b.received_at ? 1 : -1));
   showDone(form, pending.length ? [] : results);
   if (pending.length) {
@@ -300,7 +301,9 @@ export function startChecklist() {
     button.disabled = true;
     try {
       const payload = await collect(form, pad);
-      await outboxPut({ client_uuid: payload.client_uuid, state: "waiting", form: payload, saved_at: payload.finished_at });
+      await outboxPut({
+        client_uuid: payload.client_uuid, owner: currentOwner(), state: "waiting", form: payload, saved_at: payload.finished_at,
+      });
       form.dataset.clientUuid = newUuid();
       announce();
       await syncOutbox();

@@ -2,7 +2,9 @@
 // Form by form (inspections/SYNC.md): the server answers one result per form; a refused form stays here with its
 // errors for the technician to fix, and never holds back the forms after it. The phone sends its own clock
 // ("sent_at") so the server can place the visit on its timeline when the phone's clock is off.
-import { metaSet, outboxAll, outboxDelete, outboxPut, resultPut } from "./outbox.js";
+// A shared phone: every form and result carries its owner (the page's data-person key); only the person signed in
+// now sees and sends their own, so a form is only ever sent under the session of the person who signed it.
+import { metaGet, metaSet, outboxAll, outboxDelete, outboxPut, resultAll, resultPut } from "./outbox.js";
 
 const BATCH = 50;
 let running = null;
@@ -11,6 +13,32 @@ function csrfToken() {
   const match = document.cookie.match(/(?:^|;\s*)csrftoken=([^;]+)/);
   return match ? decodeURIComponent(match[1]) : "";
 }
+
+// Whose forms these pages may show and send: the signed-in person's key ("" when nobody is signed in).
+export function currentOwner() {
+  return (document.body && document.body.dataset.person) || "";
+}
+
+// The signed-in person's forms. A form saved before forms carried an owner goes to the first person who signs in.
+export async function myOutbox() {
+  const owner = currentOwner();
+  if (!owner) return [];
+  const mine = [];
+  for (const item of await outboxAll()) {
+    if (!item.owner) { const adopted = { ...item, owner }; await outboxPut(adopted); mine.push(adopted); }
+    else if (item.owner === owner) mine.push(item);
+  }
+  return mine;
+}
+
+export async function myResults() {
+  const owner = currentOwner();
+  return owner ? (await resultAll()).filter((r) => r.owner === owner) : [];
+}
+
+// The last sync's time and trouble, kept per person.
+export const myMeta = (key) => metaGet(`${key}:${currentOwner()}`);
+const setMyMeta = (key, value) => metaSet(`${key}:${currentOwner()}`, value);
 
 export function announce() {
   document.dispatchEvent(new CustomEvent("plenum:outbox"));
@@ -77,31 +105,44 @@ export async function apply(item, result) {
     await outboxPut({ ...item, state: "waiting", tried_at: new Date().toISOString() });
     return false;
   }
-  await resultPut({ ...result, work_order: item.form.work_order, received_at: new Date().toISOString() });
+  await resultPut({ ...result, owner: item.owner, work_order: item.form.work_order, received_at: new Date().toISOString() });
   await outboxDelete(item.client_uuid);
   return true;
 }
 
+// The session must still be the page's person: another window may have signed out and someone else in since this
+// page loaded. Then nothing is sent; the forms wait for their owner.
+async function checkSession() {
+  const url = document.body.dataset.personUrl || "/person/";
+  const response = await fetch(url, { credentials: "same-origin", cache: "no-store", headers: { Accept: "application/json" } });
+  let body = {};
+  try { body = await response.json(); } catch (error) { /* not JSON */ }
+  if (!response.ok || body.person !== currentOwner()) {
+    throw new Error("someone else is signed in on this phone now; reload the page (your forms stay here until you sign in again)");
+  }
+}
+
 async function replay(url) {
-  const pending = (await outboxAll()).filter((item) => item.state !== "refused");
+  await checkSession();
+  const pending = (await myOutbox()).filter((item) => item.state !== "refused");
   let sent = 0;
   for (let i = 0; i < pending.length; i += BATCH) sent += await send(url, pending.slice(i, i + BATCH));
-  await metaSet("last_sync", new Date().toISOString());
-  await metaSet("last_error", "");
+  await setMyMeta("last_sync", new Date().toISOString());
+  await setMyMeta("last_error", "");
   return sent;
 }
 
 export async function syncOutbox({ url = document.body.dataset.syncUrl, includeRefused = false } = {}) {
-  if (!url || !navigator.onLine) return 0;
+  if (!url || !navigator.onLine || !currentOwner()) return 0;
   if (running) return running;
   running = (async () => {
     try {
       if (includeRefused) {
-        for (const item of await outboxAll()) if (item.state === "refused") await outboxPut({ ...item, state: "waiting" });
+        for (const item of await myOutbox()) if (item.state === "refused") await outboxPut({ ...item, state: "waiting" });
       }
       return await replay(url);
     } catch (error) {
-      await metaSet("last_error", String(error.message || error));
+      await setMyMeta("last_error", String(error.message || error));
       return 0;
     } finally {
       running = null;
