@@ -30,6 +30,18 @@ def is_manager_of(*, user: User, organisation: Organisation) -> bool:
     return user_has_role(user=user, roles={Role.SUPERVISOR, Role.ADMIN}, organisation=organisation)
 
 
+# The people who work on the plant and record what they find: forms, photos, run-hour readings.
+# Property managers only read.
+FIELD_ROLES = frozenset({Role.TECHNICIAN, Role.SUPERVISOR, Role.ADMIN})
+
+
+def does_field_work(*, user: User, organisation_id: int) -> bool:
+    """Whether the person records field work (forms, photos, meter readings) for the organisation."""
+    if not getattr(user, "is_authenticated", False):
+        return False
+    return Membership.objects.filter(user=user, organisation_id=organisation_id, role__in=FIELD_ROLES).exists()
+
+
 def technician_of(*, organisation_id: int, username: str) -> User | None:
     """The technician of the organisation with this username; None for a username nobody has and for a
     person of another organisation alike, so the answer never tells which usernames exist elsewhere."""

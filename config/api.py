@@ -53,4 +53,7 @@ def exception_handler(exc, context):
             for field, msgs in response.data.items()
         )
         response.data = error_body(detail=flat, errors=response.data)
+    elif response is not None and isinstance(response.data, dict) and set(response.data) == {"detail"}:
+        # 401, 403, 404, 405, 429...: the same shape, with the sentence DRF or the view gave.
+        response.data = error_body(detail=str(response.data["detail"]))
     return response

@@ -12,6 +12,7 @@ from scheduling.selectors import (  # noqa: F401
     board_for,
     technician_load,
     today_visits_for,
+    work_order_for,
     work_orders_managed_by,
     work_orders_visible_to,
 )
@@ -135,3 +136,10 @@ def inspections_visible_to(*, user):
     from inspections.selectors import inspections_visible_to as real
 
     return real(user=user)
+
+
+def inspection_for(*, user, pk, write: bool = False, queryset=None):
+    """inspections' access function of a stored form: Http404 when not visible, PermissionDenied to change it."""
+    from inspections.selectors import inspection_for as real
+
+    return real(user=user, pk=pk, write=write, queryset=queryset)

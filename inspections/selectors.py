@@ -5,14 +5,19 @@ from __future__ import annotations
 import datetime as dt
 from dataclasses import dataclass, field
 
+from django.core.exceptions import PermissionDenied, ValidationError
 from django.db.models import Q, QuerySet
+from django.http import Http404
 
-from accounts.models import Role, User
+from accounts.models import User
+from accounts.selectors import FIELD_ROLES
 from engineering.errors import EngineeringInputError
 from engineering.filters import FilterPoint, corrected_pressure_drop
 from inventory.models import AHU, Component
 from inventory.selectors import sites_managed_by, sites_visible_to
 from scheduling.models import WorkOrder
+from scheduling.selectors import work_order_for
+from scheduling.selectors import work_orders_visible_to as scheduling_work_orders_visible_to
 
 from . import checklists
 from .models import ChecklistItem, ChecklistTemplate, Evaluation, Finding, Inspection, Photo, Reading
@@ -27,13 +32,12 @@ CONDITION_TEMPLATES = {
     "fan_not_proven": "fan_proving",
     "freeze_protection_failed": "preheater_freeze",
 }
-SUBMITTING_ROLES = {Role.TECHNICIAN, Role.SUPERVISOR, Role.ADMIN}
+SUBMITTING_ROLES = FIELD_ROLES
 
 
 def work_orders_visible_to(*, user: User) -> QuerySet[WorkOrder]:
-    return WorkOrder.objects.filter(ahu__building__site__in=sites_visible_to(user=user)).select_related(
-        "ahu__building__site", "assignee"
-    )
+    """The one visibility rule of work orders (``scheduling.selectors.work_orders_visible_to``)."""
+    return scheduling_work_orders_visible_to(user=user)
 
 
 def work_order_for_sync(*, user: User, public_id) -> WorkOrder | None:
@@ -49,6 +53,11 @@ def work_order_for_sync(*, user: User, public_id) -> WorkOrder | None:
         .select_related("ahu__building__site", "assignee")
         .first()
     )
+
+
+def does_field_work_anywhere(*, user: User) -> bool:
+    """Whether the person sends forms and photos for any organisation (property managers only read)."""
+    return getattr(user, "is_authenticated", False) and user.memberships.filter(role__in=FIELD_ROLES).exists()
 
 
 def submission_allowed(*, user: User, work_order: WorkOrder) -> bool:
@@ -76,9 +85,27 @@ def inspection_status(*, inspection: Inspection) -> str:
 
 
 def inspections_visible_to(*, user: User) -> QuerySet[Inspection]:
+    """Inspections on the sites the person sees: the rule of their work orders, so a work order, its forms,
+    photos and reports are seen together or not at all."""
     return Inspection.objects.filter(ahu__building__site__in=sites_visible_to(user=user)).select_related(
         "ahu__building__site", "work_order", "technician"
     )
+
+
+def inspection_for(*, user: User, pk, write: bool = False, queryset: QuerySet[Inspection] | None = None) -> Inspection:
+    """THE access function of a stored form: ``Http404`` when the person may not see it, and with ``write``
+    (verify, resolve a flag) ``PermissionDenied`` unless they supervise its site. Amending has its own rule
+    (the signer too): :func:`amendment_allowed`."""
+    qs = queryset if queryset is not None else Inspection.objects.all()
+    try:
+        inspection = qs.filter(pk__in=inspections_visible_to(user=user).values("pk")).filter(pk=pk).first()
+    except (ValueError, TypeError, ValidationError):
+        inspection = None
+    if inspection is None:
+        raise Http404("No such inspection that you may see.")
+    if write and not sites_managed_by(user=user).filter(pk=inspection.ahu.building.site_id).exists():
+        raise PermissionDenied("Only a supervisor or admin of the site's organisation may do this to a signed form.")
+    return inspection
 
 
 def flagged_forms_for(*, user: User) -> QuerySet[Inspection]:
@@ -92,15 +119,55 @@ def flagged_forms_for(*, user: User) -> QuerySet[Inspection]:
 
 
 def findings_visible_to(*, user: User) -> QuerySet[Finding]:
+    """Findings on the units of the sites the person sees (the same sites as their work orders)."""
     return Finding.objects.filter(ahu__building__site__in=sites_visible_to(user=user)).select_related(
         "ahu__building__site", "component", "corrective_work_order", "inspection"
     )
 
 
+def finding_for(*, user: User, pk, write: bool = False) -> Finding:
+    """THE access function of a finding: ``Http404`` when not visible; with ``write``, ``PermissionDenied``
+    unless the person supervises its site."""
+    try:
+        finding = findings_visible_to(user=user).filter(pk=pk).first()
+    except (ValueError, TypeError, ValidationError):
+        finding = None
+    if finding is None:
+        raise Http404("No such finding that you may see.")
+    if write and not sites_managed_by(user=user).filter(pk=finding.ahu.building.site_id).exists():
+        raise PermissionDenied("Only a supervisor or admin of the site's organisation may change a finding.")
+    return finding
+
+
 def photo_visible_to(*, user: User, client_uuid) -> Photo | None:
-    return Photo.objects.filter(
-        client_uuid=client_uuid, work_order__ahu__building__site__in=sites_visible_to(user=user)
-    ).first()
+    """The photo if the person sees its work order, else None (see :func:`photo_for`)."""
+    try:
+        return Photo.objects.filter(
+            client_uuid=client_uuid, work_order__ahu__building__site__in=sites_visible_to(user=user)
+        ).first()
+    except (ValueError, ValidationError):
+        return None
+
+
+def photo_for(*, user: User, client_uuid) -> Photo:
+    """THE access function of a photo: visible exactly when its work order is; ``Http404`` otherwise."""
+    photo = photo_visible_to(user=user, client_uuid=client_uuid)
+    if photo is None:
+        raise Http404("No such photo that you may see.")
+    return photo
+
+
+def work_order_for_field_work(*, user: User, public_id) -> WorkOrder:
+    """The work order a photo or form is sent for: ``Http404`` when the sender does not work for its
+    organisation and cannot see it; ``PermissionDenied`` when they see it but only read (a property manager)."""
+    try:
+        wo = work_order_for_sync(user=user, public_id=public_id)
+    except (ValueError, ValidationError):
+        wo = None  # not a UUID: the same answer as an unknown one
+    if wo is not None:
+        return wo
+    work_order_for(user=user, public_id=public_id)  # Http404 when not visible either
+    raise PermissionDenied("Property managers read work orders; only technicians, supervisors and admins add to them.")
 
 
 # ---------------------------------------------------------------------------

@@ -1,9 +1,8 @@
 """API views of the inspections app: thin, one operation each; contract in inspections/SYNC.md."""
 
 from django.conf import settings
-from django.core.exceptions import RequestDataTooBig, ValidationError
-from django.http import FileResponse, Http404
-from django.shortcuts import get_object_or_404
+from django.core.exceptions import PermissionDenied, RequestDataTooBig, ValidationError
+from django.http import FileResponse
 from django.utils import timezone
 from drf_spectacular.utils import OpenApiParameter, OpenApiResponse, extend_schema
 from rest_framework import status
@@ -17,12 +16,13 @@ from .models import Inspection
 
 NOT_FOUND = OpenApiResponse(s.ErrorSerializer, description="Not found or not visible to you.")
 BAD = OpenApiResponse(s.ErrorSerializer, description="Bad input; errors name the field.")
+READ_ONLY = OpenApiResponse(s.ErrorSerializer, description="You may read this work but not add to it.")
 
 
 class ChecklistView(APIView):
     @extend_schema(responses={200: s.ChecklistOutputSerializer, 404: NOT_FOUND}, tags=["inspections"])
     def get(self, request, public_id):
-        wo = get_object_or_404(selectors.work_orders_visible_to(user=request.user), public_id=public_id)
+        wo = selectors.work_order_for(user=request.user, public_id=public_id)
         return Response(selectors.checklist_for(work_order=wo, user=request.user))
 
 
@@ -44,11 +44,13 @@ class SyncView(APIView):
 
     @extend_schema(
         request=s.SyncInputSerializer,
-        responses={200: s.SyncOutputSerializer, 400: BAD},
+        responses={200: s.SyncOutputSerializer, 400: BAD, 403: READ_ONLY},
         tags=["inspections"],
         description="Store finished forms once each; see inspections/SYNC.md.",
     )
     def post(self, request):
+        if not selectors.does_field_work_anywhere(user=request.user):
+            raise PermissionDenied("Property managers read inspections; only the people who do the work send forms.")
         data = s.SyncInputSerializer(data=request.data)
         data.is_valid(raise_exception=True)
         results = services.inspection_sync(
@@ -73,15 +75,19 @@ class PhotoUploadView(APIView):
 
     @extend_schema(
         request=s.PhotoUploadInputSerializer,
-        responses={200: s.PhotoOutputSerializer, 201: s.PhotoOutputSerializer, 400: BAD, 404: NOT_FOUND},
+        responses={
+            200: s.PhotoOutputSerializer,
+            201: s.PhotoOutputSerializer,
+            400: BAD,
+            403: READ_ONLY,
+            404: NOT_FOUND,
+        },
         tags=["inspections"],
     )
     def post(self, request):
         data = s.PhotoUploadInputSerializer(data=request.data)
         data.is_valid(raise_exception=True)
-        wo = selectors.work_order_for_sync(user=request.user, public_id=data.validated_data["work_order"])
-        if wo is None:
-            raise Http404("no such work order in your organisation")
+        wo = selectors.work_order_for_field_work(user=request.user, public_id=data.validated_data["work_order"])
         upload = data.validated_data["file"]
         if upload.size > settings.PLENUM_PHOTO_MAX_BYTES:
             raise ValidationError(
@@ -103,9 +109,7 @@ class PhotoFileView(APIView):
 
     @extend_schema(responses={(200, "image/*"): bytes, 404: NOT_FOUND}, tags=["inspections"])
     def get(self, request, client_uuid):
-        photo = selectors.photo_visible_to(user=request.user, client_uuid=client_uuid)
-        if photo is None:
-            raise Http404("no such photo")
+        photo = selectors.photo_for(user=request.user, client_uuid=client_uuid)
         f = photo.thumbnail if self.thumbnail else photo.image
         content_type = "image/jpeg" if self.thumbnail else photo.content_type
         name = f.name.rsplit("/", 1)[-1]
@@ -156,7 +160,7 @@ def _inspection(request, pk) -> Inspection:
         "amendments__created_by",
         "amendments__findings",
     )
-    return get_object_or_404(qs, pk=pk)
+    return selectors.inspection_for(user=request.user, pk=pk, queryset=qs)
 
 
 class InspectionDetailView(APIView):

@@ -4,8 +4,12 @@ Every view, API endpoint, report and feed gets its sites, units and
 components through these selectors, never through a bare ``objects.all()``.
 """
 
+import datetime as dt
+
+from django.conf import settings
 from django.db.models import Q, QuerySet
 from django.http import Http404
+from django.utils import timezone
 
 from accounts.models import Organisation, Role, SiteGrant, User
 
@@ -21,12 +25,25 @@ def _roles_by_org(user: User) -> dict[str, set[int]]:
     return by_role
 
 
-def sites_visible_to(*, user: User) -> QuerySet[Site]:
+def technician_site_window() -> dt.timedelta:
+    """How long finished work keeps a site visible to the technician who did it (``PLENUM_TECHNICIAN_SITE_DAYS``)."""
+    return dt.timedelta(days=settings.PLENUM_TECHNICIAN_SITE_DAYS)
+
+
+# Work-order states by their stored values: the work-order model lives above this app (scheduling), and
+# reverse lookups by name keep the import arrow pointing downwards.
+_OPEN_WORK = ("planned", "assigned", "in_progress")
+_DONE_WORK = ("completed", "verified")
+
+
+def sites_visible_to(*, user: User, now: dt.datetime | None = None) -> QuerySet[Site]:
     """Sites a person may see.
 
     - supervisor or admin: every site of their organisation;
     - property manager: only the sites granted to them, inside their organisation;
-    - technician: the sites of work assigned to them;
+    - technician: the sites where they have open work assigned, or work they finished within the last
+      ``PLENUM_TECHNICIAN_SITE_DAYS`` days; older assignments no longer grant the site. On those sites
+      they see colleagues' work too (the unit's history matters on the job);
     - nobody sees a site of an organisation they are not a member of.
     """
     if not getattr(user, "is_authenticated", False):
@@ -42,9 +59,14 @@ def sites_visible_to(*, user: User) -> QuerySet[Site]:
         )
         condition |= Q(pk__in=granted)
     if Role.TECHNICIAN in by_role:
+        since = (now or timezone.now()) - technician_site_window()
+        work = "buildings__ahus__work_orders__"
+        # Finished work counts from its last change on the server (the phone's clock is never trusted).
+        recent = Q(**{f"{work}state__in": _OPEN_WORK}) | Q(
+            **{f"{work}state__in": _DONE_WORK, f"{work}updated_at__gte": since}
+        )
         assigned = Site.objects.filter(
-            organisation_id__in=by_role[Role.TECHNICIAN],
-            buildings__ahus__work_orders__assignee=user,
+            Q(organisation_id__in=by_role[Role.TECHNICIAN], **{f"{work}assignee": user}) & recent
         ).values("pk")
         condition |= Q(pk__in=assigned)
     return Site.objects.filter(condition)

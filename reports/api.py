@@ -3,7 +3,6 @@
 Tenancy on every access: a report whose sites the person cannot all see does not exist for them (404).
 """
 
-from django.http import Http404
 from drf_spectacular.utils import OpenApiResponse, extend_schema
 from rest_framework import serializers, status
 from rest_framework.response import Response
@@ -93,7 +92,5 @@ class ReportDetailApi(APIView):
         tags=["reports"],
     )
     def get(self, request, public_id):
-        report = selectors.report_get(user=request.user, public_id=public_id)
-        if report is None:
-            raise Http404("No such report among those you may see.")
+        report = selectors.report_for(user=request.user, public_id=public_id)
         return Response(ReportOutput(report, context={"request": request}).data)

@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+from django.core.exceptions import ValidationError
+from django.http import Http404
+
 from accounts.models import User
 from inventory.selectors import sites_visible_to
 
@@ -23,6 +26,17 @@ def report_get(*, user: User, public_id) -> Report | None:
     report = Report.objects.filter(public_id=public_id).select_related("requested_by").first()
     if report is None or not report_visible(user=user, report=report):
         return None
+    return report
+
+
+def report_for(*, user: User, public_id) -> Report:
+    """THE access function of a report: ``Http404`` unless the person may see every site it covers."""
+    try:
+        report = report_get(user=user, public_id=public_id)
+    except (ValueError, ValidationError):
+        report = None
+    if report is None:
+        raise Http404("No such report among those you may see.")
     return report
 
 

@@ -1,7 +1,7 @@
 """Download of a finished report, for those who may see every site it covers."""
 
 from django.contrib.auth.decorators import login_required
-from django.http import FileResponse, Http404, HttpResponse
+from django.http import FileResponse, HttpResponse
 from django.views.decorators.http import require_GET
 
 from . import selectors
@@ -11,9 +11,7 @@ from .models import Report
 @require_GET
 @login_required
 def report_download(request, public_id):
-    report = selectors.report_get(user=request.user, public_id=public_id)
-    if report is None:
-        raise Http404("No such report among those you may see.")
+    report = selectors.report_for(user=request.user, public_id=public_id)
     if report.status != Report.Status.DONE or not report.file:
         return HttpResponse(
             f"The report is {report.get_status_display().lower()}; try again shortly.",

@@ -5,9 +5,9 @@ from __future__ import annotations
 import datetime as dt
 
 from django.conf import settings
+from django.core.exceptions import PermissionDenied as DjangoPermissionDenied
 from django.core.exceptions import ValidationError
 from django.db import transaction
-from django.http import Http404
 from django.urls import reverse
 from django.utils import timezone
 from django.utils.cache import patch_cache_control, patch_vary_headers
@@ -22,7 +22,7 @@ from rest_framework.views import APIView
 from accounts.answers import json_answer, kept
 from accounts.inputs import FieldErrors, check_number, check_reading_time, date_problem
 from accounts.models import Membership, Role
-from accounts.selectors import technician_of
+from accounts.selectors import does_field_work, technician_of
 from inventory.selectors import ahus_visible_to, sites_visible_to
 
 from . import serializers as s
@@ -35,6 +35,7 @@ from .selectors import (
     local_today,
     person_time_zone,
     today_visit_rows_for,
+    work_order_for,
     work_orders_managed_by,
     work_orders_visible_to,
 )
@@ -92,19 +93,15 @@ class WorkOrderList(APIView):
 
 
 def _visible(request, public_id) -> WorkOrder:
-    wo = work_orders_visible_to(user=request.user).filter(public_id=public_id).first()
-    if wo is None:
-        raise Http404("no such work order")
-    return wo
+    return work_order_for(user=request.user, public_id=public_id)
 
 
 def _managed(request, public_id, *, action: str) -> WorkOrder:
     """The work order if the person manages it: 404 when they cannot see it, 403 when they may only look."""
-    _visible(request, public_id)
-    wo = work_orders_managed_by(user=request.user).filter(public_id=public_id).first()
-    if wo is None:
-        raise PermissionDenied(f"only a supervisor of the organisation may {action}")
-    return wo
+    try:
+        return work_order_for(user=request.user, public_id=public_id, write=True)
+    except DjangoPermissionDenied:
+        raise PermissionDenied(f"Only a supervisor or admin of the organisation may {action}.") from None
 
 
 class WorkOrderDetail(APIView):
@@ -173,7 +170,10 @@ class WorkOrderTransition(WorkOrderChangeView):
         managed = work_orders_managed_by(user=request.user).filter(pk=wo.pk).exists()
         own = wo.assignee_id == request.user.pk and to_state in SELF_SERVICE_STATES
         if not (managed or own):
-            return Response({"detail": f"you may not move this work order to {to_state}"}, status=403)
+            raise PermissionDenied(
+                f"You may not move this work order to {to_state.replace('_', ' ')}: a technician starts and "
+                "completes their own work; anything else is for a supervisor or admin of the organisation."
+            )
         work_order_transition(
             work_order=wo,
             to_state=to_state,
@@ -375,7 +375,7 @@ class TaskOverride(APIView):
     def patch(self, request, code):
         org = _organisation_for(request.user, managing=True)
         if org is None:
-            return Response({"detail": "only a supervisor may change the rules"}, status=403)
+            raise PermissionDenied("Only a supervisor or admin of the organisation may change the maintenance rules.")
         data = s.TaskOverrideIn(data=request.data)
         data.is_valid(raise_exception=True)
         task = task_definition_override(organisation=org, code=code, by=request.user, **data.validated_data)
@@ -405,6 +405,12 @@ class MeterReadings(APIView):
         ahu = ahus_visible_to(user=request.user).filter(label_code=v["unit_label"].upper()).first()
         if ahu is None:
             raise ValidationError({"unit_label": [f"unit_label={v['unit_label']!r} is not a unit you can see"]})
+        if not does_field_work(user=request.user, organisation_id=ahu.building.site.organisation_id):
+            # A reading moves the run-hour schedule and refuses any later lower one: only people who read meters.
+            raise PermissionDenied(
+                "Only a technician, supervisor or admin of the organisation may record run-hour readings; "
+                "property managers read them."
+            )
         component = None
         if v["component_label"]:
             component = ahu.components.filter(label_code=v["component_label"].upper()).first()

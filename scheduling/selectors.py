@@ -7,8 +7,10 @@ import functools
 import zoneinfo
 from dataclasses import dataclass, field
 
+from django.core.exceptions import PermissionDenied, ValidationError
 from django.db.models import Case, CharField, Count, F, Prefetch, Q, QuerySet, Sum, Value, When, Window
 from django.db.models.functions import RowNumber
+from django.http import Http404
 from django.utils import timezone
 
 from accounts.models import Membership, Role
@@ -71,22 +73,38 @@ def _work_order_base() -> QuerySet[WorkOrder]:
 
 
 def work_orders_visible_to(*, user) -> QuerySet[WorkOrder]:
-    """Work orders a person may see: on their visible sites; a technician only their own assigned work."""
+    """Work orders a person may see: every work order on the sites they see (``sites_visible_to``).
+
+    A technician sees colleagues' work on the sites where they work: the unit's history matters on the job.
+    """
     if not getattr(user, "is_authenticated", False):
         return WorkOrder.objects.none()
-    roles: dict[int, set[str]] = {}
-    for org_id, role in Membership.objects.filter(user=user).values_list("organisation_id", "role"):
-        roles.setdefault(org_id, set()).add(role)
-    see_all = [org for org, r in roles.items() if r & {Role.SUPERVISOR, Role.ADMIN, Role.PROPERTY_MANAGER}]
-    return _work_order_base().filter(
-        Q(ahu__building__site__in=sites_visible_to(user=user)) & (Q(organisation_id__in=see_all) | Q(assignee=user))
-    )
+    return _work_order_base().filter(ahu__building__site__in=sites_visible_to(user=user))
 
 
 def work_orders_managed_by(*, user) -> QuerySet[WorkOrder]:
     """Work orders the person may assign, approve, verify and cancel (supervisor/admin of the organisation)."""
     orgs = Membership.objects.filter(user=user, role__in=[Role.SUPERVISOR, Role.ADMIN]).values("organisation_id")
     return _work_order_base().filter(organisation_id__in=orgs)
+
+
+def work_order_for(*, user, public_id, write: bool = False) -> WorkOrder:
+    """THE access function of a work order (as Zulip's ``access_message``): every page, API route, report and
+    feed that names one work order gets it here.
+
+    Raises ``Http404`` when the person may not see it (another organisation's, a site they do not see, a
+    malformed id: one answer, so ids do not leak) and, with ``write``, ``PermissionDenied`` when they may see
+    it but not change it (only a supervisor or admin of its organisation may).
+    """
+    try:
+        wo = work_orders_visible_to(user=user).filter(public_id=public_id).first()
+    except (ValueError, ValidationError):
+        wo = None
+    if wo is None:
+        raise Http404("No such work order that you may see.")
+    if write and not work_orders_managed_by(user=user).filter(pk=wo.pk).exists():
+        raise PermissionDenied("Only a supervisor or admin of the organisation may change this work order.")
+    return wo
 
 
 @dataclass

@@ -257,6 +257,9 @@ PLENUM_PHOTO_MAX_BYTES = int(os.environ.get("PLENUM_PHOTO_MAX_BYTES", str(8 * 10
 PLENUM_PHOTO_MAX_PIXELS = int(os.environ.get("PLENUM_PHOTO_MAX_PIXELS", str(40_000_000)))
 PLENUM_FORECAST_URL = os.environ.get("PLENUM_FORECAST_URL", "")
 PLENUM_PUBLIC_URL = os.environ.get("PLENUM_PUBLIC_URL", "http://127.0.0.1:8000")
+# A technician sees a site while they have open work there, and for this many days after their last
+# finished work there (the unit's history on the job); older assignments no longer grant it. inventory.selectors
+PLENUM_TECHNICIAN_SITE_DAYS = int(os.environ.get("PLENUM_TECHNICIAN_SITE_DAYS", "90"))
 # Polled API answers (today, board) kept per worker until any write moves the change stamp, and never
 # longer than this (the limit covers writes made outside Django); 0 turns the cache off. accounts/answers.py
 PLENUM_ANSWER_CACHE_SECONDS = int(os.environ.get("PLENUM_ANSWER_CACHE_SECONDS", "60"))

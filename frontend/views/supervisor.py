@@ -21,7 +21,7 @@ from inspections.selectors import reason_for
 from inventory import services as inventory_services
 from inventory.inputs import AHU_NUMBERS, ahu_number_check
 from inventory.models import AHU, Component
-from inventory.selectors import component_tree, sites_managed_by
+from inventory.selectors import ahus_visible_to, component_tree, components_visible_to, sites_managed_by
 from inventory.specs import spec_fields
 from scheduling.inputs import stored_problems
 from scheduling.models import UnitTaskSetting, WorkOrder
@@ -112,10 +112,8 @@ def board(request):
 @require_POST
 def assign(request, public_id):
     """The board's row form: a technician and the day the visit is planned for, saved together or not at all."""
-    org = _organisation(request)
-    wo = backends.work_orders_managed_by(user=request.user).filter(public_id=public_id).first()
-    if wo is None:
-        raise Http404("No such work order that you manage.")
+    wo = backends.work_order_for(user=request.user, public_id=public_id, write=True)
+    org = wo.organisation
     technician = next((t for t in _technicians(org) if str(t.pk) == request.POST.get("assignee")), None)
     back = reverse("frontend:board") + f"?week={request.POST.get('week', '')}"
     if technician is None:
@@ -160,8 +158,11 @@ def registry(request):
 
 
 def _ahu(request, pk):
+    """A unit of the registry: 404 when the person may not see it, 403 when they see it but do not manage it."""
     ahu = _managed_ahus(request).filter(pk=pk).first()
     if ahu is None:
+        if ahus_visible_to(user=request.user).filter(pk=pk).exists():
+            raise PermissionDenied("Only a supervisor or administrator of the organisation may change the registry.")
         raise Http404("No such unit that you manage.")
     return ahu
 
@@ -250,6 +251,8 @@ def unit_edit(request, pk):
 def component_edit(request, pk):
     component = Component.objects.filter(ahu__in=_managed_ahus(request), pk=pk).select_related("ahu").first()
     if component is None:
+        if components_visible_to(user=request.user).filter(pk=pk).exists():
+            raise PermissionDenied("Only a supervisor or administrator of the organisation may change the registry.")
         raise Http404("No such component that you manage.")
     system = request.user.unit_system
     errors = {}
@@ -411,9 +414,7 @@ def flagged(request):
 @require_POST
 def verify(request, public_id):
     """A supervisor verifies completed work: its latest form through inspections, else the work order itself."""
-    wo = backends.work_orders_managed_by(user=request.user).filter(public_id=public_id).first()
-    if wo is None:
-        raise Http404("No such work order that you manage.")
+    wo = backends.work_order_for(user=request.user, public_id=public_id, write=True)
     inspection = selectors.record_inspection(work_order=wo)
     try:
         if inspection is not None:

@@ -107,10 +107,7 @@ def unit(request, code: str):
 
 
 def _work_order(request, public_id):
-    wo = backends.work_orders_visible_to(user=request.user).filter(public_id=public_id).first()
-    if wo is None:
-        raise Http404("No such work order that you may see.")
-    return wo
+    return backends.work_order_for(user=request.user, public_id=public_id)
 
 
 DONE_STATES = (WorkOrder.State.COMPLETED, WorkOrder.State.VERIFIED)
@@ -178,6 +175,8 @@ def checklist(request, public_id):
     wo = _work_order(request, public_id)
     done = wo.state in DONE_STATES
     may_submit = backends.submission_allowed(user=request.user, work_order=wo)
+    if request.method == "POST" and not may_submit:
+        raise PermissionDenied("Property managers read work orders; only the people who do the work fill the form.")
     data = backends.checklist_for(user=request.user, work_order=wo)
     system = request.user.unit_system
     result = None
@@ -238,16 +237,12 @@ def amend(request, public_id):
     """An amendment to a signed form of the work order, from its record (inspections' amend service)."""
     wo = _work_order(request, public_id)
     back = redirect("frontend:checklist", public_id=wo.public_id)
-    inspection = (
-        backends.inspections_visible_to(user=request.user)
-        .filter(
-            work_order=wo,
-            pk=request.POST.get("inspection") if str(request.POST.get("inspection", "")).isdigit() else None,
-        )
-        .first()
-    )
-    if inspection is None:
+    raw = str(request.POST.get("inspection", ""))
+    if not raw.isdigit():
         raise Http404("No such signed form of this work order that you may see.")
+    inspection = backends.inspection_for(user=request.user, pk=int(raw), queryset=wo.inspections.all())
+    if not backends.amendment_allowed(user=request.user, inspection=inspection):
+        raise PermissionDenied("Only the technician who signed the form or a supervisor of the site may amend it.")
     key, _, code = request.POST.get("item", "").partition("|")
     reading = next(
         (

@@ -17,7 +17,7 @@ from django.http import Http404
 from inspections import checklists, display
 from inspections.display import VERDICT_WORDS
 from inspections.models import Amendment, Evaluation, Inspection, Photo, Reading
-from inspections.selectors import check_label, findings_seen_on, item_labels, reason_for, work_orders_visible_to
+from inspections.selectors import check_label, findings_seen_on, item_labels, reason_for, work_order_for
 from reports.rendering import html_render, stored_file_data_uri
 from scheduling.models import WorkOrder, WorkOrderTask
 
@@ -31,14 +31,12 @@ VERDICTS = {code: words for code, words in VERDICT_WORDS.items() if code}
 
 def prepare(*, user, parameters: dict, requested_at) -> Prepared:
     raw = parameters.get("work_order")
-    try:
-        wo = work_orders_visible_to(user=user).filter(public_id=str(raw)).first() if raw else None
-    except ValidationError:
-        wo = None  # not a UUID
     if raw in (None, ""):
         raise ValidationError({"work_order": "work_order: the work order's public id is required"})
-    if wo is None:
-        raise Http404(f"work_order: no work order {raw} among those you may see")
+    try:
+        wo = work_order_for(user=user, public_id=str(raw))
+    except Http404:
+        raise Http404(f"work_order: no work order {raw} among those you may see") from None
     return Prepared(
         parameters={"work_order": str(wo.public_id), "unit_system": unit_system(parameters, user)},
         site_ids=[wo.ahu.building.site_id],

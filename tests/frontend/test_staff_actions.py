@@ -74,8 +74,9 @@ def test_technician_and_manager_cannot_verify(scenario, login):
         "Verify the completed work"
         not in login(scenario.technician).get(f"/w/{scenario.work_a.public_id}/").content.decode()
     )
-    assert login(scenario.technician).post(url).status_code == 404
-    assert login(scenario.manager_a).post(url).status_code == 404
+    # They see the work order, so the refusal says they may not change it (403), not that it is missing.
+    assert login(scenario.technician).post(url).status_code == 403
+    assert login(scenario.manager_a).post(url).status_code == 403
     scenario.work_a.refresh_from_db()
     assert scenario.work_a.state == WorkOrder.State.COMPLETED
 

@@ -36,14 +36,17 @@ def test_work_orders_of_another_organisation_are_invisible(api_client, world):
     assert api_client.get(f"/api/scheduling/work-orders/{foreign.public_id}/").status_code == 404
 
 
-def test_technician_sees_only_own_assigned_work(api_client, world):
-    """A technician sees nothing until work is assigned to them, then exactly that."""
+def test_technician_sees_the_work_of_the_sites_where_they_work(api_client, world):
+    """A technician sees nothing until work is assigned to them, then the work on that site, colleagues' too
+    (the unit's history matters on the job), and nothing of another organisation."""
     api_client.force_authenticate(world["tech"])
     assert api_client.get("/api/scheduling/work-orders/").json() == []
     wo = WorkOrder.objects.filter(ahu=world["ahu"]).first()
     work_order_assign(work_order=wo, assignee=world["tech"], by=world["sup"])
     rows = api_client.get("/api/scheduling/work-orders/").json()
-    assert [r["id"] for r in rows] == [str(wo.public_id)]
+    site = world["ahu"].building.site
+    expected = {str(x.public_id) for x in WorkOrder.objects.filter(ahu__building__site=site)}
+    assert str(wo.public_id) in expected and {r["id"] for r in rows} == expected
 
 
 def test_assign_and_transition_with_version(api_client, world):

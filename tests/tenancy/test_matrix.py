@@ -128,6 +128,8 @@ HOSTILE: dict[str, Hostile | None] = {
     "accounts_api:token": None,
     "scheduling_api:calendar-feed": None,
     "bench-baseline": None,
+    # A redirect to the API docs (any method): nothing is created.
+    "api-redoc": None,
     # Asks for an e-mail to the address's owner, whoever asks, with the same answer whether it exists or not.
     "accounts:password_reset": None,
 }
