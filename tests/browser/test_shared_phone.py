@@ -107,6 +107,13 @@ def test_two_technicians_one_phone(page, context, live_server, world, sign_in, m
         warnings.append(dialog.message)
         dialog.accept()
 
+    # First she chooses to stay (Cancel): still signed in, her day and her form as they were.
+    page.once("dialog", lambda dialog: dialog.dismiss())
+    page.get_by_role("button", name="Sign out").click()
+    expect(page.locator("[data-outbox-count]")).to_have_text("1")
+    expect(page).to_have_url(re.compile(r"/today/$"))
+    assert len(page.evaluate(DATA_CACHES)) == 1
+
     page.once("dialog", accept)
     page.get_by_role("button", name="Sign out").click()
     expect(page).to_have_url(re.compile(r"/login/"))
