@@ -14,7 +14,7 @@ from django.utils import timezone
 
 from accounts.models import Membership, Role
 from engineering.freeze import daily_values_from_normals
-from inspections.demo import demo_history_load
+from inspections.demo import demo_history_day, demo_history_load
 from inventory.demo import demo_registry_load
 from inventory.models import AHU, ComponentKind
 from scheduling.demo import ROUND_REF, demo_round_visit, demo_schedule_load
@@ -53,7 +53,9 @@ def demo_load(*, today: dt.date | None = None) -> dict[str, Any]:
         for site in organisation.sites.all():
             _outdoor_temperatures(site=site, today=today)
             site_seasons_refresh(site=site, today=today, fetch=False)
-        summary["history"][organisation.slug] = demo_history_load(organisation=organisation, today=today)
+        # A history loaded on an earlier day stays as it was; the schedule and today's round follow today.
+        history_day = demo_history_day(organisation=organisation) or today
+        summary["history"][organisation.slug] = demo_history_load(organisation=organisation, today=history_day)
         summary["generated"][organisation.slug] = demo_schedule_load(organisation=organisation, today=today)
         summary["assigned"] += _assign_upcoming(organisation=organisation, today=today)
         summary["assigned"] += _round_today(organisation=organisation, today=today)

@@ -14,6 +14,7 @@ import io
 import random
 import uuid
 
+from django.db import transaction
 from PIL import Image, ImageDraw
 
 from accounts.models import Membership, Role
@@ -45,6 +46,21 @@ def _signature_png(name: str) -> str:
     return "data:image/png;base64," + base64.b64encode(out.getvalue()).decode()
 
 
+def demo_history_day(*, organisation) -> dt.date | None:
+    """The day the organisation's demo history was loaded for (its last monthly visit + VISIT_DAYS), or None.
+
+    A later ``load_demo`` keeps that history as it is (a real history does not move with the calendar)
+    instead of writing a second one a day or a month later beside it.
+    """
+    from django.db.models import Max
+
+    last = WorkOrderTask.objects.filter(
+        work_order__organisation=organisation, occurrence_key__startswith="demo:"
+    ).aggregate(last=Max("work_order__due_date"))["last"]
+    return None if last is None else last + dt.timedelta(days=VISIT_DAYS)
+
+
+@transaction.atomic
 def _work_order(
     *,
     ahu: AHU,

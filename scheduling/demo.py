@@ -64,7 +64,7 @@ def demo_round_visit(*, ahu, codes: list[str], due: dt.date) -> tuple[WorkOrder,
             component=target,
             component_key=target.pk if target else 0,
             due_date=due,
-            occurrence_key=f"{ROUND_REF}:{wo.public_id.hex[:12]}",
+            occurrence_key=f"round:{wo.public_id.hex[:12]}",  # not "demo:", the history's own prefix
         )
         for task in chosen
         for target in task_targets(task=task, ahu=ahu, components=components)

@@ -79,6 +79,20 @@ def test_second_run_changes_nothing(loaded, capsys):
     assert loaded.splitlines()[-8:] == second.splitlines()[-8:]
 
 
+def test_a_later_run_keeps_the_history_and_moves_the_round_to_its_day(loaded):
+    """load_demo on a later day writes no second history; each open round visit moves to that day."""
+    inspections = Inspection.objects.count()
+    rounds = set(WorkOrder.objects.filter(source_ref="demo:round").values_list("pk", flat=True))
+    later = DECEMBER + dt.timedelta(days=1)
+    with _at(later):
+        demo_load(today=later)
+        assert Inspection.objects.count() == inspections
+        assert set(WorkOrder.objects.filter(source_ref="demo:round").values_list("pk", flat=True)) == rounds
+        assert set(WorkOrder.objects.filter(pk__in=rounds).values_list("scheduled_for", flat=True)) == {later}
+        for username in ("ines.tech", "tomas.tech"):
+            assert set(ROUND_TASKS) <= _today_codes(username), username
+
+
 @pytest.mark.django_db
 @pytest.mark.parametrize("day", [OCTOBER, JULY], ids=["late-october", "july"])
 def test_the_demo_walks_every_scenario_whatever_the_season(day, client):

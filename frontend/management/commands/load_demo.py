@@ -26,6 +26,7 @@ class Command(BaseCommand):
                 f"{result.unchanged} unchanged; {result.work_orders_created} new work orders."
             )
         self.stdout.write(f"Assigned {summary['assigned']} upcoming work order(s) to the demo technicians.")
+        self.stdout.write(f"Verified {summary.get('verified', 0)} older visit(s) as the demo supervisor.")
         self.stdout.write("")
         self.stdout.write(demo_logins_table(registry["logins"]))
         self.stdout.write("Open http://127.0.0.1:8000 and sign in.")
