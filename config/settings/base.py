@@ -170,6 +170,12 @@ REST_FRAMEWORK = {
     "DEFAULT_SCHEMA_CLASS": "drf_spectacular.openapi.AutoSchema",
     "DEFAULT_FILTER_BACKENDS": ["django_filters.rest_framework.DjangoFilterBackend"],
     "DEFAULT_PAGINATION_CLASS": "rest_framework.pagination.LimitOffsetPagination",
+    # JSON with a depth limit (config/parsers.py): a deeply nested body is a 400, not a RecursionError.
+    "DEFAULT_PARSER_CLASSES": [
+        "config.parsers.BoundedJSONParser",
+        "rest_framework.parsers.FormParser",
+        "rest_framework.parsers.MultiPartParser",
+    ],
     "PAGE_SIZE": 100,
     "EXCEPTION_HANDLER": "config.api.exception_handler",
 }
