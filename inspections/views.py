@@ -10,6 +10,8 @@ from rest_framework.parsers import BaseParser, FormParser, MultiPartParser
 from rest_framework.response import Response
 from rest_framework.views import APIView
 
+from accounts.inputs import INT64_MAX, FieldErrors, check_integer
+
 from . import check, freeze, selectors, services
 from . import serializers as s
 from .models import Inspection
@@ -242,10 +244,11 @@ class FreezeReadinessView(APIView):
         site_ids = None
         raw = request.query_params.get("site")
         if raw is not None:
-            try:
-                site_ids = [int(raw)]
-            except ValueError:
-                raise ValidationError({"site": [f"site={raw!r} is not a site id (a whole number)"]}) from None
+            errors = FieldErrors()
+            # Ids are 64-bit: a bigger number is no site, and the database cannot even compare it (was a 500).
+            site = check_integer(raw, key="site", label="Site (its id)", errors=errors, minimum=1, maximum=INT64_MAX)
+            errors.raise_if_any()
+            site_ids = [site]
         rows = freeze.freeze_readiness_for(user=request.user, site_ids=site_ids, as_of=timezone.now())
         return Response([freeze.readiness_json(r) for r in rows])
 

@@ -197,7 +197,9 @@ def test_the_api_lists_only_visible_units_and_names_a_bad_site_parameter(unit, a
     [row] = api_client.get(f"/api/inspections/freeze-readiness/?site={unit['ahu'].building.site_id}").json()
     assert row["unit"]["tag"] == "AHU-F1" and row["tested_on"] == "2025-10-01"
     bad = api_client.get("/api/inspections/freeze-readiness/?site=abc")
-    assert bad.status_code == 400 and "site='abc'" in bad.json()["errors"]["site"][0]
+    assert bad.status_code == 400 and "'abc' is not a whole number" in bad.json()["errors"]["site"][0]
+    huge = api_client.get(f"/api/inspections/freeze-readiness/?site={2**63}")  # beyond a 64-bit id: was a 500
+    assert huge.status_code == 400 and "out of range" in huge.json()["errors"]["site"][0]
     stranger = make_person(organisation=OrganisationFactory(), role=Role.PROPERTY_MANAGER)
     api_client.force_authenticate(stranger)
     assert api_client.get("/api/inspections/freeze-readiness/").json() == []
