@@ -425,7 +425,7 @@ def filter_forecast(
         points_used=len(usable),
         at_final_now=at_final <= last_h,
         method=(
-            f"Theil–Sen line of pressure drop corrected to design airflow (n={n:g}) "
+            f"Theil–Sen line of pressure drop corrected to design airflow (n = {n:g}) "
             f"against run-hours, {confidence * 100:.0f} % interval"
         ),
     )

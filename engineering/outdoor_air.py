@@ -55,6 +55,10 @@ class OaFraction:
     outdoor_return_difference: float
 
 
+# The measurement a fraction was found by, in words for messages.
+_BY = {"temperature": "temperatures", "co2": "CO2"}
+
+
 def _fraction(
     *,
     method: str,
@@ -77,7 +81,7 @@ def _fraction(
             value=outdoor,
             allowed=f"outdoor and return must differ by at least {v.fmt(min_difference)} {diff_unit}",
             message=(
-                f"cannot compute an outdoor-air fraction by {method}: outdoor "
+                f"cannot compute an outdoor-air fraction by {_BY[method]}: outdoor "
                 f"{v.fmt(outdoor)} {unit} and return {v.fmt(ret)} {unit} differ by "
                 f"{v.fmt(round(abs(diff), 3))} {diff_unit}; they must differ by at least "
                 f"{v.fmt(min_difference)} {diff_unit}"
@@ -96,7 +100,7 @@ def _fraction(
             value=mixed,
             allowed=f"an uncertainty below ±{v.fmt(max_uncertainty)}",
             message=(
-                f"cannot compute an outdoor-air fraction by {method}: with the sensor "
+                f"cannot compute an outdoor-air fraction by {_BY[method]}: with the sensor "
                 f"accuracies given the result would be {x:.2f} ± {u:.2f}, and an "
                 f"uncertainty of ±{v.fmt(max_uncertainty)} or more says nothing; "
                 f"outdoor and return differ by only {v.fmt(round(abs(diff), 3))} {diff_unit}"

@@ -100,7 +100,7 @@ DERIVED: dict[str, tuple[str, Any]] = {
     "deviation_pct": ("deviation", "pct"),
     "commanded_pct": ("commanded position", "pct"),
     "measured_pct": ("measured position", "pct"),
-    "error_pct": ("position error", "pct"),
+    "error_pct": ("position error", "pct_points"),
     # heat recovery
     "outdoor_c": ("outdoor air", "temperature"),
     "supply_after_recovery_c": ("supply air after recovery", "temperature"),

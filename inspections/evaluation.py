@@ -683,8 +683,8 @@ def _coil_checks(form: Form, consumed: set) -> list[Result]:
                 else "entering air (the coil's design airflow)"
             )
             res.method = (
-                f"air side q = ρ·V·c_p·Δt, sensible, dry air, ρ = p/(R_da·T) at the {state}; fluid side "
-                f"q = ρ·V·c_p·Δt with the properties of {fluid_words} (CoolProp: IAPWS-95, Melinder 2010); "
+                f"air side q = ρ·V·cp·Δt, sensible, dry air, ρ = p/(R·T) at the {state}; fluid side "
+                f"q = ρ·V·cp·Δt with the properties of {fluid_words} (CoolProp: IAPWS-95, Melinder 2010); "
                 "balance within 10 % ok, 20 % watch"
             )
             res.verdict = bal.verdict.value
@@ -725,7 +725,7 @@ def _setpoint_checks(form: Form, consumed: set) -> list[Result]:
             item=f"{template}.supply_air",
             verdict=chk.verdict.value,
             condition_code="supply_temp_off",
-            method="|t − t_set| against 1 K / 2 K (engineering.controls; common practice)",
+            method="|supply − set point| against 1 K / 2 K (common practice)",
             derived={"supply_air_c": t, "setpoint_c": sp, "deviation_k": round(chk.limits["deviation_k"], 2)},
         )
         dev = chk.limits["deviation_k"]
@@ -759,7 +759,7 @@ def _setpoint_checks(form: Form, consumed: set) -> list[Result]:
                 check="duct_static",
                 item="controls_check.duct_static",
                 verdict=chk.verdict.value,
-                method="deviation as % of set point, 10 % / 20 % (engineering.controls; common practice)",
+                method="deviation as % of set point, 10 % / 20 % (common practice)",
                 derived={"static_pa": p, "setpoint_pa": sp, "deviation_pct": round(chk.limits["deviation_pct"], 1)},
             )
             dev = chk.limits["deviation_pct"]
@@ -785,7 +785,7 @@ def _setpoint_checks(form: Form, consumed: set) -> list[Result]:
                 verdict=chk.verdict.value,
                 reason=f"{damper.name}: {chk.reason}",
                 condition_code="damper_position",
-                method="position − command, 5 / 10 points (engineering.controls; common practice)",
+                method="position − command, 5 / 10 points (common practice)",
                 derived={"commanded_pct": cmd, "measured_pct": pos, "error_pct": round(chk.limits["deviation_pct"], 1)},
             )
         )
@@ -815,7 +815,7 @@ def _drift_checks(form: Form, consumed: set) -> list[Result]:
                 component=sensor,
                 verdict=chk.verdict.value,
                 condition_code="sensor_drift",
-                method=f"sensor − reference against {source} (engineering.controls.sensor_drift_check)",
+                method=f"sensor − reference against {source}",
                 derived={
                     "sensor": s,
                     "reference": r,
@@ -856,8 +856,8 @@ def _heat_recovery_checks(form: Form, consumed: set) -> list[Result]:
             component=hx,
             condition_code="heat_recovery_low",
             method=(
-                "ε = (t_supply − t_outdoor)/(t_extract − t_outdoor), temperature ratio per EN 308 / "
-                "ASHRAE HVAC Systems and Equipment (from memory; engineering.heat_recovery), ±0.5 K "
+                "ε = (supply − outdoor)/(extract − outdoor) temperatures, temperature ratio per EN 308 / "
+                "ASHRAE HVAC Systems and Equipment (from memory), ±0.5 K "
                 "sensors; against design: watch beyond 5, fail beyond 15 points below (common "
                 "practice)"
             ),

@@ -274,7 +274,7 @@ export function filterForecast(ctx, { points, qd, final, confidence = 0.9, minRi
   return {
     runHoursAtFinal: atFinal, dateAtFinal: toDate(atFinal), dateLow: toDate(early), dateHigh: toDate(late),
     rate: rate.slope, pointsUsed: usable.length, atFinalNow: atFinal <= lastH,
-    method: `Theil–Sen line of pressure drop corrected to design airflow (n=${ctx.constants.filter_exponent}) against run-hours, ${Math.round(confidence * 100)} % interval`,
+    method: `Theil–Sen line of pressure drop corrected to design airflow (n = ${ctx.constants.filter_exponent}) against run-hours, ${Math.round(confidence * 100)} % interval`,
   };
 }
 
@@ -282,13 +282,13 @@ function oaFraction({ method, outdoor, ret, mixed, accO, accR, accM, minDifferen
   const diff = ret - outdoor;
   if (Math.abs(diff) < minDifference) {
     const du = unit === "°C" ? "K" : unit;
-    throw new EngineeringInputError(names[0], `cannot compute an outdoor-air fraction by ${method}: outdoor ${fmtG(outdoor)} ${unit} and return ${fmtG(ret)} ${unit} differ by ${fmtG(pyRound(Math.abs(diff), 3))} ${du}; they must differ by at least ${fmtG(minDifference)} ${du}`);
+    throw new EngineeringInputError(names[0], `cannot compute an outdoor-air fraction by ${method === "co2" ? "CO2" : "temperatures"}: outdoor ${fmtG(outdoor)} ${unit} and return ${fmtG(ret)} ${unit} differ by ${fmtG(pyRound(Math.abs(diff), 3))} ${du}; they must differ by at least ${fmtG(minDifference)} ${du}`);
   }
   const x = (ret - mixed) / diff;
   const u = Math.sqrt((accM / diff) ** 2 + ((accO * (ret - mixed)) / diff ** 2) ** 2 + ((accR * (mixed - outdoor)) / diff ** 2) ** 2);
   if (u >= maxUncertainty) {
     const du = unit === "°C" ? "K" : unit;
-    throw new EngineeringInputError(names[2], `cannot compute an outdoor-air fraction by ${method}: with the sensor accuracies given the result would be ${fixed(x, 2)} ± ${fixed(u, 2)}, and an uncertainty of ±${fmtG(maxUncertainty)} or more says nothing; outdoor and return differ by only ${fmtG(pyRound(Math.abs(diff), 3))} ${du}`);
+    throw new EngineeringInputError(names[2], `cannot compute an outdoor-air fraction by ${method === "co2" ? "CO2" : "temperatures"}: with the sensor accuracies given the result would be ${fixed(x, 2)} ± ${fixed(u, 2)}, and an uncertainty of ±${fmtG(maxUncertainty)} or more says nothing; outdoor and return differ by only ${fmtG(pyRound(Math.abs(diff), 3))} ${du}`);
   }
   if (x < -u || x > 1 + u) {
     throw new EngineeringInputError(names[2], `mixed ${fmtG(mixed)} ${unit} is not between outdoor ${fmtG(outdoor)} ${unit} and return ${fmtG(ret)} ${unit} (even allowing ±${fixed(u, 2)} for sensor accuracy): check sensor placement, stratification or a heat source upstream`);
@@ -714,7 +714,7 @@ function coilChecks(form) {
         fluid: fluid.name, glycol_pct: fluid.glycol_pct,
       };
       const state = airflowAt === "leaving" ? "leaving air (airflow at the supply fan, after the coil)" : "entering air (the coil's design airflow)";
-      res.method = `air side q = ρ·V·c_p·Δt, sensible, dry air, ρ = p/(R_da·T) at the ${state}; fluid side q = ρ·V·c_p·Δt with the properties of ${fluid.words} (CoolProp: IAPWS-95, Melinder 2010); balance within ${tol} % ok, ${2 * tol} % watch`;
+      res.method = `air side q = ρ·V·cp·Δt, sensible, dry air, ρ = p/(R·T) at the ${state}; fluid side q = ρ·V·cp·Δt with the properties of ${fluid.words} (CoolProp: IAPWS-95, Melinder 2010); balance within ${tol} % ok, ${2 * tol} % watch`;
       res.verdict = bal.verdict;
       const which = bal.differencePct > 0 ? "air side higher" : "water side higher";
       const parts = [`${coil.name}: air side `, q(Math.abs(air), "heat_rate"), ", water side ", q(Math.abs(water), "heat_rate"),
@@ -746,7 +746,7 @@ function setpointChecks(form, consumed) {
     const dev = t - sp;
     const res = result({
       check: "supply_temperature", item: `${template}.supply_air`, verdict: grade(dev, 1.0, 2.0), condition_code: "supply_temp_off",
-      method: "|t − t_set| against 1 K / 2 K (common practice)",
+      method: "|supply − set point| against 1 K / 2 K (common practice)",
       derived: { supply_air_c: t, setpoint_c: sp, deviation_k: pyRound(dev, 2) },
     });
     const where = pyRound(dev, 1) === 0 ? ["at"] : [q(Math.abs(dev), "temperature_difference"), dev > 0 ? " above" : " below"];
@@ -832,7 +832,7 @@ function heatRecoveryChecks(form) {
     if (o === null || s === null || e === null) continue;
     const res = result({
       check: "heat_recovery", item: "heat_recovery.supply_out", component: hx.code, condition_code: "heat_recovery_low",
-      method: "ε = (t_supply − t_outdoor)/(t_extract − t_outdoor), temperature ratio per EN 308 (from memory), ±0.5 K sensors; watch beyond 5, fail beyond 15 points below design (common practice)",
+      method: "ε = (supply − outdoor)/(extract − outdoor) temperatures, temperature ratio per EN 308 (from memory), ±0.5 K sensors; watch beyond 5, fail beyond 15 points below design (common practice)",
     });
     let hr;
     try {
