@@ -64,7 +64,7 @@ LIBRARY: list[dict] = [
         "safety_notes": LOTO_FAN,
         "source": (
             "Common practice: about 4000 run-hours for final filters, or sooner when the pressure drop "
-            "reaches the final value (condition filter_loaded)."
+            "reaches the final value (a loaded-filter finding)."
         ),
     },
     {

@@ -55,9 +55,9 @@ def parameters_from_post(*, user, kind: str, post) -> dict:
                 raise Http404(f"site: no site {site} among those you may see")  # as reports answers for any id
             units += list(ahus_visible_to(user=user).filter(building__site_id=site).values_list("pk", flat=True))
             if not units:
-                raise ValidationError({"site": f"site={site}: the site has no units to label"})
+                raise ValidationError({"site": "Site: the site has no units to label"})
         return {"units": sorted(set(units)), "layout": post.get("layout", "")}
-    raise ValidationError({"kind": f"kind={kind!r}: allowed are {', '.join(KINDS)}"})
+    raise ValidationError({"kind": f"Report {kind!r} is not offered here; choose one from the list"})
 
 
 def _back(request) -> str:

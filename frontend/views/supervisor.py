@@ -125,7 +125,7 @@ def assign(request, public_id):
     try:
         day = dt.date.fromisoformat(raw_day) if raw_day else None
     except ValueError:
-        messages.error(request, f"scheduled_for={raw_day!r} is not a date as YYYY-MM-DD.")
+        messages.error(request, f"Scheduled day {raw_day!r} is not a date as YYYY-MM-DD.")
         return redirect(back)
     try:
         version = int(request.POST.get("version", ""))
@@ -294,7 +294,7 @@ def unit_rules(request, pk):
                 request, f"{tasks[code].name} {'switched on' if enabled else 'switched off'} for {ahu.tag}."
             )
         else:
-            messages.error(request, f"task_code={code!r} is not one of the organisation's tasks.")
+            messages.error(request, f"Task {code!r} is not one of the organisation's tasks.")
         return redirect("frontend:registry_rules", pk=ahu.pk)
     settings_by_code = {s.task_code: s for s in UnitTaskSetting.objects.filter(ahu=ahu)}
     rows = [

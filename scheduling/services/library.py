@@ -104,7 +104,7 @@ def task_definition_override(*, organisation: Organisation, code: str, by=None, 
     if task is None:
         base = TaskDefinition.objects.filter(organisation__isnull=True, code=code).first()
         if base is None:
-            raise ValidationError({"code": [f"code={code!r} is not a task of the library or of {organisation}"]})
+            raise ValidationError({"code": [f"task code {code!r} is not a task of the library or of {organisation}"]})
         task = TaskDefinition(
             **{
                 f.name: getattr(base, f.name)

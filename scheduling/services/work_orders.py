@@ -44,11 +44,14 @@ class WorkOrderTransitionError(ValidationError):
     """A move the transition table does not allow."""
 
     def __init__(self, *, work_order: WorkOrder, to_state: str) -> None:
-        allowed = sorted(WorkOrder.TRANSITIONS.get(work_order.state, ()))
+        # Said with the states' names, never their codes.
+        names = dict(State.choices)
+        allowed = sorted(names[s].lower() for s in WorkOrder.TRANSITIONS.get(work_order.state, ()))
         super().__init__(
             {
                 "to_state": [
-                    f"to_state={to_state!r} is not allowed from {work_order.state!r}; allowed: "
+                    f"a work order cannot move from {names.get(work_order.state, work_order.state).lower()} to "
+                    f"{names.get(to_state, to_state).lower()}; allowed: "
                     + (", ".join(allowed) if allowed else "none (final state)")
                 ]
             }
@@ -73,12 +76,12 @@ def _save(wo: WorkOrder, fields: list[str], *, by, action: str, changes: dict) -
 
 def _move(wo: WorkOrder, to_state: str) -> None:
     if to_state not in State.values:
-        raise ValidationError({"to_state": [f"to_state={to_state!r} is not one of {', '.join(State.values)}"]})
+        raise ValidationError({"to_state": [f"state {to_state!r} is not one of {', '.join(State.values)}"]})
     if not wo.can_move_to(to_state):
         raise WorkOrderTransitionError(work_order=wo, to_state=to_state)
     if wo.approval in {WorkOrder.Approval.PENDING, WorkOrder.Approval.REJECTED} and to_state != State.CANCELLED:
         raise ValidationError(
-            {"to_state": [f"corrective work awaiting approval (approval={wo.approval!r}) can only be cancelled"]}
+            {"to_state": [f"corrective work {wo.get_approval_display().lower()} can only be cancelled"]}
         )
 
 
@@ -200,7 +203,7 @@ def work_order_schedule(
             raise ValidationError(
                 {
                     "scheduled_for": [
-                        f"scheduled_for={day.isoformat()} is in the past at {wo.ahu.building.site.name}; "
+                        f"scheduled day {day.isoformat()} is in the past at {wo.ahu.building.site.name}; "
                         f"allowed: {today.isoformat()} or later"
                     ]
                 }
@@ -391,7 +394,14 @@ def _grace(priority: str) -> int:
 def corrective_work_order_approve(*, work_order: WorkOrder, by, expected_version: int | None = None) -> WorkOrder:
     wo = _locked(work_order, expected_version)
     if wo.approval != WorkOrder.Approval.PENDING:
-        raise ValidationError({"approval": [f"approval={wo.approval!r}: only pending corrective work can be approved"]})
+        raise ValidationError(
+            {
+                "approval": [
+                    f"only corrective work awaiting approval can be approved "
+                    f"(approval here: {wo.get_approval_display().lower()})"
+                ]
+            }
+        )
     wo.approval = WorkOrder.Approval.APPROVED
     _save(wo, ["approval"], by=by, action="corrective_approve", changes={"approval": "approved"})
     if wo.priority == WorkOrder.Priority.URGENT:
@@ -427,7 +437,14 @@ def corrective_work_order_reject(
     text = rejection_reason_check(reason=reason)
     wo = _locked(work_order, expected_version)
     if wo.approval != WorkOrder.Approval.PENDING:
-        raise ValidationError({"approval": [f"approval={wo.approval!r}: only pending corrective work can be rejected"]})
+        raise ValidationError(
+            {
+                "approval": [
+                    f"only corrective work awaiting approval can be rejected "
+                    f"(approval here: {wo.get_approval_display().lower()})"
+                ]
+            }
+        )
     wo.approval = WorkOrder.Approval.REJECTED
     wo.state = State.CANCELLED
     wo.cancel_reason = text

@@ -66,7 +66,7 @@ def test_a_past_day_is_refused_and_nothing_is_saved(scenario, visit, login):
         {"assignee": scenario.technician.pk, "version": visit.version, "scheduled_for": "2025-03-04"},
     )
     text = " ".join(str(m) for m in get_messages(response.wsgi_request))
-    assert "scheduled_for=2025-03-04" in text
+    assert "scheduled day 2025-03-04" in text and "scheduled_for" not in text
     wo = WorkOrder.objects.get(pk=visit.pk)
     assert (wo.state, wo.assignee_id, wo.scheduled_for) == ("planned", None, None)
 
