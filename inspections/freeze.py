@@ -240,6 +240,13 @@ class FreezeReadiness:
     def ready(self) -> bool:
         return self.status == READY
 
+    @property
+    def why(self) -> str:
+        """The reason without its leading status words, for places that show ``label`` beside it."""
+        # Every verdict's reason reads "<status words> — <why>" except the unknown season's.
+        _head, sep, rest = self.reason.partition(" — ")
+        return rest if sep else self.reason
+
     def as_row(self) -> dict:
         """The dict shape the compliance figures have always given (``done_on`` kept for templates)."""
         return {
@@ -247,6 +254,7 @@ class FreezeReadiness:
             "status": self.status,
             "label": self.label,
             "reason": self.reason,
+            "why": self.why,
             "done_on": self.tested_on,
             "tested_on": self.tested_on,
             "not_passed": self.not_passed,
