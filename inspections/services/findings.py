@@ -406,6 +406,8 @@ def _corrective_for_group(*, inspection, condition: str, findings: list[Finding]
         worst = max((f.severity for f in findings), key=SEVERITY_ORDER.index)
         if condition:
             title = CONDITION_TITLES.get(condition, findings[0].title)
+            if all(f.title.startswith(FILTER_BYPASS_TITLE) for f in findings):
+                title = FILTER_BYPASS_TITLE  # not a loaded filter: its media is missing, torn or bypassed
             title += f" — {component.name}" if component is not None else ""
         else:
             title = findings[0].title

@@ -28,6 +28,7 @@ from scheduling.models import WorkOrder
 
 from .. import check, checklists, evaluation, selectors
 from ..check import Errors
+from ..display import plain_message
 from ..models import Inspection, Photo, Reading
 from . import findings as findings_service
 from . import photos as photo_service
@@ -138,7 +139,7 @@ def _reading(parsed: Parsed, i: int, raw: object, seen: set, errors: Errors) -> 
         try:
             si = checklists.from_display(x, it.quantity, parsed.unit_system)
         except EngineeringInputError as exc:
-            errors.add(f"{at}.value", f"{label}: {exc}")
+            errors.add(f"{at}.value", f"{label}: {plain_message(exc)}")
             return
         tol = 1e-9 * max(1.0, abs(si))
         if (lim.get("physical_min") is not None and si < lim["physical_min"] - tol) or (

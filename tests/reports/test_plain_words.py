@@ -122,6 +122,7 @@ def test_every_check_is_in_the_visit(visit):
     assert set(JUDGED) <= checks
     titles = {f.title.split(" — ")[0] for f in visit["findings"]}
     assert FILTER_BYPASS_TITLE in titles
+    assert "Filter pressure drop after change outside the clean range" in titles
 
 
 def test_the_record_page_reads_in_plain_words(client, visit, supervisor):
