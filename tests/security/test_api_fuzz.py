@@ -11,6 +11,7 @@ whole run stays well under a minute.
 """
 
 import urllib.parse
+from collections.abc import Callable
 
 import pytest
 import schemathesis
@@ -71,7 +72,7 @@ def real_ids(world: World) -> dict[str, dict[str, object]]:
     }
     for suffix in ("", "amendments/", "resolve-flag/", "verify/"):
         out[f"/api/inspections/{{id}}/{suffix}"] = {"id": a.inspection.pk}
-    for suffix in ("", "approve/", "assign/", "schedule/", "transition/"):
+    for suffix in ("", "approve/", "assign/", "reject/", "schedule/", "transition/"):
         out[f"/api/scheduling/work-orders/{{public_id}}/{suffix}"] = {"public_id": wo}
     return out
 
@@ -123,3 +124,223 @@ def _call(case, world: World):
     # so each call carries the supervisor's current one (else everything after them would be a 401).
     token = api_token_issue(user=world.supervisor).key
     return case.call_wsgi(headers={"Authorization": f"Token {token}"})
+
+
+# ---------------------------------------------------------------------------
+# Hostile values, field by field (deterministic: every operation × every field × every hostile value)
+# ---------------------------------------------------------------------------
+# Tables whose row counts must not change when a request is refused (nothing half-saved).
+COUNTED = (
+    "inventory.Site",
+    "inventory.Building",
+    "inventory.AHU",
+    "inventory.Component",
+    "scheduling.WorkOrder",
+    "scheduling.WorkOrderTask",
+    "scheduling.MeterReading",
+    "inspections.Inspection",
+    "inspections.Reading",
+    "inspections.Photo",
+    "reports.Report",
+)
+
+
+def row_counts() -> dict[str, int]:
+    """Rows of each COUNTED table, in one query (it runs after every refused request)."""
+    from django.apps import apps
+    from django.db import connection
+
+    tables = [apps.get_model(label)._meta.db_table for label in COUNTED]
+    sql = "SELECT " + ", ".join(f"(SELECT COUNT(*) FROM {connection.ops.quote_name(t)})" for t in tables)  # noqa: S608
+    with connection.cursor() as cursor:
+        cursor.execute(sql)
+        return dict(zip(COUNTED, cursor.fetchone(), strict=True))
+
+
+def _detail(client, path: str) -> dict:
+    response = client.get(path)
+    assert response.status_code == 200, (path, response.status_code)
+    return response.json()
+
+
+def _writable(schema_doc: dict, method: str, path: str) -> list[str]:
+    content = schema_doc["paths"][path][method].get("requestBody", {}).get("content", {})
+    ref = next(iter(content.values()))["schema"]["$ref"].rsplit("/", 1)[-1]
+    return list(schema_doc["components"]["schemas"][ref]["properties"])
+
+
+def valid_bodies(world: World, client, schema_doc: dict) -> dict[tuple[str, str], object]:
+    """A valid JSON body for every operation that takes one, by (method, path template); a callable is read
+    again before each call (a work order's version moves on when a hostile value is wrongly accepted)."""
+    from frontend.calculators import CALCULATORS
+    from scheduling.models import WorkOrder
+    from tests.factories.inspections import r
+    from tests.tenancy.world import filter_form
+
+    a = world.a
+
+    def registry(kind: str, pk: int, method: str, path: str, **changes) -> dict:
+        shown = _detail(client, f"/api/inventory/{kind}/{pk}/")
+        keep = _writable(schema_doc, method, path)
+        return {k: v for k, v in {**shown, **changes}.items() if k in keep and v is not None}
+
+    def version() -> int:
+        return WorkOrder.objects.get(pk=a.open_work_order.pk).version
+
+    made = iter(range(1, 10**6))
+
+    def fresh(kind: str, pk: int, key: str) -> Callable[[], dict]:
+        # A new code each call: a hostile value that is fair text (a date as a name) makes a record, and the
+        # next call must not be refused only for repeating its code.
+        shown = registry(kind, pk, "post", f"/api/inventory/{kind}/")
+        return lambda: {**shown, key: f"fz{next(made)}"}
+
+    bodies: dict[tuple[str, str], object] = {}
+    for kind, pk, key in (
+        ("sites", a.site.pk, "code"),
+        ("buildings", a.building.pk, "code"),
+        ("ahus", a.ahu.pk, "tag"),
+        ("components", a.component.pk, "name"),
+    ):
+        bodies[("post", f"/api/inventory/{kind}/")] = fresh(kind, pk, key)
+        one = f"/api/inventory/{kind}/{{id}}/"
+        bodies[("patch", one)] = registry(kind, pk, "patch", one)
+    assert next(iter(CALCULATORS)) == "oa-temperatures"  # the calculator real_ids() names
+    bodies[("post", "/api/calc/{name}/")] = {"values": {"t_outdoor_c": 0, "t_return_c": 20, "t_mixed_c": 16}}
+    bodies[("post", "/api/inspections/{id}/amendments/")] = {
+        "reason": "gauge read wrong way round",
+        "unit_system": "si",
+        "readings": [r("filter_check.dp", 240, a.component)],
+    }
+    bodies[("post", "/api/inspections/{id}/resolve-flag/")] = {"note": "checked on site"}
+    bodies[("post", "/api/inspections/sync/")] = lambda: {
+        "forms": [filter_form(a.open_work_order)],
+        "sent_at": "2025-01-01T08:00:00Z",
+    }
+    bodies[("post", "/api/reports/")] = {
+        "kind": "inspection",
+        "parameters": {"work_order": str(a.work_order.public_id)},
+        "pdfa": False,
+    }
+    bodies[("post", "/api/scheduling/meter-readings/")] = {
+        "unit_label": a.ahu.label_code,
+        "component_label": "",
+        "hours": 100,
+        "taken_at": "2025-01-01T08:00:00Z",
+        "is_reset": False,
+    }
+    bodies[("patch", "/api/scheduling/tasks/{code}/")] = {
+        "interval_value": 3,
+        "interval_unit": "months",
+        "anchor": "completion",
+        "grace_days": 7,
+        "run_hours": 2000,
+        "lead_days": 7,
+        "estimated_minutes": 30,
+        "enabled": True,
+    }
+    wo = "/api/scheduling/work-orders/{public_id}/"
+    day = (a.open_work_order.due_date).isoformat()
+    bodies[("post", wo + "approve/")] = lambda: {"version": version()}
+    bodies[("post", wo + "reject/")] = lambda: {"version": version(), "reason": "not needed"}
+    bodies[("post", wo + "assign/")] = lambda: {"version": version(), "assignee": a.technician.pk, "scheduled_for": day}
+    bodies[("post", wo + "schedule/")] = lambda: {"version": version(), "scheduled_for": day}
+    bodies[("post", wo + "transition/")] = lambda: {"version": version(), "to_state": "in_progress", "reason": "start"}
+    return bodies
+
+
+def _operations(schema_doc: dict):
+    for path, ops in schema_doc["paths"].items():
+        for method, op in ops.items():
+            if method in ("get", "post", "put", "patch", "delete"):
+                yield method, path, op
+
+
+def _fill(path: str, world: World) -> str:
+    params = real_ids(world).get(path, {})
+    for key, value in params.items():
+        path = path.replace("{" + key + "}", urllib.parse.quote(str(value)))
+    return path
+
+
+def _judge(
+    what: str, response, field: str, before: dict[str, int], *, strict: bool = False, base_keys: frozenset = frozenset()
+) -> list[str]:
+    """What is wrong with the answer to one hostile request (an empty list when nothing is).
+
+    A 400 must name a field. For a value no field takes (``strict``: NaN, ±Infinity, NUL, a list or object where
+    a value is) it must name the field that holds it (or, nested, a key above it), or ``body`` when the JSON itself
+    is refused; a fair value (a date as a note, -1) may be refused for what it means to another field. Fields the
+    valid body is refused for anyway (``base_keys``: a state the record is not in) may be named instead."""
+    problems = []
+    status = response.status_code
+    if status >= 500:
+        return [f"{what} -> {status}: {response.content[:300]!r}"]
+    if status >= 400:
+        after = row_counts()
+        if after != before:
+            changed = {k: (before[k], after[k]) for k in after if after[k] != before[k]}
+            problems.append(f"{what} -> {status} but rows changed: {changed}")
+        try:
+            body = response.json()
+        except ValueError:
+            return [*problems, f"{what} -> {status} is not JSON: {response.content[:200]!r}"]
+        if not (isinstance(body, dict) and body.get("detail")):
+            problems.append(f"{what} -> {status} without a message: {body!r:.300}")
+        elif status == 400 and field != "(body)" and "parse error" not in str(body["detail"]).lower():
+            errors = body.get("errors")
+            names = [part for part in field.split(".") if not part.isdigit()]
+            keys = " ".join(str(key) for key in errors) if isinstance(errors, dict) else ""
+            if not (keys and all(isinstance(k, str) and k for k in errors)):
+                problems.append(f"{what} -> 400 naming no field: {body!r:.300}")
+            elif strict and not ({"body", *base_keys} & set(errors) or any(name in keys for name in names)):
+                problems.append(f"{what} -> 400 naming another field than {field!r}: {body!r:.300}")
+    return problems
+
+
+def test_no_server_error_for_any_hostile_value_in_any_field(fuzz_world):
+    """Each field of every JSON body and each query parameter of every operation, in turn, holds NaN, ±Infinity,
+    1e309, NUL and control characters, years 1 and 9999, 2³¹ and 2⁶³, deep nesting or the wrong type: no answer
+    is a 5xx, a refusal saves nothing (row counts unchanged) and is JSON with a message, and a 400 names the field.
+    """
+    from django.test import Client
+
+    from tests.security.hostile import TEXT_VALUES, dumps, mutations, nonsense, replaced, value_at
+
+    client = Client(raise_request_exception=False)
+    client.force_login(fuzz_world.supervisor)
+    schema_doc = client.get("/api/schema/", {"format": "json"}).json()
+    bodies = valid_bodies(fuzz_world, client, schema_doc)
+    problems: list[str] = []
+    counts = row_counts()
+    for method, template, op in _operations(schema_doc):
+        if template.startswith("/api/accounts/token/"):
+            continue  # no body, no query; revoking would sign the client out (test_auth covers the route)
+        path = _fill(template, fuzz_world)
+        call = getattr(client, method)
+        for param in (p["name"] for p in op.get("parameters", []) if p["in"] == "query"):
+            for value in TEXT_VALUES:
+                response = call(f"{path}?{urllib.parse.urlencode({param: value})}")
+                problems += _judge(f"{method.upper()} {template} ?{param}={value!r:.40}", response, param, counts)
+                counts = counts if response.status_code >= 400 else row_counts()
+        content = op.get("requestBody", {}).get("content", {})
+        if "application/json" not in content:
+            continue
+        assert (method, template) in bodies, f"{method.upper()} {template} has no valid body in valid_bodies()"
+        base = bodies[(method, template)]
+        # The sync's readings are fuzzed value by value in tests/inspections/test_sync_hostile.py; here to the form.
+        depth = 3 if template == "/api/inspections/sync/" else 8
+        probe = call(path, dumps(base() if callable(base) else base), content_type="application/json")
+        assert probe.status_code < 500, f"{method.upper()} {template} with its valid body -> {probe.status_code}"
+        counts = row_counts()
+        base_keys = frozenset(probe.json().get("errors") or {}) if probe.status_code == 400 else frozenset()
+        for where, value in mutations(base() if callable(base) else base, max_depth=depth):
+            base_body = base() if callable(base) else base
+            body = replaced(base_body, where, value)
+            response = call(path, dumps(body), content_type="application/json")
+            field = ".".join(map(str, where)) or "(body)"
+            what = f"{method.upper()} {template} {field}={value!r:.40}"
+            strict = nonsense(value, value_at(base_body, where) if where else None)
+            problems += _judge(what, response, field, counts, strict=strict, base_keys=base_keys)
+            counts = counts if response.status_code >= 400 else row_counts()
+    assert not problems, f"{len(problems)} problems:\n" + "\n".join(problems[:60])
