@@ -174,3 +174,16 @@ def test_the_inspection_report_pdf_reads_in_plain_words(visit, org, make_report)
         text = " ".join(pdf_text(report).split())
         assert "Filter media missing, torn or bypassed" in text
         assert not leaks(text), (system, sorted(set(leaks(text))))
+
+
+def test_the_unit_history_pdf_reads_in_plain_words(visit, org, make_report):
+    """The unit's history over the visit's month shows its readings, verdicts and findings without keys or codes."""
+    reader = make_person(organisation=org, role=Role.SUPERVISOR)
+    report = make_report(
+        user=reader,
+        kind="unit_history",
+        parameters={"unit": visit["wo"].ahu_id, "start": "2025-03-01", "end": "2025-03-31"},
+    )
+    text = " ".join(pdf_text(report).split())
+    assert "not applicable" in text and "Filter media missing, torn or bypassed" in text
+    assert not leaks(text), sorted(set(leaks(text)))
