@@ -485,7 +485,7 @@ def duplicate_result(inspection: Inspection, *, user) -> dict:
         errors = Errors()
         errors.add(
             "client_uuid",
-            f"client_uuid={str(inspection.client_uuid)!r} is already used by another person's form; generate a new one",
+            f"The form's id {inspection.client_uuid} is already used by another person's form; generate a new one",
         )
         return refused_result(inspection.client_uuid, errors)
     first = dict(inspection.sync_result)
