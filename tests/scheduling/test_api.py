@@ -77,7 +77,7 @@ def test_illegal_transition_gives_a_field_error(api_client, world):
         format="json",
     )
     assert r.status_code == 400
-    assert "not allowed from 'planned'" in r.json()["errors"]["to_state"][0]
+    assert "cannot move from planned to completed; allowed: assigned" in r.json()["errors"]["to_state"][0]
 
 
 def test_list_and_board_take_a_constant_number_of_queries(api_client, world):
