@@ -10,6 +10,7 @@ label is not shown: a reader never sees a stored key. Yes/no values read as word
 from __future__ import annotations
 
 import datetime as dt
+import math
 import re
 from typing import Any
 
@@ -162,25 +163,30 @@ def _in_units(value: float, quantity: str, system: str, decimals: int) -> str:
     return f"{shown:.{decimals}f} {units.unit_label(quantity=quantity, system=system)}"
 
 
-def _shown(key: str, value: Any, how: Any, system: str, item: str) -> str:
+def _minus(text: str) -> str:
+    """A negative number with the minus sign the reasons use (−), not a hyphen."""
+    return text.replace("-", "−")
+
+
+def _shown(value: Any, how: Any, system: str, item: str) -> str:
     if isinstance(how, dict):
         return how.get(value, "") if isinstance(value, str) else ""
     if how in ("words", "message"):
         return plain_message(value) if isinstance(value, str) else ""
     if how == "date":
         return _date(value)
-    if isinstance(value, bool) or not isinstance(value, int | float):
-        return ""
+    if isinstance(value, bool) or not isinstance(value, int | float) or not math.isfinite(value):
+        return ""  # a number stored before the input policy may be NaN or infinite: nothing to read
     if how == "fraction":
         return f"{value * 100:.0f} %"
     if how == "points":
         return f"± {value * 100:.0f} points"
     if how == "pct":
-        return f"{value:.1f} %"
+        return _minus(f"{value:.1f} %")
     if how == "pct_points":
-        return f"{value:.1f} points"
+        return _minus(f"{value:.1f} points")
     if how in ("number", "count"):
-        return f"{value:g}"
+        return _minus(f"{value:g}")
     if how == "rate":
         return _in_units(value, "pressure", system, 4 if system == "us" else 3) + " per run-hour"
     if how in ("drift_value", "drift_difference"):
@@ -215,7 +221,7 @@ def derived_rows(derived: dict, system: str, *, item: str = "") -> list[tuple[st
         if key not in DERIVED:
             continue
         label, how = DERIVED[key]
-        text = _shown(key, value, how, system, item)
+        text = _shown(value, how, system, item)
         if text:
             out.append((label, text))
     return out
