@@ -312,6 +312,7 @@ def test_no_server_error_for_any_hostile_value_in_any_field(fuzz_world):
     schema_doc = client.get("/api/schema/", {"format": "json"}).json()
     bodies = valid_bodies(fuzz_world, client, schema_doc)
     problems: list[str] = []
+    made: list[tuple[str, str]] = []  # (detail path, the hostile request that made it)
     counts = row_counts()
     for method, template, op in _operations(schema_doc):
         if template.startswith("/api/accounts/token/"):
@@ -343,4 +344,34 @@ def test_no_server_error_for_any_hostile_value_in_any_field(fuzz_world):
             strict = nonsense(value, value_at(base_body, where) if where else None)
             problems += _judge(what, response, field, counts, strict=strict, base_keys=base_keys)
             counts = counts if response.status_code >= 400 else row_counts()
+            if response.status_code == 201 and template.startswith("/api/inventory/"):
+                made.append((f"{template}{response.json()['id']}/", what))
+    assert made, "no hostile value was fair enough to make a record: the read-back below would read nothing new"
+    problems += _read_back(client, schema_doc, fuzz_world, made)
     assert not problems, f"{len(problems)} problems:\n" + "\n".join(problems[:60])
+
+
+def _read_back(client, schema_doc: dict, world: World, made: list[tuple[str, str]]) -> list[str]:
+    """Create, then read: every record a hostile value made (a date as a name, control characters as a note...)
+    is read back by its detail (and a unit by its tree, page and label page), and every list, export and page
+    that shows records is read once more. None of them may answer 5xx."""
+    from inventory.models import AHU
+
+    problems = []
+    reads = [(path, what) for path, what in made]
+    reads += [(path + "tree/", what) for path, what in made if "/ahus/" in path]
+    for path, what in made:
+        if "/ahus/" in path:
+            pk = int(path.rstrip("/").rsplit("/", 1)[-1])
+            unit = AHU.objects.get(pk=pk)
+            reads += [(f"/registry/unit/{pk}/", what), (f"/u/{unit.label_code}/", what)]
+    for method, template, _op in _operations(schema_doc):
+        if (method == "get" and "{" not in template) or template == "/api/inventory/export/{kind}/":
+            for kind in KINDS if "{kind}" in template else ("",):
+                reads.append((template.replace("{kind}", kind), "(after the hostile writes)"))
+    reads += [(page, "(after the hostile writes)") for page in ("/board/", "/registry/", "/findings/", "/records/")]
+    for path, what in reads:
+        response = client.get(path)
+        if response.status_code >= 500:
+            problems.append(f"GET {path} of a record made by {what} -> {response.status_code}")
+    return problems
