@@ -375,3 +375,49 @@ def _read_back(client, schema_doc: dict, world: World, made: list[tuple[str, str
         if response.status_code >= 500:
             problems.append(f"GET {path} of a record made by {what} -> {response.status_code}")
     return problems
+
+
+def test_multipart_fields_refuse_hostile_values_without_a_server_error(fuzz_world):
+    """The text fields of the two upload operations (a photo: its client id and work order; a registry CSV: its
+    organisation, dry run and background switches), in turn, hold each hostile text beside a valid file: no 5xx,
+    a refusal saves nothing and is JSON with a message."""
+    import uuid
+
+    from django.core.files.uploadedfile import SimpleUploadedFile
+    from django.test import Client
+
+    from tests.factories.inspections import image_bytes
+    from tests.security.hostile import TEXT_VALUES
+
+    a = fuzz_world.a
+    uploads = {
+        "/api/inspections/photos/": (
+            fuzz_world.technician,
+            lambda: {
+                "file": SimpleUploadedFile("p.jpg", image_bytes(), content_type="image/jpeg"),
+                "client_uuid": str(uuid.uuid4()),
+                "work_order": str(a.open_work_order.public_id),
+            },
+        ),
+        "/api/inventory/import/sites/": (
+            fuzz_world.supervisor,
+            lambda: {
+                "file": SimpleUploadedFile("s.csv", b"code,name\r\n", content_type="text/csv"),
+                "organisation": fuzz_world.ours.slug,
+                "dry_run": "true",
+                "background": "false",
+            },
+        ),
+    }
+    problems: list[str] = []
+    for path, (person, valid) in uploads.items():
+        client = Client(raise_request_exception=False)
+        client.force_login(person)
+        accepted = client.post(path, valid())
+        assert accepted.status_code in (200, 201), (path, accepted.content[:300])  # the valid upload is taken
+        for name in [n for n in valid() if n != "file"]:
+            for value in TEXT_VALUES:
+                counts = row_counts()
+                response = client.post(path, {**valid(), name: value})
+                problems += _judge(f"POST {path} {name}={value!r:.40}", response, name, counts)
+    assert not problems, f"{len(problems)} problems:\n" + "\n".join(problems[:60])
