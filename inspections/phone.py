@@ -193,14 +193,43 @@ def evaluation_context(
     }
 
 
+def meter_context(*, ahu, as_of: dt.datetime) -> dict[str, Any]:
+    """The unit's latest run-hour reading and the numbers of ``scheduling.services.meter_reading_check``,
+    so the phone (meter.js) judges a typed run-hour value by the same rule the server refuses it with."""
+    import zoneinfo
+
+    from accounts.inputs import local_text
+    from inspections.services.sync import RUN_HOURS_IF_REPLACED
+    from scheduling.selectors import latest_meter_reading
+    from scheduling.services import meters
+
+    last = latest_meter_reading(ahu=ahu, as_of=as_of)
+    zone = zoneinfo.ZoneInfo(ahu.building.site.time_zone or "UTC")
+    return {
+        "last": None
+        if last is None
+        else {
+            "hours": last.hours,
+            "taken_at": last.taken_at.astimezone(dt.UTC).isoformat(),
+            "taken_text": local_text(last.taken_at, zone),
+        },
+        "gain_tolerance_fraction": meters.GAIN_TOLERANCE_FRACTION,
+        "gain_tolerance_h": meters.GAIN_TOLERANCE_H,
+        "if_replaced": RUN_HOURS_IF_REPLACED,
+    }
+
+
 def checklist_context(*, checklist, as_of: dt.datetime) -> dict[str, Any]:
     """The evaluation context of one work order's checklist (``selectors.checklist_build``), as of a moment."""
     from inspections.services.sync import _filter_points_for
 
     ahu = checklist.work_order.ahu
-    return evaluation_context(
-        ahu=ahu,
-        components=list(ahu.components.all()),
-        slots=checklist.slots,
-        filter_points=_filter_points_for(ahu, as_of),
-    )
+    return {
+        **evaluation_context(
+            ahu=ahu,
+            components=list(ahu.components.all()),
+            slots=checklist.slots,
+            filter_points=_filter_points_for(ahu, as_of),
+        ),
+        "meter": meter_context(ahu=ahu, as_of=as_of),
+    }

@@ -510,3 +510,16 @@ def today_visit_rows_for(*, technician, day: dt.date, start: tuple[float, float]
         {"order": n, "leg_km": leg, "site": sites[pk], "work_orders": by_site[pk]}
         for n, pk, leg in _route(points=points, start=start)
     ]
+
+
+def latest_meter_reading(*, ahu, component=None, as_of: dt.datetime | None = None):
+    """The unit's (or component's) latest run-hour reading at or before ``as_of`` (default: any), or None.
+
+    The reading ``services.meter_reading_check`` compares a new reading with when it is the newest.
+    """
+    from .models import MeterReading
+
+    rows = MeterReading.objects.filter(ahu=ahu, component=component)
+    if as_of is not None:
+        rows = rows.filter(taken_at__lte=as_of)
+    return rows.order_by("-taken_at", "-id").first()

@@ -162,6 +162,10 @@ def _reading(parsed: Parsed, i: int, raw: object, seen: set, errors: Errors) -> 
     parsed.readings.append(reading)
 
 
+# What a technician does when the meter was in fact replaced (the phone shows the same words, inspections.phone).
+RUN_HOURS_IF_REPLACED = "answer “not applicable” here and give the office the new meter's reading"
+
+
 def _run_hours(parsed: Parsed, raw_readings: list, errors: Errors) -> None:
     """Refuse a run-hour value the unit's meter cannot have reached since its last reading.
 
@@ -185,7 +189,7 @@ def _run_hours(parsed: Parsed, raw_readings: list, errors: Errors) -> None:
             hours=reading.value_si,
             taken_at=parsed.finished_at,
             label=reading.item.label,
-            if_replaced="answer “not applicable” here and give the office the new meter's reading",
+            if_replaced=RUN_HOURS_IF_REPLACED,
         )
     except ValidationError as exc:
         for problems in exc.error_dict.values():

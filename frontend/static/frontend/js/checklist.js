@@ -2,6 +2,7 @@
 // twin of the server's evaluation), photos, signature, and the finished form into the outbox.
 import { evaluate, readingKey, reasonIn } from "./evaluate.js";
 import { plausibility } from "./limits.js";
+import { meterReadingCheck } from "./meter.js";
 import { newUuid, outboxPut } from "./outbox.js";
 import { attachSignature } from "./signature.js";
 import { announce, currentOwner, myOutbox, myResults, syncOutbox } from "./sync.js";
@@ -75,6 +76,18 @@ function badge(verdict, label) {
   return span;
 }
 
+const RUN_HOURS_KEY = readingKey("visit.run_hours", null);
+
+/** The run-hour value against the unit's last meter reading, by the server's rule (meter.js), as of the phone's clock. */
+function meterVerdict(ctx, hours) {
+  const slot = (ctx.slots || []).find((s) => readingKey(s.item, s.component) === RUN_HOURS_KEY);
+  try {
+    return meterReadingCheck(ctx.meter, hours, new Date(), slot ? slot.label : "Run hours");
+  } catch (error) {
+    return null;
+  }
+}
+
 function showVerdicts(form, ctx) {
   const { readings, blocks, system } = readingsOf(form, ctx);
   let results = [];
@@ -102,6 +115,13 @@ function showVerdicts(form, ctx) {
       if (out.childNodes.length) out.append(document.createElement("br"));
       out.append(badge(r.verdict), ` ${reasonIn(ctx, r, system)} (phone check)`);
       if (r.verdict === "fail") out.append(" — say what you found in the note");
+    }
+    const meter = key === RUN_HOURS_KEY && ctx ? meterVerdict(ctx, readings[key]) : null;
+    if (meter) {
+      if (out.childNodes.length) out.append(document.createElement("br"));
+      out.append(badge(meter.verdict), ` ${meter.message}`);
+      if (meter.verdict === "fail") out.append(" — the server will refuse this form with this value unless the meter was replaced");
+      mine.push(meter);
     }
     if (!mine.length) out.append(badge("recorded", "recorded"), " recorded; nothing judges this reading on its own");
     if (range.improbable) out.append(`; ${range.text}`);

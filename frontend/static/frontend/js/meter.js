@@ -1,0 +1,60 @@
+// The phone's twin of scheduling.services.meter_reading_check for the run-hour reading on a
+// checklist: the same arithmetic, with the unit's latest reading and the rule's numbers shipped in
+// the evaluation context ("meter", inspections/phone.py). Pure: no DOM, no network.
+// tests/inspections/test_meter_agreement.py runs both sides on the same cases.
+import { pyRound } from "./units.js";
+
+/** Python's f"{x:,.{d}f}" (thousands always grouped, as the server's messages write hours). */
+function grouped(x, d) {
+  const text = pyRound(x, d).toFixed(d);
+  const [whole, frac] = text.split(".");
+  const sign = whole.startsWith("-") ? "-" : "";
+  const digits = whole.replace("-", "").replace(/\B(?=(\d{3})+(?!\d))/g, ",");
+  return `${sign}${digits}${frac !== undefined ? `.${frac}` : ""}`;
+}
+
+/** scheduling.services.meters._hours_text: whole hours unless a tenth matters. */
+export function hoursText(h) {
+  return Math.abs(h - Math.round(h)) < 0.05 ? `${grouped(h, 0)} h` : `${grouped(h, 1)} h`;
+}
+
+/** scheduling.services.meters.max_gain_h: elapsed + max(2 %, 1 h). */
+export function maxGainH(meter, elapsedSeconds) {
+  const hours = Math.max(elapsedSeconds, 0) / 3600.0;
+  return hours + Math.max(hours * meter.gain_tolerance_fraction, meter.gain_tolerance_h);
+}
+
+/**
+ * Judge a typed run-hour value against the unit's last reading, as of the phone's clock ``now`` (a Date).
+ * null: nothing to say (no last reading, no number, or the last reading is later than now).
+ * {verdict: "fail", code: "meter_too_fast", message}: the server's own words; it refuses the form.
+ * {verdict: "watch", code: "meter_backwards", message}: below the last reading (the server keeps and flags it).
+ */
+export function meterReadingCheck(meter, hours, now, label = "Run hours") {
+  if (!meter || !meter.last || typeof hours !== "number" || !Number.isFinite(hours)) return null;
+  const last = meter.last;
+  const lastAt = Date.parse(last.taken_at);
+  const elapsedSeconds = (now.getTime() - lastAt) / 1000;
+  if (!(elapsedSeconds >= 0)) return null; // the server compares only with a reading at or before the form's time
+  if (hours < last.hours) {
+    return {
+      verdict: "watch",
+      code: "meter_backwards",
+      message: `below the last reading of ${hoursText(last.hours)} on ${last.taken_text} — meter replaced or misread?`,
+    };
+  }
+  const most = last.hours + maxGainH(meter, elapsedSeconds);
+  if (hours > most + 1e-9) {
+    return {
+      verdict: "fail",
+      code: "meter_too_fast",
+      message:
+        `${label} ${hoursText(hours)} is more than the meter can have run: the previous ` +
+        `reading was ${hoursText(last.hours)} on ${last.taken_text}, ` +
+        `${hoursText(elapsedSeconds / 3600)} of clock time earlier, so at most ` +
+        `${hoursText(most)} is possible (the time passed plus 2 %, at least 1 h). Check the ` +
+        `number; if the meter was replaced, ${meter.if_replaced}`,
+    };
+  }
+  return null;
+}
