@@ -279,6 +279,8 @@ class Finding(models.Model):
         CORRECTED = "corrected", "Corrective work completed"
         AMENDED = "amended", "Cleared by an amendment"
         MERGED = "merged", "Merged into the earlier open finding of the same problem"
+        OK_LATER = "ok_later", "Ok on a later visit"
+        REPLACED = "replaced", "Filters replaced"
 
     organisation = models.ForeignKey(Organisation, on_delete=models.PROTECT, related_name="findings")
     inspection = models.ForeignKey(Inspection, on_delete=models.PROTECT, related_name="findings")

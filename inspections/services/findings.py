@@ -1,7 +1,10 @@
 """Findings: one open finding per unit, part and problem gathers every failure of it; done work closes it.
 
 A finding closes when its corrective work order is completed (at the completion time; sent back for
-rework, it opens again), or when an amendment corrects the readings so that its check passes.
+rework, it opens again), when an amendment corrects the readings so that its check passes, when a later
+visit judges the same check on the same part ok, or (a filter finding) when that bank's filters are replaced.
+A failure after it closed opens a new finding. Corrective work still awaiting approval whose findings are all
+closed is withdrawn.
 """
 
 from __future__ import annotations
@@ -59,6 +62,8 @@ CONDITION_TITLES = {
 }
 # A filter reading below its clean pressure drop is about missing or bypassed media, not loading.
 FILTER_BYPASS_TITLE = "Filter media missing, torn or bypassed"
+# An outdoor-air shortfall that comes from the design: the unit meets its design minimum, which is too low.
+DESIGN_REVIEW_TITLE = "Design minimum outdoor air below the ventilation requirement"
 FILTER_CHECKS = {"filter_loading", "filter_after_change"}
 # Checks over the outdoor-air fraction: one problem however it was measured.
 OUTDOOR_AIR_CHECKS = {"oa_fraction_temperature", "oa_fraction_co2"}
@@ -104,10 +109,11 @@ def _step_label(item: str, cache: dict) -> tuple[str, str] | None:
     return cache[item]
 
 
-def _title(res, condition: str, cache: dict) -> str:
-    """A plain title: the problem's name, or the test and its step; then the part it concerns."""
+def _title(res, condition: str, cache: dict, *, design_review: bool = False) -> str:
+    """A plain title: the problem's name, or the test and its step; then the part it concerns. A design review
+    names the design minimum below the requirement (the unit meets its design minimum)."""
     where = f" — {res.component.name}" if res.component is not None else ""
-    words = CHECK_TITLES.get(res.check)
+    words = DESIGN_REVIEW_TITLE if design_review else CHECK_TITLES.get(res.check)
     if res.check in FILTER_CHECKS and (getattr(res, "derived", None) or {}).get("media_bypass_suspected") is True:
         words = FILTER_BYPASS_TITLE
     if words is None and res.check in STEP_CHECKS:
@@ -310,9 +316,12 @@ def findings_open(
     labels: dict = {}
     found: dict[int, Finding] = {}
     needs_work: dict[str, dict] = {}
+    replaced = banks_replaced(results=results)
     for ev, res in zip(evaluations, results, strict=True):
         if ev.verdict != "fail":
             continue
+        if res.check == "filter_loading" and res.component is not None and res.component.pk in replaced:
+            continue  # the old set, read before it was replaced on this visit: the replacement answers it
         condition = res.condition_code
         if not condition and res.check in STEP_CHECKS:
             condition = by_template.get(res.item.split(".", 1)[0], "")
@@ -325,7 +334,7 @@ def findings_open(
             "problem": problem_of(check=res.check, item=res.item),
             "kind": Finding.Kind.DESIGN_REVIEW if design_review else Finding.Kind.CORRECTIVE,
             "severity": "critical" if urgent else SEVERITY.get(condition, res.severity),
-            "title": _title(res, condition, labels),
+            "title": _title(res, condition, labels, design_review=design_review),
             "reason": rs.render(parts, "si")[:500],
             "reason_parts": parts,
             "condition_code": condition,
@@ -342,6 +351,10 @@ def findings_open(
         )
         group["findings"][finding.pk] = finding  # the latest copy of the row, as returned
         group["urgent"] = group["urgent"] or urgent
+    if amendment is None:  # an amendment corrects an earlier visit: findings_close_cleared judges it
+        findings_resolve(
+            inspection=inspection, evaluations=evaluations, results=results, failed=set(found), at=seen_at, by=by
+        )
     source_ref = f"inspection:{inspection.pk}" + (f" amendment:{amendment.pk}" if amendment is not None else "")
     for key, group in needs_work.items():
         _corrective_for_group(
@@ -354,6 +367,78 @@ def findings_open(
             by=by,
         )
     return list(found.values())
+
+
+RESOLVED_WITHDRAWN = "withdrawn: its findings were resolved on a later visit before the work was approved"
+# Findings a later partial ok must not close: the freeze-protection test closes by the corrective retest.
+NOT_RESOLVED_BY_LATER_OK = {"freeze_protection_failed"}
+
+
+def banks_replaced(*, results) -> set[int]:
+    """Filter banks whose filters the form says were replaced (the replacement step answered ok)."""
+    return {
+        res.component.pk
+        for res in results
+        if res.item == "filter_replace.replaced" and res.verdict == "ok" and res.component is not None
+    }
+
+
+def _is_filter_finding(finding: Finding) -> bool:
+    return finding.condition_code == "filter_loaded" or finding.problem.split(":", 1)[0] in FILTER_CHECKS
+
+
+def findings_resolve(*, inspection: Inspection, evaluations, results, failed: set[int], at, by) -> list[Finding]:
+    """Close the open findings of this unit that this visit (finished at ``at``) shows resolved.
+
+    A finding is resolved when the visit judges the same check of the same part ok ("ok on a later visit"), or
+    for a filter finding when that bank's filters were replaced ("filters replaced"); closed at ``at``, audited.
+    Findings this visit saw fail (``failed``), findings seen on a visit after this one (an older form synced
+    late), and freeze-protection findings (closed by the corrective retest) stay open. Corrective work still
+    awaiting approval whose findings are then all closed is withdrawn.
+    """
+    ok = {
+        (problem_of(check=res.check, item=res.item), res.component.pk if res.component else None)
+        for ev, res in zip(evaluations, results, strict=True)
+        if ev.verdict == "ok"
+    }
+    replaced = banks_replaced(results=results)
+    if not ok and not replaced:
+        return []
+    closed = []
+    for finding in (
+        Finding.objects.select_for_update(of=("self",))
+        .filter(ahu_id=inspection.ahu_id, state=Finding.State.OPEN)
+        .exclude(pk__in=failed)
+        .exclude(condition_code__in=NOT_RESOLVED_BY_LATER_OK)
+        .order_by("pk")
+    ):
+        if finding.latest_inspection_id == inspection.pk or (finding.last_seen_at or finding.opened_at) > at:
+            continue
+        if finding.component_id in replaced and _is_filter_finding(finding):
+            cause = Finding.CloseCause.REPLACED
+        elif (finding.problem, finding.component_id) in ok:
+            cause = Finding.CloseCause.OK_LATER
+        else:
+            continue
+        _close(finding, at=at, cause=cause, by=by, changes={"inspection": inspection.pk})
+        closed.append(finding)
+    _withdraw_resolved(findings=closed, by=by)
+    return closed
+
+
+def _withdraw_resolved(*, findings: list[Finding], by) -> None:
+    """Withdraw (cancel, audited) each corrective proposal still awaiting approval whose findings are all closed.
+    Approved work is left to the supervisor."""
+    from scheduling.models import WorkOrder
+    from scheduling.services import work_order_cancel
+
+    ids = {f.corrective_work_order_id for f in findings if f.corrective_work_order_id is not None}
+    for wo in WorkOrder.objects.select_for_update().filter(pk__in=ids).order_by("pk"):
+        if wo.approval != WorkOrder.Approval.PENDING or wo.state not in WorkOrder.OPEN_STATES:
+            continue
+        if Finding.objects.filter(corrective_work_order=wo, state=Finding.State.OPEN).exists():
+            continue
+        work_order_cancel(work_order=wo, by=by, reason=RESOLVED_WITHDRAWN)
 
 
 DESIGN_REVIEW_WITHDRAWN = (

@@ -1,0 +1,106 @@
+"""Findings that the work in the field resolves, walked as the technician's phone syncs each visit.
+
+Scenario: the final filters of a unit read over their final pressure drop on visit 1 (a finding, and corrective
+work proposed for it); on visit 2, a preventive visit, the filters are replaced: the finding closes ("filters
+replaced", at that visit) and the proposal, still awaiting approval, is withdrawn with a reason. Visits 3 and 4
+read the new set clean; visit 5 reads it loaded again: a NEW finding, not the old one seen again. The outdoor-air
+damper off its command on visit 1 and at it on visit 2 closes its finding "ok on a later visit".
+
+Numbers: final filters rated clean 90 Pa, final 250 Pa at the design 3.0 m³/s (demo specs); read at design
+airflow, 280 Pa is over the final value (fail) and 100-150 Pa is inside the span (engineering.filters, common
+practice). Damper: command 50 %, position 70 % is 20 points off (fail above 10 points); 51 % is 1 point off
+(ok within 5 points) — controls.damper_position_check, common practice.
+"""
+
+import datetime as dt
+
+import pytest
+import time_machine
+
+from accounts.models import AuditEvent
+from inspections.models import Finding
+from scheduling.models import WorkOrder
+from tests.factories.inspections import make_visit, r, sync_form
+
+pytestmark = pytest.mark.django_db
+SYNC = "/api/inspections/sync/"
+DAY0 = dt.datetime(2026, 6, 5, 9, 30, tzinfo=dt.UTC)
+
+
+def _visit(api_client, ahu, tech, *, days, final_dp, replaced_after=None, damper_pos=None):
+    tasks = ["filter_check"] + (["filter_replace"] if replaced_after is not None else [])
+    tasks += ["damper_actuator"] if damper_pos is not None else []
+    wo, tech = make_visit(
+        tasks=tasks, ahu=ahu, organisation=ahu.building.site.organisation if ahu else None, technician=tech
+    )
+    ahu = wo.ahu
+    pre, final = ahu.components.get(name="Pre-filters"), ahu.components.get(name="Final filters")
+    readings = [r("visit.run_hours", 1000 + 10 * days), r("visit.supply_airflow", 3000)]  # L/s: design airflow
+    for bank, value in ((pre, 60), (final, final_dp)):
+        readings += [r("filter_check.dp", value, bank), r("filter_check.seated", "ok", bank)]
+    if replaced_after is not None:
+        for bank, value in ((pre, 52), (final, replaced_after)):
+            readings += [r("filter_replace.replaced", "ok", bank), r("filter_replace.dp_after", value, bank)]
+    if damper_pos is not None:
+        damper = ahu.components.get(name="Outdoor-air damper")
+        readings += [r("damper_actuator.command", 50, damper), r("damper_actuator.position", damper_pos, damper)]
+    finished = DAY0 + dt.timedelta(days=days)
+    with time_machine.travel(finished + dt.timedelta(hours=1), tick=False):
+        api_client.force_authenticate(tech)
+        res = api_client.post(SYNC, {"forms": [sync_form(wo, readings, finished_at=finished)]}, format="json")
+    [result] = res.json()["results"]
+    assert result["status"] in ("stored", "flagged"), result
+    return ahu, tech, finished
+
+
+def _open(ahu, component_name, check):
+    return Finding.objects.filter(
+        ahu=ahu, component__name=component_name, problem__startswith=check, state=Finding.State.OPEN
+    )
+
+
+def test_replaced_filters_close_their_finding_and_withdraw_the_proposal_and_a_later_load_opens_a_new_one(
+    api_client,
+):
+    """Visit 1 loaded → finding + pending proposal; visit 2 replaced → closed, withdrawn; visit 5 → a new finding.
+    The damper off its command then at it closes its finding "ok on a later visit" at the second visit."""
+    ahu, tech, _ = _visit(api_client, None, None, days=0, final_dp=280, damper_pos=70)
+    [loaded] = _open(ahu, "Final filters", "filter_loading")
+    [damper] = _open(ahu, "Outdoor-air damper", "damper_position")
+    proposal = loaded.corrective_work_order
+    assert proposal is not None and proposal.approval == WorkOrder.Approval.PENDING
+    assert "Final filters" in proposal.title and "Pre-filters" not in proposal.title
+
+    ahu, tech, second = _visit(api_client, ahu, tech, days=30, final_dp=290, replaced_after=95, damper_pos=51)
+    loaded.refresh_from_db()
+    damper.refresh_from_db()
+    assert (loaded.state, loaded.close_cause, loaded.closed_at) == ("closed", "replaced", second)
+    assert loaded.get_close_cause_display() == "Filters replaced"
+    assert (damper.state, damper.close_cause, damper.closed_at) == ("closed", "ok_later", second)
+    assert damper.get_close_cause_display() == "Ok on a later visit"
+    assert not _open(ahu, "Final filters", "filter_loading").exists(), "the old set's reading opens nothing"
+    proposal.refresh_from_db()
+    assert proposal.state == WorkOrder.State.CANCELLED and "resolved" in proposal.cancel_reason
+    assert AuditEvent.objects.filter(action="finding_close", object_id=str(loaded.pk)).exists()
+    # The damper's corrective work, awaiting approval and now holding only closed findings, is withdrawn too.
+    damper_wo = damper.corrective_work_order
+    damper_wo.refresh_from_db()
+    assert damper_wo.state == WorkOrder.State.CANCELLED
+
+    for days, dp in ((60, 100), (90, 150)):
+        ahu, tech, _ = _visit(api_client, ahu, tech, days=days, final_dp=dp)
+    assert not Finding.objects.filter(ahu=ahu, state=Finding.State.OPEN).exists()
+
+    ahu, tech, fifth = _visit(api_client, ahu, tech, days=120, final_dp=280)
+    [again] = _open(ahu, "Final filters", "filter_loading")
+    assert again.pk != loaded.pk and again.opened_at == fifth and again.times_seen == 1
+    assert again.corrective_work_order is not None and again.corrective_work_order.pk != proposal.pk
+    assert again.corrective_work_order.state != WorkOrder.State.CANCELLED
+
+
+def test_an_older_visit_synced_late_does_not_close_a_newer_failure(api_client):
+    """A form finished before the finding's latest failure, synced afterwards, leaves the finding open."""
+    ahu, tech, _ = _visit(api_client, None, None, days=30, final_dp=280, damper_pos=70)
+    ahu, tech, _ = _visit(api_client, ahu, tech, days=0, final_dp=100, damper_pos=51)
+    assert _open(ahu, "Final filters", "filter_loading").exists()
+    assert _open(ahu, "Outdoor-air damper", "damper_position").exists()
