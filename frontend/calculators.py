@@ -13,6 +13,7 @@ from engineering import _validate as limits
 from engineering import airside, filters, outdoor_air
 from engineering.errors import EngineeringInputError
 from engineering.units import from_display, to_display, unit_label
+from inspections.reasons import display_number
 
 
 @dataclass(frozen=True)
@@ -23,6 +24,8 @@ class Input:
     low_si: float | None
     high_si: float | None
     default_si: float | None = None
+    # A choice instead of a number: (value, plain words) pairs, the first the default.
+    choices: tuple[tuple[str, str], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -34,10 +37,13 @@ class Calculator:
     compute: Callable[..., list[dict]]
 
 
-def _row(label: str, value: float, quantity: str | None, system: str, decimals: int = 2) -> dict:
-    shown = to_display(value=value, quantity=quantity, system=system) if quantity else value
-    unit = unit_label(quantity=quantity, system=system) if quantity else ""
-    return {"label": label, "value": round(shown, decimals), "unit": unit}
+def _row(label: str, value: float, quantity: str, system: str) -> dict:
+    """A figure in the reader's unit at the quantity's usual precision (as the checklist's reasons show it)."""
+    return {
+        "label": label,
+        "value": display_number(value, quantity, system),
+        "unit": unit_label(quantity=quantity, system=system),
+    }
 
 
 def _fraction_rows(result: outdoor_air.OaFraction, system: str) -> list[dict]:
@@ -71,7 +77,15 @@ def _filter_loading(system: str, **si) -> list[dict]:
 
 
 def _sensible_heat(system: str, **si) -> list[dict]:
+    # The checklist's coil check calls the same function: the air's density is taken at the state where
+    # the airflow was measured (a supply fan after the coil measures leaving air).
     return [_row("Sensible heat added to the air", airside.sensible_heat_w(**si), "heat_rate", system)]
+
+
+AIRFLOW_AT = (
+    ("leaving", "leaving air (e.g. measured at a supply fan after the coil)"),
+    ("entering", "entering air (e.g. measured before the coil, or a coil's rated airflow)"),
+)
 
 
 T = limits.AIR_TEMPERATURE_C
@@ -119,11 +133,13 @@ CALCULATORS: dict[str, Calculator] = {
         Calculator(
             "sensible-heat",
             "Sensible heat of an airstream",
-            "Dry standard air at sea level; positive when the air is heated.",
+            "Dry air at sea level (101.325 kPa), its density taken at the state where the airflow was measured"
+            " (as the checklist's coil check does); positive when the air is heated.",
             (
                 Input("airflow_m3s", "Airflow", "airflow", *Q),
                 Input("t_in_c", "Entering air", "temperature", *T),
                 Input("t_out_c", "Leaving air", "temperature", *T),
+                Input("airflow_at", "Airflow measured at", "", None, None, choices=AIRFLOW_AT),
             ),
             _sensible_heat,
         ),
@@ -143,10 +159,11 @@ def input_fields(calc: Calculator, system: str) -> list[dict]:
         {
             "name": i.name,
             "label": i.label,
-            "unit": unit_label(quantity=i.quantity, system=system),
-            "min": _display(i.low_si, i.quantity, system),
-            "max": _display(i.high_si, i.quantity, system),
+            "unit": unit_label(quantity=i.quantity, system=system) if i.quantity else "",
+            "min": _display(i.low_si, i.quantity, system) if i.quantity else None,
+            "max": _display(i.high_si, i.quantity, system) if i.quantity else None,
             "id": f"{calc.name}-{i.name}",
+            "choices": [{"value": k, "label": words} for k, words in i.choices],
         }
         for i in calc.inputs
     ]
@@ -180,6 +197,15 @@ def calculate(*, name: str, values: dict, system: str) -> list[dict]:
     si, errors = {}, {}
     for spec in calc.inputs:
         raw = values.get(spec.name)
+        if spec.choices:
+            keys = [k for k, _ in spec.choices]
+            picked = keys[0] if raw in (None, "") else raw
+            if picked in keys:
+                si[spec.name] = picked
+            else:
+                words = " or ".join(w for _, w in spec.choices)
+                errors[spec.name] = [f"{spec.label}: choose {words}"]
+            continue
         unit = unit_label(quantity=spec.quantity, system=system)
         try:
             number = float(str(raw).replace(",", "."))
@@ -204,15 +230,24 @@ def calculator_context() -> dict:
     """What calc.js needs to work every figure offline with the same numbers: the inputs of each
     calculator (name, label, quantity, SI range), the display-unit factors and the thresholds."""
     from inspections.phone import constants, unit_table
+    from inspections.reasons import DECIMALS
 
     return {
         "calculators": {
             c.name: [
-                {"name": i.name, "label": i.label, "quantity": i.quantity, "low": i.low_si, "high": i.high_si}
+                {
+                    "name": i.name,
+                    "label": i.label,
+                    "quantity": i.quantity,
+                    "low": i.low_si,
+                    "high": i.high_si,
+                    **({"choices": [[k, w] for k, w in i.choices]} if i.choices else {}),
+                }
                 for i in c.inputs
             ]
             for c in CALCULATORS.values()
         },
         "units": unit_table(),
+        "decimals": {q: list(d) for q, d in DECIMALS.items()},
         "constants": constants(),
     }

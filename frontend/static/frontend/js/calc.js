@@ -4,10 +4,11 @@
 import {
   EngineeringInputError, filterLoading, oaFractionFromCo2, oaFractionFromTemperatures, pyRound, sensibleHeatW,
 } from "./evaluate.js";
-import { fixed, fromDisplay, toDisplay, unitLabel } from "./units.js";
+import { displayNumber, fixed, fromDisplay, toDisplay, unitLabel } from "./units.js";
 
-function row(ctx, label, value, quantity, system, decimals = 2) {
-  return { label, value: pyRound(toDisplay(ctx.units, value, quantity, system), decimals), unit: unitLabel(ctx.units, quantity, system) };
+// A figure in the reader's unit at the quantity's usual precision (frontend/calculators.py: _row).
+function row(ctx, label, value, quantity, system) {
+  return { label, value: displayNumber(ctx, value, quantity, system), unit: unitLabel(ctx.units, quantity, system) };
 }
 
 function fractionRows(r) {
@@ -30,9 +31,9 @@ const COMPUTE = {
       { label: "Reason", value: r.reason, unit: "" },
     ];
   },
-  // Dry standard air at sea level, airflow at the entering state (as the server's calculator).
+  // Dry air at sea level, density at the state where the airflow was measured (as the checklist's coil check).
   "sensible-heat": (ctx, system, si) => [
-    row(ctx, "Sensible heat added to the air", sensibleHeatW({ airflow: si.airflow_m3s, tIn: si.t_in_c, tOut: si.t_out_c }), "heat_rate", system),
+    row(ctx, "Sensible heat added to the air", sensibleHeatW({ airflow: si.airflow_m3s, tIn: si.t_in_c, tOut: si.t_out_c, airflowAt: si.airflow_at }), "heat_rate", system),
   ],
 };
 
@@ -63,6 +64,13 @@ export function calculate(ctx, name, values, system) {
   const errors = {};
   for (const spec of inputs) {
     const raw = values[spec.name];
+    if (spec.choices) {
+      const keys = spec.choices.map(([k]) => k);
+      const picked = raw === undefined || raw === null || raw === "" ? keys[0] : raw;
+      if (keys.includes(picked)) si[spec.name] = picked;
+      else errors[spec.name] = [`${spec.label}: choose ${spec.choices.map(([, w]) => w).join(" or ")}`];
+      continue;
+    }
     const unit = unitLabel(ctx.units, spec.quantity, system);
     const text = String(raw ?? "").trim().replace(",", ".");
     const number = text === "" ? NaN : Number(text);

@@ -46,7 +46,7 @@ async function run(form) {
   const box = form.querySelector("[data-calc-result]");
   const ctx = calculatorContext();
   if (ctx && ctx.calculators[form.dataset.calc]) {
-    const typed = Object.fromEntries([...form.querySelectorAll("input[type=number]")].map((i) => [i.name, i.value]));
+    const typed = Object.fromEntries([...form.querySelectorAll("input[type=number], select")].map((i) => [i.name, i.value]));
     const answer = calculate(ctx, form.dataset.calc, typed, document.body.dataset.units || "si");
     if (answer.rows) show(box, answer.rows, [], "");
     else show(box, [], Object.values(answer.errors).flat(), "");
@@ -58,7 +58,7 @@ async function run(form) {
     return;
   }
   if (problems.length) { show(box, [], problems, ""); return; }
-  const values = Object.fromEntries([...form.querySelectorAll("input[type=number]")].map((i) => [i.name, Number(i.value)]));
+  const values = Object.fromEntries([...form.querySelectorAll("input[type=number], select")].map((i) => [i.name, i.tagName === "SELECT" ? i.value : Number(i.value)]));
   try {
     const response = await fetch(`/api/calc/${form.dataset.calc}/`, {
       method: "POST", credentials: "same-origin",

@@ -69,6 +69,11 @@ function decimalsOf(decimalsTable, part, system) {
   return part.decimals !== undefined && part.decimals !== null ? part.decimals : si;
 }
 
+/** A stored SI value as a reader sees it (inspections/reasons.py: display_number), without its unit label. */
+export function displayNumber(ctx, value, quantity, system) {
+  return formatNumber(toDisplay(ctx.units, value, quantity, system), decimalsOf(ctx.decimals, { quantity }, system));
+}
+
 function withUnit(units, text, quantity, system) {
   const unit = unitLabel(units, quantity, system);
   return unit ? `${text} ${unit}` : text;
