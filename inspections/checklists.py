@@ -31,6 +31,12 @@ ELECTRIC = (
     "Electric preheaters are live at mains voltage: only a qualified person tests stages, "
     "with the heater isolated except for the test itself."
 )
+# Proving a fan means stopping and starting it with the unit live, so lockout cannot cover the test itself.
+RUNNING_FAN = (
+    "Fans under test start and stop under control (schedule, building automation, fire and smoke "
+    "controls) without warning: keep access doors shut while the fan can run, keep clear of belts, "
+    "shafts and impellers, and lock out and tag out before reaching inside."
+)
 GENERAL_CAUTIONS = [LOCKOUT, HOT_COILS, LOCAL_CODES]
 
 # Ranges that no reading in an AHU can leave (SI). Air from −60 to 120 °C
@@ -360,9 +366,9 @@ TEMPLATES: list[dict[str, Any]] = [
     },
     {
         "code": "fan_proving",
-        "version": 1,
+        "version": 2,  # v2: the running-fan caution
         "title": "Fan proving",
-        "cautions": [LOCAL_CODES],
+        "cautions": [RUNNING_FAN, LOCAL_CODES],
         "items": [
             check(
                 "proving_test",

@@ -67,7 +67,7 @@ CONDITION = "freeze_protection_failed"
 READY, DONE_LATE, DUE, NOT_READY, UNKNOWN = "ready", "done_late", "due", "not_ready", "season_unknown"
 LABELS = {
     READY: "Ready",
-    DONE_LATE: "Done late",
+    DONE_LATE: "Ready, tested late",
     DUE: "Due",
     NOT_READY: "Not ready",
     UNKNOWN: "Season unknown",
@@ -238,7 +238,9 @@ class FreezeReadiness:
 
     @property
     def ready(self) -> bool:
-        return self.status == READY
+        """Protected now: proven every step, even if the proof came after the season began
+        (the lateness stays in the status and in the on-time figures)."""
+        return self.status in (READY, DONE_LATE)
 
     @property
     def why(self) -> str:
@@ -255,6 +257,7 @@ class FreezeReadiness:
             "label": self.label,
             "reason": self.reason,
             "why": self.why,
+            "ready": self.ready,
             "done_on": self.tested_on,
             "tested_on": self.tested_on,
             "not_passed": self.not_passed,

@@ -189,6 +189,11 @@ class ComplianceFigures:
     by_site: dict[int, dict] = field(default_factory=dict)
 
     @property
+    def freeze_ready_now(self) -> int:
+        """Units proven ready now, on time or late (``inspections.freeze.FreezeReadiness.ready``)."""
+        return sum(1 for r in self.freeze if r["ready"])
+
+    @property
     def age_labels(self) -> list[str]:
         return [label for _, _, label in AGE_BUCKETS]
 
@@ -282,7 +287,7 @@ def compliance_figures(*, site_ids: list[int], start: date, end: date, as_of: da
         findings_total += 1
         by_site[site_id]["findings_total"] += 1
 
-    filters = _filter_rows(units=units, as_of=as_of)
+    filters = _filter_rows(units=units, as_of=as_of, today_of=today_of)
     freeze, freeze_counts = _freeze_rows(units=units, as_of=as_of, today_of=today_of)
     return ComplianceFigures(
         start=start,
@@ -302,7 +307,7 @@ def compliance_figures(*, site_ids: list[int], start: date, end: date, as_of: da
     )
 
 
-def _filter_rows(*, units: list[AHU], as_of: datetime) -> list[dict]:
+def _filter_rows(*, units: list[AHU], as_of: datetime, today_of: dict[int, date]) -> list[dict]:
     latest = Evaluation.objects.filter(
         component=OuterRef("pk"), check_name="filter_loading", inspection__finished_at__lte=as_of
     ).order_by("-inspection__finished_at", "-pk")
@@ -340,7 +345,7 @@ def _filter_rows(*, units: list[AHU], as_of: datetime) -> list[dict]:
                     "derived": derived,
                     "at": bank.eval_at,
                     "corrected_dp_pa": point.corrected_dp_pa if point else None,
-                    "forecast": filter_forecast_text(derived=derived),
+                    "forecast": filter_forecast_text(derived=derived, today=today_of[unit.building.site_id]),
                 }
             )
         if unit.pk not in by_unit:
@@ -358,11 +363,25 @@ def _filter_rows(*, units: list[AHU], as_of: datetime) -> list[dict]:
     return out
 
 
-def filter_forecast_text(*, derived: dict) -> str:
-    """The change forecast of a filter evaluation in words: its date, or "now" when the filter is already due."""
+def filter_forecast_text(*, derived: dict, today: date) -> str:
+    """The change forecast of a filter evaluation in words, judged on the site's ``today``.
+
+    "now" when the filter was already due at the evaluation; a stored date before ``today`` (a forecast made
+    at an earlier visit) reads "due now (forecast for <date>)"; a date ahead is given as it is. The manager's
+    site page and the compliance PDF both read this.
+    """
     if derived.get("forecast_at_final_now"):
         return "now: at or over its final pressure drop"
-    return derived.get("forecast_change_date") or "—"
+    stored = derived.get("forecast_change_date")
+    if not stored:
+        return "—"
+    try:
+        day = date.fromisoformat(str(stored)[:10])
+    except ValueError:
+        return "—"
+    if day < today:
+        return f"due now (forecast for {day.isoformat()})"
+    return day.isoformat()
 
 
 def _freeze_rows(*, units, as_of, today_of) -> tuple[list[dict], dict[str, int]]:

@@ -14,6 +14,7 @@ from inspections.freeze import (
     NOT_READY,
     READY,
     UNKNOWN,
+    FreezeReadiness,
     FreezeTest,
     OpenFinding,
     freeze_readiness,
@@ -57,6 +58,16 @@ def test_a_passing_retest_makes_it_ready_again():
     late_retest = FreezeTest(on=D("2025-10-25"))
     v = verdict([FAILED, late_retest], D("2025-10-30"))
     assert v.status == DONE_LATE and "after the season began on 20 Oct 2025" in v.reason
+
+
+def test_a_late_but_passing_retest_counts_as_ready_now():
+    """Proven after the season began: protected now (counted ready), the lateness kept in its label."""
+    late = FreezeReadiness(
+        unit=None, status=DONE_LATE, reason="proven late — every step passed on 25 Oct 2025, after …",
+        season_start=D("2025-10-20"), window_opens=D("2025-04-01"),
+    )  # fmt: skip
+    assert late.ready and late.label == "Ready, tested late" and late.as_row()["ready"]
+    assert not FreezeReadiness(unit=None, status=NOT_READY, reason="x", season_start=None, window_opens=None).ready
 
 
 def test_a_watch_on_a_step_is_not_a_pass():

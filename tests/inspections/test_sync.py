@@ -335,3 +335,13 @@ def test_checklist_query_count_does_not_grow_with_items(api_client, django_asser
     api_client.get(f"/api/inspections/work-orders/{wo.public_id}/checklist/")  # installs the library once
     with django_assert_max_num_queries(12):
         assert api_client.get(f"/api/inspections/work-orders/{wo.public_id}/checklist/").status_code == 200
+
+
+def test_fan_proving_checklist_warns_that_fans_start_without_warning(api_client, db):
+    """Proving a fan runs it live, so its checklist carries the running-fan caution besides codes-first."""
+    wo, tech = make_visit(tasks=["fan_proving"])
+    api_client.force_authenticate(tech)
+    doc = api_client.get(f"/api/inspections/work-orders/{wo.public_id}/checklist/").json()
+    [template] = [t for t in doc["templates"] if t["code"] == "fan_proving"]
+    assert any("start and stop" in c and "lock out and tag out" in c for c in template["cautions"])
+    assert any("Local codes" in c for c in doc["cautions"] + template["cautions"])
