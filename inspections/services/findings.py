@@ -487,13 +487,26 @@ def _corrective_for_group(*, inspection, condition: str, findings: list[Finding]
     wo = _open_corrective_for(
         ahu_id=inspection.ahu_id, condition=condition, problem=findings[0].problem, component=component
     )
+    if wo is not None and wo.component_id is not None and len(components) > 1:
+        # Work for one part holds the findings of that part only: each part finds or proposes its own.
+        for part in dict.fromkeys(f.component_id for f in findings):
+            _corrective_for_group(
+                inspection=inspection,
+                condition=condition,
+                findings=[f for f in findings if f.component_id == part],
+                urgent=urgent,
+                source_ref=source_ref,
+                site=site,
+                by=by,
+            )
+        return
     if wo is None:
         worst = max((f.severity for f in findings), key=SEVERITY_ORDER.index)
         if condition:
             title = CONDITION_TITLES.get(condition, findings[0].title)
             if all(f.title.startswith(FILTER_BYPASS_TITLE) for f in findings):
                 title = FILTER_BYPASS_TITLE  # not a loaded filter: its media is missing, torn or bypassed
-            title += f" — {component.name}" if component is not None else ""
+            title += f" — {component.name}" if component is not None else _parts_named(findings)
         else:
             title = findings[0].title
         reason = "; ".join(f.reason for f in findings)
@@ -513,6 +526,14 @@ def _corrective_for_group(*, inspection, condition: str, findings: list[Finding]
     for finding in waiting:
         finding.corrective_work_order = wo
         finding.save(update_fields=["corrective_work_order"])
+
+
+def _parts_named(findings: list[Finding]) -> str:
+    """ " — A and B": the parts of work for several parts, when every finding it holds names its part."""
+    if any(f.component is None for f in findings):
+        return ""
+    names = list(dict.fromkeys(f.component.name for f in findings))
+    return " — " + (", ".join(names[:-1]) + " and " + names[-1] if len(names) > 1 else names[0])
 
 
 # Condition codes the scheduling engine knows; other fails raise corrective work without one.

@@ -27,7 +27,7 @@ SYNC = "/api/inspections/sync/"
 DAY0 = dt.datetime(2026, 6, 5, 9, 30, tzinfo=dt.UTC)
 
 
-def _visit(api_client, ahu, tech, *, days, final_dp, replaced_after=None, damper_pos=None):
+def _visit(api_client, ahu, tech, *, days, final_dp, replaced_after=None, damper_pos=None, pre_dp=60):
     tasks = ["filter_check"] + (["filter_replace"] if replaced_after is not None else [])
     tasks += ["damper_actuator"] if damper_pos is not None else []
     wo, tech = make_visit(
@@ -36,7 +36,7 @@ def _visit(api_client, ahu, tech, *, days, final_dp, replaced_after=None, damper
     ahu = wo.ahu
     pre, final = ahu.components.get(name="Pre-filters"), ahu.components.get(name="Final filters")
     readings = [r("visit.run_hours", 1000 + 10 * days), r("visit.supply_airflow", 3000)]  # L/s: design airflow
-    for bank, value in ((pre, 60), (final, final_dp)):
+    for bank, value in ((pre, pre_dp), (final, final_dp)):
         readings += [r("filter_check.dp", value, bank), r("filter_check.seated", "ok", bank)]
     if replaced_after is not None:
         for bank, value in ((pre, 52), (final, replaced_after)):
@@ -104,3 +104,26 @@ def test_an_older_visit_synced_late_does_not_close_a_newer_failure(api_client):
     ahu, tech, _ = _visit(api_client, ahu, tech, days=0, final_dp=100, damper_pos=51)
     assert _open(ahu, "Final filters", "filter_loading").exists()
     assert _open(ahu, "Outdoor-air damper", "damper_position").exists()
+
+
+def test_corrective_work_holds_only_the_findings_it_names(api_client):
+    """Pre-filters loaded on visit 1 (work proposed "Filter loaded — Pre-filters"); on visit 2 both banks are
+    loaded: the final filters' finding gets its own work order, not the one named for the pre-filters. Both
+    banks loaded on a unit's first visit: one work order naming both banks.
+
+    Pre-filters rated final 150 Pa (demo specs): 170 Pa at design airflow is over it; 60 Pa is inside the span."""
+    ahu, tech, _ = _visit(api_client, None, None, days=0, final_dp=120, pre_dp=170)
+    [pre] = _open(ahu, "Pre-filters", "filter_loading")
+    assert pre.corrective_work_order.title == "Filter loaded — Pre-filters"
+    ahu, tech, _ = _visit(api_client, ahu, tech, days=30, final_dp=280, pre_dp=175)
+    [final] = _open(ahu, "Final filters", "filter_loading")
+    pre.refresh_from_db()
+    assert final.corrective_work_order_id != pre.corrective_work_order_id
+    assert final.corrective_work_order.title == "Filter loaded — Final filters"
+    assert {f.component.name for f in pre.corrective_work_order.source_findings.all()} == {"Pre-filters"}
+
+    other, _, _ = _visit(api_client, None, None, days=0, final_dp=280, pre_dp=170)
+    [a] = _open(other, "Pre-filters", "filter_loading")
+    [b] = _open(other, "Final filters", "filter_loading")
+    assert a.corrective_work_order_id == b.corrective_work_order_id
+    assert a.corrective_work_order.title == "Filter loaded — Pre-filters and Final filters"
