@@ -323,6 +323,9 @@ def filter_forecast(
     No date is earlier than the last reading's: a projection that lands
     before it (the line already at or over the final value) is given the
     last reading's date, with ``at_final_now`` set when the central line is.
+    When the last reading itself (corrected) is at or over the final value,
+    ``at_final_now`` is set and every date is the last reading's, even if
+    the fitted line is still below the final value or no run-hour rate is known.
     """
     final = _dp("final_dp_pa", final_dp_pa, "final filter pressure drop")
     n = _exponent(exponent)
@@ -389,7 +392,14 @@ def filter_forecast(
     early = rate.x_at(final, "high")
     late = rate.x_at(final, "low") if rate.low > 0 else None
 
-    last_h, _, last_when = max(usable, key=lambda u: u[0])
+    last_h, last_dp, last_when = max(usable, key=lambda u: u[0])
+    # The last reading itself at or over the final value: due now, whatever the
+    # fitted line says (a line below it would otherwise give a date months away).
+    over_now = round(last_dp, 9) >= final
+    if over_now:
+        at_final = min(at_final, last_h)
+        early = min(early, last_h)
+        late = last_h if late is None else min(late, last_h)
     if hpd is None:
         try:
             per_day = run_hours_per_day(readings=[(w, h) for h, _, w in usable])
@@ -400,7 +410,12 @@ def filter_forecast(
     latest = max(_as_datetime(w) for _, _, w in usable)
 
     def to_date(h: float | None) -> date | datetime | None:
-        if h is None or hpd is None:
+        if h is None:
+            return None
+        if h <= last_h:  # due now: the last reading's date, with or without a run-hour rate
+            dt = latest
+            return dt if isinstance(last_when, datetime) else (dt + timedelta(hours=12)).date()
+        if hpd is None:
             return None
         # Never before the reading the forecast comes from (nor any reading given).
         try:
@@ -423,7 +438,7 @@ def filter_forecast(
         rate_high_pa_per_hour=rate.high,
         hours_per_day=hpd,
         points_used=len(usable),
-        at_final_now=at_final <= last_h,
+        at_final_now=over_now or at_final <= last_h,
         method=(
             f"Theil–Sen line of pressure drop corrected to design airflow (n = {n:g}) "
             f"against run-hours, {confidence * 100:.0f} % interval"

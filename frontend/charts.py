@@ -20,12 +20,15 @@ def line_chart(
     hline: tuple[float, str] | None = None,
     vline: tuple[dt.date, str] | None = None,
     segments: list[list[tuple[dt.date, float]]] | None = None,
+    markers: list[tuple[dt.date, str]] | None = None,
     width: int = 640,
-    height: int = 240,
+    height: int = 320,
 ) -> str:
-    """A dated line chart with an optional dashed forecast, a limit line and a marked date.
+    """A dated line chart with an optional dashed forecast, a limit line and marked dates.
 
-    ``segments``, when given, are drawn as separate lines (e.g. one per set of filters) in place of ``series``.
+    ``segments``, when given, are drawn as separate lines (e.g. one per set of filters) in place of ``series``,
+    never joined; ``markers`` are further marked dates (e.g. each filter change). Text is sized for the chart
+    to stay legible scaled down to a 360 px phone (at least about 10 px there): 18 units in a 640-wide view.
     """
     forecast = forecast or []
     segments = [seg for seg in (segments or []) if seg] or ([series] if series else [])
@@ -33,7 +36,8 @@ def line_chart(
     points = series + forecast
     if not points:
         return f'<p class="muted">{escape(title)}: no data yet.</p>'
-    dates = [d for d, _ in points] + ([vline[0]] if vline else [])
+    marks = ([vline] if vline else []) + list(markers or [])
+    dates = [d for d, _ in points] + [d for d, _ in marks]
     values = [v for _, v in points] + ([hline[0]] if hline else [])
     d0, d1 = min(dates), max(dates)
     if d0 == d1:
@@ -41,7 +45,8 @@ def line_chart(
     v0, v1 = min(values), max(values)
     pad = (v1 - v0) * 0.1 or 1.0
     v0, v1 = v0 - pad, v1 + pad
-    left, right, top, bottom = 56, width - 12, 28, height - 32
+    fs = 18  # font size in view units: 18 × 360/640 ≈ 10 px on a phone
+    left, right, top, bottom = 64, width - 12, 70, height - 40
     x = _scale(d0.toordinal(), d1.toordinal(), left, right)
     y = _scale(v0, v1, bottom, top)
 
@@ -51,13 +56,13 @@ def line_chart(
     parts = [
         f'<svg viewBox="0 0 {width} {height}" role="img" aria-label="{escape(title)}" xmlns="http://www.w3.org/2000/svg">',
         f"<title>{escape(title)}</title>",
-        f'<text x="{left}" y="16" fill="currentColor" font-size="13">{escape(title)} ({escape(unit)})</text>',
+        f'<text x="4" y="22" fill="currentColor" font-size="{fs}">{escape(title)} ({escape(unit)})</text>',
         f'<line x1="{left}" y1="{bottom}" x2="{right}" y2="{bottom}" stroke="currentColor" stroke-width="1"/>',
         f'<line x1="{left}" y1="{top}" x2="{left}" y2="{bottom}" stroke="currentColor" stroke-width="1"/>',
-        f'<text x="{left - 6}" y="{top + 4}" text-anchor="end" fill="currentColor" font-size="11">{v1:.0f}</text>',
-        f'<text x="{left - 6}" y="{bottom}" text-anchor="end" fill="currentColor" font-size="11">{v0:.0f}</text>',
-        f'<text x="{left}" y="{height - 12}" fill="currentColor" font-size="11">{d0:%d %b %Y}</text>',
-        f'<text x="{right}" y="{height - 12}" text-anchor="end" fill="currentColor" font-size="11">'
+        f'<text x="{left - 6}" y="{top + 4}" text-anchor="end" fill="currentColor" font-size="{fs}">{v1:.0f}</text>',
+        f'<text x="{left - 6}" y="{bottom}" text-anchor="end" fill="currentColor" font-size="{fs}">{v0:.0f}</text>',
+        f'<text x="{left}" y="{height - 12}" fill="currentColor" font-size="{fs}">{d0:%d %b %Y}</text>',
+        f'<text x="{right}" y="{height - 12}" text-anchor="end" fill="currentColor" font-size="{fs}">'
         f"{d1:%d %b %Y}</text>",
     ]
     if hline:
@@ -66,16 +71,19 @@ def line_chart(
             f'<line x1="{left}" y1="{hy:.1f}" x2="{right}" y2="{hy:.1f}" stroke="currentColor" stroke-dasharray="2 4"/>'
         )
         parts.append(
-            f'<text x="{right}" y="{hy - 4:.1f}" text-anchor="end" fill="currentColor" font-size="11">'
+            f'<text x="{right}" y="{hy - 4:.1f}" text-anchor="end" fill="currentColor" font-size="{fs}">'
             f"{escape(hline[1])}</text>"
         )
-    if vline:
-        vx = x(vline[0].toordinal())
+    for i, (day, label) in enumerate(marks):
+        vx = x(day.toordinal())
         parts.append(
             f'<line x1="{vx:.1f}" y1="{top}" x2="{vx:.1f}" y2="{bottom}" stroke="currentColor" stroke-dasharray="6 3"/>'
         )
+        anchor = "end" if vx > (left + right) / 2 else "start"
+        tx = vx - 4 if anchor == "end" else vx + 4
         parts.append(
-            f'<text x="{vx + 4:.1f}" y="{top + 12}" fill="currentColor" font-size="11">{escape(vline[1])}</text>'
+            f'<text x="{tx:.1f}" y="{top - 8 - (i % 2) * 20:.0f}" text-anchor="{anchor}" fill="currentColor" '
+            f'font-size="{fs}">{escape(label)}</text>'
         )
     for seg in segments:
         parts.append(f'<path d="{path(seg)}" fill="none" stroke="currentColor" stroke-width="2.5"/>')

@@ -340,7 +340,11 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
                     points=points, design_airflow_m3s=design_q, final_dp_pa=specs["final_dp_pa"]
                 )
             except EngineeringInputError as exc:
-                forecast_text = "; no change forecast yet"
+                forecast_text = (
+                    "; the trend gives no change date (pressure drop not rising)"
+                    if exc.allowed == "a rising pressure drop"
+                    else "; no change forecast yet"
+                )
                 res.derived["forecast_note"] = str(exc)
             else:
                 res.derived.update(
@@ -356,10 +360,14 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
                 )
                 res.method += "; forecast: " + fc.method
                 forecast_text = (
-                    "; at or over its final pressure drop now by the trend: change it"
+                    "; at its final pressure drop by the trend: change now"
                     if fc.at_final_now
                     else f"; change forecast {_fmt_date(fc.date_at_final)}"
                 )
+        if round(loading.fraction_of_span, 9) >= 1.0:
+            # At or over the final value: change now, never a date ahead or "no date".
+            forecast_text = "; at or over its final pressure drop: change now"
+            res.derived["forecast_at_final_now"] = True
         res.say(
             f"{bank.name}: filter at {pct:.0f} % of its span after correcting to design airflow (",
             qty(loading.corrected_dp_pa, "pressure"),

@@ -14,6 +14,7 @@ from django.views.decorators.http import require_GET
 from engineering.units import to_display, unit_label
 from inspections.selectors import reason_for
 from reports.documents.common import percent, shown
+from scheduling.selectors import site_today
 
 from .. import selectors
 from ..charts import line_chart
@@ -57,6 +58,7 @@ def site_detail(request, pk: int):
         return to_display(value=v, quantity="pressure", system=system)
 
     charts = []
+    today = site_today(site=site)
     for trend in selectors.filter_trends(site=site):
         comp = trend["component"]
         ev = trend["evaluation"]
@@ -66,8 +68,11 @@ def site_detail(request, pk: int):
         change = derived.get("forecast_change_date")
         # The forecast is of the filters the evaluation judged: none once they have been changed since.
         current = not trend["changes"] or (ev is not None and ev.inspection.finished_at.date() > trend["changes"][-1])
+        # No dashed line for a filter due now, nor to a forecast date already past (the table says "due now").
         if change and final and current and not derived.get("forecast_at_final_now"):
-            forecast = [(dt.date.fromisoformat(change), p(final))]
+            change_day = dt.date.fromisoformat(change)
+            if change_day >= today:
+                forecast = [(change_day, p(final))]
         charts.append(
             {
                 "title": f"{comp.ahu.tag} ({comp.ahu.building.name}) {comp.name}: pressure drop at design airflow",
@@ -78,6 +83,7 @@ def site_detail(request, pk: int):
                     series=[],
                     segments=[[(d, p(v)) for d, v in life] for life in trend["lives"]],
                     forecast=forecast,
+                    markers=[(day, "filters changed") for day in trend["changes"]],
                     hline=(p(final), f"final {shown(final, 'pressure', system)}") if final else None,
                 ),
                 "evaluation": ev,

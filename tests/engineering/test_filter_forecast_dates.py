@@ -60,3 +60,37 @@ def test_a_forecast_ahead_keeps_its_date_and_is_not_due_now():
     assert fc.at_final_now is False
     assert fc.run_hours_at_final == pytest.approx(1_720 + 1_080)
     assert fc.date_at_final == dt.date(2025, 6, 5)
+
+
+def test_a_last_reading_over_final_is_due_now_even_when_the_fitted_line_is_below():
+    """Readings 100, 110, 120, 300 Pa (final 250 Pa): the last reading is over final, the fitted line is not.
+
+    Worked by hand (Theil–Sen as scipy.stats.theilslopes, Sen 1968): run-hours 1000, 1360, 1720, 2080;
+    pairwise slopes 10/360, 20/720, 200/1080, 10/360, 190/720, 180/360 Pa/h; median
+    (0.02778 + 0.18519)/2 = 0.1065 Pa/h; intercept at the median run-hours 1540 h is the median Δp
+    115 Pa, so the line reads 115 + 0.1065 × 540 = 172.5 Pa at 2080 h and would reach 250 Pa near
+    2,800 h, about two months on. The reading itself is 300 Pa ≥ 250 Pa: due now, dated the last
+    reading's day, never a future date (issue "One truth from reading to record").
+    """
+    points = _points([100, 110, 120, 300])
+    fc = filter_forecast(points=points, design_airflow_m3s=QD, final_dp_pa=250)
+    assert fc.rate_pa_per_hour == pytest.approx(0.1065, abs=5e-4)
+    assert fc.at_final_now is True
+    last = points[-1].when
+    assert fc.date_at_final == last
+    assert fc.date_low == last
+    assert fc.date_high == last
+    assert fc.run_hours_at_final == points[-1].run_hours
+
+
+def test_a_last_reading_over_final_is_dated_even_without_a_run_hour_rate():
+    """Over final with the run-hours per day unknown (all readings on one day) still gives the reading's
+    day, not "no date": the filter is due now whatever the rate."""
+    day = dt.date(2026, 3, 2)
+    points = [
+        FilterPoint(run_hours=h, dp_pa=dp, airflow_m3s=QD, when=day)
+        for h, dp in ((1000, 100), (1360, 110), (1720, 120), (2080, 300))
+    ]
+    fc = filter_forecast(points=points, design_airflow_m3s=QD, final_dp_pa=250)
+    assert fc.at_final_now is True
+    assert fc.date_at_final == day

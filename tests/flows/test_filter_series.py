@@ -131,7 +131,7 @@ def test_a_filter_past_its_final_value_is_due_now_on_the_phone_and_the_record_ne
     ]
     last = results[-1]
     [judged] = [e for e in last["evaluation"] if e["check"] == "filter_loading" and "Final filters" in e["reason"]]
-    assert "at or over its final pressure drop now" in judged["reason"]
+    assert "at or over its final pressure drop: change now" in judged["reason"]
     assert "change forecast" not in judged["reason"]
     assert judged["derived"]["forecast_at_final_now"] is True
     last_visit = (DAY0 + dt.timedelta(days=60)).date()

@@ -249,13 +249,22 @@ export function filterForecast(ctx, { points, qd, final, confidence = 0.9, minRi
   const rate = robustRate(usable.map(([h, dp]) => [h, dp]), confidence);
   const rise = rate.slope * (Math.max(...hours) - Math.min(...hours));
   if (rate.slope <= 0 || rise < minRise) {
-    throw new EngineeringInputError("points", `the pressure drop is not rising (trend ${rate.slope.toPrecision(3)} Pa per run-hour, ${fixed(rise, 1)} Pa over the readings; at least ${minRise} Pa needed): no forecast can be made`);
+    const err = new EngineeringInputError("points", `the pressure drop is not rising (trend ${rate.slope.toPrecision(3)} Pa per run-hour, ${fixed(rise, 1)} Pa over the readings; at least ${minRise} Pa needed): no forecast can be made`);
+    err.notRising = true;
+    throw err;
   }
-  const atFinal = rate.xAt(final);
-  const early = rate.xAt(final, "high");
-  const late = rate.low > 0 ? rate.xAt(final, "low") : null;
+  let atFinal = rate.xAt(final);
+  let early = rate.xAt(final, "high");
+  let late = rate.low > 0 ? rate.xAt(final, "low") : null;
   const last = usable.reduce((a, b) => (b[0] > a[0] ? b : a));
-  const [lastH, , lastWhen] = last;
+  const [lastH, lastDp, lastWhen] = last;
+  // The last reading itself at or over the final value: due now, whatever the fitted line says.
+  const overNow = pyRound(lastDp, 9) >= final;
+  if (overNow) {
+    atFinal = Math.min(atFinal, lastH);
+    early = Math.min(early, lastH);
+    late = late === null ? lastH : Math.min(late, lastH);
+  }
   let hpd = null;
   try {
     const origin = Math.min(...usable.map((u) => dayMs(u[2])));
@@ -266,14 +275,16 @@ export function filterForecast(ctx, { points, qd, final, confidence = 0.9, minRi
   }
   const latest = Math.max(...usable.map((u) => dayMs(u[2])));
   const toDate = (h) => {
-    if (h === null || hpd === null) return null;
+    if (h === null) return null;
+    if (h <= lastH) return isoDay(Math.floor((latest + DAY_MS / 2) / DAY_MS) * DAY_MS); // due now: the last reading's day
+    if (hpd === null) return null;
     // Never before the reading the forecast comes from (nor any reading given).
     const at = Math.max(dayMs(lastWhen) + (Math.max(h - lastH, 0) / hpd) * DAY_MS, latest);
     return isoDay(Math.floor((at + DAY_MS / 2) / DAY_MS) * DAY_MS);
   };
   return {
     runHoursAtFinal: atFinal, dateAtFinal: toDate(atFinal), dateLow: toDate(early), dateHigh: toDate(late),
-    rate: rate.slope, pointsUsed: usable.length, atFinalNow: atFinal <= lastH,
+    rate: rate.slope, pointsUsed: usable.length, atFinalNow: overNow || atFinal <= lastH,
     method: `Theil–Sen line of pressure drop corrected to design airflow (n = ${ctx.constants.filter_exponent}) against run-hours, ${Math.round(confidence * 100)} % interval`,
   };
 }
@@ -526,13 +537,18 @@ function filterChecks(form, consumed) {
         });
         res.method += `; forecast: ${fc.method}`;
         forecastText = fc.atFinalNow
-          ? "; at or over its final pressure drop now by the trend: change it"
+          ? "; at its final pressure drop by the trend: change now"
           : `; change forecast ${fmtDate(fc.dateAtFinal)}`;
       } catch (exc) {
         if (!(exc instanceof EngineeringInputError)) throw exc;
-        forecastText = "; no change forecast yet";
+        forecastText = exc.notRising ? "; the trend gives no change date (pressure drop not rising)" : "; no change forecast yet";
         res.derived.forecast_note = exc.message;
       }
+    }
+    if (pyRound(loading.fraction, 9) >= 1.0) {
+      // At or over the final value: change now, never a date ahead or "no date" (as inspections.evaluation).
+      forecastText = "; at or over its final pressure drop: change now";
+      res.derived.forecast_at_final_now = true;
     }
     say(res, `${bank.name}: filter at ${fixed(pct, 0)} % of its span after correcting to design airflow (`,
       q(loading.corrected, "pressure"), " at design, clean ", q(specs.clean_dp_pa, "pressure"),
