@@ -819,7 +819,7 @@ TEMPLATES: list[dict[str, Any]] = [
     },
     {
         "code": "ventilation_check",
-        "version": 2,
+        "version": 3,  # v2: no return or mixed air on a 100 % outdoor-air unit; v3: nor supply CO2
         "title": "Outdoor air and ventilation",
         "cautions": [LOCAL_CODES],
         "items": [
@@ -850,6 +850,7 @@ TEMPLATES: list[dict[str, Any]] = [
                 "number",
                 "Supply (or mixed) CO2",
                 quantity="co2",
+                unit_where=RECIRCULATING,
                 physical=CO2_PHYSICAL,
                 plausible=(350, 5_000),
                 decimals=0,

@@ -40,6 +40,7 @@ CHECKS = (
     "filter_after_change",
     "oa_fraction_temperature",
     "oa_fraction_co2",
+    "full_oa_airflow",  # a 100 % outdoor-air unit's delivered outdoor air
     "coil_balance",
     "supply_temperature",
     "duct_static",
@@ -603,6 +604,90 @@ def _oa_checks(form: Form, consumed: set) -> list[Result]:
     return out
 
 
+# Uncertainty of the supply airflow a 100 % outdoor-air unit delivers, as a fraction of it: a field
+# traverse or the unit's flow station about ±10 % (common practice); the first fan law from a speed
+# reading, with belt slip and a filter loaded since the design point, about ±15 % (common practice).
+AIRFLOW_UNCERTAINTY = {"measured": 0.10, "fan_speed": 0.15}
+RANK = {OK: 0, WATCH: 1, FAIL: 2}
+
+
+def _airflow_band_verdict(*, q: float, u: float, minimum: float) -> str:
+    """ok when the whole band q ± u is at or above the minimum, fail when it is all below, else watch."""
+    if q - u >= minimum:
+        return OK
+    if q + u < minimum:
+        return FAIL
+    return WATCH
+
+
+def _full_oa_checks(form: Form, consumed: set) -> list[Result]:
+    """A 100 % outdoor-air unit takes in what it supplies: the outdoor airflow it delivers is its supply airflow
+    (measured, or from the fan speed), judged against the space's requirement (ASHRAE 62.1 ventilation rate
+    procedure; with no recirculation Vot = Voz) and the unit's design airflow, each within the airflow's
+    uncertainty. Below the requirement beyond the uncertainty fails; below the design (the requirement met)
+    is watch; with no requirement known, the design stands in for it. Runs when the ventilation check was done."""
+    ahu = form.ahu
+    if not ahu.full_outdoor_air or not any(k.startswith("ventilation_check.") for k, _ in form.values):
+        return []
+    q, q_how = supply_airflow(form)
+    design = ahu.design_supply_airflow_m3s
+    need = ventilation_requirement(ahu)
+    res = Result(check="full_oa_airflow", item="visit.supply_airflow", condition_code="ventilation_low")
+    res.method = "100 % outdoor air: outdoor airflow = supply airflow" + (
+        "" if need is None else f"; requirement by ASHRAE 62.1: {need.method}"
+    )
+    if q_how.startswith("design"):
+        res.verdict = WATCH
+        res.say(
+            "100 % outdoor-air unit: the outdoor air delivered cannot be judged without the supply airflow; "
+            "measure the supply airflow (or read the supply fan speed) at the visit"
+        )
+        return [res]
+    u_rel = AIRFLOW_UNCERTAINTY["measured" if q_how == "measured" else "fan_speed"]
+    u = q * u_rel
+    res.derived = {
+        "outdoor_airflow_m3s": round(q, 3),
+        "airflow_uncertainty_m3s": round(u, 3),
+        "airflow_source": q_how,
+        "design_supply_airflow_m3s": design,
+    }
+    design_verdict = _airflow_band_verdict(q=q, u=u, minimum=design)
+    parts = [
+        "100 % outdoor-air unit: outdoor air delivered ",
+        qty(q, "airflow"),
+        f" ± {u_rel * 100:.0f} % ({q_how}); the unit's design airflow ",
+        qty(design, "airflow"),
+        f": {REQUIREMENT_WORDS[design_verdict]}",
+    ]
+    if need is None:
+        verdict = design_verdict
+    else:
+        res.derived.update(
+            {
+                "required_outdoor_airflow_m3s": round(need.vot_m3s, 3),
+                "zone_outdoor_airflow_m3s": round(need.voz_m3s, 3),
+                "ventilation_system": need.system,
+                "design_shortfall": need.vot_m3s > design,
+            }
+        )
+        req_verdict = _airflow_band_verdict(q=q, u=u, minimum=need.vot_m3s)
+        # Short of the design but the space's requirement met: a unit to look after, not a ventilation failure.
+        verdict = max(req_verdict, WATCH if design_verdict != OK else OK, key=RANK.__getitem__)
+        parts += [
+            "; the space needs ",
+            qty(need.vot_m3s, "airflow"),
+            f" for {space_label(ahu)} ({_requirement_words(need)}, ASHRAE 62.1 ventilation rate procedure): "
+            f"{REQUIREMENT_WORDS[req_verdict]}",
+        ]
+        if need.vot_m3s > design:
+            parts += ["; the requirement is above the unit's design airflow: the design falls short"]
+        if verdict != design_verdict:
+            parts.append("; judged by the requirement")
+    res.verdict = verdict
+    res.say(parts)
+    return [res]
+
+
 def coil_fluid(specs: dict) -> tuple[str | None, float | None, str]:
     """(fluid for engineering.airside.water_side_heat_w, glycol %, plain words) of a coil's registry specs.
 
@@ -926,6 +1011,7 @@ def evaluate(form: Form) -> list[Result]:
         _filter_checks,
         _filter_change_checks,
         _oa_checks,
+        _full_oa_checks,
         _coil_checks,
         _setpoint_checks,
         _drift_checks,

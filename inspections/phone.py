@@ -130,6 +130,7 @@ def constants() -> dict[str, Any]:
     return {
         "coil_tolerance_pct": evaluation.COIL_TOLERANCE_PCT,
         "requirement_words": dict(evaluation.REQUIREMENT_WORDS),
+        "airflow_uncertainty": dict(evaluation.AIRFLOW_UNCERTAINTY),
         "drift_defaults": {k: list(v) for k, v in evaluation.DRIFT_DEFAULTS.items()},
         "drift_quantities": {k: list(v) for k, v in evaluation.DRIFT_QUANTITIES.items()},
         "filter_exponent": filters.DEFAULT_EXPONENT,

@@ -242,6 +242,24 @@ def _oa(rng, ahu, comps, values, points):
         values[("ventilation_check.supply_co2", None)] = r - x * (r - o) + rng.uniform(-10, 10)
 
 
+def _full_oa(rng, ahu, comps, values, points):
+    """A 100 % outdoor-air unit's ventilation check: supply airflow around the requirement or the design."""
+    ahu.full_outdoor_air, ahu.ventilation_system = True, "full_outdoor_air"
+    if rng.random() < 0.7:
+        ahu.space_kind = rng.choice(list(ventilation.SPACE_KINDS)[:6])
+        ahu.floor_area_m2 = rng.choice([200.0, 800.0, 2500.0])
+    need = evaluation.required_outdoor_airflow_m3s(ahu)
+    target = need if need and rng.random() < 0.6 else ahu.design_supply_airflow_m3s
+    roll = rng.random()
+    if roll < 0.65:
+        values[("visit.supply_airflow", None)] = target * rng.uniform(0.7, 1.3)
+    elif roll < 0.9:
+        values[("visit.supply_fan_speed", None)] = rng.uniform(8.0, 26.0)  # rev/s
+    values[("ventilation_check.outdoor_air", None)] = rng.uniform(-15, 30)
+    if rng.random() < 0.5:
+        values[("ventilation_check.outdoor_co2", None)] = rng.uniform(380, 450)
+
+
 def _coil(rng, ahu, comps, values, points):
     _airflow(rng, ahu, values)
     for coil in (c for c in comps if c.kind == "coil"):
@@ -344,6 +362,7 @@ FOCUS = {
     "filter": _filter,
     "filter_change": _filter_change,
     "oa": _oa,
+    "full_oa": _full_oa,
     "coil": _coil,
     "setpoint": _setpoint,
     "static": _static,

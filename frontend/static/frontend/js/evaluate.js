@@ -14,7 +14,7 @@ export const FAIL = "fail";
 // Every check name of evaluation.CHECKS this twin judges.
 export const CHECKS = [
   "check", "choice", "limits", "filter_loading", "filter_after_change", "oa_fraction_temperature", "oa_fraction_co2",
-  "coil_balance", "supply_temperature", "duct_static", "damper_position", "sensor_drift", "heat_recovery",
+  "full_oa_airflow", "coil_balance", "supply_temperature", "duct_static", "damper_position", "sensor_drift", "heat_recovery",
 ];
 
 const RANK = { ok: 0, watch: 1, fail: 2 };
@@ -680,6 +680,59 @@ function oaChecks(form) {
   return out;
 }
 
+// A 100 % outdoor-air unit's delivered outdoor air (evaluation._full_oa_checks): its supply airflow against
+// the space's requirement and its design airflow, each within the airflow's uncertainty.
+function airflowBandVerdict(flow, u, minimum) {
+  if (flow - u >= minimum) return OK;
+  if (flow + u < minimum) return FAIL;
+  return WATCH;
+}
+
+function fullOaChecks(form) {
+  const u = form.unit;
+  if (!u.full_outdoor_air || !Object.keys(form.readings).some((k) => k.startsWith("ventilation_check."))) return [];
+  const [flow, how] = supplyAirflow(form);
+  const design = u.design_supply_airflow_m3s;
+  const need = u.ventilation_requirement;
+  const res = result({ check: "full_oa_airflow", item: "visit.supply_airflow", condition_code: "ventilation_low" });
+  res.method = `100 % outdoor air: outdoor airflow = supply airflow${need ? `; requirement by ASHRAE 62.1: ${need.method}` : ""}`;
+  if (how.startsWith("design")) {
+    res.verdict = WATCH;
+    say(res, "100 % outdoor-air unit: the outdoor air delivered cannot be judged without the supply airflow; "
+      + "measure the supply airflow (or read the supply fan speed) at the visit");
+    return [res];
+  }
+  const uRel = form.ctx.constants.airflow_uncertainty[how === "measured" ? "measured" : "fan_speed"];
+  const band = flow * uRel;
+  res.derived = {
+    outdoor_airflow_m3s: pyRound(flow, 3), airflow_uncertainty_m3s: pyRound(band, 3), airflow_source: how,
+    design_supply_airflow_m3s: design,
+  };
+  const words = form.ctx.constants.requirement_words;
+  const designVerdict = airflowBandVerdict(flow, band, design);
+  const parts = [
+    "100 % outdoor-air unit: outdoor air delivered ", q(flow, "airflow"),
+    ` ± ${fixed(uRel * 100, 0)} % (${how}); the unit's design airflow `, q(design, "airflow"), `: ${words[designVerdict]}`,
+  ];
+  let verdict = designVerdict;
+  if (need) {
+    Object.assign(res.derived, {
+      required_outdoor_airflow_m3s: pyRound(need.vot_m3s, 3), zone_outdoor_airflow_m3s: pyRound(need.voz_m3s, 3),
+      ventilation_system: need.system, design_shortfall: need.vot_m3s > design,
+    });
+    const reqVerdict = airflowBandVerdict(flow, band, need.vot_m3s);
+    // Short of the design but the space's requirement met: a unit to look after, not a ventilation failure.
+    verdict = worst(reqVerdict, designVerdict !== OK ? WATCH : OK);
+    parts.push("; the space needs ", q(need.vot_m3s, "airflow"),
+      ` for ${u.space_label || "the space served"} (${need.words}, ASHRAE 62.1 ventilation rate procedure): ${words[reqVerdict]}`);
+    if (need.vot_m3s > design) parts.push("; the requirement is above the unit's design airflow: the design falls short");
+    if (verdict !== designVerdict) parts.push("; judged by the requirement");
+  }
+  res.verdict = verdict;
+  say(res, parts);
+  return [res];
+}
+
 function coilChecks(form) {
   const out = [];
   const [flow, how] = supplyAirflow(form);
@@ -941,7 +994,8 @@ export function evaluate(ctx, readings, { finishedOn = new Date().toISOString().
   const form = new Form(ctx, readings, finishedOn);
   const consumed = new Set();
   const results = [
-    ...filterChecks(form, consumed), ...filterChangeChecks(form, consumed), ...oaChecks(form, consumed), ...coilChecks(form, consumed),
+    ...filterChecks(form, consumed), ...filterChangeChecks(form, consumed), ...oaChecks(form, consumed), ...fullOaChecks(form),
+    ...coilChecks(form, consumed),
     ...setpointChecks(form, consumed), ...driftChecks(form, consumed), ...heatRecoveryChecks(form, consumed),
   ];
   for (const slot of ctx.slots) {
