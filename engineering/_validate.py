@@ -51,6 +51,44 @@ def finite(name: str, value: object, label: str = "", unit: str = "") -> float:
     return number
 
 
+# SI unit (and, where a unit serves two quantities, the label) → the display quantity of
+# engineering.units, so a refusal's numbers can be restated in the reader's units.
+_QUANTITY_OF_UNIT = {
+    "m³/s": "airflow",
+    "Pa": "pressure",
+    "°C": "temperature",
+    "K": "temperature_difference",
+    "ppm": "co2",
+    "W": "heat_rate",
+}
+_QUANTITY_OF_LABEL = {"absolute pressure": "absolute_pressure", "fluid flow": "water_flow"}
+
+
+def quantity_of(unit: str, label: str = "") -> str | None:
+    """The display quantity of a value in the SI ``unit`` (None when it has none)."""
+    return _QUANTITY_OF_LABEL.get(label) or _QUANTITY_OF_UNIT.get(unit)
+
+
+def range_parts(
+    low: float | None,
+    high: float | None,
+    quantity: str,
+    *,
+    low_open: bool = False,
+    high_open: bool = False,
+) -> list:
+    """What is allowed, as reason parts (see EngineeringInputError.parts)."""
+    if low is not None and high is not None and not (low_open or high_open):
+        return [{"low": low, "high": high, "quantity": quantity}]
+    parts: list = []
+    if low is not None:
+        parts += ["above " if low_open else "at least ", {"value": low, "quantity": quantity}]
+    if high is not None:
+        bound = "below " if high_open else "at most "
+        parts += [" and " if parts else "", bound, {"value": high, "quantity": quantity}]
+    return [p for p in parts if p != ""] or ["any finite number"]
+
+
 def in_range(
     name: str,
     value: object,
@@ -69,6 +107,13 @@ def in_range(
     if below or above:
         allowed = describe_range(low, high, unit, low_open=low_open, high_open=high_open)
         prefix = f"{label} " if label else ""
+        quantity = quantity_of(unit, label)
+        parts: list = []
+        if quantity:
+            band = range_parts(low, high, quantity, low_open=low_open, high_open=high_open)
+            # "airflow 0 L/s must be above 0 L/s and at most …"; a closed band: "… is outside 2.0–6.0 °C".
+            verb = " is outside " if isinstance(band[0], dict) else " must be "
+            parts = [prefix, {"value": number, "quantity": quantity}, verb, *band]
         raise EngineeringInputError(
             field=name,
             value=number,
@@ -77,6 +122,7 @@ def in_range(
             low=low,
             high=high,
             unit=unit,
+            parts=[p for p in parts if p != ""],
         )
     return number
 

@@ -25,6 +25,11 @@ class EngineeringInputError(ValueError):
             in the argument's SI unit, so a caller can restate them in the
             user's display units.
         unit: the SI unit of ``value``/``low``/``high`` ("" when unitless).
+        parts: the message as plain text and SI quantities, e.g.
+            ``["airflow ", {"value": 0.57, "quantity": "airflow"}, " is outside ",
+            {"low": 1.4, "high": 4.2, "quantity": "airflow"}]`` (the reason-part form of
+            inspections/reasons.py), so a reader gets the numbers in their own units;
+            empty when the message has no such numbers.
     """
 
     def __init__(
@@ -37,6 +42,7 @@ class EngineeringInputError(ValueError):
         low: float | None = None,
         high: float | None = None,
         unit: str = "",
+        parts: list | None = None,
     ) -> None:
         self.field = field
         self.value = value
@@ -44,6 +50,7 @@ class EngineeringInputError(ValueError):
         self.low = low
         self.high = high
         self.unit = unit
+        self.parts = list(parts or [])
         if message is None:
             message = f"{field}={_fmt(value)} is outside {allowed}"
         super().__init__(message)

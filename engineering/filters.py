@@ -88,6 +88,15 @@ def _ratio(airflow_m3s: float, design_airflow_m3s: float, name: str = "airflow_m
             low=lo * qd,
             high=hi * qd,
             unit="m³/s",
+            parts=[
+                "airflow ",
+                {"value": q, "quantity": "airflow"},
+                " is outside ",
+                {"low": lo * qd, "high": hi * qd, "quantity": "airflow"},
+                f" ({lo:g}–{hi:g} × design ",
+                {"value": qd, "quantity": "airflow"},
+                "): too far from design to correct the pressure drop reliably",
+            ],
         )
     return r
 

@@ -75,6 +75,7 @@ def _fraction(
     names: tuple[str, str, str],
 ) -> OaFraction:
     diff = ret - outdoor
+    vq, dq = v.quantity_of(unit), v.quantity_of(diff_unit)  # reason-part quantities (errors.py)
     if abs(diff) < min_difference:
         raise IndeterminateError(
             field=names[0],
@@ -88,6 +89,16 @@ def _fraction(
             ),
             low=min_difference,
             unit=diff_unit,
+            parts=[
+                f"cannot compute an outdoor-air fraction by {_BY[method]}: outdoor ",
+                {"value": outdoor, "quantity": vq},
+                " and return ",
+                {"value": ret, "quantity": vq},
+                " differ by ",
+                {"value": abs(diff), "quantity": dq},
+                "; they must differ by at least ",
+                {"value": min_difference, "quantity": dq},
+            ],
         )
     x = (ret - mixed) / diff
     # ∂x/∂m = −1/(r−o); ∂x/∂o = (r−m)/(r−o)²; ∂x/∂r = (m−o)/(r−o)².
@@ -106,6 +117,13 @@ def _fraction(
                 f"outdoor and return differ by only {v.fmt(round(abs(diff), 3))} {diff_unit}"
             ),
             high=max_uncertainty,
+            parts=[
+                f"cannot compute an outdoor-air fraction by {_BY[method]}: with the sensor "
+                f"accuracies given the result would be {x:.2f} ± {u:.2f}, and an "
+                f"uncertainty of ±{v.fmt(max_uncertainty)} or more says nothing; "
+                "outdoor and return differ by only ",
+                {"value": abs(diff), "quantity": dq},
+            ],
         )
     if x < -u or x > 1.0 + u:
         raise IndeterminateError(
@@ -118,6 +136,16 @@ def _fraction(
                 "check sensor placement, stratification or a heat source upstream"
             ),
             unit=unit,
+            parts=[
+                "mixed ",
+                {"value": mixed, "quantity": vq},
+                " is not between outdoor ",
+                {"value": outdoor, "quantity": vq},
+                " and return ",
+                {"value": ret, "quantity": vq},
+                f" (even allowing ±{u:.2f} for sensor accuracy): "
+                "check sensor placement, stratification or a heat source upstream",
+            ],
         )
     clipped = min(max(x, 0.0), 1.0)
     return OaFraction(

@@ -13,7 +13,8 @@ from engineering import _validate as limits
 from engineering import airside, filters, outdoor_air
 from engineering.errors import EngineeringInputError
 from engineering.units import from_display, to_display, unit_label
-from inspections.reasons import display_number
+from inspections.display import plain_message
+from inspections.reasons import display_number, render
 
 
 @dataclass(frozen=True)
@@ -98,7 +99,7 @@ CALCULATORS: dict[str, Calculator] = {
         Calculator(
             "oa-temperatures",
             "Outdoor-air fraction from three temperatures",
-            "Needs at least 3 K between outdoor and return air.",
+            "Needs at least 3 K (5.4 Δ°F) between outdoor and return air.",
             (
                 Input("t_outdoor_c", "Outdoor air", "temperature", *T),
                 Input("t_return_c", "Return air", "temperature", *T),
@@ -177,8 +178,11 @@ class CalcError(Exception):
 
 def _restate(exc: EngineeringInputError, inputs: dict[str, Input], typed: dict, system: str) -> str:
     spec = inputs.get(exc.field)
+    if exc.parts:  # its numbers as quantities: restated in the reader's units
+        text = render(exc.parts, system)
+        return f"{spec.label}: {text}" if spec is not None else text[:1].upper() + text[1:]
     if spec is None or (exc.low is None and exc.high is None):
-        return exc.message
+        return plain_message(exc)
     unit = unit_label(quantity=spec.quantity, system=system)
     lo = _display(exc.low, spec.quantity, system)
     hi = _display(exc.high, spec.quantity, system)

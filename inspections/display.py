@@ -39,6 +39,13 @@ def plain_message(message: object) -> str:
     return _ARGUMENT.sub("", str(message))
 
 
+def refusal_parts(exc: object) -> list:
+    """An engineering refusal as reason parts (inspections/reasons.py): its numbers as SI quantities
+    when it carries them (EngineeringInputError.parts), else its plain message."""
+    parts = getattr(exc, "parts", None)
+    return list(parts) if parts else [plain_message(exc)]
+
+
 # key: (label, how the value reads). A quantity of engineering.units, or one of:
 # "fraction" (0–1 shown as %), "points" (0–1 shown as ± percentage points), "pct", "number",
 # "count", "date", "words" (text already in plain words), or a {code: words} map.

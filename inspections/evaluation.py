@@ -24,7 +24,7 @@ from engineering.filters import FilterPoint
 from engineering.psychro import pressure_from_altitude
 from inspections import reasons as rs
 from inspections.checklists import storage_unit_label
-from inspections.display import plain_message
+from inspections.display import plain_message, refusal_parts
 from inspections.reasons import q as qty
 from inspections.reasons import span
 
@@ -288,7 +288,8 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
                 final_dp_pa=specs["final_dp_pa"],
             )
         except EngineeringInputError as exc:
-            res.verdict, res.reason = WATCH, f"cannot judge the filter loading: {plain_message(exc)}"
+            res.verdict = WATCH
+            res.say("cannot judge the filter loading: ", refusal_parts(exc))
             out.append(res)
             continue
         pct = loading.fraction_of_span * 100
@@ -400,7 +401,7 @@ def _filter_change_checks(form: Form, consumed: set) -> list[Result]:
             chk = filters.filter_after_change(dp_pa=dp, airflow_m3s=q, design_airflow_m3s=design_q, clean_dp_pa=clean)
         except EngineeringInputError as exc:
             res.verdict = WATCH
-            res.reason = f"{bank.name}: cannot judge the pressure drop after the change: {plain_message(exc)}"
+            res.say(f"{bank.name}: cannot judge the pressure drop after the change: ", refusal_parts(exc))
             out.append(res)
             continue
         tol = filters.AFTER_CHANGE_TOLERANCE
@@ -531,7 +532,8 @@ def _oa_checks(form: Form, consumed: set) -> list[Result]:
             frac = compute()
         except EngineeringInputError as exc:
             by = "CO2" if method == "co2" else "temperatures"
-            res.verdict, res.reason = WATCH, f"outdoor-air fraction by {by}: {plain_message(exc)}"
+            res.verdict = WATCH
+            res.say(f"outdoor-air fraction by {by}: ", refusal_parts(exc))
             out.append(res)
             continue
         oa_q = outdoor_air.outdoor_airflow_m3s(fraction=frac.fraction, supply_airflow_m3s=q)
@@ -755,7 +757,8 @@ def _coil_checks(form: Form, consumed: set) -> list[Result]:
                 )
                 bal = coil_balance(air_side_w=air, water_side_w=water, tolerance_pct=COIL_TOLERANCE_PCT)
             except EngineeringInputError as exc:
-                res.verdict, res.reason = WATCH, f"{coil.name}: cannot balance the coil: {plain_message(exc)}"
+                res.verdict = WATCH
+                res.say(f"{coil.name}: cannot balance the coil: ", refusal_parts(exc))
                 out.append(res)
                 break
             res.derived = {

@@ -2,9 +2,9 @@
 // same functions the checklist uses (evaluate.js). Pure: no DOM, no network. The agreement test
 // (tests/inspections/test_phone_agreement.py) holds it to the server's answers.
 import {
-  EngineeringInputError, filterLoading, oaFractionFromCo2, oaFractionFromTemperatures, pyRound, sensibleHeatW,
+  EngineeringInputError, filterLoading, plainMessage, oaFractionFromCo2, oaFractionFromTemperatures, pyRound, sensibleHeatW,
 } from "./evaluate.js";
-import { displayNumber, fixed, fromDisplay, toDisplay, unitLabel } from "./units.js";
+import { displayNumber, fixed, fromDisplay, render, toDisplay, unitLabel } from "./units.js";
 
 // A figure in the reader's unit at the quantity's usual precision (frontend/calculators.py: _row).
 function row(ctx, label, value, quantity, system) {
@@ -44,7 +44,11 @@ function display(ctx, valueSi, quantity, system) {
 }
 
 function restate(ctx, exc, spec, typed, system) {
-  if (!spec || (exc.low === null && exc.high === null)) return exc.message;
+  if (exc.parts && exc.parts.length) { // its numbers as quantities: restated in the person's units
+    const text = render(ctx, exc.parts, system);
+    return spec ? `${spec.label}: ${text}` : text.slice(0, 1).toUpperCase() + text.slice(1);
+  }
+  if (!spec || (exc.low === null && exc.high === null)) return plainMessage(exc);
   const unit = unitLabel(ctx.units, spec.quantity, system);
   const lo = display(ctx, exc.low, spec.quantity, system);
   const hi = display(ctx, exc.high, spec.quantity, system);

@@ -33,7 +33,28 @@ function fmtG(x) {
 }
 
 export class EngineeringInputError extends Error {
-  constructor(field, message, { low = null, high = null } = {}) { super(message); this.field = field; this.low = low; this.high = high; }
+  constructor(field, message, { low = null, high = null, parts = [] } = {}) {
+    super(message); this.field = field; this.low = low; this.high = high; this.parts = parts;
+  }
+}
+
+// SI unit (or label) → display quantity, so a refusal's numbers read in the person's units (engineering/_validate.py).
+const QUANTITY_OF_UNIT = { "m³/s": "airflow", Pa: "pressure", "°C": "temperature", K: "temperature_difference", ppm: "co2", W: "heat_rate" };
+const QUANTITY_OF_LABEL = { "absolute pressure": "absolute_pressure", "fluid flow": "water_flow" };
+const quantityOf = (unit, label = "") => QUANTITY_OF_LABEL[label] || QUANTITY_OF_UNIT[unit] || null;
+
+function rangeParts(low, high, quantity, lowOpen = false, highOpen = false) {
+  if (low !== null && high !== null && !lowOpen && !highOpen) return [{ low, high, quantity }];
+  const parts = [];
+  if (low !== null) parts.push(lowOpen ? "above " : "at least ", { value: low, quantity });
+  if (high !== null) parts.push(parts.length ? " and " : "", highOpen ? "below " : "at most ", { value: high, quantity });
+  const out = parts.filter((p) => p !== "");
+  return out.length ? out : ["any finite number"];
+}
+
+/** An engineering refusal as reason parts: its numbers as SI quantities when it has them (inspections/display.py: refusal_parts). */
+export function refusalParts(exc) {
+  return exc && exc.parts && exc.parts.length ? [...exc.parts] : [plainMessage(exc)];
 }
 
 // An engineering refusal without its argument names ("airflow airflow_m3s=0.4 …" reads "airflow 0.4 …"),
@@ -64,7 +85,10 @@ function inRange(name, value, low, high, { unit = "", label = "", lowOpen = fals
       if (high !== null) parts.push(`${highOpen ? "below" : "at most"} ${fmtG(high)}${u}`);
       allowed = parts.join(" and ");
     }
-    throw new EngineeringInputError(name, `${label ? `${label} ` : ""}${name}=${fmtG(x)} is outside ${allowed}`, { low, high });
+    const quantity = quantityOf(unit, label);
+    const band = rangeParts(low, high, quantity, lowOpen, highOpen);
+    const parts = quantity ? [label ? `${label} ` : "", { value: x, quantity }, band[0].quantity ? " is outside " : " must be ", ...band] : [];
+    throw new EngineeringInputError(name, `${label ? `${label} ` : ""}${name}=${fmtG(x)} is outside ${allowed}`, { low, high, parts: parts.filter((p) => p !== "") });
   }
   return x;
 }
@@ -92,7 +116,10 @@ export function correctedPressureDrop(ctx, dp, q, qd) {
   if (!(lo <= r && r <= hi)) {
     throw new EngineeringInputError("airflow_m3s",
       `airflow airflow_m3s=${fmtG(q)} is outside ${g3(lo * qd)}–${g3(hi * qd)} m³/s (${lo}–${hi} × design ${fmtG(qd)} m³/s): too far from design to correct the pressure drop reliably`,
-      { low: lo * qd, high: hi * qd });
+      { low: lo * qd, high: hi * qd, parts: [
+        "airflow ", { value: q, quantity: "airflow" }, " is outside ", { low: lo * qd, high: hi * qd, quantity: "airflow" },
+        ` (${lo}–${hi} × design `, { value: qd, quantity: "airflow" }, "): too far from design to correct the pressure drop reliably",
+      ] });
   }
   return dp * r ** (-n);
 }
@@ -293,16 +320,29 @@ function oaFraction({ method, outdoor, ret, mixed, accO, accR, accM, minDifferen
   const diff = ret - outdoor;
   if (Math.abs(diff) < minDifference) {
     const du = unit === "°C" ? "K" : unit;
-    throw new EngineeringInputError(names[0], `cannot compute an outdoor-air fraction by ${method === "co2" ? "CO2" : "temperatures"}: outdoor ${fmtG(outdoor)} ${unit} and return ${fmtG(ret)} ${unit} differ by ${fmtG(pyRound(Math.abs(diff), 3))} ${du}; they must differ by at least ${fmtG(minDifference)} ${du}`);
+    const [vq, dq] = [quantityOf(unit), quantityOf(du)];
+    throw new EngineeringInputError(names[0], `cannot compute an outdoor-air fraction by ${method === "co2" ? "CO2" : "temperatures"}: outdoor ${fmtG(outdoor)} ${unit} and return ${fmtG(ret)} ${unit} differ by ${fmtG(pyRound(Math.abs(diff), 3))} ${du}; they must differ by at least ${fmtG(minDifference)} ${du}`,
+      { low: minDifference, parts: [
+        `cannot compute an outdoor-air fraction by ${method === "co2" ? "CO2" : "temperatures"}: outdoor `, { value: outdoor, quantity: vq },
+        " and return ", { value: ret, quantity: vq }, " differ by ", { value: Math.abs(diff), quantity: dq },
+        "; they must differ by at least ", { value: minDifference, quantity: dq },
+      ] });
   }
   const x = (ret - mixed) / diff;
   const u = Math.sqrt((accM / diff) ** 2 + ((accO * (ret - mixed)) / diff ** 2) ** 2 + ((accR * (mixed - outdoor)) / diff ** 2) ** 2);
   if (u >= maxUncertainty) {
     const du = unit === "°C" ? "K" : unit;
-    throw new EngineeringInputError(names[2], `cannot compute an outdoor-air fraction by ${method === "co2" ? "CO2" : "temperatures"}: with the sensor accuracies given the result would be ${fixed(x, 2)} ± ${fixed(u, 2)}, and an uncertainty of ±${fmtG(maxUncertainty)} or more says nothing; outdoor and return differ by only ${fmtG(pyRound(Math.abs(diff), 3))} ${du}`);
+    const by = `cannot compute an outdoor-air fraction by ${method === "co2" ? "CO2" : "temperatures"}: with the sensor accuracies given the result would be ${fixed(x, 2)} ± ${fixed(u, 2)}, and an uncertainty of ±${fmtG(maxUncertainty)} or more says nothing; outdoor and return differ by only `;
+    throw new EngineeringInputError(names[2], `${by}${fmtG(pyRound(Math.abs(diff), 3))} ${du}`,
+      { high: maxUncertainty, parts: [by, { value: Math.abs(diff), quantity: quantityOf(du) }] });
   }
   if (x < -u || x > 1 + u) {
-    throw new EngineeringInputError(names[2], `mixed ${fmtG(mixed)} ${unit} is not between outdoor ${fmtG(outdoor)} ${unit} and return ${fmtG(ret)} ${unit} (even allowing ±${fixed(u, 2)} for sensor accuracy): check sensor placement, stratification or a heat source upstream`);
+    const vq = quantityOf(unit);
+    throw new EngineeringInputError(names[2], `mixed ${fmtG(mixed)} ${unit} is not between outdoor ${fmtG(outdoor)} ${unit} and return ${fmtG(ret)} ${unit} (even allowing ±${fixed(u, 2)} for sensor accuracy): check sensor placement, stratification or a heat source upstream`,
+      { parts: [
+        "mixed ", { value: mixed, quantity: vq }, " is not between outdoor ", { value: outdoor, quantity: vq }, " and return ", { value: ret, quantity: vq },
+        ` (even allowing ±${fixed(u, 2)} for sensor accuracy): check sensor placement, stratification or a heat source upstream`,
+      ] });
   }
   const fraction = Math.min(Math.max(x, 0), 1);
   return { fraction, uncertainty: u, low: Math.max(fraction - u, 0), high: Math.min(fraction + u, 1) };
@@ -501,7 +541,7 @@ function filterChecks(form, consumed) {
     } catch (exc) {
       if (!(exc instanceof EngineeringInputError)) throw exc;
       res.verdict = WATCH;
-      res.reason = `cannot judge the filter loading: ${plainMessage(exc)}`;
+      say(res, "cannot judge the filter loading: ", refusalParts(exc));
       out.push(res);
       continue;
     }
@@ -575,7 +615,7 @@ function filterChangeChecks(form, consumed) {
     } catch (exc) {
       if (!(exc instanceof EngineeringInputError)) throw exc;
       res.verdict = WATCH;
-      res.reason = `${bank.name}: cannot judge the pressure drop after the change: ${plainMessage(exc)}`;
+      say(res, `${bank.name}: cannot judge the pressure drop after the change: `, refusalParts(exc));
       out.push(res);
       continue;
     }
@@ -620,7 +660,7 @@ function oaChecks(form) {
     } catch (exc) {
       if (!(exc instanceof EngineeringInputError)) throw exc;
       res.verdict = WATCH;
-      res.reason = `outdoor-air fraction by ${method === "co2" ? "CO2" : "temperatures"}: ${plainMessage(exc)}`;
+      say(res, `outdoor-air fraction by ${method === "co2" ? "CO2" : "temperatures"}: `, refusalParts(exc));
       out.push(res);
       continue;
     }
@@ -773,7 +813,7 @@ function coilChecks(form) {
       } catch (exc) {
         if (!(exc instanceof EngineeringInputError)) throw exc;
         res.verdict = WATCH;
-        res.reason = `${coil.name}: cannot balance the coil: ${plainMessage(exc)}`;
+        say(res, `${coil.name}: cannot balance the coil: `, refusalParts(exc));
         out.push(res);
         break;
       }
