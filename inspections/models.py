@@ -7,6 +7,7 @@ is a new version. A signed inspection is never edited: corrections are
 """
 
 import uuid
+import zoneinfo
 
 from django.conf import settings
 from django.core.exceptions import ValidationError
@@ -250,6 +251,13 @@ class Evaluation(models.Model):
         return f"{self.check_name} {self.verdict}: {self.reason}"
 
 
+def finding_age_days(*, opened_at, end, time_zone: str) -> int:
+    """A finding's age in days: the site's local date at ``end`` less its local date when first seen (first seen
+    2 Nov, today 2 Dec: 30 days, whatever the hours), never negative. Pages, API and PDFs count ages here."""
+    zone = zoneinfo.ZoneInfo(time_zone)
+    return max((end.astimezone(zone).date() - opened_at.astimezone(zone).date()).days, 0)
+
+
 class Finding(models.Model):
     """A deficiency: one open finding per unit, part and problem, gathering every visit that saw it.
 
@@ -362,9 +370,9 @@ class Finding(models.Model):
         return self.opened_at
 
     def age_days(self, *, now=None) -> int:
-        """Days since the first observation (to the close, or ``now``)."""
+        """Days since the first observation (to the close, or ``now``), in the site's local dates."""
         end = self.closed_at or now or timezone.now()
-        return max((end - self.opened_at).days, 0)
+        return finding_age_days(opened_at=self.opened_at, end=end, time_zone=self.ahu.building.site.time_zone)
 
 
 class Photo(models.Model):

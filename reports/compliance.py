@@ -69,7 +69,7 @@ from django.db.models import Min, OuterRef, Q, Subquery
 
 from inspections import freeze as freeze_rules
 from inspections.freeze import last_season_end  # noqa: F401  (re-exported: the window rule lives there)
-from inspections.models import Evaluation, Finding
+from inspections.models import Evaluation, Finding, finding_age_days
 from inspections.selectors import filter_series_for
 from inventory.models import AHU, Component, ComponentKind, Site
 from scheduling.models import TaskCategory, WorkOrder, WorkOrderTask
@@ -283,7 +283,8 @@ def compliance_figures(*, site_ids: list[int], start: date, end: date, as_of: da
         .values_list("severity", "opened_at", "ahu__building__site_id")
     ):
         matrix.setdefault(severity, {label: 0 for _, _, label in AGE_BUCKETS})
-        matrix[severity][age_bucket(max((as_of - opened_at).days, 0))] += 1
+        age = finding_age_days(opened_at=opened_at, end=as_of, time_zone=tz_of[site_id].key)
+        matrix[severity][age_bucket(age)] += 1
         findings_total += 1
         by_site[site_id]["findings_total"] += 1
 
