@@ -33,6 +33,8 @@ SHELL_STATIC = (
     "frontend/js/sync.js",
     "frontend/js/checklist.js",
     "frontend/js/limits.js",
+    "frontend/js/meter.js",
+    "frontend/js/drafts.js",
     "frontend/js/evaluate.js",
     "frontend/js/units.js",
     "frontend/js/calculator.js",

@@ -24,7 +24,7 @@ from tests.conftest import service_missing
 JS = Path(__file__).resolve().parents[2] / "frontend" / "static" / "frontend" / "js"
 
 FAKE_OUTBOX = """
-const stores = { outbox: new Map(), results: new Map(), meta: new Map() };
+const stores = { outbox: new Map(), results: new Map(), meta: new Map(), drafts: new Map() };
 export const outboxPut = async (f) => { stores.outbox.set(f.client_uuid, f); };
 export const outboxAll = async () => [...stores.outbox.values()];
 export const outboxGet = async (u) => stores.outbox.get(u);
@@ -33,6 +33,9 @@ export const resultPut = async (r) => { stores.results.set(r.client_uuid, r); };
 export const resultAll = async () => [...stores.results.values()];
 export const metaGet = async (k) => stores.meta.get(k);
 export const metaSet = async (k, v) => { stores.meta.set(k, v); };
+export const draftPut = async (d) => { stores.drafts.set(d.key, d); };
+export const draftGet = async (k) => stores.drafts.get(k);
+export const draftDelete = async (k) => { stores.drafts.delete(k); };
 export const newUuid = () => "x";
 export const _stores = stores;
 """
@@ -80,8 +83,10 @@ for (const [i, _] of scenario.answers.entries()) {
   const form = { client_uuid: `form-${i}`, work_order: "w" };
   await outboxPut({ client_uuid: `form-${i}`, owner, state: "waiting", form });
 }
+for (const key of scenario.drafts || []) _stores.drafts.set(key, { key, owner: key.split("|")[0], work_order: "w" });
 await syncOutbox({ url: "/api/inspections/sync/" });
 console.log(JSON.stringify({
+  drafts: [..._stores.drafts.keys()].sort(),
   kept: [..._stores.outbox.keys()].sort(),
   states: Object.fromEntries([..._stores.outbox.values()].map((f) => [f.client_uuid, f.state])),
   errors: Object.fromEntries([..._stores.outbox.values()].map((f) => [f.client_uuid, f.errors || null])),
@@ -99,6 +104,7 @@ def run_sync(tmp_path):
     if node is None:
         service_missing("needs Node.js (apt-get install nodejs) to run the phone's sync module")
     shutil.copy(JS / "sync.js", tmp_path / "sync.js")
+    shutil.copy(JS / "drafts.js", tmp_path / "drafts.js")
     (tmp_path / "outbox.js").write_text(FAKE_OUTBOX)
     (tmp_path / "run.js").write_text(RUNNER)
     (tmp_path / "package.json").write_text('{"type": "module"}')
@@ -202,3 +208,12 @@ def test_a_form_saved_before_owners_goes_to_the_first_person_signed_in(run_sync)
     res = run_sync(answers=["stored"], person="ann")
     assert [p["forms"] for p in res["posts"]] == [["form-0"]]
     assert res["result_owners"] == {"form-0": "ann"}
+
+
+def test_a_draft_goes_only_when_the_server_holds_its_form(run_sync):
+    """The typed draft of a work order is deleted when the server stores the form, kept when it refuses it,
+    and another person's draft of the same work order is never touched."""
+    kept = run_sync(answers=["refused"], owners=["tess"], drafts=["tess|w", "ola|w"])
+    assert kept["drafts"] == ["ola|w", "tess|w"]
+    stored = run_sync(answers=["stored"], owners=["tess"], drafts=["tess|w", "ola|w"])
+    assert stored["drafts"] == ["ola|w"]

@@ -1,12 +1,13 @@
 // The checklist page: every reading judged on the phone the moment it is entered (evaluate.js, the
 // twin of the server's evaluation), photos, signature, and the finished form into the outbox.
+import { debounce, loadDraft, saveDraft } from "./drafts.js";
 import { evaluate, readingKey, reasonIn } from "./evaluate.js";
 import { plausibility } from "./limits.js";
 import { meterReadingCheck } from "./meter.js";
 import { newUuid, outboxPut } from "./outbox.js";
 import { attachSignature } from "./signature.js";
 import { announce, currentOwner, myOutbox, myResults, syncOutbox } from "./sync.js";
-import { fromDisplay } from "./units.js";
+import { fromDisplay, toDisplay } from "./units.js";
 
 const PHOTO_MAX_SIDE = 1600;
 
@@ -276,6 +277,105 @@ function showDone(form, results) {
   if (note) note.hidden = !done;
 }
 
+// ---------------------------------------------------------------------------------------------------------------
+// Nothing typed is lost: a draft per person and work order (drafts.js) as fields are typed, restored when the
+// page opens; a form the server refused comes back into the fields with its errors beside them.
+
+const SKIPPED_FIELDS = new Set(["csrfmiddlewaretoken"]);
+
+/** The form's fields as [name, value] (radios and check boxes: [name, value, true] when ticked). */
+function formFields(form) {
+  const fields = [];
+  for (const input of form.elements) {
+    if (!input.name || SKIPPED_FIELDS.has(input.name) || ["file", "submit", "button"].includes(input.type)) continue;
+    if (input.type === "checkbox" || input.type === "radio") {
+      if (input.checked) fields.push([input.name, input.value, true]);
+    } else fields.push([input.name, input.value]);
+  }
+  return fields;
+}
+
+function restoreFields(form, fields) {
+  const values = new Map();
+  const ticked = new Set();
+  for (const [name, value, checked] of fields) {
+    if (checked) ticked.add(`${name}\u0000${value}`);
+    else values.set(name, value);
+  }
+  for (const input of form.elements) {
+    if (!input.name || SKIPPED_FIELDS.has(input.name) || ["file", "submit", "button"].includes(input.type)) continue;
+    if (input.type === "checkbox" || input.type === "radio") input.checked = ticked.has(`${input.name}\u0000${input.value}`);
+    else if (values.has(input.name)) input.value = values.get(input.name);
+  }
+}
+
+function blockOf(form, item, component) {
+  for (const block of form.querySelectorAll("[data-item]")) {
+    if (block.dataset.item === item && (block.dataset.component || null) === (component || null)) return block;
+  }
+  return null;
+}
+
+/** A number as the person types it now: the payload keeps typed numbers in its own unit system (collect()). */
+function inPersonUnits(form, value, item, component, payloadSystem) {
+  const system = form.dataset.unitSystem || "si";
+  const ctx = evaluationContext();
+  const slot = ctx && ctx.slots.find((s) => s.item === item && (s.component || null) === (component || null));
+  if (!slot || !slot.quantity || !payloadSystem || payloadSystem === system || !ctx.units[slot.quantity]) return value;
+  return toDisplay(ctx.units, fromDisplay(ctx.units, value, slot.quantity, payloadSystem), slot.quantity, system);
+}
+
+function putBackReading(form, reading, payloadSystem) {
+  const block = blockOf(form, reading.item, reading.component);
+  if (!block) return;
+  const na = block.querySelector("input[name^='na:']");
+  if (na) na.checked = reading.value === "na";
+  if (reading.value !== "na") {
+    if (block.dataset.kind === "number") {
+      const input = block.querySelector("input[type=number]");
+      const value = inPersonUnits(form, Number(reading.value), reading.item, reading.component, payloadSystem);
+      if (input) input.value = String(value);
+    } else if (block.dataset.kind === "text") {
+      const area = block.querySelector("textarea");
+      if (area) area.value = reading.value;
+    } else {
+      for (const radio of block.querySelectorAll("input[type=radio]")) radio.checked = radio.value === String(reading.value);
+    }
+  }
+  const note = block.querySelector("input[name^='n:']");
+  if (note) note.value = reading.note || "";
+}
+
+/** The server's errors beside the fields they are about (the rest stay in the list above the form). */
+function showFieldErrors(form, item) {
+  for (const old of form.querySelectorAll("[data-field-error]")) old.remove();
+  const readings = (item.form && item.form.readings) || [];
+  for (const [key, messages] of Object.entries(item.errors || {})) {
+    const at = /^readings\[(\d+)\]/.exec(key);
+    const reading = at ? readings[Number(at[1])] : null;
+    const block = reading ? blockOf(form, reading.item, reading.component) : null;
+    if (!block) continue;
+    const p = el("p", { class: "errorlist", "data-field-error": "", role: "alert" }, [].concat(messages).join(" "));
+    block.append(p);
+  }
+}
+
+async function putBackRefused(form, item) {
+  // Once per refused form on this page; and not over what was typed after the refusal (the draft is newer).
+  if (form.dataset.restoredFrom !== item.client_uuid) {
+    form.dataset.restoredFrom = item.client_uuid;
+    const draft = await loadDraft(currentOwner(), form.dataset.workOrder);
+    const typedSince = draft && item.tried_at && draft.saved_at > item.tried_at;
+    if (!typedSince && item.form) {
+      for (const reading of item.form.readings || []) putBackReading(form, reading, item.form.unit_system);
+      if (item.form.signature && item.form.signature.name) form.elements.signature_name.value = item.form.signature.name;
+      if (item.form.started_at) form.elements.started_at.value = item.form.started_at;
+      form.dispatchEvent(new Event("change"));
+    }
+  }
+  showFieldErrors(form, item);
+}
+
 async function showState(form) {
   const box = document.querySelector("[data-local-result]");
   const wo = form.dataset.workOrder;
@@ -285,8 +385,12 @@ async function showState(form) {
   results.sort((a, b) => (a.received_at < b.received_at ? 1 : -1));
   showDone(form, pending.length ? [] : results);
   if (pending.length) {
-    renderPending(box, pending[pending.length - 1]);
-    if (pending[pending.length - 1].state === "refused") form.dataset.clientUuid = pending[pending.length - 1].client_uuid;
+    const last = pending[pending.length - 1];
+    renderPending(box, last);
+    if (last.state === "refused") {
+      form.dataset.clientUuid = last.client_uuid;
+      await putBackRefused(form, last);
+    }
   } else if (results.length) {
     const rendered = box.querySelector("[data-rendered=server]");
     if (!rendered || rendered.dataset.inspection !== String(results[0].inspection_id)) await renderResult(box, results[0]);
@@ -302,12 +406,30 @@ export function startChecklist() {
   form.addEventListener("input", judgeAll);
   form.addEventListener("change", judgeAll);
   judgeAll();
+  const owner = currentOwner();
+  const keep = () => saveDraft(owner, form.dataset.workOrder, formFields(form)).catch(() => {});
+  const keepSoon = debounce(keep, 300);
+  let restored = false;
+  form.addEventListener("input", () => { if (restored) keepSoon(); });
+  form.addEventListener("change", () => { if (restored) { keepSoon(); keepSoon.flush(); } });
+  window.addEventListener("pagehide", () => keepSoon.flush());
   const block = form.querySelector("[data-signature-block]");
   block.hidden = false;
   const pad = attachSignature(form.querySelector("canvas.signature"));
   form.querySelector("[data-signature-clear]").addEventListener("click", () => pad.clear());
-  document.addEventListener("plenum:outbox", () => showState(form));
-  showState(form);
+  document.addEventListener("plenum:outbox", () => { if (restored) showState(form); });
+  (async () => {
+    try {
+      const draft = await loadDraft(owner, form.dataset.workOrder);
+      if (draft) {
+        restoreFields(form, draft.fields || []);
+        judgeAll();
+      }
+    } catch (err) { /* no draft store on this phone: the form starts empty */ }
+    restored = true;
+    form.dataset.draftReady = "";
+    await showState(form);
+  })();
 
   form.addEventListener("submit", async (event) => {
     event.preventDefault();
@@ -320,6 +442,7 @@ export function startChecklist() {
     const button = form.querySelector("button[type=submit]");
     button.disabled = true;
     try {
+      await keep();
       const payload = await collect(form, pad);
       await outboxPut({
         client_uuid: payload.client_uuid, owner: currentOwner(), state: "waiting", form: payload, saved_at: payload.finished_at,

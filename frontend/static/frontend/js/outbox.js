@@ -1,6 +1,7 @@
-// A tiny promise wrapper over IndexedDB: the outbox of finished forms, their server results, and a few settings.
+// A tiny promise wrapper over IndexedDB: the outbox of finished forms, their server results, a few settings,
+// and the drafts of forms being typed (drafts.js: one per person and work order).
 const DB_NAME = "plenum";
-const DB_VERSION = 1;
+const DB_VERSION = 2;
 let dbPromise = null;
 
 function openDb() {
@@ -12,6 +13,7 @@ function openDb() {
         if (!db.objectStoreNames.contains("outbox")) db.createObjectStore("outbox", { keyPath: "client_uuid" });
         if (!db.objectStoreNames.contains("results")) db.createObjectStore("results", { keyPath: "client_uuid" });
         if (!db.objectStoreNames.contains("meta")) db.createObjectStore("meta");
+        if (!db.objectStoreNames.contains("drafts")) db.createObjectStore("drafts", { keyPath: "key" });
       };
       request.onsuccess = () => resolve(request.result);
       request.onerror = () => reject(request.error);
@@ -39,6 +41,9 @@ export const resultPut = (result) => run("results", "readwrite", (s) => s.put(re
 export const resultAll = () => run("results", "readonly", (s) => s.getAll());
 export const metaGet = (key) => run("meta", "readonly", (s) => s.get(key));
 export const metaSet = (key, value) => run("meta", "readwrite", (s) => s.put(value, key));
+export const draftPut = (draft) => run("drafts", "readwrite", (s) => s.put(draft));
+export const draftGet = (key) => run("drafts", "readonly", (s) => s.get(key));
+export const draftDelete = (key) => run("drafts", "readwrite", (s) => s.delete(key));
 
 export function newUuid() {
   if (self.crypto && crypto.randomUUID) return crypto.randomUUID();

@@ -4,6 +4,7 @@
 // ("sent_at") so the server can place the visit on its timeline when the phone's clock is off.
 // A shared phone: every form and result carries its owner (the page's data-person key); only the person signed in
 // now sees and sends their own, so a form is only ever sent under the session of the person who signed it.
+import { dropDraft } from "./drafts.js";
 import { metaGet, metaSet, outboxAll, outboxDelete, outboxPut, resultAll, resultPut } from "./outbox.js";
 
 const BATCH = 50;
@@ -107,6 +108,8 @@ export async function apply(item, result) {
   }
   await resultPut({ ...result, owner: item.owner, work_order: item.form.work_order, received_at: new Date().toISOString() });
   await outboxDelete(item.client_uuid);
+  // The server holds the form: its draft (kept while typing, drafts.js) has done its work.
+  await dropDraft(item.owner, item.form.work_order);
   return true;
 }
 
