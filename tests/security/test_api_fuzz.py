@@ -10,6 +10,7 @@ message, is documented in the schema, and a 400 names the field it is about. Exa
 whole run stays well under a minute.
 """
 
+import datetime as dt
 import urllib.parse
 from collections.abc import Callable
 
@@ -20,6 +21,7 @@ from django.core.handlers.wsgi import WSGIHandler
 from django.db import close_old_connections
 from django.urls import Resolver404, resolve
 from hypothesis import HealthCheck, settings
+from hypothesis import strategies as st
 from schemathesis.specs.openapi.checks import status_code_conformance
 
 from accounts.services import api_token_issue
@@ -28,6 +30,18 @@ from inventory.csv_io import KINDS
 from tests.tenancy.world import World, build
 
 EXAMPLES = 8
+# Our date and date-time strategies below replace hypothesis-jsonschema's own on purpose.
+pytestmark = pytest.mark.filterwarnings("ignore:Overriding standard format")
+
+# Generated dates and times include the extreme ones (years 1 and 9999) beside ordinary ones. Formats can only
+# give well-formed strings (hypothesis-jsonschema checks each against its format), so NUL, NaN, 1e309, wrong types
+# and malformed dates are sent by the deterministic mutator below (test_no_server_error_for_any_hostile_value_...).
+schemathesis.openapi.format("date", st.sampled_from(["0001-01-01", "9999-12-31"]) | st.dates().map(str))
+schemathesis.openapi.format(
+    "date-time",
+    st.sampled_from(["0001-01-01T00:00:00+00:00", "9999-12-31T23:59:59+00:00"])
+    | st.datetimes(timezones=st.just(dt.UTC)).map(lambda d: d.isoformat()),
+)
 
 
 @pytest.fixture
