@@ -6,8 +6,15 @@ components, work orders, a synced inspection, a photo, a report). Operations
 with ids in their path are called twice per example: with the generated ids
 and with the ids of real records, so the generated bodies reach the code
 behind the lookup. No response may be a server error; every 4xx carries a
-message, is documented in the schema, and a 400 names the field it is about. Examples are bounded so the
-whole run stays well under a minute.
+message, is documented in the schema, and a 400 names the field it is about. Examples are bounded and
+derandomized, so a failure reproduces.
+
+Generated input alone never sends what a hostile client does (JSON cannot carry NaN, and a format strategy
+may only give well-formed strings), so a deterministic mutator (tests/security/hostile.py) follows: every field
+of a valid body of every operation and every query parameter, in turn, holds NaN, ±Infinity, 1e309, NUL and
+control characters, years 1 and 9999, 2³¹ and 2⁶³, deep nesting or the wrong type. A refusal saves nothing
+(row counts), is JSON with a message, and names the field; records a fair-but-odd value made are read back.
+The forms and the CSV importers get the same values in test_form_fuzz.py and test_csv_fuzz.py.
 """
 
 import datetime as dt
