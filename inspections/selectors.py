@@ -687,3 +687,19 @@ def findings_seen_on(*, inspections) -> dict[int, list[Finding]]:
     for found in out.values():
         found.sort(key=lambda f: (f.opened_at, f.pk))
     return out
+
+
+# Causes that close a finding without its corrective work: the problem is gone, the work may no longer be needed.
+RESOLVED_WITHOUT_WORK = {Finding.CloseCause.OK_LATER, Finding.CloseCause.REPLACED, Finding.CloseCause.AMENDED}
+
+
+def corrective_work_already_resolved(*, work_order_ids) -> set[int]:
+    """Of ``work_order_ids``, the corrective work orders whose findings are all closed without the work (ok on a
+    later visit, filters replaced, or cleared by an amendment): approved work the supervisor may cancel."""
+    held: dict[int, bool] = {}
+    for wo_id, state, cause in Finding.objects.filter(corrective_work_order_id__in=set(work_order_ids)).values_list(
+        "corrective_work_order_id", "state", "close_cause"
+    ):
+        done = state == Finding.State.CLOSED and cause in RESOLVED_WITHOUT_WORK
+        held[wo_id] = held.get(wo_id, True) and done
+    return {wo_id for wo_id, done in held.items() if done}

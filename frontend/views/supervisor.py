@@ -17,7 +17,7 @@ from django.views.decorators.http import require_POST
 from accounts.inputs import FieldErrors, check_text, date_problem
 from accounts.models import Membership, Role
 from accounts.selectors import organisations_where
-from inspections.selectors import reason_for
+from inspections.selectors import corrective_work_already_resolved, reason_for
 from inventory import services as inventory_services
 from inventory.inputs import AHU_NUMBERS, ahu_number_check
 from inventory.models import AHU, Component
@@ -88,6 +88,13 @@ def board(request):
             wo.site_today = site_days[site.pk]
             wo.plan_default = wo.scheduled_for or max(wo.due_date, wo.site_today)
         columns.append({"key": key, "title": title, "rows": shown, "total": len(rows)})
+    # Approved corrective work whose findings a later visit already resolved: said beside it, left to the supervisor.
+    resolved = corrective_work_already_resolved(
+        work_order_ids=[wo.pk for c in columns for wo in c["rows"] if wo.kind == WorkOrder.Kind.CORRECTIVE]
+    )
+    for c in columns:
+        for wo in c["rows"]:
+            wo.findings_resolved = wo.pk in resolved
     load = backends.technician_load(organisation=org, start=week, days=7)
     return render(
         request,

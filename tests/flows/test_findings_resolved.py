@@ -127,3 +127,27 @@ def test_corrective_work_holds_only_the_findings_it_names(api_client):
     [b] = _open(other, "Final filters", "filter_loading")
     assert a.corrective_work_order_id == b.corrective_work_order_id
     assert a.corrective_work_order.title == "Filter loaded — Pre-filters and Final filters"
+
+
+def test_approved_work_whose_findings_a_later_visit_resolved_stays_and_the_board_says_so(api_client, client):
+    """The damper's corrective work approved after visit 1; visit 2 reads the damper at its command: the finding
+    closes, the approved work is left to the supervisor, and the board says its findings are already resolved."""
+    from scheduling.services import corrective_work_order_approve
+    from tests.factories.scheduling import make_supervisor
+
+    ahu, tech, _ = _visit(api_client, None, None, days=0, final_dp=120, damper_pos=70)
+    [damper] = _open(ahu, "Outdoor-air damper", "damper_position")
+    boss = make_supervisor(ahu.building.site.organisation)
+    wo = corrective_work_order_approve(work_order=damper.corrective_work_order, by=boss)
+    ahu, tech, second = _visit(api_client, ahu, tech, days=2, final_dp=120, damper_pos=51)
+    damper.refresh_from_db()
+    wo.refresh_from_db()
+    assert damper.state == Finding.State.CLOSED and damper.close_cause == "ok_later"
+    assert wo.state in WorkOrder.OPEN_STATES and wo.approval == WorkOrder.Approval.APPROVED
+    client.force_login(boss)
+    monday = wo.due_date - dt.timedelta(days=wo.due_date.weekday())
+    with time_machine.travel(second + dt.timedelta(hours=2), tick=False):
+        page = client.get("/board/", {"week": monday.isoformat(), "all": "due"})
+    html = page.content.decode()
+    assert page.status_code == 200 and wo.title in html
+    assert "Its findings are already resolved" in html
