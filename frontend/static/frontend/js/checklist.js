@@ -91,9 +91,14 @@ function meterVerdict(ctx, hours) {
 
 function showVerdicts(form, ctx) {
   const { readings, blocks, system } = readingsOf(form, ctx);
+  const meterCheck = ctx ? meterVerdict(ctx, readings[RUN_HOURS_KEY]) : null;
+  // A run-hour value the server refuses never reaches a filter forecast: judged without it, as the server
+  // stores no form with it.
+  const judged = meterCheck && meterCheck.verdict === "fail" ? { ...readings, [RUN_HOURS_KEY]: undefined } : readings;
+  if (judged !== readings) delete judged[RUN_HOURS_KEY];
   let results = [];
   try {
-    results = ctx ? evaluate(ctx, readings) : [];
+    results = ctx ? evaluate(ctx, judged) : [];
   } catch (error) {
     results = [];
   }
@@ -117,14 +122,14 @@ function showVerdicts(form, ctx) {
       out.append(badge(r.verdict), ` ${reasonIn(ctx, r, system)} (phone check)`);
       if (r.verdict === "fail") out.append(" — say what you found in the note");
     }
-    const meter = key === RUN_HOURS_KEY && ctx ? meterVerdict(ctx, readings[key]) : null;
+    const meter = key === RUN_HOURS_KEY ? meterCheck : null;
     if (meter) {
       if (out.childNodes.length) out.append(document.createElement("br"));
       out.append(badge(meter.verdict), ` ${meter.message}`);
       if (meter.verdict === "fail") out.append(" — the server will refuse this form with this value unless the meter was replaced");
       mine.push(meter);
     }
-    if (!mine.length) out.append(badge("recorded", "recorded"), " recorded; nothing judges this reading on its own");
+    if (!mine.length) out.append(badge("recorded", "recorded"), " nothing judges this reading on its own"); // the badge says "recorded"
     if (range.improbable) out.append(`; ${range.text}`);
     out.dataset.phoneVerdict = mine.length ? mine.map((r) => r.verdict).join(" ") : "recorded";
   }
