@@ -112,3 +112,39 @@ def test_a_refused_forms_readings_come_back_into_the_fields(page, context, live_
     wait_app(page)
     wait_draft(page)
     expect(block.locator("input[type=number]")).to_have_value("41250", timeout=10000)
+
+
+def test_a_draft_stays_with_its_person_on_a_shared_phone(page, live_server, world, sign_in):
+    """Tess types and signs out; the work order goes to Omar, who opens it on the same phone: the fields are
+    empty (Tess's draft is kept under her name only). Back to Tess: her readings are there again."""
+    wo = world.work_a
+    page.set_viewport_size(PHONE)
+    sign_in(page, world.technician)
+    page.goto(f"{live_server.url}/w/{wo.public_id}/")
+    wait_app(page)
+    wait_draft(page)
+    field = page.locator("form[data-checklist] [data-kind=number] input[type=number]").nth(1)
+    field_id = field.get_attribute("id")
+    field.fill("42.5")
+    field.blur()
+    page.wait_for_timeout(600)  # past the typing pause (300 ms) the draft is saved after
+    page.get_by_role("button", name="Sign out").click()
+    page.wait_for_load_state("load")
+
+    wo.assignee = world.other_technician
+    wo.save(update_fields=["assignee"])
+    sign_in(page, world.other_technician)
+    page.goto(f"{live_server.url}/w/{wo.public_id}/")
+    wait_app(page)
+    wait_draft(page)
+    expect(page.locator(f"#{field_id}")).to_have_value("")
+    page.get_by_role("button", name="Sign out").click()
+    page.wait_for_load_state("load")
+
+    wo.assignee = world.technician
+    wo.save(update_fields=["assignee"])
+    sign_in(page, world.technician)
+    page.goto(f"{live_server.url}/w/{wo.public_id}/")
+    wait_app(page)
+    wait_draft(page)
+    expect(page.locator(f"#{field_id}")).to_have_value("42.5")
