@@ -16,6 +16,7 @@ from django.db.models.functions import Coalesce
 from django.utils import timezone
 
 from accounts.models import Organisation
+from inventory.display import local_date_text
 from inventory.models import AHU, Component
 from scheduling.models import WorkOrder
 
@@ -189,6 +190,13 @@ class Inspection(models.Model):
     @property
     def flag_open(self) -> bool:
         return bool(self.flags) and self.flag_resolved_at is None
+
+    @property
+    def display_name(self) -> str:
+        """The form as a person names it: unit with building, work order title and the site's day it was finished."""
+        when = self.finished_at or self.received_at
+        day = f", finished {local_date_text(when, zone=self.ahu.building.site.time_zone)}" if when else ""
+        return f"{self.ahu.display_name} — {self.work_order.title}{day}"
 
 
 class Reading(models.Model):

@@ -232,6 +232,14 @@ class AHU(models.Model):
     def get_absolute_url(self) -> str:
         return reverse("inventory:label", kwargs={"code": self.label_code})
 
+    @property
+    def display_name(self) -> str:
+        """The unit as a person reads it beside other units: its tag and its building, "AHU-01 (Ropewalk Hall)".
+
+        Tags are unique only within a building, so a site may have two AHU-01s; the building tells them apart.
+        """
+        return f"{self.tag} ({self.building.name})"
+
     def clean(self) -> None:
         self._clean_policy()
         self._clean_ventilation()

@@ -412,7 +412,7 @@ def flagged(request):
         except ValidationError as exc:
             messages.error(request, " ".join(exc.messages))
         else:
-            messages.success(request, f"Flag on inspection {form.pk} resolved.")
+            messages.success(request, f"Flag resolved: {form.display_name}.")
         return redirect("frontend:flagged")
     return render(request, "frontend/supervisor/flagged.html", {"forms": list(forms)})
 
@@ -433,7 +433,9 @@ def verify(request, public_id):
                 version = None
             backends.work_order_verify(work_order=wo, by=request.user, expected_version=version)
     except ValidationError as exc:
-        messages.error(request, f"{wo.ahu.tag} {wo.title}: {' '.join(exc.messages)}")
+        # The form's refusals name the unit, the work and the day themselves.
+        named = "" if inspection is not None else f"{wo.ahu.display_name} — {wo.title}: "
+        messages.error(request, named + " ".join(exc.messages))
     else:
-        messages.success(request, f"{wo.ahu.tag} — {wo.title} verified.")
+        messages.success(request, f"{wo.ahu.display_name} — {wo.title} verified.")
     return redirect("frontend:checklist", public_id=wo.public_id)

@@ -188,6 +188,8 @@ def checklist(request, public_id):
     inspection = selectors.record_inspection(work_order=wo)
     if result is None and inspection is not None:
         result = stored_result(inspection=inspection, work_order=wo)
+    flag_open = inspection is not None and inspection.flag_open
+    manages = backends.work_orders_managed_by(user=request.user).filter(pk=wo.pk).exists()
     return render(
         request,
         "frontend/technician/checklist.html",
@@ -207,8 +209,9 @@ def checklist(request, public_id):
             "evaluation_context": (data or {}).get("evaluation") if not done and may_submit else None,
             "inspection": inspection,
             "can_report": done and inspection is not None,
-            "can_verify": wo.state == WorkOrder.State.COMPLETED
-            and backends.work_orders_managed_by(user=request.user).filter(pk=wo.pk).exists(),
+            # While the form's flag is unresolved the supervisor is sent to resolve it; Verify would be refused.
+            "can_verify": wo.state == WorkOrder.State.COMPLETED and not flag_open and manages,
+            "can_resolve_flag": flag_open and manages,
             **(record_context(request=request, wo=wo) if inspection is not None else {"visits": []}),
         },
         status=200 if data is not None or done else 503,

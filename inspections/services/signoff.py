@@ -26,7 +26,7 @@ def inspection_edit(*, inspection: Inspection, by, **changes) -> Inspection:
     raise ValidationError(
         {
             "inspection": [
-                f"inspection {inspection.pk} was signed by {inspection.signature_name} on "
+                f"{inspection.display_name} was signed by {inspection.signature_name} on "
                 f"{inspection.signed_at:%Y-%m-%d %H:%M} and cannot be edited; add an amendment instead"
             ]
         }
@@ -184,14 +184,10 @@ def inspection_verify(*, inspection: Inspection, by) -> Inspection:
     if not _is_supervisor(by, inspection):
         raise PermissionDenied("only a supervisor of the site may verify an inspection")
     if inspection.verified_at is not None:
-        raise ValidationError({"inspection": [f"inspection {inspection.pk} was verified already"]})
+        raise ValidationError({"inspection": [f"{inspection.display_name} was verified already"]})
     if inspection.flag_open:
         raise ValidationError(
-            {
-                "inspection": [
-                    f"inspection {inspection.pk} is flagged ({inspection.flag_reason}); resolve the flag first"
-                ]
-            }
+            {"inspection": [f"{inspection.display_name} is flagged ({inspection.flag_reason}); resolve the flag first"]}
         )
     inspection.state = Inspection.State.VERIFIED
     inspection.verified_at = timezone.now()
@@ -209,9 +205,9 @@ def flagged_form_resolve(*, inspection: Inspection, by, note: str) -> Inspection
     if not _is_supervisor(by, inspection):
         raise PermissionDenied("only a supervisor of the site may resolve a flagged form")
     if not inspection.flags:
-        raise ValidationError({"inspection": [f"inspection {inspection.pk} is not flagged"]})
+        raise ValidationError({"inspection": [f"{inspection.display_name} is not flagged"]})
     if inspection.flag_resolved_at is not None:
-        raise ValidationError({"inspection": [f"the flag on inspection {inspection.pk} was resolved already"]})
+        raise ValidationError({"inspection": [f"the flag on {inspection.display_name} was resolved already"]})
     if not isinstance(note, str) or not note.strip():
         raise ValidationError({"note": ["say what was done about the flag"]})
     inspection.flag_resolved_at = timezone.now()

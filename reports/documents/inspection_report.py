@@ -73,7 +73,7 @@ def reading_value(reading: Reading, system: str) -> str:
 def _inspections(wo: WorkOrder) -> list[Inspection]:
     return list(
         Inspection.objects.filter(work_order=wo)
-        .select_related("technician", "verified_by")
+        .select_related("technician", "verified_by", "flag_resolved_by")
         .prefetch_related(
             Prefetch(
                 "readings",
