@@ -38,10 +38,12 @@ Open findings by severity and age
     over 180 days.
 
 Filter status of every unit
-    For each filter bank of each unit, the latest ``filter_loading`` evaluation
-    (inspection finished on or before ``as_of``): verdict, loading % and the
-    change forecast as the inspection's evaluation stored them ("now" when the
-    filter was already at or over its final value, never a past date); the
+    For each filter bank of each unit, the latest judged ``filter_loading``
+    evaluation (inspection finished on or before ``as_of``; a reading that could
+    not be judged, e.g. airflow too far from design, is skipped): verdict,
+    loading % and the change forecast as the inspection's evaluation stored
+    them ("now" when the filter was already at or over its final value; a
+    stored date before the site's today reads "due now (forecast for …)"); the
     pressure drop at design airflow of that reading from
     ``inspections.selectors.filter_series``, the one series the charts and the
     unit history read (the physics is in engineering.filters).
@@ -309,9 +311,16 @@ def compliance_figures(*, site_ids: list[int], start: date, end: date, as_of: da
 
 
 def _filter_rows(*, units: list[AHU], as_of: datetime, today_of: dict[int, date]) -> list[dict]:
-    latest = Evaluation.objects.filter(
-        component=OuterRef("pk"), check_name="filter_loading", inspection__finished_at__lte=as_of
-    ).order_by("-inspection__finished_at", "-pk")
+    # The latest judged reading: one that could not be judged (airflow too far from design to correct it,
+    # no clean or final value) has no pressure drop at design airflow, is not a filter to watch and does
+    # not hide the last value that was judged.
+    latest = (
+        Evaluation.objects.filter(
+            component=OuterRef("pk"), check_name="filter_loading", inspection__finished_at__lte=as_of
+        )
+        .filter(derived__has_key="corrected_dp_pa")
+        .order_by("-inspection__finished_at", "-pk")
+    )
     banks = (
         Component.objects.filter(ahu__in=units, kind=ComponentKind.FILTER_BANK)
         .select_related("ahu")

@@ -29,12 +29,12 @@ DAY0 = dt.datetime(2025, 1, 6, 9, 30, tzinfo=dt.UTC)
 DASHED_FORECAST = 'stroke-dasharray="8 5"'  # frontend.charts: the dashed forecast line
 
 
-def _visit(api_client, time_machine, ahu, tech, days, hours, dp, after=None):
-    """One filter check at design airflow (3.0 m³/s, so no correction), optionally with a filter change."""
+def _visit(api_client, time_machine, ahu, tech, days, hours, dp, after=None, airflow_ls=3000):
+    """One filter check, at design airflow (3.0 m³/s, so no correction) unless told, optionally with a change."""
     tasks = ["filter_check"] + (["filter_replace"] if after is not None else [])
     wo, _ = make_visit(tasks=tasks, ahu=ahu, organisation=ahu.building.site.organisation, technician=tech)
     pre, final = ahu.components.get(name="Pre-filters"), ahu.components.get(name="Final filters")
-    readings = [r("visit.run_hours", hours), r("visit.supply_airflow", 3000)]  # the form takes L/s
+    readings = [r("visit.run_hours", hours), r("visit.supply_airflow", airflow_ls)]  # the form takes L/s
     for bank, value in ((pre, 60), (final, dp)):
         readings += [
             r("filter_check.dp", value, bank),
@@ -180,3 +180,34 @@ def test_the_managers_chart_draws_each_set_of_filters_apart_and_marks_the_change
     width = int(re.search(r'viewBox="0 0 (\d+) \d+"', svg).group(1))
     sizes = [int(s) for s in re.findall(r'font-size="(\d+)"', svg)]
     assert min(sizes) * 360 / width >= 10
+
+
+def test_a_reading_that_cannot_be_judged_is_not_a_filter_to_watch_and_the_last_judged_value_stays(
+    api_client, client, time_machine
+):
+    """Final filters 150, 170, 190 Pa at design airflow, then a reading at 1,000 L/s (design 3,000 L/s): too far
+    from design to correct (0.5–1.5 × design, engineering.filters, common practice). The record says it could
+    not be judged; the dashboard does not count it as a filter to watch; the site page still shows 190 Pa at
+    design airflow, (190 − 90)/(250 − 90) = 62.5 % of the span (shown 62 % or 63 %), from the last judged reading.
+    """
+    from frontend.selectors import site_summaries
+
+    first, tech = make_visit(tasks=["filter_check"])
+    ahu = first.ahu
+    for days, hours, dp in ((0, 1_300, 150), (30, 1_600, 170), (60, 1_900, 190)):
+        _visit(api_client, time_machine, ahu, tech, days, hours, dp)
+    last = _visit(api_client, time_machine, ahu, tech, 90, 2_200, 60, airflow_ls=1000)
+    code = ahu.components.get(name="Final filters").label_code
+    [judged] = [e for e in last["evaluation"] if e["check"] == "filter_loading" and e["component"] == code]
+    assert "cannot judge the filter loading" in judged["reason"]
+    assert "airflow_m3s" not in judged["reason"]
+
+    time_machine.move_to(DAY0 + dt.timedelta(days=95), tick=False)
+    page, _, manager = _manager_page(client, ahu)
+    _, rows = site_summaries(user=manager)
+    [row] = [r for r in rows if r["site"].pk == ahu.building.site_id]
+    assert row["filters"]["watch"] == 0
+    assert row["filters"]["ok"] == 2  # pre-filters 60 Pa (10 % of span) and final filters 62.5 %
+    [final_row] = [r for r in page.context["f"].filters if r["filter"] and r["filter"].name == "Final filters"]
+    assert final_row["corrected_dp"].startswith("190")
+    assert final_row["loading"] in ("62 %", "63 %")
