@@ -151,3 +151,25 @@ def test_approved_work_whose_findings_a_later_visit_resolved_stays_and_the_board
     html = page.content.decode()
     assert page.status_code == 200 and wo.title in html
     assert "Its findings are already resolved" in html
+
+
+def test_a_later_partial_ok_does_not_close_a_freeze_protection_finding(api_client):
+    """The freeze trip test failed on visit 1 (critical); visit 2 answers only the trip test ok: the finding stays
+    open, for the corrective retest of every step to close."""
+    from inventory.models import Site
+    from tests.flows.test_findings_journey import _freeze_visit
+
+    wo, _ = _freeze_visit(api_client)
+    Site.objects.filter(pk=wo.ahu.building.site_id).update(freeze_season_start=None)
+    trip = Finding.objects.get(ahu=wo.ahu, problem="preheater_freeze.freeze_trip_test", state=Finding.State.OPEN)
+    later, tech = make_visit(
+        tasks=["preheater_freeze"], ahu=wo.ahu, organisation=wo.organisation, technician=wo.assignee
+    )
+    finished = trip.opened_at + dt.timedelta(days=7)
+    with time_machine.travel(finished + dt.timedelta(hours=1), tick=False):
+        api_client.force_authenticate(tech)
+        readings = [r("visit.run_hours", 1300), r("preheater_freeze.freeze_trip_test", "ok")]
+        res = api_client.post(SYNC, {"forms": [sync_form(later, readings, finished_at=finished)]}, format="json")
+    assert res.json()["results"][0]["status"] in ("stored", "flagged")
+    trip.refresh_from_db()
+    assert trip.state == Finding.State.OPEN and trip.close_cause == ""
