@@ -199,7 +199,8 @@ def _reading_result(slot, value: Value) -> Result | None:
         return None
     if it.kind == "check":
         res.verdict = OK if value.text == "ok" else FAIL
-        res.reason = f"{it.label}: {'ok' if res.verdict == OK else 'not ok'}"
+        # The verdict shows beside the reason: the reason says what was confirmed, not "ok" again.
+        res.reason = f"{'confirmed' if res.verdict == OK else 'not confirmed'}: {it.label}"
         return res
     if it.kind == "choice":
         choice = next((c for c in it.choices if c["value"] == value.text), None)
@@ -241,17 +242,20 @@ def _band_parts(it, x: float, lim: dict, verdict: str) -> list:
     w_lo = lim.get("watch_min") if lim.get("watch_min") is not None else ok_lo
     w_hi = lim.get("watch_max") if lim.get("watch_max") is not None else ok_hi
     head = [f"{it.label.lower()} ", qty(x, it.quantity, d)]
+
+    def inside(lo, hi) -> list:  # "within 2.0–6.0 °C"; a one-sided band: "at most 6.7 A"
+        return [" within " if lo is not None and hi is not None else " ", span(lo, hi, it.quantity, d)]
+
+    def outside(lo, hi) -> list:  # "outside 2.0–6.0 °C"; a one-sided band: "above 6.7 A" / "below 2.0 °C"
+        if lo is not None and hi is not None:
+            return [" outside ", span(lo, hi, it.quantity, d)]
+        return [" above ", qty(hi, it.quantity, d)] if hi is not None else [" below ", qty(lo, it.quantity, d)]
+
     if verdict == OK:
-        return [*head, " is within ", span(ok_lo, ok_hi, it.quantity, d)]
+        return [*head, " is", *inside(ok_lo, ok_hi)]
     if verdict == WATCH:
-        return [
-            *head,
-            " is outside ",
-            span(ok_lo, ok_hi, it.quantity, d),
-            " but within ",
-            span(w_lo, w_hi, it.quantity, d),
-        ]
-    return [*head, " is outside ", span(w_lo, w_hi, it.quantity, d)]
+        return [*head, " is", *outside(ok_lo, ok_hi), " but", *inside(w_lo, w_hi)]
+    return [*head, " is", *outside(w_lo, w_hi)]
 
 
 # ---------------------------------------------------------------------------

@@ -93,7 +93,10 @@ def render_part(part: Any, system: str) -> str:
         return _with_unit(_number(part["value"], quantity, system, d), quantity, system)
     low, high = part.get("low"), part.get("high")
     if low is not None and high is not None:
-        return _with_unit(f"{_number(low, quantity, system, d)}–{_number(high, quantity, system, d)}", quantity, system)
+        lo, hi = _number(low, quantity, system, d), _number(high, quantity, system, d)
+        # "−7.0 to −3.0 °C": a dash between negative numbers reads as more minus signs.
+        dash = " to " if "−" in lo + hi else "–"
+        return _with_unit(f"{lo}{dash}{hi}", quantity, system)
     if low is not None:
         return "at least " + _with_unit(_number(low, quantity, system, d), quantity, system)
     if high is not None:

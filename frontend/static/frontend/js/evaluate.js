@@ -983,9 +983,15 @@ function bandParts(slot, x, lim, verdict) {
   const wLo = lim.watch_min ?? okLo;
   const wHi = lim.watch_max ?? okHi;
   const head = [`${slot.label.toLowerCase()} `, q(x, slot.quantity, d)];
-  if (verdict === OK) return [...head, " is within ", span(okLo, okHi, slot.quantity, d)];
-  if (verdict === WATCH) return [...head, " is outside ", span(okLo, okHi, slot.quantity, d), " but within ", span(wLo, wHi, slot.quantity, d)];
-  return [...head, " is outside ", span(wLo, wHi, slot.quantity, d)];
+  // A one-sided band reads "at most 6.7 A" / "above 6.7 A", never "outside at most" (evaluation._band_parts).
+  const inside = (lo, hi) => [lo !== null && hi !== null ? " within " : " ", span(lo, hi, slot.quantity, d)];
+  const outside = (lo, hi) => {
+    if (lo !== null && hi !== null) return [" outside ", span(lo, hi, slot.quantity, d)];
+    return hi !== null ? [" above ", q(hi, slot.quantity, d)] : [" below ", q(lo, slot.quantity, d)];
+  };
+  if (verdict === OK) return [...head, " is", ...inside(okLo, okHi)];
+  if (verdict === WATCH) return [...head, " is", ...outside(okLo, okHi), " but", ...inside(wLo, wHi)];
+  return [...head, " is", ...outside(wLo, wHi)];
 }
 
 function readingResult(slot, value) {
@@ -993,7 +999,7 @@ function readingResult(slot, value) {
   const res = result({ check: slot.kind, item: slot.item, component: slot.component, condition_code: slot.condition || "" });
   if (slot.kind === "check") {
     res.verdict = value === "ok" ? OK : FAIL;
-    res.reason = `${slot.label}: ${res.verdict === OK ? "ok" : "not ok"}`;
+    res.reason = `${res.verdict === OK ? "confirmed" : "not confirmed"}: ${slot.label}`; // the verdict shows beside it
     return res;
   }
   if (slot.kind === "choice") {

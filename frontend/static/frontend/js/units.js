@@ -88,7 +88,9 @@ export function renderPart(ctx, part, system) {
   if ("value" in part) return withUnit(units, num(part.value), part.quantity, system);
   const { low, high } = part;
   if (low !== null && low !== undefined && high !== null && high !== undefined) {
-    return withUnit(units, `${num(low)}–${num(high)}`, part.quantity, system);
+    const [lo, hi] = [num(low), num(high)];
+    const dash = `${lo}${hi}`.includes("−") ? " to " : "–"; // "−7.0 to −3.0 °C" (inspections/reasons.py)
+    return withUnit(units, `${lo}${dash}${hi}`, part.quantity, system);
   }
   if (low !== null && low !== undefined) return `at least ${withUnit(units, num(low), part.quantity, system)}`;
   if (high !== null && high !== undefined) return `at most ${withUnit(units, num(high), part.quantity, system)}`;
