@@ -167,6 +167,12 @@ def _filter_charts(*, ahu: AHU, lo: datetime, hi: datetime, system: str) -> list
                 note = f"No change forecast: {exc}"
         elif not points:
             note = "No change forecast: no readings with run-hours since the last filter change."
+        # The last reading of the set fitted at or over the final value: change now, whatever the trend says
+        # (as engineering.filters.filter_forecast's at_final_now and the inspection's evaluation).
+        cur = [p for p in series.current.points if not p.after_change] or list(series.current.points)
+        due_now = bool(final and cur and round(cur[-1].corrected_dp_pa, 9) >= final) or bool(
+            forecast is not None and forecast.at_final_now
+        )
         lines = []
         for life in series.lives:
             shown_pts = [(p.at.date(), p.corrected_dp_pa) for p in life.points if p.at >= lo]
@@ -193,7 +199,7 @@ def _filter_charts(*, ahu: AHU, lo: datetime, hi: datetime, system: str) -> list
             if life.changed_at is not None and lo <= life.changed_at < hi
         ]
         last_day, last_value = series_out[-1][1][-1], series_out[-1][2][-1]
-        if forecast is not None and forecast.date_at_final is not None and not forecast.at_final_now:
+        if forecast is not None and forecast.date_at_final is not None and not due_now:
             fdate = forecast.date_at_final
             fdate = fdate.date() if isinstance(fdate, datetime) else fdate
             series_out.append(
@@ -218,6 +224,7 @@ def _filter_charts(*, ahu: AHU, lo: datetime, hi: datetime, system: str) -> list
                 "svg": svg_data_uri(svg),
                 "note": note,
                 "forecast": forecast,
+                "due_now": due_now,
                 "final": shown(final, "pressure", system),
                 # The plotted numbers (SI), one (name, [(day, Pa at design airflow)]) per set of filters.
                 "lines": lines,

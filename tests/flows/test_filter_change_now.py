@@ -97,6 +97,7 @@ def test_a_reading_over_final_says_change_now_with_no_date_ahead_and_no_forecast
         if c["bank"].name == "Final filters"
     ]
     assert chart["forecast"].at_final_now is True
+    assert chart["due_now"] is True
     # The manager's chart: no dashed line; the table says now.
     time_machine.move_to(DAY0 + dt.timedelta(days=95), tick=False)
     page, mchart, _ = _manager_page(client, ahu)
