@@ -74,7 +74,9 @@ def site_summaries(*, user, as_of: dt.datetime | None = None) -> tuple[complianc
         rows[item["unit"].building.site_id]["freeze"][item["status"]] += 1
         if item["status"] != compliance.FREEZE_READY:
             # Each unit that is not ready says why (inspections.freeze's words), not only a count.
-            rows[item["unit"].building.site_id]["freeze_not_ready"].append(f"{item['unit'].tag}: {item['reason']}")
+            rows[item["unit"].building.site_id]["freeze_not_ready"].append(
+                f"{item['unit'].display_name}: {item['reason']}"
+            )
     for row in rows.values():
         row["freeze_text"] = freeze_text(row["freeze"])
         per_site = figures.by_site.get(row["site"].pk, {})

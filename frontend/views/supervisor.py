@@ -144,12 +144,14 @@ def assign(request, public_id):
             if "scheduled_for" in request.POST:
                 work_order_schedule(work_order=wo, day=day, by=request.user)
     except ValidationError as exc:
-        messages.error(request, f"{wo.ahu.tag} {wo.title}: {' '.join(exc.messages)}")
+        messages.error(request, f"{wo.ahu.display_name} — {wo.title}: {' '.join(exc.messages)}")
     except WorkOrderConflict:
-        messages.error(request, f"{wo.ahu.tag} {wo.title}: someone changed it meanwhile; here it is as it is now.")
+        messages.error(
+            request, f"{wo.ahu.display_name} — {wo.title}: someone changed it meanwhile; here it is as it is now."
+        )
     else:
         planned = f" for {day.day} {day:%b}" if day else ""
-        messages.success(request, f"{wo.ahu.tag} — {wo.title} assigned to {technician}{planned}.")
+        messages.success(request, f"{wo.ahu.display_name} — {wo.title} assigned to {technician}{planned}.")
     return redirect(back)
 
 
