@@ -15,6 +15,7 @@ from django.utils.http import url_has_allowed_host_and_scheme
 from django.views.decorators.http import require_GET, require_POST
 
 from inventory.selectors import ahus_visible_to, sites_visible_to
+from scheduling.selectors import person_time_zone
 
 from .. import backends
 
@@ -94,4 +95,6 @@ def record_request(request):
 def records(request):
     rows = backends.reports_visible_to(user=request.user, limit=50)
     waiting = any(r.status in ("queued", "running") for r in rows)
-    return render(request, "frontend/records.html", {"reports": rows, "waiting": waiting})
+    # A report may span sites: its times read on the clock most of the person's sites keep, zone named.
+    zone = person_time_zone(user=request.user) or "UTC"
+    return render(request, "frontend/records.html", {"reports": rows, "waiting": waiting, "zone": zone})

@@ -107,3 +107,13 @@ def test_inspection_pdf_shows_the_flag_with_its_resolution(s, django_capture_on_
     assert "run-hour meter:" in text
     assert "Resolved by Sara Plan on 14 Jan 2026 06:30 CET: Meter swapped last week; new base noted." in text
     assert "05:30 CET" in text and " UTC –" not in text
+
+
+def test_reports_page_gives_request_times_on_the_sites_clock(s, login, django_capture_on_commit_callbacks):
+    """A report asked for at 05:30 UTC lists as requested at 06:30 CET (the zone of the person's sites)."""
+    with time_machine.travel(NOW, tick=False):
+        finished_visit(s)
+        with django_capture_on_commit_callbacks(execute=True):
+            report_request(user=s.supervisor, kind="inspection", parameters={"work_order": str(s.work_a.public_id)})
+        page = " ".join(login(s.supervisor).get("/records/").content.decode().split())
+    assert "Requested 14 Jan 2026 06:30 CET by you" in page
