@@ -91,9 +91,11 @@ DERIVED: dict[str, tuple[str, Any]] = {
     "uncorrected_outdoor_airflow_m3s": ("uncorrected outdoor-air intake", "airflow"),
     "system_ventilation_efficiency": ("system ventilation efficiency", "number"),
     # coils
-    "air_side_w": ("air-side heat", "heat_rate"),
-    "water_side_w": ("water-side heat", "heat_rate"),
-    "difference_pct": ("difference", "pct"),
+    # Magnitudes, as the reason gives them ("air side 38,147 Btu/h … 0.8 % apart (water side higher)"):
+    # a cooling coil's heat is stored negative, and the sign of the difference is the reason's words.
+    "air_side_w": ("air-side heat", "heat_magnitude"),
+    "water_side_w": ("water-side heat", "heat_magnitude"),
+    "difference_pct": ("air and water side apart", "pct_magnitude"),
     "airflow_at": ("air density taken at", _AIRFLOW_AT),
     "air_density_kg_m3": ("air density", "density"),
     "pressure_pa": ("atmospheric pressure", "absolute_pressure"),
@@ -190,6 +192,10 @@ def _shown(value: Any, how: Any, system: str, item: str) -> str:
         return f"± {value * 100:.0f} points"
     if how == "pct":
         return _minus(f"{value:.1f} %")
+    if how == "pct_magnitude":
+        return f"{abs(value):.1f} %"
+    if how == "heat_magnitude":
+        return _quantity(abs(value), "heat_rate", system)
     if how == "pct_points":
         return _minus(f"{value:.1f} points")
     if how in ("number", "count"):

@@ -14,7 +14,7 @@ from django.core.exceptions import ValidationError
 from django.db.models import Prefetch
 from django.http import Http404
 
-from inspections import checklists, display
+from inspections import checklists, display, reasons
 from inspections.display import VERDICT_WORDS
 from inspections.models import Amendment, Evaluation, Inspection, Photo, Reading
 from inspections.selectors import check_label, findings_seen_on, item_labels, reason_for, work_order_for
@@ -56,8 +56,11 @@ def reading_value(reading: Reading, system: str) -> str:
     if item.kind == item.Kind.NUMBER:
         if reading.value_si is None:
             return "—"
-        value = checklists.to_display(reading.value_si, item.quantity, system)
         label = checklists.display_unit_label(item.quantity, system)
+        if item.quantity in reasons.DECIMALS:
+            # The quantity's usual precision, grouped as the reasons group it ("16,500 h", "1200 cfm").
+            return f"{reasons.display_number(reading.value_si, item.quantity, system)} {label}".strip()
+        value = checklists.to_display(reading.value_si, item.quantity, system)
         decimals = item.decimals
         if system == "us" and item.quantity == "pressure":
             decimals = max(decimals, 2)

@@ -82,8 +82,8 @@ def test_yes_no_values_read_in_words_or_not_at_all_and_unknown_keys_are_not_show
 
 def test_a_non_finite_stored_number_is_not_shown():
     """A NaN or infinite value kept from before the input policy reads as nothing, never "nan" or "inf"."""
-    rows = display.derived_rows({"loading_pct": float("nan"), "dp_pa": float("inf"), "difference_pct": -4.25}, "si")
-    assert rows == [("difference", "−4.2 %")]
+    rows = display.derived_rows({"loading_pct": float("nan"), "dp_pa": float("inf"), "deviation_pct": -4.25}, "si")
+    assert rows == [("deviation", "−4.2 %")]
 
 
 def test_engineering_refusals_lose_their_argument_names():
