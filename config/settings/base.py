@@ -60,6 +60,7 @@ INSTALLED_APPS = [
 MIDDLEWARE = [
     "django.middleware.security.SecurityMiddleware",
     "config.errors.ApiBodyLimitMiddleware",
+    "config.query.QueryControlCharactersMiddleware",  # NUL in ?site= etc. was a PostgreSQL DataError (500)
     "whitenoise.middleware.WhiteNoiseMiddleware",
     "django.contrib.sessions.middleware.SessionMiddleware",
     "django.middleware.common.CommonMiddleware",
