@@ -35,6 +35,9 @@ ASSIGN_AHEAD_DAYS = 10
 # Each technician's round today carries these, on up to ROUND_UNITS units with preheat on their sites: the
 # freeze-protection test, the outdoor-air check, the filter banks (airflow asked) and the coil balance.
 ROUND_TASKS = ("preheater_freeze", "ventilation_check", "filter_check", "coil_clean")
+# The first of those units also carries the sensor calibration (drift) and the fan proving test, so each
+# technician can walk every kind of check in one day.
+ROUND_FIRST_UNIT_TASKS = ("sensor_calibration", "fan_proving")
 ROUND_UNITS = 2
 # Completed visits older than this are verified by the supervisor, so the history shows both states.
 VERIFY_AFTER_DAYS = 60
@@ -105,7 +108,8 @@ def _site_owners(*, organisation, technicians: list) -> dict[int, Any]:
 
 @transaction.atomic
 def _round_today(*, organisation, today: dt.date) -> int:
-    """Give each technician today a visit carrying ROUND_TASKS on up to ROUND_UNITS units with preheat.
+    """Give each technician today a visit carrying ROUND_TASKS on up to ROUND_UNITS units with preheat,
+    the first of them with ROUND_FIRST_UNIT_TASKS too.
 
     The units are the technician's in-service units with an electric preheater or a preheat coil, by
     site, building and tag. Each gets one open round visit (made once, kept while open), assigned to the
@@ -133,7 +137,7 @@ def _round_today(*, organisation, today: dt.date) -> int:
             chosen[tech.pk].append(ahu)
     count = 0
     for tech in technicians:
-        for ahu in chosen.get(tech.pk, []):
+        for n, ahu in enumerate(chosen.get(tech.pk, [])):
             day = max(today, site_today(site=ahu.building.site))
             # A task the technician already has on this unit by then (the retest of a failed freeze test)
             # is not asked twice.
@@ -142,7 +146,7 @@ def _round_today(*, organisation, today: dt.date) -> int:
                 .exclude(source_ref=ROUND_REF)
                 .values_list("tasks__task_code", flat=True)
             )
-            codes = [c for c in ROUND_TASKS if c not in held]
+            codes = [c for c in ROUND_TASKS + (ROUND_FIRST_UNIT_TASKS if n == 0 else ()) if c not in held]
             wo, _ = demo_round_visit(ahu=ahu, codes=codes, due=day)
             if wo.assignee_id != tech.pk:
                 wo = work_order_assign(work_order=wo, assignee=tech, by=supervisor)

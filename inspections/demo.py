@@ -18,6 +18,8 @@ from django.db import transaction
 from PIL import Image, ImageDraw
 
 from accounts.models import Membership, Role
+from engineering import filters
+from engineering import units as eng_units
 from engineering.freeze import daily_minimums_from_normals, freeze_season_start
 from inventory.models import AHU
 from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
@@ -34,6 +36,11 @@ VISIT_DAYS = 30
 # Units whose latest freeze-protection test fails (site code, unit tag): "stage_late" = stage 1 of the
 # electric preheater switched on 4.5 K below its set point. The demo's one unit "not ready" for winter.
 FREEZE_FAULTS = {("elderbank", "AHU-L1"): "stage_late"}
+# The visit this many months back finds every unit running at part load (share of its design airflow): the
+# supply airflow is read beside the filters, whose pressure drop is lower by the filter law's exponent, so the
+# history shows a filter reading at reduced airflow that the evaluation corrects to design airflow. That
+# visit does no ventilation check (outdoor air is judged at the unit's normal airflow).
+REDUCED_AIRFLOW_MONTHS_AGO, REDUCED_AIRFLOW_SHARE = 2, 0.8
 
 
 def _signature_png(name: str) -> str:
@@ -150,6 +157,13 @@ def _outdoor_c(site, when: dt.date, rng: random.Random) -> float:
     return round((site.normals_min_c[m] + site.normals_max_c[m]) / 2 + rng.uniform(-3, 3), 1)
 
 
+def _part_load(bank, ahu, airflow_m3s: float) -> float:
+    """Factor on a filter's pressure drop at ``airflow_m3s`` against its design airflow (the filter law,
+    engineering.filters: Δp ∝ Q^n)."""
+    design = bank.specs.get("design_airflow_m3s") or ahu.design_supply_airflow_m3s
+    return (airflow_m3s / design) ** filters.DEFAULT_EXPONENT
+
+
 def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict[str, int]:
     """Monthly visits on every unit of the organisation for ``months`` months before ``today``.
 
@@ -200,7 +214,8 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
         for m in range(months, 0, -1):
             due = today - dt.timedelta(days=VISIT_DAYS * m)
             hours += HOURS_PER_DAY * VISIT_DAYS * rng.uniform(0.9, 1.1)
-            codes = ["filter_check", "ventilation_check"]
+            reduced = m == REDUCED_AIRFLOW_MONTHS_AGO
+            codes = ["filter_check"] if reduced else ["filter_check", "ventilation_check"]
             if m % 3 == 0:
                 codes += ["controls_check", "damper_actuator"]
             if m % 6 == 0 and (sensors or temp_sensors or any(other_sensors.values())):
@@ -223,18 +238,29 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
             )
             finished = dt.datetime.combine(due, dt.time(9, 30), tzinfo=dt.UTC) + dt.timedelta(minutes=7 * unit_no)
             readings = [{"item": "visit.run_hours", "component": None, "value": round(hours)}]
+            airflow = ahu.design_supply_airflow_m3s * (REDUCED_AIRFLOW_SHARE if reduced else 1.0)
+            # A 100 % outdoor-air unit's ventilation check judges the outdoor air it delivers: its supply airflow.
+            if reduced or ahu.full_outdoor_air:
+                readings.append(
+                    {
+                        "item": "visit.supply_airflow",
+                        "component": None,
+                        "value": round(eng_units.to_display(value=airflow, quantity="airflow", system="si")),
+                        "note": "unit at part load: supply airflow read from the flow station" if reduced else "",
+                    }
+                )
             for b in banks:
                 clean, final = b.specs["clean_dp_pa"], b.specs["final_dp_pa"]
                 if b.pk in change_due:
                     loading[b.pk] = 0.0
-                    after = round(clean * rng.uniform(0.98, 1.08))
+                    after = round(clean * rng.uniform(0.98, 1.08) * _part_load(b, ahu, airflow))
                     readings += [
                         {"item": "filter_replace.replaced", "component": b.label_code, "value": "ok"},
                         {"item": "filter_replace.dp_after", "component": b.label_code, "value": after},
                     ]
                 else:
                     loading[b.pk] += rate[b.pk] * HOURS_PER_DAY * VISIT_DAYS
-                dp = clean + loading[b.pk] * (final - clean) + rng.uniform(-3, 3)
+                dp = (clean + loading[b.pk] * (final - clean) + rng.uniform(-3, 3)) * _part_load(b, ahu, airflow)
                 readings += [
                     {
                         "item": "filter_check.dp",
@@ -253,9 +279,9 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
             t_out = _outdoor_c(site, due, rng)
             t_ret = round(22 + rng.uniform(-1, 1), 1)
             x = max(ahu.design_min_oa_fraction, 0.1) + rng.uniform(0.02, 0.08)
-            readings.append({"item": "ventilation_check.outdoor_air", "component": None, "value": t_out})
+            vent = [{"item": "ventilation_check.outdoor_air", "component": None, "value": t_out}]
             if not ahu.full_outdoor_air:  # a 100 % outdoor-air unit has no return or mixed air to read
-                readings += [
+                vent += [
                     {"item": "ventilation_check.return_air", "component": None, "value": t_ret},
                     {
                         "item": "ventilation_check.mixed_air",
@@ -263,6 +289,8 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                         "value": round(t_ret - x * (t_ret - t_out) + rng.uniform(-0.2, 0.2), 1),
                     },
                 ]
+            if not reduced:  # drawn all the same, so the rest of the history stays as it was
+                readings += vent
             faulty = unit_no == 0 and m <= max(months // 3, 1)
             if "controls_check" in codes:
                 sp = ahu.supply_air_setpoint_c or 17.0

@@ -38,10 +38,17 @@ def demo_round_visit(*, ahu, codes: list[str], due: dt.date) -> tuple[WorkOrder,
     existing = (
         WorkOrder.objects.filter(ahu=ahu, source_ref=ROUND_REF, state__in=WorkOrder.OPEN_STATES).order_by("-id").first()
     )
-    if existing is not None:
-        return existing, False
     organisation = ahu.building.site.organisation
     tasks = effective_tasks(organisation=organisation)
+    if existing is not None:
+        # A visit made before the round asked more (an older demo) gets the missing tasks while not started.
+        held = set(existing.tasks.values_list("task_code", flat=True))
+        missing = [tasks[c] for c in codes if c in tasks and c not in held]
+        if missing and existing.state in (WorkOrder.State.PLANNED, WorkOrder.State.ASSIGNED):
+            _round_tasks_add(work_order=existing, chosen=missing, due=existing.due_date)
+            existing.version += 1  # its checklist changed: a phone holding the old one hears of it
+            existing.save(update_fields=["version", "updated_at"])
+        return existing, False
     chosen = [tasks[c] for c in codes if c in tasks]
     wo = WorkOrder(
         organisation=organisation,
@@ -54,19 +61,25 @@ def demo_round_visit(*, ahu, codes: list[str], due: dt.date) -> tuple[WorkOrder,
     )
     wo.full_clean()
     wo.save()
+    _round_tasks_add(work_order=wo, chosen=chosen, due=due)
+    return wo, True
+
+
+def _round_tasks_add(*, work_order: WorkOrder, chosen: list, due: dt.date) -> None:
+    """The tasks ``chosen`` on the round visit, on the parts the engine would pick."""
+    ahu = work_order.ahu
     components = list(ahu.components.all())
     WorkOrderTask.objects.bulk_create(
         WorkOrderTask(
-            work_order=wo,
+            work_order=work_order,
             task=task,
             task_code=task.code,
             ahu=ahu,
             component=target,
             component_key=target.pk if target else 0,
             due_date=due,
-            occurrence_key=f"round:{wo.public_id.hex[:12]}",  # not "demo:", the history's own prefix
+            occurrence_key=f"round:{work_order.public_id.hex[:12]}",  # not "demo:", the history's own prefix
         )
         for task in chosen
         for target in task_targets(task=task, ahu=ahu, components=components)
     )
-    return wo, True

@@ -14,7 +14,7 @@ from django.core.management import call_command
 from django.urls import reverse
 
 from accounts.models import User
-from frontend.demo import ROUND_TASKS, demo_load
+from frontend.demo import ROUND_FIRST_UNIT_TASKS, ROUND_TASKS, demo_load
 from inspections.freeze import NOT_READY, READY, freeze_readiness
 from inspections.models import Finding, Inspection
 from inventory.models import AHU, Site
@@ -90,7 +90,7 @@ def test_a_later_run_keeps_the_history_and_moves_the_round_to_its_day(loaded):
         assert set(WorkOrder.objects.filter(source_ref="demo:round").values_list("pk", flat=True)) == rounds
         assert set(WorkOrder.objects.filter(pk__in=rounds).values_list("scheduled_for", flat=True)) == {later}
         for username in ("ines.tech", "tomas.tech"):
-            assert set(ROUND_TASKS) <= _today_codes(username), username
+            assert set(ROUND_TASKS) | set(ROUND_FIRST_UNIT_TASKS) <= _today_codes(username), username
 
 
 @pytest.mark.django_db
@@ -98,8 +98,8 @@ def test_a_later_run_keeps_the_history_and_moves_the_round_to_its_day(loaded):
 def test_the_demo_walks_every_scenario_whatever_the_season(day, client):
     """On a late-October day and a July day alike:
 
-    - each technician's today carries a freeze-protection test, an outdoor-air check, a filter check and
-      a coil check (with the coil balance readings asked);
+    - each technician's today carries a freeze-protection test, an outdoor-air check, a filter check,
+      a coil check (with the coil balance readings asked), a sensor calibration and a fan proving test;
     - the property manager's dashboard and site page show the one failing unit not ready, with the step
       that failed and its corrective work, and every other unit with preheat ready;
     - each recirculating unit whose ventilation need is above its design minimum has one open
@@ -109,7 +109,7 @@ def test_the_demo_walks_every_scenario_whatever_the_season(day, client):
         demo_load(today=day)
 
         for username in ("ines.tech", "tomas.tech"):
-            assert set(ROUND_TASKS) <= _today_codes(username), username
+            assert set(ROUND_TASKS) | set(ROUND_FIRST_UNIT_TASKS) <= _today_codes(username), username
 
         units = list(AHU.objects.select_related("building__site"))
         readiness = freeze_readiness(units=units, as_of=dt.datetime(day.year, day.month, day.day, 10, tzinfo=dt.UTC))
@@ -173,3 +173,45 @@ def test_the_round_asks_the_readings_of_each_scenario():
                 assert not keys & {"ventilation_check.return_air", "ventilation_check.mixed_air"}, wo
         assert all(seen.values()), seen
         assert User.objects.get(username="tomas.tech").unit_system == "us"
+
+
+@pytest.mark.django_db
+def test_each_technician_can_walk_drift_fan_proving_and_a_filter_at_reduced_airflow():
+    """On 2 December 2026 every technician's round has one unit asking the sensor calibration and the
+    fan proving steps; each round unit's filter history holds a reading at reduced airflow (the supply airflow
+    read beside it, 0.8 × design) whose judgement is corrected to design airflow; and a 100 % outdoor-air
+    unit's history judges the outdoor air it delivers, never asking its supply CO2."""
+    from inspections.models import Evaluation, Reading
+    from inspections.selectors import checklist_for
+
+    with _at(DECEMBER):
+        demo_load(today=DECEMBER)
+        for username in ("ines.tech", "tomas.tech"):
+            tech = User.objects.get(username=username)
+            rounds = WorkOrder.objects.filter(source_ref="demo:round", assignee=tech)
+            full = [
+                wo
+                for wo in rounds
+                if {"sensor_calibration", "fan_proving"} <= set(wo.tasks.values_list("task_code", flat=True))
+            ]
+            assert full, username
+            doc = checklist_for(work_order=full[0], user=tech)
+            codes = {t["code"] for t in doc["templates"]}
+            assert {"sensor_calibration", "fan_proving", "filter_check", "visit"} <= codes, codes
+            for wo in rounds:
+                airflows = Reading.objects.filter(
+                    inspection__work_order__ahu=wo.ahu, item__template__code="visit", item__key="supply_airflow"
+                ).values_list("value_si", "inspection_id")
+                reduced = [(q, i) for q, i in airflows if q < 0.9 * wo.ahu.design_supply_airflow_m3s]
+                assert reduced, wo.ahu
+                _, inspection_id = reduced[0]
+                assert Reading.objects.filter(
+                    inspection_id=inspection_id, item__template__code="filter_check", item__key="dp"
+                ).exists(), wo.ahu
+        s1 = AHU.objects.get(tag="AHU-S1")
+        assert s1.full_outdoor_air
+        judged = Evaluation.objects.filter(inspection__work_order__ahu=s1, check_name="full_oa_airflow")
+        assert judged.exists() and set(judged.values_list("verdict", flat=True)) <= {"ok", "watch"}
+        assert not Reading.objects.filter(
+            inspection__work_order__ahu=s1, item__template__code="ventilation_check", item__key="supply_co2"
+        ).exists()
