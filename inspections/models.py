@@ -179,7 +179,7 @@ class Inspection(models.Model):
             fields = kwargs.get("update_fields")
             if fields is None or not set(fields) <= self.MUTABLE_AFTER_SIGNING:
                 raise ValidationError(
-                    {"inspection": f"inspection {self.pk} is signed and cannot be edited; add an amendment instead"}
+                    {"inspection": f"{self.display_name} is signed and cannot be edited; add an amendment instead"}
                 )
         super().save(*args, **kwargs)
 
