@@ -618,20 +618,21 @@ RANK = {OK: 0, WATCH: 1, FAIL: 2}
 
 
 def _airflow_band_verdict(*, q: float, u: float, minimum: float) -> str:
-    """ok when the whole band q ± u is at or above the minimum, fail when it is all below, else watch."""
-    if q - u >= minimum:
+    """ok at or above the minimum; below it, watch within the uncertainty ``u`` and fail beyond it."""
+    if q >= minimum:
         return OK
-    if q + u < minimum:
-        return FAIL
-    return WATCH
+    if q + u >= minimum:
+        return WATCH
+    return FAIL
 
 
 def _full_oa_checks(form: Form, consumed: set) -> list[Result]:
     """A 100 % outdoor-air unit takes in what it supplies: the outdoor airflow it delivers is its supply airflow
     (measured, or from the fan speed), judged against the space's requirement (ASHRAE 62.1 ventilation rate
     procedure; with no recirculation Vot = Voz) and the unit's design airflow, each within the airflow's
-    uncertainty. Below the requirement beyond the uncertainty fails; below the design (the requirement met)
-    is watch; with no requirement known, the design stands in for it. Runs when the ventilation check was done."""
+    uncertainty. Below the requirement beyond the uncertainty fails, within it is watch; below the design (the
+    requirement met) is watch; with no requirement known, the design stands in for it. Runs when the
+    ventilation check was done."""
     ahu = form.ahu
     if not ahu.full_outdoor_air or not any(k.startswith("ventilation_check.") for k, _ in form.values):
         return []

@@ -579,3 +579,35 @@ def test_heat_recovery_without_a_design_value_says_so(api_client):
     hx = _exchanger(wo.ahu, None)
     ev = result(submit(api_client, wo, tech, _recovery_readings(hx, 0, 15.4, 22)), "heat_recovery", hx)
     assert ev["verdict"] == "watch" and "no design effectiveness" in ev["reason"]
+
+
+@pytest.mark.django_db
+@pytest.mark.parametrize(
+    ("airflow_l_s", "verdict", "words"),
+    [
+        # Office 1200 m², 60 people: Vbz = 2.5 × 60 + 0.3 × 1200 = 510 L/s (ASHRAE 62.1 Table 6-1, from
+        # memory); ceiling supply of cool air Ez = 1.0 (Table 6-4, from memory); 100 % outdoor air: Vot = Voz
+        # = 510 L/s. Measured airflow ±10 % (common practice). Design airflow 600 L/s.
+        (620, "ok", "the space needs 510 L/s for office space"),
+        # 480 L/s is below 510 but 480 + 48 = 528 reaches it: within the uncertainty, watch.
+        (480, "watch", "cannot decide"),
+        # 440 + 44 = 484 L/s stays below 510: fails.
+        (440, "fail", "not met"),
+        (None, "watch", "cannot be judged without the supply airflow"),
+    ],
+)
+def test_full_outdoor_air_unit_judges_the_outdoor_air_it_delivers(api_client, airflow_l_s, verdict, words):
+    """A 100 % outdoor-air unit's ventilation check judges its supply airflow (all outdoor air) against the
+    ventilation requirement and the design airflow; without an airflow or fan speed it cannot judge."""
+    wo, tech = make_visit(tasks=["ventilation_check"], full_outdoor_air=True, design_supply_airflow_m3s=0.6)
+    readings = [r("visit.run_hours", 1200), r("ventilation_check.outdoor_air", 5)]
+    if airflow_l_s is not None:
+        readings.append(r("visit.supply_airflow", airflow_l_s))
+    out = submit(api_client, wo, tech, readings)
+    ev = result(out, "full_oa_airflow")
+    assert ev["verdict"] == verdict
+    assert words in ev["reason"]
+    if airflow_l_s is not None:
+        assert ev["derived"]["required_outdoor_airflow_m3s"] == pytest.approx(0.51)
+        assert ev["derived"]["outdoor_airflow_m3s"] == pytest.approx(airflow_l_s / 1000)
+    assert not any(e["check"].startswith("oa_fraction") for e in out["evaluation"])

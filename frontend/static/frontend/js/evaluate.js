@@ -723,9 +723,9 @@ function oaChecks(form) {
 // A 100 % outdoor-air unit's delivered outdoor air (evaluation._full_oa_checks): its supply airflow against
 // the space's requirement and its design airflow, each within the airflow's uncertainty.
 function airflowBandVerdict(flow, u, minimum) {
-  if (flow - u >= minimum) return OK;
-  if (flow + u < minimum) return FAIL;
-  return WATCH;
+  if (flow >= minimum) return OK;
+  if (flow + u >= minimum) return WATCH;
+  return FAIL;
 }
 
 function fullOaChecks(form) {
