@@ -149,6 +149,10 @@ def is_design_review(*, check: str, derived: dict) -> bool:
     """A shortfall from the design, not from the unit's upkeep: the unit does not fail its design minimum
     outdoor air, but the space needs more than that design minimum, so the failure comes from the requirement.
     Monthly corrective work cannot fix it."""
+    if check == "full_oa_airflow":  # 100 % outdoor air: its design airflow is its design outdoor air
+        q, u = derived.get("outdoor_airflow_m3s"), derived.get("airflow_uncertainty_m3s", 0.0)
+        design = derived.get("design_supply_airflow_m3s")
+        return bool(derived.get("design_shortfall")) and q is not None and design is not None and q + u >= design
     return check in OUTDOOR_AIR_CHECKS and design_shortfall(derived) and _not_below_design_minimum(derived)
 
 

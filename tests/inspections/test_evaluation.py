@@ -611,3 +611,25 @@ def test_full_outdoor_air_unit_judges_the_outdoor_air_it_delivers(api_client, ai
         assert ev["derived"]["required_outdoor_airflow_m3s"] == pytest.approx(0.51)
         assert ev["derived"]["outdoor_airflow_m3s"] == pytest.approx(airflow_l_s / 1000)
     assert not any(e["check"].startswith("oa_fraction") for e in out["evaluation"])
+
+
+@pytest.mark.django_db
+def test_full_outdoor_air_unit_designed_below_the_requirement_is_a_design_review(api_client):
+    """Office 1200 m², 60 people, 100 % outdoor air: the space needs 510 L/s (ASHRAE 62.1 Table 6-1, from
+    memory; Ez = 1.0); the unit is designed for 450 L/s and delivers 460 L/s (±10 %, common practice):
+    460 + 46 = 506 L/s stays below 510 → fail, but the unit meets its design, so the finding is a design
+    review with no corrective work."""
+    wo, tech = make_visit(tasks=["ventilation_check"], full_outdoor_air=True, design_supply_airflow_m3s=0.45)
+    out = submit(
+        api_client,
+        wo,
+        tech,
+        [r("visit.run_hours", 1200), r("visit.supply_airflow", 460), r("ventilation_check.outdoor_air", 5)],
+    )
+    ev = result(out, "full_oa_airflow")
+    assert ev["verdict"] == "fail"
+    assert ev["derived"]["design_shortfall"] is True
+    assert "the design falls short" in ev["reason"] and "judged by the requirement" in ev["reason"]
+    [f] = out["findings"]
+    finding = Finding.objects.get(pk=f["id"])
+    assert finding.kind == Finding.Kind.DESIGN_REVIEW and finding.corrective_work_order is None
