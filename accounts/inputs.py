@@ -319,9 +319,22 @@ def check_reading_time(
 # ---------------------------------------------------------------------------
 # Text
 # ---------------------------------------------------------------------------
+def control_characters(value: str, *, lines: bool = False) -> str:
+    """The control characters in ``value`` written out as a person can read them ('"\\x00", "\\x1b"'), or ''."""
+    found = dict.fromkeys((_CONTROL if lines else _CONTROL_LINE).findall(value))
+    return ", ".join(f'"\\x{ord(ch):02x}"' for ch in found)
+
+
 def text_problem(value: str, *, label: str, max_length: int, lines: bool = False) -> str | None:
-    if (_CONTROL if lines else _CONTROL_LINE).search(value):
-        return f"{label}: the text contains control characters (such as NUL); remove them"
+    """What is wrong with text (control characters, too long), or None: the one check for every text value
+    stored, including the text inside JSON fields (PostgreSQL cannot store NUL in text or JSON)."""
+    found = control_characters(value, lines=lines)
+    if found:
+        breaks = "; tab and line breaks are fine" if lines else ""
+        return (
+            f"{label}: the text contains control characters (such as NUL): {found}; "
+            f"allowed: text without control characters{breaks}"
+        )
     if len(value) > max_length:
         return f"{label}: {len(value)} characters is too long; allowed: at most {max_length} characters"
     return None

@@ -13,7 +13,7 @@ import math
 from dataclasses import dataclass
 from typing import Any
 
-from accounts.inputs import FieldErrors, check_number, date_problem, number_problem
+from accounts.inputs import FieldErrors, check_number, date_problem, number_problem, text_problem
 
 
 @dataclass(frozen=True)
@@ -40,6 +40,28 @@ AHU_NUMBERS: dict[str, NumberRange] = {
 }
 AHU_DATES = {"service_start": "Service start"}
 COMPONENT_DATES = {"installed_on": "Installed on"}
+# Text a person types: field -> (label, may hold tab and line breaks). No control characters (PostgreSQL cannot
+# store NUL; the others are never meant), whichever way the text comes in.
+AHU_TEXTS = {
+    "tag": ("Tag", False),
+    "location": ("Location", False),
+    "area_served": ("Area served", False),
+    "notes": ("Notes", True),
+}
+COMPONENT_TEXTS = {"name": ("Name", False)}
+
+
+def text_field_problems(obj, *, texts: dict[str, tuple[str, bool]]) -> dict[str, str]:
+    """Field -> what is wrong with the text of ``obj`` (control characters, too long), for ``texts``."""
+    out: dict[str, str] = {}
+    for name, (label, lines) in texts.items():
+        value = getattr(obj, name, None)
+        if isinstance(value, str):
+            max_length = obj._meta.get_field(name).max_length or 100_000
+            problem = text_problem(value, label=label, max_length=max_length, lines=lines)
+            if problem:
+                out[name] = problem
+    return out
 
 
 def ahu_number_check(raw: Any, *, name: str, errors: FieldErrors) -> float | None:
@@ -50,7 +72,8 @@ def ahu_number_check(raw: Any, *, name: str, errors: FieldErrors) -> float | Non
 
 def ahu_problems(ahu, *, today: dt.date) -> dict[str, str]:
     """Field → what is wrong, for a unit as it is (being saved, or stored): numbers not finite or out of range,
-    a service start outside 2000 to ten years ahead. Empty when it keeps the policy."""
+    text with control characters, a service start outside 2000 to ten years ahead. Empty when it keeps the
+    policy."""
     out: dict[str, str] = {}
     for name, r in AHU_NUMBERS.items():
         value = getattr(ahu, name, None)
@@ -62,6 +85,7 @@ def ahu_problems(ahu, *, today: dt.date) -> dict[str, str]:
         problem = number_problem(value, label=r.label, minimum=r.minimum, maximum=r.maximum, unit=r.unit)
         if problem:
             out[name] = problem
+    out.update(text_field_problems(ahu, texts=AHU_TEXTS))
     for name, label in AHU_DATES.items():
         value = getattr(ahu, name, None)
         if isinstance(value, dt.date):

@@ -337,9 +337,10 @@ class Component(models.Model):
         return reverse("inventory:label", kwargs={"code": self.label_code})
 
     def clean(self) -> None:
-        from .inputs import component_date_problems
+        from .inputs import COMPONENT_TEXTS, component_date_problems, text_field_problems
 
         errors: dict = dict(component_date_problems(self, today=timezone.localdate()))
+        errors.update(text_field_problems(self, texts=COMPONENT_TEXTS))
         try:
             self.specs = validate_specs(kind=self.kind, specs=self.specs)
         except SpecErrors as exc:

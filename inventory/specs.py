@@ -12,6 +12,8 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
+from accounts.inputs import control_characters
+
 
 @dataclass(frozen=True)
 class SpecField:
@@ -35,7 +37,7 @@ class SpecField:
             return "a date as YYYY-MM-DD"
         if self.kind == "bool":
             return "true or false"
-        return "text up to 200 characters"
+        return "text up to 200 characters without control characters"
 
 
 @dataclass
@@ -212,6 +214,9 @@ def _coerce(spec: SpecField, raw: Any) -> Any:
             return False
         raise ValueError("is not true or false")
     value = str(raw).strip()
+    found = control_characters(value)
+    if found:
+        raise ValueError(f"contains control characters (such as NUL): {found}")
     if len(value) > 200:
         raise ValueError("is too long")
     return value

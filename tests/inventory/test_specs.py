@@ -146,3 +146,37 @@ def test_glycol_coil_with_kind_and_concentration_is_accepted():
         kind="coil", specs={**GOOD["coil"], "fluid": "glycol", "glycol_kind": "ethylene", "glycol_pct": "35"}
     )
     assert (specs["glycol_kind"], specs["glycol_pct"]) == ("ethylene", 35)
+
+
+@pytest.mark.parametrize("value", ["\x00", "20\x00x20", "24×24\x1b[2J", "a\tb"])
+def test_spec_text_with_control_characters_is_refused_naming_field_value_and_allowed(value):
+    """NUL and the other control characters in a spec's text (PostgreSQL cannot store NUL in JSON) are refused
+    with a message naming the field, the characters written out and what is allowed; nothing is stored."""
+    with pytest.raises(SpecErrors) as exc:
+        validate_specs(kind="filter_bank", specs={**GOOD["filter_bank"], "size": value})
+    message = exc.value.errors["size"]
+    assert "Nominal size" in message
+    assert "control characters (such as NUL)" in message
+    bad = next(ch for ch in value if ord(ch) < 32)
+    assert f'"\\x{ord(bad):02x}"' in message
+    assert "text up to 200 characters without control characters" in message
+
+
+@pytest.mark.django_db
+def test_unit_and_component_text_with_nul_is_refused_by_the_model():
+    """The model's check (admin, API, CSV and staff form all call it) refuses NUL in a unit's text and a
+    component's name; line breaks and tabs stay allowed in the unit's notes."""
+    unit = make_full_unit()
+    unit.notes = "belt changed\n\tsee photo"
+    unit.full_clean()
+    unit.notes = "belt\x00changed"
+    unit.location = "roof\x00"
+    with pytest.raises(ValidationError) as exc:
+        unit.full_clean()
+    assert {"notes", "location"} <= set(exc.value.message_dict)
+    assert '"\\x00"' in exc.value.message_dict["notes"][0]
+    comp = unit.components.get(name="Supply fan")
+    comp.name = "Supply\x00fan"
+    with pytest.raises(ValidationError) as exc:
+        comp.full_clean()
+    assert "control characters" in exc.value.message_dict["name"][0]
