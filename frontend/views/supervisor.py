@@ -296,12 +296,16 @@ def unit_rules(request, pk):
         code = request.POST.get("task_code", "")
         if code in tasks:
             enabled = request.POST.get("enabled") == "1"
-            unit_task_set(
-                ahu=ahu, task_code=code, enabled=enabled, reason=request.POST.get("reason", ""), by=request.user
-            )
-            messages.success(
-                request, f"{tasks[code].name} {'switched on' if enabled else 'switched off'} for {ahu.tag}."
-            )
+            try:
+                unit_task_set(
+                    ahu=ahu, task_code=code, enabled=enabled, reason=request.POST.get("reason", ""), by=request.user
+                )
+            except ValidationError as exc:
+                messages.error(request, f"{tasks[code].name} was not changed: {'; '.join(exc.messages)}")
+            else:
+                messages.success(
+                    request, f"{tasks[code].name} {'switched on' if enabled else 'switched off'} for {ahu.tag}."
+                )
         else:
             messages.error(request, f"Task {code!r} is not one of the organisation's tasks.")
         return redirect("frontend:registry_rules", pk=ahu.pk)

@@ -7,6 +7,7 @@ from typing import Any
 from django.core.exceptions import ValidationError
 from django.db import transaction
 
+from accounts.inputs import FieldErrors, check_text
 from accounts.models import Organisation
 from inventory.models import AHU, ComponentKind
 
@@ -145,7 +146,11 @@ def task_definition_create(*, organisation: Organisation, by=None, **fields: Any
 
 @transaction.atomic
 def unit_task_set(*, ahu: AHU, task_code: str, enabled: bool, reason: str = "", by=None) -> UnitTaskSetting:
-    """Switch one task off (or back on) for one unit."""
+    """Switch one task off (or back on) for one unit; the reason is text without control characters."""
+    errors = FieldErrors()
+    max_length = UnitTaskSetting._meta.get_field("reason").max_length
+    reason = check_text(reason, key="reason", label="Reason", max_length=max_length, errors=errors)
+    errors.raise_if_any()
     setting, _ = UnitTaskSetting.objects.update_or_create(
         ahu=ahu, task_code=task_code, defaults={"enabled": enabled, "reason": reason}
     )

@@ -13,7 +13,7 @@ from django.db import transaction
 from django.utils import timezone
 from django.utils.dateparse import parse_datetime
 
-from accounts.inputs import EARLIEST_DATE, in_zone, local_text, reading_time_problem, shown
+from accounts.inputs import EARLIEST_DATE, in_zone, local_text, reading_time_problem, shown, text_problem
 from inventory.models import AHU, Component
 
 from ..models import MeterReading
@@ -33,6 +33,8 @@ FUTURE_TOLERANCE = dt.timedelta(minutes=10)
 # The most run-hours a meter may show: 1,000,000 h is 114 years of running day and night, past any
 # counter's life (common practice: hour meters show at most six or seven digits).
 METER_HOURS_MAX = 1_000_000
+# A label code's column holds at most this many characters (AHU.label_code, Component.label_code).
+LABEL_MAX = 12
 
 
 def _previous(*, ahu: AHU, component: Component | None, taken_at: dt.datetime) -> MeterReading | None:
@@ -256,17 +258,22 @@ def meter_readings_import_csv(*, organisation, text: str, by=None) -> list[Meter
             }
         )
     rows = [{(k or "").strip(): (v or "").strip() for k, v in row.items()} for row in reader]
+
+    def labels(column: str) -> set[str]:
+        # Only text a label code can be is looked up (PostgreSQL cannot hold NUL even in a query); any other
+        # cell is no unit's label and is named by its row below.
+        cells = {(r.get(column) or "").upper() for r in rows} - {""}
+        return {c for c in cells if not text_problem(c, label=column, max_length=LABEL_MAX)}
+
     units = {
         a.label_code: a
         for a in AHU.objects.filter(
-            building__site__organisation=organisation, label_code__in={r["unit_label"].upper() for r in rows}
+            building__site__organisation=organisation, label_code__in=labels("unit_label")
         ).select_related("building__site")
     }
     comps = {
         c.label_code: c
-        for c in Component.objects.filter(
-            ahu__in=units.values(), label_code__in={r.get("component_label", "").upper() for r in rows} - {""}
-        )
+        for c in Component.objects.filter(ahu__in=units.values(), label_code__in=labels("component_label"))
     }
     errors: list[str] = []
     parsed = []

@@ -84,6 +84,27 @@ def test_meter_csv_import_refuses_the_jump_by_row(api_client):
 
 
 @time_machine.travel(FINISHED + dt.timedelta(hours=2), tick=False)
+def test_meter_csv_import_names_a_label_with_nul_by_row_and_stores_nothing():
+    """A unit or component label holding NUL (PostgreSQL cannot hold it, even in a lookup) is no unit's label:
+    the row is named with the value, and nothing is stored."""
+    from django.core.exceptions import ValidationError
+
+    from scheduling.services import meter_readings_import_csv
+
+    wo, _ = make_visit(tasks=["filter_check"])
+    label = wo.ahu.label_code
+    text = (
+        f"unit_label,taken_at,hours,component_label\na\x00b,2025-02-01 10:30,100,\n{label},2025-02-01 10:30,100,\x00\n"
+    )
+    with pytest.raises(ValidationError) as exc:
+        meter_readings_import_csv(organisation=wo.organisation, text=text)
+    messages = exc.value.message_dict["file"]
+    assert messages[0].startswith("row 2: unit_label='a\\x00b' is not a unit of")
+    assert messages[1].startswith("row 3: component_label='\\x00' is not a component of")
+    assert not MeterReading.objects.exists()
+
+
+@time_machine.travel(FINISHED + dt.timedelta(hours=2), tick=False)
 def test_a_checklist_with_a_run_hour_jump_is_refused_with_a_field_error(api_client):
     """The phone's form with 41,250 h a month after 11,034 h is refused whole; the error is on the run-hour value."""
     wo, tech = make_visit(tasks=["filter_check"])

@@ -91,3 +91,19 @@ def test_own_task_needs_a_valid_trigger():
         interval_unit="months",
     )
     assert effective_tasks(organisation=org)["roof_walk"] == task
+
+
+@pytest.mark.parametrize(("reason", "words"), [("belt\x00gone", '"\\x00"'), ("x" * 201, "at most 200 characters")])
+def test_switching_a_task_off_refuses_a_reason_with_nul_or_too_long(reason, words):
+    """A unit's task switched off with a reason holding NUL (PostgreSQL cannot store it) or longer than the
+    column is refused naming the reason and what is allowed; no setting is stored."""
+    from scheduling.models import UnitTaskSetting
+    from scheduling.services import unit_task_set
+    from tests.factories.inventory import AHUFactory
+
+    ahu = AHUFactory()
+    with pytest.raises(ValidationError) as exc:
+        unit_task_set(ahu=ahu, task_code="filter_check", enabled=False, reason=reason)
+    [message] = exc.value.message_dict["reason"]
+    assert message.startswith("Reason") and words in message
+    assert not UnitTaskSetting.objects.exists()
