@@ -80,6 +80,8 @@ DERIVED: dict[str, tuple[str, Any]] = {
     "uncertainty": ("uncertainty", "points"),
     "outdoor_airflow_m3s": ("outdoor airflow", "airflow"),
     "supply_airflow_m3s": ("supply airflow", "airflow"),
+    "design_supply_airflow_m3s": ("design supply airflow", "airflow"),
+    "airflow_uncertainty_m3s": ("airflow measurement uncertainty (±)", "airflow"),
     "design_min_oa_fraction": ("design minimum outdoor air", "fraction"),
     "design_min_outdoor_airflow_m3s": ("design minimum outdoor airflow", "airflow"),
     "required_outdoor_airflow_m3s": ("outdoor airflow the space needs", "airflow"),

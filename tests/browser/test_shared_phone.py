@@ -108,14 +108,17 @@ def test_two_technicians_one_phone(page, context, live_server, world, sign_in, m
         dialog.accept()
 
     # First she chooses to stay (Cancel): still signed in, her day and her form as they were.
-    page.once("dialog", lambda dialog: dialog.dismiss())
-    page.get_by_role("button", name="Sign out").click()
+    # Wait for each warning itself: the sign-out first tries to send, so the dialog can come late.
+    with page.expect_event("dialog") as first:
+        page.get_by_role("button", name="Sign out").click()
+    first.value.dismiss()
     expect(page.locator("[data-outbox-count]")).to_have_text("1")
     expect(page).to_have_url(re.compile(r"/today/$"))
     assert len(page.evaluate(DATA_CACHES)) == 1
 
-    page.once("dialog", accept)
-    page.get_by_role("button", name="Sign out").click()
+    with page.expect_event("dialog") as second:
+        page.get_by_role("button", name="Sign out").click()
+    accept(second.value)
     expect(page).to_have_url(re.compile(r"/login/"))
     assert warnings and "1 finished form(s)" in warnings[0] and "next time you sign in" in warnings[0]
     assert page.evaluate(DATA_CACHES) == {}
