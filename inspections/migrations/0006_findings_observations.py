@@ -146,6 +146,10 @@ def merge_open_duplicates(apps, schema_editor):
 
 
 class Migration(migrations.Migration):
+    # PostgreSQL refuses to build the unique index in the transaction that just rewrote the findings
+    # ("pending trigger events" from deferred foreign keys): the data step commits on its own first.
+    atomic = False
+
     dependencies = [
         ("accounts", "0003_change_stamp"),
         ("inspections", "0005_checklistitem_unit_filter"),
@@ -244,7 +248,7 @@ class Migration(migrations.Migration):
             name="opened_at",
             field=models.DateTimeField(help_text="First seen: the first observation."),
         ),
-        migrations.RunPython(merge_open_duplicates, migrations.RunPython.noop),
+        migrations.RunPython(merge_open_duplicates, migrations.RunPython.noop, atomic=True),
         migrations.AddConstraint(
             model_name="finding",
             constraint=models.UniqueConstraint(

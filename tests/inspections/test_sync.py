@@ -106,7 +106,7 @@ def test_concurrent_posts_of_one_form_store_it_once():
         t.start()
     for t in threads:
         t.join()
-    assert Inspection.objects.filter(client_uuid=form["client_uuid"]).count() == 1
+    assert Inspection.objects.filter(client_uuid=form["client_uuid"]).count() == 1, results
     assert sorted(x["status"] for x in results) == ["duplicate"] * 7 + ["stored"]
     assert len({x["inspection_id"] for x in results}) == 1
 
