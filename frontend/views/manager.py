@@ -75,7 +75,7 @@ def site_detail(request, pk: int):
                 forecast = [(change_day, p(final))]
         charts.append(
             {
-                "title": f"{comp.ahu.tag} ({comp.ahu.building.name}) {comp.name}: pressure drop at design airflow",
+                "title": f"{comp.ahu.display_name} {comp.name}: pressure drop at design airflow",
                 "reason": reason_for(evaluation=ev, unit_system=system) if ev else "",
                 "svg": line_chart(
                     title=f"{comp.ahu.tag} {comp.name} pressure drop at design airflow",
