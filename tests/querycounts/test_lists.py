@@ -29,6 +29,10 @@ API = [
     ("supervisor", f"/api/scheduling/board/?week={DAY}"),
     ("supervisor", "/api/inspections/flagged/"),
     ("property_manager", "/api/inspections/freeze-readiness/"),
+    ("supervisor", "/api/inspections/freeze-readiness/"),
+    ("supervisor", "/api/inspections/findings/"),
+    ("supervisor", "/api/inspections/findings/?state=all"),
+    ("property_manager", "/api/inspections/findings/"),
 ]
 PAGES = [
     ("technician", "/today/"),
