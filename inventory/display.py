@@ -16,3 +16,13 @@ def local_time_text(when: dt.datetime, *, zone: str) -> str:
 def local_date_text(when: dt.datetime, *, zone: str) -> str:
     """The day of ``when`` on the clock of ``zone``, "2 Dec 2026"."""
     return dateformat.format(when.astimezone(zoneinfo.ZoneInfo(zone or "UTC")), "j M Y")
+
+
+def site_time_text(when: dt.datetime | None, site) -> str:
+    """``when`` on the clock of ``site`` (a Site or a zone name) with the zone named; "" without a moment.
+
+    The one body of the pages' and the PDFs' ``site_time`` template filters.
+    """
+    if not when:
+        return ""
+    return local_time_text(when, zone=getattr(site, "time_zone", site))

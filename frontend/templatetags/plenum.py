@@ -5,7 +5,7 @@ from django.urls import NoReverseMatch, reverse
 
 from accounts.models import Role
 from accounts.selectors import primary_role
-from inventory.display import local_time_text
+from inventory.display import site_time_text
 
 from ..pwa import person_key
 
@@ -64,12 +64,6 @@ def plenum_nav(context):
     return {"links": links, "request": request}
 
 
-@register.filter
-def site_time(value, site) -> str:
-    """A moment as the site's clock shows it, with the zone named: "2 Dec 2026 06:30 CET" ("" without a moment).
-
-    ``site`` is a Site (or a time zone name); every time a person reads on the pages goes through here.
-    """
-    if not value:
-        return ""
-    return local_time_text(value, zone=getattr(site, "time_zone", site) or "UTC")
+# A moment as the site's clock shows it, with the zone named: "2 Dec 2026 06:30 CET" ("" without a moment).
+# ``site`` is a Site (or a time zone name); every time a person reads on the pages goes through here.
+register.filter("site_time", site_time_text)
