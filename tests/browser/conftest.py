@@ -77,3 +77,28 @@ def sign_in(live_server):
         return page
 
     return _sign_in
+
+
+def _drop_connection():
+    raise BrokenPipeError("the test phone is offline")
+
+
+@pytest.fixture
+def offline(context, live_server):
+    """``offline(True)``: no signal, for the page and for its service worker alike; ``offline(False)``: back.
+
+    Chromium's offline emulation does not reach the service worker's own fetches (a page served through the
+    worker would still come from the server), so the test server also drops every connection while the phone
+    is offline. The (session-wide) server always takes connections again after the test.
+    """
+    httpd = live_server.thread.httpd
+
+    def _offline(on: bool) -> None:
+        context.set_offline(on)
+        if on:
+            httpd.get_app = _drop_connection  # every request, kept-alive connections too: closed with no answer
+        else:
+            httpd.__dict__.pop("get_app", None)
+
+    yield _offline
+    httpd.__dict__.pop("get_app", None)

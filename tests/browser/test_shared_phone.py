@@ -46,23 +46,6 @@ def wait_saved(page):
     page.wait_for_function("() => Number(document.documentElement.dataset.offlineSaved) >= 3", timeout=20000)
 
 
-def offline(context, live_server, on: bool):
-    """No signal, for the page and for the service worker alike.
-
-    Chromium's offline emulation does not reach the service worker's own fetches, so the test server also drops
-    every connection while the phone is offline."""
-    context.set_offline(on)
-    httpd = live_server.thread.httpd
-    if on:
-        httpd.get_app = drop_connection  # every request, kept-alive connections too: closed with no answer
-    else:
-        httpd.__dict__.pop("get_app", None)
-
-
-def drop_connection():
-    raise BrokenPipeError("the test phone is offline")
-
-
 def server_down(monkeypatch):
     """The sync endpoint answers 503 (the database is away): nothing the phone sends is stored."""
 
@@ -72,7 +55,7 @@ def server_down(monkeypatch):
     monkeypatch.setattr(SyncView, "post", refuse)
 
 
-def test_two_technicians_one_phone(page, context, live_server, world, sign_in, monkeypatch):
+def test_two_technicians_one_phone(page, live_server, world, sign_in, monkeypatch, offline):
     base = live_server.url
     tess, omar = world.technician, world.other_technician
     omars = make_work(ahu=world.unit_b, assignee=omar, title="Belt and bearing check")
@@ -85,7 +68,7 @@ def test_two_technicians_one_phone(page, context, live_server, world, sign_in, m
     wait_saved(page)
     page.goto(f"{base}/w/{world.work_a.public_id}/")
     wait_app(page)
-    offline(context, live_server, True)
+    offline(True)
     fill_checklist(page)
     draw_signature(page)
     page.get_by_role("button", name="Finish and sign").click()
@@ -98,7 +81,7 @@ def test_two_technicians_one_phone(page, context, live_server, world, sign_in, m
 
     # Back online but the server cannot store forms: sign-out warns, she signs out anyway.
     server_down(monkeypatch)
-    offline(context, live_server, False)
+    offline(False)
     page.goto(f"{base}/today/")
     wait_app(page)
     warnings = []
@@ -127,11 +110,11 @@ def test_two_technicians_one_phone(page, context, live_server, world, sign_in, m
     assert Inspection.objects.count() == 0
 
     # Offline with nobody signed in, the start address says to sign in (not an error, not Tess's day).
-    offline(context, live_server, True)
+    offline(True)
     page.goto(f"{base}/start/")
     expect(page.get_by_role("link", name="Sign in")).to_be_visible()
     assert not [m for m in tess_marks if m in page.content()]
-    offline(context, live_server, False)
+    offline(False)
 
     # Omar on the same browser: his day only, an empty outbox, and his sync sends nothing of Tess's.
     monkeypatch.undo()
@@ -149,12 +132,12 @@ def test_two_technicians_one_phone(page, context, live_server, world, sign_in, m
     assert f"{base}/w/{omars.public_id}/" in urls
     assert not [u for u in urls if any(m in u for m in tess_marks)]
 
-    offline(context, live_server, True)
+    offline(True)
     for url in ["/today/", f"/w/{world.work_a.public_id}/", f"/u/{world.unit_a.label_code}/", "/start/"]:
         page.goto(f"{base}{url}")
         assert not [m for m in tess_marks if m in page.content()], url
     expect(page.locator(f"[data-work-order='{omars.public_id}']")).to_be_visible()  # /start/ opened his day
-    offline(context, live_server, False)
+    offline(False)
 
     # Tess again: her form goes, under her session.
     page.goto(f"{base}/today/")
