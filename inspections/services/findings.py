@@ -60,6 +60,8 @@ CONDITION_TITLES = {
     "fan_not_proven": "Fan not proven",
     "freeze_protection_failed": "Freeze protection failed",
 }
+# Condition codes the scheduling engine knows (each has its title above); other fails raise corrective work without one.
+KNOWN_CONDITIONS = frozenset(CONDITION_TITLES)
 # A filter reading below its clean pressure drop is about missing or bypassed media, not loading.
 FILTER_BYPASS_TITLE = "Filter media missing, torn or bypassed"
 # An outdoor-air shortfall that comes from the design: the unit meets its design minimum, which is too low.
@@ -538,17 +540,6 @@ def _parts_named(findings: list[Finding]) -> str:
         return ""
     names = list(dict.fromkeys(f.component.name for f in findings))
     return " — " + (", ".join(names[:-1]) + " and " + names[-1] if len(names) > 1 else names[0])
-
-
-# Condition codes the scheduling engine knows; other fails raise corrective work without one.
-KNOWN_CONDITIONS = {
-    "filter_loaded",
-    "sensor_drift",
-    "supply_temp_off",
-    "damper_position",
-    "fan_not_proven",
-    "freeze_protection_failed",
-}
 
 
 def _open_corrective_for(*, ahu_id: int, condition: str, problem: str, component):
