@@ -34,7 +34,7 @@ def wait_draft(page):
     )
 
 
-def test_readings_typed_offline_survive_going_to_today_and_back(page, context, live_server, world, sign_in):
+def test_readings_typed_offline_survive_going_to_today_and_back(page, live_server, world, sign_in, offline):
     """Typed offline, away to Today, back: the readings and the choice are in their fields again."""
     page.set_viewport_size(PHONE)
     sign_in(page, world.technician)
@@ -44,7 +44,7 @@ def test_readings_typed_offline_survive_going_to_today_and_back(page, context, l
     wait_app(page)
     wait_draft(page)
     checklist_url = page.url
-    context.set_offline(True)
+    offline(True)
 
     numbers = page.locator("form[data-checklist] [data-kind=number] input[type=number]")
     assert numbers.count() >= 2

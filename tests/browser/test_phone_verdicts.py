@@ -15,7 +15,7 @@ pytestmark = [pytest.mark.browser, pytest.mark.django_db(transaction=True)]
 CFM = 0.0004719474432  # m³/s per ft³/min (1 ft = 0.3048 m, exact)
 
 
-def test_reduced_airflow_filter_reading_fails_on_the_phone_offline_and_on_the_server(page, context, live_server):
+def test_reduced_airflow_filter_reading_fails_on_the_phone_offline_and_on_the_server(page, live_server, offline):
     """0.75 in. w.c. read at 1,200 cfm on a unit designed for 1,695 cfm: "fail" on the phone offline, and after sync.
 
     186.8 Pa × (1695/1200)^1.5 = 313.6 Pa at design airflow (filter correction exponent 1.5, common
@@ -45,7 +45,7 @@ def test_reduced_airflow_filter_reading_fails_on_the_phone_offline_and_on_the_se
     page.get_by_role("link", name=re.compile("AHU-01")).first.click()
     wait_app(page)
 
-    context.set_offline(True)
+    offline(True)
     dp_id = f"r-filter_check-dp-{bank.label_code}"
     page.locator("#r-visit-supply_airflow-unit").fill("1200")
     page.locator(f"#{dp_id}").fill("0.75")
@@ -65,7 +65,7 @@ def test_reduced_airflow_filter_reading_fails_on_the_phone_offline_and_on_the_se
     expect(page.locator("[data-outbox-count]")).to_have_text("1")
     assert not Inspection.objects.filter(work_order=world.work_a).exists()
 
-    context.set_offline(False)
+    offline(False)
     page.evaluate("window.dispatchEvent(new Event('online'))")
     expect(page.locator("[data-outbox-count]")).to_have_text("0", timeout=20000)
 

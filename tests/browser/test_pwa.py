@@ -63,7 +63,7 @@ def test_manifest_loads_and_service_worker_registers(page, live_server, world):
     assert "const VERSION" in sw.text()
 
 
-def test_offline_checklist_reaches_server_once_with_evaluation(page, context, live_server, world, screenshots):
+def test_offline_checklist_reaches_server_once_with_evaluation(page, live_server, world, screenshots, offline):
     """Filled and signed offline, kept through an offline reload, sent once on reconnect and judged by the server."""
     page.set_viewport_size(PHONE)
     page.goto(f"{live_server.url}/login/")
@@ -76,7 +76,7 @@ def test_offline_checklist_reaches_server_once_with_evaluation(page, context, li
 
     page.get_by_role("link", name=re.compile("AHU-01")).first.click()
     wait_app(page)
-    context.set_offline(True)
+    offline(True)
     fill_checklist(page)
     expect(
         page.locator("#r-filter_check-dp-" + world.unit_a.components.get(name="Final filters").label_code + "-verdict")
@@ -94,7 +94,7 @@ def test_offline_checklist_reaches_server_once_with_evaluation(page, context, li
     page.screenshot(path=screenshots / "technician-checklist-offline-360.png", full_page=True)
     assert Inspection.objects.filter(work_order=world.work_a).count() == 0
 
-    context.set_offline(False)
+    offline(False)
     page.evaluate("window.dispatchEvent(new Event('online'))")
     expect(page.locator("[data-outbox-count]")).to_have_text("0", timeout=20000)
     expect(page.locator("[data-server-result]")).to_contain_text("Evaluation by the server", timeout=20000)
