@@ -69,6 +69,7 @@ from datetime import date, datetime, timedelta
 
 from django.db.models import Min, OuterRef, Q, Subquery
 
+from inspections import display
 from inspections import freeze as freeze_rules
 from inspections.freeze import last_season_end  # noqa: F401  (re-exported: the window rule lives there)
 from inspections.models import Evaluation, Finding, finding_age_days
@@ -381,7 +382,7 @@ def filter_forecast_text(*, derived: dict, today: date) -> str:
     site page and the compliance PDF both read this.
     """
     if derived.get("forecast_at_final_now"):
-        return "now: at or over its final pressure drop"
+        return display.DERIVED_FLAGS["forecast_at_final_now"][1]  # the words the inspection record shows
     stored = derived.get("forecast_change_date")
     if not stored:
         return "—"
