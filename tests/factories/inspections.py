@@ -110,3 +110,32 @@ def r(item: str, value, component=None, note: str = "") -> dict:
         "value": value,
         "note": note,
     }
+
+
+SYNC_URL = "/api/inspections/sync/"
+
+
+def sync_filter_visit(
+    api_client, *, ahu, technician, finished_at: dt.datetime, hours, airflow_ls, final_dp, after=None, pre_dp=60
+) -> dict:
+    """A filter check of both banks of ``ahu`` (pre-filters at ``pre_dp``, final filters at ``final_dp`` Pa) sent
+    through the sync API, with a filter change when ``after`` (the new final filters' Pa) is given; the server's
+    result for the form, stored or flagged. The caller sets the clock (the server judges the form at "now")."""
+    tasks = ["filter_check"] + (["filter_replace"] if after is not None else [])
+    wo, _ = make_visit(tasks=tasks, ahu=ahu, organisation=ahu.building.site.organisation, technician=technician)
+    pre, final = component(ahu, "Pre-filters"), component(ahu, "Final filters")
+    readings = [r("visit.run_hours", hours), r("visit.supply_airflow", airflow_ls)]  # the form takes L/s
+    for bank, value in ((pre, pre_dp), (final, final_dp)):
+        readings += [
+            r("filter_check.dp", value, bank),
+            r("filter_check.seated", "ok", bank),
+            r("filter_check.media", "loaded", bank),
+        ]
+    if after is not None:
+        for bank, value in ((pre, 52), (final, after)):
+            readings += [r("filter_replace.replaced", "ok", bank), r("filter_replace.dp_after", value, bank)]
+    api_client.force_authenticate(technician)
+    res = api_client.post(SYNC_URL, {"forms": [sync_form(wo, readings, finished_at=finished_at)]}, format="json")
+    [result] = res.json()["results"]
+    assert result["status"] in ("stored", "flagged"), result
+    return result

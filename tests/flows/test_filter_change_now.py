@@ -20,37 +20,28 @@ from reports.compliance import filter_forecast_text
 from reports.documents.unit_history import _filter_charts
 from reports.models import Report
 from tests.factories.accounts import make_person
-from tests.factories.inspections import make_visit, r, sync_form
+from tests.factories.inspections import make_visit, sync_filter_visit
 from tests.reports.conftest import pdf_text
 
 pytestmark = pytest.mark.django_db
-SYNC = "/api/inspections/sync/"
 DAY0 = dt.datetime(2025, 1, 6, 9, 30, tzinfo=dt.UTC)
 DASHED_FORECAST = 'stroke-dasharray="8 5"'  # frontend.charts: the dashed forecast line
 
 
 def _visit(api_client, time_machine, ahu, tech, days, hours, dp, after=None, airflow_ls=3000):
     """One filter check, at design airflow (3.0 m³/s, so no correction) unless told, optionally with a change."""
-    tasks = ["filter_check"] + (["filter_replace"] if after is not None else [])
-    wo, _ = make_visit(tasks=tasks, ahu=ahu, organisation=ahu.building.site.organisation, technician=tech)
-    pre, final = ahu.components.get(name="Pre-filters"), ahu.components.get(name="Final filters")
-    readings = [r("visit.run_hours", hours), r("visit.supply_airflow", airflow_ls)]  # the form takes L/s
-    for bank, value in ((pre, 60), (final, dp)):
-        readings += [
-            r("filter_check.dp", value, bank),
-            r("filter_check.seated", "ok", bank),
-            r("filter_check.media", "loaded", bank),
-        ]
-    if after is not None:
-        for bank, value in ((pre, 52), (final, after)):
-            readings += [r("filter_replace.replaced", "ok", bank), r("filter_replace.dp_after", value, bank)]
     finished = DAY0 + dt.timedelta(days=days)
     time_machine.move_to(finished + dt.timedelta(hours=1), tick=False)
-    api_client.force_authenticate(tech)
-    res = api_client.post(SYNC, {"forms": [sync_form(wo, readings, finished_at=finished)]}, format="json")
-    [result] = res.json()["results"]
-    assert result["status"] in ("stored", "flagged"), result
-    return result
+    return sync_filter_visit(
+        api_client,
+        ahu=ahu,
+        technician=tech,
+        finished_at=finished,
+        hours=hours,
+        airflow_ls=airflow_ls,
+        final_dp=dp,
+        after=after,
+    )
 
 
 def _final_judgement(result):

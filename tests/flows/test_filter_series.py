@@ -17,10 +17,9 @@ from inspections.selectors import filter_series
 from inspections.services.sync import _filter_points_for
 from reports.documents.unit_history import _filter_charts
 from tests.factories.accounts import make_person
-from tests.factories.inspections import make_visit, r, sync_form
+from tests.factories.inspections import make_visit, sync_filter_visit
 
 pytestmark = pytest.mark.django_db
-SYNC = "/api/inspections/sync/"
 DAY0 = dt.datetime(2025, 1, 6, 9, 30, tzinfo=dt.UTC)
 # (days after DAY0, run-hours, measured supply airflow m³/s, final filters Δp Pa, Δp after a change or None)
 VISITS = [
@@ -39,26 +38,18 @@ AFTER = [111.27, 128.83, 125.0]
 
 
 def _visit(api_client, ahu, tech, days, hours, q, dp, after):
-    tasks = ["filter_check"] + (["filter_replace"] if after is not None else [])
-    wo, _ = make_visit(tasks=tasks, ahu=ahu, organisation=ahu.building.site.organisation, technician=tech)
-    pre, final = ahu.components.get(name="Pre-filters"), ahu.components.get(name="Final filters")
-    readings = [r("visit.run_hours", hours), r("visit.supply_airflow", q * 1000)]  # the form takes L/s
-    for bank, value in ((pre, 60), (final, dp)):
-        readings += [
-            r("filter_check.dp", value, bank),
-            r("filter_check.seated", "ok", bank),
-            r("filter_check.media", "loaded", bank),
-        ]
-    if after is not None:
-        for bank, value in ((pre, 52), (final, after)):
-            readings += [r("filter_replace.replaced", "ok", bank), r("filter_replace.dp_after", value, bank)]
     finished = DAY0 + dt.timedelta(days=days)
     with time_machine.travel(finished + dt.timedelta(hours=1), tick=False):
-        api_client.force_authenticate(tech)
-        res = api_client.post(SYNC, {"forms": [sync_form(wo, readings, finished_at=finished)]}, format="json")
-    [result] = res.json()["results"]
-    assert result["status"] in ("stored", "flagged"), result
-    return result
+        return sync_filter_visit(
+            api_client,
+            ahu=ahu,
+            technician=tech,
+            finished_at=finished,
+            hours=hours,
+            airflow_ls=q * 1000,
+            final_dp=dp,
+            after=after,
+        )
 
 
 def test_chart_unit_history_and_evaluation_read_one_series_across_a_filter_change(api_client, client):
