@@ -125,7 +125,10 @@ def parse_number(raw: Any) -> float | None:
     if isinstance(raw, bool) or raw is None:
         return None
     if isinstance(raw, int | float):
-        value = float(raw)
+        try:
+            value = float(raw)
+        except OverflowError:  # a 400-digit JSON integer
+            return None
     elif isinstance(raw, str):
         text = raw.strip().replace(",", ".")
         if not text or len(text) > 40:

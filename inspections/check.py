@@ -10,14 +10,15 @@ from __future__ import annotations
 
 import datetime as dt
 import json
-import math
-import re
 import uuid
 from dataclasses import dataclass
 
 from django.core.exceptions import ValidationError
 from django.utils import timezone
 from django.utils.dateparse import parse_datetime
+
+from accounts.inputs import FieldErrors, control_characters, parse_number
+from accounts.inputs import shown as _shown
 
 # PostgreSQL's integer column (PositiveIntegerField and friends).
 INT_MAX = 2**31 - 1
@@ -27,22 +28,15 @@ EARLIEST = dt.datetime(2000, 1, 1, tzinfo=dt.UTC)
 LATEST = dt.datetime(2100, 1, 1, tzinfo=dt.UTC)
 # Clocks closer than this to the server's are taken as they are; beyond it the visit is placed on the server's timeline.
 CLOCK_TOLERANCE = dt.timedelta(minutes=5)
-# NUL and the other C0/C1 control characters; a note may keep tab, line feed and carriage return.
-_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f]")
-_CONTROL_LINE = re.compile(r"[\x00-\x1f\x7f-\x9f]")
-
-
-class Errors(dict):
-    """``{field: [message, ...]}``, the API's error shape (config/api.py)."""
-
-    def add(self, key: str, message: str) -> None:
-        self.setdefault(key, []).append(message)
+# ``{field: [message, ...]}``, the API's error shape (config/api.py): the input policy's own collector.
+Errors = FieldErrors
+# A finite number from a JSON number or typed text ("0,84"); ``None`` for 1e309, NaN, a list (the input policy's).
+number = parse_number
 
 
 def shown(raw: object, limit: int = 60) -> str:
     """A raw value as a person can read it in a message, cut short (a 2 MB string is not echoed)."""
-    text = repr(raw)
-    return text if len(text) <= limit else text[: limit - 1] + "…"
+    return _shown(raw, limit)
 
 
 def text(
@@ -54,7 +48,7 @@ def text(
     if not isinstance(raw, str):
         errors.add(key, f"{label}: {shown(raw)} is not text; allowed text of at most {max_len} characters")
         return None
-    if (_CONTROL if lines else _CONTROL_LINE).search(raw):
+    if control_characters(raw, lines=lines):
         where = "" if lines else ", tabs or line breaks"
         errors.add(key, f"{label}: the text contains control characters (such as NUL){where}; remove them")
         return None
@@ -73,25 +67,6 @@ def whole(raw: object, key: str, errors: Errors, *, label: str, lo: int = 1, hi:
         errors.add(key, f"{label}: {shown(raw)} is not allowed; allowed a whole number from {lo} to {hi}")
         return None
     return raw
-
-
-def number(raw: object) -> float | None:
-    """A finite number (a JSON number, or a string such as "0,84"); ``None`` for anything else (1e309, NaN, a list)."""
-    if isinstance(raw, bool):
-        return None
-    if isinstance(raw, int | float):
-        try:
-            x = float(raw)
-        except OverflowError:  # a 400-digit integer
-            return None
-    elif isinstance(raw, str) and len(raw) <= 40:
-        try:
-            x = float(raw.strip().replace(",", "."))
-        except ValueError:
-            return None
-    else:
-        return None
-    return x if math.isfinite(x) else None
 
 
 def code(raw: object) -> str | None:
