@@ -15,7 +15,9 @@ pytestmark = [pytest.mark.browser, pytest.mark.django_db(transaction=True)]
 CFM = 0.0004719474432  # m³/s per ft³/min (1 ft = 0.3048 m, exact)
 
 
-def test_reduced_airflow_filter_reading_fails_on_the_phone_offline_and_on_the_server(page, live_server, offline):
+def test_reduced_airflow_filter_reading_fails_on_the_phone_offline_and_on_the_server(
+    page, live_server, sign_in, offline
+):
     """0.75 in. w.c. read at 1,200 cfm on a unit designed for 1,695 cfm: "fail" on the phone offline, and after sync.
 
     186.8 Pa × (1695/1200)^1.5 = 313.6 Pa at design airflow (filter correction exponent 1.5, common
@@ -36,10 +38,7 @@ def test_reduced_airflow_filter_reading_fails_on_the_phone_offline_and_on_the_se
     bank.save(update_fields=["specs"])
 
     page.set_viewport_size(PHONE)
-    page.goto(f"{live_server.url}/login/")
-    page.get_by_label("Username").fill("tess")
-    page.get_by_label("Password").fill(scenario_module.PASSWORD)
-    page.get_by_role("button", name="Sign in").click()
+    sign_in(page, world.technician)
     expect(page).to_have_url(re.compile(r"/today/$"))
     page.wait_for_function("Number(document.documentElement.dataset.offlineSaved) >= 3", timeout=20000)
     page.get_by_role("link", name=re.compile("AHU-01")).first.click()
@@ -78,7 +77,7 @@ def test_reduced_airflow_filter_reading_fails_on_the_phone_offline_and_on_the_se
     assert not any("note" in f.get("reason", "") for f in inspection.flags)
 
 
-def test_calculator_works_offline_in_the_persons_units(page, context, live_server):
+def test_calculator_works_offline_in_the_persons_units(page, context, live_server, sign_in):
     """Offline, the field calculator still works the filter loading figure in US units, as the server would.
 
     0.75 in. w.c. at 1,200 cfm, design 1,695 cfm, clean 0.32 and final 1.00 in. w.c.: 186.8 × (1695/1200)^1.5
@@ -87,16 +86,13 @@ def test_calculator_works_offline_in_the_persons_units(page, context, live_serve
     from frontend.calculators import calculate
     from tests.frontend import scenario as scenario_module
 
-    scenario_module.build(unit_system="us")
+    world = scenario_module.build(unit_system="us")
     typed = {"dp_pa": "0.75", "airflow_m3s": "1200", "design_airflow_m3s": "1695", "clean_dp_pa": "0.32"}
     typed["final_dp_pa"] = "1.00"
     server = {r["label"]: r["value"] for r in calculate(name="filter-loading", values=typed, system="us")}
 
     page.set_viewport_size(PHONE)
-    page.goto(f"{live_server.url}/login/")
-    page.get_by_label("Username").fill("tess")
-    page.get_by_label("Password").fill(scenario_module.PASSWORD)
-    page.get_by_role("button", name="Sign in").click()
+    sign_in(page, world.technician)
     expect(page).to_have_url(re.compile(r"/today/$"))
     page.goto(f"{live_server.url}/calc/")
     wait_app(page)
