@@ -11,20 +11,11 @@ import json
 from rest_framework.exceptions import ParseError
 from rest_framework.parsers import JSONParser
 
+from inspections.check import depth_within
+
 # The deepest request body we take nests a handful of levels (forms → readings → value; specs; normals):
 # anything beyond this is not a request a client of ours sends (common practice: a small fixed limit).
 MAX_DEPTH = 32
-
-
-def _depth_within(value: object, limit: int) -> bool:
-    stack = [(value, 1)]
-    while stack:
-        item, depth = stack.pop()
-        if isinstance(item, dict | list):
-            if depth > limit:
-                return False
-            stack.extend((child, depth + 1) for child in (item.values() if isinstance(item, dict) else item))
-    return True
 
 
 def _no_constant(name: str):
@@ -44,6 +35,6 @@ class BoundedJSONParser(JSONParser):
             value, deep = None, True
         except (ValueError, UnicodeDecodeError) as exc:
             raise ParseError(f"JSON parse error - {exc}") from None
-        if deep or not _depth_within(value, MAX_DEPTH):
+        if deep or not depth_within(value, MAX_DEPTH):
             raise ParseError(f"JSON parse error - lists and objects nest more than {MAX_DEPTH} deep")
         return value
