@@ -10,7 +10,11 @@ import re
 
 from django.http import HttpResponseBadRequest, JsonResponse
 
+from .api import error_body
+from .errors import is_api
+
 _CONTROL = re.compile(r"[\x00-\x1f\x7f]")
+MESSAGE = "contains control characters (such as NUL); remove them"
 
 
 class QueryControlCharactersMiddleware:
@@ -18,12 +22,19 @@ class QueryControlCharactersMiddleware:
         self.get_response = get_response
 
     def __call__(self, request):
-        bad = sorted({key for key, value in request.GET.items() if _CONTROL.search(key) or _CONTROL.search(value)})
-        if bad:
-            message = "contains control characters (such as NUL); remove them"
-            if request.path.startswith("/api/"):
-                errors = {key if not _CONTROL.search(key) else "query": [f"{key!r} {message}"] for key in bad}
-                return JsonResponse({"detail": f"The address's {', '.join(map(repr, bad))} {message}.",
-                                     "errors": errors}, status=400)  # fmt: skip
-            return HttpResponseBadRequest(f"The address's {', '.join(map(repr, bad))} {message}.")
-        return self.get_response(request)
+        # On every request: a control character arrives percent-encoded (or raw), so a query string with
+        # neither is passed on without decoding it.
+        query = request.META.get("QUERY_STRING", "")
+        if not query or ("%" not in query and not _CONTROL.search(query)):
+            return self.get_response(request)
+        # Every value of a repeated parameter: a view reading the list (``getlist``) sees them all.
+        bad = sorted(
+            {key for key, values in request.GET.lists() if _CONTROL.search(key) or any(map(_CONTROL.search, values))}
+        )
+        if not bad:
+            return self.get_response(request)
+        detail = f"The address's {', '.join(map(repr, bad))} {MESSAGE}."
+        if is_api(request):
+            errors = {key if not _CONTROL.search(key) else "query": [f"{key!r} {MESSAGE}"] for key in bad}
+            return JsonResponse(error_body(detail=detail, errors=errors), status=400)
+        return HttpResponseBadRequest(detail)
