@@ -43,6 +43,8 @@ def templates_current(*, codes: list[str] | None = None) -> dict[str, ChecklistT
     """The newest version of each template (installing the library on first use), items prefetched."""
     wanted = set(codes) if codes is not None else None
     qs = ChecklistTemplate.objects.order_by("code", "-version").prefetch_related("items")
+    if wanted is not None:  # only the wanted templates' versions and items are read (each synced form asks)
+        qs = qs.filter(code__in=wanted)
     have = set(ChecklistTemplate.objects.values_list("code", "version"))
     if not {(t["code"], t["version"]) for t in checklists.all_templates()} <= have:
         checklist_library_install()
