@@ -584,7 +584,11 @@ def _store(parsed: Parsed, user, results) -> dict:
                 try:
                     with transaction.atomic():
                         meter_reading_record(
-                            ahu=wo.ahu, hours=hours, taken_at=parsed.finished_at, source="checklist", by=user
+                            ahu=parsed.work_order.ahu,  # already read with its site (wo is the locked row)
+                            hours=hours,
+                            taken_at=parsed.finished_at,
+                            source="checklist",
+                            by=user,
                         )
                 except ValidationError as exc:
                     flags.append(
