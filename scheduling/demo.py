@@ -7,6 +7,7 @@ import datetime as dt
 from django.db import transaction
 
 from .engine import GenerationResult, work_orders_generate
+from .engine import _title as visit_title  # the engine's own title of a preventive visit
 from .models import WorkOrder, WorkOrderTask, overdue_day
 from .selectors import effective_tasks
 from .services import site_seasons_refresh, task_library_install
@@ -54,7 +55,7 @@ def demo_round_visit(*, ahu, codes: list[str], due: dt.date) -> tuple[WorkOrder,
         organisation=organisation,
         ahu=ahu,
         kind=WorkOrder.Kind.PREVENTIVE,
-        title=f"Preventive maintenance: {', '.join(sorted(t.name for t in chosen))}"[:200],
+        title=visit_title(chosen),
         due_date=due,
         overdue_on=overdue_day(due, min((t.grace_days for t in chosen), default=0)),
         source_ref=ROUND_REF,
