@@ -146,8 +146,9 @@ DERIVED_HIDDEN = {
     "physical_max",
 }
 
-# Sensor drift readings by the sensor the item names (inspections.evaluation.DRIFT_QUANTITIES).
-_DRIFT = {
+# Sensor drift by the sensor the item names: (quantity of the readings, quantity of their difference).
+# inspections.evaluation judges and words the drift with these; here they label its derived values.
+DRIFT_QUANTITIES = {
     "co2": ("co2", "co2"),
     "temp": ("temperature", "temperature_difference"),
     "rh": ("relative_humidity", "relative_humidity"),
@@ -206,7 +207,7 @@ def _shown(value: Any, how: Any, system: str, item: str) -> str:
         return _in_units(value, "pressure", system, 4 if system == "us" else 3) + " per run-hour"
     if how in ("drift_value", "drift_difference"):
         prefix = item.rpartition(".")[2].split("_")[0]
-        quantities = _DRIFT.get(prefix)
+        quantities = DRIFT_QUANTITIES.get(prefix)
         if quantities is None:
             return ""
         return _quantity(value, quantities[0 if how == "drift_value" else 1], system)

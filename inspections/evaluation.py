@@ -24,9 +24,10 @@ from engineering.filters import FilterPoint
 from engineering.psychro import pressure_from_altitude
 from inspections import reasons as rs
 from inspections.checklists import storage_unit_label
-from inspections.display import plain_message, refusal_parts
+from inspections.display import DRIFT_QUANTITIES, plain_message, refusal_parts
 from inspections.reasons import q as qty
 from inspections.reasons import span
+from inspections.selectors import filter_design_airflow_m3s
 
 OK, WATCH, FAIL, NA = "ok", "watch", "fail", "na"
 
@@ -83,12 +84,6 @@ ITEM_CONDITIONS = {
 # NDIR CO2 ±(50 ppm + 3 % of reading); duct temperature ±0.5 K; RH ±3 points;
 # differential pressure ±(5 Pa + 2 % of reading).
 COIL_TOLERANCE_PCT = 10.0  # air vs water side, field instruments: common practice
-DRIFT_QUANTITIES = {  # (quantity of the readings, quantity of their difference)
-    "co2": ("co2", "co2"),
-    "temp": ("temperature", "temperature_difference"),
-    "rh": ("relative_humidity", "relative_humidity"),
-    "pressure": ("pressure", "pressure"),
-}
 DRIFT_DEFAULTS = {
     "co2": (50.0, 3.0, "ppm"),
     "temp": (0.5, 0.0, "°C"),
@@ -220,7 +215,7 @@ def _reading_result(slot, value: Value) -> Result | None:
             watch_low=lim.get("watch_min"),
             watch_high=lim.get("watch_max"),
             label=it.label.lower(),
-            unit=_unit(it.quantity),
+            unit=storage_unit_label(it.quantity),
         )
         res.check = "limits"
         res.verdict = check.verdict.value
@@ -229,10 +224,6 @@ def _reading_result(slot, value: Value) -> Result | None:
         res.derived = {"value": value.number, **{k: v for k, v in lim.items() if v is not None and "_m" in k}}
         return res
     return None
-
-
-def _unit(quantity: str) -> str:
-    return storage_unit_label(quantity)
 
 
 def _band_parts(it, x: float, lim: dict, verdict: str) -> list:
@@ -263,6 +254,21 @@ def _band_parts(it, x: float, lim: dict, verdict: str) -> list:
 # ---------------------------------------------------------------------------
 
 
+def _filter_derived(*, dp: float, q: float, q_how: str, design_q: float, clean: float, judged: Any) -> dict[str, Any]:
+    """The derived values both filter checks keep: the reading, its airflow, and its correction to design
+    airflow against the clean pressure drop (``judged``: a FilterLoading or a FilterAfterChange)."""
+    return {
+        "dp_pa": dp,
+        "airflow_m3s": q,
+        "airflow_source": q_how,
+        "design_airflow_m3s": design_q,
+        "corrected_dp_pa": round(judged.corrected_dp_pa, 1),
+        "clean_dp_pa": clean,
+        "fraction_of_clean_pct": round(judged.fraction_of_clean * 100, 1),
+        "media_bypass_suspected": judged.media_bypass_suspected,
+    }
+
+
 def _filter_checks(form: Form, consumed: set) -> list[Result]:
     out = []
     q, q_how = supply_airflow(form)
@@ -272,7 +278,7 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
             continue
         consumed.add(("filter_check.dp", bank.pk))
         specs = bank.specs
-        design_q = specs.get("design_airflow_m3s") or form.ahu.design_supply_airflow_m3s
+        design_q = filter_design_airflow_m3s(component=bank, ahu=form.ahu)
         res = Result(check="filter_loading", item="filter_check.dp", component=bank, condition_code="filter_loaded")
         missing = next((w for k, w in (("clean_dp_pa", "clean"), ("final_dp_pa", "final")) if k not in specs), None)
         if missing is not None:
@@ -299,16 +305,9 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
         pct = loading.fraction_of_span * 100
         res.verdict = loading.verdict.value
         res.derived = {
-            "dp_pa": dp,
-            "airflow_m3s": q,
-            "airflow_source": q_how,
-            "design_airflow_m3s": design_q,
-            "corrected_dp_pa": round(loading.corrected_dp_pa, 1),
+            **_filter_derived(dp=dp, q=q, q_how=q_how, design_q=design_q, clean=specs["clean_dp_pa"], judged=loading),
             "loading_pct": round(pct, 1),
-            "clean_dp_pa": specs["clean_dp_pa"],
             "final_dp_pa": specs["final_dp_pa"],
-            "fraction_of_clean_pct": round(loading.fraction_of_clean * 100, 1),
-            "media_bypass_suspected": loading.media_bypass_suspected,
         }
         res.method = (
             f"Δp × (Q_design/Q)^{filters.DEFAULT_EXPONENT:g} against the clean-to-final span; below "
@@ -397,7 +396,7 @@ def _filter_change_checks(form: Form, consumed: set) -> list[Result]:
         if dp is None or clean is None:
             continue
         consumed.add(("filter_replace.dp_after", bank.pk))
-        design_q = bank.specs.get("design_airflow_m3s") or form.ahu.design_supply_airflow_m3s
+        design_q = filter_design_airflow_m3s(component=bank, ahu=form.ahu)
         res = Result(
             check="filter_after_change", item="filter_replace.dp_after", component=bank, condition_code="filter_loaded"
         )
@@ -410,16 +409,7 @@ def _filter_change_checks(form: Form, consumed: set) -> list[Result]:
             continue
         tol = filters.AFTER_CHANGE_TOLERANCE
         res.verdict = chk.verdict.value
-        res.derived = {
-            "dp_pa": dp,
-            "airflow_m3s": q,
-            "airflow_source": q_how,
-            "design_airflow_m3s": design_q,
-            "corrected_dp_pa": round(chk.corrected_dp_pa, 1),
-            "clean_dp_pa": clean,
-            "fraction_of_clean_pct": round(chk.fraction_of_clean * 100, 1),
-            "media_bypass_suspected": chk.media_bypass_suspected,
-        }
+        res.derived = _filter_derived(dp=dp, q=q, q_how=q_how, design_q=design_q, clean=clean, judged=chk)
         res.method = (
             f"Δp × (Q_design/Q)^{filters.DEFAULT_EXPONENT:g} against the rated clean pressure drop: ok within "
             f"±{tol * 100:.0f} %, fail below {filters.BYPASS_FAIL_FRACTION * 100:.0f} % or above "
