@@ -8,6 +8,8 @@ draw its charts (inline SVG with presentation attributes only), and a screenshot
 
 from __future__ import annotations
 
+from contextlib import contextmanager
+
 import pytest
 from django.conf import settings
 
@@ -54,6 +56,22 @@ def _sign_in(page, base: str, username: str):
     page.wait_for_load_state("load")
 
 
+@contextmanager
+def _session(browser, base: str, username: str | None, *, viewport: dict, problems: list[str]):
+    """A fresh browser context watched for CSP messages, signed in as ``username`` (or nobody); on leaving,
+    its problems join ``problems``."""
+    ctx = browser.new_context(viewport=viewport)
+    try:
+        page = ctx.new_page()
+        watch = Watch(page)
+        if username:
+            _sign_in(page, base, username)
+        yield page, watch
+        problems += watch.problems
+    finally:
+        ctx.close()
+
+
 def _first_href(page, selector: str) -> str:
     link = page.locator(selector).first
     assert link.count(), f"{page.url}: no link {selector}"
@@ -81,73 +99,50 @@ def test_main_pages_of_every_role_break_no_rule(browser, live_server, demo, scre
     base = live_server.url
     problems: list[str] = []
 
-    ctx = browser.new_context(viewport=PHONE)
-    watch = Watch(ctx.new_page())
-    watch.visit(f"{base}/login/")
-    problems += watch.problems
-    ctx.close()
+    with _session(browser, base, None, viewport=PHONE, problems=problems) as (page, watch):
+        watch.visit(f"{base}/login/")
 
     # Technician: today's round, a checklist, the unit page, the calculator, records.
-    ctx = browser.new_context(viewport=PHONE)
-    page = ctx.new_page()
-    watch = Watch(page)
-    _sign_in(page, base, "ines.tech")
-    watch.visit(f"{base}/today/")
-    checklist = _first_href(page, "a[href^='/w/']")
-    watch.visit(base + checklist)
-    watch.visit(f"{base}/u/")
-    unit = _first_href(page, "a[href^='/u/']") if page.locator("a[href^='/u/']").count() else None
-    if unit:
-        watch.visit(base + unit)
-    watch.visit(f"{base}/calc/")
-    watch.visit(f"{base}/records/")
-    problems += watch.problems
-    ctx.close()
+    with _session(browser, base, "ines.tech", viewport=PHONE, problems=problems) as (page, watch):
+        watch.visit(f"{base}/today/")
+        checklist = _first_href(page, "a[href^='/w/']")
+        watch.visit(base + checklist)
+        watch.visit(f"{base}/u/")
+        unit = _first_href(page, "a[href^='/u/']") if page.locator("a[href^='/u/']").count() else None
+        if unit:
+            watch.visit(base + unit)
+        watch.visit(f"{base}/calc/")
+        watch.visit(f"{base}/records/")
 
     # Supervisor: the board, the registry and a unit in it, findings, corrective work, flagged forms, API docs.
-    ctx = browser.new_context(viewport=DESKTOP)
-    page = ctx.new_page()
-    watch = Watch(page)
-    _sign_in(page, base, "ruth.supervisor")
-    watch.visit(f"{base}/board/")
-    assert page.locator("caption.table-note").first.evaluate("c => getComputedStyle(c).textAlign") == "left"
-    watch.visit(f"{base}/registry/")
-    watch.visit(base + _first_href(page, "a[href^='/registry/unit/']"))
-    for path in ("/findings/", "/corrective/", "/flagged/", "/records/"):
-        watch.visit(base + path)
-    watch.visit(f"{base}/api/docs/", app=False)
-    page.locator(".swagger-ui .info").wait_for(timeout=15000)
-    assert page.locator(".swagger-ui .opblock").count() > 5, "Swagger UI did not list the API"
-    problems += watch.problems
-    ctx.close()
+    with _session(browser, base, "ruth.supervisor", viewport=DESKTOP, problems=problems) as (page, watch):
+        watch.visit(f"{base}/board/")
+        assert page.locator("caption.table-note").first.evaluate("c => getComputedStyle(c).textAlign") == "left"
+        watch.visit(f"{base}/registry/")
+        watch.visit(base + _first_href(page, "a[href^='/registry/unit/']"))
+        for path in ("/findings/", "/corrective/", "/flagged/", "/records/"):
+            watch.visit(base + path)
+        watch.visit(f"{base}/api/docs/", app=False)
+        page.locator(".swagger-ui .info").wait_for(timeout=15000)
+        assert page.locator(".swagger-ui .opblock").count() > 5, "Swagger UI did not list the API"
 
     # Property manager: the dashboard and a site page with its charts.
-    ctx = browser.new_context(viewport=DESKTOP)
-    page = ctx.new_page()
-    watch = Watch(page)
-    _sign_in(page, base, "helena.pm")
-    watch.visit(f"{base}/dashboard/")
-    watch.visit(base + _first_href(page, "a[href^='/dashboard/site/']"))
-    charts = page.locator("figure.chart svg")
-    assert charts.count() >= 1, "the site page shows no chart"
-    for i in range(charts.count()):
-        box = charts.nth(i).bounding_box()
-        assert box and box["width"] > 200 and box["height"] > 50, f"chart {i} is not drawn: {box}"
-    assert page.locator("figure.chart svg path").count() >= 1, "a chart has no line"
-    page.screenshot(path=screenshots / "csp-manager-site.png", full_page=True)
-    watch.visit(f"{base}/records/")
-    problems += watch.problems
-    ctx.close()
+    with _session(browser, base, "helena.pm", viewport=DESKTOP, problems=problems) as (page, watch):
+        watch.visit(f"{base}/dashboard/")
+        watch.visit(base + _first_href(page, "a[href^='/dashboard/site/']"))
+        charts = page.locator("figure.chart svg")
+        assert charts.count() >= 1, "the site page shows no chart"
+        for i in range(charts.count()):
+            box = charts.nth(i).bounding_box()
+            assert box and box["width"] > 200 and box["height"] > 50, f"chart {i} is not drawn: {box}"
+        assert page.locator("figure.chart svg path").count() >= 1, "a chart has no line"
+        page.screenshot(path=screenshots / "csp-manager-site.png", full_page=True)
+        watch.visit(f"{base}/records/")
 
     # Administrator: the start page (its menu) and the board.
-    ctx = browser.new_context(viewport=DESKTOP)
-    page = ctx.new_page()
-    watch = Watch(page)
-    _sign_in(page, base, "samir.admin")
-    watch.visit(f"{base}/")
-    watch.visit(f"{base}/board/")
-    problems += watch.problems
-    ctx.close()
+    with _session(browser, base, "samir.admin", viewport=DESKTOP, problems=problems) as (page, watch):
+        watch.visit(f"{base}/")
+        watch.visit(f"{base}/board/")
 
     assert settings.CONTENT_SECURITY_POLICY["DIRECTIVES"]["style-src"] == ["'self'"]
     assert problems == [], "\n".join(problems[:30])
