@@ -171,8 +171,8 @@ def _quantity(value: float, quantity: str, system: str, decimals: int | None = N
 
 def _in_units(value: float, quantity: str, system: str, decimals: int) -> str:
     """A value in the reader's unit at a set precision (for the few values reasons do not carry)."""
-    shown = units.to_display(value=value, quantity=quantity, system=system)
-    return f"{shown:.{decimals}f} {units.unit_label(quantity=quantity, system=system)}"
+    shown = rs.display_number(value, quantity, system, decimals=decimals)
+    return f"{shown} {units.unit_label(quantity=quantity, system=system)}"
 
 
 def _minus(text: str) -> str:

@@ -73,10 +73,11 @@ def _number(value_si: float, quantity: str, system: str, decimals: int) -> str:
     return text.replace("-", "−")
 
 
-def display_number(value_si: float, quantity: str, system: str) -> str:
-    """A stored SI value as a reader sees it: in ``system``'s unit, at the quantity's usual precision,
-    thousands grouped from 10 000, true minus sign (the unit label is not added)."""
-    return _number(value_si, quantity, system, _decimals({"quantity": quantity}, system))
+def display_number(value_si: float, quantity: str, system: str, *, decimals: int | None = None) -> str:
+    """A stored SI value as a reader sees it: in ``system``'s unit, at the quantity's usual precision (or
+    ``decimals`` in either system), thousands grouped from 10 000, true minus sign (the unit label is not added)."""
+    d = _decimals({"quantity": quantity}, system) if decimals is None else decimals
+    return _number(value_si, quantity, system, d)
 
 
 def _with_unit(text: str, quantity: str, system: str) -> str:

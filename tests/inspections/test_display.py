@@ -105,3 +105,19 @@ def test_verdicts_read_as_the_phone_says_them():
         "not applicable",
         "recorded",
     ]
+
+
+@pytest.mark.parametrize(
+    ("system", "rate", "density"),
+    [
+        ("si", "0.040 Pa per run-hour", "1.164 kg/m³"),
+        # 0.04 Pa ÷ 249.089 Pa per in. w.c. = 0.00016; 1.1644 kg/m³ ÷ 16.0185 kg/m³ per lb/ft³ = 0.0727
+        # (NIST SP 811 Appendix B conversion factors, from memory).
+        ("us", "0.0002 in. w.c. per run-hour", "0.073 lb/ft³"),
+    ],
+)
+def test_loading_rate_and_air_density_read_in_the_readers_units_at_their_own_precision(system, rate, density):
+    """The two derived values the reasons never carry (a filter's loading rate, the coil's air density) read
+    through the same number formatting as the reasons, at finer precision than their quantities' usual."""
+    rows = dict(display.derived_rows({"rate_pa_per_hour": 0.04, "air_density_kg_m3": 1.1644}, system))
+    assert rows == {"loading rate": rate, "air density": density}
