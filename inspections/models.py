@@ -192,6 +192,11 @@ class Inspection(models.Model):
         return bool(self.flags) and self.flag_resolved_at is None
 
     @property
+    def clock_skew_s(self) -> float | None:
+        """The phone's clock minus the server's at receipt, in seconds to a tenth (API answers); None when unknown."""
+        return None if self.clock_skew is None else round(self.clock_skew.total_seconds(), 1)
+
+    @property
     def display_name(self) -> str:
         """The form as a person names it: unit with building, work order title and the site's day it was finished."""
         when = self.finished_at or self.received_at

@@ -101,7 +101,9 @@ class InspectionOutputSerializer(serializers.Serializer):
     signature_name = serializers.CharField()
     signed_at = serializers.DateTimeField()
     received_at = serializers.DateTimeField()
-    clock_skew_s = serializers.SerializerMethodField(help_text="The phone's clock minus the server's, seconds.")
+    clock_skew_s = serializers.FloatField(
+        allow_null=True, read_only=True, help_text="The phone's clock minus the server's, seconds."
+    )
     phone_times = serializers.DictField(help_text="The times as the phone's clock gave them.")
     complete = serializers.BooleanField()
     flags = serializers.ListField(child=serializers.DictField())
@@ -115,9 +117,6 @@ class InspectionOutputSerializer(serializers.Serializer):
     def _system(self) -> str:
         # Reasons in the reader's units; reason_si keeps the SI text as recorded.
         return self.context.get("unit_system", "si")
-
-    def get_clock_skew_s(self, obj) -> float | None:
-        return None if obj.clock_skew is None else round(obj.clock_skew.total_seconds(), 1)
 
     def get_readings(self, obj) -> list[dict]:
         return [
@@ -174,11 +173,10 @@ class FlaggedFormSerializer(serializers.Serializer):
     site = serializers.CharField(source="ahu.building.site.name")
     technician = serializers.CharField()
     received_at = serializers.DateTimeField()
-    clock_skew_s = serializers.SerializerMethodField(help_text="The phone's clock minus the server's, seconds.")
+    clock_skew_s = serializers.FloatField(
+        allow_null=True, read_only=True, help_text="The phone's clock minus the server's, seconds."
+    )
     flags = serializers.ListField(child=serializers.DictField())
-
-    def get_clock_skew_s(self, obj) -> float | None:
-        return None if obj.clock_skew is None else round(obj.clock_skew.total_seconds(), 1)
 
 
 class FreezeReadinessUnitSerializer(serializers.Serializer):

@@ -476,12 +476,8 @@ def _result_json(
             for e in evals
         ],
         "findings": [selectors.finding_shape(finding=f, unit_system=unit_system) for f in found],
-        "clock_skew_s": _skew_seconds(inspection.clock_skew),
+        "clock_skew_s": inspection.clock_skew_s,
     }
-
-
-def _skew_seconds(skew: dt.timedelta | None) -> float | None:
-    return None if skew is None else round(skew.total_seconds(), 1)
 
 
 def duplicate_result(inspection: Inspection, *, user) -> dict:
