@@ -14,6 +14,8 @@ from pathlib import Path
 
 import pytest
 
+from tests.conftest import service_missing
+
 JS = Path(__file__).resolve().parents[2] / "frontend" / "static" / "frontend" / "js"
 
 FAKE_OUTBOX = """
@@ -56,7 +58,7 @@ console.log(JSON.stringify(out));
 @pytest.fixture
 def drafts_run(tmp_path):
     if shutil.which("node") is None:
-        pytest.skip("node is not installed")
+        service_missing("needs Node.js (apt-get install nodejs) to run the phone's drafts module")
     shutil.copy(JS / "drafts.js", tmp_path / "drafts.js")
     (tmp_path / "outbox.js").write_text(FAKE_OUTBOX)
     (tmp_path / "run.js").write_text(RUNNER)
