@@ -664,16 +664,12 @@ def inspection_submit(*, user, form: object, sent_at: object = None) -> dict:
 def _failed_result(form: object) -> dict:
     """A form the server could not handle (a defect, logged): kept on the phone and sent again later."""
     raw_id = form.get("client_uuid") if isinstance(form, dict) else None
+    errors = Errors()
+    errors.add("form", "the server could not store this form just now; it stays on the phone and is sent again")
     return {
+        **refused_result(None, errors),  # the same empty answer, with its own status
         "client_uuid": raw_id if isinstance(raw_id, str) and len(raw_id) <= 36 else None,
         "status": "error",
-        "inspection_id": None,
-        "work_order_state": None,
-        "flags": [],
-        "errors": {"form": ["the server could not store this form just now; it stays on the phone and is sent again"]},
-        "evaluation": [],
-        "findings": [],
-        "clock_skew_s": None,
     }
 
 
