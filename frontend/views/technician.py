@@ -226,7 +226,7 @@ def _amend_value(raw: str, item):
     if item.kind == "check":
         return CHECK_WORDS.get(text.lower(), text)
     if item.kind == "choice":
-        if text.lower() in ("n/a", "na", "n.a.", "not applicable"):
+        if CHECK_WORDS.get(text.lower()) == "na":
             return "na"
         for choice in item.choices or []:
             if text.lower() in (str(choice.get("label", "")).lower(), str(choice.get("value", "")).lower()):
