@@ -221,16 +221,21 @@ def meter_context(*, ahu, as_of: dt.datetime) -> dict[str, Any]:
 
 
 def checklist_context(*, checklist, as_of: dt.datetime) -> dict[str, Any]:
-    """The evaluation context of one work order's checklist (``selectors.checklist_build``), as of a moment."""
-    from inspections.services.sync import _filter_points_for
+    """The evaluation context of one work order's checklist (``selectors.checklist_build``), as of a moment.
+
+    The earlier filter readings of every bank come from one ``selectors.filter_series_for`` (a fixed number
+    of queries however many banks the unit has)."""
+    from inspections.selectors import filter_series_for
 
     ahu = checklist.work_order.ahu
+    components = list(ahu.components.all())
+    series = filter_series_for(components=components, before=as_of)
     return {
         **evaluation_context(
             ahu=ahu,
-            components=list(ahu.components.all()),
+            components=components,
             slots=checklist.slots,
-            filter_points=_filter_points_for(ahu, as_of),
+            filter_points=lambda bank: series[bank.pk].current.forecast_points(),
         ),
         "meter": meter_context(ahu=ahu, as_of=as_of),
     }
