@@ -75,7 +75,7 @@ def _page(request, view, queryset, output_class):
 
 def _managed_organisation(*, user, slug: str | None) -> Organisation:
     """The organisation a new site or an import goes into: the named one, or the only one the person manages."""
-    orgs = Organisation.objects.filter(memberships__user=user, memberships__role__in=selectors.MANAGING_ROLES)
+    orgs = selectors.organisations_managed_by(user=user)
     if slug:
         org = orgs.filter(slug=slug).first()
         if org is None:

@@ -69,14 +69,6 @@ class OrganisationSlug(serializers.SlugRelatedField):
         return super().to_internal_value(data)
 
 
-def _visible_sites(*, user):
-    return selectors.sites_visible_to(user=user)
-
-
-def _managed_orgs(*, user):
-    return Organisation.objects.filter(memberships__user=user, memberships__role__in=selectors.MANAGING_ROLES)
-
-
 # ---------------------------------------------------------------------------
 # Sites and buildings
 # ---------------------------------------------------------------------------
@@ -121,7 +113,7 @@ class BuildingOutput(serializers.ModelSerializer):
 
 
 class BuildingInput(NamesValueMixin, serializers.ModelSerializer):
-    site = VisiblePrimaryKey(selector=_visible_sites)
+    site = VisiblePrimaryKey(selector=selectors.sites_visible_to)
 
     class Meta:
         model = Building
