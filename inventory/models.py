@@ -271,11 +271,11 @@ class AHU(models.Model):
 
     def _clean_ventilation(self) -> None:
         """Occupant diversity and system ventilation efficiency: numbers in range, for several zones only."""
+        from .inputs import AHU_NUMBERS  # the ranges live in the input policy's table
+
         errors = {}
-        for name, label, lo, hi in (
-            ("occupant_diversity", "Occupant diversity", 0.05, 1.0),
-            ("system_ventilation_efficiency", "System ventilation efficiency", 0.1, 1.0),
-        ):
+        for name in ("occupant_diversity", "system_ventilation_efficiency"):
+            label, lo, hi = AHU_NUMBERS[name].label, AHU_NUMBERS[name].minimum, AHU_NUMBERS[name].maximum
             value = getattr(self, name)
             if value is None:
                 continue
