@@ -387,12 +387,10 @@ def corrective(request):
                 messages.success(request, f"Rejected: {wo.title}.")
         except ValidationError as exc:
             # Refused: the page again, the message beside the field it is about, the typed reason kept.
-            errors = exc.message_dict if hasattr(exc, "error_dict") else {"reason": exc.messages}
-            words = [m for msgs in errors.values() for m in msgs]
             return _corrective_page(
                 request,
                 pending,
-                errors={str(wo.public_id): words},
+                errors={str(wo.public_id): exc.messages},  # every message, field by field
                 typed={str(wo.public_id): reason},
                 status=400,
             )

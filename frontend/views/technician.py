@@ -275,13 +275,7 @@ def amend(request, public_id):
     except PermissionDenied:
         messages.error(request, "Only the technician who signed the form or a supervisor of the site may amend it.")
     except ValidationError as exc:
-        messages.error(request, "The amendment was not saved: " + " ".join(_plain_errors(exc)))
+        messages.error(request, "The amendment was not saved: " + " ".join(exc.messages))
     else:
         messages.success(request, f"Amendment to {reading.item.label} saved beside the signed record.")
     return back
-
-
-def _plain_errors(exc: ValidationError) -> list[str]:
-    if hasattr(exc, "message_dict"):
-        return [m for msgs in exc.message_dict.values() for m in msgs]
-    return list(exc.messages)
