@@ -25,6 +25,21 @@ def submit(client, wo, tech, readings, **kw):
     return out
 
 
+def submit_visit(client, task, readings, *, unit=None, **kw):
+    """A new visit of ``task`` on a full unit (``unit``: registry fields of the unit) with ``readings`` submitted."""
+    wo, tech = make_visit(tasks=[task], **(unit or {}))
+    return submit(client, wo, tech, readings, **kw)
+
+
+def mixing_temperatures(outdoor, return_, mixed) -> list[dict]:
+    """The ventilation check's outdoor, return and mixed air temperatures, °C."""
+    return [
+        r("ventilation_check.outdoor_air", outdoor),
+        r("ventilation_check.return_air", return_),
+        r("ventilation_check.mixed_air", mixed),
+    ]
+
+
 def result(out, check, component=None):
     return next(
         e
@@ -146,18 +161,7 @@ def test_outdoor_air_fraction_by_temperature_meets_design_and_ventilation_requir
     Requirement of 1200 m² of office with 60 people: 2.5 L/s·person × 60 + 0.3 L/s·m² × 1200 = 510 L/s
     (ASHRAE 62.1 Table 6-1 office rates, from memory) → fraction 0.17 needed; design minimum 0.25. OK.
     """
-    wo, tech = make_visit(tasks=["ventilation_check"])
-    out = submit(
-        api_client,
-        wo,
-        tech,
-        [
-            r("visit.run_hours", 1200),
-            r("ventilation_check.outdoor_air", 0),
-            r("ventilation_check.return_air", 22),
-            r("ventilation_check.mixed_air", 15.4),
-        ],
-    )
+    out = submit_visit(api_client, "ventilation_check", [r("visit.run_hours", 1200), *mixing_temperatures(0, 22, 15.4)])
     ev = result(out, "oa_fraction_temperature")
     assert ev["derived"]["oa_fraction"] == pytest.approx(0.30, abs=0.001)
     assert ev["derived"]["uncertainty"] == pytest.approx(0.029, abs=0.001)
@@ -176,23 +180,16 @@ def test_a_requirement_above_the_design_minimum_is_a_design_shortfall_said_plain
     Outdoor 0 °C, return 22 °C, mixed 13.2 °C: x = 8.8/22 = 0.40 ± 0.03 (mixing balance), which meets
     the design minimum; the fail comes from the requirement, and the text says so with its number.
     """
-    wo, tech = make_visit(
-        tasks=["ventilation_check"],
-        space_kind="retail_sales",
-        floor_area_m2=2000.0,
-        design_occupants=300,
-        design_min_oa_fraction=0.35,
-    )
-    out = submit(
+    out = submit_visit(
         api_client,
-        wo,
-        tech,
-        [
-            r("visit.supply_airflow", 3000),
-            r("ventilation_check.outdoor_air", 0),
-            r("ventilation_check.return_air", 22),
-            r("ventilation_check.mixed_air", 13.2),
-        ],
+        "ventilation_check",
+        [r("visit.supply_airflow", 3000), *mixing_temperatures(0, 22, 13.2)],
+        unit={
+            "space_kind": "retail_sales",
+            "floor_area_m2": 2000.0,
+            "design_occupants": 300,
+            "design_min_oa_fraction": 0.35,
+        },
     )
     ev = result(out, "oa_fraction_temperature")
     assert ev["verdict"] == "fail"
@@ -229,17 +226,8 @@ def test_a_requirement_above_the_design_minimum_is_a_design_shortfall_said_plain
     ],
 )
 def test_ventilation_requirement_follows_the_units_configuration(api_client, unit, required_m3s, words):
-    wo, tech = make_visit(tasks=["ventilation_check"], **unit)
-    out = submit(
-        api_client,
-        wo,
-        tech,
-        [
-            r("visit.supply_airflow", 3000),
-            r("ventilation_check.outdoor_air", 0),
-            r("ventilation_check.return_air", 22),
-            r("ventilation_check.mixed_air", 15.4),
-        ],
+    out = submit_visit(
+        api_client, "ventilation_check", [r("visit.supply_airflow", 3000), *mixing_temperatures(0, 22, 15.4)], unit=unit
     )
     ev = result(out, "oa_fraction_temperature")
     assert ev["derived"]["required_outdoor_airflow_m3s"] == pytest.approx(required_m3s, abs=1e-3)
@@ -251,18 +239,7 @@ def test_ventilation_requirement_follows_the_units_configuration(api_client, uni
 @pytest.mark.django_db
 def test_too_little_outdoor_air_is_a_finding_with_proposed_corrective_work(api_client):
     """Mixed 20 °C between 0 °C outdoor and 22 °C return: x = 2/22 = 0.09 ± 0.03, below 0.25 → fail."""
-    wo, tech = make_visit(tasks=["ventilation_check"])
-    out = submit(
-        api_client,
-        wo,
-        tech,
-        [
-            r("visit.run_hours", 1200),
-            r("ventilation_check.outdoor_air", 0),
-            r("ventilation_check.return_air", 22),
-            r("ventilation_check.mixed_air", 20),
-        ],
-    )
+    out = submit_visit(api_client, "ventilation_check", [r("visit.run_hours", 1200), *mixing_temperatures(0, 22, 20)])
     ev = result(out, "oa_fraction_temperature")
     assert ev["verdict"] == "fail"
     assert ev["derived"]["oa_fraction"] == pytest.approx(0.091, abs=0.001)
@@ -279,11 +256,9 @@ def test_too_little_outdoor_air_is_a_finding_with_proposed_corrective_work(api_c
 def test_co2_method_reports_the_fraction_but_will_not_decide_within_its_uncertainty(api_client):
     """CO2 400/900/775 ppm: x = (900 − 775)/(900 − 400) = 0.25; with ±(50 ppm + 3 %) sensors (typical NDIR,
     from memory) the band is ±0.19, straddling the 0.25 minimum → watch, "cannot decide"."""
-    wo, tech = make_visit(tasks=["ventilation_check"])
-    out = submit(
+    out = submit_visit(
         api_client,
-        wo,
-        tech,
+        "ventilation_check",
         [
             r("visit.run_hours", 1200),
             r("ventilation_check.outdoor_co2", 400),
@@ -411,11 +386,9 @@ def test_co2_sensor_drift_against_the_reference_meter(api_client):
 @pytest.mark.django_db
 def test_supply_temperature_and_duct_static_against_their_set_points(api_client):
     """Supply 18.5 °C against 17 °C: 1.5 K → watch (1 K / 2 K); static 300 Pa against 250 Pa: 20 % → watch."""
-    wo, tech = make_visit(tasks=["controls_check"])
-    out = submit(
+    out = submit_visit(
         api_client,
-        wo,
-        tech,
+        "controls_check",
         [
             r("visit.run_hours", 1200),
             r("controls_check.supply_air", 18.5),
@@ -502,11 +475,9 @@ def test_failed_freeze_test_in_summer_waits_for_approval(api_client, django_capt
 @pytest.mark.django_db
 def test_freeze_trip_temperature_too_low_fails(api_client):
     """A frost thermostat tripping at 0 °C acts too late (ok 2–6 °C, watch 1–7 °C: common practice)."""
-    wo, tech = make_visit(tasks=["preheater_freeze"])
-    out = submit(
+    out = submit_visit(
         api_client,
-        wo,
-        tech,
+        "preheater_freeze",
         [
             r("visit.run_hours", 1200),
             r("preheater_freeze.freeze_trip_temp", 0, note="set too low"),
@@ -599,11 +570,12 @@ def test_heat_recovery_without_a_design_value_says_so(api_client):
 def test_full_outdoor_air_unit_judges_the_outdoor_air_it_delivers(api_client, airflow_l_s, verdict, words):
     """A 100 % outdoor-air unit's ventilation check judges its supply airflow (all outdoor air) against the
     ventilation requirement and the design airflow; without an airflow or fan speed it cannot judge."""
-    wo, tech = make_visit(tasks=["ventilation_check"], full_outdoor_air=True, design_supply_airflow_m3s=0.6)
     readings = [r("visit.run_hours", 1200), r("ventilation_check.outdoor_air", 5)]
     if airflow_l_s is not None:
         readings.append(r("visit.supply_airflow", airflow_l_s))
-    out = submit(api_client, wo, tech, readings)
+    out = submit_visit(
+        api_client, "ventilation_check", readings, unit={"full_outdoor_air": True, "design_supply_airflow_m3s": 0.6}
+    )
     ev = result(out, "full_oa_airflow")
     assert ev["verdict"] == verdict
     assert words in ev["reason"]
@@ -619,12 +591,11 @@ def test_full_outdoor_air_unit_designed_below_the_requirement_is_a_design_review
     memory; Ez = 1.0); the unit is designed for 450 L/s and delivers 460 L/s (±10 %, common practice):
     460 + 46 = 506 L/s stays below 510 → fail, but the unit meets its design, so the finding is a design
     review with no corrective work."""
-    wo, tech = make_visit(tasks=["ventilation_check"], full_outdoor_air=True, design_supply_airflow_m3s=0.45)
-    out = submit(
+    out = submit_visit(
         api_client,
-        wo,
-        tech,
+        "ventilation_check",
         [r("visit.run_hours", 1200), r("visit.supply_airflow", 460), r("ventilation_check.outdoor_air", 5)],
+        unit={"full_outdoor_air": True, "design_supply_airflow_m3s": 0.45},
     )
     ev = result(out, "full_oa_airflow")
     assert ev["verdict"] == "fail"
