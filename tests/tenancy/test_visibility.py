@@ -146,3 +146,15 @@ def test_open_work_grants_the_site_however_old_the_assignment():
         )
     with time_machine.travel(assigned + dt.timedelta(days=400), tick=False):
         assert list(sites_visible_to(user=tech)) == [site]
+
+
+def test_the_tenancy_rules_work_states_are_the_work_orders_own():
+    """sites_visible_to names work-order states by their stored values (the model lives above inventory);
+    they stay the work order's open states and its finished ones, so a new state cannot slip past the rule."""
+    from inventory import selectors
+
+    assert set(selectors._OPEN_WORK) == set(WorkOrder.OPEN_STATES)
+    assert set(selectors._DONE_WORK) == {WorkOrder.State.COMPLETED, WorkOrder.State.VERIFIED}
+    assert set(WorkOrder.State.values) == set(selectors._OPEN_WORK) | set(selectors._DONE_WORK) | {
+        WorkOrder.State.CANCELLED
+    }
