@@ -55,6 +55,17 @@ def test_a_repeat_drain_pan_failure_is_one_finding_seen_twice_with_one_work_orde
 
 
 @pytest.mark.django_db
+def test_a_failed_checklist_step_is_titled_by_its_test_and_step_and_the_part(api_client):
+    """Each failed step of a test without a scheduling condition reads "<test>: <step> — <part>", the names the
+    technician saw on the checklist (inspections/checklists.py, drain_pan)."""
+    _, _, _, found = _drain_pan_visit(api_client, drains="not_ok")
+    assert sorted(f.title for f in found) == [
+        "Condensate drain pan: Pan condition — Drain pan",
+        "Condensate drain pan: Water poured into the pan drains away freely — Drain pan",
+    ]
+
+
+@pytest.mark.django_db
 def test_a_different_item_on_the_same_part_gets_its_own_corrective_work(api_client):
     """Standing water and a blocked drain are two problems: two work orders, each reused on a repeat."""
     wo, tech, _, first = _drain_pan_visit(api_client, drains="not_ok")
