@@ -96,22 +96,25 @@ def problem_of(*, check: str, item: str) -> str:
     return f"{check}:{item}"[:120]
 
 
-def _step_label(item: str, cache: dict) -> tuple[str, str] | None:
-    """(test title, step label) of a checklist item's api key, from its latest template version."""
+def _step_labels(items: set[str]) -> dict[str, tuple[str, str]]:
+    """{api key: (test title, step label)} of checklist items, each from the latest template version that has it;
+    one query for all the steps of a form."""
     from ..models import ChecklistItem
 
-    if item not in cache:
-        code, _, key = item.partition(".")
-        cache[item] = (
-            ChecklistItem.objects.filter(template__code=code, key=key)
-            .order_by("-template__version")
-            .values_list("template__title", "label")
-            .first()
-        )
-    return cache[item]
+    if not items:
+        return {}
+    out: dict[str, tuple[str, str]] = {}
+    for code, key, title, label in (
+        ChecklistItem.objects.filter(template__code__in={i.partition(".")[0] for i in items})
+        .order_by("template__version")
+        .values_list("template__code", "key", "template__title", "label")
+    ):
+        if f"{code}.{key}" in items:
+            out[f"{code}.{key}"] = (title, label)  # a later version's wins
+    return out
 
 
-def _title(res, condition: str, cache: dict, *, design_review: bool = False) -> str:
+def _title(res, condition: str, labels: dict[str, tuple[str, str]], *, design_review: bool = False) -> str:
     """A plain title: the problem's name, or the test and its step; then the part it concerns. A design review
     names the design minimum below the requirement (the unit meets its design minimum)."""
     where = f" — {res.component.name}" if res.component is not None else ""
@@ -119,7 +122,7 @@ def _title(res, condition: str, cache: dict, *, design_review: bool = False) -> 
     if res.check in FILTER_CHECKS and (getattr(res, "derived", None) or {}).get("media_bypass_suspected") is True:
         words = FILTER_BYPASS_TITLE
     if words is None and res.check in STEP_CHECKS:
-        found = _step_label(res.item, cache)
+        found = labels.get(res.item)
         if found is not None:
             test, step = found
             words = f"{CONDITION_TITLES.get(condition, test)}: {step}"
@@ -319,11 +322,12 @@ def findings_open(
     site = inspection.ahu.building.site
     seen_at = opened_at or inspection.finished_at
     by_template = _template_conditions()
-    labels: dict = {}
+    pairs = list(zip(evaluations, results, strict=True))
+    labels = _step_labels({res.item for ev, res in pairs if ev.verdict == "fail" and res.check in STEP_CHECKS})
     found: dict[int, Finding] = {}
     needs_work: dict[str, dict] = {}
     replaced = banks_replaced(results=results)
-    for ev, res in zip(evaluations, results, strict=True):
+    for ev, res in pairs:
         if ev.verdict != "fail":
             continue
         if res.check == "filter_loading" and res.component is not None and res.component.pk in replaced:
