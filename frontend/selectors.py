@@ -16,7 +16,6 @@ from inspections.selectors import check_label, filter_series_for
 from inventory.models import Component, ComponentKind, Site
 from inventory.selectors import sites_visible_to
 from reports import compliance
-from reports.documents.inspection_report import derived_rows
 from scheduling.models import OutdoorTemperature, WorkOrder
 
 SEVERITIES = compliance.SEVERITIES
@@ -217,7 +216,7 @@ def result_for_display(*, result: dict | None, system: str, labels: dict | None 
             **e,
             "label": (labels or {}).get((e.get("item"), e.get("component"))) or _check_words(e),
             "verdict_words": display.verdict_words(e.get("verdict")),
-            "derived_display": derived_rows(e.get("derived") or {}, system, item=e.get("item") or ""),
+            "derived_display": display.derived_rows(e.get("derived") or {}, system, item=e.get("item") or ""),
         }
         for e in result.get("evaluation") or []
     ]

@@ -17,7 +17,14 @@ from django.http import Http404
 from inspections import checklists, display, reasons
 from inspections.display import VERDICT_WORDS
 from inspections.models import Amendment, Evaluation, Inspection, Photo, Reading
-from inspections.selectors import check_label, findings_seen_on, item_labels, reason_for, work_order_for
+from inspections.selectors import (
+    check_label,
+    findings_seen_on,
+    item_labels,
+    reason_for,
+    work_order_cautions,
+    work_order_for,
+)
 from reports.rendering import html_render, stored_file_data_uri
 from scheduling.models import WorkOrder, WorkOrderTask
 
@@ -42,11 +49,6 @@ def prepare(*, user, parameters: dict, requested_at) -> Prepared:
         site_ids=[wo.ahu.building.site_id],
         organisation_id=wo.organisation_id,
     )
-
-
-def derived_rows(derived: dict, system: str, *, item: str = "") -> list[tuple[str, str]]:
-    """(label, value in the reader's units) of each derived value a person reads (inspections.display)."""
-    return display.derived_rows(derived, system, item=item)
 
 
 def reading_value(reading: Reading, system: str) -> str:
@@ -147,7 +149,7 @@ def visit_records(
                         "verdict": VERDICTS.get(e.verdict, e.verdict),
                         "check": check_label(check=e.check_name, item=e.item_key, labels=labels),
                         "reason": reason_for(evaluation=e, unit_system=system),
-                        "derived": derived_rows(e.derived or {}, system, item=e.item_key),
+                        "derived": display.derived_rows(e.derived or {}, system, item=e.item_key),
                     }
                     for e in insp.evaluations.all()
                 ],
@@ -179,10 +181,8 @@ def build(*, report) -> Built:
         photo_src=lambda ph: stored_file_data_uri(ph.thumbnail or ph.image, max_px=360),
         signature_src=lambda insp: stored_file_data_uri(insp.signature_image, max_px=400),
     )
-    task_notes = []
-    for t in tasks:
-        if t.task.safety_notes and t.task.safety_notes not in task_notes:
-            task_notes.append(t.task.safety_notes)
+    # The safety box is the checklist's, each caution once, as the phone and the page show it.
+    cautions = work_order_cautions(work_order=wo)
     ahu = wo.ahu
     title = f"Inspection report — {ahu.tag}, {ahu.building.site.name}, {wo.title}"
     html = html_render(
@@ -195,7 +195,7 @@ def build(*, report) -> Built:
             "tasks": tasks,
             "visits": visits,
             "components": sorted(components.values(), key=lambda c: (c.position, c.pk)),
-            "task_notes": task_notes,
+            "cautions": cautions,
             "template_cautions": template_cautions,
             "system_label": "US customary (in. w.c., °F, cfm)" if system == "us" else "SI (Pa, °C, L/s)",
         },

@@ -112,7 +112,7 @@ def test_a_filter_past_its_final_value_is_due_now_on_the_phone_and_the_record_ne
     Worked by hand (linear trend, common practice): 40 Pa per 300 run-hours; 250 Pa is reached at about
     1,675 h, before the last reading at 1,900 h, i.e. about 22 days before the last visit.
     """
-    from reports.documents.inspection_report import derived_rows
+    from inspections.display import derived_rows
 
     first, tech = make_visit(tasks=["filter_check"])
     ahu = first.ahu
