@@ -76,6 +76,14 @@ def visit_problem(wo: WorkOrder, *, today: dt.date) -> str | None:
     )
 
 
+def visits_outside_window(*, today: dt.date) -> Q:
+    """Work orders planned or due outside the plan window: the rows ``visit_problem`` names (a filter)."""
+    earliest, latest = date_window(today=today)
+    return (
+        Q(scheduled_for__lt=earliest) | Q(scheduled_for__gt=latest) | Q(due_date__lt=earliest) | Q(due_date__gt=latest)
+    )
+
+
 def stored_problems(*, organisation, today: dt.date) -> list[str]:
     """What the jobs skip for this organisation, one line each: 'AHU-03 at Site X: service start 9999-12-31
     is outside 2000–2036'. Read by the board page; the same checks as the engine and the calendar feed."""
@@ -101,21 +109,10 @@ def stored_problems(*, organisation, today: dt.date) -> list[str]:
             lines.append(f"maintenance rule {problem}")
     visits = (
         WorkOrder.objects.filter(organisation=organisation, state__in=WorkOrder.OPEN_STATES)
-        .exclude(
-            (_in_window("scheduled_for", earliest, latest) | _null("scheduled_for"))
-            & _in_window("due_date", earliest, latest)
-        )
+        .filter(visits_outside_window(today=today))
         .select_related("ahu__building__site")
         .order_by("due_date", "id")
     )
     for wo in visits:
         lines.append(f"{wo.ahu.tag} at {wo.ahu.building.site.name}, {wo.title}: {visit_problem(wo, today=today)}")
     return lines
-
-
-def _in_window(name: str, earliest: dt.date, latest: dt.date) -> Q:
-    return Q(**{f"{name}__gte": earliest, f"{name}__lte": latest})
-
-
-def _null(name: str) -> Q:
-    return Q(**{f"{name}__isnull": True})

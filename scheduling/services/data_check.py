@@ -21,13 +21,13 @@ from django.db import connection, transaction
 from django.db.models import Q
 from django.utils import timezone
 
-from accounts.inputs import EARLIEST_DATE, date_problem, date_window, reading_time_problem
+from accounts.inputs import EARLIEST_DATE, date_problem, reading_time_problem
 from accounts.services import audit_record
 from inventory.inputs import AHU_DATES, AHU_NUMBERS, ahu_problems, component_date_problems
 from inventory.models import AHU, Component
 from inventory.specs import SpecErrors, validate_specs
 
-from ..inputs import task_problem, visit_problem
+from ..inputs import task_problem, visit_problem, visits_outside_window
 from ..models import MeterReading, TaskDefinition, WorkOrder
 from .meters import METER_HOURS_MAX
 
@@ -113,11 +113,11 @@ def _check_components(out: DataCheckResult, *, repair: bool, today: dt.date) -> 
 
 
 def _check_visits(out: DataCheckResult, *, repair: bool, today: dt.date) -> None:
-    earliest, latest = date_window(today=today)
-    outside = (
-        Q(scheduled_for__lt=earliest) | Q(scheduled_for__gt=latest) | Q(due_date__lt=earliest) | Q(due_date__gt=latest)
-    )
-    for wo in WorkOrder.objects.filter(outside).select_related("ahu__building__site", "organisation").order_by("pk"):
+    for wo in (
+        WorkOrder.objects.filter(visits_outside_window(today=today))
+        .select_related("ahu__building__site", "organisation")
+        .order_by("pk")
+    ):
         name = f"{_unit_name(wo.ahu)}, {wo.title}"
         out.problems.append(f"{name}: {visit_problem(wo, today=today)}")
         if repair and wo.state in WorkOrder.OPEN_STATES and date_problem(wo.scheduled_for, label="", today=today):
