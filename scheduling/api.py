@@ -96,6 +96,12 @@ def _visible(request, public_id) -> WorkOrder:
     return work_order_for(user=request.user, public_id=public_id)
 
 
+def _current(request, public_id) -> Response:
+    """The work order as it now stands, read again through the access function (a change moves its version,
+    state and tasks): the answer of every work-order route."""
+    return Response(s.WorkOrderOut(_visible(request, public_id)).data)
+
+
 def _managed(request, public_id, *, action: str) -> WorkOrder:
     """The work order if the person manages it: 404 when they cannot see it, 403 when they may only look."""
     try:
@@ -107,7 +113,7 @@ def _managed(request, public_id, *, action: str) -> WorkOrder:
 class WorkOrderDetail(APIView):
     @extend_schema(responses={200: s.WorkOrderOut, **ERRORS}, summary="One work order with its tasks")
     def get(self, request, public_id):
-        return Response(s.WorkOrderOut(_visible(request, public_id)).data)
+        return _current(request, public_id)
 
 
 class WorkOrderAssign(WorkOrderChangeView):
@@ -130,7 +136,7 @@ class WorkOrderAssign(WorkOrderChangeView):
             )
             if "scheduled_for" in data.validated_data:
                 work_order_schedule(work_order=wo, day=data.validated_data["scheduled_for"], by=request.user)
-        return Response(s.WorkOrderOut(_visible(request, public_id)).data)
+        return _current(request, public_id)
 
 
 class WorkOrderSchedule(WorkOrderChangeView):
@@ -153,7 +159,7 @@ class WorkOrderSchedule(WorkOrderChangeView):
             by=request.user,
             expected_version=data.validated_data["version"],
         )
-        return Response(s.WorkOrderOut(_visible(request, public_id)).data)
+        return _current(request, public_id)
 
 
 class WorkOrderTransition(WorkOrderChangeView):
@@ -181,7 +187,7 @@ class WorkOrderTransition(WorkOrderChangeView):
             expected_version=data.validated_data["version"],
             reason=data.validated_data["reason"],
         )
-        return Response(s.WorkOrderOut(_visible(request, public_id)).data)
+        return _current(request, public_id)
 
 
 class WorkOrderApprove(WorkOrderChangeView):
@@ -195,7 +201,7 @@ class WorkOrderApprove(WorkOrderChangeView):
         data = s.VersionIn(data=request.data)
         data.is_valid(raise_exception=True)
         corrective_work_order_approve(work_order=wo, by=request.user, expected_version=data.validated_data["version"])
-        return Response(s.WorkOrderOut(_visible(request, public_id)).data)
+        return _current(request, public_id)
 
 
 class WorkOrderReject(WorkOrderChangeView):
@@ -214,7 +220,7 @@ class WorkOrderReject(WorkOrderChangeView):
             reason=data.validated_data["reason"],
             expected_version=data.validated_data["version"],
         )
-        return Response(s.WorkOrderOut(_visible(request, public_id)).data)
+        return _current(request, public_id)
 
 
 def _revalidated(response: Response) -> Response:
