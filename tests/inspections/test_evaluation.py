@@ -53,7 +53,8 @@ def test_filter_loading_is_corrected_to_design_airflow(api_client):
     """160 Pa at 2.4 m³/s on a bank designed for 3.0 m³/s reads 223.6 Pa at design airflow.
 
     Δp_design = 160 × (3.0/2.4)^1.5 = 223.6 Pa (exponent 1.5 between Darcy flow n=1 and the square law
-    n=2: common practice); loading (223.6 − 90)/(250 − 90) = 84 % of the span → watch (from 75 %).
+    n=2: common practice); loading (223.6 − 90)/(250 − 90) = 84 % of the span → watch
+    (from 75 %, fail from 95 %: common practice).
     """
     wo, tech = make_visit(tasks=["filter_check"])
     bank = component(wo.ahu, "Final filters")
@@ -385,7 +386,8 @@ def test_co2_sensor_drift_against_the_reference_meter(api_client):
 
 @pytest.mark.django_db
 def test_supply_temperature_and_duct_static_against_their_set_points(api_client):
-    """Supply 18.5 °C against 17 °C: 1.5 K → watch (1 K / 2 K); static 300 Pa against 250 Pa: 20 % → watch."""
+    """Supply 18.5 °C against 17 °C: 1.5 K → watch (1 K / 2 K); static 300 Pa against 250 Pa: 20 % → watch
+    (10 % / 20 %); both bands common practice, no published source."""
     out = submit_visit(
         api_client,
         "controls_check",
