@@ -28,6 +28,7 @@ from __future__ import annotations
 import csv
 import datetime as dt
 import io
+import itertools
 import math
 import re
 from collections.abc import Callable, Iterable
@@ -399,10 +400,13 @@ def control_character_errors(text: str) -> list[RowError]:
     return found
 
 
-def data_rows(text: str) -> int:
-    """How many records (not lines) ``text`` holds below its header; what the import would check."""
+def data_rows(text: str, *, at_most: int | None = None) -> int:
+    """How many records (not lines) ``text`` holds below its header; what the import would check.
+
+    With ``at_most`` the count stops there (deciding whether a file is large reads no further)."""
+    records = (record for record in csv.reader(io.StringIO(text, newline="")) if record)
     try:
-        return max(sum(1 for record in csv.reader(io.StringIO(text, newline="")) if record) - 1, 0)
+        return max(sum(1 for _ in itertools.islice(records, None if at_most is None else at_most + 1)) - 1, 0)
     except csv.Error:
         return 0
 

@@ -142,3 +142,21 @@ def test_progress_is_saved_as_rows_are_checked(world, monkeypatch):
     job = import_jobs.import_job_run(job_id=job.pk)
     assert seen == [0, 2, 4, 5, 5]
     assert (job.status, job.rows_done, job.rows_total, job.created) == (ImportJob.Status.DONE, 5, 5, 5)
+
+
+@pytest.mark.parametrize(("rows", "background"), [(2, False), (3, True), (4, True)])
+def test_a_file_of_background_rows_or_more_goes_to_a_job_by_itself(monkeypatch, rows, background):
+    """Without ``background`` the file's record count decides: from ``BACKGROUND_ROWS`` records on, a job."""
+    monkeypatch.setattr(import_jobs, "BACKGROUND_ROWS", 3)
+    text = "code,name\n" + "".join(f's{i},"Site\n{i}"\n' for i in range(rows))  # records, not lines
+    assert import_jobs.import_runs_in_background(text=text) is background
+
+
+def test_counting_records_stops_where_asked():
+    """``data_rows`` counts records below the header; with ``at_most`` it reads no further than that."""
+    from inventory.csv_io import data_rows
+
+    text = "code,name\n" + "".join(f"s{i},Site {i}\n" for i in range(50))
+    assert data_rows(text) == 50
+    assert data_rows(text, at_most=10) == 10
+    assert data_rows(text, at_most=80) == 50
