@@ -8,7 +8,6 @@ import datetime as dt
 from django.contrib.auth.decorators import login_required
 from django.http import Http404
 from django.shortcuts import render
-from django.utils import timezone
 from django.views.decorators.http import require_GET
 
 from engineering.units import to_display, unit_label
@@ -78,7 +77,7 @@ def site_detail(request, pk: int):
                 "title": f"{comp.ahu.display_name} {comp.name}: pressure drop at design airflow",
                 "reason": reason_for(evaluation=ev, unit_system=system) if ev else "",
                 "svg": line_chart(
-                    title=f"{comp.ahu.tag} {comp.name} pressure drop at design airflow",
+                    title=f"{comp.ahu.display_name} {comp.name} pressure drop at design airflow",
                     unit=p_unit,
                     series=[],
                     segments=[[(d, p(v)) for d, v in life] for life in trend["lives"]],
@@ -90,9 +89,9 @@ def site_detail(request, pk: int):
                 "lives": trend["lives"],
             }
         )
-    temps = selectors.outdoor_temperatures(site=site)
+    # The site's own day throughout: its charts, its season and its temperatures.
+    temps = selectors.outdoor_temperatures(site=site, today=today)
     t = [(d, to_display(value=v, quantity="temperature", system=system)) for d, v in temps]
-    today = timezone.localdate()
     threshold = to_display(value=site.preheat_threshold_c, quantity="temperature", system=system)
     temp_chart = line_chart(
         title=f"{site.name}: daily minimum outdoor temperature",
@@ -114,7 +113,7 @@ def site_detail(request, pk: int):
             "site": site,
             "charts": charts,
             "temp_chart": temp_chart,
-            "season_started": bool(site.freeze_season_start and site.freeze_season_start <= timezone.localdate()),
+            "season_started": bool(site.freeze_season_start and site.freeze_season_start <= today),
             "f": figures,
             "share": percent(figures.total.on_time_share),
             "category_rows": [(c, percent(c.on_time_share)) for c in figures.categories],
