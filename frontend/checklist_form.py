@@ -13,10 +13,7 @@ import uuid
 
 from django.utils import timezone
 
-LOCAL_CODES_FIRST = (
-    "Local codes, the manufacturer's instructions and licensed practice come first; "
-    "where they differ from this checklist, follow them."
-)
+from inspections.checklists import cautions_once
 
 
 def field_name(prefix: str, key: str, component: str | None) -> str:
@@ -56,17 +53,10 @@ def form_sections(checklist: dict) -> list[dict]:
 
 
 def cautions_for(checklist: dict) -> list[str]:
-    """Every caution once, the local-codes-first line always last."""
-    seen: list[str] = []
-    for text in [
-        *checklist.get("cautions", []),
-        *(c for t in checklist.get("templates", []) for c in t.get("cautions", [])),
-    ]:
-        if text not in seen:
-            seen.append(text)
-    if not any("local code" in c.lower() for c in seen):
-        seen.append(LOCAL_CODES_FIRST)
-    return seen
+    """Every caution once, the local-codes-first line always last (inspections.checklists.cautions_once)."""
+    return cautions_once(
+        lists=[checklist.get("cautions", []), *(t.get("cautions", []) for t in checklist.get("templates", []))]
+    )
 
 
 def caution_blocks(cautions: list[str]) -> list[dict]:

@@ -37,7 +37,27 @@ RUNNING_FAN = (
     "controls) without warning: keep access doors shut while the fan can run, keep clear of belts, "
     "shafts and impellers, and lock out and tag out before reaching inside."
 )
+LOADED_FILTERS = (
+    "Wear eye and hand protection when handling loaded filters: bag used filters at the unit "
+    "so the dust they hold stays in."
+)
 GENERAL_CAUTIONS = [LOCKOUT, HOT_COILS, LOCAL_CODES]
+
+
+def cautions_once(*, lists: list[list[str]]) -> list[str]:
+    """Every caution of ``lists`` once, in first-seen order; the local-codes-first line last.
+
+    The one rule for a safety box: the phone's checklist, its page and the inspection PDF all
+    list cautions through it, so a caution repeated by several templates reads once.
+    """
+    seen: list[str] = []
+    for texts in lists:
+        for text in texts:
+            if text and text not in seen:
+                seen.append(text)
+    codes = [c for c in seen if "local code" in c.lower()] or [LOCAL_CODES]
+    return [c for c in seen if c not in codes] + codes[:1]
+
 
 # Ranges that no reading in an AHU can leave (SI). Air from −60 to 120 °C
 # covers any climate and a heater outlet; fluids −40 to 200 °C cover brine to
@@ -250,9 +270,9 @@ TEMPLATES: list[dict[str, Any]] = [
     },
     {
         "code": "filter_replace",
-        "version": 1,
+        "version": 2,
         "title": "Filter replacement",
-        "cautions": [LOCKOUT, LOCAL_CODES],
+        "cautions": [LOCKOUT, LOADED_FILTERS, LOCAL_CODES],
         "items": [
             check(
                 "replaced",

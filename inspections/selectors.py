@@ -282,6 +282,19 @@ def checklist_build(*, work_order: WorkOrder) -> Checklist:
     return Checklist(work_order=work_order, templates=used, slots=slots)
 
 
+def checklist_cautions(*, checklist: Checklist) -> list[str]:
+    """The safety box of a work order's checklist: each template's cautions and the general ones, each once.
+
+    The phone, the checklist page and the inspection PDF show this list (checklists.cautions_once).
+    """
+    return checklists.cautions_once(lists=[*(t.cautions for t in checklist.templates), checklists.GENERAL_CAUTIONS])
+
+
+def work_order_cautions(*, work_order: WorkOrder) -> list[str]:
+    """The cautions of ``work_order``'s checklist (checklist_cautions of checklist_build)."""
+    return checklist_cautions(checklist=checklist_build(work_order=work_order))
+
+
 def _band(limits: dict, name: str, quantity: str, system: str | None) -> dict:
     lo, hi = limits.get(f"{name}_min"), limits.get(f"{name}_max")
     if system is not None:
@@ -336,12 +349,7 @@ def checklist_for(*, work_order: WorkOrder, user: User) -> dict:
                 for scale in ("si", "display")
             }
         by_template.setdefault(slot.template.pk, []).append(entry)
-    cautions: list[str] = []
-    for t in checklist.templates:
-        cautions.extend(c for c in t.cautions if c not in cautions)
-    for c in checklists.GENERAL_CAUTIONS:
-        if c not in cautions:
-            cautions.append(c)
+    cautions = checklist_cautions(checklist=checklist)
     assignee = work_order.assignee
     return {
         "work_order": {

@@ -26,3 +26,9 @@ def site_time_text(when: dt.datetime | None, site) -> str:
     if not when:
         return ""
     return local_time_text(when, zone=getattr(site, "time_zone", site))
+
+
+def usual_zone(zones: list[str]) -> str:
+    """The zone most of ``zones`` use (the first of them on a tie; "UTC" for none): one clock for many sites."""
+    named = [z for z in zones if z]
+    return max(named, key=named.count) if named else "UTC"

@@ -16,17 +16,11 @@ from datetime import UTC, datetime
 from django.conf import settings
 from django.template.loader import render_to_string
 
+from inventory.display import site_time_text
+
 # PDF/A-3b: archival, and unlike 1b allows transparency (the charts use it).
 PDFA_VARIANT = "pdf/a-3b"
 
-SAFETY_CAUTIONS = (
-    "Lock out and tag out the unit's electrical supply before opening any access door: supply and return "
-    "fans can start automatically and keep turning after the power is cut, and electric heaters carry "
-    "mains voltage and stay hot.",
-    "Hot water and steam coils, their valves and pipework can burn: isolate and let them cool before "
-    "touching; steam must be isolated and vented by someone competent to do it.",
-    "Wear eye and hand protection when handling loaded filters and cleaning coils and drain pans.",
-)
 PRECEDENCE_NOTE = (
     "Local codes and regulations, the manufacturer's instructions and licensed practice take precedence "
     "over anything in this document."
@@ -55,8 +49,9 @@ def css_string(text: str) -> str:
     return '"' + "".join(out) + '"'
 
 
-def generated_label(at: datetime) -> str:
-    return at.astimezone(UTC).strftime("%Y-%m-%d %H:%M UTC")
+def generated_label(at: datetime, *, zone: str) -> str:
+    """The moment a document was asked for, on the clock of ``zone`` with the zone named (inventory.display)."""
+    return site_time_text(at, zone)
 
 
 def w3c_datetime(at: datetime) -> str:
@@ -101,16 +96,20 @@ def stored_file_data_uri(field, *, max_px: int = 480) -> str | None:
     return image_thumbnail_data_uri(data, max_px=max_px)
 
 
-def html_render(*, template: str, context: dict, title: str, generated_at: datetime, subject: str = "") -> str:
-    """The document's HTML: its template inside the shared page frame (fonts, footer, page counter)."""
+def html_render(
+    *, template: str, context: dict, title: str, generated_at: datetime, zone: str, subject: str = ""
+) -> str:
+    """The document's HTML: its template inside the shared page frame (fonts, footer, page counter).
+
+    ``zone`` is the IANA zone whose clock the footer and "as of" lines read (the site's).
+    """
     full = {
         **context,
         "doc_title": title,
         "doc_subject": subject,
-        "generated_label": generated_label(generated_at),
+        "generated_label": generated_label(generated_at, zone=zone),
         "generated_w3c": w3c_datetime(generated_at),
-        "footer_css": css_string(f"{title} — generated {generated_label(generated_at)}"),
-        "safety_cautions": SAFETY_CAUTIONS,
+        "footer_css": css_string(f"{title} — generated {generated_label(generated_at, zone=zone)}"),
         "precedence_note": PRECEDENCE_NOTE,
     }
     return render_to_string(template, full)

@@ -21,21 +21,14 @@ def report_visible(*, user: User, report: Report) -> bool:
     return covered <= visible
 
 
-def report_get(*, user: User, public_id) -> Report | None:
-    """The report with that public id if ``user`` may see all of it, else None (same answer as absent)."""
-    report = Report.objects.filter(public_id=public_id).select_related("requested_by").first()
-    if report is None or not report_visible(user=user, report=report):
-        return None
-    return report
-
-
 def report_for(*, user: User, public_id) -> Report:
-    """THE access function of a report: ``Http404`` unless the person may see every site it covers."""
+    """THE access function of a report: ``Http404`` unless the person may see every site it covers (an
+    unknown or malformed id gets the same answer)."""
     try:
-        report = report_get(user=user, public_id=public_id)
+        report = Report.objects.filter(public_id=public_id).select_related("requested_by").first()
     except (ValueError, ValidationError):
         report = None
-    if report is None:
+    if report is None or not report_visible(user=user, report=report):
         raise Http404("No such report among those you may see.")
     return report
 

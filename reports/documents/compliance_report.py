@@ -13,6 +13,7 @@ from datetime import datetime, timedelta
 from django.core.exceptions import ValidationError
 
 from accounts.models import Organisation
+from inventory.display import usual_zone
 from inventory.selectors import sites_visible_to
 from reports import charts
 from reports.compliance import FREEZE_LABELS, compliance_figures
@@ -91,6 +92,7 @@ def build(*, report) -> Built:
         },
         title=title,
         generated_at=report.created_at,
+        zone=usual_zone([s.time_zone for s in figures.sites]),
         subject=f"Preventive maintenance compliance of {scope}",
     )
     return Built(html=html, title=title)

@@ -201,6 +201,7 @@ def build(*, report) -> Built:
         },
         title=title,
         generated_at=report.created_at,
+        zone=ahu.building.site.time_zone,
         subject=f"Record of work order {wo.public_id}",
     )
     return Built(html=html, title=title)

@@ -25,6 +25,7 @@ from django.urls import NoReverseMatch
 
 from inventory import selectors as inv
 from inventory import services as inv_services
+from inventory.display import usual_zone
 from inventory.models import AHU, Component
 from reports.rendering import html_render, svg_data_uri
 
@@ -128,6 +129,7 @@ def label_items(*, unit_ids: list[int], component_ids: list[int]) -> list[dict]:
                 "title": ahu.tag,
                 "line2": ahu.area_served or ahu.location,
                 "line3": f"{ahu.building.site.name} · {ahu.building.name}",
+                "zone": ahu.building.site.time_zone,
             }
         )
     comps = (
@@ -142,6 +144,7 @@ def label_items(*, unit_ids: list[int], component_ids: list[int]) -> list[dict]:
                 "title": comp.name,
                 "line2": f"{comp.get_kind_display()} · {comp.ahu.tag}",
                 "line3": comp.ahu.building.site.name,
+                "zone": comp.ahu.building.site.time_zone,
             }
         )
     return items
@@ -189,6 +192,7 @@ def build(*, report) -> Built:
         },
         title=title,
         generated_at=report.created_at,
+        zone=usual_zone([item["zone"] for item in items]),
         subject=f"{len(items)} labels",
     )
     return Built(html=html, title=title, extra={"expected_pages": max(1, math.ceil(len(items) / layout.per_page))})

@@ -137,6 +137,7 @@ def build(*, report) -> Built:
         },
         title=title,
         generated_at=report.created_at,
+        zone=ahu.building.site.time_zone,
         subject=f"History of {ahu.tag}",
     )
     return Built(html=html, title=title)

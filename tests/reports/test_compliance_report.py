@@ -143,7 +143,9 @@ def test_compliance_pdf_shows_figures(estate, supervisor, make_report, time_mach
     assert dp_text in text and "86 %" in text and "2025-05-02" in text
     assert "Ready" in text and "Due" in text
     assert "Local codes" in text
-    assert "generated 2025-05-10 09:00 UTC" in text
+    # 09:00 UTC is 11:00 in Amsterdam in May (UTC+2, CEST; IANA tz database): the site's clock, zone named
+    assert "generated 10 May 2025 11:00 CEST" in text
+    assert "Figures as of 10 May 2025 11:00 CEST" in " ".join(text.split())
     pages = pdf_pages(report)
     assert pages >= 2 and f"Page {pages} of {pages}" in text
     rasterise(report, f"compliance-{system}")

@@ -121,11 +121,11 @@ def test_report_shows_readings_in_readers_units(visit, org, make_report, system,
         "change forecast: 20 May 2025",
     ]:
         assert piece in text, piece
-    # safety: lockout/tagout, hot coils, and the precedence line
-    assert "Lock out and tag out" in text and "fans" in text
-    assert "Hot water and steam coils" in text
+    # safety: the checklist's cautions (lockout/tagout, hot coils) and the precedence line
     flat = " ".join(text.split())
-    assert "Local codes and regulations, the manufacturer's instructions and licensed practice take precedence" in flat
+    assert "Lock out and tag out the fan motor" in flat and "fans coast" in flat
+    assert "Heating coils, their valves and pipework can be hot enough to burn" in flat
+    assert "Local codes, the manufacturer's instructions and licensed practice take precedence" in flat
     pages = pdf_pages(report)
     assert f"Page 1 of {pages}" in text and f"Page {pages} of {pages}" in text
     assert "generated" in text
@@ -139,7 +139,8 @@ def test_same_inputs_same_text(visit, supervisor, make_report):
         one = make_report(user=supervisor, kind="inspection", parameters={"work_order": str(visit.public_id)})
         two = make_report(user=supervisor, kind="inspection", parameters={"work_order": str(visit.public_id)})
     assert pdf_text(one) == pdf_text(two)
-    assert "generated 2025-03-15 08:00 UTC" in pdf_text(one)
+    # 08:00 UTC is 09:00 in Amsterdam in March (UTC+1, IANA tz database), the site's clock, zone named
+    assert "generated 15 Mar 2025 09:00 CET" in pdf_text(one)
 
 
 def test_pdfa_inspection(visit, supervisor, make_report):
@@ -187,3 +188,33 @@ def test_a_closed_finding_says_when_and_why(visit, supervisor, make_report):
     rasterise(report, "inspection-closed-finding")
     text = " ".join(pdf_text(report).split())
     assert "Closed" in text and "2025-03-14: corrective work completed" in text
+
+
+def test_each_caution_once_in_the_safety_box(visit, supervisor, make_report):
+    """Filter check and a filter change on one visit: the PDF says each caution once, as the checklist page does.
+
+    Lockout, the loaded-filter caution (from the filter-replacement checklist) and the local-codes line each
+    appear exactly once in the whole document, in the checklist's own words.
+    """
+    from inspections import checklists
+    from inspections.selectors import work_order_cautions
+    from scheduling.models import WorkOrderTask
+
+    WorkOrderTask.objects.create(
+        work_order=visit,
+        task=b.library()["filter_replace"],
+        task_code="filter_replace",
+        ahu=visit.ahu,
+        component_key=0,
+        due_date=visit.due_date,
+        occurrence_key="2025-03-10-change",
+    )
+    cautions = work_order_cautions(work_order=visit)
+    assert checklists.LOADED_FILTERS in cautions
+    report = make_report(user=supervisor, kind="inspection", parameters={"work_order": str(visit.public_id)})
+    flat = " ".join(pdf_text(report).split())
+    for caution in cautions:
+        assert flat.count(caution) == 1, caution
+    assert flat.count("take precedence") == 1
+    assert flat.count("Lock out and tag out") == 1
+    assert flat.count("eye and hand protection") == 1

@@ -25,7 +25,7 @@ from scheduling.models import WorkOrder
 from tests.factories.accounts import make_person
 from tests.factories.inventory import BuildingFactory, make_full_unit
 from tests.inspections.test_display import leaks
-from tests.inspections.test_phone_agreement import FINISHED, FOCUS, _python_value, make_case
+from tests.inspections.test_phone_agreement import FOCUS, evaluate_case, make_case
 
 from . import builders as b
 from .conftest import pdf_text
@@ -35,22 +35,10 @@ pytestmark = pytest.mark.django_db
 JUDGED = [c for c in evaluation.CHECKS if c not in ("check", "choice", "limits")]
 
 
-def _results(case) -> list[evaluation.Result]:
-    form = evaluation.Form(
-        ahu=case["ahu"],
-        components=case["components"],
-        values={k: _python_value(v) for k, v in case["values"].items()},
-        slots=case["slots"],
-        finished_at=FINISHED,
-        filter_points=lambda c: case["points"].get(c.label_code, []),
-    )
-    return evaluation.evaluate(form)
-
-
 def chosen_results() -> list[evaluation.Result]:
     """For each check the failed result with the most derived values, and the edge cases a reader must see."""
     rng = random.Random(20261202)
-    pool = [r for focus in FOCUS for _ in range(40) for r in _results(make_case(rng, focus))]
+    pool = [r for focus in FOCUS for _ in range(40) for r in evaluate_case(make_case(rng, focus))]
     wanted = {
         "bypass": lambda r: (
             r.check == "filter_loading" and r.derived.get("media_bypass_suspected") and r.verdict == "fail"
