@@ -34,6 +34,7 @@ SHELL_STATIC = (
     "frontend/js/checklist.js",
     "frontend/js/limits.js",
     "frontend/js/meter.js",
+    "frontend/js/formcheck.js",
     "frontend/js/drafts.js",
     "frontend/js/evaluate.js",
     "frontend/js/units.js",

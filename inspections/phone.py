@@ -25,7 +25,7 @@ from engineering.airside import fluid_properties
 from engineering.errors import EngineeringInputError
 from engineering.filters import FilterPoint
 from engineering.psychro import pressure_from_altitude
-from inspections import checklists, evaluation, reasons
+from inspections import checklists, evaluation, flags, reasons
 
 CONTEXT_VERSION = 1
 # Quantities of readings and reasons; plain ones (percent, current, time) have no conversion.
@@ -239,4 +239,27 @@ def checklist_context(*, checklist, as_of: dt.datetime) -> dict[str, Any]:
             filter_points=lambda bank: series[bank.pk].current.forecast_points(),
         ),
         "meter": meter_context(ahu=ahu, as_of=as_of),
+        **form_flags_context(slots=checklist.slots),
+    }
+
+
+def form_flags_context(*, slots: list) -> dict[str, Any]:
+    """What the phone checks on "Finish and sign" with the server's own rules and words (``inspections.flags``):
+    each slot's required / note / photo flags and its names as the flags word them."""
+    return {
+        "form_flags": dict(flags.FORM_FLAGS),
+        "form_flags_named": flags.INCOMPLETE_NAMED,
+        "form_slots": [
+            {
+                "item": s.item.api_key,
+                "component": s.component.label_code if s.component is not None else None,
+                "kind": s.item.kind,
+                "required": bool(s.item.required),
+                "note_required_when_not_ok": bool(s.item.note_required_when_not_ok),
+                "photo_required_when_not_ok": bool(s.item.photo_required_when_not_ok),
+                "label": flags.slot_label(s),
+                "place": flags.slot_place(s),
+            }
+            for s in slots
+        ],
     }

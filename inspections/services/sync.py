@@ -27,6 +27,7 @@ from engineering.filters import FilterPoint
 from scheduling.models import WorkOrder
 
 from .. import check, checklists, evaluation, selectors
+from .. import flags as form_flags
 from ..check import Errors
 from ..display import plain_message
 from ..models import Inspection, Photo, Reading
@@ -424,21 +425,17 @@ def _flags(parsed: Parsed, user, wo: WorkOrder, results) -> list[dict]:
         if s.item.required and s.key not in (photographed if s.item.kind == "photo" else answered)
     ]
     if missing:
-        names = [
-            f"{s.template.title} › {s.item.label}" + (f" ({s.component.name})" if s.component else "") for s in missing
-        ]
-        more = f" and {len(names) - 10} more" if len(names) > 10 else ""
-        flags.append({"code": "incomplete", "reason": "required items not answered: " + "; ".join(names[:10]) + more})
+        flags.append(form_flags.flag_incomplete([form_flags.slot_place(s) for s in missing]))
     slots = {s.key: s for s in parsed.checklist.slots}
     for r in parsed.readings:
         key = (r.item.api_key, r.component.pk if r.component else None)
         if not _not_ok(r):
             continue
-        label = r.item.label + (f" ({r.component.name})" if r.component else "")
+        label = form_flags.slot_label(slots[key])
         if slots[key].item.photo_required_when_not_ok and key not in photographed:
-            flags.append({"code": "missing_photo", "reason": f"{label} is not ok but has no photo"})
+            flags.append(form_flags.flag_for("missing_photo", label=label))
         if slots[key].item.note_required_when_not_ok and not r.note.strip():
-            flags.append({"code": "missing_note", "reason": f"{label} is not ok but has no note"})
+            flags.append(form_flags.flag_for("missing_note", label=label))
     return flags
 
 

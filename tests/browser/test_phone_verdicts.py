@@ -61,6 +61,13 @@ def test_reduced_airflow_filter_reading_fails_on_the_phone_offline_and_on_the_se
     block.locator("input[name^='n:']").fill("Bank loaded at reduced airflow; change booked")
     draw_signature(page)
     page.get_by_role("button", name="Finish and sign").click()
+    # Only two readings were taken: the phone says, before the form leaves, that the server will flag it as
+    # incomplete (its words), and no longer that the failed reading lacks a note.
+    problems = page.locator("[data-finish-problems]")
+    expect(problems).to_contain_text("required items not answered")
+    expect(problems).not_to_contain_text("has no note")
+    expect(page.locator("[data-outbox-count]")).to_have_text("0")
+    problems.get_by_role("button", name="Finish anyway").click()
     expect(page.locator("[data-outbox-count]")).to_have_text("1")
     assert not Inspection.objects.filter(work_order=world.work_a).exists()
 

@@ -57,6 +57,7 @@ const units = JSON.parse(process.argv[2]);
 console.log(JSON.stringify({
   impossible: plausibility(-1, { physical: { min: 0, max: 99999.99999999999 }, plausible: null }, "L/s").text,
   big: describe({ min: 0, max: 211888.00000000003 }, "cfm"),
+  converted: plausibility(30, { physical: { min: 0, max: 20.073216 }, plausible: null }, "in. w.c.", 2).text,
   negative: describe({ min: -7, max: -3 }, "°C"),
   band: renderPart({ units, decimals: { temperature: [1, 1] } }, { low: -7, high: -3, quantity: "temperature" }, "si"),
 }));
@@ -64,8 +65,10 @@ console.log(JSON.stringify({
 
 
 def test_the_phone_says_limits_plainly(tmp_path):
-    """limits.js: "not possible; allowed 0 to 100,000 L/s" after an "impossible" badge (no "impossible
-    impossible value", no 99999.99999999999); true minus signs; units.js gives "−7.0 to −3.0 °C" as the server."""
+    """limits.js: "allowed 0 to 100,000 L/s" after an "impossible" badge (no "impossible not possible", no
+    99999.99999999999); a converted limit at the quantity's display precision (5,000 Pa = 20.07 in. w.c., not
+    20.0732; 1 in. w.c. = 249.08891 Pa, NIST SP 811 B.8); true minus signs; units.js gives "−7.0 to −3.0 °C"
+    as the server."""
     from inspections.phone import unit_table
 
     for module in JS.glob("*.js"):
@@ -82,7 +85,8 @@ def test_the_phone_says_limits_plainly(tmp_path):
     )
     assert proc.returncode == 0, proc.stderr
     out = json.loads(proc.stdout)
-    assert out["impossible"] == "not possible; allowed 0 to 100,000 L/s"
+    assert out["impossible"] == "allowed 0 to 100,000 L/s"
+    assert out["converted"] == "allowed 0 to 20.07 in. w.c."
     assert out["big"] == "0 to 211,888 cfm"
     assert out["negative"] == "−7 to −3 °C"
     assert out["band"] == "−7.0 to −3.0 °C" == render([span(-7.0, -3.0, "temperature")], "si")
@@ -92,4 +96,4 @@ def test_the_phone_badge_is_not_repeated_in_its_text():
     """checklist.js: the "recorded" badge is followed by what it means, not by "recorded" again."""
     source = (JS / "checklist.js").read_text()
     assert '" recorded; nothing judges' not in source
-    assert '"recorded"), " nothing judges this reading on its own"' in source
+    assert '" nothing judges this reading on its own"' in source

@@ -2,8 +2,9 @@
 // twin of the server's evaluation), photos, signature, and the finished form into the outbox.
 import { debounce, loadDraft, saveDraft } from "./drafts.js";
 import { evaluate, readingKey, reasonIn } from "./evaluate.js";
+import { formFlags } from "./formcheck.js";
 import { plausibility } from "./limits.js";
-import { meterReadingCheck } from "./meter.js";
+import { meterPlausibleText, meterReadingCheck } from "./meter.js";
 import { newUuid, outboxPut } from "./outbox.js";
 import { attachSignature } from "./signature.js";
 import { announce, currentOwner, myOutbox, myResults, syncOutbox } from "./sync.js";
@@ -58,10 +59,15 @@ function readingsOf(form, ctx) {
     const key = readingKey(block.dataset.item, block.dataset.component);
     const value = answer(block);
     let range = { impossible: false, improbable: false, text: "" };
-    if (typeof value === "number") {
-      const input = block.querySelector("input[type=number]");
-      range = plausibility(value, JSON.parse(input.dataset.limits || "null"), input.dataset.unit || "");
-      const slot = slots.get(key);
+    const input = block.querySelector("input[type=number]");
+    const slot = slots.get(key);
+    const decimals = slot && ctx.decimals && ctx.decimals[slot.quantity] ? ctx.decimals[slot.quantity][system === "us" ? 1 : 0] : null;
+    const limits = input ? JSON.parse(input.dataset.limits || "null") : null;
+    if (value === null && input && input.validity && input.validity.badInput) {
+      // The browser keeps no value for what it cannot read as a number (1e400, "12..5"): say so, never go quiet.
+      range = { impossible: true, improbable: false, unusable: true, text: plausibility(Infinity, limits, input.dataset.unit || "", decimals).allowed };
+    } else if (typeof value === "number") {
+      range = plausibility(value, limits, input.dataset.unit || "", decimals);
       // Entered in the person's units; judged in SI, converted exactly as the server converts.
       if (!range.impossible) readings[key] = slot ? fromDisplay(ctx.units, value, slot.quantity, system) : value;
     } else if (value !== null) readings[key] = value;
@@ -91,6 +97,7 @@ function meterVerdict(ctx, hours) {
 
 function showVerdicts(form, ctx) {
   const { readings, blocks, system } = readingsOf(form, ctx);
+  const found = { blocks, byKey: new Map(), meterCheck: null };
   const meterCheck = ctx ? meterVerdict(ctx, readings[RUN_HOURS_KEY]) : null;
   // A run-hour value the server refuses never reaches a filter forecast: judged without it, as the server
   // stores no form with it.
@@ -111,6 +118,10 @@ function showVerdicts(form, ctx) {
     const out = verdictBox(block);
     if (!out) continue;
     out.replaceChildren();
+    if (range.unusable) {
+      out.append(badge("fail", "not a number"), ` not a usable number${range.text ? `; ${range.text}` : ""}`);
+      continue;
+    }
     if (value === null || value === "na") continue;
     if (range.impossible) {
       out.append(badge("fail", "impossible"), ` ${range.text}`);
@@ -129,9 +140,100 @@ function showVerdicts(form, ctx) {
       if (meter.verdict === "fail") out.append(" — the server will refuse this form with this value unless the meter was replaced");
       mine.push(meter);
     }
-    if (!mine.length) out.append(badge("recorded", "recorded"), " nothing judges this reading on its own"); // the badge says "recorded"
+    const checked = key === RUN_HOURS_KEY && !meter && ctx ? meterPlausibleText(ctx.meter, value, new Date()) : "";
+    if (!mine.length) out.append(badge("recorded", "recorded"), checked ? ` ${checked}` : " nothing judges this reading on its own");
     if (range.improbable) out.append(`; ${range.text}`);
     out.dataset.phoneVerdict = mine.length ? mine.map((r) => r.verdict).join(" ") : "recorded";
+  }
+  found.byKey = byKey;
+  found.meterCheck = meterCheck;
+  return found;
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// "Finish and sign" first checks what the server would refuse (an impossible value, a number it cannot read, a
+// run-hour value the meter cannot have reached) and the flags it would raise from the form alone (formcheck.js,
+// with the server's rules and words from the checklist document). Refusals stop the form; flags may be
+// accepted with "Finish anyway".
+
+function fieldOf(block, what) {
+  if (what === "note" || what === "photo") {
+    const details = block.querySelector("details");
+    if (details) details.open = true;
+    return block.querySelector(what === "note" ? "input[name^='n:']" : "input[type=file]");
+  }
+  return block.querySelector("input[type=number], textarea, input[type=radio], input[type=file]");
+}
+
+function finishProblems(form, ctx) {
+  const judged = showVerdicts(form, ctx);
+  const refusals = [];
+  const answers = new Map();
+  for (const { block, key, value, range } of judged.blocks) {
+    const label = labelOf(block.dataset.item, block.dataset.component || null);
+    if (range.unusable) refusals.push({ key, text: `${label}: not a usable number; ${range.text}` });
+    else if (range.impossible) refusals.push({ key, text: `${label}: ${value} ${block.querySelector("input[type=number]").dataset.unit || ""} is not possible; ${range.text}` });
+    if (key === RUN_HOURS_KEY && judged.meterCheck && judged.meterCheck.verdict === "fail") refusals.push({ key, text: judged.meterCheck.message });
+  }
+  for (const block of form.querySelectorAll("[data-item]")) {
+    const key = readingKey(block.dataset.item, block.dataset.component);
+    const kind = block.dataset.kind;
+    const files = block.querySelector("input[type=file]");
+    const note = block.querySelector("input[name^='n:']");
+    let answered;
+    if (kind === "text") answered = block.querySelector("textarea").value.trim() !== "";
+    else if (kind === "photo") answered = false;
+    else answered = answer(block) !== null;
+    const first = (judged.byKey.get(key) || [])[0];
+    answers.set(key, {
+      answered, verdict: first ? first.verdict : null, note: note ? note.value : "", photographed: Boolean(files && files.files.length),
+    });
+  }
+  const flags = formFlags(ctx, answers).map((f) => ({ ...f, what: f.code === "missing_note" ? "note" : f.code === "missing_photo" ? "photo" : "" }));
+  return { refusals, flags };
+}
+
+function problemLink(form, key, text, what = "") {
+  const [item, component] = key.split("|");
+  const block = blockOf(form, item, component || null);
+  const a = el("a", { href: "#", "data-problem": key }, text);
+  a.addEventListener("click", (event) => {
+    event.preventDefault();
+    const field = block && fieldOf(block, what);
+    if (!field) return;
+    field.scrollIntoView({ block: "center" });
+    field.focus();
+  });
+  return a;
+}
+
+function showProblems(form, box, { refusals, flags }) {
+  box.replaceChildren();
+  box.hidden = !refusals.length && !flags.length;
+  if (box.hidden) return;
+  if (refusals.length) {
+    box.append(el("p", {}, el("strong", {}, "The server will refuse this form. Correct these first:")),
+      el("ul", { "data-refusals": "" }, ...refusals.map((r) => el("li", {}, problemLink(form, r.key, r.text)))));
+  }
+  if (flags.length) {
+    box.append(el("p", {}, el("strong", {}, "The server will flag this form for the supervisor:")));
+    const list = el("ul", { "data-flags": "" });
+    for (const f of flags) {
+      const li = el("li", {});
+      if (f.keys) {
+        li.append(f.lead);
+        f.keys.forEach((k, i) => li.append(i ? "; " : "", problemLink(form, k.key, k.label)));
+        li.append(f.more || "");
+      } else if (f.key) li.append(problemLink(form, f.key, f.text, f.what));
+      else li.append(f.text);
+      list.append(li);
+    }
+    box.append(list);
+    if (!refusals.length) {
+      const anyway = el("button", { type: "button", class: "btn secondary", "data-finish-anyway": "" }, "Finish anyway");
+      anyway.addEventListener("click", () => { form.dataset.acceptFlags = "1"; form.requestSubmit(); });
+      box.append(el("p", { class: "hint" }, "Answer them above, or finish anyway and say why in a note; the supervisor sees each flag."), anyway);
+    }
   }
 }
 
@@ -407,7 +509,16 @@ export function startChecklist() {
   form.dataset.clientUuid = newUuid();
   const error = form.querySelector("[data-form-error]");
   const ctx = evaluationContext();
-  const judgeAll = () => showVerdicts(form, ctx);
+  const problemsBox = el("div", { class: "card", "data-finish-problems": "", role: "alert", hidden: "" });
+  form.querySelector("button[type=submit]").before(problemsBox);
+  const judgeAll = (event) => {
+    // A changed field no longer carries the server's refusal of its old value.
+    const changed = event && event.target && event.target.closest ? event.target.closest("[data-item]") : null;
+    if (changed) for (const old of changed.querySelectorAll("[data-field-error]")) old.remove();
+    showVerdicts(form, ctx);
+    // The list above the button follows what is typed once it is shown.
+    if (!problemsBox.hidden) showProblems(form, problemsBox, finishProblems(form, ctx));
+  };
   form.addEventListener("input", judgeAll);
   form.addEventListener("change", judgeAll);
   judgeAll();
@@ -439,6 +550,15 @@ export function startChecklist() {
   form.addEventListener("submit", async (event) => {
     event.preventDefault();
     error.hidden = true;
+    const acceptFlags = form.dataset.acceptFlags === "1";
+    delete form.dataset.acceptFlags;
+    const problems = finishProblems(form, ctx);
+    if (acceptFlags) problems.flags = [];
+    showProblems(form, problemsBox, problems);
+    if (problems.refusals.length || problems.flags.length) {
+      problemsBox.scrollIntoView({ block: "nearest" });
+      return;
+    }
     if (!form.elements.signature_name.value.trim() || pad.isEmpty()) {
       error.textContent = "Type your name and sign in the box before finishing.";
       error.hidden = false;

@@ -12,30 +12,34 @@ export function within(band, value) {
   return lowOk && highOk;
 }
 
-// A limit as a person reads it: at most 6 significant digits (a converted 100 000 L/s is not 99999.99999999999),
-// thousands grouped from 10 000 and a true minus sign, as the reasons show numbers (inspections/reasons.py).
-export function nice(x) {
-  const n = Number(Number(x).toPrecision(6));
+// A limit as a person reads it: at the quantity's display precision when known (a converted 5,000 Pa is
+// "20.07 in. w.c.", not 20.0732), else at most 6 significant digits; thousands grouped from 10 000 and a true
+// minus sign, as the reasons show numbers (inspections/reasons.py).
+export function nice(x, decimals = null) {
+  const n = decimals === null || decimals === undefined ? Number(Number(x).toPrecision(6)) : Number(Number(x).toFixed(decimals));
   const text = Math.abs(n) >= 10000 ? n.toLocaleString("en-US", { maximumFractionDigits: 6 }) : String(n);
   return text.replace("-", "−");
 }
 
-export function describe(band, unit) {
+export function describe(band, unit, decimals = null) {
   if (!present(band)) return "any value";
   const u = unit ? ` ${unit}` : "";
-  if (band.min !== null && band.min !== undefined && band.max !== null && band.max !== undefined) return `${nice(band.min)} to ${nice(band.max)}${u}`;
-  if (band.min !== null && band.min !== undefined) return `at least ${nice(band.min)}${u}`;
-  return `at most ${nice(band.max)}${u}`;
+  const has = (v) => v !== null && v !== undefined;
+  if (has(band.min) && has(band.max)) return `${nice(band.min, decimals)} to ${nice(band.max, decimals)}${u}`;
+  if (has(band.min)) return `at least ${nice(band.min, decimals)}${u}`;
+  return `at most ${nice(band.max, decimals)}${u}`;
 }
 
-/** Impossible / unusual value of one number, in the person's units; text "" when neither. */
-export function plausibility(value, limits, unit = "") {
-  if (value === null || value === undefined || Number.isNaN(value) || !limits) return { impossible: false, improbable: false, text: "" };
-  if (!within(limits.physical, value)) {
-    return { impossible: true, improbable: false, text: `not possible; allowed ${describe(limits.physical, unit)}` }; // after an "impossible" badge
-  }
+/**
+ * Impossible / unusual value of one number, in the person's units (``decimals``: the quantity's display
+ * precision). ``text`` follows an "impossible" badge or the verdict ("" when neither); ``allowed`` is the range.
+ */
+export function plausibility(value, limits, unit = "", decimals = null) {
+  const allowed = limits && present(limits.physical) ? `allowed ${describe(limits.physical, unit, decimals)}` : "";
+  if (value === null || value === undefined || Number.isNaN(value) || !limits) return { impossible: false, improbable: false, text: "", allowed };
+  if (!within(limits.physical, value)) return { impossible: true, improbable: false, text: allowed, allowed };
   if (!within(limits.plausible, value)) {
-    return { impossible: false, improbable: true, text: `unusual value (expected ${describe(limits.plausible, unit)}), please re-check` };
+    return { impossible: false, improbable: true, text: `unusual value (expected ${describe(limits.plausible, unit, decimals)}), please re-check`, allowed };
   }
-  return { impossible: false, improbable: false, text: "" };
+  return { impossible: false, improbable: false, text: "", allowed };
 }

@@ -58,3 +58,13 @@ export function meterReadingCheck(meter, hours, now, label = "Run hours") {
   }
   return null;
 }
+
+/**
+ * What the phone checked of a run-hour value the rule accepts, in words ("" when nothing was checked:
+ * no last reading, no number, a value below the last one, or a last reading later than ``now``).
+ */
+export function meterPlausibleText(meter, hours, now) {
+  if (!meter || !meter.last || typeof hours !== "number" || !Number.isFinite(hours) || hours < meter.last.hours) return "";
+  if (!((now.getTime() - Date.parse(meter.last.taken_at)) / 1000 >= 0)) return "";
+  return `plausible: ${hoursText(hours - meter.last.hours)} since the last reading of ${hoursText(meter.last.hours)} on ${meter.last.taken_text}`;
+}

@@ -1,0 +1,102 @@
+"""The phone checks on "Finish and sign" the same form flags the server raises, with the server's words.
+
+``inspections.flags`` names every flag once; ``services.sync`` may raise no other, and the phone's checker
+(``formcheck.js``) must know every flag the server lists as checkable from the form alone.
+"""
+
+from __future__ import annotations
+
+import json
+import re
+import shutil
+import subprocess
+from pathlib import Path
+from types import SimpleNamespace as NS
+
+from inspections import flags, phone
+from tests.conftest import service_missing
+
+ROOT = Path(__file__).resolve().parents[2]
+JS = ROOT / "frontend" / "static" / "frontend" / "js"
+
+RUNNER = """
+import { readFileSync } from "node:fs";
+import { FORM_FLAG_CHECKS, formFlags } from "./formcheck.js";
+const { ctx, answers } = JSON.parse(readFileSync(process.argv[2], "utf8"));
+const problems = formFlags(ctx, new Map(Object.entries(answers)));
+console.log(JSON.stringify({ known: Object.keys(FORM_FLAG_CHECKS), problems }));
+"""
+
+
+def _run(tmp_path, ctx, answers):
+    if shutil.which("node") is None:
+        service_missing("needs Node.js (apt-get install nodejs) to run the phone's form checks")
+    shutil.copy(JS / "formcheck.js", tmp_path / "formcheck.js")
+    (tmp_path / "run.mjs").write_text(RUNNER)
+    (tmp_path / "in.json").write_text(json.dumps({"ctx": ctx, "answers": answers}))
+    out = subprocess.run(
+        ["node", "run.mjs", "in.json"], cwd=tmp_path, capture_output=True, text=True, timeout=30, check=False
+    )
+    assert out.returncode == 0, out.stderr
+    return json.loads(out.stdout)
+
+
+def _slot(key, label, *, kind="check", component=None, required=False, note=False, photo=False, title="Filter check"):
+    item = NS(
+        api_key=key,
+        kind=kind,
+        label=label,
+        required=required,
+        note_required_when_not_ok=note,
+        photo_required_when_not_ok=photo,
+    )
+    comp = NS(label_code=component, name=f"Bank {component}") if component else None
+    return NS(item=item, component=comp, template=NS(title=title))
+
+
+def test_every_flag_the_sync_raises_is_named_in_one_list():
+    """A flag code in services/sync.py that inspections.flags does not name fails here (the phone would not know it)."""
+    source = (ROOT / "inspections" / "services" / "sync.py").read_text()
+    raised = set(re.findall(r'"code":\s*"(\w+)"', source)) | set(re.findall(r'flag_for\(\s*"(\w+)"', source))
+    assert raised, "the scan found no flag codes: the pattern no longer matches services/sync.py"
+    named = set(flags.FORM_FLAGS) | set(flags.SERVER_FLAGS)
+    assert raised <= named, f"flags raised but not named in inspections.flags: {sorted(raised - named)}"
+    assert not set(flags.FORM_FLAGS) & set(flags.SERVER_FLAGS)
+
+
+def test_the_phone_knows_every_form_flag_and_words_it_as_the_server(tmp_path):
+    """Two required items unanswered, a failed reading with neither note nor photo: the phone's flags read word for
+    word as the server's (inspections.flags), and its checker knows every code of FORM_FLAGS."""
+    slots = [
+        _slot("filter_check.dp", "Pressure drop", kind="number", component="F1", required=True, note=True),
+        _slot("filter_check.condition", "Media condition", required=True, photo=True),
+        _slot("filter_check.photo", "Photo of the bank", kind="photo", required=True),
+        _slot("visit.notes", "Notes", kind="text"),
+    ]
+    ctx = phone.form_flags_context(slots=slots)
+    answers = {
+        "filter_check.dp|F1": {"answered": True, "verdict": "fail", "note": " ", "photographed": False},
+        "filter_check.condition|": {"answered": False},
+        "filter_check.photo|": {"answered": False, "photographed": False},
+    }
+    out = _run(tmp_path, ctx, answers)
+    assert set(out["known"]) == set(flags.FORM_FLAGS)
+    expected = [
+        flags.flag_incomplete([flags.slot_place(slots[1]), flags.slot_place(slots[2])]),
+        flags.flag_for("missing_note", label=flags.slot_label(slots[0])),
+    ]
+    assert [{"code": p["code"], "reason": p["text"]} for p in out["problems"]] == expected
+    assert expected[0]["reason"] == (
+        "required items not answered: Filter check › Media condition; Filter check › Photo of the bank"
+    )
+    assert expected[1]["reason"] == "Pressure drop (Bank F1) is not ok but has no note"
+
+
+def test_a_rule_the_phone_does_not_know_is_said_not_skipped(tmp_path):
+    """A flag the server ships that formcheck.js lacks shows as a problem, never passes silently."""
+    ctx = phone.form_flags_context(slots=[])
+    ctx["form_flags"]["missing_signature_photo"] = "{label} has no photo of the signature"
+    out = _run(tmp_path, ctx, {})
+    assert len(out["problems"]) == 1
+    assert "does not know" in out["problems"][0]["text"]
+    assert "missing_signature_photo" not in out["problems"][0]["text"]
