@@ -38,15 +38,17 @@ Open findings by severity and age
     over 180 days.
 
 Filter status of every unit
-    For each filter bank of each unit, the latest judged ``filter_loading``
-    evaluation (inspection finished on or before ``as_of``; a reading that could
-    not be judged, e.g. airflow too far from design, is skipped): verdict,
-    loading % and the change forecast as the inspection's evaluation stored
-    them ("now" when the filter was already at or over its final value; a
-    stored date before the site's today reads "due now (forecast for …)"); the
-    pressure drop at design airflow of that reading from
-    ``inspections.selectors.filter_series``, the one series the charts and the
-    unit history read (the physics is in engineering.filters).
+    For each filter bank of each unit, the latest judged point of its one series,
+    ``inspections.selectors.filter_series`` (forms finished on or before
+    ``as_of``), the series the charts and the unit history read: the pressure
+    drop at design airflow of the filters fitted now. After a change that is the
+    reading just after it, judged by the check of new filters, with its loading
+    by engineering.filters and no forecast yet; otherwise the filter check's
+    ``filter_loading`` evaluation: verdict, loading % and the change forecast as
+    it stored them ("now" when the filter was already at or over its final
+    value; a stored date before the site's today reads "due now (forecast for
+    …)"). A reading that could not be judged (airflow too far from design, no
+    clean or final value) is skipped.
 
 Freeze-protection readiness before the coming season
     For each unit with an electric preheater or a preheat coil, from what its
@@ -60,15 +62,16 @@ Freeze-protection readiness before the coming season
 
 from __future__ import annotations
 
-import json
 import zoneinfo
 from collections import defaultdict
 from collections.abc import Iterable
 from dataclasses import dataclass, field
 from datetime import date, datetime, timedelta
 
-from django.db.models import Min, OuterRef, Q, Subquery
+from django.db.models import Min, Q
 
+from engineering import filters as engineering_filters
+from engineering.errors import EngineeringInputError
 from inspections import display
 from inspections import freeze as freeze_rules
 from inspections.freeze import last_season_end  # noqa: F401  (re-exported: the window rule lives there)
@@ -312,51 +315,58 @@ def compliance_figures(*, site_ids: list[int], start: date, end: date, as_of: da
 
 
 def _filter_rows(*, units: list[AHU], as_of: datetime, today_of: dict[int, date]) -> list[dict]:
-    # The latest judged reading: one that could not be judged (airflow too far from design to correct it,
-    # no clean or final value) has no pressure drop at design airflow, is not a filter to watch and does
-    # not hide the last value that was judged.
-    latest = (
-        Evaluation.objects.filter(
-            component=OuterRef("pk"), check_name="filter_loading", inspection__finished_at__lte=as_of
-        )
-        .filter(derived__has_key="corrected_dp_pa")
-        .order_by("-inspection__finished_at", "-pk")
-    )
-    banks = (
+    banks = list(
         Component.objects.filter(ahu__in=units, kind=ComponentKind.FILTER_BANK)
         .select_related("ahu")
-        .annotate(
-            eval_verdict=Subquery(latest.values("verdict")[:1]),
-            eval_derived=Subquery(latest.values("derived")[:1]),
-            eval_at=Subquery(latest.values("inspection__finished_at")[:1]),
-            eval_inspection=Subquery(latest.values("inspection_id")[:1]),
-        )
         .order_by("position", "pk")
     )
     by_unit: dict[int, list[Component]] = defaultdict(list)
     for bank in banks:
         by_unit[bank.ahu_id].append(bank)
-    # The pressure drop at design airflow is the bank's one series (the charts and the unit history read it too).
-    series = filter_series_for(components=list(banks), before=as_of + timedelta(microseconds=1))
+    # The bank's one series (the charts and the unit history read it too): its latest point is the filters
+    # fitted now, the reading just after a change included.
+    series = filter_series_for(components=banks, before=as_of + timedelta(microseconds=1))
+    # Each point's judgement: the filter check's loading, or the check of the reading after a change. One
+    # that could not be judged (no clean or final value) has no pressure drop at design airflow, is not a
+    # filter to watch and does not hide the last point that was judged.
+    judged = {
+        (e.component_id, e.inspection_id, e.check_name): e
+        for e in Evaluation.objects.filter(
+            component__in=banks,
+            check_name__in=(FILTER_CHECK, FILTER_AFTER_CHANGE),
+            inspection_id__in={p.inspection_id for s in series.values() for p in s.points},
+        )
+        .filter(derived__has_key="corrected_dp_pa")
+        .order_by("pk")
+    }
     out = []
     for unit in units:
         for bank in by_unit.get(unit.pk, []):
-            derived = bank.eval_derived or {}
-            if isinstance(derived, str):  # some backends hand JSON from a subquery back as text
-                derived = json.loads(derived)
-            point = next(
-                (p for p in series[bank.pk].points if p.inspection_id == bank.eval_inspection and not p.after_change),
-                None,
+            point, ev = next(
+                (
+                    (p, e)
+                    for p in reversed(series[bank.pk].points)
+                    if (e := judged.get((bank.pk, p.inspection_id, _check_of(p)))) is not None
+                ),
+                (None, None),
             )
+            derived = dict(ev.derived) if ev else {}
+            if point is not None and point.after_change:
+                derived.update(
+                    _loading_of_new_filters(bank=bank, point=point, design=series[bank.pk].design_airflow_m3s)
+                )
             out.append(
                 {
                     "unit": unit,
                     "filter": bank,
-                    "verdict": bank.eval_verdict or "",
+                    "verdict": ev.verdict if ev else "",
                     "derived": derived,
-                    "at": bank.eval_at,
+                    "at": point.at if point else None,
+                    "after_change": bool(point and point.after_change),
                     "corrected_dp_pa": point.corrected_dp_pa if point else None,
-                    "forecast": filter_forecast_text(derived=derived, today=today_of[unit.building.site_id]),
+                    "forecast": NEW_FILTERS_FORECAST
+                    if point is not None and point.after_change
+                    else filter_forecast_text(derived=derived, today=today_of[unit.building.site_id]),
                 }
             )
         if unit.pk not in by_unit:
@@ -367,11 +377,39 @@ def _filter_rows(*, units: list[AHU], as_of: datetime, today_of: dict[int, date]
                     "verdict": "",
                     "derived": {},
                     "at": None,
+                    "after_change": False,
                     "corrected_dp_pa": None,
                     "forecast": "—",
                 }
             )
     return out
+
+
+FILTER_CHECK, FILTER_AFTER_CHANGE = "filter_loading", "filter_after_change"  # inspections.evaluation's check names
+NEW_FILTERS_FORECAST = "new filters, no forecast before their next check"
+
+
+def _check_of(point) -> str:
+    return FILTER_AFTER_CHANGE if point.after_change else FILTER_CHECK
+
+
+def _loading_of_new_filters(*, bank: Component, point, design: float) -> dict:
+    """The loading of filters just fitted, by the same engineering.filters.filter_loading the filter check uses
+    (the check after a change judges against the clean value only and keeps no loading)."""
+    specs = bank.specs or {}
+    if "clean_dp_pa" not in specs or "final_dp_pa" not in specs:
+        return {}
+    try:
+        loading = engineering_filters.filter_loading(
+            dp_pa=point.dp_pa,
+            airflow_m3s=point.airflow_m3s,
+            design_airflow_m3s=design,
+            clean_dp_pa=specs["clean_dp_pa"],
+            final_dp_pa=specs["final_dp_pa"],
+        )
+    except EngineeringInputError:
+        return {}
+    return {"loading_pct": round(loading.fraction_of_span * 100, 1)}
 
 
 def filter_forecast_text(*, derived: dict, today: date) -> str:
