@@ -178,15 +178,7 @@ def _verify_history(*, organisation, today: dt.date) -> int:
 @transaction.atomic
 def _assign_upcoming(*, organisation, today: dt.date) -> int:
     """Give unassigned work due soon to the organisation's technicians, one site per technician."""
-    technicians = [
-        m.user
-        for m in Membership.objects.filter(organisation=organisation, role=Role.TECHNICIAN)
-        .select_related("user")
-        .order_by("user__username")
-    ]
-    supervisor = (
-        Membership.objects.filter(organisation=organisation, role=Role.SUPERVISOR).select_related("user").first()
-    )
+    technicians, supervisor = _technicians(organisation=organisation), _supervisor(organisation=organisation)
     if not technicians or supervisor is None:
         return 0
     owner = _site_owners(organisation=organisation, technicians=technicians)
@@ -203,7 +195,7 @@ def _assign_upcoming(*, organisation, today: dt.date) -> int:
     )
     count = 0
     for wo in open_orders:
-        work_order_assign(work_order=wo, assignee=owner[wo.ahu.building.site_id], by=supervisor.user)
+        work_order_assign(work_order=wo, assignee=owner[wo.ahu.building.site_id], by=supervisor)
         count += 1
     # A technician with nothing due yet gets the soonest visit on their sites (theirs already, or still
     # unassigned) planned for today, so every demo technician signs in to a round whatever the date.
@@ -224,9 +216,9 @@ def _assign_upcoming(*, organisation, today: dt.date) -> int:
         if soonest is None:
             continue
         if soonest.assignee_id is None:
-            work_order_assign(work_order=soonest, assignee=tech, by=supervisor.user)
+            work_order_assign(work_order=soonest, assignee=tech, by=supervisor)
             count += 1
         # The site's own today: the service refuses a day already past there (after midnight in its zone).
         day = max(today, site_today(site=soonest.ahu.building.site))
-        work_order_schedule(work_order=soonest, day=day, by=supervisor.user)
+        work_order_schedule(work_order=soonest, day=day, by=supervisor)
     return count
