@@ -368,7 +368,7 @@ def _corrective_page(request, pending, *, errors=None, typed=None, status=200):
 def corrective(request):
     _organisation(request)
     pending = backends.work_orders_managed_by(user=request.user).filter(
-        kind=WorkOrder.Kind.CORRECTIVE, approval=WorkOrder.Approval.PENDING
+        kind=WorkOrder.Kind.CORRECTIVE, approval=WorkOrder.Approval.PENDING, state__in=WorkOrder.OPEN_STATES
     )
     if request.method == "POST":
         try:

@@ -390,9 +390,26 @@ def _grace(priority: str) -> int:
     return {"urgent": 1, "high": 3, "normal": 14, "low": 30}[priority]
 
 
+def _refuse_decision_on_closed(wo: WorkOrder, decision: str) -> None:
+    """Corrective work no longer open (cancelled, e.g. its finding closed by a later good visit, or completed)
+    is not approved or rejected: the decision would change nothing and would read as if it had."""
+    if wo.state in WorkOrder.OPEN_STATES:
+        return
+    why = f": {wo.cancel_reason}" if wo.state == State.CANCELLED and wo.cancel_reason else ""
+    raise ValidationError(
+        {
+            "approval": [
+                f"this corrective work is {wo.get_state_display().lower()}{why}; "
+                f"only open corrective work can be {decision}"
+            ]
+        }
+    )
+
+
 @transaction.atomic
 def corrective_work_order_approve(*, work_order: WorkOrder, by, expected_version: int | None = None) -> WorkOrder:
     wo = _locked(work_order, expected_version)
+    _refuse_decision_on_closed(wo, "approved")
     if wo.approval != WorkOrder.Approval.PENDING:
         raise ValidationError(
             {
@@ -436,6 +453,7 @@ def corrective_work_order_reject(
     """Reject proposed corrective work with a reason (kept on the work order and in the audit trail)."""
     text = rejection_reason_check(reason=reason)
     wo = _locked(work_order, expected_version)
+    _refuse_decision_on_closed(wo, "rejected")
     if wo.approval != WorkOrder.Approval.PENDING:
         raise ValidationError(
             {

@@ -199,7 +199,7 @@ def test_rejecting_corrective_work_needs_a_reason_on_the_page_and_in_the_api(api
 
 
 @pytest.mark.django_db
-def test_a_shortfall_that_turns_out_to_be_the_designs_withdraws_its_pending_proposal(api_client):
+def test_a_shortfall_that_turns_out_to_be_the_designs_withdraws_its_pending_proposal(api_client, client):
     """First visit 20 % ± 3 (mixed 17.6 °C): below the 25 % design minimum, corrective work proposed. Next month
     40 %: the unit meets its design, the requirement is what fails, so the same finding (seen twice) becomes a
     design review and the proposal still awaiting approval is cancelled with a reason, audited."""
@@ -209,3 +209,27 @@ def test_a_shortfall_that_turns_out_to_be_the_designs_withdraws_its_pending_prop
     cwo = finding.corrective_work_order
     assert cwo is not None and cwo.state == WorkOrder.State.CANCELLED and "design review" in cwo.cancel_reason
     assert AuditEvent.objects.filter(object_type="scheduling.workorder", object_id=str(cwo.pk), action="transition")
+    # The withdrawn proposal is no longer offered for approval, and approving or rejecting it is refused in
+    # words (it would otherwise "succeed" and change nothing).
+    boss = make_supervisor(cwo.organisation)
+    client.force_login(boss)
+    page = client.get(reverse("frontend:corrective"))
+    assert page.status_code == 200 and str(cwo.public_id) not in page.content.decode()
+    assert (
+        client.post(
+            reverse("frontend:corrective"), {"work_order": str(cwo.public_id), "decision": "approve"}
+        ).status_code
+        == 404
+    )
+    api_client.force_authenticate(boss)
+    for action in ("approve", "reject"):
+        res = api_client.post(
+            f"/api/scheduling/work-orders/{cwo.public_id}/{action}/",
+            {"version": cwo.version, "reason": "not needed"},
+            format="json",
+        )
+        assert res.status_code == 400, res.content
+        words = res.json()["errors"]["approval"][0]
+        assert words.startswith("this corrective work is cancelled: ") and "design review" in words, words
+    cwo.refresh_from_db()
+    assert cwo.approval == WorkOrder.Approval.PENDING and cwo.state == WorkOrder.State.CANCELLED
