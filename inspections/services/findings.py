@@ -10,6 +10,7 @@ closed is withdrawn.
 from __future__ import annotations
 
 import datetime as dt
+import zoneinfo
 
 from django.db import IntegrityError, transaction
 from django.utils import timezone
@@ -23,6 +24,18 @@ from ..models import Evaluation, Finding, Inspection
 
 FREEZE_LEAD_DAYS = 30
 PRIORITY = {"critical": "urgent", "high": "high", "medium": "normal", "low": "low"}
+
+
+def severity_of(*, condition: str, res, derived: dict) -> str:
+    """How serious a failed check is. A filter at or past its final pressure drop at design airflow, or with
+    its media bypassed, is high: it is changed now, not within the normal grace, as airflow falls off and
+    loaded media can burst into the unit (common practice)."""
+    base = SEVERITY.get(condition, res.severity)
+    if res.check == "filter_loading" and (
+        (derived.get("loading_pct") or 0) >= 100 or derived.get("media_bypass_suspected")
+    ):
+        return _worst(base, "high")
+    return base
 
 
 def freeze_season_near(*, site, on: dt.date, lead_days: int = FREEZE_LEAD_DAYS) -> bool:
@@ -336,14 +349,14 @@ def findings_open(
         if not condition and res.check in STEP_CHECKS:
             condition = by_template.get(res.item.split(".", 1)[0], "")
         urgent = condition == "freeze_protection_failed" and freeze_season_near(
-            site=site, on=timezone.localtime(seen_at).date()
+            site=site, on=seen_at.astimezone(zoneinfo.ZoneInfo(site.time_zone)).date()
         )
         design_review = is_design_review(check=res.check, derived=ev.derived or {})
         parts = _text_parts(ev, res, ahu=inspection.ahu, design_review=design_review)
         values = {
             "problem": problem_of(check=res.check, item=res.item),
             "kind": Finding.Kind.DESIGN_REVIEW if design_review else Finding.Kind.CORRECTIVE,
-            "severity": "critical" if urgent else SEVERITY.get(condition, res.severity),
+            "severity": "critical" if urgent else severity_of(condition=condition, res=res, derived=ev.derived or {}),
             "title": _title(res, condition, labels, design_review=design_review),
             "reason": rs.render(parts, "si")[:500],
             "reason_parts": parts,
