@@ -32,7 +32,8 @@ A unit is
       ``as_of`` (whatever the tests say: the fault is not put right), or when it has no passing test
       in the window and the season has started ("not tested since <date>" / "never tested");
     - **ready** when its latest test in the window passed, a passing test in the window came on or
-      before the season start with no failed test after it, and no such finding is open;
+      before the season start with no failed test after it, and no such finding is open ("every step
+      passed on <latest>", naming the first on-time pass too when a later test passed again);
     - **done late** when its latest test passed but every passing test since the last failure came
       after the season start;
     - **due** when it has no test in the window and the season has not started;
@@ -41,6 +42,10 @@ A unit is
 
 A passing retest (usually the corrective work order, whose completion closes the findings it
 answers) makes the unit ready again.
+
+The last test (``tested_on``, the "last test" of pages, PDF and API) is the unit's latest test up to
+``as_of``, whatever protects it (a preheat coil or an electric preheater) and whatever it found: a
+later passing test is never hidden behind the earlier one that proved the unit on time.
 
 The corrective work state is read as it is now, also for an earlier ``as_of``.
 """
@@ -146,7 +151,8 @@ class OpenFinding:
 class Verdict:
     status: str
     reason: str
-    decided_by: FreezeTest | None = None
+    decided_by: FreezeTest | None = None  # the test whose outcome the status reads (its steps not passed)
+    latest: FreezeTest | None = None  # the unit's latest test, whatever it found: the "last test"
 
 
 def _day(d: dt.date) -> str:
@@ -178,7 +184,7 @@ def freeze_verdict(
     in_window = tests if season_start is None or window_opens is None else [t for t in tests if t.on > window_opens]
     last = in_window[-1] if in_window else None
     if last is not None and not last.passed:
-        return Verdict(NOT_READY, "not ready — " + _not_passed_words(last), last)
+        return Verdict(NOT_READY, "not ready — " + _not_passed_words(last), last, latest)
     if findings:
         f = findings[0]
         proven = f" (last test passed on {_day(last.on)})" if last is not None else ""
@@ -187,32 +193,33 @@ def freeze_verdict(
             f"not ready — freeze-protection fault open since {_day(f.opened_on)}: {f.title}{proven}; "
             f"{_corrective_words(f.corrective)}",
             last,
+            latest,
         )
     if season_start is None or window_opens is None:
         since = f"; last passed test on {_day(latest.on)}" if latest is not None else "; never tested"
-        return Verdict(UNKNOWN, "freeze season not known for this site" + since, latest)
+        return Verdict(UNKNOWN, "freeze season not known for this site" + since, latest, latest)
     if last is not None:
-        # The passing run since the last failure; ready when it began on or before the season start.
+        # The passing run since the last failure (latest first); ready when it began on or before the
+        # season start. The status reads the latest test; the words name the first pass when it differs.
         run: list[FreezeTest] = []
         for t in reversed(in_window):
             if not t.passed:
                 break
             run.append(t)
         before = [t for t in run if t.on <= season_start]
+        first = before[-1] if before else run[-1]
+        passed = f"every step passed on {_day(last.on)}"
+        began = f"the season began on {_day(season_start)}"
         if before:
-            first = before[-1]
-            return Verdict(READY, f"ready — every step passed on {_day(first.on)}", first)
-        first = run[-1]
-        return Verdict(
-            DONE_LATE,
-            f"proven late — every step passed on {_day(first.on)}, after the season began on {_day(season_start)}",
-            first,
-        )
+            again = "" if first is last else f"; first proven on {_day(first.on)}, before {began}"
+            return Verdict(READY, f"ready — {passed}{again}", last, latest)
+        again = f", after {began}" if first is last else f"; first proven on {_day(first.on)}, after {began}"
+        return Verdict(DONE_LATE, f"proven late — {passed}{again}", last, latest)
     started = today >= season_start
     why = f"not tested since {_day(latest.on)}" if latest is not None else "never tested"
     if started:
-        return Verdict(NOT_READY, f"not ready — {why}; the season began on {_day(season_start)}", None)
-    return Verdict(DUE, f"due — {why}; test before {_day(season_start)}", None)
+        return Verdict(NOT_READY, f"not ready — {why}; the season began on {_day(season_start)}", None, latest)
+    return Verdict(DUE, f"due — {why}; test before {_day(season_start)}", None, latest)
 
 
 # ---------------------------------------------------------------------------
@@ -229,7 +236,7 @@ class FreezeReadiness:
     reason: str
     season_start: dt.date | None
     window_opens: dt.date | None
-    tested_on: dt.date | None = None
+    tested_on: dt.date | None = None  # the latest test, whatever it found (the "last test")
     not_passed: list[str] = field(default_factory=list)
 
     @property
@@ -456,7 +463,7 @@ def freeze_readiness(
                 reason=verdict.reason,
                 season_start=season_start,
                 window_opens=opens,
-                tested_on=verdict.decided_by.on if verdict.decided_by else None,
+                tested_on=verdict.latest.on if verdict.latest else None,
                 not_passed=list(verdict.decided_by.not_passed) if verdict.decided_by else [],
             )
         )

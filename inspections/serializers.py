@@ -186,8 +186,12 @@ class FreezeReadinessUnitSerializer(serializers.Serializer):
     label = serializers.CharField()
     ready = serializers.BooleanField()
     reason = serializers.CharField(help_text="Why, in plain words (a failed step, an open fault, never tested…).")
-    tested_on = serializers.DateField(allow_null=True, help_text="The test that decided it, site-local date.")
-    not_passed = serializers.ListField(child=serializers.CharField(), help_text="Steps of that test not passed.")
+    tested_on = serializers.DateField(
+        allow_null=True, help_text="The unit's latest freeze-protection test, whatever it found; site-local date."
+    )
+    not_passed = serializers.ListField(
+        child=serializers.CharField(), help_text="Steps not passed of the test the status reads (empty if none)."
+    )
     season_start = serializers.DateField(allow_null=True)
     window_opens = serializers.DateField(allow_null=True)
 

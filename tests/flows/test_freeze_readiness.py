@@ -6,18 +6,28 @@ failed) 17 days before the site's freeze season. The property manager's site pag
 freeze-readiness API and the compliance report PDF must all say the unit is not ready, with the failed
 steps and the state of the corrective work, because all of them read inspections.freeze. The retest on
 the corrective work order passes every step, which closes the findings, and all of them say ready again.
+
+The demo's round on 2 December (inside the season): the technicians test freeze protection on a unit with a
+glycol preheat coil and on units with an electric preheater. Whatever protects the unit, its latest test is
+the one every page, the API and the PDF read: a passing one is named as the last test, a failed one keeps
+the unit not ready.
 """
 
 import datetime as dt
+import io
+import re
 
 import pytest
+import time_machine
+from django.core.management import call_command
 from django.urls import reverse
 
-from accounts.models import Role
+from accounts.models import Role, User
 from accounts.services import site_grant
 from inspections.models import Finding
-from inventory.models import Site
+from inventory.models import AHU, Site
 from reports.models import Report
+from scheduling.models import MeterReading, WorkOrder
 from scheduling.services import work_order_assign
 from tests.factories.accounts import make_person
 from tests.factories.inspections import make_visit, sync_form
@@ -63,7 +73,14 @@ def _answers(doc: dict, values: dict) -> list[dict]:
 def _send(api_client, tech, wo, values, finished_at) -> dict:
     api_client.force_authenticate(tech)
     doc = api_client.get(f"/api/inspections/work-orders/{wo.public_id}/checklist/").json()
-    form = sync_form(wo, _answers(doc, values), version=doc["work_order"]["version"], finished_at=finished_at)
+    # The answers are in the person's own units, as the phone sends them.
+    form = sync_form(
+        wo,
+        _answers(doc, values),
+        version=doc["work_order"]["version"],
+        finished_at=finished_at,
+        unit_system=doc["unit_system"],
+    )
     [out] = api_client.post(SYNC, {"forms": [form]}, format="json").json()["results"]
     assert out["status"] == "stored", out["flags"]
     return out
@@ -163,3 +180,107 @@ def test_failed_preheater_test_says_not_ready_everywhere_until_a_passing_retest(
     assert "every step passed on 8 Oct 2025" in says["page"] and "test failed" not in says["page"]
     assert "1 of 1" in says["dashboard"] and "not ready" not in says["dashboard"]
     assert "1 of 1 freeze-protected units ready" in says["pdf"] and "every step passed on 8 Oct 2025" in says["pdf"]
+
+
+# ---------------------------------------------------------------------------
+# The demo's round in the season: the latest test is the one everyone reads
+# ---------------------------------------------------------------------------
+
+DEMO_DAY = dt.datetime(2026, 12, 2, 10, tzinfo=dt.UTC)  # 11:00 in the demo sites' zone (Europe/Berlin, CET)
+DEMO_TESTED = "2 Dec 2026"
+
+
+def _meter_now(ahu: AHU) -> dict:
+    """The run-hour meter read on the day: a day's running (invented, under 24 h) past its last reading."""
+    last = MeterReading.objects.filter(ahu=ahu, component=None).order_by("-taken_at", "-pk").first()
+    return {"visit.run_hours": round(last.hours + 20)}
+
+
+def _too_late_stage_one(api_client, tech, wo) -> float:
+    """Stage 1 switching on well below the watch band of the checklist the phone fetched (the person's units)."""
+    api_client.force_authenticate(tech)
+    doc = api_client.get(f"/api/inspections/work-orders/{wo.public_id}/checklist/").json()
+    [stage] = [it for t in doc["templates"] for it in t["items"] if it["key"] == "preheater_freeze.stage_on_temp"]
+    return stage["limits"]["display"]["watch"]["min"] - 4.0  # 4 °F or 4 K below: a fail in either system
+
+
+def _round_visit(tag: str) -> WorkOrder:
+    return WorkOrder.objects.get(ahu__tag=tag, source_ref="demo:round", state__in=WorkOrder.OPEN_STATES)
+
+
+def _row(rows: list[dict], tag: str) -> dict:
+    [row] = [r for r in rows if r["unit"]["tag"] == tag]
+    return row
+
+
+@pytest.mark.django_db
+def test_the_latest_freeze_test_of_the_demo_round_is_what_everyone_reads(
+    api_client, client, django_capture_on_commit_callbacks
+):
+    """On the demo's round inside the season the technicians test AHU-S1 (glycol preheat coil) and AHU-C1
+    (electric preheater), every step passing, and retest AHU-L1 (electric preheater, failed in November),
+    which fails again. The property manager and the supervisor see, in the API, on the site page, on the
+    dashboard and in the compliance PDF, 2 December as the last test of each: the coil and AHU-C1 ready,
+    AHU-L1 not ready with the step that failed."""
+    with time_machine.travel(DEMO_DAY, tick=False):
+        call_command("load_demo", stdout=io.StringIO())
+    s1 = AHU.objects.select_related("building__site").get(tag="AHU-S1")  # glycol preheat coil, no heater
+    l1, c1 = AHU.objects.get(tag="AHU-L1"), AHU.objects.get(tag="AHU-C1")  # electric preheaters
+    assert not s1.components.filter(kind="electric_preheater").exists()
+    assert s1.components.filter(kind="coil", specs__duty="preheat").exists()
+    tomas, ines = User.objects.get(username="tomas.tech"), User.objects.get(username="ines.tech")
+    manager, boss = User.objects.get(username="helena.pm"), User.objects.get(username="ruth.supervisor")
+
+    with time_machine.travel(DEMO_DAY + dt.timedelta(hours=1), tick=False):
+        # The demo's round: every step of the coil unit's and of AHU-C1's freeze-protection test passes.
+        _send(api_client, tomas, _round_visit("AHU-S1"), _meter_now(s1), DEMO_DAY)
+        _send(api_client, ines, _round_visit("AHU-C1"), _meter_now(c1), DEMO_DAY)
+        # AHU-L1 failed in November; its retest on the corrective work finds stage 1 still far too late.
+        [retest] = WorkOrder.objects.filter(ahu=l1, kind="corrective", state__in=WorkOrder.OPEN_STATES)
+        late = _too_late_stage_one(api_client, retest.assignee, retest)
+        _send(api_client, retest.assignee, retest, {**_meter_now(l1), "preheater_freeze.stage_on_temp": late}, DEMO_DAY)
+
+    with time_machine.travel(DEMO_DAY + dt.timedelta(hours=2), tick=False):
+        api_client.force_authenticate(manager)
+        rows = api_client.get("/api/inspections/freeze-readiness/").json()
+        coil = _row(rows, "AHU-S1")
+        assert coil["status"] == "ready" and coil["ready"], coil
+        assert coil["tested_on"] == "2026-12-02" and DEMO_TESTED in coil["reason"], coil
+        failed = _row(rows, "AHU-L1")
+        assert failed["status"] == "not_ready" and not failed["ready"], failed
+        assert failed["tested_on"] == "2026-12-02", failed
+        assert failed["reason"].startswith(f"not ready — test failed on {DEMO_TESTED}: "), failed
+        assert "Entering-air temperature at which stage 1 switched on" in failed["reason"]
+        api_client.force_authenticate(boss)
+        heater = _row(api_client.get("/api/inspections/freeze-readiness/").json(), "AHU-C1")
+        assert heater["status"] == "ready" and heater["tested_on"] == "2026-12-02", heater
+        assert DEMO_TESTED in heater["reason"], heater
+
+        site = s1.building.site
+        client.force_login(manager)
+        page = " ".join(client.get(reverse("frontend:dashboard_site", kwargs={"pk": site.pk})).content.decode().split())
+        [coil_line] = re.findall(r'<li data-freeze="\w+">AHU-S1 .*?</li>', page)
+        assert "<strong>Ready</strong>" in coil_line and f"every step passed on {DEMO_TESTED}" in coil_line, coil_line
+        [heater_line] = re.findall(r'<li data-freeze="\w+">AHU-L1 .*?</li>', page)
+        assert "Not ready" in heater_line and f"test failed on {DEMO_TESTED}" in heater_line, heater_line
+        dashboard = " ".join(client.get(reverse("frontend:dashboard")).content.decode().split())
+        assert f"test failed on {DEMO_TESTED}" in dashboard
+
+        api_client.force_authenticate(manager)
+        with django_capture_on_commit_callbacks(execute=True):
+            res = api_client.post(
+                "/api/reports/",
+                {"kind": "compliance", "parameters": {"sites": [site.pk], "start": "2026-01-01", "end": "2026-12-02"}},
+                format="json",
+            )
+        assert res.status_code == 202, res.json()
+        report = Report.objects.get(public_id=res.json()["public_id"])
+        assert report.status == Report.Status.DONE, report.error
+        pdf = " ".join(pdf_text(report).split())
+        # The readiness table: unit, season starts, window opened, status, last test, why.
+        assert re.search(
+            r"AHU-S1 \(Elderbank Sports Hall\) 2026-11-05 \S+ Ready 2026-12-02 every step passed on 2 Dec 2026;", pdf
+        )
+        assert re.search(
+            r"AHU-L1 \(Elderbank Library\) 2026-11-05 \S+ Not ready 2026-12-02 test failed on 2 Dec 2026:", pdf
+        )
