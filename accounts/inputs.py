@@ -25,6 +25,7 @@ from typing import Any
 from django.core.exceptions import ValidationError
 from django.utils.dateparse import parse_datetime
 
+from accounts.clock import local_time_text
 from engineering.errors import EngineeringInputError
 from engineering.units import to_display, unit_label
 
@@ -269,12 +270,10 @@ def in_zone(when: dt.datetime, tz: zoneinfo.ZoneInfo | str) -> dt.datetime:
     return when.replace(tzinfo=zone)
 
 
-def local_text(when: dt.datetime, zone: zoneinfo.ZoneInfo) -> str:
-    """The time as the site's clock shows it; at the ends of the calendar (year 1, 9999) as it was given."""
-    try:
-        return f"{when.astimezone(zone):%Y-%m-%d %H:%M}"
-    except (OverflowError, ValueError):
-        return when.isoformat(timespec="minutes")
+def local_text(when: dt.datetime, zone: zoneinfo.ZoneInfo | str) -> str:
+    """The time as the site's clock shows it with the zone named (``accounts.clock.local_time_text``, the one
+    format of pages, PDFs and the phone); at the ends of the calendar (year 1, 9999) as it was given."""
+    return local_time_text(when, zone=zone)
 
 
 def reading_time_problem(when: dt.datetime, *, label: str, now: dt.datetime, tz=None) -> str | None:
@@ -287,7 +286,7 @@ def reading_time_problem(when: dt.datetime, *, label: str, now: dt.datetime, tz=
     if when > now + READING_FUTURE_TOLERANCE:
         return (
             f"{label} {local_text(when, zone)} is later than now "
-            f"({now.astimezone(zone):%Y-%m-%d %H:%M}, site time); a reading cannot come from the future "
+            f"({local_text(now, zone)}, site time); a reading cannot come from the future "
             "— check the date and the device's clock"
         )
     return None

@@ -1,21 +1,12 @@
 """How a moment reads for a person at a site: the site's clock with the zone named."""
 
 import datetime as dt
-import zoneinfo
 
-from django.utils import dateformat
+# The one time format lives in the lowest app (accounts.clock) so the input policy's messages and the phone's
+# twin share it; these names stay the pages' and the PDFs' way in.
+from accounts.clock import local_date_text, local_time_text
 
-TIME_FORMAT = "j M Y H:i T"
-
-
-def local_time_text(when: dt.datetime, *, zone: str) -> str:
-    """``when`` on the clock of ``zone`` with the zone's abbreviation, "2 Dec 2026 06:30 CET"."""
-    return dateformat.format(when.astimezone(zoneinfo.ZoneInfo(zone or "UTC")), TIME_FORMAT)
-
-
-def local_date_text(when: dt.datetime, *, zone: str) -> str:
-    """The day of ``when`` on the clock of ``zone``, "2 Dec 2026"."""
-    return dateformat.format(when.astimezone(zoneinfo.ZoneInfo(zone or "UTC")), "j M Y")
+__all__ = ["local_date_text", "local_time_text", "site_time_text", "usual_zone"]
 
 
 def site_time_text(when: dt.datetime | None, site) -> str:

@@ -345,7 +345,9 @@ def findings(request):
 def _corrective_page(request, pending, *, errors=None, typed=None, status=200):
     """The proposals awaiting approval, each with the findings it would fix in the reader's units."""
     proposals = list(
-        pending.order_by("due_date").prefetch_related(
+        pending.order_by("due_date")
+        .select_related("ahu__building__site")
+        .prefetch_related(
             Prefetch(
                 "source_findings",
                 queryset=backends.findings_visible_to(user=request.user)

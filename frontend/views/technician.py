@@ -9,9 +9,10 @@ from django.urls import reverse
 from django.utils import timezone
 from django.views.decorators.http import require_GET, require_POST
 
+from accounts.clock import zone_clock
 from inventory.selectors import component_tree
 from scheduling.models import WorkOrder
-from scheduling.selectors import person_today
+from scheduling.selectors import person_time_zone, person_today
 
 from .. import backends, selectors
 from ..checklist_form import _number, caution_blocks, cautions_for, form_sections, payload_from_post
@@ -54,7 +55,13 @@ def today(request):
     return render(
         request,
         "frontend/technician/today.html",
-        {"visits": visits, "today": day, "offline_urls": offline_urls(visits)},
+        {
+            "visits": visits,
+            "today": day,
+            "offline_urls": offline_urls(visits),
+            # The outbox bar's times on the clock the person works by (the phone has no other idea of it).
+            "site_clock": zone_clock(person_time_zone(user=request.user), around=timezone.now()),
+        },
     )
 
 
@@ -101,6 +108,7 @@ def unit(request, code: str):
             "component": component,
             "tree": component_tree(ahu=ahu),
             "work": list(work),
+            "site_clock": zone_clock(ahu.building.site.time_zone, around=timezone.now()),
             **unit_records_context(ahu=ahu, system=request.user.unit_system),
         },
     )
@@ -202,6 +210,8 @@ def checklist(request, public_id):
             "cautions": cautions_for(data or {}),
             "caution_blocks": caution_blocks(cautions_for(data or {})),
             "started_at": timezone.now().isoformat(),
+            # The phone writes the times it shows (a form waiting in the outbox, the last sync) on the site's clock.
+            "site_clock": zone_clock(wo.ahu.building.site.time_zone, around=timezone.now()),
             "result": None
             if done
             else selectors.result_for_display(result=result, system=system, labels=selectors.item_labels(data)),

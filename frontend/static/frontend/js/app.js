@@ -1,11 +1,11 @@
 // App start: service worker, the outbox bar, replay on start and on reconnect, page modules, sign-out.
 // A shared phone: the bar counts only the signed-in person's forms; the worker keeps only their pages.
 import { currentOwner, myMeta, myOutbox, syncOutbox } from "./sync.js";
+import { pageClock, timeText } from "./units.js";
 
+// As the server writes times: on the clock the page ships (the site's, or where the person works), zone named.
 function formatTime(iso) {
-  if (!iso) return "never";
-  const d = new Date(iso);
-  return d.toLocaleString(undefined, { dateStyle: "short", timeStyle: "short" });
+  return (iso && timeText(iso, pageClock())) || "never";
 }
 
 export async function renderOutbox() {

@@ -8,7 +8,7 @@ import { meterPlausibleText, meterReadingCheck } from "./meter.js";
 import { newUuid, outboxPut } from "./outbox.js";
 import { attachSignature } from "./signature.js";
 import { announce, currentOwner, myOutbox, myResults, syncOutbox } from "./sync.js";
-import { fromDisplay, toDisplay } from "./units.js";
+import { fromDisplay, pageClock, timeText, toDisplay } from "./units.js";
 
 const PHOTO_MAX_SIDE = 1600;
 
@@ -368,7 +368,7 @@ function renderPending(box, item) {
     section.append(el("ul", { class: "errorlist" },
       ...Object.entries(item.errors || {}).map(([k, v]) => el("li", {}, placeOf(k) + [].concat(v).join(" ")))));
   } else {
-    section.append(el("p", {}, `Finished ${new Date(item.form.finished_at).toLocaleString()}; waiting in the outbox to be sent.`));
+    section.append(el("p", {}, `Finished ${timeText(item.form.finished_at, pageClock())}; waiting in the outbox to be sent.`));
   }
   box.replaceChildren(section);
 }

@@ -1,5 +1,6 @@
 // Display units on the phone: the factors and labels come from the server (inspections/phone.py,
-// built from engineering/units.py), so the phone converts exactly as the server does. No DOM.
+// built from engineering/units.py), so the phone converts exactly as the server does; moments on a
+// site's clock from the server's zone table (accounts/clock.py), written as the server writes them. No DOM.
 
 const PLAIN = new Set(["percent", "current", "time", ""]);
 
@@ -99,4 +100,43 @@ export function renderPart(ctx, part, system) {
 
 export function render(ctx, parts, system) {
   return (parts || []).map((p) => renderPart(ctx, p, system)).join("");
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// Moments: accounts.clock.local_time_text on the phone, "2 Dec 2026 09:15 CET".
+
+const MONTHS = ["Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec"];
+const two = (n) => String(n).padStart(2, "0");
+
+/** The clock a page ships (accounts.clock.zone_clock, in <script type="application/json" id="site-clock">), or null. */
+export function pageClock(doc = globalThis.document) {
+  const node = doc && doc.getElementById("site-clock");
+  try { return node ? JSON.parse(node.textContent) : null; } catch (error) { return null; }
+}
+
+/**
+ * ``when`` (an ISO 8601 text, a Date or milliseconds) as the server writes it: "2 Dec 2026 09:15 CET".
+ * With the server's ``clock`` ({zone, spans: [[start ms, offset s, abbreviation], ...]}) on the site's clock,
+ * exactly as the server would; without one on the phone's own clock, still with its zone named. "" for no time.
+ */
+export function timeText(when, clock) {
+  const ms = when instanceof Date ? when.getTime() : typeof when === "number" ? when : Date.parse(when || "");
+  if (!Number.isFinite(ms)) return "";
+  const spans = clock && Array.isArray(clock.spans) ? clock.spans : [];
+  if (spans.length) {
+    let span = spans[0];
+    for (const s of spans) {
+      if (s[0] > ms) break;
+      span = s;
+    }
+    const d = new Date(ms + span[1] * 1000);
+    return `${d.getUTCDate()} ${MONTHS[d.getUTCMonth()]} ${d.getUTCFullYear()} ${two(d.getUTCHours())}:${two(d.getUTCMinutes())} ${span[2]}`;
+  }
+  const parts = {};
+  const format = new Intl.DateTimeFormat("en-GB", {
+    year: "numeric", month: "numeric", day: "numeric", hour: "2-digit", minute: "2-digit", hourCycle: "h23",
+    timeZoneName: "short",
+  });
+  for (const p of format.formatToParts(new Date(ms))) parts[p.type] = p.value;
+  return `${Number(parts.day)} ${MONTHS[Number(parts.month) - 1]} ${parts.year} ${parts.hour}:${parts.minute} ${parts.timeZoneName}`;
 }
