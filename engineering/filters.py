@@ -130,6 +130,8 @@ class FilterLoading:
     fraction_of_clean: float = 1.0
     # True when the reading is so far below clean that air is likely passing round or through the media.
     media_bypass_suspected: bool = False
+    # The reason as plain text and SI quantities (see EngineeringInputError.parts), for readers in other units.
+    parts: tuple = ()
 
 
 def filter_loading(
@@ -180,7 +182,7 @@ def filter_loading(
     of_clean = corrected / clean if clean > 0 else 1.0
     low = _below_clean(of_clean=of_clean, corrected=corrected, clean=clean)
     if low is not None:
-        verdict, reason = low
+        verdict, reason, parts = low
         return FilterLoading(
             corrected_dp_pa=corrected,
             fraction_of_span=frac,
@@ -188,6 +190,7 @@ def filter_loading(
             reason=reason,
             fraction_of_clean=of_clean,
             media_bypass_suspected=True,
+            parts=parts,
         )
     verdict = Verdict.FAIL if f >= ff else Verdict.WATCH if f >= wf else Verdict.OK
     reason = (
@@ -195,13 +198,32 @@ def filter_loading(
         f"{clean:.0f} Pa to final {final:.0f} Pa (watch from {wf * 100:.0f} %, fail from "
         f"{ff * 100:.0f} %)"
     )
+    parts = (
+        "filter ",
+        _pa(corrected),
+        f" at design airflow, {frac * 100:.0f} % of the way from clean ",
+        _pa(clean),
+        " to final ",
+        _pa(final),
+        f" (watch from {wf * 100:.0f} %, fail from {ff * 100:.0f} %)",
+    )
     return FilterLoading(
-        corrected_dp_pa=corrected, fraction_of_span=frac, verdict=verdict, reason=reason, fraction_of_clean=of_clean
+        corrected_dp_pa=corrected,
+        fraction_of_span=frac,
+        verdict=verdict,
+        reason=reason,
+        fraction_of_clean=of_clean,
+        parts=parts,
     )
 
 
-def _below_clean(*, of_clean: float, corrected: float, clean: float) -> tuple[Verdict, str] | None:
-    """FAIL below half the clean pressure drop, WATCH below 80 % of it, else None."""
+def _pa(value: float) -> dict:
+    """A pressure as a reason part (SI), shown in the reader's unit."""
+    return {"value": value, "quantity": "pressure"}
+
+
+def _below_clean(*, of_clean: float, corrected: float, clean: float) -> tuple[Verdict, str, tuple] | None:
+    """FAIL below half the clean pressure drop, WATCH below 80 % of it, else None (verdict, reason, its parts)."""
     r = round(of_clean, 9)
     if r >= BYPASS_WATCH_FRACTION:
         return None
@@ -212,7 +234,15 @@ def _below_clean(*, of_clean: float, corrected: float, clean: float) -> tuple[Ve
         f"{clean:.0f} Pa: {word} (fail below {BYPASS_FAIL_FRACTION * 100:.0f} %, watch below "
         f"{BYPASS_WATCH_FRACTION * 100:.0f} % of clean)"
     )
-    return verdict, reason
+    parts = (
+        "filter ",
+        _pa(corrected),
+        f" at design airflow is {of_clean * 100:.0f} % of its clean pressure drop ",
+        _pa(clean),
+        f": {word} (fail below {BYPASS_FAIL_FRACTION * 100:.0f} %, watch below "
+        f"{BYPASS_WATCH_FRACTION * 100:.0f} % of clean)",
+    )
+    return verdict, reason, parts
 
 
 @dataclass(frozen=True)

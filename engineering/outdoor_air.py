@@ -22,9 +22,11 @@ __all__ = [
     "MIN_DIFFERENCE_PPM",
     "OaFraction",
     "fraction_check",
+    "fraction_words",
     "oa_fraction_from_co2",
     "oa_fraction_from_temperatures",
     "outdoor_airflow_m3s",
+    "points_words",
 ]
 
 # Below these outdoor–return differences the fraction is dominated by sensor
@@ -53,6 +55,17 @@ class OaFraction:
     high: float
     raw_fraction: float
     outdoor_return_difference: float
+
+
+def points_words(uncertainty: float) -> str:
+    """An uncertainty of a fraction as every text states it: "± 3 points" (percentage points, whole)."""
+    return f"± {uncertainty * 100:.0f} points"
+
+
+def fraction_words(fraction: float, uncertainty: float) -> str:
+    """A fraction and its uncertainty as every text states them: "41 % ± 3 points" (the phone's evaluate.js
+    has the same words, fractionWords)."""
+    return f"{fraction * 100:.0f} % {points_words(uncertainty)}"
 
 
 # The measurement a fraction was found by, in words for messages.
@@ -106,24 +119,18 @@ def _fraction(
         (acc_m / diff) ** 2 + (acc_o * (ret - mixed) / diff**2) ** 2 + (acc_r * (mixed - outdoor) / diff**2) ** 2
     )
     if u >= max_uncertainty:
+        said = (
+            f"cannot compute an outdoor-air fraction by {_BY[method]}: with the sensor accuracies given the "
+            f"result would be {fraction_words(x, u)}, and an uncertainty of {points_words(max_uncertainty)} "
+            "or more says nothing; outdoor and return differ by only "
+        )
         raise IndeterminateError(
             field=names[2],
             value=mixed,
-            allowed=f"an uncertainty below ±{v.fmt(max_uncertainty)}",
-            message=(
-                f"cannot compute an outdoor-air fraction by {_BY[method]}: with the sensor "
-                f"accuracies given the result would be {x:.2f} ± {u:.2f}, and an "
-                f"uncertainty of ±{v.fmt(max_uncertainty)} or more says nothing; "
-                f"outdoor and return differ by only {v.fmt(round(abs(diff), 3))} {diff_unit}"
-            ),
+            allowed=f"an uncertainty below {points_words(max_uncertainty)}",
+            message=f"{said}{v.fmt(round(abs(diff), 3))} {diff_unit}",
             high=max_uncertainty,
-            parts=[
-                f"cannot compute an outdoor-air fraction by {_BY[method]}: with the sensor "
-                f"accuracies given the result would be {x:.2f} ± {u:.2f}, and an "
-                f"uncertainty of ±{v.fmt(max_uncertainty)} or more says nothing; "
-                "outdoor and return differ by only ",
-                {"value": abs(diff), "quantity": dq},
-            ],
+            parts=[said, {"value": abs(diff), "quantity": dq}],
         )
     if x < -u or x > 1.0 + u:
         raise IndeterminateError(
@@ -132,7 +139,7 @@ def _fraction(
             allowed=f"between outdoor {v.fmt(outdoor)} and return {v.fmt(ret)} {unit}",
             message=(
                 f"mixed {v.fmt(mixed)} {unit} is not between outdoor {v.fmt(outdoor)} {unit} "
-                f"and return {v.fmt(ret)} {unit} (even allowing ±{u:.2f} for sensor accuracy): "
+                f"and return {v.fmt(ret)} {unit} (even allowing {points_words(u)} for sensor accuracy): "
                 "check sensor placement, stratification or a heat source upstream"
             ),
             unit=unit,
@@ -143,7 +150,7 @@ def _fraction(
                 {"value": outdoor, "quantity": vq},
                 " and return ",
                 {"value": ret, "quantity": vq},
-                f" (even allowing ±{u:.2f} for sensor accuracy): "
+                f" (even allowing {points_words(u)} for sensor accuracy): "
                 "check sensor placement, stratification or a heat source upstream",
             ],
         )
@@ -272,7 +279,7 @@ def fraction_check(*, fraction: float, uncertainty: float, minimum: float) -> Ch
     mn = v.in_range("minimum", minimum, 0.0, 1.0, label="minimum outdoor-air fraction")
     lo, hi = x - u, x + u
     limits = {"minimum": mn, "low": max(lo, 0.0), "high": min(hi, 1.0), "uncertainty": u}
-    text = f"outdoor-air fraction {x * 100:.0f} % ± {u * 100:.0f} points"
+    text = f"outdoor-air fraction {fraction_words(x, u)}"
     if lo >= mn:
         return Check(Verdict.OK, x, limits, f"{text} is at or above the minimum {mn * 100:.0f} %")
     if hi < mn:

@@ -6,12 +6,14 @@ from rest_framework import serializers
 from rest_framework.response import Response
 from rest_framework.views import APIView
 
-from .calculators import CALCULATORS, CalcError, calculate
+from .calculators import CALCULATORS, CalcError, calculate, places_for
 
 
 class CalcInput(serializers.Serializer):
     values = serializers.DictField(
-        child=serializers.JSONField(), help_text="Input name → number in the user's display units."
+        child=serializers.JSONField(),
+        help_text="Input name → number in the user's display units (a choice's value; `place`: a site of yours,"
+        " `site-<id>`, or `sea-level`).",
     )
 
 
@@ -51,7 +53,9 @@ class CalcView(APIView):
         data.is_valid(raise_exception=True)
         system = request.user.unit_system
         try:
-            rows = calculate(name=name, values=data.validated_data["values"], system=system)
+            rows = calculate(
+                name=name, values=data.validated_data["values"], system=system, places=places_for(request.user)
+            )
         except CalcError as exc:
             return Response({"detail": str(exc), "errors": exc.errors}, status=400)
         return Response(CalcOutput({"calculator": name, "unit_system": system, "results": rows}).data)

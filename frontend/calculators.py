@@ -6,15 +6,18 @@ the edges and shapes the answer for the page and the API.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 from dataclasses import dataclass
 
+from accounts.inputs import parse_number
 from engineering import _validate as limits
 from engineering import airside, filters, outdoor_air
 from engineering.errors import EngineeringInputError
+from engineering.psychro import STANDARD_PRESSURE_PA, pressure_from_altitude
 from engineering.units import from_display, to_display, unit_label
 from inspections.display import plain_message
-from inspections.reasons import display_number, render
+from inspections.reasons import decimals_of, display_number, format_number, render
 
 
 @dataclass(frozen=True)
@@ -27,6 +30,60 @@ class Input:
     default_si: float | None = None
     # A choice instead of a number: (value, plain words) pairs, the first the default.
     choices: tuple[tuple[str, str], ...] = ()
+    # Where the air is: one of the person's places (their sites, then sea level); gives ``pressure_pa``.
+    place: bool = False
+
+
+@dataclass(frozen=True)
+class Place:
+    """Air at a site's atmospheric pressure: the standard atmosphere at its altitude, as the checklist's coil
+    check takes it (engineering.psychro.pressure_from_altitude, ASHRAE Handbook—Fundamentals ch.1 eq. 3)."""
+
+    key: str
+    name: str
+    altitude_m: float
+    pressure_pa: float
+
+
+SEA_LEVEL = Place("sea-level", "", 0.0, STANDARD_PRESSURE_PA)
+
+
+def places_for(user) -> list[Place]:
+    """The person's sites by name (each at its altitude), then sea level: the first is the default."""
+    from inventory.selectors import sites_visible_to
+
+    out = []
+    for site in sites_visible_to(user=user).order_by("name", "pk").only("pk", "name", "altitude_m"):
+        try:
+            pressure = pressure_from_altitude(altitude_m=site.altitude_m)
+        except EngineeringInputError:
+            continue  # an altitude stored out of range (manage.py check_data names it): not offered
+        out.append(Place(f"site-{site.pk}", site.name, site.altitude_m, pressure))
+    return [*out, SEA_LEVEL]
+
+
+def _altitude(place: Place, system: str) -> str:
+    unit = unit_label(quantity="length", system=system)
+    return f"{display_number(place.altitude_m, 'length', system, decimals=0)} {unit}"
+
+
+def place_words(place: Place, system: str) -> str:
+    """How a place reads in the choice: "Harbour House (350 m)", "sea level (101.325 kPa)"."""
+    if not place.name:
+        return "sea level"
+    return f"{place.name} ({_altitude(place, system)})"
+
+
+def air_assumed(place: Place, system: str) -> str:
+    """What the figure assumed of the air, in the person's units: "dry air at 97.2 kPa, the standard atmosphere
+    at 350 m (Harbour House)"."""
+    d = 1 if system == "si" else 2  # kPa to 0.1, in. Hg to 0.01 as barometers read (common practice)
+    pressure = display_number(place.pressure_pa, "absolute_pressure", system, decimals=d)
+    where = "at sea level" if not place.name else f"at {_altitude(place, system)} ({place.name})"
+    return (
+        f"dry air at {pressure} {unit_label(quantity='absolute_pressure', system=system)}, "
+        f"the standard atmosphere {where}"
+    )
 
 
 @dataclass(frozen=True)
@@ -48,10 +105,14 @@ def _row(label: str, value: float, quantity: str, system: str) -> dict:
 
 
 def _fraction_rows(result: outdoor_air.OaFraction, system: str) -> list[dict]:
+    # Said as the checklist's reasons say it: whole percent, the ± in percentage points.
     return [
-        {"label": "Outdoor-air fraction", "value": round(result.fraction * 100, 1), "unit": "%"},
-        {"label": "Uncertainty (±)", "value": round(result.uncertainty * 100, 1), "unit": "%"},
-        {"label": "Likely range", "value": f"{result.low * 100:.1f}–{result.high * 100:.1f}", "unit": "%"},
+        {
+            "label": "Outdoor-air fraction",
+            "value": outdoor_air.fraction_words(result.fraction, result.uncertainty),
+            "unit": "",
+        },
+        {"label": "Likely range", "value": f"{result.low * 100:.0f}–{result.high * 100:.0f}", "unit": "%"},
     ]
 
 
@@ -69,18 +130,27 @@ def _filter_loading(system: str, **si) -> list[dict]:
         _row("Pressure drop at design airflow", result.corrected_dp_pa, "pressure", system),
         {
             "label": "Loading (clean = 0 %, final = 100 %)",
-            "value": round(result.fraction_of_span * 100, 1),
+            "value": format_number(result.fraction_of_span * 100, 0),
             "unit": "%",
         },
         {"label": "Verdict", "value": result.verdict.value, "unit": "", "verdict": result.verdict.value},
-        {"label": "Reason", "value": result.reason, "unit": ""},
+        # In the reader's units, every pressure at its usual precision (the checklist's reasons do the same).
+        {"label": "Reason", "value": render(list(result.parts), system), "unit": ""},
     ]
 
 
-def _sensible_heat(system: str, **si) -> list[dict]:
+def _sensible_heat(system: str, *, place: Place, **si) -> list[dict]:
     # The checklist's coil check calls the same function: the air's density is taken at the state where
-    # the airflow was measured (a supply fan after the coil measures leaving air).
-    return [_row("Sensible heat added to the air", airside.sensible_heat_w(**si), "heat_rate", system)]
+    # the airflow was measured (a supply fan after the coil measures leaving air), at the site's pressure.
+    return [
+        _row(
+            "Sensible heat added to the air",
+            airside.sensible_heat_w(pressure_pa=place.pressure_pa, **si),
+            "heat_rate",
+            system,
+        ),
+        {"label": "Air assumed", "value": air_assumed(place, system), "unit": ""},
+    ]
 
 
 AIRFLOW_AT = (
@@ -134,13 +204,15 @@ CALCULATORS: dict[str, Calculator] = {
         Calculator(
             "sensible-heat",
             "Sensible heat of an airstream",
-            "Dry air at sea level (101.325 kPa), its density taken at the state where the airflow was measured"
-            " (as the checklist's coil check does); positive when the air is heated.",
+            "Dry air at the atmospheric pressure of the site's altitude (standard atmosphere), its density taken at"
+            " the state where the airflow was measured, as the checklist's coil check does; positive when the air"
+            " is heated.",
             (
                 Input("airflow_m3s", "Airflow", "airflow", *Q),
                 Input("t_in_c", "Entering air", "temperature", *T),
                 Input("t_out_c", "Leaving air", "temperature", *T),
                 Input("airflow_at", "Airflow measured at", "", None, None, choices=AIRFLOW_AT),
+                Input("place", "Site (its altitude sets the air pressure)", "", None, None, place=True),
             ),
             _sensible_heat,
         ),
@@ -148,26 +220,63 @@ CALCULATORS: dict[str, Calculator] = {
 }
 
 
-def _display(value_si: float | None, quantity: str, system: str) -> float | None:
-    if value_si is None:
-        return None
-    return round(to_display(value=value_si, quantity=quantity, system=system), 2)
+def bounds(spec: Input, system: str) -> tuple[float | None, float | None]:
+    """The input's allowed range in the person's unit at the quantity's display precision, rounded inward so
+    that a bound as shown, typed back, is allowed: 2,500 Pa is at most 10.03 in. w.c. (10.04 in. w.c. is
+    2,500.9 Pa; 1 in. w.c. = 249.0889 Pa, engineering/units.py)."""
+    d = decimals_of(spec.quantity, system)
+    scale = 10**d
+
+    def shown(value_si: float | None, inward: Callable[[float], float]) -> float | None:
+        if value_si is None:
+            return None
+        x = to_display(value=value_si, quantity=spec.quantity, system=system)
+        return inward(round(x * scale, 6)) / scale  # round(…, 6): 760.0000001 is 760, not 761
+
+    return shown(spec.low_si, math.ceil), shown(spec.high_si, math.floor)
 
 
-def input_fields(calc: Calculator, system: str) -> list[dict]:
+def allowed_text(spec: Input, system: str) -> str:
+    """ "from 0.00 to 10.03 in. w.c.": the range as a person reads it (numbers as the reasons show them)."""
+    lo, hi = bounds(spec, system)
+    d = decimals_of(spec.quantity, system)
+    unit = unit_label(quantity=spec.quantity, system=system)
+    if lo is not None and hi is not None:
+        return f"from {format_number(lo, d)} to {format_number(hi, d)} {unit}"
+    if lo is not None:
+        return f"at least {format_number(lo, d)} {unit}"
+    if hi is not None:
+        return f"at most {format_number(hi, d)} {unit}"
+    return f"any number in {unit}"
+
+
+def _typed(raw: object) -> str:
+    """The typed text as a message repeats it, cut short."""
+    text = str(raw).strip()
+    return text if len(text) <= 40 else text[:39] + "…"
+
+
+def input_fields(calc: Calculator, system: str, places: list[Place] | None = None) -> list[dict]:
     """Inputs with their display unit and allowed range, for the form and the offline checks."""
-    return [
-        {
-            "name": i.name,
-            "label": i.label,
-            "unit": unit_label(quantity=i.quantity, system=system) if i.quantity else "",
-            "min": _display(i.low_si, i.quantity, system) if i.quantity else None,
-            "max": _display(i.high_si, i.quantity, system) if i.quantity else None,
-            "id": f"{calc.name}-{i.name}",
-            "choices": [{"value": k, "label": words} for k, words in i.choices],
-        }
-        for i in calc.inputs
-    ]
+    out = []
+    for i in calc.inputs:
+        lo, hi = bounds(i, system) if i.quantity else (None, None)
+        choices = i.choices
+        if i.place:
+            choices = tuple((p.key, place_words(p, system)) for p in places or [SEA_LEVEL])
+        out.append(
+            {
+                "name": i.name,
+                "label": i.label,
+                "unit": unit_label(quantity=i.quantity, system=system) if i.quantity else "",
+                "min": lo,
+                "max": hi,
+                "allowed": allowed_text(i, system) if i.quantity else "",
+                "id": f"{calc.name}-{i.name}",
+                "choices": [{"value": k, "label": words} for k, words in choices],
+            }
+        )
+    return out
 
 
 class CalcError(Exception):
@@ -184,42 +293,59 @@ def _restate(exc: EngineeringInputError, inputs: dict[str, Input], typed: dict, 
     if spec is None or (exc.low is None and exc.high is None):
         return plain_message(exc)
     unit = unit_label(quantity=spec.quantity, system=system)
-    lo = _display(exc.low, spec.quantity, system)
-    hi = _display(exc.high, spec.quantity, system)
+    lo = None if exc.low is None else display_number(exc.low, spec.quantity, system)
+    hi = None if exc.high is None else display_number(exc.high, spec.quantity, system)
     allowed = (
         f"from {lo} to {hi} {unit}"
         if lo is not None and hi is not None
         else (f"at least {lo} {unit}" if lo is not None else f"at most {hi} {unit}")
     )
-    return f"{spec.label}: {typed.get(exc.field)} {unit} is not allowed; allowed {allowed}"
+    return f"{spec.label}: {_typed(typed.get(exc.field))} {unit} is not allowed; allowed {allowed}"
 
 
-def calculate(*, name: str, values: dict, system: str) -> list[dict]:
-    """Run one calculator on values typed in the user's units; CalcError names each bad field."""
+def check_number(spec: Input, raw: object, system: str) -> tuple[float | None, str]:
+    """A typed number inside the input's shown range, in SI; or None and the message that names the field, the
+    value and the allowed range (blank: missing; text, 1e400, NaN: not a usable number; else outside)."""
+    allowed = allowed_text(spec, system)
+    if raw is None or (isinstance(raw, str) and not raw.strip()):
+        return None, f"{spec.label}: missing; enter a number {allowed}"
+    number = parse_number(raw)
+    if number is None:
+        said = "" if isinstance(raw, float) else f"{_typed(raw)} is "  # a lost entry (the browser's NaN)
+        return None, f"{spec.label}: {said}not a usable number; allowed {allowed}"
+    lo, hi = bounds(spec, system)
+    if (lo is not None and number < lo) or (hi is not None and number > hi):
+        unit = unit_label(quantity=spec.quantity, system=system)
+        return None, f"{spec.label}: {_typed(raw)} {unit} is outside the allowed range, {allowed}"
+    return from_display(value=number, quantity=spec.quantity, system=system), ""
+
+
+def calculate(*, name: str, values: dict, system: str, places: list[Place] | None = None) -> list[dict]:
+    """Run one calculator on values typed in the user's units; CalcError names each bad field.
+
+    ``places``: the person's places (``places_for``) for a calculator that needs the air's pressure; sea level
+    when not given."""
     calc = CALCULATORS[name]
     by_name = {i.name: i for i in calc.inputs}
-    si, errors = {}, {}
+    si: dict = {}
+    errors = {}
     for spec in calc.inputs:
         raw = values.get(spec.name)
-        if spec.choices:
-            keys = [k for k, _ in spec.choices]
-            picked = keys[0] if raw in (None, "") else raw
-            if picked in keys:
-                si[spec.name] = picked
+        if spec.choices or spec.place:
+            offered = {p.key: p for p in places or [SEA_LEVEL]} if spec.place else dict(spec.choices)
+            picked = next(iter(offered)) if raw in (None, "") else raw
+            if isinstance(picked, str) and picked in offered:
+                si[spec.name] = offered[picked] if spec.place else picked
             else:
-                words = " or ".join(w for _, w in spec.choices)
+                words = " or ".join(place_words(p, system) for p in offered.values()) if spec.place else None
+                words = words or " or ".join(w for _, w in spec.choices)
                 errors[spec.name] = [f"{spec.label}: choose {words}"]
             continue
-        unit = unit_label(quantity=spec.quantity, system=system)
-        try:
-            number = float(str(raw).replace(",", "."))
-        except (TypeError, ValueError):
-            errors[spec.name] = [f"{spec.label}: {raw!r} is not a number in {unit}"]
-            continue
-        try:
-            si[spec.name] = from_display(value=number, quantity=spec.quantity, system=system)
-        except EngineeringInputError as exc:
-            errors[spec.name] = [f"{spec.label}: {number} {unit} is not allowed ({exc.allowed})"]
+        number, problem = check_number(spec, raw, system)
+        if problem:
+            errors[spec.name] = [problem]
+        else:
+            si[spec.name] = number
     if errors:
         raise CalcError(errors)
     try:
@@ -230,11 +356,20 @@ def calculate(*, name: str, values: dict, system: str) -> list[dict]:
         )
 
 
-def calculator_context() -> dict:
+def calculator_context(places: list[Place] | None = None) -> dict:
     """What calc.js needs to work every figure offline with the same numbers: the inputs of each
-    calculator (name, label, quantity, SI range), the display-unit factors and the thresholds."""
+    calculator (name, label, quantity, SI range, its range as shown in each unit system), the person's places
+    with their pressure and words, the display-unit factors and the thresholds."""
     from inspections.phone import constants, unit_table
     from inspections.reasons import DECIMALS
+
+    def shown(i: Input) -> dict:
+        if not i.quantity:
+            return {}
+        return {
+            "bounds": {s: list(bounds(i, s)) for s in ("si", "us")},
+            "allowed": {s: allowed_text(i, s) for s in ("si", "us")},
+        }
 
     return {
         "calculators": {
@@ -245,12 +380,23 @@ def calculator_context() -> dict:
                     "quantity": i.quantity,
                     "low": i.low_si,
                     "high": i.high_si,
+                    **shown(i),
                     **({"choices": [[k, w] for k, w in i.choices]} if i.choices else {}),
+                    **({"place": True} if i.place else {}),
                 }
                 for i in c.inputs
             ]
             for c in CALCULATORS.values()
         },
+        "places": [
+            {
+                "key": p.key,
+                "pressure_pa": p.pressure_pa,
+                "words": {s: place_words(p, s) for s in ("si", "us")},
+                "assumed": {s: air_assumed(p, s) for s in ("si", "us")},
+            }
+            for p in places or [SEA_LEVEL]
+        ],
         "units": unit_table(),
         "decimals": {q: list(d) for q, d in DECIMALS.items()},
         "constants": constants(),

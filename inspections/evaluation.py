@@ -468,6 +468,8 @@ def required_outdoor_airflow_m3s(ahu) -> float | None:
     return None if need is None else need.vot_m3s
 
 
+# The start of an outdoor-air refusal that names the measurement itself (engineering.outdoor_air).
+CANNOT_COMPUTE_FRACTION = "cannot compute an outdoor-air fraction"
 # How the outdoor-air fraction stands against the ventilation requirement, in words (never the verdict's code).
 REQUIREMENT_WORDS = {OK: "met", WATCH: "cannot decide (the band spans it)", FAIL: "not met"}
 
@@ -527,7 +529,9 @@ def _oa_checks(form: Form, consumed: set) -> list[Result]:
         except EngineeringInputError as exc:
             by = "CO2" if method == "co2" else "temperatures"
             res.verdict = WATCH
-            res.say(f"outdoor-air fraction by {by}: ", refusal_parts(exc))
+            lead = f"outdoor-air fraction by {by}: "
+            # A refusal that already says "cannot compute an outdoor-air fraction by …" is not led by it again.
+            res.say("" if str(exc).startswith(CANNOT_COMPUTE_FRACTION) else lead, refusal_parts(exc))
             out.append(res)
             continue
         oa_q = outdoor_air.outdoor_airflow_m3s(fraction=frac.fraction, supply_airflow_m3s=q)
@@ -570,7 +574,7 @@ def _oa_checks(form: Form, consumed: set) -> list[Result]:
         )
         verdict = chk.verdict
         parts = [
-            f"by {label}: outdoor air {frac.fraction * 100:.0f} % ± {frac.uncertainty * 100:.0f} points (",
+            f"by {label}: outdoor air {outdoor_air.fraction_words(frac.fraction, frac.uncertainty)} (",
             qty(oa_q, "airflow"),
             f"); the unit's design minimum {ahu.design_min_oa_fraction * 100:.0f} % (",
             qty(design_min_q, "airflow"),

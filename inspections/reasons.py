@@ -64,13 +64,22 @@ def _decimals(part: dict, system: str) -> int:
     return part.get("decimals", si)
 
 
-def _number(value_si: float, quantity: str, system: str, decimals: int) -> str:
-    x = checklists.to_display(value_si, quantity, system)
-    # Thousands grouped only where a number gets long (e.g. 154,000 Btu/h).
+def format_number(x: float, decimals: int) -> str:
+    """A number as reasons show it: ``decimals`` places, thousands grouped from 10 000 (e.g. 154,000 Btu/h),
+    a true minus sign, no "−0" (the phone's twin: units.js formatNumber)."""
     text = f"{x:,.{decimals}f}" if abs(x) >= 10_000 else f"{x:.{decimals}f}"
     if float(text.replace(",", "")) == 0:
         text = text.lstrip("-")
     return text.replace("-", "−")
+
+
+def decimals_of(quantity: str, system: str) -> int:
+    """The quantity's usual display precision in ``system`` (``DECIMALS``)."""
+    return _decimals({"quantity": quantity}, system)
+
+
+def _number(value_si: float, quantity: str, system: str, decimals: int) -> str:
+    return format_number(checklists.to_display(value_si, quantity, system), decimals)
 
 
 def display_number(value_si: float, quantity: str, system: str, *, decimals: int | None = None) -> str:
@@ -120,3 +129,13 @@ def flatten(*pieces: Any) -> list:
             elif x != "":
                 out.append(x)
     return out
+
+
+def without_subject(parts: list, subject: str) -> list:
+    """The parts without a leading "<subject>: ": a text whose heading already names its part (a finding's
+    title "Filter loaded — Final filters") says the part once, not "Final filters: Final filters: …"."""
+    lead = f"{subject}: "
+    if not subject or not parts or not isinstance(parts[0], str) or not parts[0].startswith(lead):
+        return list(parts)
+    rest = parts[0][len(lead) :]
+    return ([rest] if rest else []) + list(parts[1:])

@@ -17,6 +17,7 @@ from django.utils import timezone
 
 from accounts.services import audit_record
 from engineering.freeze import daily_minimums_from_normals
+from engineering.outdoor_air import fraction_words
 
 from .. import reasons as rs
 from ..evaluation import ITEM_CONDITIONS, SEVERITY
@@ -186,7 +187,7 @@ def _outdoor_air_parts(*, check: str, derived: dict, ahu, design_review: bool) -
         return None
     by = "temperatures" if check == "oa_fraction_temperature" else "CO2"
     parts: list = [
-        f"Outdoor air measured by {by}: {x * 100:.0f} % ± {u * 100:.0f} points of the supply air (",
+        f"Outdoor air measured by {by}: {fraction_words(x, u)} of the supply air (",
         rs.q(oa_q, "airflow"),
         f"); the unit's design minimum is {dmin * 100:.0f} % (",
         rs.q(dmin_q, "airflow"),
@@ -214,12 +215,17 @@ def _outdoor_air_parts(*, check: str, derived: dict, ahu, design_review: bool) -
 
 
 def _text_parts(ev: Evaluation, res, *, ahu, design_review: bool) -> list:
-    """The finding's text: the check's numbers and the limit that failed it, from the evaluation's parts."""
+    """The finding's text: the check's numbers and the limit that failed it, from the evaluation's parts.
+
+    The title names the part ("Filter loaded — Final filters"), so the text does not start with it again: every
+    page and PDF shows the two together ("Filter loaded — Final filters: filter at 112 % of its span …").
+    """
     if res.check in OUTDOOR_AIR_CHECKS:
         parts = _outdoor_air_parts(check=res.check, derived=ev.derived, ahu=ahu, design_review=design_review)
         if parts is not None:
             return parts
-    return list(ev.reason_parts or ([ev.reason] if ev.reason else []))
+    parts = list(ev.reason_parts or ([ev.reason] if ev.reason else []))
+    return rs.without_subject(parts, res.component.name) if res.component is not None else parts
 
 
 def evaluations_store(*, inspection: Inspection, results, amendment=None) -> list[Evaluation]:
@@ -532,7 +538,11 @@ def _corrective_for_group(*, inspection, condition: str, findings: list[Finding]
             title += f" — {component.name}" if component is not None else _parts_named(findings)
         else:
             title = findings[0].title
-        reason = "; ".join(f.reason for f in findings)
+        # Work for several parts names each part before its finding's text (the title names no single part).
+        reason = "; ".join(
+            f"{f.component.name}: {f.reason}" if component is None and f.component is not None else f.reason
+            for f in findings
+        )
         if urgent:
             reason += f" — inside or within {FREEZE_LEAD_DAYS} days of the freeze season at {site.name}"
         wo = corrective_work_order_propose(
@@ -608,14 +618,41 @@ def _close(finding: Finding, *, at: dt.datetime, cause: str, by, changes: dict) 
 
 
 def findings_close_corrected(*, work_order, by) -> list[Finding]:
-    """Close the open findings whose corrective work order has just been completed, at its completion time."""
+    """Close the open findings whose corrective work order has just been completed, at its completion time.
+
+    A finding the work order's own form saw failing again (a retest after the repair that still fails) is not
+    corrected: it stays open and gets new corrective work, proposed as its first failure's was (urgent near the
+    freeze season), so the fault never reads as closed while it is still there.
+    """
     at = work_order.completed_at or timezone.now()
-    found = list(Finding.objects.select_for_update().filter(corrective_work_order=work_order, state=Finding.State.OPEN))
-    for finding in found:
+    found = list(
+        Finding.objects.select_for_update(of=("self",))
+        .filter(corrective_work_order=work_order, state=Finding.State.OPEN)
+        .select_related("latest_inspection__work_order", "ahu__building__site", "component")
+    )
+    still_failing = [f for f in found if f.latest_inspection and f.latest_inspection.work_order_id == work_order.pk]
+    closed = [f for f in found if f not in still_failing]
+    for finding in closed:
         _close(
             finding, at=at, cause=Finding.CloseCause.CORRECTED, by=by, changes={"work_order": str(work_order.public_id)}
         )
-    return found
+    groups: dict[str, list[Finding]] = {}
+    for finding in still_failing:
+        finding.corrective_work_order = work_order  # completed now: no longer open work for it
+        groups.setdefault(_known(finding.condition_code) or f"problem:{finding.problem}", []).append(finding)
+    for key, group in groups.items():
+        inspection = group[0].latest_inspection
+        site = group[0].ahu.building.site
+        _corrective_for_group(
+            inspection=inspection,
+            condition=key if not key.startswith("problem:") else "",
+            findings=group,
+            urgent=any(f.severity == "critical" for f in group),
+            source_ref=f"inspection:{inspection.pk}",
+            site=site,
+            by=by,
+        )
+    return closed
 
 
 def findings_reopen_for_rework(*, work_order, by) -> list[Finding]:

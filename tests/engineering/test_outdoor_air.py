@@ -81,8 +81,9 @@ def test_co2_too_alike_is_indeterminate():
 
 
 def test_uncertainty_too_large_is_indeterminate():
-    """350 ppm apart with ±(50 ppm + 3 %) sensors is ±0.5 or worse: meaningless."""
-    with pytest.raises(IndeterminateError, match=r"±0\.5"):
+    """350 ppm apart with ±(50 ppm + 3 %) sensors is ±0.5 (± 50 points) or worse: meaningless; the texts
+    say the uncertainty in percentage points, as the checklist's reasons do."""
+    with pytest.raises(IndeterminateError, match=r"± 50 points or more"):
         oa_fraction_from_co2(co2_outdoor_ppm=420.0, co2_return_ppm=560.0, co2_supply_or_mixed_ppm=500.0)
 
 

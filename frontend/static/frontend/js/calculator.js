@@ -12,15 +12,25 @@ function csrfToken() {
   return match ? decodeURIComponent(match[1]) : "";
 }
 
+// What each field holds: its text, NaN where the browser dropped what was typed (1e400 in a number field reads
+// as ""; validity.badInput tells it apart from a blank), a choice's value.
+function typedValues(form) {
+  return Object.fromEntries([...form.querySelectorAll("input[type=number], select")].map((i) => [i.name, i.validity && i.validity.badInput ? NaN : i.value]));
+}
+
+// Without the calculator context (a page from before it): the shown ranges only, in the server's words.
 function rangeProblems(form) {
   const problems = [];
   for (const input of form.querySelectorAll("input[type=number]")) {
     const label = form.querySelector(`label[for="${input.id}"]`).textContent;
+    const allowed = input.dataset.allowed || "";
     const v = Number(input.value);
-    if (input.value.trim() === "" || Number.isNaN(v)) { problems.push(`${label}: enter a number in ${input.dataset.unit}`); continue; }
+    if (input.validity && input.validity.badInput) { problems.push(`${label}: not a usable number; allowed ${allowed}`); continue; }
+    if (input.value.trim() === "") { problems.push(`${label}: missing; enter a number ${allowed}`); continue; }
+    if (!Number.isFinite(v)) { problems.push(`${label}: ${input.value} is not a usable number; allowed ${allowed}`); continue; }
     const lo = input.dataset.min === undefined ? null : Number(input.dataset.min);
     const hi = input.dataset.max === undefined ? null : Number(input.dataset.max);
-    if ((lo !== null && v < lo) || (hi !== null && v > hi)) problems.push(`${label}: ${v} ${input.dataset.unit} is outside ${lo} to ${hi} ${input.dataset.unit}`);
+    if ((lo !== null && v < lo) || (hi !== null && v > hi)) problems.push(`${label}: ${input.value} ${input.dataset.unit} is outside the allowed range, ${allowed}`);
   }
   return problems;
 }
@@ -46,8 +56,7 @@ async function run(form) {
   const box = form.querySelector("[data-calc-result]");
   const ctx = calculatorContext();
   if (ctx && ctx.calculators[form.dataset.calc]) {
-    const typed = Object.fromEntries([...form.querySelectorAll("input[type=number], select")].map((i) => [i.name, i.value]));
-    const answer = calculate(ctx, form.dataset.calc, typed, document.body.dataset.units || "si");
+    const answer = calculate(ctx, form.dataset.calc, typedValues(form), document.body.dataset.units || "si");
     if (answer.rows) show(box, answer.rows, [], "");
     else show(box, [], Object.values(answer.errors).flat(), "");
     return;
@@ -58,7 +67,7 @@ async function run(form) {
     return;
   }
   if (problems.length) { show(box, [], problems, ""); return; }
-  const values = Object.fromEntries([...form.querySelectorAll("input[type=number], select")].map((i) => [i.name, i.tagName === "SELECT" ? i.value : Number(i.value)]));
+  const values = Object.fromEntries([...form.querySelectorAll("input[type=number], select")].map((i) => [i.name, i.value]));
   try {
     const response = await fetch(`/api/calc/${form.dataset.calc}/`, {
       method: "POST", credentials: "same-origin",
@@ -75,6 +84,9 @@ async function run(form) {
 
 export function startCalculator() {
   for (const form of document.querySelectorAll("form[data-calc]")) {
+    // The page's own checks answer every field in words (a blank one, 1e400), and the old result goes: the
+    // browser's bubbles would stop the submit and leave the last figure showing.
+    form.noValidate = true;
     form.addEventListener("submit", (event) => { event.preventDefault(); run(form); });
   }
 }

@@ -140,11 +140,20 @@ export function filterLoading(ctx, { dp, q, qd, clean, final, watchFraction = 0.
     const verdict = r < c.filter_bypass_fail_fraction ? FAIL : WATCH;
     const word = verdict === FAIL ? "missing, torn or bypassed media" : "possibly torn or bypassed media";
     const reason = `filter ${fixed(corrected, 0)} Pa at design airflow is ${pct(ofClean)} % of its clean pressure drop ${fixed(clean, 0)} Pa: ${word} (fail below ${pct(c.filter_bypass_fail_fraction)} %, watch below ${pct(c.filter_bypass_watch_fraction)} % of clean)`;
-    return { corrected, fraction: frac, ofClean, bypass: true, verdict, reason };
+    const parts = ["filter ", pa(corrected), ` at design airflow is ${pct(ofClean)} % of its clean pressure drop `, pa(clean),
+      `: ${word} (fail below ${pct(c.filter_bypass_fail_fraction)} %, watch below ${pct(c.filter_bypass_watch_fraction)} % of clean)`];
+    return { corrected, fraction: frac, ofClean, bypass: true, verdict, reason, parts };
   }
   const verdict = f >= failFraction ? FAIL : f >= watchFraction ? WATCH : OK;
   const reason = `filter ${fixed(corrected, 0)} Pa at design airflow, ${pct(frac)} % of the way from clean ${fixed(clean, 0)} Pa to final ${fixed(final, 0)} Pa (watch from ${pct(watchFraction)} %, fail from ${pct(failFraction)} %)`;
-  return { corrected, fraction: frac, ofClean, bypass: false, verdict, reason };
+  const parts = ["filter ", pa(corrected), ` at design airflow, ${pct(frac)} % of the way from clean `, pa(clean), " to final ", pa(final),
+    ` (watch from ${pct(watchFraction)} %, fail from ${pct(failFraction)} %)`];
+  return { corrected, fraction: frac, ofClean, bypass: false, verdict, reason, parts };
+}
+
+// A pressure as a reason part (SI), shown in the reader's unit (engineering/filters.py: _pa).
+function pa(value) {
+  return { value, quantity: "pressure" };
 }
 
 /** The pressure drop read just after a change against the rated clean value (engineering.filters.filter_after_change). */
@@ -316,6 +325,16 @@ export function filterForecast(ctx, { points, qd, final, confidence = 0.9, minRi
   };
 }
 
+/** An uncertainty of a fraction as every text states it: "± 3 points" (engineering/outdoor_air.py: points_words). */
+export function pointsWords(u) {
+  return `± ${fixed(u * 100, 0)} points`;
+}
+
+/** A fraction and its uncertainty: "41 % ± 3 points" (engineering/outdoor_air.py: fraction_words). */
+export function fractionWords(x, u) {
+  return `${fixed(x * 100, 0)} % ${pointsWords(u)}`;
+}
+
 function oaFraction({ method, outdoor, ret, mixed, accO, accR, accM, minDifference, maxUncertainty = 0.5, unit, names }) {
   const diff = ret - outdoor;
   if (Math.abs(diff) < minDifference) {
@@ -332,16 +351,16 @@ function oaFraction({ method, outdoor, ret, mixed, accO, accR, accM, minDifferen
   const u = Math.sqrt((accM / diff) ** 2 + ((accO * (ret - mixed)) / diff ** 2) ** 2 + ((accR * (mixed - outdoor)) / diff ** 2) ** 2);
   if (u >= maxUncertainty) {
     const du = unit === "°C" ? "K" : unit;
-    const by = `cannot compute an outdoor-air fraction by ${method === "co2" ? "CO2" : "temperatures"}: with the sensor accuracies given the result would be ${fixed(x, 2)} ± ${fixed(u, 2)}, and an uncertainty of ±${fmtG(maxUncertainty)} or more says nothing; outdoor and return differ by only `;
+    const by = `cannot compute an outdoor-air fraction by ${method === "co2" ? "CO2" : "temperatures"}: with the sensor accuracies given the result would be ${fractionWords(x, u)}, and an uncertainty of ${pointsWords(maxUncertainty)} or more says nothing; outdoor and return differ by only `;
     throw new EngineeringInputError(names[2], `${by}${fmtG(pyRound(Math.abs(diff), 3))} ${du}`,
       { high: maxUncertainty, parts: [by, { value: Math.abs(diff), quantity: quantityOf(du) }] });
   }
   if (x < -u || x > 1 + u) {
     const vq = quantityOf(unit);
-    throw new EngineeringInputError(names[2], `mixed ${fmtG(mixed)} ${unit} is not between outdoor ${fmtG(outdoor)} ${unit} and return ${fmtG(ret)} ${unit} (even allowing ±${fixed(u, 2)} for sensor accuracy): check sensor placement, stratification or a heat source upstream`,
+    throw new EngineeringInputError(names[2], `mixed ${fmtG(mixed)} ${unit} is not between outdoor ${fmtG(outdoor)} ${unit} and return ${fmtG(ret)} ${unit} (even allowing ${pointsWords(u)} for sensor accuracy): check sensor placement, stratification or a heat source upstream`,
       { parts: [
         "mixed ", { value: mixed, quantity: vq }, " is not between outdoor ", { value: outdoor, quantity: vq }, " and return ", { value: ret, quantity: vq },
-        ` (even allowing ±${fixed(u, 2)} for sensor accuracy): check sensor placement, stratification or a heat source upstream`,
+        ` (even allowing ${pointsWords(u)} for sensor accuracy): check sensor placement, stratification or a heat source upstream`,
       ] });
   }
   const fraction = Math.min(Math.max(x, 0), 1);
@@ -366,7 +385,7 @@ export function oaFractionFromCo2(o, r, m, accPpm = 50, accPct = 3) {
 function fractionCheck(x, u, mn) {
   const lo = x - u;
   const hi = x + u;
-  const text = `outdoor-air fraction ${fixed(x * 100, 0)} % ± ${fixed(u * 100, 0)} points`;
+  const text = `outdoor-air fraction ${fractionWords(x, u)}`;
   if (lo >= mn) return { verdict: OK, reason: `${text} is at or above the minimum ${fixed(mn * 100, 0)} %` };
   if (hi < mn) return { verdict: FAIL, reason: `${text} is below the minimum ${fixed(mn * 100, 0)} %` };
   return { verdict: WATCH, reason: `cannot decide: ${text} spans the minimum ${fixed(mn * 100, 0)} %; measure again when outdoor and return differ more` };
@@ -660,7 +679,9 @@ function oaChecks(form) {
     } catch (exc) {
       if (!(exc instanceof EngineeringInputError)) throw exc;
       res.verdict = WATCH;
-      say(res, `outdoor-air fraction by ${method === "co2" ? "CO2" : "temperatures"}: `, refusalParts(exc));
+      // A refusal that already says "cannot compute an outdoor-air fraction by …" is not led by it again.
+      const lead = `outdoor-air fraction by ${method === "co2" ? "CO2" : "temperatures"}: `;
+      say(res, String(exc.message).startsWith("cannot compute an outdoor-air fraction") ? "" : lead, refusalParts(exc));
       out.push(res);
       continue;
     }
@@ -699,7 +720,7 @@ function oaChecks(form) {
     const chk = fractionCheck(frac.fraction, frac.uncertainty, u.design_min_oa_fraction);
     let verdict = chk.verdict;
     const parts = [
-      `by ${label}: outdoor air ${fixed(frac.fraction * 100, 0)} % ± ${fixed(frac.uncertainty * 100, 0)} points (`, q(oaQ, "airflow"),
+      `by ${label}: outdoor air ${fractionWords(frac.fraction, frac.uncertainty)} (`, q(oaQ, "airflow"),
       `); the unit's design minimum ${fixed(u.design_min_oa_fraction * 100, 0)} % (`, q(designMinQ, "airflow"), `): ${words[chk.verdict]}`,
     ];
     if (need && flow > 0) {
