@@ -50,6 +50,7 @@ from .models import MeterReading, TaskDefinition, UnitTaskSetting, WorkOrder, Wo
 from .selectors import effective_tasks
 from .services.seasons import SEASON_LOOKBACK_DAYS, season_key, season_starts_for_sites
 from .targets import TaskTargets
+from .titles import visit_title
 
 BUNDLE_DAYS = 14
 RATE_WINDOW_DAYS = 120  # "recent" run-hour rate: readings of the last four months (common practice)
@@ -353,12 +354,7 @@ def _task_occurrences(*, unit: _Unit, task, targets, site: _SiteDay, rules: _Rul
 
 
 def _title(tasks: list[TaskDefinition]) -> str:
-    return _title_of(", ".join(sorted({t.name for t in tasks})))
-
-
-def _title_of(names: str) -> str:
-    title = f"Preventive maintenance: {names}"
-    return title if len(title) <= 200 else title[:197] + "…"
+    return visit_title(t.name for t in tasks)
 
 
 def _units(ahus_qs) -> tuple[list[_Unit], dict[int, object]]:
@@ -651,8 +647,7 @@ def _join_visits(attach: list[tuple[int, _Occ]], *, organisation, audit: list) -
     for wo in WorkOrder.objects.filter(pk__in=joined).only("id", "due_date", "overdue_on", "title", "version"):
         occs = joined[wo.pk]
         tasks = stored.get(wo.pk) or []
-        names = ", ".join(sorted({name for name, _ in tasks}))
-        title = _title_of(names)
+        title = visit_title(name for name, _ in tasks)
         due = min((d for _, d in tasks), default=wo.due_date)
         joined_overdue = min(overdue_day(o.due, o.task.grace_days) for o in occs)
         overdue_on = min(wo.overdue_on, joined_overdue) if wo.overdue_on else joined_overdue

@@ -23,6 +23,7 @@ from ..models import CalendarFeed, WorkOrder, WorkOrderTask, overdue_day
 from ..selectors import effective_tasks, site_today
 from ..signals import work_order_moved
 from ..targets import task_targets
+from ..titles import title_fit
 
 State = WorkOrder.State
 
@@ -335,7 +336,7 @@ def corrective_work_order_propose(
         component=component,
         kind=WorkOrder.Kind.CORRECTIVE,
         priority=priority,
-        title=title[:200],
+        title=title_fit(title),
         reason=reason,
         condition_code=condition_code,
         source_ref=source_ref[:200],
