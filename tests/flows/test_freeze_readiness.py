@@ -284,3 +284,49 @@ def test_the_latest_freeze_test_of_the_demo_round_is_what_everyone_reads(
         assert re.search(
             r"AHU-L1 \(Elderbank Library\) 2026-11-05 \S+ Not ready 2026-12-02 test failed on 2 Dec 2026:", pdf
         )
+
+
+@pytest.mark.django_db
+def test_a_retest_on_the_corrective_work_that_fails_again_keeps_the_fault_open_with_new_work(
+    api_client, client, time_machine, django_capture_on_commit_callbacks
+):
+    """3 Oct: stage 1 at −9 °C fails. 8 Oct: the retest on the corrective work still switches stage 1 on at −8 °C.
+    Completing that work order does not close the finding as corrected: it stays open (seen twice), new urgent
+    corrective work holds it, and readiness says "not ready" with the retest's date and the new work's state."""
+    wo, tech = make_visit(tasks=["preheater_freeze"])
+    site = wo.ahu.building.site
+    Site.objects.filter(pk=site.pk).update(
+        freeze_season_start=SEASON_START, normals_min_c=[10.0] * 12, normals_max_c=[20.0] * 12
+    )
+    site.refresh_from_db()
+    ComponentFactory(
+        ahu=wo.ahu,
+        kind="electric_preheater",
+        name="Electric preheater",
+        position=1,
+        specs={"power_w": 24_000, "stages": 3, "switch_on_c": THRESHOLD_C},
+    )
+    boss = make_supervisor(wo.organisation)
+    manager = make_person(organisation=wo.organisation, role=Role.PROPERTY_MANAGER)
+    site_grant(user=manager, site=site)
+    time_machine.move_to(FAILED_ON + dt.timedelta(hours=1), tick=False)
+    _send(api_client, tech, wo, {"preheater_freeze.stage_on_temp": -9.0}, FAILED_ON)
+    [finding] = Finding.objects.filter(ahu=wo.ahu, state=Finding.State.OPEN)
+    cwo = finding.corrective_work_order
+
+    work_order_assign(work_order=cwo, assignee=tech, by=boss)
+    time_machine.move_to(RETEST_ON + dt.timedelta(hours=1), tick=False)
+    retest = _send(api_client, tech, cwo, {"preheater_freeze.stage_on_temp": -8.0}, RETEST_ON)
+    assert retest["work_order_state"] == "completed"  # the repair visit is done; the fault is not
+    finding.refresh_from_db()
+    assert finding.state == Finding.State.OPEN and finding.times_seen == 2 and not finding.close_cause
+    new = finding.corrective_work_order
+    assert new is not None and new.pk != cwo.pk
+    assert new.state in WorkOrder.OPEN_STATES and new.priority == "urgent"
+
+    time_machine.move_to(dt.datetime(2025, 10, 9, 9, tzinfo=dt.UTC), tick=False)
+    says = _what_everyone_says(client, api_client, manager, site, django_capture_on_commit_callbacks)
+    assert says["api"]["status"] == "not_ready"
+    assert says["api"]["reason"].startswith("not ready — test failed on 8 Oct 2025: ")
+    assert says["api"]["reason"].endswith("; corrective work planned"), says["api"]["reason"]
+    assert "0 of 1 freeze-protected units ready" in says["pdf"]
