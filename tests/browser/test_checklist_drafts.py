@@ -131,7 +131,10 @@ def test_a_draft_stays_with_its_person_on_a_shared_phone(page, live_server, worl
         wait_draft(page)
 
     def sign_out():
+        # The sign-out first tries to send the outbox, then submits: wait for the sign-in page it lands on, or
+        # the next sign-in's navigation races it.
         page.get_by_role("button", name="Sign out").click()
+        expect(page).to_have_url(re.compile(r"/login/"), timeout=15000)
         page.wait_for_load_state("load")
 
     open_as(world.technician)
