@@ -1,8 +1,11 @@
 """Helpers for report tests: ask for a report through the service, read its PDF, rasterise its first pages."""
 
+import html
 import io
+import re
 import shutil
 import subprocess
+from dataclasses import dataclass
 from pathlib import Path
 
 import pytest
@@ -57,7 +60,12 @@ def pdf_bytes(report: Report) -> bytes:
 
 
 def pdf_text(report: Report) -> str:
-    reader = PdfReader(io.BytesIO(pdf_bytes(report)))
+    return text_of(pdf_bytes(report))
+
+
+def text_of(pdf: bytes) -> str:
+    """The text of a PDF in the order it was drawn (cell by cell for tables)."""
+    reader = PdfReader(io.BytesIO(pdf))
     return "\n".join(page.extract_text() for page in reader.pages)
 
 
@@ -93,3 +101,80 @@ def rasterise(report: Report, name: str, *, last_page: int = 2) -> list[Path]:
     pngs = sorted(PAGES_DIR.glob(f"{name}-*.png"))
     assert pngs, "pdftoppm wrote no page"
     return pngs
+
+
+def _pdf_file(pdf: bytes, name: str) -> Path:
+    PAGES_DIR.mkdir(parents=True, exist_ok=True)
+    source = PAGES_DIR / f"{name}.pdf"
+    source.write_bytes(pdf)
+    return source
+
+
+def page_margin_ink(pdf: bytes, name: str, *, margin_mm: float = 14.0, dpi: int = 72) -> list[str]:
+    """Every page of ``pdf`` as a PNG in test-output/pdf-pages/ (for people to look at), and the pages with
+    ink in a side margin: a table or line running past the page's content width, as far as the paper's edge.
+
+    The documents' side margins are 14 mm (reports/templates/reports/_base.css); the outer ``margin_mm`` − 2 mm
+    of each side must stay blank.
+    """
+    from PIL import Image
+
+    exe = shutil.which("pdftoppm") or "/usr/bin/pdftoppm"
+    for old in PAGES_DIR.glob(f"{name}-*.png"):
+        old.unlink()
+    source = _pdf_file(pdf, name)
+    result = subprocess.run(
+        [exe, "-png", "-r", str(dpi), str(source), str(PAGES_DIR / name)],
+        capture_output=True,
+        text=True,
+        timeout=120,
+        check=False,
+    )
+    source.unlink()
+    assert result.returncode == 0, result.stderr
+    pngs = sorted(PAGES_DIR.glob(f"{name}-*.png"))
+    assert pngs, "pdftoppm wrote no page"
+    strip = round((margin_mm - 2) / 25.4 * dpi)
+    problems = []
+    for png in pngs:
+        with Image.open(png) as img:
+            grey = img.convert("L")
+            width, height = grey.size
+            for side, box in (("left", (0, 0, strip, height)), ("right", (width - strip, 0, width, height))):
+                darkest, _ = grey.crop(box).getextrema()
+                if darkest < 200:
+                    problems.append(f"{png.name}: ink in the {side} margin")
+    return problems
+
+
+@dataclass(frozen=True)
+class Word:
+    text: str
+    page: int
+    x_min: float
+    x_max: float
+    page_width: float
+
+
+_PAGE = re.compile(r'<page width="([\d.]+)"')
+_WORD = re.compile(r'<word xMin="([-\d.]+)" yMin="[-\d.]+" xMax="([-\d.]+)" yMax="[-\d.]+">([^<]*)</word>')
+
+
+def pdf_words(pdf: bytes) -> list[Word]:
+    """The words of ``pdf`` in reading order with where they lie across the page (pdftotext -bbox, in points)."""
+    exe = shutil.which("pdftotext") or "/usr/bin/pdftotext"
+    source = _pdf_file(pdf, "words")
+    try:
+        result = subprocess.run(
+            [exe, "-bbox", str(source), "-"], capture_output=True, text=True, timeout=60, check=False
+        )
+    finally:
+        source.unlink()
+    assert result.returncode == 0, result.stderr
+    words, page, width = [], 0, 0.0
+    for line in result.stdout.splitlines():
+        if m := _PAGE.search(line):
+            page, width = page + 1, float(m.group(1))
+        elif m := _WORD.search(line):
+            words.append(Word(html.unescape(m.group(3)), page, float(m.group(1)), float(m.group(2)), width))
+    return words
