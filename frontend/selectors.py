@@ -12,6 +12,7 @@ from django.utils import timezone
 
 from inspections import display
 from inspections.models import Evaluation, Finding, Inspection
+from inspections.reasons import text_without_subject
 from inspections.selectors import check_label, filter_series_for
 from inventory.models import Component, ComponentKind, Site
 from inventory.selectors import sites_visible_to
@@ -214,7 +215,9 @@ def result_for_display(*, result: dict | None, system: str, labels: dict | None 
     shown_result["evaluation"] = [
         {
             **e,
-            "label": (labels or {}).get((e.get("item"), e.get("component"))) or _check_words(e),
+            "label": (label := (labels or {}).get((e.get("item"), e.get("component"))) or _check_words(e)),
+            # The label names the part ("Pressure drop — Final filters"): the reason does not say it again.
+            "reason": text_without_subject(e.get("reason") or "", label.partition(" — ")[2]),
             "verdict_words": display.verdict_words(e.get("verdict")),
             "derived_display": display.derived_rows(e.get("derived") or {}, system, item=e.get("item") or ""),
         }

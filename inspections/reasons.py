@@ -131,6 +131,13 @@ def flatten(*pieces: Any) -> list:
     return out
 
 
+def text_without_subject(text: str, subject: str | None) -> str:
+    """``text`` without a leading "<subject>: ", for a line whose label already names the part
+    ("Pressure drop — Final filters: filter at 112 % …", not "…: Final filters: filter at …")."""
+    lead = f"{subject}: " if subject else ""
+    return text[len(lead) :] if lead and text.startswith(lead) and len(text) > len(lead) else text
+
+
 def without_subject(parts: list, subject: str) -> list:
     """The parts without a leading "<subject>: ": a text whose heading already names its part (a finding's
     title "Filter loaded — Final filters") says the part once, not "Final filters: Final filters: …"."""

@@ -130,7 +130,10 @@ def visit_records(
                     "value": reading_value(r, system),
                     "verdict": VERDICTS.get(r.verdict, ""),
                     "verdict_code": r.verdict,
-                    "reason": reason_for(evaluation=r, unit_system=system),
+                    # The row names the part: its reason does not begin with it again.
+                    "reason": reasons.text_without_subject(
+                        reason_for(evaluation=r, unit_system=system), r.component.name if r.component_id else None
+                    ),
                     "note": r.note,
                     "improbable": r.improbable,
                 }
@@ -148,7 +151,9 @@ def visit_records(
                         "e": e,
                         "verdict": VERDICTS.get(e.verdict, e.verdict),
                         "check": check_label(check=e.check_name, item=e.item_key, labels=labels),
-                        "reason": reason_for(evaluation=e, unit_system=system),
+                        "reason": reasons.text_without_subject(
+                            reason_for(evaluation=e, unit_system=system), e.component.name if e.component_id else None
+                        ),
                         "derived": display.derived_rows(e.derived or {}, system, item=e.item_key),
                     }
                     for e in insp.evaluations.all()

@@ -88,3 +88,30 @@ def test_a_mixed_reading_outside_outdoor_and_return_is_refused_with_its_allowanc
     with pytest.raises(IndeterminateError) as caught:
         oa_fraction_from_temperatures(t_outdoor_c=0.0, t_return_c=22.0, t_mixed_c=25.0)
     assert re.search(r"even allowing ± \d+ points for sensor accuracy", str(caught.value)), str(caught.value)
+
+
+def test_a_line_whose_label_names_the_part_does_not_repeat_it():
+    """The phone's and the page's result lines read "Pressure drop — Final filters: filter at …", once."""
+    from frontend.selectors import result_for_display
+    from inspections.reasons import text_without_subject
+
+    assert text_without_subject("Final filters: filter at 112 %", "Final filters") == "filter at 112 %"
+    assert text_without_subject("Final filters: ", "Final filters") == "Final filters: "  # nothing left: kept
+    assert text_without_subject("Pre-filters: filter at 40 %", "Final filters") == "Pre-filters: filter at 40 %"
+    shown = result_for_display(
+        result={
+            "status": "stored",
+            "evaluation": [
+                {
+                    "item": "filter_check.dp",
+                    "component": "F2",
+                    "verdict": "fail",
+                    "reason": "Final filters: filter at 112 %",
+                }
+            ],
+        },
+        system="si",
+        labels={("filter_check.dp", "F2"): "Pressure drop — Final filters"},
+    )
+    [line] = shown["evaluation"]
+    assert f"{line['label']}: {line['reason']}" == "Pressure drop — Final filters: filter at 112 %"

@@ -332,8 +332,13 @@ async function renderResult(box, result) {
   const list = el("ul", { class: "results" });
   for (const e of result.evaluation || []) {
     // The derived values wait for the server's own rendering (labelled, in the person's units).
+    // The label names the part ("Pressure drop — Final filters"): the reason does not say it again
+    // (inspections/reasons.py text_without_subject).
+    const label = labelOf(e.item, e.component);
+    const part = label.split(" — ")[1];
+    const reason = part && e.reason.startsWith(`${part}: `) && e.reason.length > part.length + 2 ? e.reason.slice(part.length + 2) : e.reason;
     list.append(el("li", {}, el("span", { class: `verdict ${e.verdict}` }, VERDICT_WORDS[e.verdict] || "recorded"),
-      ` ${labelOf(e.item, e.component)}: ${e.reason}`));
+      ` ${label}: ${reason}`));
   }
   section.append(list);
   if (result.findings && result.findings.length) {
