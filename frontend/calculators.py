@@ -58,7 +58,7 @@ def places_for(user) -> list[Place]:
             pressure = pressure_from_altitude(altitude_m=site.altitude_m)
         except EngineeringInputError:
             continue  # an altitude stored out of range (manage.py check_data names it): not offered
-        out.append(Place(f"site-{site.pk}", site.name, site.altitude_m, pressure))
+        out.append(Place(f"site:{site.pk}", site.name, site.altitude_m, pressure))
     return [*out, SEA_LEVEL]
 
 

@@ -189,7 +189,7 @@ def test_sensible_heat_takes_the_sites_altitude_and_says_what_air_it_assumed(tmp
     from engineering.psychro import pressure_from_altitude
     from frontend.calculators import SEA_LEVEL, Place
 
-    high = Place("site-7", "Ridge Clinic", 1500.0, pressure_from_altitude(altitude_m=1500.0))
+    high = Place("site:7", "Ridge Clinic", 1500.0, pressure_from_altitude(altitude_m=1500.0))
     assert high.pressure_pa == pytest.approx(84_556, abs=10)
     places = [high, SEA_LEVEL]
     cases = [
@@ -215,7 +215,7 @@ def test_a_site_the_person_cannot_see_is_not_a_place_to_calculate_at(scenario, l
     client = login(scenario.technician)
     answer = client.post(
         "/api/calc/sensible-heat/",
-        {"values": {"airflow_m3s": 500, "t_in_c": 10, "t_out_c": 30, "place": "site-999999"}},
+        {"values": {"airflow_m3s": 500, "t_in_c": 10, "t_out_c": 30, "place": "site:999999"}},
         content_type="application/json",
     )
     assert answer.status_code == 400
@@ -231,7 +231,7 @@ def test_the_calculator_page_defaults_to_the_persons_site_and_names_its_air(scen
     site.save(update_fields=["altitude_m"])
     client = login(scenario.supervisor)
     page = client.get("/calc/").content.decode()
-    assert f'<option value="site-{site.pk}"' in page and "Harbour House (350 m)" in page
+    assert f'<option value="site:{site.pk}"' in page and "Harbour House (350 m)" in page
     html = client.post(
         "/calc/", {"calculator": "sensible-heat", "airflow_m3s": "500", "t_in_c": "10", "t_out_c": "30"}
     ).content.decode()

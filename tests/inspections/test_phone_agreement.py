@@ -643,8 +643,8 @@ def _calc_places():
     from frontend.calculators import SEA_LEVEL, Place
 
     return [
-        Place("site-1", "Harbour House", 12.0, pressure_from_altitude(altitude_m=12.0)),
-        Place("site-2", "Alpine Lodge", 1600.0, pressure_from_altitude(altitude_m=1600.0)),
+        Place("site:1", "Harbour House", 12.0, pressure_from_altitude(altitude_m=12.0)),
+        Place("site:2", "Alpine Lodge", 1600.0, pressure_from_altitude(altitude_m=1600.0)),
         SEA_LEVEL,
     ]
 
