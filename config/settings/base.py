@@ -100,6 +100,17 @@ DATABASES = {
         conn_max_age=int(os.environ.get("DATABASE_CONN_MAX_AGE", "60")),
     )
 }
+if DATABASES["default"]["ENGINE"] == "django.db.backends.sqlite3":
+    # The embedded database under a phone's sync and a page at once: a writer takes the lock when its
+    # transaction begins (IMMEDIATE) and waits up to 20 s for another instead of failing "database is locked"
+    # mid-way; WAL lets pages read while a form is stored. https://docs.djangoproject.com/en/5.2/ref/databases/#sqlite-notes
+    DATABASES["default"].setdefault("OPTIONS", {}).update(
+        {
+            "timeout": 20,
+            "transaction_mode": "IMMEDIATE",
+            "init_command": "PRAGMA journal_mode=WAL; PRAGMA synchronous=NORMAL;",
+        }
+    )
 DEFAULT_AUTO_FIELD = "django.db.models.BigAutoField"
 
 # ---------------------------------------------------------------------------
