@@ -18,6 +18,7 @@ from django.utils import timezone
 from accounts.services import audit_record
 from engineering.freeze import daily_minimums_from_normals
 from engineering.outdoor_air import fraction_words
+from scheduling.titles import title_fit
 
 from .. import reasons as rs
 from ..evaluation import ITEM_CONDITIONS, SEVERITY
@@ -142,7 +143,7 @@ def _title(res, condition: str, labels: dict[str, tuple[str, str]], *, design_re
             words = f"{CONDITION_TITLES.get(condition, test)}: {step}"
     if words is None:
         words = CONDITION_TITLES.get(condition, "Deficiency")
-    return (words + where)[:200]
+    return title_fit(words + where, limit=Finding._meta.get_field("title").max_length)
 
 
 def design_shortfall(derived: dict) -> bool:
