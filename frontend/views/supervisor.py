@@ -2,6 +2,7 @@
 
 import datetime as dt
 import uuid
+import zoneinfo
 
 from django.contrib import messages
 from django.contrib.auth.decorators import login_required
@@ -19,6 +20,7 @@ from accounts.models import Membership, Role
 from accounts.selectors import organisations_where
 from inspections.selectors import corrective_work_already_resolved, reason_for
 from inventory import services as inventory_services
+from inventory.display import usual_zone
 from inventory.inputs import AHU_NUMBERS, ahu_number_check
 from inventory.models import AHU, Component
 from inventory.selectors import ahus_visible_to, component_tree, components_visible_to, sites_managed_by
@@ -43,9 +45,14 @@ def _organisation(request):
     return org
 
 
-def _week_start(raw: str | None) -> dt.date:
+def _org_today(org) -> dt.date:
+    """The organisation's today: the day on the clock most of its sites use (inventory.display.usual_zone)."""
+    zone = usual_zone(list(org.sites.values_list("time_zone", flat=True)))
+    return timezone.localdate(timezone.now(), zoneinfo.ZoneInfo(zone))
+
+
+def _week_start(raw: str | None, *, today: dt.date) -> dt.date:
     """Monday of the asked week; a week outside the plan window (say 9999-12-31) shows this week instead."""
-    today = timezone.localdate()
     try:
         day = dt.date.fromisoformat(raw) if raw else today
     except ValueError:
@@ -65,8 +72,8 @@ BOARD_PAGE = 100
 @login_required
 def board(request):
     org = _organisation(request)
-    week = _week_start(request.GET.get("week"))
-    today = timezone.localdate()
+    today = _org_today(org)
+    week = _week_start(request.GET.get("week"), today=today)
     data = backends.board_for(organisation=org, week_start=week)
     show_all = request.GET.get("all", "")
     columns = []
