@@ -5,6 +5,10 @@ of filters (``inspections.selectors.filter_series``), with the change forecast
 (``engineering.filters.filter_forecast``), and the supply-air
 temperature's deviation from its set point with the watch and fail bands of
 ``engineering.controls.supply_temperature_check`` (1 K / 2 K, common practice).
+
+Readings: each as read, and a filter reading also with the airflow it was read at and its value at
+design airflow, as the evaluation that judged it kept them (``judged_as``), so a fail below the final
+value reads as what it is.
 """
 
 from __future__ import annotations
@@ -19,6 +23,7 @@ from engineering.controls import supply_temperature_check
 from engineering.errors import EngineeringInputError
 from engineering.filters import filter_forecast
 from engineering.units import to_display, unit_label
+from inspections.display import derived_rows
 from inspections.models import Evaluation, Finding, Inspection, Reading
 from inspections.selectors import filter_series_for, reason_for
 from inventory.models import AHU, ComponentKind
@@ -101,20 +106,24 @@ def build(*, report) -> Built:
     )
     for finding in findings:
         finding.reason_display = reason_for(evaluation=finding, unit_system=system)
-    reading_rows = [
-        {
-            "at": insp.finished_at,
-            "by": insp.technician,
-            "label": r.item.label,
-            "template": r.item.template.title,
-            "component": r.component,
-            "value": reading_value(r, system),
-            "verdict": VERDICTS.get(r.verdict, ""),
-            "verdict_code": r.verdict,
-        }
-        for insp in listed
-        for r in insp.readings.all()
-    ]
+    reading_rows = []
+    for insp in listed:
+        judged = {(e.item_key, e.component_id): e for e in insp.evaluations.all()}
+        for r in insp.readings.all():
+            ev = judged.get((f"{r.item.template.code}.{r.item.key}", r.component_id))
+            reading_rows.append(
+                {
+                    "at": insp.finished_at,
+                    "by": insp.technician,
+                    "label": r.item.label,
+                    "template": r.item.template.title,
+                    "component": r.component,
+                    "value": reading_value(r, system),
+                    "judged_as": judged_as(ev.derived if ev else None, system),
+                    "verdict": VERDICTS.get(r.verdict, ""),
+                    "verdict_code": r.verdict,
+                }
+            )
     filter_charts = _filter_charts(ahu=ahu, lo=lo, hi=hi, system=system)
     supply_chart = _supply_chart(inspections=listed, system=system)
     title = f"Unit history — {ahu.tag}, {ahu.building.site.name}, {p['start']} to {p['end']}"
@@ -141,6 +150,27 @@ def build(*, report) -> Built:
         subject=f"History of {ahu.tag}",
     )
     return Built(html=html, title=title)
+
+
+# A reading judged after correcting it to design airflow (the filter checks): what it was judged as, in this
+# order. A filter read at reduced airflow can fail below its final value; these say why.
+JUDGED_AS_KEYS = (
+    "airflow_m3s",
+    "airflow_source",
+    "design_airflow_m3s",
+    "corrected_dp_pa",
+    "clean_dp_pa",
+    "final_dp_pa",
+)
+
+
+def judged_as(derived: dict | None, system: str) -> list[tuple[str, str]]:
+    """(label, value in the reader's units) of the airflow a reading was taken at and its value at design airflow,
+    from the evaluation that judged it (``inspections.display.derived_rows``: the same words and numbers as the
+    inspection record); empty for a reading not corrected to design airflow."""
+    if not derived or "corrected_dp_pa" not in derived:
+        return []
+    return [row for key in JUDGED_AS_KEYS if key in derived for row in derived_rows({key: derived[key]}, system)]
 
 
 def _filter_charts(*, ahu: AHU, lo: datetime, hi: datetime, system: str) -> list[dict]:

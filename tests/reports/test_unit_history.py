@@ -6,7 +6,7 @@ import pytest
 from django.http import Http404
 
 from accounts.models import Role
-from engineering.filters import FilterPoint, filter_forecast
+from engineering.filters import FilterPoint, corrected_pressure_drop, filter_forecast
 from reports.services import report_request
 from tests.factories.accounts import OrganisationFactory, make_person
 from tests.factories.inventory import BuildingFactory, make_full_unit
@@ -114,3 +114,63 @@ def test_unit_of_another_organisation_refused(history):
     outsider = make_person(organisation=OrganisationFactory(), role=Role.SUPERVISOR)
     with pytest.raises(Http404, match="unit"):
         report_request(user=outsider, kind="unit_history", parameters={"unit": history.pk})
+
+
+@pytest.mark.parametrize(
+    ("system", "raw", "airflow", "at_design", "final"),
+    [
+        ("si", "187 Pa", "2100 L/s", "319 Pa", "300 Pa"),
+        ("us", "0.75 in. w.c.", "4450 cfm", "1.28 in. w.c.", "1.20 in. w.c."),
+    ],
+)
+def test_filter_reading_shows_why_it_failed(
+    site, supervisor, make_report, time_machine, system, raw, airflow, at_design, final
+):
+    """A filter read at reduced airflow: 187 Pa below the 300 Pa final value, yet judged fail. The readings table
+    shows the airflow it was read at and the value at design airflow beside the raw reading, so the fail reads
+    as what it is: 187 Pa × (3.0 / 2.1)^1.5 = 319 Pa at design airflow (engineering.filters.corrected_pressure_drop,
+    n = 1.5 common practice), over the final 300 Pa."""
+    time_machine.move_to(b.at("2025-05-02"), tick=False)
+    lib = b.library()
+    ahu = make_full_unit(building=BuildingFactory(site=site), tag="AHU-07")
+    bank = ahu.components.get(name="Final filters")
+    bank.specs = {**bank.specs, "clean_dp_pa": 100, "final_dp_pa": 300}
+    bank.save(update_fields=["specs"])
+    corrected = corrected_pressure_drop(dp_pa=187.0, airflow_m3s=2.1, design_airflow_m3s=3.0)
+    assert round(corrected) == 319
+    tech = make_person(organisation=site.organisation, role=Role.TECHNICIAN, first_name="Ana", last_name="Field")
+    wo = b.preventive(ahu, lib["filter_check"], "2025-04-10", done="2025-04-10")
+    insp = b.inspection(wo, tech, finished="2025-04-10")
+    b.reading(insp, "visit.supply_airflow", value_si=2.1)
+    b.reading(insp, "filter_check.dp", component=bank, value_si=187.0, verdict="fail")
+    b.evaluation(  # as inspections.evaluation stores the filter check (_filter_derived)
+        insp,
+        "filter_loading",
+        "filter_check.dp",
+        component=bank,
+        verdict="fail",
+        reason="Final filters: filter at 110 % of its span after correcting to design airflow",
+        derived={
+            "dp_pa": 187.0,
+            "airflow_m3s": 2.1,
+            "airflow_source": "measured",
+            "design_airflow_m3s": 3.0,
+            "corrected_dp_pa": round(corrected, 1),
+            "clean_dp_pa": 100,
+            "final_dp_pa": 300,
+            "loading_pct": round((corrected - 100) / 200 * 100, 1),
+            "forecast_at_final_now": True,
+        },
+    )
+    report = make_report(
+        user=supervisor,
+        kind="unit_history",
+        parameters={"unit": ahu.pk, "start": "2025-04-01", "end": "2025-04-30", "unit_system": system},
+    )
+    rasterise(report, f"unit-history-filter-{system}")
+    flat = " ".join(pdf_text(report).split())
+    row = flat.split("Pressure drop across the bank (Filter check)")[1].split("Local codes")[0]
+    assert raw in row and "fail" in row
+    assert f"airflow: {airflow}" in row and "airflow from: measured" in row
+    assert f"pressure drop at design airflow: {at_design}" in row
+    assert f"final pressure drop: {final}" in row
