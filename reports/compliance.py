@@ -44,10 +44,11 @@ Filter status of every unit
     drop at design airflow of the filters fitted now. After a change that is the
     reading just after it, judged by the check of new filters, with its loading
     by engineering.filters and no forecast yet; otherwise the filter check's
-    ``filter_loading`` evaluation: verdict, loading % and the change forecast as
-    it stored them ("now" when the filter was already at or over its final
-    value; a stored date before the site's today reads "due now (forecast for
-    …)"). A reading that could not be judged (airflow too far from design, no
+    ``filter_loading`` evaluation: verdict, loading % and the change forecast it
+    stored, judged on the site's today by ``filter_outlook`` (the one rule the
+    site page and the unit history also call: "now" when the filter was already
+    at or over its final value; a stored date before today reads "due now
+    (forecast for …)"). A reading that could not be judged (airflow too far from design, no
     clean or final value) is skipped.
 
 Freeze-protection readiness before the coming season
@@ -64,7 +65,7 @@ from __future__ import annotations
 
 import zoneinfo
 from collections import defaultdict
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
 from datetime import date, datetime, timedelta
 
@@ -355,6 +356,12 @@ def _filter_rows(*, units: list[AHU], as_of: datetime, today_of: dict[int, date]
                 derived.update(
                     _loading_of_new_filters(bank=bank, point=point, design=series[bank.pk].design_airflow_m3s)
                 )
+            # Filters just fitted have no forecast before their next check.
+            outlook = (
+                None
+                if point is not None and point.after_change
+                else stored_filter_outlook(derived=derived, today=today_of[unit.building.site_id])
+            )
             out.append(
                 {
                     "unit": unit,
@@ -364,9 +371,8 @@ def _filter_rows(*, units: list[AHU], as_of: datetime, today_of: dict[int, date]
                     "at": point.at if point else None,
                     "after_change": bool(point and point.after_change),
                     "corrected_dp_pa": point.corrected_dp_pa if point else None,
-                    "forecast": NEW_FILTERS_FORECAST
-                    if point is not None and point.after_change
-                    else filter_forecast_text(derived=derived, today=today_of[unit.building.site_id]),
+                    "outlook": outlook,
+                    "forecast": NEW_FILTERS_FORECAST if outlook is None else outlook.words(),
                 }
             )
         if unit.pk not in by_unit:
@@ -379,6 +385,7 @@ def _filter_rows(*, units: list[AHU], as_of: datetime, today_of: dict[int, date]
                     "at": None,
                     "after_change": False,
                     "corrected_dp_pa": None,
+                    "outlook": None,
                     "forecast": "—",
                 }
             )
@@ -412,25 +419,65 @@ def _loading_of_new_filters(*, bank: Component, point, design: float) -> dict:
     return {"loading_pct": round(loading.fraction_of_span * 100, 1)}
 
 
-def filter_forecast_text(*, derived: dict, today: date) -> str:
-    """The change forecast of a filter evaluation in words, judged on the site's ``today``.
+@dataclass(frozen=True)
+class FilterOutlook:
+    """When a bank's filters are to be changed, judged on one day (the site's): ``filter_outlook`` decides it."""
 
-    "now" when the filter was already due at the evaluation; a stored date before ``today`` (a forecast made
-    at an earlier visit) reads "due now (forecast for <date>)"; a date ahead is given as it is. The manager's
-    site page and the compliance PDF both read this.
+    at_final: bool  # at or over its final pressure drop: change now, whatever the trend says
+    due_now: bool  # at final, or the forecast day has gone by
+    forecast_on: date | None  # the day the trend reaches the final value (None: no forecast)
+
+    @property
+    def forecast_ahead(self) -> date | None:
+        """The day a forecast line and mark may be drawn to: the forecast, unless the filter is due now."""
+        return None if self.due_now else self.forecast_on
+
+    def words(self, day_text: Callable[[date], str] = date.isoformat) -> str:
+        """The outlook in words, each date written by ``day_text`` (ISO in the PDFs, "5 Jun 2025" on the pages)."""
+        if self.at_final:
+            return display.DERIVED_FLAGS["forecast_at_final_now"][1]  # the words the inspection record shows
+        if self.forecast_on is None:
+            return "—"
+        if self.due_now:
+            return f"due now (forecast for {day_text(self.forecast_on)})"
+        return day_text(self.forecast_on)
+
+
+def filter_outlook(
+    *,
+    today: date,
+    forecast_on: date | None = None,
+    at_final_now: bool = False,
+    corrected_dp_pa: float | None = None,
+    final_dp_pa: float | None = None,
+) -> FilterOutlook:
+    """The one rule for "filter due now or forecast", for the site page, the compliance PDF and the unit history.
+
+    Due now when the filters are at or over their final pressure drop (``at_final_now`` as the evaluation or
+    engineering.filters.filter_forecast found it, or the last pressure drop at design airflow
+    ``corrected_dp_pa`` at or over ``final_dp_pa``), or when the forecast day is before ``today`` (a forecast
+    made at an earlier visit: the day has gone by). The forecast day itself is not yet past.
     """
-    if derived.get("forecast_at_final_now"):
-        return display.DERIVED_FLAGS["forecast_at_final_now"][1]  # the words the inspection record shows
-    stored = derived.get("forecast_change_date")
-    if not stored:
-        return "—"
+    at_final = bool(at_final_now) or (
+        corrected_dp_pa is not None and bool(final_dp_pa) and round(corrected_dp_pa, 9) >= final_dp_pa
+    )
+    due_now = at_final or (forecast_on is not None and forecast_on < today)
+    return FilterOutlook(at_final=at_final, due_now=due_now, forecast_on=forecast_on)
+
+
+def stored_filter_outlook(*, derived: dict, today: date) -> FilterOutlook:
+    """``filter_outlook`` of a stored filter evaluation (its ``forecast_at_final_now`` and ``forecast_change_date``)."""
     try:
-        day = date.fromisoformat(str(stored)[:10])
+        day = date.fromisoformat(str(derived.get("forecast_change_date") or "")[:10])
     except ValueError:
-        return "—"
-    if day < today:
-        return f"due now (forecast for {day.isoformat()})"
-    return day.isoformat()
+        day = None
+    return filter_outlook(today=today, forecast_on=day, at_final_now=derived.get("forecast_at_final_now") is True)
+
+
+def filter_forecast_text(*, derived: dict, today: date) -> str:
+    """The change forecast of a stored filter evaluation in words, judged on the site's ``today``
+    (``filter_outlook``): "now: …", "due now (forecast for <date>)", the date ahead, or "—"."""
+    return stored_filter_outlook(derived=derived, today=today).words()
 
 
 def _freeze_rows(*, units, as_of, today_of) -> tuple[list[dict], dict[str, int]]:

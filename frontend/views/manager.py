@@ -3,13 +3,12 @@
 Compliance figures come from reports.compliance (through frontend.selectors), the same as in the PDFs.
 """
 
-import datetime as dt
-
 from django.contrib.auth.decorators import login_required
 from django.http import Http404
 from django.shortcuts import render
 from django.views.decorators.http import require_GET
 
+from accounts.clock import local_date_of
 from engineering.units import to_display, unit_label
 from inspections.selectors import reason_for
 from reports.documents.common import percent, shown
@@ -56,22 +55,20 @@ def site_detail(request, pk: int):
     def p(v):
         return to_display(value=v, quantity="pressure", system=system)
 
-    charts = []
     today = site_today(site=site)
+    figures = selectors.figures_for(user=request.user, site_ids=[site.pk])
+    # When each bank is due, judged on the site's day by reports.compliance.filter_outlook: the table and the
+    # charts read the same outlook (the latest judged reading of the filters fitted now).
+    outlook_of = {row["filter"].pk: row["outlook"] for row in figures.filters if row["filter"] is not None}
+    charts = []
     for trend in selectors.filter_trends(site=site):
         comp = trend["component"]
         ev = trend["evaluation"]
-        forecast = []
         final = comp.specs.get("final_dp_pa")
-        derived = (ev.derived or {}) if ev else {}
-        change = derived.get("forecast_change_date")
-        # The forecast is of the filters the evaluation judged: none once they have been changed since.
-        current = not trend["changes"] or (ev is not None and ev.inspection.finished_at.date() > trend["changes"][-1])
+        outlook = outlook_of.get(comp.pk)
         # No dashed line for a filter due now, nor to a forecast date already past (the table says "due now").
-        if change and final and current and not derived.get("forecast_at_final_now"):
-            change_day = dt.date.fromisoformat(change)
-            if change_day >= today:
-                forecast = [(change_day, p(final))]
+        ahead = outlook.forecast_ahead if outlook is not None else None
+        forecast = [(ahead, p(final))] if ahead is not None and final else []
         charts.append(
             {
                 "title": f"{comp.ahu.display_name} {comp.name}: pressure drop at design airflow",
@@ -101,11 +98,13 @@ def site_detail(request, pk: int):
         hline=(threshold, f"preheat threshold {threshold:.0f} {t_unit}"),
         vline=(site.freeze_season_start, "freeze season starts") if site.freeze_season_start else None,
     )
-    figures = selectors.figures_for(user=request.user, site_ids=[site.pk])
     for row in figures.filters:
         d = row["derived"]
         row["corrected_dp"] = shown(row["corrected_dp_pa"], "pressure", system)
         row["loading"] = f"{d['loading_pct']:.0f} %" if isinstance(d.get("loading_pct"), int | float) else "—"
+        if row["outlook"] is not None:
+            # Dates as the rest of the page writes them ("5 Jun 2025"), on the site's day.
+            row["forecast"] = row["outlook"].words(local_date_of)
     return render(
         request,
         "frontend/manager/site.html",

@@ -29,6 +29,7 @@ from inspections.selectors import filter_series_for, reason_for
 from inventory.models import AHU, ComponentKind
 from inventory.selectors import ahus_visible_to
 from reports import charts
+from reports.compliance import filter_outlook
 from reports.rendering import html_render, svg_data_uri
 from scheduling.models import WorkOrder
 
@@ -124,7 +125,9 @@ def build(*, report) -> Built:
                     "verdict_code": r.verdict,
                 }
             )
-    filter_charts = _filter_charts(ahu=ahu, lo=lo, hi=hi, system=system)
+    # The history's last day: its end, or the day it was asked for when that is earlier (the site's day).
+    last_day = min(end, report.created_at.astimezone(zoneinfo.ZoneInfo(ahu.building.site.time_zone)).date())
+    filter_charts = _filter_charts(ahu=ahu, lo=lo, hi=hi, system=system, today=last_day)
     supply_chart = _supply_chart(inspections=listed, system=system)
     title = f"Unit history — {ahu.tag}, {ahu.building.site.name}, {p['start']} to {p['end']}"
     html = html_render(
@@ -173,13 +176,16 @@ def judged_as(derived: dict | None, system: str) -> list[tuple[str, str]]:
     return [row for key in JUDGED_AS_KEYS if key in derived for row in derived_rows({key: derived[key]}, system)]
 
 
-def _filter_charts(*, ahu: AHU, lo: datetime, hi: datetime, system: str) -> list[dict]:
+def _filter_charts(*, ahu: AHU, lo: datetime, hi: datetime, system: str, today: date | None = None) -> list[dict]:
     """Per filter bank: pressure drop at design airflow in the period, one line per set of filters, and the
-    change forecast of the set fitted at the period's end.
+    change forecast of the set fitted at the period's end, judged on ``today`` (the history's last day; the
+    day before ``hi`` when not given) by ``reports.compliance.filter_outlook``.
 
     The numbers are ``inspections.selectors.filter_series``: the same series the manager's chart, the
     evaluation's forecast and the compliance report read.
     """
+    if today is None:
+        today = (hi - timedelta(days=1)).date()
     banks = [c for c in ahu.components.all().order_by("position", "pk") if c.kind == ComponentKind.FILTER_BANK]
     all_series = filter_series_for(components=banks, before=hi)
     out = []
@@ -198,11 +204,17 @@ def _filter_charts(*, ahu: AHU, lo: datetime, hi: datetime, system: str) -> list
                 note = f"No change forecast: {exc}"
         elif not points:
             note = "No change forecast: no readings with run-hours since the last filter change."
-        # The last reading of the set fitted at or over the final value: change now, whatever the trend says
-        # (as engineering.filters.filter_forecast's at_final_now and the inspection's evaluation).
+        # Due now or forecast: the one rule the site page and the compliance report call, judged on the day the
+        # history ends. The last reading of the set fitted at or over the final value is change now, whatever
+        # the trend says.
         cur = [p for p in series.current.points if not p.after_change] or list(series.current.points)
-        due_now = bool(final and cur and round(cur[-1].corrected_dp_pa, 9) >= final) or bool(
-            forecast is not None and forecast.at_final_now
+        fdate = forecast.date_at_final if forecast is not None else None
+        outlook = filter_outlook(
+            today=today,
+            forecast_on=fdate.date() if isinstance(fdate, datetime) else fdate,
+            at_final_now=bool(forecast is not None and forecast.at_final_now),
+            corrected_dp_pa=cur[-1].corrected_dp_pa if cur else None,
+            final_dp_pa=final,
         )
         lines = []
         for life in series.lives:
@@ -230,9 +242,7 @@ def _filter_charts(*, ahu: AHU, lo: datetime, hi: datetime, system: str) -> list
             if life.changed_at is not None and lo <= life.changed_at < hi
         ]
         last_day, last_value = series_out[-1][1][-1], series_out[-1][2][-1]
-        if forecast is not None and forecast.date_at_final is not None and not due_now:
-            fdate = forecast.date_at_final
-            fdate = fdate.date() if isinstance(fdate, datetime) else fdate
+        if (fdate := outlook.forecast_ahead) is not None:
             series_out.append(
                 (
                     "Forecast",
@@ -255,7 +265,8 @@ def _filter_charts(*, ahu: AHU, lo: datetime, hi: datetime, system: str) -> list
                 "svg": svg_data_uri(svg),
                 "note": note,
                 "forecast": forecast,
-                "due_now": due_now,
+                "outlook": outlook,
+                "due_now": outlook.due_now,
                 "final": shown(final, "pressure", system),
                 # The plotted numbers (SI), one (name, [(day, Pa at design airflow)]) per set of filters.
                 "lines": lines,

@@ -104,7 +104,8 @@ def test_a_stored_change_date_gone_by_reads_due_now_on_the_site_page_and_the_com
 
     Worked by hand (linear trend, common practice): 20 Pa per 300 h; 60 Pa more takes 900 h at 10 h a day,
     90 days after the last visit (2025-03-07): 2025-06-05. Before that day the page shows the date; after it
-    the page and the compliance PDF say "due now (forecast for 2025-06-05)", judged on the site's today.
+    the page says "due now (forecast for 5 Jun 2025)" and the compliance PDF "due now (forecast for
+    2025-06-05)", judged on the site's today.
     """
     first, tech = make_visit(tasks=["filter_check"])
     ahu = first.ahu
@@ -119,13 +120,13 @@ def test_a_stored_change_date_gone_by_reads_due_now_on_the_site_page_and_the_com
     time_machine.move_to(dt.datetime(2025, 5, 1, 12, tzinfo=dt.UTC), tick=False)
     page, chart, _ = _manager_page(client, ahu)
     html = " ".join(page.content.decode().split())
-    assert "2025-06-05" in html and "due now (forecast for" not in html
+    assert "5 Jun 2025" in html and "due now (forecast for" not in html  # the page's dates, as "j M Y"
     assert DASHED_FORECAST in chart["svg"]
 
     time_machine.move_to(dt.datetime(2025, 7, 25, 12, tzinfo=dt.UTC), tick=False)
     page, chart, manager = _manager_page(client, ahu)
     html = " ".join(page.content.decode().split())
-    assert "due now (forecast for 2025-06-05)" in html
+    assert "due now (forecast for 5 Jun 2025)" in html
     assert DASHED_FORECAST not in chart["svg"]  # no line drawn back to a date gone by
 
     api_client.force_authenticate(manager)
