@@ -40,7 +40,11 @@ migrate: install
 demo: migrate ## load the invented demo scenario (idempotent)
 	$(PY) manage.py load_demo
 
-run: system install ## install, migrate, load the demo and serve at http://127.0.0.1:8000
+# The address labels, calendar feeds, e-mails and the start-up banner give: where `make run` serves, unless set.
+run: PLENUM_PUBLIC_URL ?= http://$(HOST):$(PORT)
+run: export PLENUM_PUBLIC_URL := $(PLENUM_PUBLIC_URL)
+
+run: system install ## install, migrate, load the demo and serve at http://127.0.0.1:8000 (HOST=, PORT= to change)
 	$(PY) manage.py migrate --noinput
 	$(PY) manage.py load_demo
 	$(PY) manage.py collectstatic --noinput -v 0

@@ -1,5 +1,6 @@
 """manage.py load_demo — the invented demo scenario, idempotent; prints the demo logins."""
 
+from django.conf import settings
 from django.core.management.base import BaseCommand
 
 from frontend.demo import demo_load
@@ -29,4 +30,4 @@ class Command(BaseCommand):
         self.stdout.write(f"Verified {summary.get('verified', 0)} older visit(s) as the demo supervisor.")
         self.stdout.write("")
         self.stdout.write(demo_logins_table(registry["logins"]))
-        self.stdout.write("Open http://127.0.0.1:8000 and sign in.")
+        self.stdout.write(f"Open {settings.PLENUM_PUBLIC_URL.rstrip('/')} and sign in.")
