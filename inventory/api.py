@@ -427,8 +427,12 @@ class ExportView(APIView):
                 "property managers download their sites' records as PDF reports."
             )
         sites = selectors.sites_managed_by(user=request.user)
-        if request.query_params.get("site"):
-            sites = sites.filter(code=request.query_params["site"])
+        asked = request.query_params.get("site")
+        if asked:
+            sites = sites.filter(code=asked)
+            if not sites.exists():
+                # Not an empty file that reads as "no units there": the same answer as any site one may not see.
+                raise Http404(f"site={asked!r}: no site with that code among the sites you manage")
         response = HttpResponse(content_type="text/csv; charset=utf-8")
         response["Content-Disposition"] = f'attachment; filename="plenum-{kind}.csv"'
         csv_io.registry_export(kind=kind, sites=sites, out=response)

@@ -173,6 +173,9 @@ def test_api_import_reports_rows_and_export_is_tenancy_filtered(world, api_clien
     assert Site.objects.get(code="n").organisation == world.org_a
     exported = api_client.get("/api/inventory/export/ahus/").content.decode()
     assert "AHU-own" in exported and "AHU-other" in exported and "AHU-foreign" not in exported
+    # A site code nobody manages is an error naming it, not an empty file that reads as "no units there".
+    unknown = api_client.get("/api/inventory/export/ahus/?site=nope")
+    assert unknown.status_code == 404 and "site='nope'" in unknown.json()["detail"]
     api_client.force_authenticate(world.people[Role.PROPERTY_MANAGER])
     refused = api_client.get("/api/inventory/export/ahus/")
     assert refused.status_code == 403 and "AHU-own" not in refused.content.decode()
