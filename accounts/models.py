@@ -52,6 +52,15 @@ class User(AbstractUser):
     def __str__(self) -> str:
         return self.get_full_name() or self.username
 
+    def set_password(self, raw_password) -> None:
+        """As Django's; the next save also revokes the person's API token and calendar feeds (post_save)."""
+        super().set_password(raw_password)
+        self._password_replaced = True
+
+    def set_unusable_password(self) -> None:
+        super().set_unusable_password()
+        self._password_replaced = True
+
 
 class Membership(models.Model):
     user = models.ForeignKey(User, on_delete=models.CASCADE, related_name="memberships")

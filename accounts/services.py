@@ -48,6 +48,24 @@ def api_token_revoke(*, user: User) -> None:
     Token.objects.filter(user=user).delete()
 
 
+def user_credentials_revoke(*, user: User) -> None:
+    """A new password ends every way in that the old one gave: the API token is deleted and the apps above
+    revoke what they keep (``signals.password_changed``: the calendar feed). Sessions end by themselves, as
+    Django's session hash follows the password hash."""
+    from .signals import password_changed
+
+    Token.objects.filter(user=user).delete()
+    password_changed.send(sender=User, user=user)
+
+
+def password_saved(sender, instance: User, created: bool, **kwargs) -> None:
+    """post_save of a person: after a saved password change (reset by e-mail, admin, command), revoke."""
+    if getattr(instance, "_password_replaced", False):
+        instance._password_replaced = False
+        if not created:
+            user_credentials_revoke(user=instance)
+
+
 def audit_record(*, actor, obj, action: str, changes: dict | None = None, organisation=None) -> None:
     """Append one event to the audit trail. Call it inside the same transaction as the change."""
     from .models import AuditEvent

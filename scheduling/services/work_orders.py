@@ -506,6 +506,11 @@ def calendar_feed_issue(*, user) -> CalendarFeed:
     return CalendarFeed.objects.create(user=user)
 
 
+def calendar_feeds_revoke_for_password(sender=None, *, user, **kwargs) -> None:
+    """accounts.signals.password_changed: a new password ends the person's secret calendar URLs."""
+    CalendarFeed.objects.filter(user=user, revoked_at__isnull=True).update(revoked_at=timezone.now())
+
+
 def calendar_feed_revoke(*, feed: CalendarFeed) -> None:
     if feed.revoked_at is None:
         feed.revoked_at = timezone.now()

@@ -75,3 +75,56 @@ def test_audit_record_names_actor_object_and_change():
         user, "inventory.site", str(site.pk), "renamed"
     )  # fmt: skip
     assert event.changes == {"name": ["Old", "New"]}
+
+
+@pytest.mark.django_db
+def test_a_password_reset_ends_the_old_token_the_calendar_feed_and_other_sessions():
+    """After a reset by e-mail, the old API token gets 401, the old calendar URL 404, and a signed-in browser is out."""
+    import re
+
+    from django.core import mail
+    from django.core.cache import cache
+    from django.test import Client
+    from rest_framework.test import APIClient
+
+    from scheduling.services import calendar_feed_issue
+
+    cache.clear()  # the reset rate limit counts in the process's cache
+    user = make_person(organisation=OrganisationFactory(), role=Role.TECHNICIAN)
+    key = api_token_issue(user=user).key
+    feed_url = f"/calendar/{calendar_feed_issue(user=user).token}.ics"
+    other_browser = Client()
+    other_browser.force_login(user)
+    api = APIClient()
+    api.credentials(HTTP_AUTHORIZATION=f"Token {key}")
+    assert api.get("/api/accounts/me/").status_code == 200
+    assert Client().get(feed_url).status_code == 200
+    assert other_browser.get("/api/accounts/me/").status_code == 200
+
+    client = Client()
+    client.post("/password/reset/", {"email": user.email})
+    link = re.search(r"https?://[^/\s]+(/password/reset/\S+/\S+/)", mail.outbox[0].body).group(1)
+    form_url = client.get(link)["Location"]
+    done = client.post(form_url, {"new_password1": "Brass-Damper-42", "new_password2": "Brass-Damper-42"})
+    assert done.status_code == 302
+
+    assert api.get("/api/accounts/me/").status_code == 401
+    assert Client().get(feed_url).status_code == 404
+    assert other_browser.get("/api/accounts/me/").status_code in (401, 403)
+    assert api_token_issue(user=user).key != key  # a new token may be issued afterwards
+    cache.clear()
+
+
+@pytest.mark.django_db
+def test_a_password_change_by_set_password_ends_the_old_token():
+    """Any password change that is saved (admin, command, service) revokes the API token; other saves do not."""
+    from rest_framework.authtoken.models import Token
+
+    user = make_person(organisation=OrganisationFactory(), role=Role.TECHNICIAN)
+    api_token_issue(user=user)
+    user.first_name = "Renamed"
+    user.save()
+    assert Token.objects.filter(user=user).exists()
+    user.set_password("Brass-Damper-42")
+    user.save()
+    assert not Token.objects.filter(user=user).exists()
