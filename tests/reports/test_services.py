@@ -180,3 +180,26 @@ def test_odd_inputs_are_400_not_500(api_client, supervisor, unit, kind, paramete
     response = api_client.post("/api/reports/", {"kind": kind, "parameters": parameters}, format="json")
     assert response.status_code == 400, response.content
     assert field in response.json()["errors"]
+
+
+def test_api_client_downloads_with_its_token(org, supervisor, unit, foreign_unit, make_report):
+    """The API's download_url serves the PDF to an API client sending 'Authorization: Token …' (no login page);
+    a bad token gets 401, and a person who may not see the report gets 404 as on the page."""
+    from rest_framework.test import APIClient
+
+    from accounts.services import api_token_issue
+
+    report = make_report(user=supervisor, kind="labels", parameters={"units": [unit.pk]})
+    api = APIClient()
+    api.credentials(HTTP_AUTHORIZATION=f"Token {api_token_issue(user=supervisor).key}")
+    url = api.get(f"/api/reports/{report.public_id}/").json()["download_url"]
+    response = api.get(url)
+    assert response.status_code == 200, response.get("Location")
+    assert b"".join(response.streaming_content).startswith(b"%PDF-")
+
+    api.credentials(HTTP_AUTHORIZATION="Token " + "0" * 40)
+    assert api.get(url).status_code == 401
+
+    stranger = make_person(organisation=OrganisationFactory(name="Other Facilities"), role=Role.SUPERVISOR)
+    api.credentials(HTTP_AUTHORIZATION=f"Token {api_token_issue(user=stranger).key}")
+    assert api.get(url).status_code == 404
