@@ -96,15 +96,29 @@ def stored_file_data_uri(field, *, max_px: int = 480) -> str | None:
     return image_thumbnail_data_uri(data, max_px=max_px)
 
 
+def paper_for(system: str) -> str:
+    """The paper a reader prints on: US Letter for a reader in US units, A4 for everyone else (ISO 216)."""
+    return "letter" if system == "us" else "A4"
+
+
 def html_render(
-    *, template: str, context: dict, title: str, generated_at: datetime, zone: str, subject: str = ""
+    *,
+    template: str,
+    context: dict,
+    title: str,
+    generated_at: datetime,
+    zone: str,
+    subject: str = "",
+    paper: str = "A4",
 ) -> str:
     """The document's HTML: its template inside the shared page frame (fonts, footer, page counter).
 
-    ``zone`` is the IANA zone whose clock the footer and "as of" lines read (the site's).
+    ``zone`` is the IANA zone whose clock the footer and "as of" lines read (the site's); ``paper`` the
+    page size (``paper_for`` the reader's units).
     """
     full = {
         **context,
+        "page_size": paper,
         "doc_title": title,
         "doc_subject": subject,
         "generated_label": generated_label(generated_at, zone=zone),

@@ -17,7 +17,7 @@ from inventory.display import usual_zone
 from inventory.selectors import sites_visible_to
 from reports import charts
 from reports.compliance import FREEZE_LABELS, compliance_figures
-from reports.rendering import html_render, svg_data_uri
+from reports.rendering import html_render, paper_for, svg_data_uri
 
 from . import Built, Prepared, id_list, period, refuse_missing, single_organisation
 from .common import percent, shown, unit_system
@@ -91,6 +91,7 @@ def build(*, report) -> Built:
             "unit_count": len(figures.units),
         },
         title=title,
+        paper=paper_for(system),
         generated_at=report.created_at,
         zone=usual_zone([s.time_zone for s in figures.sites]),
         subject=f"Preventive maintenance compliance of {scope}",

@@ -25,7 +25,7 @@ from inspections.selectors import (
     work_order_cautions,
     work_order_for,
 )
-from reports.rendering import html_render, stored_file_data_uri
+from reports.rendering import html_render, paper_for, stored_file_data_uri
 from scheduling.models import WorkOrder, WorkOrderTask
 
 from . import Built, Prepared
@@ -205,6 +205,7 @@ def build(*, report) -> Built:
             "system_label": "US customary (in. w.c., °F, cfm)" if system == "us" else "SI (Pa, °C, L/s)",
         },
         title=title,
+        paper=paper_for(system),
         generated_at=report.created_at,
         zone=ahu.building.site.time_zone,
         subject=f"Record of work order {wo.public_id}",

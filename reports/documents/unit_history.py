@@ -30,7 +30,7 @@ from inventory.models import AHU, ComponentKind
 from inventory.selectors import ahus_visible_to
 from reports import charts
 from reports.compliance import filter_outlook
-from reports.rendering import html_render, svg_data_uri
+from reports.rendering import html_render, paper_for, svg_data_uri
 from scheduling.models import WorkOrder
 
 from . import Built, Prepared, one_id, period, refuse_missing
@@ -148,6 +148,7 @@ def build(*, report) -> Built:
             "setpoint": shown(ahu.supply_air_setpoint_c, "temperature", system),
         },
         title=title,
+        paper=paper_for(system),
         generated_at=report.created_at,
         zone=ahu.building.site.time_zone,
         subject=f"History of {ahu.tag}",

@@ -101,10 +101,26 @@ def _report(make_report, supervisor, system):
     )
 
 
-def _letter(report) -> bytes:
-    """The same document on US Letter paper (wider and shorter than A4)."""
-    html = compliance_report.build(report=report).html.replace("</style>", "@page { size: letter; }\n</style>", 1)
-    return pdf_render(html=html, identifier="letter").content
+def _other_paper(report, system: str) -> tuple[str, bytes]:
+    """The same document on the other paper: A4 for a US reader (printed on Letter), Letter for the rest."""
+    other = "A4" if system == "us" else "letter"
+    html = compliance_report.build(report=report).html.replace("</style>", f"@page {{ size: {other}; }}\n</style>", 1)
+    return other.lower(), pdf_render(html=html, identifier=other).content
+
+
+# Page sizes in points: Letter 8.5 × 11 in = 612 × 792 pt; A4 210 × 297 mm = 595.3 × 841.9 pt (ISO 216).
+PAPER_PT = {"us": (612.0, 792.0), "si": (595.3, 841.9)}
+
+
+def test_a_us_reader_gets_letter_and_everyone_else_a4(portfolio, supervisor, make_report, time_machine):
+    import io
+
+    from pypdf import PdfReader
+
+    time_machine.move_to(AS_OF, tick=False)
+    for system, (width, height) in PAPER_PT.items():
+        box = PdfReader(io.BytesIO(pdf_bytes(_report(make_report, supervisor, system)))).pages[0].mediabox
+        assert (float(box.width), float(box.height)) == pytest.approx((width, height), abs=0.5), system
 
 
 @pytest.mark.parametrize("system", ["si", "us"])
@@ -113,7 +129,8 @@ def test_every_table_fits_the_page(portfolio, supervisor, make_report, time_mach
     the paper's edge, and every filter row's verdict and unit can be read."""
     time_machine.move_to(AS_OF, tick=False)
     report = _report(make_report, supervisor, system)
-    for paper, pdf in (("a4", pdf_bytes(report)), ("letter", _letter(report))):
+    own = "letter" if system == "us" else "a4"
+    for paper, pdf in ((own, pdf_bytes(report)), _other_paper(report, system)):
         name = f"compliance-wide-{system}-{paper}"
         problems = page_margin_ink(pdf, name)
         assert not problems, f"content past the margins (see test-output/pdf-pages/{name}-*.png): {problems}"
