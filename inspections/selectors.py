@@ -40,19 +40,46 @@ def work_orders_visible_to(*, user: User) -> QuerySet[WorkOrder]:
     return scheduling_work_orders_visible_to(user=user)
 
 
-def work_order_for_sync(*, user: User, public_id) -> WorkOrder | None:
-    """The work order a form names, if the sender works for its organisation.
+def was_assigned_to(*, user: User, work_order: WorkOrder) -> bool:
+    """Whether the work order is, or ever was, assigned to the person: the current assignee, or named as the
+    one it was assigned to or taken from in its audit trail (``work_order_assign`` records both)."""
+    if work_order.assignee_id == user.pk:
+        return True
+    from accounts.models import AuditEvent
 
-    Wider than ``sites_visible_to`` on purpose: a technician whose work order was
-    reassigned meanwhile no longer sees its site, but the finished form must still
-    be stored (and flagged), never dropped.
+    events = AuditEvent.objects.filter(
+        object_type=WorkOrder._meta.label_lower, object_id=str(work_order.pk), action="assign"
+    ).values_list("changes", flat=True)
+    return any(isinstance(c, dict) and user.pk in (c.get("from"), c.get("to")) for c in events)
+
+
+def work_order_for_sync(*, user: User, public_id) -> WorkOrder | None:
+    """The work order a form or photo names, if the sender may add to it; else None (an unknown work order).
+
+    The read rule first (``scheduling.selectors.work_order_for``): what the person sees, they may send for.
+    One exception, wider on purpose: a work order that was assigned to this person and since reassigned or
+    cancelled no longer grants them its site, but their finished form must still be stored (and flagged),
+    never dropped. Any other work order of the organisation (another site's, never theirs) is unknown to
+    them, with the same answer as one that does not exist. Only people who do the work (not property
+    managers) send, see :func:`work_order_for_field_work`.
     """
     orgs = user.memberships.filter(role__in=SUBMITTING_ROLES).values("organisation_id")
-    return (
-        WorkOrder.objects.filter(public_id=public_id, organisation_id__in=orgs)
-        .select_related("ahu__building__site", "assignee")
-        .first()
-    )
+    try:
+        wo = (
+            WorkOrder.objects.filter(public_id=public_id, organisation_id__in=orgs)
+            .select_related("ahu__building__site", "assignee")
+            .first()
+        )
+    except (ValueError, TypeError, ValidationError):
+        return None  # not a UUID: the same answer as an unknown one
+    if wo is None:
+        return None
+    try:
+        work_order_for(user=user, public_id=wo.public_id)
+    except Http404:
+        if not was_assigned_to(user=user, work_order=wo):
+            return None
+    return wo
 
 
 def does_field_work_anywhere(*, user: User) -> bool:
@@ -158,12 +185,10 @@ def photo_for(*, user: User, client_uuid) -> Photo:
 
 
 def work_order_for_field_work(*, user: User, public_id) -> WorkOrder:
-    """The work order a photo or form is sent for: ``Http404`` when the sender does not work for its
-    organisation and cannot see it; ``PermissionDenied`` when they see it but only read (a property manager)."""
-    try:
-        wo = work_order_for_sync(user=user, public_id=public_id)
-    except (ValueError, ValidationError):
-        wo = None  # not a UUID: the same answer as an unknown one
+    """The work order a photo or form is sent for (:func:`work_order_for_sync`): ``Http404`` as
+    ``scheduling.selectors.work_order_for`` answers an unknown one when the sender may not add to it and
+    cannot see it; ``PermissionDenied`` when they see it but only read (a property manager)."""
+    wo = work_order_for_sync(user=user, public_id=public_id)
     if wo is not None:
         return wo
     work_order_for(user=user, public_id=public_id)  # Http404 when not visible either

@@ -18,8 +18,9 @@ class RawJSONField(serializers.JSONField):
 
 
 class SyncInputSerializer(serializers.Serializer):
+    # null too: each entry, whatever it is, is judged on its own and gets its own result.
     forms = serializers.ListField(
-        child=RawJSONField(), max_length=50, help_text="Finished forms; shape in inspections/SYNC.md."
+        child=RawJSONField(allow_null=True), max_length=50, help_text="Finished forms; shape in inspections/SYNC.md."
     )
     sent_at = RawJSONField(
         required=False,

@@ -128,6 +128,11 @@ def _reading(parsed: Parsed, i: int, raw: object, seen: set, errors: Errors) -> 
         return  # photo items are answered by their photos
     else:
         x = check.number(value)
+        if x is not None and parsed.unit_system is None:
+            return  # a number, but in an unknown unit system (refused under unit_system): no limits to judge it by
+        if x is None and parsed.unit_system is None:
+            errors.add(f"{at}.value", f"{label}: {check.shown(value)} is not a number")
+            return
         unit = checklists.display_unit_label(it.quantity, parsed.unit_system)
         lim = slot.limits
         lo = checklists.to_display(lim.get("physical_min"), it.quantity, parsed.unit_system)
@@ -300,25 +305,54 @@ def _clock(parsed: Parsed, raw: dict, sent_at: object, errors: Errors) -> None:
     parsed.signature["signed_at"] = placed.signed_at
 
 
-def form_parse(*, user, raw: object, sent_at: object = None) -> tuple[Parsed | None, Errors, uuid.UUID | None]:
+def _json_kind(raw: object) -> str:
+    """What a JSON value is, in JSON's words (a form that is not an object says what it is instead)."""
+    if raw is None:
+        return "null"
+    if isinstance(raw, bool):
+        return "true/false"
+    if isinstance(raw, int | float):
+        return "a number"
+    if isinstance(raw, str):
+        return "text"
+    if isinstance(raw, list):
+        return "a list"
+    return type(raw).__name__
+
+
+# The words for a work order the sender may not add to, the same whether it exists or not (ids do not leak).
+UNKNOWN_WORK_ORDER = "no such work order that you may see"
+
+
+def form_parse(
+    *, user, raw: object, sent_at: object = None, position: int | None = None
+) -> tuple[Parsed | None, Errors, uuid.UUID | None]:
     """Validate one form completely, without writing anything: clean values, or errors naming each field.
 
+    Every field is judged, so one answer names all that is wrong with the form: its top-level fields, the
+    signature and every reading (readings are judged against the work order's checklist, so only once the
+    work order is one the sender may add to: nothing about another unit is said).
     ``sent_at`` is the phone's clock when it sent the batch (the form's own
     ``sent_at`` wins); the phone's times are placed on the server's timeline.
+    ``position`` is the form's place in its batch (1 = first), named when the form is not even an object.
     """
     errors = Errors()
     if not isinstance(raw, dict):
-        errors.add("form", "each form is an object; see inspections/SYNC.md")
+        which = f"form {position}" if position is not None else "the form"
+        errors.add(
+            "form", f"{which} is not an object (got {_json_kind(raw)}); each form is an object, see inspections/SYNC.md"
+        )
         return None, errors, None
     client_uuid = check.uuid_(raw.get("client_uuid"), "client_uuid", errors, label="The form's id")
     wo_id = check.uuid_(raw.get("work_order"), "work_order", errors, label="Work order")
     work_order = selectors.work_order_for_sync(user=user, public_id=wo_id) if wo_id else None
     if wo_id and work_order is None:
-        errors.add("work_order", f"Work order {str(wo_id)!r}: no such work order in your organisation")
+        errors.add("work_order", f"Work order {str(wo_id)!r}: {UNKNOWN_WORK_ORDER}")
     version = check.whole(raw.get("work_order_version"), "work_order_version", errors, label="Work order version")
     system = raw.get("unit_system")
     if not isinstance(system, str) or system not in ("si", "us"):
         errors.add("unit_system", f"Unit system: {check.shown(system)} is not one of si, us")
+        system = None  # numbers are then checked for being numbers only, not against their limits
     started = check.when(raw.get("started_at"), "started_at", errors, label="Started at")
     finished = check.when(raw.get("finished_at"), "finished_at", errors, label="Finished at")
     readings = raw.get("readings")
@@ -328,7 +362,8 @@ def form_parse(*, user, raw: object, sent_at: object = None) -> tuple[Parsed | N
             f"Readings: {check.shown(readings)} is not allowed; allowed a list of at most {MAX_READINGS} readings "
             "{item, component, value, note}",
         )
-    if errors or work_order is None:
+        readings = None
+    if work_order is None:
         return None, errors, client_uuid
     parsed = Parsed(
         client_uuid=client_uuid,
@@ -340,11 +375,13 @@ def form_parse(*, user, raw: object, sent_at: object = None) -> tuple[Parsed | N
         checklist=selectors.checklist_build(work_order=work_order),
     )
     _signature(parsed, raw.get("signature"), errors)
-    _clock(parsed, raw, sent_at, errors)  # before the readings: the meter reading is dated on the server's timeline
+    if started is not None and finished is not None:
+        _clock(parsed, raw, sent_at, errors)  # before the readings: the meter reading is dated on the server's timeline
     seen: set = set()
-    for i, r in enumerate(readings):
+    for i, r in enumerate(readings or []):
         _reading(parsed, i, r, seen, errors)
-    _run_hours(parsed, readings, errors)
+    if readings is not None and system is not None and finished is not None:
+        _run_hours(parsed, readings, errors)
     _photos(parsed, raw.get("photos"), errors)
     return (None if errors else parsed), errors, client_uuid
 
@@ -640,7 +677,7 @@ def _store(parsed: Parsed, user, results) -> dict:
         raise
 
 
-def inspection_submit(*, user, form: object, sent_at: object = None) -> dict:
+def inspection_submit(*, user, form: object, sent_at: object = None, position: int | None = None) -> dict:
     """Store one finished form (or return the first result for its client_uuid, or refuse it whole)."""
     if isinstance(form, dict):
         first = None
@@ -651,7 +688,7 @@ def inspection_submit(*, user, form: object, sent_at: object = None) -> dict:
                 first = None
         if first is not None:
             return duplicate_result(first, user=user)
-    parsed, errors, client_uuid = form_parse(user=user, raw=form, sent_at=sent_at)
+    parsed, errors, client_uuid = form_parse(user=user, raw=form, sent_at=sent_at, position=position)
     if parsed is None:
         return refused_result(client_uuid, errors)
     results = _evaluate(parsed)
@@ -680,10 +717,10 @@ def inspection_sync(*, user, forms: list, sent_at: object = None) -> list[dict]:
     if not isinstance(forms, list) or len(forms) > MAX_FORMS:
         raise ValidationError({"forms": [f"forms is a list of at most {MAX_FORMS} forms"]})
     out = []
-    for form in forms:
+    for position, form in enumerate(forms, start=1):
         try:
             with transaction.atomic():
-                out.append(inspection_submit(user=user, form=form, sent_at=sent_at))
+                out.append(inspection_submit(user=user, form=form, sent_at=sent_at, position=position))
         except DatabaseError as exc:
             if not isinstance(exc, IntegrityError | DataError):
                 raise

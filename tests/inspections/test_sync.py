@@ -271,7 +271,7 @@ def test_other_organisations_work_order_is_not_found(api_client):
     assert api_client.get(f"/api/inspections/work-orders/{wo.public_id}/checklist/").status_code == 404
     [res] = post(api_client, outsider, [complete_filter_form(wo)])
     assert res["status"] == "refused"
-    assert "no such work order in your organisation" in res["errors"]["work_order"][0]
+    assert "no such work order that you may see" in res["errors"]["work_order"][0]
     assert Inspection.objects.count() == 0
 
 
