@@ -35,6 +35,9 @@ from engineering.units import to_display, unit_label
 # No unit in the registry was started, and no reading or visit dated, before this day (common practice: the
 # product's records begin this century; an earlier date is a typo such as 0025 for 2025 or a reset clock).
 EARLIEST_DATE = dt.date(2000, 1, 1)
+# Equipment outlives the product's records: air handlers in service 20 to 40 years and more are normal (common
+# practice), so installation, service start and manufacture dates reach back to this day.
+EARLIEST_EQUIPMENT_DATE = dt.date(1950, 1, 1)
 # Plans and service starts reach at most this many years ahead of today (common practice: a maintenance plan
 # or a unit on order is not dated further ahead; 9999-12-31 is a placeholder, not a date).
 PLAN_YEARS_AHEAD = 10
@@ -115,7 +118,9 @@ def number_problem(
     if not minimum <= value <= maximum:
         shown_value, display_unit = _display(value, quantity, system)
         unit_text = display_unit if display_unit is not None else unit
-        return f"{label}: {shown_value:.6g}{f' {unit_text}' if unit_text else ''} is out of range; allowed: {allowed}"
+        # A whole number in its own unit is said as typed (9223372036854775807, not 9.22337e+18).
+        text = str(value) if isinstance(value, int) and quantity is None else f"{shown_value:.6g}"
+        return f"{label}: {text}{f' {unit_text}' if unit_text else ''} is out of range; allowed: {allowed}"
     return None
 
 
@@ -215,15 +220,31 @@ def check_integer(
 # Dates and times
 # ---------------------------------------------------------------------------
 def date_window(*, today: dt.date) -> tuple[dt.date, dt.date]:
-    """Plans, service starts and installation dates: from 2000-01-01 to ten years after today."""
+    """Plans (visits, schedules, report periods): from 2000-01-01 to ten years after today. Equipment dates
+    have their own window (``equipment_date_window``)."""
     return EARLIEST_DATE, latest_plan_date(today=today)
 
 
+def equipment_date_window(*, today: dt.date, planned: bool = False) -> tuple[dt.date, dt.date]:
+    """Installation, service start and manufacture dates of equipment: from 1950-01-01 to today; a date that
+    may be planned (a unit's service start) reaches ten years ahead as plans do."""
+    return EARLIEST_EQUIPMENT_DATE, latest_plan_date(today=today) if planned else today
+
+
+def equipment_date_problem(day: dt.date | None, *, label: str, today: dt.date, planned: bool = False) -> str | None:
+    """'installed on 2031-01-01 is outside 1950–2026; allowed: …' for an equipment date outside its window."""
+    return window_problem(day, label=label, window=equipment_date_window(today=today, planned=planned))
+
+
 def date_problem(day: dt.date | None, *, label: str, today: dt.date) -> str | None:
-    """'service start 9999-12-31 is outside 2000–2036' for a stored date outside the window, else None."""
+    """'planned for 9999-12-31 is outside 2000–2036' for a stored date outside the plan window, else None."""
+    return window_problem(day, label=label, window=date_window(today=today))
+
+
+def window_problem(day: dt.date | None, *, label: str, window: tuple[dt.date, dt.date]) -> str | None:
     if day is None:
         return None
-    earliest, latest = date_window(today=today)
+    earliest, latest = window
     if earliest <= day <= latest:
         return None
     return (

@@ -13,7 +13,7 @@ import math
 from dataclasses import dataclass
 from typing import Any
 
-from accounts.inputs import FieldErrors, check_number, date_problem, number_problem, text_problem
+from accounts.inputs import FieldErrors, check_number, equipment_date_problem, number_problem, text_problem
 
 
 @dataclass(frozen=True)
@@ -38,8 +38,11 @@ AHU_NUMBERS: dict[str, NumberRange] = {
     "supply_air_setpoint_c": NumberRange("Supply-air setpoint", 5, 45, "°C"),
     "duct_static_setpoint_pa": NumberRange("Duct static pressure setpoint", 0, 3000, "Pa"),
 }
+# Equipment dates (accounts.inputs.equipment_date_window: from 1950 to today); those in PLANNED_DATES may be
+# planned up to ten years ahead (a unit on order gets its service start before it runs).
 AHU_DATES = {"service_start": "Service start"}
 COMPONENT_DATES = {"installed_on": "Installed on"}
+PLANNED_DATES = {"service_start"}
 # Text a person types: field -> (label, may hold tab and line breaks). No control characters (PostgreSQL cannot
 # store NUL; the others are never meant), whichever way the text comes in.
 AHU_TEXTS = {
@@ -72,7 +75,7 @@ def ahu_number_check(raw: Any, *, name: str, errors: FieldErrors) -> float | Non
 
 def ahu_problems(ahu, *, today: dt.date) -> dict[str, str]:
     """Field → what is wrong, for a unit as it is (being saved, or stored): numbers not finite or out of range,
-    text with control characters, a service start outside 2000 to ten years ahead. Empty when it keeps the
+    text with control characters, a service start outside 1950 to ten years ahead. Empty when it keeps the
     policy."""
     out: dict[str, str] = {}
     for name, r in AHU_NUMBERS.items():
@@ -89,7 +92,7 @@ def ahu_problems(ahu, *, today: dt.date) -> dict[str, str]:
     for name, label in AHU_DATES.items():
         value = getattr(ahu, name, None)
         if isinstance(value, dt.date):
-            problem = date_problem(value, label=label.lower(), today=today)
+            problem = equipment_date_problem(value, label=label.lower(), today=today, planned=name in PLANNED_DATES)
             if problem:
                 out[name] = problem[0].upper() + problem[1:]
     return out
@@ -100,7 +103,7 @@ def component_date_problems(component, *, today: dt.date) -> dict[str, str]:
     for name, label in COMPONENT_DATES.items():
         value = getattr(component, name, None)
         if isinstance(value, dt.date):
-            problem = date_problem(value, label=label, today=today)
+            problem = equipment_date_problem(value, label=label, today=today, planned=name in PLANNED_DATES)
             if problem:
                 out[name] = problem
     return out

@@ -142,6 +142,18 @@ class VentilationZones(models.TextChoices):
     MULTI = "multi_zone", "Several zones with recirculated air"
 
 
+def _refused_by_field(obj, name: str) -> bool:
+    """True when the field's own validators refuse its value (they then say it; the policy does not repeat it).
+    A database column's bounds (SQLite's bigint for a PositiveIntegerField) are not a physical range."""
+    value = getattr(obj, name)
+    for validator in obj._meta.get_field(name).validators:
+        try:
+            validator(value)
+        except ValidationError:
+            return True
+    return False
+
+
 class AHU(models.Model):
     class HeatRecovery(models.TextChoices):
         NONE = "none", "None"
@@ -262,8 +274,9 @@ class AHU(models.Model):
         problems = {}
         for name, message in ahu_problems(self, today=timezone.localdate()).items():
             value = getattr(self, name)
-            bounded = {type(v) for v in self._meta.get_field(name).validators} >= {MinValueValidator, MaxValueValidator}
-            if name in own or (bounded and isinstance(value, int | float) and math.isfinite(value)):
+            if name in own or (
+                isinstance(value, int | float) and math.isfinite(value) and _refused_by_field(self, name)
+            ):
                 continue
             problems[name] = message
         if problems:

@@ -12,7 +12,7 @@ import datetime as dt
 
 from django.db.models import Q
 
-from accounts.inputs import date_problem, date_window
+from accounts.inputs import date_problem, date_window, equipment_date_problem, equipment_date_window
 
 from .models import TaskDefinition, WorkOrder
 
@@ -66,7 +66,7 @@ def task_problem(task: TaskDefinition) -> str | None:
 
 
 def unit_problem(*, service_start: dt.date | None, today: dt.date) -> str | None:
-    return date_problem(service_start, label="service start", today=today)
+    return equipment_date_problem(service_start, label="service start", today=today, planned=True)
 
 
 def visit_problem(wo: WorkOrder, *, today: dt.date) -> str | None:
@@ -91,7 +91,7 @@ def stored_problems(*, organisation, today: dt.date) -> list[str]:
 
     from .selectors import effective_tasks
 
-    earliest, latest = date_window(today=today)
+    earliest, latest = equipment_date_window(today=today, planned=True)
     lines: list[str] = []
     units = (
         AHU.objects.filter(building__site__organisation=organisation, status=AHU.Status.IN_SERVICE)

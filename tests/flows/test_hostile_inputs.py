@@ -90,12 +90,12 @@ def test_the_registry_api_refuses_non_finite_and_huge_numbers(world, api, field,
 
 
 def test_a_service_start_in_9999_is_refused_through_the_api(world, api):
-    """A service start of 9999-12-31 is refused: 'outside 2000–2035', with the allowed dates."""
+    """A service start of 9999-12-31 is refused: 'outside 1950–2035', with the allowed dates."""
     with time_machine.travel(NOW, tick=False):
         r = api.patch(f"/api/inventory/ahus/{world.unit_a.pk}/", {"service_start": "9999-12-31"}, format="json")
     assert r.status_code == 400
     assert r.json()["errors"]["service_start"] == [
-        "Service start 9999-12-31 is outside 2000–2035; allowed: 2000-01-01 to 2035-03-03"
+        "Service start 9999-12-31 is outside 1950–2035; allowed: 1950-01-01 to 2035-03-03"
     ]
 
 
@@ -201,7 +201,7 @@ def test_check_data_finds_poisoned_rows_and_repairs_only_what_may_be_emptied(wor
     with time_machine.travel(NOW, tick=False):
         call_command("check_data", stdout=out)
     report = out.getvalue()
-    assert "problem: AHU-01 at Harbour House: Service start 9999-12-31 is outside 2000–2035" in report
+    assert "problem: AHU-01 at Harbour House: Service start 9999-12-31 is outside 1950–2035" in report
     assert f"problem: AHU-01 at Harbour House, {world.work_a.title}: planned for 9999-12-31" in report
     assert f"{task.name}: Interval: 1000000" in report
     assert "problem: AHU-01 at Harbour House: Floor area served: inf is not a finite number" in report

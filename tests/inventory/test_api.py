@@ -217,3 +217,43 @@ def test_schema_documents_registry_errors(world, supervisor_client):
     patch = paths["/api/inventory/components/{id}/"]["patch"]["responses"]
     assert {"400", "403", "404"} <= set(patch)
     assert "/api/inventory/import/{kind}/" in paths
+
+
+@pytest.mark.usefixtures("_on_2_dec_2026")
+def test_old_equipment_dates_are_accepted_and_future_installation_refused(world, supervisor_client):
+    """A unit in service since 1995 with a part installed in 1990 is normal (air handlers run 20-40 years, common
+    practice): saved. Before 1950, or a part installed after today, is refused naming the field, value and range."""
+    unit = world.units["own"]
+    url = f"/api/inventory/ahus/{unit.pk}/"
+    assert supervisor_client.patch(url, {"service_start": "1995-06-01"}, format="json").status_code == 200
+    assert supervisor_client.patch(url, {"service_start": "2030-01-01"}, format="json").status_code == 200  # on order
+    old = supervisor_client.patch(url, {"service_start": "1949-12-31"}, format="json")
+    assert old.status_code == 400
+    assert "1949-12-31" in old.json()["errors"]["service_start"][0]
+    assert "1950-01-01" in old.json()["errors"]["service_start"][0]
+    comp = unit.components.get(name="Final filters")
+    comp_url = f"/api/inventory/components/{comp.pk}/"
+    assert supervisor_client.patch(comp_url, {"installed_on": "1990-01-01"}, format="json").status_code == 200
+    future = supervisor_client.patch(comp_url, {"installed_on": "2027-01-01"}, format="json")
+    assert future.status_code == 400
+    message = future.json()["errors"]["installed_on"][0]
+    assert "2027-01-01" in message and "1950-01-01 to 2026-12-02" in message
+
+
+@pytest.mark.usefixtures("_on_2_dec_2026")
+def test_design_occupants_past_a_physical_range_is_refused(world, supervisor_client):
+    """design_occupants 9223372036854775807 is refused naming the field, the value and 0 to 100,000 people."""
+    url = f"/api/inventory/ahus/{world.units['own'].pk}/"
+    response = supervisor_client.patch(url, {"design_occupants": 9223372036854775807}, format="json")
+    assert response.status_code == 400, response.json()
+    message = response.json()["errors"]["design_occupants"][0]
+    assert "Design occupants" in message and "9223372036854775807" in message and "100000" in message.replace(",", "")
+    assert supervisor_client.patch(url, {"design_occupants": 120}, format="json").status_code == 200
+
+
+@pytest.fixture
+def _on_2_dec_2026():
+    import time_machine
+
+    with time_machine.travel("2026-12-02 10:00:00+00:00", tick=False):
+        yield

@@ -31,8 +31,8 @@ def test_a_unit_starting_in_9999_is_skipped_and_named_the_others_are_generated(l
     assert WorkOrderTask.objects.filter(ahu=good).exists()
     assert not WorkOrderTask.objects.filter(ahu=bad).exists()
     site = good.building.site.name
-    assert result.skipped == [f"AHU-03 at {site}: service start 9999-12-31 is outside 2000–2035; "
-                              "allowed: 2000-01-01 to 2035-03-03"]  # fmt: skip
+    assert result.skipped == [f"AHU-03 at {site}: service start 9999-12-31 is outside 1950–2035; "
+                              "allowed: 1950-01-01 to 2035-03-03"]  # fmt: skip
 
 
 def test_the_celery_task_returns_the_skipped_units(library):
@@ -83,3 +83,13 @@ def test_date_arithmetic_past_the_calendar_skips_that_task_not_the_run(library, 
     assert any(line.startswith(f"{ahu.tag} at ") and victim.name in line for line in result.skipped)
     assert all("cannot be worked out" in line for line in result.skipped)
     assert WorkOrder.objects.exists()
+
+
+def test_a_unit_in_service_since_1995_gets_its_work_planned_in_the_plan_window(library):
+    """A unit started in 1995 (20-40 years of service is normal, common practice) is not skipped: it gets work,
+    and every visit is due inside the plan window (none dated in the last century)."""
+    unit = make_full_unit(service_start=dt.date(1995, 6, 1), tag="AHU-95")
+    result = work_orders_generate(organisation=unit.building.site.organisation, today=TODAY)
+    assert result.skipped == []
+    due = list(WorkOrder.objects.filter(ahu=unit).values_list("due_date", flat=True))
+    assert due and min(due) >= dt.date(2000, 1, 1)
