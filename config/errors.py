@@ -1,7 +1,8 @@
 """Error answers outside the views: pages in the app's look, JSON in the API's one shape.
 
-Django calls these for an unknown URL (404), an unhandled exception (500) and a request it
-refuses to read (400: too large a body, too many fields, a bad host). Paths under ``/api/``
+Django calls these for an unknown URL (404), an unhandled exception (500), a request it
+refuses to read (400: too large a body, too many fields, a bad host) and a form without a good
+CSRF token (403, ``CSRF_FAILURE_VIEW``: most often a page left open until its token expired). Paths under ``/api/``
 get ``{"detail": ..., "errors": {}}`` (``config.api.error_body``); pages get ``404.html``,
 ``500.html`` and ``400.html``/``413.html``. The 500 and 400 pages render without a request or a
 database, since either may be what failed.
@@ -53,6 +54,16 @@ def bad_request(request: HttpRequest, exception: Exception) -> HttpResponse:
             detail = "The request could not be read."
         return JsonResponse(error_body(detail=detail), status=400)
     return defaults.bad_request(request, exception)
+
+
+def csrf_failure(request: HttpRequest, reason: str = "") -> HttpResponse:
+    """403 for a form sent without a good CSRF token: the app's 403 page, which says the page may have expired
+    (Django's own page has inline style the Content-Security-Policy blocks, and speaks of cookies and Referer)."""
+    if is_api(request):
+        detail = "The request's CSRF token is missing or wrong: reload the page and send it again."
+        return JsonResponse(error_body(detail=detail), status=403)
+    html = loader.get_template("403.html").render({}, request)
+    return HttpResponse(html, status=403)
 
 
 def page_not_found(request: HttpRequest, exception: Exception) -> HttpResponse:

@@ -4,10 +4,13 @@ from __future__ import annotations
 
 import math
 
-from accounts.inputs import number_allowed, number_problem, parse_number
+from accounts.inputs import FieldErrors, check_integer, number_allowed, number_problem, parse_number
 from engineering.errors import EngineeringInputError
 from engineering.units import from_display, to_display, unit_label
 from inventory.specs import SpecField, spec_fields
+
+# The longest text spec inventory.specs takes (its validator refuses longer; the input says so with maxlength).
+SPEC_TEXT_MAX = 200
 
 # Spec units that have a display quantity; the others (rpm, mm, V, A, s, %) read the same in both systems.
 QUANTITY_OF_UNIT = {"Pa": "pressure", "m³/s": "airflow", "°C": "temperature", "W": "heat_rate", "m²": "area"}
@@ -46,13 +49,20 @@ def spec_rows(*, fields, values: dict, errors: dict, system: str) -> list[dict]:
                 "allowed": allowed,
                 "value": "" if value is None else value,
                 "errors": errors.get(s.name, []),
+                # What the browser is told: whole numbers step by 1 within the range, text has a length.
+                "step": "1" if s.kind == "integer" else "any",
+                "min": int(s.minimum) if s.kind == "integer" else None,
+                "max": int(s.maximum) if s.kind == "integer" else None,
+                "maxlength": SPEC_TEXT_MAX,
             }
         )
     return rows
 
 
 def specs_from_post(*, kind: str, post, system: str) -> tuple[dict, dict]:
-    """Specs in SI from the posted form; the registry's validator has the last word."""
+    """Specs in SI from the posted form; the registry's validator has the last word.
+
+    A refusal names the value as it was typed (never a rounded one: '12.0000001' is not '12')."""
     specs, errors = {}, {}
     for s in spec_fields(kind):
         raw = post.get(f"spec_{s.name}", "").strip()
@@ -62,9 +72,21 @@ def specs_from_post(*, kind: str, post, system: str) -> tuple[dict, dict]:
         if raw == "":
             continue
         q = _quantity(s)
-        if s.kind in {"number", "integer"}:
+        if s.kind == "integer":
+            # The input policy's whole number (accounts.inputs.check_integer): '2.5' and '1e309' are not one.
+            checked = FieldErrors()
+            value = check_integer(
+                raw, key=s.name, label=s.label, errors=checked, minimum=int(s.minimum), maximum=int(s.maximum),
+                unit=s.unit,
+            )  # fmt: skip
+            if value is None:
+                errors[s.name] = checked[s.name]
+                continue
+            specs[s.name] = value
+        elif s.kind == "number":
             # The input policy: 'nan', 'inf' and 1e308 are refused here, with the range in the person's units.
             allowed = number_allowed(minimum=s.minimum, maximum=s.maximum, unit=s.unit, quantity=q, system=system)
+            unit = unit_label(quantity=q, system=system) if q else s.unit
             typed = parse_number(raw)
             if typed is None:
                 errors[s.name] = [f"{s.label}: {raw[:40]!r} is not a finite number; allowed: {allowed}"]
@@ -73,15 +95,11 @@ def specs_from_post(*, kind: str, post, system: str) -> tuple[dict, dict]:
                 value = from_display(value=typed, quantity=q, system=system) if q else typed
             except (EngineeringInputError, OverflowError):
                 value = math.inf
-            if not math.isfinite(value):  # typed finite, too large once in SI: say it as typed
-                unit = unit_label(quantity=q, system=system) if q else s.unit
-                errors[s.name] = [f"{s.label}: {typed:.6g} {unit} is out of range; allowed: {allowed}"]
-                continue
-            problem = number_problem(
+            problem = math.isfinite(value) and number_problem(
                 value, label=s.label, minimum=s.minimum, maximum=s.maximum, unit=s.unit, quantity=q, system=system
             )
-            if problem:
-                errors[s.name] = [problem]
+            if not math.isfinite(value) or problem:  # said as typed, not rounded back to the range's edge
+                errors[s.name] = [f"{s.label}: {raw[:40]} {unit} is out of range; allowed: {allowed}"]
                 continue
             specs[s.name] = value
         else:

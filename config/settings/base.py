@@ -33,6 +33,7 @@ SECRET_KEY = os.environ.get("DJANGO_SECRET_KEY", "plenum-development-key-not-for
 DEBUG = env_bool("DJANGO_DEBUG", False)
 ALLOWED_HOSTS = env_list("DJANGO_ALLOWED_HOSTS", ["127.0.0.1", "localhost", "testserver"])
 CSRF_TRUSTED_ORIGINS = env_list("DJANGO_CSRF_TRUSTED_ORIGINS", [])
+CSRF_FAILURE_VIEW = "config.errors.csrf_failure"  # the app's 403 page (an expired page), not Django's
 
 INSTALLED_APPS = [
     "django.contrib.admin",

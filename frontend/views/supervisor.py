@@ -15,7 +15,7 @@ from django.urls import reverse
 from django.utils import timezone
 from django.views.decorators.http import require_POST
 
-from accounts.inputs import FieldErrors, check_text, date_problem
+from accounts.inputs import INT32_MAX, FieldErrors, check_integer, check_text, date_problem
 from accounts.models import Membership, Role
 from accounts.selectors import organisations_where
 from inspections.selectors import corrective_work_already_resolved, reason_for
@@ -29,7 +29,12 @@ from scheduling.inputs import stored_problems
 from scheduling.models import UnitTaskSetting, WorkOrder
 from scheduling.selectors import effective_tasks, site_today
 from scheduling.services.library import unit_task_set
-from scheduling.services.work_orders import WorkOrderConflict, no_technician, work_order_schedule
+from scheduling.services.work_orders import (
+    REJECT_REASON_MAX,
+    WorkOrderConflict,
+    no_technician,
+    work_order_schedule,
+)
 
 from .. import backends, selectors
 from ..specs_form import spec_initial, spec_rows, specs_from_post
@@ -64,6 +69,29 @@ def _week_start(raw: str | None, *, today: dt.date) -> dt.date:
 
 def _technicians(org):
     return [m.user for m in Membership.objects.filter(organisation=org, role=Role.TECHNICIAN).select_related("user")]
+
+
+def version_seen(*, work_order: WorkOrder, raw) -> int:
+    """The work order's version the page was read at (its hidden ``version`` field).
+
+    A missing or unreadable one ('', 'x', '1.0', '1e309') is refused like a stale one (WorkOrderConflict),
+    never read as "skip the check": a page form holds the same line as the API's 409."""
+    version = check_integer(raw, key="version", label="Version", errors=FieldErrors(), minimum=1, maximum=INT32_MAX)
+    if version is None:
+        raise WorkOrderConflict(work_order=work_order, expected_version=0)
+    return version
+
+
+def _changed_meanwhile(wo) -> str:
+    return f"{wo.ahu.display_name} — {wo.title}: someone changed it meanwhile; here it is as it is now."
+
+
+def _still_as_read(*, work_order: WorkOrder, version: int) -> None:
+    """Lock the work order's row; WorkOrderConflict when it moved on since the page read it (for changes the
+    work order services do not check themselves, such as verifying its form)."""
+    fresh = WorkOrder.objects.select_for_update(of=("self",)).get(pk=work_order.pk)
+    if fresh.version != version:
+        raise WorkOrderConflict(work_order=fresh, expected_version=version)
 
 
 BOARD_PAGE = 100
@@ -142,20 +170,15 @@ def assign(request, public_id):
         messages.error(request, f"Scheduled day {raw_day!r} is not a date as YYYY-MM-DD.")
         return redirect(back)
     try:
-        version = int(request.POST.get("version", ""))
-    except ValueError:
-        version = None
-    try:
         with transaction.atomic():
+            version = version_seen(work_order=wo, raw=request.POST.get("version"))
             backends.work_order_assign(work_order=wo, assignee=technician, by=request.user, expected_version=version)
             if "scheduled_for" in request.POST:
                 work_order_schedule(work_order=wo, day=day, by=request.user)
     except ValidationError as exc:
         messages.error(request, f"{wo.ahu.display_name} — {wo.title}: {' '.join(exc.messages)}")
     except WorkOrderConflict:
-        messages.error(
-            request, f"{wo.ahu.display_name} — {wo.title}: someone changed it meanwhile; here it is as it is now."
-        )
+        messages.error(request, _changed_meanwhile(wo))
     else:
         planned = f" for {day.day} {day:%b}" if day else ""
         messages.success(request, f"{wo.ahu.display_name} — {wo.title} assigned to {technician}{planned}.")
@@ -263,6 +286,9 @@ def unit_edit(request, pk):
     )
 
 
+COMPONENT_NAME_MAX = Component._meta.get_field("name").max_length
+
+
 @login_required
 def component_edit(request, pk):
     component = Component.objects.filter(ahu__in=_managed_ahus(request), pk=pk).select_related("ahu").first()
@@ -271,26 +297,48 @@ def component_edit(request, pk):
             raise PermissionDenied("Only a supervisor or administrator of the organisation may change the registry.")
         raise Http404("No such component that you manage.")
     system = request.user.unit_system
-    errors = {}
+    errors: dict = {}
     values = spec_initial(component=component, system=system)
+    name = component.name
+    status = 200
     if request.method == "POST":
         specs, errors = specs_from_post(kind=component.kind, post=request.POST, system=system)
         values = {k: request.POST.get(f"spec_{k}", "") for k in values}
+        checked = FieldErrors()
+        name = request.POST.get("name", "")
+        clean_name = check_text(
+            name, key="name", label="Name", max_length=COMPONENT_NAME_MAX, errors=checked, required=True
+        )
+        errors.update(checked)
         if not errors:
             try:
-                inventory_services.component_update(
-                    component=component, name=request.POST.get("name", component.name), specs=specs
-                )
+                inventory_services.component_update(component=component, name=clean_name, specs=specs)
             except ValidationError as exc:
                 errors = exc.message_dict if hasattr(exc, "error_dict") else {"__all__": exc.messages}
             else:
                 messages.success(request, f"{component.name} saved.")
                 return redirect("frontend:registry_unit", pk=component.ahu_id)
+        # The registry's own refusals come keyed 'specs.stages': each goes beside its field.
+        errors = {key.removeprefix("specs."): texts for key, texts in errors.items()}
+        status = 400
+        component.refresh_from_db()  # the heading names the part as stored, not as typed
     rows = spec_rows(fields=spec_fields(component.kind), values=values, errors=errors, system=system)
+    shown_rows = {r["spec"].name for r in rows}
     return render(
         request,
         "frontend/supervisor/component_edit.html",
-        {"component": component, "rows": rows, "errors": errors.get("specs", []) + errors.get("__all__", [])},
+        {
+            "component": component,
+            "rows": rows,
+            "name": name,
+            "name_max": COMPONENT_NAME_MAX,
+            "name_errors": errors.get("name", []),
+            # Anything not beside a field of the form (the whole record, a field the form does not show).
+            "errors": [
+                text for key, texts in errors.items() if key != "name" and key not in shown_rows for text in texts
+            ],
+        },
+        status=status,
     )
 
 
@@ -349,6 +397,17 @@ def findings(request):
     return render(request, "frontend/supervisor/findings.html", {"groups": groups})
 
 
+def _field_messages(exc: ValidationError) -> list[str]:
+    """Every message of a refusal, each beginning with the field it is about ('Reason: …')."""
+    if not hasattr(exc, "error_dict"):
+        return exc.messages
+    out = []
+    for key, texts in exc.message_dict.items():
+        label = key.replace("_", " ").capitalize()
+        out += [t if t.startswith(label) or key == "__all__" else f"{label}: {t}" for t in texts]
+    return out
+
+
 def _corrective_page(request, pending, *, errors=None, typed=None, status=200):
     """The proposals awaiting approval, each with the findings it would fix in the reader's units."""
     proposals = list(
@@ -392,6 +451,9 @@ def corrective(request):
                 backends.corrective_work_order_approve(work_order=wo, by=request.user)
                 messages.success(request, f"Approved: {wo.title}.")
             else:
+                checked = FieldErrors()
+                check_text(reason, key="reason", label="Reason", max_length=REJECT_REASON_MAX, errors=checked)
+                checked.raise_if_any()
                 backends.corrective_work_order_reject(work_order=wo, by=request.user, reason=reason)
                 messages.success(request, f"Rejected: {wo.title}.")
         except ValidationError as exc:
@@ -399,12 +461,16 @@ def corrective(request):
             return _corrective_page(
                 request,
                 pending,
-                errors={str(wo.public_id): exc.messages},  # every message, field by field
+                errors={str(wo.public_id): _field_messages(exc)},  # every message, each naming its field
                 typed={str(wo.public_id): reason},
                 status=400,
             )
         return redirect("frontend:corrective")
     return _corrective_page(request, pending)
+
+
+# The longest note or reason a page takes in one field (the text inputs say so with maxlength).
+NOTE_MAX = 2000
 
 
 @login_required
@@ -420,8 +486,13 @@ def flagged(request):
         form = forms.filter(pk=int(raw)).first() if raw.isdigit() else None
         if form is None:
             raise Http404("No such flagged form that you may resolve.")
+        checked = FieldErrors()
+        note = check_text(
+            request.POST.get("note", ""), key="note", label="Note", max_length=NOTE_MAX, errors=checked, lines=True
+        )
         try:
-            backends.flag_resolve(inspection=form, by=request.user, note=request.POST.get("note", ""))
+            checked.raise_if_any()
+            backends.flag_resolve(inspection=form, by=request.user, note=note or "")
         except ValidationError as exc:
             messages.error(request, " ".join(exc.messages))
         else:
@@ -437,14 +508,15 @@ def verify(request, public_id):
     wo = backends.work_order_for(user=request.user, public_id=public_id, write=True)
     inspection = selectors.record_inspection(work_order=wo)
     try:
-        if inspection is not None:
-            backends.inspection_verify(inspection=inspection, by=request.user)
-        else:
-            try:
-                version = int(request.POST.get("version", ""))
-            except ValueError:
-                version = None
-            backends.work_order_verify(work_order=wo, by=request.user, expected_version=version)
+        with transaction.atomic():
+            version = version_seen(work_order=wo, raw=request.POST.get("version"))
+            if inspection is not None:
+                _still_as_read(work_order=wo, version=version)
+                backends.inspection_verify(inspection=inspection, by=request.user)
+            else:
+                backends.work_order_verify(work_order=wo, by=request.user, expected_version=version)
+    except WorkOrderConflict:
+        messages.error(request, _changed_meanwhile(wo))
     except ValidationError as exc:
         # The form's refusals name the unit, the work and the day themselves.
         named = "" if inspection is not None else f"{wo.ahu.display_name} — {wo.title}: "

@@ -10,6 +10,7 @@ from django.utils import timezone
 from django.views.decorators.http import require_GET, require_POST
 
 from accounts.clock import zone_clock
+from accounts.inputs import FieldErrors, check_text
 from inventory.selectors import component_tree
 from scheduling.models import WorkOrder
 from scheduling.selectors import person_time_zone, person_today
@@ -118,6 +119,8 @@ def _work_order(request, public_id):
     return backends.work_order_for(user=request.user, public_id=public_id)
 
 
+# The longest reason the amendment form takes (its input says so with maxlength).
+AMEND_TEXT_MAX = 2000
 DONE_STATES = (WorkOrder.State.COMPLETED, WorkOrder.State.VERIFIED)
 PHOTO_THUMB = "/api/inspections/photos/{}/thumbnail/"
 PHOTO_FULL = "/api/inspections/photos/{}/"
@@ -268,6 +271,14 @@ def amend(request, public_id):
     if reading is None:
         messages.error(request, "The amendment was not saved: choose the reading to correct from the list.")
         return back
+    checked = FieldErrors()
+    reason = check_text(
+        request.POST.get("reason", ""), key="reason", label="Why it is corrected", max_length=AMEND_TEXT_MAX,
+        errors=checked,
+    )  # fmt: skip
+    if reason is None:
+        messages.error(request, "The amendment was not saved: " + " ".join(checked["reason"]))
+        return back
     correction = {
         "item": key,
         "component": code or None,
@@ -278,7 +289,7 @@ def amend(request, public_id):
         backends.inspection_amend(
             inspection=inspection,
             by=request.user,
-            reason=request.POST.get("reason", ""),
+            reason=reason,
             readings=[correction],
             unit_system=request.user.unit_system,
         )

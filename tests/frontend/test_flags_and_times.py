@@ -56,7 +56,12 @@ def test_flagged_work_offers_resolve_not_verify_and_messages_name_the_work(s, lo
         flagged_page = client.get(reverse("frontend:flagged")).content.decode()
         assert f'id="flag-{s.work_a.public_id}"' in flagged_page
 
-        refused = client.post(reverse("frontend:verify", kwargs={"public_id": s.work_a.public_id}), follow=True)
+        s.work_a.refresh_from_db()  # the version the work order page shows
+        refused = client.post(
+            reverse("frontend:verify", kwargs={"public_id": s.work_a.public_id}),
+            {"version": s.work_a.version},
+            follow=True,
+        )
         text = refused.content.decode()
         assert "AHU-01 (North block) — Quarterly service, finished 14 Jan 2026 is flagged" in text
         assert "resolve the flag first" in text
@@ -84,7 +89,8 @@ def test_times_on_the_flagged_page_and_the_work_order_page_are_on_the_sites_cloc
         assert "finished 14 Jan 2026 05:30 CET" in flagged_page
         assert "04:30" not in flagged_page
         client.post(reverse("frontend:flagged"), {"inspection": inspection.pk, "note": "Checked with Omar."})
-        client.post(reverse("frontend:verify", kwargs={"public_id": s.work_a.public_id}))
+        s.work_a.refresh_from_db()
+        client.post(reverse("frontend:verify", kwargs={"public_id": s.work_a.public_id}), {"version": s.work_a.version})
         page = client.get(f"/w/{s.work_a.public_id}/").content.decode()
         assert "Verified by Sara Plan on 14 Jan 2026 06:30 CET." in page
         assert "Flag resolved by Sara Plan on 14 Jan 2026 06:30 CET: Checked with Omar." in page

@@ -57,7 +57,10 @@ def test_supervisor_verifies_completed_work_from_the_work_order_page(scenario, l
     assert (
         reverse("frontend:verify", kwargs={"public_id": scenario.work_a.public_id}) in client.get(url).content.decode()
     )
-    response = client.post(reverse("frontend:verify", kwargs={"public_id": scenario.work_a.public_id}))
+    response = client.post(
+        reverse("frontend:verify", kwargs={"public_id": scenario.work_a.public_id}),
+        {"version": scenario.work_a.version},  # the page's hidden field: the version it was read at
+    )
     assert response.status_code == 302 and response["Location"] == url
     scenario.work_a.refresh_from_db()
     assert scenario.work_a.state == WorkOrder.State.VERIFIED

@@ -122,3 +122,20 @@ def test_the_demo_runs_without_debug_pages_unless_asked():
     """`make run` (config.settings.local) shows the app's error pages; DJANGO_DEBUG=1 brings Django's back."""
     assert _local_debug({}) is False
     assert _local_debug({"DJANGO_DEBUG": "1"}) is True
+
+
+@pytest.mark.django_db
+@pytest.mark.parametrize("token", [None, "not-the-token"])
+def test_a_form_sent_without_a_good_csrf_token_shows_the_apps_403_page(token):
+    """A form from an expired page (or none at all) is refused with the app's 403 page, which says the page may
+    have expired, in the app's look, with no inline style for the Content-Security-Policy to block."""
+    client = Client(enforce_csrf_checks=True)
+    client.force_login(make_person(organisation=OrganisationFactory(), role=Role.SUPERVISOR))
+    post = {"inspection": "1", "note": "checked"}
+    if token is not None:
+        post["csrfmiddlewaretoken"] = token
+    response = client.post("/flagged/", post)
+    assert response.status_code == 403
+    html = response.content.decode()
+    assert "Not open to you" in html and "expired" in html and 'class="brand"' in html
+    assert "style=" not in html and "<style" not in html and "CSRF verification failed" not in html
