@@ -303,7 +303,9 @@ def reading_time_problem(when: dt.datetime, *, label: str, now: dt.datetime, tz=
     earliest = dt.datetime.combine(EARLIEST_DATE, dt.time(), tzinfo=zone)
     if when < earliest:
         year = EARLIEST_DATE.year
-        return f"{label} {local_text(when, zone)} is before {year}; allowed: {year} or later"
+        # Said as given: zone rules before standard time (1 Jan 0001 in Helsinki is '00:19 LMT') are artefacts.
+        given = when.isoformat(sep=" ", timespec="minutes").replace("+00:00", " UTC")
+        return f"{label} {given} is before {year}; allowed: {year}-01-01 or later"
     if when > now + READING_FUTURE_TOLERANCE:
         return (
             f"{label} {local_text(when, zone)} is later than now "

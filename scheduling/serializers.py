@@ -2,6 +2,8 @@
 
 from rest_framework import serializers
 
+from accounts import api_fields
+
 from .models import MeterReading, OutdoorTemperature, TaskDefinition, WorkOrder, WorkOrderTask
 
 
@@ -38,13 +40,13 @@ class TaskDefinitionOut(serializers.ModelSerializer):
 
 
 class TaskOverrideIn(serializers.Serializer):
-    interval_value = serializers.IntegerField(min_value=1, required=False)
+    interval_value = api_fields.IntegerField(min_value=1, required=False)
     interval_unit = serializers.ChoiceField(choices=TaskDefinition.IntervalUnit.choices, required=False)
     anchor = serializers.ChoiceField(choices=TaskDefinition.Anchor.choices, required=False)
-    grace_days = serializers.IntegerField(min_value=0, max_value=365, required=False)
-    run_hours = serializers.IntegerField(min_value=1, required=False)
-    lead_days = serializers.IntegerField(min_value=0, max_value=180, required=False)
-    estimated_minutes = serializers.IntegerField(min_value=1, max_value=24 * 60, required=False)
+    grace_days = api_fields.IntegerField(min_value=0, max_value=365, required=False)
+    run_hours = api_fields.IntegerField(min_value=1, required=False)
+    lead_days = api_fields.IntegerField(min_value=0, max_value=180, required=False)
+    estimated_minutes = api_fields.IntegerField(min_value=1, max_value=24 * 60, required=False)
     enabled = serializers.BooleanField(required=False)
 
 
@@ -138,7 +140,7 @@ class RejectIn(VersionIn):
 
 class AssignIn(VersionIn):
     assignee = serializers.CharField(help_text="Username of a technician of the organisation.")
-    scheduled_for = serializers.DateField(
+    scheduled_for = api_fields.DateField(
         required=False,
         allow_null=True,
         help_text="Optionally plan the visit for this day too (the site's local date, today or later).",
@@ -146,7 +148,7 @@ class AssignIn(VersionIn):
 
 
 class ScheduleIn(VersionIn):
-    scheduled_for = serializers.DateField(
+    scheduled_for = api_fields.DateField(
         allow_null=True,
         help_text="The day the visit is planned for (site's local date, today or later); null clears it.",
     )
@@ -170,7 +172,7 @@ class SchedulingErrorOut(serializers.Serializer):
 class MeterReadingIn(serializers.Serializer):
     unit_label = serializers.CharField()
     component_label = serializers.CharField(required=False, allow_blank=True, default="")
-    hours = serializers.FloatField(min_value=0)
+    hours = api_fields.FloatField(min_value=0)
     taken_at = serializers.CharField(
         max_length=40,
         help_text="ISO 8601 date-time; without an offset it is read in the unit's site time zone (as the CSV is).",

@@ -153,3 +153,52 @@ def test_generate_command_prints_counts(world, capsys):
     call_command("generate_work_orders", organisation=world["org"].slug, horizon=30)
     call_command("generate_work_orders", organisation=world["org"].slug, horizon=30)
     assert f"{world['org'].slug}: created 0, moved 0" in capsys.readouterr().out.splitlines()[-2]
+
+
+@pytest.mark.parametrize(
+    ("field", "value", "says"),
+    [
+        ("interval_value", "nan", ["Interval value", "'nan'", "a whole number of at least 1"]),
+        ("interval_value", 1e308, ["Interval value", "1e+308", "a whole number"]),
+        ("interval_value", "inf", ["Interval value", "'inf'", "a whole number"]),
+        ("grace_days", 366, ["Grace days", "366", "from 0 to 365"]),
+    ],
+)
+def test_task_fields_refused_name_the_field_the_value_and_the_range(api_client, world, field, value, says):
+    """PATCH /api/scheduling/tasks/<code>/ with a bad number says which field, what was sent and what is allowed."""
+    from scheduling.models import TaskDefinition
+
+    api_client.force_authenticate(world["sup"])
+    code = TaskDefinition.objects.filter(trigger="interval").values_list("code", flat=True)[0]
+    response = api_client.patch(f"/api/scheduling/tasks/{code}/", {field: value}, format="json")
+    assert response.status_code == 400
+    message = response.json()["errors"][field][0]
+    assert all(part in message for part in says), message
+
+
+def test_meter_and_schedule_refusals_name_the_value(api_client, world):
+    """Negative hours, a year-1 reading time and 30 February are refused with the value as sent and what is allowed."""
+    api_client.force_authenticate(world["sup"])
+    label = world["ahu"].label_code
+    url = "/api/scheduling/meter-readings/"
+    negative = api_client.post(
+        url, {"unit_label": label, "hours": -1, "taken_at": "2025-01-01T08:00:00Z"}, format="json"
+    )
+    assert negative.status_code == 400
+    assert "-1" in negative.json()["errors"]["hours"][0] and "at least 0" in negative.json()["errors"]["hours"][0]
+    year_one = api_client.post(
+        url, {"unit_label": label, "hours": 10, "taken_at": "0001-01-01T00:00:00Z"}, format="json"
+    )
+    assert year_one.status_code == 400
+    message = year_one.json()["errors"]["taken_at"][0]
+    assert "0001-01-01 00:00" in message and "LMT" not in message and "2000" in message, message
+
+    wo = WorkOrder.objects.filter(ahu=world["ahu"]).first()
+    response = api_client.post(
+        f"/api/scheduling/work-orders/{wo.public_id}/schedule/",
+        {"version": wo.version, "scheduled_for": "2026-02-30"},
+        format="json",
+    )
+    assert response.status_code == 400
+    message = response.json()["errors"]["scheduled_for"][0]
+    assert "2026-02-30" in message and "YYYY-MM-DD" in message, message
