@@ -498,7 +498,7 @@ def flagged(request):
         else:
             messages.success(request, f"Flag resolved: {form.display_name}.")
         return redirect("frontend:flagged")
-    return render(request, "frontend/supervisor/flagged.html", {"forms": list(forms)})
+    return render(request, "frontend/supervisor/flagged.html", {"forms": list(forms), "note_max": NOTE_MAX})
 
 
 @login_required

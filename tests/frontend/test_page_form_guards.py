@@ -146,3 +146,24 @@ def test_a_good_component_edit_is_saved(scenario, login, heater):
     assert response.status_code == 302
     heater = Component.objects.get(pk=heater.pk)
     assert heater.name == "Preheater 1" and heater.specs["stages"] == 4
+
+
+def test_an_amendment_reason_with_control_characters_is_refused_and_named(scenario, login):
+    """The record's amendment form: a reason carrying NUL is refused with the field named; no amendment."""
+    from inspections.models import Amendment
+
+    inspection = Inspection.objects.get(pk=finished_visit(scenario)["inspection_id"])
+    final = scenario.unit_a.components.get(name="Final filters")
+    post = {
+        "inspection": inspection.pk,
+        "item": f"filter_check.dp|{final.label_code}",
+        "value": "160",
+        "note": "gauge re-zeroed",
+        "reason": "misread\x00the gauge",
+    }
+    url = reverse("frontend:amend", kwargs={"public_id": scenario.work_a.public_id})
+    response = login(scenario.technician).post(url, post)
+    assert "Why it is corrected: the text contains control characters" in _messages(response)
+    assert not Amendment.objects.exists()
+    response = login(scenario.technician).post(url, {**post, "reason": "misread the gauge"})
+    assert Amendment.objects.filter(inspection=inspection).count() == 1
