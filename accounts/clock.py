@@ -54,6 +54,14 @@ def local_date_text(when: dt.datetime, *, zone: zoneinfo.ZoneInfo | str | None) 
         return when.date().isoformat()
 
 
+def day_text(day: dt.date, *, today: dt.date) -> str:
+    """A day in a sentence: "1 Dec" in the current year, "1 Dec 2036" in any other (so a plan years ahead
+    never reads as this year's). Used by the board and its messages."""
+    if day.year == today.year:
+        return f"{day.day} {MONTHS[day.month - 1]}"
+    return local_date_of(day)
+
+
 def local_date_of(local: dt.datetime | dt.date) -> str:
     return f"{local.day} {MONTHS[local.month - 1]} {local.year:04d}"
 

@@ -3,6 +3,7 @@
 from django import template
 from django.urls import NoReverseMatch, reverse
 
+from accounts.clock import day_text
 from accounts.models import Role
 from accounts.selectors import primary_role
 from inventory.display import site_time_text
@@ -67,3 +68,9 @@ def plenum_nav(context):
 # A moment as the site's clock shows it, with the zone named: "2 Dec 2026 06:30 CET" ("" without a moment).
 # ``site`` is a Site (or a time zone name); every time a person reads on the pages goes through here.
 register.filter("site_time", site_time_text)
+
+
+@register.filter
+def day(value, today):
+    """A day as the board writes it: "1 Dec" this year, "1 Dec 2036" in another (accounts.clock.day_text)."""
+    return day_text(value, today=today) if value else ""

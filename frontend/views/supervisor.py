@@ -33,6 +33,7 @@ from scheduling.services.work_orders import (
     REJECT_REASON_MAX,
     WorkOrderConflict,
     no_technician,
+    work_order_plan_words,
     work_order_schedule,
 )
 
@@ -180,7 +181,7 @@ def assign(request, public_id):
     except WorkOrderConflict:
         messages.error(request, _changed_meanwhile(wo))
     else:
-        planned = f" for {day.day} {day:%b}" if day else ""
+        planned = f" {work_order_plan_words(work_order=wo, today=site_today(site=wo.ahu.building.site))}" if day else ""
         messages.success(request, f"{wo.ahu.display_name} — {wo.title} assigned to {technician}{planned}.")
     return redirect(back)
 

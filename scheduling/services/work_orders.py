@@ -14,6 +14,7 @@ from django.core.mail import send_mail
 from django.db import transaction
 from django.utils import timezone
 
+from accounts.clock import day_text, local_date_of
 from accounts.inputs import PLAN_YEARS_AHEAD, latest_plan_date
 from accounts.models import Membership, Role
 from accounts.services import audit_record
@@ -169,6 +170,19 @@ def work_order_assign(*, work_order: WorkOrder, assignee, by, expected_version: 
 
 
 @transaction.atomic
+def work_order_plan_words(*, work_order: WorkOrder, today: dt.date) -> str:
+    """How the planned day reads in a message: "for 1 Dec 2036, after its overdue date 3 Dec 2026" (the warning
+    when the plan is later than the day the work turns overdue; the plan is kept), "" without a plan."""
+    day = work_order.scheduled_for
+    if day is None:
+        return ""
+    words = f"for {day_text(day, today=today)}"
+    overdue = work_order.overdue_on
+    if overdue is not None and day > overdue:
+        words += f", after its overdue date {local_date_of(overdue)}"
+    return words
+
+
 def work_order_schedule(
     *, work_order: WorkOrder, day: dt.date | None, by, expected_version: int | None = None
 ) -> WorkOrder:

@@ -132,3 +132,21 @@ def test_the_day_offered_is_never_before_the_sites_own_today(scenario, login):
         page = login(scenario.technician).get("/today/")
         assert page.context["today"] == dt.date(2025, 3, 6)
         assert str(wo.public_id) in page.content.decode()
+
+
+def test_a_day_planned_years_ahead_names_its_year_and_that_it_is_after_the_overdue_date(scenario, visit, login):
+    """Planning the visit (overdue from 9 Mar 2025) for 1 Dec 2034 is kept, and the message and the board say
+    '1 Dec 2034' with the year, and that it is after the overdue date; a day this year reads without the year."""
+    WorkOrder.objects.filter(pk=visit.pk).update(overdue_on=dt.date(2025, 3, 9))
+    client = login(scenario.supervisor)
+    with time_machine.travel(dt.datetime(2025, 3, 5, 10, tzinfo=dt.UTC), tick=False):
+        response = client.post(
+            reverse("frontend:assign", kwargs={"public_id": visit.public_id}),
+            {"assignee": scenario.technician.pk, "version": visit.version, "scheduled_for": "2034-12-01"},
+        )
+        said = [str(m) for m in get_messages(response.wsgi_request)]
+        assert any("for 1 Dec 2034, after its overdue date 9 Mar 2025" in m for m in said), said
+        visit.refresh_from_db()
+        assert visit.scheduled_for == dt.date(2034, 12, 1)
+        page = client.get("/board/?week=2025-03-03").content.decode()
+    assert "planned 1 Dec 2034" in page
