@@ -23,6 +23,24 @@ def error_body(*, detail: str, errors: dict | None = None) -> dict:
     return {"detail": detail, "errors": errors or {}}
 
 
+def flat_errors(data, prefix: str = "") -> dict[str, list[str]]:
+    """DRF's nested errors as one level: ``{"values.t_outdoor_c": ["…"], "forms.2": ["…"]}``, every message a
+    plain string (a nested serializer or a list field would otherwise show Python's repr in the sentence)."""
+    out: dict[str, list[str]] = {}
+    if isinstance(data, dict):
+        for key, value in data.items():
+            out.update(flat_errors(value, f"{prefix}.{key}" if prefix else str(key)))
+    elif isinstance(data, list) and any(isinstance(v, dict | list) for v in data):
+        for i, value in enumerate(data):
+            if value:  # DRF puts an empty entry for each item of a list that was fine
+                out.update(flat_errors(value, f"{prefix}.{i}" if prefix else str(i)))
+    elif isinstance(data, list):
+        out[prefix or "non_field_errors"] = [str(m) for m in data]
+    else:
+        out[prefix or "non_field_errors"] = [str(data)]
+    return out
+
+
 def exception_handler(exc, context):
     """Turn model-level validation errors into 400s with per-field messages.
 
@@ -48,11 +66,9 @@ def exception_handler(exc, context):
         return Response(error_body(detail=detail, errors=errors), status=status.HTTP_400_BAD_REQUEST)
     response = drf_exception_handler(exc, context)
     if response is not None and isinstance(exc, exceptions.ValidationError) and isinstance(response.data, dict):
-        flat = "; ".join(
-            f"{field}: {' '.join(str(m) for m in msgs) if isinstance(msgs, list) else msgs}"
-            for field, msgs in response.data.items()
-        )
-        response.data = error_body(detail=flat, errors=response.data)
+        errors = flat_errors(response.data)
+        flat = "; ".join(f"{field}: {' '.join(msgs)}" for field, msgs in errors.items())
+        response.data = error_body(detail=flat, errors=errors)
     elif response is not None and isinstance(response.data, dict) and set(response.data) == {"detail"}:
         # 401, 403, 404, 405, 429...: the same shape, with the sentence DRF or the view gave.
         response.data = error_body(detail=str(response.data["detail"]))
