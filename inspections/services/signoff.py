@@ -6,12 +6,16 @@ from django.core.exceptions import PermissionDenied, ValidationError
 from django.db import transaction
 from django.utils import timezone
 
+from accounts.inputs import text_problem
 from accounts.services import audit_record
 from inventory.selectors import sites_managed_by
 
 from .. import evaluation, selectors
 from ..models import Amendment, Finding, Inspection
 from . import findings as findings_service
+
+# A note or a reason a person writes: a few paragraphs (the page's inputs hold 2,000 characters).
+TEXT_MAX = 2000
 
 
 def _is_supervisor(user, inspection: Inspection) -> bool:
@@ -53,6 +57,9 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
         raise PermissionDenied("only the technician who signed it or a supervisor of the site may amend it")
     if not isinstance(reason, str) or not reason.strip():
         raise ValidationError({"reason": ["an amendment needs a reason"]})
+    problem = text_problem(reason.strip(), label="Reason", max_length=TEXT_MAX, lines=True)
+    if problem:
+        raise ValidationError({"reason": [problem]})
     if unit_system not in ("si", "us"):
         raise ValidationError({"unit_system": [f"unit_system={unit_system!r} is not one of si, us"]})
     if not isinstance(readings, list) or not readings:
@@ -210,6 +217,9 @@ def flagged_form_resolve(*, inspection: Inspection, by, note: str) -> Inspection
         raise ValidationError({"inspection": [f"the flag on {inspection.display_name} was resolved already"]})
     if not isinstance(note, str) or not note.strip():
         raise ValidationError({"note": ["say what was done about the flag"]})
+    problem = text_problem(note.strip(), label="Note", max_length=TEXT_MAX, lines=True)
+    if problem:
+        raise ValidationError({"note": [problem]})
     inspection.flag_resolved_at = timezone.now()
     inspection.flag_resolved_by = by
     inspection.flag_resolution_note = note.strip()

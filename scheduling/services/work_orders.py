@@ -15,7 +15,7 @@ from django.db import transaction
 from django.utils import timezone
 
 from accounts.clock import day_text, local_date_of
-from accounts.inputs import PLAN_YEARS_AHEAD, latest_plan_date
+from accounts.inputs import PLAN_YEARS_AHEAD, latest_plan_date, text_problem
 from accounts.models import Membership, Role
 from accounts.services import audit_record
 from inventory.models import AHU, Component
@@ -458,6 +458,9 @@ def rejection_reason_check(*, reason: object) -> str:
         raise ValidationError(
             {"reason": [f"the reason is {len(text)} characters long; at most {REJECT_REASON_MAX} are allowed"]}
         )
+    problem = text_problem(text, label="Reason", max_length=REJECT_REASON_MAX, lines=True)
+    if problem:
+        raise ValidationError({"reason": [problem]})
     return text
 
 

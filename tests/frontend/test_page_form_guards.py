@@ -167,3 +167,24 @@ def test_an_amendment_reason_with_control_characters_is_refused_and_named(scenar
     assert not Amendment.objects.exists()
     response = login(scenario.technician).post(url, {**post, "reason": "misread the gauge"})
     assert Amendment.objects.filter(inspection=inspection).count() == 1
+
+
+# --- 2b. The same text rule through the API (the services both reach) --------------------------------------------
+def test_the_api_refuses_control_characters_in_a_flag_note_and_a_rejection_reason(scenario, api_client):
+    inspection = _flagged(scenario)
+    api_client.force_authenticate(scenario.supervisor)
+    res = api_client.post(f"/api/inspections/{inspection.pk}/resolve-flag/", {"note": "a\x07b"}, format="json")
+    assert res.status_code == 400 and "control characters" in res.json()["errors"]["note"][0], res.json()
+    inspection.refresh_from_db()
+    assert inspection.flag_resolved_at is None
+
+    finished_visit(scenario, dp=400.0)
+    [wo] = WorkOrder.objects.filter(kind=WorkOrder.Kind.CORRECTIVE, approval=WorkOrder.Approval.PENDING)
+    res = api_client.post(
+        f"/api/scheduling/work-orders/{wo.public_id}/reject/",
+        {"version": wo.version, "reason": "a\x07b"},
+        format="json",
+    )
+    assert res.status_code == 400 and "control characters" in res.json()["errors"]["reason"][0], res.json()
+    wo.refresh_from_db()
+    assert wo.approval == WorkOrder.Approval.PENDING
