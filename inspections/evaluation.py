@@ -932,8 +932,8 @@ def _drift_checks(form: Form, consumed: set) -> list[Result]:
                 qty(r, value_q),
                 "; allowed ±",
                 spec,
-                " = ±",
-                qty(chk.limits["allowed_error"], diff_q),
+                # The sum only when there is one to work out ("±(0.3 K + 1 % of reading) = ±0.5 K").
+                *([] if tol_pct == 0 else [" = ±", qty(chk.limits["allowed_error"], diff_q)]),
             )
             out.append(res)
     return out

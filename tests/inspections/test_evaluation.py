@@ -380,6 +380,8 @@ def test_co2_sensor_drift_against_the_reference_meter(api_client):
     ev = result(out, "sensor_drift", sensor)
     assert ev["verdict"] == "fail"
     assert ev["derived"]["error"] == 80 and ev["derived"]["allowed_error"] == 50
+    # A tolerance with no share of the reading is said once: "allowed ±50 ppm", not "±50 ppm = ±50 ppm".
+    assert ev["reason"].endswith("; allowed ±50 ppm"), ev["reason"]
     cwo = Finding.objects.get(pk=out["findings"][0]["id"]).corrective_work_order
     assert cwo.condition_code == "sensor_drift"
 

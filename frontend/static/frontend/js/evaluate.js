@@ -948,7 +948,7 @@ function driftChecks(form, consumed) {
       const [valueQ, diffQ] = quantities[prefix];
       const spec = tolPct === 0 ? [q(tolAbs, diffQ)] : ["(", q(tolAbs, diffQ), ` + ${tolPct} % of reading)`];
       say(res, `${sensor.name}: sensor reads `, q(s, valueQ), ", ", q(Math.abs(diff), diffQ), ` ${diff > 0 ? "above" : "below"} reference `,
-        q(r, valueQ), "; allowed ±", spec, " = ±", q(allowed, diffQ));
+        q(r, valueQ), "; allowed ±", spec, ...(tolPct === 0 ? [] : [" = ±", q(allowed, diffQ)]));
       out.push(res);
     }
   }
