@@ -76,7 +76,10 @@ def test_resolving_a_flag_is_audited(visit):
     wo, _tech, supervisor, other = visit
     from inspections.services import inspection_sync
 
-    [res] = inspection_sync(user=other, forms=[filter_form(wo)])  # not the assignee: stored and flagged
+    # Omar has work of his own on the site (so he sees it) and covers Ana's visit: not the assignee, so the
+    # form is stored and flagged. A technician without the site is refused (tests/tenancy/test_field_writes.py).
+    make_visit(tasks=["filter_check"], ahu=wo.ahu, organisation=wo.organisation, technician=other)
+    [res] = inspection_sync(user=other, forms=[filter_form(wo)])
     assert res["status"] == "flagged"
     insp = Inspection.objects.get(pk=res["inspection_id"])
     flagged_form_resolve(inspection=insp, by=supervisor, note="Omar covered for Ana; fine")
