@@ -56,14 +56,22 @@ def line_chart(
     parts = [
         f'<svg viewBox="0 0 {width} {height}" role="img" aria-label="{escape(title)}" xmlns="http://www.w3.org/2000/svg">',
         f"<title>{escape(title)}</title>",
-        f'<text x="4" y="22" fill="currentColor" font-size="{fs}">{escape(title)} ({escape(unit)})</text>',
+        # A long title is fitted to the chart's width (its text squeezed), never cut at the edge; the
+        # average glyph is about 0.55 em wide (DejaVu Sans, common practice for an estimate).
+        f'<text x="4" y="22" fill="currentColor" font-size="{fs}"'
+        + (
+            f' textLength="{width - 8}" lengthAdjust="spacingAndGlyphs"'
+            if len(f"{title} ({unit})") * fs * 0.55 > width - 8
+            else ""
+        )
+        + f">{escape(title)} ({escape(unit)})</text>",
         f'<line x1="{left}" y1="{bottom}" x2="{right}" y2="{bottom}" stroke="currentColor" stroke-width="1"/>',
         f'<line x1="{left}" y1="{top}" x2="{left}" y2="{bottom}" stroke="currentColor" stroke-width="1"/>',
         f'<text x="{left - 6}" y="{top + 4}" text-anchor="end" fill="currentColor" font-size="{fs}">{v1:.0f}</text>',
         f'<text x="{left - 6}" y="{bottom}" text-anchor="end" fill="currentColor" font-size="{fs}">{v0:.0f}</text>',
-        f'<text x="{left}" y="{height - 12}" fill="currentColor" font-size="{fs}">{d0:%d %b %Y}</text>',
+        f'<text x="{left}" y="{height - 12}" fill="currentColor" font-size="{fs}">{d0.day} {d0:%b %Y}</text>',
         f'<text x="{right}" y="{height - 12}" text-anchor="end" fill="currentColor" font-size="{fs}">'
-        f"{d1:%d %b %Y}</text>",
+        f"{d1.day} {d1:%b %Y}</text>",
     ]
     if hline:
         hy = y(hline[0])
