@@ -426,6 +426,7 @@ class FilterOutlook:
     at_final: bool  # at or over its final pressure drop: change now, whatever the trend says
     due_now: bool  # at final, or the forecast day has gone by
     forecast_on: date | None  # the day the trend reaches the final value (None: no forecast)
+    no_forecast: str = ""  # why a judged filter has no forecast, in words ("" when unknown or no reading)
 
     @property
     def forecast_ahead(self) -> date | None:
@@ -437,7 +438,7 @@ class FilterOutlook:
         if self.at_final:
             return display.DERIVED_FLAGS["forecast_at_final_now"][1]  # the words the inspection record shows
         if self.forecast_on is None:
-            return "—"
+            return self.no_forecast or "—"
         if self.due_now:
             return f"due now (forecast for {day_text(self.forecast_on)})"
         return day_text(self.forecast_on)
@@ -471,7 +472,17 @@ def stored_filter_outlook(*, derived: dict, today: date) -> FilterOutlook:
         day = date.fromisoformat(str(derived.get("forecast_change_date") or "")[:10])
     except ValueError:
         day = None
-    return filter_outlook(today=today, forecast_on=day, at_final_now=derived.get("forecast_at_final_now") is True)
+    outlook = filter_outlook(today=today, forecast_on=day, at_final_now=derived.get("forecast_at_final_now") is True)
+    note = str(derived.get("forecast_note") or "")
+    if note and outlook.forecast_on is None and not outlook.at_final:
+        # The evaluation said why it made no forecast: the table says it too rather than a bare dash.
+        why = NO_DATE_NOT_RISING if "rising" in note else NO_FORECAST_YET
+        outlook = FilterOutlook(at_final=False, due_now=False, forecast_on=None, no_forecast=why)
+    return outlook
+
+
+NO_FORECAST_YET = "no forecast yet: the readings since the change give no trend"
+NO_DATE_NOT_RISING = "no change date: the pressure drop is not rising"
 
 
 def filter_forecast_text(*, derived: dict, today: date) -> str:

@@ -103,3 +103,15 @@ def test_the_one_rule_on_its_own():
     flagged = filter_outlook(at_final_now=True, today=june5)
     assert flagged.at_final and flagged.due_now
     assert filter_outlook(today=june5).words() == "—"
+
+
+def test_a_judged_filter_without_a_forecast_says_why():
+    """The filter check judged the bank but made no forecast: the table says why, not a bare dash."""
+    from reports.compliance import stored_filter_outlook
+
+    june5 = dt.date(2025, 6, 5)
+    flat = stored_filter_outlook(derived={"forecast_note": "points: allowed a rising pressure drop"}, today=june5)
+    assert flat.words() == "no change date: the pressure drop is not rising"
+    few = stored_filter_outlook(derived={"forecast_note": "points: at least two readings"}, today=june5)
+    assert few.words() == "no forecast yet: the readings since the change give no trend"
+    assert stored_filter_outlook(derived={}, today=june5).words() == "—"
