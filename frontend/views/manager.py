@@ -10,6 +10,7 @@ from django.views.decorators.http import require_GET
 
 from accounts.clock import local_date_of
 from engineering.units import to_display, unit_label
+from inspections.reasons import text_without_subject
 from inspections.selectors import reason_for
 from reports.documents.common import percent, shown
 from scheduling.selectors import site_today
@@ -72,7 +73,8 @@ def site_detail(request, pk: int):
         charts.append(
             {
                 "title": f"{comp.ahu.display_name} {comp.name}: pressure drop at design airflow",
-                "reason": reason_for(evaluation=ev, unit_system=system) if ev else "",
+                # The caption names the bank: the reason does not begin with it again.
+                "reason": text_without_subject(reason_for(evaluation=ev, unit_system=system), comp.name) if ev else "",
                 "svg": line_chart(
                     title=f"{comp.ahu.display_name} {comp.name} pressure drop at design airflow",
                     unit=p_unit,

@@ -130,7 +130,7 @@ function showVerdicts(form, ctx) {
     const mine = byKey.get(key) || [];
     for (const r of mine) {
       if (out.childNodes.length) out.append(document.createElement("br"));
-      out.append(badge(r.verdict), ` ${reasonIn(ctx, r, system)} (phone check)`);
+      out.append(badge(r.verdict), ` ${withoutPart(reasonIn(ctx, r, system), labelOf(block.dataset.item, block.dataset.component || null))} (phone check)`);
       if (r.verdict === "fail") out.append(" — say what you found in the note");
     }
     const meter = key === RUN_HOURS_KEY ? meterCheck : null;
@@ -310,6 +310,13 @@ const STATE_WORDS = {
 };
 const SEVERITY_WORDS = { low: "Low", medium: "Medium", high: "High", critical: "Critical" };
 
+// A reason without a leading "<part>: " when its label ("Pressure drop — Final filters") names the part already
+// (the twin of inspections/reasons.py text_without_subject).
+function withoutPart(reason, label) {
+  const part = (label || "").split(" — ")[1];
+  return part && reason.startsWith(`${part}: `) && reason.length > part.length + 2 ? reason.slice(part.length + 2) : reason;
+}
+
 function labelOf(item, component) {
   // The item's label as the form shows it (never its key).
   for (const block of document.querySelectorAll("[data-item]")) {
@@ -335,8 +342,7 @@ async function renderResult(box, result) {
     // The label names the part ("Pressure drop — Final filters"): the reason does not say it again
     // (inspections/reasons.py text_without_subject).
     const label = labelOf(e.item, e.component);
-    const part = label.split(" — ")[1];
-    const reason = part && e.reason.startsWith(`${part}: `) && e.reason.length > part.length + 2 ? e.reason.slice(part.length + 2) : e.reason;
+    const reason = withoutPart(e.reason, label);
     list.append(el("li", {}, el("span", { class: `verdict ${e.verdict}` }, VERDICT_WORDS[e.verdict] || "recorded"),
       ` ${label}: ${reason}`));
   }
