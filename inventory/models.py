@@ -146,7 +146,9 @@ def _refused_by_field(obj, name: str) -> bool:
     """True when the field's own validators refuse its value (they then say it; the policy does not repeat it).
     A database column's bounds (SQLite's bigint for a PositiveIntegerField) are not a physical range."""
     value = getattr(obj, name)
-    for validator in obj._meta.get_field(name).validators:
+    # Only the validators declared on the field: IntegerField adds the database's own column range (2³¹ − 1 on
+    # PostgreSQL, 2⁶³ − 1 on SQLite), which would otherwise speak instead of the policy's physical range.
+    for validator in obj._meta.get_field(name)._validators:
         try:
             validator(value)
         except ValidationError:

@@ -183,6 +183,9 @@ class AHUInput(NamesValueMixin, serializers.ModelSerializer):
     floor_area_m2 = _policy_number("floor_area_m2")
     design_supply_airflow_m3s = _policy_number("design_supply_airflow_m3s")
     design_min_oa_fraction = _policy_number("design_min_oa_fraction")
+    # A whole number of people, 0–100,000: the policy speaks, not the database column's range (2³¹ − 1 on
+    # PostgreSQL, which DRF would otherwise take from the model field and word as its stock message).
+    design_occupants = _policy_number("design_occupants")
     # occupant_diversity and system_ventilation_efficiency: the model's ventilation check says range and zones.
     supply_air_setpoint_c = _policy_number("supply_air_setpoint_c")
     duct_static_setpoint_pa = _policy_number("duct_static_setpoint_pa")
