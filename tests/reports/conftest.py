@@ -110,12 +110,16 @@ def _pdf_file(pdf: bytes, name: str) -> Path:
     return source
 
 
-def page_margin_ink(pdf: bytes, name: str, *, margin_mm: float = 14.0, dpi: int = 72) -> list[str]:
+def page_margin_ink(
+    pdf: bytes, name: str, *, margin_mm: float = 14.0, bottom_mm: float = 6.0, dpi: int = 72
+) -> list[str]:
     """Every page of ``pdf`` as a PNG in test-output/pdf-pages/ (for people to look at), and the pages with
-    ink in a side margin: a table or line running past the page's content width, as far as the paper's edge.
+    ink in a side margin or at the foot of the page: a table or line running past the page's content width
+    or below its last line, as far as the paper's edge.
 
-    The documents' side margins are 14 mm (reports/templates/reports/_base.css); the outer ``margin_mm`` − 2 mm
-    of each side must stay blank.
+    The documents' side margins are 14 mm and the bottom margin 18 mm with the footer line in its middle
+    (reports/templates/reports/_base.css); the outer ``margin_mm`` − 2 mm of each side and the outer
+    ``bottom_mm`` of the foot (below the footer) must stay blank.
     """
     from PIL import Image
 
@@ -135,12 +139,18 @@ def page_margin_ink(pdf: bytes, name: str, *, margin_mm: float = 14.0, dpi: int 
     pngs = sorted(PAGES_DIR.glob(f"{name}-*.png"))
     assert pngs, "pdftoppm wrote no page"
     strip = round((margin_mm - 2) / 25.4 * dpi)
+    foot = round(bottom_mm / 25.4 * dpi)
     problems = []
     for png in pngs:
         with Image.open(png) as img:
             grey = img.convert("L")
             width, height = grey.size
-            for side, box in (("left", (0, 0, strip, height)), ("right", (width - strip, 0, width, height))):
+            margins = (
+                ("left", (0, 0, strip, height)),
+                ("right", (width - strip, 0, width, height)),
+                ("bottom", (0, height - foot, width, height)),
+            )
+            for side, box in margins:
                 darkest, _ = grey.crop(box).getextrema()
                 if darkest < 200:
                     problems.append(f"{png.name}: ink in the {side} margin")
