@@ -35,7 +35,9 @@ Overdue now
 Open findings by severity and age
     Findings open at ``as_of`` (state open, opened on or before it). Age in
     whole days from opening to ``as_of``, in buckets 0–30, 31–90, 91–180 and
-    over 180 days.
+    over 180 days. The same rows are listed one by one (``open_findings``),
+    most severe first and within a severity the oldest first, each with the
+    corrective work it holds at ``as_of`` in words (``corrective_work_words``).
 
 Filter status of every unit
     For each filter bank of each unit, the latest judged point of its one series,
@@ -71,6 +73,7 @@ from datetime import date, datetime, timedelta
 
 from django.db.models import Min, Q
 
+from accounts.clock import local_date_of
 from engineering import filters as engineering_filters
 from engineering.errors import EngineeringInputError
 from inspections import display
@@ -188,6 +191,9 @@ class ComplianceFigures:
     overdue: list[dict]
     findings_matrix: dict[str, dict[str, int]]
     findings_total: int
+    # Every finding the matrix counts, most severe first and within a severity the oldest first: site, unit,
+    # part, problem, severity, first seen (the site's date), age in days and the corrective work in words.
+    open_findings: list[dict]
     filters: list[dict]
     freeze: list[dict]
     freeze_counts: dict[str, int]
@@ -284,16 +290,44 @@ def compliance_figures(*, site_ids: list[int], start: date, end: date, as_of: da
 
     matrix = {sev: {label: 0 for _, _, label in AGE_BUCKETS} for sev in SEVERITIES}
     findings_total = 0
-    for severity, opened_at, site_id in (
+    open_findings = []
+    # One query: the counts and the listing are the same rows, so they always agree.
+    for finding in (
         Finding.objects.filter(ahu__building__site_id__in=site_ids, opened_at__lte=as_of)
         .filter(Q(state=Finding.State.OPEN) | Q(closed_at__gt=as_of))
-        .values_list("severity", "opened_at", "ahu__building__site_id")
+        .select_related("ahu__building__site", "component", "corrective_work_order", "latest_evaluation", "evaluation")
     ):
-        matrix.setdefault(severity, {label: 0 for _, _, label in AGE_BUCKETS})
-        age = finding_age_days(opened_at=opened_at, end=as_of, time_zone=tz_of[site_id].key)
-        matrix[severity][age_bucket(age)] += 1
+        site_id = finding.ahu.building.site_id
+        tz = tz_of[site_id]
+        matrix.setdefault(finding.severity, {label: 0 for _, _, label in AGE_BUCKETS})
+        age = finding_age_days(opened_at=finding.opened_at, end=as_of, time_zone=tz.key)
+        matrix[finding.severity][age_bucket(age)] += 1
         findings_total += 1
         by_site[site_id]["findings_total"] += 1
+        open_findings.append(
+            {
+                "finding": finding,
+                "site": finding.ahu.building.site,
+                "unit": finding.ahu,
+                "part": finding.component.name if finding.component is not None else WHOLE_UNIT,
+                "problem": finding_problem(finding),
+                "severity": finding.severity,
+                "severity_label": finding.get_severity_display(),
+                "first_seen": finding.opened_at.astimezone(tz).date(),
+                "age_days": age,
+                "corrective": corrective_work_words(finding=finding, as_of=as_of, tz=tz),
+            }
+        )
+    rank = {sev: i for i, sev in enumerate(SEVERITIES)}
+    open_findings.sort(
+        key=lambda r: (
+            rank.get(r["severity"], len(rank)),
+            r["finding"].opened_at,
+            r["site"].name,
+            r["unit"].tag,
+            r["finding"].pk,
+        )
+    )
 
     filters = _filter_rows(units=units, as_of=as_of, today_of=today_of)
     freeze, freeze_counts = _freeze_rows(units=units, as_of=as_of, today_of=today_of)
@@ -308,11 +342,53 @@ def compliance_figures(*, site_ids: list[int], start: date, end: date, as_of: da
         overdue=overdue,
         findings_matrix=matrix,
         findings_total=findings_total,
+        open_findings=open_findings,
         filters=filters,
         freeze=freeze,
         freeze_counts=freeze_counts,
         by_site=by_site,
     )
+
+
+WHOLE_UNIT = "the unit as a whole"
+
+
+def finding_problem(finding: Finding) -> str:
+    """The finding's plain title without the part it ends with (the listing names the part in its own column)."""
+    title = finding.title
+    if finding.component is not None:
+        suffix = f" — {finding.component.name}"
+        if title.endswith(suffix) and len(title) > len(suffix):
+            title = title[: -len(suffix)]
+    return title
+
+
+def corrective_work_words(*, finding: Finding, as_of: datetime, tz: zoneinfo.ZoneInfo) -> str:
+    """What is being done about an open finding, in words: "corrective work approved, due 12 Dec 2026",
+    "awaiting approval", "none: a design review", "none proposed yet".
+
+    Read at ``as_of``: work completed after it is still open then. Dates are the app's ("12 Dec 2026").
+    """
+    wo = finding.corrective_work_order
+    if wo is None:
+        return "none: a design review" if finding.kind == Finding.Kind.DESIGN_REVIEW else "none proposed yet"
+    due = f", due {local_date_of(wo.due_date)}" if wo.due_date else ""
+    if wo.state == WorkOrder.State.CANCELLED:
+        return "corrective work cancelled"
+    if wo.approval == WorkOrder.Approval.PENDING:
+        return f"corrective work awaiting approval{due}"
+    if wo.approval == WorkOrder.Approval.REJECTED:
+        return "corrective work rejected"
+    done_at = wo.completed_at if wo.completed_at is not None and wo.completed_at <= as_of else None
+    if wo.state in (WorkOrder.State.COMPLETED, WorkOrder.State.VERIFIED) and done_at is not None:
+        return f"corrective work done {local_date_of(done_at.astimezone(tz))}, finding still open"
+    if wo.state == WorkOrder.State.IN_PROGRESS:
+        return f"corrective work in progress{due}"
+    if wo.state == WorkOrder.State.ASSIGNED or wo.assignee_id is not None:
+        return f"corrective work assigned{due}"
+    if wo.approval == WorkOrder.Approval.APPROVED:
+        return f"corrective work approved{due}"
+    return f"corrective work planned{due}"
 
 
 def _filter_rows(*, units: list[AHU], as_of: datetime, today_of: dict[int, date]) -> list[dict]:

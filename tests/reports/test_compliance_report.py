@@ -6,8 +6,10 @@ import re
 import pytest
 
 from accounts.models import Role
+from inspections.models import Finding
 from inventory.models import Site
-from reports.compliance import FREEZE_DUE, FREEZE_READY, LATE, MISSED, ON_TIME, compliance_figures
+from reports.compliance import FREEZE_DUE, FREEZE_READY, LATE, MISSED, ON_TIME, age_bucket, compliance_figures
+from scheduling.models import WorkOrder
 from tests.factories.accounts import OrganisationFactory, make_person
 from tests.factories.inventory import AHUFactory, BuildingFactory, ComponentFactory, SiteFactory
 
@@ -97,15 +99,98 @@ def test_figures_from_database_match_hand_count(estate, django_assert_max_num_qu
 
 
 def test_queries_do_not_grow_with_units(estate, django_assert_max_num_queries):
-    """Twenty more units with filters cost no extra queries (the 500-unit report depends on it)."""
+    """Twenty more units with filters, each with an open finding (half with corrective work), cost no extra
+    queries, the listing of open findings included (the 500-unit report depends on it)."""
     building = estate["a1"].building
+    visit = estate["a1"].work_orders.order_by("pk").first()
+    insp = b.inspection(visit, estate["tech"], finished="2025-03-26")
     for i in range(20):
-        ComponentFactory(ahu=AHUFactory(building=building, tag=f"AHU-X{i:02d}"))
+        unit = AHUFactory(building=building, tag=f"AHU-X{i:02d}")
+        bank = ComponentFactory(ahu=unit)
+        ev = b.evaluation(insp, "filter_loading", "filter_check.dp", component=bank, verdict="fail", reason="loaded")
+        finding = b.finding(insp, ev, severity="medium", title=f"Filters loaded — {bank.name}", opened="2025-03-26")
+        Finding.objects.filter(pk=finding.pk).update(ahu=unit)
+        if i % 2:
+            Finding.objects.filter(pk=finding.pk).update(corrective_work_order=corrective(unit, approval="approved"))
     with django_assert_max_num_queries(12):
         f = compliance_figures(
             site_ids=[estate["site"].pk], start=dt.date(2025, 1, 1), end=dt.date(2025, 3, 31), as_of=AS_OF
         )
+        listed = [(r["unit"].display_name, r["part"], r["corrective"]) for r in f.open_findings]
     assert len(f.units) == 22
+    assert len(listed) == f.findings_total == 22
+    assert sum(1 for _, _, words in listed if words.startswith("corrective work approved, due")) == 10
+
+
+def corrective(unit, *, approval: str, due: str = "2025-05-20", state: str = "planned", **fields) -> WorkOrder:
+    """A corrective work order on ``unit`` (as findings propose them), by its approval and state."""
+    return WorkOrder.objects.create(
+        organisation=unit.building.site.organisation,
+        ahu=unit,
+        kind=WorkOrder.Kind.CORRECTIVE,
+        approval=approval,
+        state=state,
+        title="Put right what the visit found",
+        due_date=dt.date.fromisoformat(due),
+        **fields,
+    )
+
+
+def test_open_findings_are_listed_as_counted_with_their_corrective_work(estate, supervisor, make_report, time_machine):
+    """Every open finding the counts hold is listed once, most severe and oldest first, with its site, unit,
+    part, problem, first-seen day, age and what is being done about it; a closed one is not listed."""
+    site, a1, a2 = estate["site"], estate["a1"], estate["a2"]
+    visit = a2.work_orders.order_by("pk").first()
+    insp = b.inspection(visit, estate["tech"], finished="2025-04-01")
+    ev = b.evaluation(insp, "filter_loading", "filter_check.dp", verdict="fail", reason="Filters loaded")
+    critical = b.finding(insp, ev, severity="critical", title="Frost thermostat did not trip", opened="2025-04-01")
+    ev = b.evaluation(insp, "oa_fraction_temperature", "visit.oa", verdict="fail", reason="below need")
+    review = b.finding(insp, ev, severity="high", title="Design minimum outdoor air too low", opened="2025-01-05")
+    Finding.objects.filter(pk=review.pk).update(kind=Finding.Kind.DESIGN_REVIEW)
+    high = Finding.objects.get(title="Filters nearly loaded")  # 25 Mar 2025, on the Final filters of AHU-01
+    medium = Finding.objects.get(title="Damper stuck")  # 1 Nov 2024
+    Finding.objects.filter(pk=critical.pk).update(corrective_work_order=corrective(a2, approval="pending"))
+    Finding.objects.filter(pk=high.pk).update(corrective_work_order=corrective(a1, approval="approved"))
+    f = compliance_figures(site_ids=[site.pk], start=dt.date(2025, 1, 1), end=dt.date(2025, 3, 31), as_of=AS_OF)
+    rows = f.open_findings
+    # The listing holds what the counts count: per severity and age bucket, the same numbers.
+    assert len(rows) == f.findings_total == 4
+    listed = {sev: dict.fromkeys(f.age_labels, 0) for sev in f.findings_matrix}
+    for r in rows:
+        listed[r["severity"]][age_bucket(r["age_days"])] += 1
+    assert listed == f.findings_matrix
+    # Most severe first; among the two high ones the older (5 Jan) before the newer (25 Mar).
+    assert [r["finding"].pk for r in rows] == [critical.pk, review.pk, high.pk, medium.pk]
+    by = {r["finding"].pk: r for r in rows}
+    assert by[critical.pk]["corrective"] == "corrective work awaiting approval, due 20 May 2025"
+    assert by[review.pk]["corrective"] == "none: a design review"
+    assert by[high.pk]["corrective"] == "corrective work approved, due 20 May 2025"
+    assert by[medium.pk]["corrective"] == "none proposed yet"
+    # Ages in the site's days to 10 May 2025: 25 Mar → 46 days, 1 Nov → 190 days (hand count).
+    assert (by[high.pk]["age_days"], by[medium.pk]["age_days"]) == (46, 190)
+    assert by[high.pk]["first_seen"] == dt.date(2025, 3, 25)
+    assert by[high.pk]["part"] == "Final filters" and by[medium.pk]["part"] == "the unit as a whole"
+
+    time_machine.move_to(AS_OF, tick=False)
+    report = make_report(
+        user=supervisor,
+        kind="compliance",
+        parameters={"sites": [site.pk], "start": "2025-01-01", "end": "2025-03-31"},
+    )
+    text = " ".join(pdf_text(report).split())
+    assert "Open findings, most severe and oldest first (4)" in text
+    listing = text.split("Open findings, most severe and oldest first (4)")[1].split("Filter status of every unit")[0]
+    order = [listing.index(t) for t in ("Frost thermostat", "Design minimum", "Filters nearly loaded", "Damper stuck")]
+    assert order == sorted(order)
+    for words in ("awaiting approval", "none: a design review", "approved, due 20 May 2025", "none proposed yet"):
+        assert words in listing
+    assert "2025-03-25" in listing and "Final filters" in listing and "Closed already" not in text
+    # The summary still comes first, before the counts and the listing.
+    assert (
+        text.index("Summary")
+        < text.index("Open findings by severity and age")
+        < text.index("Open findings, most severe")
+    )
 
 
 def test_figures_split_per_site_add_up(estate, django_assert_max_num_queries):
