@@ -20,6 +20,11 @@ from inventory.display import site_time_text
 
 # PDF/A-3b: archival, and unlike 1b allows transparency (the charts use it).
 PDFA_VARIANT = "pdf/a-3b"
+# Every record is tagged (a structure tree of headings, tables, lists and figures with their alt texts, the
+# language and the title shown) so a screen reader can read it aloud: PDF/UA-1 (ISO 14289-1), the variant
+# WeasyPrint writes. An archival file is both: PDF/A-3b with the same tags and the PDF/UA identification.
+PDFUA_VARIANT = "pdf/ua-1"
+_PDFUA_ID = b'<rdf:Description xmlns:pdfuaid="http://www.aiim.org/pdfua/ns/id/" rdf:about="" pdfuaid:part="1" />'
 
 PRECEDENCE_NOTE = (
     "Local codes and regulations, the manufacturer's instructions and licensed practice take precedence "
@@ -129,17 +134,27 @@ def html_render(
     return render_to_string(template, full)
 
 
+def _declare_pdfua(document, pdf) -> None:
+    """Add the PDF/UA-1 identification to an archival file's XMP packet, beside its PDF/A one (WeasyPrint
+    writes one variant's identification; the tags, title and language PDF/UA asks for are already there)."""
+    reference = pdf.catalog["Metadata"]  # "<number> 0 R"
+    stream = pdf.objects[int(bytes(reference).split()[0] if isinstance(reference, bytes) else reference.split()[0])]
+    packet = b"\n".join(part if isinstance(part, bytes) else str(part).encode() for part in stream.stream)
+    stream.stream = [packet.replace(b"</rdf:RDF>", _PDFUA_ID + b"</rdf:RDF>", 1)]
+
+
 def pdf_render(*, html: str, identifier: str, pdfa: bool = False) -> RenderedPdf:
-    """Write ``html`` as PDF (PDF/A-3b when ``pdfa``); ``identifier`` seeds the PDF's file id."""
+    """Write ``html`` as a tagged PDF/UA-1 file (PDF/A-3b as well when ``pdfa``); ``identifier`` seeds its file id."""
     from weasyprint import HTML
 
     base_url = str(settings.BASE_DIR)
     document = HTML(string=html, base_url=base_url).render()
     options = {
         "pdf_identifier": hashlib.md5(identifier.encode("utf-8"), usedforsecurity=False).hexdigest().encode(),
-        "pdf_variant": PDFA_VARIANT if pdfa else None,
+        "pdf_variant": PDFA_VARIANT if pdfa else PDFUA_VARIANT,
+        "pdf_tags": True,
         # Same bytes for the same inputs: uncompressed streams would be too, but big; compression is deterministic.
         "uncompressed_pdf": False,
     }
-    content = document.write_pdf(**options)
+    content = document.write_pdf(finisher=_declare_pdfua if pdfa else None, **options)
     return RenderedPdf(content=content, page_count=len(document.pages))
