@@ -112,6 +112,20 @@ def r(item: str, value, component=None, note: str = "") -> dict:
     }
 
 
+def filter_form(wo, **kw) -> dict:
+    """A complete filter-check form for ``wo`` as the phone sends it: run hours, both banks read, seated, loaded."""
+    ahu = wo.ahu
+    readings = [r("visit.run_hours", 1200)]
+    for name, dp in (("Pre-filters", 80), ("Final filters", 150)):
+        bank = component(ahu, name)
+        readings += [
+            r("filter_check.dp", dp, bank),
+            r("filter_check.seated", "ok", bank),
+            r("filter_check.media", "loaded", bank),
+        ]
+    return sync_form(wo, readings, **kw)
+
+
 SYNC_URL = "/api/inspections/sync/"
 
 

@@ -17,21 +17,11 @@ from accounts.models import Role
 from inspections.models import Inspection, Photo
 from scheduling.services import work_order_assign, work_order_cancel
 from tests.factories.accounts import make_person
-from tests.factories.inspections import FINISHED, component, image_bytes, make_visit, r, sync_form
+from tests.factories.inspections import FINISHED, filter_form, image_bytes, make_visit
 
 SYNC = "/api/inspections/sync/"
 NOW = FINISHED + dt.timedelta(minutes=2)  # the server's clock in these tests
 YEAR_1 = "0001-01-01T08:00:00Z"
-
-
-def filter_form(wo, **kw) -> dict:
-    ahu = wo.ahu
-    readings = [r("visit.run_hours", 1200)]
-    for name, dp in (("Pre-filters", 80), ("Final filters", 150)):
-        bank = component(ahu, name)
-        readings += [r("filter_check.dp", dp, bank), r("filter_check.seated", "ok", bank)]
-        readings += [r("filter_check.media", "loaded", bank)]
-    return sync_form(wo, readings, **kw)
 
 
 @pytest.mark.django_db

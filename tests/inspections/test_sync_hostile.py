@@ -17,20 +17,10 @@ from django.test import override_settings
 
 from inspections.models import Inspection, Reading
 from scheduling.models import WorkOrder
-from tests.factories.inspections import FINISHED, component, make_visit, r, sync_form
+from tests.factories.inspections import FINISHED, component, filter_form, make_visit
 
 SYNC = "/api/inspections/sync/"
 NOW = FINISHED + dt.timedelta(minutes=2)  # the server's clock in these tests
-
-
-def filter_form(wo, **kw) -> dict:
-    ahu = wo.ahu
-    readings = [r("visit.run_hours", 1200)]
-    for name, dp in (("Pre-filters", 80), ("Final filters", 150)):
-        bank = component(ahu, name)
-        readings += [r("filter_check.dp", dp, bank), r("filter_check.seated", "ok", bank)]
-        readings += [r("filter_check.media", "loaded", bank)]
-    return sync_form(wo, readings, **kw)
 
 
 def three_visits():

@@ -31,7 +31,7 @@ from reports.models import Report
 from scheduling.models import CalendarFeed, TaskDefinition, WorkOrder, WorkOrderTask
 from scheduling.services import calendar_feed_issue, task_library_install
 from tests.factories.accounts import OrganisationFactory, make_person
-from tests.factories.inspections import component, image_bytes, r, sync_form
+from tests.factories.inspections import filter_form, image_bytes
 from tests.factories.inventory import BuildingFactory, SiteFactory, make_full_unit
 from tests.factories.scheduling import WorkOrderFactory
 
@@ -99,20 +99,6 @@ def _add_task(wo: WorkOrder, code: str, comp=None) -> None:
         due_date=wo.due_date,
         occurrence_key=f"world:{wo.pk}:{code}",
     )
-
-
-def filter_form(wo: WorkOrder, **kw) -> dict:
-    """A complete filter-check form for ``wo`` as the phone sends it."""
-    ahu = wo.ahu
-    readings = [r("visit.run_hours", 1200)]
-    for name, dp in (("Pre-filters", 80), ("Final filters", 150)):
-        bank = component(ahu, name)
-        readings += [
-            r("filter_check.dp", dp, bank),
-            r("filter_check.seated", "ok", bank),
-            r("filter_check.media", "loaded", bank),
-        ]
-    return sync_form(wo, readings, **kw)
 
 
 def _corner(*, org: Organisation, name: str, code: str, tag: str, technician: User, title: str) -> Corner:
