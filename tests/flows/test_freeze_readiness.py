@@ -111,13 +111,12 @@ def _what_everyone_says(client, api_client, manager, site, django_capture_on_com
     }
 
 
-@pytest.mark.django_db
-def test_failed_preheater_test_says_not_ready_everywhere_until_a_passing_retest(
-    api_client, client, time_machine, django_capture_on_commit_callbacks
-):
+def _unit_with_a_preheater():
+    """A preheater-test visit to a unit with a 3-stage electric preheater, its technician, the site (mild
+    normals: only the computed season start, 20 October, decides the window and "near the season"), a
+    supervisor and a property manager granted the site."""
     wo, tech = make_visit(tasks=["preheater_freeze"])
     site = wo.ahu.building.site
-    # Mild normals: only the computed season start (20 October) decides the window and "near the season".
     Site.objects.filter(pk=site.pk).update(
         freeze_season_start=SEASON_START, normals_min_c=[10.0] * 12, normals_max_c=[20.0] * 12
     )
@@ -132,6 +131,14 @@ def test_failed_preheater_test_says_not_ready_everywhere_until_a_passing_retest(
     boss = make_supervisor(wo.organisation)
     manager = make_person(organisation=wo.organisation, role=Role.PROPERTY_MANAGER)
     site_grant(user=manager, site=site)
+    return wo, tech, heater, site, boss, manager
+
+
+@pytest.mark.django_db
+def test_failed_preheater_test_says_not_ready_everywhere_until_a_passing_retest(
+    api_client, client, time_machine, django_capture_on_commit_callbacks
+):
+    wo, tech, heater, site, boss, manager = _unit_with_a_preheater()
 
     # 3 October, 17 days before the season: the phone sends the failed test.
     time_machine.move_to(FAILED_ON + dt.timedelta(hours=1), tick=False)
@@ -293,22 +300,7 @@ def test_a_retest_on_the_corrective_work_that_fails_again_keeps_the_fault_open_w
     """3 Oct: stage 1 at −9 °C fails. 8 Oct: the retest on the corrective work still switches stage 1 on at −8 °C.
     Completing that work order does not close the finding as corrected: it stays open (seen twice), new urgent
     corrective work holds it, and readiness says "not ready" with the retest's date and the new work's state."""
-    wo, tech = make_visit(tasks=["preheater_freeze"])
-    site = wo.ahu.building.site
-    Site.objects.filter(pk=site.pk).update(
-        freeze_season_start=SEASON_START, normals_min_c=[10.0] * 12, normals_max_c=[20.0] * 12
-    )
-    site.refresh_from_db()
-    ComponentFactory(
-        ahu=wo.ahu,
-        kind="electric_preheater",
-        name="Electric preheater",
-        position=1,
-        specs={"power_w": 24_000, "stages": 3, "switch_on_c": THRESHOLD_C},
-    )
-    boss = make_supervisor(wo.organisation)
-    manager = make_person(organisation=wo.organisation, role=Role.PROPERTY_MANAGER)
-    site_grant(user=manager, site=site)
+    wo, tech, _heater, site, boss, manager = _unit_with_a_preheater()
     time_machine.move_to(FAILED_ON + dt.timedelta(hours=1), tick=False)
     _send(api_client, tech, wo, {"preheater_freeze.stage_on_temp": -9.0}, FAILED_ON)
     [finding] = Finding.objects.filter(ahu=wo.ahu, state=Finding.State.OPEN)
