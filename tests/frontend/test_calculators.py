@@ -1,17 +1,12 @@
 """The field calculator: the checklist's formulas, the reader's units, plain rounded figures."""
 
-import json
-import shutil
-import subprocess
-from pathlib import Path
-
 import pytest
 
 from engineering.airside import dry_air_density_kg_m3, sensible_heat_w
 from engineering.units import from_display
 from frontend.calculators import CalcError, calculate, calculator_context
 from inspections.reasons import display_number
-from tests.conftest import service_missing
+from tests.phone_js import node_json
 
 # 1,200 cfm heated from 50 to 80 °F (the tryout's case).
 TYPED_US = {"airflow_m3s": "1200", "t_in_c": "50", "t_out_c": "80"}
@@ -76,7 +71,6 @@ IN_WC_PA = 249.08891  # conventional inch of water: 1000 kg/m³ × 9.80665 m/s²
 # 0.75 in. w.c. at 1,200 cfm on a bank rated for 1,695 cfm, clean 0.36 and final 1.20 in. w.c.
 FILTER_US = {"dp_pa": "0.75", "airflow_m3s": "1200", "design_airflow_m3s": "1695", "clean_dp_pa": "0.36"}
 FILTER_US["final_dp_pa"] = "1.20"
-JS = Path(__file__).resolve().parents[2] / "frontend" / "static" / "frontend" / "js"
 NODE_RUNNER = """
 import { readFileSync } from "node:fs";
 import { calculate } from "./calc.js";
@@ -87,18 +81,7 @@ console.log(JSON.stringify(cases.map((c) => calculate(context, c.name, c.values,
 
 def _phone(tmp_path, cases: list[dict], places=None) -> list[dict]:
     """calc.js's answers to the cases, fed the page's calculator context, as the phone works them offline."""
-    if shutil.which("node") is None:
-        service_missing("node is not installed (make system installs nodejs)")
-    for module in JS.glob("*.js"):
-        shutil.copy(module, tmp_path / module.name)
-    (tmp_path / "runner.mjs").write_text(NODE_RUNNER)
-    (tmp_path / "package.json").write_text('{"type": "module"}')
-    (tmp_path / "cases.json").write_text(json.dumps({"context": calculator_context(places), "cases": cases}))
-    proc = subprocess.run(
-        ["node", "runner.mjs", "cases.json"], capture_output=True, text=True, timeout=60, cwd=tmp_path, check=False
-    )
-    assert proc.returncode == 0, proc.stderr
-    return json.loads(proc.stdout)
+    return node_json(tmp_path, NODE_RUNNER, {"context": calculator_context(places), "cases": cases}, timeout=60)
 
 
 def _server(case: dict, places=None) -> dict:

@@ -13,12 +13,9 @@ beyond the clock time the phone shows the server's message word for word.
 from __future__ import annotations
 
 import datetime as dt
-import json
 import random
 import shutil
-import subprocess
 from collections import Counter
-from pathlib import Path
 
 import pytest
 from django.core.exceptions import ValidationError
@@ -29,8 +26,8 @@ from scheduling.models import MeterReading
 from scheduling.services import meter_reading_check
 from tests.conftest import service_missing
 from tests.factories.inventory import AHUFactory
+from tests.phone_js import node_json
 
-JS = Path(__file__).resolve().parents[2] / "frontend" / "static" / "frontend" / "js"
 T0 = dt.datetime(2026, 1, 5, 7, 30, tzinfo=dt.UTC)
 CASES = 240
 LABEL = "Run hours"
@@ -96,15 +93,7 @@ def test_phone_and_server_meter_rule_agree(tmp_path):
         cases.append(
             {"meter": phone.meter_context(ahu=ahu, as_of=now), "hours": hours, "now": now.isoformat(), "label": LABEL}
         )
-    (tmp_path / "runner.mjs").write_text(RUNNER)
-    for f in JS.glob("*.js"):
-        (tmp_path / f.name).write_text(f.read_text())
-    (tmp_path / "cases.json").write_text(json.dumps(cases))
-    run = subprocess.run(
-        ["node", "runner.mjs", "cases.json"], capture_output=True, text=True, timeout=120, cwd=tmp_path, check=False
-    )
-    assert run.returncode == 0, run.stderr
-    phone_out = json.loads(run.stdout)
+    phone_out = node_json(tmp_path, RUNNER, cases, timeout=120)
     codes = Counter(code for code, _ in expected)
     assert codes[None] >= 40 and codes["meter_backwards"] >= 20 and codes["meter_too_fast"] >= 60, codes
     problems = []
@@ -138,15 +127,7 @@ def test_the_tryout_readings_are_judged_alike(tmp_path):
         {"meter": meter_b, "hours": 41250, "now": now.isoformat(), "label": LABEL},
         {"meter": meter_a, "hours": 11800, "now": now.isoformat(), "label": LABEL},
     ]
-    (tmp_path / "runner.mjs").write_text(RUNNER)
-    for f in JS.glob("*.js"):
-        (tmp_path / f.name).write_text(f.read_text())
-    (tmp_path / "cases.json").write_text(json.dumps(cases))
-    run = subprocess.run(
-        ["node", "runner.mjs", "cases.json"], capture_output=True, text=True, timeout=60, cwd=tmp_path, check=False
-    )
-    assert run.returncode == 0, run.stderr
-    fail, watch = json.loads(run.stdout)
+    fail, watch = node_json(tmp_path, RUNNER, cases, timeout=60)
     assert fail["verdict"] == "fail" and fail["message"] == message
     assert "Run hours 41,250 h is more than the meter can have run" in fail["message"]
     assert "11,034 h on 1 Feb 2026 09:00 UTC" in fail["message"]  # the site's clock, zone named

@@ -21,7 +21,6 @@ import json
 import random
 import re
 import shutil
-import subprocess
 from collections import Counter
 from pathlib import Path
 from types import SimpleNamespace as NS
@@ -33,8 +32,8 @@ from engineering.filters import FilterPoint
 from inspections import checklists, evaluation, phone
 from inspections.selectors import _matches, item_limits
 from tests.conftest import service_missing
+from tests.phone_js import node_json
 
-JS = Path(__file__).resolve().parents[2] / "frontend" / "static" / "frontend" / "js"
 FINISHED = dt.datetime(2026, 3, 3, 10, 0, tzinfo=dt.UTC)
 CASES_PER_FOCUS = 260
 REL_TOL = 0.005  # 0.5 % of the larger magnitude
@@ -449,21 +448,12 @@ def js_input(case) -> dict:
 
 def run_js(inputs: list[dict], tmp_path: Path) -> dict:
     """Run the phone's modules (copied as they ship) under Node on the cases."""
-    for module in JS.glob("*.js"):
-        shutil.copy(module, tmp_path / module.name)
-    (tmp_path / "runner.mjs").write_text(RUNNER)
-    (tmp_path / "package.json").write_text('{"type": "module"}')
     # The tables every context carries alike (units, fluids, thresholds) are sent once.
     shared_keys = ("units", "decimals", "constants")
     shared = {k: inputs[0]["context"][k] for k in shared_keys} if inputs else {}
     for i in inputs:
         assert all(i["context"].pop(k) == shared[k] for k in shared_keys)
-    (tmp_path / "cases.json").write_text(json.dumps({"shared": shared, "cases": inputs}))
-    proc = subprocess.run(
-        ["node", "runner.mjs", "cases.json"], capture_output=True, text=True, timeout=300, cwd=tmp_path, check=False
-    )
-    assert proc.returncode == 0, proc.stderr
-    return json.loads(proc.stdout)
+    return node_json(tmp_path, RUNNER, {"shared": shared, "cases": inputs}, timeout=300)
 
 
 def _close(a: float, b: float) -> bool:
@@ -692,16 +682,7 @@ def test_calculator_works_offline_with_the_server_figures(tmp_path):
         {"name": "sensible-heat", "values": {**tryout, "airflow_at": at}, "system": "us"}
         for at in ("leaving", "entering", "")
     ]
-    for module in JS.glob("*.js"):
-        shutil.copy(module, tmp_path / module.name)
-    (tmp_path / "runner.mjs").write_text(CALC_RUNNER)
-    (tmp_path / "package.json").write_text('{"type": "module"}')
-    (tmp_path / "cases.json").write_text(json.dumps({"context": calculator_context(places), "cases": cases}))
-    proc = subprocess.run(
-        ["node", "runner.mjs", "cases.json"], capture_output=True, text=True, timeout=300, cwd=tmp_path, check=False
-    )
-    assert proc.returncode == 0, proc.stderr
-    js = json.loads(proc.stdout)
+    js = node_json(tmp_path, CALC_RUNNER, {"context": calculator_context(places), "cases": cases}, timeout=300)
     assert set(CALCULATORS) <= set(js["calculators"]), "a server calculator has no phone twin"
     problems, answered = [], Counter()
     for case, phone_answer in zip(cases, js["out"], strict=True):
