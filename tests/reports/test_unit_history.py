@@ -169,8 +169,11 @@ def test_filter_reading_shows_why_it_failed(
     )
     rasterise(report, f"unit-history-filter-{system}")
     flat = " ".join(pdf_text(report).split())
-    row = flat.split("Pressure drop across the bank (Filter check)")[1].split("Local codes")[0]
+    # One row for the judgement (readings grouped by visit): the reading with the airflow it was read at and
+    # where that airflow came from, its value at design airflow, the final value it was judged against.
+    row = flat.split("Filter loading at design airflow")[1].split("Local codes")[0]
     assert raw in row and "fail" in row
-    assert f"airflow: {airflow}" in row and "airflow from: measured" in row
-    assert f"pressure drop at design airflow: {at_design}" in row
-    assert f"final pressure drop: {final}" in row
+    assert f"{raw} read at {airflow} (measured)" in row
+    assert f"{at_design} at design airflow" in row
+    assert f"final {final}" in row
+    assert "filter at 110 % of its span after correcting to design airflow" in row
