@@ -130,7 +130,7 @@ function showVerdicts(form, ctx) {
     const mine = byKey.get(key) || [];
     for (const r of mine) {
       if (out.childNodes.length) out.append(document.createElement("br"));
-      out.append(badge(r.verdict), ` ${withoutPart(reasonIn(ctx, r, system), labelOf(block.dataset.item, block.dataset.component || null))} (phone check)`);
+      out.append(badge(r.verdict), ` ${withoutPart(reasonIn(ctx, r, system), captionOf(block))} (phone check)`);
       if (r.verdict === "fail") out.append(" — say what you found in the note");
     }
     const meter = key === RUN_HOURS_KEY ? meterCheck : null;
@@ -170,7 +170,7 @@ function finishProblems(form, ctx) {
   const refusals = [];
   const answers = new Map();
   for (const { block, key, value, range } of judged.blocks) {
-    const label = labelOf(block.dataset.item, block.dataset.component || null);
+    const label = captionOf(block);
     if (range.unusable) refusals.push({ key, text: `${label}: not a usable number; ${range.text}` });
     else if (range.impossible) refusals.push({ key, text: `${label}: ${value} ${block.querySelector("input[type=number]").dataset.unit || ""} is not possible; ${range.text}` });
     if (key === RUN_HOURS_KEY && judged.meterCheck && judged.meterCheck.verdict === "fail") refusals.push({ key, text: judged.meterCheck.message });
@@ -317,14 +317,19 @@ function withoutPart(reason, label) {
   return part && reason.startsWith(`${part}: `) && reason.length > part.length + 2 ? reason.slice(part.length + 2) : reason;
 }
 
-function labelOf(item, component) {
-  // The item's label as the form shows it (never its key).
+function captionOf(block) {
+  // An item's label as the form shows it (never its key).
+  const caption = block && block.querySelector("label, legend");
+  return caption ? caption.textContent.replace(/\s*\(required\)\s*$/, "").trim() : "Evaluation";
+}
+
+function formLabels() {
+  // Every item's label by its reading key, read from the form once (not a scan of the form per line).
+  const labels = new Map();
   for (const block of document.querySelectorAll("[data-item]")) {
-    if (block.dataset.item !== item || (block.dataset.component || null) !== (component || null)) continue;
-    const caption = block.querySelector("label, legend");
-    if (caption) return caption.textContent.replace(/\s*\(required\)\s*$/, "").trim();
+    labels.set(readingKey(block.dataset.item, block.dataset.component || null), captionOf(block));
   }
-  return "Evaluation";
+  return labels;
 }
 
 async function renderResult(box, result) {
@@ -337,11 +342,12 @@ async function renderResult(box, result) {
     section.append(el("p", {}, "Flagged for the supervisor:"), el("ul", {}, ...result.flags.map((f) => el("li", {}, f.reason))));
   }
   const list = el("ul", { class: "results" });
+  const labels = formLabels();
   for (const e of result.evaluation || []) {
     // The derived values wait for the server's own rendering (labelled, in the person's units).
     // The label names the part ("Pressure drop — Final filters"): the reason does not say it again
     // (inspections/reasons.py text_without_subject).
-    const label = labelOf(e.item, e.component);
+    const label = labels.get(readingKey(e.item, e.component || null)) || "Evaluation";
     const reason = withoutPart(e.reason, label);
     list.append(el("li", {}, el("span", { class: `verdict ${e.verdict}` }, VERDICT_WORDS[e.verdict] || "recorded"),
       ` ${label}: ${reason}`));
