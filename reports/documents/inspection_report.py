@@ -8,14 +8,21 @@ signatures, verification, amendments and the safety cautions.
 
 from __future__ import annotations
 
+import datetime as dt
+import html
+import re
 from collections.abc import Callable
 
 from django.core.exceptions import ValidationError
 from django.db.models import Prefetch
 from django.http import Http404
+from django.utils.safestring import SafeString, mark_safe
 
+from accounts.clock import time_zone
 from inspections import checklists, display, reasons
 from inspections.display import VERDICT_WORDS
+from inspections.freeze import TEMPLATE as FREEZE_TEMPLATE
+from inspections.freeze import freeze_readiness
 from inspections.models import Amendment, Evaluation, Inspection, Photo, Reading
 from inspections.selectors import (
     check_label,
@@ -25,7 +32,8 @@ from inspections.selectors import (
     work_order_cautions,
     work_order_for,
 )
-from reports.rendering import html_render, paper_for, stored_file_data_uri
+from inventory.services import label_absolute_url, label_qr_svg
+from reports.rendering import html_render, paper_for, stored_file_data_uri, svg_data_uri
 from scheduling.models import WorkOrder, WorkOrderTask
 
 from . import Built, Prepared
@@ -105,13 +113,18 @@ def visit_records(
     verdicts and reasons, evaluations with derived values, findings, photos, the signature
     and amendments. ``photo_src(photo)`` and ``signature_src(inspection)`` say how an image is
     shown (a data URI in the PDF, the checked photo view on the page). Also the components
-    read and the template cautions met, for the PDF's tables. The PDF and the work order's
-    page both show this, so they tell the same record.
+    read and the template cautions met. The PDF and the work order's page both show this,
+    so they tell the same record.
+
+    Each visit also carries its readings as one table by part (``parts``: each reading once with
+    the band it was judged against and only what its judgement adds), the methods those judgements
+    name (``methods``, numbered once each) and its verdict counts (``counts``), for the PDF.
     """
     visits = []
     components: dict[int, object] = {}
     template_cautions: list[str] = []
     inspections = _inspections(work_order)
+    zone = time_zone(work_order.ahu.building.site.time_zone)
     # Each visit lists the findings its failures observed (a finding gathers every visit that saw it).
     seen = findings_seen_on(inspections=inspections)
     labels = item_labels(
@@ -119,6 +132,7 @@ def visit_records(
         | {ph.item_key for i in inspections for ph in i.photos.all() if ph.item_key}
     )
     for insp in inspections:
+        visit_day = insp.finished_at.astimezone(zone).date() if insp.finished_at else None
         groups: dict[str, list] = {}
         for r in insp.readings.all():
             if r.component_id:
@@ -131,9 +145,7 @@ def visit_records(
                     "verdict": VERDICTS.get(r.verdict, ""),
                     "verdict_code": r.verdict,
                     # The row names the part: its reason does not begin with it again.
-                    "reason": reasons.text_without_subject(
-                        reason_for(evaluation=r, unit_system=system), r.component.name if r.component_id else None
-                    ),
+                    "reason": _reason(r, system, visit_day),
                     "note": r.note,
                     "improbable": r.improbable,
                 }
@@ -142,22 +154,25 @@ def visit_records(
             for c in r.item.template.cautions or []:
                 if c not in template_cautions:
                     template_cautions.append(c)
+        evaluations = [
+            {
+                "e": e,
+                "verdict": VERDICTS.get(e.verdict, e.verdict),
+                "check": check_label(check=e.check_name, item=e.item_key, labels=labels),
+                "reason": _reason(e, system, visit_day),
+                "derived": derived_for_visit(e.derived or {}, system, item=e.item_key, visit_day=visit_day),
+            }
+            for e in insp.evaluations.all()
+        ]
+        parts, methods = _parts(insp, evaluations, system)
         visits.append(
             {
                 "inspection": insp,
                 "groups": list(groups.items()),
-                "evaluations": [
-                    {
-                        "e": e,
-                        "verdict": VERDICTS.get(e.verdict, e.verdict),
-                        "check": check_label(check=e.check_name, item=e.item_key, labels=labels),
-                        "reason": reasons.text_without_subject(
-                            reason_for(evaluation=e, unit_system=system), e.component.name if e.component_id else None
-                        ),
-                        "derived": display.derived_rows(e.derived or {}, system, item=e.item_key),
-                    }
-                    for e in insp.evaluations.all()
-                ],
+                "evaluations": evaluations,
+                "parts": parts,
+                "methods": methods,
+                "counts": _counts(parts),
                 "findings": _with_reasons(seen.get(insp.pk, []), system),
                 "photos": [
                     {"p": ph, "src": photo_src(ph), "label": labels.get(ph.item_key, "")} for ph in insp.photos.all()
@@ -167,6 +182,219 @@ def visit_records(
             }
         )
     return visits, components, template_cautions
+
+
+# ---------------------------------------------------------------------------
+# Forecasts seen from the visit
+# ---------------------------------------------------------------------------
+
+_FORECAST_KEYS = ("forecast_change_date", "forecast_earliest_date", "forecast_latest_date")
+
+
+def _past_forecast(derived: dict, visit_day: dt.date | None) -> dt.date | None:
+    """The filter trend's change date when it lies before the visit (the line had already reached its final
+    pressure drop): a date the record must not call a forecast."""
+    raw = derived.get("forecast_change_date")
+    if not raw or visit_day is None:
+        return None
+    try:
+        day = dt.date.fromisoformat(str(raw)[:10])
+    except ValueError:
+        return None
+    return day if day < visit_day else None
+
+
+def _long_day(day: dt.date) -> str:
+    return f"{day.day} {day:%B %Y}"
+
+
+def derived_for_visit(derived: dict, system: str, *, item: str, visit_day: dt.date | None) -> list[tuple[str, str]]:
+    """``display.derived_rows`` as of the visit: a change date the trend reached before the visit reads as
+    past ("trend reached the final pressure drop: 2 March 2025, before this visit"), without its range."""
+    past = _past_forecast(derived, visit_day)
+    if past is None:
+        return display.derived_rows(derived, system, item=item)
+    rows = display.derived_rows({k: v for k, v in derived.items() if k not in _FORECAST_KEYS}, system, item=item)
+    return [*rows, ("trend reached the final pressure drop", f"{_long_day(past)}, before this visit")]
+
+
+def _reason(judged, system: str, visit_day: dt.date | None) -> str:
+    """A reading's or judgement's reason in the reader's units, without the part its row names, and with a change
+    date already past at the visit said as past."""
+    text = reasons.text_without_subject(
+        reason_for(evaluation=judged, unit_system=system), judged.component.name if judged.component_id else None
+    )
+    derived = getattr(judged, "derived", None) or {}
+    past = _past_forecast(derived, visit_day)
+    if past is not None:
+        text = text.replace(
+            f"change forecast {_long_day(past)}", f"trend reached the final pressure drop on {_long_day(past)}"
+        )
+    return text
+
+
+# ---------------------------------------------------------------------------
+# One table of readings by part
+# ---------------------------------------------------------------------------
+
+# The band a judgement names in its derived values, shown in the "Limit" column: (key, words, quantity).
+_LIMIT_KEYS = (
+    ("final_dp_pa", "final", "pressure"),
+    ("setpoint_c", "set point", "temperature"),
+    ("setpoint_pa", "set point", "pressure"),
+    ("required_outdoor_airflow_m3s", "needs", "airflow"),
+)
+
+
+def _limit(evaluation, quantity: str, system: str) -> str:
+    """The band a reading was judged against, in the reader's units ("" when its judgement names none)."""
+    if evaluation is None:
+        return ""
+    derived = evaluation.derived or {}
+    low, high = derived.get("ok_min"), derived.get("ok_max")
+    if quantity and (low is not None or high is not None):
+        return reasons.render([reasons.span(low, high, quantity)], system)
+    fraction = derived.get("design_min_oa_fraction")
+    if isinstance(fraction, int | float) and not isinstance(fraction, bool):
+        return f"design minimum {fraction * 100:.0f} % outdoor air"
+    for key, words, qty in _LIMIT_KEYS:
+        value = derived.get(key)
+        if isinstance(value, int | float) and not isinstance(value, bool):
+            return f"{words} {reasons.render([reasons.q(value, qty)], system)}"
+    return ""
+
+
+def _says_nothing_more(reason: str, label: str, value: str, verdict_code: str) -> bool:
+    """A reason that only repeats the row: "confirmed: <item>", "<item>: <choice>", or a reading inside its band."""
+    if not reason:
+        return True
+    rest = reason
+    for lead in ("confirmed: ", "not confirmed: "):
+        if rest.startswith(lead):
+            rest = rest[len(lead) :]
+    rest = rest.replace(label, "").replace(label[:1].lower() + label[1:], "").strip(" :;,.")
+    if not rest or rest == value:
+        return True
+    return verdict_code == "ok" and " is within " in reason
+
+
+# Derived values a judgement's reason already states in its own words (the loading as "120 % of its span").
+_SAID_BY_REASON = {"loading between clean and final": "of its span"}
+
+
+def _details(rows: list[tuple[str, str]], *, already: str, readings: set[str]) -> list[str]:
+    """Derived values worth a line, "label: value", leaving out what the row, its reason or method already say
+    (a value with its unit, a word such as "measured") and a value the visit's own readings show."""
+    out = []
+    for label, value in rows:
+        said = value.removeprefix("now: ")
+        telling = len(said) > 5 or (" " in said and any(c.isdigit() for c in said))
+        if value in readings or (telling and said in already) or f"{label} {value}" in already:
+            continue
+        if (cue := _SAID_BY_REASON.get(label)) and cue in already:
+            continue
+        out.append(f"{label}: {value}")
+    return out
+
+
+def _formula_html(method: str) -> SafeString:
+    """A method as typeset text: "Q_design" with its subscript, "^1.5" as a superscript (escaped otherwise)."""
+    text = html.escape(method)
+    text = re.sub(r"\b([A-Za-zΔ])_([A-Za-z0-9]+)", r"\1<sub>\2</sub>", text)
+    text = re.sub(r"\^([0-9.]+)", r"<sup>\1</sup>", text)
+    return mark_safe(text)  # escaped above: only the sub and sup tags are markup
+
+
+def _parts(insp: Inspection, evaluations: list[dict], system: str) -> tuple[list[dict], list[SafeString]]:
+    """The visit's readings as one table by part: the unit's own readings first, then each part in its
+    position, each reading once with its value, the band it was judged against, its verdict, and below it only
+    what its judgement adds (the reason when the columns do not say it, derived values, the note). Judgements
+    of no single reading follow in their part. Methods are numbered once each for the notes under the table."""
+    by_key: dict[tuple[str, int | None], list[dict]] = {}
+    for ev in evaluations:
+        by_key.setdefault((ev["e"].item_key, ev["e"].component_id), []).append(ev)
+    methods: list[str] = []
+    groups: dict[tuple, dict] = {}
+    template_titles = {r.item.template.code: r.item.template.title for r in insp.readings.all()}
+    values = {reading_value(r, system) for r in insp.readings.all()}
+
+    def group_for(component, template_title: str, template_code: str) -> dict:
+        if component is not None:
+            key = (1, component.position, component.pk, "")
+            title, sub = component.name, f"{component.get_kind_display()} · label {component.label_code}"
+        else:
+            key = (0 if template_code == "visit" else 2, 0, 0, template_code)
+            title, sub = template_title, ""
+        return groups.setdefault(key, {"title": title, "sub": sub, "rows": []})
+
+    def method_number(method: str) -> int | None:
+        if not method:
+            return None
+        if method not in methods:
+            methods.append(method)
+        return methods.index(method) + 1
+
+    for r in insp.readings.all():
+        item = r.item
+        if item.kind == item.Kind.PHOTO:
+            continue  # its photos are captioned below the table
+        judged = by_key.pop((item.api_key, r.component_id), [])
+        value = reading_value(r, system)
+        main = next((ev for ev in judged if ev["e"].verdict == r.verdict), judged[0] if judged else None)
+        limit = _limit(main["e"] if main else None, item.quantity, system)
+        reason = reasons.text_without_subject(
+            reason_for(evaluation=r, unit_system=system), r.component.name if r.component_id else None
+        )
+        if main is not None:
+            reason = main["reason"] or reason
+        shown_reason = "" if _says_nothing_more(reason, item.label, value, r.verdict) else reason
+        already = " ".join([value, limit, reason, *(ev["e"].method for ev in judged)])
+        details = [d for ev in judged for d in _details(ev["derived"], already=already, readings=values)]
+        group_for(r.component if r.component_id else None, item.template.title, item.template.code)["rows"].append(
+            {
+                "check": item.label,
+                "value": value,
+                "limit": limit,
+                "verdict": VERDICTS.get(r.verdict, ""),
+                "verdict_code": r.verdict,
+                "reason": shown_reason,
+                "details": details,
+                "note": r.note,
+                "improbable": r.improbable,
+                "methods": [n for ev in judged if (n := method_number(ev["e"].method))],
+            }
+        )
+    # Judgements that answer no single reading (a value the server works out from several).
+    for judged in by_key.values():
+        for ev in judged:
+            e = ev["e"]
+            code = e.item_key.partition(".")[0]
+            title = template_titles.get(code, ev["check"])
+            group_for(e.component if e.component_id else None, title, code)["rows"].append(
+                {
+                    "check": ev["check"],
+                    "value": "—",
+                    "limit": _limit(e, "", system),
+                    "verdict": ev["verdict"],
+                    "verdict_code": e.verdict,
+                    "reason": ev["reason"],
+                    "details": _details(ev["derived"], already=f"{ev['reason']} {e.method}", readings=values),
+                    "note": "",
+                    "improbable": False,
+                    "methods": [n for n in [method_number(e.method)] if n],
+                }
+            )
+    ordered = [groups[k] for k in sorted(groups)]
+    return [g for g in ordered if g["rows"]], [_formula_html(m) for m in methods]
+
+
+def _counts(parts: list[dict]) -> dict[str, int]:
+    counts = {"ok": 0, "watch": 0, "fail": 0}
+    for group in parts:
+        for row in group["rows"]:
+            if row["verdict_code"] in counts:
+                counts[row["verdict_code"]] += 1
+    return counts
 
 
 def build(*, report) -> Built:
@@ -180,17 +408,19 @@ def build(*, report) -> Built:
         .select_related("task", "component")
         .order_by("task__category", "task__code", "pk")
     )
-    visits, components, template_cautions = visit_records(
+    visits, _components, _template_cautions = visit_records(
         work_order=wo,
         system=system,
         photo_src=lambda ph: stored_file_data_uri(ph.thumbnail or ph.image, max_px=360),
         signature_src=lambda insp: stored_file_data_uri(insp.signature_image, max_px=400),
     )
+    for visit in visits:
+        visit["result"] = _result_line(visit, wo)
     # The safety box is the checklist's, each caution once, as the phone and the page show it.
     cautions = work_order_cautions(work_order=wo)
     ahu = wo.ahu
     title = f"Inspection report — {ahu.tag}, {ahu.building.site.name}, {wo.title}"
-    html = html_render(
+    html_text = html_render(
         template="reports/inspection.html",
         context={
             "wo": wo,
@@ -199,9 +429,10 @@ def build(*, report) -> Built:
             "organisation": wo.organisation,
             "tasks": tasks,
             "visits": visits,
-            "components": sorted(components.values(), key=lambda c: (c.position, c.pk)),
             "cautions": cautions,
-            "template_cautions": template_cautions,
+            # The unit's label: its address and QR code, from the registry's own label functions (vector SVG).
+            "label_url": label_absolute_url(code=ahu.label_code),
+            "label_qr": svg_data_uri(label_qr_svg(code=ahu.label_code)),
             "system_label": "US customary (in. w.c., °F, cfm)" if system == "us" else "SI (Pa, °C, L/s)",
         },
         title=title,
@@ -210,7 +441,33 @@ def build(*, report) -> Built:
         zone=ahu.building.site.time_zone,
         subject=f"Record of work order {wo.public_id}",
     )
-    return Built(html=html, title=title)
+    return Built(html=html_text, title=title)
+
+
+def _plural(n: int, one: str, many: str) -> str:
+    return f"{n} {one if n == 1 else many}"
+
+
+def _result_line(visit: dict, wo: WorkOrder) -> dict:
+    """The visit's outcome in one line: verdict counts, findings opened (and seen again), and where the visit
+    tested freeze protection, the unit's readiness at its signature (inspections.freeze, the one judgement)."""
+    insp = visit["inspection"]
+    counts = visit["counts"]
+    opened = sum(1 for f in visit["findings"] if f.inspection_id == insp.pk)
+    again = len(visit["findings"]) - opened
+    findings = _plural(opened, "finding opened", "findings opened")
+    if again:
+        findings += f", {again} seen again"
+    freeze = None
+    if any(r.item.template.code == FREEZE_TEMPLATE for r in insp.readings.all()) and insp.finished_at:
+        readiness = freeze_readiness(units=[wo.ahu], as_of=insp.finished_at)
+        if readiness:
+            freeze = {"label": readiness[0].label, "why": readiness[0].why, "ready": readiness[0].ready}
+    return {
+        "checks": f"{counts['ok']} ok · {counts['watch']} watch · {counts['fail']} fail",
+        "findings": findings,
+        "freeze": freeze,
+    }
 
 
 def _with_reasons(findings: list, system: str) -> list:

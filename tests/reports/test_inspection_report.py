@@ -187,7 +187,7 @@ def test_a_closed_finding_says_when_and_why(visit, supervisor, make_report):
     report = make_report(user=supervisor, kind="inspection", parameters={"work_order": str(visit.public_id)})
     rasterise(report, "inspection-closed-finding")
     text = " ".join(pdf_text(report).split())
-    assert "Closed" in text and "2025-03-14: corrective work completed" in text
+    assert "Closed" in text and "14 Mar 2025: corrective work completed" in text
 
 
 def test_each_caution_once_in_the_safety_box(visit, supervisor, make_report):
