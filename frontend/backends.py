@@ -9,11 +9,13 @@ from __future__ import annotations
 
 from inventory.selectors import ahus_visible_to, label_lookup
 from scheduling.selectors import (  # noqa: F401
+    assignment_check,
     board_for,
     technician_load,
     today_visits_for,
     work_order_for,
     work_orders_managed_by,
+    work_orders_to_verify,
     work_orders_visible_to,
 )
 from scheduling.services.work_orders import (  # noqa: F401

@@ -30,10 +30,13 @@ from .models import MeterReading, OutdoorTemperature, WorkOrder
 from .selectors import (
     BOARD_LIMIT_MAX,
     BOARD_SECTIONS,
+    assignment_check,
+    board_load_rows,
     board_page_for,
     effective_tasks,
     local_today,
     person_time_zone,
+    to_verify_rows,
     today_visit_rows_for,
     work_order_for,
     work_orders_managed_by,
@@ -116,11 +119,38 @@ class WorkOrderDetail(APIView):
         return _current(request, public_id)
 
 
+def _over_capacity(wo: WorkOrder, assignee, day: dt.date, data: dict) -> Response | None:
+    """The 409 that warns before a technician's day passes their capacity (tasks plus travel), as the board page
+    does; None when the day fits, when the sender confirmed, or when the version is stale (the service answers)."""
+    if data.get("confirm_over_capacity") or data["version"] != wo.version:
+        return None
+    check = assignment_check(work_order=wo, technician=assignee, day=day)
+    if not check.over:
+        return None
+    suggestion = None
+    if check.suggestion is not None:
+        user, load = check.suggestion
+        suggestion = {"id": user.pk, "username": user.username, "name": str(user), "load": load.as_dict()}
+    message = f"{check.message()} {check.suggestion_words()}"
+    body = {
+        "detail": message,
+        "errors": {"confirm_over_capacity": [f"{message} Send confirm_over_capacity: true to assign anyway."]},
+        "load": s.DayLoadOut(check.load.as_dict()).data,
+        "suggestion": suggestion,
+    }
+    return Response(body, status=status.HTTP_409_CONFLICT)
+
+
 class WorkOrderAssign(WorkOrderChangeView):
     @extend_schema(
         request=s.AssignIn,
-        responses={200: s.WorkOrderOut, 409: s.ConflictOut, **ERRORS},
+        responses={200: s.WorkOrderOut, 409: s.OverCapacityOut, **ERRORS},
         summary="Assign or reassign to a technician",
+        description=(
+            "A stale version is a 409 with current_version. So is an assignment that would take the technician's "
+            "day (tasks plus travel between the day's sites) past their capacity, unless confirm_over_capacity is "
+            "true: nothing is saved, and the answer names the day's hours and the least-loaded qualified technician."
+        ),
     )
     def post(self, request, public_id):
         wo = _managed(request, public_id, action="assign")
@@ -129,6 +159,10 @@ class WorkOrderAssign(WorkOrderChangeView):
         assignee = technician_of(organisation_id=wo.organisation_id, username=data.validated_data["assignee"])
         if assignee is None:
             raise ValidationError({"assignee": [no_technician(data.validated_data["assignee"])]})
+        day = data.validated_data.get("scheduled_for", wo.scheduled_for) or wo.due_date
+        warning = _over_capacity(wo, assignee, day, data.validated_data)
+        if warning is not None:
+            return warning
         # One transaction: a refused day leaves the assignment unsaved too.
         with transaction.atomic():
             work_order_assign(
@@ -352,9 +386,13 @@ class Board(APIView):
             org = _organisation_for(request.user, managing=True)
             if org is None:
                 raise PermissionDenied("the board is for supervisors")
-            return board_page_for(
-                organisation=org, week_start=week, today=today, limit=limit, offset=offset, section=section
-            )
+            return {
+                **board_page_for(
+                    organisation=org, week_start=week, today=today, limit=limit, offset=offset, section=section
+                ),
+                "load": board_load_rows(organisation=org, start=week, days=7),
+                "to_verify": to_verify_rows(organisation=org),
+            }
 
         answer = json_answer(request, view="board", key=key, build=build)
         return _revalidated(answer or Response(build()))

@@ -9,7 +9,7 @@ from dataclasses import dataclass, field
 
 from django.core.exceptions import PermissionDenied, ValidationError
 from django.db.models import Case, CharField, Count, F, Prefetch, Q, QuerySet, Sum, Value, When, Window
-from django.db.models.functions import RowNumber
+from django.db.models.functions import Coalesce, RowNumber
 from django.http import Http404
 from django.utils import timezone
 
@@ -115,13 +115,24 @@ class Board:
     assigned: list[WorkOrder] = field(default_factory=list)
 
 
+def _planned_within(start: dt.date, end: dt.date) -> Q:
+    """Work whose day is in [start, end): the day it is planned for, else (no plan) the day it is due."""
+    return Q(scheduled_for__gte=start, scheduled_for__lt=end) | Q(
+        scheduled_for__isnull=True, due_date__gte=start, due_date__lt=end
+    )
+
+
+def _overdue(today: dt.date) -> Q:
+    """Past due and past the grace window (``overdue_on``; no grace window set means the due date)."""
+    return Q(due_date__lt=today) & (Q(overdue_on__isnull=True) | Q(overdue_on__lte=today))
+
+
 def _board_rows(*, organisation, week_start: dt.date, today: dt.date) -> QuerySet[WorkOrder]:
     week_end = week_start + dt.timedelta(days=7)
     return (
         WorkOrder.objects.filter(organisation=organisation, state__in=WorkOrder.OPEN_STATES)
         .exclude(approval__in=[WorkOrder.Approval.PENDING, WorkOrder.Approval.REJECTED])
-        .filter(Q(due_date__lt=week_end) | Q(overdue_on__lte=today))
-        .filter(Q(due_date__gte=week_start) | Q(overdue_on__lte=today) | Q(due_date__lt=today))
+        .filter(_planned_within(week_start, week_end) | _overdue(today))
     )
 
 
@@ -142,15 +153,15 @@ def board_for(*, organisation, week_start: dt.date, today: dt.date | None = None
 
 def _board_section(*, week_start: dt.date, today: dt.date) -> Case:
     """The board's one rule, as SQL so counts and pages come from the database: overdue once past due
-    and past the grace window (``overdue_on``; no grace window set means the due date); else due
-    (unassigned) or assigned if due within the week; else NULL (on no section).
+    and past the grace window (see :func:`_overdue`), whatever week it is planned for; else due (unassigned)
+    or assigned in the week of its day: the day it is planned for, else the day it is due
+    (:func:`_planned_within`); else NULL (on no section).
 
     Both the board page and :func:`board_for` (the board screen) annotate with this; there is no
     other copy of the rule."""
-    week_end = week_start + dt.timedelta(days=7)
-    in_week = Q(due_date__gte=week_start, due_date__lt=week_end)
+    in_week = _planned_within(week_start, week_start + dt.timedelta(days=7))
     return Case(
-        When(Q(due_date__lt=today) & (Q(overdue_on__isnull=True) | Q(overdue_on__lte=today)), then=Value("overdue")),
+        When(_overdue(today), then=Value("overdue")),
         When(in_week & Q(assignee__isnull=False), then=Value("assigned")),
         When(in_week, then=Value("due")),
         default=Value(None),
@@ -182,6 +193,8 @@ _BOARD_COLUMNS = (
     "ahu_id",
     "ahu__tag",
     "ahu__label_code",
+    "ahu__building_id",
+    "ahu__building__name",
     "ahu__building__site_id",
     "ahu__building__site__code",
     "ahu__building__site__name",
@@ -197,14 +210,9 @@ _BOARD_COLUMNS = (
 
 
 def _board_sorted(*, organisation, week_start: dt.date, today: dt.date) -> QuerySet[WorkOrder]:
-    """The board's rows with their ``section``, rows on no section left out.
-
-    A row on a section is due before the week ends or before today (see :func:`_board_section`), so
-    that bound changes nothing but lets the (organisation, state, due_date) index skip later work."""
-    week_end = week_start + dt.timedelta(days=7)
+    """The board's rows with their ``section``, rows on no section left out."""
     return (
         _board_rows(organisation=organisation, week_start=week_start, today=today)
-        .filter(due_date__lt=max(week_end, today))
         .annotate(section=_board_section(week_start=week_start, today=today))
         .exclude(section=None)
     )
@@ -230,7 +238,9 @@ def board_page_for(
     rows = _board_sorted(organisation=organisation, week_start=week_start, today=today)
     # One grouped read: overdue rows in one group whatever their due date, the others per section and day.
     groups = (
-        rows.annotate(day=Case(When(section="overdue", then=Value(None)), default=F("due_date")))
+        rows.annotate(
+            day=Case(When(section="overdue", then=Value(None)), default=Coalesce(F("scheduled_for"), F("due_date")))
+        )
         .order_by()
         .values_list("section", "day")
         .annotate(n=Count("id"))
@@ -271,9 +281,22 @@ def board_page_for(
     }
 
 
+def _unit_ref(ahu_id, tag: str, label_code: str, building_id, building_name: str) -> dict:
+    """A unit as the board names it: its tag with its building ("AHU-01 (Mill Block)", as ``AHU.display_name``),
+    since tags are unique only within a building."""
+    return {
+        "id": ahu_id,
+        "tag": tag,
+        "name": f"{tag} ({building_name})",
+        "label_code": label_code,
+        "building": {"id": building_id, "name": building_name},
+    }
+
+
 def _board_item(r: tuple) -> dict:
     (_, public_id, kind, state, priority, approval, title, condition_code, ahu_id, tag, label_code) = r[:11]
-    (site_id, site_code, site_name, assignee_id, username, first, last, due, overdue_on, scheduled, version) = r[11:]
+    (building_id, building_name, site_id, site_code, site_name, assignee_id, username, first, last) = r[11:20]
+    (due, overdue_on, scheduled, version) = r[20:]
     full_name = f"{first} {last}".strip()
     return {
         "id": public_id,
@@ -283,7 +306,7 @@ def _board_item(r: tuple) -> dict:
         "approval": approval,
         "title": title,
         "condition_code": condition_code,
-        "unit": {"id": ahu_id, "tag": tag, "label_code": label_code},
+        "unit": _unit_ref(ahu_id, tag, label_code, building_id, building_name),
         "site": {"id": site_id, "code": site_code, "name": site_name},
         "assignee": None
         if assignee_id is None
@@ -296,39 +319,260 @@ def _board_item(r: tuple) -> dict:
     }
 
 
-def technician_load(*, organisation, start: dt.date, days: int) -> list[dict]:
-    """Estimated hours per technician per day (scheduled date, else due date) against their daily capacity."""
+@dataclass(frozen=True)
+class DayLoad:
+    """One technician's day: the tasks' estimated minutes, the drive between the day's sites along the
+    suggested route (:mod:`scheduling.routing`), and their daily capacity."""
+
+    date: dt.date
+    capacity_hours: float
+    task_minutes: int = 0
+    travel_km: float = 0.0
+    travel_minutes: float = 0.0
+    sites: int = 0
+    visits: int = 0
+
+    @property
+    def hours(self) -> float:
+        return round((self.task_minutes + self.travel_minutes) / 60.0, 2)
+
+    @property
+    def over(self) -> bool:
+        return self.hours > self.capacity_hours
+
+    def as_dict(self) -> dict:
+        """The one shape of a day's load, on the board page and in the board API alike."""
+        return {
+            "date": self.date,
+            "hours": self.hours,
+            "task_hours": round(self.task_minutes / 60.0, 2),
+            "travel_minutes": round(self.travel_minutes),
+            "travel_km": round(self.travel_km, 1),
+            "sites": self.sites,
+            "visits": self.visits,
+            "capacity_hours": self.capacity_hours,
+            "over": self.over,
+        }
+
+
+LOADED_STATES = (WorkOrder.State.ASSIGNED, WorkOrder.State.IN_PROGRESS)
+
+
+def _route_km(points: dict[int, tuple[float, float]]) -> float:
+    """Kilometres of the day's route through ``points`` (site id: position, in first-due order), from the
+    first site due, as the technician's today shows it (:func:`today_visits_for`)."""
+    if len(points) < 2:
+        return 0.0
+    return sum(leg for _, _, leg in _route(points=points, start=None))
+
+
+def _day_load(*, day: dt.date, capacity: float, visits: list[tuple[int, int, tuple[float, float]]]) -> DayLoad:
+    """``visits``: (minutes, site id, site position) per work order, first due first."""
+    points: dict[int, tuple[float, float]] = {}
+    for _, site_id, where in visits:
+        points.setdefault(site_id, where)
+    km = _route_km(points)
+    return DayLoad(
+        date=day,
+        capacity_hours=capacity,
+        task_minutes=sum(m for m, _, _ in visits),
+        travel_km=km,
+        travel_minutes=routing.drive_minutes(km),
+        sites=len(points),
+        visits=len(visits),
+    )
+
+
+def technician_day_loads(
+    *,
+    organisation,
+    start: dt.date,
+    days: int,
+    adding: WorkOrder | None = None,
+    adding_day: dt.date | None = None,
+) -> list[tuple]:
+    """THE technician's day load: per technician of the organisation (by username), one :class:`DayLoad` per
+    day from ``start``: assigned and started work on its day (the day it is planned for, else its due date),
+    the tasks' estimated minutes plus the drive between the day's sites. The board's load table, the warning
+    before an assignment and the suggested technician all read it.
+
+    With ``adding``, that work order is taken off wherever it now counts and put on ``adding_day`` of every
+    technician: each one's day as it would be if the work were given to them. Returns (user, [DayLoad]) pairs.
+    """
     end = start + dt.timedelta(days=days)
-    techs = list(
-        Membership.objects.filter(organisation=organisation, role=Role.TECHNICIAN)
+    techs = [
+        m.user
+        for m in Membership.objects.filter(organisation=organisation, role=Role.TECHNICIAN)
         .select_related("user")
         .order_by("user__username")
-    )
-    day_of = {}
+    ]
+    rows = WorkOrder.objects.filter(organisation=organisation, state__in=LOADED_STATES, assignee__isnull=False)
+    if adding is not None:
+        rows = rows.exclude(pk=adding.pk)
     rows = (
-        WorkOrder.objects.filter(
-            organisation=organisation, state__in=[WorkOrder.State.ASSIGNED, WorkOrder.State.IN_PROGRESS]
+        rows.filter(_planned_within(start, end))
+        .values(
+            "id",
+            "assignee_id",
+            "scheduled_for",
+            "due_date",
+            "ahu__building__site_id",
+            "ahu__building__site__latitude",
+            "ahu__building__site__longitude",
         )
-        .filter(
-            Q(scheduled_for__gte=start, scheduled_for__lt=end)
-            | Q(scheduled_for__isnull=True, due_date__gte=start, due_date__lt=end)
-        )
-        .values("assignee_id", "scheduled_for", "due_date")
-        .annotate(minutes=Sum("tasks__task__estimated_minutes"), n=Count("id", distinct=True))
+        .annotate(minutes=Sum("tasks__task__estimated_minutes"))
+        .order_by("due_date", "id")
     )
+    visits: dict[tuple[int, dt.date], list] = {}
     for r in rows:
+        where = (r["ahu__building__site__latitude"], r["ahu__building__site__longitude"])
         key = (r["assignee_id"], r["scheduled_for"] or r["due_date"])
-        day_of[key] = day_of.get(key, 0) + (r["minutes"] or 0)
+        visits.setdefault(key, []).append((r["minutes"] or 0, r["ahu__building__site_id"], where))
+    extra = None
+    if adding is not None and adding_day is not None:
+        site = adding.ahu.building.site
+        minutes = WorkOrderTask.objects.filter(work_order=adding).aggregate(m=Sum("task__estimated_minutes"))["m"]
+        extra = (minutes or 0, site.pk, (site.latitude, site.longitude))
     out = []
-    for m in techs:
-        capacity = float(m.user.daily_capacity_hours)
+    for user in techs:
+        capacity = float(user.daily_capacity_hours)
         per_day = []
         for k in range(days):
             d = start + dt.timedelta(days=k)
-            hours = round(day_of.get((m.user_id, d), 0) / 60.0, 2)
-            per_day.append({"date": d, "hours": hours, "capacity_hours": capacity, "over": hours > capacity})
-        out.append({"technician": m.user, "days": per_day})
+            todo = list(visits.get((user.pk, d), []))
+            if extra is not None and d == adding_day:
+                todo.append(extra)
+            per_day.append(_day_load(day=d, capacity=capacity, visits=todo))
+        out.append((user, per_day))
     return out
+
+
+def technician_load(*, organisation, start: dt.date, days: int) -> list[dict]:
+    """Estimated hours per technician per day (planned day, else due date), tasks plus travel, against each
+    one's daily capacity (:func:`technician_day_loads`), as the board page shows it."""
+    return [
+        {"technician": user, "days": [d.as_dict() for d in per_day]}
+        for user, per_day in technician_day_loads(organisation=organisation, start=start, days=days)
+    ]
+
+
+def board_load_rows(*, organisation, start: dt.date, days: int = 7) -> list[dict]:
+    """:func:`technician_load` in the board API's plain shape (the person as a reference)."""
+    return [
+        {"technician": _person(user), "days": [d.as_dict() for d in per_day]}
+        for user, per_day in technician_day_loads(organisation=organisation, start=start, days=days)
+    ]
+
+
+def skills_needed(*, work_order: WorkOrder) -> set[str]:
+    """The skills the work order's tasks name (each task names one); a technician must have them all."""
+    return set(WorkOrderTask.objects.filter(work_order=work_order).values_list("task__skill", flat=True))
+
+
+@dataclass(frozen=True)
+class AssignmentCheck:
+    """What giving ``work_order`` to ``technician`` for ``day`` does to their day, said before it is saved."""
+
+    technician: object
+    day: dt.date
+    load: DayLoad
+    missing_skills: tuple[str, ...]
+    suggestion: tuple | None  # (user, DayLoad with the work added) of the least-loaded qualified technician
+    today: dt.date
+
+    @property
+    def over(self) -> bool:
+        return self.load.over
+
+    def day_words(self) -> str:
+        from accounts.clock import day_text
+
+        return f"{self.day:%a} {day_text(self.day, today=self.today)}"
+
+    def load_words(self, load: DayLoad | None = None) -> str:
+        """ "8.4 h: 7.7 h of tasks and 43 min of travel (22 km between 2 sites)" """
+        load = load or self.load
+        words = f"{load.hours:.1f} h: {load.task_minutes / 60:.1f} h of tasks"
+        if load.sites > 1:
+            words += (
+                f" and {load.travel_minutes:.0f} min of travel ({load.travel_km:.0f} km between {load.sites} sites)"
+            )
+        else:
+            words += ", no travel between sites"
+        return words
+
+    def message(self) -> str:
+        """The warning: the technician, the day, the hours and the capacity."""
+        return (
+            f"{self.technician} on {self.day_words()} would have {self.load_words()}, "
+            f"over the capacity of {self.load.capacity_hours:.1f} h a day."
+        )
+
+    def suggestion_words(self) -> str:
+        if self.suggestion is None:
+            return "No technician of the organisation has every skill this work needs."
+        user, load = self.suggestion
+        if user == self.technician:
+            return f"{user} is already the least loaded of those with the skills."
+        state = "over capacity too" if load.over else "within capacity"
+        return (
+            f"Least loaded with the skills: {user}, {load.hours:.1f} h of {load.capacity_hours:.1f} h "
+            f"on {self.day_words()} with this work ({state})."
+        )
+
+
+def assignment_check(*, work_order: WorkOrder, technician, day: dt.date) -> AssignmentCheck:
+    """The day ``technician`` would have if given ``work_order`` on ``day`` (tasks plus travel, against their
+    capacity), the skills they lack, and the least-loaded technician who has every skill the work needs
+    (smallest share of their capacity with the work added; ties by name). Reads only; nothing is saved."""
+    loads = technician_day_loads(
+        organisation=work_order.organisation, start=day, days=1, adding=work_order, adding_day=day
+    )
+    needed = skills_needed(work_order=work_order)
+    chosen = next((load for user, (load,) in loads if user.pk == technician.pk), None)
+    if chosen is None:  # not a technician of the organisation: the service refuses it in its own words
+        chosen = DayLoad(date=day, capacity_hours=float(technician.daily_capacity_hours))
+    qualified = [(user, load) for user, (load,) in loads if needed <= set(user.skills or [])]
+    suggestion = min(
+        qualified, key=lambda p: (p[1].over, p[1].hours / max(p[1].capacity_hours, 0.1), str(p[0])), default=None
+    )
+    return AssignmentCheck(
+        technician=technician,
+        day=day,
+        load=chosen,
+        missing_skills=tuple(sorted(needed - set(technician.skills or []))),
+        suggestion=suggestion,
+        today=site_today(site=work_order.ahu.building.site),
+    )
+
+
+def work_orders_to_verify(*, organisation, limit: int = 100) -> QuerySet[WorkOrder]:
+    """Completed work waiting for the supervisor's verification, longest waiting first."""
+    return (
+        WorkOrder.objects.filter(organisation=organisation, state=WorkOrder.State.COMPLETED)
+        .select_related("ahu__building__site", "assignee")
+        .order_by("completed_at", "id")[:limit]
+    )
+
+
+def to_verify_rows(*, organisation, limit: int = 100) -> list[dict]:
+    """:func:`work_orders_to_verify` in the board API's plain shape."""
+    return [
+        {
+            "id": wo.public_id,
+            "title": wo.title,
+            "unit": _unit_ref(wo.ahu_id, wo.ahu.tag, wo.ahu.label_code, wo.ahu.building_id, wo.ahu.building.name),
+            "site": {
+                "id": wo.ahu.building.site_id,
+                "code": wo.ahu.building.site.code,
+                "name": wo.ahu.building.site.name,
+            },
+            "assignee": _person(wo.assignee),
+            "completed_at": wo.completed_at,
+            "version": wo.version,
+        }
+        for wo in work_orders_to_verify(organisation=organisation, limit=limit)
+    ]
 
 
 @dataclass

@@ -145,6 +145,14 @@ class AssignIn(VersionIn):
         allow_null=True,
         help_text="Optionally plan the visit for this day too (the site's local date, today or later).",
     )
+    confirm_over_capacity = serializers.BooleanField(
+        required=False,
+        default=False,
+        help_text=(
+            "Assign even though the technician's day (tasks plus travel) would pass their capacity; without it "
+            "such an assignment answers 409 with the warning and the least-loaded qualified technician."
+        ),
+    )
 
 
 class ScheduleIn(VersionIn):
@@ -162,6 +170,25 @@ class TransitionIn(VersionIn):
 class ConflictOut(serializers.Serializer):
     detail = serializers.CharField()
     current_version = serializers.IntegerField()
+
+
+class DayLoadOut(serializers.Serializer):
+    date = serializers.DateField()
+    hours = serializers.FloatField(help_text="Tasks plus travel.")
+    task_hours = serializers.FloatField(help_text="The tasks' estimated hours.")
+    travel_minutes = serializers.IntegerField(help_text="Driving between the day's sites along the suggested route.")
+    travel_km = serializers.FloatField(help_text="Great-circle kilometres of that route.")
+    sites = serializers.IntegerField()
+    visits = serializers.IntegerField()
+    capacity_hours = serializers.FloatField()
+    over = serializers.BooleanField(help_text="hours > capacity_hours")
+
+
+class OverCapacityOut(serializers.Serializer):
+    detail = serializers.CharField(help_text="The technician, the day, the hours and the capacity.")
+    errors = serializers.DictField(help_text="confirm_over_capacity: what to send to assign anyway.")
+    load = DayLoadOut(help_text="The technician's day with this work added.")
+    suggestion = serializers.DictField(allow_null=True, help_text="The least-loaded technician with the skills.")
 
 
 class SchedulingErrorOut(serializers.Serializer):
@@ -212,10 +239,19 @@ class VisitOut(serializers.Serializer):
         }
 
 
+class BuildingRefOut(serializers.Serializer):
+    id = serializers.IntegerField()
+    name = serializers.CharField()
+
+
 class UnitRefOut(serializers.Serializer):
     id = serializers.IntegerField()
     tag = serializers.CharField()
+    name = serializers.CharField(
+        help_text='The tag with its building, "AHU-01 (Mill Block)": tags repeat across buildings.'
+    )
     label_code = serializers.CharField()
+    building = BuildingRefOut()
 
 
 class SiteRefOut(serializers.Serializer):
@@ -262,6 +298,21 @@ class BoardDayOut(serializers.Serializer):
     assigned = serializers.IntegerField(help_text="Assigned work due that day.")
 
 
+class TechnicianLoadOut(serializers.Serializer):
+    technician = PersonRefOut()
+    days = DayLoadOut(many=True)
+
+
+class ToVerifyOut(serializers.Serializer):
+    id = serializers.UUIDField()
+    title = serializers.CharField()
+    unit = UnitRefOut()
+    site = SiteRefOut()
+    assignee = PersonRefOut(allow_null=True)
+    completed_at = serializers.DateTimeField(allow_null=True)
+    version = serializers.IntegerField()
+
+
 class BoardOut(serializers.Serializer):
     week_start = serializers.DateField(help_text="The Monday of the week shown.")
     today = serializers.DateField(help_text="The day overdue is judged on.")
@@ -272,6 +323,8 @@ class BoardOut(serializers.Serializer):
     overdue = BoardItemOut(many=True, help_text="Rows offset to offset + limit of the overdue work, due first.")
     due = BoardItemOut(many=True, help_text="Rows offset to offset + limit of the unassigned work of the week.")
     assigned = BoardItemOut(many=True, help_text="Rows offset to offset + limit of the assigned work of the week.")
+    load = TechnicianLoadOut(many=True, help_text="Each technician's day: tasks plus travel against capacity.")
+    to_verify = ToVerifyOut(many=True, help_text="Completed work waiting for verification, longest waiting first.")
 
 
 class CalendarFeedOut(serializers.Serializer):

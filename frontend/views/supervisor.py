@@ -132,6 +132,10 @@ def board(request):
         for wo in c["rows"]:
             wo.findings_resolved = wo.pk in resolved
     load = backends.technician_load(organisation=org, start=week, days=7)
+    to_verify = list(backends.work_orders_to_verify(organisation=org))
+    flagged = {f.work_order_id: f for f in backends.flagged_forms_for(user=request.user)}
+    for wo in to_verify:
+        wo.flagged_form = flagged.get(wo.pk)
     return render(
         request,
         "frontend/supervisor/board.html",
@@ -147,6 +151,8 @@ def board(request):
             "technicians": _technicians(org),
             "columns": columns,
             "skipped": stored_problems(organisation=org, today=today),
+            "to_verify": to_verify,
+            "flagged": list(flagged.values()),
         },
     )
 
@@ -170,6 +176,24 @@ def assign(request, public_id):
     except ValueError:
         messages.error(request, f"Scheduled day {raw_day!r} is not a date as YYYY-MM-DD.")
         return redirect(back)
+    check = None
+    # The day the work will count on: the day asked for, else its plan, else its due date.
+    on_day = (day if "scheduled_for" in request.POST else wo.scheduled_for) or wo.due_date
+    if request.POST.get("version") == str(wo.version):  # a stale page is refused below, not warned about
+        check = backends.assignment_check(work_order=wo, technician=technician, day=on_day)
+        if check.over and not request.POST.get("confirm_over_capacity"):
+            # Nothing is saved: the supervisor sees the day it would make and chooses.
+            return render(
+                request,
+                "frontend/supervisor/board_confirm.html",
+                {
+                    "wo": wo,
+                    "check": check,
+                    "week": request.POST.get("week", ""),
+                    "raw_day": raw_day if "scheduled_for" in request.POST else None,
+                    "back": back,
+                },
+            )
     try:
         with transaction.atomic():
             version = version_seen(work_order=wo, raw=request.POST.get("version"))
@@ -182,7 +206,12 @@ def assign(request, public_id):
         messages.error(request, _changed_meanwhile(wo))
     else:
         planned = f" {work_order_plan_words(work_order=wo, today=site_today(site=wo.ahu.building.site))}" if day else ""
-        messages.success(request, f"{wo.ahu.display_name} — {wo.title} assigned to {technician}{planned}.")
+        over = ""
+        if check is not None and check.over:
+            over = (
+                f", over capacity: {check.load.hours:.1f} h of {check.load.capacity_hours:.1f} h on {check.day_words()}"
+            )
+        messages.success(request, f"{wo.ahu.display_name} — {wo.title} assigned to {technician}{planned}{over}.")
     return redirect(back)
 
 

@@ -136,7 +136,8 @@ def test_the_day_offered_is_never_before_the_sites_own_today(scenario, login):
 
 def test_a_day_planned_years_ahead_names_its_year_and_that_it_is_after_the_overdue_date(scenario, visit, login):
     """Planning the visit (overdue from 9 Mar 2025) for 1 Dec 2034 is kept, and the message and the board say
-    '1 Dec 2034' with the year, and that it is after the overdue date; a day this year reads without the year."""
+    '1 Dec 2034' with the year, and that it is after the overdue date; a day this year reads without the year.
+    The board lists it in the week of 1 Dec 2034 (its planned day), no longer in the week it is due."""
     WorkOrder.objects.filter(pk=visit.pk).update(overdue_on=dt.date(2025, 3, 9))
     client = login(scenario.supervisor)
     with time_machine.travel(dt.datetime(2025, 3, 5, 10, tzinfo=dt.UTC), tick=False):
@@ -148,5 +149,7 @@ def test_a_day_planned_years_ahead_names_its_year_and_that_it_is_after_the_overd
         assert any("for 1 Dec 2034, after its overdue date 9 Mar 2025" in m for m in said), said
         visit.refresh_from_db()
         assert visit.scheduled_for == dt.date(2034, 12, 1)
-        page = client.get("/board/?week=2025-03-03").content.decode()
-    assert "planned 1 Dec 2034" in page
+        this_week = client.get("/board/?week=2025-03-03").content.decode()
+        page = client.get("/board/?week=2034-12-01").content.decode()
+    assert "planned 1 Dec 2034" in page, "the work shows in the week it is planned for"
+    assert f'data-work-order="{visit.public_id}"' not in this_week

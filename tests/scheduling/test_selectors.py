@@ -38,6 +38,11 @@ def test_technician_load_sums_estimated_hours_per_day_against_capacity(library):
     assert by_day[first.due_date] == {
         "date": first.due_date,
         "hours": expected,
+        "task_hours": expected,
+        "travel_minutes": 0,  # both visits on one site: no drive
+        "travel_km": 0.0,
+        "sites": 1,
+        "visits": 2,
         "capacity_hours": 1.0,
         "over": True,
     }
