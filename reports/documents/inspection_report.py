@@ -445,7 +445,7 @@ def build(*, report) -> Built:
 
 
 def _plural(n: int, one: str, many: str) -> str:
-    return f"{n} {one if n == 1 else many}"
+    return f"{n or 'no'} {one if n == 1 else many}"
 
 
 def _result_line(visit: dict, wo: WorkOrder) -> dict:

@@ -163,7 +163,7 @@ def test_a_typical_visit_is_a_compact_legible_record(monthly_visit, org, make_re
     # One-line result: counts, findings opened, freeze readiness (inspections.freeze).
     assert re.search(r"\d+ ok · \d+ watch · 1 fail", flat), flat[:1500]
     assert "1 finding opened" in flat
-    assert "Freeze protection: Ready" in flat
+    assert "Freeze protection at signing: Ready" in flat
     # Each pressure drop once (a single readings table), in the reader's units.
     shown = ["162 Pa", "180 Pa"] if system == "si" else ["0.65 in. w.c.", "0.72 in. w.c."]
     for value in shown:
