@@ -26,6 +26,8 @@ from collections import defaultdict
 from datetime import date, datetime, time, timedelta
 
 from django.db.models import Prefetch, Q
+from django.utils.html import escape
+from django.utils.safestring import mark_safe
 
 from engineering.controls import damper_position_check, static_pressure_check, supply_temperature_check
 from engineering.errors import EngineeringInputError
@@ -117,7 +119,7 @@ def build(*, report) -> Built:
         .order_by("opened_at", "pk")
     )
     for finding in findings:
-        finding.reason_display = reason_for(evaluation=finding, unit_system=system)
+        finding.reason_display = keep_units(reason_for(evaluation=finding, unit_system=system))
     tz = zoneinfo.ZoneInfo(ahu.building.site.time_zone)
     labels = item_labels(api_keys={e.item_key for i in listed for e in i.evaluations.all()})
     seen = findings_seen_on(inspections=listed)
@@ -186,11 +188,21 @@ LIMIT_KEYS = {
     "sensor_drift": ("allowed_error",),
     "heat_recovery": ("design_effectiveness_pct",),
 }
+# A number with a unit a line could otherwise break inside ("930 L/" then "s"; "0.39 in." then "w.c.").
+_QUANTITY = re.compile(r"[−\-±]?\d[\d,.]*\s(?:L/s|in\. w\.c\.|Btu/h|m³/s|kg/m³|Δ°F)")
+
+
+def keep_units(text: str) -> str:
+    """``text`` escaped for HTML, each number with such a unit kept on one line."""
+    return mark_safe(_QUANTITY.sub(lambda m: f'<span class="nobr">{m.group(0)}</span>', escape(text)))
+
+
 # Yes/no answers and choices: the same answer for several parts is one row naming them.
 ANSWERS = ("check", "choice")
 # The bands a reason ends with, when the limit column already says them.
 _BANDS = re.compile(r" \(watch above [^()]*\)$")
-# The figures in brackets a filter's reason repeats ("(259 Pa at design, clean 95 Pa, final 300 Pa)").
+# The figures in brackets a reason repeats from the values and limit cells ("(259 Pa at design, clean 95 Pa,
+# final 300 Pa)"); the findings table and the visit's own record keep the whole text.
 _FIGURES = re.compile(r" \([^()]*\d[^()]*\)")
 
 
@@ -374,7 +386,7 @@ def _visit(
         elif e.verdict not in ("ok", "") or (not limit and e.check_name not in (*ANSWERS, "limits")):
             text = reasons.text_without_subject(reason_for(evaluation=e, unit_system=system), part or None)
             reason = _BANDS.sub("", text) if limit else text
-            if e.check_name in ("filter_loading", "filter_after_change"):
+            if e.check_name in ("filter_loading", "filter_after_change") or e.check_name in VALUE_KEYS:
                 reason = _FIGURES.sub("", reason)  # the values and limit cells give them
         if reading is not None and reading.note:
             reason = f"{reason}; note: {reading.note}" if reason else f"note: {reading.note}"
@@ -382,11 +394,11 @@ def _visit(
             {
                 "check": check_label(check=e.check_name, item=e.item_key, labels=labels),
                 "parts": [part] if part else [],
-                "values": "; ".join(v for v in values if v),
-                "limit": limit,
+                "values": keep_units("; ".join(v for v in values if v)),
+                "limit": keep_units(limit),
                 "verdict": VERDICTS.get(e.verdict, e.verdict),
                 "verdict_code": e.verdict,
-                "reason": reason,
+                "reason": keep_units(reason),
                 "answer": e.check_name in ANSWERS,
                 "order": _row_order(e.item_key, e.component, reading, order),
             }
@@ -398,7 +410,7 @@ def _visit(
             {
                 "check": r.item.label,
                 "parts": [r.component.name] if r.component_id else [],
-                "values": reading_value(r, system),
+                "values": keep_units(reading_value(r, system)),
                 "limit": "",
                 "verdict": VERDICTS.get(r.verdict, "recorded") if r.verdict else "recorded",
                 "verdict_code": r.verdict,
@@ -413,7 +425,7 @@ def _visit(
         "finished": insp.finished_at.astimezone(tz),
         "technician": insp.technician,
         "work_order": insp.work_order,
-        "heading": heading,
+        "heading": keep_units("; ".join(heading)),
         "rows": _merge_answers(rows),
     }
 
