@@ -295,7 +295,7 @@ def compliance_figures(*, site_ids: list[int], start: date, end: date, as_of: da
     for finding in (
         Finding.objects.filter(ahu__building__site_id__in=site_ids, opened_at__lte=as_of)
         .filter(Q(state=Finding.State.OPEN) | Q(closed_at__gt=as_of))
-        .select_related("ahu__building__site", "component", "corrective_work_order", "latest_evaluation", "evaluation")
+        .select_related("ahu__building__site", "component", "corrective_work_order")
     ):
         site_id = finding.ahu.building.site_id
         tz = tz_of[site_id]

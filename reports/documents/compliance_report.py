@@ -14,7 +14,6 @@ from datetime import datetime, timedelta
 from django.core.exceptions import ValidationError
 
 from accounts.models import Organisation
-from inspections.selectors import reason_for
 from inventory.display import usual_zone
 from inventory.selectors import sites_visible_to
 from reports import charts
@@ -72,10 +71,6 @@ def build(*, report) -> Built:
     filter_counts = {"ok": 0, "watch": 0, "fail": 0, "none": 0}
     for row in figures.filters:
         filter_counts[row["verdict"] if row["verdict"] in filter_counts else "none"] += 1
-    for row in figures.open_findings:
-        # The finding's own text of its latest observation, in the reader's units ("" when it says no more).
-        text = reason_for(evaluation=row["finding"], unit_system=system).strip()
-        row["text"] = "" if text in ("", row["problem"], row["finding"].title) else text
     high_findings = sum(sum(figures.findings_matrix.get(s, {}).values()) for s in ("critical", "high"))
     single = len(figures.sites) == 1
     scope = figures.sites[0].name if single else f"{len(figures.sites)} sites"
