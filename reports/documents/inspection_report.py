@@ -1,9 +1,14 @@
 """Inspection report for one work order: the record of a visit, for the client's file.
 
 Readings are shown in the reader's units (the requester's unit system, stored
-with the report so the text never changes), with verdicts and reasons,
-derived values, photos, findings and the corrective work they opened,
-signatures, verification, amendments and the safety cautions.
+with the report so the text never changes), on the reader's paper (A4, or US Letter
+for US units). A header names the site, building, unit (label code, its address and
+QR code), work order, technician, and the arrival and signature on the site's clock;
+a one-line result counts the verdicts and findings and, where the visit tested freeze
+protection, gives the unit's readiness. Each reading appears once, in one table by
+part, with the band it was judged against and only what its judgement adds; methods
+are numbered notes. Then findings and their corrective work, photos, the signature,
+verification, amendments and the safety cautions, each once.
 """
 
 from __future__ import annotations
