@@ -188,3 +188,20 @@ def fonts_used(pdf: bytes) -> set[str]:
         for _, obj in _objects(reader)
         if isinstance(obj, DictionaryObject) and obj.get("/Type") == "/FontDescriptor"
     }
+
+
+# What a reader must never meet in a record: a dotted module path or item key ("engineering.filters.x",
+# "filter_check.photo"), a field key with an underscore, Python's None, a not-a-number. A web address
+# (the QR's link, "https://…/l/AB12CD/") and a number ("2.5") are not paths.
+_DOTTED = re.compile(r"(?<![/\w.:@-])[a-z][a-z0-9_]*(?:\.[a-z][a-z0-9_]*)+\b(?![/:@.]\w)")
+_UNDERSCORED = re.compile(r"\b\w+_\w+\b")
+_NONE_NAN = re.compile(r"\bNone\b|\bnan\b|\bNaN\b|\binf\b")
+_NOT_PATHS = {"e.g", "i.e"}
+
+
+def unreadable(text: str) -> list[str]:
+    """The internal names and empty values ``text`` shows (empty when a person can read all of it)."""
+    found = [m for m in _DOTTED.findall(text) if m not in _NOT_PATHS]
+    found += _UNDERSCORED.findall(text)
+    found += _NONE_NAN.findall(text)
+    return found

@@ -16,7 +16,7 @@ from pypdf import PdfReader, PdfWriter
 from pypdf.generic import DictionaryObject, NameObject, TextStringObject
 
 from . import pdfcheck
-from .conftest import pdf_bytes
+from .conftest import pdf_bytes, text_of
 from .test_compliance_report import estate  # noqa: F401 — the shared fixture
 from .test_inspection_report import visit  # noqa: F401 — the shared fixture
 
@@ -51,13 +51,30 @@ def records(visit, estate, supervisor, make_report):  # noqa: F811 — the impor
     return out
 
 
-def test_archival_files_pass_the_pdfa_rules_and_every_record_is_tagged(records):
+def test_archival_files_pass_the_pdfa_rules_and_every_record_is_tagged_and_plain(records):
     # The inspection record carries raster images (the photo and the signature): the interpolation rule is met
     # on real images, not vacuously.
     assert _images(records["inspection (PDF/A)"]) >= 2
     for name, pdf in records.items():
         archival = "PDF/A" in name
         assert pdfcheck.problems(pdf, archival=archival) == [], (name, pdfcheck.fonts_used(pdf))
+        # …and every word of it reads as a person's: no module path, field key, None or nan.
+        assert pdfcheck.unreadable(text_of(pdf)) == [], name
+
+
+def test_the_plain_words_check_catches_internal_names():
+    text = (
+        "Method: engineering.filters.filter_loading; photo filter_check.photo; forecast None; "
+        "loading nan %; see https://plenum.example/l/AB12CD/ e.g. 2.5 K"
+    )
+    assert pdfcheck.unreadable(text) == [
+        "engineering.filters.filter_loading",
+        "filter_check.photo",
+        "filter_loading",
+        "filter_check",
+        "None",
+        "nan",
+    ]
 
 
 def test_the_check_fails_files_that_break_a_rule(records):
