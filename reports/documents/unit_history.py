@@ -188,12 +188,16 @@ LIMIT_KEYS = {
     "sensor_drift": ("allowed_error",),
     "heat_recovery": ("design_effectiveness_pct",),
 }
-# A number with a unit a line could otherwise break inside ("930 L/" then "s"; "0.39 in." then "w.c.").
-_QUANTITY = re.compile(r"[−\-±]?\d[\d,.]*\s(?:L/s|in\. w\.c\.|Btu/h|m³/s|kg/m³|Δ°F)")
+# A number or a band with its unit, which a line could otherwise break inside ("930 L/" then "s"; "0.39 in."
+# then "w.c."; "2.0–" then "7.0 °C").
+_QUANTITY = re.compile(
+    r"[−\-±]?\d[\d,.]*(?:(?:–| to )[−\-]?\d[\d,.]*)?\s"
+    r"(?:in\. w\.c\.|L/s|Btu/h|m³/s|kg/m³|Δ°F|°C|°F|K|Pa|ppm|cfm|%|points)(?!\w)"
+)
 
 
 def keep_units(text: str) -> str:
-    """``text`` escaped for HTML, each number with such a unit kept on one line."""
+    """``text`` escaped for HTML, each number or band with its unit kept on one line."""
     return mark_safe(_QUANTITY.sub(lambda m: f'<span class="nobr">{m.group(0)}</span>', escape(text)))
 
 
