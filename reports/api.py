@@ -40,12 +40,17 @@ class ReportInput(serializers.Serializer):
 class ReportOutput(serializers.ModelSerializer):
     download_url = serializers.SerializerMethodField()
     requested_by = serializers.StringRelatedField()
+    covers = serializers.SerializerMethodField(
+        help_text="What the report covers in words, as the reports page says it: its sites, unit or work order "
+        "and its period (e.g. 'AHU-01 in North block, Harbour House · 1 Dec 2025 – 30 Nov 2026')."
+    )
 
     class Meta:
         model = Report
         fields = [
             "public_id",
             "kind",
+            "covers",
             "status",
             "error",
             "parameters",
@@ -59,6 +64,11 @@ class ReportOutput(serializers.ModelSerializer):
             "page_count",
             "download_url",
         ]
+
+    def get_covers(self, obj: Report) -> str:
+        # A list passes every report's words in the context (names resolved in bulk); one report asks alone.
+        known = self.context.get("covers") or {}
+        return known[obj.pk] if obj.pk in known else selectors.report_covers(report=obj)
 
     def get_download_url(self, obj: Report) -> str | None:
         if obj.status != Report.Status.DONE:

@@ -15,6 +15,7 @@ from django.utils.http import url_has_allowed_host_and_scheme
 from django.views.decorators.http import require_GET, require_POST
 
 from inventory.selectors import ahus_visible_to, sites_visible_to
+from reports import selectors as report_selectors
 from scheduling.selectors import person_time_zone
 
 from .. import backends
@@ -94,6 +95,11 @@ def record_request(request):
 @require_GET
 def records(request):
     rows = backends.reports_visible_to(user=request.user, limit=50)
+    # What each covers (the API's words, names resolved in bulk) and the file's pages and size.
+    covers = report_selectors.reports_covers(reports=rows)
+    for r in rows:
+        r.covers = covers[r.pk]
+        r.file_text = report_selectors.report_file_text(report=r)
     waiting = any(r.status in ("queued", "running") for r in rows)
     # A report may span sites: its times read on the clock most of the person's sites keep, zone named.
     zone = person_time_zone(user=request.user) or "UTC"
