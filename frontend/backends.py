@@ -11,6 +11,7 @@ from inventory.selectors import ahus_visible_to, label_lookup
 from scheduling.selectors import (  # noqa: F401
     assignment_check,
     board_for,
+    suggested_technicians,
     technician_load,
     today_visits_for,
     work_order_for,

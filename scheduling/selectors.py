@@ -383,6 +383,50 @@ def _day_load(*, day: dt.date, capacity: float, visits: list[tuple[int, int, tup
     )
 
 
+def _technicians_of(organisation) -> list:
+    return [
+        m.user
+        for m in Membership.objects.filter(organisation=organisation, role=Role.TECHNICIAN)
+        .select_related("user")
+        .order_by("user__username")
+    ]
+
+
+Visit_ = tuple[int, int, tuple[float, float]]  # (task minutes, site id, site position) of one work order
+
+
+def _loaded_visits(*, organisation, start: dt.date, end: dt.date, leave_out=()) -> dict[tuple[int, dt.date], list]:
+    """Assigned and started work per (technician id, day) in [start, end), first due first: one query."""
+    rows = WorkOrder.objects.filter(organisation=organisation, state__in=LOADED_STATES, assignee__isnull=False)
+    if leave_out:
+        rows = rows.exclude(pk__in=list(leave_out))
+    rows = (
+        rows.filter(_planned_within(start, end))
+        .values(
+            "id",
+            "assignee_id",
+            "scheduled_for",
+            "due_date",
+            "ahu__building__site_id",
+            "ahu__building__site__latitude",
+            "ahu__building__site__longitude",
+        )
+        .annotate(minutes=Sum("tasks__task__estimated_minutes"))
+        .order_by("due_date", "id")
+    )
+    visits: dict[tuple[int, dt.date], list[Visit_]] = {}
+    for r in rows:
+        where = (r["ahu__building__site__latitude"], r["ahu__building__site__longitude"])
+        key = (r["assignee_id"], r["scheduled_for"] or r["due_date"])
+        visits.setdefault(key, []).append((r["minutes"] or 0, r["ahu__building__site_id"], where))
+    return visits
+
+
+def _visit_of(work_order: WorkOrder) -> Visit_:
+    site = work_order.ahu.building.site
+    return (work_order.estimated_minutes(), site.pk, (site.latitude, site.longitude))
+
+
 def technician_day_loads(
     *,
     organisation,
@@ -400,41 +444,11 @@ def technician_day_loads(
     technician: each one's day as it would be if the work were given to them. Returns (user, [DayLoad]) pairs.
     """
     end = start + dt.timedelta(days=days)
-    techs = [
-        m.user
-        for m in Membership.objects.filter(organisation=organisation, role=Role.TECHNICIAN)
-        .select_related("user")
-        .order_by("user__username")
-    ]
-    rows = WorkOrder.objects.filter(organisation=organisation, state__in=LOADED_STATES, assignee__isnull=False)
-    if adding is not None:
-        rows = rows.exclude(pk=adding.pk)
-    rows = (
-        rows.filter(_planned_within(start, end))
-        .values(
-            "id",
-            "assignee_id",
-            "scheduled_for",
-            "due_date",
-            "ahu__building__site_id",
-            "ahu__building__site__latitude",
-            "ahu__building__site__longitude",
-        )
-        .annotate(minutes=Sum("tasks__task__estimated_minutes"))
-        .order_by("due_date", "id")
-    )
-    visits: dict[tuple[int, dt.date], list] = {}
-    for r in rows:
-        where = (r["ahu__building__site__latitude"], r["ahu__building__site__longitude"])
-        key = (r["assignee_id"], r["scheduled_for"] or r["due_date"])
-        visits.setdefault(key, []).append((r["minutes"] or 0, r["ahu__building__site_id"], where))
-    extra = None
-    if adding is not None and adding_day is not None:
-        site = adding.ahu.building.site
-        minutes = WorkOrderTask.objects.filter(work_order=adding).aggregate(m=Sum("task__estimated_minutes"))["m"]
-        extra = (minutes or 0, site.pk, (site.latitude, site.longitude))
+    leave_out = [adding.pk] if adding is not None else []
+    visits = _loaded_visits(organisation=organisation, start=start, end=end, leave_out=leave_out)
+    extra = _visit_of(adding) if adding is not None and adding_day is not None else None
     out = []
-    for user in techs:
+    for user in _technicians_of(organisation):
         capacity = float(user.daily_capacity_hours)
         per_day = []
         for k in range(days):
@@ -444,6 +458,51 @@ def technician_day_loads(
                 todo.append(extra)
             per_day.append(_day_load(day=d, capacity=capacity, visits=todo))
         out.append((user, per_day))
+    return out
+
+
+def _least_loaded(candidates: list[tuple]) -> tuple | None:
+    """The (user, DayLoad) with the smallest share of capacity once the work is added, within capacity first;
+    ties by name."""
+    return min(
+        candidates,
+        key=lambda p: (p[1].over, p[1].hours / max(p[1].capacity_hours, 0.1), str(p[0])),
+        default=None,
+    )
+
+
+def _skills_of(work_order: WorkOrder) -> set[str]:
+    return {t.task.skill for t in work_order.tasks.all()}
+
+
+def suggested_technicians(*, organisation, days: dict[int, tuple[WorkOrder, dt.date]]) -> dict[int, tuple]:
+    """For each work order (by id: (work order with its tasks prefetched, the day it would be done)), the
+    least-loaded technician who has every skill it needs, with their day as it would be: one query for all."""
+    if not days:
+        return {}
+    first = min(d for _, d in days.values())
+    last = max(d for _, d in days.values())
+    visits = _loaded_visits(
+        organisation=organisation, start=first, end=last + dt.timedelta(days=1), leave_out=list(days)
+    )
+    techs = _technicians_of(organisation)
+    out = {}
+    for pk, (wo, day) in days.items():
+        needed = _skills_of(wo)
+        extra = _visit_of(wo)
+        candidates = [
+            (
+                u,
+                _day_load(
+                    day=day, capacity=float(u.daily_capacity_hours), visits=[*visits.get((u.pk, day), []), extra]
+                ),
+            )
+            for u in techs
+            if needed <= set(u.skills or [])
+        ]
+        pick = _least_loaded(candidates)
+        if pick is not None:
+            out[pk] = pick
     return out
 
 
@@ -466,7 +525,7 @@ def board_load_rows(*, organisation, start: dt.date, days: int = 7) -> list[dict
 
 def skills_needed(*, work_order: WorkOrder) -> set[str]:
     """The skills the work order's tasks name (each task names one); a technician must have them all."""
-    return set(WorkOrderTask.objects.filter(work_order=work_order).values_list("task__skill", flat=True))
+    return _skills_of(work_order)
 
 
 @dataclass(frozen=True)
@@ -532,10 +591,7 @@ def assignment_check(*, work_order: WorkOrder, technician, day: dt.date) -> Assi
     chosen = next((load for user, (load,) in loads if user.pk == technician.pk), None)
     if chosen is None:  # not a technician of the organisation: the service refuses it in its own words
         chosen = DayLoad(date=day, capacity_hours=float(technician.daily_capacity_hours))
-    qualified = [(user, load) for user, (load,) in loads if needed <= set(user.skills or [])]
-    suggestion = min(
-        qualified, key=lambda p: (p[1].over, p[1].hours / max(p[1].capacity_hours, 0.1), str(p[0])), default=None
-    )
+    suggestion = _least_loaded([(user, load) for user, (load,) in loads if needed <= set(user.skills or [])])
     return AssignmentCheck(
         technician=technician,
         day=day,

@@ -128,9 +128,13 @@ def board(request):
     resolved = corrective_work_already_resolved(
         work_order_ids=[wo.pk for c in columns for wo in c["rows"] if wo.kind == WorkOrder.Kind.CORRECTIVE]
     )
+    # Each unassigned row offers the least-loaded technician with the skills for its day (tasks plus travel).
+    open_rows = {wo.pk: (wo, wo.plan_default) for c in columns for wo in c["rows"] if wo.assignee_id is None}
+    suggested = backends.suggested_technicians(organisation=org, days=open_rows)
     for c in columns:
         for wo in c["rows"]:
             wo.findings_resolved = wo.pk in resolved
+            wo.suggested = suggested.get(wo.pk)
     load = backends.technician_load(organisation=org, start=week, days=7)
     to_verify = list(backends.work_orders_to_verify(organisation=org))
     flagged = {f.work_order_id: f for f in backends.flagged_forms_for(user=request.user)}

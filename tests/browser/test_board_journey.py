@@ -60,8 +60,11 @@ def test_the_supervisors_week_on_the_board(browser, live_server, board, screensh
         expect(assigned.get_by_role("rowheader", name="AHU-01 (Granary)").first).to_be_visible()
         no_sideways_scroll(page, size)
 
-        # Give Friday's fan visit to Tess for today: a warning, nothing saved.
+        # Give Friday's fan visit to Tess for today instead: a warning, nothing saved.
         row = page.locator(f'tr[data-work-order="{board.fan_visit.public_id}"]')
+        # On its due Friday nobody has work yet: Tess (more capacity) is offered and chosen in the list.
+        expect(row.locator("[data-suggested]")).to_contain_text("Suggested: Tess Field, least loaded with the skills")
+        expect(row.locator("select[name=assignee] option:checked")).to_have_text("Tess Field")
         row.locator("select[name=assignee]").select_option(label="Tess Field")
         row.locator("input[name=scheduled_for]").fill("2025-03-05")
         row.get_by_role("button", name="Assign").click()

@@ -61,6 +61,11 @@ def test_the_supervisors_week_on_the_board(client, world, clock):
     for wo in (world.completed, world.flagged):
         assert f'href="{reverse("frontend:checklist", kwargs={"public_id": wo.public_id})}"' in html
     assert "To verify (2)" in html and "Flagged forms (1)" in html
+    # The unassigned fan visit, on its due Friday when nobody has work yet, offers Tess: 1.7 h is the smaller
+    # share of her 7.5 h than of Omar's 7.0 h; Pia lacks the mechanical skill whatever her load.
+    (row,) = [wo for c in page.context["columns"] for wo in c["rows"] if wo.pk == world.fan_visit.pk]
+    assert row.suggested[0] == world.tess
+    assert f"Suggested: Tess Field, least loaded with the skills ({100 / 60:.1f} h of 7.5 h on Fri 7 Mar" in html
 
     # The API says the same: the week of the plan, units with their buildings, the same load.
     api = client.get("/api/scheduling/board/").json()
