@@ -1,6 +1,8 @@
 """Reads about people and roles."""
 
+from django.core.exceptions import PermissionDenied
 from django.db.models import QuerySet
+from django.http import Http404
 
 from .models import Membership, Organisation, Role, User
 
@@ -43,10 +45,13 @@ def does_field_work(*, user: User, organisation_id: int) -> bool:
 
 
 def technician_of(*, organisation_id: int, username: str) -> User | None:
-    """The technician of the organisation with this username; None for a username nobody has and for a
+    """The active technician of the organisation with this username; None for a username nobody has and for a
     person of another organisation alike, so the answer never tells which usernames exist elsewhere."""
     return User.objects.filter(
-        username=username, memberships__organisation_id=organisation_id, memberships__role=Role.TECHNICIAN
+        username=username,
+        is_active=True,  # a deactivated technician takes no new work
+        memberships__organisation_id=organisation_id,
+        memberships__role=Role.TECHNICIAN,
     ).first()
 
 
@@ -58,3 +63,32 @@ def primary_role(*, user: User) -> str | None:
         if role in held:
             return role
     return None
+
+
+def organisation_administered_by(*, user: User) -> Organisation | None:
+    """The organisation whose people the person manages (the first where they are an administrator), or None."""
+    return organisations_where(user=user, roles={Role.ADMIN}).order_by("pk").first()
+
+
+def people_of(*, organisation: Organisation) -> QuerySet[Membership]:
+    """The organisation's people, one membership each (with the person and their site grants), active first."""
+    return (
+        Membership.objects.filter(organisation=organisation)
+        .select_related("user")
+        .prefetch_related("user__site_grants__site")
+        .order_by("-user__is_active", "user__first_name", "user__last_name", "user__username")
+    )
+
+
+def person_for(*, user: User, pk: int) -> Membership:
+    """One person of the organisation ``user`` administers, as their membership there.
+
+    ``PermissionDenied`` for someone who administers no organisation; ``Http404`` for anybody not of it, so the
+    answer never tells which people other organisations have."""
+    organisation = organisation_administered_by(user=user)
+    if organisation is None:
+        raise PermissionDenied("Only an administrator may manage people.")
+    membership = people_of(organisation=organisation).filter(user_id=pk).first()
+    if membership is None:
+        raise Http404("no such person")
+    return membership

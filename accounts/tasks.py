@@ -17,3 +17,14 @@ from . import services
 )
 def password_reset_email_send(user_id: int) -> bool:
     return services.password_reset_email_send(user_id=user_id)
+
+
+@shared_task(
+    name="accounts.invitation_email_send",
+    acks_late=True,
+    autoretry_for=(OSError,),
+    retry_backoff=30,
+    max_retries=5,
+)
+def invitation_email_send(user_id: int, organisation_id: int) -> bool:
+    return services.invitation_email_send(user_id=user_id, organisation_id=organisation_id)

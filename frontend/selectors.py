@@ -229,3 +229,10 @@ def result_for_display(*, result: dict | None, system: str, labels: dict | None 
 def _check_words(evaluation: dict) -> str:
     """A judgement's name when the form's labels do not give one (never the item's key)."""
     return check_label(check=evaluation.get("check") or "", item="", labels={})
+
+
+def calendar_feed_of(*, user):
+    """The person's calendar address still in force (the newest), or None."""
+    from scheduling.models import CalendarFeed
+
+    return CalendarFeed.objects.filter(user=user, revoked_at__isnull=True).order_by("-created_at").first()

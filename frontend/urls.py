@@ -2,7 +2,7 @@ from django.contrib.auth import views as auth_views
 from django.urls import path
 
 from . import api
-from .views import calculator, manager, records, shell, supervisor, technician
+from .views import calculator, manager, people, records, shell, supervisor, technician
 
 app_name = "frontend"
 urlpatterns = [
@@ -14,6 +14,10 @@ urlpatterns = [
     path("", shell.home, name="home"),
     path("start/", shell.start, name="start"),
     path("person/", shell.person, name="person"),
+    path("profile/", people.profile, name="profile"),
+    # administrator
+    path("people/", people.people_list, name="people"),
+    path("people/<int:pk>/", people.person_edit, name="person_edit"),
     # technician
     path("today/", technician.today, name="today"),
     path("u/", technician.unit_lookup, name="unit_lookup"),

@@ -25,7 +25,10 @@ NAV_BY_ROLE = {
     ],
     Role.PROPERTY_MANAGER: [("frontend:dashboard", "Dashboard"), ("frontend:records", "Reports")],
 }
-NAV_BY_ROLE[Role.ADMIN] = NAV_BY_ROLE[Role.SUPERVISOR]
+NAV_BY_ROLE[Role.ADMIN] = [*NAV_BY_ROLE[Role.SUPERVISOR], ("frontend:people", "People")]
+# Everyone's own settings (units, calendar address, password), last in every menu.
+for _links in NAV_BY_ROLE.values():
+    _links.append(("frontend:profile", "Profile"))
 
 
 def _role(request) -> str | None:

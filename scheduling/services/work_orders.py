@@ -96,7 +96,10 @@ def no_technician(value: object) -> str:
 def _check_assignee(wo: WorkOrder, assignee) -> None:
     if assignee is None:
         raise ValidationError({"assignee": ["an assigned work order needs an assignee"]})
-    if not Membership.objects.filter(user=assignee, organisation_id=wo.organisation_id, role=Role.TECHNICIAN).exists():
+    # A deactivated person (accounts.services.person_deactivate) takes no new work.
+    if not Membership.objects.filter(
+        user=assignee, user__is_active=True, organisation_id=wo.organisation_id, role=Role.TECHNICIAN
+    ).exists():
         raise ValidationError({"assignee": [no_technician(assignee.username)]})
 
 
@@ -520,7 +523,9 @@ def overdue_escalation_send(*, organisation, today: dt.date, repeat_days: int = 
 def calendar_feed_issue(*, user) -> CalendarFeed:
     """A new secret feed URL for the user; older ones are revoked."""
     CalendarFeed.objects.filter(user=user, revoked_at__isnull=True).update(revoked_at=timezone.now())
-    return CalendarFeed.objects.create(user=user)
+    feed = CalendarFeed.objects.create(user=user)
+    audit_record(actor=user, obj=feed, action="calendar_feed_issued")  # never the token: it is the key
+    return feed
 
 
 def calendar_feeds_revoke_for_password(sender=None, *, user, **kwargs) -> None:
@@ -528,7 +533,9 @@ def calendar_feeds_revoke_for_password(sender=None, *, user, **kwargs) -> None:
     CalendarFeed.objects.filter(user=user, revoked_at__isnull=True).update(revoked_at=timezone.now())
 
 
-def calendar_feed_revoke(*, feed: CalendarFeed) -> None:
+@transaction.atomic
+def calendar_feed_revoke(*, feed: CalendarFeed, by=None) -> None:
     if feed.revoked_at is None:
         feed.revoked_at = timezone.now()
         feed.save(update_fields=["revoked_at"])
+        audit_record(actor=by, obj=feed, action="calendar_feed_revoked")

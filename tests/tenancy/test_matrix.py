@@ -75,6 +75,7 @@ FILL: dict[str, Fill] = {
     "frontend:registry_rules": {"pk": lambda c: c.ahu.pk},
     "frontend:registry_component_edit": {"pk": lambda c: c.component.pk},
     "frontend:dashboard_site": {"pk": lambda c: c.site.pk},
+    "frontend:person_edit": {"pk": lambda c: c.technician.pk},
     "frontend:calc_api": {"name": lambda c: next(iter(CALCULATORS))},
 }
 # Component labels open the same views as unit labels: try both.

@@ -178,6 +178,9 @@ WRITES: dict[tuple[str, str], Write] = {
     ("accounts_api:token", "delete"): Write(EVERYONE, kind="self"),
     ("scheduling_api:calendar-feed", "post"): Write(EVERYONE, kind="self"),
     ("frontend:login", "post"): Write(EVERYONE, _login, kind="self"),
+    ("frontend:profile", "post"): Write(
+        EVERYONE, lambda w, c: Call(body={"action": "units", "unit_system": "us"}, fmt="form"), kind="self"
+    ),
     ("frontend:logout", "post"): Write(EVERYONE, kind="self"),
     ("accounts:password_reset", "post"): Write(
         EVERYONE, lambda w, c: Call(body={"email": "x@example.invalid"}, fmt="form"), kind="self"
@@ -345,6 +348,26 @@ WRITES: dict[tuple[str, str], Write] = {
         EVERYONE,
         lambda w, c: Call(body={"kind": "inspection", "work_order": str(c.work_order.public_id)}, fmt="form"),
         in_body=True,
+    ),
+    # People of the organisation: administrators only (invite; role, capacity, skills of someone of the site's
+    # organisation; another organisation's person is not found).
+    ("frontend:people", "post"): Write(
+        frozenset({ADMIN}),
+        lambda w, c: Call(
+            body={
+                "name": "Probe Person",
+                "email": "probe.person@example.invalid",
+                "role": "technician",
+                "capacity": "6",
+                "skills": ["electrical"],
+            },
+            fmt="form",
+        ),
+        own_org_only=True,
+    ),
+    ("frontend:person_edit", "post"): Write(
+        frozenset({ADMIN}),
+        lambda w, c: Call({"pk": c.technician.pk}, {"action": "save", "role": "technician", "capacity": "6.5"}, "form"),
     ),
     # Answer a POST without writing anything: calculations and pages that only read.
     ("frontend:calc_api", "post"): Write(frozenset(), kind="none"),
