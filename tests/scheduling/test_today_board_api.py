@@ -208,3 +208,31 @@ def test_board_counts_and_rows_follow_the_rule_on_mixed_work(library):
         for name in expected:
             assert [r["id"] for r in other[name]] == [wo.public_id for wo in getattr(board, name)], (week, name)
             assert other["counts"][name] == len(getattr(board, name))
+
+
+def test_work_shows_in_the_week_it_is_planned_for(library):
+    """Work due in a later week but planned for Thursday of this week is on this week's board on Thursday (rows
+    and per-day counts); work due this week but planned for next week is on next week's board, not this one.
+    Overdue work stays overdue whatever day it is planned for."""
+    ahu = AHUFactory()
+    org = ahu.building.site.organisation
+    tech = make_technician(org)
+    thursday = MONDAY + dt.timedelta(days=3)
+    pulled = WorkOrderFactory(
+        organisation=org, ahu=ahu, due_date=MONDAY + dt.timedelta(days=15), scheduled_for=thursday,
+        assignee=tech, state=WorkOrder.State.ASSIGNED,
+    )  # fmt: skip
+    pushed = WorkOrderFactory(organisation=org, ahu=ahu, due_date=TODAY, scheduled_for=MONDAY + dt.timedelta(days=8))
+    late = WorkOrderFactory(
+        organisation=org, ahu=ahu, due_date=TODAY - dt.timedelta(days=20), overdue_on=TODAY - dt.timedelta(days=3),
+        scheduled_for=MONDAY + dt.timedelta(days=9),
+    )  # fmt: skip
+    page = board_page_for(organisation=org, week_start=MONDAY, today=TODAY)
+    assert [r["id"] for r in page["assigned"]] == [pulled.public_id]
+    assert page["due"] == [] and [r["id"] for r in page["overdue"]] == [late.public_id]
+    assert {d["date"]: d["assigned"] for d in page["days"]}[thursday] == 1
+    board = board_for(organisation=org, week_start=MONDAY, today=TODAY)
+    assert [wo.pk for wo in board.assigned] == [pulled.pk] and board.due == []
+    following = board_page_for(organisation=org, week_start=MONDAY + dt.timedelta(days=7), today=TODAY)
+    assert [r["id"] for r in following["due"]] == [pushed.public_id] and following["assigned"] == []
+    assert pulled.public_id not in {r["id"] for r in following["assigned"]}
