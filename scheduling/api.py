@@ -36,6 +36,7 @@ from .selectors import (
     effective_tasks,
     local_today,
     person_time_zone,
+    site_today,
     to_verify_rows,
     today_visit_rows_for,
     work_order_for,
@@ -124,6 +125,8 @@ def _over_capacity(wo: WorkOrder, assignee, day: dt.date, data: dict) -> Respons
     does; None when the day fits, when the sender confirmed, or when the version is stale (the service answers)."""
     if data.get("confirm_over_capacity") or data["version"] != wo.version:
         return None
+    if date_problem(day, label="scheduled_for", today=site_today(site=wo.ahu.building.site)) is not None:
+        return None  # the schedule service refuses the day in its own words
     check = assignment_check(work_order=wo, technician=assignee, day=day)
     if not check.over:
         return None

@@ -129,7 +129,12 @@ def board(request):
         work_order_ids=[wo.pk for c in columns for wo in c["rows"] if wo.kind == WorkOrder.Kind.CORRECTIVE]
     )
     # Each unassigned row offers the least-loaded technician with the skills for its day (tasks plus travel).
-    open_rows = {wo.pk: (wo, wo.plan_default) for c in columns for wo in c["rows"] if wo.assignee_id is None}
+    open_rows = {
+        wo.pk: (wo, wo.plan_default)
+        for c in columns
+        for wo in c["rows"]
+        if wo.assignee_id is None and date_problem(wo.plan_default, label="day", today=wo.site_today) is None
+    }
     suggested = backends.suggested_technicians(organisation=org, days=open_rows)
     for c in columns:
         for wo in c["rows"]:
@@ -183,7 +188,9 @@ def assign(request, public_id):
     check = None
     # The day the work will count on: the day asked for, else its plan, else its due date.
     on_day = (day if "scheduled_for" in request.POST else wo.scheduled_for) or wo.due_date
-    if request.POST.get("version") == str(wo.version):  # a stale page is refused below, not warned about
+    in_window = date_problem(on_day, label="day", today=site_today(site=wo.ahu.building.site)) is None
+    # A stale page is refused below, not warned about; so is a day outside the plan window.
+    if request.POST.get("version") == str(wo.version) and in_window:
         check = backends.assignment_check(work_order=wo, technician=technician, day=on_day)
         if check.over and not request.POST.get("confirm_over_capacity"):
             # Nothing is saved: the supervisor sees the day it would make and chooses.

@@ -135,3 +135,20 @@ def test_the_api_warns_the_same_and_assigns_when_confirmed(api_client, world, cl
     assert visit.assignee is None and visit.version == 1
     ok = api_client.post(url, {**body, "confirm_over_capacity": True}, format="json")
     assert ok.status_code == 200 and ok.json()["assignee"]["username"] == "tess"
+
+
+def test_a_day_past_the_plan_window_is_refused_in_words_not_a_500(client, api_client, world, clock):
+    """9999-12-31 (the last date there is) gets the schedule's refusal naming the field and the allowed days."""
+    client.force_login(world.supervisor)
+    visit = world.fan_visit
+    url = reverse("frontend:assign", kwargs={"public_id": visit.public_id})
+    r = client.post(url, {"assignee": world.tess.pk, "version": 1, "scheduled_for": "9999-12-31"})
+    assert r.status_code == 302
+    said = " ".join(str(m) for m in get_messages(r.wsgi_request))
+    assert "9999-12-31" in said and "allowed" in said, said
+    api_client.force_authenticate(world.supervisor)
+    body = {"assignee": "tess", "version": 1, "scheduled_for": "9999-12-31"}
+    r = api_client.post(f"/api/scheduling/work-orders/{visit.public_id}/assign/", body, format="json")
+    assert r.status_code == 400 and "scheduled_for" in r.json()["errors"], r.content
+    visit.refresh_from_db()
+    assert visit.assignee is None and visit.version == 1
