@@ -1,5 +1,6 @@
 """Writes about people and roles."""
 
+import hashlib
 from dataclasses import dataclass
 from decimal import ROUND_HALF_UP, Decimal
 
@@ -310,11 +311,35 @@ def invitation_email_send(*, user_id: int, organisation_id: int) -> bool:
     return True
 
 
+class PersonChanged(Exception):
+    """Someone else changed the person since the form was read (``person_state``): nothing was saved."""
+
+
+def person_state(*, membership: Membership) -> str:
+    """What an edit form was read at: role, capacity and skills, as a short digest the form sends back.
+
+    The person's record has no version column; this stands in for one, so of two administrators editing the
+    same person at once the second is told instead of silently undoing the first."""
+    user = membership.user
+    text = f"{membership.role}|{Decimal(str(user.daily_capacity_hours))}|{','.join(sorted(user.skills or []))}"
+    return hashlib.sha256(text.encode()).hexdigest()[:16]
+
+
 @transaction.atomic
-def person_update(*, by: User, organisation: Organisation, person: User, data: PersonInput) -> User:
+def person_update(
+    *, by: User, organisation: Organisation, person: User, data: PersonInput, seen: str | None = None
+) -> User:
     """Role (in this organisation), daily capacity and skills; refused (``LastAdministrator``) when the last
-    active administrator would stop being one."""
-    membership = Membership.objects.select_for_update().get(user=person, organisation=organisation)
+    active administrator would stop being one, and (``PersonChanged``) when ``seen`` is not the state now."""
+    membership = (
+        Membership.objects.select_for_update().select_related("user").get(user=person, organisation=organisation)
+    )
+    person = membership.user
+    if seen is not None and seen != person_state(membership=membership):
+        raise PersonChanged(
+            f"{person} was changed by someone else since this page was opened; nothing was saved. "
+            "The form now shows what is stored: make your change again."
+        )
     if data.role != Role.ADMIN:
         _keep_an_admin(organisation=organisation, person=person, membership=membership)
     changes = {}

@@ -135,7 +135,13 @@ def person_edit(request, pk: int):
             if action == "save":
                 typed.update(_raw(request, ("role", "capacity", "skills")))
                 data = people.person_input_check(typed, skills_allowed=SKILLS, organisation=organisation, person=person)
-                people.person_update(by=request.user, organisation=organisation, person=person, data=data)
+                people.person_update(
+                    by=request.user,
+                    organisation=organisation,
+                    person=person,
+                    data=data,
+                    seen=request.POST.get("seen") or "missing",  # a form without it was not read from this page
+                )
                 done = f"{person}: role, daily capacity and skills saved."
             elif action == "sites":
                 typed["sites"] = request.POST.getlist("sites")
@@ -169,6 +175,14 @@ def person_edit(request, pk: int):
             errors, status = _errors(exc), 400
         except people.LastAdministrator as exc:
             errors, status = {"page": [str(exc)]}, 400
+        except people.PersonChanged as exc:
+            errors, status = {"page": [str(exc)]}, 409
+            membership = person_for(user=request.user, pk=pk)
+            typed.update(
+                role=membership.role,
+                capacity=str(membership.user.daily_capacity_hours),
+                skills=list(membership.user.skills or []),
+            )
         except PermissionDenied as exc:
             errors, status = {"page": [str(exc)]}, 400
         else:
@@ -183,6 +197,7 @@ def person_edit(request, pk: int):
     context = {
         "organisation": organisation,
         "open_work": open_work,
+        "seen": people.person_state(membership=membership),
         "member": person,
         "membership": membership,
         "row": _person_row(membership),

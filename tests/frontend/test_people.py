@@ -17,7 +17,7 @@ from django.test import Client
 from rest_framework.authtoken.models import Token
 
 from accounts.models import AuditEvent, Membership, Role, SiteGrant, User
-from accounts.services import api_token_issue
+from accounts.services import api_token_issue, person_state
 from scheduling.models import CalendarFeed
 from scheduling.services import calendar_feed_issue
 from tests.factories.accounts import make_person
@@ -55,6 +55,11 @@ def row_counts() -> dict:
         "tokens": list(Token.objects.values_list("key", flat=True)),
         "feeds": list(CalendarFeed.objects.order_by("pk").values()),
     }
+
+
+def _seen(person) -> dict:
+    """The edit form's hidden state field, as the page fills it in."""
+    return {"seen": person_state(membership=Membership.objects.select_related("user").get(user=person))}
 
 
 def _as(user) -> Client:
@@ -164,13 +169,19 @@ def test_an_admin_cannot_leave_the_organisation_without_an_admin(world):
     res = admin.post(f"/people/{world.admin.pk}/", {"action": "deactivate"})
     assert res.status_code == 400 and "without an active administrator" in res.content.decode()
     res = admin.post(
-        f"/people/{world.admin.pk}/", {"action": "save", "role": "supervisor", "capacity": "7.5", "skills": []}
+        f"/people/{world.admin.pk}/",
+        {**_seen(world.admin), "action": "save", "role": "supervisor", "capacity": "7.5", "skills": []},
     )
     assert res.status_code == 400 and "without an active administrator" in res.content.decode()
     assert Membership.objects.get(user=world.admin).role == Role.ADMIN and User.objects.get(pk=world.admin.pk).is_active
-    admin.post(f"/people/{world.supervisor.pk}/", {"action": "save", "role": "admin", "capacity": "7.5"})
+    admin.post(
+        f"/people/{world.supervisor.pk}/",
+        {**_seen(world.supervisor), "action": "save", "role": "admin", "capacity": "7.5"},
+    )
     assert Membership.objects.get(user=world.supervisor).role == Role.ADMIN
-    res = admin.post(f"/people/{world.admin.pk}/", {"action": "save", "role": "supervisor", "capacity": "7.5"})
+    res = admin.post(
+        f"/people/{world.admin.pk}/", {**_seen(world.admin), "action": "save", "role": "supervisor", "capacity": "7.5"}
+    )
     assert res.status_code == 302
     assert Membership.objects.get(user=world.admin).role == Role.SUPERVISOR
 
@@ -180,7 +191,13 @@ def test_the_admin_edits_role_capacity_and_skills(world):
     omar = world.other_technician
     res = admin.post(
         f"/people/{omar.pk}/",
-        {"action": "save", "role": "supervisor", "capacity": "5", "skills": ["mechanical", "electrical"]},
+        {
+            **_seen(omar),
+            "action": "save",
+            "role": "supervisor",
+            "capacity": "5",
+            "skills": ["mechanical", "electrical"],
+        },
     )
     assert res.status_code == 302
     omar.refresh_from_db()
@@ -279,7 +296,8 @@ def test_a_bad_capacity_on_the_edit_form_is_refused_and_nothing_changes(world, v
     admin = _as(world.admin)
     omar = world.other_technician
     res = admin.post(
-        f"/people/{omar.pk}/", {"action": "save", "role": "supervisor", "capacity": value, "skills": ["electrical"]}
+        f"/people/{omar.pk}/",
+        {**_seen(omar), "action": "save", "role": "supervisor", "capacity": value, "skills": ["electrical"]},
     )
     assert res.status_code == 400 and expected in res.content.decode()
     omar.refresh_from_db()
@@ -409,3 +427,22 @@ def test_an_address_that_cannot_be_a_sign_in_name_is_refused(world):
     assert res.status_code == 400
     assert "E-mail: &quot;o&#x27;brien@example.invalid&quot; cannot be a sign-in name" in res.content.decode()
     assert not User.objects.filter(email__icontains="brien").exists()
+
+
+def test_of_two_admins_editing_one_person_the_second_is_told_and_nothing_is_undone(world):
+    """Both open Omar's page; the first makes him a supervisor; the second's capacity change, read before that,
+    is refused (409) naming what happened, and the page then shows the stored role."""
+    first, second = _as(world.admin), _as(make_person(organisation=world.org, role=Role.ADMIN, username="ben"))
+    omar = world.other_technician
+    seen = _seen(omar)
+    assert (
+        first.post(
+            f"/people/{omar.pk}/", {**seen, "action": "save", "role": "supervisor", "capacity": "7.5"}
+        ).status_code
+        == 302
+    )
+    res = second.post(f"/people/{omar.pk}/", {**seen, "action": "save", "role": "technician", "capacity": "4"})
+    assert res.status_code == 409 and "changed by someone else" in res.content.decode()
+    assert '<option value="supervisor" selected>' in res.content.decode()
+    omar.refresh_from_db()
+    assert Membership.objects.get(user=omar).role == Role.SUPERVISOR and float(omar.daily_capacity_hours) == 7.5

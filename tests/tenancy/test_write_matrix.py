@@ -165,6 +165,14 @@ def _amend(c: Corner) -> Call:
     )
 
 
+def _person_seen(person) -> str:
+    """The person page's hidden state field (a form read from the page), for a person of one organisation."""
+    from accounts.models import Membership
+    from accounts.services import person_state
+
+    return person_state(membership=Membership.objects.select_related("user").get(user=person))
+
+
 def _login(w: World, c: Corner) -> Call:
     return Call(body={"username": "nobody-here", "password": PASSWORD}, fmt="form")
 
@@ -367,7 +375,11 @@ WRITES: dict[tuple[str, str], Write] = {
     ),
     ("frontend:person_edit", "post"): Write(
         frozenset({ADMIN}),
-        lambda w, c: Call({"pk": c.technician.pk}, {"action": "save", "role": "technician", "capacity": "6.5"}, "form"),
+        lambda w, c: Call(
+            {"pk": c.technician.pk},
+            {"action": "save", "role": "technician", "capacity": "6.5", "seen": _person_seen(c.technician)},
+            "form",
+        ),
     ),
     # Answer a POST without writing anything: calculations and pages that only read.
     ("frontend:calc_api", "post"): Write(frozenset(), kind="none"),
