@@ -32,8 +32,8 @@ DEMO_DAY = dt.datetime(2026, 12, 2, 10, tzinfo=dt.UTC)  # the demo's day (tests/
 
 SITE_NAMES = (
     "Harbour View Offices and Conference Centre, North Quay Campus",
-    "St Bartholomew's Teaching Hospital — Outpatients and Diagnostic Imaging",
-    "Riverside Municipal Swimming Pool and Leisure Complex",
+    "St Bartholomew's Teaching Hospital",
+    "Riverside Pool",
     "Kristallverwaltungsgebäudeostflügelerweiterungszentrum",  # one word, nowhere to break
     "Elm Court",
 )
