@@ -312,6 +312,19 @@ def _band_limit(d: dict, reading: Reading | None, system: str) -> str:
     return text
 
 
+def _judged_cells(e: Evaluation, reading: Reading | None, system: str) -> tuple[list[str], str]:
+    """The values a judgement was made on and the limit it was judged against, in the reader's units."""
+    d = e.derived or {}
+    if e.check_name in ("filter_loading", "filter_after_change"):
+        return _filter_cells(e.check_name, d, system)
+    if e.check_name in VALUE_KEYS:
+        values = _derived_text(d, VALUE_KEYS[e.check_name], system, e.item_key)
+        limit = "; ".join(_derived_text(d, LIMIT_KEYS.get(e.check_name, ()), system, e.item_key))
+        return values, limit or _control_limits(e.check_name, system)
+    values = [reading_value(reading, system)] if reading is not None else []
+    return values, _band_limit(d, reading, system) if e.check_name == "limits" else ""
+
+
 def _reading_text(r: Reading, system: str) -> str:
     """A reading beside the values judged from it ("return air 22.7 °C"): its label, short."""
     return f"{r.item.label.lower().replace(' temperature', '')} {reading_value(r, system)}"
@@ -357,19 +370,7 @@ def _visit(
         code = e.item_key.partition(".")[0]
         reading = owned.get((e.item_key, e.component_id))
         part = e.component.name if e.component_id else ""
-        values: list[str]
-        limit = ""
-        if e.check_name in ("filter_loading", "filter_after_change"):
-            values, limit = _filter_cells(e.check_name, d, system)
-        elif e.check_name in VALUE_KEYS:
-            values = _derived_text(d, VALUE_KEYS[e.check_name], system, e.item_key)
-            limit = "; ".join(_derived_text(d, LIMIT_KEYS.get(e.check_name, ()), system, e.item_key))
-            limit = limit or _control_limits(e.check_name, system)
-        elif e.check_name == "limits":
-            values = [reading_value(reading, system)] if reading is not None else []
-            limit = _band_limit(d, reading, system)
-        else:
-            values = [reading_value(reading, system)] if reading is not None else []
+        values, limit = _judged_cells(e, reading, system)
         if e.check_name not in (*ANSWERS, "limits") and (code, e.component_id) not in attached:
             # The readings this judgement was made from that its values do not already say.
             numbers = {round(v, 6) for v in d.values() if isinstance(v, int | float) and not isinstance(v, bool)}

@@ -5,6 +5,7 @@ import io
 import re
 import shutil
 import subprocess
+import uuid
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -173,7 +174,7 @@ _WORD = re.compile(r'<word xMin="([-\d.]+)" yMin="[-\d.]+" xMax="([-\d.]+)" yMax
 def pdf_words(pdf: bytes) -> list[Word]:
     """The words of ``pdf`` in reading order with where they lie across the page (pdftotext -bbox, in points)."""
     exe = shutil.which("pdftotext") or "/usr/bin/pdftotext"
-    source = _pdf_file(pdf, "words")
+    source = _pdf_file(pdf, f"words-{uuid.uuid4().hex}")  # its own file: parallel workers read words at once
     try:
         result = subprocess.run(
             [exe, "-bbox", str(source), "-"], capture_output=True, text=True, timeout=60, check=False
