@@ -43,6 +43,8 @@ def test_the_admin_invites_a_technician_and_grants_a_site(page, live_server, wor
     expect(page.locator("#capacity-errors")).to_contain_text("Daily capacity: 25 h is out of range")
     expect(page.get_by_label("Name")).to_have_value("Rhea Coil")
     expect(page.get_by_label("Electrical")).to_be_checked()
+    _no_sideways_scroll(page, size["width"])
+    page.locator("#capacity-errors").screenshot(path=screenshots / f"people-refused-capacity-{name}.png")
     page.get_by_label("Daily capacity").fill("6.5")
     page.get_by_role("button", name="Invite").click()
     expect(page.locator(".messages")).to_contain_text("Rhea Coil is invited")
