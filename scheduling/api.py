@@ -33,6 +33,7 @@ from .selectors import (
     assignment_check,
     board_load_rows,
     board_page_for,
+    board_suggestions,
     effective_tasks,
     local_today,
     person_time_zone,
@@ -389,10 +390,12 @@ class Board(APIView):
             org = _organisation_for(request.user, managing=True)
             if org is None:
                 raise PermissionDenied("the board is for supervisors")
+            page = board_page_for(
+                organisation=org, week_start=week, today=today, limit=limit, offset=offset, section=section
+            )
+            board_suggestions(organisation=org, rows=[*page["overdue"], *page["due"], *page["assigned"]], today=today)
             return {
-                **board_page_for(
-                    organisation=org, week_start=week, today=today, limit=limit, offset=offset, section=section
-                ),
+                **page,
                 "load": board_load_rows(organisation=org, start=week, days=7),
                 "to_verify": to_verify_rows(organisation=org),
             }

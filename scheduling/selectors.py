@@ -13,6 +13,7 @@ from django.db.models.functions import Coalesce, RowNumber
 from django.http import Http404
 from django.utils import timezone
 
+from accounts.inputs import date_problem
 from accounts.models import Membership, Role
 from inventory.models import Site
 from inventory.selectors import sites_visible_to
@@ -600,6 +601,29 @@ def assignment_check(*, work_order: WorkOrder, technician, day: dt.date) -> Assi
         suggestion=suggestion,
         today=site_today(site=work_order.ahu.building.site),
     )
+
+
+def board_suggestions(*, organisation, rows: list[dict], today: dt.date) -> list[dict]:
+    """Each unassigned board row (API shape) with ``suggested``: the least-loaded technician with the skills for
+    its day (its plan, else its due date, never before ``today``), as the board page offers it; None when
+    nobody has the skills. Assigned rows get None. A constant number of queries whatever the rows."""
+    open_ids = [r["id"] for r in rows if r["assignee"] is None]
+    orders = (
+        WorkOrder.objects.filter(public_id__in=open_ids)
+        .select_related("ahu__building__site")
+        .prefetch_related(Prefetch("tasks", queryset=WorkOrderTask.objects.select_related("task")))
+    )
+    days = {}
+    for wo in orders:
+        day = wo.scheduled_for or max(wo.due_date, today)
+        if date_problem(day, label="day", today=today) is None:
+            days[wo.pk] = (wo, day)
+    by_public = {wo.public_id: pk for pk, (wo, _) in days.items()}
+    picks = suggested_technicians(organisation=organisation, days=days)
+    for r in rows:
+        pick = picks.get(by_public.get(r["id"])) if r["assignee"] is None else None
+        r["suggested"] = None if pick is None else {**_person(pick[0]), "load": pick[1].as_dict()}
+    return rows
 
 
 def work_orders_to_verify(*, organisation, limit: int = 100) -> QuerySet[WorkOrder]:

@@ -266,6 +266,10 @@ class PersonRefOut(serializers.Serializer):
     name = serializers.CharField()
 
 
+class SuggestedOut(PersonRefOut):
+    load = DayLoadOut(help_text="Their day with this work added: tasks plus travel against capacity.")
+
+
 class BoardItemOut(serializers.Serializer):
     """A work order on the board, without its tasks (the work-order endpoint has them)."""
 
@@ -284,6 +288,9 @@ class BoardItemOut(serializers.Serializer):
     scheduled_for = serializers.DateField(allow_null=True)
     version = serializers.IntegerField()
     allowed_states = serializers.ListField(child=serializers.CharField())
+    suggested = SuggestedOut(
+        allow_null=True, help_text="Unassigned work: the least-loaded technician with the skills for its day."
+    )
 
 
 class BoardCountsOut(serializers.Serializer):

@@ -77,6 +77,8 @@ def test_the_supervisors_week_on_the_board(client, world, clock):
     api_today = {d["date"]: d for d in api_tess["days"]}["2025-03-05"]
     assert api_today["hours"] == today["hours"] and api_today["travel_minutes"] == today["travel_minutes"]
     assert [r["id"] for r in api["to_verify"]] == [str(world.completed.public_id), str(world.flagged.public_id)]
+    (fan,) = [r for r in api["due"] if r["id"] == str(world.fan_visit.public_id)]
+    assert fan["suggested"]["username"] == "tess" and fan["suggested"]["load"]["hours"] == row.suggested[1].hours
 
 
 def test_assigning_past_capacity_warns_first_and_saves_only_when_confirmed(client, world, clock):
