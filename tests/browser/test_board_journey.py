@@ -65,6 +65,7 @@ def test_the_supervisors_week_on_the_board(browser, live_server, board, screensh
         # On its due Friday nobody has work yet: Tess (more capacity) is offered and chosen in the list.
         expect(row.locator("[data-suggested]")).to_contain_text("Suggested: Tess Field, least loaded with the skills")
         expect(row.locator("select[name=assignee] option:checked")).to_have_text("Tess Field")
+        page.screenshot(path=screenshots / f"board-week-{name}.png", full_page=True)
         row.locator("select[name=assignee]").select_option(label="Tess Field")
         row.locator("input[name=scheduled_for]").fill("2025-03-05")
         row.get_by_role("button", name="Assign").click()
