@@ -6,7 +6,7 @@ import datetime as dt
 # twin share it; these names stay the pages' and the PDFs' way in.
 from accounts.clock import local_date_text, local_time_text
 
-__all__ = ["local_date_text", "local_time_text", "site_time_text", "usual_zone"]
+__all__ = ["local_date_text", "local_time_text", "site_date_text", "site_time_text", "usual_zone"]
 
 
 def site_time_text(when: dt.datetime | None, site) -> str:
@@ -17,6 +17,13 @@ def site_time_text(when: dt.datetime | None, site) -> str:
     if not when:
         return ""
     return local_time_text(when, zone=getattr(site, "time_zone", site))
+
+
+def site_date_text(when: dt.datetime | None, site) -> str:
+    """The day of ``when`` on the clock of ``site`` (a Site or a zone name), "2 Dec 2026"; "" without a moment."""
+    if not when:
+        return ""
+    return local_date_text(when, zone=getattr(site, "time_zone", site))
 
 
 def usual_zone(zones: list[str]) -> str:

@@ -509,8 +509,8 @@ class FilterOutlook:
         """The day a forecast line and mark may be drawn to: the forecast, unless the filter is due now."""
         return None if self.due_now else self.forecast_on
 
-    def words(self, day_text: Callable[[date], str] = date.isoformat) -> str:
-        """The outlook in words, each date written by ``day_text`` (ISO in the PDFs, "5 Jun 2025" on the pages)."""
+    def words(self, day_text: Callable[[date], str] = local_date_of) -> str:
+        """The outlook in words, each date written as the pages and the PDFs write a day ("5 Jun 2025")."""
         if self.at_final:
             return display.DERIVED_FLAGS["forecast_at_final_now"][1]  # the words the inspection record shows
         if self.forecast_on is None:

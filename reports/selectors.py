@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import contextlib
-import datetime as dt
 import uuid
 import zoneinfo
 from collections.abc import Iterable
@@ -15,6 +14,7 @@ from accounts.clock import local_date_of
 from accounts.models import User
 from inventory.selectors import sites_visible_to
 
+from .documents import period_text
 from .models import Report
 
 
@@ -54,15 +54,6 @@ def reports_visible_to(*, user: User, limit: int = 100) -> list[Report]:
 
 # What a stored report covers, in words, from its stored parameters: the list page and the API say the same.
 MAX_NAMED_SITES = 3
-
-
-def _period_text(parameters: dict) -> str:
-    """ "1 Dec 2025 – 30 Nov 2026" from the stored ISO days ("" when the report has no period)."""
-    try:
-        start, end = (dt.date.fromisoformat(str(parameters[k])) for k in ("start", "end"))
-    except (KeyError, ValueError):
-        return ""
-    return f"{local_date_of(start)} – {local_date_of(end)}"
 
 
 def _names(names: list[str], *, what: str) -> str:
@@ -138,9 +129,9 @@ def reports_covers(*, reports: Iterable[Report]) -> dict[int, str]:
     for r in reports:
         p = r.parameters
         if r.kind == Report.Kind.COMPLIANCE:
-            parts = [site_names(_ids(p.get("sites")) or r.site_ids), _period_text(p)]
+            parts = [site_names(_ids(p.get("sites")) or r.site_ids), period_text(p)]
         elif r.kind == Report.Kind.UNIT_HISTORY:
-            parts = [unit_words(next(iter(_ids(p.get("unit"))), 0)), _period_text(p)]
+            parts = [unit_words(next(iter(_ids(p.get("unit"))), 0)), period_text(p)]
         elif r.kind == Report.Kind.INSPECTION:
             found = orders.get(str(p.get("work_order")))
             if found is None:

@@ -8,7 +8,6 @@ from django.http import Http404
 from django.shortcuts import render
 from django.views.decorators.http import require_GET
 
-from accounts.clock import local_date_of
 from engineering.units import to_display, unit_label
 from inspections.reasons import text_without_subject
 from inspections.selectors import reason_for
@@ -106,7 +105,7 @@ def site_detail(request, pk: int):
         row["loading"] = f"{d['loading_pct']:.0f} %" if isinstance(d.get("loading_pct"), int | float) else "—"
         if row["outlook"] is not None:
             # Dates as the rest of the page writes them ("5 Jun 2025"), on the site's day.
-            row["forecast"] = row["outlook"].words(local_date_of)
+            row["forecast"] = row["outlook"].words()
     return render(
         request,
         "frontend/manager/site.html",

@@ -15,6 +15,7 @@ from django.core.exceptions import ValidationError
 from django.http import Http404
 from django.utils import timezone
 
+from accounts.clock import local_date_of
 from accounts.inputs import date_problem
 
 MAX_ID = 2**63 - 1  # the database's largest key; bigger numbers cannot name a row
@@ -81,6 +82,16 @@ def period(parameters: dict, *, default_start: date, default_end: date) -> tuple
     if (end - start).days > 3 * 366:
         raise ValidationError({"end": f"the period {start}–{end} is longer than the 3 years allowed"})
     return start, end
+
+
+def period_text(parameters: dict) -> str:
+    """ "1 Dec 2025 – 30 Nov 2026" from a report's stored ISO days ("" when it has no period): the titles, the
+    reports list and the API write a period alike."""
+    try:
+        start, end = (date.fromisoformat(str(parameters[k])) for k in ("start", "end"))
+    except (KeyError, ValueError):
+        return ""
+    return f"{local_date_of(start)} – {local_date_of(end)}"
 
 
 def refuse_missing(name: str, asked: list[int], found: set[int], what: str) -> None:

@@ -20,7 +20,7 @@ from reports import charts
 from reports.compliance import FREEZE_LABELS, compliance_figures
 from reports.rendering import html_render, paper_for, svg_data_uri
 
-from . import Built, Prepared, id_list, period, refuse_missing, single_organisation
+from . import Built, Prepared, id_list, period, period_text, refuse_missing, single_organisation
 from .common import percent, shown, unit_system
 
 MAX_SITES = 200
@@ -74,7 +74,7 @@ def build(*, report) -> Built:
     high_findings = sum(sum(figures.findings_matrix.get(s, {}).values()) for s in ("critical", "high"))
     single = len(figures.sites) == 1
     scope = figures.sites[0].name if single else f"{len(figures.sites)} sites"
-    title = f"Compliance report — {scope}, {p['start']} to {p['end']}"
+    title = f"Compliance report — {scope}, {period_text(p)}"
     html = html_render(
         template="reports/compliance.html",
         context={

@@ -29,6 +29,7 @@ from django.db.models import Prefetch, Q
 from django.utils.html import escape
 from django.utils.safestring import mark_safe
 
+from accounts.clock import local_date_of
 from engineering.controls import damper_position_check, static_pressure_check, supply_temperature_check
 from engineering.errors import EngineeringInputError
 from engineering.filters import filter_forecast
@@ -46,7 +47,7 @@ from reports.compliance import filter_outlook
 from reports.rendering import html_render, paper_for, svg_data_uri
 from scheduling.models import WorkOrder
 
-from . import Built, Prepared, one_id, period, refuse_missing
+from . import Built, Prepared, one_id, period, period_text, refuse_missing
 from .common import shown, unit_system
 from .inspection_report import VERDICTS, reading_value
 
@@ -129,7 +130,7 @@ def build(*, report) -> Built:
     last_day = min(end, report.created_at.astimezone(zoneinfo.ZoneInfo(ahu.building.site.time_zone)).date())
     filter_charts = _filter_charts(ahu=ahu, lo=lo, hi=hi, system=system, today=last_day, tz=tz)
     supply_chart = _supply_chart(inspections=listed, system=system, tz=tz)
-    title = f"Unit history — {ahu.tag}, {ahu.building.site.name}, {p['start']} to {p['end']}"
+    title = f"Unit history — {ahu.tag}, {ahu.building.site.name}, {period_text(p)}"
     html = html_render(
         template="reports/unit_history.html",
         context={
@@ -540,7 +541,7 @@ def _filter_charts(
                     "dashed",
                 )
             )
-            markers.append((fdate, f"change {fdate.isoformat()}"))
+            markers.append((fdate, f"change {local_date_of(fdate)}"))
         hlines = [(to_display(value=final, quantity="pressure", system=system), "final")] if final else []
         svg = charts.time_series(
             series=series_out,

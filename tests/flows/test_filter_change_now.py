@@ -142,15 +142,15 @@ def test_a_stored_change_date_gone_by_reads_due_now_on_the_site_page_and_the_com
     assert res.status_code == 202, res.json()
     report = Report.objects.get(public_id=res.json()["public_id"])
     assert report.status == Report.Status.DONE, report.error
-    assert "due now (forecast for 2025-06-05)" in " ".join(pdf_text(report).split())
+    assert "due now (forecast for 5 Jun 2025)" in " ".join(pdf_text(report).split())
 
 
 def test_filter_forecast_text_judges_a_stored_date_on_the_given_day():
     """A date ahead stands; a date before ``today`` is due now; the day itself is not yet past."""
     derived = {"forecast_change_date": "2025-06-05"}
-    assert filter_forecast_text(derived=derived, today=dt.date(2025, 6, 4)) == "2025-06-05"
-    assert filter_forecast_text(derived=derived, today=dt.date(2025, 6, 5)) == "2025-06-05"
-    assert filter_forecast_text(derived=derived, today=dt.date(2025, 6, 6)) == "due now (forecast for 2025-06-05)"
+    assert filter_forecast_text(derived=derived, today=dt.date(2025, 6, 4)) == "5 Jun 2025"
+    assert filter_forecast_text(derived=derived, today=dt.date(2025, 6, 5)) == "5 Jun 2025"
+    assert filter_forecast_text(derived=derived, today=dt.date(2025, 6, 6)) == "due now (forecast for 5 Jun 2025)"
     assert filter_forecast_text(derived={"forecast_at_final_now": True}, today=dt.date(2025, 1, 1)).startswith("now")
     assert filter_forecast_text(derived={}, today=dt.date(2025, 1, 1)) == "—"
 

@@ -184,7 +184,7 @@ def test_open_findings_are_listed_as_counted_with_their_corrective_work(estate, 
     assert order == sorted(order)
     for words in ("awaiting approval", "none: a design review", "approved, due 20 May 2025", "none proposed yet"):
         assert words in listing
-    assert "2025-03-25" in listing and "Final filters" in listing and "Closed already" not in text
+    assert "25 Mar 2025" in listing and "Final filters" in listing and "Closed already" not in text
     # The summary still comes first, before the counts and the listing.
     assert (
         text.index("Summary")
@@ -222,10 +222,10 @@ def test_compliance_pdf_shows_figures(estate, supervisor, make_report, time_mach
     text = pdf_text(report)
     first_page = text.split("Page 1 of")[0]
     assert "Summary" in first_page and "60.0 %" in first_page  # 3 of 5 on time
-    assert "Harbour View Offices" in first_page and "2025-01-01 to 2025-03-31" in first_page
+    assert "Harbour View Offices" in first_page and "1 Jan 2025 to 31 Mar 2025" in first_page
     assert "Filters" in text and "Coils and drain pans" in text
     assert "Overdue now (1)" in text
-    assert dp_text in text and "86 %" in text and "2025-05-02" in text
+    assert dp_text in text and "86 %" in text and "2 May 2025" in text
     assert "Ready" in text and "Due" in text
     assert "Local codes" in text
     # 09:00 UTC is 11:00 in Amsterdam in May (UTC+2, CEST; IANA tz database): the site's clock, zone named

@@ -5,6 +5,7 @@ import datetime as dt
 import pytest
 from django.http import Http404
 
+from accounts.clock import local_date_of
 from accounts.models import Role
 from engineering.filters import FilterPoint, corrected_pressure_drop, filter_forecast
 from reports.services import report_request
@@ -75,7 +76,7 @@ def test_history_lists_everything_with_forecast(history, supervisor, make_report
         design_airflow_m3s=3.0,
         final_dp_pa=250,
     )
-    assert f"forecast for {expected.date_at_final:%Y-%m-%d}" in flat
+    assert f"forecast for {local_date_of(expected.date_at_final)}" in flat
     for day, *_ in VISITS:
         assert f"Monthly check {day[:7]}" in text
     assert "5 work orders, 5 visits, 10 readings, 1 finding" in flat

@@ -271,7 +271,7 @@ def test_readings_are_grouped_by_visit_one_row_per_check(year_of_visits, supervi
     flat = " ".join(text_of(_history(make_report, supervisor, year_of_visits)).split())
     findings, readings = flat.split("Readings by visit")
     # The January visit ended at 23:20 UTC, 00:20 on the 15th in Amsterdam.
-    assert "2025-01-15 00:20" in readings and "2025-01-14" not in readings
+    assert "15 Jan 2025 00:20 CET" in readings and "14 Jan 2025" not in readings
     # Every visit in order under its heading (repeated over a table that runs onto the next page).
     first = [readings.find(f"Monthly service 2025-{month:02d}") for month in range(1, 13)]
     assert -1 not in first and first == sorted(first)
