@@ -286,7 +286,8 @@ def test_the_latest_freeze_test_of_the_demo_round_is_what_everyone_reads(
         pdf = " ".join(pdf_text(report).split())
         # The readiness table: unit, season starts, window opened, status, last test, why.
         assert re.search(
-            r"AHU-S1 \(Elderbank Sports Hall\) 5 Nov 2026 \d+ \w{3} \d{4} Ready 2 Dec 2026 every step passed on 2 Dec 2026;",
+            r"AHU-S1 \(Elderbank Sports Hall\) 5 Nov 2026 \d+ \w{3} \d{4} Ready 2 Dec 2026 "
+            r"every step passed on 2 Dec 2026;",
             pdf,
         )
         assert re.search(
