@@ -313,7 +313,7 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
             f"Δp × (Q_design/Q)^{filters.DEFAULT_EXPONENT:g} against the clean-to-final span; below "
             f"{filters.BYPASS_FAIL_FRACTION * 100:.0f} % of clean fails, below "
             f"{filters.BYPASS_WATCH_FRACTION * 100:.0f} % watch (missing, torn or bypassed media; common practice); "
-            f"airflow {q_how}"
+            f"airflow: {q_how}"
         )
         if loading.media_bypass_suspected:
             # A reading below clean says nothing about loading: no forecast from it.
@@ -413,7 +413,7 @@ def _filter_change_checks(form: Form, consumed: set) -> list[Result]:
         res.method = (
             f"Δp × (Q_design/Q)^{filters.DEFAULT_EXPONENT:g} against the rated clean pressure drop: ok within "
             f"±{tol * 100:.0f} %, fail below {filters.BYPASS_FAIL_FRACTION * 100:.0f} % or above "
-            f"{filters.AFTER_CHANGE_HIGH_FAIL * 100:.0f} % (common practice); airflow {q_how}"
+            f"{filters.AFTER_CHANGE_HIGH_FAIL * 100:.0f} % (common practice); airflow: {q_how}"
         )
         r = round(chk.fraction_of_clean, 9)
         if chk.media_bypass_suspected:

@@ -213,7 +213,7 @@ class Reading(models.Model):
     entered = models.JSONField(null=True, blank=True, help_text="The value as typed, in the form's units.")
     note = models.TextField(blank=True)
     verdict = models.CharField(max_length=5, choices=Verdict.choices, blank=True)
-    reason = models.CharField(max_length=500, blank=True)
+    reason = models.TextField(blank=True)
     reason_parts = models.JSONField(
         default=list, blank=True, help_text="The reason as text and SI quantities (inspections.reasons)."
     )
@@ -239,13 +239,13 @@ class Evaluation(models.Model):
     item_key = models.CharField(max_length=100)
     component = models.ForeignKey(Component, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
     verdict = models.CharField(max_length=5, choices=Verdict.choices)
-    reason = models.CharField(max_length=500, help_text="SI text, as judged (the record).")
+    reason = models.TextField(help_text="SI text, as judged (the record).")
     reason_parts = models.JSONField(
         default=list,
         blank=True,
         help_text="The reason as text and SI quantities, to render in a reader's units (selectors.reason_for).",
     )
-    method = models.CharField(max_length=300, blank=True)
+    method = models.TextField(blank=True)
     derived = models.JSONField(default=dict, blank=True, help_text="Derived values in SI, keys name their unit.")
     condition_code = models.CharField(max_length=40, blank=True)
     amendment = models.ForeignKey(
@@ -316,7 +316,7 @@ class Finding(models.Model):
     )
     severity = models.CharField(max_length=10, choices=Severity.choices)
     title = models.CharField(max_length=200)
-    reason = models.CharField(max_length=500)
+    reason = models.TextField()
     reason_parts = models.JSONField(
         default=list,
         blank=True,

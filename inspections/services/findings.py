@@ -239,9 +239,9 @@ def evaluations_store(*, inspection: Inspection, results, amendment=None) -> lis
             item_key=res.item,
             component=res.component,
             verdict=res.verdict,
-            reason=res.reason[:500],
+            reason=res.reason,
             reason_parts=res.reason_parts,
-            method=res.method[:300],
+            method=res.method,
             derived=res.derived,
             condition_code=res.condition_code,
         )
@@ -365,7 +365,7 @@ def findings_open(
             "kind": Finding.Kind.DESIGN_REVIEW if design_review else Finding.Kind.CORRECTIVE,
             "severity": "critical" if urgent else severity_of(condition=condition, res=res, derived=ev.derived or {}),
             "title": _title(res, condition, labels, design_review=design_review),
-            "reason": rs.render(parts, "si")[:500],
+            "reason": rs.render(parts, "si"),
             "reason_parts": parts,
             "condition_code": condition,
         }

@@ -589,7 +589,7 @@ def _store(parsed: Parsed, user, results) -> dict:
         if r.value_text == "na":
             r.verdict = "na"
         elif res is not None:
-            r.verdict, r.reason, r.reason_parts = res.verdict, res.reason[:500], res.reason_parts
+            r.verdict, r.reason, r.reason_parts = res.verdict, res.reason, res.reason_parts
     try:
         with transaction.atomic():
             wo = WorkOrder.objects.select_for_update().get(pk=parsed.work_order.pk)

@@ -9,7 +9,7 @@ import datetime as dt
 import pytest
 from django.core import mail
 
-from inspections.models import Evaluation, Finding, Reading
+from inspections.models import Evaluation, Finding, Inspection, Reading
 from scheduling.models import WorkOrder
 from tests.factories.inspections import FINISHED, component, make_visit, r, sync_form
 
@@ -608,3 +608,28 @@ def test_full_outdoor_air_unit_designed_below_the_requirement_is_a_design_review
     [f] = out["findings"]
     finding = Finding.objects.get(pk=f["id"])
     assert finding.kind == Finding.Kind.DESIGN_REVIEW and finding.corrective_work_order is None
+
+
+@pytest.mark.django_db
+def test_a_long_method_and_reason_are_stored_whole(api_client):
+    """A filter judgement with a forecast explains itself in more than 300 characters (the clean-to-final span,
+    the bypass bands, how the airflow was known, the forecast's method): the record keeps every word, so the
+    PDF's method note never ends mid-sentence ("… against run-hours, 90")."""
+    from inspections import evaluation
+    from inspections.services.findings import evaluations_store
+
+    wo, tech = make_visit(tasks=["filter_check"])
+    out = submit(
+        api_client,
+        wo,
+        tech,
+        [r("visit.run_hours", 1200), r("filter_check.dp", 160, component(wo.ahu, "Final filters"))],
+    )
+    insp = Inspection.objects.get(pk=out["inspection_id"])
+    long = evaluation.Result(check="filter_loading", item="filter_check.dp", verdict="ok")
+    long.method = "Δp × (Q_design/Q)^1.5 against the clean-to-final span; " + "forecast words " * 40 + "90 % interval"
+    long.reason = "filter at 56 % of its span; " + "more words " * 80 + "end of the reason"
+    evaluations_store(inspection=insp, results=[long])
+    stored = Evaluation.objects.filter(inspection=insp).order_by("-pk").first()
+    assert stored.method.endswith("90 % interval") and len(stored.method) > 600
+    assert stored.reason.endswith("end of the reason") and len(stored.reason) > 800

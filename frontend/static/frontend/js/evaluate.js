@@ -573,7 +573,7 @@ function filterChecks(form, consumed) {
       fraction_of_clean_pct: pyRound(loading.ofClean * 100, 1), media_bypass_suspected: loading.bypass,
     };
     const c = form.ctx.constants;
-    res.method = `Δp × (Q_design/Q)^${c.filter_exponent} against the clean-to-final span; below ${fixed(c.filter_bypass_fail_fraction * 100, 0)} % of clean fails, below ${fixed(c.filter_bypass_watch_fraction * 100, 0)} % watch (missing, torn or bypassed media; common practice); airflow ${how}`;
+    res.method = `Δp × (Q_design/Q)^${c.filter_exponent} against the clean-to-final span; below ${fixed(c.filter_bypass_fail_fraction * 100, 0)} % of clean fails, below ${fixed(c.filter_bypass_watch_fraction * 100, 0)} % watch (missing, torn or bypassed media; common practice); airflow: ${how}`;
     if (loading.bypass) {
       // A reading below clean says nothing about loading: no forecast from it.
       say(res, `${bank.name}: filter reads `, q(loading.corrected, "pressure"),
@@ -645,7 +645,7 @@ function filterChangeChecks(form, consumed) {
       clean_dp_pa: clean, fraction_of_clean_pct: pyRound(chk.ofClean * 100, 1), media_bypass_suspected: chk.bypass,
     };
     const pctOf = (x) => fixed(x * 100, 0);
-    res.method = `Δp × (Q_design/Q)^${c.filter_exponent} against the rated clean pressure drop: ok within ±${pctOf(tol)} %, fail below ${pctOf(c.filter_bypass_fail_fraction)} % or above ${pctOf(c.filter_after_change_high_fail)} % (common practice); airflow ${how}`;
+    res.method = `Δp × (Q_design/Q)^${c.filter_exponent} against the rated clean pressure drop: ok within ±${pctOf(tol)} %, fail below ${pctOf(c.filter_bypass_fail_fraction)} % or above ${pctOf(c.filter_after_change_high_fail)} % (common practice); airflow: ${how}`;
     const r = pyRound(chk.ofClean, 9);
     let what = "as rated";
     if (chk.bypass) what = "missing, torn or bypassed media";
