@@ -55,6 +55,16 @@ def technician_of(*, organisation_id: int, username: str) -> User | None:
     ).first()
 
 
+def technicians_of(*, organisation) -> list[User]:
+    """The organisation's active technicians by username: whom work can be assigned to and whose day is
+    planned (a deactivated person takes no new work)."""
+    return list(
+        User.objects.filter(
+            is_active=True, memberships__organisation=organisation, memberships__role=Role.TECHNICIAN
+        ).order_by("username")
+    )
+
+
 def primary_role(*, user: User) -> str | None:
     """The strongest role a person holds, used to pick their home page."""
     order = [Role.ADMIN, Role.SUPERVISOR, Role.TECHNICIAN, Role.PROPERTY_MANAGER]

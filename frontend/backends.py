@@ -7,6 +7,7 @@ it keeps working while that app changes.
 
 from __future__ import annotations
 
+from accounts.selectors import technicians_of  # noqa: F401
 from inventory.selectors import ahus_visible_to, label_lookup
 from scheduling.selectors import (  # noqa: F401
     assignment_check,

@@ -15,6 +15,7 @@ from django.utils import timezone
 
 from accounts.inputs import date_problem
 from accounts.models import Membership, Role
+from accounts.selectors import technicians_of
 from inventory.models import Site
 from inventory.selectors import sites_visible_to
 
@@ -385,12 +386,7 @@ def _day_load(*, day: dt.date, capacity: float, visits: list[tuple[int, int, tup
 
 
 def _technicians_of(organisation) -> list:
-    return [
-        m.user
-        for m in Membership.objects.filter(organisation=organisation, role=Role.TECHNICIAN)
-        .select_related("user")
-        .order_by("user__username")
-    ]
+    return technicians_of(organisation=organisation)
 
 
 Visit_ = tuple[int, int, tuple[float, float]]  # (task minutes, site id, site position) of one work order

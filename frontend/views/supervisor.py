@@ -16,7 +16,7 @@ from django.utils import timezone
 from django.views.decorators.http import require_POST
 
 from accounts.inputs import INT32_MAX, FieldErrors, check_integer, check_text, date_problem
-from accounts.models import Membership, Role
+from accounts.models import Role
 from accounts.selectors import organisations_where
 from inspections.selectors import corrective_work_already_resolved, reason_for
 from inventory import services as inventory_services
@@ -69,7 +69,7 @@ def _week_start(raw: str | None, *, today: dt.date) -> dt.date:
 
 
 def _technicians(org):
-    return [m.user for m in Membership.objects.filter(organisation=org, role=Role.TECHNICIAN).select_related("user")]
+    return backends.technicians_of(organisation=org)
 
 
 def version_seen(*, work_order: WorkOrder, raw) -> int:

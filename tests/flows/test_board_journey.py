@@ -154,3 +154,18 @@ def test_a_day_past_the_plan_window_is_refused_in_words_not_a_500(client, api_cl
     assert r.status_code == 400 and "scheduled_for" in r.json()["errors"], r.content
     visit.refresh_from_db()
     assert visit.assignee is None and visit.version == 1
+
+
+def test_a_deactivated_technician_is_neither_offered_nor_suggested(client, world, clock):
+    """Pia leaves the company: the admin deactivates her. The board's assignment lists, its load table and its
+    suggestions no longer name her; Tess and Omar stay."""
+    from accounts.models import User
+
+    User.objects.filter(pk=world.pia.pk).update(is_active=False)
+    client.force_login(world.supervisor)
+    page = client.get(reverse("frontend:board"))
+    assert page.status_code == 200
+    offered = {t.pk for t in page.context["technicians"]}
+    assert world.pia.pk not in offered and {world.tess.pk, world.omar.pk} <= offered
+    assert world.pia not in [r["technician"] for r in page.context["load"]]
+    assert "Pia Wire" not in page.content.decode()
