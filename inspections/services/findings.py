@@ -556,6 +556,7 @@ def _corrective_for_group(*, inspection, condition: str, findings: list[Finding]
             source_ref=source_ref,
             by=by,
             approved=urgent,
+            observed_on=inspection.finished_at.astimezone(zoneinfo.ZoneInfo(site.time_zone)).date(),
         )
     for finding in waiting:
         finding.corrective_work_order = wo

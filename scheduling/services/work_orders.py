@@ -314,8 +314,13 @@ def corrective_work_order_propose(
     source_ref: str = "",
     by=None,
     approved: bool = False,
+    observed_on: dt.date | None = None,
 ) -> WorkOrder:
     """Corrective work raised by a finding or a person.
+
+    Due on the day the fault was seen (``observed_on``, the visit's day on the site's clock; a form sent
+    days later from a phone that was offline does not postpone the repair), else today; its grace follows
+    its priority.
 
     Awaits a supervisor's approval unless ``approved``. With a ``condition_code``
     the library tasks raised by that condition (e.g. ``filter_loaded`` →
@@ -347,6 +352,7 @@ def corrective_work_order_propose(
         if existing is not None:
             return existing
     today = site_today(site=site)
+    due = min(observed_on, today) if observed_on is not None else today
     wo = WorkOrder(
         organisation=organisation,
         ahu=ahu,
@@ -357,8 +363,8 @@ def corrective_work_order_propose(
         reason=reason,
         condition_code=condition_code,
         source_ref=source_ref[:200],
-        due_date=today,
-        overdue_on=overdue_day(today, _grace(priority)),
+        due_date=due,
+        overdue_on=overdue_day(due, _grace(priority)),
         approval=WorkOrder.Approval.APPROVED if approved else WorkOrder.Approval.PENDING,
     )
     wo.full_clean()
@@ -378,7 +384,7 @@ def corrective_work_order_propose(
                         ahu=ahu,
                         component=target,
                         component_key=target.pk if target else 0,
-                        due_date=today,
+                        due_date=due,
                         occurrence_key=f"cond:{condition_code}:{wo.public_id.hex[:12]}",
                     )
                 )

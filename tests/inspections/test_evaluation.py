@@ -633,3 +633,17 @@ def test_a_long_method_and_reason_are_stored_whole(api_client):
     stored = Evaluation.objects.filter(inspection=insp).order_by("-pk").first()
     assert stored.method.endswith("90 % interval") and len(stored.method) > 600
     assert stored.reason.endswith("end of the reason") and len(stored.reason) > 800
+
+
+@pytest.mark.django_db
+def test_corrective_work_is_due_on_the_day_the_fault_was_seen(api_client):
+    """A form that failed on 3 March reaches the server on 10 March (the phone was offline a week): its
+    corrective work is due 3 March, not 10 March, so it reads overdue once its grace has run."""
+    import time_machine
+
+    wo, tech = make_visit(tasks=["filter_check"])
+    bank = component(wo.ahu, "Final filters")
+    with time_machine.travel(FINISHED + dt.timedelta(days=7), tick=False):
+        submit(api_client, wo, tech, [r("visit.run_hours", 1200), r("filter_check.dp", 400, bank)])
+    [finding] = Finding.objects.filter(ahu=wo.ahu, component=bank)
+    assert finding.corrective_work_order.due_date == FINISHED.date()
