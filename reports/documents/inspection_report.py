@@ -8,7 +8,8 @@ a one-line result counts the verdicts and findings and, where the visit tested f
 protection, gives the unit's readiness. Each reading appears once, in one table by
 part, with the band it was judged against and only what its judgement adds; methods
 are numbered notes. Then findings and their corrective work, photos, the signature,
-verification, amendments and the safety cautions, each once.
+verification and amendments, each once; the safety cautions the technician acknowledged come once, right after
+the first result, so they never stand alone on a last page.
 """
 
 from __future__ import annotations
@@ -24,6 +25,7 @@ from django.http import Http404
 from django.utils.safestring import SafeString, mark_safe
 
 from accounts.clock import time_zone
+from accounts.models import AuditEvent
 from inspections import checklists, display, reasons
 from inspections.display import VERDICT_WORDS
 from inspections.freeze import TEMPLATE as FREEZE_TEMPLATE
@@ -136,6 +138,7 @@ def visit_records(
         api_keys={e.item_key for i in inspections for e in i.evaluations.all()}
         | {ph.item_key for i in inspections for ph in i.photos.all() if ph.item_key}
     )
+    work_order_verification = _work_order_verification(work_order)
     for insp in inspections:
         visit_day = insp.finished_at.astimezone(zone).date() if insp.finished_at else None
         groups: dict[str, list] = {}
@@ -183,10 +186,39 @@ def visit_records(
                     {"p": ph, "src": photo_src(ph), "label": labels.get(ph.item_key, "")} for ph in insp.photos.all()
                 ],
                 "signature": signature_src(insp),
+                "verification": _verification(insp, work_order_verification),
                 "amendments": [{"a": a, "changes": _changes(a, system)} for a in insp.amendments.all()],
             }
         )
     return visits, components, template_cautions
+
+
+def _work_order_verification(work_order: WorkOrder) -> dict | None:
+    """Who verified the work order and when: its own time, and the person from its audit trail (the work order
+    keeps no person of its own)."""
+    if work_order.verified_at is None:
+        return None
+    event = (
+        AuditEvent.objects.filter(
+            object_type=WorkOrder._meta.label_lower,
+            object_id=str(work_order.pk),
+            action="transition",
+            changes__to=WorkOrder.State.VERIFIED,
+        )
+        .select_related("actor")
+        .order_by("-at", "-pk")
+        .first()
+    )
+    by = event.actor if event is not None and event.actor is not None else None
+    return {"by": str(by) if by is not None else "", "at": work_order.verified_at}
+
+
+def _verification(insp: Inspection, work_order_verification: dict | None) -> dict | None:
+    """One verification per record: the inspection's own when a supervisor verified the form, otherwise the work
+    order's (verified from the board or the API), so the header's state and the sign-off never disagree."""
+    if insp.verified_at is not None:
+        return {"by": str(insp.verified_by) if insp.verified_by_id else "", "at": insp.verified_at}
+    return work_order_verification
 
 
 # ---------------------------------------------------------------------------
@@ -247,26 +279,67 @@ _LIMIT_KEYS = (
     ("final_dp_pa", "final", "pressure"),
     ("setpoint_c", "set point", "temperature"),
     ("setpoint_pa", "set point", "pressure"),
-    ("required_outdoor_airflow_m3s", "needs", "airflow"),
+    ("required_outdoor_airflow_m3s", "space needs", "airflow"),
 )
 
+# The bands a judgement states in its reason, in brackets ("… (watch above 5 points, fail above 10 points)",
+# "(water side higher; ok within 10 %, watch within 20 %)"): these go to the "Limit" column.
+_REASON_BAND = re.compile(r" ?\((?:(?P<lead>[^()]*?); )?(?P<band>(?:ok|watch|fail) [^()]*)\)")
 
-def _limit(evaluation, quantity: str, system: str) -> str:
-    """The band a reading was judged against, in the reader's units ("" when its judgement names none)."""
+
+def _band_from_reason(reason: str) -> tuple[str, str]:
+    """(the bands the reason states in brackets, the reason without them); ("", reason) when it states none."""
+    found = list(_REASON_BAND.finditer(reason))
+    if not found:
+        return "", reason
+    bands = "; ".join(m.group("band") for m in found)
+    rest = _REASON_BAND.sub(lambda m: f" ({m.group('lead')})" if m.group("lead") else "", reason)
+    return bands, rest
+
+
+def _number(value) -> bool:
+    return isinstance(value, int | float) and not isinstance(value, bool)
+
+
+def _limit(evaluation, quantity: str, system: str, decimals: int | None = None) -> str:
+    """The band(s) a reading was judged against, in the reader's units, as its reason names them ("" when its
+    judgement names none): the ok band and, where it has one, the watch band ("ok −6.0 to −4.0 °C; watch −7.0 to
+    −3.0 °C"); for outdoor air the space's requirement beside the unit's design minimum."""
     if evaluation is None:
         return ""
     derived = evaluation.derived or {}
     low, high = derived.get("ok_min"), derived.get("ok_max")
     if quantity and (low is not None or high is not None):
-        return reasons.render([reasons.span(low, high, quantity)], system)
+        ok = reasons.render([reasons.span(low, high, quantity, decimals)], system)
+        w_low = derived.get("watch_min") if derived.get("watch_min") is not None else low
+        w_high = derived.get("watch_max") if derived.get("watch_max") is not None else high
+        if (w_low, w_high) == (low, high):
+            return ok
+        watch = reasons.render([reasons.span(w_low, w_high, quantity, decimals)], system)
+        return f"ok {ok}; watch {watch}"
     fraction = derived.get("design_min_oa_fraction")
-    if isinstance(fraction, int | float) and not isinstance(fraction, bool):
-        return f"design minimum {fraction * 100:.0f} % outdoor air"
+    if _number(fraction):
+        design = f"design minimum {fraction * 100:.0f} %"
+        required, supply = derived.get("required_outdoor_airflow_m3s"), derived.get("supply_airflow_m3s")
+        if _number(required) and _number(supply) and supply > 0:
+            # The same share the judgement compares with (inspections.evaluation: required ÷ supply, at most all).
+            return f"space needs {min(required / supply, 1.0) * 100:.0f} %; {design}"
+        return f"{design} outdoor air"
     for key, words, qty in _LIMIT_KEYS:
         value = derived.get(key)
-        if isinstance(value, int | float) and not isinstance(value, bool):
+        if _number(value):
             return f"{words} {reasons.render([reasons.q(value, qty)], system)}"
     return ""
+
+
+def _row_limit(evaluation, quantity: str, system: str, reason: str, decimals: int | None = None) -> tuple[str, str]:
+    """(the limit column, the reason left to say below the row): the band from the judgement's values, and the
+    bands its reason states in brackets (moved to the column, so the row says each band once)."""
+    limit = _limit(evaluation, quantity, system, decimals)
+    band, rest = _band_from_reason(reason)
+    if not band:
+        return limit, reason
+    return (f"{limit}; {band}" if limit else band), rest
 
 
 def _says_nothing_more(reason: str, label: str, value: str, verdict_code: str) -> bool:
@@ -346,12 +419,12 @@ def _parts(insp: Inspection, evaluations: list[dict], system: str) -> tuple[list
         judged = by_key.pop((item.api_key, r.component_id), [])
         value = reading_value(r, system)
         main = next((ev for ev in judged if ev["e"].verdict == r.verdict), judged[0] if judged else None)
-        limit = _limit(main["e"] if main else None, item.quantity, system)
         reason = reasons.text_without_subject(
             reason_for(evaluation=r, unit_system=system), r.component.name if r.component_id else None
         )
         if main is not None:
             reason = main["reason"] or reason
+        limit, reason = _row_limit(main["e"] if main else None, item.quantity, system, reason, item.decimals)
         shown_reason = "" if _says_nothing_more(reason, item.label, value, r.verdict) else reason
         already = " ".join([value, limit, reason, *(ev["e"].method for ev in judged)])
         details = [d for ev in judged for d in _details(ev["derived"], already=already, readings=values)]
@@ -373,17 +446,18 @@ def _parts(insp: Inspection, evaluations: list[dict], system: str) -> tuple[list
     for judged in by_key.values():
         for ev in judged:
             e = ev["e"]
+            limit, reason = _row_limit(e, "", system, ev["reason"])
             code = e.item_key.partition(".")[0]
             title = template_titles.get(code, ev["check"])
             group_for(e.component if e.component_id else None, title, code)["rows"].append(
                 {
                     "check": ev["check"],
                     "value": "—",
-                    "limit": _limit(e, "", system),
+                    "limit": limit,
                     "verdict": ev["verdict"],
                     "verdict_code": e.verdict,
-                    "reason": ev["reason"],
-                    "details": _details(ev["derived"], already=f"{ev['reason']} {e.method}", readings=values),
+                    "reason": reason,
+                    "details": _details(ev["derived"], already=f"{ev['reason']} {limit} {e.method}", readings=values),
                     "note": "",
                     "improbable": False,
                     "methods": [n for n in [method_number(e.method)] if n],

@@ -172,6 +172,9 @@ def test_a_typical_visit_is_a_compact_legible_record(monthly_visit, org, make_re
     # The pre-filters' finding with its corrective work, the photos captioned, the signature, safety once.
     assert "Replace filters" in flat or "Filter" in flat
     assert flat.count("take precedence") == 1 and flat.count("Lock out and tag out") == 1
+    # Safety is what the technician acknowledged: after the result, before the readings and the sign-off, so a
+    # page never holds the safety box alone.
+    assert flat.index("Result") < flat.index("Safety") < flat.index("Readings") < flat.index("Sign-off")
     assert "Photo 1" in flat and "Photo 2" in flat
     # No internal names: stored keys, dotted paths, Python's None or NaN.
     url_free = flat.replace(label_absolute_url(code=ahu.label_code), "")

@@ -218,3 +218,26 @@ def test_each_caution_once_in_the_safety_box(visit, supervisor, make_report):
     assert flat.count("take precedence") == 1
     assert flat.count("Lock out and tag out") == 1
     assert flat.count("eye and hand protection") == 1
+
+
+def test_a_work_order_verified_by_its_service_reads_verified_in_the_sign_off(visit, supervisor, make_report, client):
+    """Verified from the work order (not the form): the header's state and the sign-off tell one verification,
+    with its person and time, in the PDF and on the work order's page; nowhere "not yet verified"."""
+    import time_machine
+
+    from scheduling.services import work_order_verify
+
+    assert visit.state == WorkOrder.State.COMPLETED
+    with time_machine.travel("2025-03-12 14:30:00+00:00", tick=False):
+        work_order_verify(work_order=visit, by=supervisor)
+    report = make_report(user=supervisor, kind="inspection", parameters={"work_order": str(visit.public_id)})
+    text = " ".join(pdf_text(report).split())
+    # 14:30 UTC is 15:30 in Amsterdam in March (UTC+1, IANA tz database), the site's clock
+    assert f"verified by {supervisor}, 12 Mar 2025 15:30" in text
+    assert "not yet verified" not in text.lower()
+
+    # The work order's page shows the same record with the same verification.
+    client.force_login(supervisor)
+    page = " ".join(client.get(f"/w/{visit.public_id}/").content.decode().split())
+    assert f"Verified by {supervisor} on 12 Mar 2025 15:30" in page
+    assert "Not yet verified" not in page
