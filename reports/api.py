@@ -34,7 +34,9 @@ class ReportInput(serializers.Serializer):
             "Readings are shown in unit_system (si | us), by default the requester's own."
         ),
     )
-    pdfa = serializers.BooleanField(required=False, default=False, help_text="Archival PDF/A (inspection, compliance).")
+    pdfa = serializers.BooleanField(
+        required=False, default=False, help_text="Archival PDF/A (inspection, compliance, unit history)."
+    )
 
 
 class ReportOutput(serializers.ModelSerializer):

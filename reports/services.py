@@ -18,8 +18,8 @@ from .rendering import pdf_render
 
 logger = logging.getLogger(__name__)
 
-# Archival PDF/A is offered where the record is kept for years.
-PDFA_KINDS = {Report.Kind.INSPECTION, Report.Kind.COMPLIANCE}
+# Archival PDF/A is offered where the record is kept for years (a unit's history by its insurer too).
+PDFA_KINDS = {Report.Kind.INSPECTION, Report.Kind.COMPLIANCE, Report.Kind.UNIT_HISTORY}
 
 
 @transaction.atomic

@@ -33,7 +33,7 @@ def _images(pdf: bytes) -> int:
 @pytest.fixture
 def records(visit, estate, supervisor, make_report):  # noqa: F811 — the imported fixtures
     """One record of each kind, from a visit with a photo, a drawn signature and a finding, and a site with
-    a filter chart; archival ones (inspection, compliance) also as PDF/A."""
+    a filter chart; archival ones (inspection, compliance, unit history) also as PDF/A."""
     unit = visit.ahu
     asks = {
         "inspection": {"work_order": str(visit.public_id)},
@@ -44,7 +44,7 @@ def records(visit, estate, supervisor, make_report):  # noqa: F811 — the impor
     out = {}
     for kind, parameters in asks.items():
         out[kind] = pdf_bytes(make_report(user=supervisor, kind=kind, parameters=parameters))
-        if kind in ("inspection", "compliance"):
+        if kind in ("inspection", "compliance", "unit_history"):
             out[f"{kind} (PDF/A)"] = pdf_bytes(
                 make_report(user=supervisor, kind=kind, parameters=parameters, pdfa=True)
             )
