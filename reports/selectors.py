@@ -16,6 +16,7 @@ from inventory.selectors import sites_visible_to
 
 from .documents import period_text
 from .models import Report
+from .rendering import paper_for
 
 
 def report_visible(*, user: User, report: Report) -> bool:
@@ -150,8 +151,29 @@ def reports_covers(*, reports: Iterable[Report]) -> dict[int, str]:
             parts = [f"Labels of {' and '.join(counted) or 'nothing'}", site_names(r.site_ids)]
         else:
             parts = [site_names(r.site_ids)]
+        parts.append(report_format_text(report=r))
         out[r.pk] = " · ".join(part for part in parts if part)
     return out
+
+
+PAPER_WORDS = {"A4": "A4", "letter": "Letter"}
+
+
+def report_format_text(*, report: Report) -> str:
+    """ "SI units, A4, archival PDF/A": how the report reads and prints, so two reports of the same work order
+    in SI and US units tell apart. The paper is the one the document is laid out on (``paper_for`` the units;
+    a label sheet's own layout); a report stored without units says only its paper."""
+    p = report.parameters if isinstance(report.parameters, dict) else {}
+    words = []
+    system = p.get("unit_system")
+    if report.kind == Report.Kind.LABELS:
+        layout = str(p.get("layout") or "a4-3x8")
+        words.append("Letter" if layout.startswith("letter") else "A4")
+    elif system in ("si", "us"):
+        words += [f"{system.upper()} units", PAPER_WORDS.get(paper_for(system), paper_for(system))]
+    if report.pdfa:
+        words.append("archival PDF/A")
+    return ", ".join(words)
 
 
 def report_covers(*, report: Report) -> str:

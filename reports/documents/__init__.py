@@ -16,7 +16,7 @@ from django.http import Http404
 from django.utils import timezone
 
 from accounts.clock import local_date_of
-from accounts.inputs import date_problem
+from accounts.inputs import date_window
 
 MAX_ID = 2**63 - 1  # the database's largest key; bigger numbers cannot name a row
 
@@ -35,6 +35,46 @@ class Built:
     extra: dict[str, Any] = field(default_factory=dict)
 
 
+# The words of the forms' fields: a message names the field as the person sees it, while the API keeps the
+# parameter's name as the key of its error.
+LABELS = {
+    "start": "From",
+    "end": "To",
+    "unit": "Unit",
+    "units": "Units",
+    "site": "Site",
+    "sites": "Sites",
+    "work_order": "Work order",
+    "components": "Parts",
+    "layout": "Paper",
+    "pdfa": "Archival PDF/A",
+}
+
+
+def label_of(name: str) -> str:
+    return LABELS.get(name, name.replace("_", " ").capitalize())
+
+
+def shown(value: Any, limit: int = 40) -> str:
+    """A typed value as it may be written back in a message: quoted, cut at ``limit`` characters, control
+    characters (NUL, escape) spelled out so they neither vanish nor act."""
+    text = ", ".join(map(str, value)) if isinstance(value, list) else str(value)
+    cut = text[:limit] + ("…" if len(text) > limit else "")
+    visible = "".join(c if c.isprintable() else f"\\x{ord(c):02x}" for c in cut)
+    return f"“{visible}”"
+
+
+class NotVisible(Http404):
+    """404 for a site, unit or work order the person may not see (absent and foreign look alike). Its text is
+    the API's ("units: no unit with id 2 among those you may see"); ``field`` and ``message`` let a page say it
+    beside that field in the form's words ("Units: no such unit among those you may see (id 2)")."""
+
+    def __init__(self, field_name: str, message: str, api_text: str | None = None):
+        super().__init__(api_text or message)
+        self.field = field_name
+        self.message = message
+
+
 def id_list(parameters: dict, name: str, *, required: bool = False) -> list[int]:
     """A sorted, de-duplicated list of positive integer ids from ``parameters[name]``."""
     raw = parameters.get(name, [])
@@ -43,44 +83,68 @@ def id_list(parameters: dict, name: str, *, required: bool = False) -> list[int]
     if not isinstance(raw, list) or not all(
         isinstance(x, int) and not isinstance(x, bool) and 0 < x <= MAX_ID for x in raw
     ):
-        raise ValidationError({name: f"{name}={raw!r}: expected a list of ids (positive whole numbers)"})
+        raise ValidationError(
+            {name: f"{label_of(name)}: {shown(raw)} is not a list of ids; allowed: whole numbers from 1"}
+        )
     if required and not raw:
-        raise ValidationError({name: f"{name}: give at least one id"})
+        raise ValidationError({name: f"{label_of(name)}: none given; choose at least one"})
     return sorted(set(raw))
 
 
 def one_id(parameters: dict, name: str) -> int:
     raw = parameters.get(name)
     if not isinstance(raw, int) or isinstance(raw, bool) or not 0 < raw <= MAX_ID:
-        raise ValidationError({name: f"{name}={raw!r}: expected the id (a positive whole number)"})
+        what = label_of(name).lower()
+        raise ValidationError(
+            {name: f"{label_of(name)}: {shown(raw)} is not a {what} id; allowed: a whole number from 1"}
+        )
     return raw
 
 
 def a_date(parameters: dict, name: str, default: date | None = None) -> date:
+    label = label_of(name)
     raw = parameters.get(name)
     if raw in (None, ""):
         if default is None:
-            raise ValidationError({name: f"{name}: a date (YYYY-MM-DD) is required"})
+            raise ValidationError({name: f"{label}: a date is required"})
         return default
     try:
         day = date.fromisoformat(str(raw)[:20])
     except ValueError:
-        raise ValidationError({name: f"{name}={str(raw)[:40]!r}: expected a date as YYYY-MM-DD"})
+        raise ValidationError({name: f"{label}: {shown(raw)} is not a date; allowed: a day such as 2026-01-31"})
     # The input policy's window (2000 to ten years ahead): a report of year 9999 is a typo, and its date sums
     # would run past the calendar.
-    problem = date_problem(day, label=f"Report {name}", today=timezone.localdate())
-    if problem:
-        raise ValidationError({name: problem})
+    earliest, latest = date_window(today=timezone.localdate())
+    if not earliest <= day <= latest:
+        raise ValidationError(
+            {
+                name: f"{label}: {local_date_of(day)} is outside the days allowed, "
+                f"{local_date_of(earliest)} to {local_date_of(latest)}"
+            }
+        )
     return day
 
 
-def period(parameters: dict, *, default_start: date, default_end: date) -> tuple[date, date]:
+def period(parameters: dict, *, default_start: date, default_end: date, today: date | None = None) -> tuple[date, date]:
+    """The report's From and To days. A period may not end after ``today`` (by default ``default_end``, which
+    the documents set to the day of the request): a report of days not yet lived would claim figures for them,
+    so such a period is refused with a message naming today rather than clipped silently."""
+    today = default_end if today is None else today
     start = a_date(parameters, "start", default_start)
     end = a_date(parameters, "end", default_end)
     if end < start:
-        raise ValidationError({"end": f"end={end.isoformat()} is before start={start.isoformat()}"})
+        raise ValidationError({"end": f"To: {local_date_of(end)} is before From: {local_date_of(start)}"})
+    if end > today:
+        raise ValidationError(
+            {
+                "end": f"To: {local_date_of(end)} is after today ({local_date_of(today)}); "
+                "a report covers days up to today"
+            }
+        )
     if (end - start).days > 3 * 366:
-        raise ValidationError({"end": f"the period {start}–{end} is longer than the 3 years allowed"})
+        raise ValidationError(
+            {"end": f"To: the period {local_date_of(start)} – {local_date_of(end)} is longer than the 3 years allowed"}
+        )
     return start, end
 
 
@@ -98,7 +162,12 @@ def refuse_missing(name: str, asked: list[int], found: set[int], what: str) -> N
     """404 naming the ids that do not exist *for this person* (other tenants' ids look the same as absent ones)."""
     missing = [i for i in asked if i not in found]
     if missing:
-        raise Http404(f"{name}: no {what} with id {', '.join(map(str, missing))} among those you may see")
+        ids = ", ".join(map(str, missing))
+        raise NotVisible(
+            name,
+            f"{label_of(name)}: no such {what} among those you may see (id {ids})",
+            f"{name}: no {what} with id {ids} among those you may see",
+        )
 
 
 def single_organisation(org_ids: set[int], name: str) -> int:
