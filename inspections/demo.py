@@ -251,15 +251,9 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                 )
             for b in banks:
                 clean, final = b.specs["clean_dp_pa"], b.specs["final_dp_pa"]
-                if b.pk in change_due:
-                    loading[b.pk] = 0.0
-                    after = round(clean * rng.uniform(0.98, 1.08) * _part_load(b, ahu, airflow))
-                    readings += [
-                        {"item": "filter_replace.replaced", "component": b.label_code, "value": "ok"},
-                        {"item": "filter_replace.dp_after", "component": b.label_code, "value": after},
-                    ]
-                else:
-                    loading[b.pk] += rate[b.pk] * HOURS_PER_DAY * VISIT_DAYS
+                # The filter check reads the filters as found: at a changing visit, the loaded ones about to
+                # come out (the evidence for the change); the reading after the change is the new set's first.
+                loading[b.pk] += rate[b.pk] * HOURS_PER_DAY * VISIT_DAYS
                 dp = (clean + loading[b.pk] * (final - clean) + rng.uniform(-3, 3)) * _part_load(b, ahu, airflow)
                 readings += [
                     {
@@ -275,6 +269,13 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                         "value": "clean" if loading[b.pk] < 0.2 else "loaded",
                     },
                 ]
+                if b.pk in change_due:
+                    loading[b.pk] = 0.0
+                    after = round(clean * rng.uniform(0.98, 1.08) * _part_load(b, ahu, airflow))
+                    readings += [
+                        {"item": "filter_replace.replaced", "component": b.label_code, "value": "ok"},
+                        {"item": "filter_replace.dp_after", "component": b.label_code, "value": after},
+                    ]
             change_due = {b.pk for b in banks if loading[b.pk] > 0.85}
             t_out = _outdoor_c(site, due, rng)
             t_ret = round(22 + rng.uniform(-1, 1), 1)

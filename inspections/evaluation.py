@@ -269,6 +269,19 @@ def _filter_derived(*, dp: float, q: float, q_how: str, design_q: float, clean: 
     }
 
 
+def _no_forecast_words(exc: EngineeringInputError) -> str:
+    """Why a filter bank has no change date, in plain words (the refusal of ``filters.filter_forecast``)."""
+    if exc.allowed == "a rising pressure drop":
+        return "; the trend gives no change date (pressure drop not rising)"
+    if exc.allowed == "at least 3 usable readings":
+        n = exc.value
+        return (
+            f"; no change forecast yet: {n} reading{'' if n == 1 else 's'} of the filters now fitted, "
+            "a forecast needs at least 3"
+        )
+    return "; no change forecast yet"
+
+
 def _filter_checks(form: Form, consumed: set) -> list[Result]:
     out = []
     q, q_how = supply_airflow(form)
@@ -335,7 +348,12 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
             continue
         forecast_text = ""
         hours = form.num("visit.run_hours")
-        if hours is not None:
+        if form.text("filter_replace.replaced", bank) == "ok":
+            # Read before the change: the removed filters' state, the evidence for the change. They are gone,
+            # so no forecast for them; the new filters' forecast starts from the reading after the change.
+            forecast_text = "; the reading before the change: these filters were replaced on this visit"
+            res.derived["replaced_on_visit"] = True
+        elif hours is not None:
             points = [
                 *form.filter_points(bank),
                 FilterPoint(run_hours=hours, dp_pa=dp, airflow_m3s=q, when=form.finished_at.date()),
@@ -345,11 +363,7 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
                     points=points, design_airflow_m3s=design_q, final_dp_pa=specs["final_dp_pa"]
                 )
             except EngineeringInputError as exc:
-                forecast_text = (
-                    "; the trend gives no change date (pressure drop not rising)"
-                    if exc.allowed == "a rising pressure drop"
-                    else "; no change forecast yet"
-                )
+                forecast_text = _no_forecast_words(exc)
                 res.derived["forecast_note"] = str(exc)
             else:
                 res.derived.update(
@@ -369,7 +383,7 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
                     if fc.at_final_now
                     else f"; change forecast {_fmt_date(fc.date_at_final)}"
                 )
-        if round(loading.fraction_of_span, 9) >= 1.0:
+        if round(loading.fraction_of_span, 9) >= 1.0 and not res.derived.get("replaced_on_visit"):
             # At or over the final value: change now, never a date ahead or "no date".
             forecast_text = "; at or over its final pressure drop: change now"
             res.derived["forecast_at_final_now"] = True
@@ -431,9 +445,26 @@ def _filter_change_checks(form: Form, consumed: set) -> list[Result]:
             qty(clean, "pressure"),
             f": {what} (ok within ±{tol * 100:.0f} %, fail below {filters.BYPASS_FAIL_FRACTION * 100:.0f} % "
             f"or above {filters.AFTER_CHANGE_HIGH_FAIL * 100:.0f} %)",
+            _after_change_forecast(form, res, bank=bank, dp=dp, q=q, design_q=design_q),
         )
         out.append(res)
     return out
+
+
+def _after_change_forecast(form: Form, res: Result, *, bank, dp: float, q: float, design_q: float) -> str:
+    """The new filters' forecast on the visit that fitted them: their only reading is the one after the
+    change, so the words say how many readings there are (never a date from the removed filters')."""
+    final = bank.specs.get("final_dp_pa")
+    hours = form.num("visit.run_hours")
+    if final is None or hours is None:
+        return ""
+    point = FilterPoint(run_hours=hours, dp_pa=dp, airflow_m3s=q, when=form.finished_at.date())
+    try:
+        filters.filter_forecast(points=[point], design_airflow_m3s=design_q, final_dp_pa=final)
+    except EngineeringInputError as exc:
+        res.derived["forecast_note"] = str(exc)
+        return _no_forecast_words(exc)
+    return ""
 
 
 def ventilation_requirement(ahu) -> ventilation.OutdoorAirIntake | None:

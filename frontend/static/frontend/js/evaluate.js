@@ -278,7 +278,9 @@ export function filterForecast(ctx, { points, qd, final, confidence = 0.9, minRi
     usable.push([h, dp, p.when]);
   });
   if (usable.length < 3) {
-    throw new EngineeringInputError("points", `a filter forecast needs at least 3 usable readings (airflow within 0.5–1.5 × design); got ${usable.length}`);
+    const err = new EngineeringInputError("points", `a filter forecast needs at least 3 usable readings (airflow within 0.5–1.5 × design); got ${usable.length}`, { low: 3 });
+    err.tooFew = usable.length;
+    throw err;
   }
   const hours = usable.map((u) => u[0]);
   if (new Set(hours).size < 2) throw new EngineeringInputError("points", "all readings are at the same run-hours: no trend can be drawn");
@@ -541,6 +543,31 @@ function fmtDate(iso) {
   return `${d.getUTCDate()} ${d.toLocaleString("en-GB", { month: "long", timeZone: "UTC" })} ${d.getUTCFullYear()}`;
 }
 
+function noForecastWords(exc) {
+  // Why a bank has no change date, in plain words (as inspections.evaluation._no_forecast_words).
+  if (exc.notRising) return "; the trend gives no change date (pressure drop not rising)";
+  if (exc.tooFew !== undefined) {
+    const n = exc.tooFew;
+    return `; no change forecast yet: ${n} reading${n === 1 ? "" : "s"} of the filters now fitted, a forecast needs at least ${exc.low}`;
+  }
+  return "; no change forecast yet";
+}
+
+function afterChangeForecast(form, res, { bank, dp, flow, qd }) {
+  // The new filters' only reading is the one after the change: never a date from the removed filters'.
+  const final = bank.specs.final_dp_pa;
+  const hours = form.num("visit.run_hours");
+  if (final === undefined || final === null || hours === null) return "";
+  try {
+    filterForecast(form.ctx, { points: [{ run_hours: hours, dp_pa: dp, airflow_m3s: flow, when: form.finishedOn }], qd, final });
+  } catch (exc) {
+    if (!(exc instanceof EngineeringInputError)) throw exc;
+    res.derived.forecast_note = exc.message;
+    return noForecastWords(exc);
+  }
+  return "";
+}
+
 function filterChecks(form, consumed) {
   const out = [];
   const [flow, how] = supplyAirflow(form);
@@ -585,7 +612,11 @@ function filterChecks(form, consumed) {
     }
     let forecastText = "";
     const hours = form.num("visit.run_hours");
-    if (hours !== null) {
+    if (form.text("filter_replace.replaced", bank) === "ok") {
+      // Read before the change: the removed filters' state, the evidence for the change (as inspections.evaluation).
+      forecastText = "; the reading before the change: these filters were replaced on this visit";
+      res.derived.replaced_on_visit = true;
+    } else if (hours !== null) {
       const points = [...(form.ctx.filter_points[bank.code] || []), { run_hours: hours, dp_pa: dp, airflow_m3s: flow, when: form.finishedOn }];
       try {
         const fc = filterForecast(form.ctx, { points, qd, final: specs.final_dp_pa });
@@ -600,11 +631,11 @@ function filterChecks(form, consumed) {
           : `; change forecast ${fmtDate(fc.dateAtFinal)}`;
       } catch (exc) {
         if (!(exc instanceof EngineeringInputError)) throw exc;
-        forecastText = exc.notRising ? "; the trend gives no change date (pressure drop not rising)" : "; no change forecast yet";
+        forecastText = noForecastWords(exc);
         res.derived.forecast_note = exc.message;
       }
     }
-    if (pyRound(loading.fraction, 9) >= 1.0) {
+    if (pyRound(loading.fraction, 9) >= 1.0 && !res.derived.replaced_on_visit) {
       // At or over the final value: change now, never a date ahead or "no date" (as inspections.evaluation).
       forecastText = "; at or over its final pressure drop: change now";
       res.derived.forecast_at_final_now = true;
@@ -653,7 +684,8 @@ function filterChangeChecks(form, consumed) {
     else if (r > 1 + tol) what = "higher than a new filter should read, check the class and size fitted and the gauge lines";
     say(res, `${bank.name}: after the change the filter reads `, q(chk.corrected, "pressure"),
       ` at design airflow, ${pctOf(chk.ofClean)} % of its rated clean pressure drop `, q(clean, "pressure"),
-      `: ${what} (ok within ±${pctOf(tol)} %, fail below ${pctOf(c.filter_bypass_fail_fraction)} % or above ${pctOf(c.filter_after_change_high_fail)} %)`);
+      `: ${what} (ok within ±${pctOf(tol)} %, fail below ${pctOf(c.filter_bypass_fail_fraction)} % or above ${pctOf(c.filter_after_change_high_fail)} %)`,
+      afterChangeForecast(form, res, { bank, dp, flow, qd }));
     out.push(res);
   }
   return out;
