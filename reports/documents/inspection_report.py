@@ -215,10 +215,12 @@ def _work_order_verification(work_order: WorkOrder) -> dict | None:
 
 def _verification(insp: Inspection, work_order_verification: dict | None) -> dict | None:
     """One verification per record: the inspection's own when a supervisor verified the form, otherwise the work
-    order's (verified from the board or the API), so the header's state and the sign-off never disagree."""
+    order's (verified from the board or the API) for the form that completed it, so the header's state and the
+    sign-off never disagree."""
     if insp.verified_at is not None:
         return {"by": str(insp.verified_by) if insp.verified_by_id else "", "at": insp.verified_at}
-    return work_order_verification
+    # A form sent after the work was done (kept and flagged) is not the record the work order's verification covers.
+    return work_order_verification if insp.work_order_completed else None
 
 
 # ---------------------------------------------------------------------------
@@ -356,8 +358,14 @@ def _says_nothing_more(reason: str, label: str, value: str, verdict_code: str) -
     return verdict_code == "ok" and " is within " in reason
 
 
-# Derived values a judgement's reason already states in its own words (the loading as "120 % of its span").
-_SAID_BY_REASON = {"loading between clean and final": "of its span"}
+# A derived value is left out where the reason says it in a technician's words: the loading as "120 % of its
+# span", the share of clean as "188 % of its rated clean pressure drop", a missing forecast as "no change
+# forecast yet: 2 readings of the filters now fitted, a forecast needs at least 3".
+_SAID_BY_REASON = {
+    "loading between clean and final": ("of its span",),
+    "pressure drop against a clean filter": ("of its clean pressure drop", "of its rated clean pressure drop"),
+    "no forecast": ("no change forecast", "no change date"),
+}
 
 
 def _details(rows: list[tuple[str, str]], *, already: str, readings: set[str]) -> list[str]:
@@ -369,7 +377,7 @@ def _details(rows: list[tuple[str, str]], *, already: str, readings: set[str]) -
         telling = len(said) > 5 or (" " in said and any(c.isdigit() for c in said))
         if value in readings or (telling and said in already) or f"{label} {value}" in already:
             continue
-        if (cue := _SAID_BY_REASON.get(label)) and cue in already:
+        if any(cue in already for cue in _SAID_BY_REASON.get(label, ())):
             continue
         out.append(f"{label}: {value}")
     return out

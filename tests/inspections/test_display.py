@@ -120,4 +120,4 @@ def test_loading_rate_and_air_density_read_in_the_readers_units_at_their_own_pre
     """The two derived values the reasons never carry (a filter's loading rate, the coil's air density) read
     through the same number formatting as the reasons, at finer precision than their quantities' usual."""
     rows = dict(display.derived_rows({"rate_pa_per_hour": 0.04, "air_density_kg_m3": 1.1644}, system))
-    assert rows == {"loading rate": rate, "air density": density}
+    assert rows == {"pressure drop rising by": rate, "air density": density}
