@@ -132,7 +132,6 @@ DERIVED_FLAGS = {
     "media_bypass_suspected": ("filter media", "missing, torn or bypassed suspected"),
     "design_shortfall": ("design", "the space needs more outdoor air than the unit's design minimum"),
     "forecast_at_final_now": ("change forecast", "now: at or over its final pressure drop"),
-    "replaced_on_visit": ("filters", "replaced on this visit: the reading before the change"),
 }
 # The reading against its band: the reason already states the value and the band.
 DERIVED_HIDDEN = {
@@ -145,6 +144,7 @@ DERIVED_HIDDEN = {
     "plausible_max",
     "physical_min",
     "physical_max",
+    "replaced_on_visit",  # the filter reason already says the reading is the one before the change
 }
 
 # Sensor drift by the sensor the item names: (quantity of the readings, quantity of their difference).
