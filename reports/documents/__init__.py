@@ -126,19 +126,19 @@ def a_date(parameters: dict, name: str, default: date | None = None) -> date:
 
 
 def period(parameters: dict, *, default_start: date, default_end: date, today: date | None = None) -> tuple[date, date]:
-    """The report's From and To days. A period may not end after ``today`` (by default ``default_end``, which
-    the documents set to the day of the request): a report of days not yet lived would claim figures for them,
-    so such a period is refused with a message naming today rather than clipped silently."""
+    """The report's From and To days. A period may not begin after ``today`` (by default ``default_end``, which
+    the documents set to the day of the request): a report of days not yet lived would claim figures for them.
+    A period still running (To after today) is judged as of the request, as its "figures as of" line says."""
     today = default_end if today is None else today
     start = a_date(parameters, "start", default_start)
     end = a_date(parameters, "end", default_end)
     if end < start:
         raise ValidationError({"end": f"To: {local_date_of(end)} is before From: {local_date_of(start)}"})
-    if end > today:
+    if start > today:
         raise ValidationError(
             {
-                "end": f"To: {local_date_of(end)} is after today ({local_date_of(today)}); "
-                "a report covers days up to today"
+                "start": f"From: {local_date_of(start)} is after today ({local_date_of(today)}); "
+                "a report covers days that have begun"
             }
         )
     if (end - start).days > 3 * 366:

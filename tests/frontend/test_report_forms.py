@@ -91,17 +91,18 @@ def test_a_day_outside_the_window_on_the_unit_page(world, client, name, typed, m
     assert f'value="{typed}"' in tag
 
 
-def test_a_period_ending_after_today_is_refused_naming_today(world, client):
-    """The sites' today is 2 Dec 2026; a report of 2030 would claim figures for days not yet lived."""
+def test_a_period_beginning_after_today_is_refused_naming_today(world, client):
+    """The sites' today is 2 Dec 2026; a report of 2030 would claim figures for days not yet lived. (A period
+    still running, this year to 31 Dec, is judged as of today: tests/reports/test_compliance.py.)"""
     client.force_login(world.manager_a)
     page = f"/dashboard/site/{world.site_a.pk}/"
     html = refused(
         client, {"kind": "compliance", "sites": world.site_a.pk, "start": "2030-01-01", "end": "2030-06-30"}, page
     )
-    assert described_error(html, field(html, "end")) == (
-        "To: 30 Jun 2030 is after today (2 Dec 2026); a report covers days up to today"
+    assert described_error(html, field(html, "start")) == (
+        "From: 1 Jan 2030 is after today (2 Dec 2026); a report covers days that have begun"
     )
-    assert 'value="2030-01-01"' in field(html, "start")
+    assert 'value="2030-06-30"' in field(html, "end")
 
 
 def test_a_site_or_unit_the_person_may_not_see_is_said_on_the_form_and_the_api_keeps_its_404(world, client, api_client):
