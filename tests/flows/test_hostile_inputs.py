@@ -249,7 +249,7 @@ def test_a_report_period_ending_in_9999_is_refused_and_a_visit_due_then_is_never
     with time_machine.travel(NOW, tick=False), pytest.raises(ValidationError) as refused:
         period({"end": "9999-12-31"}, default_start=dt.date(2025, 1, 1), default_end=dt.date(2025, 3, 3))
     assert refused.value.message_dict["end"] == [
-        "Report end 9999-12-31 is outside 2000–2035; allowed: 2000-01-01 to 2035-03-03"
+        "To: 31 Dec 9999 is outside the days allowed, 1 Jan 2000 to 3 Mar 2035"
     ]
     occ = Occurrence(category="c", due_date=dt.date(9999, 12, 31), grace_days=7, completed_on=None)
     assert occ.deadline == dt.date.max
