@@ -59,18 +59,23 @@ def make_visit(*, tasks: list[str], organisation=None, ahu=None, technician=None
         title="Quarterly service",
         due_date=FINISHED.date(),
     )
-    for code in tasks:
+    tasks_add(wo, tasks, key="test")
+    return wo, technician
+
+
+def tasks_add(wo, codes: list[str], *, key: str) -> None:
+    """The library tasks ``codes`` on ``wo`` for the whole unit, due with it (occurrence keys ``<key>:<wo>:<code>``)."""
+    for code in codes:
         WorkOrderTask.objects.create(
             work_order=wo,
             task=TaskDefinition.objects.get(organisation=None, code=code),
             task_code=code,
-            ahu=ahu,
+            ahu=wo.ahu,
             component=None,
             component_key=0,
             due_date=wo.due_date,
-            occurrence_key=f"test:{wo.pk}:{code}",
+            occurrence_key=f"{key}:{wo.pk}:{code}",
         )
-    return wo, technician
 
 
 def component(ahu, name: str):

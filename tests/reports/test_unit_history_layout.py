@@ -19,7 +19,6 @@ import datetime as dt
 import io
 import itertools
 import re
-import uuid
 
 import pytest
 import time_machine
@@ -27,10 +26,10 @@ from pypdf import PdfReader
 
 from accounts.models import Role
 from inspections.services.sync import inspection_submit
-from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
+from scheduling.models import WorkOrder
 from scheduling.services import task_library_install
 from tests.factories.accounts import make_person
-from tests.factories.inspections import signature
+from tests.factories.inspections import signature, sync_form, tasks_add
 from tests.factories.inventory import BuildingFactory, ComponentFactory, make_full_unit
 from tests.factories.scheduling import WorkOrderFactory
 from tests.inspections.test_display import leaks
@@ -96,17 +95,7 @@ def _work_order(ahu, tech, month: int, codes: list[str]) -> WorkOrder:
         title=f"Monthly service 2025-{month:02d}",
         due_date=dt.date(2025, month, 14),
     )
-    for code in codes:
-        WorkOrderTask.objects.create(
-            work_order=wo,
-            task=TaskDefinition.objects.get(organisation=None, code=code),
-            task_code=code,
-            ahu=ahu,
-            component=None,
-            component_key=0,
-            due_date=wo.due_date,
-            occurrence_key=f"layout:{wo.pk}:{code}",
-        )
+    tasks_add(wo, codes, key="layout")
     return wo
 
 
@@ -173,17 +162,7 @@ def _visit(ahu, tech, parts, month, hours, airflow_ls, pre_dp, final_dp, t_out) 
             _r("preheater_freeze.freeze_trip_test", "ok"),
         ]
     finished = _day(month)
-    form = {
-        "client_uuid": str(uuid.uuid4()),
-        "work_order": str(wo.public_id),
-        "work_order_version": wo.version,
-        "unit_system": "si",
-        "started_at": (finished - dt.timedelta(minutes=50)).isoformat(),
-        "finished_at": finished.isoformat(),
-        "readings": readings,
-        "photos": [],
-        "signature": signature(name=str(tech), at=finished),
-    }
+    form = {**sync_form(wo, readings, finished_at=finished), "signature": signature(name=str(tech), at=finished)}
     with time_machine.travel(finished + dt.timedelta(hours=1), tick=False):
         result = inspection_submit(user=tech, form=form)
     assert result["status"] in ("stored", "flagged"), result
