@@ -22,11 +22,11 @@ from inspections.models import Evaluation, Inspection
 from reports.models import Report
 from reports.services import report_request
 from tests.factories.accounts import make_person
-from tests.factories.inspections import make_visit, sync_filter_visit
+from tests.factories.inspections import make_visit
+from tests.flows.test_filter_change_now import DAY0, _visit  # the same visit through the sync API
 from tests.reports.conftest import pdf_text
 
 pytestmark = pytest.mark.django_db
-DAY0 = dt.datetime(2025, 1, 6, 9, 30, tzinfo=dt.UTC)
 # Final filters (tests.factories.inventory.FILTER_SPECS): clean 90 Pa, final 250 Pa, design airflow 3.0 m³/s;
 # every visit at design airflow (3000 L/s), so no correction. (days after DAY0, run-hours, Δp Pa, Δp after)
 BEFORE = [(0, 1_000, 130, None), (30, 1_300, 150, None), (60, 1_600, 170, None), (90, 1_900, 190, None)]
@@ -36,21 +36,6 @@ ONE_READING = "no change forecast yet: 1 reading of the filters now fitted, a fo
 TWO_READINGS = "no change forecast yet: 2 readings of the filters now fitted, a forecast needs at least 3"
 DATED = re.compile(r"change forecast \d")  # a change date in the words
 BEFORE_CHANGE = "the reading before the change: these filters were replaced on this visit"
-
-
-def _visit(api_client, time_machine, ahu, tech, days, hours, dp, after):
-    finished = DAY0 + dt.timedelta(days=days)
-    time_machine.move_to(finished + dt.timedelta(hours=1), tick=False)
-    return sync_filter_visit(
-        api_client,
-        ahu=ahu,
-        technician=tech,
-        finished_at=finished,
-        hours=hours,
-        airflow_ls=3000,
-        final_dp=dp,
-        after=after,
-    )
 
 
 def _stored(ahu, days, check):
