@@ -1,7 +1,7 @@
 """PDF records from the pages: ask for one (a POST form), then the list of reports with their state.
 
 The inputs are checked, tenancy included, by reports.services.report_request. A refused
-request (a bad day, a period ending after today, a site, unit or work order the person
+request (a bad day, a period beginning after today, a site, unit or work order the person
 may not see — a 404 in the API) stores nothing: the page is shown again with what was
 typed kept and the message at its field (``frontend.templatetags.report_forms``).
 The PDF itself is served by reports' own download view.
