@@ -34,6 +34,13 @@ SKILLS = {str(v): str(label) for v, label in TaskDefinition.Skill.choices}
 INVITE_FIELDS = ("name", "email", "role", "capacity", "skills")
 
 
+def _unknown_action(action, allowed: str) -> ValidationError:
+    """A posted button this page does not have, refused naming it and the page's own buttons."""
+    return ValidationError(
+        {"action": [f"Action: {shown(action)} is not one of this page's buttons; allowed: {allowed}"]}
+    )
+
+
 def _organisation(request):
     organisation = organisation_administered_by(user=request.user)
     if organisation is None:
@@ -163,14 +170,7 @@ def person_edit(request, pk: int):
                 people.invitation_resend(by=request.user, organisation=organisation, person=person)
                 done = f"A new link to set a password went to {person.email}."
             else:
-                raise ValidationError(
-                    {
-                        "action": [
-                            f"Action: {shown(action)} is not one of this page's buttons; allowed: save, sites, "
-                            "deactivate, reactivate, invite_again"
-                        ]
-                    }
-                )
+                raise _unknown_action(action, "save, sites, deactivate, reactivate, invite_again")
         except ValidationError as exc:
             errors, status = _errors(exc), 400
         except people.LastAdministrator as exc:
@@ -248,14 +248,7 @@ def profile(request):
                 update_session_auth_hash(request, user)
                 done = "Password changed. Your API token and calendar address of the old one no longer work."
             else:
-                raise ValidationError(
-                    {
-                        "action": [
-                            f"Action: {shown(action)} is not one of this page's buttons; allowed: units, "
-                            "calendar_new, calendar_revoke, password"
-                        ]
-                    }
-                )
+                raise _unknown_action(action, "units, calendar_new, calendar_revoke, password")
         except ValidationError as exc:
             errors, status = _errors(exc), 400
         else:
