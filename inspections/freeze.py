@@ -62,7 +62,7 @@ from django.db.models import Exists, OuterRef, Q
 
 from engineering.freeze import daily_minimums_from_normals
 from inventory.models import AHU, Component, ComponentKind, Site
-from scheduling.models import WorkOrder
+from scheduling.models import work_order_state_words
 
 from . import checklists
 from .models import Amendment, Evaluation, Finding
@@ -303,11 +303,7 @@ _VERDICT_WORDS = {"watch": " (near its limit, not proven)", None: " (not checked
 def _corrective_state(wo_state: str | None, approval: str | None) -> str:
     if wo_state is None:
         return ""
-    if approval == WorkOrder.Approval.PENDING:
-        return "awaiting approval"
-    if approval == WorkOrder.Approval.REJECTED:
-        return "rejected"
-    return WorkOrder.State(wo_state).label.lower()
+    return work_order_state_words(wo_state, approval)
 
 
 def protected_units(*, units: Iterable[AHU]) -> dict[int, list[tuple[int, str, str, str]]]:

@@ -307,6 +307,12 @@ class WorkOrder(models.Model):
         return f"{self.title} — {self.ahu.tag} (due {self.due_date})"
 
     @property
+    def state_words(self) -> str:
+        """Where the work stands as people say it: corrective work not yet approved is "awaiting approval" (or
+        "rejected"), any other its state ("planned", "assigned", ...). The pages, the PDFs and readiness agree."""
+        return work_order_state_words(self.state, self.approval)
+
+    @property
     def is_open(self) -> bool:
         return self.state in self.OPEN_STATES
 
@@ -369,3 +375,12 @@ class CalendarFeed(models.Model):
 
     def __str__(self) -> str:
         return f"Calendar of {self.user} ({'revoked' if self.revoked_at else 'active'})"
+
+
+def work_order_state_words(state: str, approval: str | None) -> str:
+    """``WorkOrder.state_words`` from the stored values (for reads that fetch values, not rows)."""
+    if approval == WorkOrder.Approval.PENDING:
+        return "awaiting approval"
+    if approval == WorkOrder.Approval.REJECTED:
+        return "rejected"
+    return WorkOrder.State(state).label.lower()

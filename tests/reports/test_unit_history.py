@@ -178,3 +178,25 @@ def test_filter_reading_shows_why_it_failed(
     assert f"{at_design} at design airflow" in row
     assert f"final {final}" in row
     assert "filter at 110 % of its span after correcting to design airflow" in row
+
+
+def test_corrective_work_awaiting_approval_reads_so_as_on_the_pages(history, supervisor, make_report):
+    """Corrective work a supervisor has not approved yet is 'Awaiting approval' in the history's work orders, as
+    the corrective-work page and the compliance report say — not 'Planned', which it is not."""
+    from scheduling.models import WorkOrder
+
+    WorkOrder.objects.create(
+        organisation=history.building.site.organisation,
+        ahu=history,
+        kind=WorkOrder.Kind.CORRECTIVE,
+        title="Free the outdoor-air damper linkage",
+        due_date=dt.date(2025, 5, 20),
+        approval=WorkOrder.Approval.PENDING,
+    )
+    report = make_report(
+        user=supervisor,
+        kind="unit_history",
+        parameters={"unit": history.pk, "start": "2025-01-01", "end": "2025-06-30"},
+    )
+    flat = " ".join(pdf_text(report).split())
+    assert "Free the outdoor-air damper linkage Corrective Awaiting approval" in flat
