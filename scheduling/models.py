@@ -58,6 +58,7 @@ class TaskDefinition(models.Model):
         MECHANICAL = "mechanical", "Mechanical"
         ELECTRICAL = "electrical", "Electrical"
         CONTROLS = "controls", "Controls"
+        REFRIGERANT = "refrigerant", "Refrigerant handling (certified)"
 
     organisation = models.ForeignKey(
         Organisation,
