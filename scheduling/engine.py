@@ -47,7 +47,7 @@ from inventory.models import AHU, Component
 
 from .inputs import task_problem, unit_problem
 from .models import MeterReading, TaskDefinition, UnitTaskSetting, WorkOrder, WorkOrderTask, overdue_day
-from .selectors import effective_tasks
+from .selectors import effective_tasks, task_for_unit, unit_rule_numbers
 from .services.seasons import SEASON_LOOKBACK_DAYS, season_key, season_starts_for_sites
 from .targets import TaskTargets
 from .titles import visit_title
@@ -277,17 +277,35 @@ class _Rules:
 
 
 def _occurrences(
-    *, unit: _Unit, site: _SiteDay, rules: _Rules, disabled, last_done, meters, skipped: list[str], where: str = ""
+    *,
+    unit: _Unit,
+    site: _SiteDay,
+    rules: _Rules,
+    disabled,
+    last_done,
+    meters,
+    skipped: list[str],
+    where: str = "",
+    own_numbers: dict | None = None,
 ) -> list[_Occ]:
     """Every due occurrence of every (enabled) task on one unit within the site's horizon.
 
     A task whose dates cannot be worked out for this unit (date arithmetic past the calendar's end, from a
-    row stored before the input policy) is left out and named in ``skipped``; the unit's other tasks stay."""
+    row stored before the input policy) is left out and named in ``skipped``; the unit's other tasks stay.
+    ``own_numbers`` ((unit id, code) -> numbers) are a unit's own interval, grace, lead time or run-hours,
+    which hold for that unit instead of the organisation's (a unit's number out of bounds skips that rule)."""
     out: list[_Occ] = []
     meter = False  # not looked up yet
     for task, targets in rules.items:
         if (unit.pk, task.code) in disabled:
             continue
+        numbers = (own_numbers or {}).get((unit.pk, task.code))
+        if numbers:
+            task = task_for_unit(task=task, numbers=numbers)
+            problem = task_problem(task)
+            if problem is not None:
+                skipped.append(f"{where or unit.tag}, maintenance rule {problem} (this unit's own value)")
+                continue
         try:
             found, meter = _task_occurrences(
                 unit=unit,
@@ -372,7 +390,7 @@ def _units(ahus_qs) -> tuple[list[_Unit], dict[int, object]]:
             zones[site_id] = zoneinfo.ZoneInfo(sites[site_id].time_zone)
         units[pk] = _Unit(pk, tag, site_id, full_oa, service_start or _local(created_at, zones[site_id]))
     parts = (
-        Component.objects.filter(ahu_id__in=ahus_qs.values("pk"))
+        Component.objects.filter(ahu_id__in=ahus_qs.values("pk"), retired_on__isnull=True)  # retired: no new work
         .order_by("ahu_id", "position", "id")
         .annotate(specs_text=Cast("specs", TextField()))
         .values_list("ahu_id", "pk", "kind", "specs_text")
@@ -414,6 +432,7 @@ def work_orders_generate(
         return result
     ahu_ids = ahus_qs.values("pk")
     disabled = set(UnitTaskSetting.objects.filter(ahu_id__in=ahu_ids, enabled=False).values_list("ahu_id", "task_code"))
+    own_numbers = unit_rule_numbers(ahu_ids=ahu_ids)
     last_done = {
         (r["ahu_id"], r["task_code"], r["component_key"]): r["last"]
         for r in WorkOrderTask.objects.filter(ahu_id__in=ahu_ids, completed_at__isnull=False)
@@ -458,6 +477,7 @@ def work_orders_generate(
                 meters=meters,
                 skipped=result.skipped,
                 where=where,
+                own_numbers=own_numbers,
             )
         )
 

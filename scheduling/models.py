@@ -140,12 +140,26 @@ class TaskDefinition(models.Model):
 
 
 class UnitTaskSetting(models.Model):
-    """A supervisor's choice for one unit: switch a task off for it."""
+    """A supervisor's choice for one unit: switch a task off for it, or give it its own numbers.
+
+    An empty number follows the organisation's rule (``effective_tasks``); a filled one is this unit's
+    own (an older unit's filters every month, say). The due-date engine reads both.
+    """
+
+    # The numbers of a rule a unit may have of its own; every other field of the rule stays the organisation's.
+    RULE_FIELDS = ("interval_value", "interval_unit", "grace_days", "lead_days", "run_hours")
 
     ahu = models.ForeignKey(AHU, on_delete=models.CASCADE, related_name="task_settings")
     task_code = models.SlugField(max_length=60)
     enabled = models.BooleanField(default=False)
     reason = models.CharField(max_length=200, blank=True)
+    interval_value = models.PositiveIntegerField(null=True, blank=True, help_text="Empty: the organisation's.")
+    interval_unit = models.CharField(
+        max_length=10, choices=TaskDefinition.IntervalUnit.choices, blank=True, help_text="Empty: the organisation's."
+    )
+    grace_days = models.PositiveIntegerField(null=True, blank=True, help_text="Empty: the organisation's.")
+    lead_days = models.PositiveIntegerField(null=True, blank=True, help_text="Empty: the organisation's.")
+    run_hours = models.PositiveIntegerField(null=True, blank=True, help_text="Empty: the organisation's.")
     updated_at = models.DateTimeField(auto_now=True)
 
     class Meta:
@@ -223,6 +237,8 @@ class WorkOrder(models.Model):
     class Kind(models.TextChoices):
         PREVENTIVE = "preventive", "Preventive"
         CORRECTIVE = "corrective", "Corrective"
+        CALL_OUT = "call_out", "Call-out"
+        AD_HOC = "ad_hoc", "Ad hoc"
 
     class State(models.TextChoices):
         PLANNED = "planned", "Planned"
@@ -286,6 +302,11 @@ class WorkOrder(models.Model):
         null=True,
         blank=True,
         help_text="First day it counts as overdue: the day after the grace window (due + grace + 1 day).",
+    )
+    due_by = models.DateTimeField(
+        null=True,
+        blank=True,
+        help_text="A time it must be done by (a call-out 'by 14:00 today'), read on the site's clock; empty for a day.",
     )
     scheduled_for = models.DateField(null=True, blank=True)
     escalated_on = models.DateField(null=True, blank=True, help_text="Last overdue e-mail to the supervisors.")

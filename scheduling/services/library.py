@@ -96,8 +96,12 @@ def task_library_install(*, organisation: Organisation | None = None) -> list[Ta
 
 
 @transaction.atomic
-def task_definition_override(*, organisation: Organisation, code: str, by=None, **changes: Any) -> TaskDefinition:
-    """Change a task for one organisation (e.g. its frequency), copying the library row on first change."""
+def task_definition_override(
+    *, organisation: Organisation, code: str, by=None, reason: str = "", **changes: Any
+) -> TaskDefinition:
+    """Change a task for one organisation (e.g. its frequency), copying the library row on first change.
+
+    ``reason`` (why, in the person's words) goes into the audit trail with the changes."""
     bad = set(changes) - OVERRIDABLE
     if bad:
         raise ValidationError({sorted(bad)[0]: [f"cannot be changed; allowed: {', '.join(sorted(OVERRIDABLE))}"]})
@@ -123,7 +127,8 @@ def task_definition_override(*, organisation: Organisation, code: str, by=None, 
     if by is not None:
         from accounts.services import audit_record
 
-        audit_record(actor=by, obj=task, action="task_override", changes=_jsonable(changes), organisation=organisation)
+        audited = _jsonable(changes) | ({"reason": reason} if reason else {})
+        audit_record(actor=by, obj=task, action="task_override", changes=audited, organisation=organisation)
     return task
 
 
@@ -169,3 +174,67 @@ def unit_task_set(*, ahu: AHU, task_code: str, enabled: bool, reason: str = "", 
 
 def _jsonable(d: dict) -> dict:
     return {k: v if isinstance(v, (str, int, float, bool, type(None), list, dict)) else str(v) for k, v in d.items()}
+
+
+# Which of a unit's own numbers each kind of rule has (an interval task has no lead time).
+UNIT_NUMBERS_BY_TRIGGER = {
+    TaskDefinition.Trigger.INTERVAL: ("interval_value", "interval_unit", "grace_days"),
+    TaskDefinition.Trigger.RUNTIME: ("run_hours", "grace_days"),
+    TaskDefinition.Trigger.SEASON: ("lead_days", "grace_days"),
+    TaskDefinition.Trigger.CONDITION: ("grace_days",),
+}
+
+
+@transaction.atomic
+def unit_task_rule_set(
+    *, ahu: AHU, task: TaskDefinition, numbers: dict[str, Any], reason: str, by=None
+) -> UnitTaskSetting:
+    """Give one unit its own numbers for one rule (``task``: the organisation's rule in force).
+
+    ``numbers`` holds fields of ``UnitTaskSetting.RULE_FIELDS``; None (or "" for the interval's unit) means
+    "the organisation's". Bounds are the rule's own (``scheduling.inputs.task_problems``); a reason is required
+    and audited with the change. Raises ValidationError keyed by field; nothing is saved then.
+    """
+    errors = FieldErrors()
+    max_length = UnitTaskSetting._meta.get_field("reason").max_length
+    reason = check_text(reason, key="reason", label="Reason", max_length=max_length, errors=errors, required=True)
+    allowed = UNIT_NUMBERS_BY_TRIGGER.get(task.trigger, ())
+    for name in numbers:
+        if name not in allowed:
+            errors.add(name, f"{name}: not a number a {task.get_trigger_display().lower()} rule has")
+    errors.raise_if_any()
+    own = {k: v for k, v in numbers.items() if v not in (None, "")}
+    if own.get("interval_unit") and own["interval_unit"] not in TaskDefinition.IntervalUnit.values:
+        units = ", ".join(TaskDefinition.IntervalUnit.values)
+        raise ValidationError({"interval_unit": [f"Interval unit: {own['interval_unit']!r} is not one of {units}"]})
+    probe = TaskDefinition(**{f: getattr(task, f) for f in ("name", "trigger", *UnitTaskSetting.RULE_FIELDS)})
+    for name, value in own.items():
+        setattr(probe, name, value)
+    problems = task_problems(probe)
+    if problems:
+        raise ValidationError({name: [text] for name, text in problems.items()})
+    setting = UnitTaskSetting.objects.select_for_update().filter(ahu=ahu, task_code=task.code).first()
+    if setting is None:
+        setting = UnitTaskSetting(ahu=ahu, task_code=task.code, enabled=True)
+    before = {name: getattr(setting, name) for name in UnitTaskSetting.RULE_FIELDS}
+    for name in UnitTaskSetting.RULE_FIELDS:
+        if name in numbers:
+            setattr(
+                setting,
+                name,
+                numbers[name] if numbers[name] not in (None, "") else (None if name != "interval_unit" else ""),
+            )
+    setting.reason = reason
+    setting.save()
+    if by is not None:
+        from accounts.services import audit_record
+
+        after = {name: getattr(setting, name) for name in UnitTaskSetting.RULE_FIELDS}
+        audit_record(
+            actor=by,
+            obj=setting,
+            action="unit_task_rule_set",
+            changes={"task_code": task.code, "before": before, "after": after, "reason": reason},
+            organisation=ahu.building.site.organisation,
+        )
+    return setting
