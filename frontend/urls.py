@@ -2,7 +2,20 @@ from django.contrib.auth import views as auth_views
 from django.urls import path
 
 from . import api
-from .views import calculator, manager, people, records, shell, supervisor, technician
+from .views import (
+    calculator,
+    manager,
+    manager_findings,
+    people,
+    records,
+    registry_files,
+    registry_pages,
+    rules_pages,
+    shell,
+    supervisor,
+    technician,
+    work_pages,
+)
 
 app_name = "frontend"
 urlpatterns = [
@@ -33,15 +46,36 @@ urlpatterns = [
     path("board/assign/<uuid:public_id>/", supervisor.assign, name="assign"),
     path("registry/", supervisor.registry, name="registry"),
     path("registry/unit/<int:pk>/", supervisor.unit_detail, name="registry_unit"),
-    path("registry/unit/<int:pk>/edit/", supervisor.unit_edit, name="registry_unit_edit"),
-    path("registry/unit/<int:pk>/rules/", supervisor.unit_rules, name="registry_rules"),
+    path("registry/unit/<int:pk>/edit/", registry_pages.unit_edit, name="registry_unit_edit"),
+    path("registry/unit/<int:pk>/rules/", rules_pages.unit_rules, name="registry_rules"),
+    path("registry/unit/<int:pk>/qr.<str:fmt>", registry_files.unit_qr, name="registry_unit_qr"),
+    path("registry/files/", registry_files.files, name="registry_files"),
+    path("registry/files/confirm/", registry_files.import_confirm, name="registry_import_confirm"),
+    path("registry/files/export/<str:kind>.csv", registry_files.export, name="registry_export"),
+    path("rules/", rules_pages.organisation_rules, name="rules"),
     path("registry/component/<int:pk>/edit/", supervisor.component_edit, name="registry_component_edit"),
+    # registry: add, move and retire (frontend/views/registry_pages.py)
+    path("registry/site/new/", registry_pages.site_new, name="registry_site_new"),
+    path("registry/site/<int:pk>/", registry_pages.site_edit, name="registry_site"),
+    path("registry/site/<int:pk>/building/new/", registry_pages.building_new, name="registry_building_new"),
+    path("registry/building/<int:pk>/edit/", registry_pages.building_edit, name="registry_building_edit"),
+    path("registry/unit/new/", registry_pages.unit_new, name="registry_unit_new"),
+    path("registry/unit/<int:pk>/move/", registry_pages.unit_move, name="registry_unit_move"),
+    path("registry/unit/<int:pk>/retire/", registry_pages.unit_retire, name="registry_unit_retire"),
+    path("registry/unit/<int:pk>/component/new/", registry_pages.component_new, name="registry_component_new"),
+    path("registry/component/<int:pk>/retire/", registry_pages.component_retire, name="registry_component_retire"),
     path("findings/", supervisor.findings, name="findings"),
     path("corrective/", supervisor.corrective, name="corrective"),
     path("flagged/", supervisor.flagged, name="flagged"),
+    # work beyond the plan: call-outs, ad-hoc work, work for a finding, a site's frost check
+    path("work/new/", work_pages.work_new, name="work_new"),
+    path("work/frost/<int:site_pk>/", work_pages.work_frost, name="work_frost"),
     # property manager
     path("dashboard/", manager.dashboard, name="dashboard"),
     path("dashboard/site/<int:pk>/", manager.site_detail, name="dashboard_site"),
+    path("dashboard/unit/<int:pk>/", manager_findings.unit_detail, name="manager_unit"),
+    path("site-findings/", manager_findings.findings_list, name="manager_findings"),
+    path("site-findings/<int:pk>/", manager_findings.finding_detail, name="manager_finding"),
     # PDF records (rendered and served by reports)
     path("records/", records.records, name="records"),
     path("records/request/", records.record_request, name="record_request"),

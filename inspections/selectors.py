@@ -284,7 +284,11 @@ def checklist_build(*, work_order: WorkOrder) -> Checklist:
     """Templates and items of a work order, items repeated per matching component, limits resolved."""
     codes = _template_codes(work_order)
     templates = templates_current(codes=["visit", *codes])
-    components = list(work_order.ahu.components.order_by("position", "id"))
+    # A part retired before the work was made is not asked about; one retired later keeps its items, so a
+    # visit (and its record) reads as it was when it was done.
+    components = list(
+        work_order.ahu.components.exclude(retired_on__lt=work_order.created_at.date()).order_by("position", "id")
+    )
     ordered = [templates["visit"]] + [templates[c] for c in checklists.TASK_CODES if c in codes and c in templates]
     used, slots = [], []
     for template in ordered:
@@ -736,3 +740,46 @@ def corrective_work_already_resolved(*, work_order_ids) -> set[int]:
         done = state == Finding.State.CLOSED and cause in RESOLVED_WITHOUT_WORK
         held[wo_id] = held.get(wo_id, True) and done
     return {wo_id for wo_id, done in held.items() if done}
+
+
+def finding_observations(*, finding: Finding) -> list[Evaluation]:
+    """The failed judgements that observed ``finding``, oldest visit first: on its unit and part, of its problem,
+    from its first visit until it closed (the visits of duplicates merged into it included). Each carries its
+    inspection (with work order and technician) for the finding's history."""
+    from .services.findings import problem_of
+
+    merged = set(Finding.objects.filter(merged_into=finding).values_list("inspection_id", "latest_inspection_id"))
+    own = {finding.inspection_id, finding.latest_inspection_id} | {i for pair in merged for i in pair}
+    candidates = Evaluation.objects.filter(
+        inspection__ahu_id=finding.ahu_id, component_id=finding.component_id, verdict="fail"
+    ).select_related("inspection__work_order", "inspection__technician", "component", "amendment")
+    out = []
+    for e in candidates:
+        if finding.problem:
+            if problem_of(check=e.check_name, item=e.item_key) != finding.problem:
+                continue
+        elif e.pk not in (finding.evaluation_id, finding.latest_evaluation_id):
+            continue  # stored before findings had a problem: only its own two judgements are known to be it
+        seen = e.amendment.created_at if e.amendment is not None else e.inspection.finished_at
+        within = (
+            seen is not None and finding.opened_at <= seen and (finding.closed_at is None or seen < finding.closed_at)
+        )
+        if e.inspection_id in own or within:
+            out.append(e)
+    out.sort(key=lambda e: (e.inspection.finished_at or e.inspection.received_at, e.pk))
+    return out
+
+
+def finding_photos(*, finding: Finding, inspection_ids) -> list[Photo]:
+    """The photos taken on the visits ``inspection_ids`` of the part the finding is about (or, for a finding of
+    the whole unit, of the task it came from), oldest first."""
+    task = (finding.evaluation.item_key if finding.evaluation_id else "").partition(".")[0]
+    out = []
+    for photo in Photo.objects.filter(inspection_id__in=set(inspection_ids)).select_related("component"):
+        same_task = photo.item_key.partition(".")[0] == task
+        if finding.component_id is not None:
+            if photo.component_id == finding.component_id or (photo.component_id is None and same_task):
+                out.append(photo)
+        elif same_task:
+            out.append(photo)
+    return out

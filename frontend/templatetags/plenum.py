@@ -3,7 +3,7 @@
 from django import template
 from django.urls import NoReverseMatch, reverse
 
-from accounts.clock import day_text
+from accounts.clock import day_text, time_zone, zone_abbreviation
 from accounts.models import Role
 from accounts.selectors import primary_role
 from inventory.display import site_time_text
@@ -16,6 +16,7 @@ NAV_BY_ROLE = {
     Role.TECHNICIAN: [("frontend:today", "Today"), ("frontend:calculator", "Calculator")],
     Role.SUPERVISOR: [
         ("frontend:board", "Board"),
+        ("frontend:work_new", "New work"),
         ("frontend:registry", "Registry"),
         ("frontend:findings", "Findings"),
         ("frontend:corrective", "Corrective work"),
@@ -23,7 +24,11 @@ NAV_BY_ROLE = {
         ("frontend:records", "Reports"),
         ("frontend:calculator", "Calculator"),
     ],
-    Role.PROPERTY_MANAGER: [("frontend:dashboard", "Dashboard"), ("frontend:records", "Reports")],
+    Role.PROPERTY_MANAGER: [
+        ("frontend:dashboard", "Dashboard"),
+        ("frontend:manager_findings", "Findings"),
+        ("frontend:records", "Reports"),
+    ],
 }
 NAV_BY_ROLE[Role.ADMIN] = [*NAV_BY_ROLE[Role.SUPERVISOR], ("frontend:people", "People")]
 # Everyone's own settings (units, calendar address, password), last in every menu.
@@ -77,3 +82,13 @@ register.filter("site_time", site_time_text)
 def day(value, today):
     """A day as the board writes it: "1 Dec" this year, "1 Dec 2036" in another (accounts.clock.day_text)."""
     return day_text(value, today=today) if value else ""
+
+
+@register.filter
+def site_clock(when, site) -> str:
+    """Only the time of ``when`` on the clock of ``site`` with the zone named, "14:00 CET" (a due time beside its
+    day); "" without a moment."""
+    if not when:
+        return ""
+    local = when.astimezone(time_zone(getattr(site, "time_zone", site)))
+    return f"{local:%H:%M} {zone_abbreviation(local)}"

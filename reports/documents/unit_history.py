@@ -326,6 +326,12 @@ def _judged_cells(e: Evaluation, reading: Reading | None, system: str) -> tuple[
     return values, _band_limit(d, reading, system) if e.check_name == "limits" else ""
 
 
+def judged_cells(*, evaluation: Evaluation, reading: Reading | None, system: str) -> tuple[list[str], str]:
+    """The values a judgement was made on and its limit, in the reader's units, as the unit history prints them
+    (the property manager's finding pages read the same)."""
+    return _judged_cells(evaluation, reading, system)
+
+
 def _reading_text(r: Reading, system: str) -> str:
     """A reading beside the values judged from it ("return air 22.7 °C"): its label, short."""
     return f"{r.item.label.lower().replace(' temperature', '')} {reading_value(r, system)}"
