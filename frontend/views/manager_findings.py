@@ -18,6 +18,7 @@ from django.views.decorators.http import require_GET
 from accounts.clock import local_date_of
 from inspections.freeze import freeze_readiness
 from inspections.models import Evaluation, Finding, Reading
+from inspections.reasons import text_without_subject
 from inspections.selectors import (
     finding_for,
     finding_observations,
@@ -42,16 +43,17 @@ LIST_LIMIT = 200  # rows on one page; the filters narrow the rest
 
 def progress_words(wo: WorkOrder | None, *, finding: Finding) -> str:
     """Where the corrective work stands, in WorkOrder.state_words, with the planned day of open work
-    ("planned for 9 Dec 2026"); a design review proposes none."""
+    ("planned for 9 Dec 2026"); a design review proposes none. Lower case first: a page capitalises it where a
+    sentence begins."""
     if wo is None:
-        return "Design review: no corrective work proposed" if finding.kind == Finding.Kind.DESIGN_REVIEW else "—"
+        return "design review: no corrective work proposed" if finding.kind == Finding.Kind.DESIGN_REVIEW else "—"
     words = wo.state_words
     if wo.is_open and wo.approval not in (WorkOrder.Approval.PENDING, WorkOrder.Approval.REJECTED):
         if wo.scheduled_for is not None:
             words += f" for {local_date_of(wo.scheduled_for)}"
         elif wo.due_date is not None:
             words += f", due {local_date_of(wo.due_date)}"
-    return words[:1].upper() + words[1:]
+    return words
 
 
 def _readings_of(evaluations: list[Evaluation]) -> dict[tuple[int, str, int | None], Reading]:
@@ -170,6 +172,7 @@ def finding_detail(request, pk: int):
     finding = finding_for(user=request.user, pk=pk)
     system = request.user.unit_system
     site = finding.ahu.building.site
+    part = finding.component.name if finding.component is not None else None
     observations = finding_observations(finding=finding)
     latest = finding.latest_evaluation or finding.evaluation
     readings = _readings_of([*observations, latest])
@@ -184,7 +187,8 @@ def finding_detail(request, pk: int):
                 "day": site_date_text(e.amendment.created_at if e.amendment else insp.finished_at, site),
                 "value": value,
                 "limit": limit,
-                "text": reason_for(evaluation=e, unit_system=system),
+                # The part is in the page's heading: each visit's judgement does not begin with it again.
+                "text": text_without_subject(reason_for(evaluation=e, unit_system=system), part),
             }
         )
     photos = [
@@ -206,7 +210,7 @@ def finding_detail(request, pk: int):
         {
             "f": finding,
             "site": site,
-            "part": finding.component.name if finding.component is not None else "the unit as a whole",
+            "part": part or "the unit as a whole",
             "problem": finding_problem(finding),
             "text": reason_for(evaluation=finding, unit_system=system),
             "first_seen": site_date_text(finding.opened_at, site),

@@ -64,6 +64,13 @@ def test_the_property_manager_opens_a_finding_with_its_photo(
         no_sideways_scroll(page, size)
         page.screenshot(path=screenshots / f"manager-finding-{name}.png", full_page=True)
 
+        page.get_by_role("link", name="Unit AHU-01 (North block)").click()
+        expect(page.get_by_role("heading", level=1)).to_contain_text("AHU-01")
+        expect(page.locator("[data-unit-findings]")).to_contain_text("planned for 9 Dec 2026")
+        expect(page.get_by_role("button", name="Request unit history")).to_be_visible()
+        no_sideways_scroll(page, size)
+        page.screenshot(path=screenshots / f"manager-unit-{name}.png", full_page=True)
+
         other = page.goto(f"{live_server.url}/site-findings/{w.finding_b.pk}/")
         assert other.status == 404
         photo_b = page.goto(f"{live_server.url}/api/inspections/photos/{w.photo_b.client_uuid}/thumbnail/")

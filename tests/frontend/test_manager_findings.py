@@ -110,6 +110,8 @@ def test_finding_page_shows_photos_history_corrective_work_and_record_form(w, cl
     assert "Approve" not in page and "Reject" not in page and "Assign" not in page
     photo = client.get(f"/api/inspections/photos/{w.photo_a.client_uuid}/thumbnail/")
     assert photo.status_code == 200 and photo["Content-Type"] == "image/jpeg"
+    corrective = f"/w/{w.finding_a.corrective_work_order.public_id}/"
+    assert corrective in html and client.get(corrective).status_code == 200
 
 
 def test_another_sites_or_organisations_finding_and_photo_are_not_found(w, client):
