@@ -22,7 +22,7 @@ from django.urls import URLPattern, URLResolver, get_resolver
 
 from accounts.models import Role
 from frontend.calculators import CALCULATORS
-from inspections.models import Amendment, Inspection, Photo
+from inspections.models import Amendment, Finding, Inspection, Photo
 from inventory.csv_io import KINDS
 from inventory.models import AHU, Building, Component, Site
 from reports.models import Report
@@ -74,7 +74,19 @@ FILL: dict[str, Fill] = {
     "frontend:registry_unit_edit": {"pk": lambda c: c.ahu.pk},
     "frontend:registry_rules": {"pk": lambda c: c.ahu.pk},
     "frontend:registry_component_edit": {"pk": lambda c: c.component.pk},
+    "frontend:registry_site": {"pk": lambda c: c.site.pk},
+    "frontend:registry_building_new": {"pk": lambda c: c.site.pk},
+    "frontend:registry_building_edit": {"pk": lambda c: c.building.pk},
+    "frontend:registry_unit_move": {"pk": lambda c: c.ahu.pk},
+    "frontend:registry_unit_retire": {"pk": lambda c: c.ahu.pk},
+    "frontend:registry_component_new": {"pk": lambda c: c.ahu.pk},
+    "frontend:registry_component_retire": {"pk": lambda c: c.component.pk},
     "frontend:dashboard_site": {"pk": lambda c: c.site.pk},
+    "frontend:manager_unit": {"pk": lambda c: c.ahu.pk},
+    # The corner's filter check passes (no finding): any finding of its unit, else an id nobody has.
+    "frontend:manager_finding": {
+        "pk": lambda c: Finding.objects.filter(ahu=c.ahu).values_list("pk", flat=True).first() or 2**31 - 1
+    },
     "frontend:person_edit": {"pk": lambda c: c.technician.pk},
     "frontend:calc_api": {"name": lambda c: next(iter(CALCULATORS))},
 }
@@ -376,7 +388,7 @@ def _judge_create(res, what: str, name: str, corners, role, sent: str) -> list[s
 
 def test_sequential_ids_of_another_organisation_are_refused(world):
     """Routes with a numeric id check access on every object: every id the person may not see is refused."""
-    from inspections.selectors import inspections_visible_to
+    from inspections.selectors import findings_visible_to, inspections_visible_to
     from inventory.selectors import ahus_visible_to, buildings_visible_to, components_visible_to, sites_visible_to
 
     models = {
@@ -389,6 +401,8 @@ def test_sequential_ids_of_another_organisation_are_refused(world):
         "frontend:registry_unit": (AHU, ahus_visible_to),
         "frontend:registry_component_edit": (Component, components_visible_to),
         "frontend:dashboard_site": (Site, sites_visible_to),
+        "frontend:manager_unit": (AHU, ahus_visible_to),
+        "frontend:manager_finding": (Finding, findings_visible_to),
     }
     int_routes = [(route, name) for route, name, _ in routes() if "<int:" in route]
     unknown = [name for _, name in int_routes if name not in models and name not in FILL]
