@@ -17,7 +17,7 @@ from engineering.errors import EngineeringInputError
 from engineering.psychro import STANDARD_PRESSURE_PA, pressure_from_altitude
 from engineering.units import from_display, to_display, unit_label
 from inspections.display import plain_message
-from inspections.reasons import decimals_of, display_number, format_number, render
+from inspections.reasons import decimals_of, display_number, format_number, q, render
 
 
 @dataclass(frozen=True)
@@ -94,6 +94,12 @@ class Calculator:
     inputs: tuple[Input, ...]
     compute: Callable[..., list[dict]]
 
+    def help_in(self, system: str) -> str:
+        """The help in the reader's units: "{min_dt}" is the least temperature difference the outdoor-air
+        fraction takes (engineering.outdoor_air), as a difference (3.0 K, 5.4 Δ°F), in one system only."""
+        least = render([q(outdoor_air.MIN_DIFFERENCE_K, "temperature_difference")], system)
+        return self.help.replace("{min_dt}", least)
+
 
 def _row(label: str, value: float, quantity: str, system: str) -> dict:
     """A figure in the reader's unit at the quantity's usual precision (as the checklist's reasons show it)."""
@@ -169,7 +175,7 @@ CALCULATORS: dict[str, Calculator] = {
         Calculator(
             "oa-temperatures",
             "Outdoor-air fraction from three temperatures",
-            "Needs at least 3 K (5.4 Δ°F) between outdoor and return air.",
+            "Needs at least {min_dt} between outdoor and return air.",
             (
                 Input("t_outdoor_c", "Outdoor air", "temperature", *T),
                 Input("t_return_c", "Return air", "temperature", *T),

@@ -35,6 +35,7 @@ SHELL_STATIC = (
     "frontend/js/limits.js",
     "frontend/js/meter.js",
     "frontend/js/formcheck.js",
+    "frontend/js/formnav.js",
     "frontend/js/drafts.js",
     "frontend/js/evaluate.js",
     "frontend/js/units.js",

@@ -28,6 +28,7 @@ def calculator(request):
         calcs.append(
             {
                 "calc": calc,
+                "help": calc.help_in(system),
                 "fields": fields,
                 "results": results if calc.name == answered else None,
                 "errors": errors.get("non_field_errors", []) if calc.name == answered else [],

@@ -11,12 +11,14 @@ from django.views.decorators.http import require_GET, require_POST
 
 from accounts.clock import zone_clock
 from accounts.inputs import FieldErrors, check_text
+from inspections.done_today import done_today_for
 from inventory.selectors import component_tree
 from scheduling.models import WorkOrder
 from scheduling.selectors import person_time_zone, person_today
 
 from .. import backends, selectors
 from ..checklist_form import _number, caution_blocks, cautions_for, form_sections, payload_from_post
+from ..phone_form import site_where, with_last_values
 from .records import LAYOUTS
 
 CHECKLIST_API = "/api/inspections/work-orders/{}/checklist/"
@@ -58,6 +60,8 @@ def today(request):
         "frontend/technician/today.html",
         {
             "visits": visits,
+            # The forms they signed today, each on its site's clock (inspections/done_today.py).
+            "done_today": done_today_for(technician=request.user, now=timezone.now()),
             "today": day,
             "offline_urls": offline_urls(visits),
             # The outbox bar's times on the clock the person works by (the phone has no other idea of it).
@@ -197,6 +201,9 @@ def checklist(request, public_id):
         wo.refresh_from_db()
         done = wo.state in DONE_STATES
     inspection = selectors.record_inspection(work_order=wo)
+    sections = (
+        with_last_values(form_sections(data), work_order=wo, system=system, before=timezone.now()) if data else []
+    )
     if result is None and inspection is not None:
         result = stored_result(inspection=inspection, work_order=wo)
     flag_open = inspection is not None and inspection.flag_open
@@ -209,7 +216,10 @@ def checklist(request, public_id):
             "done": done,
             "show_form": not done and may_submit and data is not None,
             "checklist": data,
-            "sections": form_sections(data) if data else [],
+            # Each reading with its value on the unit's last visit, in the reader's units (frontend/phone_form.py).
+            "sections": sections,
+            "askable_total": sum(s["askable"] for s in sections),
+            "site_where": site_where(wo.ahu.building.site),
             "cautions": cautions_for(data or {}),
             "caution_blocks": caution_blocks(cautions_for(data or {})),
             "started_at": timezone.now().isoformat(),

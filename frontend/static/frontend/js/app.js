@@ -98,7 +98,21 @@ async function registerWorker() {
   }
 }
 
+// The page ends below the outbox bar whatever its height (it wraps to two or three lines on a phone), so it never
+// covers the last field or "Finish and sign" (app.css pads the body by --outbox-height).
+function keepClearOfOutbox() {
+  const bar = document.getElementById("outbox-status");
+  if (!bar || !("ResizeObserver" in window)) return;
+  const measure = () => {
+    const height = bar.hidden ? 0 : bar.getBoundingClientRect().height;
+    document.documentElement.style.setProperty("--outbox-height", `${Math.ceil(height)}px`);
+  };
+  new ResizeObserver(measure).observe(bar);
+  measure();
+}
+
 async function start() {
+  keepClearOfOutbox();
   document.addEventListener("plenum:outbox", renderOutbox);
   window.addEventListener("online", () => { renderOutbox(); syncOutbox(); });
   window.addEventListener("offline", renderOutbox);

@@ -3,6 +3,7 @@
 import { debounce, loadDraft, saveDraft } from "./drafts.js";
 import { evaluate, readingKey, reasonIn } from "./evaluate.js";
 import { formFlags } from "./formcheck.js";
+import { startFormNav } from "./formnav.js";
 import { plausibility } from "./limits.js";
 import { meterPlausibleText, meterReadingCheck } from "./meter.js";
 import { newUuid, outboxPut } from "./outbox.js";
@@ -419,7 +420,9 @@ function formFields(form) {
   return fields;
 }
 
-function restoreFields(form, fields) {
+/** ``fields`` back into the form; numbers typed in another unit system (the person switched since) are
+ * converted into the form's units, never read as if typed in them. */
+function restoreFields(form, fields, typedIn = null) {
   const values = new Map();
   const ticked = new Set();
   for (const [name, value, checked] of fields) {
@@ -429,8 +432,21 @@ function restoreFields(form, fields) {
   for (const input of form.elements) {
     if (!input.name || SKIPPED_FIELDS.has(input.name) || ["file", "submit", "button"].includes(input.type)) continue;
     if (input.type === "checkbox" || input.type === "radio") input.checked = ticked.has(`${input.name}\u0000${input.value}`);
-    else if (values.has(input.name)) input.value = values.get(input.name);
+    else if (values.has(input.name)) input.value = inFormUnits(form, input, values.get(input.name), typedIn);
   }
+}
+
+function inFormUnits(form, input, raw, typedIn) {
+  const block = input.closest("[data-item]");
+  if (input.type !== "number" || !typedIn || typedIn === form.dataset.unitSystem || !block || String(raw).trim() === "") return raw;
+  const value = Number(String(raw).replace(",", "."));
+  if (!Number.isFinite(value)) return raw;
+  const shown = inPersonUnits(form, value, block.dataset.item, block.dataset.component || null, typedIn);
+  // Two places more than the quantity is shown with: 180 Pa reads 0.7226 in. w.c., 14 °C reads 57.2 °F.
+  const ctx = evaluationContext();
+  const slot = ctx && ctx.slots.find((s) => s.item === block.dataset.item && (s.component || null) === (block.dataset.component || null));
+  const places = slot && ctx.decimals && ctx.decimals[slot.quantity] ? ctx.decimals[slot.quantity][form.dataset.unitSystem === "us" ? 1 : 0] + 2 : 4;
+  return String(Number(shown.toFixed(places)));
 }
 
 function blockOf(form, item, component) {
@@ -539,8 +555,9 @@ export function startChecklist() {
   form.addEventListener("input", judgeAll);
   form.addEventListener("change", judgeAll);
   judgeAll();
+  const progress = startFormNav(form);
   const owner = currentOwner();
-  const keep = () => saveDraft(owner, form.dataset.workOrder, formFields(form)).catch(() => {});
+  const keep = () => saveDraft(owner, form.dataset.workOrder, formFields(form), new Date(), form.dataset.unitSystem).catch(() => {});
   const keepSoon = debounce(keep, 300);
   let restored = false;
   form.addEventListener("input", () => { if (restored) keepSoon(); });
@@ -555,8 +572,9 @@ export function startChecklist() {
     try {
       const draft = await loadDraft(owner, form.dataset.workOrder);
       if (draft) {
-        restoreFields(form, draft.fields || []);
+        restoreFields(form, draft.fields || [], draft.unit_system || null);
         judgeAll();
+        progress();
       }
     } catch (err) { /* no draft store on this phone: the form starts empty */ }
     restored = true;

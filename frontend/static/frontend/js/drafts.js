@@ -6,10 +6,13 @@ import { draftDelete, draftGet, draftPut } from "./outbox.js";
 
 export const draftKey = (owner, workOrder) => `${owner}|${workOrder}`;
 
-/** Keep the fields (a list of [name, value-or-checked]) of ``owner``'s form for ``workOrder``. */
-export async function saveDraft(owner, workOrder, fields, now = new Date()) {
+/** Keep the fields (a list of [name, value-or-checked]) of ``owner``'s form for ``workOrder``, with the unit
+ * system the numbers were typed in (a person who switches units gets them back converted). */
+export async function saveDraft(owner, workOrder, fields, now = new Date(), unitSystem = null) {
   if (!owner || !workOrder) return;
-  await draftPut({ key: draftKey(owner, workOrder), owner, work_order: workOrder, fields, saved_at: now.toISOString() });
+  await draftPut({
+    key: draftKey(owner, workOrder), owner, work_order: workOrder, fields, saved_at: now.toISOString(), unit_system: unitSystem,
+  });
 }
 
 /** ``owner``'s draft for ``workOrder``, or null (never another person's). */
