@@ -1,12 +1,13 @@
 """Writes to the registry. Every path in (admin, API, CSV) validates the same way."""
 
+import datetime as dt
 import io
 from typing import Any
 
 import segno
 from django.conf import settings
 from django.core.exceptions import ValidationError
-from django.db import transaction
+from django.db import models, transaction
 from django.db.models import ProtectedError
 from django.urls import reverse
 
@@ -51,51 +52,138 @@ def component_full_clean(component: Component, **options: Any) -> None:
         raise ValidationError(errors) from None
 
 
-@transaction.atomic
-def site_create(**fields: Any) -> Site:
-    return _save_new(Site(**fields))
+def _audit(by, obj, action: str, changes: dict | None = None) -> None:
+    """One audit event for a registry change made by a person (a page or the API); none for a command."""
+    if by is None:
+        return
+    from accounts.services import audit_record
+
+    site = obj if isinstance(obj, Site) else getattr(obj, "site", None) or obj.ahu.building.site
+    audit_record(actor=by, obj=obj, action=action, changes=changes or {}, organisation=site.organisation)
+
+
+def _said(fields: dict[str, Any]) -> dict[str, Any]:
+    """The changed fields as the audit trail keeps them (a related record by its key)."""
+
+    def said(value):
+        if isinstance(value, models.Model):
+            return value.pk
+        if isinstance(value, dt.date):
+            return value.isoformat()
+        return value
+
+    return {k: said(v) for k, v in fields.items()}
 
 
 @transaction.atomic
-def site_update(*, site: Site, **fields: Any) -> Site:
-    return _update(site, fields)
+def site_create(*, by=None, **fields: Any) -> Site:
+    site = _save_new(Site(**fields))
+    _audit(by, site, "site_create", _said(fields))
+    return site
 
 
 @transaction.atomic
-def building_create(**fields: Any) -> Building:
-    return _save_new(Building(**fields))
+def site_update(*, site: Site, by=None, **fields: Any) -> Site:
+    _update(site, fields)
+    _audit(by, site, "site_update", _said(fields))
+    return site
 
 
 @transaction.atomic
-def building_update(*, building: Building, **fields: Any) -> Building:
-    return _update(building, fields)
+def building_create(*, by=None, **fields: Any) -> Building:
+    building = _save_new(Building(**fields))
+    _audit(by, building, "building_create", _said(fields))
+    return building
 
 
 @transaction.atomic
-def ahu_create(**fields: Any) -> AHU:
-    return _save_new(AHU(**fields))
+def building_update(*, building: Building, by=None, **fields: Any) -> Building:
+    _update(building, fields)
+    _audit(by, building, "building_update", _said(fields))
+    return building
 
 
 @transaction.atomic
-def ahu_update(*, ahu: AHU, **fields: Any) -> AHU:
-    return _update(ahu, fields)
+def ahu_create(*, by=None, **fields: Any) -> AHU:
+    ahu = _save_new(AHU(**fields))
+    _audit(by, ahu, "ahu_create", _said(fields))
+    return ahu
 
 
 @transaction.atomic
-def component_create(**fields: Any) -> Component:
+def ahu_update(*, ahu: AHU, by=None, **fields: Any) -> AHU:
+    _update(ahu, fields)
+    _audit(by, ahu, "ahu_update", _said(fields))
+    return ahu
+
+
+@transaction.atomic
+def ahu_move(*, ahu: AHU, building: Building, by=None) -> AHU:
+    """Move a unit to another building of the same organisation; its records and components go with it."""
+    if building.site.organisation_id != ahu.building.site.organisation_id:
+        raise ValidationError({"building": ["a unit moves only to a building of its own organisation"]})
+    if AHU.objects.filter(building=building, tag=ahu.tag).exclude(pk=ahu.pk).exists():
+        raise ValidationError(
+            {"building": [f"{building.name} already has a unit tagged {ahu.tag}; change one of the tags first"]}
+        )
+    before = ahu.building_id
+    _update(ahu, {"building": building})
+    _audit(by, ahu, "ahu_move", {"building": [before, building.pk]})
+    return ahu
+
+
+@transaction.atomic
+def ahu_retire(*, ahu: AHU, by=None, reason: str = "") -> AHU:
+    """Retire a unit: it keeps its components and every record, stays in the registry marked retired and
+    gets no new preventive work (the engine plans in-service units only)."""
+    if ahu.status == AHU.Status.RETIRED:
+        raise ValidationError({"status": [f"{ahu.tag} is already retired"]})
+    before = ahu.status
+    _update(ahu, {"status": AHU.Status.RETIRED})
+    _audit(by, ahu, "ahu_retire", {"status": [before, ahu.status], "reason": reason})
+    return ahu
+
+
+@transaction.atomic
+def component_create(*, by=None, **fields: Any) -> Component:
     component = Component(**fields)
+    if component.parent_id is not None and component.parent.retired_on is not None:
+        raise ValidationError({"parent": [f"{component.parent.name} is retired; a part cannot be added to it"]})
     component_full_clean(component)
     component.save()
+    _audit(by, component, "component_create", _said(fields))
     return component
 
 
 @transaction.atomic
-def component_update(*, component: Component, **fields: Any) -> Component:
+def component_update(*, component: Component, by=None, **fields: Any) -> Component:
     for name, value in fields.items():
         setattr(component, name, value)
     component_full_clean(component)
     component.save(update_fields=list(fields) if fields else None)
+    _audit(by, component, "component_update", _said(fields))
     return component
+
+
+@transaction.atomic
+def component_retire(*, component: Component, on: dt.date, by=None, reason: str = "") -> list[Component]:
+    """Retire a part and the parts it contains from ``on``: the rows stay with their readings, findings and
+    work as history; they get no new work and checklists leave them out. Returns the parts retired."""
+    if component.retired_on is not None:
+        raise ValidationError({"component": [f"{component.name} was already retired on {component.retired_on}"]})
+    by_parent: dict[int | None, list[Component]] = {}
+    for part in component.ahu.components.filter(retired_on__isnull=True):
+        by_parent.setdefault(part.parent_id, []).append(part)
+    retired, todo = [], [component]
+    while todo:
+        part = todo.pop()
+        retired.append(part)
+        todo.extend(by_parent.get(part.pk, []))
+    Component.objects.filter(pk__in=[p.pk for p in retired]).update(retired_on=on)
+    for part in retired:
+        part.retired_on = on
+        _audit(by, part, "component_retire", {"retired_on": on.isoformat(), "reason": reason})
+    return retired
 
 
 @transaction.atomic
@@ -131,3 +219,11 @@ def label_qr_svg(*, code: str, scale: int = 4) -> str:
     buffer = io.BytesIO()
     qr.save(buffer, kind="svg", scale=scale, xmldecl=False, title=f"Label {code}", border=4)
     return buffer.getvalue().decode("utf-8")
+
+
+def label_qr_png(*, code: str, scale: int = 10) -> bytes:
+    """The same QR code as ``label_qr_svg`` as a PNG image (10 px a module: about 4 cm at 300 dpi)."""
+    qr = segno.make(label_absolute_url(code=code), error="m")
+    buffer = io.BytesIO()
+    qr.save(buffer, kind="png", scale=scale, border=4)
+    return buffer.getvalue()
