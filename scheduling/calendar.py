@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
+import zoneinfo
 
 from django.conf import settings
 from django.utils import timezone
@@ -36,9 +37,19 @@ def feed_ics(*, user) -> bytes:
         site = wo.ahu.building.site
         event = Event()
         event.add("uid", f"{wo.public_id}@plenum")
-        event.add("summary", f"{wo.ahu.tag}: {wo.title}")
-        event.add("dtstart", day)
-        event.add("dtend", day + dt.timedelta(days=1))
+        summary = f"{wo.ahu.tag}: {wo.title}"
+        if wo.kind in (WorkOrder.Kind.CALL_OUT, WorkOrder.Kind.AD_HOC):
+            summary = f"{wo.get_kind_display()}, {wo.get_priority_display().lower()}: {summary}"
+        event.add("summary", summary)
+        if wo.due_by is not None and wo.due_by.astimezone(zoneinfo.ZoneInfo(site.time_zone)).date() == day:
+            # Work due by a time (a call-out "by 14:00"): an event ending then, as long as its tasks take.
+            minutes = max(sum(t.task.estimated_minutes for t in wo.tasks.all()), 15)
+            end = wo.due_by.astimezone(zoneinfo.ZoneInfo(site.time_zone))
+            event.add("dtstart", end - dt.timedelta(minutes=minutes))
+            event.add("dtend", end)
+        else:
+            event.add("dtstart", day)
+            event.add("dtend", day + dt.timedelta(days=1))
         event.add("dtstamp", wo.updated_at)
         event.add("location", f"{site.name}, {site.address}".strip(", "))
         event.add("geo", (site.latitude, site.longitude))

@@ -100,6 +100,7 @@ class WorkOrderOut(serializers.ModelSerializer):
             "site",
             "assignee",
             "due_date",
+            "due_by",
             "overdue_on",
             "scheduled_for",
             "started_at",

@@ -127,12 +127,23 @@ def _checklist_post(w: World, c: Corner) -> Call:
 
 
 def _unit_edit(w: World, c: Corner) -> Call:
-    from frontend.views.supervisor import UNIT_FIELDS
+    from frontend.views.registry_pages import unit_form_initial
 
     ahu = c.ahu
-    post = {name: "" if getattr(ahu, name) is None else str(getattr(ahu, name)) for name in UNIT_FIELDS}
+    post = {
+        k: "1" if v is True else "" if v in (None, False) else str(v)
+        for k, v in unit_form_initial(ahu=ahu, system="si").items()
+    }
     post["location"] = "Roof, north end"
     return Call({"pk": ahu.pk}, post, "form")
+
+
+def _unit_move(c: Corner) -> Call:
+    """Move the corner's unit to a second building of its own site (made here; rolled back with the request)."""
+    from tests.factories.inventory import BuildingFactory
+
+    annex = BuildingFactory(site=c.site, name="Probe annex", code="probe-annex")
+    return Call({"pk": c.ahu.pk}, {"building": str(annex.pk)}, "form")
 
 
 def _component_edit(w: World, c: Corner) -> Call:
@@ -258,6 +269,72 @@ WRITES: dict[tuple[str, str], Write] = {
     ("inventory_api:import", "post"): Write(MANAGERS, lambda w, c: _csv(c), in_body=True),
     ("frontend:registry_unit_edit", "post"): Write(MANAGERS, _unit_edit),
     ("frontend:registry_component_edit", "post"): Write(MANAGERS, _component_edit),
+    # Registry pages: add, move and retire (frontend/views/registry_pages.py); supervisors and admins.
+    ("frontend:registry_site_new", "post"): Write(
+        MANAGERS,
+        lambda w, c: Call(
+            body={"name": "Probe Yard", "latitude": "53.1", "longitude": "9.9", "time_zone": "Europe/Berlin"},
+            fmt="form",
+        ),
+        own_org_only=True,
+    ),
+    ("frontend:registry_site", "post"): Write(
+        MANAGERS,
+        lambda w, c: Call(
+            {"pk": c.site.pk},
+            {
+                "name": c.site.name,
+                "latitude": str(c.site.latitude),
+                "longitude": str(c.site.longitude),
+                "time_zone": c.site.time_zone,
+                "access_notes": "Keys at reception",
+            },
+            "form",
+        ),
+    ),
+    ("frontend:registry_building_new", "post"): Write(
+        MANAGERS, lambda w, c: Call({"pk": c.site.pk}, {"name": "Probe Annex"}, "form")
+    ),
+    ("frontend:registry_building_edit", "post"): Write(
+        MANAGERS, lambda w, c: Call({"pk": c.building.pk}, {"name": c.building.name, "floors": "7"}, "form")
+    ),
+    ("frontend:registry_unit_new", "post"): Write(
+        MANAGERS,
+        lambda w, c: Call(
+            body={
+                "building": str(c.building.pk),
+                "tag": "AHU-PROBE",
+                "design_supply_airflow_m3s": "1500",
+                "design_min_oa_fraction": "0.3",
+                "ventilation_zones": "single_zone",
+                "air_distribution": "ceiling_supply_cool",
+                "heat_recovery": "none",
+            },
+            fmt="form",
+        ),
+        in_body=True,
+    ),
+    ("frontend:registry_unit_move", "post"): Write(MANAGERS, lambda w, c: _unit_move(c)),
+    ("frontend:registry_unit_retire", "post"): Write(
+        MANAGERS, lambda w, c: Call({"pk": c.ahu.pk}, {"reason": "probe"}, "form")
+    ),
+    ("frontend:registry_component_new", "post"): Write(
+        MANAGERS,
+        lambda w, c: Call(
+            {"pk": c.ahu.pk},
+            {
+                "kind": "damper",
+                "name": "Probe damper",
+                "spec_role": "outdoor",
+                "spec_actuator": "modulating",
+                "spec_stroke_time_s": "90",
+            },
+            "form",
+        ),
+    ),
+    ("frontend:registry_component_retire", "post"): Write(
+        MANAGERS, lambda w, c: Call({"pk": c.component.pk}, {"reason": "probe"}, "form")
+    ),
     ("frontend:registry_rules", "post"): Write(
         MANAGERS,
         lambda w, c: Call({"pk": c.ahu.pk}, {"task_code": "filter_check", "enabled": "0", "reason": "probe"}, "form"),
@@ -308,6 +385,26 @@ WRITES: dict[tuple[str, str], Write] = {
         lambda w, c: Call(body={"inspection": str(_flagged(c).pk), "note": "checked"}, fmt="form"),
         in_body=True,
     ),
+    # Work beyond the plan (frontend/views/work_pages.py): a call-out for a unit named in the body; a frost check.
+    ("frontend:work_new", "post"): Write(
+        MANAGERS,
+        lambda w, c: Call(
+            body={
+                "unit": str(c.ahu.pk),
+                "kind": "call_out",
+                "title": "Probe call-out",
+                "priority": "high",
+                "due_date": (timezone.localdate() + dt.timedelta(days=2)).isoformat(),
+                "due_time": "12:00",
+                "task_name": "Look at the unit",
+                "task_minutes": "30",
+                "task_skill": "mechanical",
+            },
+            fmt="form",
+        ),
+        in_body=True,
+    ),
+    ("frontend:work_frost", "post"): Write(MANAGERS, lambda w, c: Call({"site_pk": c.site.pk}, {}, "form")),
     # Field work: technicians (their own work where it says so), supervisors and admins; never property managers.
     # Starting work: the technician assigned to it (site A's open work is our technician's).
     ("scheduling_api:work-order-transition", "post"): Write(
