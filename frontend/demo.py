@@ -17,9 +17,9 @@ from engineering.freeze import daily_values_from_normals
 from inspections.demo import demo_history_day, demo_history_load
 from inventory.demo import demo_registry_load
 from inventory.models import AHU, ComponentKind
-from scheduling.demo import ROUND_REF, demo_round_visit, demo_schedule_load
+from scheduling.demo import ROUND_REF, demo_round_visit, demo_round_visit_due, demo_schedule_load
 from scheduling.models import WorkOrder
-from scheduling.selectors import person_today, site_today, today_visits_for
+from scheduling.selectors import assignment_check, person_today, site_today, today_visits_for
 from scheduling.services import (
     outdoor_temperatures_store,
     site_seasons_refresh,
@@ -60,8 +60,10 @@ def demo_load(*, today: dt.date | None = None) -> dict[str, Any]:
         history_day = demo_history_day(organisation=organisation) or today
         summary["history"][organisation.slug] = demo_history_load(organisation=organisation, today=history_day)
         summary["generated"][organisation.slug] = demo_schedule_load(organisation=organisation, today=today)
-        summary["assigned"] += _assign_upcoming(organisation=organisation, today=today)
+        # Today's round first, then the rest where it fits: the demo plans as the board would, never past a
+        # technician's daily capacity (scheduling.selectors.assignment_check).
         summary["assigned"] += _round_today(organisation=organisation, today=today)
+        summary["assigned"] += _assign_upcoming(organisation=organisation, today=today)
         summary["verified"] = summary.get("verified", 0) + _verify_history(organisation=organisation, today=today)
     return summary
 
@@ -138,22 +140,42 @@ def _round_today(*, organisation, today: dt.date) -> int:
     count = 0
     for tech in technicians:
         for n, ahu in enumerate(chosen.get(tech.pk, [])):
-            day = max(today, site_today(site=ahu.building.site))
+            first_day = max(today, site_today(site=ahu.building.site))
             # A task the technician already has on this unit by then (the retest of a failed freeze test)
             # is not asked twice.
             held = set(
-                WorkOrder.objects.filter(ahu=ahu, assignee=tech, state__in=WorkOrder.OPEN_STATES, due_date__lte=day)
+                WorkOrder.objects.filter(ahu=ahu, assignee=tech, state__in=WorkOrder.OPEN_STATES)
+                .filter(due_date__lte=first_day)
                 .exclude(source_ref=ROUND_REF)
                 .values_list("tasks__task_code", flat=True)
             )
             codes = [c for c in ROUND_TASKS + (ROUND_FIRST_UNIT_TASKS if n == 0 else ()) if c not in held]
-            wo, _ = demo_round_visit(ahu=ahu, codes=codes, due=day)
+            wo, _ = demo_round_visit(ahu=ahu, codes=codes, due=first_day)
+            # The first unit is today's; a further one on the first day it fits in the technician's capacity.
+            day = first_day if n == 0 else _first_day_that_fits(work_order=wo, technician=tech, start=first_day)
+            if wo.due_date != day and wo.state in (WorkOrder.State.PLANNED, WorkOrder.State.ASSIGNED):
+                wo = demo_round_visit_due(work_order=wo, due=day)
             if wo.assignee_id != tech.pk:
                 wo = work_order_assign(work_order=wo, assignee=tech, by=supervisor)
                 count += 1
             if wo.scheduled_for != day:
                 work_order_schedule(work_order=wo, day=day, by=supervisor)
     return count
+
+
+PLAN_AHEAD_DAYS = 14
+
+
+def _first_day_that_fits(*, work_order: WorkOrder, technician, start: dt.date) -> dt.date | None:
+    """The first day from ``start`` (weekdays, within PLAN_AHEAD_DAYS) on which ``technician`` can take
+    ``work_order`` without going over their daily capacity, tasks plus travel; ``start`` when none does."""
+    for k in range(PLAN_AHEAD_DAYS):
+        day = start + dt.timedelta(days=k)
+        if day.weekday() >= 5:
+            continue
+        if not assignment_check(work_order=work_order, technician=technician, day=day).over:
+            return day
+    return start
 
 
 @transaction.atomic
@@ -195,7 +217,18 @@ def _assign_upcoming(*, organisation, today: dt.date) -> int:
     )
     count = 0
     for wo in open_orders:
-        work_order_assign(work_order=wo, assignee=owner[wo.ahu.building.site_id], by=supervisor)
+        # The site's technician if the work fits their day (its due date, or today when overdue); else the
+        # least-loaded technician with the skills if it fits theirs; else it waits on the board to be planned.
+        day = max(wo.due_date, today)
+        check = assignment_check(work_order=wo, technician=owner[wo.ahu.building.site_id], day=day)
+        if check.over or check.missing_skills:
+            pick = check.suggestion
+            if pick is None or pick[1].over:
+                continue
+            person = pick[0]
+        else:
+            person = check.technician
+        work_order_assign(work_order=wo, assignee=person, by=supervisor)
         count += 1
     # A technician with nothing due yet gets the soonest visit on their sites (theirs already, or still
     # unassigned) planned for today, so every demo technician signs in to a round whatever the date.

@@ -84,3 +84,15 @@ def _round_tasks_add(*, work_order: WorkOrder, chosen: list, due: dt.date) -> No
         for task in chosen
         for target in task_targets(task=task, ahu=ahu, components=components)
     )
+
+
+@transaction.atomic
+def demo_round_visit_due(*, work_order: WorkOrder, due: dt.date) -> WorkOrder:
+    """The demo round visit due on ``due`` (it and its tasks), its overdue day moved with it by the same grace."""
+    grace = (work_order.overdue_on - work_order.due_date).days if work_order.overdue_on else 0
+    work_order.tasks.update(due_date=due)
+    WorkOrder.objects.filter(pk=work_order.pk).update(
+        due_date=due, overdue_on=due + dt.timedelta(days=grace), version=work_order.version + 1
+    )
+    work_order.refresh_from_db()
+    return work_order

@@ -299,11 +299,14 @@ def _supervisor_emails(organisation_id: int) -> list[str]:
     ]
 
 
-def _email_supervisors_on_commit(organisation_id: int, subject: str, body: str) -> None:
+def _email_supervisors_on_commit(organisation_id: int, subject: str, body) -> None:
+    """Send once the transaction commits; ``body`` may be a function, then written at that moment (so it tells
+    what is true when the e-mail leaves, e.g. work assigned later in the same transaction)."""
+
     def send() -> None:
         to = _supervisor_emails(organisation_id)
         if to:
-            send_mail(subject, body, settings.DEFAULT_FROM_EMAIL, to)
+            send_mail(subject, body() if callable(body) else body, settings.DEFAULT_FROM_EMAIL, to)
 
     transaction.on_commit(send)
 
@@ -411,9 +414,18 @@ def corrective_work_order_propose(
         _email_supervisors_on_commit(
             organisation.pk,
             f"Urgent corrective work: {ahu.tag} at {site.name}",
-            f"{title}\n\n{reason}\n\nUnit {ahu.tag}, {site.name}. Ready to assign.",
+            lambda: f"{title}\n\n{reason}\n\nUnit {ahu.display_name}, {site.name}. {_who_now(wo)}",
         )
     return wo
+
+
+def _who_now(wo: WorkOrder) -> str:
+    """Where the work stands as the e-mail leaves: assigned to whom and for which day, or still to assign."""
+    wo = WorkOrder.objects.select_related("assignee").get(pk=wo.pk)
+    if wo.assignee_id is None:
+        return f"Not assigned yet: due {wo.due_date:%-d %b %Y}; assign it on the board."
+    day = wo.scheduled_for or wo.due_date
+    return f"Assigned to {wo.assignee} for {day:%-d %b %Y}."
 
 
 def _grace(priority: str) -> int:

@@ -80,7 +80,9 @@ def test_second_run_changes_nothing(loaded, capsys):
 
 
 def test_a_later_run_keeps_the_history_and_moves_the_round_to_its_day(loaded):
-    """load_demo on a later day writes no second history; each open round visit moves to that day."""
+    """load_demo on a later day writes no second history; each open round visit moves on: the first unit of each
+    technician's round to that day, a further one to the first weekday it fits in their capacity (never before
+    that day)."""
     inspections = Inspection.objects.count()
     rounds = set(WorkOrder.objects.filter(source_ref="demo:round").values_list("pk", flat=True))
     later = DECEMBER + dt.timedelta(days=1)
@@ -88,7 +90,8 @@ def test_a_later_run_keeps_the_history_and_moves_the_round_to_its_day(loaded):
         demo_load(today=later)
         assert Inspection.objects.count() == inspections
         assert set(WorkOrder.objects.filter(source_ref="demo:round").values_list("pk", flat=True)) == rounds
-        assert set(WorkOrder.objects.filter(pk__in=rounds).values_list("scheduled_for", flat=True)) == {later}
+        planned = set(WorkOrder.objects.filter(pk__in=rounds).values_list("scheduled_for", flat=True))
+        assert later in planned and min(planned) == later
         for username in ("ines.tech", "tomas.tech"):
             assert set(ROUND_TASKS) | set(ROUND_FIRST_UNIT_TASKS) <= _today_codes(username), username
 
@@ -140,6 +143,23 @@ def test_the_demo_walks_every_scenario_whatever_the_season(day, client):
         for ahu in units:  # never a pile of repeats: one open design review per unit and problem at most
             open_reviews = Finding.objects.filter(ahu=ahu, kind=Finding.Kind.DESIGN_REVIEW, state=Finding.State.OPEN)
             assert open_reviews.count() <= 1, ahu
+
+
+@pytest.mark.django_db
+@pytest.mark.parametrize("day", [OCTOBER, JULY, DECEMBER], ids=["late-october", "july", "december"])
+def test_the_demo_plans_no_technician_past_their_capacity(day):
+    """The demo plans as the board would: on no day of the coming fortnight does a technician's planned work
+    (tasks plus travel between sites, scheduling.selectors.technician_day_loads) pass their daily capacity,
+    so the board does not open on a red day."""
+    from accounts.models import Organisation
+    from scheduling.selectors import technician_day_loads
+
+    with _at(day):
+        demo_load(today=day)
+        for organisation in Organisation.objects.all():
+            for user, loads in technician_day_loads(organisation=organisation, start=day, days=14):
+                over = [(d.date, d.hours, d.capacity_hours) for d in loads if d.over]
+                assert not over, (user.username, over)
 
 
 @pytest.mark.django_db

@@ -123,6 +123,27 @@ def test_urgent_approved_corrective_emails_supervisors_after_commit(django_captu
     assert wo.approval == WorkOrder.Approval.APPROVED
     assert len(mail.outbox) == 1 and mail.outbox[0].to == ["lead@example.invalid"]
     assert ahu.tag in mail.outbox[0].subject
+    assert "Not assigned yet" in mail.outbox[0].body and "assign it on the board" in mail.outbox[0].body
+
+
+def test_urgent_corrective_email_tells_the_assignment_made_before_it_leaves(django_capture_on_commit_callbacks):
+    """Work assigned in the same transaction that proposed it: the e-mail, written as it leaves, says who has
+    it and for which day, never "assign it" for work already assigned."""
+    ahu = make_full_unit()
+    make_supervisor(ahu.building.site.organisation, email="lead@example.invalid")
+    tech = make_technician(ahu.building.site.organisation)
+    with django_capture_on_commit_callbacks(execute=True):
+        wo = corrective_work_order_propose(
+            ahu=ahu,
+            title="Fan not proven",
+            reason="no airflow",
+            condition_code="fan_not_proven",
+            priority="urgent",
+            approved=True,
+        )
+        work_order_assign(work_order=wo, assignee=tech, by=None)
+    body = mail.outbox[0].body
+    assert f"Assigned to {tech}" in body and "Not assigned" not in body and "assign it" not in body
 
 
 def test_overdue_escalation_once_a_week(django_capture_on_commit_callbacks):
