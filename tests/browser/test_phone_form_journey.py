@@ -63,6 +63,17 @@ def _answer_the_rest(page):
     numbers = {"filter_check.dp": "180", "controls_check.supply_air": "14", "controls_check.supply_setpoint": "14"}
     numbers |= {"controls_check.duct_static": "250", "controls_check.duct_static_setpoint": "250"}
     numbers |= {"damper_actuator.command": "50", "damper_actuator.position": "50", "damper_actuator.stroke_time": "90"}
+    numbers |= {"sensor_calibration.co2_sensor": "800", "sensor_calibration.co2_reference": "830"}
+    numbers |= {"sensor_calibration.temp_sensor": "14", "sensor_calibration.temp_reference": "14.2"}
+    numbers |= {"sensor_calibration.rh_sensor": "45", "sensor_calibration.rh_reference": "47"}
+    numbers |= {"sensor_calibration.pressure_sensor": "250", "sensor_calibration.pressure_reference": "252"}
+    numbers |= {
+        "ventilation_check.outdoor_air": "5",
+        "ventilation_check.return_air": "22",
+        "ventilation_check.mixed_air": "15",
+    }
+    numbers |= {"ventilation_check.outdoor_co2": "420", "ventilation_check.return_co2": "800"}
+    numbers |= {"ventilation_check.supply_co2": "650", "ventilation_check.oa_damper_position": "30"}
     for block in page.locator("form[data-checklist] [data-item]").all():
         kind = block.get_attribute("data-kind")
         if kind == "number":
@@ -96,7 +107,7 @@ def test_a_technician_fills_a_visit_faster_and_reads_it_all_in_us_units(page, li
     site.save(update_fields=["address", "latitude", "longitude"])
     before = timezone.now() - dt.timedelta(days=30)
     _previous_visit(world, before)
-    tasks_add(world.work_a, ["controls_check", "damper_actuator"], key="now")
+    tasks_add(world.work_a, ["controls_check", "damper_actuator", "sensor_calibration", "ventilation_check"], key="now")
     local_day = before.astimezone(zoneinfo.ZoneInfo(site.time_zone)).date()
     on = f"{local_day.day} {local_day:%b %Y}"
 
@@ -190,18 +201,37 @@ def test_a_technician_fills_a_visit_faster_and_reads_it_all_in_us_units(page, li
     assert not SI_TEXT.search(text), SI_TEXT.search(text)
     assert not DEBUG_TEXT.search(text), DEBUG_TEXT.search(text)
     page.screenshot(path=screenshots / "technician-phone-form-us-result-360.png", full_page=True)
+    # The signed record, once the server has it, reads in US units too.
+    page.reload()
+    wait_app(page)
+    expect(page.locator("main")).to_contain_text("Signed")
+    text = _visible_text(page)
+    assert not SI_TEXT.search(text), SI_TEXT.search(text)
+    assert not DEBUG_TEXT.search(text), DEBUG_TEXT.search(text)
+    page.screenshot(path=screenshots / "technician-phone-form-us-record-360.png", full_page=True)
 
-    # The calculator: every result in US units.
+    # "Done today": the visit signed a moment ago, at its time on the site's clock.
+    page.goto(f"{live_server.url}/today/")
+    done = page.locator(f"[data-done-today] [data-done='{world.work_a.public_id}']")
+    expect(done).to_contain_text("AHU-01")
+    expect(done).to_contain_text("Quarterly service")
+    expect(done).to_contain_text(re.compile(r"signed \d\d:\d\d site time"))
+    page.screenshot(path=screenshots / "technician-done-today-360.png", full_page=True)
+
+    # The calculator: every result in US units (values a technician would read in the field, in US units).
+    typed = {"t_outdoor_c": "41", "t_return_c": "72", "t_mixed_c": "59", "co2_outdoor_ppm": "420"}
+    typed |= {"co2_return_ppm": "800", "co2_supply_or_mixed_ppm": "650", "dp_pa": "0.75", "airflow_m3s": "1200"}
+    typed |= {"design_airflow_m3s": "1695", "clean_dp_pa": "0.36", "final_dp_pa": "1.20", "t_in_c": "41"}
+    typed |= {"t_out_c": "72"}
     page.goto(f"{live_server.url}/calc/")
     wait_app(page)
     for form in page.locator("form[data-calc]").all():
         for field in form.locator("input[type=number]").all():
-            low, high = field.get_attribute("data-min"), field.get_attribute("data-max")
-            value = (float(low) + float(high)) / 2 if low and high else 1
-            field.fill(f"{value:.2f}")
+            field.fill(typed[field.get_attribute("name")])
         form.get_by_role("button", name="Calculate").click()
-    page.wait_for_timeout(500)
+        expect(form.locator("[data-calc-result] table")).to_be_visible()
     text = _visible_text(page)
+    assert "1.20 in. w.c." in text or "1.2 in. w.c." in text
     assert not SI_TEXT.search(text), SI_TEXT.search(text)
     assert not DEBUG_TEXT.search(text), DEBUG_TEXT.search(text)
     page.screenshot(path=screenshots / "technician-calculator-us-360.png", full_page=True)
