@@ -33,17 +33,15 @@ REASON_MAX = UnitTaskSetting._meta.get_field("reason").max_length
 UNITS = TaskDefinition.IntervalUnit
 # (field, label, lowest, highest, unit words) of the plain whole numbers; the interval's highest depends on its unit.
 NUMBERS = {
-    "grace_days": ("Grace days", 0, GRACE_DAYS_MAX, "days"),
-    "lead_days": ("Lead time before the season", 0, LEAD_DAYS_MAX, "days"),
-    "run_hours": ("Run-hours between tasks", 1, RUN_HOURS_MAX, "h"),
+    "grace_days": ("Grace days before overdue", 0, GRACE_DAYS_MAX, "days"),
+    "lead_days": ("Lead time before the season (days)", 0, LEAD_DAYS_MAX, "days"),
+    "run_hours": ("Run-hours between tasks (h)", 1, RUN_HOURS_MAX, "h"),
 }
 
 LABELS = {
     "interval_value": "Interval",
     "interval_unit": "Interval unit",
-    "grace_days": "Grace days before overdue",
-    "lead_days": "Lead time before the season (days)",
-    "run_hours": "Run-hours between tasks (h)",
+    **{name: label for name, (label, *_) in NUMBERS.items()},
 }
 
 
