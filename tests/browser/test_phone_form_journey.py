@@ -210,6 +210,12 @@ def test_a_technician_fills_a_visit_faster_and_reads_it_all_in_us_units(page, li
     assert not DEBUG_TEXT.search(text), DEBUG_TEXT.search(text)
     page.screenshot(path=screenshots / "technician-phone-form-us-record-360.png", full_page=True)
 
+    # The unit's page (its parts and their specs) reads in US units as well.
+    page.goto(f"{live_server.url}/u/{world.unit_a.label_code}/")
+    text = _visible_text(page)
+    assert not SI_TEXT.search(text), SI_TEXT.search(text)
+    assert not DEBUG_TEXT.search(text), DEBUG_TEXT.search(text)
+
     # "Done today": the visit signed a moment ago, at its time on the site's clock.
     page.goto(f"{live_server.url}/today/")
     done = page.locator(f"[data-done-today] [data-done='{world.work_a.public_id}']")
