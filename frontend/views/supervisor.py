@@ -26,8 +26,8 @@ from inventory.models import AHU, Component
 from inventory.selectors import ahus_visible_to, component_tree, components_visible_to, sites_managed_by
 from inventory.specs import spec_fields
 from scheduling.inputs import stored_problems
-from scheduling.models import UnitTaskSetting, WorkOrder
-from scheduling.selectors import effective_tasks, site_today
+from scheduling.models import TaskDefinition, UnitTaskSetting, WorkOrder
+from scheduling.selectors import effective_tasks, site_today, skills_needed
 from scheduling.services.library import unit_task_set
 from scheduling.services.work_orders import (
     REJECT_REASON_MAX,
@@ -42,6 +42,9 @@ from ..specs_form import spec_initial, spec_rows, specs_from_post
 from .technician import unit_records_context
 
 MANAGING = {Role.SUPERVISOR, Role.ADMIN}
+
+
+SKILL_WORDS = {str(v): str(label).lower() for v, label in TaskDefinition.Skill.choices}
 
 
 def _organisation(request):
@@ -140,6 +143,12 @@ def board(request):
         for wo in c["rows"]:
             wo.findings_resolved = wo.pk in resolved
             wo.suggested = suggested.get(wo.pk)
+            # Work already with someone who lacks a skill its tasks name is marked, naming the skills.
+            wo.missing_skills = (
+                [SKILL_WORDS.get(s, s) for s in sorted(skills_needed(work_order=wo) - set(wo.assignee.skills or []))]
+                if wo.assignee_id
+                else []
+            )
     load = backends.technician_load(organisation=org, start=week, days=7)
     to_verify = list(backends.work_orders_to_verify(organisation=org))
     flagged = {f.work_order_id: f for f in backends.flagged_forms_for(user=request.user)}
@@ -234,7 +243,8 @@ def _managed_ahus(request):
 def registry(request):
     _organisation(request)
     units = _managed_ahus(request).annotate(n_components=Count("components")).order_by("building__site__name", "tag")
-    return render(request, "frontend/supervisor/registry.html", {"units": units})
+    sites = sites_managed_by(user=request.user).annotate(n_buildings=Count("buildings")).order_by("name")
+    return render(request, "frontend/supervisor/registry.html", {"units": units, "sites": sites})
 
 
 def _ahu(request, pk):

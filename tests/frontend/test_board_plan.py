@@ -153,3 +153,18 @@ def test_a_day_planned_years_ahead_names_its_year_and_that_it_is_after_the_overd
         page = client.get("/board/?week=2034-12-01").content.decode()
     assert "planned 1 Dec 2034" in page, "the work shows in the week it is planned for"
     assert f'data-work-order="{visit.public_id}"' not in this_week
+
+
+def test_work_with_someone_lacking_a_skill_it_needs_is_marked_naming_the_skill(scenario, login):
+    """A row already assigned to a technician without a skill its tasks name (here the electric preheater's
+    safety test, electrical) says so on the board, naming the person and the skill; a qualified one is not marked."""
+    scenario.technician.skills = ["mechanical"]
+    scenario.technician.save(update_fields=["skills"])
+    wo = make_work(ahu=scenario.unit_a, assignee=scenario.technician, title="Heater test", due=dt.date(2025, 3, 7))
+    add_task(wo, "preheater_freeze")
+    assert wo.tasks.get(task_code="preheater_freeze").task.skill == "electrical"
+    page = login(scenario.supervisor).get("/board/").content.decode()
+    assert f"{scenario.technician} lacks: electrical" in page
+    scenario.technician.skills = ["mechanical", "electrical"]
+    scenario.technician.save(update_fields=["skills"])
+    assert f"{scenario.technician} lacks:" not in login(scenario.supervisor).get("/board/").content.decode()
