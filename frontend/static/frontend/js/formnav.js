@@ -9,7 +9,8 @@ function answered(block) {
   if (na && na.checked) return true;
   if (block.dataset.kind === "number") {
     const input = block.querySelector("input[type=number]");
-    return Boolean(input && (input.value.trim() !== "" || (input.validity && input.validity.badInput)));
+    // A number the browser cannot read (1e400, "12..5") is not an answer yet: the form says so at the field.
+    return Boolean(input && input.value.trim() !== "");
   }
   return Boolean(block.querySelector("input[type=radio]:checked"));
 }
