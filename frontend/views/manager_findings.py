@@ -117,7 +117,9 @@ def findings_list(request):
         qs = (
             findings_visible_to(user=request.user)
             .exclude(close_cause=Finding.CloseCause.MERGED)
-            .select_related("ahu__building__site", "component", "corrective_work_order", "latest_evaluation")
+            .select_related(
+                "ahu__building__site", "component", "corrective_work_order", "latest_evaluation", "evaluation"
+            )
         )
         if chosen["state"] != "all":
             qs = qs.filter(state=chosen["state"])

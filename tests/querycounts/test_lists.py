@@ -42,6 +42,7 @@ PAGES = [
     ("supervisor", "/flagged/"),
     ("supervisor", "/corrective/"),
     ("property_manager", "/dashboard/"),
+    ("property_manager", "/site-findings/?state=all"),
 ]
 
 
