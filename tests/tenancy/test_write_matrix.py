@@ -68,6 +68,7 @@ class Write:
     in_body: the record is named in the body, so another organisation's may be a 400 naming the field.
     per_form: refusals of another organisation's records come per form in a 200 answer (the sync batch).
     own_org_only: the route writes into the person's own organisation, whatever the address says.
+    session: what the person's session holds before the request (a step begun on an earlier page).
     """
 
     who: frozenset
@@ -76,6 +77,7 @@ class Write:
     in_body: bool = False
     per_form: bool = False
     own_org_only: bool = False
+    session: Callable[[World, Corner], dict] | None = None
 
 
 # ---------------------------------------------------------------------------
@@ -342,6 +344,42 @@ WRITES: dict[tuple[str, str], Write] = {
     ("scheduling_api:task", "patch"): Write(
         MANAGERS, lambda w, c: Call({"code": "filter_check"}, {"interval_value": 2}), own_org_only=True
     ),
+    # Rules in the pages (the organisation's; a unit's are registry_rules above) and the registry's CSV import:
+    # checking a file stores nothing (the checked file waits in the person's session); confirming imports it.
+    ("frontend:rules", "post"): Write(
+        MANAGERS,
+        lambda w, c: Call(
+            body={
+                "task_code": "filter_check",
+                "action": "numbers",
+                "interval_value": "2",
+                "interval_unit": "months",
+                "grace_days": "7",
+                "reason": "probe",
+            },
+            fmt="form",
+        ),
+        own_org_only=True,
+    ),
+    ("frontend:registry_files", "post"): Write(
+        frozenset(),
+        lambda w, c: Call(body={"kind": "sites", "file": _csv(c).body["file"]}, fmt="multipart"),
+        kind="none",
+    ),
+    ("frontend:registry_import_confirm", "post"): Write(
+        MANAGERS,
+        lambda w, c: Call(body={"token": "probe-check"}, fmt="form"),
+        own_org_only=True,
+        session=lambda w, c: {
+            "registry_csv_checked": {
+                "token": "probe-check",
+                "kind": "sites",
+                "org": c.site.organisation.pk,
+                "text": "code,name,latitude,longitude,time_zone\nprobe-yard,Probe Yard,53.1,9.9,Europe/Berlin\n",
+                "name": "probe.csv",
+            }
+        },
+    ),
     # Planning and approving work: supervisors and admins.
     ("scheduling_api:work-order-assign", "post"): Write(
         MANAGERS, lambda w, c: _wo(c, assignee=_other_technician(w, c))
@@ -575,6 +613,10 @@ def _attempt(world: World, role: str, route: str, name: str, method: str, corner
     spec = WRITES[(name, method)]
     client = Client(raise_request_exception=False)
     client.force_login(world.person(role))
+    if spec.session is not None:
+        session = client.session
+        session.update(spec.session(world, corner))
+        session.save()
     with transaction.atomic():
         call = spec.call(world, corner) if spec.call else _default_call(name, route, corner)
         before = _snapshot()
