@@ -29,6 +29,7 @@ from django.views.decorators.http import require_POST
 from accounts.clock import day_text, local_time_text
 from accounts.inputs import shown
 from inspections.selectors import reason_for
+from inspections.services.findings import finding_work_order_attach
 from inventory.models import AHU
 from inventory.selectors import sites_managed_by
 from scheduling.models import TaskDefinition, WorkOrder
@@ -51,8 +52,8 @@ KIND_CHOICES = [
 ]
 # The fields the form shows errors beside; any other refusal is said at the top.
 SHOWN_AT_FIELD = frozenset(
-    {"unit", "kind", "title", "description", "priority", "due_date", "due_time", "due_by", "tasks", "task_name",
-     "task_minutes", "task_skill", "assignee"}
+    {"unit", "finding", "kind", "title", "description", "priority", "due_date", "due_time", "due_by", "tasks",
+     "task_name", "task_minutes", "task_skill", "assignee"}
 )  # fmt: skip
 _TIME = re.compile(r"([01]\d|2[0-3]):([0-5]\d)")
 
@@ -299,6 +300,8 @@ def work_new(request):
                 component=finding.component if finding is not None else None, assignee=technician,
                 source_ref=f"finding {finding.pk}: {finding.title}" if finding is not None else "",
             )  # fmt: skip
+            if finding is not None:
+                finding_work_order_attach(finding=finding, work_order=wo, by=request.user)
             if technician is not None:
                 # The board's own check, for this work on its day, before anything is kept.
                 check = assignment_check(work_order=wo, technician=technician, day=wo.scheduled_for)
@@ -316,7 +319,7 @@ def work_new(request):
                 "due_words": _say_due(wo),
                 "fields": [
                     (k, v) for k in post for v in post.getlist(k) if k not in {"csrfmiddlewaretoken", "assignee"}
-                ],  # noqa: E501
+                ],
             },
         )
     except ValidationError as exc:

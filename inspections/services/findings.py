@@ -714,3 +714,41 @@ def work_order_moved(sender, *, work_order, before: str, by, **kwargs) -> None:
         findings_close_corrected(work_order=work_order, by=by)
     elif before == WorkOrder.State.COMPLETED and work_order.state == WorkOrder.State.IN_PROGRESS:
         findings_reopen_for_rework(work_order=work_order, by=by)
+
+
+@transaction.atomic
+def finding_work_order_attach(*, finding: Finding, work_order, by) -> Finding:
+    """A supervisor's work order made for ``finding`` (frontend "Make a work order") becomes its corrective work:
+    the findings page says its state, and completing it closes the finding as corrected
+    (:func:`findings_close_corrected`). Refused when the finding already holds open corrective work, so one
+    fault never has two repairs running; a design review is never given corrective work."""
+    from django.core.exceptions import ValidationError
+
+    locked = Finding.objects.select_for_update(of=("self",)).select_related("corrective_work_order").get(pk=finding.pk)
+    if locked.state != Finding.State.OPEN:
+        raise ValidationError({"finding": [f"Finding: “{locked.title}” is {locked.get_state_display().lower()}"]})
+    if locked.kind == Finding.Kind.DESIGN_REVIEW:
+        raise ValidationError(
+            {"finding": [f"Finding: “{locked.title}” is a design review; it takes no corrective work"]}
+        )
+    held = locked.corrective_work_order
+    if _is_open_work(held) and held.pk != work_order.pk:
+        raise ValidationError(
+            {
+                "finding": [
+                    f"Finding: “{locked.title}” already has open corrective work, “{held.title}” "
+                    f"({held.state_words}); approve or assign that one instead"
+                ]
+            }
+        )
+    locked.corrective_work_order = work_order
+    locked.save(update_fields=["corrective_work_order"])
+    audit_record(
+        actor=_actor(by),
+        obj=locked,
+        action="finding_work_order_attach",
+        organisation=locked.organisation,
+        changes={"work_order": str(work_order.public_id), "replaced": str(held.public_id) if held else None},
+    )
+    finding.corrective_work_order = work_order
+    return locked

@@ -19,10 +19,12 @@ from django.urls import reverse
 from icalendar import Calendar
 
 from inspections.models import Finding
+from inspections.services.findings import findings_close_corrected
 from inventory.models import AHU
 from scheduling.calendar import feed_ics
 from scheduling.models import WorkOrder
 from scheduling.services.library import task_library_install
+from scheduling.services.work_orders import work_order_assign, work_order_complete
 from tests.factories.accounts import OrganisationFactory
 from tests.factories.inventory import AHUFactory, BuildingFactory, ComponentFactory, SiteFactory
 from tests.flows import board_world
@@ -221,7 +223,18 @@ def test_a_finding_offers_a_prefilled_work_order_that_needs_no_approval(desk, wo
     made = WorkOrder.objects.get(source_ref__startswith=f"finding {finding.pk}")
     assert (made.kind, made.approval, made.component) == ("corrective", "approved", part)
     assert made.state_words == "planned"
-    assert Finding.objects.get(pk=finding.pk).state == "open"
+    # It is the finding's corrective work now: the page says its state, and no second one is offered or taken.
+    assert Finding.objects.get(pk=finding.pk).corrective_work_order == made
+    findings_page = desk.get("/findings/").content.decode()
+    assert "Corrective work: approved · planned" in findings_page and "?finding=" not in findings_page
+    html = desk.post(NEW, body).content.decode()
+    assert "already has open corrective work, “Final filters loaded” (planned)" in html
+    assert WorkOrder.objects.filter(kind="corrective").count() == 1
+    # Done: completing it closes the finding as corrected.
+    work_order_assign(work_order=made, assignee=world.omar, by=world.supervisor)
+    done = work_order_complete(work_order=made, by=world.omar)
+    findings_close_corrected(work_order=done, by=world.supervisor)
+    assert Finding.objects.get(pk=finding.pk).state == "closed"
 
 
 def test_the_frost_check_from_a_site_says_what_it_made(desk, world):
