@@ -36,7 +36,10 @@ def test_the_property_manager_opens_a_finding_with_its_photo(
 ):
     w = findings
     context = browser.new_context(viewport=size)
-    page = sign_in(context.new_page(), w.s.manager_a)
+    blocked: list[str] = []
+    first = context.new_page()
+    first.on("console", lambda m: blocked.append(m.text) if "Content Security Policy" in m.text else None)
+    page = sign_in(first, w.s.manager_a)
     try:
         page.get_by_role("navigation", name="Main").get_by_role("link", name="Findings").click()
         expect(page.get_by_role("heading", name="Findings on your sites")).to_be_visible()
@@ -71,6 +74,7 @@ def test_the_property_manager_opens_a_finding_with_its_photo(
         no_sideways_scroll(page, size)
         page.screenshot(path=screenshots / f"manager-unit-{name}.png", full_page=True)
 
+        assert blocked == [], blocked  # the strict policy let everything on these pages load
         other = page.goto(f"{live_server.url}/site-findings/{w.finding_b.pk}/")
         assert other.status == 404
         photo_b = page.goto(f"{live_server.url}/api/inspections/photos/{w.photo_b.client_uuid}/thumbnail/")

@@ -182,3 +182,33 @@ def test_nav_has_findings_for_property_managers(w, client):
     """The property manager's menu names Findings beside Dashboard and Reports."""
     html = get(client, w.s.manager_a, "/dashboard/").content.decode()
     assert re.search(r'<a href="/site-findings/"[^>]*>Findings</a>', html)
+
+
+def test_a_closed_finding_reads_closed_with_its_day_and_cause(w, client):
+    """Closed findings are listed under Closed with the day they closed on the site's clock, and the page says
+    why; the open list no longer has them."""
+    from inspections.models import Finding
+
+    Finding.objects.filter(pk=w.finding_a.pk).update(
+        state="closed", closed_at=NOW, close_cause=Finding.CloseCause.OK_LATER
+    )
+    client.force_login(w.s.manager_a)
+    assert f'data-finding="{w.finding_a.pk}"' not in client.get("/site-findings/").content.decode()
+    html = client.get("/site-findings/?state=closed").content.decode()
+    row = text_of(html.split(f'data-finding="{w.finding_a.pk}"')[1].split("</tr>")[0])
+    assert "Closed 2 Dec 2026" in row
+    page = text_of(client.get(f"/site-findings/{w.finding_a.pk}/").content.decode())
+    assert "Closed since 2 Dec 2026: ok on a later visit" in page
+
+
+def test_a_design_review_says_no_corrective_work_is_proposed(w, client):
+    """A design review holds no work order: the list and the page say so in words, not a dash."""
+    from inspections.models import Finding
+
+    Finding.objects.filter(pk=w.finding_a.pk).update(kind=Finding.Kind.DESIGN_REVIEW, corrective_work_order=None)
+    client.force_login(w.s.manager_a)
+    html = client.get("/site-findings/").content.decode()
+    assert "Design review: no corrective work proposed" in text_of(html)
+    assert "Design review: no corrective work proposed" in text_of(
+        client.get(f"/site-findings/{w.finding_a.pk}/").content.decode()
+    )
