@@ -13,6 +13,7 @@ from playwright.sync_api import expect
 from tests.frontend.findings_world import NOW, build
 
 from .conftest import DESKTOP, PHONE
+from .test_pwa import _serious
 
 pytestmark = [pytest.mark.browser, pytest.mark.django_db(transaction=True)]
 
@@ -53,6 +54,7 @@ def test_the_property_manager_opens_a_finding_with_its_photo(
         expect(page.locator(f'tr[data-finding="{w.finding_b.pk}"]')).to_have_count(0)
         no_sideways_scroll(page, size)
         page.screenshot(path=screenshots / f"manager-findings-{name}.png", full_page=True)
+        assert _serious(page) == []  # axe-core: no serious or critical problem
 
         row.get_by_role("link", name="AHU-01 (North block)").click()
         expect(page.get_by_role("heading", level=1)).to_contain_text("Filter loaded")
@@ -66,6 +68,7 @@ def test_the_property_manager_opens_a_finding_with_its_photo(
             expect(main.get_by_role("button", name=verb)).to_have_count(0)
         no_sideways_scroll(page, size)
         page.screenshot(path=screenshots / f"manager-finding-{name}.png", full_page=True)
+        assert _serious(page) == []
 
         page.get_by_role("link", name="Unit AHU-01 (North block)").click()
         expect(page.get_by_role("heading", level=1)).to_contain_text("AHU-01")
@@ -73,6 +76,7 @@ def test_the_property_manager_opens_a_finding_with_its_photo(
         expect(page.get_by_role("button", name="Request unit history")).to_be_visible()
         no_sideways_scroll(page, size)
         page.screenshot(path=screenshots / f"manager-unit-{name}.png", full_page=True)
+        assert _serious(page) == []
 
         assert blocked == [], blocked  # the strict policy let everything on these pages load
         other = page.goto(f"{live_server.url}/site-findings/{w.finding_b.pk}/")
