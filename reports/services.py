@@ -29,7 +29,8 @@ def report_request(*, user: User, kind: str, parameters: dict[str, Any] | None =
     Every site, unit, component and work order named in ``parameters`` must be
     visible to ``user`` (``inventory.selectors``); one that is not — another
     organisation's site, say — raises ``Http404`` naming it. Bad inputs raise
-    ``ValidationError`` naming the field. The render task is queued after commit.
+    ``ValidationError`` naming the field. The render task is queued after commit. The same request made again
+    while the first is still waiting or being made returns that report (``repeated`` set), not a second row.
     """
     documents = registry()
     if kind not in documents:
@@ -42,6 +43,10 @@ def report_request(*, user: User, kind: str, parameters: dict[str, Any] | None =
         )
     requested_at = timezone.now().replace(microsecond=0)
     prepared = documents[kind].prepare(user=user, parameters=dict(parameters or {}), requested_at=requested_at)
+    same = _same_request(user=user, kind=kind, parameters=prepared.parameters, pdfa=pdfa)
+    if same is not None:
+        same.repeated = True
+        return same
     report = Report.objects.create(
         organisation_id=prepared.organisation_id,
         kind=kind,
@@ -54,6 +59,18 @@ def report_request(*, user: User, kind: str, parameters: dict[str, Any] | None =
     report_id = report.pk
     transaction.on_commit(lambda: _enqueue(report_id))
     return report
+
+
+def _same_request(*, user: User, kind: str, parameters: dict, pdfa: bool) -> Report | None:
+    """The person's identical request (kind, checked parameters, PDF/A) still waiting or being made: asking
+    twice gives one report, not two rows of the same record. A finished one is not reused (the records may
+    have changed since); the pages also send a form only once per tap (app.js)."""
+    waiting = (
+        Report.objects.select_for_update()
+        .filter(requested_by=user, kind=kind, pdfa=pdfa, status__in=[Report.Status.QUEUED, Report.Status.RUNNING])
+        .order_by("-created_at")
+    )
+    return next((r for r in waiting if r.parameters == parameters), None)
 
 
 def _enqueue(report_id: int) -> None:

@@ -151,7 +151,13 @@ def record_request(request):
             text = f"{label_of(field_name)}:{text.split(':', 1)[1]}" if ":" in text else text
         return _refused(request, kind, {field_name: text}, status=404)
     report.refresh_from_db(fields=["status", "error"])  # rendered already when Celery runs in-process
-    if report.status == "done":
+    if getattr(report, "repeated", False):
+        messages.info(
+            request,
+            f"{report.get_kind_display()}: the same as the one you asked for just before; it is listed below,"
+            " not made twice.",
+        )
+    elif report.status == "done":
         messages.success(request, f"{report.get_kind_display()} is ready to download.")
     elif report.status == "failed":
         messages.error(request, f"{report.get_kind_display()} could not be made: {report.error[:200]}")

@@ -52,3 +52,17 @@ def test_dashboard_is_a_stack_of_cards_on_a_phone(browser, live_server, world, s
     expect(page.locator("tr[data-site] td[data-label='Overdue now']")).to_be_visible()
     page.screenshot(path=screenshots / "manager-dashboard-cards-360.png", full_page=True)
     ctx.close()
+
+
+def test_a_double_tap_on_request_asks_for_one_report(browser, live_server, world, sign_in):
+    """An impatient double tap on "Request compliance report" sends the form once: one report in the list."""
+    ctx = browser.new_context(viewport=PHONE)
+    page = sign_in(ctx.new_page(), world.manager_a)
+    page.goto(f"{live_server.url}/dashboard/site/{world.site_a.pk}/")
+    wait_app(page)
+    page.get_by_role("button", name="Request compliance report").dblclick()
+    expect(page).to_have_url(re.compile(r"/records/"))
+    wait_app(page)
+    assert Report.objects.filter(requested_by=world.manager_a).count() == 1
+    expect(page.locator("[data-report]")).to_have_count(1)
+    ctx.close()

@@ -203,3 +203,22 @@ def test_api_client_downloads_with_its_token(org, supervisor, unit, foreign_unit
     stranger = make_person(organisation=OrganisationFactory(name="Other Facilities"), role=Role.SUPERVISOR)
     api.credentials(HTTP_AUTHORIZATION=f"Token {api_token_issue(user=stranger).key}")
     assert api.get(url).status_code == 404
+
+
+def test_asking_the_same_report_twice_while_it_is_made_gives_one_report(
+    supervisor, unit, django_capture_on_commit_callbacks
+):
+    """A double tap or a resent form while the first is still queued: the same person asking the same report
+    (same checked inputs) gets that report back, not a second row; other inputs, or a finished report, are new."""
+    with django_capture_on_commit_callbacks(execute=False):
+        first = report_request(user=supervisor, kind="labels", parameters={"units": [unit.pk]})
+    with django_capture_on_commit_callbacks(execute=False):
+        again = report_request(user=supervisor, kind="labels", parameters={"units": [unit.pk]})
+    assert again.pk == first.pk and again.repeated and Report.objects.count() == 1
+    with django_capture_on_commit_callbacks(execute=False):
+        other = report_request(user=supervisor, kind="labels", parameters={"units": [unit.pk], "layout": "letter-3x10"})
+    assert other.pk != first.pk and Report.objects.count() == 2
+    report_render(report_id=first.pk)
+    with django_capture_on_commit_callbacks(execute=False):
+        later = report_request(user=supervisor, kind="labels", parameters={"units": [unit.pk]})
+    assert later.pk not in (first.pk, other.pk)

@@ -111,8 +111,37 @@ function keepClearOfOutbox() {
   measure();
 }
 
+// A page form is sent once per tap: a second tap (or a double click) while the answer is on its way does not
+// post it again (two report requests, two assignments). Forms run by a module (checklist, calculator, sign-out)
+// are left to it. The buttons come back when the page is shown again from history, or after a while when the
+// answer was a download that left the page where it was.
+function sendOnce(event) {
+  const form = event.target;
+  if (form.dataset.sending) { event.preventDefault(); return; }
+  form.dataset.sending = "1";
+  const buttons = [...form.querySelectorAll("button[type=submit], button:not([type]), input[type=submit]")];
+  // Disabled after this turn, so the tapped button's own name and value still go with the form.
+  setTimeout(() => { for (const b of buttons) b.disabled = true; }, 0);
+  setTimeout(() => { delete form.dataset.sending; for (const b of buttons) b.disabled = false; }, 8000);
+}
+
+function guardForms() {
+  for (const form of document.querySelectorAll("form[method=post], form[method=POST]")) {
+    if (form.matches("[data-checklist], [data-calc], [data-sign-out]")) continue;
+    form.addEventListener("submit", sendOnce);
+  }
+  window.addEventListener("pageshow", (event) => {
+    if (!event.persisted) return;
+    for (const form of document.querySelectorAll("form[data-sending]")) {
+      delete form.dataset.sending;
+      for (const b of form.querySelectorAll("button, input[type=submit]")) b.disabled = false;
+    }
+  });
+}
+
 async function start() {
   keepClearOfOutbox();
+  guardForms();
   document.addEventListener("plenum:outbox", renderOutbox);
   window.addEventListener("online", () => { renderOutbox(); syncOutbox(); });
   window.addEventListener("offline", renderOutbox);
