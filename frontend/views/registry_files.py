@@ -170,7 +170,9 @@ def _page(request, *, org, status: int = 200, **context):
     label_groups = []
     for site in sites:
         buildings = [(b, [a.pk for a in b.ahus.all()]) for b in site.buildings.all()]
-        label_groups.append({"site": site, "buildings": [(b, ids) for b, ids in buildings if ids]})
+        with_units = [(b, ids) for b, ids in buildings if ids]
+        if with_units:  # a site without units has no labels to print
+            label_groups.append({"site": site, "buildings": with_units})
     system = getattr(request.user, "unit_system", "si")
     return render(
         request,
@@ -183,7 +185,7 @@ def _page(request, *, org, status: int = 200, **context):
             "layouts": LAYOUTS,
             "default_layout": "letter-3x10" if system == "us" else "a4-3x8",
             "max_size": _size(MAX_BYTES),
-            "max_rows": MAX_ROWS,
+            "max_rows": f"{MAX_ROWS:,}",
             **context,
         },
         status=status,
@@ -313,7 +315,9 @@ def import_confirm(request):
     messages.success(
         request, f"Imported {name}: {result.created} new, {result.updated} updated ({KIND_NAMES[kind].lower()})."
     )
-    return _page(request, org=org, kind=kind, done=done)
+    # The next file in the import's order is the likely next one.
+    following = csv_io.KINDS[min(csv_io.KINDS.index(kind) + 1, len(csv_io.KINDS) - 1)]
+    return _page(request, org=org, kind=following, done=done)
 
 
 # ---------------------------------------------------------------------------
