@@ -70,7 +70,7 @@ def test_us_manager_reads_the_reading_and_limit_in_us_units(w, client):
     html = get(client, w.manager_us, "/site-findings/").content.decode()
     row = text_of(html.split(f'data-finding="{w.finding_a.pk}"')[1].split("</tr>")[0])
     assert "1.73 in. w.c." in row and "final 1.00 in. w.c." in row
-    assert " Pa" not in row
+    assert " Pa" not in row and "L/s" not in row and "cfm" in row  # the airflow it was read at, too
     page = text_of(get(client, w.manager_us, f"/site-findings/{w.finding_a.pk}/").content.decode())
     assert "1.73 in. w.c." in page and " Pa " not in page
 
@@ -165,6 +165,7 @@ def test_unit_page_from_her_site_page_and_the_unit_history_in_her_units(w, clien
     assert "Final filters" in page and "Pre-filters" in page
     assert "1 Dec 2026" in page and "Filter check" in page
     assert "Freeze protection" in page
+    assert "cfm" in page and "L/s" not in page  # the design airflow in her units
     assert f"/site-findings/{w.finding_a.pk}/" in res.content.decode()
     assert "Request unit history" in page
     with django_capture_on_commit_callbacks(execute=False):
