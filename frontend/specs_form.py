@@ -102,6 +102,39 @@ def specs_from_post(*, kind: str, post, system: str) -> tuple[dict, dict]:
                 errors[s.name] = [f"{s.label}: {raw[:40]} {unit} is out of range; allowed: {allowed}"]
                 continue
             specs[s.name] = value
+        elif s.kind == "choice" and raw not in s.choices:
+            errors[s.name] = [f"{s.label}: {raw[:40]!r} is not one of the choices; allowed: {s.allowed()}"]
         else:
             specs[s.name] = raw
+    errors.update(_plain_checks(kind=kind, specs=specs, errors=errors, system=system))
     return specs, errors
+
+
+def _plain_checks(*, kind: str, specs: dict, errors: dict, system: str) -> dict:
+    """What the registry's validator would refuse, said beside the field in the person's units: a required
+    value left empty, and the cross-field rules a person meets on a form (inventory.specs._cross_checks)."""
+    out: dict[str, list[str]] = {}
+    fields = {s.name: s for s in spec_fields(kind)}
+    for s in fields.values():
+        if s.required and s.kind != "bool" and s.name not in specs and s.name not in errors:
+            out[s.name] = [f"{s.label} is required for this part; allowed: {_allowed_shown(s, system)}"]
+    if kind == "filter_bank":
+        clean, final = specs.get("clean_dp_pa"), specs.get("final_dp_pa")
+        if clean is not None and final is not None and final <= clean:
+            unit = unit_label(quantity="pressure", system=system)
+            out["clean_dp_pa"] = [
+                f"{fields['clean_dp_pa'].label}: {_shown(fields['clean_dp_pa'], clean, system):g} {unit} is not below "
+                f"the final (change) pressure drop of {_shown(fields['final_dp_pa'], final, system):g} {unit}; "
+                "allowed: a clean filter's pressure drop below the one at which filters are changed"
+            ]
+        if not specs.get("merv") and not specs.get("iso_16890") and "merv" not in errors:
+            out["merv"] = ["MERV class or ISO 16890 group: neither is given; allowed: one of them, or both"]
+    return out
+
+
+def _allowed_shown(s: SpecField, system: str) -> str:
+    q = _quantity(s)
+    if q and s.minimum is not None and s.maximum is not None:
+        unit = unit_label(quantity=q, system=system)
+        return f"a number from {_shown(s, s.minimum, system):g} to {_shown(s, s.maximum, system):g} {unit}"
+    return s.allowed()

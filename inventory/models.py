@@ -69,6 +69,10 @@ class Site(models.Model):
     code = models.SlugField(max_length=40, help_text="Short code, unique in the organisation.")
     name = models.CharField(max_length=200)
     address = models.TextField(blank=True)
+    access_notes = models.TextField(
+        blank=True,
+        help_text="How a technician gets in and up to the plant: keys, reception, parking, roof access, escorts.",
+    )
     latitude = models.FloatField(validators=[MinValueValidator(-90), MaxValueValidator(90)])
     longitude = models.FloatField(validators=[MinValueValidator(-180), MaxValueValidator(180)])
     altitude_m = models.FloatField(default=0, validators=[MinValueValidator(-500), MaxValueValidator(5000)])
@@ -341,6 +345,9 @@ class Component(models.Model):
     specs = models.JSONField(default=dict, blank=True)
     position = models.PositiveSmallIntegerField(default=0, help_text="Order along the airstream.")
     installed_on = models.DateField(null=True, blank=True)
+    # A part taken out of the unit keeps its row and its records (readings, findings, work) as history;
+    # from this day it gets no new work and is left out of checklists.
+    retired_on = models.DateField(null=True, blank=True, editable=False)
 
     class Meta:
         ordering = ["ahu", "position", "id"]

@@ -46,15 +46,19 @@ def _text(response) -> str:
 
 
 def _unit_form(ahu: AHU, **changes) -> dict:
-    from frontend.views.supervisor import UNIT_FIELDS
+    """The unit form as it opens (airflow in L/s, the person's units), with ``changes`` typed over it."""
+    from frontend.views.registry_pages import unit_form_initial
 
-    data = {name: "" if getattr(ahu, name) is None else str(getattr(ahu, name)) for name in UNIT_FIELDS}
+    data = {
+        k: "1" if v is True else "" if v in (None, False) else str(v)
+        for k, v in unit_form_initial(ahu=ahu, system="si").items()
+    }
     return {**data, **changes}
 
 
 @pytest.mark.parametrize(
     ("typed", "said"),
-    [("nan", "'nan' is not a finite number"), ("inf", "'inf' is not a finite number"), ("1e308", "1e+308 m³/s is out")],
+    [("nan", "'nan' is not a finite number"), ("inf", "'inf' is not a finite number"), ("1e308", "1e308 L/s is out")],
 )
 def test_the_unit_form_refuses_nan_inf_and_1e308_naming_field_value_and_range(world, client, typed, said):
     """'nan', 'inf' and 1e308 typed as the design airflow are refused beside the field, with the range; nothing
@@ -66,7 +70,7 @@ def test_the_unit_form_refuses_nan_inf_and_1e308_naming_field_value_and_range(wo
         r = client.post(f"/registry/unit/{ahu.pk}/edit/", _unit_form(ahu, design_supply_airflow_m3s=typed))
     assert r.status_code == 200
     assert f"Design supply airflow: {said}" in _text(r)
-    assert "allowed: a number from 0.01 to 100 m³/s" in _text(r)
+    assert "allowed: a number from 10 to 100000 L/s" in _text(r)
     ahu.refresh_from_db()
     assert ahu.design_supply_airflow_m3s == before
     api = APIClient()

@@ -107,7 +107,7 @@ def test_supervisor_sets_the_configuration_on_the_unit_form_in_plain_words(world
         "tag": ahu.tag,
         "location": ahu.location,
         "area_served": ahu.area_served,
-        "design_supply_airflow_m3s": "3.0",
+        "design_supply_airflow_m3s": "3000",  # L/s: the form speaks the person's units
         "design_min_oa_fraction": "0.25",
         "ventilation_zones": "single_zone",
         "air_distribution": "ceiling_supply_cool",

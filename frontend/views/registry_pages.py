@@ -1,0 +1,895 @@
+"""Registry pages of the staff (supervisor and administrator): add and edit sites, buildings, units and their
+component trees, move a unit to another building, retire a unit or a part with its history kept.
+
+Every form shows its numbers in the person's units (engineering.units: airflow in L/s or cfm, temperatures in °C
+or °F, pressures in Pa or in. w.c.) and every refusal beside its field, with the value as typed and what is
+allowed. Writes go through inventory.services (audited); nothing is saved while any field is refused.
+"""
+
+from __future__ import annotations
+
+import math
+import zoneinfo
+from dataclasses import dataclass
+
+from django.contrib import messages
+from django.contrib.auth.decorators import login_required
+from django.core.exceptions import PermissionDenied, ValidationError
+from django.http import Http404
+from django.shortcuts import redirect, render
+from django.urls import reverse
+from django.utils import timezone
+from django.utils.text import slugify
+
+from accounts.inputs import FieldErrors, check_date, check_integer, check_text, number_allowed, parse_number
+from engineering.errors import EngineeringInputError
+from engineering.units import from_display, to_display, unit_label
+from inventory import services as inventory_services
+from inventory.inputs import AHU_NUMBERS
+from inventory.models import AHU, Building, Component, ComponentKind, Site
+from inventory.selectors import component_tree, components_visible_to, sites_managed_by, sites_visible_to
+from inventory.specs import spec_fields
+from scheduling.services.retire import unit_retire as unit_retire_service
+
+from ..specs_form import spec_rows, specs_from_post
+from .supervisor import _ahu, _managed_ahus, _organisation
+
+REFUSED = "Only a supervisor or administrator of the organisation may change the registry."
+
+
+# ---------------------------------------------------------------------------
+# Records named in the address: managed → the record; visible only → 403; otherwise → 404.
+# ---------------------------------------------------------------------------
+def _site(request, pk) -> Site:
+    site = sites_managed_by(user=request.user).filter(pk=pk).first()
+    if site is None:
+        if sites_visible_to(user=request.user).filter(pk=pk).exists():
+            raise PermissionDenied(REFUSED)
+        raise Http404("No such site that you manage.")
+    return site
+
+
+def _managed_buildings(request):
+    return Building.objects.filter(site__in=sites_managed_by(user=request.user)).select_related("site")
+
+
+def _building(request, pk) -> Building:
+    building = _managed_buildings(request).filter(pk=pk).first()
+    if building is None:
+        if Building.objects.filter(site__in=sites_visible_to(user=request.user), pk=pk).exists():
+            raise PermissionDenied(REFUSED)
+        raise Http404("No such building that you manage.")
+    return building
+
+
+def _component(request, pk) -> Component:
+    component = Component.objects.filter(ahu__in=_managed_ahus(request), pk=pk).select_related("ahu__building").first()
+    if component is None:
+        if components_visible_to(user=request.user).filter(pk=pk).exists():
+            raise PermissionDenied(REFUSED)
+        raise Http404("No such component that you manage.")
+    return component
+
+
+# ---------------------------------------------------------------------------
+# One form field: how it is shown, read and refused.
+# ---------------------------------------------------------------------------
+@dataclass(frozen=True)
+class Field:
+    name: str
+    label: str
+    kind: str = "text"  # text | lines | number | integer | choice | bool | date
+    required: bool = False
+    max_length: int = 200
+    minimum: float | None = None  # SI
+    maximum: float | None = None
+    unit: str = ""  # a unit with no display quantity (people, fraction…)
+    quantity: str | None = None  # engineering.units quantity: shown and typed in the person's units
+    choices: tuple = ()
+    hint: str = ""
+
+
+def _fmt(value: float) -> str:
+    return f"{round(value, 4):.10g}"
+
+
+def _shown_value(field: Field, value, system: str):
+    """A stored value as the form shows it (SI → the person's units)."""
+    if value is None:
+        return ""
+    if field.kind == "number" and field.quantity and isinstance(value, int | float):
+        return _fmt(to_display(value=value, quantity=field.quantity, system=system))
+    if field.kind == "number" and isinstance(value, int | float):
+        return _fmt(value)
+    if field.kind == "date":
+        return value.isoformat()
+    return value
+
+
+def _unit_text(field: Field, system: str) -> str:
+    return unit_label(quantity=field.quantity, system=system) if field.quantity else field.unit
+
+
+def _allowed(field: Field, system: str) -> str:
+    if field.kind == "number":
+        return number_allowed(
+            minimum=field.minimum, maximum=field.maximum, unit=field.unit, quantity=field.quantity, system=system
+        )
+    if field.kind == "integer":
+        return f"a whole number from {field.minimum:g} to {field.maximum:g}{f' {field.unit}' if field.unit else ''}"
+    if field.kind == "choice":
+        return "one of " + ", ".join(str(label) for _, label in field.choices)
+    if field.kind == "date":
+        return "a date as YYYY-MM-DD"
+    if field.kind == "bool":
+        return "ticked or not"
+    return f"text of at most {field.max_length} characters"
+
+
+def _number(field: Field, raw: str, *, system: str, errors: FieldErrors):
+    """A number typed in the person's units → SI, refused as typed (never rounded back) when it is not one or
+    is out of range."""
+    allowed = _allowed(field, system)
+    if not raw.strip():
+        if field.required:
+            errors.add(field.name, f"{field.label} is required; allowed: {allowed}")
+        return None
+    typed = parse_number(raw)
+    if typed is None:
+        errors.add(field.name, f"{field.label}: {raw.strip()[:40]!r} is not a finite number; allowed: {allowed}")
+        return None
+    try:
+        value = from_display(value=typed, quantity=field.quantity, system=system) if field.quantity else typed
+    except (EngineeringInputError, OverflowError):
+        value = math.inf
+    # A value typed at the edge of the range in another unit may convert a hair past it.
+    slack = 1e-9 * max(abs(field.minimum), abs(field.maximum), 1)
+    if not math.isfinite(value) or not field.minimum - slack <= value <= field.maximum + slack:
+        unit = _unit_text(field, system)
+        errors.add(
+            field.name,
+            f"{field.label}: {raw.strip()[:40]}{f' {unit}' if unit else ''} is out of range; allowed: {allowed}",
+        )
+        return None
+    return min(max(value, field.minimum), field.maximum)
+
+
+def _read(fields: list[Field], post, *, system: str, today) -> tuple[dict, FieldErrors]:
+    """Clean values of every field present in the form, and every refusal keyed by field."""
+    errors = FieldErrors()
+    clean: dict = {}
+    for f in fields:
+        raw = post.get(f.name, "")
+        if f.kind == "bool":
+            clean[f.name] = raw in {"1", "on", "true"}
+        elif f.kind == "number":
+            clean[f.name] = _number(f, raw, system=system, errors=errors)
+        elif f.kind == "integer":
+            clean[f.name] = check_integer(
+                raw,
+                key=f.name,
+                label=f.label,
+                errors=errors,
+                minimum=int(f.minimum),
+                maximum=int(f.maximum),
+                unit=f.unit,
+                required=f.required,
+            )
+        elif f.kind == "choice":
+            values = [str(v) for v, _ in f.choices]
+            if raw not in values:
+                if raw or f.required:
+                    errors.add(
+                        f.name, f"{f.label}: {raw[:40]!r} is not one of the choices; allowed: {_allowed(f, system)}"
+                    )
+                clean[f.name] = None
+            else:
+                clean[f.name] = raw
+        elif f.kind == "date":
+            clean[f.name] = check_date(raw, key=f.name, label=f.label, errors=errors, today=today) if raw else None
+        else:
+            value = check_text(
+                raw,
+                key=f.name,
+                label=f.label,
+                max_length=f.max_length,
+                errors=errors,
+                lines=f.kind == "lines",
+                required=f.required,
+            )
+            clean[f.name] = value if value is not None else ""
+    return clean, errors
+
+
+def _rows(fields: list[Field], *, values: dict, errors: dict, system: str) -> list[dict]:
+    """What the template draws for each field: label with its unit, the value (as typed after a refusal), the
+    allowed values and the refusals."""
+    rows = []
+    for f in fields:
+        unit = _unit_text(f, system)
+        rows.append(
+            {
+                "name": f.name,
+                "id": f"f-{f.name}",
+                "label": f"{f.label} ({unit})" if unit and f.kind in {"number", "integer"} else f.label,
+                "kind": f.kind,
+                "unit": unit,
+                "required": f.required,
+                "value": values.get(f.name, ""),
+                "choices": [(str(v), label) for v, label in f.choices],
+                "hint": f.hint,
+                "allowed": _allowed(f, system),
+                "errors": errors.get(f.name, []),
+                "maxlength": f.max_length,
+            }
+        )
+    return rows
+
+
+def _spec_as_rows(kind: str, *, values: dict, errors: dict, system: str) -> list[dict]:
+    """The kind's spec fields (frontend.specs_form) in the same shape as the other rows."""
+    out = []
+    for r in spec_rows(fields=spec_fields(kind), values=values, errors=errors, system=system):
+        s = r["spec"]
+        number = s.kind in {"number", "integer"}
+        out.append(
+            {
+                "name": r["name"],
+                "id": r["id"],
+                "label": f"{s.label} ({r['unit']})" if number and r["unit"] else s.label,
+                "kind": {"choice": "choice", "bool": "bool", "date": "date"}.get(
+                    s.kind, "number" if number else "text"
+                ),
+                "unit": r["unit"] if number else "",
+                "required": s.required,
+                "value": r["value"],
+                "choices": [(c, c) for c in s.choices],
+                "hint": "",
+                "allowed": r["allowed"],
+                "errors": r["errors"],
+                "maxlength": r["maxlength"],
+            }
+        )
+    return out
+
+
+def _service_errors(exc: ValidationError) -> dict[str, list[str]]:
+    errors = exc.message_dict if hasattr(exc, "error_dict") else {"__all__": exc.messages}
+    return {key.removeprefix("specs."): list(texts) for key, texts in errors.items()}
+
+
+def _page(
+    request,
+    *,
+    title: str,
+    rows: list[dict],
+    errors: dict,
+    back: str,
+    submit: str,
+    intro: str = "",
+    extra: list[dict] | None = None,
+    extra_title: str = "",
+    status: int = 200,
+    hidden: dict | None = None,
+):
+    shown = {r["name"].removeprefix("spec_") for r in [*rows, *(extra or [])]}
+    loose = [t for key, texts in errors.items() if key not in shown for t in texts]
+    return render(
+        request,
+        "frontend/registry/form.html",
+        {
+            "title": title,
+            "intro": intro,
+            "rows": rows,
+            "extra": extra or [],
+            "extra_title": extra_title,
+            "refused": bool(errors),
+            "loose": loose,
+            "back": back,
+            "submit": submit,
+            "hidden": hidden or {},
+        },
+        status=status,
+    )
+
+
+def _unique_code(name: str, taken) -> str:
+    base = (slugify(name) or "x")[:34]
+    code, n = base, 2
+    while code in taken:
+        code, n = f"{base}-{n}", n + 1
+    return code
+
+
+# ---------------------------------------------------------------------------
+# Sites
+# ---------------------------------------------------------------------------
+TIME_ZONES = tuple((z, z) for z in sorted(zoneinfo.available_timezones()) if "/" in z or z == "UTC")
+
+
+def _site_fields() -> list[Field]:
+    return [
+        Field("name", "Site name", required=True),
+        Field("address", "Address", kind="lines", max_length=1000, hint="Street, town and postcode, as for a visit."),
+        Field(
+            "latitude",
+            "Latitude",
+            kind="number",
+            required=True,
+            minimum=-90,
+            maximum=90,
+            unit="°",
+            hint="North is positive; it sets the site's seasons (for example 51.5).",
+        ),
+        Field(
+            "longitude",
+            "Longitude",
+            kind="number",
+            required=True,
+            minimum=-180,
+            maximum=180,
+            unit="°",
+            hint="East is positive (for example -0.12).",
+        ),
+        Field(
+            "time_zone",
+            "Time zone",
+            kind="choice",
+            required=True,
+            choices=TIME_ZONES,
+            hint="The site's clock: due dates and visit times are in it.",
+        ),
+        Field(
+            "access_notes",
+            "Access notes for technicians",
+            kind="lines",
+            max_length=2000,
+            hint="Keys, reception, parking, roof or plant-room access, escorts; shown to the technician on the phone.",
+        ),
+    ]
+
+
+def _site_form(request, site: Site | None):
+    system = request.user.unit_system
+    fields = _site_fields()
+    org = site.organisation if site else _organisation(request)
+    values = {f.name: _shown_value(f, getattr(site, f.name), system) for f in fields} if site else {}
+    if site is None:
+        values["time_zone"] = org.sites.values_list("time_zone", flat=True).first() or "UTC"
+    errors: dict = {}
+    if request.method == "POST":
+        clean, errors = _read(fields, request.POST, system=system, today=timezone.localdate())
+        values = {f.name: request.POST.get(f.name, "") for f in fields}
+        name = clean.get("name")
+        if name and Site.objects.filter(organisation=org, name__iexact=name).exclude(pk=getattr(site, "pk", None)):
+            errors.add(
+                "name",
+                f"Site name: {name!r} is already a site of {org.name}; allowed: a name no other "
+                "site of the organisation has",
+            )
+        if not errors:
+            try:
+                if site is None:
+                    taken = set(org.sites.values_list("code", flat=True))
+                    site = inventory_services.site_create(
+                        by=request.user, organisation=org, code=_unique_code(name, taken), **clean
+                    )
+                    messages.success(request, f"Site {site.name} added. Add its buildings next.")
+                else:
+                    inventory_services.site_update(site=site, by=request.user, **clean)
+                    messages.success(request, f"Site {site.name} saved.")
+                return redirect("frontend:registry_site", pk=site.pk)
+            except ValidationError as exc:
+                errors = _service_errors(exc)
+    rows = _rows(fields, values=values, errors=errors, system=system)
+    if site is None or site.pk is None:
+        return _page(
+            request,
+            title="Add a site",
+            rows=rows,
+            errors=errors,
+            back=reverse("frontend:registry"),
+            submit="Add site",
+            status=400 if errors else 200,
+        )
+    return render(
+        request,
+        "frontend/registry/site.html",
+        {
+            "site": site,
+            "rows": rows,
+            "refused": bool(errors),
+            "loose": [t for k, ts in errors.items() if k not in {f.name for f in fields} for t in ts],
+            "buildings": site.buildings.order_by("name").prefetch_related("ahus"),
+        },
+        status=400 if errors else 200,
+    )
+
+
+@login_required
+def site_new(request):
+    _organisation(request)
+    return _site_form(request, None)
+
+
+@login_required
+def site_edit(request, pk):
+    return _site_form(request, _site(request, pk))
+
+
+# ---------------------------------------------------------------------------
+# Buildings
+# ---------------------------------------------------------------------------
+BUILDING_FIELDS = [
+    Field("name", "Building name", required=True),
+    Field("floors", "Floors", kind="integer", minimum=0, maximum=300, hint="Leave empty if not known."),
+]
+
+
+def _building_form(request, *, site: Site, building: Building | None):
+    system = request.user.unit_system
+    values = {f.name: _shown_value(f, getattr(building, f.name), system) for f in BUILDING_FIELDS} if building else {}
+    errors: dict = {}
+    if request.method == "POST":
+        clean, errors = _read(BUILDING_FIELDS, request.POST, system=system, today=timezone.localdate())
+        values = {f.name: request.POST.get(f.name, "") for f in BUILDING_FIELDS}
+        name = clean.get("name")
+        twin = site.buildings.filter(name__iexact=name).exclude(pk=getattr(building, "pk", None)) if name else None
+        if twin:
+            errors.add(
+                "name",
+                f"Building name: {name!r} is already a building of {site.name}; allowed: a name no "
+                "other building of the site has",
+            )
+        if not errors:
+            try:
+                if building is None:
+                    taken = set(site.buildings.values_list("code", flat=True))
+                    building = inventory_services.building_create(
+                        by=request.user, site=site, code=_unique_code(name, taken), **clean
+                    )
+                    messages.success(request, f"Building {building.name} added to {site.name}.")
+                else:
+                    inventory_services.building_update(building=building, by=request.user, **clean)
+                    messages.success(request, f"Building {building.name} saved.")
+                return redirect("frontend:registry_site", pk=site.pk)
+            except ValidationError as exc:
+                errors = _service_errors(exc)
+    rows = _rows(BUILDING_FIELDS, values=values, errors=errors, system=system)
+    title = f"Add a building to {site.name}" if building is None else f"Edit {building.name} ({site.name})"
+    return _page(
+        request,
+        title=title,
+        rows=rows,
+        errors=errors,
+        back=reverse("frontend:registry_site", args=[site.pk]),
+        submit="Add building" if building is None else "Save",
+        status=400 if errors else 200,
+    )
+
+
+@login_required
+def building_new(request, pk):
+    return _building_form(request, site=_site(request, pk), building=None)
+
+
+@login_required
+def building_edit(request, pk):
+    building = _building(request, pk)
+    return _building_form(request, site=building.site, building=building)
+
+
+# ---------------------------------------------------------------------------
+# Units
+# ---------------------------------------------------------------------------
+def _ahu_number(name: str, quantity: str | None = None, *, required: bool = False, hint: str = "") -> Field:
+    r = AHU_NUMBERS[name]
+    kind = "integer" if r.whole else "number"
+    unit = "" if quantity else r.unit
+    return Field(
+        name,
+        r.label,
+        kind=kind,
+        required=required,
+        minimum=r.minimum,
+        maximum=r.maximum,
+        unit=unit,
+        quantity=quantity,
+        hint=hint,
+    )
+
+
+def _choices(name: str) -> tuple:
+    return tuple(AHU._meta.get_field(name).choices)
+
+
+def unit_fields(*, status: str | None) -> list[Field]:
+    """The unit form's fields; ``status`` None for a new unit (it starts in service)."""
+    fields = [
+        Field("tag", "Tag", required=True, max_length=40, hint="As painted on the unit, e.g. AHU-03."),
+        Field("location", "Location", hint="Where the unit stands, e.g. Roof plant room."),
+        Field("area_served", "Area served", hint="e.g. Floors 1–3 offices."),
+        _ahu_number("design_supply_airflow_m3s", "airflow", required=True),
+        _ahu_number(
+            "design_min_oa_fraction",
+            required=True,
+            hint="Outdoor air as a fraction of the supply airflow at minimum, 0–1 (0.25 is a quarter).",
+        ),
+        Field("full_outdoor_air", "100 % outdoor air (no recirculation)", kind="bool"),
+        Field("ventilation_zones", "Zones served", kind="choice", required=True, choices=_choices("ventilation_zones")),
+        Field(
+            "air_distribution",
+            "Air distribution in the space",
+            kind="choice",
+            required=True,
+            choices=_choices("air_distribution"),
+        ),
+        _ahu_number("occupant_diversity", hint="Several zones only; leave empty for none."),
+        _ahu_number("system_ventilation_efficiency", hint="Several zones only; leave empty for the simplified way."),
+        Field("heat_recovery", "Heat recovery", kind="choice", required=True, choices=_choices("heat_recovery")),
+        _ahu_number("supply_air_setpoint_c", "temperature"),
+        _ahu_number("duct_static_setpoint_pa", "pressure"),
+        _ahu_number("floor_area_m2", "area"),
+        _ahu_number("design_occupants"),
+        Field("service_start", "Service start", kind="date", hint="The day the unit started (or will start) running."),
+    ]
+    if status is not None:
+        statuses = [(v, t) for v, t in AHU.Status.choices if v != AHU.Status.RETIRED or status == AHU.Status.RETIRED]
+        fields.append(
+            Field(
+                "status",
+                "Status",
+                kind="choice",
+                required=True,
+                choices=tuple(statuses),
+                hint="To retire a unit use Retire on its page: its open work is cancelled.",
+            )
+        )
+    fields.append(Field("notes", "Notes", kind="lines", max_length=20_000))
+    return fields
+
+
+def _tag_taken(building: Building, tag: str, *, ahu: AHU | None) -> str | None:
+    twin = building.ahus.filter(tag__iexact=tag).exclude(pk=getattr(ahu, "pk", None)).first()
+    if twin is None:
+        return None
+    return (
+        f"Tag: {tag!r} is already used by {twin.tag} in {building.name} ({building.site.name}); allowed: a tag "
+        "no other unit of the building has"
+    )
+
+
+def _unit_form(request, *, ahu: AHU | None):
+    system = request.user.unit_system
+    fields = unit_fields(status=ahu.status if ahu else None)
+    buildings = list(_managed_buildings(request).order_by("site__name", "name"))
+    if ahu is None:
+        building_field = Field(
+            "building",
+            "Site and building",
+            kind="choice",
+            required=True,
+            choices=tuple((b.pk, f"{b.site.name} · {b.name}") for b in buildings),
+        )
+        fields = [building_field, *fields]
+        values = {f.name: _shown_value(f, AHU._meta.get_field(f.name).get_default(), system) for f in fields[1:]}
+        values["building"] = request.GET.get("building", "")
+        values["design_min_oa_fraction"] = ""
+    else:
+        values = {f.name: _shown_value(f, getattr(ahu, f.name), system) for f in fields}
+    errors: dict = {}
+    if request.method == "POST":
+        # A field the form did not send keeps its value (an older form, or a page that shows fewer fields).
+        post = request.POST.copy()
+        for f in fields:
+            if f.name not in post and f.kind != "bool" and ahu is not None:
+                post[f.name] = str(values.get(f.name, ""))
+        clean, errors = _read(fields, post, system=system, today=timezone.localdate())
+        values = {f.name: post.get(f.name, "") for f in fields}
+        values["full_outdoor_air"] = clean.get("full_outdoor_air")
+        building = ahu.building if ahu else next((b for b in buildings if str(b.pk) == clean.get("building")), None)
+        if building is not None and clean.get("tag"):
+            taken = _tag_taken(building, clean["tag"], ahu=ahu)
+            if taken:
+                errors.add("tag", taken)
+        if not errors:
+            clean.pop("building", None)
+            try:
+                if ahu is None:
+                    ahu = inventory_services.ahu_create(by=request.user, building=building, **clean)
+                    messages.success(request, f"{ahu.display_name} added. Add its components next.")
+                else:
+                    inventory_services.ahu_update(ahu=ahu, by=request.user, **clean)
+                    messages.success(request, f"{ahu.display_name} saved.")
+                return redirect("frontend:registry_unit", pk=ahu.pk)
+            except ValidationError as exc:
+                errors = _service_errors(exc)
+                if ahu is not None and ahu.pk is None:
+                    ahu = None
+            if ahu is not None:
+                ahu.refresh_from_db()
+    values["full_outdoor_air"] = bool(values.get("full_outdoor_air"))
+    rows = _rows(fields, values=values, errors=errors, system=system)
+    if ahu is None:
+        return _page(
+            request,
+            title="Add a unit",
+            rows=rows,
+            errors=errors,
+            back=reverse("frontend:registry"),
+            submit="Add unit",
+            status=400 if errors else 200,
+        )
+    return _page(
+        request,
+        title=f"Edit {ahu.display_name}",
+        rows=rows,
+        errors=errors,
+        submit="Save",
+        back=reverse("frontend:registry_unit", args=[ahu.pk]),
+        status=200,
+    )
+
+
+@login_required
+def unit_new(request):
+    _organisation(request)
+    return _unit_form(request, ahu=None)
+
+
+@login_required
+def unit_edit(request, pk):
+    return _unit_form(request, ahu=_ahu(request, pk))
+
+
+@login_required
+def unit_move(request, pk):
+    ahu = _ahu(request, pk)
+    org_id = ahu.building.site.organisation_id
+    choices = tuple(
+        (b.pk, f"{b.site.name} · {b.name}")
+        for b in _managed_buildings(request).filter(site__organisation_id=org_id).order_by("site__name", "name")
+        if b.pk != ahu.building_id
+    )
+    field = Field(
+        "building",
+        "Move to building",
+        kind="choice",
+        required=True,
+        choices=choices,
+        hint="Its components, records and open work go with it.",
+    )
+    values, errors = {}, {}
+    if request.method == "POST":
+        clean, errors = _read([field], request.POST, system=request.user.unit_system, today=timezone.localdate())
+        values = {"building": request.POST.get("building", "")}
+        if not errors:
+            target = Building.objects.select_related("site").get(pk=clean["building"])
+            taken = _tag_taken(target, ahu.tag, ahu=ahu)
+            if taken:
+                errors = {
+                    "building": [
+                        f"{target.name} already has a unit tagged {ahu.tag}; change one of the tags "
+                        "first (Edit), then move it"
+                    ]
+                }
+            else:
+                try:
+                    inventory_services.ahu_move(ahu=ahu, building=target, by=request.user)
+                except ValidationError as exc:
+                    errors = _service_errors(exc)
+                else:
+                    messages.success(request, f"{ahu.tag} moved to {target.site.name} · {target.name}.")
+                    return redirect("frontend:registry_unit", pk=ahu.pk)
+    rows = _rows([field], values=values, errors=errors, system=request.user.unit_system)
+    return _page(
+        request,
+        title=f"Move {ahu.display_name}",
+        rows=rows,
+        errors=errors,
+        submit="Move unit",
+        intro=f"Now in {ahu.building.site.name} · {ahu.building.name}.",
+        back=reverse("frontend:registry_unit", args=[ahu.pk]),
+        status=400 if errors else 200,
+    )
+
+
+REASON = Field("reason", "Reason", kind="lines", max_length=300, hint="e.g. Replaced by AHU-05; removed in the refit.")
+
+
+@login_required
+def unit_retire(request, pk):
+    ahu = _ahu(request, pk)
+    errors: dict = {}
+    values: dict = {}
+    open_work = list(ahu.work_orders.filter(state__in=["planned", "assigned", "in_progress"]).order_by("due_date"))
+    if ahu.status == AHU.Status.RETIRED:
+        errors = {"__all__": [f"{ahu.display_name} is already retired."]}
+    elif request.method == "POST":
+        clean, errors = _read([REASON], request.POST, system=request.user.unit_system, today=timezone.localdate())
+        values = {"reason": request.POST.get("reason", "")}
+        if not errors:
+            try:
+                cancelled = unit_retire_service(ahu=ahu, by=request.user, reason=clean["reason"])
+            except ValidationError as exc:
+                errors = _service_errors(exc)
+            else:
+                more = f" {cancelled} open visit(s) cancelled." if cancelled else ""
+                messages.success(request, f"{ahu.display_name} is retired; its records are kept.{more}")
+                return redirect("frontend:registry_unit", pk=ahu.pk)
+    return render(
+        request,
+        "frontend/registry/retire.html",
+        {
+            "title": f"Retire {ahu.display_name}",
+            "what": "unit",
+            "ahu": ahu,
+            "open_work": open_work,
+            "rows": _rows([REASON], values=values, errors=errors, system=request.user.unit_system),
+            "loose": errors.get("__all__", []) + errors.get("status", []) + errors.get("work", []),
+            "back": reverse("frontend:registry_unit", args=[ahu.pk]),
+            "done": ahu.status == AHU.Status.RETIRED,
+        },
+        status=400 if errors else 200,
+    )
+
+
+# ---------------------------------------------------------------------------
+# Components
+# ---------------------------------------------------------------------------
+KIND_CHOICES = tuple(ComponentKind.choices)
+COMPONENT_NAME_MAX = Component._meta.get_field("name").max_length
+
+
+def _parent_choices(ahu: AHU) -> tuple:
+    def walk(nodes, depth):
+        for node in nodes:
+            c = node["component"]
+            if c.retired_on is None:
+                yield (c.pk, f"{'— ' * depth}{c.name} ({c.get_kind_display()})")
+                yield from walk(node["children"], depth + 1)
+
+    return (("", "None: directly in the unit"), *walk(component_tree(ahu=ahu), 0))
+
+
+@login_required
+def component_new(request, pk):
+    ahu = _ahu(request, pk)
+    system = request.user.unit_system
+    back = reverse("frontend:registry_unit", args=[ahu.pk])
+    if ahu.status == AHU.Status.RETIRED:
+        messages.error(request, f"{ahu.display_name} is retired; parts cannot be added to it.")
+        return redirect(back)
+    kind = request.POST.get("kind") or request.GET.get("kind", "")
+    kind_field = Field("kind", "Kind of part", kind="choice", required=True, choices=KIND_CHOICES)
+    if kind not in SPECS_KINDS:
+        errors = {}
+        if kind:
+            errors = {
+                "kind": [
+                    f"Kind of part: {kind[:40]!r} is not one of the choices; allowed: {_allowed(kind_field, system)}"
+                ]
+            }
+        rows = _rows([kind_field], values={"kind": kind}, errors=errors, system=system)
+        return render(
+            request,
+            "frontend/registry/choose_kind.html",
+            {"ahu": ahu, "rows": rows, "back": back, "refused": bool(errors)},
+            status=400 if errors else 200,
+        )
+    fields = [
+        Field(
+            "name",
+            "Name",
+            required=True,
+            max_length=COMPONENT_NAME_MAX,
+            hint="As the technician will read it, e.g. Final filters.",
+        ),
+        Field(
+            "parent",
+            "Part of",
+            kind="choice",
+            choices=_parent_choices(ahu),
+            hint="A part inside another (a fan inside a fan section); most parts sit directly in the unit.",
+        ),
+        Field("installed_on", "Installed on", kind="date"),
+    ]
+    values: dict = {"name": dict(KIND_CHOICES)[kind], "parent": ""}
+    spec_values: dict = {}
+    errors: dict = {}
+    if request.method == "POST":
+        clean, errors = _read(fields, request.POST, system=system, today=timezone.localdate())
+        values = {f.name: request.POST.get(f.name, "") for f in fields}
+        specs, spec_errors = specs_from_post(kind=kind, post=request.POST, system=system)
+        spec_values = {s.name: request.POST.get(f"spec_{s.name}", "") for s in spec_fields(kind)}
+        spec_values.update(
+            {s.name: True for s in spec_fields(kind) if s.kind == "bool" and s.name in specs and specs[s.name]}
+        )
+        errors.update(spec_errors)
+        if not errors:
+            parent = ahu.components.filter(pk=clean["parent"]).first() if clean.get("parent") else None
+            last = ahu.components.order_by("-position").values_list("position", flat=True).first()
+            try:
+                component = inventory_services.component_create(
+                    by=request.user,
+                    ahu=ahu,
+                    kind=kind,
+                    name=clean["name"],
+                    parent=parent,
+                    specs=specs,
+                    installed_on=clean["installed_on"],
+                    position=min((last or 0) + 1, 32767),
+                )
+            except ValidationError as exc:
+                errors = _service_errors(exc)
+            else:
+                messages.success(request, f"{component.name} added to {ahu.display_name}.")
+                return redirect(back)
+    rows = _rows(fields, values=values, errors=errors, system=system)
+    spec = _spec_as_rows(kind, values=spec_values, errors=errors, system=system)
+    return _page(
+        request,
+        title=f"Add a {dict(KIND_CHOICES)[kind].lower()} to {ahu.display_name}",
+        rows=rows,
+        errors=errors,
+        back=back,
+        submit="Add part",
+        extra=spec,
+        extra_title="Specifications",
+        hidden={"kind": kind},
+        status=400 if errors else 200,
+    )
+
+
+SPECS_KINDS = set(ComponentKind.values)
+
+
+@login_required
+def component_retire(request, pk):
+    component = _component(request, pk)
+    ahu = component.ahu
+    back = reverse("frontend:registry_unit", args=[ahu.pk])
+    errors: dict = {}
+    values: dict = {}
+    if component.retired_on is not None:
+        errors = {"__all__": [f"{component.name} was retired on {component.retired_on:%d %b %Y}."]}
+    elif request.method == "POST":
+        clean, errors = _read([REASON], request.POST, system=request.user.unit_system, today=timezone.localdate())
+        values = {"reason": request.POST.get("reason", "")}
+        if not errors:
+            try:
+                retired = inventory_services.component_retire(
+                    component=component, on=ahu_today(ahu), by=request.user, reason=clean["reason"]
+                )
+            except ValidationError as exc:
+                errors = _service_errors(exc)
+            else:
+                inside = f" with {len(retired) - 1} part(s) inside it" if len(retired) > 1 else ""
+                messages.success(request, f"{component.name} retired{inside}; its records are kept.")
+                return redirect(back)
+    children = list(component.children.filter(retired_on__isnull=True))
+    return render(
+        request,
+        "frontend/registry/retire.html",
+        {
+            "title": f"Retire {component.name} of {ahu.display_name}",
+            "what": "component",
+            "ahu": ahu,
+            "component": component,
+            "children": children,
+            "rows": _rows([REASON], values=values, errors=errors, system=request.user.unit_system),
+            "loose": [t for k, ts in errors.items() if k != "reason" for t in ts],
+            "back": back,
+            "done": component.retired_on is not None,
+        },
+        status=400 if errors else 200,
+    )
+
+
+def ahu_today(ahu: AHU):
+    return timezone.localdate(timezone.now(), zoneinfo.ZoneInfo(ahu.building.site.time_zone))
+
+
+def unit_form_initial(*, ahu: AHU, system: str) -> dict:
+    """The unit form as it opens for ``ahu``: each field's value in the person's units (tests post it back)."""
+    return {f.name: _shown_value(f, getattr(ahu, f.name), system) for f in unit_fields(status=ahu.status)}

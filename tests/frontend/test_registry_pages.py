@@ -1,0 +1,310 @@
+"""Registry pages over HTTP: the supervisor adds, moves and retires sites, buildings, units and parts; every bad
+value is refused at its field in plain words with nothing saved; technicians and property managers are refused."""
+
+import datetime as dt
+import html
+import re
+
+import pytest
+import time_machine
+from django.urls import reverse
+
+from accounts.models import AuditEvent, Role
+from frontend.views.registry_pages import unit_form_initial
+from inventory.models import AHU, Building, Component, Site
+from scheduling.engine import work_orders_generate
+from scheduling.models import WorkOrder, WorkOrderTask
+from tests.factories.accounts import OrganisationFactory, make_person
+from tests.factories.inventory import BuildingFactory, SiteFactory, make_full_unit
+
+pytestmark = pytest.mark.django_db
+NOW = dt.datetime(2026, 3, 9, 9, 30, tzinfo=dt.UTC)  # a Monday morning; any fixed moment would do
+
+
+@pytest.fixture(autouse=True)
+def _clock():
+    with time_machine.travel(NOW, tick=False):
+        yield
+
+
+def _text(response) -> str:
+    return re.sub(r"\s+", " ", html.unescape(response.content.decode()))
+
+
+def _visible(response) -> str:
+    """The page's words without its markup."""
+    return re.sub(r"\s+", " ", re.sub(r"<[^>]+>", " ", html.unescape(response.content.decode())))
+
+
+def _field_errors(response, field_id: str) -> str:
+    """The refusals shown at one field (the block right under it)."""
+    page = html.unescape(response.content.decode())
+    found = re.search(rf'<div id="{field_id}-errors">(.*?)</div>', page, re.S)
+    return re.sub(r"<[^>]+>", " ", found.group(1)) if found else ""
+
+
+def _counts():
+    return (Site.objects.count(), Building.objects.count(), AHU.objects.count(), Component.objects.count())
+
+
+UNIT = {
+    "tag": "AHU-02",
+    "location": "Roof plant room",
+    "area_served": "Offices 1–3",
+    "design_supply_airflow_m3s": "2500",  # L/s for an SI person
+    "design_min_oa_fraction": "0.3",
+    "ventilation_zones": "single_zone",
+    "air_distribution": "ceiling_supply_cool",
+    "heat_recovery": "plate",
+    "supply_air_setpoint_c": "18",
+    "duct_static_setpoint_pa": "250",
+}
+FILTERS = {
+    "kind": "filter_bank",
+    "name": "Final filters",
+    "spec_stage": "final",
+    "spec_merv": "14",
+    "spec_size": "592x592x600",
+    "spec_count": "6",
+    "spec_clean_dp_pa": "90",
+    "spec_final_dp_pa": "250",
+    "spec_design_airflow_m3s": "2500",
+}
+
+
+def test_the_supervisor_adds_a_site_a_building_a_unit_and_its_parts(scenario, login):
+    """From the registry list: a site with access notes, a building under it, a unit in L/s, a filter bank, a
+    supply fan and an electric preheater; each write leaves an audit event by the supervisor."""
+    client = login(scenario.supervisor)
+    page = _text(client.get(reverse("frontend:registry")))
+    assert "Add site" in page and "Add unit" in page and "Add building" in page
+    r = client.post(
+        reverse("frontend:registry_site_new"),
+        {"name": "Quayside Depot", "address": "1 Quay Road", "latitude": "53.55", "longitude": "9.99",
+         "time_zone": "Europe/Berlin", "access_notes": "Keys at the gatehouse; roof hatch code from the caretaker."},
+    )  # fmt: skip
+    site = Site.objects.get(name="Quayside Depot")
+    assert r.status_code == 302 and site.organisation == scenario.org
+    assert site.access_notes.startswith("Keys at the gatehouse") and site.time_zone == "Europe/Berlin"
+    client.post(reverse("frontend:registry_building_new", args=[site.pk]), {"name": "Store A", "floors": "2"})
+    building = site.buildings.get()
+    r = client.post(reverse("frontend:registry_unit_new"), {**UNIT, "building": str(building.pk)})
+    ahu = AHU.objects.get(building=building)
+    assert r.status_code == 302
+    assert ahu.design_supply_airflow_m3s == pytest.approx(2.5)  # 2500 L/s
+    assert ahu.supply_air_setpoint_c == 18 and ahu.heat_recovery == "plate"
+    new_part = reverse("frontend:registry_component_new", args=[ahu.pk])
+    assert client.post(new_part, FILTERS).status_code == 302
+    fan = {"kind": "fan", "name": "Supply fan", "spec_role": "supply", "spec_fan_type": "plug", "spec_drive": "direct",
+           "spec_vsd": "1", "spec_motor_power_w": "5.5", "spec_design_flow_m3s": "2500",
+           "spec_design_pressure_pa": "800"}  # fmt: skip
+    assert client.post(new_part, fan).status_code == 302
+    heater = {"kind": "electric_preheater", "name": "Frost heater", "spec_power_w": "24", "spec_stages": "3",
+              "spec_switch_on_c": "-5"}  # fmt: skip
+    assert client.post(new_part, heater).status_code == 302
+    parts = {c.name: c for c in ahu.components.all()}
+    assert parts["Final filters"].specs["design_airflow_m3s"] == pytest.approx(2.5)
+    assert parts["Supply fan"].specs["vsd"] is True
+    assert parts["Frost heater"].specs["power_w"] == pytest.approx(24000)  # typed as 24 kW
+    actions = set(AuditEvent.objects.filter(actor=scenario.supervisor).values_list("action", flat=True))
+    assert {"site_create", "building_create", "ahu_create", "component_create"} <= actions
+    unit_page = _text(client.get(reverse("frontend:registry_unit", args=[ahu.pk])))
+    for link in ("Add component", "Edit unit", "Move", "Retire"):
+        assert link in unit_page
+
+
+def test_the_unit_form_speaks_plain_words_in_the_persons_units(scenario, login):
+    """Labels name the quantity and its unit (L/s, °C, Pa for SI; cfm, °F, in. w.c. for US), never a field name."""
+    client = login(scenario.supervisor)
+    page = _text(client.get(reverse("frontend:registry_unit_edit", args=[scenario.unit_a.pk])))
+    assert "Design supply airflow (L/s)" in page and "Supply-air setpoint (°C)" in page
+    assert "Duct static pressure setpoint (Pa)" in page
+    words = _visible(client.get(reverse("frontend:registry_unit_edit", args=[scenario.unit_a.pk])))
+    assert "m3s" not in words and "Supply air setpoint c" not in words and "m³/s" not in words
+    scenario.supervisor.unit_system = "us"
+    scenario.supervisor.save(update_fields=["unit_system"])
+    page = _text(client.get(reverse("frontend:registry_unit_edit", args=[scenario.unit_a.pk])))
+    assert "Design supply airflow (cfm)" in page and "Supply-air setpoint (°F)" in page
+    assert "Duct static pressure setpoint (in. w.c.)" in page
+    form = {k: "1" if v is True else "" if v in (None, False) else str(v)
+            for k, v in unit_form_initial(ahu=scenario.unit_a, system="us").items()}  # fmt: skip
+    r = client.post(
+        reverse("frontend:registry_unit_edit", args=[scenario.unit_a.pk]), {**form, "design_supply_airflow_m3s": "4000"}
+    )
+    assert r.status_code == 302
+    scenario.unit_a.refresh_from_db()
+    assert scenario.unit_a.design_supply_airflow_m3s == pytest.approx(4000 * 0.00047194745, rel=1e-6)  # 1 cfm
+
+
+@pytest.mark.parametrize(
+    ("field", "typed", "said"),
+    [
+        ("design_supply_airflow_m3s", "-2", "Design supply airflow: -2 L/s is out of range; allowed: a number from 10 to 100000 L/s"),  # noqa: E501
+        ("design_supply_airflow_m3s", "1e400", "Design supply airflow: '1e400' is not a finite number"),
+        ("design_supply_airflow_m3s", "NaN", "Design supply airflow: 'NaN' is not a finite number"),
+        ("tag", "", "Tag is required"),
+        ("tag", "AHU\x00-9", "Tag: the text contains control characters (such as NUL)"),
+        ("tag", "ahu-01", "Tag: 'ahu-01' is already used by AHU-01 in North block"),
+        ("supply_air_setpoint_c", "six", "Supply-air setpoint: 'six' is not a finite number"),
+    ],
+)  # fmt: skip
+def test_a_bad_unit_value_is_refused_at_its_field_and_nothing_is_saved(scenario, login, field, typed, said):
+    """Negative or non-finite airflow, an empty tag, NUL, a tag already used in the building, a word for a number:
+    each is said at its field naming the value and what is allowed; the typed value stays; nothing is stored."""
+    client = login(scenario.supervisor)
+    building = scenario.unit_a.building
+    before = _counts()
+    r = client.post(reverse("frontend:registry_unit_new"), {**UNIT, "building": str(building.pk), field: typed})
+    assert r.status_code == 400
+    assert said in _field_errors(r, f"f-{field}")
+    assert "Nothing was saved" in _text(r)
+    if "\x00" not in typed:
+        assert f'value="{typed}"' in html.unescape(r.content.decode())
+    assert _counts() == before
+
+
+@pytest.mark.parametrize(
+    ("field", "typed", "said"),
+    [
+        ("spec_design_airflow_m3s", "-2500", "Design airflow: -2500 L/s is out of range; allowed: a number from 10 to 100000 L/s"),  # noqa: E501
+        ("spec_clean_dp_pa", "300", "Clean (initial) pressure drop: 300 Pa is not below the final (change) pressure drop of 250 Pa"),  # noqa: E501
+        ("spec_count", "six", "Number of filters: 'six' is not a whole number; allowed: a whole number from 1 to 200"),
+        ("spec_merv", "25", "MERV class (ASHRAE 52.2): '25' is not one of the choices; allowed: one of 1, 2"),
+        ("spec_size", "592\x00", "control characters"),
+        ("spec_final_dp_pa", "1e400", "Final (change) pressure drop: '1e400' is not a finite number"),
+        ("spec_clean_dp_pa", "nan", "Clean (initial) pressure drop: 'nan' is not a finite number"),
+        ("name", "", "Name is required"),
+    ],
+)  # fmt: skip
+def test_a_bad_spec_is_refused_at_its_field_and_no_part_is_added(scenario, login, field, typed, said):
+    client = login(scenario.supervisor)
+    ahu = scenario.unit_a
+    before = _counts()
+    r = client.post(reverse("frontend:registry_component_new", args=[ahu.pk]), {**FILTERS, field: typed})
+    assert r.status_code == 400
+    field_id = f"spec-{field.removeprefix('spec_')}" if field.startswith("spec_") else f"f-{field}"
+    assert said in _field_errors(r, field_id), _text(r)
+    assert _counts() == before
+
+
+def test_a_site_with_bad_values_is_not_added(scenario, login):
+    client = login(scenario.supervisor)
+    before = _counts()
+    r = client.post(
+        reverse("frontend:registry_site_new"),
+        {"name": "Harbour House", "latitude": "1e400", "longitude": "NaN", "time_zone": "Mars/Olympus",
+         "access_notes": "code \x00 1234"},
+    )  # fmt: skip
+    assert r.status_code == 400
+    assert "Site name: 'Harbour House' is already a site of" in _field_errors(r, "f-name")
+    assert "Latitude: '1e400' is not a finite number; allowed: a number from -90 to 90 °" in _field_errors(
+        r, "f-latitude"
+    )
+    assert "Longitude: 'NaN' is not a finite number" in _field_errors(r, "f-longitude")
+    assert "Time zone: 'Mars/Olympus' is not one of the choices" in _field_errors(r, "f-time_zone")
+    assert "control characters" in _field_errors(r, "f-access_notes")
+    assert _counts() == before
+
+
+def test_retiring_a_unit_cancels_its_open_visits_keeps_its_records_and_stops_new_work(scenario, login):
+    client = login(scenario.supervisor)
+    ahu = scenario.unit_a
+    page = _text(client.get(reverse("frontend:registry_unit_retire", args=[ahu.pk])))
+    assert "Quarterly service" in page  # the open visit that will be cancelled is named
+    r = client.post(reverse("frontend:registry_unit_retire", args=[ahu.pk]), {"reason": "Replaced by AHU-05"})
+    assert r.status_code == 302
+    ahu.refresh_from_db()
+    assert ahu.status == AHU.Status.RETIRED
+    scenario.work_a.refresh_from_db()
+    assert scenario.work_a.state == WorkOrder.State.CANCELLED and "Replaced by AHU-05" in scenario.work_a.cancel_reason
+    assert ahu.components.count() > 0  # nothing deleted
+    assert AuditEvent.objects.filter(action="ahu_retire", object_id=str(ahu.pk)).exists()
+    work_orders_generate(organisation=scenario.org, today=dt.date(2026, 3, 9))
+    assert not ahu.work_orders.exclude(state=WorkOrder.State.CANCELLED).exists()
+    assert scenario.unit_b.work_orders.count() > 1  # the other unit still gets its plan
+    registry = _text(client.get(reverse("frontend:registry")))
+    assert "Retired" in registry and "AHU-01" in registry
+
+
+def test_a_unit_with_a_visit_under_way_is_not_retired(scenario, login):
+    WorkOrder.objects.filter(pk=scenario.work_a.pk).update(state=WorkOrder.State.IN_PROGRESS)
+    client = login(scenario.supervisor)
+    r = client.post(reverse("frontend:registry_unit_retire", args=[scenario.unit_a.pk]), {"reason": ""})
+    assert r.status_code == 400
+    assert "has a visit under way: Quarterly service" in _text(r)
+    scenario.unit_a.refresh_from_db()
+    assert scenario.unit_a.status == AHU.Status.IN_SERVICE
+
+
+def test_a_retired_part_keeps_its_records_and_gets_no_new_work(scenario, login):
+    client = login(scenario.supervisor)
+    final = scenario.unit_a.components.get(name="Final filters")
+    assert WorkOrderTask.objects.filter(component=final).exists()  # the scenario's planned check
+    r = client.post(reverse("frontend:registry_component_retire", args=[final.pk]), {"reason": "Bank removed"})
+    assert r.status_code == 302
+    final.refresh_from_db()
+    assert final.retired_on == dt.date(2026, 3, 9)
+    assert WorkOrderTask.objects.filter(component=final).exists()  # history kept
+    work_orders_generate(organisation=scenario.org, today=dt.date(2026, 3, 9))
+    assert (
+        not WorkOrderTask.objects.filter(component=final, work_order__created_at__gt=NOW - dt.timedelta(seconds=1))
+        .exclude(work_order=scenario.work_a)
+        .exists()
+    )
+    page = _visible(client.get(reverse("frontend:registry_unit", args=[scenario.unit_a.pk])))
+    assert "Final filters Retired 9 Mar 2026" in page
+    again = client.post(reverse("frontend:registry_component_retire", args=[final.pk]), {"reason": ""})
+    assert again.status_code == 400 and "was retired on 09 Mar 2026" in _text(again)
+
+
+def test_a_unit_moves_to_another_building_unless_its_tag_is_taken_there(scenario, login):
+    client = login(scenario.supervisor)
+    annex = BuildingFactory(site=scenario.site_a, name="South annex")
+    make_full_unit(building=annex, tag="AHU-01")
+    url = reverse("frontend:registry_unit_move", args=[scenario.unit_a.pk])
+    r = client.post(url, {"building": str(annex.pk)})
+    assert r.status_code == 400
+    assert "South annex already has a unit tagged AHU-01" in _field_errors(r, "f-building")
+    other = BuildingFactory(site=scenario.site_b, name="West wing")
+    assert client.post(url, {"building": str(other.pk)}).status_code == 302
+    scenario.unit_a.refresh_from_db()
+    assert scenario.unit_a.building == other
+
+
+def test_two_units_with_one_tag_on_a_site_are_told_apart_by_building(scenario, login):
+    annex = BuildingFactory(site=scenario.site_a, name="South annex")
+    twin = make_full_unit(building=annex, tag="AHU-01")
+    client = login(scenario.supervisor)
+    site_page = _text(client.get(reverse("frontend:registry_site", args=[scenario.site_a.pk])))
+    assert "AHU-01 (North block)" in site_page and "AHU-01 (South annex)" in site_page
+    assert "Edit AHU-01 (South annex)" in _text(client.get(reverse("frontend:registry_unit_edit", args=[twin.pk])))
+
+
+@pytest.mark.parametrize("role", ["technician", "manager_a"])
+def test_technicians_and_property_managers_may_not_change_the_registry(scenario, login, role):
+    client = login(getattr(scenario, role))
+    before = _counts()
+    posts = [
+        (reverse("frontend:registry_site_new"), {"name": "X", "latitude": "1", "longitude": "1", "time_zone": "UTC"}),
+        (reverse("frontend:registry_unit_new"), {**UNIT, "building": str(scenario.unit_a.building_id)}),
+        (reverse("frontend:registry_component_new", args=[scenario.unit_a.pk]), FILTERS),
+        (reverse("frontend:registry_unit_retire", args=[scenario.unit_a.pk]), {"reason": ""}),
+        (reverse("frontend:registry_component_retire", args=[scenario.unit_a.components.first().pk]), {"reason": ""}),
+    ]
+    for url, body in posts:
+        assert client.post(url, body).status_code in (403, 404), url
+    assert _counts() == before
+    assert AHU.objects.get(pk=scenario.unit_a.pk).status == AHU.Status.IN_SERVICE
+
+
+def test_another_organisations_records_are_not_found(scenario, login):
+    theirs = OrganisationFactory(name="Elsewhere Air")
+    their_site = SiteFactory(organisation=theirs, name="Their Site")
+    their_unit = make_full_unit(building=BuildingFactory(site=their_site, name="Their block"), tag="AHU-99")
+    make_person(organisation=theirs, role=Role.SUPERVISOR, username="them")
+    client = login(scenario.supervisor)
+    assert client.get(reverse("frontend:registry_site", args=[their_site.pk])).status_code == 404
+    assert client.post(reverse("frontend:registry_unit_retire", args=[their_unit.pk]), {}).status_code == 404
+    r = client.post(reverse("frontend:registry_unit_new"), {**UNIT, "building": str(their_unit.building_id)})
+    assert r.status_code == 400 and "is not one of the choices" in _field_errors(r, "f-building")
+    assert not AHU.objects.filter(tag="AHU-02").exists()
