@@ -358,7 +358,7 @@ def work_frost(request, site_pk):
         names = ", ".join(wo.ahu.display_name for wo in result.created)
         n = len(result.created)
         lines.append(
-            f"Frost check at {site.name}: {n} urgent work order{'' if n == 1 else 's'} made, {due} (sunset there): "
+            f"Frost check at {site.name}: {n} urgent work order{'' if n == 1 else 's'} made, {due} ({result.due_why}): "
             f"{names}. Assign {'it' if n == 1 else 'them'} below."
         )
     if result.already_open:

@@ -786,22 +786,26 @@ class FrostChecks:
     """What the frost action did at one site: the work orders it made, the units already holding an open check."""
 
     due_by: dt.datetime
+    due_why: str = "sunset there"  # how the due time was chosen, in words
     created: list[WorkOrder] = field(default_factory=list)
     already_open: list[WorkOrder] = field(default_factory=list)
 
 
-def frost_due_by(*, site, now: dt.datetime) -> dt.datetime:
-    """Due time of tonight's frost check: sunset today on the site's clock (engineering.sun); once the sun has
-    set, one hour from now (still tonight)."""
+def frost_due_by(*, site, now: dt.datetime) -> tuple[dt.datetime, str]:
+    """Due time of tonight's frost check and how it was chosen: sunset today on the site's clock
+    (engineering.sun); once the sun has set (or within half an hour of it), one hour from now."""
     zone = zoneinfo.ZoneInfo(site.time_zone)
     today = site_today(site=site, now=now)
     sunset = sunset_utc(latitude=site.latitude, longitude=site.longitude, day=today)
+    why = "sunset there"
     if sunset is None:
         sunset = dt.datetime.combine(today, FROST_FALLBACK, tzinfo=zone)
+        why = "the end of the working day: the sun does not set or rise there today"
     due = sunset.replace(second=0, microsecond=0)
     if due <= now + dt.timedelta(minutes=30):
         due = (now + dt.timedelta(hours=1)).replace(second=0, microsecond=0)
-    return due.astimezone(zone)
+        why = "within the hour: the sun has set there"
+    return due.astimezone(zone), why
 
 
 @transaction.atomic
@@ -814,8 +818,8 @@ def frost_checks_create(*, site, by, now: dt.datetime | None = None) -> FrostChe
     now = now or timezone.now()
     organisation = site.organisation
     task = effective_tasks(organisation=organisation, include_disabled=True).get(FROST_TASK)
-    due_by = frost_due_by(site=site, now=now)
-    out = FrostChecks(due_by=due_by)
+    due_by, why = frost_due_by(site=site, now=now)
+    out = FrostChecks(due_by=due_by, due_why=why)
     if task is None:
         return out
     units = (

@@ -154,7 +154,7 @@ def test_frost_check_makes_one_urgent_order_per_protected_unit_due_at_sunset(wor
     result = frost_checks_create(site=world["site"], by=world["supervisor"])
     sunset = sunset_utc(latitude=52.37, longitude=4.90, day=dt.date(2025, 12, 3)).astimezone(AMS)
     assert dt.time(16, 20) <= sunset.time() <= dt.time(16, 40)  # almanac: 16:29 CET (from memory)
-    assert result.due_by == sunset.replace(second=0, microsecond=0)
+    assert result.due_by == sunset.replace(second=0, microsecond=0) and result.due_why == "sunset there"
     made = {wo.ahu.display_name: wo for wo in result.created}
     # Both AHU-01s, told apart by their building; not the filter-only unit, not the retired one.
     assert set(made) == {"AHU-01 (North Hall)", "AHU-01 (South Hall)"}
@@ -174,4 +174,5 @@ def test_after_sunset_the_frost_check_is_due_within_the_hour(world):
     with time_machine.travel(dt.datetime(2025, 12, 3, 17, 10, tzinfo=dt.UTC), tick=False):
         result = frost_checks_create(site=world["site"], by=world["supervisor"])
     assert result.due_by == dt.datetime(2025, 12, 3, 19, 10, tzinfo=AMS)
+    assert result.due_why == "within the hour: the sun has set there"
     assert len(result.created) == 2
