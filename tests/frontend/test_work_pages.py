@@ -254,3 +254,27 @@ def test_the_frost_check_from_a_site_says_what_it_made(desk, world):
     assert WorkOrder.objects.filter(kind="ad_hoc").count() == 1
     nothing = said(desk.post(reverse("frontend:work_frost", args=[world.orchard.pk])))
     assert "no in-service unit there has an electric preheater or a preheat water coil" in nothing
+
+
+def test_the_technicians_form_shows_the_safety_box_of_the_chosen_tasks(desk, world):
+    """A call-out with a task in words opens on the phone with the general lockout box; the frost check with the
+    freeze-protection task's own cautions (mains-voltage preheaters), as on preventive work."""
+    from inspections.checklists import ELECTRIC, LOCKOUT
+    from inspections.services import checklist_library_install
+
+    task_library_install()
+    checklist_library_install()
+    desk.post(NEW, callout(world, confirm="1"))
+    callout_wo = WorkOrder.objects.get(kind="call_out")
+    ComponentFactory(
+        ahu=world.granary_unit, kind="electric_preheater", name="Preheater",
+        specs={"power_w": 24000, "stages": 2, "switch_on_c": 3},
+    )  # fmt: skip
+    desk.post(reverse("frontend:work_frost", args=[world.quayside.pk]))
+    frost = WorkOrder.objects.get(kind="ad_hoc")
+    WorkOrder.objects.filter(pk=frost.pk).update(assignee=world.tess, state="assigned")
+    desk.force_login(world.tess)
+    page = desk.get(reverse("frontend:checklist", args=[callout_wo.public_id])).content.decode()
+    assert "Office on level 2 too warm" in page and LOCKOUT[:40] in page
+    page = desk.get(reverse("frontend:checklist", args=[frost.public_id])).content.decode()
+    assert "Check freeze protection before tonight" in page and ELECTRIC[:40] in page
