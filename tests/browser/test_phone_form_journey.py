@@ -153,6 +153,7 @@ def test_a_technician_fills_a_visit_faster_and_reads_it_all_in_us_units(page, li
     exception.locator("summary").click()
     exception.locator("input[name^='n:']").fill("Linkage pin worn; replaced next visit")
     all_pass = section.locator("button[data-all-pass]")
+    expect(section.locator("button[data-all-pass-undo]")).to_be_hidden()
     all_pass.click()
     expect(section.locator("[data-kind='check'] input[value='ok']:checked")).to_have_count(total_checks - 1)
     expect(exception.locator("input[value='not_ok']")).to_be_checked()
