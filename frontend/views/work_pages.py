@@ -27,7 +27,7 @@ from django.utils import timezone
 from django.views.decorators.http import require_POST
 
 from accounts.clock import day_text, local_time_text
-from accounts.inputs import shown
+from accounts.inputs import FieldErrors, shown
 from inspections.selectors import reason_for
 from inspections.services.findings import finding_work_order_attach
 from inventory.models import AHU
@@ -38,6 +38,7 @@ from scheduling.services.work_orders import (
     ONE_OFF_MINUTES,
     OneOffTask,
     frost_checks_create,
+    made_work_fields_check,
     work_order_create,
 )
 from scheduling.targets import task_targets
@@ -245,10 +246,13 @@ def work_new(request):
         finding = _finding(request, request.GET.get("finding"))
         ahu = finding.ahu if finding is not None else _unit(request, request.GET.get("unit"))
         values = _initial(request, ahu=ahu, finding=finding)
+        errors = {}
+        if ahu is None and "unit" in request.GET:  # "Continue" with no unit chosen
+            errors["unit"] = ["Unit: none chosen; allowed: one of the units listed, by site and building"]
         return render(
             request,
             "frontend/work/new.html",
-            _context(request, ahu=ahu, values=values, errors={}, finding=finding, org=org),
+            _context(request, ahu=ahu, values=values, errors=errors, finding=finding, org=org),
         )
     post = request.POST
     finding = _finding(request, post.get("finding"))
@@ -286,6 +290,14 @@ def work_new(request):
     elif kind == WorkOrder.Kind.CORRECTIVE:
         errors.setdefault("kind", []).append("Kind: corrective work is made from a finding; allowed: call-out, ad hoc")
     if errors:
+        # Said all at once: the service's own checks of the words, priority and unit beside the form's.
+        more = FieldErrors()
+        made_work_fields_check(
+            errors=more, ahu=ahu, kind=kind, title=post.get("title", ""), description=post.get("description", ""),
+            priority=post.get("priority", ""), due_by=due_by, now=timezone.now(),
+        )  # fmt: skip
+        for key, texts in more.items():
+            errors.setdefault(key, []).extend(t for t in texts if t not in errors.get(key, []))
         return render(
             request,
             "frontend/work/new.html",

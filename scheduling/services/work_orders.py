@@ -610,11 +610,15 @@ def work_order_due_problem(*, due_by: dt.datetime, site, now: dt.datetime) -> st
     return None
 
 
-def _check_made_fields(
-    *, errors: FieldErrors, ahu, kind, title, description, priority, due_by, now, component
+def made_work_fields_check(
+    *, errors: FieldErrors, ahu, kind, title, description, priority, due_by, now, component=None
 ) -> tuple[str | None, str | None]:
+    """The checks of :func:`work_order_create` on the words, kind, priority, unit and due time (skipped when
+    ``due_by`` is None: a form whose day or time could not be read), added to ``errors``; a page calls it to say
+    every refusal at once. Returns the title and description as they would be stored."""
     if kind not in MADE_KINDS:
-        errors.add("kind", f"Kind: {kind!r} is not one of {', '.join(str(k.label).lower() for k in MADE_KINDS)}")
+        allowed = ", ".join(str(k.label).lower() for k in MADE_KINDS)
+        errors.add("kind", f"Kind: {str(kind)[:40]!r} is not one of {allowed}")
     if ahu.status == AHU.Status.RETIRED:
         errors.add("unit", f"Unit: {ahu.display_name} is retired; allowed: a unit that is not retired")
     title_text = check_text(title, key="title", label="Title", max_length=TITLE_MAX, errors=errors, required=True)
@@ -627,7 +631,7 @@ def _check_made_fields(
             f"Priority: {str(priority)[:40]!r} is not one of "
             + ", ".join(str(p.label).lower() for p in WorkOrder.Priority),
         )
-    problem = work_order_due_problem(due_by=due_by, site=ahu.building.site, now=now)
+    problem = None if due_by is None else work_order_due_problem(due_by=due_by, site=ahu.building.site, now=now)
     if problem:
         errors.add("due_by", problem)
     if component is not None and component.ahu_id != ahu.pk:
@@ -697,7 +701,7 @@ def work_order_create(
     errors = FieldErrors()
     site = ahu.building.site
     organisation = site.organisation
-    title_text, description_text = _check_made_fields(
+    title_text, description_text = made_work_fields_check(
         errors=errors, ahu=ahu, kind=kind, title=title, description=description, priority=priority,
         due_by=due_by, now=now, component=component,
     )  # fmt: skip

@@ -175,6 +175,28 @@ def test_bad_input_is_refused_at_its_field(desk, world, changes, words):
     assert not WorkOrder.objects.filter(kind="call_out").exists()
 
 
+def test_every_refusal_is_said_at_once(desk, world):
+    """A form with several slips names them all, the form's and the service's, not one per try."""
+    body = callout(
+        world, title="x" * 10_000, priority="asap", due_date="2026-02-30", due_time="7pm", task_minutes="1e3"
+    )
+    html = desk.post(NEW, body).content.decode()
+    for words in (
+        "Title: 10000 characters is too long",
+        "Priority: &#x27;asap&#x27; is not one of",
+        "Due day: &#x27;2026-02-30&#x27; is not a day as YYYY-MM-DD",
+        "Due time: &#x27;7pm&#x27; is not a time as HH:MM",
+        "Estimated minutes: &#x27;1e3&#x27; is not a whole number",
+    ):
+        assert words in html
+    assert not WorkOrder.objects.filter(kind="call_out").exists()
+
+
+def test_continue_without_a_unit_says_so(desk, world):
+    html = desk.get(NEW, {"unit": ""}).content.decode()
+    assert "Unit: none chosen; allowed: one of the units listed, by site and building" in html
+
+
 def test_a_retired_unit_is_refused(desk, world):
     AHU.objects.filter(pk=world.mill_unit.pk).update(status=AHU.Status.RETIRED)
     html = desk.post(NEW, callout(world)).content.decode()
