@@ -146,3 +146,13 @@ def without_subject(parts: list, subject: str) -> list:
         return list(parts)
     rest = parts[0][len(lead) :]
     return ([rest] if rest else []) + list(parts[1:])
+
+
+def text_without_label_end(text: str, label: str) -> str:
+    """``text`` without a leading "<words>: " that its label already ends with: under the heading "Outdoor-air
+    fraction by temperatures" the reason "by temperatures: outdoor air 41 % …" reads "outdoor air 41 % …",
+    never "by temperatures: by temperatures: …"."""
+    head, sep, rest = text.partition(": ")
+    if sep and head and rest and label.lower().endswith(head.lower()):
+        return rest
+    return text

@@ -167,7 +167,9 @@ def visit_records(
                 "e": e,
                 "verdict": VERDICTS.get(e.verdict, e.verdict),
                 "check": check_label(check=e.check_name, item=e.item_key, labels=labels),
-                "reason": _reason(e, system, visit_day),
+                "reason": reasons.text_without_label_end(
+                    _reason(e, system, visit_day), check_label(check=e.check_name, item=e.item_key, labels=labels)
+                ),
                 "derived": derived_for_visit(e.derived or {}, system, item=e.item_key, visit_day=visit_day),
             }
             for e in insp.evaluations.all()

@@ -115,3 +115,14 @@ def test_the_inspection_report_gives_reasons_in_the_readers_units(api_client, dj
         text = " ".join(page.extract_text() for page in PdfReader(io.BytesIO(fh.read())).pages)
     assert "2.7 Δ°F above set point 62.6 °F" in " ".join(text.split())
     assert "1.5 K above set point" not in text
+
+
+def test_a_reason_does_not_repeat_the_end_of_its_heading():
+    """Under "Outdoor-air fraction by temperatures" the reason "by temperatures: outdoor air 41 %" drops its lead;
+    a lead the heading does not end with stays."""
+    from inspections.reasons import text_without_label_end
+
+    label = "Outdoor-air fraction by temperatures"
+    assert text_without_label_end("by temperatures: outdoor air 41 %", label) == "outdoor air 41 %"
+    assert text_without_label_end("by CO2: outdoor air 39 %", label) == "by CO2: outdoor air 39 %"
+    assert text_without_label_end("no colon here", label) == "no colon here"
