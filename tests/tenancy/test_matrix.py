@@ -73,6 +73,8 @@ FILL: dict[str, Fill] = {
     "frontend:registry_unit": {"pk": lambda c: c.ahu.pk},
     "frontend:registry_unit_edit": {"pk": lambda c: c.ahu.pk},
     "frontend:registry_rules": {"pk": lambda c: c.ahu.pk},
+    "frontend:registry_unit_qr": {"pk": lambda c: c.ahu.pk, "fmt": lambda c: "png"},
+    "frontend:registry_export": {"kind": lambda c: "ahus"},
     "frontend:registry_component_edit": {"pk": lambda c: c.component.pk},
     "frontend:registry_site": {"pk": lambda c: c.site.pk},
     "frontend:registry_building_new": {"pk": lambda c: c.site.pk},
@@ -320,6 +322,7 @@ def test_nothing_of_another_organisation_or_site_leaks(world, role):
                 names_record = bool(params) and name not in {
                     "inventory_api:import",
                     "inventory_api:export",
+                    "frontend:registry_export",
                     "scheduling_api:task",
                     "frontend:calc_api",
                 }
