@@ -98,7 +98,9 @@ def _not_covered(page, selector: str) -> None:
     assert hit == {"inView": True, "hit": True}, (selector, hit)
 
 
-def test_a_technician_fills_a_visit_faster_and_reads_it_all_in_us_units(page, live_server, world, sign_in, screenshots):
+def test_a_technician_fills_a_visit_faster_and_reads_it_all_in_us_units(
+    page, live_server, world, sign_in, screenshots, offline
+):
     """At 360 px: last values with their dates, jump to a section, "all pass" with one exception (undone and
     redone), progress to complete, Finish not under the outbox bar; then in US units nothing reads in SI."""
     site = world.site_a
@@ -114,6 +116,15 @@ def test_a_technician_fills_a_visit_faster_and_reads_it_all_in_us_units(page, li
     page.set_viewport_size(PHONE)
     sign_in(page, world.technician)
     url = f"{live_server.url}/w/{world.work_a.public_id}/"
+    # The day's pages are kept on the phone: the form, with its last values and the site's address, opens
+    # in a plant room with no signal.
+    page.wait_for_function("Number(document.documentElement.dataset.offlineSaved) >= 3", timeout=20000)
+    offline(True)
+    page.goto(url)
+    wait_app(page)
+    expect(page.locator("[data-site-where]")).to_contain_text("14 Quay Street")
+    expect(page.locator("[data-last]").first).to_contain_text("last: ")
+    offline(False)
     page.goto(url)
     wait_app(page)
 

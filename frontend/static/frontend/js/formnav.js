@@ -29,7 +29,7 @@ export function showProgress(form) {
     done += mine;
     total += blocks.length;
     const count = form.querySelector(`[data-section-count="${section.dataset.section}"]`);
-    if (count) {
+    if (count && count.textContent !== `${mine}/${blocks.length}`) {
       count.textContent = `${mine}/${blocks.length}`;
       count.classList.toggle("complete", blocks.length > 0 && mine === blocks.length);
     }
@@ -38,7 +38,10 @@ export function showProgress(form) {
   if (!progress) return { done, total };
   const complete = total > 0 && done === total;
   progress.dataset.complete = String(complete);
-  progress.querySelector("[data-progress-count]").textContent = complete ? `All ${total}` : `${done} of ${total}`;
+  const words = complete ? `All ${total}` : `${done} of ${total}`;
+  // Written only when it changes: the line is a polite status, read out once per new answer, not per keystroke.
+  const count = progress.querySelector("[data-progress-count]");
+  if (count.textContent !== words) count.textContent = words;
   return { done, total };
 }
 
