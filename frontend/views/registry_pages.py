@@ -87,6 +87,7 @@ class Field:
     quantity: str | None = None  # engineering.units quantity: shown and typed in the person's units
     choices: tuple = ()
     hint: str = ""
+    allowed: str = ""  # said instead of the list of choices when the list is long or names records
 
 
 def _fmt(value: float) -> str:
@@ -111,6 +112,8 @@ def _unit_text(field: Field, system: str) -> str:
 
 
 def _allowed(field: Field, system: str) -> str:
+    if field.allowed:
+        return field.allowed
     if field.kind == "number":
         return number_allowed(
             minimum=field.minimum, maximum=field.maximum, unit=field.unit, quantity=field.quantity, system=system
@@ -338,6 +341,7 @@ def _site_fields() -> list[Field]:
             required=True,
             choices=TIME_ZONES,
             hint="The site's clock: due dates and visit times are in it.",
+            allowed="a time zone from the list (such as Europe/Berlin or America/Chicago)",
         ),
         Field(
             "access_notes",
@@ -570,6 +574,7 @@ def _unit_form(request, *, ahu: AHU | None):
             kind="choice",
             required=True,
             choices=tuple((b.pk, f"{b.site.name} · {b.name}") for b in buildings),
+            allowed="a building of a site you manage (add the site and building first)",
         )
         fields = [building_field, *fields]
         values = {f.name: _shown_value(f, AHU._meta.get_field(f.name).get_default(), system) for f in fields[1:]}
@@ -658,6 +663,7 @@ def unit_move(request, pk):
         required=True,
         choices=choices,
         hint="Its components, records and open work go with it.",
+        allowed="another building of the organisation",
     )
     values, errors = {}, {}
     if request.method == "POST":
@@ -688,7 +694,8 @@ def unit_move(request, pk):
         rows=rows,
         errors=errors,
         submit="Move unit",
-        intro=f"Now in {ahu.building.site.name} · {ahu.building.name}.",
+        intro=f"Now in {ahu.building.site.name} · {ahu.building.name}."
+        + ("" if choices else " There is no other building of the organisation yet: add one on a site's page first."),
         back=reverse("frontend:registry_unit", args=[ahu.pk]),
         status=400 if errors else 200,
     )
@@ -791,6 +798,7 @@ def component_new(request, pk):
             kind="choice",
             choices=_parent_choices(ahu),
             hint="A part inside another (a fan inside a fan section); most parts sit directly in the unit.",
+            allowed="none, or a part of this unit that is not retired",
         ),
         Field("installed_on", "Installed on", kind="date"),
     ]

@@ -1,4 +1,4 @@
-"""The supervisor's desk pages: board and assignment, registry, rules per unit, findings, corrective work, flags."""
+"""The supervisor's desk pages: board and assignment, registry (rules: rules_pages), findings, corrective work, flags."""
 
 import datetime as dt
 import uuid
@@ -21,14 +21,12 @@ from accounts.selectors import organisations_where
 from inspections.selectors import corrective_work_already_resolved, reason_for
 from inventory import services as inventory_services
 from inventory.display import usual_zone
-from inventory.inputs import AHU_NUMBERS, ahu_number_check
 from inventory.models import AHU, Component
 from inventory.selectors import ahus_visible_to, component_tree, components_visible_to, sites_managed_by
 from inventory.specs import spec_fields
 from scheduling.inputs import stored_problems
-from scheduling.models import TaskDefinition, UnitTaskSetting, WorkOrder
-from scheduling.selectors import effective_tasks, site_today, skills_needed
-from scheduling.services.library import unit_task_set
+from scheduling.models import TaskDefinition, WorkOrder
+from scheduling.selectors import site_today, skills_needed
 from scheduling.services.work_orders import (
     REJECT_REASON_MAX,
     WorkOrderConflict,
@@ -271,72 +269,6 @@ def unit_detail(request, pk):
     )
 
 
-UNIT_FIELDS = (
-    "tag",
-    "location",
-    "area_served",
-    "design_supply_airflow_m3s",
-    "design_min_oa_fraction",
-    "ventilation_zones",
-    "air_distribution",
-    "occupant_diversity",
-    "system_ventilation_efficiency",
-    "supply_air_setpoint_c",
-    "duct_static_setpoint_pa",
-    "status",
-    "notes",
-)
-
-
-@login_required
-def unit_edit(request, pk):
-    ahu = _ahu(request, pk)
-    errors = {}
-    if request.method == "POST":
-        changes = {}
-        checked = FieldErrors()
-        for name in UNIT_FIELDS:
-            field = AHU._meta.get_field(name)
-            raw = request.POST.get(name, "")
-            if name in AHU_NUMBERS:
-                changes[name] = ahu_number_check(raw, name=name, errors=checked)
-            else:
-                limit = field.max_length or 20_000
-                changes[name] = check_text(
-                    raw, key=name, label=str(field.verbose_name).capitalize(), max_length=limit,
-                    errors=checked, lines=name == "notes",
-                )  # fmt: skip
-        errors = dict(checked)
-        if not errors:
-            try:
-                inventory_services.ahu_update(ahu=ahu, **changes)
-            except ValidationError as exc:
-                errors = exc.message_dict if hasattr(exc, "error_dict") else {"__all__": exc.messages}
-            else:
-                messages.success(request, f"{ahu.tag} saved.")
-                return redirect("frontend:registry_unit", pk=ahu.pk)
-    fields = []
-    for name in UNIT_FIELDS:
-        field = AHU._meta.get_field(name)
-        fields.append(
-            {
-                "name": name,
-                "label": str(field.verbose_name).capitalize(),
-                "value": request.POST.get(name, getattr(ahu, name) if getattr(ahu, name) is not None else ""),
-                "choices": field.choices,
-                "errors": errors.get(name, []),
-                "help": field.help_text,
-                "number": field.get_internal_type() == "FloatField",
-                "text": name == "notes",
-            }
-        )
-    return render(
-        request,
-        "frontend/supervisor/unit_edit.html",
-        {"ahu": ahu, "fields": fields, "errors": errors.get("__all__", [])},
-    )
-
-
 COMPONENT_NAME_MAX = Component._meta.get_field("name").max_length
 
 
@@ -391,40 +323,6 @@ def component_edit(request, pk):
         },
         status=status,
     )
-
-
-@login_required
-def unit_rules(request, pk):
-    ahu = _ahu(request, pk)
-    org = ahu.building.site.organisation
-    tasks = effective_tasks(organisation=org)
-    if request.method == "POST":
-        code = request.POST.get("task_code", "")
-        if code in tasks:
-            enabled = request.POST.get("enabled") == "1"
-            try:
-                unit_task_set(
-                    ahu=ahu, task_code=code, enabled=enabled, reason=request.POST.get("reason", ""), by=request.user
-                )
-            except ValidationError as exc:
-                messages.error(request, f"{tasks[code].name} was not changed: {'; '.join(exc.messages)}")
-            else:
-                messages.success(
-                    request, f"{tasks[code].name} {'switched on' if enabled else 'switched off'} for {ahu.tag}."
-                )
-        else:
-            messages.error(request, f"Task {code!r} is not one of the organisation's tasks.")
-        return redirect("frontend:registry_rules", pk=ahu.pk)
-    settings_by_code = {s.task_code: s for s in UnitTaskSetting.objects.filter(ahu=ahu)}
-    rows = [
-        {
-            "task": t,
-            "setting": settings_by_code.get(code),
-            "enabled": settings_by_code[code].enabled if code in settings_by_code else True,
-        }
-        for code, t in tasks.items()
-    ]
-    return render(request, "frontend/supervisor/rules.html", {"ahu": ahu, "rows": rows})
 
 
 @login_required

@@ -308,3 +308,51 @@ def test_another_organisations_records_are_not_found(scenario, login):
     r = client.post(reverse("frontend:registry_unit_new"), {**UNIT, "building": str(their_unit.building_id)})
     assert r.status_code == 400 and "is not one of the choices" in _field_errors(r, "f-building")
     assert not AHU.objects.filter(tag="AHU-02").exists()
+
+
+def test_every_registry_form_refuses_hostile_values_without_a_server_error_or_a_half_save():
+    """The hostile values of tests/security/test_form_fuzz.py (NaN, ±Infinity, 1e309, NUL, control characters,
+    years 1 and 9999, 2³¹, 2⁶³, a bracket, 20 000 characters) in every field of every registry form, in turn:
+    never a server error, and a form that is not accepted stores nothing. Retiring comes last."""
+    from django.test import Client
+
+    from tests.security.test_api_fuzz import row_counts
+    from tests.security.test_form_fuzz import FORM_VALUES, post_forms
+    from tests.tenancy.world import build
+
+    world = build()
+    a = world.a
+    pages = [
+        "/registry/site/new/",
+        f"/registry/site/{a.site.pk}/",
+        f"/registry/site/{a.site.pk}/building/new/",
+        f"/registry/building/{a.building.pk}/edit/",
+        f"/registry/unit/new/?building={a.building.pk}",
+        f"/registry/unit/{a.ahu.pk}/edit/",
+        f"/registry/unit/{a.ahu.pk}/component/new/?kind=filter_bank",
+        f"/registry/unit/{a.ahu.pk}/component/new/?kind=electric_preheater",
+        f"/registry/unit/{a.ahu.pk}/move/",
+        f"/registry/component/{a.component.pk}/retire/",
+        f"/registry/unit/{a.ahu.pk}/retire/",
+    ]
+    BuildingFactory(site=a.site, name="Fuzz annex")  # so the move form has somewhere to go
+    client = Client(raise_request_exception=False)
+    client.force_login(world.supervisor)
+    problems = []
+    for page in pages:
+        shown = client.get(page)
+        assert shown.status_code == 200, (page, shown.status_code)
+        forms = [(action or page, fields) for action, fields in post_forms(shown.content.decode())]
+        forms = [(action, fields) for action, fields in forms if not action.startswith("/logout")]
+        assert forms, f"{page} shows no post form"
+        for action, fields in forms:
+            for name in [n for n in fields if n != "csrfmiddlewaretoken"]:
+                for value in FORM_VALUES:
+                    before = row_counts()
+                    response = client.post(action, {**fields, name: value})
+                    what = f"POST {action} {name}={value!r:.30}"
+                    if response.status_code >= 500:
+                        problems.append(f"{what} -> {response.status_code}")
+                    elif response.status_code not in (301, 302, 303) and row_counts() != before:
+                        problems.append(f"{what} -> {response.status_code} but rows changed")
+    assert not problems, f"{len(problems)} problems:\n" + "\n".join(problems[:60])
