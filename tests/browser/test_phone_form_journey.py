@@ -253,3 +253,11 @@ def test_a_technician_fills_a_visit_faster_and_reads_it_all_in_us_units(
     assert not SI_TEXT.search(text), SI_TEXT.search(text)
     assert not DEBUG_TEXT.search(text), DEBUG_TEXT.search(text)
     page.screenshot(path=screenshots / "technician-calculator-us-360.png", full_page=True)
+    # A clean pressure drop above the final one is refused in the person's units too, never "final 299 Pa".
+    filters = page.locator("form[data-calc='filter-loading']")
+    filters.locator("input[name='clean_dp_pa']").fill("1.50")
+    filters.get_by_role("button", name="Calculate").click()
+    expect(filters.locator("[data-calc-result]")).to_contain_text("in. w.c.")
+    text = filters.inner_text()
+    assert not SI_TEXT.search(text), SI_TEXT.search(text)
+    assert not DEBUG_TEXT.search(text), DEBUG_TEXT.search(text)
