@@ -246,11 +246,10 @@ def test_a_retired_part_keeps_its_records_and_gets_no_new_work(scenario, login):
     assert final.retired_on == dt.date(2026, 3, 9)
     assert WorkOrderTask.objects.filter(component=final).exists()  # history kept
     work_orders_generate(organisation=scenario.org, today=dt.date(2026, 3, 9))
-    assert (
-        not WorkOrderTask.objects.filter(component=final, work_order__created_at__gt=NOW - dt.timedelta(seconds=1))
-        .exclude(work_order=scenario.work_a)
-        .exists()
-    )
+    new_tasks = WorkOrderTask.objects.exclude(work_order__in=[scenario.work_a, scenario.work_b])
+    pre = scenario.unit_a.components.get(name="Pre-filters")
+    assert new_tasks.filter(component=pre).exists()  # its still-working neighbour is planned as before
+    assert not new_tasks.filter(component=final).exists()
     page = _visible(client.get(reverse("frontend:registry_unit", args=[scenario.unit_a.pk])))
     assert "Final filters Retired 9 Mar 2026" in page
     again = client.post(reverse("frontend:registry_component_retire", args=[final.pk]), {"reason": ""})
@@ -356,3 +355,23 @@ def test_every_registry_form_refuses_hostile_values_without_a_server_error_or_a_
                     elif response.status_code not in (301, 302, 303) and row_counts() != before:
                         problems.append(f"{what} -> {response.status_code} but rows changed")
     assert not problems, f"{len(problems)} problems:\n" + "\n".join(problems[:60])
+
+
+def test_a_checklist_made_after_a_part_is_retired_leaves_it_out_and_an_earlier_one_keeps_it(scenario):
+    """A visit planned before the part was retired still reads as it was (its items and record keep the part);
+    one made after it does not ask about the part."""
+    from inspections.selectors import checklist_build
+    from inventory.services import component_retire
+    from tests.frontend.scenario import make_work
+
+    final = scenario.unit_a.components.get(name="Final filters")
+    with time_machine.travel(NOW + dt.timedelta(days=1), tick=False):
+        component_retire(component=final, on=dt.date(2026, 3, 10), by=scenario.supervisor, reason="removed")
+    with time_machine.travel(NOW + dt.timedelta(days=2), tick=False):
+        later = make_work(ahu=scenario.unit_a, title="Later visit")
+
+    def parts(wo):
+        return {slot.component.name for slot in checklist_build(work_order=wo).slots if slot.component}
+
+    assert "Final filters" in parts(scenario.work_a)
+    assert "Final filters" not in parts(later)
