@@ -236,3 +236,14 @@ def test_each_technician_can_walk_drift_fan_proving_and_a_filter_at_reduced_airf
         assert not Reading.objects.filter(
             inspection__work_order__ahu=s1, item__template__code="ventilation_check", item__key="supply_co2"
         ).exists()
+
+
+@pytest.mark.django_db
+def test_demo_forms_were_received_when_they_were_finished_not_when_the_demo_loaded():
+    """Each demo visit's form reads as synced minutes after it was finished (the record says "received" on
+    that day), not on the day the demo was loaded."""
+    with _at(DECEMBER):
+        demo_load(today=DECEMBER)
+        for inspection in Inspection.objects.exclude(finished_at=None):
+            gap = inspection.received_at - inspection.finished_at
+            assert dt.timedelta(0) <= gap <= dt.timedelta(minutes=30), (inspection.pk, gap)
