@@ -84,6 +84,7 @@ FILL: dict[str, Fill] = {
     "frontend:registry_component_new": {"pk": lambda c: c.ahu.pk},
     "frontend:registry_component_retire": {"pk": lambda c: c.component.pk},
     "frontend:dashboard_site": {"pk": lambda c: c.site.pk},
+    "frontend:work_frost": {"site_pk": lambda c: c.site.pk},
     "frontend:manager_unit": {"pk": lambda c: c.ahu.pk},
     # The corner's filter check passes (no finding): any finding of its unit, else an id nobody has.
     "frontend:manager_finding": {
