@@ -487,6 +487,10 @@ class CoilBalance:
     reason: str
 
 
+# A coil balance with no heat on either side, as a person reads it (the phone's twin: evaluate.js coilBalance).
+COIL_NOTHING_TO_COMPARE = "both sides carry almost no heat: nothing to compare"
+
+
 def coil_balance(*, air_side_w: float, water_side_w: float, tolerance_pct: float = 10.0) -> CoilBalance:
     """Compare air-side and water-side heat of one coil.
 
@@ -508,6 +512,8 @@ def coil_balance(*, air_side_w: float, water_side_w: float, tolerance_pct: float
             message="air_side_w and water_side_w are both below 1 W: nothing to balance",
             low=1.0,
             unit="W",
+            # In words, with no number: 1 W reads "0.0 kW" or "3 Btu/h" and says less than the words do.
+            parts=[COIL_NOTHING_TO_COMPARE],
         )
     diff = (a - w) / mean * 100.0
     d = round(abs(diff), 9)

@@ -573,6 +573,36 @@ def test_the_scenario_reading_fails_on_both(tmp_path):
     assert js["derived"]["loading_pct"] == pytest.approx(139.8, abs=0.1)
 
 
+def test_a_coil_with_no_heat_on_either_side_reads_the_same_plain_words_on_both(tmp_path):
+    """Air and water in equal to out: no heat on either side. Both say so in the same words, with no argument
+    names and no number in a unit (1 W reads "0.0 kW" or "3 Btu/h")."""
+    rng = random.Random(2)
+    ahu, comps = _unit(rng)
+    coil = next(c for c in comps if c.kind == "coil" and c.specs.get("fluid") == "water")
+    values = {
+        ("coil_clean.air_in", coil.pk): 20.0,
+        ("coil_clean.air_out", coil.pk): 20.0,
+        ("coil_clean.water_in", coil.pk): 60.0,
+        ("coil_clean.water_out", coil.pk): 60.0,
+        ("coil_clean.water_flow", coil.pk): 0.0005,
+        ("visit.supply_airflow", None): 2.0,
+    }
+    case = {
+        "ahu": ahu,
+        "components": comps,
+        "slots": _slots(ahu, comps),
+        "values": values,
+        "points": {},
+        "codes": {c.pk: c.label_code for c in comps},
+    }
+    [py] = [r for r in python_results(case) if r["check"] == "coil_balance" and r["component"] == coil.label_code]
+    out = run_js([js_input(case)], tmp_path)["out"][0]["results"]
+    [js] = [r for r in out if r["check"] == "coil_balance" and r["component"] == coil.label_code]
+    assert py["verdict"] == js["verdict"] == "watch"
+    assert py["reason"] == js["reason"]
+    assert py["reason"].endswith("cannot balance the coil: both sides carry almost no heat: nothing to compare")
+
+
 # ---------------------------------------------------------------------------
 # The field calculator: frontend/calculators.py against calc.js
 # ---------------------------------------------------------------------------

@@ -436,7 +436,12 @@ function coilBalance(air, water, tolerancePct) {
   const a = Math.abs(air);
   const w = Math.abs(water);
   const mean = (a + w) / 2;
-  if (mean < 1.0) throw new EngineeringInputError("air_side_w", "both sides are below 1 W: nothing to compare");
+  // In words, as the server (engineering/airside.py COIL_NOTHING_TO_COMPARE): 1 W would read "0.0 kW" or "3 Btu/h".
+  if (mean < 1.0) {
+    throw new EngineeringInputError("air_side_w", "both sides are below 1 W: nothing to compare", {
+      parts: ["both sides carry almost no heat: nothing to compare"],
+    });
+  }
   const diff = ((a - w) / mean) * 100;
   const d = pyRound(Math.abs(diff), 9);
   const verdict = d <= tolerancePct ? OK : d <= 2 * tolerancePct ? WATCH : FAIL;
