@@ -16,8 +16,13 @@ SPEC_TEXT_MAX = 200
 QUANTITY_OF_UNIT = {"Pa": "pressure", "m³/s": "airflow", "°C": "temperature", "W": "heat_rate", "m²": "area"}
 
 
+# Powers by what they are: a motor's in hp and an electric heater's in kW in a US view (as nameplates give them);
+# a coil's capacity is a heat rate (Btu/h). All read kW in SI.
+QUANTITY_OF_FIELD = {"motor_power_w": "motor_power", "power_w": "electric_power"}
+
+
 def _quantity(spec: SpecField) -> str | None:
-    return QUANTITY_OF_UNIT.get(spec.unit)
+    return QUANTITY_OF_FIELD.get(spec.name) or QUANTITY_OF_UNIT.get(spec.unit)
 
 
 def _shown(spec: SpecField, value, system: str):

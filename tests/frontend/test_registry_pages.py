@@ -375,3 +375,31 @@ def test_a_checklist_made_after_a_part_is_retired_leaves_it_out_and_an_earlier_o
 
     assert "Final filters" in parts(scenario.work_a)
     assert "Final filters" not in parts(later)
+
+
+def test_a_us_supervisor_adds_parts_in_cfm_in_wc_hp_and_kw(scenario, login):
+    """In US units the spec form reads cfm, in. w.c., °F, a motor in hp and an electric heater in kW; the values
+    are stored in SI (1 hp = 745.7 W, 1 in. w.c. = 249.09 Pa, 1 cfm = 0.471947 L/s; engineering.units)."""
+    scenario.supervisor.unit_system = "us"
+    scenario.supervisor.save(update_fields=["unit_system"])
+    client = login(scenario.supervisor)
+    url = reverse("frontend:registry_component_new", args=[scenario.unit_a.pk])
+    fan_page = _visible(client.get(url + "?kind=fan"))
+    assert "Motor rated power (hp)" in fan_page and "Design airflow (cfm)" in fan_page
+    assert "Design total pressure (in. w.c.)" in fan_page
+    heater_page = _visible(client.get(url + "?kind=electric_preheater"))
+    assert "Rated power (kW)" in heater_page and "Switch-on threshold (outdoor/entering air) (°F)" in heater_page
+    fan = {"kind": "fan", "name": "Return fan", "spec_role": "return", "spec_fan_type": "plug", "spec_drive": "direct",
+           "spec_motor_power_w": "7.5", "spec_design_flow_m3s": "5000", "spec_design_pressure_pa": "2"}  # fmt: skip
+    assert client.post(url, fan).status_code == 302
+    specs = scenario.unit_a.components.get(name="Return fan").specs
+    assert specs["motor_power_w"] == pytest.approx(7.5 * 745.7, rel=1e-3)
+    assert specs["design_flow_m3s"] == pytest.approx(5000 * 0.000471947, rel=1e-5)
+    assert specs["design_pressure_pa"] == pytest.approx(2 * 249.0889, rel=1e-5)
+    refused = client.post(
+        url, {**FILTERS, "spec_clean_dp_pa": "1.2", "spec_final_dp_pa": "1", "spec_design_airflow_m3s": "5000"}
+    )
+    assert (
+        "Clean (initial) pressure drop: 1.2 in. w.c. is not below the final (change) pressure drop of 1 in. w.c."
+        in (_field_errors(refused, "spec-clean_dp_pa"))
+    )
