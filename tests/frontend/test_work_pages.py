@@ -118,6 +118,12 @@ def test_a_call_out_over_capacity_warns_first_then_shows_everywhere(desk, world)
     today = desk.get("/today/").content.decode()
     assert "Office on level 2 too warm" in today and "14:00 CET" in today and "Call-out" in today
 
+    # The phone's today answer (API) carries the time too, as the work-order endpoint does.
+    api = desk.get("/api/scheduling/today/?day=2025-03-05").json()
+    (row,) = [wo for visit in api for wo in visit["work_orders"] if wo["kind"] == "call_out"]
+    assert row["due_by"] == "2025-03-05T13:00:00Z" and row["tasks"][0]["estimated_minutes"] == 120
+    assert desk.get(f"/api/scheduling/work-orders/{wo.public_id}/").json()["due_by"] == "2025-03-05T13:00:00Z"
+
     (event,) = [
         e for e in Calendar.from_ical(feed_ics(user=world.tess)).walk("VEVENT") if "too warm" in str(e["summary"])
     ]
