@@ -1,4 +1,4 @@
-"""The supervisor's desk pages: board and assignment, registry (rules: rules_pages), findings, corrective work, flags."""
+"""The supervisor's desk pages: board and assignment, registry, findings, corrective work, flagged forms."""
 
 import datetime as dt
 import uuid
