@@ -21,7 +21,7 @@ from django.urls import reverse
 from django.utils import timezone
 from django.utils.text import slugify
 
-from accounts.inputs import FieldErrors, check_date, check_integer, check_text, number_allowed, parse_number
+from accounts.inputs import FieldErrors, check_date, check_integer, check_text, parse_number
 from engineering.errors import EngineeringInputError
 from engineering.units import from_display, to_display, unit_label
 from inventory import services as inventory_services
@@ -91,7 +91,7 @@ class Field:
 
 
 def _fmt(value: float) -> str:
-    return f"{round(value, 4):.10g}"
+    return f"{round(value, 3):.10g}"
 
 
 def _shown_value(field: Field, value, system: str):
@@ -115,9 +115,14 @@ def _allowed(field: Field, system: str) -> str:
     if field.allowed:
         return field.allowed
     if field.kind == "number":
-        return number_allowed(
-            minimum=field.minimum, maximum=field.maximum, unit=field.unit, quantity=field.quantity, system=system
+        # Written out in full (1000000, not 1e+06), in the person's units.
+        lo, hi = (
+            (to_display(value=v, quantity=field.quantity, system=system) for v in (field.minimum, field.maximum))
+            if field.quantity
+            else (field.minimum, field.maximum)
         )
+        unit = _unit_text(field, system)
+        return f"a number from {_fmt(lo)} to {_fmt(hi)}{f' {unit}' if unit else ''}"
     if field.kind == "integer":
         return f"a whole number from {field.minimum:g} to {field.maximum:g}{f' {field.unit}' if field.unit else ''}"
     if field.kind == "choice":
@@ -125,7 +130,7 @@ def _allowed(field: Field, system: str) -> str:
     if field.kind == "date":
         return "a date as YYYY-MM-DD"
     if field.kind == "bool":
-        return "ticked or not"
+        return ""
     return f"text of at most {field.max_length} characters"
 
 
@@ -527,6 +532,7 @@ def unit_fields(*, status: str | None) -> list[Field]:
             kind="choice",
             required=True,
             choices=_choices("air_distribution"),
+            allowed="one of the listed ways supply and return air are placed",
         ),
         _ahu_number("occupant_diversity", hint="Several zones only; leave empty for none."),
         _ahu_number("system_ventilation_efficiency", hint="Several zones only; leave empty for the simplified way."),
