@@ -7,6 +7,7 @@ from .views import (
     manager,
     manager_findings,
     people,
+    planning,
     records,
     registry_files,
     registry_pages,
@@ -44,6 +45,7 @@ urlpatterns = [
     # supervisor
     path("board/", supervisor.board, name="board"),
     path("board/assign/<uuid:public_id>/", supervisor.assign, name="assign"),
+    path("board/plan/", planning.plan_now, name="plan_now"),
     path("registry/", supervisor.registry, name="registry"),
     path("registry/unit/<int:pk>/", supervisor.unit_detail, name="registry_unit"),
     path("registry/unit/<int:pk>/edit/", registry_pages.unit_edit, name="registry_unit_edit"),

@@ -168,3 +168,29 @@ def test_work_with_someone_lacking_a_skill_it_needs_is_marked_naming_the_skill(s
     scenario.technician.skills = ["mechanical", "electrical"]
     scenario.technician.save(update_fields=["skills"])
     assert f"{scenario.technician} lacks:" not in login(scenario.supervisor).get("/board/").content.decode()
+
+
+def test_plan_work_now_makes_the_new_units_visits_once_and_says_so(scenario, login):
+    """A supervisor who has just added a customer's unit presses "Plan work now" on the board: the unit's
+    preventive visits for the next 90 days are made at once and the message counts them; pressing it again makes
+    nothing twice and says so. A technician may not press it (403, nothing made)."""
+    from tests.factories.inventory import BuildingFactory, make_full_unit
+
+    with time_machine.travel(dt.datetime(2025, 3, 5, 10, tzinfo=dt.UTC), tick=False):
+        new_unit = make_full_unit(building=BuildingFactory(site=scenario.site_a, name="South block"), tag="AHU-02")
+        assert not WorkOrder.objects.filter(ahu=new_unit).exists()
+        technician = login(scenario.technician)
+        assert technician.post(reverse("frontend:plan_now")).status_code == 403
+        assert not WorkOrder.objects.filter(ahu=new_unit).exists()
+
+        client = login(scenario.supervisor)
+        page = client.post(reverse("frontend:plan_now"), {"week": "2025-03-03"}, follow=True)
+        made = WorkOrder.objects.filter(ahu=new_unit)
+        assert made.exists()
+        said = [str(m) for m in get_messages(page.wsgi_request)]
+        assert any("new visit" in m for m in said), said
+        assert page.redirect_chain[-1][0].endswith("?week=2025-03-03")
+        count = WorkOrder.objects.count()
+        again = client.post(reverse("frontend:plan_now"), follow=True)
+        assert WorkOrder.objects.count() == count
+        assert any("nothing new was due" in str(m) for m in get_messages(again.wsgi_request))

@@ -442,6 +442,7 @@ WRITES: dict[tuple[str, str], Write] = {
         ),
         in_body=True,
     ),
+    ("frontend:plan_now", "post"): Write(MANAGERS, lambda w, c: Call({}, {}, "form"), own_org_only=True),
     ("frontend:work_frost", "post"): Write(MANAGERS, lambda w, c: Call({"site_pk": c.site.pk}, {}, "form")),
     # Field work: technicians (their own work where it says so), supervisors and admins; never property managers.
     # Starting work: the technician assigned to it (site A's open work is our technician's).
