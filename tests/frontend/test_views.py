@@ -234,3 +234,18 @@ def test_records_list_queries_do_not_grow_with_reports(scenario, login, django_a
     add(20)
     with django_assert_max_num_queries(len(before.captured_queries)):
         assert client.get("/records/").content.decode().count("data-report=") == 21
+
+
+def test_a_completed_work_orders_page_opens_on_its_result_not_on_safety_banners(scenario, login):
+    """Once the work is done the page leads with its result and record; the safety notes given with the work
+    stay one tap away below (folded), not three banners above the result."""
+    from scheduling.models import WorkOrder
+
+    wo = scenario.work_a
+    page = login(scenario.technician).get(f"/w/{wo.public_id}/").content.decode()
+    assert 'class="caution"' in page and "data-done-cautions" not in page  # open work: the cautions lead
+    WorkOrder.objects.filter(pk=wo.pk).update(state=WorkOrder.State.COMPLETED)
+    page = login(scenario.supervisor).get(f"/w/{wo.public_id}/").content.decode()
+    folded = re.search(r"<details[^>]*data-done-cautions.*?</details>", page, re.S)
+    assert folded and "licensed practice" in folded.group(0)
+    assert 'class="caution"' not in page.replace(folded.group(0), "")
