@@ -743,7 +743,7 @@ def unit_retire(request, pk):
             "back": reverse("frontend:registry_unit", args=[ahu.pk]),
             "done": ahu.status == AHU.Status.RETIRED,
         },
-        status=400 if errors else 200,
+        status=400 if errors and request.method == "POST" else 200,
     )
 
 
@@ -896,7 +896,7 @@ def component_retire(request, pk):
             "back": back,
             "done": component.retired_on is not None,
         },
-        status=400 if errors else 200,
+        status=400 if errors and request.method == "POST" else 200,
     )
 
 
