@@ -436,18 +436,40 @@ BUILDING_FIELDS = [
 
 
 def _building_form(request, *, site: Site, building: Building | None):
+    """Add a building to ``site``, or edit one; an edited building may move to another site of its organisation
+    (its units, their records and open work go with it)."""
     system = request.user.unit_system
+    fields = list(BUILDING_FIELDS)
+    if building is not None:
+        sites = sites_managed_by(user=request.user).filter(organisation_id=site.organisation_id).order_by("name")
+        fields.append(
+            Field(
+                "site",
+                "Site",
+                kind="choice",
+                required=True,
+                choices=tuple((s.pk, s.name) for s in sites),
+                hint="Choose another site to move the building there with its units and their records.",
+                allowed="a site of the organisation",
+            )
+        )
     values = {f.name: _shown_value(f, getattr(building, f.name), system) for f in BUILDING_FIELDS} if building else {}
+    if building is not None:
+        values["site"] = str(site.pk)
     errors: dict = {}
     if request.method == "POST":
-        clean, errors = _read(BUILDING_FIELDS, request.POST, system=system, today=timezone.localdate())
-        values = {f.name: request.POST.get(f.name, "") for f in BUILDING_FIELDS}
+        clean, errors = _read(fields, request.POST, system=system, today=timezone.localdate())
+        values = {f.name: request.POST.get(f.name, "") for f in fields}
+        target = site
+        if building is not None and clean.get("site"):
+            target = Site.objects.get(pk=clean["site"])
+        clean.pop("site", None)
         name = clean.get("name")
-        twin = site.buildings.filter(name__iexact=name).exclude(pk=getattr(building, "pk", None)) if name else None
+        twin = target.buildings.filter(name__iexact=name).exclude(pk=getattr(building, "pk", None)) if name else None
         if twin:
             errors.add(
                 "name",
-                f"Building name: {name!r} is already a building of {site.name}; allowed: a name no "
+                f"Building name: {name!r} is already a building of {target.name}; allowed: a name no "
                 "other building of the site has",
             )
         if not errors:
@@ -459,12 +481,20 @@ def _building_form(request, *, site: Site, building: Building | None):
                     )
                     messages.success(request, f"Building {building.name} added to {site.name}.")
                 else:
+                    if target != site:
+                        taken = set(target.buildings.values_list("code", flat=True))
+                        clean["site"] = target
+                        if building.code in taken:
+                            clean["code"] = _unique_code(building.code, taken)
                     inventory_services.building_update(building=building, by=request.user, **clean)
-                    messages.success(request, f"Building {building.name} saved.")
-                return redirect("frontend:registry_site", pk=site.pk)
+                    moved = f" It is now at {target.name}." if target != site else ""
+                    messages.success(request, f"Building {building.name} saved.{moved}")
+                return redirect("frontend:registry_site", pk=target.pk)
             except ValidationError as exc:
                 errors = _service_errors(exc)
-    rows = _rows(BUILDING_FIELDS, values=values, errors=errors, system=system)
+                if building is not None and building.pk is not None:
+                    building.refresh_from_db()
+    rows = _rows(fields, values=values, errors=errors, system=system)
     title = f"Add a building to {site.name}" if building is None else f"Edit {building.name} ({site.name})"
     return _page(
         request,

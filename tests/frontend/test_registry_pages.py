@@ -403,3 +403,24 @@ def test_a_us_supervisor_adds_parts_in_cfm_in_wc_hp_and_kw(scenario, login):
         "Clean (initial) pressure drop: 1.2 in. w.c. is not below the final (change) pressure drop of 1 in. w.c."
         in (_field_errors(refused, "spec-clean_dp_pa"))
     )
+
+
+def test_a_building_moves_to_another_site_of_the_organisation_with_its_units(scenario, login):
+    """Editing a building, another site of the organisation may be chosen: its units go with it; a name already
+    used at the new site is refused at the name field and nothing moves."""
+    client = login(scenario.supervisor)
+    building = scenario.unit_a.building
+    url = reverse("frontend:registry_building_edit", args=[building.pk])
+    BuildingFactory(site=scenario.site_b, name="North block")
+    refused = client.post(url, {"name": "North block", "site": str(scenario.site_b.pk)})
+    assert refused.status_code == 400
+    assert "Building name: 'North block' is already a building of Linden Court" in _field_errors(refused, "f-name")
+    building.refresh_from_db()
+    assert building.site == scenario.site_a
+    moved = client.post(url, {"name": "North block (old)", "site": str(scenario.site_b.pk)})
+    assert moved.status_code == 302
+    scenario.unit_a.refresh_from_db()
+    assert scenario.unit_a.building.site == scenario.site_b
+    theirs = SiteFactory(organisation=OrganisationFactory(name="Elsewhere Air"), name="Their Site")
+    r = client.post(url, {"name": "North block (old)", "site": str(theirs.pk)})
+    assert r.status_code == 400 and "is not one of the choices" in _field_errors(r, "f-site")

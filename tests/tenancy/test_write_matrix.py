@@ -298,7 +298,10 @@ WRITES: dict[tuple[str, str], Write] = {
         MANAGERS, lambda w, c: Call({"pk": c.site.pk}, {"name": "Probe Annex"}, "form")
     ),
     ("frontend:registry_building_edit", "post"): Write(
-        MANAGERS, lambda w, c: Call({"pk": c.building.pk}, {"name": c.building.name, "floors": "7"}, "form")
+        MANAGERS,
+        lambda w, c: Call(
+            {"pk": c.building.pk}, {"name": c.building.name, "floors": "7", "site": str(c.site.pk)}, "form"
+        ),
     ),
     ("frontend:registry_unit_new", "post"): Write(
         MANAGERS,
