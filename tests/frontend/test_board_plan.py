@@ -194,3 +194,27 @@ def test_plan_work_now_makes_the_new_units_visits_once_and_says_so(scenario, log
         again = client.post(reverse("frontend:plan_now"), follow=True)
         assert WorkOrder.objects.count() == count
         assert any("nothing new was due" in str(m) for m in get_messages(again.wsgi_request))
+
+
+def test_plan_work_now_names_the_new_visits_and_links_to_the_week_of_the_first(scenario, login):
+    """The message names each new visit (unit with its building, title, due day), at most ten then "and N more",
+    and links to the board week of the earliest one."""
+    from frontend.views.planning import NAMED_VISITS, new_visits_words
+    from tests.factories.inventory import BuildingFactory, make_full_unit
+
+    with time_machine.travel(dt.datetime(2025, 3, 5, 10, tzinfo=dt.UTC), tick=False):
+        new_unit = make_full_unit(building=BuildingFactory(site=scenario.site_a, name="South block"), tag="AHU-02")
+        client = login(scenario.supervisor)
+        page = client.post(reverse("frontend:plan_now"), {"week": "2025-03-03"}, follow=True)
+        made = list(WorkOrder.objects.filter(ahu=new_unit).order_by("due_date", "pk"))
+        said = [str(m) for m in get_messages(page.wsgi_request)]
+        html = page.content.decode()
+    named = next(m for m in said if m.startswith("New: "))
+    first = made[0]
+    day = f"{first.due_date.day} {first.due_date:%b %Y}"
+    assert f"AHU-02 (South block) — {first.title}, due {day}" in named
+    monday = first.due_date - dt.timedelta(days=first.due_date.weekday())
+    assert f'href="/board/?week={monday.isoformat()}"' in html
+    many = made * 6
+    words = new_visits_words(many)
+    assert words.count(" — ") == NAMED_VISITS and words.endswith(f"and {len(many) - NAMED_VISITS} more.")
