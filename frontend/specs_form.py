@@ -36,6 +36,15 @@ def spec_initial(*, component, system: str) -> dict:
     return {s.name: _shown(s, component.specs.get(s.name), system) for s in spec_fields(component.kind)}
 
 
+def keep_typed_choice(choices: list[tuple[str, str]], value) -> list[tuple[str, str]]:
+    """The choices of a select, with a refused value sent back kept as a marked, selected option: the form
+    shows what was chosen (and why it was refused) instead of falling back to '—'."""
+    value = "" if value is None or isinstance(value, bool) else str(value)
+    if value and value not in {v for v, _ in choices}:
+        return [*choices, (value, f"{value[:40]} (not one of the choices)")]
+    return choices
+
+
 def spec_rows(*, fields, values: dict, errors: dict, system: str) -> list[dict]:
     rows = []
     for s in fields:
@@ -54,6 +63,7 @@ def spec_rows(*, fields, values: dict, errors: dict, system: str) -> list[dict]:
                 "allowed": allowed,
                 "value": "" if value is None else value,
                 "errors": errors.get(s.name, []),
+                "choices": keep_typed_choice([(c, c) for c in s.choices], value) if s.kind == "choice" else [],
                 # What the browser is told: whole numbers step by 1 within the range, text has a length.
                 "step": "1" if s.kind == "integer" else "any",
                 "min": int(s.minimum) if s.kind == "integer" else None,
@@ -143,3 +153,65 @@ def _allowed_shown(s: SpecField, system: str) -> str:
         unit = unit_label(quantity=q, system=system)
         return f"a number from {_shown(s, s.minimum, system):g} to {_shown(s, s.maximum, system):g} {unit}"
     return s.allowed()
+
+
+# What the unit page says of each part: the few values a technician or supervisor looks for first.
+KEY_SPECS = {
+    "filter_bank": ("stage", "merv", "iso_16890", "clean_dp_pa", "final_dp_pa", "count", "size"),
+    "fan": ("role", "motor_power_w", "design_flow_m3s", "design_pressure_pa", "vsd"),
+    "electric_preheater": ("stages", "power_w", "switch_on_c", "high_limit_c"),
+    "coil": ("duty", "fluid", "design_capacity_w", "glycol_pct"),
+    "damper": ("role", "actuator", "fail_position"),
+    "heat_recovery": ("recovery_type", "design_effectiveness_pct"),
+    "humidifier": ("humidifier_type", "capacity_kg_h"),
+    "sensor": ("measures", "location", "last_calibrated"),
+    "drain_pan": ("material", "has_trap"),
+    "intake_screen": ("free_area_m2", "mesh_mm"),
+}
+PLAIN_LABELS = {
+    "stage": "stage",
+    "merv": "MERV",
+    "iso_16890": "ISO 16890",
+    "clean_dp_pa": "clean pressure drop",
+    "final_dp_pa": "change at",
+    "count": "filters",
+    "size": "size",
+    "motor_power_w": "motor",
+    "design_flow_m3s": "design airflow",
+    "design_pressure_pa": "design pressure",
+    "vsd": "variable-speed drive",
+    "stages": "stages",
+    "power_w": "rated power",
+    "switch_on_c": "switches on at",
+    "high_limit_c": "high-limit cut-out",
+}
+
+
+def plain_number(value: float) -> str:
+    """A number as read aloud: whole above 100, one decimal above 10, else two (6357 cfm, 62.6 °F, 0.25)."""
+    if abs(value) >= 100:
+        return f"{value:.0f}"
+    return f"{round(value, 1 if abs(value) >= 10 else 2):g}"
+
+
+def spec_summary(*, component, system: str) -> list[str]:
+    """A part's key specs in plain words in the person's units, e.g. ['stage final', 'MERV 14',
+    'clean pressure drop 90 Pa', 'change at 250 Pa']."""
+    fields = {s.name: s for s in spec_fields(component.kind)}
+    out = []
+    for name in KEY_SPECS.get(component.kind, ()):
+        s, value = fields.get(name), component.specs.get(name)
+        if s is None or value is None or value == "":
+            continue
+        label = PLAIN_LABELS.get(name, s.label.lower())
+        if s.kind == "bool":
+            out.append(f"{label}: {'yes' if value else 'no'}")
+            continue
+        if s.kind in {"number", "integer"} and isinstance(value, int | float):
+            q = _quantity(s)
+            unit = unit_label(quantity=q, system=system) if q else s.unit
+            shown = to_display(value=value, quantity=q, system=system) if q else value
+            out.append(f"{label} {plain_number(shown)}{f' {unit}' if unit else ''}")
+            continue
+        out.append(f"{label} {str(value).replace('_', ' ')}")
+    return out

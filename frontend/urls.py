@@ -47,7 +47,7 @@ urlpatterns = [
     path("board/assign/<uuid:public_id>/", supervisor.assign, name="assign"),
     path("board/plan/", planning.plan_now, name="plan_now"),
     path("registry/", supervisor.registry, name="registry"),
-    path("registry/unit/<int:pk>/", supervisor.unit_detail, name="registry_unit"),
+    path("registry/unit/<int:pk>/", registry_pages.unit_detail, name="registry_unit"),
     path("registry/unit/<int:pk>/edit/", registry_pages.unit_edit, name="registry_unit_edit"),
     path("registry/unit/<int:pk>/rules/", rules_pages.unit_rules, name="registry_rules"),
     path("registry/unit/<int:pk>/qr.<str:fmt>", registry_files.unit_qr, name="registry_unit_qr"),
@@ -55,7 +55,7 @@ urlpatterns = [
     path("registry/files/confirm/", registry_files.import_confirm, name="registry_import_confirm"),
     path("registry/files/export/<str:kind>.csv", registry_files.export, name="registry_export"),
     path("rules/", rules_pages.organisation_rules, name="rules"),
-    path("registry/component/<int:pk>/edit/", supervisor.component_edit, name="registry_component_edit"),
+    path("registry/component/<int:pk>/edit/", registry_pages.component_edit, name="registry_component_edit"),
     # registry: add, move and retire (frontend/views/registry_pages.py)
     path("registry/site/new/", registry_pages.site_new, name="registry_site_new"),
     path("registry/site/<int:pk>/", registry_pages.site_edit, name="registry_site"),

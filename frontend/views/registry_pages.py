@@ -8,6 +8,7 @@ allowed. Writes go through inventory.services (audited); nothing is saved while 
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import zoneinfo
 from dataclasses import dataclass
@@ -31,8 +32,9 @@ from inventory.selectors import component_tree, components_visible_to, sites_man
 from inventory.specs import spec_fields
 from scheduling.services.retire import unit_retire as unit_retire_service
 
-from ..specs_form import spec_rows, specs_from_post
+from ..specs_form import keep_typed_choice, plain_number, spec_initial, spec_rows, spec_summary, specs_from_post
 from .supervisor import _ahu, _managed_ahus, _organisation
+from .technician import unit_records_context
 
 REFUSED = "Only a supervisor or administrator of the organisation may change the registry."
 
@@ -215,6 +217,7 @@ def _rows(fields: list[Field], *, values: dict, errors: dict, system: str) -> li
     rows = []
     for f in fields:
         unit = _unit_text(f, system)
+        choices = [(str(v), label) for v, label in f.choices]
         rows.append(
             {
                 "name": f.name,
@@ -224,7 +227,7 @@ def _rows(fields: list[Field], *, values: dict, errors: dict, system: str) -> li
                 "unit": unit,
                 "required": f.required,
                 "value": values.get(f.name, ""),
-                "choices": [(str(v), label) for v, label in f.choices],
+                "choices": keep_typed_choice(choices, values.get(f.name)),
                 "hint": f.hint,
                 "allowed": _allowed(f, system),
                 "errors": errors.get(f.name, []),
@@ -251,7 +254,7 @@ def _spec_as_rows(kind: str, *, values: dict, errors: dict, system: str) -> list
                 "unit": r["unit"] if number else "",
                 "required": s.required,
                 "value": r["value"],
-                "choices": [(c, c) for c in s.choices],
+                "choices": r["choices"],
                 "hint": "",
                 "allowed": r["allowed"],
                 "errors": r["errors"],
@@ -349,6 +352,35 @@ def _site_fields() -> list[Field]:
             allowed="a time zone from the list (such as Europe/Berlin or America/Chicago)",
         ),
         Field(
+            "altitude_m",
+            "Altitude above sea level",
+            kind="number",
+            minimum=-500,
+            maximum=5000,
+            quantity="length",
+            hint="Height of the site; it corrects air density in the airflow checks.",
+        ),
+        Field(
+            "preheat_threshold_c",
+            "Freeze-season threshold",
+            kind="number",
+            minimum=-20,
+            maximum=15,
+            quantity="temperature",
+            hint="When the usual daily low falls to this, the freeze season starts (about 5 °C / 41 °F is common "
+            "practice): preheater and frost checks are planned from then.",
+        ),
+        Field(
+            "cooling_threshold_c",
+            "Cooling-season threshold",
+            kind="number",
+            minimum=10,
+            maximum=45,
+            quantity="temperature",
+            hint="When the usual daily high reaches this, the cooling season starts: cooling-coil checks are "
+            "planned from then.",
+        ),
+        Field(
             "access_notes",
             "Access notes for technicians",
             kind="lines",
@@ -365,6 +397,10 @@ def _site_form(request, site: Site | None):
     values = {f.name: _shown_value(f, getattr(site, f.name), system) for f in fields} if site else {}
     if site is None:
         values["time_zone"] = org.sites.values_list("time_zone", flat=True).first() or "UTC"
+        for name in SITE_DEFAULTED:
+            values[name] = _shown_value(
+                next(f for f in fields if f.name == name), Site._meta.get_field(name).get_default(), system
+            )
     errors: dict = {}
     if request.method == "POST":
         clean, errors = _read(fields, request.POST, system=system, today=timezone.localdate())
@@ -376,6 +412,9 @@ def _site_form(request, site: Site | None):
                 f"Site name: {name!r} is already a site of {org.name}; allowed: a name no other "
                 "site of the organisation has",
             )
+        for key in SITE_DEFAULTED:  # left empty: the site keeps its value (a new one the usual default)
+            if clean.get(key) is None:
+                clean.pop(key, None)
         if not errors:
             try:
                 if site is None:
@@ -410,9 +449,35 @@ def _site_form(request, site: Site | None):
             "refused": bool(errors),
             "loose": [t for k, ts in errors.items() if k not in {f.name for f in fields} for t in ts],
             "buildings": site.buildings.order_by("name").prefetch_related("ahus"),
+            "climate": site_climate(site=site, system=system),
         },
         status=400 if errors else 200,
     )
+
+
+SITE_DEFAULTED = ("altitude_m", "preheat_threshold_c", "cooling_threshold_c")
+MONTHS = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec")
+
+
+def site_climate(*, site: Site, system: str) -> dict:
+    """The site's monthly climate normals and the season starts they give, in the person's units (read-only:
+    they come from the site's location)."""
+    unit = unit_label(quantity="temperature", system=system)
+
+    def shown(value):
+        return f"{to_display(value=float(value), quantity='temperature', system=system):.1f}"
+
+    months = [
+        {"month": m, "low": shown(lo), "high": shown(hi)}
+        for m, lo, hi in zip(MONTHS, site.normals_min_c or [], site.normals_max_c or [], strict=False)
+    ]
+    return {
+        "unit": unit,
+        "months": months,
+        "freeze_start": site.freeze_season_start,
+        "cooling_start": site.cooling_season_start,
+        "source": site.season_source,
+    }
 
 
 @login_required
@@ -837,8 +902,11 @@ def component_new(request, pk):
             allowed="none, or a part of this unit that is not retired",
         ),
         Field("installed_on", "Installed on", kind="date"),
+        _position_field(ahu),
     ]
-    values: dict = {"name": dict(KIND_CHOICES)[kind], "parent": ""}
+    last = ahu.components.order_by("-position").values_list("position", flat=True).first()
+    next_place = min((last or 0) + 1, POSITION_MAX)
+    values: dict = {"name": dict(KIND_CHOICES)[kind], "parent": "", "position": str(next_place)}
     spec_values: dict = {}
     errors: dict = {}
     if request.method == "POST":
@@ -852,7 +920,6 @@ def component_new(request, pk):
         errors.update(spec_errors)
         if not errors:
             parent = ahu.components.filter(pk=clean["parent"]).first() if clean.get("parent") else None
-            last = ahu.components.order_by("-position").values_list("position", flat=True).first()
             try:
                 component = inventory_services.component_create(
                     by=request.user,
@@ -862,7 +929,7 @@ def component_new(request, pk):
                     parent=parent,
                     specs=specs,
                     installed_on=clean["installed_on"],
-                    position=min((last or 0) + 1, 32767),
+                    position=next_place if clean.get("position") is None else clean["position"],
                 )
             except ValidationError as exc:
                 errors = _service_errors(exc)
@@ -873,7 +940,7 @@ def component_new(request, pk):
     spec = _spec_as_rows(kind, values=spec_values, errors=errors, system=system)
     return _page(
         request,
-        title=f"Add a {dict(KIND_CHOICES)[kind].lower()} to {ahu.display_name}",
+        title=f"Add {with_article(dict(KIND_CHOICES)[kind].lower())} to {ahu.display_name}",
         rows=rows,
         errors=errors,
         back=back,
@@ -886,6 +953,185 @@ def component_new(request, pk):
 
 
 SPECS_KINDS = set(ComponentKind.values)
+POSITION_MAX = 32767
+
+
+def with_article(words: str) -> str:
+    """'an electric preheater', 'a filter bank' (by the first letter's sound; good enough for our kind names)."""
+    return f"{'an' if words[:1].lower() in 'aeiou' else 'a'} {words}"
+
+
+def _position_field(ahu: AHU, *, but: Component | None = None) -> Field:
+    now = ", ".join(
+        f"{c.position} {c.name}"
+        for c in ahu.components.filter(retired_on__isnull=True, parent__isnull=True).order_by("position", "id")
+        if c != but
+    )
+    return Field(
+        "position",
+        "Place in the airstream",
+        kind="integer",
+        minimum=0,
+        maximum=POSITION_MAX,
+        hint="Parts are listed from the outdoor-air intake to the supply outlet: a lower number comes first "
+        "(a pre-filter before the preheater, for example)." + (f" Now: {now}." if now else ""),
+    )
+
+
+def _descendants(component: Component) -> set[int]:
+    below: dict[int | None, list[int]] = {}
+    for pk, parent in component.ahu.components.values_list("pk", "parent_id"):
+        below.setdefault(parent, []).append(pk)
+    found, todo = set(), [component.pk]
+    while todo:
+        for child in below.get(todo.pop(), []):
+            if child not in found:
+                found.add(child)
+                todo.append(child)
+    return found
+
+
+@login_required
+def component_edit(request, pk):
+    """Edit a part: its name, where it sits (inside another part, its place along the airstream), when it was
+    installed, and its specifications. A part cannot be inside itself or inside a part it contains."""
+    component = _component(request, pk)
+    ahu = component.ahu
+    system = request.user.unit_system
+    parent_field = Field(
+        "parent",
+        "Part of",
+        kind="choice",
+        choices=_parent_choices(ahu),
+        hint="A part inside another (a fan inside a fan section); most parts sit directly in the unit.",
+        allowed="none, or another part of this unit that is not retired and is not inside this one",
+    )
+    place = [parent_field, _position_field(ahu, but=component), Field("installed_on", "Installed on", kind="date")]
+    values = {
+        "parent": str(component.parent_id or ""),
+        "position": str(component.position),
+        "installed_on": component.installed_on.isoformat() if component.installed_on else "",
+    }
+    spec_values = spec_initial(component=component, system=system)
+    name = component.name
+    errors: dict = {}
+    status = 200
+    if request.method == "POST":
+        specs, errors = specs_from_post(kind=component.kind, post=request.POST, system=system)
+        spec_values = {k: request.POST.get(f"spec_{k}", "") for k in spec_values}
+        name = request.POST.get("name", "")
+        checked = FieldErrors()
+        clean_name = check_text(
+            name, key="name", label="Name", max_length=COMPONENT_NAME_MAX, errors=checked, required=True
+        )
+        # A form without the place fields (an older page) keeps the part where it is.
+        post = request.POST.copy()
+        for key, value in values.items():
+            post.setdefault(key, value)
+        raw_parent = post.get("parent", "")
+        inside = _descendants(component)
+        if raw_parent == str(component.pk):
+            checked.add("parent", f"Part of: {component.name} cannot be inside itself; allowed: {parent_field.allowed}")
+        elif raw_parent.isdigit() and int(raw_parent) in inside:
+            child = ahu.components.get(pk=int(raw_parent))
+            checked.add(
+                "parent",
+                f"Part of: {child.name} is inside {component.name}, so {component.name} cannot go inside it; "
+                f"allowed: {parent_field.allowed}",
+            )
+        clean, more = _read(place, post, system=system, today=timezone.localdate())
+        for key, texts in more.items():
+            if key not in checked:
+                for text in texts:
+                    checked.add(key, text)
+        values = {f.name: post.get(f.name, "") for f in place}
+        errors.update(checked)
+        if not errors:
+            parent = ahu.components.filter(pk=clean["parent"]).first() if clean.get("parent") else None
+            changes = {"name": clean_name, "specs": specs, "parent": parent, "installed_on": clean["installed_on"]}
+            if clean.get("position") is not None:
+                changes["position"] = clean["position"]
+            try:
+                inventory_services.component_update(component=component, by=request.user, **changes)
+            except ValidationError as exc:
+                errors = exc.message_dict if hasattr(exc, "error_dict") else {"__all__": exc.messages}
+            else:
+                messages.success(request, f"{component.name} saved.")
+                return redirect("frontend:registry_unit", pk=ahu.pk)
+        errors = {key.removeprefix("specs."): texts for key, texts in errors.items()}
+        status = 400
+        component.refresh_from_db()  # the heading names the part as stored, not as typed
+    rows = spec_rows(fields=spec_fields(component.kind), values=spec_values, errors=errors, system=system)
+    shown = {r["spec"].name for r in rows} | {f.name for f in place} | {"name"}
+    # The select offers neither the part itself nor the parts inside it (a tampered form is refused above).
+    barred = {component.pk, *_descendants(component)}
+    offered = tuple(c for c in parent_field.choices if c[0] not in barred)
+    shown_place = [dataclasses.replace(parent_field, choices=offered), *place[1:]]
+    return render(
+        request,
+        "frontend/supervisor/component_edit.html",
+        {
+            "component": component,
+            "rows": rows,
+            "place": _rows(shown_place, values=values, errors=errors, system=system),
+            "name": name,
+            "name_max": COMPONENT_NAME_MAX,
+            "name_errors": errors.get("name", []),
+            "errors": [text for key, texts in errors.items() if key not in shown for text in texts],
+        },
+        status=status,
+    )
+
+
+def unit_design(*, ahu: AHU, system: str) -> list[tuple[str, str]]:
+    """The unit's design values as (label, value in the person's units), leaving out what is not given."""
+    out = []
+    for f in unit_fields(status=ahu.status):
+        if f.name in {"tag", "location", "notes", "status"}:
+            continue
+        value = getattr(ahu, f.name)
+        if value is None or value == "":
+            continue
+        if f.kind == "bool":
+            out.append((f.label, "yes" if value else "no"))
+        elif f.kind == "choice":
+            out.append((f.label, str(getattr(ahu, f"get_{f.name}_display")())))
+        elif f.kind in {"number", "integer"}:
+            unit = _unit_text(f, system)
+            shown = to_display(value=value, quantity=f.quantity, system=system) if f.quantity else value
+            out.append((f.label, f"{plain_number(shown)}{f' {unit}' if unit else ''}"))
+        elif f.kind == "date":
+            out.append((f.label, f"{value:%d %b %Y}"))
+        else:
+            out.append((f.label, str(value)))
+    return out
+
+
+def _with_specs(nodes: list[dict], system: str) -> list[dict]:
+    return [
+        {
+            **n,
+            "specs": spec_summary(component=n["component"], system=system),
+            "children": _with_specs(n["children"], system),
+        }
+        for n in nodes
+    ]
+
+
+@login_required
+def unit_detail(request, pk):
+    ahu = _ahu(request, pk)
+    system = request.user.unit_system
+    return render(
+        request,
+        "frontend/supervisor/unit.html",
+        {
+            "ahu": ahu,
+            "design": unit_design(ahu=ahu, system=system),
+            "tree": _with_specs(component_tree(ahu=ahu), system),
+            **unit_records_context(ahu=ahu, system=system),
+        },
+    )
 
 
 @login_required

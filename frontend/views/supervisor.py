@@ -3,6 +3,7 @@
 import datetime as dt
 import uuid
 import zoneinfo
+from urllib.parse import urlencode
 
 from django.contrib import messages
 from django.contrib.auth.decorators import login_required
@@ -19,14 +20,12 @@ from accounts.inputs import INT32_MAX, FieldErrors, check_integer, check_text, d
 from accounts.models import Role
 from accounts.selectors import organisations_where
 from inspections.selectors import corrective_work_already_resolved, reason_for
-from inventory import services as inventory_services
 from inventory.display import usual_zone
-from inventory.models import AHU, Component
-from inventory.selectors import ahus_visible_to, component_tree, components_visible_to, sites_managed_by
-from inventory.specs import spec_fields
+from inventory.models import AHU
+from inventory.selectors import ahus_visible_to, sites_managed_by
 from scheduling.inputs import stored_problems
 from scheduling.models import TaskDefinition, WorkOrder
-from scheduling.selectors import site_today, skills_needed
+from scheduling.selectors import site_today, skills_needed, weekday_on_or_near
 from scheduling.services.work_orders import (
     REJECT_REASON_MAX,
     WorkOrderConflict,
@@ -36,8 +35,6 @@ from scheduling.services.work_orders import (
 )
 
 from .. import backends, selectors
-from ..specs_form import spec_initial, spec_rows, specs_from_post
-from .technician import unit_records_context
 
 MANAGING = {Role.SUPERVISOR, Role.ADMIN}
 
@@ -108,6 +105,10 @@ def board(request):
     show_all = request.GET.get("all", "")
     columns = []
     site_days: dict[int, dt.date] = {}
+    # "Back to change it" from the over-capacity page: that row's form keeps the technician and day chosen.
+    changing = request.GET.get("change", "")[:36]
+    kept_assignee = request.GET.get("assignee", "")[:18]
+    kept_day = _kept_day(request.GET.get("day", ""))
     for key, title, rows in (
         ("overdue", "Overdue", data.overdue),
         ("due", "Due, not assigned", data.due),
@@ -123,7 +124,13 @@ def board(request):
             if site.pk not in site_days:
                 site_days[site.pk] = site_today(site=site)
             wo.site_today = site_days[site.pk]
-            wo.plan_default = wo.scheduled_for or max(wo.due_date, wo.site_today)
+            wo.plan_default = wo.scheduled_for or weekday_on_or_near(
+                max(wo.due_date, wo.site_today), today=wo.site_today
+            )
+            wo.kept_assignee = None
+            if changing and str(wo.public_id) == changing:
+                wo.plan_default = kept_day or wo.plan_default
+                wo.kept_assignee = int(kept_assignee) if kept_assignee.isdigit() else None
         columns.append({"key": key, "title": title, "rows": shown, "total": len(rows)})
     # Approved corrective work whose findings a later visit already resolved: said beside it, left to the supervisor.
     resolved = corrective_work_already_resolved(
@@ -141,6 +148,7 @@ def board(request):
         for wo in c["rows"]:
             wo.findings_resolved = wo.pk in resolved
             wo.suggested = suggested.get(wo.pk)
+            wo.selected_pk = wo.kept_assignee or wo.assignee_id or (wo.suggested[0].pk if wo.suggested else None)
             # Work already with someone who lacks a skill its tasks name is marked, naming the skills.
             wo.missing_skills = (
                 [SKILL_WORDS.get(s, s) for s in sorted(skills_needed(work_order=wo) - set(wo.assignee.skills or []))]
@@ -171,6 +179,14 @@ def board(request):
             "flagged": list(flagged.values()),
         },
     )
+
+
+def _kept_day(raw: str) -> dt.date | None:
+    """The day the over-capacity page hands back to the board's row form; None when it is not a day."""
+    try:
+        return dt.date.fromisoformat(raw) if len(raw) == 10 else None
+    except ValueError:
+        return None
 
 
 @login_required
@@ -210,6 +226,10 @@ def assign(request, public_id):
                     "week": request.POST.get("week", ""),
                     "raw_day": raw_day if "scheduled_for" in request.POST else None,
                     "back": back,
+                    "change": back
+                    + "&"
+                    + urlencode({"change": str(wo.public_id), "assignee": technician.pk, "day": raw_day})
+                    + f"#row-{wo.public_id}",
                 },
             )
     try:
@@ -253,76 +273,6 @@ def _ahu(request, pk):
             raise PermissionDenied("Only a supervisor or administrator of the organisation may change the registry.")
         raise Http404("No such unit that you manage.")
     return ahu
-
-
-@login_required
-def unit_detail(request, pk):
-    ahu = _ahu(request, pk)
-    return render(
-        request,
-        "frontend/supervisor/unit.html",
-        {
-            "ahu": ahu,
-            "tree": component_tree(ahu=ahu),
-            **unit_records_context(ahu=ahu, system=request.user.unit_system),
-        },
-    )
-
-
-COMPONENT_NAME_MAX = Component._meta.get_field("name").max_length
-
-
-@login_required
-def component_edit(request, pk):
-    component = Component.objects.filter(ahu__in=_managed_ahus(request), pk=pk).select_related("ahu").first()
-    if component is None:
-        if components_visible_to(user=request.user).filter(pk=pk).exists():
-            raise PermissionDenied("Only a supervisor or administrator of the organisation may change the registry.")
-        raise Http404("No such component that you manage.")
-    system = request.user.unit_system
-    errors: dict = {}
-    values = spec_initial(component=component, system=system)
-    name = component.name
-    status = 200
-    if request.method == "POST":
-        specs, errors = specs_from_post(kind=component.kind, post=request.POST, system=system)
-        values = {k: request.POST.get(f"spec_{k}", "") for k in values}
-        checked = FieldErrors()
-        name = request.POST.get("name", "")
-        clean_name = check_text(
-            name, key="name", label="Name", max_length=COMPONENT_NAME_MAX, errors=checked, required=True
-        )
-        errors.update(checked)
-        if not errors:
-            try:
-                inventory_services.component_update(component=component, name=clean_name, specs=specs)
-            except ValidationError as exc:
-                errors = exc.message_dict if hasattr(exc, "error_dict") else {"__all__": exc.messages}
-            else:
-                messages.success(request, f"{component.name} saved.")
-                return redirect("frontend:registry_unit", pk=component.ahu_id)
-        # The registry's own refusals come keyed 'specs.stages': each goes beside its field.
-        errors = {key.removeprefix("specs."): texts for key, texts in errors.items()}
-        status = 400
-        component.refresh_from_db()  # the heading names the part as stored, not as typed
-    rows = spec_rows(fields=spec_fields(component.kind), values=values, errors=errors, system=system)
-    shown_rows = {r["spec"].name for r in rows}
-    return render(
-        request,
-        "frontend/supervisor/component_edit.html",
-        {
-            "component": component,
-            "rows": rows,
-            "name": name,
-            "name_max": COMPONENT_NAME_MAX,
-            "name_errors": errors.get("name", []),
-            # Anything not beside a field of the form (the whole record, a field the form does not show).
-            "errors": [
-                text for key, texts in errors.items() if key != "name" and key not in shown_rows for text in texts
-            ],
-        },
-        status=status,
-    )
 
 
 @login_required

@@ -424,3 +424,127 @@ def test_a_building_moves_to_another_site_of_the_organisation_with_its_units(sce
     theirs = SiteFactory(organisation=OrganisationFactory(name="Elsewhere Air"), name="Their Site")
     r = client.post(url, {"name": "North block (old)", "site": str(theirs.pk)})
     assert r.status_code == 400 and "is not one of the choices" in _field_errors(r, "f-site")
+
+
+# ---------------------------------------------------------------------------
+# New-user tryout: airstream order, the unit page's design data and part specs, the site's climate and code.
+# ---------------------------------------------------------------------------
+def _edit_post(component, **changes):
+    from frontend.specs_form import spec_initial
+
+    post = {"name": component.name, "parent": str(component.parent_id or ""), "position": str(component.position)}
+    post.update({f"spec_{k}": ("1" if v is True else "" if v in (None, False) else str(v))
+                 for k, v in spec_initial(component=component, system="si").items()})  # fmt: skip
+    post.update(changes)
+    return post
+
+
+def test_a_part_goes_in_at_its_place_in_the_airstream_and_is_moved_inside_another_on_edit(scenario, login):
+    """A preheater added after the filters is put first on the add form; on edit a part is moved along the
+    airstream, into another part, with its installed-on date; a part cannot go inside itself or its child."""
+    client = login(scenario.supervisor)
+    ahu = scenario.unit_a
+    heater = {"kind": "electric_preheater", "name": "Frost heater", "spec_power_w": "24", "spec_stages": "3",
+              "spec_switch_on_c": "-5", "position": "0"}  # fmt: skip
+    form = _visible(client.get(reverse("frontend:registry_component_new", args=[ahu.pk]) + "?kind=electric_preheater"))
+    assert "Add an electric preheater to" in form and "Place in the airstream" in form
+    assert client.post(reverse("frontend:registry_component_new", args=[ahu.pk]), heater).status_code == 302
+    added = ahu.components.get(name="Frost heater")
+    assert added.position == 0
+    assert [c.name for c in ahu.components.all()][:2] == ["Intake screen", "Frost heater"]  # ties: entry order
+    # Edit: the drain pan goes inside the cooling coil, at place 1, with the day it was fitted.
+    pan = ahu.components.get(name="Drain pan")
+    coil = ahu.components.get(name="Cooling coil")
+    page = _visible(client.get(reverse("frontend:registry_component_edit", args=[pan.pk])))
+    assert "Part of" in page and "Place in the airstream" in page and "Installed on" in page
+    r = client.post(
+        reverse("frontend:registry_component_edit", args=[pan.pk]),
+        _edit_post(pan, parent=str(coil.pk), position="1", installed_on="2024-05-02"),
+    )
+    assert r.status_code == 302, _text(r)
+    pan.refresh_from_db()
+    assert pan.parent == coil and pan.position == 1 and pan.installed_on == dt.date(2024, 5, 2)
+    # The coil cannot go inside the pan it now contains, nor inside itself: refused at the field, nothing saved.
+    r = client.post(reverse("frontend:registry_component_edit", args=[coil.pk]), _edit_post(coil, parent=str(pan.pk)))
+    assert r.status_code == 400
+    assert "Part of: Drain pan is inside Cooling coil" in _field_errors(r, "f-parent")
+    r = client.post(reverse("frontend:registry_component_edit", args=[coil.pk]), _edit_post(coil, parent=str(coil.pk)))
+    assert r.status_code == 400 and "Cooling coil cannot be inside itself" in _field_errors(r, "f-parent")
+    r = client.post(reverse("frontend:registry_component_edit", args=[coil.pk]), _edit_post(coil, position="-3"))
+    assert r.status_code == 400 and "Place in the airstream" in _field_errors(r, "f-position")
+    coil.refresh_from_db()
+    assert coil.parent is None
+    # The edit form does not offer the part itself nor the parts inside it.
+    page = client.get(reverse("frontend:registry_component_edit", args=[coil.pk])).content.decode()
+    options = re.search(r'<select id="f-parent".*?</select>', page, re.S).group(0)
+    assert f'value="{pan.pk}"' not in options and f'value="{coil.pk}"' not in options
+
+
+def test_the_unit_page_shows_design_values_and_each_parts_key_specs_in_the_persons_units(scenario, login):
+    ahu = scenario.unit_a
+    page = _visible(login(scenario.supervisor).get(reverse("frontend:registry_unit", args=[ahu.pk])))
+    assert "Design values" in page and "3000 L/s" in page  # 3.0 m³/s
+    assert "MERV 13" in page and "clean pressure drop 90 Pa" in page and "change at 250 Pa" in page
+    assert "motor 5.5 kW" in page
+    scenario.supervisor.unit_system = "us"
+    scenario.supervisor.save(update_fields=["unit_system"])
+    page = _visible(login(scenario.supervisor).get(reverse("frontend:registry_unit", args=[ahu.pk])))
+    assert "6357 cfm" in page  # 3.0 m³/s × 2118.88 (unit conversion, from memory)
+    assert "change at 1 in. w.c." in page or "change at 1 in" in page  # 250 Pa ≈ 1.00 in. w.c.
+
+
+def test_a_unit_with_no_parts_says_so_and_leads_to_the_first(scenario, login):
+    client = login(scenario.supervisor)
+    building = scenario.unit_a.building
+    client.post(reverse("frontend:registry_unit_new"), {**UNIT, "tag": "AHU-77", "building": str(building.pk)})
+    ahu = AHU.objects.get(tag="AHU-77")
+    page = _visible(client.get(reverse("frontend:registry_unit", args=[ahu.pk])))
+    assert "No parts yet: add the first one" in page
+
+
+def test_a_refused_choice_stays_chosen_on_the_form(scenario, login):
+    """The MERV select keeps the value sent (marked as not one of the choices) instead of falling back to '—'."""
+    client = login(scenario.supervisor)
+    r = client.post(
+        reverse("frontend:registry_component_new", args=[scenario.unit_a.pk]), {**FILTERS, "spec_merv": "17"}
+    )
+    assert r.status_code == 400
+    select = re.search(r'<select id="spec-merv".*?</select>', r.content.decode(), re.S).group(0)
+    assert '<option value="17" selected>17 (not one of the choices)</option>' in select
+    r = client.post(
+        reverse("frontend:registry_component_new", args=[scenario.unit_a.pk]), {**FILTERS, "spec_clean_dp_pa": "900"}
+    )
+    select = re.search(r'<select id="spec-merv".*?</select>', r.content.decode(), re.S).group(0)
+    assert '<option value="14" selected>' in select
+
+
+def test_the_site_page_shows_its_code_climate_normals_and_season_thresholds(scenario, login):
+    """The code the CSV import names, the monthly normals (read-only) and the editable altitude and thresholds,
+    in the person's units; a bad threshold is refused at its field."""
+    scenario.supervisor.unit_system = "us"
+    scenario.supervisor.save(update_fields=["unit_system"])
+    client = login(scenario.supervisor)
+    site = scenario.unit_a.building.site
+    page = _visible(client.get(reverse("frontend:registry_site", args=[site.pk])))
+    assert f"Site code: {site.code}" in page and "Climate and seasons" in page
+    assert "Freeze-season threshold (°F)" in page and "Altitude above sea level (ft)" in page
+    values = _site_initial(client, site)
+    r = client.post(reverse("frontend:registry_site", args=[site.pk]),
+                    {**values, "preheat_threshold_c": "37.4", "altitude_m": "656.168"})  # fmt: skip
+    assert r.status_code == 302, _text(r)
+    site.refresh_from_db()
+    assert site.preheat_threshold_c == pytest.approx(3.0) and site.altitude_m == pytest.approx(200, abs=0.01)
+    r = client.post(reverse("frontend:registry_site", args=[site.pk]), {**values, "cooling_threshold_c": "200"})
+    assert r.status_code == 400
+    assert "Cooling-season threshold: 200 °F is out of range; allowed: a number from 50 to 113 °F" in _field_errors(
+        r, "f-cooling_threshold_c"
+    )
+
+
+def _site_initial(client, site) -> dict:
+    page = html.unescape(client.get(reverse("frontend:registry_site", args=[site.pk])).content.decode())
+    values = dict(re.findall(r'<input type="text"[^>]*id="f-(\w+)" name="\w+" value="([^"]*)"', page))
+    values["time_zone"] = site.time_zone
+    values["address"] = site.address
+    values["access_notes"] = site.access_notes
+    return values
