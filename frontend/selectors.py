@@ -220,6 +220,8 @@ def result_for_display(*, result: dict | None, system: str, labels: dict | None 
             "reason": text_without_subject(e.get("reason") or "", label.partition(" — ")[2]),
             "verdict_words": display.verdict_words(e.get("verdict")),
             "derived_display": display.derived_rows(e.get("derived") or {}, system, item=e.get("item") or ""),
+            # The same values as sentences a technician reads, never "label: value; label: value".
+            "derived_text": display.derived_text(e.get("derived") or {}, system, item=e.get("item") or ""),
         }
         for e in result.get("evaluation") or []
     ]

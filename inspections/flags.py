@@ -15,8 +15,8 @@ from __future__ import annotations
 # code -> the words, with {items} (the unanswered items) or {label} (the item) filled in.
 FORM_FLAGS: dict[str, str] = {
     "incomplete": "required items not answered: {items}",
-    "missing_photo": "{label} is not ok but has no photo",
-    "missing_note": "{label} is not ok but has no note",
+    "missing_photo": "{label} was marked Not OK without a photo of what is wrong",
+    "missing_note": "{label} was marked Not OK without a note saying what is wrong",
 }
 
 SERVER_FLAGS: tuple[str, ...] = (

@@ -171,6 +171,8 @@ def visit_records(
                     _reason(e, system, visit_day), check_label(check=e.check_name, item=e.item_key, labels=labels)
                 ),
                 "derived": derived_for_visit(e.derived or {}, system, item=e.item_key, visit_day=visit_day),
+                # The record page reads them as sentences (display.derived_text), never "label: value; …".
+                "derived_text": derived_text_for_visit(e.derived or {}, system, item=e.item_key, visit_day=visit_day),
             }
             for e in insp.evaluations.all()
         ]
@@ -257,6 +259,16 @@ def derived_for_visit(derived: dict, system: str, *, item: str, visit_day: dt.da
         return display.derived_rows(derived, system, item=item)
     rows = display.derived_rows({k: v for k, v in derived.items() if k not in _FORECAST_KEYS}, system, item=item)
     return [*rows, ("trend reached the final pressure drop", f"{_long_day(past)}, before this visit")]
+
+
+def derived_text_for_visit(derived: dict, system: str, *, item: str, visit_day: dt.date | None) -> str:
+    """``display.derived_text`` as of the visit (a change date already past reads as past, as
+    ``derived_for_visit``)."""
+    past = _past_forecast(derived, visit_day)
+    if past is None:
+        return display.derived_text(derived, system, item=item)
+    text = display.derived_text({k: v for k, v in derived.items() if k not in _FORECAST_KEYS}, system, item=item)
+    return f"{text} The trend reached the final pressure drop on {_long_day(past)}, before this visit.".strip()
 
 
 def _reason(judged, system: str, visit_day: dt.date | None) -> str:

@@ -66,7 +66,7 @@ def test_reduced_airflow_filter_reading_fails_on_the_phone_offline_and_on_the_se
     # incomplete (its words), and no longer that the failed reading lacks a note.
     problems = page.locator("[data-finish-problems]")
     expect(problems).to_contain_text("required items not answered")
-    expect(problems).not_to_contain_text("has no note")
+    expect(problems).not_to_contain_text("without a note")
     expect(page.locator("[data-outbox-count]")).to_have_text("0")
     problems.get_by_role("button", name="Finish anyway").click()
     expect(page.locator("[data-outbox-count]")).to_have_text("1")

@@ -78,9 +78,13 @@ def test_offline_checklist_reaches_server_once_with_evaluation(page, live_server
     wait_app(page)
     offline(True)
     fill_checklist(page)
-    expect(
-        page.locator("#r-filter_check-dp-" + world.unit_a.components.get(name="Final filters").label_code + "-verdict")
-    ).to_contain_text("phone check")
+    # Judged on the phone: said once for the whole form, not "(phone check)" after every verdict.
+    final_verdict = page.locator(
+        "#r-filter_check-dp-" + world.unit_a.components.get(name="Final filters").label_code + "-verdict"
+    )
+    expect(final_verdict).not_to_be_empty()
+    expect(final_verdict).not_to_contain_text("phone check")
+    expect(page.locator("[data-judged-where]")).to_contain_text("judged on the phone; the server confirms")
     draw_signature(page)
     page.get_by_role("button", name="Finish and sign").click()
     expect(page.locator("[data-outbox-count]")).to_have_text("1")

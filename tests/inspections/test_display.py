@@ -97,14 +97,18 @@ def test_engineering_refusals_lose_their_argument_names():
 
 
 def test_verdicts_read_as_the_phone_says_them():
-    """ok, watch, fail as they are; "na" reads "not applicable"; no verdict reads "recorded"."""
+    """OK, Watch, Fail as the verdict's choice labels (models.Verdict), never the lowercase code; "na" reads
+    "Not applicable"; no verdict reads "Recorded"."""
+    from inspections.models import Verdict
+
     assert [display.verdict_words(v) for v in ("ok", "watch", "fail", "na", "")] == [
-        "ok",
-        "watch",
-        "fail",
-        "not applicable",
-        "recorded",
+        "OK",
+        "Watch",
+        "Fail",
+        "Not applicable",
+        "Recorded",
     ]
+    assert all(display.verdict_words(code) == label for code, label in Verdict.choices)
 
 
 @pytest.mark.parametrize(

@@ -89,7 +89,7 @@ def test_the_phone_knows_every_form_flag_and_words_it_as_the_server(tmp_path):
     assert expected[0]["reason"] == (
         "required items not answered: Filter check › Media condition; Filter check › Photo of the bank"
     )
-    assert expected[1]["reason"] == "Pressure drop (Bank F1) is not ok but has no note"
+    assert expected[1]["reason"] == "Pressure drop (Bank F1) was marked Not OK without a note saying what is wrong"
 
 
 def test_a_rule_the_phone_does_not_know_is_said_not_skipped(tmp_path):

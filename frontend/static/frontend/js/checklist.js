@@ -80,7 +80,7 @@ function readingsOf(form, ctx) {
 function badge(verdict, label) {
   const span = document.createElement("span");
   span.className = `verdict ${verdict}`;
-  span.textContent = label || verdict;
+  span.textContent = label || VERDICT_WORDS[verdict] || verdict;
   return span;
 }
 
@@ -131,7 +131,7 @@ function showVerdicts(form, ctx) {
     const mine = byKey.get(key) || [];
     for (const r of mine) {
       if (out.childNodes.length) out.append(document.createElement("br"));
-      out.append(badge(r.verdict), ` ${withoutPart(reasonIn(ctx, r, system), captionOf(block))} (phone check)`);
+      out.append(badge(r.verdict), ` ${withoutPart(reasonIn(ctx, r, system), captionOf(block))}`);
       if (r.verdict === "fail") out.append(" — say what you found in the note");
     }
     const meter = key === RUN_HOURS_KEY ? meterCheck : null;
@@ -300,7 +300,8 @@ function el(tag, attrs = {}, ...children) {
 }
 
 // Words a person reads for the server's codes (as the server's own rendering, inspections/display.py).
-const VERDICT_WORDS = { ok: "ok", watch: "watch", fail: "fail", na: "not applicable" };
+// The verdicts' choice labels (inspections/models.py Verdict; inspections/display.py VERDICT_WORDS).
+const VERDICT_WORDS = { ok: "OK", watch: "Watch", fail: "Fail", na: "Not applicable" };
 const STATUS_WORDS = {
   stored: "stored", flagged: "flagged for the supervisor", verified: "verified", duplicate: "already received",
   refused: "refused: nothing was stored", error: "not stored: the server failed, try again",
@@ -350,7 +351,7 @@ async function renderResult(box, result) {
     // (inspections/reasons.py text_without_subject).
     const label = labels.get(readingKey(e.item, e.component || null)) || "Evaluation";
     const reason = withoutPart(e.reason, label);
-    list.append(el("li", {}, el("span", { class: `verdict ${e.verdict}` }, VERDICT_WORDS[e.verdict] || "recorded"),
+    list.append(el("li", {}, el("span", { class: `verdict ${e.verdict}` }, VERDICT_WORDS[e.verdict] || "Recorded"),
       ` ${label}: ${reason}`));
   }
   section.append(list);
