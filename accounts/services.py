@@ -16,8 +16,10 @@ from django.utils.encoding import force_bytes
 from django.utils.http import urlsafe_base64_encode
 from rest_framework.authtoken.models import Token
 
+from .changes import organisation_changed, person_changed
 from .inputs import FieldErrors, check_number, check_text, shown
 from .models import Membership, Organisation, Role, SiteGrant, User
+from .tokens import invitation_timeout, invitation_token_generator
 
 
 @transaction.atomic
@@ -37,11 +39,14 @@ def user_create(
     user.full_clean(exclude=["password"])
     user.save()
     Membership.objects.create(user=user, organisation=organisation, role=role)
+    organisation_changed(organisation_id=organisation.pk)  # a board lists its technicians
     return user
 
 
 def site_grant(*, user: User, site) -> SiteGrant:
-    grant, _ = SiteGrant.objects.get_or_create(user=user, site=site)
+    grant, created = SiteGrant.objects.get_or_create(user=user, site=site)
+    if created:
+        organisation_changed(organisation_id=site.organisation_id)
     return grant
 
 
@@ -241,7 +246,7 @@ def person_invite(*, by: User, organisation: Organisation, data: PersonInput) ->
     """A new person of the organisation with no password yet; after commit an e-mail with a set-password link.
 
     The address is also the sign-in name. The link is the password-reset token (``password_reset_email_send``),
-    so it works once and for ``PASSWORD_RESET_TIMEOUT``; the admin can send a fresh one."""
+    so it works once and for the invitation's days (accounts.tokens); the admin can send a fresh one."""
     user = User(
         username=data.email,
         email=data.email,
@@ -273,6 +278,7 @@ def person_invite(*, by: User, organisation: Organisation, data: PersonInput) ->
             "skills": data.skills,
         },
     )
+    organisation_changed(organisation_id=organisation.pk)
     transaction.on_commit(lambda: _invitation_queue(user_id=user.pk, organisation_id=organisation.pk))
     return user
 
@@ -293,7 +299,8 @@ def invitation_resend(*, by: User, organisation: Organisation, person: User) -> 
 def invitation_email_send(*, user_id: int, organisation_id: int) -> bool:
     """E-mail an invited, active person the link to set their password; False when there is nobody to send to.
 
-    The link is the password-reset link (Django's token under ``PLENUM_PUBLIC_URL``), so the same page sets it."""
+    The link is an invitation token (accounts.tokens: it lasts days, where a password reset lasts hours) under
+    ``PLENUM_PUBLIC_URL``; the password-reset page sets the password."""
     user = User.objects.filter(pk=user_id, is_active=True).first()
     organisation = Organisation.objects.filter(pk=organisation_id).first()
     if user is None or organisation is None or not user.email or user.has_usable_password():
@@ -302,9 +309,9 @@ def invitation_email_send(*, user_id: int, organisation_id: int) -> bool:
         "user": user,
         "organisation": organisation,
         "uid": urlsafe_base64_encode(force_bytes(user.pk)),
-        "token": default_token_generator.make_token(user),
+        "token": invitation_token_generator.make_token(user),
         "public_url": settings.PLENUM_PUBLIC_URL.rstrip("/"),
-        "hours": max(1, round(settings.PASSWORD_RESET_TIMEOUT / 3600)),
+        "days": max(1, round(invitation_timeout() / 86400)),
     }
     subject = "".join(render_to_string(INVITE_SUBJECT_TEMPLATE, context).splitlines())
     send_mail(subject, render_to_string(INVITE_BODY_TEMPLATE, context), None, [user.email])
@@ -360,6 +367,7 @@ def person_update(
         person.save(update_fields=fields)
     if changes:
         audit_record(actor=by, obj=person, action="person_changed", organisation=organisation, changes=changes)
+        person_changed(user_id=person.pk)  # capacity and skills show on every board the person is on
     return person
 
 
@@ -383,6 +391,7 @@ def site_grants_set(*, by: User, organisation: Organisation, person: User, sites
             organisation=organisation,
             changes={"granted": added, "revoked": removed},
         )
+        organisation_changed(organisation_id=organisation.pk)
 
 
 @transaction.atomic
@@ -400,6 +409,7 @@ def person_deactivate(*, by: User, organisation: Organisation, person: User) -> 
     person.save(update_fields=["is_active"])
     user_credentials_revoke(user=person)
     audit_record(actor=by, obj=person, action="person_deactivated", organisation=organisation)
+    person_changed(user_id=person.pk)
 
 
 @transaction.atomic
@@ -410,6 +420,7 @@ def person_reactivate(*, by: User, organisation: Organisation, person: User) -> 
     person.is_active = True
     person.save(update_fields=["is_active"])
     audit_record(actor=by, obj=person, action="person_reactivated", organisation=organisation)
+    person_changed(user_id=person.pk)
 
 
 # ---------------------------------------------------------------------------
@@ -433,6 +444,7 @@ def unit_system_set(*, user: User, unit_system: str) -> User:
         )
         user.unit_system = unit_system
         user.save(update_fields=["unit_system"])
+        person_changed(user_id=user.pk)
     return user
 
 

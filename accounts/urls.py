@@ -13,5 +13,10 @@ urlpatterns = [
         views.PasswordResetConfirmView.as_view(),
         name="password_reset_confirm",
     ),
+    path(
+        "password/reset/invitation/<uidb64>/<token>/",
+        views.InvitationConfirmView.as_view(),
+        name="invitation_confirm",
+    ),
     path("password/reset/done/", views.PasswordResetCompleteView.as_view(), name="password_reset_complete"),
 ]

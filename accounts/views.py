@@ -21,6 +21,7 @@ from django.urls import reverse_lazy
 
 from .client_address import client_address
 from .tasks import password_reset_email_send
+from .tokens import invitation_token_generator
 
 WINDOW_SECONDS = 3600
 
@@ -71,6 +72,12 @@ class PasswordResetConfirmView(auth_views.PasswordResetConfirmView):
         # The person proved they own the address: wrong-password locks on their username no longer apply.
         axes_reset(username=form.user.get_username())
         return response
+
+
+class InvitationConfirmView(PasswordResetConfirmView):
+    """The invitation's set-password page: the same form, checked against the invitation token (days, not hours)."""
+
+    token_generator = invitation_token_generator
 
 
 class PasswordResetCompleteView(auth_views.PasswordResetCompleteView):

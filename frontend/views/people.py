@@ -140,7 +140,11 @@ def person_edit(request, pk: int):
         action = request.POST.get("action")
         try:
             if action == "save":
-                typed.update(_raw(request, ("role", "capacity", "skills")))
+                typed.update(_raw(request, ("role",)))
+                # Daily capacity and skills are a technician's: another role's form has none, and any sent are
+                # left aside (the stored values stay for a person who becomes a technician again).
+                if typed["role"] == Role.TECHNICIAN and "capacity" in request.POST:
+                    typed.update(_raw(request, ("capacity", "skills")))
                 data = people.person_input_check(typed, skills_allowed=SKILLS, organisation=organisation, person=person)
                 people.person_update(
                     by=request.user,
@@ -161,11 +165,26 @@ def person_edit(request, pk: int):
                 people.site_grants_set(by=request.user, organisation=organisation, person=person, sites=sites)
                 done = f"{person} now sees: {', '.join(s.name for s in sites) or 'no site'}."
             elif action == "deactivate":
+                if request.POST.get("confirm") != "1":
+                    raise ValidationError(
+                        {
+                            "confirm": [
+                                f"Deactivate: the box is not ticked; allowed: tick it to confirm that {person}'s "
+                                "sign-in, API token and calendar feed stop now"
+                            ]
+                        }
+                    )
                 people.person_deactivate(by=request.user, organisation=organisation, person=person)
                 done = f"{person} is deactivated: no sign-in, API token or calendar address works for them."
             elif action == "reactivate":
                 people.person_reactivate(by=request.user, organisation=organisation, person=person)
-                done = f"{person} is active again and may sign in with their password."
+                if person.has_usable_password():
+                    done = f"{person} is active again and may sign in with their password."
+                else:
+                    done = (
+                        f"{person} is active again but never set a password: send the invitation again below so "
+                        "they get a new link to set one."
+                    )
             elif action == "invite_again" and not person.has_usable_password():
                 people.invitation_resend(by=request.user, organisation=organisation, person=person)
                 done = f"A new link to set a password went to {person.email}."

@@ -144,7 +144,7 @@ def test_a_deactivated_person_cannot_sign_in_nor_use_their_token_or_calendar(wor
     api = Client()
     assert api.get("/api/accounts/me/", HTTP_AUTHORIZATION=f"Token {token}").status_code == 200
     admin = _as(world.admin)
-    res = admin.post(f"/people/{tess.pk}/", {"action": "deactivate"})
+    res = admin.post(f"/people/{tess.pk}/", {"action": "deactivate", "confirm": "1"})
     assert res.status_code == 302
     tess.refresh_from_db()
     assert not tess.is_active
@@ -166,7 +166,7 @@ def test_a_deactivated_person_cannot_sign_in_nor_use_their_token_or_calendar(wor
 def test_an_admin_cannot_leave_the_organisation_without_an_admin(world):
     """The last active admin can neither deactivate nor demote themselves; with a second admin they can."""
     admin = _as(world.admin)
-    res = admin.post(f"/people/{world.admin.pk}/", {"action": "deactivate"})
+    res = admin.post(f"/people/{world.admin.pk}/", {"action": "deactivate", "confirm": "1"})
     assert res.status_code == 400 and "without an active administrator" in res.content.decode()
     res = admin.post(
         f"/people/{world.admin.pk}/",
@@ -187,23 +187,20 @@ def test_an_admin_cannot_leave_the_organisation_without_an_admin(world):
 
 
 def test_the_admin_edits_role_capacity_and_skills(world):
+    """A technician's capacity and skills are saved; made a supervisor, the ones sent along are left aside."""
     admin = _as(world.admin)
     omar = world.other_technician
-    res = admin.post(
-        f"/people/{omar.pk}/",
-        {
-            **_seen(omar),
-            "action": "save",
-            "role": "supervisor",
-            "capacity": "5",
-            "skills": ["mechanical", "electrical"],
-        },
-    )
+    body = {"action": "save", "capacity": "5", "skills": ["mechanical", "electrical"]}
+    res = admin.post(f"/people/{omar.pk}/", {**_seen(omar), **body, "role": "technician"})
+    assert res.status_code == 302
+    omar.refresh_from_db()
+    assert float(omar.daily_capacity_hours) == 5.0 and omar.skills == ["electrical", "mechanical"]
+    res = admin.post(f"/people/{omar.pk}/", {**_seen(omar), **body, "role": "supervisor", "capacity": "3"})
     assert res.status_code == 302
     omar.refresh_from_db()
     assert Membership.objects.get(user=omar).role == Role.SUPERVISOR
-    assert float(omar.daily_capacity_hours) == 5.0 and omar.skills == ["electrical", "mechanical"]
-    event = AuditEvent.objects.get(object_id=str(omar.pk), action="person_changed")
+    assert float(omar.daily_capacity_hours) == 5.0
+    event = AuditEvent.objects.filter(object_id=str(omar.pk), action="person_changed").order_by("pk").last()
     assert event.changes["role"] == ["technician", "supervisor"]
 
 
@@ -297,7 +294,7 @@ def test_a_bad_capacity_on_the_edit_form_is_refused_and_nothing_changes(world, v
     omar = world.other_technician
     res = admin.post(
         f"/people/{omar.pk}/",
-        {**_seen(omar), "action": "save", "role": "supervisor", "capacity": value, "skills": ["electrical"]},
+        {**_seen(omar), "action": "save", "role": "technician", "capacity": value, "skills": ["electrical"]},
     )
     assert res.status_code == 400 and expected in res.content.decode()
     omar.refresh_from_db()
@@ -402,7 +399,7 @@ def test_a_deactivated_technician_takes_no_new_work_and_the_admin_is_told_of_ope
     admin = _as(world.admin)
     tess = world.technician
     assert "1 open work order assigned" in admin.get(f"/people/{tess.pk}/").content.decode()
-    admin.post(f"/people/{tess.pk}/", {"action": "deactivate"})
+    admin.post(f"/people/{tess.pk}/", {"action": "deactivate", "confirm": "1"})
     supervisor = _as(world.supervisor)
     wo = world.work_b
     res = supervisor.post(
@@ -446,3 +443,87 @@ def test_of_two_admins_editing_one_person_the_second_is_told_and_nothing_is_undo
     assert '<option value="supervisor" selected>' in res.content.decode()
     omar.refresh_from_db()
     assert Membership.objects.get(user=omar).role == Role.SUPERVISOR and float(omar.daily_capacity_hours) == 7.5
+
+
+# ---------------------------------------------------------------------------
+# New-user tryout: deactivation is confirmed, an invited person is reactivated truthfully, a property manager's
+# page has no capacity or skills, and an invitation lasts a week while a password reset stays short.
+# ---------------------------------------------------------------------------
+def test_deactivating_asks_for_a_tick_naming_what_stops_and_does_nothing_without_it(world):
+    admin = _as(world.admin)
+    tess = world.technician
+    page = admin.get(f"/people/{tess.pk}/").content.decode()
+    assert 'name="confirm"' in page and "sign-in, API token and calendar feed now" in page
+    before = row_counts()
+    res = admin.post(f"/people/{tess.pk}/", {"action": "deactivate"})
+    assert res.status_code == 400
+    errors = re.search(r'<div id="confirm-errors".*?</div>', res.content.decode(), re.S).group(0)
+    assert "Deactivate: the box is not ticked" in errors and "calendar feed" in errors
+    assert row_counts() == before and User.objects.get(pk=tess.pk).is_active
+    assert admin.post(f"/people/{tess.pk}/", {"action": "deactivate", "confirm": "1"}).status_code == 302
+    assert not User.objects.get(pk=tess.pk).is_active
+
+
+def test_an_invited_person_is_told_to_get_a_new_invitation_when_reactivated(world, django_capture_on_commit_callbacks):
+    admin = _as(world.admin)
+    with django_capture_on_commit_callbacks(execute=True):
+        _invite(admin, role="supervisor")
+    rhea = User.objects.get(email="rhea.coil@example.invalid")
+    admin.post(f"/people/{rhea.pk}/", {"action": "deactivate", "confirm": "1"})
+    page = admin.get(f"/people/{rhea.pk}/").content.decode()
+    assert "never set a password" in page and "send the invitation again" in page
+    assert "Reactivating lets their password work again" not in page
+    res = admin.post(f"/people/{rhea.pk}/", {"action": "reactivate"}, follow=True)
+    assert "never set a password: send the invitation again" in res.content.decode()
+    assert "Send the invitation again" in res.content.decode()
+
+
+def test_a_property_managers_page_has_no_capacity_or_skills_and_ignores_them(world):
+    admin = _as(world.admin)
+    manager = world.manager_a
+    stored = (manager.daily_capacity_hours, list(manager.skills or []))
+    page = admin.get(f"/people/{manager.pk}/").content.decode()
+    assert 'name="capacity"' not in page and 'name="skills"' not in page
+    assert "set for technicians only" in page
+    res = admin.post(
+        f"/people/{manager.pk}/",
+        {**_seen(manager), "action": "save", "role": "property_manager", "capacity": "99", "skills": ["electrical"]},
+    )  # fmt: skip
+    assert res.status_code == 302, res.content.decode()[:2000]
+    manager.refresh_from_db()
+    assert (manager.daily_capacity_hours, list(manager.skills or [])) == stored
+    tess_page = admin.get(f"/people/{world.technician.pk}/").content.decode()
+    assert 'name="capacity"' in tess_page and 'name="skills"' in tess_page
+
+
+def _link(message) -> str:
+    return "/" + re.search(r"https?://\S+/password/reset/\S+/", message.body).group(0).split("/", 3)[3]
+
+
+def test_an_invitation_link_lasts_seven_days_while_a_password_reset_stays_short(
+    world, django_capture_on_commit_callbacks, settings
+):
+    """Invitation: works on day 6, not on day 8. Password reset: still PASSWORD_RESET_TIMEOUT (3 h); an invitation
+    token is not a reset token."""
+    settings.PASSWORD_RESET_TIMEOUT = 3 * 3600
+    admin = _as(world.admin)
+    with django_capture_on_commit_callbacks(execute=True):
+        _invite(admin)
+    [message] = mail.outbox
+    assert "within 7 days" in message.body and "/invitation/" in message.body
+    link = _link(message)
+    with time_machine.travel(NOW + dt.timedelta(days=6), tick=False):
+        res = Client().get(link, follow=True)
+        assert 'name="new_password1"' in res.content.decode()
+    with time_machine.travel(NOW + dt.timedelta(days=8), tick=False):
+        res = Client().get(link, follow=True)
+        assert 'name="new_password1"' not in res.content.decode()
+    # The same token under the reset address is refused; a reset link still lasts hours, not days.
+    reset_path = link.replace("/invitation/", "/")
+    assert 'name="new_password1"' not in Client().get(reset_path, follow=True).content.decode()
+    from django.contrib.auth.tokens import default_token_generator
+
+    tess = world.technician
+    token = default_token_generator.make_token(tess)
+    with time_machine.travel(NOW + dt.timedelta(hours=4), tick=False):
+        assert not default_token_generator.check_token(tess, token)

@@ -209,6 +209,12 @@ WRITES: dict[tuple[str, str], Write] = {
     ("accounts:password_reset_confirm", "post"): Write(
         EVERYONE, lambda w, c: Call({"uidb64": "MQ", "token": "set-password"}, {}, "form"), kind="self"
     ),
+    ("accounts:invitation_confirm", "post"): Write(
+        EVERYONE, lambda w, c: Call({"uidb64": "MQ", "token": "set-password"}, {}, "form"), kind="self"
+    ),
+    ("accounts:invitation_confirm", "put"): Write(
+        EVERYONE, lambda w, c: Call({"uidb64": "MQ", "token": "set-password"}, {}, "form"), kind="self"
+    ),
     # Django's form views answer PUT as POST.
     ("frontend:login", "put"): Write(EVERYONE, kind="self"),
     ("accounts:password_reset", "put"): Write(EVERYONE, kind="self"),
