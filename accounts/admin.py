@@ -1,7 +1,7 @@
 from django.contrib import admin
 from django.contrib.auth.admin import UserAdmin as BaseUserAdmin
 
-from .models import AuditEvent, ChangeStamp, Membership, Organisation, SiteGrant, User
+from .models import AuditEvent, Membership, Organisation, SiteGrant, User
 
 
 class MembershipInline(admin.TabularInline):
@@ -56,20 +56,3 @@ class SiteGrantAdmin(admin.ModelAdmin):
     list_filter = ["site"]
     autocomplete_fields = ["user", "site"]
     search_fields = ["user__username", "site__name"]
-
-
-@admin.register(ChangeStamp)
-class ChangeStampAdmin(admin.ModelAdmin):
-    """Shown so an operator can see that writes move it; only the app moves it (accounts.changes)."""
-
-    list_display = ["epoch", "value"]
-    readonly_fields = ["epoch", "value"]
-
-    def has_add_permission(self, request):
-        return False
-
-    def has_change_permission(self, request, obj=None):
-        return False
-
-    def has_delete_permission(self, request, obj=None):
-        return False

@@ -1,20 +1,27 @@
-"""Whole API answers cached in the worker process, valid while the change stamp stays the same.
+"""Whole API answers cached in the worker process, valid while the person's organisations keep their version.
 
 A polled read (a technician's today, a supervisor's board) is asked for again and again while
-nothing changes. Its JSON bytes are kept per process under (view, person, parameters, stamp);
-any committed write moves the stamp (``accounts.changes``), so the next request builds the answer
-afresh. A token seen under the same stamp is not looked up again (revoking it, or deactivating its
-person, is a write, so it is looked up again at once).
+nothing changes. Its JSON bytes are kept per process under (view, person, parameters, versions), where
+versions are those of the person's organisations; a service that changes what an answer depends on
+moves its organisation's version in its own transaction (``accounts.changes.organisation_changed``),
+so the next request of that organisation's people builds the answer afresh, and another
+organisation's answers stay kept.
 
 ``answer_fast_path`` puts a check in front of the DRF view: a GET with a token whose answer is
 already kept is answered from memory with the bytes and headers the view gave the first time, at
-the cost of one read of the stamp. Anything else (no token, a new parameter, a bad one, another
-media type) goes to the view as usual, which builds, keeps and answers.
+the cost of one query (the token, its person being active and their organisations' versions). Anything
+else (no token, a new parameter, a bad one, another media type) goes to the view as usual, which builds,
+keeps and answers. Every answer carries an ETag of its bytes; a GET with that ETag in If-None-Match
+gets 304 with no body.
 
-Answers also expire after ``settings.PLENUM_ANSWER_CACHE_SECONDS`` (0 turns the cache off), and the
-cache holds at most ``settings.PLENUM_ANSWER_CACHE_BYTES`` of answers, least recently used out first.
-Nothing is shared between processes: each worker keeps its own, checked against the one stamp in
-the database, so no cache server is needed.
+Answers also expire after ``settings.PLENUM_ANSWER_CACHE_SECONDS`` (0 turns the cache off), which
+bounds how long a write made outside the services (psql by hand) can hide, and the cache holds at most
+``settings.PLENUM_ANSWER_CACHE_BYTES`` of answers, least recently used out first. Nothing is shared
+between processes: each worker keeps its own, checked against the versions in the database, so no
+cache server is needed and several app servers agree.
+
+Inside a transaction (a test's, or a request that writes first) the cache stands aside: the versions it
+would read may be moved by writes that are not committed yet.
 """
 
 from __future__ import annotations
@@ -30,14 +37,15 @@ from dataclasses import dataclass
 from cachetools import TTLCache
 from django.conf import settings
 from django.core.exceptions import ValidationError
+from django.db import transaction
 from django.http import HttpResponse
 from django.utils.cache import get_conditional_response
 from rest_framework.authentication import TokenAuthentication, get_authorization_header
 from rest_framework.renderers import JSONRenderer
 
-from .changes import change_stamp_read, changes_pending
+from .changes import Versions, token_versions, versions_of
 
-_ATTR = "_plenum_change_stamp"
+_ATTR = "_plenum_answer_versions"
 TOKEN_ENTRY_BYTES = 1_000  # what a kept token or small value counts against the byte limit
 JSON = "application/json"
 PLAIN_JSON_ACCEPTS = frozenset({"", "*/*", JSON})  # what DRF answers with JSONRenderer as application/json
@@ -99,47 +107,31 @@ def answer_cache_clear() -> None:
     _store.clear()
 
 
-def stamp_for(request) -> tuple[str, int] | None:
-    """The change stamp this request is answered under (read once per request), or None when the cache
-    may not be used: turned off, or this connection holds uncommitted writes."""
+def _cache_usable() -> bool:
+    """The cache is on, and this connection holds no transaction (whose writes may move a version)."""
+    return settings.PLENUM_ANSWER_CACHE_SECONDS > 0 and transaction.get_autocommit()
+
+
+def versions_for(request) -> Versions | None:
+    """The versions this request is answered under (read once per request, for its authenticated person),
+    or None when the cache may not be used: turned off, inside a transaction, or nobody signed in."""
     raw = getattr(request, "_request", request)  # DRF's Request wraps Django's
     if hasattr(raw, _ATTR):
         return getattr(raw, _ATTR)
-    stamp = None
-    if settings.PLENUM_ANSWER_CACHE_SECONDS > 0 and not changes_pending():
-        stamp = change_stamp_read()
-    setattr(raw, _ATTR, stamp)
-    return stamp
-
-
-class StampedTokenAuthentication(TokenAuthentication):
-    """DRF's token authentication, remembering a token's person while the change stamp stays the same."""
-
-    def authenticate(self, request):
-        if _token_parts(request) is None:
-            return None  # as DRF's: not a token request (and no read of the stamp for it)
-        self._stamp = stamp_for(request)
-        return super().authenticate(request)
-
-    def authenticate_credentials(self, key):
-        stamp = getattr(self, "_stamp", None)
-        if stamp is None:
-            return super().authenticate_credentials(key)
-        cache_key = ("token", key, stamp)
-        found = _store.get(cache_key)
-        if found is None:
-            found = super().authenticate_credentials(key)  # raises for a bad or inactive one
-            _store.put(cache_key, found)
-        user, token = found
-        return copy.copy(user), token
+    versions = None
+    user = getattr(request, "user", None)
+    if _cache_usable() and user is not None and user.is_authenticated:
+        versions = versions_of(user_id=user.pk)
+    setattr(raw, _ATTR, versions)
+    return versions
 
 
 def kept(request, key: tuple, build: Callable[[], object]):
-    """A small value the answers depend on (a person's time zone…), kept under the request's stamp like them."""
-    stamp = stamp_for(request)
-    if stamp is None:
+    """A small value the answers depend on (a person's time zone…), kept under the request's versions like them."""
+    versions = versions_for(request)
+    if versions is None:
         return build()
-    cache_key = ("value", key, stamp)
+    cache_key = ("value", key, versions)
     found = _store.get(cache_key)
     if found is None:
         found = (build(),)
@@ -149,7 +141,8 @@ def kept(request, key: tuple, build: Callable[[], object]):
 
 def json_answer(request, *, view: str, key: tuple, build: Callable[[], object]) -> HttpResponse | None:
     """The JSON answer of ``view`` for the request's person and ``key`` (every parameter the answer
-    depends on), from the cache when the stamp has not moved, else built by ``build()`` and kept.
+    depends on), from the cache while the person's organisations keep their versions, else built by
+    ``build()`` and kept (with the person, for ``answer_fast_path``).
 
     Returns None when the request did not negotiate plain JSON (the browsable API): the caller answers
     it the ordinary way. The response carries an ETag of its bytes, so a conditional GET gets 304.
@@ -157,14 +150,17 @@ def json_answer(request, *, view: str, key: tuple, build: Callable[[], object]) 
     renderer = getattr(request, "accepted_renderer", None)
     if type(renderer) is not JSONRenderer:
         return None
-    stamp = stamp_for(request)
-    cache_key = ("answer", view, request.user.pk, request.accepted_media_type, key, stamp)
-    entry = _store.get(cache_key) if stamp is not None else None
+    versions = versions_for(request)
+    cache_key = ("answer", view, request.user.pk, request.accepted_media_type, key, versions)
+    entry = _store.get(cache_key) if versions is not None else None
     if entry is None:
         body = renderer.render(build(), request.accepted_media_type, {"request": request})
         entry = _Answer(body, f'"{hashlib.md5(body, usedforsecurity=False).hexdigest()}"')
-        if stamp is not None:
+        if versions is not None:
             _store.put(cache_key, entry)
+            person_key = ("person", request.user.pk, versions)
+            if _store.get(person_key) is None:
+                _store.put(person_key, (copy.copy(request.user),))
     response = HttpResponse(entry.body, content_type=renderer.media_type)
     response["ETag"] = entry.etag
     response._plenum_answer = entry
@@ -192,19 +188,21 @@ def _kept_answer(request, *, view: str, key_of: Callable) -> HttpResponse | None
     if request.method != "GET" or request.META.get("HTTP_ACCEPT", "").strip() not in PLAIN_JSON_ACCEPTS:
         return None
     token_key = _token_key(request)
-    if token_key is None:
+    if token_key is None or not _cache_usable():
         return None
-    stamp = stamp_for(request)
-    if stamp is None:
-        return None
-    person = _store.get(("token", token_key, stamp))
+    found = token_versions(key=token_key)  # the one query: token, active person, their versions
+    if found is None:
+        return None  # the view refuses the token (401) or answers someone of no organisation
+    person_id, versions = found
+    setattr(request, _ATTR, versions)  # what key_of's kept values (and the view, if it answers) go by
+    person = _store.get(("person", person_id, versions))
     if person is None:
         return None
     try:
         key = key_of(request, person[0])
     except (ValidationError, ValueError):
         return None  # the view answers 400 with the field's message
-    entry = _store.get(("answer", view, person[0].pk, JSON, key, stamp))
+    entry = _store.get(("answer", view, person_id, JSON, key, versions))
     if entry is None or entry.headers is None:
         return None
     response = HttpResponse(entry.body)

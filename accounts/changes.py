@@ -1,175 +1,88 @@
-"""The change stamp: a number that moves after every committed write, so a cached answer knows it is stale.
+"""Which polled answers are stale: one version number per organisation, moved explicitly by the services.
 
-Every SQL statement Django sends passes through an execute wrapper put on each database
-connection when it opens (``watch_install``). An INSERT, UPDATE or DELETE on any table except
-the few in ``_ignored_tables`` (sessions, login-attempt logs, migration bookkeeping, the stamp
-itself) registers one bump of the stamp for when the transaction commits. Watching statements
-rather than model signals also catches ``bulk_create``, ``QuerySet.update()``, fast deletes and
-raw SQL sent through Django, which signals never see.
+A polled answer (a technician's today, a supervisor's board; ``accounts.answers``) is kept under the
+versions of its person's organisations. A service that changes what such an answer depends on (a work
+order, a visit's schedule, an inspection, the registry, a person's capacity, skills or grants, the task
+rules, a meter reading) calls ``organisation_changed(organisation_id=...)`` inside its own transaction,
+after its writes: one ``UPDATE ... SET answers_version = answers_version + 1`` on that organisation's
+row. The new version becomes visible exactly when the writes do (same commit), so a reader that sees it
+also sees them; another organisation's answers keep theirs.
 
-The bump runs after the commit, so a reader that sees the new stamp also sees the new rows; a
-reader that computed an answer just before the commit stored it under the old stamp, which
-nobody asks for once the bump lands. While a connection holds uncommitted writes,
-``changes_pending`` is true and cached answers are neither read nor written on it (the cache
-cannot know those writes; tests that run inside one transaction therefore bypass the cache).
-
-Writes made outside Django (psql by hand) are not seen, which is why cached answers also expire
+The version lives in the database, so every app server sees it; reading a person's versions is one
+indexed query (``versions_of`` or, with the token check, ``token_versions``). Writes that skip the
+services (a ``QuerySet.update()`` in a shell, psql by hand) are not seen: cached answers also expire
 after ``settings.PLENUM_ANSWER_CACHE_SECONDS``.
 """
 
 from __future__ import annotations
 
 import logging
-import re
-import secrets
-import time
+from collections.abc import Iterable
 
-from django.db import DatabaseError, connections, transaction
+from django.db import DatabaseError, transaction
+from django.db.models import F
 
-from .models import ChangeStamp
+from .models import Membership, Organisation
 
 logger = logging.getLogger(__name__)
 
-# A data-changing statement and the table it changes, as Django (and hand-written SQL) sends them.
-_WRITE = re.compile(r'\s*(?:INSERT\s+(?:OR\s+\w+\s+)?INTO|UPDATE|DELETE\s+FROM|REPLACE\s+INTO)\s+[`"]?(\w+)', re.I)
-_CTE = re.compile(r"\s*WITH\b", re.I)
-_CTE_WRITE = re.compile(r"\b(?:INSERT\s+INTO|UPDATE|DELETE\s+FROM)\b", re.I)
-_TABLE = ChangeStamp._meta.db_table
-_ignored: frozenset[str] | None = None
-_bumpers: dict[str, object] = {}
+Versions = tuple[tuple[int, int], ...]  # ((organisation id, version), ...) by organisation id
 
 
-def _ignored_tables() -> frozenset[str]:
-    """Tables whose writes change no answer: the stamp, sessions, login throttling, migration records."""
-    global _ignored
-    if _ignored is None:
-        from django.apps import apps
-
-        names = {_TABLE, "django_session", "django_migrations", "django_content_type", "auth_permission"}
-        if apps.is_installed("axes"):
-            names.update(m._meta.db_table for m in apps.get_app_config("axes").get_models())
-        _ignored = frozenset(names)
-    return _ignored
-
-
-def _bumper(alias: str):
-    """The one after-commit callback of a connection (one bump per transaction, however many writes)."""
-    fn = _bumpers.get(alias)
-    if fn is None:
-
-        def fn(alias=alias) -> None:
-            change_stamp_bump(using=alias)
-
-        _bumpers[alias] = fn
-    return fn
-
-
-def changes_pending(*, using: str = "default") -> bool:
-    """Whether this connection holds writes not yet committed (their bump is still waiting).
-
-    Asked on every write, so the answer is remembered with the callback list it was found in: Django only
-    appends to that list, and builds a new one when a transaction ends or a savepoint rolls back."""
-    conn = connections[using]
-    if not conn.in_atomic_block or not conn.run_on_commit:
-        return False
-    seen = getattr(conn, "_plenum_pending_in", None)
-    if seen is conn.run_on_commit:
-        return True
-    fn = _bumpers.get(using)
-    if fn is not None and any(entry[1] is fn for entry in conn.run_on_commit):
-        conn._plenum_pending_in = conn.run_on_commit
-        return True
-    return False
-
-
-def change_mark(*, using: str = "default") -> None:
-    """Register the stamp's bump for this connection's commit (at once outside a transaction)."""
-    conn = connections[using]
-    if not conn.in_atomic_block and not conn.get_autocommit():
-        # Manual transaction management has no commit hook: bump inside the transaction, which makes
-        # the new stamp visible exactly when the rows are.
-        change_stamp_bump(using=using)
+def organisation_changed(*, organisation_id: int | None) -> None:
+    """Move the organisation's answer version by one: every kept answer of its people is stale once the
+    caller's transaction commits. Call it from the service, in the transaction, after the writes."""
+    if organisation_id is None:
         return
-    if changes_pending(using=using):
-        return
-    transaction.on_commit(_bumper(using), using=using, robust=True)
-    if conn.in_atomic_block:
-        conn._plenum_pending_in = conn.run_on_commit
+    Organisation.objects.filter(pk=organisation_id).update(answers_version=F("answers_version") + 1)
 
 
-def _writes(sql) -> bool:
-    """Whether a statement changes data in a watched table (a CTE that writes counts, whatever its table)."""
-    if not isinstance(sql, str):
-        return False
-    match = _WRITE.match(sql)
-    if match:
-        return match.group(1).lower() not in _ignored_tables()
-    return bool(_CTE.match(sql)) and bool(_CTE_WRITE.search(sql))
+def organisations_changed(*, organisation_ids: Iterable[int | None]) -> None:
+    """``organisation_changed`` for several organisations at once (one statement)."""
+    ids = sorted({i for i in organisation_ids if i is not None})
+    if ids:
+        Organisation.objects.filter(pk__in=ids).update(answers_version=F("answers_version") + 1)
 
 
-def _watch(execute, sql, params, many, context):
-    result = execute(sql, params, many, context)
-    if _writes(sql):
-        change_mark(using=context["connection"].alias)
-    return result
+def every_organisation_changed() -> None:
+    """Shared data changed (the shipped task library): every organisation's answers are stale."""
+    Organisation.objects.update(answers_version=F("answers_version") + 1)
 
 
-def watch_install(*, sender=None, connection, **kwargs) -> None:
-    """``connection_created`` receiver: put the write watcher on the connection (once)."""
-    if _watch not in connection.execute_wrappers:
-        connection.execute_wrappers.append(_watch)
-
-
-def change_stamp_bump(*, using: str = "default") -> None:
-    """Move the stamp by one (creating its row with a fresh epoch the first time). Never raises: a stamp
-    that could not move leaves cached answers to their time limit, and the write itself has committed."""
-    # The table name is the model's own constant, never input.
-    sql = (
-        f"INSERT INTO {_TABLE} (id, value, epoch) VALUES (1, 1, %s) "  # noqa: S608
-        f"ON CONFLICT (id) DO UPDATE SET value = {_TABLE}.value + 1"
+def person_changed(*, user_id: int) -> None:
+    """The person's own fields changed (unit system, capacity, skills, active): every organisation they
+    belong to answers differently now (a board shows its technicians)."""
+    organisations_changed(
+        organisation_ids=Membership.objects.filter(user_id=user_id).values_list("organisation_id", flat=True)
     )
-    try:
-        with connections[using].cursor() as cursor:
-            cursor.execute(sql, [secrets.token_hex(8)])
-    except DatabaseError as exc:
-        if _table_missing(using):
-            # Data migrations that run before the stamp's own: ``migrations_applied`` moves it at the end.
-            logger.debug("change stamp table not there yet: %s", exc)
-        else:
-            logger.warning("change stamp not moved (cached answers wait for their time limit): %s", exc)
 
 
-def _table_missing(using: str) -> bool:
-    try:
-        return _TABLE not in connections[using].introspection.table_names()
-    except DatabaseError:
-        return False
+def versions_of(*, user_id: int) -> Versions:
+    """The versions a person's answers are kept under: one per organisation they belong to."""
+    return tuple(
+        Membership.objects.filter(user_id=user_id)
+        .order_by("organisation_id")
+        .values_list("organisation_id", "organisation__answers_version")
+    )
+
+
+def token_versions(*, key: str) -> tuple[int, Versions] | None:
+    """(person id, versions) for an API token of an active person with a membership, in one query; None
+    for an unknown or revoked token, a deactivated person or nobody's member (the view decides those)."""
+    rows = list(
+        Membership.objects.filter(user__auth_token__key=key, user__is_active=True)
+        .order_by("organisation_id")
+        .values_list("user_id", "organisation_id", "organisation__answers_version")
+    )
+    if not rows:
+        return None
+    return rows[0][0], tuple((org, version) for _, org, version in rows)
 
 
 def migrations_applied(*, using: str = "default", **kwargs) -> None:
-    """``post_migrate`` receiver: a migration may change data, and the server may be running meanwhile."""
-    change_stamp_bump(using=using)
-
-
-_READ = f"SELECT epoch, value FROM {_TABLE} WHERE id = 1"  # noqa: S608 (the model's own table name)
-
-
-def change_stamp_read(*, using: str = "default") -> tuple[str, int]:
-    """The current stamp as (epoch, value); ("", 0) before the first write.
-
-    Read on the driver's connection, not through Django's cursor: this one read is the whole database
-    cost of a kept answer, and Django's cursor wrapping and psycopg's per-cursor type set-up were half of
-    it. On PostgreSQL the statement is prepared once per connection. Django's error translation and
-    query log (``connection.queries``, query-count tests) still see it.
-    """
-    conn = connections[using]
-    conn.ensure_connection()
-    t0 = time.monotonic()
-    with conn.wrap_database_errors:
-        if conn.vendor == "postgresql":
-            row = conn.connection.execute(_READ, prepare=True).fetchone()
-        else:
-            row = conn.connection.execute(_READ).fetchone()
-    if conn.queries_logged:
-        conn.queries_log.append({"sql": _READ, "time": f"{time.monotonic() - t0:.3f}"})
-    return (row[0], row[1]) if row else ("", 0)
+    """``post_migrate`` receiver: a data migration may change any organisation's data."""
+    try:
+        with transaction.atomic(using=using):
+            Organisation.objects.using(using).update(answers_version=F("answers_version") + 1)
+    except DatabaseError as exc:  # migrated back to before the column: nothing is kept against it
+        logger.debug("answer versions not moved after migrate: %s", exc)

@@ -19,6 +19,12 @@ class Organisation(models.Model):
     slug = models.SlugField(max_length=60, unique=True)
     kind = models.CharField(max_length=20, choices=Kind.choices, default=Kind.CONTRACTOR)
     created_at = models.DateTimeField(auto_now_add=True)
+    answers_version = models.BigIntegerField(
+        default=0,
+        editable=False,
+        help_text="Moves when the organisation's data changes, so kept API answers know they are stale "
+        "(accounts.changes).",
+    )
 
     class Meta:
         ordering = ["name"]
@@ -108,17 +114,3 @@ class AuditEvent(models.Model):
 
     def __str__(self) -> str:
         return f"{self.at:%Y-%m-%d %H:%M} {self.actor} {self.action} {self.object_type}#{self.object_id}"
-
-
-class ChangeStamp(models.Model):
-    """A counter that moves after every committed write to the project's data (see ``accounts.changes``).
-
-    One row. ``epoch`` is drawn when the row is first written, so a stamp read after the table was
-    emptied (a test flush, a restore into a fresh database) never equals one read before it.
-    """
-
-    value = models.BigIntegerField(default=0)
-    epoch = models.CharField(max_length=32)
-
-    def __str__(self) -> str:
-        return f"change stamp {self.epoch}:{self.value}"

@@ -40,6 +40,7 @@ from django.core.exceptions import NON_FIELD_ERRORS, ValidationError
 from django.db import IntegrityError, transaction
 from django.db.models import QuerySet
 
+from accounts.changes import organisation_changed
 from accounts.models import Organisation
 
 from .models import AHU, Building, Component, Site, new_component_code, new_unit_code
@@ -668,6 +669,7 @@ class _Plan:
                     Component.objects.bulk_create(ready, batch_size=500)
                     pending = [c for c in pending if c.pk is None]
                 self._update(Component)
+                organisation_changed(organisation_id=self.organisation.pk)  # a registry import renames and adds
                 finish()
         except IntegrityError as exc:
             raise ImportFailed([RowError(0, "", "", f"the database refused the file, nothing was imported: {exc}")])

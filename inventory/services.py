@@ -11,6 +11,8 @@ from django.db import models, transaction
 from django.db.models import ProtectedError
 from django.urls import reverse
 
+from accounts.changes import organisation_changed, organisations_changed
+
 from .models import AHU, Building, Component, Site
 from .specs import SpecErrors, validate_specs
 
@@ -62,6 +64,22 @@ def _audit(by, obj, action: str, changes: dict | None = None) -> None:
     audit_record(actor=by, obj=obj, action=action, changes=changes or {}, organisation=site.organisation)
 
 
+def _organisation_id(obj) -> int:
+    """The organisation a registry record belongs to (its site's)."""
+    if isinstance(obj, Site):
+        return obj.organisation_id
+    if isinstance(obj, Building):
+        return obj.site.organisation_id
+    if isinstance(obj, AHU):
+        return obj.building.site.organisation_id
+    return obj.ahu.building.site.organisation_id
+
+
+def _changed(*objs) -> None:
+    """Today and the board name sites, buildings, units and parts: their organisations' answers are stale."""
+    organisations_changed(organisation_ids=[_organisation_id(o) for o in objs])
+
+
 def _said(fields: dict[str, Any]) -> dict[str, Any]:
     """The changed fields as the audit trail keeps them (a related record by its key)."""
 
@@ -79,13 +97,16 @@ def _said(fields: dict[str, Any]) -> dict[str, Any]:
 def site_create(*, by=None, **fields: Any) -> Site:
     site = _save_new(Site(**fields))
     _audit(by, site, "site_create", _said(fields))
+    _changed(site)
     return site
 
 
 @transaction.atomic
 def site_update(*, site: Site, by=None, **fields: Any) -> Site:
+    before = Site(organisation_id=site.organisation_id)
     _update(site, fields)
     _audit(by, site, "site_update", _said(fields))
+    _changed(before, site)
     return site
 
 
@@ -93,6 +114,7 @@ def site_update(*, site: Site, by=None, **fields: Any) -> Site:
 def building_create(*, by=None, **fields: Any) -> Building:
     building = _save_new(Building(**fields))
     _audit(by, building, "building_create", _said(fields))
+    _changed(building)
     return building
 
 
@@ -100,6 +122,7 @@ def building_create(*, by=None, **fields: Any) -> Building:
 def building_update(*, building: Building, by=None, **fields: Any) -> Building:
     _update(building, fields)
     _audit(by, building, "building_update", _said(fields))
+    _changed(building)
     return building
 
 
@@ -107,6 +130,7 @@ def building_update(*, building: Building, by=None, **fields: Any) -> Building:
 def ahu_create(*, by=None, **fields: Any) -> AHU:
     ahu = _save_new(AHU(**fields))
     _audit(by, ahu, "ahu_create", _said(fields))
+    _changed(ahu)
     return ahu
 
 
@@ -114,6 +138,7 @@ def ahu_create(*, by=None, **fields: Any) -> AHU:
 def ahu_update(*, ahu: AHU, by=None, **fields: Any) -> AHU:
     _update(ahu, fields)
     _audit(by, ahu, "ahu_update", _said(fields))
+    _changed(ahu)
     return ahu
 
 
@@ -129,6 +154,7 @@ def ahu_move(*, ahu: AHU, building: Building, by=None) -> AHU:
     before = ahu.building_id
     _update(ahu, {"building": building})
     _audit(by, ahu, "ahu_move", {"building": [before, building.pk]})
+    _changed(ahu)
     return ahu
 
 
@@ -141,6 +167,7 @@ def ahu_retire(*, ahu: AHU, by=None, reason: str = "") -> AHU:
     before = ahu.status
     _update(ahu, {"status": AHU.Status.RETIRED})
     _audit(by, ahu, "ahu_retire", {"status": [before, ahu.status], "reason": reason})
+    _changed(ahu)
     return ahu
 
 
@@ -152,6 +179,7 @@ def component_create(*, by=None, **fields: Any) -> Component:
     component_full_clean(component)
     component.save()
     _audit(by, component, "component_create", _said(fields))
+    _changed(component)
     return component
 
 
@@ -162,6 +190,7 @@ def component_update(*, component: Component, by=None, **fields: Any) -> Compone
     component_full_clean(component)
     component.save(update_fields=list(fields) if fields else None)
     _audit(by, component, "component_update", _said(fields))
+    _changed(component)
     return component
 
 
@@ -183,6 +212,7 @@ def component_retire(*, component: Component, on: dt.date, by=None, reason: str 
     for part in retired:
         part.retired_on = on
         _audit(by, part, "component_retire", {"retired_on": on.isoformat(), "reason": reason})
+    _changed(component)
     return retired
 
 
@@ -192,6 +222,7 @@ def component_delete(*, component: Component) -> None:
 
     A component that inspection records or work point to stays: those records are evidence.
     """
+    organisation_id = _organisation_id(component)
     try:
         with transaction.atomic():
             component.delete()
@@ -205,6 +236,7 @@ def component_delete(*, component: Component) -> None:
                 ]
             }
         )
+    organisation_changed(organisation_id=organisation_id)
 
 
 def label_absolute_url(*, code: str) -> str:

@@ -278,8 +278,9 @@ CONDITIONAL = [
 ]
 
 
-# Both polled reads are whole answers from accounts.answers: built once per change of the data, then served
-# from the worker's memory (a token client's repeat costs one read of the change stamp, before DRF is entered).
+# Both polled reads are whole answers from accounts.answers: built once per change of the organisation's data
+# (accounts.changes), then served from the worker's memory (a token client's repeat costs one query, before DRF
+# is entered).
 # The ETag is a hash of the answer's bytes, so it is right whatever changed (a work order, a site's name, a
 # task's estimate).
 def today_params(request, user) -> tuple[dt.date, tuple[float, float] | None]:

@@ -40,6 +40,7 @@ from django.db.models import Max, Q, TextField
 from django.db.models.functions import Cast
 from django.utils import timezone
 
+from accounts.changes import organisation_changed
 from accounts.models import AuditEvent
 from engineering.errors import EngineeringInputError
 from engineering.trends import run_hours_per_day
@@ -548,6 +549,7 @@ def work_orders_generate(
         if moves:
             _write_moves(moves, organisation=organisation, audit=audit)
         AuditEvent.objects.bulk_create(audit, batch_size=1000)
+        organisation_changed(organisation_id=organisation.pk)
     return result
 
 

@@ -176,7 +176,7 @@ DATA_UPLOAD_MAX_MEMORY_SIZE = 12 * 1024 * 1024
 REST_FRAMEWORK = {
     "DEFAULT_AUTHENTICATION_CLASSES": [
         # Token first, so an unauthenticated API call gets 401 with a WWW-Authenticate header.
-        "accounts.answers.StampedTokenAuthentication",
+        "rest_framework.authentication.TokenAuthentication",
         "rest_framework.authentication.SessionAuthentication",
     ],
     "DEFAULT_PERMISSION_CLASSES": ["rest_framework.permissions.IsAuthenticated"],
@@ -279,8 +279,9 @@ PLENUM_PUBLIC_URL = os.environ.get("PLENUM_PUBLIC_URL", "http://127.0.0.1:8000")
 # A technician sees a site while they have open work there, and for this many days after their last
 # finished work there (the unit's history on the job); older assignments no longer grant it. inventory.selectors
 PLENUM_TECHNICIAN_SITE_DAYS = int(os.environ.get("PLENUM_TECHNICIAN_SITE_DAYS", "90"))
-# Polled API answers (today, board) kept per worker until any write moves the change stamp, and never
-# longer than this (the limit covers writes made outside Django); 0 turns the cache off. accounts/answers.py
+# Polled API answers (today, board) kept per worker until a service moves their organisation's version, and
+# never longer than this (the limit covers writes made outside the services); 0 turns the cache off.
+# accounts/answers.py, accounts/changes.py
 PLENUM_ANSWER_CACHE_SECONDS = int(os.environ.get("PLENUM_ANSWER_CACHE_SECONDS", "60"))
 PLENUM_ANSWER_CACHE_BYTES = int(os.environ.get("PLENUM_ANSWER_CACHE_BYTES", str(32 * 1024 * 1024)))
 

@@ -15,6 +15,7 @@ import zoneinfo
 from django.db import IntegrityError, transaction
 from django.utils import timezone
 
+from accounts.changes import organisation_changed
 from accounts.services import audit_record
 from engineering.freeze import daily_minimums_from_normals
 from engineering.outdoor_air import fraction_words
@@ -255,14 +256,25 @@ def _worst(a: str, b: str) -> str:
     return max(a, b, key=lambda s: SEVERITY_ORDER.index(s) if s in SEVERITY_ORDER else 0)
 
 
-def _observe(*, inspection: Inspection, ev: Evaluation, res, values: dict, seen_at, amendment, by):
+def _observe(
+    *, inspection: Inspection, ev: Evaluation, res, values: dict, seen_at, amendment, by, known=None, fresh=None
+):
     """Update the open finding of this unit, part and problem with a new observation, or open one.
 
     Returns (finding, new?). A second failure of the same problem on the same form (the outdoor-air
     fraction by temperatures and by CO2) is one visit: it updates the values, not the count.
+    ``known``: the unit's open findings, {(component id, problem): finding}, read (and locked) once by the
+    caller; ``fresh``: those of them just opened for an observation, {key: its evaluation}.
     """
     key = {"ahu_id": inspection.ahu_id, "component": res.component, "problem": values["problem"]}
-    finding = Finding.objects.select_for_update(of=("self",)).filter(state=Finding.State.OPEN, **key).first()
+    known_key = (res.component.pk if res.component is not None else None, values["problem"])
+    if known is not None and known_key in known:
+        finding = known[known_key]
+        if fresh is not None and fresh.get(known_key) is ev:
+            del fresh[known_key]
+            return finding, True  # opened by this observation, in findings_open's one insert
+    else:
+        finding = Finding.objects.select_for_update(of=("self",)).filter(state=Finding.State.OPEN, **key).first()
     if finding is None:
         try:
             with transaction.atomic():
@@ -281,9 +293,13 @@ def _observe(*, inspection: Inspection, ev: Evaluation, res, values: dict, seen_
                     **{k: v for k, v in values.items() if k != "problem"},
                     problem=values["problem"],
                 )
+            if known is not None:
+                known[known_key] = finding
             return finding, True
         except IntegrityError:  # another form opened it meanwhile: observe that one
             finding = Finding.objects.select_for_update(of=("self",)).get(state=Finding.State.OPEN, **key)
+            if known is not None:
+                known[known_key] = finding
     same_visit = finding.latest_inspection_id == inspection.pk
     if not same_visit:
         finding.times_seen += 1
@@ -323,6 +339,52 @@ def _observe(*, inspection: Inspection, ev: Evaluation, res, values: dict, seen_
     return finding, False
 
 
+def _findings_opened(*, inspection: Inspection, failing: list, seen_at, amendment) -> tuple[dict, dict]:
+    """The unit's open findings, locked, in one query; and the new ones the failures need, opened in one insert.
+
+    Returns (known, fresh) for ``_observe``. Should another form open one of the same findings meanwhile (the
+    unique constraint refuses the insert), nothing is opened here and each failure goes its own way, as ever.
+    """
+    known: dict = {}
+    for f in Finding.objects.select_for_update(of=("self",)).filter(state=Finding.State.OPEN, ahu_id=inspection.ahu_id):
+        known.setdefault((f.component_id, f.problem), f)  # newest first, as .first() would pick
+    fresh: dict = {}
+    new: list[tuple[tuple, Finding]] = []
+    for ev, res, _condition, _urgent, _design_review, values in failing:
+        key = (res.component.pk if res.component is not None else None, values["problem"])
+        if key in known or key in fresh:
+            continue
+        fresh[key] = ev
+        new.append(
+            (
+                key,
+                Finding(
+                    organisation_id=inspection.organisation_id,
+                    inspection=inspection,
+                    evaluation=ev,
+                    ahu=inspection.ahu,
+                    component=res.component,
+                    opened_at=seen_at,
+                    last_seen_at=seen_at,
+                    times_seen=1,
+                    latest_evaluation=ev,
+                    latest_inspection=inspection,
+                    amendment=amendment,
+                    **values,
+                ),
+            )
+        )
+    if not new:
+        return known, fresh
+    try:
+        with transaction.atomic():
+            Finding.objects.bulk_create([f for _, f in new])
+    except IntegrityError:
+        return known, {}
+    known.update(new)
+    return known, fresh
+
+
 def findings_open(
     *, inspection: Inspection, evaluations: list[Evaluation], results, by, amendment=None, opened_at=None
 ) -> list[Finding]:
@@ -347,6 +409,7 @@ def findings_open(
     found: dict[int, Finding] = {}
     needs_work: dict[str, dict] = {}
     replaced = banks_replaced(results=results)
+    failing = []
     for ev, res in pairs:
         if ev.verdict != "fail":
             continue
@@ -369,8 +432,19 @@ def findings_open(
             "reason_parts": parts,
             "condition_code": condition,
         }
+        failing.append((ev, res, condition, urgent, design_review, values))
+    known, fresh = _findings_opened(inspection=inspection, failing=failing, seen_at=seen_at, amendment=amendment)
+    for ev, res, condition, urgent, design_review, values in failing:
         finding, _ = _observe(
-            inspection=inspection, ev=ev, res=res, values=values, seen_at=seen_at, amendment=amendment, by=by
+            inspection=inspection,
+            ev=ev,
+            res=res,
+            values=values,
+            seen_at=seen_at,
+            amendment=amendment,
+            by=by,
+            known=known,
+            fresh=fresh,
         )
         found[finding.pk] = finding
         if design_review:
@@ -558,9 +632,9 @@ def _corrective_for_group(*, inspection, condition: str, findings: list[Finding]
             approved=urgent,
             observed_on=inspection.finished_at.astimezone(zoneinfo.ZoneInfo(site.time_zone)).date(),
         )
+    Finding.objects.filter(pk__in=[f.pk for f in waiting]).update(corrective_work_order=wo)
     for finding in waiting:
         finding.corrective_work_order = wo
-        finding.save(update_fields=["corrective_work_order"])
 
 
 def _parts_named(findings: list[Finding]) -> str:
@@ -750,5 +824,6 @@ def finding_work_order_attach(*, finding: Finding, work_order, by) -> Finding:
         organisation=locked.organisation,
         changes={"work_order": str(work_order.public_id), "replaced": str(held.public_id) if held else None},
     )
+    organisation_changed(organisation_id=locked.organisation_id)
     finding.corrective_work_order = work_order
     return locked

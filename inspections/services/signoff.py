@@ -6,6 +6,7 @@ from django.core.exceptions import PermissionDenied, ValidationError
 from django.db import transaction
 from django.utils import timezone
 
+from accounts.changes import organisation_changed
 from accounts.inputs import text_problem
 from accounts.services import audit_record
 from inventory.selectors import sites_managed_by
@@ -87,14 +88,15 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
         )
     from .sync import _filter_points_for
 
+    components = list(inspection.ahu.components.all())
     results = evaluation.evaluate(
         evaluation.Form(
             ahu=inspection.ahu,
-            components=list(inspection.ahu.components.all()),
+            components=components,
             values=values,
             slots=parsed.checklist.slots,
             finished_at=inspection.finished_at,
-            filter_points=_filter_points_for(inspection.ahu, inspection.finished_at),
+            filter_points=_filter_points_for(components, inspection.finished_at),
         )
     )
     by_item = {}
@@ -148,6 +150,7 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
             "cleared_findings": [f.pk for f in cleared],
         },
     )
+    organisation_changed(organisation_id=inspection.organisation_id)  # findings and corrective work moved
     return amendment
 
 
@@ -203,6 +206,7 @@ def inspection_verify(*, inspection: Inspection, by) -> Inspection:
     if inspection.work_order.state == "completed":
         work_order_verify(work_order=inspection.work_order, by=by)
     audit_record(actor=by, obj=inspection, action="inspection_verify", organisation=inspection.organisation)
+    organisation_changed(organisation_id=inspection.organisation_id)  # the board's "to verify"
     return inspection
 
 
@@ -231,4 +235,5 @@ def flagged_form_resolve(*, inspection: Inspection, by, note: str) -> Inspection
         organisation=inspection.organisation,
         changes={"flags": [f["code"] for f in inspection.flags], "note": inspection.flag_resolution_note},
     )
+    organisation_changed(organisation_id=inspection.organisation_id)
     return inspection

@@ -21,6 +21,7 @@ from django.core.files.base import ContentFile
 from django.db import DatabaseError, DataError, IntegrityError, transaction
 from django.utils import timezone
 
+from accounts.changes import organisation_changed
 from accounts.services import audit_record
 from engineering.errors import EngineeringInputError
 from engineering.filters import FilterPoint
@@ -391,11 +392,21 @@ def form_parse(
 # ---------------------------------------------------------------------------
 
 
-def _filter_points_for(ahu, finished_at):
-    """Earlier readings of a bank's present filters, for its change forecast (``selectors.filter_series``)."""
+def _filter_points_for(unit, finished_at):
+    """Earlier readings of a bank's present filters, for its change forecast (``selectors.filter_series``).
+
+    ``unit``: the AHU, or its components as already loaded. Every bank of the unit is read at the first
+    question, in the fixed queries of ``filter_series_for``: a unit with 13 banks costs what one with one does."""
+    series: dict = {}
 
     def points(component) -> list[FilterPoint]:
-        return selectors.filter_series(component=component, before=finished_at).current.forecast_points()
+        if not series:
+            components = unit if isinstance(unit, list) else list(unit.components.all())
+            series.update(selectors.filter_series_for(components=components, before=finished_at) or {None: None})
+        found = series.get(component.pk)
+        if found is None:  # not one of the unit's banks as loaded (never expected): asked on its own
+            found = selectors.filter_series(component=component, before=finished_at)
+        return found.current.forecast_points()
 
     return points
 
@@ -408,13 +419,14 @@ def _evaluate(parsed: Parsed) -> list[evaluation.Result]:
         )
         for r in parsed.readings
     }
+    components = list(wo.ahu.components.all())
     form = evaluation.Form(
         ahu=wo.ahu,
-        components=list(wo.ahu.components.all()),
+        components=components,
         values=values,
         slots=parsed.checklist.slots,
         finished_at=parsed.finished_at,
-        filter_points=_filter_points_for(wo.ahu, parsed.finished_at),
+        filter_points=_filter_points_for(components, parsed.finished_at),
     )
     return evaluation.evaluate(form)
 
@@ -663,6 +675,7 @@ def _store(parsed: Parsed, user, results) -> dict:
                     "findings": [f.pk for f in found],
                 },
             )
+            organisation_changed(organisation_id=wo.organisation_id)  # today, the board and its "to verify"
             return inspection.sync_result
     except IntegrityError:
         for f in written:

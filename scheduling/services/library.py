@@ -7,6 +7,7 @@ from typing import Any
 from django.core.exceptions import ValidationError
 from django.db import transaction
 
+from accounts.changes import every_organisation_changed, organisation_changed
 from accounts.inputs import FieldErrors, check_text
 from accounts.models import Organisation
 from inventory.models import AHU, ComponentKind
@@ -92,6 +93,10 @@ def task_library_install(*, organisation: Organisation | None = None) -> list[Ta
             if changed:
                 task.save(update_fields=[*changed, "updated_at"])
         out.append(task)
+    if organisation is None:
+        every_organisation_changed()  # the shared rows are every organisation's unless overridden
+    else:
+        organisation_changed(organisation_id=organisation.pk)
     return out
 
 
@@ -129,6 +134,7 @@ def task_definition_override(
 
         audited = _jsonable(changes) | ({"reason": reason} if reason else {})
         audit_record(actor=by, obj=task, action="task_override", changes=audited, organisation=organisation)
+    organisation_changed(organisation_id=organisation.pk)
     return task
 
 
@@ -146,6 +152,7 @@ def task_definition_create(*, organisation: Organisation, by=None, **fields: Any
         from accounts.services import audit_record
 
         audit_record(actor=by, obj=task, action="task_create", changes=_jsonable(fields), organisation=organisation)
+    organisation_changed(organisation_id=organisation.pk)
     return task
 
 
@@ -169,6 +176,7 @@ def unit_task_set(*, ahu: AHU, task_code: str, enabled: bool, reason: str = "", 
             changes={"task_code": task_code, "enabled": enabled, "reason": reason},
             organisation=ahu.building.site.organisation,
         )
+    organisation_changed(organisation_id=ahu.building.site.organisation_id)
     return setting
 
 
@@ -237,4 +245,5 @@ def unit_task_rule_set(
             changes={"task_code": task.code, "before": before, "after": after, "reason": reason},
             organisation=ahu.building.site.organisation,
         )
+    organisation_changed(organisation_id=ahu.building.site.organisation_id)
     return setting

@@ -13,6 +13,7 @@ from django.db import transaction
 from django.utils import timezone
 from django.utils.dateparse import parse_datetime
 
+from accounts.changes import organisation_changed
 from accounts.inputs import EARLIEST_DATE, in_zone, local_text, reading_time_problem, shown, text_problem
 from inventory.models import AHU, Component
 
@@ -225,6 +226,7 @@ def meter_reading_record(
         recorded_by=by if getattr(by, "is_authenticated", False) else None,
     )
     reading.save()
+    organisation_changed(organisation_id=ahu.building.site.organisation_id)  # run-hour tasks project from it
     return reading
 
 

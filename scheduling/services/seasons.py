@@ -17,6 +17,7 @@ from functools import lru_cache
 from django.core.exceptions import ValidationError
 from django.db import transaction
 
+from accounts.changes import organisation_changed
 from engineering.freeze import cooling_season_start, freeze_season_start
 from inventory.models import Site
 
@@ -181,4 +182,5 @@ def site_seasons_refresh(*, site: Site, today: dt.date, provider=None, fetch: bo
     freeze, cooling, source = season_starts(site=site, today=today, stored=stored)
     site.freeze_season_start, site.cooling_season_start, site.season_source = freeze, cooling, source
     site.save(update_fields=["freeze_season_start", "cooling_season_start", "season_source"])
+    organisation_changed(organisation_id=site.organisation_id)
     return site

@@ -19,6 +19,7 @@ from django.db import transaction
 from django.db.models import Q
 from django.utils import timezone
 
+from accounts.changes import organisation_changed
 from accounts.clock import day_text, local_date_of, local_time_text
 from accounts.inputs import PLAN_YEARS_AHEAD, FieldErrors, check_text, latest_plan_date, text_problem
 from accounts.models import Membership, Role
@@ -79,6 +80,7 @@ def _save(wo: WorkOrder, fields: list[str], *, by, action: str, changes: dict) -
     wo.version += 1
     wo.save(update_fields=[*fields, "version", "updated_at"])
     audit_record(actor=by, obj=wo, action=action, changes=changes, organisation=wo.organisation)
+    organisation_changed(organisation_id=wo.organisation_id)  # today and the board show this work order
     return wo
 
 
@@ -410,6 +412,7 @@ def corrective_work_order_propose(
         },
         organisation=organisation,
     )
+    organisation_changed(organisation_id=organisation.pk)
     if approved and priority == WorkOrder.Priority.URGENT:
         _email_supervisors_on_commit(
             organisation.pk,
@@ -535,6 +538,7 @@ def overdue_escalation_send(*, organisation, today: dt.date, repeat_days: int = 
         for wo in orders
     ]
     WorkOrder.objects.filter(pk__in=[wo.pk for wo in orders]).update(escalated_on=today)
+    organisation_changed(organisation_id=organisation.pk)
     _email_supervisors_on_commit(
         organisation.pk,
         f"{len(orders)} overdue work order{'' if len(orders) == 1 else 's'}",
@@ -777,6 +781,7 @@ def work_order_create(
         },
         organisation=organisation,
     )
+    organisation_changed(organisation_id=organisation.pk)
     return wo
 
 

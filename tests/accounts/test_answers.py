@@ -1,10 +1,10 @@
-"""Kept answers: a repeat costs one read of the change stamp, and any committed change is seen at once.
+"""Kept answers: a repeat costs one query (the token, its person and their organisations' versions), and a
+change made through a service is seen at once (tests/scheduling/test_answer_invalidation.py: per service family,
+and not by another organisation).
 
 These tests commit (``transaction=True``) as the server does; inside one test transaction the cache
 stands aside, since it cannot know uncommitted writes.
 """
-
-import datetime as dt
 
 import pytest
 from django.db import connection
@@ -17,8 +17,9 @@ from rest_framework.test import APIClient
 from accounts import answers
 from accounts.answers import answer_cache_clear
 from accounts.services import api_token_revoke
+from inventory.services import site_update
 from scheduling.models import WorkOrder
-from scheduling.services import work_order_assign
+from scheduling.services import work_order_assign, work_order_cancel
 from tests.factories.inventory import make_full_unit
 from tests.factories.scheduling import WorkOrderFactory, make_supervisor, make_technician
 
@@ -56,7 +57,7 @@ def titles(response) -> list[str]:
 
 
 def test_a_repeat_costs_one_read_and_is_the_same_answer(world, django_assert_num_queries):
-    """The second GET reads only the stamp and gives the same bytes and headers as the first."""
+    """The second GET reads only the versions and gives the same bytes and headers as the first."""
     client = client_for(world["tech"])
     first = client.get(TODAY_URL)
     assert first.status_code == 200 and titles(first) == ["Filter change"]
@@ -67,18 +68,20 @@ def test_a_repeat_costs_one_read_and_is_the_same_answer(world, django_assert_num
         assert second[header] == first[header], header
 
 
-def test_a_change_committed_anywhere_is_seen_by_the_next_request(world):
-    """A new assignment (a service), a bulk rename (QuerySet.update) and a site's rename each show at once."""
+def test_a_change_made_through_a_service_is_seen_by_the_next_request(world):
+    """A new assignment and a site's rename (services) each show at once; a QuerySet.update() that skips the
+    services is not seen until the answer's time limit (no SQL is watched)."""
     client = client_for(world["tech"])
     assert titles(client.get(TODAY_URL)) == ["Filter change"]
     extra = WorkOrderFactory(organisation=world["org"], ahu=world["ahu"], due_date=world["today"], title="Belt")
     work_order_assign(work_order=extra, assignee=world["tech"], by=world["sup"])
     assert sorted(titles(client.get(TODAY_URL))) == ["Belt", "Filter change"]
     WorkOrder.objects.filter(pk=extra.pk).update(title="Belt and pulleys")
-    assert sorted(titles(client.get(TODAY_URL))) == ["Belt and pulleys", "Filter change"]
-    site = world["ahu"].building.site
-    type(site).objects.filter(pk=site.pk).update(name="North Annex")
-    assert client.get(TODAY_URL).json()[0]["site"]["name"] == "North Annex"
+    assert sorted(titles(client.get(TODAY_URL))) == ["Belt", "Filter change"], "kept: no service said so"
+    site_update(site=world["ahu"].building.site, by=world["sup"], name="North Annex")
+    body = client.get(TODAY_URL).json()
+    assert body[0]["site"]["name"] == "North Annex"
+    assert sorted(w["title"] for v in body for w in v["work_orders"]) == ["Belt and pulleys", "Filter change"]
 
 
 def test_a_revoked_token_or_deactivated_person_is_refused_at_once(world):
@@ -124,19 +127,20 @@ def test_a_kept_answer_answers_a_conditional_get_with_304(world):
     assert again.status_code == 304 and again.content == b""
 
 
-def test_the_board_sees_a_new_due_date_at_once(world):
-    """Moving a visit into next week takes it off this week's kept board on the next request."""
+def test_the_board_sees_a_cancelled_visit_at_once(world):
+    """Cancelling a visit takes it off this week's kept board on the next request."""
     client = client_for(world["sup"])
     extra = WorkOrderFactory(organisation=world["org"], ahu=world["ahu"], due_date=world["today"], title="Coil")
     body = client.get(BOARD_URL).json()
     assert str(extra.public_id) in {r["id"] for r in body["due"] + body["overdue"]}
-    WorkOrder.objects.filter(pk=extra.pk).update(due_date=world["today"] + dt.timedelta(days=14))
+    client.get(BOARD_URL)
+    work_order_cancel(work_order=extra, by=world["sup"], reason="done with the belt visit")
     body = client.get(BOARD_URL).json()
     assert str(extra.public_id) not in {r["id"] for r in body["due"] + body["overdue"]}
 
 
 def test_answers_expire_after_the_time_limit(world, monkeypatch, django_assert_num_queries):
-    """A write made outside Django is not seen by the stamp; the time limit bounds how long it could hide."""
+    """A write made outside the services moves no version; the time limit bounds how long it could hide."""
     now = [1000.0]
     monkeypatch.setattr(answers, "_clock", lambda: now[0])
     answer_cache_clear()
@@ -159,7 +163,7 @@ def test_the_cache_can_be_turned_off(world):
     with CaptureQueriesContext(connection) as seen:
         assert titles(client.get(TODAY_URL)) == ["Filter change"]
     sql = [q["sql"] for q in seen.captured_queries]
-    assert not any("changestamp" in q for q in sql), "no stamp read"
+    assert not any("answers_version" in q for q in sql), "no version read"
     assert any("authtoken_token" in q for q in sql) and any("scheduling_workorder" in q for q in sql), "all read"
 
 
@@ -171,9 +175,9 @@ def test_the_browsable_api_is_not_served_from_the_cache(world):
     assert page.status_code == 200 and page["Content-Type"].startswith("text/html")
 
 
-def test_a_request_without_a_token_reads_no_stamp(world):
-    """Only token requests use the kept tokens: an anonymous call is a 401 naming Token, with no stamp read."""
+def test_a_request_without_a_token_reads_no_version(world):
+    """Only token requests take the kept path: an anonymous call is a 401 naming Token, with no version read."""
     with CaptureQueriesContext(connection) as seen:
         response = APIClient().get(TODAY_URL)
     assert response.status_code == 401 and response["WWW-Authenticate"].startswith("Token")
-    assert not any("changestamp" in q["sql"] for q in seen.captured_queries)
+    assert not any("answers_version" in q["sql"] for q in seen.captured_queries)

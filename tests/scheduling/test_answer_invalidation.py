@@ -1,0 +1,281 @@
+"""Kept answers go stale by organisation: each service family that changes what today or the board shows moves
+its organisation's version in its own transaction, so that organisation's next poll is built afresh at once,
+and another organisation's kept answers stay kept (one query, same ETag).
+
+These tests commit (``transaction=True``) as the server does. Dates are fixed (``?day=`` and ``?week=`` of the
+visit's day), never today's.
+"""
+
+import datetime as dt
+from decimal import Decimal
+from types import SimpleNamespace
+
+import pytest
+from django.db import connection
+from django.test.utils import CaptureQueriesContext
+from rest_framework.authtoken.models import Token
+from rest_framework.test import APIClient
+
+from accounts.models import Membership, Role
+from accounts.services import PersonInput, person_deactivate, person_update, site_grants_set
+from inspections.models import Inspection
+from inspections.services import inspection_verify
+from inspections.services.sync import inspection_sync
+from inventory.models import AHU
+from inventory.services import ahu_update, component_update, site_update
+from scheduling.engine import work_orders_generate
+from scheduling.models import WorkOrder
+from scheduling.selectors import site_today
+from scheduling.services import (
+    corrective_work_order_approve,
+    corrective_work_order_propose,
+    corrective_work_order_reject,
+    meter_reading_record,
+    task_definition_override,
+    unit_task_set,
+    work_order_assign,
+    work_order_cancel,
+    work_order_schedule,
+    work_order_transition,
+)
+from scheduling.services.work_orders import OneOffTask, work_order_create
+from tests.factories.accounts import make_person
+from tests.factories.inspections import FINISHED, component, make_visit, r, sync_form
+
+pytestmark = pytest.mark.django_db(transaction=True)
+DAY = FINISHED.date()
+TODAY_URL = f"/api/scheduling/today/?day={DAY.isoformat()}"
+BOARD_URL = f"/api/scheduling/board/?week={DAY.isoformat()}"
+
+
+def client_for(user) -> APIClient:
+    client = APIClient()
+    client.credentials(HTTP_AUTHORIZATION=f"Token {Token.objects.get_or_create(user=user)[0].key}")
+    return client
+
+
+def _organisation(name: str) -> SimpleNamespace:
+    wo, tech = make_visit(tasks=["filter_check"])
+    org = wo.organisation
+    sup = make_person(organisation=org, role=Role.SUPERVISOR)
+    return SimpleNamespace(
+        name=name, org=org, ahu=wo.ahu, wo=wo, tech=tech, sup=sup, today=client_for(tech), board=client_for(sup)
+    )
+
+
+@pytest.fixture
+def world():
+    return SimpleNamespace(a=_organisation("a"), b=_organisation("b"))
+
+
+def poll(client, url):
+    """(response, queries it cost)."""
+    with CaptureQueriesContext(connection) as seen:
+        response = client.get(url)
+    assert response.status_code == 200, response.content
+    return response, len(seen)
+
+
+def kept_all(world) -> dict:
+    """Every answer of both organisations polled twice: the second poll is kept (one query). Their ETags."""
+    etags = {}
+    for side in (world.a, world.b):
+        for what, client, url in (("today", side.today, TODAY_URL), ("board", side.board, BOARD_URL)):
+            poll(client, url)
+            response, queries = poll(client, url)
+            assert queries == 1, f"{side.name}'s {what} is kept"
+            etags[side.name, what] = response["ETag"]
+    return etags
+
+
+def assert_only_a_moved(world, etags, *, changed: tuple[str, ...] = ()) -> dict:
+    """a's answers are built afresh (more than the one query), b's stay kept with the same ETag; the answers
+    named in ``changed`` have a new ETag for a. Returns a's new answers."""
+    fresh = {}
+    for what, client, url in (("today", world.a.today, TODAY_URL), ("board", world.a.board, BOARD_URL)):
+        response, queries = poll(client, url)
+        assert queries > 1, f"a's {what} is built again at once"
+        if what in changed:
+            assert response["ETag"] != etags["a", what], f"a's {what} changed"
+        fresh[what] = response.json()
+    for what, client, url in (("today", world.b.today, TODAY_URL), ("board", world.b.board, BOARD_URL)):
+        response, queries = poll(client, url)
+        assert queries == 1, f"b's {what} stays kept"
+        assert response["ETag"] == etags["b", what]
+    return fresh
+
+
+def today_titles(body) -> list[str]:
+    return sorted(w["title"] for v in body for w in v["work_orders"])
+
+
+def board_ids(body) -> set[str]:
+    return {row["id"] for section in ("overdue", "due", "assigned") for row in body[section]}
+
+
+# --- work orders ---------------------------------------------------------------------------------------------
+def test_assigning_work_shows_on_a_today_at_once_and_not_elsewhere(world):
+    etags = kept_all(world)
+    extra = WorkOrder.objects.create(organisation=world.a.org, ahu=world.a.ahu, due_date=DAY, title="Belt check")
+    work_order_assign(work_order=extra, assignee=world.a.tech, by=world.a.sup)
+    fresh = assert_only_a_moved(world, etags, changed=("today", "board"))
+    assert today_titles(fresh["today"]) == ["Belt check", "Quarterly service"]
+
+
+def test_scheduling_and_cancelling_work_move_only_its_organisation(world):
+    etags = kept_all(world)
+    later = site_today(site=world.a.ahu.building.site) + dt.timedelta(days=30)  # the service refuses a past day
+    work_order_schedule(work_order=world.a.wo, day=later, by=world.a.sup)
+    fresh = assert_only_a_moved(world, etags, changed=("today",))
+    assert today_titles(fresh["today"]) == []  # planned for a later day now
+    etags = kept_all(world)
+    work_order_cancel(work_order=world.a.wo, by=world.a.sup, reason="unit replaced")
+    fresh = assert_only_a_moved(world, etags, changed=("board",))
+    assert str(world.a.wo.public_id) not in board_ids(fresh["board"])
+
+
+def test_a_transition_moves_only_its_organisation(world):
+    etags = kept_all(world)
+    work_order_transition(work_order=world.a.wo, to_state=WorkOrder.State.IN_PROGRESS, by=world.a.tech)
+    assert_only_a_moved(world, etags, changed=("today",))
+
+
+def test_corrective_work_proposed_approved_and_rejected(world):
+    etags = kept_all(world)
+    proposed = corrective_work_order_propose(
+        ahu=world.a.ahu, title="Replace belt", reason="belt worn", by=world.a.tech, observed_on=DAY
+    )
+    assert_only_a_moved(world, etags)
+    etags = kept_all(world)
+    corrective_work_order_approve(work_order=proposed, by=world.a.sup)
+    assert_only_a_moved(world, etags)
+    other = corrective_work_order_propose(
+        ahu=world.a.ahu, title="Repaint casing", reason="rust", by=world.a.tech, observed_on=DAY
+    )
+    etags = kept_all(world)
+    corrective_work_order_reject(work_order=other, by=world.a.sup, reason="cosmetic only")
+    assert_only_a_moved(world, etags)
+
+
+def test_made_work_and_call_outs(world):
+    etags = kept_all(world)
+    due_by = dt.datetime.combine(DAY, dt.time(16), tzinfo=dt.UTC)
+    work_order_create(
+        ahu=world.a.ahu,
+        by=world.a.sup,
+        kind=WorkOrder.Kind.AD_HOC,
+        title="Call-out: noisy fan",
+        priority=WorkOrder.Priority.HIGH,
+        due_by=due_by,
+        one_off=[OneOffTask(name="Find the noise", minutes=45, skill="mechanical")],
+        assignee=world.a.tech,
+        now=due_by - dt.timedelta(hours=4),
+    )
+    fresh = assert_only_a_moved(world, etags, changed=("today", "board"))
+    assert "Call-out: noisy fan" in today_titles(fresh["today"])
+
+
+# --- generation ------------------------------------------------------------------------------------------------
+def test_generation_moves_only_its_organisation(world):
+    etags = kept_all(world)
+    AHU.objects.filter(pk=world.a.ahu.pk).update(service_start=dt.date(2024, 1, 15))
+    result = work_orders_generate(organisation=world.a.org, today=DAY)
+    assert result.created > 0
+    assert_only_a_moved(world, etags, changed=("board",))
+
+
+# --- inspections -----------------------------------------------------------------------------------------------
+def _complete_form(wo):
+    ahu = wo.ahu
+    readings = [r("visit.run_hours", 1200)]
+    for name, dp in (("Pre-filters", 80), ("Final filters", 150)):
+        bank = component(ahu, name)
+        readings += [r("filter_check.dp", dp, bank), r("filter_check.seated", "ok", bank)]
+        readings += [r("filter_check.media", "loaded", bank)]
+    return sync_form(wo, readings)
+
+
+def test_a_synced_form_and_its_sign_off(world):
+    etags = kept_all(world)
+    [result] = inspection_sync(user=world.a.tech, forms=[_complete_form(world.a.wo)])
+    assert result["status"] in {"stored", "flagged"}
+    assert_only_a_moved(world, etags, changed=("today", "board"))
+    etags = kept_all(world)
+    inspection_verify(inspection=Inspection.objects.get(work_order=world.a.wo), by=world.a.sup)
+    assert_only_a_moved(world, etags, changed=("board",))
+
+
+# --- registry --------------------------------------------------------------------------------------------------
+def test_renaming_a_site_shows_at_once(world):
+    etags = kept_all(world)
+    site_update(site=world.a.ahu.building.site, by=world.a.sup, name="North Annex")
+    fresh = assert_only_a_moved(world, etags, changed=("today",))
+    assert fresh["today"][0]["site"]["name"] == "North Annex"
+
+
+def test_unit_and_part_changes_move_only_their_organisation(world):
+    etags = kept_all(world)
+    ahu_update(ahu=world.a.ahu, by=world.a.sup, tag="AHU-99")
+    assert_only_a_moved(world, etags)
+    etags = kept_all(world)
+    component_update(component=component(world.a.ahu, "Pre-filters"), by=world.a.sup, name="Pre-filters, left")
+    assert_only_a_moved(world, etags)
+
+
+# --- people ----------------------------------------------------------------------------------------------------
+def test_a_technicians_capacity_and_deactivation(world):
+    etags = kept_all(world)
+    data = PersonInput(
+        first_name=world.a.tech.first_name,
+        last_name=world.a.tech.last_name,
+        email=world.a.tech.email,
+        role=Role.TECHNICIAN,
+        capacity_hours=Decimal("4.0"),
+        skills=["mechanical"],
+    )
+    admin = make_person(organisation=world.a.org, role=Role.ADMIN)
+    person_update(by=admin, organisation=world.a.org, person=world.a.tech, data=data)
+    assert_only_a_moved(world, etags, changed=("board",))
+    etags = kept_all(world)
+    site_grants_set(by=admin, organisation=world.a.org, person=world.a.sup, sites=[world.a.ahu.building.site])
+    assert_only_a_moved(world, etags)
+    other = make_person(organisation=world.a.org, role=Role.TECHNICIAN)
+    etags = kept_all(world)
+    person_deactivate(by=admin, organisation=world.a.org, person=other)
+    assert_only_a_moved(world, etags)
+    assert not Membership.objects.get(user=other).user.is_active
+
+
+# --- rules and meters ------------------------------------------------------------------------------------------
+def test_rule_changes_move_only_their_organisation(world):
+    etags = kept_all(world)
+    task_definition_override(organisation=world.a.org, code="filter_check", by=world.a.sup, estimated_minutes=50)
+    assert_only_a_moved(world, etags)
+    etags = kept_all(world)
+    unit_task_set(ahu=world.a.ahu, task_code="filter_check", enabled=False, reason="filters removed", by=world.a.sup)
+    assert_only_a_moved(world, etags)
+
+
+def test_a_meter_reading_moves_only_its_organisation(world):
+    etags = kept_all(world)
+    meter_reading_record(ahu=world.a.ahu, hours=1500, taken_at=FINISHED, by=world.a.tech)
+    assert_only_a_moved(world, etags)
+
+
+# --- ETag round trip -------------------------------------------------------------------------------------------
+def test_etag_round_trip(world):
+    """200 with an ETag; the same ETag in If-None-Match gets 304 with no body (kept or not); after a change,
+    200 with a new ETag, and the old one no longer matches."""
+    client = world.a.today
+    first = client.get(TODAY_URL)
+    assert first.status_code == 200 and first["ETag"]
+    for _ in range(2):  # built by the view, then from the kept answer
+        again = client.get(TODAY_URL, HTTP_IF_NONE_MATCH=first["ETag"])
+        assert again.status_code == 304 and again.content == b""
+    extra = WorkOrder.objects.create(organisation=world.a.org, ahu=world.a.ahu, due_date=DAY, title="Belt check")
+    work_order_assign(work_order=extra, assignee=world.a.tech, by=world.a.sup)
+    changed = client.get(TODAY_URL, HTTP_IF_NONE_MATCH=first["ETag"])
+    assert changed.status_code == 200 and changed["ETag"] != first["ETag"]
+    assert "Belt check" in today_titles(changed.json())
+    assert client.get(TODAY_URL, HTTP_IF_NONE_MATCH=changed["ETag"]).status_code == 304
+    assert world.b.today.get(TODAY_URL, HTTP_IF_NONE_MATCH=first["ETag"]).status_code == 200
