@@ -12,7 +12,7 @@ from django.utils import timezone
 
 from inspections import display
 from inspections.models import Evaluation, Finding, Inspection
-from inspections.reasons import text_without_subject
+from inspections.reasons import text_said_once
 from inspections.selectors import check_label, filter_series_for
 from inventory.models import Component, ComponentKind, Site
 from inventory.selectors import sites_visible_to
@@ -217,7 +217,8 @@ def result_for_display(*, result: dict | None, system: str, labels: dict | None 
             **e,
             "label": (label := (labels or {}).get((e.get("item"), e.get("component"))) or _check_words(e)),
             # The label names the part ("Pressure drop — Final filters"): the reason does not say it again.
-            "reason": text_without_subject(e.get("reason") or "", label.partition(" — ")[2]),
+            # …nor the item ("Fin condition — Heating coil: Clean", not "…: Fin condition: Clean").
+            "reason": text_said_once(e.get("reason") or "", label),
             "verdict_words": display.verdict_words(e.get("verdict")),
             "derived_display": display.derived_rows(e.get("derived") or {}, system, item=e.get("item") or ""),
             # The same values as sentences a technician reads, never "label: value; label: value".

@@ -156,3 +156,17 @@ def text_without_label_end(text: str, label: str) -> str:
     if sep and head and rest and label.lower().endswith(head.lower()):
         return rest
     return text
+
+
+def text_said_once(text: str, label: str) -> str:
+    """A reason under a line labelled "<item> — <part>" without what the label already says: a leading
+    "<part>: ", then a leading "<item>: " ("Fin condition — Heating coil" over "Fin condition: Clean" reads
+    "Clean"), and "confirmed: <item>" reads "confirmed". The phone's twin: checklist.js withoutPart."""
+    item, _, part = label.partition(" — ")
+    text = text_without_subject(text, part or None)
+    text = text_without_subject(text, item or None)
+    for lead in ("not confirmed: ", "confirmed: "):
+        if item and text.startswith(lead) and text[len(lead) :].startswith(item):
+            rest = text[len(lead) + len(item) :].lstrip(" :;,.")
+            return lead[:-2] + (f"; {rest}" if rest else "")
+    return text

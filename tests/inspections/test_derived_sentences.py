@@ -102,3 +102,37 @@ def test_how_the_airflow_was_found_reads_once():
     assert "Design airflow assumed (not measured)." in display.derived_text(
         {"airflow_source": assumed["airflow_source"]}, "si"
     )
+
+
+@pytest.mark.parametrize(
+    ("reason", "label", "shown"),
+    [
+        ("Fin condition: Clean", "Fin condition — Heating coil", "Clean"),
+        ("Heating coil: Fin condition: Clean", "Fin condition — Heating coil", "Clean"),
+        ("confirmed: Filters replaced and dated", "Filters replaced and dated — Pre-filters", "confirmed"),
+        ("Pre-filters: confirmed: Filters replaced and dated", "Filters replaced and dated — Pre-filters", "confirmed"),
+        ("not confirmed: Belt tension", "Belt tension", "not confirmed"),
+        ("supply air 7.0 °C is outside 2.0–6.0 °C", "Supply air", "supply air 7.0 °C is outside 2.0–6.0 °C"),
+    ],
+)
+def test_a_result_line_says_each_thing_once(reason, label, shown):
+    """Server and phone (checklist.js withoutPart) strip what the line's label already says."""
+    import json
+    import shutil
+    import subprocess
+    from pathlib import Path
+
+    from inspections.reasons import text_said_once
+
+    assert text_said_once(reason, label) == shown
+    js = Path(__file__).resolve().parents[2] / "frontend" / "static" / "frontend" / "js" / "checklist.js"
+    source = js.read_text()
+    start = source.index("function withoutLead(")
+    end = source.index("function captionOf(")
+    script = (
+        source[start:end] + f"\nconsole.log(JSON.stringify(withoutPart({json.dumps(reason)}, {json.dumps(label)})));"
+    )
+    node = shutil.which("node")
+    if node:
+        out = subprocess.run([node, "-e", script], capture_output=True, text=True, timeout=30, check=True).stdout
+        assert json.loads(out) == shown

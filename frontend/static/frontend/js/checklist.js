@@ -314,9 +314,22 @@ const SEVERITY_WORDS = { low: "Low", medium: "Medium", high: "High", critical: "
 
 // A reason without a leading "<part>: " when its label ("Pressure drop — Final filters") names the part already
 // (the twin of inspections/reasons.py text_without_subject).
+function withoutLead(text, lead) {
+  return lead && text.startsWith(`${lead}: `) && text.length > lead.length + 2 ? text.slice(lead.length + 2) : text;
+}
+
+// A reason under a line labelled "<item> — <part>" without what the label already says (the twin of
+// inspections/reasons.py text_said_once): "Fin condition: Clean" reads "Clean"; "confirmed: <item>" reads "confirmed".
 function withoutPart(reason, label) {
-  const part = (label || "").split(" — ")[1];
-  return part && reason.startsWith(`${part}: `) && reason.length > part.length + 2 ? reason.slice(part.length + 2) : reason;
+  const [item, part] = (label || "").split(" — ");
+  let text = withoutLead(withoutLead(reason, part), item);
+  for (const lead of ["not confirmed: ", "confirmed: "]) {
+    if (item && text.startsWith(lead) && text.slice(lead.length).startsWith(item)) {
+      const rest = text.slice(lead.length + item.length).replace(/^[ :;,.]+/, "");
+      return lead.slice(0, -2) + (rest ? `; ${rest}` : "");
+    }
+  }
+  return text;
 }
 
 function captionOf(block) {
