@@ -19,7 +19,7 @@ from inventory.demo import demo_registry_load
 from inventory.models import AHU, ComponentKind
 from scheduling.demo import ROUND_REF, demo_round_visit, demo_round_visit_due, demo_schedule_load
 from scheduling.models import WorkOrder
-from scheduling.selectors import assignment_check, person_today, site_today, today_visits_for
+from scheduling.selectors import assignment_check, person_today, site_today, today_visits_for, weekday_on_or_near
 from scheduling.services import (
     outdoor_temperatures_store,
     site_seasons_refresh,
@@ -140,7 +140,9 @@ def _round_today(*, organisation, today: dt.date) -> int:
     count = 0
     for tech in technicians:
         for n, ahu in enumerate(chosen.get(tech.pk, [])):
-            first_day = max(today, site_today(site=ahu.building.site))
+            # Technicians do not work weekends: loaded on a Saturday or Sunday, the round is Monday's.
+            site_day = max(today, site_today(site=ahu.building.site))
+            first_day = weekday_on_or_near(site_day, today=site_day)
             # A task the technician already has on this unit by then (the retest of a failed freeze test)
             # is not asked twice.
             held = set(
@@ -219,7 +221,7 @@ def _assign_upcoming(*, organisation, today: dt.date) -> int:
     for wo in open_orders:
         # The site's technician if the work fits their day (its due date, or today when overdue); else the
         # least-loaded technician with the skills if it fits theirs; else it waits on the board to be planned.
-        day = max(wo.due_date, today)
+        day = weekday_on_or_near(max(wo.due_date, today), today=today)
         check = assignment_check(work_order=wo, technician=owner[wo.ahu.building.site_id], day=day)
         if check.over or check.missing_skills:
             pick = check.suggestion
@@ -228,7 +230,9 @@ def _assign_upcoming(*, organisation, today: dt.date) -> int:
             person = pick[0]
         else:
             person = check.technician
-        work_order_assign(work_order=wo, assignee=person, by=supervisor)
+        wo = work_order_assign(work_order=wo, assignee=person, by=supervisor)
+        if day != (wo.scheduled_for or wo.due_date):  # due on a weekend: planned for the weekday offered
+            work_order_schedule(work_order=wo, day=day, by=supervisor)
         count += 1
     # A technician with nothing due yet gets the soonest visit on their sites (theirs already, or still
     # unassigned) planned for today, so every demo technician signs in to a round whatever the date.
@@ -252,6 +256,7 @@ def _assign_upcoming(*, organisation, today: dt.date) -> int:
             work_order_assign(work_order=soonest, assignee=tech, by=supervisor)
             count += 1
         # The site's own today: the service refuses a day already past there (after midnight in its zone).
-        day = max(today, site_today(site=soonest.ahu.building.site))
+        site_day = max(today, site_today(site=soonest.ahu.building.site))
+        day = weekday_on_or_near(site_day, today=site_day)
         work_order_schedule(work_order=soonest, day=day, by=supervisor)
     return count

@@ -399,6 +399,27 @@ def _route_km(points: dict[int, tuple[float, float]]) -> float:
     return sum(leg for _, _, leg in _route(points=points, start=None))
 
 
+WEEKEND = (5, 6)  # Saturday, Sunday (date.weekday())
+
+
+def capacity_on(user, day: dt.date) -> float:
+    """Hours of field work ``user`` has on ``day``: their daily capacity on a weekday; none on Saturday and
+    Sunday (a contractor's technicians do not work weekends) unless the person is marked as working weekends
+    (``works_weekends``; people without that setting do not). Work planned on a weekend then reads over."""
+    if day.weekday() in WEEKEND and not getattr(user, "works_weekends", False):
+        return 0.0
+    return float(user.daily_capacity_hours)
+
+
+def weekday_on_or_near(day: dt.date, *, today: dt.date) -> dt.date:
+    """The day to offer for work due on ``day``: the day itself on a weekday; on a Saturday or Sunday the Friday
+    before when that is not before ``today``, else the Monday after. The board and the New work page offer it."""
+    if day.weekday() not in WEEKEND:
+        return day
+    friday = day - dt.timedelta(days=day.weekday() - 4)
+    return friday if friday >= today else day + dt.timedelta(days=7 - day.weekday())
+
+
 def _day_load(*, day: dt.date, capacity: float, visits: list[tuple[int, int, tuple[float, float]]]) -> DayLoad:
     """``visits``: (minutes, site id, site position) per work order, first due first."""
     points: dict[int, tuple[float, float]] = {}
@@ -477,14 +498,13 @@ def technician_day_loads(
     extra = _visit_of(adding) if adding is not None and adding_day is not None else None
     out = []
     for user in _technicians_of(organisation):
-        capacity = float(user.daily_capacity_hours)
         per_day = []
         for k in range(days):
             d = start + dt.timedelta(days=k)
             todo = list(visits.get((user.pk, d), []))
             if extra is not None and d == adding_day:
                 todo.append(extra)
-            per_day.append(_day_load(day=d, capacity=capacity, visits=todo))
+            per_day.append(_day_load(day=d, capacity=capacity_on(user, d), visits=todo))
         out.append((user, per_day))
     return out
 
@@ -521,9 +541,7 @@ def suggested_technicians(*, organisation, days: dict[int, tuple[WorkOrder, dt.d
         candidates = [
             (
                 u,
-                _day_load(
-                    day=day, capacity=float(u.daily_capacity_hours), visits=[*visits.get((u.pk, day), []), extra]
-                ),
+                _day_load(day=day, capacity=capacity_on(u, day), visits=[*visits.get((u.pk, day), []), extra]),
             )
             for u in techs
             if needed <= set(u.skills or [])
@@ -618,7 +636,7 @@ def assignment_check(*, work_order: WorkOrder, technician, day: dt.date) -> Assi
     needed = skills_needed(work_order=work_order)
     chosen = next((load for user, (load,) in loads if user.pk == technician.pk), None)
     if chosen is None:  # not a technician of the organisation: the service refuses it in its own words
-        chosen = DayLoad(date=day, capacity_hours=float(technician.daily_capacity_hours))
+        chosen = DayLoad(date=day, capacity_hours=capacity_on(technician, day))
     suggestion = _least_loaded([(user, load) for user, (load,) in loads if needed <= set(user.skills or [])])
     return AssignmentCheck(
         technician=technician,
@@ -642,7 +660,7 @@ def board_suggestions(*, organisation, rows: list[dict], today: dt.date) -> list
     )
     days = {}
     for wo in orders:
-        day = wo.scheduled_for or max(wo.due_date, today)
+        day = wo.scheduled_for or weekday_on_or_near(max(wo.due_date, today), today=today)
         if date_problem(day, label="day", today=today) is None:
             days[wo.pk] = (wo, day)
     by_public = {wo.public_id: pk for pk, (wo, _) in days.items()}

@@ -33,7 +33,7 @@ from inspections.services.findings import finding_work_order_attach
 from inventory.models import AHU
 from inventory.selectors import sites_managed_by
 from scheduling.models import TaskDefinition, WorkOrder
-from scheduling.selectors import assignment_check, effective_tasks, site_today
+from scheduling.selectors import assignment_check, effective_tasks, site_today, weekday_on_or_near
 from scheduling.services.work_orders import (
     ONE_OFF_MINUTES,
     OneOffTask,
@@ -130,6 +130,12 @@ def _default_due(site, now: dt.datetime) -> tuple[str, str]:
     due = (local + dt.timedelta(hours=2)).replace(minute=0, second=0, microsecond=0)
     if due.date() != local.date() or due.hour >= 22:
         due = (local + dt.timedelta(days=1)).replace(hour=12, minute=0, second=0, microsecond=0)
+    # Technicians do not work weekends: a Saturday or Sunday moves to the Friday before, else the Monday after,
+    # at noon. The Friday before a weekend due day is never later than today here (the due day is at most
+    # tomorrow), and today's noon may be past, so that case is the Monday.
+    day = weekday_on_or_near(due.date(), today=local.date() + dt.timedelta(days=1))
+    if day != due.date():
+        return day.isoformat(), "12:00"
     return due.date().isoformat(), f"{due:%H:%M}"
 
 
@@ -262,6 +268,13 @@ def work_new(request):
         errors["unit"] = ["Unit: none chosen; allowed: one of the units listed, by site and building"]
         return render(
             request, "frontend/work/new.html", _context(request, ahu=None, values=post, errors=errors, org=org)
+        )
+    if post.get("back"):
+        # "Back to change it" from the confirm page: the form again with everything as it was typed.
+        return render(
+            request,
+            "frontend/work/new.html",
+            _context(request, ahu=ahu, values=post, errors={}, finding=finding, org=org),
         )
     site = ahu.building.site
     due_by = _due_by(post, site, errors)

@@ -1,6 +1,7 @@
 """The supervisor's board: a day for each visit beside its technician, and the load table that follows it."""
 
 import datetime as dt
+import re
 
 import pytest
 import time_machine
@@ -218,3 +219,47 @@ def test_plan_work_now_names_the_new_visits_and_links_to_the_week_of_the_first(s
     many = made * 6
     words = new_visits_words(many)
     assert words.count(" — ") == NAMED_VISITS and words.endswith(f"and {len(many) - NAMED_VISITS} more.")
+
+
+def test_weekends_have_no_capacity_and_weekend_work_is_offered_the_friday_before(scenario, login):
+    """Technicians do not work weekends (no person here is marked otherwise): the load table gives Saturday and
+    Sunday 0 h and says so; work due Saturday 8 March is offered Friday 7 March; assigning it for the Saturday
+    anyway is warned as over capacity, and "Back to change it" brings the row back with the technician and the
+    day chosen."""
+    wo = make_work(ahu=scenario.unit_a, title="Weekend check", due=dt.date(2025, 3, 8))
+    add_task(wo, "filter_replace", scenario.unit_a.components.get(name="Final filters"))
+    client = login(scenario.supervisor)
+    with time_machine.travel(dt.datetime(2025, 3, 5, 10, tzinfo=dt.UTC), tick=False):
+        response = client.get("/board/")
+        html = response.content.decode()
+        assert f'id="plan-{wo.public_id}" name="scheduled_for" value="2025-03-07"' in html
+        assert "Saturday and Sunday have no capacity" in html
+        (row,) = [r for r in response.context["load"] if r["technician"] == scenario.technician]
+        capacity = {d["date"]: d["capacity_hours"] for d in row["days"]}
+        assert capacity[dt.date(2025, 3, 8)] == 0 and capacity[dt.date(2025, 3, 9)] == 0
+        assert capacity[dt.date(2025, 3, 7)] == float(scenario.technician.daily_capacity_hours)
+        confirm = client.post(
+            reverse("frontend:assign", kwargs={"public_id": wo.public_id}),
+            {"assignee": scenario.technician.pk, "version": wo.version, "scheduled_for": "2025-03-08", "week": ""},
+        )
+        page = confirm.content.decode()
+        assert "Over capacity" in page and "over the capacity of 0.0 h a day" in page
+        assert WorkOrder.objects.get(pk=wo.pk).assignee_id is None
+        back = re.search(r'href="([^"]+)" data-back-to-change>Back to change it', page)[1].replace("&amp;", "&")
+        again = client.get(back).content.decode()
+    assert f'id="plan-{wo.public_id}" name="scheduled_for" value="2025-03-08"' in again
+    select = again.split(f'id="assign-{wo.public_id}"')[1].split("</select>")[0]
+    assert f'<option value="{scenario.technician.pk}" selected>' in select
+
+
+def test_the_day_offered_for_weekend_work_already_past_its_friday_is_the_monday_after(scenario, login):
+    """On Saturday 8 March, work due Sunday 9 March is offered Monday 10 March (its Friday is past)."""
+    from scheduling.selectors import weekday_on_or_near
+
+    assert weekday_on_or_near(dt.date(2025, 3, 9), today=dt.date(2025, 3, 8)) == dt.date(2025, 3, 10)
+    assert weekday_on_or_near(dt.date(2025, 3, 9), today=dt.date(2025, 3, 7)) == dt.date(2025, 3, 7)
+    assert weekday_on_or_near(dt.date(2025, 3, 6), today=dt.date(2025, 3, 5)) == dt.date(2025, 3, 6)
+    with time_machine.travel(dt.datetime(2025, 3, 8, 10, tzinfo=dt.UTC), tick=False):
+        wo = make_work(ahu=scenario.unit_a, title="Sunday check", due=dt.date(2025, 3, 9))
+        html = login(scenario.supervisor).get("/board/?week=2025-03-03").content.decode()
+    assert f'id="plan-{wo.public_id}" name="scheduled_for" value="2025-03-10"' in html

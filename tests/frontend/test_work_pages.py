@@ -306,3 +306,25 @@ def test_the_technicians_form_shows_the_safety_box_of_the_chosen_tasks(desk, wor
     assert "Office on level 2 too warm" in page and LOCKOUT[:40] in page
     page = desk.get(reverse("frontend:checklist", args=[frost.public_id])).content.decode()
     assert "Check freeze protection before tonight" in page and ELECTRIC[:40] in page
+
+
+def test_back_to_change_it_from_the_confirm_page_keeps_what_was_typed(desk, world):
+    """The over-capacity page offers "Back to change it": the form comes back with the words, the day, the task
+    and the technician as typed, and nothing is saved."""
+    import re
+
+    html = desk.post(NEW, callout(world)).content.decode()
+    back_form = html.split("data-back-to-change>")[1].split("</form>")[0]
+    assert "Back to change it" in back_form
+    fields = re.findall(r'<input type="hidden" name="([^"]+)" value="([^"]*)">', back_form)
+    data: dict[str, list[str]] = {}
+    for k, v in fields:
+        data.setdefault(k, []).append(v)
+    assert data["back"] == ["1"] and data["assignee"] == [str(world.tess.pk)] and "confirm" not in data
+    page = desk.post(NEW, data)
+    form = page.content.decode()
+    assert page.status_code == 200 and 'name="title"' in form
+    assert 'value="Office on level 2 too warm"' in form and 'value="14:00"' in form and 'value="120"' in form
+    assert f'<option value="{world.tess.pk}" selected' in form
+    assert "data-over-capacity" not in form
+    assert not WorkOrder.objects.filter(kind="call_out").exists()
