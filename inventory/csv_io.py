@@ -36,14 +36,25 @@ from dataclasses import asdict, dataclass
 from typing import Any, TextIO
 
 from defusedcsv import csv as defused_csv
-from django.core.exceptions import NON_FIELD_ERRORS, ValidationError
+from django.core.exceptions import NON_FIELD_ERRORS, FieldDoesNotExist, ValidationError
+from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import IntegrityError, transaction
 from django.db.models import QuerySet
 
 from accounts.changes import organisation_changed
+from accounts.inputs import (
+    INT16_MAX,
+    equipment_date_problem,
+    equipment_date_window,
+    number_allowed,
+    number_problem,
+    shown,
+    text_problem,
+)
 from accounts.models import Organisation
 
-from .models import AHU, Building, Component, Site, new_component_code, new_unit_code
+from .inputs import AHU_DATES, AHU_NUMBERS, AHU_TEXTS, COMPONENT_DATES, COMPONENT_TEXTS, PLANNED_DATES
+from .models import AHU, Building, Component, ComponentKind, Site, new_component_code, new_unit_code
 from .selectors import component_tree
 from .services import component_full_clean
 from .specs import SPECS
@@ -158,12 +169,22 @@ def _twelve(raw: str) -> list[float] | None:
     return values
 
 
+# Exported numbers keep 12 significant digits: far finer than any measurement, and coarse enough to drop the
+# float noise of a unit conversion (2400 L/s is 2.4 m³/s, not 2.4000000000000004), so a round trip is unchanged.
+EXPORT_DIGITS = 12
+
+
+def _rounded(value: float) -> float:
+    return float(f"{value:.{EXPORT_DIGITS}g}") if math.isfinite(value) else value
+
+
 def _fmt(value: Any) -> str:
     if value is None:
         return ""
     if isinstance(value, bool):
         return "true" if value else "false"
     if isinstance(value, float):
+        value = _rounded(value)
         return repr(int(value)) if value.is_integer() else repr(value)
     if isinstance(value, (dt.date, dt.datetime)):
         return value.isoformat()
@@ -213,7 +234,12 @@ AHU_COLUMNS: list[Column] = [
 ]
 
 COMPONENT_KEY = ["site_code", "building_code", "ahu_tag", "name", "kind", "parent", "position", "installed_on",
-                 "label_code"]  # fmt: skip
+                 "retired_on", "label_code"]  # fmt: skip
+COMPONENT_COLUMNS: list[Column] = [
+    ("position", "position", _int),
+    ("installed_on", "installed_on", _date),
+    ("retired_on", "retired_on", _date),
+]
 SPEC_COLUMNS = sorted({f"spec.{f.name}" for fields in SPECS.values() for f in fields})
 
 # Which column a model field's error belongs to.
@@ -281,8 +307,10 @@ def _out(value: Any) -> Any:
         if text[:1] in ("\t", "\r") or _is_marked(text):
             return TEXT_MARK + text
         return text
-    if isinstance(value, float) and value.is_integer():
-        return int(value)
+    if isinstance(value, float):
+        value = _rounded(value)
+        if value.is_integer():
+            return int(value)
     return value
 
 
@@ -343,6 +371,7 @@ def _export_rows(kind: str, sites: QuerySet[Site]) -> Iterable[dict[str, Any]]:
                 "parent": _out(names.get(comp.parent_id, "")),
                 "position": _out(comp.position),
                 "installed_on": _out(comp.installed_on),
+                "retired_on": _out(comp.retired_on),
                 "label_code": _out(comp.label_code),
             }
             row.update({f"spec.{k}": _out(v) for k, v in comp.specs.items()})
@@ -507,42 +536,228 @@ class _RowProblems(Exception):
 
 
 def _validation_errors(exc: ValidationError, row: dict[str, str], line: int) -> list[RowError]:
+    return [RowError(line, col, row.get(col, ""), reason) for col, reason in _plain_model_errors(exc, None, row)]
+
+
+# ---------------------------------------------------------------------------
+# Plain words: each cell's problem names the field, the value and what is allowed, with its unit
+# (the input policy's wording, accounts.inputs and inventory.inputs, as the registry's page forms say it).
+# ---------------------------------------------------------------------------
+LABELS = {
+    "code": "Site code",
+    "altitude_m": "Altitude",
+    "time_zone": "Time zone",
+    "normals_min_c": "Monthly mean daily minimums",
+    "normals_max_c": "Monthly mean daily maximums",
+    "preheat_threshold_c": "Freeze-season threshold",
+    "cooling_threshold_c": "Cooling-season threshold",
+    "client": "Client",
+    "site_code": "Site code",
+    "building_code": "Building code",
+    "building_name": "Building name",
+    "building_floors": "Building floors",
+    "floors": "Building floors",
+    "ahu_tag": "Unit tag",
+    "space_kind": "Kind of space served",
+    "full_outdoor_air": "100 % outdoor air",
+    "ventilation_zones": "Zones served",
+    "air_distribution": "Air distribution",
+    "heat_recovery": "Heat recovery",
+    "status": "Status",
+    "kind": "Kind of part",
+    "parent": "Parent part",
+    "position": "Position along the airstream",
+    "retired_on": "Retired on",
+    "label_code": "Label code",
+}
+KEY_ALLOWED = {
+    "code": "a short code of letters, digits, - and _",
+    "name": "text",
+    "site_code": "the code of one of your sites",
+    "building_code": "the building's code within its site",
+    "tag": "the unit's tag as painted on it",
+    "ahu_tag": "the tag of a unit in that building",
+    "kind": "one of " + ", ".join(ComponentKind.values),
+}
+UNIT_OF_SUFFIX = (("_m3s", "m³/s"), ("_m2", "m²"), ("_pa", "Pa"), ("_c", "°C"), ("_m", "m"))
+WHOLE_RANGES = {"position": (0, INT16_MAX), "floors": (0, INT16_MAX), "design_occupants": (0, 100_000)}
+BOOL_ALLOWED = "true or false (yes/no and 1/0 are read too)"
+
+
+def _label(model, attr: str) -> str:
+    if model is AHU and attr in AHU_NUMBERS:
+        return AHU_NUMBERS[attr].label
+    for table in (AHU_DATES, COMPONENT_DATES):
+        if attr in table:
+            return table[attr]
+    for table in (AHU_TEXTS, COMPONENT_TEXTS):
+        if attr in table:
+            return table[attr][0]
+    if attr in LABELS:
+        return LABELS[attr]
+    try:
+        name = str(model._meta.get_field(attr).verbose_name)
+    except FieldDoesNotExist:  # a column that is no model field keeps its own name
+        name = attr.replace("_", " ")
+    return name[:1].upper() + name[1:]
+
+
+def _number_range(model, attr: str) -> tuple[float | None, float | None, str]:
+    """The number's allowed range and unit: the input policy's table, else the field's own validators."""
+    if model is AHU and attr in AHU_NUMBERS:
+        r = AHU_NUMBERS[attr]
+        return r.minimum, r.maximum, r.unit
+    lo = hi = None
+    if attr in WHOLE_RANGES:
+        lo, hi = WHOLE_RANGES[attr]
+    else:
+        for validator in model._meta.get_field(attr)._validators:
+            if isinstance(validator, MinValueValidator):
+                lo = validator.limit_value
+            elif isinstance(validator, MaxValueValidator):
+                hi = validator.limit_value
+    unit = "°" if attr in {"latitude", "longitude"} else next((u for s, u in UNIT_OF_SUFFIX if attr.endswith(s)), "")
+    if attr == "design_occupants":
+        unit = "people"
+    return lo, hi, unit
+
+
+def _allowed(model, attr: str, parser=None) -> str:
+    if attr in KEY_ALLOWED and parser is None:
+        return KEY_ALLOWED[attr]
+    try:
+        field = model._meta.get_field(attr)
+    except FieldDoesNotExist:
+        field = None
+    if field is not None and field.choices:
+        return "one of " + ", ".join(str(value) for value, _ in field.choices)
+    if parser is _twelve or attr in {"normals_min_c", "normals_max_c"}:
+        return f"12 numbers in °C separated by '{LIST_SEPARATOR}', January first"
+    if parser is _bool:
+        return BOOL_ALLOWED
+    if parser is _date or (field is not None and field.get_internal_type() == "DateField"):
+        earliest, latest = equipment_date_window(today=_today(), planned=attr in PLANNED_DATES)
+        return f"a date as YYYY-MM-DD from {earliest.isoformat()} to {latest.isoformat()}"
+    if parser in (_float, _int) or (parser is None and field is not None and _is_number(model, attr)):
+        lo, hi, unit = _number_range(model, attr)
+        if lo is not None and hi is not None:
+            if parser is _int:
+                return f"a whole number from {lo:g} to {hi:g}{f' {unit}' if unit else ''}"
+            return number_allowed(minimum=lo, maximum=hi, unit=unit)
+        if lo is not None:
+            return f"a number of at least {lo:g}{f' {unit}' if unit else ''}"
+        return "a number" if parser is _float else "a whole number"
+    if field is not None and getattr(field, "max_length", None):
+        return f"text of at most {field.max_length} characters"
+    return "text"
+
+
+def _today() -> dt.date:
+    from django.utils import timezone
+
+    return timezone.localdate()
+
+
+def _cell(model, column: str, attr: str, parser, raw: str) -> tuple[Any, str | None]:
+    """The cell's typed value, or None with what is wrong in plain words."""
+    label, text = _label(model, attr), raw.strip()
+    field = model._meta.get_field(attr)
+    if parser in (_opt_text, _text) and field.choices:
+        if text and text not in {str(v) for v, _ in field.choices}:
+            return None, f"{label}: {shown(text)} is not one of the choices; allowed: {_allowed(model, attr)}"
+        return parser(raw), None
+    try:
+        value = parser(raw)
+    except CellError as exc:
+        if parser is _twelve:
+            return None, f"{label}: {exc}; allowed: {_allowed(model, attr, parser)}"
+        reason = {_date: "is not a date", _bool: "is not true or false"}.get(parser, str(exc))
+        return None, f"{label}: {shown(text)} {reason}; allowed: {_allowed(model, attr, parser)}"
+    if value is None:
+        return None, None
+    if parser in (_float, _int):
+        lo, hi, unit = _number_range(model, attr)
+        if lo is not None and hi is not None:
+            problem = number_problem(value, label=label, minimum=lo, maximum=hi, unit=unit)
+            if problem and parser is _int:
+                problem = f"{label}: {value} is out of range; allowed: {_allowed(model, attr, parser)}"
+            return (None, problem) if problem else (value, None)
+    if parser is _date:
+        problem = equipment_date_problem(value, label=label, today=_today(), planned=attr in PLANNED_DATES)
+        return (None, problem[:1].upper() + problem[1:]) if problem else (value, None)
+    if isinstance(value, str) and getattr(field, "max_length", None):
+        problem = text_problem(value, label=label, max_length=field.max_length, lines=True)
+        return (None, problem) if problem else (value, None)
+    return value, None
+
+
+def _plain_model_errors(exc: ValidationError, model, row: dict[str, str]) -> list[tuple[str, str]]:
+    """The model's refusals as (column, plain reason); Django's stock wording replaced by the policy's."""
     found = []
-    messages = exc.message_dict if hasattr(exc, "error_dict") else {NON_FIELD_ERRORS: exc.messages}
-    for model_field, texts in messages.items():
-        if model_field.startswith("specs."):
-            column = "spec." + model_field.removeprefix("specs.")
+    errors = exc.error_dict if hasattr(exc, "error_dict") else {NON_FIELD_ERRORS: exc.error_list}
+    for field_name, items in errors.items():
+        if field_name.startswith("specs."):
+            column = "spec." + field_name.removeprefix("specs.")
         else:
-            column = FIELD_TO_COLUMN.get(model_field, model_field)
-        for text in texts:
-            found.append(RowError(line, column, row.get(column, ""), text))
+            column = FIELD_TO_COLUMN.get(field_name, field_name)
+        for item in items:
+            for error in item.error_list if hasattr(item, "error_list") else [item]:
+                found.append((column, _plain(model, field_name, error, row.get(column, ""))))
     return found
 
 
-def _parse(row: dict[str, str], columns: list[Column], model) -> dict[str, Any]:
-    """Typed values of the row's cells; an empty cell clears a nullable field and keeps others' defaults."""
-    values, problems = {}, []
+def _plain(model, attr: str, error: ValidationError, raw: str) -> str:
+    text = " ".join(error.messages)
+    if model is None or attr.startswith("specs") or attr == NON_FIELD_ERRORS:
+        return text
+    try:
+        model._meta.get_field(attr)
+    except FieldDoesNotExist:
+        return text
+    label = _label(model, attr)
+    if error.code in {"null", "blank", "required"}:
+        return f"{label} is required; allowed: {_allowed(model, attr)}"
+    if error.code == "invalid_choice":
+        return f"{label}: {shown(raw.strip())} is not one of the choices; allowed: {_allowed(model, attr)}"
+    if error.code in {"min_value", "max_value"}:
+        lo, hi, unit = _number_range(model, attr)
+        allowed = number_allowed(minimum=lo, maximum=hi, unit=unit) if None not in (lo, hi) else str(text)
+        return f"{label}: {raw.strip()}{f' {unit}' if unit else ''} is out of range; allowed: {allowed}"
+    if error.code == "max_length":
+        return f"{label}: {len(raw.strip())} characters is too long; allowed: {_allowed(model, attr)}"
+    return text if text.startswith(label) else f"{label}: {text}"
+
+
+def _is_number(model, attr: str) -> bool:
+    return model._meta.get_field(attr).get_internal_type() in {
+        "FloatField", "IntegerField", "PositiveIntegerField", "PositiveSmallIntegerField", "DecimalField"
+    }  # fmt: skip
+
+
+def _parse(row: dict[str, str], columns: list[Column], model, problems: list[tuple[str, str]]) -> dict[str, Any]:
+    """Typed values of the row's readable cells (an empty cell clears a nullable field and keeps others'
+    defaults); every unreadable cell's problem is added to ``problems``."""
+    values = {}
     for column, attr, parser in columns:
         if column not in row:
             continue
-        try:
-            value = parser(row[column])
-        except CellError as exc:
-            problems.append((column, str(exc)))
+        value, problem = _cell(model, column, attr, parser, row[column])
+        if problem:
+            problems.append((column, problem))
             continue
         if value is not None:
             values[attr] = value
         elif model._meta.get_field(attr).null:
             values[attr] = None
-    if problems:
-        raise _RowProblems(problems)
     return values
 
 
-def _require(row: dict[str, str], columns: list[str]) -> None:
-    missing = [(c, "required; this cell is empty") for c in columns if not row.get(c, "").strip()]
-    if missing:
-        raise _RowProblems(missing)
+def _required(row: dict[str, str], columns: list[str]) -> list[tuple[str, str]]:
+    return [
+        (c, f"{LABELS.get(c, c.replace('_', ' ').capitalize())} is required; allowed: {KEY_ALLOWED.get(c, 'text')}")
+        for c in columns
+        if not row.get(c, "").strip()
+    ]
 
 
 # Relations the plan sets itself from records it has read; their existence needs no query per row.
@@ -601,12 +816,21 @@ class _Plan:
             self._load_components()
 
     # -- lookups --------------------------------------------------------------
-    def site(self, code: str, column: str = "site_code") -> Site:
+    def site(self, code: str, problems: list[tuple[str, str]], column: str = "site_code") -> Site | None:
+        """The organisation's site of ``code``, or None with the problem said (and the codes there are)."""
         site = self.sites.get(code)
         if site is None or site.pk is None:
-            raise _RowProblems(
-                [(column, f"no site with this code in {self.organisation.slug}; import the sites first")]
+            codes = sorted(c for c, s in self.sites.items() if s.pk is not None)
+            listed = ", ".join(codes[:20]) + (f" and {len(codes) - 20} more" if len(codes) > 20 else "")
+            problems.append(
+                (
+                    column,
+                    f"Site code: no site with code {shown(code)} in your organisation; "
+                    + (f"your site codes: {listed}" if codes else "your organisation has no sites yet")
+                    + " (import the sites first)",
+                )
             )
+            return None
         return site
 
     def _load_components(self) -> None:
@@ -626,19 +850,47 @@ class _Plan:
         if not code or (instance.pk and instance.label_code == code):
             return {}
         if instance.pk:
-            raise _RowProblems([("label_code", f"this row's record already has label {instance.label_code}")])
+            raise _RowProblems(
+                [
+                    (
+                        "label_code",
+                        f"Label code: this row's record already has label {instance.label_code}; "
+                        f"allowed: {instance.label_code} or empty",
+                    )
+                ]
+            )
         if self.labelled.get(code) is instance:
             return {}
         if code in self.labels_in_use or code in self.labelled:
-            raise _RowProblems([("label_code", "this label code belongs to another record")])
+            raise _RowProblems(
+                [("label_code", f"Label code: {shown(code)} belongs to another record; allowed: a free code or empty")]
+            )
         return {"label_code": code}
 
     # -- staging --------------------------------------------------------------
-    def stage(self, instance, values: dict[str, Any]) -> None:
-        """Apply ``values`` and check the record; remember it for the write. Raises ValidationError."""
+    def check(self, instance, values: dict[str, Any], problems: list[tuple[str, str]]) -> None:
+        """Apply ``values`` and add the record's own refusals to ``problems``, but for columns already refused
+        (one problem per cell; the cross-field rules still speak about the readable ones)."""
         for attr, value in values.items():
             setattr(instance, attr, value)
-        _model_clean(instance)
+        said = {column for column, _ in problems}
+        try:
+            _model_clean(instance)
+        except ValidationError as exc:
+            for column, reason in _plain_model_errors(exc, type(instance), {}):
+                if column not in said:
+                    problems.append((column, reason))
+
+    def stage(self, instance, values: dict[str, Any]) -> None:
+        """Apply ``values`` and check the record; remember it for the write. Raises _RowProblems."""
+        problems: list[tuple[str, str]] = []
+        self.check(instance, values, problems)
+        if problems:
+            raise _RowProblems(problems)
+        self.remember(instance, values)
+
+    def remember(self, instance, values: dict[str, Any]) -> None:
+        """Keep a checked record for the write."""
         if "label_code" in values:
             self.labelled[values["label_code"]] = instance
         if instance.pk is None:
@@ -714,89 +966,145 @@ def _key_cells(text: str, kind: str) -> dict[str, set[str]]:
 
 
 def _check_site(row: dict[str, str], plan: _Plan) -> bool:
-    _require(row, ["code", "name"])
-    values = _parse(row, SITE_COLUMNS, Site)
+    problems = _required(row, ["code", "name"])
+    values = _parse(row, SITE_COLUMNS, Site, problems)
     client_slug = row.get("client", "").strip()
     values["client"] = None
     if client_slug:
         values["client"] = plan.clients.get(client_slug)
         if values["client"] is None:
-            raise _RowProblems([("client", "no organisation has this slug")])
-    site = plan.sites.get(values["code"])
+            problems.append(("client", f"Client: no organisation has the slug {shown(client_slug)}; allowed: "
+                                       "the slug of a client organisation, or empty"))  # fmt: skip
+    code = row.get("code", "").strip()
+    site = plan.sites.get(code) if code else None
     created = site is None
     site = site or Site(organisation=plan.organisation)
-    plan.stage(site, values)
+    plan.check(site, values, problems)
+    if problems:
+        raise _RowProblems(problems)
+    plan.remember(site, values)
     plan.sites[site.code] = site
     return created
 
 
 def _check_ahu(row: dict[str, str], plan: _Plan) -> bool:
-    _require(row, ["site_code", "building_code", "tag"])
-    site = plan.site(row["site_code"].strip())
-    problems = []
-    try:
-        floors = _int(row.get("building_floors", ""))
-    except CellError as exc:
-        problems.append(("building_floors", str(exc)))
-        floors = None
-    try:
-        values = _parse(row, AHU_COLUMNS, AHU)
-    except _RowProblems as exc:
-        problems.extend(exc.problems)
-    if problems:
-        raise _RowProblems(problems)
-    code, tag = row["building_code"].strip(), row["tag"].strip()
-    building = plan.buildings.get((site.pk, code))
+    problems = _required(row, ["site_code", "building_code", "tag"])
+    site_code = row.get("site_code", "").strip()
+    site = plan.site(site_code, problems) if site_code else None
+    floors = None
+    if "building_floors" in row:
+        floors, problem = _cell(Building, "building_floors", "floors", _int, row["building_floors"])
+        if problem:
+            problems.append(("building_floors", problem))
+    values = _parse(row, AHU_COLUMNS, AHU, problems)
+    code, tag = row.get("building_code", "").strip(), row.get("tag", "").strip()
     name = row.get("building_name", "").strip()
+    if site is None or not code or not tag:
+        # Nothing to file it under: the row's own values are still checked, so every problem is said at once.
+        ahu = AHU(tag=tag)
+        plan.check(ahu, values, problems)
+        raise _RowProblems(problems)
+    building = plan.buildings.get((site.pk, code))
     if building is None:
         building = Building(site=site, code=code, name=name or code, floors=floors)
-        _building_stage(plan, building, {})
+        _building_stage(plan, building, {}, problems)
         plan.buildings[(site.pk, code)] = building
     elif name and (building.name != name or building.floors != floors):
-        _building_stage(plan, building, {"name": name, "floors": floors})
+        _building_stage(plan, building, {"name": name, "floors": floors}, problems)
     ahu = plan.ahus.get((site.pk, code, tag))
     created = ahu is None
     ahu = ahu or AHU(building=building, tag=tag)
-    values.update(plan.label(row, ahu))
-    plan.stage(ahu, values)
+    try:
+        values.update(plan.label(row, ahu))
+    except _RowProblems as exc:
+        problems.extend(exc.problems)
+    plan.check(ahu, values, problems)
+    if problems:
+        raise _RowProblems(problems)
+    plan.remember(ahu, values)
     plan.ahus[(site.pk, code, tag)] = ahu
     return created
 
 
-def _building_stage(plan: _Plan, building: Building, values: dict[str, Any]) -> None:
-    try:
-        plan.stage(building, values)
-    except ValidationError as exc:
-        raise _RowProblems([(f"building_{k}", " ".join(v)) for k, v in exc.message_dict.items()]) from None
+def _building_stage(plan: _Plan, building: Building, values: dict[str, Any], problems: list) -> None:
+    found: list[tuple[str, str]] = []
+    plan.check(building, values, found)
+    if found:
+        problems.extend((f"building_{c}" if not c.startswith("building_") else c, r) for c, r in found)
+    else:
+        plan.remember(building, values)
 
 
 def _check_component(row: dict[str, str], plan: _Plan) -> bool:
-    _require(row, ["site_code", "building_code", "ahu_tag", "name", "kind"])
-    site = plan.site(row["site_code"].strip())
-    ahu = plan.ahus.get((site.pk, row["building_code"].strip(), row["ahu_tag"].strip()))
-    if ahu is None:
-        raise _RowProblems([("ahu_tag", "no unit with this tag in that building; import the units first")])
-    values = _parse(row, [("position", "position", _int), ("installed_on", "installed_on", _date)], Component)
-    values["kind"] = row["kind"].strip()
-    values["name"] = row["name"].strip()
+    problems = _required(row, ["site_code", "building_code", "ahu_tag", "name", "kind"])
+    site_code = row.get("site_code", "").strip()
+    site = plan.site(site_code, problems) if site_code else None
+    building_code, tag = row.get("building_code", "").strip(), row.get("ahu_tag", "").strip()
+    ahu = None
+    if site is not None and building_code and tag:
+        ahu = plan.ahus.get((site.pk, building_code, tag))
+        if ahu is None:
+            tags = sorted(t for (s, b, t) in plan.ahus if s == site.pk and b == building_code)
+            problems.append(
+                (
+                    "ahu_tag",
+                    f"Unit tag: no unit {shown(tag)} in building {shown(building_code)} of site {shown(site_code)}; "
+                    + (f"units there: {', '.join(tags[:20])}" if tags else "that building has no units yet")
+                    + " (import the units first)",
+                )
+            )
+    values = _parse(row, COMPONENT_COLUMNS, Component, problems)
+    installed, retired = values.get("installed_on"), values.get("retired_on")
+    if installed and retired and retired < installed:
+        problems.append(
+            (
+                "retired_on",
+                f"Retired on: {retired.isoformat()} is before installed on {installed.isoformat()}; "
+                "allowed: the day it was installed or later, or empty",
+            )
+        )
+    kind = row.get("kind", "").strip()
+    if kind and kind not in ComponentKind.values:
+        problems.append(
+            ("kind", f"Kind of part: {shown(kind)} is not one of the choices; allowed: {KEY_ALLOWED['kind']}")
+        )
+    values["kind"] = kind
+    values["name"] = row.get("name", "").strip()
     values["specs"] = {
         col.removeprefix("spec."): cell.strip() for col, cell in row.items() if col.startswith("spec.") and cell.strip()
     }
+    if ahu is None:
+        plan.check(Component(), values, problems)
+        raise _RowProblems(problems)
     named = plan.components.setdefault(ahu.pk, {})
     parent_name = row.get("parent", "").strip()
     values["parent"] = None
     if parent_name:
         parents = named.get(parent_name)
         if not parents:
-            raise _RowProblems([("parent", "no component of this name in the unit on an earlier line")])
-        values["parent"] = parents[0]
-    matches = named.get(values["name"], [])
+            problems.append(
+                (
+                    "parent",
+                    f"Parent part: no part named {shown(parent_name)} in unit {ahu.tag} on an earlier line or in the "
+                    "registry; allowed: the name of a part of the same unit, or empty",
+                )
+            )
+        else:
+            values["parent"] = parents[0]
+    matches = named.get(values["name"], []) if values["name"] else []
     if len(matches) > 1:
-        raise _RowProblems([("name", "the unit has two components of this name; rename one first")])
+        problems.append(("name", f"Name: unit {ahu.tag} has two parts named {shown(values['name'])}; rename one first"))
+        matches = []
     component = matches[0] if matches else Component(ahu=ahu)
     created = not matches
-    values.update(plan.label(row, component))
-    plan.stage(component, values)
+    try:
+        values.update(plan.label(row, component))
+    except _RowProblems as exc:
+        problems.extend(exc.problems)
+    plan.check(component, values, problems)
+    if problems:
+        raise _RowProblems(problems)
+    plan.remember(component, values)
     if created:
         named.setdefault(values["name"], []).append(component)
     return created

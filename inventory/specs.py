@@ -12,7 +12,7 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
-from accounts.inputs import control_characters
+from accounts.inputs import control_characters, shown
 
 
 @dataclass(frozen=True)
@@ -195,7 +195,7 @@ def _coerce(spec: SpecField, raw: Any) -> Any:
     if spec.kind == "choice":
         value = str(raw).strip()
         if value not in spec.choices:
-            raise ValueError("is not an allowed choice")
+            raise ValueError("is not one of the choices")
         return value
     if spec.kind == "date":
         if isinstance(raw, dt.date):
@@ -244,38 +244,59 @@ def validate_specs(*, kind: str, specs: dict[str, Any] | None) -> dict[str, Any]
         raw = specs.get(name)
         if raw is None or raw == "":
             if spec.required:
-                errors[name] = f"{spec.label} ({name}) is required for a {kind}; expected {spec.allowed()}"
+                errors[name] = f"{spec.label} is required for this part; allowed: {spec.allowed()}"
             continue
         try:
             cleaned[name] = _coerce(spec, raw)
         except ValueError as exc:
-            errors[name] = f"{spec.label} ({name})={raw!r} {exc}; allowed: {spec.allowed()}"
-    if not errors:
-        errors.update(_cross_checks(kind, cleaned))
+            errors[name] = f"{spec.label}: {_said(spec, raw, str(exc))} {exc}; allowed: {spec.allowed()}"
+    # The cross-field rules run on the fields that could be read, so a row's every problem is said at once.
+    given = {k for k, v in specs.items() if v not in (None, "")}
+    for key, message in _cross_checks(kind, cleaned, given=given).items():
+        errors.setdefault(key, message)
     if errors:
         raise SpecErrors(errors)
     return cleaned
 
 
-def _cross_checks(kind: str, s: dict[str, Any]) -> dict[str, str]:
+def _said(spec: SpecField, raw: Any, reason: str) -> str:
+    """The value as a message shows it: a number out of range with its unit (300 Pa), anything else as typed."""
+    if reason == "is out of range":
+        number = f"{float(raw):g}" if isinstance(raw, str) else shown(raw)
+        return f"{number} {spec.unit}" if spec.unit else number
+    return shown(raw)
+
+
+def _cross_checks(kind: str, s: dict[str, Any], *, given: set[str] | None = None) -> dict[str, str]:
+    """Rules between fields, each checked when the fields it needs were read (``s`` holds the readable ones;
+    ``given`` names every field the person filled in, readable or not)."""
+    given = set(s) if given is None else given
     errors: dict[str, str] = {}
     if kind == "filter_bank":
-        if s["final_dp_pa"] <= s["clean_dp_pa"]:
+        if "final_dp_pa" in s and "clean_dp_pa" in s and s["final_dp_pa"] <= s["clean_dp_pa"]:
             errors["final_dp_pa"] = (
-                f"final pressure drop final_dp_pa={s['final_dp_pa']:g} Pa must be above the clean pressure drop "
-                f"clean_dp_pa={s['clean_dp_pa']:g} Pa"
+                f"Final (change) pressure drop: {s['final_dp_pa']:g} Pa is not above the clean (initial) pressure "
+                f"drop of {s['clean_dp_pa']:g} Pa; allowed: a final pressure drop above the clean filter's"
             )
-        if "merv" not in s and "iso_16890" not in s:
-            errors["merv"] = "give a MERV class (merv) or an ISO 16890 group (iso_16890), or both"
-    if kind == "coil":
+        if "merv" not in given and "iso_16890" not in given:
+            errors["merv"] = "MERV class or ISO 16890 group: neither is given; allowed: one of them, or both"
+    if kind == "coil" and "fluid" in s:
         errors.update(_coil_fluid_checks(s))
-    if kind == "sensor":
+    if kind == "sensor" and "measures" in s:
         lo, hi, unit = SENSOR_PLAUSIBLE[s["measures"]]
+        labels = {f.name: f.label for f in SPECS[kind]}
         for key in ("range_low", "range_high"):
             if key in s and not lo <= s[key] <= hi:
-                errors[key] = f"{key}={s[key]:g} is outside {lo:g} to {hi:g} {unit} for a {s['measures']} sensor"
+                errors[key] = (
+                    f"{labels[key]}: {s[key]:g} {unit} is outside what a {s['measures']} sensor reads; "
+                    f"allowed: a number from {lo:g} to {hi:g} {unit}"
+                )
         if "range_low" in s and "range_high" in s and s["range_low"] >= s["range_high"]:
-            errors["range_high"] = f"range_high={s['range_high']:g} must be above range_low={s['range_low']:g}"
+            errors.setdefault(
+                "range_high",
+                f"Range high: {s['range_high']:g} is not above the range low of {s['range_low']:g}; "
+                "allowed: a number above the range low",
+            )
     return errors
 
 
@@ -286,18 +307,19 @@ def _coil_fluid_checks(s: dict[str, Any]) -> dict[str, str]:
     if s["fluid"] == "glycol":
         if not s.get("glycol_pct"):
             errors["glycol_pct"] = (
-                f"Glycol concentration (glycol_pct)={s.get('glycol_pct')!r} is required above 0 when the fluid is "
-                "glycol; allowed: 1 to 60 %"
-            )
+                "Glycol concentration is required when the fluid is glycol"
+                if s.get("glycol_pct") is None
+                else f"Glycol concentration: {shown(s['glycol_pct'])} % is not enough when the fluid is glycol"
+            ) + "; allowed: a whole number from 1 to 60 %"
         if not s.get("glycol_kind"):
             errors["glycol_kind"] = (
-                "Glycol kind (glycol_kind) is required when the fluid is glycol; allowed: one of ethylene, propylene"
+                "Glycol kind is required when the fluid is glycol; allowed: one of ethylene, propylene"
             )
     else:
         for name, label in (("glycol_pct", "Glycol concentration"), ("glycol_kind", "Glycol kind")):
             if s.get(name) not in (None, "", 0):
                 errors[name] = (
-                    f"{label} ({name})={s[name]!r} applies only when the fluid is glycol; the fluid is "
+                    f"{label}: {shown(s[name])} applies only when the fluid is glycol; the fluid is "
                     f"{s['fluid']}: leave it empty or set the fluid to glycol"
                 )
     return errors

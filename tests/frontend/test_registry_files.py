@@ -111,7 +111,7 @@ def test_confirming_a_file_the_registry_no_longer_fits_imports_nothing(scenario,
     assert res.status_code == 400
     page = res.content.decode()
     assert "Nothing was imported" in page and "The registry changed since the file was checked" in page
-    assert "no unit with this tag in that building" in page
+    assert "Unit tag: no unit" in page and "units there: AHU-01A" in page and "import the units first" in page
     assert unit.components.count() == count
 
 
@@ -211,3 +211,57 @@ def test_label_sheets_are_offered_per_site_and_per_building(scenario, login):
         {"kind": "labels", "units": [scenario.unit_a.pk], "layout": "a4-3x8", "next": FILES},
     )
     assert res.status_code == 302
+
+
+def test_a_units_row_lists_every_bad_cell_at_once_in_plain_words(scenario, login):
+    """A new user's tryout: a bad date hid a fraction of 1.7, heat recovery 'magic' and status 'running'; an
+    unknown site code hid the rest of its row. All are listed at once, each naming the field, value and rule."""
+    client = login(scenario.supervisor)
+    before = registry_rows()
+    text = (
+        "site_code,building_code,building_name,tag,design_supply_airflow_m3s,design_min_oa_fraction,heat_recovery,"
+        "service_start,status\n"
+        f"{scenario.site_a.code},north,North block,AHU-30,2.5,1.7,magic,2020-13-01,running\n"
+        "nowhere,north,North block,AHU-31,-3,0.5,none,,\n"
+    )
+    res = check(client, text, kind="ahus", name="units.csv")
+    assert res.status_code == 400
+    page = res.content.decode()
+    table = page[page.index("csv-errors") :]
+    rows = set(re.findall(r"<tr><th scope=\"row\">Row (\d+)</th><td data-label=\"Column\">([^<]*)</td>", table))
+    assert rows == {
+        ("2", "service_start"),
+        ("2", "design_min_oa_fraction"),
+        ("2", "heat_recovery"),
+        ("2", "status"),
+        ("3", "site_code"),
+        ("3", "design_supply_airflow_m3s"),
+    }
+    for words in (
+        "Service start: &#x27;2020-13-01&#x27; is not a date; allowed: a date as YYYY-MM-DD",
+        "Design minimum outdoor-air fraction: 1.7 is out of range; allowed: a number from 0 to 1",
+        "Heat recovery: &#x27;magic&#x27; is not one of the choices; allowed: one of none, wheel, plate, run_around",
+        "Status: &#x27;running&#x27; is not one of the choices",
+        "Site code: no site with code &#x27;nowhere&#x27; in your organisation; your site codes: ",
+        "Design supply airflow: -3 m³/s is out of range; allowed: a number from 0.01 to 100 m³/s",
+    ):
+        assert words in table, words
+    assert scenario.org.slug not in table
+    assert "Ensure this value" not in table and "is not a valid choice" not in table
+    assert registry_rows() == before
+
+
+def test_the_parts_download_carries_a_retired_day(scenario, login):
+    import datetime as dt
+
+    from inventory.services import component_retire
+
+    part = scenario.unit_a.components.get(name="Drain pan")
+    component_retire(component=part, on=dt.date(2024, 5, 2))
+    client = login(scenario.supervisor)
+    text = client.get(reverse("frontend:registry_export", kwargs={"kind": "components"})).content.decode("utf-8-sig")
+    header = text.splitlines()[0].split(",")
+    line = next(row for row in text.splitlines() if ",Drain pan," in row).split(",")
+    assert line[header.index("retired_on")] == "2024-05-02"
+    active = next(row for row in text.splitlines() if ",Heating coil," in row).split(",")
+    assert active[header.index("retired_on")] == ""

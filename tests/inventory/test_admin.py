@@ -93,5 +93,5 @@ def test_bad_specs_in_unit_inline_show_the_error(admin_client):
     assert response.status_code == 200
     errors = [e for fs in response.context["inline_admin_formsets"] for e in fs.formset.errors if e]
     assert len(errors) == 1
-    assert "(final_dp_pa)=10" in errors[0]["specs"][0] and "20 to 1000 Pa" in errors[0]["specs"][0]
+    assert "Final (change) pressure drop: 10 Pa" in errors[0]["specs"][0] and "20 to 1000 Pa" in errors[0]["specs"][0]
     assert ahu.components.get(name="Final filters").specs["final_dp_pa"] == 250

@@ -105,7 +105,7 @@ def test_component_bad_specs_are_keyed_per_field(world, supervisor_client):
     )
     assert response.status_code == 400
     errors = response.json()["errors"]
-    assert "final_dp_pa" in errors["specs.final_dp_pa"][0]
+    assert "Final (change) pressure drop: 5000 Pa is out of range" in errors["specs.final_dp_pa"][0]
     assert "5000" in errors["specs.final_dp_pa"][0]
     assert "20 to 1000 Pa" in errors["specs.final_dp_pa"][0]
     assert "'lots'" in errors["specs.clean_dp_pa"][0]

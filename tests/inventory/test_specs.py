@@ -58,7 +58,8 @@ def test_bad_value_message_names_field_value_and_allowed(kind, field, value, all
     with pytest.raises(SpecErrors) as exc:
         validate_specs(kind=kind, specs={**GOOD[kind], field: value})
     message = exc.value.errors[field]
-    assert field in message
+    label = next(f.label for f in SPECS[kind] if f.name == field)
+    assert message.startswith(f"{label}: ")  # the field as a person knows it, not its key
     assert repr(value) in message
     assert allowed in message
 
@@ -128,8 +129,8 @@ def test_model_full_clean_refuses_bad_specs():
 @pytest.mark.parametrize(
     ("specs", "field", "words"),
     [
-        ({"fluid": "glycol", "glycol_pct": 30}, "glycol_kind", "Glycol kind (glycol_kind) is required"),
-        ({"fluid": "glycol", "glycol_kind": "propylene"}, "glycol_pct", "required above 0"),
+        ({"fluid": "glycol", "glycol_pct": 30}, "glycol_kind", "Glycol kind is required when the fluid is glycol"),
+        ({"fluid": "glycol", "glycol_kind": "propylene"}, "glycol_pct", "Glycol concentration is required when"),
         ({"fluid": "water", "glycol_pct": 30}, "glycol_pct", "applies only when the fluid is glycol"),
         ({"fluid": "water", "glycol_kind": "ethylene"}, "glycol_kind", "the fluid is water"),
     ],

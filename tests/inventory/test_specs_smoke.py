@@ -20,4 +20,4 @@ def test_filter_final_below_clean_is_refused():
     comp.specs = {**comp.specs, "final_dp_pa": 50}
     with pytest.raises(ValidationError) as exc:
         comp.full_clean()
-    assert "final_dp_pa=50 Pa" in str(exc.value)
+    assert "Final (change) pressure drop: 50 Pa is not above the clean (initial) pressure drop" in str(exc.value)
