@@ -20,6 +20,7 @@ Definitions chosen:
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import pint
@@ -31,6 +32,7 @@ __all__ = [
     "SYSTEMS",
     "DisplayUnit",
     "from_display",
+    "sensible_bound",
     "to_display",
     "unit_label",
     "ureg",
@@ -105,3 +107,15 @@ def unit_label(*, quantity: str, system: str = "si") -> str:
     """Short label of the display unit, e.g. "Pa", "in. w.c.", "°F", "cfm"."""
     spec, s = _spec(quantity, system)
     return spec.si_label if s == "si" else spec.us_label
+
+
+def sensible_bound(value: float, *, upper: bool, figures: int = 2) -> float:
+    """A limit of an allowed range as a person reads it: ``value`` to ``figures`` significant figures, rounded
+    inward so that the shown bound is itself allowed (an upper bound down, a lower bound up): 10.037 in. w.c.
+    (2,500 Pa) shows 10, 211,888 cfm (100 m³/s) 210,000, −40.0 °F stays −40, 0 stays 0."""
+    if value == 0 or not math.isfinite(value):
+        return value
+    step = 10 ** (math.floor(math.log10(abs(value))) - figures + 1)
+    scaled = round(value / step, 6)  # 2.0000000001 is 2, not 3
+    n = math.floor(scaled) if upper else math.ceil(scaled)
+    return float(n * step) if step >= 1 else round(n * step, 12)

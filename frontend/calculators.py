@@ -15,7 +15,7 @@ from engineering import _validate as limits
 from engineering import airside, filters, outdoor_air
 from engineering.errors import EngineeringInputError
 from engineering.psychro import STANDARD_PRESSURE_PA, pressure_from_altitude
-from engineering.units import from_display, to_display, unit_label
+from engineering.units import from_display, sensible_bound, to_display, unit_label
 from inspections.display import plain_message
 from inspections.reasons import decimals_of, display_number, format_number, q, render
 
@@ -242,17 +242,28 @@ def bounds(spec: Input, system: str) -> tuple[float | None, float | None]:
     return shown(spec.low_si, math.ceil), shown(spec.high_si, math.floor)
 
 
+def _bound_text(value: float, *, upper: bool, decimals: int) -> str:
+    """A shown limit at sensible figures (engineering.units.sensible_bound, inward, so it is itself allowed),
+    with no decimals it does not need: "10", "210,000", "0.5"."""
+    x = sensible_bound(value, upper=upper)
+    d = 0 if float(x).is_integer() else decimals
+    return format_number(x, d)
+
+
 def allowed_text(spec: Input, system: str) -> str:
-    """ "from 0.00 to 10.03 in. w.c.": the range as a person reads it (numbers as the reasons show them)."""
+    """ "from 0 to 10 in. w.c.": the range as a person reads it, its limits at sensible figures rounded inward
+    (the exact limits, ``bounds``, are what is accepted: 10.03 in. w.c. is still worked)."""
     lo, hi = bounds(spec, system)
     d = decimals_of(spec.quantity, system)
     unit = unit_label(quantity=spec.quantity, system=system)
+    lo_text = _bound_text(lo, upper=False, decimals=d) if lo is not None else ""
+    hi_text = _bound_text(hi, upper=True, decimals=d) if hi is not None else ""
     if lo is not None and hi is not None:
-        return f"from {format_number(lo, d)} to {format_number(hi, d)} {unit}"
+        return f"from {lo_text} to {hi_text} {unit}"
     if lo is not None:
-        return f"at least {format_number(lo, d)} {unit}"
+        return f"at least {lo_text} {unit}"
     if hi is not None:
-        return f"at most {format_number(hi, d)} {unit}"
+        return f"at most {hi_text} {unit}"
     return f"any number in {unit}"
 
 

@@ -4,6 +4,7 @@ import pytest
 
 from engineering.airside import dry_air_density_kg_m3, sensible_heat_w
 from engineering.units import from_display
+from frontend import calculators
 from frontend.calculators import CalcError, calculate, calculator_context
 from inspections.reasons import display_number
 from tests.phone_js import node_json
@@ -130,8 +131,8 @@ def test_typed_inches_of_water_keep_their_value_through_si_and_back():
 
 def test_a_shown_bound_typed_back_is_allowed_and_one_past_it_is_refused_naming_the_range(tmp_path):
     """2,500 Pa, the largest filter pressure drop (engineering.filters.FILTER_DP_PA), is 10.037 in. w.c.: the
-    range reads "0.00 to 10.03 in. w.c." (rounded inward) and 10.03 is worked; 10.04 in. w.c. (2,500.9 Pa) is
-    refused in words that give the allowed range, on the server and the phone alike."""
+    range reads "0 to 10 in. w.c." (sensible figures, rounded inward) and 10.03 is still worked; 10.04 in. w.c.
+    (2,500.9 Pa) is refused in words that give the allowed range, on the server and the phone alike."""
     at_max = {**FILTER_US, "final_dp_pa": "10.03"}
     past = {**FILTER_US, "final_dp_pa": "10.04"}
     cases = [{"name": "filter-loading", "values": v, "system": "us"} for v in (at_max, past)]
@@ -139,9 +140,7 @@ def test_a_shown_bound_typed_back_is_allowed_and_one_past_it_is_refused_naming_t
     assert "rows" in server[0]
     assert server[1] == {
         "errors": {
-            "final_dp_pa": [
-                "Final pressure drop: 10.04 in. w.c. is outside the allowed range, from 0.00 to 10.03 in. w.c."
-            ]
+            "final_dp_pa": ["Final pressure drop: 10.04 in. w.c. is outside the allowed range, from 0 to 10 in. w.c."]
         }
     }
     assert _phone(tmp_path, cases) == server
@@ -150,10 +149,10 @@ def test_a_shown_bound_typed_back_is_allowed_and_one_past_it_is_refused_naming_t
 @pytest.mark.parametrize(
     ("typed", "message"),
     [
-        ("", "Final pressure drop: missing; enter a number from 0.00 to 10.03 in. w.c."),
-        ("1e400", "Final pressure drop: 1e400 is not a usable number; allowed from 0.00 to 10.03 in. w.c."),
-        ("abc", "Final pressure drop: abc is not a usable number; allowed from 0.00 to 10.03 in. w.c."),
-        ("1e300", "Final pressure drop: 1e300 in. w.c. is outside the allowed range, from 0.00 to 10.03 in. w.c."),
+        ("", "Final pressure drop: missing; enter a number from 0 to 10 in. w.c."),
+        ("1e400", "Final pressure drop: 1e400 is not a usable number; allowed from 0 to 10 in. w.c."),
+        ("abc", "Final pressure drop: abc is not a usable number; allowed from 0 to 10 in. w.c."),
+        ("1e300", "Final pressure drop: 1e300 in. w.c. is outside the allowed range, from 0 to 10 in. w.c."),
     ],
 )
 def test_a_blank_or_unusable_field_is_named_with_its_range(tmp_path, typed, message):
@@ -219,3 +218,26 @@ def test_the_calculator_page_defaults_to_the_persons_site_and_names_its_air(scen
         "/calc/", {"calculator": "sensible-heat", "airflow_m3s": "500", "t_in_c": "10", "t_out_c": "30"}
     ).content.decode()
     assert "the standard atmosphere at 350 m (Harbour House)" in html
+
+
+def test_shown_limits_are_sensible_figures_rounded_inward():
+    """The limits a person reads: 2,500 Pa = 10.037 in. w.c. (1 in. w.c. = 249.0889 Pa, NIST SP 811 B.8) shows
+    10; 100 m³/s = 211,888 cfm shows 210,000; the shown limit is inside the exact one; 0 stays 0."""
+    from engineering.units import sensible_bound
+
+    assert sensible_bound(10.03, upper=True) == 10
+    assert sensible_bound(211_888.0, upper=True) == 210_000
+    assert sensible_bound(-75.9, upper=False) == -75
+    assert sensible_bound(-76.0, upper=False) == -76
+    assert sensible_bound(0.0, upper=False) == 0
+    assert sensible_bound(0.037, upper=False) == 0.037
+    assert sensible_bound(0.0374, upper=False) == 0.038
+    us = {
+        i.label: calculators.allowed_text(i, "us")
+        for c in calculators.CALCULATORS.values()
+        for i in c.inputs
+        if i.quantity
+    }
+    assert us["Final pressure drop"] == "from 0 to 10 in. w.c."
+    assert us["Airflow now"] == "from 0 to 210,000 cfm"
+    assert not any(".00 " in text or "211,888" in text for text in us.values()), us
