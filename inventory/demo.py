@@ -26,7 +26,7 @@ from . import services
 from .models import AHU, Building, Component, Site
 
 DEMO_FILE = Path(settings.BASE_DIR) / "fixtures" / "demo" / "registry.json"
-SITE_FIELDS = ("name", "address", "latitude", "longitude", "altitude_m", "time_zone", "normals_min_c",
+SITE_FIELDS = ("name", "address", "access_notes", "latitude", "longitude", "altitude_m", "time_zone", "normals_min_c",
                "normals_max_c", "preheat_threshold_c")  # fmt: skip
 
 
