@@ -572,7 +572,7 @@ LABELS = {
 }
 KEY_ALLOWED = {
     "code": "a short code of letters, digits, - and _",
-    "name": "text",
+    "name": "the name as people know it, text",
     "site_code": "the code of one of your sites",
     "building_code": "the building's code within its site",
     "tag": "the unit's tag as painted on it",
@@ -616,7 +616,9 @@ def _number_range(model, attr: str) -> tuple[float | None, float | None, str]:
                 lo = validator.limit_value
             elif isinstance(validator, MaxValueValidator):
                 hi = validator.limit_value
-    unit = "°" if attr in {"latitude", "longitude"} else next((u for s, u in UNIT_OF_SUFFIX if attr.endswith(s)), "")
+    unit = next((u for s, u in UNIT_OF_SUFFIX if attr.endswith(s)), "")
+    if attr in {"latitude", "longitude"}:
+        unit = "degrees"
     if attr == "design_occupants":
         unit = "people"
     return lo, hi, unit
