@@ -255,26 +255,3 @@ def test_every_demo_site_tells_the_technician_how_to_get_in(loaded):
     for site in Site.objects.all():
         assert len(site.access_notes) > 40, site.name
     assert "sign the contractor book" in Site.objects.get(code="gullwharf").access_notes
-
-
-def test_a_few_demo_findings_of_the_property_manager_carry_a_photo_sent_by_the_phone(loaded, client):
-    """Invented Pillow sketches of loaded filters, sent with the technician's form (the sync's photos): the
-    property manager's finding page shows them."""
-    from inspections.models import Photo
-    from inspections.selectors import finding_photos
-    from inventory.selectors import sites_visible_to
-
-    photos = Photo.objects.filter(item_key="filter_check.photo")
-    assert 1 <= photos.count() <= 30
-    helena = User.objects.get(username="helena.pm")
-    sites = sites_visible_to(user=helena)
-    visits = list(photos.values_list("inspection_id", flat=True))
-    with_photo = [
-        f
-        for f in Finding.objects.filter(ahu__building__site__in=sites, component__kind="filter_bank")
-        if finding_photos(finding=f, inspection_ids=visits)
-    ]
-    assert with_photo
-    client.force_login(helena)
-    page = client.get(f"/site-findings/{with_photo[0].pk}/")
-    assert page.status_code == 200 and "<img" in page.content.decode()
