@@ -49,7 +49,7 @@ def test_reduced_airflow_filter_reading_fails_on_the_phone_offline_and_on_the_se
     page.locator("#r-visit-supply_airflow-unit").fill("1200")
     page.locator(f"#{dp_id}").fill("0.75")
     verdict = page.locator(f"#{dp_id}-verdict")
-    expect(verdict.locator(".verdict")).to_have_text("fail")
+    expect(verdict.locator(".verdict")).to_have_text("Fail")
     expect(verdict).to_contain_text("137 % of its span")
     expect(verdict).to_contain_text("in. w.c.")
     expect(verdict).not_to_contain_text("no limit")
