@@ -3,12 +3,14 @@
 import datetime as dt
 import secrets
 import uuid
+import zoneinfo
 
 from django.conf import settings
 from django.core.exceptions import ValidationError
 from django.core.validators import MinValueValidator
 from django.db import models
 from django.db.models import Q
+from django.utils import timezone
 
 from accounts.models import Organisation
 from inventory.models import AHU, Component, Site
@@ -332,7 +334,23 @@ class WorkOrder(models.Model):
     def state_words(self) -> str:
         """Where the work stands as people say it: corrective work not yet approved is "awaiting approval" (or
         "rejected"), any other its state ("planned", "assigned", ...). The pages, the PDFs and readiness agree."""
-        return work_order_state_words(self.state, self.approval)
+        words = work_order_state_words(self.state, self.approval)
+        return f"{words}, overdue" if self.is_overdue else words
+
+    def is_overdue_on(self, today: dt.date) -> bool:
+        """Open work past its overdue day (``overdue_on``; without one, past its due date) on ``today``, the
+        site's date; the board's overdue column reads the same rule (scheduling.selectors._overdue)."""
+        if self.state not in self.OPEN_STATES or self.due_date is None or self.due_date >= today:
+            return False
+        return self.overdue_on is None or self.overdue_on <= today
+
+    @property
+    def is_overdue(self) -> bool:
+        """:meth:`is_overdue_on` the site's today (its own calendar): every page says "overdue" from here."""
+        if self.state not in self.OPEN_STATES:
+            return False
+        zone = zoneinfo.ZoneInfo(self.ahu.building.site.time_zone or "UTC")
+        return self.is_overdue_on(timezone.now().astimezone(zone).date())
 
     @property
     def is_open(self) -> bool:

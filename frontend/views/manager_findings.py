@@ -47,13 +47,15 @@ def progress_words(wo: WorkOrder | None, *, finding: Finding) -> str:
     sentence begins."""
     if wo is None:
         return "design review: no corrective work proposed" if finding.kind == Finding.Kind.DESIGN_REVIEW else "—"
-    words = wo.state_words
+    # "overdue" comes from WorkOrder.state_words (the site's calendar, as the board counts it), said last.
+    overdue = ", overdue" if wo.is_overdue else ""
+    words = wo.state_words.removesuffix(overdue)
     if wo.is_open and wo.approval not in (WorkOrder.Approval.PENDING, WorkOrder.Approval.REJECTED):
         if wo.scheduled_for is not None:
             words += f" for {local_date_of(wo.scheduled_for)}"
         elif wo.due_date is not None:
             words += f", due {local_date_of(wo.due_date)}"
-    return words
+    return words + overdue
 
 
 def _readings_of(evaluations: list[Evaluation]) -> dict[tuple[int, str, int | None], Reading]:

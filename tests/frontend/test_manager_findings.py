@@ -213,3 +213,28 @@ def test_a_design_review_says_no_corrective_work_is_proposed(w, client):
     assert "Design review: no corrective work proposed" in text_of(
         client.get(f"/site-findings/{w.finding_a.pk}/").content.decode()
     )
+
+
+def test_corrective_work_past_its_overdue_day_reads_overdue_on_every_page(w, client):
+    """Work due 2 Nov 2026 (overdue from 3 Nov), still assigned on 2 Dec 2026, reads "overdue" on her findings
+    list, the finding's page and the unit's page, from WorkOrder.state_words as the board's overdue column counts
+    it (WorkOrder.is_overdue_on and scheduling.selectors._overdue, one rule)."""
+    import datetime as dt
+
+    from scheduling.models import WorkOrder
+
+    wo = w.finding_a.corrective_work_order
+    WorkOrder.objects.filter(pk=wo.pk).update(
+        due_date=dt.date(2026, 11, 2), overdue_on=dt.date(2026, 11, 3), scheduled_for=None
+    )
+    wo.refresh_from_db()
+    assert wo.is_overdue and wo.state_words.endswith(", overdue")
+    assert not wo.is_overdue_on(dt.date(2026, 11, 2)) and wo.is_overdue_on(dt.date(2026, 11, 3))
+    row = text_of(
+        get(client, w.s.manager_a, "/site-findings/").content.decode().split(f'data-finding="{w.finding_a.pk}"')[1]
+    ).split("</tr>")[0]
+    assert "due 2 nov 2026, overdue" in row.lower()
+    page = text_of(get(client, w.s.manager_a, f"/site-findings/{w.finding_a.pk}/").content.decode())
+    assert "due 2 nov 2026, overdue" in page.lower()
+    unit = text_of(get(client, w.s.manager_a, f"/dashboard/unit/{w.finding_a.ahu_id}/").content.decode())
+    assert "overdue" in unit.lower()
