@@ -102,7 +102,7 @@ ALSO = {
 # The calendar feed's token *is* the key (a capability URL, like a private calendar link):
 # whoever holds it gets the feed, so it is tried with guessed and revoked tokens instead.
 # A password-reset link is the same kind of key (tests/security/test_signin.py tries wrong and used ones).
-CAPABILITY = {"scheduling:calendar", "accounts:password_reset_confirm"}
+CAPABILITY = {"scheduling:calendar", "accounts:password_reset_confirm", "accounts:invitation_confirm"}
 # Not called with POST: they change the caller's own session, not anybody's records.
 NO_POST = {"frontend:logout", "frontend:login"}
 
