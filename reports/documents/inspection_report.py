@@ -153,7 +153,8 @@ def visit_records(
                     "verdict": VERDICTS.get(r.verdict, ""),
                     "verdict_code": r.verdict,
                     # The row names the part: its reason does not begin with it again.
-                    "reason": _reason(r, system, visit_day),
+                    # …and a reason that only repeats the row ("confirmed: <item>", "<item>: Clean") is not shown.
+                    "reason": _row_reason(r, system, visit_day),
                     "note": r.note,
                     "improbable": r.improbable,
                 }
@@ -356,6 +357,12 @@ def _row_limit(evaluation, quantity: str, system: str, reason: str, decimals: in
     if not band:
         return limit, reason
     return (f"{limit}; {band}" if limit else band), rest
+
+
+def _row_reason(reading, system: str, visit_day: dt.date | None) -> str:
+    """A reading's reason for its record row, left out when it says nothing the row does not."""
+    reason = _reason(reading, system, visit_day)
+    return "" if _says_nothing_more(reason, reading.item.label, reading_value(reading, system), "") else reason
 
 
 def _says_nothing_more(reason: str, label: str, value: str, verdict_code: str) -> bool:
