@@ -403,11 +403,10 @@ WEEKEND = (5, 6)  # Saturday, Sunday (date.weekday())
 
 
 def capacity_on(user, day: dt.date) -> float:
-    """Hours of field work ``user`` has on ``day``: their daily capacity on a weekday; none on Saturday and
-    Sunday (a contractor's technicians do not work weekends) unless the person is marked as working weekends
-    (``works_weekends``; people without that setting do not). Work planned on a weekend then reads over."""
-    if day.weekday() in WEEKEND and not getattr(user, "works_weekends", False):
-        return 0.0
+    """Hours of field work ``user`` has on ``day``: their daily capacity. Every day counts alike, weekends too:
+    work left unplanned is counted on its due date, which the calendar rules put on any day, and a weekend due
+    date must not read as an overload. Weekend work is avoided where it is chosen instead: the day offered for
+    it is a weekday (:func:`weekday_on_or_near`)."""
     return float(user.daily_capacity_hours)
 
 

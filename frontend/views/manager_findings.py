@@ -120,7 +120,11 @@ def findings_list(request):
             findings_visible_to(user=request.user)
             .exclude(close_cause=Finding.CloseCause.MERGED)
             .select_related(
-                "ahu__building__site", "component", "corrective_work_order", "latest_evaluation", "evaluation"
+                "ahu__building__site",
+                "component",
+                "corrective_work_order__ahu__building__site",  # its overdue day is on its site's calendar
+                "latest_evaluation",
+                "evaluation",
             )
         )
         if chosen["state"] != "all":

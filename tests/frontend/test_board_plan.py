@@ -221,29 +221,29 @@ def test_plan_work_now_names_the_new_visits_and_links_to_the_week_of_the_first(s
     assert words.count(" — ") == NAMED_VISITS and words.endswith(f"and {len(many) - NAMED_VISITS} more.")
 
 
-def test_weekends_have_no_capacity_and_weekend_work_is_offered_the_friday_before(scenario, login):
-    """Technicians do not work weekends (no person here is marked otherwise): the load table gives Saturday and
-    Sunday 0 h and says so; work due Saturday 8 March is offered Friday 7 March; assigning it for the Saturday
-    anyway is warned as over capacity, and "Back to change it" brings the row back with the technician and the
-    day chosen."""
+def test_weekend_work_is_offered_the_friday_before_and_back_to_change_it_keeps_the_choice(scenario, login):
+    """Work due Saturday 8 March is offered Friday 7 March (the board says why); assigning it for the Saturday to
+    a technician it would overload is warned, and "Back to change it" brings the row back with the technician and
+    the day chosen. A weekend due date alone is not an overload: every day has the person's capacity."""
     wo = make_work(ahu=scenario.unit_a, title="Weekend check", due=dt.date(2025, 3, 8))
     add_task(wo, "filter_replace", scenario.unit_a.components.get(name="Final filters"))
+    scenario.technician.daily_capacity_hours = 0.5
+    scenario.technician.save(update_fields=["daily_capacity_hours"])
     client = login(scenario.supervisor)
     with time_machine.travel(dt.datetime(2025, 3, 5, 10, tzinfo=dt.UTC), tick=False):
         response = client.get("/board/")
         html = response.content.decode()
         assert f'id="plan-{wo.public_id}" name="scheduled_for" value="2025-03-07"' in html
-        assert "Saturday and Sunday have no capacity" in html
+        assert "due on a Saturday or Sunday is the Friday before" in html
         (row,) = [r for r in response.context["load"] if r["technician"] == scenario.technician]
         capacity = {d["date"]: d["capacity_hours"] for d in row["days"]}
-        assert capacity[dt.date(2025, 3, 8)] == 0 and capacity[dt.date(2025, 3, 9)] == 0
-        assert capacity[dt.date(2025, 3, 7)] == float(scenario.technician.daily_capacity_hours)
+        assert capacity[dt.date(2025, 3, 8)] == capacity[dt.date(2025, 3, 7)] == 0.5
         confirm = client.post(
             reverse("frontend:assign", kwargs={"public_id": wo.public_id}),
             {"assignee": scenario.technician.pk, "version": wo.version, "scheduled_for": "2025-03-08", "week": ""},
         )
         page = confirm.content.decode()
-        assert "Over capacity" in page and "over the capacity of 0.0 h a day" in page
+        assert "Over capacity" in page and "over the capacity of 0.5 h a day" in page
         assert WorkOrder.objects.get(pk=wo.pk).assignee_id is None
         back = re.search(r'href="([^"]+)" data-back-to-change>Back to change it', page)[1].replace("&amp;", "&")
         again = client.get(back).content.decode()

@@ -173,7 +173,7 @@ def test_filter_reading_shows_why_it_failed(
     # One row for the judgement (readings grouped by visit): the reading with the airflow it was read at and
     # where that airflow came from, its value at design airflow, the final value it was judged against.
     row = flat.split("Filter loading at design airflow")[1].split("Local codes")[0]
-    assert raw in row and "fail" in row
+    assert raw in row and "Fail" in row
     assert f"{raw} read at {airflow} (measured)" in row
     assert f"{at_design} at design airflow" in row
     assert f"final {final}" in row

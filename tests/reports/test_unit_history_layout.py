@@ -262,7 +262,7 @@ def test_readings_are_grouped_by_visit_one_row_per_check(year_of_visits, supervi
     # The stuck damper and the supply air off its set point fail on their visits' rows, naming the findings;
     # the findings table gives their reasons once.
     assert "commanded 40.0 %; measured 26.0 %; error −14.0 points" in readings
-    assert "fail finding: Damper not at commanded position" in readings and "(first seen 2025-04-14)" in readings
+    assert "Fail finding: Damper not at commanded position" in readings and "(first seen 2025-04-14)" in readings
     assert "supply air 19.6 °C; set point 17.0 °C; deviation 2.6 K" in readings
     assert "finding: Supply-air temperature off set point (first seen 2025-10-14)" in readings
     assert "14.0 points more closed than commanded 40 %" in findings
