@@ -22,7 +22,8 @@ from .test_pwa import draw_signature, wait_app
 pytestmark = [pytest.mark.browser, pytest.mark.django_db(transaction=True)]
 
 # SI unit strings that must not show in a US view (a number then the unit, or the unit as a word).
-SI_TEXT = re.compile(r"\d\s*(Pa|kPa|K|°C|L/s|m³/s|m3/s|m3s|W|kW)\b|°C|m³/s|L/s|\bPa\b|\bm3s\b")
+# A number standing on its own (not the end of a label code such as "UMW6K") followed by an SI unit.
+SI_TEXT = re.compile(r"\b\d[\d.,]*\s*(Pa|kPa|K|°C|L/s|m³/s|m3/s|m3s|W|kW)\b|°C|m³/s|L/s|\bPa\b|\bm3s\b")
 # Debug-like words that must never reach a person ("ok max: 14.2; physical max: 5000", "allowed error: 0.3").
 DEBUG_TEXT = re.compile(r"\b(ok|watch|physical|plausible) (max|min)\b|allowed error|_m3s|_pa\b|_c\b")
 
