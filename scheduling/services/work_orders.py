@@ -180,7 +180,6 @@ def work_order_assign(*, work_order: WorkOrder, assignee, by, expected_version: 
     return wo
 
 
-@transaction.atomic
 def work_order_plan_words(*, work_order: WorkOrder, today: dt.date) -> str:
     """How the planned day reads in a message: "for 1 Dec 2036, after its overdue date 3 Dec 2026" (the warning
     when the plan is later than the day the work turns overdue; the plan is kept), "" without a plan."""
@@ -194,6 +193,7 @@ def work_order_plan_words(*, work_order: WorkOrder, today: dt.date) -> str:
     return words
 
 
+@transaction.atomic
 def work_order_schedule(
     *, work_order: WorkOrder, day: dt.date | None, by, expected_version: int | None = None
 ) -> WorkOrder:
