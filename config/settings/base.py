@@ -53,6 +53,7 @@ INSTALLED_APPS = [
     "inventory",
     "scheduling",
     "inspections",
+    "automation",
     "reports",
     "frontend",
     "bench",  # benchmark generator command only; no models
@@ -261,6 +262,11 @@ CELERY_BEAT_SCHEDULE: dict = {
         "schedule": crontab(hour=6, minute=30),
         "options": {"expires": 3 * 3600},
     },
+    "automation-nightly-trend-purge": {
+        "task": "automation.trend_purge",
+        "schedule": crontab(hour=3, minute=30),
+        "options": {"expires": 3 * 3600},
+    },
 }
 
 # ---------------------------------------------------------------------------
@@ -284,6 +290,8 @@ PLENUM_TECHNICIAN_SITE_DAYS = int(os.environ.get("PLENUM_TECHNICIAN_SITE_DAYS", 
 # accounts/answers.py, accounts/changes.py
 PLENUM_ANSWER_CACHE_SECONDS = int(os.environ.get("PLENUM_ANSWER_CACHE_SECONDS", "60"))
 PLENUM_ANSWER_CACHE_BYTES = int(os.environ.get("PLENUM_ANSWER_CACHE_BYTES", str(32 * 1024 * 1024)))
+# Building-automation trend samples older than this many days are deleted by the nightly purge. automation.tasks
+PLENUM_TREND_RETENTION_DAYS = int(os.environ.get("PLENUM_TREND_RETENTION_DAYS", "800"))
 
 LOGGING = {
     "version": 1,
