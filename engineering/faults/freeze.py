@@ -1,0 +1,115 @@
+"""Freeze events: supply (or mixed, or preheat-leaving) air below freeze-protection stages.
+
+A stage is a temperature and a time: the air below ``below_c`` for at least
+``for_s``. The defaults are the multiple-zone AHU freeze protection of
+ASHRAE Guideline 36 (5.16.12 in the 2018 edition; section number from
+memory), with the values as implemented in the Modelica Buildings library
+(github.com/lbl-srg/modelica-buildings,
+Buildings/Controls/OBC/ASHRAE/G36/AHUs/MultiZone/VAV/SetPoints/FreezeProtection.mo):
+stage 1 below 4.4 °C for 5 min; stage 2 below 3.3 °C for 5 min; stage 3
+below 3.3 °C for 15 min, or below 1 °C for 5 min.
+
+The events say when the air was near freezing; they do not replace the
+unit's own freeze stat or its controls. Local codes, the manufacturer's
+instructions and licensed practice come first.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from engineering import _validate as v
+from engineering.errors import EngineeringInputError
+from engineering.faults import _series as s
+
+Time = object
+
+
+@dataclass(frozen=True)
+class FreezeStage:
+    name: str
+    below_c: float
+    for_s: float
+
+    def __post_init__(self) -> None:
+        v.in_range("below_c", self.below_c, -30.0, 15.0, unit="°C", label=f"{self.name} temperature")
+        v.in_range("for_s", self.for_s, 0.0, 86_400.0, unit="s", label=f"{self.name} duration")
+
+
+G36_FREEZE_STAGES: tuple[FreezeStage, ...] = (
+    FreezeStage("stage 1", 4.4, 300.0),
+    FreezeStage("stage 2", 3.3, 300.0),
+    FreezeStage("stage 3", 3.3, 900.0),
+    FreezeStage("stage 3", 1.0, 300.0),
+)
+
+
+@dataclass(frozen=True)
+class FreezeEvent:
+    stage: str
+    below_c: float
+    for_s: float
+    start: Time  # first sample below the stage's temperature
+    end: Time  # end of the last sample below it
+    reached_at: Time  # when the stage's time was reached
+    duration_s: float
+    lowest_c: float
+
+
+def freeze_events(
+    *,
+    times: Sequence | np.ndarray,
+    temperature_c: Sequence[float | None] | np.ndarray,
+    stages: Sequence[FreezeStage] = G36_FREEZE_STAGES,
+) -> tuple[FreezeEvent, ...]:
+    """Windows in which the air stayed below a stage's temperature for its time.
+
+    ``times`` must be regular (``resample`` first otherwise); a gap (NaN or
+    None) ends a window. A run of n samples lasts n × step. Events are in
+    time order, stage by stage within a start.
+    """
+    return freeze_events_batch(times=times, temperature_c=temperature_c, stages=stages)[0]
+
+
+def freeze_events_batch(
+    *,
+    times: Sequence | np.ndarray,
+    temperature_c: Sequence | np.ndarray,
+    stages: Sequence[FreezeStage] = G36_FREEZE_STAGES,
+) -> list[tuple[FreezeEvent, ...]]:
+    """``freeze_events`` for many units (temperature_c units × len(times)) at once."""
+    base = s.regular_base("times", times)
+    temp = s.as_unit_array("sat", temperature_c, base.seconds.size)
+    stages = tuple(stages)
+    if not stages or not all(isinstance(st, FreezeStage) for st in stages):
+        raise EngineeringInputError(
+            field="stages",
+            value=stages,
+            allowed="one or more FreezeStage",
+            message="stages must be one or more FreezeStage (a temperature and a time)",
+        )
+    events: list[list[tuple[float, int, FreezeEvent]]] = [[] for _ in range(temp.shape[0])]
+    step = base.step_s
+    for order, stage in enumerate(stages):
+        with np.errstate(invalid="ignore"):
+            below = temp < stage.below_c
+        unit, first, after = s.runs(below)
+        need = s.samples_for(stage.for_s, step) if stage.for_s > 0 else 1
+        for u, i, j in zip(unit.tolist(), first.tolist(), after.tolist(), strict=True):
+            if j - i < need:
+                continue
+            event = FreezeEvent(
+                stage=stage.name,
+                below_c=stage.below_c,
+                for_s=stage.for_s,
+                start=base.at(base.seconds[i]),
+                end=base.at(base.seconds[j - 1] + step),
+                reached_at=base.at(base.seconds[i] + stage.for_s),
+                duration_s=float((j - i) * step),
+                lowest_c=float(np.min(temp[u, i:j])),
+            )
+            events[u].append((float(base.seconds[i]), order, event))
+    return [tuple(e for _, _, e in sorted(unit_events, key=lambda x: (x[0], x[1]))) for unit_events in events]
