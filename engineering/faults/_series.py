@@ -12,6 +12,7 @@ import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from datetime import datetime, timedelta, tzinfo
+from functools import cached_property
 
 import numpy as np
 
@@ -72,6 +73,25 @@ class TimeBase:
     step_s: float
     kind: str  # "datetime" or "number"
     tz: tzinfo | None
+
+    @cached_property
+    def stamps(self) -> list[datetime | float]:
+        """Every sample time, then the end of the last sample, in the caller's form."""
+        return [self.at(x) for x in (*self.seconds.tolist(), float(self.seconds[-1]) + self.step_s)]
+
+    def after(self, index: int, seconds: float) -> datetime | float:
+        """The time ``seconds`` after sample ``index``, in the caller's form."""
+        stamp = self.stamps[index]
+        if self.kind == "number":
+            return float(stamp) + seconds  # type: ignore[arg-type]
+        if self._fixed_offset:
+            return stamp + timedelta(seconds=seconds)  # type: ignore[operator]
+        return self.at(float(self.seconds[index]) + seconds)
+
+    @cached_property
+    def _fixed_offset(self) -> bool:
+        """No zone, or a fixed offset (UTC): adding a timedelta is exact; a zone with DST is not."""
+        return self.tz is None or self.tz.utcoffset(None) is not None
 
     def at(self, seconds: float) -> datetime | float:
         """The time ``seconds`` in the caller's own form (datetime with its zone, or a number)."""

@@ -224,25 +224,33 @@ def _judge(rule, applicable, condition, p, base: s.TimeBase, t: FaultThresholds,
     unit, first, after = s.runs(condition)
     keep = (after - first) >= need
     unit, first, after = unit[keep], first[keep], after[keep]
-    applicable_s = applicable.sum(axis=1) * step
+    bounds = np.searchsorted(unit, np.arange(units + 1)).tolist()
+    applicable_s = (applicable.sum(axis=1) * step).tolist()
+    stamps = base.stamps
+    delay_samples = t.alarm_delay_s / step
+    exact_delay = delay_samples == int(delay_samples)
     out = []
     for u in range(units):
-        mine = unit == u
+        lo, hi = bounds[u], bounds[u + 1]
+        total = applicable_s[u]
+        if lo == hi:
+            out.append(_result(rule, judged=True, reason="", applicable_s=total, share=0.0 if total > 0 else None))
+            continue
+        pairs = list(zip(first[lo:hi].tolist(), after[lo:hi].tolist(), strict=True))
         windows = tuple(
             FaultWindow(
-                start=base.at(base.seconds[i]),
-                end=base.at(base.seconds[j - 1] + step),
-                alarm_at=base.at(base.seconds[i] + max(t.alarm_delay_s, 0.0)),
+                start=stamps[i],
+                end=stamps[j],
+                alarm_at=stamps[i + int(delay_samples)] if exact_delay else base.after(i, t.alarm_delay_s),
                 duration_s=float((j - i) * step),
             )
-            for i, j in zip(first[mine].tolist(), after[mine].tolist(), strict=True)
+            for i, j in pairs
         )
         fault_s = float(sum(w.duration_s for w in windows))
-        total = float(applicable_s[u])
         consequence = None
-        if windows and rule.code in CONSEQUENCES:
+        if rule.code in CONSEQUENCES:
             mask = np.zeros(condition.shape[1], dtype=bool)
-            for i, j in zip(first[mine].tolist(), after[mine].tolist(), strict=True):
+            for i, j in pairs:
                 mask[i:j] = True
             means = {role: _mean(a[u], mask) for role, a in p.items()}
             consequence = CONSEQUENCES[rule.code](means, fault_s)

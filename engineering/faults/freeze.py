@@ -91,25 +91,36 @@ def freeze_events_batch(
             allowed="one or more FreezeStage",
             message="stages must be one or more FreezeStage (a temperature and a time)",
         )
-    events: list[list[tuple[float, int, FreezeEvent]]] = [[] for _ in range(temp.shape[0])]
+    units, n = temp.shape
+    events: list[list[tuple[int, int, FreezeEvent]]] = [[] for _ in range(units)]
     step = base.step_s
+    stamps = base.stamps
+    flat = np.append(np.where(np.isnan(temp), np.inf, temp).ravel(), np.inf)
     for order, stage in enumerate(stages):
         with np.errstate(invalid="ignore"):
             below = temp < stage.below_c
         unit, first, after = s.runs(below)
         need = s.samples_for(stage.for_s, step) if stage.for_s > 0 else 1
-        for u, i, j in zip(unit.tolist(), first.tolist(), after.tolist(), strict=True):
-            if j - i < need:
-                continue
+        keep = (after - first) >= need
+        unit, first, after = unit[keep], first[keep], after[keep]
+        if not unit.size:
+            continue
+        bounds = np.empty(2 * unit.size, dtype=np.int64)
+        bounds[0::2] = unit * n + first
+        bounds[1::2] = unit * n + after
+        lowest = np.minimum.reduceat(flat, bounds)[0::2].tolist()
+        reach = stage.for_s / step
+        for u, i, j, low in zip(unit.tolist(), first.tolist(), after.tolist(), lowest, strict=True):
+            reached = stamps[i + int(reach)] if reach == int(reach) else base.after(i, stage.for_s)
             event = FreezeEvent(
                 stage=stage.name,
                 below_c=stage.below_c,
                 for_s=stage.for_s,
-                start=base.at(base.seconds[i]),
-                end=base.at(base.seconds[j - 1] + step),
-                reached_at=base.at(base.seconds[i] + stage.for_s),
+                start=stamps[i],
+                end=stamps[j],
+                reached_at=reached,
                 duration_s=float((j - i) * step),
-                lowest_c=float(np.min(temp[u, i:j])),
+                lowest_c=float(low),
             )
-            events[u].append((float(base.seconds[i]), order, event))
+            events[u].append((i, order, event))
     return [tuple(e for _, _, e in sorted(unit_events, key=lambda x: (x[0], x[1]))) for unit_events in events]
