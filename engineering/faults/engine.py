@@ -43,6 +43,8 @@ Time = datetime | float
 
 @dataclass(frozen=True)
 class FaultWindow:
+    """A stretch of evidence: the condition held throughout and lasted at least the alarm delay."""
+
     start: Time  # first sample of the run
     end: Time  # end of the run's last sample (its time + one step)
     alarm_at: Time  # when the run reached the alarm delay
@@ -51,6 +53,14 @@ class FaultWindow:
 
 @dataclass(frozen=True)
 class FaultResult:
+    """One rule's verdict for one unit.
+
+    ``applicable_s`` is the time the rule could be judged (fan running, a
+    state it applies in, not within the mode delay, every needed value
+    present); ``fault_s`` the time inside its evidence windows; ``share`` the
+    one over the other.
+    """
+
     code: str
     title: str
     formula: str
@@ -71,6 +81,8 @@ class FaultResult:
 
 @dataclass(frozen=True)
 class AhuFaults:
+    """Every rule's ``FaultResult`` for one unit (by code, in rule order), its states and notes on the inputs."""
+
     results: dict[str, FaultResult]
     states: np.ndarray  # operating state per sample (0 not judged, 1–5)
     step_s: float

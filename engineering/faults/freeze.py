@@ -18,6 +18,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from datetime import datetime
 
 import numpy as np
 
@@ -25,7 +26,7 @@ from engineering import _validate as v
 from engineering.errors import EngineeringInputError
 from engineering.faults import _series as s
 
-Time = object
+Time = datetime | float
 
 
 @dataclass(frozen=True)

@@ -433,3 +433,34 @@ def test_impossible_thresholds_and_times_are_refused():
         evaluate_ahu(times=times()[::-1], points=unit(1))
     with pytest.raises(EngineeringInputError, match=r"with a zone"):
         evaluate_ahu(times=[T0, datetime(2026, 1, 5, 6, 1)], points={"sat": [20.0, 20.0]})
+
+
+# --- what the inputs allow ---------------------------------------------------------------------------
+
+
+def test_missing_points_leave_their_rules_unjudged_and_say_why():
+    pts = {k: v for k, v in unit(1).items() if k not in ("oa_damper", "duct_static")}
+    result = evaluate_ahu(times=times(), points=pts)
+    assert not result.results["FC1"].judged and "duct_static" in result.results["FC1"].reason
+    assert not result.results["FC5"].judged and "operating states unknown" in result.results["FC5"].reason
+    assert result.results["FC2"].judged  # FC#1–#3 apply in every state
+    assert any("oa_damper" in note for note in result.notes)
+
+
+def test_a_unit_without_a_heating_coil_reads_its_valve_as_closed():
+    pts = {k: v for k, v in unit(4).items() if k != "heating_valve"}
+    result = evaluate_ahu(times=times(), points=pts)
+    assert set(result.states[20:].tolist()) == {OperatingState.MECHANICAL_MINIMUM_OA}
+    assert any("heating_valve" in note for note in result.notes)
+
+
+def test_fan_status_rules_over_speed_and_numbers_serve_as_times():
+    status = np.ones(N)
+    status[:60] = 0.0  # stopped for the first hour: nothing judged then
+    r = evaluate_ahu(
+        times=[60.0 * i for i in range(N)],
+        points=unit(1, supply_fan_status=status, sat=(slice(0, 60), 5.0)),
+        thresholds=SHARP,
+    ).results["FC5"]
+    assert not r.present
+    assert r.applicable_s == (N - 60 - 15) * 60  # the start of the fan is a state change: 15 min rest
