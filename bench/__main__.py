@@ -1,4 +1,4 @@
-"""``python -m bench [--large] [--runs N]`` (``make bench``): every scenario at two sizes.
+"""``python -m bench [--large] [--runs N] [--scenarios a,b]`` (``make bench``): every scenario at two sizes.
 
 Each size runs in its own process against its own throwaway database: a
 temporary SQLite file by default, or — when ``DATABASE_URL`` names a
@@ -23,6 +23,7 @@ from pathlib import Path
 from urllib.parse import urlsplit, urlunsplit
 
 from .results import results_markdown
+from .run import SCENARIOS, scenarios_chosen
 
 HERE = Path(__file__).resolve().parent
 ROOT = HERE.parent
@@ -88,8 +89,20 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--clients", type=int, default=20, help="concurrent clients of the load scenario")
     parser.add_argument("--per-client", type=int, default=25, help="requests each client sends (bounded)")
     parser.add_argument("--max-seconds", type=float, default=20.0, help="time bound of one load loop")
+    parser.add_argument(
+        "--scenarios",
+        default=",".join(SCENARIOS),
+        help=f"comma-separated scenarios to run (default all: {','.join(SCENARIOS)})",
+    )
+    parser.add_argument("--day-seconds", type=float, default=10.0, help="mixed day: seconds of each pass")
+    parser.add_argument("--day-writers", type=int, default=3, help="mixed day: continuous writer clients")
+    parser.add_argument(
+        "--day-forms", type=int, default=1500, help="mixed day: sync forms prepared (a writer running out fails)"
+    )
+    parser.add_argument("--day-orgs", type=int, default=2, help="mixed day: organisations added to the two")
     parser.add_argument("--out", default=str(HERE), help="folder for results.md and results.json")
     args = parser.parse_args(argv)
+    scenarios_chosen(args.scenarios)  # an unknown name stops here, before any database is made
 
     sizes = [int(s) for s in args.sizes.split(",")] if args.sizes else (LARGE if args.large else SMALL)
     env_url = os.environ.get("DATABASE_URL", "")
@@ -133,6 +146,16 @@ def main(argv: list[str] | None = None) -> int:
                     str(args.per_client),
                     "--max-seconds",
                     str(args.max_seconds),
+                    "--scenarios",
+                    args.scenarios,
+                    "--day-seconds",
+                    str(args.day_seconds),
+                    "--day-writers",
+                    str(args.day_writers),
+                    "--day-forms",
+                    str(args.day_forms),
+                    "--day-orgs",
+                    str(args.day_orgs),
                     "--out",
                     str(child_out),
                 ]
@@ -162,7 +185,24 @@ def main(argv: list[str] | None = None) -> int:
     (out_dir / "results.json").write_text(json.dumps(document, indent=1, default=str) + "\n")
     (out_dir / "results.md").write_text(results_markdown(document))
     print(f"bench: wrote {out_dir / 'results.md'} and results.json in {document['total_s']} s", flush=True)
+    failed = failures(document)
+    if failed:
+        print("bench: FAILED —\n  " + "\n  ".join(failed), file=sys.stderr, flush=True)
+        return 1
     return 0
+
+
+def failures(document: dict) -> list[str]:
+    """Each size that did not finish and each scenario that raised (a wrong outcome, a crash), in words."""
+    out = []
+    for size in document["sizes"]:
+        if "error" in size:
+            out.append(f"{size['ahus']} units: {size['error']}")
+            continue
+        for name, section in size.items():
+            if isinstance(section, dict) and "error" in section:
+                out.append(f"{size['ahus']} units, {name}: {section['error']}")
+    return out
 
 
 if __name__ == "__main__":

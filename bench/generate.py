@@ -975,3 +975,46 @@ def portfolio_generate(
     with connection.cursor() as cursor:
         cursor.execute("ANALYZE")
     return Portfolio(main=main_summary, other=other_summary, today=today, counts=counts)
+
+
+def organisations_add(
+    *, count: int, sites: int, ahus: int, today: dt.date, years: int = 2, seed: int = 2
+) -> list[OrgSummary]:
+    """``count`` further organisations of ``sites`` sites and ``ahus`` units each (``day1``, ``day2``, …): the
+    other contractors of the mixed-day benchmark, added to a database that already holds a portfolio.
+
+    Label codes are drawn apart from every code already stored, so the new rows never collide with the
+    portfolio's whatever the seed.
+    """
+    from accounts.models import Organisation
+    from inventory.models import AHU, Component
+
+    if count < 1 or sites < 1 or ahus < 1:
+        raise ValueError(f"count={count}, sites={sites}, ahus={ahus}: each must be at least 1")
+    rng = random.Random(seed)
+    codes = _Codes(rng)
+    codes.seen.update(AHU.objects.values_list("label_code", flat=True))
+    codes.seen.update(Component.objects.values_list("label_code", flat=True))
+    password = make_password(BENCH_PASSWORD, salt="benchsalt")
+    counts: dict[str, int] = {}
+    added = []
+    with transaction.atomic():
+        for n in range(1, count + 1):
+            org = Organisation.objects.create(name=f"Bench Day Contractor {n}", slug=f"bench-day{n}-{seed}")
+            added.append(
+                _org_build(
+                    org=org,
+                    slug=f"day{n}",
+                    n_sites=sites,
+                    n_ahus=ahus,
+                    years=years,
+                    today=today,
+                    rng=rng,
+                    codes=codes,
+                    password=password,
+                    counts=counts,
+                )
+            )
+    with connection.cursor() as cursor:
+        cursor.execute("ANALYZE")
+    return added

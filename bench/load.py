@@ -83,12 +83,23 @@ class Server:
 
 
 def request(
-    method: str, port: int, path: str, *, token: str | None = None, body: bytes | None = None, timeout: float = 60
+    method: str,
+    port: int,
+    path: str,
+    *,
+    token: str | None = None,
+    body: bytes | None = None,
+    timeout: float = 60,
+    cookie: str | None = None,
 ) -> tuple[int, bytes, float]:
-    """One request on a fresh connection (gunicorn's sync workers close after each); returns status, body, s."""
-    headers = {"Accept": "application/json", "Host": HOST}
+    """One request on a fresh connection (gunicorn's sync workers close after each); returns status, body, s.
+
+    ``token`` signs in as the API does; ``cookie`` (``sessionid=…``) as a browser does, for a page."""
+    headers = {"Accept": "text/html" if cookie else "application/json", "Host": HOST}
     if token:
         headers["Authorization"] = f"Token {token}"
+    if cookie:
+        headers["Cookie"] = cookie
     if body is not None:
         headers["Content-Type"] = "application/json"
     t0 = time.perf_counter()

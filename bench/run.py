@@ -35,6 +35,19 @@ def _guard(results: dict, name: str, fn) -> object:
     return out
 
 
+SCENARIOS = ("generation", "load", "sync", "mixed_day", "reports", "pwa_shell", "registry_import")
+RESULT_KEYS = {"generation": "work_order_generation"}  # a scenario's figures in results.json, where named apart
+
+
+def scenarios_chosen(text: str) -> set[str]:
+    """The scenario names of a comma-separated list; an unknown name is refused, naming the known ones."""
+    names = {n.strip() for n in text.split(",") if n.strip()}
+    unknown = sorted(names - set(SCENARIOS))
+    if unknown or not names:
+        raise SystemExit(f"--scenarios={text!r}: unknown {unknown or 'empty'}; choose from {', '.join(SCENARIOS)}")
+    return names
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(prog="bench.run")
     parser.add_argument("--ahus", type=int, required=True)
@@ -47,8 +60,14 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--per-client", type=int, default=25)
     parser.add_argument("--max-seconds", type=float, default=20.0)
     parser.add_argument("--workers", type=int, default=0, help="gunicorn workers; 0: 2 × CPUs + 1")
+    parser.add_argument("--scenarios", default=",".join(SCENARIOS), help="comma-separated, of " + ", ".join(SCENARIOS))
+    parser.add_argument("--day-seconds", type=float, default=10.0)
+    parser.add_argument("--day-writers", type=int, default=3)
+    parser.add_argument("--day-forms", type=int, default=1500)
+    parser.add_argument("--day-orgs", type=int, default=2)
     parser.add_argument("--out", required=True)
     args = parser.parse_args(argv)
+    chosen = scenarios_chosen(args.scenarios)
 
     os.environ["DJANGO_SETTINGS_MODULE"] = "bench.settings"
     import django
@@ -68,6 +87,8 @@ def main(argv: list[str] | None = None) -> int:
         "runs": args.runs,
         "database": scenarios.connection_vendor(),
     }
+    for name in sorted(set(SCENARIOS) - chosen):
+        results[RESULT_KEYS.get(name, name)] = {"not_run": f"not chosen (--scenarios {args.scenarios})"}
     t0 = time.perf_counter()
     call_command("migrate", verbosity=0, interactive=False)
     results["migrate_s"] = round(time.perf_counter() - t0, 2)
@@ -77,61 +98,107 @@ def main(argv: list[str] | None = None) -> int:
     results["portfolio"] = portfolio.counts
     print(f"  generated {portfolio.counts} in {results['generate_s']} s", flush=True)
 
-    _guard(
-        results, "work_order_generation", lambda: scenarios.work_order_generation(portfolio=portfolio, runs=args.runs)
-    )
+    served = chosen & {"load", "sync"}
+    if "generation" in chosen:
+        _guard(
+            results,
+            "work_order_generation",
+            lambda: scenarios.work_order_generation(portfolio=portfolio, runs=args.runs),
+        )
+    elif chosen & {"load", "sync", "mixed_day"}:  # they read and write the generated work, made untimed here
+        from accounts.models import Organisation
+        from scheduling.engine import work_orders_generate
+
+        work_orders_generate(
+            organisation=Organisation.objects.get(pk=portfolio.main.organisation_id), today=portfolio.today
+        )
     workers = args.workers or 2 * (os.cpu_count() or 1) + 1
-    results["gunicorn_workers"] = workers
     try:
-        with Server(workers=workers, log_path=out_path.with_suffix(".gunicorn.log")) as server:
-            results["assigned_for_today"] = scenarios.today_work_assign(portfolio=portfolio)
-            _guard(
-                results,
-                "load",
-                lambda: scenarios.endpoints_under_load(
-                    portfolio=portfolio,
-                    port=server.port,
-                    runs=args.runs,
-                    clients=args.clients,
-                    per_client=args.per_client,
-                    max_seconds=args.max_seconds,
-                ),
-            )
-            # After the load figures: the copies made for the forms would otherwise sit on the board.
-            pairs = _guard(
-                results,
-                "sync_prepare",
-                lambda: scenarios.sync_forms_prepare(
-                    portfolio=portfolio, port=server.port, count=args.sync_forms, tag="a"
-                ),
-            )
-            if pairs:
-                _guard(results, "sync", lambda: scenarios.sync_forms(port=server.port, pairs=pairs))
-            elif "sync" not in results:
-                results["sync"] = results.get("sync_prepare") or {"not_run": "no forms prepared"}
-            results.pop("sync_prepare", None)
+        if served:
+            results["gunicorn_workers"] = workers
+            with Server(workers=workers, log_path=out_path.with_suffix(".gunicorn.log")) as server:
+                _served(results, args, chosen, portfolio=portfolio, port=server.port)
     except RuntimeError as exc:
-        results.setdefault("load", {"error": str(exc)})
-        results.setdefault("sync", {"error": str(exc)})
+        for name in sorted(served):
+            results.setdefault(name, {"error": str(exc)})
 
     from inspections.models import Inspection
 
     # The inspection report of a form synced just now (with evaluations), else of a history visit.
     latest = Inspection.objects.filter(organisation_id=portfolio.main.organisation_id).order_by("-pk").first()
     wo_public_id = str(latest.work_order.public_id) if latest else None
-    _guard(
-        results,
-        "reports",
-        lambda: scenarios.reports_render(portfolio=portfolio, runs=args.runs, work_order_public_id=wo_public_id),
-    )
-    _guard(results, "pwa_shell", lambda: scenarios.pwa_shell(portfolio=portfolio))
-    _guard(
-        results,
-        "registry_import",
-        lambda: scenarios.registry_import(portfolio=portfolio, runs=args.runs, rows=args.import_rows),
-    )
+    if "reports" in chosen:
+        _guard(
+            results,
+            "reports",
+            lambda: scenarios.reports_render(portfolio=portfolio, runs=args.runs, work_order_public_id=wo_public_id),
+        )
+    if "pwa_shell" in chosen:
+        _guard(results, "pwa_shell", lambda: scenarios.pwa_shell(portfolio=portfolio))
+    if "registry_import" in chosen:
+        _guard(
+            results,
+            "registry_import",
+            lambda: scenarios.registry_import(portfolio=portfolio, runs=args.runs, rows=args.import_rows),
+        )
+    if "mixed_day" in chosen:
+        # Last, in a server of its own: it adds organisations, forms and assignments that no other figure sees.
+        try:
+            with Server(workers=workers, log_path=out_path.with_suffix(".gunicorn.log")) as server:
+                results["gunicorn_workers"] = workers
+                _guard(results, "mixed_day", lambda: _mixed_day(args, portfolio=portfolio, port=server.port))
+        except RuntimeError as exc:
+            results.setdefault("mixed_day", {"error": str(exc)})
     out_path.write_text(json.dumps(results, indent=1, default=str))
     return 0
+
+
+def _mixed_day(args, *, portfolio, port: int) -> dict:
+    from .mixed_day import mixed_day
+
+    return mixed_day(
+        portfolio=portfolio,
+        port=port,
+        runs=args.runs,
+        clients=args.clients,
+        writers=args.day_writers,
+        seconds=args.day_seconds,
+        forms=args.day_forms,
+        extra_orgs=args.day_orgs,
+        years=args.years,
+    )
+
+
+def _served(results: dict, args, chosen: set[str], *, portfolio, port: int) -> None:
+    """The load and sync scenarios, in one gunicorn server."""
+    from . import scenarios
+
+    results["assigned_for_today"] = scenarios.today_work_assign(portfolio=portfolio)
+    if "load" in chosen:
+        _guard(
+            results,
+            "load",
+            lambda: scenarios.endpoints_under_load(
+                portfolio=portfolio,
+                port=port,
+                runs=args.runs,
+                clients=args.clients,
+                per_client=args.per_client,
+                max_seconds=args.max_seconds,
+            ),
+        )
+    if "sync" in chosen:
+        # After the load figures: the copies made for the forms would otherwise sit on the board.
+        pairs = _guard(
+            results,
+            "sync_prepare",
+            lambda: scenarios.sync_forms_prepare(portfolio=portfolio, port=port, count=args.sync_forms, tag="a"),
+        )
+        if pairs:
+            _guard(results, "sync", lambda: scenarios.sync_forms(port=port, pairs=pairs))
+        elif "sync" not in results:
+            results["sync"] = results.get("sync_prepare") or {"not_run": "no forms prepared"}
+        results.pop("sync_prepare", None)
 
 
 if __name__ == "__main__":

@@ -20,11 +20,16 @@ from collections.abc import Callable
 from django.db import connection, transaction
 from django.urls import NoReverseMatch, reverse
 
-from .generate import Portfolio
+from .generate import OrgSummary, Portfolio
 
 
 class NotRun(Exception):
     """A scenario whose feature has not landed (or cannot run here)."""
+
+
+class WrongOutcome(RuntimeError):
+    """A scenario's operations did not have the outcome it names (a form flagged instead of stored, a write
+    refused, a read not answered): its figures would measure another path, so it fails instead."""
 
 
 def median(values: list[float | None]) -> float | None:
@@ -135,15 +140,17 @@ def work_order_generation(*, portfolio: Portfolio, runs: int) -> dict:
     }
 
 
-def today_work_assign(*, portfolio: Portfolio, per_technician: int = 8) -> int:
-    """Give each technician ``per_technician`` open work orders scheduled for today (bench setup, not timed)."""
+def today_work_assign(*, portfolio: Portfolio, per_technician: int = 8, org: OrgSummary | None = None) -> int:
+    """Give each technician of ``org`` (default: the main organisation) ``per_technician`` open work orders
+    scheduled for today (bench setup, not timed)."""
     from accounts.models import User
     from scheduling.models import WorkOrder
 
-    techs = list(User.objects.filter(username__in=portfolio.main.technicians).order_by("username"))
+    org = org or portfolio.main
+    techs = list(User.objects.filter(username__in=org.technicians).order_by("username"))
     planned = list(
         WorkOrder.objects.filter(
-            organisation_id=portfolio.main.organisation_id,
+            organisation_id=org.organisation_id,
             kind=WorkOrder.Kind.PREVENTIVE,
             state=WorkOrder.State.PLANNED,
             assignee__isnull=True,
@@ -280,22 +287,33 @@ def _value_for(item: dict):
     return None  # text and photo items are left out
 
 
-def sync_forms_prepare(*, portfolio: Portfolio, port: int, count: int, tag: str) -> list[tuple[str, dict]]:
+def sync_forms_prepare(
+    *,
+    portfolio: Portfolio,
+    port: int,
+    count: int,
+    tag: str,
+    org: OrgSummary | None = None,
+    due_date: dt.date | None = None,
+) -> list[tuple[str, dict]]:
     """``count`` open work orders assigned to the technicians, and one complete form for each, built as the
     phone builds it from the checklist endpoint. Returns (technician token, form) pairs.
 
     The work orders are copies (same unit, same tasks, occurrence keys ``sync-<tag>-…``) of the generated
-    open ones, so even a small portfolio gives 1,000 distinct forms with real checklists.
+    open ones of ``org`` (default: the portfolio's main organisation), so even a small portfolio gives 1,000
+    distinct forms with real checklists. ``due_date`` moves the copies off today's lists and the board's
+    week (the mixed day reads those while the forms arrive); by default they keep their source's dates.
     """
     from accounts.models import User
     from scheduling.models import MeterReading, WorkOrder, WorkOrderTask
 
     from .load import get_json
 
+    org = org or portfolio.main
     url("inspections_api:sync")
-    techs = list(User.objects.filter(username__in=portfolio.main.technicians).order_by("username"))
+    techs = list(User.objects.filter(username__in=org.technicians).order_by("username"))
     sources = list(
-        WorkOrder.objects.filter(organisation_id=portfolio.main.organisation_id, state__in=WorkOrder.OPEN_STATES)
+        WorkOrder.objects.filter(organisation_id=org.organisation_id, state__in=WorkOrder.OPEN_STATES)
         .prefetch_related("tasks")
         .order_by("pk")[:200]
     )
@@ -313,8 +331,8 @@ def sync_forms_prepare(*, portfolio: Portfolio, port: int, count: int, tag: str)
                 priority=src.priority,
                 title=src.title,
                 assignee=techs[n % len(techs)],
-                due_date=src.due_date,
-                overdue_on=src.overdue_on,
+                due_date=due_date or src.due_date,
+                overdue_on=None if due_date else src.overdue_on,
             )
         )
         source_of.append(src)
@@ -330,12 +348,12 @@ def sync_forms_prepare(*, portfolio: Portfolio, port: int, count: int, tag: str)
                         ahu_id=t.ahu_id,
                         component_id=t.component_id,
                         component_key=t.component_key,
-                        due_date=t.due_date,
+                        due_date=due_date or t.due_date,
                         occurrence_key=f"sync-{tag}-{n}-{t.occurrence_key}"[:80],
                     )
                 )
         WorkOrderTask.objects.bulk_create(copy_tasks, batch_size=2000)
-    tokens = portfolio.main.tokens
+    tokens = org.tokens
     # The run-hour meter as the technician reads it: the unit's latest reading (never a jump the
     # plausibility rule refuses, whatever the time of day the bench runs).
     meter_hours: dict[int, float] = {}
@@ -393,6 +411,25 @@ def sync_forms_prepare(*, portfolio: Portfolio, port: int, count: int, tag: str)
     return pairs
 
 
+def forms_outcome_check(answers: list[dict], *, expected: int, status: str, what: str) -> None:
+    """Every one of ``expected`` sync results has ``status`` ("stored" on first arrival, "duplicate" on a
+    replay); else ``WrongOutcome`` naming how many came back otherwise and the first one's flags or errors."""
+    wrong = [r for r in answers if r.get("status") != status]
+    if len(answers) == expected and not wrong:
+        return
+    counts: dict[str, int] = {}
+    for r in answers:
+        counts[r.get("status", "?")] = counts.get(r.get("status", "?"), 0) + 1
+    detail = ""
+    if wrong:
+        first = wrong[0]
+        said = "; ".join(f.get("reason", f.get("code", "")) for f in first.get("flags") or [])
+        detail = f"; the first ({first.get('client_uuid')}) came back {first.get('status')!r}: " + (
+            said or str(first.get("errors") or "")[:300]
+        )
+    raise WrongOutcome(f"{what}: {expected} forms sent, answers {counts}, all should be {status!r}{detail}"[:900])
+
+
 def sync_forms(*, port: int, pairs: list[tuple[str, dict]], batch: int = 50) -> dict:
     """Post the forms (``batch`` a request, one technician a request), then replay them; baseline: the same
     bodies to the bare endpoint."""
@@ -432,6 +469,11 @@ def sync_forms(*, port: int, pairs: list[tuple[str, dict]], batch: int = 50) -> 
     for r in replay:
         replay_statuses[r.get("status", "?")] = replay_statuses.get(r.get("status", "?"), 0) + 1
     first_refusal = next((r.get("errors") for r in first if r.get("status") == "refused"), None)
+    # The figure is the cost of storing forms: flagged or refused ones take another path, so it fails instead.
+    forms_outcome_check(first, expected=len(pairs), status="stored", what="sync, first post")
+    forms_outcome_check(replay, expected=len(pairs), status="duplicate", what="sync, replay")
+    if mid - before != len(pairs) or after != mid:
+        raise WrongOutcome(f"sync: {mid - before} inspections stored for {len(pairs)} forms, {after - mid} on replay")
     return {
         "forms": len(pairs),
         "requests": len(bodies),

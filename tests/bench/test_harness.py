@@ -26,31 +26,42 @@ def test_a_tiny_run_writes_both_results_files(tmp_path):
         "10",
         "--import-rows",
         "250",
-        "--clients",
-        "2",
         "--per-client",
         "3",
         "--max-seconds",
         "5",
+        "--day-seconds",
+        "1",
+        "--day-forms",
+        "60",
+        "--clients",
+        "5",
         "--out",
         str(tmp_path),
     ]
-    proc = subprocess.run(cmd, cwd=ROOT, env=env, capture_output=True, text=True, timeout=240, check=False)
+    proc = subprocess.run(cmd, cwd=ROOT, env=env, capture_output=True, text=True, timeout=420, check=False)
     assert proc.returncode == 0, proc.stdout[-2000:] + proc.stderr[-2000:]
     doc = json.loads((tmp_path / "results.json").read_text())
     assert doc["database"] == "sqlite"
     (size,) = doc["sizes"]
-    for name in ("work_order_generation", "load", "sync", "reports", "pwa_shell", "registry_import"):
+    for name in ("work_order_generation", "load", "sync", "mixed_day", "reports", "pwa_shell", "registry_import"):
         assert name in size and "error" not in size[name], (name, size.get(name))
     assert size["sync"]["stored_replay"] == 0
     assert size["sync"]["stored_first"] == 10
     assert (size["registry_import"]["rows"], size["registry_import"]["created"]) == (250, 250)
     for name in ("today", "today_after_change", "board", "board_after_change", "baseline"):
         assert size["load"][name]["requests"] > 0 and not size["load"][name]["errors"], name
+    day = size["mixed_day"]
+    assert [o["slug"] for o in day["organisations"]] == ["main", "other", "day1", "day2"]
+    for kind in ("today", "board", "dashboard"):
+        assert day["read_only"][kind]["requests"] > 0 and day["under_writers"][kind]["requests"] > 0, kind
+    for kind in ("sync", "assign", "meter"):
+        assert day["under_writers"][kind]["requests"] > 0, kind
     md = (tmp_path / "results.md").read_text()
     assert md == results_markdown(doc)
     assert "## Work-order generation" in md and "## PWA app shell" in md and "## Registry CSV import" in md
     assert "| today, kept |" in md and "| board, first pass after a change |" in md
+    assert "## Mixed day" in md and "| under writers | sync, one form a request |" in md
 
 
 def _doc(size: dict) -> dict:
