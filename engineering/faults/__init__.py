@@ -6,14 +6,22 @@
   windows, the share of applicable operating time and, where the inputs
   allow, a ventilation or energy consequence.
 - ``freeze_events``: supply air below the freeze-protection stages.
-- ``resample``: irregular or change-of-value logs onto one regular grid.
+- ``resample`` / ``evaluate_ahu_logs``: irregular or change-of-value logs onto one
+  regular grid (zero-order hold with a staleness limit), then judged.
 
 Pure numpy, vectorised over units × samples; no Django, DRF or Celery.
 """
 
 from engineering.faults._series import ROLES, Resampled, resample
 from engineering.faults.consequences import Consequence
-from engineering.faults.engine import AhuFaults, FaultResult, FaultWindow, evaluate_ahu, evaluate_ahus
+from engineering.faults.engine import (
+    AhuFaults,
+    FaultResult,
+    FaultWindow,
+    evaluate_ahu,
+    evaluate_ahu_logs,
+    evaluate_ahus,
+)
 from engineering.faults.freeze import (
     G36_FREEZE_STAGES,
     FreezeEvent,
@@ -43,6 +51,7 @@ __all__ = [
     "OperatingState",
     "Resampled",
     "evaluate_ahu",
+    "evaluate_ahu_logs",
     "evaluate_ahus",
     "freeze_events",
     "freeze_events_batch",

@@ -108,6 +108,23 @@ def evaluate_ahu(
     return evaluate_ahus(times=times, points=points, thresholds=thresholds)[0]
 
 
+def evaluate_ahu_logs(
+    *,
+    series: Mapping[str, tuple[Sequence, Sequence] | float],
+    step_s: float,
+    thresholds: FaultThresholds = G36_DEFAULTS,
+    max_hold_s: float | None = None,
+) -> AhuFaults:
+    """Judge one AHU from point logs with their own, possibly irregular, times.
+
+    The logs are first put on a grid of ``step_s`` by ``resample`` (each grid
+    time takes the last logged value, held at most ``max_hold_s``; see there),
+    then judged by ``evaluate_ahu``.
+    """
+    grid = s.resample(series=series, step_s=step_s, max_hold_s=max_hold_s)
+    return evaluate_ahu(times=grid.times, points=grid.points, thresholds=thresholds)
+
+
 def evaluate_ahus(
     *,
     times: Sequence[Time] | np.ndarray,

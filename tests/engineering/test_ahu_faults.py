@@ -21,6 +21,7 @@ from engineering.faults import (
     G36_DEFAULTS,
     OperatingState,
     evaluate_ahu,
+    evaluate_ahu_logs,
     evaluate_ahus,
     operating_states,
     resample,
@@ -464,3 +465,13 @@ def test_fan_status_rules_over_speed_and_numbers_serve_as_times():
     ).results["FC5"]
     assert not r.present
     assert r.applicable_s == (N - 60 - 15) * 60  # the start of the fan is a state change: 15 min rest
+
+
+def test_irregular_logs_are_resampled_then_judged():
+    """A change-of-value log (rows only when a value changes, seconds of jitter) is held onto a 1-minute grid."""
+    pts = unit(1, sat=(slice(40, 90), 5.0))
+    stamps = [T0 + timedelta(minutes=i, seconds=3 * (i % 4)) for i in range(N)]
+    series = {role: ((stamps, value) if np.ndim(value) else value) for role, value in pts.items()}
+    r = evaluate_ahu_logs(series=series, step_s=60).results["FC5"]
+    # The 5-minute average of 20 °C falling to 5 °C passes the FC#5 limit of 13.03 °C on the third cold minute.
+    assert r.present and r.windows[0].start == T0 + timedelta(minutes=42)
