@@ -86,7 +86,8 @@ def allowed_point_classes() -> str:
 
 
 # A component's Brick equipment class, by its kind and the spec that tells its job (Brick has no class for an
-# intake screen, a drain pan or an electric preheater: those are plain equipment; Plenum's kind travels with it).
+# intake screen, a drain pan or an electric preheater: those are HVAC_Equipment, as Brick's shapes ask of an AHU's
+# parts; Plenum's kind travels with each part).
 _BY_SPEC: dict[str, tuple[str, dict[str, str]]] = {
     "fan": ("role", {"supply": "Supply_Fan", "return": "Return_Fan", "exhaust": "Exhaust_Fan"}),
     "damper": (
@@ -110,12 +111,12 @@ def component_brick_class(*, kind: str, specs: dict) -> str:
         found = table.get(str(specs.get(spec, "")))
         if found:
             return found
-    return _BY_KIND.get(kind, "Equipment")
+    return _BY_KIND.get(kind, "HVAC_Equipment")
 
 
 def all_brick_names() -> set[str]:
     """Every Brick class name this module uses (points, equipment, the registry's own)."""
-    names = set(POINT_CLASSES) | set(_BY_KIND.values()) | {"Equipment", "Site", "Building", "AHU"}
+    names = set(POINT_CLASSES) | set(_BY_KIND.values()) | {"HVAC_Equipment", "AHU"}
     for _spec, table in _BY_SPEC.values():
         names |= set(table.values())
     return names
