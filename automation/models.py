@@ -18,7 +18,7 @@ import uuid
 from array import array
 
 from django.conf import settings
-from django.core.validators import MaxValueValidator
+from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import models
 from django.db.models import Q
 from django.utils import timezone
@@ -167,3 +167,45 @@ class TrendImportJob(models.Model):
 
     def __str__(self) -> str:
         return f"trend import {self.public_id} ({self.status})"
+
+
+class BacnetDevice(models.Model):
+    """A BACnet/IP device of a site that holds mapped points: where the poller reaches it, how often, and how it
+    answered last (``automation.polling``). Points name their device by its instance (``Point``)."""
+
+    site = models.ForeignKey(Site, on_delete=models.CASCADE, related_name="bacnet_devices")
+    device_instance = models.PositiveIntegerField(
+        "BACnet device instance", validators=[MaxValueValidator(BACNET_DEVICE_MAX)]
+    )
+    address = models.CharField(
+        "BACnet/IP address", max_length=60, help_text="host:port as the poller reaches it (port 47808 if left out)."
+    )
+    poll_seconds = models.PositiveIntegerField(
+        "Poll every (s)", default=900, validators=[MinValueValidator(10), MaxValueValidator(86_400)]
+    )
+    read_multiple = models.BooleanField(
+        null=True, editable=False, help_text="Whether the device answers ReadPropertyMultiple (empty: not yet known)."
+    )
+    polled_at = models.DateTimeField(null=True, blank=True, editable=False)
+    answered_at = models.DateTimeField(null=True, blank=True, editable=False)
+    error = models.CharField(max_length=300, blank=True, editable=False, help_text="Why the last poll got no answer.")
+
+    class Meta:
+        ordering = ["site", "device_instance"]
+        constraints = [
+            models.UniqueConstraint(fields=["site", "device_instance"], name="bacnet_device_unique_in_site"),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.site} / BACnet device {self.device_instance}"
+
+
+class PointPoll(models.Model):
+    """The last poll of one point: when, and why it brought no value (empty when it did)."""
+
+    point = models.OneToOneField(Point, on_delete=models.CASCADE, primary_key=True, related_name="poll")
+    polled_at = models.DateTimeField()
+    reason = models.CharField(max_length=300, blank=True)
+
+    def __str__(self) -> str:
+        return f"{self.point}: {self.reason or 'read'}"
