@@ -1,16 +1,464 @@
-"""Trend samples: storing, reading and purging day buckets (``automation.models.TrendDay``)."""
+"""Trend samples: the CSV import in the two layouts automation systems export, storing and purging day buckets.
+
+Layouts (the first row is the header; any interval, gaps allowed: an empty cell is no sample):
+
+- ``wide``: one row per timestamp, the first column the time, then a column per point
+  (``timestamp,AHU1.SAT,AHU1.FILT-DP`` / ``2026-01-05 08:00,16.8,142``);
+- ``long``: one row per timestamp, point and value, columns ``timestamp``, ``point``, ``value``.
+
+A point is named as the automation system names it (``Point.name``); where two units of the site have a point
+of that name, ``<unit tag>/<point name>`` says which. A time without a zone is the site's (``accounts.inputs.
+check_reading_time``: not before 2000, not in the future); in the hour that a clock change repeats, the second
+pass of a time is read as the later one. Values are numbers in the point's SI unit within a plausible range
+(``vocabulary.PLAUSIBLE``); on/off points take 1/0, on/off, true/false or active/inactive.
+
+All or nothing, like the registry's CSV import (``inventory.csv_io``): every bad row or cell is listed with its
+line, column, value and what is allowed, and then nothing is stored. A sample at a time already stored for the
+point replaces it, so importing the same file twice changes nothing.
+"""
 
 from __future__ import annotations
+
+import csv
+import datetime as dt
+import io
+import logging
+from collections import defaultdict
+from collections.abc import Callable
+from dataclasses import dataclass
+from typing import Any
 
 from django.db import transaction
 from django.utils import timezone
 
-from .models import TrendDay, trend_retention
+from accounts.inputs import FieldErrors, check_reading_time, parse_number
+from accounts.models import User
+from inventory.csv_io import BYTE_ORDER_MARK, ImportFailed, RowError, control_character_errors, data_rows
+from inventory.models import Site
+
+from .models import Point, TrendDay, TrendImportJob, trend_retention
+from .vocabulary import PLAUSIBLE, PointUnit
+
+logger = logging.getLogger(__name__)
+
+LAYOUTS = ("wide", "long")
+LONG_COLUMNS = ("timestamp", "point", "value")
+# A file of this many rows or more goes to a background job (a web worker is killed after about 30 s).
+BACKGROUND_ROWS = 20_000
+CHUNK = 500
+_ON = {"1", "on", "true", "active", "yes", "run", "running"}
+_OFF = {"0", "off", "false", "inactive", "no", "stop", "stopped"}
+
+
+@dataclass
+class TrendImportResult:
+    rows: int = 0
+    values: int = 0
+    points: int = 0
+    first: dt.datetime | None = None
+    last: dt.datetime | None = None
+
+    def as_dict(self) -> dict[str, Any]:
+        return {
+            "rows": self.rows,
+            "values": self.values,
+            "points": self.points,
+            "first": self.first.isoformat() if self.first else None,
+            "last": self.last.isoformat() if self.last else None,
+        }
+
+
+# ---------------------------------------------------------------------------
+# Cells
+# ---------------------------------------------------------------------------
+class _Points:
+    """The site's points by the names a file may use for them."""
+
+    def __init__(self, site: Site):
+        self.by_name: dict[str, list[Point]] = defaultdict(list)
+        self.by_unit_name: dict[str, Point] = {}
+        for point in Point.objects.filter(ahu__building__site=site).select_related("ahu"):
+            self.by_name[point.name].append(point)
+            self.by_unit_name[f"{point.ahu.tag}/{point.name}"] = point
+
+    def find(self, raw: str) -> tuple[Point | None, str]:
+        name = raw.strip()
+        found = self.by_name.get(name, [])
+        if len(found) == 1:
+            return found[0], ""
+        if name in self.by_unit_name:
+            return self.by_unit_name[name], ""
+        if found:
+            tags = ", ".join(sorted(f"{p.ahu.tag}/{p.name}" for p in found))
+            return None, f"more than one unit has a point of this name; allowed: one of {tags}"
+        return None, "no point of the site has this name; allowed: a point name of the site's point map"
+
+
+def _value(raw: str, point: Point) -> tuple[float | None, str]:
+    """The cell as a value in the point's SI unit, or the reason it is refused."""
+    text = raw.strip()
+    if point.unit == PointUnit.UNITLESS:
+        word = text.lower()
+        if word in _ON:
+            return 1.0, ""
+        if word in _OFF:
+            return 0.0, ""
+        # A number read as on/off: 1.0 and 0.0 as BAS trend logs write them.
+        number = parse_number(text)
+        if number in (0.0, 1.0):
+            return number, ""
+        return None, "is not on or off; allowed: 1 or 0, on or off, true or false, active or inactive"
+    number = parse_number(text)
+    low, high = PLAUSIBLE[point.unit]
+    label = PointUnit(point.unit).label
+    allowed = f"a number from {low:g} to {high:g} {label}"
+    if number is None:
+        return None, f"is not a number; allowed: {allowed}"
+    if not low <= number <= high:
+        return None, f"is out of range for a {point.brick_class}; allowed: {allowed}"
+    return number, ""
+
+
+class _Clock:
+    """Reads the time cells of one file in the site's zone; a local time that repeats in the hour a clock change
+    repeats is read the second time as the later one."""
+
+    def __init__(self, site: Site, now: dt.datetime):
+        self.zone = site.time_zone
+        self.now = now
+        self.seen: dict[str, int] = {}
+        self.last_raw: str | None = None
+
+    def read(self, raw: str, *, line: int, column: str, errors: list[RowError]) -> dt.datetime | None:
+        problems = FieldErrors()
+        when = check_reading_time(raw, key=column, label="Time", tz=self.zone, now=self.now, errors=problems)
+        if when is None:
+            errors.extend(RowError(line, column, raw, m) for m in problems.get(column, []))
+            return None
+        naive = raw.strip()
+        if naive != self.last_raw and naive in self.seen and when.fold == 0:
+            later = when.replace(fold=1)
+            if later.utcoffset() != when.utcoffset():
+                when = later
+        self.seen[naive] = line
+        self.last_raw = naive
+        return when.astimezone(dt.UTC)
+
+
+# ---------------------------------------------------------------------------
+# Import
+# ---------------------------------------------------------------------------
+Samples = dict[int, dict[dt.datetime, float]]  # point id -> time (UTC) -> value
+
+
+def _put(
+    samples: Samples,
+    lines: dict,
+    point: Point,
+    when: dt.datetime,
+    value: float,
+    *,
+    line: int,
+    column: str,
+    raw: str,
+    errors: list[RowError],
+) -> None:
+    earlier = lines.get((point.pk, when))
+    if earlier is not None and samples[point.pk][when] != value:
+        errors.append(
+            RowError(
+                line,
+                column,
+                raw,
+                f"a second value for {point.name} at {when.isoformat()} "
+                f"(the first is on line {earlier}); allowed: one value a time",
+            )
+        )
+        return
+    samples[point.pk][when] = value
+    lines[(point.pk, when)] = line
+
+
+def _read_wide(
+    reader, points: _Points, clock: _Clock, samples: Samples, errors: list[RowError], progress: Callable[[int], None]
+) -> int:
+    header = next(reader, None)
+    if not header or len(header) < 2:
+        raise ImportFailed([RowError(1, "", "", "the header must name the time column and at least one point column")])
+    columns: list[Point | None] = [None]
+    for raw in header[1:]:
+        point, problem = points.find(raw)
+        if problem:
+            errors.append(RowError(1, raw, raw, problem))
+        columns.append(point)
+    if errors:
+        raise ImportFailed(errors)
+    lines: dict = {}
+    rows = 0
+    for record in reader:
+        if not any(cell.strip() for cell in record):
+            continue
+        rows += 1
+        line = reader.line_num
+        if len(record) != len(header):
+            errors.append(
+                RowError(
+                    line,
+                    "",
+                    ",".join(record)[:80],
+                    f"has {len(record)} cells; allowed: {len(header)}, one per column of the header",
+                )
+            )
+            continue
+        when = clock.read(record[0], line=line, column=header[0], errors=errors)
+        for index in range(1, len(header)):
+            raw = record[index]
+            if not raw.strip():
+                continue
+            point = columns[index]
+            value, problem = _value(raw, point)
+            if problem:
+                errors.append(RowError(line, header[index], raw, problem))
+            elif when is not None:
+                _put(samples, lines, point, when, value, line=line, column=header[index], raw=raw, errors=errors)
+        progress(rows)
+    return rows
+
+
+def _read_long(
+    reader, points: _Points, clock: _Clock, samples: Samples, errors: list[RowError], progress: Callable[[int], None]
+) -> int:
+    header = [h.strip().lower() for h in next(reader, None) or []]
+    if header[:3] != list(LONG_COLUMNS) or len(header) != 3:
+        raise ImportFailed([RowError(1, "", ",".join(header), f"the header must be {','.join(LONG_COLUMNS)}")])
+    lines: dict = {}
+    rows = 0
+    found: dict[str, tuple[Point | None, str]] = {}
+    for record in reader:
+        if not any(cell.strip() for cell in record):
+            continue
+        rows += 1
+        line = reader.line_num
+        if len(record) != 3:
+            errors.append(
+                RowError(
+                    line, "", ",".join(record)[:80], f"has {len(record)} cells; allowed: 3 (timestamp, point, value)"
+                )
+            )
+            continue
+        raw_time, raw_point, raw = record
+        when = clock.read(raw_time, line=line, column="timestamp", errors=errors)
+        if raw_point not in found:
+            found[raw_point] = points.find(raw_point)
+        point, problem = found[raw_point]
+        if problem:
+            errors.append(RowError(line, "point", raw_point, problem))
+            continue
+        if not raw.strip():
+            errors.append(
+                RowError(
+                    line, "value", raw, "is empty; allowed: the point's value (leave the row out when there is none)"
+                )
+            )
+            continue
+        value, problem = _value(raw, point)
+        if problem:
+            errors.append(RowError(line, "value", raw, problem))
+        elif when is not None:
+            _put(samples, lines, point, when, value, line=line, column="value", raw=raw, errors=errors)
+        progress(rows)
+    return rows
+
+
+def trend_import(
+    *,
+    site: Site,
+    text: str,
+    layout: str,
+    by: User | None = None,
+    now: dt.datetime | None = None,
+    progress: Callable[[int, int], None] | None = None,
+    finish: Callable[[TrendImportResult], None] | None = None,
+) -> TrendImportResult:
+    """Import a trend CSV of ``layout`` for ``site``'s points: every value or none.
+
+    Raises ``ImportFailed`` listing every bad row and cell. ``finish(result)`` runs inside the write's
+    transaction (a job records its outcome with the values it stored, or neither)."""
+    if layout not in LAYOUTS:
+        raise ImportFailed([RowError(0, "layout", str(layout), f"is not a layout; allowed: {', '.join(LAYOUTS)}")])
+    refused = control_character_errors(text)
+    if refused:
+        raise ImportFailed(refused)
+    text = text.removeprefix(BYTE_ORDER_MARK)
+    total = data_rows(text)
+    reader = csv.reader(io.StringIO(text, newline=""))
+    points = _Points(site)
+    clock = _Clock(site, now or timezone.now())
+    samples: Samples = defaultdict(dict)
+    errors: list[RowError] = []
+
+    def rows_done(done: int) -> None:
+        if progress is not None and done % 1000 == 0:
+            progress(done, total)
+
+    read = _read_wide if layout == "wide" else _read_long
+    try:
+        rows = read(reader, points, clock, samples, errors, rows_done)
+    except csv.Error as exc:
+        errors.append(RowError(reader.line_num, "", "", f"this line cannot be read as CSV: {exc}"))
+        rows = 0
+    if errors:
+        raise ImportFailed(errors)
+    if rows == 0:
+        raise ImportFailed([RowError(2, "", "", "the file has a header but no rows of values")])
+    result = TrendImportResult(rows=rows)
+    with transaction.atomic():
+        _store(samples, result)
+        if by is not None:
+            from accounts.services import audit_record
+
+            audit_record(
+                actor=by,
+                obj=site,
+                action="trend_import",
+                organisation=site.organisation,
+                changes={"layout": layout, **result.as_dict()},
+            )
+        if finish is not None:
+            finish(result)
+    return result
+
+
+def _store(samples: Samples, result: TrendImportResult) -> None:
+    """Merge the samples into the points' day buckets (one read and one bulk write per chunk of buckets)."""
+    by_bucket: dict[tuple[int, dt.date], dict[int, float]] = defaultdict(dict)
+    for point_id, values in samples.items():
+        for when, value in values.items():
+            midnight = when.replace(hour=0, minute=0, second=0, microsecond=0)
+            by_bucket[(point_id, when.date())][int((when - midnight).total_seconds())] = value
+            result.values += 1
+            result.first = when if result.first is None or when < result.first else result.first
+            result.last = when if result.last is None or when > result.last else result.last
+    result.points = len(samples)
+    keys = sorted(by_bucket)
+    for start in range(0, len(keys), CHUNK):
+        chunk = keys[start : start + CHUNK]
+        point_ids = {p for p, _d in chunk}
+        days = {d for _p, d in chunk}
+        stored = {
+            (b.point_id, b.day): b
+            for b in TrendDay.objects.select_for_update().filter(point_id__in=point_ids, day__in=days)
+        }
+        new, changed = [], []
+        for key in chunk:
+            bucket = stored.get(key)
+            if bucket is None:
+                bucket = TrendDay(point_id=key[0], day=key[1])
+                merged = by_bucket[key]
+                new.append(bucket)
+            else:
+                merged = {
+                    int((when - dt.datetime.combine(bucket.day, dt.time(), tzinfo=dt.UTC)).total_seconds()): v
+                    for when, v in bucket.samples()
+                }
+                merged.update(by_bucket[key])
+                changed.append(bucket)
+            bucket.set_samples(merged)
+        TrendDay.objects.bulk_create(new)
+        TrendDay.objects.bulk_update(changed, ["seconds", "values", "count"])
+    for point_id, values in samples.items():
+        latest = max(values)
+        Point.objects.filter(pk=point_id).exclude(last_value_at__gt=latest).update(
+            last_value=values[latest], last_value_at=latest, stale=False
+        )
+
+
+def trend_samples(*, point: Point, since: dt.datetime, until: dt.datetime) -> list[tuple[dt.datetime, float]]:
+    """A point's samples from ``since`` up to ``until`` (UTC-aware), in time order."""
+    out = []
+    for bucket in TrendDay.objects.filter(point=point, day__gte=since.date(), day__lte=until.date()).order_by("day"):
+        out.extend((when, value) for when, value in bucket.samples() if since <= when <= until)
+    return out
+
+
+# ---------------------------------------------------------------------------
+# Background jobs and retention
+# ---------------------------------------------------------------------------
+FINISHED = {TrendImportJob.Status.DONE, TrendImportJob.Status.REFUSED, TrendImportJob.Status.FAILED}
+
+
+def trend_import_runs_in_background(*, text: str) -> bool:
+    return data_rows(text, at_most=BACKGROUND_ROWS) >= BACKGROUND_ROWS
 
 
 @transaction.atomic
-def trend_purge() -> int:
+def trend_import_job_create(
+    *, site: Site, text: str, layout: str, by: User | None, file_name: str = ""
+) -> TrendImportJob:
+    """Store the file as a queued job and queue its run after commit (the caller checked ``by`` manages ``site``)."""
+    if layout not in LAYOUTS:
+        raise ImportFailed([RowError(0, "layout", str(layout), f"is not a layout; allowed: {', '.join(LAYOUTS)}")])
+    refused = control_character_errors(text)
+    if refused:
+        raise ImportFailed(refused)
+    job = TrendImportJob.objects.create(
+        organisation=site.organisation,
+        site=site,
+        layout=layout,
+        requested_by=by if getattr(by, "is_authenticated", False) else None,
+        file_name=file_name[:200],
+        source=text,
+        rows_total=data_rows(text),
+    )
+    job_id = job.pk
+    transaction.on_commit(lambda: _enqueue(job_id))
+    return job
+
+
+def _enqueue(job_id: int) -> None:
+    from .tasks import trend_import_job_run as task
+
+    task.delay(job_id)
+
+
+def trend_import_job_run(*, job_id: int) -> TrendImportJob:
+    """Check every row of the job's file, then store every value or none. A finished job is left as it is."""
+    job = TrendImportJob.objects.select_related("site__organisation", "requested_by").get(pk=job_id)
+    if job.status in FINISHED:
+        return job
+    TrendImportJob.objects.filter(pk=job_id).update(status=TrendImportJob.Status.CHECKING)
+
+    def finish(result: TrendImportResult) -> None:
+        _finished(
+            job_id,
+            status=TrendImportJob.Status.DONE,
+            values_stored=result.values,
+            detail=f"imported {result.values} values of {result.points} points from {result.rows} rows",
+        )
+
+    try:
+        trend_import(site=job.site, text=job.source, layout=job.layout, by=job.requested_by, finish=finish)
+    except ImportFailed as exc:
+        _finished(
+            job_id, status=TrendImportJob.Status.REFUSED, errors=[e.as_dict() for e in exc.errors], detail=str(exc)
+        )
+    except Exception:  # whatever went wrong must end up on the job, not vanish in a worker
+        logger.exception("trend import job %s failed", job.public_id)
+        _finished(
+            job_id,
+            status=TrendImportJob.Status.FAILED,
+            detail="the import stopped on an unexpected error; nothing was imported. Try again or ask an admin.",
+        )
+    return TrendImportJob.objects.get(pk=job_id)
+
+
+def _finished(job_id: int, *, status: str, **fields: Any) -> None:
+    TrendImportJob.objects.filter(pk=job_id).update(status=status, source="", finished_at=timezone.now(), **fields)
+
+
+@transaction.atomic
+def trend_purge(*, now: dt.datetime | None = None) -> int:
     """Delete day buckets older than ``PLENUM_TREND_RETENTION_DAYS``; returns how many were deleted."""
-    cutoff = (timezone.now() - trend_retention()).date()
+    cutoff = ((now or timezone.now()) - trend_retention()).date()
     deleted, _ = TrendDay.objects.filter(day__lt=cutoff).delete()
     return deleted

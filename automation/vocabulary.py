@@ -120,3 +120,15 @@ def all_brick_names() -> set[str]:
     for _spec, table in _BY_SPEC.values():
         names |= set(table.values())
     return names
+
+
+# Values a point of each unit may plausibly hold (wider than any AHU's normal range; a value outside is a wrong
+# column, a wrong unit or a sensor fault code such as -999). Common practice.
+PLAUSIBLE: dict[str, tuple[float, float]] = {
+    PointUnit.DEG_C: (-60.0, 200.0),
+    PointUnit.PA: (-10_000.0, 10_000.0),
+    PointUnit.PERCENT: (0.0, 100.0),
+    PointUnit.PPM: (0.0, 50_000.0),
+    PointUnit.M3_PER_SEC: (0.0, 200.0),
+    PointUnit.UNITLESS: (0.0, 1.0),
+}
