@@ -2,7 +2,7 @@
 
 Each size runs in its own process against its own throwaway database: a
 temporary SQLite file by default, or — when ``DATABASE_URL`` names a
-PostgreSQL server — a ``plenum_bench`` database created on that server and
+PostgreSQL server — a ``plenum_bench_<pid>`` database created on that server and
 dropped afterwards. The developer's own database is never touched. Results go
 to ``bench/results.json`` and ``bench/results.md``.
 """
@@ -29,7 +29,8 @@ HERE = Path(__file__).resolve().parent
 ROOT = HERE.parent
 SMALL = [50, 200]
 LARGE = [500, 5000]
-PG_BENCH_DB = "plenum_bench"
+# One database per harness process, so two people benchmarking on one server never drop each other's.
+PG_BENCH_DB = f"plenum_bench_{os.getpid()}"
 
 
 def sites_for(ahus: int) -> int:

@@ -1,7 +1,7 @@
 """Settings of a benchmark run: the app's base settings against a throwaway database.
 
 ``DATABASE_URL`` is set by the harness to the run's own database (a temporary
-SQLite file, or a ``plenum_bench`` PostgreSQL database it creates and drops).
+SQLite file, or a ``plenum_bench_<pid>`` PostgreSQL database it creates and drops).
 """
 
 import os
