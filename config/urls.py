@@ -23,6 +23,7 @@ urlpatterns = [
     path("api/scheduling/", include("scheduling.api_urls")),
     path("api/inspections/", include("inspections.api_urls")),
     path("api/reports/", include("reports.api_urls")),
+    path("api/automation/", include("automation.api_urls")),
     path("", include("inventory.urls")),
     path("", include("scheduling.urls")),
     path("", include("inspections.urls")),

@@ -1,0 +1,141 @@
+"""Input and output shapes of the automation API. No domain logic here: services check the values."""
+
+from rest_framework import serializers
+
+from inventory.serializers import NamesValueMixin
+
+from .models import BacnetObjectType, Point, TrendImportJob
+from .trends import LAYOUTS
+from .vocabulary import POINT_CLASSES, PointUnit
+
+_ID = {"min_value": 1, "max_value": 2**63 - 1}
+
+
+class PointOutput(serializers.ModelSerializer):
+    site = serializers.IntegerField(source="ahu.building.site_id")
+    unit_tag = serializers.CharField(source="ahu.tag")
+    component_name = serializers.CharField(source="component.name", allow_null=True, default=None)
+    brick_class_label = serializers.CharField(source="get_brick_class_display")
+
+    class Meta:
+        model = Point
+        fields = [
+            "id",
+            "site",
+            "ahu",
+            "unit_tag",
+            "component",
+            "component_name",
+            "name",
+            "brick_class",
+            "brick_class_label",
+            "unit",
+            "bacnet_device_instance",
+            "bacnet_object_type",
+            "bacnet_object_instance",
+            "last_value",
+            "last_value_at",
+            "stale",
+        ]
+
+
+class PointInput(NamesValueMixin, serializers.Serializer):
+    """A point's fields as sent; the service checks them against the unit, its parts and the vocabulary."""
+
+    ahu = serializers.IntegerField(help_text="The unit's id.", **_ID)
+    component = serializers.IntegerField(required=False, allow_null=True, help_text="A part of the unit.", **_ID)
+    name = serializers.CharField(max_length=200, help_text="The point's name in the automation system.")
+    # Text, not choices: the service's refusal names the value and every class (or unit) allowed.
+    brick_class = serializers.CharField(max_length=60, help_text="The Brick Schema class: " + ", ".join(POINT_CLASSES))
+    unit = serializers.CharField(
+        max_length=20,
+        required=False,
+        allow_blank=True,
+        help_text="Empty: the class's SI unit; else one of " + ", ".join(PointUnit.values),
+    )
+    bacnet_device_instance = serializers.IntegerField(required=False, allow_null=True, min_value=0, max_value=2**31)
+    bacnet_object_type = serializers.CharField(
+        max_length=30, required=False, allow_blank=True, help_text=", ".join(BacnetObjectType.values)
+    )
+    bacnet_object_instance = serializers.IntegerField(required=False, allow_null=True, min_value=0, max_value=2**31)
+
+
+class PointChangeInput(PointInput):
+    """The fields to change (the unit stays)."""
+
+    ahu = None
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, partial=True, **kwargs)
+
+
+class TrendUploadInput(serializers.Serializer):
+    file = serializers.FileField(help_text="CSV, UTF-8, header row first.")
+    layout = serializers.ChoiceField(
+        choices=LAYOUTS, help_text="wide: a column per point; long: columns timestamp, point, value."
+    )
+    background = serializers.BooleanField(
+        required=False,
+        allow_null=True,
+        default=None,
+        help_text="Import as a background job (202 with the job to poll). Unset: files of 20,000 rows or more.",
+    )
+
+
+class TrendResultOutput(serializers.Serializer):
+    rows = serializers.IntegerField()
+    values = serializers.IntegerField()
+    points = serializers.IntegerField()
+    first = serializers.DateTimeField(allow_null=True)
+    last = serializers.DateTimeField(allow_null=True)
+
+
+class RowErrorOutput(serializers.Serializer):
+    line = serializers.IntegerField()
+    column = serializers.CharField()
+    value = serializers.CharField()
+    reason = serializers.CharField()
+
+
+class RowErrorsOutput(serializers.Serializer):
+    detail = serializers.CharField()
+    errors = RowErrorOutput(many=True)
+
+
+class TrendImportJobOutput(serializers.Serializer):
+    id = serializers.UUIDField(source="public_id")
+    site = serializers.IntegerField(source="site_id")
+    layout = serializers.CharField()
+    status = serializers.ChoiceField(choices=TrendImportJob.Status.choices)
+    status_label = serializers.CharField(source="get_status_display")
+    file_name = serializers.CharField()
+    rows_total = serializers.IntegerField()
+    values_stored = serializers.IntegerField()
+    detail = serializers.CharField()
+    errors = RowErrorOutput(many=True)
+    created_at = serializers.DateTimeField()
+    finished_at = serializers.DateTimeField(allow_null=True)
+
+
+class BrickImportInput(serializers.Serializer):
+    file = serializers.FileField(help_text="A Brick model in Turtle, as the export writes it.")
+    organisation = serializers.SlugField(required=False, help_text="Needed when you manage several.")
+
+
+class BrickProblemOutput(serializers.Serializer):
+    subject = serializers.CharField()
+    field = serializers.CharField()
+    value = serializers.CharField()
+    reason = serializers.CharField()
+
+
+class BrickProblemsOutput(serializers.Serializer):
+    detail = serializers.CharField()
+    errors = BrickProblemOutput(many=True)
+
+
+class BrickImportOutput(serializers.Serializer):
+    site = serializers.IntegerField(source="pk")
+    code = serializers.CharField()
+    name = serializers.CharField()
+    points = serializers.IntegerField()
