@@ -17,6 +17,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 HOST = "127.0.0.1"
+START_SECONDS = 180
 ROOT = Path(__file__).resolve().parent.parent
 
 
@@ -57,7 +58,8 @@ class Server:
             "warning",
         ]
         self.proc = subprocess.Popen(gunicorn, cwd=ROOT, env=env, stdout=self.log, stderr=self.log)
-        deadline = time.monotonic() + 60
+        # Workers import the whole app before they answer; on a busy shared machine that can take a minute or more.
+        deadline = time.monotonic() + START_SECONDS
         while time.monotonic() < deadline:
             if self.proc.poll() is not None:
                 raise RuntimeError(f"gunicorn exited with {self.proc.returncode}; see {self.log_path}")
@@ -69,7 +71,7 @@ class Server:
                 pass
             time.sleep(0.2)
         self.__exit__(None, None, None)
-        raise RuntimeError(f"gunicorn did not answer within 60 s; see {self.log_path}")
+        raise RuntimeError(f"gunicorn did not answer within {START_SECONDS} s; see {self.log_path}")
 
     def __exit__(self, *exc) -> None:
         if self.proc and self.proc.poll() is None:
