@@ -87,7 +87,9 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--sync-forms", type=int, default=1000)
     parser.add_argument("--import-rows", type=int, default=100_000, help="rows of the registry import file")
     parser.add_argument("--years", type=int, default=2)
-    parser.add_argument("--clients", type=int, default=20, help="concurrent clients of the load scenario")
+    parser.add_argument(
+        "--clients", type=int, default=20, help="concurrent clients of the load scenario; readers of the mixed day"
+    )
     parser.add_argument("--per-client", type=int, default=25, help="requests each client sends (bounded)")
     parser.add_argument("--max-seconds", type=float, default=20.0, help="time bound of one load loop")
     parser.add_argument(
