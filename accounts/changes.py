@@ -17,7 +17,9 @@ after ``settings.PLENUM_ANSWER_CACHE_SECONDS``.
 from __future__ import annotations
 
 import logging
-from collections.abc import Iterable
+from collections.abc import Iterable, Iterator
+from contextlib import contextmanager
+from contextvars import ContextVar
 
 from django.db import DatabaseError, transaction
 from django.db.models import F
@@ -28,20 +30,50 @@ logger = logging.getLogger(__name__)
 
 Versions = tuple[tuple[int, int], ...]  # ((organisation id, version), ...) by organisation id
 
+# The organisations changed so far inside ``changes_deferred`` (None outside it).
+_deferred: ContextVar[set[int] | None] = ContextVar("plenum_changes_deferred", default=None)
+
 
 def organisation_changed(*, organisation_id: int | None) -> None:
     """Move the organisation's answer version by one: every kept answer of its people is stale once the
-    caller's transaction commits. Call it from the service, in the transaction, after the writes."""
-    if organisation_id is None:
-        return
-    Organisation.objects.filter(pk=organisation_id).update(answers_version=F("answers_version") + 1)
+    caller's transaction commits. Call it from the service, in the transaction, after the writes.
+    Inside ``changes_deferred`` the move is made once, at the end of that block."""
+    organisations_changed(organisation_ids=[organisation_id])
 
 
 def organisations_changed(*, organisation_ids: Iterable[int | None]) -> None:
     """``organisation_changed`` for several organisations at once (one statement)."""
     ids = sorted({i for i in organisation_ids if i is not None})
-    if ids:
-        Organisation.objects.filter(pk__in=ids).update(answers_version=F("answers_version") + 1)
+    if not ids:
+        return
+    pending = _deferred.get()
+    if pending is not None:
+        pending.update(ids)
+        return
+    Organisation.objects.filter(pk__in=ids).update(answers_version=F("answers_version") + 1)
+
+
+@contextmanager
+def changes_deferred() -> Iterator[None]:
+    """Collect the organisations the services inside the block change, and move each one's version once when
+    the block ends without an error (one statement), instead of once per service call.
+
+    For a batch of writes in one transaction (the sync endpoint's forms): use it inside that transaction
+    (``with transaction.atomic(), changes_deferred():``), so the versions still move in the same commit as
+    the writes. A block inside another only adds to the outer one. An organisation named by a write that was
+    rolled back to a savepoint is still moved: a stale answer is never kept, at worst one is made anew."""
+    if _deferred.get() is not None:
+        yield
+        return
+    if not transaction.get_connection().in_atomic_block:
+        raise RuntimeError("changes_deferred() belongs inside the transaction of the writes it collects")
+    pending: set[int] = set()
+    token = _deferred.set(pending)
+    try:
+        yield
+    finally:
+        _deferred.reset(token)
+    organisations_changed(organisation_ids=pending)
 
 
 def every_organisation_changed() -> None:

@@ -79,13 +79,17 @@ def password_saved(sender, instance: User, created: bool, **kwargs) -> None:
             user_credentials_revoke(user=instance)
 
 
-def audit_record(*, actor, obj, action: str, changes: dict | None = None, organisation=None) -> None:
-    """Append one event to the audit trail. Call it inside the same transaction as the change."""
+def audit_record(
+    *, actor, obj, action: str, changes: dict | None = None, organisation=None, organisation_id: int | None = None
+) -> None:
+    """Append one event to the audit trail. Call it inside the same transaction as the change.
+
+    ``organisation_id`` instead of ``organisation`` when only the id is at hand (no read of the row)."""
     from .models import AuditEvent
 
     AuditEvent.objects.create(
         actor=actor if getattr(actor, "is_authenticated", False) else None,
-        organisation=organisation,
+        organisation_id=organisation.pk if organisation is not None else organisation_id,
         object_type=obj._meta.label_lower,
         object_id=str(obj.pk),
         action=action,

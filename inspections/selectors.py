@@ -82,6 +82,33 @@ def work_order_for_sync(*, user: User, public_id) -> WorkOrder | None:
     return wo
 
 
+def work_orders_for_sync(*, user: User, public_ids) -> dict:
+    """``work_order_for_sync`` for every work order of a batch at once: {public id: work order} of those the
+    sender may add to (the same rule, word for word); the others are left out, as unknown ones.
+
+    A fixed number of queries whatever the batch's size: the candidates of the sender's organisations with
+    their unit, site, assignee, tasks and the unit's components, then which of them the sender sees. Only a
+    work order the sender does not see asks its own question (was it ever theirs)."""
+    ids = set(public_ids)
+    if not ids:
+        return {}
+    orgs = user.memberships.filter(role__in=SUBMITTING_ROLES).values("organisation_id")
+    rows = list(
+        WorkOrder.objects.filter(public_id__in=ids, organisation_id__in=orgs)
+        .select_related("ahu__building__site", "assignee")
+        .prefetch_related("tasks", "ahu__components")
+    )
+    if not rows:
+        return {}
+    seen = set(
+        work_orders_visible_to(user=user)
+        .prefetch_related(None)
+        .filter(pk__in=[wo.pk for wo in rows])
+        .values_list("pk", flat=True)
+    )
+    return {wo.public_id: wo for wo in rows if wo.pk in seen or was_assigned_to(user=user, work_order=wo)}
+
+
 def does_field_work_anywhere(*, user: User) -> bool:
     """Whether the person sends forms and photos for any organisation (property managers only read)."""
     return getattr(user, "is_authenticated", False) and user.memberships.filter(role__in=FIELD_ROLES).exists()
@@ -280,14 +307,21 @@ def item_limits(*, item: ChecklistItem, ahu: AHU, component: Component | None) -
     return limits
 
 
-def checklist_build(*, work_order: WorkOrder) -> Checklist:
-    """Templates and items of a work order, items repeated per matching component, limits resolved."""
+def checklist_build(*, work_order: WorkOrder, templates: dict[str, ChecklistTemplate] | None = None) -> Checklist:
+    """Templates and items of a work order, items repeated per matching component, limits resolved.
+
+    ``templates``: the current templates as already read (``templates_current()``, e.g. once for a batch of
+    forms); read here otherwise. The unit's components are read with ``ahu.components.all()`` (so a prefetch
+    of them is used)."""
     codes = _template_codes(work_order)
-    templates = templates_current(codes=["visit", *codes])
+    if templates is None:
+        templates = templates_current(codes=["visit", *codes])
     # A part retired before the work was made is not asked about; one retired later keeps its items, so a
     # visit (and its record) reads as it was when it was done.
-    components = list(
-        work_order.ahu.components.exclude(retired_on__lt=work_order.created_at.date()).order_by("position", "id")
+    made = work_order.created_at.date()
+    components = sorted(
+        (c for c in work_order.ahu.components.all() if c.retired_on is None or c.retired_on >= made),
+        key=lambda c: (c.position, c.pk),
     )
     ordered = [templates["visit"]] + [templates[c] for c in checklists.TASK_CODES if c in codes and c in templates]
     used, slots = [], []

@@ -21,7 +21,7 @@ from django.core.files.base import ContentFile
 from django.db import DatabaseError, DataError, IntegrityError, transaction
 from django.utils import timezone
 
-from accounts.changes import organisation_changed
+from accounts.changes import changes_deferred, organisation_changed
 from accounts.services import audit_record
 from engineering.errors import EngineeringInputError
 from engineering.filters import FilterPoint
@@ -59,6 +59,46 @@ class Parsed:
     improbable: list[str] = field(default_factory=list)
     photos: list[tuple[dict, photo_service.CleanImage | Photo]] = field(default_factory=list)
     signature: dict[str, Any] = field(default_factory=dict)
+
+
+@dataclass
+class Batch:
+    """What every form of one sync request needs, read once for the request (``batch_read``).
+
+    ``work_orders``: the work orders the sender may add to, by public id (``selectors.work_orders_for_sync``);
+    ``firsts``: the forms already stored before the request, by client uuid; ``templates``: the current
+    checklist templates; ``handled``: the client uuids of forms already handled in this request (a form
+    sent twice in one request asks the database again, so its second copy answers as before)."""
+
+    work_orders: dict[uuid.UUID, WorkOrder]
+    firsts: dict[uuid.UUID, Inspection]
+    templates: dict[str, Any]
+    handled: set[uuid.UUID] = field(default_factory=set)
+    written: list = field(default_factory=list)  # files of the forms stored so far (removed if the batch fails)
+
+
+def _uuid_or_none(raw: object) -> uuid.UUID | None:
+    if not isinstance(raw, str) or len(raw) > 64:
+        return None
+    try:
+        return uuid.UUID(raw)
+    except ValueError:
+        return None
+
+
+def batch_read(*, user, forms: list) -> Batch:
+    """Read at once what the forms of a request share: a fixed number of queries for any number of forms."""
+    from ..services.library import templates_current
+
+    dicts = [f for f in forms if isinstance(f, dict)]
+    client_ids = {u for f in dicts if (u := _uuid_or_none(f.get("client_uuid"))) is not None}
+    wo_ids = {u for f in dicts if (u := _uuid_or_none(f.get("work_order"))) is not None}
+    firsts = {i.client_uuid: i for i in Inspection.objects.filter(client_uuid__in=client_ids)} if client_ids else {}
+    return Batch(
+        work_orders=selectors.work_orders_for_sync(user=user, public_ids=wo_ids),
+        firsts=firsts,
+        templates=templates_current(),
+    )
 
 
 def _num_text(x: float | None) -> str:
@@ -326,7 +366,7 @@ UNKNOWN_WORK_ORDER = "no such work order that you may see"
 
 
 def form_parse(
-    *, user, raw: object, sent_at: object = None, position: int | None = None
+    *, user, raw: object, sent_at: object = None, position: int | None = None, batch: Batch | None = None
 ) -> tuple[Parsed | None, Errors, uuid.UUID | None]:
     """Validate one form completely, without writing anything: clean values, or errors naming each field.
 
@@ -336,6 +376,7 @@ def form_parse(
     ``sent_at`` is the phone's clock when it sent the batch (the form's own
     ``sent_at`` wins); the phone's times are placed on the server's timeline.
     ``position`` is the form's place in its batch (1 = first), named when the form is not even an object.
+    ``batch``: what the request's forms share, read once (``batch_read``); read for this form otherwise.
     """
     errors = Errors()
     if not isinstance(raw, dict):
@@ -346,7 +387,10 @@ def form_parse(
         return None, errors, None
     client_uuid = check.uuid_(raw.get("client_uuid"), "client_uuid", errors, label="The form's id")
     wo_id = check.uuid_(raw.get("work_order"), "work_order", errors, label="Work order")
-    work_order = selectors.work_order_for_sync(user=user, public_id=wo_id) if wo_id else None
+    if batch is not None:
+        work_order = batch.work_orders.get(wo_id) if wo_id else None
+    else:
+        work_order = selectors.work_order_for_sync(user=user, public_id=wo_id) if wo_id else None
     if wo_id and work_order is None:
         errors.add("work_order", f"Work order {str(wo_id)!r}: {UNKNOWN_WORK_ORDER}")
     version = check.whole(raw.get("work_order_version"), "work_order_version", errors, label="Work order version")
@@ -373,7 +417,9 @@ def form_parse(
         unit_system=system,
         started_at=started,
         finished_at=finished,
-        checklist=selectors.checklist_build(work_order=work_order),
+        checklist=selectors.checklist_build(
+            work_order=work_order, templates=batch.templates if batch is not None else None
+        ),
     )
     _signature(parsed, raw.get("signature"), errors)
     if started is not None and finished is not None:
@@ -552,7 +598,7 @@ def refused_result(client_uuid, errors: Errors) -> dict:
     }
 
 
-def _store(parsed: Parsed, user, results) -> dict:
+def _store(parsed: Parsed, user, results, batch: Batch | None = None) -> dict:
     from scheduling.services import meter_reading_record, work_order_complete
 
     written: list = []
@@ -603,7 +649,8 @@ def _store(parsed: Parsed, user, results) -> dict:
         elif res is not None:
             r.verdict, r.reason, r.reason_parts = res.verdict, res.reason, res.reason_parts
     try:
-        with transaction.atomic():
+        # In a batch the form's own savepoint (``inspection_sync``) is the one it needs.
+        with transaction.atomic(savepoint=batch is None):
             wo = WorkOrder.objects.select_for_update().get(pk=parsed.work_order.pk)
             flags = _flags(parsed, user, wo, results)
             inspection.flags = flags
@@ -623,24 +670,22 @@ def _store(parsed: Parsed, user, results) -> dict:
                 None,
             )
             if hours is not None:
-                try:
-                    with transaction.atomic():
-                        meter_reading_record(
-                            ahu=parsed.work_order.ahu,  # already read with its site (wo is the locked row)
-                            hours=hours,
-                            taken_at=parsed.finished_at,
-                            source="checklist",
-                            by=user,
-                        )
+                try:  # its own savepoint (the service is atomic): a refused reading leaves the form whole
+                    meter_reading_record(
+                        ahu=parsed.work_order.ahu,  # already read with its site (wo is the locked row)
+                        hours=hours,
+                        taken_at=parsed.finished_at,
+                        source="checklist",
+                        by=user,
+                    )
                 except ValidationError as exc:
                     flags.append(
                         {"code": "meter_reading_refused", "reason": "run-hour meter: " + " ".join(exc.messages)}
                     )
             blocking = {"work_order_cancelled", "work_order_closed", "work_order_reassigned", "incomplete"}
             if not any(f["code"] in blocking for f in flags) and wo.is_open:
-                try:
-                    with transaction.atomic():
-                        work_order_complete(work_order=wo, by=user, completed_at=parsed.finished_at)
+                try:  # its own savepoint (the service is atomic)
+                    work_order_complete(work_order=wo, by=user, completed_at=parsed.finished_at)
                     inspection.work_order_completed = True
                 except ValidationError as exc:
                     flags.append(
@@ -666,7 +711,7 @@ def _store(parsed: Parsed, user, results) -> dict:
                 actor=user,
                 obj=inspection,
                 action="inspection_submit",
-                organisation=wo.organisation,
+                organisation_id=wo.organisation_id,
                 changes={
                     "client_uuid": str(parsed.client_uuid),
                     "work_order": str(wo.public_id),
@@ -676,10 +721,14 @@ def _store(parsed: Parsed, user, results) -> dict:
                 },
             )
             organisation_changed(organisation_id=wo.organisation_id)  # today, the board and its "to verify"
-            return inspection.sync_result
+        if batch is not None:
+            batch.written += written
+        return inspection.sync_result
     except IntegrityError:
         for f in written:
             f.storage.delete(f.name)
+        if batch is not None:
+            raise  # answered by inspection_sync once the form's savepoint is rolled back
         first = Inspection.objects.filter(client_uuid=parsed.client_uuid).first()
         if first is None:
             raise
@@ -690,22 +739,38 @@ def _store(parsed: Parsed, user, results) -> dict:
         raise
 
 
-def inspection_submit(*, user, form: object, sent_at: object = None, position: int | None = None) -> dict:
-    """Store one finished form (or return the first result for its client_uuid, or refuse it whole)."""
+def inspection_submit(
+    *, user, form: object, sent_at: object = None, position: int | None = None, batch: Batch | None = None
+) -> dict:
+    """Store one finished form (or return the first result for its client_uuid, or refuse it whole).
+
+    ``batch``: what the request's forms share, read once (``batch_read``)."""
     if isinstance(form, dict):
         first = None
         if isinstance(raw_id := form.get("client_uuid"), str):
             try:
-                first = Inspection.objects.filter(client_uuid=uuid.UUID(raw_id)).first()
+                key = uuid.UUID(raw_id)
             except ValueError:
-                first = None
+                key = None
+            if key is not None and batch is not None and key not in batch.handled:
+                first = batch.firsts.get(key)
+            elif key is not None:
+                first = Inspection.objects.filter(client_uuid=key).first()
+            if key is not None and batch is not None:
+                batch.handled.add(key)
         if first is not None:
             return duplicate_result(first, user=user)
-    parsed, errors, client_uuid = form_parse(user=user, raw=form, sent_at=sent_at, position=position)
+    parsed, errors, client_uuid = form_parse(user=user, raw=form, sent_at=sent_at, position=position, batch=batch)
     if parsed is None:
         return refused_result(client_uuid, errors)
     results = _evaluate(parsed)
-    return _store(parsed, user, results)
+    return _store(parsed, user, results, batch)
+
+
+def _first_stored(form: object) -> Inspection | None:
+    """The inspection already stored under the form's client_uuid, if any."""
+    key = _uuid_or_none(form.get("client_uuid")) if isinstance(form, dict) else None
+    return Inspection.objects.filter(client_uuid=key).first() if key is not None else None
 
 
 def _failed_result(form: object) -> dict:
@@ -721,8 +786,11 @@ def _failed_result(form: object) -> dict:
 
 
 def inspection_sync(*, user, forms: list, sent_at: object = None) -> list[dict]:
-    """One result per form, in order. Each form is its own transaction and never holds back the others.
+    """One result per form, in order. Each form is stored whole or not at all and never holds back the others.
 
+    The batch is one transaction with a savepoint per form: a form that fails is rolled back to its
+    savepoint alone, and the batch commits once. The organisations' answer versions move once, at the end
+    of that transaction (``accounts.changes.changes_deferred``), not once per write of every form.
     A form the server fails on (a defect, not the phone's input) answers
     ``status: "error"`` and is logged; a database outage still fails the batch
     (503 from config/api.py) so the phone keeps everything and retries.
@@ -730,16 +798,35 @@ def inspection_sync(*, user, forms: list, sent_at: object = None) -> list[dict]:
     if not isinstance(forms, list) or len(forms) > MAX_FORMS:
         raise ValidationError({"forms": [f"forms is a list of at most {MAX_FORMS} forms"]})
     out = []
-    for position, form in enumerate(forms, start=1):
-        try:
-            with transaction.atomic():
-                out.append(inspection_submit(user=user, form=form, sent_at=sent_at, position=position))
-        except DatabaseError as exc:
-            if not isinstance(exc, IntegrityError | DataError):
-                raise
-            logger.exception("sync: one form failed in the database")
-            out.append(_failed_result(form))
-        except Exception:
-            logger.exception("sync: one form failed")
-            out.append(_failed_result(form))
+    batch = None
+    try:
+        with transaction.atomic(), changes_deferred():
+            batch = batch_read(user=user, forms=forms)
+            for position, form in enumerate(forms, start=1):
+                try:
+                    with transaction.atomic():
+                        out.append(
+                            inspection_submit(user=user, form=form, sent_at=sent_at, position=position, batch=batch)
+                        )
+                except IntegrityError:
+                    # Its id was stored meanwhile (sent twice in this request, or by another request at once):
+                    # the form's savepoint is rolled back and it answers as a duplicate of the first.
+                    first = _first_stored(form)
+                    if first is not None:
+                        out.append(duplicate_result(first, user=user))
+                        continue
+                    logger.exception("sync: one form failed in the database")
+                    out.append(_failed_result(form))
+                except DatabaseError as exc:
+                    if not isinstance(exc, DataError):
+                        raise
+                    logger.exception("sync: one form failed in the database")
+                    out.append(_failed_result(form))
+                except Exception:
+                    logger.exception("sync: one form failed")
+                    out.append(_failed_result(form))
+    except BaseException:  # the batch is rolled back whole: so are the files of its forms stored so far
+        for f in batch.written if batch is not None else []:
+            f.storage.delete(f.name)
+        raise
     return out

@@ -10,6 +10,7 @@ import zoneinfo
 
 from django.core.exceptions import ValidationError
 from django.db import transaction
+from django.db.models import Q, Subquery
 from django.utils import timezone
 from django.utils.dateparse import parse_datetime
 
@@ -38,20 +39,21 @@ METER_HOURS_MAX = 1_000_000
 LABEL_MAX = 12
 
 
-def _previous(*, ahu: AHU, component: Component | None, taken_at: dt.datetime) -> MeterReading | None:
-    return (
-        MeterReading.objects.filter(ahu=ahu, component=component, taken_at__lte=taken_at)
-        .order_by("-taken_at", "-id")
-        .first()
-    )
-
-
-def _next(*, ahu: AHU, component: Component | None, taken_at: dt.datetime) -> MeterReading | None:
-    return (
-        MeterReading.objects.filter(ahu=ahu, component=component, taken_at__gt=taken_at)
-        .order_by("taken_at", "id")
-        .first()
-    )
+def _neighbours(
+    *, ahu: AHU, component: Component | None, taken_at: dt.datetime
+) -> tuple[MeterReading | None, MeterReading | None]:
+    """The same meter's reading at or before ``taken_at`` (latest first) and the one after it (earliest first),
+    in one query: each is found by its own indexed subquery."""
+    mine = MeterReading.objects.filter(ahu=ahu, component=component)
+    before = mine.filter(taken_at__lte=taken_at).order_by("-taken_at", "-id").values("pk")[:1]
+    after = mine.filter(taken_at__gt=taken_at).order_by("taken_at", "id").values("pk")[:1]
+    prev = nxt = None
+    for row in MeterReading.objects.filter(Q(pk=Subquery(before)) | Q(pk=Subquery(after))):
+        if row.taken_at <= taken_at:
+            prev = row
+        else:
+            nxt = row
+    return prev, nxt
 
 
 def _hours_text(h: float) -> str:
@@ -105,8 +107,8 @@ def meter_reading_check(
             }
         )
     what = label if component is None else f"{label} of {component.name}"
+    prev, nxt = _neighbours(ahu=ahu, component=component, taken_at=taken_at)
     if not is_reset:
-        prev = _previous(ahu=ahu, component=component, taken_at=taken_at)
         if prev is not None and hours < prev.hours:
             raise ValidationError(
                 {
@@ -138,7 +140,6 @@ def meter_reading_check(
                         ]
                     }
                 )
-    nxt = _next(ahu=ahu, component=component, taken_at=taken_at)
     if nxt is not None and not nxt.is_reset:
         if not is_reset and hours > nxt.hours:
             raise ValidationError(

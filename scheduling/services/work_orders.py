@@ -79,7 +79,7 @@ def _locked(work_order: WorkOrder, expected_version: int | None) -> WorkOrder:
 def _save(wo: WorkOrder, fields: list[str], *, by, action: str, changes: dict) -> WorkOrder:
     wo.version += 1
     wo.save(update_fields=[*fields, "version", "updated_at"])
-    audit_record(actor=by, obj=wo, action=action, changes=changes, organisation=wo.organisation)
+    audit_record(actor=by, obj=wo, action=action, changes=changes, organisation_id=wo.organisation_id)
     organisation_changed(organisation_id=wo.organisation_id)  # today and the board show this work order
     return wo
 
@@ -123,6 +123,13 @@ def work_order_transition(
 ) -> WorkOrder:
     """Move a work order along the table in ``WorkOrder.TRANSITIONS``; refuse any other move."""
     wo = _locked(work_order, expected_version)
+    _transition(wo, to_state=to_state, by=by, reason=reason, at=at)
+    _copy_back(work_order, wo)
+    return wo
+
+
+def _transition(wo: WorkOrder, *, to_state: str, by, reason: str = "", at: dt.datetime | None = None) -> None:
+    """The move of ``work_order_transition`` on a row the caller has locked (``_locked``) in its transaction."""
     _move(wo, to_state)
     now = at or timezone.now()
     before = wo.state
@@ -153,8 +160,6 @@ def work_order_transition(
         wo.tasks.update(completed_at=None)
     _save(wo, fields, by=by, action="transition", changes={"from": before, "to": to_state, "reason": reason})
     work_order_moved.send(sender=WorkOrder, work_order=wo, before=before, by=by)
-    _copy_back(work_order, wo)
-    return wo
 
 
 def _copy_back(target: WorkOrder, source: WorkOrder) -> None:
@@ -269,10 +274,10 @@ def work_order_complete(
     *, work_order: WorkOrder, by, completed_at: dt.datetime | None = None, expected_version: int | None = None
 ) -> WorkOrder:
     """Complete the visit; an assigned visit is started first (a phone may send the finished form at once)."""
-    wo = _locked(work_order, expected_version)
+    wo = _locked(work_order, expected_version)  # both moves on this one locked row (no second read)
     if wo.state == State.ASSIGNED:
-        work_order_start(work_order=wo, by=by, at=completed_at)
-    work_order_transition(work_order=wo, to_state=State.COMPLETED, by=by, at=completed_at)
+        _transition(wo, to_state=State.IN_PROGRESS, by=by, at=completed_at)
+    _transition(wo, to_state=State.COMPLETED, by=by, at=completed_at)
     _copy_back(work_order, wo)
     return wo
 

@@ -98,9 +98,14 @@ def test_a_batch_cut_off_after_form_k_loses_nothing_and_stores_nothing_twice(mon
 @pytest.mark.django_db
 @pytest.mark.parametrize("exc", [OperationalError("server closed the connection"), DatabaseError("disk full")])
 def test_a_database_refusing_the_write_is_a_503_with_a_message(api_client, monkeypatch, exc):
-    """The phone gets 503 and a message saying to send again; nothing of the refused form is half-stored."""
+    """The phone gets 503 and a message saying to send again; nothing of the request is half-stored.
+
+    The request's forms are one transaction (a savepoint per form, the answer versions moved once at its
+    end): the database refusing form 2 leaves nothing of the request stored, and the phone, which keeps
+    every form on a 503, sends them all again."""
     tech, forms = _batch()
     forms = forms[:3]
+    files_before = _files_on_disk()
     _fail_on(monkeypatch, "findings_service.findings_open", 2, exc)
     api_client.force_authenticate(tech)
     res = api_client.post(SYNC, {"forms": forms}, format="json")
@@ -108,11 +113,12 @@ def test_a_database_refusing_the_write_is_a_503_with_a_message(api_client, monke
     assert res["Retry-After"]
     body = res.json()
     assert "send it again" in body["detail"] and type(exc).__name__ in body["detail"]
-    assert Inspection.objects.count() == 1  # the first form was stored before the database refused
+    assert Inspection.objects.count() == 0  # the request's transaction was rolled back whole
+    assert _files_on_disk() == files_before  # and the first form's signature file with it
     monkeypatch.undo()
     res = api_client.post(SYNC, {"forms": forms}, format="json")
     assert res.status_code == 200
-    assert [r["status"] for r in res.json()["results"]] == ["duplicate", "stored", "stored"]
+    assert [r["status"] for r in res.json()["results"]] == ["stored", "stored", "stored"]
     assert Inspection.objects.count() == 3
 
 
