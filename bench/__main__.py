@@ -114,6 +114,7 @@ def main(argv: list[str] | None = None) -> int:
     out_dir.mkdir(parents=True, exist_ok=True)
     scratch = Path(tempfile.mkdtemp(prefix="plenum-bench-"))
     started = time.perf_counter()
+    load_before = os.getloadavg()[0]
     runs = []
     try:
         for ahus in sizes:
@@ -180,7 +181,13 @@ def main(argv: list[str] | None = None) -> int:
     document = {
         "generated_at": dt.datetime.now(dt.UTC).replace(microsecond=0).isoformat(),
         "database": "postgresql" if server_url else "sqlite",
-        "machine": {"cpus": os.cpu_count(), "python": platform.python_version(), "platform": platform.platform()},
+        "machine": {
+            "cpus": os.cpu_count(),
+            "python": platform.python_version(),
+            "platform": platform.platform(),
+            # Other work on a shared machine weighs on every figure: the 1-minute load average at start and end.
+            "load_average": [round(load_before, 1), round(os.getloadavg()[0], 1)],
+        },
         "runs_per_figure": args.runs,
         "total_s": round(time.perf_counter() - started, 1),
         "sizes": runs,

@@ -61,9 +61,15 @@ def results_markdown(doc: dict) -> str:
         "",
         f"Generated {doc['generated_at']} by `make bench` on {doc['database']} "
         f"({doc['machine']['cpus']} CPUs, Python {doc['machine']['python']}); median of "
-        f"{doc['runs_per_figure']} runs per figure; whole run {doc['total_s']} s.",
+        f"{doc['runs_per_figure']} runs per figure; whole run {doc['total_s']} s"
+        + (
+            f"; machine load average {doc['machine']['load_average'][0]} at the start, "
+            f"{doc['machine']['load_average'][1]} at the end."
+            if doc["machine"].get("load_average")
+            else "."
+        ),
         "Every figure is a ratio to a baseline measured in the same run, on the same database. "
-        "A target that is not reached says **MISSED**; targets are as set in issue 8 and are not relaxed.",
+        "A target that is not reached says **MISSED**; targets are as set in issues 8 and 17 and are not relaxed.",
         "",
     ]
     for s in doc["sizes"]:
