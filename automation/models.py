@@ -209,3 +209,7 @@ class PointPoll(models.Model):
 
     def __str__(self) -> str:
         return f"{self.point}: {self.reason or 'read'}"
+
+
+# Faults and filter days found in the trends (automation.judging, automation.feeds): their own module.
+from .fault_models import Fault, FilterDay  # noqa: E402,F401

@@ -40,6 +40,10 @@ A unit is
     - **season unknown** when the site has no computed season start (unless a failed test or an
       open finding makes it not ready: a known fault is never hidden behind an unknown season).
 
+A freeze event found between visits (``FREEZE_EVENT_SOURCES``: the supply air below the freeze-protection
+stages in the building-automation trends) counts as an open freeze-protection finding until a test passes
+after it.
+
 A passing retest (usually the corrective work order, whose completion closes the findings it
 answers) makes the unit ready again.
 
@@ -78,6 +82,16 @@ LABELS = {
     UNKNOWN: "Season unknown",
 }
 BLOCKING_SEVERITIES = frozenset({Finding.Severity.CRITICAL, Finding.Severity.HIGH})
+# Sources of freeze events found between visits (the building-automation trends register one from an app above,
+# so this module imports nothing of it): called with (unit_ids=, as_of=), each returns
+# {unit id: [(event time, title, corrective work state in words)]}. An event makes the unit not ready, as an open
+# freeze-protection finding does, until a freeze-protection test passes after it.
+FREEZE_EVENT_SOURCES: list = []
+
+
+def freeze_event_source_register(source) -> None:
+    if source not in FREEZE_EVENT_SOURCES:
+        FREEZE_EVENT_SOURCES.append(source)
 
 
 # ---------------------------------------------------------------------------
@@ -132,6 +146,7 @@ class FreezeTest:
     not_passed: tuple[str, ...] = ()  # plain words per step that did not pass; empty = passed every step
     failed: bool = False  # at least one step judged fail (not only watch or unanswered)
     corrective: str = ""  # the state of the corrective work its findings raised, in plain words
+    at: dt.datetime | None = None  # when the form was finished (a freeze event before it is answered by a pass)
 
     @property
     def passed(self) -> bool:
@@ -325,8 +340,9 @@ def freeze_readiness(
     """Readiness of every unit with freeze protection among ``units`` (in their order), at ``as_of``.
 
     Tenancy is the caller's: pass only visible units, with ``building__site`` selected. A fixed
-    number of queries whatever the number of units (three; four when a test was amended). ``today_of`` gives each site's
-    local date at ``as_of`` ({site id: date}); computed from the sites' time zones when not given.
+    number of queries whatever the number of units (three, and one per registered source of freeze
+    events; one more when a test was amended). ``today_of`` gives each site's local date at ``as_of``
+    ({site id: date}); computed from the sites' time zones when not given.
     """
     protected = protected_units(units=units)
     if not protected:
@@ -433,8 +449,16 @@ def freeze_readiness(
                         or {f.corrective for f in open_of_unit.get(ahu_id, []) if f.corrective}
                     )
                 ),
+                at=finished_at,
             )
         )
+    for source in FREEZE_EVENT_SOURCES:
+        for ahu_id, events in source(unit_ids=ids, as_of=as_of).items():
+            tz = tz_of[unit_site[ahu_id]]
+            for at, title, words in events:
+                if any(t.passed and t.at is not None and t.at > at for t in tests_of_unit.get(ahu_id, [])):
+                    continue  # a freeze-protection test passed after the event: answered
+                open_of_unit[ahu_id].append(OpenFinding(at.astimezone(tz).date(), title, words))
     windows: dict[int, tuple[dt.date | None, dt.date | None]] = {}
     out = []
     for unit in units:

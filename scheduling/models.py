@@ -177,6 +177,8 @@ class MeterReading(models.Model):
         BAS_CSV = "bas_csv", "Building-automation CSV"
         API = "api", "API"
         MANUAL = "manual", "Typed in"
+        # Integrated from a fan's status or speed trend (automation.feeds): the fan's own meter.
+        BAS_TREND = "bas_trend", "Building-automation trend"
 
     ahu = models.ForeignKey(AHU, on_delete=models.CASCADE, related_name="meter_readings")
     component = models.ForeignKey(

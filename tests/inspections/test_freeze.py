@@ -179,7 +179,8 @@ def test_an_amendment_that_corrects_a_failed_step_to_ok_counts(unit):
 
 
 def test_readiness_of_many_units_takes_the_queries_of_one(unit, django_assert_num_queries):
-    """Three queries (protected parts, test judgements, freeze findings) for 1 unit or 11."""
+    """Four queries (protected parts, test judgements, freeze findings, freeze events in the automation trends)
+    for 1 unit or 11."""
     from inventory.models import AHU
     from tests.factories.inventory import AHUFactory, ComponentFactory
 
@@ -190,7 +191,7 @@ def test_readiness_of_many_units_takes_the_queries_of_one(unit, django_assert_nu
         visit = b.preventive(other, b.library()["preheater_freeze"], "2025-10-01", done="2025-10-01")
         b.freeze_test(visit, unit["tech"], finished="2025-10-02", heaters=[heater])
     units = list(AHU.objects.filter(building=unit["ahu"].building).select_related("building__site"))
-    with django_assert_num_queries(3):
+    with django_assert_num_queries(4):
         rows = freeze_readiness(units=units, as_of=AS_OF)
     assert len(rows) == 11 and {r.status for r in rows} == {READY}
 

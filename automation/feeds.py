@@ -1,0 +1,327 @@
+"""Trends feeding the schedule: run-hours from the supply fan, filter loading from the bank's pressure sensor.
+
+Run-hours
+    The supply fan runs while its status point reads on (> 0.5), else while its speed command is above
+    ``engineering.faults`` command tolerance (1 %). Each sample stands for the time until the next one, at
+    most ``RUN_HOLD_MAX_S``; a longer silence is a logging gap and counts as not running, so the meter never
+    gains hours the trend cannot show. The hours run over a site-local day are added to the fan's run-hour
+    meter at the day's end through ``scheduling.services.meter_reading_record`` (source "Building-automation
+    trend"), the same meter service the checklist, the CSV import and the API use, so the engine's run-hour
+    rules project from them. A day already read is not read again (idempotent).
+
+Filter loading
+    Each filter bank with a ``Filter_Differential_Pressure_Sensor`` point: every sample taken while the fan
+    ran, corrected to the bank's design airflow by ``engineering.filters.corrected_pressure_drop``
+    (Δp_design = Δp × (Q_design/Q)^n, n = 1.5 as for the technicians' readings; the fan laws' square law,
+    n = 2, is the turbulent limit of the same relation). The airflow at each sample is the supply airflow
+    point when mapped, else the first fan law from the speed command (Q = Q_design × N/N_design, a command of
+    100 % taken as the fan's design speed), else the unit's design airflow. The day's median is judged by
+    ``engineering.filters.filter_loading`` with the bank's clean and final values, the same judgement a
+    technician's reading gets; at its fail fraction (95 % of the clean-to-final span) the scheduling
+    condition ``filter_loaded`` proposes the filter change through
+    ``scheduling.services.corrective_work_order_propose`` — the path a technician's loaded-filter finding
+    takes — without waiting for a visit. With three or more days since the filters now fitted
+    (``inspections.selectors.filter_series``), ``engineering.filters.filter_forecast`` dates the change.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import zoneinfo
+from dataclasses import dataclass
+
+import numpy as np
+from django.core.exceptions import ValidationError
+from django.db import transaction
+
+from engineering import filters
+from engineering.controls import Verdict
+from engineering.errors import EngineeringInputError
+from engineering.faults import G36_DEFAULTS
+from inventory.models import Component
+from scheduling.models import MeterReading
+
+from .fault_models import FilterDay
+from .series import Samples, UnitTrends
+
+# A sample's value is held at most this long when integrating run-time (common practice: a BAS logs at 1 to
+# 15 minutes or on change of value; six hours without a record is a gap in the log, not proof of running).
+RUN_HOLD_MAX_S = 6 * 3600.0
+# A day's filter value needs at least this many samples taken with the fan running (an hour of 15-minute
+# samples; common practice).
+FILTER_MIN_SAMPLES = 4
+FILTER_CONDITION = "filter_loaded"
+FILTER_SENSOR = "Filter_Differential_Pressure_Sensor"
+
+
+@dataclass(frozen=True)
+class RunHours:
+    fan: Component
+    hours_run: float
+    reading: MeterReading | None
+    note: str = ""
+
+
+def _running(trends: UnitTrends, at: np.ndarray) -> np.ndarray | None:
+    """Whether the supply fan ran at each of ``at`` (epoch seconds); None when no fan point has samples."""
+    status, speed = trends.of("supply_fan_status"), trends.of("supply_fan_speed")
+    with np.errstate(invalid="ignore"):
+        if status is not None and status.seconds.size:
+            return status.at(at, max_hold_s=RUN_HOLD_MAX_S) > 0.5
+        if speed is not None and speed.seconds.size:
+            return speed.at(at, max_hold_s=RUN_HOLD_MAX_S) > G36_DEFAULTS.command_tolerance
+    return None
+
+
+def running_seconds(samples: Samples, *, since: float, until: float, on) -> float:
+    """Seconds in [since, until) during which ``on(value)`` held, each sample held until the next one (at most
+    ``RUN_HOLD_MAX_S``); the value at ``since`` is the last sample before it."""
+    s, v = samples.seconds, samples.values
+    if s.size == 0:
+        return 0.0
+    first = max(int(np.searchsorted(s, since, side="right")) - 1, 0)
+    s, v = s[first:], v[first:]
+    nxt = np.append(s[1:], until)
+    begin = np.maximum(s, since)
+    finish = np.minimum(np.minimum(nxt, s + RUN_HOLD_MAX_S), until)
+    with np.errstate(invalid="ignore"):
+        mask = on(v) & (finish > begin)
+    return float(np.sum((finish - begin)[mask]))
+
+
+def _fan_of(trends: UnitTrends):
+    """(supply fan point, its samples, the test of "running") from the status point, else the speed command."""
+    for role, on in (
+        ("supply_fan_status", lambda v: v > 0.5),
+        ("supply_fan_speed", lambda v: v > G36_DEFAULTS.command_tolerance),
+    ):
+        point = trends.roles.get(role)
+        samples = trends.of(role)
+        if point is not None and point.component is not None and samples is not None and samples.seconds.size:
+            return point, samples, on
+    return None, None, None
+
+
+def run_hours_feed(*, trends: UnitTrends, by=None) -> RunHours | None:
+    """Add the hours the supply fan ran over ``trends``' day to its run-hour meter (once per day).
+
+    Returns None when the unit has no fan status or speed trend that day. The first day a fan's meter is fed
+    it starts at 0 h at the day's start; afterwards each day's reading is the latest reading of that meter
+    plus the hours run since it (at most 31 days back). A reading the meter service refuses (an earlier day
+    read after a later one) is not stored and named in ``note``.
+    """
+    from scheduling.services import meter_reading_record
+
+    point, samples, on = _fan_of(trends)
+    if point is None or samples is None:
+        return None
+    fan = point.component
+    start, end = trends.start, trends.end
+    ahu = trends.ahu
+    if not ((samples.seconds >= start.timestamp()) & (samples.seconds < end.timestamp())).any():
+        return None  # no sample that day: nothing is known of it
+    meter = MeterReading.objects.filter(ahu=ahu, component=fan)
+    done = meter.filter(taken_at=end, source=MeterReading.Source.BAS_TREND).first()
+    if done is not None:
+        return RunHours(fan=fan, hours_run=0.0, reading=done, note="already read")
+    prev = meter.filter(taken_at__lte=end).order_by("-taken_at", "-id").first()
+    since = start if prev is None else max(prev.taken_at, end - dt.timedelta(days=31))
+    if since < trends.start:  # the day before is not loaded: read its samples too
+        from .series import samples_for
+
+        samples = samples_for(points=[point], since=since - dt.timedelta(seconds=RUN_HOLD_MAX_S), until=end)[point.pk]
+    seconds = running_seconds(samples, since=since.timestamp(), until=end.timestamp(), on=on)
+    hours = seconds / 3600.0
+    base = 0.0 if prev is None else prev.hours
+    try:
+        with transaction.atomic():
+            if prev is None:
+                meter_reading_record(
+                    ahu=ahu, hours=0.0, taken_at=start, source=MeterReading.Source.BAS_TREND, component=fan, by=by
+                )
+            reading = meter_reading_record(
+                ahu=ahu,
+                hours=round(base + hours, 3),
+                taken_at=end,
+                source=MeterReading.Source.BAS_TREND,
+                component=fan,
+                by=by,
+            )
+    except ValidationError as exc:
+        return RunHours(fan=fan, hours_run=hours, reading=None, note=" ".join(exc.messages))
+    return RunHours(fan=fan, hours_run=hours, reading=reading)
+
+
+# ---------------------------------------------------------------------------
+# Filter loading
+# ---------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class FilterResult:
+    bank: Component
+    day: FilterDay | None
+    note: str = ""
+    proposed: object = None  # the corrective work order, when the day's value called for a change
+
+
+def _airflow(trends: UnitTrends, at: np.ndarray) -> tuple[np.ndarray, str]:
+    """Supply airflow at each of ``at``, m³/s, and how it was found."""
+    hold = RUN_HOLD_MAX_S
+    flow = trends.of("supply_airflow")
+    if flow is not None and flow.seconds.size:
+        return flow.at(at, max_hold_s=hold), "measured (supply airflow point)"
+    speed = trends.of("supply_fan_speed")
+    point = trends.roles.get("supply_fan_speed")
+    fan = point.component if point is not None else None
+    design_q = (fan.specs or {}).get("design_flow_m3s") if fan is not None else None
+    if speed is not None and speed.seconds.size and design_q:
+        return speed.at(at, max_hold_s=hold) * float(design_q), (
+            "from the supply fan's speed command by the first fan law (100 % = design speed)"
+        )
+    return np.full(at.shape, float(trends.ahu.design_supply_airflow_m3s)), "design airflow assumed (not measured)"
+
+
+def filter_feed(*, trends: UnitTrends, day: dt.date, meter_hours: float | None, by=None) -> list[FilterResult]:
+    """Each trended filter bank's day: stored (``FilterDay``, replaced on a re-run), judged, and when it calls for
+    a change, the change proposed through the scheduling condition ``filter_loaded``."""
+    from inspections.selectors import filter_design_airflow_m3s
+
+    out = []
+    points = [p for p in trends.points if p.brick_class == FILTER_SENSOR and p.component is not None]
+    for point in points:
+        bank = point.component
+        samples = trends.point_samples(point)
+        if samples is None:
+            continue
+        lo, hi = trends.start.timestamp(), trends.end.timestamp()
+        keep = (samples.seconds >= lo) & (samples.seconds < hi) & np.isfinite(samples.values)
+        at, dp = samples.seconds[keep], samples.values[keep]
+        running = _running(trends, at)
+        if running is not None:
+            at, dp = at[running], dp[running]
+        q, how = _airflow(trends, at)
+        design_q = filter_design_airflow_m3s(component=bank, ahu=trends.ahu)
+        corrected = []
+        for dp_i, q_i in zip(dp.tolist(), q.tolist(), strict=True):
+            if not np.isfinite(q_i) or q_i <= 0:
+                continue
+            try:
+                corrected.append(
+                    filters.corrected_pressure_drop(dp_pa=dp_i, airflow_m3s=q_i, design_airflow_m3s=design_q)
+                )
+            except EngineeringInputError:
+                continue  # too far from design airflow (or out of range) to correct: left out, as for a reading
+        if len(corrected) < FILTER_MIN_SAMPLES:
+            FilterDay.objects.filter(component=bank, day=day).delete()
+            out.append(
+                FilterResult(
+                    bank=bank,
+                    day=None,
+                    note=f"{len(corrected)} usable samples with the fan running; at least {FILTER_MIN_SAMPLES}",
+                )
+            )
+            continue
+        out.append(
+            _filter_day_store(
+                bank=bank,
+                day=day,
+                corrected=float(np.median(corrected)),
+                samples=len(corrected),
+                design_q=design_q,
+                how=how,
+                meter_hours=meter_hours,
+                trends=trends,
+                by=by,
+            )
+        )
+    return out
+
+
+def _filter_day_store(
+    *, bank, day, corrected: float, samples: int, design_q: float, how: str, meter_hours, trends, by
+) -> FilterResult:
+    specs = bank.specs or {}
+    verdict, reason, loading_pct = "", "", None
+    judged = None
+    if "clean_dp_pa" in specs and "final_dp_pa" in specs:
+        try:
+            judged = filters.filter_loading(
+                dp_pa=corrected,
+                airflow_m3s=design_q,
+                design_airflow_m3s=design_q,
+                clean_dp_pa=specs["clean_dp_pa"],
+                final_dp_pa=specs["final_dp_pa"],
+            )
+        except EngineeringInputError as exc:
+            reason = f"cannot judge the filter loading: {exc}"
+    else:
+        reason = "cannot judge the filter loading: the filter bank has no clean or final pressure drop in the registry"
+    if judged is not None:
+        verdict, loading_pct = judged.verdict.value, round(judged.fraction_of_span * 100, 1)
+        reason = f"{bank.name}: {judged.reason} (trend median of {samples} samples with the fan running)"
+    row, _ = FilterDay.objects.update_or_create(
+        component=bank,
+        day=day,
+        defaults={
+            "corrected_dp_pa": corrected,
+            "design_airflow_m3s": design_q,
+            "airflow_source": how[:120],
+            "samples": samples,
+            "run_hours": meter_hours,
+            "loading_pct": loading_pct,
+            "verdict": verdict,
+            "reason": reason,
+        },
+    )
+    forecast_words = _forecast_words(bank=bank, design_q=design_q, day=day)
+    if forecast_words:
+        row.reason = f"{row.reason}; {forecast_words}"
+        row.save(update_fields=["reason"])
+    proposed = None
+    if judged is not None and judged.verdict == Verdict.FAIL and not judged.media_bypass_suspected:
+        proposed = _propose_change(bank=bank, row=row, judged=judged, trends=trends, by=by)
+    return FilterResult(bank=bank, day=row, proposed=proposed)
+
+
+def _forecast_words(*, bank: Component, design_q: float, day: dt.date) -> str:
+    """The change date from the trend days of the filters fitted now, in words ('' without a forecast)."""
+    from inspections.selectors import filter_series
+
+    final = (bank.specs or {}).get("final_dp_pa")
+    if final is None:
+        return ""
+    changed_at = filter_series(component=bank).current.changed_at
+    days = FilterDay.objects.filter(component=bank, day__lte=day, run_hours__isnull=False)
+    if changed_at is not None:
+        tz = zoneinfo.ZoneInfo(bank.ahu.building.site.time_zone or "UTC")
+        days = days.filter(day__gte=changed_at.astimezone(tz).date())
+    points = [
+        filters.FilterPoint(run_hours=d.run_hours, dp_pa=d.corrected_dp_pa, airflow_m3s=design_q, when=d.day)
+        for d in days.order_by("day")
+    ]
+    try:
+        fc = filters.filter_forecast(points=points, design_airflow_m3s=design_q, final_dp_pa=final)
+    except EngineeringInputError:
+        return ""
+    if fc.at_final_now:
+        return "at its final pressure drop by the trend: change now"
+    return f"change forecast {fc.date_at_final.isoformat()}" if fc.date_at_final else ""
+
+
+def _propose_change(*, bank: Component, row: FilterDay, judged, trends: UnitTrends, by):
+    from inspections.services.findings import CONDITION_TITLES, PRIORITY
+    from scheduling.services import corrective_work_order_propose
+
+    severity = "high" if judged.fraction_of_span >= 1.0 else "medium"  # as severity_of does for a reading
+    return corrective_work_order_propose(
+        ahu=trends.ahu,
+        title=f"{CONDITION_TITLES[FILTER_CONDITION]} — {bank.name}",
+        reason=f"{row.reason} — found in the building-automation trend on {row.day.isoformat()}",
+        condition_code=FILTER_CONDITION,
+        priority=PRIORITY[severity],
+        component=bank,
+        source_ref=f"trend:filter:{bank.pk}:{row.day.isoformat()}",
+        by=by,
+        observed_on=row.day,
+    )

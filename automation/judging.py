@@ -1,0 +1,520 @@
+"""Judging a unit's trends day by day: the feeds, the fault rules, freeze events, and what they raise.
+
+For each site-local day and each unit with mapped points (``trends_judge``):
+
+1. Run-hours and filter loading feed the schedule (``automation.feeds``).
+2. The unit's points are put on one regular grid (``engineering.faults.resample``) and judged by ASHRAE
+   Guideline 36's AHU fault conditions (``engineering.faults.evaluate_ahu``). The minimum outdoor-air fraction
+   is the unit's design minimum (``AHU.design_min_oa_fraction``); the damper's minimum position, which the
+   operating states need and no mapped Brick class carries, is the lowest position the damper was commanded
+   to while the fan ran over the day (a controller rests the damper at its minimum; common practice).
+3. The supply air (and the air after a preheater, where mapped) is judged against the guideline's
+   freeze-protection stages (``engineering.faults.freeze_events``).
+4. Each fault found opens or updates the unit's one open ``Fault`` of that rule and proposes its corrective
+   work through ``scheduling.services.corrective_work_order_propose`` (the path findings use: one open
+   corrective work order per unit, part and scheduling condition). A fault the rules judged but did not find
+   for ``PLENUM_FAULT_CLOSE_AFTER_DAYS`` days (7 by default) closes. A freeze event keeps the unit "not ready"
+   in ``inspections.freeze.freeze_readiness`` until a freeze-protection test passes after it.
+
+Re-running a day replaces that day's evidence and adds nothing twice.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass, field
+
+import numpy as np
+from django.conf import settings
+from django.db import transaction
+from django.utils import timezone
+
+from engineering.errors import EngineeringInputError
+from engineering.faults import (
+    G36_DEFAULTS,
+    ROLES,
+    AhuFaults,
+    FaultResult,
+    FreezeEvent,
+    evaluate_ahu,
+    freeze_events,
+    resample,
+)
+from inventory.models import AHU, Site
+
+from .fault_models import Fault
+from .feeds import filter_feed, run_hours_feed
+from .models import Point
+from .series import EXTRA_ROLES, UnitTrends, site_day_window, unit_trends
+
+# Averages and the mode delay look back: the hour before the day is read with it (its evidence is not kept).
+LEAD = dt.timedelta(hours=1)
+FREEZE_SECTION = "ASHRAE Guideline 36-2018, 5.16.12 freeze protection stages (from memory)"
+FREEZE_TITLE = "Supply air near freezing"
+WINDOWS_KEPT = 100
+# What each rule's corrective work answers: (scheduling condition, the part it names, severity). A condition
+# puts that condition's library tasks on the work (damper_position: the damper and actuator check).
+FAULT_WORK: dict[str, tuple[str, str | None, str]] = {
+    "FC1": ("", None, "medium"),  # static pressure not reached at full speed: belts, filters, duct leaks
+    "FC2": ("sensor_drift", None, "low"),
+    "FC3": ("sensor_drift", None, "low"),
+    "FC4": ("", None, "low"),  # hunting: control tuning
+    "FC5": ("supply_temp_off", None, "medium"),
+    "FC6": ("damper_position", "outdoor_damper", "medium"),
+    "FC7": ("supply_temp_off", None, "medium"),
+    "FC8": ("supply_temp_off", None, "low"),
+    "FC9": ("sensor_drift", None, "low"),
+    "FC10": ("damper_position", "outdoor_damper", "medium"),
+    "FC11": ("sensor_drift", None, "low"),
+    "FC12": ("supply_temp_off", None, "medium"),
+    "FC13": ("supply_temp_off", None, "medium"),
+    "FC14": ("", "cooling_coil", "medium"),  # leaking cooling valve
+    "FC15": ("", "heating_coil", "medium"),  # leaking heating valve
+    Fault.FREEZE: ("freeze_protection_failed", None, "critical"),
+}
+
+
+def close_after() -> dt.timedelta:
+    """How long a fault must be absent from judged trends before it closes (``PLENUM_FAULT_CLOSE_AFTER_DAYS``)."""
+    return dt.timedelta(days=settings.PLENUM_FAULT_CLOSE_AFTER_DAYS)
+
+
+@dataclass
+class UnitDay:
+    """What one unit's day of trends gave."""
+
+    ahu: AHU
+    day: dt.date
+    run_hours: object = None
+    filters: list = field(default_factory=list)
+    faults: AhuFaults | None = None
+    freeze: tuple[FreezeEvent, ...] = ()
+    opened: list[Fault] = field(default_factory=list)
+    updated: list[Fault] = field(default_factory=list)
+    closed: list[Fault] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
+
+
+@dataclass
+class JudgeResult:
+    days: list[UnitDay] = field(default_factory=list)
+
+    @property
+    def opened(self) -> list[Fault]:
+        return [f for d in self.days for f in d.opened]
+
+    @property
+    def closed(self) -> list[Fault]:
+        return [f for d in self.days for f in d.closed]
+
+
+# ---------------------------------------------------------------------------
+# Judging (no writes)
+# ---------------------------------------------------------------------------
+
+
+def _step_s(trends: UnitTrends) -> float:
+    """The grid step: the median logging interval of the unit's points, 1 min to 1 h."""
+    steps = [np.diff(s.seconds) for s in trends.samples.values() if s.seconds.size > 1]
+    steps = [d[d > 0] for d in steps]
+    steps = [d for d in steps if d.size]
+    if not steps:
+        return 900.0
+    return float(min(max(np.median(np.concatenate(steps)), 60.0), 3600.0))
+
+
+def _series(trends: UnitTrends, start: float) -> dict:
+    out: dict = {}
+    for role, point in trends.roles.items():
+        if role in EXTRA_ROLES:
+            continue
+        s = trends.samples.get(point.pk)
+        if s is None or s.seconds.size == 0:
+            continue
+        low, high = ROLES[role][1], ROLES[role][2]
+        values = np.clip(s.values, 0.0, 1.0) if ROLES[role][3] == "" else s.values
+        values = np.where((values >= low) & (values <= high), values, np.nan)  # out of range: a gap, not a value
+        out[role] = (s.seconds, values)
+    return out
+
+
+def faults_judge(*, trends: UnitTrends, step_s: float | None = None) -> tuple[AhuFaults | None, str]:
+    """The unit's day judged by FC#1–#15 (None and why when it cannot be)."""
+    step = step_s or _step_s(trends)
+    start = (trends.start - LEAD).timestamp()
+    series = _series(trends, start)
+    if not series:
+        return None, "no trend samples of any point the fault rules read"
+    ahu = trends.ahu
+    series["min_oa_fraction"] = float(ahu.design_min_oa_fraction)
+    damper = trends.of("oa_damper")
+    if "oa_damper" in series and damper is not None:
+        from .feeds import _running
+
+        running = _running(trends, damper.seconds)
+        seen = damper.values[np.isfinite(damper.values) & (running if running is not None else True)]
+        if seen.size:
+            series["oa_damper_min"] = float(np.clip(seen.min(), 0.0, 1.0))
+    try:
+        grid = resample(series=series, step_s=step, start=start, end=trends.end.timestamp() - step)
+        return evaluate_ahu(times=grid.times, points=grid.points, thresholds=G36_DEFAULTS), ""
+    except EngineeringInputError as exc:
+        return None, f"not judged: {exc}"
+
+
+def freeze_judge(*, trends: UnitTrends, step_s: float | None = None) -> tuple[FreezeEvent, ...]:
+    """Freeze events of the supply air and of the air after a preheater, over the day (not its lead)."""
+    step = step_s or _step_s(trends)
+    events: list[FreezeEvent] = []
+    for role in ("sat", "preheat_leaving"):
+        s = trends.of(role)
+        if s is None or s.seconds.size == 0:
+            continue
+        try:
+            grid = resample(
+                series={"sat": (s.seconds, s.values)},
+                step_s=step,
+                start=trends.start.timestamp(),
+                end=trends.end.timestamp() - step,
+            )
+            events += freeze_events(times=grid.times, temperature_c=grid.points["sat"])
+        except EngineeringInputError:
+            continue
+    return tuple(sorted(events, key=lambda e: (float(e.start), e.below_c)))
+
+
+# ---------------------------------------------------------------------------
+# Keeping faults
+# ---------------------------------------------------------------------------
+
+
+def _when(x) -> dt.datetime:
+    if isinstance(x, dt.datetime):
+        return x.astimezone(dt.UTC)
+    return dt.datetime.fromtimestamp(float(x), tz=dt.UTC)
+
+
+def _window_json(day: dt.date, w, **extra) -> dict:
+    return {
+        "day": day.isoformat(),
+        "start": _when(w.start).isoformat(),
+        "end": _when(w.end).isoformat(),
+        "alarm_at": _when(getattr(w, "alarm_at", None) or w.reached_at).isoformat(),
+        "duration_s": float(w.duration_s),
+        **extra,
+    }
+
+
+@dataclass(frozen=True)
+class Seen:
+    """One rule's finding on one day, ready to keep."""
+
+    code: str
+    title: str
+    section: str
+    formula: str
+    windows: list[dict]
+    fault_s: float
+    share: float | None
+    consequence: dict
+    reason: str
+
+
+def _seen_fault(r: FaultResult, day: dt.date, start: dt.datetime) -> Seen | None:
+    windows = [_window_json(day, w) for w in r.windows if _when(w.end) > start]
+    if not windows:
+        return None
+    fault_s = sum(w["duration_s"] for w in windows)
+    consequence = (
+        {"kind": r.consequence.kind, "summary": r.consequence.summary, "values": dict(r.consequence.values)}
+        if r.consequence is not None
+        else {}
+    )
+    share = f", {r.share * 100:.0f} % of the time it could be judged" if r.share is not None else ""
+    reason = (
+        f"{r.title} ({r.formula}): {len(windows)} window{'s' if len(windows) != 1 else ''} on {day.isoformat()}, "
+        f"{fault_s / 60:.0f} min in all{share}"
+        + (f"; {consequence['summary']}" if consequence else "")
+        + " — found in the building-automation trends"
+    )
+    return Seen(r.code, r.title, r.section, r.formula, windows, fault_s, r.share, consequence, reason)
+
+
+def _seen_freeze(events: tuple[FreezeEvent, ...], day: dt.date) -> Seen | None:
+    if not events:
+        return None
+    windows = [_window_json(day, e, stage=e.stage, below_c=e.below_c, lowest_c=e.lowest_c) for e in events]
+    worst = min(events, key=lambda e: (e.lowest_c, -e.duration_s))
+    stages = sorted({f"{e.stage} (below {e.below_c:g} °C for {e.for_s / 60:g} min)" for e in events})
+    reason = (
+        f"{FREEZE_TITLE}: the air fell to {worst.lowest_c:.1f} °C on {day.isoformat()}, reaching "
+        + "; ".join(stages)
+        + ". The unit stays not ready for freeze protection until its freeze-protection test passes again"
+        " — found in the building-automation trends"
+    )
+    return Seen(
+        Fault.FREEZE,
+        FREEZE_TITLE,
+        FREEZE_SECTION,
+        "supply air below a stage's temperature for its time",
+        windows,
+        float(sum(e.duration_s for e in events)),
+        None,
+        {},
+        reason,
+    )
+
+
+def _part(ahu: AHU, which: str | None):
+    if which is None:
+        return None
+    kind, spec, value = {
+        "outdoor_damper": ("damper", "role", "outdoor"),
+        "cooling_coil": ("coil", "duty", "cooling"),
+        "heating_coil": ("coil", "duty", "heating"),
+    }[which]
+    for c in ahu.components.filter(kind=kind, retired_on__isnull=True).order_by("position", "pk"):
+        if str((c.specs or {}).get(spec, "")) == value:
+            return c
+    return None
+
+
+def _keep(*, ahu: AHU, day: dt.date, seen: Seen, by) -> tuple[Fault, bool]:
+    """Open the unit's fault of this rule, or add the day to the open one (replacing that day's windows)."""
+    condition, which, severity = FAULT_WORK.get(seen.code, ("", None, "medium"))
+    first = min(dt.datetime.fromisoformat(w["start"]) for w in seen.windows)
+    last = max(dt.datetime.fromisoformat(w["end"]) for w in seen.windows)
+    fault = Fault.objects.select_for_update().filter(ahu=ahu, code=seen.code, state=Fault.State.OPEN).first()
+    new = fault is None
+    if new:
+        fault = Fault(
+            ahu=ahu,
+            component=_part(ahu, which),
+            code=seen.code,
+            severity=severity,
+            condition_code=condition,
+            first_seen_at=first,
+            last_seen_at=last,
+        )
+    iso = day.isoformat()
+    kept = [w for w in fault.windows if w.get("day") != iso]
+    before = sum(w["duration_s"] for w in fault.windows if w.get("day") == iso)
+    fault.windows = (kept + seen.windows)[-WINDOWS_KEPT:]
+    fault.fault_s = max(fault.fault_s - before, 0.0) + seen.fault_s
+    fault.days_seen = sorted(set(fault.days_seen) | {iso})
+    fault.first_seen_at = min(fault.first_seen_at, first)
+    fault.last_seen_at = max(fault.last_seen_at, last)
+    fault.title, fault.section, fault.formula = seen.title, seen.section, seen.formula[:300]
+    fault.share, fault.consequence, fault.reason = seen.share, seen.consequence, seen.reason
+    fault.save()
+    if new:
+        _audit(by, fault, "fault_open", {"code": fault.code, "day": iso})
+    _propose(fault=fault, day=day, by=by)
+    return fault, new
+
+
+def _is_open_work(wo) -> bool:
+    from scheduling.models import WorkOrder
+
+    return (
+        wo is not None
+        and wo.state in WorkOrder.OPEN_STATES
+        and wo.approval != WorkOrder.Approval.REJECTED
+        and wo.kind == WorkOrder.Kind.CORRECTIVE
+    )
+
+
+def _propose(*, fault: Fault, day: dt.date, by) -> None:
+    """The fault's corrective work: the open one it holds, else one proposed (found again for its condition)."""
+    from inspections.services.findings import CONDITION_TITLES, PRIORITY
+    from scheduling.services import corrective_work_order_propose
+
+    if _is_open_work(fault.corrective_work_order):
+        return
+    urgent = fault.code == Fault.FREEZE
+    title = CONDITION_TITLES.get(fault.condition_code, fault.title) if fault.condition_code else fault.title
+    if fault.component is not None:
+        title += f" — {fault.component.name}"
+    wo = corrective_work_order_propose(
+        ahu=fault.ahu,
+        title=title,
+        reason=f"{fault.reason} ({fault.section})",
+        condition_code=fault.condition_code,
+        priority="urgent" if urgent else PRIORITY.get(fault.severity, "normal"),
+        component=fault.component,
+        source_ref=f"trend:fault:{fault.pk}",
+        by=by,
+        approved=urgent,  # as a failed freeze-protection test in its season: approved at once
+        observed_on=day,
+    )
+    fault.corrective_work_order = wo
+    fault.save(update_fields=["corrective_work_order"])
+
+
+def _close_absent(*, ahu: AHU, day: dt.date, end: dt.datetime, judged: set[str], present: set[str], by) -> list:
+    """Close the unit's open faults of rules judged today, not found, and last seen ``close_after()`` ago."""
+    closed = []
+    cutoff = end - close_after()
+    for fault in Fault.objects.select_for_update().filter(
+        ahu=ahu, state=Fault.State.OPEN, code__in=judged - present, last_seen_at__lte=cutoff
+    ):
+        fault.state, fault.closed_at, fault.close_cause = Fault.State.CLOSED, end, Fault.CloseCause.ABSENT
+        fault.save(update_fields=["state", "closed_at", "close_cause"])
+        _audit(by, fault, "fault_close", {"cause": "absent", "day": day.isoformat()})
+        _withdraw(fault=fault, by=by)
+        closed.append(fault)
+    return closed
+
+
+WITHDRAWN = "withdrawn: the fault has not been found in the building-automation trends for the set time"
+
+
+def _withdraw(*, fault: Fault, by) -> None:
+    """Corrective work still awaiting approval whose faults are all closed is withdrawn (approved work stays)."""
+    from scheduling.models import WorkOrder
+    from scheduling.services import work_order_cancel
+
+    wo = fault.corrective_work_order
+    if wo is None or wo.approval != WorkOrder.Approval.PENDING or wo.state not in WorkOrder.OPEN_STATES:
+        return
+    if Fault.objects.filter(corrective_work_order=wo, state=Fault.State.OPEN).exists():
+        return
+    if wo.source_findings.filter(state="open").exists():
+        return
+    work_order_cancel(work_order=wo, by=by, reason=WITHDRAWN)
+
+
+def _audit(by, fault: Fault, action: str, changes: dict) -> None:
+    from accounts.services import audit_record
+
+    audit_record(actor=by, obj=fault, action=action, changes=changes, organisation=fault.ahu.building.site.organisation)
+
+
+# ---------------------------------------------------------------------------
+# Services
+# ---------------------------------------------------------------------------
+
+
+@transaction.atomic
+def unit_day_judge(*, ahu: AHU, day: dt.date, points: list[Point] | None = None, by=None) -> UnitDay:
+    """Judge one unit's site-local ``day`` of trends: feeds, faults, freeze events; idempotent."""
+    from accounts.changes import organisation_changed
+
+    start, end = site_day_window(ahu=ahu, day=day)
+    trends = unit_trends(ahu=ahu, start=start, end=end, lead=LEAD, points=points)
+    out = UnitDay(ahu=ahu, day=day)
+    out.run_hours = run_hours_feed(trends=trends, by=by)
+    if out.run_hours is not None and out.run_hours.note and out.run_hours.reading is None:
+        out.notes.append(f"run-hours: {out.run_hours.note}")
+    hours = out.run_hours.reading.hours if out.run_hours is not None and out.run_hours.reading is not None else None
+    out.filters = filter_feed(trends=trends, day=day, meter_hours=hours, by=by)
+    step = _step_s(trends)
+    out.faults, why = faults_judge(trends=trends, step_s=step)
+    if why:
+        out.notes.append(why)
+    out.freeze = freeze_judge(trends=trends, step_s=step)
+    seen: list[Seen] = []
+    judged: set[str] = set()
+    if out.faults is not None:
+        for code, r in out.faults.results.items():
+            if r.judged and r.applicable_s > 0:
+                judged.add(code)
+            found = _seen_fault(r, day, start) if r.present else None
+            if found is not None:
+                seen.append(found)
+    if trends.of("sat") is not None and trends.of("sat").seconds.size:
+        judged.add(Fault.FREEZE)
+    freeze = _seen_freeze(out.freeze, day)
+    if freeze is not None:
+        seen.append(freeze)
+    for s in seen:
+        fault, new = _keep(ahu=ahu, day=day, seen=s, by=by)
+        (out.opened if new else out.updated).append(fault)
+    out.closed = _close_absent(ahu=ahu, day=day, end=end, judged=judged, present={s.code for s in seen}, by=by)
+    if seen or out.closed:
+        organisation_changed(organisation_id=ahu.building.site.organisation_id)
+    return out
+
+
+def trends_judge(*, site: Site, start: dt.date, end: dt.date, by=None) -> JudgeResult:
+    """Judge every unit of ``site`` with mapped points over the site-local days ``start``–``end``, day by day in
+    order (so run-hour readings follow each other). Each unit's day is its own transaction."""
+    if end < start:
+        from django.core.exceptions import ValidationError
+
+        raise ValidationError(
+            {"end": [f"End day {end.isoformat()} is before start day {start.isoformat()}; allowed: on or after it"]}
+        )
+    result = JudgeResult()
+    units = list(
+        AHU.objects.filter(building__site=site, points__isnull=False)
+        .exclude(status=AHU.Status.RETIRED)
+        .select_related("building__site__organisation")
+        .distinct()
+        .order_by("pk")
+    )
+    points_of: dict[int, list[Point]] = {}
+    for p in Point.objects.filter(ahu__in=units).select_related("component"):
+        points_of.setdefault(p.ahu_id, []).append(p)
+    day = start
+    while day <= end:
+        for ahu in units:
+            result.days.append(unit_day_judge(ahu=ahu, day=day, points=points_of.get(ahu.pk, []), by=by))
+        day += dt.timedelta(days=1)
+    return result
+
+
+def trends_judge_yesterday(*, site: Site, now: dt.datetime | None = None) -> JudgeResult:
+    """The nightly run: the site's local yesterday."""
+    from scheduling.selectors import site_today
+
+    yesterday = site_today(site=site, now=now or timezone.now()) - dt.timedelta(days=1)
+    return trends_judge(site=site, start=yesterday, end=yesterday)
+
+
+def sites_with_points() -> list[int]:
+    return list(Site.objects.filter(buildings__ahus__points__isnull=False).distinct().values_list("pk", flat=True))
+
+
+# ---------------------------------------------------------------------------
+# Followers: completed corrective work closes its faults; freeze events reach freeze readiness
+# ---------------------------------------------------------------------------
+
+
+def work_order_moved(sender, *, work_order, before: str, by, **kwargs) -> None:
+    """``scheduling.signals.work_order_moved`` receiver: completed corrective work closes the faults it answers
+    (found again the next night, a fault opens anew)."""
+    from scheduling.models import WorkOrder
+
+    if work_order.state != WorkOrder.State.COMPLETED:
+        return
+    at = work_order.completed_at or timezone.now()
+    for fault in Fault.objects.select_for_update().filter(corrective_work_order=work_order, state=Fault.State.OPEN):
+        fault.state, fault.closed_at, fault.close_cause = Fault.State.CLOSED, at, Fault.CloseCause.CORRECTED
+        fault.save(update_fields=["state", "closed_at", "close_cause"])
+        _audit(by, fault, "fault_close", {"cause": "corrected", "work_order": str(work_order.public_id)})
+
+
+FREEZE_LOOKBACK = dt.timedelta(days=400)
+
+
+def freeze_blockers(*, unit_ids: list[int], as_of: dt.datetime) -> dict[int, list[tuple[dt.datetime, str, str]]]:
+    """{unit id: [(freeze event time, title, corrective work state)]} for ``inspections.freeze``: every freeze
+    event of the last 400 days up to ``as_of``, open or closed; readiness keeps those no passing test followed."""
+    from scheduling.models import work_order_state_words
+
+    out: dict[int, list[tuple[dt.datetime, str, str]]] = {}
+    rows = Fault.objects.filter(
+        ahu_id__in=unit_ids,
+        code=Fault.FREEZE,
+        first_seen_at__lte=as_of,
+        last_seen_at__gte=as_of - FREEZE_LOOKBACK,
+    ).values_list(
+        "ahu_id", "last_seen_at", "windows", "title", "corrective_work_order__state", "corrective_work_order__approval"
+    )
+    for ahu_id, last_seen_at, windows, title, wo_state, approval in rows:
+        ends = [dt.datetime.fromisoformat(w["end"]) for w in windows or [] if "end" in w]
+        ends = [e for e in ends if e <= as_of] or [min(last_seen_at, as_of)]
+        words = work_order_state_words(wo_state, approval) if wo_state else ""
+        out.setdefault(ahu_id, []).append((max(ends), title, words))
+    return out
