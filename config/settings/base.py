@@ -267,6 +267,13 @@ CELERY_BEAT_SCHEDULE: dict = {
         "schedule": crontab(hour=3, minute=30),
         "options": {"expires": 3 * 3600},
     },
+    # Yesterday's trends per site (run-hours, filter loading, faults), before the nightly generation of the next
+    # night reads them; a site's "yesterday" is its own local day. automation.judging
+    "automation-nightly-trends-judge": {
+        "task": "automation.trends_judge_nightly",
+        "schedule": crontab(hour=0, minute=30),
+        "options": {"expires": 3 * 3600},
+    },
 }
 
 # ---------------------------------------------------------------------------
@@ -292,6 +299,9 @@ PLENUM_ANSWER_CACHE_SECONDS = int(os.environ.get("PLENUM_ANSWER_CACHE_SECONDS", 
 PLENUM_ANSWER_CACHE_BYTES = int(os.environ.get("PLENUM_ANSWER_CACHE_BYTES", str(32 * 1024 * 1024)))
 # Building-automation trend samples older than this many days are deleted by the nightly purge. automation.tasks
 PLENUM_TREND_RETENTION_DAYS = int(os.environ.get("PLENUM_TREND_RETENTION_DAYS", "800"))
+# A fault found in the trends closes once the rules judged the unit's trends and did not find it for this many
+# days (a week covers a weekly occupancy cycle; common practice). automation.judging
+PLENUM_FAULT_CLOSE_AFTER_DAYS = int(os.environ.get("PLENUM_FAULT_CLOSE_AFTER_DAYS", "7"))
 
 LOGGING = {
     "version": 1,
