@@ -323,18 +323,18 @@ def site_brick_import(*, organisation: Organisation, text: str, by: User | None 
     The model is checked by the Brick ontology's SHACL shapes first (``validate``), then every record through
     the same services as the API; ``BrickImportFailed`` lists every problem and nothing is saved."""
     graph = parse_turtle(text)
-    if validate:
-        conforms, report = brick_validate(graph)
-        if not conforms:
-            raise BrickImportFailed(
-                [BrickProblem("file", "shacl", "", "does not conform to the Brick ontology's shapes: " + report)]
-            )
     reader = _Reader(graph)
     sites = reader.of_type(REC.Site, BRICK.Site)
     if len(sites) != 1:
         raise BrickImportFailed(
             [BrickProblem("file", "site", str(len(sites)), "the model must hold exactly one rec:Site")]
         )
+    if validate:
+        conforms, report = brick_validate(graph)
+        if not conforms:
+            raise BrickImportFailed(
+                [BrickProblem("file", "shacl", "", "does not conform to the Brick ontology's shapes: " + report)]
+            )
     site_ref = sites[0]
     site_values = reader.fields(site_ref, Site, SITE_FIELDS)
     code = site_values.get("code")
