@@ -34,6 +34,7 @@ from schemathesis.specs.openapi.checks import status_code_conformance
 from accounts.services import api_token_issue
 from frontend.calculators import CALCULATORS
 from inventory.csv_io import KINDS
+from tests.tenancy.test_matrix import probe_point, probe_trend_job
 from tests.tenancy.world import World, build
 
 EXAMPLES = 8
@@ -90,6 +91,10 @@ def real_ids(world: World) -> dict[str, dict[str, object]]:
         "/api/inspections/photos/{client_uuid}/": {"client_uuid": str(a.photo.client_uuid)},
         "/api/inspections/photos/{client_uuid}/thumbnail/": {"client_uuid": str(a.photo.client_uuid)},
         "/api/inspections/work-orders/{public_id}/checklist/": {"public_id": wo},
+        "/api/automation/points/{id}/": {"id": probe_point(a).pk},
+        "/api/automation/sites/{id}/trends/": {"id": a.site.pk},
+        "/api/automation/sites/{id}/brick/": {"id": a.site.pk},
+        "/api/automation/trend-jobs/{public_id}/": {"public_id": str(probe_trend_job(a).public_id)},
     }
     for suffix in ("", "amendments/", "resolve-flag/", "verify/"):
         out[f"/api/inspections/{{id}}/{suffix}"] = {"id": a.inspection.pk}

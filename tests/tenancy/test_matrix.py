@@ -92,6 +92,10 @@ FILL: dict[str, Fill] = {
     },
     "frontend:person_edit": {"pk": lambda c: c.technician.pk},
     "frontend:calc_api": {"name": lambda c: next(iter(CALCULATORS))},
+    "automation_api:point-detail": {"pk": lambda c: probe_point(c).pk},
+    "automation_api:site-trends": {"pk": lambda c: c.site.pk},
+    "automation_api:site-brick": {"pk": lambda c: c.site.pk},
+    "automation_api:trend-job": {"public_id": lambda c: probe_trend_job(c).public_id},
 }
 # Component labels open the same views as unit labels: try both.
 ALSO = {
@@ -148,7 +152,46 @@ HOSTILE: dict[str, Hostile | None] = {
     "api-redoc": None,
     # Asks for an e-mail to the address's owner, whoever asks, with the same answer whether it exists or not.
     "accounts:password_reset": None,
+    "automation_api:point-list": lambda c, w: (
+        {"ahu": c.ahu.pk, "name": "HIJACK", "brick_class": "Supply_Air_Temperature_Sensor"},
+        "json",
+    ),
+    "automation_api:brick-import": lambda c, w: (
+        {"organisation": c.site.organisation.slug, "file": brick_upload(c)},
+        "multipart",
+    ),
 }
+
+
+def probe_point(c: Corner):
+    """A mapped automation point of the corner's unit (made on first use; its name carries the unit's tag)."""
+    from automation.models import Point
+
+    point, _ = Point.objects.get_or_create(
+        ahu=c.ahu, name=f"{c.ahu.tag}.SAT", defaults={"brick_class": "Supply_Air_Temperature_Sensor", "unit": "DEG_C"}
+    )
+    return point
+
+
+def probe_trend_job(c: Corner):
+    """A finished trend import job of the corner's site."""
+    from automation.models import TrendImportJob
+
+    job, _ = TrendImportJob.objects.get_or_create(
+        site=c.site,
+        defaults={"organisation": c.site.organisation, "layout": "wide", "status": "done", "file_name": c.site.code},
+    )
+    return job
+
+
+def brick_upload(c: Corner, code: str = "probe-brick"):
+    """The corner's site as a Brick model (Turtle) under a new site code, as a file to upload."""
+    from django.core.files.uploadedfile import SimpleUploadedFile
+
+    from automation.brick import site_brick_turtle
+
+    text = site_brick_turtle(site=c.site).replace(f'plenum:code "{c.site.code}"', f'plenum:code "{code}"')
+    return SimpleUploadedFile("site.ttl", text.encode(), content_type="text/turtle")
 
 
 def _csv_upload():
@@ -394,6 +437,8 @@ def _judge_create(res, what: str, name: str, corners, role, sent: str) -> list[s
 
 def test_sequential_ids_of_another_organisation_are_refused(world):
     """Routes with a numeric id check access on every object: every id the person may not see is refused."""
+    from automation.models import Point
+    from automation.selectors import points_visible_to
     from inspections.selectors import findings_visible_to, inspections_visible_to
     from inventory.selectors import ahus_visible_to, buildings_visible_to, components_visible_to, sites_visible_to
 
@@ -409,6 +454,8 @@ def test_sequential_ids_of_another_organisation_are_refused(world):
         "frontend:dashboard_site": (Site, sites_visible_to),
         "frontend:manager_unit": (AHU, ahus_visible_to),
         "frontend:manager_finding": (Finding, findings_visible_to),
+        "automation_api:point-detail": (Point, points_visible_to),
+        "automation_api:site-brick": (Site, sites_visible_to),
     }
     int_routes = [(route, name) for route, name, _ in routes() if "<int:" in route]
     unknown = [name for _, name in int_routes if name not in models and name not in FILL]

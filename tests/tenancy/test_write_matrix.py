@@ -38,7 +38,7 @@ from inspections.selectors import checklist_for
 from reports.models import Report
 from scheduling.models import MeterReading, WorkOrder
 from tests.factories.scheduling import WorkOrderFactory
-from tests.tenancy.test_matrix import FILL, PARAM, _image_upload, routes
+from tests.tenancy.test_matrix import FILL, PARAM, _image_upload, brick_upload, probe_point, routes
 from tests.tenancy.world import PASSWORD, Corner, World, build, filter_form
 
 TECHNICIAN, SUPERVISOR, PM, ADMIN = Role.TECHNICIAN, Role.SUPERVISOR, Role.PROPERTY_MANAGER, Role.ADMIN
@@ -165,6 +165,14 @@ def _csv(c: Corner) -> Call:
     return Call({"kind": "sites"}, {"organisation": c.site.organisation.slug, "file": upload}, "multipart")
 
 
+def _trend_csv(c: Corner) -> Call:
+    from django.core.files.uploadedfile import SimpleUploadedFile
+
+    text = f"timestamp,{probe_point(c).name}\n2025-06-02 08:00,16.5\n".encode()
+    upload = SimpleUploadedFile("trend.csv", text, content_type="text/csv")
+    return Call({"pk": c.site.pk}, {"layout": "wide", "file": upload}, "multipart")
+
+
 def _reading(c: Corner) -> Call:
     return Call(
         body={"unit_label": c.ahu.label_code, "hours": 1500, "taken_at": timezone.now().isoformat()},
@@ -275,6 +283,22 @@ WRITES: dict[tuple[str, str], Write] = {
         MANAGERS, lambda w, c: Call({"pk": c.ahu.components.get(name="Intake screen").pk})
     ),
     ("inventory_api:import", "post"): Write(MANAGERS, lambda w, c: _csv(c), in_body=True),
+    # The point map, trends and Brick models of a site (automation/api.py): supervisors and admins.
+    ("automation_api:point-list", "post"): Write(
+        MANAGERS,
+        lambda w, c: Call(body={"ahu": c.ahu.pk, "name": "PROBE.SAT", "brick_class": "Supply_Air_Temperature_Sensor"}),
+        in_body=True,
+    ),
+    ("automation_api:point-detail", "patch"): Write(
+        MANAGERS, lambda w, c: Call({"pk": probe_point(c).pk}, {"name": "PROBE.RENAMED"})
+    ),
+    ("automation_api:point-detail", "delete"): Write(MANAGERS, lambda w, c: Call({"pk": probe_point(c).pk})),
+    ("automation_api:site-trends", "post"): Write(MANAGERS, lambda w, c: _trend_csv(c)),
+    ("automation_api:brick-import", "post"): Write(
+        MANAGERS,
+        lambda w, c: Call(body={"organisation": c.site.organisation.slug, "file": brick_upload(c)}, fmt="multipart"),
+        in_body=True,
+    ),
     ("frontend:registry_unit_edit", "post"): Write(MANAGERS, _unit_edit),
     ("frontend:registry_component_edit", "post"): Write(MANAGERS, _component_edit),
     # Registry pages: add, move and retire (frontend/views/registry_pages.py); supervisors and admins.
@@ -591,7 +615,7 @@ def _snapshot() -> dict:
     out = {}
     for model in apps.get_models():
         label = model._meta.label_lower
-        if model._meta.app_label not in {"accounts", "inventory", "scheduling", "inspections", "reports"}:
+        if model._meta.app_label not in {"accounts", "inventory", "scheduling", "inspections", "automation", "reports"}:
             continue
         if label in SKIP_MODELS:
             continue
