@@ -384,3 +384,36 @@ def test_a_near_freezing_night_makes_the_unit_not_ready_until_its_freeze_test_pa
     assert after.status == "ready" and after.tested_on == dt.date(2025, 10, 30)
     fault.refresh_from_db()
     assert fault.state == Fault.State.CLOSED and fault.close_cause == Fault.CloseCause.CORRECTED
+
+
+# ---------------------------------------------------------------------------
+# Reads for the pages
+# ---------------------------------------------------------------------------
+
+
+def test_faults_are_read_through_the_tenancy_rule_with_their_evidence_windows(unit):
+    """The unit's supervisor sees the fault, its work and its windows on the trend view; another organisation's
+    supervisor sees nothing and gets not-found for the fault."""
+    from django.http import Http404
+
+    from accounts.models import Role
+    from automation.fault_selectors import fault_for, faults_visible_to, unit_trend_view
+    from tests.factories.accounts import make_person
+
+    ahu, points = unit
+    _heating_day(points, DAY1, mat=STUCK_MAT)
+    _judge(ahu, DAY1)
+    boss = make_person(organisation=ahu.building.site.organisation, role=Role.SUPERVISOR)
+    stranger = make_person(organisation=OrganisationFactory(), role=Role.SUPERVISOR)
+    [fault] = faults_visible_to(user=boss)
+    assert fault.code == "FC6" and fault.corrective_work_order is not None
+    assert fault_for(user=boss, id=fault.pk) == fault
+    assert not faults_visible_to(user=stranger).exists()
+    with pytest.raises(Http404):
+        fault_for(user=stranger, id=fault.pk)
+    view = unit_trend_view(ahu=ahu, start=_start(DAY1), end=_start(DAY1) + dt.timedelta(days=1))
+    mat = next(line for line in view.lines if line.role == "mat")
+    assert len(mat.samples) == 96 and mat.samples[0] == (_start(DAY1), STUCK_MAT)
+    damper = next(line for line in view.lines if line.role == "oa_damper")
+    assert damper.samples[0][1] == pytest.approx(0.25)  # 25 % as a fraction
+    assert [w["code"] for w in view.windows] == ["FC6"]
