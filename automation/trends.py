@@ -120,28 +120,29 @@ def _value(raw: str, point: Point) -> tuple[float | None, str]:
 
 
 class _Clock:
-    """Reads the time cells of one file in the site's zone; a local time that repeats in the hour a clock change
-    repeats is read the second time as the later one."""
+    """Reads the time cells of one file in the site's zone. A local time that comes again for the same series
+    (the whole row in the wide layout, one point in the long one) in the hour a clock change repeats is read
+    the second time as the later of the two."""
 
     def __init__(self, site: Site, now: dt.datetime):
         self.zone = site.time_zone
         self.now = now
-        self.seen: dict[str, int] = {}
-        self.last_raw: str | None = None
+        self.seen: set[tuple[str, str]] = set()
+        self.last_raw: dict[str, str] = {}
 
-    def read(self, raw: str, *, line: int, column: str, errors: list[RowError]) -> dt.datetime | None:
+    def read(self, raw: str, *, line: int, column: str, errors: list[RowError], series: str = "") -> dt.datetime | None:
         problems = FieldErrors()
         when = check_reading_time(raw, key=column, label="Time", tz=self.zone, now=self.now, errors=problems)
         if when is None:
             errors.extend(RowError(line, column, raw, m) for m in problems.get(column, []))
             return None
         naive = raw.strip()
-        if naive != self.last_raw and naive in self.seen and when.fold == 0:
+        if naive != self.last_raw.get(series) and (series, naive) in self.seen and when.fold == 0:
             later = when.replace(fold=1)
             if later.utcoffset() != when.utcoffset():
                 when = later
-        self.seen[naive] = line
-        self.last_raw = naive
+        self.seen.add((series, naive))
+        self.last_raw[series] = naive
         return when.astimezone(dt.UTC)
 
 
@@ -247,7 +248,7 @@ def _read_long(
             )
             continue
         raw_time, raw_point, raw = record
-        when = clock.read(raw_time, line=line, column="timestamp", errors=errors)
+        when = clock.read(raw_time, line=line, column="timestamp", errors=errors, series=raw_point.strip())
         if raw_point not in found:
             found[raw_point] = points.find(raw_point)
         point, problem = found[raw_point]

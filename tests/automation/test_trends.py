@@ -87,6 +87,20 @@ def test_the_hour_the_clocks_go_back(plant):
     ]
 
 
+def test_the_repeated_hour_in_a_long_file_sorted_by_point(plant):
+    """A long file listing one point's night and then the next point's: each point's second 02:00 is the later
+    hour, and the second point's first 02:00 is the earlier one (the repeat is judged per point)."""
+    times = ["01:45", "02:00", "02:30", "02:00", "02:30", "03:00"]
+    rows = [f"2026-10-25 {t},{name},{i}" for name in ("AHU1.SAT", "AHU1.RAT") for i, t in enumerate(times)]
+    trend_import(site=plant.site, text="timestamp,point,value\n" + "\n".join(rows), layout="long",
+                 now=dt.datetime(2026, 11, 1, tzinfo=UTC))  # fmt: skip
+    for name in ("AHU1.SAT", "AHU1.RAT"):
+        stored = _values(
+            plant.points[name], dt.datetime(2026, 10, 24, tzinfo=UTC), dt.datetime(2026, 10, 26, tzinfo=UTC)
+        )
+        assert [w.strftime("%H:%M") for w, _v in stored] == ["23:45", "00:00", "00:30", "01:00", "01:30", "02:00"]
+
+
 def test_every_bad_row_and_cell_is_listed_and_nothing_is_stored(plant):
     """Unknown point column, a time that is no time, a future time, a text value, an out-of-range value and a
     fan status of 2: each named with line, column, value and what is allowed; no value is stored."""
