@@ -143,8 +143,9 @@ def faults_judge(*, trends: UnitTrends, step_s: float | None = None) -> tuple[Ah
     step = step_s or _step_s(trends)
     start = (trends.start - LEAD).timestamp()
     series = _series(trends, start)
-    if not series:
-        return None, "no trend samples of any point the fault rules read"
+    day_start = trends.start.timestamp()
+    if not any((times >= day_start).any() for times, _values in series.values()):
+        return None, "no trend samples that day of any point the fault rules read"
     ahu = trends.ahu
     series["min_oa_fraction"] = float(ahu.design_min_oa_fraction)
     damper = trends.of("oa_damper")
@@ -220,8 +221,19 @@ class Seen:
     reason: str
 
 
-def _seen_fault(r: FaultResult, day: dt.date, start: dt.datetime) -> Seen | None:
-    windows = [_window_json(day, w) for w in r.windows if _when(w.end) > start]
+def _in_day(day: dt.date, w, start: dt.datetime, end: dt.datetime) -> dict | None:
+    """A window clipped to the day [start, end); None when what lies in the day is shorter than the alarm delay
+    (a run that ended in the hour before the day, held a few minutes into it, is the day before's evidence)."""
+    w_start, w_end = max(_when(w.start), start), min(_when(w.end), end)
+    if (w_end - w_start).total_seconds() < G36_DEFAULTS.alarm_delay_s:
+        return None
+    clipped = _window_json(day, w)
+    clipped.update(start=w_start.isoformat(), end=w_end.isoformat(), duration_s=(w_end - w_start).total_seconds())
+    return clipped
+
+
+def _seen_fault(r: FaultResult, day: dt.date, start: dt.datetime, end: dt.datetime) -> Seen | None:
+    windows = [c for w in r.windows if (c := _in_day(day, w, start, end)) is not None]
     if not windows:
         return None
     fault_s = sum(w["duration_s"] for w in windows)
@@ -419,7 +431,7 @@ def unit_day_judge(*, ahu: AHU, day: dt.date, points: list[Point] | None = None,
         for code, r in out.faults.results.items():
             if r.judged and r.applicable_s > 0:
                 judged.add(code)
-            found = _seen_fault(r, day, start) if r.present else None
+            found = _seen_fault(r, day, start, end) if r.present else None
             if found is not None:
                 seen.append(found)
     if trends.of("sat") is not None and trends.of("sat").seconds.size:

@@ -417,3 +417,51 @@ def test_faults_are_read_through_the_tenancy_rule_with_their_evidence_windows(un
     damper = next(line for line in view.lines if line.role == "oa_damper")
     assert damper.samples[0][1] == pytest.approx(0.25)  # 25 % as a fraction
     assert [w["code"] for w in view.windows] == ["FC6"]
+
+
+# ---------------------------------------------------------------------------
+# Days as the site keeps them, missing data, wild values
+# ---------------------------------------------------------------------------
+
+
+def test_a_day_is_the_sites_local_day_and_the_clock_change_day_has_25_hours(unit):
+    """Amsterdam left summer time on 26 October 2025 (02:00 CEST → 01:00 CET, from memory): that local day lasts
+    25 h, so a fan running all day adds 25 run-hours; the day before adds 24."""
+    from inventory.models import Site
+
+    ahu, points = unit
+    Site.objects.filter(pk=ahu.building.site_id).update(time_zone="Europe/Amsterdam")
+    ahu.building.site.refresh_from_db()
+    start = dt.datetime(2025, 10, 24, 22, tzinfo=UTC)  # 25 October 00:00 CEST
+    put_day(points, start, {"SF-STS": 1})
+    put_day(points, start + dt.timedelta(days=1), {"SF-STS": 1})
+    put_day(points, start + dt.timedelta(days=2), {"SF-STS": 1})
+    with time_machine.travel(dt.datetime(2025, 10, 28, 1, tzinfo=UTC), tick=False):
+        trends_judge(site=ahu.building.site, start=dt.date(2025, 10, 25), end=dt.date(2025, 10, 26))
+    readings = list(MeterReading.objects.filter(ahu=ahu).order_by("taken_at"))
+    assert [r.hours for r in readings] == [0.0, 24.0, 49.0]
+    assert readings[-1].taken_at == dt.datetime(2025, 10, 26, 23, tzinfo=UTC)  # 27 October 00:00 CET
+
+
+@override_settings(PLENUM_FAULT_CLOSE_AFTER_DAYS=7)
+def test_days_without_trends_neither_add_run_hours_nor_close_a_fault(unit):
+    """Absence of data is not absence of the fault: ten days with no samples leave the stuck damper open, and
+    the meter gets no reading for them."""
+    ahu, points = unit
+    _heating_day(points, DAY1, mat=STUCK_MAT)
+    _judge(ahu, DAY1)
+    for day in _days(10, DAY1 + dt.timedelta(days=1)):
+        result = _judge(ahu, day)
+        assert result.run_hours is None and result.faults is None
+    assert Fault.objects.get(ahu=ahu).state == Fault.State.OPEN
+    assert MeterReading.objects.filter(ahu=ahu).count() == 2  # 0 h at the first day's start, 24 h at its end
+
+
+def test_values_outside_what_a_sensor_can_read_are_gaps_not_faults(unit):
+    """A supply air of 999 °C and a speed command of 150 % (a BAS's error codes) do not stop the day being judged:
+    the temperature is a gap, the command is read as full."""
+    ahu, points = unit
+    _heating_day(points, DAY1, mat=WORKING_MAT, SAT=lambda t: 999.0 if t.hour == 3 else 18.0, **{"SF-SPD": 150})
+    result = _judge(ahu, DAY1)
+    assert result.faults is not None and result.faults.results["FC6"].judged
+    assert not Fault.objects.exists()
