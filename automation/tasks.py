@@ -25,3 +25,18 @@ def trend_import_job_run(job_id: int) -> str:
     from .trends import trend_import_job_run as run
 
     return run(job_id=job_id).status
+
+
+# No retry: the next beat (a minute later) polls whatever is due again.
+@shared_task(name="automation.bacnet_poll")
+def bacnet_poll(site_id: int | None = None) -> dict[str, int | bool]:
+    from .polling import bacnet_poll as poll
+
+    result = poll(site_id=site_id)
+    return {
+        "off": result.off,
+        "devices": result.devices,
+        "silent": result.silent,
+        "values": result.values,
+        "stale": len(result.stale),
+    }

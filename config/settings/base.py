@@ -274,6 +274,12 @@ CELERY_BEAT_SCHEDULE: dict = {
         "schedule": crontab(hour=0, minute=30),
         "options": {"expires": 3 * 3600},
     },
+    # Each minute: the BACnet devices whose poll interval has passed (nothing while PLENUM_BACNET_INTERFACE is empty).
+    "automation-bacnet-poll": {
+        "task": "automation.bacnet_poll",
+        "schedule": 60.0,
+        "options": {"expires": 55},
+    },
 }
 
 # ---------------------------------------------------------------------------
@@ -302,6 +308,12 @@ PLENUM_TREND_RETENTION_DAYS = int(os.environ.get("PLENUM_TREND_RETENTION_DAYS", 
 # A fault found in the trends closes once the rules judged the unit's trends and did not find it for this many
 # days (a week covers a weekly occupancy cycle; common practice). automation.judging
 PLENUM_FAULT_CLOSE_AFTER_DAYS = int(os.environ.get("PLENUM_FAULT_CLOSE_AFTER_DAYS", "7"))
+# BACnet/IP polling of mapped automation points (automation.polling): the poller's own address on the building
+# network as bacpypes3 takes it, "192.168.10.5/24:47808" (host/prefix:port); empty switches polling off. The
+# poller is a BACnet device itself: give it an instance no other device on the network has. Timeout per request.
+PLENUM_BACNET_INTERFACE = os.environ.get("PLENUM_BACNET_INTERFACE", "")
+PLENUM_BACNET_DEVICE_INSTANCE = int(os.environ.get("PLENUM_BACNET_DEVICE_INSTANCE", "4194000"))
+PLENUM_BACNET_TIMEOUT_SECONDS = float(os.environ.get("PLENUM_BACNET_TIMEOUT_SECONDS", "5"))
 
 LOGGING = {
     "version": 1,
