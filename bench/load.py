@@ -115,8 +115,8 @@ def request(
     return resp.status, data, time.perf_counter() - t0
 
 
-def get_json(port: int, path: str, *, token: str | None = None):
-    status, data, _ = request("GET", port, path, token=token)
+def get_json(port: int, path: str, *, token: str | None = None, timeout: float = 60):
+    status, data, _ = request("GET", port, path, token=token, timeout=timeout)
     if status != 200:
         raise RuntimeError(f"GET {path} answered {status}: {data[:300]!r}")
     return json.loads(data)
