@@ -465,3 +465,22 @@ def test_values_outside_what_a_sensor_can_read_are_gaps_not_faults(unit):
     result = _judge(ahu, DAY1)
     assert result.faults is not None and result.faults.results["FC6"].judged
     assert not Fault.objects.exists()
+
+
+def test_the_command_judges_a_range_and_names_a_bad_date(unit):
+    import io
+
+    from django.core.management import CommandError, call_command
+
+    ahu, points = unit
+    ahu.building.site.code = "dune"
+    ahu.building.site.save(update_fields=["code"])
+    for day in _days(2):
+        _heating_day(points, day, mat=STUCK_MAT)
+    out = io.StringIO()
+    with time_machine.travel(_start(DAY1) + dt.timedelta(days=3), tick=False):
+        call_command("judge_trends", "dune", "2026-01-12", "2026-01-13", stdout=out)
+    assert "2026-01-12 AHU-07: ran 24.0 h; opened FC6" in out.getvalue()
+    assert "faults opened 1, closed 0" in out.getvalue()
+    with pytest.raises(CommandError, match="start='2026-13-01' is not a date; allowed: YYYY-MM-DD"):
+        call_command("judge_trends", "dune", "2026-13-01")
