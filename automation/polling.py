@@ -31,7 +31,12 @@ from django.db.models import Exists, OuterRef, Q
 from django.utils import timezone
 
 from . import bacnet
-from .models import BacnetDevice, Point, PointPoll, TrendDay
+from .models import BacnetDevice, Point, PointPoll
+
+# The trend import's own store (day buckets merged, a sample at a stored second replaced, the point's last value
+# and its stale flag set): one way of storing samples for the import and the poller.
+from .trends import TrendImportResult
+from .trends import _store as trend_samples_store
 
 # A device is due this much before its interval has quite passed: beat runs each minute, and a poll that started
 # a second late should not wait a whole further minute.
@@ -149,8 +154,10 @@ def bacnet_poll(*, site_id: int | None = None) -> PollResult:
             known = getattr(point, "poll", None)
             if not (point.stale and known is not None and known.reason == reason):
                 result.stale[point.pk] = reason
-        result.values = trend_values_store(values=values, at=read_at)
-        _record(values=values, stale=result.stale, at=read_at)
+        stored = TrendImportResult()
+        trend_samples_store({pk: {read_at: value} for pk, value in values.items()}, stored)
+        result.values = stored.values
+        _record(read=set(values), stale=result.stale, at=read_at)
     return result
 
 
@@ -163,10 +170,11 @@ def _device_answered(device: BacnetDevice, answer: bacnet.DeviceAnswer | None, a
     BacnetDevice.objects.filter(pk=device.pk).update(**fields)
 
 
-def _record(*, values: dict[int, float], stale: dict[int, str], at: dt.datetime) -> None:
-    """Each point's last poll (and why it brought nothing); stale points flagged, read points fresh again."""
+def _record(*, read: set[int], stale: dict[int, str], at: dt.datetime) -> None:
+    """Each point's last poll (and why it brought nothing); stale points flagged (the store makes read points
+    fresh again)."""
     PointPoll.objects.bulk_create(
-        [PointPoll(point_id=pk, polled_at=at, reason="") for pk in values]
+        [PointPoll(point_id=pk, polled_at=at, reason="") for pk in read]
         + [PointPoll(point_id=pk, polled_at=at, reason=reason[:300]) for pk, reason in stale.items()],
         update_conflicts=True,
         unique_fields=["point"],
@@ -174,37 +182,3 @@ def _record(*, values: dict[int, float], stale: dict[int, str], at: dt.datetime)
     )
     if stale:
         Point.objects.filter(pk__in=stale).update(stale=True)
-    for pk, value in values.items():
-        Point.objects.filter(pk=pk).exclude(last_value_at__gt=at).update(
-            last_value=value, last_value_at=at, stale=False
-        )
-
-
-def trend_values_store(*, values: dict[int, float], at: dt.datetime) -> int:
-    """Store one sample per point (point id → value in its SI unit) at ``at`` (aware; whole seconds) in the points'
-    day buckets; a sample already stored at that second is replaced. Returns the number stored.
-
-    Written here because ``automation.trends`` had no public function to store samples when the poller was
-    written; one sample per point a run needs no more than this."""
-    if not values:
-        return 0
-    at = at.astimezone(dt.UTC)
-    day = at.date()
-    second = int((at - dt.datetime.combine(day, dt.time(), tzinfo=dt.UTC)).total_seconds())
-    stored = {b.point_id: b for b in TrendDay.objects.select_for_update().filter(point_id__in=values, day=day)}
-    new, changed = [], []
-    for pk, value in values.items():
-        bucket = stored.get(pk)
-        if bucket is None:
-            bucket = TrendDay(point_id=pk, day=day)
-            samples: dict[int, float] = {}
-            new.append(bucket)
-        else:
-            start = dt.datetime.combine(day, dt.time(), tzinfo=dt.UTC)
-            samples = {int((when - start).total_seconds()): v for when, v in bucket.samples()}
-            changed.append(bucket)
-        samples[second] = value
-        bucket.set_samples(samples)
-    TrendDay.objects.bulk_create(new)
-    TrendDay.objects.bulk_update(changed, ["seconds", "values", "count"])
-    return len(values)
