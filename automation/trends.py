@@ -314,7 +314,7 @@ def trend_import(
         raise ImportFailed([RowError(2, "", "", "the file has a header but no rows of values")])
     result = TrendImportResult(rows=rows)
     with transaction.atomic():
-        _store(samples, result)
+        trend_samples_store(samples, result)
         if by is not None:
             from accounts.services import audit_record
 
@@ -330,8 +330,12 @@ def trend_import(
     return result
 
 
-def _store(samples: Samples, result: TrendImportResult) -> None:
-    """Merge the samples into the points' day buckets (one read and one bulk write per chunk of buckets)."""
+def trend_samples_store(samples: Samples, result: TrendImportResult | None = None) -> TrendImportResult:
+    """Merge ``{point id: {aware time: value}}`` into the points' day buckets (one read and one bulk write per
+    chunk of buckets) and move each point's last value; a sample at a time already stored replaces it. For
+    every writer of samples (the CSV import, the BACnet poller); call it inside the writer's transaction.
+    Values must be clean already (``_value`` checks a CSV cell)."""
+    result = result if result is not None else TrendImportResult()
     by_bucket: dict[tuple[int, dt.date], dict[int, float]] = defaultdict(dict)
     for point_id, values in samples.items():
         for when, value in values.items():
@@ -368,10 +372,16 @@ def _store(samples: Samples, result: TrendImportResult) -> None:
         TrendDay.objects.bulk_create(new)
         TrendDay.objects.bulk_update(changed, ["seconds", "values", "count"])
     for point_id, values in samples.items():
+        if not values:
+            continue
         latest = max(values)
         Point.objects.filter(pk=point_id).exclude(last_value_at__gt=latest).update(
             last_value=values[latest], last_value_at=latest, stale=False
         )
+    return result
+
+
+_store = trend_samples_store  # the name the poller first used
 
 
 def trend_samples(*, point: Point, since: dt.datetime, until: dt.datetime) -> list[tuple[dt.datetime, float]]:
