@@ -26,6 +26,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 from django.conf import settings
+from django.core.exceptions import ValidationError
 from django.db import transaction
 from django.utils import timezone
 
@@ -452,8 +453,6 @@ def trends_judge(*, site: Site, start: dt.date, end: dt.date, by=None) -> JudgeR
     """Judge every unit of ``site`` with mapped points over the site-local days ``start``–``end``, day by day in
     order (so run-hour readings follow each other). Each unit's day is its own transaction."""
     if end < start:
-        from django.core.exceptions import ValidationError
-
         raise ValidationError(
             {"end": [f"End day {end.isoformat()} is before start day {start.isoformat()}; allowed: on or after it"]}
         )
@@ -471,7 +470,12 @@ def trends_judge(*, site: Site, start: dt.date, end: dt.date, by=None) -> JudgeR
     day = start
     while day <= end:
         for ahu in units:
-            result.days.append(unit_day_judge(ahu=ahu, day=day, points=points_of.get(ahu.pk, []), by=by))
+            try:
+                result.days.append(unit_day_judge(ahu=ahu, day=day, points=points_of.get(ahu.pk, []), by=by))
+            except (ValidationError, EngineeringInputError) as exc:
+                # One unit's refused write (its day rolled back) never stops the site's other units.
+                words = " ".join(exc.messages) if isinstance(exc, ValidationError) else str(exc)
+                result.days.append(UnitDay(ahu=ahu, day=day, notes=[f"not judged: {words}"]))
         day += dt.timedelta(days=1)
     return result
 
