@@ -18,6 +18,7 @@ from bacpypes3.local.device import DeviceObject
 from bacpypes3.local.networkport import NetworkPortObject
 
 from automation.bacnet import to_si
+from automation.bacnet_devices import bacnet_device_create
 from automation.models import BacnetDevice, Point, PointPoll
 from automation.polling import bacnet_poll
 from automation.services import point_update
@@ -148,7 +149,7 @@ def test_the_poller_reads_the_devices_points_and_stores_them_in_si(plant, poller
     """Each mapped point of the simulated device is read (ReadPropertyMultiple) and stored at the poll's time in
     its SI unit: °F and in. w.c. converted, 'no units' taken as the point's unit, a binary value as 1."""
     _readdress(plant.points)
-    BacnetDevice.objects.create(site=plant.site, device_instance=1001, address=device.address)
+    bacnet_device_create(site=plant.site, device_instance=1001, address=device.address)
 
     result = _poll(site_id=plant.site.pk)
 
@@ -172,7 +173,7 @@ def test_an_unknown_object_makes_that_point_stale_and_the_others_are_stored(plan
     """The heating valve names analog-output 3, which the device does not have: that point is stale with the
     device's own reason; every other point of the device is stored."""
     _readdress(plant.points)
-    BacnetDevice.objects.create(site=plant.site, device_instance=1001, address=device.address)
+    bacnet_device_create(site=plant.site, device_instance=1001, address=device.address)
 
     result = _poll(site_id=plant.site.pk)
 
@@ -188,11 +189,11 @@ def test_a_device_that_does_not_answer_marks_its_points_stale_and_others_are_sti
     """Organisation B's device has an address where nothing answers: the run completes within its timeout, B's
     points are stale with the reason, and A's device is read and stored as usual."""
     _readdress(plant.points)
-    BacnetDevice.objects.create(site=plant.site, device_instance=1001, address=device.address)
+    bacnet_device_create(site=plant.site, device_instance=1001, address=device.address)
     silent = _silent_port()
     try:
         address = f"127.0.0.1:{silent.getsockname()[1]}"
-        BacnetDevice.objects.create(site=plant.foreign_site, device_instance=1001, address=address)
+        bacnet_device_create(site=plant.foreign_site, device_instance=1001, address=address)
         result = _poll()
     finally:
         silent.close()
@@ -211,9 +212,7 @@ def test_a_stopped_device_makes_its_points_stale_until_it_answers_again(plant, p
     """A device read once and then stopped: the next due poll marks its points stale (the last value kept); the
     points are fresh again once a device answers at the address."""
     _readdress(plant.points)
-    bacnet_device = BacnetDevice.objects.create(
-        site=plant.site, device_instance=1001, address=device.address, poll_seconds=60
-    )
+    bacnet_device = bacnet_device_create(site=plant.site, device_instance=1001, address=device.address, poll_seconds=60)
     _poll(site_id=plant.site.pk)
     device.stop()
 
@@ -241,7 +240,7 @@ def test_a_device_without_read_multiple_is_read_one_property_at_a_time(plant, po
     _readdress(plant.points)
     sim = SimulatedDevice(1001, ahu_objects, read_multiple=False).start()
     try:
-        BacnetDevice.objects.create(site=plant.site, device_instance=1001, address=sim.address)
+        bacnet_device_create(site=plant.site, device_instance=1001, address=sim.address)
         result = _poll(site_id=plant.site.pk)
     finally:
         sim.stop()
@@ -254,7 +253,7 @@ def test_a_device_without_read_multiple_is_read_one_property_at_a_time(plant, po
 
 def test_only_devices_that_are_due_are_polled(plant, poller, device):
     """A device polled a minute ago with a 15-minute interval is left alone; its interval passed, it is read."""
-    bacnet_device = BacnetDevice.objects.create(site=plant.site, device_instance=1001, address=device.address)
+    bacnet_device = bacnet_device_create(site=plant.site, device_instance=1001, address=device.address)
     BacnetDevice.objects.filter(pk=bacnet_device.pk).update(polled_at=NOW - dt.timedelta(minutes=1))
     assert _poll(site_id=plant.site.pk).devices == 0
     BacnetDevice.objects.filter(pk=bacnet_device.pk).update(polled_at=NOW - dt.timedelta(minutes=15))
@@ -273,7 +272,7 @@ def test_points_of_a_device_the_site_does_not_list_are_stale_with_the_reason(pla
 def test_polling_is_off_until_an_interface_is_configured(plant, settings, device):
     """With no BACnet interface configured the beat's task does nothing."""
     settings.PLENUM_BACNET_INTERFACE = ""
-    BacnetDevice.objects.create(site=plant.site, device_instance=1001, address=device.address)
+    bacnet_device_create(site=plant.site, device_instance=1001, address=device.address)
     with time_machine.travel(NOW, tick=True):
         assert bacnet_poll_task.delay().get()["off"] is True
     assert not _fresh("AHU1.SAT", plant).trend_days.exists()
@@ -282,7 +281,7 @@ def test_polling_is_off_until_an_interface_is_configured(plant, settings, device
 def test_the_task_polls_through_the_service(plant, poller, device):
     """The Celery task runs a poll and says what it did."""
     _readdress(plant.points)
-    BacnetDevice.objects.create(site=plant.site, device_instance=1001, address=device.address)
+    bacnet_device_create(site=plant.site, device_instance=1001, address=device.address)
     with time_machine.travel(NOW, tick=True):
         summary = bacnet_poll_task.delay(plant.site.pk).get()
     assert summary == {"off": False, "devices": 1, "silent": 0, "values": 8, "stale": 1}
