@@ -37,6 +37,7 @@ from .models import BacnetDevice, Point, PointPoll
 # and its stale flag set): one way of storing samples for the import and the poller.
 from .trends import TrendImportResult
 from .trends import _store as trend_samples_store
+from .vocabulary import PLAUSIBLE, PointUnit
 
 # A device is due this much before its interval has quite passed: beat runs each minute, and a poll that started
 # a second late should not wait a whole further minute.
@@ -145,7 +146,11 @@ def bacnet_poll(*, site_id: int | None = None) -> PollResult:
                 elif got is None or got.value is None:
                     result.stale[point.pk] = (got.error if got else "") or "the device gave no value for it"
                 else:
-                    values[point.pk] = got.value
+                    refused = _implausible(point, got.value)
+                    if refused:
+                        result.stale[point.pk] = refused
+                    else:
+                        values[point.pk] = got.value
         for point in _unlisted_points(site_id):
             reason = (
                 f"BACnet device {point.bacnet_device_instance} is not in the site's list of devices; "
@@ -159,6 +164,18 @@ def bacnet_poll(*, site_id: int | None = None) -> PollResult:
         result.values = stored.values
         _record(read=set(values), stale=result.stale, at=read_at)
     return result
+
+
+def _implausible(point: Point, value: float) -> str:
+    """Why a value is not stored (outside what the point's unit may plausibly hold, as the trend import refuses
+    it: a sensor's fault code such as -999, a wrong unit), or an empty string."""
+    low, high = PLAUSIBLE[point.unit]
+    if low <= value <= high:
+        return ""
+    return (
+        f"the device gave {value:g} {PointUnit(point.unit).label}, out of range for {point.brick_class}; "
+        f"allowed: a number from {low:g} to {high:g} {PointUnit(point.unit).label}"
+    )
 
 
 def _device_answered(device: BacnetDevice, answer: bacnet.DeviceAnswer | None, at: dt.datetime) -> None:

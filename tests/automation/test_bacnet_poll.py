@@ -287,6 +287,29 @@ def test_the_task_polls_through_the_service(plant, poller, device):
     assert summary == {"off": False, "devices": 1, "silent": 0, "values": 8, "stale": 1}
 
 
+def test_a_sensors_fault_code_is_not_stored(plant, poller):
+    """An outdoor air sensor giving -999 °C (a controller's usual fault code; common practice) is stale with the
+    range it is outside of, as the trend import would refuse it; the other points are stored."""
+
+    def objects():
+        made = ahu_objects()
+        made[3].presentValue = -999.0
+        return made
+
+    _readdress(plant.points)
+    sim = SimulatedDevice(1001, objects).start()
+    try:
+        bacnet_device_create(site=plant.site, device_instance=1001, address=sim.address)
+        result = _poll(site_id=plant.site.pk)
+    finally:
+        sim.stop()
+    oat = plant.points["AHU1.OAT"]
+    assert result.stale[oat.pk] == (
+        "the device gave -999 °C, out of range for Outside_Air_Temperature_Sensor; allowed: a number from -60 to 200 °C"
+    )
+    assert _fresh("AHU1.OAT", plant).stale and _fresh("AHU1.SAT", plant).last_value == pytest.approx(12.5)
+
+
 def test_units_the_poller_cannot_convert_are_refused_in_words():
     """A temperature in pascals, or a unit the poller has no conversion for, gives a reason, not a number."""
     with pytest.raises(ValueError, match="not a unit of the point's DEG_C"):
