@@ -56,10 +56,11 @@ test: system install ## the whole test suite
 test-fast: install ## the suite without browser tests
 	$(PY) -m pytest -m "not browser"
 
-lint: install ## ruff and the import-layering contracts
+lint: install ## ruff, the import-layering contracts and mypy (strict on engineering/)
 	$(VENV)/bin/ruff check .
 	$(VENV)/bin/ruff format --check .
 	$(VENV)/bin/lint-imports
+	$(VENV)/bin/mypy engineering
 
 format: install ## format the code
 	$(VENV)/bin/ruff format .

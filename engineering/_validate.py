@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable
+from typing import Any
 
 from engineering.errors import EngineeringInputError, _fmt
 
@@ -76,11 +77,11 @@ def range_parts(
     *,
     low_open: bool = False,
     high_open: bool = False,
-) -> list:
+) -> list[Any]:
     """What is allowed, as reason parts (see EngineeringInputError.parts)."""
     if low is not None and high is not None and not (low_open or high_open):
         return [{"low": low, "high": high, "quantity": quantity}]
-    parts: list = []
+    parts: list[Any] = []
     if low is not None:
         parts += ["above " if low_open else "at least ", {"value": low, "quantity": quantity}]
     if high is not None:
@@ -108,7 +109,7 @@ def in_range(
         allowed = describe_range(low, high, unit, low_open=low_open, high_open=high_open)
         prefix = f"{label} " if label else ""
         quantity = quantity_of(unit, label)
-        parts: list = []
+        parts: list[Any] = []
         if quantity:
             band = range_parts(low, high, quantity, low_open=low_open, high_open=high_open)
             # "airflow 0 L/s must be above 0 L/s and at most …"; a closed band: "… is outside 2.0–6.0 °C".

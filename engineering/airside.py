@@ -66,7 +66,7 @@ def _w(name: str, value: object) -> float:
 
 
 def _dry_air_mass_flow(airflow_m3s: float, t_c: float, w: float, p_pa: float) -> float:
-    return airflow_m3s / psychrolib.GetMoistAirVolume(t_c, w, p_pa)
+    return float(airflow_m3s / psychrolib.GetMoistAirVolume(t_c, w, p_pa))
 
 
 def dry_air_density_kg_m3(*, t_c: float, pressure_pa: float = STANDARD_PRESSURE_PA) -> float:
@@ -74,7 +74,7 @@ def dry_air_density_kg_m3(*, t_c: float, pressure_pa: float = STANDARD_PRESSURE_
     (ASHRAE Handbook—Fundamentals 2017 ch.1; psychrolib's 1/GetMoistAirVolume at W = 0)."""
     t = v.air_temperature("t_c", t_c, label="air temperature")
     p = v.pressure("pressure_pa", pressure_pa)
-    return 1.0 / psychrolib.GetMoistAirVolume(t, 0.0, p)
+    return float(1.0 / psychrolib.GetMoistAirVolume(t, 0.0, p))
 
 
 def sensible_heat_w(
@@ -473,7 +473,7 @@ def water_side_heat_w(
     lo, hi = _fluid_range(name, glycol_pct)
     label = name.replace("_", " ")
     if name in GLYCOLS:
-        label = f"{v.fmt(glycol_pct)} % {label}"
+        label = f"{v.fmt(glycol_pct or 0.0)} % {label}"
     ts = v.in_range("t_supply_c", t_supply_c, lo, hi, unit="°C", label=f"{label} supply temperature")
     tr = v.in_range("t_return_c", t_return_c, lo, hi, unit="°C", label=f"{label} return temperature")
     rho, cp = fluid_properties(fluid=name, temperature_c=(ts + tr) / 2.0, glycol_pct=glycol_pct)

@@ -7,6 +7,8 @@ message beside the field it belongs to.
 
 from __future__ import annotations
 
+from typing import Any
+
 __all__ = [
     "EngineeringInputError",
     "IndeterminateError",
@@ -42,7 +44,7 @@ class EngineeringInputError(ValueError):
         low: float | None = None,
         high: float | None = None,
         unit: str = "",
-        parts: list | None = None,
+        parts: list[Any] | None = None,
     ) -> None:
         self.field = field
         self.value = value

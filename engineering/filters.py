@@ -9,6 +9,7 @@ import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import date, datetime, timedelta
+from typing import Any
 
 from engineering import _validate as v
 from engineering.controls import Verdict
@@ -117,7 +118,7 @@ def corrected_pressure_drop(
     dp = _dp("dp_pa", dp_pa)
     n = _exponent(exponent)
     r = _ratio(airflow_m3s, design_airflow_m3s)
-    return dp * r ** (-n)
+    return float(dp * r ** (-n))
 
 
 @dataclass(frozen=True)
@@ -131,7 +132,7 @@ class FilterLoading:
     # True when the reading is so far below clean that air is likely passing round or through the media.
     media_bypass_suspected: bool = False
     # The reason as plain text and SI quantities (see EngineeringInputError.parts), for readers in other units.
-    parts: tuple = ()
+    parts: tuple[Any, ...] = ()
 
 
 def filter_loading(
@@ -217,12 +218,12 @@ def filter_loading(
     )
 
 
-def _pa(value: float) -> dict:
+def _pa(value: float) -> dict[str, Any]:
     """A pressure as a reason part (SI), shown in the reader's unit."""
     return {"value": value, "quantity": "pressure"}
 
 
-def _below_clean(*, of_clean: float, corrected: float, clean: float) -> tuple[Verdict, str, tuple] | None:
+def _below_clean(*, of_clean: float, corrected: float, clean: float) -> tuple[Verdict, str, tuple[Any, ...]] | None:
     """FAIL below half the clean pressure drop, WATCH below 80 % of it, else None (verdict, reason, its parts)."""
     r = round(of_clean, 9)
     if r >= BYPASS_WATCH_FRACTION:

@@ -107,7 +107,9 @@ def _series(name: str, values: Iterable[tuple[date, float]]) -> list[tuple[date,
     return out
 
 
-def _first_crossing(series, threshold, search_from, *, downward: bool) -> date | None:
+def _first_crossing(
+    series: Iterable[tuple[date, float]], threshold: float, search_from: date | None, *, downward: bool
+) -> date | None:
     seen_other_side = False
     for d, t in series:
         if search_from is not None and d < search_from:
@@ -147,7 +149,7 @@ def cooling_season_start(
     return _first_crossing(_series("daily_maximums", daily_maximums), th, search_from, downward=False)
 
 
-def _means(daily_mean_c, daily_min_max_c) -> list[float]:
+def _means(daily_mean_c: Iterable[float] | None, daily_min_max_c: Iterable[tuple[float, float]] | None) -> list[float]:
     if (daily_mean_c is None) == (daily_min_max_c is None):
         raise EngineeringInputError(
             field="daily_mean_c",
@@ -161,7 +163,7 @@ def _means(daily_mean_c, daily_min_max_c) -> list[float]:
             for i, t in enumerate(daily_mean_c)
         ]
     out = []
-    for i, (lo, hi) in enumerate(daily_min_max_c):
+    for i, (lo, hi) in enumerate(daily_min_max_c or ()):
         lo = v.in_range(f"daily_min_max_c[{i}].min", lo, *_OUTDOOR, unit="°C", label="daily minimum")
         hi = v.in_range(
             f"daily_min_max_c[{i}].max", hi, lo, _OUTDOOR[1], unit="°C", label="daily maximum (not below the minimum)"

@@ -159,4 +159,4 @@ def pressure_from_altitude(*, altitude_m: float) -> float:
     which keeps the result inside the 50–110 kPa pressure band.
     """
     z = v.in_range("altitude_m", altitude_m, *ALTITUDE_M, unit="m", label="altitude")
-    return 101_325.0 * (1.0 - 2.25577e-5 * z) ** 5.2559
+    return float(101_325.0 * (1.0 - 2.25577e-5 * z) ** 5.2559)

@@ -22,6 +22,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import Any
 
 import pint
 
@@ -38,7 +39,7 @@ __all__ = [
     "ureg",
 ]
 
-ureg = pint.UnitRegistry()
+ureg: pint.UnitRegistry[Any] = pint.UnitRegistry()
 ureg.define("cubic_foot_per_minute = foot ** 3 / minute = cfm")
 ureg.define("gallon_per_minute = gallon / minute = gpm")
 ureg.define("feet_per_minute = foot / minute = fpm")

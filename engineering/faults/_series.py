@@ -13,6 +13,7 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from datetime import datetime, timedelta, tzinfo
 from functools import cached_property
+from typing import Any
 
 import numpy as np
 
@@ -274,7 +275,8 @@ def trailing_count(mask: np.ndarray, k: int) -> np.ndarray:
     """How many of the last k samples (this one included) are True."""
     c = np.concatenate([np.zeros((mask.shape[0], 1), dtype=np.int64), np.cumsum(mask, axis=1)], axis=1)
     lo = np.maximum(np.arange(mask.shape[1]) + 1 - k, 0)
-    return c[:, 1:] - c[:, lo]
+    sums: np.ndarray = c[:, 1:] - c[:, lo]
+    return sums
 
 
 def runs(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -302,7 +304,7 @@ class Resampled:
 
 def resample(
     *,
-    series: Mapping[str, tuple[Sequence, Sequence] | float],
+    series: Mapping[str, tuple[Sequence[Any], Sequence[Any]] | float],
     step_s: float,
     start: datetime | float | None = None,
     end: datetime | float | None = None,

@@ -27,6 +27,7 @@ from __future__ import annotations
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from datetime import datetime
+from typing import Any
 
 import numpy as np
 
@@ -110,7 +111,7 @@ def evaluate_ahu(
 
 def evaluate_ahu_logs(
     *,
-    series: Mapping[str, tuple[Sequence, Sequence] | float],
+    series: Mapping[str, tuple[Sequence[Any], Sequence[Any]] | float],
     step_s: float,
     thresholds: FaultThresholds = G36_DEFAULTS,
     max_hold_s: float | None = None,
@@ -220,17 +221,26 @@ def _unit_count(raw: Mapping[str, np.ndarray]) -> int:
     return counts.pop() if counts else 1
 
 
-def _fan_running(raw, t: FaultThresholds, notes: list[str], units: int, n: int) -> np.ndarray:
+def _fan_running(raw: dict[str, np.ndarray], t: FaultThresholds, notes: list[str], units: int, n: int) -> np.ndarray:
     with np.errstate(invalid="ignore"):
         if "supply_fan_status" in raw:
-            return raw["supply_fan_status"] > 0.5
+            status: np.ndarray = raw["supply_fan_status"] > 0.5
+            return status
         if "supply_fan_speed" in raw:
-            return raw["supply_fan_speed"] > t.command_tolerance
+            turning: np.ndarray = raw["supply_fan_speed"] > t.command_tolerance
+            return turning
     notes.append("no supply fan status or speed: the fan is taken as running throughout")
     return np.ones((units, n), dtype=bool)
 
 
-def _condition(rule: FaultRule, p, states, settled, base: s.TimeBase, t: FaultThresholds):
+def _condition(
+    rule: FaultRule,
+    p: dict[str, np.ndarray],
+    states: np.ndarray,
+    settled: np.ndarray,
+    base: s.TimeBase,
+    t: FaultThresholds,
+) -> tuple[np.ndarray, np.ndarray]:
     in_state = np.isin(states, rule.states)
     if rule.condition is None:  # FC4: state changes in the moving hour
         valid = states > 0
@@ -247,7 +257,15 @@ def _condition(rule: FaultRule, p, states, settled, base: s.TimeBase, t: FaultTh
         return applicable, applicable & rule.condition(p, t)
 
 
-def _judge(rule, applicable, condition, p, base: s.TimeBase, t: FaultThresholds, units: int):
+def _judge(
+    rule: FaultRule,
+    applicable: np.ndarray,
+    condition: np.ndarray,
+    p: dict[str, np.ndarray],
+    base: s.TimeBase,
+    t: FaultThresholds,
+    units: int,
+) -> list[FaultResult]:
     step = base.step_s
     need = s.samples_for(t.alarm_delay_s, step) if t.alarm_delay_s > 0 else 1
     unit, first, after = s.runs(condition)
@@ -304,7 +322,7 @@ def _mean(row: np.ndarray, mask: np.ndarray) -> float:
     return float(vals.mean()) if vals.size else float("nan")
 
 
-def _result(rule: FaultRule, **kw) -> FaultResult:
+def _result(rule: FaultRule, **kw: Any) -> FaultResult:
     return FaultResult(
         code=rule.code, title=rule.title, formula=rule.formula, section=SECTION, states=tuple(rule.states), **kw
     )

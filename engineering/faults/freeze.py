@@ -19,6 +19,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import datetime
+from typing import Any
 
 import numpy as np
 
@@ -62,7 +63,7 @@ class FreezeEvent:
 
 def freeze_events(
     *,
-    times: Sequence | np.ndarray,
+    times: Sequence[Any] | np.ndarray,
     temperature_c: Sequence[float | None] | np.ndarray,
     stages: Sequence[FreezeStage] = G36_FREEZE_STAGES,
 ) -> tuple[FreezeEvent, ...]:
@@ -77,8 +78,8 @@ def freeze_events(
 
 def freeze_events_batch(
     *,
-    times: Sequence | np.ndarray,
-    temperature_c: Sequence | np.ndarray,
+    times: Sequence[Any] | np.ndarray,
+    temperature_c: Sequence[Any] | np.ndarray,
     stages: Sequence[FreezeStage] = G36_FREEZE_STAGES,
 ) -> list[tuple[FreezeEvent, ...]]:
     """``freeze_events`` for many units (temperature_c units × len(times)) at once."""

@@ -43,7 +43,8 @@ class FaultRule:
 def oa_fraction(p: Points) -> np.ndarray:
     """Outdoor-air fraction from temperatures, %OA = (MAT − RAT) / (OAT − RAT)."""
     with np.errstate(invalid="ignore", divide="ignore"):
-        return (p["mat"] - p["rat"]) / (p["oat"] - p["rat"])
+        fraction: np.ndarray = (p["mat"] - p["rat"]) / (p["oat"] - p["rat"])
+    return fraction
 
 
 def _root(a: float, b: float) -> float:
@@ -69,9 +70,10 @@ def _fc5(p: Points, t: FaultThresholds) -> np.ndarray:
 
 
 def _fc6(p: Points, t: FaultThresholds) -> np.ndarray:
-    return (np.abs(p["rat"] - p["oat"]) >= t.dt_min_k) & (
-        np.abs(oa_fraction(p) - p["min_oa_fraction"]) > t.eps_oa_fraction
-    )
+    far: np.ndarray = np.abs(p["rat"] - p["oat"]) >= t.dt_min_k
+    off_minimum: np.ndarray = np.abs(oa_fraction(p) - p["min_oa_fraction"]) > t.eps_oa_fraction
+    both: np.ndarray = far & off_minimum
+    return both
 
 
 def _fc7(p: Points, t: FaultThresholds) -> np.ndarray:
@@ -87,7 +89,8 @@ def _fc9(p: Points, t: FaultThresholds) -> np.ndarray:
 
 
 def _fc10(p: Points, t: FaultThresholds) -> np.ndarray:
-    return np.abs(p["mat"] - p["oat"]) > _root(t.eps_mat_k, t.eps_oat_k)
+    apart: np.ndarray = np.abs(p["mat"] - p["oat"]) > _root(t.eps_mat_k, t.eps_oat_k)
+    return apart
 
 
 def _fc11(p: Points, t: FaultThresholds) -> np.ndarray:

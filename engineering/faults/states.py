@@ -76,4 +76,5 @@ def changes_since(state: np.ndarray, seconds: np.ndarray) -> np.ndarray:
     changed = np.ones(state.shape, dtype=bool)
     changed[:, 1:] = state[:, 1:] != state[:, :-1]
     last = np.maximum.accumulate(np.where(changed, np.arange(n), 0), axis=1)
-    return seconds[np.newaxis, :] - seconds[last]
+    since: np.ndarray = seconds[np.newaxis, :] - seconds[last]
+    return since
