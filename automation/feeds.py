@@ -42,7 +42,7 @@ from inventory.models import Component
 from scheduling.models import MeterReading
 
 from .fault_models import FilterDay
-from .series import Samples, UnitTrends
+from .series import Samples, UnitTrends, samples_for
 
 # A sample's value is held at most this long when integrating run-time (common practice: a BAS logs at 1 to
 # 15 minutes or on change of value; six hours without a record is a gap in the log, not proof of running).
@@ -126,10 +126,8 @@ def run_hours_feed(*, trends: UnitTrends, by=None) -> RunHours | None:
         return RunHours(fan=fan, hours_run=0.0, reading=done, note="already read")
     prev = meter.filter(taken_at__lte=end).order_by("-taken_at", "-id").first()
     since = start if prev is None else max(prev.taken_at, end - dt.timedelta(days=31))
-    if since < trends.start:  # the day before is not loaded: read its samples too
-        from .series import samples_for
-
-        samples = samples_for(points=[point], since=since - dt.timedelta(seconds=RUN_HOLD_MAX_S), until=end)[point.pk]
+    # From the last sample that can still hold at ``since`` (a change-of-value log may be hours old at midnight).
+    samples = samples_for(points=[point], since=since - dt.timedelta(seconds=RUN_HOLD_MAX_S), until=end)[point.pk]
     seconds = running_seconds(samples, since=since.timestamp(), until=end.timestamp(), on=on)
     hours = seconds / 3600.0
     base = 0.0 if prev is None else prev.hours

@@ -484,3 +484,15 @@ def test_the_command_judges_a_range_and_names_a_bad_date(unit):
     assert "faults opened 1, closed 0" in out.getvalue()
     with pytest.raises(CommandError, match="start='2026-13-01' is not a date; allowed: YYYY-MM-DD"):
         call_command("judge_trends", "dune", "2026-13-01")
+
+
+def test_a_change_of_value_fan_log_holds_its_last_state_across_midnight(unit):
+    """The fan was logged on at 21:00 and off at 03:00 (a change-of-value log, nothing between): the second day
+    gets the 3 h after midnight, the first the 3 h before it."""
+    from tests.automation.trend_builders import put
+
+    ahu, points = unit
+    put(points["SF-STS"], [(_start(DAY1) + dt.timedelta(hours=21), 1.0), (_start(DAY1) + dt.timedelta(hours=27), 0.0)])
+    with time_machine.travel(_start(DAY1) + dt.timedelta(days=2, hours=1), tick=False):
+        trends_judge(site=ahu.building.site, start=DAY1, end=DAY1 + dt.timedelta(days=1))
+    assert [r.hours for r in MeterReading.objects.filter(ahu=ahu).order_by("taken_at")] == [0.0, 3.0, 6.0]
