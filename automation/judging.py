@@ -435,7 +435,8 @@ def unit_day_judge(*, ahu: AHU, day: dt.date, points: list[Point] | None = None,
             found = _seen_fault(r, day, start, end) if r.present else None
             if found is not None:
                 seen.append(found)
-    if trends.of("sat") is not None and trends.of("sat").seconds.size:
+    supply = trends.of("sat")
+    if supply is not None and supply.seconds.size:
         judged.add(Fault.FREEZE)
     freeze = _seen_freeze(out.freeze, day)
     if freeze is not None:
