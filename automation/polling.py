@@ -55,11 +55,13 @@ class PollResult:
     stale: dict[int, str] = field(default_factory=dict)
 
 
-def bacnet_devices_due(*, now: dt.datetime, site_id: int | None = None) -> list[BacnetDevice]:
-    """Devices never polled, or whose poll interval has passed by ``now``."""
+def bacnet_devices_due(*, now: dt.datetime, site_id: int | None = None, every: bool = False) -> list[BacnetDevice]:
+    """Devices never polled, or whose poll interval has passed by ``now`` (``every``: all of them)."""
     devices = BacnetDevice.objects.select_related("site")
     if site_id is not None:
         devices = devices.filter(site_id=site_id)
+    if every:
+        return list(devices)
     return [
         d for d in devices if d.polled_at is None or now - d.polled_at >= dt.timedelta(seconds=d.poll_seconds) - SLACK
     ]
@@ -101,14 +103,15 @@ def _unlisted_points(site_id: int | None) -> list[Point]:
     return list(points.select_related("poll"))
 
 
-def bacnet_poll(*, site_id: int | None = None) -> PollResult:
-    """Poll the devices that are due (of one site, or all) and store what they gave; see the module docstring."""
+def bacnet_poll(*, site_id: int | None = None, every: bool = False) -> PollResult:
+    """Poll the devices that are due (of one site, or all; ``every``: due or not, as when commissioning) and store
+    what they gave; see the module docstring."""
     interface = settings.PLENUM_BACNET_INTERFACE
     if not interface:
         return PollResult(off=True)
     started = timezone.now()
     result = PollResult()
-    devices = [d for d in bacnet_devices_due(now=started, site_id=site_id) if _claim(d, started)]
+    devices = [d for d in bacnet_devices_due(now=started, site_id=site_id, every=every) if _claim(d, started)]
     points = _points_by_device(devices)
     reads = [
         bacnet.DeviceRead(

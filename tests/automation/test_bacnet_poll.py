@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import asyncio
 import datetime as dt
+import io
 import socket
 import threading
 
@@ -16,6 +17,7 @@ from bacpypes3.local.analog import AnalogInputObject, AnalogValueObject
 from bacpypes3.local.binary import BinaryValueObject
 from bacpypes3.local.device import DeviceObject
 from bacpypes3.local.networkport import NetworkPortObject
+from django.core.management import CommandError, call_command
 
 from automation.bacnet import to_si
 from automation.bacnet_devices import bacnet_device_create
@@ -308,6 +310,22 @@ def test_a_sensors_fault_code_is_not_stored(plant, poller):
         "the device gave -999 °C, out of range for Outside_Air_Temperature_Sensor; allowed: a number from -60 to 200 °C"
     )
     assert _fresh("AHU1.OAT", plant).stale and _fresh("AHU1.SAT", plant).last_value == pytest.approx(12.5)
+
+
+def test_the_command_polls_every_device_when_asked_and_names_stale_points(plant, poller, device):
+    """``manage.py bacnet_poll harbour --every`` reads a device polled a minute ago and lists each stale point with
+    its reason; with polling off it says which setting turns it on."""
+    _readdress(plant.points)
+    listed = bacnet_device_create(site=plant.site, device_instance=1001, address=device.address)
+    BacnetDevice.objects.filter(pk=listed.pk).update(polled_at=NOW - dt.timedelta(minutes=1))
+    out = io.StringIO()
+    with time_machine.travel(NOW, tick=True):
+        call_command("bacnet_poll", "harbour", "--every", stdout=out)
+    assert out.getvalue().startswith("1 devices read (0 did not answer), 8 values stored, 1 points stale")
+    assert "AHU1.HCV: the device has no readable analog-output 3 (object: unknown-object)" in out.getvalue()
+    poller.PLENUM_BACNET_INTERFACE = ""
+    with pytest.raises(CommandError, match="PLENUM_BACNET_INTERFACE"):
+        call_command("bacnet_poll")
 
 
 def test_units_the_poller_cannot_convert_are_refused_in_words():
