@@ -27,9 +27,13 @@ def user_has_role(*, user: User, roles: set[str], organisation: Organisation | N
     return qs.exists()
 
 
+# The people who run an organisation's registry, rules and work: plan, assign, approve, verify.
+MANAGING_ROLES = frozenset({Role.SUPERVISOR, Role.ADMIN})
+
+
 def is_manager_of(*, user: User, organisation: Organisation) -> bool:
     """Supervisors and admins run the organisation's registry and work."""
-    return user_has_role(user=user, roles={Role.SUPERVISOR, Role.ADMIN}, organisation=organisation)
+    return user_has_role(user=user, roles=MANAGING_ROLES, organisation=organisation)
 
 
 # The people who work on the plant and record what they find: forms, photos, run-hour readings.

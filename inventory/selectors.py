@@ -12,10 +12,9 @@ from django.http import Http404
 from django.utils import timezone
 
 from accounts.models import Organisation, Role, SiteGrant, User
+from accounts.selectors import MANAGING_ROLES
 
 from .models import AHU, Building, Component, ImportJob, Site
-
-MANAGING_ROLES = {Role.SUPERVISOR, Role.ADMIN}
 
 
 def _roles_by_org(user: User) -> dict[str, set[int]]:

@@ -22,7 +22,7 @@ from rest_framework.views import APIView
 from accounts.answers import json_answer, kept
 from accounts.inputs import FieldErrors, check_number, check_reading_time, date_problem
 from accounts.models import Membership, Role
-from accounts.selectors import does_field_work, technician_of
+from accounts.selectors import MANAGING_ROLES, does_field_work, technician_of
 from inventory.selectors import ahus_visible_to, sites_visible_to
 
 from . import serializers as s
@@ -76,7 +76,7 @@ class WorkOrderChangeView(APIView):
 
 
 def _organisation_for(user, *, managing: bool = False):
-    roles = [Role.SUPERVISOR, Role.ADMIN] if managing else list(Role.values)
+    roles = list(MANAGING_ROLES) if managing else list(Role.values)
     m = Membership.objects.filter(user=user, role__in=roles).select_related("organisation").order_by("id").first()
     return m.organisation if m else None
 

@@ -15,8 +15,8 @@ from django.http import Http404
 from django.utils import timezone
 
 from accounts.inputs import date_problem
-from accounts.models import Membership, Role
-from accounts.selectors import technicians_of
+from accounts.models import Membership
+from accounts.selectors import MANAGING_ROLES, technicians_of
 from inventory.models import Site
 from inventory.selectors import sites_visible_to
 
@@ -117,7 +117,7 @@ def work_orders_visible_to(*, user) -> QuerySet[WorkOrder]:
 
 def work_orders_managed_by(*, user) -> QuerySet[WorkOrder]:
     """Work orders the person may assign, approve, verify and cancel (supervisor/admin of the organisation)."""
-    orgs = Membership.objects.filter(user=user, role__in=[Role.SUPERVISOR, Role.ADMIN]).values("organisation_id")
+    orgs = Membership.objects.filter(user=user, role__in=MANAGING_ROLES).values("organisation_id")
     return _work_order_base().filter(organisation_id__in=orgs)
 
 

@@ -17,8 +17,7 @@ from django.utils import timezone
 from django.views.decorators.http import require_POST
 
 from accounts.inputs import INT32_MAX, FieldErrors, check_integer, check_text, date_problem
-from accounts.models import Role
-from accounts.selectors import organisations_where
+from accounts.selectors import MANAGING_ROLES, organisations_where
 from inspections.selectors import corrective_work_already_resolved, reason_for
 from inventory.display import usual_zone
 from inventory.models import AHU
@@ -36,14 +35,11 @@ from scheduling.services.work_orders import (
 
 from .. import backends, selectors
 
-MANAGING = {Role.SUPERVISOR, Role.ADMIN}
-
-
 SKILL_WORDS = {str(v): str(label).lower() for v, label in TaskDefinition.Skill.choices}
 
 
 def _organisation(request):
-    org = organisations_where(user=request.user, roles=MANAGING).order_by("pk").first()
+    org = organisations_where(user=request.user, roles=MANAGING_ROLES).order_by("pk").first()
     if org is None:
         raise PermissionDenied("Only a supervisor or administrator may open this page.")
     return org

@@ -23,6 +23,7 @@ from accounts.changes import organisation_changed
 from accounts.clock import day_text, local_date_of, local_time_text
 from accounts.inputs import PLAN_YEARS_AHEAD, FieldErrors, check_text, latest_plan_date, text_problem
 from accounts.models import Membership, Role
+from accounts.selectors import MANAGING_ROLES
 from accounts.services import audit_record
 from engineering.sun import sunset_utc
 from inventory.models import AHU, Component
@@ -299,9 +300,9 @@ def work_order_cancel(*, work_order: WorkOrder, by, reason: str, expected_versio
 def _supervisor_emails(organisation_id: int) -> list[str]:
     return [
         e
-        for e in Membership.objects.filter(
-            organisation_id=organisation_id, role__in=[Role.SUPERVISOR, Role.ADMIN]
-        ).values_list("user__email", flat=True)
+        for e in Membership.objects.filter(organisation_id=organisation_id, role__in=MANAGING_ROLES).values_list(
+            "user__email", flat=True
+        )
         if e
     ]
 
