@@ -33,10 +33,9 @@ from django.utils import timezone
 from . import bacnet
 from .models import BacnetDevice, Point, PointPoll
 
-# The trend import's own store (day buckets merged, a sample at a stored second replaced, the point's last value
-# and its stale flag set): one way of storing samples for the import and the poller.
-from .trends import TrendImportResult
-from .trends import _store as trend_samples_store
+# The one store of samples (day buckets merged, a sample at a stored second replaced, the point's last value and
+# its stale flag set), shared with the trend import.
+from .trends import trend_samples_store
 from .vocabulary import PLAUSIBLE, PointUnit
 
 # A device is due this much before its interval has quite passed: beat runs each minute, and a poll that started
@@ -162,8 +161,7 @@ def bacnet_poll(*, site_id: int | None = None, every: bool = False) -> PollResul
             known = getattr(point, "poll", None)
             if not (point.stale and known is not None and known.reason == reason):
                 result.stale[point.pk] = reason
-        stored = TrendImportResult()
-        trend_samples_store({pk: {read_at: value} for pk, value in values.items()}, stored)
+        stored = trend_samples_store({pk: {read_at: value} for pk, value in values.items()})
         result.values = stored.values
         _record(read=set(values), stale=result.stale, at=read_at)
     return result
