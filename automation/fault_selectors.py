@@ -101,3 +101,46 @@ def filter_days_for(
     if until is not None:
         days = days.filter(day__lte=until)
     return days.order_by("day")
+
+
+def filter_series_points(*, components: list[Component], before: dt.datetime | None = None) -> dict[int, list]:
+    """The banks' trend days as points of the shared filter series (``inspections.selectors.filter_series``),
+    {bank id: [FilterSeriesPoint]}, in one query; registered in ``AutomationConfig.ready``.
+
+    Each day's point stands at the end of the site's day (when its run-hour meter reading was taken), with the
+    day's median already at design airflow, the trend-fed meter's hours and the source ``bas_trend``; only days
+    ended before ``before`` count, when given."""
+    import zoneinfo
+
+    from inspections.selectors import FILTER_TREND, FilterSeriesPoint
+
+    days = FilterDay.objects.filter(component__in=[c.pk for c in components])
+    if before is not None:
+        days = days.filter(day__lt=before.date() + dt.timedelta(days=1))
+    out: dict[int, list] = {}
+    zones: dict[str, zoneinfo.ZoneInfo] = {}
+    for bank_id, day, dp, q, hours, tz_name in days.order_by("component_id", "day").values_list(
+        "component_id",
+        "day",
+        "corrected_dp_pa",
+        "design_airflow_m3s",
+        "run_hours",
+        "component__ahu__building__site__time_zone",
+    ):
+        tz = zones.setdefault(tz_name or "UTC", zoneinfo.ZoneInfo(tz_name or "UTC"))
+        at = dt.datetime.combine(day + dt.timedelta(days=1), dt.time(), tzinfo=tz).astimezone(dt.UTC)
+        if before is not None and at > before:
+            continue
+        out.setdefault(bank_id, []).append(
+            FilterSeriesPoint(
+                at=at,
+                inspection_id=None,
+                dp_pa=dp,
+                airflow_m3s=q,
+                corrected_dp_pa=dp,
+                run_hours=hours,
+                after_change=False,
+                source=FILTER_TREND,
+            )
+        )
+    return out

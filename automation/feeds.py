@@ -20,14 +20,15 @@ Filter loading
     technician's reading gets; at its fail fraction (95 % of the clean-to-final span) the scheduling
     condition ``filter_loaded`` proposes the filter change through
     ``scheduling.services.corrective_work_order_propose`` — the path a technician's loaded-filter finding
-    takes — without waiting for a visit. With three or more days since the filters now fitted
-    (``inspections.selectors.filter_series``), ``engineering.filters.filter_forecast`` dates the change.
+    takes — without waiting for a visit. The days join the bank's shared filter series
+    (``inspections.selectors.filter_series``, through ``FILTER_POINT_SOURCES``) labelled as trend days, so the
+    charts, the unit history, the phone and the forecast read them beside the technicians' readings; with three
+    or more points since the filters now fitted, ``engineering.filters.filter_forecast`` dates the change.
 """
 
 from __future__ import annotations
 
 import datetime as dt
-import zoneinfo
 from dataclasses import dataclass
 
 import numpy as np
@@ -283,23 +284,22 @@ def _filter_day_store(
 
 
 def _forecast_words(*, bank: Component, design_q: float, day: dt.date) -> str:
-    """The change date from the trend days of the filters fitted now, in words ('' without a forecast)."""
+    """The change date from the filters fitted now, in words ('' without a forecast): the shared filter series
+    (``inspections.selectors.filter_series``: the technicians' readings and these trend days, up to the end of
+    ``day``), as the charts, the unit history and the phone forecast it."""
     from inspections.selectors import filter_series
+
+    from .series import site_day_window
 
     final = (bank.specs or {}).get("final_dp_pa")
     if final is None:
         return ""
-    changed_at = filter_series(component=bank).current.changed_at
-    days = FilterDay.objects.filter(component=bank, day__lte=day, run_hours__isnull=False)
-    if changed_at is not None:
-        tz = zoneinfo.ZoneInfo(bank.ahu.building.site.time_zone or "UTC")
-        days = days.filter(day__gte=changed_at.astimezone(tz).date())
-    points = [
-        filters.FilterPoint(run_hours=d.run_hours, dp_pa=d.corrected_dp_pa, airflow_m3s=design_q, when=d.day)
-        for d in days.order_by("day")
-    ]
+    _, end = site_day_window(ahu=bank.ahu, day=day)
+    series = filter_series(component=bank, before=end + dt.timedelta(microseconds=1))
     try:
-        fc = filters.filter_forecast(points=points, design_airflow_m3s=design_q, final_dp_pa=final)
+        fc = filters.filter_forecast(
+            points=series.current.forecast_points(), design_airflow_m3s=series.design_airflow_m3s, final_dp_pa=final
+        )
     except EngineeringInputError:
         return ""
     if fc.at_final_now:

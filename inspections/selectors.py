@@ -451,17 +451,42 @@ def checklist_for(*, work_order: WorkOrder, user: User) -> dict:
     }
 
 
+# Where a point of a filter series came from; readers label it (a technician's reading, a trend day).
+FILTER_READING = "reading"
+FILTER_TREND = "bas_trend"
+FILTER_SOURCE_LABELS = {FILTER_READING: "technician reading", FILTER_TREND: "building-automation trend"}
+
+
 @dataclass(frozen=True)
 class FilterSeriesPoint:
-    """One pressure-drop reading of a filter bank, with the same reading corrected to design airflow."""
+    """One pressure-drop value of a filter bank, with the same value corrected to design airflow.
 
-    at: dt.datetime  # when the visit's form was finished
-    inspection_id: int
+    ``source`` says where it came from: ``FILTER_READING`` (a technician's reading on a visit's form) or a
+    registered source (``FILTER_POINT_SOURCES``; the building-automation trend's day, ``FILTER_TREND``)."""
+
+    at: dt.datetime  # when the visit's form was finished; for a trend day, the site's day's end
+    inspection_id: int | None  # None for a point that no visit read
     dp_pa: float  # as read
     airflow_m3s: float  # airflow at the visit, by inspections.evaluation.supply_airflow
     corrected_dp_pa: float  # at the bank's design airflow, by engineering.filters.corrected_pressure_drop
-    run_hours: float | None  # the unit's run-hour meter at the visit
+    run_hours: float | None  # the unit's run-hour meter at the visit; for a trend day, the trend-fed meter's
     after_change: bool  # read just after fitting new filters
+    source: str = FILTER_READING
+
+    @property
+    def source_label(self) -> str:
+        return FILTER_SOURCE_LABELS.get(self.source, self.source)
+
+
+# Sources of filter-series points from apps above this one (the building-automation trends register theirs in
+# their AppConfig.ready, as for FREEZE_EVENT_SOURCES): ``source(components=[bank, ...], before=datetime | None)``
+# returns {bank id: [FilterSeriesPoint, ...]} in a fixed number of queries, points before ``before`` only.
+FILTER_POINT_SOURCES: list = []
+
+
+def filter_point_source_register(source) -> None:
+    if source not in FILTER_POINT_SOURCES:
+        FILTER_POINT_SOURCES.append(source)
 
 
 @dataclass(frozen=True)
@@ -472,12 +497,36 @@ class FilterLife:
     points: tuple[FilterSeriesPoint, ...]
 
     def forecast_points(self) -> list[FilterPoint]:
-        """The points with run-hours, as engineering.filters.filter_forecast takes them."""
+        """The points with run-hours, as engineering.filters.filter_forecast takes them, on one meter's scale.
+
+        A technician's reading carries the unit's typed meter; a trend day the trend-fed fan meter, which counts
+        the same running from another zero. Where both are in this set of filters, the trend days are shifted by
+        the two meters' difference at the reading closest in time to a trend day (at most a day apart); with no
+        such pair the two cannot be put on one line, and the source with more points is used alone."""
+        with_hours = [p for p in self.points if p.run_hours is not None]
+        typed = [p for p in with_hours if p.source == FILTER_READING]
+        other = [p for p in with_hours if p.source != FILTER_READING]
+        if typed and other:
+            pairs = [(abs((t.at - r.at).total_seconds()), r, t) for r in typed for t in other]
+            gap, r, t = min(pairs, key=lambda x: x[0])
+            if gap <= 86400:
+                offset = r.run_hours - t.run_hours
+                with_hours = sorted(
+                    typed + [_shifted(p, offset) for p in other], key=lambda p: (p.at, p.source == FILTER_READING)
+                )
+            else:
+                with_hours = typed if len(typed) >= len(other) else other
         return [
             FilterPoint(run_hours=p.run_hours, dp_pa=p.dp_pa, airflow_m3s=p.airflow_m3s, when=p.at.date())
-            for p in self.points
-            if p.run_hours is not None
+            for p in with_hours
+            if p.run_hours is not None and p.run_hours >= 0
         ]
+
+
+def _shifted(p: FilterSeriesPoint, offset: float) -> FilterSeriesPoint:
+    from dataclasses import replace
+
+    return replace(p, run_hours=None if p.run_hours is None else p.run_hours + offset)
 
 
 @dataclass(frozen=True)
@@ -569,6 +618,10 @@ def filter_series_for(*, components: list[Component], before: dt.datetime | None
             airflow[insp_id] = evaluation.supply_airflow(form)[0]
         return airflow[insp_id]
 
+    extra: dict[int, list[FilterSeriesPoint]] = {}
+    for source in FILTER_POINT_SOURCES:
+        for bank_id, found in source(components=banks, before=before).items():
+            extra.setdefault(bank_id, []).extend(found)
     out = {}
     for bank in banks:
         design = filter_design_airflow_m3s(component=bank, ahu=ahus[bank.ahu_id])
@@ -591,8 +644,28 @@ def filter_series_for(*, components: list[Component], before: dt.datetime | None
                     pts.append(p)
         if pts or changed_at is not None:
             lives.append(FilterLife(changed_at=changed_at, points=tuple(pts)))
-        out[bank.pk] = FilterSeries(component=bank, design_airflow_m3s=design, lives=tuple(lives))
+        out[bank.pk] = FilterSeries(
+            component=bank, design_airflow_m3s=design, lives=_with_points(lives, extra.get(bank.pk, []))
+        )
     return out
+
+
+def _with_points(lives: list[FilterLife], extra: list[FilterSeriesPoint]) -> tuple[FilterLife, ...]:
+    """The registered sources' points put into the set of filters fitted at their time, in time order."""
+    if not extra:
+        return tuple(lives)
+    first = lives[0].changed_at if lives else None
+    if not lives or (first is not None and any(p.at < first for p in extra)):
+        lives = [FilterLife(changed_at=None, points=()), *lives]  # the filters before the first change recorded
+    pts: list[list[FilterSeriesPoint]] = [list(life.points) for life in lives]
+    for p in extra:
+        # The last set fitted before the point (a change at the same moment fits before it); else the first.
+        i = max((j for j, life in enumerate(lives) if life.changed_at is None or life.changed_at <= p.at), default=0)
+        pts[i].append(p)
+    return tuple(
+        FilterLife(changed_at=life.changed_at, points=tuple(sorted(got, key=lambda p: p.at)))
+        for life, got in zip(lives, pts, strict=True)
+    )
 
 
 def filter_series(*, component: Component, before: dt.datetime | None = None) -> FilterSeries:
@@ -609,6 +682,10 @@ def filter_series(*, component: Component, before: dt.datetime | None = None) ->
     after the change is the new set's first point. Readings taken too far
     from design airflow to correct are left out. Only forms finished before
     ``before`` count, when given.
+
+    Points from the sources registered in ``FILTER_POINT_SOURCES`` (the
+    building-automation trend's filter days) join the set of filters fitted
+    at their time; each point says its ``source`` so a reader can label it.
     """
     return filter_series_for(components=[component], before=before)[component.pk]
 
