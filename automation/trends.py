@@ -28,7 +28,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
-from django.db import transaction
+from django.db import connection, transaction
 from django.utils import timezone
 
 from accounts.inputs import FieldErrors, check_reading_time, parse_number
@@ -332,53 +332,85 @@ def trend_import(
 
 def trend_samples_store(samples: Samples, result: TrendImportResult | None = None) -> TrendImportResult:
     """Merge ``{point id: {aware time: value}}`` into the points' day buckets (one read and one bulk write per
-    chunk of buckets) and move each point's last value; a sample at a time already stored replaces it. For
-    every writer of samples (the CSV import, the BACnet poller); call it inside the writer's transaction.
-    Values must be clean already (``_value`` checks a CSV cell)."""
+    chunk of buckets) and move each point's last value (one read and one bulk write per chunk of points); a
+    sample at a time already stored replaces it. For every writer of samples (the CSV import, the BACnet poller);
+    call it inside the writer's transaction. Values must be clean already (``_value`` checks a CSV cell)."""
     result = result if result is not None else TrendImportResult()
-    by_bucket: dict[tuple[int, dt.date], dict[int, float]] = defaultdict(dict)
-    for point_id, values in samples.items():
-        for when, value in values.items():
-            midnight = when.replace(hour=0, minute=0, second=0, microsecond=0)
-            by_bucket[(point_id, when.date())][int((when - midnight).total_seconds())] = value
-            result.values += 1
-            result.first = when if result.first is None or when < result.first else result.first
-            result.last = when if result.last is None or when > result.last else result.last
-    result.points = len(samples)
+    by_bucket = _buckets(samples, result)
     keys = sorted(by_bucket)
     for start in range(0, len(keys), CHUNK):
-        chunk = keys[start : start + CHUNK]
-        point_ids = {p for p, _d in chunk}
-        days = {d for _p, d in chunk}
-        stored = {
-            (b.point_id, b.day): b
-            for b in TrendDay.objects.select_for_update().filter(point_id__in=point_ids, day__in=days)
-        }
-        new, changed = [], []
-        for key in chunk:
-            bucket = stored.get(key)
-            if bucket is None:
-                bucket = TrendDay(point_id=key[0], day=key[1])
-                merged = by_bucket[key]
-                new.append(bucket)
-            else:
-                merged = {
-                    int((when - dt.datetime.combine(bucket.day, dt.time(), tzinfo=dt.UTC)).total_seconds()): v
-                    for when, v in bucket.samples()
-                }
-                merged.update(by_bucket[key])
-                changed.append(bucket)
-            bucket.set_samples(merged)
-        TrendDay.objects.bulk_create(new)
-        TrendDay.objects.bulk_update(changed, ["seconds", "values", "count"])
+        _buckets_merge(keys[start : start + CHUNK], by_bucket)
+    _points_freshen(samples)
+    return result
+
+
+_DAY_S = 86_400
+_EPOCH_ORDINAL = dt.date(1970, 1, 1).toordinal()
+
+
+def _buckets(samples: Samples, result: TrendImportResult) -> dict[tuple[int, dt.date], dict[int, float]]:
+    """The samples by (point id, UTC day) as {seconds after midnight UTC: value}; counts them into ``result``."""
+    by_bucket: dict[tuple[int, dt.date], dict[int, float]] = defaultdict(dict)
+    days: dict[int, dt.date] = {}
     for point_id, values in samples.items():
         if not values:
             continue
-        latest = max(values)
-        Point.objects.filter(pk=point_id).exclude(last_value_at__gt=latest).update(
-            last_value=values[latest], last_value_at=latest, stale=False
-        )
-    return result
+        for when, value in values.items():
+            stamp = int(when.timestamp())  # whole seconds, as the buckets keep them
+            number, secs = divmod(stamp, _DAY_S)
+            day = days.get(number)
+            if day is None:
+                day = days[number] = dt.date.fromordinal(_EPOCH_ORDINAL + number)
+            by_bucket[(point_id, day)][secs] = value
+        result.values += len(values)
+        first, last = min(values), max(values)
+        result.first = first if result.first is None or first < result.first else result.first
+        result.last = last if result.last is None or last > result.last else result.last
+    result.points = len(samples)
+    return by_bucket
+
+
+def _buckets_merge(chunk: list[tuple[int, dt.date]], by_bucket: dict) -> None:
+    point_ids = {p for p, _d in chunk}
+    days = {d for _p, d in chunk}
+    stored = {
+        (b.point_id, b.day): b
+        for b in TrendDay.objects.select_for_update().filter(point_id__in=point_ids, day__in=days)
+    }
+    new, changed = [], []
+    for key in chunk:
+        bucket = stored.get(key)
+        if bucket is None:
+            bucket = TrendDay(point_id=key[0], day=key[1])
+            merged = by_bucket[key]
+            new.append(bucket)
+        else:
+            midnight = dt.datetime.combine(bucket.day, dt.time(), tzinfo=dt.UTC)
+            merged = {int((when - midnight).total_seconds()): v for when, v in bucket.samples()}
+            merged.update(by_bucket[key])
+            changed.append(bucket)
+        bucket.set_samples(merged)
+    TrendDay.objects.bulk_create(new)
+    TrendDay.objects.bulk_update(changed, ["seconds", "values", "count"])
+
+
+def _points_freshen(samples: Samples) -> None:
+    """Each point's last value, where its latest sample is at or after the one it holds; not stale. One statement
+    run for many points (a per-point ``update()`` or a ``bulk_update`` CASE costs more than the rows do)."""
+    table = connection.ops.quote_name(Point._meta.db_table)
+    sql = (
+        f"UPDATE {table} SET last_value = %s, last_value_at = %s, stale = %s "  # noqa: S608 (the model's table)
+        "WHERE id = %s AND (last_value_at IS NULL OR last_value_at <= %s)"
+    )
+    rows = []
+    for point_id, values in samples.items():
+        if values:
+            when = max(values)
+            at = connection.ops.adapt_datetimefield_value(when)
+            rows.append((values[when], at, False, point_id, at))
+    with connection.cursor() as cursor:
+        for start in range(0, len(rows), CHUNK):
+            cursor.executemany(sql, rows[start : start + CHUNK])
 
 
 _store = trend_samples_store  # the name the poller first used
