@@ -13,6 +13,7 @@ from django.db.models import Q
 from django.utils import timezone
 
 from accounts.models import Membership, Role
+from automation.demo import demo_trends_load
 from engineering.freeze import daily_values_from_normals
 from inspections.demo import demo_history_day, demo_history_load
 from inventory.demo import demo_registry_load
@@ -59,6 +60,8 @@ def demo_load(*, today: dt.date | None = None) -> dict[str, Any]:
         # A history loaded on an earlier day stays as it was; the schedule and today's round follow today.
         history_day = demo_history_day(organisation=organisation) or today
         summary["history"][organisation.slug] = demo_history_load(organisation=organisation, today=history_day)
+        # A year of synthetic building-automation trends with seeded faults, judged as a real site's would be.
+        summary.setdefault("trends", {})[organisation.slug] = demo_trends_load(organisation=organisation, today=today)
         summary["generated"][organisation.slug] = demo_schedule_load(organisation=organisation, today=today)
         # Today's round first, then the rest where it fits: the demo plans as the board would, never past a
         # technician's daily capacity (scheduling.selectors.assignment_check).

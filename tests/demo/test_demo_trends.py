@@ -1,0 +1,110 @@
+"""The demo's year of synthetic building-automation trends, judged by the real services, on a controlled clock.
+
+After ``load_demo`` on a December day (inside the freeze season): the loaded filter's change is planned from the
+trend (no technician's reading), the stuck outdoor-air damper is one open fault with its evidence windows and its
+proposed corrective work, the leaking cooling valve is found, the freezing night keeps its unit not ready for
+freeze protection (the one function that decides readiness, and the compliance figures the manager's dashboard
+and report read), the healthy units have no fault, and a second load changes nothing.
+"""
+
+import datetime as dt
+import io
+
+import pytest
+import time_machine
+from django.core.management import call_command
+
+from automation.demo import FILTER, FREEZE_NIGHT, LEAKING_VALVE, SEEDED, STUCK_DAMPER
+from automation.models import Fault, FilterDay, Point, TrendDay
+from inspections.freeze import NOT_READY, freeze_readiness
+from inspections.models import Reading
+from inventory.models import AHU
+from reports.compliance import compliance_figures
+from scheduling.models import WorkOrder
+
+DECEMBER = dt.date(2026, 12, 2)  # a Wednesday inside the demo sites' freeze season
+AT = dt.datetime(2026, 12, 2, 10, tzinfo=dt.UTC)
+
+
+def _unit(fault: str) -> AHU:
+    (site, building, tag) = next(k for k, v in SEEDED.items() if v == fault)
+    return AHU.objects.select_related("building__site").get(building__site__code=site, building__code=building, tag=tag)
+
+
+def _snapshot() -> dict:
+    return {
+        "points": Point.objects.count(),
+        "buckets": sorted(TrendDay.objects.values_list("point_id", "day", "count")),
+        "faults": sorted(Fault.objects.values_list("ahu_id", "code", "state", "days_seen", "fault_s")),
+        "filter_days": FilterDay.objects.count(),
+        "work_orders": WorkOrder.objects.count(),
+    }
+
+
+@pytest.mark.django_db(transaction=False)
+def test_demo_trends_carry_the_seeded_faults_and_only_them():
+    with time_machine.travel(AT, tick=False):
+        call_command("load_demo", stdout=io.StringIO())
+
+        # The loaded filter: its change planned from the trend, no technician having read it loaded.
+        filter_unit = _unit(FILTER)
+        changes = WorkOrder.objects.filter(
+            ahu=filter_unit, kind=WorkOrder.Kind.CORRECTIVE, source_ref__startswith="trend:filter:"
+        )
+        assert changes.count() == 1
+        change = changes.get()
+        assert "found in the building-automation trend" in change.reason
+        assert change.state in WorkOrder.OPEN_STATES
+        bank = change.tasks.first().component
+        assert bank is not None and bank.kind == "filter_bank"
+        assert "filter_replace" in set(change.tasks.values_list("task_code", flat=True))
+        fail_days = FilterDay.objects.filter(component=bank, verdict="fail")
+        assert fail_days.exists()
+        first_fail = fail_days.order_by("day").first().day
+        # Between visits: no technician's reading of that bank since the last visit before it crossed.
+        assert not Reading.objects.filter(
+            component=bank, inspection__finished_at__date__gte=first_fail - dt.timedelta(days=1)
+        ).exists()
+
+        # The stuck outdoor-air damper: one open fault, its evidence windows and its proposed corrective work.
+        stuck = _unit(STUCK_DAMPER)
+        faults = Fault.objects.filter(ahu=stuck, state=Fault.State.OPEN)
+        assert list(faults.values_list("code", flat=True)) == ["FC6"]
+        fault = faults.get()
+        assert fault.windows and all(w["start"] < w["end"] for w in fault.windows)
+        assert fault.condition_code == "damper_position" and fault.component.specs["role"] == "outdoor"
+        work = fault.corrective_work_order
+        assert work is not None and work.kind == WorkOrder.Kind.CORRECTIVE and work.state in WorkOrder.OPEN_STATES
+        assert work.approval == WorkOrder.Approval.PENDING  # proposed: awaits the supervisor
+        assert "found in the building-automation trends" in work.reason
+
+        # The leaking cooling valve: air cooled across the closed coil in free cooling (FC#8 with the mapped points).
+        leaking = _unit(LEAKING_VALVE)
+        assert list(Fault.objects.filter(ahu=leaking, state="open").values_list("code", flat=True)) == ["FC8"]
+
+        # The freezing night: not ready for freeze protection until retested, in readiness and in the figures.
+        frozen = _unit(FREEZE_NIGHT)
+        freeze = Fault.objects.get(ahu=frozen, code=Fault.FREEZE)
+        assert min(w["lowest_c"] for w in freeze.windows) < 4.4  # G36 stage 1, 4.4 °C (automation FREEZE_SECTION)
+        units = list(AHU.objects.select_related("building__site"))
+        readiness = {r.unit.pk: r for r in freeze_readiness(units=units, as_of=AT)}
+        assert readiness[frozen.pk].status == NOT_READY
+        assert "building-automation" in readiness[frozen.pk].reason or "freezing" in readiness[frozen.pk].reason
+        site = frozen.building.site
+        figures = compliance_figures(site_ids=[site.pk], start=DECEMBER - dt.timedelta(days=90), end=DECEMBER, as_of=AT)
+        row = next(r for r in figures.freeze if r["unit"] == frozen or getattr(r["unit"], "pk", None) == frozen.pk)
+        assert not row["ready"]
+        assert figures.freeze_counts[NOT_READY] >= 1
+
+        # Healthy units: no fault at all.
+        seeded = {_unit(k).pk for k in (FILTER, STUCK_DAMPER, LEAKING_VALVE, FREEZE_NIGHT)}
+        healthy_faults = Fault.objects.exclude(ahu_id__in=seeded).values_list("ahu__tag", "code")
+        assert list(healthy_faults) == []
+        assert Fault.objects.filter(ahu=filter_unit).count() == 0
+        trended = set(Point.objects.values_list("ahu_id", flat=True))
+        assert seeded < trended and len(trended) >= 8
+
+        # Loading again changes nothing.
+        before = _snapshot()
+        call_command("load_demo", stdout=io.StringIO())
+        assert _snapshot() == before
