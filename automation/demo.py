@@ -184,7 +184,7 @@ def freeze_night(site, today: dt.date) -> dt.date:
     return cold[-1] if cold else days[-1]
 
 
-def _filter_loading(changes: list[dt.datetime], t: np.ndarray, *, loaded: bool, today_s: float, rng) -> np.ndarray:
+def _filter_loading(changes: list[dt.datetime], t: np.ndarray, *, loaded: bool, today_s: float) -> np.ndarray:
     """Fraction of the clean-to-final span at each time: 0 at a change, rising with the days since it."""
     out = np.empty(t.shape)
     starts = [c.timestamp() for c in changes]
@@ -319,7 +319,7 @@ def _unit_values(
         clean, final = float(specs.get("clean_dp_pa", 80)), float(specs.get("final_dp_pa", 250))
         changes = [life.changed_at for life in filter_series(component=bank).lives if life.changed_at is not None]
         loaded = fault == FILTER and specs.get("stage") == "final"
-        loading = _filter_loading(changes, times, loaded=loaded, today_s=today_s, rng=rng)
+        loading = _filter_loading(changes, times, loaded=loaded, today_s=today_s)
         dp_design = clean + loading * (final - clean)
         dp = np.where(running, dp_design * np.clip(speeds, 0.05, 1.2) ** 1.5, 0.0) + rng.normal(0, 1.0, times.size)
         cols[job] = [np.round(np.maximum(dp, 0.0), 1)]
