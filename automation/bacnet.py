@@ -218,8 +218,9 @@ async def _read_multiple(
         if _refuses_service(answer):
             raise _MultipleRefused
         if not isinstance(answer, list):
-            for obj in batch:
-                values[obj.key] = ObjectValue(error=f"{obj}: {_error_words(answer)}")
+            # Some devices refuse a whole request for one object they lack: read that batch one by one, so only
+            # the missing object's point goes stale.
+            values.update(await _read_single(app, address, batch, timeout_s))
             continue
         found: dict[tuple[str, int], dict[str, Any]] = {}
         for object_id, prop, _index, value in answer:

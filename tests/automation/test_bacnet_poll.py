@@ -13,6 +13,7 @@ import threading
 import pytest
 import time_machine
 from bacpypes3.app import Application
+from bacpypes3.errors import ExecutionError
 from bacpypes3.local.analog import AnalogInputObject, AnalogValueObject
 from bacpypes3.local.binary import BinaryValueObject
 from bacpypes3.local.device import DeviceObject
@@ -38,13 +39,20 @@ class _NoReadMultiple(Application):
     do_ReadPropertyMultipleRequest = None
 
 
+class _RefusesWholeRequest(Application):
+    """A device that answers a ReadPropertyMultiple naming an object it lacks with one error for the whole request."""
+
+    async def do_ReadPropertyMultipleRequest(self, apdu):
+        raise ExecutionError(errorClass="object", errorCode="unknownObject")
+
+
 class SimulatedDevice:
     """A BACnet/IP device (bacpypes3) on 127.0.0.1 at a port the system picks, in its own thread and event loop."""
 
-    def __init__(self, instance: int, make_objects, *, read_multiple: bool = True):
+    def __init__(self, instance: int, make_objects, *, read_multiple: bool = True, app_class=None):
         self.instance = instance
         self.make_objects = make_objects  # bacpypes3 objects are made inside the device's own event loop
-        self.app_class = Application if read_multiple else _NoReadMultiple
+        self.app_class = app_class or (Application if read_multiple else _NoReadMultiple)
         self.port: int | None = None
         self._ready = threading.Event()
         self._loop = asyncio.new_event_loop()
@@ -251,6 +259,20 @@ def test_a_device_without_read_multiple_is_read_one_property_at_a_time(plant, po
     assert _fresh("AHU1.SF-STS", plant).last_value == 1.0
     assert set(result.stale) == {plant.points["AHU1.HCV"].pk}
     assert BacnetDevice.objects.get(site=plant.site).read_multiple is False
+
+
+def test_a_whole_request_refused_for_one_object_is_read_one_by_one(plant, poller):
+    """A device that refuses the whole ReadPropertyMultiple because one object is missing: the batch is read with
+    ReadProperty, so only the heating valve (the missing object) is stale."""
+    _readdress(plant.points)
+    sim = SimulatedDevice(1001, ahu_objects, app_class=_RefusesWholeRequest).start()
+    try:
+        bacnet_device_create(site=plant.site, device_instance=1001, address=sim.address)
+        result = _poll(site_id=plant.site.pk)
+    finally:
+        sim.stop()
+    assert set(result.stale) == {plant.points["AHU1.HCV"].pk} and result.values == 8
+    assert _fresh("AHU1.FILT-DP", plant).last_value == pytest.approx(124.544, abs=1e-3)
 
 
 def test_only_devices_that_are_due_are_polled(plant, poller, device):
