@@ -3,6 +3,7 @@ from django.urls import path
 
 from . import api
 from .views import (
+    automation_pages,
     calculator,
     manager,
     manager_findings,
@@ -72,6 +73,11 @@ urlpatterns = [
     # work beyond the plan: call-outs, ad-hoc work, work for a finding, a site's frost check
     path("work/new/", work_pages.work_new, name="work_new"),
     path("work/frost/<int:site_pk>/", work_pages.work_frost, name="work_frost"),
+    # building-automation trends and faults (frontend/views/automation_pages.py)
+    path("faults/", automation_pages.faults, name="faults"),
+    path("faults/<int:pk>/", automation_pages.fault_detail, name="fault"),
+    path("registry/unit/<int:pk>/trends/", automation_pages.unit_trends, name="unit_trends"),
+    path("registry/site/<int:pk>/points/", automation_pages.site_points, name="site_points"),
     # property manager
     path("dashboard/", manager.dashboard, name="dashboard"),
     path("dashboard/site/<int:pk>/", manager.site_detail, name="dashboard_site"),

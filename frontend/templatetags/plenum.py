@@ -20,6 +20,7 @@ NAV_BY_ROLE = {
         ("frontend:registry", "Registry"),
         ("frontend:findings", "Findings"),
         ("frontend:corrective", "Corrective work"),
+        ("frontend:faults", "Faults"),
         ("frontend:flagged", "Flagged forms"),
         ("frontend:records", "Reports"),
         ("frontend:calculator", "Calculator"),
@@ -27,6 +28,7 @@ NAV_BY_ROLE = {
     Role.PROPERTY_MANAGER: [
         ("frontend:dashboard", "Dashboard"),
         ("frontend:manager_findings", "Findings"),
+        ("frontend:faults", "Faults"),
         ("frontend:records", "Reports"),
     ],
 }

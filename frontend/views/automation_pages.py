@@ -1,0 +1,374 @@
+"""Pages of what the building automation system's trends say: a unit's trends with its fault windows, the
+supervisor's faults across the portfolio, a property manager's fault summary, and a site's point map files.
+
+Reads come through ``automation.fault_selectors`` and ``automation.selectors`` (every list from
+``sites_visible_to``); the one write, a trend CSV for a site, goes to the API's own service
+(``automation.trends.trend_import``, or its background job for a large file): every row or none.
+Values are stored SI and shown in the person's units through ``engineering.units``.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import zoneinfo
+from collections import defaultdict
+
+from django.contrib import messages
+from django.contrib.auth.decorators import login_required
+from django.core.exceptions import PermissionDenied
+from django.http import Http404
+from django.shortcuts import redirect, render
+from django.urls import reverse
+from django.utils import timezone
+from django.utils.safestring import mark_safe
+from django.views.decorators.http import require_GET, require_http_methods
+
+from accounts.models import Role
+from accounts.selectors import primary_role
+from automation import trends
+from automation.fault_models import Fault
+from automation.fault_selectors import fault_for, faults_visible_to, unit_trend_view
+from automation.selectors import points_visible_to, site_for
+from automation.vocabulary import POINT_CLASSES, PointUnit
+from engineering.faults.freeze import G36_FREEZE_STAGES
+from engineering.units import to_display, unit_label
+from inspections.freeze import freeze_readiness_for
+from inventory import csv_io
+from inventory.selectors import sites_managed_by, sites_visible_to
+
+from ..trend_charts import Band, ChartLine, trend_chart
+from .supervisor import _ahu
+
+MANAGING = {Role.SUPERVISOR, Role.ADMIN}
+DEFAULT_DAYS = 7
+MAX_DAYS = 31
+MAX_UPLOAD_BYTES = 20 * 1024 * 1024
+CLOSED_SHOWN = 50
+
+# Chart groups: which point units go on one chart, in page order.
+GROUPS = (
+    ("temperatures", "Temperatures", (PointUnit.DEG_C,)),
+    ("pressures", "Pressures", (PointUnit.PA,)),
+    ("commands", "Commands, positions and speeds", (PointUnit.PERCENT, PointUnit.UNITLESS)),
+    ("airflow", "Airflow", (PointUnit.M3_PER_SEC,)),
+    ("co2", "CO₂", (PointUnit.PPM,)),
+)
+QUANTITY = {PointUnit.DEG_C: "temperature", PointUnit.PA: "pressure", PointUnit.M3_PER_SEC: "airflow"}
+
+
+def _role(request) -> str | None:
+    return primary_role(user=request.user)
+
+
+def point_class_words(brick_class: str) -> str:
+    """A Brick class in plain words ("Supply air temperature sensor"), the class name itself if unknown."""
+    known = POINT_CLASSES.get(brick_class)
+    return known.label if known else brick_class.replace("_", " ").capitalize()
+
+
+def _shown(value: float, unit: str, system: str) -> float:
+    """A stored sample in the person's units: SI quantities converted, percent points (fractions) as %, on/off
+    as 0 or 100 % so it sits on the commands chart."""
+    if unit in QUANTITY:
+        return to_display(value=value, quantity=QUANTITY[unit], system=system)
+    if unit in (PointUnit.PERCENT, PointUnit.UNITLESS):
+        return value * 100.0
+    return value
+
+
+def _unit_words(units: tuple[str, ...], system: str) -> str:
+    unit = units[0]
+    if unit in QUANTITY:
+        return unit_label(quantity=QUANTITY[unit], system=system)
+    if unit == PointUnit.PERCENT:
+        return "%; on/off as 0 or 100"
+    return PointUnit(unit).label
+
+
+def _address(point) -> str:
+    if point.bacnet_device_instance is None:
+        return ""
+    return f"device {point.bacnet_device_instance}, {point.bacnet_object_type} {point.bacnet_object_instance}"
+
+
+def _stretch(request, *, zone: str, fault: Fault | None) -> tuple[dt.date, int, list[str]]:
+    """The first day and number of days asked for (``start``, ``days``), on the site's clock; by default the
+    last seven days up to today (or, for a fault, up to the day it was last seen). Bad values are named and
+    the default shown instead."""
+    tz = zoneinfo.ZoneInfo(zone)
+    today = timezone.now().astimezone(tz).date()
+    problems = []
+    raw_days = request.GET.get("days", "")
+    days = DEFAULT_DAYS
+    if raw_days:
+        try:
+            days = int(raw_days)
+        except ValueError:
+            days = 0
+        if not 1 <= days <= MAX_DAYS:
+            problems.append(f"Days: {raw_days[:20]!r} is not allowed; allowed: a whole number from 1 to {MAX_DAYS}.")
+            days = DEFAULT_DAYS
+    last = today
+    if fault is not None:
+        last = min(today, fault.last_seen_at.astimezone(tz).date())
+    start = last - dt.timedelta(days=days - 1)
+    raw_start = request.GET.get("start", "")
+    if raw_start:
+        try:
+            asked = dt.date.fromisoformat(raw_start)
+        except ValueError:
+            asked = None
+        if asked is None or asked < dt.date(2000, 1, 1) or asked > today:
+            problems.append(
+                f"From: {raw_start[:20]!r} is not allowed; allowed: a date from 2000-01-01 to {today.isoformat()}."
+            )
+        else:
+            start = asked
+    return start, days, problems
+
+
+def _charts(view, *, system: str, zone: str) -> list[dict]:
+    bands = [Band(start=w["start"], end=w["end"], title=w["title"]) for w in view.windows]
+    freeze = any(w["code"] == Fault.FREEZE for w in view.windows)
+    out = []
+    for key, title, units in GROUPS:
+        lines = [line for line in view.lines if line.point.unit in units]
+        if not lines:
+            continue
+        limits: list[tuple[float, str]] = []
+        if key == "temperatures" and freeze:
+            seen = set()
+            for stage in G36_FREEZE_STAGES:
+                if stage.below_c in seen:
+                    continue
+                seen.add(stage.below_c)
+                shown = to_display(value=stage.below_c, quantity="temperature", system=system)
+                label = unit_label(quantity="temperature", system=system)
+                limits.append((shown, f"freeze {stage.name}: below {shown:.1f} {label}"))
+        chart_lines = [
+            ChartLine(
+                label=f"{line.point.name} — {point_class_words(line.point.brick_class)}",
+                samples=[(t, _shown(v, line.point.unit, system)) for t, v in line.samples],
+            )
+            for line in lines
+        ]
+        svg = trend_chart(
+            title=title,
+            unit=_unit_words(units, system),
+            lines=chart_lines,
+            start=view.start,
+            end=view.end,
+            zone=zone,
+            bands=bands,
+            limits=limits,
+        )
+        out.append({"key": key, "title": title, "svg": mark_safe(svg)})  # built with escape()
+    return out
+
+
+def _trend_page(request, *, ahu, fault: Fault | None):
+    site = ahu.building.site
+    system = request.user.unit_system
+    first, days, problems = _stretch(request, zone=site.time_zone, fault=fault)
+    tz = zoneinfo.ZoneInfo(site.time_zone)
+    start = dt.datetime.combine(first, dt.time(), tzinfo=tz)
+    end = dt.datetime.combine(first + dt.timedelta(days=days), dt.time(), tzinfo=tz)
+    view = unit_trend_view(ahu=ahu, start=start, end=end)
+    faults = list(faults_visible_to(user=request.user, ahu_id=ahu.pk, open_only=False)[:20])
+    return render(
+        request,
+        "frontend/automation/unit_trends.html",
+        {
+            "ahu": ahu,
+            "site": site,
+            "fault": fault,
+            "fault_row": _fault_row(fault, system) if fault else None,
+            "points": [
+                {
+                    "point": line.point,
+                    "words": point_class_words(line.point.brick_class),
+                    "address": _address(line.point),
+                    "samples": len(line.samples),
+                }
+                for line in view.lines
+            ],
+            "charts": _charts(view, system=system, zone=site.time_zone),
+            "windows": view.windows,
+            "faults": [_fault_row(f, system) for f in faults],
+            "first": first,
+            "last": first + dt.timedelta(days=days - 1),
+            "days": days,
+            "max_days": MAX_DAYS,
+            "problems": problems,
+        },
+        status=400 if problems else 200,
+    )
+
+
+@login_required
+@require_GET
+def unit_trends(request, pk: int):
+    """A unit's points and trend charts over a stretch with its fault windows (supervisors, administrators)."""
+    return _trend_page(request, ahu=_ahu(request, pk), fault=None)
+
+
+@login_required
+@require_GET
+def fault_detail(request, pk: int):
+    """One fault's evidence: the unit's trends up to the day it was last seen, its windows shaded."""
+    if _role(request) not in MANAGING:
+        raise PermissionDenied("Only a supervisor or administrator may open a fault's evidence.")
+    fault = fault_for(user=request.user, id=pk)
+    return _trend_page(request, ahu=_ahu(request, fault.ahu_id), fault=fault)
+
+
+def _consequence_words(fault: Fault, system: str) -> str:
+    summary = (fault.consequence or {}).get("summary", "")
+    return str(summary)
+
+
+def _fault_row(fault: Fault, system: str) -> dict:
+    wo = fault.corrective_work_order
+    return {
+        "fault": fault,
+        "share": None if fault.share is None else round(fault.share * 100),
+        "consequence": _consequence_words(fault, system),
+        "work": wo,
+        "work_words": wo.state_words if wo else "",
+        "work_url": (
+            reverse("frontend:corrective")
+            if wo is not None and wo.approval == wo.Approval.PENDING
+            else (reverse("frontend:checklist", kwargs={"public_id": wo.public_id}) if wo else "")
+        ),
+    }
+
+
+@login_required
+@require_GET
+def faults(request):
+    """Supervisors and administrators: the active faults of every site they see (filter by site), closed ones
+    folded away. A property manager: a summary of their own sites. Anyone else: forbidden."""
+    role = _role(request)
+    if role == Role.PROPERTY_MANAGER:
+        return _manager_summary(request)
+    if role not in MANAGING:
+        raise PermissionDenied("Only a supervisor, administrator or property manager may open the faults.")
+    system = request.user.unit_system
+    sites = list(sites_visible_to(user=request.user).order_by("name"))
+    chosen = None
+    raw = request.GET.get("site", "")
+    if raw:
+        chosen = next((s for s in sites if str(s.pk) == raw), None)
+        if chosen is None:
+            raise Http404("No such site that you may see.")
+    active = [_fault_row(f, system) for f in faults_visible_to(user=request.user, site=chosen)]
+    closed_qs = faults_visible_to(user=request.user, site=chosen, open_only=False).filter(state=Fault.State.CLOSED)
+    closed = [_fault_row(f, system) for f in closed_qs[:CLOSED_SHOWN]]
+    return render(
+        request,
+        "frontend/automation/faults.html",
+        {
+            "sites": sites,
+            "chosen": chosen,
+            "active": active,
+            "closed": closed,
+            "closed_total": closed_qs.count(),
+            "managed_sites": list(sites_managed_by(user=request.user).order_by("name")),
+        },
+    )
+
+
+def _manager_summary(request):
+    sites = list(sites_visible_to(user=request.user).order_by("name"))
+    counts: dict[int, int] = defaultdict(int)
+    for f in faults_visible_to(user=request.user):
+        counts[f.ahu.building.site_id] += 1
+    readiness = {r.unit.pk: r for r in freeze_readiness_for(user=request.user, as_of=timezone.now())}
+    freeze = []
+    for f in faults_visible_to(user=request.user, open_only=False).filter(code=Fault.FREEZE):
+        r = readiness.get(f.ahu_id)
+        if r is not None and r.ready:
+            continue
+        if f.state == Fault.State.CLOSED and r is None:
+            continue
+        freeze.append(
+            {
+                "fault": f,
+                "readiness": r,
+                "work_words": f.corrective_work_order.state_words if f.corrective_work_order else "",
+            }
+        )
+    return render(
+        request,
+        "frontend/automation/manager_faults.html",
+        {"rows": [{"site": s, "active": counts.get(s.pk, 0)} for s in sites], "freeze": freeze},
+    )
+
+
+def _upload_problems(upload) -> dict[str, str]:
+    if upload is None:
+        return {"file": "File: choose a trend CSV file to import."}
+    name = (upload.name or "")[:80]
+    if not name.lower().endswith(".csv"):
+        return {"file": f"File: {name!r} is not a CSV file; allowed: a .csv file."}
+    if upload.size == 0:
+        return {"file": f"File: {name!r} is empty; allowed: a CSV file with a header row and rows of values."}
+    if upload.size > MAX_UPLOAD_BYTES:
+        return {"file": f"File: {name!r} is over {MAX_UPLOAD_BYTES // 1024 // 1024} MB; use the API for it."}
+    return {}
+
+
+@login_required
+@require_http_methods(["GET", "POST"])
+def site_points(request, pk: int):
+    """A site's point map: units and their points (Brick class, BACnet address), a trend CSV import (every row
+    or none; each refused row and cell listed) and the site's Brick model to download. Supervisors and
+    administrators of the site's organisation."""
+    site = site_for(user=request.user, id=pk, write=True)
+    errors: list = []
+    field_errors: dict[str, str] = {}
+    layout = request.POST.get("layout", "wide")
+    if request.method == "POST":
+        upload = request.FILES.get("file")
+        if layout not in trends.LAYOUTS:
+            field_errors["layout"] = f"Layout: {layout[:20]!r} is not offered; allowed: {', '.join(trends.LAYOUTS)}."
+        field_errors.update(_upload_problems(upload))
+        if not field_errors:
+            try:
+                text = csv_io.decode_upload(upload.read()).read()
+                if trends.trend_import_runs_in_background(text=text):
+                    trends.trend_import_job_create(
+                        site=site, text=text, layout=layout, by=request.user, file_name=upload.name or ""
+                    )
+                    messages.success(request, "The file is large: it is imported in the background.")
+                    return redirect("frontend:site_points", pk=site.pk)
+                result = trends.trend_import(site=site, text=text, layout=layout, by=request.user)
+            except csv_io.ImportFailed as exc:
+                errors = exc.errors
+            else:
+                messages.success(
+                    request,
+                    f"Imported {result.values} values of {result.points} points from {result.rows} rows.",
+                )
+                return redirect("frontend:site_points", pk=site.pk)
+    units: dict[int, dict] = {}
+    for point in points_visible_to(user=request.user, site=site):
+        entry = units.setdefault(point.ahu_id, {"ahu": point.ahu, "points": []})
+        entry["points"].append(
+            {"point": point, "words": point_class_words(point.brick_class), "address": _address(point)}
+        )
+    return render(
+        request,
+        "frontend/automation/site_points.html",
+        {
+            "site": site,
+            "units": list(units.values()),
+            "errors": errors[:200],
+            "errors_total": len(errors),
+            "field_errors": field_errors,
+            "layout": layout,
+            "layouts": trends.LAYOUTS,
+            "brick_url": reverse("automation_api:site-brick", kwargs={"pk": site.pk}),
+        },
+        status=400 if (errors or field_errors) else 200,
+    )

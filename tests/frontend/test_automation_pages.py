@@ -1,0 +1,265 @@
+"""The building-automation pages: a unit's trends with its fault windows, the supervisor's faults, a property
+manager's summary of their own sites, and a site's point map with its trend-file import.
+
+The world is made through the services: a point map (``automation.services.point_create``), one heating day of
+15-minute trends imported as a CSV file (``automation.trends.trend_import``) in which the outdoor-air damper is
+stuck open, and the night's judging (``automation.judging.unit_day_judge``), which opens Guideline 36's FC6 with
+its corrective work. The clock is set for each step; nothing depends on today's date.
+"""
+
+import datetime as dt
+import zoneinfo
+
+import pytest
+import time_machine
+from django.urls import reverse
+
+from accounts.models import Role, SiteGrant, User
+from automation.fault_models import Fault
+from automation.judging import unit_day_judge
+from automation.models import TrendDay
+from automation.trends import trend_import
+from scheduling.services import task_library_install
+from tests.automation.trend_builders import map_points
+from tests.factories.accounts import OrganisationFactory, make_person
+from tests.factories.inventory import BuildingFactory, SiteFactory, make_full_unit
+
+pytestmark = pytest.mark.django_db
+
+ZONE = "Europe/Amsterdam"
+DAY1 = dt.date(2026, 1, 12)  # a Monday in January
+AFTER = dt.datetime(2026, 1, 14, 11, tzinfo=dt.UTC)  # two days later, when the pages are read
+
+# Heating with the outdoor-air damper commanded to its minimum (25 %): outdoor −5 °C, return 21 °C. A working
+# damper gives mixed air of 0.25 × −5 + 0.75 × 21 = 14.5 °C; stuck open it sits at −4 °C, an outdoor-air
+# fraction of 0.96, far from the minimum (Guideline 36 FC#6, thresholds as engineering.faults, from memory).
+HEATING = {"OAT": -5, "RAT": 21, "MAT": -4, "SAT": 18, "SAT-SP": 18, "SF-STS": 1, "SF-SPD": 80, "OAD": 25}
+HEATING |= {"HCV": 50, "CCV": 0}
+
+
+def heating_day_csv(tag: str, day: dt.date, values: dict) -> str:
+    """A wide trend file of one site-local day at 15-minute steps, times without a zone (the site's)."""
+    names = list(values)
+    lines = ["timestamp," + ",".join(f"{tag}.{n}" for n in names)]
+    t = dt.datetime.combine(day, dt.time())
+    while t.date() == day:
+        lines.append(f"{t:%Y-%m-%d %H:%M}," + ",".join(str(values[n]) for n in names))
+        t += dt.timedelta(minutes=15)
+    return "\n".join(lines) + "\n"
+
+
+def stuck_damper_world(*, tag: str = "AHU-07", org=None, site_name: str = "Dune Offices"):
+    org = org or OrganisationFactory(name="Dune Air")
+    site = SiteFactory(organisation=org, name=site_name, time_zone=ZONE)
+    ahu = make_full_unit(building=BuildingFactory(site=site, name="East wing"), tag=tag)
+    task_library_install()
+    points = map_points(ahu)
+    with time_machine.travel(dt.datetime(2026, 1, 13, 1, tzinfo=dt.UTC), tick=False):
+        trend_import(site=site, text=heating_day_csv(tag, DAY1, HEATING), layout="wide")
+        unit_day_judge(ahu=ahu, day=DAY1)
+    fault = Fault.objects.get(ahu=ahu, code="FC6")
+    return org, site, ahu, points, fault
+
+
+@pytest.fixture
+def world():
+    org, site, ahu, points, fault = stuck_damper_world()
+    boss = make_person(organisation=org, role=Role.SUPERVISOR, username="boss")
+    return {"org": org, "site": site, "ahu": ahu, "points": points, "fault": fault, "boss": boss}
+
+
+def get(client, user, url, **params):
+    client.force_login(user)
+    with time_machine.travel(AFTER, tick=False):
+        return client.get(url, params)
+
+
+def test_the_supervisor_sees_the_stuck_damper_with_its_section_share_evidence_and_proposed_work(client, world):
+    fault, ahu = world["fault"], world["ahu"]
+    wo = fault.corrective_work_order
+    assert wo is not None
+    page = get(client, world["boss"], reverse("frontend:faults"))
+    assert page.status_code == 200
+    html = page.content.decode()
+    assert "AHU-07" in html and "East wing" in html and "Dune Offices" in html
+    assert fault.title in html and "Guideline 36" in html and fault.code in html
+    assert f"{round(fault.share * 100)} %" in html
+    assert reverse("frontend:fault", kwargs={"pk": fault.pk}) in html
+    with time_machine.travel(AFTER, tick=False):
+        words = wo.state_words
+    assert words == "awaiting approval"  # proposed by the judging, not yet approved (not yet overdue either)
+    assert wo.title in html and f"data-work-state>{words}<" in html
+    assert reverse("frontend:corrective") in html  # where it is approved
+    # The menu has the page.
+    assert f'href="{reverse("frontend:faults")}"' in html and ">Faults<" in html
+    assert ahu.pk  # the unit's trend page is reached from the fault's evidence link (next test)
+
+
+def test_the_evidence_shows_charts_by_group_with_the_fault_window_shaded_and_the_points_in_plain_words(client, world):
+    fault = world["fault"]
+    page = get(client, world["boss"], reverse("frontend:fault", kwargs={"pk": fault.pk}))
+    assert page.status_code == 200
+    html = page.content.decode()
+    for group in ("temperatures", "commands"):
+        assert f'data-chart="{group}"' in html
+    assert f'data-band="{fault.title}"' in html
+    assert "Mixed air temperature sensor" in html and "Damper position command" in html
+    assert "Temperatures (°C)" in html
+    # Default stretch: seven days up to the day the fault was last seen, on the site's clock.
+    last = fault.last_seen_at.astimezone(zoneinfo.ZoneInfo(ZONE)).date()
+    assert last in (DAY1, DAY1 + dt.timedelta(days=1))
+    assert f'value="{(last - dt.timedelta(days=6)).isoformat()}"' in html
+
+
+def test_the_units_trend_page_defaults_to_the_last_seven_days_up_to_the_sites_today(client, world):
+    ahu = world["ahu"]
+    page = get(client, world["boss"], reverse("frontend:unit_trends", kwargs={"pk": ahu.pk}))
+    assert page.status_code == 200
+    html = page.content.decode()
+    today = AFTER.astimezone(zoneinfo.ZoneInfo(ZONE)).date()  # 14 Jan 2026
+    assert f'value="{(today - dt.timedelta(days=6)).isoformat()}"' in html
+    assert 'data-chart="temperatures"' in html and 'data-band="' in html
+    # Reached from the unit's registry page.
+    unit_page = get(client, world["boss"], reverse("frontend:registry_unit", kwargs={"pk": ahu.pk}))
+    assert reverse("frontend:unit_trends", kwargs={"pk": ahu.pk}) in unit_page.content.decode()
+
+
+def test_a_bad_stretch_is_named_and_the_default_shown(client, world):
+    page = get(
+        client, world["boss"], reverse("frontend:unit_trends", kwargs={"pk": world["ahu"].pk}), days="400", start="x"
+    )
+    assert page.status_code == 400
+    html = page.content.decode()
+    assert "Days: &#x27;400&#x27; is not allowed; allowed: a whole number from 1 to 31." in html
+    assert "From: &#x27;x&#x27; is not allowed" in html
+    assert 'data-chart="temperatures"' in html
+
+
+def test_values_are_in_the_persons_units(client, world):
+    """A person who reads US units sees the temperatures chart in °F (engineering.units)."""
+    boss: User = world["boss"]
+    boss.unit_system = "us"
+    boss.save(update_fields=["unit_system"])
+    html = get(client, boss, reverse("frontend:fault", kwargs={"pk": world["fault"].pk})).content.decode()
+    assert "Temperatures (°F)" in html and "Temperatures (°C)" not in html
+
+
+def test_another_organisations_fault_unit_and_site_are_not_found(client, world):
+    stranger = make_person(organisation=OrganisationFactory(), role=Role.SUPERVISOR, username="stranger")
+    for url in (
+        reverse("frontend:fault", kwargs={"pk": world["fault"].pk}),
+        reverse("frontend:unit_trends", kwargs={"pk": world["ahu"].pk}),
+        reverse("frontend:site_points", kwargs={"pk": world["site"].pk}),
+    ):
+        assert get(client, stranger, url).status_code == 404, url
+    html = get(client, stranger, reverse("frontend:faults")).content.decode()
+    assert world["fault"].title not in html and "data-no-faults" in html
+    assert get(client, stranger, reverse("frontend:faults"), site=str(world["site"].pk)).status_code == 404
+
+
+def test_a_technician_may_not_open_the_faults(client, world):
+    tech = make_person(organisation=world["org"], role=Role.TECHNICIAN, username="tech")
+    assert get(client, tech, reverse("frontend:faults")).status_code == 403
+    assert get(client, tech, reverse("frontend:fault", kwargs={"pk": world["fault"].pk})).status_code == 403
+
+
+def test_the_site_filter_and_closed_faults_folded_away(client, world):
+    stuck_damper_world(tag="AHU-09", org=world["org"], site_name="Pier House")
+    html = get(client, world["boss"], reverse("frontend:faults")).content.decode()
+    assert html.count("data-evidence=") == 2
+    html = get(client, world["boss"], reverse("frontend:faults"), site=str(world["site"].pk)).content.decode()
+    assert html.count("data-evidence=") == 1 and "AHU-07" in html and "AHU-09" not in html
+    fault = world["fault"]
+    Fault.objects.filter(pk=fault.pk).update(
+        state=Fault.State.CLOSED, closed_at=AFTER, close_cause=Fault.CloseCause.ABSENT
+    )
+    html = get(client, world["boss"], reverse("frontend:faults"), site=str(world["site"].pk)).content.decode()
+    assert "data-no-faults" in html  # its only fault is closed: folded away below
+    assert '<details class="card" data-faults="closed">' in html and "not found for the set time" in html
+
+
+def test_a_property_manager_sees_a_summary_of_their_own_sites_only(client, world):
+    site = world["site"]
+    other = SiteFactory(organisation=world["org"], name="Dock Hall", time_zone=ZONE)
+    hidden = SiteFactory(organisation=world["org"], name="Hidden Yard", time_zone=ZONE)
+    pm = make_person(organisation=world["org"], role=Role.PROPERTY_MANAGER, username="pm")
+    SiteGrant.objects.create(user=pm, site=site)
+    SiteGrant.objects.create(user=pm, site=other)
+    page = get(client, pm, reverse("frontend:faults"))
+    assert page.status_code == 200
+    html = page.content.decode()
+    assert (
+        f'<tr data-site="{site.pk}"><th scope="row">Dune Offices</th><td class="num" data-label="Active faults">1<'
+        in html
+    )
+    assert (
+        f'<tr data-site="{other.pk}"><th scope="row">Dock Hall</th><td class="num" data-label="Active faults">0<'
+        in html
+    )
+    assert hidden.name not in html
+    assert 'data-evidence="' not in html  # no supervisor's detail
+    assert get(client, pm, reverse("frontend:fault", kwargs={"pk": world["fault"].pk})).status_code == 403
+    ungranted = make_person(organisation=world["org"], role=Role.PROPERTY_MANAGER, username="pm2")
+    html = get(client, ungranted, reverse("frontend:faults")).content.decode()
+    assert site.name not in html
+
+
+def test_the_point_map_lists_brick_classes_and_bacnet_addresses_and_links_the_brick_model(client, world):
+    html = get(client, world["boss"], reverse("frontend:site_points", kwargs={"pk": world["site"].pk})).content.decode()
+    assert "AHU-07.MAT" in html and "Mixed air temperature sensor" in html and "Mixed_Air_Temperature_Sensor" in html
+    assert reverse("automation_api:site-brick", kwargs={"pk": world["site"].pk}) in html
+    client.force_login(world["boss"])
+    brick = client.get(reverse("automation_api:site-brick", kwargs={"pk": world["site"].pk}))
+    assert brick.status_code == 200 and "Mixed_Air_Temperature_Sensor" in brick.content.decode()
+
+
+def test_a_wrong_trend_file_lists_each_bad_cell_and_stores_nothing(client, world):
+    site, boss = world["site"], world["boss"]
+    before = TrendDay.objects.count()
+    text = "timestamp,AHU-07.MAT,AHU-07.OAT\n2026-01-13 08:00,abc,1\n2026-01-13 08:15,5,1\n2026-01-13 08:30,5,9999\n"
+    upload = _file("bad.csv", text)
+    client.force_login(boss)
+    with time_machine.travel(AFTER, tick=False):
+        page = client.post(reverse("frontend:site_points", kwargs={"pk": site.pk}), {"layout": "wide", "file": upload})
+    assert page.status_code == 400
+    html = page.content.decode()
+    assert "Nothing was imported" in html and html.count("data-row-error") >= 2
+    assert "abc" in html and "9999" in html  # each bad cell with its value
+    unknown = "timestamp,AHU-07.NOPE\n2026-01-13 08:00,1\n"
+    with time_machine.travel(AFTER, tick=False):
+        page = client.post(
+            reverse("frontend:site_points", kwargs={"pk": site.pk}), {"layout": "wide", "file": _file("x.csv", unknown)}
+        )
+    assert page.status_code == 400 and "no point of the site has this name" in page.content.decode()
+    assert TrendDay.objects.count() == before
+
+
+def test_a_good_trend_file_is_imported_through_the_service(client, world):
+    site, boss = world["site"], world["boss"]
+    text = "timestamp,AHU-07.MAT\n2026-01-13 08:00,5\n2026-01-13 08:15,6\n"
+    client.force_login(boss)
+    with time_machine.travel(AFTER, tick=False):
+        page = client.post(
+            reverse("frontend:site_points", kwargs={"pk": site.pk}),
+            {"layout": "wide", "file": _file("good.csv", text)},
+            follow=True,
+        )
+    assert page.status_code == 200 and "Imported 2 values of 1 points from 2 rows." in page.content.decode()
+
+
+def test_the_upload_form_names_a_missing_file_and_a_bad_layout(client, world):
+    client.force_login(world["boss"])
+    page = client.post(reverse("frontend:site_points", kwargs={"pk": world["site"].pk}), {"layout": "sideways"})
+    assert page.status_code == 400
+    html = page.content.decode()
+    assert "Layout: &#x27;sideways&#x27; is not offered; allowed: wide, long." in html
+    assert "File: choose a trend CSV file to import." in html
+    tech = make_person(organisation=world["org"], role=Role.TECHNICIAN, username="tech2")
+    client.force_login(tech)
+    assert client.post(reverse("frontend:site_points", kwargs={"pk": world["site"].pk}), {}).status_code in (403, 404)
+
+
+def _file(name: str, text: str):
+    from django.core.files.uploadedfile import SimpleUploadedFile
+
+    return SimpleUploadedFile(name, text.encode(), content_type="text/csv")
