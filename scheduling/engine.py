@@ -57,6 +57,11 @@ BUNDLE_DAYS = 14
 RATE_WINDOW_DAYS = 120  # "recent" run-hour rate: readings of the last four months (common practice)
 RATE_MAX_READINGS = 20
 METER_HISTORY_DAYS = 800
+# A fan meter fed by the building-automation trend (its latest reading's source is "bas_trend") counts every hour
+# the fan ran, where a typed meter is read a few times a year; it is the run-hour basis while its latest reading is
+# at most this old. The nightly judging writes one each night, so a week without one means the feed has stopped
+# (common practice; the same week closes a fault absent from the trends), and the unit's typed meter is used again.
+TREND_METER_CURRENT_DAYS = 7
 MOVABLE_STATES = frozenset({WorkOrder.State.PLANNED, WorkOrder.State.ASSIGNED})
 Trigger = TaskDefinition.Trigger
 _WO_LABEL = WorkOrder._meta.label_lower
@@ -191,14 +196,15 @@ class _Meters:
         # The times as text, parsed by datetime.fromisoformat (C): the driver's time-zone-aware loader is
         # Python, and over 100,000 readings it was a fifth of an idempotent run. Text keeps the exact
         # microseconds (a reading typed on the form has its inspection's finishing time, compared below).
+        self.source: dict[tuple[int, int], str] = {}  # each meter's latest reading's source
         rows = (
             MeterReading.objects.filter(ahu_id__in=ahu_ids, taken_at__gte=now - dt.timedelta(days=METER_HISTORY_DAYS))
             .order_by("taken_at", "id")
             .annotate(taken_text=Cast("taken_at", TextField()))
-            .values_list("ahu_id", "component_id", "taken_text", "hours", "is_reset", "id")
+            .values_list("ahu_id", "component_id", "taken_text", "hours", "is_reset", "id", "source")
         )
         parse = dt.datetime.fromisoformat
-        for ahu_id, comp_id, taken_text, hours, is_reset, pk in _plain_rows(rows):
+        for ahu_id, comp_id, taken_text, hours, is_reset, pk, source in _plain_rows(rows):
             taken_at = parse(taken_text)
             if taken_at.tzinfo is None:  # SQLite keeps naive UTC
                 taken_at = taken_at.replace(tzinfo=dt.UTC)
@@ -206,15 +212,45 @@ class _Meters:
             if is_reset:
                 series.clear()
             series.append((taken_at, hours, bool(is_reset), pk))
+            self.source[(ahu_id, comp_id or 0)] = source
 
     def meter_for(self, unit: _Unit) -> tuple[int, int] | None:
+        """The typed basis: the unit's own meter, else its (supply first) fan's."""
         if self.by_meter.get((unit.pk, 0)):
             return (unit.pk, 0)
-        fans = sorted(unit.by_kind.get("fan", ()), key=lambda c: (c.specs.get("role") != "supply", c.pk))
-        for fan in fans:
+        for fan in self._fans(unit):
             if self.by_meter.get((unit.pk, fan.pk)):
                 return (unit.pk, fan.pk)
         return None
+
+    @staticmethod
+    def _fans(unit: _Unit) -> list:
+        return sorted(unit.by_kind.get("fan", ()), key=lambda c: (c.specs.get("role") != "supply", c.pk))
+
+    def trend_meter_for(self, unit: _Unit) -> tuple[int, int] | None:
+        """The fan meter the building-automation trend feeds (supply fan first), while it is current: its latest
+        reading came from the trend at most ``TREND_METER_CURRENT_DAYS`` ago."""
+        since = self.now - dt.timedelta(days=TREND_METER_CURRENT_DAYS)
+        for fan in self._fans(unit):
+            meter = (unit.pk, fan.pk)
+            series = self.by_meter.get(meter)
+            if series and self.source.get(meter) == MeterReading.Source.BAS_TREND and series[-1][0] >= since:
+                return meter
+        return None
+
+    def basis_for(self, unit: _Unit, *, last_done: dt.datetime | None) -> tuple[tuple[int, int] | None, str]:
+        """(meter, why) a runtime task of ``unit`` last done at ``last_done`` is projected on.
+
+        The trend-fed fan meter while it is current and reaches back to the task's last completion (a meter that
+        began after the last service cannot count the hours since it); otherwise the typed basis
+        (``meter_for``). ``why`` is '' for the typed basis and "trend" when the trend-fed meter replaced it."""
+        typed = self.meter_for(unit)
+        trend = self.trend_meter_for(unit)
+        if trend is None or trend == typed:
+            return typed, ""
+        if typed is not None and last_done is not None and last_done < self.by_meter[trend][0][0]:
+            return typed, ""
+        return trend, "trend"
 
     def rate(self, meter) -> float | None:
         if meter not in self._rates:
@@ -226,8 +262,11 @@ class _Meters:
             self._rates[meter] = _rate_per_day(tuple((r[0], r[1]) for r in recent))
         return self._rates[meter]
 
-    def projection(self, meter, *, run_hours: int, last_done: dt.datetime | None):
-        """(key part, projected date-time when the next ``run_hours`` are reached) or None without a rate."""
+    def projection(self, meter, *, run_hours: int, last_done: dt.datetime | None, tag: str = ""):
+        """(key part, projected date-time when the next ``run_hours`` are reached) or None without a rate.
+
+        ``tag`` names a basis other than the typed one in the key (``h:<reset>:<target>:fan<id>``), so the open
+        occurrence is re-keyed, not duplicated, when the basis changes."""
         slope = self.rate(meter)
         if slope is None or slope <= 0:
             return None
@@ -241,7 +280,8 @@ class _Meters:
             target = (int(series[-1][1] // run_hours) + 1) * run_hours
         last_at, last_hours = series[-1][0], series[-1][1]
         when = last_at + dt.timedelta(days=max(0.0, (target - last_hours) / slope))
-        return f"h:{reset_id}:{round(target)}", when
+        key = f"h:{reset_id}:{round(target)}"
+        return (f"{key}:fan{meter[1]}" if tag else key), when
 
 
 @dataclass(slots=True)
@@ -348,13 +388,13 @@ def _task_occurrences(*, unit: _Unit, task, targets, site: _SiteDay, rules: _Rul
                 ck = comp.pk if comp else 0
                 out.extend(_Occ(unit, task, ck, due, f"c:{due.isoformat()}", False) for due in days)
     elif trigger == Trigger.RUNTIME:
-        if meter is False:
-            meter = meters.meter_for(unit)
-        if meter is None:
-            return out, meter
         for comp in comps:
             ck = comp.pk if comp else 0
-            proj = meters.projection(meter, run_hours=task.run_hours, last_done=last_done.get((unit.pk, task.code, ck)))
+            done = last_done.get((unit.pk, task.code, ck))
+            basis, tag = meters.basis_for(unit, last_done=done)
+            if basis is None:
+                continue
+            proj = meters.projection(basis, run_hours=task.run_hours, last_done=done, tag=tag)
             if proj is None:
                 continue
             key, when = proj
@@ -500,12 +540,15 @@ def work_orders_generate(
     # plain tuples); the projected ones (run-hours, seasons) also bring their row, date and visit.
     fixed_keys = Q(occurrence_key__startswith="c:") | Q(occurrence_key__startswith="after:")
     fixed = set(stored.filter(fixed_keys).values_list("ahu_id", "task_code", "component_key", "occurrence_key"))
-    projected = {
-        (ahu_id, code, ck, key): (pk, due, wo_id)
-        for pk, ahu_id, code, ck, key, due, wo_id in stored.exclude(fixed_keys).values_list(
-            "id", "ahu_id", "task_code", "component_key", "occurrence_key", "due_date", "work_order_id"
-        )
-    }
+    projected = {}
+    # The open run-hour occurrence of each (unit, task, part) by the basis it was projected on (key's tag).
+    open_runtime: dict[tuple, dict[str, tuple]] = defaultdict(dict)
+    for pk, ahu_id, code, ck, key, due, wo_id, done_at in stored.exclude(fixed_keys).values_list(
+        "id", "ahu_id", "task_code", "component_key", "occurrence_key", "due_date", "work_order_id", "completed_at"
+    ):
+        projected[(ahu_id, code, ck, key)] = (pk, due, wo_id)
+        if done_at is None and key.startswith("h:"):
+            open_runtime[(ahu_id, code, ck)][_basis_tag(key)] = (pk, due, wo_id)
 
     new: list[_Occ] = []
     candidates: list[tuple[int, dt.date, int, tuple]] = []
@@ -517,6 +560,14 @@ def work_orders_generate(
                 new.append(occ)
             continue
         found = projected.get(occ.ident)
+        if found is None and occ.key.startswith("h:"):
+            # The run-hour basis changed (the trend-fed meter took over, or its trend stopped): the open occurrence
+            # projected on the other basis moves to this one's key and date rather than being duplicated.
+            other = {t: f for t, f in open_runtime.get(occ.ident[:3], {}).items() if t != _basis_tag(occ.key)}
+            if other:
+                pk, due, wo_id = min(other.values(), key=lambda f: f[1])
+                candidates.append((pk, occ.due, wo_id, occ.ident))
+                continue
         if found is None:
             new.append(occ)
         elif found[1] != occ.due and not (occ.clamped and found[1] <= occ.due):  # already due: later today no move
@@ -697,10 +748,17 @@ def _join_visits(attach: list[tuple[int, _Occ]], *, organisation, audit: list) -
     WorkOrder.objects.bulk_update(changed, ["due_date", "overdue_on", "title", "version", "updated_at"])
 
 
+def _basis_tag(key: str) -> str:
+    """The run-hour basis an ``h:`` key was projected on: '' (the typed basis) or 'fan<id>' (a trend-fed meter)."""
+    parts = key.split(":")
+    return parts[3] if len(parts) > 3 else ""
+
+
 def _write_moves(moves: list[tuple[int, dt.date, int, tuple]], *, organisation, audit: list) -> None:
-    """Move projected occurrences to their new dates; each touched visit follows its first task."""
-    task_rows = [WorkOrderTask(pk=pk, due_date=due) for pk, due, _, _ in moves]
-    WorkOrderTask.objects.bulk_update(task_rows, ["due_date"], batch_size=1000)
+    """Move projected occurrences to their new dates (and keys, when a run-hour basis changed); each touched
+    visit follows its first task."""
+    task_rows = [WorkOrderTask(pk=pk, due_date=due, occurrence_key=ident[3]) for pk, due, _, ident in moves]
+    WorkOrderTask.objects.bulk_update(task_rows, ["due_date", "occurrence_key"], batch_size=1000)
     moved: dict[int, list] = defaultdict(list)
     for _, due, wo_id, ident in moves:
         moved[wo_id].append([*_occurrence_ref(ident), due.isoformat()])
