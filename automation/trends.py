@@ -22,12 +22,14 @@ from __future__ import annotations
 import csv
 import datetime as dt
 import io
+import itertools
 import logging
 from collections import defaultdict
 from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
+import numpy as np
 from django.db import connection, transaction
 from django.utils import timezone
 
@@ -331,8 +333,8 @@ def trend_import(
 
 
 def trend_samples_store(samples: Samples, result: TrendImportResult | None = None) -> TrendImportResult:
-    """Merge ``{point id: {aware time: value}}`` into the points' day buckets (one read and one bulk write per
-    chunk of buckets) and move each point's last value (one read and one bulk write per chunk of points); a
+    """Merge ``{point id: {aware time: value}}`` into the points' day buckets (one read and one batched write per
+    chunk of buckets) and move each point's last value (one batched update per chunk of points); a
     sample at a time already stored replaces it. For every writer of samples (the CSV import, the BACnet poller);
     call it inside the writer's transaction. Values must be clean already (``_value`` checks a CSV cell)."""
     result = result if result is not None else TrendImportResult()
@@ -346,52 +348,74 @@ def trend_samples_store(samples: Samples, result: TrendImportResult | None = Non
 
 _DAY_S = 86_400
 _EPOCH_ORDINAL = dt.date(1970, 1, 1).toordinal()
+Bucket = tuple[np.ndarray, np.ndarray]  # seconds after midnight UTC (uint32), values (float64), in time order
 
 
-def _buckets(samples: Samples, result: TrendImportResult) -> dict[tuple[int, dt.date], dict[int, float]]:
-    """The samples by (point id, UTC day) as {seconds after midnight UTC: value}; counts them into ``result``."""
-    by_bucket: dict[tuple[int, dt.date], dict[int, float]] = defaultdict(dict)
-    days: dict[int, dt.date] = {}
+def _buckets(samples: Samples, result: TrendImportResult) -> dict[tuple[int, dt.date], Bucket]:
+    """The samples by (point id, UTC day), sorted by time; counts them into ``result``. Two times within one
+    second keep the later given (the buckets hold whole seconds)."""
+    by_bucket: dict[tuple[int, dt.date], Bucket] = {}
     for point_id, values in samples.items():
         if not values:
             continue
-        for when, value in values.items():
-            stamp = int(when.timestamp())  # whole seconds, as the buckets keep them
-            number, secs = divmod(stamp, _DAY_S)
-            day = days.get(number)
-            if day is None:
-                day = days[number] = dt.date.fromordinal(_EPOCH_ORDINAL + number)
-            by_bucket[(point_id, day)][secs] = value
-        result.values += len(values)
-        first, last = min(values), max(values)
+        times = list(values)
+        stamps = np.fromiter((w.timestamp() for w in times), dtype=np.float64, count=len(times))
+        numbers, secs = np.divmod(np.floor(stamps).astype(np.int64), _DAY_S)
+        vals = np.fromiter(values.values(), dtype=np.float64, count=len(times))
+        order = np.lexsort((secs, numbers))  # stable: of equal seconds the later given stays last
+        numbers, secs, vals = numbers[order], secs[order], vals[order]
+        keep = np.append((numbers[1:] != numbers[:-1]) | (secs[1:] != secs[:-1]), True)
+        numbers, secs, vals = numbers[keep], secs[keep].astype(np.uint32), vals[keep]
+        cuts = np.flatnonzero(numbers[1:] != numbers[:-1]) + 1
+        bounds = [0, *cuts.tolist(), int(numbers.size)]
+        for lo, hi in itertools.pairwise(bounds):
+            day = dt.date.fromordinal(_EPOCH_ORDINAL + int(numbers[lo]))
+            by_bucket[(point_id, day)] = (secs[lo:hi], vals[lo:hi])
+        result.values += len(times)
+        first, last = times[int(np.argmin(stamps))], times[int(np.argmax(stamps))]
         result.first = first if result.first is None or first < result.first else result.first
         result.last = last if result.last is None or last > result.last else result.last
     result.points = len(samples)
     return by_bucket
 
 
-def _buckets_merge(chunk: list[tuple[int, dt.date]], by_bucket: dict) -> None:
+def _buckets_merge(chunk: list[tuple[int, dt.date]], by_bucket: dict[tuple[int, dt.date], Bucket]) -> None:
+    """Write one chunk of buckets: new ones inserted, stored ones merged (a sample at a stored time replaces it).
+    Plain ``executemany`` statements: ``bulk_create``/``bulk_update`` cost more per row than the rows do."""
     point_ids = {p for p, _d in chunk}
     days = {d for _p, d in chunk}
     stored = {
         (b.point_id, b.day): b
         for b in TrendDay.objects.select_for_update().filter(point_id__in=point_ids, day__in=days)
     }
+    ops = connection.ops
     new, changed = [], []
     for key in chunk:
+        secs, vals = by_bucket[key]
         bucket = stored.get(key)
         if bucket is None:
-            bucket = TrendDay(point_id=key[0], day=key[1])
-            merged = by_bucket[key]
-            new.append(bucket)
-        else:
-            midnight = dt.datetime.combine(bucket.day, dt.time(), tzinfo=dt.UTC)
-            merged = {int((when - midnight).total_seconds()): v for when, v in bucket.samples()}
-            merged.update(by_bucket[key])
-            changed.append(bucket)
+            day = ops.adapt_datefield_value(key[1])
+            new.append((key[0], day, int(secs.size), secs.tobytes(), vals.tobytes()))
+            continue
+        midnight = dt.datetime.combine(bucket.day, dt.time(), tzinfo=dt.UTC)
+        merged = {int((when - midnight).total_seconds()): v for when, v in bucket.samples()}
+        merged.update(zip(secs.tolist(), vals.tolist(), strict=True))
         bucket.set_samples(merged)
-    TrendDay.objects.bulk_create(new)
-    TrendDay.objects.bulk_update(changed, ["seconds", "values", "count"])
+        changed.append((bucket.count, bytes(bucket.seconds), bytes(bucket.values), bucket.pk))
+    table = ops.quote_name(TrendDay._meta.db_table)
+    count, seconds, values = ops.quote_name("count"), ops.quote_name("seconds"), ops.quote_name("values")
+    with connection.cursor() as cursor:
+        if new:
+            cursor.executemany(
+                f"INSERT INTO {table} (point_id, day, {count}, {seconds}, {values}) "  # noqa: S608 (the model's table)
+                "VALUES (%s, %s, %s, %s, %s)",
+                new,
+            )
+        if changed:
+            cursor.executemany(
+                f"UPDATE {table} SET {count} = %s, {seconds} = %s, {values} = %s WHERE id = %s",  # noqa: S608
+                changed,
+            )
 
 
 def _points_freshen(samples: Samples) -> None:
