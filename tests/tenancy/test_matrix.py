@@ -96,6 +96,9 @@ FILL: dict[str, Fill] = {
     "automation_api:site-trends": {"pk": lambda c: c.site.pk},
     "automation_api:site-brick": {"pk": lambda c: c.site.pk},
     "automation_api:trend-job": {"public_id": lambda c: probe_trend_job(c).public_id},
+    "frontend:fault": {"pk": lambda c: probe_fault(c).pk},
+    "frontend:unit_trends": {"pk": lambda c: c.ahu.pk},
+    "frontend:site_points": {"pk": lambda c: c.site.pk},
 }
 # Component labels open the same views as unit labels: try both.
 ALSO = {
@@ -171,6 +174,27 @@ def probe_point(c: Corner):
         ahu=c.ahu, name=f"{c.ahu.tag}.SAT", defaults={"brick_class": "Supply_Air_Temperature_Sensor", "unit": "DEG_C"}
     )
     return point
+
+
+def probe_fault(c: Corner):
+    """An open fault of the corner's unit, as the judging writes one (made on first use; titled with the tag)."""
+    from django.utils import timezone
+
+    from automation.fault_models import Fault
+
+    now = timezone.now()
+    fault, _ = Fault.objects.get_or_create(
+        ahu=c.ahu,
+        code="FC6",
+        state=Fault.State.OPEN,
+        defaults={
+            "title": f"Probe fault of {c.ahu.tag}",
+            "section": "probe",
+            "first_seen_at": now,
+            "last_seen_at": now,
+        },
+    )
+    return fault
 
 
 def probe_trend_job(c: Corner):

@@ -294,6 +294,8 @@ WRITES: dict[tuple[str, str], Write] = {
     ),
     ("automation_api:point-detail", "delete"): Write(MANAGERS, lambda w, c: Call({"pk": probe_point(c).pk})),
     ("automation_api:site-trends", "post"): Write(MANAGERS, lambda w, c: _trend_csv(c)),
+    # The site's point-map page posts a trend file to the same service (frontend/views/automation_pages.py).
+    ("frontend:site_points", "post"): Write(MANAGERS, lambda w, c: _trend_csv(c)),
     ("automation_api:brick-import", "post"): Write(
         MANAGERS,
         lambda w, c: Call(body={"organisation": c.site.organisation.slug, "file": brick_upload(c)}, fmt="multipart"),
