@@ -1,0 +1,88 @@
+"""The supervisor follows a stuck damper from the Faults page to its evidence and its proposed work, in Chromium
+on a 360 px phone and a 1280 px desktop; a wrong trend file shows each refused cell and stores nothing.
+
+The data is made through the services (a CSV trend import and the night's judging, as in
+tests/frontend/test_automation_pages.py); the clock starts at a fixed moment (time_machine, tick=True so the live
+server and the browser talk in real time). Nothing runs off the side at 360 px. Screenshots go to
+test-output/screenshots/.
+"""
+
+import pytest
+from playwright.sync_api import expect
+
+from accounts.models import Role
+from automation.models import TrendDay
+from tests.browser.conftest import DESKTOP, PHONE
+from tests.factories.accounts import make_person
+from tests.frontend.scenario import PASSWORD
+from tests.frontend.test_automation_pages import AFTER, stuck_damper_world
+
+pytestmark = [pytest.mark.browser, pytest.mark.django_db(transaction=True)]
+
+BAD = "timestamp,AHU-07.MAT,AHU-07.OAT\n2026-01-13 08:00,abc,1\n2026-01-13 08:15,5,9999\n"
+
+
+def _no_sideways_scroll(page, width: int) -> None:
+    assert page.evaluate("document.scrollingElement.scrollWidth") <= width
+
+
+@pytest.fixture
+def faults_world(transactional_db, time_machine):
+    org, site, ahu, _points, fault = stuck_damper_world()
+    boss = make_person(organisation=org, role=Role.SUPERVISOR, username="fault-boss")
+    boss.set_password(PASSWORD)
+    boss.save()
+    time_machine.move_to(AFTER, tick=True)
+    return {"site": site, "ahu": ahu, "fault": fault, "boss": boss}
+
+
+@pytest.mark.parametrize(("size", "name"), [(PHONE, "360"), (DESKTOP, "1280")])
+def test_the_supervisor_follows_a_stuck_damper_to_its_evidence_and_work(
+    page, live_server, faults_world, sign_in, screenshots, size, name
+):
+    fault = faults_world["fault"]
+    page.set_viewport_size(size)
+    sign_in(page, faults_world["boss"])
+    page.goto(f"{live_server.url}/faults/")
+    expect(page.get_by_role("heading", name="Faults found in the trends")).to_be_visible()
+    row = page.locator(f'tr[data-fault="{fault.pk}"]')
+    expect(row).to_contain_text(fault.title)
+    expect(row).to_contain_text("Guideline 36")
+    expect(row.locator("[data-work-state]")).to_contain_text("awaiting approval")
+    _no_sideways_scroll(page, size["width"])
+    page.screenshot(path=str(screenshots / f"faults-list-{name}.png"), full_page=True)
+
+    row.locator(f'[data-evidence="{fault.pk}"]').click()
+    expect(page.locator(f'[data-fault-detail="{fault.pk}"]')).to_be_visible()
+    chart = page.locator('[data-chart="temperatures"] svg')
+    expect(chart).to_be_visible()
+    expect(page.locator(f'[data-chart="temperatures"] rect[data-band="{fault.title}"]').first).to_be_attached()
+    box = chart.bounding_box()
+    assert box is not None and box["width"] <= size["width"]
+    _no_sideways_scroll(page, size["width"])
+    page.screenshot(path=str(screenshots / f"fault-evidence-{name}.png"), full_page=True)
+
+    work = fault.corrective_work_order
+    page.locator(f'[data-fault-detail="{fault.pk}"] [data-work="{work.public_id}"]').click()
+    expect(page.get_by_role("heading", name="Proposed corrective work")).to_be_visible()
+    expect(page.get_by_text(work.title).first).to_be_visible()
+
+
+@pytest.mark.parametrize(("size", "name"), [(PHONE, "360"), (DESKTOP, "1280")])
+def test_a_wrong_trend_file_shows_its_refused_cells(page, live_server, faults_world, sign_in, screenshots, size, name):
+    site = faults_world["site"]
+    page.set_viewport_size(size)
+    sign_in(page, faults_world["boss"])
+    page.goto(f"{live_server.url}/registry/site/{site.pk}/points/")
+    before = TrendDay.objects.count()
+    page.get_by_label("Trend file (.csv)").set_input_files(
+        {"name": "trend.csv", "mimeType": "text/csv", "buffer": BAD.encode()}
+    )
+    page.get_by_role("button", name="Import").click()
+    errors = page.locator("[data-trend-errors]")
+    expect(errors).to_contain_text("Nothing was imported")
+    expect(errors).to_contain_text("abc")
+    expect(errors).to_contain_text("9999")
+    assert TrendDay.objects.count() == before
+    _no_sideways_scroll(page, size["width"])
+    page.screenshot(path=str(screenshots / f"trend-upload-errors-{name}.png"), full_page=True)
