@@ -13,7 +13,7 @@ from django.utils import timezone
 from inspections import display
 from inspections.models import Evaluation, Finding, Inspection
 from inspections.reasons import text_said_once
-from inspections.selectors import check_label, filter_series_for
+from inspections.selectors import check_label, filter_series_for, filter_sources_words
 from inventory.models import Component, ComponentKind, Site
 from inventory.selectors import sites_visible_to
 from reports import compliance
@@ -114,7 +114,8 @@ def site_for(*, user, pk: int) -> Site | None:
 def filter_trends(*, site: Site, limit: int = 6) -> list[dict]:
     """Per filter bank of the site with readings: its pressure drop at design airflow, one list of
     (day, Pa) per set of filters (``inspections.selectors.filter_series``, restarting at each change),
-    and the latest filter evaluation."""
+    where its points came from (technicians' readings, building-automation trend days) and the latest
+    filter evaluation."""
     banks = list(
         Component.objects.filter(ahu__building__site=site, kind=ComponentKind.FILTER_BANK)
         .select_related("ahu__building")
@@ -126,6 +127,7 @@ def filter_trends(*, site: Site, limit: int = 6) -> list[dict]:
             "component": bank,
             "lives": [[(p.at.date(), p.corrected_dp_pa) for p in life.points] for life in series[bank.pk].lives],
             "changes": [life.changed_at.date() for life in series[bank.pk].lives if life.changed_at is not None],
+            "sources": filter_sources_words(points=series[bank.pk].points),
             "evaluation": None,
         }
         for bank in banks

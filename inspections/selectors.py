@@ -478,6 +478,19 @@ class FilterSeriesPoint:
         return FILTER_SOURCE_LABELS.get(self.source, self.source)
 
 
+def filter_sources_words(*, points) -> str:
+    """Where a chart's points came from, for its caption: '3 technician readings and 28 building-automation
+    trend days' ('' without points)."""
+    readings = sum(1 for p in points if p.source == FILTER_READING)
+    trend = sum(1 for p in points if p.source == FILTER_TREND)
+    parts = []
+    if readings:
+        parts.append(f"{readings} technician reading{'' if readings == 1 else 's'}")
+    if trend:
+        parts.append(f"{trend} building-automation trend day{'' if trend == 1 else 's'}")
+    return " and ".join(parts)
+
+
 # Sources of filter-series points from apps above this one (the building-automation trends register theirs in
 # their AppConfig.ready, as for FREEZE_EVENT_SOURCES): ``source(components=[bank, ...], before=datetime | None)``
 # returns {bank id: [FilterSeriesPoint, ...]} in a fixed number of queries, points before ``before`` only.

@@ -85,6 +85,7 @@ def site_detail(request, pk: int):
                 ),
                 "evaluation": ev,
                 "lives": trend["lives"],
+                "sources": trend["sources"],
             }
         )
     # The site's own day throughout: its charts, its season and its temperatures.

@@ -38,7 +38,14 @@ from inspections import reasons
 from inspections.checklists import TASK_CODES
 from inspections.display import derived_rows
 from inspections.models import Evaluation, Finding, Inspection, Reading
-from inspections.selectors import check_label, filter_series_for, findings_seen_on, item_labels, reason_for
+from inspections.selectors import (
+    check_label,
+    filter_series_for,
+    filter_sources_words,
+    findings_seen_on,
+    item_labels,
+    reason_for,
+)
 from inspections.services.findings import problem_of
 from inventory.models import AHU, ComponentKind
 from inventory.selectors import ahus_visible_to
@@ -509,6 +516,8 @@ def _filter_charts(
             final_dp_pa=final,
         )
         lines = []
+        # Each point's source (a technician's reading, a building-automation trend day) named under the chart.
+        sources = filter_sources_words(points=[p for p in series.points if p.at >= lo])
         for life in series.lives:
             shown_pts = [(p.at.astimezone(tz).date(), p.corrected_dp_pa) for p in life.points if p.at >= lo]
             if shown_pts:
@@ -560,6 +569,7 @@ def _filter_charts(
                 "bank": bank,
                 "svg": svg_data_uri(svg),
                 "note": note,
+                "sources": sources,
                 "forecast": forecast,
                 "outlook": outlook,
                 "due_now": outlook.due_now,

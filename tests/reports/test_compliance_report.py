@@ -77,9 +77,10 @@ def estate(site, supervisor):
     return {"site": site, "a1": a1, "a2": a2, "bank": bank, "heater": heater, "tech": tech}
 
 
-# Every figure of any number of units in a fixed number of queries: 12, and one more for the freeze events the
-# building-automation trends registered (inspections.freeze.FREEZE_EVENT_SOURCES), read for all units at once.
-QUERIES = 13
+# Every figure of any number of units in a fixed number of queries: 12, one more for the freeze events the
+# building-automation trends registered (inspections.freeze.FREEZE_EVENT_SOURCES), read for all units at once, and
+# one for the trends' filter days in the filter series (inspections.selectors.FILTER_POINT_SOURCES), for all banks.
+QUERIES = 14
 
 
 def test_figures_from_database_match_hand_count(estate, django_assert_max_num_queries):
