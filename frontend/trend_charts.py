@@ -65,7 +65,7 @@ def trend_chart(
     pad = (v1 - v0) * 0.08 or 1.0
     v0, v1 = v0 - pad, v1 + pad
     fs = 18
-    legend_rows = (len(lines) + 1) // 2
+    legend_rows = len(lines)
     left, right = 64, width - 12
     top = 36 + legend_rows * 24 + (12 if bands else 0)
     bottom = height - 40
@@ -88,14 +88,14 @@ def trend_chart(
     ]
     for i, line in enumerate(lines):
         colour, dash = STROKES[i % len(STROKES)]
-        lx = 4 + (i % 2) * (width // 2)
-        ly = 48 + (i // 2) * 24
+        lx = 4
+        ly = 48 + i * 24
         dash_attr = f' stroke-dasharray="{dash}"' if dash else ""
         parts.append(
             f'<line x1="{lx}" y1="{ly - 6}" x2="{lx + 30}" y2="{ly - 6}" stroke="{colour}" '
             f'stroke-width="3"{dash_attr}/>'
         )
-        text = line.label if len(line.label) <= 30 else line.label[:29] + "…"
+        text = line.label if len(line.label) <= 52 else line.label[:51] + "…"
         parts.append(f'<text x="{lx + 36}" y="{ly}" fill="currentColor" font-size="{fs}">{escape(text)}</text>')
     for band in bands:
         bx0, bx1 = x(band.start), x(band.end)
@@ -110,12 +110,16 @@ def trend_chart(
         if band.title in named:
             continue
         named.add(band.title)
-        bx = x(band.start)
-        anchor = "end" if bx > (left + right) / 2 else "start"
-        parts.append(
-            f'<text x="{bx:.1f}" y="{top - 4}" text-anchor="{anchor}" fill="#b71c1c" font-size="{fs}">'
-            f"{escape(band.title)}</text>"
+        # Fitted to the chart's width (squeezed, never cut); about 0.55 em a glyph (common practice).
+        fit = (
+            f' textLength="{width - 8}" lengthAdjust="spacingAndGlyphs"'
+            if (len(band.title) + 9) * fs * 0.55 > width - 8
+            else ""
         )
+        parts.append(
+            f'<text x="4" y="{top - 4}" fill="#b71c1c" font-size="{fs}"{fit}>Shaded: {escape(band.title)}</text>'
+        )
+        break
     parts += [
         f'<line x1="{left}" y1="{bottom}" x2="{right}" y2="{bottom}" stroke="currentColor" stroke-width="1"/>',
         f'<line x1="{left}" y1="{top}" x2="{left}" y2="{bottom}" stroke="currentColor" stroke-width="1"/>',
