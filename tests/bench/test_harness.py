@@ -44,11 +44,13 @@ def test_a_tiny_run_writes_both_results_files(tmp_path):
     doc = json.loads((tmp_path / "results.json").read_text())
     assert doc["database"] == "sqlite"
     (size,) = doc["sizes"]
-    for name in ("work_order_generation", "load", "sync", "mixed_day", "reports", "pwa_shell", "registry_import"):
+    scenarios = ("work_order_generation", "load", "sync", "mixed_day", "reports", "pwa_shell", "registry_import")
+    for name in (*scenarios, "trend_ingest"):
         assert name in size and "error" not in size[name], (name, size.get(name))
     assert size["sync"]["stored_replay"] == 0
     assert size["sync"]["stored_first"] == 10
     assert (size["registry_import"]["rows"], size["registry_import"]["created"]) == (250, 250)
+    assert (size["trend_ingest"]["values"], size["trend_ingest"]["judged_units"]) == (3 * 20 * 96, 3)
     for name in ("today", "today_after_change", "board", "board_after_change", "baseline"):
         assert size["load"][name]["requests"] > 0 and not size["load"][name]["errors"], name
     day = size["mixed_day"]
@@ -62,6 +64,7 @@ def test_a_tiny_run_writes_both_results_files(tmp_path):
     assert "## Work-order generation" in md and "## PWA app shell" in md and "## Registry CSV import" in md
     assert "| today, kept |" in md and "| board, first pass after a change |" in md
     assert "## Mixed day" in md and "| under writers | sync, one form a request |" in md
+    assert "## Building-automation trends: one day ingested and judged" in md
 
 
 def _doc(size: dict) -> dict:
