@@ -9,6 +9,7 @@ work order's completion.
 
 from __future__ import annotations
 
+import copy
 import datetime as dt
 import logging
 import uuid
@@ -22,7 +23,7 @@ from django.db import DatabaseError, DataError, IntegrityError, transaction
 from django.utils import timezone
 
 from accounts.changes import changes_deferred, organisation_changed
-from accounts.services import audit_record
+from accounts.services import audit_record, audits_deferred
 from engineering.errors import EngineeringInputError
 from engineering.filters import FilterPoint
 from scheduling.models import WorkOrder
@@ -75,6 +76,15 @@ class Batch:
     templates: dict[str, Any]
     handled: set[uuid.UUID] = field(default_factory=set)
     written: list = field(default_factory=list)  # files of the forms stored so far (removed if the batch fails)
+    # (the request's work order, the form's moved copy of it): copied back once the form's savepoint is released
+    moved: list = field(default_factory=list)
+
+    def form_kept(self) -> None:
+        """The form's savepoint was released: the work orders it moved are the request's from now on."""
+        for original, moved in self.moved:
+            for f in WorkOrder._meta.concrete_fields:
+                setattr(original, f.attname, getattr(moved, f.attname))
+        self.moved.clear()
 
 
 def _uuid_or_none(raw: object) -> uuid.UUID | None:
@@ -94,6 +104,10 @@ def batch_read(*, user, forms: list) -> Batch:
     client_ids = {u for f in dicts if (u := _uuid_or_none(f.get("client_uuid"))) is not None}
     wo_ids = {u for f in dicts if (u := _uuid_or_none(f.get("work_order"))) is not None}
     firsts = {i.client_uuid: i for i in Inspection.objects.filter(client_uuid__in=client_ids)} if client_ids else {}
+    if wo_ids:
+        # Every work order the forms name, locked once for the request, in one order (two requests cannot wait
+        # on each other), before they are read: each form then judges the row as it stands.
+        list(WorkOrder.objects.select_for_update().filter(public_id__in=wo_ids).order_by("pk").values_list("pk"))
     return Batch(
         work_orders=selectors.work_orders_for_sync(user=user, public_ids=wo_ids),
         firsts=firsts,
@@ -599,7 +613,7 @@ def refused_result(client_uuid, errors: Errors) -> dict:
 
 
 def _store(parsed: Parsed, user, results, batch: Batch | None = None) -> dict:
-    from scheduling.services import meter_reading_record, work_order_complete
+    from scheduling.services import meter_reading_record, work_order_complete, work_order_complete_locked
 
     written: list = []
     sig = parsed.signature
@@ -651,7 +665,13 @@ def _store(parsed: Parsed, user, results, batch: Batch | None = None) -> dict:
     try:
         # In a batch the form's own savepoint (``inspection_sync``) is the one it needs.
         with transaction.atomic(savepoint=batch is None):
-            wo = WorkOrder.objects.select_for_update().get(pk=parsed.work_order.pk)
+            if batch is not None:
+                # Locked and read for the request (batch_read, and moved by its earlier forms); the form moves a
+                # copy, which becomes the request's only once the form is kept (Batch.form_kept).
+                wo = copy.copy(parsed.work_order)
+                batch.moved.append((parsed.work_order, wo))
+            else:
+                wo = WorkOrder.objects.select_for_update().get(pk=parsed.work_order.pk)
             flags = _flags(parsed, user, wo, results)
             inspection.flags = flags
             inspection.flag_reason = "; ".join(f["reason"] for f in flags)[:5000]
@@ -670,13 +690,14 @@ def _store(parsed: Parsed, user, results, batch: Batch | None = None) -> dict:
                 None,
             )
             if hours is not None:
-                try:  # its own savepoint (the service is atomic): a refused reading leaves the form whole
+                try:  # a refusal is raised before the service writes: the form stays whole without a savepoint
                     meter_reading_record(
                         ahu=parsed.work_order.ahu,  # already read with its site (wo is the locked row)
                         hours=hours,
                         taken_at=parsed.finished_at,
                         source="checklist",
                         by=user,
+                        in_caller_transaction=batch is not None,
                     )
                 except ValidationError as exc:
                     flags.append(
@@ -684,8 +705,11 @@ def _store(parsed: Parsed, user, results, batch: Batch | None = None) -> dict:
                     )
             blocking = {"work_order_cancelled", "work_order_closed", "work_order_reassigned", "incomplete"}
             if not any(f["code"] in blocking for f in flags) and wo.is_open:
-                try:  # its own savepoint (the service is atomic)
-                    work_order_complete(work_order=wo, by=user, completed_at=parsed.finished_at)
+                try:  # in a batch: on the row locked above, refused before any write (no savepoint, no relock)
+                    if batch is not None:
+                        work_order_complete_locked(work_order=wo, by=user, completed_at=parsed.finished_at)
+                    else:
+                        work_order_complete(work_order=wo, by=user, completed_at=parsed.finished_at)
                     inspection.work_order_completed = True
                 except ValidationError as exc:
                     flags.append(
@@ -800,14 +824,17 @@ def inspection_sync(*, user, forms: list, sent_at: object = None) -> list[dict]:
     out = []
     batch = None
     try:
-        with transaction.atomic(), changes_deferred():
+        with transaction.atomic(), changes_deferred(), audits_deferred():
             batch = batch_read(user=user, forms=forms)
             for position, form in enumerate(forms, start=1):
                 try:
-                    with transaction.atomic():
+                    # The form's audit events join the request's one insert only once its savepoint is released.
+                    batch.moved.clear()
+                    with audits_deferred(), transaction.atomic():
                         out.append(
                             inspection_submit(user=user, form=form, sent_at=sent_at, position=position, batch=batch)
                         )
+                    batch.form_kept()
                 except IntegrityError:
                     # Its id was stored meanwhile (sent twice in this request, or by another request at once):
                     # the form's savepoint is rolled back and it answers as a duplicate of the first.

@@ -171,7 +171,6 @@ def meter_reading_check(
             )
 
 
-@transaction.atomic
 def meter_reading_record(
     *,
     ahu: AHU,
@@ -181,6 +180,7 @@ def meter_reading_record(
     component: Component | None = None,
     is_reset: bool = False,
     by=None,
+    in_caller_transaction: bool = False,
 ) -> MeterReading:
     """Store one run-hour reading.
 
@@ -188,7 +188,37 @@ def meter_reading_record(
     below the reading before it or above the next one, or a gain larger than
     the clock time between readings (plus 2 %, at least 1 h), unless the
     reading is marked as a meter replacement or reset.
+
+    ``in_caller_transaction``: no savepoint of its own; the caller's open transaction holds the lock and the
+    write. Safe because every refusal is raised before anything is written.
     """
+    kwargs = {
+        "ahu": ahu,
+        "hours": hours,
+        "taken_at": taken_at,
+        "source": source,
+        "component": component,
+        "is_reset": is_reset,
+        "by": by,
+    }
+    if in_caller_transaction:
+        if not transaction.get_connection().in_atomic_block:
+            raise RuntimeError("meter_reading_record(in_caller_transaction=True) needs the caller's transaction")
+        return _meter_reading_record(**kwargs)
+    with transaction.atomic():
+        return _meter_reading_record(**kwargs)
+
+
+def _meter_reading_record(
+    *,
+    ahu: AHU,
+    hours: float,
+    taken_at: dt.datetime,
+    source: str,
+    component: Component | None,
+    is_reset: bool,
+    by,
+) -> MeterReading:
     try:
         hours = float(hours)
     except (TypeError, ValueError):

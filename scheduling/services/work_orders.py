@@ -6,6 +6,7 @@ audit trail in the same transaction; e-mails go out after commit.
 
 from __future__ import annotations
 
+import copy
 import datetime as dt
 import uuid
 import zoneinfo
@@ -276,11 +277,24 @@ def work_order_complete(
 ) -> WorkOrder:
     """Complete the visit; an assigned visit is started first (a phone may send the finished form at once)."""
     wo = _locked(work_order, expected_version)  # both moves on this one locked row (no second read)
-    if wo.state == State.ASSIGNED:
-        _transition(wo, to_state=State.IN_PROGRESS, by=by, at=completed_at)
-    _transition(wo, to_state=State.COMPLETED, by=by, at=completed_at)
+    work_order_complete_locked(work_order=wo, by=by, completed_at=completed_at)
     _copy_back(work_order, wo)
     return wo
+
+
+def work_order_complete_locked(*, work_order: WorkOrder, by, completed_at: dt.datetime | None = None) -> None:
+    """``work_order_complete`` on a row the caller has already locked (``select_for_update``) in its open
+    transaction, without a savepoint of its own: every move is judged before the first is written, so a
+    refusal (``ValidationError``) leaves the row and the caller's transaction as they were."""
+    if not transaction.get_connection().in_atomic_block:
+        raise RuntimeError("work_order_complete_locked() needs the caller's transaction holding the row lock")
+    moves = [State.IN_PROGRESS, State.COMPLETED] if work_order.state == State.ASSIGNED else [State.COMPLETED]
+    probe = copy.copy(work_order)
+    for to_state in moves:
+        _move(probe, to_state)
+        probe.state = to_state
+    for to_state in moves:
+        _transition(work_order, to_state=to_state, by=by, at=completed_at)
 
 
 def work_order_verify(*, work_order: WorkOrder, by, expected_version: int | None = None) -> WorkOrder:

@@ -148,3 +148,36 @@ def test_a_refused_photo_upload_write_is_a_503(api_client, monkeypatch):
     assert not Photo.objects.exists()
     leftover = _files_on_disk() - before
     assert not leftover, f"files of a refused upload were left behind: {leftover}"
+
+
+@pytest.mark.django_db
+def test_a_form_cut_off_after_moving_its_work_order_leaves_no_move_and_no_audit(monkeypatch):
+    """A crash in form 3 after it completed its work order (moves and audit events written, its answer not yet):
+    that work order is neither moved nor audited, and another form for it later in the same request finds it
+    as it stood (assigned) and completes it."""
+    from accounts.models import AuditEvent
+    from scheduling.models import WorkOrder
+
+    tech, forms = _batch()
+    third = WorkOrder.objects.get(public_id=forms[2]["work_order"])
+    forms.append(filter_form(third))  # the same visit sent again under a new id, after the crash
+    real = sync_module._result_json
+    calls = {"n": 0}
+
+    def flaky(*args, **kwargs):
+        calls["n"] += 1
+        if calls["n"] == 3:
+            raise RuntimeError("worker killed mid-form")
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(sync_module, "_result_json", flaky)
+    results = inspection_sync(user=tech, forms=forms)
+    assert [r["status"] for r in results] == ["stored", "stored", "error", "stored", "stored", "stored"]
+    third.refresh_from_db()
+    assert third.state == WorkOrder.State.COMPLETED  # by the sixth form; the third left no trace:
+    moves = AuditEvent.objects.filter(object_type="scheduling.workorder", object_id=str(third.pk), action="transition")
+    assert [e.changes["to"] for e in moves.order_by("pk")] == ["in_progress", "completed"]
+    submits = AuditEvent.objects.filter(action="inspection_submit")
+    assert sorted(e.changes["client_uuid"] for e in submits) == sorted(
+        f["client_uuid"] for i, f in enumerate(forms) if i != 2
+    )
