@@ -230,6 +230,7 @@ SPECTACULAR_SETTINGS = {
         "ReportKindEnum": "reports.models.Report.Kind",
         "WorkOrderStateEnum": "scheduling.models.WorkOrder.State",
         "WorkOrderKindEnum": "scheduling.models.WorkOrder.Kind",
+        "TrendImportJobStatusEnum": "automation.models.TrendImportJob.Status",
     },
 }
 

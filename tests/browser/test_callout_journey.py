@@ -12,6 +12,8 @@ on the board in this week's Assigned column with its time, and on Tess's today p
 Travel: 22.24 km great-circle x 1.3 road detour at 40 km/h (common practice for urban service rounds).
 """
 
+import re
+
 import pytest
 import time_machine
 from playwright.sync_api import expect
@@ -108,6 +110,9 @@ def test_a_phone_call_becomes_an_assigned_call_out(browser, live_server, board, 
         page.screenshot(path=screenshots / f"callout-board-{name}.png", full_page=True)
 
         page.get_by_role("button", name="Sign out").click()
+        # Signing out is a navigation of its own: the next sign-in starts once it has landed on the sign-in page.
+        expect(page).to_have_url(re.compile(r"/login/"))
+        page.wait_for_load_state("load")
         sign_in(page, live_server.url, board.tess)
         page.goto(f"{live_server.url}/today/")
         item = page.locator(f'li[data-work-order="{wo.public_id}"]')

@@ -265,6 +265,14 @@ def valid_bodies(world: World, client, schema_doc: dict) -> dict[tuple[str, str]
         "estimated_minutes": 30,
         "enabled": True,
     }
+    # A new point name each call, as for the registry: a wrongly accepted hostile value makes a point.
+    bodies[("post", "/api/automation/points/")] = lambda: {
+        "ahu": a.ahu.pk,
+        "name": f"fz{next(made)}",
+        "brick_class": "Supply_Air_Temperature_Sensor",
+        "unit": "",
+    }
+    bodies[("patch", "/api/automation/points/{id}/")] = lambda: {"name": f"fz{next(made)}"}
     wo = "/api/scheduling/work-orders/{public_id}/"
     day = (a.open_work_order.due_date).isoformat()
     bodies[("post", wo + "approve/")] = lambda: {"version": version()}
