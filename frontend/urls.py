@@ -71,8 +71,8 @@ urlpatterns = [
     path("corrective/", supervisor.corrective, name="corrective"),
     path("flagged/", supervisor.flagged, name="flagged"),
     # work beyond the plan: call-outs, ad-hoc work, work for a finding, a site's frost check
-    path("work/new/", work_pages.work_new, name="work_new"),
-    path("work/frost/<int:site_pk>/", work_pages.work_frost, name="work_frost"),
+    path("new-work/", work_pages.work_new, name="work_new"),
+    path("new-work/frost/<int:site_pk>/", work_pages.work_frost, name="work_frost"),
     # building-automation trends and faults (frontend/views/automation_pages.py)
     path("faults/", automation_pages.faults, name="faults"),
     path("faults/<int:pk>/", automation_pages.fault_detail, name="fault"),

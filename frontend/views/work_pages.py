@@ -257,7 +257,7 @@ def work_new(request):
             errors["unit"] = ["Unit: none chosen; allowed: one of the units listed, by site and building"]
         return render(
             request,
-            "frontend/work/new.html",
+            "frontend/new_work/new.html",
             _context(request, ahu=ahu, values=values, errors=errors, finding=finding, org=org),
         )
     post = request.POST
@@ -267,13 +267,13 @@ def work_new(request):
     if ahu is None:
         errors["unit"] = ["Unit: none chosen; allowed: one of the units listed, by site and building"]
         return render(
-            request, "frontend/work/new.html", _context(request, ahu=None, values=post, errors=errors, org=org)
+            request, "frontend/new_work/new.html", _context(request, ahu=None, values=post, errors=errors, org=org)
         )
     if post.get("back"):
         # "Back to change it" from the confirm page: the form again with everything as it was typed.
         return render(
             request,
-            "frontend/work/new.html",
+            "frontend/new_work/new.html",
             _context(request, ahu=ahu, values=post, errors={}, finding=finding, org=org),
         )
     site = ahu.building.site
@@ -313,7 +313,7 @@ def work_new(request):
             errors.setdefault(key, []).extend(t for t in texts if t not in errors.get(key, []))
         return render(
             request,
-            "frontend/work/new.html",
+            "frontend/new_work/new.html",
             _context(request, ahu=ahu, values=post, errors=errors, finding=finding, org=org),
         )
     check = None
@@ -336,7 +336,7 @@ def work_new(request):
         skill_names = dict(TaskDefinition.Skill.choices)
         return render(
             request,
-            "frontend/work/confirm.html",
+            "frontend/new_work/confirm.html",
             {
                 "wo": wo,
                 "check": check,
@@ -351,7 +351,7 @@ def work_new(request):
         errors = exc.message_dict if hasattr(exc, "error_dict") else {"__all__": exc.messages}
         return render(
             request,
-            "frontend/work/new.html",
+            "frontend/new_work/new.html",
             _context(request, ahu=ahu, values=post, errors=errors, finding=finding, org=org),
         )
     words = f"{wo.get_kind_display()} made: {ahu.display_name} at {site.name} — {wo.title}, {_say_due(wo)}"

@@ -55,7 +55,7 @@ def test_a_phone_call_becomes_an_assigned_call_out(browser, live_server, board, 
     try:
         sign_in(page, live_server.url, board.supervisor)
         page.get_by_role("link", name="New work").click()
-        page.wait_for_url("**/work/new/")
+        page.wait_for_url("**/new-work/")
         unit = page.get_by_label("Unit (by site; each with its building)")
         unit.select_option(label="AHU-01 (Mill Block) · Roof plant room")
         page.get_by_role("button", name="Continue").click()

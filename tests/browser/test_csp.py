@@ -120,7 +120,7 @@ def test_main_pages_of_every_role_break_no_rule(browser, live_server, demo, scre
         assert page.locator("caption.table-note").first.evaluate("c => getComputedStyle(c).textAlign") == "left"
         watch.visit(f"{base}/registry/")
         watch.visit(base + _first_href(page, "a[href^='/registry/unit/']"))
-        for path in ("/findings/", "/corrective/", "/flagged/", "/records/", "/work/new/"):
+        for path in ("/findings/", "/corrective/", "/flagged/", "/records/", "/new-work/"):
             watch.visit(base + path)
         watch.visit(f"{base}/api/docs/", app=False)
         page.locator(".swagger-ui .info").wait_for(timeout=15000)

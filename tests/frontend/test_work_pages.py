@@ -31,7 +31,7 @@ from tests.flows import board_world
 from tests.reports import builders
 
 pytestmark = pytest.mark.django_db
-NEW = "/work/new/"
+NEW = "/new-work/"
 AMS = zoneinfo.ZoneInfo("Europe/Amsterdam")
 # Tess: 360 min of tasks today at both sites (22.24 km apart, x 1.3 road detour at 40 km/h: common practice)
 TESS_WITH_CALLOUT_H = (360 + 120) / 60 + 22.24 * 1.3 / 40  # 8.72 h against 7.5 h
@@ -241,7 +241,7 @@ def test_a_finding_offers_a_prefilled_work_order_that_needs_no_approval(desk, wo
         insp, "filter_check", "dp", component=part, verdict="fail", reason="pressure drop 300 Pa, final 250 Pa"
     )
     finding = builders.finding(insp, ev, severity="high", title="Final filters loaded", opened="2025-03-04")
-    assert f'href="/work/new/?finding={finding.pk}"' in desk.get("/findings/").content.decode()
+    assert f'href="/new-work/?finding={finding.pk}"' in desk.get("/findings/").content.decode()
     html = desk.get(NEW, {"finding": finding.pk}).content.decode()
     assert "Work order for a finding" in html and 'value="Final filters loaded"' in html
     assert "on Final filters" in html and '<option value="high" selected>' in html
