@@ -3,7 +3,7 @@
 DRF's own JSONParser refuses NaN/Infinity tokens but lets Python's reader recurse into any
 nesting, so ``[[[[...]]]]`` a few thousand deep is a RecursionError (a 500). This one reads
 the body without trusting its depth and refuses nesting far beyond what any request of ours
-sends (the inspections sync has its own, stricter reader: inspections.views.CheckedJSONParser).
+sends (the inspections sync has its own, stricter reader: inspections.api.CheckedJSONParser).
 """
 
 import json

@@ -16,8 +16,8 @@ import pytest
 from playwright.sync_api import expect
 from rest_framework.response import Response
 
+from inspections.api import SyncView
 from inspections.models import Inspection
-from inspections.views import SyncView
 from tests.frontend.scenario import make_work
 
 from .conftest import PHONE
