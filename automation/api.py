@@ -14,6 +14,7 @@ from rest_framework.parsers import FormParser, MultiPartParser
 from rest_framework.response import Response
 from rest_framework.views import APIView
 
+from accounts.api_errors import RowErrorsOutput
 from inventory.api import R400, R401, R403, R404, _managed_organisation
 from inventory.csv_io import ImportFailed, decode_upload
 from inventory.selectors import ahus_visible_to, sites_managed_by
@@ -28,7 +29,6 @@ from .serializers import (
     PointChangeInput,
     PointInput,
     PointOutput,
-    RowErrorsOutput,
     TrendImportJobOutput,
     TrendResultOutput,
     TrendUploadInput,

@@ -2,6 +2,7 @@
 
 from rest_framework import serializers
 
+from accounts.api_errors import RowErrorOutput
 from inventory.serializers import NamesValueMixin
 
 from .models import BacnetObjectType, Point, TrendImportJob
@@ -88,18 +89,6 @@ class TrendResultOutput(serializers.Serializer):
     points = serializers.IntegerField()
     first = serializers.DateTimeField(allow_null=True)
     last = serializers.DateTimeField(allow_null=True)
-
-
-class RowErrorOutput(serializers.Serializer):
-    line = serializers.IntegerField()
-    column = serializers.CharField()
-    value = serializers.CharField()
-    reason = serializers.CharField()
-
-
-class RowErrorsOutput(serializers.Serializer):
-    detail = serializers.CharField()
-    errors = RowErrorOutput(many=True)
 
 
 class TrendImportJobOutput(serializers.Serializer):

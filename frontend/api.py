@@ -6,6 +6,8 @@ from rest_framework import serializers
 from rest_framework.response import Response
 from rest_framework.views import APIView
 
+from accounts.api_errors import ErrorOutput
+
 from .calculators import CALCULATORS, CalcError, calculate, places_for
 
 
@@ -29,11 +31,6 @@ class CalcOutput(serializers.Serializer):
     results = CalcRow(many=True)
 
 
-class CalcErrorOutput(serializers.Serializer):
-    detail = serializers.CharField()
-    errors = serializers.DictField(child=serializers.ListField(child=serializers.CharField()))
-
-
 class CalcView(APIView):
     @extend_schema(
         operation_id="calc_run",
@@ -42,7 +39,7 @@ class CalcView(APIView):
         request=CalcInput,
         responses={
             200: CalcOutput,
-            400: OpenApiResponse(CalcErrorOutput, description="a value is missing, not a number or out of range"),
+            400: OpenApiResponse(ErrorOutput, description="a value is missing, not a number or out of range"),
             404: OpenApiResponse(description="no calculator of that name"),
         },
     )

@@ -10,15 +10,16 @@ from rest_framework.parsers import BaseParser, FormParser, MultiPartParser
 from rest_framework.response import Response
 from rest_framework.views import APIView
 
+from accounts.api_errors import ErrorOutput
 from accounts.inputs import INT64_MAX, FieldErrors, check_integer
 
 from . import check, freeze, selectors, services
 from . import serializers as s
 from .models import Inspection
 
-NOT_FOUND = OpenApiResponse(s.ErrorSerializer, description="Not found or not visible to you.")
-BAD = OpenApiResponse(s.ErrorSerializer, description="Bad input; errors name the field.")
-READ_ONLY = OpenApiResponse(s.ErrorSerializer, description="You may read this work but not add to it.")
+NOT_FOUND = OpenApiResponse(ErrorOutput, description="Not found or not visible to you.")
+BAD = OpenApiResponse(ErrorOutput, description="Bad input; errors name the field.")
+READ_ONLY = OpenApiResponse(ErrorOutput, description="You may read this work but not add to it.")
 
 
 class ChecklistView(APIView):
@@ -176,7 +177,7 @@ class AmendmentCreateView(APIView):
 
     @extend_schema(
         request=s.AmendmentInputSerializer,
-        responses={201: s.AmendmentOutputSerializer, 400: BAD, 403: s.ErrorSerializer, 404: NOT_FOUND},
+        responses={201: s.AmendmentOutputSerializer, 400: BAD, 403: ErrorOutput, 404: NOT_FOUND},
         tags=["inspections"],
     )
     def post(self, request, pk):
@@ -210,7 +211,7 @@ class FlaggedListView(APIView):
 class FlagResolveView(APIView):
     @extend_schema(
         request=s.NoteInputSerializer,
-        responses={200: s.InspectionOutputSerializer, 400: BAD, 403: s.ErrorSerializer, 404: NOT_FOUND},
+        responses={200: s.InspectionOutputSerializer, 400: BAD, 403: ErrorOutput, 404: NOT_FOUND},
         tags=["inspections"],
     )
     def post(self, request, pk):
@@ -224,7 +225,7 @@ class FlagResolveView(APIView):
 class VerifyView(APIView):
     @extend_schema(
         request=None,
-        responses={200: s.InspectionOutputSerializer, 400: BAD, 403: s.ErrorSerializer, 404: NOT_FOUND},
+        responses={200: s.InspectionOutputSerializer, 400: BAD, 403: ErrorOutput, 404: NOT_FOUND},
         tags=["inspections"],
     )
     def post(self, request, pk):

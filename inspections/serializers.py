@@ -5,11 +5,6 @@ from rest_framework import serializers
 from .selectors import reason_for
 
 
-class ErrorSerializer(serializers.Serializer):
-    detail = serializers.CharField()
-    errors = serializers.DictField(child=serializers.ListField(child=serializers.CharField()), required=False)
-
-
 class RawJSONField(serializers.JSONField):
     """Any parsed JSON value, as it came: each form is judged on its own by the service (inspections/check.py)."""
 

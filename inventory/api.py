@@ -18,6 +18,7 @@ from rest_framework.parsers import FormParser, MultiPartParser
 from rest_framework.response import Response
 from rest_framework.views import APIView
 
+from accounts.api_errors import ErrorOutput, RowErrorsOutput
 from accounts.models import Organisation
 
 from . import csv_io, import_jobs, selectors, services
@@ -32,7 +33,6 @@ from .serializers import (
     ComponentInput,
     ComponentKindOutput,
     ComponentOutput,
-    ImportFailedOutput,
     ImportInput,
     ImportJobOutput,
     ImportResultOutput,
@@ -41,18 +41,10 @@ from .serializers import (
 )
 from .specs import SPECS
 
-
-class RegistryErrorOutput(serializers.Serializer):
-    detail = serializers.CharField()
-    errors = serializers.DictField(required=False)
-
-
-R400 = OpenApiResponse(
-    RegistryErrorOutput, description="Bad input: `errors` names each field, the value and what is allowed."
-)
-R403 = OpenApiResponse(RegistryErrorOutput, description="Signed in, but not a supervisor or admin of the organisation.")
-R404 = OpenApiResponse(RegistryErrorOutput, description="No such record, or not one the person may see.")
-R401 = OpenApiResponse(RegistryErrorOutput, description="Not signed in, or the token is unknown or revoked.")
+R400 = OpenApiResponse(ErrorOutput, description="Bad input: `errors` names each field, the value and what is allowed.")
+R403 = OpenApiResponse(ErrorOutput, description="Signed in, but not a supervisor or admin of the organisation.")
+R404 = OpenApiResponse(ErrorOutput, description="No such record, or not one the person may see.")
+R401 = OpenApiResponse(ErrorOutput, description="Not signed in, or the token is unknown or revoked.")
 
 
 def _require_manages(*, user, site_id: int) -> None:
@@ -366,7 +358,7 @@ class ImportView(APIView):
         responses={
             200: ImportResultOutput,
             202: OpenApiResponse(ImportJobOutput, description="Queued as a background job."),
-            400: OpenApiResponse(ImportFailedOutput, description="Every bad row: line, column, value, reason."),
+            400: OpenApiResponse(RowErrorsOutput, description="Every bad row: line, column, value, reason."),
             403: R403,
             404: R404,
         },

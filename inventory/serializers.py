@@ -5,6 +5,7 @@ import math
 from django.urls import reverse
 from rest_framework import serializers
 
+from accounts.api_errors import RowErrorOutput
 from accounts.inputs import INT64_MAX, FieldErrors, check_integer, check_text
 from accounts.models import Organisation
 
@@ -258,23 +259,11 @@ class ComponentKindOutput(serializers.Serializer):
     fields = SpecFieldOutput(many=True)
 
 
-class ImportErrorOutput(serializers.Serializer):
-    line = serializers.IntegerField()
-    column = serializers.CharField()
-    value = serializers.CharField(allow_blank=True)
-    reason = serializers.CharField()
-
-
 class ImportResultOutput(serializers.Serializer):
     kind = serializers.CharField()
     created = serializers.IntegerField()
     updated = serializers.IntegerField()
     dry_run = serializers.BooleanField()
-
-
-class ImportFailedOutput(serializers.Serializer):
-    detail = serializers.CharField()
-    errors = ImportErrorOutput(many=True)
 
 
 class ImportInput(serializers.Serializer):
@@ -302,7 +291,7 @@ class ImportJobOutput(serializers.Serializer):
     created = serializers.IntegerField()
     updated = serializers.IntegerField()
     detail = serializers.CharField()
-    errors = ImportErrorOutput(many=True, help_text="Every bad row; nothing was imported when there is one.")
+    errors = RowErrorOutput(many=True, help_text="Every bad row; nothing was imported when there is one.")
     created_at = serializers.DateTimeField()
     finished_at = serializers.DateTimeField(allow_null=True)
     url = serializers.SerializerMethodField(help_text="Where to poll the job.")

@@ -8,14 +8,10 @@ from rest_framework import serializers, status
 from rest_framework.response import Response
 from rest_framework.views import APIView
 
+from accounts.api_errors import ErrorOutput
+
 from . import selectors, services
 from .models import Report
-
-
-class ErrorOutput(serializers.Serializer):
-    detail = serializers.CharField()
-    errors = serializers.DictField(required=False)
-
 
 R400 = OpenApiResponse(ErrorOutput, description="Bad input: `errors` names each field, the value and what is allowed.")
 R401 = OpenApiResponse(ErrorOutput, description="Not signed in, or the token is unknown or revoked.")

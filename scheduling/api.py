@@ -20,6 +20,7 @@ from rest_framework.response import Response
 from rest_framework.views import APIView
 
 from accounts.answers import json_answer, kept
+from accounts.api_errors import ErrorOutput
 from accounts.inputs import FieldErrors, check_number, check_reading_time, date_problem
 from accounts.models import Membership, Role
 from accounts.selectors import MANAGING_ROLES, does_field_work, technician_of
@@ -57,7 +58,7 @@ from .services import (
 )
 from .services.work_orders import no_technician
 
-ERRORS = {400: s.SchedulingErrorOut, 403: s.SchedulingErrorOut, 404: s.SchedulingErrorOut}
+ERRORS = {400: ErrorOutput, 403: ErrorOutput, 404: ErrorOutput}
 SELF_SERVICE_STATES = {WorkOrder.State.IN_PROGRESS, WorkOrder.State.COMPLETED}
 
 

@@ -3,6 +3,7 @@
 from rest_framework import serializers
 
 from accounts import api_fields
+from accounts.api_errors import ErrorOutput
 
 from .models import MeterReading, OutdoorTemperature, TaskDefinition, WorkOrder, WorkOrderTask
 
@@ -185,16 +186,12 @@ class DayLoadOut(serializers.Serializer):
     over = serializers.BooleanField(help_text="hours > capacity_hours")
 
 
-class OverCapacityOut(serializers.Serializer):
-    detail = serializers.CharField(help_text="The technician, the day, the hours and the capacity.")
-    errors = serializers.DictField(help_text="confirm_over_capacity: what to send to assign anyway.")
+class OverCapacityOut(ErrorOutput):
+    """A refusal whose `detail` names the technician, the day, the hours and the capacity, and whose `errors` say
+    under `confirm_over_capacity` what to send to assign anyway; with the day's load and a suggestion."""
+
     load = DayLoadOut(help_text="The technician's day with this work added.")
     suggestion = serializers.DictField(allow_null=True, help_text="The least-loaded technician with the skills.")
-
-
-class SchedulingErrorOut(serializers.Serializer):
-    detail = serializers.CharField()
-    errors = serializers.DictField(required=False)
 
 
 class MeterReadingIn(serializers.Serializer):
