@@ -33,3 +33,6 @@ LOGGING = {
     "handlers": {"console": {"class": "logging.StreamHandler"}},
     "root": {"handlers": ["console"], "level": "WARNING"},
 }
+
+if os.environ.get("BENCH_PROFILE"):  # per-request profiles for finding where time goes (bench/profiling.py)
+    MIDDLEWARE = ["bench.profiling.ProfileMiddleware", *MIDDLEWARE]  # noqa: F405

@@ -20,6 +20,7 @@ Definitions chosen:
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass
 from typing import Any
@@ -89,19 +90,26 @@ def _spec(quantity: str, system: str) -> tuple[DisplayUnit, str]:
     return QUANTITIES[q], s
 
 
+@functools.lru_cache(maxsize=8192)
+def _convert(x: float, source: str, target: str) -> float:
+    """``x`` in ``source`` → ``target`` by pint, kept (callers pass −0 as 0): a form converts the same limits
+    and values again and again, and one pint conversion costs about as much as a database query."""
+    return float(ureg.Quantity(x, source).to(target).magnitude)
+
+
 def to_display(*, value: float, quantity: str, system: str = "si") -> float:
     """Stored SI value → the display unit of ``system`` (pint conversion; the
     definitions are in the module docstring)."""
     spec, s = _spec(quantity, system)
     x = v.finite("value", value)
-    return float(ureg.Quantity(x, spec.storage).to(spec.si if s == "si" else spec.us).magnitude)
+    return _convert(x + 0.0, spec.storage, spec.si if s == "si" else spec.us)
 
 
 def from_display(*, value: float, quantity: str, system: str = "si") -> float:
     """A value typed in the display unit of ``system`` → stored SI value."""
     spec, s = _spec(quantity, system)
     x = v.finite("value", value)
-    return float(ureg.Quantity(x, spec.si if s == "si" else spec.us).to(spec.storage).magnitude)
+    return _convert(x + 0.0, spec.si if s == "si" else spec.us, spec.storage)
 
 
 def unit_label(*, quantity: str, system: str = "si") -> str:

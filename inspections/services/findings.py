@@ -701,10 +701,20 @@ def findings_close_corrected(*, work_order, by) -> list[Finding]:
     freeze season), so the fault never reads as closed while it is still there.
     """
     at = work_order.completed_at or timezone.now()
-    found = list(
-        Finding.objects.select_for_update(of=("self",))
+    # Locked plainly first: most completed work is corrective for nothing, and the joins cost more than the lock.
+    ids = list(
+        Finding.objects.select_for_update()
         .filter(corrective_work_order=work_order, state=Finding.State.OPEN)
-        .select_related("latest_inspection__work_order", "ahu__building__site", "component")
+        .values_list("pk", flat=True)
+    )
+    found = (
+        list(
+            Finding.objects.filter(pk__in=ids).select_related(
+                "latest_inspection__work_order", "ahu__building__site", "component"
+            )
+        )
+        if ids
+        else []
     )
     still_failing = [f for f in found if f.latest_inspection and f.latest_inspection.work_order_id == work_order.pk]
     closed = [f for f in found if f not in still_failing]

@@ -9,8 +9,7 @@ import math
 import zoneinfo
 
 from django.core.exceptions import ValidationError
-from django.db import transaction
-from django.db.models import Q, Subquery
+from django.db import connections, transaction
 from django.utils import timezone
 from django.utils.dateparse import parse_datetime
 
@@ -43,12 +42,22 @@ def _neighbours(
     *, ahu: AHU, component: Component | None, taken_at: dt.datetime
 ) -> tuple[MeterReading | None, MeterReading | None]:
     """The same meter's reading at or before ``taken_at`` (latest first) and the one after it (earliest first),
-    in one query: each is found by its own indexed subquery."""
-    mine = MeterReading.objects.filter(ahu=ahu, component=component)
-    before = mine.filter(taken_at__lte=taken_at).order_by("-taken_at", "-id").values("pk")[:1]
-    after = mine.filter(taken_at__gt=taken_at).order_by("taken_at", "id").values("pk")[:1]
+    in one query of two indexed ``LIMIT 1`` halves. Written as SQL: every synced form asks it twice (checked on
+    arrival, again under the unit's lock), and building it with the ORM cost more than running it."""
+    table = MeterReading._meta.db_table
+    cols = ", ".join(f.column for f in MeterReading._meta.concrete_fields)
+    same = "ahu_id = %s AND " + ("component_id IS NULL" if component is None else "component_id = %s")
+    key = [ahu.pk] if component is None else [ahu.pk, component.pk]
+    # Table and column names come from the model, values are parameters.
+    sql = (
+        f"SELECT * FROM (SELECT {cols} FROM {table} WHERE {same} AND taken_at <= %s "  # noqa: S608
+        "ORDER BY taken_at DESC, id DESC LIMIT 1) AS before_ "
+        f"UNION ALL SELECT * FROM (SELECT {cols} FROM {table} WHERE {same} AND taken_at > %s "
+        "ORDER BY taken_at ASC, id ASC LIMIT 1) AS after_"
+    )
+    at = connections[MeterReading.objects.db].ops.adapt_datetimefield_value(taken_at)  # as the ORM stores it
     prev = nxt = None
-    for row in MeterReading.objects.filter(Q(pk=Subquery(before)) | Q(pk=Subquery(after))):
+    for row in MeterReading.objects.raw(sql, [*key, at, *key, at]):
         if row.taken_at <= taken_at:
             prev = row
         else:
@@ -245,7 +254,7 @@ def _meter_reading_record(
                 {"component": [f"component kind={component.kind!r}: run-hour meters belong to a fan or the unit"]}
             )
     # Lock the unit row so two readings for the same meter cannot both pass the check.
-    AHU.objects.select_for_update().filter(pk=ahu.pk).first()
+    list(AHU.objects.select_for_update().filter(pk=ahu.pk).values_list("pk"))
     meter_reading_check(ahu=ahu, hours=hours, taken_at=taken_at, component=component, is_reset=is_reset)
     reading = MeterReading(
         ahu=ahu,

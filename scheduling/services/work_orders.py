@@ -78,9 +78,12 @@ def _locked(work_order: WorkOrder, expected_version: int | None) -> WorkOrder:
     return fresh
 
 
-def _save(wo: WorkOrder, fields: list[str], *, by, action: str, changes: dict) -> WorkOrder:
+def _save(wo: WorkOrder, fields: list[str], *, by, action: str, changes: dict, write: bool = True) -> WorkOrder:
+    """One move's version, audit event and answer version; ``write=False`` leaves the row's UPDATE to a later
+    move of the same call (``work_order_complete_locked``), which writes every field the moves changed."""
     wo.version += 1
-    wo.save(update_fields=[*fields, "version", "updated_at"])
+    if write:
+        wo.save(update_fields=[*fields, "version", "updated_at"])
     audit_record(actor=by, obj=wo, action=action, changes=changes, organisation_id=wo.organisation_id)
     organisation_changed(organisation_id=wo.organisation_id)  # today and the board show this work order
     return wo
@@ -130,12 +133,25 @@ def work_order_transition(
     return wo
 
 
-def _transition(wo: WorkOrder, *, to_state: str, by, reason: str = "", at: dt.datetime | None = None) -> None:
-    """The move of ``work_order_transition`` on a row the caller has locked (``_locked``) in its transaction."""
+def _transition(
+    wo: WorkOrder,
+    *,
+    to_state: str,
+    by,
+    reason: str = "",
+    at: dt.datetime | None = None,
+    fields: list[str] | None = None,
+    write: bool = True,
+) -> list[str]:
+    """The move of ``work_order_transition`` on a row the caller has locked (``_locked``) in its transaction.
+
+    ``fields``: those an earlier move of the same call changed and left unwritten (``write=False``); the
+    fields changed so far are returned. Receivers of ``work_order_moved`` act on completion and rework only,
+    so an unwritten intermediate move (assigned → in progress, then completed) is written with the last."""
     _move(wo, to_state)
     now = at or timezone.now()
     before = wo.state
-    fields = ["state"]
+    fields = [*(fields or []), "state"]
     wo.state = to_state
     if to_state == State.ASSIGNED:
         _check_assignee(wo, wo.assignee)
@@ -160,8 +176,13 @@ def _transition(wo: WorkOrder, *, to_state: str, by, reason: str = "", at: dt.da
         wo.completed_at = None
         fields.append("completed_at")
         wo.tasks.update(completed_at=None)
-    _save(wo, fields, by=by, action="transition", changes={"from": before, "to": to_state, "reason": reason})
+    fields = list(dict.fromkeys(fields))
+    _save(
+        wo, fields, by=by, action="transition", changes={"from": before, "to": to_state, "reason": reason}, write=write
+    )
     work_order_moved.send(sender=WorkOrder, work_order=wo, before=before, by=by)
+
+    return fields
 
 
 def _copy_back(target: WorkOrder, source: WorkOrder) -> None:
@@ -293,8 +314,11 @@ def work_order_complete_locked(*, work_order: WorkOrder, by, completed_at: dt.da
     for to_state in moves:
         _move(probe, to_state)
         probe.state = to_state
-    for to_state in moves:
-        _transition(work_order, to_state=to_state, by=by, at=completed_at)
+    fields: list[str] = []
+    for n, to_state in enumerate(moves, start=1):  # one UPDATE of the row for both moves
+        fields = _transition(
+            work_order, to_state=to_state, by=by, at=completed_at, fields=fields, write=n == len(moves)
+        )
 
 
 def work_order_verify(*, work_order: WorkOrder, by, expected_version: int | None = None) -> WorkOrder:
