@@ -19,7 +19,7 @@ class CalcInput(serializers.Serializer):
     )
 
 
-class CalcRow(serializers.Serializer):
+class CalcRowOutput(serializers.Serializer):
     label = serializers.CharField()
     value = serializers.JSONField()
     unit = serializers.CharField(allow_blank=True)
@@ -28,7 +28,7 @@ class CalcRow(serializers.Serializer):
 class CalcOutput(serializers.Serializer):
     calculator = serializers.CharField()
     unit_system = serializers.CharField()
-    results = CalcRow(many=True)
+    results = CalcRowOutput(many=True)
 
 
 class CalcView(APIView):

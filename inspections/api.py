@@ -23,7 +23,7 @@ READ_ONLY = OpenApiResponse(ErrorOutput, description="You may read this work but
 
 
 class ChecklistView(APIView):
-    @extend_schema(responses={200: s.ChecklistOutputSerializer, 404: NOT_FOUND}, tags=["inspections"])
+    @extend_schema(responses={200: s.ChecklistOutput, 404: NOT_FOUND}, tags=["inspections"])
     def get(self, request, public_id):
         wo = selectors.work_order_for(user=request.user, public_id=public_id)
         return Response(selectors.checklist_for(work_order=wo, user=request.user))
@@ -46,15 +46,15 @@ class SyncView(APIView):
     parser_classes = [CheckedJSONParser]
 
     @extend_schema(
-        request=s.SyncInputSerializer,
-        responses={200: s.SyncOutputSerializer, 400: BAD, 403: READ_ONLY},
+        request=s.SyncInput,
+        responses={200: s.SyncOutput, 400: BAD, 403: READ_ONLY},
         tags=["inspections"],
         description="Store finished forms once each; see inspections/SYNC.md.",
     )
     def post(self, request):
         if not selectors.does_field_work_anywhere(user=request.user):
             raise PermissionDenied("Property managers read inspections; only the people who do the work send forms.")
-        data = s.SyncInputSerializer(data=request.data)
+        data = s.SyncInput(data=request.data)
         data.is_valid(raise_exception=True)
         results = services.inspection_sync(
             user=request.user, forms=data.validated_data["forms"], sent_at=data.validated_data.get("sent_at")
@@ -77,10 +77,10 @@ class PhotoUploadView(APIView):
     parser_classes = [MultiPartParser, FormParser]
 
     @extend_schema(
-        request=s.PhotoUploadInputSerializer,
+        request=s.PhotoUploadInput,
         responses={
-            200: s.PhotoOutputSerializer,
-            201: s.PhotoOutputSerializer,
+            200: s.PhotoOutput,
+            201: s.PhotoOutput,
             400: BAD,
             403: READ_ONLY,
             404: NOT_FOUND,
@@ -88,7 +88,7 @@ class PhotoUploadView(APIView):
         tags=["inspections"],
     )
     def post(self, request):
-        data = s.PhotoUploadInputSerializer(data=request.data)
+        data = s.PhotoUploadInput(data=request.data)
         data.is_valid(raise_exception=True)
         wo = selectors.work_order_for_field_work(user=request.user, public_id=data.validated_data["work_order"])
         upload = data.validated_data["file"]
@@ -125,7 +125,7 @@ class PhotoFileView(APIView):
 
 
 class TemplatesView(APIView):
-    @extend_schema(responses={200: s.ChecklistOutputSerializer(many=True)}, tags=["inspections"])
+    @extend_schema(responses={200: s.ChecklistOutput(many=True)}, tags=["inspections"])
     def get(self, request):
         out = []
         for t in services.templates_current().values():
@@ -167,22 +167,22 @@ def _inspection(request, pk) -> Inspection:
 
 
 class InspectionDetailView(APIView):
-    @extend_schema(responses={200: s.InspectionOutputSerializer, 404: NOT_FOUND}, tags=["inspections"])
+    @extend_schema(responses={200: s.InspectionOutput, 404: NOT_FOUND}, tags=["inspections"])
     def get(self, request, pk):
-        return Response(s.InspectionOutputSerializer(_inspection(request, pk), context=_reader(request)).data)
+        return Response(s.InspectionOutput(_inspection(request, pk), context=_reader(request)).data)
 
 
 class AmendmentCreateView(APIView):
     parser_classes = [CheckedJSONParser]
 
     @extend_schema(
-        request=s.AmendmentInputSerializer,
-        responses={201: s.AmendmentOutputSerializer, 400: BAD, 403: ErrorOutput, 404: NOT_FOUND},
+        request=s.AmendmentInput,
+        responses={201: s.AmendmentOutput, 400: BAD, 403: ErrorOutput, 404: NOT_FOUND},
         tags=["inspections"],
     )
     def post(self, request, pk):
         inspection = _inspection(request, pk)
-        data = s.AmendmentInputSerializer(data=request.data)
+        data = s.AmendmentInput(data=request.data)
         data.is_valid(raise_exception=True)
         a = services.inspection_amend(inspection=inspection, by=request.user, **data.validated_data)
         found = a.findings.select_related("corrective_work_order").order_by("pk")
@@ -203,40 +203,40 @@ class AmendmentCreateView(APIView):
 
 
 class FlaggedListView(APIView):
-    @extend_schema(responses={200: s.FlaggedFormSerializer(many=True)}, tags=["inspections"])
+    @extend_schema(responses={200: s.FlaggedFormOutput(many=True)}, tags=["inspections"])
     def get(self, request):
-        return Response(s.FlaggedFormSerializer(selectors.flagged_forms_for(user=request.user), many=True).data)
+        return Response(s.FlaggedFormOutput(selectors.flagged_forms_for(user=request.user), many=True).data)
 
 
 class FlagResolveView(APIView):
     @extend_schema(
-        request=s.NoteInputSerializer,
-        responses={200: s.InspectionOutputSerializer, 400: BAD, 403: ErrorOutput, 404: NOT_FOUND},
+        request=s.NoteInput,
+        responses={200: s.InspectionOutput, 400: BAD, 403: ErrorOutput, 404: NOT_FOUND},
         tags=["inspections"],
     )
     def post(self, request, pk):
         inspection = _inspection(request, pk)
-        data = s.NoteInputSerializer(data=request.data)
+        data = s.NoteInput(data=request.data)
         data.is_valid(raise_exception=True)
         services.flagged_form_resolve(inspection=inspection, by=request.user, note=data.validated_data["note"])
-        return Response(s.InspectionOutputSerializer(_inspection(request, pk), context=_reader(request)).data)
+        return Response(s.InspectionOutput(_inspection(request, pk), context=_reader(request)).data)
 
 
 class VerifyView(APIView):
     @extend_schema(
         request=None,
-        responses={200: s.InspectionOutputSerializer, 400: BAD, 403: ErrorOutput, 404: NOT_FOUND},
+        responses={200: s.InspectionOutput, 400: BAD, 403: ErrorOutput, 404: NOT_FOUND},
         tags=["inspections"],
     )
     def post(self, request, pk):
         services.inspection_verify(inspection=_inspection(request, pk), by=request.user)
-        return Response(s.InspectionOutputSerializer(_inspection(request, pk), context=_reader(request)).data)
+        return Response(s.InspectionOutput(_inspection(request, pk), context=_reader(request)).data)
 
 
 class FreezeReadinessView(APIView):
     @extend_schema(
         parameters=[OpenApiParameter("site", int, description="Only this site (its id); default every site you see.")],
-        responses={200: s.FreezeReadinessUnitSerializer(many=True), 400: BAD},
+        responses={200: s.FreezeReadinessUnitOutput(many=True), 400: BAD},
         tags=["inspections"],
         description="Freeze-protection readiness of every unit with preheat, from what its tests found "
         "(inspections/freeze.py), as the pages and the compliance report show it.",
@@ -260,7 +260,7 @@ class FindingListView(APIView):
             OpenApiParameter("state", str, enum=["open", "closed", "all"], description="Default open."),
             OpenApiParameter("unit", str, description="Only this unit (its label code)."),
         ],
-        responses={200: s.FindingSerializer(many=True), 400: BAD},
+        responses={200: s.FindingOutput(many=True), 400: BAD},
         tags=["inspections"],
         description="Findings you may see, oldest first seen first: one per unit, part and problem, with how many "
         "visits saw it. The same shape as the findings in sync and amendment answers.",

@@ -2,6 +2,7 @@
 
 from rest_framework import serializers
 
+from .models import Finding
 from .selectors import reason_for
 
 
@@ -12,7 +13,7 @@ class RawJSONField(serializers.JSONField):
         return data
 
 
-class SyncInputSerializer(serializers.Serializer):
+class SyncInput(serializers.Serializer):
     # null too: each entry, whatever it is, is judged on its own and gets its own result.
     forms = serializers.ListField(
         child=RawJSONField(allow_null=True), max_length=50, help_text="Finished forms; shape in inspections/SYNC.md."
@@ -23,7 +24,7 @@ class SyncInputSerializer(serializers.Serializer):
     )
 
 
-class SyncResultSerializer(serializers.Serializer):
+class SyncResultOutput(serializers.Serializer):
     client_uuid = serializers.CharField(allow_null=True)
     status = serializers.ChoiceField(choices=["stored", "flagged", "duplicate", "refused"])
     first_status = serializers.CharField(required=False)
@@ -38,24 +39,24 @@ class SyncResultSerializer(serializers.Serializer):
     )
 
 
-class SyncOutputSerializer(serializers.Serializer):
-    results = SyncResultSerializer(many=True)
+class SyncOutput(serializers.Serializer):
+    results = SyncResultOutput(many=True)
 
 
-class ChecklistOutputSerializer(serializers.Serializer):
+class ChecklistOutput(serializers.Serializer):
     work_order = serializers.DictField()
     unit_system = serializers.CharField()
     cautions = serializers.ListField(child=serializers.CharField())
     templates = serializers.ListField(child=serializers.DictField())
 
 
-class PhotoUploadInputSerializer(serializers.Serializer):
+class PhotoUploadInput(serializers.Serializer):
     file = serializers.FileField()
     client_uuid = serializers.UUIDField()
     work_order = serializers.UUIDField()
 
 
-class PhotoOutputSerializer(serializers.Serializer):
+class PhotoOutput(serializers.Serializer):
     client_uuid = serializers.UUIDField()
     id = serializers.IntegerField()
     url = serializers.CharField()
@@ -64,13 +65,13 @@ class PhotoOutputSerializer(serializers.Serializer):
     height = serializers.IntegerField()
 
 
-class AmendmentInputSerializer(serializers.Serializer):
+class AmendmentInput(serializers.Serializer):
     reason = serializers.CharField()
     unit_system = serializers.ChoiceField(choices=["si", "us"])
     readings = serializers.ListField(child=serializers.JSONField(), min_length=1)
 
 
-class AmendmentOutputSerializer(serializers.Serializer):
+class AmendmentOutput(serializers.Serializer):
     id = serializers.IntegerField()
     public_id = serializers.UUIDField()
     inspection_id = serializers.IntegerField()
@@ -80,11 +81,11 @@ class AmendmentOutputSerializer(serializers.Serializer):
     findings = serializers.ListField(child=serializers.DictField(), help_text="Findings newly failed by it.")
 
 
-class NoteInputSerializer(serializers.Serializer):
+class NoteInput(serializers.Serializer):
     note = serializers.CharField()
 
 
-class InspectionOutputSerializer(serializers.Serializer):
+class InspectionOutput(serializers.Serializer):
     id = serializers.IntegerField()
     client_uuid = serializers.UUIDField()
     work_order = serializers.UUIDField(source="work_order.public_id")
@@ -161,7 +162,7 @@ class InspectionOutputSerializer(serializers.Serializer):
         ]
 
 
-class FlaggedFormSerializer(serializers.Serializer):
+class FlaggedFormOutput(serializers.Serializer):
     id = serializers.IntegerField()
     client_uuid = serializers.UUIDField()
     work_order = serializers.UUIDField(source="work_order.public_id")
@@ -175,7 +176,7 @@ class FlaggedFormSerializer(serializers.Serializer):
     flags = serializers.ListField(child=serializers.DictField())
 
 
-class FreezeReadinessUnitSerializer(serializers.Serializer):
+class FreezeReadinessUnitOutput(serializers.Serializer):
     unit = serializers.DictField(help_text="{id, tag, label_code}")
     site = serializers.DictField(help_text="{id, code, name}")
     status = serializers.ChoiceField(choices=["ready", "done_late", "due", "not_ready", "season_unknown"])
@@ -192,14 +193,14 @@ class FreezeReadinessUnitSerializer(serializers.Serializer):
     window_opens = serializers.DateField(allow_null=True)
 
 
-class FindingSerializer(serializers.Serializer):
+class FindingOutput(serializers.Serializer):
     """The shape of ``inspections.selectors.finding_shape`` (for the schema)."""
 
     id = serializers.IntegerField()
-    kind = serializers.ChoiceField(choices=["corrective", "design_review"])
+    kind = serializers.ChoiceField(choices=Finding.Kind.choices)
     kind_label = serializers.CharField()
-    severity = serializers.ChoiceField(choices=["low", "medium", "high", "critical"])
-    state = serializers.ChoiceField(choices=["open", "closed"])
+    severity = serializers.ChoiceField(choices=Finding.Severity.choices)
+    state = serializers.ChoiceField(choices=Finding.State.choices)
     title = serializers.CharField()
     text = serializers.CharField(help_text="The check, its numbers and the limit that failed it, in your units.")
     first_seen = serializers.DateTimeField(help_text="The first visit that saw it; its age counts from here.")

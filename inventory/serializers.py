@@ -225,17 +225,17 @@ class ComponentInput(NamesValueMixin, serializers.ModelSerializer):
         fields = ["ahu", *COMPONENT_FIELDS]
 
 
-class ComponentNode(serializers.Serializer):
+class ComponentNodeOutput(serializers.Serializer):
     component = ComponentOutput()
     children = serializers.SerializerMethodField()
 
     def get_children(self, obj) -> list[dict]:
-        return ComponentNode(obj["children"], many=True, context=self.context).data
+        return ComponentNodeOutput(obj["children"], many=True, context=self.context).data
 
 
 class AHUTreeOutput(serializers.Serializer):
     unit = AHUOutput()
-    components = ComponentNode(many=True)
+    components = ComponentNodeOutput(many=True)
 
 
 # ---------------------------------------------------------------------------

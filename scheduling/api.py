@@ -84,7 +84,7 @@ def _organisation_for(user, *, managing: bool = False):
 
 class WorkOrderList(APIView):
     @extend_schema(
-        responses={200: s.WorkOrderOut(many=True)},
+        responses={200: s.WorkOrderOutput(many=True)},
         parameters=[OpenApiParameter("state", str), OpenApiParameter("site", str, description="site code")],
         summary="Work orders the caller may see",
     )
@@ -95,7 +95,7 @@ class WorkOrderList(APIView):
         if request.query_params.get("site"):
             qs = qs.filter(ahu__building__site__code=request.query_params["site"])
         qs = qs.order_by("due_date", "id")[:500]
-        return Response(s.WorkOrderOut(qs, many=True).data)
+        return Response(s.WorkOrderOutput(qs, many=True).data)
 
 
 def _visible(request, public_id) -> WorkOrder:
@@ -105,7 +105,7 @@ def _visible(request, public_id) -> WorkOrder:
 def _current(request, public_id) -> Response:
     """The work order as it now stands, read again through the access function (a change moves its version,
     state and tasks): the answer of every work-order route."""
-    return Response(s.WorkOrderOut(_visible(request, public_id)).data)
+    return Response(s.WorkOrderOutput(_visible(request, public_id)).data)
 
 
 def _managed(request, public_id, *, action: str) -> WorkOrder:
@@ -117,7 +117,7 @@ def _managed(request, public_id, *, action: str) -> WorkOrder:
 
 
 class WorkOrderDetail(APIView):
-    @extend_schema(responses={200: s.WorkOrderOut, **ERRORS}, summary="One work order with its tasks")
+    @extend_schema(responses={200: s.WorkOrderOutput, **ERRORS}, summary="One work order with its tasks")
     def get(self, request, public_id):
         return _current(request, public_id)
 
@@ -140,7 +140,7 @@ def _over_capacity(wo: WorkOrder, assignee, day: dt.date, data: dict) -> Respons
     body = {
         "detail": message,
         "errors": {"confirm_over_capacity": [f"{message} Send confirm_over_capacity: true to assign anyway."]},
-        "load": s.DayLoadOut(check.load.as_dict()).data,
+        "load": s.DayLoadOutput(check.load.as_dict()).data,
         "suggestion": suggestion,
     }
     return Response(body, status=status.HTTP_409_CONFLICT)
@@ -148,8 +148,8 @@ def _over_capacity(wo: WorkOrder, assignee, day: dt.date, data: dict) -> Respons
 
 class WorkOrderAssign(WorkOrderChangeView):
     @extend_schema(
-        request=s.AssignIn,
-        responses={200: s.WorkOrderOut, 409: s.OverCapacityOut, **ERRORS},
+        request=s.AssignInput,
+        responses={200: s.WorkOrderOutput, 409: s.OverCapacityOutput, **ERRORS},
         summary="Assign or reassign to a technician",
         description=(
             "A stale version is a 409 with current_version. So is an assignment that would take the technician's "
@@ -159,7 +159,7 @@ class WorkOrderAssign(WorkOrderChangeView):
     )
     def post(self, request, public_id):
         wo = _managed(request, public_id, action="assign")
-        data = s.AssignIn(data=request.data)
+        data = s.AssignInput(data=request.data)
         data.is_valid(raise_exception=True)
         assignee = technician_of(organisation_id=wo.organisation_id, username=data.validated_data["assignee"])
         if assignee is None:
@@ -180,8 +180,8 @@ class WorkOrderAssign(WorkOrderChangeView):
 
 class WorkOrderSchedule(WorkOrderChangeView):
     @extend_schema(
-        request=s.ScheduleIn,
-        responses={200: s.WorkOrderOut, 409: s.ConflictOut, **ERRORS},
+        request=s.ScheduleInput,
+        responses={200: s.WorkOrderOutput, 409: s.ConflictOutput, **ERRORS},
         summary="Plan a work order for a day (or clear the plan)",
         description=(
             "Open work only; the day is the site's local date and may not be in the past (400 naming "
@@ -190,7 +190,7 @@ class WorkOrderSchedule(WorkOrderChangeView):
     )
     def post(self, request, public_id):
         wo = _managed(request, public_id, action="plan work")
-        data = s.ScheduleIn(data=request.data)
+        data = s.ScheduleInput(data=request.data)
         data.is_valid(raise_exception=True)
         work_order_schedule(
             work_order=wo,
@@ -203,13 +203,13 @@ class WorkOrderSchedule(WorkOrderChangeView):
 
 class WorkOrderTransition(WorkOrderChangeView):
     @extend_schema(
-        request=s.TransitionIn,
-        responses={200: s.WorkOrderOut, 409: s.ConflictOut, **ERRORS},
+        request=s.TransitionInput,
+        responses={200: s.WorkOrderOutput, 409: s.ConflictOutput, **ERRORS},
         summary="Move a work order to another state (start, complete, verify, cancel, unassign)",
     )
     def post(self, request, public_id):
         wo = _visible(request, public_id)
-        data = s.TransitionIn(data=request.data)
+        data = s.TransitionInput(data=request.data)
         data.is_valid(raise_exception=True)
         to_state = data.validated_data["to_state"]
         managed = work_orders_managed_by(user=request.user).filter(pk=wo.pk).exists()
@@ -231,13 +231,13 @@ class WorkOrderTransition(WorkOrderChangeView):
 
 class WorkOrderApprove(WorkOrderChangeView):
     @extend_schema(
-        request=s.VersionIn,
-        responses={200: s.WorkOrderOut, 409: s.ConflictOut, **ERRORS},
+        request=s.VersionInput,
+        responses={200: s.WorkOrderOutput, 409: s.ConflictOutput, **ERRORS},
         summary="Approve proposed corrective work",
     )
     def post(self, request, public_id):
         wo = _managed(request, public_id, action="approve")
-        data = s.VersionIn(data=request.data)
+        data = s.VersionInput(data=request.data)
         data.is_valid(raise_exception=True)
         corrective_work_order_approve(work_order=wo, by=request.user, expected_version=data.validated_data["version"])
         return _current(request, public_id)
@@ -245,13 +245,13 @@ class WorkOrderApprove(WorkOrderChangeView):
 
 class WorkOrderReject(WorkOrderChangeView):
     @extend_schema(
-        request=s.RejectIn,
-        responses={200: s.WorkOrderOut, 409: s.ConflictOut, **ERRORS},
+        request=s.RejectInput,
+        responses={200: s.WorkOrderOutput, 409: s.ConflictOutput, **ERRORS},
         summary="Reject proposed corrective work, with a reason",
     )
     def post(self, request, public_id):
         wo = _managed(request, public_id, action="reject")
-        data = s.RejectIn(data=request.data)
+        data = s.RejectInput(data=request.data)
         data.is_valid(raise_exception=True)
         corrective_work_order_reject(
             work_order=wo,
@@ -308,7 +308,7 @@ def today_params(request, user) -> tuple[dt.date, tuple[float, float] | None]:
 @method_decorator(conditional_page, name="dispatch")
 class TodayVisits(APIView):
     @extend_schema(
-        responses={200: s.VisitOut(many=True), 304: None, **ERRORS},
+        responses={200: s.VisitOutput(many=True), 304: None, **ERRORS},
         parameters=[
             OpenApiParameter("day", dt.date, description="default: today where the caller's sites are"),
             OpenApiParameter("lat", float),
@@ -371,7 +371,7 @@ def board_params(request, user) -> tuple[dt.date, dt.date, int, int, str | None]
 @method_decorator(conditional_page, name="dispatch")
 class Board(APIView):
     @extend_schema(
-        responses={200: s.BoardOut, 304: None, **ERRORS},
+        responses={200: s.BoardOutput, 304: None, **ERRORS},
         parameters=[
             OpenApiParameter("week", dt.date, description="any day of the week; default: this week"),
             OpenApiParameter(
@@ -407,7 +407,7 @@ class Board(APIView):
 
 
 class TaskList(APIView):
-    @extend_schema(responses={200: s.TaskDefinitionOut(many=True)}, summary="Maintenance rules in force")
+    @extend_schema(responses={200: s.TaskDefinitionOutput(many=True)}, summary="Maintenance rules in force")
     def get(self, request):
         org = _organisation_for(request.user)
         if org is None:
@@ -415,28 +415,28 @@ class TaskList(APIView):
         tasks = sorted(
             effective_tasks(organisation=org, include_disabled=True).values(), key=lambda t: (t.category, t.code)
         )
-        return Response(s.TaskDefinitionOut(tasks, many=True).data)
+        return Response(s.TaskDefinitionOutput(tasks, many=True).data)
 
 
 class TaskOverride(APIView):
     @extend_schema(
-        request=s.TaskOverrideIn,
-        responses={200: s.TaskDefinitionOut, **ERRORS},
+        request=s.TaskOverrideInput,
+        responses={200: s.TaskDefinitionOutput, **ERRORS},
         summary="Change a rule for the caller's organisation",
     )
     def patch(self, request, code):
         org = _organisation_for(request.user, managing=True)
         if org is None:
             raise PermissionDenied("Only a supervisor or admin of the organisation may change the maintenance rules.")
-        data = s.TaskOverrideIn(data=request.data)
+        data = s.TaskOverrideInput(data=request.data)
         data.is_valid(raise_exception=True)
         task = task_definition_override(organisation=org, code=code, by=request.user, **data.validated_data)
-        return Response(s.TaskDefinitionOut(task).data)
+        return Response(s.TaskDefinitionOutput(task).data)
 
 
 class MeterReadings(APIView):
     @extend_schema(
-        responses={200: s.MeterReadingOut(many=True)},
+        responses={200: s.MeterReadingOutput(many=True)},
         parameters=[OpenApiParameter("unit", str)],
         summary="Run-hour readings of a unit",
     )
@@ -445,13 +445,13 @@ class MeterReadings(APIView):
         if ahu is None:
             return Response([])
         rows = MeterReading.objects.filter(ahu=ahu).select_related("ahu").order_by("-taken_at")[:200]
-        return Response(s.MeterReadingOut(rows, many=True).data)
+        return Response(s.MeterReadingOutput(rows, many=True).data)
 
     @extend_schema(
-        request=s.MeterReadingIn, responses={201: s.MeterReadingOut, **ERRORS}, summary="Push a run-hour reading"
+        request=s.MeterReadingInput, responses={201: s.MeterReadingOutput, **ERRORS}, summary="Push a run-hour reading"
     )
     def post(self, request):
-        data = s.MeterReadingIn(data=request.data)
+        data = s.MeterReadingInput(data=request.data)
         data.is_valid(raise_exception=True)
         v = data.validated_data
         ahu = ahus_visible_to(user=request.user).filter(label_code=v["unit_label"].upper()).first()
@@ -483,12 +483,12 @@ class MeterReadings(APIView):
             source=MeterReading.Source.API,
             by=request.user,
         )
-        return Response(s.MeterReadingOut(reading).data, status=201)
+        return Response(s.MeterReadingOutput(reading).data, status=201)
 
 
 class OutdoorTemperatures(APIView):
     @extend_schema(
-        responses={200: s.OutdoorTemperatureOut(many=True)},
+        responses={200: s.OutdoorTemperatureOutput(many=True)},
         parameters=[OpenApiParameter("site", str)],
         summary="Stored outdoor temperatures of a site",
     )
@@ -497,13 +497,13 @@ class OutdoorTemperatures(APIView):
         if site is None:
             return Response([])
         rows = OutdoorTemperature.objects.filter(site=site).order_by("-date")[:400]
-        return Response(s.OutdoorTemperatureOut(rows, many=True).data)
+        return Response(s.OutdoorTemperatureOutput(rows, many=True).data)
 
 
 class CalendarFeedIssue(APIView):
     @extend_schema(
         request=None,
-        responses={201: s.CalendarFeedOut},
+        responses={201: s.CalendarFeedOutput},
         summary="A new secret calendar URL for the caller's assigned visits (revokes the old one)",
     )
     def post(self, request):

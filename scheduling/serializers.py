@@ -8,7 +8,7 @@ from accounts.api_errors import ErrorOutput
 from .models import MeterReading, OutdoorTemperature, TaskDefinition, WorkOrder, WorkOrderTask
 
 
-class TaskDefinitionOut(serializers.ModelSerializer):
+class TaskDefinitionOutput(serializers.ModelSerializer):
     library = serializers.BooleanField(source="is_library", read_only=True)
 
     class Meta:
@@ -40,7 +40,7 @@ class TaskDefinitionOut(serializers.ModelSerializer):
         ]
 
 
-class TaskOverrideIn(serializers.Serializer):
+class TaskOverrideInput(serializers.Serializer):
     interval_value = api_fields.IntegerField(min_value=1, required=False)
     interval_unit = serializers.ChoiceField(choices=TaskDefinition.IntervalUnit.choices, required=False)
     anchor = serializers.ChoiceField(choices=TaskDefinition.Anchor.choices, required=False)
@@ -51,7 +51,7 @@ class TaskOverrideIn(serializers.Serializer):
     enabled = serializers.BooleanField(required=False)
 
 
-class WorkOrderTaskOut(serializers.ModelSerializer):
+class WorkOrderTaskOutput(serializers.ModelSerializer):
     code = serializers.CharField(source="task_code")
     name = serializers.CharField(source="task.name")
     checklist_code = serializers.CharField(source="task.checklist_code")
@@ -78,12 +78,12 @@ class WorkOrderTaskOut(serializers.ModelSerializer):
         return None if c is None else {"id": c.pk, "name": c.name, "kind": c.kind, "label_code": c.label_code}
 
 
-class WorkOrderOut(serializers.ModelSerializer):
+class WorkOrderOutput(serializers.ModelSerializer):
     id = serializers.UUIDField(source="public_id")
     unit = serializers.SerializerMethodField()
     site = serializers.SerializerMethodField()
     assignee = serializers.SerializerMethodField()
-    tasks = WorkOrderTaskOut(many=True)
+    tasks = WorkOrderTaskOutput(many=True)
     allowed_states = serializers.SerializerMethodField()
 
     class Meta:
@@ -127,11 +127,11 @@ class WorkOrderOut(serializers.ModelSerializer):
         return sorted(WorkOrder.TRANSITIONS.get(obj.state, ()))
 
 
-class VersionIn(serializers.Serializer):
+class VersionInput(serializers.Serializer):
     version = serializers.IntegerField(min_value=1, help_text="The version you last read (optimistic check).")
 
 
-class RejectIn(VersionIn):
+class RejectInput(VersionInput):
     reason = serializers.CharField(
         required=False,
         allow_blank=True,
@@ -140,7 +140,7 @@ class RejectIn(VersionIn):
     )
 
 
-class AssignIn(VersionIn):
+class AssignInput(VersionInput):
     assignee = serializers.CharField(help_text="Username of a technician of the organisation.")
     scheduled_for = api_fields.DateField(
         required=False,
@@ -157,24 +157,24 @@ class AssignIn(VersionIn):
     )
 
 
-class ScheduleIn(VersionIn):
+class ScheduleInput(VersionInput):
     scheduled_for = api_fields.DateField(
         allow_null=True,
         help_text="The day the visit is planned for (site's local date, today or later); null clears it.",
     )
 
 
-class TransitionIn(VersionIn):
+class TransitionInput(VersionInput):
     to_state = serializers.ChoiceField(choices=WorkOrder.State.choices)
     reason = serializers.CharField(required=False, allow_blank=True, default="")
 
 
-class ConflictOut(serializers.Serializer):
+class ConflictOutput(serializers.Serializer):
     detail = serializers.CharField()
     current_version = serializers.IntegerField()
 
 
-class DayLoadOut(serializers.Serializer):
+class DayLoadOutput(serializers.Serializer):
     date = serializers.DateField()
     hours = serializers.FloatField(help_text="Tasks plus travel.")
     task_hours = serializers.FloatField(help_text="The tasks' estimated hours.")
@@ -186,15 +186,15 @@ class DayLoadOut(serializers.Serializer):
     over = serializers.BooleanField(help_text="hours > capacity_hours")
 
 
-class OverCapacityOut(ErrorOutput):
+class OverCapacityOutput(ErrorOutput):
     """A refusal whose `detail` names the technician, the day, the hours and the capacity, and whose `errors` say
     under `confirm_over_capacity` what to send to assign anyway; with the day's load and a suggestion."""
 
-    load = DayLoadOut(help_text="The technician's day with this work added.")
+    load = DayLoadOutput(help_text="The technician's day with this work added.")
     suggestion = serializers.DictField(allow_null=True, help_text="The least-loaded technician with the skills.")
 
 
-class MeterReadingIn(serializers.Serializer):
+class MeterReadingInput(serializers.Serializer):
     unit_label = serializers.CharField()
     component_label = serializers.CharField(required=False, allow_blank=True, default="")
     hours = api_fields.FloatField(min_value=0)
@@ -205,7 +205,7 @@ class MeterReadingIn(serializers.Serializer):
     is_reset = serializers.BooleanField(default=False)
 
 
-class MeterReadingOut(serializers.ModelSerializer):
+class MeterReadingOutput(serializers.ModelSerializer):
     unit_label = serializers.CharField(source="ahu.label_code")
 
     class Meta:
@@ -213,17 +213,17 @@ class MeterReadingOut(serializers.ModelSerializer):
         fields = ["id", "unit_label", "component", "hours", "taken_at", "source", "is_reset"]
 
 
-class OutdoorTemperatureOut(serializers.ModelSerializer):
+class OutdoorTemperatureOutput(serializers.ModelSerializer):
     class Meta:
         model = OutdoorTemperature
         fields = ["date", "min_c", "max_c", "mean_c", "source"]
 
 
-class VisitOut(serializers.Serializer):
+class VisitOutput(serializers.Serializer):
     order = serializers.IntegerField()
     leg_km = serializers.FloatField()
     site = serializers.SerializerMethodField()
-    work_orders = WorkOrderOut(many=True)
+    work_orders = WorkOrderOutput(many=True)
 
     def get_site(self, obj) -> dict:
         s = obj.site
@@ -237,38 +237,38 @@ class VisitOut(serializers.Serializer):
         }
 
 
-class BuildingRefOut(serializers.Serializer):
+class BuildingRefOutput(serializers.Serializer):
     id = serializers.IntegerField()
     name = serializers.CharField()
 
 
-class UnitRefOut(serializers.Serializer):
+class UnitRefOutput(serializers.Serializer):
     id = serializers.IntegerField()
     tag = serializers.CharField()
     name = serializers.CharField(
         help_text='The tag with its building, "AHU-01 (Mill Block)": tags repeat across buildings.'
     )
     label_code = serializers.CharField()
-    building = BuildingRefOut()
+    building = BuildingRefOutput()
 
 
-class SiteRefOut(serializers.Serializer):
+class SiteRefOutput(serializers.Serializer):
     id = serializers.IntegerField()
     code = serializers.CharField()
     name = serializers.CharField()
 
 
-class PersonRefOut(serializers.Serializer):
+class PersonRefOutput(serializers.Serializer):
     id = serializers.IntegerField()
     username = serializers.CharField()
     name = serializers.CharField()
 
 
-class SuggestedOut(PersonRefOut):
-    load = DayLoadOut(help_text="Their day with this work added: tasks plus travel against capacity.")
+class SuggestedOutput(PersonRefOutput):
+    load = DayLoadOutput(help_text="Their day with this work added: tasks plus travel against capacity.")
 
 
-class BoardItemOut(serializers.Serializer):
+class BoardItemOutput(serializers.Serializer):
     """A work order on the board, without its tasks (the work-order endpoint has them)."""
 
     id = serializers.UUIDField()
@@ -278,59 +278,59 @@ class BoardItemOut(serializers.Serializer):
     approval = serializers.ChoiceField(choices=WorkOrder.Approval.choices)
     title = serializers.CharField()
     condition_code = serializers.CharField()
-    unit = UnitRefOut()
-    site = SiteRefOut()
-    assignee = PersonRefOut(allow_null=True)
+    unit = UnitRefOutput()
+    site = SiteRefOutput()
+    assignee = PersonRefOutput(allow_null=True)
     due_date = serializers.DateField()
     overdue_on = serializers.DateField(allow_null=True)
     scheduled_for = serializers.DateField(allow_null=True)
     version = serializers.IntegerField()
     allowed_states = serializers.ListField(child=serializers.CharField())
-    suggested = SuggestedOut(
+    suggested = SuggestedOutput(
         allow_null=True, help_text="Unassigned work: the least-loaded technician with the skills for its day."
     )
 
 
-class BoardCountsOut(serializers.Serializer):
+class BoardCountsOutput(serializers.Serializer):
     overdue = serializers.IntegerField(help_text="All overdue work, whatever the page.")
     due = serializers.IntegerField(help_text="All unassigned work due in the week.")
     assigned = serializers.IntegerField(help_text="All assigned work due in the week.")
 
 
-class BoardDayOut(serializers.Serializer):
+class BoardDayOutput(serializers.Serializer):
     date = serializers.DateField()
     due = serializers.IntegerField(help_text="Unassigned work due that day.")
     assigned = serializers.IntegerField(help_text="Assigned work due that day.")
 
 
-class TechnicianLoadOut(serializers.Serializer):
-    technician = PersonRefOut()
-    days = DayLoadOut(many=True)
+class TechnicianLoadOutput(serializers.Serializer):
+    technician = PersonRefOutput()
+    days = DayLoadOutput(many=True)
 
 
-class ToVerifyOut(serializers.Serializer):
+class ToVerifyOutput(serializers.Serializer):
     id = serializers.UUIDField()
     title = serializers.CharField()
-    unit = UnitRefOut()
-    site = SiteRefOut()
-    assignee = PersonRefOut(allow_null=True)
+    unit = UnitRefOutput()
+    site = SiteRefOutput()
+    assignee = PersonRefOutput(allow_null=True)
     completed_at = serializers.DateTimeField(allow_null=True)
     version = serializers.IntegerField()
 
 
-class BoardOut(serializers.Serializer):
+class BoardOutput(serializers.Serializer):
     week_start = serializers.DateField(help_text="The Monday of the week shown.")
     today = serializers.DateField(help_text="The day overdue is judged on.")
     limit = serializers.IntegerField()
     offset = serializers.IntegerField()
-    counts = BoardCountsOut(help_text="Totals of each section for the whole week, not only this page.")
-    days = BoardDayOut(many=True, help_text="Totals per day of the week, Monday first.")
-    overdue = BoardItemOut(many=True, help_text="Rows offset to offset + limit of the overdue work, due first.")
-    due = BoardItemOut(many=True, help_text="Rows offset to offset + limit of the unassigned work of the week.")
-    assigned = BoardItemOut(many=True, help_text="Rows offset to offset + limit of the assigned work of the week.")
-    load = TechnicianLoadOut(many=True, help_text="Each technician's day: tasks plus travel against capacity.")
-    to_verify = ToVerifyOut(many=True, help_text="Completed work waiting for verification, longest waiting first.")
+    counts = BoardCountsOutput(help_text="Totals of each section for the whole week, not only this page.")
+    days = BoardDayOutput(many=True, help_text="Totals per day of the week, Monday first.")
+    overdue = BoardItemOutput(many=True, help_text="Rows offset to offset + limit of the overdue work, due first.")
+    due = BoardItemOutput(many=True, help_text="Rows offset to offset + limit of the unassigned work of the week.")
+    assigned = BoardItemOutput(many=True, help_text="Rows offset to offset + limit of the assigned work of the week.")
+    load = TechnicianLoadOutput(many=True, help_text="Each technician's day: tasks plus travel against capacity.")
+    to_verify = ToVerifyOutput(many=True, help_text="Completed work waiting for verification, longest waiting first.")
 
 
-class CalendarFeedOut(serializers.Serializer):
+class CalendarFeedOutput(serializers.Serializer):
     url = serializers.CharField()

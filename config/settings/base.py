@@ -231,6 +231,10 @@ SPECTACULAR_SETTINGS = {
         "WorkOrderStateEnum": "scheduling.models.WorkOrder.State",
         "WorkOrderKindEnum": "scheduling.models.WorkOrder.Kind",
         "TrendImportJobStatusEnum": "automation.models.TrendImportJob.Status",
+        "FindingKindEnum": "inspections.models.Finding.Kind",
+        "FindingStateEnum": "inspections.models.Finding.State",
+        "MeterReadingSourceEnum": "scheduling.models.MeterReading.Source",
+        "OutdoorTemperatureSourceEnum": "scheduling.models.OutdoorTemperature.Source",
     },
 }
 

@@ -40,7 +40,7 @@ def test_today_rows_match_what_the_serializer_showed(world):
     for wo in orders:
         work_order_assign(work_order=wo, assignee=world["tech"], by=world["sup"])
     day = max(wo.due_date for wo in orders)
-    old = s.VisitOut(today_visits_for(technician=world["tech"], day=day, start=(52.0, 4.0)), many=True).data
+    old = s.VisitOutput(today_visits_for(technician=world["tech"], day=day, start=(52.0, 4.0)), many=True).data
     new = today_visit_rows_for(technician=world["tech"], day=day, start=(52.0, 4.0))
     assert len(new) == 2 and any(wo["tasks"] for v in new for wo in v["work_orders"])
     assert any(not wo["tasks"] for v in new for wo in v["work_orders"]), "a work order without tasks is kept"

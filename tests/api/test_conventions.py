@@ -1,0 +1,64 @@
+"""API conventions every app keeps: its DRF views in ``<app>/api.py``, and its shapes named ``…Input`` (what a
+client sends) or ``…Output`` (what it gets back), in Python and in the published schema alike."""
+
+import importlib
+import inspect
+from typing import Any
+
+import pytest
+from drf_spectacular.generators import SchemaGenerator
+from rest_framework import serializers
+from rest_framework.views import APIView
+
+from tests.tenancy.test_matrix import routes
+
+APPS = ("accounts", "automation", "frontend", "inspections", "inventory", "reports", "scheduling")
+SHAPE_MODULES = ("api", "serializers", "api_errors")
+
+
+def _api_views() -> list[tuple[str, type[APIView]]]:
+    """(route, view class) of every DRF view the URL patterns serve from the project's apps."""
+    found = []
+    for route, _name, pattern in routes():  # type: ignore[no-untyped-call]
+        view = getattr(pattern.callback, "cls", None)
+        if inspect.isclass(view) and issubclass(view, APIView) and view.__module__.split(".")[0] in APPS:
+            found.append((route, view))
+    return found
+
+
+def test_every_apps_api_views_live_in_its_api_module() -> None:
+    """A DRF view is in its app's ``api.py``, never in ``views.py`` (pages) or elsewhere."""
+    views = _api_views()
+    assert {v.__module__.split(".")[0] for _, v in views} == set(APPS)
+    misplaced = sorted(
+        f"{route}: {v.__module__}.{v.__qualname__}" for route, v in views if not v.__module__.endswith(".api")
+    )
+    assert not misplaced, misplaced
+
+
+def test_serializers_are_named_input_or_output() -> None:
+    """Each serializer of an app's API modules says by its name which way it goes."""
+    odd = []
+    for app in APPS:
+        for module_name in (f"{app}.{m}" for m in SHAPE_MODULES):
+            try:
+                module = importlib.import_module(module_name)
+            except ModuleNotFoundError:
+                continue
+            odd += [
+                f"{module_name}.{name}"
+                for name, obj in vars(module).items()
+                if inspect.isclass(obj)
+                and issubclass(obj, serializers.BaseSerializer)
+                and obj.__module__ == module_name
+                and not name.endswith(("Input", "Output"))
+            ]
+    assert not odd, odd
+
+
+@pytest.mark.django_db
+def test_schema_components_are_named_input_or_output() -> None:
+    """The published schema's shapes are ``…Output``, ``…InputRequest`` (a body sent) or a named choice set."""
+    schema: dict[str, Any] = SchemaGenerator().get_schema(request=None, public=True)  # type: ignore[no-untyped-call]
+    odd = sorted(n for n in schema["components"]["schemas"] if not n.endswith(("Output", "InputRequest", "Enum")))
+    assert not odd, odd
