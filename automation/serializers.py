@@ -2,8 +2,7 @@
 
 from rest_framework import serializers
 
-from accounts.api_errors import RowErrorOutput
-from inventory.serializers import NamesValueMixin
+from inventory.serializers import FileImportJobOutput, NamesValueMixin
 
 from .models import BacnetObjectType, Point, TrendImportJob
 from .trends import LAYOUTS
@@ -91,19 +90,18 @@ class TrendResultOutput(serializers.Serializer):
     last = serializers.DateTimeField(allow_null=True)
 
 
-class TrendImportJobOutput(serializers.Serializer):
-    id = serializers.UUIDField(source="public_id")
+class TrendImportJobOutput(FileImportJobOutput):
+    """A background trend import: its progress, the values stored, and every bad row or cell."""
+
     site = serializers.IntegerField(source="site_id")
     layout = serializers.CharField()
     status = serializers.ChoiceField(choices=TrendImportJob.Status.choices)
-    status_label = serializers.CharField(source="get_status_display")
-    file_name = serializers.CharField()
-    rows_total = serializers.IntegerField()
     values_stored = serializers.IntegerField()
-    detail = serializers.CharField()
-    errors = RowErrorOutput(many=True)
-    created_at = serializers.DateTimeField()
-    finished_at = serializers.DateTimeField(allow_null=True)
+
+    key_order = (
+        "id", "site", "layout", "status", "status_label", "file_name", "rows_total", "values_stored", "detail",
+        "errors", "created_at", "finished_at",
+    )  # fmt: skip
 
 
 class BrickImportInput(serializers.Serializer):

@@ -1,6 +1,7 @@
 """Input and output shapes of the registry API. No domain logic here: services validate."""
 
 import math
+from typing import Any
 
 from django.urls import reverse
 from rest_framework import serializers
@@ -279,22 +280,44 @@ class ImportInput(serializers.Serializer):
     )
 
 
-class ImportJobOutput(serializers.Serializer):
+class FileImportJobOutput(serializers.Serializer[Any]):
+    """What every background file import shows (a registry CSV here, a trend CSV in automation): its progress,
+    and every bad row of a file refused whole. Each kind of job adds its own fields and its status's choices."""
+
     id = serializers.UUIDField(source="public_id")
-    kind = serializers.CharField()
-    status = serializers.ChoiceField(choices=ImportJob.Status.choices)
     status_label = serializers.CharField(source="get_status_display")
-    dry_run = serializers.BooleanField()
     file_name = serializers.CharField()
     rows_total = serializers.IntegerField()
+    detail = serializers.CharField()
+    # A declared field, not Serializer.errors: DRF's metaclass takes declared fields off the class.
+    errors = RowErrorOutput(many=True, help_text="Every bad row; nothing was imported when there is one.")  # type: ignore[assignment]
+    created_at = serializers.DateTimeField()
+    finished_at = serializers.DateTimeField(allow_null=True)
+
+    # The keys in the answer's order (a subclass's own fields would otherwise all come last); any not named follow.
+    key_order: tuple[str, ...] = ()
+
+    def get_fields(self) -> dict[str, serializers.Field[Any, Any, Any, Any]]:
+        fields = super().get_fields()
+        ordered = {name: fields.pop(name) for name in self.key_order}
+        return {**ordered, **fields}
+
+
+class ImportJobOutput(FileImportJobOutput):
+    """A background registry import: its progress, what it created or updated, and every bad row."""
+
+    kind = serializers.CharField()
+    status = serializers.ChoiceField(choices=ImportJob.Status.choices)
+    dry_run = serializers.BooleanField()
     rows_done = serializers.IntegerField()
     created = serializers.IntegerField()
     updated = serializers.IntegerField()
-    detail = serializers.CharField()
-    errors = RowErrorOutput(many=True, help_text="Every bad row; nothing was imported when there is one.")
-    created_at = serializers.DateTimeField()
-    finished_at = serializers.DateTimeField(allow_null=True)
     url = serializers.SerializerMethodField(help_text="Where to poll the job.")
+
+    key_order = (
+        "id", "kind", "status", "status_label", "dry_run", "file_name", "rows_total", "rows_done", "created",
+        "updated", "detail", "errors", "created_at", "finished_at", "url",
+    )  # fmt: skip
 
     def get_url(self, job) -> str:
         return reverse("inventory_api:import-job", kwargs={"public_id": job.public_id})
