@@ -23,6 +23,7 @@ from __future__ import annotations
 import functools
 import math
 from dataclasses import dataclass
+from enum import StrEnum
 from typing import Any
 
 import pint
@@ -33,6 +34,7 @@ __all__ = [
     "QUANTITIES",
     "SYSTEMS",
     "DisplayUnit",
+    "UnitSystem",
     "from_display",
     "sensible_bound",
     "to_display",
@@ -46,7 +48,15 @@ ureg.define("gallon_per_minute = gallon / minute = gpm")
 ureg.define("feet_per_minute = foot / minute = fpm")
 ureg.define("grain_per_pound = grain / pound = gr_per_lb")
 
-SYSTEMS = ("si", "us")
+
+class UnitSystem(StrEnum):
+    """The two display systems a person picks from: SI, or US customary (in. w.c., °F, cfm, Btu/h)."""
+
+    SI = "si"
+    US = "us"
+
+
+SYSTEMS = tuple(s.value for s in UnitSystem)
 
 
 @dataclass(frozen=True)
@@ -56,31 +66,33 @@ class DisplayUnit:
     us: str
     si_label: str
     us_label: str
+    # The stored SI unit as a reading of it is labelled; empty for quantities no checklist reading keeps.
+    storage_label: str = ""
 
 
 QUANTITIES: dict[str, DisplayUnit] = {
-    "pressure": DisplayUnit("pascal", "pascal", "inch_H2O", "Pa", "in. w.c."),
+    "pressure": DisplayUnit("pascal", "pascal", "inch_H2O", "Pa", "in. w.c.", "Pa"),
     "absolute_pressure": DisplayUnit("pascal", "kilopascal", "inch_Hg", "kPa", "in. Hg"),
-    "temperature": DisplayUnit("degC", "degC", "degF", "°C", "°F"),
-    "temperature_difference": DisplayUnit("kelvin", "kelvin", "delta_degF", "K", "Δ°F"),
-    "airflow": DisplayUnit("m**3/s", "L/s", "cfm", "L/s", "cfm"),
-    "water_flow": DisplayUnit("m**3/s", "L/s", "gpm", "L/s", "gpm"),
+    "temperature": DisplayUnit("degC", "degC", "degF", "°C", "°F", "°C"),
+    "temperature_difference": DisplayUnit("kelvin", "kelvin", "delta_degF", "K", "Δ°F", "K"),
+    "airflow": DisplayUnit("m**3/s", "L/s", "cfm", "L/s", "cfm", "m³/s"),
+    "water_flow": DisplayUnit("m**3/s", "L/s", "gpm", "L/s", "gpm", "m³/s"),
     "heat_rate": DisplayUnit("watt", "kilowatt", "Btu_it/hour", "kW", "Btu/h"),
     "cooling_capacity": DisplayUnit("watt", "kilowatt", "ton_of_refrigeration", "kW", "tons"),
     "electric_power": DisplayUnit("watt", "kilowatt", "kilowatt", "kW", "kW"),
     "motor_power": DisplayUnit("watt", "kilowatt", "horsepower", "kW", "hp"),
     "energy": DisplayUnit("joule", "kilowatt_hour", "kilowatt_hour", "kWh", "kWh"),
-    "co2": DisplayUnit("ppm", "ppm", "ppm", "ppm", "ppm"),
-    "relative_humidity": DisplayUnit("percent", "percent", "percent", "%", "%"),
+    "co2": DisplayUnit("ppm", "ppm", "ppm", "ppm", "ppm", "ppm"),
+    "relative_humidity": DisplayUnit("percent", "percent", "percent", "%", "%", "%"),
     "humidity_ratio": DisplayUnit("kg/kg", "g/kg", "gr_per_lb", "g/kg", "gr/lb"),
     "enthalpy": DisplayUnit("J/kg", "kJ/kg", "Btu_it/lb", "kJ/kg", "Btu/lb"),
     "density": DisplayUnit("kg/m**3", "kg/m**3", "lb/ft**3", "kg/m³", "lb/ft³"),
     "area": DisplayUnit("m**2", "m**2", "ft**2", "m²", "ft²"),
-    "length": DisplayUnit("meter", "meter", "foot", "m", "ft"),
+    "length": DisplayUnit("meter", "meter", "foot", "m", "ft", "m"),
     "velocity": DisplayUnit("m/s", "m/s", "fpm", "m/s", "fpm"),
-    "rotational_speed": DisplayUnit("revolution/second", "rpm", "rpm", "rpm", "rpm"),
-    "frequency": DisplayUnit("hertz", "hertz", "hertz", "Hz", "Hz"),
-    "run_hours": DisplayUnit("hour", "hour", "hour", "h", "h"),
+    "rotational_speed": DisplayUnit("revolution/second", "rpm", "rpm", "rpm", "rpm", "rev/s"),
+    "frequency": DisplayUnit("hertz", "hertz", "hertz", "Hz", "Hz", "Hz"),
+    "run_hours": DisplayUnit("hour", "hour", "hour", "h", "h", "h"),
 }
 
 

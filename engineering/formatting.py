@@ -1,0 +1,128 @@
+"""How a quantity reads: its number at the quantity's usual precision and its unit label, in SI or US.
+
+The one formatter of stored SI values for people. Pages, reasons (``inspections.reasons``), PDFs
+(``reports.documents``) and the sync answer call it; the phone gets ``DECIMALS`` and the unit labels
+published in its evaluation context (``inspections.phone``) and twins ``format_number`` in
+``frontend/static/frontend/js/units.js`` (formatNumber). Conversion factors and labels of the converted
+quantities are ``engineering.units``'s (pint); a few plain quantities (percent, current, time) read the same
+in both systems and are never converted.
+
+Precision is that of a field instrument, not more (common practice): a gauge in Pa reads whole pascals, one
+in in. w.c. two decimals; a thermometer 0.1 °C or 0.1 °F.
+"""
+
+from __future__ import annotations
+
+from engineering import units
+from engineering.units import UnitSystem
+
+__all__ = [
+    "DECIMALS",
+    "PLAIN_UNITS",
+    "UnitSystem",
+    "decimals_of",
+    "display_value",
+    "format_number",
+    "number_text",
+    "quantity_text",
+    "significant_text",
+    "storage_text",
+    "stored_value",
+    "unit_text",
+]
+
+# Quantities whose unit is the same in both systems and not a conversion ("" is a bare number).
+PLAIN_UNITS: dict[str, str] = {"percent": "%", "current": "A", "time": "s", "": ""}
+
+# Display precision per quantity: (SI, US) decimals. Common practice for field readings.
+DECIMALS: dict[str, tuple[int, int]] = {
+    "pressure": (0, 2),
+    "temperature": (1, 1),
+    "temperature_difference": (1, 1),
+    "airflow": (0, 0),
+    "water_flow": (2, 1),
+    "heat_rate": (1, 0),
+    "co2": (0, 0),
+    "relative_humidity": (0, 0),
+    "percent": (0, 0),
+    "current": (1, 1),
+    "time": (0, 0),
+    "rotational_speed": (0, 0),
+    "frequency": (1, 1),
+    "run_hours": (0, 0),
+    "length": (2, 1),
+}
+# A quantity not in the table reads to one decimal in either system.
+_OTHER_DECIMALS = (1, 1)
+
+
+def decimals_of(*, quantity: str, system: str, si_decimals: int | None = None) -> int:
+    """Decimals a value of ``quantity`` shows in ``system`` (``DECIMALS``). ``si_decimals`` (a checklist
+    item's or a reason part's own precision) applies in SI only: its US unit has its own resolution (a
+    whole pascal is two decimals of in. w.c.)."""
+    si, us = DECIMALS.get(quantity, _OTHER_DECIMALS)
+    if system == UnitSystem.US:
+        return us
+    return si if si_decimals is None else si_decimals
+
+
+def unit_text(*, quantity: str, system: str) -> str:
+    """Label of the unit a value of ``quantity`` shows in, e.g. "Pa", "in. w.c.", "%" ("" for a bare number)."""
+    if quantity in PLAIN_UNITS:
+        return PLAIN_UNITS[quantity]
+    return units.unit_label(quantity=quantity, system=system)
+
+
+def storage_text(*, quantity: str) -> str:
+    """Label of the SI unit a value of ``quantity`` is stored in, e.g. "m³/s" (``engineering.units``;
+    "" where no reading is kept in it)."""
+    if quantity in PLAIN_UNITS:
+        return PLAIN_UNITS[quantity]
+    spec = units.QUANTITIES.get(quantity)
+    return spec.storage_label if spec is not None else ""
+
+
+def display_value(value_si: float, *, quantity: str, system: str) -> float:
+    """A stored SI value in ``system``'s display unit (``engineering.units.to_display``; plain quantities
+    as stored)."""
+    if quantity in PLAIN_UNITS:
+        return value_si
+    return units.to_display(value=value_si, quantity=quantity, system=system)
+
+
+def stored_value(value: float, *, quantity: str, system: str) -> float:
+    """A value typed in ``system``'s display unit as stored SI (``engineering.units.from_display``; plain
+    quantities as typed)."""
+    if quantity in PLAIN_UNITS:
+        return value
+    return units.from_display(value=value, quantity=quantity, system=system)
+
+
+def format_number(x: float, *, decimals: int) -> str:
+    """A number as people read it: ``decimals`` places (a tie rounds as Python's format does), thousands
+    grouped from 10 000 (154,000 Btu/h; 1200 cfm), a true minus sign (−), never "−0"."""
+    text = f"{x:,.{decimals}f}" if abs(x) >= 10_000 else f"{x:.{decimals}f}"
+    if float(text.replace(",", "")) == 0:
+        text = text.lstrip("-")
+    return text.replace("-", "−")
+
+
+def number_text(value_si: float, *, quantity: str, system: str, decimals: int | None = None) -> str:
+    """A stored SI value as a reader sees it, without its unit label: in ``system``'s unit at the quantity's
+    usual precision, or at ``decimals`` in either system."""
+    d = decimals_of(quantity=quantity, system=system) if decimals is None else decimals
+    return format_number(display_value(value_si, quantity=quantity, system=system), decimals=d)
+
+
+def quantity_text(value_si: float, *, quantity: str, system: str, decimals: int | None = None) -> str:
+    """A stored SI value with its unit label, e.g. "0.84 in. w.c.", "12,000 L/s", "45 %"; precision as
+    ``number_text``."""
+    text = number_text(value_si, quantity=quantity, system=system, decimals=decimals)
+    unit = unit_text(quantity=quantity, system=system)
+    return f"{text} {unit}" if unit else text
+
+
+def significant_text(x: float, *, figures: int = 4) -> str:
+    """A typed number echoed back to its sender at ``figures`` significant figures, without trailing zeros
+    and with a true minus sign: 249.08891 → "249.1", 100000 → "100000", −0.5 → "−0.5"."""
+    return f"{float(f'{x:.{figures}g}'):g}".replace("-", "−")
