@@ -30,12 +30,29 @@ _ROUND = 9
 
 
 class Verdict(StrEnum):
+    """The verdict of a judged reading: the one vocabulary of the checks here, the stored evaluations and
+    readings (``inspections.models``), pages, PDFs and the phone (evaluate.js, checklist.js keep the values).
+    ``NOT_APPLICABLE`` is an answer "not applicable": recorded, never judged."""
+
     OK = "ok"
     WATCH = "watch"
     FAIL = "fail"
+    NOT_APPLICABLE = "na"
+
+    @property
+    def label(self) -> str:
+        """The verdict as a person reads it: "OK", "Watch", "Fail", "Not applicable"."""
+        return _LABELS[self]
 
 
-_RANK = {Verdict.OK: 0, Verdict.WATCH: 1, Verdict.FAIL: 2}
+_LABELS = {
+    Verdict.OK: "OK",
+    Verdict.WATCH: "Watch",
+    Verdict.FAIL: "Fail",
+    Verdict.NOT_APPLICABLE: "Not applicable",
+}
+# Not applicable is no judgement: any judged verdict outranks it.
+_RANK = {Verdict.NOT_APPLICABLE: -1, Verdict.OK: 0, Verdict.WATCH: 1, Verdict.FAIL: 2}
 
 
 def worst(*verdicts: Verdict) -> Verdict:

@@ -10,6 +10,7 @@ import datetime as dt
 
 from django.utils import timezone
 
+from engineering.controls import Verdict
 from inspections import display
 from inspections.models import Evaluation, Finding, Inspection
 from inspections.reasons import text_said_once
@@ -56,7 +57,7 @@ def site_summaries(*, user, as_of: dt.datetime | None = None) -> tuple[complianc
             "site": s,
             "units": 0,
             "overdue": 0,
-            "filters": dict.fromkeys(("fail", "watch", "ok", "none"), 0),
+            "filters": dict.fromkeys((Verdict.FAIL, Verdict.WATCH, Verdict.OK, "none"), 0),
             "freeze": dict.fromkeys(compliance.FREEZE_LABELS, 0),
             "freeze_not_ready": [],
         }
@@ -68,7 +69,7 @@ def site_summaries(*, user, as_of: dt.datetime | None = None) -> tuple[complianc
         rows[item["work_order"].ahu.building.site_id]["overdue"] += 1
     for item in figures.filters:
         if item["filter"] is not None:
-            verdict = item["verdict"] if item["verdict"] in ("fail", "watch", "ok") else "none"
+            verdict = item["verdict"] if item["verdict"] in (Verdict.FAIL, Verdict.WATCH, Verdict.OK) else "none"
             rows[item["unit"].building.site_id]["filters"][verdict] += 1
     for item in figures.freeze:
         rows[item["unit"].building.site_id]["freeze"][item["status"]] += 1

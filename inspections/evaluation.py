@@ -16,20 +16,19 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from engineering import controls, filters, heat_recovery, outdoor_air, ventilation
+from engineering import formatting as fmt
 from engineering import units as eng_units
 from engineering.airside import coil_balance, dry_air_density_kg_m3, sensible_heat_w, water_side_heat_w
+from engineering.controls import Verdict
 from engineering.errors import EngineeringInputError
 from engineering.fans import expected_flow_at_speed
 from engineering.filters import FilterPoint
 from engineering.psychro import pressure_from_altitude
 from inspections import reasons as rs
-from inspections.checklists import storage_unit_label
 from inspections.display import DRIFT_QUANTITIES, plain_message, refusal_parts
 from inspections.reasons import q as qty
 from inspections.reasons import span
 from inspections.selectors import filter_design_airflow_m3s
-
-OK, WATCH, FAIL, NA = "ok", "watch", "fail", "na"
 
 # Every check name a Result can carry. The phone's twin (frontend/static/frontend/js/evaluate.js)
 # must judge each of them the same way; tests/inspections/test_phone_agreement.py holds it to that.
@@ -107,7 +106,7 @@ class Result:
     check: str
     item: str
     component: Any = None  # inventory Component or None
-    verdict: str = OK
+    verdict: str = Verdict.OK
     reason: str = ""
     method: str = ""
     derived: dict[str, Any] = field(default_factory=dict)
@@ -193,15 +192,15 @@ def _reading_result(slot, value: Value) -> Result | None:
     if value.na:
         return None
     if it.kind == "check":
-        res.verdict = OK if value.text == "ok" else FAIL
+        res.verdict = Verdict.OK if value.text == "ok" else Verdict.FAIL
         # The verdict shows beside the reason: the reason says what was confirmed, not "ok" again.
-        res.reason = f"{'confirmed' if res.verdict == OK else 'not confirmed'}: {it.label}"
+        res.reason = f"{'confirmed' if res.verdict == Verdict.OK else 'not confirmed'}: {it.label}"
         return res
     if it.kind == "choice":
         choice = next((c for c in it.choices if c["value"] == value.text), None)
         if choice is None:
             return None
-        res.verdict = OK if choice.get("ok", True) else FAIL
+        res.verdict = Verdict.OK if choice.get("ok", True) else Verdict.FAIL
         res.reason = f"{it.label}: {choice['label']}"
         return res
     if it.kind == "number" and value.number is not None:
@@ -215,7 +214,7 @@ def _reading_result(slot, value: Value) -> Result | None:
             watch_low=lim.get("watch_min"),
             watch_high=lim.get("watch_max"),
             label=it.label.lower(),
-            unit=storage_unit_label(it.quantity),
+            unit=fmt.storage_text(quantity=it.quantity),
         )
         res.check = "limits"
         res.verdict = check.verdict.value
@@ -242,9 +241,9 @@ def _band_parts(it, x: float, lim: dict, verdict: str) -> list:
             return [" outside ", span(lo, hi, it.quantity, d)]
         return [" above ", qty(hi, it.quantity, d)] if hi is not None else [" below ", qty(lo, it.quantity, d)]
 
-    if verdict == OK:
+    if verdict == Verdict.OK:
         return [*head, " is", *inside(ok_lo, ok_hi)]
-    if verdict == WATCH:
+    if verdict == Verdict.WATCH:
         return [*head, " is", *outside(ok_lo, ok_hi), " but", *inside(w_lo, w_hi)]
     return [*head, " is", *outside(w_lo, w_hi)]
 
@@ -296,7 +295,7 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
         missing = next((w for k, w in (("clean_dp_pa", "clean"), ("final_dp_pa", "final")) if k not in specs), None)
         if missing is not None:
             # Said in plain words: a reader never sees a registry field name.
-            res.verdict = WATCH
+            res.verdict = Verdict.WATCH
             res.reason = (
                 f"cannot judge the filter loading: the filter bank has no {missing} pressure drop in the registry"
             )
@@ -311,7 +310,7 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
                 final_dp_pa=specs["final_dp_pa"],
             )
         except EngineeringInputError as exc:
-            res.verdict = WATCH
+            res.verdict = Verdict.WATCH
             res.say("cannot judge the filter loading: ", refusal_parts(exc))
             out.append(res)
             continue
@@ -338,7 +337,7 @@ def _filter_checks(form: Form, consumed: set) -> list[Result]:
                 ": "
                 + (
                     "missing, torn or bypassed media"
-                    if res.verdict == FAIL
+                    if res.verdict == Verdict.FAIL
                     else "lower than a filter in service should read, check for torn or bypassed media"
                 )
                 + f" (fail below {filters.BYPASS_FAIL_FRACTION * 100:.0f} %, watch below "
@@ -417,7 +416,7 @@ def _filter_change_checks(form: Form, consumed: set) -> list[Result]:
         try:
             chk = filters.filter_after_change(dp_pa=dp, airflow_m3s=q, design_airflow_m3s=design_q, clean_dp_pa=clean)
         except EngineeringInputError as exc:
-            res.verdict = WATCH
+            res.verdict = Verdict.WATCH
             res.say(f"{bank.name}: cannot judge the pressure drop after the change: ", refusal_parts(exc))
             out.append(res)
             continue
@@ -502,7 +501,11 @@ def required_outdoor_airflow_m3s(ahu) -> float | None:
 # The start of an outdoor-air refusal that names the measurement itself (engineering.outdoor_air).
 CANNOT_COMPUTE_FRACTION = "cannot compute an outdoor-air fraction"
 # How the outdoor-air fraction stands against the ventilation requirement, in words (never the verdict's code).
-REQUIREMENT_WORDS = {OK: "met", WATCH: "cannot decide (the band spans it)", FAIL: "not met"}
+REQUIREMENT_WORDS: dict[str, str] = {
+    Verdict.OK: "met",
+    Verdict.WATCH: "cannot decide (the band spans it)",
+    Verdict.FAIL: "not met",
+}
 
 
 def space_label(ahu) -> str:
@@ -559,7 +562,7 @@ def _oa_checks(form: Form, consumed: set) -> list[Result]:
             frac = compute()
         except EngineeringInputError as exc:
             by = "CO2" if method == "co2" else "temperatures"
-            res.verdict = WATCH
+            res.verdict = Verdict.WATCH
             lead = f"outdoor-air fraction by {by}: "
             # A refusal that already says "cannot compute an outdoor-air fraction by …" is not led by it again.
             res.say("" if str(exc).startswith(CANNOT_COMPUTE_FRACTION) else lead, refusal_parts(exc))
@@ -596,7 +599,7 @@ def _oa_checks(form: Form, consumed: set) -> list[Result]:
             "" if need_vr is None else f"; requirement by ASHRAE 62.1: {need_vr.method}"
         )
         if ahu.full_outdoor_air:
-            res.verdict = OK
+            res.verdict = Verdict.OK
             res.reason = f"100 % outdoor-air unit; measured fraction {frac.fraction * 100:.0f} %"
             out.append(res)
             continue
@@ -639,16 +642,15 @@ def _oa_checks(form: Form, consumed: set) -> list[Result]:
 # traverse or the unit's flow station about ±10 % (common practice); the first fan law from a speed
 # reading, with belt slip and a filter loaded since the design point, about ±15 % (common practice).
 AIRFLOW_UNCERTAINTY = {"measured": 0.10, "fan_speed": 0.15}
-RANK = {OK: 0, WATCH: 1, FAIL: 2}
 
 
-def _airflow_band_verdict(*, q: float, u: float, minimum: float) -> str:
+def _airflow_band_verdict(*, q: float, u: float, minimum: float) -> Verdict:
     """ok at or above the minimum; below it, watch within the uncertainty ``u`` and fail beyond it."""
     if q >= minimum:
-        return OK
+        return Verdict.OK
     if q + u >= minimum:
-        return WATCH
-    return FAIL
+        return Verdict.WATCH
+    return Verdict.FAIL
 
 
 def _full_oa_checks(form: Form, consumed: set) -> list[Result]:
@@ -669,7 +671,7 @@ def _full_oa_checks(form: Form, consumed: set) -> list[Result]:
         "" if need is None else f"; requirement by ASHRAE 62.1: {need.method}"
     )
     if q_how.startswith("design"):
-        res.verdict = WATCH
+        res.verdict = Verdict.WATCH
         res.say(
             "100 % outdoor-air unit: the outdoor air delivered cannot be judged without the supply airflow; "
             "measure the supply airflow (or read the supply fan speed) at the visit"
@@ -704,7 +706,7 @@ def _full_oa_checks(form: Form, consumed: set) -> list[Result]:
         )
         req_verdict = _airflow_band_verdict(q=q, u=u, minimum=need.vot_m3s)
         # Short of the design but the space's requirement met: a unit to look after, not a ventilation failure.
-        verdict = max(req_verdict, WATCH if design_verdict != OK else OK, key=RANK.__getitem__)
+        verdict = controls.worst(req_verdict, Verdict.WATCH if design_verdict != Verdict.OK else Verdict.OK)
         parts += [
             "; the space needs ",
             qty(need.vot_m3s, "airflow"),
@@ -754,7 +756,7 @@ def _coil_checks(form: Form, consumed: set) -> list[Result]:
             res = Result(check="coil_balance", item=f"{template}.water_flow", component=coil)
             if fluid is None:
                 if coil.specs.get("fluid") == "glycol":
-                    res.verdict = WATCH
+                    res.verdict = Verdict.WATCH
                     res.reason = (
                         f"{coil.name}: cannot balance the coil: the registry does not give the glycol's kind "
                         "and concentration"
@@ -787,7 +789,7 @@ def _coil_checks(form: Form, consumed: set) -> list[Result]:
                 )
                 bal = coil_balance(air_side_w=air, water_side_w=water, tolerance_pct=COIL_TOLERANCE_PCT)
             except EngineeringInputError as exc:
-                res.verdict = WATCH
+                res.verdict = Verdict.WATCH
                 res.say(f"{coil.name}: cannot balance the coil: ", refusal_parts(exc))
                 out.append(res)
                 break
@@ -823,9 +825,9 @@ def _coil_checks(form: Form, consumed: set) -> list[Result]:
                 f": {abs(bal.difference_pct):.1f} % apart ({which}; ok within {COIL_TOLERANCE_PCT:g} %, "
                 f"watch within {2 * COIL_TOLERANCE_PCT:g} %)",
             ]
-            if coil.specs.get("duty") == "cooling" and res.verdict == FAIL:
+            if coil.specs.get("duty") == "cooling" and res.verdict == Verdict.FAIL:
                 # Latent heat is not measured, so a wet cooling coil reads high on the water side.
-                res.verdict = WATCH
+                res.verdict = Verdict.WATCH
                 parts.append(" (cooling coil: air side is sensible only, latent heat not measured)")
             res.say(parts)
             out.append(res)
@@ -993,7 +995,7 @@ def _heat_recovery_checks(form: Form, consumed: set) -> list[Result]:
                 t_outdoor_c=t_o, t_supply_after_recovery_c=t_s, t_extract_c=t_e
             )
         except EngineeringInputError as exc:
-            res.verdict = WATCH
+            res.verdict = Verdict.WATCH
             res.say(f"{hx.name}: {plain_message(exc)}")
             out.append(res)
             continue
@@ -1016,7 +1018,7 @@ def _heat_recovery_checks(form: Form, consumed: set) -> list[Result]:
         ]
         design = hx.specs.get("design_effectiveness_pct")
         if design is None:
-            res.verdict = WATCH
+            res.verdict = Verdict.WATCH
             res.say(
                 f"{hx.name}: effectiveness {pct:.0f} % ± {u_pct:.0f} points",
                 temps,

@@ -64,6 +64,7 @@ from dataclasses import dataclass, field
 
 from django.db.models import Exists, OuterRef, Q
 
+from engineering import controls
 from engineering.freeze import daily_minimums_from_normals
 from inventory.models import AHU, Component, ComponentKind, Site
 from scheduling.models import work_order_state_words
@@ -312,7 +313,10 @@ def _steps_of(unit_components: list[tuple[int, str, str, str]]) -> list[_Step]:
     return steps
 
 
-_VERDICT_WORDS = {"watch": " (near its limit, not proven)", None: " (not checked)"}
+_VERDICT_WORDS: dict[str | None, str] = {
+    controls.Verdict.WATCH: " (near its limit, not proven)",
+    None: " (not checked)",
+}
 
 
 def _corrective_state(wo_state: str | None, approval: str | None) -> str:
@@ -390,7 +394,7 @@ def freeze_readiness(
                 comp = change.get("component")
                 comp_id = labels.get(comp) if comp else None
                 after = (change.get("after") or {}).get("verdict") or None
-                verdicts[insp_id][(key, comp_id)] = None if after == "na" else after
+                verdicts[insp_id][(key, comp_id)] = None if after == controls.Verdict.NOT_APPLICABLE else after
     corrective_of_test: dict[int, set[str]] = defaultdict(set)
     open_of_unit: dict[int, list[OpenFinding]] = defaultdict(list)
     tz_of: dict[int, zoneinfo.ZoneInfo] = {}
@@ -425,14 +429,14 @@ def freeze_readiness(
         not_passed, failed = [], False
         for step in steps_of_unit[ahu_id]:
             v = got.get((step.key, step.component_id))
-            if v == "ok":
+            if v == controls.Verdict.OK:
                 continue
-            failed = failed or v == "fail"
+            failed = failed or v == controls.Verdict.FAIL
             not_passed.append(step.words + _VERDICT_WORDS.get(v, ""))
         # A judgement outside the expected steps (an optional item, an older template's) that failed counts too.
         expected = {(s.key, s.component_id) for s in steps_of_unit[ahu_id]}
         for (key, comp_id), v in got.items():
-            if (key, comp_id) not in expected and v == "fail":
+            if (key, comp_id) not in expected and v == controls.Verdict.FAIL:
                 failed = True
                 not_passed.append(key.split(".", 1)[1].replace("_", " "))
         tz = tz_of[unit_site[ahu_id]]

@@ -16,16 +16,13 @@ from django.db.models.functions import Coalesce
 from django.utils import timezone
 
 from accounts.models import Organisation
+from engineering.controls import Verdict
 from inventory.display import local_date_text
 from inventory.models import AHU, Component
 from scheduling.models import WorkOrder
 
-
-class Verdict(models.TextChoices):
-    OK = "ok", "OK"
-    WATCH = "watch", "Watch"
-    FAIL = "fail", "Fail"
-    NOT_APPLICABLE = "na", "Not applicable"
+# A verdict's database choices: the values and labels of the one vocabulary, engineering.controls.Verdict.
+VERDICT_CHOICES = [(v.value, v.label) for v in Verdict]
 
 
 class ChecklistTemplate(models.Model):
@@ -212,7 +209,7 @@ class Reading(models.Model):
     value_text = models.CharField(max_length=2000, blank=True, help_text="ok/not_ok/na, a choice value, or text.")
     entered = models.JSONField(null=True, blank=True, help_text="The value as typed, in the form's units.")
     note = models.TextField(blank=True)
-    verdict = models.CharField(max_length=5, choices=Verdict.choices, blank=True)
+    verdict = models.CharField(max_length=5, choices=VERDICT_CHOICES, blank=True)
     reason = models.TextField(blank=True)
     reason_parts = models.JSONField(
         default=list, blank=True, help_text="The reason as text and SI quantities (inspections.reasons)."
@@ -238,7 +235,7 @@ class Evaluation(models.Model):
     check_name = models.CharField(max_length=60)
     item_key = models.CharField(max_length=100)
     component = models.ForeignKey(Component, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
-    verdict = models.CharField(max_length=5, choices=Verdict.choices)
+    verdict = models.CharField(max_length=5, choices=VERDICT_CHOICES)
     reason = models.TextField(help_text="SI text, as judged (the record).")
     reason_parts = models.JSONField(
         default=list,

@@ -17,6 +17,7 @@ from django.utils import timezone
 
 from accounts.changes import organisation_changed
 from accounts.services import audit_record
+from engineering.controls import Verdict
 from engineering.freeze import daily_minimums_from_normals
 from engineering.outdoor_air import fraction_words
 from scheduling.titles import title_fit
@@ -405,13 +406,13 @@ def findings_open(
     seen_at = opened_at or inspection.finished_at
     by_template = _template_conditions()
     pairs = list(zip(evaluations, results, strict=True))
-    labels = _step_labels({res.item for ev, res in pairs if ev.verdict == "fail" and res.check in STEP_CHECKS})
+    labels = _step_labels({res.item for ev, res in pairs if ev.verdict == Verdict.FAIL and res.check in STEP_CHECKS})
     found: dict[int, Finding] = {}
     needs_work: dict[str, dict] = {}
     replaced = banks_replaced(results=results)
     failing = []
     for ev, res in pairs:
-        if ev.verdict != "fail":
+        if ev.verdict != Verdict.FAIL:
             continue
         if res.check == "filter_loading" and res.component is not None and res.component.pk in replaced:
             continue  # the old set, read before it was replaced on this visit: the replacement answers it
@@ -483,7 +484,7 @@ def banks_replaced(*, results) -> set[int]:
     return {
         res.component.pk
         for res in results
-        if res.item == "filter_replace.replaced" and res.verdict == "ok" and res.component is not None
+        if res.item == "filter_replace.replaced" and res.verdict == Verdict.OK and res.component is not None
     }
 
 
@@ -503,7 +504,7 @@ def findings_resolve(*, inspection: Inspection, evaluations, results, failed: se
     ok = {
         (problem_of(check=res.check, item=res.item), res.component.pk if res.component else None)
         for ev, res in zip(evaluations, results, strict=True)
-        if ev.verdict == "ok"
+        if ev.verdict == Verdict.OK
     }
     replaced = banks_replaced(results=results)
     if not ok and not replaced:
@@ -769,7 +770,9 @@ def findings_close_cleared(*, inspection: Inspection, amendment, results, by) ->
     supervisor. The corrective work it proposed is left as it is; the supervisor may reject or cancel it.
     """
     passing = {
-        (res.check, res.item, res.component.pk if res.component else None) for res in results if res.verdict == "ok"
+        (res.check, res.item, res.component.pk if res.component else None)
+        for res in results
+        if res.verdict == Verdict.OK
     }
     found = [
         f

@@ -24,6 +24,7 @@ from django.utils import timezone
 
 from accounts.changes import changes_deferred, organisation_changed
 from accounts.services import audit_record, audits_deferred
+from engineering.controls import Verdict
 from engineering.errors import EngineeringInputError
 from engineering.filters import FilterPoint
 from scheduling.models import WorkOrder
@@ -492,7 +493,7 @@ def _evaluate(parsed: Parsed) -> list[evaluation.Result]:
 
 
 def _not_ok(reading: Reading) -> bool:
-    return reading.verdict == "fail"
+    return reading.verdict == Verdict.FAIL
 
 
 def _flags(parsed: Parsed, user, wo: WorkOrder, results) -> list[dict]:
@@ -659,7 +660,7 @@ def _store(parsed: Parsed, user, results, batch: Batch | None = None) -> dict:
     for r in parsed.readings:
         res = by_reading.get((r.item.api_key, r.component.pk if r.component else None))
         if r.value_text == "na":
-            r.verdict = "na"
+            r.verdict = Verdict.NOT_APPLICABLE
         elif res is not None:
             r.verdict, r.reason, r.reason_parts = res.verdict, res.reason, res.reason_parts
     try:

@@ -14,6 +14,7 @@ from datetime import datetime, timedelta
 from django.core.exceptions import ValidationError
 
 from accounts.models import Organisation
+from engineering.controls import Verdict
 from inventory.display import usual_zone
 from inventory.selectors import sites_visible_to
 from reports import charts
@@ -69,7 +70,7 @@ def build(*, report) -> Built:
         d = row["derived"]
         row["corrected_dp"] = shown(row["corrected_dp_pa"], "pressure", system)
         row["loading"] = f"{d['loading_pct']:.0f} %" if isinstance(d.get("loading_pct"), int | float) else "—"
-    filter_counts = {"ok": 0, "watch": 0, "fail": 0, "none": 0}
+    filter_counts = dict.fromkeys((Verdict.OK, Verdict.WATCH, Verdict.FAIL, "none"), 0)
     for row in figures.filters:
         filter_counts[row["verdict"] if row["verdict"] in filter_counts else "none"] += 1
     high_findings = sum(sum(figures.findings_matrix.get(s, {}).values()) for s in ("critical", "high"))

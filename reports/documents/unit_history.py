@@ -30,7 +30,7 @@ from django.utils.html import escape
 from django.utils.safestring import mark_safe
 
 from accounts.clock import local_date_of
-from engineering.controls import damper_position_check, static_pressure_check, supply_temperature_check
+from engineering.controls import Verdict, damper_position_check, static_pressure_check, supply_temperature_check
 from engineering.errors import EngineeringInputError
 from engineering.filters import filter_forecast
 from engineering.units import to_display, unit_label
@@ -400,9 +400,9 @@ def _visit(
             attached.add((code, e.component_id))
         reason = ""
         finding = by_problem.get((e.component_id, problem_of(check=e.check_name, item=e.item_key)))
-        if e.verdict == "fail" and finding is not None:
+        if e.verdict == Verdict.FAIL and finding is not None:
             reason = f"finding: {finding.title} (first seen {finding.opened_at.astimezone(tz):%Y-%m-%d})"
-        elif e.verdict not in ("ok", "") or (not limit and e.check_name not in (*ANSWERS, "limits")):
+        elif e.verdict not in (Verdict.OK, "") or (not limit and e.check_name not in (*ANSWERS, "limits")):
             text = reasons.text_without_subject(reason_for(evaluation=e, unit_system=system), part or None)
             reason = _BANDS.sub("", text) if limit else text
             if e.check_name in ("filter_loading", "filter_after_change") or e.check_name in VALUE_KEYS:
@@ -462,7 +462,7 @@ def _merge_answers(rows: list[dict]) -> list[dict]:
     out: list[dict] = []
     same: dict[tuple, dict] = {}
     for row in rows:
-        if row["answer"] and row["verdict_code"] == "ok" and not row["reason"] and row["parts"]:
+        if row["answer"] and row["verdict_code"] == Verdict.OK and not row["reason"] and row["parts"]:
             key = (row["check"], row["values"])
             if key in same:
                 same[key]["parts"].append(row["parts"][0])

@@ -97,9 +97,9 @@ def test_engineering_refusals_lose_their_argument_names():
 
 
 def test_verdicts_read_as_the_phone_says_them():
-    """OK, Watch, Fail as the verdict's choice labels (models.Verdict), never the lowercase code; "na" reads
-    "Not applicable"; no verdict reads "Recorded"."""
-    from inspections.models import Verdict
+    """OK, Watch, Fail as the verdict's labels (engineering.controls.Verdict, the stored choices' labels too),
+    never the lowercase code; "na" reads "Not applicable"; no verdict reads "Recorded"."""
+    from inspections.models import VERDICT_CHOICES
 
     assert [display.verdict_words(v) for v in ("ok", "watch", "fail", "na", "")] == [
         "OK",
@@ -108,7 +108,7 @@ def test_verdicts_read_as_the_phone_says_them():
         "Not applicable",
         "Recorded",
     ]
-    assert all(display.verdict_words(code) == label for code, label in Verdict.choices)
+    assert all(display.verdict_words(code) == label for code, label in VERDICT_CHOICES)
 
 
 @pytest.mark.parametrize(

@@ -7,6 +7,7 @@ import { fixed, pyRound, render } from "./units.js";
 
 export { fixed, pyRound };
 
+// The verdict values of engineering/controls.py Verdict (tests/inspections/test_verdict_words.py holds them equal).
 export const OK = "ok";
 export const WATCH = "watch";
 export const FAIL = "fail";
@@ -17,7 +18,7 @@ export const CHECKS = [
   "full_oa_airflow", "coil_balance", "supply_temperature", "duct_static", "damper_position", "sensor_drift", "heat_recovery",
 ];
 
-const RANK = { ok: 0, watch: 1, fail: 2 };
+const RANK = { [OK]: 0, [WATCH]: 1, [FAIL]: 2 };
 const worst = (...vs) => vs.reduce((a, b) => (RANK[b] > RANK[a] ? b : a), OK);
 
 // ---------------------------------------------------------------------------
