@@ -9,6 +9,8 @@ granted to them. The visibility rule itself lives in one selector:
 from django.contrib.auth.models import AbstractUser
 from django.db import models
 
+from engineering import units
+
 
 class Organisation(models.Model):
     class Kind(models.TextChoices):
@@ -42,8 +44,9 @@ class Role(models.TextChoices):
 
 class User(AbstractUser):
     class UnitSystem(models.TextChoices):
-        SI = "si", "SI (Pa, °C, m³/s, kW)"
-        US = "us", "US customary (in. w.c., °F, cfm, Btu/h)"
+        # The values are engineering.units.UnitSystem's, the one list of display systems; the words are a person's.
+        SI = units.UnitSystem.SI.value, "SI (Pa, °C, m³/s, kW)"
+        US = units.UnitSystem.US.value, "US customary (in. w.c., °F, cfm, Btu/h)"
 
     unit_system = models.CharField(max_length=2, choices=UnitSystem.choices, default=UnitSystem.SI)
     phone = models.CharField(max_length=40, blank=True)

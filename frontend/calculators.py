@@ -14,10 +14,11 @@ from accounts.inputs import parse_number
 from engineering import _validate as limits
 from engineering import airside, filters, outdoor_air
 from engineering.errors import EngineeringInputError
+from engineering.formatting import decimals_of, format_number, number_text
 from engineering.psychro import STANDARD_PRESSURE_PA, pressure_from_altitude
-from engineering.units import from_display, sensible_bound, to_display, unit_label
+from engineering.units import SYSTEMS, UnitSystem, from_display, sensible_bound, to_display, unit_label
 from inspections.display import plain_message
-from inspections.reasons import decimals_of, display_number, format_number, q, render
+from inspections.reasons import q, render
 
 
 @dataclass(frozen=True)
@@ -64,7 +65,7 @@ def places_for(user) -> list[Place]:
 
 def _altitude(place: Place, system: str) -> str:
     unit = unit_label(quantity="length", system=system)
-    return f"{display_number(place.altitude_m, 'length', system, decimals=0)} {unit}"
+    return f"{number_text(place.altitude_m, quantity='length', system=system, decimals=0)} {unit}"
 
 
 def place_words(place: Place, system: str) -> str:
@@ -77,8 +78,8 @@ def place_words(place: Place, system: str) -> str:
 def air_assumed(place: Place, system: str) -> str:
     """What the figure assumed of the air, in the person's units: "dry air at 97.2 kPa, the standard atmosphere
     at 350 m (Harbour House)"."""
-    d = 1 if system == "si" else 2  # kPa to 0.1, in. Hg to 0.01 as barometers read (common practice)
-    pressure = display_number(place.pressure_pa, "absolute_pressure", system, decimals=d)
+    d = 1 if system == UnitSystem.SI else 2  # kPa to 0.1, in. Hg to 0.01 as barometers read (common practice)
+    pressure = number_text(place.pressure_pa, quantity="absolute_pressure", system=system, decimals=d)
     where = "at sea level" if not place.name else f"at {_altitude(place, system)} ({place.name})"
     return (
         f"dry air at {pressure} {unit_label(quantity='absolute_pressure', system=system)}, "
@@ -105,7 +106,7 @@ def _row(label: str, value: float, quantity: str, system: str) -> dict:
     """A figure in the reader's unit at the quantity's usual precision (as the checklist's reasons show it)."""
     return {
         "label": label,
-        "value": display_number(value, quantity, system),
+        "value": number_text(value, quantity=quantity, system=system),
         "unit": unit_label(quantity=quantity, system=system),
     }
 
@@ -136,7 +137,7 @@ def _filter_loading(system: str, **si) -> list[dict]:
         _row("Pressure drop at design airflow", result.corrected_dp_pa, "pressure", system),
         {
             "label": "Loading (clean = 0 %, final = 100 %)",
-            "value": format_number(result.fraction_of_span * 100, 0),
+            "value": format_number(result.fraction_of_span * 100, decimals=0),
             "unit": "%",
         },
         {"label": "Verdict", "value": result.verdict.value, "unit": "", "verdict": result.verdict.value},
@@ -230,7 +231,7 @@ def bounds(spec: Input, system: str) -> tuple[float | None, float | None]:
     """The input's allowed range in the person's unit at the quantity's display precision, rounded inward so
     that a bound as shown, typed back, is allowed: 2,500 Pa is at most 10.03 in. w.c. (10.04 in. w.c. is
     2,500.9 Pa; 1 in. w.c. = 249.0889 Pa, engineering/units.py)."""
-    d = decimals_of(spec.quantity, system)
+    d = decimals_of(quantity=spec.quantity, system=system)
     scale = 10**d
 
     def shown(value_si: float | None, inward: Callable[[float], float]) -> float | None:
@@ -247,14 +248,14 @@ def _bound_text(value: float, *, upper: bool, decimals: int) -> str:
     with no decimals it does not need: "10", "210,000", "0.5"."""
     x = sensible_bound(value, upper=upper)
     d = 0 if float(x).is_integer() else decimals
-    return format_number(x, d)
+    return format_number(x, decimals=d)
 
 
 def allowed_text(spec: Input, system: str) -> str:
     """ "from 0 to 10 in. w.c.": the range as a person reads it, its limits at sensible figures rounded inward
     (the exact limits, ``bounds``, are what is accepted: 10.03 in. w.c. is still worked)."""
     lo, hi = bounds(spec, system)
-    d = decimals_of(spec.quantity, system)
+    d = decimals_of(quantity=spec.quantity, system=system)
     unit = unit_label(quantity=spec.quantity, system=system)
     lo_text = _bound_text(lo, upper=False, decimals=d) if lo is not None else ""
     hi_text = _bound_text(hi, upper=True, decimals=d) if hi is not None else ""
@@ -310,8 +311,8 @@ def _restate(exc: EngineeringInputError, inputs: dict[str, Input], typed: dict, 
     if spec is None or (exc.low is None and exc.high is None):
         return plain_message(exc)
     unit = unit_label(quantity=spec.quantity, system=system)
-    lo = None if exc.low is None else display_number(exc.low, spec.quantity, system)
-    hi = None if exc.high is None else display_number(exc.high, spec.quantity, system)
+    lo = None if exc.low is None else number_text(exc.low, quantity=spec.quantity, system=system)
+    hi = None if exc.high is None else number_text(exc.high, quantity=spec.quantity, system=system)
     allowed = (
         f"from {lo} to {hi} {unit}"
         if lo is not None and hi is not None
@@ -377,15 +378,14 @@ def calculator_context(places: list[Place] | None = None) -> dict:
     """What calc.js needs to work every figure offline with the same numbers: the inputs of each
     calculator (name, label, quantity, SI range, its range as shown in each unit system), the person's places
     with their pressure and words, the display-unit factors and the thresholds."""
-    from inspections.phone import constants, unit_table
-    from inspections.reasons import DECIMALS
+    from inspections.phone import constants, decimals_table, unit_table
 
     def shown(i: Input) -> dict:
         if not i.quantity:
             return {}
         return {
-            "bounds": {s: list(bounds(i, s)) for s in ("si", "us")},
-            "allowed": {s: allowed_text(i, s) for s in ("si", "us")},
+            "bounds": {s: list(bounds(i, s)) for s in SYSTEMS},
+            "allowed": {s: allowed_text(i, s) for s in SYSTEMS},
         }
 
     return {
@@ -409,12 +409,12 @@ def calculator_context(places: list[Place] | None = None) -> dict:
             {
                 "key": p.key,
                 "pressure_pa": p.pressure_pa,
-                "words": {s: place_words(p, s) for s in ("si", "us")},
-                "assumed": {s: air_assumed(p, s) for s in ("si", "us")},
+                "words": {s: place_words(p, s) for s in SYSTEMS},
+                "assumed": {s: air_assumed(p, s) for s in SYSTEMS},
             }
             for p in places or [SEA_LEVEL]
         ],
         "units": unit_table(),
-        "decimals": {q: list(d) for q, d in DECIMALS.items()},
+        "decimals": decimals_table(),
         "constants": constants(),
     }

@@ -19,7 +19,7 @@ from __future__ import annotations
 from typing import Any
 
 from engineering import filters as eng_filters
-from engineering import units as eng_units
+from engineering import formatting as fmt
 
 LOCKOUT = (
     "Lock out and tag out the fan motor (and any electric heater) and prove it dead before opening an "
@@ -891,43 +891,18 @@ TEMPLATES: list[dict[str, Any]] = [
 
 TASK_CODES = [t["code"] for t in TEMPLATES]
 
-# Quantities whose unit is the same in both systems and not a conversion.
-_PLAIN_UNITS = {"percent": "%", "current": "A", "time": "s", "": ""}
-_STORAGE_LABELS = {
-    "pressure": "Pa",
-    "temperature": "°C",
-    "temperature_difference": "K",
-    "airflow": "m³/s",
-    "water_flow": "m³/s",
-    "co2": "ppm",
-    "relative_humidity": "%",
-    "rotational_speed": "rev/s",
-    "frequency": "Hz",
-    "run_hours": "h",
-    "length": "m",
-}
 
-
-def storage_unit_label(quantity: str) -> str:
-    return _PLAIN_UNITS.get(quantity) or _STORAGE_LABELS.get(quantity, "")
-
-
+# A reading's units, labels and conversion are engineering.formatting's; these take a missing value through.
 def display_unit_label(quantity: str, system: str) -> str:
-    if quantity in _PLAIN_UNITS:
-        return _PLAIN_UNITS[quantity]
-    return eng_units.unit_label(quantity=quantity, system=system)
+    return fmt.unit_text(quantity=quantity, system=system)
 
 
 def to_display(value: float | None, quantity: str, system: str) -> float | None:
-    if value is None or quantity in _PLAIN_UNITS:
-        return value
-    return eng_units.to_display(value=value, quantity=quantity, system=system)
+    return None if value is None else fmt.display_value(value, quantity=quantity, system=system)
 
 
 def from_display(value: float, quantity: str, system: str) -> float:
-    if quantity in _PLAIN_UNITS:
-        return value
-    return eng_units.from_display(value=value, quantity=quantity, system=system)
+    return fmt.stored_value(value, quantity=quantity, system=system)
 
 
 def dynamic_limits(*, rule: str, ahu, component) -> dict[str, float | None]:

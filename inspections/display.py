@@ -3,7 +3,7 @@
 One place for both, used by the record page, the result of a synced form, the inspection report
 PDF and the unit history. Derived values are stored in SI with the unit in the key
 (``inspections.evaluation``); here each known key gets a label in plain words and its value in
-the reader's units (through ``inspections.reasons``, i.e. ``engineering.units``). A key without a
+the reader's units (through ``inspections.reasons``, i.e. ``engineering.formatting``). A key without a
 label is not shown: a reader never sees a stored key. Yes/no values read as words, or not at all.
 """
 
@@ -14,13 +14,16 @@ import math
 import re
 from typing import Any
 
-from engineering import units
+from engineering import formatting as fmt
+from engineering.controls import Verdict
+from engineering.units import UnitSystem
 from engineering.ventilation import VENTILATION_SYSTEMS
 
 from . import reasons as rs
 
-# Verdicts as people read them, the labels of ``models.Verdict`` (the phone's twin: checklist.js VERDICT_WORDS).
-VERDICT_WORDS = {"ok": "OK", "watch": "Watch", "fail": "Fail", "na": "Not applicable", "": "Recorded"}
+# Verdicts as people read them: the labels of ``engineering.controls.Verdict``, and "Recorded" for a reading
+# no check judged (the phone's twin: checklist.js VERDICT_WORDS).
+VERDICT_WORDS = {**{v.value: v.label for v in Verdict}, "": "Recorded"}
 
 
 def verdict_words(code: str | None) -> str:
@@ -172,8 +175,7 @@ def _quantity(value: float, quantity: str, system: str, decimals: int | None = N
 
 def _in_units(value: float, quantity: str, system: str, decimals: int) -> str:
     """A value in the reader's unit at a set precision (for the few values reasons do not carry)."""
-    shown = rs.display_number(value, quantity, system, decimals=decimals)
-    return f"{shown} {units.unit_label(quantity=quantity, system=system)}"
+    return fmt.quantity_text(value, quantity=quantity, system=system, decimals=decimals)
 
 
 def _minus(text: str) -> str:
@@ -205,7 +207,7 @@ def _shown(value: Any, how: Any, system: str, item: str) -> str:
     if how in ("number", "count"):
         return _minus(f"{value:g}")
     if how == "rate":
-        return _in_units(value, "pressure", system, 4 if system == "us" else 3) + " per run-hour"
+        return _in_units(value, "pressure", system, 4 if system == UnitSystem.US else 3) + " per run-hour"
     if how in ("drift_value", "drift_difference"):
         prefix = item.rpartition(".")[2].split("_")[0]
         quantities = DRIFT_QUANTITIES.get(prefix)

@@ -20,32 +20,39 @@ from collections.abc import Callable
 from typing import Any
 
 from engineering import filters
+from engineering import formatting as fmt
 from engineering import units as eng_units
 from engineering.airside import fluid_properties
 from engineering.errors import EngineeringInputError
 from engineering.filters import FilterPoint
 from engineering.psychro import pressure_from_altitude
-from inspections import checklists, evaluation, flags, reasons
+from engineering.units import SYSTEMS
+from inspections import evaluation, flags
 
 CONTEXT_VERSION = 1
 # Quantities of readings and reasons; plain ones (percent, current, time) have no conversion.
-_UNIT_QUANTITIES = (*eng_units.QUANTITIES, "percent", "current", "time")
+_UNIT_QUANTITIES = (*eng_units.QUANTITIES, *(q for q in fmt.PLAIN_UNITS if q))
+
+
+def decimals_table() -> dict[str, list[int]]:
+    """Display precision per quantity, [SI, US] (engineering.formatting.DECIMALS)."""
+    return {q: list(d) for q, d in fmt.DECIMALS.items()}
 
 
 def _linear(quantity: str, system: str) -> list[float]:
     """[scale, offset] with display = scale × SI + offset (every display conversion is linear)."""
-    zero = checklists.to_display(0.0, quantity, system)
-    one = checklists.to_display(1.0, quantity, system)
+    zero = fmt.display_value(0.0, quantity=quantity, system=system)
+    one = fmt.display_value(1.0, quantity=quantity, system=system)
     return [one - zero, zero]
 
 
 @functools.cache
 def unit_table() -> dict[str, dict[str, Any]]:
-    """Display conversion and labels per quantity, from engineering.units (pint); read-only."""
+    """Display conversion and labels per quantity, from engineering.formatting (pint); read-only."""
     return {
         q: {
-            "storage": checklists.storage_unit_label(q),
-            **{s: {"factor": _linear(q, s), "label": checklists.display_unit_label(q, s)} for s in ("si", "us")},
+            "storage": fmt.storage_text(quantity=q),
+            **{s: {"factor": _linear(q, s), "label": fmt.unit_text(quantity=q, system=s)} for s in SYSTEMS},
         }
         for q in _UNIT_QUANTITIES
     }
@@ -190,7 +197,7 @@ def evaluation_context(
         "slots": [_slot(s) for s in slots],
         "filter_points": points,
         "units": unit_table(),
-        "decimals": {q: list(d) for q, d in reasons.DECIMALS.items()},
+        "decimals": decimals_table(),
         "constants": constants(),
     }
 

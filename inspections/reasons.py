@@ -3,42 +3,24 @@
 A reason is kept twice: as SI text (``reason``, the record as judged) and as
 ``reason_parts``, a JSON list whose items are either plain text or a quantity
 in SI, rendered at read time in the reader's unit system through
-``engineering.units``:
+``engineering.formatting``:
 
 - ``{"value": 223.6, "quantity": "pressure"}`` — one value with its unit;
 - ``{"low": 2.0, "high": 6.0, "quantity": "temperature"}`` — a band
   ("2.0–6.0 °C", "at least 2.0 °C", "at most 6.0 °C").
 
 Temperature differences use the quantity ``temperature_difference`` so that
-1.5 K reads 2.7 Δ°F, never 34.7 °F. ``decimals`` on a part sets the SI
-precision; the US precision comes from ``US_DECIMALS`` (a value in in. w.c.
-needs two decimals where Pa needs none).
+1.5 K reads 2.7 Δ°F, never 34.7 °F. Numbers, units and precision are
+``engineering.formatting``'s: ``decimals`` on a part sets the SI precision; the
+US precision comes from its ``DECIMALS`` (a value in in. w.c. needs two
+decimals where Pa needs none).
 """
 
 from __future__ import annotations
 
 from typing import Any
 
-from inspections import checklists
-
-# Display precision per quantity: (SI, US). Common practice for field readings.
-DECIMALS: dict[str, tuple[int, int]] = {
-    "pressure": (0, 2),
-    "temperature": (1, 1),
-    "temperature_difference": (1, 1),
-    "airflow": (0, 0),
-    "water_flow": (2, 1),
-    "heat_rate": (1, 0),
-    "co2": (0, 0),
-    "relative_humidity": (0, 0),
-    "percent": (0, 0),
-    "current": (1, 1),
-    "time": (0, 0),
-    "rotational_speed": (0, 0),
-    "frequency": (1, 1),
-    "run_hours": (0, 0),
-    "length": (2, 1),
-}
+from engineering import formatting as fmt
 
 
 def q(value: float, quantity: str, decimals: int | None = None) -> dict[str, Any]:
@@ -58,39 +40,15 @@ def span(low: float | None, high: float | None, quantity: str, decimals: int | N
 
 
 def _decimals(part: dict, system: str) -> int:
-    si, us = DECIMALS.get(part["quantity"], (1, 1))
-    if system == "us":
-        return us
-    return part.get("decimals", si)
+    return fmt.decimals_of(quantity=part["quantity"], system=system, si_decimals=part.get("decimals"))
 
 
-def format_number(x: float, decimals: int) -> str:
-    """A number as reasons show it: ``decimals`` places, thousands grouped from 10 000 (e.g. 154,000 Btu/h),
-    a true minus sign, no "−0" (the phone's twin: units.js formatNumber)."""
-    text = f"{x:,.{decimals}f}" if abs(x) >= 10_000 else f"{x:.{decimals}f}"
-    if float(text.replace(",", "")) == 0:
-        text = text.lstrip("-")
-    return text.replace("-", "−")
-
-
-def decimals_of(quantity: str, system: str) -> int:
-    """The quantity's usual display precision in ``system`` (``DECIMALS``)."""
-    return _decimals({"quantity": quantity}, system)
-
-
-def _number(value_si: float, quantity: str, system: str, decimals: int) -> str:
-    return format_number(checklists.to_display(value_si, quantity, system), decimals)
-
-
-def display_number(value_si: float, quantity: str, system: str, *, decimals: int | None = None) -> str:
-    """A stored SI value as a reader sees it: in ``system``'s unit, at the quantity's usual precision (or
-    ``decimals`` in either system), thousands grouped from 10 000, true minus sign (the unit label is not added)."""
-    d = _decimals({"quantity": quantity}, system) if decimals is None else decimals
-    return _number(value_si, quantity, system, d)
+def _text(value_si: float, part: dict, system: str, d: int) -> str:
+    return fmt.number_text(value_si, quantity=part["quantity"], system=system, decimals=d)
 
 
 def _with_unit(text: str, quantity: str, system: str) -> str:
-    unit = checklists.display_unit_label(quantity, system)
+    unit = fmt.unit_text(quantity=quantity, system=system)
     return f"{text} {unit}" if unit else text
 
 
@@ -100,17 +58,17 @@ def render_part(part: Any, system: str) -> str:
     quantity = part["quantity"]
     d = _decimals(part, system)
     if "value" in part:
-        return _with_unit(_number(part["value"], quantity, system, d), quantity, system)
+        return fmt.quantity_text(part["value"], quantity=quantity, system=system, decimals=d)
     low, high = part.get("low"), part.get("high")
     if low is not None and high is not None:
-        lo, hi = _number(low, quantity, system, d), _number(high, quantity, system, d)
+        lo, hi = _text(low, part, system, d), _text(high, part, system, d)
         # "−7.0 to −3.0 °C": a dash between negative numbers reads as more minus signs.
         dash = " to " if "−" in lo + hi else "–"
         return _with_unit(f"{lo}{dash}{hi}", quantity, system)
     if low is not None:
-        return "at least " + _with_unit(_number(low, quantity, system, d), quantity, system)
+        return "at least " + fmt.quantity_text(low, quantity=quantity, system=system, decimals=d)
     if high is not None:
-        return "at most " + _with_unit(_number(high, quantity, system, d), quantity, system)
+        return "at most " + fmt.quantity_text(high, quantity=quantity, system=system, decimals=d)
     return "any value"
 
 

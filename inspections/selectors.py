@@ -11,8 +11,11 @@ from django.http import Http404
 
 from accounts.models import User
 from accounts.selectors import FIELD_ROLES
+from engineering import formatting as fmt
+from engineering.controls import Verdict
 from engineering.errors import EngineeringInputError
 from engineering.filters import FilterPoint, corrected_pressure_drop
+from engineering.units import SYSTEMS, UnitSystem
 from inventory.models import AHU, Component
 from inventory.selectors import sites_managed_by, sites_visible_to
 from scheduling.models import WorkOrder
@@ -361,7 +364,7 @@ def work_order_cautions(*, work_order: WorkOrder) -> list[str]:
 def _band(limits: dict, name: str, quantity: str, system: str | None) -> dict:
     lo, hi = limits.get(f"{name}_min"), limits.get(f"{name}_max")
     if system is not None:
-        lo, hi = checklists.to_display(lo, quantity, system), checklists.to_display(hi, quantity, system)
+        lo, hi = (None if x is None else fmt.display_value(x, quantity=quantity, system=system) for x in (lo, hi))
     return {"min": lo, "max": hi}
 
 
@@ -392,8 +395,8 @@ def checklist_for(*, work_order: WorkOrder, user: User) -> dict:
                 else None
             ),
             "quantity": it.quantity or None,
-            "unit": checklists.display_unit_label(it.quantity, system) if it.kind == "number" else None,
-            "unit_si": checklists.storage_unit_label(it.quantity) if it.kind == "number" else None,
+            "unit": fmt.unit_text(quantity=it.quantity, system=system) if it.kind == "number" else None,
+            "unit_si": fmt.storage_text(quantity=it.quantity) if it.kind == "number" else None,
             "decimals": it.decimals,
             "choices": it.choices,
             "required": it.required,
@@ -716,22 +719,20 @@ def visit_values(*, inspection_ids: list[int]) -> dict[int, dict[str, float]]:
 def reason_for(*, evaluation, unit_system: str) -> str:
     """The reason of an evaluation (or a reading's verdict) in the reader's units ("si" or "us").
 
-    Renders ``reason_parts`` through engineering.units (inspections.reasons);
+    Renders ``reason_parts`` through engineering.formatting (inspections.reasons);
     rows stored before reasons had parts fall back to the stored SI text.
     Accepts an Evaluation, a Reading, or a Finding (its own text, from its latest observation).
     """
     from . import reasons
 
-    if unit_system not in ("si", "us"):
-        unit_system = "si"
+    if unit_system not in SYSTEMS:
+        unit_system = UnitSystem.SI
     if isinstance(evaluation, Finding):
         # The finding's own text (its latest observation); findings stored before it had one: the latest
         # judgement's reason.
         if evaluation.reason_parts:
             return reasons.render(evaluation.reason_parts, unit_system)
         evaluation = evaluation.latest_evaluation or evaluation.evaluation
-    if unit_system not in ("si", "us"):
-        unit_system = "si"
     parts = getattr(evaluation, "reason_parts", None)
     if not parts:
         return evaluation.reason
@@ -809,7 +810,7 @@ def findings_seen_on(*, inspections) -> dict[int, list[Finding]]:
     if not by_id:
         return {}
     failed = list(
-        Evaluation.objects.filter(inspection_id__in=by_id, verdict="fail").values_list(
+        Evaluation.objects.filter(inspection_id__in=by_id, verdict=Verdict.FAIL).values_list(
             "inspection_id", "check_name", "item_key", "component_id"
         )
     )
@@ -875,7 +876,7 @@ def finding_observations(*, finding: Finding) -> list[Evaluation]:
     merged = set(Finding.objects.filter(merged_into=finding).values_list("inspection_id", "latest_inspection_id"))
     own = {finding.inspection_id, finding.latest_inspection_id} | {i for pair in merged for i in pair}
     candidates = Evaluation.objects.filter(
-        inspection__ahu_id=finding.ahu_id, component_id=finding.component_id, verdict="fail"
+        inspection__ahu_id=finding.ahu_id, component_id=finding.component_id, verdict=Verdict.FAIL
     ).select_related("inspection__work_order", "inspection__technician", "component", "amendment")
     out = []
     for e in candidates:

@@ -2,6 +2,8 @@
 
 from rest_framework import serializers
 
+from engineering.units import SYSTEMS
+
 from .models import Finding
 from .selectors import reason_for
 
@@ -67,7 +69,7 @@ class PhotoOutput(serializers.Serializer):
 
 class AmendmentInput(serializers.Serializer):
     reason = serializers.CharField()
-    unit_system = serializers.ChoiceField(choices=["si", "us"])
+    unit_system = serializers.ChoiceField(choices=list(SYSTEMS))
     readings = serializers.ListField(child=serializers.JSONField(), min_length=1)
 
 

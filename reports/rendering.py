@@ -16,6 +16,7 @@ from datetime import UTC, datetime
 from django.conf import settings
 from django.template.loader import render_to_string
 
+from engineering.units import UnitSystem
 from inventory.display import site_time_text
 
 # PDF/A-3b: archival, and unlike 1b allows transparency (the charts use it).
@@ -103,7 +104,7 @@ def stored_file_data_uri(field, *, max_px: int = 480) -> str | None:
 
 def paper_for(system: str) -> str:
     """The paper a reader prints on: US Letter for a reader in US units, A4 for everyone else (ISO 216)."""
-    return "letter" if system == "us" else "A4"
+    return "letter" if system == UnitSystem.US else "A4"
 
 
 def html_render(

@@ -12,6 +12,7 @@ from django.http import Http404
 
 from accounts.clock import local_date_of
 from accounts.models import User
+from engineering.units import SYSTEMS
 from inventory.selectors import sites_visible_to
 
 from .documents import period_text
@@ -169,7 +170,7 @@ def report_format_text(*, report: Report) -> str:
     if report.kind == Report.Kind.LABELS:
         layout = str(p.get("layout") or "a4-3x8")
         words.append("Letter" if layout.startswith("letter") else "A4")
-    elif system in ("si", "us"):
+    elif system in SYSTEMS:
         words += [f"{system.upper()} units", PAPER_WORDS.get(paper_for(system), paper_for(system))]
     if report.pdfa:
         words.append("archival PDF/A")

@@ -9,6 +9,8 @@ from django.utils import timezone
 from accounts.changes import organisation_changed
 from accounts.inputs import text_problem
 from accounts.services import audit_record
+from engineering.controls import Verdict
+from engineering.units import SYSTEMS
 from inventory.selectors import sites_managed_by
 
 from .. import evaluation, selectors
@@ -61,8 +63,8 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
     problem = text_problem(reason.strip(), label="Reason", max_length=TEXT_MAX, lines=True)
     if problem:
         raise ValidationError({"reason": [problem]})
-    if unit_system not in ("si", "us"):
-        raise ValidationError({"unit_system": [f"unit_system={unit_system!r} is not one of si, us"]})
+    if unit_system not in SYSTEMS:
+        raise ValidationError({"unit_system": [f"unit_system={unit_system!r} is not one of {', '.join(SYSTEMS)}"]})
     if not isinstance(readings, list) or not readings:
         raise ValidationError({"readings": ["an amendment corrects at least one reading"]})
     wo = inspection.work_order
@@ -163,14 +165,14 @@ def _newly_failed_open(*, inspection: Inspection, amendment: Amendment, results,
     # A failure whose finding an earlier amendment cleared counts as new if it fails again.
     failed_before = {
         key(e.check_name, e.item_key, e.component_id)
-        for e in inspection.evaluations.filter(verdict="fail")
+        for e in inspection.evaluations.filter(verdict=Verdict.FAIL)
         .exclude(finding__state=Finding.State.CLOSED)
         .only("check_name", "item_key", "component_id")
     }
     new = [
         res
         for res in results
-        if res.verdict == "fail"
+        if res.verdict == Verdict.FAIL
         and key(res.check, res.item, res.component.pk if res.component else None) not in failed_before
     ]
     if not new:

@@ -27,6 +27,8 @@ from accounts.services import audit_record, audits_deferred
 from engineering.controls import Verdict
 from engineering.errors import EngineeringInputError
 from engineering.filters import FilterPoint
+from engineering.formatting import significant_text
+from engineering.units import SYSTEMS
 from scheduling.models import WorkOrder
 
 from .. import check, checklists, evaluation, selectors
@@ -117,9 +119,7 @@ def batch_read(*, user, forms: list) -> Batch:
 
 
 def _num_text(x: float | None) -> str:
-    if x is None:
-        return "any"
-    return f"{float(f'{x:.4g}'):g}".replace("-", "−")
+    return "any" if x is None else significant_text(x)
 
 
 def _range_text(lo: float | None, hi: float | None, unit: str) -> str:
@@ -410,8 +410,8 @@ def form_parse(
         errors.add("work_order", f"Work order {str(wo_id)!r}: {UNKNOWN_WORK_ORDER}")
     version = check.whole(raw.get("work_order_version"), "work_order_version", errors, label="Work order version")
     system = raw.get("unit_system")
-    if not isinstance(system, str) or system not in ("si", "us"):
-        errors.add("unit_system", f"Unit system: {check.shown(system)} is not one of si, us")
+    if not isinstance(system, str) or system not in SYSTEMS:
+        errors.add("unit_system", f"Unit system: {check.shown(system)} is not one of {', '.join(SYSTEMS)}")
         system = None  # numbers are then checked for being numbers only, not against their limits
     started = check.when(raw.get("started_at"), "started_at", errors, label="Started at")
     finished = check.when(raw.get("finished_at"), "finished_at", errors, label="Finished at")

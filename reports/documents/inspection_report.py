@@ -26,7 +26,10 @@ from django.utils.safestring import SafeString, mark_safe
 
 from accounts.clock import time_zone
 from accounts.models import AuditEvent
-from inspections import checklists, display, reasons
+from engineering.controls import Verdict
+from engineering.formatting import quantity_text
+from engineering.units import UnitSystem
+from inspections import display, reasons
 from inspections.display import VERDICT_WORDS
 from inspections.freeze import TEMPLATE as FREEZE_TEMPLATE
 from inspections.freeze import freeze_readiness
@@ -73,21 +76,19 @@ def reading_value(reading: Reading, system: str) -> str:
     if item.kind == item.Kind.NUMBER:
         if reading.value_si is None:
             return "—"
-        label = checklists.display_unit_label(item.quantity, system)
-        if item.quantity in reasons.DECIMALS:
-            # The quantity's usual precision, grouped as the reasons group it ("16,500 h", "1200 cfm").
-            return f"{reasons.display_number(reading.value_si, item.quantity, system)} {label}".strip()
-        value = checklists.to_display(reading.value_si, item.quantity, system)
-        decimals = item.decimals
-        if system == "us" and item.quantity == "pressure":
-            decimals = max(decimals, 2)
-        return f"{value:.{decimals}f} {label}".strip()
+        return _number_shown(reading.value_si, item.quantity, system)
     if item.kind == item.Kind.CHECK:
         return CHECK_VALUES.get(reading.value_text, reading.value_text)
     if item.kind == item.Kind.CHOICE:
         labels = {c.get("value"): c.get("label") for c in item.choices or []}
         return labels.get(reading.value_text, reading.value_text)
     return reading.value_text or "—"
+
+
+def _number_shown(value_si: float, quantity: str, system: str) -> str:
+    """A number of the record in the reader's unit at its quantity's usual precision, grouped as the reasons
+    group it ("16,500 h", "1200 cfm"): a reading, and each side of an amended one."""
+    return quantity_text(value_si, quantity=quantity, system=system)
 
 
 def _inspections(wo: WorkOrder) -> list[Inspection]:
@@ -376,7 +377,7 @@ def _says_nothing_more(reason: str, label: str, value: str, verdict_code: str) -
     rest = rest.replace(label, "").replace(label[:1].lower() + label[1:], "").strip(" :;,.")
     if not rest or rest == value:
         return True
-    return verdict_code == "ok" and " is within " in reason
+    return verdict_code == Verdict.OK and " is within " in reason
 
 
 # A derived value is left out where the reason says it in a technician's words: the loading as "120 % of its
@@ -496,8 +497,12 @@ def _parts(insp: Inspection, evaluations: list[dict], system: str) -> tuple[list
     return [g for g in ordered if g["rows"]], [_formula_html(m) for m in methods]
 
 
+# The verdicts the result line counts, in its order.
+_COUNTED = (Verdict.OK, Verdict.WATCH, Verdict.FAIL)
+
+
 def _counts(parts: list[dict]) -> dict[str, int]:
-    counts = {"ok": 0, "watch": 0, "fail": 0}
+    counts: dict[str, int] = dict.fromkeys(_COUNTED, 0)
     for group in parts:
         for row in group["rows"]:
             if row["verdict_code"] in counts:
@@ -541,7 +546,7 @@ def build(*, report) -> Built:
             # The unit's label: its address and QR code, from the registry's own label functions (vector SVG).
             "label_url": label_absolute_url(code=ahu.label_code),
             "label_qr": svg_data_uri(label_qr_svg(code=ahu.label_code)),
-            "system_label": "US customary (in. w.c., °F, cfm)" if system == "us" else "SI (Pa, °C, L/s)",
+            "system_label": "US customary (in. w.c., °F, cfm)" if system == UnitSystem.US else "SI (Pa, °C, L/s)",
         },
         title=title,
         paper=paper_for(system),
@@ -572,7 +577,7 @@ def _result_line(visit: dict, wo: WorkOrder) -> dict:
         if readiness:
             freeze = {"label": readiness[0].label, "why": readiness[0].why, "ready": readiness[0].ready}
     return {
-        "checks": f"{counts['ok']} ok · {counts['watch']} watch · {counts['fail']} fail",
+        "checks": " · ".join(f"{counts[v]} {v}" for v in _COUNTED),  # "3 ok · 1 watch · 0 fail"
         "findings": findings,
         "freeze": freeze,
     }
@@ -595,7 +600,7 @@ def _changes(amendment: Amendment, system: str) -> list[str]:
             lines.append(str(change))
             continue
         key = str(change.get("item", ""))
-        quantity, decimals, name = "", 1, key
+        quantity, name = "", key
         if "." in key:
             code, item_key = key.split(".", 1)
             item = (
@@ -603,10 +608,9 @@ def _changes(amendment: Amendment, system: str) -> list[str]:
             )
             quantity = item.quantity if item else ""
             name = item.label if item else key
-            decimals = max(item.decimals, 2 if system == "us" and quantity == "pressure" else 0) if item else 1
 
-        before = _change_value(change.get("before"), quantity, decimals, system)
-        after = _change_value(change.get("after"), quantity, decimals, system)
+        before = _change_value(change.get("before"), quantity, system)
+        after = _change_value(change.get("after"), quantity, system)
         line = f"{name}: {before} → {after}"
         if change.get("note"):
             line += f" ({change['note']})"
@@ -614,12 +618,11 @@ def _changes(amendment: Amendment, system: str) -> list[str]:
     return lines
 
 
-def _change_value(value, quantity: str, decimals: int, system: str) -> str:
+def _change_value(value, quantity: str, system: str) -> str:
     if isinstance(value, dict):
         number = value.get("value_si")
         value = number if number is not None else value.get("value_text", value.get("value"))
         value = CHECK_VALUES.get(value, value) if isinstance(value, str) else value
     if isinstance(value, int | float) and not isinstance(value, bool) and quantity:
-        shown_value = checklists.to_display(value, quantity, system)
-        return f"{shown_value:.{decimals}f} {checklists.display_unit_label(quantity, system)}".strip()
+        return _number_shown(value, quantity, system)
     return "—" if value in (None, "") else str(value)

@@ -3,10 +3,10 @@
 import pytest
 
 from engineering.airside import dry_air_density_kg_m3, sensible_heat_w
+from engineering.formatting import number_text
 from engineering.units import from_display
 from frontend import calculators
 from frontend.calculators import CalcError, calculate, calculator_context
-from inspections.reasons import display_number
 from tests.phone_js import node_json
 
 # 1,200 cfm heated from 50 to 80 °F (the tryout's case).
@@ -119,12 +119,14 @@ def test_typed_inches_of_water_keep_their_value_through_si_and_back():
     and the US reader sees 1.20 again, not a drifted 1.19 or 1.21. 300 Pa (1.204 in. w.c.) also reads 1.20."""
     stored = from_display(value=1.20, quantity="pressure", system="us")
     assert stored == pytest.approx(1.20 * IN_WC_PA, abs=1e-4)
-    assert display_number(stored, "pressure", "si") == "299"
-    assert display_number(stored, "pressure", "us") == "1.20"
-    assert display_number(300.0, "pressure", "us") == "1.20"
+    assert number_text(stored, quantity="pressure", system="si") == "299"
+    assert number_text(stored, quantity="pressure", system="us") == "1.20"
+    assert number_text(300.0, quantity="pressure", system="us") == "1.20"
     for typed in ("0.01", "0.36", "1.00", "1.20", "2.55", "10.03"):
         assert (
-            display_number(from_display(value=float(typed), quantity="pressure", system="us"), "pressure", "us")
+            number_text(
+                from_display(value=float(typed), quantity="pressure", system="us"), quantity="pressure", system="us"
+            )
             == typed
         )
 

@@ -1,5 +1,5 @@
-// Display units on the phone: the factors and labels come from the server (inspections/phone.py,
-// built from engineering/units.py), so the phone converts exactly as the server does; moments on a
+// Display units on the phone: the factors, labels and precision come from the server (inspections/phone.py,
+// built by engineering/formatting.py), so the phone converts exactly as the server does; moments on a
 // site's clock from the server's zone table (accounts/clock.py), written as the server writes them. No DOM.
 
 const PLAIN = new Set(["percent", "current", "time", ""]);
@@ -55,7 +55,7 @@ export function fixed(x, d) {
   return x < 0 && Number(text) === 0 ? `-${text}` : text; // Python keeps the sign of a negative that rounds to 0
 }
 
-/** Python's f"{x:,.{d}f}" (thousands grouped from 10 000), with a true minus sign. */
+/** Python's f"{x:,.{d}f}" (thousands grouped from 10 000), with a true minus sign (engineering/formatting.py format_number). */
 export function formatNumber(x, decimals) {
   let text = Math.abs(x) >= 10000
     ? pyRound(x, decimals).toLocaleString("en-US", { minimumFractionDigits: decimals, maximumFractionDigits: decimals })
@@ -70,7 +70,7 @@ function decimalsOf(decimalsTable, part, system) {
   return part.decimals !== undefined && part.decimals !== null ? part.decimals : si;
 }
 
-/** A stored SI value as a reader sees it (inspections/reasons.py: display_number), without its unit label. */
+/** A stored SI value as a reader sees it (engineering/formatting.py: number_text), without its unit label. */
 export function displayNumber(ctx, value, quantity, system) {
   return formatNumber(toDisplay(ctx.units, value, quantity, system), decimalsOf(ctx.decimals, { quantity }, system));
 }
