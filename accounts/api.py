@@ -5,15 +5,22 @@ from rest_framework import serializers
 from rest_framework.response import Response
 from rest_framework.views import APIView
 
+from .models import Role
 from .selectors import memberships_of
 from .services import api_token_issue, api_token_revoke
+
+
+class MembershipOutput(serializers.Serializer):
+    organisation = serializers.CharField(help_text="The organisation's slug.")
+    organisation_name = serializers.CharField()
+    role = serializers.ChoiceField(choices=Role.choices)
 
 
 class MeOutput(serializers.Serializer):
     username = serializers.CharField()
     full_name = serializers.CharField()
     unit_system = serializers.CharField()
-    memberships = serializers.ListField(child=serializers.DictField())
+    memberships = MembershipOutput(many=True)
 
 
 class MeView(APIView):

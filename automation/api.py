@@ -15,7 +15,7 @@ from rest_framework.response import Response
 from rest_framework.views import APIView
 
 from accounts.api_errors import RowErrorsOutput
-from inventory.api import R400, R401, R403, R404, _managed_organisation
+from inventory.api import R400, R401, R403, R404, _managed_organisation, page_output
 from inventory.csv_io import ImportFailed, decode_upload
 from inventory.selectors import ahus_visible_to, sites_managed_by
 
@@ -53,7 +53,8 @@ class PointListView(APIView):
             OpenApiParameter("site", int, description="only this site's points"),
             OpenApiParameter("ahu", int, description="only this unit's points"),
         ],
-        responses={200: PointOutput(many=True), 400: R400, 401: R401},
+        operation_id="automation_points_list",
+        responses={200: page_output(PointOutput), 400: R400, 401: R401},
     )
     def get(self, request):
         points = selectors.points_visible_to(user=request.user, ahu_id=_id_param(request, "ahu"))

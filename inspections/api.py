@@ -125,7 +125,7 @@ class PhotoFileView(APIView):
 
 
 class TemplatesView(APIView):
-    @extend_schema(responses={200: s.ChecklistOutput(many=True)}, tags=["inspections"])
+    @extend_schema(responses={200: s.TemplateOutput(many=True)}, tags=["inspections"])
     def get(self, request):
         out = []
         for t in services.templates_current().values():

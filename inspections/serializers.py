@@ -1,10 +1,12 @@
 """Input/output serializers of the inspections API: shapes for the schema, no domain logic."""
 
+from drf_spectacular.utils import extend_schema_field
 from rest_framework import serializers
 
 from engineering.units import SYSTEMS
+from scheduling.serializers import SiteRefOutput, UnitBriefOutput
 
-from .models import Finding
+from .models import VERDICT_CHOICES, ChecklistItem, Finding, Inspection
 from .selectors import reason_for
 
 
@@ -26,16 +28,55 @@ class SyncInput(serializers.Serializer):
     )
 
 
+class FlagOutput(serializers.Serializer):
+    """Why a stored form waits for a supervisor (inspections/flags.py names every code)."""
+
+    code = serializers.CharField()
+    reason = serializers.CharField(help_text="In plain words, with the items or values concerned.")
+
+
+class EvaluationOutput(serializers.Serializer):
+    """One check's judgement of a visit's readings."""
+
+    check = serializers.CharField()
+    item = serializers.CharField(help_text="The item's key, or empty for a check over several readings.")
+    component = serializers.CharField(allow_null=True, help_text="The part's label code; null for the unit.")
+    verdict = serializers.ChoiceField(choices=VERDICT_CHOICES)
+    reason = serializers.CharField(help_text="Why, in the reader's units.")
+    reason_si = serializers.CharField(help_text="Why, as recorded (SI).")
+    method = serializers.CharField()
+    derived = serializers.DictField(help_text="Values the check worked out on the way (name: SI value).")
+
+
+class FindingOutput(serializers.Serializer):
+    """The shape of ``inspections.selectors.finding_shape`` (for the schema)."""
+
+    id = serializers.IntegerField()
+    kind = serializers.ChoiceField(choices=Finding.Kind.choices)
+    kind_label = serializers.CharField()
+    severity = serializers.ChoiceField(choices=Finding.Severity.choices)
+    state = serializers.ChoiceField(choices=Finding.State.choices)
+    title = serializers.CharField()
+    text = serializers.CharField(help_text="The check, its numbers and the limit that failed it, in your units.")
+    first_seen = serializers.DateTimeField(help_text="The first visit that saw it; its age counts from here.")
+    last_seen = serializers.DateTimeField()
+    times_seen = serializers.IntegerField(help_text="Visits that saw it.")
+    corrective_work_order = serializers.UUIDField(allow_null=True)
+
+
 class SyncResultOutput(serializers.Serializer):
     client_uuid = serializers.CharField(allow_null=True)
     status = serializers.ChoiceField(choices=["stored", "flagged", "duplicate", "refused"])
     first_status = serializers.CharField(required=False)
     inspection_id = serializers.IntegerField(allow_null=True)
     work_order_state = serializers.CharField(allow_null=True)
-    flags = serializers.ListField(child=serializers.DictField())
-    errors = serializers.DictField()
-    evaluation = serializers.ListField(child=serializers.DictField())
-    findings = serializers.ListField(child=serializers.DictField())
+    flags = FlagOutput(many=True)
+    errors = serializers.DictField(
+        child=serializers.ListField(child=serializers.CharField()),
+        help_text="A refused form's problems: each field (dotted inside the form) and its messages.",
+    )
+    evaluation = EvaluationOutput(many=True)
+    findings = FindingOutput(many=True)
     clock_skew_s = serializers.FloatField(
         allow_null=True, help_text="The phone's clock minus the server's at receipt, in seconds; null when unknown."
     )
@@ -45,11 +86,132 @@ class SyncOutput(serializers.Serializer):
     results = SyncResultOutput(many=True)
 
 
-class ChecklistOutput(serializers.Serializer):
-    work_order = serializers.DictField()
-    unit_system = serializers.CharField()
+class ChecklistAssigneeOutput(serializers.Serializer):
+    id = serializers.IntegerField()
+    name = serializers.CharField()
+
+
+class ChecklistSiteOutput(serializers.Serializer):
+    code = serializers.CharField()
+    name = serializers.CharField()
+
+
+class ChecklistUnitOutput(serializers.Serializer):
+    tag = serializers.CharField()
+    label_code = serializers.CharField()
+    location = serializers.CharField()
+    area_served = serializers.CharField()
+    building = serializers.CharField(help_text="The building's name.")
+    site = ChecklistSiteOutput()
+
+
+class ChecklistTaskOutput(serializers.Serializer):
+    code = serializers.CharField()
+    title = serializers.CharField()
+
+
+class ChecklistWorkOrderOutput(serializers.Serializer):
+    public_id = serializers.UUIDField()
+    version = serializers.IntegerField()
+    title = serializers.CharField()
+    kind = serializers.CharField()
+    state = serializers.CharField()
+    priority = serializers.CharField()
+    due_date = serializers.DateField()
+    assignee = ChecklistAssigneeOutput(allow_null=True)
+    unit = ChecklistUnitOutput()
+    tasks = ChecklistTaskOutput(many=True)
+
+
+class ChecklistComponentOutput(serializers.Serializer):
+    label_code = serializers.CharField()
+    name = serializers.CharField()
+    kind = serializers.CharField()
+
+
+# A field named like one of Field's own attributes (label, required) is still a declared field: DRF's metaclass
+# takes declared fields off the class, so mypy's complaint about the override does not apply.
+class ChoiceOutput(serializers.Serializer):
+    value = serializers.CharField()
+    label = serializers.CharField()  # type: ignore[assignment]
+    ok = serializers.BooleanField(help_text="false: choosing it counts as not ok.")
+
+
+class BandOutput(serializers.Serializer):
+    min = serializers.FloatField(allow_null=True, help_text="null: unbounded.")
+    max = serializers.FloatField(allow_null=True, help_text="null: unbounded.")
+
+
+class ScaleLimitsOutput(serializers.Serializer):
+    physical = BandOutput(help_text="Outside it the value is impossible: the form is refused.")
+    plausible = BandOutput(help_text="Outside it the form is flagged for review.")
+    ok = BandOutput(help_text="Inside it: ok.")
+    watch = BandOutput(help_text="Outside ok but inside it: watch; else fail.")
+
+
+class LimitsOutput(serializers.Serializer):
+    si = ScaleLimitsOutput(help_text="In the storage units (unit_si).")
+    display = ScaleLimitsOutput(help_text="In the reader's units (unit).")
+
+
+class ChecklistItemOutput(serializers.Serializer):
+    key = serializers.CharField(help_text="<template code>.<item>, unique in the checklist.")
+    kind = serializers.ChoiceField(choices=ChecklistItem.Kind.choices)
+    label = serializers.CharField()  # type: ignore[assignment]
+    help = serializers.CharField()
+    component = ChecklistComponentOutput(allow_null=True, help_text="The part it concerns; null for the unit.")
+    quantity = serializers.CharField(allow_null=True)
+    unit = serializers.CharField(allow_null=True, help_text="Number items: the reader's unit.")
+    unit_si = serializers.CharField(allow_null=True, help_text="Number items: the storage unit.")
+    decimals = serializers.IntegerField()
+    choices = ChoiceOutput(many=True)
+    required = serializers.BooleanField()  # type: ignore[assignment]
+    photo_required_when_not_ok = serializers.BooleanField()
+    note_required_when_not_ok = serializers.BooleanField()
+    limits = LimitsOutput(allow_null=True, help_text="Number items only.")
+    limits_source = serializers.CharField()
+    judged_on_server = serializers.BooleanField(
+        help_text="The verdict needs other readings or the unit's data: judged by the evaluation context."
+    )
+
+
+class ChecklistTemplateOutput(serializers.Serializer):
+    code = serializers.CharField()
+    version = serializers.IntegerField()
+    title = serializers.CharField()
     cautions = serializers.ListField(child=serializers.CharField())
-    templates = serializers.ListField(child=serializers.DictField())
+    items = ChecklistItemOutput(many=True)
+
+
+class ChecklistOutput(serializers.Serializer):
+    """The checklist document the phone caches; inspections/SYNC.md describes it."""
+
+    work_order = ChecklistWorkOrderOutput()
+    unit_system = serializers.CharField()
+    evaluation = serializers.DictField(
+        help_text="What the phone needs to judge the readings offline as the server will (inspections/SYNC.md)."
+    )
+    cautions = serializers.ListField(child=serializers.CharField())
+    templates = ChecklistTemplateOutput(many=True)
+
+
+class TemplateItemOutput(serializers.Serializer):
+    key = serializers.CharField()
+    kind = serializers.ChoiceField(choices=ChecklistItem.Kind.choices)
+    label = serializers.CharField()  # type: ignore[assignment]
+    quantity = serializers.CharField()
+    component_kind = serializers.CharField()
+    required = serializers.BooleanField()  # type: ignore[assignment]
+
+
+class TemplateOutput(serializers.Serializer):
+    """A checklist template in force (its latest version) with its items."""
+
+    code = serializers.CharField()
+    version = serializers.IntegerField()
+    title = serializers.CharField()
+    cautions = serializers.ListField(child=serializers.CharField())
+    items = TemplateItemOutput(many=True)
 
 
 class PhotoUploadInput(serializers.Serializer):
@@ -73,18 +235,85 @@ class AmendmentInput(serializers.Serializer):
     readings = serializers.ListField(child=serializers.JSONField(), min_length=1)
 
 
+class ReadingBeforeOutput(serializers.Serializer):
+    value_si = serializers.FloatField(allow_null=True)
+    value_text = serializers.CharField()
+    note = serializers.CharField()
+    verdict = serializers.ChoiceField(choices=VERDICT_CHOICES, allow_blank=True, help_text="Empty: not judged.")
+
+
+class ReadingAfterOutput(ReadingBeforeOutput):
+    reason = serializers.CharField(help_text="Why, as recorded (SI).")
+    reason_parts = serializers.ListField(
+        child=serializers.JSONField(), help_text="The reason as text and SI quantities (inspections.reasons)."
+    )
+
+
+class AmendmentChangeOutput(serializers.Serializer):
+    """One corrected reading: what it was and what it is."""
+
+    item = serializers.CharField()
+    component = serializers.CharField(allow_null=True)
+    before = ReadingBeforeOutput(allow_null=True, help_text="null: the item was not answered before.")
+    after = ReadingAfterOutput()
+    finding = serializers.IntegerField(required=False, help_text="The finding the correction opened.")
+    cleared_finding = serializers.IntegerField(required=False, help_text="The finding the correction cleared.")
+
+
 class AmendmentOutput(serializers.Serializer):
     id = serializers.IntegerField()
     public_id = serializers.UUIDField()
     inspection_id = serializers.IntegerField()
     reason = serializers.CharField()
     created_at = serializers.DateTimeField()
-    changes = serializers.ListField(child=serializers.DictField())
-    findings = serializers.ListField(child=serializers.DictField(), help_text="Findings newly failed by it.")
+    changes = AmendmentChangeOutput(many=True)
+    findings = FindingOutput(many=True, help_text="Findings newly failed by it.")
 
 
 class NoteInput(serializers.Serializer):
     note = serializers.CharField()
+
+
+class ReadingOutput(serializers.Serializer):
+    item = serializers.CharField()
+    component = serializers.CharField(allow_null=True)
+    value_si = serializers.FloatField(allow_null=True, help_text="A number in its SI storage unit.")
+    value_text = serializers.CharField(help_text="ok, not_ok, na, a choice's value or text.")
+    entered = serializers.JSONField(allow_null=True, help_text="The value as typed, in the form's units.")
+    note = serializers.CharField()
+    verdict = serializers.ChoiceField(choices=VERDICT_CHOICES, allow_blank=True, help_text="Empty: not judged.")
+    reason = serializers.CharField(help_text="Why, in the reader's units.")
+    reason_si = serializers.CharField(help_text="Why, as recorded (SI).")
+    improbable = serializers.BooleanField()
+
+
+class InspectionEvaluationOutput(EvaluationOutput):
+    amendment = serializers.IntegerField(allow_null=True, help_text="The amendment that judged it; null: the visit.")
+
+
+class InspectionAmendmentOutput(serializers.Serializer):
+    id = serializers.IntegerField()
+    reason = serializers.CharField()
+    created_at = serializers.DateTimeField()
+    by = serializers.CharField()
+    changes = AmendmentChangeOutput(many=True)
+    findings = serializers.ListField(child=serializers.IntegerField(), help_text="The findings it opened (ids).")
+
+
+class PhoneTimesOutput(serializers.Serializer):
+    """The times as the phone sent them (its clock, as text), before they were placed on the server's timeline."""
+
+    started_at = serializers.CharField(allow_null=True, required=False)
+    finished_at = serializers.CharField(allow_null=True, required=False)
+    signed_at = serializers.CharField(allow_null=True, required=False)
+    sent_at = serializers.CharField(allow_null=True, required=False)
+    received_at = serializers.CharField(required=False, help_text="The server's clock when the form arrived.")
+    skew_from = serializers.ChoiceField(
+        choices=["sent_at", "times"],
+        allow_null=True,
+        required=False,
+        help_text="What the clock difference was measured from; null when unknown.",
+    )
 
 
 class InspectionOutput(serializers.Serializer):
@@ -94,7 +323,9 @@ class InspectionOutput(serializers.Serializer):
     unit = serializers.CharField(source="ahu.tag")
     technician = serializers.CharField()
     state = serializers.CharField()
-    template_versions = serializers.DictField()
+    template_versions = serializers.DictField(
+        child=serializers.IntegerField(), help_text="{template code: version} filled against."
+    )
     started_at = serializers.DateTimeField()
     finished_at = serializers.DateTimeField()
     signature_name = serializers.CharField()
@@ -103,12 +334,12 @@ class InspectionOutput(serializers.Serializer):
     clock_skew_s = serializers.FloatField(
         allow_null=True, read_only=True, help_text="The phone's clock minus the server's, seconds."
     )
-    phone_times = serializers.DictField(help_text="The times as the phone's clock gave them.")
+    phone_times = serializers.SerializerMethodField(help_text="The times as the phone's clock gave them.")
     complete = serializers.BooleanField()
-    flags = serializers.ListField(child=serializers.DictField())
-    flag_resolved_at = serializers.DateTimeField()
+    flags = serializers.SerializerMethodField()
+    flag_resolved_at = serializers.DateTimeField(allow_null=True)
     flag_resolution_note = serializers.CharField()
-    verified_at = serializers.DateTimeField()
+    verified_at = serializers.DateTimeField(allow_null=True)
     readings = serializers.SerializerMethodField()
     evaluations = serializers.SerializerMethodField()
     amendments = serializers.SerializerMethodField()
@@ -117,6 +348,16 @@ class InspectionOutput(serializers.Serializer):
         # Reasons in the reader's units; reason_si keeps the SI text as recorded.
         return self.context.get("unit_system", "si")
 
+    # The method fields give their values as built; the schema names each shape.
+    @extend_schema_field(PhoneTimesOutput())
+    def get_phone_times(self, obj: Inspection) -> dict:
+        return dict(obj.phone_times)
+
+    @extend_schema_field(FlagOutput(many=True))
+    def get_flags(self, obj: Inspection) -> list[dict]:
+        return list(obj.flags)
+
+    @extend_schema_field(ReadingOutput(many=True))
     def get_readings(self, obj) -> list[dict]:
         return [
             {
@@ -134,6 +375,7 @@ class InspectionOutput(serializers.Serializer):
             for r in obj.readings.all()
         ]
 
+    @extend_schema_field(InspectionEvaluationOutput(many=True))
     def get_evaluations(self, obj) -> list[dict]:
         return [
             {
@@ -150,6 +392,7 @@ class InspectionOutput(serializers.Serializer):
             for e in obj.evaluations.all()
         ]
 
+    @extend_schema_field(InspectionAmendmentOutput(many=True))
     def get_amendments(self, obj) -> list[dict]:
         return [
             {
@@ -175,12 +418,16 @@ class FlaggedFormOutput(serializers.Serializer):
     clock_skew_s = serializers.FloatField(
         allow_null=True, read_only=True, help_text="The phone's clock minus the server's, seconds."
     )
-    flags = serializers.ListField(child=serializers.DictField())
+    flags = serializers.SerializerMethodField()
+
+    @extend_schema_field(FlagOutput(many=True))
+    def get_flags(self, obj: Inspection) -> list[dict]:
+        return list(obj.flags)
 
 
 class FreezeReadinessUnitOutput(serializers.Serializer):
-    unit = serializers.DictField(help_text="{id, tag, label_code}")
-    site = serializers.DictField(help_text="{id, code, name}")
+    unit = UnitBriefOutput()
+    site = SiteRefOutput()
     status = serializers.ChoiceField(choices=["ready", "done_late", "due", "not_ready", "season_unknown"])
     label = serializers.CharField()
     ready = serializers.BooleanField()
@@ -193,19 +440,3 @@ class FreezeReadinessUnitOutput(serializers.Serializer):
     )
     season_start = serializers.DateField(allow_null=True)
     window_opens = serializers.DateField(allow_null=True)
-
-
-class FindingOutput(serializers.Serializer):
-    """The shape of ``inspections.selectors.finding_shape`` (for the schema)."""
-
-    id = serializers.IntegerField()
-    kind = serializers.ChoiceField(choices=Finding.Kind.choices)
-    kind_label = serializers.CharField()
-    severity = serializers.ChoiceField(choices=Finding.Severity.choices)
-    state = serializers.ChoiceField(choices=Finding.State.choices)
-    title = serializers.CharField()
-    text = serializers.CharField(help_text="The check, its numbers and the limit that failed it, in your units.")
-    first_seen = serializers.DateTimeField(help_text="The first visit that saw it; its age counts from here.")
-    last_seen = serializers.DateTimeField()
-    times_seen = serializers.IntegerField(help_text="Visits that saw it.")
-    corrective_work_order = serializers.UUIDField(allow_null=True)

@@ -6,6 +6,7 @@ admin of the row's organisation (``sites_managed_by``), otherwise 403; so do CSV
 import and export.
 """
 
+import functools
 import io
 
 from django.core.exceptions import PermissionDenied
@@ -59,6 +60,19 @@ def _filtered(filterset_class, request, queryset):
     return filterset.qs
 
 
+@functools.cache
+def page_output(output_class: type[serializers.Serializer]) -> type[serializers.Serializer]:
+    """The shape of one page of ``output_class`` rows as ``LimitOffsetPagination`` answers it (for the schema)."""
+    name = output_class.__name__.removesuffix("Output") + "PageOutput"
+    fields = {
+        "count": serializers.IntegerField(help_text="Rows in the whole list, not only this page."),
+        "next": serializers.URLField(allow_null=True, help_text="The next page; null on the last."),
+        "previous": serializers.URLField(allow_null=True, help_text="The page before; null on the first."),
+        "results": output_class(many=True),
+    }
+    return type(name, (serializers.Serializer,), {"__module__": __name__, **fields})
+
+
 def _page(request, view, queryset, output_class):
     paginator = LimitOffsetPagination()
     page = paginator.paginate_queryset(queryset, request, view=view)
@@ -93,7 +107,8 @@ class SiteListView(APIView):
             OpenApiParameter("organisation", str, description="organisation slug"),
             OpenApiParameter("search", str, description="code or name contains"),
         ],
-        responses={200: SiteOutput(many=True), 400: R400, 401: R401},
+        operation_id="inventory_sites_list",
+        responses={200: page_output(SiteOutput), 400: R400, 401: R401},
     )
     def get(self, request):
         qs = selectors.sites_visible_to(user=request.user).select_related("organisation", "client")
@@ -141,7 +156,8 @@ class BuildingListView(APIView):
     @extend_schema(
         summary="List the buildings you may see",
         parameters=[OpenApiParameter("search", str, description="code or name contains")],
-        responses={200: BuildingOutput(many=True), 400: R400},
+        operation_id="inventory_buildings_list",
+        responses={200: page_output(BuildingOutput), 400: R400},
     )
     def get(self, request):
         qs = selectors.buildings_visible_to(user=request.user)
@@ -189,7 +205,8 @@ class AHUListView(APIView):
     @extend_schema(
         summary="List the air handling units you may see",
         parameters=[OpenApiParameter("search", str, description="tag, label code or area served")],
-        responses={200: AHUOutput(many=True), 400: R400},
+        operation_id="inventory_ahus_list",
+        responses={200: page_output(AHUOutput), 400: R400},
     )
     def get(self, request):
         qs = selectors.ahus_visible_to(user=request.user)
@@ -244,7 +261,8 @@ class ComponentListView(APIView):
     @extend_schema(
         summary="List the components you may see",
         parameters=[OpenApiParameter("search", str, description="name, label code or unit tag")],
-        responses={200: ComponentOutput(many=True), 400: R400},
+        operation_id="inventory_components_list",
+        responses={200: page_output(ComponentOutput), 400: R400},
     )
     def get(self, request):
         qs = selectors.components_visible_to(user=request.user)

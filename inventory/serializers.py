@@ -4,6 +4,8 @@ import math
 from typing import Any
 
 from django.urls import reverse
+from drf_spectacular.helpers import lazy_serializer
+from drf_spectacular.utils import extend_schema_field
 from rest_framework import serializers
 
 from accounts.api_errors import RowErrorOutput
@@ -82,7 +84,7 @@ SITE_FIELDS = [
 
 class SiteOutput(serializers.ModelSerializer):
     organisation = serializers.SlugRelatedField(slug_field="slug", read_only=True)
-    client = serializers.SlugRelatedField(slug_field="slug", read_only=True)
+    client = serializers.SlugRelatedField(slug_field="slug", read_only=True, allow_null=True)
 
     class Meta:
         model = Site
@@ -228,8 +230,9 @@ class ComponentInput(NamesValueMixin, serializers.ModelSerializer):
 
 class ComponentNodeOutput(serializers.Serializer):
     component = ComponentOutput()
-    children = serializers.SerializerMethodField()
+    children = serializers.SerializerMethodField(help_text="The parts inside it, each a node like this one.")
 
+    @extend_schema_field(lazy_serializer("inventory.serializers.ComponentNodeOutput")(many=True))
     def get_children(self, obj) -> list[dict]:
         return ComponentNodeOutput(obj["children"], many=True, context=self.context).data
 

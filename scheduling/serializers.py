@@ -1,5 +1,6 @@
 """Input and output shapes of the scheduling API. No domain logic here."""
 
+from drf_spectacular.utils import extend_schema_field
 from rest_framework import serializers
 
 from accounts import api_fields
@@ -51,6 +52,43 @@ class TaskOverrideInput(serializers.Serializer):
     enabled = serializers.BooleanField(required=False)
 
 
+class UnitBriefOutput(serializers.Serializer):
+    id = serializers.IntegerField()
+    tag = serializers.CharField()
+    label_code = serializers.CharField()
+
+
+class SiteRefOutput(serializers.Serializer):
+    id = serializers.IntegerField()
+    code = serializers.CharField()
+    name = serializers.CharField()
+
+
+class SitePlaceOutput(SiteRefOutput):
+    latitude = serializers.FloatField()
+    longitude = serializers.FloatField()
+
+
+class VisitSiteOutput(SiteRefOutput):
+    address = serializers.CharField()
+    latitude = serializers.FloatField()
+    longitude = serializers.FloatField()
+
+
+class PersonRefOutput(serializers.Serializer):
+    id = serializers.IntegerField()
+    username = serializers.CharField()
+    name = serializers.CharField()
+
+
+class TaskComponentOutput(serializers.Serializer):
+    id = serializers.IntegerField()
+    name = serializers.CharField()
+    kind = serializers.CharField()
+    label_code = serializers.CharField()
+
+
+# Method fields below give their values as built; the schema names each shape.
 class WorkOrderTaskOutput(serializers.ModelSerializer):
     code = serializers.CharField(source="task_code")
     name = serializers.CharField(source="task.name")
@@ -73,6 +111,7 @@ class WorkOrderTaskOutput(serializers.ModelSerializer):
             "completed_at",
         ]
 
+    @extend_schema_field(TaskComponentOutput(allow_null=True))
     def get_component(self, obj) -> dict | None:
         c = obj.component
         return None if c is None else {"id": c.pk, "name": c.name, "kind": c.kind, "label_code": c.label_code}
@@ -112,13 +151,16 @@ class WorkOrderOutput(serializers.ModelSerializer):
             "allowed_states",
         ]
 
+    @extend_schema_field(UnitBriefOutput())
     def get_unit(self, obj) -> dict:
         return {"id": obj.ahu_id, "tag": obj.ahu.tag, "label_code": obj.ahu.label_code}
 
+    @extend_schema_field(SitePlaceOutput())
     def get_site(self, obj) -> dict:
         s = obj.ahu.building.site
         return {"id": s.pk, "code": s.code, "name": s.name, "latitude": s.latitude, "longitude": s.longitude}
 
+    @extend_schema_field(PersonRefOutput(allow_null=True))
     def get_assignee(self, obj) -> dict | None:
         u = obj.assignee
         return None if u is None else {"id": u.pk, "username": u.username, "name": str(u)}
@@ -186,12 +228,16 @@ class DayLoadOutput(serializers.Serializer):
     over = serializers.BooleanField(help_text="hours > capacity_hours")
 
 
+class SuggestedOutput(PersonRefOutput):
+    load = DayLoadOutput(help_text="Their day with this work added: tasks plus travel against capacity.")
+
+
 class OverCapacityOutput(ErrorOutput):
     """A refusal whose `detail` names the technician, the day, the hours and the capacity, and whose `errors` say
     under `confirm_over_capacity` what to send to assign anyway; with the day's load and a suggestion."""
 
     load = DayLoadOutput(help_text="The technician's day with this work added.")
-    suggestion = serializers.DictField(allow_null=True, help_text="The least-loaded technician with the skills.")
+    suggestion = SuggestedOutput(allow_null=True, help_text="The least-loaded technician with the skills.")
 
 
 class MeterReadingInput(serializers.Serializer):
@@ -225,6 +271,7 @@ class VisitOutput(serializers.Serializer):
     site = serializers.SerializerMethodField()
     work_orders = WorkOrderOutput(many=True)
 
+    @extend_schema_field(VisitSiteOutput())
     def get_site(self, obj) -> dict:
         s = obj.site
         return {
@@ -250,22 +297,6 @@ class UnitRefOutput(serializers.Serializer):
     )
     label_code = serializers.CharField()
     building = BuildingRefOutput()
-
-
-class SiteRefOutput(serializers.Serializer):
-    id = serializers.IntegerField()
-    code = serializers.CharField()
-    name = serializers.CharField()
-
-
-class PersonRefOutput(serializers.Serializer):
-    id = serializers.IntegerField()
-    username = serializers.CharField()
-    name = serializers.CharField()
-
-
-class SuggestedOutput(PersonRefOutput):
-    load = DayLoadOutput(help_text="Their day with this work added: tasks plus travel against capacity.")
 
 
 class BoardItemOutput(serializers.Serializer):

@@ -232,6 +232,7 @@ SPECTACULAR_SETTINGS = {
         "WorkOrderKindEnum": "scheduling.models.WorkOrder.Kind",
         "TrendImportJobStatusEnum": "automation.models.TrendImportJob.Status",
         "FindingKindEnum": "inspections.models.Finding.Kind",
+        "ChecklistItemKindEnum": "inspections.models.ChecklistItem.Kind",
         "FindingStateEnum": "inspections.models.Finding.State",
         "MeterReadingSourceEnum": "scheduling.models.MeterReading.Source",
         "OutdoorTemperatureSourceEnum": "scheduling.models.OutdoorTemperature.Source",
