@@ -72,8 +72,8 @@ class InspectionAdmin(ReadOnlyAdmin):
 
 @admin.register(Finding)
 class FindingAdmin(ReadOnlyAdmin):
-    list_display = ["title", "ahu", "component", "severity", "state", "opened_at", "corrective_work_order"]
-    list_filter = ["severity", "state", "organisation"]
+    list_display = ["title", "ahu", "component", "source", "severity", "state", "opened_at", "corrective_work_order"]
+    list_filter = ["source", "severity", "state", "organisation"]
     search_fields = ["title", "ahu__tag"]
 
 

@@ -402,8 +402,10 @@ def freeze_readiness(
         site = u.building.site
         tz_of.setdefault(site.pk, zoneinfo.ZoneInfo(site.time_zone))
     unit_site = {u.pk: u.building.site_id for u in units}
+    # A freeze event of the trends is answered by a passing test after it (FREEZE_EVENT_SOURCES, below), not by its
+    # finding's closing: the findings read here are the visits'.
     for ahu_id, insp_id, severity, state, closed_at, opened_at, title, wo_state, approval in Finding.objects.filter(
-        ahu_id__in=ids, condition_code=CONDITION, opened_at__lte=as_of
+        ahu_id__in=ids, condition_code=CONDITION, opened_at__lte=as_of, source=Finding.Source.INSPECTION
     ).values_list(
         "ahu_id",
         "inspection_id",

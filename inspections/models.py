@@ -277,7 +277,16 @@ class Finding(models.Model):
     latest. A repeat failure while the finding is open updates it; after it is closed a new failure opens
     a new finding. A design-review finding (the requirement is above what the unit was designed for)
     proposes no corrective work.
+
+    ``source`` says who saw it: a technician's visits (``inspection``, with its judgements and forms), or the
+    building-automation trends (``bas_trend``: a published fault rule, ``rule`` such as FC6, found it; no form or
+    judgement row, ``times_seen`` counts the days it was found, ``evidence`` holds the latest evidence window and
+    share of the operating time). A trend finding follows its ``automation.Fault``, which points at it.
     """
+
+    class Source(models.TextChoices):
+        INSPECTION = "inspection", "Inspection visits"
+        BAS_TREND = "bas_trend", "Building-automation trends"
 
     class Severity(models.TextChoices):
         LOW = "low", "Low"
@@ -299,10 +308,22 @@ class Finding(models.Model):
         MERGED = "merged", "Merged into the earlier open finding of the same problem"
         OK_LATER = "ok_later", "Ok on a later visit"
         REPLACED = "replaced", "Filters replaced"
+        ABSENT = "absent", "No longer found in the building-automation trends"
 
     organisation = models.ForeignKey(Organisation, on_delete=models.PROTECT, related_name="findings")
-    inspection = models.ForeignKey(Inspection, on_delete=models.PROTECT, related_name="findings")
-    evaluation = models.OneToOneField(Evaluation, on_delete=models.PROTECT, related_name="finding")
+    source = models.CharField(max_length=12, choices=Source.choices, default=Source.INSPECTION)
+    rule = models.CharField(
+        max_length=12, blank=True, help_text="The published rule that found it in the trends (FC1–FC15, FREEZE)."
+    )
+    evidence = models.JSONField(
+        default=dict,
+        blank=True,
+        help_text="Trend findings: {section, start, end (latest evidence window), share (0–1), days}.",
+    )
+    inspection = models.ForeignKey(Inspection, on_delete=models.PROTECT, null=True, blank=True, related_name="findings")
+    evaluation = models.OneToOneField(
+        Evaluation, on_delete=models.PROTECT, null=True, blank=True, related_name="finding"
+    )
     ahu = models.ForeignKey(AHU, on_delete=models.PROTECT, related_name="findings")
     component = models.ForeignKey(Component, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
     kind = models.CharField(max_length=20, choices=Kind.choices, default=Kind.CORRECTIVE)
@@ -339,6 +360,9 @@ class Finding(models.Model):
         help_text="The amendment whose corrected readings newly failed (blank: found on the original form).",
     )
     close_cause = models.CharField(max_length=20, choices=CloseCause.choices, blank=True)
+    close_note = models.CharField(
+        max_length=200, blank=True, help_text="Why it closed, where the cause needs more words (days absent)."
+    )
     closed_by = models.ForeignKey(
         settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True, related_name="+"
     )
@@ -369,7 +393,15 @@ class Finding(models.Model):
                 models.F("problem"),
                 condition=models.Q(state="open") & ~models.Q(problem=""),
                 name="finding_one_open_per_problem",
-            )
+            ),
+            # A visit's finding holds its form and judgement; a trend finding names its rule instead.
+            models.CheckConstraint(
+                condition=(
+                    models.Q(source="inspection", inspection__isnull=False, evaluation__isnull=False)
+                    | (models.Q(source="bas_trend") & ~models.Q(rule=""))
+                ),
+                name="finding_source_has_its_evidence",
+            ),
         ]
 
     def __str__(self) -> str:
@@ -378,6 +410,29 @@ class Finding(models.Model):
     @property
     def first_seen_at(self):
         return self.opened_at
+
+    @property
+    def from_trends(self) -> bool:
+        return self.source == self.Source.BAS_TREND
+
+    @property
+    def source_words(self) -> str:
+        """Who saw it, as every page and PDF names it: "building-automation trends, rule FC6" for a fault rule's
+        finding in the trends; "" for a finding of technicians' visits (what lists show unless they say otherwise)."""
+        if self.source == self.Source.INSPECTION:
+            return ""
+        words = self.get_source_display().lower()
+        if self.rule == "FREEZE":
+            return f"{words}, freeze-protection stages"
+        return f"{words}, rule {self.rule}" if self.rule else words
+
+    @property
+    def times_seen_words(self) -> str:
+        """How often it was seen, as pages say it: "2 visits", or "3 days in the trends" for a trend finding."""
+        n = self.times_seen
+        if self.from_trends:
+            return f"{n} day{'' if n == 1 else 's'} in the trends"
+        return f"{n} visit{'' if n == 1 else 's'}"
 
     def age_days(self, *, now=None) -> int:
         """Days since the first observation (to the close, or ``now``), in the site's local dates."""

@@ -732,6 +732,8 @@ def reason_for(*, evaluation, unit_system: str) -> str:
         # judgement's reason.
         if evaluation.reason_parts:
             return reasons.render(evaluation.reason_parts, unit_system)
+        if evaluation.latest_evaluation_id is None and evaluation.evaluation_id is None:
+            return evaluation.reason  # a finding of another source with no judgement row: its own text
         evaluation = evaluation.latest_evaluation or evaluation.evaluation
     parts = getattr(evaluation, "reason_parts", None)
     if not parts:
@@ -873,6 +875,8 @@ def finding_observations(*, finding: Finding) -> list[Evaluation]:
     inspection (with work order and technician) for the finding's history."""
     from .services.findings import problem_of
 
+    if finding.source != Finding.Source.INSPECTION:
+        return []  # seen by another source (the trends): no visit observed it
     merged = set(Finding.objects.filter(merged_into=finding).values_list("inspection_id", "latest_inspection_id"))
     own = {finding.inspection_id, finding.latest_inspection_id} | {i for pair in merged for i in pair}
     candidates = Evaluation.objects.filter(

@@ -5,12 +5,18 @@ rework, it opens again), when an amendment corrects the readings so that its che
 visit judges the same check on the same part ok, or (a filter finding) when that bank's filters are replaced.
 A failure after it closed opens a new finding. Corrective work still awaiting approval whose findings are all
 closed is withdrawn.
+
+Findings of other sources take the same path (``finding_observe_source``): the building-automation trends raise
+one finding per unit, part and fault rule through ``automation.fault_findings``, closed with their fault
+(``finding_close_source``: absent for the set time, or its corrective work completed).
 """
 
 from __future__ import annotations
 
 import datetime as dt
 import zoneinfo
+from dataclasses import dataclass, field
+from typing import Any
 
 from django.db import IntegrityError, transaction
 from django.utils import timezone
@@ -257,6 +263,38 @@ def _worst(a: str, b: str) -> str:
     return max(a, b, key=lambda s: SEVERITY_ORDER.index(s) if s in SEVERITY_ORDER else 0)
 
 
+def _open_or_get(*, key: dict[str, Any], fields: dict[str, Any]) -> tuple[Finding, bool]:
+    """Open the finding of ``key`` (unit, part and problem) with ``fields``; should another writer have opened
+    the same one meanwhile (the one-open-per-problem constraint refuses the insert), that one, locked.
+    Returns (finding, opened here?)."""
+    try:
+        with transaction.atomic():
+            return Finding.objects.create(**key, **fields), True
+    except IntegrityError:
+        return Finding.objects.select_for_update(of=("self",)).get(state=Finding.State.OPEN, **key), False
+
+
+# What the latest observation of a finding sets (its own fields beside these: severity, last seen, times seen).
+LATEST_VALUES = ("kind", "title", "reason", "reason_parts", "condition_code")
+
+
+def _seen_again(
+    finding: Finding, *, values: dict[str, Any], seen_at: dt.datetime, times_seen: int, latest: dict[str, Any]
+) -> None:
+    """One more observation of an open finding: the count, the worst severity so far and, when it is the latest
+    observation, its time, its values and ``latest`` ({field: value} of the source: judgement and form, or
+    evidence). An observation older than the latest (an amendment to an older visit) adds to the count only."""
+    finding.times_seen = times_seen
+    finding.severity = _worst(finding.severity, values["severity"])
+    if seen_at >= (finding.last_seen_at or finding.opened_at):
+        finding.last_seen_at = seen_at
+        for name in LATEST_VALUES:
+            setattr(finding, name, values[name])
+        for name, value in latest.items():
+            setattr(finding, name, value)
+    finding.save(update_fields=["times_seen", "last_seen_at", "severity", *LATEST_VALUES, *latest])
+
+
 def _observe(
     *, inspection: Inspection, ev: Evaluation, res, values: dict, seen_at, amendment, by, known=None, fresh=None
 ):
@@ -267,7 +305,7 @@ def _observe(
     ``known``: the unit's open findings, {(component id, problem): finding}, read (and locked) once by the
     caller; ``fresh``: those of them just opened for an observation, {key: its evaluation}.
     """
-    key = {"ahu_id": inspection.ahu_id, "component": res.component, "problem": values["problem"]}
+    key = {"ahu": inspection.ahu, "component": res.component, "problem": values["problem"]}
     known_key = (res.component.pk if res.component is not None else None, values["problem"])
     if known is not None and known_key in known:
         finding = known[known_key]
@@ -277,53 +315,33 @@ def _observe(
     else:
         finding = Finding.objects.select_for_update(of=("self",)).filter(state=Finding.State.OPEN, **key).first()
     if finding is None:
-        try:
-            with transaction.atomic():
-                finding = Finding.objects.create(
-                    organisation_id=inspection.organisation_id,
-                    inspection=inspection,
-                    evaluation=ev,
-                    ahu=inspection.ahu,
-                    component=res.component,
-                    opened_at=seen_at,
-                    last_seen_at=seen_at,
-                    times_seen=1,
-                    latest_evaluation=ev,
-                    latest_inspection=inspection,
-                    amendment=amendment,
-                    **{k: v for k, v in values.items() if k != "problem"},
-                    problem=values["problem"],
-                )
-            if known is not None:
-                known[known_key] = finding
+        finding, opened = _open_or_get(
+            key=key,
+            fields={
+                "organisation_id": inspection.organisation_id,
+                "inspection": inspection,
+                "evaluation": ev,
+                "opened_at": seen_at,
+                "last_seen_at": seen_at,
+                "times_seen": 1,
+                "latest_evaluation": ev,
+                "latest_inspection": inspection,
+                "amendment": amendment,
+                **{k: v for k, v in values.items() if k != "problem"},
+            },
+        )
+        if known is not None:
+            known[known_key] = finding
+        if opened:
             return finding, True
-        except IntegrityError:  # another form opened it meanwhile: observe that one
-            finding = Finding.objects.select_for_update(of=("self",)).get(state=Finding.State.OPEN, **key)
-            if known is not None:
-                known[known_key] = finding
+        # another form opened it meanwhile: observe that one
     same_visit = finding.latest_inspection_id == inspection.pk
-    if not same_visit:
-        finding.times_seen += 1
-    finding.severity = _worst(finding.severity, values["severity"])
-    # The latest values come from the latest observation: an amendment to an older visit adds to the count only.
-    if seen_at >= (finding.last_seen_at or finding.opened_at):
-        finding.last_seen_at = seen_at
-        finding.latest_evaluation, finding.latest_inspection = ev, inspection
-        for name in ("kind", "title", "reason", "reason_parts", "condition_code"):
-            setattr(finding, name, values[name])
-    finding.save(
-        update_fields=[
-            "times_seen",
-            "last_seen_at",
-            "latest_evaluation",
-            "latest_inspection",
-            "severity",
-            "kind",
-            "title",
-            "reason",
-            "reason_parts",
-            "condition_code",
-        ]
+    _seen_again(
+        finding,
+        values=values,
+        seen_at=seen_at,
+        times_seen=finding.times_seen + (0 if same_visit else 1),
+        latest={"latest_evaluation": ev, "latest_inspection": inspection},
     )
     audit_record(
         actor=by,
@@ -338,6 +356,112 @@ def _observe(
         },
     )
     return finding, False
+
+
+@dataclass(frozen=True)
+class SourceSeen:
+    """What a source other than a technician's visit saw of one problem of one unit and part, as its finding keeps
+    it: the building-automation trends, where a published fault rule (``rule``, e.g. FC6) found a fault.
+
+    ``reason_parts`` is the finding's text (inspections.reasons parts, SI); ``times_seen`` how often the source
+    saw it so far (the trends: days); ``evidence`` what a reader needs beside the text (the trends: the rule's
+    section, the latest evidence window, the share of the operating time, the days)."""
+
+    ahu: Any
+    component: Any
+    source: str
+    rule: str
+    severity: str
+    title: str
+    reason_parts: list[Any]
+    condition_code: str
+    first_seen_at: dt.datetime
+    last_seen_at: dt.datetime
+    times_seen: int
+    evidence: dict[str, Any] = field(default_factory=dict)
+
+
+TITLE_MAX: int = Finding._meta.get_field("title").max_length or 200
+
+
+def source_problem(*, source: str, rule: str) -> str:
+    """The problem of a source's finding: its rule, so one open finding per unit, part and rule."""
+    return f"{source}:{rule}"[:120]
+
+
+def finding_observe_source(*, seen: SourceSeen, by: Any) -> tuple[Finding, bool]:
+    """The one open finding of the unit, part and rule ``seen`` is about, updated with it, or opened first seen at
+    ``seen.first_seen_at``; the same path as a visit's failure (one open finding per unit, part and problem,
+    found again while open: the same finding; after it closed: a new one). Returns (finding, opened?).
+
+    Audited when opened and when the source saw it on a further day (``times_seen`` grew), not at each rerun."""
+    if seen.source == Finding.Source.INSPECTION or not seen.rule:
+        raise ValueError("finding_observe_source is for a source other than a visit, with its rule")
+    problem = source_problem(source=seen.source, rule=seen.rule)
+    key = {"ahu": seen.ahu, "component": seen.component, "problem": problem}
+    parts = list(seen.reason_parts)
+    values = {
+        "kind": Finding.Kind.CORRECTIVE,
+        "severity": seen.severity,
+        "title": title_fit(seen.title, limit=TITLE_MAX),
+        "reason": rs.render(parts, "si"),
+        "reason_parts": parts,
+        "condition_code": seen.condition_code,
+    }
+    organisation_id = seen.ahu.building.site.organisation_id
+    finding = Finding.objects.select_for_update(of=("self",)).filter(state=Finding.State.OPEN, **key).first()
+    opened = False
+    if finding is None:
+        finding, opened = _open_or_get(
+            key=key,
+            fields={
+                "organisation_id": organisation_id,
+                "source": seen.source,
+                "rule": seen.rule,
+                "evidence": seen.evidence,
+                "opened_at": seen.first_seen_at,
+                "last_seen_at": seen.last_seen_at,
+                "times_seen": seen.times_seen,
+                **values,
+            },
+        )
+    before = finding.times_seen
+    if not opened:
+        if seen.first_seen_at < finding.opened_at:  # an earlier day judged later
+            finding.opened_at = seen.first_seen_at
+            finding.save(update_fields=["opened_at"])
+        _seen_again(
+            finding,
+            values=values,
+            seen_at=seen.last_seen_at,
+            times_seen=seen.times_seen,
+            latest={"evidence": seen.evidence},
+        )
+    if opened or finding.times_seen > before:
+        audit_record(
+            actor=by,
+            obj=finding,
+            action="finding_open" if opened else "finding_observe",
+            organisation_id=organisation_id,
+            changes={"source": seen.source, "rule": seen.rule, "times_seen": finding.times_seen},
+        )
+    return finding, opened
+
+
+def finding_close_source(*, finding: Finding, at: dt.datetime, cause: str, note: str = "", by: Any) -> bool:
+    """Close a source's open finding when its source closes what it saw (the trends: absent for the set time, with
+    ``note`` saying how long; or its corrective work completed). False when it was closed already."""
+    locked = Finding.objects.select_for_update(of=("self",)).filter(pk=finding.pk, state=Finding.State.OPEN).first()
+    if locked is None:
+        return False
+    _close(locked, at=at, cause=cause, by=by, changes={"source": locked.source, "rule": locked.rule}, note=note)
+    finding.state, finding.closed_at, finding.close_cause, finding.close_note = (
+        locked.state,
+        locked.closed_at,
+        locked.close_cause,
+        locked.close_note,
+    )
+    return True
 
 
 def _findings_opened(*, inspection: Inspection, failing: list, seen_at, amendment) -> tuple[dict, dict]:
@@ -681,16 +805,17 @@ def _actor(by):
     return by if getattr(by, "is_authenticated", False) else None
 
 
-def _close(finding: Finding, *, at: dt.datetime, cause: str, by, changes: dict) -> None:
+def _close(finding: Finding, *, at: dt.datetime, cause: str, by, changes: dict, note: str = "") -> None:
     finding.state, finding.closed_at, finding.close_cause = Finding.State.CLOSED, at, cause
     finding.closed_by = _actor(by)
-    finding.save(update_fields=["state", "closed_at", "close_cause", "closed_by", "cleared_by_amendment"])
+    finding.close_note = note[: Finding._meta.get_field("close_note").max_length]
+    finding.save(update_fields=["state", "closed_at", "close_cause", "close_note", "closed_by", "cleared_by_amendment"])
     audit_record(
         actor=by,
         obj=finding,
         action="finding_close",
         organisation=finding.organisation,
-        changes={"cause": cause, **changes},
+        changes={"cause": cause, **({"note": note} if note else {}), **changes},
     )
 
 
@@ -743,11 +868,14 @@ def findings_close_corrected(*, work_order, by) -> list[Finding]:
 
 
 def findings_reopen_for_rework(*, work_order, by) -> list[Finding]:
-    """Corrective work sent back for rework: the findings its completion closed are open again."""
+    """Corrective work sent back for rework: the findings its completion closed are open again.
+
+    A finding of the building-automation trends stays closed with its fault: the trends judge the unit again
+    each night, and a fault still there opens a new fault and finding, held by the open rework."""
     found = list(
-        Finding.objects.select_for_update().filter(
-            corrective_work_order=work_order, state=Finding.State.CLOSED, close_cause=Finding.CloseCause.CORRECTED
-        )
+        Finding.objects.select_for_update()
+        .filter(corrective_work_order=work_order, state=Finding.State.CLOSED, close_cause=Finding.CloseCause.CORRECTED)
+        .exclude(source=Finding.Source.BAS_TREND)
     )
     for finding in found:
         finding.state, finding.closed_at, finding.close_cause, finding.closed_by = Finding.State.OPEN, None, "", None

@@ -6,6 +6,7 @@ from django.db.migrations.executor import MigrationExecutor
 
 from accounts.models import AuditEvent
 from inspections.models import Finding
+from inspections.services.findings import problem_of
 from scheduling.models import WorkOrder
 from tests.factories.inspections import make_visit
 from tests.factories.scheduling import WorkOrderFactory
@@ -23,6 +24,26 @@ def test_open_findings_resolved_by_later_visits_are_closed_and_later_failures_be
     open (its corrective retest closes it); a finding with no later ok is left alone."""
     executor = MigrationExecutor(connection)
     executor.migrate([BEFORE])
+    # Findings as the table was then (later migrations add columns); the other rows' tables are unchanged since.
+    OldFinding = executor.loader.project_state([BEFORE]).apps.get_model("inspections", "Finding")
+
+    def old_finding(insp, ev, *, severity, title, opened):
+        return OldFinding.objects.create(
+            organisation_id=insp.organisation_id,
+            inspection_id=insp.pk,
+            evaluation_id=ev.pk,
+            ahu_id=insp.ahu_id,
+            component_id=ev.component_id,
+            problem=problem_of(check=ev.check_name, item=ev.item_key),
+            severity=severity,
+            title=title,
+            reason=ev.reason,
+            condition_code=ev.condition_code,
+            opened_at=b.at(opened),
+            last_seen_at=b.at(opened),
+            latest_evaluation_id=ev.pk,
+            latest_inspection_id=insp.pk,
+        )
 
     wo, tech = make_visit(tasks=["filter_check"])
     ahu = wo.ahu
@@ -46,8 +67,8 @@ def test_open_findings_resolved_by_later_visits_are_closed_and_later_failures_be
     proposal = WorkOrderFactory(
         ahu=ahu, kind=WorkOrder.Kind.CORRECTIVE, approval=WorkOrder.Approval.PENDING, title="Filter replacement"
     )
-    filters = b.finding(june, loaded[0], severity="medium", title="Filter loaded — Pre-filters", opened="2026-06-05")
-    Finding.objects.filter(pk=filters.pk).update(
+    filters = old_finding(june, loaded[0], severity="medium", title="Filter loaded — Pre-filters", opened="2026-06-05")
+    OldFinding.objects.filter(pk=filters.pk).update(
         times_seen=3,
         last_seen_at=dec.finished_at,
         latest_evaluation=loaded[2],
@@ -56,13 +77,13 @@ def test_open_findings_resolved_by_later_visits_are_closed_and_later_failures_be
     )
     off = ev(june, "damper_position", "damper_actuator.position", "fail", damper, "damper_position")
     ev(july, "damper_position", "damper_actuator.position", "ok", damper, "damper_position")
-    damper_finding = b.finding(june, off, severity="medium", title="Damper", opened="2026-06-05")
+    damper_finding = old_finding(june, off, severity="medium", title="Damper", opened="2026-06-05")
     trip = ev(june, "check", "preheater_freeze.freeze_trip_test", "fail", None, "freeze_protection_failed")
     ev(july, "check", "preheater_freeze.freeze_trip_test", "ok", None, "freeze_protection_failed")
-    freeze = b.finding(june, trip, severity="critical", title="Freeze", opened="2026-06-05")
+    freeze = old_finding(june, trip, severity="critical", title="Freeze", opened="2026-06-05")
     standing = ev(june, "choice", "drain_pan.pan_condition", "fail", pan)
     ev(july, "choice", "drain_pan.pan_condition", "fail", pan)
-    untouched = b.finding(june, standing, severity="medium", title="Pan", opened="2026-06-05")
+    untouched = old_finding(june, standing, severity="medium", title="Pan", opened="2026-06-05")
 
     executor = MigrationExecutor(connection)
     executor.loader.build_graph()
