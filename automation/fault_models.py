@@ -9,6 +9,7 @@ from __future__ import annotations
 from django.db import models
 from django.db.models import Q
 
+from inspections.models import Finding
 from inventory.models import AHU, Component
 from scheduling.models import WorkOrder
 
@@ -20,9 +21,10 @@ class Fault(models.Model):
     updated each further day it is found (``last_seen_at``, ``days_seen``, the windows of each day, the latest
     share and consequence). It closes once it has been absent for ``PLENUM_FAULT_CLOSE_AFTER_DAYS`` days of
     judged trends (cause ``absent``), or when its corrective work is completed (cause ``corrected``); found
-    again after that, it opens a new fault. A freeze event (code ``FREEZE``) keeps the unit "not ready" for
-    freeze protection until a freeze-protection test passes after it (``inspections.freeze``), whatever the
-    state of the row.
+    again after that, it opens a new fault. Each fault is one finding of its unit (``finding``, source
+    building-automation trends, ``automation.fault_findings``), opened, updated and closed with it. A freeze
+    event (code ``FREEZE``) keeps the unit "not ready" for freeze protection until a freeze-protection test
+    passes after it (``inspections.freeze``), whatever the state of the row.
     """
 
     class State(models.TextChoices):
@@ -60,6 +62,14 @@ class Fault(models.Model):
     reason = models.TextField(blank=True, help_text="The latest day's finding in plain words (SI).")
     corrective_work_order = models.ForeignKey(
         WorkOrder, on_delete=models.SET_NULL, null=True, blank=True, related_name="trend_faults"
+    )
+    finding = models.ForeignKey(
+        Finding,
+        on_delete=models.SET_NULL,
+        null=True,
+        blank=True,
+        related_name="trend_faults",
+        help_text="The unit's finding that stands for this fault (source: building-automation trends).",
     )
     closed_at = models.DateTimeField(null=True, blank=True)
     close_cause = models.CharField(max_length=20, choices=CloseCause.choices, blank=True)

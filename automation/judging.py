@@ -15,6 +15,9 @@ For each site-local day and each unit with mapped points (``trends_judge``):
    corrective work order per unit, part and scheduling condition). A fault the rules judged but did not find
    for ``PLENUM_FAULT_CLOSE_AFTER_DAYS`` days (7 by default) closes. A freeze event keeps the unit "not ready"
    in ``inspections.freeze.freeze_readiness`` until a freeze-protection test passes after it.
+5. Each open fault is one finding of its unit through the findings' own path (``automation.fault_findings``):
+   source building-automation trends with the rule, its evidence window and share; it holds the fault's
+   corrective work and closes with the fault (absent for the set time, or its work completed).
 
 Re-running a day replaces that day's evidence and adds nothing twice.
 """
@@ -28,6 +31,7 @@ import numpy as np
 from django.conf import settings
 from django.core.exceptions import ValidationError
 from django.db import transaction
+from django.db.models import Q
 from django.utils import timezone
 
 from engineering.errors import EngineeringInputError
@@ -43,6 +47,7 @@ from engineering.faults import (
 )
 from inventory.models import AHU, Site
 
+from .fault_findings import fault_finding_close, fault_finding_keep
 from .fault_models import Fault
 from .feeds import filter_feed, run_hours_feed
 from .models import Point
@@ -322,6 +327,7 @@ def _keep(*, ahu: AHU, day: dt.date, seen: Seen, by) -> tuple[Fault, bool]:
     fault.save()
     if new:
         _audit(by, fault, "fault_open", {"code": fault.code, "day": iso})
+    fault_finding_keep(fault=fault, by=by)
     _propose(fault=fault, day=day, by=by)
     return fault, new
 
@@ -338,12 +344,23 @@ def _is_open_work(wo) -> bool:
 
 
 def _propose(*, fault: Fault, day: dt.date, by) -> None:
-    """The fault's corrective work: the open one it holds, else one proposed (found again for its condition)."""
+    """The fault's corrective work: the open one it or its finding holds (a supervisor may have made one for the
+    finding), else one proposed (found again for its condition); its finding holds the same work."""
     from inspections.services.findings import CONDITION_TITLES, PRIORITY
+
+    finding = fault.finding
+    if (
+        not _is_open_work(fault.corrective_work_order)
+        and finding is not None
+        and _is_open_work(finding.corrective_work_order)
+    ):
+        fault.corrective_work_order = finding.corrective_work_order
+        fault.save(update_fields=["corrective_work_order"])
+    if _is_open_work(fault.corrective_work_order):
+        _finding_holds(fault=fault, by=by)
+        return
     from scheduling.services import corrective_work_order_propose
 
-    if _is_open_work(fault.corrective_work_order):
-        return
     urgent = fault.code == Fault.FREEZE
     title = CONDITION_TITLES.get(fault.condition_code, fault.title) if fault.condition_code else fault.title
     if fault.component is not None:
@@ -362,6 +379,20 @@ def _propose(*, fault: Fault, day: dt.date, by) -> None:
     )
     fault.corrective_work_order = wo
     fault.save(update_fields=["corrective_work_order"])
+    _finding_holds(fault=fault, by=by)
+
+
+def _finding_holds(*, fault: Fault, by) -> None:
+    """The fault's finding holds the fault's open corrective work (the findings' own attach: audited, and refused
+    for open work of another repair, which the finding then keeps)."""
+    from inspections.services.findings import finding_work_order_attach
+
+    finding, wo = fault.finding, fault.corrective_work_order
+    if finding is None or wo is None or finding.corrective_work_order_id == wo.pk:
+        return
+    if _is_open_work(finding.corrective_work_order):
+        return
+    finding_work_order_attach(finding=finding, work_order=wo, by=by)
 
 
 def _close_absent(*, ahu: AHU, day: dt.date, end: dt.datetime, judged: set[str], present: set[str], by) -> list:
@@ -374,6 +405,7 @@ def _close_absent(*, ahu: AHU, day: dt.date, end: dt.datetime, judged: set[str],
         fault.state, fault.closed_at, fault.close_cause = Fault.State.CLOSED, end, Fault.CloseCause.ABSENT
         fault.save(update_fields=["state", "closed_at", "close_cause"])
         _audit(by, fault, "fault_close", {"cause": "absent", "day": day.isoformat()})
+        fault_finding_close(fault=fault, at=end, cause=Fault.CloseCause.ABSENT, by=by)
         _withdraw(fault=fault, by=by)
         closed.append(fault)
     return closed
@@ -499,17 +531,23 @@ def sites_with_points() -> list[int]:
 
 
 def work_order_moved(sender, *, work_order, before: str, by, **kwargs) -> None:
-    """``scheduling.signals.work_order_moved`` receiver: completed corrective work closes the faults it answers
-    (found again the next night, a fault opens anew)."""
+    """``scheduling.signals.work_order_moved`` receiver: completed corrective work closes the faults it answers,
+    held by the fault or by its finding, and their findings (found again the next night, a fault opens anew)."""
     from scheduling.models import WorkOrder
 
     if work_order.state != WorkOrder.State.COMPLETED:
         return
     at = work_order.completed_at or timezone.now()
-    for fault in Fault.objects.select_for_update().filter(corrective_work_order=work_order, state=Fault.State.OPEN):
+    for fault in (
+        Fault.objects.select_for_update(of=("self",))
+        .filter(Q(corrective_work_order=work_order) | Q(finding__corrective_work_order=work_order))
+        .filter(state=Fault.State.OPEN)
+        .select_related("finding")
+    ):
         fault.state, fault.closed_at, fault.close_cause = Fault.State.CLOSED, at, Fault.CloseCause.CORRECTED
         fault.save(update_fields=["state", "closed_at", "close_cause"])
         _audit(by, fault, "fault_close", {"cause": "corrected", "work_order": str(work_order.public_id)})
+        fault_finding_close(fault=fault, at=at, cause=Fault.CloseCause.CORRECTED, by=by)
 
 
 FREEZE_LOOKBACK = dt.timedelta(days=400)

@@ -384,6 +384,12 @@ def test_a_near_freezing_night_makes_the_unit_not_ready_until_its_freeze_test_pa
     assert after.status == "ready" and after.tested_on == dt.date(2025, 10, 30)
     fault.refresh_from_db()
     assert fault.state == Fault.State.CLOSED and fault.close_cause == Fault.CloseCause.CORRECTED
+    # Its finding (critical, from the trends) closed with it.
+    assert (fault.finding.state, fault.finding.close_cause, fault.finding.severity) == (
+        "closed",
+        "corrected",
+        "critical",
+    )
 
 
 # ---------------------------------------------------------------------------

@@ -1,0 +1,167 @@
+"""A fault found in the trends as a finding of its unit: one finding per open fault, through the findings' own path.
+
+Each open ``Fault`` is one ``inspections.Finding`` of its unit (and part, where the rule names one), source
+"building-automation trends" with the rule (FC6 …), raised and updated each judged day through
+``inspections.services.findings.finding_observe_source`` (the path a visit's failure takes: one open finding per
+unit, part and problem), and closed with its fault: "absent for N days in the building-automation trends", or its
+corrective work completed. A fault found again after it closed is a new fault with a new finding. The fault points
+at its finding (``Fault.finding``); the finding's page links to the fault's evidence chart and back.
+
+The finding's words and evidence are made here from the fault's fields alone (``finding_fields``), so the
+migration that gave the faults open before it their findings says them the same way.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+
+from accounts.clock import local_time_text
+from inspections.models import Finding
+
+# The finding's source: the same value the trend-fed meter readings and filter points carry.
+SOURCE = Finding.Source.BAS_TREND.value
+SOURCE_WORDS = Finding.Source.BAS_TREND.label.lower()
+
+
+def latest_window(windows: list[dict] | None) -> dict | None:
+    """The evidence window that ended last (None without windows)."""
+    ends = [w for w in windows or [] if w.get("start") and w.get("end")]
+    return max(ends, key=lambda w: (w["end"], w["start"])) if ends else None
+
+
+def finding_title(title: str, component_name: str | None) -> str:
+    """The finding's title as a visit's names its part: "<the rule's words> — <part>"."""
+    return f"{title} — {component_name}" if component_name else title
+
+
+def finding_evidence(*, section: str, windows: list[dict] | None, share: float | None, days: int) -> dict:
+    """What a reader needs beside the text: the rule's published section, the latest evidence window (ISO times),
+    the share of the operating time the rule could judge that the fault took on its latest day (0–1) and the
+    number of days it was found; the lowest supply air of a freeze event's window."""
+    w = latest_window(windows)
+    out: dict = {"section": section, "share": share, "days": days}
+    if w is not None:
+        out.update(start=w["start"], end=w["end"])
+        if w.get("lowest_c") is not None:
+            out["lowest_c"] = w["lowest_c"]
+    return out
+
+
+def evidence_window_words(evidence: dict, zone: str) -> str:
+    """The latest evidence window on the site's clock, "2 Dec 2026 06:15 CET – 2 Dec 2026 18:00 CET" ("" without
+    one)."""
+    start, end = evidence.get("start"), evidence.get("end")
+    if not start or not end:
+        return ""
+    return (
+        f"{local_time_text(dt.datetime.fromisoformat(start), zone=zone)} – "
+        f"{local_time_text(dt.datetime.fromisoformat(end), zone=zone)}"
+    )
+
+
+def share_words(share: float | None) -> str:
+    return "" if share is None else f"{share * 100:.0f} % of the operating time the rule could judge"
+
+
+def finding_parts(*, code: str, formula: str, evidence: dict, consequence: dict | None, zone: str) -> list:
+    """The finding's text (inspections.reasons parts, SI): where it was found and by which rule, what the rule
+    tests, the latest evidence window and the share of the operating time, the days, and what it costs."""
+    parts: list = [f"Found in the {SOURCE_WORDS} by rule {code}"]
+    if formula:
+        parts.append(f" ({formula})")
+    window = evidence_window_words(evidence, zone)
+    if window:
+        parts.append(f"; latest evidence window {window}")
+    share = share_words(evidence.get("share"))
+    if share:
+        parts.append(f", {share} that day")
+    days = int(evidence.get("days") or 0)
+    if days:
+        parts.append(f"; found on {days} day{'' if days == 1 else 's'}")
+    if evidence.get("lowest_c") is not None:
+        parts += ["; the supply air fell to ", {"value": float(evidence["lowest_c"]), "quantity": "temperature"}]
+    summary = (consequence or {}).get("summary")
+    if summary:
+        parts.append(f"; {summary}")
+    merged: list = []
+    for p in parts:  # adjacent texts as one (inspections.reasons.flatten)
+        if isinstance(p, str) and merged and isinstance(merged[-1], str):
+            merged[-1] += p
+        else:
+            merged.append(p)
+    return merged
+
+
+def finding_fields(fault) -> dict:
+    """Everything the finding of ``fault`` says, from the fault's own fields (a ``Fault`` or its historical
+    model in a migration): title, severity, condition, rule, evidence, text parts and when it was seen."""
+    zone = fault.ahu.building.site.time_zone
+    evidence = finding_evidence(
+        section=fault.section, windows=fault.windows, share=fault.share, days=len(fault.days_seen or [])
+    )
+    return {
+        "title": finding_title(fault.title, fault.component.name if fault.component_id else None),
+        "severity": fault.severity,
+        "condition_code": fault.condition_code,
+        "rule": fault.code,
+        "evidence": evidence,
+        "reason_parts": finding_parts(
+            code=fault.code, formula=fault.formula, evidence=evidence, consequence=fault.consequence, zone=zone
+        ),
+        "first_seen_at": fault.first_seen_at,
+        "last_seen_at": fault.last_seen_at,
+        "times_seen": max(len(fault.days_seen or []), 1),
+    }
+
+
+def absent_words(days: int) -> str:
+    """Why a trend finding closed when its fault was no longer found: "absent for 7 days in the trends"."""
+    return f"absent for {days} day{'' if days == 1 else 's'} in the {SOURCE_WORDS}"
+
+
+# ---------------------------------------------------------------------------
+# Services (called inside automation.judging's writes)
+# ---------------------------------------------------------------------------
+
+
+def fault_finding_keep(*, fault, by):
+    """The fault's one finding, raised or updated with what the fault holds now; the fault points at it."""
+    from inspections.services.findings import SourceSeen, finding_observe_source
+
+    f = finding_fields(fault)
+    finding, _opened = finding_observe_source(
+        seen=SourceSeen(
+            ahu=fault.ahu,
+            component=fault.component,
+            source=SOURCE,
+            rule=f["rule"],
+            severity=f["severity"],
+            title=f["title"],
+            reason_parts=f["reason_parts"],
+            condition_code=f["condition_code"],
+            first_seen_at=f["first_seen_at"],
+            last_seen_at=f["last_seen_at"],
+            times_seen=f["times_seen"],
+            evidence=f["evidence"],
+        ),
+        by=by,
+    )
+    if fault.finding_id != finding.pk:
+        fault.finding = finding
+        fault.save(update_fields=["finding"])
+    return finding
+
+
+def fault_finding_close(*, fault, at: dt.datetime, cause: str, by) -> None:
+    """Close the fault's finding with it: absent (the days since it was last seen, in words) or corrected."""
+    from inspections.services.findings import finding_close_source
+
+    if fault.finding_id is None:
+        return
+    if cause == "absent":
+        days = max(int((at - fault.last_seen_at).total_seconds() // 86_400), 0)
+        finding_close_source(
+            finding=fault.finding, at=at, cause=Finding.CloseCause.ABSENT, note=absent_words(days), by=by
+        )
+    else:
+        finding_close_source(finding=fault.finding, at=at, cause=Finding.CloseCause.CORRECTED, by=by)
