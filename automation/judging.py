@@ -46,6 +46,7 @@ from engineering.faults import (
     resample,
 )
 from inventory.models import AHU, Site
+from inventory.today import today_for
 
 from .fault_findings import fault_finding_close, fault_finding_keep
 from .fault_models import Fault
@@ -515,9 +516,7 @@ def trends_judge(*, site: Site, start: dt.date, end: dt.date, by=None) -> JudgeR
 
 def trends_judge_yesterday(*, site: Site, now: dt.datetime | None = None) -> JudgeResult:
     """The nightly run: the site's local yesterday."""
-    from scheduling.selectors import site_today
-
-    yesterday = site_today(site=site, now=now or timezone.now()) - dt.timedelta(days=1)
+    yesterday = today_for(site, now=now) - dt.timedelta(days=1)
     return trends_judge(site=site, start=yesterday, end=yesterday)
 
 

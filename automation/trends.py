@@ -526,6 +526,7 @@ def _finished(job_id: int, *, status: str, **fields: Any) -> None:
 @transaction.atomic
 def trend_purge(*, now: dt.datetime | None = None) -> int:
     """Delete day buckets older than ``PLENUM_TREND_RETENTION_DAYS``; returns how many were deleted."""
+    # A UTC date on purpose: buckets are UTC days (TrendDay.day), whatever the site's zone.
     cutoff = ((now or timezone.now()) - trend_retention()).date()
     deleted, _ = TrendDay.objects.filter(day__lt=cutoff).delete()
     return deleted

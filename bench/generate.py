@@ -935,6 +935,7 @@ def portfolio_generate(
         raise ValueError(f"sites={sites}, ahus={ahus}: both must be at least 1")
     if years < 1:
         raise ValueError(f"years={years}: at least 1")
+    # The server's date on purpose: the synthetic history is anchored to one day, before any site exists.
     today = today or timezone.localdate()
     rng = random.Random(seed)
     codes = _Codes(rng)

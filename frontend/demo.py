@@ -18,9 +18,10 @@ from engineering.freeze import daily_values_from_normals
 from inspections.demo import demo_history_day, demo_history_load
 from inventory.demo import demo_registry_load
 from inventory.models import AHU, ComponentKind
+from inventory.today import today_for
 from scheduling.demo import ROUND_REF, demo_round_visit, demo_round_visit_due, demo_schedule_load
 from scheduling.models import WorkOrder
-from scheduling.selectors import assignment_check, person_today, site_today, today_visits_for, weekday_on_or_near
+from scheduling.selectors import assignment_check, today_visits_for, weekday_on_or_near
 from scheduling.services import (
     outdoor_temperatures_store,
     site_seasons_refresh,
@@ -47,6 +48,8 @@ MEASURED_DAYS, FORECAST_DAYS = 30, 14
 
 def demo_load(*, today: dt.date | None = None) -> dict[str, Any]:
     """Load the demo and return what the command prints: counts and the logins."""
+    # The server's date on purpose: the one day the invented history of every organisation is anchored to,
+    # taken before any site exists; each site's own today is used wherever a day is planned there.
     today = today or timezone.localdate()
     registry = demo_registry_load()
     summary: dict[str, Any] = {"registry": registry, "history": {}, "generated": {}, "assigned": 0}
@@ -144,7 +147,7 @@ def _round_today(*, organisation, today: dt.date) -> int:
     for tech in technicians:
         for n, ahu in enumerate(chosen.get(tech.pk, [])):
             # Technicians do not work weekends: loaded on a Saturday or Sunday, the round is Monday's.
-            site_day = max(today, site_today(site=ahu.building.site))
+            site_day = max(today, today_for(ahu.building.site))
             first_day = weekday_on_or_near(site_day, today=site_day)
             # A task the technician already has on this unit by then (the retest of a failed freeze test)
             # is not asked twice.
@@ -240,7 +243,7 @@ def _assign_upcoming(*, organisation, today: dt.date) -> int:
     # A technician with nothing due yet gets the soonest visit on their sites (theirs already, or still
     # unassigned) planned for today, so every demo technician signs in to a round whatever the date.
     for tech in technicians:
-        if today_visits_for(technician=tech, day=person_today(user=tech)):
+        if today_visits_for(technician=tech, day=today_for(tech)):
             continue
         theirs = [site_id for site_id, person in owner.items() if person == tech]
         soonest = (
@@ -259,7 +262,7 @@ def _assign_upcoming(*, organisation, today: dt.date) -> int:
             work_order_assign(work_order=soonest, assignee=tech, by=supervisor)
             count += 1
         # The site's own today: the service refuses a day already past there (after midnight in its zone).
-        site_day = max(today, site_today(site=soonest.ahu.building.site))
+        site_day = max(today, today_for(soonest.ahu.building.site))
         day = weekday_on_or_near(site_day, today=site_day)
         work_order_schedule(work_order=soonest, day=day, by=supervisor)
     return count

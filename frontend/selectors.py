@@ -17,6 +17,7 @@ from inspections.reasons import text_said_once
 from inspections.selectors import check_label, filter_series_for, filter_sources_words
 from inventory.models import Component, ComponentKind, Site
 from inventory.selectors import sites_visible_to
+from inventory.today import today_for
 from reports import compliance
 from scheduling.models import OutdoorTemperature, WorkOrder
 
@@ -24,9 +25,9 @@ SEVERITIES = compliance.SEVERITIES
 PERIOD_DAYS = 365  # the compliance report's default period: the last 12 months
 
 
-def default_period(*, today: dt.date | None = None) -> tuple[dt.date, dt.date]:
-    """The period the pages show and the report forms ask for unless the person picks another."""
-    today = today or timezone.localdate()
+def default_period(*, today: dt.date) -> tuple[dt.date, dt.date]:
+    """The period the pages show and the report forms ask for unless the person picks another: the
+    ``PERIOD_DAYS`` up to ``today`` (the person's or the site's, ``inventory.today.today_for``)."""
     return today - dt.timedelta(days=PERIOD_DAYS), today
 
 
@@ -38,10 +39,12 @@ def figures_for(*, user, site_ids: list[int] | None = None, start=None, end=None
     visible = sites_visible_to(user=user)
     if site_ids is not None:
         visible = visible.filter(pk__in=site_ids)
-    ids = list(visible.values_list("pk", flat=True))
-    default_start, default_end = default_period()
+    rows = list(visible.values_list("pk", "time_zone"))
+    as_of = as_of or timezone.now()
+    # The period ends on the sites' today, as the compliance report's does.
+    default_start, default_end = default_period(today=compliance.report_today([z for _, z in rows], as_of=as_of))
     return compliance.compliance_figures(
-        site_ids=ids, start=start or default_start, end=end or default_end, as_of=as_of or timezone.now()
+        site_ids=[pk for pk, _ in rows], start=start or default_start, end=end or default_end, as_of=as_of
     )
 
 
@@ -146,7 +149,7 @@ def filter_trends(*, site: Site, limit: int = 6) -> list[dict]:
 
 
 def outdoor_temperatures(*, site: Site, today: dt.date | None = None, days_back: int = 30, days_ahead: int = 60):
-    today = today or timezone.localdate()
+    today = today or today_for(site)
     return list(
         OutdoorTemperature.objects.filter(
             site=site, date__gte=today - dt.timedelta(days=days_back), date__lte=today + dt.timedelta(days=days_ahead)

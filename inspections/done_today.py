@@ -7,6 +7,7 @@ import zoneinfo
 from dataclasses import dataclass
 
 from accounts.models import User
+from inventory.today import today_for
 
 from .selectors import inspections_visible_to
 
@@ -42,7 +43,7 @@ def done_today_for(*, technician: User, now: dt.datetime) -> list[DoneVisit]:
         site = insp.ahu.building.site
         zone = zoneinfo.ZoneInfo(site.time_zone or "UTC")
         local = insp.finished_at.astimezone(zone)
-        if local.date() != now.astimezone(zone).date():
+        if local.date() != today_for(site, now=now):
             continue
         out.append(
             DoneVisit(

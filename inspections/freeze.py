@@ -67,6 +67,7 @@ from django.db.models import Exists, OuterRef, Q
 from engineering import controls
 from engineering.freeze import daily_minimums_from_normals
 from inventory.models import AHU, Component, ComponentKind, Site
+from inventory.today import today_for
 from scheduling.models import work_order_state_words
 
 from . import checklists
@@ -471,7 +472,7 @@ def freeze_readiness(
         if unit.pk not in protected:
             continue
         site = unit.building.site
-        today = (today_of or {}).get(site.pk) or as_of.astimezone(tz_of[site.pk]).date()
+        today = (today_of or {}).get(site.pk) or today_for(site, now=as_of)
         if site.pk not in windows:
             windows[site.pk] = season_window(site=site, today=today)
         season_start, opens = windows[site.pk]

@@ -58,6 +58,7 @@ from .models import AHU, Building, Component, ComponentKind, Site, new_component
 from .selectors import component_tree
 from .services import component_full_clean
 from .specs import SPECS
+from .today import today_for
 
 KINDS = ("sites", "ahus", "components")
 LIST_SEPARATOR = ";"
@@ -624,7 +625,8 @@ def _number_range(model, attr: str) -> tuple[float | None, float | None, str]:
     return lo, hi, unit
 
 
-def _allowed(model, attr: str, parser=None) -> str:
+def _allowed(model, attr: str, parser=None, *, today: dt.date | None = None) -> str:
+    """What a cell of ``attr`` may hold, in words; a date's window ends on ``today``, the row's site's."""
     if attr in KEY_ALLOWED and parser is None:
         return KEY_ALLOWED[attr]
     try:
@@ -638,7 +640,9 @@ def _allowed(model, attr: str, parser=None) -> str:
     if parser is _bool:
         return BOOL_ALLOWED
     if parser is _date or (field is not None and field.get_internal_type() == "DateField"):
-        earliest, latest = equipment_date_window(today=_today(), planned=attr in PLANNED_DATES)
+        if today is None:  # a model's own refusal (never of a date: every date may be empty)
+            return "a date as YYYY-MM-DD"
+        earliest, latest = equipment_date_window(today=today, planned=attr in PLANNED_DATES)
         return f"a date as YYYY-MM-DD from {earliest.isoformat()} to {latest.isoformat()}"
     if parser in (_float, _int) or (parser is None and field is not None and _is_number(model, attr)):
         lo, hi, unit = _number_range(model, attr)
@@ -654,14 +658,8 @@ def _allowed(model, attr: str, parser=None) -> str:
     return "text"
 
 
-def _today() -> dt.date:
-    from django.utils import timezone
-
-    return timezone.localdate()
-
-
-def _cell(model, column: str, attr: str, parser, raw: str) -> tuple[Any, str | None]:
-    """The cell's typed value, or None with what is wrong in plain words."""
+def _cell(model, column: str, attr: str, parser, raw: str, *, today: dt.date) -> tuple[Any, str | None]:
+    """The cell's typed value, or None with what is wrong in plain words; a date judged on ``today``."""
     label, text = _label(model, attr), raw.strip()
     field = model._meta.get_field(attr)
     if parser in (_opt_text, _text) and field.choices:
@@ -672,9 +670,9 @@ def _cell(model, column: str, attr: str, parser, raw: str) -> tuple[Any, str | N
         value = parser(raw)
     except CellError as exc:
         if parser is _twelve:
-            return None, f"{label}: {exc}; allowed: {_allowed(model, attr, parser)}"
+            return None, f"{label}: {exc}; allowed: {_allowed(model, attr, parser, today=today)}"
         reason = {_date: "is not a date", _bool: "is not true or false"}.get(parser, str(exc))
-        return None, f"{label}: {shown(text)} {reason}; allowed: {_allowed(model, attr, parser)}"
+        return None, f"{label}: {shown(text)} {reason}; allowed: {_allowed(model, attr, parser, today=today)}"
     if value is None:
         return None, None
     if parser in (_float, _int):
@@ -682,10 +680,10 @@ def _cell(model, column: str, attr: str, parser, raw: str) -> tuple[Any, str | N
         if lo is not None and hi is not None:
             problem = number_problem(value, label=label, minimum=lo, maximum=hi, unit=unit)
             if problem and parser is _int:
-                problem = f"{label}: {value} is out of range; allowed: {_allowed(model, attr, parser)}"
+                problem = f"{label}: {value} is out of range; allowed: {_allowed(model, attr, parser, today=today)}"
             return (None, problem) if problem else (value, None)
     if parser is _date:
-        problem = equipment_date_problem(value, label=label, today=_today(), planned=attr in PLANNED_DATES)
+        problem = equipment_date_problem(value, label=label, today=today, planned=attr in PLANNED_DATES)
         return (None, problem[:1].upper() + problem[1:]) if problem else (value, None)
     if isinstance(value, str) and getattr(field, "max_length", None):
         problem = text_problem(value, label=label, max_length=field.max_length, lines=True)
@@ -736,14 +734,17 @@ def _is_number(model, attr: str) -> bool:
     }  # fmt: skip
 
 
-def _parse(row: dict[str, str], columns: list[Column], model, problems: list[tuple[str, str]]) -> dict[str, Any]:
+def _parse(
+    row: dict[str, str], columns: list[Column], model, problems: list[tuple[str, str]], *, today: dt.date
+) -> dict[str, Any]:
     """Typed values of the row's readable cells (an empty cell clears a nullable field and keeps others'
-    defaults); every unreadable cell's problem is added to ``problems``."""
+    defaults); every unreadable cell's problem is added to ``problems``. Dates are judged on ``today``: the
+    day of the row's site (``inventory.today``), the organisation's while the row names none."""
     values = {}
     for column, attr, parser in columns:
         if column not in row:
             continue
-        value, problem = _cell(model, column, attr, parser, row[column])
+        value, problem = _cell(model, column, attr, parser, row[column], today=today)
         if problem:
             problems.append((column, problem))
             continue
@@ -786,6 +787,7 @@ class _Plan:
 
     def __init__(self, *, kind: str, organisation: Organisation, text: str):
         self.organisation = organisation
+        self.today = today_for(organisation)  # a row's day while it names no site of the organisation
         self.new: dict[type, list] = {Site: [], Building: [], AHU: [], Component: []}
         self.new_ids: set[int] = set()
         self.changed: dict[type, dict[int, Any]] = {Site: {}, Building: {}, AHU: {}, Component: {}}
@@ -809,6 +811,9 @@ class _Plan:
             site_ids = [s.pk for s in self.sites.values()]
             for building in Building.objects.filter(site_id__in=site_ids):
                 self.buildings[(building.site_id, building.code)] = building
+            sites_by_pk = {s.pk: s for s in self.sites.values()}
+            for building in self.buildings.values():
+                building.site = sites_by_pk[building.site_id]  # read by the unit's check (its site's today)
             by_pk = {b.pk: b for b in self.buildings.values()}
             for ahu in AHU.objects.filter(building__site_id__in=site_ids):
                 building = by_pk[ahu.building_id]
@@ -837,9 +842,11 @@ class _Plan:
 
     def _load_components(self) -> None:
         by_id: dict[int, Component] = {}
-        ahu_ids = [a.pk for a in self.ahus.values()]
+        ahus_by_pk = {a.pk: a for a in self.ahus.values()}
+        ahu_ids = list(ahus_by_pk)
         for chunk in _chunks(ahu_ids):
             for comp in Component.objects.filter(ahu_id__in=chunk).order_by("ahu", "position", "id"):
+                comp.ahu = ahus_by_pk[comp.ahu_id]  # read by the part's check (its site's today)
                 by_id[comp.pk] = comp
                 self.components.setdefault(comp.ahu_id, {}).setdefault(comp.name, []).append(comp)
         for comp in by_id.values():
@@ -969,7 +976,7 @@ def _key_cells(text: str, kind: str) -> dict[str, set[str]]:
 
 def _check_site(row: dict[str, str], plan: _Plan) -> bool:
     problems = _required(row, ["code", "name"])
-    values = _parse(row, SITE_COLUMNS, Site, problems)
+    values = _parse(row, SITE_COLUMNS, Site, problems, today=plan.today)
     client_slug = row.get("client", "").strip()
     values["client"] = None
     if client_slug:
@@ -995,10 +1002,10 @@ def _check_ahu(row: dict[str, str], plan: _Plan) -> bool:
     site = plan.site(site_code, problems) if site_code else None
     floors = None
     if "building_floors" in row:
-        floors, problem = _cell(Building, "building_floors", "floors", _int, row["building_floors"])
+        floors, problem = _cell(Building, "building_floors", "floors", _int, row["building_floors"], today=plan.today)
         if problem:
             problems.append(("building_floors", problem))
-    values = _parse(row, AHU_COLUMNS, AHU, problems)
+    values = _parse(row, AHU_COLUMNS, AHU, problems, today=today_for(site) if site else plan.today)
     code, tag = row.get("building_code", "").strip(), row.get("tag", "").strip()
     name = row.get("building_name", "").strip()
     if site is None or not code or not tag:
@@ -1055,7 +1062,7 @@ def _check_component(row: dict[str, str], plan: _Plan) -> bool:
                     + " (import the units first)",
                 )
             )
-    values = _parse(row, COMPONENT_COLUMNS, Component, problems)
+    values = _parse(row, COMPONENT_COLUMNS, Component, problems, today=today_for(site) if site else plan.today)
     installed, retired = values.get("installed_on"), values.get("retired_on")
     if installed and retired and retired < installed:
         problems.append(

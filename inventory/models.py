@@ -1,12 +1,14 @@
 """Sites, buildings, air handling units and their component trees."""
 
+import datetime as dt
 import math
 import secrets
 import uuid
 import zoneinfo
+from typing import Any
 
 from django.conf import settings
-from django.core.exceptions import ValidationError
+from django.core.exceptions import ObjectDoesNotExist, ValidationError
 from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import models
 from django.urls import reverse
@@ -146,6 +148,23 @@ class VentilationZones(models.TextChoices):
     MULTI = "multi_zone", "Several zones with recirculated air"
 
 
+def _today_at(obj: models.Model, path: str) -> dt.date:
+    """Today at the site ``obj`` belongs to (``path``: the relations to it), by ``inventory.today``: the day its
+    dates are judged on. A record not filed under a site yet (a form or a file row naming none) has no other
+    day to go by than the server's."""
+    from .today import today_for
+
+    site: Any = obj
+    for name in path.split("__"):
+        try:
+            site = getattr(site, name)
+        except ObjectDoesNotExist:  # the relation is not set
+            site = None
+        if site is None:
+            break
+    return today_for(site)
+
+
 def _refused_by_field(obj, name: str) -> bool:
     """True when the field's own validators refuse its value (they then say it; the policy does not repeat it).
     A database column's bounds (SQLite's bigint for a PositiveIntegerField) are not a physical range."""
@@ -278,7 +297,7 @@ class AHU(models.Model):
 
         own = {"occupant_diversity", "system_ventilation_efficiency"}
         problems = {}
-        for name, message in ahu_problems(self, today=timezone.localdate()).items():
+        for name, message in ahu_problems(self, today=_today_at(self, "building__site")).items():
             value = getattr(self, name)
             if name in own or (
                 isinstance(value, int | float) and math.isfinite(value) and _refused_by_field(self, name)
@@ -361,7 +380,7 @@ class Component(models.Model):
     def clean(self) -> None:
         from .inputs import COMPONENT_TEXTS, component_date_problems, text_field_problems
 
-        errors: dict = dict(component_date_problems(self, today=timezone.localdate()))
+        errors: dict = dict(component_date_problems(self, today=_today_at(self, "ahu__building__site")))
         errors.update(text_field_problems(self, texts=COMPONENT_TEXTS))
         try:
             self.specs = validate_specs(kind=self.kind, specs=self.specs)

@@ -1,7 +1,8 @@
 """Compliance figures: the one place they are computed. Screens, APIs and PDFs read them from here.
 
 Rules (all dates are the site's local dates; ``as_of`` is the moment the
-figures are taken, for a report its requested time):
+figures are taken, for a report its requested time; "the date of ``as_of``" is each site's today then,
+``inventory.today.today_for``, and for several sites together the latest of them, ``report_today``):
 
 Preventive work in a period ``start``–``end`` (both days included)
     Counted per *task occurrence* (``scheduling.WorkOrderTask`` of a preventive
@@ -82,6 +83,7 @@ from inspections.freeze import last_season_end  # noqa: F401  (re-exported: the 
 from inspections.models import Evaluation, Finding, finding_age_days
 from inspections.selectors import filter_series_for
 from inventory.models import AHU, Component, ComponentKind, Site
+from inventory.today import today_for
 from scheduling.models import TaskCategory, WorkOrder, WorkOrderTask
 
 ON_TIME, LATE, MISSED, NOT_YET_DUE, CANCELLED = "on_time", "late", "missed", "not_yet_due", "cancelled"
@@ -211,6 +213,13 @@ class ComplianceFigures:
         return [label for _, _, label in AGE_BUCKETS]
 
 
+def report_today(zones: Iterable[str], *, as_of: datetime) -> date:
+    """The figures' today for sites of these time zones at ``as_of``: the latest of their todays (a site
+    already on the next day has begun it); the server's date without any site. The default period of the
+    compliance report and of the manager's pages ends on it."""
+    return max((today_for(zone, now=as_of) for zone in zones), default=today_for(None, now=as_of))
+
+
 def _local_date(at: datetime | None, tz: zoneinfo.ZoneInfo) -> date | None:
     return at.astimezone(tz).date() if at else None
 
@@ -227,8 +236,8 @@ def compliance_figures(*, site_ids: list[int], start: date, end: date, as_of: da
         .select_related("building__site")
         .order_by("building__site__name", "building__name", "tag", "pk")
     )
-    today_of = {s.pk: as_of.astimezone(tz_of[s.pk]).date() for s in sites}
-    report_day = max(today_of.values()) if today_of else as_of.date()
+    today_of = {s.pk: today_for(s, now=as_of) for s in sites}
+    report_day = report_today([s.time_zone for s in sites], as_of=as_of)
 
     rows = (
         WorkOrderTask.objects.filter(

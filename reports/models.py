@@ -11,7 +11,8 @@ from accounts.models import Organisation
 
 
 def report_upload_to(instance: "Report", filename: str) -> str:
-    # Path from the requested time and the public id only: stable and never guessable from a title.
+    # Path from the requested time and the public id only: stable and never guessable from a title. The month is
+    # UTC's on purpose: a storage folder, read by no one as a site's day.
     at = instance.created_at or timezone.now()
     return f"reports/{at:%Y/%m}/{instance.public_id}.pdf"
 
@@ -65,4 +66,6 @@ class Report(models.Model):
 
     @property
     def filename(self) -> str:
+        # The day stamp is the request's UTC date on purpose: a report may span sites in several zones, and the
+        # name only has to sort and stay the same wherever it is downloaded.
         return f"plenum-{self.kind.replace('_', '-')}-{self.created_at:%Y%m%d}-{str(self.public_id)[:8]}.pdf"

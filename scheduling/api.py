@@ -8,6 +8,7 @@ from django.conf import settings
 from django.core.exceptions import PermissionDenied as DjangoPermissionDenied
 from django.core.exceptions import ValidationError
 from django.db import transaction
+from django.http import HttpRequest
 from django.urls import reverse
 from django.utils import timezone
 from django.utils.cache import patch_cache_control, patch_vary_headers
@@ -22,9 +23,10 @@ from rest_framework.views import APIView
 from accounts.answers import json_answer, kept
 from accounts.api_errors import ErrorOutput
 from accounts.inputs import FieldErrors, check_number, check_reading_time, date_problem
-from accounts.models import Membership, Role
+from accounts.models import Membership, Role, User
 from accounts.selectors import MANAGING_ROLES, does_field_work, technician_of
 from inventory.selectors import ahus_visible_to, sites_visible_to
+from inventory.today import time_zone_for, today_for
 
 from . import serializers as s
 from .models import MeterReading, OutdoorTemperature, WorkOrder
@@ -36,9 +38,6 @@ from .selectors import (
     board_page_for,
     board_suggestions,
     effective_tasks,
-    local_today,
-    person_time_zone,
-    site_today,
     to_verify_rows,
     today_visit_rows_for,
     work_order_for,
@@ -127,7 +126,7 @@ def _over_capacity(wo: WorkOrder, assignee, day: dt.date, data: dict) -> Respons
     does; None when the day fits, when the sender confirmed, or when the version is stale (the service answers)."""
     if data.get("confirm_over_capacity") or data["version"] != wo.version:
         return None
-    if date_problem(day, label="scheduled_for", today=site_today(site=wo.ahu.building.site)) is not None:
+    if date_problem(day, label="scheduled_for", today=today_for(wo.ahu.building.site)) is not None:
         return None  # the schedule service refuses the day in its own words
     check = assignment_check(work_order=wo, technician=assignee, day=day)
     if not check.over:
@@ -279,6 +278,12 @@ CONDITIONAL = [
 ]
 
 
+def _kept_zone(request: HttpRequest, user: User) -> str | None:
+    """The zone the caller's day is read on (``inventory.today``), kept with the answers: no query on a repeat."""
+    zone: str | None = kept(request, ("time_zone", user.pk), lambda: time_zone_for(user))
+    return zone
+
+
 # Both polled reads are whole answers from accounts.answers: built once per change of the organisation's data
 # (accounts.changes), then served from the worker's memory (a token client's repeat costs one query, before DRF
 # is entered).
@@ -290,8 +295,7 @@ def today_params(request, user) -> tuple[dt.date, tuple[float, float] | None]:
     query = request.GET
     day = _date_param(query, "day")
     if day is None:
-        zone = kept(request, ("time_zone", user.pk), lambda: person_time_zone(user=user))
-        day = local_today(time_zone=zone)
+        day = today_for(_kept_zone(request, user))
     start = None
     if query.get("lat") and query.get("lon"):
         # 'nan' or 'inf' would route nowhere and make the answer no JSON: refused with the range.
@@ -351,9 +355,11 @@ def _int_param(query, name: str, *, default: int, low: int, high: int) -> int:
 
 
 def board_params(request, user) -> tuple[dt.date, dt.date, int, int, str | None]:
-    """(week start, today, limit, offset, section) of a board request; with the caller, all it depends on."""
+    """(week start, today, limit, offset, section) of a board request; with the caller, all it depends on.
+    Today is the caller's, as on the today answer (the board page reads the organisation's: the same zone for
+    a supervisor of one organisation)."""
     query = request.GET
-    today = timezone.localdate()
+    today = today_for(_kept_zone(request, user))
     week = _date_param(query, "week") or today
     problem = date_problem(week, label="week", today=today)
     if problem is not None:

@@ -9,6 +9,8 @@ from django.conf import settings
 from django.utils import timezone
 from icalendar import Calendar, Event
 
+from inventory.today import today_for
+
 from .inputs import visit_problem
 from .models import WorkOrder
 from .selectors import work_orders_visible_to
@@ -29,12 +31,12 @@ def feed_ics(*, user) -> bytes:
         .order_by("due_date", "id")
     )
     base = settings.PLENUM_PUBLIC_URL.rstrip("/")
-    today = timezone.localdate()
+    now = timezone.now()
     for wo in orders:
-        if visit_problem(wo, today=today) is not None:
+        site = wo.ahu.building.site
+        if visit_problem(wo, today=today_for(site, now=now)) is not None:
             continue
         day = wo.scheduled_for or wo.due_date
-        site = wo.ahu.building.site
         event = Event()
         event.add("uid", f"{wo.public_id}@plenum")
         summary = f"{wo.ahu.tag}: {wo.title}"

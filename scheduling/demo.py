@@ -6,6 +6,8 @@ import datetime as dt
 
 from django.db import transaction
 
+from inventory.today import today_for
+
 from .engine import GenerationResult, work_orders_generate
 from .engine import _title as visit_title  # the engine's own title of a preventive visit
 from .models import WorkOrder, WorkOrderTask, overdue_day
@@ -18,10 +20,9 @@ ROUND_REF = "demo:round"
 
 
 def demo_schedule_load(*, organisation, today: dt.date | None = None) -> GenerationResult:
-    """Install the shipped library, refresh every site's seasons from its normals, and generate (idempotent)."""
-    from django.utils import timezone
-
-    today = today or timezone.localdate()
+    """Install the shipped library, refresh every site's seasons from its normals, and generate (idempotent).
+    ``today`` by default the organisation's (``inventory.today``)."""
+    today = today or today_for(organisation)
     task_library_install()
     for site in organisation.sites.all():
         site_seasons_refresh(site=site, today=today, fetch=False)

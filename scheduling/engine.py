@@ -44,7 +44,8 @@ from accounts.changes import organisation_changed
 from accounts.models import AuditEvent
 from engineering.errors import EngineeringInputError
 from engineering.trends import run_hours_per_day
-from inventory.models import AHU, Component
+from inventory.models import AHU, Component, Site
+from inventory.today import today_for
 
 from .inputs import task_problem, unit_problem
 from .models import MeterReading, TaskDefinition, UnitTaskSetting, WorkOrder, WorkOrderTask, overdue_day
@@ -416,10 +417,8 @@ def _title(tasks: list[TaskDefinition]) -> str:
     return visit_title(t.name for t in tasks)
 
 
-def _units(ahus_qs) -> tuple[list[_Unit], dict[int, object]]:
+def _units(ahus_qs) -> tuple[list[_Unit], dict[int, Site]]:
     """Light rows of the in-service units and their components, plus the sites they are on (3 queries)."""
-    from inventory.models import Site
-
     rows = list(
         ahus_qs.values_list("pk", "tag", "building__site_id", "full_outdoor_air", "service_start", "created_at")
     )
@@ -483,7 +482,7 @@ def work_orders_generate(
     }
     meters = _Meters(ahu_ids, now)
     zones = {pk: zoneinfo.ZoneInfo(s.time_zone) for pk, s in sites.items()}
-    local_today = {pk: today or now.astimezone(tz).date() for pk, tz in zones.items()}
+    local_today = {pk: today or today_for(s, now=now) for pk, s in sites.items()}
     starts = season_starts_for_sites(sites=sites.values(), today_by_site=local_today)
     days: dict[int, _SiteDay] = {}
     for pk, s in sites.items():

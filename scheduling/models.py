@@ -3,17 +3,16 @@
 import datetime as dt
 import secrets
 import uuid
-import zoneinfo
 
 from django.conf import settings
 from django.core.exceptions import ValidationError
 from django.core.validators import MinValueValidator
 from django.db import models
 from django.db.models import Q
-from django.utils import timezone
 
 from accounts.models import Organisation
 from inventory.models import AHU, Component, Site
+from inventory.today import today_for
 
 
 class TaskCategory(models.TextChoices):
@@ -351,8 +350,7 @@ class WorkOrder(models.Model):
         """:meth:`is_overdue_on` the site's today (its own calendar): every page says "overdue" from here."""
         if self.state not in self.OPEN_STATES:
             return False
-        zone = zoneinfo.ZoneInfo(self.ahu.building.site.time_zone or "UTC")
-        return self.is_overdue_on(timezone.now().astimezone(zone).date())
+        return self.is_overdue_on(today_for(self.ahu.building.site))
 
     @property
     def is_open(self) -> bool:

@@ -5,57 +5,21 @@ from __future__ import annotations
 import copy
 import datetime as dt
 import functools
-import zoneinfo
 from dataclasses import dataclass, field
 
 from django.core.exceptions import PermissionDenied, ValidationError
 from django.db.models import Case, CharField, Count, F, Prefetch, Q, QuerySet, Sum, Value, When, Window
 from django.db.models.functions import Coalesce, RowNumber
 from django.http import Http404
-from django.utils import timezone
 
 from accounts.inputs import date_problem
 from accounts.models import Membership
 from accounts.selectors import MANAGING_ROLES, technicians_of
-from inventory.models import Site
 from inventory.selectors import sites_visible_to
+from inventory.today import today_for
 
 from . import routing
 from .models import TaskDefinition, UnitTaskSetting, WorkOrder, WorkOrderTask
-
-
-def site_today(*, site, now: dt.datetime | None = None) -> dt.date:
-    """Today's date where the site is (due dates are the site's local dates)."""
-    return (now or timezone.now()).astimezone(zoneinfo.ZoneInfo(site.time_zone)).date()
-
-
-def person_time_zone(*, user) -> str | None:
-    """The time zone most sites of the person's organisations keep (ties: the zone named first); None without
-    any. Only the zone is read, so every site of the organisation counts, seen by the person or not (a new
-    technician has no assigned sites yet)."""
-    orgs = Membership.objects.filter(user=user).values("organisation_id")
-    return (
-        Site.objects.filter(organisation_id__in=orgs)
-        .order_by()
-        .values("time_zone")
-        .annotate(n=Count("id"))
-        .order_by("-n", "time_zone")
-        .values_list("time_zone", flat=True)
-        .first()
-    )
-
-
-def local_today(*, time_zone: str | None, now: dt.datetime | None = None) -> dt.date:
-    """Today's date in ``time_zone`` (the server's without one)."""
-    if time_zone is None:
-        return timezone.localdate(now)
-    return (now or timezone.now()).astimezone(zoneinfo.ZoneInfo(time_zone)).date()
-
-
-def person_today(*, user, now: dt.datetime | None = None) -> dt.date:
-    """Today where the person works (see :func:`person_time_zone`), else the server's date. A technician in
-    Amsterdam starts the next day's round at midnight there, not at midnight UTC."""
-    return local_today(time_zone=person_time_zone(user=user), now=now)
 
 
 def effective_tasks(*, organisation, include_disabled: bool = False) -> dict[str, TaskDefinition]:
@@ -170,8 +134,9 @@ def _board_rows(*, organisation, week_start: dt.date, today: dt.date) -> QuerySe
 
 
 def board_for(*, organisation, week_start: dt.date, today: dt.date | None = None) -> Board:
-    """The supervisor's week: unassigned work due that week, everything overdue, and what is assigned that week."""
-    today = today or timezone.localdate()
+    """The supervisor's week: unassigned work due that week, everything overdue, and what is assigned that week.
+    Overdue as of ``today``, by default the organisation's (``inventory.today.today_for``)."""
+    today = today or today_for(organisation)
     rows = (
         _board_rows(organisation=organisation, week_start=week_start, today=today)
         .select_related("ahu__building__site", "assignee", "component")
@@ -265,8 +230,8 @@ def board_page_for(
 
     Two queries, both sorting rows into sections with :func:`_board_section` in the database: one
     grouped read of the counts, then the shown rows with their unit, site and assignee (numbered
-    within their section, so one query pages all three); no model instances."""
-    today = today or timezone.localdate()
+    within their section, so one query pages all three); no model instances. ``today`` as in :func:`board_for`."""
+    today = today or today_for(organisation)
     days = [week_start + dt.timedelta(days=k) for k in range(7)]
     rows = _board_sorted(organisation=organisation, week_start=week_start, today=today)
     # One grouped read: overdue rows in one group whatever their due date, the others per section and day.
@@ -643,7 +608,7 @@ def assignment_check(*, work_order: WorkOrder, technician, day: dt.date) -> Assi
         load=chosen,
         missing_skills=tuple(sorted(needed - set(technician.skills or []))),
         suggestion=suggestion,
-        today=site_today(site=work_order.ahu.building.site),
+        today=today_for(work_order.ahu.building.site),
     )
 
 

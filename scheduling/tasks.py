@@ -9,6 +9,7 @@ from django.db import OperationalError
 
 from accounts.models import Organisation
 from inventory.models import Site
+from inventory.today import today_for
 
 RETRY = {
     "acks_late": True,
@@ -41,21 +42,19 @@ def work_orders_generate(organisation_id: int, horizon_days: int = 90, today: st
 
 @shared_task(name="scheduling.site_seasons_refresh", **RETRY)
 def site_seasons_refresh(site_id: int, today: str | None = None) -> dict:
-    from .selectors import site_today
     from .services import site_seasons_refresh as refresh
 
     site = Site.objects.get(pk=site_id)
-    site = refresh(site=site, today=_today(today) or site_today(site=site))
+    site = refresh(site=site, today=_today(today) or today_for(site))
     return {"freeze_season_start": str(site.freeze_season_start), "source": site.season_source}
 
 
 @shared_task(name="scheduling.overdue_escalation_send", **RETRY)
 def overdue_escalation_send(organisation_id: int, today: str | None = None) -> int:
-    from django.utils import timezone
-
     from .services import overdue_escalation_send as send
 
-    return send(organisation=Organisation.objects.get(pk=organisation_id), today=_today(today) or timezone.localdate())
+    organisation = Organisation.objects.get(pk=organisation_id)
+    return send(organisation=organisation, today=_today(today) or today_for(organisation))
 
 
 # Fan-out tasks for the beat schedule: one small task per organisation or site.

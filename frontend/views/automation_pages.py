@@ -35,6 +35,7 @@ from engineering.units import to_display, unit_label
 from inspections.freeze import freeze_readiness_for
 from inventory import csv_io
 from inventory.selectors import sites_managed_by, sites_visible_to
+from inventory.today import today_for
 
 from ..trend_charts import Band, ChartLine, trend_chart
 from .supervisor import _ahu
@@ -96,7 +97,7 @@ def _stretch(request, *, zone: str, fault: Fault | None) -> tuple[dt.date, int, 
     last seven days up to today (or, for a fault, up to the day it was last seen). Bad values are named and
     the default shown instead."""
     tz = zoneinfo.ZoneInfo(zone)
-    today = timezone.now().astimezone(tz).date()
+    today = today_for(zone)
     problems = []
     raw_days = request.GET.get("days", "")
     days = DEFAULT_DAYS

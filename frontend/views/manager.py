@@ -3,6 +3,8 @@
 Compliance figures come from reports.compliance (through frontend.selectors), the same as in the PDFs.
 """
 
+import datetime as dt
+
 from django.contrib.auth.decorators import login_required
 from django.http import Http404
 from django.shortcuts import render
@@ -11,16 +13,17 @@ from django.views.decorators.http import require_GET
 from engineering.units import to_display, unit_label
 from inspections.reasons import text_without_subject
 from inspections.selectors import reason_for
+from inventory.today import today_for
 from reports.documents.common import percent, shown
-from scheduling.selectors import site_today
 
 from .. import selectors
 from ..charts import line_chart
 from . import records
 
 
-def _records_context(*, form_id: str) -> dict:
-    start, end = selectors.default_period()
+def _records_context(*, form_id: str, today: dt.date) -> dict:
+    """The report forms of the page, asking by default for the period its figures show (ending on ``today``)."""
+    start, end = selectors.default_period(today=today)
     return {"form_id": form_id, "period_start": start, "period_end": end, "layouts": records.LAYOUTS}
 
 
@@ -37,7 +40,7 @@ def dashboard(request):
             "share": percent(figures.total.on_time_share),
             "findings": selectors.findings_rows(figures),
             "site_ids": [s.pk for s in figures.sites],
-            **_records_context(form_id="all"),
+            **_records_context(form_id="all", today=figures.end),
         },
     )
 
@@ -55,7 +58,7 @@ def site_detail(request, pk: int):
     def p(v):
         return to_display(value=v, quantity="pressure", system=system)
 
-    today = site_today(site=site)
+    today = today_for(site)
     figures = selectors.figures_for(user=request.user, site_ids=[site.pk])
     # When each bank is due, judged on the site's day by reports.compliance.filter_outlook: the table and the
     # charts read the same outlook (the latest judged reading of the filters fitted now).
@@ -124,6 +127,6 @@ def site_detail(request, pk: int):
             "label_site": site,
             "label_what": f"One label for each unit of {site.name} ({len(figures.units)}).",
             "default_layout": "letter-3x10" if system == "us" else "a4-3x8",
-            **_records_context(form_id="site"),
+            **_records_context(form_id="site", today=figures.end),
         },
     )

@@ -19,10 +19,10 @@ from django.utils.http import url_has_allowed_host_and_scheme
 from django.views.decorators.http import require_GET, require_POST
 
 from inventory.selectors import ahus_visible_to, sites_visible_to
+from inventory.today import time_zone_for
 from reports import selectors as report_selectors
 from reports.documents import NotVisible, label_of, shown
 from reports.services import PDFA_KINDS
-from scheduling.selectors import person_time_zone
 
 from .. import backends
 
@@ -177,5 +177,5 @@ def records(request):
         r.file_text = report_selectors.report_file_text(report=r)
     waiting = any(r.status in ("queued", "running") for r in rows)
     # A report may span sites: its times read on the clock most of the person's sites keep, zone named.
-    zone = person_time_zone(user=request.user) or "UTC"
+    zone = time_zone_for(request.user) or "UTC"
     return render(request, "frontend/records.html", {"reports": rows, "waiting": waiting, "zone": zone})

@@ -19,7 +19,6 @@ from django.core.exceptions import PermissionDenied, ValidationError
 from django.http import Http404
 from django.shortcuts import redirect, render
 from django.urls import reverse
-from django.utils import timezone
 from django.utils.text import slugify
 
 from accounts.inputs import FieldErrors, check_date, check_integer, check_text, parse_number
@@ -30,6 +29,7 @@ from inventory.inputs import AHU_NUMBERS
 from inventory.models import AHU, Building, Component, ComponentKind, Site
 from inventory.selectors import component_tree, components_visible_to, sites_managed_by, sites_visible_to
 from inventory.specs import spec_fields
+from inventory.today import today_for
 from scheduling.services.retire import unit_retire as unit_retire_service
 
 from ..specs_form import keep_typed_choice, plain_number, spec_initial, spec_rows, spec_summary, specs_from_post
@@ -403,7 +403,7 @@ def _site_form(request, site: Site | None):
             )
     errors: dict = {}
     if request.method == "POST":
-        clean, errors = _read(fields, request.POST, system=system, today=timezone.localdate())
+        clean, errors = _read(fields, request.POST, system=system, today=today_for(site or org))
         values = {f.name: request.POST.get(f.name, "") for f in fields}
         name = clean.get("name")
         if name and Site.objects.filter(organisation=org, name__iexact=name).exclude(pk=getattr(site, "pk", None)):
@@ -523,7 +523,7 @@ def _building_form(request, *, site: Site, building: Building | None):
         values["site"] = str(site.pk)
     errors: dict = {}
     if request.method == "POST":
-        clean, errors = _read(fields, request.POST, system=system, today=timezone.localdate())
+        clean, errors = _read(fields, request.POST, system=system, today=today_for(site))
         values = {f.name: request.POST.get(f.name, "") for f in fields}
         target = site
         if building is not None and clean.get("site"):
@@ -690,7 +690,9 @@ def _unit_form(request, *, ahu: AHU | None):
         for f in fields:
             if f.name not in post and f.kind != "bool" and ahu is not None:
                 post[f.name] = str(values.get(f.name, ""))
-        clean, errors = _read(fields, post, system=system, today=timezone.localdate())
+        # Dates are judged on the day of the unit's site (of the building chosen for a new one).
+        chosen = ahu.building if ahu else next((b for b in buildings if str(b.pk) == post.get("building")), None)
+        clean, errors = _read(fields, post, system=system, today=today_for(chosen.site if chosen else request.user))
         values = {f.name: post.get(f.name, "") for f in fields}
         values["full_outdoor_air"] = clean.get("full_outdoor_air")
         building = ahu.building if ahu else next((b for b in buildings if str(b.pk) == clean.get("building")), None)
@@ -768,7 +770,9 @@ def unit_move(request, pk):
     )
     values, errors = {}, {}
     if request.method == "POST":
-        clean, errors = _read([field], request.POST, system=request.user.unit_system, today=timezone.localdate())
+        clean, errors = _read(
+            [field], request.POST, system=request.user.unit_system, today=today_for(ahu.building.site)
+        )
         values = {"building": request.POST.get("building", "")}
         if not errors:
             target = Building.objects.select_related("site").get(pk=clean["building"])
@@ -814,7 +818,9 @@ def unit_retire(request, pk):
     if ahu.status == AHU.Status.RETIRED:
         errors = {"__all__": [f"{ahu.display_name} is already retired."]}
     elif request.method == "POST":
-        clean, errors = _read([REASON], request.POST, system=request.user.unit_system, today=timezone.localdate())
+        clean, errors = _read(
+            [REASON], request.POST, system=request.user.unit_system, today=today_for(ahu.building.site)
+        )
         values = {"reason": request.POST.get("reason", "")}
         if not errors:
             try:
@@ -910,7 +916,7 @@ def component_new(request, pk):
     spec_values: dict = {}
     errors: dict = {}
     if request.method == "POST":
-        clean, errors = _read(fields, request.POST, system=system, today=timezone.localdate())
+        clean, errors = _read(fields, request.POST, system=system, today=today_for(ahu.building.site))
         values = {f.name: request.POST.get(f.name, "") for f in fields}
         specs, spec_errors = specs_from_post(kind=kind, post=request.POST, system=system)
         spec_values = {s.name: request.POST.get(f"spec_{s.name}", "") for s in spec_fields(kind)}
@@ -1039,7 +1045,7 @@ def component_edit(request, pk):
                 f"Part of: {child.name} is inside {component.name}, so {component.name} cannot go inside it; "
                 f"allowed: {parent_field.allowed}",
             )
-        clean, more = _read(place, post, system=system, today=timezone.localdate())
+        clean, more = _read(place, post, system=system, today=today_for(ahu.building.site))
         for key, texts in more.items():
             if key not in checked:
                 for text in texts:
@@ -1144,12 +1150,13 @@ def component_retire(request, pk):
     if component.retired_on is not None:
         errors = {"__all__": [f"{component.name} was retired on {component.retired_on:%d %b %Y}."]}
     elif request.method == "POST":
-        clean, errors = _read([REASON], request.POST, system=request.user.unit_system, today=timezone.localdate())
+        today = today_for(ahu.building.site)
+        clean, errors = _read([REASON], request.POST, system=request.user.unit_system, today=today)
         values = {"reason": request.POST.get("reason", "")}
         if not errors:
             try:
                 retired = inventory_services.component_retire(
-                    component=component, on=ahu_today(ahu), by=request.user, reason=clean["reason"]
+                    component=component, on=today, by=request.user, reason=clean["reason"]
                 )
             except ValidationError as exc:
                 errors = _service_errors(exc)
@@ -1174,10 +1181,6 @@ def component_retire(request, pk):
         },
         status=400 if errors and request.method == "POST" else 200,
     )
-
-
-def ahu_today(ahu: AHU):
-    return timezone.localdate(timezone.now(), zoneinfo.ZoneInfo(ahu.building.site.time_zone))
 
 
 def unit_form_initial(*, ahu: AHU, system: str) -> dict:

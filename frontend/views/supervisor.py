@@ -2,7 +2,6 @@
 
 import datetime as dt
 import uuid
-import zoneinfo
 from urllib.parse import urlencode
 
 from django.contrib import messages
@@ -19,12 +18,12 @@ from django.views.decorators.http import require_POST
 from accounts.inputs import INT32_MAX, FieldErrors, check_integer, check_text, date_problem
 from accounts.selectors import MANAGING_ROLES, organisations_where
 from inspections.selectors import corrective_work_already_resolved, reason_for
-from inventory.display import usual_zone
 from inventory.models import AHU
 from inventory.selectors import ahus_visible_to, sites_managed_by
+from inventory.today import today_for
 from scheduling.inputs import stored_problems
 from scheduling.models import TaskDefinition, WorkOrder
-from scheduling.selectors import site_today, skills_needed, weekday_on_or_near
+from scheduling.selectors import skills_needed, weekday_on_or_near
 from scheduling.services.work_orders import (
     REJECT_REASON_MAX,
     WorkOrderConflict,
@@ -43,12 +42,6 @@ def _organisation(request):
     if org is None:
         raise PermissionDenied("Only a supervisor or administrator may open this page.")
     return org
-
-
-def _org_today(org) -> dt.date:
-    """The organisation's today: the day on the clock most of its sites use (inventory.display.usual_zone)."""
-    zone = usual_zone(list(org.sites.values_list("time_zone", flat=True)))
-    return timezone.localdate(timezone.now(), zoneinfo.ZoneInfo(zone))
 
 
 def _week_start(raw: str | None, *, today: dt.date) -> dt.date:
@@ -95,9 +88,9 @@ BOARD_PAGE = 100
 @login_required
 def board(request):
     org = _organisation(request)
-    today = _org_today(org)
+    today = today_for(org)  # the day on the clock most of its sites keep
     week = _week_start(request.GET.get("week"), today=today)
-    data = backends.board_for(organisation=org, week_start=week)
+    data = backends.board_for(organisation=org, week_start=week, today=today)
     show_all = request.GET.get("all", "")
     columns = []
     site_days: dict[int, dt.date] = {}
@@ -118,7 +111,7 @@ def board(request):
             # unit is (the service refuses a day before the site's today, which may differ from the server's).
             site = wo.ahu.building.site
             if site.pk not in site_days:
-                site_days[site.pk] = site_today(site=site)
+                site_days[site.pk] = today_for(site)
             wo.site_today = site_days[site.pk]
             wo.plan_default = wo.scheduled_for or weekday_on_or_near(
                 max(wo.due_date, wo.site_today), today=wo.site_today
@@ -207,7 +200,7 @@ def assign(request, public_id):
     check = None
     # The day the work will count on: the day asked for, else its plan, else its due date.
     on_day = (day if "scheduled_for" in request.POST else wo.scheduled_for) or wo.due_date
-    in_window = date_problem(on_day, label="day", today=site_today(site=wo.ahu.building.site)) is None
+    in_window = date_problem(on_day, label="day", today=today_for(wo.ahu.building.site)) is None
     # A stale page is refused below, not warned about; so is a day outside the plan window.
     if request.POST.get("version") == str(wo.version) and in_window:
         check = backends.assignment_check(work_order=wo, technician=technician, day=on_day)
@@ -239,7 +232,7 @@ def assign(request, public_id):
     except WorkOrderConflict:
         messages.error(request, _changed_meanwhile(wo))
     else:
-        planned = f" {work_order_plan_words(work_order=wo, today=site_today(site=wo.ahu.building.site))}" if day else ""
+        planned = f" {work_order_plan_words(work_order=wo, today=today_for(wo.ahu.building.site))}" if day else ""
         over = ""
         if check is not None and check.over:
             over = (

@@ -13,8 +13,8 @@ from accounts.clock import zone_clock
 from accounts.inputs import FieldErrors, check_text
 from inspections.done_today import done_today_for
 from inventory.selectors import component_tree
+from inventory.today import time_zone_for, today_for
 from scheduling.models import WorkOrder
-from scheduling.selectors import person_time_zone, person_today
 
 from .. import backends, selectors
 from ..checklist_form import _number, caution_blocks, cautions_for, form_sections, payload_from_post
@@ -26,7 +26,7 @@ CHECKLIST_API = "/api/inspections/work-orders/{}/checklist/"
 
 def unit_records_context(*, ahu, system: str) -> dict:
     """What the unit history and label forms of a unit page need."""
-    start, end = selectors.default_period()
+    start, end = selectors.default_period(today=today_for(ahu.building.site))
     return {
         "form_id": f"unit-{ahu.pk}",
         "period_start": start,
@@ -53,7 +53,9 @@ def offline_urls(visits) -> list[str]:
 @login_required
 @require_GET
 def today(request):
-    day = person_today(user=request.user)
+    now = timezone.now()
+    zone = time_zone_for(request.user)  # the clock the person works by (inventory.today)
+    day = today_for(zone, now=now)
     visits = backends.today_visits_for(technician=request.user, day=day)
     return render(
         request,
@@ -61,11 +63,11 @@ def today(request):
         {
             "visits": visits,
             # The forms they signed today, each on its site's clock (inspections/done_today.py).
-            "done_today": done_today_for(technician=request.user, now=timezone.now()),
+            "done_today": done_today_for(technician=request.user, now=now),
             "today": day,
             "offline_urls": offline_urls(visits),
             # The outbox bar's times on the clock the person works by (the phone has no other idea of it).
-            "site_clock": zone_clock(person_time_zone(user=request.user), around=timezone.now()),
+            "site_clock": zone_clock(zone, around=now),
         },
     )
 

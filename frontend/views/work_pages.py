@@ -32,8 +32,9 @@ from inspections.selectors import reason_for
 from inspections.services.findings import finding_work_order_attach
 from inventory.models import AHU
 from inventory.selectors import sites_managed_by
+from inventory.today import today_for
 from scheduling.models import TaskDefinition, WorkOrder
-from scheduling.selectors import assignment_check, effective_tasks, site_today, weekday_on_or_near
+from scheduling.selectors import assignment_check, effective_tasks, weekday_on_or_near
 from scheduling.services.work_orders import (
     ONE_OFF_MINUTES,
     OneOffTask,
@@ -154,7 +155,7 @@ def _due_by(post, site, errors: dict) -> dt.datetime | None:
         if day is None:
             errors.setdefault("due_date", []).append(
                 f"Due day: {shown(raw_day)} is not a day as YYYY-MM-DD; allowed: a day such as "
-                f"{site_today(site=site).isoformat()}"
+                f"{today_for(site).isoformat()}"
             )
     if not raw_time:
         errors.setdefault("due_time", []).append("Due time is required; allowed: a time as HH:MM, 00:00 to 23:59")
@@ -236,7 +237,7 @@ def _initial(request, *, ahu, finding) -> dict:
 def _say_due(wo: WorkOrder) -> str:
     site = wo.ahu.building.site
     when = wo.due_by.astimezone(zoneinfo.ZoneInfo(site.time_zone))
-    return f"due by {when:%H:%M} {when.tzname()} on {day_text(when.date(), today=site_today(site=site))}"
+    return f"due by {when:%H:%M} {when.tzname()} on {day_text(when.date(), today=today_for(site))}"
 
 
 def _board_week(wo: WorkOrder) -> str:
@@ -396,5 +397,5 @@ def work_frost(request, site_pk):
         )
     for line in lines:
         messages.success(request, line)
-    day = site_today(site=site)
+    day = today_for(site)
     return redirect(reverse("frontend:board") + f"?week={(day - dt.timedelta(days=day.weekday())).isoformat()}")

@@ -13,7 +13,6 @@ from typing import Any
 
 from django.core.exceptions import ValidationError
 from django.http import Http404
-from django.utils import timezone
 
 from accounts.clock import local_date_of
 from accounts.inputs import date_window
@@ -101,7 +100,7 @@ def one_id(parameters: dict, name: str) -> int:
     return raw
 
 
-def a_date(parameters: dict, name: str, default: date | None = None) -> date:
+def a_date(parameters: dict, name: str, default: date | None = None, *, today: date) -> date:
     label = label_of(name)
     raw = parameters.get(name)
     if raw in (None, ""):
@@ -112,9 +111,9 @@ def a_date(parameters: dict, name: str, default: date | None = None) -> date:
         day = date.fromisoformat(str(raw)[:20])
     except ValueError:
         raise ValidationError({name: f"{label}: {shown(raw)} is not a date; allowed: a day such as 2026-01-31"})
-    # The input policy's window (2000 to ten years ahead): a report of year 9999 is a typo, and its date sums
-    # would run past the calendar.
-    earliest, latest = date_window(today=timezone.localdate())
+    # The input policy's window (2000 to ten years after ``today``, the report's): a report of year 9999 is a
+    # typo, and its date sums would run past the calendar.
+    earliest, latest = date_window(today=today)
     if not earliest <= day <= latest:
         raise ValidationError(
             {
@@ -127,11 +126,12 @@ def a_date(parameters: dict, name: str, default: date | None = None) -> date:
 
 def period(parameters: dict, *, default_start: date, default_end: date, today: date | None = None) -> tuple[date, date]:
     """The report's From and To days. A period may not begin after ``today`` (by default ``default_end``, which
-    the documents set to the day of the request): a report of days not yet lived would claim figures for them.
+    the documents set to the sites' today at the request, ``inventory.today``): a report of days not yet lived
+    would claim figures for them. Both days lie in the input policy's window from ``today``.
     A period still running (To after today) is judged as of the request, as its "figures as of" line says."""
     today = default_end if today is None else today
-    start = a_date(parameters, "start", default_start)
-    end = a_date(parameters, "end", default_end)
+    start = a_date(parameters, "start", default_start, today=today)
+    end = a_date(parameters, "end", default_end, today=today)
     if end < start:
         raise ValidationError({"end": f"To: {local_date_of(end)} is before From: {local_date_of(start)}"})
     if start > today:

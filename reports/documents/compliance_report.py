@@ -18,7 +18,7 @@ from engineering.controls import Verdict
 from inventory.display import usual_zone
 from inventory.selectors import sites_visible_to
 from reports import charts
-from reports.compliance import FREEZE_LABELS, compliance_figures
+from reports.compliance import FREEZE_LABELS, compliance_figures, report_today
 from reports.rendering import html_render, paper_for, svg_data_uri
 
 from . import Built, Prepared, id_list, period, period_text, refuse_missing, single_organisation
@@ -32,15 +32,16 @@ def prepare(*, user, parameters: dict, requested_at: datetime) -> Prepared:
     site_ids = id_list(parameters, "sites")
     visible = sites_visible_to(user=user)
     if site_ids:
-        rows = list(visible.filter(pk__in=site_ids).values_list("pk", "organisation_id"))
+        rows = list(visible.filter(pk__in=site_ids).values_list("pk", "organisation_id", "time_zone"))
         refuse_missing("sites", site_ids, {r[0] for r in rows}, "site")
     else:
-        rows = list(visible.values_list("pk", "organisation_id"))
+        rows = list(visible.values_list("pk", "organisation_id", "time_zone"))
         if not rows:
             raise ValidationError({"sites": "you may see no site, so there is nothing to report on"})
     if len(rows) > MAX_SITES:
         raise ValidationError({"sites": f"{len(rows)} sites: at most {MAX_SITES} in one report"})
-    today = requested_at.date()
+    # The sites' today, as the figures read it (not the request's UTC date: a site east of UTC is a day on).
+    today = report_today([r[2] for r in rows], as_of=requested_at)
     start, end = period(parameters, default_start=today - timedelta(days=365), default_end=today)
     return Prepared(
         parameters={

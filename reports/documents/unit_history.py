@@ -49,6 +49,7 @@ from inspections.selectors import (
 from inspections.services.findings import problem_of
 from inventory.models import AHU, ComponentKind
 from inventory.selectors import ahus_visible_to
+from inventory.today import today_for
 from reports import charts
 from reports.compliance import filter_outlook
 from reports.rendering import html_render, paper_for, svg_data_uri
@@ -64,11 +65,12 @@ def prepare(*, user, parameters: dict, requested_at: datetime) -> Prepared:
     row = (
         ahus_visible_to(user=user)
         .filter(pk=unit_id)
-        .values_list("building__site_id", "building__site__organisation_id")
+        .values_list("building__site_id", "building__site__organisation_id", "building__site__time_zone")
         .first()
     )
     refuse_missing("unit", [unit_id], set() if row is None else {unit_id}, "unit")
-    today = requested_at.date()
+    assert row is not None  # refused just above
+    today = today_for(row[2], now=requested_at)  # the unit's site's today, not the request's UTC date
     start, end = period(parameters, default_start=today - timedelta(days=365), default_end=today)
     return Prepared(
         parameters={
@@ -134,7 +136,7 @@ def build(*, report) -> Built:
     visits = [_visit(insp, system=system, labels=labels, tz=tz, findings=seen.get(insp.pk, [])) for insp in listed]
     reading_count = sum(len(insp.readings.all()) for insp in listed)
     # The history's last day: its end, or the day it was asked for when that is earlier (the site's day).
-    last_day = min(end, report.created_at.astimezone(zoneinfo.ZoneInfo(ahu.building.site.time_zone)).date())
+    last_day = min(end, today_for(ahu.building.site, now=report.created_at))
     filter_charts = _filter_charts(ahu=ahu, lo=lo, hi=hi, system=system, today=last_day, tz=tz)
     supply_chart = _supply_chart(inspections=listed, system=system, tz=tz)
     title = f"Unit history — {ahu.tag}, {ahu.building.site.name}, {period_text(p)}"

@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import datetime as dt
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field
 
 from django.db import connection, transaction
@@ -24,8 +25,9 @@ from django.utils import timezone
 from accounts.inputs import EARLIEST_DATE, date_problem, reading_time_problem
 from accounts.services import audit_record
 from inventory.inputs import AHU_DATES, AHU_NUMBERS, ahu_problems, component_date_problems
-from inventory.models import AHU, Component
+from inventory.models import AHU, Component, Site
 from inventory.specs import SpecErrors, validate_specs
+from inventory.today import today_for
 
 from ..inputs import task_problem, visit_problem, visits_outside_window
 from ..models import MeterReading, TaskDefinition, WorkOrder
@@ -50,26 +52,38 @@ def _nullable(model, name: str) -> bool:
     return model._meta.get_field(name).null
 
 
+DayOf = Callable[[Site], dt.date]
+
+
 @transaction.atomic
 def stored_data_check(*, repair: bool = False, today: dt.date | None = None) -> DataCheckResult:
-    """Every stored row that breaks the input policy, one line each; with ``repair`` the safe repairs done."""
-    today = today or timezone.localdate()
+    """Every stored row that breaks the input policy, one line each; with ``repair`` the safe repairs done.
+
+    Dates are judged on the today of each row's site (``inventory.today``), as the forms judged them when
+    they were typed; ``today`` judges every row on that one day instead."""
+    now = timezone.now()
+
+    def day_of(site: Site) -> dt.date:
+        return today or today_for(site, now=now)
+
     out = DataCheckResult()
-    _check_units(out, repair=repair, today=today)
-    _check_components(out, repair=repair, today=today)
+    _check_units(out, repair=repair, day_of=day_of)
+    _check_components(out, repair=repair, day_of=day_of)
     for task in TaskDefinition.objects.select_related("organisation").order_by("organisation_id", "code"):
         problem = task_problem(task)
         if problem:
             owner = task.organisation.name if task.organisation_id else "the shared library"
             out.problems.append(f"maintenance rule of {owner}, {problem}")
-    _check_visits(out, repair=repair, today=today)
+    # No site's today is more than a day before the server's date (UTC-12), so no window ends earlier.
+    earliest_today = today or today_for(None, now=now) - dt.timedelta(days=1)
+    _check_visits(out, repair=repair, day_of=day_of, earliest_today=earliest_today)
     _check_readings(out)
     return out
 
 
-def _check_units(out: DataCheckResult, *, repair: bool, today: dt.date) -> None:
+def _check_units(out: DataCheckResult, *, repair: bool, day_of: DayOf) -> None:
     for ahu in AHU.objects.select_related("building__site__organisation").order_by("pk").iterator(chunk_size=500):
-        problems = ahu_problems(ahu, today=today)
+        problems = ahu_problems(ahu, today=day_of(ahu.building.site))
         if not problems:
             continue
         name = _unit_name(ahu)
@@ -92,10 +106,10 @@ def _check_units(out: DataCheckResult, *, repair: bool, today: dt.date) -> None:
             out.repaired.extend(f"{name}: {_label(key)} {was} cleared (left empty)" for key, was in cleared.items())
 
 
-def _check_components(out: DataCheckResult, *, repair: bool, today: dt.date) -> None:
+def _check_components(out: DataCheckResult, *, repair: bool, day_of: DayOf) -> None:
     for comp in Component.objects.select_related("ahu__building__site__organisation").order_by("pk").iterator(500):
         name = f"{comp.name} of {_unit_name(comp.ahu)}"
-        for message in component_date_problems(comp, today=today).values():
+        for message in component_date_problems(comp, today=day_of(comp.ahu.building.site)).values():
             out.problems.append(f"{name}: {message}")
             if repair:
                 was = comp.installed_on.isoformat()
@@ -112,14 +126,20 @@ def _check_components(out: DataCheckResult, *, repair: bool, today: dt.date) -> 
             out.problems.extend(f"{name}: {message}" for message in exc.errors.values())
 
 
-def _check_visits(out: DataCheckResult, *, repair: bool, today: dt.date) -> None:
+def _check_visits(out: DataCheckResult, *, repair: bool, day_of: DayOf, earliest_today: dt.date) -> None:
+    """Visits outside the plan window of their site's today; candidates read with the window of
+    ``earliest_today``, the earliest today any site may have."""
     for wo in (
-        WorkOrder.objects.filter(visits_outside_window(today=today))
+        WorkOrder.objects.filter(visits_outside_window(today=earliest_today))
         .select_related("ahu__building__site", "organisation")
         .order_by("pk")
     ):
+        today = day_of(wo.ahu.building.site)
+        problem = visit_problem(wo, today=today)
+        if problem is None:
+            continue
         name = f"{_unit_name(wo.ahu)}, {wo.title}"
-        out.problems.append(f"{name}: {visit_problem(wo, today=today)}")
+        out.problems.append(f"{name}: {problem}")
         if repair and wo.state in WorkOrder.OPEN_STATES and date_problem(wo.scheduled_for, label="", today=today):
             was = wo.scheduled_for.isoformat()
             wo.scheduled_for = None

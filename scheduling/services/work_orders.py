@@ -28,9 +28,10 @@ from accounts.selectors import MANAGING_ROLES
 from accounts.services import audit_record
 from engineering.sun import sunset_utc
 from inventory.models import AHU, Component
+from inventory.today import today_for
 
 from ..models import CalendarFeed, TaskCategory, TaskDefinition, WorkOrder, WorkOrderTask, overdue_day
-from ..selectors import effective_tasks, site_today
+from ..selectors import effective_tasks
 from ..signals import work_order_moved
 from ..targets import task_targets
 from ..titles import TITLE_MAX, title_fit
@@ -242,7 +243,7 @@ def work_order_schedule(
             }
         )
     if day is not None:
-        today = site_today(site=wo.ahu.building.site)
+        today = today_for(wo.ahu.building.site)
         latest = latest_plan_date(today=today)
         if day > latest:
             raise ValidationError(
@@ -406,7 +407,7 @@ def corrective_work_order_propose(
         )
         if existing is not None:
             return existing
-    today = site_today(site=site)
+    today = today_for(site)
     due = min(observed_on, today) if observed_on is not None else today
     wo = WorkOrder(
         organisation=organisation,
@@ -648,7 +649,7 @@ def work_order_due_problem(*, due_by: dt.datetime, site, now: dt.datetime) -> st
             f"Due: {_local_text(due_by, site)} is in the past at {site.name} (it is {_local_text(now, site)} there); "
             "allowed: a time later than now"
         )
-    today = site_today(site=site, now=now)
+    today = today_for(site, now=now)
     latest = latest_plan_date(today=today)
     if due_by.astimezone(zoneinfo.ZoneInfo(site.time_zone)).date() > latest:
         return (
@@ -848,7 +849,7 @@ def frost_due_by(*, site, now: dt.datetime) -> tuple[dt.datetime, str]:
     """Due time of tonight's frost check and how it was chosen: sunset today on the site's clock
     (engineering.sun); once the sun has set (or within half an hour of it), one hour from now."""
     zone = zoneinfo.ZoneInfo(site.time_zone)
-    today = site_today(site=site, now=now)
+    today = today_for(site, now=now)
     sunset = sunset_utc(latitude=site.latitude, longitude=site.longitude, day=today)
     why = "sunset there"
     if sunset is None:
@@ -890,7 +891,7 @@ def frost_checks_create(*, site, by, now: dt.datetime | None = None) -> FrostChe
             WorkOrder.objects.filter(ahu=ahu, state__in=WorkOrder.OPEN_STATES)
             .exclude(approval__in=[WorkOrder.Approval.PENDING, WorkOrder.Approval.REJECTED])
             .filter(Q(tasks__task_code=FROST_TASK) | Q(condition_code="freeze_protection_failed"))
-            .exclude(kind=WorkOrder.Kind.PREVENTIVE, due_date__gt=site_today(site=site, now=now))
+            .exclude(kind=WorkOrder.Kind.PREVENTIVE, due_date__gt=today_for(site, now=now))
             .order_by("due_date", "id")
             .first()
         )

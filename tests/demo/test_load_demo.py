@@ -18,8 +18,9 @@ from frontend.demo import ROUND_FIRST_UNIT_TASKS, ROUND_TASKS, demo_load
 from inspections.freeze import NOT_READY, READY, freeze_readiness
 from inspections.models import Finding, Inspection
 from inventory.models import AHU, Site
+from inventory.today import today_for
 from scheduling.models import WorkOrder, WorkOrderTask
-from scheduling.selectors import person_today, today_visits_for
+from scheduling.selectors import today_visits_for
 
 # Weekdays: technicians do not work weekends, so the demo plans no round on a Saturday or Sunday.
 OCTOBER, JULY, DECEMBER = dt.date(2026, 10, 23), dt.date(2026, 7, 15), dt.date(2026, 12, 2)
@@ -40,7 +41,7 @@ def loaded(db, capsys):
 
 def _today_codes(username: str) -> set[str]:
     tech = User.objects.get(username=username)
-    visits = today_visits_for(technician=tech, day=person_today(user=tech))
+    visits = today_visits_for(technician=tech, day=today_for(tech))
     return {t.task_code for v in visits for wo in v.work_orders for t in wo.tasks.all()}
 
 

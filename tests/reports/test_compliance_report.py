@@ -4,6 +4,7 @@ import datetime as dt
 import re
 
 import pytest
+import time_machine
 
 from accounts.models import Role
 from inspections.models import Finding
@@ -315,3 +316,31 @@ def test_in_midwinter_readiness_is_for_the_running_season(estate):
     assert status["AHU-01"]["status"] == FREEZE_READY
     assert status["AHU-01"]["season_start"] == dt.date(2024, 10, 25)
     assert status["AHU-02"]["status"] == FREEZE_NOT_READY
+
+
+@time_machine.travel(dt.datetime(2025, 3, 5, 23, 30, tzinfo=dt.UTC), tick=False)
+def test_the_reports_today_is_the_sites_not_the_requests_utc_date(org, supervisor, api_client):
+    """At 23:30 UTC on 5 March it is already 6 March in Auckland: the report asked for there without dates
+    covers the year up to 6 March, and a period starting on the 6th is allowed. A site on UTC is still on
+    the 5th, so there the same period begins after today and is refused, naming that today."""
+    auckland = SiteFactory(organisation=org, name="Harbour Quay", time_zone="Pacific/Auckland")
+    reykjavik = SiteFactory(organisation=org, name="Old Harbour", time_zone="Atlantic/Reykjavik")
+    api_client.force_authenticate(supervisor)
+
+    def ask(site, **dates):
+        return api_client.post(
+            "/api/reports/", {"kind": "compliance", "parameters": {"sites": [site.pk], **dates}}, format="json"
+        )
+
+    answer = ask(auckland)
+    assert answer.status_code == 202, answer.content
+    assert (answer.json()["parameters"]["start"], answer.json()["parameters"]["end"]) == ("2024-03-06", "2025-03-06")
+    assert ask(auckland, start="2025-03-06", end="2025-03-06").status_code == 202
+
+    answer = ask(reykjavik)
+    assert answer.json()["parameters"]["end"] == "2025-03-05"
+    refused = ask(reykjavik, start="2025-03-06", end="2025-03-06")
+    assert refused.status_code == 400
+    assert refused.json()["errors"]["start"] == [
+        "From: 6 Mar 2025 is after today (5 Mar 2025); a report covers days that have begun"
+    ]

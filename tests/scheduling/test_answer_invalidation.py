@@ -23,9 +23,9 @@ from inspections.services import inspection_verify
 from inspections.services.sync import inspection_sync
 from inventory.models import AHU
 from inventory.services import ahu_update, component_update, site_update
+from inventory.today import today_for
 from scheduling.engine import work_orders_generate
 from scheduling.models import WorkOrder
-from scheduling.selectors import site_today
 from scheduling.services import (
     corrective_work_order_approve,
     corrective_work_order_propose,
@@ -124,7 +124,7 @@ def test_assigning_work_shows_on_a_today_at_once_and_not_elsewhere(world):
 
 def test_scheduling_and_cancelling_work_move_only_its_organisation(world):
     etags = kept_all(world)
-    later = site_today(site=world.a.ahu.building.site) + dt.timedelta(days=30)  # the service refuses a past day
+    later = today_for(world.a.ahu.building.site) + dt.timedelta(days=30)  # the service refuses a past day
     work_order_schedule(work_order=world.a.wo, day=later, by=world.a.sup)
     fresh = assert_only_a_moved(world, etags, changed=("today",))
     assert today_titles(fresh["today"]) == []  # planned for a later day now

@@ -68,19 +68,3 @@ def test_technician_load_is_not_over_at_capacity_and_leaves_out_unassigned_and_f
     (row,) = technician_load(organisation=org, start=first.due_date, days=1)
     assert row["days"][0]["hours"] == round(hours, 2)
     assert row["days"][0]["over"] is False
-
-
-def test_a_persons_today_is_the_date_where_their_sites_are(library):
-    """At 23:30 UTC a technician of Amsterdam sites is on the next day; with no sites, the server's date."""
-    from accounts.models import Role
-    from scheduling.selectors import person_today
-    from tests.factories.accounts import OrganisationFactory, make_person
-
-    ahu = make_full_unit()
-    assert ahu.building.site.time_zone == "Europe/Amsterdam"
-    tech = make_technician(ahu.building.site.organisation)
-    late = dt.datetime(2025, 3, 5, 23, 30, tzinfo=dt.UTC)
-    assert person_today(user=tech, now=late) == dt.date(2025, 3, 6)
-    assert person_today(user=tech, now=late - dt.timedelta(hours=1)) == dt.date(2025, 3, 5)
-    nobody = make_person(organisation=OrganisationFactory(), role=Role.TECHNICIAN)
-    assert person_today(user=nobody, now=late) == dt.date(2025, 3, 5)

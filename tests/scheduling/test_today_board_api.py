@@ -4,6 +4,7 @@ import datetime as dt
 import json
 
 import pytest
+import time_machine
 from django.utils import timezone
 from rest_framework.utils.encoders import JSONEncoder
 
@@ -236,3 +237,29 @@ def test_work_shows_in_the_week_it_is_planned_for(library):
     following = board_page_for(organisation=org, week_start=MONDAY + dt.timedelta(days=7), today=TODAY)
     assert [r["id"] for r in following["due"]] == [pushed.public_id] and following["assigned"] == []
     assert pulled.public_id not in {r["id"] for r in following["assigned"]}
+
+
+def test_the_default_day_of_both_answers_is_the_callers_not_the_servers(api_client):
+    """At 23:30 UTC on Sunday 9 March it is already Monday 10 March in Amsterdam: the board answered there
+    without a week is that Monday's week, with that Monday as today, and the technician's today lists the
+    visit planned for Monday. Asked an hour earlier (still Sunday there), the board is the week before."""
+    ahu = AHUFactory(building__site__time_zone="Europe/Amsterdam")
+    org = ahu.building.site.organisation
+    sup, tech = make_supervisor(org), make_technician(org)
+    monday = dt.date(2025, 3, 10)
+    wo = WorkOrderFactory(organisation=org, ahu=ahu, due_date=monday, title="Monday round")
+    work_order_assign(work_order=wo, assignee=tech, by=sup)
+    late_sunday = dt.datetime(2025, 3, 9, 23, 30, tzinfo=dt.UTC)
+
+    with time_machine.travel(late_sunday, tick=False):
+        api_client.force_authenticate(sup)
+        board = api_client.get("/api/scheduling/board/").json()
+        api_client.force_authenticate(tech)
+        visits = api_client.get("/api/scheduling/today/").json()
+    assert (board["today"], board["week_start"]) == ("2025-03-10", "2025-03-10")
+    assert [w["title"] for v in visits for w in v["work_orders"]] == ["Monday round"]
+
+    with time_machine.travel(late_sunday - dt.timedelta(hours=1), tick=False):
+        api_client.force_authenticate(sup)
+        board = api_client.get("/api/scheduling/board/").json()
+    assert (board["today"], board["week_start"]) == ("2025-03-09", "2025-03-03")
