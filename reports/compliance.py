@@ -38,7 +38,9 @@ Open findings by severity and age
     whole days from opening to ``as_of``, in buckets 0–30, 31–90, 91–180 and
     over 180 days. The same rows are listed one by one (``open_findings``),
     most severe first and within a severity the oldest first, each with the
-    corrective work it holds at ``as_of`` in words (``corrective_work_words``).
+    corrective work it holds at ``as_of`` in words (``corrective_work_words``)
+    and who saw it (``Finding.source_words``: the building-automation trends
+    and their rule, for a fault the trends found).
 
 Filter status of every unit
     For each filter bank of each unit, the latest judged point of its one series,
@@ -320,6 +322,7 @@ def compliance_figures(*, site_ids: list[int], start: date, end: date, as_of: da
                 "unit": finding.ahu,
                 "part": finding.component.name if finding.component is not None else WHOLE_UNIT,
                 "problem": finding_problem(finding),
+                "source": finding.source_words,  # "" for a visit's finding
                 "severity": finding.severity,
                 "severity_label": finding.get_severity_display(),
                 "first_seen": finding.opened_at.astimezone(tz).date(),

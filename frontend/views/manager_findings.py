@@ -147,6 +147,7 @@ def findings_list(request):
                     "site": site,
                     "part": f.component.name if f.component is not None else "the unit as a whole",
                     "problem": finding_problem(f),
+                    "source": f.source_words,
                     "text": reason_for(evaluation=f, unit_system=system),
                     "first_seen": site_date_text(f.opened_at, site),
                     "last_seen": site_date_text(f.last_seen_at or f.opened_at, site),
@@ -183,7 +184,7 @@ def finding_detail(request, pk: int):
     part = finding.component.name if finding.component is not None else None
     observations = finding_observations(finding=finding)
     latest = finding.latest_evaluation or finding.evaluation
-    readings = _readings_of([*observations, latest])
+    readings = _readings_of([e for e in (*observations, latest) if e is not None])
     history = []
     for e in observations:
         value, limit = reading_and_limit(e, readings, system)
@@ -210,8 +211,10 @@ def finding_detail(request, pk: int):
     ]
     value, limit = reading_and_limit(latest, readings, system)
     wo = finding.corrective_work_order
-    # The record of the visit that last saw it (the inspection report covers every form of its work order).
-    record_work_order = (finding.latest_inspection or finding.inspection).work_order
+    # The record of the visit that last saw it (the inspection report covers every form of its work order); none
+    # for a finding of the building-automation trends, whose evidence is the fault's.
+    visit = finding.latest_inspection or finding.inspection
+    record_work_order = visit.work_order if visit is not None else None
     return render(
         request,
         "frontend/manager/finding.html",
@@ -220,6 +223,8 @@ def finding_detail(request, pk: int):
             "site": site,
             "part": part or "the unit as a whole",
             "problem": finding_problem(finding),
+            "source": finding.source_words,
+            "trend": trend_evidence(finding=finding, user=request.user) if finding.from_trends else None,
             "text": reason_for(evaluation=finding, unit_system=system),
             "first_seen": site_date_text(finding.opened_at, site),
             "last_seen": site_date_text(finding.last_seen_at or finding.opened_at, site),
@@ -233,6 +238,25 @@ def finding_detail(request, pk: int):
             "record_wo": record_work_order,
         },
     )
+
+
+def trend_evidence(*, finding: Finding, user) -> dict:
+    """What a finding of the building-automation trends was found on: the rule's published section, the latest
+    evidence window on the site's clock, the share of the operating time, and the fault whose evidence chart
+    supervisors and administrators may open (``frontend:fault``; a property manager reads the words here)."""
+    from automation.fault_findings import evidence_window_words, share_words
+    from automation.fault_models import Fault
+
+    from .automation_pages import MANAGING, primary_role
+
+    evidence = finding.evidence or {}
+    fault = Fault.objects.filter(finding=finding).order_by("-pk").first()
+    return {
+        "section": evidence.get("section", ""),
+        "window": evidence_window_words(evidence, finding.ahu.building.site.time_zone),
+        "share": share_words(evidence.get("share")),
+        "fault": fault if fault is not None and primary_role(user=user) in MANAGING else None,
+    }
 
 
 LAST_VISITS = 5
@@ -274,6 +298,7 @@ def unit_detail(request, pk: int):
                 {
                     "f": f,
                     "problem": finding_problem(f),
+                    "source": f.source_words,
                     "part": f.component.name if f.component is not None else "the unit as a whole",
                     "first_seen": site_date_text(f.opened_at, site),
                     "progress": progress_words(f.corrective_work_order, finding=f),

@@ -2,7 +2,8 @@
 
 After ``load_demo`` on a December day (inside the freeze season): the loaded filter's change is planned from the
 trend (no technician's reading), the stuck outdoor-air damper is one open fault with its evidence windows and its
-proposed corrective work, the leaking cooling valve is found, the freezing night keeps its unit not ready for
+proposed corrective work, and one open finding of the unit (source building-automation trends, rule FC6) holding
+that work, the leaking cooling valve is found, the freezing night keeps its unit not ready for
 freeze protection (the one function that decides readiness, and the compliance figures the manager's dashboard
 and report read), the healthy units have no fault, and a second load changes nothing.
 """
@@ -17,7 +18,7 @@ from django.core.management import call_command
 from automation.demo import FILTER, FREEZE_NIGHT, LEAKING_VALVE, SEEDED, STUCK_DAMPER
 from automation.models import Fault, FilterDay, Point, TrendDay
 from inspections.freeze import NOT_READY, freeze_readiness
-from inspections.models import Reading
+from inspections.models import Finding, Reading
 from inventory.models import AHU
 from reports.compliance import compliance_figures
 from scheduling.models import WorkOrder
@@ -36,6 +37,7 @@ def _snapshot() -> dict:
         "points": Point.objects.count(),
         "buckets": sorted(TrendDay.objects.values_list("point_id", "day", "count")),
         "faults": sorted(Fault.objects.values_list("ahu_id", "code", "state", "days_seen", "fault_s")),
+        "findings": sorted(Finding.objects.values_list("ahu_id", "problem", "state", "times_seen")),
         "filter_days": FilterDay.objects.count(),
         "work_orders": WorkOrder.objects.count(),
     }
@@ -77,6 +79,15 @@ def test_demo_trends_carry_the_seeded_faults_and_only_them():
         assert work is not None and work.kind == WorkOrder.Kind.CORRECTIVE and work.state in WorkOrder.OPEN_STATES
         assert work.approval == WorkOrder.Approval.PENDING  # proposed: awaits the supervisor
         assert "found in the building-automation trends" in work.reason
+        # ... and one open finding of the damper with its source and rule, holding that work.
+        [finding] = Finding.objects.filter(ahu=stuck, state=Finding.State.OPEN, source=Finding.Source.BAS_TREND)
+        assert fault.finding == finding and (finding.rule, finding.component) == ("FC6", fault.component)
+        assert finding.corrective_work_order == work and finding.evidence.get("end")
+        assert finding.source_words == "building-automation trends, rule FC6"
+        figures = compliance_figures(
+            site_ids=[stuck.building.site_id], start=DECEMBER - dt.timedelta(days=90), end=DECEMBER, as_of=AT
+        )
+        assert any(r["finding"] == finding and r["source"] == finding.source_words for r in figures.open_findings)
 
         # The leaking cooling valve: air cooled across the closed coil in free cooling (FC#8 with the mapped points).
         leaking = _unit(LEAKING_VALVE)
@@ -100,6 +111,12 @@ def test_demo_trends_carry_the_seeded_faults_and_only_them():
         seeded = {_unit(k).pk for k in (FILTER, STUCK_DAMPER, LEAKING_VALVE, FREEZE_NIGHT)}
         healthy_faults = Fault.objects.exclude(ahu_id__in=seeded).values_list("ahu__tag", "code")
         assert list(healthy_faults) == []
+        # Every open fault is one open finding, and no trend finding stands without its fault.
+        open_faults = Fault.objects.filter(state=Fault.State.OPEN)
+        trend_findings = Finding.objects.filter(source=Finding.Source.BAS_TREND, state=Finding.State.OPEN)
+        assert sorted(open_faults.values_list("finding_id", flat=True)) == sorted(
+            trend_findings.values_list("pk", flat=True)
+        )
         assert Fault.objects.filter(ahu=filter_unit).count() == 0
         trended = set(Point.objects.values_list("ahu_id", flat=True))
         assert seeded < trended and len(trended) >= 8
