@@ -239,12 +239,10 @@ def endpoints_under_load(
 
 
 def _engine_caches_clear() -> None:
-    """Forget the engine's per-process caches (run-hour rates, seasons from normals)."""
-    from scheduling import engine
-    from scheduling.services import seasons
+    """Forget the per-process caches (run-hour rates, seasons from normals, ...) as the tests do."""
+    from config.caches import clear_module_caches
 
-    engine._rate_per_day.cache_clear()
-    seasons._starts.cache_clear()
+    clear_module_caches()
 
 
 def _count_items(payload) -> object:

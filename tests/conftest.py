@@ -87,8 +87,11 @@ def api_client():
 
 @pytest.fixture(autouse=True)
 def _answers_forgotten():
-    """Each test starts with no kept answers (they live in the process, across tests)."""
+    """Each test starts with no kept answers and no kept results of the engine's pure functions
+    (they live in the process, across tests), as the benchmark starts each repetition."""
     from accounts.answers import answer_cache_clear
+    from config.caches import clear_module_caches
 
     answer_cache_clear()
+    clear_module_caches()
     yield

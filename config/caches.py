@@ -1,0 +1,25 @@
+"""The process's kept results of pure functions, forgotten together.
+
+Each of these caches keeps the answer of a pure function of its arguments for
+the life of the process (a worker keeps them across requests and nightly runs).
+Forgetting them makes the next call start cold, as a fresh process does: the
+benchmark does so before each repetition and the tests before each test.
+Caches of things that never change while the process lives (the Brick ontology,
+the phone's unit and property tables, the shell's static digest) are left alone.
+"""
+
+from __future__ import annotations
+
+
+def clear_module_caches() -> None:
+    """Forget every kept result of the engine, the seasons, the routes, unit conversions and zone spans."""
+    from accounts import clock
+    from engineering import units
+    from scheduling import engine, selectors
+    from scheduling.services import seasons
+
+    engine._rate_per_day.cache_clear()
+    seasons._starts.cache_clear()
+    selectors._suggest_order.cache_clear()
+    units._convert.cache_clear()
+    clock._spans.cache_clear()
