@@ -3,6 +3,7 @@
 from django.conf import settings
 from django.core.exceptions import PermissionDenied, RequestDataTooBig, ValidationError
 from django.http import FileResponse
+from django.urls import reverse
 from django.utils import timezone
 from drf_spectacular.utils import OpenApiParameter, OpenApiResponse, extend_schema
 from rest_framework import status
@@ -63,11 +64,12 @@ class SyncView(APIView):
 
 
 def _photo_json(request, photo) -> dict:
+    kwargs = {"client_uuid": photo.client_uuid}
     return {
         "client_uuid": str(photo.client_uuid),
         "id": photo.pk,
-        "url": request.build_absolute_uri(f"/api/inspections/photos/{photo.client_uuid}/"),
-        "thumbnail_url": request.build_absolute_uri(f"/api/inspections/photos/{photo.client_uuid}/thumbnail/"),
+        "url": request.build_absolute_uri(reverse("inspections_api:photo", kwargs=kwargs)),
+        "thumbnail_url": request.build_absolute_uri(reverse("inspections_api:photo-thumb", kwargs=kwargs)),
         "width": photo.width,
         "height": photo.height,
     }

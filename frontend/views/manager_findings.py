@@ -34,7 +34,7 @@ from reports.documents.common import shown
 from reports.documents.unit_history import judged_cells
 from scheduling.models import WorkOrder
 
-from .technician import PHOTO_FULL, PHOTO_THUMB, unit_records_context
+from .technician import photo_urls, unit_records_context
 
 SEVERITY_ORDER = {"critical": 0, "high": 1, "medium": 2, "low": 3}
 STATES = (("open", "Open"), ("closed", "Closed"), ("all", "Open and closed"))
@@ -203,8 +203,7 @@ def finding_detail(request, pk: int):
     photos = [
         {
             "p": p,
-            "thumb": PHOTO_THUMB.format(p.client_uuid),
-            "full": PHOTO_FULL.format(p.client_uuid),
+            **photo_urls(p.client_uuid),
             "day": site_date_text(p.uploaded_at, site),
         }
         for p in finding_photos(finding=finding, inspection_ids=[e.inspection_id for e in observations])

@@ -1,5 +1,7 @@
 """The technician's phone pages: today's visits, a unit by its label code, the checklist."""
 
+import uuid
+
 from django.contrib import messages
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied, ValidationError
@@ -21,7 +23,10 @@ from ..checklist_form import _number, caution_blocks, cautions_for, form_section
 from ..phone_form import site_where, with_last_values
 from .records import LAYOUTS
 
-CHECKLIST_API = "/api/inspections/work-orders/{}/checklist/"
+
+def checklist_api_url(public_id: uuid.UUID) -> str:
+    """The checklist document's API address (the phone fetches and caches it)."""
+    return reverse("inspections_api:checklist", kwargs={"public_id": public_id})
 
 
 def unit_records_context(*, ahu, system: str) -> dict:
@@ -44,7 +49,7 @@ def offline_urls(visits) -> list[str]:
     for wo in (wo for visit in visits for wo in visit.work_orders):
         urls += [
             reverse("frontend:checklist", kwargs={"public_id": wo.public_id}),
-            CHECKLIST_API.format(wo.public_id),
+            checklist_api_url(wo.public_id),
             reverse("frontend:unit", kwargs={"code": wo.ahu.label_code}),
         ]
     return urls
@@ -128,8 +133,6 @@ def _work_order(request, public_id):
 # The longest reason the amendment form takes (its input says so with maxlength).
 AMEND_TEXT_MAX = 2000
 DONE_STATES = (WorkOrder.State.COMPLETED, WorkOrder.State.VERIFIED)
-PHOTO_THUMB = "/api/inspections/photos/{}/thumbnail/"
-PHOTO_FULL = "/api/inspections/photos/{}/"
 # Plain words a person may type for a check when amending, and the value stored.
 CHECK_WORDS = {
     "ok": "ok",
@@ -140,6 +143,15 @@ CHECK_WORDS = {
     "n.a.": "na",
     "not applicable": "na",
 }
+
+
+def photo_urls(client_uuid: uuid.UUID) -> dict[str, str]:
+    """A photo's thumbnail and full image, from the API routes that check who may see them."""
+    kwargs = {"client_uuid": client_uuid}
+    return {
+        "thumb": reverse("inspections_api:photo-thumb", kwargs=kwargs),
+        "full": reverse("inspections_api:photo", kwargs=kwargs),
+    }
 
 
 def stored_result(*, inspection, work_order) -> dict:
@@ -156,7 +168,7 @@ def record_context(*, request, wo) -> dict:
     visits = backends.visit_records(
         work_order=wo,
         system=request.user.unit_system,
-        photo_src=lambda ph: {"thumb": PHOTO_THUMB.format(ph.client_uuid), "full": PHOTO_FULL.format(ph.client_uuid)},
+        photo_src=lambda ph: photo_urls(ph.client_uuid),
         signature_src=lambda insp: backends.image_data_uri(insp.signature_image, max_px=400),
     )
     for visit in visits:
@@ -230,7 +242,7 @@ def checklist(request, public_id):
             "result": None
             if done
             else selectors.result_for_display(result=result, system=system, labels=selectors.item_labels(data)),
-            "checklist_api": CHECKLIST_API.format(wo.public_id),
+            "checklist_api": checklist_api_url(wo.public_id),
             "evaluation_context": (data or {}).get("evaluation") if not done and may_submit else None,
             "inspection": inspection,
             "can_report": done and inspection is not None,

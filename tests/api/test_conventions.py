@@ -1,8 +1,11 @@
-"""API conventions every app keeps: its DRF views in ``<app>/api.py``, and its shapes named ``…Input`` (what a
-client sends) or ``…Output`` (what it gets back), in Python and in the published schema alike."""
+"""API conventions every app keeps: its DRF views in ``<app>/api.py``, its shapes named ``…Input`` (what a
+client sends) or ``…Output`` (what it gets back), in Python and in the published schema alike, and its
+addresses reached by URL name, never written out."""
 
 import importlib
 import inspect
+import re
+from pathlib import Path
 from typing import Any
 
 import pytest
@@ -62,3 +65,21 @@ def test_schema_components_are_named_input_or_output() -> None:
     schema: dict[str, Any] = SchemaGenerator().get_schema(request=None, public=True)  # type: ignore[no-untyped-call]
     odd = sorted(n for n in schema["components"]["schemas"] if not n.endswith(("Output", "InputRequest", "Enum")))
     assert not odd, odd
+
+
+ROOT = Path(__file__).resolve().parents[2]
+WRITTEN_API_ADDRESS = re.compile(r"""["'`]/api/""")
+
+
+def test_python_and_templates_reach_the_api_by_url_name() -> None:
+    """No view, serializer or page template writes an API address out: each is ``reverse()``d or ``{% url %}``ed,
+    so a route moved or mounted under a prefix moves every link with it."""
+    written = [
+        f"{path.relative_to(ROOT)}:{number}"
+        for app in APPS
+        for path in sorted((ROOT / app).rglob("*"))
+        if path.suffix in (".py", ".html") and "migrations" not in path.parts
+        for number, line in enumerate(path.read_text(encoding="utf-8").splitlines(), start=1)
+        if WRITTEN_API_ADDRESS.search(line)
+    ]
+    assert not written, written
