@@ -537,12 +537,14 @@ def work_order_moved(sender, *, work_order, before: str, by, **kwargs) -> None:
     if work_order.state != WorkOrder.State.COMPLETED:
         return
     at = work_order.completed_at or timezone.now()
-    for fault in (
+    # Most completed work answers no fault: a bare locked id read first, the rows only when there are any.
+    ids = list(
         Fault.objects.select_for_update(of=("self",))
         .filter(Q(corrective_work_order=work_order) | Q(finding__corrective_work_order=work_order))
         .filter(state=Fault.State.OPEN)
-        .select_related("finding")
-    ):
+        .values_list("pk", flat=True)
+    )
+    for fault in Fault.objects.filter(pk__in=ids).select_related("finding") if ids else []:
         fault.state, fault.closed_at, fault.close_cause = Fault.State.CLOSED, at, Fault.CloseCause.CORRECTED
         fault.save(update_fields=["state", "closed_at", "close_cause"])
         _audit(by, fault, "fault_close", {"cause": "corrected", "work_order": str(work_order.public_id)})

@@ -464,14 +464,18 @@ def finding_close_source(*, finding: Finding, at: dt.datetime, cause: str, note:
     return True
 
 
-def _findings_opened(*, inspection: Inspection, failing: list, seen_at, amendment) -> tuple[dict, dict]:
+def _findings_opened(*, inspection: Inspection, failing: list, seen_at, amendment) -> tuple[dict, dict, list]:
     """The unit's open findings, locked, in one query; and the new ones the failures need, opened in one insert.
 
-    Returns (known, fresh) for ``_observe``. Should another form open one of the same findings meanwhile (the
-    unique constraint refuses the insert), nothing is opened here and each failure goes its own way, as ever.
+    Returns (known, fresh) for ``_observe`` and the open findings as read (for ``findings_resolve``). Should
+    another form open one of the same findings meanwhile (the unique constraint refuses the insert), nothing is
+    opened here and each failure goes its own way, as ever.
     """
     known: dict = {}
-    for f in Finding.objects.select_for_update(of=("self",)).filter(state=Finding.State.OPEN, ahu_id=inspection.ahu_id):
+    rows = list(
+        Finding.objects.select_for_update(of=("self",)).filter(state=Finding.State.OPEN, ahu_id=inspection.ahu_id)
+    )
+    for f in rows:
         known.setdefault((f.component_id, f.problem), f)  # newest first, as .first() would pick
     fresh: dict = {}
     new: list[tuple[tuple, Finding]] = []
@@ -500,14 +504,14 @@ def _findings_opened(*, inspection: Inspection, failing: list, seen_at, amendmen
             )
         )
     if not new:
-        return known, fresh
+        return known, fresh, rows
     try:
         with transaction.atomic():
             Finding.objects.bulk_create([f for _, f in new])
     except IntegrityError:
-        return known, {}
+        return known, {}, rows
     known.update(new)
-    return known, fresh
+    return known, fresh, rows
 
 
 def findings_open(
@@ -558,7 +562,9 @@ def findings_open(
             "condition_code": condition,
         }
         failing.append((ev, res, condition, urgent, design_review, values))
-    known, fresh = _findings_opened(inspection=inspection, failing=failing, seen_at=seen_at, amendment=amendment)
+    known, fresh, open_rows = _findings_opened(
+        inspection=inspection, failing=failing, seen_at=seen_at, amendment=amendment
+    )
     for ev, res, condition, urgent, design_review, values in failing:
         finding, _ = _observe(
             inspection=inspection,
@@ -582,7 +588,13 @@ def findings_open(
         group["urgent"] = group["urgent"] or urgent
     if amendment is None:  # an amendment corrects an earlier visit: findings_close_cleared judges it
         findings_resolve(
-            inspection=inspection, evaluations=evaluations, results=results, failed=set(found), at=seen_at, by=by
+            inspection=inspection,
+            evaluations=evaluations,
+            results=results,
+            failed=set(found),
+            at=seen_at,
+            by=by,
+            open_rows=open_rows,
         )
     source_ref = f"inspection:{inspection.pk}" + (f" amendment:{amendment.pk}" if amendment is not None else "")
     for key, group in needs_work.items():
@@ -616,7 +628,9 @@ def _is_filter_finding(finding: Finding) -> bool:
     return finding.condition_code == "filter_loaded" or finding.problem.split(":", 1)[0] in FILTER_CHECKS
 
 
-def findings_resolve(*, inspection: Inspection, evaluations, results, failed: set[int], at, by) -> list[Finding]:
+def findings_resolve(
+    *, inspection: Inspection, evaluations, results, failed: set[int], at, by, open_rows: list | None = None
+) -> list[Finding]:
     """Close the open findings of this unit that this visit (finished at ``at``) shows resolved.
 
     A finding is resolved when the visit judges the same check of the same part ok ("ok on a later visit"), or
@@ -624,6 +638,8 @@ def findings_resolve(*, inspection: Inspection, evaluations, results, failed: se
     Findings this visit saw fail (``failed``), findings seen on a visit after this one (an older form synced
     late), and freeze-protection findings (closed by the corrective retest) stay open. Corrective work still
     awaiting approval whose findings are then all closed is withdrawn.
+
+    ``open_rows``: the unit's open findings as the caller read and locked them in this transaction (else read).
     """
     ok = {
         (problem_of(check=res.check, item=res.item), res.component.pk if res.component else None)
@@ -634,13 +650,19 @@ def findings_resolve(*, inspection: Inspection, evaluations, results, failed: se
     if not ok and not replaced:
         return []
     closed = []
-    for finding in (
-        Finding.objects.select_for_update(of=("self",))
-        .filter(ahu_id=inspection.ahu_id, state=Finding.State.OPEN)
-        .exclude(pk__in=failed)
-        .exclude(condition_code__in=NOT_RESOLVED_BY_LATER_OK)
-        .order_by("pk")
-    ):
+    if open_rows is None:
+        open_rows = list(
+            Finding.objects.select_for_update(of=("self",)).filter(ahu_id=inspection.ahu_id, state=Finding.State.OPEN)
+        )
+    candidates = sorted(
+        (
+            f
+            for f in open_rows
+            if f.state == Finding.State.OPEN and f.pk not in failed and f.condition_code not in NOT_RESOLVED_BY_LATER_OK
+        ),
+        key=lambda f: f.pk,
+    )
+    for finding in candidates:
         if finding.latest_inspection_id == inspection.pk or (finding.last_seen_at or finding.opened_at) > at:
             continue
         if finding.component_id in replaced and _is_filter_finding(finding):
