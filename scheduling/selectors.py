@@ -18,7 +18,7 @@ from accounts.selectors import MANAGING_ROLES, technicians_of
 from inventory.selectors import sites_visible_to
 from inventory.today import today_for
 
-from . import routing
+from . import routing, shapes
 from .models import TaskDefinition, UnitTaskSetting, WorkOrder, WorkOrderTask
 
 
@@ -168,43 +168,13 @@ def _board_section(*, week_start: dt.date, today: dt.date) -> Case:
 
 
 def _person(user) -> dict | None:
-    return None if user is None else {"id": user.pk, "username": user.username, "name": str(user)}
-
-
-def _allowed_states(state: str) -> list[str]:
-    return sorted(WorkOrder.TRANSITIONS.get(state, ()))
+    if user is None:
+        return None
+    return shapes.person_ref(id=user.pk, username=user.username, first_name=user.first_name, last_name=user.last_name)
 
 
 BOARD_SECTIONS = ("overdue", "due", "assigned")
 BOARD_LIMIT_MAX = 500
-
-
-_BOARD_COLUMNS = (
-    "id",
-    "public_id",
-    "kind",
-    "state",
-    "priority",
-    "approval",
-    "title",
-    "condition_code",
-    "ahu_id",
-    "ahu__tag",
-    "ahu__label_code",
-    "ahu__building_id",
-    "ahu__building__name",
-    "ahu__building__site_id",
-    "ahu__building__site__code",
-    "ahu__building__site__name",
-    "assignee_id",
-    "assignee__username",
-    "assignee__first_name",
-    "assignee__last_name",
-    "due_date",
-    "overdue_on",
-    "scheduled_for",
-    "version",
-)
 
 
 def _board_sorted(*, organisation, week_start: dt.date, today: dt.date) -> QuerySet[WorkOrder]:
@@ -264,10 +234,10 @@ def board_page_for(
             WorkOrder.objects.filter(pk__in=shown_ids)
             .annotate(section=_board_section(week_start=week_start, today=today))
             .order_by("due_date", "id")
-            .values_list(*_BOARD_COLUMNS, "section")
+            .values(*shapes.BOARD_ITEM_COLUMNS, "section")
         )
         for r in page:
-            shown[r[-1]].append(_board_item(r[:-1]))
+            shown[r["section"]].append(shapes.board_item_shape(r))
     return {
         "week_start": week_start,
         "today": today,
@@ -276,44 +246,6 @@ def board_page_for(
         "counts": totals,
         "days": list(per_day.values()),
         **shown,
-    }
-
-
-def _unit_ref(ahu_id, tag: str, label_code: str, building_id, building_name: str) -> dict:
-    """A unit as the board names it: its tag with its building ("AHU-01 (Mill Block)", as ``AHU.display_name``),
-    since tags are unique only within a building."""
-    return {
-        "id": ahu_id,
-        "tag": tag,
-        "name": f"{tag} ({building_name})",
-        "label_code": label_code,
-        "building": {"id": building_id, "name": building_name},
-    }
-
-
-def _board_item(r: tuple) -> dict:
-    (_, public_id, kind, state, priority, approval, title, condition_code, ahu_id, tag, label_code) = r[:11]
-    (building_id, building_name, site_id, site_code, site_name, assignee_id, username, first, last) = r[11:20]
-    (due, overdue_on, scheduled, version) = r[20:]
-    full_name = f"{first} {last}".strip()
-    return {
-        "id": public_id,
-        "kind": kind,
-        "state": state,
-        "priority": priority,
-        "approval": approval,
-        "title": title,
-        "condition_code": condition_code,
-        "unit": _unit_ref(ahu_id, tag, label_code, building_id, building_name),
-        "site": {"id": site_id, "code": site_code, "name": site_name},
-        "assignee": None
-        if assignee_id is None
-        else {"id": assignee_id, "username": username, "name": full_name or username},
-        "due_date": due,
-        "overdue_on": overdue_on,
-        "scheduled_for": scheduled,
-        "version": version,
-        "allowed_states": _allowed_states(state),
     }
 
 
@@ -644,22 +576,13 @@ def work_orders_to_verify(*, organisation, limit: int = 100) -> QuerySet[WorkOrd
     )
 
 
+TO_VERIFY_FIELDS = ("id", "title", "unit", "site", "assignee", "completed_at", "version")
+
+
 def to_verify_rows(*, organisation, limit: int = 100) -> list[dict]:
     """:func:`work_orders_to_verify` in the board API's plain shape."""
     return [
-        {
-            "id": wo.public_id,
-            "title": wo.title,
-            "unit": _unit_ref(wo.ahu_id, wo.ahu.tag, wo.ahu.label_code, wo.ahu.building_id, wo.ahu.building.name),
-            "site": {
-                "id": wo.ahu.building.site_id,
-                "code": wo.ahu.building.site.code,
-                "name": wo.ahu.building.site.name,
-            },
-            "assignee": _person(wo.assignee),
-            "completed_at": wo.completed_at,
-            "version": wo.version,
-        }
+        shapes.work_order_shape(wo, fields=TO_VERIFY_FIELDS, unit=shapes.unit_ref, site=shapes.site_ref)
         for wo in work_orders_to_verify(organisation=organisation, limit=limit)
     ]
 
@@ -726,43 +649,9 @@ def today_visits_for(*, technician, day: dt.date, start: tuple[float, float] | N
 # ---------------------------------------------------------------------------
 _TODAY_COLUMNS = (
     "id",
-    "public_id",
-    "kind",
-    "state",
-    "priority",
-    "approval",
-    "title",
-    "reason",
-    "condition_code",
-    "ahu_id",
-    "ahu__tag",
-    "ahu__label_code",
-    "ahu__building__site_id",
-    "ahu__building__site__code",
-    "ahu__building__site__name",
+    *shapes.WORK_ORDER_COLUMNS,
     "ahu__building__site__address",
-    "ahu__building__site__latitude",
-    "ahu__building__site__longitude",
-    "due_date",
-    "due_by",
-    "overdue_on",
-    "scheduled_for",
-    "started_at",
-    "completed_at",
-    "verified_at",
-    "version",
-    "tasks__id",
-    "tasks__task_code",
-    "tasks__task__name",
-    "tasks__task__checklist_code",
-    "tasks__component_id",
-    "tasks__component__name",
-    "tasks__component__kind",
-    "tasks__component__label_code",
-    "tasks__due_date",
-    "tasks__task__estimated_minutes",
-    "tasks__task__safety_notes",
-    "tasks__completed_at",
+    *("tasks__" + c for c in shapes.TASK_COLUMNS),
 )
 
 
@@ -774,7 +663,6 @@ def today_visit_rows_for(*, technician, day: dt.date, start: tuple[float, float]
         .order_by("due_date", "id", "tasks__due_date", "tasks__id")
         .values(*_TODAY_COLUMNS)
     )
-    assignee = _person(technician)
     orders: dict[int, dict] = {}
     by_site: dict[int, list[dict]] = {}
     sites: dict[int, dict] = {}
@@ -791,53 +679,10 @@ def today_visit_rows_for(*, technician, day: dt.date, start: tuple[float, float]
                     "latitude": r["ahu__building__site__latitude"],
                     "longitude": r["ahu__building__site__longitude"],
                 }
-            site = sites[site_id]
-            wo = orders[r["id"]] = {
-                "id": r["public_id"],
-                "kind": r["kind"],
-                "state": r["state"],
-                "priority": r["priority"],
-                "approval": r["approval"],
-                "title": r["title"],
-                "reason": r["reason"],
-                "condition_code": r["condition_code"],
-                "unit": {"id": r["ahu_id"], "tag": r["ahu__tag"], "label_code": r["ahu__label_code"]},
-                "site": {k: site[k] for k in ("id", "code", "name", "latitude", "longitude")},
-                "assignee": assignee,
-                "due_date": r["due_date"],
-                "due_by": r["due_by"],
-                "overdue_on": r["overdue_on"],
-                "scheduled_for": r["scheduled_for"],
-                "started_at": r["started_at"],
-                "completed_at": r["completed_at"],
-                "verified_at": r["verified_at"],
-                "version": r["version"],
-                "tasks": [],
-                "allowed_states": _allowed_states(r["state"]),
-            }
+            wo = orders[r["id"]] = shapes.work_order_shape(r)
             by_site.setdefault(site_id, []).append(wo)
         if r["tasks__id"] is not None:
-            component_id = r["tasks__component_id"]
-            wo["tasks"].append(
-                {
-                    "id": r["tasks__id"],
-                    "code": r["tasks__task_code"],
-                    "name": r["tasks__task__name"],
-                    "checklist_code": r["tasks__task__checklist_code"],
-                    "component": None
-                    if component_id is None
-                    else {
-                        "id": component_id,
-                        "name": r["tasks__component__name"],
-                        "kind": r["tasks__component__kind"],
-                        "label_code": r["tasks__component__label_code"],
-                    },
-                    "due_date": r["tasks__due_date"],
-                    "estimated_minutes": r["tasks__task__estimated_minutes"],
-                    "safety_notes": r["tasks__task__safety_notes"],
-                    "completed_at": r["tasks__completed_at"],
-                }
-            )
+            wo["tasks"].append(shapes.task_shape(r, prefix="tasks__"))
     if not by_site:
         return []
     points = {pk: (site["latitude"], site["longitude"]) for pk, site in sites.items()}

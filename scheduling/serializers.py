@@ -6,6 +6,7 @@ from rest_framework import serializers
 from accounts import api_fields
 from accounts.api_errors import ErrorOutput
 
+from . import shapes
 from .models import MeterReading, OutdoorTemperature, TaskDefinition, WorkOrder, WorkOrderTask
 
 
@@ -88,14 +89,20 @@ class TaskComponentOutput(serializers.Serializer):
     label_code = serializers.CharField()
 
 
-# Method fields below give their values as built; the schema names each shape.
+# The work order's shape is built by scheduling.shapes (the fast reads build the same dicts with it); these
+# serializers declare the schema and hand their instances to the builder.
+def _ShapeField(shape: serializers.Serializer) -> serializers.Field:
+    """A read-only field documented as ``shape`` (its value comes from the builder, as a method field's would)."""
+    return extend_schema_field(shape)(type("ShapeField", (serializers.ReadOnlyField,), {}))()
+
+
 class WorkOrderTaskOutput(serializers.ModelSerializer):
     code = serializers.CharField(source="task_code")
     name = serializers.CharField(source="task.name")
     checklist_code = serializers.CharField(source="task.checklist_code")
     estimated_minutes = serializers.IntegerField(source="task.estimated_minutes")
     safety_notes = serializers.CharField(source="task.safety_notes")
-    component = serializers.SerializerMethodField()
+    component = _ShapeField(TaskComponentOutput(allow_null=True))
 
     class Meta:
         model = WorkOrderTask
@@ -111,62 +118,24 @@ class WorkOrderTaskOutput(serializers.ModelSerializer):
             "completed_at",
         ]
 
-    @extend_schema_field(TaskComponentOutput(allow_null=True))
-    def get_component(self, obj) -> dict | None:
-        c = obj.component
-        return None if c is None else {"id": c.pk, "name": c.name, "kind": c.kind, "label_code": c.label_code}
+    def to_representation(self, instance) -> dict:
+        return shapes.task_shape(instance)
 
 
 class WorkOrderOutput(serializers.ModelSerializer):
     id = serializers.UUIDField(source="public_id")
-    unit = serializers.SerializerMethodField()
-    site = serializers.SerializerMethodField()
-    assignee = serializers.SerializerMethodField()
+    unit = UnitBriefOutput(read_only=True)
+    site = SitePlaceOutput(read_only=True)
+    assignee = _ShapeField(PersonRefOutput(allow_null=True))
     tasks = WorkOrderTaskOutput(many=True)
-    allowed_states = serializers.SerializerMethodField()
+    allowed_states = serializers.ListField(child=serializers.CharField(), read_only=True)
 
     class Meta:
         model = WorkOrder
-        fields = [
-            "id",
-            "kind",
-            "state",
-            "priority",
-            "approval",
-            "title",
-            "reason",
-            "condition_code",
-            "unit",
-            "site",
-            "assignee",
-            "due_date",
-            "due_by",
-            "overdue_on",
-            "scheduled_for",
-            "started_at",
-            "completed_at",
-            "verified_at",
-            "version",
-            "tasks",
-            "allowed_states",
-        ]
+        fields = list(shapes.WORK_ORDER_FIELDS)
 
-    @extend_schema_field(UnitBriefOutput())
-    def get_unit(self, obj) -> dict:
-        return {"id": obj.ahu_id, "tag": obj.ahu.tag, "label_code": obj.ahu.label_code}
-
-    @extend_schema_field(SitePlaceOutput())
-    def get_site(self, obj) -> dict:
-        s = obj.ahu.building.site
-        return {"id": s.pk, "code": s.code, "name": s.name, "latitude": s.latitude, "longitude": s.longitude}
-
-    @extend_schema_field(PersonRefOutput(allow_null=True))
-    def get_assignee(self, obj) -> dict | None:
-        u = obj.assignee
-        return None if u is None else {"id": u.pk, "username": u.username, "name": str(u)}
-
-    def get_allowed_states(self, obj) -> list[str]:
-        return sorted(WorkOrder.TRANSITIONS.get(obj.state, ()))
+    def to_representation(self, instance) -> dict:
+        return shapes.work_order_shape(instance, tasks=[shapes.task_shape(t) for t in instance.tasks.all()])
 
 
 class VersionInput(serializers.Serializer):
