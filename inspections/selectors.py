@@ -743,8 +743,20 @@ def reason_for(*, evaluation, unit_system: str) -> str:
 
 def finding_shape(*, finding: Finding, unit_system: str) -> dict:
     """One finding as every API answer shows it: plain title and text in the reader's units, first and last
-    seen, how many visits saw it, its kind and its corrective work (none for a design review)."""
+    seen, how many visits (or, from the trends, days) saw it, its kind and its corrective work (none for a design
+    review); who saw it (``source``, ``source_words``), and for a trend finding the rule and its evidence."""
     wo = finding.corrective_work_order
+    evidence = None
+    if finding.source != Finding.Source.INSPECTION:
+        e = finding.evidence or {}
+        evidence = {
+            "section": e.get("section") or "",
+            "window_start": e.get("start"),
+            "window_end": e.get("end"),
+            "share": e.get("share"),
+            "days": e.get("days") or finding.times_seen,
+            "lowest_supply_air_c": e.get("lowest_c"),
+        }
     return {
         "id": finding.pk,
         "kind": finding.kind,
@@ -757,6 +769,10 @@ def finding_shape(*, finding: Finding, unit_system: str) -> dict:
         "last_seen": (finding.last_seen_at or finding.opened_at).isoformat(),
         "times_seen": finding.times_seen,
         "corrective_work_order": str(wo.public_id) if wo is not None else None,
+        "source": finding.source,
+        "source_words": finding.source_words,
+        "rule": finding.rule,
+        "evidence": evidence,
     }
 
 

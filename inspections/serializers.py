@@ -48,6 +48,21 @@ class EvaluationOutput(serializers.Serializer):
     derived = serializers.DictField(help_text="Values the check worked out on the way (name: SI value).")
 
 
+class FindingEvidenceOutput(serializers.Serializer):
+    """What the building-automation trends hold as a fault rule's evidence (null for a finding of visits)."""
+
+    section = serializers.CharField(help_text="The rule's section in the published guideline.")
+    window_start = serializers.DateTimeField(allow_null=True, help_text="The latest evidence window's start.")
+    window_end = serializers.DateTimeField(allow_null=True)
+    share = serializers.FloatField(
+        allow_null=True, help_text="Share (0–1) of the operating time the rule could judge on its latest day."
+    )
+    days = serializers.IntegerField(help_text="Days the trends showed it.")
+    lowest_supply_air_c = serializers.FloatField(
+        allow_null=True, help_text="A freeze event's lowest supply-air temperature, °C (stored SI)."
+    )
+
+
 class FindingOutput(serializers.Serializer):
     """The shape of ``inspections.selectors.finding_shape`` (for the schema)."""
 
@@ -60,8 +75,16 @@ class FindingOutput(serializers.Serializer):
     text = serializers.CharField(help_text="The check, its numbers and the limit that failed it, in your units.")
     first_seen = serializers.DateTimeField(help_text="The first visit that saw it; its age counts from here.")
     last_seen = serializers.DateTimeField()
-    times_seen = serializers.IntegerField(help_text="Visits that saw it.")
+    times_seen = serializers.IntegerField(help_text="Visits that saw it (from the trends: days).")
     corrective_work_order = serializers.UUIDField(allow_null=True)
+    source = serializers.ChoiceField(choices=Finding.Source.choices)
+    source_words = serializers.CharField(
+        help_text='Who saw it, as pages say it ("building-automation trends, rule FC6"); empty for visits.'
+    )
+    rule = serializers.CharField(
+        help_text="The fault rule that found it in the trends (FC1–FC15, FREEZE); empty for visits."
+    )
+    evidence = FindingEvidenceOutput(allow_null=True)
 
 
 class SyncResultOutput(serializers.Serializer):

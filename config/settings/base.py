@@ -236,6 +236,7 @@ SPECTACULAR_SETTINGS = {
         "FindingStateEnum": "inspections.models.Finding.State",
         "MeterReadingSourceEnum": "scheduling.models.MeterReading.Source",
         "OutdoorTemperatureSourceEnum": "scheduling.models.OutdoorTemperature.Source",
+        "FindingSourceEnum": "inspections.models.Finding.Source",
     },
 }
 

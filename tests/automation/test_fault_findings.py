@@ -26,6 +26,7 @@ import pytest
 import time_machine
 from django.apps import apps as django_apps
 from django.test import override_settings
+from django.urls import reverse
 
 from accounts.models import Role
 from accounts.services import site_grant
@@ -146,6 +147,14 @@ def test_a_stuck_damper_is_one_finding_with_its_source_seen_by_its_manager_and_c
         assert "Found by The building-automation trends, rule FC6" in page and fault.section in page
         assert "Latest window 14 Jan 2026 00:00 UTC – 15 Jan 2026 00:00 UTC" in page
         assert "data-fault-link" not in page  # the evidence chart is the supervisors'
+        # The findings API tells a client the same: its source, the rule and the evidence beside the text.
+        [shown] = [f for f in client.get(reverse("inspections_api:findings")).json() if f["id"] == finding.pk]
+        assert (shown["source"], shown["rule"]) == ("bas_trend", "FC6")
+        assert shown["source_words"] == "building-automation trends, rule FC6"
+        assert shown["evidence"]["section"] == fault.section and shown["evidence"]["days"] == 3
+        assert shown["evidence"]["window_end"] == finding.evidence["end"]
+        assert shown["evidence"]["share"] == pytest.approx(1.0, abs=0.05)
+        assert shown["times_seen"] == 3 and "Found in the building-automation trends by rule FC6" in shown["text"]
         # Another organisation's property manager: not on her list, not found by its address.
         client.force_login(plant["stranger"])
         assert f'data-finding="{finding.pk}"' not in client.get("/site-findings/").content.decode()
