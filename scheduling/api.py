@@ -39,7 +39,7 @@ from .selectors import (
     board_suggestions,
     effective_tasks,
     to_verify_rows,
-    today_visit_rows_for,
+    today_visits_for,
     work_order_for,
     work_orders_managed_by,
     work_orders_visible_to,
@@ -325,7 +325,7 @@ class TodayVisits(APIView):
         day, start = key = today_params(request, request.user)
 
         def build():
-            return today_visit_rows_for(technician=request.user, day=day, start=start)
+            return today_visits_for(technician=request.user, day=day, start=start)
 
         answer = json_answer(request, view="today", key=key, build=build)
         return _revalidated(answer or Response(build()))

@@ -587,14 +587,6 @@ def to_verify_rows(*, organisation, limit: int = 100) -> list[dict]:
     ]
 
 
-@dataclass
-class Visit:
-    order: int
-    site: object
-    work_orders: list[WorkOrder]
-    leg_km: float
-
-
 def _today_orders(*, technician, day: dt.date) -> QuerySet[WorkOrder]:
     return WorkOrder.objects.filter(
         assignee=technician, state__in=[WorkOrder.State.ASSIGNED, WorkOrder.State.IN_PROGRESS]
@@ -619,30 +611,6 @@ def _route(*, points: dict[int, tuple[float, float]], start: tuple[float, float]
         prev = here
 
 
-def today_visits_for(*, technician, day: dt.date, start: tuple[float, float] | None = None) -> list[Visit]:
-    """The technician's open visits for ``day`` (scheduled that day, or unscheduled and due by then),
-    one stop per site, in a suggested driving order from ``start`` (default: the first site due)."""
-    orders = list(
-        _today_orders(technician=technician, day=day)
-        .select_related("ahu__building__site", "assignee", "component")
-        .prefetch_related(Prefetch("tasks", queryset=WorkOrderTask.objects.select_related("task", "component")))
-        .order_by("due_date", "id")
-    )
-    by_site: dict[int, list[WorkOrder]] = {}
-    sites = {}
-    for wo in orders:
-        site = wo.ahu.building.site
-        sites[site.pk] = site
-        by_site.setdefault(site.pk, []).append(wo)
-    if not by_site:
-        return []
-    points = {pk: (site.latitude, site.longitude) for pk, site in sites.items()}
-    return [
-        Visit(order=n, site=sites[pk], work_orders=by_site[pk], leg_km=leg)
-        for n, pk, leg in _route(points=points, start=start)
-    ]
-
-
 # ---------------------------------------------------------------------------
 # The API's hot paths: the same reads as plain dicts from one joined query each
 # (model instances, prefetches and nested serializers cost ~10x the SQL here).
@@ -655,9 +623,13 @@ _TODAY_COLUMNS = (
 )
 
 
-def today_visit_rows_for(*, technician, day: dt.date, start: tuple[float, float] | None = None) -> list[dict]:
-    """``today_visits_for`` as plain dicts in the API's visit shape (each work order as the work-order
-    endpoint shows it, with its tasks), read in one query: work orders left-joined to their tasks."""
+def today_visits_for(*, technician, day: dt.date, start: tuple[float, float] | None = None) -> list[dict]:
+    """The technician's open visits for ``day`` (scheduled that day, or unscheduled and due by then), one stop
+    per site, in a suggested driving order from ``start`` (default: the first site due): the today API's answer
+    and the today page's list alike.
+
+    Plain dicts in the API's visit shape (each work order as the work-order endpoint shows it, with its tasks,
+    :mod:`scheduling.shapes`), read in one query: work orders left-joined to their tasks."""
     rows = (
         _today_orders(technician=technician, day=day)
         .order_by("due_date", "id", "tasks__due_date", "tasks__id")

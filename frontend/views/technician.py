@@ -46,11 +46,11 @@ def unit_records_context(*, ahu, system: str) -> dict:
 def offline_urls(visits) -> list[str]:
     """The day's pages and checklist JSON the service worker saves for a reload without signal."""
     urls = [reverse("frontend:today"), reverse("frontend:calculator")]
-    for wo in (wo for visit in visits for wo in visit.work_orders):
+    for wo in (wo for visit in visits for wo in visit["work_orders"]):
         urls += [
-            reverse("frontend:checklist", kwargs={"public_id": wo.public_id}),
-            checklist_api_url(wo.public_id),
-            reverse("frontend:unit", kwargs={"code": wo.ahu.label_code}),
+            reverse("frontend:checklist", kwargs={"public_id": wo["id"]}),
+            checklist_api_url(wo["id"]),
+            reverse("frontend:unit", kwargs={"code": wo["unit"]["label_code"]}),
         ]
     return urls
 
@@ -62,6 +62,14 @@ def today(request):
     zone = time_zone_for(request.user)  # the clock the person works by (inventory.today)
     day = today_for(zone, now=now)
     visits = backends.today_visits_for(technician=request.user, day=day)
+    # The API's answer, with what the page says beside each work order: the unit with its building and
+    # place (and its site's clock for a due time), and the words of its kind, priority and state.
+    units = backends.ahus_by_id(ids={wo["unit"]["id"] for visit in visits for wo in visit["work_orders"]})
+    for wo in (wo for visit in visits for wo in visit["work_orders"]):
+        wo["ahu"] = units[wo["unit"]["id"]]
+        wo["kind_label"] = WorkOrder.Kind(wo["kind"]).label
+        wo["priority_label"] = WorkOrder.Priority(wo["priority"]).label
+        wo["state_label"] = WorkOrder.State(wo["state"]).label
     return render(
         request,
         "frontend/technician/today.html",

@@ -42,7 +42,7 @@ def loaded(db, capsys):
 def _today_codes(username: str) -> set[str]:
     tech = User.objects.get(username=username)
     visits = today_visits_for(technician=tech, day=today_for(tech))
-    return {t.task_code for v in visits for wo in v.work_orders for t in wo.tasks.all()}
+    return {t["code"] for v in visits for wo in v["work_orders"] for t in wo["tasks"]}
 
 
 def test_demo_has_a_year_of_history_and_upcoming_work(loaded):

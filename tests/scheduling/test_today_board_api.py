@@ -11,7 +11,7 @@ from rest_framework.utils.encoders import JSONEncoder
 from scheduling import serializers as s
 from scheduling.engine import work_orders_generate
 from scheduling.models import WorkOrder
-from scheduling.selectors import board_for, board_page_for, today_visit_rows_for, today_visits_for
+from scheduling.selectors import board_for, board_page_for, today_visits_for, work_orders_visible_to
 from scheduling.services import work_order_assign
 from tests.factories.inventory import AHUFactory, make_full_unit
 from tests.factories.scheduling import WorkOrderFactory, make_supervisor, make_technician
@@ -33,19 +33,35 @@ def world(library):
     return {"ahu": ahu, "org": org, "sup": make_supervisor(org), "tech": make_technician(org)}
 
 
-def test_today_rows_match_what_the_serializer_showed(world):
-    """The plain today answer is the same JSON the nested serializers gave: sites, order, legs, orders, tasks."""
+def test_today_rows_match_what_the_serializer_shows(world):
+    """The today answer shows each work order as the work-order serializer does, grouped by its site."""
     orders = list(WorkOrder.objects.filter(ahu__building__site__organisation=world["org"]).order_by("due_date")[:3])
     second = make_full_unit(building=AHUFactory(building__site__organisation=world["org"]).building)
     orders.append(WorkOrderFactory(ahu=second, due_date=orders[0].due_date, title="Loose belt", reason="noise"))
     for wo in orders:
         work_order_assign(work_order=wo, assignee=world["tech"], by=world["sup"])
     day = max(wo.due_date for wo in orders)
-    old = s.VisitOutput(today_visits_for(technician=world["tech"], day=day, start=(52.0, 4.0)), many=True).data
-    new = today_visit_rows_for(technician=world["tech"], day=day, start=(52.0, 4.0))
+    new = today_visits_for(technician=world["tech"], day=day, start=(52.0, 4.0))
     assert len(new) == 2 and any(wo["tasks"] for v in new for wo in v["work_orders"])
     assert any(not wo["tasks"] for v in new for wo in v["work_orders"]), "a work order without tasks is kept"
-    assert as_json(new) == as_json(old)
+    shown = [wo for v in new for wo in v["work_orders"]]
+    instances = {
+        wo.public_id: wo for wo in work_orders_visible_to(user=world["sup"]).filter(pk__in=[o.pk for o in orders])
+    }
+    assert sorted(wo["id"] for wo in shown) == sorted(instances)
+    for wo in shown:
+        assert as_json(wo) == as_json(s.WorkOrderOutput(instances[wo["id"]]).data)
+    for visit in new:
+        site = instances[visit["work_orders"][0]["id"]].ahu.building.site
+        assert visit["site"] == {
+            "id": site.pk,
+            "code": site.code,
+            "name": site.name,
+            "address": site.address,
+            "latitude": site.latitude,
+            "longitude": site.longitude,
+        }
+        assert {wo["site"]["id"] for wo in visit["work_orders"]} == {site.pk}
 
 
 def test_today_lists_only_the_callers_own_open_work(api_client, world):

@@ -9,7 +9,7 @@ from rest_framework.utils.encoders import JSONEncoder
 
 from scheduling import shapes
 from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
-from scheduling.selectors import board_page_for, to_verify_rows, today_visit_rows_for, work_orders_visible_to
+from scheduling.selectors import board_page_for, to_verify_rows, today_visits_for, work_orders_visible_to
 from scheduling.serializers import WorkOrderOutput
 from tests.factories.inventory import ComponentFactory, make_full_unit
 from tests.factories.scheduling import WorkOrderFactory, make_supervisor, make_technician
@@ -82,7 +82,7 @@ def _board_item(wo, org, name):
 
 
 def _today_row(wo, tech, name):
-    visits = today_visit_rows_for(technician=tech, day=TODAY)
+    visits = today_visits_for(technician=tech, day=TODAY)
     shown = [w for v in visits for w in v["work_orders"] if w["id"] == wo.public_id]
     if name in ON_TODAY:
         assert len(shown) == 1, f"{name} work is on the technician's today"
