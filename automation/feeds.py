@@ -28,6 +28,7 @@ Filter loading
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as dt
 from dataclasses import dataclass
 
@@ -162,6 +163,7 @@ class FilterResult:
     day: FilterDay | None
     note: str = ""
     proposed: object = None  # the corrective work order, when the day's value called for a change
+    judged: object = None  # the day's filter-loading judgement (engineering.filters), when the bank has its specs
 
 
 def _airflow(trends: UnitTrends, at: np.ndarray) -> tuple[np.ndarray, str]:
@@ -230,16 +232,32 @@ def filter_feed(*, trends: UnitTrends, day: dt.date, meter_hours: float | None, 
                 design_q=design_q,
                 how=how,
                 meter_hours=meter_hours,
-                trends=trends,
-                by=by,
             )
         )
+    stored = [r for r in out if r.day is not None]
+    if stored:
+        # Every bank's forecast from one read of the unit's shared filter series, the day's rows included.
+        words = _forecast_words_for(banks=[r.bank for r in stored], day=day)
+        changed = []
+        for r in stored:
+            if words.get(r.bank.pk):
+                r.day.reason = f"{r.day.reason}; {words[r.bank.pk]}"
+                changed.append(r.day)
+        if changed:
+            FilterDay.objects.bulk_update(changed, ["reason"])
+        for i, r in enumerate(out):
+            judged = r.judged
+            wants_change = judged is not None and judged.verdict == Verdict.FAIL and not judged.media_bypass_suspected
+            if r.day is not None and wants_change:
+                proposed = _propose_change(bank=r.bank, row=r.day, judged=judged, trends=trends, by=by)
+                out[i] = dataclasses.replace(r, proposed=proposed)
     return out
 
 
 def _filter_day_store(
-    *, bank, day, corrected: float, samples: int, design_q: float, how: str, meter_hours, trends, by
+    *, bank, day, corrected: float, samples: int, design_q: float, how: str, meter_hours
 ) -> FilterResult:
+    """The bank's day stored and judged (its forecast words and a proposed change follow in ``filter_feed``)."""
     specs = bank.specs or {}
     verdict, reason, loading_pct = "", "", None
     judged = None
@@ -273,38 +291,40 @@ def _filter_day_store(
             "reason": reason,
         },
     )
-    forecast_words = _forecast_words(bank=bank, design_q=design_q, day=day)
-    if forecast_words:
-        row.reason = f"{row.reason}; {forecast_words}"
-        row.save(update_fields=["reason"])
-    proposed = None
-    if judged is not None and judged.verdict == Verdict.FAIL and not judged.media_bypass_suspected:
-        proposed = _propose_change(bank=bank, row=row, judged=judged, trends=trends, by=by)
-    return FilterResult(bank=bank, day=row, proposed=proposed)
+    return FilterResult(bank=bank, day=row, judged=judged)
 
 
-def _forecast_words(*, bank: Component, design_q: float, day: dt.date) -> str:
-    """The change date from the filters fitted now, in words ('' without a forecast): the shared filter series
-    (``inspections.selectors.filter_series``: the technicians' readings and these trend days, up to the end of
-    ``day``), as the charts, the unit history and the phone forecast it."""
-    from inspections.selectors import filter_series
+def _forecast_words_for(*, banks: list[Component], day: dt.date) -> dict[int, str]:
+    """{bank id: the change date from the filters fitted now, in words} (none without a forecast): the shared
+    filter series (``inspections.selectors.filter_series_for``: the technicians' readings and these trend days, up
+    to the end of ``day``), as the charts, the unit history and the phone forecast it; every bank in one read."""
+    from inspections.selectors import filter_series_for
 
     from .series import site_day_window
 
-    final = (bank.specs or {}).get("final_dp_pa")
-    if final is None:
-        return ""
-    _, end = site_day_window(ahu=bank.ahu, day=day)
-    series = filter_series(component=bank, before=end + dt.timedelta(microseconds=1))
-    try:
-        fc = filters.filter_forecast(
-            points=series.current.forecast_points(), design_airflow_m3s=series.design_airflow_m3s, final_dp_pa=final
-        )
-    except EngineeringInputError:
-        return ""
-    if fc.at_final_now:
-        return "at its final pressure drop by the trend: change now"
-    return f"change forecast {fc.date_at_final.isoformat()}" if fc.date_at_final else ""
+    wanted = [b for b in banks if (b.specs or {}).get("final_dp_pa") is not None]
+    if not wanted:
+        return {}
+    _, end = site_day_window(ahu=wanted[0].ahu, day=day)
+    all_series = filter_series_for(components=wanted, before=end + dt.timedelta(microseconds=1))
+    out: dict[int, str] = {}
+    for bank in wanted:
+        series = all_series.get(bank.pk)
+        if series is None:
+            continue
+        try:
+            fc = filters.filter_forecast(
+                points=series.current.forecast_points(),
+                design_airflow_m3s=series.design_airflow_m3s,
+                final_dp_pa=bank.specs["final_dp_pa"],
+            )
+        except EngineeringInputError:
+            continue
+        if fc.at_final_now:
+            out[bank.pk] = "at its final pressure drop by the trend: change now"
+        elif fc.date_at_final:
+            out[bank.pk] = f"change forecast {fc.date_at_final.isoformat()}"
+    return out
 
 
 def _propose_change(*, bank: Component, row: FilterDay, judged, trends: UnitTrends, by):
