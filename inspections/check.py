@@ -2,7 +2,8 @@
 
 Each reader takes one raw value, returns a clean value or ``None`` after adding
 a field error that names the field, the value and what is allowed. Nothing
-here writes; ``inspections.services.sync`` takes the clean values only.
+here writes; ``inspections.services.form_check`` parses a form with them and
+``inspections.services.sync`` stores the clean values only.
 Contract: inspections/SYNC.md.
 """
 

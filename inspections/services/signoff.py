@@ -14,8 +14,10 @@ from engineering.units import SYSTEMS
 from inventory.selectors import sites_managed_by
 
 from .. import evaluation, selectors
+from ..check import Errors
 from ..models import Amendment, Finding, Inspection
 from . import findings as findings_service
+from .form_check import Parsed, filter_points_for, reading_parse
 
 # A note or a reason a person writes: a few paragraphs (the page's inputs hold 2,000 characters).
 TEXT_MAX = 2000
@@ -54,7 +56,6 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
     closed as cleared by the amendment. The original readings and evaluations
     stay as they were.
     """
-    from .sync import Errors, Parsed, _reading  # same parsing and range rules as the sync
 
     if not selectors.amendment_allowed(user=by, inspection=inspection):
         raise PermissionDenied("only the technician who signed it or a supervisor of the site may amend it")
@@ -79,7 +80,7 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
     )
     errors, seen = Errors(), set()
     for i, raw in enumerate(readings):
-        _reading(parsed, i, raw, seen, errors)
+        reading_parse(parsed, i, raw, seen, errors)  # the sync's own parsing and range rules
     if errors:
         raise ValidationError(dict(errors))
     original = {(r.item.api_key, r.component_id): r for r in inspection.readings.select_related("item__template")}
@@ -88,7 +89,6 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
         values[(r.item.api_key, r.component.pk if r.component else None)] = evaluation.Value(
             number=r.value_si, text=r.value_text
         )
-    from .sync import _filter_points_for
 
     components = list(inspection.ahu.components.all())
     results = evaluation.evaluate(
@@ -98,7 +98,7 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
             values=values,
             slots=parsed.checklist.slots,
             finished_at=inspection.finished_at,
-            filter_points=_filter_points_for(components, inspection.finished_at),
+            filter_points=filter_points_for(components, inspection.finished_at),
         )
     )
     by_item = {}

@@ -1,5 +1,8 @@
 """The offline sync endpoint's service: store each finished form exactly once, never drop one.
 
+Each form is first checked (``inspections.services.form_check``: parsed and evaluated, nothing written), then
+stored here.
+
 Contract: inspections/SYNC.md. A form is either refused whole (nothing
 saved; the errors name the item, the value and the allowed range in the
 form's units) or stored whole in one transaction with its readings,
@@ -10,488 +13,40 @@ work order's completion.
 from __future__ import annotations
 
 import copy
-import datetime as dt
 import logging
 import uuid
-from dataclasses import dataclass, field
-from typing import Any
 
-from django.conf import settings
 from django.core.exceptions import ValidationError
 from django.core.files.base import ContentFile
 from django.db import DatabaseError, DataError, IntegrityError, transaction
-from django.utils import timezone
 
 from accounts.changes import changes_deferred, organisation_changed
 from accounts.services import audit_record, audits_deferred
 from engineering.controls import Verdict
-from engineering.errors import EngineeringInputError
-from engineering.filters import FilterPoint
-from engineering.formatting import significant_text
-from engineering.units import SYSTEMS
 from scheduling.models import WorkOrder
 
-from .. import check, checklists, evaluation, selectors
+from .. import check, selectors
 from .. import flags as form_flags
 from ..check import Errors
-from ..display import plain_message
 from ..models import Inspection, Photo, Reading
 from . import findings as findings_service
 from . import photos as photo_service
+from .form_check import (
+    MAX_FORMS,
+    Batch,
+    Parsed,
+    batch_read,
+    form_evaluate,
+    form_parse,
+    uuid_or_none,
+)
 
 logger = logging.getLogger(__name__)
-
-MAX_FORMS = 50
-MAX_TEXT = 2000
-MAX_NAME = 200
-MAX_READINGS = 2000
-CHECK_VALUES = ("ok", "not_ok", "na")
-
-
-@dataclass
-class Parsed:
-    client_uuid: uuid.UUID
-    work_order: WorkOrder
-    version_seen: int
-    unit_system: str
-    started_at: dt.datetime
-    finished_at: dt.datetime
-    checklist: selectors.Checklist
-    clock: check.Placed | None = None
-    phone_times: dict[str, Any] = field(default_factory=dict)
-    readings: list[Reading] = field(default_factory=list)
-    improbable: list[str] = field(default_factory=list)
-    photos: list[tuple[dict, photo_service.CleanImage | Photo]] = field(default_factory=list)
-    signature: dict[str, Any] = field(default_factory=dict)
-
-
-@dataclass
-class Batch:
-    """What every form of one sync request needs, read once for the request (``batch_read``).
-
-    ``work_orders``: the work orders the sender may add to, by public id (``selectors.work_orders_for_sync``);
-    ``firsts``: the forms already stored before the request, by client uuid; ``templates``: the current
-    checklist templates; ``handled``: the client uuids of forms already handled in this request (a form
-    sent twice in one request asks the database again, so its second copy answers as before)."""
-
-    work_orders: dict[uuid.UUID, WorkOrder]
-    firsts: dict[uuid.UUID, Inspection]
-    templates: dict[str, Any]
-    handled: set[uuid.UUID] = field(default_factory=set)
-    written: list = field(default_factory=list)  # files of the forms stored so far (removed if the batch fails)
-    # (the request's work order, the form's moved copy of it): copied back once the form's savepoint is released
-    moved: list = field(default_factory=list)
-
-    def form_kept(self) -> None:
-        """The form's savepoint was released: the work orders it moved are the request's from now on."""
-        for original, moved in self.moved:
-            for f in WorkOrder._meta.concrete_fields:
-                setattr(original, f.attname, getattr(moved, f.attname))
-        self.moved.clear()
-
-
-def _uuid_or_none(raw: object) -> uuid.UUID | None:
-    if not isinstance(raw, str) or len(raw) > 64:
-        return None
-    try:
-        return uuid.UUID(raw)
-    except ValueError:
-        return None
-
-
-def batch_read(*, user, forms: list) -> Batch:
-    """Read at once what the forms of a request share: a fixed number of queries for any number of forms."""
-    from ..services.library import templates_current
-
-    dicts = [f for f in forms if isinstance(f, dict)]
-    client_ids = {u for f in dicts if (u := _uuid_or_none(f.get("client_uuid"))) is not None}
-    wo_ids = {u for f in dicts if (u := _uuid_or_none(f.get("work_order"))) is not None}
-    firsts = {i.client_uuid: i for i in Inspection.objects.filter(client_uuid__in=client_ids)} if client_ids else {}
-    if wo_ids:
-        # Every work order the forms name, locked once for the request, in one order (two requests cannot wait
-        # on each other), before they are read: each form then judges the row as it stands.
-        list(WorkOrder.objects.select_for_update().filter(public_id__in=wo_ids).order_by("pk").values_list("pk"))
-    return Batch(
-        work_orders=selectors.work_orders_for_sync(user=user, public_ids=wo_ids),
-        firsts=firsts,
-        templates=templates_current(),
-    )
-
-
-def _num_text(x: float | None) -> str:
-    return "any" if x is None else significant_text(x)
-
-
-def _range_text(lo: float | None, hi: float | None, unit: str) -> str:
-    u = f" {unit}" if unit else ""
-    if lo is not None and hi is not None:
-        return f"{_num_text(lo)} to {_num_text(hi)}{u}"
-    if lo is not None:
-        return f"at least {_num_text(lo)}{u}"
-    return f"at most {_num_text(hi)}{u}"
-
-
-def _reading(parsed: Parsed, i: int, raw: object, seen: set, errors: Errors) -> None:
-    at = f"readings[{i}]"
-    if not isinstance(raw, dict):
-        errors.add(at, "each reading is an object {item, component, value, note}")
-        return
-    key, comp_code, value = raw.get("item"), raw.get("component"), raw.get("value")
-    if check.code(key) is None:
-        errors.add(f"{at}.item", f"item {check.shown(key)} is not an item key (text such as filter_check.dp)")
-        return
-    if comp_code is not None and check.code(comp_code) is None:
-        errors.add(f"{at}.component", f"component {check.shown(comp_code)} is not a label code (text) or null")
-        return
-    slot = parsed.checklist.by_key().get((key, comp_code or None))
-    if slot is None:
-        if any(k == key for k, _ in parsed.checklist.by_key()):
-            errors.add(f"{at}.component", f"item {key!r} is not asked for component {comp_code!r} on this unit")
-        else:
-            errors.add(f"{at}.item", f"item {key!r} is not on this work order's checklist")
-        return
-    if slot.key in seen:
-        errors.add(at, f"item {key!r} (component {comp_code!r}) is answered twice in this form")
-        return
-    seen.add(slot.key)
-    it = slot.item
-    label = it.label + (f" ({slot.component.name})" if slot.component else "")
-    note = check.text(raw.get("note"), f"{at}.note", errors, label=f"{label}, note", max_len=MAX_TEXT)
-    if note is None:
-        return
-    reading = Reading(item=it, component=slot.component, note=note, entered=value)
-    if value == "na" and it.kind != "text":
-        reading.value_text = "na"
-    elif it.kind == "check":
-        if not isinstance(value, str) or value not in CHECK_VALUES:
-            errors.add(f"{at}.value", f"{label}: {check.shown(value)} is not one of ok, not_ok, na")
-            return
-        reading.value_text = value
-    elif it.kind == "choice":
-        allowed = [c["value"] for c in it.choices]
-        if not isinstance(value, str) or value not in allowed:
-            errors.add(f"{at}.value", f"{label}: {check.shown(value)} is not one of {', '.join(allowed)}, na")
-            return
-        reading.value_text = value
-    elif it.kind == "text":
-        if check.text(value, f"{at}.value", errors, label=label, max_len=MAX_TEXT, required=True) is None:
-            return
-        reading.value_text = value
-    elif it.kind == "photo":
-        if not (value is None or (isinstance(value, str) and value in ("", "ok"))):
-            errors.add(f"{at}.value", f"{label}: a photo item takes no value; send the photo in 'photos'")
-            return
-        return  # photo items are answered by their photos
-    else:
-        x = check.number(value)
-        if x is not None and parsed.unit_system is None:
-            return  # a number, but in an unknown unit system (refused under unit_system): no limits to judge it by
-        if x is None and parsed.unit_system is None:
-            errors.add(f"{at}.value", f"{label}: {check.shown(value)} is not a number")
-            return
-        unit = checklists.display_unit_label(it.quantity, parsed.unit_system)
-        lim = slot.limits
-        lo = checklists.to_display(lim.get("physical_min"), it.quantity, parsed.unit_system)
-        hi = checklists.to_display(lim.get("physical_max"), it.quantity, parsed.unit_system)
-        if x is None:
-            errors.add(
-                f"{at}.value", f"{label}: {check.shown(value)} is not a number; allowed {_range_text(lo, hi, unit)}"
-            )
-            return
-        try:
-            si = checklists.from_display(x, it.quantity, parsed.unit_system)
-        except EngineeringInputError as exc:
-            errors.add(f"{at}.value", f"{label}: {plain_message(exc)}")
-            return
-        tol = 1e-9 * max(1.0, abs(si))
-        if (lim.get("physical_min") is not None and si < lim["physical_min"] - tol) or (
-            lim.get("physical_max") is not None and si > lim["physical_max"] + tol
-        ):
-            errors.add(
-                f"{at}.value", f"{label}: {_num_text(x)} {unit} is impossible; allowed {_range_text(lo, hi, unit)}"
-            )
-            return
-        reading.value_si = si
-        plo, phi = lim.get("plausible_min"), lim.get("plausible_max")
-        if (plo is not None and si < plo) or (phi is not None and si > phi):
-            reading.improbable = True
-            dlo = checklists.to_display(plo, it.quantity, parsed.unit_system)
-            dhi = checklists.to_display(phi, it.quantity, parsed.unit_system)
-            parsed.improbable.append(
-                f"{label}: {_num_text(x)} {unit} is outside the plausible "
-                f"{_range_text(dlo, dhi, unit)}; please check it"
-            )
-    parsed.readings.append(reading)
-
-
-# What a technician does when the meter was in fact replaced (the phone shows the same words, inspections.phone).
-RUN_HOURS_IF_REPLACED = "answer “not applicable” here and give the office the new meter's reading"
-
-
-def _run_hours(parsed: Parsed, raw_readings: list, errors: Errors) -> None:
-    """Refuse a run-hour value the unit's meter cannot have reached since its last reading.
-
-    The same check as every other way a reading comes in
-    (``scheduling.services.meter_reading_check``). A value below an earlier
-    reading is left to the store step, which keeps the form and flags it
-    (``meter_reading_refused``): a replaced meter reads lower, and the office
-    records the replacement.
-    """
-    from scheduling.services import meter_reading_check
-
-    reading = next((r for r in parsed.readings if r.item.api_key == "visit.run_hours" and r.value_si is not None), None)
-    if reading is None:
-        return
-    i = next(
-        (n for n, raw in enumerate(raw_readings) if isinstance(raw, dict) and raw.get("item") == "visit.run_hours"), 0
-    )
-    try:
-        meter_reading_check(
-            ahu=parsed.work_order.ahu,
-            hours=reading.value_si,
-            taken_at=parsed.finished_at,
-            label=reading.item.label,
-            if_replaced=RUN_HOURS_IF_REPLACED,
-        )
-    except ValidationError as exc:
-        for problems in exc.error_dict.values():
-            for problem in problems:
-                if problem.code != "meter_backwards":
-                    errors.add(f"readings[{i}].value", " ".join(problem.messages))
-
-
-def _photos(parsed: Parsed, raw_list: object, errors: Errors) -> None:
-    if raw_list in (None, []):
-        return
-    if not isinstance(raw_list, list):
-        errors.add("photos", "photos is a list of {client_uuid, item, component, data}")
-        return
-    by_key = parsed.checklist.by_key()
-    for i, raw in enumerate(raw_list):
-        at = f"photos[{i}]"
-        if not isinstance(raw, dict):
-            errors.add(at, "each photo is an object {client_uuid, item, component, data}")
-            continue
-        pid = check.uuid_(raw.get("client_uuid"), f"{at}.client_uuid", errors, label="photo")
-        item, comp = check.code(raw.get("item")), raw.get("component")
-        slot = by_key.get((item, comp or None)) if item and (comp is None or check.code(comp)) else None
-        if slot is None:
-            errors.add(
-                f"{at}.item",
-                f"item {check.shown(raw.get('item'))} (component {check.shown(comp)}) is not on this work order's "
-                "checklist",
-            )
-            continue
-        if pid is None:
-            continue
-        earlier = Photo.objects.filter(client_uuid=pid).first()
-        if earlier is not None:
-            if earlier.work_order_id != parsed.work_order.pk or earlier.inspection_id is not None:
-                errors.add(f"{at}.client_uuid", f"photo {pid} belongs to another work order or inspection")
-                continue
-            parsed.photos.append(({**raw, "slot": slot}, earlier))
-            continue
-        if not raw.get("data"):
-            errors.add(f"{at}.data", f"photo {pid} was not uploaded before; send its data")
-            continue
-        try:
-            data = photo_service.data_url_decode(
-                raw["data"], field=f"{at}.data", max_bytes=settings.PLENUM_PHOTO_MAX_BYTES
-            )
-            image = photo_service.image_clean(data, field=f"{at}.data")
-        except ValidationError as exc:
-            for k, msgs in exc.message_dict.items():
-                for m in msgs:
-                    errors.add(k, m)
-            continue
-        parsed.photos.append(({**raw, "slot": slot}, image))
-
-
-def _signature(parsed: Parsed, raw: object, errors: Errors) -> None:
-    if not isinstance(raw, dict):
-        errors.add("signature", "a signed form needs signature {name, image, signed_at}")
-        return
-    name = check.text(
-        raw.get("name"),
-        "signature.name",
-        errors,
-        label="The signer's name",
-        max_len=MAX_NAME,
-        required=True,
-        lines=False,
-    )
-    signed_at = check.when(raw.get("signed_at"), "signature.signed_at", errors, label="Signed at")
-    try:
-        image = photo_service.signature_clean(raw.get("image"))
-    except ValidationError as exc:
-        for k, msgs in exc.message_dict.items():
-            for m in msgs:
-                errors.add(k, m)
-        return
-    parsed.signature = {"name": (name or "").strip(), "signed_at": signed_at, "image": image}
-
-
-def _clock(parsed: Parsed, raw: dict, sent_at: object, errors: Errors) -> None:
-    """Place the phone's times on the server's timeline (``check.clock_place``); the phone's clock never refuses."""
-    phone_sent = raw.get("sent_at", sent_at)
-    sent = None
-    if phone_sent is not None:
-        sent = check.when(phone_sent, "sent_at", errors, label="Sent at (the phone's clock)")
-    signed = parsed.signature.get("signed_at")
-    if (sent is None and phone_sent is not None) or signed is None:
-        return
-    received = timezone.now()
-    placed = check.clock_place(
-        started_at=parsed.started_at,
-        finished_at=parsed.finished_at,
-        signed_at=signed,
-        sent_at=sent,
-        received_at=received,
-    )
-    parsed.phone_times = {
-        "started_at": raw.get("started_at"),
-        "finished_at": raw.get("finished_at"),
-        "signed_at": (raw.get("signature") or {}).get("signed_at"),
-        "sent_at": phone_sent,
-        "received_at": received.isoformat(),
-        "skew_from": None if placed.skew is None else ("sent_at" if placed.measured else "times"),
-    }
-    parsed.clock = placed
-    parsed.started_at, parsed.finished_at = placed.started_at, placed.finished_at
-    parsed.signature["signed_at"] = placed.signed_at
-
-
-def _json_kind(raw: object) -> str:
-    """What a JSON value is, in JSON's words (a form that is not an object says what it is instead)."""
-    if raw is None:
-        return "null"
-    if isinstance(raw, bool):
-        return "true/false"
-    if isinstance(raw, int | float):
-        return "a number"
-    if isinstance(raw, str):
-        return "text"
-    if isinstance(raw, list):
-        return "a list"
-    return type(raw).__name__
-
-
-# The words for a work order the sender may not add to, the same whether it exists or not (ids do not leak).
-UNKNOWN_WORK_ORDER = "no such work order that you may see"
-
-
-def form_parse(
-    *, user, raw: object, sent_at: object = None, position: int | None = None, batch: Batch | None = None
-) -> tuple[Parsed | None, Errors, uuid.UUID | None]:
-    """Validate one form completely, without writing anything: clean values, or errors naming each field.
-
-    Every field is judged, so one answer names all that is wrong with the form: its top-level fields, the
-    signature and every reading (readings are judged against the work order's checklist, so only once the
-    work order is one the sender may add to: nothing about another unit is said).
-    ``sent_at`` is the phone's clock when it sent the batch (the form's own
-    ``sent_at`` wins); the phone's times are placed on the server's timeline.
-    ``position`` is the form's place in its batch (1 = first), named when the form is not even an object.
-    ``batch``: what the request's forms share, read once (``batch_read``); read for this form otherwise.
-    """
-    errors = Errors()
-    if not isinstance(raw, dict):
-        which = f"form {position}" if position is not None else "the form"
-        errors.add(
-            "form", f"{which} is not an object (got {_json_kind(raw)}); each form is an object, see inspections/SYNC.md"
-        )
-        return None, errors, None
-    client_uuid = check.uuid_(raw.get("client_uuid"), "client_uuid", errors, label="The form's id")
-    wo_id = check.uuid_(raw.get("work_order"), "work_order", errors, label="Work order")
-    if batch is not None:
-        work_order = batch.work_orders.get(wo_id) if wo_id else None
-    else:
-        work_order = selectors.work_order_for_sync(user=user, public_id=wo_id) if wo_id else None
-    if wo_id and work_order is None:
-        errors.add("work_order", f"Work order {str(wo_id)!r}: {UNKNOWN_WORK_ORDER}")
-    version = check.whole(raw.get("work_order_version"), "work_order_version", errors, label="Work order version")
-    system = raw.get("unit_system")
-    if not isinstance(system, str) or system not in SYSTEMS:
-        errors.add("unit_system", f"Unit system: {check.shown(system)} is not one of {', '.join(SYSTEMS)}")
-        system = None  # numbers are then checked for being numbers only, not against their limits
-    started = check.when(raw.get("started_at"), "started_at", errors, label="Started at")
-    finished = check.when(raw.get("finished_at"), "finished_at", errors, label="Finished at")
-    readings = raw.get("readings")
-    if not isinstance(readings, list) or len(readings) > MAX_READINGS:
-        errors.add(
-            "readings",
-            f"Readings: {check.shown(readings)} is not allowed; allowed a list of at most {MAX_READINGS} readings "
-            "{item, component, value, note}",
-        )
-        readings = None
-    if work_order is None:
-        return None, errors, client_uuid
-    parsed = Parsed(
-        client_uuid=client_uuid,
-        work_order=work_order,
-        version_seen=version,
-        unit_system=system,
-        started_at=started,
-        finished_at=finished,
-        checklist=selectors.checklist_build(
-            work_order=work_order, templates=batch.templates if batch is not None else None
-        ),
-    )
-    _signature(parsed, raw.get("signature"), errors)
-    if started is not None and finished is not None:
-        _clock(parsed, raw, sent_at, errors)  # before the readings: the meter reading is dated on the server's timeline
-    seen: set = set()
-    for i, r in enumerate(readings or []):
-        _reading(parsed, i, r, seen, errors)
-    if readings is not None and system is not None and finished is not None:
-        _run_hours(parsed, readings, errors)
-    _photos(parsed, raw.get("photos"), errors)
-    return (None if errors else parsed), errors, client_uuid
 
 
 # ---------------------------------------------------------------------------
 # Storing
 # ---------------------------------------------------------------------------
-
-
-def _filter_points_for(unit, finished_at):
-    """Earlier readings of a bank's present filters, for its change forecast (``selectors.filter_series``).
-
-    ``unit``: the AHU, or its components as already loaded. Every bank of the unit is read at the first
-    question, in the fixed queries of ``filter_series_for``: a unit with 13 banks costs what one with one does."""
-    series: dict = {}
-
-    def points(component) -> list[FilterPoint]:
-        if not series:
-            components = unit if isinstance(unit, list) else list(unit.components.all())
-            series.update(selectors.filter_series_for(components=components, before=finished_at) or {None: None})
-        found = series.get(component.pk)
-        if found is None:  # not one of the unit's banks as loaded (never expected): asked on its own
-            found = selectors.filter_series(component=component, before=finished_at)
-        return found.current.forecast_points()
-
-    return points
-
-
-def _evaluate(parsed: Parsed) -> list[evaluation.Result]:
-    wo = parsed.work_order
-    values = {
-        (r.item.api_key, r.component.pk if r.component else None): evaluation.Value(
-            number=r.value_si, text=r.value_text
-        )
-        for r in parsed.readings
-    }
-    components = list(wo.ahu.components.all())
-    form = evaluation.Form(
-        ahu=wo.ahu,
-        components=components,
-        values=values,
-        slots=parsed.checklist.slots,
-        finished_at=parsed.finished_at,
-        filter_points=_filter_points_for(components, parsed.finished_at),
-    )
-    return evaluation.evaluate(form)
-
-
 def _not_ok(reading: Reading) -> bool:
     return reading.verdict == Verdict.FAIL
 
@@ -788,13 +343,13 @@ def inspection_submit(
     parsed, errors, client_uuid = form_parse(user=user, raw=form, sent_at=sent_at, position=position, batch=batch)
     if parsed is None:
         return refused_result(client_uuid, errors)
-    results = _evaluate(parsed)
+    results = form_evaluate(parsed)
     return _store(parsed, user, results, batch)
 
 
 def _first_stored(form: object) -> Inspection | None:
     """The inspection already stored under the form's client_uuid, if any."""
-    key = _uuid_or_none(form.get("client_uuid")) if isinstance(form, dict) else None
+    key = uuid_or_none(form.get("client_uuid")) if isinstance(form, dict) else None
     return Inspection.objects.filter(client_uuid=key).first() if key is not None else None
 
 

@@ -14,7 +14,7 @@ import time_machine
 from engineering.filters import corrected_pressure_drop
 from inspections.models import Evaluation
 from inspections.selectors import filter_series
-from inspections.services.sync import _filter_points_for
+from inspections.services.form_check import filter_points_for
 from reports.documents.unit_history import _filter_charts
 from tests.factories.accounts import make_person
 from tests.factories.inspections import make_visit, sync_filter_visit
@@ -80,7 +80,7 @@ def test_chart_unit_history_and_evaluation_read_one_series_across_a_filter_chang
 
     # The evaluation's forecast points for a next visit: the new set only, the same corrected numbers.
     nxt = DAY0 + dt.timedelta(days=180)
-    points = _filter_points_for(ahu, nxt)(final)
+    points = filter_points_for(ahu, nxt)(final)
     assert [
         round(corrected_pressure_drop(dp_pa=p.dp_pa, airflow_m3s=p.airflow_m3s, design_airflow_m3s=3.0), 2)
         for p in points
