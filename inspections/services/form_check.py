@@ -455,21 +455,35 @@ def filter_points_for(unit, finished_at):
     return points
 
 
-def form_evaluate(parsed: Parsed) -> list[evaluation.Result]:
-    wo = parsed.work_order
-    values = {
+def reading_values(readings) -> dict:
+    """{(item api key, component id): evaluation.Value} of parsed readings, as evaluation reads them."""
+    return {
         (r.item.api_key, r.component.pk if r.component else None): evaluation.Value(
             number=r.value_si, text=r.value_text
         )
-        for r in parsed.readings
+        for r in readings
     }
-    components = list(wo.ahu.components.all())
+
+
+def values_evaluate(*, ahu, values: dict, slots, finished_at: dt.datetime) -> list[evaluation.Result]:
+    """Judge a unit's form values finished at ``finished_at`` (the sync's form, and an amended inspection's
+    readings), with the filter banks' history up to that time for their change forecast."""
+    components = list(ahu.components.all())
     form = evaluation.Form(
-        ahu=wo.ahu,
+        ahu=ahu,
         components=components,
         values=values,
-        slots=parsed.checklist.slots,
-        finished_at=parsed.finished_at,
-        filter_points=filter_points_for(components, parsed.finished_at),
+        slots=slots,
+        finished_at=finished_at,
+        filter_points=filter_points_for(components, finished_at),
     )
     return evaluation.evaluate(form)
+
+
+def form_evaluate(parsed: Parsed) -> list[evaluation.Result]:
+    return values_evaluate(
+        ahu=parsed.work_order.ahu,
+        values=reading_values(parsed.readings),
+        slots=parsed.checklist.slots,
+        finished_at=parsed.finished_at,
+    )

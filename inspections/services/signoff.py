@@ -17,7 +17,7 @@ from .. import evaluation, selectors
 from ..check import Errors
 from ..models import Amendment, Finding, Inspection
 from . import findings as findings_service
-from .form_check import Parsed, filter_points_for, reading_parse
+from .form_check import Parsed, reading_parse, reading_values, values_evaluate
 
 # A note or a reason a person writes: a few paragraphs (the page's inputs hold 2,000 characters).
 TEXT_MAX = 2000
@@ -85,21 +85,9 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
         raise ValidationError(dict(errors))
     original = {(r.item.api_key, r.component_id): r for r in inspection.readings.select_related("item__template")}
     values = {k: evaluation.Value(number=r.value_si, text=r.value_text) for k, r in original.items()}
-    for r in parsed.readings:
-        values[(r.item.api_key, r.component.pk if r.component else None)] = evaluation.Value(
-            number=r.value_si, text=r.value_text
-        )
-
-    components = list(inspection.ahu.components.all())
-    results = evaluation.evaluate(
-        evaluation.Form(
-            ahu=inspection.ahu,
-            components=components,
-            values=values,
-            slots=parsed.checklist.slots,
-            finished_at=inspection.finished_at,
-            filter_points=filter_points_for(components, inspection.finished_at),
-        )
+    values.update(reading_values(parsed.readings))
+    results = values_evaluate(
+        ahu=inspection.ahu, values=values, slots=parsed.checklist.slots, finished_at=inspection.finished_at
     )
     by_item = {}
     for res in results:
