@@ -10,12 +10,12 @@ import uuid
 from PIL import Image
 
 from accounts.models import Role
-from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
+from scheduling.models import WorkOrder
 from scheduling.services import task_library_install
 
 from .accounts import OrganisationFactory, make_person
 from .inventory import BuildingFactory, SiteFactory, make_full_unit
-from .scheduling import WorkOrderFactory
+from .scheduling import WorkOrderFactory, add_task
 
 FINISHED = dt.datetime(2025, 3, 3, 9, 30, tzinfo=dt.UTC)
 
@@ -64,18 +64,9 @@ def make_visit(*, tasks: list[str], organisation=None, ahu=None, technician=None
 
 
 def tasks_add(wo, codes: list[str], *, key: str) -> None:
-    """The library tasks ``codes`` on ``wo`` for the whole unit, due with it (occurrence keys ``<key>:<wo>:<code>``)."""
+    """The library tasks ``codes`` on ``wo`` for the whole unit, due with it (``add_task`` for each)."""
     for code in codes:
-        WorkOrderTask.objects.create(
-            work_order=wo,
-            task=TaskDefinition.objects.get(organisation=None, code=code),
-            task_code=code,
-            ahu=wo.ahu,
-            component=None,
-            component_key=0,
-            due_date=wo.due_date,
-            occurrence_key=f"{key}:{wo.pk}:{code}",
-        )
+        add_task(wo, code, key=key)
 
 
 def component(ahu, name: str):

@@ -3,7 +3,7 @@ import datetime as dt
 import factory
 
 from accounts.models import Role
-from scheduling.models import MeterReading, WorkOrder
+from scheduling.models import MeterReading, TaskDefinition, WorkOrder, WorkOrderTask
 
 from .accounts import make_person
 from .inventory import AHUFactory
@@ -35,3 +35,23 @@ def make_technician(organisation, **fields):
 
 def make_supervisor(organisation, **fields):
     return make_person(organisation=organisation, role=Role.SUPERVISOR, **fields)
+
+
+def add_task(work_order, task, component=None, *, key: str = "test", **fields) -> WorkOrderTask:
+    """One occurrence of ``task`` on ``work_order``, due with it: ``task`` a TaskDefinition or the code of a
+    library task, for the whole unit or for ``component``; occurrence key ``<key>:<work order>:<code>:<component>``.
+    ``fields`` set the rest (``completed_at``, ``due_date``, ...)."""
+    if isinstance(task, str):
+        task = TaskDefinition.objects.get(organisation__isnull=True, code=task)
+    component_key = component.pk if component else 0
+    fields.setdefault("due_date", work_order.due_date)
+    return WorkOrderTask.objects.create(
+        work_order=work_order,
+        task=task,
+        task_code=task.code,
+        ahu=work_order.ahu,
+        component=component,
+        component_key=component_key,
+        occurrence_key=f"{key}:{work_order.pk}:{task.code}:{component_key}",
+        **fields,
+    )

@@ -22,10 +22,10 @@ from django.utils import timezone
 from accounts.models import Organisation, Role, User
 from inspections.models import Inspection
 from inventory.models import AHU, Site
-from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
+from scheduling.models import TaskDefinition, WorkOrder
 from tests.factories.accounts import OrganisationFactory, make_person
 from tests.factories.inventory import AHUFactory, BuildingFactory, SiteFactory
-from tests.factories.scheduling import WorkOrderFactory
+from tests.factories.scheduling import WorkOrderFactory, add_task
 
 NOW = dt.datetime(2025, 3, 5, 10, tzinfo=dt.UTC)
 TODAY = dt.date(2025, 3, 5)
@@ -76,9 +76,7 @@ def _work(ahu, task, *, title, due, assignee=None, planned=None, state=None) -> 
         scheduled_for=planned,
         state=state or (WorkOrder.State.ASSIGNED if assignee else WorkOrder.State.PLANNED),
     )
-    WorkOrderTask.objects.create(
-        work_order=wo, task=task, task_code=task.code, ahu=ahu, due_date=due, occurrence_key=f"{wo.pk}-{task.code}"
-    )
+    add_task(wo, task, key="board")
     return wo
 
 

@@ -9,11 +9,11 @@ from accounts.models import Organisation, Role, User
 from accounts.services import site_grant
 from inspections.services import checklist_library_install
 from inventory.models import AHU, Site
-from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
+from scheduling.models import WorkOrder
 from scheduling.services.library import task_library_install
 from tests.factories.accounts import OrganisationFactory, make_person
 from tests.factories.inventory import BuildingFactory, SiteFactory, make_full_unit
-from tests.factories.scheduling import WorkOrderFactory
+from tests.factories.scheduling import WorkOrderFactory, add_task
 
 PASSWORD = "pass-for-tests-123"
 
@@ -31,20 +31,6 @@ class Scenario:
     manager_a: User
     work_a: WorkOrder
     work_b: WorkOrder
-
-
-def add_task(wo: WorkOrder, code: str, component=None) -> WorkOrderTask:
-    task = TaskDefinition.objects.get(organisation__isnull=True, code=code)
-    return WorkOrderTask.objects.create(
-        work_order=wo,
-        task=task,
-        task_code=code,
-        ahu=wo.ahu,
-        component=component,
-        component_key=component.pk if component else 0,
-        due_date=wo.due_date,
-        occurrence_key=f"{wo.pk}-{code}-{component.pk if component else 0}",
-    )
 
 
 def make_work(*, ahu: AHU, assignee=None, title="Quarterly service", due=None, state=None) -> WorkOrder:

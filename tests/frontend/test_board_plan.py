@@ -9,11 +9,12 @@ from django.contrib.messages import get_messages
 from django.urls import reverse
 
 from scheduling.models import WorkOrder
+from tests.factories.scheduling import add_task
 
 from . import scenario as scenario_module
-from .scenario import add_task, make_work
+from .scenario import make_work
 
-pytestmark = pytest.mark.django_db
+pytestmark = [pytest.mark.django_db, pytest.mark.usefixtures("clock")]  # dates made today are the clock's
 WEDNESDAY = dt.date(2025, 3, 5)
 
 

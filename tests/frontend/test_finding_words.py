@@ -11,10 +11,9 @@ from inspections.models import Finding
 from inspections.services import inspection_sync
 from scheduling.models import WorkOrder
 from tests.factories.inspections import r, sync_form
+from tests.factories.scheduling import add_task
 
-from .scenario import add_task
-
-pytestmark = pytest.mark.django_db
+pytestmark = [pytest.mark.django_db, pytest.mark.usefixtures("clock")]  # dates made today are the clock's
 
 
 def _visit(scenario, readings):

@@ -15,8 +15,9 @@ from PIL import Image
 
 from inspections.models import Amendment, Evaluation, Finding, Inspection, Photo, Reading
 from inspections.services.findings import problem_of
-from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
+from scheduling.models import TaskDefinition, WorkOrder
 from scheduling.services.library import task_library_install
+from tests.factories.scheduling import add_task
 
 UTC = dt.UTC
 
@@ -52,17 +53,7 @@ def preventive(
         completed_at=done_at,
         **wo_fields,
     )
-    WorkOrderTask.objects.create(
-        work_order=wo,
-        task=task,
-        task_code=task.code,
-        ahu=ahu,
-        component=component,
-        component_key=component.pk if component else 0,
-        due_date=wo.due_date,
-        occurrence_key=f"{due}-{uuid.uuid4().hex[:8]}",
-        completed_at=done_at,
-    )
+    add_task(wo, task, component, key=f"{due}-{uuid.uuid4().hex[:8]}", completed_at=done_at)
     return wo
 
 

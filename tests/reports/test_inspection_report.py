@@ -9,6 +9,7 @@ from reports.services import report_request
 from scheduling.models import WorkOrder
 from tests.factories.accounts import OrganisationFactory, make_person
 from tests.factories.inventory import SiteFactory, make_full_unit
+from tests.factories.scheduling import add_task
 
 from . import builders as b
 from .conftest import pdf_pages, pdf_text, rasterise
@@ -198,17 +199,8 @@ def test_each_caution_once_in_the_safety_box(visit, supervisor, make_report):
     """
     from inspections import checklists
     from inspections.selectors import work_order_cautions
-    from scheduling.models import WorkOrderTask
 
-    WorkOrderTask.objects.create(
-        work_order=visit,
-        task=b.library()["filter_replace"],
-        task_code="filter_replace",
-        ahu=visit.ahu,
-        component_key=0,
-        due_date=visit.due_date,
-        occurrence_key="2025-03-10-change",
-    )
+    add_task(visit, b.library()["filter_replace"], key="2025-03-10-change")
     cautions = work_order_cautions(work_order=visit)
     assert checklists.LOADED_FILTERS in cautions
     report = make_report(user=supervisor, kind="inspection", parameters={"work_order": str(visit.public_id)})

@@ -7,10 +7,10 @@ import time_machine
 from django.core.exceptions import ValidationError
 
 from accounts.models import AuditEvent
-from scheduling.models import WorkOrder, WorkOrderTask
+from scheduling.models import WorkOrder
 from scheduling.selectors import technician_load
 from scheduling.services import WorkOrderConflict, work_order_assign, work_order_cancel, work_order_schedule
-from tests.factories.scheduling import WorkOrderFactory, make_supervisor, make_technician
+from tests.factories.scheduling import WorkOrderFactory, add_task, make_supervisor, make_technician
 
 pytestmark = pytest.mark.django_db
 TODAY = dt.date(2025, 3, 3)
@@ -79,9 +79,7 @@ def test_load_counts_the_planned_day_not_the_due_day(work, library):
     """The technician's load shows assigned work (a 45-minute filter change) on the day it is planned for."""
     wo, sup, tech = work["wo"], work["sup"], work["tech"]
     task = library["filter_replace"]
-    WorkOrderTask.objects.create(
-        work_order=wo, task=task, task_code=task.code, ahu=wo.ahu, due_date=wo.due_date, occurrence_key="t"
-    )
+    add_task(wo, task)
     work_order_assign(work_order=wo, assignee=tech, by=sup)
     work_order_schedule(work_order=wo, day=dt.date(2025, 3, 4), by=sup)
     (row,) = technician_load(organisation=wo.organisation, start=TODAY, days=7)

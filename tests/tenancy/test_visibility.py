@@ -25,8 +25,10 @@ from scheduling.models import WorkOrder
 from tests.factories.accounts import OrganisationFactory, make_person
 from tests.factories.inspections import image_bytes
 from tests.factories.inventory import BuildingFactory, SiteFactory, make_full_unit
-from tests.factories.scheduling import WorkOrderFactory
-from tests.tenancy.world import PDF_BYTES, _add_task, build, filter_form
+from tests.factories.scheduling import WorkOrderFactory, add_task
+from tests.tenancy.world import PDF_BYTES, build, filter_form
+
+pytestmark = pytest.mark.usefixtures("clock")  # the world's work is dated the clock's today
 
 
 @pytest.fixture
@@ -45,7 +47,7 @@ def _colleagues_visit(world):
         title="Omar's belt check at Harbour House",
         due_date=timezone.localdate(),
     )
-    _add_task(wo, "filter_check")
+    add_task(wo, "filter_check", key="world")
     photo, _ = photo_upload(user=omar, work_order=wo, client_uuid=uuid.uuid4(), data=image_bytes())
     [result] = inspection_sync(user=omar, forms=[filter_form(wo)])
     assert result["status"] in ("stored", "flagged"), result

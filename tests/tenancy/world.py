@@ -28,12 +28,12 @@ from inspections.models import Inspection, Photo
 from inspections.services import checklist_library_install, inspection_sync, photo_upload
 from inventory.models import AHU, Building, Component, ImportJob, Site
 from reports.models import Report
-from scheduling.models import CalendarFeed, TaskDefinition, WorkOrder, WorkOrderTask
+from scheduling.models import CalendarFeed, WorkOrder
 from scheduling.services import calendar_feed_issue, task_library_install
 from tests.factories.accounts import OrganisationFactory, make_person
 from tests.factories.inspections import filter_form, image_bytes
 from tests.factories.inventory import BuildingFactory, SiteFactory, make_full_unit
-from tests.factories.scheduling import WorkOrderFactory
+from tests.factories.scheduling import WorkOrderFactory, add_task
 
 PASSWORD = "pass-for-tests-123"
 # A minimal PDF body: the download only streams the stored bytes, so rendering one is not needed here.
@@ -88,19 +88,6 @@ class World:
         return [self.x]
 
 
-def _add_task(wo: WorkOrder, code: str, comp=None) -> None:
-    WorkOrderTask.objects.create(
-        work_order=wo,
-        task=TaskDefinition.objects.get(organisation__isnull=True, code=code),
-        task_code=code,
-        ahu=wo.ahu,
-        component=comp,
-        component_key=comp.pk if comp else 0,
-        due_date=wo.due_date,
-        occurrence_key=f"world:{wo.pk}:{code}",
-    )
-
-
 def _corner(*, org: Organisation, name: str, code: str, tag: str, technician: User, title: str) -> Corner:
     site = SiteFactory(organisation=org, name=name, code=code)
     building = BuildingFactory(site=site, name=f"{name} Hall", code=f"{code}-h")
@@ -114,7 +101,7 @@ def _corner(*, org: Organisation, name: str, code: str, tag: str, technician: Us
         title=title,
         due_date=timezone.localdate(),
     )
-    _add_task(wo, "filter_check")
+    add_task(wo, "filter_check", key="world")
     # A second, still open visit: the one the tenancy matrix tries to assign, move and approve.
     open_wo = WorkOrderFactory(
         ahu=ahu,
@@ -124,7 +111,7 @@ def _corner(*, org: Organisation, name: str, code: str, tag: str, technician: Us
         title=f"{title} (next)",
         due_date=timezone.localdate() + dt.timedelta(days=30),
     )
-    _add_task(open_wo, "filter_check")
+    add_task(open_wo, "filter_check", key="world")
     photo, _ = photo_upload(user=technician, work_order=wo, client_uuid=uuid.uuid4(), data=image_bytes())
     [result] = inspection_sync(user=technician, forms=[filter_form(wo)])
     assert result["status"] in ("stored", "flagged"), result
