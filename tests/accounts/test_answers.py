@@ -23,7 +23,10 @@ from scheduling.services import work_order_assign, work_order_cancel
 from tests.factories.inventory import make_full_unit
 from tests.factories.scheduling import WorkOrderFactory, make_supervisor, make_technician
 
-pytestmark = pytest.mark.django_db(transaction=True)
+pytestmark = [
+    pytest.mark.django_db(transaction=True),
+    pytest.mark.usefixtures("clock"),
+]  # dates made today are the clock's
 TODAY_URL = "/api/scheduling/today/"
 BOARD_URL = "/api/scheduling/board/"
 

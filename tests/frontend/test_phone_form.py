@@ -15,7 +15,7 @@ from inventory.models import Site
 from tests.factories.inspections import r, sync_form, tasks_add
 from tests.frontend.scenario import make_work
 
-pytestmark = pytest.mark.django_db
+pytestmark = [pytest.mark.django_db, pytest.mark.usefixtures("clock")]  # dates made today are the clock's
 
 HAS_ACCESS_NOTES = any(f.name == "access_notes" for f in Site._meta.get_fields())
 

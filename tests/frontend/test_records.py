@@ -13,7 +13,7 @@ from reports.services import report_request
 from scheduling.models import WorkOrder
 from tests.factories.inspections import r, sync_form
 
-pytestmark = pytest.mark.django_db
+pytestmark = [pytest.mark.django_db, pytest.mark.usefixtures("clock")]  # dates made today are the clock's
 REQUEST = "/records/request/"
 
 

@@ -23,6 +23,8 @@ from tests.tenancy.world import PASSWORD, World, build
 
 # NaN, ±Infinity and 1e309 as typed, NUL and control characters, years 1 and 9999, 2³¹ and 2⁶³, an opening
 # bracket (what a list becomes in a form), and far too much text.
+pytestmark = pytest.mark.usefixtures("clock")  # the world's work is dated the clock's today
+
 FORM_VALUES = (
     "nan",
     "-inf",

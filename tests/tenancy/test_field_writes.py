@@ -20,6 +20,8 @@ from tests.factories.inspections import image_bytes
 from tests.factories.scheduling import WorkOrderFactory
 from tests.tenancy.world import World, build, filter_form
 
+pytestmark = pytest.mark.usefixtures("clock")  # the world's work is dated the clock's today
+
 SYNC = "/api/inspections/sync/"
 PHOTOS = "/api/inspections/photos/"
 

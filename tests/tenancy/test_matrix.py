@@ -29,6 +29,8 @@ from reports.models import Report
 from scheduling.models import TaskDefinition, WorkOrder
 from tests.tenancy.world import Corner, World, build, filter_form
 
+pytestmark = pytest.mark.usefixtures("clock")  # the world's work is dated the clock's today
+
 ROLES = [Role.TECHNICIAN, Role.SUPERVISOR, Role.PROPERTY_MANAGER, Role.ADMIN, "anonymous"]
 REFUSED = {401, 403, 404, 405}
 TEXT_TYPES = ("text/", "application/json", "image/svg+xml", "application/javascript", "application/xml")

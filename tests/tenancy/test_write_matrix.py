@@ -42,6 +42,8 @@ from tests.tenancy.test_matrix import FILL, PARAM, _image_upload, brick_upload, 
 from tests.tenancy.world import PASSWORD, Corner, World, build, filter_form
 
 TECHNICIAN, SUPERVISOR, PM, ADMIN = Role.TECHNICIAN, Role.SUPERVISOR, Role.PROPERTY_MANAGER, Role.ADMIN
+pytestmark = pytest.mark.usefixtures("clock")  # the world's work is dated the clock's today
+
 ROLES = (TECHNICIAN, SUPERVISOR, PM, ADMIN)
 MANAGERS = frozenset({SUPERVISOR, ADMIN})
 FIELD = frozenset({TECHNICIAN, SUPERVISOR, ADMIN})  # the people who do the work; property managers read
