@@ -16,7 +16,7 @@ from scheduling.services import work_order_assign
 from tests.factories.inventory import AHUFactory, make_full_unit
 from tests.factories.scheduling import WorkOrderFactory, make_supervisor, make_technician
 
-pytestmark = pytest.mark.django_db
+pytestmark = [pytest.mark.django_db, pytest.mark.usefixtures("clock")]  # dates made today are the clock's
 TODAY = dt.date(2025, 3, 5)  # a Wednesday
 MONDAY = dt.date(2025, 3, 3)
 
