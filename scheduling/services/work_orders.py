@@ -182,7 +182,6 @@ def _transition(
         wo, fields, by=by, action="transition", changes={"from": before, "to": to_state, "reason": reason}, write=write
     )
     work_order_moved.send(sender=WorkOrder, work_order=wo, before=before, by=by)
-
     return fields
 
 
