@@ -9,7 +9,9 @@ the site's climate normals, a point's BACnet address) travels as ``plenum:`` pro
 imported into an empty organisation gives the same registry and point map.
 
 Names in the file come from the site's code, building codes, unit tags, part order and point names, never
-from database ids, so exporting the imported copy gives the same graph. ``brick_validate`` runs the Brick
+from database ids, so exporting the imported copy gives the same graph (but for ``plenum:trendHeader``, the
+name a trend CSV uses for a point, which holds the unit's label code where two units share a point name: the
+import does not read it, and a copy's units get label codes anew). ``brick_validate`` runs the Brick
 ontology's SHACL shapes (``brickschema.Graph.validate``); an import is checked by them too.
 """
 
@@ -37,6 +39,7 @@ from inventory.specs import SpecErrors, validate_specs
 
 from .models import Point
 from .services import point_create
+from .trends import point_headers
 from .vocabulary import POINT_CLASSES, component_brick_class
 
 BRICK_VERSION = "1.5"
@@ -136,8 +139,12 @@ def site_brick_graph(*, site: Site) -> brickschema.Graph:
     for part in Component.objects.filter(ahu__building__site=site).order_by("ahu_id", "position", "id"):
         parts_by_unit.setdefault(part.ahu_id, []).append(part)
     points_by_unit: dict[int, list[Point]] = {}
-    for point in Point.objects.filter(ahu__building__site=site).order_by("ahu_id", "name"):
+    site_points = list(Point.objects.filter(ahu__building__site=site).select_related("ahu").order_by("ahu_id", "name"))
+    for point in site_points:
         points_by_unit.setdefault(point.ahu_id, []).append(point)
+    # The exact name a trend CSV of this site uses for each point (for the reader; the import does not read it:
+    # a qualified name holds the unit's label code, which a copy of the site gets anew).
+    headers = point_headers(site_points)
     for building in buildings:
         ref = ns[_name("building", building.code)]
         graph.add((ref, RDF.type, REC.Building))
@@ -175,6 +182,7 @@ def site_brick_graph(*, site: Site) -> brickschema.Graph:
             graph.add((ref, RDFS.label, Literal(point.name)))
             graph.add((ref, BRICK.isPointOf, part_refs[point.component_id] if point.component_id else unit_ref))
             graph.add((ref, BRICK.hasUnit, UNIT[point.unit]))
+            graph.add((ref, PLENUM.trendHeader, Literal(headers[point.pk])))
             units_used.add(point.unit)
             _add_fields(graph, ref, point, POINT_FIELDS)
     # The QUDT vocabulary is not part of the Brick ontology: the units used are declared, as its shapes ask.

@@ -7,10 +7,14 @@ Layouts (the first row is the header; any interval, gaps allowed: an empty cell 
 - ``long``: one row per timestamp, point and value, columns ``timestamp``, ``point``, ``value``.
 
 A point is named as the automation system names it (``Point.name``); where two units of the site have a point
-of that name, ``<unit tag>/<point name>`` says which. A time without a zone is the site's (``accounts.inputs.
-check_reading_time``: not before 2000, not in the future); in the hour that a clock change repeats, the second
-pass of a time is read as the later one. Values are numbers in the point's SI unit within a plausible range
-(``vocabulary.PLAUSIBLE``); on/off points take 1/0, on/off, true/false or active/inactive.
+of that name, ``<unit label code>/<point name>`` says which (``U7KQ2MP/AHU-02.OAT``; the label code is unique, a
+unit's tag need not be), and ``<unit tag>/<point name>`` still works where the tag tells the units apart.
+``point_headers`` gives the exact header of every point of a site, for the point map page and the Brick model.
+A time without a zone is the site's (``accounts.inputs.check_reading_time``: not before 2000, not in the
+future); in the hour that a clock change repeats, the first pass of a time is read as the earlier hour and the
+second pass as the later one, and the result counts those rows (``TrendImportResult.words`` says so). Values
+are numbers in the point's SI unit within a plausible range (``vocabulary.plausible_range``); on/off points take
+1/0, on/off, true/false or active/inactive.
 
 All or nothing, like the registry's CSV import (``inventory.csv_io``): every bad row or cell is listed with its
 line, column, value and what is allowed, and then nothing is stored. A sample at a time already stored for the
@@ -35,11 +39,12 @@ from django.utils import timezone
 
 from accounts.inputs import FieldErrors, check_reading_time, parse_number
 from accounts.models import User
+from engineering.units import sensible_bound, to_display, unit_label
 from inventory.csv_io import BYTE_ORDER_MARK, ImportFailed, RowError, control_character_errors, data_rows
 from inventory.models import Site
 
 from .models import Point, TrendDay, TrendImportJob, trend_retention
-from .vocabulary import PLAUSIBLE, PointUnit
+from .vocabulary import UNIT_QUANTITY, PointUnit, plausible_range, point_class_phrase
 
 logger = logging.getLogger(__name__)
 
@@ -59,6 +64,10 @@ class TrendImportResult:
     points: int = 0
     first: dt.datetime | None = None
     last: dt.datetime | None = None
+    # Rows whose local time (no offset given) fell in the hour a clock change repeats: read as the earlier
+    # pass (before the change) and as the later one (after it).
+    repeated_earlier: int = 0
+    repeated_later: int = 0
 
     def as_dict(self) -> dict[str, Any]:
         return {
@@ -67,36 +76,101 @@ class TrendImportResult:
             "points": self.points,
             "first": self.first.isoformat() if self.first else None,
             "last": self.last.isoformat() if self.last else None,
+            "repeated_earlier": self.repeated_earlier,
+            "repeated_later": self.repeated_later,
         }
+
+    def words(self) -> str:
+        """The outcome in a sentence or two, for the page's message and a job's detail."""
+        text = (
+            f"Imported {_count(self.values, 'value')} of {_count(self.points, 'point')} "
+            f"from {_count(self.rows, 'row')}."
+        )
+        repeated = self.repeated_earlier + self.repeated_later
+        if repeated:
+            text += (
+                f" {_count(repeated, 'row')} fell in the hour repeated when the clocks went back: "
+                f"{self.repeated_earlier} read as the first pass of that hour (before the change), "
+                f"{self.repeated_later} as the second pass (after it), in the order of the file."
+            )
+        return text
+
+
+def _count(n: int, noun: str) -> str:
+    return f"{n} {noun}" if n == 1 else f"{n} {noun}s"
 
 
 # ---------------------------------------------------------------------------
 # Cells
 # ---------------------------------------------------------------------------
+def _qualified(point: Point) -> str:
+    return f"{point.ahu.label_code}/{point.name}"
+
+
+def point_headers(points) -> dict[int, str]:
+    """The exact column header (wide) or point cell (long) a trend file uses for each of a site's points (all of
+    them, with ``ahu`` loaded): the point's name where no other unit of the site has a point of that name, else
+    ``<unit label code>/<point name>``. The one rule the import, the point map page and the Brick model share."""
+    points = list(points)
+    names: dict[str, int] = defaultdict(int)
+    for point in points:
+        names[point.name] += 1
+    return {p.pk: p.name if names[p.name] == 1 else _qualified(p) for p in points}
+
+
 class _Points:
     """The site's points by the names a file may use for them."""
 
-    def __init__(self, site: Site):
+    def __init__(self, site: Site, system: str = "si"):
+        self.system = system  # the reader's units, for the allowed ranges in the errors
         self.by_name: dict[str, list[Point]] = defaultdict(list)
-        self.by_unit_name: dict[str, Point] = {}
-        for point in Point.objects.filter(ahu__building__site=site).select_related("ahu"):
+        self.by_code_name: dict[str, Point] = {}
+        by_tag_name: dict[str, list[Point]] = defaultdict(list)
+        for point in Point.objects.filter(ahu__building__site=site).select_related("ahu__building"):
             self.by_name[point.name].append(point)
-            self.by_unit_name[f"{point.ahu.tag}/{point.name}"] = point
+            self.by_code_name[_qualified(point)] = point
+            by_tag_name[f"{point.ahu.tag}/{point.name}"].append(point)
+        # A tag names a unit only where no other unit of the site with a point of that name shares it.
+        self.by_tag_name = {key: found[0] for key, found in by_tag_name.items() if len(found) == 1}
 
     def find(self, raw: str) -> tuple[Point | None, str]:
         name = raw.strip()
         found = self.by_name.get(name, [])
         if len(found) == 1:
             return found[0], ""
-        if name in self.by_unit_name:
-            return self.by_unit_name[name], ""
+        if name in self.by_code_name:
+            return self.by_code_name[name], ""
+        if name in self.by_tag_name:
+            return self.by_tag_name[name], ""
         if found:
-            tags = ", ".join(sorted(f"{p.ahu.tag}/{p.name}" for p in found))
-            return None, f"more than one unit has a point of this name; allowed: one of {tags}"
+            choices = ", ".join(
+                f"{_qualified(p)} ({p.ahu.tag} in {p.ahu.building.name})"
+                for p in sorted(found, key=lambda p: (p.ahu.building.name, p.ahu.tag, p.ahu.label_code))
+            )
+            return None, (
+                "more than one unit has a point of this name; allowed: the unit's label code, a slash and the "
+                f"point name, one of {choices}"
+            )
         return None, "no point of the site has this name; allowed: a point name of the site's point map"
 
 
-def _value(raw: str, point: Point) -> tuple[float | None, str]:
+def plausible_words(point: Point, system: str = "si") -> str:
+    """What a cell of ``point`` may hold, in the file's SI unit; for a US reader also in their unit
+    ("a number from -60 to 60 °C (-76 to 140 °F)")."""
+    low, high = plausible_range(point.brick_class, point.unit)
+    text = f"a number from {low:g} to {high:g} {PointUnit(point.unit).label}"
+    quantity = UNIT_QUANTITY.get(point.unit)
+    if system == "us" and quantity is not None:
+        shown = [to_display(value=x, quantity=quantity, system=system) for x in (low, high)]
+        low_us, high_us = (
+            sensible_bound(shown[0], upper=False, figures=3),
+            sensible_bound(shown[1], upper=True, figures=3),
+        )
+        text += f" ({low_us:g} to {high_us:g} {unit_label(quantity=quantity, system=system)})"
+    return text
+
+
+def _value(raw: str, point: Point, system: str = "si") -> tuple[float | None, str]:
     """The cell as a value in the point's SI unit, or the reason it is refused."""
     text = raw.strip()
     if point.unit == PointUnit.UNITLESS:
@@ -111,13 +185,12 @@ def _value(raw: str, point: Point) -> tuple[float | None, str]:
             return number, ""
         return None, "is not on or off; allowed: 1 or 0, on or off, true or false, active or inactive"
     number = parse_number(text)
-    low, high = PLAUSIBLE[point.unit]
-    label = PointUnit(point.unit).label
-    allowed = f"a number from {low:g} to {high:g} {label}"
+    low, high = plausible_range(point.brick_class, point.unit)
+    allowed = plausible_words(point, system)
     if number is None:
         return None, f"is not a number; allowed: {allowed}"
     if not low <= number <= high:
-        return None, f"is out of range for a {point.brick_class}; allowed: {allowed}"
+        return None, f"is out of range for {point_class_phrase(point.brick_class)}; allowed: {allowed}"
     return number, ""
 
 
@@ -131,6 +204,8 @@ class _Clock:
         self.now = now
         self.seen: set[tuple[str, str]] = set()
         self.last_raw: dict[str, str] = {}
+        self.repeated_earlier = 0
+        self.repeated_later = 0
 
     def read(self, raw: str, *, line: int, column: str, errors: list[RowError], series: str = "") -> dt.datetime | None:
         problems = FieldErrors()
@@ -139,10 +214,14 @@ class _Clock:
             errors.extend(RowError(line, column, raw, m) for m in problems.get(column, []))
             return None
         naive = raw.strip()
-        if naive != self.last_raw.get(series) and (series, naive) in self.seen and when.fold == 0:
-            later = when.replace(fold=1)
-            if later.utcoffset() != when.utcoffset():
+        later = when.replace(fold=1)
+        if later.utcoffset() != when.replace(fold=0).utcoffset():  # a local time the clock change repeats
+            if naive != self.last_raw.get(series) and (series, naive) in self.seen and when.fold == 0:
                 when = later
+            if when.utcoffset() == later.utcoffset():
+                self.repeated_later += 1
+            else:
+                self.repeated_earlier += 1
         self.seen.add((series, naive))
         self.last_raw[series] = naive
         return when.astimezone(dt.UTC)
@@ -219,7 +298,7 @@ def _read_wide(
             if not raw.strip():
                 continue
             point = columns[index]
-            value, problem = _value(raw, point)
+            value, problem = _value(raw, point, points.system)
             if problem:
                 errors.append(RowError(line, header[index], raw, problem))
             elif when is not None:
@@ -264,7 +343,7 @@ def _read_long(
                 )
             )
             continue
-        value, problem = _value(raw, point)
+        value, problem = _value(raw, point, points.system)
         if problem:
             errors.append(RowError(line, "value", raw, problem))
         elif when is not None:
@@ -295,7 +374,7 @@ def trend_import(
     text = text.removeprefix(BYTE_ORDER_MARK)
     total = data_rows(text)
     reader = csv.reader(io.StringIO(text, newline=""))
-    points = _Points(site)
+    points = _Points(site, getattr(by, "unit_system", "si") or "si")
     clock = _Clock(site, now or timezone.now())
     samples: Samples = defaultdict(dict)
     errors: list[RowError] = []
@@ -314,7 +393,7 @@ def trend_import(
         raise ImportFailed(errors)
     if rows == 0:
         raise ImportFailed([RowError(2, "", "", "the file has a header but no rows of values")])
-    result = TrendImportResult(rows=rows)
+    result = TrendImportResult(rows=rows, repeated_earlier=clock.repeated_earlier, repeated_later=clock.repeated_later)
     with transaction.atomic():
         trend_samples_store(samples, result)
         if by is not None:
@@ -500,7 +579,7 @@ def trend_import_job_run(*, job_id: int) -> TrendImportJob:
             job_id,
             status=TrendImportJob.Status.DONE,
             values_stored=result.values,
-            detail=f"imported {result.values} values of {result.points} points from {result.rows} rows",
+            detail=result.words(),
         )
 
     try:

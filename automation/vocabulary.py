@@ -85,6 +85,20 @@ def allowed_point_classes() -> str:
     return ", ".join(POINT_CLASSES)
 
 
+def point_class_label(brick_class: str) -> str:
+    """A Brick class in plain words ("Supply air temperature sensor"), the class name itself if unknown."""
+    known = POINT_CLASSES.get(brick_class)
+    return known.label if known else brick_class.replace("_", " ").capitalize()
+
+
+def point_class_phrase(brick_class: str) -> str:
+    """The class in running text with its article: "an outdoor air temperature sensor", "a CO₂ sensor"."""
+    label = point_class_label(brick_class)
+    if len(label) > 1 and label[1].islower():
+        label = label[0].lower() + label[1:]
+    return ("an " if label[:1].lower() in "aeiou" else "a ") + label
+
+
 # A component's Brick equipment class, by its kind and the spec that tells its job (Brick has no class for an
 # intake screen, a drain pan or an electric preheater: those are HVAC_Equipment, as Brick's shapes ask of an AHU's
 # parts; Plenum's kind travels with each part).
@@ -132,3 +146,35 @@ PLAUSIBLE: dict[str, tuple[float, float]] = {
     PointUnit.M3_PER_SEC: (0.0, 200.0),
     PointUnit.UNITLESS: (0.0, 1.0),
 }
+
+# Narrower ranges for the point classes whose physics bounds them well below their unit's range above. Common
+# practice unless a source is named: outdoor air holds about −60 to +60 °C anywhere a building is served (the
+# WMO's archive of weather extremes gives 56.7 °C as the highest air temperature measured, from memory); air
+# in a unit's mixing box or return duct stays within the outdoor and room range; supply air from a heating
+# coil rarely exceeds 60 °C, 90 °C leaves room for an electric heater's supply; a filter's pressure drop is
+# well under 2 500 Pa (final pressure drops in EN ISO 16890 / Eurovent practice are a few hundred pascals,
+# from memory), a small negative value is a sensor's zero drift; CO₂ sensors in ducts measure 0–10 000 ppm.
+PLAUSIBLE_BY_CLASS: dict[str, tuple[float, float]] = {
+    "Outside_Air_Temperature_Sensor": (-60.0, 60.0),
+    "Mixed_Air_Temperature_Sensor": (-60.0, 60.0),
+    "Return_Air_Temperature_Sensor": (-20.0, 60.0),
+    "Supply_Air_Temperature_Sensor": (-40.0, 90.0),
+    "Preheat_Supply_Air_Temperature_Sensor": (-60.0, 90.0),
+    "Supply_Air_Temperature_Setpoint": (0.0, 60.0),
+    "Filter_Differential_Pressure_Sensor": (-50.0, 2_500.0),
+    "Supply_Air_Static_Pressure_Sensor": (-2_500.0, 2_500.0),
+    "Supply_Air_Static_Pressure_Setpoint": (0.0, 2_500.0),
+    "CO2_Level_Sensor": (0.0, 10_000.0),
+}
+
+# The quantity of ``engineering.units`` each SI point unit is shown in (a person's °F, in. w.c., cfm).
+UNIT_QUANTITY: dict[str, str] = {
+    PointUnit.DEG_C: "temperature",
+    PointUnit.PA: "pressure",
+    PointUnit.M3_PER_SEC: "airflow",
+}
+
+
+def plausible_range(brick_class: str, unit: str) -> tuple[float, float]:
+    """The values a point of this class and SI unit may plausibly hold."""
+    return PLAUSIBLE_BY_CLASS.get(brick_class, PLAUSIBLE[unit])

@@ -124,21 +124,24 @@ def test_every_bad_row_and_cell_is_listed_and_nothing_is_stored(plant):
     assert "allowed: a date-time like 2025-03-01 08:00" in problems[(3, "timestamp")].reason
     assert "later than now" in problems[(4, "timestamp")].reason
     assert problems[(5, "AHU1.SAT")].value == "warm"
-    assert "allowed: a number from -60 to 200 °C" in problems[(5, "AHU1.SAT")].reason
-    assert "allowed: a number from -10000 to 10000 Pa" in problems[(5, "AHU1.FILT-DP")].reason
+    assert "allowed: a number from -40 to 90 °C" in problems[(5, "AHU1.SAT")].reason
+    assert "allowed: a number from -50 to 2500 Pa" in problems[(5, "AHU1.FILT-DP")].reason
     assert "allowed: 1 or 0, on or off" in problems[(5, "AHU1.SF-STS")].reason
     assert not TrendDay.objects.exists()
 
 
 def test_unknown_and_ambiguous_points_are_named(plant):
-    """A column that names no point is refused; a name two units share asks for '<tag>/<name>', which works."""
+    """A column that names no point is refused; a name two units share asks for '<label code>/<name>'; where the
+    tags differ, '<tag>/<name>' works too."""
     second = make_full_unit(building=BuildingFactory(site=plant.site, code="annex"), tag="AHU-02")
     Point.objects.create(ahu=second, name="AHU1.SAT", brick_class="Supply_Air_Temperature_Sensor", unit="DEG_C")
     text = "timestamp,point,value\n2026-01-05 08:00,AHU1.SAT,15\n2026-01-05 08:00,NOPE,1\n"
     with pytest.raises(ImportFailed) as caught:
         trend_import(site=plant.site, text=text, layout="long", now=NOW)
     reasons = {e.value: e.reason for e in caught.value.errors}
-    assert "allowed: one of AHU-01/AHU1.SAT, AHU-02/AHU1.SAT" in reasons["AHU1.SAT"]
+    first, other = plant.ahu.label_code, second.label_code
+    assert f"{first}/AHU1.SAT (AHU-01 in Main block)" in reasons["AHU1.SAT"]
+    assert f"{other}/AHU1.SAT (AHU-02 in " in reasons["AHU1.SAT"]
     assert "no point of the site" in reasons["NOPE"]
     trend_import(site=plant.site, text="timestamp,AHU-02/AHU1.SAT\n2026-01-05 08:00,15\n", layout="wide", now=NOW)
     assert TrendDay.objects.get().point.ahu == second
