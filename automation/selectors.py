@@ -61,3 +61,8 @@ def trend_import_job_for(*, user: User, public_id) -> TrendImportJob:
     if job is None:
         raise Http404("No such trend import job, or not one you may see.")
     return job
+
+
+def trend_import_jobs_for(*, user: User, site: Site, limit: int = 10) -> list[TrendImportJob]:
+    """A managed site's latest trend import jobs, newest first (what the point map page shows of them)."""
+    return list(TrendImportJob.objects.filter(site=site, site__in=sites_managed_by(user=user)).defer("source")[:limit])

@@ -28,8 +28,9 @@ from accounts.selectors import primary_role
 from automation import trends
 from automation.fault_models import Fault
 from automation.fault_selectors import fault_for, faults_visible_to, unit_trend_view
-from automation.selectors import points_visible_to, site_for
-from automation.vocabulary import POINT_CLASSES, PointUnit
+from automation.models import TrendImportJob
+from automation.selectors import points_visible_to, site_for, trend_import_jobs_for
+from automation.vocabulary import UNIT_QUANTITY, PointUnit, point_class_label
 from engineering.faults.freeze import G36_FREEZE_STAGES
 from engineering.units import to_display, unit_label
 from inspections.freeze import freeze_readiness_for
@@ -54,7 +55,8 @@ GROUPS = (
     ("airflow", "Airflow", (PointUnit.M3_PER_SEC,)),
     ("co2", "CO₂", (PointUnit.PPM,)),
 )
-QUANTITY = {PointUnit.DEG_C: "temperature", PointUnit.PA: "pressure", PointUnit.M3_PER_SEC: "airflow"}
+QUANTITY = UNIT_QUANTITY
+JOB_ERRORS_SHOWN = 200
 
 
 def _role(request) -> str | None:
@@ -63,8 +65,7 @@ def _role(request) -> str | None:
 
 def point_class_words(brick_class: str) -> str:
     """A Brick class in plain words ("Supply air temperature sensor"), the class name itself if unknown."""
-    known = POINT_CLASSES.get(brick_class)
-    return known.label if known else brick_class.replace("_", " ").capitalize()
+    return point_class_label(brick_class)
 
 
 def _shown(value: float, unit: str, system: str) -> float:
@@ -338,25 +339,35 @@ def site_points(request, pk: int):
             try:
                 text = csv_io.decode_upload(upload.read()).read()
                 if trends.trend_import_runs_in_background(text=text):
-                    trends.trend_import_job_create(
+                    job = trends.trend_import_job_create(
                         site=site, text=text, layout=layout, by=request.user, file_name=upload.name or ""
                     )
-                    messages.success(request, "The file is large: it is imported in the background.")
-                    return redirect("frontend:site_points", pk=site.pk)
+                    messages.success(
+                        request,
+                        "The file is large: it is imported in the background. Its state and, if it is refused, "
+                        "every problem are listed under “Trend imports of this site” below; reload to follow it.",
+                    )
+                    return redirect(
+                        reverse("frontend:site_points", kwargs={"pk": site.pk}) + f"?job={job.public_id}#trend-jobs"
+                    )
                 result = trends.trend_import(site=site, text=text, layout=layout, by=request.user)
             except csv_io.ImportFailed as exc:
                 errors = exc.errors
             else:
-                messages.success(
-                    request,
-                    f"Imported {result.values} values of {result.points} points from {result.rows} rows.",
-                )
+                messages.success(request, result.words())
                 return redirect("frontend:site_points", pk=site.pk)
     units: dict[int, dict] = {}
-    for point in points_visible_to(user=request.user, site=site):
+    points = list(points_visible_to(user=request.user, site=site))
+    headers = trends.point_headers(points)
+    for point in points:
         entry = units.setdefault(point.ahu_id, {"ahu": point.ahu, "points": []})
         entry["points"].append(
-            {"point": point, "words": point_class_words(point.brick_class), "address": _address(point)}
+            {
+                "point": point,
+                "header": headers[point.pk],
+                "words": point_class_words(point.brick_class),
+                "address": _address(point),
+            }
         )
     return render(
         request,
@@ -370,6 +381,31 @@ def site_points(request, pk: int):
             "layout": layout,
             "layouts": trends.LAYOUTS,
             "brick_url": reverse("automation_api:site-brick", kwargs={"pk": site.pk}),
+            "jobs": _job_rows(request, site),
         },
         status=400 if (errors or field_errors) else 200,
     )
+
+
+def _job_rows(request, site) -> list[dict]:
+    """The site's latest trend import jobs for the point map: state, rows, when (the site's clock), the outcome,
+    and a refused job's problems; the one named by ``?job=`` (the upload just started) marked."""
+    tz = zoneinfo.ZoneInfo(site.time_zone)
+    chosen = request.GET.get("job", "")
+    rows = []
+    for job in trend_import_jobs_for(user=request.user, site=site):
+        errors = job.errors if job.status == TrendImportJob.Status.REFUSED else []
+        rows.append(
+            {
+                "job": job,
+                "state": job.get_status_display(),
+                "finished": job.status in trends.FINISHED,
+                "created": job.created_at.astimezone(tz),
+                "finished_at": job.finished_at.astimezone(tz) if job.finished_at else None,
+                "errors": errors[:JOB_ERRORS_SHOWN],
+                "errors_total": len(errors),
+                "current": str(job.public_id) == chosen,
+                "api_url": reverse("automation_api:trend-job", kwargs={"public_id": job.public_id}),
+            }
+        )
+    return rows

@@ -244,7 +244,7 @@ def test_a_good_trend_file_is_imported_through_the_service(client, world):
             {"layout": "wide", "file": _file("good.csv", text)},
             follow=True,
         )
-    assert page.status_code == 200 and "Imported 2 values of 1 points from 2 rows." in page.content.decode()
+    assert page.status_code == 200 and "Imported 2 values of 1 point from 2 rows." in page.content.decode()
 
 
 def test_the_upload_form_names_a_missing_file_and_a_bad_layout(client, world):
@@ -257,6 +257,57 @@ def test_the_upload_form_names_a_missing_file_and_a_bad_layout(client, world):
     tech = make_person(organisation=world["org"], role=Role.TECHNICIAN, username="tech2")
     client.force_login(tech)
     assert client.post(reverse("frontend:site_points", kwargs={"pk": world["site"].pk}), {}).status_code in (403, 404)
+
+
+def test_a_big_bad_file_runs_as_a_job_whose_refusal_and_problems_the_point_map_lists(
+    client, world, monkeypatch, django_capture_on_commit_callbacks
+):
+    """A file over the background threshold is a job; after the redirect the page lists it, marked as the upload
+    just made, refused, with each problem's line, column, value and what is allowed; nothing is stored."""
+    from automation import trends
+
+    site, boss = world["site"], world["boss"]
+    monkeypatch.setattr(trends, "BACKGROUND_ROWS", 3)
+    before = TrendDay.objects.count()
+    rows = [f"2026-01-13 {h:02d}:00,{5 if h != 4 else 'hot'}" for h in range(6)]
+    text = "timestamp,AHU-07.MAT\n" + "\n".join(rows) + "\n2026-01-13 07:00,999\n"
+    client.force_login(boss)
+    with time_machine.travel(AFTER, tick=False):
+        with django_capture_on_commit_callbacks(execute=True):
+            posted = client.post(
+                reverse("frontend:site_points", kwargs={"pk": site.pk}),
+                {"layout": "wide", "file": _file("big.csv", text)},
+            )
+        assert posted.status_code == 302 and "?job=" in posted.url
+        page = client.get(posted.url)
+    html = page.content.decode()
+    assert "imported in the background" in html
+    assert 'data-state="refused"' in html and "data-current" in html and "big.csv" in html
+    assert "Refused: nothing imported" in html
+    assert html.count("data-job-error") == 2
+    assert "hot" in html and "is not a number; allowed: a number from -60 to 60 °C" in html
+    assert "999" in html and "is out of range for a mixed air temperature sensor" in html
+    assert TrendDay.objects.count() == before
+    # Read later without the job named, it is listed still, not marked.
+    with time_machine.travel(AFTER, tick=False):
+        html = client.get(reverse("frontend:site_points", kwargs={"pk": site.pk})).content.decode()
+    assert 'data-state="refused"' in html and "data-current" not in html
+
+
+def test_the_point_map_shows_each_points_trend_header_telling_same_tag_units_apart(client, world):
+    from automation.models import Point
+
+    site = world["site"]
+    twins = [
+        make_full_unit(building=BuildingFactory(site=site, name=f"{side} block"), tag="AHU-02")
+        for side in ("North", "South")
+    ]
+    for ahu in twins:
+        Point.objects.create(ahu=ahu, name="AHU-02.OAT", brick_class="Outside_Air_Temperature_Sensor", unit="DEG_C")
+    html = get(client, world["boss"], reverse("frontend:site_points", kwargs={"pk": site.pk})).content.decode()
+    for ahu in twins:
+        assert f"<code data-trend-header>{ahu.label_code}/AHU-02.OAT</code>" in html
+    assert "<code data-trend-header>AHU-07.MAT</code>" in html
 
 
 def _file(name: str, text: str):
