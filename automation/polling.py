@@ -35,8 +35,8 @@ from .models import BacnetDevice, Point, PointPoll
 
 # The one store of samples (day buckets merged, a sample at a stored second replaced, the point's last value and
 # its stale flag set), shared with the trend import.
-from .trends import trend_samples_store
-from .vocabulary import PLAUSIBLE, PointUnit
+from .trends import plausible_words, trend_samples_store
+from .vocabulary import PointUnit, plausible_range, point_class_phrase
 
 # A device is due this much before its interval has quite passed: beat runs each minute, and a poll that started
 # a second late should not wait a whole further minute.
@@ -168,14 +168,14 @@ def bacnet_poll(*, site_id: int | None = None, every: bool = False) -> PollResul
 
 
 def _implausible(point: Point, value: float) -> str:
-    """Why a value is not stored (outside what the point's unit may plausibly hold, as the trend import refuses
+    """Why a value is not stored (outside what a point of its class may plausibly hold, as the trend import refuses
     it: a sensor's fault code such as -999, a wrong unit), or an empty string."""
-    low, high = PLAUSIBLE[point.unit]
+    low, high = plausible_range(point.brick_class, point.unit)
     if low <= value <= high:
         return ""
     return (
-        f"the device gave {value:g} {PointUnit(point.unit).label}, out of range for {point.brick_class}; "
-        f"allowed: a number from {low:g} to {high:g} {PointUnit(point.unit).label}"
+        f"the device gave {value:g} {PointUnit(point.unit).label}, out of range for "
+        f"{point_class_phrase(point.brick_class)}; allowed: {plausible_words(point)}"
     )
 
 

@@ -329,7 +329,8 @@ def test_a_sensors_fault_code_is_not_stored(plant, poller):
         sim.stop()
     oat = plant.points["AHU1.OAT"]
     assert result.stale[oat.pk] == (
-        "the device gave -999 °C, out of range for Outside_Air_Temperature_Sensor; allowed: a number from -60 to 200 °C"
+        "the device gave -999 °C, out of range for an outdoor air temperature sensor; "
+        "allowed: a number from -60 to 60 °C"
     )
     assert _fresh("AHU1.OAT", plant).stale and _fresh("AHU1.SAT", plant).last_value == pytest.approx(12.5)
 
