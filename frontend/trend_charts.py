@@ -2,7 +2,8 @@
 
 Drawn by hand like ``frontend.charts`` (no inline style: SVG presentation attributes only, so the strict CSP
 holds); the chart scales to its box's width (``.chart svg`` in app.css) and its text is sized to stay legible
-on a 360 px phone (18 units in a 640-wide view ≈ 10 px there).
+on a 360 px phone (18 units in a 520-wide view ≈ 10 px in the ~294 px a card leaves). The value axis has
+round ticks (``nice_ticks``); a label too long for the width is squeezed to fit, never cut.
 """
 
 from __future__ import annotations
@@ -38,7 +39,32 @@ def _thin(samples: list[tuple[dt.datetime, float]]) -> list[tuple[dt.datetime, f
 
 
 def _number(v: float) -> str:
-    return f"{v:.0f}" if abs(v) >= 10 else f"{v:.1f}"
+    text = f"{v:.0f}" if abs(v) >= 10 or v == round(v) else f"{v:.1f}"
+    return "0" if float(text) == 0 else text.replace("-", "−")
+
+
+def nice_ticks(low: float, high: float, *, most: int = 5) -> list[float]:
+    """Round axis ticks spanning [low, high]: steps of 1, 2, 2.5 or 5 × 10ⁿ, at most ``most`` of them
+    (0–100 % gives 0, 25, 50, 75, 100)."""
+    import math
+
+    if not (math.isfinite(low) and math.isfinite(high)):
+        return [0.0, 1.0]
+    if high - low < 1e-9:
+        low, high = low - 1.0, high + 1.0
+    for power in range(math.floor(math.log10((high - low) / most)) - 1, 20):
+        for mantissa in (1.0, 2.0, 2.5, 5.0):
+            step = mantissa * 10.0**power
+            first, last = math.floor(low / step + 1e-9), math.ceil(high / step - 1e-9)
+            if last - first + 1 <= most:
+                return [round(k * step, 10) for k in range(first, last + 1)]
+    return [low, high]
+
+
+def _fit(text: str, size: float, room: float) -> str:
+    """``textLength`` squeezing ``text`` into ``room`` when it would run over (about 0.55 em a glyph, common
+    practice); nothing when it fits."""
+    return f' textLength="{room:.0f}" lengthAdjust="spacingAndGlyphs"' if len(text) * size * 0.55 > room else ""
 
 
 def trend_chart(
@@ -51,8 +77,8 @@ def trend_chart(
     zone: str,
     bands: list[Band] | None = None,
     limits: list[tuple[float, str]] | None = None,
-    width: int = 640,
-    height: int = 340,
+    width: int = 520,
+    height: int = 320,
 ) -> str:
     """Lines of one quantity over [start, end) with shaded ``bands`` (each with its title) and dashed
     ``limits`` (value, words). Days are labelled on the site's clock (``zone``)."""
@@ -61,9 +87,8 @@ def trend_chart(
     values = [v for line in lines for _, v in line.samples] + [v for v, _ in limits]
     if not any(line.samples for line in lines):
         return f'<p class="muted">{escape(title)}: no samples in this stretch.</p>'
-    v0, v1 = min(values), max(values)
-    pad = (v1 - v0) * 0.08 or 1.0
-    v0, v1 = v0 - pad, v1 + pad
+    ticks = nice_ticks(min(values), max(values))
+    v0, v1 = ticks[0], ticks[-1]
     fs = 18
     legend_rows = len(lines)
     left, right = 64, width - 12
@@ -95,8 +120,10 @@ def trend_chart(
             f'<line x1="{lx}" y1="{ly - 6}" x2="{lx + 30}" y2="{ly - 6}" stroke="{colour}" '
             f'stroke-width="3"{dash_attr}/>'
         )
-        text = line.label if len(line.label) <= 52 else line.label[:51] + "…"
-        parts.append(f'<text x="{lx + 36}" y="{ly}" fill="currentColor" font-size="{fs}">{escape(text)}</text>')
+        parts.append(
+            f'<text x="{lx + 36}" y="{ly}" fill="currentColor" font-size="{fs}"'
+            f"{_fit(line.label, fs, width - lx - 40)}>{escape(line.label)}</text>"
+        )
     for band in bands:
         bx0, bx1 = x(band.start), x(band.end)
         parts.append(
@@ -110,12 +137,8 @@ def trend_chart(
         if band.title in named:
             continue
         named.add(band.title)
-        # Fitted to the chart's width (squeezed, never cut); about 0.55 em a glyph (common practice).
-        fit = (
-            f' textLength="{width - 8}" lengthAdjust="spacingAndGlyphs"'
-            if (len(band.title) + 9) * fs * 0.55 > width - 8
-            else ""
-        )
+        # Fitted to the chart's width (squeezed, never cut).
+        fit = _fit("Shaded: " + band.title + " ", fs, width - 8)
         parts.append(
             f'<text x="4" y="{top - 4}" fill="#b71c1c" font-size="{fs}"{fit}>Shaded: {escape(band.title)}</text>'
         )
@@ -123,11 +146,18 @@ def trend_chart(
     parts += [
         f'<line x1="{left}" y1="{bottom}" x2="{right}" y2="{bottom}" stroke="currentColor" stroke-width="1"/>',
         f'<line x1="{left}" y1="{top}" x2="{left}" y2="{bottom}" stroke="currentColor" stroke-width="1"/>',
-        f'<text x="{left - 6}" y="{top + 14}" text-anchor="end" fill="currentColor" font-size="{fs}">'
-        f"{_number(v1)}</text>",
-        f'<text x="{left - 6}" y="{bottom}" text-anchor="end" fill="currentColor" font-size="{fs}">'
-        f"{_number(v0)}</text>",
     ]
+    for tick in ticks:
+        ty = y(tick)
+        if tick != v0:
+            parts.append(
+                f'<line x1="{left}" y1="{ty:.1f}" x2="{right}" y2="{ty:.1f}" stroke="currentColor" '
+                'stroke-opacity="0.15"/>'
+            )
+        parts.append(
+            f'<text x="{left - 6}" y="{ty + fs / 3:.1f}" text-anchor="end" fill="currentColor" font-size="{fs}" '
+            f'data-tick="{tick:g}">{_number(tick)}</text>'
+        )
     tz = zoneinfo.ZoneInfo(zone)
     first, last = start.astimezone(tz), end.astimezone(tz)
     parts += [
@@ -141,15 +171,20 @@ def trend_chart(
         dx = x(day)
         parts.append(f'<line x1="{dx:.1f}" y1="{bottom}" x2="{dx:.1f}" y2="{bottom + 8}" stroke="currentColor"/>')
         day = dt.datetime.combine(day.date() + dt.timedelta(days=1), dt.time(), tzinfo=tz)
-    for value, words in limits:
+    # Limit labels sit just above their line, pushed down so that close lines (3.3 and 1.0 °C) do not print
+    # their words on top of each other.
+    below = -1e9
+    for value, words in sorted(limits, key=lambda lim: -lim[0]):
         ly = y(value)
+        ty = max(ly - 4, below + fs)
+        below = ty
         parts.append(
             f'<line x1="{left}" y1="{ly:.1f}" x2="{right}" y2="{ly:.1f}" stroke="#b71c1c" stroke-dasharray="3 5" '
-            f'data-limit="{escape(words)}"/>'
+            f'data-limit="{escape(words)}" data-value="{value:g}"/>'
         )
         parts.append(
-            f'<text x="{right}" y="{ly - 4:.1f}" text-anchor="end" fill="#b71c1c" font-size="{fs - 2}">'
-            f"{escape(words)}</text>"
+            f'<text x="{right}" y="{ty:.1f}" text-anchor="end" fill="#b71c1c" font-size="{fs - 2}"'
+            f'{_fit(words, fs - 2, right - left)} data-limit-label="{escape(words)}">{escape(words)}</text>'
         )
     for i, line in enumerate(lines):
         samples = _thin(line.samples)

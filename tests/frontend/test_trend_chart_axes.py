@@ -1,0 +1,51 @@
+"""A trend chart's value axis has round ticks and its limit lines' words never print on top of each other."""
+
+import datetime as dt
+import itertools
+import re
+
+import pytest
+
+from frontend.trend_charts import ChartLine, nice_ticks, trend_chart
+
+START = dt.datetime(2026, 1, 12, tzinfo=dt.UTC)
+END = START + dt.timedelta(days=1)
+
+
+def _chart(values: list[float], limits=None, label: str = "Supply fan speed") -> str:
+    samples = [(START + dt.timedelta(hours=i), v) for i, v in enumerate(values)]
+    return trend_chart(
+        title="Commands", unit="%", lines=[ChartLine(label, samples)], start=START, end=END, zone="UTC", limits=limits
+    )
+
+
+@pytest.mark.parametrize(
+    ("low", "high", "ticks"),
+    [
+        (0, 100, [0, 25, 50, 75, 100]),
+        (-5, 21, [-10, 0, 10, 20, 30]),
+        (0.5, 21, [0, 10, 20, 30]),
+        (180, 260, [180, 200, 220, 240, 260]),
+        (3, 3, [2, 2.5, 3, 3.5, 4]),
+    ],
+)
+def test_ticks_are_round_and_span_the_values(low, high, ticks):
+    got = nice_ticks(low, high)
+    assert got == ticks
+    assert got[0] <= low and got[-1] >= high and len(got) <= 5
+
+
+def test_a_percent_axis_reads_0_to_100_not_the_padded_extremes():
+    svg = _chart([0, 40, 100])
+    assert re.findall(r'data-tick="([^"]+)"', svg) == ["0", "25", "50", "75", "100"]
+    assert ">108<" not in svg and "−8.0" not in svg
+
+
+def test_close_limit_lines_have_their_words_a_line_apart_and_long_labels_squeezed_not_cut():
+    limits = [(4.4, "freeze below 4.4 °C: stage 1 after 5 min"), (3.3, "freeze below 3.3 °C: stage 2"), (1.0, "x")]
+    svg = _chart([-5, 21], limits=limits)
+    ys = [float(y) for y in re.findall(r'y="([^"]+)"[^>]*data-limit-label=', svg)]
+    assert len(ys) == 3 and all(b - a >= 16 for a, b in itertools.pairwise(ys))
+    long = "Filter differential pressure sensor of the final filters bank"
+    svg = _chart([1, 2], label=long)
+    assert f'lengthAdjust="spacingAndGlyphs">{long}</text>' in svg
