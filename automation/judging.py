@@ -34,17 +34,22 @@ from django.db import transaction
 from django.db.models import Q
 from django.utils import timezone
 
+from engineering import formatting as fmt
 from engineering.errors import EngineeringInputError
 from engineering.faults import (
     G36_DEFAULTS,
+    G36_FREEZE_STAGES,
     ROLES,
     AhuFaults,
     FaultResult,
     FreezeEvent,
+    FreezeStage,
     evaluate_ahu,
     freeze_events,
     resample,
 )
+from engineering.faults.consequences import consequence_text
+from engineering.faults.freeze import stage_words
 from inventory.models import AHU, Site
 from inventory.today import today_for
 
@@ -56,7 +61,8 @@ from .series import EXTRA_ROLES, UnitTrends, site_day_window, unit_trends
 
 # Averages and the mode delay look back: the hour before the day is read with it (its evidence is not kept).
 LEAD = dt.timedelta(hours=1)
-FREEZE_SECTION = "ASHRAE Guideline 36-2018, 5.16.12 freeze protection stages (from memory)"
+# The section number is from memory (no printed copy at hand); readers see the citation without that note.
+FREEZE_SECTION = "ASHRAE Guideline 36-2018, section 5.16.12, freeze protection stages"
 FREEZE_TITLE = "Supply air near freezing"
 WINDOWS_KEPT = 100
 # What each rule's corrective work answers: (scheduling condition, the part it names, severity). A condition
@@ -259,18 +265,55 @@ def _seen_fault(r: FaultResult, day: dt.date, start: dt.datetime, end: dt.dateti
     return Seen(r.code, r.title, r.section, r.formula, windows, fault_s, r.share, consequence, reason)
 
 
-def _seen_freeze(events: tuple[FreezeEvent, ...], day: dt.date) -> Seen | None:
-    if not events:
+def _stage_of(w: dict) -> FreezeStage | None:
+    """A freeze window's stage as the rule defines it (windows kept before they carried ``for_s`` name the
+    stage and its temperature only)."""
+    if w.get("stage") is None or w.get("below_c") is None:
         return None
-    windows = [_window_json(day, e, stage=e.stage, below_c=e.below_c, lowest_c=e.lowest_c) for e in events]
-    worst = min(events, key=lambda e: (e.lowest_c, -e.duration_s))
-    stages = sorted({f"{e.stage} (below {e.below_c:g} °C for {e.for_s / 60:g} min)" for e in events})
-    reason = (
-        f"{FREEZE_TITLE}: the air fell to {worst.lowest_c:.1f} °C on {day.isoformat()}, reaching "
-        + "; ".join(stages)
+    if w.get("for_s") is not None:
+        return FreezeStage(str(w["stage"]), float(w["below_c"]), float(w["for_s"]))
+    return next((st for st in G36_FREEZE_STAGES if st.name == w["stage"] and st.below_c == w["below_c"]), None)
+
+
+def freeze_reason(windows: list[dict], system: str = "si") -> str:
+    """What a freeze fault says for its latest day, in ``system``'s units (``engineering.formatting``): the lowest
+    air, the stages reached (``engineering.faults.freeze.stage_words``, the words the chart's lines use) and
+    what follows. Kept SI in ``Fault.reason``; pages render it again for their reader."""
+    days = [w["day"] for w in windows if w.get("day")]
+    latest = [w for w in windows if w.get("day") == max(days)] if days else list(windows)
+    lows = [float(w["lowest_c"]) for w in latest if w.get("lowest_c") is not None]
+    stages = sorted(
+        {st for w in latest if (st := _stage_of(w)) is not None}, key=lambda st: (st.name, -st.below_c, st.for_s)
+    )
+    said = [stage_words(st, fmt.quantity_text(st.below_c, quantity="temperature", system=system)) for st in stages]
+    low = f" the air fell to {fmt.quantity_text(min(lows), quantity='temperature', system=system)}" if lows else ""
+    on = f" on {max(days)}" if days else ""
+    return (
+        f"{FREEZE_TITLE}:{low}{on}, reaching "
+        + "; ".join(said)
         + ". The unit stays not ready for freeze protection until its freeze-protection test passes again"
         " — found in the building-automation trends"
     )
+
+
+def fault_reason(fault: Fault, system: str) -> str:
+    """A fault's text for a reader, in their units: a freeze fault's from its windows (``freeze_reason``); a
+    rule's kept text with its consequence said again from the kept values
+    (``engineering.faults.consequences.consequence_text``)."""
+    if fault.code == Fault.FREEZE and fault.windows:
+        return freeze_reason(fault.windows, system)
+    summary = str((fault.consequence or {}).get("summary") or "")
+    if summary and summary in fault.reason:
+        return fault.reason.replace(summary, consequence_text(fault.code, fault.consequence, system))
+    return fault.reason
+
+
+def _seen_freeze(events: tuple[FreezeEvent, ...], day: dt.date) -> Seen | None:
+    if not events:
+        return None
+    windows = [
+        _window_json(day, e, stage=e.stage, below_c=e.below_c, for_s=e.for_s, lowest_c=e.lowest_c) for e in events
+    ]
     return Seen(
         Fault.FREEZE,
         FREEZE_TITLE,
@@ -280,7 +323,7 @@ def _seen_freeze(events: tuple[FreezeEvent, ...], day: dt.date) -> Seen | None:
         float(sum(e.duration_s for e in events)),
         None,
         {},
-        reason,
+        freeze_reason(windows),
     )
 
 

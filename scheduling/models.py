@@ -346,6 +346,43 @@ class WorkOrder(models.Model):
         return self.overdue_on is None or self.overdue_on <= today
 
     @property
+    def overdue_from(self) -> dt.date | None:
+        """First day this work counts as overdue (:meth:`is_overdue_on`): ``overdue_on``, the day after its grace
+        window, and never before the day after its due date."""
+        if self.due_date is None:
+            return None
+        after_due = self.due_date + dt.timedelta(days=1)
+        return max(self.overdue_on, after_due) if self.overdue_on else after_due
+
+    def days_overdue_on(self, today: dt.date) -> int:
+        """Days overdue on ``today`` (1 on :attr:`overdue_from`); 0 when not overdue."""
+        if not self.is_overdue_on(today) or self.overdue_from is None:
+            return 0
+        return (today - self.overdue_from).days + 1
+
+    def due_words_on(self, today: dt.date) -> str:
+        """The due date as every page says it, on ``today`` (the site's date): "due 4 Sep 2026"; past due but
+        inside its grace window "due 19 Nov 2026, in grace until 3 Dec 2026"; past that "due 4 Sep 2026,
+        76 days overdue (since 19 Sep 2026)". Empty for closed work or work with no due date."""
+        if self.state not in self.OPEN_STATES or self.due_date is None or self.overdue_from is None:
+            return ""
+        words = f"due {self.due_date:%-d %b %Y}"
+        days = self.days_overdue_on(today)
+        if days:
+            return f"{words}, {days} day{'s' if days != 1 else ''} overdue (since {self.overdue_from:%-d %b %Y})"
+        if self.due_date < today:
+            last = self.overdue_from - dt.timedelta(days=1)
+            return f"{words}, in grace until {last:%-d %b %Y}"
+        return words
+
+    @property
+    def due_words(self) -> str:
+        """:meth:`due_words_on` the site's today."""
+        if self.state not in self.OPEN_STATES:
+            return ""
+        return self.due_words_on(today_for(self.ahu.building.site))
+
+    @property
     def is_overdue(self) -> bool:
         """:meth:`is_overdue_on` the site's today (its own calendar): every page says "overdue" from here."""
         if self.state not in self.OPEN_STATES:

@@ -124,12 +124,22 @@ def _overdue(today: dt.date) -> Q:
     return Q(due_date__lt=today) & (Q(overdue_on__isnull=True) | Q(overdue_on__lte=today))
 
 
-def _board_rows(*, organisation, week_start: dt.date, today: dt.date) -> QuerySet[WorkOrder]:
+def _on_week(week_start: dt.date, today: dt.date) -> Q:
+    """Work on the week starting ``week_start``: its day (:func:`_planned_within`) in the week; on the week
+    holding ``today`` also open work whose day is already behind it (past due but still inside its grace
+    window, or planned for a day gone by), so late work never drops off the board before it turns overdue."""
     week_end = week_start + dt.timedelta(days=7)
+    rows = _planned_within(week_start, week_end)
+    if week_start <= today < week_end:
+        rows |= Q(scheduled_for__lt=week_start) | Q(scheduled_for__isnull=True, due_date__lt=week_start)
+    return rows
+
+
+def _board_rows(*, organisation, week_start: dt.date, today: dt.date) -> QuerySet[WorkOrder]:
     return (
         WorkOrder.objects.filter(organisation=organisation, state__in=WorkOrder.OPEN_STATES)
         .exclude(approval__in=[WorkOrder.Approval.PENDING, WorkOrder.Approval.REJECTED])
-        .filter(_planned_within(week_start, week_end) | _overdue(today))
+        .filter(_on_week(week_start, today) | _overdue(today))
     )
 
 
@@ -153,11 +163,12 @@ def _board_section(*, week_start: dt.date, today: dt.date) -> Case:
     """The board's one rule, as SQL so counts and pages come from the database: overdue once past due
     and past the grace window (see :func:`_overdue`), whatever week it is planned for; else due (unassigned)
     or assigned in the week of its day: the day it is planned for, else the day it is due
-    (:func:`_planned_within`); else NULL (on no section).
+    (:func:`_planned_within`), work whose day is behind this week carried to the week of ``today``
+    (:func:`_on_week`); else NULL (on no section).
 
     Both the board page and :func:`board_for` (the board screen) annotate with this; there is no
     other copy of the rule."""
-    in_week = _planned_within(week_start, week_start + dt.timedelta(days=7))
+    in_week = _on_week(week_start, today)
     return Case(
         When(_overdue(today), then=Value("overdue")),
         When(in_week & Q(assignee__isnull=False), then=Value("assigned")),
@@ -218,7 +229,8 @@ def board_page_for(
     for name, day, n in groups:
         totals[name] += n
         if day is not None:
-            per_day[day][name] += n
+            # Work carried from a day behind this week (see _on_week) is due now: counted on today.
+            per_day[day if day >= week_start else today][name] += n
     wanted = [section] if section else list(BOARD_SECTIONS)
     shown: dict[str, list[dict]] = {name: [] for name in BOARD_SECTIONS}
     if limit and any(totals[name] > offset for name in wanted):

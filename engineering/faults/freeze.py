@@ -49,6 +49,33 @@ G36_FREEZE_STAGES: tuple[FreezeStage, ...] = (
 )
 
 
+def stage_lines(stages: Sequence[FreezeStage] = G36_FREEZE_STAGES) -> tuple[tuple[float, tuple[FreezeStage, ...]], ...]:
+    """The stages' temperatures, warmest first, each with the stages judged below it (stage 2 and stage 3
+    share 3.3 °C with different times): what a chart draws as one limit line per temperature."""
+    by_temp: dict[float, list[FreezeStage]] = {}
+    for stage in stages:
+        by_temp.setdefault(stage.below_c, []).append(stage)
+    return tuple((t, tuple(by_temp[t])) for t in sorted(by_temp, reverse=True))
+
+
+def stage_words(stage: FreezeStage, temperature: str) -> str:
+    """A stage as the text and the chart both say it: "stage 3 (below 3.3 °C for 15 min)", the temperature
+    already in the reader's units."""
+    return f"{stage.name} (below {temperature} for {stage.for_s / 60:g} min)"
+
+
+def stage_line_words(temperature: str, stages: Sequence[FreezeStage]) -> str:
+    """One temperature's limit line on a chart: "freeze below 3.3 °C: stage 2 after 5 min, stage 3 after 15 min"."""
+    return f"freeze below {temperature}: " + ", ".join(f"{st.name} after {st.for_s / 60:g} min" for st in stages)
+
+
+# What a freeze event risks, said where a rule's consequence is (the trends give no number for it).
+FREEZE_RISK = (
+    "risk of coil freeze damage (a burst coil, water in the unit); check the freeze protection, the preheat and the "
+    "outdoor-air damper before the next frost"
+)
+
+
 @dataclass(frozen=True)
 class FreezeEvent:
     stage: str

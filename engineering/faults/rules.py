@@ -22,7 +22,8 @@ import numpy as np
 from engineering.faults.states import OperatingState as OS
 from engineering.faults.thresholds import FaultThresholds
 
-SECTION = "ASHRAE Guideline 36-2018, 5.16.14 (from memory)"
+# The citation readers see; the section number, like the formulas, is from memory (see the module's note).
+SECTION = "ASHRAE Guideline 36-2018, section 5.16.14"
 ALL_RUNNING = (OS.HEATING, OS.FREE_COOLING, OS.MECHANICAL_AND_ECONOMIZER, OS.MECHANICAL_MINIMUM_OA, OS.OTHER)
 
 Points = Mapping[str, np.ndarray]

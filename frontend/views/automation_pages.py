@@ -28,10 +28,13 @@ from accounts.selectors import primary_role
 from automation import trends
 from automation.fault_models import Fault
 from automation.fault_selectors import fault_for, faults_visible_to, unit_trend_view
+from automation.judging import fault_reason
 from automation.models import TrendImportJob
 from automation.selectors import points_visible_to, site_for, trend_import_jobs_for
 from automation.vocabulary import UNIT_QUANTITY, PointUnit, point_class_label
-from engineering.faults.freeze import G36_FREEZE_STAGES
+from engineering import formatting as fmt
+from engineering.faults.consequences import consequence_text
+from engineering.faults.freeze import FREEZE_RISK, G36_FREEZE_STAGES, stage_line_words, stage_lines
 from engineering.units import to_display, unit_label
 from inspections.freeze import freeze_readiness_for
 from inventory import csv_io
@@ -129,6 +132,42 @@ def _stretch(request, *, zone: str, fault: Fault | None) -> tuple[dt.date, int, 
     return start, days, problems
 
 
+# A point's quantity in a few words, after its part's name on a chart's legend ("Cooling coil valve",
+# "Final filters pressure drop"); a class not here is named by its own words without "sensor".
+SHORT_QUANTITY = {
+    "Filter_Differential_Pressure_Sensor": "pressure drop",
+    "Fan_Speed_Command": "speed",
+    "Fan_Status": "running",
+    "Damper_Position_Command": "position",
+    "Damper_Position_Sensor": "position feedback",
+    "Valve_Position_Command": "valve",
+    "Preheat_Supply_Air_Temperature_Sensor": "leaving air",
+    "Freeze_Status": "frost thermostat",
+}
+
+
+def point_short_name(point) -> str:
+    """A point as a chart's legend names it, short enough for a phone: the part it belongs to and its quantity
+    where the class belongs to a part (the cooling and heating coil valves are told apart), else the class's
+    words without "sensor" ("Supply air temperature")."""
+    quantity = SHORT_QUANTITY.get(point.brick_class)
+    if point.component_id and quantity:
+        return f"{point.component.name} {quantity}"
+    words = point_class_words(point.brick_class)
+    return words.removesuffix(" sensor") if words.endswith(" sensor") else words
+
+
+def freeze_limits(system: str) -> list[tuple[float, str]]:
+    """The freeze stages' temperatures as a chart's limit lines in ``system``'s units, from the stages the rule
+    judges with (``engineering.faults.freeze``): one line per temperature naming every stage judged below it."""
+    out = []
+    for below_c, stages in stage_lines(G36_FREEZE_STAGES):
+        shown = to_display(value=below_c, quantity="temperature", system=system)
+        words = stage_line_words(fmt.quantity_text(below_c, quantity="temperature", system=system), stages)
+        out.append((shown, words))
+    return out
+
+
 def _charts(view, *, system: str, zone: str) -> list[dict]:
     bands = [Band(start=w["start"], end=w["end"], title=w["title"]) for w in view.windows]
     freeze = any(w["code"] == Fault.FREEZE for w in view.windows)
@@ -137,19 +176,10 @@ def _charts(view, *, system: str, zone: str) -> list[dict]:
         lines = [line for line in view.lines if line.point.unit in units]
         if not lines:
             continue
-        limits: list[tuple[float, str]] = []
-        if key == "temperatures" and freeze:
-            seen = set()
-            for stage in G36_FREEZE_STAGES:
-                if stage.below_c in seen:
-                    continue
-                seen.add(stage.below_c)
-                shown = to_display(value=stage.below_c, quantity="temperature", system=system)
-                label = unit_label(quantity="temperature", system=system)
-                limits.append((shown, f"freeze {stage.name}: below {shown:.1f} {label}"))
+        limits = freeze_limits(system) if key == "temperatures" and freeze else []
         chart_lines = [
             ChartLine(
-                label=f"{line.point.name} — {point_class_words(line.point.brick_class)}",
+                label=point_short_name(line.point),
                 samples=[(t, _shown(v, line.point.unit, system)) for t, v in line.samples],
             )
             for line in lines
@@ -168,6 +198,18 @@ def _charts(view, *, system: str, zone: str) -> list[dict]:
     return out
 
 
+def distinct_windows(windows: list[dict]) -> list[dict]:
+    """The evidence windows once each: a freeze run reaching three stages is one window of one fault."""
+    seen: set[tuple] = set()
+    out = []
+    for w in windows:
+        key = (w["fault"], w["start"], w["end"])
+        if key not in seen:
+            seen.add(key)
+            out.append(w)
+    return out
+
+
 def _trend_page(request, *, ahu, fault: Fault | None):
     site = ahu.building.site
     system = request.user.unit_system
@@ -176,6 +218,7 @@ def _trend_page(request, *, ahu, fault: Fault | None):
     start = dt.datetime.combine(first, dt.time(), tzinfo=tz)
     end = dt.datetime.combine(first + dt.timedelta(days=days), dt.time(), tzinfo=tz)
     view = unit_trend_view(ahu=ahu, start=start, end=end)
+    view.windows[:] = distinct_windows(view.windows)
     faults = list(faults_visible_to(user=request.user, ahu_id=ahu.pk, open_only=False)[:20])
     return render(
         request,
@@ -225,8 +268,11 @@ def fault_detail(request, pk: int):
 
 
 def _consequence_words(fault: Fault, system: str) -> str:
-    summary = (fault.consequence or {}).get("summary", "")
-    return str(summary)
+    """The fault's consequence in the reader's units; where the trends gave no number, what the rule's fault
+    risks (a freeze event: coil freeze damage)."""
+    if fault.code == Fault.FREEZE:
+        return FREEZE_RISK
+    return consequence_text(fault.code, fault.consequence, system)
 
 
 def _fault_row(fault: Fault, system: str) -> dict:
@@ -235,6 +281,7 @@ def _fault_row(fault: Fault, system: str) -> dict:
         "fault": fault,
         "share": None if fault.share is None else round(fault.share * 100),
         "consequence": _consequence_words(fault, system),
+        "reason": fault_reason(fault, system),
         "work": wo,
         "work_words": wo.state_words if wo else "",
         "work_url": (

@@ -50,11 +50,12 @@ def progress_words(wo: WorkOrder | None, *, finding: Finding) -> str:
     # "overdue" comes from WorkOrder.state_words (the site's calendar, as the board counts it), said last.
     overdue = ", overdue" if wo.is_overdue else ""
     words = wo.state_words.removesuffix(overdue)
-    if wo.is_open and wo.approval not in (WorkOrder.Approval.PENDING, WorkOrder.Approval.REJECTED):
-        if wo.scheduled_for is not None:
-            words += f" for {local_date_of(wo.scheduled_for)}"
-        elif wo.due_date is not None:
-            words += f", due {local_date_of(wo.due_date)}"
+    decided = wo.approval not in (WorkOrder.Approval.PENDING, WorkOrder.Approval.REJECTED)
+    if wo.is_open and decided and wo.scheduled_for is not None:
+        words += f" for {local_date_of(wo.scheduled_for)}"
+    if wo.is_open and wo.approval != WorkOrder.Approval.REJECTED and wo.due_words:
+        # The due date and how late, as the board, the site page and the PDF say it (WorkOrder.due_words_on).
+        return f"{words}, {wo.due_words}"
     return words + overdue
 
 

@@ -116,6 +116,7 @@ def board(request):
             wo.plan_default = wo.scheduled_for or weekday_on_or_near(
                 max(wo.due_date, wo.site_today), today=wo.site_today
             )
+            wo.due_text = wo.due_words_on(wo.site_today) if wo.due_date < wo.site_today else ""
             wo.kept_assignee = None
             if changing and str(wo.public_id) == changing:
                 wo.plan_default = kept_day or wo.plan_default
@@ -300,7 +301,7 @@ def _corrective_page(request, pending, *, errors=None, typed=None, status=200):
     """The proposals awaiting approval, each with the findings it would fix in the reader's units."""
     proposals = list(
         pending.order_by("due_date")
-        .select_related("ahu__building__site")
+        .select_related("ahu__building__site", "component")
         .prefetch_related(
             Prefetch(
                 "source_findings",
@@ -317,6 +318,9 @@ def _corrective_page(request, pending, *, errors=None, typed=None, status=200):
             f.reason_display = reason_for(evaluation=f, unit_system=request.user.unit_system)
         wo.field_errors = (errors or {}).get(str(wo.public_id), [])
         wo.typed_reason = (typed or {}).get(str(wo.public_id), "")
+        # Approval moves a due date already behind the site's today to that day (corrective_work_order_approve).
+        site_today = today_for(wo.ahu.building.site)
+        wo.due_on_approval = site_today if wo.due_date < site_today else None
     return render(request, "frontend/supervisor/corrective.html", {"pending": proposals}, status=status)
 
 

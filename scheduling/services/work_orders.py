@@ -375,7 +375,9 @@ def corrective_work_order_propose(
 
     Due on the day the fault was seen (``observed_on``, the visit's day on the site's clock; a form sent
     days later from a phone that was offline does not postpone the repair), else today; its grace follows
-    its priority.
+    its priority. Work awaiting approval that is approved after that day becomes due on the approval day
+    (:func:`corrective_work_order_approve`): nobody may start it before, so it is not late the moment it is
+    approved; its first-seen day stays in its reason.
 
     Awaits a supervisor's approval unless ``approved``. With a ``condition_code``
     the library tasks raised by that condition (e.g. ``filter_loaded`` →
@@ -509,7 +511,16 @@ def corrective_work_order_approve(*, work_order: WorkOrder, by, expected_version
             }
         )
     wo.approval = WorkOrder.Approval.APPROVED
-    _save(wo, ["approval"], by=by, action="corrective_approve", changes={"approval": "approved"})
+    changes: dict[str, object] = {"approval": "approved"}
+    fields = ["approval"]
+    today = today_for(wo.ahu.building.site)
+    if wo.due_date < today:
+        # Due from the approval day with its priority's grace (see corrective_work_order_propose).
+        changes["due_date"] = [wo.due_date.isoformat(), today.isoformat()]
+        wo.due_date, wo.overdue_on = today, overdue_day(today, _grace(wo.priority))
+        fields += ["due_date", "overdue_on"]
+        wo.tasks.filter(due_date__lt=today).update(due_date=today)
+    _save(wo, fields, by=by, action="corrective_approve", changes=changes)
     if wo.priority == WorkOrder.Priority.URGENT:
         _email_supervisors_on_commit(
             wo.organisation_id, f"Urgent corrective work approved: {wo.ahu.tag}", f"{wo.title}\n\n{wo.reason}"

@@ -8,6 +8,8 @@ its corrective work. The clock is set for each step; nothing depends on today's 
 """
 
 import datetime as dt
+import itertools
+import re
 import zoneinfo
 
 import pytest
@@ -314,3 +316,109 @@ def _file(name: str, text: str):
     from django.core.files.uploadedfile import SimpleUploadedFile
 
     return SimpleUploadedFile(name, text.encode(), content_type="text/csv")
+
+
+# ---------------------------------------------------------------------------
+# A freeze event's evidence: the stages drawn from the rule's own definitions, each window once, the text in
+# the reader's units, the source cited without working notes.
+# ---------------------------------------------------------------------------
+
+FREEZE_DAY = dt.date(2026, 1, 20)
+
+
+def freeze_day_csv(tag: str, day: dt.date) -> str:
+    """A heating day whose supply air falls to 0.5 °C from 02:00 to 03:30 (site time): below every freeze stage's
+    temperature (4.4, 3.3 and 1.0 °C) for longer than each stage's time."""
+    names = list(HEATING)
+    lines = ["timestamp," + ",".join(f"{tag}.{n}" for n in names)]
+    t = dt.datetime.combine(day, dt.time())
+    while t.date() == day:
+        cold = dt.time(2) <= t.time() < dt.time(3, 30)
+        values = HEATING | ({"SAT": 0.5} if cold else {})
+        lines.append(f"{t:%Y-%m-%d %H:%M}," + ",".join(str(values[n]) for n in names))
+        t += dt.timedelta(minutes=15)
+    return "\n".join(lines) + "\n"
+
+
+@pytest.fixture
+def freeze_world(world):
+    site, ahu = world["site"], world["ahu"]
+    with time_machine.travel(dt.datetime(2026, 1, 21, 1, tzinfo=dt.UTC), tick=False):
+        trend_import(site=site, text=freeze_day_csv(ahu.tag, FREEZE_DAY), layout="wide")
+        unit_day_judge(ahu=ahu, day=FREEZE_DAY)
+    world["freeze"] = Fault.objects.get(ahu=ahu, code=Fault.FREEZE)
+    return world
+
+
+def _freeze_page(client, world, *, system: str = "si") -> str:
+    boss: User = world["boss"]
+    boss.unit_system = system
+    boss.save(update_fields=["unit_system"])
+    client.force_login(boss)
+    with time_machine.travel(dt.datetime(2026, 1, 22, 11, tzinfo=dt.UTC), tick=False):
+        page = client.get(reverse("frontend:fault", kwargs={"pk": world["freeze"].pk}))
+    assert page.status_code == 200
+    return page.content.decode()
+
+
+def _reason(html: str) -> str:
+    return re.search(r"<p data-fault-reason>(.*?)</p>", html, re.S).group(1)
+
+
+def test_the_freeze_charts_stage_lines_are_the_rules_own_thresholds_with_distinct_labels_apart(client, freeze_world):
+    from engineering.faults.freeze import G36_FREEZE_STAGES
+
+    html = _freeze_page(client, freeze_world)
+    limits = dict(re.findall(r'data-limit="([^"]+)" data-value="([^"]+)"', html))
+    assert sorted(float(v) for v in limits.values()) == sorted({st.below_c for st in G36_FREEZE_STAGES})
+    assert len(set(limits)) == len(limits) == 3  # one line per temperature, each with its own words
+    # Every stage is on its temperature's line with its time, as the text says it.
+    for st in G36_FREEZE_STAGES:
+        [words] = [w for w, v in limits.items() if float(v) == st.below_c]
+        assert f"{st.name} after {st.for_s / 60:g} min" in words
+    reason = _reason(html)
+    assert "stage 3 (below 3.3 °C for 15 min)" in reason and "stage 3 (below 1.0 °C for 5 min)" in reason
+    assert "freeze below 3.3 °C: stage 2 after 5 min, stage 3 after 15 min" in limits
+    # The labels' baselines are at least a line of text apart, so none prints over another on a phone.
+    ys = sorted(float(y) for y in re.findall(r'<text x="[^"]+" y="([^"]+)"[^>]*data-limit-label=', html))
+    assert len(ys) == 3 and all(b - a >= 16 for a, b in itertools.pairwise(ys))
+
+
+def test_a_freeze_window_is_listed_once_and_the_source_has_no_working_notes(client, freeze_world):
+    html = _freeze_page(client, freeze_world)
+    listed = re.search(r"<ul data-windows>(.*?)</ul>", html, re.S).group(1)
+    items = re.findall(r"<li>(.*?)</li>", listed)
+    assert len(items) == len(set(items))
+    assert sum("(FREEZE)" in i for i in items) == 1  # stages 1, 2 and 3 over one run: one window
+    temperatures = re.search(r'data-chart="temperatures">(.*?)</figure>', html, re.S).group(1)
+    assert temperatures.count('data-band="Supply air near freezing"') == 1
+    assert "from memory" not in html
+    assert "ASHRAE Guideline 36-2018, section 5.16.12" in html
+    faults = get(client, freeze_world["boss"], reverse("frontend:faults")).content.decode()
+    assert "from memory" not in faults and "ASHRAE Guideline 36-2018, section 5.16.14" in faults
+
+
+def test_a_us_reader_reads_the_freeze_text_in_fahrenheit_like_its_chart(client, freeze_world):
+    html = _freeze_page(client, freeze_world, system="us")
+    reason = _reason(html)
+    assert "°F" in reason and "°C" not in reason
+    assert "stage 3 (below 37.9 °F for 15 min)" in reason and "the air fell to 32.9 °F" in reason
+    assert "freeze below 37.9 °F: stage 2 after 5 min, stage 3 after 15 min" in html
+
+
+def test_the_freeze_fault_says_its_risk_where_no_number_can_be_given(client, freeze_world):
+    from engineering.faults.freeze import FREEZE_RISK
+
+    html = get(client, freeze_world["boss"], reverse("frontend:faults")).content.decode()
+    assert FREEZE_RISK in html
+    assert "risk of coil freeze damage" in _freeze_page(client, freeze_world)
+
+
+def test_the_legend_tells_the_coil_valves_apart_and_names_points_short(client, world):
+    html = get(client, world["boss"], reverse("frontend:fault", kwargs={"pk": world["fault"].pk})).content.decode()
+    assert "Cooling coil valve" in html and "Heating coil valve" in html
+    assert "Coil valve position command</text>" not in html
+    assert "Supply fan speed" in html and "Outdoor-air damper position" in html and "…</text>" not in html
+    # The commands chart's axis: round percent ticks, not the data's padded extremes.
+    commands = re.search(r'data-chart="commands">(.*?)</figure>', html, re.S).group(1)
+    assert re.findall(r'data-tick="([^"]+)"', commands) == ["0", "25", "50", "75", "100"]
