@@ -42,6 +42,19 @@ LOADED_FILTERS = (
     "so the dust they hold stays in."
 )
 GENERAL_CAUTIONS = [LOCKOUT, HOT_COILS, LOCAL_CODES]
+# Water and steam coils: common practice (no published source), as the other cautions here.
+PRESSURISED_COILS = (
+    "Coils and their pipework hold hot water or steam under pressure: close and lock both isolating valves "
+    "and let the pressure off before opening a joint, vent or drain."
+)
+# The cautions of work on one kind of part, where repair work is proposed or looked into (before its checklist
+# exists); any other kind sits in the airstream beside the fan, so lockout first.
+COMPONENT_CAUTIONS: dict[str, list[str]] = {
+    "fan": [LOCKOUT, RUNNING_FAN],
+    "electric_preheater": [LOCKOUT, ELECTRIC, HOT_COILS],
+    "coil": [LOCKOUT, HOT_COILS, PRESSURISED_COILS],
+    "humidifier": [LOCKOUT, HOT_COILS],
+}
 
 
 def cautions_once(*, lists: list[list[str]]) -> list[str]:

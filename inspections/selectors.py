@@ -356,6 +356,22 @@ def checklist_cautions(*, checklist: Checklist) -> list[str]:
     return checklists.cautions_once(lists=[*(t.cautions for t in checklist.templates), checklists.GENERAL_CAUTIONS])
 
 
+def repair_cautions(*, component_kind: str | None, condition_code: str = "") -> list[str]:
+    """The safety box where repair work is proposed, approved or looked into (proposed corrective work, a fault,
+    a finding), before its checklist is on a phone: the cautions of the part's kind
+    (``checklists.COMPONENT_CAUTIONS``; the whole unit: the general ones), then those of the checklist the
+    condition raises, each once, the local-codes-first line last (``checklists.cautions_once``)."""
+    if component_kind:
+        by_kind = checklists.COMPONENT_CAUTIONS.get(component_kind, [checklists.LOCKOUT])
+    else:
+        by_kind = checklists.GENERAL_CAUTIONS
+    code = CONDITION_TEMPLATES.get(condition_code or "")
+    raised: list[str] = (
+        next((t["cautions"] for t in checklists.all_templates() if t["code"] == code), []) if code else []
+    )
+    return checklists.cautions_once(lists=[by_kind, raised])
+
+
 def work_order_cautions(*, work_order: WorkOrder) -> list[str]:
     """The cautions of ``work_order``'s checklist (checklist_cautions of checklist_build)."""
     return checklist_cautions(checklist=checklist_build(work_order=work_order))

@@ -94,3 +94,12 @@ def site_clock(when, site) -> str:
         return ""
     local = when.astimezone(time_zone(getattr(site, "time_zone", site)))
     return f"{local:%H:%M} {zone_abbreviation(local)}"
+
+
+@register.simple_tag
+def repair_cautions(component: object = None, condition_code: str = "") -> list[str]:
+    """``inspections.selectors.repair_cautions`` for a part (or the whole unit) and a condition, for
+    ``frontend/_cautions.html``: ``{% repair_cautions wo.component wo.condition_code as cautions %}``."""
+    from inspections.selectors import repair_cautions as cautions_of
+
+    return cautions_of(component_kind=getattr(component, "kind", None), condition_code=condition_code or "")

@@ -285,7 +285,7 @@ def _fault_row(fault: Fault, system: str) -> dict:
         "work": wo,
         "work_words": wo.state_words if wo else "",
         "work_url": (
-            reverse("frontend:corrective")
+            f"{reverse('frontend:corrective')}#wo-{wo.public_id}"
             if wo is not None and wo.approval == wo.Approval.PENDING
             else (reverse("frontend:checklist", kwargs={"public_id": wo.public_id}) if wo else "")
         ),
