@@ -12,7 +12,7 @@ from django.utils import timezone
 
 from engineering.controls import Verdict
 from inspections import display
-from inspections.models import Evaluation, Finding, Inspection
+from inspections.models import Finding, Inspection
 from inspections.reasons import text_said_once
 from inspections.selectors import check_label, filter_series_for, filter_sources_words
 from inventory.models import Component, ComponentKind, Site
@@ -61,6 +61,7 @@ def site_summaries(*, user, as_of: dt.datetime | None = None) -> tuple[complianc
             "units": 0,
             "overdue": 0,
             "filters": dict.fromkeys((Verdict.FAIL, Verdict.WATCH, Verdict.OK, "none"), 0),
+            "filters_to_change": [],
             "freeze": dict.fromkeys(compliance.FREEZE_LABELS, 0),
             "freeze_not_ready": [],
         }
@@ -74,6 +75,11 @@ def site_summaries(*, user, as_of: dt.datetime | None = None) -> tuple[complianc
         if item["filter"] is not None:
             verdict = item["verdict"] if item["verdict"] in (Verdict.FAIL, Verdict.WATCH, Verdict.OK) else "none"
             rows[item["unit"].building.site_id]["filters"][verdict] += 1
+            if verdict == Verdict.FAIL:
+                # Which banks, and who found them loaded (a technician's reading or the trend).
+                rows[item["unit"].building.site_id]["filters_to_change"].append(
+                    f"{item['unit'].display_name} — {item['filter'].name}: {item['source_label']}"
+                )
     for item in figures.freeze:
         rows[item["unit"].building.site_id]["freeze"][item["status"]] += 1
         if item["status"] != compliance.FREEZE_READY:
@@ -118,8 +124,8 @@ def site_for(*, user, pk: int) -> Site | None:
 def filter_trends(*, site: Site, limit: int = 6) -> list[dict]:
     """Per filter bank of the site with readings: its pressure drop at design airflow, one list of
     (day, Pa) per set of filters (``inspections.selectors.filter_series``, restarting at each change),
-    where its points came from (technicians' readings, building-automation trend days) and the latest
-    filter evaluation."""
+    where its points came from (technicians' readings, building-automation trend days). The bank's verdict is
+    ``reports.compliance.bank_filter_status``'s (the site page reads it from the compliance figures)."""
     banks = list(
         Component.objects.filter(ahu__building__site=site, kind=ComponentKind.FILTER_BANK)
         .select_related("ahu__building")
@@ -132,19 +138,10 @@ def filter_trends(*, site: Site, limit: int = 6) -> list[dict]:
             "lives": [[(p.at.date(), p.corrected_dp_pa) for p in life.points] for life in series[bank.pk].lives],
             "changes": [life.changed_at.date() for life in series[bank.pk].lives if life.changed_at is not None],
             "sources": filter_sources_words(points=series[bank.pk].points),
-            "evaluation": None,
         }
         for bank in banks
         if series[bank.pk].points
     ][:limit]
-    by_comp = {row["component"].pk: row for row in rows}
-    evaluations = (
-        Evaluation.objects.filter(component_id__in=list(by_comp), check_name__icontains="filter")
-        .select_related("inspection")
-        .order_by("component_id", "inspection__finished_at", "id")
-    )
-    for e in evaluations:
-        by_comp[e.component_id]["evaluation"] = e
     return rows
 
 

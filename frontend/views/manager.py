@@ -60,15 +60,16 @@ def site_detail(request, pk: int):
 
     today = today_for(site)
     figures = selectors.figures_for(user=request.user, site_ids=[site.pk])
-    # When each bank is due, judged on the site's day by reports.compliance.filter_outlook: the table and the
-    # charts read the same outlook (the latest judged reading of the filters fitted now).
-    outlook_of = {row["filter"].pk: row["outlook"] for row in figures.filters if row["filter"] is not None}
+    # Each bank's one status (reports.compliance.bank_filter_status: the latest judged point of the filters fitted
+    # now, a technician's reading or a trend day): the table and the charts' captions, verdicts and outlooks read it.
+    status_of = {row["filter"].pk: row for row in figures.filters if row["filter"] is not None}
     charts = []
     for trend in selectors.filter_trends(site=site):
         comp = trend["component"]
-        ev = trend["evaluation"]
+        status = status_of.get(comp.pk) or {}
+        ev = status.get("evaluation")
         final = comp.specs.get("final_dp_pa")
-        outlook = outlook_of.get(comp.pk)
+        outlook = status.get("outlook")
         # No dashed line for a filter due now, nor to a forecast date already past (the table says "due now").
         ahead = outlook.forecast_ahead if outlook is not None else None
         forecast = [(ahead, p(final))] if ahead is not None and final else []
@@ -76,7 +77,10 @@ def site_detail(request, pk: int):
             {
                 "title": f"{comp.ahu.display_name} {comp.name}: pressure drop at design airflow",
                 # The caption names the bank: the reason does not begin with it again.
-                "reason": text_without_subject(reason_for(evaluation=ev, unit_system=system), comp.name) if ev else "",
+                "reason": text_without_subject(
+                    reason_for(evaluation=ev, unit_system=system) if ev else status.get("reason", ""), comp.name
+                ),
+                "verdict": status.get("verdict", ""),
                 "svg": line_chart(
                     title=f"{comp.ahu.display_name} {comp.name} pressure drop at design airflow",
                     unit=p_unit,
