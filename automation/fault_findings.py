@@ -13,7 +13,9 @@ migration that gave the faults open before it their findings says them the same 
 
 from __future__ import annotations
 
+import contextlib
 import datetime as dt
+import zoneinfo
 
 from accounts.clock import local_time_text
 from inspections.models import Finding
@@ -165,3 +167,96 @@ def fault_finding_close(*, fault, at: dt.datetime, cause: str, by) -> None:
         )
     else:
         finding_close_source(finding=fault.finding, at=at, cause=Finding.CloseCause.CORRECTED, by=by)
+
+
+# ---------------------------------------------------------------------------
+# A filter bank the trend found loaded (automation.feeds.filter_feed)
+# ---------------------------------------------------------------------------
+
+FILTER_RULE = "FILTER"  # the finding's rule: a trend finding names one (the findings' DB constraint)
+FILTER_SECTION = "change at 95 % of the clean-to-final pressure-drop span (engineering.filters; common practice)"
+
+
+def _open_filter_finding(bank):
+    from inspections.services.findings import source_problem
+
+    return (
+        Finding.objects.filter(
+            ahu_id=bank.ahu_id,
+            component=bank,
+            problem=source_problem(source=SOURCE, rule=FILTER_RULE),
+            state=Finding.State.OPEN,
+        )
+        .select_related("corrective_work_order")
+        .first()
+    )
+
+
+def filter_finding_keep(*, bank, row, judged, start: dt.datetime, end: dt.datetime, work_order, by):
+    """The bank's one open finding "filter loaded", raised or updated by a trend day (``row``, a ``FilterDay``
+    judged FAIL over the site day ``start``–``end``) through the findings' own path, holding the corrective work
+    the feed proposed (``work_order``; none other is proposed for it)."""
+    from django.core.exceptions import ValidationError
+
+    from inspections.services.findings import (
+        CONDITION_TITLES,
+        SourceSeen,
+        finding_observe_source,
+        finding_work_order_attach,
+    )
+
+    from .fault_models import FilterDay
+    from .feeds import FILTER_CONDITION
+
+    held = _open_filter_finding(bank)
+    # Seen over the site day: first seen at its start, last seen at its end.
+    first_seen = min(held.opened_at, start) if held is not None else start
+    zone = zoneinfo.ZoneInfo(bank.ahu.building.site.time_zone)
+    first_day = first_seen.astimezone(zone).date()
+    days = FilterDay.objects.filter(component=bank, verdict="fail", day__gte=first_day, day__lte=row.day).count()
+    last_seen = max(held.last_seen_at, end) if held is not None and held.last_seen_at else end
+    evidence = finding_evidence(
+        section=FILTER_SECTION, windows=[{"start": start.isoformat(), "end": end.isoformat()}], share=None, days=days
+    )
+    evidence.update(corrected_dp_pa=round(row.corrected_dp_pa, 1), loading_pct=row.loading_pct)
+    reason = row.reason.split("; ")[0]  # the judgement; the forecast words stay on the day
+    finding, _opened = finding_observe_source(
+        seen=SourceSeen(
+            ahu=bank.ahu,
+            component=bank,
+            source=SOURCE,
+            rule=FILTER_RULE,
+            severity="high" if judged.fraction_of_span >= 1.0 else "medium",  # as the proposed work's priority
+            title=finding_title(CONDITION_TITLES[FILTER_CONDITION], bank.name),
+            reason_parts=[f"Found in the {SOURCE_WORDS} on {row.day.isoformat()}: {reason}"],
+            condition_code=FILTER_CONDITION,
+            first_seen_at=first_seen,
+            last_seen_at=last_seen,
+            times_seen=max(days, 1),
+            evidence=evidence,
+        ),
+        by=by,
+    )
+    if work_order is not None and finding.corrective_work_order_id != work_order.pk:
+        # Refused when the finding already holds other open corrective work (a supervisor's): it keeps that one.
+        with contextlib.suppress(ValidationError):
+            finding_work_order_attach(finding=finding, work_order=work_order, by=by)
+    return finding
+
+
+def filter_finding_clear(*, bank, row, end: dt.datetime, by) -> bool:
+    """Close the bank's open "filter loaded" finding when a trend day later than it was last seen judges the
+    bank below its change point (new filters, or the loading fell back); False when none was open."""
+    from inspections.services.findings import finding_close_source
+
+    held = _open_filter_finding(bank)
+    if held is None or (held.last_seen_at is not None and end <= held.last_seen_at):
+        return False
+    loading = "" if row.loading_pct is None else f" ({row.loading_pct:.0f} % of the clean-to-final span)"
+    return finding_close_source(
+        finding=held,
+        at=end,
+        cause=Finding.CloseCause.ABSENT,
+        note=f"below the change point in the {SOURCE_WORDS} on {row.day.isoformat()}{loading}",
+        by=by,
+    )

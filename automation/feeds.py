@@ -20,7 +20,10 @@ Filter loading
     technician's reading gets; at its fail fraction (95 % of the clean-to-final span) the scheduling
     condition ``filter_loaded`` proposes the filter change through
     ``scheduling.services.corrective_work_order_propose`` — the path a technician's loaded-filter finding
-    takes — without waiting for a visit. The days join the bank's shared filter series
+    takes — without waiting for a visit — and the bank's one open finding (source building-automation trends, rule
+    FILTER, ``fault_findings.filter_finding_keep``) holds that change, so the findings pages list it; the finding
+    closes when the change is completed, or when a later trend day judges the bank below its change point. The
+    days join the bank's shared filter series
     (``inspections.selectors.filter_series``, through ``FILTER_POINT_SOURCES``) labelled as trend days, so the
     charts, the unit history, the phone and the forecast read them beside the technicians' readings; with three
     or more points since the filters now fitted, ``engineering.filters.filter_forecast`` dates the change.
@@ -43,6 +46,7 @@ from engineering.faults import G36_DEFAULTS
 from inventory.models import Component
 from scheduling.models import MeterReading
 
+from .fault_findings import filter_finding_clear, filter_finding_keep
 from .fault_models import FilterDay
 from .series import Samples, UnitTrends, samples_for
 
@@ -250,7 +254,19 @@ def filter_feed(*, trends: UnitTrends, day: dt.date, meter_hours: float | None, 
             wants_change = judged is not None and judged.verdict == Verdict.FAIL and not judged.media_bypass_suspected
             if r.day is not None and wants_change:
                 proposed = _propose_change(bank=r.bank, row=r.day, judged=judged, trends=trends, by=by)
+                # The bank's one open finding, holding the change just proposed (the findings pages list it).
+                filter_finding_keep(
+                    bank=r.bank,
+                    row=r.day,
+                    judged=judged,
+                    start=trends.start,
+                    end=trends.end,
+                    work_order=proposed,
+                    by=by,
+                )
                 out[i] = dataclasses.replace(r, proposed=proposed)
+            elif r.day is not None and judged is not None and judged.verdict != Verdict.FAIL:
+                filter_finding_clear(bank=r.bank, row=r.day, end=trends.end, by=by)
     return out
 
 

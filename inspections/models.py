@@ -424,6 +424,8 @@ class Finding(models.Model):
         words = self.get_source_display().lower()
         if self.rule == "FREEZE":
             return f"{words}, freeze-protection stages"
+        if self.rule == "FILTER":
+            return f"{words}, filter pressure drop"
         return f"{words}, rule {self.rule}" if self.rule else words
 
     @property
