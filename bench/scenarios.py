@@ -631,6 +631,17 @@ def pwa_shell(*, portfolio: Portfolio) -> dict:
 # ---------------------------------------------------------------------------
 # Registry CSV import of many units, vs one bulk insert of the same units and buildings.
 # ---------------------------------------------------------------------------
+def _baseline_code(n: int) -> str:
+    """The ``n``-th label code of the import baseline: "B" and ``n`` in six letters of the label alphabet."""
+    from inventory.models import LABEL_ALPHABET
+
+    digits = []
+    for _ in range(6):
+        n, d = divmod(n, len(LABEL_ALPHABET))
+        digits.append(LABEL_ALPHABET[d])
+    return "B" + "".join(reversed(digits))
+
+
 def registry_import(*, portfolio: Portfolio, runs: int, rows: int) -> dict:
     """A units file of ``rows`` rows (100 per building) into a new site of the main organisation.
 
@@ -668,6 +679,9 @@ def registry_import(*, portfolio: Portfolio, runs: int, rows: int) -> dict:
                 [
                     AHU(
                         building=buildings[n // 100],
+                        # Codes of their own ("B…", never a drawn "U…" code): 100,000 random six-character codes
+                        # repeat a few times (birthday problem), which the import redraws and bulk_create cannot.
+                        label_code=_baseline_code(n),
                         tag=f"AHU-{n:06d}",
                         design_supply_airflow_m3s=2.5,
                         design_min_oa_fraction=0.3,
