@@ -16,6 +16,19 @@ import traceback
 from pathlib import Path
 
 
+def _trace_text() -> str:
+    """The current exception's traceback with this machine's folders left out (paths relative to the project,
+    library paths from their package): committed results name no path of the machine that ran them."""
+    import site
+    import sysconfig
+
+    text = traceback.format_exc()
+    roots = [*site.getsitepackages(), sysconfig.get_paths()["stdlib"], str(Path(__file__).resolve().parent.parent)]
+    for root in sorted(roots, key=len, reverse=True):
+        text = text.replace(root.rstrip("/") + "/", "")
+    return text[-2000:]
+
+
 def _guard(results: dict, name: str, fn) -> object:
     from .scenarios import NotRun
 
@@ -27,7 +40,7 @@ def _guard(results: dict, name: str, fn) -> object:
         results[name] = {"not_run": str(exc)}
         out = None
     except Exception as exc:  # one broken scenario must not hide the others' figures
-        results[name] = {"error": f"{type(exc).__name__}: {exc}"[:500], "trace": traceback.format_exc()[-2000:]}
+        results[name] = {"error": f"{type(exc).__name__}: {exc}"[:500], "trace": _trace_text()}
         out = None
     else:
         results[name] = out
