@@ -257,7 +257,7 @@ def _seen_fault(r: FaultResult, day: dt.date, start: dt.datetime, end: dt.dateti
     )
     share = f", {r.share * 100:.0f} % of the time it could be judged" if r.share is not None else ""
     reason = (
-        f"{r.title} ({r.formula}): {len(windows)} window{'s' if len(windows) != 1 else ''} on {day.isoformat()}, "
+        f"{r.title} ({r.formula}): {len(windows)} window{'s' if len(windows) != 1 else ''} on {day:%-d %b %Y}, "
         f"{fault_s / 60:.0f} min in all{share}"
         + (f"; {consequence['summary']}" if consequence else "")
         + " — found in the building-automation trends"
@@ -287,7 +287,7 @@ def freeze_reason(windows: list[dict], system: str = "si") -> str:
     )
     said = [stage_words(st, fmt.quantity_text(st.below_c, quantity="temperature", system=system)) for st in stages]
     low = f" the air fell to {fmt.quantity_text(min(lows), quantity='temperature', system=system)}" if lows else ""
-    on = f" on {max(days)}" if days else ""
+    on = f" on {dt.date.fromisoformat(str(max(days))):%-d %b %Y}" if days else ""  # the pages' date style
     return (
         f"{FREEZE_TITLE}:{low}{on}, reaching "
         + "; ".join(said)
