@@ -93,12 +93,21 @@ def offline(context, live_server):
     """
     httpd = live_server.thread.httpd
 
-    def _offline(on: bool) -> None:
-        context.set_offline(on)
+    def _offline(on: bool, *, server: bool = True) -> None:
+        # Back online: the server answers again *before* the phone hears "online" (it sends at once on that
+        # event); ``server=False`` leaves it unreachable: signal back, network not yet (the phone must retry).
         if on:
+            context.set_offline(True)
             httpd.get_app = _drop_connection  # every request, kept-alive connections too: closed with no answer
-        else:
+            return
+        if server:
             httpd.__dict__.pop("get_app", None)
+        context.set_offline(False)
+
+    def _server_back() -> None:
+        httpd.__dict__.pop("get_app", None)
+
+    _offline.server_back = _server_back  # type: ignore[attr-defined]
 
     yield _offline
     httpd.__dict__.pop("get_app", None)

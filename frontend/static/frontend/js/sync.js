@@ -10,6 +10,28 @@ import { metaGet, metaSet, outboxAll, outboxDelete, outboxPut, resultAll, result
 const BATCH = 50;
 let running = null;
 
+// A sync that could not reach the server (signal back before the network is, the server restarting, a 503) is
+// tried again by itself while the phone is online: after 5 s, then twice as long each time, at most every 2 min.
+// Nothing waits on the technician noticing; the "online" event and "Sync now" still send at once.
+export const RETRY_FIRST_MS = 5000;
+export const RETRY_MAX_MS = 120000;
+let retryTimer = null;
+let retryDelay = 0;
+
+class SessionChanged extends Error {}
+
+function retryLater() {
+  if (retryTimer) return;
+  retryDelay = retryDelay ? Math.min(retryDelay * 2, RETRY_MAX_MS) : RETRY_FIRST_MS;
+  retryTimer = setTimeout(() => { retryTimer = null; syncOutbox(); }, retryDelay);
+}
+
+function retryDone() {
+  if (retryTimer) clearTimeout(retryTimer);
+  retryTimer = null;
+  retryDelay = 0;
+}
+
 function csrfToken() {
   const match = document.cookie.match(/(?:^|;\s*)csrftoken=([^;]+)/);
   return match ? decodeURIComponent(match[1]) : "";
@@ -120,8 +142,10 @@ async function checkSession() {
   const response = await fetch(url, { credentials: "same-origin", cache: "no-store", headers: { Accept: "application/json" } });
   let body = {};
   try { body = await response.json(); } catch (error) { /* not JSON */ }
+  // No answer from the server (its 5xx, or the worker's "offline" 503): not a question of who is signed in.
+  if (response.status >= 500) throw new Error(`the server could not be reached (${body.detail || response.status})`);
   if (!response.ok || body.person !== currentOwner()) {
-    throw new Error("someone else is signed in on this phone now; reload the page (your forms stay here until you sign in again)");
+    throw new SessionChanged("someone else is signed in on this phone now; reload the page (your forms stay here until you sign in again)");
   }
 }
 
@@ -143,9 +167,15 @@ export async function syncOutbox({ url = document.body.dataset.syncUrl, includeR
       if (includeRefused) {
         for (const item of await myOutbox()) if (item.state === "refused") await outboxPut({ ...item, state: "waiting" });
       }
-      return await replay(url);
+      const sent = await replay(url);
+      retryDone();
+      return sent;
     } catch (error) {
-      await setMyMeta("last_error", String(error.message || error));
+      const retries = !(error instanceof SessionChanged) && (await myOutbox()).some((i) => i.state !== "refused");
+      const words = String(error.message || error);
+      await setMyMeta("last_error", retries ? `${words}; the phone tries again by itself` : words);
+      // Another person signed in: only a reload helps, so no retry; any other trouble is tried again later.
+      if (retries) retryLater();
       return 0;
     } finally {
       running = null;
