@@ -18,6 +18,7 @@ import datetime as dt
 import zoneinfo
 
 from accounts.clock import local_time_text
+from inspections import reasons
 from inspections.models import Finding
 
 # The finding's source: the same value the trend-fed meter readings and filter points carry.
@@ -82,9 +83,8 @@ def finding_parts(*, code: str, formula: str, evidence: dict, consequence: dict 
         parts.append(f"; found on {days} day{'' if days == 1 else 's'}")
     if evidence.get("lowest_c") is not None:
         parts += ["; the supply air fell to ", {"value": float(evidence["lowest_c"]), "quantity": "temperature"}]
-    summary = (consequence or {}).get("summary")
-    if summary:
-        parts.append(f"; {summary}")
+    if consequence and (consequence.get("summary") or consequence.get("values")):
+        parts += ["; ", reasons.consequence(code, consequence)]  # in the reader's units when read
     merged: list = []
     for p in parts:  # adjacent texts as one (inspections.reasons.flatten)
         if isinstance(p, str) and merged and isinstance(merged[-1], str):
@@ -219,7 +219,12 @@ def filter_finding_keep(*, bank, row, judged, start: dt.datetime, end: dt.dateti
         section=FILTER_SECTION, windows=[{"start": start.isoformat(), "end": end.isoformat()}], share=None, days=days
     )
     evidence.update(corrected_dp_pa=round(row.corrected_dp_pa, 1), loading_pct=row.loading_pct)
-    reason = row.reason.split("; ")[0]  # the judgement; the forecast words stay on the day
+    # The judgement in the reader's units (its quantities as parts); the forecast words stay on the day.
+    parts = reasons.flatten(
+        f"Found in the {SOURCE_WORDS} on {row.day:%-d %b %Y}: {bank.name}: ",
+        list(judged.parts),
+        f" (trend median of {row.samples} samples with the fan running)",
+    )
     finding, _opened = finding_observe_source(
         seen=SourceSeen(
             ahu=bank.ahu,
@@ -228,7 +233,7 @@ def filter_finding_keep(*, bank, row, judged, start: dt.datetime, end: dt.dateti
             rule=FILTER_RULE,
             severity="high" if judged.fraction_of_span >= 1.0 else "medium",  # as the proposed work's priority
             title=finding_title(CONDITION_TITLES[FILTER_CONDITION], bank.name),
-            reason_parts=[f"Found in the {SOURCE_WORDS} on {row.day.isoformat()}: {reason}"],
+            reason_parts=parts,
             condition_code=FILTER_CONDITION,
             first_seen_at=first_seen,
             last_seen_at=last_seen,

@@ -8,6 +8,10 @@ in SI, rendered at read time in the reader's unit system through
 - ``{"value": 223.6, "quantity": "pressure"}`` — one value with its unit;
 - ``{"low": 2.0, "high": 6.0, "quantity": "temperature"}`` — a band
   ("2.0–6.0 °C", "at least 2.0 °C", "at most 6.0 °C").
+- ``{"consequence": "FC6", "values": {...}, "summary": "..."}`` — what a
+  building-automation fault costs (``engineering.faults.consequences``), said
+  from its SI values in the reader's units (the SI ``summary`` where the rule
+  has no words for its values).
 
 Temperature differences use the quantity ``temperature_difference`` so that
 1.5 K reads 2.7 Δ°F, never 34.7 °F. Numbers, units and precision are
@@ -21,6 +25,7 @@ from __future__ import annotations
 from typing import Any
 
 from engineering import formatting as fmt
+from engineering.faults.consequences import consequence_text
 
 
 def q(value: float, quantity: str, decimals: int | None = None) -> dict[str, Any]:
@@ -52,9 +57,16 @@ def _with_unit(text: str, quantity: str, system: str) -> str:
     return f"{text} {unit}" if unit else text
 
 
+def consequence(code: str, consequence: dict[str, Any]) -> dict[str, Any]:
+    """A fault's consequence part (its ``values`` in SI and the SI ``summary``)."""
+    return {"consequence": code, "values": dict(consequence.get("values") or {}), "summary": consequence.get("summary")}
+
+
 def render_part(part: Any, system: str) -> str:
     if isinstance(part, str):
         return part
+    if "consequence" in part:
+        return consequence_text(part["consequence"], part, system)
     quantity = part["quantity"]
     d = _decimals(part, system)
     if "value" in part:

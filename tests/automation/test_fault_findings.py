@@ -32,6 +32,7 @@ from accounts.models import Role
 from accounts.services import site_grant
 from automation.fault_models import Fault
 from automation.judging import unit_day_judge
+from automation.services import point_create
 from inspections.models import Finding
 from reports.models import Report
 from reports.services import report_request
@@ -324,3 +325,29 @@ def test_a_freeze_finding_of_the_trends_never_decides_readiness_alone(api_client
     with time_machine.travel(at, tick=False):
         [r] = freeze_readiness(units=[wo.ahu], as_of=at)
     assert r.status == READY, r.reason
+
+
+def test_a_faults_consequence_in_the_finding_reads_in_each_readers_units(plant, client):
+    """FC6 with a measured supply airflow: the extra outdoor air and the heat it costs, in L/s and kW for a
+    reader in SI, in cfm and Btu/h for one in US units — from the one stored finding, never its SI words."""
+    ahu, points = plant["ahu"], dict(plant["points"])
+    points["SAF"] = point_create(ahu=ahu, name=f"{ahu.tag}.SAF", brick_class="Supply_Air_Flow_Sensor")
+    put_day(points, _start(DAY1), {**HEATING, "MAT": STUCK_MAT, "SAF": 2.0})
+    _judge(ahu, DAY1)
+    [finding] = Finding.objects.filter(ahu=ahu, rule="FC6")
+    # Outdoor-air fraction (21 − (−4)) / (21 − (−5)) = 0.96 against the minimum; 2.0 m³/s of supply air.
+    # Excess (0.96 − 0.25) × 2.0 m³/s = 1.42 m³/s, said in L/s (the SI airflow unit of the pages).
+    assert "outdoor air fraction 0.96" in finding.reason and "1423 L/s extra" in finding.reason
+    assert " kW of heating" in finding.reason
+    with time_machine.travel(_start(DAY1) + dt.timedelta(days=1, hours=9), tick=False):
+        texts = {}
+        for system in ("si", "us"):
+            plant["manager"].unit_system = system
+            plant["manager"].save(update_fields=["unit_system"])
+            client.force_login(plant["manager"])
+            [shown] = [f for f in client.get(reverse("inspections_api:findings")).json() if f["id"] == finding.pk]
+            texts[system] = shown["text"]
+    assert "1423 L/s extra" in texts["si"] and " kW of heating" in texts["si"]
+    # 1.423 m³/s ÷ 0.000471947 m³/s per cfm (NIST SP 811) = 3015 cfm.
+    assert "3015 cfm extra" in texts["us"] and "Btu/h of heating" in texts["us"]
+    assert "L/s" not in texts["us"] and " kW" not in texts["us"]

@@ -18,6 +18,7 @@ import datetime as dt
 import pytest
 import time_machine
 from django.test import Client
+from django.urls import reverse
 
 from accounts.models import Role
 from accounts.services import site_grant
@@ -137,6 +138,18 @@ def test_a_bank_loaded_in_the_trend_is_to_change_for_the_manager_with_one_findin
     assert "no forecast yet" in pdf and "21 Oct 2026" not in pdf
     trends = "Found in the building-automation trends, filter pressure drop"
     assert f"Final filters Filter loaded {trends} Medium 12 Jan 2026" in pdf
+
+    # The finding's text says the trend's judgement with its numbers in the reader's units, dated as the pages do.
+    assert finding.reason.startswith("Found in the building-automation trends on 13 Jan 2026: Final filters: filter ")
+    assert "249 Pa at design airflow" in finding.reason and "trend median of" in finding.reason
+    helena.unit_system = "us"
+    helena.save(update_fields=["unit_system"])
+    with time_machine.travel(NOW, tick=False):
+        [shown] = [f for f in _client(helena).get(reverse("inspections_api:findings")).json() if f["id"] == finding.pk]
+    assert "1.00 in. w.c. at design airflow" in shown["text"]  # 248.8 Pa ÷ 249.09 Pa per in. w.c. (NIST SP 811)
+    assert " Pa" not in shown["text"] and "13 Jan 2026" in shown["text"]
+    helena.unit_system = "si"
+    helena.save(update_fields=["unit_system"])
 
     # Another organisation's manager sees none of it.
     with time_machine.travel(NOW, tick=False):
