@@ -85,6 +85,11 @@ FAULT_WORK: dict[str, tuple[str, str | None, str]] = {
     "FC15": ("", "heating_coil", "medium"),  # leaking heating valve
     Fault.FREEZE: ("freeze_protection_failed", None, "critical"),
 }
+# The work's title where the condition's own title would mislead (FC8 is no set-point problem: supply and mixed
+# air should differ by the fan heat alone in free cooling, so a leaking valve or a faulty sensor is to be found).
+WORK_TITLES: dict[str, str] = {
+    "FC8": "Supply and mixed air differ in free cooling: leaking coil valve or faulty sensor",
+}
 
 
 def close_after() -> dt.timedelta:
@@ -406,13 +411,17 @@ def _propose(*, fault: Fault, day: dt.date, by) -> None:
     from scheduling.services import corrective_work_order_propose
 
     urgent = fault.code == Fault.FREEZE
-    title = CONDITION_TITLES.get(fault.condition_code, fault.title) if fault.condition_code else fault.title
+    title = WORK_TITLES.get(fault.code) or (
+        CONDITION_TITLES.get(fault.condition_code, fault.title) if fault.condition_code else fault.title
+    )
     if fault.component is not None:
         title += f" — {fault.component.name}"
+    # What to check, where the trends gave no consequence to say (the rule's risk in words).
+    risk = "" if (fault.consequence or {}).get("summary") else consequence_text(fault.code, None)
     wo = corrective_work_order_propose(
         ahu=fault.ahu,
         title=title,
-        reason=f"{fault.reason} ({fault.section})",
+        reason=f"{fault.reason} ({fault.section})" + (f"; {risk}" if risk else ""),
         condition_code=fault.condition_code,
         priority="urgent" if urgent else PRIORITY.get(fault.severity, "normal"),
         component=fault.component,

@@ -95,6 +95,10 @@ def test_demo_trends_carry_the_seeded_faults_and_only_them():
         # The leaking cooling valve: air cooled across the closed coil in free cooling (FC#8 with the mapped points).
         leaking = _unit(LEAKING_VALVE)
         assert list(Fault.objects.filter(ahu=leaking, state="open").values_list("code", flat=True)) == ["FC8"]
+        # Its proposed work says what the technician is to look for, not a set-point problem.
+        leak_work = Fault.objects.get(ahu=leaking, state="open").corrective_work_order
+        assert leak_work.title == "Supply and mixed air differ in free cooling: leaking coil valve or faulty sensor"
+        assert "check for a leaking cooling valve or a faulty sensor" in leak_work.reason
 
         # The freezing night: not ready for freeze protection until retested, in readiness and in the figures.
         frozen = _unit(FREEZE_NIGHT)
