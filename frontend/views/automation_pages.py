@@ -328,10 +328,24 @@ def faults(request):
 
 
 def _manager_summary(request):
+    """Her sites' active faults counted per site, then each one in plain words: the unit, what was found, since
+    when, what the service company does about it and her finding's page (its evidence in words); the freeze events
+    that keep a unit from being ready. The evidence charts stay the supervisors'."""
     sites = list(sites_visible_to(user=request.user).order_by("name"))
     counts: dict[int, int] = defaultdict(int)
+    active = []
     for f in faults_visible_to(user=request.user):
         counts[f.ahu.building.site_id] += 1
+        wo = f.corrective_work_order
+        active.append(
+            {
+                "fault": f,
+                "site": f.ahu.building.site,
+                "work_words": wo.state_words if wo else "no work yet",
+                "finding_url": reverse("frontend:manager_finding", kwargs={"pk": f.finding_id}) if f.finding_id else "",
+            }
+        )
+    active.sort(key=lambda r: (r["site"].name, r["fault"].ahu.tag, r["fault"].first_seen_at))
     readiness = {r.unit.pk: r for r in freeze_readiness_for(user=request.user, as_of=timezone.now())}
     freeze = []
     for f in faults_visible_to(user=request.user, open_only=False).filter(code=Fault.FREEZE):
@@ -350,7 +364,7 @@ def _manager_summary(request):
     return render(
         request,
         "frontend/automation/manager_faults.html",
-        {"rows": [{"site": s, "active": counts.get(s.pk, 0)} for s in sites], "freeze": freeze},
+        {"rows": [{"site": s, "active": counts.get(s.pk, 0)} for s in sites], "active": active, "freeze": freeze},
     )
 
 

@@ -199,11 +199,18 @@ def test_a_property_manager_sees_a_summary_of_their_own_sites_only(client, world
         in html
     )
     assert hidden.name not in html
+    # Each active fault in words: the unit, what was found (linked to her finding's page), since when, the work.
+    fault = world["fault"]
+    row = html.split(f'data-fault="{fault.pk}"')[1].split("</tr>")[0]
+    assert "AHU-07" in row and "Dune Offices" in row and fault.title in row
+    assert reverse("frontend:manager_finding", kwargs={"pk": fault.finding_id}) in row
+    assert "12 Jan 2026 00:15 CET" in row and "awaiting approval" in row
+    assert get(client, pm, reverse("frontend:manager_finding", kwargs={"pk": fault.finding_id})).status_code == 200
     assert 'data-evidence="' not in html  # no supervisor's detail
     assert get(client, pm, reverse("frontend:fault", kwargs={"pk": world["fault"].pk})).status_code == 403
     ungranted = make_person(organisation=world["org"], role=Role.PROPERTY_MANAGER, username="pm2")
     html = get(client, ungranted, reverse("frontend:faults")).content.decode()
-    assert site.name not in html
+    assert site.name not in html and "data-no-faults" in html
 
 
 def test_the_point_map_lists_brick_classes_and_bacnet_addresses_and_links_the_brick_model(client, world):
