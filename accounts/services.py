@@ -2,10 +2,11 @@
 
 import contextvars
 import hashlib
-from collections.abc import Iterator
+from collections.abc import Iterable, Iterator, Mapping
 from contextlib import contextmanager
 from dataclasses import dataclass
 from decimal import ROUND_HALF_UP, Decimal
+from typing import Any, Protocol
 
 from django.conf import settings
 from django.contrib.auth.tokens import default_token_generator
@@ -23,6 +24,13 @@ from .changes import organisation_changed, person_changed
 from .inputs import FieldErrors, check_number, check_text, shown
 from .models import Membership, Organisation, Role, SiteGrant, User
 from .tokens import invitation_timeout, invitation_token_generator
+
+
+class OrganisationRecord(Protocol):
+    """A record of an app above this one that belongs to an organisation (a site, say)."""
+
+    pk: Any
+    organisation_id: int
 
 
 @transaction.atomic
@@ -46,8 +54,8 @@ def user_create(
     return user
 
 
-def site_grant(*, user: User, site) -> SiteGrant:
-    grant, created = SiteGrant.objects.get_or_create(user=user, site=site)
+def site_grant(*, user: User, site: OrganisationRecord) -> SiteGrant:
+    grant, created = SiteGrant.objects.get_or_create(user=user, site_id=site.pk)
     if created:
         organisation_changed(organisation_id=site.organisation_id)
     return grant
@@ -74,7 +82,7 @@ def user_credentials_revoke(*, user: User) -> None:
     password_changed.send(sender=User, user=user)
 
 
-def password_saved(sender, instance: User, created: bool, **kwargs) -> None:
+def password_saved(sender: type[User], instance: User, created: bool, **kwargs: Any) -> None:
     """post_save of a person: after a saved password change (reset by e-mail, admin, command), revoke."""
     if getattr(instance, "_password_replaced", False):
         instance._password_replaced = False
@@ -83,7 +91,13 @@ def password_saved(sender, instance: User, created: bool, **kwargs) -> None:
 
 
 def audit_record(
-    *, actor, obj, action: str, changes: dict | None = None, organisation=None, organisation_id: int | None = None
+    *,
+    actor: User | None,
+    obj: Any,
+    action: str,
+    changes: Mapping[str, Any] | None = None,
+    organisation: Organisation | None = None,
+    organisation_id: int | None = None,
 ) -> None:
     """Append one event to the audit trail. Call it inside the same transaction as the change.
 
@@ -105,7 +119,7 @@ def audit_record(
     event.save()
 
 
-_audits_pending: contextvars.ContextVar[list | None] = contextvars.ContextVar("audits_pending", default=None)
+_audits_pending: contextvars.ContextVar[list[Any] | None] = contextvars.ContextVar("audits_pending", default=None)
 
 
 @contextmanager
@@ -122,7 +136,7 @@ def audits_deferred() -> Iterator[None]:
     outer = _audits_pending.get()
     if outer is None and not transaction.get_connection().in_atomic_block:
         raise RuntimeError("audits_deferred() belongs inside the transaction of the writes it records")
-    mine: list = []
+    mine: list[Any] = []
     token = _audits_pending.set(mine)
     try:
         yield
@@ -186,12 +200,12 @@ class PersonInput:
     skills: list[str]
 
 
-def _allowed_list(values) -> str:
+def _allowed_list(values: Iterable[str]) -> str:
     return ", ".join(values)
 
 
 def person_input_check(
-    raw: dict, *, skills_allowed: dict[str, str], organisation: Organisation, person: User | None = None
+    raw: Mapping[str, Any], *, skills_allowed: dict[str, str], organisation: Organisation, person: User | None = None
 ) -> PersonInput:
     """Check, then do: the raw form values of a person (``name``, ``email``, ``role``, ``capacity``, ``skills``)
     as clean values, or ``ValidationError`` with one message per field naming the value and what is allowed.
@@ -232,13 +246,13 @@ def person_input_check(
         first_name=first,
         last_name=last,
         email=email,
-        role=role,
+        role=str(role),
         capacity_hours=Decimal(str(capacity)).quantize(Decimal("0.1"), rounding=ROUND_HALF_UP),
         skills=sorted(set(skills)),
     )
 
 
-def _email_check(raw, *, errors: FieldErrors) -> str:
+def _email_check(raw: object, *, errors: FieldErrors) -> str:
     allowed = "an address such as name@example.com that nobody here uses yet"
     text = check_text(raw, key="email", label="E-mail", max_length=EMAIL_MAX, errors=errors, required=True)
     if not text:
@@ -390,7 +404,7 @@ def person_update(
         )
     if data.role != Role.ADMIN:
         _keep_an_admin(organisation=organisation, person=person, membership=membership)
-    changes = {}
+    changes: dict[str, list[Any]] = {}
     if membership.role != data.role:
         changes["role"] = [membership.role, data.role]
         membership.role = data.role
@@ -413,7 +427,7 @@ def person_update(
 
 
 @transaction.atomic
-def site_grants_set(*, by: User, organisation: Organisation, person: User, sites: list) -> None:
+def site_grants_set(*, by: User, organisation: Organisation, person: User, sites: list[OrganisationRecord]) -> None:
     """The person sees exactly ``sites`` of the organisation (grants to other organisations' sites stay)."""
     wanted = {s.pk for s in sites}
     if any(s.organisation_id != organisation.pk for s in sites):
@@ -467,7 +481,7 @@ def person_reactivate(*, by: User, organisation: Organisation, person: User) -> 
 # ---------------------------------------------------------------------------
 # A person's own settings
 # ---------------------------------------------------------------------------
-def unit_system_check(raw) -> str:
+def unit_system_check(raw: object) -> str:
     allowed = [str(v) for v in User.UnitSystem.values]
     if raw not in allowed:
         raise ValidationError(

@@ -2,7 +2,7 @@
 
 import datetime as dt
 import io
-from typing import Any
+from typing import TYPE_CHECKING, Any, TypeVar
 
 import segno
 from django.conf import settings
@@ -16,14 +16,20 @@ from accounts.changes import organisation_changed, organisations_changed
 from .models import AHU, Building, Component, Site
 from .specs import SpecErrors, validate_specs
 
+if TYPE_CHECKING:
+    from accounts.models import User
 
-def _save_new(instance):
+M = TypeVar("M", bound=models.Model)
+Record = Site | Building | AHU | Component
+
+
+def _save_new(instance: M) -> M:
     instance.full_clean()
     instance.save()
     return instance
 
 
-def _update(instance, fields: dict[str, Any]):
+def _update(instance: M, fields: dict[str, Any]) -> M:
     for name, value in fields.items():
         setattr(instance, name, value)
     instance.full_clean()
@@ -54,28 +60,32 @@ def component_full_clean(component: Component, **options: Any) -> None:
         raise ValidationError(errors) from None
 
 
-def _audit(by, obj, action: str, changes: dict | None = None) -> None:
+def _audit(by: "User | None", obj: Record, action: str, changes: dict[str, Any] | None = None) -> None:
     """One audit event for a registry change made by a person (a page or the API); none for a command."""
     if by is None:
         return
     from accounts.services import audit_record
 
-    site = obj if isinstance(obj, Site) else getattr(obj, "site", None) or obj.ahu.building.site
-    audit_record(actor=by, obj=obj, action=action, changes=changes or {}, organisation=site.organisation)
+    audit_record(actor=by, obj=obj, action=action, changes=changes or {}, organisation=_site(obj).organisation)
 
 
-def _organisation_id(obj) -> int:
-    """The organisation a registry record belongs to (its site's)."""
+def _site(obj: Record) -> Site:
+    """The site a registry record belongs to."""
     if isinstance(obj, Site):
-        return obj.organisation_id
+        return obj
     if isinstance(obj, Building):
-        return obj.site.organisation_id
+        return obj.site
     if isinstance(obj, AHU):
-        return obj.building.site.organisation_id
-    return obj.ahu.building.site.organisation_id
+        return obj.building.site
+    return obj.ahu.building.site
 
 
-def _changed(*objs) -> None:
+def _organisation_id(obj: Record) -> int:
+    """The organisation a registry record belongs to (its site's)."""
+    return _site(obj).organisation_id
+
+
+def _changed(*objs: Record) -> None:
     """Today and the board name sites, buildings, units and parts: their organisations' answers are stale."""
     organisations_changed(organisation_ids=[_organisation_id(o) for o in objs])
 
@@ -83,7 +93,7 @@ def _changed(*objs) -> None:
 def _said(fields: dict[str, Any]) -> dict[str, Any]:
     """The changed fields as the audit trail keeps them (a related record by its key)."""
 
-    def said(value):
+    def said(value: object) -> object:
         if isinstance(value, models.Model):
             return value.pk
         if isinstance(value, dt.date):
@@ -94,7 +104,7 @@ def _said(fields: dict[str, Any]) -> dict[str, Any]:
 
 
 @transaction.atomic
-def site_create(*, by=None, **fields: Any) -> Site:
+def site_create(*, by: "User | None" = None, **fields: Any) -> Site:
     site = _save_new(Site(**fields))
     _audit(by, site, "site_create", _said(fields))
     _changed(site)
@@ -102,7 +112,7 @@ def site_create(*, by=None, **fields: Any) -> Site:
 
 
 @transaction.atomic
-def site_update(*, site: Site, by=None, **fields: Any) -> Site:
+def site_update(*, site: Site, by: "User | None" = None, **fields: Any) -> Site:
     before = Site(organisation_id=site.organisation_id)
     _update(site, fields)
     _audit(by, site, "site_update", _said(fields))
@@ -111,7 +121,7 @@ def site_update(*, site: Site, by=None, **fields: Any) -> Site:
 
 
 @transaction.atomic
-def building_create(*, by=None, **fields: Any) -> Building:
+def building_create(*, by: "User | None" = None, **fields: Any) -> Building:
     building = _save_new(Building(**fields))
     _audit(by, building, "building_create", _said(fields))
     _changed(building)
@@ -119,7 +129,7 @@ def building_create(*, by=None, **fields: Any) -> Building:
 
 
 @transaction.atomic
-def building_update(*, building: Building, by=None, **fields: Any) -> Building:
+def building_update(*, building: Building, by: "User | None" = None, **fields: Any) -> Building:
     _update(building, fields)
     _audit(by, building, "building_update", _said(fields))
     _changed(building)
@@ -127,7 +137,7 @@ def building_update(*, building: Building, by=None, **fields: Any) -> Building:
 
 
 @transaction.atomic
-def ahu_create(*, by=None, **fields: Any) -> AHU:
+def ahu_create(*, by: "User | None" = None, **fields: Any) -> AHU:
     ahu = _save_new(AHU(**fields))
     _audit(by, ahu, "ahu_create", _said(fields))
     _changed(ahu)
@@ -135,7 +145,7 @@ def ahu_create(*, by=None, **fields: Any) -> AHU:
 
 
 @transaction.atomic
-def ahu_update(*, ahu: AHU, by=None, **fields: Any) -> AHU:
+def ahu_update(*, ahu: AHU, by: "User | None" = None, **fields: Any) -> AHU:
     _update(ahu, fields)
     _audit(by, ahu, "ahu_update", _said(fields))
     _changed(ahu)
@@ -143,7 +153,7 @@ def ahu_update(*, ahu: AHU, by=None, **fields: Any) -> AHU:
 
 
 @transaction.atomic
-def ahu_move(*, ahu: AHU, building: Building, by=None) -> AHU:
+def ahu_move(*, ahu: AHU, building: Building, by: "User | None" = None) -> AHU:
     """Move a unit to another building of the same organisation; its records and components go with it."""
     if building.site.organisation_id != ahu.building.site.organisation_id:
         raise ValidationError({"building": ["a unit moves only to a building of its own organisation"]})
@@ -159,7 +169,7 @@ def ahu_move(*, ahu: AHU, building: Building, by=None) -> AHU:
 
 
 @transaction.atomic
-def ahu_retire(*, ahu: AHU, by=None, reason: str = "") -> AHU:
+def ahu_retire(*, ahu: AHU, by: "User | None" = None, reason: str = "") -> AHU:
     """Retire a unit: it keeps its components and every record, stays in the registry marked retired and
     gets no new preventive work (the engine plans in-service units only)."""
     if ahu.status == AHU.Status.RETIRED:
@@ -172,10 +182,11 @@ def ahu_retire(*, ahu: AHU, by=None, reason: str = "") -> AHU:
 
 
 @transaction.atomic
-def component_create(*, by=None, **fields: Any) -> Component:
+def component_create(*, by: "User | None" = None, **fields: Any) -> Component:
     component = Component(**fields)
-    if component.parent_id is not None and component.parent.retired_on is not None:
-        raise ValidationError({"parent": [f"{component.parent.name} is retired; a part cannot be added to it"]})
+    parent = component.parent if component.parent_id is not None else None
+    if parent is not None and parent.retired_on is not None:
+        raise ValidationError({"parent": [f"{parent.name} is retired; a part cannot be added to it"]})
     component_full_clean(component)
     component.save()
     _audit(by, component, "component_create", _said(fields))
@@ -184,7 +195,7 @@ def component_create(*, by=None, **fields: Any) -> Component:
 
 
 @transaction.atomic
-def component_update(*, component: Component, by=None, **fields: Any) -> Component:
+def component_update(*, component: Component, by: "User | None" = None, **fields: Any) -> Component:
     for name, value in fields.items():
         setattr(component, name, value)
     component_full_clean(component)
@@ -195,7 +206,9 @@ def component_update(*, component: Component, by=None, **fields: Any) -> Compone
 
 
 @transaction.atomic
-def component_retire(*, component: Component, on: dt.date, by=None, reason: str = "") -> list[Component]:
+def component_retire(
+    *, component: Component, on: dt.date, by: "User | None" = None, reason: str = ""
+) -> list[Component]:
     """Retire a part and the parts it contains from ``on``: the rows stay with their readings, findings and
     work as history; they get no new work and checklists leave them out. Returns the parts retired."""
     if component.retired_on is not None:

@@ -30,6 +30,10 @@ class Report(models.Model):
         DONE = "done", "Done"
         FAILED = "failed", "Failed"
 
+    # Not a column: ``reports.services.report_request`` sets it on the waiting report it answers a repeated
+    # request with (the page then says the report is already being made).
+    repeated: bool = False
+
     public_id = models.UUIDField(default=uuid.uuid4, unique=True, editable=False)
     organisation = models.ForeignKey(Organisation, on_delete=models.PROTECT, related_name="reports")
     kind = models.CharField(max_length=20, choices=Kind.choices)

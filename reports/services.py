@@ -61,7 +61,7 @@ def report_request(*, user: User, kind: str, parameters: dict[str, Any] | None =
     return report
 
 
-def _same_request(*, user: User, kind: str, parameters: dict, pdfa: bool) -> Report | None:
+def _same_request(*, user: User, kind: str, parameters: dict[str, Any], pdfa: bool) -> Report | None:
     """The person's identical request (kind, checked parameters, PDF/A) still waiting or being made: asking
     twice gives one report, not two rows of the same record. A finished one is not reused (the records may
     have changed since); the pages also send a form only once per tap (app.js)."""

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from datetime import date
+from types import ModuleType
 from typing import Any
 
 from django.core.exceptions import ValidationError
@@ -176,7 +177,8 @@ def single_organisation(org_ids: set[int], name: str) -> int:
     return next(iter(org_ids))
 
 
-def registry():
+def registry() -> dict[str, ModuleType]:
+    """The document kinds: each module's ``prepare`` checks a request, its ``build`` makes the HTML."""
     from . import compliance_report, inspection_report, labels, unit_history
 
     return {
