@@ -27,7 +27,10 @@ from engineering.errors import EngineeringInputError
 from engineering.filters import FilterPoint
 from engineering.psychro import pressure_from_altitude
 from engineering.units import SYSTEMS
-from inspections import evaluation, flags
+from inspections import flags
+from inspections.display import DRIFT_QUANTITIES
+from inspections.evaluation import control_checks, heat_checks, ventilation_checks
+from inspections.evaluation.results import ITEM_CONDITIONS
 
 CONTEXT_VERSION = 1
 # Quantities of readings and reasons; plain ones (percent, current, time) have no conversion.
@@ -80,8 +83,8 @@ def property_table(fluid: str, glycol_pct: float | None = None) -> dict[str, Any
 
 
 def _coil_fluid(specs: dict) -> dict[str, Any]:
-    """A coil's fluid as evaluate() takes it (evaluation.coil_fluid), with its property table."""
-    fluid, glycol_pct, words = evaluation.coil_fluid(specs)
+    """A coil's fluid as evaluate() takes it (heat_checks.coil_fluid), with its property table."""
+    fluid, glycol_pct, words = heat_checks.coil_fluid(specs)
     return {
         "name": fluid,
         "glycol_pct": glycol_pct,
@@ -102,12 +105,12 @@ def _slot(slot) -> dict[str, Any]:
         "choices": it.choices or [],
         "limits_source": it.limits_source or "",
         "limits": dict(slot.limits or {}),
-        "condition": evaluation.ITEM_CONDITIONS.get(it.api_key, ""),
+        "condition": ITEM_CONDITIONS.get(it.api_key, ""),
     }
 
 
 def _requirement(need) -> dict[str, Any] | None:
-    """The unit's ventilation requirement (``evaluation.ventilation_requirement``, ASHRAE 62.1, worked on the
+    """The unit's ventilation requirement (``ventilation_checks.ventilation_requirement``, ASHRAE 62.1, worked on the
     server) as the numbers the phone shows."""
     if need is None:
         return None
@@ -121,7 +124,7 @@ def _requirement(need) -> dict[str, Any] | None:
         "vou_m3s": need.vou_m3s,
         "ev": need.ev,
         "method": need.method,
-        "words": evaluation._requirement_words(need),
+        "words": ventilation_checks._requirement_words(need),
     }
 
 
@@ -135,11 +138,11 @@ def _site_pressure(ahu) -> float | None:
 def constants() -> dict[str, Any]:
     """The thresholds and defaults evaluate() judges with, as the phone (checklist and calculator) needs them."""
     return {
-        "coil_tolerance_pct": evaluation.COIL_TOLERANCE_PCT,
-        "requirement_words": dict(evaluation.REQUIREMENT_WORDS),
-        "airflow_uncertainty": dict(evaluation.AIRFLOW_UNCERTAINTY),
-        "drift_defaults": {k: list(v) for k, v in evaluation.DRIFT_DEFAULTS.items()},
-        "drift_quantities": {k: list(v) for k, v in evaluation.DRIFT_QUANTITIES.items()},
+        "coil_tolerance_pct": heat_checks.COIL_TOLERANCE_PCT,
+        "requirement_words": dict(ventilation_checks.REQUIREMENT_WORDS),
+        "airflow_uncertainty": dict(ventilation_checks.AIRFLOW_UNCERTAINTY),
+        "drift_defaults": {k: list(v) for k, v in control_checks.DRIFT_DEFAULTS.items()},
+        "drift_quantities": {k: list(v) for k, v in DRIFT_QUANTITIES.items()},
         "filter_exponent": filters.DEFAULT_EXPONENT,
         "filter_airflow_ratio": list(filters.AIRFLOW_RATIO),
         "filter_bypass_fail_fraction": filters.BYPASS_FAIL_FRACTION,
@@ -169,7 +172,7 @@ def evaluation_context(
                 }
                 for p in filter_points(c)
             ]
-    need = evaluation.ventilation_requirement(ahu)
+    need = ventilation_checks.ventilation_requirement(ahu)
     return {
         "version": CONTEXT_VERSION,
         "unit": {
@@ -179,7 +182,7 @@ def evaluation_context(
             "supply_air_setpoint_c": ahu.supply_air_setpoint_c,
             "duct_static_setpoint_pa": ahu.duct_static_setpoint_pa,
             "space_kind": ahu.space_kind or "",
-            "space_label": evaluation.space_label(ahu),
+            "space_label": ventilation_checks.space_label(ahu),
             "site_pressure_pa": _site_pressure(ahu),
             "required_outdoor_airflow_m3s": None if need is None else need.vot_m3s,
             "ventilation_requirement": _requirement(need),

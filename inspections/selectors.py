@@ -486,7 +486,7 @@ class FilterSeriesPoint:
     at: dt.datetime  # when the visit's form was finished; for a trend day, the site's day's end
     inspection_id: int | None  # None for a point that no visit read
     dp_pa: float  # as read
-    airflow_m3s: float  # airflow at the visit, by inspections.evaluation.supply_airflow
+    airflow_m3s: float  # airflow at the visit, by inspections.evaluation.form.supply_airflow
     corrected_dp_pa: float  # at the bank's design airflow, by engineering.filters.corrected_pressure_drop
     run_hours: float | None  # the unit's run-hour meter at the visit; for a trend day, the trend-fed meter's
     after_change: bool  # read just after fitting new filters
@@ -604,7 +604,7 @@ def _series_point(
 
 def filter_series_for(*, components: list[Component], before: dt.datetime | None = None) -> dict[int, FilterSeries]:
     """``filter_series`` of several banks at once, {component id: series}, in a fixed number of queries."""
-    from . import evaluation
+    from .evaluation.form import Form, Value, supply_airflow
 
     banks = [c for c in components if c.kind == "filter_bank"]
     rows = (
@@ -640,14 +640,14 @@ def filter_series_for(*, components: list[Component], before: dt.datetime | None
 
     def airflow_at(bank: Component, insp_id: int) -> float:
         if insp_id not in airflow:
-            form = evaluation.Form(
+            form = Form(
                 ahu=ahus[bank.ahu_id],
                 components=fans.get(bank.ahu_id, []),
-                values={(f"visit.{k}", None): evaluation.Value(number=x) for k, x in values.get(insp_id, {}).items()},
+                values={(f"visit.{k}", None): Value(number=x) for k, x in values.get(insp_id, {}).items()},
                 slots=[],
                 finished_at=dt.datetime.min,
             )
-            airflow[insp_id] = evaluation.supply_airflow(form)[0]
+            airflow[insp_id] = supply_airflow(form)[0]
         return airflow[insp_id]
 
     extra: dict[int, list[FilterSeriesPoint]] = {}

@@ -29,7 +29,7 @@ from engineering.outdoor_air import fraction_words
 from scheduling.titles import title_fit
 
 from .. import reasons as rs
-from ..evaluation import ITEM_CONDITIONS, SEVERITY
+from ..evaluation.results import ITEM_CONDITIONS, SEVERITY
 from ..models import Evaluation, Finding, Inspection
 
 FREEZE_LEAD_DAYS = 30

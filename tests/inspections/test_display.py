@@ -15,11 +15,12 @@ from collections import defaultdict
 import pytest
 
 from inspections import display, evaluation
+from inspections.evaluation.results import SEVERITY
 from tests.inspections.test_phone_agreement import FOCUS, make_case, python_results
 
 # An internal token: a snake_case name or a dotted item key, an argument with "=", a Python boolean.
 INTERNAL = re.compile(r"\b[a-z][a-z0-9]*(?:_[a-z0-9]+)+\b|\b\w+=|\bTrue\b|\bFalse\b|\bna\b|\bco2\b")
-CODES = set(evaluation.SEVERITY) | {c for c in evaluation.CHECKS if "_" in c}
+CODES = set(SEVERITY) | {c for c in evaluation.CHECKS if "_" in c}
 
 
 def leaks(text: str) -> list[str]:

@@ -30,6 +30,7 @@ import pytest
 from engineering import ventilation
 from engineering.filters import FilterPoint
 from inspections import checklists, evaluation, phone
+from inspections.evaluation.ventilation_checks import required_outdoor_airflow_m3s
 from inspections.selectors import _matches, item_limits
 from tests.conftest import service_missing
 from tests.phone_js import node_json
@@ -253,7 +254,7 @@ def _full_oa(rng, ahu, comps, values, points):
     if rng.random() < 0.7:
         ahu.space_kind = rng.choice(list(ventilation.SPACE_KINDS)[:6])
         ahu.floor_area_m2 = rng.choice([200.0, 800.0, 2500.0])
-    need = evaluation.required_outdoor_airflow_m3s(ahu)
+    need = required_outdoor_airflow_m3s(ahu)
     target = need if need and rng.random() < 0.6 else ahu.design_supply_airflow_m3s
     roll = rng.random()
     if roll < 0.65:
@@ -512,12 +513,12 @@ def test_every_server_check_has_a_phone_twin(agreement):
 
 
 def test_every_check_name_in_the_server_code_is_registered():
-    """A check name written in evaluation.py (literal, or an f-string's fixed start) is listed in evaluation.CHECKS,
-    so a new server check cannot slip past the phone-twin test above."""
-    source = Path(evaluation.__file__).read_text(encoding="utf-8")
+    """A check name written in the evaluation package (literal, or an f-string's fixed start) is listed in
+    evaluation.CHECKS, so a new server check cannot slip past the phone-twin test above."""
+    source = "\n".join(p.read_text(encoding="utf-8") for p in sorted(Path(evaluation.__file__).parent.glob("*.py")))
     literal = set(re.findall(r'check="([a-z_]+)"', source))
     prefixes = set(re.findall(r'check=f"([a-z_]+)\{', source))
-    assert literal, "no check names found: the scan no longer matches evaluation.py"
+    assert literal, "no check names found: the scan no longer matches the evaluation package"
     assert literal <= set(evaluation.CHECKS), f"not in evaluation.CHECKS: {sorted(literal - set(evaluation.CHECKS))}"
     for prefix in prefixes:
         assert any(c.startswith(prefix) for c in evaluation.CHECKS), f"no registered check starts with {prefix!r}"

@@ -1,6 +1,6 @@
 """Reading verdicts in plain words: no doubled words, no raw or contradictory limits, readable ranges.
 
-The server's words (inspections/reasons.py, inspections/evaluation.py) and the phone's (units.js, limits.js,
+The server's words (inspections/reasons.py, inspections/evaluation/) and the phone's (units.js, limits.js,
 evaluate.js) say the same; the phone agreement test holds evaluate.js to the server's reason text.
 """
 
@@ -12,7 +12,7 @@ from types import SimpleNamespace
 
 import pytest
 
-from inspections.evaluation import _band_parts
+from inspections.evaluation.readings import _band_parts
 from inspections.reasons import render, span
 
 JS = Path(__file__).resolve().parents[2] / "frontend" / "static" / "frontend" / "js"

@@ -1,4 +1,4 @@
-// The phone's twin of inspections/evaluation.py: the same judgements, offline, from the
+// The phone's twin of inspections/evaluation/: the same judgements, offline, from the
 // evaluation context the server ships with the checklist (inspections/phone.py).
 // Pure: no DOM, no network. SI values in, SI values out; reasons as parts rendered in the
 // person's units (units.js). tests/inspections/test_phone_agreement.py runs both sides on
@@ -550,7 +550,7 @@ function fmtDate(iso) {
 }
 
 function noForecastWords(exc) {
-  // Why a bank has no change date, in plain words (as inspections.evaluation._no_forecast_words).
+  // Why a bank has no change date, in plain words (as inspections.evaluation.filter_checks._no_forecast_words).
   if (exc.notRising) return "; the trend gives no change date (pressure drop not rising)";
   if (exc.tooFew !== undefined) {
     const n = exc.tooFew;
@@ -779,7 +779,7 @@ function oaChecks(form) {
   return out;
 }
 
-// A 100 % outdoor-air unit's delivered outdoor air (evaluation._full_oa_checks): its supply airflow against
+// A 100 % outdoor-air unit's delivered outdoor air (evaluation.ventilation_checks.full_oa_checks): its supply airflow against
 // the space's requirement and its design airflow, each within the airflow's uncertainty.
 function airflowBandVerdict(flow, u, minimum) {
   if (flow >= minimum) return OK;
@@ -1042,7 +1042,7 @@ function bandParts(slot, x, lim, verdict) {
   const wLo = lim.watch_min ?? okLo;
   const wHi = lim.watch_max ?? okHi;
   const head = [`${slot.label.toLowerCase()} `, q(x, slot.quantity, d)];
-  // A one-sided band reads "at most 6.7 A" / "above 6.7 A", never "outside at most" (evaluation._band_parts).
+  // A one-sided band reads "at most 6.7 A" / "above 6.7 A", never "outside at most" (evaluation.readings._band_parts).
   const inside = (lo, hi) => [lo !== null && hi !== null ? " within " : " ", span(lo, hi, slot.quantity, d)];
   const outside = (lo, hi) => {
     if (lo !== null && hi !== null) return [" outside ", span(lo, hi, slot.quantity, d)];

@@ -1,0 +1,53 @@
+"""Judging a submitted inspection: every formula through ``engineering``.
+
+``evaluate`` takes the readings of one form (SI values) and the unit, and
+returns one ``Result`` per judgement: a reading against its bands, or a
+check over several readings (filter loading and forecast, outdoor-air
+fraction, coil heat balance, set-point and position deviations, sensor
+drift, fan proving, freeze protection). Each result carries its verdict, a
+plain reason, the method and the derived values (SI, units in the key names).
+
+One module per family of checks: ``readings`` (single answers and numbers),
+``filter_checks``, ``ventilation_checks``, ``heat_checks`` (coils, heat
+recovery), ``control_checks`` (set points, dampers, sensor drift); what they
+read is ``form``, what they give is ``results``.
+"""
+
+from __future__ import annotations
+
+from .control_checks import damper_checks, drift_checks, duct_static_checks, supply_temperature_checks
+from .filter_checks import filter_change_checks, filter_loading_checks
+from .form import Form, Value
+from .heat_checks import coil_checks, heat_recovery_checks
+from .readings import reading_result
+from .results import CHECKS, Result
+from .ventilation_checks import full_oa_checks, oa_fraction_checks
+
+__all__ = ["CHECKS", "Form", "Result", "Value", "evaluate"]
+
+
+def evaluate(form: Form) -> list[Result]:
+    """Every judgement of one form, cross-reading checks first, then the remaining single readings."""
+    consumed: set[tuple[str, int | None]] = set()
+    results: list[Result] = []
+    for fn in (
+        filter_loading_checks,
+        filter_change_checks,
+        oa_fraction_checks,
+        full_oa_checks,
+        coil_checks,
+        supply_temperature_checks,
+        duct_static_checks,
+        damper_checks,
+        drift_checks,
+        heat_recovery_checks,
+    ):
+        results.extend(fn(form, consumed))
+    for slot in form.slots:
+        key = (slot.item.api_key, slot.component.pk if slot.component else None)
+        if key in consumed or key not in form.values:
+            continue
+        res = reading_result(slot, form.values[key])
+        if res is not None:
+            results.append(res)
+    return results
