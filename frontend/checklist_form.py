@@ -13,7 +13,7 @@ import uuid
 
 from django.utils import timezone
 
-from inspections.checklists import cautions_once
+from inspections.cautions import cautions_once
 
 
 def field_name(prefix: str, key: str, component: str | None) -> str:
@@ -53,7 +53,7 @@ def form_sections(checklist: dict) -> list[dict]:
 
 
 def cautions_for(checklist: dict) -> list[str]:
-    """Every caution once, the local-codes-first line always last (inspections.checklists.cautions_once)."""
+    """Every caution once, the local-codes-first line always last (inspections.cautions.cautions_once)."""
     return cautions_once(
         lists=[checklist.get("cautions", []), *(t.get("cautions", []) for t in checklist.get("templates", []))]
     )

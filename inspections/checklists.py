@@ -6,7 +6,7 @@ Values are SI storage units (Pa, °C, m³/s, ppm, rev/s, A, s, h, %). Limits:
 ``ok``/``watch`` — the bands of a simple verdict. Where a band depends on the
 unit or the part (a filter's clean and final pressure drop, a motor's
 full-load current, a damper's rated stroke time) ``limits_from`` names the
-rule in ``dynamic_limits`` that sets it. Each limit says where it comes from;
+rule in ``inspections.limits.dynamic_limits`` that sets it. Each limit says where it comes from;
 most are common practice (no published source), said so.
 
 Bump a template's ``version`` whenever its items change; ``checklist_library_load``
@@ -18,149 +18,25 @@ from __future__ import annotations
 
 from typing import Any
 
-from engineering import filters as eng_filters
-from engineering import formatting as fmt
-
-LOCKOUT = (
-    "Lock out and tag out the fan motor (and any electric heater) and prove it dead before opening an "
-    "access door: fans coast for minutes after switch-off."
+from .cautions import (
+    ELECTRIC,
+    HOT_COILS,
+    LOADED_FILTERS,
+    LOCAL_CODES,
+    LOCKOUT,
+    RUNNING_FAN,
 )
-HOT_COILS = "Heating coils, their valves and pipework can be hot enough to burn; let them cool or wear gloves."
-LOCAL_CODES = "Local codes, the manufacturer's instructions and licensed practice take precedence over this checklist."
-ELECTRIC = (
-    "Electric preheaters are live at mains voltage: only a qualified person tests stages, "
-    "with the heater isolated except for the test itself."
+from .checklist_items import (
+    CO2_PHYSICAL,
+    LIQUIDS,
+    PCT,
+    air_temp,
+    check,
+    choice,
+    fluid_temp,
+    item,
+    photo,
 )
-# Proving a fan means stopping and starting it with the unit live, so lockout cannot cover the test itself.
-RUNNING_FAN = (
-    "Fans under test start and stop under control (schedule, building automation, fire and smoke "
-    "controls) without warning: keep access doors shut while the fan can run, keep clear of belts, "
-    "shafts and impellers, and lock out and tag out before reaching inside."
-)
-LOADED_FILTERS = (
-    "Wear eye and hand protection when handling loaded filters: bag used filters at the unit "
-    "so the dust they hold stays in."
-)
-GENERAL_CAUTIONS = [LOCKOUT, HOT_COILS, LOCAL_CODES]
-# Water and steam coils: common practice (no published source), as the other cautions here.
-PRESSURISED_COILS = (
-    "Coils and their pipework hold hot water or steam under pressure: close and lock both isolating valves "
-    "and let the pressure off before opening a joint, vent or drain."
-)
-# The cautions of work on one kind of part, where repair work is proposed or looked into (before its checklist
-# exists); any other kind sits in the airstream beside the fan, so lockout first.
-COMPONENT_CAUTIONS: dict[str, list[str]] = {
-    "fan": [LOCKOUT, RUNNING_FAN],
-    "electric_preheater": [LOCKOUT, ELECTRIC, HOT_COILS],
-    "coil": [LOCKOUT, HOT_COILS, PRESSURISED_COILS],
-    "humidifier": [LOCKOUT, HOT_COILS],
-}
-
-
-def cautions_once(*, lists: list[list[str]]) -> list[str]:
-    """Every caution of ``lists`` once, in first-seen order; the local-codes-first line last.
-
-    The one rule for a safety box: the phone's checklist, its page and the inspection PDF all
-    list cautions through it, so a caution repeated by several templates reads once.
-    """
-    seen: list[str] = []
-    for texts in lists:
-        for text in texts:
-            if text and text not in seen:
-                seen.append(text)
-    codes = [c for c in seen if "local code" in c.lower()] or [LOCAL_CODES]
-    return [c for c in seen if c not in codes] + codes[:1]
-
-
-# Ranges that no reading in an AHU can leave (SI). Air from −60 to 120 °C
-# covers any climate and a heater outlet; fluids −40 to 200 °C cover brine to
-# steam condensate. Beyond these, the number is a typo or a wrong unit.
-AIR_T_PHYSICAL = (-60.0, 120.0)
-AIR_T_PLAUSIBLE = (-40.0, 60.0)
-FLUID_T_PHYSICAL = (-40.0, 200.0)
-FLUID_T_PLAUSIBLE = (-10.0, 130.0)
-CO2_PHYSICAL = (0.0, 50_000.0)
-PCT = (0.0, 100.0)
-
-OK_CHOICE = "ok"  # marker key in choice dicts
-
-
-def _choice(value: str, label: str, ok: bool = True) -> dict:
-    return {"value": value, "label": label, "ok": ok}
-
-
-def item(
-    key: str,
-    kind: str,
-    label: str,
-    *,
-    quantity: str = "",
-    per: str = "",
-    where: dict | None = None,
-    unit_where: dict | None = None,
-    physical: tuple[float | None, float | None] = (None, None),
-    plausible: tuple[float | None, float | None] = (None, None),
-    ok: tuple[float | None, float | None] = (None, None),
-    watch: tuple[float | None, float | None] = (None, None),
-    limits_from: str = "",
-    source: str = "",
-    required: bool = False,
-    photo: bool = False,
-    note: bool = False,
-    server: bool = False,
-    choices: list[dict] | None = None,
-    help: str = "",
-    decimals: int = 1,
-) -> dict[str, Any]:
-    return {
-        "key": key,
-        "kind": kind,
-        "label": label,
-        "help": help,
-        "quantity": quantity,
-        "decimals": decimals,
-        "component_kind": per,
-        "component_filter": where or {},
-        "unit_filter": unit_where or {},
-        "choices": choices or [],
-        "physical_min": physical[0],
-        "physical_max": physical[1],
-        "plausible_min": plausible[0],
-        "plausible_max": plausible[1],
-        "ok_min": ok[0],
-        "ok_max": ok[1],
-        "watch_min": watch[0],
-        "watch_max": watch[1],
-        "limits_from": limits_from,
-        "limits_source": source,
-        "judged_on_server": server,
-        "required": required,
-        "photo_required_when_not_ok": photo,
-        "note_required_when_not_ok": note,
-    }
-
-
-def air_temp(key: str, label: str, **kw) -> dict:
-    return item(key, "number", label, quantity="temperature", physical=AIR_T_PHYSICAL, plausible=AIR_T_PLAUSIBLE, **kw)
-
-
-# Coil fluids whose heat flow and temperatures give the fluid-side heat (engineering.airside.water_side_heat_w).
-LIQUIDS = ["water", "glycol"]
-
-
-def fluid_temp(key: str, label: str, **kw) -> dict:
-    return item(
-        key, "number", label, quantity="temperature", physical=FLUID_T_PHYSICAL, plausible=FLUID_T_PLAUSIBLE, **kw
-    )
-
-
-def check(key: str, label: str, **kw) -> dict:
-    return item(key, "check", label, **kw)
-
-
-def photo(key: str = "photo", label: str = "Photo", **kw) -> dict:
-    return item(key, "photo", label, **kw)
-
 
 CP = "common practice, no published source"
 
@@ -273,9 +149,9 @@ TEMPLATES: list[dict[str, Any]] = [
                 required=True,
                 photo=True,
                 choices=[
-                    _choice("clean", "Clean"),
-                    _choice("loaded", "Loaded, intact"),
-                    _choice("damaged", "Torn, wet or collapsed", ok=False),
+                    choice("clean", "Clean"),
+                    choice("loaded", "Loaded, intact"),
+                    choice("damaged", "Torn, wet or collapsed", ok=False),
                 ],
             ),
             photo("photo", "Photo of the bank", per="filter_bank"),
@@ -328,9 +204,9 @@ TEMPLATES: list[dict[str, Any]] = [
                 photo=True,
                 note=True,
                 choices=[
-                    _choice("good", "Good"),
-                    _choice("worn", "Worn or glazed", ok=False),
-                    _choice("cracked", "Cracked or frayed", ok=False),
+                    choice("good", "Good"),
+                    choice("worn", "Worn or glazed", ok=False),
+                    choice("cracked", "Cracked or frayed", ok=False),
                 ],
             ),
             item(
@@ -342,13 +218,25 @@ TEMPLATES: list[dict[str, Any]] = [
                 required=True,
                 note=True,
                 choices=[
-                    _choice("correct", "Within the maker's deflection"),
-                    _choice("loose", "Loose", ok=False),
-                    _choice("tight", "Too tight", ok=False),
+                    choice("correct", "Within the maker's deflection"),
+                    choice("loose", "Loose", ok=False),
+                    choice("tight", "Too tight", ok=False),
                 ],
             ),
-            check("alignment", "Pulleys aligned (straight edge)", per="fan", where={"drive": "belt"}, note=True),
-            check("guard", "Belt guard refitted", per="fan", where={"drive": "belt"}, required=True),
+            check(
+                "alignment",
+                "Pulleys aligned (straight edge)",
+                per="fan",
+                where={"drive": "belt"},
+                note=True,
+            ),
+            check(
+                "guard",
+                "Belt guard refitted",
+                per="fan",
+                where={"drive": "belt"},
+                required=True,
+            ),
             photo("photo", "Photo of the drive", per="fan", where={"drive": "belt"}),
         ],
     },
@@ -366,12 +254,16 @@ TEMPLATES: list[dict[str, Any]] = [
                 required=True,
                 note=True,
                 choices=[
-                    _choice("normal", "Normal"),
-                    _choice("rough", "Rough or noisy", ok=False),
-                    _choice("severe", "Severe", ok=False),
+                    choice("normal", "Normal"),
+                    choice("rough", "Rough or noisy", ok=False),
+                    choice("severe", "Severe", ok=False),
                 ],
             ),
-            check("lubricated", "Bearings lubricated to the maker's schedule (n.a. if sealed)", per="fan"),
+            check(
+                "lubricated",
+                "Bearings lubricated to the maker's schedule (n.a. if sealed)",
+                per="fan",
+            ),
             item(
                 "fan_speed",
                 "number",
@@ -410,7 +302,12 @@ TEMPLATES: list[dict[str, Any]] = [
                 required=True,
                 note=True,
             ),
-            check("running_status", "Fan status shows running when the fan runs", per="fan", required=True),
+            check(
+                "running_status",
+                "Fan status shows running when the fan runs",
+                per="fan",
+                required=True,
+            ),
         ],
     },
     {
@@ -428,15 +325,25 @@ TEMPLATES: list[dict[str, Any]] = [
                 required=True,
                 photo=True,
                 choices=[
-                    _choice("clean", "Clean"),
-                    _choice("dirty", "Dirty: cleaned now"),
-                    _choice("blocked", "Blocked or damaged", ok=False),
+                    choice("clean", "Clean"),
+                    choice("dirty", "Dirty: cleaned now"),
+                    choice("blocked", "Blocked or damaged", ok=False),
                 ],
             ),
             air_temp("air_in", "Entering air temperature", per="coil"),
             air_temp("air_out", "Leaving air temperature", per="coil"),
-            fluid_temp("water_in", "Entering water or glycol temperature", per="coil", where={"fluid": LIQUIDS}),
-            fluid_temp("water_out", "Leaving water or glycol temperature", per="coil", where={"fluid": LIQUIDS}),
+            fluid_temp(
+                "water_in",
+                "Entering water or glycol temperature",
+                per="coil",
+                where={"fluid": LIQUIDS},
+            ),
+            fluid_temp(
+                "water_out",
+                "Leaving water or glycol temperature",
+                per="coil",
+                where={"fluid": LIQUIDS},
+            ),
             item(
                 "water_flow",
                 "number",
@@ -466,10 +373,10 @@ TEMPLATES: list[dict[str, Any]] = [
                 photo=True,
                 note=True,
                 choices=[
-                    _choice("clean", "Clean and dry or draining"),
-                    _choice("slime", "Slime or debris: cleaned now"),
-                    _choice("standing", "Standing water", ok=False),
-                    _choice("corroded", "Corroded or leaking", ok=False),
+                    choice("clean", "Clean and dry or draining"),
+                    choice("slime", "Slime or debris: cleaned now"),
+                    choice("standing", "Standing water", ok=False),
+                    choice("corroded", "Corroded or leaking", ok=False),
                 ],
             ),
             check(
@@ -490,13 +397,29 @@ TEMPLATES: list[dict[str, Any]] = [
         "title": "Cooling season check",
         "cautions": [LOCKOUT, LOCAL_CODES],
         "items": [
-            air_temp("air_in", "Air entering the cooling coil", per="coil", where={"duty": "cooling"}),
-            air_temp("air_out", "Air leaving the cooling coil", per="coil", where={"duty": "cooling"}),
-            fluid_temp(
-                "water_in", "Chilled water or glycol entering", per="coil", where={"duty": "cooling", "fluid": LIQUIDS}
+            air_temp(
+                "air_in",
+                "Air entering the cooling coil",
+                per="coil",
+                where={"duty": "cooling"},
+            ),
+            air_temp(
+                "air_out",
+                "Air leaving the cooling coil",
+                per="coil",
+                where={"duty": "cooling"},
             ),
             fluid_temp(
-                "water_out", "Chilled water or glycol leaving", per="coil", where={"duty": "cooling", "fluid": LIQUIDS}
+                "water_in",
+                "Chilled water or glycol entering",
+                per="coil",
+                where={"duty": "cooling", "fluid": LIQUIDS},
+            ),
+            fluid_temp(
+                "water_out",
+                "Chilled water or glycol leaving",
+                per="coil",
+                where={"duty": "cooling", "fluid": LIQUIDS},
             ),
             item(
                 "water_flow",
@@ -510,8 +433,17 @@ TEMPLATES: list[dict[str, Any]] = [
                 decimals=2,
             ),
             air_temp("supply_air", "Supply-air temperature", server=True, required=True),
-            air_temp("supply_setpoint", "Supply-air set point (as shown on the controller)", required=True),
-            check("valve_strokes", "Chilled-water valve strokes fully open and closed", required=True, note=True),
+            air_temp(
+                "supply_setpoint",
+                "Supply-air set point (as shown on the controller)",
+                required=True,
+            ),
+            check(
+                "valve_strokes",
+                "Chilled-water valve strokes fully open and closed",
+                required=True,
+                note=True,
+            ),
         ],
     },
     {
@@ -558,9 +490,17 @@ TEMPLATES: list[dict[str, Any]] = [
                 source="ok up to 1.2 × rated stroke time, watch to 1.5 × (" + CP + ")",
             ),
             check(
-                "linkage", "Linkage tight, blades move freely, seals intact", per="damper", required=True, photo=True
+                "linkage",
+                "Linkage tight, blades move freely, seals intact",
+                per="damper",
+                required=True,
+                photo=True,
             ),
-            check("fail_safe", "Goes to its fail-safe position on loss of power (n.a. if none)", per="damper"),
+            check(
+                "fail_safe",
+                "Goes to its fail-safe position on loss of power (n.a. if none)",
+                per="damper",
+            ),
         ],
     },
     {
@@ -744,15 +684,24 @@ TEMPLATES: list[dict[str, Any]] = [
                 required=True,
                 photo=True,
                 choices=[
-                    _choice("clean", "Clean"),
-                    _choice("dirty", "Dirty: cleaned now"),
-                    _choice("damaged", "Damaged or leaking", ok=False),
+                    choice("clean", "Clean"),
+                    choice("dirty", "Dirty: cleaned now"),
+                    choice("damaged", "Damaged or leaking", ok=False),
                 ],
             ),
             check("seals", "Seals and brushes intact", per="heat_recovery", required=True),
-            check("drive", "Wheel turns / bypass damper works (n.a. if none)", per="heat_recovery", note=True),
+            check(
+                "drive",
+                "Wheel turns / bypass damper works (n.a. if none)",
+                per="heat_recovery",
+                note=True,
+            ),
             air_temp("outdoor_in", "Outdoor air entering", per="heat_recovery"),
-            air_temp("supply_out", "Outdoor air leaving (after recovery)", per="heat_recovery"),
+            air_temp(
+                "supply_out",
+                "Outdoor air leaving (after recovery)",
+                per="heat_recovery",
+            ),
             air_temp("extract_in", "Extract air entering", per="heat_recovery"),
         ],
     },
@@ -770,9 +719,9 @@ TEMPLATES: list[dict[str, Any]] = [
                 required=True,
                 photo=True,
                 choices=[
-                    _choice("clear", "Clear"),
-                    _choice("partly", "Partly blocked: cleared now"),
-                    _choice("blocked", "Blocked or damaged", ok=False),
+                    choice("clear", "Clear"),
+                    choice("partly", "Partly blocked: cleared now"),
+                    choice("blocked", "Blocked or damaged", ok=False),
                 ],
             ),
             check(
@@ -798,9 +747,9 @@ TEMPLATES: list[dict[str, Any]] = [
                 required=True,
                 photo=True,
                 choices=[
-                    _choice("clean", "Clean"),
-                    _choice("scaled", "Scaled: cleaned now"),
-                    _choice("fouled", "Fouled, leaking or biofilm", ok=False),
+                    choice("clean", "Clean"),
+                    choice("scaled", "Scaled: cleaned now"),
+                    choice("fouled", "Fouled, leaking or biofilm", ok=False),
                 ],
             ),
             check("drain", "Drain and flush work", per="humidifier", required=True),
@@ -824,8 +773,18 @@ TEMPLATES: list[dict[str, Any]] = [
         "title": "Controls",
         "cautions": [LOCAL_CODES],
         "items": [
-            air_temp("supply_air", "Supply-air temperature", required=True, server=True, note=True),
-            air_temp("supply_setpoint", "Supply-air set point (as shown on the controller)", required=True),
+            air_temp(
+                "supply_air",
+                "Supply-air temperature",
+                required=True,
+                server=True,
+                note=True,
+            ),
+            air_temp(
+                "supply_setpoint",
+                "Supply-air set point (as shown on the controller)",
+                required=True,
+            ),
             item(
                 "duct_static",
                 "number",
@@ -846,7 +805,12 @@ TEMPLATES: list[dict[str, Any]] = [
                 plausible=(10, 2_500),
                 decimals=0,
             ),
-            check("alarms", "No standing alarms on the controller", required=True, note=True),
+            check(
+                "alarms",
+                "No standing alarms on the controller",
+                required=True,
+                note=True,
+            ),
             check("schedule", "Time schedule matches the building's hours", required=True),
         ],
     },
@@ -857,8 +821,19 @@ TEMPLATES: list[dict[str, Any]] = [
         "cautions": [LOCAL_CODES],
         "items": [
             air_temp("outdoor_air", "Outdoor air temperature", required=True),
-            air_temp("return_air", "Return air temperature", required=True, unit_where=RECIRCULATING),
-            air_temp("mixed_air", "Mixed air temperature", required=True, server=True, unit_where=RECIRCULATING),
+            air_temp(
+                "return_air",
+                "Return air temperature",
+                required=True,
+                unit_where=RECIRCULATING,
+            ),
+            air_temp(
+                "mixed_air",
+                "Mixed air temperature",
+                required=True,
+                server=True,
+                unit_where=RECIRCULATING,
+            ),
             item(
                 "outdoor_co2",
                 "number",
@@ -903,59 +878,6 @@ TEMPLATES: list[dict[str, Any]] = [
 ]
 
 TASK_CODES = [t["code"] for t in TEMPLATES]
-
-
-# A reading's units, labels and conversion are engineering.formatting's; these take a missing value through.
-def display_unit_label(quantity: str, system: str) -> str:
-    return fmt.unit_text(quantity=quantity, system=system)
-
-
-def to_display(value: float | None, quantity: str, system: str) -> float | None:
-    return None if value is None else fmt.display_value(value, quantity=quantity, system=system)
-
-
-def from_display(value: float, quantity: str, system: str) -> float:
-    return fmt.stored_value(value, quantity=quantity, system=system)
-
-
-def dynamic_limits(*, rule: str, ahu, component) -> dict[str, float | None]:
-    """ok/watch bands (SI) that depend on the unit or the part; {} when the data is missing."""
-    specs = component.specs if component is not None else {}
-    if rule == "filter_span":
-        clean, final = specs.get("clean_dp_pa"), specs.get("final_dp_pa")
-        if clean is None or final is None:
-            return {}
-        span = final - clean
-        # Far below clean means missing, torn or bypassed media (engineering.filters, common practice).
-        return {
-            "ok_min": eng_filters.BYPASS_WATCH_FRACTION * clean,
-            "ok_max": clean + 0.75 * span,
-            "watch_min": eng_filters.BYPASS_FAIL_FRACTION * clean,
-            "watch_max": clean + 0.95 * span,
-        }
-    if rule == "filter_clean":
-        clean = specs.get("clean_dp_pa")
-        if clean is None:
-            return {}
-        tol = eng_filters.AFTER_CHANGE_TOLERANCE
-        return {
-            "ok_min": (1 - tol) * clean,
-            "ok_max": (1 + tol) * clean,
-            "watch_min": eng_filters.BYPASS_FAIL_FRACTION * clean,
-            "watch_max": eng_filters.AFTER_CHANGE_HIGH_FAIL * clean,
-        }
-    if rule == "motor_fla":
-        fla = specs.get("motor_full_load_a")
-        return {} if fla is None else {"ok_max": fla, "watch_max": 1.1 * fla}
-    if rule == "damper_stroke":
-        rated = specs.get("stroke_time_s")
-        return {} if rated is None else {"ok_max": 1.2 * rated, "watch_max": 1.5 * rated}
-    if rule == "preheat_threshold":
-        th = specs.get("switch_on_c")
-        if th is None:
-            return {}
-        return {"ok_min": th - 1.0, "ok_max": th + 1.0, "watch_min": th - 2.0, "watch_max": th + 2.0}
-    return {}
 
 
 def all_templates() -> list[dict[str, Any]]:

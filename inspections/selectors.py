@@ -23,6 +23,8 @@ from scheduling.selectors import work_order_for
 from scheduling.selectors import work_orders_visible_to as scheduling_work_orders_visible_to
 
 from . import checklists
+from .cautions import COMPONENT_CAUTIONS, GENERAL_CAUTIONS, LOCKOUT, cautions_once
+from .limits import dynamic_limits
 from .models import ChecklistItem, ChecklistTemplate, Evaluation, Finding, Inspection, Photo, Reading
 from .services.library import templates_current
 
@@ -264,7 +266,7 @@ def _allowed(value, wanted) -> bool:
 
 
 def _unit_matches(ahu: AHU, item: ChecklistItem) -> bool:
-    """Whether the unit can have the item's inputs (``unit_where`` in inspections/checklists.py)."""
+    """Whether the unit can have the item's inputs (``unit_where`` of inspections.checklist_items.item)."""
     return all(_allowed(getattr(ahu, k, None), v) for k, v in (item.unit_filter or {}).items())
 
 
@@ -306,7 +308,7 @@ def item_limits(*, item: ChecklistItem, ahu: AHU, component: Component | None) -
         )
     }
     if item.limits_from:
-        limits.update(checklists.dynamic_limits(rule=item.limits_from, ahu=ahu, component=component))
+        limits.update(dynamic_limits(rule=item.limits_from, ahu=ahu, component=component))
     return limits
 
 
@@ -351,25 +353,22 @@ def checklist_build(*, work_order: WorkOrder, templates: dict[str, ChecklistTemp
 def checklist_cautions(*, checklist: Checklist) -> list[str]:
     """The safety box of a work order's checklist: each template's cautions and the general ones, each once.
 
-    The phone, the checklist page and the inspection PDF show this list (checklists.cautions_once).
+    The phone, the checklist page and the inspection PDF show this list (``inspections.cautions.cautions_once``).
     """
-    return checklists.cautions_once(lists=[*(t.cautions for t in checklist.templates), checklists.GENERAL_CAUTIONS])
+    return cautions_once(lists=[*(t.cautions for t in checklist.templates), GENERAL_CAUTIONS])
 
 
 def repair_cautions(*, component_kind: str | None, condition_code: str = "") -> list[str]:
     """The safety box where repair work is proposed, approved or looked into (proposed corrective work, a fault,
     a finding), before its checklist is on a phone: the cautions of the part's kind
-    (``checklists.COMPONENT_CAUTIONS``; the whole unit: the general ones), then those of the checklist the
-    condition raises, each once, the local-codes-first line last (``checklists.cautions_once``)."""
-    if component_kind:
-        by_kind = checklists.COMPONENT_CAUTIONS.get(component_kind, [checklists.LOCKOUT])
-    else:
-        by_kind = checklists.GENERAL_CAUTIONS
+    (``inspections.cautions.COMPONENT_CAUTIONS``; the whole unit: the general ones), then those of the checklist the
+    condition raises, each once, the local-codes-first line last (``cautions_once``)."""
+    by_kind = COMPONENT_CAUTIONS.get(component_kind, [LOCKOUT]) if component_kind else GENERAL_CAUTIONS
     code = CONDITION_TEMPLATES.get(condition_code or "")
     raised: list[str] = (
         next((t["cautions"] for t in checklists.all_templates() if t["code"] == code), []) if code else []
     )
-    return checklists.cautions_once(lists=[by_kind, raised])
+    return cautions_once(lists=[by_kind, raised])
 
 
 def work_order_cautions(*, work_order: WorkOrder) -> list[str]:

@@ -23,7 +23,7 @@ from engineering.formatting import significant_text
 from engineering.units import SYSTEMS
 from scheduling.models import WorkOrder
 
-from .. import check, checklists, evaluation, selectors
+from .. import check, evaluation, limits, selectors
 from ..check import Errors
 from ..display import plain_message
 from ..models import Inspection, Photo, Reading
@@ -177,17 +177,17 @@ def reading_parse(parsed: Parsed, i: int, raw: object, seen: set, errors: Errors
         if x is None and parsed.unit_system is None:
             errors.add(f"{at}.value", f"{label}: {check.shown(value)} is not a number")
             return
-        unit = checklists.display_unit_label(it.quantity, parsed.unit_system)
+        unit = limits.display_unit_label(it.quantity, parsed.unit_system)
         lim = slot.limits
-        lo = checklists.to_display(lim.get("physical_min"), it.quantity, parsed.unit_system)
-        hi = checklists.to_display(lim.get("physical_max"), it.quantity, parsed.unit_system)
+        lo = limits.to_display(lim.get("physical_min"), it.quantity, parsed.unit_system)
+        hi = limits.to_display(lim.get("physical_max"), it.quantity, parsed.unit_system)
         if x is None:
             errors.add(
                 f"{at}.value", f"{label}: {check.shown(value)} is not a number; allowed {_range_text(lo, hi, unit)}"
             )
             return
         try:
-            si = checklists.from_display(x, it.quantity, parsed.unit_system)
+            si = limits.from_display(x, it.quantity, parsed.unit_system)
         except EngineeringInputError as exc:
             errors.add(f"{at}.value", f"{label}: {plain_message(exc)}")
             return
@@ -203,8 +203,8 @@ def reading_parse(parsed: Parsed, i: int, raw: object, seen: set, errors: Errors
         plo, phi = lim.get("plausible_min"), lim.get("plausible_max")
         if (plo is not None and si < plo) or (phi is not None and si > phi):
             reading.improbable = True
-            dlo = checklists.to_display(plo, it.quantity, parsed.unit_system)
-            dhi = checklists.to_display(phi, it.quantity, parsed.unit_system)
+            dlo = limits.to_display(plo, it.quantity, parsed.unit_system)
+            dhi = limits.to_display(phi, it.quantity, parsed.unit_system)
             parsed.improbable.append(
                 f"{label}: {_num_text(x)} {unit} is outside the plausible "
                 f"{_range_text(dlo, dhi, unit)}; please check it"

@@ -13,7 +13,7 @@ from django.urls import reverse
 from django.utils.html import escape
 
 from accounts.models import Role
-from inspections import checklists
+from inspections import cautions
 from inspections.selectors import repair_cautions
 from scheduling.models import WorkOrder
 from tests.factories.accounts import make_person
@@ -66,23 +66,23 @@ def test_the_cautions_show_where_the_work_is_proposed_and_looked_into(client, wo
     ):
         html = at(APPROVAL, client, url).content.decode()
         assert "data-cautions" in html, url
-        assert escape(checklists.LOCKOUT) in html and escape(checklists.LOCAL_CODES) in html, url
+        assert escape(cautions.LOCKOUT) in html and escape(cautions.LOCAL_CODES) in html, url
 
 
 def test_the_cautions_fit_the_part():
     fan = repair_cautions(component_kind="fan")
-    assert checklists.LOCKOUT in fan and checklists.RUNNING_FAN in fan and checklists.HOT_COILS not in fan
+    assert cautions.LOCKOUT in fan and cautions.RUNNING_FAN in fan and cautions.HOT_COILS not in fan
     heater = repair_cautions(component_kind="electric_preheater")
-    assert checklists.ELECTRIC in heater and checklists.LOCKOUT in heater
+    assert cautions.ELECTRIC in heater and cautions.LOCKOUT in heater
     coil = repair_cautions(component_kind="coil")
-    assert checklists.HOT_COILS in coil and checklists.PRESSURISED_COILS in coil
+    assert cautions.HOT_COILS in coil and cautions.PRESSURISED_COILS in coil
     unit = repair_cautions(component_kind=None)
-    assert checklists.LOCKOUT in unit and checklists.HOT_COILS in unit
+    assert cautions.LOCKOUT in unit and cautions.HOT_COILS in unit
     # The condition's own checklist adds its cautions; the local-codes-first line closes every box, once.
     proving = repair_cautions(component_kind="damper", condition_code="fan_not_proven")
-    assert checklists.RUNNING_FAN in proving
+    assert cautions.RUNNING_FAN in proving
     for box in (fan, heater, coil, unit, proving):
-        assert box[-1] == checklists.LOCAL_CODES and box.count(checklists.LOCAL_CODES) == 1
+        assert box[-1] == cautions.LOCAL_CODES and box.count(cautions.LOCAL_CODES) == 1
 
 
 def test_proposed_work_says_its_due_date_and_becomes_due_on_the_day_it_is_approved(client, world):

@@ -287,7 +287,7 @@ def test_the_frost_check_from_a_site_says_what_it_made(desk, world):
 def test_the_technicians_form_shows_the_safety_box_of_the_chosen_tasks(desk, world):
     """A call-out with a task in words opens on the phone with the general lockout box; the frost check with the
     freeze-protection task's own cautions (mains-voltage preheaters), as on preventive work."""
-    from inspections.checklists import ELECTRIC, LOCKOUT
+    from inspections.cautions import ELECTRIC, LOCKOUT
     from inspections.services import checklist_library_install
 
     task_library_install()

@@ -29,7 +29,7 @@ import pytest
 
 from engineering import ventilation
 from engineering.filters import FilterPoint
-from inspections import checklists, evaluation, phone
+from inspections import checklists, evaluation, limits, phone
 from inspections.evaluation.ventilation_checks import required_outdoor_airflow_m3s
 from inspections.selectors import _matches, item_limits
 from tests.conftest import service_missing
@@ -649,7 +649,7 @@ def _calc_case(rng: random.Random, name: str) -> dict:
     else:
         si = {"airflow_m3s": rng.uniform(0.1, 8), "t_in_c": rng.uniform(-30, 40), "t_out_c": rng.uniform(-10, 60)}
         quantities = {"airflow_m3s": "airflow", "t_in_c": "temperature", "t_out_c": "temperature"}
-    values = {k: f"{checklists.to_display(v, quantities[k], system):.5g}" for k, v in si.items()}
+    values = {k: f"{limits.to_display(v, quantities[k], system):.5g}" for k, v in si.items()}
     if name == "sensible-heat":
         values["airflow_at"] = rng.choice(["leaving", "entering", ""])
         values["place"] = rng.choice([p.key for p in _calc_places()] + [""])

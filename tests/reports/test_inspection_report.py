@@ -197,12 +197,12 @@ def test_each_caution_once_in_the_safety_box(visit, supervisor, make_report):
     Lockout, the loaded-filter caution (from the filter-replacement checklist) and the local-codes line each
     appear exactly once in the whole document, in the checklist's own words.
     """
-    from inspections import checklists
+    from inspections.cautions import LOADED_FILTERS
     from inspections.selectors import work_order_cautions
 
     add_task(visit, b.library()["filter_replace"], key="2025-03-10-change")
     cautions = work_order_cautions(work_order=visit)
-    assert checklists.LOADED_FILTERS in cautions
+    assert LOADED_FILTERS in cautions
     report = make_report(user=supervisor, kind="inspection", parameters={"work_order": str(visit.public_id)})
     flat = " ".join(pdf_text(report).split())
     for caution in cautions:

@@ -1,0 +1,112 @@
+"""The builders of checklist items (``item`` and its shorthands) and the physical ranges of readings.
+
+``inspections.checklists`` writes its templates with these; an item is a dict of the fields the library
+rows hold (``inspections.services.library``).
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+# Ranges that no reading in an AHU can leave (SI). Air from −60 to 120 °C
+# covers any climate and a heater outlet; fluids −40 to 200 °C cover brine to
+# steam condensate. Beyond these, the number is a typo or a wrong unit.
+AIR_T_PHYSICAL = (-60.0, 120.0)
+AIR_T_PLAUSIBLE = (-40.0, 60.0)
+FLUID_T_PHYSICAL = (-40.0, 200.0)
+FLUID_T_PLAUSIBLE = (-10.0, 130.0)
+CO2_PHYSICAL = (0.0, 50_000.0)
+PCT = (0.0, 100.0)
+
+OK_CHOICE = "ok"  # marker key in choice dicts
+
+
+def choice(value: str, label: str, ok: bool = True) -> dict:
+    return {"value": value, "label": label, "ok": ok}
+
+
+def item(
+    key: str,
+    kind: str,
+    label: str,
+    *,
+    quantity: str = "",
+    per: str = "",
+    where: dict | None = None,
+    unit_where: dict | None = None,
+    physical: tuple[float | None, float | None] = (None, None),
+    plausible: tuple[float | None, float | None] = (None, None),
+    ok: tuple[float | None, float | None] = (None, None),
+    watch: tuple[float | None, float | None] = (None, None),
+    limits_from: str = "",
+    source: str = "",
+    required: bool = False,
+    photo: bool = False,
+    note: bool = False,
+    server: bool = False,
+    choices: list[dict] | None = None,
+    help: str = "",
+    decimals: int = 1,
+) -> dict[str, Any]:
+    return {
+        "key": key,
+        "kind": kind,
+        "label": label,
+        "help": help,
+        "quantity": quantity,
+        "decimals": decimals,
+        "component_kind": per,
+        "component_filter": where or {},
+        "unit_filter": unit_where or {},
+        "choices": choices or [],
+        "physical_min": physical[0],
+        "physical_max": physical[1],
+        "plausible_min": plausible[0],
+        "plausible_max": plausible[1],
+        "ok_min": ok[0],
+        "ok_max": ok[1],
+        "watch_min": watch[0],
+        "watch_max": watch[1],
+        "limits_from": limits_from,
+        "limits_source": source,
+        "judged_on_server": server,
+        "required": required,
+        "photo_required_when_not_ok": photo,
+        "note_required_when_not_ok": note,
+    }
+
+
+def air_temp(key: str, label: str, **kw) -> dict:
+    return item(
+        key,
+        "number",
+        label,
+        quantity="temperature",
+        physical=AIR_T_PHYSICAL,
+        plausible=AIR_T_PLAUSIBLE,
+        **kw,
+    )
+
+
+# Coil fluids whose heat flow and temperatures give the fluid-side heat (engineering.airside.water_side_heat_w).
+LIQUIDS = ["water", "glycol"]
+
+
+def fluid_temp(key: str, label: str, **kw) -> dict:
+    return item(
+        key,
+        "number",
+        label,
+        quantity="temperature",
+        physical=FLUID_T_PHYSICAL,
+        plausible=FLUID_T_PLAUSIBLE,
+        **kw,
+    )
+
+
+def check(key: str, label: str, **kw) -> dict:
+    return item(key, "check", label, **kw)
+
+
+def photo(key: str = "photo", label: str = "Photo", **kw) -> dict:
+    return item(key, "photo", label, **kw)

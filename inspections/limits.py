@@ -1,0 +1,65 @@
+"""A reading's limits: the bands that depend on the unit or the part (``dynamic_limits``, named by an item's
+``limits_from``), and a limit or value shown in the reader's units."""
+
+from __future__ import annotations
+
+from engineering import filters as eng_filters
+from engineering import formatting as fmt
+
+
+# A reading's units, labels and conversion are engineering.formatting's; these take a missing value through.
+def display_unit_label(quantity: str, system: str) -> str:
+    return fmt.unit_text(quantity=quantity, system=system)
+
+
+def to_display(value: float | None, quantity: str, system: str) -> float | None:
+    return None if value is None else fmt.display_value(value, quantity=quantity, system=system)
+
+
+def from_display(value: float, quantity: str, system: str) -> float:
+    return fmt.stored_value(value, quantity=quantity, system=system)
+
+
+def dynamic_limits(*, rule: str, ahu, component) -> dict[str, float | None]:
+    """ok/watch bands (SI) that depend on the unit or the part; {} when the data is missing."""
+    specs = component.specs if component is not None else {}
+    if rule == "filter_span":
+        clean, final = specs.get("clean_dp_pa"), specs.get("final_dp_pa")
+        if clean is None or final is None:
+            return {}
+        span = final - clean
+        # Far below clean means missing, torn or bypassed media (engineering.filters, common practice).
+        return {
+            "ok_min": eng_filters.BYPASS_WATCH_FRACTION * clean,
+            "ok_max": clean + 0.75 * span,
+            "watch_min": eng_filters.BYPASS_FAIL_FRACTION * clean,
+            "watch_max": clean + 0.95 * span,
+        }
+    if rule == "filter_clean":
+        clean = specs.get("clean_dp_pa")
+        if clean is None:
+            return {}
+        tol = eng_filters.AFTER_CHANGE_TOLERANCE
+        return {
+            "ok_min": (1 - tol) * clean,
+            "ok_max": (1 + tol) * clean,
+            "watch_min": eng_filters.BYPASS_FAIL_FRACTION * clean,
+            "watch_max": eng_filters.AFTER_CHANGE_HIGH_FAIL * clean,
+        }
+    if rule == "motor_fla":
+        fla = specs.get("motor_full_load_a")
+        return {} if fla is None else {"ok_max": fla, "watch_max": 1.1 * fla}
+    if rule == "damper_stroke":
+        rated = specs.get("stroke_time_s")
+        return {} if rated is None else {"ok_max": 1.2 * rated, "watch_max": 1.5 * rated}
+    if rule == "preheat_threshold":
+        th = specs.get("switch_on_c")
+        if th is None:
+            return {}
+        return {
+            "ok_min": th - 1.0,
+            "ok_max": th + 1.0,
+            "watch_min": th - 2.0,
+            "watch_max": th + 2.0,
+        }
+    return {}
