@@ -1,4 +1,5 @@
-"""Reads for the property manager's dashboard. Every site comes through inventory.selectors.sites_visible_to.
+"""Reads of the pages: the property manager's dashboard (every site through inventory.selectors.sites_visible_to),
+the units behind the technician's today and a scanned label, records and feeds.
 
 Compliance figures (on-time share, overdue, findings, filters, freeze readiness) are
 reports.compliance's; this module only picks the sites and splits them per site.
@@ -15,8 +16,8 @@ from inspections import display
 from inspections.models import Finding, Inspection
 from inspections.reasons import text_said_once
 from inspections.selectors import check_label, filter_series_for, filter_sources_words
-from inventory.models import Component, ComponentKind, Site
-from inventory.selectors import sites_visible_to
+from inventory.models import AHU, Component, ComponentKind, Site
+from inventory.selectors import ahus_visible_to, label_lookup, sites_visible_to
 from inventory.today import today_for
 from reports import compliance
 from scheduling.models import OutdoorTemperature, WorkOrder
@@ -242,3 +243,18 @@ def calendar_feed_of(*, user):
     from scheduling.models import CalendarFeed
 
     return CalendarFeed.objects.filter(user=user, revoked_at__isnull=True).order_by("-created_at").first()
+
+
+def ahus_by_id(*, ids) -> dict[int, AHU]:
+    """Units by id with their building and site, in one query (the units of work the person already sees)."""
+    return {ahu.pk: ahu for ahu in AHU.objects.filter(pk__in=list(ids)).select_related("building__site")}
+
+
+def unit_for_label(*, user, code: str) -> tuple[AHU | None, Component | None]:
+    """(unit, component or None) behind a label code the person may see; (None, None) otherwise."""
+    found = label_lookup(user=user, code=code)
+    if found is None:
+        return None, None
+    if isinstance(found, Component):
+        return ahus_visible_to(user=user).get(pk=found.ahu_id), found
+    return found, None

@@ -22,9 +22,7 @@ from inventory.selectors import ahus_visible_to, sites_visible_to
 from inventory.today import time_zone_for
 from reports import selectors as report_selectors
 from reports.documents import NotVisible, label_of, shown
-from reports.services import PDFA_KINDS
-
-from .. import backends
+from reports.services import PDFA_KINDS, report_request
 
 KINDS = ("compliance", "unit_history", "inspection", "labels")
 CHECKBOX_ON = ("1", "on")  # what a ticked checkbox sends; an unticked one sends nothing
@@ -137,7 +135,7 @@ def record_request(request):
     try:
         pdfa = _pdfa(request.POST, kind)
         params = parameters_from_post(user=request.user, kind=kind, post=request.POST)
-        report = backends.report_request(user=request.user, kind=kind, parameters=params, pdfa=pdfa)
+        report = report_request(user=request.user, kind=kind, parameters=params, pdfa=pdfa)
     except ValidationError as exc:
         if hasattr(exc, "error_dict"):
             errors = {k: "; ".join(v) for k, v in exc.message_dict.items()}
@@ -169,7 +167,7 @@ def record_request(request):
 @login_required
 @require_GET
 def records(request):
-    rows = backends.reports_visible_to(user=request.user, limit=50)
+    rows = report_selectors.reports_visible_to(user=request.user, limit=50)
     # What each covers (the API's words, names resolved in bulk) and the file's pages and size.
     covers = report_selectors.reports_covers(reports=rows)
     for r in rows:

@@ -16,23 +16,43 @@ from django.utils import timezone
 from django.views.decorators.http import require_POST
 
 from accounts.inputs import INT32_MAX, FieldErrors, check_integer, check_text, date_problem
-from accounts.selectors import MANAGING_ROLES, organisations_where
-from inspections.selectors import corrective_work_already_resolved, reason_for
+from accounts.selectors import MANAGING_ROLES, organisations_where, technicians_of
+from inspections.selectors import (
+    corrective_work_already_resolved,
+    findings_visible_to,
+    flagged_forms_for,
+    reason_for,
+)
+from inspections.services import flagged_form_resolve, inspection_verify
 from inventory.models import AHU
 from inventory.selectors import ahus_visible_to, sites_managed_by
 from inventory.today import today_for
 from scheduling.inputs import stored_problems
 from scheduling.models import TaskDefinition, WorkOrder
-from scheduling.selectors import skills_needed, weekday_on_or_near
+from scheduling.selectors import (
+    assignment_check,
+    board_for,
+    skills_needed,
+    suggested_technicians,
+    technician_load,
+    weekday_on_or_near,
+    work_order_for,
+    work_orders_managed_by,
+    work_orders_to_verify,
+)
 from scheduling.services.work_orders import (
     REJECT_REASON_MAX,
     WorkOrderConflict,
+    corrective_work_order_approve,
+    corrective_work_order_reject,
     no_technician,
+    work_order_assign,
     work_order_plan_words,
     work_order_schedule,
+    work_order_verify,
 )
 
-from .. import backends, selectors
+from .. import selectors
 
 SKILL_WORDS = {str(v): str(label).lower() for v, label in TaskDefinition.Skill.choices}
 
@@ -56,7 +76,7 @@ def _week_start(raw: str | None, *, today: dt.date) -> dt.date:
 
 
 def _technicians(org):
-    return backends.technicians_of(organisation=org)
+    return technicians_of(organisation=org)
 
 
 def version_seen(*, work_order: WorkOrder, raw) -> int:
@@ -90,7 +110,7 @@ def board(request):
     org = _organisation(request)
     today = today_for(org)  # the day on the clock most of its sites keep
     week = _week_start(request.GET.get("week"), today=today)
-    data = backends.board_for(organisation=org, week_start=week, today=today)
+    data = board_for(organisation=org, week_start=week, today=today)
     show_all = request.GET.get("all", "")
     columns = []
     site_days: dict[int, dt.date] = {}
@@ -133,7 +153,7 @@ def board(request):
         for wo in c["rows"]
         if wo.assignee_id is None and date_problem(wo.plan_default, label="day", today=wo.site_today) is None
     }
-    suggested = backends.suggested_technicians(organisation=org, days=open_rows)
+    suggested = suggested_technicians(organisation=org, days=open_rows)
     for c in columns:
         for wo in c["rows"]:
             wo.findings_resolved = wo.pk in resolved
@@ -145,9 +165,9 @@ def board(request):
                 if wo.assignee_id
                 else []
             )
-    load = backends.technician_load(organisation=org, start=week, days=7)
-    to_verify = list(backends.work_orders_to_verify(organisation=org))
-    flagged = {f.work_order_id: f for f in backends.flagged_forms_for(user=request.user)}
+    load = technician_load(organisation=org, start=week, days=7)
+    to_verify = list(work_orders_to_verify(organisation=org))
+    flagged = {f.work_order_id: f for f in flagged_forms_for(user=request.user)}
     for wo in to_verify:
         wo.flagged_form = flagged.get(wo.pk)
     return render(
@@ -183,7 +203,7 @@ def _kept_day(raw: str) -> dt.date | None:
 @require_POST
 def assign(request, public_id):
     """The board's row form: a technician and the day the visit is planned for, saved together or not at all."""
-    wo = backends.work_order_for(user=request.user, public_id=public_id, write=True)
+    wo = work_order_for(user=request.user, public_id=public_id, write=True)
     org = wo.organisation
     technician = next((t for t in _technicians(org) if str(t.pk) == request.POST.get("assignee")), None)
     back = reverse("frontend:board") + f"?week={request.POST.get('week', '')}"
@@ -204,7 +224,7 @@ def assign(request, public_id):
     in_window = date_problem(on_day, label="day", today=today_for(wo.ahu.building.site)) is None
     # A stale page is refused below, not warned about; so is a day outside the plan window.
     if request.POST.get("version") == str(wo.version) and in_window:
-        check = backends.assignment_check(work_order=wo, technician=technician, day=on_day)
+        check = assignment_check(work_order=wo, technician=technician, day=on_day)
         if check.over and not request.POST.get("confirm_over_capacity"):
             # Nothing is saved: the supervisor sees the day it would make and chooses.
             return render(
@@ -225,7 +245,7 @@ def assign(request, public_id):
     try:
         with transaction.atomic():
             version = version_seen(work_order=wo, raw=request.POST.get("version"))
-            backends.work_order_assign(work_order=wo, assignee=technician, by=request.user, expected_version=version)
+            work_order_assign(work_order=wo, assignee=technician, by=request.user, expected_version=version)
             if "scheduled_for" in request.POST:
                 work_order_schedule(work_order=wo, day=day, by=request.user)
     except ValidationError as exc:
@@ -271,7 +291,7 @@ def findings(request):
     observation, how often and when last seen, and the corrective work it holds (or that it is a design review)."""
     _organisation(request)
     rows = (
-        backends.findings_visible_to(user=request.user)
+        findings_visible_to(user=request.user)
         .filter(state="open")
         .select_related("ahu__building__site", "component", "corrective_work_order", "latest_evaluation", "evaluation")
     )
@@ -305,7 +325,7 @@ def _corrective_page(request, pending, *, errors=None, typed=None, status=200):
         .prefetch_related(
             Prefetch(
                 "source_findings",
-                queryset=backends.findings_visible_to(user=request.user)
+                queryset=findings_visible_to(user=request.user)
                 .filter(state="open")
                 .select_related("latest_evaluation", "evaluation", "component")
                 .order_by("opened_at", "pk"),
@@ -327,7 +347,7 @@ def _corrective_page(request, pending, *, errors=None, typed=None, status=200):
 @login_required
 def corrective(request):
     _organisation(request)
-    pending = backends.work_orders_managed_by(user=request.user).filter(
+    pending = work_orders_managed_by(user=request.user).filter(
         kind=WorkOrder.Kind.CORRECTIVE, approval=WorkOrder.Approval.PENDING, state__in=WorkOrder.OPEN_STATES
     )
     if request.method == "POST":
@@ -340,13 +360,13 @@ def corrective(request):
         reason = request.POST.get("reason", "")
         try:
             if request.POST.get("decision") == "approve":
-                backends.corrective_work_order_approve(work_order=wo, by=request.user)
+                corrective_work_order_approve(work_order=wo, by=request.user)
                 messages.success(request, f"Approved: {wo.title}.")
             else:
                 checked = FieldErrors()
                 check_text(reason, key="reason", label="Reason", max_length=REJECT_REASON_MAX, errors=checked)
                 checked.raise_if_any()
-                backends.corrective_work_order_reject(work_order=wo, by=request.user, reason=reason)
+                corrective_work_order_reject(work_order=wo, by=request.user, reason=reason)
                 messages.success(request, f"Rejected: {wo.title}.")
         except ValidationError as exc:
             # Refused: the page again, the message beside the field it is about, the typed reason kept.
@@ -369,7 +389,7 @@ NOTE_MAX = 2000
 def flagged(request):
     _organisation(request)
     forms = (
-        backends.flagged_forms_for(user=request.user)
+        flagged_forms_for(user=request.user)
         .select_related("ahu__building__site", "technician", "work_order")
         .prefetch_related(Prefetch("findings"))
     )
@@ -384,7 +404,7 @@ def flagged(request):
         )
         try:
             checked.raise_if_any()
-            backends.flag_resolve(inspection=form, by=request.user, note=note or "")
+            flagged_form_resolve(inspection=form, by=request.user, note=note or "")
         except ValidationError as exc:
             messages.error(request, " ".join(exc.messages))
         else:
@@ -397,16 +417,16 @@ def flagged(request):
 @require_POST
 def verify(request, public_id):
     """A supervisor verifies completed work: its latest form through inspections, else the work order itself."""
-    wo = backends.work_order_for(user=request.user, public_id=public_id, write=True)
+    wo = work_order_for(user=request.user, public_id=public_id, write=True)
     inspection = selectors.record_inspection(work_order=wo)
     try:
         with transaction.atomic():
             version = version_seen(work_order=wo, raw=request.POST.get("version"))
             if inspection is not None:
                 _still_as_read(work_order=wo, version=version)
-                backends.inspection_verify(inspection=inspection, by=request.user)
+                inspection_verify(inspection=inspection, by=request.user)
             else:
-                backends.work_order_verify(work_order=wo, by=request.user, expected_version=version)
+                work_order_verify(work_order=wo, by=request.user, expected_version=version)
     except WorkOrderConflict:
         messages.error(request, _changed_meanwhile(wo))
     except ValidationError as exc:

@@ -13,12 +13,22 @@ from django.views.decorators.http import require_GET, require_POST
 
 from accounts.clock import zone_clock
 from accounts.inputs import FieldErrors, check_text
+from inspections import selectors as inspection_selectors
 from inspections.done_today import done_today_for
+from inspections.services import inspection_amend, inspection_sync
 from inventory.selectors import component_tree
 from inventory.today import time_zone_for, today_for
+from reports.documents.inspection_report import visit_records
+from reports.rendering import stored_file_data_uri
 from scheduling.models import WorkOrder
+from scheduling.selectors import (
+    today_visits_for,
+    work_order_for,
+    work_orders_managed_by,
+    work_orders_visible_to,
+)
 
-from .. import backends, selectors
+from .. import selectors
 from ..checklist_form import _number, caution_blocks, cautions_for, form_sections, payload_from_post
 from ..phone_form import site_where, with_last_values
 from .records import LAYOUTS
@@ -61,10 +71,10 @@ def today(request):
     now = timezone.now()
     zone = time_zone_for(request.user)  # the clock the person works by (inventory.today)
     day = today_for(zone, now=now)
-    visits = backends.today_visits_for(technician=request.user, day=day)
+    visits = today_visits_for(technician=request.user, day=day)
     # The API's answer, with what the page says beside each work order: the unit with its building and
     # place (and its site's clock for a due time), and the words of its kind, priority and state.
-    units = backends.ahus_by_id(ids={wo["unit"]["id"] for visit in visits for wo in visit["work_orders"]})
+    units = selectors.ahus_by_id(ids={wo["unit"]["id"] for visit in visits for wo in visit["work_orders"]})
     for wo in (wo for visit in visits for wo in visit["work_orders"]):
         wo["ahu"] = units[wo["unit"]["id"]]
         wo["kind_label"] = WorkOrder.Kind(wo["kind"]).label
@@ -102,7 +112,7 @@ def checklist_result(request, public_id):
     inspection = selectors.latest_inspection(work_order=wo)
     if inspection is None:
         raise Http404("No form of this work order has reached the server yet.")
-    labels = selectors.item_labels(backends.checklist_for(user=request.user, work_order=wo))
+    labels = selectors.item_labels(inspection_selectors.checklist_for(work_order=wo, user=request.user))
     result = selectors.result_for_display(
         result=stored_result(inspection=inspection, work_order=wo), system=request.user.unit_system, labels=labels
     )
@@ -112,13 +122,11 @@ def checklist_result(request, public_id):
 @login_required
 @require_GET
 def unit(request, code: str):
-    ahu, component = backends.unit_for_label(user=request.user, code=code)
+    ahu, component = selectors.unit_for_label(user=request.user, code=code)
     if ahu is None:
         raise Http404(f"No unit or component with label code {code!r} that you may see.")
     work = (
-        backends.work_orders_visible_to(user=request.user)
-        .filter(ahu=ahu, state__in=WorkOrder.OPEN_STATES)
-        .order_by("due_date")
+        work_orders_visible_to(user=request.user).filter(ahu=ahu, state__in=WorkOrder.OPEN_STATES).order_by("due_date")
     )
     return render(
         request,
@@ -135,7 +143,7 @@ def unit(request, code: str):
 
 
 def _work_order(request, public_id):
-    return backends.work_order_for(user=request.user, public_id=public_id)
+    return work_order_for(user=request.user, public_id=public_id)
 
 
 # The longest reason the amendment form takes (its input says so with maxlength).
@@ -166,25 +174,25 @@ def stored_result(*, inspection, work_order) -> dict:
     """A stored form's first answer with the status it has now (verified, or flagged only while unresolved)."""
     return {
         **(inspection.sync_result or {}),
-        "status": backends.inspection_status(inspection=inspection),
+        "status": inspection_selectors.inspection_status(inspection=inspection),
         "work_order_state": work_order.get_state_display().lower(),
     }
 
 
 def record_context(*, request, wo) -> dict:
     """The signed record of each stored form of the work order, in the reader's units and the site's zone."""
-    visits = backends.visit_records(
+    visits, _components, _cautions = visit_records(
         work_order=wo,
         system=request.user.unit_system,
         photo_src=lambda ph: photo_urls(ph.client_uuid),
-        signature_src=lambda insp: backends.image_data_uri(insp.signature_image, max_px=400),
+        signature_src=lambda insp: stored_file_data_uri(insp.signature_image, max_px=400),
     )
     for visit in visits:
         insp = visit["inspection"]
-        visit["status"] = backends.inspection_status(inspection=insp)
+        visit["status"] = inspection_selectors.inspection_status(inspection=insp)
         # Each reading shows its own verdict; below it, only the judgements that computed something more.
         visit["judgements"] = [ev for ev in visit["evaluations"] if ev["derived"] or ev["e"].method]
-        visit["may_amend"] = backends.amendment_allowed(user=request.user, inspection=insp)
+        visit["may_amend"] = inspection_selectors.amendment_allowed(user=request.user, inspection=insp)
         visit["amendable"] = [
             {"value": f"{row_key}", "label": row_label} for row_key, row_label in _amendable_readings(insp)
         ]
@@ -211,15 +219,15 @@ def checklist(request, public_id):
     """
     wo = _work_order(request, public_id)
     done = wo.state in DONE_STATES
-    may_submit = backends.submission_allowed(user=request.user, work_order=wo)
+    may_submit = inspection_selectors.submission_allowed(user=request.user, work_order=wo)
     if request.method == "POST" and not may_submit:
         raise PermissionDenied("Property managers read work orders; only the people who do the work fill the form.")
-    data = backends.checklist_for(user=request.user, work_order=wo)
+    data = inspection_selectors.checklist_for(work_order=wo, user=request.user)
     system = request.user.unit_system
     result = None
     if request.method == "POST" and data is not None and may_submit and not done:
         form = payload_from_post(checklist=data, post=request.POST, files=request.FILES)
-        result = backends.sync_forms(user=request.user, forms=[form])[0]
+        result = inspection_sync(user=request.user, forms=[form])[0]
         wo.refresh_from_db()
         done = wo.state in DONE_STATES
     inspection = selectors.record_inspection(work_order=wo)
@@ -229,7 +237,7 @@ def checklist(request, public_id):
     if result is None and inspection is not None:
         result = stored_result(inspection=inspection, work_order=wo)
     flag_open = inspection is not None and inspection.flag_open
-    manages = backends.work_orders_managed_by(user=request.user).filter(pk=wo.pk).exists()
+    manages = work_orders_managed_by(user=request.user).filter(pk=wo.pk).exists()
     return render(
         request,
         "frontend/technician/checklist.html",
@@ -288,8 +296,8 @@ def amend(request, public_id):
     raw = str(request.POST.get("inspection", ""))
     if not raw.isdigit():
         raise Http404("No such signed form of this work order that you may see.")
-    inspection = backends.inspection_for(user=request.user, pk=int(raw), queryset=wo.inspections.all())
-    if not backends.amendment_allowed(user=request.user, inspection=inspection):
+    inspection = inspection_selectors.inspection_for(user=request.user, pk=int(raw), queryset=wo.inspections.all())
+    if not inspection_selectors.amendment_allowed(user=request.user, inspection=inspection):
         raise PermissionDenied("Only the technician who signed the form or a supervisor of the site may amend it.")
     key, _, code = request.POST.get("item", "").partition("|")
     reading = next(
@@ -318,7 +326,7 @@ def amend(request, public_id):
         "note": request.POST.get("note", "").strip(),
     }
     try:
-        backends.inspection_amend(
+        inspection_amend(
             inspection=inspection,
             by=request.user,
             reason=reason,

@@ -28,7 +28,7 @@ from django.views.decorators.http import require_POST
 
 from accounts.clock import day_text, local_time_text
 from accounts.inputs import FieldErrors, shown
-from inspections.selectors import reason_for
+from inspections.selectors import findings_visible_to, reason_for
 from inspections.services.findings import finding_work_order_attach
 from inventory.models import AHU
 from inventory.selectors import sites_managed_by
@@ -44,7 +44,6 @@ from scheduling.services.work_orders import (
 )
 from scheduling.targets import task_targets
 
-from .. import backends
 from .supervisor import _organisation, _technicians
 
 PRIORITY_OF_SEVERITY = {"critical": "urgent", "high": "high", "medium": "normal", "low": "low"}
@@ -100,7 +99,7 @@ def _finding(request, raw):
     if not text.isdigit() or len(text) > 18:
         raise Http404("No such finding.")
     finding = (
-        backends.findings_visible_to(user=request.user)
+        findings_visible_to(user=request.user)
         .filter(pk=int(text), ahu__building__site__in=sites_managed_by(user=request.user))
         .select_related("ahu__building__site", "component", "evaluation", "latest_evaluation")
         .first()
