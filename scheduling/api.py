@@ -7,7 +7,6 @@ import datetime as dt
 from django.conf import settings
 from django.core.exceptions import PermissionDenied as DjangoPermissionDenied
 from django.core.exceptions import ValidationError
-from django.db import transaction
 from django.http import HttpRequest
 from django.urls import reverse
 from django.utils import timezone
@@ -33,7 +32,6 @@ from .models import MeterReading, OutdoorTemperature, WorkOrder
 from .selectors import (
     BOARD_LIMIT_MAX,
     BOARD_SECTIONS,
-    assignment_check,
     board_load_rows,
     board_page_for,
     board_suggestions,
@@ -45,13 +43,14 @@ from .selectors import (
     work_orders_visible_to,
 )
 from .services import (
+    OverCapacity,
     WorkOrderConflict,
     calendar_feed_issue,
     corrective_work_order_approve,
     corrective_work_order_reject,
     meter_reading_record,
     task_definition_override,
-    work_order_assign,
+    work_order_assign_and_plan,
     work_order_schedule,
     work_order_transition,
 )
@@ -121,16 +120,9 @@ class WorkOrderDetail(APIView):
         return _current(request, public_id)
 
 
-def _over_capacity(wo: WorkOrder, assignee, day: dt.date, data: dict) -> Response | None:
+def _over_capacity(check) -> Response:
     """The 409 that warns before a technician's day passes their capacity (tasks plus travel), as the board page
-    does; None when the day fits, when the sender confirmed, or when the version is stale (the service answers)."""
-    if data.get("confirm_over_capacity") or data["version"] != wo.version:
-        return None
-    if date_problem(day, label="scheduled_for", today=today_for(wo.ahu.building.site)) is not None:
-        return None  # the schedule service refuses the day in its own words
-    check = assignment_check(work_order=wo, technician=assignee, day=day)
-    if not check.over:
-        return None
+    does (``work_order_assign_and_plan`` decides when)."""
     suggestion = None
     if check.suggestion is not None:
         user, load = check.suggestion
@@ -163,17 +155,18 @@ class WorkOrderAssign(WorkOrderChangeView):
         assignee = technician_of(organisation_id=wo.organisation_id, username=data.validated_data["assignee"])
         if assignee is None:
             raise ValidationError({"assignee": [no_technician(data.validated_data["assignee"])]})
-        day = data.validated_data.get("scheduled_for", wo.scheduled_for) or wo.due_date
-        warning = _over_capacity(wo, assignee, day, data.validated_data)
-        if warning is not None:
-            return warning
-        # One transaction: a refused day leaves the assignment unsaved too.
-        with transaction.atomic():
-            work_order_assign(
-                work_order=wo, assignee=assignee, by=request.user, expected_version=data.validated_data["version"]
+        try:
+            work_order_assign_and_plan(
+                work_order=wo,
+                assignee=assignee,
+                by=request.user,
+                expected_version=data.validated_data["version"],
+                plan="scheduled_for" in data.validated_data,
+                day=data.validated_data.get("scheduled_for"),
+                confirm_over_capacity=data.validated_data.get("confirm_over_capacity", False),
             )
-            if "scheduled_for" in data.validated_data:
-                work_order_schedule(work_order=wo, day=data.validated_data["scheduled_for"], by=request.user)
+        except OverCapacity as warning:
+            return _over_capacity(warning.check)
         return _current(request, public_id)
 
 

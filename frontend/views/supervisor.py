@@ -30,7 +30,6 @@ from inventory.today import today_for
 from scheduling.inputs import stored_problems
 from scheduling.models import TaskDefinition, WorkOrder
 from scheduling.selectors import (
-    assignment_check,
     board_for,
     skills_needed,
     suggested_technicians,
@@ -40,19 +39,18 @@ from scheduling.selectors import (
     work_orders_managed_by,
     work_orders_to_verify,
 )
+from scheduling.services.assignment import OverCapacity, work_order_assign_and_plan
 from scheduling.services.work_orders import (
     REJECT_REASON_MAX,
     WorkOrderConflict,
     corrective_work_order_approve,
     corrective_work_order_reject,
-    no_technician,
-    work_order_assign,
     work_order_plan_words,
-    work_order_schedule,
     work_order_verify,
 )
 
 from .. import selectors
+from ..forms import AssignForm
 
 SKILL_WORDS = {str(v): str(label).lower() for v, label in TaskDefinition.Skill.choices}
 
@@ -202,52 +200,46 @@ def _kept_day(raw: str) -> dt.date | None:
 @login_required
 @require_POST
 def assign(request, public_id):
-    """The board's row form: a technician and the day the visit is planned for, saved together or not at all."""
+    """The board's row form: a technician and the day the visit is planned for, saved together or not at all
+    (``work_order_assign_and_plan``, as the API's assign route)."""
     wo = work_order_for(user=request.user, public_id=public_id, write=True)
-    org = wo.organisation
-    technician = next((t for t in _technicians(org) if str(t.pk) == request.POST.get("assignee")), None)
-    back = reverse("frontend:board") + f"?week={request.POST.get('week', '')}"
-    if technician is None:
-        messages.error(
-            request, f"Technician: {no_technician(request.POST.get('assignee', ''))}; choose one from the list."
+    form = AssignForm(request.POST, technicians=_technicians(wo.organisation))
+    back = reverse("frontend:board") + "?" + urlencode({"week": request.POST.get("week", "")})
+    if not form.is_valid():
+        for text in (t for texts in form.errors.values() for t in texts):
+            messages.error(request, text)
+        return redirect(back)
+    technician, day, version = (form.cleaned_data[k] for k in ("assignee", "scheduled_for", "version"))
+    try:
+        if version is None:
+            raise WorkOrderConflict(work_order=wo, expected_version=0)
+        check = work_order_assign_and_plan(
+            work_order=wo,
+            assignee=technician,
+            by=request.user,
+            expected_version=version,
+            plan=form.plan,
+            day=day,
+            confirm_over_capacity=form.cleaned_data["confirm_over_capacity"],
         )
-        return redirect(back)
-    raw_day = request.POST.get("scheduled_for", "").strip()
-    try:
-        day = dt.date.fromisoformat(raw_day) if raw_day else None
-    except ValueError:
-        messages.error(request, f"Scheduled day {raw_day!r} is not a date as YYYY-MM-DD.")
-        return redirect(back)
-    check = None
-    # The day the work will count on: the day asked for, else its plan, else its due date.
-    on_day = (day if "scheduled_for" in request.POST else wo.scheduled_for) or wo.due_date
-    in_window = date_problem(on_day, label="day", today=today_for(wo.ahu.building.site)) is None
-    # A stale page is refused below, not warned about; so is a day outside the plan window.
-    if request.POST.get("version") == str(wo.version) and in_window:
-        check = assignment_check(work_order=wo, technician=technician, day=on_day)
-        if check.over and not request.POST.get("confirm_over_capacity"):
-            # Nothing is saved: the supervisor sees the day it would make and chooses.
-            return render(
-                request,
-                "frontend/supervisor/board_confirm.html",
-                {
-                    "wo": wo,
-                    "check": check,
-                    "week": request.POST.get("week", ""),
-                    "raw_day": raw_day if "scheduled_for" in request.POST else None,
-                    "back": back,
-                    "change": back
-                    + "&"
-                    + urlencode({"change": str(wo.public_id), "assignee": technician.pk, "day": raw_day})
-                    + f"#row-{wo.public_id}",
-                },
-            )
-    try:
-        with transaction.atomic():
-            version = version_seen(work_order=wo, raw=request.POST.get("version"))
-            work_order_assign(work_order=wo, assignee=technician, by=request.user, expected_version=version)
-            if "scheduled_for" in request.POST:
-                work_order_schedule(work_order=wo, day=day, by=request.user)
+    except OverCapacity as warning:
+        # Nothing is saved: the supervisor sees the day it would make and chooses.
+        raw_day = request.POST.get("scheduled_for", "").strip()
+        return render(
+            request,
+            "frontend/supervisor/board_confirm.html",
+            {
+                "wo": wo,
+                "check": warning.check,
+                "week": request.POST.get("week", ""),
+                "raw_day": raw_day if form.plan else None,
+                "back": back,
+                "change": back
+                + "&"
+                + urlencode({"change": str(wo.public_id), "assignee": technician.pk, "day": raw_day})
+                + f"#row-{wo.public_id}",
+            },
+        )
     except ValidationError as exc:
         messages.error(request, f"{wo.ahu.display_name} — {wo.title}: {' '.join(exc.messages)}")
     except WorkOrderConflict:

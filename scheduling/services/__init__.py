@@ -1,5 +1,6 @@
 """Writes of the scheduling app. Import from here: ``from scheduling.services import work_order_assign``."""
 
+from .assignment import OverCapacity, work_order_assign_and_plan
 from .library import task_definition_create, task_definition_override, task_library_install, unit_task_set
 from .meters import meter_reading_check, meter_reading_record, meter_readings_import_csv
 from .seasons import outdoor_temperatures_import_csv, outdoor_temperatures_store, site_seasons_refresh
@@ -26,6 +27,7 @@ from .work_orders import (
 )
 
 __all__ = [
+    "OverCapacity",
     "WorkOrderConflict",
     "WorkOrderTransitionError",
     "calendar_feed_issue",
@@ -46,6 +48,7 @@ __all__ = [
     "task_library_install",
     "unit_task_set",
     "work_order_assign",
+    "work_order_assign_and_plan",
     "work_order_cancel",
     "work_order_complete",
     "work_order_complete_locked",

@@ -1,0 +1,60 @@
+"""Django forms of the staff pages: each reads one posted form into clean values or messages at its fields.
+
+A field's message names the field, the value and what is allowed (STYLE.md); nothing is saved from a form that
+is not valid.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+
+from django import forms
+from django.core.exceptions import ValidationError
+
+from accounts.inputs import INT32_MAX, FieldErrors, check_integer, shown
+from scheduling.services.work_orders import no_technician
+
+
+class AssignForm(forms.Form):
+    """The board's row form: a technician, the day the visit is planned for and the version the page was read at.
+
+    Fields are read raw (``forms.Field``) so each refusal says the value as it was sent, in this page's words.
+    ``scheduled_for`` absent leaves the plan as it is (``plan`` is False); present and empty takes it off.
+    """
+
+    assignee = forms.Field(required=False)
+    scheduled_for = forms.Field(required=False)
+    version = forms.Field(required=False)
+    confirm_over_capacity = forms.BooleanField(required=False)
+
+    def __init__(self, data, *, technicians) -> None:
+        super().__init__(data)
+        self.technicians = list(technicians)
+
+    @property
+    def plan(self) -> bool:
+        return "scheduled_for" in self.data
+
+    def clean_assignee(self):
+        raw = self.cleaned_data["assignee"] or ""
+        technician = next((t for t in self.technicians if str(t.pk) == raw), None)
+        if technician is None:
+            raise ValidationError(f"Technician: {no_technician(raw)}; choose one from the list.")
+        return technician
+
+    def clean_scheduled_for(self) -> dt.date | None:
+        raw = (self.cleaned_data["scheduled_for"] or "").strip()
+        if not raw:
+            return None
+        try:
+            return dt.date.fromisoformat(raw)
+        except ValueError:
+            raise ValidationError(f"Scheduled day {shown(raw)} is not a date as YYYY-MM-DD.") from None
+
+    def clean_version(self) -> int | None:
+        """The version as a whole number, None when missing or unreadable: the view refuses that as a stale
+        page (someone changed it meanwhile), never as "skip the check"."""
+        return check_integer(
+            self.cleaned_data["version"], key="version", label="Version", errors=FieldErrors(), minimum=1,
+            maximum=INT32_MAX,
+        )  # fmt: skip

@@ -1,0 +1,58 @@
+"""Assign-and-plan: a technician and the day of the visit, saved together or not at all.
+
+The one path of the board page's row form and the work-order API's assign route: both warn before a
+technician's day passes their capacity (tasks plus travel between the day's sites) and save nothing until
+the sender confirms.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+
+from django.db import transaction
+
+from accounts.inputs import date_problem
+from inventory.today import today_for
+
+from ..models import WorkOrder
+from ..selectors import AssignmentCheck, assignment_check
+from .work_orders import work_order_assign, work_order_schedule
+
+
+class OverCapacity(Exception):
+    """The assignment would take the technician's day past their capacity; nothing is saved until confirmed."""
+
+    def __init__(self, check: AssignmentCheck) -> None:
+        self.check = check
+        super().__init__(check.message())
+
+
+def work_order_assign_and_plan(
+    *,
+    work_order: WorkOrder,
+    assignee,
+    by,
+    expected_version: int,
+    plan: bool = False,
+    day: dt.date | None = None,
+    confirm_over_capacity: bool = False,
+) -> AssignmentCheck | None:
+    """Assign ``work_order`` to ``assignee`` and, with ``plan``, plan it for ``day`` (``None`` takes the plan
+    off), in one transaction: a refused day leaves the assignment unsaved too.
+
+    Before anything is written, the technician's day the work would count on (the day asked for, else its
+    plan, else its due date) is checked against their capacity: over it and not confirmed raises
+    :class:`OverCapacity` with the check. A stale ``expected_version`` or a day outside the plan window is not
+    checked: the services refuse those in their own words. Returns the check made (None when none was)."""
+    on_day = (day if plan else work_order.scheduled_for) or work_order.due_date
+    check = None
+    site_today = today_for(work_order.ahu.building.site)
+    if expected_version == work_order.version and date_problem(on_day, label="day", today=site_today) is None:
+        check = assignment_check(work_order=work_order, technician=assignee, day=on_day)
+        if check.over and not confirm_over_capacity:
+            raise OverCapacity(check)
+    with transaction.atomic():
+        work_order_assign(work_order=work_order, assignee=assignee, by=by, expected_version=expected_version)
+        if plan:
+            work_order_schedule(work_order=work_order, day=day, by=by)
+    return check
