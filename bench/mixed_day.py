@@ -13,7 +13,7 @@ with a session cookie as a browser is, opened again ``DASHBOARD_PAUSE_S`` after 
 forms (one finished visit a request, built as the phone builds it; each must come back "stored"),
 assignments through the work-order API (a supervisor moving a visit between technicians on a day of its
 own far ahead, so no day passes its capacity: each must answer 200), and run-hour readings through the
-meter API (each must answer 201).
+meter API by a technician, of units that technician may see (each must answer 201).
 
 Any other outcome raises ``WrongOutcome``: a flagged form or a refused write measures another path, and a
 read that is not 200/304 measures nothing. Dates come from the portfolio's ``today``; the clock-bound
@@ -131,12 +131,40 @@ def _session_cookie(username: str) -> str:
     return f"{settings.SESSION_COOKIE_NAME}={client.cookies[settings.SESSION_COOKIE_NAME].value}"
 
 
+def meters_prepare(*, org: OrgSummary, user, skip: set[int], count: int = 20) -> list[dict]:
+    """Up to ``count`` units of ``org`` whose run-hour meter ``user`` (the meter writer) reads, each with its latest
+    reading (``{"label", "hours", "at"}``).
+
+    Only units the person may see (``inventory.selectors.ahus_visible_to``): a technician sees the sites of their
+    own work only, so any other unit is refused ("not a unit you can see"). Chosen before the passes, their
+    visibility holds through them: it comes from work the writers do not take away (the history, today's visits,
+    the forms' copies, which the sync writer completes). None a form is for (``skip``): a form stores its unit's
+    reading as it was when the form was made."""
+    from inventory.selectors import ahus_visible_to
+    from scheduling.models import MeterReading
+
+    units = dict(
+        ahus_visible_to(user=user)
+        .filter(building__site__organisation_id=org.organisation_id)
+        .exclude(pk__in=skip)
+        .order_by("-pk")
+        .values_list("pk", "label_code")[:count]
+    )
+    latest: dict[int, tuple[float, dt.datetime]] = {}
+    for ahu_id, hours, at in (
+        MeterReading.objects.filter(ahu_id__in=units, component__isnull=True)
+        .order_by("ahu_id", "taken_at")
+        .values_list("ahu_id", "hours", "taken_at")
+    ):
+        latest[ahu_id] = (hours, at)
+    return [{"label": units[a], "hours": h, "at": at} for a, (h, at) in latest.items()]
+
+
 def day_prepare(*, portfolio: Portfolio, port: int, orgs: list[OrgSummary], forms: int) -> list[DayOrg]:
     """Reads, and the writers' material, for each organisation: ``forms`` sync forms in all (shared evenly),
     visits to move between technicians, and units whose run-hour meters are read."""
     from accounts.models import User
-    from inventory.models import AHU
-    from scheduling.models import MeterReading, WorkOrder
+    from scheduling.models import WorkOrder
     from scheduling.selectors import assignment_check
 
     from .load import get_json, request
@@ -159,7 +187,7 @@ def day_prepare(*, portfolio: Portfolio, port: int, orgs: list[OrgSummary], form
                 "dashboard": [(dashboard_path, None, cookie)],
             },
             supervisor_token=sup,
-            meter_token=techs[0],
+            meter_token=org.tokens[org.technicians[0]],
             assign_techs=list(org.technicians),
         )
         # One look at each read, so the passes measure real answers, not errors or a sign-in page. Untimed, and
@@ -199,17 +227,8 @@ def day_prepare(*, portfolio: Portfolio, port: int, orgs: list[OrgSummary], form
                 continue  # this visit alone would fill a day: a deliberate 409 is not what is measured
             day_org.assign.append({"id": str(wo.public_id), "version": wo.version, "day": day, "turn": 0})
             day = _far_weekday(day + dt.timedelta(days=1))
-        # Meters: units no form is for (a form stores its unit's reading as it was when the form was made).
-        latest: dict[int, tuple[float, dt.datetime]] = {}
-        free = [a for a in org.ahu_ids if a not in synced_units][-20:]
-        for ahu_id, hours, at in (
-            MeterReading.objects.filter(ahu_id__in=free, component__isnull=True)
-            .order_by("ahu_id", "taken_at")
-            .values_list("ahu_id", "hours", "taken_at")
-        ):
-            latest[ahu_id] = (hours, at)
-        labels = dict(AHU.objects.filter(pk__in=latest).values_list("pk", "label_code"))
-        day_org.meters = [{"label": labels[a], "hours": h, "at": at} for a, (h, at) in latest.items()]
+        meter_user = User.objects.get(username=org.technicians[0])  # the owner of ``meter_token``
+        day_org.meters = meters_prepare(org=org, user=meter_user, skip=synced_units)
         out.append(day_org)
     # A tiny organisation may lack a meter of its own or a visit to move: its writes go to the others.
     for kind, has in (("forms", "forms"), ("visits to move", "assign"), ("meters", "meters")):

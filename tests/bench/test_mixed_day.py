@@ -158,3 +158,41 @@ def test_a_meter_writer_reading_is_accepted_whenever_the_bench_runs(latest_hours
     # The rules do bite: 1,000 h above the line is more than the meter can have run in any of these cases.
     with pytest.raises(ValidationError):
         meter_reading_check(ahu=ahu, hours=hours + 1000, taken_at=at, component=None, is_reset=False, now=at)
+
+
+@pytest.mark.django_db
+def test_the_meter_writer_reads_only_units_its_technician_may_see(clock, api_client):
+    """A technician sees only the sites of their own work (inventory.selectors.sites_visible_to): in a portfolio
+    where the first technician's work covers some sites only, every unit chosen for the meter writer is one of
+    theirs and none a form is for, and each reading is stored (201) through the meter API with their token, as
+    the writer sends it. (The 5,000-unit run's writer was answered 400 'not a unit you can see'.)"""
+    from django.urls import reverse
+
+    from accounts.models import User
+    from bench.generate import portfolio_generate
+    from inventory.models import AHU
+    from inventory.selectors import ahus_visible_to
+    from tests.conftest import TEST_NOW
+
+    p = portfolio_generate(sites=10, ahus=60, years=1, today=TEST_NOW.date())
+    tech = User.objects.get(username=p.main.technicians[0])
+    visible = set(ahus_visible_to(user=tech).filter(pk__in=p.main.ahu_ids).values_list("pk", flat=True))
+    assert 20 < len(visible) < len(p.main.ahu_ids)  # the case the large run met: not every unit is theirs
+    skip = set(sorted(visible)[-3:])  # units the sync writer's forms are for
+    meters = mixed_day.meters_prepare(org=p.main, user=tech, skip=skip)
+    labels = dict(AHU.objects.filter(pk__in=p.main.ahu_ids).values_list("label_code", "pk"))
+    assert len(meters) == 20 and not {labels[m["label"]] for m in meters} & skip
+    for meter in meters:
+        body = {
+            "unit_label": meter["label"],
+            "hours": mixed_day.meter_hours_at(hours=meter["hours"], at=meter["at"], now=TEST_NOW),
+            "taken_at": TEST_NOW.isoformat(),
+        }
+        answer = api_client.post(
+            reverse("scheduling_api:meter-readings"),
+            body,
+            format="json",
+            HTTP_AUTHORIZATION=f"Token {p.main.tokens[tech.username]}",
+        )
+        assert answer.status_code == 201, (body, answer.content)
+        assert answer.json()["unit_label"] == meter["label"]
