@@ -253,8 +253,10 @@ def _meter_reading_record(
             raise ValidationError(
                 {"component": [f"component kind={component.kind!r}: run-hour meters belong to a fan or the unit"]}
             )
-    # Lock the unit row so two readings for the same meter cannot both pass the check.
-    list(AHU.objects.select_for_update().filter(pk=ahu.pk).values_list("pk"))
+    # Lock the unit row so two readings for the same meter cannot both pass the check. The row alone: the unit's
+    # default ordering (by site name) would join, and so lock, its building and site rows too, for the rest of the
+    # caller's transaction (a whole sync request), and compile two joins for each reading.
+    list(AHU.objects.select_for_update().filter(pk=ahu.pk).order_by().values_list("pk"))
     meter_reading_check(ahu=ahu, hours=hours, taken_at=taken_at, component=component, is_reset=is_reset)
     reading = MeterReading(
         ahu=ahu,

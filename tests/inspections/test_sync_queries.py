@@ -98,6 +98,9 @@ def test_a_batch_costs_a_fixed_number_of_queries_plus_a_small_constant_per_form(
     # the completion take no savepoint of their own.
     assert per_form <= 19, f"{per_form} queries per form"
     assert sum('INSERT INTO "accounts_auditevent"' in s for s in sqls) == 1, "audit events: one insert per request"
+    # The meter reading locks its unit's row alone (no join to, and on PostgreSQL no lock of, its building and site).
+    unit_reads = [s for s in sqls if s.startswith('SELECT "inventory_ahu"."id"') and '"inventory_ahu"."id" = ' in s]
+    assert len(unit_reads) == 5 and not any("JOIN" in s for s in unit_reads), unit_reads
     templates = [s for s in sqls if 'FROM "inspections_checklistitem"' in s]
     assert len(templates) == 1, f"the checklist items are read {len(templates)} times for 5 forms"
 
