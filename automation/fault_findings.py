@@ -192,6 +192,22 @@ def _open_filter_finding(bank):
     )
 
 
+def open_filter_findings(*, banks) -> dict:
+    """{bank id: its open "filter loaded" finding from the trends} of many banks in one query (as
+    ``_open_filter_finding`` picks each)."""
+    from inspections.services.findings import source_problem
+
+    out: dict = {}
+    for finding in Finding.objects.filter(
+        ahu_id__in={b.ahu_id for b in banks},
+        component__in=[b.pk for b in banks],
+        problem=source_problem(source=SOURCE, rule=FILTER_RULE),
+        state=Finding.State.OPEN,
+    ).select_related("corrective_work_order"):
+        out.setdefault(finding.component_id, finding)
+    return out
+
+
 def filter_finding_keep(*, bank, row, judged, start: dt.datetime, end: dt.datetime, work_order, by):
     """The bank's one open finding "filter loaded", raised or updated by a trend day (``row``, a ``FilterDay``
     judged FAIL over the site day ``start``–``end``) through the findings' own path, holding the corrective work
@@ -249,12 +265,13 @@ def filter_finding_keep(*, bank, row, judged, start: dt.datetime, end: dt.dateti
     return finding
 
 
-def filter_finding_clear(*, bank, row, end: dt.datetime, by) -> bool:
+def filter_finding_clear(*, bank, row, end: dt.datetime, by, open_findings: dict | None = None) -> bool:
     """Close the bank's open "filter loaded" finding when a trend day later than it was last seen judges the
-    bank below its change point (new filters, or the loading fell back); False when none was open."""
+    bank below its change point (new filters, or the loading fell back); False when none was open.
+    ``open_findings``: ``open_filter_findings`` of the site's banks, read before this day's writes."""
     from inspections.services.findings import finding_close_source
 
-    held = _open_filter_finding(bank)
+    held = _open_filter_finding(bank) if open_findings is None else open_findings.get(bank.pk)
     if held is None or (held.last_seen_at is not None and end <= held.last_seen_at):
         return False
     loading = "" if row.loading_pct is None else f" ({row.loading_pct:.0f} % of the clean-to-final span)"

@@ -108,13 +108,53 @@ def _fan_of(trends: UnitTrends):
     return None, None, None
 
 
-def run_hours_feed(*, trends: UnitTrends, by=None) -> RunHours | None:
+FanMeter = tuple[MeterReading | None, MeterReading | None]
+
+
+def fan_meters(*, fans: list[Component], end: dt.datetime) -> dict[int, FanMeter]:
+    """{fan id: (its trend reading taken at ``end`` or None, its latest reading at or before ``end`` or None)} of
+    each fan's own run-hour meter: what ``run_hours_feed`` reads of it, for many fans in two queries."""
+    from django.db.models import OuterRef, Subquery
+
+    own = MeterReading.objects.filter(ahu_id=OuterRef("ahu_id"), component_id=OuterRef("pk"))
+    rows = list(
+        Component.objects.filter(pk__in=[f.pk for f in fans])
+        .annotate(
+            done_id=Subquery(
+                own.filter(taken_at=end, source=MeterReading.Source.BAS_TREND)
+                .order_by(*MeterReading._meta.ordering)
+                .values("pk")[:1]
+            ),
+            prev_id=Subquery(own.filter(taken_at__lte=end).order_by("-taken_at", "-id").values("pk")[:1]),
+        )
+        .values_list("pk", "done_id", "prev_id")
+    )
+    wanted = {i for _, *ids in rows for i in ids if i is not None}
+    readings = MeterReading.objects.in_bulk(list(wanted)) if wanted else {}
+    return {pk: (readings.get(done_id), readings.get(prev_id)) for pk, done_id, prev_id in rows}
+
+
+def _fan_samples(trends: UnitTrends, point, samples: Samples, since: dt.datetime, end: dt.datetime) -> Samples:
+    """The fan's samples from the last one that can still hold at ``since``: those already read with the day when
+    they reach back to one at or before ``since`` (or to ``RUN_HOLD_MAX_S`` before it), else read again."""
+    read_from = trends.read_from
+    reaches = read_from is not None and (
+        read_from <= since - dt.timedelta(seconds=RUN_HOLD_MAX_S)
+        or (read_from <= since and bool((samples.seconds <= since.timestamp()).any()))
+    )
+    if reaches:
+        return samples
+    return samples_for(points=[point], since=since - dt.timedelta(seconds=RUN_HOLD_MAX_S), until=end)[point.pk]
+
+
+def run_hours_feed(*, trends: UnitTrends, by=None, meter: FanMeter | None = None) -> RunHours | None:
     """Add the hours the supply fan ran over ``trends``' day to its run-hour meter (once per day).
 
     Returns None when the unit has no fan status or speed trend that day. The first day a fan's meter is fed
     it starts at 0 h at the day's start; afterwards each day's reading is the latest reading of that meter
     plus the hours run since it (at most 31 days back). A reading the meter service refuses (an earlier day
-    read after a later one) is not stored and named in ``note``.
+    read after a later one) is not stored and named in ``note``. ``meter``: the fan's readings as ``fan_meters``
+    read them for the whole site.
     """
     from scheduling.services import meter_reading_record
 
@@ -126,14 +166,17 @@ def run_hours_feed(*, trends: UnitTrends, by=None) -> RunHours | None:
     ahu = trends.ahu
     if not ((samples.seconds >= start.timestamp()) & (samples.seconds < end.timestamp())).any():
         return None  # no sample that day: nothing is known of it
-    meter = MeterReading.objects.filter(ahu=ahu, component=fan)
-    done = meter.filter(taken_at=end, source=MeterReading.Source.BAS_TREND).first()
+    if meter is None or fan.ahu_id != ahu.pk:
+        readings = MeterReading.objects.filter(ahu=ahu, component=fan)
+        done = readings.filter(taken_at=end, source=MeterReading.Source.BAS_TREND).first()
+        prev = None if done is not None else readings.filter(taken_at__lte=end).order_by("-taken_at", "-id").first()
+    else:
+        done, prev = meter
     if done is not None:
         return RunHours(fan=fan, hours_run=0.0, reading=done, note="already read")
-    prev = meter.filter(taken_at__lte=end).order_by("-taken_at", "-id").first()
     since = start if prev is None else max(prev.taken_at, end - dt.timedelta(days=31))
     # From the last sample that can still hold at ``since`` (a change-of-value log may be hours old at midnight).
-    samples = samples_for(points=[point], since=since - dt.timedelta(seconds=RUN_HOLD_MAX_S), until=end)[point.pk]
+    samples = _fan_samples(trends, point, samples, since, end)
     seconds = running_seconds(samples, since=since.timestamp(), until=end.timestamp(), on=on)
     hours = seconds / 3600.0
     base = 0.0 if prev is None else prev.hours
@@ -141,7 +184,13 @@ def run_hours_feed(*, trends: UnitTrends, by=None) -> RunHours | None:
         with transaction.atomic():
             if prev is None:
                 meter_reading_record(
-                    ahu=ahu, hours=0.0, taken_at=start, source=MeterReading.Source.BAS_TREND, component=fan, by=by
+                    ahu=ahu,
+                    hours=0.0,
+                    taken_at=start,
+                    source=MeterReading.Source.BAS_TREND,
+                    component=fan,
+                    by=by,
+                    in_caller_transaction=True,
                 )
             reading = meter_reading_record(
                 ahu=ahu,
@@ -150,6 +199,7 @@ def run_hours_feed(*, trends: UnitTrends, by=None) -> RunHours | None:
                 source=MeterReading.Source.BAS_TREND,
                 component=fan,
                 by=by,
+                in_caller_transaction=True,  # the block above is the readings' one savepoint
             )
     except ValidationError as exc:
         return RunHours(fan=fan, hours_run=hours, reading=None, note=" ".join(exc.messages))
@@ -187,9 +237,12 @@ def _airflow(trends: UnitTrends, at: np.ndarray) -> tuple[np.ndarray, str]:
     return np.full(at.shape, float(trends.ahu.design_supply_airflow_m3s)), "design airflow assumed (not measured)"
 
 
-def filter_feed(*, trends: UnitTrends, day: dt.date, meter_hours: float | None, by=None) -> list[FilterResult]:
+def filter_feed(
+    *, trends: UnitTrends, day: dt.date, meter_hours: float | None, open_findings: dict | None = None, by=None
+) -> list[FilterResult]:
     """Each trended filter bank's day: stored (``FilterDay``, replaced on a re-run), judged, and when it calls for
-    a change, the change proposed through the scheduling condition ``filter_loaded``."""
+    a change, the change proposed through the scheduling condition ``filter_loaded``. ``open_findings``: the
+    banks' open trend findings (``fault_findings.open_filter_findings``), read before the day's writes."""
     from inspections.selectors import filter_design_airflow_m3s
 
     out = []
@@ -266,7 +319,7 @@ def filter_feed(*, trends: UnitTrends, day: dt.date, meter_hours: float | None, 
                 )
                 out[i] = dataclasses.replace(r, proposed=proposed)
             elif r.day is not None and judged is not None and judged.verdict != Verdict.FAIL:
-                filter_finding_clear(bank=r.bank, row=r.day, end=trends.end, by=by)
+                filter_finding_clear(bank=r.bank, row=r.day, end=trends.end, open_findings=open_findings, by=by)
     return out
 
 

@@ -34,6 +34,7 @@ from django.db import transaction
 from django.db.models import Q
 from django.utils import timezone
 
+from accounts.changes import changes_deferred
 from engineering import formatting as fmt
 from engineering.errors import EngineeringInputError
 from engineering.faults import (
@@ -55,9 +56,9 @@ from inventory.today import today_for
 
 from .fault_findings import fault_finding_close, fault_finding_keep
 from .fault_models import Fault
-from .feeds import filter_feed, run_hours_feed
+from .feeds import _fan_of, filter_feed, run_hours_feed
 from .models import Point
-from .series import EXTRA_ROLES, UnitTrends, site_day_window, unit_trends
+from .series import EXTRA_ROLES, Samples, UnitTrends, samples_for, site_day_window, unit_trends
 
 # Averages and the mode delay look back: the hour before the day is read with it (its evidence is not kept).
 LEAD = dt.timedelta(hours=1)
@@ -124,6 +125,41 @@ class JudgeResult:
     @property
     def closed(self) -> list[Fault]:
         return [f for d in self.days for f in d.closed]
+
+
+@dataclass
+class SiteDayReads:
+    """What judging one site-local day reads for every unit of the site, read once for the site (a fixed number
+    of queries, whatever its number of units) inside the site-day's transaction, before any unit's writes."""
+
+    start: dt.datetime
+    end: dt.datetime
+    samples: dict[int, Samples]  # point id: samples from ``start - LEAD`` to ``end``
+    meters: dict[int, tuple]  # fan id: ``feeds.fan_meters``
+    open_faults: dict[int, list[Fault]]  # unit id: its open faults, locked, newest first (``Fault.Meta.ordering``)
+    filter_findings: dict[int, object]  # bank id: its open "filter loaded" finding from the trends
+
+
+def site_day_reads(*, units: list[AHU], points_of: dict[int, list[Point]], day: dt.date) -> SiteDayReads:
+    """Everything ``unit_day_judge`` reads before it writes, for ``units`` (one site's) on ``day``."""
+    from .fault_findings import open_filter_findings
+    from .feeds import FILTER_SENSOR, fan_meters
+
+    start, end = site_day_window(ahu=units[0], day=day)
+    points = [p for u in units for p in points_of.get(u.pk, [])]
+    fans = {p.component.pk: p.component for p in points if p.component is not None and p.component.kind == "fan"}
+    banks = [p.component for p in points if p.brick_class == FILTER_SENSOR and p.component is not None]
+    open_faults: dict[int, list[Fault]] = {u.pk: [] for u in units}
+    for fault in Fault.objects.select_for_update().filter(ahu__in=units, state=Fault.State.OPEN):
+        open_faults[fault.ahu_id].append(fault)
+    return SiteDayReads(
+        start=start,
+        end=end,
+        samples=samples_for(points=points, since=start - LEAD, until=end),
+        meters=fan_meters(fans=list(fans.values()), end=end) if fans else {},
+        open_faults=open_faults,
+        filter_findings=open_filter_findings(banks=banks) if banks else {},
+    )
 
 
 # ---------------------------------------------------------------------------
@@ -346,12 +382,13 @@ def _part(ahu: AHU, which: str | None):
     return None
 
 
-def _keep(*, ahu: AHU, day: dt.date, seen: Seen, by) -> tuple[Fault, bool]:
-    """Open the unit's fault of this rule, or add the day to the open one (replacing that day's windows)."""
+def _keep(*, ahu: AHU, day: dt.date, seen: Seen, open_faults: list[Fault], by) -> tuple[Fault, bool]:
+    """Open the unit's fault of this rule, or add the day to the open one (replacing that day's windows);
+    ``open_faults``: the unit's open faults, read locked."""
     condition, which, severity = FAULT_WORK.get(seen.code, ("", None, "medium"))
     first = min(dt.datetime.fromisoformat(w["start"]) for w in seen.windows)
     last = max(dt.datetime.fromisoformat(w["end"]) for w in seen.windows)
-    fault = Fault.objects.select_for_update().filter(ahu=ahu, code=seen.code, state=Fault.State.OPEN).first()
+    fault = next((f for f in open_faults if f.code == seen.code), None)
     new = fault is None
     if new:
         fault = Fault(
@@ -448,13 +485,15 @@ def _finding_holds(*, fault: Fault, by) -> None:
     finding_work_order_attach(finding=finding, work_order=wo, by=by)
 
 
-def _close_absent(*, ahu: AHU, day: dt.date, end: dt.datetime, judged: set[str], present: set[str], by) -> list:
-    """Close the unit's open faults of rules judged today, not found, and last seen ``close_after()`` ago."""
+def _close_absent(
+    *, day: dt.date, end: dt.datetime, judged: set[str], present: set[str], open_faults: list[Fault], by
+) -> list:
+    """Close the unit's open faults (``open_faults``, read locked) of rules judged today, not found, and last seen
+    ``close_after()`` ago."""
     closed = []
     cutoff = end - close_after()
-    for fault in Fault.objects.select_for_update().filter(
-        ahu=ahu, state=Fault.State.OPEN, code__in=judged - present, last_seen_at__lte=cutoff
-    ):
+    absent = judged - present
+    for fault in [f for f in open_faults if f.code in absent and f.last_seen_at <= cutoff]:
         fault.state, fault.closed_at, fault.close_cause = Fault.State.CLOSED, end, Fault.CloseCause.ABSENT
         fault.save(update_fields=["state", "closed_at", "close_cause"])
         _audit(by, fault, "fault_close", {"cause": "absent", "day": day.isoformat()})
@@ -494,18 +533,29 @@ def _audit(by, fault: Fault, action: str, changes: dict) -> None:
 
 
 @transaction.atomic
-def unit_day_judge(*, ahu: AHU, day: dt.date, points: list[Point] | None = None, by=None) -> UnitDay:
-    """Judge one unit's site-local ``day`` of trends: feeds, faults, freeze events; idempotent."""
+def unit_day_judge(
+    *, ahu: AHU, day: dt.date, points: list[Point] | None = None, reads: SiteDayReads | None = None, by=None
+) -> UnitDay:
+    """Judge one unit's site-local ``day`` of trends: feeds, faults, freeze events; idempotent. ``reads``: what
+    ``site_day_reads`` read for the unit's site that day, in the caller's transaction (read here when None)."""
     from accounts.changes import organisation_changed
 
-    start, end = site_day_window(ahu=ahu, day=day)
-    trends = unit_trends(ahu=ahu, start=start, end=end, lead=LEAD, points=points)
+    points = list(points if points is not None else Point.objects.filter(ahu=ahu).select_related("component"))
+    for p in points:
+        if p.component is not None and p.component.ahu_id == ahu.pk:
+            p.component.ahu = ahu  # the unit already read (its site's zone, organisation) for every part's reader
+    if reads is None:
+        reads = site_day_reads(units=[ahu], points_of={ahu.pk: points}, day=day)
+    start, end = reads.start, reads.end
+    trends = unit_trends(ahu=ahu, start=start, end=end, lead=LEAD, points=points, samples=reads.samples)
     out = UnitDay(ahu=ahu, day=day)
-    out.run_hours = run_hours_feed(trends=trends, by=by)
+    fan_point, _, _ = _fan_of(trends)
+    meter = reads.meters.get(fan_point.component.pk) if fan_point is not None else None
+    out.run_hours = run_hours_feed(trends=trends, by=by, meter=meter)
     if out.run_hours is not None and out.run_hours.note and out.run_hours.reading is None:
         out.notes.append(f"run-hours: {out.run_hours.note}")
     hours = out.run_hours.reading.hours if out.run_hours is not None and out.run_hours.reading is not None else None
-    out.filters = filter_feed(trends=trends, day=day, meter_hours=hours, by=by)
+    out.filters = filter_feed(trends=trends, day=day, meter_hours=hours, open_findings=reads.filter_findings, by=by)
     step = _step_s(trends)
     out.faults, why = faults_judge(trends=trends, step_s=step)
     if why:
@@ -526,10 +576,15 @@ def unit_day_judge(*, ahu: AHU, day: dt.date, points: list[Point] | None = None,
     freeze = _seen_freeze(out.freeze, day)
     if freeze is not None:
         seen.append(freeze)
+    open_faults = reads.open_faults.get(ahu.pk, [])
+    for f in open_faults:
+        f.ahu = ahu
     for s in seen:
-        fault, new = _keep(ahu=ahu, day=day, seen=s, by=by)
+        fault, new = _keep(ahu=ahu, day=day, seen=s, open_faults=open_faults, by=by)
         (out.opened if new else out.updated).append(fault)
-    out.closed = _close_absent(ahu=ahu, day=day, end=end, judged=judged, present={s.code for s in seen}, by=by)
+    out.closed = _close_absent(
+        day=day, end=end, judged=judged, present={s.code for s in seen}, open_faults=open_faults, by=by
+    )
     if seen or out.closed:
         organisation_changed(organisation_id=ahu.building.site.organisation_id)
     return out
@@ -537,7 +592,8 @@ def unit_day_judge(*, ahu: AHU, day: dt.date, points: list[Point] | None = None,
 
 def trends_judge(*, site: Site, start: dt.date, end: dt.date, by=None) -> JudgeResult:
     """Judge every unit of ``site`` with mapped points over the site-local days ``start``–``end``, day by day in
-    order (so run-hour readings follow each other). Each unit's day is its own transaction."""
+    order (so run-hour readings follow each other). Each site-day is one transaction and each unit's day a
+    savepoint in it: a unit whose day is refused is rolled back alone."""
     if end < start:
         raise ValidationError(
             {"end": [f"End day {end.isoformat()} is before start day {start.isoformat()}; allowed: on or after it"]}
@@ -555,13 +611,18 @@ def trends_judge(*, site: Site, start: dt.date, end: dt.date, by=None) -> JudgeR
         points_of.setdefault(p.ahu_id, []).append(p)
     day = start
     while day <= end:
-        for ahu in units:
-            try:
-                result.days.append(unit_day_judge(ahu=ahu, day=day, points=points_of.get(ahu.pk, []), by=by))
-            except (ValidationError, EngineeringInputError) as exc:
-                # One unit's refused write (its day rolled back) never stops the site's other units.
-                words = " ".join(exc.messages) if isinstance(exc, ValidationError) else str(exc)
-                result.days.append(UnitDay(ahu=ahu, day=day, notes=[f"not judged: {words}"]))
+        # One transaction a site-day, each unit's day a savepoint in it; the organisation's answers move once.
+        with transaction.atomic(), changes_deferred():
+            reads = site_day_reads(units=units, points_of=points_of, day=day) if units else None
+            for ahu in units:
+                try:
+                    result.days.append(
+                        unit_day_judge(ahu=ahu, day=day, points=points_of.get(ahu.pk, []), reads=reads, by=by)
+                    )
+                except (ValidationError, EngineeringInputError) as exc:
+                    # One unit's refused write (its day rolled back) never stops the site's other units.
+                    words = " ".join(exc.messages) if isinstance(exc, ValidationError) else str(exc)
+                    result.days.append(UnitDay(ahu=ahu, day=day, notes=[f"not judged: {words}"]))
         day += dt.timedelta(days=1)
     return result
 

@@ -117,6 +117,7 @@ class UnitTrends:
     roles: dict[str, Point]
     samples: dict[int, Samples] = field(default_factory=dict)  # point id: samples
     points: list[Point] = field(default_factory=list)  # every mapped point of the unit, with its component
+    read_from: dt.datetime | None = None  # the samples hold every sample from this time on (the day's lead)
 
     def of(self, role: str) -> Samples | None:
         point = self.roles.get(role)
@@ -153,14 +154,28 @@ def samples_for(*, points: list[Point], since: dt.datetime, until: dt.datetime) 
     return result
 
 
-def unit_trends(*, ahu: AHU, start: dt.datetime, end: dt.datetime, lead: dt.timedelta, points=None) -> UnitTrends:
-    """The unit's mapped points and their samples from ``start - lead`` to ``end``."""
+def unit_trends(
+    *,
+    ahu: AHU,
+    start: dt.datetime,
+    end: dt.datetime,
+    lead: dt.timedelta,
+    points=None,
+    samples: dict[int, Samples] | None = None,
+) -> UnitTrends:
+    """The unit's mapped points and their samples from ``start - lead`` to ``end``; ``samples`` when they were
+    read already over that window (``samples_for`` of a whole site's points at once)."""
     points = list(points if points is not None else Point.objects.filter(ahu=ahu).select_related("component"))
+    if samples is None:
+        samples = samples_for(points=points, since=start - lead, until=end)
+    else:
+        samples = {p.pk: samples.get(p.pk) or Samples(seconds=np.empty(0), values=np.empty(0)) for p in points}
     return UnitTrends(
         ahu=ahu,
         start=start,
         end=end,
         roles=unit_roles(points),
-        samples=samples_for(points=points, since=start - lead, until=end),
+        samples=samples,
         points=points,
+        read_from=start - lead,
     )

@@ -502,3 +502,53 @@ def test_a_change_of_value_fan_log_holds_its_last_state_across_midnight(unit):
     with time_machine.travel(_start(DAY1) + dt.timedelta(days=2, hours=1), tick=False):
         trends_judge(site=ahu.building.site, start=DAY1, end=DAY1 + dt.timedelta(days=1))
     assert [r.hours for r in MeterReading.objects.filter(ahu=ahu).order_by("taken_at")] == [0.0, 3.0, 6.0]
+
+
+# ---------------------------------------------------------------------------
+# Reads per site, not per unit
+# ---------------------------------------------------------------------------
+
+
+def _site_of_units(n: int):
+    org = OrganisationFactory()
+    site = SiteFactory(organisation=org, time_zone="UTC")
+    building = BuildingFactory(site=site)
+    for i in range(n):
+        ahu = make_full_unit(building=building, tag=f"AHU-{i + 1:02d}")
+        put_day(map_points(ahu), _start(DAY1), {**HEATING, "MAT": WORKING_MAT, "FILT-DP": 150})
+    return site
+
+
+def _judge_counting(site) -> tuple[list, list[str]]:
+    from django.db import connection
+    from django.test.utils import CaptureQueriesContext
+
+    with (
+        time_machine.travel(_start(DAY1) + dt.timedelta(days=1, hours=1), tick=False),
+        CaptureQueriesContext(connection) as queries,
+    ):
+        days = trends_judge(site=site, start=DAY1, end=DAY1).days
+    return days, [q["sql"] for q in queries.captured_queries]
+
+
+# What judging reads rather than writes: the trends, the fan meters' latest readings, the open faults and the
+# filter banks' open findings (writes and the meter service's own checks are each unit's).
+SITE_READS = (
+    'FROM "automation_trendday"',
+    'FROM "automation_fault"',
+    'FROM "inventory_component"',
+    'FROM "inspections_finding"',
+)
+
+
+def test_a_sites_reads_are_the_same_few_queries_for_one_unit_or_three():
+    """Judging a site's day reads each unit's trends, fan meter, open faults and filter findings for the whole
+    site at once: as many of those queries for three units as for one."""
+    task_library_install()
+    counted = []
+    for n in (1, 3):
+        days, sql = _judge_counting(_site_of_units(n))
+        assert len(days) == n and all(d.faults is not None and d.run_hours is not None for d in days)
+        assert all(f.day is not None for d in days for f in d.filters)
+        counted.append(sum(1 for q in sql if q.lstrip().startswith("SELECT") and any(t in q for t in SITE_READS)))
+    assert counted[0] == counted[1]
