@@ -344,7 +344,7 @@ def _filter_day_store(
     else:
         reason = "cannot judge the filter loading: the filter bank has no clean or final pressure drop in the registry"
     if judged is not None:
-        verdict, loading_pct = judged.verdict.value, round(judged.fraction_of_span * 100, 1)
+        verdict, loading_pct = judged.verdict.value, filters.loading_percent(judged.fraction_of_span)
         reason = f"{bank.name}: {judged.reason} (trend median of {samples} samples with the fan running)"
     row, _ = FilterDay.objects.update_or_create(
         component=bank,

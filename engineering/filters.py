@@ -34,6 +34,7 @@ __all__ = [
     "filter_extra_energy",
     "filter_forecast",
     "filter_loading",
+    "loading_percent",
 ]
 
 # Pressure drop across a filter grows as Q^n with n between 1 (viscous flow
@@ -195,14 +196,14 @@ def filter_loading(
         )
     verdict = Verdict.FAIL if f >= ff else Verdict.WATCH if f >= wf else Verdict.OK
     reason = (
-        f"filter {corrected:.0f} Pa at design airflow, {frac * 100:.0f} % of the way from clean "
+        f"filter {corrected:.0f} Pa at design airflow, {loading_percent(frac):.0f} % of the way from clean "
         f"{clean:.0f} Pa to final {final:.0f} Pa (watch from {wf * 100:.0f} %, fail from "
         f"{ff * 100:.0f} %)"
     )
     parts = (
         "filter ",
         _pa(corrected),
-        f" at design airflow, {frac * 100:.0f} % of the way from clean ",
+        f" at design airflow, {loading_percent(frac):.0f} % of the way from clean ",
         _pa(clean),
         " to final ",
         _pa(final),
@@ -216,6 +217,12 @@ def filter_loading(
         fraction_of_clean=of_clean,
         parts=parts,
     )
+
+
+def loading_percent(fraction_of_span: float) -> float:
+    """The loading as kept and shown everywhere: percent of the clean-to-final span to one decimal. Texts say it
+    whole from this same figure (``f"{loading_percent(f):.0f} %"``), so a reason and a table never differ by one."""
+    return round(fraction_of_span * 100, 1)
 
 
 def _pa(value: float) -> dict[str, Any]:

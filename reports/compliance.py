@@ -478,6 +478,7 @@ def _status_none() -> dict:
         "source": "",
         "source_label": "",
         "reason": "",
+        "reason_parts": [],
         "evaluation": None,
         "outlook": None,
         "forecast": "—",
@@ -519,8 +520,9 @@ def _trend_status(*, bank: Component, point, series, today: date) -> tuple[dict,
     status = {
         **_status_none(),
         "verdict": loading.verdict.value,
-        "derived": {"loading_pct": round(loading.fraction_of_span * 100, 1)},
+        "derived": {"loading_pct": engineering_filters.loading_percent(loading.fraction_of_span)},
         "reason": loading.reason,
+        "reason_parts": list(loading.parts),  # in the reader's units (inspections.reasons)
     }
     return status, outlook
 
@@ -568,7 +570,7 @@ def _loading_of_new_filters(*, bank: Component, point, design: float) -> dict:
         )
     except EngineeringInputError:
         return {}
-    return {"loading_pct": round(loading.fraction_of_span * 100, 1)}
+    return {"loading_pct": engineering_filters.loading_percent(loading.fraction_of_span)}
 
 
 @dataclass(frozen=True)

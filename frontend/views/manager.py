@@ -11,6 +11,8 @@ from django.shortcuts import render
 from django.views.decorators.http import require_GET
 
 from engineering.units import to_display, unit_label
+from inspections import reasons
+from inspections.freeze import season_window
 from inspections.reasons import text_without_subject
 from inspections.selectors import reason_for
 from inventory.today import today_for
@@ -78,7 +80,10 @@ def site_detail(request, pk: int):
                 "title": f"{comp.ahu.display_name} {comp.name}: pressure drop at design airflow",
                 # The caption names the bank: the reason does not begin with it again.
                 "reason": text_without_subject(
-                    reason_for(evaluation=ev, unit_system=system) if ev else status.get("reason", ""), comp.name
+                    reason_for(evaluation=ev, unit_system=system)
+                    if ev
+                    else reasons.render(status.get("reason_parts") or [status.get("reason", "")], system),
+                    comp.name,
                 ),
                 "verdict": status.get("verdict", ""),
                 "svg": line_chart(
@@ -96,6 +101,9 @@ def site_detail(request, pk: int):
             }
         )
     # The site's own day throughout: its charts, its season and its temperatures.
+    # The season freeze readiness judges (the running one while it runs, else the coming one): one date for the
+    # chart's line, its caption and the readiness below.
+    season, _opens = season_window(site=site, today=today)
     temps = selectors.outdoor_temperatures(site=site, today=today)
     t = [(d, to_display(value=v, quantity="temperature", system=system)) for d, v in temps]
     threshold = to_display(value=site.preheat_threshold_c, quantity="temperature", system=system)
@@ -105,7 +113,8 @@ def site_detail(request, pk: int):
         series=[x for x in t if x[0] <= today],
         forecast=[x for x in t if x[0] > today],
         hline=(threshold, f"preheat threshold {threshold:.0f} {t_unit}"),
-        vline=(site.freeze_season_start, "freeze season starts") if site.freeze_season_start else None,
+        # The line only inside the chart's days (a season far off or long begun would squash the temperatures).
+        vline=(season, "freeze season starts") if season and t and t[0][0] <= season <= t[-1][0] else None,
     )
     for row in figures.filters:
         d = row["derived"]
@@ -121,7 +130,8 @@ def site_detail(request, pk: int):
             "site": site,
             "charts": charts,
             "temp_chart": temp_chart,
-            "season_started": bool(site.freeze_season_start and site.freeze_season_start <= today),
+            "season": season,
+            "season_started": bool(season and season <= today),
             "f": figures,
             "share": percent(figures.total.on_time_share),
             "category_rows": [(c, percent(c.on_time_share)) for c in figures.categories],

@@ -88,11 +88,11 @@ def filter_loading_checks(form: Form, consumed: set) -> list[Result]:
             res.say("cannot judge the filter loading: ", refusal_parts(exc))
             out.append(res)
             continue
-        pct = loading.fraction_of_span * 100
+        pct = filters.loading_percent(loading.fraction_of_span)  # kept and said the same (one decimal, said whole)
         res.verdict = loading.verdict.value
         res.derived = {
             **_filter_derived(dp=dp, q=q, q_how=q_how, design_q=design_q, clean=specs["clean_dp_pa"], judged=loading),
-            "loading_pct": round(pct, 1),
+            "loading_pct": pct,
             "final_dp_pa": specs["final_dp_pa"],
         }
         res.method = (

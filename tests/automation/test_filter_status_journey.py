@@ -148,6 +148,12 @@ def test_a_bank_loaded_in_the_trend_is_to_change_for_the_manager_with_one_findin
         [shown] = [f for f in _client(helena).get(reverse("inspections_api:findings")).json() if f["id"] == finding.pk]
     assert "1.00 in. w.c. at design airflow" in shown["text"]  # 248.8 Pa ÷ 249.09 Pa per in. w.c. (NIST SP 811)
     assert " Pa" not in shown["text"] and "13 Jan 2026" in shown["text"]
+    # Her site page's chart caption says the trend day's judgement in her units too, with the table's loading.
+    with time_machine.travel(NOW, tick=False):
+        us_page = _client(helena).get(f"/dashboard/site/{site.pk}/").content.decode()
+    caption = us_page.split("Final filters: pressure drop at design airflow")[1].split("</figcaption>")[0]
+    assert "1.00 in. w.c. at design airflow" in caption and " Pa" not in caption
+    assert "99 % of the way from clean" in caption
     helena.unit_system = "si"
     helena.save(update_fields=["unit_system"])
 

@@ -202,3 +202,17 @@ def test_economic_change_point_limited_by_final_pressure_drop():
         final_dp_pa=250.0,
     )
     assert ecp.limited_by_final_dp and ecp.run_hours == pytest.approx(8500)
+
+
+def test_the_loading_said_in_a_reason_is_the_loading_kept_for_tables():
+    """One figure: the reason says the loading whole from the one-decimal value tables show whole
+    (a reason said 55 % where the table said 54 % when each rounded on its own)."""
+    import re
+
+    from engineering.filters import filter_loading, loading_percent
+
+    for tenths in range(1000, 3000):
+        dp = tenths / 10
+        judged = filter_loading(dp_pa=dp, airflow_m3s=1.0, design_airflow_m3s=1.0, clean_dp_pa=100.0, final_dp_pa=300.0)
+        said = re.search(r"(\d+) % of the way", judged.reason)
+        assert said is not None and said.group(1) == f"{loading_percent(judged.fraction_of_span):.0f}", dp
