@@ -3,7 +3,22 @@
 from __future__ import annotations
 
 import datetime as dt
+import itertools
 from html import escape
+
+
+def axis_labels(values: list[float]) -> list[str]:
+    """Axis labels at the fewest decimals (0–4) that say each value to within a tenth of the smallest gap between
+    them, so 0.23 and 1.40 in. w.c. read "0.2" and "1.4" (not "0" and "1") and ticks 121.5, 122, 122.5 never all
+    read "122"; numbers as every page writes them (engineering.formatting: true minus, never −0)."""
+    from engineering.formatting import format_number
+
+    gaps = [abs(b - a) for a, b in itertools.pairwise(values) if abs(b - a) > 0]
+    room = (min(gaps) if gaps else max(abs(v) for v in values) or 1.0) / 10
+    for decimals in range(5):
+        if all(abs(round(v, decimals) - v) <= room for v in values):
+            break
+    return [format_number(v, decimals=decimals) for v in values]
 
 
 def _scale(lo: float, hi: float, a: float, b: float):
@@ -45,6 +60,7 @@ def line_chart(
     v0, v1 = min(values), max(values)
     pad = (v1 - v0) * 0.1 or 1.0
     v0, v1 = v0 - pad, v1 + pad
+    low, high = axis_labels([v0, v1])
     fs = 18  # font size in view units: 18 × 360/640 ≈ 10 px on a phone
     left, right, top, bottom = 64, width - 12, 70, height - 40
     x = _scale(d0.toordinal(), d1.toordinal(), left, right)
@@ -67,8 +83,8 @@ def line_chart(
         + f">{escape(title)} ({escape(unit)})</text>",
         f'<line x1="{left}" y1="{bottom}" x2="{right}" y2="{bottom}" stroke="currentColor" stroke-width="1"/>',
         f'<line x1="{left}" y1="{top}" x2="{left}" y2="{bottom}" stroke="currentColor" stroke-width="1"/>',
-        f'<text x="{left - 6}" y="{top + 4}" text-anchor="end" fill="currentColor" font-size="{fs}">{v1:.0f}</text>',
-        f'<text x="{left - 6}" y="{bottom}" text-anchor="end" fill="currentColor" font-size="{fs}">{v0:.0f}</text>',
+        f'<text x="{left - 6}" y="{top + 4}" text-anchor="end" fill="currentColor" font-size="{fs}">{high}</text>',
+        f'<text x="{left - 6}" y="{bottom}" text-anchor="end" fill="currentColor" font-size="{fs}">{low}</text>',
         f'<text x="{left}" y="{height - 12}" fill="currentColor" font-size="{fs}">{d0.day} {d0:%b %Y}</text>',
         f'<text x="{right}" y="{height - 12}" text-anchor="end" fill="currentColor" font-size="{fs}">'
         f"{d1.day} {d1:%b %Y}</text>",

@@ -13,6 +13,8 @@ import zoneinfo
 from dataclasses import dataclass
 from html import escape
 
+from .charts import axis_labels
+
 # Lines are told apart by their dash as well as their colour (for people who do not see the colour).
 STROKES = (("#1f5fa8", ""), ("#b3541e", "8 4"), ("#2e7d32", "2 4"), ("#6a3d9a", "12 4 2 4"), ("#555555", "4 4"))
 MAX_POINTS = 700  # per line: more samples than a phone's width can show are thinned
@@ -36,11 +38,6 @@ def _thin(samples: list[tuple[dt.datetime, float]]) -> list[tuple[dt.datetime, f
         return samples
     step = len(samples) / MAX_POINTS
     return [samples[int(i * step)] for i in range(MAX_POINTS)] + [samples[-1]]
-
-
-def _number(v: float) -> str:
-    text = f"{v:.0f}" if abs(v) >= 10 or v == round(v) else f"{v:.1f}"
-    return "0" if float(text) == 0 else text.replace("-", "−")
 
 
 def nice_ticks(low: float, high: float, *, most: int = 5) -> list[float]:
@@ -147,7 +144,7 @@ def trend_chart(
         f'<line x1="{left}" y1="{bottom}" x2="{right}" y2="{bottom}" stroke="currentColor" stroke-width="1"/>',
         f'<line x1="{left}" y1="{top}" x2="{left}" y2="{bottom}" stroke="currentColor" stroke-width="1"/>',
     ]
-    for tick in ticks:
+    for tick, label in zip(ticks, axis_labels(ticks), strict=True):
         ty = y(tick)
         if tick != v0:
             parts.append(
@@ -156,7 +153,7 @@ def trend_chart(
             )
         parts.append(
             f'<text x="{left - 6}" y="{ty + fs / 3:.1f}" text-anchor="end" fill="currentColor" font-size="{fs}" '
-            f'data-tick="{tick:g}">{_number(tick)}</text>'
+            f'data-tick="{tick:g}">{label}</text>'
         )
     tz = zoneinfo.ZoneInfo(zone)
     first, last = start.astimezone(tz), end.astimezone(tz)

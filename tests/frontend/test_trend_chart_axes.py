@@ -49,3 +49,30 @@ def test_close_limit_lines_have_their_words_a_line_apart_and_long_labels_squeeze
     long = "Filter differential pressure sensor of the final filters bank"
     svg = _chart([1, 2], label=long)
     assert f'lengthAdjust="spacingAndGlyphs">{long}</text>' in svg
+
+
+def test_tick_labels_tell_close_ticks_apart_and_never_repeat():
+    """A near-flat 122 °F series: ticks 121.5, 122, 122.5 read so, not "122" three times."""
+    svg = _chart([121.9, 122.0, 122.1])
+    labels = re.findall(r'data-tick="[^"]+">([^<]+)<', svg)
+    assert len(labels) == len(set(labels)) >= 2
+    assert all("." in label for label in labels)
+
+
+def test_a_dated_chart_in_inches_of_water_labels_its_axis_with_decimals():
+    """Filter pressure drops of 0.33–1.20 in. w.c.: the axis ends read with a decimal, not "0" and "1"."""
+    from frontend.charts import axis_labels, line_chart
+
+    assert axis_labels([0.243, 1.287]) == ["0.2", "1.3"]
+    assert axis_labels([81.0, 323.0]) == ["81", "323"]
+    assert axis_labels([-0.04, 2.0]) == ["0", "2"]  # never "−0"
+    day = dt.date(2026, 1, 5)
+    svg = line_chart(
+        title="Final filters",
+        unit="in. w.c.",
+        series=[(day, 0.33), (day + dt.timedelta(days=30), 1.20)],
+        hline=(1.2, "final 1.20 in. w.c."),
+    )
+    assert re.search(r'text-anchor="end"[^>]*>0\.2</text>', svg) and re.search(
+        r'text-anchor="end"[^>]*>1\.3</text>', svg
+    )
