@@ -20,6 +20,7 @@ import re
 
 import pytest
 import time_machine
+from django.conf import settings
 from django.core.management import call_command
 from django.db.models import Count, Q
 from pypdf import PdfReader
@@ -29,8 +30,11 @@ from inspections.models import Inspection
 from inventory.display import site_time_text
 from inventory.models import AHU
 from inventory.selectors import sites_visible_to
+from reports.documents import registry
+from reports.models import Report
 from tests.reports import pdfcheck
 from tests.reports.conftest import page_margin_ink, text_of
+from tests.reports.layout import cells_overflowing
 
 pytestmark = pytest.mark.django_db
 DEMO_DAY = dt.datetime(2026, 12, 2, 10, tzinfo=dt.UTC)  # the demo's day (tests/flows/test_freeze_readiness.py)
@@ -50,6 +54,10 @@ def _ask(client, person, capture, *, kind: str, parameters: dict, pdfa: bool = F
     assert got.status_code == 200 and got["Content-Type"] == "application/pdf"
     pdf = b"".join(got.streaming_content) if got.streaming else got.content
     assert state["page_count"] >= 1 and state["size_bytes"] == len(pdf)
+    # As laid out: no cell's text runs into the next column.
+    report = Report.objects.get(public_id=state["public_id"])
+    html = registry()[kind].build(report=report).html
+    assert cells_overflowing(html, base_url=str(settings.BASE_DIR)) == [], kind
     return pdf, state
 
 

@@ -12,12 +12,14 @@ import subprocess
 
 import pytest
 import time_machine
+from django.conf import settings
 from django.core.management import call_command
 
 from accounts.models import Role, User
 from inspections.models import Evaluation, Finding, Reading
 from inspections.services.library import templates_current
 from inventory.models import AHU, Component, Site
+from reports.documents import registry
 from scheduling.models import WorkOrder
 from tests.factories.accounts import make_person
 from tests.factories.inventory import AHUFactory, BuildingFactory, ComponentFactory, SiteFactory
@@ -25,6 +27,7 @@ from tests.inspections.test_display import leaks
 
 from . import builders as b
 from .conftest import page_margin_ink, pdf_bytes, pdf_pages
+from .layout import cells_overflowing
 
 pytestmark = pytest.mark.django_db
 AS_OF = b.at("2025-05-10", 9)
@@ -233,6 +236,9 @@ def test_every_page_of_the_demo_report_stays_on_its_paper(make_report):
     with time_machine.travel(DEMO_DAY + dt.timedelta(hours=1), tick=False):
         report = make_report(user=boss, kind="compliance", parameters={})
     text = check_every_page(pdf_bytes(report), "compliance-demo")
+    # No cell's text runs into the next column (a source under a date, a long word in a narrow column).
+    html = registry()["compliance"].build(report=report).html
+    assert cells_overflowing(html, base_url=str(settings.BASE_DIR)) == []
     joined = " ".join(text.split())
     open_now = Finding.objects.filter(state=Finding.State.OPEN, ahu__building__site_id__in=report.site_ids).count()
     assert open_now > 0
