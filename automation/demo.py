@@ -45,7 +45,7 @@ import numpy as np
 from engineering.freeze import daily_values_from_normals
 from inventory.models import AHU, Component
 
-from .models import Point, TrendDay
+from .models import BacnetObjectType, Point, TrendDay
 from .services import point_create
 
 STEP_S = 900
@@ -97,6 +97,21 @@ def _first(components: list[Component], kind: str, **specs: str) -> Component | 
     return None
 
 
+DEMO_DEVICE_BASE = 20_000
+
+
+def _object_type(brick_class: str) -> str:
+    """The BACnet object a demo point reads: a status a binary input, a command an analog output, a set point an
+    analog value, a sensor an analog input (common practice for controllers' object lists)."""
+    if brick_class.endswith("_Status"):
+        return BacnetObjectType.BINARY_INPUT
+    if brick_class.endswith("_Command"):
+        return BacnetObjectType.ANALOG_OUTPUT
+    if brick_class.endswith("_Setpoint"):
+        return BacnetObjectType.ANALOG_VALUE
+    return BacnetObjectType.ANALOG_INPUT
+
+
 def _points(ahu: AHU) -> tuple[dict[str, Point], int]:
     """The unit's demo points by job (created once through the point service)."""
     parts = list(ahu.components.filter(retired_on__isnull=True).order_by("position", "pk"))
@@ -139,12 +154,23 @@ def _points(ahu: AHU) -> tuple[dict[str, Point], int]:
     }
     existing = {p.name: p for p in Point.objects.filter(ahu=ahu).select_related("component")}
     out, created = {}, 0
-    for job, brick_class, component in want:
+    for number, (job, brick_class, component) in enumerate(want, start=1):
         suffix = f"FLT-DP.{component.position}" if job.startswith("filter:") else names[job]
         name = f"{ahu.tag}.{suffix}"
         point = existing.get(name)
         if point is None:
-            point = point_create(ahu=ahu, name=name, brick_class=brick_class, unit="", component=component)
+            # Invented addresses: one controller per unit (device DEMO_DEVICE_BASE + the unit's key), its objects
+            # numbered in the order above; sensors are inputs, commands outputs, the set point a value.
+            point = point_create(
+                ahu=ahu,
+                name=name,
+                brick_class=brick_class,
+                unit="",
+                component=component,
+                bacnet_device_instance=DEMO_DEVICE_BASE + ahu.pk,
+                bacnet_object_type=_object_type(brick_class),
+                bacnet_object_instance=number,
+            )
             created += 1
         out[job] = point
     return out, created

@@ -129,6 +129,9 @@ def test_demo_trends_carry_the_seeded_faults_and_only_them():
         )
         assert Fault.objects.filter(ahu=filter_unit).count() == 0
         trended = set(Point.objects.values_list("ahu_id", flat=True))
+        # Every demo point has its (invented) BACnet address, as the point map promises.
+        assert not Point.objects.filter(bacnet_device_instance__isnull=True).exists()
+        assert set(Point.objects.values_list("bacnet_object_type", flat=True)) >= {"analog-input", "binary-input"}
         assert seeded < trended and len(trended) >= 8
 
         # Loading again changes nothing.
