@@ -103,12 +103,12 @@ def test_a_file_with_a_nul_is_refused_before_any_job_is_stored(world, api_client
 
 def test_a_job_that_breaks_while_writing_stores_nothing_and_says_so(world, monkeypatch):
     """An unexpected error after some rows were written rolls all of them back; the job says failed, in words."""
-    from inventory import csv_io
+    from inventory.csv_io.plan import ImportPlan
 
     def broken(self, model):
         raise RuntimeError("disk gone")
 
-    monkeypatch.setattr(csv_io._Plan, "_update", broken)
+    monkeypatch.setattr(ImportPlan, "_update", broken)
     job = import_jobs.import_job_create(organisation=world.org_a, kind="sites", text=SITES, by=None)
     job = import_jobs.import_job_run(job_id=job.pk)
     assert job.status == ImportJob.Status.FAILED
@@ -118,9 +118,9 @@ def test_a_job_that_breaks_while_writing_stores_nothing_and_says_so(world, monke
 
 def test_progress_is_saved_as_rows_are_checked(world, monkeypatch):
     """The job's rows done move in steps while the file is checked and end at the total."""
-    from inventory import csv_io
+    from inventory.csv_io import importing
 
-    monkeypatch.setattr(csv_io, "PROGRESS_EVERY", 2)
+    monkeypatch.setattr(importing, "PROGRESS_EVERY", 2)
     seen = []
     real_update = import_jobs.ImportJob.objects.filter
 
