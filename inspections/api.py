@@ -13,6 +13,7 @@ from rest_framework.views import APIView
 
 from accounts.api_errors import ErrorOutput
 from accounts.inputs import INT64_MAX, FieldErrors, check_integer
+from scheduling.selectors import work_order_for
 
 from . import check, freeze, selectors, services
 from . import serializers as s
@@ -26,7 +27,7 @@ READ_ONLY = OpenApiResponse(ErrorOutput, description="You may read this work but
 class ChecklistView(APIView):
     @extend_schema(responses={200: s.ChecklistOutput, 404: NOT_FOUND}, tags=["inspections"])
     def get(self, request, public_id):
-        wo = selectors.work_order_for(user=request.user, public_id=public_id)
+        wo = work_order_for(user=request.user, public_id=public_id)
         return Response(selectors.checklist_for(work_order=wo, user=request.user))
 
 

@@ -12,7 +12,7 @@ from engineering.errors import EngineeringInputError
 from engineering.filters import FilterPoint
 from inspections.display import refusal_parts
 from inspections.reasons import q as qty
-from inspections.selectors import filter_design_airflow_m3s
+from inspections.selectors.filter_banks import filter_design_airflow_m3s
 
 from .form import Form, supply_airflow
 from .results import Result

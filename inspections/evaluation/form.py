@@ -29,7 +29,7 @@ class Form:
     ahu: Any
     components: list[Any]
     values: dict[tuple[str, int | None], Value]
-    slots: list[Any]  # inspections.selectors.Slot
+    slots: list[Any]  # inspections.selectors.checklist.Slot
     finished_at: dt.datetime
     # Earlier (run_hours, dp_pa, airflow_m3s, when) points of a filter bank since its last change.
     filter_points: Callable[[Any], list[FilterPoint]] = lambda component: []

@@ -40,11 +40,11 @@ from inspections.selectors import (
     item_labels,
     reason_for,
     work_order_cautions,
-    work_order_for,
 )
 from inventory.services import label_absolute_url, label_qr_svg
 from reports.rendering import html_render, paper_for, stored_file_data_uri, svg_data_uri
 from scheduling.models import WorkOrder, WorkOrderTask
+from scheduling.selectors import work_order_for
 
 from . import Built, Prepared
 from .common import unit_system

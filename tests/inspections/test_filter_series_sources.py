@@ -12,9 +12,9 @@ from inspections.selectors import (
     FILTER_TREND,
     FilterLife,
     FilterSeriesPoint,
-    _with_points,
     filter_sources_words,
 )
+from inspections.selectors.filter_banks import _with_points
 
 UTC = dt.UTC
 

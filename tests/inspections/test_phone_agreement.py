@@ -31,7 +31,8 @@ from engineering import ventilation
 from engineering.filters import FilterPoint
 from inspections import checklists, evaluation, limits, phone
 from inspections.evaluation.ventilation_checks import required_outdoor_airflow_m3s
-from inspections.selectors import _matches, item_limits
+from inspections.selectors import item_limits
+from inspections.selectors.checklist import _matches
 from tests.conftest import service_missing
 from tests.phone_js import node_json
 
