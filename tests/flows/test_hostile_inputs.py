@@ -47,7 +47,7 @@ def _text(response) -> str:
 
 def _unit_form(ahu: AHU, **changes) -> dict:
     """The unit form as it opens (airflow in L/s, the person's units), with ``changes`` typed over it."""
-    from frontend.views.registry_pages import unit_form_initial
+    from frontend.views.registry_units import unit_form_initial
 
     data = {
         k: "1" if v is True else "" if v in (None, False) else str(v)

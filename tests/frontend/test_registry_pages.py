@@ -10,7 +10,7 @@ import time_machine
 from django.urls import reverse
 
 from accounts.models import AuditEvent, Role
-from frontend.views.registry_pages import unit_form_initial
+from frontend.views.registry_units import unit_form_initial
 from inventory.models import AHU, Building, Component, Site
 from scheduling.engine import work_orders_generate
 from scheduling.models import WorkOrder, WorkOrderTask

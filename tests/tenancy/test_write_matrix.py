@@ -131,7 +131,7 @@ def _checklist_post(w: World, c: Corner) -> Call:
 
 
 def _unit_edit(w: World, c: Corner) -> Call:
-    from frontend.views.registry_pages import unit_form_initial
+    from frontend.views.registry_units import unit_form_initial
 
     ahu = c.ahu
     post = {
@@ -305,7 +305,7 @@ WRITES: dict[tuple[str, str], Write] = {
     ),
     ("frontend:registry_unit_edit", "post"): Write(MANAGERS, _unit_edit),
     ("frontend:registry_component_edit", "post"): Write(MANAGERS, _component_edit),
-    # Registry pages: add, move and retire (frontend/views/registry_pages.py); supervisors and admins.
+    # Registry pages: add, move and retire (frontend/views/registry_*.py); supervisors and admins.
     ("frontend:registry_site_new", "post"): Write(
         MANAGERS,
         lambda w, c: Call(
