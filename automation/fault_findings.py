@@ -18,6 +18,7 @@ import datetime as dt
 import zoneinfo
 
 from accounts.clock import local_time_text
+from engineering.faults.consequences import consequence_text
 from inspections import reasons
 from inspections.models import Finding
 
@@ -83,8 +84,10 @@ def finding_parts(*, code: str, formula: str, evidence: dict, consequence: dict 
         parts.append(f"; found on {days} day{'' if days == 1 else 's'}")
     if evidence.get("lowest_c") is not None:
         parts += ["; the supply air fell to ", {"value": float(evidence["lowest_c"]), "quantity": "temperature"}]
-    if consequence and (consequence.get("summary") or consequence.get("values")):
-        parts += ["; ", reasons.consequence(code, consequence)]  # in the reader's units when read
+    # What it costs, in the reader's units when read; without a number, what the rule's fault risks and what to
+    # check first (engineering.faults.consequences.RISKS: "check for a leaking cooling valve or a faulty sensor").
+    if consequence_text(code, consequence):
+        parts += ["; ", reasons.consequence(code, consequence or {})]
     merged: list = []
     for p in parts:  # adjacent texts as one (inspections.reasons.flatten)
         if isinstance(p, str) and merged and isinstance(merged[-1], str):

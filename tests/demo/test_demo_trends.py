@@ -99,6 +99,9 @@ def test_demo_trends_carry_the_seeded_faults_and_only_them():
         leak_work = Fault.objects.get(ahu=leaking, state="open").corrective_work_order
         assert leak_work.title == "Supply and mixed air differ in free cooling: leaking coil valve or faulty sensor"
         assert "check for a leaking cooling valve or a faulty sensor" in leak_work.reason
+        # ... and its finding tells the property manager the same, not only the rule's formula.
+        leak_finding = Fault.objects.get(ahu=leaking, state="open").finding
+        assert "check for a leaking cooling valve or a faulty sensor" in leak_finding.reason
 
         # The freezing night: not ready for freeze protection until retested, in readiness and in the figures.
         frozen = _unit(FREEZE_NIGHT)
