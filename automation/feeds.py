@@ -238,11 +238,20 @@ def _airflow(trends: UnitTrends, at: np.ndarray) -> tuple[np.ndarray, str]:
 
 
 def filter_feed(
-    *, trends: UnitTrends, day: dt.date, meter_hours: float | None, open_findings: dict | None = None, by=None
+    *,
+    trends: UnitTrends,
+    day: dt.date,
+    meter_hours: float | None,
+    open_findings: dict | None = None,
+    forecast_later: list | None = None,
+    by=None,
 ) -> list[FilterResult]:
-    """Each trended filter bank's day: stored (``FilterDay``, replaced on a re-run), judged, and when it calls for
-    a change, the change proposed through the scheduling condition ``filter_loaded``. ``open_findings``: the
-    banks' open trend findings (``fault_findings.open_filter_findings``), read before the day's writes."""
+    """Each trended filter bank's day: stored (``FilterDay``, replaced on a re-run; the unit's banks in one
+    statement), judged, and when it calls for a change, the change proposed through the scheduling condition
+    ``filter_loaded``. ``open_findings``: the banks' open trend findings (``fault_findings.open_filter_findings``),
+    read before the day's writes. ``forecast_later``: a list to put the stored days that call for no change on,
+    for the caller to add their forecast words to many units' days at once (``filter_days_forecast``); without
+    it, every day gets them here."""
     from inspections.selectors import filter_design_airflow_m3s
 
     out = []
@@ -260,16 +269,12 @@ def filter_feed(
             at, dp = at[running], dp[running]
         q, how = _airflow(trends, at)
         design_q = filter_design_airflow_m3s(component=bank, ahu=trends.ahu)
-        corrected = []
-        for dp_i, q_i in zip(dp.tolist(), q.tolist(), strict=True):
-            if not np.isfinite(q_i) or q_i <= 0:
-                continue
-            try:
-                corrected.append(
-                    filters.corrected_pressure_drop(dp_pa=dp_i, airflow_m3s=q_i, design_airflow_m3s=design_q)
-                )
-            except EngineeringInputError:
-                continue  # too far from design airflow (or out of range) to correct: left out, as for a reading
+        try:
+            # A sample too far from design airflow (or out of range) to correct is left out, as a reading is.
+            each = filters.corrected_pressure_drops(dp_pa=dp, airflow_m3s=q, design_airflow_m3s=design_q)
+            corrected = each[np.isfinite(each)]
+        except EngineeringInputError:
+            corrected = np.empty(0)
         if len(corrected) < FILTER_MIN_SAMPLES:
             FilterDay.objects.filter(component=bank, day=day).delete()
             out.append(
@@ -281,7 +286,7 @@ def filter_feed(
             )
             continue
         out.append(
-            _filter_day_store(
+            _filter_day_judged(
                 bank=bank,
                 day=day,
                 corrected=float(np.median(corrected)),
@@ -292,41 +297,77 @@ def filter_feed(
             )
         )
     stored = [r for r in out if r.day is not None]
-    if stored:
-        # Every bank's forecast from one read of the unit's shared filter series, the day's rows included.
-        words = _forecast_words_for(banks=[r.bank for r in stored], day=day)
-        changed = []
-        for r in stored:
-            if words.get(r.bank.pk):
-                r.day.reason = f"{r.day.reason}; {words[r.bank.pk]}"
-                changed.append(r.day)
-        if changed:
-            FilterDay.objects.bulk_update(changed, ["reason"])
-        for i, r in enumerate(out):
-            judged = r.judged
-            wants_change = judged is not None and judged.verdict == Verdict.FAIL and not judged.media_bypass_suspected
-            if r.day is not None and wants_change:
-                proposed = _propose_change(bank=r.bank, row=r.day, judged=judged, trends=trends, by=by)
-                # The bank's one open finding, holding the change just proposed (the findings pages list it).
-                filter_finding_keep(
-                    bank=r.bank,
-                    row=r.day,
-                    judged=judged,
-                    start=trends.start,
-                    end=trends.end,
-                    work_order=proposed,
-                    by=by,
-                )
-                out[i] = dataclasses.replace(r, proposed=proposed)
-            elif r.day is not None and judged is not None and judged.verdict != Verdict.FAIL:
-                filter_finding_clear(bank=r.bank, row=r.day, end=trends.end, open_findings=open_findings, by=by)
+    if not stored:
+        return out
+    FilterDay.objects.bulk_create(
+        [r.day for r in stored],
+        update_conflicts=True,
+        unique_fields=["component", "day"],
+        update_fields=FILTER_DAY_FIELDS,
+    )
+    wanting = {r.bank.pk for r in stored if _wants_change(r.judged)}
+    now = [r for r in stored if forecast_later is None or r.bank.pk in wanting]
+    if forecast_later is not None:
+        forecast_later += [(r.bank, r.day) for r in stored if r.bank.pk not in wanting]
+    if now:
+        # The proposed change names the forecast: those banks' words at once, from one read of the shared series.
+        filter_days_forecast(days=[(r.bank, r.day) for r in now], day=day)
+    for i, r in enumerate(out):
+        judged = r.judged
+        if r.day is not None and _wants_change(judged):
+            proposed = _propose_change(bank=r.bank, row=r.day, judged=judged, trends=trends, by=by)
+            # The bank's one open finding, holding the change just proposed (the findings pages list it).
+            filter_finding_keep(
+                bank=r.bank,
+                row=r.day,
+                judged=judged,
+                start=trends.start,
+                end=trends.end,
+                work_order=proposed,
+                by=by,
+            )
+            out[i] = dataclasses.replace(r, proposed=proposed)
+        elif r.day is not None and judged is not None and judged.verdict != Verdict.FAIL:
+            filter_finding_clear(bank=r.bank, row=r.day, end=trends.end, open_findings=open_findings, by=by)
     return out
 
 
-def _filter_day_store(
+def _wants_change(judged) -> bool:
+    return judged is not None and judged.verdict == Verdict.FAIL and not judged.media_bypass_suspected
+
+
+def filter_days_forecast(*, days: list[tuple[Component, FilterDay]], day: dt.date) -> None:
+    """Each stored bank's day (``(bank, row)``, one site's, of ``day``) gets its change forecast in words after its
+    judgement, from one read of the banks' shared filter series, the day's rows included."""
+    if not days:
+        return
+    words = _forecast_words_for(banks=[bank for bank, _ in days], day=day)
+    changed = []
+    for bank, row in days:
+        if words.get(bank.pk):
+            row.reason = f"{row.reason}; {words[bank.pk]}"
+            changed.append(row)
+    if changed:
+        FilterDay.objects.bulk_update(changed, ["reason"])
+
+
+FILTER_DAY_FIELDS = [
+    "corrected_dp_pa",
+    "design_airflow_m3s",
+    "airflow_source",
+    "samples",
+    "run_hours",
+    "loading_pct",
+    "verdict",
+    "reason",
+]
+
+
+def _filter_day_judged(
     *, bank, day, corrected: float, samples: int, design_q: float, how: str, meter_hours
 ) -> FilterResult:
-    """The bank's day stored and judged (its forecast words and a proposed change follow in ``filter_feed``)."""
+    """The bank's day judged, as a row to store (stored, worded with its forecast and a change proposed in
+    ``filter_feed``)."""
     specs = bank.specs or {}
     verdict, reason, loading_pct = "", "", None
     judged = None
@@ -346,19 +387,17 @@ def _filter_day_store(
     if judged is not None:
         verdict, loading_pct = judged.verdict.value, filters.loading_percent(judged.fraction_of_span)
         reason = f"{bank.name}: {judged.reason} (trend median of {samples} samples with the fan running)"
-    row, _ = FilterDay.objects.update_or_create(
+    row = FilterDay(
         component=bank,
         day=day,
-        defaults={
-            "corrected_dp_pa": corrected,
-            "design_airflow_m3s": design_q,
-            "airflow_source": how[:120],
-            "samples": samples,
-            "run_hours": meter_hours,
-            "loading_pct": loading_pct,
-            "verdict": verdict,
-            "reason": reason,
-        },
+        corrected_dp_pa=corrected,
+        design_airflow_m3s=design_q,
+        airflow_source=how[:120],
+        samples=samples,
+        run_hours=meter_hours,
+        loading_pct=loading_pct,
+        verdict=verdict,
+        reason=reason,
     )
     return FilterResult(bank=bank, day=row, judged=judged)
 

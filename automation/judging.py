@@ -56,7 +56,7 @@ from inventory.today import today_for
 
 from .fault_findings import fault_finding_close, fault_finding_keep
 from .fault_models import Fault
-from .feeds import _fan_of, filter_feed, run_hours_feed
+from .feeds import _fan_of, filter_days_forecast, filter_feed, run_hours_feed
 from .models import Point
 from .series import EXTRA_ROLES, Samples, UnitTrends, samples_for, site_day_window, unit_trends
 
@@ -534,10 +534,18 @@ def _audit(by, fault: Fault, action: str, changes: dict) -> None:
 
 @transaction.atomic
 def unit_day_judge(
-    *, ahu: AHU, day: dt.date, points: list[Point] | None = None, reads: SiteDayReads | None = None, by=None
+    *,
+    ahu: AHU,
+    day: dt.date,
+    points: list[Point] | None = None,
+    reads: SiteDayReads | None = None,
+    forecast_later: list | None = None,
+    by=None,
 ) -> UnitDay:
     """Judge one unit's site-local ``day`` of trends: feeds, faults, freeze events; idempotent. ``reads``: what
-    ``site_day_reads`` read for the unit's site that day, in the caller's transaction (read here when None)."""
+    ``site_day_reads`` read for the unit's site that day, in the caller's transaction (read here when None).
+    ``forecast_later``: where to leave the filter days whose forecast words the caller adds for the whole site
+    (``feeds.filter_feed``); worded here when None."""
     from accounts.changes import organisation_changed
 
     points = list(points if points is not None else Point.objects.filter(ahu=ahu).select_related("component"))
@@ -555,7 +563,14 @@ def unit_day_judge(
     if out.run_hours is not None and out.run_hours.note and out.run_hours.reading is None:
         out.notes.append(f"run-hours: {out.run_hours.note}")
     hours = out.run_hours.reading.hours if out.run_hours is not None and out.run_hours.reading is not None else None
-    out.filters = filter_feed(trends=trends, day=day, meter_hours=hours, open_findings=reads.filter_findings, by=by)
+    out.filters = filter_feed(
+        trends=trends,
+        day=day,
+        meter_hours=hours,
+        open_findings=reads.filter_findings,
+        forecast_later=forecast_later,
+        by=by,
+    )
     step = _step_s(trends)
     out.faults, why = faults_judge(trends=trends, step_s=step)
     if why:
@@ -614,15 +629,21 @@ def trends_judge(*, site: Site, start: dt.date, end: dt.date, by=None) -> JudgeR
         # One transaction a site-day, each unit's day a savepoint in it; the organisation's answers move once.
         with transaction.atomic(), changes_deferred():
             reads = site_day_reads(units=units, points_of=points_of, day=day) if units else None
+            to_forecast: list = []  # the stored filter days of units judged, worded for the site at the end
             for ahu in units:
+                mine: list = []
                 try:
-                    result.days.append(
-                        unit_day_judge(ahu=ahu, day=day, points=points_of.get(ahu.pk, []), reads=reads, by=by)
+                    judged = unit_day_judge(
+                        ahu=ahu, day=day, points=points_of.get(ahu.pk, []), reads=reads, forecast_later=mine, by=by
                     )
                 except (ValidationError, EngineeringInputError) as exc:
                     # One unit's refused write (its day rolled back) never stops the site's other units.
                     words = " ".join(exc.messages) if isinstance(exc, ValidationError) else str(exc)
                     result.days.append(UnitDay(ahu=ahu, day=day, notes=[f"not judged: {words}"]))
+                    continue
+                result.days.append(judged)
+                to_forecast += mine
+            filter_days_forecast(days=to_forecast, day=day)
         day += dt.timedelta(days=1)
     return result
 

@@ -11,6 +11,9 @@ from dataclasses import dataclass
 from datetime import date, datetime, timedelta
 from typing import Any
 
+import numpy as np
+import numpy.typing as npt
+
 from engineering import _validate as v
 from engineering.controls import Verdict
 from engineering.errors import EngineeringInputError, InsufficientDataError
@@ -120,6 +123,41 @@ def corrected_pressure_drop(
     n = _exponent(exponent)
     r = _ratio(airflow_m3s, design_airflow_m3s)
     return float(dp * r ** (-n))
+
+
+def corrected_pressure_drops(
+    *,
+    dp_pa: npt.ArrayLike,
+    airflow_m3s: npt.ArrayLike,
+    design_airflow_m3s: float,
+    exponent: float = DEFAULT_EXPONENT,
+) -> npt.NDArray[np.float64]:
+    """``corrected_pressure_drop`` of many readings at once (a trend's samples): NaN for each reading it would
+    refuse (not a finite number, a pressure drop outside its range, an airflow not above 0 or outside 0.5–1.5 ×
+    design). A design airflow or an exponent it would refuse is refused here, as for every reading."""
+    n = _exponent(exponent)
+    qd = v.in_range(
+        "design_airflow_m3s", design_airflow_m3s, 0.0, 100.0, unit="m³/s", label="design airflow", low_open=True
+    )
+    dp = np.asarray(dp_pa, dtype=np.float64)
+    q = np.asarray(airflow_m3s, dtype=np.float64)
+    lo, hi = AIRFLOW_RATIO
+    with np.errstate(all="ignore"):
+        r = q / qd
+        ok = (
+            np.isfinite(dp)
+            & np.isfinite(q)
+            & (dp >= FILTER_DP_PA[0])
+            & (dp <= FILTER_DP_PA[1])
+            & (q > 0.0)
+            & (q <= 100.0)
+            & (r >= lo)
+            & (r <= hi)
+        )
+    # Python's power, value by value, as the one-reading function computes it (numpy's may differ in the last bit).
+    corrected = np.full(dp.shape, np.nan)
+    corrected[ok] = [float(d * x ** (-n)) for d, x in zip(dp[ok].tolist(), r[ok].tolist(), strict=True)]
+    return corrected
 
 
 @dataclass(frozen=True)

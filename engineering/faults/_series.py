@@ -108,6 +108,10 @@ def to_seconds(name: str, times: object) -> tuple[np.ndarray, str, tzinfo | None
     if isinstance(times, np.ndarray) and np.issubdtype(times.dtype, np.datetime64):
         secs = times.astype("datetime64[us]").astype(np.int64) / 1e6
         return secs.astype(np.float64), "datetime", None
+    if isinstance(times, np.ndarray) and times.ndim == 1 and times.size and times.dtype.kind in "iuf":
+        secs = times.astype(np.float64)
+        if np.isfinite(secs).all():
+            return secs, "number", None  # as the loop below gives them; a bad time is named by that loop
     if isinstance(times, (str, bytes)) or not isinstance(times, (Sequence, np.ndarray)):
         raise EngineeringInputError(
             field=name, value=times, allowed="a sequence of times", message=f"{name} must be a sequence of times"

@@ -531,19 +531,23 @@ def _judge_counting(site) -> tuple[list, list[str]]:
     return days, [q["sql"] for q in queries.captured_queries]
 
 
-# What judging reads rather than writes: the trends, the fan meters' latest readings, the open faults and the
-# filter banks' open findings (writes and the meter service's own checks are each unit's).
+# What judging reads rather than writes: the trends, the fan meters' latest readings, the open faults, the
+# filter banks' open findings and their filter series for the forecast (writes and the meter service's own
+# checks are each unit's).
 SITE_READS = (
     'FROM "automation_trendday"',
     'FROM "automation_fault"',
     'FROM "inventory_component"',
     'FROM "inspections_finding"',
+    'FROM "inspections_reading"',
+    'FROM "automation_filterday"',
 )
 
 
 def test_a_sites_reads_are_the_same_few_queries_for_one_unit_or_three():
-    """Judging a site's day reads each unit's trends, fan meter, open faults and filter findings for the whole
-    site at once: as many of those queries for three units as for one."""
+    """Judging a site's day reads each unit's trends, fan meter, open faults, filter findings and filter series
+    for the whole site at once: as many of those queries for three units as for one. Each unit's filter days
+    are one write, and their forecast words one more for the whole site."""
     task_library_install()
     counted = []
     for n in (1, 3):
@@ -551,4 +555,6 @@ def test_a_sites_reads_are_the_same_few_queries_for_one_unit_or_three():
         assert len(days) == n and all(d.faults is not None and d.run_hours is not None for d in days)
         assert all(f.day is not None for d in days for f in d.filters)
         counted.append(sum(1 for q in sql if q.lstrip().startswith("SELECT") and any(t in q for t in SITE_READS)))
+        assert sum(1 for q in sql if q.startswith('INSERT INTO "automation_filterday"')) == n
+        assert sum(1 for q in sql if q.startswith('UPDATE "automation_filterday"')) <= 1
     assert counted[0] == counted[1]

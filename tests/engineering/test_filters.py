@@ -34,6 +34,31 @@ def test_airflow_too_far_from_design_is_refused():
     assert exc.value.field == "airflow_m3s" and "1–3 m³/s" in str(exc.value)
 
 
+def test_many_readings_are_corrected_as_each_one_alone_and_a_refused_one_is_left_out():
+    """A trend's samples corrected at once: the same numbers as one reading at a time (100 Pa at 1.6 of 2.0 m³/s:
+    100 × 1.25^1.5, as above), NaN where one reading alone is refused (airflow at or below 0.5 × design or above
+    1.5 ×, not above 0, a pressure drop outside 0–2,500 Pa, a value not finite)."""
+    import numpy as np
+
+    from engineering.filters import corrected_pressure_drops
+
+    dp = [100.0, 120.0, 100.0, 100.0, 100.0, -1.0, 3000.0, float("nan"), 100.0, 90.0]
+    q = [1.6, 2.0, 0.99, 3.01, 0.0, 2.0, 2.0, 2.0, float("inf"), 3.0]
+    got = corrected_pressure_drops(dp_pa=dp, airflow_m3s=q, design_airflow_m3s=2.0)
+    for i, (dp_i, q_i) in enumerate(zip(dp, q, strict=True)):
+        try:
+            alone = corrected_pressure_drop(dp_pa=dp_i, airflow_m3s=q_i, design_airflow_m3s=2.0)
+        except EngineeringInputError:
+            assert np.isnan(got[i]), i
+        else:
+            assert got[i] == alone, i
+    assert got[0] == pytest.approx(100.0 * 1.25**1.5)
+    assert int(np.isfinite(got).sum()) == 3  # 1.6, 2.0 and 3.0 (exactly 1.5 × design) m³/s
+    with pytest.raises(EngineeringInputError) as exc:
+        corrected_pressure_drops(dp_pa=dp, airflow_m3s=q, design_airflow_m3s=0.0)
+    assert exc.value.field == "design_airflow_m3s"
+
+
 @pytest.mark.parametrize(
     ("dp", "verdict"),
     [(150.0, Verdict.OK), (210.0, Verdict.WATCH), (245.0, Verdict.FAIL)],
