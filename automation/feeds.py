@@ -31,6 +31,7 @@ Filter loading
 
 from __future__ import annotations
 
+import contextlib
 import dataclasses
 import datetime as dt
 from dataclasses import dataclass
@@ -147,14 +148,16 @@ def _fan_samples(trends: UnitTrends, point, samples: Samples, since: dt.datetime
     return samples_for(points=[point], since=since - dt.timedelta(seconds=RUN_HOLD_MAX_S), until=end)[point.pk]
 
 
-def run_hours_feed(*, trends: UnitTrends, by=None, meter: FanMeter | None = None) -> RunHours | None:
+def run_hours_feed(
+    *, trends: UnitTrends, by=None, meter: FanMeter | None = None, unit_locked: bool = False
+) -> RunHours | None:
     """Add the hours the supply fan ran over ``trends``' day to its run-hour meter (once per day).
 
     Returns None when the unit has no fan status or speed trend that day. The first day a fan's meter is fed
     it starts at 0 h at the day's start; afterwards each day's reading is the latest reading of that meter
     plus the hours run since it (at most 31 days back). A reading the meter service refuses (an earlier day
     read after a later one) is not stored and named in ``note``. ``meter``: the fan's readings as ``fan_meters``
-    read them for the whole site.
+    read them for the whole site; ``unit_locked``: the caller's transaction holds the unit's row locked.
     """
     from scheduling.services import meter_reading_record
 
@@ -180,27 +183,21 @@ def run_hours_feed(*, trends: UnitTrends, by=None, meter: FanMeter | None = None
     seconds = running_seconds(samples, since=since.timestamp(), until=end.timestamp(), on=on)
     hours = seconds / 3600.0
     base = 0.0 if prev is None else prev.hours
+    record = {
+        "ahu": ahu,
+        "source": MeterReading.Source.BAS_TREND,
+        "component": fan,
+        "by": by,
+        "in_caller_transaction": True,
+        "unit_locked": unit_locked,
+    }
     try:
-        with transaction.atomic():
+        # Two readings (a meter's first day) share a savepoint, so a refused second takes the first back; one
+        # reading needs none, as the meter service refuses before it writes.
+        with transaction.atomic() if prev is None else contextlib.nullcontext():
             if prev is None:
-                meter_reading_record(
-                    ahu=ahu,
-                    hours=0.0,
-                    taken_at=start,
-                    source=MeterReading.Source.BAS_TREND,
-                    component=fan,
-                    by=by,
-                    in_caller_transaction=True,
-                )
-            reading = meter_reading_record(
-                ahu=ahu,
-                hours=round(base + hours, 3),
-                taken_at=end,
-                source=MeterReading.Source.BAS_TREND,
-                component=fan,
-                by=by,
-                in_caller_transaction=True,  # the block above is the readings' one savepoint
-            )
+                meter_reading_record(hours=0.0, taken_at=start, **record)
+            reading = meter_reading_record(hours=round(base + hours, 3), taken_at=end, **record)
     except ValidationError as exc:
         return RunHours(fan=fan, hours_run=hours, reading=None, note=" ".join(exc.messages))
     return RunHours(fan=fan, hours_run=hours, reading=reading)

@@ -130,7 +130,8 @@ class JudgeResult:
 @dataclass
 class SiteDayReads:
     """What judging one site-local day reads for every unit of the site, read once for the site (a fixed number
-    of queries, whatever its number of units) inside the site-day's transaction, before any unit's writes."""
+    of queries, whatever its number of units) inside the site-day's transaction, before any unit's writes; the
+    units' rows are locked in it (for their meter readings)."""
 
     start: dt.datetime
     end: dt.datetime
@@ -149,6 +150,8 @@ def site_day_reads(*, units: list[AHU], points_of: dict[int, list[Point]], day: 
     points = [p for u in units for p in points_of.get(u.pk, [])]
     fans = {p.component.pk: p.component for p in points if p.component is not None and p.component.kind == "fan"}
     banks = [p.component for p in points if p.brick_class == FILTER_SENSOR and p.component is not None]
+    # The units' rows locked once for the day's meter readings (the meter service locks one per reading).
+    list(AHU.objects.select_for_update().filter(pk__in=[u.pk for u in units]).order_by("pk").values_list("pk"))
     open_faults: dict[int, list[Fault]] = {u.pk: [] for u in units}
     for fault in Fault.objects.select_for_update().filter(ahu__in=units, state=Fault.State.OPEN):
         open_faults[fault.ahu_id].append(fault)
@@ -559,7 +562,7 @@ def unit_day_judge(
     out = UnitDay(ahu=ahu, day=day)
     fan_point, _, _ = _fan_of(trends)
     meter = reads.meters.get(fan_point.component.pk) if fan_point is not None else None
-    out.run_hours = run_hours_feed(trends=trends, by=by, meter=meter)
+    out.run_hours = run_hours_feed(trends=trends, by=by, meter=meter, unit_locked=True)
     if out.run_hours is not None and out.run_hours.note and out.run_hours.reading is None:
         out.notes.append(f"run-hours: {out.run_hours.note}")
     hours = out.run_hours.reading.hours if out.run_hours is not None and out.run_hours.reading is not None else None

@@ -190,6 +190,7 @@ def meter_reading_record(
     is_reset: bool = False,
     by=None,
     in_caller_transaction: bool = False,
+    unit_locked: bool = False,
 ) -> MeterReading:
     """Store one run-hour reading.
 
@@ -199,7 +200,8 @@ def meter_reading_record(
     reading is marked as a meter replacement or reset.
 
     ``in_caller_transaction``: no savepoint of its own; the caller's open transaction holds the lock and the
-    write. Safe because every refusal is raised before anything is written.
+    write. Safe because every refusal is raised before anything is written. ``unit_locked`` (with it): the caller
+    has locked the unit's row in that transaction already (one lock for many readings); it is not locked again.
     """
     kwargs = {
         "ahu": ahu,
@@ -213,7 +215,9 @@ def meter_reading_record(
     if in_caller_transaction:
         if not transaction.get_connection().in_atomic_block:
             raise RuntimeError("meter_reading_record(in_caller_transaction=True) needs the caller's transaction")
-        return _meter_reading_record(**kwargs)
+        return _meter_reading_record(**kwargs, lock=not unit_locked)
+    if unit_locked:
+        raise RuntimeError("meter_reading_record(unit_locked=True) needs in_caller_transaction=True")
     with transaction.atomic():
         return _meter_reading_record(**kwargs)
 
@@ -227,6 +231,7 @@ def _meter_reading_record(
     component: Component | None,
     is_reset: bool,
     by,
+    lock: bool = True,
 ) -> MeterReading:
     try:
         hours = float(hours)
@@ -253,10 +258,11 @@ def _meter_reading_record(
             raise ValidationError(
                 {"component": [f"component kind={component.kind!r}: run-hour meters belong to a fan or the unit"]}
             )
-    # Lock the unit row so two readings for the same meter cannot both pass the check. The row alone: the unit's
-    # default ordering (by site name) would join, and so lock, its building and site rows too, for the rest of the
-    # caller's transaction (a whole sync request), and compile two joins for each reading.
-    list(AHU.objects.select_for_update().filter(pk=ahu.pk).order_by().values_list("pk"))
+    # Lock the unit row so two readings for the same meter cannot both pass the check (unless the caller holds the
+    # lock already). The row alone: the unit's default ordering (by site name) would join, and so lock, its
+    # building and site rows too, for the rest of the caller's transaction, and compile two joins for each reading.
+    if lock:
+        list(AHU.objects.select_for_update().filter(pk=ahu.pk).order_by().values_list("pk"))
     meter_reading_check(ahu=ahu, hours=hours, taken_at=taken_at, component=component, is_reset=is_reset)
     reading = MeterReading(
         ahu=ahu,

@@ -546,8 +546,9 @@ SITE_READS = (
 
 def test_a_sites_reads_are_the_same_few_queries_for_one_unit_or_three():
     """Judging a site's day reads each unit's trends, fan meter, open faults, filter findings and filter series
-    for the whole site at once: as many of those queries for three units as for one. Each unit's filter days
-    are one write, and their forecast words one more for the whole site."""
+    for the whole site at once, and locks its units once for their meter readings: as many of those queries for
+    three units as for one. Each unit's filter days are one write, and their forecast words one more for the
+    whole site."""
     task_library_install()
     counted = []
     for n in (1, 3):
@@ -557,4 +558,8 @@ def test_a_sites_reads_are_the_same_few_queries_for_one_unit_or_three():
         counted.append(sum(1 for q in sql if q.lstrip().startswith("SELECT") and any(t in q for t in SITE_READS)))
         assert sum(1 for q in sql if q.startswith('INSERT INTO "automation_filterday"')) == n
         assert sum(1 for q in sql if q.startswith('UPDATE "automation_filterday"')) <= 1
-    assert counted[0] == counted[1]
+        # The units' rows are locked once for the site's meter readings, not once a reading.
+        locks = [q for q in sql if 'FROM "inventory_ahu"' in q and "FOR UPDATE" in q]
+        assert MeterReading.objects.filter(ahu__building__site=days[0].ahu.building.site).count() == 2 * n
+        counted.append(len(locks))
+    assert counted[0] == counted[2] and counted[1] == counted[3]
