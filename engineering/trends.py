@@ -13,10 +13,17 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import date, datetime
 
+import numpy as np
 from scipy import stats
 
 from engineering import _validate as v
 from engineering.errors import InsufficientDataError
+
+# scipy's Theil–Sen itself, without its array-API wrapper (axis, NaN policy, broadcasting): the points here are
+# one finite 1-D series, checked before the fit, and the wrapper cost several times the fit for a handful of points
+# (the nightly forecast fits every trended filter bank). Falls back to the public function should scipy stop
+# exposing it.
+_theilslopes = getattr(stats.theilslopes, "__wrapped__", stats.theilslopes)
 
 __all__ = ["Rate", "days_since", "robust_rate", "run_hours_per_day"]
 
@@ -80,7 +87,7 @@ def robust_rate(*, points: Sequence[tuple[float, float]], confidence: float = 0.
             allowed="at least two different x values",
             message=f"all {len(pts)} points have the same x={v.fmt(xs[0])}: no rate can be drawn",
         )
-    res = stats.theilslopes(ys, xs, alpha=conf, method="joint")
+    res = _theilslopes(np.asarray(ys, dtype=np.float64), np.asarray(xs, dtype=np.float64), conf, "joint")
 
     def intercept(s: float) -> float:
         return float(_median(sorted(y - s * x for x, y in pts)))

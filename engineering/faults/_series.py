@@ -134,6 +134,10 @@ def to_seconds(name: str, times: object) -> tuple[np.ndarray, str, tzinfo | None
                 )
             out[i] = t.timestamp() if tz is not None else (t - _NAIVE_EPOCH).total_seconds()
         return out, "datetime", tz
+    if all(type(t) is float or type(t) is int for t in items):  # plain numbers (a grid's times): checked at once
+        out = np.array(items, dtype=np.float64)
+        if np.isfinite(out).all():
+            return out, "number", None
     out = np.empty(len(items), dtype=np.float64)
     for i, t in enumerate(items):
         out[i] = v.finite(f"{name}[{i}]", t, "time", "s")
