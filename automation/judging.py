@@ -674,11 +674,13 @@ def work_order_moved(sender, *, work_order, before: str, by, **kwargs) -> None:
     if work_order.state != WorkOrder.State.COMPLETED:
         return
     at = work_order.completed_at or timezone.now()
-    # Most completed work answers no fault: a bare locked id read first, the rows only when there are any.
+    # Most completed work answers no fault: a bare locked id read first (in id order, not sorted by the default
+    # ordering: the rows are read in their own order below), the rows only when there are any.
     ids = list(
         Fault.objects.select_for_update(of=("self",))
         .filter(Q(corrective_work_order=work_order) | Q(finding__corrective_work_order=work_order))
         .filter(state=Fault.State.OPEN)
+        .order_by("pk")
         .values_list("pk", flat=True)
     )
     for fault in Fault.objects.filter(pk__in=ids).select_related("finding") if ids else []:

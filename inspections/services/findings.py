@@ -850,9 +850,11 @@ def findings_close_corrected(*, work_order, by) -> list[Finding]:
     """
     at = work_order.completed_at or timezone.now()
     # Locked plainly first: most completed work is corrective for nothing, and the joins cost more than the lock.
+    # In id order (the rows are read in their own order below): no sort by the default ordering for every form.
     ids = list(
         Finding.objects.select_for_update()
         .filter(corrective_work_order=work_order, state=Finding.State.OPEN)
+        .order_by("pk")
         .values_list("pk", flat=True)
     )
     found = (
