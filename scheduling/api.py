@@ -394,7 +394,7 @@ class Board(APIView):
             page = board_page_for(
                 organisation=org, week_start=week, today=today, limit=limit, offset=offset, section=section
             )
-            board_suggestions(organisation=org, rows=[*page["overdue"], *page["due"], *page["assigned"]], today=today)
+            board_suggestions(organisation=org, rows=[*page["overdue"], *page["due"], *page["assigned"]])
             return {
                 **page,
                 "load": board_load_rows(organisation=org, start=week, days=7),

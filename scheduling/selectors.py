@@ -5,7 +5,7 @@ from __future__ import annotations
 import copy
 import datetime as dt
 import functools
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 from django.core.exceptions import PermissionDenied, ValidationError
 from django.db.models import Case, CharField, Count, F, Prefetch, Q, QuerySet, Sum, Value, When, Window
@@ -104,14 +104,6 @@ def work_order_for(*, user, public_id, write: bool = False) -> WorkOrder:
     return wo
 
 
-@dataclass
-class Board:
-    week_start: dt.date
-    due: list[WorkOrder] = field(default_factory=list)
-    overdue: list[WorkOrder] = field(default_factory=list)
-    assigned: list[WorkOrder] = field(default_factory=list)
-
-
 def _planned_within(start: dt.date, end: dt.date) -> Q:
     """Work whose day is in [start, end): the day it is planned for, else (no plan) the day it is due."""
     return Q(scheduled_for__gte=start, scheduled_for__lt=end) | Q(
@@ -143,22 +135,6 @@ def _board_rows(*, organisation, week_start: dt.date, today: dt.date) -> QuerySe
     )
 
 
-def board_for(*, organisation, week_start: dt.date, today: dt.date | None = None) -> Board:
-    """The supervisor's week: unassigned work due that week, everything overdue, and what is assigned that week.
-    Overdue as of ``today``, by default the organisation's (``inventory.today.today_for``)."""
-    today = today or today_for(organisation)
-    rows = (
-        _board_rows(organisation=organisation, week_start=week_start, today=today)
-        .select_related("ahu__building__site", "assignee", "component")
-        .prefetch_related(Prefetch("tasks", queryset=WorkOrderTask.objects.select_related("task", "component")))
-    )
-    board = Board(week_start=week_start)
-    for wo in rows.annotate(section=_board_section(week_start=week_start, today=today)):
-        if wo.section:
-            getattr(board, wo.section).append(wo)
-    return board
-
-
 def _board_section(*, week_start: dt.date, today: dt.date) -> Case:
     """The board's one rule, as SQL so counts and pages come from the database: overdue once past due
     and past the grace window (see :func:`_overdue`), whatever week it is planned for; else due (unassigned)
@@ -166,7 +142,7 @@ def _board_section(*, week_start: dt.date, today: dt.date) -> Case:
     (:func:`_planned_within`), work whose day is behind this week carried to the week of ``today``
     (:func:`_on_week`); else NULL (on no section).
 
-    Both the board page and :func:`board_for` (the board screen) annotate with this; there is no
+    :func:`board_page_for` (the board page and the board API alike) annotates with this; there is no
     other copy of the rule."""
     in_week = _on_week(week_start, today)
     return Case(
@@ -211,7 +187,8 @@ def board_page_for(
 
     Two queries, both sorting rows into sections with :func:`_board_section` in the database: one
     grouped read of the counts, then the shown rows with their unit, site and assignee (numbered
-    within their section, so one query pages all three); no model instances. ``today`` as in :func:`board_for`."""
+    within their section, so one query pages all three); no model instances. Overdue as of ``today``, by
+    default the organisation's (``inventory.today.today_for``)."""
     today = today or today_for(organisation)
     days = [week_start + dt.timedelta(days=k) for k in range(7)]
     rows = _board_sorted(organisation=organisation, week_start=week_start, today=today)
@@ -556,19 +533,30 @@ def assignment_check(*, work_order: WorkOrder, technician, day: dt.date) -> Assi
     )
 
 
-def board_suggestions(*, organisation, rows: list[dict], today: dt.date) -> list[dict]:
+def offered_day(*, scheduled_for: dt.date | None, due_date: dt.date, today: dt.date) -> dt.date:
+    """The day a board row offers for its visit: its plan, else its due date, never a day already past at its
+    site (``today`` is the site's: the schedule service refuses a day before it) nor a weekend day."""
+    return scheduled_for or weekday_on_or_near(max(due_date, today), today=today)
+
+
+def board_suggestions(*, organisation, rows: list[dict]) -> list[dict]:
     """Each unassigned board row (API shape) with ``suggested``: the least-loaded technician with the skills for
-    its day (its plan, else its due date, never before ``today``), as the board page offers it; None when
-    nobody has the skills. Assigned rows get None. A constant number of queries whatever the rows."""
+    its :func:`offered_day` at its site; None when nobody has the skills. Assigned rows get None. The board page
+    and the API alike. A constant number of queries whatever the rows."""
     open_ids = [r["id"] for r in rows if r["assignee"] is None]
     orders = (
         WorkOrder.objects.filter(public_id__in=open_ids)
         .select_related("ahu__building__site")
         .prefetch_related(Prefetch("tasks", queryset=WorkOrderTask.objects.select_related("task")))
     )
+    site_today: dict[int, dt.date] = {}
     days = {}
     for wo in orders:
-        day = wo.scheduled_for or weekday_on_or_near(max(wo.due_date, today), today=today)
+        site = wo.ahu.building.site
+        if site.pk not in site_today:
+            site_today[site.pk] = today_for(site)
+        today = site_today[site.pk]
+        day = offered_day(scheduled_for=wo.scheduled_for, due_date=wo.due_date, today=today)
         if date_problem(day, label="day", today=today) is None:
             days[wo.pk] = (wo, day)
     by_public = {wo.public_id: pk for pk, (wo, _) in days.items()}

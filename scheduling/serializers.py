@@ -282,6 +282,7 @@ class BoardItemOutput(serializers.Serializer):
     site = SiteRefOutput()
     assignee = PersonRefOutput(allow_null=True)
     due_date = serializers.DateField()
+    due_by = serializers.DateTimeField(allow_null=True, help_text="A due time (call-outs, frost checks), else null.")
     overdue_on = serializers.DateField(allow_null=True)
     scheduled_for = serializers.DateField(allow_null=True)
     version = serializers.IntegerField()

@@ -2,6 +2,7 @@
 
 import datetime as dt
 import uuid
+from collections import defaultdict
 from urllib.parse import urlencode
 
 from django.contrib import messages
@@ -16,6 +17,7 @@ from django.utils import timezone
 from django.views.decorators.http import require_POST
 
 from accounts.inputs import INT32_MAX, FieldErrors, check_integer, check_text, date_problem
+from accounts.models import User
 from accounts.selectors import MANAGING_ROLES, organisations_where, technicians_of
 from inspections.selectors import (
     corrective_work_already_resolved,
@@ -28,13 +30,13 @@ from inventory.models import AHU
 from inventory.selectors import ahus_visible_to, sites_managed_by
 from inventory.today import today_for
 from scheduling.inputs import stored_problems
-from scheduling.models import TaskDefinition, WorkOrder
+from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
 from scheduling.selectors import (
-    board_for,
-    skills_needed,
-    suggested_technicians,
+    BOARD_SECTIONS,
+    board_page_for,
+    board_suggestions,
+    offered_day,
     technician_load,
-    weekday_on_or_near,
     work_order_for,
     work_orders_managed_by,
     work_orders_to_verify,
@@ -103,66 +105,85 @@ def _still_as_read(*, work_order: WorkOrder, version: int) -> None:
 BOARD_PAGE = 100
 
 
+def _board_sections(*, org, week: dt.date, today: dt.date, show_all: str) -> tuple[dict, list[dict]]:
+    """The board API's read (``board_page_for``): a page of each section, the whole of ``show_all``'s."""
+    data = board_page_for(organisation=org, week_start=week, today=today, limit=BOARD_PAGE)
+    if show_all in BOARD_SECTIONS and data["counts"][show_all] > BOARD_PAGE:
+        whole = board_page_for(
+            organisation=org, week_start=week, today=today, limit=data["counts"][show_all], section=show_all
+        )
+        data[show_all] = whole[show_all]
+    return data, [r for key in BOARD_SECTIONS for r in data[key]]
+
+
+def _row_facts(rows: list[dict]) -> tuple[dict, dict, dict]:
+    """What the page says beside the API's rows, read by their ids in three queries: each work order's id and
+    site zone, the skills its tasks name, and the skills of the people assigned."""
+    ids = [r["id"] for r in rows]
+    facts = {
+        f["public_id"]: f
+        for f in WorkOrder.objects.filter(public_id__in=ids).values("public_id", "pk", "ahu__building__site__time_zone")
+    }
+    needed: dict = defaultdict(set)
+    for public_id, skill in WorkOrderTask.objects.filter(work_order__public_id__in=ids).values_list(
+        "work_order__public_id", "task__skill"
+    ):
+        needed[public_id].add(skill)
+    people = {r["assignee"]["id"] for r in rows if r["assignee"]}
+    skills = {pk: set(s or []) for pk, s in User.objects.filter(pk__in=people).values_list("pk", "skills")}
+    return facts, needed, skills
+
+
 @login_required
 def board(request):
     org = _organisation(request)
     today = today_for(org)  # the day on the clock most of its sites keep
     week = _week_start(request.GET.get("week"), today=today)
-    data = board_for(organisation=org, week_start=week, today=today)
-    show_all = request.GET.get("all", "")
-    columns = []
-    site_days: dict[int, dt.date] = {}
+    # A large portfolio's week can hold a thousand visits: the first page of each section, with the whole
+    # count and a link to the rest.
+    data, rows = _board_sections(org=org, week=week, today=today, show_all=request.GET.get("all", ""))
+    board_suggestions(organisation=org, rows=rows)  # the least-loaded technician with the skills for its day
+    facts, needed, skills = _row_facts(rows)
     # "Back to change it" from the over-capacity page: that row's form keeps the technician and day chosen.
     changing = request.GET.get("change", "")[:36]
     kept_assignee = request.GET.get("assignee", "")[:18]
     kept_day = _kept_day(request.GET.get("day", ""))
-    for key, title, rows in (
-        ("overdue", "Overdue", data.overdue),
-        ("due", "Due, not assigned", data.due),
-        ("assigned", "Assigned", data.assigned),
-    ):
-        # A large portfolio's week can hold a thousand visits: show the first page of each
-        # section, with the whole count and a link to the rest.
-        shown = list(rows) if show_all == key else list(rows[:BOARD_PAGE])
-        for wo in shown:
-            # The day offered for the visit: its plan, else its due date, never a day already past where the
-            # unit is (the service refuses a day before the site's today, which may differ from the server's).
-            site = wo.ahu.building.site
-            if site.pk not in site_days:
-                site_days[site.pk] = today_for(site)
-            wo.site_today = site_days[site.pk]
-            wo.plan_default = wo.scheduled_for or weekday_on_or_near(
-                max(wo.due_date, wo.site_today), today=wo.site_today
-            )
-            wo.due_text = wo.due_words_on(wo.site_today) if wo.due_date < wo.site_today else ""
-            wo.kept_assignee = None
-            if changing and str(wo.public_id) == changing:
-                wo.plan_default = kept_day or wo.plan_default
-                wo.kept_assignee = int(kept_assignee) if kept_assignee.isdigit() else None
-        columns.append({"key": key, "title": title, "rows": shown, "total": len(rows)})
+    zone_today: dict[str, dt.date] = {}
+    for r in rows:
+        # The day offered for the visit: its plan, else its due date, never a day already past where the
+        # unit is (the service refuses a day before the site's today, which may differ from the organisation's).
+        fact = facts[r["id"]]
+        zone = fact["ahu__building__site__time_zone"]
+        if zone not in zone_today:
+            zone_today[zone] = today_for(zone)
+        r["site_zone"], r["site_today"] = zone, zone_today[zone]
+        r["plan_default"] = offered_day(scheduled_for=r["scheduled_for"], due_date=r["due_date"], today=r["site_today"])
+        due = WorkOrder(state=r["state"], due_date=r["due_date"], overdue_on=r["overdue_on"])
+        r["due_text"] = due.due_words_on(r["site_today"]) if r["due_date"] < r["site_today"] else ""
+        r["kind_label"] = WorkOrder.Kind(r["kind"]).label
+        r["state_label"] = WorkOrder.State(r["state"]).label
+        kept = None
+        if changing and str(r["id"]) == changing:
+            r["plan_default"] = kept_day or r["plan_default"]
+            kept = int(kept_assignee) if kept_assignee.isdigit() else None
+        assignee_id = r["assignee"]["id"] if r["assignee"] else None
+        r["selected_pk"] = kept or assignee_id or (r["suggested"]["id"] if r["suggested"] else None)
+        # Work already with someone who lacks a skill its tasks name is marked, naming the skills.
+        r["missing_skills"] = (
+            [SKILL_WORDS.get(s, s) for s in sorted(needed[r["id"]] - skills.get(assignee_id, set()))]
+            if assignee_id
+            else []
+        )
     # Approved corrective work whose findings a later visit already resolved: said beside it, left to the supervisor.
     resolved = corrective_work_already_resolved(
-        work_order_ids=[wo.pk for c in columns for wo in c["rows"] if wo.kind == WorkOrder.Kind.CORRECTIVE]
+        work_order_ids=[facts[r["id"]]["pk"] for r in rows if r["kind"] == WorkOrder.Kind.CORRECTIVE]
     )
-    # Each unassigned row offers the least-loaded technician with the skills for its day (tasks plus travel).
-    open_rows = {
-        wo.pk: (wo, wo.plan_default)
-        for c in columns
-        for wo in c["rows"]
-        if wo.assignee_id is None and date_problem(wo.plan_default, label="day", today=wo.site_today) is None
-    }
-    suggested = suggested_technicians(organisation=org, days=open_rows)
-    for c in columns:
-        for wo in c["rows"]:
-            wo.findings_resolved = wo.pk in resolved
-            wo.suggested = suggested.get(wo.pk)
-            wo.selected_pk = wo.kept_assignee or wo.assignee_id or (wo.suggested[0].pk if wo.suggested else None)
-            # Work already with someone who lacks a skill its tasks name is marked, naming the skills.
-            wo.missing_skills = (
-                [SKILL_WORDS.get(s, s) for s in sorted(skills_needed(work_order=wo) - set(wo.assignee.skills or []))]
-                if wo.assignee_id
-                else []
-            )
+    for r in rows:
+        r["findings_resolved"] = facts[r["id"]]["pk"] in resolved
+    columns = [
+        {"key": key, "title": title, "rows": data[key], "total": data["counts"][key]}
+        for key, title in (("overdue", "Overdue"), ("due", "Due, not assigned"), ("assigned", "Assigned"))
+    ]
     load = technician_load(organisation=org, start=week, days=7)
     to_verify = list(work_orders_to_verify(organisation=org))
     flagged = {f.work_order_id: f for f in flagged_forms_for(user=request.user)}
@@ -172,7 +193,6 @@ def board(request):
         request,
         "frontend/supervisor/board.html",
         {
-            "board": data,
             "week": week,
             "today": today,
             "week_end": week + dt.timedelta(days=6),

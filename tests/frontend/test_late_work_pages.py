@@ -104,7 +104,7 @@ def test_late_work_stays_on_this_weeks_board_and_is_overdue_after_its_grace_on_p
     def sections(moment):
         page = at(moment, client, reverse("frontend:board"))
         assert page.status_code == 200
-        on_page = {c["key"]: [str(w.public_id) for w in c["rows"]] for c in page.context["columns"]}
+        on_page = {c["key"]: [str(r["id"]) for r in c["rows"]] for c in page.context["columns"]}
         api = at(moment, client, "/api/scheduling/board/").json()
         on_api = {name: [str(r["id"]) for r in api[name]] for name in ("overdue", "due", "assigned")}
         return page, on_page, on_api, api

@@ -8,7 +8,7 @@ from django.apps import apps as django_apps
 
 from scheduling.engine import work_orders_generate
 from scheduling.models import TaskDefinition, WorkOrder
-from scheduling.selectors import board_for
+from scheduling.selectors import board_page_for
 from scheduling.services import corrective_work_order_propose, overdue_escalation_send
 from tests.factories.inventory import AHUFactory, ComponentFactory
 from tests.factories.scheduling import WorkOrderFactory, make_supervisor
@@ -47,10 +47,10 @@ def test_board_counts_overdue_from_the_first_day_after_grace(filter_visit):
     """On the board the visit is due, not overdue, on 8 March, and overdue on 9 March."""
     org = filter_visit.organisation
     week = dt.date(2025, 3, 3)
-    on_8th = board_for(organisation=org, week_start=week, today=dt.date(2025, 3, 8))
-    on_9th = board_for(organisation=org, week_start=dt.date(2025, 3, 3), today=dt.date(2025, 3, 9))
-    assert filter_visit.pk not in {wo.pk for wo in on_8th.overdue}
-    assert filter_visit.pk in {wo.pk for wo in on_9th.overdue}
+    on_8th = board_page_for(organisation=org, week_start=week, today=dt.date(2025, 3, 8))
+    on_9th = board_page_for(organisation=org, week_start=dt.date(2025, 3, 3), today=dt.date(2025, 3, 9))
+    assert filter_visit.public_id not in {r["id"] for r in on_8th["overdue"]}
+    assert filter_visit.public_id in {r["id"] for r in on_9th["overdue"]}
 
 
 def test_corrective_work_is_overdue_the_day_after_its_grace(library):
