@@ -42,14 +42,12 @@ from scheduling.selectors import (
     work_orders_to_verify,
 )
 from scheduling.services.assignment import OverCapacity, work_order_assign_and_plan
-from scheduling.services.work_orders import (
+from scheduling.services.corrective import (
     REJECT_REASON_MAX,
-    WorkOrderConflict,
     corrective_work_order_approve,
     corrective_work_order_reject,
-    work_order_plan_words,
-    work_order_verify,
 )
+from scheduling.services.work_orders import WorkOrderConflict, work_order_plan_words, work_order_verify
 
 from .. import selectors
 from ..forms import AssignForm

@@ -35,7 +35,7 @@ from inventory.selectors import sites_managed_by
 from inventory.today import today_for
 from scheduling.models import TaskDefinition, WorkOrder
 from scheduling.selectors import assignment_check, effective_tasks, weekday_on_or_near
-from scheduling.services.work_orders import (
+from scheduling.services.made_work import (
     ONE_OFF_MINUTES,
     OneOffTask,
     frost_checks_create,

@@ -1,19 +1,15 @@
 """Writes of the scheduling app. Import from here: ``from scheduling.services import work_order_assign``."""
 
 from .assignment import OverCapacity, work_order_assign_and_plan
+from .calendar_feeds import calendar_feed_issue, calendar_feed_revoke, calendar_feeds_revoke_for_password
+from .corrective import corrective_work_order_approve, corrective_work_order_propose, corrective_work_order_reject
+from .escalation import overdue_escalation_send
 from .library import task_definition_create, task_definition_override, task_library_install, unit_task_set
 from .meters import meter_reading_check, meter_reading_record, meter_readings_import_csv
 from .seasons import outdoor_temperatures_import_csv, outdoor_temperatures_store, site_seasons_refresh
 from .work_orders import (
     WorkOrderConflict,
     WorkOrderTransitionError,
-    calendar_feed_issue,
-    calendar_feed_revoke,
-    calendar_feeds_revoke_for_password,
-    corrective_work_order_approve,
-    corrective_work_order_propose,
-    corrective_work_order_reject,
-    overdue_escalation_send,
     work_order_assign,
     work_order_cancel,
     work_order_complete,

@@ -232,7 +232,7 @@ def test_a_supervisors_work_for_the_finding_becomes_the_faults(plant):
     """Work a supervisor made for the trend finding ("Make a work order") is the fault's corrective work the next
     night: no second proposal."""
     from inspections.services.findings import finding_work_order_attach
-    from scheduling.services.work_orders import OneOffTask, work_order_create
+    from scheduling.services.made_work import OneOffTask, work_order_create
 
     ahu, points = plant["ahu"], plant["points"]
     _heating_day(points, DAY1, mat=STUCK_MAT)

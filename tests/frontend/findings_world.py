@@ -16,7 +16,8 @@ from accounts.services import site_grant
 from inspections.models import Finding, Photo
 from inspections.selectors import checklist_for
 from inspections.services import inspection_sync
-from scheduling.services.work_orders import corrective_work_order_approve, work_order_schedule
+from scheduling.services.corrective import corrective_work_order_approve
+from scheduling.services.work_orders import work_order_schedule
 from tests.factories.accounts import OrganisationFactory, make_person
 from tests.factories.inspections import data_url, image_bytes, sync_form
 from tests.factories.inventory import BuildingFactory, SiteFactory, make_full_unit

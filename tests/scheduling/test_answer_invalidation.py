@@ -38,7 +38,7 @@ from scheduling.services import (
     work_order_schedule,
     work_order_transition,
 )
-from scheduling.services.work_orders import OneOffTask, work_order_create
+from scheduling.services.made_work import OneOffTask, work_order_create
 from tests.factories.accounts import make_person
 from tests.factories.inspections import FINISHED, component, make_visit, r, sync_form
 

@@ -1,4 +1,4 @@
-"""Work beyond the plan (scheduling.services.work_orders.work_order_create, frost_checks_create).
+"""Work beyond the plan (scheduling.services.made_work.work_order_create, frost_checks_create).
 
 On a fixed clock: Wednesday 3 December 2025, 09:00 UTC (10:00 in Amsterdam, where the site is).
 
@@ -26,7 +26,7 @@ from engineering.sun import sunset_utc
 from inventory.models import AHU
 from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
 from scheduling.selectors import assignment_check, effective_tasks
-from scheduling.services.work_orders import (
+from scheduling.services.made_work import (
     FROST_TITLE,
     OneOffTask,
     frost_checks_create,
