@@ -18,11 +18,15 @@ from django.urls import Resolver404, resolve, reverse
 from django.utils.http import url_has_allowed_host_and_scheme
 from django.views.decorators.http import require_GET, require_POST
 
+from accounts.models import Role
+from accounts.selectors import MANAGING_ROLES, primary_role
 from inventory.selectors import ahus_visible_to, sites_visible_to
-from inventory.today import time_zone_for
+from inventory.today import time_zone_for, today_for
 from reports import selectors as report_selectors
 from reports.documents import NotVisible, label_of, shown
 from reports.services import PDFA_KINDS, report_request
+
+from ..selectors import default_period
 
 KINDS = ("compliance", "unit_history", "inspection", "labels")
 CHECKBOX_ON = ("1", "on")  # what a ticked checkbox sends; an unticked one sends nothing
@@ -176,4 +180,10 @@ def records(request):
     waiting = any(r.status in ("queued", "running") for r in rows)
     # A report may span sites: its times read on the clock most of the person's sites keep, zone named.
     zone = time_zone_for(request.user) or "UTC"
-    return render(request, "frontend/records.html", {"reports": rows, "waiting": waiting, "zone": zone})
+    context = {"reports": rows, "waiting": waiting, "zone": zone}
+    # Supervisors, administrators and property managers ask here for the compliance report of every site they see
+    # (no site named: all of them), for the period the dashboard's figures show.
+    if primary_role(user=request.user) in (*MANAGING_ROLES, Role.PROPERTY_MANAGER):
+        start, end = default_period(today=today_for(request.user))
+        context |= {"form_id": "records", "site_ids": [], "period_start": start, "period_end": end}
+    return render(request, "frontend/records.html", context)

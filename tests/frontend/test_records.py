@@ -179,3 +179,27 @@ def test_site_page_and_dashboard_show_the_compliance_figures_of_the_pdf(scenario
     assert f'data-kpi="on-time">{expected}<' in dashboard
     # The site's own row on the dashboard shows its share too (per-site figures from the same call).
     assert f'data-kpi="site-on-time">{expected}<' in dashboard
+
+
+def test_the_reports_page_asks_for_the_compliance_report_of_every_site_one_sees(
+    scenario, login, django_capture_on_commit_callbacks
+):
+    """A supervisor with no report yet asks on the Reports page itself: every site of theirs on one report. The
+    property manager's covers only her granted site; a technician's page offers no such form."""
+    client = login(scenario.supervisor)
+    page = client.get("/records/").content.decode()
+    form = page.split('aria-labelledby="compliance-form-records"')[1].split("</form>")[0]
+    assert 'name="kind" value="compliance"' in form and 'name="sites"' not in form
+    response = post_request(client, django_capture_on_commit_callbacks, {"kind": "compliance", "next": "/records/"})
+    assert response.status_code == 302
+    report = Report.objects.get(requested_by=scenario.supervisor, kind="compliance")
+    assert report.status == "done", report.error
+    assert sorted(report.site_ids) == sorted([scenario.site_a.pk, scenario.site_b.pk])
+
+    client = login(scenario.manager_a)
+    assert 'aria-labelledby="compliance-form-records"' in client.get("/records/").content.decode()
+    post_request(client, django_capture_on_commit_callbacks, {"kind": "compliance", "next": "/records/"})
+    assert Report.objects.get(requested_by=scenario.manager_a, kind="compliance").site_ids == [scenario.site_a.pk]
+
+    client = login(scenario.technician)
+    assert "compliance-form-records" not in client.get("/records/").content.decode()
