@@ -16,7 +16,6 @@ from collections import defaultdict
 from django.contrib import messages
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied
-from django.http import Http404
 from django.shortcuts import redirect, render
 from django.urls import reverse
 from django.utils import timezone
@@ -123,10 +122,11 @@ def _stretch(request, *, zone: str, fault: Fault | None) -> tuple[dt.date, int, 
             asked = dt.date.fromisoformat(raw_start)
         except ValueError:
             asked = None
-        if asked is None or asked < dt.date(2000, 1, 1) or asked > today:
-            problems.append(
-                f"From: {raw_start[:20]!r} is not allowed; allowed: a date from 2000-01-01 to {today.isoformat()}."
-            )
+        allowed = f"allowed: a date as YYYY-MM-DD from 2000-01-01 to {today.isoformat()}."
+        if asked is None:
+            problems.append(f"From: {raw_start[:20]!r} is not a date; {allowed}")
+        elif asked < dt.date(2000, 1, 1) or asked > today:
+            problems.append(f"From: {raw_start[:20]!r} is outside the days with trends; {allowed}")
         else:
             start = asked
     return start, days, problems
@@ -309,7 +309,21 @@ def faults(request):
     if raw:
         chosen = next((s for s in sites if str(s.pk) == raw), None)
         if chosen is None:
-            raise Http404("No such site that you may see.")
+            # Named, not a bare "not found": the filter's value and what it may be (the sites listed on the page).
+            return render(
+                request,
+                "frontend/automation/faults.html",
+                {
+                    "sites": sites,
+                    "chosen": None,
+                    "active": [],
+                    "closed": [],
+                    "closed_total": 0,
+                    "managed_sites": list(sites_managed_by(user=request.user).order_by("name")),
+                    "site_problem": f"Site: {raw[:20]!r} is not one of the sites you may see; choose one of the list.",
+                },
+                status=400,
+            )
     active = [_fault_row(f, system) for f in faults_visible_to(user=request.user, site=chosen)]
     closed_qs = faults_visible_to(user=request.user, site=chosen, open_only=False).filter(state=Fault.State.CLOSED)
     closed = [_fault_row(f, system) for f in closed_qs[:CLOSED_SHOWN]]

@@ -133,8 +133,13 @@ def test_a_bad_stretch_is_named_and_the_default_shown(client, world):
     assert page.status_code == 400
     html = page.content.decode()
     assert "Days: &#x27;400&#x27; is not allowed; allowed: a whole number from 1 to 31." in html
-    assert "From: &#x27;x&#x27; is not allowed" in html
+    assert "From: &#x27;x&#x27; is not a date; allowed: a date as YYYY-MM-DD from 2000-01-01" in html
     assert 'data-chart="temperatures"' in html
+    for start, words in (("2026-02-30", "is not a date"), ("1999-12-31", "is outside the days with trends")):
+        html = get(
+            client, world["boss"], reverse("frontend:unit_trends", kwargs={"pk": world["ahu"].pk}), start=start
+        ).content.decode()
+        assert f"From: &#x27;{start}&#x27; {words}" in html
 
 
 def test_values_are_in_the_persons_units(client, world):
@@ -156,7 +161,13 @@ def test_another_organisations_fault_unit_and_site_are_not_found(client, world):
         assert get(client, stranger, url).status_code == 404, url
     html = get(client, stranger, reverse("frontend:faults")).content.decode()
     assert world["fault"].title not in html and "data-no-faults" in html
-    assert get(client, stranger, reverse("frontend:faults"), site=str(world["site"].pk)).status_code == 404
+    # Another organisation's site as the filter: refused as any unknown value is, naming it, telling nothing of it.
+    for value in (str(world["site"].pk), "abc", "999999"):
+        refused = get(client, stranger, reverse("frontend:faults"), site=value)
+        assert refused.status_code == 400, value
+        text = refused.content.decode()
+        assert f"Site: &#x27;{value}&#x27; is not one of the sites you may see" in text
+        assert world["site"].name not in text and world["fault"].title not in text
 
 
 def test_a_technician_may_not_open_the_faults(client, world):
