@@ -114,7 +114,8 @@ class TrendUploadView(APIView):
         description=(
             "Layouts: `wide` (first column the time, then a column per point name) or `long` (columns timestamp, "
             "point, value). Times without a zone are the site's. A point name two units share is written "
-            "`<unit tag>/<point name>`."
+            "`<unit label code>/<point name>`. `units` states the units of the file's values (`si`: °C, Pa, m³/s; "
+            "`us`: °F, in. w.c., cfm); they are converted to SI by each point's class."
         ),
         request={"multipart/form-data": TrendUploadInput},
         responses={
@@ -131,6 +132,7 @@ class TrendUploadView(APIView):
         data.is_valid(raise_exception=True)
         upload = data.validated_data["file"]
         layout = data.validated_data["layout"]
+        units = data.validated_data["units"]
         try:
             text = decode_upload(upload.read()).read()
             background = data.validated_data.get("background")
@@ -138,10 +140,10 @@ class TrendUploadView(APIView):
                 background = trends.trend_import_runs_in_background(text=text)
             if background:
                 job = trends.trend_import_job_create(
-                    site=site, text=text, layout=layout, by=request.user, file_name=upload.name or ""
+                    site=site, text=text, layout=layout, units=units, by=request.user, file_name=upload.name or ""
                 )
                 return Response(TrendImportJobOutput(job).data, status=status.HTTP_202_ACCEPTED)
-            result = trends.trend_import(site=site, text=text, layout=layout, by=request.user)
+            result = trends.trend_import(site=site, text=text, layout=layout, units=units, by=request.user)
         except ImportFailed as exc:
             body = {"detail": str(exc), "errors": [e.as_dict() for e in exc.errors]}
             return Response(body, status=status.HTTP_400_BAD_REQUEST)

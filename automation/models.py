@@ -24,6 +24,7 @@ from django.db.models import Q
 from django.utils import timezone
 
 from accounts.models import Organisation
+from engineering.units import UnitSystem
 from inventory.models import AHU, Component, Site
 
 from .vocabulary import BRICK_CLASS_CHOICES, PointUnit
@@ -149,6 +150,12 @@ class TrendImportJob(models.Model):
     organisation = models.ForeignKey(Organisation, on_delete=models.CASCADE, related_name="trend_import_jobs")
     site = models.ForeignKey(Site, on_delete=models.CASCADE, related_name="trend_import_jobs")
     layout = models.CharField(max_length=10, help_text="wide or long")
+    units = models.CharField(
+        max_length=2,
+        choices=[(s.value, s.value.upper()) for s in UnitSystem],
+        default=UnitSystem.SI.value,
+        help_text="The units the file's values are in: si (°C, Pa, m³/s) or us (°F, in. w.c., cfm).",
+    )
     requested_by = models.ForeignKey(
         settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True, related_name="trend_import_jobs"
     )

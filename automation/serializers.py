@@ -5,7 +5,7 @@ from rest_framework import serializers
 from inventory.serializers import FileImportJobOutput, NamesValueMixin
 
 from .models import BacnetObjectType, Point, TrendImportJob
-from .trends import LAYOUTS
+from .trends import LAYOUTS, UNIT_SYSTEMS, UNITS_UNCHANGED, units_choice_label, units_problem
 from .vocabulary import POINT_CLASSES, PointUnit
 
 _ID = {"min_value": 1, "max_value": 2**63 - 1}
@@ -74,6 +74,19 @@ class TrendUploadInput(serializers.Serializer):
     layout = serializers.ChoiceField(
         choices=LAYOUTS, help_text="wide: a column per point; long: columns timestamp, point, value."
     )
+    units = serializers.ChoiceField(
+        choices=[(s, units_choice_label(s)) for s in UNIT_SYSTEMS],
+        help_text=(
+            "Units of the values in the file, stated by the importer: "
+            + "; ".join(f"{s}, {units_choice_label(s)}" for s in UNIT_SYSTEMS)
+            + f". Converted to SI by each point's class; {UNITS_UNCHANGED}."
+        ),
+        error_messages={
+            "required": "required: state the units of the file's values; allowed: " + " or ".join(UNIT_SYSTEMS) + ".",
+            "null": "required: state the units of the file's values; allowed: " + " or ".join(UNIT_SYSTEMS) + ".",
+            "invalid_choice": "{input!r} " + units_problem(None) + ".",
+        },
+    )
     background = serializers.BooleanField(
         required=False,
         allow_null=True,
@@ -95,11 +108,12 @@ class TrendImportJobOutput(FileImportJobOutput):
 
     site = serializers.IntegerField(source="site_id")
     layout = serializers.CharField()
+    units = serializers.CharField(help_text="The units the file's values were read in: si or us.")
     status = serializers.ChoiceField(choices=TrendImportJob.Status.choices)
     values_stored = serializers.IntegerField()
 
     key_order = (
-        "id", "site", "layout", "status", "status_label", "file_name", "rows_total", "values_stored", "detail",
+        "id", "site", "layout", "units", "status", "status_label", "file_name", "rows_total", "values_stored", "detail",
         "errors", "created_at", "finished_at",
     )  # fmt: skip
 

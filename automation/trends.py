@@ -13,8 +13,10 @@ unit's tag need not be), and ``<unit tag>/<point name>`` still works where the t
 A time without a zone is the site's (``accounts.inputs.check_reading_time``: not before 2000, not in the
 future); in the hour that a clock change repeats, the first pass of a time is read as the earlier hour and the
 second pass as the later one, and the result counts those rows (``TrendImportResult.words`` says so). Values
-are numbers in the point's SI unit within a plausible range (``vocabulary.plausible_range``); on/off points take
-1/0, on/off, true/false or active/inactive.
+are numbers in the units the importer states for the file (``units``: ``si``, the point's SI unit — °C, Pa, m³/s;
+or ``us`` — °F, in. w.c., cfm), converted to SI by the point's class through ``engineering.units.from_display``
+and then held to a plausible range (``vocabulary.plausible_range``); percent, ppm and on/off points read the same
+in both. On/off points take 1/0, on/off, true/false or active/inactive.
 
 All or nothing, like the registry's CSV import (``inventory.csv_io``): every bad row or cell is listed with its
 line, column, value and what is allowed, and then nothing is stored. A sample at a time already stored for the
@@ -39,7 +41,7 @@ from django.utils import timezone
 
 from accounts.inputs import FieldErrors, check_reading_time, parse_number
 from accounts.models import User
-from engineering.units import sensible_bound, to_display, unit_label
+from engineering.units import SYSTEMS, UnitSystem, from_display, sensible_bound, to_display, unit_label
 from inventory.csv_io import BYTE_ORDER_MARK, ImportFailed, RowError, control_character_errors, data_rows
 from inventory.models import Site
 
@@ -55,6 +57,47 @@ BACKGROUND_ROWS = 20_000
 CHUNK = 500
 _ON = {"1", "on", "true", "active", "yes", "run", "running"}
 _OFF = {"0", "off", "false", "inactive", "no", "stop", "stopped"}
+# The units a file's values may be in: a person's unit systems.
+UNIT_SYSTEMS = SYSTEMS
+
+
+def _system_units(system: str) -> list[str]:
+    """The units of the converted point classes in ``system``, in the order of ``UNIT_QUANTITY``."""
+    return [
+        PointUnit(unit).label if system == UnitSystem.SI else unit_label(quantity=quantity, system=system)
+        for unit, quantity in UNIT_QUANTITY.items()
+    ]
+
+
+def units_choice_label(system: str) -> str:
+    """A choice of the file's units as the form and the API name it: "SI (°C, Pa, m³/s …)"."""
+    return f"{system.upper()} ({', '.join(_system_units(system))} …)"
+
+
+def units_words(system: str) -> list[str]:
+    """What a file's values are in when read as ``system``, one phrase a point class: "temperatures in °F"…"""
+    names = {"temperature": "temperatures", "pressure": "pressures", "airflow": "airflows"}
+    return [
+        f"{names.get(quantity, quantity)} in {label}"
+        for quantity, label in zip(UNIT_QUANTITY.values(), _system_units(system), strict=True)
+    ]
+
+
+UNITS_UNCHANGED = "percentages (%), CO₂ (ppm) and on/off status (1 or 0) read the same in both"
+
+
+def units_problem(value: Any) -> str:
+    """Why ``value`` is not a unit system a file may be in, with what is allowed ("" when it is one)."""
+    if value in UNIT_SYSTEMS:
+        return ""
+    allowed = " or ".join(f"{s} — {units_choice_label(s)}" for s in UNIT_SYSTEMS)
+    return f"is not a unit system of trend values; allowed: {allowed}"
+
+
+def _check_units(units: Any) -> None:
+    problem = units_problem(units)
+    if problem:
+        raise ImportFailed([RowError(0, "units", str(units)[:40], problem)])
 
 
 @dataclass
@@ -122,7 +165,7 @@ class _Points:
     """The site's points by the names a file may use for them."""
 
     def __init__(self, site: Site, system: str = "si"):
-        self.system = system  # the reader's units, for the allowed ranges in the errors
+        self.system = system  # the units of the file's values
         self.by_name: dict[str, list[Point]] = defaultdict(list)
         self.by_code_name: dict[str, Point] = {}
         by_tag_name: dict[str, list[Point]] = defaultdict(list)
@@ -155,23 +198,24 @@ class _Points:
 
 
 def plausible_words(point: Point, system: str = "si") -> str:
-    """What a cell of ``point`` may hold, in the file's SI unit; for a US reader also in their unit
-    ("a number from -60 to 60 °C (-76 to 140 °F)")."""
+    """What a cell of ``point`` may hold, in the file's units (``system``): SI, "a number from -60 to 60 °C";
+    US, in the US unit and then the SI range in brackets, "a number from -76 to 140 °F (-60 to 60 °C)"."""
     low, high = plausible_range(point.brick_class, point.unit)
-    text = f"a number from {low:g} to {high:g} {PointUnit(point.unit).label}"
+    si = f"{low:g} to {high:g} {PointUnit(point.unit).label}"
     quantity = UNIT_QUANTITY.get(point.unit)
-    if system == "us" and quantity is not None:
-        shown = [to_display(value=x, quantity=quantity, system=system) for x in (low, high)]
-        low_us, high_us = (
-            sensible_bound(shown[0], upper=False, figures=3),
-            sensible_bound(shown[1], upper=True, figures=3),
-        )
-        text += f" ({low_us:g} to {high_us:g} {unit_label(quantity=quantity, system=system)})"
-    return text
+    if system != UnitSystem.US or quantity is None:
+        return f"a number from {si}"
+    shown = [to_display(value=x, quantity=quantity, system=system) for x in (low, high)]
+    low_us, high_us = (
+        sensible_bound(shown[0], upper=False, figures=3),
+        sensible_bound(shown[1], upper=True, figures=3),
+    )
+    return f"a number from {low_us:g} to {high_us:g} {unit_label(quantity=quantity, system=system)} ({si})"
 
 
 def _value(raw: str, point: Point, system: str = "si") -> tuple[float | None, str]:
-    """The cell as a value in the point's SI unit, or the reason it is refused."""
+    """The cell, a value in the file's units (``system``), as a value in the point's SI unit, or the reason it
+    is refused (naming the allowed range in the file's units)."""
     text = raw.strip()
     if point.unit == PointUnit.UNITLESS:
         word = text.lower()
@@ -189,7 +233,13 @@ def _value(raw: str, point: Point, system: str = "si") -> tuple[float | None, st
     allowed = plausible_words(point, system)
     if number is None:
         return None, f"is not a number; allowed: {allowed}"
-    if not low <= number <= high:
+    quantity = UNIT_QUANTITY.get(point.unit)
+    slack = 0.0
+    if system == UnitSystem.US and quantity is not None:
+        number = from_display(value=number, quantity=quantity, system=system)
+        # A bound the error shows in US units is allowed: 140 °F converts to 60.00000000000006 °C.
+        slack = 1e-9 * max(abs(low), abs(high), 1.0)
+    if not low - slack <= number <= high + slack:
         return None, f"is out of range for {point_class_phrase(point.brick_class)}; allowed: {allowed}"
     return number, ""
 
@@ -357,24 +407,27 @@ def trend_import(
     site: Site,
     text: str,
     layout: str,
+    units: str = UnitSystem.SI,
     by: User | None = None,
     now: dt.datetime | None = None,
     progress: Callable[[int, int], None] | None = None,
     finish: Callable[[TrendImportResult], None] | None = None,
 ) -> TrendImportResult:
-    """Import a trend CSV of ``layout`` for ``site``'s points: every value or none.
+    """Import a trend CSV of ``layout`` for ``site``'s points, its values in ``units`` (``si`` or ``us``; the
+    importer states them, pages and the API ask): every value or none.
 
     Raises ``ImportFailed`` listing every bad row and cell. ``finish(result)`` runs inside the write's
     transaction (a job records its outcome with the values it stored, or neither)."""
     if layout not in LAYOUTS:
         raise ImportFailed([RowError(0, "layout", str(layout), f"is not a layout; allowed: {', '.join(LAYOUTS)}")])
+    _check_units(units)
     refused = control_character_errors(text)
     if refused:
         raise ImportFailed(refused)
     text = text.removeprefix(BYTE_ORDER_MARK)
     total = data_rows(text)
     reader = csv.reader(io.StringIO(text, newline=""))
-    points = _Points(site, getattr(by, "unit_system", "si") or "si")
+    points = _Points(site, units)
     clock = _Clock(site, now or timezone.now())
     samples: Samples = defaultdict(dict)
     errors: list[RowError] = []
@@ -404,7 +457,7 @@ def trend_import(
                 obj=site,
                 action="trend_import",
                 organisation=site.organisation,
-                changes={"layout": layout, **result.as_dict()},
+                changes={"layout": layout, "units": units, **result.as_dict()},
             )
         if finish is not None:
             finish(result)
@@ -539,11 +592,13 @@ def trend_import_runs_in_background(*, text: str) -> bool:
 
 @transaction.atomic
 def trend_import_job_create(
-    *, site: Site, text: str, layout: str, by: User | None, file_name: str = ""
+    *, site: Site, text: str, layout: str, units: str = UnitSystem.SI, by: User | None, file_name: str = ""
 ) -> TrendImportJob:
-    """Store the file as a queued job and queue its run after commit (the caller checked ``by`` manages ``site``)."""
+    """Store the file as a queued job, with the units of its values, and queue its run after commit (the caller
+    checked ``by`` manages ``site``)."""
     if layout not in LAYOUTS:
         raise ImportFailed([RowError(0, "layout", str(layout), f"is not a layout; allowed: {', '.join(LAYOUTS)}")])
+    _check_units(units)
     refused = control_character_errors(text)
     if refused:
         raise ImportFailed(refused)
@@ -551,6 +606,7 @@ def trend_import_job_create(
         organisation=site.organisation,
         site=site,
         layout=layout,
+        units=units,
         requested_by=by if getattr(by, "is_authenticated", False) else None,
         file_name=file_name[:200],
         source=text,
@@ -583,7 +639,9 @@ def trend_import_job_run(*, job_id: int) -> TrendImportJob:
         )
 
     try:
-        trend_import(site=job.site, text=job.source, layout=job.layout, by=job.requested_by, finish=finish)
+        trend_import(
+            site=job.site, text=job.source, layout=job.layout, units=job.units, by=job.requested_by, finish=finish
+        )
     except ImportFailed as exc:
         _finished(
             job_id, status=TrendImportJob.Status.REFUSED, errors=[e.as_dict() for e in exc.errors], detail=str(exc)

@@ -405,17 +405,33 @@ def site_points(request, pk: int):
     errors: list = []
     field_errors: dict[str, str] = {}
     layout = request.POST.get("layout", "wide")
+    # The units of the file's values: the person states them, the form offering their own unit system first.
+    file_units = request.POST.get("units", "") if request.method == "POST" else request.user.unit_system
     if request.method == "POST":
         upload = request.FILES.get("file")
         if layout not in trends.LAYOUTS:
             field_errors["layout"] = f"Layout: {layout[:20]!r} is not offered; allowed: {', '.join(trends.LAYOUTS)}."
+        units_problem = trends.units_problem(file_units)
+        if not file_units:
+            field_errors["units"] = (
+                "Units of the values: choose the units the file's values are in; allowed: "
+                + " or ".join(trends.units_choice_label(s) for s in trends.UNIT_SYSTEMS)
+                + "."
+            )
+        elif units_problem:
+            field_errors["units"] = f"Units of the values: {file_units[:20]!r} {units_problem}."
         field_errors.update(_upload_problems(upload))
         if not field_errors:
             try:
                 text = csv_io.decode_upload(upload.read()).read()
                 if trends.trend_import_runs_in_background(text=text):
                     job = trends.trend_import_job_create(
-                        site=site, text=text, layout=layout, by=request.user, file_name=upload.name or ""
+                        site=site,
+                        text=text,
+                        layout=layout,
+                        units=file_units,
+                        by=request.user,
+                        file_name=upload.name or "",
                     )
                     messages.success(
                         request,
@@ -425,7 +441,7 @@ def site_points(request, pk: int):
                     return redirect(
                         reverse("frontend:site_points", kwargs={"pk": site.pk}) + f"?job={job.public_id}#trend-jobs"
                     )
-                result = trends.trend_import(site=site, text=text, layout=layout, by=request.user)
+                result = trends.trend_import(site=site, text=text, layout=layout, units=file_units, by=request.user)
             except csv_io.ImportFailed as exc:
                 errors = exc.errors
             else:
@@ -455,6 +471,12 @@ def site_points(request, pk: int):
             "field_errors": field_errors,
             "layout": layout,
             "layouts": trends.LAYOUTS,
+            "file_units": file_units,
+            "unit_choices": [
+                {"value": s, "label": trends.units_choice_label(s), "words": trends.units_words(s)}
+                for s in trends.UNIT_SYSTEMS
+            ],
+            "units_unchanged": trends.UNITS_UNCHANGED,
             "brick_url": reverse("automation_api:site-brick", kwargs={"pk": site.pk}),
             "jobs": _job_rows(request, site),
         },
@@ -474,6 +496,7 @@ def _job_rows(request, site) -> list[dict]:
             {
                 "job": job,
                 "state": job.get_status_display(),
+                "units": trends.units_choice_label(job.units),
                 "finished": job.status in trends.FINISHED,
                 "created": job.created_at.astimezone(tz),
                 "finished_at": job.finished_at.astimezone(tz) if job.finished_at else None,

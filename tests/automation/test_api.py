@@ -97,24 +97,24 @@ def test_trend_upload_and_its_refusal(plant, supervisor):
     with time_machine.travel(NOW, tick=False):
         res = supervisor.post(
             f"/api/automation/sites/{plant.site.pk}/trends/",
-            {"layout": "wide", "file": SimpleUploadedFile("t.csv", good, content_type="text/csv")},
+            {"layout": "wide", "units": "si", "file": SimpleUploadedFile("t.csv", good, content_type="text/csv")},
         )
         assert res.status_code == 200, res.content
         assert res.json()["values"] == 4
         res = supervisor.post(
             f"/api/automation/sites/{plant.site.pk}/trends/",
-            {"layout": "long", "file": SimpleUploadedFile("t.csv", bad, content_type="text/csv")},
+            {"layout": "long", "units": "si", "file": SimpleUploadedFile("t.csv", bad, content_type="text/csv")},
         )
         assert res.status_code == 400
         assert [(e["line"], e["column"]) for e in res.json()["errors"]] == [(2, "value"), (3, "point")]
         res = supervisor.post(
             f"/api/automation/sites/{plant.foreign_site.pk}/trends/",
-            {"layout": "wide", "file": SimpleUploadedFile("t.csv", good, content_type="text/csv")},
+            {"layout": "wide", "units": "si", "file": SimpleUploadedFile("t.csv", good, content_type="text/csv")},
         )
         assert res.status_code == 404
         res = supervisor.post(
             f"/api/automation/sites/{plant.site.pk}/trends/",
-            {"layout": "wide", "background": "true", "file": SimpleUploadedFile("t.csv", good)},
+            {"layout": "wide", "units": "si", "background": "true", "file": SimpleUploadedFile("t.csv", good)},
         )
         assert res.status_code == 202
         job = supervisor.get(f"/api/automation/trend-jobs/{res.json()['id']}/").json()

@@ -79,7 +79,12 @@ def test_imported_trends_label_the_filter_chart_and_move_the_runtime_task():
         client.force_login(supervisor)
         res = client.post(
             f"/api/automation/sites/{site.pk}/trends/",
-            {"layout": "wide", "background": "false", "file": SimpleUploadedFile("t.csv", _csv(ahu.tag))},
+            {
+                "layout": "wide",
+                "units": "si",
+                "background": "false",
+                "file": SimpleUploadedFile("t.csv", _csv(ahu.tag)),
+            },
         )
         assert res.status_code == 200, res.content
         call_command("judge_trends", "fen", DAY1.isoformat(), (DAY1 + dt.timedelta(days=3)).isoformat())

@@ -1,5 +1,5 @@
 """Trend CSV import as a reader meets it: two units of one tag at one site told apart by their label codes, the
-point class in plain words with its article, plausible ranges per point class in the reader's units, plurals,
+point class in plain words with its article, plausible ranges per point class in the file's units, plurals,
 and the rows of the hour a clock change repeats counted in the result."""
 
 import datetime as dt
@@ -65,8 +65,9 @@ def test_out_of_range_names_the_point_class_in_plain_words_with_its_article():
     assert point_class_phrase("CO2_Level_Sensor") == "a CO₂ sensor"
 
 
-def test_outdoor_air_has_a_physical_range_shown_in_the_readers_units(plant):
-    """61 °C outdoors is refused (−60 to +60 °C); a US reader also sees the range in °F; 59 °C is taken."""
+def test_outdoor_air_has_a_physical_range_shown_in_the_files_units(plant):
+    """61 °C outdoors is refused (−60 to +60 °C); a file in US units sees the range in °F, then °C (141 °F is
+    60.6 °C); the importer's own unit system does not change how a file stated as SI reads; 59 °C is taken."""
     text = "timestamp,AHU1.OAT\n2026-01-05 08:00,61\n"
     with pytest.raises(ImportFailed) as caught:
         trend_import(site=plant.site, text=text, layout="wide", now=NOW)
@@ -77,8 +78,11 @@ def test_outdoor_air_has_a_physical_range_shown_in_the_readers_units(plant):
     us.unit_system = "us"
     us.save(update_fields=["unit_system"])
     with pytest.raises(ImportFailed) as caught:
-        trend_import(site=plant.site, text=text, layout="wide", now=NOW, by=us)
-    assert caught.value.errors[0].reason.endswith("allowed: a number from -60 to 60 °C (-76 to 140 °F)")
+        trend_import(site=plant.site, text=text, layout="wide", units="si", now=NOW, by=us)
+    assert caught.value.errors[0].reason.endswith("allowed: a number from -60 to 60 °C")
+    with pytest.raises(ImportFailed) as caught:
+        trend_import(site=plant.site, text=text.replace(",61", ",141"), layout="wide", units="us", now=NOW, by=us)
+    assert caught.value.errors[0].reason.endswith("allowed: a number from -76 to 140 °F (-60 to 60 °C)")
     assert trend_import(site=plant.site, text=text.replace(",61", ",59"), layout="wide", now=NOW).values == 1
 
 

@@ -240,7 +240,9 @@ def test_a_wrong_trend_file_lists_each_bad_cell_and_stores_nothing(client, world
     upload = _file("bad.csv", text)
     client.force_login(boss)
     with time_machine.travel(AFTER, tick=False):
-        page = client.post(reverse("frontend:site_points", kwargs={"pk": site.pk}), {"layout": "wide", "file": upload})
+        page = client.post(
+            reverse("frontend:site_points", kwargs={"pk": site.pk}), {"layout": "wide", "units": "si", "file": upload}
+        )
     assert page.status_code == 400
     html = page.content.decode()
     assert "Nothing was imported" in html and html.count("data-row-error") >= 2
@@ -248,7 +250,8 @@ def test_a_wrong_trend_file_lists_each_bad_cell_and_stores_nothing(client, world
     unknown = "timestamp,AHU-07.NOPE\n2026-01-13 08:00,1\n"
     with time_machine.travel(AFTER, tick=False):
         page = client.post(
-            reverse("frontend:site_points", kwargs={"pk": site.pk}), {"layout": "wide", "file": _file("x.csv", unknown)}
+            reverse("frontend:site_points", kwargs={"pk": site.pk}),
+            {"layout": "wide", "units": "si", "file": _file("x.csv", unknown)},
         )
     assert page.status_code == 400 and "no point of the site has this name" in page.content.decode()
     assert TrendDay.objects.count() == before
@@ -261,7 +264,7 @@ def test_a_good_trend_file_is_imported_through_the_service(client, world):
     with time_machine.travel(AFTER, tick=False):
         page = client.post(
             reverse("frontend:site_points", kwargs={"pk": site.pk}),
-            {"layout": "wide", "file": _file("good.csv", text)},
+            {"layout": "wide", "units": "si", "file": _file("good.csv", text)},
             follow=True,
         )
     assert page.status_code == 200 and "Imported 2 values of 1 point from 2 rows." in page.content.decode()
@@ -274,6 +277,7 @@ def test_the_upload_form_names_a_missing_file_and_a_bad_layout(client, world):
     html = page.content.decode()
     assert "Layout: &#x27;sideways&#x27; is not offered; allowed: wide, long." in html
     assert "File: choose a trend CSV file to import." in html
+    assert "Units of the values: choose the units the file&#x27;s values are in" in html
     tech = make_person(organisation=world["org"], role=Role.TECHNICIAN, username="tech2")
     client.force_login(tech)
     assert client.post(reverse("frontend:site_points", kwargs={"pk": world["site"].pk}), {}).status_code in (403, 404)
@@ -296,7 +300,7 @@ def test_a_big_bad_file_runs_as_a_job_whose_refusal_and_problems_the_point_map_l
         with django_capture_on_commit_callbacks(execute=True):
             posted = client.post(
                 reverse("frontend:site_points", kwargs={"pk": site.pk}),
-                {"layout": "wide", "file": _file("big.csv", text)},
+                {"layout": "wide", "units": "si", "file": _file("big.csv", text)},
             )
         assert posted.status_code == 302 and "?job=" in posted.url
         page = client.get(posted.url)

@@ -172,7 +172,7 @@ def _trend_csv(c: Corner) -> Call:
 
     text = f"timestamp,{probe_point(c).name}\n2025-06-02 08:00,16.5\n".encode()
     upload = SimpleUploadedFile("trend.csv", text, content_type="text/csv")
-    return Call({"pk": c.site.pk}, {"layout": "wide", "file": upload}, "multipart")
+    return Call({"pk": c.site.pk}, {"layout": "wide", "units": "si", "file": upload}, "multipart")
 
 
 def _reading(c: Corner) -> Call:
