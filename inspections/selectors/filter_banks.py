@@ -56,7 +56,8 @@ def filter_sources_words(*, points) -> str:
 
 # Sources of filter-series points from apps above this one (the building-automation trends register theirs in
 # their AppConfig.ready, as for FREEZE_EVENT_SOURCES): ``source(components=[bank, ...], before=datetime | None)``
-# returns {bank id: [FilterSeriesPoint, ...]} in a fixed number of queries, points before ``before`` only.
+# returns {bank id: [FilterSeriesPoint, ...]} in a fixed number of queries, points at or before ``before`` only
+# (``FilterHistory.before`` keeps the same points of a source read without a limit).
 FILTER_POINT_SOURCES: list = []
 
 
@@ -146,20 +147,68 @@ def _series_point(
     )
 
 
-def filter_series_for(*, components: list[Component], before: dt.datetime | None = None) -> dict[int, FilterSeries]:
-    """``filter_series`` of several banks at once, {component id: series}, in a fixed number of queries."""
+@dataclass(frozen=True)
+class FilterHistory:
+    """What ``filter_series_for`` reads of some banks, read once with no time limit (``filter_history_read``):
+    the forms of one sync request, each finished at its own time, build their banks' series from it without a
+    query of their own. Only for banks no other form of the request writes to (their history stands still)."""
+
+    banks: frozenset[int]
+    rows: list[tuple]  # as _filter_rows, every form's
+    values: dict[int, dict[str, float]]  # visit_values of those rows' inspections
+    extra: dict[int, list[FilterSeriesPoint]]  # the registered sources' points, all of them
+
+    def before(
+        self, *, banks: list[Component], before: dt.datetime | None
+    ) -> tuple[list[tuple], dict[int, list[FilterSeriesPoint]]]:
+        """The rows and the sources' points ``_filter_rows`` and the sources give for ``banks`` and ``before``: a
+        reading of a form finished before it, a source's point at or before it (``FILTER_POINT_SOURCES``)."""
+        ids = {b.pk for b in banks}
+        rows = [r for r in self.rows if r[0] in ids and (before is None or (r[5] is not None and r[5] < before))]
+        extra = {
+            bank_id: [p for p in points if before is None or p.at <= before]
+            for bank_id, points in self.extra.items()
+            if bank_id in ids
+        }
+        return rows, extra
+
+
+def filter_history_read(*, components: list[Component]) -> FilterHistory:
+    """The filter history of the given components' banks, whole, in the fixed queries of ``filter_series_for``."""
     banks = [c for c in components if c.kind == "filter_bank"]
-    by_visit = _filter_readings(banks=banks, before=before)
-    values = visit_values(inspection_ids=sorted({i for visits in by_visit.values() for i in visits}))
+    if not banks:
+        return FilterHistory(banks=frozenset(), rows=[], values={}, extra={})
+    rows = list(_filter_rows(banks=banks, before=None))
+    return FilterHistory(
+        banks=frozenset(b.pk for b in banks),
+        rows=rows,
+        values=visit_values(inspection_ids=sorted({r[4] for r in rows})),
+        extra=_source_points(banks=banks, before=None),
+    )
+
+
+def filter_series_for(
+    *, components: list[Component], before: dt.datetime | None = None, history: FilterHistory | None = None
+) -> dict[int, FilterSeries]:
+    """``filter_series`` of several banks at once, {component id: series}, in a fixed number of queries; none when
+    ``history`` (``filter_history_read``) holds every one of the banks."""
+    banks = [c for c in components if c.kind == "filter_bank"]
+    held = history if history is not None and all(b.pk in history.banks for b in banks) else None
+    if held is not None:
+        rows, extra = held.before(banks=banks, before=before)
+        by_visit = _filter_readings(rows=rows)
+        visited = sorted({i for visits in by_visit.values() for i in visits})
+        values = {i: held.values[i] for i in visited if i in held.values}
+    else:
+        by_visit = _filter_readings(rows=_filter_rows(banks=banks, before=before))
+        values = visit_values(inspection_ids=sorted({i for visits in by_visit.values() for i in visits}))
     # Units already loaded with their banks (select_related) cost no query.
     ahus = {c.ahu_id: c.ahu for c in banks if Component.ahu.is_cached(c)}
     if missing := {c.ahu_id for c in banks} - set(ahus):
         ahus |= {a.pk: a for a in AHU.objects.filter(pk__in=missing)}
     airflow_at = _visit_airflow(ahus=ahus, values=values)
-    extra: dict[int, list[FilterSeriesPoint]] = {}
-    for source in FILTER_POINT_SOURCES:
-        for bank_id, found in source(components=banks, before=before).items():
-            extra.setdefault(bank_id, []).extend(found)
+    if held is None:
+        extra = _source_points(banks=banks, before=before)
     out = {}
     for bank in banks:
         design = filter_design_airflow_m3s(component=bank, ahu=ahus[bank.ahu_id])
@@ -172,9 +221,9 @@ def filter_series_for(*, components: list[Component], before: dt.datetime | None
     return out
 
 
-def _filter_readings(*, banks: list[Component], before: dt.datetime | None) -> dict[int, dict[int, dict]]:
-    """The banks' filter readings and changes, {bank id: {inspection id: {"at", "inspection_id",
-    "<template>.<item>": value}}}, visits in time order (one query)."""
+def _filter_rows(*, banks: list[Component], before: dt.datetime | None):
+    """The banks' filter readings and changes, (component id, template code, item key, value, inspection id,
+    finished at), in time order; of forms finished before ``before`` only, when given (one query)."""
     rows = (
         Reading.objects.filter(component__in=banks)
         .filter(
@@ -189,11 +238,26 @@ def _filter_readings(*, banks: list[Component], before: dt.datetime | None) -> d
     )
     if before is not None:
         rows = rows.filter(inspection__finished_at__lt=before)
+    return rows
+
+
+def _filter_readings(*, rows) -> dict[int, dict[int, dict]]:
+    """The rows of ``_filter_rows`` by visit, {bank id: {inspection id: {"at", "inspection_id",
+    "<template>.<item>": value}}}, visits in time order."""
     by_visit: dict[int, dict[int, dict]] = {}
     for comp_id, code, key, value, insp_id, at in rows:
         v = by_visit.setdefault(comp_id, {}).setdefault(insp_id, {"at": at, "inspection_id": insp_id})
         v[f"{code}.{key}"] = value if value is not None else True
     return by_visit
+
+
+def _source_points(*, banks: list[Component], before: dt.datetime | None) -> dict[int, list[FilterSeriesPoint]]:
+    """The registered sources' points of the banks (``FILTER_POINT_SOURCES``), at or before ``before`` when given."""
+    extra: dict[int, list[FilterSeriesPoint]] = {}
+    for source in FILTER_POINT_SOURCES:
+        for bank_id, found in source(components=banks, before=before).items():
+            extra.setdefault(bank_id, []).extend(found)
+    return extra
 
 
 def _visit_airflow(*, ahus: dict[int, AHU], values: dict[int, dict[str, float]]):

@@ -10,6 +10,8 @@ from __future__ import annotations
 
 import datetime as dt
 import uuid
+from collections import Counter
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -67,8 +69,21 @@ class Batch:
     templates: dict[str, Any]
     handled: set[uuid.UUID] = field(default_factory=set)
     written: list = field(default_factory=list)  # files of the forms stored so far (removed if the batch fails)
+    # Units that exactly one form of the request is for: no other form writes their filter history.
+    single_units: set[int] = field(default_factory=set)
+    _filter_history: selectors.FilterHistory | None = None
     # (the request's work order, the form's moved copy of it): copied back once the form's savepoint is released
     moved: list = field(default_factory=list)
+
+    def filter_history(self) -> selectors.FilterHistory:
+        """The filter history of the banks of ``single_units``, read whole at the first form that asks (two
+        queries, and one per registered source, for the request instead of for each form)."""
+        if self._filter_history is None:
+            units = {wo.ahu_id: wo.ahu for wo in self.work_orders.values() if wo.ahu_id in self.single_units}
+            self._filter_history = selectors.filter_history_read(
+                components=[c for ahu in units.values() for c in ahu.components.all()]
+            )
+        return self._filter_history
 
     def form_kept(self) -> None:
         """The form's savepoint was released: the work orders it moved are the request's from now on."""
@@ -99,10 +114,15 @@ def batch_read(*, user, forms: list) -> Batch:
         # Every work order the forms name, locked once for the request, in one order (two requests cannot wait
         # on each other), before they are read: each form then judges the row as it stands.
         list(WorkOrder.objects.select_for_update().filter(public_id__in=wo_ids).order_by("pk").values_list("pk"))
+    work_orders = selectors.work_orders_for_sync(user=user, public_ids=wo_ids)
+    forms_per_unit = Counter(
+        work_orders[u].ahu_id for f in dicts if (u := uuid_or_none(f.get("work_order"))) in work_orders
+    )
     return Batch(
-        work_orders=selectors.work_orders_for_sync(user=user, public_ids=wo_ids),
+        work_orders=work_orders,
         firsts=firsts,
         templates=templates_current(),
+        single_units={unit for unit, n in forms_per_unit.items() if n == 1},
     )
 
 
@@ -436,17 +456,20 @@ def form_parse(
     return (None if errors else parsed), errors, client_uuid
 
 
-def filter_points_for(unit, finished_at):
+def filter_points_for(unit, finished_at, history: Callable[[], selectors.FilterHistory] | None = None):
     """Earlier readings of a bank's present filters, for its change forecast (``selectors.filter_series``).
 
     ``unit``: the AHU, or its components as already loaded. Every bank of the unit is read at the first
-    question, in the fixed queries of ``filter_series_for``: a unit with 13 banks costs what one with one does."""
+    question, in the fixed queries of ``filter_series_for``: a unit with 13 banks costs what one with one does;
+    none when the history ``history()`` gives (asked then, not before) holds its banks."""
     series: dict = {}
 
     def points(component) -> list[FilterPoint]:
         if not series:
             components = unit if isinstance(unit, list) else list(unit.components.all())
-            series.update(selectors.filter_series_for(components=components, before=finished_at) or {None: None})
+            held = history() if history is not None else None
+            found = selectors.filter_series_for(components=components, before=finished_at, history=held)
+            series.update(found or {None: None})
         found = series.get(component.pk)
         if found is None:  # not one of the unit's banks as loaded (never expected): asked on its own
             found = selectors.filter_series(component=component, before=finished_at)
@@ -465,9 +488,17 @@ def reading_values(readings) -> dict:
     }
 
 
-def values_evaluate(*, ahu, values: dict, slots, finished_at: dt.datetime) -> list[evaluation.Result]:
+def values_evaluate(
+    *,
+    ahu,
+    values: dict,
+    slots,
+    finished_at: dt.datetime,
+    history: Callable[[], selectors.FilterHistory] | None = None,
+) -> list[evaluation.Result]:
     """Judge a unit's form values finished at ``finished_at`` (the sync's form, and an amended inspection's
-    readings), with the filter banks' history up to that time for their change forecast."""
+    readings), with the filter banks' history up to that time for their change forecast (from ``history()``
+    when it holds them, ``filter_points_for``)."""
     components = list(ahu.components.all())
     form = evaluation.Form(
         ahu=ahu,
@@ -475,15 +506,19 @@ def values_evaluate(*, ahu, values: dict, slots, finished_at: dt.datetime) -> li
         values=values,
         slots=slots,
         finished_at=finished_at,
-        filter_points=filter_points_for(components, finished_at),
+        filter_points=filter_points_for(components, finished_at, history),
     )
     return evaluation.evaluate(form)
 
 
-def form_evaluate(parsed: Parsed) -> list[evaluation.Result]:
+def form_evaluate(parsed: Parsed, batch: Batch | None = None) -> list[evaluation.Result]:
+    """Judge a parsed form; in a request (``batch``), a unit no other form of it is for reads its filter history
+    from the request's (``Batch.filter_history``)."""
+    single = batch is not None and parsed.work_order.ahu_id in batch.single_units
     return values_evaluate(
         ahu=parsed.work_order.ahu,
         values=reading_values(parsed.readings),
         slots=parsed.checklist.slots,
         finished_at=parsed.finished_at,
+        history=batch.filter_history if single else None,
     )

@@ -343,7 +343,7 @@ def inspection_submit(
     parsed, errors, client_uuid = form_parse(user=user, raw=form, sent_at=sent_at, position=position, batch=batch)
     if parsed is None:
         return refused_result(client_uuid, errors)
-    results = form_evaluate(parsed)
+    results = form_evaluate(parsed, batch)
     return _store(parsed, user, results, batch)
 
 

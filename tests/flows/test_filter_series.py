@@ -129,3 +129,94 @@ def test_a_filter_past_its_final_value_is_due_now_on_the_phone_and_the_record_ne
     assert dt.date.fromisoformat(judged["derived"]["forecast_change_date"]) >= last_visit
     rows = dict(derived_rows(judged["derived"], "si"))
     assert rows["change forecast"] == "now: at or over its final pressure drop"
+
+
+def test_a_sync_request_s_filter_history_gives_each_form_the_series_its_own_reads_give(api_client):
+    """The sync reads its forms' filter history once per request (``filter_history_read``) and cuts it at each
+    form's finish: for any finish time (before, at and after visits and trend days, at a trend day's very end)
+    every bank's series is the one ``filter_series_for`` reads for that time, without a query of its own."""
+    import zoneinfo
+
+    from django.db import connection
+    from django.test.utils import CaptureQueriesContext
+
+    from automation.fault_models import FilterDay
+    from inspections.selectors import filter_history_read, filter_series_for
+
+    first, tech = make_visit(tasks=["filter_check"])
+    ahu = first.ahu
+    for visit in VISITS:
+        _visit(api_client, ahu, tech, *visit)
+    final = ahu.components.get(name="Final filters")
+    tz = zoneinfo.ZoneInfo(ahu.building.site.time_zone)
+    trend_days = [(DAY0 + dt.timedelta(days=d)).astimezone(tz).date() for d in (10, 100, 101, 140)]
+    for n, day in enumerate(trend_days):
+        FilterDay.objects.create(
+            component=final, day=day, corrected_dp_pa=130.0 + n, design_airflow_m3s=3.0, airflow_source="design",
+            samples=40, run_hours=1_100.0 + 100 * n,
+        )  # fmt: skip
+    day_ends = [
+        dt.datetime.combine(d + dt.timedelta(days=1), dt.time(), tzinfo=tz).astimezone(dt.UTC) for d in trend_days
+    ]
+    finishes = [DAY0 + dt.timedelta(days=v[0]) for v in VISITS]
+    cuts = [None, DAY0 - dt.timedelta(days=1), *finishes, *(t + dt.timedelta(seconds=1) for t in finishes), *day_ends]
+    cuts += [t - dt.timedelta(seconds=1) for t in day_ends] + [DAY0 + dt.timedelta(days=400)]
+    components = list(ahu.components.all())
+    history = filter_history_read(components=components)
+    for before in cuts:
+        read = filter_series_for(components=components, before=before)
+        with CaptureQueriesContext(connection) as seen:
+            held = filter_series_for(components=components, before=before, history=history)
+        assert held == read, before
+        assert len(seen) == 0, [q["sql"] for q in seen.captured_queries]
+    # The cases differ: the series grows with the cut, trend days included at their day's end, not a second before.
+    at_end = filter_series_for(components=components, before=day_ends[0], history=history)[final.pk]
+    just_before = filter_series_for(
+        components=components, before=day_ends[0] - dt.timedelta(seconds=1), history=history
+    )
+    assert len(at_end.points) == len(just_before[final.pk].points) + 1
+
+
+def _two_forms(api_client, *, together: bool) -> list[str]:
+    """A unit read once before, then two visits' forms (30 and 60 days on) sent in one request or one after the
+    other; the second form's filter judgements, as the server answered them."""
+    from tests.factories.inspections import SYNC_URL, r, sync_form
+
+    first, tech = make_visit(tasks=["filter_check"])
+    ahu = first.ahu
+    _visit(api_client, ahu, tech, 0, 1_000, 2.7, 120, None)
+    forms = []
+    for days, hours, dp in ((30, 1_300, 140), (60, 1_600, 170)):
+        wo, _ = make_visit(
+            tasks=["filter_check"], ahu=ahu, organisation=ahu.building.site.organisation, technician=tech
+        )
+        readings = [r("visit.run_hours", hours), r("visit.supply_airflow", 2700)]
+        for bank in ahu.components.filter(kind="filter_bank").order_by("pk"):
+            readings += [
+                r("filter_check.dp", dp if bank.name == "Final filters" else 60, bank),
+                r("filter_check.seated", "ok", bank),
+                r("filter_check.media", "loaded", bank),
+            ]
+        forms.append(sync_form(wo, readings, finished_at=DAY0 + dt.timedelta(days=days)))
+    api_client.force_authenticate(tech)
+    with time_machine.travel(DAY0 + dt.timedelta(days=61), tick=False):
+        batches = [forms] if together else [[f] for f in forms]
+        results = [
+            res
+            for batch in batches
+            for res in api_client.post(SYNC_URL, {"forms": batch}, format="json").json()["results"]
+        ]
+    assert [res["status"] for res in results] == ["stored", "stored"], [res["flags"] for res in results]
+    return [e["reason"] for e in results[1]["evaluation"] if e["check"] == "filter_loading"]
+
+
+def test_a_form_sees_the_filter_readings_of_an_earlier_form_of_the_same_request(api_client):
+    """Two visits of one unit in one request: the second form's forecast counts the first form's readings, as it
+    does when the two are sent apart (the request's shared filter history leaves such a unit to each form)."""
+    together = _two_forms(api_client, together=True)
+    apart = _two_forms(api_client, together=False)
+    assert together == apart and together, (together, apart)
+    # Three readings of the final filters (the earlier visit, the first form, its own): a forecast. Without the
+    # first form's reading there would be two, and "no change forecast yet".
+    [final] = [reason for reason in together if reason.startswith("Final filters")]
+    assert "change forecast 28 April 2025" in final and "no change forecast" not in final, final

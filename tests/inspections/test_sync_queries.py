@@ -94,9 +94,13 @@ def test_a_batch_costs_a_fixed_number_of_queries_plus_a_small_constant_per_form(
     assert five - two == 3 * per_form, f"1 form: {one}, 2 forms: {two}, 5 forms: {five} queries"
     # The per-form cost: the form's own writes (inspection, readings, evaluations, meter reading, the work
     # order's two moves, the answer), the checks they need and the form's one savepoint. The work orders are
-    # locked once per request and the audit events written in one insert per request; the meter reading and
-    # the completion take no savepoint of their own.
-    assert per_form <= 19, f"{per_form} queries per form"
+    # locked once per request, their units' filter history read once per request and the audit events written
+    # in one insert per request; the meter reading and the completion take no savepoint of their own.
+    assert per_form <= 15, f"{per_form} queries per form"
+    # The forms' filter history (their banks' readings, and the trends' filter days) is read once per request.
+    history = [s for s in sqls if 'FROM "inspections_reading"' in s and '"inspection__finished_at"' in s]
+    assert len(history) == 1, history
+    assert sum('FROM "automation_filterday"' in s for s in sqls) == 1, "trend filter days: one read per request"
     assert sum('INSERT INTO "accounts_auditevent"' in s for s in sqls) == 1, "audit events: one insert per request"
     # The meter reading locks its unit's row alone (no join to, and on PostgreSQL no lock of, its building and site).
     unit_reads = [s for s in sqls if s.startswith('SELECT "inventory_ahu"."id"') and '"inventory_ahu"."id" = ' in s]
