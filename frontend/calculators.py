@@ -137,7 +137,7 @@ def _filter_loading(system: str, **si) -> list[dict]:
         _row("Pressure drop at design airflow", result.corrected_dp_pa, "pressure", system),
         {
             "label": "Loading (clean = 0 %, final = 100 %)",
-            "value": format_number(result.fraction_of_span * 100, decimals=0),
+            "value": format_number(filters.loading_percent(result.fraction_of_span), decimals=0),
             "unit": "%",
         },
         {"label": "Verdict", "value": result.verdict.value, "unit": "", "verdict": result.verdict.value},

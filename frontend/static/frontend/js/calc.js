@@ -2,7 +2,7 @@
 // same functions the checklist uses (evaluate.js). Pure: no DOM, no network. The agreement test
 // (tests/inspections/test_phone_agreement.py) holds it to the server's answers.
 import {
-  EngineeringInputError, filterLoading, fractionWords, plainMessage, oaFractionFromCo2, oaFractionFromTemperatures, pyRound, sensibleHeatW,
+  EngineeringInputError, filterLoading, loadingPercent, fractionWords, plainMessage, oaFractionFromCo2, oaFractionFromTemperatures, pyRound, sensibleHeatW,
 } from "./evaluate.js";
 import { displayNumber, fixed, formatNumber, fromDisplay, render, unitLabel } from "./units.js";
 
@@ -26,7 +26,7 @@ const COMPUTE = {
     const r = filterLoading(ctx, { dp: si.dp_pa, q: si.airflow_m3s, qd: si.design_airflow_m3s, clean: si.clean_dp_pa, final: si.final_dp_pa });
     return [
       row(ctx, "Pressure drop at design airflow", r.corrected, "pressure", system),
-      { label: "Loading (clean = 0 %, final = 100 %)", value: formatNumber(r.fraction * 100, 0), unit: "%" },
+      { label: "Loading (clean = 0 %, final = 100 %)", value: formatNumber(loadingPercent(r.fraction), 0), unit: "%" },
       { label: "Verdict", value: r.verdict, unit: "", verdict: r.verdict },
       { label: "Reason", value: render(ctx, r.parts, system), unit: "" },
     ];

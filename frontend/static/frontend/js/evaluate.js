@@ -125,6 +125,12 @@ export function correctedPressureDrop(ctx, dp, q, qd) {
   return dp * r ** (-n);
 }
 
+// engineering.filters.loading_percent: the loading as kept and shown, percent of the span to one decimal; texts
+// say it whole from this same figure, so a reason and a table never differ by one.
+export function loadingPercent(fractionOfSpan) {
+  return pyRound(fractionOfSpan * 100, 1);
+}
+
 export function filterLoading(ctx, { dp, q, qd, clean, final, watchFraction = 0.75, failFraction = 0.95 }) {
   const corrected = correctedPressureDrop(ctx, dp, q, qd);
   inRange("clean_dp_pa", clean, 0, 2500, { unit: "Pa", label: "clean filter pressure drop" });
@@ -146,8 +152,9 @@ export function filterLoading(ctx, { dp, q, qd, clean, final, watchFraction = 0.
     return { corrected, fraction: frac, ofClean, bypass: true, verdict, reason, parts };
   }
   const verdict = f >= failFraction ? FAIL : f >= watchFraction ? WATCH : OK;
-  const reason = `filter ${fixed(corrected, 0)} Pa at design airflow, ${pct(frac)} % of the way from clean ${fixed(clean, 0)} Pa to final ${fixed(final, 0)} Pa (watch from ${pct(watchFraction)} %, fail from ${pct(failFraction)} %)`;
-  const parts = ["filter ", pa(corrected), ` at design airflow, ${pct(frac)} % of the way from clean `, pa(clean), " to final ", pa(final),
+  const loaded = fixed(loadingPercent(frac), 0);
+  const reason = `filter ${fixed(corrected, 0)} Pa at design airflow, ${loaded} % of the way from clean ${fixed(clean, 0)} Pa to final ${fixed(final, 0)} Pa (watch from ${pct(watchFraction)} %, fail from ${pct(failFraction)} %)`;
+  const parts = ["filter ", pa(corrected), ` at design airflow, ${loaded} % of the way from clean `, pa(clean), " to final ", pa(final),
     ` (watch from ${pct(watchFraction)} %, fail from ${pct(failFraction)} %)`];
   return { corrected, fraction: frac, ofClean, bypass: false, verdict, reason, parts };
 }
@@ -597,11 +604,11 @@ function filterChecks(form, consumed) {
       out.push(res);
       continue;
     }
-    const pct = loading.fraction * 100;
+    const pct = loadingPercent(loading.fraction);  // kept and said the same (one decimal, said whole)
     res.verdict = loading.verdict;
     res.derived = {
       dp_pa: dp, airflow_m3s: flow, airflow_source: how, design_airflow_m3s: qd,
-      corrected_dp_pa: pyRound(loading.corrected, 1), loading_pct: pyRound(pct, 1),
+      corrected_dp_pa: pyRound(loading.corrected, 1), loading_pct: pct,
       clean_dp_pa: specs.clean_dp_pa, final_dp_pa: specs.final_dp_pa,
       fraction_of_clean_pct: pyRound(loading.ofClean * 100, 1), media_bypass_suspected: loading.bypass,
     };
