@@ -92,8 +92,8 @@ def test_finding_age_buckets(days, bucket):
 def test_last_season_end_from_normals():
     """Default normals (April mean minimum 4.5 °C on 15 April, May 8.5 °C on 16 May; +0.129 K a day):
     the minimum passes 5 °C between 18 April (4.89 °C) and 19 April (5.02 °C), so last season ended 18 April."""
+    from inspections.freeze import last_season_end
     from inventory.models import Site
-    from reports.compliance import last_season_end
 
     assert last_season_end(site=Site(preheat_threshold_c=5.0), season_start=D("2025-10-25")) == D("2025-04-18")
     mild = Site(preheat_threshold_c=5.0, normals_min_c=[10.0] * 12)
@@ -103,7 +103,7 @@ def test_last_season_end_from_normals():
 def test_last_season_end_when_the_measured_start_comes_after_the_normals():
     """A measured start of 20 Nov, later than the normals' own autumn crossing (the default normals are below
     5 °C from late October): the season before still ended on 18 April, not on the day before the start."""
+    from inspections.freeze import last_season_end
     from inventory.models import Site
-    from reports.compliance import last_season_end
 
     assert last_season_end(site=Site(preheat_threshold_c=5.0), season_start=D("2025-11-20")) == D("2025-04-18")
