@@ -1,14 +1,9 @@
-"""Air-filter pressure drop: correction to design airflow, loading, forecast
-of the day the final pressure drop is reached, and the energy cost of a
-loaded filter.
-"""
+"""Air-filter pressure drop corrected to design airflow, a bank's loading and the check of new filters
+just after a change."""
 
 from __future__ import annotations
 
-import math
-from collections.abc import Sequence
 from dataclasses import dataclass
-from datetime import date, datetime, timedelta
 from typing import Any
 
 import numpy as np
@@ -16,8 +11,7 @@ import numpy.typing as npt
 
 from engineering import _validate as v
 from engineering.controls import Verdict
-from engineering.errors import EngineeringInputError, InsufficientDataError
-from engineering.trends import _as_datetime, robust_rate, run_hours_per_day
+from engineering.errors import EngineeringInputError
 
 __all__ = [
     "AFTER_CHANGE_HIGH_FAIL",
@@ -25,17 +19,11 @@ __all__ = [
     "BYPASS_FAIL_FRACTION",
     "BYPASS_WATCH_FRACTION",
     "DEFAULT_EXPONENT",
-    "EconomicChangePoint",
     "FilterAfterChange",
-    "FilterEnergy",
-    "FilterForecast",
     "FilterLoading",
-    "FilterPoint",
     "corrected_pressure_drop",
-    "economic_change_point",
+    "corrected_pressure_drops",
     "filter_after_change",
-    "filter_extra_energy",
-    "filter_forecast",
     "filter_loading",
     "loading_percent",
 ]
@@ -350,286 +338,3 @@ def filter_after_change(
         reason=f"{head}: {what} {band}",
         media_bypass_suspected=r < BYPASS_FAIL_FRACTION,
     )
-
-
-@dataclass(frozen=True)
-class FilterPoint:
-    run_hours: float
-    dp_pa: float
-    airflow_m3s: float
-    when: date | datetime
-
-
-@dataclass(frozen=True)
-class FilterForecast:
-    run_hours_at_final: float
-    date_at_final: date | datetime | None  # None when no run-hour rate is known
-    run_hours_low: float  # earliest plausible (steepest slope of the interval)
-    run_hours_high: float | None  # latest plausible; None if the slope may be ~0
-    date_low: date | datetime | None
-    date_high: date | datetime | None
-    rate_pa_per_hour: float
-    rate_low_pa_per_hour: float
-    rate_high_pa_per_hour: float
-    hours_per_day: float | None
-    points_used: int
-    method: str
-    # True when the fitted line is at or above the final pressure drop at the
-    # last reading's run-hours: the filter is due now, and every date is the
-    # last reading's (a forecast is never dated before the reading it is made from).
-    at_final_now: bool = False
-
-
-def filter_forecast(
-    *,
-    points: Sequence[FilterPoint],
-    design_airflow_m3s: float,
-    final_dp_pa: float,
-    hours_per_day: float | None = None,
-    exponent: float = DEFAULT_EXPONENT,
-    confidence: float = 0.9,
-    min_rise_pa: float = 2.0,
-) -> FilterForecast:
-    """Run-hours and date at which the filter reaches its final pressure drop.
-
-    Each reading is corrected to design airflow (``corrected_pressure_drop``),
-    then a Theil–Sen line Δp(run-hours) is fitted (scipy.stats.theilslopes,
-    Sen's ``confidence`` interval for the band) and extrapolated to
-    final_dp_pa. Readings whose airflow is too far from design are skipped.
-    Run-hours become a date with ``hours_per_day`` or, if not given, the
-    Theil–Sen run-hour rate of the readings themselves.
-
-    Refuses (InsufficientDataError) with fewer than 3 usable readings, fewer
-    than 2 distinct run-hour values, or a flat or falling trend (slope ≤ 0,
-    or a fitted rise over the readings below min_rise_pa = 2 Pa, about a
-    gauge's resolution: common practice). Pass only readings since the last
-    filter change.
-
-    No date is earlier than the last reading's: a projection that lands
-    before it (the line already at or over the final value) is given the
-    last reading's date, with ``at_final_now`` set when the central line is.
-    When the last reading itself (corrected) is at or over the final value,
-    ``at_final_now`` is set and every date is the last reading's, even if
-    the fitted line is still below the final value or no run-hour rate is known.
-    """
-    final = _dp("final_dp_pa", final_dp_pa, "final filter pressure drop")
-    n = _exponent(exponent)
-    min_rise = v.non_negative("min_rise_pa", min_rise_pa, unit="Pa")
-    hpd = (
-        None
-        if hours_per_day is None
-        else v.in_range("hours_per_day", hours_per_day, 0.0, 24.0, unit="h", label="run-hours per day", low_open=True)
-    )
-    usable: list[tuple[float, float, date | datetime]] = []
-    for i, p in enumerate(points):
-        if not isinstance(p, FilterPoint):
-            raise EngineeringInputError(
-                field=f"points[{i}]",
-                value=p,
-                allowed="a FilterPoint",
-                message=f"points[{i}]={p!r} is not a FilterPoint",
-            )
-        h = v.non_negative(f"points[{i}].run_hours", p.run_hours, unit="h", label="run-hours")
-        try:
-            dp = corrected_pressure_drop(
-                dp_pa=p.dp_pa, airflow_m3s=p.airflow_m3s, design_airflow_m3s=design_airflow_m3s, exponent=n
-            )
-        except EngineeringInputError as exc:
-            if exc.field != "airflow_m3s":
-                raise
-            continue
-        usable.append((h, dp, p.when))
-    if len(usable) < 3:
-        raise InsufficientDataError(
-            field="points",
-            value=len(usable),
-            allowed="at least 3 usable readings",
-            message=(
-                f"a filter forecast needs at least 3 usable readings (airflow within "
-                f"{AIRFLOW_RATIO[0]:g}–{AIRFLOW_RATIO[1]:g} × design); got {len(usable)}"
-            ),
-            low=3,
-        )
-    hours = [u[0] for u in usable]
-    if len(set(hours)) < 2:
-        raise InsufficientDataError(
-            field="points",
-            value=hours[0],
-            allowed="readings at 2 or more run-hour values",
-            message="all readings are at the same run-hours: no trend can be drawn",
-        )
-    rate = robust_rate(points=[(h, dp) for h, dp, _ in usable], confidence=confidence)
-    rise = rate.slope * (max(hours) - min(hours))
-    if rate.slope <= 0 or rise < min_rise:
-        raise InsufficientDataError(
-            field="points",
-            value=rate.slope,
-            allowed="a rising pressure drop",
-            message=(
-                f"the pressure drop is not rising (trend {rate.slope:.3g} Pa per run-hour, "
-                f"{rise:.1f} Pa over the readings; at least {min_rise:g} Pa needed): "
-                "no forecast can be made"
-            ),
-            low=min_rise,
-            unit="Pa",
-        )
-    at_final = rate.x_at(final)
-    early = rate.x_at(final, "high")
-    late = rate.x_at(final, "low") if rate.low > 0 else None
-
-    last_h, last_dp, last_when = max(usable, key=lambda u: u[0])
-    # The last reading itself at or over the final value: due now, whatever the
-    # fitted line says (a line below it would otherwise give a date months away).
-    over_now = round(last_dp, 9) >= final
-    if over_now:
-        at_final = min(at_final, last_h)
-        early = min(early, last_h)
-        late = last_h if late is None else min(late, last_h)
-    if hpd is None:
-        try:
-            per_day = run_hours_per_day(readings=[(w, h) for h, _, w in usable])
-            hpd = per_day.slope if per_day.slope > 0 else None
-        except InsufficientDataError:
-            hpd = None
-
-    latest = max(_as_datetime(w) for _, _, w in usable)
-
-    def to_date(h: float | None) -> date | datetime | None:
-        if h is None:
-            return None
-        if h <= last_h:  # due now: the last reading's date, with or without a run-hour rate
-            dt = latest
-            return dt if isinstance(last_when, datetime) else (dt + timedelta(hours=12)).date()
-        if hpd is None:
-            return None
-        # Never before the reading the forecast comes from (nor any reading given).
-        try:
-            dt = max(_as_datetime(last_when) + timedelta(days=max(h - last_h, 0.0) / hpd), latest)
-            if isinstance(last_when, datetime):
-                return dt
-            return (dt + timedelta(hours=12)).date()  # nearest whole day
-        except OverflowError:  # past year 9999: no date to give, as with no run-hour rate
-            return None
-
-    return FilterForecast(
-        run_hours_at_final=at_final,
-        date_at_final=to_date(at_final),
-        run_hours_low=early,
-        run_hours_high=late,
-        date_low=to_date(early),
-        date_high=to_date(late),
-        rate_pa_per_hour=rate.slope,
-        rate_low_pa_per_hour=rate.low,
-        rate_high_pa_per_hour=rate.high,
-        hours_per_day=hpd,
-        points_used=len(usable),
-        at_final_now=over_now or at_final <= last_h,
-        method=(
-            f"Theil–Sen line of pressure drop corrected to design airflow (n = {n:g}) "
-            f"against run-hours, {confidence * 100:.0f} % interval"
-        ),
-    )
-
-
-@dataclass(frozen=True)
-class FilterEnergy:
-    mean_extra_dp_pa: float
-    extra_energy_wh: float
-    extra_cost: float | None
-
-
-def filter_extra_energy(
-    *,
-    airflow_m3s: float,
-    clean_dp_pa: float,
-    final_dp_pa: float,
-    run_hours: float,
-    fan_system_efficiency: float,
-    price_per_kwh: float | None = None,
-) -> FilterEnergy:
-    """Extra fan energy over one filter life caused by its pressure rise.
-
-    E = Q · Δp_mean,extra · t / η with Δp rising linearly from clean to final,
-    so Δp_mean,extra = (Δp_final − Δp_clean)/2. Fan electric power = QΔp/η
-    (ASHRAE Handbook—HVAC Systems and Equipment, Fans chapter); the
-    linear-rise average is the approach of Eurovent 4/21's filter energy
-    rating (from memory). η is fan × motor × drive efficiency.
-    """
-    q = v.in_range("airflow_m3s", airflow_m3s, 0.0, 100.0, unit="m³/s", label="airflow")
-    clean = _dp("clean_dp_pa", clean_dp_pa, "clean filter pressure drop")
-    final = v.in_range(
-        "final_dp_pa", final_dp_pa, clean, FILTER_DP_PA[1], unit="Pa", label="final filter pressure drop"
-    )
-    t = v.non_negative("run_hours", run_hours, unit="h", label="run-hours")
-    eta = v.efficiency("fan_system_efficiency", fan_system_efficiency, "fan system efficiency")
-    extra = (final - clean) / 2.0
-    wh = q * extra * t / eta
-    cost = None
-    if price_per_kwh is not None:
-        cost = wh / 1000.0 * v.non_negative("price_per_kwh", price_per_kwh, label="energy price")
-    return FilterEnergy(mean_extra_dp_pa=extra, extra_energy_wh=wh, extra_cost=cost)
-
-
-@dataclass(frozen=True)
-class EconomicChangePoint:
-    run_hours: float  # since the last change
-    extra_cost_at_point: float
-    limited_by_final_dp: bool
-    reason: str
-
-
-def economic_change_point(
-    *,
-    rate_pa_per_hour: float,
-    airflow_m3s: float,
-    fan_system_efficiency: float,
-    price_per_kwh: float,
-    filter_set_cost: float,
-    clean_dp_pa: float | None = None,
-    final_dp_pa: float | None = None,
-) -> EconomicChangePoint:
-    """Run-hours since the last change at which the cumulative extra energy
-    cost equals the cost of a new set of filters (material plus labour).
-
-    With Δp rising linearly at rate r, the extra cost after t hours is
-    C(t) = price · Q r t² / (2 η · 1000), so C(t*) = K gives
-    t* = √(2 η K · 1000 / (price · Q · r)). For a linear rise this is also
-    the interval minimising total cost per run-hour (elementary calculus;
-    common practice in filter life-cycle costing). If clean and final Δp are
-    given and the final Δp is reached first, the final Δp governs.
-    """
-    r = v.positive("rate_pa_per_hour", rate_pa_per_hour, unit="Pa/h", label="pressure-drop rate")
-    q = v.positive("airflow_m3s", airflow_m3s, unit="m³/s", label="airflow")
-    eta = v.efficiency("fan_system_efficiency", fan_system_efficiency, "fan system efficiency")
-    price = v.positive("price_per_kwh", price_per_kwh, label="energy price")
-    k = v.positive("filter_set_cost", filter_set_cost, label="filter set cost")
-    t = math.sqrt(2.0 * eta * k * 1000.0 / (price * q * r))
-    limited = False
-    reason = f"extra fan energy costs as much as a new set ({k:g}) after {t:,.0f} run-hours"
-    if (clean_dp_pa is None) != (final_dp_pa is None):
-        raise EngineeringInputError(
-            field="final_dp_pa",
-            value=final_dp_pa,
-            allowed="both clean_dp_pa and final_dp_pa, or neither",
-            message="give both clean_dp_pa and final_dp_pa, or neither",
-        )
-    if clean_dp_pa is not None and final_dp_pa is not None:
-        clean = _dp("clean_dp_pa", clean_dp_pa, "clean filter pressure drop")
-        final = v.in_range(
-            "final_dp_pa",
-            final_dp_pa,
-            clean,
-            FILTER_DP_PA[1],
-            unit="Pa",
-            label="final filter pressure drop",
-            low_open=True,
-        )
-        t_final = (final - clean) / r
-        if t_final < t:
-            t, limited = t_final, True
-            reason = (
-                f"final pressure drop {final:.0f} Pa is reached after {t:,.0f} run-hours, "
-                "before the energy cost would pay for a new set"
-            )
-    cost = price * q * r * t * t / (2.0 * eta * 1000.0)
-    return EconomicChangePoint(run_hours=t, extra_cost_at_point=cost, limited_by_final_dp=limited, reason=reason)
