@@ -159,7 +159,7 @@ export function filterLoading(ctx, { dp, q, qd, clean, final, watchFraction = 0.
   return { corrected, fraction: frac, ofClean, bypass: false, verdict, reason, parts };
 }
 
-// A pressure as a reason part (SI), shown in the reader's unit (engineering/filters.py: _pa).
+// A pressure as a reason part (SI), shown in the reader's unit (engineering/filters/loading.py: _pa).
 function pa(value) {
   return { value, quantity: "pressure" };
 }
@@ -444,7 +444,7 @@ function coilBalance(air, water, tolerancePct) {
   const a = Math.abs(air);
   const w = Math.abs(water);
   const mean = (a + w) / 2;
-  // In words, as the server (engineering/airside.py COIL_NOTHING_TO_COMPARE): 1 W would read "0.0 kW" or "3 Btu/h".
+  // In words, as the server (engineering/airside/coil.py COIL_NOTHING_TO_COMPARE): 1 W would read "0.0 kW" or "3 Btu/h".
   if (mean < 1.0) {
     throw new EngineeringInputError("air_side_w", "both sides are below 1 W: nothing to compare", {
       parts: ["both sides carry almost no heat: nothing to compare"],
