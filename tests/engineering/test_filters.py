@@ -230,8 +230,9 @@ def test_economic_change_point_limited_by_final_pressure_drop():
 
 
 def test_the_loading_said_in_a_reason_is_the_loading_kept_for_tables():
-    """One figure: the reason says the loading whole from the one-decimal value tables show whole
-    (a reason said 55 % where the table said 54 % when each rounded on its own)."""
+    """One figure: the reason says the loading whole from the value tables show whole (a reason said 55 % where
+    the table said 54 % when the table rounded a one-decimal copy), and that figure is the true loading said whole
+    (97.48 % reads 97 %, never 98 % by rounding twice)."""
     import re
 
     from engineering.filters import filter_loading, loading_percent
@@ -241,3 +242,7 @@ def test_the_loading_said_in_a_reason_is_the_loading_kept_for_tables():
         judged = filter_loading(dp_pa=dp, airflow_m3s=1.0, design_airflow_m3s=1.0, clean_dp_pa=100.0, final_dp_pa=300.0)
         said = re.search(r"(\d+) % of the way", judged.reason)
         assert said is not None and said.group(1) == f"{loading_percent(judged.fraction_of_span):.0f}", dp
+        assert abs(float(said.group(1)) - judged.fraction_of_span * 100) <= 0.5 + 1e-9, dp
+    # 245.97 Pa between clean 90 and final 250 Pa: 97.48 % of the span, said 97 %.
+    judged = filter_loading(dp_pa=245.97, airflow_m3s=1.0, design_airflow_m3s=1.0, clean_dp_pa=90.0, final_dp_pa=250.0)
+    assert "97 % of the way" in judged.reason

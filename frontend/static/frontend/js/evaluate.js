@@ -125,10 +125,10 @@ export function correctedPressureDrop(ctx, dp, q, qd) {
   return dp * r ** (-n);
 }
 
-// engineering.filters.loading_percent: the loading as kept and shown, percent of the span to one decimal; texts
-// say it whole from this same figure, so a reason and a table never differ by one.
+// engineering.filters.loading_percent: the loading as kept and shown, percent of the span to six decimals; texts
+// and tables say it whole from this same figure (never rounded twice), so a reason and a table never differ by one.
 export function loadingPercent(fractionOfSpan) {
-  return pyRound(fractionOfSpan * 100, 1);
+  return pyRound(fractionOfSpan * 100, 6);
 }
 
 export function filterLoading(ctx, { dp, q, qd, clean, final, watchFraction = 0.75, failFraction = 0.95 }) {
