@@ -425,7 +425,7 @@ class ExportView(APIView):
             "numbers stay numbers."
         ),
         parameters=[KIND_PARAMETER, OpenApiParameter("site", str, description="only this site code")],
-        responses={(200, "text/csv"): OpenApiResponse(str), 403: R403, 404: R404},
+        responses={(200, "text/csv"): OpenApiResponse(str), 400: R400, 403: R403, 404: R404},
     )
     def get(self, request, kind: str):
         _check_kind(kind)

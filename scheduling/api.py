@@ -82,7 +82,7 @@ def _organisation_for(user, *, managing: bool = False):
 
 class WorkOrderList(APIView):
     @extend_schema(
-        responses={200: s.WorkOrderOutput(many=True)},
+        responses={200: s.WorkOrderOutput(many=True), 400: ErrorOutput},
         parameters=[OpenApiParameter("state", str), OpenApiParameter("site", str, description="site code")],
         summary="Work orders the caller may see",
     )
@@ -435,7 +435,7 @@ class TaskOverride(APIView):
 
 class MeterReadings(APIView):
     @extend_schema(
-        responses={200: s.MeterReadingOutput(many=True)},
+        responses={200: s.MeterReadingOutput(many=True), 400: ErrorOutput},  # 400: a control character in the address
         parameters=[OpenApiParameter("unit", str)],
         summary="Run-hour readings of a unit",
     )
@@ -487,7 +487,7 @@ class MeterReadings(APIView):
 
 class OutdoorTemperatures(APIView):
     @extend_schema(
-        responses={200: s.OutdoorTemperatureOutput(many=True)},
+        responses={200: s.OutdoorTemperatureOutput(many=True), 400: ErrorOutput},  # 400: a control character
         parameters=[OpenApiParameter("site", str)],
         summary="Stored outdoor temperatures of a site",
     )
