@@ -6,13 +6,13 @@ import datetime as dt
 import itertools
 from html import escape
 
+from engineering.formatting import format_number
+
 
 def axis_labels(values: list[float]) -> list[str]:
     """Axis labels at the fewest decimals (0–4) that say each value to within a tenth of the smallest gap between
     them, so 0.23 and 1.40 in. w.c. read "0.2" and "1.4" (not "0" and "1") and ticks 121.5, 122, 122.5 never all
     read "122"; numbers as every page writes them (engineering.formatting: true minus, never −0)."""
-    from engineering.formatting import format_number
-
     gaps = [abs(b - a) for a, b in itertools.pairwise(values) if abs(b - a) > 0]
     room = (min(gaps) if gaps else max(abs(v) for v in values) or 1.0) / 10
     for decimals in range(5):

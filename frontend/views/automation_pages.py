@@ -304,29 +304,18 @@ def faults(request):
         raise PermissionDenied("Only a supervisor, administrator or property manager may open the faults.")
     system = request.user.unit_system
     sites = list(sites_visible_to(user=request.user).order_by("name"))
-    chosen = None
     raw = request.GET.get("site", "")
-    if raw:
-        chosen = next((s for s in sites if str(s.pk) == raw), None)
-        if chosen is None:
-            # Named, not a bare "not found": the filter's value and what it may be (the sites listed on the page).
-            return render(
-                request,
-                "frontend/automation/faults.html",
-                {
-                    "sites": sites,
-                    "chosen": None,
-                    "active": [],
-                    "closed": [],
-                    "closed_total": 0,
-                    "managed_sites": list(sites_managed_by(user=request.user).order_by("name")),
-                    "site_problem": f"Site: {raw[:20]!r} is not one of the sites you may see; choose one of the list.",
-                },
-                status=400,
-            )
-    active = [_fault_row(f, system) for f in faults_visible_to(user=request.user, site=chosen)]
-    closed_qs = faults_visible_to(user=request.user, site=chosen, open_only=False).filter(state=Fault.State.CLOSED)
-    closed = [_fault_row(f, system) for f in closed_qs[:CLOSED_SHOWN]]
+    chosen = next((s for s in sites if str(s.pk) == raw), None) if raw else None
+    # An unknown filter value is named at the field (400), not answered with a bare "not found", and lists nothing.
+    problem = (
+        f"Site: {raw[:20]!r} is not one of the sites you may see; choose one of the list." if raw and not chosen else ""
+    )
+    active, closed, closed_total = [], [], 0
+    if not problem:
+        active = [_fault_row(f, system) for f in faults_visible_to(user=request.user, site=chosen)]
+        closed_qs = faults_visible_to(user=request.user, site=chosen, open_only=False).filter(state=Fault.State.CLOSED)
+        closed = [_fault_row(f, system) for f in closed_qs[:CLOSED_SHOWN]]
+        closed_total = closed_qs.count()
     return render(
         request,
         "frontend/automation/faults.html",
@@ -335,9 +324,11 @@ def faults(request):
             "chosen": chosen,
             "active": active,
             "closed": closed,
-            "closed_total": closed_qs.count(),
+            "closed_total": closed_total,
             "managed_sites": list(sites_managed_by(user=request.user).order_by("name")),
+            "site_problem": problem,
         },
+        status=400 if problem else 200,
     )
 
 
