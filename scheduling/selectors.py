@@ -305,12 +305,21 @@ def weekday_on_or_near(day: dt.date, *, today: dt.date) -> dt.date:
     return friday if friday >= today else day + dt.timedelta(days=7 - day.weekday())
 
 
-def _day_load(*, day: dt.date, capacity: float, visits: list[tuple[int, int, tuple[float, float]]]) -> DayLoad:
-    """``visits``: (minutes, site id, site position) per work order, first due first."""
+def _day_load(
+    *, day: dt.date, capacity: float, visits: list[tuple[int, int, tuple[float, float]]], km_of: dict | None = None
+) -> DayLoad:
+    """``visits``: (minutes, site id, site position) per work order, first due first. ``km_of``: the route
+    kilometres already worked out in this read, by the day's sites in order (many rows of a board share them)."""
     points: dict[int, tuple[float, float]] = {}
     for _, site_id, where in visits:
         points.setdefault(site_id, where)
-    km = _route_km(points)
+    if km_of is None:
+        km = _route_km(points)
+    else:
+        route = tuple(points.items())
+        km = km_of.get(route)
+        if km is None:
+            km = km_of[route] = _route_km(points)
     return DayLoad(
         date=day,
         capacity_hours=capacity,
@@ -408,9 +417,53 @@ def _skills_of(work_order: WorkOrder) -> set[str]:
     return {t.task.skill for t in work_order.tasks.all()}
 
 
-def suggested_technicians(*, organisation, days: dict[int, tuple[WorkOrder, dt.date]]) -> dict[int, tuple]:
-    """For each work order (by id: (work order with its tasks prefetched, the day it would be done)), the
-    least-loaded technician who has every skill it needs, with their day as it would be: one query for all."""
+@dataclass(frozen=True)
+class WorkNeed:
+    """What one visit asks of a technician's day: its tasks' minutes, its site and the skills its tasks name."""
+
+    minutes: int
+    site_id: int
+    where: tuple[float, float]
+    skills: frozenset[str]
+
+    @property
+    def visit(self) -> Visit_:
+        return (self.minutes, self.site_id, self.where)
+
+
+def _load_key(user, load: DayLoad, place: int) -> tuple:
+    """:func:`_least_loaded`'s order, with the candidate's place last (``min`` keeps the first of equals)."""
+    return (load.over, load.hours / max(load.capacity_hours, 0.1), str(user), place)
+
+
+def _least_loaded_for(*, techs: list, day: dt.date, visits: dict, need: WorkNeed, km_of: dict) -> tuple | None:
+    """:func:`_least_loaded` of the qualified technicians' days with the work added, working out only the routes
+    that can change the answer: a day's hours are at least its tasks' hours (travel adds, never takes away), so
+    candidates are tried from the smallest of those, and once that bound reaches the best day found no later one
+    can beat it. The same pick and the same day as working out every route."""
+    bounded = []
+    for place, user in enumerate(techs):
+        if not need.skills <= set(user.skills or []):
+            continue
+        todo = [*visits.get((user.pk, day), []), need.visit]
+        capacity = capacity_on(user, day)
+        lower = DayLoad(date=day, capacity_hours=capacity, task_minutes=sum(m for m, _, _ in todo))
+        bounded.append((_load_key(user, lower, place), user, capacity, todo))
+    bounded.sort(key=lambda b: b[0])
+    best: tuple | None = None
+    for lower_key, user, capacity, todo in bounded:
+        if best is not None and lower_key >= best[0]:
+            break
+        load = _day_load(day=day, capacity=capacity, visits=todo, km_of=km_of)
+        key = _load_key(user, load, lower_key[-1])
+        if best is None or key < best[0]:
+            best = (key, user, load)
+    return None if best is None else (best[1], best[2])
+
+
+def suggested_technicians(*, organisation, days: dict[int, tuple[WorkNeed, dt.date]]) -> dict[int, tuple]:
+    """For each work order (by id: (what it needs, the day it would be done)), the least-loaded technician who
+    has every skill it needs, with their day as it would be: two queries for all."""
     if not days:
         return {}
     first = min(d for _, d in days.values())
@@ -419,19 +472,10 @@ def suggested_technicians(*, organisation, days: dict[int, tuple[WorkOrder, dt.d
         organisation=organisation, start=first, end=last + dt.timedelta(days=1), leave_out=list(days)
     )
     techs = _technicians_of(organisation)
+    km_of: dict = {}
     out = {}
-    for pk, (wo, day) in days.items():
-        needed = _skills_of(wo)
-        extra = _visit_of(wo)
-        candidates = [
-            (
-                u,
-                _day_load(day=day, capacity=capacity_on(u, day), visits=[*visits.get((u.pk, day), []), extra]),
-            )
-            for u in techs
-            if needed <= set(u.skills or [])
-        ]
-        pick = _least_loaded(candidates)
+    for pk, (need, day) in days.items():
+        pick = _least_loaded_for(techs=techs, day=day, visits=visits, need=need, km_of=km_of)
         if pick is not None:
             out[pk] = pick
     return out
@@ -544,22 +588,40 @@ def board_suggestions(*, organisation, rows: list[dict]) -> list[dict]:
     its :func:`offered_day` at its site; None when nobody has the skills. Assigned rows get None. The board page
     and the API alike. A constant number of queries whatever the rows."""
     open_ids = [r["id"] for r in rows if r["assignee"] is None]
-    orders = (
+    # One joined read of the rows' work orders with their tasks' minutes and skills (plain rows, no instances).
+    orders: dict[int, dict] = {}
+    for r in (
         WorkOrder.objects.filter(public_id__in=open_ids)
-        .select_related("ahu__building__site")
-        .prefetch_related(Prefetch("tasks", queryset=WorkOrderTask.objects.select_related("task")))
-    )
+        .order_by("id", "tasks__id")
+        .values(
+            "id",
+            "public_id",
+            "scheduled_for",
+            "due_date",
+            "ahu__building__site_id",
+            "ahu__building__site__latitude",
+            "ahu__building__site__longitude",
+            "ahu__building__site__time_zone",
+            "tasks__task__estimated_minutes",
+            "tasks__task__skill",
+        )
+    ):
+        wo = orders.setdefault(r["id"], {**r, "minutes": 0, "skills": set()})
+        if r["tasks__task__estimated_minutes"] is not None:
+            wo["minutes"] += r["tasks__task__estimated_minutes"]
+            wo["skills"].add(r["tasks__task__skill"])
     site_today: dict[int, dt.date] = {}
-    days = {}
-    for wo in orders:
-        site = wo.ahu.building.site
-        if site.pk not in site_today:
-            site_today[site.pk] = today_for(site)
-        today = site_today[site.pk]
-        day = offered_day(scheduled_for=wo.scheduled_for, due_date=wo.due_date, today=today)
+    days: dict[int, tuple[WorkNeed, dt.date]] = {}
+    for pk, wo in orders.items():
+        site_id = wo["ahu__building__site_id"]
+        if site_id not in site_today:
+            site_today[site_id] = today_for(wo["ahu__building__site__time_zone"] or "UTC")  # as today_for(site)
+        today = site_today[site_id]
+        day = offered_day(scheduled_for=wo["scheduled_for"], due_date=wo["due_date"], today=today)
         if date_problem(day, label="day", today=today) is None:
-            days[wo.pk] = (wo, day)
-    by_public = {wo.public_id: pk for pk, (wo, _) in days.items()}
+            where = (wo["ahu__building__site__latitude"], wo["ahu__building__site__longitude"])
+            days[pk] = (WorkNeed(wo["minutes"], site_id, where, frozenset(wo["skills"])), day)
+    by_public = {wo["public_id"]: pk for pk, wo in orders.items() if pk in days}
     picks = suggested_technicians(organisation=organisation, days=days)
     for r in rows:
         pick = picks.get(by_public.get(r["id"])) if r["assignee"] is None else None
@@ -577,13 +639,32 @@ def work_orders_to_verify(*, organisation, limit: int = 100) -> QuerySet[WorkOrd
 
 
 TO_VERIFY_FIELDS = ("id", "title", "unit", "site", "assignee", "completed_at", "version")
+_TO_VERIFY_COLUMNS = (
+    "public_id",
+    "title",
+    "ahu_id",
+    "ahu__tag",
+    "ahu__label_code",
+    "ahu__building_id",
+    "ahu__building__name",
+    "ahu__building__site_id",
+    "ahu__building__site__code",
+    "ahu__building__site__name",
+    "assignee_id",
+    "assignee__username",
+    "assignee__first_name",
+    "assignee__last_name",
+    "completed_at",
+    "version",
+)
 
 
 def to_verify_rows(*, organisation, limit: int = 100) -> list[dict]:
-    """:func:`work_orders_to_verify` in the board API's plain shape."""
+    """:func:`work_orders_to_verify` in the board API's plain shape: the same rows in the same order, read as
+    plain rows of the columns the shape names (no model instances)."""
     return [
-        shapes.work_order_shape(wo, fields=TO_VERIFY_FIELDS, unit=shapes.unit_ref, site=shapes.site_ref)
-        for wo in work_orders_to_verify(organisation=organisation, limit=limit)
+        shapes.work_order_shape(row, fields=TO_VERIFY_FIELDS, unit=shapes.unit_ref, site=shapes.site_ref)
+        for row in work_orders_to_verify(organisation=organisation, limit=limit).values(*_TO_VERIFY_COLUMNS)
     ]
 
 
