@@ -310,16 +310,8 @@ def _day_load(
 ) -> DayLoad:
     """``visits``: (minutes, site id, site position) per work order, first due first. ``km_of``: the route
     kilometres already worked out in this read, by the day's sites in order (many rows of a board share them)."""
-    points: dict[int, tuple[float, float]] = {}
-    for _, site_id, where in visits:
-        points.setdefault(site_id, where)
-    if km_of is None:
-        km = _route_km(points)
-    else:
-        route = tuple(points.items())
-        km = km_of.get(route)
-        if km is None:
-            km = km_of[route] = _route_km(points)
+    points = _points_of(visits)
+    km = _route_km(points) if km_of is None else _known_km(points, km_of)
     return DayLoad(
         date=day,
         capacity_hours=capacity,
@@ -436,18 +428,58 @@ def _load_key(user, load: DayLoad, place: int) -> tuple:
     return (load.over, load.hours / max(load.capacity_hours, 0.1), str(user), place)
 
 
+def _points_of(visits: list[Visit_]) -> dict[int, tuple[float, float]]:
+    points: dict[int, tuple[float, float]] = {}
+    for _, site_id, where in visits:
+        points.setdefault(site_id, where)
+    return points
+
+
+def _known_km(points: dict[int, tuple[float, float]], km_of: dict) -> float:
+    route = tuple(points.items())
+    km = km_of.get(route)
+    if km is None:
+        km = km_of[route] = _route_km(points)
+    return km
+
+
+def _least_travel_km(*, day_visits: list[Visit_], need: WorkNeed, km_of: dict) -> float:
+    """At most the kilometres of the day's route once ``need`` is added (:func:`_route_km`), from the day's route
+    without it: adding a site to a route from the same first site never shortens the shortest one (the triangle
+    inequality of great-circle distances), less what rounding each leg to 10 m can take away. Nothing is known
+    where the order would not be exact (more than ``routing.EXACT_LIMIT`` sites): 0."""
+    points = _points_of(day_visits)
+    if not points:
+        return 0.0
+    if need.site_id in points:
+        return _known_km(points, km_of)  # the same sites in the same order: the same route
+    if len(points) + 1 > routing.EXACT_LIMIT:
+        return 0.0
+    return max(0.0, _known_km(points, km_of) - 0.01 * (len(points) + 2))
+
+
 def _least_loaded_for(*, techs: list, day: dt.date, visits: dict, need: WorkNeed, km_of: dict) -> tuple | None:
     """:func:`_least_loaded` of the qualified technicians' days with the work added, working out only the routes
-    that can change the answer: a day's hours are at least its tasks' hours (travel adds, never takes away), so
-    candidates are tried from the smallest of those, and once that bound reaches the best day found no later one
-    can beat it. The same pick and the same day as working out every route."""
+    that can change the answer. A day with the work added takes at least its tasks' hours and the drive of the
+    day's route without it (:func:`_least_travel_km`), so candidates are tried from the smallest of those bounds,
+    and once the bound reaches the best day found no later one can beat it. The same pick and the same day as
+    working out every route (the order's key is the same, with the candidate's place to keep the first of equals).
+    """
     bounded = []
     for place, user in enumerate(techs):
         if not need.skills <= set(user.skills or []):
             continue
-        todo = [*visits.get((user.pk, day), []), need.visit]
+        day_visits = visits.get((user.pk, day), [])
+        todo = [*day_visits, need.visit]
         capacity = capacity_on(user, day)
-        lower = DayLoad(date=day, capacity_hours=capacity, task_minutes=sum(m for m, _, _ in todo))
+        km = _least_travel_km(day_visits=day_visits, need=need, km_of=km_of)
+        lower = DayLoad(
+            date=day,
+            capacity_hours=capacity,
+            task_minutes=sum(m for m, _, _ in todo),
+            travel_km=km,
+            travel_minutes=routing.drive_minutes(km),
+        )
         bounded.append((_load_key(user, lower, place), user, capacity, todo))
     bounded.sort(key=lambda b: b[0])
     best: tuple | None = None
@@ -674,9 +706,12 @@ def _today_orders(*, technician, day: dt.date) -> QuerySet[WorkOrder]:
     ).filter(Q(scheduled_for=day) | Q(scheduled_for__isnull=True, due_date__lte=day))
 
 
-@functools.lru_cache(maxsize=512)
+@functools.lru_cache(maxsize=4096)
 def _suggest_order(origin: tuple[float, float], coords: tuple[tuple[float, float], ...]) -> tuple[int, ...]:
-    # The exact order of 10 stops costs milliseconds and a phone asks for the same day again and again.
+    # The exact order of 10 stops costs milliseconds and a phone asks for the same day again and again. A board
+    # of 5,000 units works out about 170 routes (every technician's days, and the candidates' days with a visit
+    # added) and each organisation's board its own: kept for several boards, a board built again after a change
+    # finds its unchanged days here (at most about 1 kB a route).
     return tuple(routing.suggest_order(start=origin, stops=coords))
 
 
