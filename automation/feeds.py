@@ -69,7 +69,7 @@ class RunHours:
     note: str = ""
 
 
-def _running(trends: UnitTrends, at: np.ndarray) -> np.ndarray | None:
+def fan_running(trends: UnitTrends, at: np.ndarray) -> np.ndarray | None:
     """Whether the supply fan ran at each of ``at`` (epoch seconds); None when no fan point has samples."""
     status, speed = trends.of("supply_fan_status"), trends.of("supply_fan_speed")
     with np.errstate(invalid="ignore"):
@@ -96,7 +96,7 @@ def running_seconds(samples: Samples, *, since: float, until: float, on) -> floa
     return float(np.sum((finish - begin)[mask]))
 
 
-def _fan_of(trends: UnitTrends):
+def fan_of(trends: UnitTrends):
     """(supply fan point, its samples, the test of "running") from the status point, else the speed command."""
     for role, on in (
         ("supply_fan_status", lambda v: v > 0.5),
@@ -161,7 +161,7 @@ def run_hours_feed(
     """
     from scheduling.services import meter_reading_record
 
-    point, samples, on = _fan_of(trends)
+    point, samples, on = fan_of(trends)
     if point is None or samples is None:
         return None
     fan = point.component
@@ -261,7 +261,7 @@ def filter_feed(
         lo, hi = trends.start.timestamp(), trends.end.timestamp()
         keep = (samples.seconds >= lo) & (samples.seconds < hi) & np.isfinite(samples.values)
         at, dp = samples.seconds[keep], samples.values[keep]
-        running = _running(trends, at)
+        running = fan_running(trends, at)
         if running is not None:
             at, dp = at[running], dp[running]
         q, how = _airflow(trends, at)

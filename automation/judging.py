@@ -46,7 +46,9 @@ from engineering.faults import (
     FreezeEvent,
     FreezeStage,
     evaluate_ahu,
+    evaluate_ahus,
     freeze_events,
+    freeze_events_batch,
     resample,
 )
 from engineering.faults.consequences import consequence_text
@@ -56,7 +58,7 @@ from inventory.today import today_for
 
 from .fault_findings import fault_finding_close, fault_finding_keep
 from .fault_models import Fault
-from .feeds import _fan_of, filter_days_forecast, filter_feed, run_hours_feed
+from .feeds import fan_of, filter_days_forecast, filter_feed, run_hours_feed
 from .models import Point
 from .series import EXTRA_ROLES, Samples, UnitTrends, samples_for, site_day_window, unit_trends
 
@@ -195,50 +197,121 @@ def _series(trends: UnitTrends, start: float) -> dict:
     return out
 
 
-def faults_judge(*, trends: UnitTrends, step_s: float | None = None) -> tuple[AhuFaults | None, str]:
-    """The unit's day judged by FC#1–#15 (None and why when it cannot be)."""
-    step = step_s or _step_s(trends)
-    start = (trends.start - LEAD).timestamp()
-    series = _series(trends, start)
+def _fault_series(trends: UnitTrends, step: float) -> tuple[dict | None, str]:
+    """What FC#1–#15 read of the unit's day, as ``resample`` takes it (None and why when there is nothing)."""
+    series = _series(trends, (trends.start - LEAD).timestamp())
     day_start = trends.start.timestamp()
     if not any((times >= day_start).any() for times, _values in series.values()):
         return None, "no trend samples that day of any point the fault rules read"
-    ahu = trends.ahu
-    series["min_oa_fraction"] = float(ahu.design_min_oa_fraction)
+    series["min_oa_fraction"] = float(trends.ahu.design_min_oa_fraction)
     damper = trends.of("oa_damper")
     if "oa_damper" in series and damper is not None:
-        from .feeds import _running
+        from .feeds import fan_running
 
-        running = _running(trends, damper.seconds)
+        running = fan_running(trends, damper.seconds)
         seen = damper.values[np.isfinite(damper.values) & (running if running is not None else True)]
         if seen.size:
             series["oa_damper_min"] = float(np.clip(seen.min(), 0.0, 1.0))
-    try:
-        grid = resample(series=series, step_s=step, start=start, end=trends.end.timestamp() - step)
-        return evaluate_ahu(times=grid.times, points=grid.points, thresholds=G36_DEFAULTS), ""
-    except EngineeringInputError as exc:
-        return None, f"not judged: {exc}"
+    return series, ""
 
 
-def freeze_judge(*, trends: UnitTrends, step_s: float | None = None) -> tuple[FreezeEvent, ...]:
-    """Freeze events of the supply air and of the air after a preheater, over the day (not its lead)."""
-    step = step_s or _step_s(trends)
-    events: list[FreezeEvent] = []
-    for role in ("sat", "preheat_leaving"):
-        s = trends.of(role)
-        if s is None or s.seconds.size == 0:
+@dataclass(frozen=True)
+class RulesDay:
+    """What the guideline's rules found in one unit's day (no writes): FC#1–#15 (None and why when they could not
+    judge it) and the freeze events of the supply air and of the air after a preheater."""
+
+    faults: AhuFaults | None
+    why: str
+    freeze: tuple[FreezeEvent, ...]
+
+
+def _grid_key(grid) -> tuple:
+    return (grid.step_s, grid.times[0], len(grid.times), tuple(sorted(grid.points)))
+
+
+def _stacked(grids: list) -> dict[str, np.ndarray]:
+    """Units' grids of one time base and one set of roles as units × samples arrays (a constant as its row)."""
+    n = len(grids[0].times)
+    return {
+        role: np.stack([np.broadcast_to(np.asarray(g.points[role], dtype=np.float64), (n,)) for g in grids])
+        for role in grids[0].points
+    }
+
+
+def rules_judge(trends: list[UnitTrends]) -> list[RulesDay]:
+    """Each unit's day judged by FC#1–#15 (``engineering.faults.evaluate_ahus``) and for freeze events
+    (``freeze_events_batch``), in order. Each unit's points are put on its own grid (``resample``: its step the
+    median logging interval of its points); units whose grids share the time base and the points judged are
+    judged in one vectorised pass, as each would be alone (a pass refused falls back to one unit at a time, so
+    a refusal names the unit's own problem)."""
+    steps = [_step_s(t) for t in trends]
+    faults: list[AhuFaults | None] = [None] * len(trends)
+    why = [""] * len(trends)
+    groups: dict[tuple, list[tuple[int, object]]] = {}
+    for i, (t, step) in enumerate(zip(trends, steps, strict=True)):
+        series, why[i] = _fault_series(t, step)
+        if series is None:
             continue
         try:
             grid = resample(
-                series={"sat": (s.seconds, s.values)},
-                step_s=step,
-                start=trends.start.timestamp(),
-                end=trends.end.timestamp() - step,
+                series=series, step_s=step, start=(t.start - LEAD).timestamp(), end=t.end.timestamp() - step
             )
-            events += freeze_events(times=grid.times, temperature_c=grid.points["sat"])
-        except EngineeringInputError:
+        except EngineeringInputError as exc:
+            why[i] = f"not judged: {exc}"
             continue
-    return tuple(sorted(events, key=lambda e: (float(e.start), e.below_c)))
+        groups.setdefault(_grid_key(grid), []).append((i, grid))
+    for members in groups.values():
+        grids = [g for _i, g in members]
+        try:
+            judged = evaluate_ahus(times=grids[0].times, points=_stacked(grids), thresholds=G36_DEFAULTS)
+        except EngineeringInputError:
+            judged = []
+            for i, g in members:
+                try:
+                    judged.append(evaluate_ahu(times=g.times, points=g.points, thresholds=G36_DEFAULTS))
+                except EngineeringInputError as exc:
+                    judged.append(None)
+                    why[i] = f"not judged: {exc}"
+        for (i, _g), result in zip(members, judged, strict=True):
+            faults[i] = result
+    freeze = _freeze_judge(trends, steps)
+    return [RulesDay(faults=f, why=w, freeze=e) for f, w, e in zip(faults, why, freeze, strict=True)]
+
+
+def _freeze_judge(trends: list[UnitTrends], steps: list[float]) -> list[tuple[FreezeEvent, ...]]:
+    """Freeze events of each unit's supply air and air after a preheater, over the day (not its lead); the air of
+    units of one time base judged at once."""
+    events: list[list[FreezeEvent]] = [[] for _ in trends]
+    groups: dict[tuple, list[tuple[int, object]]] = {}
+    for i, (t, step) in enumerate(zip(trends, steps, strict=True)):
+        for role in ("sat", "preheat_leaving"):
+            s = t.of(role)
+            if s is None or s.seconds.size == 0:
+                continue
+            try:
+                grid = resample(
+                    series={"sat": (s.seconds, s.values)},
+                    step_s=step,
+                    start=t.start.timestamp(),
+                    end=t.end.timestamp() - step,
+                )
+            except EngineeringInputError:
+                continue
+            groups.setdefault(_grid_key(grid), []).append((i, grid))
+    for members in groups.values():
+        grids = [g for _i, g in members]
+        try:
+            found = freeze_events_batch(times=grids[0].times, temperature_c=_stacked(grids)["sat"])
+        except EngineeringInputError:
+            found = []
+            for _i, g in members:
+                try:
+                    found.append(freeze_events(times=g.times, temperature_c=g.points["sat"]))
+                except EngineeringInputError:
+                    found.append(())
+        for (i, _g), unit_events in zip(members, found, strict=True):
+            events[i] += unit_events
+    return [tuple(sorted(e, key=lambda e: (float(e.start), e.below_c))) for e in events]
 
 
 # ---------------------------------------------------------------------------
@@ -535,6 +608,21 @@ def _audit(by, fault: Fault, action: str, changes: dict) -> None:
 # ---------------------------------------------------------------------------
 
 
+def unit_points(ahu: AHU, points: list[Point] | None = None) -> list[Point]:
+    """The unit's mapped points (read when not given), each part's unit the one already read (its site's zone and
+    organisation) for every part's reader."""
+    points = list(points if points is not None else Point.objects.filter(ahu=ahu).select_related("component"))
+    for p in points:
+        if p.component is not None and p.component.ahu_id == ahu.pk:
+            p.component.ahu = ahu
+    return points
+
+
+def unit_day_trends(*, ahu: AHU, points: list[Point], reads: SiteDayReads) -> UnitTrends:
+    """The unit's day (with its lead) from what ``site_day_reads`` read for its site."""
+    return unit_trends(ahu=ahu, start=reads.start, end=reads.end, lead=LEAD, points=points, samples=reads.samples)
+
+
 @transaction.atomic
 def unit_day_judge(
     *,
@@ -543,24 +631,30 @@ def unit_day_judge(
     points: list[Point] | None = None,
     reads: SiteDayReads | None = None,
     forecast_later: list | None = None,
+    trends: UnitTrends | None = None,
+    rules: RulesDay | None = None,
     by=None,
 ) -> UnitDay:
     """Judge one unit's site-local ``day`` of trends: feeds, faults, freeze events; idempotent. ``reads``: what
     ``site_day_reads`` read for the unit's site that day, in the caller's transaction (read here when None).
     ``forecast_later``: where to leave the filter days whose forecast words the caller adds for the whole site
-    (``feeds.filter_feed``); worded here when None."""
+    (``feeds.filter_feed``); worded here when None. ``trends`` and ``rules``: the unit's day as
+    ``unit_day_trends`` gives it and what ``rules_judge`` found in it, when the caller judged many units' days at
+    once (both from ``reads``); else made here."""
     from accounts.changes import organisation_changed
 
-    points = list(points if points is not None else Point.objects.filter(ahu=ahu).select_related("component"))
-    for p in points:
-        if p.component is not None and p.component.ahu_id == ahu.pk:
-            p.component.ahu = ahu  # the unit already read (its site's zone, organisation) for every part's reader
-    if reads is None:
-        reads = site_day_reads(units=[ahu], points_of={ahu.pk: points}, day=day)
+    if trends is None:
+        points = unit_points(ahu, points)
+        if reads is None:
+            reads = site_day_reads(units=[ahu], points_of={ahu.pk: points}, day=day)
+        trends = unit_day_trends(ahu=ahu, points=points, reads=reads)
+    elif reads is None:
+        raise ValueError("unit_day_judge(trends=…) needs the reads the trends were made from")
+    if rules is None:
+        rules = rules_judge([trends])[0]
     start, end = reads.start, reads.end
-    trends = unit_trends(ahu=ahu, start=start, end=end, lead=LEAD, points=points, samples=reads.samples)
     out = UnitDay(ahu=ahu, day=day)
-    fan_point, _, _ = _fan_of(trends)
+    fan_point, _, _ = fan_of(trends)
     meter = reads.meters.get(fan_point.component.pk) if fan_point is not None else None
     out.run_hours = run_hours_feed(trends=trends, by=by, meter=meter, unit_locked=True)
     if out.run_hours is not None and out.run_hours.note and out.run_hours.reading is None:
@@ -574,11 +668,9 @@ def unit_day_judge(
         forecast_later=forecast_later,
         by=by,
     )
-    step = _step_s(trends)
-    out.faults, why = faults_judge(trends=trends, step_s=step)
-    if why:
-        out.notes.append(why)
-    out.freeze = freeze_judge(trends=trends, step_s=step)
+    out.faults, out.freeze = rules.faults, rules.freeze
+    if rules.why:
+        out.notes.append(rules.why)
     seen: list[Seen] = []
     judged: set[str] = set()
     if out.faults is not None:
@@ -627,17 +719,30 @@ def trends_judge(*, site: Site, start: dt.date, end: dt.date, by=None) -> JudgeR
     points_of: dict[int, list[Point]] = {}
     for p in Point.objects.filter(ahu__in=units).select_related("component"):
         points_of.setdefault(p.ahu_id, []).append(p)
+    for ahu in units:
+        points_of[ahu.pk] = unit_points(ahu, points_of.get(ahu.pk, []))
     day = start
     while day <= end:
         # One transaction a site-day, each unit's day a savepoint in it; the organisation's answers move once.
         with transaction.atomic(), changes_deferred():
             reads = site_day_reads(units=units, points_of=points_of, day=day) if units else None
+            # Every unit's day judged by the rules first (no writes; units alike judged at once), then kept unit by
+            # unit.
+            day_trends = [unit_day_trends(ahu=ahu, points=points_of.get(ahu.pk, []), reads=reads) for ahu in units]
+            found = rules_judge(day_trends)
             to_forecast: list = []  # the stored filter days of units judged, worded for the site at the end
-            for ahu in units:
+            for ahu, trends, rules in zip(units, day_trends, found, strict=True):
                 mine: list = []
                 try:
                     judged = unit_day_judge(
-                        ahu=ahu, day=day, points=points_of.get(ahu.pk, []), reads=reads, forecast_later=mine, by=by
+                        ahu=ahu,
+                        day=day,
+                        points=trends.points,
+                        reads=reads,
+                        forecast_later=mine,
+                        trends=trends,
+                        rules=rules,
+                        by=by,
                     )
                 except (ValidationError, EngineeringInputError) as exc:
                     # One unit's refused write (its day rolled back) never stops the site's other units.

@@ -69,13 +69,13 @@ def role_of(point: Point, component: Component | None = None) -> str | None:
 
 def unit_roles(points: Iterable[Point]) -> dict[str, Point]:
     """{role: point} of one unit's points; the first point by the table's order (then by name) takes a role."""
-    points = sorted(points, key=lambda p: p.name)
+    named = [(p, role_of(p)) for p in sorted(points, key=lambda p: p.name)]  # each point's role found once
     out: dict[str, Point] = {}
     for rule in POINT_ROLES:
         if rule.role in out:
             continue
-        for p in points:
-            if p.brick_class == rule.brick_class and role_of(p) == rule.role:
+        for p, role in named:
+            if p.brick_class == rule.brick_class and role == rule.role:
                 out[rule.role] = p
                 break
     return out
@@ -137,15 +137,22 @@ def samples_for(*, points: list[Point], since: dt.datetime, until: dt.datetime) 
         .order_by("point_id", "day")
         .values_list("point_id", "day", "seconds", "values")
     )
+    bases: dict[dt.date, float] = {}
     for point_id, day, secs, vals in rows:
-        base = dt.datetime.combine(day, dt.time(), tzinfo=dt.UTC).timestamp()
-        s = np.frombuffer(bytes(secs), dtype=np.uint32).astype(np.float64) + base
-        v = np.frombuffer(bytes(vals), dtype=np.float64) * scale[point_id]
-        keep = (s >= lo) & (s < hi)
-        out[point_id].append((s[keep], v[keep]))
+        base = bases.get(day)
+        if base is None:
+            base = bases[day] = dt.datetime.combine(day, dt.time(), tzinfo=dt.UTC).timestamp()
+        s = np.frombuffer(secs, dtype=np.uint32) + base  # float64: the buffers are read, not copied
+        v = np.frombuffer(vals, dtype=np.float64) * scale[point_id]  # a new array (the buffer is read-only)
+        if s.size and (s[0] < lo or s[-1] >= hi):  # a bucket reaching out of the window (in time order)
+            keep = (s >= lo) & (s < hi)
+            s, v = s[keep], v[keep]
+        out[point_id].append((s, v))
     result = {}
     for pk, parts in out.items():
-        if parts:
+        if len(parts) == 1:
+            s, v = parts[0]
+        elif parts:
             s = np.concatenate([a for a, _ in parts])
             v = np.concatenate([b for _, b in parts])
         else:

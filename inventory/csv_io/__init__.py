@@ -37,6 +37,7 @@ from .file_format import (
     ImportFailed,
     ImportResult,
     RowError,
+    binary_problem,
     decode_upload,
     header,
 )
@@ -49,6 +50,7 @@ __all__ = [
     "ImportFailed",
     "ImportResult",
     "RowError",
+    "binary_problem",
     "control_character_errors",
     "data_rows",
     "decode_upload",

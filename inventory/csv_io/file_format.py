@@ -215,11 +215,60 @@ def header(kind: str) -> list[str]:
 
 
 def decode_upload(data: bytes) -> TextIO:
-    """Text stream of an uploaded file; UTF-8 with or without a byte-order mark (spreadsheets add one)."""
+    """Text stream of an uploaded file; UTF-8 with or without a byte-order mark (spreadsheets add one).
+
+    A file that is not text at all (``binary_problem``) is refused in one sentence saying what it seems to be; a
+    text file that is not UTF-8 names the line and byte where it stops being UTF-8."""
+    problem = binary_problem(data)
+    if problem:
+        raise ImportFailed([RowError(1, "", visible(data[:8].decode("latin-1")), problem)])
     try:
         return io.StringIO(data.decode("utf-8-sig"), newline="")
     except UnicodeDecodeError as exc:
-        raise ImportFailed([RowError(0, "", "", f"the file is not UTF-8 text ({exc.reason} at byte {exc.start})")])
+        line = data.count(b"\n", 0, exc.start) + 1
+        start = data.rfind(b"\n", 0, exc.start) + 1
+        shown = data[start : exc.start].decode("utf-8", "replace")[-40:]
+        bad = " ".join(f"0x{b:02x}" for b in data[exc.start : exc.end])
+        raise ImportFailed(
+            [
+                RowError(
+                    line,
+                    "",
+                    visible(shown + "".join(f"\\x{b:02x}" for b in data[exc.start : exc.end])),
+                    f"the file is not UTF-8 text: byte {bad} on line {line} (byte {exc.start + 1} of the file: "
+                    f"{exc.reason})",
+                )
+            ]
+        ) from None
+
+
+# The first bytes of files that are not CSV text, and what they are.
+_BINARY_LEADS = (
+    (b"PK\x03\x04", "a spreadsheet workbook (.xlsx, .ods) or another zip archive"),
+    (b"\xd0\xcf\x11\xe0", "an older spreadsheet workbook (.xls) or another Office document"),
+    (b"%PDF", "a PDF document"),
+    (b"\x89PNG", "a PNG image"),
+    (b"\xff\xd8\xff", "a JPEG image"),
+    (b"GIF8", "a GIF image"),
+    (b"\xff\xfe\x00\x00", "UTF-32 text"),
+    (b"\x00\x00\xfe\xff", "UTF-32 text"),
+    (b"\xff\xfe", "UTF-16 text (a spreadsheet's “Unicode text”)"),
+    (b"\xfe\xff", "UTF-16 text (a spreadsheet's “Unicode text”)"),
+)
+NOT_TEXT_ALLOWED = "allowed: a CSV file saved as UTF-8 text (in a spreadsheet: Save as, CSV UTF-8)"
+
+
+def binary_problem(data: bytes) -> str:
+    """Why ``data`` is no CSV text at all, with what is allowed ("" when it may be text): a workbook, a PDF or an
+    image by its first bytes, UTF-16 or UTF-32 text by its byte-order mark, or binary data by its NUL bytes (more
+    than one in a hundred of the first 4 kB; a NUL in one cell of a text file is named with its cell instead)."""
+    for lead, what in _BINARY_LEADS:
+        if data.startswith(lead):
+            return f"the file is {what}, not CSV text; {NOT_TEXT_ALLOWED}"
+    head = data[:4096]
+    if head.count(0) > max(1, len(head) // 100):
+        return f"the file holds binary data (NUL bytes), not CSV text; {NOT_TEXT_ALLOWED}"
+    return ""
 
 
 BYTE_ORDER_MARK = "\ufeff"
