@@ -11,9 +11,9 @@ class AutomationConfig(AppConfig):
         from scheduling.signals import work_order_moved
 
         from . import judging_tasks  # noqa: F401 (registers the judging tasks with Celery)
+        from .fault_keeping import freeze_blockers
+        from .fault_keeping import work_order_moved as faults_follow
         from .fault_selectors import filter_series_points
-        from .judging import freeze_blockers
-        from .judging import work_order_moved as faults_follow
 
         work_order_moved.connect(faults_follow, dispatch_uid="automation.judging.work_order_moved")
         freeze_event_source_register(freeze_blockers)

@@ -35,7 +35,8 @@ from .models import BacnetDevice, Point, PointPoll
 
 # The one store of samples (day buckets merged, a sample at a stored second replaced, the point's last value and
 # its stale flag set), shared with the trend import.
-from .trends import plausible_words, trend_samples_store
+from .trend_cells import plausible_words
+from .trend_store import trend_samples_store
 from .vocabulary import PointUnit, plausible_range, point_class_phrase
 
 # A device is due this much before its interval has quite passed: beat runs each minute, and a poll that started

@@ -5,7 +5,7 @@ from rest_framework import serializers
 from inventory.serializers import FileImportJobOutput, NamesValueMixin
 
 from .models import BacnetObjectType, Point, TrendImportJob
-from .trends import LAYOUTS, UNIT_SYSTEMS, UNITS_UNCHANGED, units_choice_label, units_problem
+from .trend_cells import LAYOUTS, UNIT_SYSTEMS, UNITS_UNCHANGED, units_choice_label, units_problem
 from .vocabulary import POINT_CLASSES, PointUnit
 
 _ID = {"min_value": 1, "max_value": 2**63 - 1}
