@@ -22,6 +22,7 @@ Re-running a day replaces that day's evidence and adds nothing twice.
 from __future__ import annotations
 
 import datetime as dt
+import functools
 from dataclasses import dataclass, field
 
 from django.core.exceptions import ValidationError
@@ -163,12 +164,38 @@ def unit_day_judge(
     rules: RulesDay | None = None,
     by=None,
 ) -> UnitDay:
+    """``unit_day_judged`` in a savepoint of its own: a refused write takes back the unit's day alone."""
+    return unit_day_judged(
+        ahu=ahu,
+        day=day,
+        points=points,
+        reads=reads,
+        forecast_later=forecast_later,
+        trends=trends,
+        rules=rules,
+        by=by,
+    )
+
+
+def unit_day_judged(
+    *,
+    ahu: AHU,
+    day: dt.date,
+    points: list[Point] | None = None,
+    reads: SiteDayReads | None = None,
+    forecast_later: list | None = None,
+    trends: UnitTrends | None = None,
+    rules: RulesDay | None = None,
+    by=None,
+    careful: bool = True,
+) -> UnitDay:
     """Judge one unit's site-local ``day`` of trends: feeds, faults, freeze events; idempotent. ``reads``: what
     ``site_day_reads`` read for the unit's site that day, in the caller's transaction (read here when None).
     ``forecast_later``: where to leave the filter days whose forecast words the caller adds for the whole site
     (``feeds.filter_feed``); worded here when None. ``trends`` and ``rules``: the unit's day as
     ``unit_day_trends`` gives it and what ``rules_judge`` found in it, when the caller judged many units' days at
-    once (both from ``reads``); else made here."""
+    once (both from ``reads``); else made here. ``careful`` False (the caller's fast pass, in its savepoint): a
+    meter's first day without a savepoint of its own (``feeds.run_hours_feed``)."""
     from accounts.changes import organisation_changed
 
     if trends is None:
@@ -184,7 +211,7 @@ def unit_day_judge(
     out = UnitDay(ahu=ahu, day=day)
     fan_point, _, _ = fan_of(trends)
     meter = reads.meters.get(fan_point.component.pk) if fan_point is not None else None
-    out.run_hours = run_hours_feed(trends=trends, by=by, meter=meter, unit_locked=True)
+    out.run_hours = run_hours_feed(trends=trends, by=by, meter=meter, unit_locked=True, careful=careful)
     if out.run_hours is not None and out.run_hours.note and out.run_hours.reading is None:
         out.notes.append(f"run-hours: {out.run_hours.note}")
     hours = out.run_hours.reading.hours if out.run_hours is not None and out.run_hours.reading is not None else None
@@ -230,8 +257,9 @@ def unit_day_judge(
 
 def trends_judge(*, site: Site, start: dt.date, end: dt.date, by=None) -> JudgeResult:
     """Judge every unit of ``site`` with mapped points over the site-local days ``start``–``end``, day by day in
-    order (so run-hour readings follow each other). Each site-day is one transaction and each unit's day a
-    savepoint in it: a unit whose day is refused is rolled back alone."""
+    order (so run-hour readings follow each other). Each site-day is one transaction; its units' days are kept in
+    one savepoint, and when a write is refused, kept again each in a savepoint of its own: a unit whose day is
+    refused is rolled back alone."""
     if end < start:
         raise ValidationError(
             {"end": [f"End day {end.isoformat()} is before start day {start.isoformat()}; allowed: on or after it"]}
@@ -251,37 +279,60 @@ def trends_judge(*, site: Site, start: dt.date, end: dt.date, by=None) -> JudgeR
         points_of[ahu.pk] = unit_points(ahu, points_of.get(ahu.pk, []))
     day = start
     while day <= end:
-        # One transaction a site-day, each unit's day a savepoint in it; the organisation's answers move once.
+        # One transaction a site-day; the organisation's answers move once.
         with transaction.atomic(), changes_deferred():
             reads = site_day_reads(units=units, points_of=points_of, day=day) if units else None
             # Every unit's day judged by the rules first (no writes; units alike judged at once), then kept unit by
             # unit.
             day_trends = [unit_day_trends(ahu=ahu, points=points_of.get(ahu.pk, []), reads=reads) for ahu in units]
             found = rules_judge(day_trends)
-            to_forecast: list = []  # the stored filter days of units judged, worded for the site at the end
-            for ahu, trends, rules in zip(units, day_trends, found, strict=True):
-                mine: list = []
-                try:
-                    judged = unit_day_judge(
-                        ahu=ahu,
-                        day=day,
-                        points=trends.points,
-                        reads=reads,
-                        forecast_later=mine,
-                        trends=trends,
-                        rules=rules,
-                        by=by,
-                    )
-                except (ValidationError, EngineeringInputError) as exc:
-                    # One unit's refused write (its day rolled back) never stops the site's other units.
-                    words = " ".join(exc.messages) if isinstance(exc, ValidationError) else str(exc)
-                    result.days.append(UnitDay(ahu=ahu, day=day, notes=[f"not judged: {words}"]))
-                    continue
-                result.days.append(judged)
-                to_forecast += mine
-            filter_days_forecast(days=to_forecast, day=day)
+            try:
+                # The fast pass: every unit's day in one savepoint, none of its own.
+                with transaction.atomic():
+                    days, to_keep = _site_day_keep(units, day_trends, found, reads=reads, day=day, by=by, careful=False)
+            except (ValidationError, EngineeringInputError):
+                # A write was refused: the pass is taken back and made again, each unit's day in a savepoint of its
+                # own, so a unit whose day is refused is rolled back alone (what it had read is read again).
+                reads = site_day_reads(units=units, points_of=points_of, day=day)
+                days, to_keep = _site_day_keep(units, day_trends, found, reads=reads, day=day, by=by, careful=True)
+            result.days += days
+            filter_days_forecast(days=to_keep, day=day)
         day += dt.timedelta(days=1)
     return result
+
+
+def _site_day_keep(
+    units: list[AHU], day_trends: list[UnitTrends], found: list[RulesDay], *, reads, day: dt.date, by, careful: bool
+) -> tuple[list[UnitDay], list]:
+    """Each unit's judged day kept (``unit_day_judged``), in order; and the filter days the units leave for the site
+    to store and word at once. ``careful``: each unit's day in a savepoint of its own, a refused one noted;
+    else none, and a refusal raised."""
+    days: list[UnitDay] = []
+    to_keep: list = []
+    for ahu, trends, rules in zip(units, day_trends, found, strict=True):
+        mine: list = []
+        judge = unit_day_judge if careful else functools.partial(unit_day_judged, careful=False)
+        try:
+            judged = judge(
+                ahu=ahu,
+                day=day,
+                points=trends.points,
+                reads=reads,
+                forecast_later=mine,
+                trends=trends,
+                rules=rules,
+                by=by,
+            )
+        except (ValidationError, EngineeringInputError) as exc:
+            if not careful:
+                raise
+            # One unit's refused write (its day rolled back) never stops the site's other units.
+            words = " ".join(exc.messages) if isinstance(exc, ValidationError) else str(exc)
+            days.append(UnitDay(ahu=ahu, day=day, notes=[f"not judged: {words}"]))
+            continue
+        days.append(judged)
+        to_keep += mine
+    return days, to_keep
 
 
 def trends_judge_yesterday(*, site: Site, now: dt.datetime | None = None) -> JudgeResult:

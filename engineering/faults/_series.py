@@ -144,8 +144,9 @@ def to_seconds(name: str, times: object) -> tuple[np.ndarray, str, tzinfo | None
     return out, "number", None
 
 
-def _increasing(name: str, secs: np.ndarray) -> None:
-    bad = np.nonzero(np.diff(secs) <= 0)[0]
+def _increasing(name: str, secs: np.ndarray, steps: np.ndarray | None = None) -> None:
+    """Refuse times that do not strictly increase; ``steps``: ``np.diff(secs)`` when the caller has it."""
+    bad = np.nonzero((np.diff(secs) if steps is None else steps) <= 0)[0]
     if bad.size:
         i = int(bad[0]) + 1
         raise EngineeringInputError(
@@ -332,6 +333,7 @@ def resample(
     step = v.in_range("step_s", step_s, 1.0, 86_400.0, unit="s", label="resampling step")
     hold = None if max_hold_s is None else v.in_range("max_hold_s", max_hold_s, 0.0, 30 * 86_400.0, unit="s")
     logged: dict[str, tuple[np.ndarray, np.ndarray]] = {}
+    own_steps: dict[str, np.ndarray] = {}
     constants: dict[str, float] = {}
     kind, tz = "number", None
     for role, item in series.items():
@@ -350,8 +352,10 @@ def resample(
             )
         secs, kind, tz = to_seconds(f"{role}.times", item[0])
         vals = as_unit_array(role, item[1], secs.size)[0]
-        _increasing(f"{role}.times", secs)
+        steps = np.diff(secs)
+        _increasing(f"{role}.times", secs, steps)
         logged[role] = (secs, vals)
+        own_steps[role] = steps
     if not logged:
         raise EngineeringInputError(
             field="series",
@@ -368,7 +372,7 @@ def resample(
     grid = first + step * np.arange(math.floor((last - first) / step + 1e-9) + 1)
     points: dict[str, np.ndarray | float] = dict(constants)
     for role, (secs, vals) in logged.items():
-        own = float(np.median(np.diff(secs))) if secs.size > 1 else step
+        own = _median_step(own_steps[role]) if secs.size > 1 else step
         limit = hold if hold is not None else 1.5 * max(step, own)
         idx = np.searchsorted(secs, grid, side="right") - 1
         ok = idx >= 0
@@ -376,7 +380,16 @@ def resample(
         ok &= (grid - secs[safe]) <= limit
         points[role] = np.where(ok, vals[safe], np.nan)
     base = TimeBase(seconds=grid, step_s=step, kind=kind, tz=tz)
-    return Resampled(times=[base.at(s) for s in grid], points=points, step_s=step)
+    # Number times are the grid's own floats (what ``TimeBase.at`` gives each one).
+    times = grid.tolist() if kind == "number" else [base.at(s) for s in grid]
+    return Resampled(times=times, points=points, step_s=step)
+
+
+def _median_step(steps: np.ndarray) -> float:
+    """The median of a log's steps; a regular log's one step without sorting (the same value)."""
+    if steps.size and bool((steps == steps[0]).all()):
+        return float(steps[0])
+    return float(np.median(steps))
 
 
 __all__ = ["AVERAGED_ROLES", "ROLES", "Resampled", "TimeBase", "resample"]

@@ -134,6 +134,7 @@ def test_text_full_of_nul_bytes_is_one_clear_problem(plant):
         ("timestamp,AHU1.SAT\n2026-01-05 08:00,16.8\n2026-01-05 08:15,17 °C\n".encode("latin-1"), 3,
          "the file is not UTF-8 text: byte 0xb0 on line 3"),
     ],
+    ids=["png", "workbook", "utf-16", "nul-bytes", "latin-1"],
 )  # fmt: skip
 def test_the_api_refuses_a_file_that_is_no_text_saying_what_it_is(plant, data, line, words):
     client = Client()
