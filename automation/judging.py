@@ -289,19 +289,19 @@ def trends_judge(*, site: Site, start: dt.date, end: dt.date, by=None) -> JudgeR
             try:
                 # The fast pass: every unit's day in one savepoint, none of its own.
                 with transaction.atomic():
-                    days, to_keep = _site_day_keep(units, day_trends, found, reads=reads, day=day, by=by, careful=False)
+                    days, to_keep = site_day_keep(units, day_trends, found, reads=reads, day=day, by=by, careful=False)
             except (ValidationError, EngineeringInputError):
                 # A write was refused: the pass is taken back and made again, each unit's day in a savepoint of its
                 # own, so a unit whose day is refused is rolled back alone (what it had read is read again).
                 reads = site_day_reads(units=units, points_of=points_of, day=day)
-                days, to_keep = _site_day_keep(units, day_trends, found, reads=reads, day=day, by=by, careful=True)
+                days, to_keep = site_day_keep(units, day_trends, found, reads=reads, day=day, by=by, careful=True)
             result.days += days
             filter_days_forecast(days=to_keep, day=day)
         day += dt.timedelta(days=1)
     return result
 
 
-def _site_day_keep(
+def site_day_keep(
     units: list[AHU], day_trends: list[UnitTrends], found: list[RulesDay], *, reads, day: dt.date, by, careful: bool
 ) -> tuple[list[UnitDay], list]:
     """Each unit's judged day kept (``unit_day_judged``), in order; and the filter days the units leave for the site
