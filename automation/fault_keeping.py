@@ -36,14 +36,14 @@ FAULT_WORK: dict[str, tuple[str, str | None, str]] = {
     "FC5": ("supply_temp_off", None, "medium"),
     "FC6": ("damper_position", "outdoor_damper", "medium"),
     "FC7": ("supply_temp_off", None, "medium"),
-    "FC8": ("supply_temp_off", None, "low"),
+    "FC8": ("valve_leak", None, "low"),  # the leak-by test of each coil; the title names the sensors too
     "FC9": ("sensor_drift", None, "low"),
     "FC10": ("damper_position", "outdoor_damper", "medium"),
     "FC11": ("sensor_drift", None, "low"),
     "FC12": ("supply_temp_off", None, "medium"),
     "FC13": ("supply_temp_off", None, "medium"),
-    "FC14": ("", "cooling_coil", "medium"),  # leaking cooling valve
-    "FC15": ("", "heating_coil", "medium"),  # leaking heating valve
+    "FC14": ("valve_leak", "cooling_coil", "medium"),  # leaking cooling valve: its leak-by test
+    "FC15": ("valve_leak", "heating_coil", "medium"),  # leaking heating valve: its leak-by test
     Fault.FREEZE: ("freeze_protection_failed", None, "critical"),
 }
 # The work's title where the condition's own title would mislead (FC8 is no set-point problem: supply and mixed

@@ -21,6 +21,7 @@ __all__ = [
     "sensor_drift_check",
     "static_pressure_check",
     "supply_temperature_check",
+    "valve_leak_check",
     "worst",
 ]
 
@@ -282,3 +283,37 @@ def sensor_drift_check(
         limits={"reference_value": ref, "allowed_error": allowed, "watch_error": frac * allowed, "error": diff},
         reason=reason,
     )
+
+
+COIL_DUTIES = ("cooling", "heating", "preheat")
+
+
+def valve_leak_check(*, entering_c: float, leaving_c: float, duty: str, limit_k: float | None = None) -> Check:
+    """A coil's valve commanded closed, the fan running: does the coil still change the air's temperature?
+
+    A cooling coil's drop (entering − leaving) or a heating or preheat coil's rise (leaving − entering) at or
+    above ``limit_k`` means water passes the closed valve (FAIL); below it the valve holds (OK). The default
+    limit is the one the trend rules FC#14/FC#15 use (ASHRAE Guideline 36-2018 5.16.14, from memory):
+    ``FaultThresholds().coil_change_k``, the two coil sensors' errors in quadrature plus the fan's heat, 2.68 K.
+    A change the other way (air warmed by a closed cooling coil) is the fan's heat or a sensor, never a leak.
+    """
+    from engineering.faults.thresholds import FaultThresholds
+
+    t_in = v.air_temperature("entering_c", entering_c, label="entering air temperature")
+    t_out = v.air_temperature("leaving_c", leaving_c, label="leaving air temperature")
+    if duty not in COIL_DUTIES:
+        raise EngineeringInputError(
+            field="duty",
+            value=duty,
+            allowed=", ".join(COIL_DUTIES),
+            message=f"duty={duty!r} is not one of {', '.join(COIL_DUTIES)}",
+        )
+    limit = FaultThresholds().coil_change_k if limit_k is None else v.non_negative("limit_k", limit_k, unit="K")
+    change = t_in - t_out if duty == "cooling" else t_out - t_in
+    verdict = Verdict.FAIL if round(change, _ROUND) >= round(limit, _ROUND) else Verdict.OK
+    what = "drop" if duty == "cooling" else "rise"
+    reason = (
+        f"air {t_in:.1f} °C entering, {t_out:.1f} °C leaving the closed coil: a {what} of {change:.1f} K "
+        f"(a leak from {limit:.1f} K)"
+    )
+    return Check(verdict=verdict, value=change, limits={"change_k": change, "limit_k": limit}, reason=reason)

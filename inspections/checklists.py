@@ -875,6 +875,41 @@ TEMPLATES: list[dict[str, Any]] = [
             ),
         ],
     },
+    {
+        # Raised by a leaking-valve fault in the trends (FC#8, FC#14, FC#15) or a supervisor: the valve
+        # commanded shut with the fan running, the coil must leave the air as it found it, within the
+        # sensors' errors and the fan's heat (engineering.controls.valve_leak_check; the same figure as the
+        # trend rules). Ten minutes for the coil to settle: common practice.
+        "code": "coil_valve_leak",
+        "version": 1,
+        "title": "Coil valve leak-by test",
+        "cautions": [HOT_COILS, RUNNING_FAN, LOCAL_CODES],
+        "items": [
+            check(
+                "valve_closed",
+                "Valve commanded closed at the controller, its actuator at the closed end of its stroke",
+                per="coil",
+                required=True,
+                note=True,
+                help="If it will not close, say why in the note: the actuator or linkage is the fault, not the seat.",
+            ),
+            check(
+                "settled",
+                "Fan running and the valve shut for at least 10 minutes before reading",
+                per="coil",
+                required=True,
+            ),
+            air_temp("leak_air_in", "Air temperature entering the coil (valve shut)", per="coil", required=True),
+            air_temp(
+                "leak_air_out",
+                "Air temperature leaving the coil (valve shut)",
+                per="coil",
+                required=True,
+                server=True,
+                note=True,
+            ),
+        ],
+    },
 ]
 
 TASK_CODES = [t["code"] for t in TEMPLATES]

@@ -29,7 +29,7 @@ from engineering.psychro import pressure_from_altitude
 from engineering.units import SYSTEMS
 from inspections import flags
 from inspections.display import DRIFT_QUANTITIES
-from inspections.evaluation import control_checks, heat_checks, ventilation_checks
+from inspections.evaluation import control_checks, heat_checks, valve_checks, ventilation_checks
 from inspections.evaluation.results import ITEM_CONDITIONS
 
 CONTEXT_VERSION = 1
@@ -149,6 +149,8 @@ def constants() -> dict[str, Any]:
         "filter_bypass_watch_fraction": filters.BYPASS_WATCH_FRACTION,
         "filter_after_change_tolerance": filters.AFTER_CHANGE_TOLERANCE,
         "filter_after_change_high_fail": filters.AFTER_CHANGE_HIGH_FAIL,
+        "valve_leak_limit_k": valve_checks.LEAK_LIMIT_K,
+        "valve_leak_method": valve_checks.LEAK_METHOD,
     }
 
 

@@ -274,6 +274,28 @@ LIBRARY: list[dict] = [
         "source": "Common practice: quarterly.",
     },
     {
+        "code": "coil_valve_leak",
+        "name": "Coil valve leak-by test",
+        "description": (
+            "With the coil's valve commanded shut and the fan running, read the air entering and leaving the "
+            "coil; a change beyond the sensors' errors and the fan's heat means water passes the shut valve."
+        ),
+        "category": "coils_drain_pans",
+        "component_kind": "coil",
+        "trigger": "condition",
+        "grace_days": 14,
+        "condition_code": "valve_leak",
+        "estimated_minutes": 30,
+        "skill": "controls",
+        # The readings are taken with the fan running: no lockout while measuring, and none of the coil's
+        # pipework touched. Opening the unit to look at the valve is then done under lockout.
+        "safety_notes": HOT_COILS + " " + LOTO_FAN,
+        "source": (
+            "Common practice: raised when the trends (ASHRAE Guideline 36-2018 5.16.14 FC#8, FC#14, FC#15, "
+            "from memory) or a visit show a shut valve passing water."
+        ),
+    },
+    {
         "code": "ventilation_check",
         "name": "Outdoor-air (ventilation) verification",
         "description": "Measure or derive the outdoor-air flow and compare with the ventilation requirement.",

@@ -108,12 +108,12 @@ def _fc13(p: Points, t: FaultThresholds) -> np.ndarray:
 
 def _fc14(p: Points, t: FaultThresholds) -> np.ndarray:
     drop = p["cooling_coil_entering"] - p["cooling_coil_leaving"]
-    return drop >= _root(t.eps_coil_k, t.eps_coil_k) + t.dt_supply_fan_k
+    return drop >= t.coil_change_k
 
 
 def _fc15(p: Points, t: FaultThresholds) -> np.ndarray:
     rise = p["heating_coil_leaving"] - p["heating_coil_entering"]
-    return rise >= _root(t.eps_coil_k, t.eps_coil_k) + t.dt_supply_fan_k
+    return rise >= t.coil_change_k
 
 
 RULES: tuple[FaultRule, ...] = (

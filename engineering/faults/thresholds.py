@@ -14,6 +14,7 @@ differ, the field's comment says which was taken and why.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, fields
 
 from engineering import _validate as v
@@ -75,6 +76,14 @@ class FaultThresholds:
     # the guideline (it compares with 0 and 100 %); 1 % absorbs a controller's output that never reaches
     # exactly zero (common practice).
     command_tolerance: float = 0.01
+
+    @property
+    def coil_change_k(self) -> float:
+        """The most an inactive coil may change the air's temperature before its valve is said to leak (FC#14
+        cooling drop, FC#15 heating rise): the two coil sensors' errors added in quadrature plus the supply
+        fan's heat, ``√(εCCET² + εCCLT²) + ΔTSF`` (2 °F each, from memory: 2.83 °F = 1.57 K + 1.11 K = 2.68 K
+        with the defaults). The trend rules and the technician's leak-by test judge with this one figure."""
+        return float(math.hypot(self.eps_coil_k, self.eps_coil_k) + self.dt_supply_fan_k)
 
     def __post_init__(self) -> None:
         for f in fields(self):

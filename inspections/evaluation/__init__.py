@@ -9,7 +9,7 @@ plain reason, the method and the derived values (SI, units in the key names).
 
 One module per family of checks: ``readings`` (single answers and numbers),
 ``filter_checks``, ``ventilation_checks``, ``heat_checks`` (coils, heat
-recovery), ``control_checks`` (set points, dampers, sensor drift); what they
+recovery), ``control_checks`` (set points, dampers, sensor drift), ``valve_checks`` (a shut coil's leak-by); what they
 read is ``form``, what they give is ``results``.
 """
 
@@ -21,6 +21,7 @@ from .form import Form, Value
 from .heat_checks import coil_checks, heat_recovery_checks
 from .readings import reading_result
 from .results import CHECKS, Result
+from .valve_checks import valve_leak_checks
 from .ventilation_checks import full_oa_checks, oa_fraction_checks
 
 __all__ = ["CHECKS", "Form", "Result", "Value", "evaluate"]
@@ -41,6 +42,7 @@ def evaluate(form: Form) -> list[Result]:
         damper_checks,
         drift_checks,
         heat_recovery_checks,
+        valve_leak_checks,
     ):
         results.extend(fn(form, consumed))
     for slot in form.slots:

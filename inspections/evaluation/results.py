@@ -25,6 +25,7 @@ CHECKS = (
     "damper_position",
     "sensor_drift",
     "heat_recovery",
+    "coil_valve_leak",  # a shut coil still changing the air: its valve passes water
 )
 
 # Severity of a failed check by what it puts at risk (common practice):
@@ -39,6 +40,7 @@ SEVERITY = {
     "sensor_drift": "low",
     "coil_balance": "low",
     "heat_recovery_low": "medium",
+    "valve_leak": "medium",  # heating and cooling fight each other; energy wasted, comfort off
 }
 # Checklist answers whose failure names a scheduling condition.
 ITEM_CONDITIONS = {
@@ -56,6 +58,8 @@ ITEM_CONDITIONS = {
     "preheater_freeze.high_limit": "freeze_protection_failed",
     "damper_actuator.stroke_time": "damper_position",
     "damper_actuator.linkage": "damper_position",
+    # A valve that will not shut is the same repair as one that shuts and passes water.
+    "coil_valve_leak.valve_closed": "valve_leak",
 }
 
 

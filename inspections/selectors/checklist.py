@@ -24,6 +24,7 @@ CONDITION_TEMPLATES = {
     "damper_position": "damper_actuator",
     "fan_not_proven": "fan_proving",
     "freeze_protection_failed": "preheater_freeze",
+    "valve_leak": "coil_valve_leak",
 }
 
 

@@ -82,6 +82,7 @@ CONDITION_TITLES = {
     "damper_position": "Damper not at commanded position",
     "fan_not_proven": "Fan not proven",
     "freeze_protection_failed": "Freeze protection failed",
+    "valve_leak": "Coil valve passing water when shut",
 }
 # Condition codes the scheduling engine knows (each has its title above); other fails raise corrective work without one.
 KNOWN_CONDITIONS = frozenset(CONDITION_TITLES)

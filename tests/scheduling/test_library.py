@@ -28,6 +28,7 @@ CODES = {
     "humidifier",
     "controls_check",
     "ventilation_check",
+    "coil_valve_leak",
 }
 
 

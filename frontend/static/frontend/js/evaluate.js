@@ -16,6 +16,7 @@ export const FAIL = "fail";
 export const CHECKS = [
   "check", "choice", "limits", "filter_loading", "filter_after_change", "oa_fraction_temperature", "oa_fraction_co2",
   "full_oa_airflow", "coil_balance", "supply_temperature", "duct_static", "damper_position", "sensor_drift", "heat_recovery",
+  "coil_valve_leak",
 ];
 
 const RANK = { [OK]: 0, [WATCH]: 1, [FAIL]: 2 };
@@ -1000,6 +1001,36 @@ function driftChecks(form, consumed) {
   return out;
 }
 
+// A shut coil's leak-by test (inspections/evaluation/valve_checks.py): FAIL when the coil still cools (cooling
+// duty) or warms (heating, preheat) the air by the trend rules' limit or more (constants.valve_leak_limit_k).
+const COIL_DUTIES = ["cooling", "heating", "preheat"];
+
+function valveLeakChecks(form, consumed) {
+  const out = [];
+  const limit = form.ctx.constants.valve_leak_limit_k;
+  for (const coil of form.of("coil")) {
+    const tIn = form.num("coil_valve_leak.leak_air_in", coil);
+    const tOut = form.num("coil_valve_leak.leak_air_out", coil);
+    const duty = coil.specs.duty;
+    if (tIn === null || tOut === null || !COIL_DUTIES.includes(duty)) continue;
+    consumed.add(readingKey("coil_valve_leak.leak_air_out", coil.code));
+    airTemperature("entering_c", tIn, "entering air temperature");
+    airTemperature("leaving_c", tOut, "leaving air temperature");
+    const change = duty === "cooling" ? tIn - tOut : tOut - tIn;
+    const leaks = pyRound(change, 9) >= pyRound(limit, 9);
+    const res = result({
+      check: "coil_valve_leak", item: "coil_valve_leak.leak_air_out", component: coil.code, verdict: leaks ? FAIL : OK,
+      condition_code: "valve_leak", method: form.ctx.constants.valve_leak_method,
+      derived: { entering_c: tIn, leaving_c: tOut, change_k: pyRound(change, 2), limit_k: pyRound(limit, 2) },
+    });
+    say(res, `${coil.name}: air `, q(tIn, "temperature"), " entering, ", q(tOut, "temperature"),
+      ` leaving the shut coil, a ${duty === "cooling" ? "drop" : "rise"} of `, q(change, "temperature_difference"),
+      ` — ${leaks ? "the valve passes water" : "the valve holds"} (a leak from `, q(limit, "temperature_difference"), ")");
+    out.push(res);
+  }
+  return out;
+}
+
 function heatRecoveryChecks(form) {
   const out = [];
   for (const hx of form.of("heat_recovery")) {
@@ -1109,6 +1140,7 @@ export function evaluate(ctx, readings, { finishedOn = new Date().toISOString().
     ...filterChecks(form, consumed), ...filterChangeChecks(form, consumed), ...oaChecks(form, consumed), ...fullOaChecks(form),
     ...coilChecks(form, consumed),
     ...setpointChecks(form, consumed), ...driftChecks(form, consumed), ...heatRecoveryChecks(form, consumed),
+    ...valveLeakChecks(form, consumed),
   ];
   for (const slot of ctx.slots) {
     const key = readingKey(slot.item, slot.component);
