@@ -3,7 +3,10 @@ from django.urls import path
 
 from . import api
 from .views import (
-    automation_pages,
+    automation_faults,
+    automation_points,
+    automation_trends,
+    board,
     calculator,
     manager,
     manager_findings,
@@ -46,8 +49,8 @@ urlpatterns = [
     path("calc/", calculator.calculator, name="calculator"),
     path("api/calc/<slug:name>/", api.CalcView.as_view(), name="calc_api"),
     # supervisor
-    path("board/", supervisor.board, name="board"),
-    path("board/assign/<uuid:public_id>/", supervisor.assign, name="assign"),
+    path("board/", board.board, name="board"),
+    path("board/assign/<uuid:public_id>/", board.assign, name="assign"),
     path("board/plan/", planning.plan_now, name="plan_now"),
     path("registry/", supervisor.registry, name="registry"),
     path("registry/unit/<int:pk>/", registry_units.unit_detail, name="registry_unit"),
@@ -75,11 +78,12 @@ urlpatterns = [
     # work beyond the plan: call-outs, ad-hoc work, work for a finding, a site's frost check
     path("new-work/", work_pages.work_new, name="work_new"),
     path("new-work/frost/<int:site_pk>/", work_pages.work_frost, name="work_frost"),
-    # building-automation trends and faults (frontend/views/automation_pages.py)
-    path("faults/", automation_pages.faults, name="faults"),
-    path("faults/<int:pk>/", automation_pages.fault_detail, name="fault"),
-    path("registry/unit/<int:pk>/trends/", automation_pages.unit_trends, name="unit_trends"),
-    path("registry/site/<int:pk>/points/", automation_pages.site_points, name="site_points"),
+    # building-automation faults, trends and point maps (frontend/views/automation_faults.py, automation_trends.py,
+    # automation_points.py)
+    path("faults/", automation_faults.faults, name="faults"),
+    path("faults/<int:pk>/", automation_trends.fault_detail, name="fault"),
+    path("registry/unit/<int:pk>/trends/", automation_trends.unit_trends, name="unit_trends"),
+    path("registry/site/<int:pk>/points/", automation_points.site_points, name="site_points"),
     # property manager
     path("dashboard/", manager.dashboard, name="dashboard"),
     path("dashboard/site/<int:pk>/", manager.site_detail, name="dashboard_site"),

@@ -244,10 +244,11 @@ def trend_evidence(*, finding: Finding, user) -> dict:
     """What a finding of the building-automation trends was found on: the rule's published section, the latest
     evidence window on the site's clock, the share of the operating time, and the fault whose evidence chart
     supervisors and administrators may open (``frontend:fault``; a property manager reads the words here)."""
+    from accounts.selectors import primary_role
     from automation.fault_findings import evidence_window_words, share_words
     from automation.fault_models import Fault
 
-    from .automation_pages import MANAGING, primary_role
+    from .automation_faults import MANAGING
 
     evidence = finding.evidence or {}
     fault = Fault.objects.filter(finding=finding).order_by("-pk").first()

@@ -20,7 +20,7 @@ from accounts.clock import local_date_of
 from scheduling.engine import work_orders_generate
 from scheduling.models import WorkOrder
 
-from .supervisor import _organisation
+from .staff import managed_organisation
 
 PLAN_DAYS = 90
 NAMED_VISITS = 10  # the new visits named in the message; the rest are counted
@@ -64,7 +64,7 @@ def _made_since(organisation, last_pk: int) -> list[WorkOrder]:
 @login_required
 @require_POST
 def plan_now(request):
-    organisation = _organisation(request)
+    organisation = managed_organisation(request)
     last_pk = WorkOrder.objects.aggregate(m=Max("pk"))["m"] or 0
     result = work_orders_generate(organisation=organisation, horizon_days=PLAN_DAYS)
     messages.success(request, plan_words(result))

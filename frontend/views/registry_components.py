@@ -30,7 +30,7 @@ from .registry_form import (
     spec_field_rows,
 )
 from .registry_records import managed_component
-from .supervisor import _ahu
+from .staff import managed_ahu
 
 KIND_CHOICES = tuple(ComponentKind.choices)
 COMPONENT_NAME_MAX = Component._meta.get_field("name").max_length
@@ -93,7 +93,7 @@ def _new_component_fields(ahu: AHU) -> list[Field]:
 @login_required
 def component_new(request, pk):
     """Add a part of one kind to a unit with its specifications (the kind chosen first)."""
-    ahu = _ahu(request, pk)
+    ahu = managed_ahu(request, pk)
     system = request.user.unit_system
     back = reverse("frontend:registry_unit", args=[ahu.pk])
     if ahu.status == AHU.Status.RETIRED:

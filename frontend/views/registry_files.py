@@ -34,7 +34,7 @@ from inventory.selectors import sites_managed_by
 from inventory.services import label_qr_png, label_qr_svg
 
 from .records import LAYOUTS
-from .supervisor import _ahu, _organisation
+from .staff import managed_ahu, managed_organisation
 
 KIND_NAMES = {"sites": "Sites", "ahus": "Units and their buildings", "components": "Components of units"}
 # What a file of each kind must have in its first row (the rest of its columns are optional).
@@ -207,7 +207,7 @@ def _row_errors(errors: list[csv_io.RowError]) -> tuple[list[dict], list[str]]:
 @require_http_methods(["GET", "POST"])
 def files(request):
     """GET: the page. POST: check a chosen file (a dry run: nothing is written) and show what it would do."""
-    org = _organisation(request)
+    org = managed_organisation(request)
     if request.method == "GET":
         return _page(request, org=org)
     kind = request.POST.get("kind", "")
@@ -267,7 +267,7 @@ def _row_keys(*, kind: str, text: str, org) -> list[tuple[int, str, bool]]:
 @require_POST
 def import_confirm(request):
     """Import the file checked a moment ago: every row again against the registry as it is now; all or none."""
-    org = _organisation(request)
+    org = managed_organisation(request)
     kept = request.session.get(SESSION_KEY)
     token = request.POST.get("token", "")
     if not isinstance(kept, dict) or kept.get("token") != token or kept.get("org") != org.pk:
@@ -348,7 +348,7 @@ def export(request, kind: str):
 @require_GET
 def unit_qr(request, pk: int, fmt: str):
     """A unit's QR label image to download: SVG (any size, for a label printer) or PNG (for documents)."""
-    ahu = _ahu(request, pk)
+    ahu = managed_ahu(request, pk)
     if fmt == "svg":
         response = HttpResponse(label_qr_svg(code=ahu.label_code), content_type="image/svg+xml")
     elif fmt == "png":

@@ -9,7 +9,7 @@ from django.http import Http404
 from inventory.models import Building, Component, Site
 from inventory.selectors import components_visible_to, sites_managed_by, sites_visible_to
 
-from .supervisor import _managed_ahus
+from .staff import managed_ahus
 
 REFUSED = "Only a supervisor or administrator of the organisation may change the registry."
 
@@ -40,7 +40,7 @@ def managed_building(request, pk) -> Building:
 
 
 def managed_component(request, pk) -> Component:
-    component = Component.objects.filter(ahu__in=_managed_ahus(request), pk=pk).select_related("ahu__building").first()
+    component = Component.objects.filter(ahu__in=managed_ahus(request), pk=pk).select_related("ahu__building").first()
     if component is None:
         if components_visible_to(user=request.user).filter(pk=pk).exists():
             raise PermissionDenied(REFUSED)

@@ -19,7 +19,7 @@ from inventory.today import today_for
 
 from .registry_form import Field, field_rows, form_page, read_fields, service_errors, shown_value, unique_code
 from .registry_records import managed_building, managed_site
-from .supervisor import _organisation
+from .staff import managed_organisation
 
 TIME_ZONES = tuple((z, z) for z in sorted(zoneinfo.available_timezones()) if "/" in z or z == "UTC")
 
@@ -99,7 +99,7 @@ def _site_fields() -> list[Field]:
 def _site_form(request, site: Site | None):
     system = request.user.unit_system
     fields = _site_fields()
-    org = site.organisation if site else _organisation(request)
+    org = site.organisation if site else managed_organisation(request)
     values = {f.name: shown_value(f, getattr(site, f.name), system) for f in fields} if site else {}
     if site is None:
         values["time_zone"] = org.sites.values_list("time_zone", flat=True).first() or "UTC"
@@ -188,7 +188,7 @@ def site_climate(*, site: Site, system: str) -> dict:
 
 @login_required
 def site_new(request):
-    _organisation(request)
+    managed_organisation(request)
     return _site_form(request, None)
 
 

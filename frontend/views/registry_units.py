@@ -20,7 +20,7 @@ from scheduling.services.retire import unit_retire as unit_retire_service
 from ..specs_form import plain_number, spec_summary
 from .registry_form import REASON, Field, field_rows, form_page, read_fields, service_errors, shown_value, unit_text
 from .registry_records import managed_buildings
-from .supervisor import _ahu, _organisation
+from .staff import managed_ahu, managed_organisation
 from .technician import unit_records_context
 
 
@@ -189,18 +189,18 @@ def _unit_form(request, *, ahu: AHU | None):
 
 @login_required
 def unit_new(request):
-    _organisation(request)
+    managed_organisation(request)
     return _unit_form(request, ahu=None)
 
 
 @login_required
 def unit_edit(request, pk):
-    return _unit_form(request, ahu=_ahu(request, pk))
+    return _unit_form(request, ahu=managed_ahu(request, pk))
 
 
 @login_required
 def unit_move(request, pk):
-    ahu = _ahu(request, pk)
+    ahu = managed_ahu(request, pk)
     org_id = ahu.building.site.organisation_id
     choices = tuple(
         (b.pk, f"{b.site.name} · {b.name}")
@@ -256,7 +256,7 @@ def unit_move(request, pk):
 
 @login_required
 def unit_retire(request, pk):
-    ahu = _ahu(request, pk)
+    ahu = managed_ahu(request, pk)
     errors: dict = {}
     values: dict = {}
     open_work = list(ahu.work_orders.filter(state__in=["planned", "assigned", "in_progress"]).order_by("due_date"))
@@ -330,7 +330,7 @@ def _with_specs(nodes: list[dict], system: str) -> list[dict]:
 
 @login_required
 def unit_detail(request, pk):
-    ahu = _ahu(request, pk)
+    ahu = managed_ahu(request, pk)
     system = request.user.unit_system
     return render(
         request,

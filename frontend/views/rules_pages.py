@@ -26,7 +26,7 @@ from scheduling.services.library import (
     unit_task_set,
 )
 
-from .supervisor import _ahu, _organisation
+from .staff import managed_ahu, managed_organisation
 
 Trigger = TaskDefinition.Trigger
 REASON_MAX = UnitTaskSetting._meta.get_field("reason").max_length
@@ -187,7 +187,7 @@ def _typed(post, fields) -> dict:
 # ---------------------------------------------------------------------------
 @login_required
 def organisation_rules(request):
-    org = _organisation(request)
+    org = managed_organisation(request)
     tasks = effective_tasks(organisation=org)
     library = _library_rows()
     status, refused = 200, None
@@ -229,7 +229,7 @@ def organisation_rules(request):
 # ---------------------------------------------------------------------------
 @login_required
 def unit_rules(request, pk):
-    ahu = _ahu(request, pk)
+    ahu = managed_ahu(request, pk)
     org = ahu.building.site.organisation
     tasks = effective_tasks(organisation=org)
     library = _library_rows()

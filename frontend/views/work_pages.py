@@ -44,7 +44,7 @@ from scheduling.services.made_work import (
 )
 from scheduling.targets import task_targets
 
-from .supervisor import _organisation, _technicians
+from .staff import managed_organisation, organisation_technicians
 
 PRIORITY_OF_SEVERITY = {"critical": "urgent", "high": "high", "medium": "normal", "low": "low"}
 KIND_CHOICES = [
@@ -193,8 +193,8 @@ def _one_off(post, errors: dict) -> list[OneOffTask]:
 
 
 def _context(request, *, ahu, values, errors, finding=None, org=None):
-    org = org or _organisation(request)
-    technicians = _technicians(org)
+    org = org or managed_organisation(request)
+    technicians = organisation_technicians(org)
     skill_names = dict(TaskDefinition.Skill.choices)
     for t in technicians:
         t.skill_words = ", ".join(skill_names.get(s, s).lower() for s in (t.skills or [])) or "no skills recorded"
@@ -247,7 +247,7 @@ def _board_week(wo: WorkOrder) -> str:
 @login_required
 def work_new(request):
     """GET: choose the unit (``?unit=``), or start from a finding (``?finding=``); POST: make the work order."""
-    org = _organisation(request)
+    org = managed_organisation(request)
     if request.method != "POST":
         finding = _finding(request, request.GET.get("finding"))
         ahu = finding.ahu if finding is not None else _unit(request, request.GET.get("unit"))
@@ -291,7 +291,7 @@ def work_new(request):
     technician = None
     raw_assignee = post.get("assignee", "").strip()
     if raw_assignee:
-        technician = next((t for t in _technicians(org) if str(t.pk) == raw_assignee), None)
+        technician = next((t for t in organisation_technicians(org) if str(t.pk) == raw_assignee), None)
         if technician is None:
             errors.setdefault("assignee", []).append(
                 f"Technician: no active technician {shown(raw_assignee)} in your organisation you can assign; "
@@ -371,7 +371,7 @@ def work_new(request):
 @require_POST
 def work_frost(request, site_pk):
     """One urgent freeze-protection check per in-service protected unit of the site, due before tonight."""
-    _organisation(request)
+    managed_organisation(request)
     site = sites_managed_by(user=request.user).filter(pk=site_pk).first()
     if site is None:
         raise Http404("No such site that you manage.")

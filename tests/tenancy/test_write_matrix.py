@@ -296,7 +296,7 @@ WRITES: dict[tuple[str, str], Write] = {
     ),
     ("automation_api:point-detail", "delete"): Write(MANAGERS, lambda w, c: Call({"pk": probe_point(c).pk})),
     ("automation_api:site-trends", "post"): Write(MANAGERS, lambda w, c: _trend_csv(c)),
-    # The site's point-map page posts a trend file to the same service (frontend/views/automation_pages.py).
+    # The site's point-map page posts a trend file to the same service (frontend/views/automation_points.py).
     ("frontend:site_points", "post"): Write(MANAGERS, lambda w, c: _trend_csv(c)),
     ("automation_api:brick-import", "post"): Write(
         MANAGERS,

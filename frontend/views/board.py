@@ -1,0 +1,220 @@
+"""The supervisor's board: the week's overdue, due and assigned work with a suggested technician for each, and the
+row form that assigns a technician and plans the day (``work_order_assign_and_plan``, as the API's assign route)."""
+
+import datetime as dt
+from collections import defaultdict
+from urllib.parse import urlencode
+
+from django.contrib import messages
+from django.contrib.auth.decorators import login_required
+from django.core.exceptions import ValidationError
+from django.shortcuts import redirect, render
+from django.urls import reverse
+from django.views.decorators.http import require_POST
+
+from accounts.inputs import date_problem
+from accounts.models import User
+from inspections.selectors import corrective_work_already_resolved, flagged_forms_for
+from inventory.today import today_for
+from scheduling.inputs import stored_problems
+from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
+from scheduling.selectors import (
+    BOARD_SECTIONS,
+    board_page_for,
+    board_suggestions,
+    offered_day,
+    technician_load,
+    work_order_for,
+    work_orders_to_verify,
+)
+from scheduling.services.assignment import OverCapacity, work_order_assign_and_plan
+from scheduling.services.work_orders import WorkOrderConflict, work_order_plan_words
+
+from ..forms import AssignForm
+from .staff import changed_meanwhile, managed_organisation, organisation_technicians
+
+SKILL_WORDS = {str(v): str(label).lower() for v, label in TaskDefinition.Skill.choices}
+
+
+def _week_start(raw: str | None, *, today: dt.date) -> dt.date:
+    """Monday of the asked week; a week outside the plan window (say 9999-12-31) shows this week instead."""
+    try:
+        day = dt.date.fromisoformat(raw) if raw else today
+    except ValueError:
+        day = today
+    if date_problem(day, label="week", today=today) is not None:
+        day = today
+    return day - dt.timedelta(days=day.weekday())
+
+
+BOARD_PAGE = 100
+
+
+def _board_sections(*, org, week: dt.date, today: dt.date, show_all: str) -> tuple[dict, list[dict]]:
+    """The board API's read (``board_page_for``): a page of each section, the whole of ``show_all``'s."""
+    data = board_page_for(organisation=org, week_start=week, today=today, limit=BOARD_PAGE)
+    if show_all in BOARD_SECTIONS and data["counts"][show_all] > BOARD_PAGE:
+        whole = board_page_for(
+            organisation=org, week_start=week, today=today, limit=data["counts"][show_all], section=show_all
+        )
+        data[show_all] = whole[show_all]
+    return data, [r for key in BOARD_SECTIONS for r in data[key]]
+
+
+def _row_facts(rows: list[dict]) -> tuple[dict, dict, dict]:
+    """What the page says beside the API's rows, read by their ids in three queries: each work order's id and
+    site zone, the skills its tasks name, and the skills of the people assigned."""
+    ids = [r["id"] for r in rows]
+    facts = {
+        f["public_id"]: f
+        for f in WorkOrder.objects.filter(public_id__in=ids).values("public_id", "pk", "ahu__building__site__time_zone")
+    }
+    needed: dict = defaultdict(set)
+    for public_id, skill in WorkOrderTask.objects.filter(work_order__public_id__in=ids).values_list(
+        "work_order__public_id", "task__skill"
+    ):
+        needed[public_id].add(skill)
+    people = {r["assignee"]["id"] for r in rows if r["assignee"]}
+    skills = {pk: set(s or []) for pk, s in User.objects.filter(pk__in=people).values_list("pk", "skills")}
+    return facts, needed, skills
+
+
+@login_required
+def board(request):
+    org = managed_organisation(request)
+    today = today_for(org)  # the day on the clock most of its sites keep
+    week = _week_start(request.GET.get("week"), today=today)
+    # A large portfolio's week can hold a thousand visits: the first page of each section, with the whole
+    # count and a link to the rest.
+    data, rows = _board_sections(org=org, week=week, today=today, show_all=request.GET.get("all", ""))
+    board_suggestions(organisation=org, rows=rows)  # the least-loaded technician with the skills for its day
+    facts, needed, skills = _row_facts(rows)
+    # "Back to change it" from the over-capacity page: that row's form keeps the technician and day chosen.
+    changing = request.GET.get("change", "")[:36]
+    kept_assignee = request.GET.get("assignee", "")[:18]
+    kept_day = _kept_day(request.GET.get("day", ""))
+    zone_today: dict[str, dt.date] = {}
+    for r in rows:
+        # The day offered for the visit: its plan, else its due date, never a day already past where the
+        # unit is (the service refuses a day before the site's today, which may differ from the organisation's).
+        fact = facts[r["id"]]
+        zone = fact["ahu__building__site__time_zone"]
+        if zone not in zone_today:
+            zone_today[zone] = today_for(zone)
+        r["site_zone"], r["site_today"] = zone, zone_today[zone]
+        r["plan_default"] = offered_day(scheduled_for=r["scheduled_for"], due_date=r["due_date"], today=r["site_today"])
+        due = WorkOrder(state=r["state"], due_date=r["due_date"], overdue_on=r["overdue_on"])
+        r["due_text"] = due.due_words_on(r["site_today"]) if r["due_date"] < r["site_today"] else ""
+        r["kind_label"] = WorkOrder.Kind(r["kind"]).label
+        r["state_label"] = WorkOrder.State(r["state"]).label
+        kept = None
+        if changing and str(r["id"]) == changing:
+            r["plan_default"] = kept_day or r["plan_default"]
+            kept = int(kept_assignee) if kept_assignee.isdigit() else None
+        assignee_id = r["assignee"]["id"] if r["assignee"] else None
+        r["selected_pk"] = kept or assignee_id or (r["suggested"]["id"] if r["suggested"] else None)
+        # Work already with someone who lacks a skill its tasks name is marked, naming the skills.
+        r["missing_skills"] = (
+            [SKILL_WORDS.get(s, s) for s in sorted(needed[r["id"]] - skills.get(assignee_id, set()))]
+            if assignee_id
+            else []
+        )
+    # Approved corrective work whose findings a later visit already resolved: said beside it, left to the supervisor.
+    resolved = corrective_work_already_resolved(
+        work_order_ids=[facts[r["id"]]["pk"] for r in rows if r["kind"] == WorkOrder.Kind.CORRECTIVE]
+    )
+    for r in rows:
+        r["findings_resolved"] = facts[r["id"]]["pk"] in resolved
+    columns = [
+        {"key": key, "title": title, "rows": data[key], "total": data["counts"][key]}
+        for key, title in (("overdue", "Overdue"), ("due", "Due, not assigned"), ("assigned", "Assigned"))
+    ]
+    load = technician_load(organisation=org, start=week, days=7)
+    to_verify = list(work_orders_to_verify(organisation=org))
+    flagged = {f.work_order_id: f for f in flagged_forms_for(user=request.user)}
+    for wo in to_verify:
+        wo.flagged_form = flagged.get(wo.pk)
+    return render(
+        request,
+        "frontend/supervisor/board.html",
+        {
+            "week": week,
+            "today": today,
+            "week_end": week + dt.timedelta(days=6),
+            "prev_week": week - dt.timedelta(days=7),
+            "next_week": week + dt.timedelta(days=7),
+            "load": load,
+            "days": [week + dt.timedelta(days=k) for k in range(7)],
+            "technicians": organisation_technicians(org),
+            "columns": columns,
+            "skipped": stored_problems(organisation=org, today=today),
+            "to_verify": to_verify,
+            "flagged": list(flagged.values()),
+        },
+    )
+
+
+def _kept_day(raw: str) -> dt.date | None:
+    """The day the over-capacity page hands back to the board's row form; None when it is not a day."""
+    try:
+        return dt.date.fromisoformat(raw) if len(raw) == 10 else None
+    except ValueError:
+        return None
+
+
+@login_required
+@require_POST
+def assign(request, public_id):
+    """The board's row form: a technician and the day the visit is planned for, saved together or not at all
+    (``work_order_assign_and_plan``, as the API's assign route)."""
+    wo = work_order_for(user=request.user, public_id=public_id, write=True)
+    form = AssignForm(request.POST, technicians=organisation_technicians(wo.organisation))
+    back = reverse("frontend:board") + "?" + urlencode({"week": request.POST.get("week", "")})
+    if not form.is_valid():
+        for text in (t for texts in form.errors.values() for t in texts):
+            messages.error(request, text)
+        return redirect(back)
+    technician, day, version = (form.cleaned_data[k] for k in ("assignee", "scheduled_for", "version"))
+    try:
+        if version is None:
+            raise WorkOrderConflict(work_order=wo, expected_version=0)
+        check = work_order_assign_and_plan(
+            work_order=wo,
+            assignee=technician,
+            by=request.user,
+            expected_version=version,
+            plan=form.plan,
+            day=day,
+            confirm_over_capacity=form.cleaned_data["confirm_over_capacity"],
+        )
+    except OverCapacity as warning:
+        # Nothing is saved: the supervisor sees the day it would make and chooses.
+        raw_day = request.POST.get("scheduled_for", "").strip()
+        return render(
+            request,
+            "frontend/supervisor/board_confirm.html",
+            {
+                "wo": wo,
+                "check": warning.check,
+                "week": request.POST.get("week", ""),
+                "raw_day": raw_day if form.plan else None,
+                "back": back,
+                "change": back
+                + "&"
+                + urlencode({"change": str(wo.public_id), "assignee": technician.pk, "day": raw_day})
+                + f"#row-{wo.public_id}",
+            },
+        )
+    except ValidationError as exc:
+        messages.error(request, f"{wo.ahu.display_name} — {wo.title}: {' '.join(exc.messages)}")
+    except WorkOrderConflict:
+        messages.error(request, changed_meanwhile(wo))
+    else:
+        planned = f" {work_order_plan_words(work_order=wo, today=today_for(wo.ahu.building.site))}" if day else ""
+        over = ""
+        if check is not None and check.over:
+            over = (
+                f", over capacity: {check.load.hours:.1f} h of {check.load.capacity_hours:.1f} h on {check.day_words()}"
+            )
+        messages.success(request, f"{wo.ahu.display_name} — {wo.title} assigned to {technician}{planned}{over}.")
+    return redirect(back)
