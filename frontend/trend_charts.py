@@ -1,9 +1,11 @@
-"""A unit's trend chart as inline SVG: several lines over time, fault windows shaded, limit lines marked.
+"""A unit's trend chart: its key in HTML above an inline SVG plot of several lines over time, fault windows shaded,
+limit lines marked.
 
 Drawn by hand like ``frontend.charts`` (no inline style: SVG presentation attributes only, so the strict CSP
-holds); the chart scales to its box's width (``.chart svg`` in app.css) and its text is sized to stay legible
-on a 360 px phone (18 units in a 520-wide view ≈ 10 px in the ~294 px a card leaves). The value axis has
-round ticks (``nice_ticks``); a label too long for the width is squeezed to fit, never cut.
+holds). The key (the title, each line's name, the shaded windows, each limit line's words) is the page's own text,
+so it wraps on a phone and never prints over the plot; the plot scales to its box's width (``.chart svg`` in
+app.css) and holds only the axes' numbers and dates, sized to stay legible on a 360 px phone. The value axis has
+round ticks (``nice_ticks``).
 """
 
 from __future__ import annotations
@@ -58,10 +60,45 @@ def nice_ticks(low: float, high: float, *, most: int = 5) -> list[float]:
     return [low, high]
 
 
-def _fit(text: str, size: float, room: float) -> str:
-    """``textLength`` squeezing ``text`` into ``room`` when it would run over (about 0.55 em a glyph, common
-    practice); nothing when it fits."""
-    return f' textLength="{room:.0f}" lengthAdjust="spacingAndGlyphs"' if len(text) * size * 0.55 > room else ""
+# Limit lines are red and told apart by their dash, as the key shows them.
+LIMIT_COLOUR = "#b71c1c"
+LIMIT_DASHES = ("3 5", "10 4", "1 3", "12 4 2 4")
+BAND_FILL = "#d32f2f"
+
+
+def _swatch(*, colour: str, dash: str = "", band: bool = False) -> str:
+    """A key's sample of a line (its colour and dash) or of a shaded window, a small inline SVG."""
+    if band:
+        shape = f'<rect x="0" y="1" width="32" height="12" fill="{BAND_FILL}" fill-opacity="0.25"/>'
+    else:
+        dash_attr = f' stroke-dasharray="{dash}"' if dash else ""
+        shape = f'<line x1="0" y1="7" x2="32" y2="7" stroke="{colour}" stroke-width="3"{dash_attr}/>'
+    return f'<svg class="swatch" viewBox="0 0 32 14" width="32" height="14" aria-hidden="true">{shape}</svg>'
+
+
+def _key(*, label: str, lines: list[ChartLine], bands: list[Band], limits: list[tuple[float, str]]) -> str:
+    """The chart's title and key as HTML above the plot: each line's sample and name, the shaded windows' title and
+    each limit line's dash and words. Text of the page's own size, wrapping on a phone: nothing is squeezed and
+    nothing prints over the plot or over another label."""
+    items = []
+    for i, line in enumerate(lines):
+        colour, dash = STROKES[i % len(STROKES)]
+        items.append(f"<li>{_swatch(colour=colour, dash=dash)} <span>{escape(line.label)}</span></li>")
+    titles = list(dict.fromkeys(b.title for b in bands))
+    for title in titles:
+        items.append(
+            f"<li data-band-key>{_swatch(colour=BAND_FILL, band=True)} <span>Shaded: {escape(title)}</span></li>"
+        )
+    for i, (_value, words) in enumerate(sorted(limits, key=lambda lim: -lim[0])):
+        dash = LIMIT_DASHES[i % len(LIMIT_DASHES)]
+        items.append(
+            f"<li>{_swatch(colour=LIMIT_COLOUR, dash=dash)} "
+            f'<span data-limit-label="{escape(words)}">{escape(words)}</span></li>'
+        )
+    return (
+        f'<figcaption class="chart-key"><strong>{escape(label)}</strong>'
+        f'<ul class="plain">{"".join(items)}</ul></figcaption>'
+    )
 
 
 def trend_chart(
@@ -75,10 +112,11 @@ def trend_chart(
     bands: list[Band] | None = None,
     limits: list[tuple[float, str]] | None = None,
     width: int = 520,
-    height: int = 320,
+    height: int = 340,
 ) -> str:
-    """Lines of one quantity over [start, end) with shaded ``bands`` (each with its title) and dashed
-    ``limits`` (value, words). Days are labelled on the site's clock (``zone``)."""
+    """Lines of one quantity over [start, end) with shaded ``bands`` (each with its title) and dashed ``limits``
+    (value, words), as a figure's inside: its key (``_key``, HTML) and the plot (SVG). Days are labelled on the site's
+    clock (``zone``)."""
     bands = [b for b in (bands or []) if b.end > start and b.start < end]
     limits = list(limits or [])
     values = [v for line in lines for _, v in line.samples] + [v for v, _ in limits]
@@ -86,13 +124,9 @@ def trend_chart(
         return f'<p class="muted">{escape(title)}: no samples in this stretch.</p>'
     ticks = nice_ticks(min(values), max(values))
     v0, v1 = ticks[0], ticks[-1]
-    fs = 18
-    legend_rows = len(lines)
-    left, right = 64, width - 12
-    top = 36 + legend_rows * 24 + (12 if bands else 0)
-    bottom = height - 40
-    height_total = height + legend_rows * 24
-    bottom += legend_rows * 24
+    fs = 22  # 22 units of a 520-wide view ≈ 13 px in the ~310 px a phone's card leaves
+    left, right = 72, width - 12
+    top, bottom = 14, height - 40
     t0, t1 = start.timestamp(), end.timestamp()
 
     def x(t: dt.datetime) -> float:
@@ -103,48 +137,23 @@ def trend_chart(
 
     label = f"{title} ({unit})"
     parts = [
-        f'<svg viewBox="0 0 {width} {height_total}" role="img" aria-label="{escape(label)}" '
+        _key(label=label, lines=lines, bands=bands, limits=limits),
+        f'<svg viewBox="0 0 {width} {height}" role="img" aria-label="{escape(label)}" '
         'xmlns="http://www.w3.org/2000/svg">',
         f"<title>{escape(label)}</title>",
-        f'<text x="4" y="22" fill="currentColor" font-size="{fs}">{escape(label)}</text>',
     ]
-    for i, line in enumerate(lines):
-        colour, dash = STROKES[i % len(STROKES)]
-        lx = 4
-        ly = 48 + i * 24
-        dash_attr = f' stroke-dasharray="{dash}"' if dash else ""
-        parts.append(
-            f'<line x1="{lx}" y1="{ly - 6}" x2="{lx + 30}" y2="{ly - 6}" stroke="{colour}" '
-            f'stroke-width="3"{dash_attr}/>'
-        )
-        parts.append(
-            f'<text x="{lx + 36}" y="{ly}" fill="currentColor" font-size="{fs}"'
-            f"{_fit(line.label, fs, width - lx - 40)}>{escape(line.label)}</text>"
-        )
     for band in bands:
         bx0, bx1 = x(band.start), x(band.end)
         parts.append(
             f'<rect x="{bx0:.1f}" y="{top}" width="{max(bx1 - bx0, 2):.1f}" height="{bottom - top}" '
-            f'fill="#d32f2f" fill-opacity="0.15" data-band="{escape(band.title)}">'
+            f'fill="{BAND_FILL}" fill-opacity="0.15" data-band="{escape(band.title)}">'
             f"<title>{escape(band.title)}</title></rect>"
         )
-    # The first band of each title is named above the plot (the rest share its shade).
-    named: set[str] = set()
-    for band in bands:
-        if band.title in named:
-            continue
-        named.add(band.title)
-        # Fitted to the chart's width (squeezed, never cut).
-        fit = _fit("Shaded: " + band.title + " ", fs, width - 8)
-        parts.append(
-            f'<text x="4" y="{top - 4}" fill="#b71c1c" font-size="{fs}"{fit}>Shaded: {escape(band.title)}</text>'
-        )
-        break
     parts += [
         f'<line x1="{left}" y1="{bottom}" x2="{right}" y2="{bottom}" stroke="currentColor" stroke-width="1"/>',
         f'<line x1="{left}" y1="{top}" x2="{left}" y2="{bottom}" stroke="currentColor" stroke-width="1"/>',
     ]
-    for tick, label in zip(ticks, axis_labels(ticks), strict=True):
+    for tick, tick_label in zip(ticks, axis_labels(ticks), strict=True):
         ty = y(tick)
         if tick != v0:
             parts.append(
@@ -153,7 +162,7 @@ def trend_chart(
             )
         parts.append(
             f'<text x="{left - 6}" y="{ty + fs / 3:.1f}" text-anchor="end" fill="currentColor" font-size="{fs}" '
-            f'data-tick="{tick:g}">{label}</text>'
+            f'data-tick="{tick:g}">{tick_label}</text>'
         )
     tz = zoneinfo.ZoneInfo(zone)
     first, last = start.astimezone(tz), end.astimezone(tz)
@@ -168,20 +177,14 @@ def trend_chart(
         dx = x(day)
         parts.append(f'<line x1="{dx:.1f}" y1="{bottom}" x2="{dx:.1f}" y2="{bottom + 8}" stroke="currentColor"/>')
         day = dt.datetime.combine(day.date() + dt.timedelta(days=1), dt.time(), tzinfo=tz)
-    # Limit labels sit just above their line, pushed down so that close lines (3.3 and 1.0 °C) do not print
-    # their words on top of each other.
-    below = -1e9
-    for value, words in sorted(limits, key=lambda lim: -lim[0]):
+    # Limit lines carry no words on the plot (close lines, 3.3 and 1.0 °C, would print them over each other): each
+    # has its own dash, named in the key.
+    for i, (value, words) in enumerate(sorted(limits, key=lambda lim: -lim[0])):
         ly = y(value)
-        ty = max(ly - 4, below + fs)
-        below = ty
+        dash = LIMIT_DASHES[i % len(LIMIT_DASHES)]
         parts.append(
-            f'<line x1="{left}" y1="{ly:.1f}" x2="{right}" y2="{ly:.1f}" stroke="#b71c1c" stroke-dasharray="3 5" '
-            f'data-limit="{escape(words)}" data-value="{value:g}"/>'
-        )
-        parts.append(
-            f'<text x="{right}" y="{ty:.1f}" text-anchor="end" fill="#b71c1c" font-size="{fs - 2}"'
-            f'{_fit(words, fs - 2, right - left)} data-limit-label="{escape(words)}">{escape(words)}</text>'
+            f'<line x1="{left}" y1="{ly:.1f}" x2="{right}" y2="{ly:.1f}" stroke="{LIMIT_COLOUR}" stroke-width="2" '
+            f'stroke-dasharray="{dash}" data-limit="{escape(words)}" data-value="{value:g}"/>'
         )
     for i, line in enumerate(lines):
         samples = _thin(line.samples)

@@ -86,3 +86,66 @@ def test_a_wrong_trend_file_shows_its_refused_cells(page, live_server, faults_wo
     assert TrendDay.objects.count() == before
     _no_sideways_scroll(page, size["width"])
     page.screenshot(path=str(screenshots / f"trend-upload-errors-{name}.png"), full_page=True)
+
+
+@pytest.fixture
+def freeze_world(faults_world, time_machine):
+    """The stuck-damper unit also had a night with the supply air at 0.5 °C (below every freeze stage)."""
+    import datetime as dt
+
+    from automation.fault_models import Fault
+    from automation.judging import unit_day_judge
+    from automation.trends import trend_import
+    from tests.frontend.test_automation_pages import FREEZE_DAY, freeze_day_csv
+
+    site, ahu = faults_world["site"], faults_world["ahu"]
+    time_machine.move_to(dt.datetime(2026, 1, 21, 1, tzinfo=dt.UTC), tick=False)
+    trend_import(site=site, text=freeze_day_csv(ahu.tag, FREEZE_DAY), layout="wide")
+    unit_day_judge(ahu=ahu, day=FREEZE_DAY)
+    time_machine.move_to(dt.datetime(2026, 1, 22, 11, tzinfo=dt.UTC), tick=True)
+    return {**faults_world, "freeze": Fault.objects.get(ahu=ahu, code=Fault.FREEZE)}
+
+
+def _overlap(a: dict, b: dict) -> bool:
+    return (
+        a["x"] < b["x"] + b["width"]
+        and b["x"] < a["x"] + a["width"]
+        and a["y"] < b["y"] + b["height"]
+        and b["y"] < a["y"] + a["height"]
+    )
+
+
+@pytest.mark.parametrize(("size", "name"), [(PHONE, "360"), (DESKTOP, "1280")])
+def test_the_freeze_evidence_chart_is_readable_on_a_phone_and_its_labels_never_overlap(
+    page, live_server, freeze_world, sign_in, screenshots, size, name
+):
+    """On a 360 px phone the chart takes the card's width and its numbers read at 13 px or more (the old chart's at
+    10 px); the key's words (the lines, the shaded window, the three freeze-stage lines) stand above the plot, none
+    over another or over the plot (the old "Shaded: …" caption ran over the axis and the stage labels over each
+    other); nothing is wider than the screen."""
+    fault = freeze_world["freeze"]
+    page.set_viewport_size(size)
+    sign_in(page, freeze_world["boss"])
+    page.goto(f"{live_server.url}/faults/{fault.pk}/")
+    figure = page.locator('[data-chart="temperatures"]')
+    plot = figure.locator(":scope > svg")
+    expect(plot).to_be_visible()
+    card = figure.bounding_box()
+    box = plot.bounding_box()
+    assert card is not None and box is not None
+    if size == PHONE:  # the card's width, bar its padding (at a desk it stops at 48rem)
+        assert box["width"] >= card["width"] - 40 and box["width"] >= 0.8 * size["width"], (box, card)
+    tick = plot.locator("text[data-tick]").first.bounding_box()
+    assert tick is not None and tick["height"] >= 14, tick  # a 13 px font or more (the old chart's read 10 px)
+    labels = figure.locator(".chart-key li")
+    expect(figure.locator("[data-limit-label]")).to_have_count(3)
+    boxes = [labels.nth(i).bounding_box() for i in range(labels.count())]
+    assert len(boxes) >= 5 + 1 + 3 and all(b is not None for b in boxes)  # five lines, the window, three stages
+    for i, a in enumerate(boxes):
+        assert a["y"] + a["height"] <= box["y"] + 1, (a, box)  # above the plot
+        assert a["x"] + a["width"] <= size["width"], a
+        for b in boxes[i + 1 :]:
+            assert not _overlap(a, b), (a, b)
+    expect(page.locator("[data-fault-reason]")).to_contain_text("stayed below")
+    _no_sideways_scroll(page, size["width"])
+    page.screenshot(path=str(screenshots / f"freeze-evidence-{name}.png"), full_page=True)
