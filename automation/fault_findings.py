@@ -15,12 +15,19 @@ from __future__ import annotations
 
 import contextlib
 import datetime as dt
+import inspect
 import zoneinfo
 
 from accounts.clock import local_time_text
 from engineering.faults.consequences import consequence_text
+from engineering.faults.freeze import G36_FREEZE_STAGES, STAGE_ACTIONS, FreezeStage, stage_number
+from engineering.faults.rules import RULES_BY_CODE
+from engineering.filters import filter_loading
+from engineering.formatting import count_text
 from inspections import reasons
 from inspections.models import Finding
+
+from .fault_models import Fault
 
 # The finding's source: the same value the trend-fed meter readings and filter points carry.
 SOURCE = Finding.Source.BAS_TREND.value
@@ -67,10 +74,87 @@ def share_words(share: float | None) -> str:
     return "" if share is None else f"{share * 100:.0f} % of the operating time the rule could judge"
 
 
-def finding_parts(*, code: str, formula: str, evidence: dict, consequence: dict | None, zone: str) -> list:
-    """The finding's text (inspections.reasons parts, SI): where it was found and by which rule, what the rule
-    tests, the latest evidence window and the share of the operating time, the days, and what it costs."""
-    parts: list = [f"Found in the {SOURCE_WORDS} by rule {code}"]
+def duration_words(seconds: float) -> str:
+    """A length of time as a person says it: "45 min", "1 h 30 min", "3 h"."""
+    minutes = max(round(seconds / 60), 0)
+    hours, rest = divmod(minutes, 60)
+    if not hours:
+        return f"{rest} min"
+    return f"{hours} h {rest} min" if rest else f"{hours} h"
+
+
+def _stage_of(w: dict) -> FreezeStage | None:
+    """A freeze window's stage as the rule defines it (windows kept before they carried ``for_s`` name the stage and
+    its temperature only)."""
+    if w.get("stage") is None or w.get("below_c") is None:
+        return None
+    if w.get("for_s") is not None:
+        return FreezeStage(str(w["stage"]), float(w["below_c"]), float(w["for_s"]))
+    return next((st for st in G36_FREEZE_STAGES if st.name == w["stage"] and st.below_c == w["below_c"]), None)
+
+
+def freeze_parts(windows: list[dict]) -> list:
+    """What a freeze event's latest day says, as reason parts (temperatures SI, rendered in the reader's units): how
+    low the supply air went, how long it stayed below the temperature of the highest stage it reached, which stage
+    that is and how the stage is reached (``G36_FREEZE_STAGES``), what the guideline's freeze protection does at that
+    stage (``STAGE_ACTIONS``), and that the unit is not ready until its freeze-protection test passes again."""
+    days = [w["day"] for w in windows if w.get("day")]
+    latest = [w for w in windows if w.get("day") == max(days)] if days else list(windows)
+    staged = [(w, st) for w in latest if (st := _stage_of(w)) is not None]
+    lows = [float(w["lowest_c"]) for w in latest if w.get("lowest_c") is not None]
+    parts: list = ["The supply air fell"]
+    if lows:
+        parts += [" to ", reasons.q(min(lows), "temperature")]
+    if days:
+        parts.append(f" on {dt.date.fromisoformat(str(max(days))):%-d %b %Y}")  # the pages' date style
+    if staged:
+        top = max(stage_number(st.name) for _, st in staged)
+        # The window of the highest stage at its warmest temperature: the longest time the air stayed that cold.
+        w, stage = max(
+            ((w, st) for w, st in staged if stage_number(st.name) == top),
+            key=lambda pair: (pair[1].below_c, float(pair[0].get("duration_s") or 0.0)),
+        )
+        if w.get("duration_s") is not None:
+            parts += [" and stayed below ", reasons.q(stage.below_c, "temperature")]
+            parts.append(f" for {duration_words(float(w['duration_s']))}")
+        parts.append(f": that is freeze-protection {stage.name} (")
+        ways = [st for st in G36_FREEZE_STAGES if st.name == stage.name] or [stage]
+        for i, st in enumerate(ways):
+            parts += [
+                " or " if i else "",
+                "below ",
+                reasons.q(st.below_c, "temperature"),
+                f" for {st.for_s / 60:g} min",
+            ]
+        parts.append(")")
+        last = max(stage_number(st.name) for st in G36_FREEZE_STAGES)
+        if stage_number(stage.name) == last:
+            parts.append(", the last stage")
+        action = STAGE_ACTIONS.get(stage.name)
+        if action:
+            parts.append(f". At {stage.name} of the guideline's freeze protection {action}")
+    parts.append(". The unit is not ready for freeze protection until its freeze-protection test passes again")
+    return reasons.flatten(parts)
+
+
+def freeze_text(windows: list[dict], system: str = "si") -> str:
+    """``freeze_parts`` in ``system``'s units ("si" or "us"): the freeze event as the fault, its work and its
+    finding say it."""
+    return reasons.render(freeze_parts(windows), system)
+
+
+def finding_parts(
+    *, code: str, formula: str, evidence: dict, consequence: dict | None, zone: str, windows: list[dict] | None = None
+) -> list:
+    """The finding's text (inspections.reasons parts, SI): the rule and what it tests, the latest evidence window
+    and the share of the operating time, the days, and what it costs; a freeze event says what happened
+    (``freeze_parts``). Where it was found is the finding's source (``Finding.source_words``), which every page
+    and PDF says beside this text: the text does not say it again."""
+    days = int(evidence.get("days") or 0)
+    days_words = f"; found on {count_text(days, 'day')}" if days else ""
+    if code == Fault.FREEZE and windows:
+        return reasons.flatten(freeze_parts(windows), days_words)
+    parts: list = [f"Rule {code}"]
     if formula:
         parts.append(f" ({formula})")
     window = evidence_window_words(evidence, zone)
@@ -79,22 +163,14 @@ def finding_parts(*, code: str, formula: str, evidence: dict, consequence: dict 
     share = share_words(evidence.get("share"))
     if share:
         parts.append(f", {share} that day")
-    days = int(evidence.get("days") or 0)
-    if days:
-        parts.append(f"; found on {days} day{'' if days == 1 else 's'}")
+    parts.append(days_words)
     if evidence.get("lowest_c") is not None:
         parts += ["; the supply air fell to ", {"value": float(evidence["lowest_c"]), "quantity": "temperature"}]
     # What it costs, in the reader's units when read; without a number, what the rule's fault risks and what to
     # check first (engineering.faults.consequences.RISKS: "check for a leaking cooling valve or a faulty sensor").
     if consequence_text(code, consequence):
         parts += ["; ", reasons.consequence(code, consequence or {})]
-    merged: list = []
-    for p in parts:  # adjacent texts as one (inspections.reasons.flatten)
-        if isinstance(p, str) and merged and isinstance(merged[-1], str):
-            merged[-1] += p
-        else:
-            merged.append(p)
-    return merged
+    return reasons.flatten(parts)
 
 
 def finding_fields(fault) -> dict:
@@ -111,7 +187,12 @@ def finding_fields(fault) -> dict:
         "rule": fault.code,
         "evidence": evidence,
         "reason_parts": finding_parts(
-            code=fault.code, formula=fault.formula, evidence=evidence, consequence=fault.consequence, zone=zone
+            code=fault.code,
+            formula=fault.formula,
+            evidence=evidence,
+            consequence=fault.consequence,
+            zone=zone,
+            windows=fault.windows,
         ),
         "first_seen_at": fault.first_seen_at,
         "last_seen_at": fault.last_seen_at,
@@ -119,9 +200,46 @@ def finding_fields(fault) -> dict:
     }
 
 
+def trend_reading_parts(*, rule: str, evidence: dict, component=None) -> tuple[list, list]:
+    """A trend finding's "Reading" and "Limit" as reason parts (SI; rendered in the reader's units): what the trends
+    saw and what it was judged against, where a visit's finding shows its reading and limit.
+
+    A loaded filter: its pressure drop at design airflow (the day's median) and its share of the clean-to-final span,
+    against the change point and the bank's final pressure drop. A freeze event: the lowest supply air, against the
+    first freeze-protection stage. A guideline rule: the share of the operating time it held on its latest day,
+    against the rule's test. Empty lists where the evidence holds nothing to say."""
+    specs = (component.specs or {}) if component is not None else {}
+    if rule == FILTER_RULE:
+        reading: list = []
+        if evidence.get("corrected_dp_pa") is not None:
+            dp = reasons.q(float(evidence["corrected_dp_pa"]), "pressure")
+            reading += [dp, " at design airflow (the day's median)"]
+        if evidence.get("loading_pct") is not None:
+            share = f"{float(evidence['loading_pct']):.0f} % of the clean-to-final span"
+            reading.append(f", {share}" if reading else share)
+        limit: list = [f"change at {FILTER_CHANGE_FRACTION * 100:.0f} % of the span"]
+        if specs.get("clean_dp_pa") is not None and specs.get("final_dp_pa") is not None:
+            limit += [" from clean ", reasons.q(float(specs["clean_dp_pa"]), "pressure")]
+            limit += [" to final ", reasons.q(float(specs["final_dp_pa"]), "pressure")]
+        return reasons.flatten(reading), reasons.flatten(limit)
+    if rule == Fault.FREEZE:
+        first = min(G36_FREEZE_STAGES, key=lambda st: (stage_number(st.name), -st.below_c))
+        reading = (
+            ["supply air down to ", reasons.q(float(evidence["lowest_c"]), "temperature")]
+            if evidence.get("lowest_c") is not None
+            else []
+        )
+        limit = [f"freeze-protection {first.name}: below ", reasons.q(first.below_c, "temperature")]
+        return reading, reasons.flatten(limit, f" for {first.for_s / 60:g} min")
+    share = share_words(evidence.get("share"))
+    reading = [f"fault during {share} on its latest day"] if share else []
+    known = RULES_BY_CODE.get(rule)
+    return reading, ([f"rule {rule}: {known.formula}"] if known is not None else [])
+
+
 def absent_words(days: int) -> str:
     """Why a trend finding closed when its fault was no longer found: "absent for 7 days in the trends"."""
-    return f"absent for {days} day{'' if days == 1 else 's'} in the {SOURCE_WORDS}"
+    return f"absent for {count_text(days, 'day')} in the {SOURCE_WORDS}"
 
 
 # ---------------------------------------------------------------------------
@@ -177,7 +295,12 @@ def fault_finding_close(*, fault, at: dt.datetime, cause: str, by) -> None:
 # ---------------------------------------------------------------------------
 
 FILTER_RULE = "FILTER"  # the finding's rule: a trend finding names one (the findings' DB constraint)
-FILTER_SECTION = "change at 95 % of the clean-to-final pressure-drop span (engineering.filters; common practice)"
+# The change point the feed judges with: ``engineering.filters.filter_loading``'s own fail fraction.
+FILTER_CHANGE_FRACTION = float(inspect.signature(filter_loading).parameters["fail_fraction"].default)
+FILTER_SECTION = (
+    f"change at {FILTER_CHANGE_FRACTION * 100:.0f} % of the clean-to-final pressure-drop span "
+    "(engineering.filters; common practice)"
+)
 
 
 def _open_filter_finding(bank):
@@ -238,9 +361,10 @@ def filter_finding_keep(*, bank, row, judged, start: dt.datetime, end: dt.dateti
         section=FILTER_SECTION, windows=[{"start": start.isoformat(), "end": end.isoformat()}], share=None, days=days
     )
     evidence.update(corrected_dp_pa=round(row.corrected_dp_pa, 1), loading_pct=row.loading_pct)
-    # The judgement in the reader's units (its quantities as parts); the forecast words stay on the day.
+    # The judgement in the reader's units (its quantities as parts); the forecast words stay on the day. Where it was
+    # found (the source) and the bank (the title) are said beside the text by every page: not again in it.
     parts = reasons.flatten(
-        f"Found in the {SOURCE_WORDS} on {row.day:%-d %b %Y}: {bank.name}: ",
+        f"{row.day:%-d %b %Y}: ",
         list(judged.parts),
         f" (trend median of {row.samples} samples with the fan running)",
     )

@@ -13,13 +13,11 @@ from django.conf import settings
 from django.db.models import Q
 from django.utils import timezone
 
-from engineering import formatting as fmt
-from engineering.faults import G36_DEFAULTS, G36_FREEZE_STAGES, FaultResult, FreezeEvent, FreezeStage
+from engineering.faults import G36_DEFAULTS, FaultResult, FreezeEvent
 from engineering.faults.consequences import consequence_text
-from engineering.faults.freeze import stage_words
 from inventory.models import AHU
 
-from .fault_findings import fault_finding_close, fault_finding_keep
+from .fault_findings import fault_finding_close, fault_finding_keep, freeze_text
 from .fault_models import Fault
 
 # The section number is from memory (no printed copy at hand); readers see the citation without that note.
@@ -121,35 +119,11 @@ def seen_fault(r: FaultResult, day: dt.date, start: dt.datetime, end: dt.datetim
     return Seen(r.code, r.title, r.section, r.formula, windows, fault_s, r.share, consequence, reason)
 
 
-def _stage_of(w: dict) -> FreezeStage | None:
-    """A freeze window's stage as the rule defines it (windows kept before they carried ``for_s`` name the
-    stage and its temperature only)."""
-    if w.get("stage") is None or w.get("below_c") is None:
-        return None
-    if w.get("for_s") is not None:
-        return FreezeStage(str(w["stage"]), float(w["below_c"]), float(w["for_s"]))
-    return next((st for st in G36_FREEZE_STAGES if st.name == w["stage"] and st.below_c == w["below_c"]), None)
-
-
 def freeze_reason(windows: list[dict], system: str = "si") -> str:
-    """What a freeze fault says for its latest day, in ``system``'s units (``engineering.formatting``): the lowest
-    air, the stages reached (``engineering.faults.freeze.stage_words``, the words the chart's lines use) and
-    what follows. Kept SI in ``Fault.reason``; pages render it again for their reader."""
-    days = [w["day"] for w in windows if w.get("day")]
-    latest = [w for w in windows if w.get("day") == max(days)] if days else list(windows)
-    lows = [float(w["lowest_c"]) for w in latest if w.get("lowest_c") is not None]
-    stages = sorted(
-        {st for w in latest if (st := _stage_of(w)) is not None}, key=lambda st: (st.name, -st.below_c, st.for_s)
-    )
-    said = [stage_words(st, fmt.quantity_text(st.below_c, quantity="temperature", system=system)) for st in stages]
-    low = f" the air fell to {fmt.quantity_text(min(lows), quantity='temperature', system=system)}" if lows else ""
-    on = f" on {dt.date.fromisoformat(str(max(days))):%-d %b %Y}" if days else ""  # the pages' date style
-    return (
-        f"{FREEZE_TITLE}:{low}{on}, reaching "
-        + "; ".join(said)
-        + ". The unit stays not ready for freeze protection until its freeze-protection test passes again"
-        " — found in the building-automation trends"
-    )
+    """What a freeze fault says for its latest day, in ``system``'s units: ``fault_findings.freeze_text`` (what the
+    supply air did, the stage and what it means), with where it was found. Kept SI in ``Fault.reason``; pages render
+    it again for their reader."""
+    return freeze_text(windows, system) + " — found in the building-automation trends"
 
 
 def fault_reason(fault: Fault, system: str) -> str:

@@ -1,4 +1,5 @@
-"""Reads of what the trends found: faults, a unit's trend with its fault windows, a bank's filter days.
+"""Reads of what the trends found: faults, the filters they found loaded, a unit's trend with its fault windows, a
+bank's filter days.
 
 Every list starts from ``inventory.selectors.sites_visible_to`` (the tenancy rule); one fault named in a URL
 comes through ``fault_for``.
@@ -13,6 +14,7 @@ from django.db.models import QuerySet
 from django.http import Http404
 
 from accounts.models import User
+from inspections.models import Finding
 from inventory.models import AHU, Component, Site
 from inventory.selectors import sites_visible_to
 
@@ -34,6 +36,24 @@ def faults_visible_to(
     if open_only:
         faults = faults.filter(state=Fault.State.OPEN)
     return faults.select_related("ahu__building__site", "component", "corrective_work_order").order_by(
+        "-last_seen_at", "-id"
+    )
+
+
+def loaded_filters_visible_to(*, user: User, site: Site | None = None) -> QuerySet[Finding]:
+    """The open findings "filter loaded" the trends raised (``automation.feeds.filter_feed`` through
+    ``fault_findings.filter_finding_keep``: a bank's pressure sensor at its change point, the change proposed) on the
+    sites the person may see (optionally one site), latest seen first, with their unit, site, bank and proposed work
+    read in the same query. They are no ``Fault`` (no guideline rule found them), yet the faults pages list them
+    beside the faults with the work each proposed."""
+    from inspections.selectors import findings_visible_to
+
+    from .fault_findings import FILTER_RULE, SOURCE
+
+    found = findings_visible_to(user=user).filter(source=SOURCE, rule=FILTER_RULE, state=Finding.State.OPEN)
+    if site is not None:
+        found = found.filter(ahu__building__site=site)
+    return found.select_related("ahu__building__site", "component", "corrective_work_order").order_by(
         "-last_seen_at", "-id"
     )
 

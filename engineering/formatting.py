@@ -126,3 +126,9 @@ def significant_text(x: float, *, figures: int = 4) -> str:
     """A typed number echoed back to its sender at ``figures`` significant figures, without trailing zeros
     and with a true minus sign: 249.08891 → "249.1", 100000 → "100000", −0.5 → "−0.5"."""
     return f"{float(f'{x:.{figures}g}'):g}".replace("-", "−")
+
+
+def count_text(n: int, noun: str, plural: str | None = None) -> str:
+    """A count with its noun as people say it: "1 day", "10 days", "0 parts"; ``plural`` where adding "s" is
+    wrong ("1 inspection record", "2 inspection records" need none; "1 child", "2 children" do)."""
+    return f"{n} {noun if n == 1 else (plural or noun + 's')}"

@@ -58,15 +58,29 @@ def stage_lines(stages: Sequence[FreezeStage] = G36_FREEZE_STAGES) -> tuple[tupl
     return tuple((t, tuple(by_temp[t])) for t in sorted(by_temp, reverse=True))
 
 
-def stage_words(stage: FreezeStage, temperature: str) -> str:
-    """A stage as the text and the chart both say it: "stage 3 (below 3.3 °C for 15 min)", the temperature
-    already in the reader's units."""
-    return f"{stage.name} (below {temperature} for {stage.for_s / 60:g} min)"
-
-
 def stage_line_words(temperature: str, stages: Sequence[FreezeStage]) -> str:
     """One temperature's limit line on a chart: "freeze below 3.3 °C: stage 2 after 5 min, stage 3 after 15 min"."""
     return f"freeze below {temperature}: " + ", ".join(f"{st.name} after {st.for_s / 60:g} min" for st in stages)
+
+
+# What the guideline's freeze protection does at each stage, in plain words for the person who reads a freeze event
+# (ASHRAE Guideline 36, May 2020, section 5.16.12, as the documentation of the FreezeProtection block of the Modelica
+# Buildings library named above states it). Words only: the stages' temperatures and times are ``G36_FREEZE_STAGES``.
+# What the unit's own controls did is in its trends, not here.
+STAGE_ACTIONS: dict[str, str] = {
+    "stage 1": "the outdoor-air damper is held at its minimum and the heating is turned up to warm the supply air",
+    "stage 2": "the outdoor air is shut off completely for an hour and an alarm says the ventilation was interrupted",
+    "stage 3": (
+        "the supply and return fans stop, the outdoor-air damper closes, the cooling valve opens fully, the heating "
+        "keeps the air in the unit warm and an alarm says the unit was shut down; it stays off until someone resets it"
+    ),
+}
+
+
+def stage_number(name: str) -> int:
+    """A stage's place in the order ("stage 3" → 3; 0 for a name without a number)."""
+    digits = "".join(ch for ch in name if ch.isdigit())
+    return int(digits) if digits else 0
 
 
 # What a freeze event risks, said where a rule's consequence is (the trends give no number for it).

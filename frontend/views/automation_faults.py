@@ -7,10 +7,13 @@ person's units. One fault's evidence is ``automation_trends``.
 
 from __future__ import annotations
 
+import datetime as dt
+import zoneinfo
 from collections import defaultdict
 
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied
+from django.db.models import Q
 from django.shortcuts import render
 from django.urls import reverse
 from django.utils import timezone
@@ -19,14 +22,16 @@ from django.views.decorators.http import require_GET
 from accounts.models import Role
 from accounts.selectors import primary_role
 from automation.fault_models import Fault
-from automation.fault_selectors import faults_visible_to
+from automation.fault_selectors import faults_visible_to, loaded_filters_visible_to
 from automation.judging import fault_reason
 from engineering.faults.consequences import consequence_text
 from engineering.faults.freeze import FREEZE_RISK
 from inspections.freeze import freeze_readiness_for
+from inspections.selectors import reason_for
 from inventory.selectors import sites_managed_by, sites_visible_to
 
 MANAGING = {Role.SUPERVISOR, Role.ADMIN}
+DEFAULT_DAYS = 7  # a unit's trend page shows a week unless asked otherwise
 
 
 CLOSED_SHOWN = 50
@@ -44,13 +49,10 @@ def _consequence_words(fault: Fault, system: str) -> str:
     return consequence_text(fault.code, fault.consequence, system)
 
 
-def fault_row(fault: Fault, system: str) -> dict:
-    wo = fault.corrective_work_order
+def _work_cells(wo) -> dict:
+    """The corrective work a fault or a loaded filter proposed: its title, state in words and where to act on it
+    (a proposal awaiting approval: the corrective page; else its work order)."""
     return {
-        "fault": fault,
-        "share": None if fault.share is None else round(fault.share * 100),
-        "consequence": _consequence_words(fault, system),
-        "reason": fault_reason(fault, system),
         "work": wo,
         "work_words": wo.state_words if wo else "",
         "work_url": (
@@ -61,11 +63,86 @@ def fault_row(fault: Fault, system: str) -> dict:
     }
 
 
+def fault_row(fault: Fault, system: str) -> dict:
+    """One fault as the faults pages show it (the active list's cells, the closed list, a fault's evidence page)."""
+    return {
+        "fault": fault,
+        "finding": None,
+        "ahu": fault.ahu,
+        "site": fault.ahu.building.site,
+        "title": fault.title,
+        "part": fault.component.name if fault.component_id else "",
+        "code": fault.code,
+        "section": fault.section,
+        "finding_id": fault.finding_id,
+        "first_seen_at": fault.first_seen_at,
+        "last_seen_at": fault.last_seen_at,
+        "share": None if fault.share is None else round(fault.share * 100),
+        "share_words": "",
+        "consequence": _consequence_words(fault, system),
+        "reason": fault_reason(fault, system),
+        "evidence_url": reverse("frontend:fault", kwargs={"pk": fault.pk}),
+        **_work_cells(fault.corrective_work_order),
+    }
+
+
+def loaded_filter_row(finding, system: str) -> dict:
+    """A filter bank the trends found loaded (``automation.fault_selectors.loaded_filters_visible_to``), in the same
+    cells as a fault: what was found in the reader's units, since when, the change it proposed, and its evidence,
+    the unit's trends over the week up to the day it was last seen (the bank's pressure drop on the pressures
+    chart)."""
+    site = finding.ahu.building.site
+    part = finding.component.name if finding.component_id else ""
+    last_day = (finding.last_seen_at or finding.opened_at).astimezone(zoneinfo.ZoneInfo(site.time_zone))
+    # The site day a trend day ends at its next midnight: the day before that midnight is the one judged.
+    last_day = (last_day - dt.timedelta(microseconds=1)).date()
+    start = last_day - dt.timedelta(days=DEFAULT_DAYS - 1)
+    return {
+        "fault": None,
+        "finding": finding,
+        "ahu": finding.ahu,
+        "site": site,
+        "title": finding.title.removesuffix(f" — {part}") if part else finding.title,
+        "part": part,
+        "code": "Filter pressure drop",
+        "section": (finding.evidence or {}).get("section", ""),
+        "finding_id": finding.pk,
+        "first_seen_at": finding.opened_at,
+        "last_seen_at": finding.last_seen_at or finding.opened_at,
+        "share": None,
+        "share_words": "judged on the day's median",
+        "consequence": reason_for(evaluation=finding, unit_system=system),
+        "reason": reason_for(evaluation=finding, unit_system=system),
+        "evidence_url": reverse("frontend:unit_trends", kwargs={"pk": finding.ahu_id}) + f"?start={start.isoformat()}",
+        **_work_cells(finding.corrective_work_order),
+    }
+
+
+def site_choice(raw: str, sites: list) -> tuple[object | None, str]:
+    """The site a faults page is filtered by (``?site=``): one of ``sites`` (those the person may see), or none
+    asked. Anything else — another's site, a word, a number of no site — is named at the field with what is allowed
+    (the page answers 400 and lists nothing), never a bare "not found" that would tell whether the site exists."""
+    if not raw:
+        return None, ""
+    chosen = next((s for s in sites if str(s.pk) == raw), None)
+    if chosen is None:
+        return None, f"Site: {raw[:20]!r} is not one of the sites you may see; choose one of the list."
+    return chosen, ""
+
+
+def _active_rows(request, site, system: str, faults: list[Fault]) -> list[dict]:
+    """The active faults (open, of ``faults``) and the filters the trends found loaded, latest seen first."""
+    rows = [fault_row(f, system) for f in faults if f.state == Fault.State.OPEN]
+    rows += [loaded_filter_row(f, system) for f in loaded_filters_visible_to(user=request.user, site=site)]
+    return sorted(rows, key=lambda r: r["last_seen_at"], reverse=True)
+
+
 @login_required
 @require_GET
 def faults(request):
-    """Supervisors and administrators: the active faults of every site they see (filter by site), closed ones
-    folded away. A property manager: a summary of their own sites. Anyone else: forbidden."""
+    """Supervisors and administrators: the active faults of every site they see (filter by site) with the filters
+    the trends found loaded, closed ones folded away. A property manager: a summary of her own sites (filter by
+    site). Anyone else: forbidden."""
     role = _role(request)
     if role == Role.PROPERTY_MANAGER:
         return _manager_summary(request)
@@ -73,15 +150,10 @@ def faults(request):
         raise PermissionDenied("Only a supervisor, administrator or property manager may open the faults.")
     system = request.user.unit_system
     sites = list(sites_visible_to(user=request.user).order_by("name"))
-    raw = request.GET.get("site", "")
-    chosen = next((s for s in sites if str(s.pk) == raw), None) if raw else None
-    # An unknown filter value is named at the field (400), not answered with a bare "not found", and lists nothing.
-    problem = (
-        f"Site: {raw[:20]!r} is not one of the sites you may see; choose one of the list." if raw and not chosen else ""
-    )
+    chosen, problem = site_choice(request.GET.get("site", ""), sites)
     active, closed, closed_total = [], [], 0
     if not problem:
-        active = [fault_row(f, system) for f in faults_visible_to(user=request.user, site=chosen)]
+        active = _active_rows(request, chosen, system, list(faults_visible_to(user=request.user, site=chosen)))
         closed_qs = faults_visible_to(user=request.user, site=chosen, open_only=False).filter(state=Fault.State.CLOSED)
         closed = [fault_row(f, system) for f in closed_qs[:CLOSED_SHOWN]]
         closed_total = closed_qs.count()
@@ -102,41 +174,61 @@ def faults(request):
 
 
 def _manager_summary(request):
-    """Her sites' active faults counted per site, then each one in plain words: the unit, what was found, since
-    when, what the service company does about it and her finding's page (its evidence in words); the freeze events
-    that keep a unit from being ready. The evidence charts stay the supervisors'."""
+    """Her sites' active faults and loaded filters counted per site, then each one in plain words: the unit, what
+    was found, since when, what the service company does about it and her finding's page (its evidence in words);
+    the freeze events that keep a unit from being ready. Filtered by one of her sites (``?site=``, refused as the
+    supervisor's page refuses it). The faults are read once: the open ones and every freeze event together. The
+    evidence charts stay the supervisors'."""
+    system = request.user.unit_system
     sites = list(sites_visible_to(user=request.user).order_by("name"))
+    chosen, problem = site_choice(request.GET.get("site", ""), sites)
+    shown_sites = [chosen] if chosen is not None else sites
     counts: dict[int, int] = defaultdict(int)
-    active = []
-    for f in faults_visible_to(user=request.user):
-        counts[f.ahu.building.site_id] += 1
-        wo = f.corrective_work_order
-        active.append(
-            {
-                "fault": f,
-                "site": f.ahu.building.site,
-                "work_words": wo.state_words if wo else "no work yet",
-                "finding_url": reverse("frontend:manager_finding", kwargs={"pk": f.finding_id}) if f.finding_id else "",
-            }
+    active, freeze = [], []
+    if not problem:
+        read = list(
+            faults_visible_to(user=request.user, site=chosen, open_only=False).filter(
+                Q(state=Fault.State.OPEN) | Q(code=Fault.FREEZE)
+            )
         )
-    active.sort(key=lambda r: (r["site"].name, r["fault"].ahu.tag, r["fault"].first_seen_at))
-    readiness = {r.unit.pk: r for r in freeze_readiness_for(user=request.user, as_of=timezone.now())}
-    freeze = []
-    for f in faults_visible_to(user=request.user, open_only=False).filter(code=Fault.FREEZE):
-        r = readiness.get(f.ahu_id)
-        if r is not None and r.ready:
-            continue
-        if f.state == Fault.State.CLOSED and r is None:
-            continue
-        freeze.append(
-            {
-                "fault": f,
-                "readiness": r,
-                "work_words": f.corrective_work_order.state_words if f.corrective_work_order else "",
-            }
-        )
+        for r in _active_rows(request, chosen, system, read):
+            counts[r["site"].pk] += 1
+            if not r["work"]:
+                r["work_words"] = "no work yet"
+            r["finding_url"] = (
+                reverse("frontend:manager_finding", kwargs={"pk": r["finding_id"]}) if r["finding_id"] else ""
+            )
+            active.append(r)
+        active.sort(key=lambda r: (r["site"].name, r["ahu"].tag, r["first_seen_at"]))
+        readiness = {
+            r.unit.pk: r
+            for r in freeze_readiness_for(
+                user=request.user, site_ids=[chosen.pk] if chosen else None, as_of=timezone.now()
+            )
+        }
+        for f in (f for f in read if f.code == Fault.FREEZE):
+            r = readiness.get(f.ahu_id)
+            if r is not None and r.ready:
+                continue
+            if f.state == Fault.State.CLOSED and r is None:
+                continue
+            freeze.append(
+                {
+                    "fault": f,
+                    "readiness": r,
+                    "work_words": f.corrective_work_order.state_words if f.corrective_work_order else "",
+                }
+            )
     return render(
         request,
         "frontend/automation/manager_faults.html",
-        {"rows": [{"site": s, "active": counts.get(s.pk, 0)} for s in sites], "active": active, "freeze": freeze},
+        {
+            "rows": [{"site": s, "active": counts.get(s.pk, 0)} for s in shown_sites],
+            "active": active,
+            "freeze": freeze,
+            "sites": sites,
+            "chosen": chosen,
+            "site_problem": problem,
+        },
+        status=400 if problem else 200,
     )

@@ -26,11 +26,8 @@ from engineering.units import to_display, unit_label
 from inventory.today import today_for
 
 from ..trend_charts import Band, ChartLine, trend_chart
-from .automation_faults import MANAGING, fault_row
+from .automation_faults import DEFAULT_DAYS, MANAGING, fault_row
 from .staff import managed_ahu
-
-DEFAULT_DAYS = 7
-
 
 MAX_DAYS = 31
 

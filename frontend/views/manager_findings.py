@@ -16,6 +16,7 @@ from django.utils import timezone
 from django.views.decorators.http import require_GET
 
 from accounts.clock import local_date_of
+from inspections import reasons
 from inspections.freeze import freeze_readiness
 from inspections.models import Evaluation, Finding, Reading
 from inspections.reasons import text_without_subject
@@ -69,6 +70,19 @@ def _readings_of(evaluations: list[Evaluation]) -> dict[tuple[int, str, int | No
         if key in wanted:
             out[key] = r
     return out
+
+
+def trend_reading_and_limit(finding: Finding, system: str) -> tuple[str, str]:
+    """What the building-automation trends saw and what it was judged against, in the reader's units
+    (``automation.fault_findings.trend_reading_parts``: a loaded filter's pressure drop and change point, a freeze
+    event's lowest supply air and first stage, a rule's share of the operating time and its test); "—" only where
+    the evidence holds nothing."""
+    from automation.fault_findings import trend_reading_parts
+
+    reading, limit = trend_reading_parts(
+        rule=finding.rule, evidence=finding.evidence or {}, component=finding.component
+    )
+    return reasons.render(reading, system) or "—", reasons.render(limit, system) or "—"
 
 
 def reading_and_limit(e: Evaluation | None, readings: dict, system: str) -> tuple[str, str]:
@@ -141,7 +155,9 @@ def findings_list(request):
         readings = _readings_of([e for e in judged if e is not None])
         for f, e in zip(found, judged, strict=True):
             site = f.ahu.building.site
-            value, limit = reading_and_limit(e, readings, system)
+            value, limit = (
+                trend_reading_and_limit(f, system) if f.from_trends else reading_and_limit(e, readings, system)
+            )
             rows.append(
                 {
                     "f": f,
@@ -209,7 +225,9 @@ def finding_detail(request, pk: int):
         }
         for p in finding_photos(finding=finding, inspection_ids=[e.inspection_id for e in observations])
     ]
-    value, limit = reading_and_limit(latest, readings, system)
+    value, limit = (
+        trend_reading_and_limit(finding, system) if finding.from_trends else reading_and_limit(latest, readings, system)
+    )
     wo = finding.corrective_work_order
     # The record of the visit that last saw it (the inspection report covers every form of its work order); none
     # for a finding of the building-automation trends, whose evidence is the fault's.

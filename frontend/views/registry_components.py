@@ -12,6 +12,7 @@ from django.shortcuts import redirect, render
 from django.urls import reverse
 
 from accounts.inputs import FieldErrors, check_text
+from engineering.formatting import count_text
 from inventory import services as inventory_services
 from inventory.models import AHU, Component, ComponentKind
 from inventory.selectors import component_tree
@@ -316,7 +317,7 @@ def component_retire(request, pk):
             except ValidationError as exc:
                 errors = service_errors(exc)
             else:
-                inside = f" with {len(retired) - 1} part(s) inside it" if len(retired) > 1 else ""
+                inside = f" with {count_text(len(retired) - 1, 'part')} inside it" if len(retired) > 1 else ""
                 messages.success(request, f"{component.name} retired{inside}; its records are kept.")
                 return redirect(back)
     children = list(component.children.filter(retired_on__isnull=True))

@@ -9,6 +9,7 @@ from django.core.exceptions import ValidationError
 from django.shortcuts import redirect, render
 from django.urls import reverse
 
+from engineering.formatting import count_text
 from engineering.units import to_display
 from inventory import services as inventory_services
 from inventory.inputs import AHU_NUMBERS
@@ -273,7 +274,7 @@ def unit_retire(request, pk):
             except ValidationError as exc:
                 errors = service_errors(exc)
             else:
-                more = f" {cancelled} open visit(s) cancelled." if cancelled else ""
+                more = f" {count_text(cancelled, 'open visit')} cancelled." if cancelled else ""
                 messages.success(request, f"{ahu.display_name} is retired; its records are kept.{more}")
                 return redirect("frontend:registry_unit", pk=ahu.pk)
     return render(

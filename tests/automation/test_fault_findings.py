@@ -129,7 +129,8 @@ def test_a_stuck_damper_is_one_finding_with_its_source_seen_by_its_manager_and_c
     assert finding.evidence["share"] == pytest.approx(1.0, abs=0.05)
     assert finding.evidence["section"] == fault.section and finding.evidence["days"] == 3
     assert finding.evidence["end"] == (_start(stuck[-1]) + dt.timedelta(days=1)).isoformat()
-    assert "Found in the building-automation trends by rule FC6" in finding.reason
+    # The text begins with the rule; where it was found is its source, which every page says beside it (once).
+    assert finding.reason.startswith("Rule FC6 (") and "found in" not in finding.reason.lower()
     assert "latest evidence window 14 Jan 2026" in finding.reason and "% of the operating time" in finding.reason
     # It holds the fault's proposed corrective work: the same one, not a second.
     [wo] = WorkOrder.objects.filter(ahu=ahu, kind=WorkOrder.Kind.CORRECTIVE)
@@ -155,7 +156,7 @@ def test_a_stuck_damper_is_one_finding_with_its_source_seen_by_its_manager_and_c
         assert shown["evidence"]["section"] == fault.section and shown["evidence"]["days"] == 3
         assert shown["evidence"]["window_end"] == finding.evidence["end"]
         assert shown["evidence"]["share"] == pytest.approx(1.0, abs=0.05)
-        assert shown["times_seen"] == 3 and "Found in the building-automation trends by rule FC6" in shown["text"]
+        assert shown["times_seen"] == 3 and shown["text"].startswith("Rule FC6 (")
         # Another organisation's property manager: not on her list, not found by its address.
         client.force_login(plant["stranger"])
         assert f'data-finding="{finding.pk}"' not in client.get("/site-findings/").content.decode()

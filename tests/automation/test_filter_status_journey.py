@@ -142,7 +142,8 @@ def test_a_bank_loaded_in_the_trend_is_to_change_for_the_manager_with_one_findin
     assert f"Final filters Filter loaded {trends} Medium 12 Jan 2026" in pdf
 
     # The finding's text says the trend's judgement with its numbers in the reader's units, dated as the pages do.
-    assert finding.reason.startswith("Found in the building-automation trends on 13 Jan 2026: Final filters: filter ")
+    # Where it was found (its source) and the bank (its title) are said beside the text, not again in it.
+    assert finding.reason.startswith("13 Jan 2026: filter ")
     assert "249 Pa at design airflow" in finding.reason and "trend median of" in finding.reason
     helena.unit_system = "us"
     helena.save(update_fields=["unit_system"])

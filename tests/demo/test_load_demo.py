@@ -76,7 +76,7 @@ def test_second_run_changes_nothing(loaded, capsys):
     second = capsys.readouterr().out
     assert (WorkOrder.objects.count(), WorkOrderTask.objects.count(), Inspection.objects.count()) == counts
     assert list(Finding.objects.order_by("pk").values_list("pk", "times_seen", "state")) == findings
-    assert "0 record(s) created or changed" in second
+    assert "0 records created or changed" in second
     assert "Assigned 0 upcoming" in second
     assert loaded.splitlines()[-8:] == second.splitlines()[-8:]
 

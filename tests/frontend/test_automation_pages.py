@@ -8,7 +8,7 @@ its corrective work. The clock is set for each step; nothing depends on today's 
 """
 
 import datetime as dt
-import itertools
+import html
 import re
 import zoneinfo
 
@@ -399,11 +399,18 @@ def test_the_freeze_charts_stage_lines_are_the_rules_own_thresholds_with_distinc
         [words] = [w for w, v in limits.items() if float(v) == st.below_c]
         assert f"{st.name} after {st.for_s / 60:g} min" in words
     reason = _reason(html)
-    assert "stage 3 (below 3.3 °C for 15 min)" in reason and "stage 3 (below 1.0 °C for 5 min)" in reason
+    assert "stage 3 (below 3.3 °C for 15 min or below 1.0 °C for 5 min)" in reason
     assert "freeze below 3.3 °C: stage 2 after 5 min, stage 3 after 15 min" in limits
-    # The labels' baselines are at least a line of text apart, so none prints over another on a phone.
-    ys = sorted(float(y) for y in re.findall(r'<text x="[^"]+" y="([^"]+)"[^>]*data-limit-label=', html))
-    assert len(ys) == 3 and all(b - a >= 16 for a, b in itertools.pairwise(ys))
+    # Each line's words are said once, in the chart's key above the plot (page text, wrapping on a phone), never
+    # drawn on the plot where close lines (3.3 and 1.0 °C) would print them over each other.
+    chart = re.search(r'data-chart="temperatures">(.*?)</figure>', html, re.S).group(1)
+    key, plot = chart.split("<svg viewBox=")[0], chart.split("<svg viewBox=")[1]
+    labels = re.findall(r'<span data-limit-label="([^"]+)">', key)
+    assert sorted(labels) == sorted(limits) and len(set(labels)) == 3
+    assert "data-limit-label" not in plot and not any(f">{words}<" in plot for words in limits)
+    # Told apart on the plot by their dash, as the key shows them.
+    dashes = re.findall(r'stroke-dasharray="([^"]+)" data-limit=', plot)
+    assert len(dashes) == len(set(dashes)) == 3
 
 
 def test_a_freeze_window_is_listed_once_and_the_source_has_no_working_notes(client, freeze_world):
@@ -424,8 +431,33 @@ def test_a_us_reader_reads_the_freeze_text_in_fahrenheit_like_its_chart(client, 
     html = _freeze_page(client, freeze_world, system="us")
     reason = _reason(html)
     assert "°F" in reason and "°C" not in reason
-    assert "stage 3 (below 37.9 °F for 15 min)" in reason and "the air fell to 32.9 °F" in reason
+    assert "stage 3 (below 37.9 °F for 15 min or below 33.8 °F for 5 min)" in reason
+    assert "The supply air fell to 32.9 °F on 20 Jan 2026 and stayed below 37.9 °F for 1 h 30 min" in reason
     assert "freeze below 37.9 °F: stage 2 after 5 min, stage 3 after 15 min" in html
+
+
+def test_the_freeze_event_says_plainly_how_low_how_long_which_stage_and_what_the_stage_does(client, freeze_world):
+    """The supply air at 0.5 °C from 02:00 to 03:30: the sentence with the event says how low it went, how long it
+    stayed below the highest stage's temperature, which stage that is and how it is reached, and what the guideline's
+    freeze protection does at that stage (ASHRAE Guideline 36, May 2020, section 5.16.12, as the Modelica Buildings
+    library's FreezeProtection block documents it: at stage 3 the fans stop and the unit stays off until reset).
+    The technician reads the same sentence on the work the event proposed, the manager on its finding."""
+    from engineering.faults.freeze import STAGE_ACTIONS
+
+    reason = html.unescape(_reason(_freeze_page(client, freeze_world)))
+    said = (
+        "The supply air fell to 0.5 °C on 20 Jan 2026 and stayed below 3.3 °C for 1 h 30 min: that is "
+        "freeze-protection stage 3 (below 3.3 °C for 15 min or below 1.0 °C for 5 min), the last stage. "
+        f"At stage 3 of the guideline's freeze protection {STAGE_ACTIONS['stage 3']}. "
+        "The unit is not ready for freeze protection until its freeze-protection test passes again"
+    )
+    assert said in reason
+    assert "the supply and return fans stop" in reason and "until someone resets it" in reason
+    assert reason.count("found in the building-automation trends") == 1
+    fault = freeze_world["freeze"]
+    fault.refresh_from_db()
+    assert said in fault.corrective_work_order.reason  # what the technician's work says
+    assert said in fault.finding.reason and "found in" not in fault.finding.reason.lower()  # the manager's finding
 
 
 def test_the_freeze_fault_says_its_risk_where_no_number_can_be_given(client, freeze_world):

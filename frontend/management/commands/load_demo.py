@@ -3,6 +3,7 @@
 from django.conf import settings
 from django.core.management.base import BaseCommand
 
+from engineering.formatting import count_text
 from frontend.demo import demo_load
 from inventory.demo import demo_logins_table
 
@@ -15,7 +16,7 @@ class Command(BaseCommand):
         registry = summary["registry"]
         self.stdout.write(
             f"Registry: {len(registry['sites'])} sites, {len(registry['ahus'])} units "
-            f"({registry['changed']} record(s) created or changed)."
+            f"({count_text(registry['changed'], 'record')} created or changed)."
         )
         for slug, counts in summary["history"].items():
             self.stdout.write(
@@ -26,8 +27,8 @@ class Command(BaseCommand):
                 f"Schedule for {slug}: {result.created} due occurrences created, {result.moved} moved, "
                 f"{result.unchanged} unchanged; {result.work_orders_created} new work orders."
             )
-        self.stdout.write(f"Assigned {summary['assigned']} upcoming work order(s) to the demo technicians.")
-        self.stdout.write(f"Verified {summary.get('verified', 0)} older visit(s) as the demo supervisor.")
+        self.stdout.write(f"Assigned {count_text(summary['assigned'], 'upcoming work order')} to the demo technicians.")
+        self.stdout.write(f"Verified {count_text(summary.get('verified', 0), 'older visit')} as the demo supervisor.")
         self.stdout.write("")
         self.stdout.write(demo_logins_table(registry["logins"]))
         self.stdout.write(f"Open {settings.PLENUM_PUBLIC_URL.rstrip('/')} and sign in.")
