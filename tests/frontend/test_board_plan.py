@@ -93,7 +93,7 @@ def test_a_large_week_shows_a_page_of_each_section_and_the_whole_count(client, d
     from django.utils import timezone
 
     from accounts.models import Role
-    from frontend.views.supervisor import BOARD_PAGE
+    from frontend.views.board import BOARD_PAGE
     from scheduling.models import WorkOrder
     from tests.factories import OrganisationFactory, make_full_unit, make_person
 
