@@ -8,6 +8,7 @@ the report's inputs; charts are SVG with fixed ids and no date stamp.
 from __future__ import annotations
 
 import base64
+import functools
 import hashlib
 import io
 from dataclasses import dataclass
@@ -157,6 +158,48 @@ def _linear_page_references() -> None:
         pydyf.PDF.page_references = property(_page_references_once)
 
 
+# WeasyPrint's user-agent stylesheet gives every element six pseudo-elements by universal rules (``::marker`` and
+# the footnote and note calls, markers and callbacks), and WeasyPrint computes a style for each of them on every
+# element: three quarters of the style work of a long table (issue 17). A record has no footnotes or notes, and
+# markers only on list items: the same sheet with ``::marker`` kept for ``li`` and the footnote and note rules left
+# out writes the same PDF bytes (tests/reports/test_compliance_scaling.py) in about a sixth less time.
+_UA_UNUSED = ("::footnote-call ", "::footnote-marker ", "::note-call ", "::note-marker ", "::note-callback ")
+_UA_MARKER = "::marker {"
+
+
+def report_ua_text(ua: str) -> str | None:
+    """WeasyPrint's user-agent stylesheet ``ua`` without the rules a record never uses; None when ``ua`` is not
+    laid out as expected (another WeasyPrint): the caller then keeps WeasyPrint's own sheet."""
+    lines = ua.split("\n")
+    kept = [line for line in lines if not line.startswith(_UA_UNUSED)]
+    markers = [i for i, line in enumerate(kept) if line.startswith(_UA_MARKER)]
+    if len(lines) - len(kept) != len(_UA_UNUSED) or len(markers) != 1:
+        return None
+    kept[markers[0]] = "li" + kept[markers[0]]
+    return "\n".join(kept)
+
+
+@functools.cache
+def _report_html_class():
+    """``weasyprint.HTML`` with the user-agent stylesheet of ``report_ua_text`` (WeasyPrint's own when that is None)."""
+    from weasyprint import CSS, HTML
+    from weasyprint import html as weasy_html
+    from weasyprint.css.counters import CounterStyle
+
+    text = report_ua_text(weasy_html.UA)
+    if text is None:
+        return HTML
+    # Its @counter-style rules are WeasyPrint's own, which every document already has (``_ua_counter_style``):
+    # parsed into a throwaway set here, not added a second time to WeasyPrint's.
+    sheet = CSS(string=text, counter_style=CounterStyle())
+
+    class ReportHTML(HTML):
+        def _ua_stylesheets(self, forms=False):
+            return [sheet, weasy_html.UA_FORM_STYLESHEET] if forms else [sheet]
+
+    return ReportHTML
+
+
 def _declare_pdfua(document, pdf) -> None:
     """Add the PDF/UA-1 identification to an archival file's XMP packet, beside its PDF/A one (WeasyPrint
     writes one variant's identification; the tags, title and language PDF/UA asks for are already there)."""
@@ -168,11 +211,9 @@ def _declare_pdfua(document, pdf) -> None:
 
 def pdf_render(*, html: str, identifier: str, pdfa: bool = False) -> RenderedPdf:
     """Write ``html`` as a tagged PDF/UA-1 file (PDF/A-3b as well when ``pdfa``); ``identifier`` seeds its file id."""
-    from weasyprint import HTML
-
     _linear_page_references()
     base_url = str(settings.BASE_DIR)
-    document = HTML(string=html, base_url=base_url).render()
+    document = _report_html_class()(string=html, base_url=base_url).render()
     options = {
         "pdf_identifier": hashlib.md5(identifier.encode("utf-8"), usedforsecurity=False).hexdigest().encode(),
         "pdf_variant": PDFA_VARIANT if pdfa else PDFUA_VARIANT,

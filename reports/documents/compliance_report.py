@@ -71,6 +71,7 @@ def build(*, report) -> Built:
         d = row["derived"]
         row["corrected_dp"] = shown(row["corrected_dp_pa"], "pressure", system)
         row["loading"] = f"{d['loading_pct']:.0f} %" if isinstance(d.get("loading_pct"), int | float) else "—"
+    filter_rows = _filter_rows(figures.filters)
     filter_counts = dict.fromkeys((Verdict.OK, Verdict.WATCH, Verdict.FAIL, "none"), 0)
     for row in figures.filters:
         filter_counts[row["verdict"] if row["verdict"] in filter_counts else "none"] += 1
@@ -88,6 +89,7 @@ def build(*, report) -> Built:
             "share": percent(figures.total.on_time_share, 1),
             "category_rows": [(c, percent(c.on_time_share)) for c in figures.categories],
             "chart": svg_data_uri(charts.compliance_bars(figures.categories)),
+            "filter_rows": filter_rows,
             "filter_counts": filter_counts,
             "high_findings": high_findings,
             "freeze_labels": FREEZE_LABELS,
@@ -101,3 +103,25 @@ def build(*, report) -> Built:
         subject=f"Preventive maintenance compliance of {scope}",
     )
     return Built(html=html, title=title)
+
+
+def _filter_rows(filters: list[dict]) -> list[dict]:
+    """The filter table's rows: a bank's row for each bank with a reading; a unit's banks with no reading share one
+    row that names them all ("Pre-filters; Final filters"), as they share everything else (no reading, so no
+    pressure drop, loading, verdict or forecast). Fewer rows for a large portfolio's new units (issue 17)."""
+    rows: list[dict] = []
+    for r in filters:
+        bank = r["filter"].name if r["filter"] else None
+        last = rows[-1] if rows else None
+        if (
+            r["at"] is None
+            and bank is not None
+            and last is not None
+            and last["status"] is None
+            and last["banks"]
+            and last["unit"].pk == r["unit"].pk
+        ):
+            last["banks"].append(bank)
+            continue
+        rows.append({"unit": r["unit"], "banks": [bank] if bank else [], "status": r if r["at"] is not None else None})
+    return rows

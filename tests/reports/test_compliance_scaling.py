@@ -7,6 +7,7 @@ growth is judged by counting, which does not depend on the machine.
 """
 
 import datetime as dt
+from types import SimpleNamespace
 
 import pydyf
 import pytest
@@ -17,8 +18,15 @@ from accounts.models import Role
 from inspections.models import Finding
 from inventory.models import Site
 from reports.documents import compliance_report
+from reports.documents.compliance_report import _filter_rows
 from reports.models import Report
-from reports.rendering import _page_references_once, pdf_render
+from reports.rendering import (
+    _linear_page_references,
+    _page_references_once,
+    _report_html_class,
+    pdf_render,
+    report_ua_text,
+)
 from scheduling.models import WorkOrder
 from tests.factories.accounts import make_person
 from tests.factories.inventory import AHUFactory, BuildingFactory, ComponentFactory, SiteFactory
@@ -143,3 +151,65 @@ def test_page_references_are_pydyf_s_own_and_follow_new_pages():
     pdf.add_page(pydyf.Dictionary({"Type": "/Page"}))
     assert len(_page_references_once(pdf)) == 4
     assert _page_references_once(pdf)[-1] == f"{pdf.pages['Kids'][-3]} 0 R".encode("ascii")
+
+
+def test_the_trimmed_user_agent_sheet_writes_the_same_pdf():
+    """WeasyPrint's own user-agent sheet and the one without footnote and note rules (``::marker`` kept for list
+    items) give the same bytes for a record with a list, a table and a page counter; the trimming took effect (a
+    WeasyPrint whose sheet no longer reads as expected fails here, not silently slower)."""
+    from weasyprint import HTML
+    from weasyprint import html as weasy_html
+
+    text = report_ua_text(weasy_html.UA)
+    assert text is not None and _report_html_class() is not HTML
+    removed = set(weasy_html.UA.split("\n")) - set(text.split("\n"))
+    assert sorted(line.split(" ")[0] for line in removed) == [
+        "::footnote-call",
+        "::footnote-marker",
+        "::marker",
+        "::note-call",
+        "::note-callback",
+        "::note-marker",
+    ]
+    assert "li::marker {" in text
+    html = (
+        '<!DOCTYPE html><html lang="en"><head><title>T</title><style>@page { @bottom-right { content: "Page "'
+        ' counter(page) " of " counter(pages); } } ol li::marker { color: #555; }</style></head><body><h1>Record</h1>'
+        "<ul><li>one</li><li>two</li></ul><ol><li>first</li></ol><table><thead><tr><th>Unit</th><th>Verdict</th>"
+        "</tr></thead><tbody>" + "<tr><td>AHU-01</td><td>OK</td></tr>" * 80 + "</tbody></table></body></html>"
+    )
+    _linear_page_references()
+    options = {"pdf_identifier": b"0" * 32, "pdf_variant": "pdf/ua-1", "pdf_tags": True}
+    own = HTML(string=html).write_pdf(**options)
+    trimmed = _report_html_class()(string=html).write_pdf(**options)
+    assert own == trimmed
+
+
+def _bank(unit, name, *, read: bool):
+    return {
+        "unit": unit,
+        "filter": SimpleNamespace(name=name) if name else None,
+        "at": dt.datetime(2025, 3, 25) if read else None,
+    }
+
+
+def test_a_units_banks_without_a_reading_share_one_row():
+    """Two banks of a unit never read: one row naming both; a bank with a reading keeps its own row; a unit with no
+    bank its row; banks of two units never share a row."""
+    a, b_, c = (SimpleNamespace(pk=n) for n in (1, 2, 3))
+    rows = _filter_rows(
+        [
+            _bank(a, "Pre-filters", read=False),
+            _bank(a, "Final filters", read=False),
+            _bank(b_, "Pre-filters", read=True),
+            _bank(b_, "Final filters", read=False),
+            _bank(b_, "Carbon filters", read=False),
+            _bank(c, None, read=False),
+        ]
+    )
+    assert [(r["unit"].pk, r["banks"], r["status"] is not None) for r in rows] == [
+        (1, ["Pre-filters", "Final filters"], False),
+        (2, ["Pre-filters"], True),
+        (2, ["Final filters", "Carbon filters"], False),
+        (3, [], False),
+    ]
