@@ -1,0 +1,193 @@
+"""Closing findings: resolved on a later visit (ok again, or the filters replaced), corrected by completed work
+(reopened when it is sent back for rework), or cleared by an amendment's corrected readings."""
+
+from __future__ import annotations
+
+from django.utils import timezone
+
+from accounts.services import audit_record
+from engineering.controls import Verdict
+
+from ...models import Finding, Inspection
+from .corrective import corrective_for_group, proposals_withdraw_resolved
+from .problems import FILTER_CHECKS, known_condition, problem_of
+from .record import finding_close
+
+# Findings a later partial ok must not close: the freeze-protection test closes by the corrective retest.
+NOT_RESOLVED_BY_LATER_OK = {"freeze_protection_failed"}
+
+
+def banks_replaced(*, results) -> set[int]:
+    """Filter banks whose filters the form says were replaced (the replacement step answered ok)."""
+    return {
+        res.component.pk
+        for res in results
+        if res.item == "filter_replace.replaced" and res.verdict == Verdict.OK and res.component is not None
+    }
+
+
+def _is_filter_finding(finding: Finding) -> bool:
+    return finding.condition_code == "filter_loaded" or finding.problem.split(":", 1)[0] in FILTER_CHECKS
+
+
+def findings_resolve(
+    *, inspection: Inspection, evaluations, results, failed: set[int], at, by, open_rows: list | None = None
+) -> list[Finding]:
+    """Close the open findings of this unit that this visit (finished at ``at``) shows resolved.
+
+    A finding is resolved when the visit judges the same check of the same part ok ("ok on a later visit"), or
+    for a filter finding when that bank's filters were replaced ("filters replaced"); closed at ``at``, audited.
+    Findings this visit saw fail (``failed``), findings seen on a visit after this one (an older form synced
+    late), and freeze-protection findings (closed by the corrective retest) stay open. Corrective work still
+    awaiting approval whose findings are then all closed is withdrawn.
+
+    ``open_rows``: the unit's open findings as the caller read and locked them in this transaction (else read).
+    """
+    ok = {
+        (problem_of(check=res.check, item=res.item), res.component.pk if res.component else None)
+        for ev, res in zip(evaluations, results, strict=True)
+        if ev.verdict == Verdict.OK
+    }
+    replaced = banks_replaced(results=results)
+    if not ok and not replaced:
+        return []
+    closed = []
+    if open_rows is None:
+        open_rows = list(
+            Finding.objects.select_for_update(of=("self",)).filter(ahu_id=inspection.ahu_id, state=Finding.State.OPEN)
+        )
+    candidates = sorted(
+        (
+            f
+            for f in open_rows
+            if f.state == Finding.State.OPEN and f.pk not in failed and f.condition_code not in NOT_RESOLVED_BY_LATER_OK
+        ),
+        key=lambda f: f.pk,
+    )
+    for finding in candidates:
+        if finding.latest_inspection_id == inspection.pk or (finding.last_seen_at or finding.opened_at) > at:
+            continue
+        if finding.component_id in replaced and _is_filter_finding(finding):
+            cause = Finding.CloseCause.REPLACED
+        elif (finding.problem, finding.component_id) in ok:
+            cause = Finding.CloseCause.OK_LATER
+        else:
+            continue
+        finding_close(finding, at=at, cause=cause, by=by, changes={"inspection": inspection.pk})
+        closed.append(finding)
+    proposals_withdraw_resolved(findings=closed, by=by)
+    return closed
+
+
+def findings_close_corrected(*, work_order, by) -> list[Finding]:
+    """Close the open findings whose corrective work order has just been completed, at its completion time.
+
+    A finding the work order's own form saw failing again (a retest after the repair that still fails) is not
+    corrected: it stays open and gets new corrective work, proposed as its first failure's was (urgent near the
+    freeze season), so the fault never reads as closed while it is still there.
+    """
+    at = work_order.completed_at or timezone.now()
+    # Locked plainly first: most completed work is corrective for nothing, and the joins cost more than the lock.
+    # In id order (the rows are read in their own order below): no sort by the default ordering for every form.
+    ids = list(
+        Finding.objects.select_for_update()
+        .filter(corrective_work_order=work_order, state=Finding.State.OPEN)
+        .order_by("pk")
+        .values_list("pk", flat=True)
+    )
+    found = (
+        list(
+            Finding.objects.filter(pk__in=ids).select_related(
+                "latest_inspection__work_order", "ahu__building__site", "component"
+            )
+        )
+        if ids
+        else []
+    )
+    still_failing = [f for f in found if f.latest_inspection and f.latest_inspection.work_order_id == work_order.pk]
+    closed = [f for f in found if f not in still_failing]
+    for finding in closed:
+        finding_close(
+            finding, at=at, cause=Finding.CloseCause.CORRECTED, by=by, changes={"work_order": str(work_order.public_id)}
+        )
+    groups: dict[str, list[Finding]] = {}
+    for finding in still_failing:
+        finding.corrective_work_order = work_order  # completed now: no longer open work for it
+        groups.setdefault(known_condition(finding.condition_code) or f"problem:{finding.problem}", []).append(finding)
+    for key, group in groups.items():
+        inspection = group[0].latest_inspection
+        site = group[0].ahu.building.site
+        corrective_for_group(
+            inspection=inspection,
+            condition=key if not key.startswith("problem:") else "",
+            findings=group,
+            urgent=any(f.severity == "critical" for f in group),
+            source_ref=f"inspection:{inspection.pk}",
+            site=site,
+            by=by,
+        )
+    return closed
+
+
+def findings_reopen_for_rework(*, work_order, by) -> list[Finding]:
+    """Corrective work sent back for rework: the findings its completion closed are open again.
+
+    A finding of the building-automation trends stays closed with its fault: the trends judge the unit again
+    each night, and a fault still there opens a new fault and finding, held by the open rework."""
+    found = list(
+        Finding.objects.select_for_update()
+        .filter(corrective_work_order=work_order, state=Finding.State.CLOSED, close_cause=Finding.CloseCause.CORRECTED)
+        .exclude(source=Finding.Source.BAS_TREND)
+    )
+    for finding in found:
+        finding.state, finding.closed_at, finding.close_cause, finding.closed_by = Finding.State.OPEN, None, "", None
+        finding.save(update_fields=["state", "closed_at", "close_cause", "closed_by"])
+        audit_record(
+            actor=by,
+            obj=finding,
+            action="finding_reopen",
+            organisation=finding.organisation,
+            changes={"work_order": str(work_order.public_id), "reason": "corrective work sent back for rework"},
+        )
+    return found
+
+
+def findings_close_cleared(*, inspection: Inspection, amendment, results, by) -> list[Finding]:
+    """Close the open findings last seen on this inspection whose check the amendment's corrected readings
+    now pass (ok). A finding seen again on a later visit stays open: the later failure stands.
+
+    Only an ok clears a finding: a watch (near a limit, or a check that cannot judge) leaves it open for the
+    supervisor. The corrective work it proposed is left as it is; the supervisor may reject or cancel it.
+    """
+    passing = {
+        (res.check, res.item, res.component.pk if res.component else None)
+        for res in results
+        if res.verdict == Verdict.OK
+    }
+    found = [
+        f
+        for f in Finding.objects.select_for_update(of=("self",))  # lock the findings, not their (nullable) parts
+        .filter(latest_inspection=inspection, state=Finding.State.OPEN)
+        .select_related("latest_evaluation", "component")
+        if (f.latest_evaluation.check_name, f.latest_evaluation.item_key, f.latest_evaluation.component_id) in passing
+    ]
+    for finding in found:
+        finding.cleared_by_amendment = amendment
+        finding_close(
+            finding,
+            at=amendment.created_at,
+            cause=Finding.CloseCause.AMENDED,
+            by=by,
+            changes={"amendment": amendment.pk},
+        )
+    return found
+
+
+def work_order_moved(sender, *, work_order, before: str, by, **kwargs) -> None:
+    """``scheduling.signals.work_order_moved`` receiver: completion closes findings, rework reopens them."""
+    from scheduling.models import WorkOrder
+
+    if work_order.state == WorkOrder.State.COMPLETED:
+        findings_close_corrected(work_order=work_order, by=by)
+    elif before == WorkOrder.State.COMPLETED and work_order.state == WorkOrder.State.IN_PROGRESS:
+        findings_reopen_for_rework(work_order=work_order, by=by)
