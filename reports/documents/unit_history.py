@@ -57,7 +57,7 @@ from scheduling.models import WorkOrder
 
 from . import Built, Prepared, one_id, period, period_text, refuse_missing
 from .common import shown, unit_system
-from .inspection_report import VERDICTS, reading_value
+from .visit_words import VERDICTS, reading_value
 
 
 def prepare(*, user, parameters: dict, requested_at: datetime) -> Prepared:

@@ -14,7 +14,7 @@ import re
 import pytest
 
 from inspections.services.findings import evaluations_store
-from reports.documents.inspection_report import visit_records
+from reports.documents.visit_record import visit_records
 from tests.inspections.test_phone_agreement import FOCUS, evaluate_case, make_case
 
 from . import builders as b

@@ -7,7 +7,7 @@ import pytest
 
 from inspections import display
 from inspections.models import ChecklistItem
-from reports.documents.inspection_report import reading_value
+from reports.documents.visit_words import reading_value
 
 
 def _reading(value_si: float, quantity: str, decimals: int) -> SimpleNamespace:

@@ -1,0 +1,211 @@
+"""Each stored form of a work order as its record, in the reader's units: readings, judgements, findings,
+photos, signature, verification and amendments. The inspection report (PDF) and the work order's page both
+show it, so they tell the same record."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+
+from django.db.models import Prefetch
+
+from accounts.clock import time_zone
+from accounts.models import AuditEvent
+from inspections import reasons
+from inspections.models import Amendment, Evaluation, Inspection, Photo, Reading
+from inspections.selectors import check_label, findings_seen_on, item_labels, reason_for
+from scheduling.models import WorkOrder
+
+from .visit_table import verdict_counts, visit_parts
+from .visit_words import (
+    CHECK_VALUES,
+    VERDICTS,
+    derived_for_visit,
+    derived_text_for_visit,
+    number_shown,
+    reading_value,
+    reason_as_of,
+    row_reason,
+)
+
+
+def _inspections(wo: WorkOrder) -> list[Inspection]:
+    return list(
+        Inspection.objects.filter(work_order=wo)
+        .select_related("technician", "verified_by", "flag_resolved_by")
+        .prefetch_related(
+            Prefetch(
+                "readings",
+                queryset=Reading.objects.select_related("item__template", "component").order_by(
+                    "item__template__code", "item__position", "component__position", "pk"
+                ),
+            ),
+            Prefetch("evaluations", queryset=Evaluation.objects.select_related("component").order_by("pk")),
+            Prefetch("photos", queryset=Photo.objects.select_related("component").order_by("uploaded_at", "pk")),
+            Prefetch(
+                "amendments", queryset=Amendment.objects.select_related("created_by").order_by("created_at", "pk")
+            ),
+        )
+        .order_by("finished_at", "pk")
+    )
+
+
+def visit_records(
+    *, work_order: WorkOrder, system: str, photo_src: Callable, signature_src: Callable
+) -> tuple[list[dict], dict[int, object], list[str]]:
+    """Each stored form of the work order as its record, in the reader's units ("si" or "us").
+
+    One visit per inspection, oldest first: readings grouped by template with their values,
+    verdicts and reasons, evaluations with derived values, findings, photos, the signature
+    and amendments. ``photo_src(photo)`` and ``signature_src(inspection)`` say how an image is
+    shown (a data URI in the PDF, the checked photo view on the page). Also the components
+    read and the template cautions met. The PDF and the work order's page both show this,
+    so they tell the same record.
+
+    Each visit also carries its readings as one table by part (``parts``: each reading once with
+    the band it was judged against and only what its judgement adds), the methods those judgements
+    name (``methods``, numbered once each) and its verdict counts (``counts``), for the PDF.
+    """
+    visits = []
+    components: dict[int, object] = {}
+    template_cautions: list[str] = []
+    inspections = _inspections(work_order)
+    zone = time_zone(work_order.ahu.building.site.time_zone)
+    # Each visit lists the findings its failures observed (a finding gathers every visit that saw it).
+    seen = findings_seen_on(inspections=inspections)
+    labels = item_labels(
+        api_keys={e.item_key for i in inspections for e in i.evaluations.all()}
+        | {ph.item_key for i in inspections for ph in i.photos.all() if ph.item_key}
+    )
+    work_order_verification = _work_order_verification(work_order)
+    for insp in inspections:
+        visit_day = insp.finished_at.astimezone(zone).date() if insp.finished_at else None
+        groups: dict[str, list] = {}
+        for r in insp.readings.all():
+            if r.component_id:
+                components[r.component_id] = r.component
+            groups.setdefault(r.item.template.title, []).append(
+                {
+                    "label": r.item.label,
+                    "component": r.component,
+                    "value": reading_value(r, system),
+                    "verdict": VERDICTS.get(r.verdict, ""),
+                    "verdict_code": r.verdict,
+                    # The row names the part: its reason does not begin with it again.
+                    # …and a reason that only repeats the row ("confirmed: <item>", "<item>: Clean") is not shown.
+                    "reason": row_reason(r, system, visit_day),
+                    "note": r.note,
+                    "improbable": r.improbable,
+                }
+            )
+        for r in insp.readings.all():
+            for c in r.item.template.cautions or []:
+                if c not in template_cautions:
+                    template_cautions.append(c)
+        evaluations = [
+            {
+                "e": e,
+                "verdict": VERDICTS.get(e.verdict, e.verdict),
+                "check": check_label(check=e.check_name, item=e.item_key, labels=labels),
+                "reason": reasons.text_without_label_end(
+                    reason_as_of(e, system, visit_day), check_label(check=e.check_name, item=e.item_key, labels=labels)
+                ),
+                "derived": derived_for_visit(e.derived or {}, system, item=e.item_key, visit_day=visit_day),
+                # The record page reads them as sentences (display.derived_text), never "label: value; …".
+                "derived_text": derived_text_for_visit(e.derived or {}, system, item=e.item_key, visit_day=visit_day),
+            }
+            for e in insp.evaluations.all()
+        ]
+        parts, methods = visit_parts(insp, evaluations, system)
+        visits.append(
+            {
+                "inspection": insp,
+                "groups": list(groups.items()),
+                "evaluations": evaluations,
+                "parts": parts,
+                "methods": methods,
+                "counts": verdict_counts(parts),
+                "findings": _with_reasons(seen.get(insp.pk, []), system),
+                "photos": [
+                    {"p": ph, "src": photo_src(ph), "label": labels.get(ph.item_key, "")} for ph in insp.photos.all()
+                ],
+                "signature": signature_src(insp),
+                "verification": _verification(insp, work_order_verification),
+                "amendments": [{"a": a, "changes": _changes(a, system)} for a in insp.amendments.all()],
+            }
+        )
+    return visits, components, template_cautions
+
+
+def _work_order_verification(work_order: WorkOrder) -> dict | None:
+    """Who verified the work order and when: its own time, and the person from its audit trail (the work order
+    keeps no person of its own)."""
+    if work_order.verified_at is None:
+        return None
+    event = (
+        AuditEvent.objects.filter(
+            object_type=WorkOrder._meta.label_lower,
+            object_id=str(work_order.pk),
+            action="transition",
+            changes__to=WorkOrder.State.VERIFIED,
+        )
+        .select_related("actor")
+        .order_by("-at", "-pk")
+        .first()
+    )
+    by = event.actor if event is not None and event.actor is not None else None
+    return {"by": str(by) if by is not None else "", "at": work_order.verified_at}
+
+
+def _verification(insp: Inspection, work_order_verification: dict | None) -> dict | None:
+    """One verification per record: the inspection's own when a supervisor verified the form, otherwise the work
+    order's (verified from the board or the API) for the form that completed it, so the header's state and the
+    sign-off never disagree."""
+    if insp.verified_at is not None:
+        return {"by": str(insp.verified_by) if insp.verified_by_id else "", "at": insp.verified_at}
+    # A form sent after the work was done (kept and flagged) is not the record the work order's verification covers.
+    return work_order_verification if insp.work_order_completed else None
+
+
+def _with_reasons(findings: list, system: str) -> list:
+    """Findings with their reason rendered in the reader's units (``reason_display``)."""
+    for finding in findings:
+        finding.reason_display = reason_for(evaluation=finding, unit_system=system)
+    return findings
+
+
+def _changes(amendment: Amendment, system: str) -> list[str]:
+    """Each change of an amendment as one line: item, before → after (numbers in the reader's units)."""
+    from inspections.models import ChecklistItem
+
+    lines = []
+    for change in amendment.changes or []:
+        if not isinstance(change, dict):
+            lines.append(str(change))
+            continue
+        key = str(change.get("item", ""))
+        quantity, name = "", key
+        if "." in key:
+            code, item_key = key.split(".", 1)
+            item = (
+                ChecklistItem.objects.filter(template__code=code, key=item_key).order_by("-template__version").first()
+            )
+            quantity = item.quantity if item else ""
+            name = item.label if item else key
+
+        before = _change_value(change.get("before"), quantity, system)
+        after = _change_value(change.get("after"), quantity, system)
+        line = f"{name}: {before} → {after}"
+        if change.get("note"):
+            line += f" ({change['note']})"
+        lines.append(line)
+    return lines
+
+
+def _change_value(value, quantity: str, system: str) -> str:
+    if isinstance(value, dict):
+        number = value.get("value_si")
+        value = number if number is not None else value.get("value_text", value.get("value"))
+        value = CHECK_VALUES.get(value, value) if isinstance(value, str) else value
+    if isinstance(value, int | float) and not isinstance(value, bool) and quantity:
+        return number_shown(value, quantity, system)
+    return "—" if value in (None, "") else str(value)

@@ -1,0 +1,115 @@
+"""A visit's values as its record says them, in the reader's units: a reading's value, a verdict in words, a
+reason without the part its row names, and derived values as of the visit (a filter change date the trend had
+already reached before the visit reads as past, never as a forecast)."""
+
+from __future__ import annotations
+
+import datetime as dt
+
+from engineering.controls import Verdict
+from engineering.formatting import quantity_text
+from inspections import display, reasons
+from inspections.display import VERDICT_WORDS
+from inspections.models import Reading
+from inspections.selectors import reason_for
+
+CHECK_VALUES = {"ok": "OK", "not_ok": "Not OK", "na": "N/A"}
+# Verdicts in words, as the phone and the record page say them (inspections.display).
+VERDICTS = {code: words for code, words in VERDICT_WORDS.items() if code}
+
+
+def reading_value(reading: Reading, system: str) -> str:
+    item = reading.item
+    if reading.value_text == "na":
+        return "N/A"
+    if item.kind == item.Kind.NUMBER:
+        if reading.value_si is None:
+            return "—"
+        return number_shown(reading.value_si, item.quantity, system)
+    if item.kind == item.Kind.CHECK:
+        return CHECK_VALUES.get(reading.value_text, reading.value_text)
+    if item.kind == item.Kind.CHOICE:
+        labels = {c.get("value"): c.get("label") for c in item.choices or []}
+        return labels.get(reading.value_text, reading.value_text)
+    return reading.value_text or "—"
+
+
+def number_shown(value_si: float, quantity: str, system: str) -> str:
+    """A number of the record in the reader's unit at its quantity's usual precision, grouped as the reasons
+    group it ("16,500 h", "1200 cfm"): a reading, and each side of an amended one."""
+    return quantity_text(value_si, quantity=quantity, system=system)
+
+
+_FORECAST_KEYS = ("forecast_change_date", "forecast_earliest_date", "forecast_latest_date")
+
+
+def _past_forecast(derived: dict, visit_day: dt.date | None) -> dt.date | None:
+    """The filter trend's change date when it lies before the visit (the line had already reached its final
+    pressure drop): a date the record must not call a forecast."""
+    raw = derived.get("forecast_change_date")
+    if not raw or visit_day is None:
+        return None
+    try:
+        day = dt.date.fromisoformat(str(raw)[:10])
+    except ValueError:
+        return None
+    return day if day < visit_day else None
+
+
+def _long_day(day: dt.date) -> str:
+    return f"{day.day} {day:%B %Y}"
+
+
+def derived_for_visit(derived: dict, system: str, *, item: str, visit_day: dt.date | None) -> list[tuple[str, str]]:
+    """``display.derived_rows`` as of the visit: a change date the trend reached before the visit reads as
+    past ("trend reached the final pressure drop: 2 March 2025, before this visit"), without its range."""
+    past = _past_forecast(derived, visit_day)
+    if past is None:
+        return display.derived_rows(derived, system, item=item)
+    rows = display.derived_rows({k: v for k, v in derived.items() if k not in _FORECAST_KEYS}, system, item=item)
+    return [*rows, ("trend reached the final pressure drop", f"{_long_day(past)}, before this visit")]
+
+
+def derived_text_for_visit(derived: dict, system: str, *, item: str, visit_day: dt.date | None) -> str:
+    """``display.derived_text`` as of the visit (a change date already past reads as past, as
+    ``derived_for_visit``)."""
+    past = _past_forecast(derived, visit_day)
+    if past is None:
+        return display.derived_text(derived, system, item=item)
+    text = display.derived_text({k: v for k, v in derived.items() if k not in _FORECAST_KEYS}, system, item=item)
+    return f"{text} The trend reached the final pressure drop on {_long_day(past)}, before this visit.".strip()
+
+
+def reason_as_of(judged, system: str, visit_day: dt.date | None) -> str:
+    """A reading's or judgement's reason in the reader's units, without the part its row names, and with a change
+    date already past at the visit said as past."""
+    text = reasons.text_without_subject(
+        reason_for(evaluation=judged, unit_system=system), judged.component.name if judged.component_id else None
+    )
+    derived = getattr(judged, "derived", None) or {}
+    past = _past_forecast(derived, visit_day)
+    if past is not None:
+        text = text.replace(
+            f"change forecast {_long_day(past)}", f"trend reached the final pressure drop on {_long_day(past)}"
+        )
+    return text
+
+
+def row_reason(reading, system: str, visit_day: dt.date | None) -> str:
+    """A reading's reason for its record row, left out when it says nothing the row does not."""
+    reason = reason_as_of(reading, system, visit_day)
+    return "" if says_nothing_more(reason, reading.item.label, reading_value(reading, system), "") else reason
+
+
+def says_nothing_more(reason: str, label: str, value: str, verdict_code: str) -> bool:
+    """A reason that only repeats the row: "confirmed: <item>", "<item>: <choice>", or a reading inside its band."""
+    if not reason:
+        return True
+    rest = reason
+    for lead in ("confirmed: ", "not confirmed: "):
+        if rest.startswith(lead):
+            rest = rest[len(lead) :]
+    rest = rest.replace(label, "").replace(label[:1].lower() + label[1:], "").strip(" :;,.")
+    if not rest or rest == value:
+        return True
+    return verdict_code == Verdict.OK and " is within " in reason
