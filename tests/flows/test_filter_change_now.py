@@ -17,7 +17,7 @@ import pytest
 from django.urls import reverse
 
 from reports.compliance import filter_forecast_text
-from reports.documents.unit_history import _filter_charts
+from reports.documents.history_charts import filter_charts
 from reports.models import Report
 from tests.factories.accounts import make_person
 from tests.factories.inspections import make_visit, sync_filter_visit
@@ -84,7 +84,7 @@ def test_a_reading_over_final_says_change_now_with_no_date_ahead_and_no_forecast
     # The unit history PDF's chart: due now, no forecast line.
     [chart] = [
         c
-        for c in _filter_charts(ahu=ahu, lo=DAY0 - dt.timedelta(days=1), hi=DAY0 + dt.timedelta(days=100), system="si")
+        for c in filter_charts(ahu=ahu, lo=DAY0 - dt.timedelta(days=1), hi=DAY0 + dt.timedelta(days=100), system="si")
         if c["bank"].name == "Final filters"
     ]
     assert chart["forecast"].at_final_now is True

@@ -15,7 +15,7 @@ from engineering.filters import corrected_pressure_drop
 from inspections.models import Evaluation
 from inspections.selectors import filter_series
 from inspections.services.form_check import filter_points_for
-from reports.documents.unit_history import _filter_charts
+from reports.documents.history_charts import filter_charts
 from tests.factories.accounts import make_person
 from tests.factories.inspections import make_visit, sync_filter_visit
 
@@ -89,7 +89,7 @@ def test_chart_unit_history_and_evaluation_read_one_series_across_a_filter_chang
 
     # The unit history's chart: one line per set of filters, the same numbers.
     lo, hi = DAY0 - dt.timedelta(days=1), nxt
-    [chart] = [c for c in _filter_charts(ahu=ahu, lo=lo, hi=hi, system="si") if c["bank"] == final]
+    [chart] = [c for c in filter_charts(ahu=ahu, lo=lo, hi=hi, system="si") if c["bank"] == final]
     assert [[round(v, 2) for _, v in pts] for _, pts in chart["lines"]] == [BEFORE, AFTER]
     assert chart["lines"][1][0] == "Filters fitted 2025-04-06"
 
