@@ -213,7 +213,7 @@ def meter_context(*, ahu, as_of: dt.datetime) -> dict[str, Any]:
     import zoneinfo
 
     from accounts.inputs import local_text
-    from inspections.services.form_check import RUN_HOURS_IF_REPLACED
+    from inspections.services.reading_check import RUN_HOURS_IF_REPLACED
     from scheduling.selectors import latest_meter_reading
     from scheduling.services import meters
 

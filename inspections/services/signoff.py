@@ -17,7 +17,9 @@ from .. import evaluation, selectors
 from ..check import Errors
 from ..models import Amendment, Finding, Inspection
 from . import findings as findings_service
-from .form_check import Parsed, reading_parse, reading_values, values_evaluate
+from .form_check import Parsed
+from .form_evaluation import reading_values, values_evaluate
+from .reading_check import reading_parse
 
 # A note or a reason a person writes: a few paragraphs (the page's inputs hold 2,000 characters).
 TEXT_MAX = 2000

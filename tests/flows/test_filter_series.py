@@ -14,7 +14,7 @@ import time_machine
 from engineering.filters import corrected_pressure_drop
 from inspections.models import Evaluation
 from inspections.selectors import filter_series
-from inspections.services.form_check import filter_points_for
+from inspections.services.form_evaluation import filter_points_for
 from reports.documents.history_charts import filter_charts
 from tests.factories.accounts import make_person
 from tests.factories.inspections import make_visit, sync_filter_visit

@@ -21,7 +21,7 @@ import pytest
 from django.core.exceptions import ValidationError
 
 from inspections import phone
-from inspections.services.form_check import RUN_HOURS_IF_REPLACED
+from inspections.services.reading_check import RUN_HOURS_IF_REPLACED
 from scheduling.models import MeterReading
 from scheduling.services import meter_reading_check
 from tests.conftest import service_missing
