@@ -1,15 +1,13 @@
-"""Writes about people and roles."""
+"""People of an organisation: invitation, role, capacity, skills, site grants, deactivation and reactivation,
+each checked first (``person_input_check``) and never leaving the organisation without an active administrator."""
 
-import contextvars
 import hashlib
-from collections.abc import Iterable, Iterator, Mapping
-from contextlib import contextmanager
+from collections.abc import Mapping
 from dataclasses import dataclass
 from decimal import ROUND_HALF_UP, Decimal
-from typing import Any, Protocol
+from typing import Any
 
 from django.conf import settings
-from django.contrib.auth.tokens import default_token_generator
 from django.core.exceptions import PermissionDenied, ValidationError
 from django.core.mail import send_mail
 from django.core.validators import validate_email
@@ -18,163 +16,14 @@ from django.db.models import Q
 from django.template.loader import render_to_string
 from django.utils.encoding import force_bytes
 from django.utils.http import urlsafe_base64_encode
-from rest_framework.authtoken.models import Token
 
-from .changes import organisation_changed, person_changed
-from .inputs import FieldErrors, check_number, check_text, shown
-from .models import Membership, Organisation, Role, SiteGrant, User
-from .tokens import invitation_timeout, invitation_token_generator
+from ..changes import organisation_changed, person_changed
+from ..inputs import FieldErrors, check_number, check_text, shown
+from ..models import Membership, Organisation, Role, SiteGrant, User
+from ..tokens import invitation_timeout, invitation_token_generator
+from .audit import audit_record
+from .users import OrganisationRecord, allowed_list, user_credentials_revoke
 
-
-class OrganisationRecord(Protocol):
-    """A record of an app above this one that belongs to an organisation (a site, say)."""
-
-    pk: Any
-    organisation_id: int
-
-
-@transaction.atomic
-def user_create(
-    *,
-    username: str,
-    password: str,
-    organisation: Organisation,
-    role: str,
-    first_name: str = "",
-    last_name: str = "",
-    email: str = "",
-    unit_system: str = User.UnitSystem.SI,
-) -> User:
-    user = User(username=username, first_name=first_name, last_name=last_name, email=email, unit_system=unit_system)
-    user.set_password(password)
-    user.full_clean(exclude=["password"])
-    user.save()
-    Membership.objects.create(user=user, organisation=organisation, role=role)
-    organisation_changed(organisation_id=organisation.pk)  # a board lists its technicians
-    return user
-
-
-def site_grant(*, user: User, site: OrganisationRecord) -> SiteGrant:
-    grant, created = SiteGrant.objects.get_or_create(user=user, site_id=site.pk)
-    if created:
-        organisation_changed(organisation_id=site.organisation_id)
-    return grant
-
-
-def api_token_issue(*, user: User) -> Token:
-    """Issue (or return) the user's API token."""
-    token, _ = Token.objects.get_or_create(user=user)
-    return token
-
-
-def api_token_revoke(*, user: User) -> None:
-    """Revoke the user's API token; the next request with it is refused."""
-    Token.objects.filter(user=user).delete()
-
-
-def user_credentials_revoke(*, user: User) -> None:
-    """A new password ends every way in that the old one gave: the API token is deleted and the apps above
-    revoke what they keep (``signals.password_changed``: the calendar feed). Sessions end by themselves, as
-    Django's session hash follows the password hash."""
-    from .signals import password_changed
-
-    Token.objects.filter(user=user).delete()
-    password_changed.send(sender=User, user=user)
-
-
-def password_saved(sender: type[User], instance: User, created: bool, **kwargs: Any) -> None:
-    """post_save of a person: after a saved password change (reset by e-mail, admin, command), revoke."""
-    if getattr(instance, "_password_replaced", False):
-        instance._password_replaced = False
-        if not created:
-            user_credentials_revoke(user=instance)
-
-
-def audit_record(
-    *,
-    actor: User | None,
-    obj: Any,
-    action: str,
-    changes: Mapping[str, Any] | None = None,
-    organisation: Organisation | None = None,
-    organisation_id: int | None = None,
-) -> None:
-    """Append one event to the audit trail. Call it inside the same transaction as the change.
-
-    ``organisation_id`` instead of ``organisation`` when only the id is at hand (no read of the row)."""
-    from .models import AuditEvent
-
-    event = AuditEvent(
-        actor=actor if getattr(actor, "is_authenticated", False) else None,
-        organisation_id=organisation.pk if organisation is not None else organisation_id,
-        object_type=obj._meta.label_lower,
-        object_id=str(obj.pk),
-        action=action,
-        changes=changes or {},
-    )
-    pending = _audits_pending.get()
-    if pending is not None:
-        pending.append(event)
-        return
-    event.save()
-
-
-_audits_pending: contextvars.ContextVar[list[Any] | None] = contextvars.ContextVar("audits_pending", default=None)
-
-
-@contextmanager
-def audits_deferred() -> Iterator[None]:
-    """Collect the audit events written inside the block and insert them in one statement when it ends.
-
-    For a batch of writes in one transaction (the sync endpoint's forms): the outermost block writes them
-    (inside that transaction, so they commit with the writes); a block inside another hands its events to
-    the outer one only when it ends without an error, so wrap each rolled-back unit (a form's savepoint)
-    in its own block, outside the savepoint: ``with audits_deferred(), transaction.atomic():``. Its events
-    are then kept exactly when its writes are."""
-    from .models import AuditEvent
-
-    outer = _audits_pending.get()
-    if outer is None and not transaction.get_connection().in_atomic_block:
-        raise RuntimeError("audits_deferred() belongs inside the transaction of the writes it records")
-    mine: list[Any] = []
-    token = _audits_pending.set(mine)
-    try:
-        yield
-    finally:
-        _audits_pending.reset(token)
-    if outer is not None:
-        outer.extend(mine)
-    elif mine:
-        AuditEvent.objects.bulk_create(mine)
-
-
-RESET_MAIL_SUBJECT_TEMPLATE = "frontend/password_reset_subject.txt"
-RESET_MAIL_BODY_TEMPLATE = "frontend/password_reset_email.txt"
-
-
-def password_reset_email_send(*, user_id: int) -> bool:
-    """E-mail an active person a one-use link to set a new password; False when there is nobody to send to.
-
-    The link is Django's reset token (it stops working once the password changes, or after
-    ``PASSWORD_RESET_TIMEOUT``) under ``PLENUM_PUBLIC_URL``, never under the Host a request carried.
-    """
-    user = User.objects.filter(pk=user_id, is_active=True).first()
-    if user is None or not user.email or not user.has_usable_password():
-        return False
-    context = {
-        "user": user,
-        "uid": urlsafe_base64_encode(force_bytes(user.pk)),
-        "token": default_token_generator.make_token(user),
-        "public_url": settings.PLENUM_PUBLIC_URL.rstrip("/"),
-    }
-    subject = "".join(render_to_string(RESET_MAIL_SUBJECT_TEMPLATE, context).splitlines())
-    send_mail(subject, render_to_string(RESET_MAIL_BODY_TEMPLATE, context), None, [user.email])
-    return True
-
-
-# ---------------------------------------------------------------------------
-# People of an organisation: invitation, role, capacity, skills, site grants, deactivation
-# ---------------------------------------------------------------------------
 # A working day never exceeds the day itself; 0 h is a person who plans and signs but takes no field work.
 CAPACITY_MIN_HOURS = 0.0
 CAPACITY_MAX_HOURS = 24.0
@@ -200,10 +49,6 @@ class PersonInput:
     skills: list[str]
 
 
-def _allowed_list(values: Iterable[str]) -> str:
-    return ", ".join(values)
-
-
 def person_input_check(
     raw: Mapping[str, Any], *, skills_allowed: dict[str, str], organisation: Organisation, person: User | None = None
 ) -> PersonInput:
@@ -224,7 +69,7 @@ def person_input_check(
     role = raw.get("role")
     roles = [str(r) for r in Role.values]
     if role not in roles:
-        errors.add("role", f"Role: {shown(role)} is not a role; allowed: {_allowed_list(roles)}")
+        errors.add("role", f"Role: {shown(role)} is not a role; allowed: {allowed_list(roles)}")
     capacity = check_number(
         raw.get("capacity"),
         key="capacity",
@@ -240,7 +85,7 @@ def person_input_check(
         skills = [skills]
     unknown = [s for s in skills if s not in skills_allowed]
     for code in unknown:
-        errors.add("skills", f"Skills: {shown(code)} is not a skill; allowed: {_allowed_list(skills_allowed)}")
+        errors.add("skills", f"Skills: {shown(code)} is not a skill; allowed: {allowed_list(skills_allowed)}")
     errors.raise_if_any()
     return PersonInput(
         first_name=first,
@@ -339,7 +184,7 @@ def person_invite(*, by: User, organisation: Organisation, data: PersonInput) ->
 
 
 def _invitation_queue(*, user_id: int, organisation_id: int) -> None:
-    from .tasks import invitation_email_send
+    from ..tasks import invitation_email_send
 
     invitation_email_send.delay(user_id=user_id, organisation_id=organisation_id)
 
@@ -476,37 +321,3 @@ def person_reactivate(*, by: User, organisation: Organisation, person: User) -> 
     person.save(update_fields=["is_active"])
     audit_record(actor=by, obj=person, action="person_reactivated", organisation=organisation)
     person_changed(user_id=person.pk)
-
-
-# ---------------------------------------------------------------------------
-# A person's own settings
-# ---------------------------------------------------------------------------
-def unit_system_check(raw: object) -> str:
-    allowed = [str(v) for v in User.UnitSystem.values]
-    if raw not in allowed:
-        raise ValidationError(
-            {"unit_system": [f"Units: {shown(raw)} is not a unit system; allowed: {_allowed_list(allowed)}"]}
-        )
-    return raw
-
-
-@transaction.atomic
-def unit_system_set(*, user: User, unit_system: str) -> User:
-    """The units the person reads and types in: every page, the phone form and the calculator follow at once."""
-    if user.unit_system != unit_system:
-        audit_record(
-            actor=user, obj=user, action="unit_system_changed", changes={"unit_system": [user.unit_system, unit_system]}
-        )
-        user.unit_system = unit_system
-        user.save(update_fields=["unit_system"])
-        person_changed(user_id=user.pk)
-    return user
-
-
-@transaction.atomic
-def password_change(*, user: User, new_password: str) -> None:
-    """A new password chosen by the person (the old one checked by the caller's form): the API token and the
-    calendar feeds of the old one end (``password_saved``)."""
-    user.set_password(new_password)
-    user.save(update_fields=["password"])
-    audit_record(actor=user, obj=user, action="password_changed")

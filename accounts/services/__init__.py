@@ -1,0 +1,83 @@
+"""Writes about people and roles. Import from here: ``from accounts.services import audit_record``.
+
+``audit`` (the audit trail), ``users`` (a person's account, tokens, password and own settings), ``people`` (the
+people of an organisation: invitation, role, capacity, skills, site grants, deactivation).
+"""
+
+from .audit import (
+    audit_record,
+    audits_deferred,
+)
+from .people import (
+    CAPACITY_MAX_HOURS,
+    CAPACITY_MIN_HOURS,
+    EMAIL_MAX,
+    INVITE_BODY_TEMPLATE,
+    INVITE_SUBJECT_TEMPLATE,
+    NAME_MAX,
+    LastAdministrator,
+    PersonChanged,
+    PersonInput,
+    invitation_email_send,
+    invitation_resend,
+    person_deactivate,
+    person_input_check,
+    person_invite,
+    person_reactivate,
+    person_state,
+    person_update,
+    site_grants_set,
+)
+from .users import (
+    RESET_MAIL_BODY_TEMPLATE,
+    RESET_MAIL_SUBJECT_TEMPLATE,
+    OrganisationRecord,
+    allowed_list,
+    api_token_issue,
+    api_token_revoke,
+    password_change,
+    password_reset_email_send,
+    password_saved,
+    site_grant,
+    unit_system_check,
+    unit_system_set,
+    user_create,
+    user_credentials_revoke,
+)
+
+__all__ = [
+    "CAPACITY_MAX_HOURS",
+    "CAPACITY_MIN_HOURS",
+    "EMAIL_MAX",
+    "INVITE_BODY_TEMPLATE",
+    "INVITE_SUBJECT_TEMPLATE",
+    "NAME_MAX",
+    "RESET_MAIL_BODY_TEMPLATE",
+    "RESET_MAIL_SUBJECT_TEMPLATE",
+    "LastAdministrator",
+    "OrganisationRecord",
+    "PersonChanged",
+    "PersonInput",
+    "allowed_list",
+    "api_token_issue",
+    "api_token_revoke",
+    "audit_record",
+    "audits_deferred",
+    "invitation_email_send",
+    "invitation_resend",
+    "password_change",
+    "password_reset_email_send",
+    "password_saved",
+    "person_deactivate",
+    "person_input_check",
+    "person_invite",
+    "person_reactivate",
+    "person_state",
+    "person_update",
+    "site_grant",
+    "site_grants_set",
+    "unit_system_check",
+    "unit_system_set",
+    "user_create",
+    "user_credentials_revoke",
+]
