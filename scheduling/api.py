@@ -1,16 +1,15 @@
-"""Scheduling API: one small view per operation; tenancy through the selectors."""
+"""Scheduling API: one small view per operation; tenancy through the selectors. What a view reads from the request
+(the caller's organisation, the work order named, the polled reads' parameters) is ``scheduling.api_requests``; what
+it answers beyond a serializer (the work order now, the over-capacity warning) ``scheduling.api_answers``."""
 
 from __future__ import annotations
 
 import datetime as dt
 
 from django.conf import settings
-from django.core.exceptions import PermissionDenied as DjangoPermissionDenied
 from django.core.exceptions import ValidationError
-from django.http import HttpRequest
 from django.urls import reverse
 from django.utils import timezone
-from django.utils.cache import patch_cache_control, patch_vary_headers
 from django.utils.decorators import method_decorator
 from django.views.decorators.http import conditional_page
 from drf_spectacular.utils import OpenApiParameter, extend_schema
@@ -19,15 +18,22 @@ from rest_framework.exceptions import PermissionDenied
 from rest_framework.response import Response
 from rest_framework.views import APIView
 
-from accounts.answers import json_answer, kept
+from accounts.answers import json_answer
 from accounts.api_errors import ErrorOutput
-from accounts.inputs import FieldErrors, check_number, check_reading_time, date_problem
-from accounts.models import Membership, Role, User
-from accounts.selectors import MANAGING_ROLES, does_field_work, technician_of
+from accounts.inputs import FieldErrors, check_reading_time
+from accounts.selectors import does_field_work, technician_of
 from inventory.selectors import ahus_visible_to, sites_visible_to
-from inventory.today import time_zone_for, today_for
 
 from . import serializers as s
+from .api_answers import over_capacity_answer, revalidated, work_order_answer
+from .api_requests import (
+    CONDITIONAL,
+    board_params,
+    caller_organisation,
+    today_params,
+    work_order_managed,
+    work_order_seen,
+)
 from .models import MeterReading, OutdoorTemperature, WorkOrder
 from .selectors import (
     BOARD_LIMIT_MAX,
@@ -38,7 +44,6 @@ from .selectors import (
     effective_tasks,
     to_verify_rows,
     today_visits_for,
-    work_order_for,
     work_orders_managed_by,
     work_orders_visible_to,
 )
@@ -74,12 +79,6 @@ class WorkOrderChangeView(APIView):
         return super().handle_exception(exc)
 
 
-def _organisation_for(user, *, managing: bool = False):
-    roles = list(MANAGING_ROLES) if managing else list(Role.values)
-    m = Membership.objects.filter(user=user, role__in=roles).select_related("organisation").order_by("id").first()
-    return m.organisation if m else None
-
-
 class WorkOrderList(APIView):
     @extend_schema(
         responses={200: s.WorkOrderOutput(many=True), 400: ErrorOutput},
@@ -96,45 +95,10 @@ class WorkOrderList(APIView):
         return Response(s.WorkOrderOutput(qs, many=True).data)
 
 
-def _visible(request, public_id) -> WorkOrder:
-    return work_order_for(user=request.user, public_id=public_id)
-
-
-def _current(request, public_id) -> Response:
-    """The work order as it now stands, read again through the access function (a change moves its version,
-    state and tasks): the answer of every work-order route."""
-    return Response(s.WorkOrderOutput(_visible(request, public_id)).data)
-
-
-def _managed(request, public_id, *, action: str) -> WorkOrder:
-    """The work order if the person manages it: 404 when they cannot see it, 403 when they may only look."""
-    try:
-        return work_order_for(user=request.user, public_id=public_id, write=True)
-    except DjangoPermissionDenied:
-        raise PermissionDenied(f"Only a supervisor or admin of the organisation may {action}.") from None
-
-
 class WorkOrderDetail(APIView):
     @extend_schema(responses={200: s.WorkOrderOutput, **ERRORS}, summary="One work order with its tasks")
     def get(self, request, public_id):
-        return _current(request, public_id)
-
-
-def _over_capacity(check) -> Response:
-    """The 409 that warns before a technician's day passes their capacity (tasks plus travel), as the board page
-    does (``work_order_assign_and_plan`` decides when)."""
-    suggestion = None
-    if check.suggestion is not None:
-        user, load = check.suggestion
-        suggestion = {"id": user.pk, "username": user.username, "name": str(user), "load": load.as_dict()}
-    message = f"{check.message()} {check.suggestion_words()}"
-    body = {
-        "detail": message,
-        "errors": {"confirm_over_capacity": [f"{message} Send confirm_over_capacity: true to assign anyway."]},
-        "load": s.DayLoadOutput(check.load.as_dict()).data,
-        "suggestion": suggestion,
-    }
-    return Response(body, status=status.HTTP_409_CONFLICT)
+        return work_order_answer(request, public_id)
 
 
 class WorkOrderAssign(WorkOrderChangeView):
@@ -149,7 +113,7 @@ class WorkOrderAssign(WorkOrderChangeView):
         ),
     )
     def post(self, request, public_id):
-        wo = _managed(request, public_id, action="assign")
+        wo = work_order_managed(request, public_id, action="assign")
         data = s.AssignInput(data=request.data)
         data.is_valid(raise_exception=True)
         assignee = technician_of(organisation_id=wo.organisation_id, username=data.validated_data["assignee"])
@@ -166,8 +130,8 @@ class WorkOrderAssign(WorkOrderChangeView):
                 confirm_over_capacity=data.validated_data.get("confirm_over_capacity", False),
             )
         except OverCapacity as warning:
-            return _over_capacity(warning.check)
-        return _current(request, public_id)
+            return over_capacity_answer(warning.check)
+        return work_order_answer(request, public_id)
 
 
 class WorkOrderSchedule(WorkOrderChangeView):
@@ -181,7 +145,7 @@ class WorkOrderSchedule(WorkOrderChangeView):
         ),
     )
     def post(self, request, public_id):
-        wo = _managed(request, public_id, action="plan work")
+        wo = work_order_managed(request, public_id, action="plan work")
         data = s.ScheduleInput(data=request.data)
         data.is_valid(raise_exception=True)
         work_order_schedule(
@@ -190,7 +154,7 @@ class WorkOrderSchedule(WorkOrderChangeView):
             by=request.user,
             expected_version=data.validated_data["version"],
         )
-        return _current(request, public_id)
+        return work_order_answer(request, public_id)
 
 
 class WorkOrderTransition(WorkOrderChangeView):
@@ -200,7 +164,7 @@ class WorkOrderTransition(WorkOrderChangeView):
         summary="Move a work order to another state (start, complete, verify, cancel, unassign)",
     )
     def post(self, request, public_id):
-        wo = _visible(request, public_id)
+        wo = work_order_seen(request, public_id)
         data = s.TransitionInput(data=request.data)
         data.is_valid(raise_exception=True)
         to_state = data.validated_data["to_state"]
@@ -218,7 +182,7 @@ class WorkOrderTransition(WorkOrderChangeView):
             expected_version=data.validated_data["version"],
             reason=data.validated_data["reason"],
         )
-        return _current(request, public_id)
+        return work_order_answer(request, public_id)
 
 
 class WorkOrderApprove(WorkOrderChangeView):
@@ -228,11 +192,11 @@ class WorkOrderApprove(WorkOrderChangeView):
         summary="Approve proposed corrective work",
     )
     def post(self, request, public_id):
-        wo = _managed(request, public_id, action="approve")
+        wo = work_order_managed(request, public_id, action="approve")
         data = s.VersionInput(data=request.data)
         data.is_valid(raise_exception=True)
         corrective_work_order_approve(work_order=wo, by=request.user, expected_version=data.validated_data["version"])
-        return _current(request, public_id)
+        return work_order_answer(request, public_id)
 
 
 class WorkOrderReject(WorkOrderChangeView):
@@ -242,7 +206,7 @@ class WorkOrderReject(WorkOrderChangeView):
         summary="Reject proposed corrective work, with a reason",
     )
     def post(self, request, public_id):
-        wo = _managed(request, public_id, action="reject")
+        wo = work_order_managed(request, public_id, action="reject")
         data = s.RejectInput(data=request.data)
         data.is_valid(raise_exception=True)
         corrective_work_order_reject(
@@ -251,30 +215,7 @@ class WorkOrderReject(WorkOrderChangeView):
             reason=data.validated_data["reason"],
             expected_version=data.validated_data["version"],
         )
-        return _current(request, public_id)
-
-
-def _revalidated(response: Response) -> Response:
-    """Polled reads: kept only by the caller, and checked each time (the ETag makes an unchanged answer a 304)."""
-    patch_cache_control(response, private=True, no_cache=True)
-    patch_vary_headers(response, ["Authorization"])
-    return response
-
-
-CONDITIONAL = [
-    OpenApiParameter(
-        "If-None-Match",
-        str,
-        OpenApiParameter.HEADER,
-        description="The ETag of an earlier answer; 304 with no body while the answer is the same.",
-    )
-]
-
-
-def _kept_zone(request: HttpRequest, user: User) -> str | None:
-    """The zone the caller's day is read on (``inventory.today``), kept with the answers: no query on a repeat."""
-    zone: str | None = kept(request, ("time_zone", user.pk), lambda: time_zone_for(user))
-    return zone
+        return work_order_answer(request, public_id)
 
 
 # Both polled reads are whole answers from accounts.answers: built once per change of the organisation's data
@@ -282,24 +223,6 @@ def _kept_zone(request: HttpRequest, user: User) -> str | None:
 # is entered).
 # The ETag is a hash of the answer's bytes, so it is right whatever changed (a work order, a site's name, a
 # task's estimate).
-def today_params(request, user) -> tuple[dt.date, tuple[float, float] | None]:
-    """(day, start) of a today request; the answer depends on nothing else but the caller. The day defaults
-    to today where the caller's sites are (their time zone kept with the answers: no query on a repeat)."""
-    query = request.GET
-    day = _date_param(query, "day")
-    if day is None:
-        day = today_for(_kept_zone(request, user))
-    start = None
-    if query.get("lat") and query.get("lon"):
-        # 'nan' or 'inf' would route nowhere and make the answer no JSON: refused with the range.
-        checked = FieldErrors()
-        lat = check_number(query["lat"], key="lat", label="Latitude", minimum=-90, maximum=90, unit="°", errors=checked)
-        lon = check_number(
-            query["lon"], key="lon", label="Longitude", minimum=-180, maximum=180, unit="°", errors=checked
-        )
-        checked.raise_if_any()
-        start = (lat, lon)
-    return day, start
 
 
 @method_decorator(conditional_page, name="dispatch")
@@ -321,50 +244,7 @@ class TodayVisits(APIView):
             return today_visits_for(technician=request.user, day=day, start=start)
 
         answer = json_answer(request, view="today", key=key, build=build)
-        return _revalidated(answer or Response(build()))
-
-
-def _date_param(query, name: str) -> dt.date | None:
-    raw = query.get(name)
-    if not raw:
-        return None
-    try:
-        return dt.date.fromisoformat(raw)
-    except ValueError:
-        raise ValidationError({name: [f"{name}={raw!r} is not a date as YYYY-MM-DD"]}) from None
-
-
-def _int_param(query, name: str, *, default: int, low: int, high: int) -> int:
-    raw = query.get(name)
-    if raw in (None, ""):
-        return default
-    try:
-        value = int(raw)
-    except ValueError:
-        value = None
-    if value is None or not low <= value <= high:
-        raise ValidationError({name: [f"{name}={raw!r} is not a whole number from {low} to {high}"]})
-    return value
-
-
-def board_params(request, user) -> tuple[dt.date, dt.date, int, int, str | None]:
-    """(week start, today, limit, offset, section) of a board request; with the caller, all it depends on.
-    Today is the caller's, as on the today answer (the board page reads the organisation's: the same zone for
-    a supervisor of one organisation)."""
-    query = request.GET
-    today = today_for(_kept_zone(request, user))
-    week = _date_param(query, "week") or today
-    problem = date_problem(week, label="week", today=today)
-    if problem is not None:
-        raise ValidationError({"week": [problem]})
-    week = week - dt.timedelta(days=week.weekday())
-    limit = _int_param(query, "limit", default=100, low=0, high=BOARD_LIMIT_MAX)
-    offset = _int_param(query, "offset", default=0, low=0, high=10**6)
-    section = query.get("section") or None
-    if section is not None and section not in BOARD_SECTIONS:
-        allowed = ", ".join(BOARD_SECTIONS)
-        raise ValidationError({"section": [f"section={section!r} is not one of {allowed}"]})
-    return week, today, limit, offset, section
+        return revalidated(answer or Response(build()))
 
 
 @method_decorator(conditional_page, name="dispatch")
@@ -388,7 +268,7 @@ class Board(APIView):
         week, today, limit, offset, section = key = board_params(request, request.user)
 
         def build():
-            org = _organisation_for(request.user, managing=True)
+            org = caller_organisation(request.user, managing=True)
             if org is None:
                 raise PermissionDenied("the board is for supervisors")
             page = board_page_for(
@@ -402,13 +282,13 @@ class Board(APIView):
             }
 
         answer = json_answer(request, view="board", key=key, build=build)
-        return _revalidated(answer or Response(build()))
+        return revalidated(answer or Response(build()))
 
 
 class TaskList(APIView):
     @extend_schema(responses={200: s.TaskDefinitionOutput(many=True)}, summary="Maintenance rules in force")
     def get(self, request):
-        org = _organisation_for(request.user)
+        org = caller_organisation(request.user)
         if org is None:
             return Response([])
         tasks = sorted(
@@ -424,7 +304,7 @@ class TaskOverride(APIView):
         summary="Change a rule for the caller's organisation",
     )
     def patch(self, request, code):
-        org = _organisation_for(request.user, managing=True)
+        org = caller_organisation(request.user, managing=True)
         if org is None:
             raise PermissionDenied("Only a supervisor or admin of the organisation may change the maintenance rules.")
         data = s.TaskOverrideInput(data=request.data)

@@ -1,0 +1,42 @@
+"""What the scheduling API's views answer beyond a serializer: the work order as it now stands (every work-order
+route's answer), the 409 that warns before a technician's day passes their capacity, and the polled reads' caching
+headers."""
+
+from __future__ import annotations
+
+from django.utils.cache import patch_cache_control, patch_vary_headers
+from rest_framework import status
+from rest_framework.response import Response
+
+from . import serializers as s
+from .api_requests import work_order_seen
+
+
+def work_order_answer(request, public_id) -> Response:
+    """The work order as it now stands, read again through the access function (a change moves its version,
+    state and tasks): the answer of every work-order route."""
+    return Response(s.WorkOrderOutput(work_order_seen(request, public_id)).data)
+
+
+def over_capacity_answer(check) -> Response:
+    """The 409 that warns before a technician's day passes their capacity (tasks plus travel), as the board page
+    does (``work_order_assign_and_plan`` decides when)."""
+    suggestion = None
+    if check.suggestion is not None:
+        user, load = check.suggestion
+        suggestion = {"id": user.pk, "username": user.username, "name": str(user), "load": load.as_dict()}
+    message = f"{check.message()} {check.suggestion_words()}"
+    body = {
+        "detail": message,
+        "errors": {"confirm_over_capacity": [f"{message} Send confirm_over_capacity: true to assign anyway."]},
+        "load": s.DayLoadOutput(check.load.as_dict()).data,
+        "suggestion": suggestion,
+    }
+    return Response(body, status=status.HTTP_409_CONFLICT)
+
+
+def revalidated(response: Response) -> Response:
+    """Polled reads: kept only by the caller, and checked each time (the ETag makes an unchanged answer a 304)."""
+    patch_cache_control(response, private=True, no_cache=True)
+    patch_vary_headers(response, ["Authorization"])
+    return response
