@@ -15,7 +15,8 @@ from rest_framework.response import Response
 from rest_framework.views import APIView
 
 from accounts.api_errors import RowErrorsOutput
-from inventory.api import R400, R401, R403, R404, _managed_organisation, page_output
+from inventory.api_answers import R400, R401, R403, R404, page_output
+from inventory.api_requests import managed_organisation
 from inventory.csv_io import ImportFailed, decode_upload
 from inventory.selectors import ahus_visible_to, sites_managed_by
 
@@ -188,7 +189,7 @@ class BrickImportView(APIView):
     def post(self, request):
         data = BrickImportInput(data=request.data)
         data.is_valid(raise_exception=True)
-        organisation = _managed_organisation(user=request.user, slug=data.validated_data.get("organisation"))
+        organisation = managed_organisation(user=request.user, slug=data.validated_data.get("organisation"))
         raw = data.validated_data["file"].read()
         try:
             text = raw.decode("utf-8-sig")

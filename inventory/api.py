@@ -4,9 +4,11 @@ Every read goes through ``inventory.selectors`` (the tenancy rule): a row the
 person may not see does not exist for them (404). Writes need a supervisor or
 admin of the row's organisation (``sites_managed_by``), otherwise 403; so do CSV
 import and export.
+
+What a view reads from the request (who may change a site, the organisation a new row goes into, a list's
+filters) is ``inventory.api_requests``; the documented refusals and a list's pages are ``inventory.api_answers``.
 """
 
-import functools
 import io
 
 from django.core.exceptions import PermissionDenied
@@ -14,15 +16,15 @@ from django.http import Http404, HttpResponse
 from django.shortcuts import get_object_or_404
 from drf_spectacular.utils import OpenApiParameter, OpenApiResponse, extend_schema
 from rest_framework import serializers, status
-from rest_framework.pagination import LimitOffsetPagination
 from rest_framework.parsers import FormParser, MultiPartParser
 from rest_framework.response import Response
 from rest_framework.views import APIView
 
-from accounts.api_errors import ErrorOutput, RowErrorsOutput
-from accounts.models import Organisation
+from accounts.api_errors import RowErrorsOutput
 
 from . import csv_io, import_jobs, selectors, services
+from .api_answers import R400, R401, R403, R404, page_answer, page_output
+from .api_requests import KIND_PARAMETER, filtered, kind_check, managed_organisation, require_manages
 from .filters import AHUFilter, BuildingFilter, ComponentFilter, SiteFilter
 from .models import Component
 from .serializers import (
@@ -42,60 +44,6 @@ from .serializers import (
 )
 from .specs import SPECS
 
-R400 = OpenApiResponse(ErrorOutput, description="Bad input: `errors` names each field, the value and what is allowed.")
-R403 = OpenApiResponse(ErrorOutput, description="Signed in, but not a supervisor or admin of the organisation.")
-R404 = OpenApiResponse(ErrorOutput, description="No such record, or not one the person may see.")
-R401 = OpenApiResponse(ErrorOutput, description="Not signed in, or the token is unknown or revoked.")
-
-
-def _require_manages(*, user, site_id: int) -> None:
-    if not selectors.sites_managed_by(user=user).filter(pk=site_id).exists():
-        raise PermissionDenied("Only a supervisor or admin of the site's organisation may change it.")
-
-
-def _filtered(filterset_class, request, queryset):
-    filterset = filterset_class(request.query_params, queryset=queryset, request=request)
-    if not filterset.is_valid():
-        raise serializers.ValidationError(filterset.errors)
-    return filterset.qs
-
-
-@functools.cache
-def page_output(output_class: type[serializers.Serializer]) -> type[serializers.Serializer]:
-    """The shape of one page of ``output_class`` rows as ``LimitOffsetPagination`` answers it (for the schema)."""
-    name = output_class.__name__.removesuffix("Output") + "PageOutput"
-    fields = {
-        "count": serializers.IntegerField(help_text="Rows in the whole list, not only this page."),
-        "next": serializers.URLField(allow_null=True, help_text="The next page; null on the last."),
-        "previous": serializers.URLField(allow_null=True, help_text="The page before; null on the first."),
-        "results": output_class(many=True),
-    }
-    return type(name, (serializers.Serializer,), {"__module__": __name__, **fields})
-
-
-def _page(request, view, queryset, output_class):
-    paginator = LimitOffsetPagination()
-    page = paginator.paginate_queryset(queryset, request, view=view)
-    return paginator.get_paginated_response(output_class(page, many=True).data)
-
-
-def _managed_organisation(*, user, slug: str | None) -> Organisation:
-    """The organisation a new site or an import goes into: the named one, or the only one the person manages."""
-    orgs = selectors.organisations_managed_by(user=user)
-    if slug:
-        org = orgs.filter(slug=slug).first()
-        if org is None:
-            raise PermissionDenied(f"organisation={slug!r} is not an organisation whose registry you manage.")
-        return org
-    orgs = list(orgs)
-    if len(orgs) == 1:
-        return orgs[0]
-    if not orgs:
-        raise PermissionDenied("Only a supervisor or admin may add to the registry.")
-    raise serializers.ValidationError(
-        {"organisation": [f"you manage several organisations; name one of {', '.join(o.slug for o in orgs)}"]}
-    )
-
 
 # ---------------------------------------------------------------------------
 # Sites
@@ -112,7 +60,7 @@ class SiteListView(APIView):
     )
     def get(self, request):
         qs = selectors.sites_visible_to(user=request.user).select_related("organisation", "client")
-        return _page(request, self, _filtered(SiteFilter, request, qs), SiteOutput)
+        return page_answer(request, self, filtered(SiteFilter, request, qs), SiteOutput)
 
     @extend_schema(summary="Add a site", request=SiteInput, responses={201: SiteOutput, 400: R400, 403: R403})
     def post(self, request):
@@ -120,7 +68,7 @@ class SiteListView(APIView):
         data.is_valid(raise_exception=True)
         fields = dict(data.validated_data)
         org = fields.pop("organisation", None)
-        fields["organisation"] = _managed_organisation(user=request.user, slug=org.slug if org else None)
+        fields["organisation"] = managed_organisation(user=request.user, slug=org.slug if org else None)
         site = services.site_create(**fields)
         return Response(SiteOutput(site).data, status=status.HTTP_201_CREATED)
 
@@ -138,7 +86,7 @@ class SiteDetailView(APIView):
     )
     def patch(self, request, pk: int):
         site = self._get(request, pk)
-        _require_manages(user=request.user, site_id=site.pk)
+        require_manages(user=request.user, site_id=site.pk)
         data = SiteInput(site, data=request.data, partial=True, context={"request": request})
         data.is_valid(raise_exception=True)
         fields = dict(data.validated_data)
@@ -161,7 +109,7 @@ class BuildingListView(APIView):
     )
     def get(self, request):
         qs = selectors.buildings_visible_to(user=request.user)
-        return _page(request, self, _filtered(BuildingFilter, request, qs), BuildingOutput)
+        return page_answer(request, self, filtered(BuildingFilter, request, qs), BuildingOutput)
 
     @extend_schema(
         summary="Add a building", request=BuildingInput, responses={201: BuildingOutput, 400: R400, 403: R403}
@@ -169,7 +117,7 @@ class BuildingListView(APIView):
     def post(self, request):
         data = BuildingInput(data=request.data, context={"request": request})
         data.is_valid(raise_exception=True)
-        _require_manages(user=request.user, site_id=data.validated_data["site"].pk)
+        require_manages(user=request.user, site_id=data.validated_data["site"].pk)
         building = services.building_create(**data.validated_data)
         return Response(BuildingOutput(building).data, status=status.HTTP_201_CREATED)
 
@@ -189,11 +137,11 @@ class BuildingDetailView(APIView):
     )
     def patch(self, request, pk: int):
         building = self._get(request, pk)
-        _require_manages(user=request.user, site_id=building.site_id)
+        require_manages(user=request.user, site_id=building.site_id)
         data = BuildingInput(building, data=request.data, partial=True, context={"request": request})
         data.is_valid(raise_exception=True)
         if "site" in data.validated_data:
-            _require_manages(user=request.user, site_id=data.validated_data["site"].pk)
+            require_manages(user=request.user, site_id=data.validated_data["site"].pk)
         building = services.building_update(building=building, **data.validated_data)
         return Response(BuildingOutput(building).data)
 
@@ -210,13 +158,13 @@ class AHUListView(APIView):
     )
     def get(self, request):
         qs = selectors.ahus_visible_to(user=request.user)
-        return _page(request, self, _filtered(AHUFilter, request, qs), AHUOutput)
+        return page_answer(request, self, filtered(AHUFilter, request, qs), AHUOutput)
 
     @extend_schema(summary="Add a unit", request=AHUInput, responses={201: AHUOutput, 400: R400, 403: R403})
     def post(self, request):
         data = AHUInput(data=request.data, context={"request": request})
         data.is_valid(raise_exception=True)
-        _require_manages(user=request.user, site_id=data.validated_data["building"].site_id)
+        require_manages(user=request.user, site_id=data.validated_data["building"].site_id)
         ahu = services.ahu_create(**data.validated_data)
         return Response(AHUOutput(ahu).data, status=status.HTTP_201_CREATED)
 
@@ -234,11 +182,11 @@ class AHUDetailView(APIView):
     )
     def patch(self, request, pk: int):
         ahu = self._get(request, pk)
-        _require_manages(user=request.user, site_id=ahu.building.site_id)
+        require_manages(user=request.user, site_id=ahu.building.site_id)
         data = AHUInput(ahu, data=request.data, partial=True, context={"request": request})
         data.is_valid(raise_exception=True)
         if "building" in data.validated_data:
-            _require_manages(user=request.user, site_id=data.validated_data["building"].site_id)
+            require_manages(user=request.user, site_id=data.validated_data["building"].site_id)
         ahu = services.ahu_update(ahu=ahu, **data.validated_data)
         return Response(AHUOutput(ahu).data)
 
@@ -266,7 +214,7 @@ class ComponentListView(APIView):
     )
     def get(self, request):
         qs = selectors.components_visible_to(user=request.user)
-        return _page(request, self, _filtered(ComponentFilter, request, qs), ComponentOutput)
+        return page_answer(request, self, filtered(ComponentFilter, request, qs), ComponentOutput)
 
     @extend_schema(
         summary="Add a component",
@@ -277,7 +225,7 @@ class ComponentListView(APIView):
     def post(self, request):
         data = ComponentInput(data=request.data, context={"request": request})
         data.is_valid(raise_exception=True)
-        _require_manages(user=request.user, site_id=data.validated_data["ahu"].building.site_id)
+        require_manages(user=request.user, site_id=data.validated_data["ahu"].building.site_id)
         component = services.component_create(**data.validated_data)
         return Response(ComponentOutput(component).data, status=status.HTTP_201_CREATED)
 
@@ -297,11 +245,11 @@ class ComponentDetailView(APIView):
     )
     def patch(self, request, pk: int):
         component = self._get(request, pk)
-        _require_manages(user=request.user, site_id=component.ahu.building.site_id)
+        require_manages(user=request.user, site_id=component.ahu.building.site_id)
         data = ComponentInput(component, data=request.data, partial=True, context={"request": request})
         data.is_valid(raise_exception=True)
         if "ahu" in data.validated_data:
-            _require_manages(user=request.user, site_id=data.validated_data["ahu"].building.site_id)
+            require_manages(user=request.user, site_id=data.validated_data["ahu"].building.site_id)
         component = services.component_update(component=component, **data.validated_data)
         return Response(ComponentOutput(component).data)
 
@@ -311,7 +259,7 @@ class ComponentDetailView(APIView):
     )
     def delete(self, request, pk: int):
         component = self._get(request, pk)
-        _require_manages(user=request.user, site_id=component.ahu.building.site_id)
+        require_manages(user=request.user, site_id=component.ahu.building.site_id)
         services.component_delete(component=component)
         return Response(status=status.HTTP_204_NO_CONTENT)
 
@@ -351,14 +299,6 @@ class ComponentKindsView(APIView):
 # ---------------------------------------------------------------------------
 # CSV import and export
 # ---------------------------------------------------------------------------
-KIND_PARAMETER = OpenApiParameter(
-    "kind", str, location=OpenApiParameter.PATH, enum=list(csv_io.KINDS), description="what the file holds"
-)
-
-
-def _check_kind(kind: str) -> None:
-    if kind not in csv_io.KINDS:
-        raise Http404(f"kind={kind!r} is not one of {', '.join(csv_io.KINDS)}")
 
 
 class ImportView(APIView):
@@ -382,10 +322,10 @@ class ImportView(APIView):
         },
     )
     def post(self, request, kind: str):
-        _check_kind(kind)
+        kind_check(kind)
         data = ImportInput(data=request.data)
         data.is_valid(raise_exception=True)
-        org = _managed_organisation(user=request.user, slug=data.validated_data.get("organisation"))
+        org = managed_organisation(user=request.user, slug=data.validated_data.get("organisation"))
         upload = data.validated_data["file"]
         dry_run = data.validated_data["dry_run"]
         try:
@@ -428,7 +368,7 @@ class ExportView(APIView):
         responses={(200, "text/csv"): OpenApiResponse(str), 400: R400, 403: R403, 404: R404},
     )
     def get(self, request, kind: str):
-        _check_kind(kind)
+        kind_check(kind)
         if not selectors.organisations_managed_by(user=request.user).exists():
             # The registry file is a contractor's working tool; property managers get their sites'
             # records as PDF reports, technicians their units through their work.
