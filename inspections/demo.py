@@ -18,22 +18,18 @@ from django.db import transaction
 from PIL import Image, ImageDraw
 
 from accounts.models import Membership, Role
-from engineering import filters
 from engineering import units as eng_units
-from engineering.freeze import daily_minimums_from_normals, freeze_season_start
 from inventory.models import AHU
 from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
 from scheduling.services import task_library_install
-from scheduling.services.seasons import season_key
 from scheduling.targets import task_targets
 
-from .freeze import season_window
+from .demo_calendar import VISIT_DAYS, freeze_test_visits, outdoor_c, part_load
 from .models import Inspection
 from .services.sync import inspection_submit
 
 NAMESPACE = uuid.UUID("6f1d1c52-2a55-4d0e-9a57-0c3b1d7e5a10")
 HOURS_PER_DAY = 14.0  # offices: about 14 h/day, seven days of weekday-plus-weekend running averaged (invented)
-VISIT_DAYS = 30
 # Units whose latest freeze-protection test fails (site code, unit tag): "stage_late" = stage 1 of the
 # electric preheater switched on 4.5 K below its set point. The demo's one unit "not ready" for winter.
 FREEZE_FAULTS = {("elderbank", "AHU-L1"): "stage_late"}
@@ -112,59 +108,6 @@ def _work_order(
     return wo
 
 
-def _freeze_starts(site, first: dt.date, last: dt.date) -> list[dt.date]:
-    """The freeze-season starts by the site's normals between ``first`` and ``last`` (one per autumn)."""
-    days = (last - first).days + 400
-    series = daily_minimums_from_normals(
-        monthly_min_c=site.normals_min_c, start=first - dt.timedelta(days=200), days=days
-    )
-    starts, search = [], first - dt.timedelta(days=200)
-    while True:
-        start = freeze_season_start(daily_minimums=series, threshold_c=site.preheat_threshold_c, search_from=search)
-        if start is None or start > last:
-            return starts
-        if start >= first:
-            starts.append(start)
-        search = start + dt.timedelta(days=200)
-
-
-def _freeze_visits(*, site, today: dt.date, months: int) -> dict[dt.date, str]:
-    """The visits that test the preheat and freeze protection, each with the season key it proves.
-
-    One visit before each earlier freeze season by the site's normals (the last within a month of its
-    start); and for the season freeze readiness judges today (``inspections.freeze.season_window``, from the
-    site's stored season start) the latest visit in its window up to that start, so the demo's units are
-    ready, or not ready for a reason, whatever the date it is loaded on.
-    """
-    visits = [today - dt.timedelta(days=VISIT_DAYS * m) for m in range(months, 0, -1)]
-    first = visits[0] if visits else today
-    judged, opens = season_window(site=site, today=today)
-    out: dict[dt.date, str] = {}
-    for start in _freeze_starts(site, first, today):
-        before = [d for d in visits if start - dt.timedelta(days=VISIT_DAYS) <= d < start]
-        if opens is not None:
-            before = [d for d in before if d < opens]  # the judged season's test is chosen below
-        for d in before[-1:]:
-            out[d] = season_key(season="freeze", start=start, latitude=site.latitude)
-    if judged is not None and opens is not None:
-        window = [d for d in visits if opens <= d <= judged]
-        for d in window[-1:]:
-            out[d] = season_key(season="freeze", start=judged, latitude=site.latitude)
-    return out
-
-
-def _outdoor_c(site, when: dt.date, rng: random.Random) -> float:
-    m = when.month - 1
-    return round((site.normals_min_c[m] + site.normals_max_c[m]) / 2 + rng.uniform(-3, 3), 1)
-
-
-def _part_load(bank, ahu, airflow_m3s: float) -> float:
-    """Factor on a filter's pressure drop at ``airflow_m3s`` against its design airflow (the filter law,
-    engineering.filters: Δp ∝ Q^n)."""
-    design = bank.specs.get("design_airflow_m3s") or ahu.design_supply_airflow_m3s
-    return (airflow_m3s / design) ** filters.DEFAULT_EXPONENT
-
-
 SYNC_DELAY = dt.timedelta(minutes=4)
 
 
@@ -220,7 +163,7 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
         if protected:
             freeze_task = TaskDefinition.objects.get(organisation=None, code="preheater_freeze")
             freeze_targets = task_targets(task=freeze_task, ahu=ahu, components=ahu.components.all())
-            freeze_visits = _freeze_visits(site=site, today=today, months=months)
+            freeze_visits = freeze_test_visits(site=site, today=today, months=months)
         loading = {b.pk: rng.uniform(0.0, 0.3) for b in banks}
         rate = {b.pk: rng.uniform(0.00015, 0.00030) for b in banks}  # fraction of span per run-hour
         hours = 5_000.0 + 1_000 * unit_no
@@ -268,7 +211,7 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                 # The filter check reads the filters as found: at a changing visit, the loaded ones about to
                 # come out (the evidence for the change); the reading after the change is the new set's first.
                 loading[b.pk] += rate[b.pk] * HOURS_PER_DAY * VISIT_DAYS
-                dp = (clean + loading[b.pk] * (final - clean) + rng.uniform(-3, 3)) * _part_load(b, ahu, airflow)
+                dp = (clean + loading[b.pk] * (final - clean) + rng.uniform(-3, 3)) * part_load(b, ahu, airflow)
                 readings += [
                     {
                         "item": "filter_check.dp",
@@ -285,13 +228,13 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                 ]
                 if b.pk in change_due:
                     loading[b.pk] = 0.0
-                    after = round(clean * rng.uniform(0.98, 1.08) * _part_load(b, ahu, airflow))
+                    after = round(clean * rng.uniform(0.98, 1.08) * part_load(b, ahu, airflow))
                     readings += [
                         {"item": "filter_replace.replaced", "component": b.label_code, "value": "ok"},
                         {"item": "filter_replace.dp_after", "component": b.label_code, "value": after},
                     ]
             change_due = {b.pk for b in banks if loading[b.pk] > 0.85}
-            t_out = _outdoor_c(site, due, rng)
+            t_out = outdoor_c(site, due, rng)
             t_ret = round(22 + rng.uniform(-1, 1), 1)
             x = max(ahu.design_min_oa_fraction, 0.1) + rng.uniform(0.02, 0.08)
             vent = [{"item": "ventilation_check.outdoor_air", "component": None, "value": t_out}]
