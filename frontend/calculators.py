@@ -1,38 +1,25 @@
 """The field calculator: each figure names its inputs (quantity, SI range) and calls one engineering function.
 
 Formulas live in engineering/ only; this module converts the user's units at
-the edges and shapes the answer for the page and the API.
+the edges and shapes the answer for the page and the API. An input's range in the person's units and the check
+of a typed number are ``frontend.calculator_inputs``.
 """
 
 from __future__ import annotations
 
-import math
 from collections.abc import Callable
 from dataclasses import dataclass
 
-from accounts.inputs import parse_number
 from engineering import _validate as limits
 from engineering import airside, filters, outdoor_air
 from engineering.errors import EngineeringInputError
-from engineering.formatting import decimals_of, format_number, number_text
+from engineering.formatting import format_number, number_text
 from engineering.psychro import STANDARD_PRESSURE_PA, pressure_from_altitude
-from engineering.units import SYSTEMS, UnitSystem, from_display, sensible_bound, to_display, unit_label
+from engineering.units import SYSTEMS, UnitSystem, unit_label
 from inspections.display import plain_message
 from inspections.reasons import q, render
 
-
-@dataclass(frozen=True)
-class Input:
-    name: str  # the engineering keyword argument
-    label: str
-    quantity: str
-    low_si: float | None
-    high_si: float | None
-    default_si: float | None = None
-    # A choice instead of a number: (value, plain words) pairs, the first the default.
-    choices: tuple[tuple[str, str], ...] = ()
-    # Where the air is: one of the person's places (their sites, then sea level); gives ``pressure_pa``.
-    place: bool = False
+from .calculator_inputs import Input, allowed_text, bounds, check_number, typed_text
 
 
 @dataclass(frozen=True)
@@ -227,53 +214,6 @@ CALCULATORS: dict[str, Calculator] = {
 }
 
 
-def bounds(spec: Input, system: str) -> tuple[float | None, float | None]:
-    """The input's allowed range in the person's unit at the quantity's display precision, rounded inward so
-    that a bound as shown, typed back, is allowed: 2,500 Pa is at most 10.03 in. w.c. (10.04 in. w.c. is
-    2,500.9 Pa; 1 in. w.c. = 249.0889 Pa, engineering/units.py)."""
-    d = decimals_of(quantity=spec.quantity, system=system)
-    scale = 10**d
-
-    def shown(value_si: float | None, inward: Callable[[float], float]) -> float | None:
-        if value_si is None:
-            return None
-        x = to_display(value=value_si, quantity=spec.quantity, system=system)
-        return inward(round(x * scale, 6)) / scale  # round(…, 6): 760.0000001 is 760, not 761
-
-    return shown(spec.low_si, math.ceil), shown(spec.high_si, math.floor)
-
-
-def _bound_text(value: float, *, upper: bool, decimals: int) -> str:
-    """A shown limit at sensible figures (engineering.units.sensible_bound, inward, so it is itself allowed),
-    with no decimals it does not need: "10", "210,000", "0.5"."""
-    x = sensible_bound(value, upper=upper)
-    d = 0 if float(x).is_integer() else decimals
-    return format_number(x, decimals=d)
-
-
-def allowed_text(spec: Input, system: str) -> str:
-    """ "from 0 to 10 in. w.c.": the range as a person reads it, its limits at sensible figures rounded inward
-    (the exact limits, ``bounds``, are what is accepted: 10.03 in. w.c. is still worked)."""
-    lo, hi = bounds(spec, system)
-    d = decimals_of(quantity=spec.quantity, system=system)
-    unit = unit_label(quantity=spec.quantity, system=system)
-    lo_text = _bound_text(lo, upper=False, decimals=d) if lo is not None else ""
-    hi_text = _bound_text(hi, upper=True, decimals=d) if hi is not None else ""
-    if lo is not None and hi is not None:
-        return f"from {lo_text} to {hi_text} {unit}"
-    if lo is not None:
-        return f"at least {lo_text} {unit}"
-    if hi is not None:
-        return f"at most {hi_text} {unit}"
-    return f"any number in {unit}"
-
-
-def _typed(raw: object) -> str:
-    """The typed text as a message repeats it, cut short."""
-    text = str(raw).strip()
-    return text if len(text) <= 40 else text[:39] + "…"
-
-
 def input_fields(calc: Calculator, system: str, places: list[Place] | None = None) -> list[dict]:
     """Inputs with their display unit and allowed range, for the form and the offline checks."""
     out = []
@@ -318,24 +258,7 @@ def _restate(exc: EngineeringInputError, inputs: dict[str, Input], typed: dict, 
         if lo is not None and hi is not None
         else (f"at least {lo} {unit}" if lo is not None else f"at most {hi} {unit}")
     )
-    return f"{spec.label}: {_typed(typed.get(exc.field))} {unit} is not allowed; allowed {allowed}"
-
-
-def check_number(spec: Input, raw: object, system: str) -> tuple[float | None, str]:
-    """A typed number inside the input's shown range, in SI; or None and the message that names the field, the
-    value and the allowed range (blank: missing; text, 1e400, NaN: not a usable number; else outside)."""
-    allowed = allowed_text(spec, system)
-    if raw is None or (isinstance(raw, str) and not raw.strip()):
-        return None, f"{spec.label}: missing; enter a number {allowed}"
-    number = parse_number(raw)
-    if number is None:
-        said = "" if isinstance(raw, float) else f"{_typed(raw)} is "  # a lost entry (the browser's NaN)
-        return None, f"{spec.label}: {said}not a usable number; allowed {allowed}"
-    lo, hi = bounds(spec, system)
-    if (lo is not None and number < lo) or (hi is not None and number > hi):
-        unit = unit_label(quantity=spec.quantity, system=system)
-        return None, f"{spec.label}: {_typed(raw)} {unit} is outside the allowed range, {allowed}"
-    return from_display(value=number, quantity=spec.quantity, system=system), ""
+    return f"{spec.label}: {typed_text(typed.get(exc.field))} {unit} is not allowed; allowed {allowed}"
 
 
 def calculate(*, name: str, values: dict, system: str, places: list[Place] | None = None) -> list[dict]:

@@ -5,7 +5,7 @@ import pytest
 from engineering.airside import dry_air_density_kg_m3, sensible_heat_w
 from engineering.formatting import number_text
 from engineering.units import from_display
-from frontend import calculators
+from frontend import calculator_inputs, calculators
 from frontend.calculators import CalcError, calculate, calculator_context
 from tests.phone_js import node_json
 
@@ -235,7 +235,7 @@ def test_shown_limits_are_sensible_figures_rounded_inward():
     assert sensible_bound(0.037, upper=False) == 0.037
     assert sensible_bound(0.0374, upper=False) == 0.038
     us = {
-        i.label: calculators.allowed_text(i, "us")
+        i.label: calculator_inputs.allowed_text(i, "us")
         for c in calculators.CALCULATORS.values()
         for i in c.inputs
         if i.quantity
