@@ -21,7 +21,8 @@ from inventory.csv_io import ImportFailed, decode_upload
 from inventory.selectors import ahus_visible_to, sites_managed_by
 
 from . import selectors, services, trends
-from .brick import BrickImportFailed, site_brick_import, site_brick_turtle
+from .brick import BrickImportFailed, site_brick_turtle
+from .brick_import import site_brick_import
 from .models import Point
 from .serializers import (
     BrickImportInput,

@@ -3,14 +3,8 @@
 import pytest
 from rdflib.compare import isomorphic
 
-from automation.brick import (
-    BrickImportFailed,
-    brick_validate,
-    parse_turtle,
-    site_brick_graph,
-    site_brick_import,
-    site_brick_turtle,
-)
+from automation.brick import BrickImportFailed, brick_validate, site_brick_graph, site_brick_turtle
+from automation.brick_import import parse_turtle, site_brick_import
 from automation.models import Point
 from inventory.models import AHU, Component, Site
 from tests.factories.accounts import OrganisationFactory

@@ -3,13 +3,13 @@
 from brickschema.namespaces import BRICK
 from rdflib import OWL, RDF
 
-from automation.brick import _brick_ontology
+from automation.brick import brick_ontology
 from automation.vocabulary import POINT_CLASSES, PointUnit, all_brick_names, component_brick_class
 
 
-def test_every_name_is_a_class_of_the_brick_ontology():
+def test_every_name_is_a_class_of_thebrick_ontology():
     """Every point and equipment class name is an owl:Class of Brick 1.5, and not a deprecated one."""
-    ontology = _brick_ontology()
+    ontology = brick_ontology()
     for name in sorted(all_brick_names()):
         assert (BRICK[name], RDF.type, OWL.Class) in ontology, name
         assert ontology.value(BRICK[name], OWL.deprecated) is None, name
