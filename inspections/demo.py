@@ -23,6 +23,7 @@ from inventory.models import AHU
 from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
 from scheduling.services import task_library_install
 from scheduling.targets import task_targets
+from scheduling.task_rows import work_order_task_rows
 
 from .demo_calendar import VISIT_DAYS, freeze_test_visits, outdoor_c, part_load
 from .models import Inspection
@@ -90,21 +91,13 @@ def _work_order(
     )
     tasks = {t.code: t for t in TaskDefinition.objects.filter(organisation=None, code__in=codes)}
     targets = targets or {}
-    WorkOrderTask.objects.bulk_create(
-        WorkOrderTask(
-            work_order=wo,
-            task=tasks[c],
-            task_code=c,
-            ahu=ahu,
-            component=comp,
-            component_key=comp.pk if comp else 0,
-            due_date=due,
-            occurrence_key=(keys or {}).get(c) or f"demo:{due:%Y-%m}:{wo.public_id.hex[:8]}",
-        )
-        for c in codes
-        if c in tasks
-        for comp in targets.get(c, [None])
+    rows = work_order_task_rows(
+        work_order=wo,
+        tasks_on=[(tasks[c], comp) for c in codes if c in tasks for comp in targets.get(c, [None])],
+        due=due,
+        occurrence_key=lambda task: (keys or {}).get(task.code) or f"demo:{due:%Y-%m}:{wo.public_id.hex[:8]}",
     )
+    WorkOrderTask.objects.bulk_create(rows)
     return wo
 
 

@@ -9,11 +9,11 @@ from django.db import transaction
 from inventory.today import today_for
 
 from .engine import GenerationResult, work_orders_generate
-from .engine import _title as visit_title  # the engine's own title of a preventive visit
 from .models import WorkOrder, WorkOrderTask, overdue_day
 from .selectors import effective_tasks
 from .services import site_seasons_refresh, task_library_install
-from .targets import task_targets
+from .task_rows import tasks_on_parts, work_order_task_rows
+from .titles import visit_title
 
 # What marks the demo's round visit (source_ref), so a rerun finds it instead of making another.
 ROUND_REF = "demo:round"
@@ -56,7 +56,7 @@ def demo_round_visit(*, ahu, codes: list[str], due: dt.date) -> tuple[WorkOrder,
         organisation=organisation,
         ahu=ahu,
         kind=WorkOrder.Kind.PREVENTIVE,
-        title=visit_title(chosen),
+        title=visit_title(t.name for t in chosen),  # as the engine titles a preventive visit
         due_date=due,
         overdue_on=overdue_day(due, min((t.grace_days for t in chosen), default=0)),
         source_ref=ROUND_REF,
@@ -70,21 +70,13 @@ def demo_round_visit(*, ahu, codes: list[str], due: dt.date) -> tuple[WorkOrder,
 def _round_tasks_add(*, work_order: WorkOrder, chosen: list, due: dt.date) -> None:
     """The tasks ``chosen`` on the round visit, on the parts the engine would pick."""
     ahu = work_order.ahu
-    components = list(ahu.components.all())
-    WorkOrderTask.objects.bulk_create(
-        WorkOrderTask(
-            work_order=work_order,
-            task=task,
-            task_code=task.code,
-            ahu=ahu,
-            component=target,
-            component_key=target.pk if target else 0,
-            due_date=due,
-            occurrence_key=f"round:{work_order.public_id.hex[:12]}",  # not "demo:", the history's own prefix
-        )
-        for task in chosen
-        for target in task_targets(task=task, ahu=ahu, components=components)
+    rows = work_order_task_rows(
+        work_order=work_order,
+        tasks_on=tasks_on_parts(tasks=chosen, ahu=ahu, components=ahu.components.all()),
+        due=due,
+        occurrence_key=f"round:{work_order.public_id.hex[:12]}",  # not "demo:", the history's own prefix
     )
+    WorkOrderTask.objects.bulk_create(rows)
 
 
 @transaction.atomic

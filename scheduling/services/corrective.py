@@ -18,10 +18,10 @@ from inventory.today import today_for
 
 from ..models import WorkOrder, WorkOrderTask, overdue_day
 from ..selectors import effective_tasks
-from ..targets import task_targets
+from ..task_rows import tasks_on_parts, work_order_task_rows
 from ..titles import title_fit
 from .escalation import email_supervisors_on_commit
-from .work_orders import State, _copy_back, _locked, _save, priority_grace_days
+from .work_orders import State, priority_grace_days, work_order_copy_back, work_order_locked, work_order_save
 
 
 @transaction.atomic
@@ -94,24 +94,14 @@ def corrective_work_order_propose(
     wo.full_clean()
     wo.save()
     if condition_code:
-        rows = []
+        tasks = [t for t in effective_tasks(organisation=organisation).values() if t.condition_code == condition_code]
         components = list(ahu.components.all()) if component is None else [component]
-        for task in effective_tasks(organisation=organisation).values():
-            if task.condition_code != condition_code:
-                continue
-            for target in task_targets(task=task, ahu=ahu, components=components):
-                rows.append(
-                    WorkOrderTask(
-                        work_order=wo,
-                        task=task,
-                        task_code=task.code,
-                        ahu=ahu,
-                        component=target,
-                        component_key=target.pk if target else 0,
-                        due_date=due,
-                        occurrence_key=f"cond:{condition_code}:{wo.public_id.hex[:12]}",
-                    )
-                )
+        rows = work_order_task_rows(
+            work_order=wo,
+            tasks_on=tasks_on_parts(tasks=tasks, ahu=ahu, components=components),
+            due=due,
+            occurrence_key=f"cond:{condition_code}:{wo.public_id.hex[:12]}",
+        )
         WorkOrderTask.objects.bulk_create(rows)
     audit_record(
         actor=by,
@@ -162,7 +152,7 @@ def _refuse_decision_on_closed(wo: WorkOrder, decision: str) -> None:
 
 @transaction.atomic
 def corrective_work_order_approve(*, work_order: WorkOrder, by, expected_version: int | None = None) -> WorkOrder:
-    wo = _locked(work_order, expected_version)
+    wo = work_order_locked(work_order, expected_version)
     _refuse_decision_on_closed(wo, "approved")
     if wo.approval != WorkOrder.Approval.PENDING:
         raise ValidationError(
@@ -183,12 +173,12 @@ def corrective_work_order_approve(*, work_order: WorkOrder, by, expected_version
         wo.due_date, wo.overdue_on = today, overdue_day(today, priority_grace_days(wo.priority))
         fields += ["due_date", "overdue_on"]
         wo.tasks.filter(due_date__lt=today).update(due_date=today)
-    _save(wo, fields, by=by, action="corrective_approve", changes=changes)
+    work_order_save(wo, fields, by=by, action="corrective_approve", changes=changes)
     if wo.priority == WorkOrder.Priority.URGENT:
         email_supervisors_on_commit(
             wo.organisation_id, f"Urgent corrective work approved: {wo.ahu.tag}", f"{wo.title}\n\n{wo.reason}"
         )
-    _copy_back(work_order, wo)
+    work_order_copy_back(work_order, wo)
     return wo
 
 
@@ -218,7 +208,7 @@ def corrective_work_order_reject(
 ) -> WorkOrder:
     """Reject proposed corrective work with a reason (kept on the work order and in the audit trail)."""
     text = rejection_reason_check(reason=reason)
-    wo = _locked(work_order, expected_version)
+    wo = work_order_locked(work_order, expected_version)
     _refuse_decision_on_closed(wo, "rejected")
     if wo.approval != WorkOrder.Approval.PENDING:
         raise ValidationError(
@@ -232,6 +222,8 @@ def corrective_work_order_reject(
     wo.approval = WorkOrder.Approval.REJECTED
     wo.state = State.CANCELLED
     wo.cancel_reason = text
-    _save(wo, ["approval", "state", "cancel_reason"], by=by, action="corrective_reject", changes={"reason": text})
-    _copy_back(work_order, wo)
+    work_order_save(
+        wo, ["approval", "state", "cancel_reason"], by=by, action="corrective_reject", changes={"reason": text}
+    )
+    work_order_copy_back(work_order, wo)
     return wo

@@ -24,8 +24,9 @@ from inventory.today import today_for
 from ..models import TaskCategory, TaskDefinition, WorkOrder, WorkOrderTask, overdue_day
 from ..selectors import effective_tasks
 from ..targets import task_targets
+from ..task_rows import work_order_task_rows
 from ..titles import TITLE_MAX
-from .work_orders import State, _check_assignee, priority_grace_days
+from .work_orders import State, assignee_check, priority_grace_days
 
 # ---------------------------------------------------------------------------
 # Work beyond the plan: call-outs, ad-hoc work, work from a finding, the frost check
@@ -170,7 +171,7 @@ def work_order_create(
     rows = _check_tasks(errors=errors, ahu=ahu, tasks=list(tasks), one_off=list(one_off))
     if assignee is not None:
         try:
-            _check_assignee(WorkOrder(organisation=organisation), assignee)
+            assignee_check(WorkOrder(organisation=organisation), assignee)
         except ValidationError as exc:
             for message in exc.message_dict.get("assignee", exc.messages):
                 errors.add("assignee", f"Technician: {message}")
@@ -216,15 +217,7 @@ def work_order_create(
         task.full_clean()
         task.save()
         rows.append((task, None))
-    WorkOrderTask.objects.bulk_create(
-        [
-            WorkOrderTask(
-                work_order=wo, task=task, task_code=task.code, ahu=ahu, component=target,
-                component_key=target.pk if target else 0, due_date=day, occurrence_key=key,
-            )
-            for task, target in rows
-        ]
-    )  # fmt: skip
+    WorkOrderTask.objects.bulk_create(work_order_task_rows(work_order=wo, tasks_on=rows, due=day, occurrence_key=key))
     audit_record(
         actor=by,
         obj=wo,

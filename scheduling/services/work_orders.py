@@ -57,7 +57,7 @@ class WorkOrderTransitionError(ValidationError):
         )
 
 
-def _locked(work_order: WorkOrder, expected_version: int | None) -> WorkOrder:
+def work_order_locked(work_order: WorkOrder, expected_version: int | None) -> WorkOrder:
     fresh = (
         WorkOrder.objects.select_for_update(of=("self",)).select_related("ahu__building__site").get(pk=work_order.pk)
     )
@@ -66,7 +66,9 @@ def _locked(work_order: WorkOrder, expected_version: int | None) -> WorkOrder:
     return fresh
 
 
-def _save(wo: WorkOrder, fields: list[str], *, by, action: str, changes: dict, write: bool = True) -> WorkOrder:
+def work_order_save(
+    wo: WorkOrder, fields: list[str], *, by, action: str, changes: dict, write: bool = True
+) -> WorkOrder:
     """One move's version, audit event and answer version; ``write=False`` leaves the row's UPDATE to a later
     move of the same call (``work_order_complete_locked``), which writes every field the moves changed."""
     wo.version += 1
@@ -99,7 +101,7 @@ def no_technician(value: object) -> str:
     return f"no technician {str(value)!r} in your organisation you can assign"
 
 
-def _check_assignee(wo: WorkOrder, assignee) -> None:
+def assignee_check(wo: WorkOrder, assignee) -> None:
     if assignee is None:
         raise ValidationError({"assignee": ["an assigned work order needs an assignee"]})
     # A deactivated person (accounts.services.person_deactivate) takes no new work.
@@ -120,9 +122,9 @@ def work_order_transition(
     at: dt.datetime | None = None,
 ) -> WorkOrder:
     """Move a work order along the table in ``WorkOrder.TRANSITIONS``; refuse any other move."""
-    wo = _locked(work_order, expected_version)
+    wo = work_order_locked(work_order, expected_version)
     _transition(wo, to_state=to_state, by=by, reason=reason, at=at)
-    _copy_back(work_order, wo)
+    work_order_copy_back(work_order, wo)
     return wo
 
 
@@ -136,7 +138,7 @@ def _transition(
     fields: list[str] | None = None,
     write: bool = True,
 ) -> list[str]:
-    """The move of ``work_order_transition`` on a row the caller has locked (``_locked``) in its transaction.
+    """The move of ``work_order_transition`` on a row the caller has locked (``work_order_locked``) in its transaction.
 
     ``fields``: those an earlier move of the same call changed and left unwritten (``write=False``); the
     fields changed so far are returned. Receivers of ``work_order_moved`` act on completion and rework only,
@@ -147,7 +149,7 @@ def _transition(
     fields = [*(fields or []), "state"]
     wo.state = to_state
     if to_state == State.ASSIGNED:
-        _check_assignee(wo, wo.assignee)
+        assignee_check(wo, wo.assignee)
     elif to_state == State.PLANNED:
         wo.assignee = None
         fields.append("assignee")
@@ -170,14 +172,14 @@ def _transition(
         fields.append("completed_at")
         wo.tasks.update(completed_at=None)
     fields = list(dict.fromkeys(fields))
-    _save(
+    work_order_save(
         wo, fields, by=by, action="transition", changes={"from": before, "to": to_state, "reason": reason}, write=write
     )
     work_order_moved.send(sender=WorkOrder, work_order=wo, before=before, by=by)
     return fields
 
 
-def _copy_back(target: WorkOrder, source: WorkOrder) -> None:
+def work_order_copy_back(target: WorkOrder, source: WorkOrder) -> None:
     """Keep the caller's instance current, so chained calls with its version work."""
     for f in WorkOrder._meta.concrete_fields:
         setattr(target, f.attname, getattr(source, f.attname))
@@ -186,17 +188,17 @@ def _copy_back(target: WorkOrder, source: WorkOrder) -> None:
 @transaction.atomic
 def work_order_assign(*, work_order: WorkOrder, assignee, by, expected_version: int | None = None) -> WorkOrder:
     """Assign or reassign to a technician of the organisation."""
-    wo = _locked(work_order, expected_version)
+    wo = work_order_locked(work_order, expected_version)
     if wo.state not in WorkOrder.OPEN_STATES:
         raise WorkOrderTransitionError(work_order=wo, to_state=State.ASSIGNED)
     if wo.approval in {WorkOrder.Approval.PENDING, WorkOrder.Approval.REJECTED}:
         raise ValidationError({"assignee": ["corrective work must be approved before it is assigned"]})
-    _check_assignee(wo, assignee)
+    assignee_check(wo, assignee)
     before = wo.assignee_id
     wo.assignee = assignee
     wo.state = State.ASSIGNED  # a reassigned visit in progress starts again with the new technician
-    _save(wo, ["assignee", "state"], by=by, action="assign", changes={"from": before, "to": assignee.pk})
-    _copy_back(work_order, wo)
+    work_order_save(wo, ["assignee", "state"], by=by, action="assign", changes={"from": before, "to": assignee.pk})
+    work_order_copy_back(work_order, wo)
     return wo
 
 
@@ -222,7 +224,7 @@ def work_order_schedule(
     Only open work can be planned, and not for a day before the site's today.
     Planning it for the day it already has changes nothing (no new version).
     """
-    wo = _locked(work_order, expected_version)
+    wo = work_order_locked(work_order, expected_version)
     if wo.state not in WorkOrder.OPEN_STATES:
         raise ValidationError(
             {
@@ -255,18 +257,18 @@ def work_order_schedule(
                 }
             )
     if day == wo.scheduled_for:
-        _copy_back(work_order, wo)
+        work_order_copy_back(work_order, wo)
         return wo
     before = wo.scheduled_for
     wo.scheduled_for = day
-    _save(
+    work_order_save(
         wo,
         ["scheduled_for"],
         by=by,
         action="schedule",
         changes={"from": before.isoformat() if before else None, "to": day.isoformat() if day else None},
     )
-    _copy_back(work_order, wo)
+    work_order_copy_back(work_order, wo)
     return wo
 
 
@@ -289,9 +291,9 @@ def work_order_complete(
     *, work_order: WorkOrder, by, completed_at: dt.datetime | None = None, expected_version: int | None = None
 ) -> WorkOrder:
     """Complete the visit; an assigned visit is started first (a phone may send the finished form at once)."""
-    wo = _locked(work_order, expected_version)  # both moves on this one locked row (no second read)
+    wo = work_order_locked(work_order, expected_version)  # both moves on this one locked row (no second read)
     work_order_complete_locked(work_order=wo, by=by, completed_at=completed_at)
-    _copy_back(work_order, wo)
+    work_order_copy_back(work_order, wo)
     return wo
 
 
