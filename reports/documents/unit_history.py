@@ -26,9 +26,9 @@ from __future__ import annotations
 import zoneinfo
 from datetime import date, datetime, time, timedelta
 
-from django.db.models import Prefetch, Q
+from django.db.models import Q
 
-from inspections.models import Evaluation, Finding, Inspection, Reading
+from inspections.models import Finding, Inspection
 from inspections.selectors import findings_seen_on, item_labels, reason_for
 from inventory.models import AHU
 from inventory.selectors import ahus_visible_to
@@ -41,6 +41,7 @@ from .common import shown, unit_system
 from .history_cells import judged_cells, keep_units
 from .history_charts import filter_charts, supply_chart
 from .history_visits import history_visit
+from .visit_record import readings_and_judgements
 
 # The manager's finding pages read a judgement's cells from here as from ``history_cells``.
 __all__ = ["build", "judged_cells", "prepare"]
@@ -94,15 +95,7 @@ def build(*, report) -> Built:
     inspections = list(
         Inspection.objects.filter(ahu=ahu, finished_at__lt=hi)
         .select_related("technician", "work_order")
-        .prefetch_related(
-            Prefetch(
-                "readings",
-                queryset=Reading.objects.select_related("item__template", "component").order_by(
-                    "item__template__code", "item__position", "component__position", "pk"
-                ),
-            ),
-            Prefetch("evaluations", queryset=Evaluation.objects.select_related("component").order_by("pk")),
-        )
+        .prefetch_related(*readings_and_judgements())
         .order_by("finished_at", "pk")
     )
     listed = [i for i in inspections if i.finished_at >= lo]

@@ -28,18 +28,26 @@ from .visit_words import (
 )
 
 
+def readings_and_judgements() -> tuple[Prefetch, Prefetch]:
+    """A visit's readings in the checklist's order (template, item, part) and its judgements in theirs, each with
+    the item and part its row names: the reads of every record of visits (this one, the unit history)."""
+    return (
+        Prefetch(
+            "readings",
+            queryset=Reading.objects.select_related("item__template", "component").order_by(
+                "item__template__code", "item__position", "component__position", "pk"
+            ),
+        ),
+        Prefetch("evaluations", queryset=Evaluation.objects.select_related("component").order_by("pk")),
+    )
+
+
 def _inspections(wo: WorkOrder) -> list[Inspection]:
     return list(
         Inspection.objects.filter(work_order=wo)
         .select_related("technician", "verified_by", "flag_resolved_by")
         .prefetch_related(
-            Prefetch(
-                "readings",
-                queryset=Reading.objects.select_related("item__template", "component").order_by(
-                    "item__template__code", "item__position", "component__position", "pk"
-                ),
-            ),
-            Prefetch("evaluations", queryset=Evaluation.objects.select_related("component").order_by("pk")),
+            *readings_and_judgements(),
             Prefetch("photos", queryset=Photo.objects.select_related("component").order_by("uploaded_at", "pk")),
             Prefetch(
                 "amendments", queryset=Amendment.objects.select_related("created_by").order_by("created_at", "pk")
