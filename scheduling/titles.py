@@ -11,7 +11,7 @@ from collections.abc import Iterable
 
 from .models import WorkOrder
 
-TITLE_MAX = WorkOrder._meta.get_field("title").max_length
+TITLE_MAX: int = WorkOrder._meta.get_field("title").max_length or 200  # the column's length (200)
 VISIT_PREFIX = "Preventive maintenance: "
 ELLIPSIS = "…"
 # Punctuation and spaces left dangling before the ellipsis ("Coil inspection, …" reads "Coil inspection…").

@@ -12,6 +12,7 @@ import datetime as dt
 from django.db import transaction
 
 from accounts.inputs import date_problem
+from accounts.models import User
 from inventory.today import today_for
 
 from ..models import WorkOrder
@@ -30,8 +31,8 @@ class OverCapacity(Exception):
 def work_order_assign_and_plan(
     *,
     work_order: WorkOrder,
-    assignee,
-    by,
+    assignee: User,
+    by: User | None,
     expected_version: int,
     plan: bool = False,
     day: dt.date | None = None,

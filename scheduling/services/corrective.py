@@ -12,6 +12,7 @@ from django.db import transaction
 
 from accounts.changes import organisation_changed
 from accounts.inputs import text_problem
+from accounts.models import User
 from accounts.services import audit_record
 from inventory.models import AHU, Component
 from inventory.today import today_for
@@ -34,7 +35,7 @@ def corrective_work_order_propose(
     priority: str = WorkOrder.Priority.NORMAL,
     component: Component | None = None,
     source_ref: str = "",
-    by=None,
+    by: User | None = None,
     approved: bool = False,
     observed_on: dt.date | None = None,
 ) -> WorkOrder:
@@ -151,7 +152,9 @@ def _refuse_decision_on_closed(wo: WorkOrder, decision: str) -> None:
 
 
 @transaction.atomic
-def corrective_work_order_approve(*, work_order: WorkOrder, by, expected_version: int | None = None) -> WorkOrder:
+def corrective_work_order_approve(
+    *, work_order: WorkOrder, by: User | None, expected_version: int | None = None
+) -> WorkOrder:
     wo = work_order_locked(work_order, expected_version)
     _refuse_decision_on_closed(wo, "approved")
     if wo.approval != WorkOrder.Approval.PENDING:
@@ -204,7 +207,7 @@ def rejection_reason_check(*, reason: object) -> str:
 
 @transaction.atomic
 def corrective_work_order_reject(
-    *, work_order: WorkOrder, by, reason: str, expected_version: int | None = None
+    *, work_order: WorkOrder, by: User | None, reason: str, expected_version: int | None = None
 ) -> WorkOrder:
     """Reject proposed corrective work with a reason (kept on the work order and in the audit trail)."""
     text = rejection_reason_check(reason=reason)

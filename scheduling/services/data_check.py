@@ -18,7 +18,7 @@ import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
 
-from django.db import connection, transaction
+from django.db import connection, models, transaction
 from django.db.models import Q
 from django.utils import timezone
 
@@ -48,7 +48,7 @@ def _label(name: str) -> str:
     return AHU_NUMBERS[name].label.lower() if name in AHU_NUMBERS else AHU_DATES.get(name, name).lower()
 
 
-def _nullable(model, name: str) -> bool:
+def _nullable(model: type[models.Model], name: str) -> bool:
     return model._meta.get_field(name).null
 
 
@@ -72,7 +72,7 @@ def stored_data_check(*, repair: bool = False, today: dt.date | None = None) -> 
     for task in TaskDefinition.objects.select_related("organisation").order_by("organisation_id", "code"):
         problem = task_problem(task)
         if problem:
-            owner = task.organisation.name if task.organisation_id else "the shared library"
+            owner = task.organisation.name if task.organisation is not None else "the shared library"
             out.problems.append(f"maintenance rule of {owner}, {problem}")
     # No site's today is more than a day before the server's date (UTC-12), so no window ends earlier.
     earliest_today = today or today_for(None, now=now) - dt.timedelta(days=1)
@@ -111,7 +111,7 @@ def _check_components(out: DataCheckResult, *, repair: bool, day_of: DayOf) -> N
         name = f"{comp.name} of {_unit_name(comp.ahu)}"
         for message in component_date_problems(comp, today=day_of(comp.ahu.building.site)).values():
             out.problems.append(f"{name}: {message}")
-            if repair:
+            if repair and comp.installed_on is not None:  # the one date a part's problem is about
                 was = comp.installed_on.isoformat()
                 comp.installed_on = None
                 comp.save(update_fields=["installed_on"])
@@ -140,7 +140,12 @@ def _check_visits(out: DataCheckResult, *, repair: bool, day_of: DayOf, earliest
             continue
         name = f"{_unit_name(wo.ahu)}, {wo.title}"
         out.problems.append(f"{name}: {problem}")
-        if repair and wo.state in WorkOrder.OPEN_STATES and date_problem(wo.scheduled_for, label="", today=today):
+        if (
+            repair
+            and wo.state in WorkOrder.OPEN_STATES
+            and wo.scheduled_for is not None
+            and date_problem(wo.scheduled_for, label="", today=today)
+        ):
             was = wo.scheduled_for.isoformat()
             wo.scheduled_for = None
             wo.version += 1

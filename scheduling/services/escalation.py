@@ -3,13 +3,14 @@
 from __future__ import annotations
 
 import datetime as dt
+from collections.abc import Callable
 
 from django.conf import settings
 from django.core.mail import send_mail
 from django.db import transaction
 
 from accounts.changes import organisation_changed
-from accounts.models import Membership
+from accounts.models import Membership, Organisation
 from accounts.selectors import MANAGING_ROLES
 
 from ..models import WorkOrder
@@ -25,7 +26,7 @@ def _supervisor_emails(organisation_id: int) -> list[str]:
     ]
 
 
-def email_supervisors_on_commit(organisation_id: int, subject: str, body) -> None:
+def email_supervisors_on_commit(organisation_id: int, subject: str, body: str | Callable[[], str]) -> None:
     """Send once the transaction commits; ``body`` may be a function, then written at that moment (so it tells
     what is true when the e-mail leaves, e.g. work assigned later in the same transaction)."""
 
@@ -38,7 +39,7 @@ def email_supervisors_on_commit(organisation_id: int, subject: str, body) -> Non
 
 
 @transaction.atomic
-def overdue_escalation_send(*, organisation, today: dt.date, repeat_days: int = 7) -> int:
+def overdue_escalation_send(*, organisation: Organisation, today: dt.date, repeat_days: int = 7) -> int:
     """E-mail the supervisors the open work that is overdue; each order at most once every ``repeat_days``."""
     qs = (
         WorkOrder.objects.select_for_update(of=("self",))

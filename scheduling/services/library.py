@@ -9,7 +9,7 @@ from django.db import transaction
 
 from accounts.changes import every_organisation_changed, organisation_changed
 from accounts.inputs import FieldErrors, check_text
-from accounts.models import Organisation
+from accounts.models import Organisation, User
 from inventory.models import AHU, ComponentKind
 
 from ..inputs import task_problems
@@ -17,6 +17,8 @@ from ..library import LIBRARY
 from ..models import TaskDefinition, UnitTaskSetting
 
 # Fields a supervisor may change on an override; identity fields (code, category) stay.
+# A reason given for a unit's own rule or switch: at most its column's length (200 characters).
+REASON_MAX: int = UnitTaskSetting._meta.get_field("reason").max_length or 200
 OVERRIDABLE = {
     "name",
     "description",
@@ -102,7 +104,7 @@ def task_library_install(*, organisation: Organisation | None = None) -> list[Ta
 
 @transaction.atomic
 def task_definition_override(
-    *, organisation: Organisation, code: str, by=None, reason: str = "", **changes: Any
+    *, organisation: Organisation, code: str, by: User | None = None, reason: str = "", **changes: Any
 ) -> TaskDefinition:
     """Change a task for one organisation (e.g. its frequency), copying the library row on first change.
 
@@ -139,7 +141,7 @@ def task_definition_override(
 
 
 @transaction.atomic
-def task_definition_create(*, organisation: Organisation, by=None, **fields: Any) -> TaskDefinition:
+def task_definition_create(*, organisation: Organisation, by: User | None = None, **fields: Any) -> TaskDefinition:
     """An organisation's own task. ``checklist_code`` defaults to the code."""
     fields.setdefault("checklist_code", fields.get("code", ""))
     fields.setdefault("source", "Set by the organisation")
@@ -157,12 +159,14 @@ def task_definition_create(*, organisation: Organisation, by=None, **fields: Any
 
 
 @transaction.atomic
-def unit_task_set(*, ahu: AHU, task_code: str, enabled: bool, reason: str = "", by=None) -> UnitTaskSetting:
+def unit_task_set(
+    *, ahu: AHU, task_code: str, enabled: bool, reason: str = "", by: User | None = None
+) -> UnitTaskSetting:
     """Switch one task off (or back on) for one unit; the reason is text without control characters."""
     errors = FieldErrors()
-    max_length = UnitTaskSetting._meta.get_field("reason").max_length
-    reason = check_text(reason, key="reason", label="Reason", max_length=max_length, errors=errors)
+    checked = check_text(reason, key="reason", label="Reason", max_length=REASON_MAX, errors=errors)
     errors.raise_if_any()
+    reason = checked or ""  # None only with an error, raised above
     setting, _ = UnitTaskSetting.objects.update_or_create(
         ahu=ahu, task_code=task_code, defaults={"enabled": enabled, "reason": reason}
     )
@@ -180,12 +184,12 @@ def unit_task_set(*, ahu: AHU, task_code: str, enabled: bool, reason: str = "", 
     return setting
 
 
-def _jsonable(d: dict) -> dict:
+def _jsonable(d: dict[str, Any]) -> dict[str, Any]:
     return {k: v if isinstance(v, (str, int, float, bool, type(None), list, dict)) else str(v) for k, v in d.items()}
 
 
 # Which of a unit's own numbers each kind of rule has (an interval task has no lead time).
-UNIT_NUMBERS_BY_TRIGGER = {
+UNIT_NUMBERS_BY_TRIGGER: dict[str, tuple[str, ...]] = {
     TaskDefinition.Trigger.INTERVAL: ("interval_value", "interval_unit", "grace_days"),
     TaskDefinition.Trigger.RUNTIME: ("run_hours", "grace_days"),
     TaskDefinition.Trigger.SEASON: ("lead_days", "grace_days"),
@@ -195,7 +199,7 @@ UNIT_NUMBERS_BY_TRIGGER = {
 
 @transaction.atomic
 def unit_task_rule_set(
-    *, ahu: AHU, task: TaskDefinition, numbers: dict[str, Any], reason: str, by=None
+    *, ahu: AHU, task: TaskDefinition, numbers: dict[str, Any], reason: str, by: User | None = None
 ) -> UnitTaskSetting:
     """Give one unit its own numbers for one rule (``task``: the organisation's rule in force).
 
@@ -204,13 +208,13 @@ def unit_task_rule_set(
     and audited with the change. Raises ValidationError keyed by field; nothing is saved then.
     """
     errors = FieldErrors()
-    max_length = UnitTaskSetting._meta.get_field("reason").max_length
-    reason = check_text(reason, key="reason", label="Reason", max_length=max_length, errors=errors, required=True)
+    checked = check_text(reason, key="reason", label="Reason", max_length=REASON_MAX, errors=errors, required=True)
     allowed = UNIT_NUMBERS_BY_TRIGGER.get(task.trigger, ())
     for name in numbers:
         if name not in allowed:
             errors.add(name, f"{name}: not a number a {task.get_trigger_display().lower()} rule has")
     errors.raise_if_any()
+    reason = checked or ""  # None only with an error, raised above
     own = {k: v for k, v in numbers.items() if v not in (None, "")}
     if own.get("interval_unit") and own["interval_unit"] not in TaskDefinition.IntervalUnit.values:
         units = ", ".join(TaskDefinition.IntervalUnit.values)

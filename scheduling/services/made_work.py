@@ -16,15 +16,16 @@ from django.utils import timezone
 from accounts.changes import organisation_changed
 from accounts.clock import local_date_of, local_time_text
 from accounts.inputs import PLAN_YEARS_AHEAD, FieldErrors, check_text, latest_plan_date
+from accounts.models import User
 from accounts.services import audit_record
 from engineering.sun import sunset_utc
-from inventory.models import AHU, Component
+from inventory.models import AHU, Component, Site
 from inventory.today import today_for
 
 from ..models import TaskCategory, TaskDefinition, WorkOrder, WorkOrderTask, overdue_day
 from ..selectors import effective_tasks
 from ..targets import task_targets
-from ..task_rows import work_order_task_rows
+from ..task_rows import TaskOnPart, work_order_task_rows
 from ..titles import TITLE_MAX
 from .work_orders import State, assignee_check, priority_grace_days
 
@@ -50,11 +51,11 @@ class OneOffTask:
     skill: str
 
 
-def _local_text(when: dt.datetime, site) -> str:
+def _local_text(when: dt.datetime, site: Site) -> str:
     return local_time_text(when, zone=site.time_zone)
 
 
-def work_order_due_problem(*, due_by: dt.datetime, site, now: dt.datetime) -> str | None:
+def work_order_due_problem(*, due_by: dt.datetime, site: Site, now: dt.datetime) -> str | None:
     """What is wrong with a due time for work at ``site`` (in the past there, beyond the plan window), or None."""
     if due_by.tzinfo is None:
         return f"Due: {due_by.isoformat(timespec='minutes')} has no time zone; allowed: a time on the site's clock"
@@ -74,7 +75,16 @@ def work_order_due_problem(*, due_by: dt.datetime, site, now: dt.datetime) -> st
 
 
 def made_work_fields_check(
-    *, errors: FieldErrors, ahu, kind, title, description, priority, due_by, now, component=None
+    *,
+    errors: FieldErrors,
+    ahu: AHU,
+    kind: object,
+    title: object,
+    description: object,
+    priority: object,
+    due_by: dt.datetime | None,
+    now: dt.datetime,
+    component: Component | None = None,
 ) -> tuple[str | None, str | None]:
     """The checks of :func:`work_order_create` on the words, kind, priority, unit and due time (skipped when
     ``due_by`` is None: a form whose day or time could not be read), added to ``errors``; a page calls it to say
@@ -102,11 +112,13 @@ def made_work_fields_check(
     return title_text, description_text
 
 
-def _check_tasks(*, errors: FieldErrors, ahu, tasks, one_off) -> list[tuple]:
+def _check_tasks(
+    *, errors: FieldErrors, ahu: AHU, tasks: Sequence[TaskDefinition], one_off: Sequence[OneOffTask]
+) -> list[TaskOnPart]:
     """(task, target component or None) rows of the library tasks chosen, refusing one not done on this unit."""
     organisation_id = ahu.building.site.organisation_id
     components = list(ahu.components.all())
-    rows = []
+    rows: list[TaskOnPart] = []
     for task in tasks:
         if task.organisation_id not in (None, organisation_id) or task.code.startswith(ONE_OFF_PREFIX):
             errors.add("tasks", f"Tasks: {task.name} is not a task of your organisation's library")
@@ -136,7 +148,7 @@ def _check_tasks(*, errors: FieldErrors, ahu, tasks, one_off) -> list[tuple]:
 def work_order_create(
     *,
     ahu: AHU,
-    by,
+    by: User | None,
     kind: str,
     title: str,
     priority: str,
@@ -145,7 +157,7 @@ def work_order_create(
     tasks: Sequence[TaskDefinition] = (),
     one_off: Sequence[OneOffTask] = (),
     component: Component | None = None,
-    assignee=None,
+    assignee: User | None = None,
     source_ref: str = "",
     now: dt.datetime | None = None,
 ) -> WorkOrder:
@@ -184,7 +196,7 @@ def work_order_create(
         component=component,
         kind=kind,
         priority=priority,
-        title=title_text,
+        title=title_text or "",  # None only with an error, raised above
         reason=description_text or "",
         source_ref=source_ref[:200],
         due_date=day,
@@ -251,7 +263,7 @@ class FrostChecks:
     already_open: list[WorkOrder] = field(default_factory=list)
 
 
-def frost_due_by(*, site, now: dt.datetime) -> tuple[dt.datetime, str]:
+def frost_due_by(*, site: Site, now: dt.datetime) -> tuple[dt.datetime, str]:
     """Due time of tonight's frost check and how it was chosen: sunset today on the site's clock
     (engineering.sun); once the sun has set (or within half an hour of it), one hour from now."""
     zone = zoneinfo.ZoneInfo(site.time_zone)
@@ -269,7 +281,7 @@ def frost_due_by(*, site, now: dt.datetime) -> tuple[dt.datetime, str]:
 
 
 @transaction.atomic
-def frost_checks_create(*, site, by, now: dt.datetime | None = None) -> FrostChecks:
+def frost_checks_create(*, site: Site, by: User | None, now: dt.datetime | None = None) -> FrostChecks:
     """ "Check freeze protection before tonight's frost" at ``site``: one urgent ad-hoc work order per in-service
     unit whose freeze-protection task (the library's ``preheater_freeze``: an electric preheater or a preheat
     water coil) applies to it, with that task on each protected part, due before sunset today on the site's

@@ -7,6 +7,7 @@ import datetime as dt
 import io
 import math
 import zoneinfo
+from typing import Any
 
 from django.core.exceptions import ValidationError
 from django.db import connections, transaction
@@ -15,6 +16,7 @@ from django.utils.dateparse import parse_datetime
 
 from accounts.changes import organisation_changed
 from accounts.inputs import EARLIEST_DATE, in_zone, local_text, reading_time_problem, shown, text_problem
+from accounts.models import Organisation, User
 from inventory.models import AHU, Component
 
 from ..models import MeterReading
@@ -45,7 +47,7 @@ def _neighbours(
     in one query of two indexed ``LIMIT 1`` halves. Written as SQL: every synced form asks it twice (checked on
     arrival, again under the unit's lock), and building it with the ORM cost more than running it."""
     table = MeterReading._meta.db_table
-    cols = ", ".join(f.column for f in MeterReading._meta.concrete_fields)
+    cols = ", ".join(str(f.column) for f in MeterReading._meta.concrete_fields)
     same = "ahu_id = %s AND " + ("component_id IS NULL" if component is None else "component_id = %s")
     key = [ahu.pk] if component is None else [ahu.pk, component.pk]
     # Table and column names come from the model, values are parameters.
@@ -183,12 +185,12 @@ def meter_reading_check(
 def meter_reading_record(
     *,
     ahu: AHU,
-    hours: float,
+    hours: float | str,
     taken_at: dt.datetime,
     source: str = MeterReading.Source.MANUAL,
     component: Component | None = None,
     is_reset: bool = False,
-    by=None,
+    by: User | None = None,
     in_caller_transaction: bool = False,
     unit_locked: bool = False,
 ) -> MeterReading:
@@ -203,7 +205,7 @@ def meter_reading_record(
     write. Safe because every refusal is raised before anything is written. ``unit_locked`` (with it): the caller
     has locked the unit's row in that transaction already (one lock for many readings); it is not locked again.
     """
-    kwargs = {
+    kwargs: dict[str, Any] = {
         "ahu": ahu,
         "hours": hours,
         "taken_at": taken_at,
@@ -225,12 +227,12 @@ def meter_reading_record(
 def _meter_reading_record(
     *,
     ahu: AHU,
-    hours: float,
+    hours: float | str,
     taken_at: dt.datetime,
     source: str,
     component: Component | None,
     is_reset: bool,
-    by,
+    by: User | None,
     lock: bool = True,
 ) -> MeterReading:
     try:
@@ -289,7 +291,7 @@ def _parse_time(raw: str, tz: zoneinfo.ZoneInfo) -> dt.datetime | None:
 
 
 @transaction.atomic
-def meter_readings_import_csv(*, organisation, text: str, by=None) -> list[MeterReading]:
+def meter_readings_import_csv(*, organisation: Organisation, text: str, by: User | None = None) -> list[MeterReading]:
     """Import ``unit_label,taken_at,hours[,component_label,is_reset]`` rows, all or nothing.
 
     ``taken_at`` without an offset is read in the unit's site time zone. Every

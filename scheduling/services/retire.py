@@ -5,6 +5,7 @@ from __future__ import annotations
 from django.core.exceptions import ValidationError
 from django.db import transaction
 
+from accounts.models import User
 from inventory.models import AHU
 from inventory.services import ahu_retire
 
@@ -13,7 +14,7 @@ from .work_orders import work_order_cancel
 
 
 @transaction.atomic
-def unit_retire(*, ahu: AHU, by, reason: str = "") -> int:
+def unit_retire(*, ahu: AHU, by: User | None, reason: str = "") -> int:
     """Retire ``ahu`` and cancel its planned and assigned visits; returns how many were cancelled.
 
     A visit already under way is not cancelled behind the technician's back: the retirement is refused

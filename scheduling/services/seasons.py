@@ -18,6 +18,7 @@ from django.core.exceptions import ValidationError
 from django.db import transaction
 
 from accounts.changes import organisation_changed
+from accounts.models import Organisation
 from engineering.freeze import cooling_season_start, freeze_season_start
 from inventory.models import Site
 
@@ -33,7 +34,12 @@ Measured = tuple[tuple[dt.date, float, float, str], ...]
 
 @lru_cache(maxsize=4096)
 def _starts(
-    normals_min: tuple, normals_max: tuple, freeze_c: float, cooling_c: float, start: dt.date, measured: Measured
+    normals_min: tuple[float, ...],
+    normals_max: tuple[float, ...],
+    freeze_c: float,
+    cooling_c: float,
+    start: dt.date,
+    measured: Measured,
 ) -> tuple[dt.date | None, dt.date | None, str]:
     """Season starts over ``SEASON_SEARCH_DAYS`` from ``start``: measured days where given, normals elsewhere.
 
@@ -141,7 +147,7 @@ def outdoor_temperatures_store(*, site: Site, days: Iterable[DailyTemperature], 
 
 
 @transaction.atomic
-def outdoor_temperatures_import_csv(*, organisation, text: str) -> dict[str, int]:
+def outdoor_temperatures_import_csv(*, organisation: Organisation, text: str) -> dict[str, int]:
     """Import a CSV of daily or hourly outdoor temperatures (see weather.parse_temperature_csv), all or nothing."""
     try:
         by_site = parse_temperature_csv(text)
@@ -158,7 +164,9 @@ def outdoor_temperatures_import_csv(*, organisation, text: str) -> dict[str, int
 
 
 @transaction.atomic
-def site_seasons_refresh(*, site: Site, today: dt.date, provider=None, fetch: bool = True) -> Site:
+def site_seasons_refresh(
+    *, site: Site, today: dt.date, provider: HttpForecastProvider | None = None, fetch: bool = True
+) -> Site:
     """Fetch the forecast (when a provider or URL is there), then set the site's season starts.
 
     A failing forecast is not fatal: the stored days and the normals still give a start.

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import copy
 import datetime as dt
+from typing import Any
 
 from django.core.exceptions import ValidationError
 from django.db import transaction
@@ -16,7 +17,7 @@ from django.utils import timezone
 from accounts.changes import organisation_changed
 from accounts.clock import day_text, local_date_of
 from accounts.inputs import PLAN_YEARS_AHEAD, latest_plan_date
-from accounts.models import Membership, Role
+from accounts.models import Membership, Role, User
 from accounts.services import audit_record
 from inventory.today import today_for
 
@@ -67,7 +68,7 @@ def work_order_locked(work_order: WorkOrder, expected_version: int | None) -> Wo
 
 
 def work_order_save(
-    wo: WorkOrder, fields: list[str], *, by, action: str, changes: dict, write: bool = True
+    wo: WorkOrder, fields: list[str], *, by: User | None, action: str, changes: dict[str, Any], write: bool = True
 ) -> WorkOrder:
     """One move's version, audit event and answer version; ``write=False`` leaves the row's UPDATE to a later
     move of the same call (``work_order_complete_locked``), which writes every field the moves changed."""
@@ -101,7 +102,7 @@ def no_technician(value: object) -> str:
     return f"no technician {str(value)!r} in your organisation you can assign"
 
 
-def assignee_check(wo: WorkOrder, assignee) -> None:
+def assignee_check(wo: WorkOrder, assignee: User | None) -> None:
     if assignee is None:
         raise ValidationError({"assignee": ["an assigned work order needs an assignee"]})
     # A deactivated person (accounts.services.person_deactivate) takes no new work.
@@ -116,7 +117,7 @@ def work_order_transition(
     *,
     work_order: WorkOrder,
     to_state: str,
-    by,
+    by: User | None,
     expected_version: int | None = None,
     reason: str = "",
     at: dt.datetime | None = None,
@@ -132,7 +133,7 @@ def _transition(
     wo: WorkOrder,
     *,
     to_state: str,
-    by,
+    by: User | None,
     reason: str = "",
     at: dt.datetime | None = None,
     fields: list[str] | None = None,
@@ -186,7 +187,9 @@ def work_order_copy_back(target: WorkOrder, source: WorkOrder) -> None:
 
 
 @transaction.atomic
-def work_order_assign(*, work_order: WorkOrder, assignee, by, expected_version: int | None = None) -> WorkOrder:
+def work_order_assign(
+    *, work_order: WorkOrder, assignee: User, by: User | None, expected_version: int | None = None
+) -> WorkOrder:
     """Assign or reassign to a technician of the organisation."""
     wo = work_order_locked(work_order, expected_version)
     if wo.state not in WorkOrder.OPEN_STATES:
@@ -217,7 +220,7 @@ def work_order_plan_words(*, work_order: WorkOrder, today: dt.date) -> str:
 
 @transaction.atomic
 def work_order_schedule(
-    *, work_order: WorkOrder, day: dt.date | None, by, expected_version: int | None = None
+    *, work_order: WorkOrder, day: dt.date | None, by: User | None, expected_version: int | None = None
 ) -> WorkOrder:
     """Plan the visit for ``day`` (the site's local date), or take the plan off with ``None``.
 
@@ -272,14 +275,14 @@ def work_order_schedule(
     return wo
 
 
-def work_order_unassign(*, work_order: WorkOrder, by, expected_version: int | None = None) -> WorkOrder:
+def work_order_unassign(*, work_order: WorkOrder, by: User | None, expected_version: int | None = None) -> WorkOrder:
     return work_order_transition(
         work_order=work_order, to_state=State.PLANNED, by=by, expected_version=expected_version
     )
 
 
 def work_order_start(
-    *, work_order: WorkOrder, by, expected_version: int | None = None, at: dt.datetime | None = None
+    *, work_order: WorkOrder, by: User | None, expected_version: int | None = None, at: dt.datetime | None = None
 ) -> WorkOrder:
     return work_order_transition(
         work_order=work_order, to_state=State.IN_PROGRESS, by=by, expected_version=expected_version, at=at
@@ -288,7 +291,11 @@ def work_order_start(
 
 @transaction.atomic
 def work_order_complete(
-    *, work_order: WorkOrder, by, completed_at: dt.datetime | None = None, expected_version: int | None = None
+    *,
+    work_order: WorkOrder,
+    by: User | None,
+    completed_at: dt.datetime | None = None,
+    expected_version: int | None = None,
 ) -> WorkOrder:
     """Complete the visit; an assigned visit is started first (a phone may send the finished form at once)."""
     wo = work_order_locked(work_order, expected_version)  # both moves on this one locked row (no second read)
@@ -297,7 +304,9 @@ def work_order_complete(
     return wo
 
 
-def work_order_complete_locked(*, work_order: WorkOrder, by, completed_at: dt.datetime | None = None) -> None:
+def work_order_complete_locked(
+    *, work_order: WorkOrder, by: User | None, completed_at: dt.datetime | None = None
+) -> None:
     """``work_order_complete`` on a row the caller has already locked (``select_for_update``) in its open
     transaction, without a savepoint of its own: every move is judged before the first is written, so a
     refusal (``ValidationError``) leaves the row and the caller's transaction as they were."""
@@ -315,13 +324,15 @@ def work_order_complete_locked(*, work_order: WorkOrder, by, completed_at: dt.da
         )
 
 
-def work_order_verify(*, work_order: WorkOrder, by, expected_version: int | None = None) -> WorkOrder:
+def work_order_verify(*, work_order: WorkOrder, by: User | None, expected_version: int | None = None) -> WorkOrder:
     return work_order_transition(
         work_order=work_order, to_state=State.VERIFIED, by=by, expected_version=expected_version
     )
 
 
-def work_order_cancel(*, work_order: WorkOrder, by, reason: str, expected_version: int | None = None) -> WorkOrder:
+def work_order_cancel(
+    *, work_order: WorkOrder, by: User | None, reason: str, expected_version: int | None = None
+) -> WorkOrder:
     if not reason.strip():
         raise ValidationError({"reason": ["a cancelled work order needs a reason"]})
     return work_order_transition(
