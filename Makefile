@@ -57,7 +57,10 @@ test-fast: install ## the suite without browser tests
 	$(PY) -m pytest -m "not browser"
 
 # Strictly typed (pyproject.toml's mypy overrides): the calculations and the services typed so far.
-TYPED := engineering accounts/services inventory/services.py reports/services.py automation/services.py scheduling/services scheduling/task_rows.py
+TYPED := engineering accounts/services inventory/services.py reports/services.py automation/services.py \
+  scheduling/services scheduling/task_rows.py inspections/services/__init__.py inspections/services/findings \
+  inspections/services/reading_check.py inspections/services/form_evaluation.py inspections/services/photos.py \
+  inspections/services/library.py
 
 lint: install ## ruff, the import-layering contracts and mypy (strict on engineering/ and the typed services)
 	$(VENV)/bin/ruff check .

@@ -4,27 +4,38 @@ their change forecast: the sync's forms and an amended inspection's readings ali
 from __future__ import annotations
 
 import datetime as dt
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
+from typing import Any
 
 from engineering.filters import FilterPoint
+from inventory.models import AHU, Component
 
 from .. import evaluation, selectors
+from ..models import Reading
+
+# Form values as the evaluation reads them: {(item api key, part id or None): value}.
+Values = dict[tuple[str, int | None], evaluation.Value]
 
 
-def filter_points_for(unit, finished_at, history: Callable[[], selectors.FilterHistory] | None = None):
+def filter_points_for(
+    unit: AHU | list[Component],
+    finished_at: dt.datetime,
+    history: Callable[[], selectors.FilterHistory] | None = None,
+) -> Callable[[Component], list[FilterPoint]]:
     """Earlier readings of a bank's present filters, for its change forecast (``selectors.filter_series``).
 
     ``unit``: the AHU, or its components as already loaded. Every bank of the unit is read at the first
     question, in the fixed queries of ``filter_series_for``: a unit with 13 banks costs what one with one does;
     none when the history ``history()`` gives (asked then, not before) holds its banks."""
-    series: dict = {}
+    series: dict[int | None, selectors.FilterSeries | None] = {}
 
-    def points(component) -> list[FilterPoint]:
+    def points(component: Component) -> list[FilterPoint]:
         if not series:
             components = unit if isinstance(unit, list) else list(unit.components.all())
             held = history() if history is not None else None
-            found = selectors.filter_series_for(components=components, before=finished_at, history=held)
-            series.update(found or {None: None})
+            read = selectors.filter_series_for(components=components, before=finished_at, history=held)
+            series.update(read.items())
+            series.setdefault(None, None)  # marks the unit read, even when it has no filter banks
         found = series.get(component.pk)
         if found is None:  # not one of the unit's banks as loaded (never expected): asked on its own
             found = selectors.filter_series(component=component, before=finished_at)
@@ -33,7 +44,7 @@ def filter_points_for(unit, finished_at, history: Callable[[], selectors.FilterH
     return points
 
 
-def reading_values(readings) -> dict:
+def reading_values(readings: Iterable[Reading]) -> Values:
     """{(item api key, component id): evaluation.Value} of parsed readings, as evaluation reads them."""
     return {
         (r.item.api_key, r.component.pk if r.component else None): evaluation.Value(
@@ -45,9 +56,9 @@ def reading_values(readings) -> dict:
 
 def values_evaluate(
     *,
-    ahu,
-    values: dict,
-    slots,
+    ahu: AHU,
+    values: Values,
+    slots: list[Any],
     finished_at: dt.datetime,
     history: Callable[[], selectors.FilterHistory] | None = None,
 ) -> list[evaluation.Result]:

@@ -14,9 +14,12 @@ from django.core.files.base import ContentFile
 from django.db import IntegrityError, transaction
 from PIL import Image, ImageOps, UnidentifiedImageError
 
+from accounts.models import User
 from accounts.services import audit_record
+from inventory.models import Component
+from scheduling.models import WorkOrder
 
-from ..models import Photo
+from ..models import Inspection, Photo
 
 ALLOWED_FORMATS = {"JPEG": "image/jpeg", "PNG": "image/png", "WEBP": "image/webp"}
 THUMBNAIL_PX = 320
@@ -120,7 +123,14 @@ def signature_clean(value: object, *, field: str = "signature.image") -> CleanIm
 
 
 def photo_build(
-    *, image: CleanImage, client_uuid: uuid.UUID, work_order, user, item_key: str = "", component=None, inspection=None
+    *,
+    image: CleanImage,
+    client_uuid: uuid.UUID,
+    work_order: WorkOrder,
+    user: User | None,
+    item_key: str = "",
+    component: Component | None = None,
+    inspection: Inspection | None = None,
 ) -> Photo:
     """An unsaved Photo with its files written to storage (the caller saves the row)."""
     photo = Photo(
@@ -147,7 +157,9 @@ def photo_files_delete(photo: Photo) -> None:
             f.storage.delete(f.name)
 
 
-def photo_upload(*, user, work_order, client_uuid: uuid.UUID, data: bytes) -> tuple[Photo, bool]:
+def photo_upload(
+    *, user: User | None, work_order: WorkOrder, client_uuid: uuid.UUID, data: bytes
+) -> tuple[Photo, bool]:
     """Store a photo taken before its form is sent. Returns (photo, created); the same UUID again returns the first."""
     existing = Photo.objects.filter(client_uuid=client_uuid).first()
     if existing is not None:

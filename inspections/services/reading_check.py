@@ -4,7 +4,7 @@ units (impossible refused, implausible kept and flagged); and a run-hour value t
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from django.core.exceptions import ValidationError
 
@@ -36,19 +36,20 @@ def _range_text(lo: float | None, hi: float | None, unit: str) -> str:
     return f"at most {_num_text(hi)}{u}"
 
 
-def reading_parse(parsed: Parsed, i: int, raw: object, seen: set, errors: Errors) -> None:
+def reading_parse(parsed: Parsed, i: int, raw: object, seen: set[tuple[str, int | None]], errors: Errors) -> None:
     at = f"readings[{i}]"
     if not isinstance(raw, dict):
         errors.add(at, "each reading is an object {item, component, value, note}")
         return
     key, comp_code, value = raw.get("item"), raw.get("component"), raw.get("value")
-    if check.code(key) is None:
+    item_code, part_code = check.code(key), check.code(comp_code)
+    if item_code is None:
         errors.add(f"{at}.item", f"item {check.shown(key)} is not an item key (text such as filter_check.dp)")
         return
-    if comp_code is not None and check.code(comp_code) is None:
+    if comp_code is not None and part_code is None:
         errors.add(f"{at}.component", f"component {check.shown(comp_code)} is not a label code (text) or null")
         return
-    slot = parsed.checklist.by_key().get((key, comp_code or None))
+    slot = parsed.checklist.by_key().get((item_code, part_code or None))
     if slot is None:
         if any(k == key for k, _ in parsed.checklist.by_key()):
             errors.add(f"{at}.component", f"item {key!r} is not asked for component {comp_code!r} on this unit")
@@ -81,7 +82,7 @@ def reading_parse(parsed: Parsed, i: int, raw: object, seen: set, errors: Errors
     elif it.kind == "text":
         if check.text(value, f"{at}.value", errors, label=label, max_len=MAX_TEXT, required=True) is None:
             return
-        reading.value_text = value
+        reading.value_text = str(value)  # text: check.text refuses anything else
     elif it.kind == "photo":
         if not (value is None or (isinstance(value, str) and value in ("", "ok"))):
             errors.add(f"{at}.value", f"{label}: a photo item takes no value; send the photo in 'photos'")
@@ -109,9 +110,8 @@ def reading_parse(parsed: Parsed, i: int, raw: object, seen: set, errors: Errors
             errors.add(f"{at}.value", f"{label}: {plain_message(exc)}")
             return
         tol = 1e-9 * max(1.0, abs(si))
-        if (lim.get("physical_min") is not None and si < lim["physical_min"] - tol) or (
-            lim.get("physical_max") is not None and si > lim["physical_max"] + tol
-        ):
+        pmin, pmax = lim.get("physical_min"), lim.get("physical_max")
+        if (pmin is not None and si < pmin - tol) or (pmax is not None and si > pmax + tol):
             errors.add(
                 f"{at}.value", f"{label}: {_num_text(x)} {unit} is impossible; allowed {_range_text(lo, hi, unit)}"
             )
@@ -133,7 +133,7 @@ def reading_parse(parsed: Parsed, i: int, raw: object, seen: set, errors: Errors
 RUN_HOURS_IF_REPLACED = "answer “not applicable” here and give the office the new meter's reading"
 
 
-def run_hours_check(parsed: Parsed, raw_readings: list, errors: Errors) -> None:
+def run_hours_check(parsed: Parsed, raw_readings: list[Any], errors: Errors) -> None:
     """Refuse a run-hour value the unit's meter cannot have reached since its last reading.
 
     The same check as every other way a reading comes in
@@ -145,7 +145,7 @@ def run_hours_check(parsed: Parsed, raw_readings: list, errors: Errors) -> None:
     from scheduling.services import meter_reading_check
 
     reading = next((r for r in parsed.readings if r.item.api_key == "visit.run_hours" and r.value_si is not None), None)
-    if reading is None:
+    if reading is None or reading.value_si is None:  # (chosen with a value above)
         return
     i = next(
         (n for n, raw in enumerate(raw_readings) if isinstance(raw, dict) and raw.get("item") == "visit.run_hours"), 0

@@ -34,6 +34,7 @@ from .problems import (
     FREEZE_LEAD_DAYS,
     KNOWN_CONDITIONS,
     PRIORITY,
+    TITLE_MAX,
     design_shortfall,
     freeze_season_near,
     is_design_review,
@@ -41,7 +42,7 @@ from .problems import (
     severity_of,
 )
 from .record import evaluations_store
-from .sources import TITLE_MAX, SourceSeen, finding_close_source, finding_observe_source, source_problem
+from .sources import SourceSeen, finding_close_source, finding_observe_source, source_problem
 
 __all__ = [
     "CHECK_TITLES",

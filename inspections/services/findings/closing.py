@@ -3,21 +3,30 @@
 
 from __future__ import annotations
 
+import datetime as dt
+from collections.abc import Iterable
+from typing import TYPE_CHECKING
+
 from django.utils import timezone
 
+from accounts.models import User
 from accounts.services import audit_record
 from engineering.controls import Verdict
 
-from ...models import Finding, Inspection
+from ...evaluation import Result
+from ...models import Amendment, Evaluation, Finding, Inspection
 from .corrective import corrective_for_group, proposals_withdraw_resolved
 from .problems import FILTER_CHECKS, known_condition, problem_of
 from .record import finding_close
+
+if TYPE_CHECKING:
+    from scheduling.models import WorkOrder
 
 # Findings a later partial ok must not close: the freeze-protection test closes by the corrective retest.
 NOT_RESOLVED_BY_LATER_OK = {"freeze_protection_failed"}
 
 
-def banks_replaced(*, results) -> set[int]:
+def banks_replaced(*, results: Iterable[Result]) -> set[int]:
     """Filter banks whose filters the form says were replaced (the replacement step answered ok)."""
     return {
         res.component.pk
@@ -31,7 +40,14 @@ def _is_filter_finding(finding: Finding) -> bool:
 
 
 def findings_resolve(
-    *, inspection: Inspection, evaluations, results, failed: set[int], at, by, open_rows: list | None = None
+    *,
+    inspection: Inspection,
+    evaluations: Iterable[Evaluation],
+    results: Iterable[Result],
+    failed: set[int],
+    at: dt.datetime,
+    by: User | None,
+    open_rows: list[Finding] | None = None,
 ) -> list[Finding]:
     """Close the open findings of this unit that this visit (finished at ``at``) shows resolved.
 
@@ -79,7 +95,7 @@ def findings_resolve(
     return closed
 
 
-def findings_close_corrected(*, work_order, by) -> list[Finding]:
+def findings_close_corrected(*, work_order: WorkOrder, by: User | None) -> list[Finding]:
     """Close the open findings whose corrective work order has just been completed, at its completion time.
 
     A finding the work order's own form saw failing again (a retest after the repair that still fails) is not
@@ -116,6 +132,8 @@ def findings_close_corrected(*, work_order, by) -> list[Finding]:
         groups.setdefault(known_condition(finding.condition_code) or f"problem:{finding.problem}", []).append(finding)
     for key, group in groups.items():
         inspection = group[0].latest_inspection
+        if inspection is None:  # never: a finding still failing was seen on this work's own form
+            continue
         site = group[0].ahu.building.site
         corrective_for_group(
             inspection=inspection,
@@ -129,7 +147,7 @@ def findings_close_corrected(*, work_order, by) -> list[Finding]:
     return closed
 
 
-def findings_reopen_for_rework(*, work_order, by) -> list[Finding]:
+def findings_reopen_for_rework(*, work_order: WorkOrder, by: User | None) -> list[Finding]:
     """Corrective work sent back for rework: the findings its completion closed are open again.
 
     A finding of the building-automation trends stays closed with its fault: the trends judge the unit again
@@ -152,7 +170,9 @@ def findings_reopen_for_rework(*, work_order, by) -> list[Finding]:
     return found
 
 
-def findings_close_cleared(*, inspection: Inspection, amendment, results, by) -> list[Finding]:
+def findings_close_cleared(
+    *, inspection: Inspection, amendment: Amendment, results: Iterable[Result], by: User | None
+) -> list[Finding]:
     """Close the open findings last seen on this inspection whose check the amendment's corrected readings
     now pass (ok). A finding seen again on a later visit stays open: the later failure stands.
 
@@ -169,7 +189,8 @@ def findings_close_cleared(*, inspection: Inspection, amendment, results, by) ->
         for f in Finding.objects.select_for_update(of=("self",))  # lock the findings, not their (nullable) parts
         .filter(latest_inspection=inspection, state=Finding.State.OPEN)
         .select_related("latest_evaluation", "component")
-        if (f.latest_evaluation.check_name, f.latest_evaluation.item_key, f.latest_evaluation.component_id) in passing
+        if f.latest_evaluation is not None  # a visit's finding always has one
+        and (f.latest_evaluation.check_name, f.latest_evaluation.item_key, f.latest_evaluation.component_id) in passing
     ]
     for finding in found:
         finding.cleared_by_amendment = amendment
@@ -183,7 +204,7 @@ def findings_close_cleared(*, inspection: Inspection, amendment, results, by) ->
     return found
 
 
-def work_order_moved(sender, *, work_order, before: str, by, **kwargs) -> None:
+def work_order_moved(sender: object, *, work_order: WorkOrder, before: str, by: User | None, **kwargs: object) -> None:
     """``scheduling.signals.work_order_moved`` receiver: completion closes findings, rework reopens them."""
     from scheduling.models import WorkOrder
 

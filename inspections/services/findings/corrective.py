@@ -5,20 +5,26 @@ order attached to a finding."""
 from __future__ import annotations
 
 import zoneinfo
+from typing import TYPE_CHECKING, TypeGuard
 
 from django.db import transaction
 
 from accounts.changes import organisation_changed
+from accounts.models import User
 from accounts.services import audit_record
+from inventory.models import Component, Site
 
-from ...models import Finding
+from ...models import Finding, Inspection
 from .problems import CONDITION_TITLES, FILTER_BYPASS_TITLE, FREEZE_LEAD_DAYS, PRIORITY, SEVERITY_ORDER
 from .record import acting_person
+
+if TYPE_CHECKING:
+    from scheduling.models import WorkOrder
 
 RESOLVED_WITHDRAWN = "withdrawn: its findings were resolved on a later visit before the work was approved"
 
 
-def proposals_withdraw_resolved(*, findings: list[Finding], by) -> None:
+def proposals_withdraw_resolved(*, findings: list[Finding], by: User | None) -> None:
     """Withdraw (cancel, audited) each corrective proposal still awaiting approval whose findings are all closed.
     Approved work is left to the supervisor."""
     from scheduling.models import WorkOrder
@@ -39,7 +45,7 @@ DESIGN_REVIEW_WITHDRAWN = (
 )
 
 
-def proposal_withdraw_for_design_review(*, finding: Finding, by) -> None:
+def proposal_withdraw_for_design_review(*, finding: Finding, by: User | None) -> None:
     """A finding that has become a design review no longer asks for the corrective work proposed for it earlier:
     a proposal still awaiting approval whose open findings are all design reviews is cancelled (audited).
     Approved work is left to the supervisor."""
@@ -56,7 +62,7 @@ def proposal_withdraw_for_design_review(*, finding: Finding, by) -> None:
     wo.refresh_from_db()
 
 
-def _is_open_work(wo) -> bool:
+def _is_open_work(wo: WorkOrder | None) -> TypeGuard[WorkOrder]:
     from scheduling.models import WorkOrder
 
     return (
@@ -67,7 +73,16 @@ def _is_open_work(wo) -> bool:
     )
 
 
-def corrective_for_group(*, inspection, condition: str, findings: list[Finding], urgent: bool, source_ref, site, by):
+def corrective_for_group(
+    *,
+    inspection: Inspection,
+    condition: str,
+    findings: list[Finding],
+    urgent: bool,
+    source_ref: str,
+    site: Site,
+    by: User | None,
+) -> None:
     """One corrective work order for the findings of one problem: the open one, or a new proposal."""
     from scheduling.services import corrective_work_order_propose
 
@@ -129,11 +144,11 @@ def _parts_named(findings: list[Finding]) -> str:
     """ " — A and B": the parts of work for several parts, when every finding it holds names its part."""
     if any(f.component is None for f in findings):
         return ""
-    names = list(dict.fromkeys(f.component.name for f in findings))
+    names = list(dict.fromkeys(f.component.name for f in findings if f.component is not None))
     return " — " + (", ".join(names[:-1]) + " and " + names[-1] if len(names) > 1 else names[0])
 
 
-def _open_corrective_for(*, ahu_id: int, condition: str, problem: str, component):
+def _open_corrective_for(*, ahu_id: int, condition: str, problem: str, component: Component | None) -> WorkOrder | None:
     """The open corrective work order of this unit for the same problem, if any (locked).
 
     The same problem is the same scheduling condition, or for failures without one (drain pan, belt, low
@@ -161,7 +176,7 @@ def _open_corrective_for(*, ahu_id: int, condition: str, problem: str, component
 
 
 @transaction.atomic
-def finding_work_order_attach(*, finding: Finding, work_order, by) -> Finding:
+def finding_work_order_attach(*, finding: Finding, work_order: WorkOrder, by: User | None) -> Finding:
     """A supervisor's work order made for ``finding`` (frontend "Make a work order") becomes its corrective work:
     the findings page says its state, and completing it closes the finding as corrected
     (:func:`findings_close_corrected`). Refused when the finding already holds open corrective work, so one

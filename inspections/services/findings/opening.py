@@ -3,15 +3,19 @@ problem or opens one, in one insert; then the visit's resolutions and the correc
 
 from __future__ import annotations
 
+import datetime as dt
 import zoneinfo
+from typing import Any
 
 from django.db import IntegrityError, transaction
 
+from accounts.models import User
 from accounts.services import audit_record
 from engineering.controls import Verdict
 
 from ... import reasons as rs
-from ...models import Evaluation, Finding, Inspection
+from ...evaluation import Result
+from ...models import Amendment, Evaluation, Finding, Inspection
 from .closing import banks_replaced, findings_resolve
 from .corrective import corrective_for_group, proposal_withdraw_for_design_review
 from .problems import (
@@ -28,10 +32,24 @@ from .problems import (
 )
 from .record import finding_open_or_get, finding_seen_again
 
+# An open finding's key among a unit's: (part id or None, problem).
+Key = tuple[int | None, str]
+# A failed judgement of a form: its row, its result, condition, urgent?, design review?, the finding's values.
+Failing = tuple[Evaluation, Result, str, bool, bool, dict[str, Any]]
+
 
 def _observe(
-    *, inspection: Inspection, ev: Evaluation, res, values: dict, seen_at, amendment, by, known=None, fresh=None
-):
+    *,
+    inspection: Inspection,
+    ev: Evaluation,
+    res: Result,
+    values: dict[str, Any],
+    seen_at: dt.datetime,
+    amendment: Amendment | None,
+    by: User | None,
+    known: dict[Key, Finding] | None = None,
+    fresh: dict[Key, Evaluation] | None = None,
+) -> tuple[Finding, bool]:
     """Update the open finding of this unit, part and problem with a new observation, or open one.
 
     Returns (finding, new?). A second failure of the same problem on the same form (the outdoor-air
@@ -41,6 +59,7 @@ def _observe(
     """
     key = {"ahu": inspection.ahu, "component": res.component, "problem": values["problem"]}
     known_key = (res.component.pk if res.component is not None else None, values["problem"])
+    finding: Finding | None
     if known is not None and known_key in known:
         finding = known[known_key]
         if fresh is not None and fresh.get(known_key) is ev:
@@ -92,21 +111,23 @@ def _observe(
     return finding, False
 
 
-def _findings_opened(*, inspection: Inspection, failing: list, seen_at, amendment) -> tuple[dict, dict, list]:
+def _findings_opened(
+    *, inspection: Inspection, failing: list[Failing], seen_at: dt.datetime, amendment: Amendment | None
+) -> tuple[dict[Key, Finding], dict[Key, Evaluation], list[Finding]]:
     """The unit's open findings, locked, in one query; and the new ones the failures need, opened in one insert.
 
     Returns (known, fresh) for ``_observe`` and the open findings as read (for ``findings_resolve``). Should
     another form open one of the same findings meanwhile (the unique constraint refuses the insert), nothing is
     opened here and each failure goes its own way, as ever.
     """
-    known: dict = {}
+    known: dict[Key, Finding] = {}
     rows = list(
         Finding.objects.select_for_update(of=("self",)).filter(state=Finding.State.OPEN, ahu_id=inspection.ahu_id)
     )
     for f in rows:
         known.setdefault((f.component_id, f.problem), f)  # newest first, as .first() would pick
-    fresh: dict = {}
-    new: list[tuple[tuple, Finding]] = []
+    fresh: dict[Key, Evaluation] = {}
+    new: list[tuple[Key, Finding]] = []
     for ev, res, _condition, _urgent, _design_review, values in failing:
         key = (res.component.pk if res.component is not None else None, values["problem"])
         if key in known or key in fresh:
@@ -143,7 +164,13 @@ def _findings_opened(*, inspection: Inspection, failing: list, seen_at, amendmen
 
 
 def findings_open(
-    *, inspection: Inspection, evaluations: list[Evaluation], results, by, amendment=None, opened_at=None
+    *,
+    inspection: Inspection,
+    evaluations: list[Evaluation],
+    results: list[Result],
+    by: User | None,
+    amendment: Amendment | None = None,
+    opened_at: dt.datetime | None = None,
 ) -> list[Finding]:
     """The findings a form's failed evaluations observe, each once, in order; corrective work proposed for them.
 
@@ -164,9 +191,9 @@ def findings_open(
     pairs = list(zip(evaluations, results, strict=True))
     labels = step_labels({res.item for ev, res in pairs if ev.verdict == Verdict.FAIL and res.check in STEP_CHECKS})
     found: dict[int, Finding] = {}
-    needs_work: dict[str, dict] = {}
+    needs_work: dict[str, dict[str, Any]] = {}
     replaced = banks_replaced(results=results)
-    failing = []
+    failing: list[Failing] = []
     for ev, res in pairs:
         if ev.verdict != Verdict.FAIL:
             continue

@@ -4,20 +4,24 @@ corrective work's priority. Pure rules over a judgement (one query: the labels o
 from __future__ import annotations
 
 import datetime as dt
+from typing import Any
 
 from engineering.freeze import daily_minimums_from_normals
 from engineering.outdoor_air import fraction_words
+from inventory.models import AHU, Site
 from scheduling.titles import title_fit
 
 from ... import reasons as rs
-from ...evaluation.results import ITEM_CONDITIONS, SEVERITY
+from ...evaluation.results import ITEM_CONDITIONS, SEVERITY, Result
 from ...models import Evaluation, Finding
 
 FREEZE_LEAD_DAYS = 30
+# A finding's title fits its column (200 characters).
+TITLE_MAX: int = Finding._meta.get_field("title").max_length or 200
 PRIORITY = {"critical": "urgent", "high": "high", "medium": "normal", "low": "low"}
 
 
-def severity_of(*, condition: str, res, derived: dict) -> str:
+def severity_of(*, condition: str, res: Result, derived: dict[str, Any]) -> str:
     """How serious a failed check is. A filter at or past its final pressure drop at design airflow, or with
     its media bypassed, is high: it is changed now, not within the normal grace, as airflow falls off and
     loaded media can burst into the unit (common practice)."""
@@ -29,7 +33,7 @@ def severity_of(*, condition: str, res, derived: dict) -> str:
     return base
 
 
-def freeze_season_near(*, site, on: dt.date, lead_days: int = FREEZE_LEAD_DAYS) -> bool:
+def freeze_season_near(*, site: Site, on: dt.date, lead_days: int = FREEZE_LEAD_DAYS) -> bool:
     """Is ``on`` inside the site's freeze season or at most ``lead_days`` before it?
 
     Uses the site's computed season start when it falls in that window, and
@@ -119,7 +123,9 @@ def step_labels(items: set[str]) -> dict[str, tuple[str, str]]:
     return out
 
 
-def finding_title(res, condition: str, labels: dict[str, tuple[str, str]], *, design_review: bool = False) -> str:
+def finding_title(
+    res: Result, condition: str, labels: dict[str, tuple[str, str]], *, design_review: bool = False
+) -> str:
     """A plain title: the problem's name, or the test and its step; then the part it concerns. A design review
     names the design minimum below the requirement (the unit meets its design minimum)."""
     where = f" — {res.component.name}" if res.component is not None else ""
@@ -133,10 +139,10 @@ def finding_title(res, condition: str, labels: dict[str, tuple[str, str]], *, de
             words = f"{CONDITION_TITLES.get(condition, test)}: {step}"
     if words is None:
         words = CONDITION_TITLES.get(condition, "Deficiency")
-    return title_fit(words + where, limit=Finding._meta.get_field("title").max_length)
+    return title_fit(words + where, limit=TITLE_MAX)
 
 
-def design_shortfall(derived: dict) -> bool:
+def design_shortfall(derived: dict[str, Any]) -> bool:
     """Does the ventilation requirement exceed the unit's design minimum outdoor air?
 
     Uses the evaluation's own ``design_shortfall`` when it carries one, otherwise compares the derived
@@ -148,14 +154,14 @@ def design_shortfall(derived: dict) -> bool:
     return required is not None and design is not None and required > design
 
 
-def _not_below_design_minimum(derived: dict) -> bool:
+def _not_below_design_minimum(derived: dict[str, Any]) -> bool:
     """The measured fraction does not fail the design minimum: its band, uncertainty included, reaches it
     (engineering.outdoor_air.fraction_check fails only when the whole band is below the minimum)."""
     x, u, minimum = derived.get("oa_fraction"), derived.get("uncertainty", 0.0), derived.get("design_min_oa_fraction")
     return x is not None and minimum is not None and x + u >= minimum
 
 
-def is_design_review(*, check: str, derived: dict) -> bool:
+def is_design_review(*, check: str, derived: dict[str, Any]) -> bool:
     """A shortfall from the design, not from the unit's upkeep: the unit does not fail its design minimum
     outdoor air, but the space needs more than that design minimum, so the failure comes from the requirement.
     Monthly corrective work cannot fix it."""
@@ -166,7 +172,7 @@ def is_design_review(*, check: str, derived: dict) -> bool:
     return check in OUTDOOR_AIR_CHECKS and design_shortfall(derived) and _not_below_design_minimum(derived)
 
 
-def _outdoor_air_parts(*, check: str, derived: dict, ahu, design_review: bool) -> list | None:
+def _outdoor_air_parts(*, check: str, derived: dict[str, Any], ahu: AHU, design_review: bool) -> list[Any] | None:
     """The outdoor-air shortfall in words and quantities: measured, design minimum, requirement, what failed."""
     from engineering.ventilation import SPACE_KINDS
 
@@ -177,7 +183,7 @@ def _outdoor_air_parts(*, check: str, derived: dict, ahu, design_review: bool) -
     except KeyError:
         return None
     by = "temperatures" if check == "oa_fraction_temperature" else "CO2"
-    parts: list = [
+    parts: list[Any] = [
         f"Outdoor air measured by {by}: {fraction_words(x, u)} of the supply air (",
         rs.q(oa_q, "airflow"),
         f"); the unit's design minimum is {dmin * 100:.0f} % (",
@@ -205,7 +211,7 @@ def _outdoor_air_parts(*, check: str, derived: dict, ahu, design_review: bool) -
     return rs.flatten(parts)
 
 
-def finding_text_parts(ev: Evaluation, res, *, ahu, design_review: bool) -> list:
+def finding_text_parts(ev: Evaluation, res: Result, *, ahu: AHU, design_review: bool) -> list[Any]:
     """The finding's text: the check's numbers and the limit that failed it, from the evaluation's parts.
 
     The title names the part ("Filter loaded — Final filters"), so the text does not start with it again: every

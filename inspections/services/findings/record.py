@@ -4,17 +4,22 @@ opened), one more observation of it, and closing it (audited)."""
 from __future__ import annotations
 
 import datetime as dt
+from collections.abc import Iterable
 from typing import Any
 
 from django.db import IntegrityError, transaction
 
+from accounts.models import User
 from accounts.services import audit_record
 
-from ...models import Evaluation, Finding, Inspection
+from ...evaluation import Result
+from ...models import Amendment, Evaluation, Finding, Inspection
 from .problems import severity_worst
 
 
-def evaluations_store(*, inspection: Inspection, results, amendment=None) -> list[Evaluation]:
+def evaluations_store(
+    *, inspection: Inspection, results: Iterable[Result], amendment: Amendment | None = None
+) -> list[Evaluation]:
     """The judgements of a form (or of an amendment's corrected form) as stored rows, written in one insert."""
     rows = [
         Evaluation(
@@ -68,11 +73,13 @@ def finding_seen_again(
     finding.save(update_fields=["times_seen", "last_seen_at", "severity", *LATEST_VALUES, *latest])
 
 
-def acting_person(by):
+def acting_person(by: User | None) -> User | None:
     return by if getattr(by, "is_authenticated", False) else None
 
 
-def finding_close(finding: Finding, *, at: dt.datetime, cause: str, by, changes: dict, note: str = "") -> None:
+def finding_close(
+    finding: Finding, *, at: dt.datetime, cause: str, by: User | None, changes: dict[str, Any], note: str = ""
+) -> None:
     finding.state, finding.closed_at, finding.close_cause = Finding.State.CLOSED, at, cause
     finding.closed_by = acting_person(by)
     finding.close_note = note[: Finding._meta.get_field("close_note").max_length]

@@ -12,6 +12,7 @@ from scheduling.titles import title_fit
 
 from ... import reasons as rs
 from ...models import Finding
+from .problems import TITLE_MAX
 from .record import finding_close, finding_open_or_get, finding_seen_again
 
 
@@ -36,9 +37,6 @@ class SourceSeen:
     last_seen_at: dt.datetime
     times_seen: int
     evidence: dict[str, Any] = field(default_factory=dict)
-
-
-TITLE_MAX: int = Finding._meta.get_field("title").max_length or 200
 
 
 def source_problem(*, source: str, rule: str) -> str:
