@@ -67,11 +67,12 @@ def caution_blocks(cautions: list[str]) -> list[dict]:
     ]
 
 
-def _number(raw: str):
+def typed_number(raw: str):
+    """A typed number as a float (a decimal comma read as a point); text that is no number is kept for the
+    server, which names the field, the value and what is allowed."""
     try:
         return float(raw.replace(",", "."))
     except ValueError:
-        # The server names the field, the value and what is allowed.
         return raw
 
 
@@ -119,7 +120,7 @@ def payload_from_post(*, checklist: dict, post, files) -> dict:
                 raw = post.get(item["name"], "").strip()
                 if raw == "":
                     continue
-                value = _number(raw) if item["kind"] == "number" else raw
+                value = typed_number(raw) if item["kind"] == "number" else raw
             readings.append({"item": item["key"], "component": comp, "value": value, "note": note})
     name = post.get("signature_name", "").strip()
     image = post.get("signature_image", "").strip() or (typed_signature_png(name) if name else "")

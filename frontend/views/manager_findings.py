@@ -32,7 +32,7 @@ from inventory.display import site_date_text
 from inventory.selectors import ahus_visible_to, component_tree, sites_visible_to
 from reports.compliance import finding_problem
 from reports.documents.common import shown
-from reports.documents.unit_history import judged_cells
+from reports.documents.history_cells import judged_cells
 from scheduling.models import WorkOrder
 
 from .technician import photo_urls, unit_records_context
@@ -87,7 +87,7 @@ def trend_reading_and_limit(finding: Finding, system: str) -> tuple[str, str]:
 
 def reading_and_limit(e: Evaluation | None, readings: dict, system: str) -> tuple[str, str]:
     """The values the judgement was made on and the limit it was judged against, in the reader's units
-    (reports.documents.unit_history.judged_cells, as the unit history prints them); "—" when there are none."""
+    (reports.documents.history_cells.judged_cells, as the unit history prints them); "—" when there are none."""
     if e is None:
         return "—", "—"
     values, limit = judged_cells(

@@ -18,7 +18,7 @@ from inspections.done_today import done_today_for
 from inspections.services import inspection_amend, inspection_sync
 from inventory.selectors import component_tree
 from inventory.today import time_zone_for, today_for
-from reports.documents.inspection_report import visit_records
+from reports.documents.visit_record import visit_records
 from reports.rendering import stored_file_data_uri
 from scheduling.models import WorkOrder
 from scheduling.selectors import (
@@ -29,7 +29,7 @@ from scheduling.selectors import (
 )
 
 from .. import selectors
-from ..checklist_form import _number, caution_blocks, cautions_for, form_sections, payload_from_post
+from ..checklist_form import caution_blocks, cautions_for, form_sections, payload_from_post, typed_number
 from ..phone_form import site_where, with_last_values
 from .records import LAYOUTS
 
@@ -275,7 +275,7 @@ def _amend_value(raw: str, item):
     """The corrected value as the sync reads it: a number, or the stored word of a check or choice."""
     text = raw.strip()
     if item.kind == "number":
-        return _number(text) if text.lower() not in CHECK_WORDS else "na"
+        return typed_number(text) if text.lower() not in CHECK_WORDS else "na"
     if item.kind == "check":
         return CHECK_WORDS.get(text.lower(), text)
     if item.kind == "choice":

@@ -38,13 +38,13 @@ from scheduling.models import WorkOrder
 
 from . import Built, Prepared, one_id, period, period_text, refuse_missing
 from .common import shown, unit_system
-from .history_cells import judged_cells, keep_units
+from .history_cells import keep_units
 from .history_charts import filter_charts, supply_chart
 from .history_visits import history_visit
 from .visit_record import readings_and_judgements
 
 # The manager's finding pages read a judgement's cells from here as from ``history_cells``.
-__all__ = ["build", "judged_cells", "prepare"]
+__all__ = ["build", "prepare"]
 
 
 def prepare(*, user, parameters: dict, requested_at: datetime) -> Prepared:
