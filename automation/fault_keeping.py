@@ -323,7 +323,10 @@ def _audit(by, fault: Fault, action: str, changes: dict) -> None:
 
 def work_order_moved(sender, *, work_order, before: str, by, **kwargs) -> None:
     """``scheduling.signals.work_order_moved`` receiver: completed corrective work closes the faults it answers,
-    held by the fault or by its finding, and their findings (found again the next night, a fault opens anew)."""
+    held by the fault or by its finding, and their findings (found again the next night, a fault opens anew) —
+    unless the work's own visit found the problem it was raised for (``confirming_findings``): then the fault stays
+    open and holds the repair work of that visit's finding, and closes when the repair is completed."""
+    from inspections.services.findings.closing import confirmed_for, confirming_findings
     from scheduling.models import WorkOrder
 
     if work_order.state != WorkOrder.State.COMPLETED:
@@ -338,7 +341,16 @@ def work_order_moved(sender, *, work_order, before: str, by, **kwargs) -> None:
         .order_by("pk")
         .values_list("pk", flat=True)
     )
+    confirmed = confirming_findings(work_order) if ids else {}
     for fault in Fault.objects.filter(pk__in=ids).select_related("finding") if ids else []:
+        held = confirmed_for(confirmed, fault.component_id)
+        if held is not None:
+            # The work's own test found the fault's problem (a valve leak-by test that failed): nothing was put
+            # right, so the fault stays open and waits for the repair its visit's finding holds.
+            fault.corrective_work_order = held.corrective_work_order
+            fault.save(update_fields=["corrective_work_order"])
+            _audit(by, fault, "fault_confirmed", {"work_order": str(work_order.public_id), "finding": held.pk})
+            continue
         fault.state, fault.closed_at, fault.close_cause = Fault.State.CLOSED, at, Fault.CloseCause.CORRECTED
         fault.save(update_fields=["state", "closed_at", "close_cause"])
         _audit(by, fault, "fault_close", {"cause": "corrected", "work_order": str(work_order.public_id)})

@@ -79,14 +79,8 @@ BOARD_ITEM_FIELDS = (
     "version",
     "allowed_states",
 )
-BOARD_ITEM_COLUMNS = (
-    "public_id",
-    "kind",
-    "state",
-    "priority",
-    "approval",
-    "title",
-    "condition_code",
+# A row's unit named with its building and site, and its assignee: what every list of work orders shows.
+UNIT_IN_BUILDING_COLUMNS = (
     "ahu_id",
     "ahu__tag",
     "ahu__label_code",
@@ -95,10 +89,18 @@ BOARD_ITEM_COLUMNS = (
     "ahu__building__site_id",
     "ahu__building__site__code",
     "ahu__building__site__name",
-    "assignee_id",
-    "assignee__username",
-    "assignee__first_name",
-    "assignee__last_name",
+)
+ASSIGNEE_COLUMNS = ("assignee_id", "assignee__username", "assignee__first_name", "assignee__last_name")
+BOARD_ITEM_COLUMNS = (
+    "public_id",
+    "kind",
+    "state",
+    "priority",
+    "approval",
+    "title",
+    "condition_code",
+    *UNIT_IN_BUILDING_COLUMNS,
+    *ASSIGNEE_COLUMNS,
     "due_date",
     "due_by",
     "overdue_on",

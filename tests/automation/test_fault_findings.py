@@ -101,7 +101,8 @@ def _compliance_text(user, *, at: dt.datetime, django_capture_on_commit_callback
         )
     report.refresh_from_db()
     assert report.status == Report.Status.DONE, report.error
-    return re.sub(r"\s+", " ", pdf_text(report))
+    # A line may break after a word's own hyphen ("building-" / "automation"): read it as the one word.
+    return re.sub(r"\s+", " ", re.sub(r"(?<=\w)-\s+(?=\w)", "-", pdf_text(report)))
 
 
 @override_settings(PLENUM_FAULT_CLOSE_AFTER_DAYS=7)

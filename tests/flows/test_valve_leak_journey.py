@@ -24,8 +24,7 @@ from automation.fault_models import Fault
 from automation.judging import unit_day_judge
 from inspections.evaluation.valve_checks import LEAK_LIMIT_K
 from inspections.models import Finding
-from scheduling.models import WorkOrder
-from scheduling.services import task_library_install, work_order_assign
+from scheduling.services import task_library_install, work_order_assign, work_order_complete
 from scheduling.services.corrective import corrective_work_order_approve
 from tests.automation.trend_builders import map_points, put_day
 from tests.factories.accounts import OrganisationFactory, make_person
@@ -113,7 +112,55 @@ def test_a_supply_mixed_air_fault_brings_a_leak_by_test_that_finds_the_passing_v
     [finding] = Finding.objects.filter(ahu=ahu, condition_code="valve_leak", component=cooling)
     assert finding.title.startswith("Coil valve passing water when shut")
     assert not Finding.objects.filter(ahu=ahu, condition_code="valve_leak", component=heating).exists()
-    assert WorkOrder.objects.filter(ahu=ahu, condition_code="valve_leak", kind=WorkOrder.Kind.CORRECTIVE).exists()
+    repair = finding.corrective_work_order
+    assert repair is not None and repair.component == cooling and repair.pk != wo.pk
+
+    # The test confirmed the leak: the trend fault stays open (the property manager still sees it) and now waits
+    # for the repair the visit's finding holds; completing the test did not put anything right.
+    fault.refresh_from_db()
+    assert fault.state == Fault.State.OPEN
+    assert fault.corrective_work_order == repair
+    fault.finding.refresh_from_db()
+    assert fault.finding.state == Finding.State.OPEN
+
+    # The valve is repaired: the repair's completion closes the fault as corrected.
+    with time_machine.travel(finished + dt.timedelta(days=1), tick=False):
+        repair = corrective_work_order_approve(work_order=repair, by=supervisor)
+        repair = work_order_assign(work_order=repair, assignee=tech, by=supervisor)
+        work_order_complete(work_order=repair, by=tech)
+    fault.refresh_from_db()
+    assert (fault.state, fault.close_cause) == (Fault.State.CLOSED, Fault.CloseCause.CORRECTED)
+
+
+def test_a_leak_by_test_that_passes_closes_the_trend_fault(unit, api_client):
+    """Both valves hold: the work put the question to rest, and its completion closes the fault as before."""
+    ahu, points = unit
+    put_day(points, START, FREE_COOLING)
+    with time_machine.travel(START + dt.timedelta(days=1, hours=1), tick=False):
+        unit_day_judge(ahu=ahu, day=DAY)
+    [fault] = Fault.objects.filter(ahu=ahu, state=Fault.State.OPEN)
+    wo = fault.corrective_work_order
+    supervisor = make_person(organisation=ahu.building.site.organisation, role=Role.SUPERVISOR)
+    tech = make_person(organisation=ahu.building.site.organisation, role=Role.TECHNICIAN)
+    finished = START + dt.timedelta(days=2, hours=10)
+    with time_machine.travel(finished - dt.timedelta(hours=2), tick=False):
+        wo = corrective_work_order_approve(work_order=wo, by=supervisor)
+        wo = work_order_assign(work_order=wo, assignee=tech, by=supervisor)
+    readings = [r("visit.run_hours", 5_000)]
+    for coil in ahu.components.filter(kind="coil"):
+        readings += [
+            r("coil_valve_leak.valve_closed", "ok", coil),
+            r("coil_valve_leak.settled", "ok", coil),
+            r("coil_valve_leak.leak_air_in", 14.4, coil),
+            r("coil_valve_leak.leak_air_out", 14.6 if coil.specs.get("duty") == "cooling" else 15.0, coil),
+        ]
+    api_client.force_authenticate(tech)
+    with time_machine.travel(finished + dt.timedelta(minutes=5), tick=False):
+        res = api_client.post(SYNC_URL, {"forms": [sync_form(wo, readings, finished_at=finished)]}, format="json")
+    assert res.status_code == 200, res.content
+    assert not Finding.objects.filter(ahu=ahu, condition_code="valve_leak", source=Finding.Source.INSPECTION).exists()
+    fault.refresh_from_db()
+    assert (fault.state, fault.close_cause) == (Fault.State.CLOSED, Fault.CloseCause.CORRECTED)
 
 
 @pytest.mark.parametrize(

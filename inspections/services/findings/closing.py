@@ -103,6 +103,7 @@ def findings_close_corrected(*, work_order: WorkOrder, by: User | None) -> list[
     freeze season), so the fault never reads as closed while it is still there.
     """
     at = work_order.completed_at or timezone.now()
+    still_failing_elsewhere: list[Finding] = []
     # Locked plainly first: most completed work is corrective for nothing, and the joins cost more than the lock.
     # In id order (the rows are read in their own order below): no sort by the default ordering for every form.
     ids = list(
@@ -121,7 +122,24 @@ def findings_close_corrected(*, work_order: WorkOrder, by: User | None) -> list[
         else []
     )
     still_failing = [f for f in found if f.latest_inspection and f.latest_inspection.work_order_id == work_order.pk]
-    closed = [f for f in found if f not in still_failing]
+    # A finding the trends keep (no visit of its own) whose problem the work's own test found: not corrected either;
+    # it waits for the repair the visit's finding holds (a valve leak-by test that failed).
+    kept = [f for f in found if f not in still_failing and f.source != Finding.Source.INSPECTION]
+    confirmed = confirming_findings(work_order) if kept else {}
+    for finding in kept:
+        held = confirmed_for(confirmed, finding.component_id)
+        if held is not None:
+            finding.corrective_work_order = held.corrective_work_order
+            finding.save(update_fields=["corrective_work_order"])
+            audit_record(
+                actor=by,
+                obj=finding,
+                action="finding_confirmed",
+                changes={"work_order": str(work_order.public_id), "finding": held.pk},
+                organisation=finding.organisation,
+            )
+            still_failing_elsewhere.append(finding)
+    closed = [f for f in found if f not in still_failing and f not in still_failing_elsewhere]
     for finding in closed:
         finding_close(
             finding, at=at, cause=Finding.CloseCause.CORRECTED, by=by, changes={"work_order": str(work_order.public_id)}
@@ -145,6 +163,31 @@ def findings_close_corrected(*, work_order: WorkOrder, by: User | None) -> list[
             by=by,
         )
     return closed
+
+
+def confirming_findings(work_order: WorkOrder) -> dict[int | None, Finding]:
+    """{part id or None: open finding} that the completed work's own visits found for the condition the work was
+    raised for (e.g. ``valve_leak``): the work's test confirmed the problem instead of putting it right."""
+    if not work_order.condition_code:
+        return {}
+    found = (
+        Finding.objects.filter(
+            latest_inspection__work_order=work_order,
+            condition_code=work_order.condition_code,
+            state=Finding.State.OPEN,
+            source=Finding.Source.INSPECTION,
+        )
+        .select_related("corrective_work_order")
+        .order_by("pk")
+    )
+    return {f.component_id: f for f in found}
+
+
+def confirmed_for(confirmed: dict[int | None, Finding], component_id: int | None) -> Finding | None:
+    """The confirming finding of a part's problem (that part's), or of a unit's (any part's: FC#8 names no coil)."""
+    if component_id is not None:
+        return confirmed.get(component_id)
+    return next(iter(confirmed.values()), None)
 
 
 def findings_reopen_for_rework(*, work_order: WorkOrder, by: User | None) -> list[Finding]:
