@@ -19,7 +19,7 @@ from inspections.selectors import findings_visible_to, flagged_forms_for, reason
 from inspections.services import flagged_form_resolve, inspection_verify
 from inventory.selectors import sites_managed_by
 from inventory.today import today_for
-from scheduling.models import WorkOrder
+from scheduling.models import WorkOrder, WorkOrderTask
 from scheduling.selectors import work_order_for, work_orders_managed_by
 from scheduling.services.corrective import (
     REJECT_REASON_MAX,
@@ -85,7 +85,13 @@ def _corrective_page(request, pending, *, errors=None, typed=None, status=200):
                 .select_related("latest_evaluation", "evaluation", "component")
                 .order_by("opened_at", "pk"),
                 to_attr="open_findings",
-            )
+            ),
+            # What approving it puts on someone's day: its tasks, each with its part.
+            Prefetch(
+                "tasks",
+                queryset=WorkOrderTask.objects.select_related("task", "component").order_by("pk"),
+                to_attr="task_rows",
+            ),
         )
     )
     for wo in proposals:

@@ -15,9 +15,10 @@ from .form import Form
 from .results import Result
 
 LEAK_LIMIT_K = FaultThresholds().coil_change_k
+# The section and the 2 °F allowances are from memory (engineering.faults.thresholds); the record cites the rule.
 LEAK_METHOD = (
     "change across the shut coil against √(εin² + εout²) + fan heat = 2.68 K "
-    "(ASHRAE Guideline 36-2018 5.16.14 FC#14/FC#15, from memory)"
+    "(ASHRAE Guideline 36-2018 5.16.14, FC#14/FC#15)"
 )
 
 

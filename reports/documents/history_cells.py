@@ -29,6 +29,7 @@ VALUE_KEYS = {
     "damper_position": ("commanded_pct", "measured_pct", "error_pct"),
     "sensor_drift": ("sensor", "reference", "error"),
     "heat_recovery": ("effectiveness_pct", "uncertainty_pct"),
+    "coil_valve_leak": ("entering_c", "leaving_c", "change_k"),
 }
 LIMIT_KEYS = {
     "oa_fraction_temperature": ("design_min_oa_fraction", "required_outdoor_airflow_m3s"),
@@ -36,6 +37,7 @@ LIMIT_KEYS = {
     "full_oa_airflow": ("design_min_outdoor_airflow_m3s", "required_outdoor_airflow_m3s"),
     "sensor_drift": ("allowed_error",),
     "heat_recovery": ("design_effectiveness_pct",),
+    "coil_valve_leak": ("limit_k",),
 }
 # A number or a band with its unit, which a line could otherwise break inside ("930 L/" then "s"; "0.39 in."
 # then "w.c."; "2.0–" then "7.0 °C").

@@ -57,7 +57,7 @@ def test_the_leak_limit_is_the_trend_rules_figure():
     assert round(LEAK_LIMIT_K, 2) == 2.68
 
 
-def test_a_supply_mixed_air_fault_brings_a_leak_by_test_that_finds_the_passing_valve(unit, api_client):
+def test_a_supply_mixed_air_fault_brings_a_leak_by_test_that_finds_the_passing_valve(unit, api_client, client):
     ahu, points = unit
     put_day(points, START, FREE_COOLING)
     with time_machine.travel(START + dt.timedelta(days=1, hours=1), tick=False):
@@ -74,6 +74,14 @@ def test_a_supply_mixed_air_fault_brings_a_leak_by_test_that_finds_the_passing_v
     supervisor = make_person(organisation=ahu.building.site.organisation, role=Role.SUPERVISOR)
     tech = make_person(organisation=ahu.building.site.organisation, role=Role.TECHNICIAN)
     finished = START + dt.timedelta(days=2, hours=10)
+    # Before approving, the supervisor sees what the work will put on someone's day: each coil's leak-by test.
+    client.force_login(supervisor)
+    with time_machine.travel(finished - dt.timedelta(hours=3), tick=False):
+        page = client.get("/corrective/").content.decode()
+    card = page.split(f'id="wo-{wo.public_id}"')[1].split("</form>")[0]
+    tasks = card.split("data-tasks>")[1].split("</ul>")[0]
+    for name in coils:
+        assert f"Coil valve leak-by test — {name}" in tasks
     with time_machine.travel(finished - dt.timedelta(hours=2), tick=False):
         wo = corrective_work_order_approve(work_order=wo, by=supervisor)
         wo = work_order_assign(work_order=wo, assignee=tech, by=supervisor)
@@ -112,6 +120,14 @@ def test_a_supply_mixed_air_fault_brings_a_leak_by_test_that_finds_the_passing_v
     [finding] = Finding.objects.filter(ahu=ahu, condition_code="valve_leak", component=cooling)
     assert finding.title.startswith("Coil valve passing water when shut")
     assert not Finding.objects.filter(ahu=ahu, condition_code="valve_leak", component=heating).exists()
+    # Pages, the unit history and the manager's finding read what the test measured against its limit.
+    from reports.documents.history_cells import judged_cells
+
+    assert judged_cells(evaluation=finding.evaluation, reading=None, system="si") == (
+        ["entering air 14.4 °C", "leaving air 10.8 °C", "change across the shut coil 3.6 K"],
+        "leak limit 2.7 K",
+    )
+    assert judged_cells(evaluation=finding.evaluation, reading=None, system="us")[1] == "leak limit 4.8 Δ°F"
     repair = finding.corrective_work_order
     assert repair is not None and repair.component == cooling and repair.pk != wo.pk
 
