@@ -226,6 +226,18 @@ def _read_long(
     return rows
 
 
+DELIMITERS = (",", ";", "\t")
+
+
+def file_delimiter(text: str) -> str:
+    """The header line's separator: a comma, or the semicolon (or tab) that European building-automation and
+    spreadsheet exports use where the comma is the decimal mark ("14,0"; values read it as 14.0)."""
+    header = next((line for line in text.splitlines() if line.strip()), "")
+    counts = {d: header.count(d) for d in DELIMITERS}
+    best = max(DELIMITERS, key=lambda d: counts[d])
+    return best if counts[best] > counts[","] else ","
+
+
 def trend_file_read(
     *,
     site: Site,
@@ -241,7 +253,7 @@ def trend_file_read(
     refused = control_character_errors(text)
     text = text.removeprefix(BYTE_ORDER_MARK)
     total = data_rows(text)
-    reader = csv.reader(io.StringIO(text, newline=""))
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=file_delimiter(text))
     points = SitePoints(site, units)
     clock = FileClock(site, now or timezone.now())
     samples: Samples = defaultdict(dict)

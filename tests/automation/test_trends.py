@@ -202,3 +202,17 @@ def test_background_job_is_all_or_nothing(plant, django_capture_on_commit_callba
         bad.refresh_from_db()
     assert bad.status == TrendImportJob.Status.REFUSED
     assert [(e["line"], e["column"]) for e in bad.errors] == [(2, "AHU1.FILT-DP"), (4, "AHU1.SAT")]
+
+
+def test_a_semicolon_export_with_decimal_commas_reads_as_the_comma_file(plant):
+    """A European export (``;`` between cells, ``,`` as the decimal mark; common practice of spreadsheet and BAS
+    exports where the comma is the decimal mark) stores the same values as the comma file, in either layout."""
+    semi = WIDE.replace(",", ";").replace(".", ",")
+    # The point names keep their dots: only the values' decimal marks turn to commas.
+    semi = semi.replace("AHU1,", "AHU1.")
+    result = trend_import(site=plant.site, text=semi, layout="wide", now=NOW)
+    assert (result.rows, result.values, result.points) == (3, 8, 3)
+    assert [v for _w, v in _values(plant.points["AHU1.FILT-DP"], NOW - dt.timedelta(days=60), NOW)] == [142, 143.5]
+    long = "timestamp;point;value\n2026-01-06 08:00;AHU1.OAT;-3,5\n"
+    assert trend_import(site=plant.site, text=long, layout="long", now=NOW).values == 1
+    assert [v for _w, v in _values(plant.points["AHU1.OAT"], NOW - dt.timedelta(days=60), NOW)] == [-3.5]

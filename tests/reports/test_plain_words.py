@@ -47,7 +47,15 @@ def chosen_results() -> list[evaluation.Result]:
         "shortfall": lambda r: r.check.startswith("oa_fraction") and r.derived.get("design_shortfall"),
         "refusal": lambda r: "cannot judge" in r.reason,
         **{
-            check: (lambda r, check=check: r.check == check and r.verdict == "fail" and len(r.derived) > 1)
+            # Each check's own failure, not a bypass (the "bypass" case above is the one bank that shows it).
+            check: (
+                lambda r, check=check: (
+                    r.check == check
+                    and r.verdict == "fail"
+                    and len(r.derived) > 1
+                    and not r.derived.get("media_bypass_suspected")
+                )
+            )
             for check in JUDGED
         },
     }
@@ -77,7 +85,7 @@ def visit(site, supervisor):
     results = chosen_results()
     for res in results:
         res.component = by_kind.get(res.component.kind) if res.component is not None else None
-        if res.derived.get("media_bypass_suspected"):
+        if res.check == "filter_loading" and res.derived.get("media_bypass_suspected"):
             res.component = banks[-1]
     # The preheater test: a failed step (a choice) and one not applicable.
     b.reading(
