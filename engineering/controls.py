@@ -12,6 +12,7 @@ from enum import StrEnum
 
 from engineering import _validate as v
 from engineering.errors import EngineeringInputError
+from engineering.faults.thresholds import FaultThresholds
 
 __all__ = [
     "Check",
@@ -297,8 +298,6 @@ def valve_leak_check(*, entering_c: float, leaving_c: float, duty: str, limit_k:
     ``FaultThresholds().coil_change_k``, the two coil sensors' errors in quadrature plus the fan's heat, 2.68 K.
     A change the other way (air warmed by a closed cooling coil) is the fan's heat or a sensor, never a leak.
     """
-    from engineering.faults.thresholds import FaultThresholds
-
     t_in = v.air_temperature("entering_c", entering_c, label="entering air temperature")
     t_out = v.air_temperature("leaving_c", leaving_c, label="leaving air temperature")
     if duty not in COIL_DUTIES:
