@@ -8,6 +8,7 @@ is a new version. A signed inspection is never edited: corrections are
 
 import uuid
 import zoneinfo
+from typing import Any
 
 from django.conf import settings
 from django.core.exceptions import ValidationError
@@ -170,7 +171,7 @@ class Inspection(models.Model):
     def __str__(self) -> str:
         return f"Inspection {self.pk} of {self.ahu.tag} at {self.finished_at:%Y-%m-%d}"
 
-    def save(self, *args, **kwargs):
+    def save(self, *args: Any, **kwargs: Any) -> None:
         # Cheap last guard; the services refuse first with a clearer message.
         if self.pk is not None and self.signed_at is not None:
             fields = kwargs.get("update_fields")

@@ -17,8 +17,10 @@ from typing import Any
 
 from django.conf import settings
 from django.core.exceptions import ValidationError
+from django.db.models.fields.files import FieldFile
 from django.utils import timezone
 
+from accounts.models import User
 from engineering.units import SYSTEMS
 from scheduling.models import WorkOrder
 
@@ -36,19 +38,51 @@ MAX_READINGS = 2000
 
 @dataclass
 class Parsed:
-    client_uuid: uuid.UUID
+    """A form as it is parsed. A field the form got wrong is ``None`` while the rest is judged (its error is in the
+    form's ``Errors``); a form ``form_parse`` passes has them all (``head``)."""
+
+    client_uuid: uuid.UUID | None
     work_order: WorkOrder
-    version_seen: int
-    unit_system: str
-    started_at: dt.datetime
-    finished_at: dt.datetime
+    version_seen: int | None
+    unit_system: str | None
+    started_at: dt.datetime | None
+    finished_at: dt.datetime | None
     checklist: selectors.Checklist
     clock: check.Placed | None = None
     phone_times: dict[str, Any] = field(default_factory=dict)
     readings: list[Reading] = field(default_factory=list)
     improbable: list[str] = field(default_factory=list)
-    photos: list[tuple[dict, photo_service.CleanImage | Photo]] = field(default_factory=list)
+    photos: list[tuple[dict[str, Any], photo_service.CleanImage | Photo]] = field(default_factory=list)
     signature: dict[str, Any] = field(default_factory=dict)
+
+    def head(self) -> Head:
+        """The form's own fields of a form that passed; a form with one missing is a defect, never stored."""
+        if (
+            self.client_uuid is None
+            or self.version_seen is None
+            or self.unit_system is None
+            or self.started_at is None
+            or self.finished_at is None
+        ):
+            raise ValueError(f"form {self.client_uuid} was passed without all of its own fields")
+        return Head(
+            client_uuid=self.client_uuid,
+            version_seen=self.version_seen,
+            unit_system=self.unit_system,
+            started_at=self.started_at,
+            finished_at=self.finished_at,
+        )
+
+
+@dataclass(frozen=True)
+class Head:
+    """The own fields of a form that passed (``Parsed.head``)."""
+
+    client_uuid: uuid.UUID
+    version_seen: int
+    unit_system: str
+    started_at: dt.datetime
+    finished_at: dt.datetime
 
 
 @dataclass
@@ -64,12 +98,13 @@ class Batch:
     firsts: dict[uuid.UUID, Inspection]
     templates: dict[str, Any]
     handled: set[uuid.UUID] = field(default_factory=set)
-    written: list = field(default_factory=list)  # files of the forms stored so far (removed if the batch fails)
+    # The files of the forms stored so far (removed if the batch fails).
+    written: list[FieldFile] = field(default_factory=list)
     # Units that exactly one form of the request is for: no other form writes their filter history.
     single_units: set[int] = field(default_factory=set)
     _filter_history: selectors.FilterHistory | None = None
     # (the request's work order, the form's moved copy of it): copied back once the form's savepoint is released
-    moved: list = field(default_factory=list)
+    moved: list[tuple[WorkOrder, WorkOrder]] = field(default_factory=list)
 
     def filter_history(self) -> selectors.FilterHistory:
         """The filter history of the banks of ``single_units``, read whole at the first form that asks (two
@@ -98,7 +133,7 @@ def uuid_or_none(raw: object) -> uuid.UUID | None:
         return None
 
 
-def batch_read(*, user, forms: list) -> Batch:
+def batch_read(*, user: User, forms: list[object]) -> Batch:
     """Read at once what the forms of a request share: a fixed number of queries for any number of forms."""
     from ..services.library import templates_current
 
@@ -193,7 +228,15 @@ def _signature(parsed: Parsed, raw: object, errors: Errors) -> None:
     parsed.signature = {"name": (name or "").strip(), "signed_at": signed_at, "image": image}
 
 
-def _clock(parsed: Parsed, raw: dict, sent_at: object, errors: Errors) -> None:
+def _clock(
+    parsed: Parsed,
+    raw: dict[str, Any],
+    sent_at: object,
+    errors: Errors,
+    *,
+    started_at: dt.datetime,
+    finished_at: dt.datetime,
+) -> None:
     """Place the phone's times on the server's timeline (``check.clock_place``); the phone's clock never refuses."""
     phone_sent = raw.get("sent_at", sent_at)
     sent = None
@@ -204,8 +247,8 @@ def _clock(parsed: Parsed, raw: dict, sent_at: object, errors: Errors) -> None:
         return
     received = timezone.now()
     placed = check.clock_place(
-        started_at=parsed.started_at,
-        finished_at=parsed.finished_at,
+        started_at=started_at,
+        finished_at=finished_at,
         signed_at=signed,
         sent_at=sent,
         received_at=received,
@@ -243,7 +286,7 @@ UNKNOWN_WORK_ORDER = "no such work order that you may see"
 
 
 def form_parse(
-    *, user, raw: object, sent_at: object = None, position: int | None = None, batch: Batch | None = None
+    *, user: User, raw: object, sent_at: object = None, position: int | None = None, batch: Batch | None = None
 ) -> tuple[Parsed | None, Errors, uuid.UUID | None]:
     """Validate one form completely, without writing anything: clean values, or errors naming each field.
 
@@ -300,8 +343,9 @@ def form_parse(
     )
     _signature(parsed, raw.get("signature"), errors)
     if started is not None and finished is not None:
-        _clock(parsed, raw, sent_at, errors)  # before the readings: the meter reading is dated on the server's timeline
-    seen: set = set()
+        # before the readings: the meter reading is dated on the server's timeline
+        _clock(parsed, raw, sent_at, errors, started_at=started, finished_at=finished)
+    seen: set[tuple[str, int | None]] = set()
     for i, r in enumerate(readings or []):
         reading_parse(parsed, i, r, seen, errors)
     if readings is not None and system is not None and finished is not None:
@@ -313,11 +357,11 @@ def form_parse(
 def form_evaluate(parsed: Parsed, batch: Batch | None = None) -> list[evaluation.Result]:
     """Judge a parsed form; in a request (``batch``), a unit no other form of it is for reads its filter history
     from the request's (``Batch.filter_history``)."""
-    single = batch is not None and parsed.work_order.ahu_id in batch.single_units
+    history = batch.filter_history if batch is not None and parsed.work_order.ahu_id in batch.single_units else None
     return values_evaluate(
         ahu=parsed.work_order.ahu,
         values=reading_values(parsed.readings),
         slots=parsed.checklist.slots,
-        finished_at=parsed.finished_at,
-        history=batch.filter_history if single else None,
+        finished_at=parsed.head().finished_at,
+        history=history,
     )

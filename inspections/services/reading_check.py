@@ -90,22 +90,22 @@ def reading_parse(parsed: Parsed, i: int, raw: object, seen: set[tuple[str, int 
         return  # photo items are answered by their photos
     else:
         x = check.number(value)
-        if x is not None and parsed.unit_system is None:
-            return  # a number, but in an unknown unit system (refused under unit_system): no limits to judge it by
-        if x is None and parsed.unit_system is None:
-            errors.add(f"{at}.value", f"{label}: {check.shown(value)} is not a number")
+        system = parsed.unit_system
+        if system is None:  # an unknown unit system (refused under unit_system): no limits to judge a number by
+            if x is None:
+                errors.add(f"{at}.value", f"{label}: {check.shown(value)} is not a number")
             return
-        unit = limits.display_unit_label(it.quantity, parsed.unit_system)
+        unit = limits.display_unit_label(it.quantity, system)
         lim = slot.limits
-        lo = limits.to_display(lim.get("physical_min"), it.quantity, parsed.unit_system)
-        hi = limits.to_display(lim.get("physical_max"), it.quantity, parsed.unit_system)
+        lo = limits.to_display(lim.get("physical_min"), it.quantity, system)
+        hi = limits.to_display(lim.get("physical_max"), it.quantity, system)
         if x is None:
             errors.add(
                 f"{at}.value", f"{label}: {check.shown(value)} is not a number; allowed {_range_text(lo, hi, unit)}"
             )
             return
         try:
-            si = limits.from_display(x, it.quantity, parsed.unit_system)
+            si = limits.from_display(x, it.quantity, system)
         except EngineeringInputError as exc:
             errors.add(f"{at}.value", f"{label}: {plain_message(exc)}")
             return
@@ -120,8 +120,8 @@ def reading_parse(parsed: Parsed, i: int, raw: object, seen: set[tuple[str, int 
         plo, phi = lim.get("plausible_min"), lim.get("plausible_max")
         if (plo is not None and si < plo) or (phi is not None and si > phi):
             reading.improbable = True
-            dlo = limits.to_display(plo, it.quantity, parsed.unit_system)
-            dhi = limits.to_display(phi, it.quantity, parsed.unit_system)
+            dlo = limits.to_display(plo, it.quantity, system)
+            dhi = limits.to_display(phi, it.quantity, system)
             parsed.improbable.append(
                 f"{label}: {_num_text(x)} {unit} is outside the plausible "
                 f"{_range_text(dlo, dhi, unit)}; please check it"
@@ -145,8 +145,9 @@ def run_hours_check(parsed: Parsed, raw_readings: list[Any], errors: Errors) -> 
     from scheduling.services import meter_reading_check
 
     reading = next((r for r in parsed.readings if r.item.api_key == "visit.run_hours" and r.value_si is not None), None)
-    if reading is None or reading.value_si is None:  # (chosen with a value above)
-        return
+    finished_at = parsed.finished_at
+    if reading is None or reading.value_si is None or finished_at is None:  # (chosen with a value above)
+        return  # (no finish time: refused for that already, no date to check the meter by)
     i = next(
         (n for n, raw in enumerate(raw_readings) if isinstance(raw, dict) and raw.get("item") == "visit.run_hours"), 0
     )
@@ -154,7 +155,7 @@ def run_hours_check(parsed: Parsed, raw_readings: list[Any], errors: Errors) -> 
         meter_reading_check(
             ahu=parsed.work_order.ahu,
             hours=reading.value_si,
-            taken_at=parsed.finished_at,
+            taken_at=finished_at,
             label=reading.item.label,
             if_replaced=RUN_HOURS_IF_REPLACED,
         )

@@ -2,12 +2,15 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 from django.core.exceptions import PermissionDenied, ValidationError
 from django.db import transaction
 from django.utils import timezone
 
 from accounts.changes import organisation_changed
 from accounts.inputs import text_problem
+from accounts.models import User
 from accounts.services import audit_record
 from engineering.controls import Verdict
 from engineering.units import SYSTEMS
@@ -25,11 +28,11 @@ from .reading_check import reading_parse
 TEXT_MAX = 2000
 
 
-def _is_supervisor(user, inspection: Inspection) -> bool:
-    return sites_managed_by(user=user).filter(pk=inspection.ahu.building.site_id).exists()
+def _is_supervisor(user: User | None, inspection: Inspection) -> bool:
+    return user is not None and sites_managed_by(user=user).filter(pk=inspection.ahu.building.site_id).exists()
 
 
-def inspection_edit(*, inspection: Inspection, by, **changes) -> Inspection:
+def inspection_edit(*, inspection: Inspection, by: User | None, **changes: object) -> Inspection:
     """Signed inspections are never edited; this refuses and points to amendments.
 
     There is no unsigned state: every stored form is signed on the phone.
@@ -45,7 +48,9 @@ def inspection_edit(*, inspection: Inspection, by, **changes) -> Inspection:
 
 
 @transaction.atomic
-def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list, unit_system: str) -> Amendment:
+def inspection_amend(
+    *, inspection: Inspection, by: User | None, reason: str, readings: list[object], unit_system: str
+) -> Amendment:
     """A correction to a signed inspection. The original readings stay untouched beside it.
 
     ``readings`` has the sync shape ({item, component, value, note}); each
@@ -59,7 +64,7 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
     stay as they were.
     """
 
-    if not selectors.amendment_allowed(user=by, inspection=inspection):
+    if by is None or not selectors.amendment_allowed(user=by, inspection=inspection):
         raise PermissionDenied("only the technician who signed it or a supervisor of the site may amend it")
     if not isinstance(reason, str) or not reason.strip():
         raise ValidationError({"reason": ["an amendment needs a reason"]})
@@ -80,7 +85,7 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
         finished_at=inspection.finished_at,
         checklist=selectors.checklist_build(work_order=wo),
     )
-    errors, seen = Errors(), set()
+    errors, seen = Errors(), set[tuple[str, int | None]]()
     for i, raw in enumerate(readings):
         reading_parse(parsed, i, raw, seen, errors)  # the sync's own parsing and range rules
     if errors:
@@ -91,10 +96,10 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
     results = values_evaluate(
         ahu=inspection.ahu, values=values, slots=parsed.checklist.slots, finished_at=inspection.finished_at
     )
-    by_item = {}
-    for res in results:
-        by_item.setdefault((res.item, res.component.pk if res.component else None), res)
-    changes = []
+    by_item: dict[tuple[str, int | None], evaluation.Result] = {}
+    for judged in results:
+        by_item.setdefault((judged.item, judged.component.pk if judged.component else None), judged)
+    changes: list[dict[str, Any]] = []
     for r in parsed.readings:
         key = (r.item.api_key, r.component.pk if r.component else None)
         old = original.get(key)
@@ -124,7 +129,11 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
     if found or cleared:
         # Each corrected item names the finding it opened or cleared, in the one record of the amendment.
         for field_name, findings in (("finding", found), ("cleared_finding", cleared)):
-            by_key = {(f.evaluation.item_key, f.component.label_code if f.component else None): f for f in findings}
+            by_key = {
+                (f.evaluation.item_key, f.component.label_code if f.component else None): f
+                for f in findings
+                if f.evaluation is not None  # (a finding of a form always has its evaluation)
+            }
             for c in changes:
                 if (f := by_key.get((c["item"], c["component"]))) is not None:
                     c[field_name] = f.pk
@@ -146,10 +155,12 @@ def inspection_amend(*, inspection: Inspection, by, reason: str, readings: list,
     return amendment
 
 
-def _newly_failed_open(*, inspection: Inspection, amendment: Amendment, results, by) -> list:
+def _newly_failed_open(
+    *, inspection: Inspection, amendment: Amendment, results: list[evaluation.Result], by: User | None
+) -> list[Finding]:
     """Findings for judgements that fail after the amendment and had not failed on this inspection before."""
 
-    def key(check, item, component_id):
+    def key(check: str, item: str, component_id: int | None) -> tuple[str, str, int | None]:
         return (check, item, component_id)
 
     # A failure whose finding an earlier amendment cleared counts as new if it fails again.
@@ -179,7 +190,7 @@ def _newly_failed_open(*, inspection: Inspection, amendment: Amendment, results,
 
 
 @transaction.atomic
-def inspection_verify(*, inspection: Inspection, by) -> Inspection:
+def inspection_verify(*, inspection: Inspection, by: User | None) -> Inspection:
     """A supervisor verifies the inspection; its completed work order moves to verified."""
     from scheduling.services import work_order_verify
 
@@ -203,7 +214,7 @@ def inspection_verify(*, inspection: Inspection, by) -> Inspection:
 
 
 @transaction.atomic
-def flagged_form_resolve(*, inspection: Inspection, by, note: str) -> Inspection:
+def flagged_form_resolve(*, inspection: Inspection, by: User | None, note: str) -> Inspection:
     """A supervisor has looked at a flagged form and says what was done about it."""
     if not _is_supervisor(by, inspection):
         raise PermissionDenied("only a supervisor of the site may resolve a flagged form")

@@ -13,22 +13,27 @@ work order's completion.
 from __future__ import annotations
 
 import copy
+import datetime as dt
 import logging
 import uuid
+from collections.abc import Iterable
+from typing import Any
 
 from django.core.exceptions import ValidationError
 from django.core.files.base import ContentFile
 from django.db import DatabaseError, DataError, IntegrityError, transaction
+from django.db.models.fields.files import FieldFile
 
 from accounts.changes import changes_deferred, organisation_changed
+from accounts.models import User
 from accounts.services import audit_record, audits_deferred
 from engineering.controls import Verdict
 from scheduling.models import WorkOrder
 
-from .. import check, selectors
+from .. import check, evaluation, selectors
 from .. import flags as form_flags
 from ..check import Errors
-from ..models import Inspection, Photo, Reading
+from ..models import Evaluation, Finding, Inspection, Photo, Reading
 from . import findings as findings_service
 from . import photos as photo_service
 from .form_check import (
@@ -51,8 +56,8 @@ def _not_ok(reading: Reading) -> bool:
     return reading.verdict == Verdict.FAIL
 
 
-def _flags(parsed: Parsed, user, wo: WorkOrder, results) -> list[dict]:
-    flags = []
+def _flags(parsed: Parsed, user: User, wo: WorkOrder) -> list[dict[str, str]]:
+    flags: list[dict[str, str]] = []
     if wo.state == WorkOrder.State.CANCELLED:
         flags.append(
             {
@@ -78,8 +83,9 @@ def _flags(parsed: Parsed, user, wo: WorkOrder, results) -> list[dict]:
         )
     for text in parsed.improbable:
         flags.append({"code": "improbable_value", "reason": text})
-    if parsed.clock is not None and parsed.clock.beyond_tolerance:
-        flags.append({"code": "phone_clock", "reason": _clock_reason(parsed.clock)})
+    clock = parsed.clock
+    if clock is not None and clock.skew is not None and clock.beyond_tolerance:
+        flags.append({"code": "phone_clock", "reason": _clock_reason(clock, clock.skew)})
     answered = {(r.item.api_key, r.component.pk if r.component else None) for r in parsed.readings}
     photographed = {
         (p["slot"].item.api_key, p["slot"].component.pk if p["slot"].component else None) for p, _ in parsed.photos
@@ -104,18 +110,25 @@ def _flags(parsed: Parsed, user, wo: WorkOrder, results) -> list[dict]:
     return flags
 
 
-def _clock_reason(placed: check.Placed) -> str:
+def _clock_reason(placed: check.Placed, skew: dt.timedelta) -> str:
     how = "" if placed.measured else "at least "
     return (
-        f"the phone's clock was {how}{check.skew_text(placed.skew)} the server's when the form arrived; "
+        f"the phone's clock was {how}{check.skew_text(skew)} the server's when the form arrived; "
         f"its finish and signature times are placed on the server's clock (finished "
         f"{placed.finished_at:%Y-%m-%d %H:%M} UTC); set the phone to the network time"
     )
 
 
 def _result_json(
-    inspection: Inspection, status: str, flags, evals, found, wo: WorkOrder, *, unit_system: str = "si"
-) -> dict:
+    inspection: Inspection,
+    status: str,
+    flags: list[dict[str, str]],
+    evals: list[Evaluation],
+    found: list[Finding],
+    wo: WorkOrder,
+    *,
+    unit_system: str = "si",
+) -> dict[str, Any]:
     """The answer to the phone; reasons in ``unit_system`` (the sender's), ``reason_si`` as recorded."""
     return {
         "client_uuid": str(inspection.client_uuid),
@@ -142,7 +155,7 @@ def _result_json(
     }
 
 
-def duplicate_result(inspection: Inspection, *, user) -> dict:
+def duplicate_result(inspection: Inspection, *, user: User) -> dict[str, Any]:
     if inspection.technician_id != user.pk:
         errors = Errors()
         errors.add(
@@ -154,7 +167,7 @@ def duplicate_result(inspection: Inspection, *, user) -> dict:
     return {**first, "status": "duplicate", "first_status": first.get("status")}
 
 
-def refused_result(client_uuid, errors: Errors) -> dict:
+def refused_result(client_uuid: uuid.UUID | None, errors: Errors) -> dict[str, Any]:
     return {
         "client_uuid": str(client_uuid) if client_uuid else None,
         "status": "refused",
@@ -168,28 +181,36 @@ def refused_result(client_uuid, errors: Errors) -> dict:
     }
 
 
-def _store(parsed: Parsed, user, results, batch: Batch | None = None) -> dict:
+def _files_delete(files: Iterable[FieldFile]) -> None:
+    """Remove the stored files of a form (or a batch) that was rolled back."""
+    for f in files:
+        if f.name:
+            f.storage.delete(f.name)
+
+
+def _store(parsed: Parsed, user: User, results: list[evaluation.Result], batch: Batch | None = None) -> dict[str, Any]:
     from scheduling.services import meter_reading_record, work_order_complete, work_order_complete_locked
 
-    written: list = []
+    written: list[FieldFile] = []
+    head = parsed.head()
     sig = parsed.signature
     inspection = Inspection(
-        client_uuid=parsed.client_uuid,
+        client_uuid=head.client_uuid,
         organisation_id=parsed.work_order.organisation_id,
         work_order=parsed.work_order,
         ahu=parsed.work_order.ahu,
         technician=user,
         template_versions={t.code: t.version for t in parsed.checklist.templates},
-        unit_system=parsed.unit_system,
-        work_order_version_seen=parsed.version_seen,
-        started_at=parsed.started_at,
-        finished_at=parsed.finished_at,
+        unit_system=head.unit_system,
+        work_order_version_seen=head.version_seen,
+        started_at=head.started_at,
+        finished_at=head.finished_at,
         signature_name=sig["name"],
         signed_at=sig["signed_at"],
         clock_skew=parsed.clock.skew if parsed.clock else None,
         phone_times=parsed.phone_times,
     )
-    inspection.signature_image.save(f"{parsed.client_uuid.hex}.png", ContentFile(sig["image"].data), save=False)
+    inspection.signature_image.save(f"{head.client_uuid.hex}.png", ContentFile(sig["image"].data), save=False)
     written.append(inspection.signature_image)
     new_photos = []
     for raw, obj in parsed.photos:
@@ -209,15 +230,15 @@ def _store(parsed: Parsed, user, results, batch: Batch | None = None) -> dict:
         written += [photo.image, photo.thumbnail]
         new_photos.append(photo)
     # Reading verdicts from the evaluation of the reading itself.
-    by_reading = {}
+    by_reading: dict[tuple[str, int | None], evaluation.Result] = {}
     for res in results:
         by_reading.setdefault((res.item, res.component.pk if res.component else None), res)
     for r in parsed.readings:
-        res = by_reading.get((r.item.api_key, r.component.pk if r.component else None))
+        own = by_reading.get((r.item.api_key, r.component.pk if r.component else None))
         if r.value_text == "na":
             r.verdict = Verdict.NOT_APPLICABLE
-        elif res is not None:
-            r.verdict, r.reason, r.reason_parts = res.verdict, res.reason, res.reason_parts
+        elif own is not None:
+            r.verdict, r.reason, r.reason_parts = own.verdict, own.reason, own.reason_parts
     try:
         # In a batch the form's own savepoint (``inspection_sync``) is the one it needs.
         with transaction.atomic(savepoint=batch is None):
@@ -228,7 +249,7 @@ def _store(parsed: Parsed, user, results, batch: Batch | None = None) -> dict:
                 batch.moved.append((parsed.work_order, wo))
             else:
                 wo = WorkOrder.objects.select_for_update().get(pk=parsed.work_order.pk)
-            flags = _flags(parsed, user, wo, results)
+            flags = _flags(parsed, user, wo)
             inspection.flags = flags
             inspection.flag_reason = "; ".join(f["reason"] for f in flags)[:5000]
             inspection.complete = not any(f["code"] == "incomplete" for f in flags)
@@ -250,7 +271,7 @@ def _store(parsed: Parsed, user, results, batch: Batch | None = None) -> dict:
                     meter_reading_record(
                         ahu=parsed.work_order.ahu,  # already read with its site (wo is the locked row)
                         hours=hours,
-                        taken_at=parsed.finished_at,
+                        taken_at=head.finished_at,
                         source="checklist",
                         by=user,
                         in_caller_transaction=batch is not None,
@@ -263,9 +284,9 @@ def _store(parsed: Parsed, user, results, batch: Batch | None = None) -> dict:
             if not any(f["code"] in blocking for f in flags) and wo.is_open:
                 try:  # in a batch: on the row locked above, refused before any write (no savepoint, no relock)
                     if batch is not None:
-                        work_order_complete_locked(work_order=wo, by=user, completed_at=parsed.finished_at)
+                        work_order_complete_locked(work_order=wo, by=user, completed_at=head.finished_at)
                     else:
-                        work_order_complete(work_order=wo, by=user, completed_at=parsed.finished_at)
+                        work_order_complete(work_order=wo, by=user, completed_at=head.finished_at)
                     inspection.work_order_completed = True
                 except ValidationError as exc:
                     flags.append(
@@ -277,14 +298,15 @@ def _store(parsed: Parsed, user, results, batch: Batch | None = None) -> dict:
             inspection.flags = flags
             inspection.flag_reason = "; ".join(f["reason"] for f in flags)[:5000]
             status = "flagged" if flags else "stored"
-            inspection.sync_result = _result_json(
+            result = _result_json(
                 inspection, status, flags, evals, found, wo, unit_system=getattr(user, "unit_system", "si")
             )
+            inspection.sync_result = result
             # flags and flag_reason change only inside this creating transaction.
             Inspection.objects.filter(pk=inspection.pk).update(
                 flags=flags,
                 flag_reason=inspection.flag_reason,
-                sync_result=inspection.sync_result,
+                sync_result=result,
                 work_order_completed=inspection.work_order_completed,
             )
             audit_record(
@@ -293,7 +315,7 @@ def _store(parsed: Parsed, user, results, batch: Batch | None = None) -> dict:
                 action="inspection_submit",
                 organisation_id=wo.organisation_id,
                 changes={
-                    "client_uuid": str(parsed.client_uuid),
+                    "client_uuid": str(head.client_uuid),
                     "work_order": str(wo.public_id),
                     "readings": len(parsed.readings),
                     "flags": [f["code"] for f in flags],
@@ -303,25 +325,23 @@ def _store(parsed: Parsed, user, results, batch: Batch | None = None) -> dict:
             organisation_changed(organisation_id=wo.organisation_id)  # today, the board and its "to verify"
         if batch is not None:
             batch.written += written
-        return inspection.sync_result
+        return result
     except IntegrityError:
-        for f in written:
-            f.storage.delete(f.name)
+        _files_delete(written)
         if batch is not None:
             raise  # answered by inspection_sync once the form's savepoint is rolled back
-        first = Inspection.objects.filter(client_uuid=parsed.client_uuid).first()
+        first = Inspection.objects.filter(client_uuid=head.client_uuid).first()
         if first is None:
             raise
         return duplicate_result(first, user=user)
     except BaseException:
-        for f in written:
-            f.storage.delete(f.name)
+        _files_delete(written)
         raise
 
 
 def inspection_submit(
-    *, user, form: object, sent_at: object = None, position: int | None = None, batch: Batch | None = None
-) -> dict:
+    *, user: User, form: object, sent_at: object = None, position: int | None = None, batch: Batch | None = None
+) -> dict[str, Any]:
     """Store one finished form (or return the first result for its client_uuid, or refuse it whole).
 
     ``batch``: what the request's forms share, read once (``batch_read``)."""
@@ -353,7 +373,7 @@ def _first_stored(form: object) -> Inspection | None:
     return Inspection.objects.filter(client_uuid=key).first() if key is not None else None
 
 
-def _failed_result(form: object) -> dict:
+def _failed_result(form: object) -> dict[str, Any]:
     """A form the server could not handle (a defect, logged): kept on the phone and sent again later."""
     raw_id = form.get("client_uuid") if isinstance(form, dict) else None
     errors = Errors()
@@ -365,7 +385,7 @@ def _failed_result(form: object) -> dict:
     }
 
 
-def inspection_sync(*, user, forms: list, sent_at: object = None) -> list[dict]:
+def inspection_sync(*, user: User, forms: object, sent_at: object = None) -> list[dict[str, Any]]:
     """One result per form, in order. Each form is stored whole or not at all and never holds back the others.
 
     The batch is one transaction with a savepoint per form: a form that fails is rolled back to its
@@ -377,8 +397,8 @@ def inspection_sync(*, user, forms: list, sent_at: object = None) -> list[dict]:
     """
     if not isinstance(forms, list) or len(forms) > MAX_FORMS:
         raise ValidationError({"forms": [f"forms is a list of at most {MAX_FORMS} forms"]})
-    out = []
-    batch = None
+    out: list[dict[str, Any]] = []
+    batch: Batch | None = None
     try:
         with transaction.atomic(), changes_deferred(), audits_deferred():
             batch = batch_read(user=user, forms=forms)
@@ -409,7 +429,6 @@ def inspection_sync(*, user, forms: list, sent_at: object = None) -> list[dict]:
                     logger.exception("sync: one form failed")
                     out.append(_failed_result(form))
     except BaseException:  # the batch is rolled back whole: so are the files of its forms stored so far
-        for f in batch.written if batch is not None else []:
-            f.storage.delete(f.name)
+        _files_delete(batch.written if batch is not None else [])
         raise
     return out
