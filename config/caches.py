@@ -15,10 +15,11 @@ def clear_module_caches() -> None:
     """Forget every kept result of the engine, the seasons, the routes, unit conversions and zone spans."""
     from accounts import clock
     from engineering import units
-    from scheduling import engine, selectors
+    from scheduling import selectors
+    from scheduling.engine import meters
     from scheduling.services import seasons
 
-    engine._rate_per_day.cache_clear()
+    meters._rate_per_day.cache_clear()
     seasons._starts.cache_clear()
     selectors._suggest_order.cache_clear()
     units._convert.cache_clear()

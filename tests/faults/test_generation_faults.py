@@ -1,7 +1,7 @@
 """Generation cut off in the middle leaves no half-made work orders, and a rerun completes them.
 
 The due-date engine writes every new visit and its tasks in one transaction
-(scheduling/engine.py). Here a fault strikes after part of the task rows are
+(scheduling/engine/). Here a fault strikes after part of the task rows are
 inserted — what a worker killed mid-run looks like to the database — and on
 PostgreSQL with Redis a real Celery worker is SIGKILLed mid-run and restarted.
 """

@@ -61,7 +61,7 @@ def test_a_rule_stored_with_an_interval_of_a_million_months_is_skipped_the_other
 def test_date_arithmetic_past_the_calendar_skips_that_task_not_the_run(library, monkeypatch):
     """Should a date sum still run past year 9999 (a case no check foresaw), that task on that unit is named
     and skipped; every other task is generated."""
-    from scheduling import engine
+    from scheduling.engine import occurrences  # where the rules read their calendar grid
 
     ahu = make_full_unit(service_start=dt.date(2024, 1, 15))
     org = ahu.building.site.organisation
@@ -69,14 +69,14 @@ def test_date_arithmetic_past_the_calendar_skips_that_task_not_the_run(library, 
     victim = TaskDefinition.objects.get(
         code=sorted(wanted & set(TaskDefinition.objects.filter(trigger="interval").values_list("code", flat=True)))[0]
     )
-    real = engine.calendar_occurrences
+    real = occurrences.calendar_occurrences
 
     def overflowing(*, anchor, value, unit, start, end):
         if (value, unit) == (victim.interval_value, victim.interval_unit):
             raise OverflowError("date value out of range")
         return real(anchor=anchor, value=value, unit=unit, start=start, end=end)
 
-    monkeypatch.setattr(engine, "calendar_occurrences", overflowing)
+    monkeypatch.setattr(occurrences, "calendar_occurrences", overflowing)
     result = work_orders_generate(organisation=org, today=TODAY)
     assert WorkOrderTask.objects.filter(ahu=ahu).exists()
     assert not WorkOrderTask.objects.filter(task_code=victim.code).exists()
