@@ -15,12 +15,12 @@ def clear_module_caches() -> None:
     """Forget every kept result of the engine, the seasons, the routes, unit conversions and zone spans."""
     from accounts import clock
     from engineering import units
-    from scheduling import selectors
     from scheduling.engine import meters
+    from scheduling.selectors import today
     from scheduling.services import seasons
 
     meters._rate_per_day.cache_clear()
     seasons._starts.cache_clear()
-    selectors._suggest_order.cache_clear()
+    today._suggest_order.cache_clear()
     units._convert.cache_clear()
     clock._spans.cache_clear()

@@ -340,7 +340,7 @@ class WorkOrder(models.Model):
 
     def is_overdue_on(self, today: dt.date) -> bool:
         """Open work past its overdue day (``overdue_on``; without one, past its due date) on ``today``, the
-        site's date; the board's overdue column reads the same rule (scheduling.selectors._overdue)."""
+        site's date; the board's overdue column reads the same rule (scheduling.selectors.board._overdue)."""
         if self.state not in self.OPEN_STATES or self.due_date is None or self.due_date >= today:
             return False
         return self.overdue_on is None or self.overdue_on <= today

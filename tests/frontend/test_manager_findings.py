@@ -218,7 +218,7 @@ def test_a_design_review_says_no_corrective_work_is_proposed(w, client):
 def test_corrective_work_past_its_overdue_day_reads_overdue_on_every_page(w, client):
     """Work due 2 Nov 2026 (overdue from 3 Nov), still assigned on 2 Dec 2026, reads "overdue" on her findings
     list, the finding's page and the unit's page, from WorkOrder.state_words as the board's overdue column counts
-    it (WorkOrder.is_overdue_on and scheduling.selectors._overdue, one rule)."""
+    it (WorkOrder.is_overdue_on and scheduling.selectors.board._overdue, one rule)."""
     import datetime as dt
 
     from scheduling.models import WorkOrder

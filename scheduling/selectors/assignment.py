@@ -1,0 +1,93 @@
+"""What giving a work order to a technician for a day does to their day (``assignment_check``), and the day a row
+offers.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass
+
+from inventory.today import today_for
+
+from ..models import WorkOrder
+from .load import DayLoad, _least_loaded, capacity_on, skills_needed, technician_day_loads, weekday_on_or_near
+
+
+@dataclass(frozen=True)
+class AssignmentCheck:
+    """What giving ``work_order`` to ``technician`` for ``day`` does to their day, said before it is saved."""
+
+    technician: object
+    day: dt.date
+    load: DayLoad
+    missing_skills: tuple[str, ...]
+    suggestion: tuple | None  # (user, DayLoad with the work added) of the least-loaded qualified technician
+    today: dt.date
+
+    @property
+    def over(self) -> bool:
+        return self.load.over
+
+    def day_words(self) -> str:
+        from accounts.clock import day_text
+
+        return f"{self.day:%a} {day_text(self.day, today=self.today)}"
+
+    def load_words(self, load: DayLoad | None = None) -> str:
+        """ "8.4 h: 7.7 h of tasks and 43 min of travel (22 km between 2 sites)" """
+        load = load or self.load
+        words = f"{load.hours:.1f} h: {load.task_minutes / 60:.1f} h of tasks"
+        if load.sites > 1:
+            words += (
+                f" and {load.travel_minutes:.0f} min of travel ({load.travel_km:.0f} km between {load.sites} sites)"
+            )
+        else:
+            words += ", no travel between sites"
+        return words
+
+    def message(self) -> str:
+        """The warning: the technician, the day, the hours and the capacity."""
+        return (
+            f"{self.technician} on {self.day_words()} would have {self.load_words()}, "
+            f"over the capacity of {self.load.capacity_hours:.1f} h a day."
+        )
+
+    def suggestion_words(self) -> str:
+        if self.suggestion is None:
+            return "No technician of the organisation has every skill this work needs."
+        user, load = self.suggestion
+        if user == self.technician:
+            return f"{user} is already the least loaded of those with the skills."
+        state = "over capacity too" if load.over else "within capacity"
+        return (
+            f"Least loaded with the skills: {user}, {load.hours:.1f} h of {load.capacity_hours:.1f} h "
+            f"on {self.day_words()} with this work ({state})."
+        )
+
+
+def assignment_check(*, work_order: WorkOrder, technician, day: dt.date) -> AssignmentCheck:
+    """The day ``technician`` would have if given ``work_order`` on ``day`` (tasks plus travel, against their
+    capacity), the skills they lack, and the least-loaded technician who has every skill the work needs
+    (smallest share of their capacity with the work added; ties by name). Reads only; nothing is saved."""
+    loads = technician_day_loads(
+        organisation=work_order.organisation, start=day, days=1, adding=work_order, adding_day=day
+    )
+    needed = skills_needed(work_order=work_order)
+    chosen = next((load for user, (load,) in loads if user.pk == technician.pk), None)
+    if chosen is None:  # not a technician of the organisation: the service refuses it in its own words
+        chosen = DayLoad(date=day, capacity_hours=capacity_on(technician, day))
+    suggestion = _least_loaded([(user, load) for user, (load,) in loads if needed <= set(user.skills or [])])
+    return AssignmentCheck(
+        technician=technician,
+        day=day,
+        load=chosen,
+        missing_skills=tuple(sorted(needed - set(technician.skills or []))),
+        suggestion=suggestion,
+        today=today_for(work_order.ahu.building.site),
+    )
+
+
+def offered_day(*, scheduled_for: dt.date | None, due_date: dt.date, today: dt.date) -> dt.date:
+    """The day a board row offers for its visit: its plan, else its due date, never a day already past at its
+    site (``today`` is the site's: the schedule service refuses a day before it) nor a weekend day."""
+    return scheduled_for or weekday_on_or_near(max(due_date, today), today=today)
