@@ -82,7 +82,7 @@ def work_orders_for_sync(*, user: User, public_ids) -> dict:
     orgs = user.memberships.filter(role__in=SUBMITTING_ROLES).values("organisation_id")
     rows = list(
         WorkOrder.objects.filter(public_id__in=ids, organisation_id__in=orgs)
-        .select_related("ahu__building__site", "assignee")
+        .select_related("ahu__building__site__organisation", "assignee")  # the organisation: for proposed work
         .prefetch_related("tasks", "ahu__components")
     )
     if not rows:

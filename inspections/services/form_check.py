@@ -22,6 +22,7 @@ from django.utils import timezone
 
 from accounts.models import User
 from engineering.units import SYSTEMS
+from inventory.models import AHU
 from scheduling.models import WorkOrder
 
 from .. import check, evaluation, selectors
@@ -54,6 +55,10 @@ class Parsed:
     improbable: list[str] = field(default_factory=list)
     photos: list[tuple[dict[str, Any], photo_service.CleanImage | Photo]] = field(default_factory=list)
     signature: dict[str, Any] = field(default_factory=dict)
+    # Whether the unit's row is locked for the request (``batch_read``): its run-hour meter is then read once, on
+    # arrival (``meter_neighbours``, by ``run_hours_check``), and that read serves the store's check too.
+    unit_locked: bool = False
+    meter_neighbours: tuple[Any, Any] | None = None
 
     def head(self) -> Head:
         """The form's own fields of a form that passed; a form with one missing is a defect, never stored."""
@@ -146,6 +151,12 @@ def batch_read(*, user: User, forms: list[object]) -> Batch:
         # on each other), before they are read: each form then judges the row as it stands.
         list(WorkOrder.objects.select_for_update().filter(public_id__in=wo_ids).order_by("pk").values_list("pk"))
     work_orders = selectors.work_orders_for_sync(user=user, public_ids=wo_ids)
+    if work_orders:
+        # Their units too, once for the request, in one order, after the work orders (as each form's meter
+        # reading did before): a form's run-hour meter is then read once, under this lock, on arrival and for
+        # the store alike. The rows alone (no join to, and no lock of, their buildings and sites).
+        units = {wo.ahu_id for wo in work_orders.values()}
+        list(AHU.objects.select_for_update().filter(pk__in=units).order_by("pk").values_list("pk"))
     forms_per_unit = Counter(
         work_orders[u].ahu_id for f in dicts if (u := uuid_or_none(f.get("work_order"))) in work_orders
     )
@@ -340,6 +351,7 @@ def form_parse(
         checklist=selectors.checklist_build(
             work_order=work_order, templates=batch.templates if batch is not None else None
         ),
+        unit_locked=batch is not None,
     )
     _signature(parsed, raw.get("signature"), errors)
     if started is not None and finished is not None:

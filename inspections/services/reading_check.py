@@ -142,7 +142,7 @@ def run_hours_check(parsed: Parsed, raw_readings: list[Any], errors: Errors) -> 
     (``meter_reading_refused``): a replaced meter reads lower, and the office
     records the replacement.
     """
-    from scheduling.services import meter_reading_check
+    from scheduling.services import meter_neighbours, meter_reading_check
 
     reading = next((r for r in parsed.readings if r.item.api_key == "visit.run_hours" and r.value_si is not None), None)
     finished_at = parsed.finished_at
@@ -151,6 +151,9 @@ def run_hours_check(parsed: Parsed, raw_readings: list[Any], errors: Errors) -> 
     i = next(
         (n for n, raw in enumerate(raw_readings) if isinstance(raw, dict) and raw.get("item") == "visit.run_hours"), 0
     )
+    neighbours = meter_neighbours(ahu=parsed.work_order.ahu, component=None, taken_at=parsed.finished_at)
+    if parsed.unit_locked:  # read under the request's lock of the unit: the store checks against the same read
+        parsed.meter_neighbours = neighbours
     try:
         meter_reading_check(
             ahu=parsed.work_order.ahu,
@@ -158,6 +161,7 @@ def run_hours_check(parsed: Parsed, raw_readings: list[Any], errors: Errors) -> 
             taken_at=finished_at,
             label=reading.item.label,
             if_replaced=RUN_HOURS_IF_REPLACED,
+            neighbours=neighbours,
         )
     except ValidationError as exc:
         for problems in exc.error_dict.values():

@@ -261,7 +261,13 @@ def _store(parsed: Parsed, user: User, results: list[evaluation.Result], batch: 
                 p.inspection = inspection
                 p.save()
             evals = findings_service.evaluations_store(inspection=inspection, results=results)
-            found = findings_service.findings_open(inspection=inspection, evaluations=evals, results=results, by=user)
+            found = findings_service.findings_open(
+                inspection=inspection,
+                evaluations=evals,
+                results=results,
+                by=user,
+                templates=parsed.checklist.templates,  # the steps' names as the form's checklist read them
+            )
             hours = next(
                 (r.value_si for r in parsed.readings if r.item.api_key == "visit.run_hours" and r.value_si is not None),
                 None,
@@ -275,6 +281,10 @@ def _store(parsed: Parsed, user: User, results: list[evaluation.Result], batch: 
                         source="checklist",
                         by=user,
                         in_caller_transaction=batch is not None,
+                        # In a batch the unit was locked by batch_read and its meter read under that lock on
+                        # arrival (run_hours_check); nothing of the meter is written between: not read again.
+                        unit_locked=batch is not None,
+                        neighbours=parsed.meter_neighbours if batch is not None else None,
                     )
                 except ValidationError as exc:
                     flags.append(

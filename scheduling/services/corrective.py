@@ -92,7 +92,10 @@ def corrective_work_order_propose(
         overdue_on=overdue_day(due, priority_grace_days(priority)),
         approval=WorkOrder.Approval.APPROVED if approved else WorkOrder.Approval.PENDING,
     )
-    wo.full_clean()
+    # The unit, its part and its organisation are rows the caller has just read (and holds): whether they exist is
+    # not asked again, nor whether a fresh random public id is taken (the table's keys still hold both). Every
+    # other field is judged.
+    wo.full_clean(exclude=["organisation", "ahu", "component"], validate_unique=False)
     wo.save()
     if condition_code:
         tasks = [t for t in effective_tasks(organisation=organisation).values() if t.condition_code == condition_code]

@@ -40,12 +40,15 @@ METER_HOURS_MAX = 1_000_000
 LABEL_MAX = 12
 
 
-def _neighbours(
-    *, ahu: AHU, component: Component | None, taken_at: dt.datetime
-) -> tuple[MeterReading | None, MeterReading | None]:
+# A meter's readings around a time: the one at or before it and the one after it (``meter_neighbours``).
+Neighbours = tuple[MeterReading | None, MeterReading | None]
+
+
+def meter_neighbours(*, ahu: AHU, component: Component | None, taken_at: dt.datetime) -> Neighbours:
     """The same meter's reading at or before ``taken_at`` (latest first) and the one after it (earliest first),
-    in one query of two indexed ``LIMIT 1`` halves. Written as SQL: every synced form asks it twice (checked on
-    arrival, again under the unit's lock), and building it with the ORM cost more than running it."""
+    in one query of two indexed ``LIMIT 1`` halves. Written as SQL: every synced form asks it, and building it
+    with the ORM cost more than running it. Read under the unit's lock, the pair can be handed to
+    ``meter_reading_record`` (``neighbours``) so the reading is not looked up twice."""
     table = MeterReading._meta.db_table
     cols = ", ".join(str(f.column) for f in MeterReading._meta.concrete_fields)
     same = "ahu_id = %s AND " + ("component_id IS NULL" if component is None else "component_id = %s")
@@ -91,6 +94,7 @@ def meter_reading_check(
     now: dt.datetime | None = None,
     label: str = "Run hours",
     if_replaced: str = "record this reading as a meter replacement",
+    neighbours: Neighbours | None = None,
 ) -> None:
     """Refuse a run-hour reading no working meter could show; raises ValidationError on ``hours``/``taken_at``.
 
@@ -101,7 +105,8 @@ def meter_reading_check(
     the next later reading. A reading marked as a meter replacement starts a
     new meter, so it is not compared with the readings before it. ``label``
     names the value as the person saw it; ``if_replaced`` says what to do
-    when the meter was in fact replaced.
+    when the meter was in fact replaced. ``neighbours``: the meter's readings
+    around ``taken_at`` as already read (``meter_neighbours``); read here otherwise.
     """
     now = now or timezone.now()
     if taken_at > now + FUTURE_TOLERANCE:
@@ -118,7 +123,9 @@ def meter_reading_check(
             }
         )
     what = label if component is None else f"{label} of {component.name}"
-    prev, nxt = _neighbours(ahu=ahu, component=component, taken_at=taken_at)
+    if neighbours is None:
+        neighbours = meter_neighbours(ahu=ahu, component=component, taken_at=taken_at)
+    prev, nxt = neighbours
     if not is_reset:
         if prev is not None and hours < prev.hours:
             raise ValidationError(
@@ -193,6 +200,7 @@ def meter_reading_record(
     by: User | None = None,
     in_caller_transaction: bool = False,
     unit_locked: bool = False,
+    neighbours: Neighbours | None = None,
 ) -> MeterReading:
     """Store one run-hour reading.
 
@@ -204,6 +212,8 @@ def meter_reading_record(
     ``in_caller_transaction``: no savepoint of its own; the caller's open transaction holds the lock and the
     write. Safe because every refusal is raised before anything is written. ``unit_locked`` (with it): the caller
     has locked the unit's row in that transaction already (one lock for many readings); it is not locked again.
+    ``neighbours`` (with ``unit_locked``): the meter's readings around ``taken_at`` (``meter_neighbours``) as the
+    caller read them under that lock, with no reading of the meter written since; they are not read again.
     """
     kwargs: dict[str, Any] = {
         "ahu": ahu,
@@ -214,10 +224,12 @@ def meter_reading_record(
         "is_reset": is_reset,
         "by": by,
     }
+    if neighbours is not None and not unit_locked:
+        raise RuntimeError("meter_reading_record(neighbours=) needs unit_locked=True: read under the caller's lock")
     if in_caller_transaction:
         if not transaction.get_connection().in_atomic_block:
             raise RuntimeError("meter_reading_record(in_caller_transaction=True) needs the caller's transaction")
-        return _meter_reading_record(**kwargs, lock=not unit_locked)
+        return _meter_reading_record(**kwargs, lock=not unit_locked, neighbours=neighbours)
     if unit_locked:
         raise RuntimeError("meter_reading_record(unit_locked=True) needs in_caller_transaction=True")
     with transaction.atomic():
@@ -234,6 +246,7 @@ def _meter_reading_record(
     is_reset: bool,
     by: User | None,
     lock: bool = True,
+    neighbours: Neighbours | None = None,
 ) -> MeterReading:
     try:
         hours = float(hours)
@@ -265,7 +278,9 @@ def _meter_reading_record(
     # building and site rows too, for the rest of the caller's transaction, and compile two joins for each reading.
     if lock:
         list(AHU.objects.select_for_update().filter(pk=ahu.pk).order_by().values_list("pk"))
-    meter_reading_check(ahu=ahu, hours=hours, taken_at=taken_at, component=component, is_reset=is_reset)
+    meter_reading_check(
+        ahu=ahu, hours=hours, taken_at=taken_at, component=component, is_reset=is_reset, neighbours=neighbours
+    )
     reading = MeterReading(
         ahu=ahu,
         component=component,

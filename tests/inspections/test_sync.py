@@ -345,3 +345,24 @@ def test_fan_proving_checklist_warns_that_fans_start_without_warning(api_client,
     [template] = [t for t in doc["templates"] if t["code"] == "fan_proving"]
     assert any("start and stop" in c and "lock out and tag out" in c for c in template["cautions"])
     assert any("Local codes" in c for c in doc["cautions"] + template["cautions"])
+
+
+@pytest.mark.django_db
+def test_two_forms_for_one_unit_in_one_request_each_judge_the_meter_as_the_form_before_left_it(api_client):
+    """Two visits of one unit sent together: the second form's run-hour value is judged against the reading the
+    first form stored a moment before in the same request (the meter is read once per form, under the request's
+    lock of the unit), so a value below it is kept and flagged, not recorded as if the first were not there."""
+    import datetime as dt
+
+    from tests.factories.inspections import FINISHED
+
+    first, tech = make_visit(tasks=["filter_check"])
+    second, _ = make_visit(tasks=["filter_check"], ahu=first.ahu, organisation=first.organisation, technician=tech)
+    later = FINISHED + dt.timedelta(hours=3)
+    forms = [complete_filter_form(first), complete_filter_form(second, finished_at=later)]
+    forms[1]["readings"][0] = r("visit.run_hours", 1100)  # below the 1,200 h the first form reads
+    one, two = post(api_client, tech, forms)
+    assert one["status"] == "stored", one
+    assert two["status"] == "flagged" and [f["code"] for f in two["flags"]] == ["meter_reading_refused"], two
+    assert "below the previous reading of 1,200 h" in two["flags"][0]["reason"], two["flags"]
+    assert list(MeterReading.objects.filter(ahu=first.ahu).values_list("hours", flat=True)) == [1200]

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import datetime as dt
 import zoneinfo
+from collections.abc import Iterable
 from typing import Any
 
 from django.db import IntegrityError, transaction
@@ -15,7 +16,7 @@ from engineering.controls import Verdict
 
 from ... import reasons as rs
 from ...evaluation import Result
-from ...models import Amendment, Evaluation, Finding, Inspection
+from ...models import Amendment, ChecklistTemplate, Evaluation, Finding, Inspection
 from .closing import banks_replaced, findings_resolve
 from .corrective import corrective_for_group, proposal_withdraw_for_design_review
 from .problems import (
@@ -171,12 +172,14 @@ def findings_open(
     by: User | None,
     amendment: Amendment | None = None,
     opened_at: dt.datetime | None = None,
+    templates: Iterable[ChecklistTemplate] = (),
 ) -> list[Finding]:
     """The findings a form's failed evaluations observe, each once, in order; corrective work proposed for them.
 
     A failure updates the open finding of the same unit, part and problem (last seen, times seen, latest
     values) or, when there is none, opens one first seen now. With ``amendment`` the observation points to it
-    and is made at ``opened_at`` (the amendment's time).
+    and is made at ``opened_at`` (the amendment's time). ``templates``: the newest checklist templates as already
+    read with their items (a synced form's checklist): its failed steps are named from them, not read again.
 
     Corrective work: at most one open corrective work order per unit and problem, where every failed step
     of a test that names a scheduling condition is that condition's problem (the failed steps of the freeze
@@ -189,7 +192,9 @@ def findings_open(
     seen_at = opened_at or inspection.finished_at
     by_template = template_conditions()
     pairs = list(zip(evaluations, results, strict=True))
-    labels = step_labels({res.item for ev, res in pairs if ev.verdict == Verdict.FAIL and res.check in STEP_CHECKS})
+    labels = step_labels(
+        {res.item for ev, res in pairs if ev.verdict == Verdict.FAIL and res.check in STEP_CHECKS}, current=templates
+    )
     found: dict[int, Finding] = {}
     needs_work: dict[str, dict[str, Any]] = {}
     replaced = banks_replaced(results=results)

@@ -4,6 +4,7 @@ corrective work's priority. Pure rules over a judgement (one query: the labels o
 from __future__ import annotations
 
 import datetime as dt
+from collections.abc import Iterable
 from typing import Any
 
 from engineering.freeze import daily_minimums_from_normals
@@ -13,7 +14,7 @@ from scheduling.titles import title_fit
 
 from ... import reasons as rs
 from ...evaluation.results import ITEM_CONDITIONS, SEVERITY, Result
-from ...models import Evaluation, Finding
+from ...models import ChecklistTemplate, Evaluation, Finding
 
 FREEZE_LEAD_DAYS = 30
 # A finding's title fits its column (200 characters).
@@ -105,14 +106,20 @@ def problem_of(*, check: str, item: str) -> str:
     return f"{check}:{item}"[:120]
 
 
-def step_labels(items: set[str]) -> dict[str, tuple[str, str]]:
+def step_labels(items: set[str], *, current: Iterable[ChecklistTemplate] = ()) -> dict[str, tuple[str, str]]:
     """{api key: (test title, step label)} of checklist items, each from the latest template version that has it;
-    one query for all the steps of a form."""
+    one query for all the steps of a form, none for those ``current`` holds (the newest versions as already read
+    with their items, e.g. a synced form's checklist, ``templates_current``)."""
     from ...models import ChecklistItem
 
-    if not items:
-        return {}
     out: dict[str, tuple[str, str]] = {}
+    for template in current:
+        for it in template.items.all():
+            if f"{template.code}.{it.key}" in items:
+                out[f"{template.code}.{it.key}"] = (template.title, it.label)
+    items = items - out.keys()
+    if not items:
+        return out
     for code, key, title, label in (
         ChecklistItem.objects.filter(template__code__in={i.partition(".")[0] for i in items})
         .order_by("template__version")
