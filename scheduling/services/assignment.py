@@ -17,7 +17,12 @@ from inventory.today import today_for
 
 from ..models import WorkOrder
 from ..selectors import AssignmentCheck, assignment_check
-from .work_orders import work_order_assign, work_order_schedule
+from .work_orders import (
+    work_order_assign_locked,
+    work_order_copy_back,
+    work_order_locked,
+    work_order_schedule_locked,
+)
 
 
 class OverCapacity(Exception):
@@ -53,7 +58,11 @@ def work_order_assign_and_plan(
         if check.over and not confirm_over_capacity:
             raise OverCapacity(check)
     with transaction.atomic():
-        work_order_assign(work_order=work_order, assignee=assignee, by=by, expected_version=expected_version)
+        # One locked read of the row for both changes; the caller's instance is brought up to date only once both
+        # are saved (a refused day leaves it, as the database, unassigned).
+        wo = work_order_locked(work_order, expected_version)
+        work_order_assign_locked(work_order=wo, assignee=assignee, by=by)
         if plan:
-            work_order_schedule(work_order=work_order, day=day, by=by)
+            work_order_schedule_locked(work_order=wo, day=day, by=by)
+        work_order_copy_back(work_order, wo)
     return check

@@ -192,6 +192,15 @@ def work_order_assign(
 ) -> WorkOrder:
     """Assign or reassign to a technician of the organisation."""
     wo = work_order_locked(work_order, expected_version)
+    work_order_assign_locked(work_order=wo, assignee=assignee, by=by)
+    work_order_copy_back(work_order, wo)
+    return wo
+
+
+def work_order_assign_locked(*, work_order: WorkOrder, assignee: User, by: User | None) -> None:
+    """``work_order_assign`` on a row the caller has locked (``work_order_locked``) in its open transaction:
+    every refusal is raised before the row is written."""
+    wo = work_order
     if wo.state not in WorkOrder.OPEN_STATES:
         raise WorkOrderTransitionError(work_order=wo, to_state=State.ASSIGNED)
     if wo.approval in {WorkOrder.Approval.PENDING, WorkOrder.Approval.REJECTED}:
@@ -201,8 +210,6 @@ def work_order_assign(
     wo.assignee = assignee
     wo.state = State.ASSIGNED  # a reassigned visit in progress starts again with the new technician
     work_order_save(wo, ["assignee", "state"], by=by, action="assign", changes={"from": before, "to": assignee.pk})
-    work_order_copy_back(work_order, wo)
-    return wo
 
 
 def work_order_plan_words(*, work_order: WorkOrder, today: dt.date) -> str:
@@ -228,6 +235,15 @@ def work_order_schedule(
     Planning it for the day it already has changes nothing (no new version).
     """
     wo = work_order_locked(work_order, expected_version)
+    work_order_schedule_locked(work_order=wo, day=day, by=by)
+    work_order_copy_back(work_order, wo)
+    return wo
+
+
+def work_order_schedule_locked(*, work_order: WorkOrder, day: dt.date | None, by: User | None) -> None:
+    """``work_order_schedule`` on a row the caller has locked (``work_order_locked``, its unit's site read with it)
+    in its open transaction: every refusal is raised before the row is written."""
+    wo = work_order
     if wo.state not in WorkOrder.OPEN_STATES:
         raise ValidationError(
             {
@@ -260,8 +276,7 @@ def work_order_schedule(
                 }
             )
     if day == wo.scheduled_for:
-        work_order_copy_back(work_order, wo)
-        return wo
+        return
     before = wo.scheduled_for
     wo.scheduled_for = day
     work_order_save(
@@ -271,8 +286,6 @@ def work_order_schedule(
         action="schedule",
         changes={"from": before.isoformat() if before else None, "to": day.isoformat() if day else None},
     )
-    work_order_copy_back(work_order, wo)
-    return wo
 
 
 def work_order_unassign(*, work_order: WorkOrder, by: User | None, expected_version: int | None = None) -> WorkOrder:

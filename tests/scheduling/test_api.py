@@ -10,6 +10,7 @@ from icalendar import Calendar
 from scheduling.engine import work_orders_generate
 from scheduling.models import WorkOrder
 from scheduling.services import calendar_feed_issue, calendar_feed_revoke, work_order_assign
+from tests.conftest import TEST_NOW
 from tests.factories.inventory import make_full_unit
 from tests.factories.scheduling import make_supervisor, make_technician
 
@@ -202,3 +203,34 @@ def test_meter_and_schedule_refusals_name_the_value(api_client, world):
     assert response.status_code == 400
     message = response.json()["errors"]["scheduled_for"][0]
     assert "2026-02-30" in message and "YYYY-MM-DD" in message, message
+
+
+def test_assign_and_plan_reads_and_locks_the_work_order_once(api_client, world, clock):
+    """Assigning a technician and planning the day in one request (the board's row form and this route share
+    ``work_order_assign_and_plan``) reads the work order's row under its lock once for both changes: both are
+    saved, each with its version and audit event, and a refused day leaves it unassigned."""
+    wo = WorkOrder.objects.filter(ahu=world["ahu"], state=WorkOrder.State.PLANNED).first()
+    api_client.force_authenticate(world["sup"])
+    url = f"/api/scheduling/work-orders/{wo.public_id}/assign/"
+    day = TEST_NOW.date() + dt.timedelta(days=2)  # the controlled clock's today, every site's
+    refused = api_client.post(
+        url, {"assignee": world["tech"].username, "version": wo.version, "scheduled_for": "2000-01-03"}, format="json"
+    )
+    assert refused.status_code == 400 and "scheduled_for" in refused.json()["errors"], refused.json()
+    wo.refresh_from_db()
+    assert (wo.state, wo.assignee_id, wo.version) == (WorkOrder.State.PLANNED, None, 1)
+    body = {"assignee": world["tech"].username, "version": wo.version, "scheduled_for": day.isoformat()}
+    with CaptureQueriesContext(connection) as seen:
+        answer = api_client.post(url, {**body, "confirm_over_capacity": True}, format="json")
+    assert answer.status_code == 200, answer.json()
+    assert (answer.json()["state"], answer.json()["version"]) == ("assigned", 3)
+    wo.refresh_from_db()
+    assert (wo.assignee_id, wo.scheduled_for) == (world["tech"].pk, day)
+    # The route reads it by its public id (access, then the answer); the service by its row id, under the lock.
+    by_row = [
+        q["sql"]
+        for q in seen.captured_queries
+        if q["sql"].startswith('SELECT "scheduling_workorder"."id"')
+        and 'WHERE "scheduling_workorder"."id" = ' in q["sql"]
+    ]
+    assert len(by_row) == 1, by_row
