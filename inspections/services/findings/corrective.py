@@ -31,6 +31,8 @@ def proposals_withdraw_resolved(*, findings: list[Finding], by: User | None) -> 
     from scheduling.services import work_order_cancel
 
     ids = {f.corrective_work_order_id for f in findings if f.corrective_work_order_id is not None}
+    if not ids:  # most visits close nothing: no query built for none
+        return
     for wo in WorkOrder.objects.select_for_update().filter(pk__in=ids).order_by("pk"):
         if wo.approval != WorkOrder.Approval.PENDING or wo.state not in WorkOrder.OPEN_STATES:
             continue
