@@ -1,15 +1,17 @@
-"""Whole API answers cached in the worker process, valid while the person's organisations keep their version.
+"""Whole API answers cached in the worker process, valid while the versions they depend on stay.
 
 A polled read (a technician's today, a supervisor's board) is asked for again and again while
 nothing changes. Its JSON bytes are kept per process under (view, person, parameters, versions), where
-versions are those of the person's organisations; a service that changes what an answer depends on
-moves its organisation's version in its own transaction (``accounts.changes.organisation_changed``),
-so the next request of that organisation's people builds the answer afresh, and another
-organisation's answers stay kept.
+versions are the part of the person's versions (``accounts.changes``) its :class:`Polled` scope names: a
+technician's today depends on their organisations' versions and on their own work's version, a board on
+the organisations' versions and their work versions. A service that changes what an answer depends on
+moves the matching version in its own transaction (``organisation_changed`` for what everyone's answers
+show, ``work_changed`` for work orders, naming the people whose own work changed), so the next request
+builds the answer afresh, while another organisation's answers, and another technician's today, stay kept.
 
 ``answer_fast_path`` puts a check in front of the DRF view: a GET with a token whose answer is
 already kept is answered from memory with the bytes and headers the view gave the first time, at
-the cost of one query (the token, its person being active and their organisations' versions). Anything
+the cost of one query (the token, its person being active and their versions). Anything
 else (no token, a new parameter, a bad one, another media type) goes to the view as usual, which builds,
 keeps and answers. Every answer carries an ETag of its bytes; a GET with that ETag in If-None-Match
 gets 304 with no body.
@@ -43,12 +45,21 @@ from django.utils.cache import get_conditional_response
 from rest_framework.authentication import TokenAuthentication, get_authorization_header
 from rest_framework.renderers import JSONRenderer
 
-from .changes import Versions, token_versions, versions_of
+from .changes import Scope, Versions, token_versions, versions_of
 
 _ATTR = "_plenum_answer_versions"
 TOKEN_ENTRY_BYTES = 1_000  # what a kept token or small value counts against the byte limit
 JSON = "application/json"
 PLAIN_JSON_ACCEPTS = frozenset({"", "*/*", JSON})  # what DRF answers with JSONRenderer as application/json
+
+
+@dataclass(frozen=True, slots=True)
+class Polled:
+    """A polled read kept here: its name in the keys, and what its answer depends on. The view's
+    ``json_answer`` and its URL's ``answer_fast_path`` are given the same one, so both use the same key."""
+
+    view: str
+    scope: Scope
 
 
 @dataclass(slots=True)
@@ -114,7 +125,8 @@ def _cache_usable() -> bool:
 
 def versions_for(request) -> Versions | None:
     """The versions this request is answered under (read once per request, for its authenticated person),
-    or None when the cache may not be used: turned off, inside a transaction, or nobody signed in."""
+    or None when the cache may not be used: turned off, inside a transaction, nobody signed in, or a person
+    of no organisation."""
     raw = getattr(request, "_request", request)  # DRF's Request wraps Django's
     if hasattr(raw, _ATTR):
         return getattr(raw, _ATTR)
@@ -127,11 +139,12 @@ def versions_for(request) -> Versions | None:
 
 
 def kept(request, key: tuple, build: Callable[[], object]):
-    """A small value the answers depend on (a person's time zone…), kept under the request's versions like them."""
+    """A small value the answers depend on (a person's time zone…), kept under the request's organisations'
+    versions (``Scope.ORGANISATIONS``: it must not depend on work orders)."""
     versions = versions_for(request)
     if versions is None:
         return build()
-    cache_key = ("value", key, versions)
+    cache_key = ("value", key, versions.key(Scope.ORGANISATIONS))
     found = _store.get(cache_key)
     if found is None:
         found = (build(),)
@@ -139,10 +152,10 @@ def kept(request, key: tuple, build: Callable[[], object]):
     return found[0]
 
 
-def json_answer(request, *, view: str, key: tuple, build: Callable[[], object]) -> HttpResponse | None:
-    """The JSON answer of ``view`` for the request's person and ``key`` (every parameter the answer
-    depends on), from the cache while the person's organisations keep their versions, else built by
-    ``build()`` and kept (with the person, for ``answer_fast_path``).
+def json_answer(request, *, polled: Polled, key: tuple, build: Callable[[], object]) -> HttpResponse | None:
+    """The JSON answer of ``polled`` for the request's person and ``key`` (every parameter the answer
+    depends on), from the cache while the versions of its scope stay, else built by ``build()`` and kept
+    (with the person, for ``answer_fast_path``).
 
     Returns None when the request did not negotiate plain JSON (the browsable API): the caller answers
     it the ordinary way. The response carries an ETag of its bytes, so a conditional GET gets 304.
@@ -151,14 +164,15 @@ def json_answer(request, *, view: str, key: tuple, build: Callable[[], object]) 
     if type(renderer) is not JSONRenderer:
         return None
     versions = versions_for(request)
-    cache_key = ("answer", view, request.user.pk, request.accepted_media_type, key, versions)
+    scoped = versions.key(polled.scope) if versions is not None else None
+    cache_key = ("answer", polled.view, request.user.pk, request.accepted_media_type, key, scoped)
     entry = _store.get(cache_key) if versions is not None else None
     if entry is None:
         body = renderer.render(build(), request.accepted_media_type, {"request": request})
         entry = _Answer(body, f'"{hashlib.md5(body, usedforsecurity=False).hexdigest()}"')
         if versions is not None:
             _store.put(cache_key, entry)
-            person_key = ("person", request.user.pk, versions)
+            person_key = ("person", request.user.pk, versions.key(Scope.ORGANISATIONS))
             if _store.get(person_key) is None:
                 _store.put(person_key, (copy.copy(request.user),))
     response = HttpResponse(entry.body, content_type=renderer.media_type)
@@ -184,7 +198,7 @@ def _token_key(request) -> str | None:
         return None
 
 
-def _kept_answer(request, *, view: str, key_of: Callable) -> HttpResponse | None:
+def _kept_answer(request, *, polled: Polled, key_of: Callable) -> HttpResponse | None:
     if request.method != "GET" or request.META.get("HTTP_ACCEPT", "").strip() not in PLAIN_JSON_ACCEPTS:
         return None
     token_key = _token_key(request)
@@ -195,14 +209,14 @@ def _kept_answer(request, *, view: str, key_of: Callable) -> HttpResponse | None
         return None  # the view refuses the token (401) or answers someone of no organisation
     person_id, versions = found
     setattr(request, _ATTR, versions)  # what key_of's kept values (and the view, if it answers) go by
-    person = _store.get(("person", person_id, versions))
+    person = _store.get(("person", person_id, versions.key(Scope.ORGANISATIONS)))
     if person is None:
         return None
     try:
         key = key_of(request, person[0])
     except (ValidationError, ValueError):
         return None  # the view answers 400 with the field's message
-    entry = _store.get(("answer", view, person_id, JSON, key, versions))
+    entry = _store.get(("answer", polled.view, person_id, JSON, key, versions.key(polled.scope)))
     if entry is None or entry.headers is None:
         return None
     response = HttpResponse(entry.body)
@@ -211,13 +225,13 @@ def _kept_answer(request, *, view: str, key_of: Callable) -> HttpResponse | None
     return get_conditional_response(request, etag=entry.etag, response=response)
 
 
-def answer_fast_path(view_func, *, view: str, key_of: Callable):
-    """``view_func`` (a DRF view using :func:`json_answer` under the name ``view``) behind the kept-answer
+def answer_fast_path(view_func, *, polled: Polled, key_of: Callable):
+    """``view_func`` (a DRF view using :func:`json_answer` with the same ``polled``) behind the kept-answer
     check. ``key_of(request, person)`` must be the view's own parameter reading, so both agree on the key."""
 
     @functools.wraps(view_func)  # keeps DRF's .cls and csrf_exempt, which the schema and CSRF read
     def wrapped(request, *args, **kwargs):
-        response = _kept_answer(request, view=view, key_of=key_of)
+        response = _kept_answer(request, polled=polled, key_of=key_of)
         if response is not None:
             return response
         response = view_func(request, *args, **kwargs)

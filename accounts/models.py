@@ -24,8 +24,14 @@ class Organisation(models.Model):
     answers_version = models.BigIntegerField(
         default=0,
         editable=False,
-        help_text="Moves when the organisation's data changes, so kept API answers know they are stale "
-        "(accounts.changes).",
+        help_text="Moves when what every answer of its people shows changes (the registry, people, task rules, "
+        "generation), so every kept API answer of theirs knows it is stale (accounts.changes).",
+    )
+    work_version = models.BigIntegerField(
+        default=0,
+        editable=False,
+        help_text="Moves when any of its work changes (work orders and their tasks, inspections, findings): "
+        "its kept boards are stale (accounts.changes).",
     )
 
     class Meta:
@@ -54,6 +60,12 @@ class User(AbstractUser):
         max_digits=4, decimal_places=1, default=7.5, help_text="Hours of field work a day, for load balancing."
     )
     skills = models.JSONField(default=list, blank=True, help_text="Skill codes, e.g. ['mechanical', 'electrical'].")
+    work_version = models.BigIntegerField(
+        default=0,
+        editable=False,
+        help_text="Moves when a work order assigned to the person (before or after the change) changes: their "
+        "kept today answer is stale (accounts.changes).",
+    )
 
     class Meta:
         ordering = ["username"]

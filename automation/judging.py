@@ -196,7 +196,7 @@ def unit_day_judged(
     ``unit_day_trends`` gives it and what ``rules_judge`` found in it, when the caller judged many units' days at
     once (both from ``reads``); else made here. ``careful`` False (the caller's fast pass, in its savepoint): a
     meter's first day without a savepoint of its own (``feeds.run_hours_feed``)."""
-    from accounts.changes import organisation_changed
+    from accounts.changes import work_changed
 
     if trends is None:
         points = unit_points(ahu, points)
@@ -251,7 +251,8 @@ def unit_day_judged(
         day=day, end=end, judged=judged, present={s.code for s in seen}, open_faults=open_faults, by=by
     )
     if seen or out.closed:
-        organisation_changed(organisation_id=ahu.building.site.organisation_id)
+        # Faults opened or closed; corrective work they proposed or withdrew moved its own versions (services).
+        work_changed(organisation_id=ahu.building.site.organisation_id)
     return out
 
 

@@ -27,7 +27,9 @@ from inventory.selectors import ahus_visible_to, sites_visible_to
 from . import serializers as s
 from .api_answers import over_capacity_answer, revalidated, work_order_answer
 from .api_requests import (
+    BOARD,
     CONDITIONAL,
+    TODAY,
     board_params,
     caller_organisation,
     today_params,
@@ -218,9 +220,10 @@ class WorkOrderReject(WorkOrderChangeView):
         return work_order_answer(request, public_id)
 
 
-# Both polled reads are whole answers from accounts.answers: built once per change of the organisation's data
-# (accounts.changes), then served from the worker's memory (a token client's repeat costs one query, before DRF
-# is entered).
+# Both polled reads are whole answers from accounts.answers: built once per change of what they depend on
+# (accounts.changes: today, the organisation's setup and the technician's own work; the board, the organisation's
+# setup and all its work), then served from the worker's memory (a token client's repeat costs one query,
+# before DRF is entered).
 # The ETag is a hash of the answer's bytes, so it is right whatever changed (a work order, a site's name, a
 # task's estimate).
 
@@ -243,7 +246,7 @@ class TodayVisits(APIView):
         def build():
             return today_visits_for(technician=request.user, day=day, start=start)
 
-        answer = json_answer(request, view="today", key=key, build=build)
+        answer = json_answer(request, polled=TODAY, key=key, build=build)
         return revalidated(answer or Response(build()))
 
 
@@ -281,7 +284,7 @@ class Board(APIView):
                 "to_verify": to_verify_rows(organisation=org),
             }
 
-        answer = json_answer(request, view="board", key=key, build=build)
+        answer = json_answer(request, polled=BOARD, key=key, build=build)
         return revalidated(answer or Response(build()))
 
 

@@ -12,7 +12,8 @@ from django.http import HttpRequest
 from drf_spectacular.utils import OpenApiParameter
 from rest_framework.exceptions import PermissionDenied
 
-from accounts.answers import kept
+from accounts.answers import Polled, kept
+from accounts.changes import Scope
 from accounts.inputs import FieldErrors, check_number, date_problem
 from accounts.models import Membership, Role, User
 from accounts.selectors import MANAGING_ROLES
@@ -41,6 +42,12 @@ def work_order_managed(request, public_id, *, action: str) -> WorkOrder:
     except DjangoPermissionDenied:
         raise PermissionDenied(f"Only a supervisor or admin of the organisation may {action}.") from None
 
+
+# The polled reads kept by accounts.answers, each with what its answer depends on (accounts.changes.Scope): a
+# technician's today shows their own work orders only, so another's synced form or visit leaves it kept; the
+# board shows every work order of the organisation.
+TODAY = Polled("today", Scope.OWN_WORK)
+BOARD = Polled("board", Scope.ORGANISATION_WORK)
 
 CONDITIONAL = [
     OpenApiParameter(

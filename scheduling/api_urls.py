@@ -3,7 +3,7 @@ from django.urls import path
 from accounts.answers import answer_fast_path
 
 from . import api
-from .api_requests import board_params, today_params
+from .api_requests import BOARD, TODAY, board_params, today_params
 
 app_name = "scheduling_api"
 urlpatterns = [
@@ -16,10 +16,10 @@ urlpatterns = [
     path("work-orders/<uuid:public_id>/reject/", api.WorkOrderReject.as_view(), name="work-order-reject"),
     path(
         "today/",
-        answer_fast_path(api.TodayVisits.as_view(), view="today", key_of=today_params),
+        answer_fast_path(api.TodayVisits.as_view(), polled=TODAY, key_of=today_params),
         name="today",
     ),
-    path("board/", answer_fast_path(api.Board.as_view(), view="board", key_of=board_params), name="board"),
+    path("board/", answer_fast_path(api.Board.as_view(), polled=BOARD, key_of=board_params), name="board"),
     path("tasks/", api.TaskList.as_view(), name="tasks"),
     path("tasks/<slug:code>/", api.TaskOverride.as_view(), name="task"),
     path("meter-readings/", api.MeterReadings.as_view(), name="meter-readings"),

@@ -8,7 +8,7 @@ from django.core.exceptions import PermissionDenied, ValidationError
 from django.db import transaction
 from django.utils import timezone
 
-from accounts.changes import organisation_changed
+from accounts.changes import work_changed
 from accounts.inputs import text_problem
 from accounts.models import User
 from accounts.services import audit_record
@@ -151,7 +151,8 @@ def inspection_amend(
             "cleared_findings": [f.pk for f in cleared],
         },
     )
-    organisation_changed(organisation_id=inspection.organisation_id)  # findings and corrective work moved
+    # Findings moved; the corrective work they opened or withdrew moved its assignees' versions itself.
+    work_changed(organisation_id=inspection.organisation_id)
     return amendment
 
 
@@ -209,7 +210,7 @@ def inspection_verify(*, inspection: Inspection, by: User | None) -> Inspection:
     if inspection.work_order.state == "completed":
         work_order_verify(work_order=inspection.work_order, by=by)
     audit_record(actor=by, obj=inspection, action="inspection_verify", organisation=inspection.organisation)
-    organisation_changed(organisation_id=inspection.organisation_id)  # the board's "to verify"
+    work_changed(organisation_id=inspection.organisation_id)  # the board's "to verify" (the work order moved above)
     return inspection
 
 
@@ -238,5 +239,5 @@ def flagged_form_resolve(*, inspection: Inspection, by: User | None, note: str) 
         organisation=inspection.organisation,
         changes={"flags": [f["code"] for f in inspection.flags], "note": inspection.flag_resolution_note},
     )
-    organisation_changed(organisation_id=inspection.organisation_id)
+    work_changed(organisation_id=inspection.organisation_id)
     return inspection

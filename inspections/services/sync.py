@@ -24,7 +24,7 @@ from django.core.files.base import ContentFile
 from django.db import DatabaseError, DataError, IntegrityError, transaction
 from django.db.models.fields.files import FieldFile
 
-from accounts.changes import changes_deferred, organisation_changed
+from accounts.changes import changes_deferred, work_changed
 from accounts.models import User
 from accounts.services import audit_record, audits_deferred
 from engineering.controls import Verdict
@@ -332,7 +332,8 @@ def _store(parsed: Parsed, user: User, results: list[evaluation.Result], batch: 
                     "findings": [f.pk for f in found],
                 },
             )
-            organisation_changed(organisation_id=wo.organisation_id)  # today, the board and its "to verify"
+            # The board and its "to verify"; the today of the work order's technician and of the one who sent it.
+            work_changed(organisation_id=wo.organisation_id, people=[wo.assignee_id, user.pk])
         if batch is not None:
             batch.written += written
         return result

@@ -10,7 +10,7 @@ import datetime as dt
 from django.core.exceptions import ValidationError
 from django.db import transaction
 
-from accounts.changes import organisation_changed
+from accounts.changes import work_changed
 from accounts.inputs import text_problem
 from accounts.models import User
 from accounts.services import audit_record
@@ -119,7 +119,7 @@ def corrective_work_order_propose(
         },
         organisation=organisation,
     )
-    organisation_changed(organisation_id=organisation.pk)
+    work_changed(organisation_id=organisation.pk, people=[wo.assignee_id])  # made without an assignee
     if approved and priority == WorkOrder.Priority.URGENT:
         email_supervisors_on_commit(
             organisation.pk,

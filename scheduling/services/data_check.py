@@ -22,6 +22,7 @@ from django.db import connection, models, transaction
 from django.db.models import Q
 from django.utils import timezone
 
+from accounts.changes import work_changed
 from accounts.inputs import EARLIEST_DATE, date_problem, reading_time_problem
 from accounts.services import audit_record
 from inventory.inputs import AHU_DATES, AHU_NUMBERS, ahu_problems, component_date_problems
@@ -154,6 +155,7 @@ def _check_visits(out: DataCheckResult, *, repair: bool, day_of: DayOf, earliest
                 actor=None, obj=wo, action="data_repair", changes={"cleared": {"scheduled_for": was}},
                 organisation=wo.organisation,
             )  # fmt: skip
+            work_changed(organisation_id=wo.organisation_id, people=[wo.assignee_id])  # the board and today show it
             out.repaired.append(f"{name}: planned day {was} cleared (plan it again)")
 
 

@@ -9,7 +9,7 @@ from django.conf import settings
 from django.core.mail import send_mail
 from django.db import transaction
 
-from accounts.changes import organisation_changed
+from accounts.changes import work_changed
 from accounts.models import Membership, Organisation
 from accounts.selectors import MANAGING_ROLES
 
@@ -57,7 +57,7 @@ def overdue_escalation_send(*, organisation: Organisation, today: dt.date, repea
         for wo in orders
     ]
     WorkOrder.objects.filter(pk__in=[wo.pk for wo in orders]).update(escalated_on=today)
-    organisation_changed(organisation_id=organisation.pk)
+    work_changed(organisation_id=organisation.pk, people=[wo.assignee_id for wo in orders])
     email_supervisors_on_commit(
         organisation.pk,
         f"{len(orders)} overdue work order{'' if len(orders) == 1 else 's'}",

@@ -13,7 +13,7 @@ from django.db import transaction
 from django.db.models import Q
 from django.utils import timezone
 
-from accounts.changes import organisation_changed
+from accounts.changes import organisation_changed, work_changed
 from accounts.clock import local_date_of, local_time_text
 from accounts.inputs import PLAN_YEARS_AHEAD, FieldErrors, check_text, latest_plan_date
 from accounts.models import User
@@ -244,7 +244,10 @@ def work_order_create(
         },
         organisation=organisation,
     )
-    organisation_changed(organisation_id=organisation.pk)
+    if one_off:
+        organisation_changed(organisation_id=organisation.pk)  # task definitions were written: the broader move
+    else:
+        work_changed(organisation_id=organisation.pk, people=[wo.assignee_id])
     return wo
 
 

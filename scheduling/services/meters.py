@@ -14,7 +14,6 @@ from django.db import connections, transaction
 from django.utils import timezone
 from django.utils.dateparse import parse_datetime
 
-from accounts.changes import organisation_changed
 from accounts.inputs import EARLIEST_DATE, in_zone, local_text, reading_time_problem, shown, text_problem
 from accounts.models import Organisation, User
 from inventory.models import AHU, Component
@@ -291,7 +290,9 @@ def _meter_reading_record(
         recorded_by=by if getattr(by, "is_authenticated", False) else None,
     )
     reading.save()
-    organisation_changed(organisation_id=ahu.building.site.organisation_id)  # run-hour tasks project from it
+    # No answer version moves: no polled answer reads meter readings (today and the board show work orders, their
+    # tasks, the registry and the technicians). Run-hour tasks project from readings only when work orders are
+    # generated, and generation moves the organisation's version (scheduling.engine).
     return reading
 
 

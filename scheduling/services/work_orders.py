@@ -14,7 +14,7 @@ from django.core.exceptions import ValidationError
 from django.db import transaction
 from django.utils import timezone
 
-from accounts.changes import organisation_changed
+from accounts.changes import work_changed
 from accounts.clock import day_text, local_date_of
 from accounts.inputs import PLAN_YEARS_AHEAD, latest_plan_date
 from accounts.models import Membership, Role, User
@@ -68,15 +68,26 @@ def work_order_locked(work_order: WorkOrder, expected_version: int | None) -> Wo
 
 
 def work_order_save(
-    wo: WorkOrder, fields: list[str], *, by: User | None, action: str, changes: dict[str, Any], write: bool = True
+    wo: WorkOrder,
+    fields: list[str],
+    *,
+    by: User | None,
+    action: str,
+    changes: dict[str, Any],
+    write: bool = True,
+    assignee_before: int | None = None,
 ) -> WorkOrder:
-    """One move's version, audit event and answer version; ``write=False`` leaves the row's UPDATE to a later
-    move of the same call (``work_order_complete_locked``), which writes every field the moves changed."""
+    """One move's version, audit event and answer versions; ``write=False`` leaves the row's UPDATE to a later
+    move of the same call (``work_order_complete_locked``), which writes every field the moves changed.
+
+    ``assignee_before``: the assignee's id as the row was locked, when this move changes the assignee (assigned
+    to another, unassigned): their today loses the work order, as the new assignee's gains it."""
     wo.version += 1
     if write:
         wo.save(update_fields=[*fields, "version", "updated_at"])
     audit_record(actor=by, obj=wo, action=action, changes=changes, organisation_id=wo.organisation_id)
-    organisation_changed(organisation_id=wo.organisation_id)  # today and the board show this work order
+    # The board shows this work order, and the today of whoever it is (or was) assigned to.
+    work_changed(organisation_id=wo.organisation_id, people=[assignee_before, wo.assignee_id])
     return wo
 
 
@@ -146,7 +157,7 @@ def _transition(
     so an unwritten intermediate move (assigned → in progress, then completed) is written with the last."""
     _move(wo, to_state)
     now = at or timezone.now()
-    before = wo.state
+    before, assignee_before = wo.state, wo.assignee_id
     fields = [*(fields or []), "state"]
     wo.state = to_state
     if to_state == State.ASSIGNED:
@@ -174,7 +185,13 @@ def _transition(
         wo.tasks.update(completed_at=None)
     fields = list(dict.fromkeys(fields))
     work_order_save(
-        wo, fields, by=by, action="transition", changes={"from": before, "to": to_state, "reason": reason}, write=write
+        wo,
+        fields,
+        by=by,
+        action="transition",
+        changes={"from": before, "to": to_state, "reason": reason},
+        write=write,
+        assignee_before=assignee_before,
     )
     work_order_moved.send(sender=WorkOrder, work_order=wo, before=before, by=by)
     return fields
@@ -209,7 +226,14 @@ def work_order_assign_locked(*, work_order: WorkOrder, assignee: User, by: User 
     before = wo.assignee_id
     wo.assignee = assignee
     wo.state = State.ASSIGNED  # a reassigned visit in progress starts again with the new technician
-    work_order_save(wo, ["assignee", "state"], by=by, action="assign", changes={"from": before, "to": assignee.pk})
+    work_order_save(
+        wo,
+        ["assignee", "state"],
+        by=by,
+        action="assign",
+        changes={"from": before, "to": assignee.pk},
+        assignee_before=before,
+    )
 
 
 def work_order_plan_words(*, work_order: WorkOrder, today: dt.date) -> str:

@@ -118,23 +118,30 @@ def test_a_batch_costs_a_fixed_number_of_queries_plus_a_small_constant_per_form(
 
 def test_the_organisation_version_moves_once_per_sync_request():
     """A request of three forms (each stores an inspection, a meter reading and completes its work order, each
-    of which changes what today and the board show) moves the organisation's answer version exactly once, in
-    the request's transaction, not once per write."""
-    from accounts.models import Organisation
+    of which changes what today and the board show) moves the organisation's work version and the technician's
+    own exactly once each, in the request's transaction, not once per write; the organisation's version (what
+    every answer shows) stays, so the other technicians' today stays kept."""
+    from accounts.models import Organisation, User
 
     org, tech, forms = _batch(3)
-    before = Organisation.objects.get(pk=org.pk).answers_version
+
+    def versions():
+        o = Organisation.objects.get(pk=org.pk)
+        return o.answers_version, o.work_version, User.objects.get(pk=tech.pk).work_version
+
+    def bumps(seen):
+        return [q["sql"] for q in seen.captured_queries if "_version" in q["sql"] and q["sql"].startswith("UPDATE")]
+
+    before = versions()
     with CaptureQueriesContext(connection) as seen:
         results = inspection_sync(user=tech, forms=forms)
     assert [res["status"] for res in results] == ["stored"] * 3, results
-    bumps = [q["sql"] for q in seen.captured_queries if "answers_version" in q["sql"] and "UPDATE" in q["sql"]]
-    assert len(bumps) == 1, bumps
-    assert Organisation.objects.get(pk=org.pk).answers_version == before + 1
-    # The same request replayed: every form a duplicate, nothing written, the version left alone.
+    assert len(bumps(seen)) == 2, bumps(seen)  # the organisation's work, the technician's own
+    assert versions() == (before[0], before[1] + 1, before[2] + 1)
+    # The same request replayed: every form a duplicate, nothing written, the versions left alone.
     with CaptureQueriesContext(connection) as seen:
         inspection_sync(user=tech, forms=forms)  # replayed: duplicates, nothing written
-    bumps = [q["sql"] for q in seen.captured_queries if "answers_version" in q["sql"] and "UPDATE" in q["sql"]]
-    assert len(bumps) == 0, bumps
+    assert len(bumps(seen)) == 0, bumps(seen)
 
 
 def test_a_failed_step_is_named_from_the_forms_checklist_without_reading_the_templates_again():

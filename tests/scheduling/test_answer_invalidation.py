@@ -1,6 +1,11 @@
-"""Kept answers go stale by organisation: each service family that changes what today or the board shows moves
-its organisation's version in its own transaction, so that organisation's next poll is built afresh at once,
-and another organisation's kept answers stay kept (one query, same ETag).
+"""Kept answers go stale by what they show: each service family that changes what today or the board shows moves
+the matching version in its own transaction (``accounts.changes``), so the next poll of an answer it concerns is
+built afresh at once, while another organisation's kept answers, and another technician's today, stay kept (one
+query, same ETag).
+
+Each organisation has two technicians with a visit each: ``today`` is the first one's (whose visit the tests
+change), ``other`` the second one's; ``board`` is the supervisor's. After every write each answer that stayed kept
+is checked against one built afresh with the cache emptied: a kept answer is never stale.
 
 These tests commit (``transaction=True``) as the server does. Dates are fixed (``?day=`` and ``?week=`` of the
 visit's day), never today's.
@@ -16,6 +21,7 @@ from django.test.utils import CaptureQueriesContext
 from rest_framework.authtoken.models import Token
 from rest_framework.test import APIClient
 
+from accounts.answers import answer_cache_clear
 from accounts.models import Membership, Role
 from accounts.services import PersonInput, person_deactivate, person_update, site_grants_set
 from inspections.models import Inspection
@@ -46,6 +52,8 @@ pytestmark = pytest.mark.django_db(transaction=True)
 DAY = FINISHED.date()
 TODAY_URL = f"/api/scheduling/today/?day={DAY.isoformat()}"
 BOARD_URL = f"/api/scheduling/board/?week={DAY.isoformat()}"
+ANSWERS = ("today", "other", "board")  # the first technician's today, the second one's, the supervisor's board
+EVERY = ANSWERS  # a write every answer of the organisation depends on (registry, people, rules, generation)
 
 
 def client_for(user) -> APIClient:
@@ -57,15 +65,32 @@ def client_for(user) -> APIClient:
 def _organisation(name: str) -> SimpleNamespace:
     wo, tech = make_visit(tasks=["filter_check"])
     org = wo.organisation
+    other_wo, other = make_visit(tasks=["filter_check"], organisation=org)  # another site, another technician
     sup = make_person(organisation=org, role=Role.SUPERVISOR)
     return SimpleNamespace(
-        name=name, org=org, ahu=wo.ahu, wo=wo, tech=tech, sup=sup, today=client_for(tech), board=client_for(sup)
+        name=name,
+        org=org,
+        ahu=wo.ahu,
+        wo=wo,
+        tech=tech,
+        other_wo=other_wo,
+        other_tech=other,
+        sup=sup,
+        today=client_for(tech),
+        other=client_for(other),
+        board=client_for(sup),
     )
 
 
 @pytest.fixture
 def world():
-    return SimpleNamespace(a=_organisation("a"), b=_organisation("b"))
+    answer_cache_clear()
+    yield SimpleNamespace(a=_organisation("a"), b=_organisation("b"))
+    answer_cache_clear()
+
+
+def _reads(side) -> dict:
+    return {"today": (side.today, TODAY_URL), "other": (side.other, TODAY_URL), "board": (side.board, BOARD_URL)}
 
 
 def poll(client, url):
@@ -80,7 +105,7 @@ def kept_all(world) -> dict:
     """Every answer of both organisations polled twice: the second poll is kept (one query). Their ETags."""
     etags = {}
     for side in (world.a, world.b):
-        for what, client, url in (("today", side.today, TODAY_URL), ("board", side.board, BOARD_URL)):
+        for what, (client, url) in _reads(side).items():
             poll(client, url)
             response, queries = poll(client, url)
             assert queries == 1, f"{side.name}'s {what} is kept"
@@ -88,25 +113,45 @@ def kept_all(world) -> dict:
     return etags
 
 
-def assert_only_a_moved(world, etags, *, changed: tuple[str, ...] = ()) -> dict:
-    """a's answers are built afresh (more than the one query), b's stay kept with the same ETag; the answers
-    named in ``changed`` have a new ETag for a. Returns a's new answers."""
-    fresh = {}
-    for what, client, url in (("today", world.a.today, TODAY_URL), ("board", world.a.board, BOARD_URL)):
+def assert_none_stale(world, served: dict) -> None:
+    """Every answer just served (kept or built) is the one a build from the database gives now."""
+    answer_cache_clear()
+    for side in (world.a, world.b):
+        for what, (client, url) in _reads(side).items():
+            assert client.get(url)["ETag"] == served[side.name, what], f"{side.name}'s kept {what} is not stale"
+
+
+def assert_only_a_moved(world, etags, *, rebuilt: tuple[str, ...], changed: tuple[str, ...] = ()) -> dict:
+    """a's answers named in ``rebuilt`` are built afresh (more than the one query), a's others stay kept (one query,
+    same ETag), and b's all stay kept; the answers named in ``changed`` have a new ETag for a. No answer served is
+    stale. Returns a's new answers."""
+    fresh, served = {}, {}
+    for what, (client, url) in _reads(world.a).items():
         response, queries = poll(client, url)
-        assert queries > 1, f"a's {what} is built again at once"
+        if what in rebuilt:
+            assert queries > 1, f"a's {what} is built again at once"
+        else:
+            assert queries == 1, f"a's {what} stays kept"
+            assert response["ETag"] == etags["a", what]
         if what in changed:
             assert response["ETag"] != etags["a", what], f"a's {what} changed"
         fresh[what] = response.json()
-    for what, client, url in (("today", world.b.today, TODAY_URL), ("board", world.b.board, BOARD_URL)):
+        served["a", what] = response["ETag"]
+    for what, (client, url) in _reads(world.b).items():
         response, queries = poll(client, url)
         assert queries == 1, f"b's {what} stays kept"
         assert response["ETag"] == etags["b", what]
+        served["b", what] = response["ETag"]
+    assert_none_stale(world, served)
     return fresh
 
 
 def today_titles(body) -> list[str]:
     return sorted(w["title"] for v in body for w in v["work_orders"])
+
+
+def today_ids(body) -> set[str]:
+    return {w["id"] for v in body for w in v["work_orders"]}
 
 
 def board_ids(body) -> set[str]:
@@ -118,7 +163,7 @@ def test_assigning_work_shows_on_a_today_at_once_and_not_elsewhere(world):
     etags = kept_all(world)
     extra = WorkOrder.objects.create(organisation=world.a.org, ahu=world.a.ahu, due_date=DAY, title="Belt check")
     work_order_assign(work_order=extra, assignee=world.a.tech, by=world.a.sup)
-    fresh = assert_only_a_moved(world, etags, changed=("today", "board"))
+    fresh = assert_only_a_moved(world, etags, rebuilt=("today", "board"), changed=("today", "board"))
     assert today_titles(fresh["today"]) == ["Belt check", "Quarterly service"]
 
 
@@ -126,18 +171,18 @@ def test_scheduling_and_cancelling_work_move_only_its_organisation(world):
     etags = kept_all(world)
     later = today_for(world.a.ahu.building.site) + dt.timedelta(days=30)  # the service refuses a past day
     work_order_schedule(work_order=world.a.wo, day=later, by=world.a.sup)
-    fresh = assert_only_a_moved(world, etags, changed=("today",))
+    fresh = assert_only_a_moved(world, etags, rebuilt=("today", "board"), changed=("today",))
     assert today_titles(fresh["today"]) == []  # planned for a later day now
     etags = kept_all(world)
     work_order_cancel(work_order=world.a.wo, by=world.a.sup, reason="unit replaced")
-    fresh = assert_only_a_moved(world, etags, changed=("board",))
+    fresh = assert_only_a_moved(world, etags, rebuilt=("today", "board"), changed=("board",))
     assert str(world.a.wo.public_id) not in board_ids(fresh["board"])
 
 
 def test_a_transition_moves_only_its_organisation(world):
     etags = kept_all(world)
     work_order_transition(work_order=world.a.wo, to_state=WorkOrder.State.IN_PROGRESS, by=world.a.tech)
-    assert_only_a_moved(world, etags, changed=("today",))
+    assert_only_a_moved(world, etags, rebuilt=("today", "board"), changed=("today", "board"))
 
 
 def test_corrective_work_proposed_approved_and_rejected(world):
@@ -145,16 +190,17 @@ def test_corrective_work_proposed_approved_and_rejected(world):
     proposed = corrective_work_order_propose(
         ahu=world.a.ahu, title="Replace belt", reason="belt worn", by=world.a.tech, observed_on=DAY
     )
-    assert_only_a_moved(world, etags)
+    # Nobody's own work: the technicians' todays stay kept (and right); the board is built again.
+    assert_only_a_moved(world, etags, rebuilt=("board",))
     etags = kept_all(world)
     corrective_work_order_approve(work_order=proposed, by=world.a.sup)
-    assert_only_a_moved(world, etags)
+    assert_only_a_moved(world, etags, rebuilt=("board",))
     other = corrective_work_order_propose(
         ahu=world.a.ahu, title="Repaint casing", reason="rust", by=world.a.tech, observed_on=DAY
     )
     etags = kept_all(world)
     corrective_work_order_reject(work_order=other, by=world.a.sup, reason="cosmetic only")
-    assert_only_a_moved(world, etags)
+    assert_only_a_moved(world, etags, rebuilt=("board",))
 
 
 def test_made_work_and_call_outs(world):
@@ -171,8 +217,47 @@ def test_made_work_and_call_outs(world):
         assignee=world.a.tech,
         now=due_by - dt.timedelta(hours=4),
     )
-    fresh = assert_only_a_moved(world, etags, changed=("today", "board"))
+    # Its one-off task is a task definition of the organisation: the broader move, every answer built again.
+    fresh = assert_only_a_moved(world, etags, rebuilt=EVERY, changed=("today", "board"))
     assert "Call-out: noisy fan" in today_titles(fresh["today"])
+
+
+# --- one technician's work and another's today -----------------------------------------------------------------
+def test_one_technicians_synced_form_leaves_anothers_today_kept(world):
+    """The first technician sends the finished form of their visit: their today and the board change at once;
+    the second technician's today stays kept (one query, the same ETag) and is still right."""
+    etags = kept_all(world)
+    [result] = inspection_sync(user=world.a.tech, forms=[_complete_form(world.a.wo)])
+    assert result["status"] == "stored", result
+    fresh = assert_only_a_moved(world, etags, rebuilt=("today", "board"), changed=("today", "board"))
+    assert today_titles(fresh["today"]) == []  # completed: off the day's list
+    assert today_titles(fresh["other"]) == ["Quarterly service"]
+
+
+def test_one_technicians_changed_visit_leaves_anothers_today_kept(world):
+    """A supervisor plans the first technician's visit for another day, then takes the plan off: each time that
+    technician's today and the board are built again, the second technician's today stays kept."""
+    etags = kept_all(world)
+    later = today_for(world.a.ahu.building.site) + dt.timedelta(days=30)
+    work_order_schedule(work_order=world.a.wo, day=later, by=world.a.sup)
+    assert_only_a_moved(world, etags, rebuilt=("today", "board"), changed=("today",))
+    etags = kept_all(world)
+    work_order_schedule(work_order=world.a.wo, day=None, by=world.a.sup)
+    fresh = assert_only_a_moved(world, etags, rebuilt=("today", "board"), changed=("today",))
+    assert today_titles(fresh["today"]) == ["Quarterly service"]
+
+
+def test_a_reassigned_visit_moves_to_the_other_technicians_today(world):
+    """Reassigned from the first technician to the second: both todays change at once (it leaves one and joins
+    the other) and so does the board (its assignee); the other organisation's stay kept."""
+    etags = kept_all(world)
+    work_order_assign(work_order=world.a.wo, assignee=world.a.other_tech, by=world.a.sup)
+    fresh = assert_only_a_moved(world, etags, rebuilt=ANSWERS, changed=ANSWERS)
+    moved = str(world.a.wo.public_id)
+    assert moved not in today_ids(fresh["today"])
+    assert today_ids(fresh["other"]) == {moved, str(world.a.other_wo.public_id)}
+    [row] = [row for section in ("overdue", "due", "assigned") for row in fresh["board"][section] if row["id"] == moved]
+    assert row["assignee"]["username"] == world.a.other_tech.username
 
 
 # --- generation ------------------------------------------------------------------------------------------------
@@ -181,7 +266,7 @@ def test_generation_moves_only_its_organisation(world):
     AHU.objects.filter(pk=world.a.ahu.pk).update(service_start=dt.date(2024, 1, 15))
     result = work_orders_generate(organisation=world.a.org, today=DAY)
     assert result.created > 0
-    assert_only_a_moved(world, etags, changed=("board",))
+    assert_only_a_moved(world, etags, rebuilt=EVERY, changed=("board",))
 
 
 # --- inspections -----------------------------------------------------------------------------------------------
@@ -199,27 +284,27 @@ def test_a_synced_form_and_its_sign_off(world):
     etags = kept_all(world)
     [result] = inspection_sync(user=world.a.tech, forms=[_complete_form(world.a.wo)])
     assert result["status"] in {"stored", "flagged"}
-    assert_only_a_moved(world, etags, changed=("today", "board"))
+    assert_only_a_moved(world, etags, rebuilt=("today", "board"), changed=("today", "board"))
     etags = kept_all(world)
     inspection_verify(inspection=Inspection.objects.get(work_order=world.a.wo), by=world.a.sup)
-    assert_only_a_moved(world, etags, changed=("board",))
+    assert_only_a_moved(world, etags, rebuilt=("today", "board"), changed=("board",))
 
 
 # --- registry --------------------------------------------------------------------------------------------------
 def test_renaming_a_site_shows_at_once(world):
     etags = kept_all(world)
     site_update(site=world.a.ahu.building.site, by=world.a.sup, name="North Annex")
-    fresh = assert_only_a_moved(world, etags, changed=("today",))
+    fresh = assert_only_a_moved(world, etags, rebuilt=EVERY, changed=("today",))
     assert fresh["today"][0]["site"]["name"] == "North Annex"
 
 
 def test_unit_and_part_changes_move_only_their_organisation(world):
     etags = kept_all(world)
     ahu_update(ahu=world.a.ahu, by=world.a.sup, tag="AHU-99")
-    assert_only_a_moved(world, etags)
+    assert_only_a_moved(world, etags, rebuilt=EVERY)
     etags = kept_all(world)
     component_update(component=component(world.a.ahu, "Pre-filters"), by=world.a.sup, name="Pre-filters, left")
-    assert_only_a_moved(world, etags)
+    assert_only_a_moved(world, etags, rebuilt=EVERY)
 
 
 # --- people ----------------------------------------------------------------------------------------------------
@@ -235,14 +320,14 @@ def test_a_technicians_capacity_and_deactivation(world):
     )
     admin = make_person(organisation=world.a.org, role=Role.ADMIN)
     person_update(by=admin, organisation=world.a.org, person=world.a.tech, data=data)
-    assert_only_a_moved(world, etags, changed=("board",))
+    assert_only_a_moved(world, etags, rebuilt=EVERY, changed=("board",))
     etags = kept_all(world)
     site_grants_set(by=admin, organisation=world.a.org, person=world.a.sup, sites=[world.a.ahu.building.site])
-    assert_only_a_moved(world, etags)
+    assert_only_a_moved(world, etags, rebuilt=EVERY)
     other = make_person(organisation=world.a.org, role=Role.TECHNICIAN)
     etags = kept_all(world)
     person_deactivate(by=admin, organisation=world.a.org, person=other)
-    assert_only_a_moved(world, etags)
+    assert_only_a_moved(world, etags, rebuilt=EVERY)
     assert not Membership.objects.get(user=other).user.is_active
 
 
@@ -250,16 +335,18 @@ def test_a_technicians_capacity_and_deactivation(world):
 def test_rule_changes_move_only_their_organisation(world):
     etags = kept_all(world)
     task_definition_override(organisation=world.a.org, code="filter_check", by=world.a.sup, estimated_minutes=50)
-    assert_only_a_moved(world, etags)
+    assert_only_a_moved(world, etags, rebuilt=EVERY)
     etags = kept_all(world)
     unit_task_set(ahu=world.a.ahu, task_code="filter_check", enabled=False, reason="filters removed", by=world.a.sup)
-    assert_only_a_moved(world, etags)
+    assert_only_a_moved(world, etags, rebuilt=EVERY)
 
 
-def test_a_meter_reading_moves_only_its_organisation(world):
+def test_a_meter_reading_leaves_every_answer_kept_and_right(world):
+    """No polled answer reads meter readings (run-hour due dates reach work orders through generation, which
+    moves the organisation's version): every answer stays kept, and each is what a fresh build gives."""
     etags = kept_all(world)
     meter_reading_record(ahu=world.a.ahu, hours=1500, taken_at=FINISHED, by=world.a.tech)
-    assert_only_a_moved(world, etags)
+    assert_only_a_moved(world, etags, rebuilt=())
 
 
 # --- ETag round trip -------------------------------------------------------------------------------------------

@@ -9,7 +9,7 @@ from typing import TYPE_CHECKING, TypeGuard
 
 from django.db import transaction
 
-from accounts.changes import organisation_changed
+from accounts.changes import work_changed
 from accounts.models import User
 from accounts.services import audit_record
 from inventory.models import Component, Site
@@ -211,6 +211,6 @@ def finding_work_order_attach(*, finding: Finding, work_order: WorkOrder, by: Us
         organisation=locked.organisation,
         changes={"work_order": str(work_order.public_id), "replaced": str(held.public_id) if held else None},
     )
-    organisation_changed(organisation_id=locked.organisation_id)
+    work_changed(organisation_id=locked.organisation_id)  # no work order changed: nobody's today
     finding.corrective_work_order = work_order
     return locked
