@@ -227,7 +227,7 @@ def test_one_technicians_synced_form_leaves_anothers_today_kept(world):
     """The first technician sends the finished form of their visit: their today and the board change at once;
     the second technician's today stays kept (one query, the same ETag) and is still right."""
     etags = kept_all(world)
-    [result] = inspection_sync(user=world.a.tech, forms=[_complete_form(world.a.wo)])
+    [result] = inspection_sync(user=world.a.tech, forms=[complete_form(world.a.wo)])
     assert result["status"] == "stored", result
     fresh = assert_only_a_moved(world, etags, rebuilt=("today", "board"), changed=("today", "board"))
     assert today_titles(fresh["today"]) == []  # completed: off the day's list
@@ -270,7 +270,7 @@ def test_generation_moves_only_its_organisation(world):
 
 
 # --- inspections -----------------------------------------------------------------------------------------------
-def _complete_form(wo):
+def complete_form(wo):
     ahu = wo.ahu
     readings = [r("visit.run_hours", 1200)]
     for name, dp in (("Pre-filters", 80), ("Final filters", 150)):
@@ -282,7 +282,7 @@ def _complete_form(wo):
 
 def test_a_synced_form_and_its_sign_off(world):
     etags = kept_all(world)
-    [result] = inspection_sync(user=world.a.tech, forms=[_complete_form(world.a.wo)])
+    [result] = inspection_sync(user=world.a.tech, forms=[complete_form(world.a.wo)])
     assert result["status"] in {"stored", "flagged"}
     assert_only_a_moved(world, etags, rebuilt=("today", "board"), changed=("today", "board"))
     etags = kept_all(world)
