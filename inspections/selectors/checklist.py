@@ -128,22 +128,42 @@ def checklist_build(*, work_order: WorkOrder, templates: dict[str, ChecklistTemp
     used, slots = [], []
     for template in ordered:
         wanted = codes.get(template.code)
+        items = [item for item in template.items.all() if _unit_matches(work_order.ahu, item)]
         t_slots = []
-        for item in template.items.all():
-            if not _unit_matches(work_order.ahu, item):
+        for run in item_runs(items):
+            if not run[0].component_kind:
+                t_slots.extend(
+                    Slot(item, template, None, item_limits(item=item, ahu=work_order.ahu, component=None))
+                    for item in run
+                )
                 continue
-            if not item.component_kind:
-                t_slots.append(Slot(item, template, None, item_limits(item=item, ahu=work_order.ahu, component=None)))
-                continue
+            # One part's items together, as the template lists them, then the next part's (never coil A
+            # entering, coil B entering, coil A leaving …).
             for comp in components:
-                if _matches(comp, item) and (wanted is None or comp.pk in wanted):
-                    t_slots.append(
-                        Slot(item, template, comp, item_limits(item=item, ahu=work_order.ahu, component=comp))
-                    )
+                if wanted is not None and comp.pk not in wanted:
+                    continue
+                t_slots.extend(
+                    Slot(item, template, comp, item_limits(item=item, ahu=work_order.ahu, component=comp))
+                    for item in run
+                    if _matches(comp, item)
+                )
         if t_slots:
             used.append(template)
             slots.extend(t_slots)
     return Checklist(work_order=work_order, templates=used, slots=slots)
+
+
+def item_runs(items: list[ChecklistItem]) -> list[list[ChecklistItem]]:
+    """A template's items in its order, cut into runs of unit items and runs of per-part items: the form asks a
+    run of per-part items part by part (every item of the first part, then of the next), and unit items where
+    the template puts them."""
+    runs: list[list[ChecklistItem]] = []
+    for item in items:
+        if runs and bool(runs[-1][0].component_kind) == bool(item.component_kind):
+            runs[-1].append(item)
+        else:
+            runs.append([item])
+    return runs
 
 
 def checklist_cautions(*, checklist: Checklist) -> list[str]:
