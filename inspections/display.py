@@ -21,14 +21,25 @@ from engineering.ventilation import VENTILATION_SYSTEMS
 
 from . import reasons as rs
 
+# A reading no check judges: its badge, and what that means in words a technician reads beside it ("Recorded —
+# no limit applies to this reading"). Pages and PDFs read them here; the phone from its checklist's evaluation
+# context (``reading_words``, inspections.phone.checklist_context), never a copy of its own.
+RECORDED_WORDS = "Recorded"
+UNJUDGED_WORDS = "no limit applies to this reading"
+
 # Verdicts as people read them: the labels of ``engineering.controls.Verdict``, and "Recorded" for a reading
 # no check judged (the phone's twin: checklist.js VERDICT_WORDS).
-VERDICT_WORDS = {**{v.value: v.label for v in Verdict}, "": "Recorded"}
+VERDICT_WORDS = {**{v.value: v.label for v in Verdict}, "": RECORDED_WORDS}
 
 
 def verdict_words(code: str | None) -> str:
     """A verdict code in words ("OK", "Watch", "Fail"; "na" reads "Not applicable", no verdict "Recorded")."""
-    return VERDICT_WORDS.get(code or "", "Recorded")
+    return VERDICT_WORDS.get(code or "", RECORDED_WORDS)
+
+
+def reading_words() -> dict[str, str]:
+    """The words of a reading no check judges, as the phone shows them beside the field."""
+    return {"recorded": RECORDED_WORDS, "unjudged": UNJUDGED_WORDS}
 
 
 # A keyword argument's name followed by "=" in an engineering message ("airflow_m3s=0.4",

@@ -28,7 +28,7 @@ from engineering.filters import FilterPoint
 from engineering.psychro import pressure_from_altitude
 from engineering.units import SYSTEMS
 from inspections import flags
-from inspections.display import DRIFT_QUANTITIES
+from inspections.display import DRIFT_QUANTITIES, reading_words
 from inspections.evaluation import control_checks, heat_checks, valve_checks, ventilation_checks
 from inspections.evaluation.results import ITEM_CONDITIONS
 
@@ -251,6 +251,8 @@ def checklist_context(*, checklist, as_of: dt.datetime) -> dict[str, Any]:
             filter_points=lambda bank: series[bank.pk].current.forecast_points(),
         ),
         "meter": meter_context(ahu=ahu, as_of=as_of),
+        # A reading no check judges, in the server's words (inspections.display).
+        "words": reading_words(),
         **form_flags_context(slots=checklist.slots),
     }
 

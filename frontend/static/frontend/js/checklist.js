@@ -142,7 +142,9 @@ function showVerdicts(form, ctx) {
       mine.push(meter);
     }
     const checked = key === RUN_HOURS_KEY && !meter && ctx ? meterPlausibleText(ctx.meter, value, new Date()) : "";
-    if (!mine.length) out.append(badge("recorded", "recorded"), checked ? ` ${checked}` : " nothing judges this reading on its own");
+    // No check judges it: the server's words (inspections.display reading_words, in the checklist's context).
+    const words = (ctx && ctx.words) || {};
+    if (!mine.length) out.append(badge("recorded", words.recorded), checked ? ` ${checked}` : words.unjudged ? ` — ${words.unjudged}` : "");
     if (range.improbable) out.append(`; ${range.text}`);
     out.dataset.phoneVerdict = mine.length ? mine.map((r) => r.verdict).join(" ") : "recorded";
   }
