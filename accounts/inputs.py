@@ -253,26 +253,60 @@ def window_problem(day: dt.date | None, *, label: str, window: tuple[dt.date, dt
     )
 
 
+# A day as a person types it into a page: ISO (2026-12-04) or the day-first European form with dots and a
+# four-digit year (04.12.2026), which no convention reads month first. A day with slashes (04/12/2026) is 4 December
+# in Europe and 12 April in the US: never guessed, refused with the forms that are read.
+DATE_FORMATS = "YYYY-MM-DD or DD.MM.YYYY (31 January 2026: 2026-01-31 or 31.01.2026)"
+_ISO_DAY = re.compile(r"(\d{4})-(\d{2})-(\d{2})")
+_DOTTED_DAY = re.compile(r"(\d{1,2})\.(\d{1,2})\.(\d{4})")
+_SLASHED_DAY = re.compile(r"\d{1,4}/\d{1,2}/\d{1,4}")
+
+
+def parse_day(raw: Any) -> dt.date | None:
+    """A day from a ``date`` or typed text in one of ``DATE_FORMATS``; None when it is none (a day that does not
+    exist, such as 31.02.2026, included)."""
+    if isinstance(raw, dt.datetime):
+        return raw.date()
+    if isinstance(raw, dt.date):
+        return raw
+    if not isinstance(raw, str):
+        return None
+    text = raw.strip()
+    iso, dotted = _ISO_DAY.fullmatch(text), _DOTTED_DAY.fullmatch(text)
+    try:
+        if iso:
+            return dt.date(int(iso[1]), int(iso[2]), int(iso[3]))
+        if dotted:
+            return dt.date(int(dotted[3]), int(dotted[2]), int(dotted[1]))
+    except ValueError:
+        return None
+    return None
+
+
+def day_refusal(raw: Any, *, label: str, allowed: str = "", said: str | None = None) -> str:
+    """'Due day: '04/12/2026' is not a date …; allowed: a date as YYYY-MM-DD or DD.MM.YYYY …' for text that
+    ``parse_day`` does not read; ``allowed`` adds the window ("from 2000-01-01 to 2036-12-04"), ``said`` is the
+    value as the caller's messages quote it (``shown`` by default)."""
+    slashed = isinstance(raw, str) and _SLASHED_DAY.fullmatch(raw.strip())
+    why = " (with slashes it could be day or month first)" if slashed else ""
+    window = f" {allowed}" if allowed else ""
+    return f"{label}: {shown(raw) if said is None else said} is not a date{why}; allowed: a date as {DATE_FORMATS}{window}"
+
+
 def check_date(
     raw: Any, *, key: str, label: str, today: dt.date, errors: FieldErrors, required: bool = False
 ) -> dt.date | None:
-    """A date (``date`` or 'YYYY-MM-DD') within the plan window (see ``date_window``)."""
+    """A date (``date``, 'YYYY-MM-DD' or 'DD.MM.YYYY', ``parse_day``) within the plan window (``date_window``)."""
     earliest, latest = date_window(today=today)
-    allowed = f"a date as YYYY-MM-DD from {earliest.isoformat()} to {latest.isoformat()}"
+    window = f"from {earliest.isoformat()} to {latest.isoformat()}"
     if raw is None or (isinstance(raw, str) and not raw.strip()):
         if required:
-            errors.add(key, f"{label} is required; allowed: {allowed}")
+            errors.add(key, f"{label} is required; allowed: a date as {DATE_FORMATS} {window}")
         return None
-    if isinstance(raw, dt.datetime):
-        day = raw.date()
-    elif isinstance(raw, dt.date):
-        day = raw
-    else:
-        try:
-            day = dt.date.fromisoformat(str(raw).strip()[:20])
-        except ValueError:
-            errors.add(key, f"{label}: {shown(raw)} is not a date; allowed: {allowed}")
-            return None
+    day = parse_day(raw)
+    if day is None:
+        errors.add(key, day_refusal(raw, label=label, allowed=window))
+        return None
     problem = date_problem(day, label=label, today=today)
     if problem:
         errors.add(key, problem)

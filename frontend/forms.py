@@ -11,7 +11,7 @@ import datetime as dt
 from django import forms
 from django.core.exceptions import ValidationError
 
-from accounts.inputs import INT32_MAX, FieldErrors, check_integer, shown
+from accounts.inputs import INT32_MAX, FieldErrors, check_integer, day_refusal, parse_day
 from scheduling.services.work_orders import no_technician
 
 
@@ -46,10 +46,10 @@ class AssignForm(forms.Form):
         raw = (self.cleaned_data["scheduled_for"] or "").strip()
         if not raw:
             return None
-        try:
-            return dt.date.fromisoformat(raw)
-        except ValueError:
-            raise ValidationError(f"Scheduled day {shown(raw)} is not a date as YYYY-MM-DD.") from None
+        day = parse_day(raw)
+        if day is None:
+            raise ValidationError(f"{day_refusal(raw, label='Scheduled day')}.")
+        return day
 
     def clean_version(self) -> int | None:
         """The version as a whole number, None when missing or unreadable: the view refuses that as a stale

@@ -16,6 +16,7 @@ from django.shortcuts import render
 from django.utils.safestring import mark_safe
 from django.views.decorators.http import require_GET
 
+from accounts.inputs import EARLIEST_DATE, day_refusal, parse_day
 from accounts.selectors import primary_role
 from automation.fault_models import Fault
 from automation.fault_selectors import fault_for, faults_visible_to, unit_trend_view
@@ -95,15 +96,12 @@ def _stretch(request, *, zone: str, fault: Fault | None) -> tuple[dt.date, int, 
     start = last - dt.timedelta(days=days - 1)
     raw_start = request.GET.get("start", "")
     if raw_start:
-        try:
-            asked = dt.date.fromisoformat(raw_start)
-        except ValueError:
-            asked = None
-        allowed = f"allowed: a date as YYYY-MM-DD from 2000-01-01 to {today.isoformat()}."
+        asked = parse_day(raw_start)
+        window = f"from {EARLIEST_DATE.isoformat()} to {today.isoformat()}"
         if asked is None:
-            problems.append(f"From: {raw_start[:20]!r} is not a date; {allowed}")
-        elif asked < dt.date(2000, 1, 1) or asked > today:
-            problems.append(f"From: {raw_start[:20]!r} is outside the days with trends; {allowed}")
+            problems.append(f"{day_refusal(raw_start[:40], label='From', allowed=window)}.")
+        elif asked < EARLIEST_DATE or asked > today:
+            problems.append(f"From: {raw_start[:20]!r} is outside the days with trends; allowed: {window}.")
         else:
             start = asked
     return start, days, problems

@@ -27,7 +27,7 @@ from django.utils import timezone
 from django.views.decorators.http import require_POST
 
 from accounts.clock import day_text, local_time_text
-from accounts.inputs import FieldErrors, shown
+from accounts.inputs import DATE_FORMATS, FieldErrors, day_refusal, parse_day, shown
 from inspections.selectors import findings_visible_to, reason_for
 from inspections.services.findings import finding_work_order_attach
 from inventory.models import AHU
@@ -145,17 +145,11 @@ def _due_by(post, site, errors: dict) -> dt.datetime | None:
     raw_time = post.get("due_time", "").strip()
     day = clock = None
     if not raw_day:
-        errors.setdefault("due_date", []).append("Due day is required; allowed: a day as YYYY-MM-DD")
+        errors.setdefault("due_date", []).append(f"Due day is required; allowed: a date as {DATE_FORMATS}")
     else:
-        try:
-            day = dt.date.fromisoformat(raw_day) if len(raw_day) == 10 else None
-        except ValueError:
-            day = None
+        day = parse_day(raw_day)
         if day is None:
-            errors.setdefault("due_date", []).append(
-                f"Due day: {shown(raw_day)} is not a day as YYYY-MM-DD; allowed: a day such as "
-                f"{today_for(site).isoformat()}"
-            )
+            errors.setdefault("due_date", []).append(day_refusal(raw_day, label="Due day"))
     if not raw_time:
         errors.setdefault("due_time", []).append("Due time is required; allowed: a time as HH:MM, 00:00 to 23:59")
     else:

@@ -16,7 +16,7 @@ from django.core.exceptions import ValidationError
 from django.http import Http404
 
 from accounts.clock import local_date_of
-from accounts.inputs import date_window
+from accounts.inputs import date_window, day_refusal, parse_day
 
 MAX_ID = 2**63 - 1  # the database's largest key; bigger numbers cannot name a row
 
@@ -108,10 +108,9 @@ def a_date(parameters: dict, name: str, default: date | None = None, *, today: d
         if default is None:
             raise ValidationError({name: f"{label}: a date is required"})
         return default
-    try:
-        day = date.fromisoformat(str(raw)[:20])
-    except ValueError:
-        raise ValidationError({name: f"{label}: {shown(raw)} is not a date; allowed: a day such as 2026-01-31"})
+    day = parse_day(raw)
+    if day is None:
+        raise ValidationError({name: day_refusal(raw, label=label, said=shown(raw))})
     # The input policy's window (2000 to ten years after ``today``, the report's): a report of year 9999 is a
     # typo, and its date sums would run past the calendar.
     earliest, latest = date_window(today=today)

@@ -133,13 +133,27 @@ def test_a_bad_stretch_is_named_and_the_default_shown(client, world):
     assert page.status_code == 400
     html = page.content.decode()
     assert "Days: &#x27;400&#x27; is not allowed; allowed: a whole number from 1 to 31." in html
-    assert "From: &#x27;x&#x27; is not a date; allowed: a date as YYYY-MM-DD from 2000-01-01" in html
+    assert "From: &#x27;x&#x27; is not a date; allowed: a date as YYYY-MM-DD or DD.MM.YYYY (31 January 2026: 2026-01-31 or 31.01.2026) from 2000-01-01" in html
     assert 'data-chart="temperatures"' in html
     for start, words in (("2026-02-30", "is not a date"), ("1999-12-31", "is outside the days with trends")):
         html = get(
             client, world["boss"], reverse("frontend:unit_trends", kwargs={"pk": world["ahu"].pk}), start=start
         ).content.decode()
         assert f"From: &#x27;{start}&#x27; {words}" in html
+
+
+def test_a_stretch_typed_day_first_with_dots_is_read_as_that_day(client, world):
+    """Tryout (issue 19): 08.01.2026 is 8 January 2026 (the day-first form with dots no convention reads month
+    first); 08/01/2026 could be either and is refused naming the forms that are read."""
+    url = reverse("frontend:unit_trends", kwargs={"pk": world["ahu"].pk})
+    page = get(client, world["boss"], url, start="08.01.2026")
+    assert page.status_code == 200
+    assert 'value="2026-01-08"' in page.content.decode()
+    html = get(client, world["boss"], url, start="08/01/2026").content.decode()
+    assert (
+        "From: &#x27;08/01/2026&#x27; is not a date (with slashes it could be day or month first); allowed: a date as "
+        "YYYY-MM-DD or DD.MM.YYYY (31 January 2026: 2026-01-31 or 31.01.2026) from 2000-01-01"
+    ) in html
 
 
 def test_values_are_in_the_persons_units(client, world):

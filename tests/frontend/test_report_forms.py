@@ -78,7 +78,10 @@ def test_period_to_before_from_on_the_site_page_is_said_at_to_with_the_typed_day
         # The report window: from 2000 to ten years ahead of today (accounts.inputs.date_window).
         ("start", "0001-01-01", "From: 1 Jan 0001 is outside the days allowed, 1 Jan 2000 to "),
         ("end", "9999-12-31", "To: 31 Dec 9999 is outside the days allowed, 1 Jan 2000 to "),
-        ("start", "2026-13-45", "From: “2026-13-45” is not a date; allowed: a day such as 2026-01-31"),
+        ("start", "2026-13-45", "From: “2026-13-45” is not a date; allowed: a date as YYYY-MM-DD or DD.MM.YYYY (31 January 2026: 2026-01-31 or 31.01.2026)"),
+        # Day or month first? Never guessed: the forms that are read are named, with an example.
+        ("end", "30/11/2026", "To: “30/11/2026” is not a date (with slashes it could be day or month first); allowed: "),
+        ("start", "31.02.2026", "From: “31.02.2026” is not a date; allowed: a date as YYYY-MM-DD or DD.MM.YYYY"),
     ],
 )
 def test_a_day_outside_the_window_on_the_unit_page(world, client, name, typed, message):
@@ -89,6 +92,16 @@ def test_a_day_outside_the_window_on_the_unit_page(world, client, name, typed, m
     tag = field(html, name)
     assert described_error(html, tag).startswith(message)
     assert f'value="{typed}"' in tag
+
+
+def test_a_period_typed_day_first_with_dots_is_requested_as_those_days(world, client):
+    """Tryout (issue 19): 01.06.2026 to 30.11.2026, as typed in much of Europe, is 1 June to 30 November 2026."""
+    client.force_login(world.supervisor)
+    data = {"kind": "unit_history", "unit": world.unit_a.pk, "start": "01.06.2026", "end": "30.11.2026"}
+    response = client.post(REQUEST, {**data, "next": f"/registry/unit/{world.unit_a.pk}/"})
+    assert response.status_code in (200, 302), response.content[:300]
+    report = Report.objects.get()
+    assert (report.parameters["start"], report.parameters["end"]) == ("2026-06-01", "2026-11-30")
 
 
 def test_a_period_beginning_after_today_is_refused_naming_today(world, client):

@@ -164,7 +164,11 @@ def test_without_a_technician_it_waits_on_the_board(desk, world):
         ({"due_date": "2025-03-04"}, "is in the past at Quayside Works"),
         ({"due_time": "25:00"}, "Due time: &#x27;25:00&#x27; is not a time as HH:MM; allowed: 00:00 to 23:59"),
         ({"due_time": ""}, "Due time is required"),
-        ({"due_date": "5/3/2025"}, "Due day: &#x27;5/3/2025&#x27; is not a day as YYYY-MM-DD"),
+        (
+            {"due_date": "5/3/2025"},
+            "Due day: &#x27;5/3/2025&#x27; is not a date (with slashes it could be day or month first); allowed: "
+            "a date as YYYY-MM-DD or DD.MM.YYYY (31 January 2026: 2026-01-31 or 31.01.2026)",
+        ),
         ({"task_minutes": "lots"}, "Estimated minutes: &#x27;lots&#x27; is not a whole number; allowed: 1 to 960"),
         ({"task_minutes": "0"}, "Estimated minutes: 0 is out of range; allowed: 1 to 960"),
         ({"task_skill": "juggling"}, "Skill: &#x27;juggling&#x27; is not one of mechanical"),
@@ -181,6 +185,13 @@ def test_bad_input_is_refused_at_its_field(desk, world, changes, words):
     assert not WorkOrder.objects.filter(kind="call_out").exists()
 
 
+def test_a_due_day_typed_day_first_with_dots_is_that_day(desk, world):
+    """Tryout (issue 19): 05.03.2025 is 5 March 2025, as 2025-03-05 is."""
+    desk.post(NEW, callout(world, due_date="05.03.2025", assignee=""))
+    wo = WorkOrder.objects.get(kind="call_out")
+    assert wo.due_by.astimezone(AMS).date() == dt.date(2025, 3, 5)
+
+
 def test_every_refusal_is_said_at_once(desk, world):
     """A form with several slips names them all, the form's and the service's, not one per try."""
     body = callout(
@@ -190,7 +201,7 @@ def test_every_refusal_is_said_at_once(desk, world):
     for words in (
         "Title: 10000 characters is too long",
         "Priority: &#x27;asap&#x27; is not one of",
-        "Due day: &#x27;2026-02-30&#x27; is not a day as YYYY-MM-DD",
+        "Due day: &#x27;2026-02-30&#x27; is not a date; allowed: a date as YYYY-MM-DD or DD.MM.YYYY",
         "Due time: &#x27;7pm&#x27; is not a time as HH:MM",
         "Estimated minutes: &#x27;1e3&#x27; is not a whole number",
     ):
