@@ -62,6 +62,37 @@ def day_text(day: dt.date, *, today: dt.date) -> str:
     return local_date_of(day)
 
 
+# The hours a moment is said as "on the night of 3–4 Dec" rather than on one day: from this evening hour to this
+# morning hour (common practice in speech: a freeze at 04:15 belongs to the night that began the evening before).
+NIGHT_FROM_HOUR, NIGHT_UNTIL_HOUR = 18, 6
+
+
+def night_span_text(first: dt.date) -> str:
+    """The night that begins on the evening of ``first``, "3–4 Dec 2026", "31 Jan – 1 Feb 2026",
+    "31 Dec 2026 – 1 Jan 2027"."""
+    second = first + dt.timedelta(days=1)
+    if first.year != second.year:
+        return f"{local_date_of(first)} – {local_date_of(second)}"
+    if first.month != second.month:
+        return f"{first.day} {MONTHS[first.month - 1]} – {local_date_of(second)}"
+    return f"{first.day}–{local_date_of(second)}"
+
+
+def moment_words(when: dt.datetime, *, zone: zoneinfo.ZoneInfo | str | None) -> str:
+    """A moment in a sentence on the clock of ``zone``, with the night it belongs to: "04:15 CET on the night of
+    3–4 Dec 2026" between ``NIGHT_FROM_HOUR`` and ``NIGHT_UNTIL_HOUR``, "14:20 CET on 3 Dec 2026" by day."""
+    try:
+        local = when.astimezone(time_zone(zone))
+    except (OverflowError, ValueError):
+        return when.isoformat(timespec="minutes")
+    clock = f"{local:%H:%M} {zone_abbreviation(local)}"
+    if local.hour >= NIGHT_FROM_HOUR:
+        return f"{clock} on the night of {night_span_text(local.date())}"
+    if local.hour < NIGHT_UNTIL_HOUR:
+        return f"{clock} on the night of {night_span_text(local.date() - dt.timedelta(days=1))}"
+    return f"{clock} on {local_date_of(local)}"
+
+
 def local_date_of(local: dt.datetime | dt.date) -> str:
     return f"{local.day} {MONTHS[local.month - 1]} {local.year:04d}"
 

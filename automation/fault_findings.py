@@ -20,7 +20,7 @@ import zoneinfo
 
 from accounts.clock import local_time_text
 from engineering.faults.consequences import consequence_text
-from engineering.faults.freeze import G36_FREEZE_STAGES, STAGE_ACTIONS, FreezeStage, stage_number
+from engineering.faults.freeze import G36_FREEZE_STAGES, stage_number
 from engineering.faults.rules import RULES_BY_CODE
 from engineering.filters import filter_loading
 from engineering.formatting import count_text
@@ -28,6 +28,7 @@ from inspections import reasons
 from inspections.models import Finding
 
 from .fault_models import Fault
+from .freeze_words import freeze_parts
 
 # The finding's source: the same value the trend-fed meter readings and filter points carry.
 SOURCE = Finding.Source.BAS_TREND.value
@@ -74,86 +75,17 @@ def share_words(share: float | None) -> str:
     return "" if share is None else f"{share * 100:.0f} % of the operating time the rule could judge"
 
 
-def duration_words(seconds: float) -> str:
-    """A length of time as a person says it: "45 min", "1 h 30 min", "3 h"."""
-    minutes = max(round(seconds / 60), 0)
-    hours, rest = divmod(minutes, 60)
-    if not hours:
-        return f"{rest} min"
-    return f"{hours} h {rest} min" if rest else f"{hours} h"
-
-
-def _stage_of(w: dict) -> FreezeStage | None:
-    """A freeze window's stage as the rule defines it (windows kept before they carried ``for_s`` name the stage and
-    its temperature only)."""
-    if w.get("stage") is None or w.get("below_c") is None:
-        return None
-    if w.get("for_s") is not None:
-        return FreezeStage(str(w["stage"]), float(w["below_c"]), float(w["for_s"]))
-    return next((st for st in G36_FREEZE_STAGES if st.name == w["stage"] and st.below_c == w["below_c"]), None)
-
-
-def freeze_parts(windows: list[dict]) -> list:
-    """What a freeze event's latest day says, as reason parts (temperatures SI, rendered in the reader's units): how
-    low the supply air went, how long it stayed below the temperature of the highest stage it reached, which stage
-    that is and how the stage is reached (``G36_FREEZE_STAGES``), what the guideline's freeze protection does at that
-    stage (``STAGE_ACTIONS``), and that the unit is not ready until its freeze-protection test passes again."""
-    days = [w["day"] for w in windows if w.get("day")]
-    latest = [w for w in windows if w.get("day") == max(days)] if days else list(windows)
-    staged = [(w, st) for w in latest if (st := _stage_of(w)) is not None]
-    lows = [float(w["lowest_c"]) for w in latest if w.get("lowest_c") is not None]
-    parts: list = ["The supply air fell"]
-    if lows:
-        parts += [" to ", reasons.q(min(lows), "temperature")]
-    if days:
-        parts.append(f" on {dt.date.fromisoformat(str(max(days))):%-d %b %Y}")  # the pages' date style
-    if staged:
-        top = max(stage_number(st.name) for _, st in staged)
-        # The window of the highest stage at its warmest temperature: the longest time the air stayed that cold.
-        w, stage = max(
-            ((w, st) for w, st in staged if stage_number(st.name) == top),
-            key=lambda pair: (pair[1].below_c, float(pair[0].get("duration_s") or 0.0)),
-        )
-        if w.get("duration_s") is not None:
-            parts += [" and stayed below ", reasons.q(stage.below_c, "temperature")]
-            parts.append(f" for {duration_words(float(w['duration_s']))}")
-        parts.append(f": that is freeze-protection {stage.name} (")
-        ways = [st for st in G36_FREEZE_STAGES if st.name == stage.name] or [stage]
-        for i, st in enumerate(ways):
-            parts += [
-                " or " if i else "",
-                "below ",
-                reasons.q(st.below_c, "temperature"),
-                f" for {st.for_s / 60:g} min",
-            ]
-        parts.append(")")
-        last = max(stage_number(st.name) for st in G36_FREEZE_STAGES)
-        if stage_number(stage.name) == last:
-            parts.append(", the last stage")
-        action = STAGE_ACTIONS.get(stage.name)
-        if action:
-            parts.append(f". At {stage.name} of the guideline's freeze protection {action}")
-    parts.append(". The unit is not ready for freeze protection until its freeze-protection test passes again")
-    return reasons.flatten(parts)
-
-
-def freeze_text(windows: list[dict], system: str = "si") -> str:
-    """``freeze_parts`` in ``system``'s units ("si" or "us"): the freeze event as the fault, its work and its
-    finding say it."""
-    return reasons.render(freeze_parts(windows), system)
-
-
 def finding_parts(
     *, code: str, formula: str, evidence: dict, consequence: dict | None, zone: str, windows: list[dict] | None = None
 ) -> list:
     """The finding's text (inspections.reasons parts, SI): the rule and what it tests, the latest evidence window
     and the share of the operating time, the days, and what it costs; a freeze event says what happened
-    (``freeze_parts``). Where it was found is the finding's source (``Finding.source_words``), which every page
-    and PDF says beside this text: the text does not say it again."""
+    (``freeze_words.freeze_parts``, on the site's clock). Where it was found is the finding's source
+    (``Finding.source_words``), which every page and PDF says beside this text: the text does not say it again."""
     days = int(evidence.get("days") or 0)
     days_words = f"; found on {count_text(days, 'day')}" if days else ""
     if code == Fault.FREEZE and windows:
-        return reasons.flatten(freeze_parts(windows), days_words)
+        return reasons.flatten(freeze_parts(windows, zone), days_words)
     parts: list = [f"Rule {code}"]
     if formula:
         parts.append(f" ({formula})")

@@ -17,8 +17,9 @@ from engineering.faults import G36_DEFAULTS, FaultResult, FreezeEvent
 from engineering.faults.consequences import consequence_text
 from inventory.models import AHU
 
-from .fault_findings import fault_finding_close, fault_finding_keep, freeze_text
+from .fault_findings import fault_finding_close, fault_finding_keep
 from .fault_models import Fault
+from .freeze_words import freeze_text
 
 # The section number is from memory (no printed copy at hand); readers see the citation without that note.
 FREEZE_SECTION = "ASHRAE Guideline 36-2018, section 5.16.12, freeze protection stages"
@@ -119,11 +120,11 @@ def seen_fault(r: FaultResult, day: dt.date, start: dt.datetime, end: dt.datetim
     return Seen(r.code, r.title, r.section, r.formula, windows, fault_s, r.share, consequence, reason)
 
 
-def freeze_reason(windows: list[dict], system: str = "si") -> str:
-    """What a freeze fault says for its latest day, in ``system``'s units: ``fault_findings.freeze_text`` (what the
-    supply air did, the stage and what it means), with where it was found. Kept SI in ``Fault.reason``; pages render
-    it again for their reader."""
-    return freeze_text(windows, system) + " — found in the building-automation trends"
+def freeze_reason(windows: list[dict], system: str = "si", *, zone: str) -> str:
+    """What a freeze fault says for its latest day, in ``system``'s units and on the site's clock (``zone``):
+    ``freeze_words.freeze_text`` (what the air did and when, the stage and what it means, what the unit did),
+    with where it was found. Kept SI in ``Fault.reason``; pages render it again for their reader."""
+    return freeze_text(windows, system, zone=zone) + " — found in the building-automation trends"
 
 
 def fault_reason(fault: Fault, system: str) -> str:
@@ -131,18 +132,23 @@ def fault_reason(fault: Fault, system: str) -> str:
     rule's kept text with its consequence said again from the kept values
     (``engineering.faults.consequences.consequence_text``)."""
     if fault.code == Fault.FREEZE and fault.windows:
-        return freeze_reason(fault.windows, system)
+        return freeze_reason(fault.windows, system, zone=fault.ahu.building.site.time_zone)
     summary = str((fault.consequence or {}).get("summary") or "")
     if summary and summary in fault.reason:
         return fault.reason.replace(summary, consequence_text(fault.code, fault.consequence, system))
     return fault.reason
 
 
-def seen_freeze(events: tuple[FreezeEvent, ...], day: dt.date) -> Seen | None:
+def seen_freeze(
+    events: tuple[FreezeEvent, ...], day: dt.date, *, zone: str, moments: list[dict] | None = None
+) -> Seen | None:
+    """The day's freeze events as one rule's finding; ``moments``: each event's ``freeze_moments.freeze_moment``
+    (the air it was judged on, when it was lowest and what the unit did then), kept on its window."""
     if not events:
         return None
     windows = [
-        _window_json(day, e, stage=e.stage, below_c=e.below_c, for_s=e.for_s, lowest_c=e.lowest_c) for e in events
+        _window_json(day, e, stage=e.stage, below_c=e.below_c, for_s=e.for_s, lowest_c=e.lowest_c, **moment)
+        for e, moment in zip(events, moments or [{} for _ in events], strict=True)
     ]
     return Seen(
         Fault.FREEZE,
@@ -153,7 +159,7 @@ def seen_freeze(events: tuple[FreezeEvent, ...], day: dt.date) -> Seen | None:
         float(sum(e.duration_s for e in events)),
         None,
         {},
-        freeze_reason(windows),
+        freeze_reason(windows, zone=zone),
     )
 
 

@@ -47,6 +47,7 @@ from .fault_keeping import (
 )
 from .fault_models import Fault
 from .feeds import fan_of, filter_days_forecast, filter_feed, run_hours_feed
+from .freeze_moments import freeze_moment
 from .judging_rules import LEAD, RulesDay, rules_judge
 from .models import Point
 from .series import Samples, UnitTrends, samples_for, site_day_window, unit_trends
@@ -238,7 +239,11 @@ def unit_day_judged(
     supply = trends.of("sat")
     if supply is not None and supply.seconds.size:
         judged.add(Fault.FREEZE)
-    freeze = seen_freeze(out.freeze, day)
+    moments = [
+        freeze_moment(trends, e, air=air)
+        for e, air in zip(out.freeze, rules.freeze_air or ("sat",) * len(out.freeze), strict=True)
+    ]
+    freeze = seen_freeze(out.freeze, day, zone=ahu.building.site.time_zone, moments=moments)
     if freeze is not None:
         seen.append(freeze)
     open_faults = reads.open_faults.get(ahu.pk, [])

@@ -87,6 +87,7 @@ class RulesDay:
     faults: AhuFaults | None
     why: str
     freeze: tuple[FreezeEvent, ...]
+    freeze_air: tuple[str, ...] = ()  # each event's air: its role, ``sat`` or ``preheat_leaving``
 
 
 def _grid_key(grid) -> tuple:
@@ -139,13 +140,16 @@ def rules_judge(trends: list[UnitTrends]) -> list[RulesDay]:
         for (i, _g), result in zip(members, judged, strict=True):
             faults[i] = result
     freeze = _freeze_judge(trends, steps)
-    return [RulesDay(faults=f, why=w, freeze=e) for f, w, e in zip(faults, why, freeze, strict=True)]
+    return [
+        RulesDay(faults=f, why=w, freeze=tuple(e for e, _ in ev), freeze_air=tuple(a for _, a in ev))
+        for f, w, ev in zip(faults, why, freeze, strict=True)
+    ]
 
 
-def _freeze_judge(trends: list[UnitTrends], steps: list[float]) -> list[tuple[FreezeEvent, ...]]:
-    """Freeze events of each unit's supply air and air after a preheater, over the day (not its lead); the air of
-    units of one time base judged at once."""
-    events: list[list[FreezeEvent]] = [[] for _ in trends]
+def _freeze_judge(trends: list[UnitTrends], steps: list[float]) -> list[list[tuple[FreezeEvent, str]]]:
+    """Freeze events of each unit's supply air and air after a preheater, over the day (not its lead), each with
+    its air's role; the air of units of one time base judged at once."""
+    events: list[list[tuple[FreezeEvent, str]]] = [[] for _ in trends]
     groups: dict[tuple, list[tuple[int, object]]] = {}
     for i, (t, step) in enumerate(zip(trends, steps, strict=True)):
         for role in ("sat", "preheat_leaving"):
@@ -161,8 +165,8 @@ def _freeze_judge(trends: list[UnitTrends], steps: list[float]) -> list[tuple[Fr
                 )
             except EngineeringInputError:
                 continue
-            groups.setdefault(_grid_key(grid), []).append((i, grid))
-    for members in groups.values():
+            groups.setdefault((role, *_grid_key(grid)), []).append((i, grid))
+    for key, members in groups.items():
         grids = [g for _i, g in members]
         try:
             found = freeze_events_batch(times=grids[0].times, temperature_c=_stacked(grids)["sat"])
@@ -174,5 +178,5 @@ def _freeze_judge(trends: list[UnitTrends], steps: list[float]) -> list[tuple[Fr
                 except EngineeringInputError:
                     found.append(())
         for (i, _g), unit_events in zip(members, found, strict=True):
-            events[i] += unit_events
-    return [tuple(sorted(e, key=lambda e: (float(e.start), e.below_c))) for e in events]
+            events[i] += [(e, key[0]) for e in unit_events]
+    return [sorted(e, key=lambda pair: (float(pair[0].start), pair[0].below_c)) for e in events]

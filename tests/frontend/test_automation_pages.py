@@ -446,13 +446,15 @@ def test_a_us_reader_reads_the_freeze_text_in_fahrenheit_like_its_chart(client, 
     reason = _reason(html)
     assert "°F" in reason and "°C" not in reason
     assert "stage 3 (below 37.9 °F for 15 min or below 33.8 °F for 5 min)" in reason
-    assert "The supply air fell to 32.9 °F on 20 Jan 2026 and stayed below 37.9 °F for 1 h 30 min" in reason
+    said = "The supply air fell to 32.9 °F at 02:00 CET on the night of 19–20 Jan 2026 and stayed below 37.9 °F for 1 h"
+    assert said in reason
     assert "freeze below 37.9 °F: stage 2 after 5 min, stage 3 after 15 min" in html
 
 
 def test_the_freeze_event_says_plainly_how_low_how_long_which_stage_and_what_the_stage_does(client, freeze_world):
-    """The supply air at 0.5 °C from 02:00 to 03:30: the sentence with the event says how low it went, how long it
-    stayed below the highest stage's temperature, which stage that is and how it is reached, and what the guideline's
+    """The supply air at 0.5 °C from 02:00 to 03:30: the sentence with the event says how low it went and when, how
+    long it stayed below the highest stage's temperature, which stage that is and how it is reached, what the unit
+    did when the air was coldest (its fan, damper and heating valve, each with its point), and what the guideline's
     freeze protection does at that stage (ASHRAE Guideline 36, May 2020, section 5.16.12, as the Modelica Buildings
     library's FreezeProtection block documents it: at stage 3 the fans stop and the unit stays off until reset).
     The technician reads the same sentence on the work the event proposed, the manager on its finding."""
@@ -460,10 +462,12 @@ def test_the_freeze_event_says_plainly_how_low_how_long_which_stage_and_what_the
 
     reason = html.unescape(_reason(_freeze_page(client, freeze_world)))
     said = (
-        "The supply air fell to 0.5 °C on 20 Jan 2026 and stayed below 3.3 °C for 1 h 30 min: that is "
-        "freeze-protection stage 3 (below 3.3 °C for 15 min or below 1.0 °C for 5 min), the last stage. "
-        f"At stage 3 of the guideline's freeze protection {STAGE_ACTIONS['stage 3']}. "
-        "The unit is not ready for freeze protection until its freeze-protection test passes again"
+        "The supply air fell to 0.5 °C at 02:00 CET on the night of 19–20 Jan 2026 and stayed below 3.3 °C for "
+        "1 h 30 min: it reached freeze-protection stage 3 (below 3.3 °C for 15 min or below 1.0 °C for 5 min), the "
+        f"last stage. At stage 3 of the guideline's freeze protection {STAGE_ACTIONS['stage 3']}. When the supply "
+        "air was coldest: the supply fan was running (trend point AHU-07.SF-STS); the outdoor-air damper was "
+        "commanded 25 % open (trend point AHU-07.OAD); the Heating coil valve was commanded 50 % open (trend point "
+        "AHU-07.HCV). The unit is not ready for freeze protection until its freeze-protection test passes again"
     )
     assert said in reason
     assert "the supply and return fans stop" in reason and "until someone resets it" in reason
