@@ -10,7 +10,7 @@ def latest_meter_reading(*, ahu, component=None, as_of: dt.datetime | None = Non
 
     The reading ``services.meter_reading_check`` compares a new reading with when it is the newest.
     """
-    from .models import MeterReading
+    from ..models import MeterReading
 
     rows = MeterReading.objects.filter(ahu=ahu, component=component)
     if as_of is not None:
