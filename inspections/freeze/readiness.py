@@ -1,57 +1,6 @@
-"""Freeze-protection readiness, judged from what the tests found: the one place it is decided.
-
-The manager's pages, the dashboard, the compliance figures and PDF, and the API all read
-``freeze_readiness``; none of them restates these rules.
-
-Which units count
-    A unit with an electric preheater or a preheat coil (``duty=preheat``) in its component tree.
-
-A freeze-protection test
-    An inspection of the unit, finished on or before ``as_of``, with judgements of the
-    ``preheater_freeze`` checklist (a preventive visit or the corrective work that retests it).
-    Its date is the site's local date of its finish. Its steps are the required items of the
-    current ``preheater_freeze`` template that apply to the unit: per electric preheater the stage
-    switch-on temperature, the stages, the airflow interlock, the automatic-reset primary limit and
-    the manual-reset high limit; for every protected unit the frost-thermostat trip temperature and
-    the trip sequence. The verdict of a step is the form's, or the latest amendment's when one
-    corrected it.
-
-    The test **passed** only when every step was judged ok. A failed step fails it; a step judged
-    "watch" does not pass either (on a safety device, "near its limit" is not proven); a step left
-    unanswered or answered "not applicable" is not proven, so a test filled against an older
-    template without the airflow-interlock and primary-limit steps does not prove the unit.
-
-The window
-    The season to judge and the day its window opens (``season_window``): the running season while
-    it runs, else the coming one; the window opens on the last cold day of the season before, by
-    the site's normals (rules in reports.compliance).
-
-A unit is
-    - **not ready** when its latest test in the window did not pass ("test failed on <date>: <steps>;
-      corrective work <state>"), when a critical or high freeze-protection finding is open at
-      ``as_of`` (whatever the tests say: the fault is not put right), or when it has no passing test
-      in the window and the season has started ("not tested since <date>" / "never tested");
-    - **ready** when its latest test in the window passed, a passing test in the window came on or
-      before the season start with no failed test after it, and no such finding is open ("every step
-      passed on <latest>", naming the first on-time pass too when a later test passed again);
-    - **done late** when its latest test passed but every passing test since the last failure came
-      after the season start;
-    - **due** when it has no test in the window and the season has not started;
-    - **season unknown** when the site has no computed season start (unless a failed test or an
-      open finding makes it not ready: a known fault is never hidden behind an unknown season).
-
-A freeze event found between visits (``FREEZE_EVENT_SOURCES``: the supply air below the freeze-protection
-stages in the building-automation trends) counts as an open freeze-protection finding until a test passes
-after it.
-
-A passing retest (usually the corrective work order, whose completion closes the findings it
-answers) makes the unit ready again.
-
-The last test (``tested_on``, the "last test" of pages, PDF and API) is the unit's latest test up to
-``as_of``, whatever protects it (a preheat coil or an electric preheater) and whatever it found: a
-later passing test is never hidden behind the earlier one that proved the unit on time.
-
-The corrective work state is read as it is now, also for an earlier ``as_of``.
+"""Freeze-protection readiness from the database: the protected units, their tests and open findings read for many
+units at once, the freeze events of the registered sources (``freeze_event_source_register``), and the answer's
+shape.
 """
 
 from __future__ import annotations
@@ -65,25 +14,25 @@ from dataclasses import dataclass, field
 from django.db.models import Exists, OuterRef, Q
 
 from engineering import controls
-from engineering.freeze import daily_minimums_from_normals
-from inventory.models import AHU, Component, ComponentKind, Site
+from inventory.models import AHU, Component, ComponentKind
 from inventory.today import today_for
 from scheduling.models import work_order_state_words
 
-from . import checklists
-from .models import Amendment, Evaluation, Finding
+from .. import checklists
+from ..models import Amendment, Evaluation, Finding
+from .rules import (
+    BLOCKING_SEVERITIES,
+    CONDITION,
+    DONE_LATE,
+    LABELS,
+    READY,
+    TEMPLATE,
+    FreezeTest,
+    OpenFinding,
+    freeze_verdict,
+)
+from .season import season_window
 
-TEMPLATE = "preheater_freeze"
-CONDITION = "freeze_protection_failed"
-READY, DONE_LATE, DUE, NOT_READY, UNKNOWN = "ready", "done_late", "due", "not_ready", "season_unknown"
-LABELS = {
-    READY: "Ready",
-    DONE_LATE: "Ready, tested late",
-    DUE: "Due",
-    NOT_READY: "Not ready",
-    UNKNOWN: "Season unknown",
-}
-BLOCKING_SEVERITIES = frozenset({Finding.Severity.CRITICAL, Finding.Severity.HIGH})
 # Sources of freeze events found between visits (the building-automation trends register one from an app above,
 # so this module imports nothing of it): called with (unit_ids=, as_of=), each returns
 # {unit id: [(event time, title, corrective work state in words)]}. An event makes the unit not ready, as an open
@@ -94,154 +43,6 @@ FREEZE_EVENT_SOURCES: list = []
 def freeze_event_source_register(source) -> None:
     if source not in FREEZE_EVENT_SOURCES:
         FREEZE_EVENT_SOURCES.append(source)
-
-
-# ---------------------------------------------------------------------------
-# The season window (site normals)
-# ---------------------------------------------------------------------------
-
-
-def last_season_end(*, site: Site, season_start: dt.date) -> dt.date:
-    """The last cold day of the season before ``season_start``, by the site's normals.
-
-    Walking back from the start: first past the days the normals already call cold (a
-    measured or forecast start can come later than the normals' own), then past the warm
-    season; the cold day reached is the last one of the season before. Without one the
-    window opens 365 days before the start.
-    """
-    window_start = season_start - dt.timedelta(days=365)
-    series = daily_minimums_from_normals(monthly_min_c=site.normals_min_c, start=window_start, days=365)
-    cold = [t <= site.preheat_threshold_c for _, t in series]
-    i = len(series) - 1
-    while i >= 0 and cold[i]:
-        i -= 1
-    while i >= 0 and not cold[i]:
-        i -= 1
-    return series[i][0] if i >= 0 else window_start
-
-
-def season_window(*, site: Site, today: dt.date) -> tuple[dt.date | None, dt.date | None]:
-    """The season to judge (the running one while it runs, else the coming one) and the day its window opens."""
-    coming = site.freeze_season_start
-    if coming is None:
-        return None, None
-    coming_opens = last_season_end(site=site, season_start=coming)
-    try:
-        running = coming.replace(year=coming.year - 1)
-    except ValueError:  # 29 February
-        running = coming.replace(year=coming.year - 1, day=28)
-    if running <= today <= coming_opens:
-        return running, last_season_end(site=site, season_start=running)
-    return coming, coming_opens
-
-
-# ---------------------------------------------------------------------------
-# The rules, without the database
-# ---------------------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class FreezeTest:
-    """One freeze-protection test of a unit, reduced to what the rules need."""
-
-    on: dt.date
-    not_passed: tuple[str, ...] = ()  # plain words per step that did not pass; empty = passed every step
-    failed: bool = False  # at least one step judged fail (not only watch or unanswered)
-    corrective: str = ""  # the state of the corrective work its findings raised, in plain words
-    at: dt.datetime | None = None  # when the form was finished (a freeze event before it is answered by a pass)
-
-    @property
-    def passed(self) -> bool:
-        return not self.not_passed
-
-
-@dataclass(frozen=True)
-class OpenFinding:
-    """A critical or high freeze-protection finding open at ``as_of``."""
-
-    opened_on: dt.date
-    title: str
-    corrective: str = ""
-
-
-@dataclass(frozen=True)
-class Verdict:
-    status: str
-    reason: str
-    decided_by: FreezeTest | None = None  # the test whose outcome the status reads (its steps not passed)
-    latest: FreezeTest | None = None  # the unit's latest test, whatever it found: the "last test"
-
-
-def _day(d: dt.date) -> str:
-    return f"{d.day} {d:%b %Y}"
-
-
-def _corrective_words(state: str) -> str:
-    return f"corrective work {state}" if state else "no corrective work raised yet"
-
-
-def _not_passed_words(test: FreezeTest) -> str:
-    head = f"test failed on {_day(test.on)}" if test.failed else f"test on {_day(test.on)} not passed"
-    tail = _corrective_words(test.corrective) if test.failed else "retest needed"
-    return f"{head}: {'; '.join(test.not_passed)}; {tail}"
-
-
-def freeze_verdict(
-    *,
-    tests: Iterable[FreezeTest],
-    open_findings: Iterable[OpenFinding] = (),
-    season_start: dt.date | None,
-    window_opens: dt.date | None,
-    today: dt.date,
-) -> Verdict:
-    """Readiness of one unit and why, in plain words (rules in the module docstring)."""
-    tests = sorted(tests, key=lambda t: t.on)
-    findings = sorted(open_findings, key=lambda f: f.opened_on)
-    latest = tests[-1] if tests else None
-    in_window = tests if season_start is None or window_opens is None else [t for t in tests if t.on > window_opens]
-    last = in_window[-1] if in_window else None
-    if last is not None and not last.passed:
-        return Verdict(NOT_READY, "not ready — " + _not_passed_words(last), last, latest)
-    if findings:
-        f = findings[0]
-        proven = f" (last test passed on {_day(last.on)})" if last is not None else ""
-        return Verdict(
-            NOT_READY,
-            f"not ready — freeze-protection fault open since {_day(f.opened_on)}: {f.title}{proven}; "
-            f"{_corrective_words(f.corrective)}",
-            last,
-            latest,
-        )
-    if season_start is None or window_opens is None:
-        since = f"; last passed test on {_day(latest.on)}" if latest is not None else "; never tested"
-        return Verdict(UNKNOWN, "freeze season not known for this site" + since, latest, latest)
-    if last is not None:
-        # The passing run since the last failure (latest first); ready when it began on or before the
-        # season start. The status reads the latest test; the words name the first pass when it differs.
-        run: list[FreezeTest] = []
-        for t in reversed(in_window):
-            if not t.passed:
-                break
-            run.append(t)
-        before = [t for t in run if t.on <= season_start]
-        first = before[-1] if before else run[-1]
-        passed = f"every step passed on {_day(last.on)}"
-        began = f"the season began on {_day(season_start)}"
-        if before:
-            again = "" if first is last else f"; first proven on {_day(first.on)}, before {began}"
-            return Verdict(READY, f"ready — {passed}{again}", last, latest)
-        again = f", after {began}" if first is last else f"; first proven on {_day(first.on)}, after {began}"
-        return Verdict(DONE_LATE, f"proven late — {passed}{again}", last, latest)
-    started = today >= season_start
-    why = f"not tested since {_day(latest.on)}" if latest is not None else "never tested"
-    if started:
-        return Verdict(NOT_READY, f"not ready — {why}; the season began on {_day(season_start)}", None, latest)
-    return Verdict(DUE, f"due — {why}; test before {_day(season_start)}", None, latest)
-
-
-# ---------------------------------------------------------------------------
-# From the database
-# ---------------------------------------------------------------------------
 
 
 @dataclass
