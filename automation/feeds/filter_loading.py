@@ -1,218 +1,31 @@
-"""Trends feeding the schedule: run-hours from the supply fan, filter loading from the bank's pressure sensor.
-
-Run-hours
-    The supply fan runs while its status point reads on (> 0.5), else while its speed command is above
-    ``engineering.faults`` command tolerance (1 %). Each sample stands for the time until the next one, at
-    most ``RUN_HOLD_MAX_S``; a longer silence is a logging gap and counts as not running, so the meter never
-    gains hours the trend cannot show. The hours run over a site-local day are added to the fan's run-hour
-    meter at the day's end through ``scheduling.services.meter_reading_record`` (source "Building-automation
-    trend"), the same meter service the checklist, the CSV import and the API use, so the engine's run-hour
-    rules project from them. A day already read is not read again (idempotent).
-
-Filter loading
-    Each filter bank with a ``Filter_Differential_Pressure_Sensor`` point: every sample taken while the fan
-    ran, corrected to the bank's design airflow by ``engineering.filters.corrected_pressure_drop``
-    (Δp_design = Δp × (Q_design/Q)^n, n = 1.5 as for the technicians' readings; the fan laws' square law,
-    n = 2, is the turbulent limit of the same relation). The airflow at each sample is the supply airflow
-    point when mapped, else the first fan law from the speed command (Q = Q_design × N/N_design, a command of
-    100 % taken as the fan's design speed), else the unit's design airflow. The day's median is judged by
-    ``engineering.filters.filter_loading`` with the bank's clean and final values, the same judgement a
-    technician's reading gets; at its fail fraction (95 % of the clean-to-final span) the scheduling
-    condition ``filter_loaded`` proposes the filter change through
-    ``scheduling.services.corrective_work_order_propose`` — the path a technician's loaded-filter finding
-    takes — without waiting for a visit — and the bank's one open finding (source building-automation trends, rule
-    FILTER, ``fault_findings.filter_finding_keep``) holds that change, so the findings pages list it; the finding
-    closes when the change is completed, or when a later trend day judges the bank below its change point. The
-    days join the bank's shared filter series
-    (``inspections.selectors.filter_series``, through ``FILTER_POINT_SOURCES``) labelled as trend days, so the
-    charts, the unit history, the phone and the forecast read them beside the technicians' readings; with three
-    or more points since the filters now fitted, ``engineering.filters.filter_forecast`` dates the change.
+"""Filter loading from a bank's pressure-sensor trend: the day's corrected median judged like a technician's reading,
+its forecast, its finding and the change proposed (``filter_feed``).
 """
 
 from __future__ import annotations
 
-import contextlib
 import dataclasses
 import datetime as dt
 from dataclasses import dataclass
 
 import numpy as np
-from django.core.exceptions import ValidationError
-from django.db import connection, transaction
+from django.db import connection
 
 from engineering import filters
 from engineering.controls import Verdict
 from engineering.errors import EngineeringInputError
-from engineering.faults import G36_DEFAULTS
 from inventory.models import Component
-from scheduling.models import MeterReading
 
-from .fault_findings import filter_finding_clear, filter_finding_keep
-from .fault_models import FilterDay
-from .series import Samples, UnitTrends, samples_for
+from ..fault_findings import filter_finding_clear, filter_finding_keep
+from ..fault_models import FilterDay
+from ..series import UnitTrends
+from .run_hours import RUN_HOLD_MAX_S, fan_running
 
-# A sample's value is held at most this long when integrating run-time (common practice: a BAS logs at 1 to
-# 15 minutes or on change of value; six hours without a record is a gap in the log, not proof of running).
-RUN_HOLD_MAX_S = 6 * 3600.0
 # A day's filter value needs at least this many samples taken with the fan running (an hour of 15-minute
 # samples; common practice).
 FILTER_MIN_SAMPLES = 4
 FILTER_CONDITION = "filter_loaded"
 FILTER_SENSOR = "Filter_Differential_Pressure_Sensor"
-
-
-@dataclass(frozen=True)
-class RunHours:
-    fan: Component
-    hours_run: float
-    reading: MeterReading | None
-    note: str = ""
-
-
-def fan_running(trends: UnitTrends, at: np.ndarray) -> np.ndarray | None:
-    """Whether the supply fan ran at each of ``at`` (epoch seconds); None when no fan point has samples."""
-    status, speed = trends.of("supply_fan_status"), trends.of("supply_fan_speed")
-    with np.errstate(invalid="ignore"):
-        if status is not None and status.seconds.size:
-            return status.at(at, max_hold_s=RUN_HOLD_MAX_S) > 0.5
-        if speed is not None and speed.seconds.size:
-            return speed.at(at, max_hold_s=RUN_HOLD_MAX_S) > G36_DEFAULTS.command_tolerance
-    return None
-
-
-def running_seconds(samples: Samples, *, since: float, until: float, on) -> float:
-    """Seconds in [since, until) during which ``on(value)`` held, each sample held until the next one (at most
-    ``RUN_HOLD_MAX_S``); the value at ``since`` is the last sample before it."""
-    s, v = samples.seconds, samples.values
-    if s.size == 0:
-        return 0.0
-    first = max(int(np.searchsorted(s, since, side="right")) - 1, 0)
-    s, v = s[first:], v[first:]
-    nxt = np.append(s[1:], until)
-    begin = np.maximum(s, since)
-    finish = np.minimum(np.minimum(nxt, s + RUN_HOLD_MAX_S), until)
-    with np.errstate(invalid="ignore"):
-        mask = on(v) & (finish > begin)
-    return float(np.sum((finish - begin)[mask]))
-
-
-def fan_of(trends: UnitTrends):
-    """(supply fan point, its samples, the test of "running") from the status point, else the speed command."""
-    for role, on in (
-        ("supply_fan_status", lambda v: v > 0.5),
-        ("supply_fan_speed", lambda v: v > G36_DEFAULTS.command_tolerance),
-    ):
-        point = trends.roles.get(role)
-        samples = trends.of(role)
-        if point is not None and point.component is not None and samples is not None and samples.seconds.size:
-            return point, samples, on
-    return None, None, None
-
-
-FanMeter = tuple[MeterReading | None, MeterReading | None]
-
-
-def fan_meters(*, fans: list[Component], end: dt.datetime) -> dict[int, FanMeter]:
-    """{fan id: (its trend reading taken at ``end`` or None, its latest reading at or before ``end`` or None)} of
-    each fan's own run-hour meter: what ``run_hours_feed`` reads of it, for many fans in two queries."""
-    from django.db.models import OuterRef, Subquery
-
-    own = MeterReading.objects.filter(ahu_id=OuterRef("ahu_id"), component_id=OuterRef("pk"))
-    rows = list(
-        Component.objects.filter(pk__in=[f.pk for f in fans])
-        .annotate(
-            done_id=Subquery(
-                own.filter(taken_at=end, source=MeterReading.Source.BAS_TREND)
-                .order_by(*MeterReading._meta.ordering)
-                .values("pk")[:1]
-            ),
-            prev_id=Subquery(own.filter(taken_at__lte=end).order_by("-taken_at", "-id").values("pk")[:1]),
-        )
-        .values_list("pk", "done_id", "prev_id")
-    )
-    wanted = {i for _, *ids in rows for i in ids if i is not None}
-    readings = MeterReading.objects.in_bulk(list(wanted)) if wanted else {}
-    return {pk: (readings.get(done_id), readings.get(prev_id)) for pk, done_id, prev_id in rows}
-
-
-def _fan_samples(trends: UnitTrends, point, samples: Samples, since: dt.datetime, end: dt.datetime) -> Samples:
-    """The fan's samples from the last one that can still hold at ``since``: those already read with the day when
-    they reach back to one at or before ``since`` (or to ``RUN_HOLD_MAX_S`` before it), else read again."""
-    read_from = trends.read_from
-    reaches = read_from is not None and (
-        read_from <= since - dt.timedelta(seconds=RUN_HOLD_MAX_S)
-        or (read_from <= since and bool((samples.seconds <= since.timestamp()).any()))
-    )
-    if reaches:
-        return samples
-    return samples_for(points=[point], since=since - dt.timedelta(seconds=RUN_HOLD_MAX_S), until=end)[point.pk]
-
-
-def run_hours_feed(
-    *, trends: UnitTrends, by=None, meter: FanMeter | None = None, unit_locked: bool = False, careful: bool = True
-) -> RunHours | None:
-    """Add the hours the supply fan ran over ``trends``' day to its run-hour meter (once per day).
-
-    Returns None when the unit has no fan status or speed trend that day. The first day a fan's meter is fed
-    it starts at 0 h at the day's start; afterwards each day's reading is the latest reading of that meter
-    plus the hours run since it (at most 31 days back). A reading the meter service refuses (an earlier day
-    read after a later one) is not stored and named in ``note``. ``meter``: the fan's readings as ``fan_meters``
-    read them for the whole site; ``unit_locked``: the caller's transaction holds the unit's row locked;
-    ``careful`` False: a meter's first day without a savepoint of its own, its refused second reading raised (the
-    caller runs again carefully).
-    """
-    from scheduling.services import meter_reading_record
-
-    point, samples, on = fan_of(trends)
-    if point is None or samples is None:
-        return None
-    fan = point.component
-    start, end = trends.start, trends.end
-    ahu = trends.ahu
-    if not ((samples.seconds >= start.timestamp()) & (samples.seconds < end.timestamp())).any():
-        return None  # no sample that day: nothing is known of it
-    if meter is None or fan.ahu_id != ahu.pk:
-        readings = MeterReading.objects.filter(ahu=ahu, component=fan)
-        done = readings.filter(taken_at=end, source=MeterReading.Source.BAS_TREND).first()
-        prev = None if done is not None else readings.filter(taken_at__lte=end).order_by("-taken_at", "-id").first()
-    else:
-        done, prev = meter
-    if done is not None:
-        return RunHours(fan=fan, hours_run=0.0, reading=done, note="already read")
-    since = start if prev is None else max(prev.taken_at, end - dt.timedelta(days=31))
-    # From the last sample that can still hold at ``since`` (a change-of-value log may be hours old at midnight).
-    samples = _fan_samples(trends, point, samples, since, end)
-    seconds = running_seconds(samples, since=since.timestamp(), until=end.timestamp(), on=on)
-    hours = seconds / 3600.0
-    base = 0.0 if prev is None else prev.hours
-    record = {
-        "ahu": ahu,
-        "source": MeterReading.Source.BAS_TREND,
-        "component": fan,
-        "by": by,
-        "in_caller_transaction": True,
-        "unit_locked": unit_locked,
-    }
-    first_kept = False
-    try:
-        # Two readings (a meter's first day) share a savepoint, so a refused second takes the first back; one
-        # reading needs none, as the meter service refuses before it writes. Not ``careful``: no savepoint, and a
-        # refused second reading is raised for the caller, whose careful pass takes both back.
-        with transaction.atomic() if prev is None and careful else contextlib.nullcontext():
-            if prev is None:
-                meter_reading_record(hours=0.0, taken_at=start, **record)
-                first_kept = not careful
-            reading = meter_reading_record(hours=round(base + hours, 3), taken_at=end, **record)
-    except ValidationError as exc:
-        if first_kept:
-            raise
-        return RunHours(fan=fan, hours_run=hours, reading=None, note=" ".join(exc.messages))
-    return RunHours(fan=fan, hours_run=hours, reading=reading)
-
-
-# ---------------------------------------------------------------------------
-# Filter loading
-# ---------------------------------------------------------------------------
 
 
 @dataclass(frozen=True)
@@ -431,7 +244,7 @@ def _forecast_words_for(*, banks: list[Component], day: dt.date) -> dict[int, st
     to the end of ``day``), as the charts, the unit history and the phone forecast it; every bank in one read."""
     from inspections.selectors import filter_series_for
 
-    from .series import site_day_window
+    from ..series import site_day_window
 
     wanted = [b for b in banks if (b.specs or {}).get("final_dp_pa") is not None]
     if not wanted:
