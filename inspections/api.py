@@ -242,7 +242,7 @@ class FreezeReadinessView(APIView):
         responses={200: s.FreezeReadinessUnitOutput(many=True), 400: BAD},
         tags=["inspections"],
         description="Freeze-protection readiness of every unit with preheat, from what its tests found "
-        "(inspections/freeze.py), as the pages and the compliance report show it.",
+        "(inspections/freeze/), as the pages and the compliance report show it.",
     )
     def get(self, request):
         site_ids = None
