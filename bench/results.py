@@ -160,11 +160,12 @@ def _load(sizes: list[dict], doc: dict) -> list[str]:
         "(`/bench/baseline/`, no database). Targets: throughput ≥ 50 % of the baseline's and p95 < 100 ms, "
         "at 5,000 units on PostgreSQL; at other sizes and on SQLite the same targets are judged as a guide.",
         "",
-        "Both answers are kept per worker until any committed write moves the change stamp "
-        "(`accounts/answers.py`); a kept repeat costs one read of the stamp. *Kept* is the state between "
-        "changes, and the targets are judged on it. *First pass after a change* is measured right after the "
-        "stamp moves, so every worker builds each person's answer once within the pass: the cost of a change, "
-        "shown for the record (no target).",
+        "Both answers are kept per worker until a service moves a version they depend on "
+        "(`accounts/answers.py`, `accounts/changes.py`: the organisation's, its work's for the board, the "
+        "technician's own work's for today); a kept repeat costs one read of the versions. *Kept* is the state "
+        "between changes, and the targets are judged on it. *First pass after a change* is measured right after "
+        "the organisation's version moves, so every worker builds each person's answer once within the pass: "
+        "the cost of a change, shown for the record (no target).",
         "",
         "| units | endpoint | clients | requests | errors | req/s | ÷ baseline | ≥ 50 % | p50 ms | p95 ms | < 100 ms |",
         "|---|---|---|---|---|---|---|---|---|---|---|",

@@ -305,7 +305,7 @@ PLENUM_PUBLIC_URL = os.environ.get("PLENUM_PUBLIC_URL", "http://127.0.0.1:8000")
 # A technician sees a site while they have open work there, and for this many days after their last
 # finished work there (the unit's history on the job); older assignments no longer grant it. inventory.selectors
 PLENUM_TECHNICIAN_SITE_DAYS = int(os.environ.get("PLENUM_TECHNICIAN_SITE_DAYS", "90"))
-# Polled API answers (today, board) kept per worker until a service moves their organisation's version, and
+# Polled API answers (today, board) kept per worker until a service moves a version they depend on, and
 # never longer than this (the limit covers writes made outside the services); 0 turns the cache off.
 # accounts/answers.py, accounts/changes.py
 PLENUM_ANSWER_CACHE_SECONDS = int(os.environ.get("PLENUM_ANSWER_CACHE_SECONDS", "60"))

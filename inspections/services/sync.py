@@ -400,7 +400,7 @@ def inspection_sync(*, user: User, forms: object, sent_at: object = None) -> lis
     """One result per form, in order. Each form is stored whole or not at all and never holds back the others.
 
     The batch is one transaction with a savepoint per form: a form that fails is rolled back to its
-    savepoint alone, and the batch commits once. The organisations' answer versions move once, at the end
+    savepoint alone, and the batch commits once. The answer versions move once, at the end
     of that transaction (``accounts.changes.changes_deferred``), not once per write of every form.
     A form the server fails on (a defect, not the phone's input) answers
     ``status: "error"`` and is logged; a database outage still fails the batch

@@ -1,6 +1,6 @@
-"""Kept answers: a repeat costs one query (the token, its person and their organisations' versions), and a
-change made through a service is seen at once (tests/scheduling/test_answer_invalidation.py: per service family,
-and not by another organisation).
+"""Kept answers: a repeat costs one query (the token, its person and their versions), and a change made through a
+service is seen at once (tests/scheduling/test_answer_invalidation.py: per service family, and not by another
+organisation nor in another technician's today).
 
 These tests commit (``transaction=True``) as the server does; inside one test transaction the cache
 stands aside, since it cannot know uncommitted writes.
