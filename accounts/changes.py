@@ -98,7 +98,7 @@ def organisations_changed(*, organisation_ids: Iterable[int | None]) -> None:
     if pending is not None:
         pending.organisations.update(ids)
         return
-    Organisation.objects.filter(pk__in=ids).update(answers_version=F("answers_version") + 1)
+    _moved(_Pending(organisations=set(ids)))
 
 
 def work_changed(*, organisation_id: int | None, people: Iterable[int | None] = ()) -> None:
@@ -115,15 +115,23 @@ def work_changed(*, organisation_id: int | None, people: Iterable[int | None] = 
         pending.work.update(organisations)
         pending.people.update(persons)
         return
-    _work_moved(organisations=organisations, people=persons)
+    _moved(_Pending(work=set(organisations), people=set(persons)))
 
 
-def _work_moved(*, organisations: Iterable[int], people: Iterable[int]) -> None:
-    organisations, people = sorted(organisations), sorted(people)
-    if organisations:
-        Organisation.objects.filter(pk__in=organisations).update(work_version=F("work_version") + 1)
-    if people:
-        User.objects.filter(pk__in=people).update(work_version=F("work_version") + 1)
+def _moved(pending: _Pending) -> None:
+    """One UPDATE per kind. The people's rows first, then the organisations': the order every transaction that
+    locks both takes (``person_update`` locks the person's row, then moves their organisations), so two of them
+    wait for each other instead of deadlocking. An organisation whose own version moves needs no work move
+    (every answer's key holds its own version)."""
+    if pending.people:
+        User.objects.filter(pk__in=sorted(pending.people)).update(work_version=F("work_version") + 1)
+    if pending.organisations:
+        Organisation.objects.filter(pk__in=sorted(pending.organisations)).update(
+            answers_version=F("answers_version") + 1
+        )
+    work = pending.work - pending.organisations
+    if work:
+        Organisation.objects.filter(pk__in=sorted(work)).update(work_version=F("work_version") + 1)
 
 
 @contextmanager
@@ -146,9 +154,7 @@ def changes_deferred() -> Iterator[None]:
         yield
     finally:
         _deferred.reset(token)
-    organisations_changed(organisation_ids=pending.organisations)
-    # An organisation moved above has made its boards stale already (every scope includes its version).
-    _work_moved(organisations=pending.work - pending.organisations, people=pending.people)
+    _moved(pending)
 
 
 def every_organisation_changed() -> None:
