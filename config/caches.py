@@ -12,9 +12,11 @@ from __future__ import annotations
 
 
 def clear_module_caches() -> None:
-    """Forget every kept result of the engine, the seasons, the routes, unit conversions and zone spans."""
+    """Forget every kept result of the engine, the seasons, the routes, unit conversions, zone spans and the
+    checklist templates read."""
     from accounts import clock
     from engineering import units
+    from inspections.services import library
     from scheduling.engine import meters
     from scheduling.selectors import today
     from scheduling.services import seasons
@@ -24,3 +26,4 @@ def clear_module_caches() -> None:
     today._suggest_order.cache_clear()
     units._convert.cache_clear()
     clock._spans.cache_clear()
+    library._templates_read.cache_clear()

@@ -5,11 +5,19 @@ import datetime as dt
 from accounts import clock
 from config.caches import clear_module_caches
 from engineering import units
+from inspections.services import library
 from scheduling.engine import meters
 from scheduling.selectors import today
 from scheduling.services import seasons
 
-KEPT = [meters._rate_per_day, seasons._starts, today._suggest_order, units._convert, clock._spans]
+KEPT = [
+    meters._rate_per_day,
+    seasons._starts,
+    today._suggest_order,
+    units._convert,
+    clock._spans,
+    library._templates_read,
+]
 
 
 def test_each_test_starts_with_the_caches_empty():

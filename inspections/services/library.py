@@ -1,5 +1,7 @@
 """Install the checklist library (inspections/checklists.py) as template rows."""
 
+import functools
+
 from django.db import IntegrityError, transaction
 
 from inspections import checklists
@@ -40,16 +42,33 @@ def checklist_library_install() -> list[ChecklistTemplate]:
 
 
 def templates_current(*, codes: list[str] | None = None) -> dict[str, ChecklistTemplate]:
-    """The newest version of each template (installing the library on first use), items prefetched."""
-    wanted = set(codes) if codes is not None else None
-    qs = ChecklistTemplate.objects.order_by("code", "-version").prefetch_related("items")
-    if wanted is not None:  # only the wanted templates' versions and items are read (each synced form asks)
-        qs = qs.filter(code__in=wanted)
-    have = set(ChecklistTemplate.objects.values_list("code", "version"))
-    if not {(t["code"], t["version"]) for t in checklists.all_templates()} <= have:
+    """The newest version of each template (installing the library on first use), items prefetched.
+
+    One query asks which versions there are; the newest ones are read with their items once per process
+    (``_templates_read``): a version is never changed once installed, a new one is a new row."""
+    newest = _newest_versions()
+    library = {(t["code"], t["version"]) for t in checklists.all_templates()}
+    if not library <= {(code, version) for code, version, _pk in newest}:
         checklist_library_install()
-    latest: dict[str, ChecklistTemplate] = {}
-    for t in qs:
-        if (wanted is None or t.code in wanted) and t.code not in latest:
-            latest[t.code] = t
-    return latest
+        newest = _newest_versions()
+    kept = _templates_read(newest)
+    return {code: t for code, t in kept.items() if codes is None or code in codes}
+
+
+def _newest_versions() -> tuple[tuple[str, int, int], ...]:
+    """(code, version, id) of every template's newest version, by code."""
+    newest: dict[str, tuple[str, int, int]] = {}
+    for code, version, pk in ChecklistTemplate.objects.order_by("code", "version").values_list("code", "version", "pk"):
+        newest[code] = (code, version, pk)  # the later version wins
+    return tuple(newest.values())
+
+
+@functools.lru_cache(maxsize=8)
+def _templates_read(newest: tuple[tuple[str, int, int], ...]) -> dict[str, ChecklistTemplate]:
+    """The template rows ``newest`` names ((code, version, id) each) with their items, by code: kept for the
+    process (``config.caches.clear_module_caches`` forgets them), as installed versions never change. Read only,
+    shared by every request: nothing may change them."""
+    rows = {
+        t.pk: t for t in ChecklistTemplate.objects.filter(pk__in=[pk for *_, pk in newest]).prefetch_related("items")
+    }
+    return {code: rows[pk] for code, _version, pk in newest}
