@@ -124,10 +124,16 @@ def number_problem(
     return None
 
 
+# A typed number: a sign, digits with one decimal point or comma, an exponent; ASCII digits only (Python's float
+# alone would also take '1_000', '١٢' and 'infinity'). The phone reads typed text by the same rule (numbers.js
+# parseNumber; tests/inspections/test_phone_agreement.py holds the two together).
+_TYPED_NUMBER = re.compile(r"[+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?", re.ASCII)
+
+
 def parse_number(raw: Any) -> float | None:
     """A finite float from a JSON number or typed text ('1,5' reads 1.5); None when it is none.
 
-    'nan', 'inf', '1e309' and friends are not numbers a person means."""
+    'nan', 'inf', '1e309', '12,5a' and friends are not numbers a person means."""
     if isinstance(raw, bool) or raw is None:
         return None
     if isinstance(raw, int | float):
@@ -137,12 +143,9 @@ def parse_number(raw: Any) -> float | None:
             return None
     elif isinstance(raw, str):
         text = raw.strip().replace(",", ".")
-        if not text or len(text) > 40:
+        if not text or len(text) > 40 or not _TYPED_NUMBER.fullmatch(text):
             return None
-        try:
-            value = float(text)
-        except ValueError:
-            return None
+        value = float(text)
     else:
         return None
     return value if math.isfinite(value) else None
@@ -290,7 +293,8 @@ def day_refusal(raw: Any, *, label: str, allowed: str = "", said: str | None = N
     slashed = isinstance(raw, str) and _SLASHED_DAY.fullmatch(raw.strip())
     why = " (with slashes it could be day or month first)" if slashed else ""
     window = f" {allowed}" if allowed else ""
-    return f"{label}: {shown(raw) if said is None else said} is not a date{why}; allowed: a date as {DATE_FORMATS}{window}"
+    value = shown(raw) if said is None else said
+    return f"{label}: {value} is not a date{why}; allowed: a date as {DATE_FORMATS}{window}"
 
 
 def check_date(

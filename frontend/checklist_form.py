@@ -13,6 +13,7 @@ import uuid
 
 from django.utils import timezone
 
+from accounts.inputs import parse_number
 from inspections.cautions import cautions_once
 
 
@@ -68,12 +69,11 @@ def caution_blocks(cautions: list[str]) -> list[dict]:
 
 
 def typed_number(raw: str):
-    """A typed number as a float (a decimal comma read as a point); text that is no number is kept for the
-    server, which names the field, the value and what is allowed."""
-    try:
-        return float(raw.replace(",", "."))
-    except ValueError:
-        return raw
+    """A typed number as a float (a decimal comma read as a point: ``accounts.inputs.parse_number``, the phone's
+    twin is numbers.js ``parseNumber``); text that is no number is kept as typed for the server, which names the
+    field, the value and what is allowed."""
+    value = parse_number(raw)
+    return raw if value is None else value
 
 
 def _data_url(upload) -> str:

@@ -33,6 +33,7 @@ SHELL_STATIC = (
     "frontend/js/sync.js",
     "frontend/js/checklist.js",
     "frontend/js/limits.js",
+    "frontend/js/numbers.js",
     "frontend/js/meter.js",
     "frontend/js/formcheck.js",
     "frontend/js/formnav.js",

@@ -46,7 +46,7 @@ def test_readings_typed_offline_survive_going_to_today_and_back(page, live_serve
     checklist_url = page.url
     offline(True)
 
-    numbers = page.locator("form[data-checklist] [data-kind=number] input[type=number]")
+    numbers = page.locator("form[data-checklist] [data-kind=number] input[data-number]")
     assert numbers.count() >= 2
     first, second = numbers.nth(0), numbers.nth(1)
     first.fill("1234")
@@ -99,7 +99,7 @@ def test_a_refused_forms_readings_come_back_into_the_fields(page, context, live_
     expect(page.locator("[data-pending=refused]")).to_contain_text("The server refused this form", timeout=20000)
 
     block = page.locator("form[data-checklist] [data-item='visit.run_hours']")
-    expect(block.locator("input[type=number]")).to_have_value("41250", timeout=10000)
+    expect(block.locator("input[data-number]")).to_have_value("41250", timeout=10000)
     expect(block.locator("input[name^='n:']")).to_have_value("read off the panel")
     expect(block.locator("[data-field-error]")).to_contain_text("more than the meter can have run")
     verdict = block.locator(".verdict.fail")
@@ -111,7 +111,7 @@ def test_a_refused_forms_readings_come_back_into_the_fields(page, context, live_
     page.reload()
     wait_app(page)
     wait_draft(page)
-    expect(block.locator("input[type=number]")).to_have_value("41250", timeout=10000)
+    expect(block.locator("input[data-number]")).to_have_value("41250", timeout=10000)
 
 
 def test_a_draft_stays_with_its_person_on_a_shared_phone(page, live_server, world, sign_in):
@@ -138,7 +138,7 @@ def test_a_draft_stays_with_its_person_on_a_shared_phone(page, live_server, worl
         page.wait_for_load_state("load")
 
     open_as(world.technician)
-    field = page.locator("form[data-checklist] [data-kind=number] input[type=number]").nth(1)
+    field = page.locator("form[data-checklist] [data-kind=number] input[data-number]").nth(1)
     field_id = field.get_attribute("id")
     field.fill("42.5")
     field.blur()

@@ -78,7 +78,7 @@ def _answer_the_rest(page):
     for block in page.locator("form[data-checklist] [data-item]").all():
         kind = block.get_attribute("data-kind")
         if kind == "number":
-            field = block.locator("input[type=number]")
+            field = block.locator("input[data-number]")
             if not field.input_value():
                 field.fill(numbers.get(block.get_attribute("data-item"), "1"))
         elif kind in ("check", "choice") and not block.locator("input[type=radio]:checked").count():
@@ -197,9 +197,9 @@ def test_a_technician_fills_a_visit_faster_and_reads_it_all_in_us_units(
     expect(dp_block.locator("[data-last]")).to_have_text(re.compile(rf"last: 0\.73 in\. w\.c\. on {on}"))
     expect(page.locator("[data-item='controls_check.supply_air'] [data-last]")).to_have_text(f"last: 58.1 °F on {on}")
     # What was typed in SI before the switch comes back in US units (14 °C is 57.2 °F), never as 14 °F.
-    expect(page.locator("[data-item='controls_check.supply_air'] input[type=number]")).to_have_value("57.2")
+    expect(page.locator("[data-item='controls_check.supply_air'] input[data-number]")).to_have_value("57.2")
     # The supply air off its set point by 2.5 K reads in °F difference.
-    page.locator("[data-item='controls_check.supply_air'] input[type=number]").fill("61.7")
+    page.locator("[data-item='controls_check.supply_air'] input[data-number]").fill("61.7")
     text = _visible_text(page)
     assert not SI_TEXT.search(text), SI_TEXT.search(text)
     assert not DEBUG_TEXT.search(text), DEBUG_TEXT.search(text)

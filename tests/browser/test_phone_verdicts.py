@@ -55,7 +55,9 @@ def test_reduced_airflow_filter_reading_fails_on_the_phone_offline_and_on_the_se
     expect(verdict).not_to_contain_text("no limit")
     expect(verdict).not_to_contain_text("Final filters:")  # its label names the bank; the reason says it once
     # The airflow itself is only recorded: no badge that reads like a pass.
-    expect(page.locator("#r-visit-supply_airflow-unit-verdict")).to_contain_text("recorded")
+    expect(page.locator("#r-visit-supply_airflow-unit-verdict")).to_contain_text(
+        "Recorded — no limit applies to this reading"
+    )
 
     block = page.locator(f"[data-item='filter_check.dp'][data-component='{bank.label_code}']")
     block.locator("summary").click()

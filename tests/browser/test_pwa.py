@@ -1,5 +1,6 @@
 """The PWA in a real browser: installable, offline-first, role pages, tenancy, accessibility, screenshots."""
 
+import json
 import re
 
 import pytest
@@ -37,9 +38,9 @@ def fill_checklist(page):
         kind = block.get_attribute("data-kind")
         key = block.get_attribute("data-item")
         if kind == "number":
-            field = block.locator("input[type=number]")
-            low = field.get_attribute("min")
-            field.fill(numbers.get(key, str(max(float(low or 0), 1.0) if low else "1")))
+            field = block.locator("input[data-number]")
+            low = ((json.loads(field.get_attribute("data-limits") or "null") or {}).get("physical") or {}).get("min")
+            field.fill(numbers.get(key, str(max(float(low), 1.0)) if low is not None else "1"))
         elif kind in ("check", "choice"):
             block.locator("input[type=radio]").first.check()
 

@@ -133,7 +133,10 @@ def test_a_bad_stretch_is_named_and_the_default_shown(client, world):
     assert page.status_code == 400
     html = page.content.decode()
     assert "Days: &#x27;400&#x27; is not allowed; allowed: a whole number from 1 to 31." in html
-    assert "From: &#x27;x&#x27; is not a date; allowed: a date as YYYY-MM-DD or DD.MM.YYYY (31 January 2026: 2026-01-31 or 31.01.2026) from 2000-01-01" in html
+    assert (
+        "From: &#x27;x&#x27; is not a date; allowed: a date as YYYY-MM-DD or DD.MM.YYYY "
+        "(31 January 2026: 2026-01-31 or 31.01.2026) from 2000-01-01"
+    ) in html
     assert 'data-chart="temperatures"' in html
     for start, words in (("2026-02-30", "is not a date"), ("1999-12-31", "is outside the days with trends")):
         html = get(

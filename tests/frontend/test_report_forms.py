@@ -78,9 +78,14 @@ def test_period_to_before_from_on_the_site_page_is_said_at_to_with_the_typed_day
         # The report window: from 2000 to ten years ahead of today (accounts.inputs.date_window).
         ("start", "0001-01-01", "From: 1 Jan 0001 is outside the days allowed, 1 Jan 2000 to "),
         ("end", "9999-12-31", "To: 31 Dec 9999 is outside the days allowed, 1 Jan 2000 to "),
-        ("start", "2026-13-45", "From: “2026-13-45” is not a date; allowed: a date as YYYY-MM-DD or DD.MM.YYYY (31 January 2026: 2026-01-31 or 31.01.2026)"),
+        (
+            "start",
+            "2026-13-45",
+            "From: “2026-13-45” is not a date; allowed: a date as YYYY-MM-DD or DD.MM.YYYY "
+            "(31 January 2026: 2026-01-31 or 31.01.2026)",
+        ),
         # Day or month first? Never guessed: the forms that are read are named, with an example.
-        ("end", "30/11/2026", "To: “30/11/2026” is not a date (with slashes it could be day or month first); allowed: "),
+        ("end", "30/11/2026", "To: “30/11/2026” is not a date (with slashes it could be day or month first); "),
         ("start", "31.02.2026", "From: “31.02.2026” is not a date; allowed: a date as YYYY-MM-DD or DD.MM.YYYY"),
     ],
 )

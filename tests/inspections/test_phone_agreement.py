@@ -762,3 +762,37 @@ def test_calculator_works_offline_with_the_server_figures(tmp_path):
                     problems.append(f"{where}: server {p}, phone {j}")
     assert not problems, f"{len(problems)} disagreements:\n" + "\n".join(problems[:20])
     assert all(answered[name] >= 100 for name in CALCULATORS), answered
+
+
+# ---------------------------------------------------------------------------
+# A typed number: accounts.inputs.parse_number (the server, and frontend.checklist_form.typed_number for the page
+# posted without scripts) against numbers.js parseNumber (the phone's form and calculator)
+# ---------------------------------------------------------------------------
+
+NUMBER_RUNNER = """
+import { readFileSync } from "node:fs";
+import { parseNumber } from "./numbers.js";
+const cases = JSON.parse(readFileSync(process.argv[2], "utf8"));
+console.log(JSON.stringify(cases.map((c) => parseNumber(c))));
+"""
+
+TYPED = [
+    "12", "12.5", "12,5", " 12,5 ", "-3,25", "+4", ".5", ",5", "5.", "5,", "1e3", "1E-2", "1,5e2",
+    "12,5a", "abc", "a12", "12..5", "1,2,3", "1.234,5", "1_000", "١٢", "Infinity", "-inf", "nan", "1e400",
+    "0x10", "12 5", "", "   ", "−5", "5 °C", "1" * 41,
+]  # fmt: skip
+
+
+def test_the_phone_reads_a_typed_number_as_the_server_does(tmp_path):
+    """Issue 19: "12,5" is 12.5 on both; "12,5a", "abc", "1_000", "١٢" and the like are no number on either (the
+    server's float() alone took "1_000" and Arabic-Indic digits; a browser's number field dropped them unseen)."""
+    from accounts.inputs import parse_number
+    from frontend.checklist_form import typed_number
+
+    phone = node_json(tmp_path, NUMBER_RUNNER, TYPED)
+    server = [parse_number(t) for t in TYPED]
+    assert phone == server, [(t, s, p) for t, s, p in zip(TYPED, server, phone, strict=True) if s != p]
+    assert dict(zip(TYPED, server, strict=True))["12,5"] == 12.5
+    assert dict(zip(TYPED, server, strict=True))["12,5a"] is None
+    # The page posted without scripts keeps what is no number as typed, for the server to name.
+    assert typed_number("12,5") == 12.5 and typed_number("12,5a") == "12,5a"

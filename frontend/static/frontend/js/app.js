@@ -19,6 +19,10 @@ export async function renderOutbox() {
   const error = (await myMeta("last_error")) || "";
   bar.querySelector("[data-outbox-error]").textContent =
     refused ? `${refused} form(s) need fixing` + (error ? `; ${error}` : "") : error;
+  // The one line: the network, and that something needs a look (its words in full are a tap away).
+  const trouble = refused ? `${refused} to fix` : error ? "not sent yet" : "";
+  bar.querySelector("[data-outbox-state]").textContent = ` · ${navigator.onLine ? "Online" : "Offline"}`;
+  bar.querySelector("[data-outbox-trouble]").textContent = trouble ? ` · ${trouble}` : "";
   bar.dataset.count = String(items.length);
   if ("outboxOptional" in bar.dataset) {
     // Not a technician: the bar is only in the way unless a form of theirs is waiting.
@@ -145,6 +149,12 @@ async function start() {
   document.addEventListener("plenum:outbox", renderOutbox);
   window.addEventListener("online", () => { renderOutbox(); syncOutbox(); });
   window.addEventListener("offline", renderOutbox);
+  const toggle = document.querySelector("[data-outbox-toggle]");
+  if (toggle) toggle.addEventListener("click", () => {
+    const details = document.querySelector("[data-outbox-details]");
+    details.hidden = !details.hidden;
+    toggle.setAttribute("aria-expanded", String(!details.hidden));
+  });
   const button = document.querySelector("[data-outbox-sync]");
   if (button) button.addEventListener("click", () => syncOutbox({ includeRefused: true }));
   for (const form of document.querySelectorAll("form[data-sign-out]")) form.addEventListener("submit", signOut);

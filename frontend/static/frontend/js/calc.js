@@ -5,6 +5,7 @@ import {
   EngineeringInputError, filterLoading, loadingPercent, fractionWords, plainMessage, oaFractionFromCo2, oaFractionFromTemperatures, pyRound, sensibleHeatW,
 } from "./evaluate.js";
 import { displayNumber, fixed, formatNumber, fromDisplay, render, unitLabel } from "./units.js";
+import { parseNumber } from "./numbers.js";
 
 // A figure in the reader's unit at the quantity's usual precision (frontend/calculators.py: _row).
 function row(ctx, label, value, quantity, system) {
@@ -50,15 +51,6 @@ function typedText(raw) {
   return text.length <= 40 ? text : `${text.slice(0, 39)}…`;
 }
 
-// A finite number from typed text ("1,5" reads 1.5), or null: accounts/inputs.py parse_number.
-function parseNumber(raw) {
-  if (typeof raw === "number") return Number.isFinite(raw) ? raw : null;
-  if (typeof raw !== "string") return null;
-  const text = raw.trim().replace(/,/g, ".");
-  if (!text || text.length > 40 || !/^[+-]?(\d+\.?\d*|\.\d+)(e[+-]?\d+)?$/i.test(text)) return null;
-  const x = Number(text);
-  return Number.isFinite(x) ? x : null;
-}
 
 /**
  * One typed number inside the input's shown range, in SI; or a message naming the field, the value and the

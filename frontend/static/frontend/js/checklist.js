@@ -5,6 +5,7 @@ import { evaluate, readingKey, reasonIn } from "./evaluate.js";
 import { formFlags } from "./formcheck.js";
 import { startFormNav } from "./formnav.js";
 import { plausibility } from "./limits.js";
+import { parseNumber } from "./numbers.js";
 import { meterPlausibleText, meterReadingCheck } from "./meter.js";
 import { newUuid, outboxPut } from "./outbox.js";
 import { attachSignature } from "./signature.js";
@@ -18,12 +19,16 @@ function evaluationContext() {
   try { return node ? JSON.parse(node.textContent) : null; } catch (error) { return null; }
 }
 
+// A number field keeps exactly what was typed (a text field: a browser's number field empties itself on "12,5a"
+// and the reading vanished unseen); numbers.js reads it as the server does, a decimal comma as a point.
+function typedText(block) {
+  const input = block.querySelector("input[data-number]");
+  return input ? input.value.trim() : "";
+}
+
 function typedNumber(block) {
-  const input = block.querySelector("input[type=number]");
-  const raw = input ? input.value.trim() : "";
-  if (raw === "") return null;
-  const value = Number(raw.replace(",", "."));
-  return Number.isNaN(value) ? null : value;
+  const raw = typedText(block);
+  return raw === "" ? null : parseNumber(raw);
 }
 
 function answer(block) {
@@ -35,7 +40,7 @@ function answer(block) {
 }
 
 function verdictBox(block) {
-  const input = block.querySelector("input[type=number]");
+  const input = block.querySelector("input[data-number]");
   if (input) return document.getElementById(`${input.id}-verdict`);
   let out = block.querySelector("output[data-verdict]");
   if (!out) {
@@ -60,13 +65,14 @@ function readingsOf(form, ctx) {
     const key = readingKey(block.dataset.item, block.dataset.component);
     const value = answer(block);
     let range = { impossible: false, improbable: false, text: "" };
-    const input = block.querySelector("input[type=number]");
+    const input = block.querySelector("input[data-number]");
     const slot = slots.get(key);
     const decimals = slot && ctx.decimals && ctx.decimals[slot.quantity] ? ctx.decimals[slot.quantity][system === "us" ? 1 : 0] : null;
     const limits = input ? JSON.parse(input.dataset.limits || "null") : null;
-    if (value === null && input && input.validity && input.validity.badInput) {
-      // The browser keeps no value for what it cannot read as a number (1e400, "12..5"): say so, never go quiet.
-      range = { impossible: true, improbable: false, unusable: true, text: plausibility(Infinity, limits, input.dataset.unit || "", decimals).allowed };
+    const typed = input ? typedText(block) : "";
+    if (value === null && typed !== "") {
+      // Typed, but no number ("12,5a", "abc", "1e400"): said at the field at once, the text kept as typed.
+      range = { impossible: true, improbable: false, unusable: true, typed, text: plausibility(Infinity, limits, input.dataset.unit || "", decimals).allowed };
     } else if (typeof value === "number") {
       range = plausibility(value, limits, input.dataset.unit || "", decimals);
       // Entered in the person's units; judged in SI, converted exactly as the server converts.
@@ -75,6 +81,12 @@ function readingsOf(form, ctx) {
     blocks.push({ block, key, value, range });
   }
   return { readings, blocks, system };
+}
+
+// "“12,5a” is not a number; allowed −40 to 60 °C, a decimal comma or point": the value as typed and what is allowed.
+function notANumber(range) {
+  const allowed = range.text ? `${range.text}, ` : "allowed ";
+  return `“${range.typed}” is not a number; ${allowed}a number with a decimal point or comma`;
 }
 
 function badge(verdict, label) {
@@ -119,8 +131,13 @@ function showVerdicts(form, ctx) {
     const out = verdictBox(block);
     if (!out) continue;
     out.replaceChildren();
+    const input = block.querySelector("input[data-number]");
+    if (input) {
+      if (range.unusable) input.setAttribute("aria-invalid", "true");
+      else input.removeAttribute("aria-invalid");
+    }
     if (range.unusable) {
-      out.append(badge("fail", "not a number"), ` not a usable number${range.text ? `; ${range.text}` : ""}`);
+      out.append(badge("fail", "not a number"), ` ${notANumber(range)}`);
       continue;
     }
     if (value === null || value === "na") continue;
@@ -165,7 +182,7 @@ function fieldOf(block, what) {
     if (details) details.open = true;
     return block.querySelector(what === "note" ? "input[name^='n:']" : "input[type=file]");
   }
-  return block.querySelector("input[type=number], textarea, input[type=radio], input[type=file]");
+  return block.querySelector("input[data-number], textarea, input[type=radio], input[type=file]");
 }
 
 function finishProblems(form, ctx) {
@@ -174,8 +191,8 @@ function finishProblems(form, ctx) {
   const answers = new Map();
   for (const { block, key, value, range } of judged.blocks) {
     const label = captionOf(block);
-    if (range.unusable) refusals.push({ key, text: `${label}: not a usable number; ${range.text}` });
-    else if (range.impossible) refusals.push({ key, text: `${label}: ${value} ${block.querySelector("input[type=number]").dataset.unit || ""} is not possible; ${range.text}` });
+    if (range.unusable) refusals.push({ key, text: `${label}: ${notANumber(range)}` });
+    else if (range.impossible) refusals.push({ key, text: `${label}: ${value} ${block.querySelector("input[data-number]").dataset.unit || ""} is not possible; ${range.text}` });
     if (key === RUN_HOURS_KEY && judged.meterCheck && judged.meterCheck.verdict === "fail") refusals.push({ key, text: judged.meterCheck.message });
   }
   for (const block of form.querySelectorAll("[data-item]")) {
@@ -269,8 +286,10 @@ async function collect(form, pad) {
     const na = block.querySelector("input[name^='na:']");
     if (na && na.checked) value = "na";
     else if (kind === "number") {
-      const raw = block.querySelector("input[type=number]").value.trim();
-      if (raw !== "") value = Number(raw.replace(",", "."));
+      const raw = typedText(block);
+      // What is no number never gets here ("Finish and sign" refuses it); were it to, it goes as typed and the
+      // server names it: nothing typed is dropped.
+      if (raw !== "") value = parseNumber(raw) ?? raw;
     } else if (kind === "text") {
       const raw = block.querySelector("textarea").value.trim();
       if (raw !== "") value = raw;
@@ -454,9 +473,9 @@ function restoreFields(form, fields, typedIn = null) {
 
 function inFormUnits(form, input, raw, typedIn) {
   const block = input.closest("[data-item]");
-  if (input.type !== "number" || !typedIn || typedIn === form.dataset.unitSystem || !block || String(raw).trim() === "") return raw;
-  const value = Number(String(raw).replace(",", "."));
-  if (!Number.isFinite(value)) return raw;
+  if (!input.hasAttribute("data-number") || !typedIn || typedIn === form.dataset.unitSystem || !block || String(raw).trim() === "") return raw;
+  const value = parseNumber(String(raw));
+  if (value === null) return raw;
   const shown = inPersonUnits(form, value, block.dataset.item, block.dataset.component || null, typedIn);
   // Two places more than the quantity is shown with: 180 Pa reads 0.7226 in. w.c., 14 °C reads 57.2 °F.
   const ctx = evaluationContext();
@@ -488,7 +507,7 @@ function putBackReading(form, reading, payloadSystem) {
   if (na) na.checked = reading.value === "na";
   if (reading.value !== "na") {
     if (block.dataset.kind === "number") {
-      const input = block.querySelector("input[type=number]");
+      const input = block.querySelector("input[data-number]");
       const value = inPersonUnits(form, Number(reading.value), reading.item, reading.component, payloadSystem);
       if (input) input.value = String(value);
     } else if (block.dataset.kind === "text") {

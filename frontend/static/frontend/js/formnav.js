@@ -2,15 +2,17 @@
 // the top), and "All pass" for a section's OK / Not OK items: every one not yet answered is marked OK, answers
 // already given (the exceptions) stay, and "Undo all pass" takes back exactly what it marked.
 
+import { parseNumber } from "./numbers.js";
+
 const ANSWERED_KINDS = new Set(["number", "check", "choice"]);
 
 function answered(block) {
   const na = block.querySelector("input[name^='na:']");
   if (na && na.checked) return true;
   if (block.dataset.kind === "number") {
-    const input = block.querySelector("input[type=number]");
-    // A number the browser cannot read (1e400, "12..5") is not an answer yet: the form says so at the field.
-    return Boolean(input && input.value.trim() !== "");
+    const input = block.querySelector("input[data-number]");
+    // Text that is no number ("12,5a") is not an answer yet: the form says so at the field.
+    return Boolean(input && parseNumber(input.value) !== null);
   }
   return Boolean(block.querySelector("input[type=radio]:checked"));
 }
