@@ -330,9 +330,10 @@ def _audit(by, fault: Fault, action: str, changes: dict) -> None:
 def work_order_moved(sender, *, work_order, before: str, by, **kwargs) -> None:
     """``scheduling.signals.work_order_moved`` receiver: completed corrective work closes the faults it answers,
     held by the fault or by its finding, and their findings (found again the next night, a fault opens anew) —
-    unless the work's own visit found the problem it was raised for (``confirming_findings``): then the fault stays
-    open and holds the repair work of that visit's finding, and closes when the repair is completed."""
-    from inspections.services.findings.closing import confirmed_for, confirming_findings
+    unless the work's own visit found the problem it was raised for (``closing.repair_awaited`` decides it, for the
+    fault's finding too): then the fault stays open and holds the repair work of that visit's finding, and closes
+    when the repair is completed."""
+    from inspections.services.findings.closing import repair_awaited
     from scheduling.models import WorkOrder
 
     if work_order.state != WorkOrder.State.COMPLETED:
@@ -347,9 +348,9 @@ def work_order_moved(sender, *, work_order, before: str, by, **kwargs) -> None:
         .order_by("pk")
         .values_list("pk", flat=True)
     )
-    confirmed = confirming_findings(work_order) if ids else {}
+    awaited = repair_awaited(work_order=work_order)
     for fault in Fault.objects.filter(pk__in=ids).select_related("finding") if ids else []:
-        held = confirmed_for(confirmed, fault.component_id)
+        held = awaited(fault.component_id)
         if held is not None:
             # The work's own test found the fault's problem (a valve leak-by test that failed): nothing was put
             # right, so the fault stays open and waits for the repair its visit's finding holds.

@@ -207,3 +207,66 @@ def test_a_coil_duty_or_temperature_out_of_range_is_refused_by_name():
     with pytest.raises(EngineeringInputError) as e:
         valve_leak_check(entering_c=20.0, leaving_c=900.0, duty="cooling")
     assert "leaving_c" in str(e.value)
+
+
+def _leak_by_test_that_finds_the_cooling_leak(unit, api_client):
+    """The FC#8 fault, its leak-by test approved and assigned, and the form that finds the cooling valve passing
+    (3.6 K across the shut coil, above the 2.68 K limit) synced: the fault."""
+    ahu, points = unit
+    put_day(points, START, FREE_COOLING)
+    with time_machine.travel(START + dt.timedelta(days=1, hours=1), tick=False):
+        unit_day_judge(ahu=ahu, day=DAY)
+    [fault] = Fault.objects.filter(ahu=ahu, state=Fault.State.OPEN)
+    wo = fault.corrective_work_order
+    supervisor = make_person(organisation=ahu.building.site.organisation, role=Role.SUPERVISOR)
+    tech = make_person(organisation=ahu.building.site.organisation, role=Role.TECHNICIAN)
+    finished = START + dt.timedelta(days=2, hours=10)
+    with time_machine.travel(finished - dt.timedelta(hours=2), tick=False):
+        wo = corrective_work_order_approve(work_order=wo, by=supervisor)
+        wo = work_order_assign(work_order=wo, assignee=tech, by=supervisor)
+    readings = [r("visit.run_hours", 5_000)]
+    for coil in ahu.components.filter(kind="coil"):
+        cooling = coil.specs.get("duty") == "cooling"
+        readings += [
+            r("coil_valve_leak.valve_closed", "ok", coil),
+            r("coil_valve_leak.settled", "ok", coil),
+            r("coil_valve_leak.leak_air_in", 14.4, coil),
+            r("coil_valve_leak.leak_air_out", 10.8 if cooling else 15.0, coil),
+        ]
+    api_client.force_authenticate(tech)
+    with time_machine.travel(finished + dt.timedelta(minutes=5), tick=False):
+        res = api_client.post(SYNC_URL, {"forms": [sync_form(wo, readings, finished_at=finished)]}, format="json")
+    assert res.status_code == 200, res.content
+    fault.refresh_from_db()
+    fault.finding.refresh_from_db()
+    return fault
+
+
+@pytest.mark.parametrize("awaited", [True, False])
+def test_one_function_decides_that_a_confirmed_leak_waits_for_its_repair(unit, api_client, monkeypatch, awaited):
+    """Whether the fault and its trend finding wait for the repair is decided once, by
+    ``inspections.services.findings.closing.repair_awaited``: the fault and the finding follow the same answer
+    (told "put right", both close as corrected; as it stands, both stay open on the repair)."""
+    from inspections.services.findings import closing
+
+    asked: list[int | None] = []
+    real = closing.repair_awaited
+
+    def decider(*, work_order):
+        decide = real(work_order=work_order)
+
+        def answer(component_id):
+            asked.append(component_id)
+            return decide(component_id) if awaited else None
+
+        return answer
+
+    monkeypatch.setattr(closing, "repair_awaited", decider)
+    fault = _leak_by_test_that_finds_the_cooling_leak(unit, api_client)
+    assert len(asked) == 2  # the trend finding's question and its fault's
+    if awaited:
+        assert (fault.state, fault.finding.state) == (Fault.State.OPEN, Finding.State.OPEN)
+        assert fault.corrective_work_order == fault.finding.corrective_work_order
+        assert fault.corrective_work_order.condition_code == "valve_leak" and fault.corrective_work_order.component
+    else:
+        assert (fault.state, fault.finding.state) == (Fault.State.CLOSED, Finding.State.CLOSED)

@@ -233,3 +233,24 @@ def test_a_shortfall_from_the_design_is_a_design_review(derived, expected):
     base = {"required_outdoor_airflow_m3s": 1.404, "design_min_outdoor_airflow_m3s": 0.75}
     assert is_design_review(check="oa_fraction_temperature", derived={**base, **derived}) is expected
     assert is_design_review(check="filter_loading", derived={**base, **derived}) is False
+
+
+@pytest.mark.django_db
+def test_a_findings_audit_reads_no_organisation_row(api_client):
+    """Closing a finding writes its audit with the finding's organisation without reading the organisation's row:
+    findings closed by the dozen (a completed work order, the trends' nightly run) cost no query each for it."""
+    from django.db import connection
+    from django.test.utils import CaptureQueriesContext
+
+    from accounts.models import AuditEvent
+    from inspections.services.findings.record import finding_close
+
+    wo, _tech, _drain, findings = _drain_pan_visit(api_client)
+    fresh = [Finding.objects.get(pk=f.pk) for f in findings]  # as a service reads them: the finding's row alone
+    with CaptureQueriesContext(connection) as seen:
+        for finding in fresh:
+            finding_close(finding, at=FINISHED + dt.timedelta(days=1), cause=Finding.CloseCause.CORRECTED, by=None,
+                          changes={})  # fmt: skip
+    assert not [q["sql"] for q in seen.captured_queries if "accounts_organisation" in q["sql"]]
+    events = AuditEvent.objects.filter(action="finding_close", object_id__in=[str(f.pk) for f in fresh])
+    assert events.count() == len(fresh) and {e.organisation_id for e in events} == {wo.organisation_id}

@@ -4,7 +4,7 @@
 from __future__ import annotations
 
 import datetime as dt
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable
 from typing import TYPE_CHECKING
 
 from django.utils import timezone
@@ -122,28 +122,7 @@ def findings_close_corrected(*, work_order: WorkOrder, by: User | None) -> list[
         else []
     )
     still_failing = [f for f in found if f.latest_inspection and f.latest_inspection.work_order_id == work_order.pk]
-    # A finding the trends keep (no visit of its own) whose problem the work's own test found: not corrected either;
-    # it waits for the repair the visit's finding holds (a valve leak-by test that failed).
-    kept = [f for f in found if f not in still_failing and f.source != Finding.Source.INSPECTION]
-    confirmed = confirming_findings(work_order) if kept else {}
-    for finding in kept:
-        held = confirmed_for(confirmed, finding.component_id)
-        if held is not None:
-            finding.corrective_work_order = held.corrective_work_order
-            finding.save(update_fields=["corrective_work_order"])
-            audit_record(
-                actor=by,
-                obj=finding,
-                action="finding_confirmed",
-                changes={"work_order": str(work_order.public_id), "finding": held.pk},
-                organisation=finding.organisation,
-            )
-            still_failing_elsewhere.append(finding)
-    closed = [f for f in found if f not in still_failing and f not in still_failing_elsewhere]
-    for finding in closed:
-        finding_close(
-            finding, at=at, cause=Finding.CloseCause.CORRECTED, by=by, changes={"work_order": str(work_order.public_id)}
-        )
+    # Their repair proposed first: a trend finding the work's test confirmed waits for that repair (below).
     groups: dict[str, list[Finding]] = {}
     for finding in still_failing:
         finding.corrective_work_order = work_order  # completed now: no longer open work for it
@@ -161,6 +140,28 @@ def findings_close_corrected(*, work_order: WorkOrder, by: User | None) -> list[
             source_ref=f"inspection:{inspection.pk}",
             site=site,
             by=by,
+        )
+    # A finding the trends keep (no visit of its own) whose problem the work's own test found: not corrected either;
+    # it waits for the repair the visit's finding holds (a valve leak-by test that failed).
+    kept = [f for f in found if f not in still_failing and f.source != Finding.Source.INSPECTION]
+    awaited = repair_awaited(work_order=work_order)
+    for finding in kept:
+        held = awaited(finding.component_id)
+        if held is not None:
+            finding.corrective_work_order = held.corrective_work_order
+            finding.save(update_fields=["corrective_work_order"])
+            audit_record(
+                actor=by,
+                obj=finding,
+                action="finding_confirmed",
+                changes={"work_order": str(work_order.public_id), "finding": held.pk},
+                organisation_id=finding.organisation_id,
+            )
+            still_failing_elsewhere.append(finding)
+    closed = [f for f in found if f not in still_failing and f not in still_failing_elsewhere]
+    for finding in closed:
+        finding_close(
+            finding, at=at, cause=Finding.CloseCause.CORRECTED, by=by, changes={"work_order": str(work_order.public_id)}
         )
     return closed
 
@@ -183,11 +184,30 @@ def confirming_findings(work_order: WorkOrder) -> dict[int | None, Finding]:
     return {f.component_id: f for f in found}
 
 
-def confirmed_for(confirmed: dict[int | None, Finding], component_id: int | None) -> Finding | None:
+def _confirmed_for(confirmed: dict[int | None, Finding], component_id: int | None) -> Finding | None:
     """The confirming finding of a part's problem (that part's), or of a unit's (any part's: FC#8 names no coil)."""
     if component_id is not None:
         return confirmed.get(component_id)
     return next(iter(confirmed.values()), None)
+
+
+def repair_awaited(*, work_order: WorkOrder) -> Callable[[int | None], Finding | None]:
+    """Decides "a confirmed problem waits for its repair", here alone for the trend findings
+    (``findings_close_corrected``) and their faults (``automation.fault_keeping.work_order_moved``) alike.
+
+    Completed work whose own visit found the condition it was raised for (``confirming_findings``: a valve leak-by
+    test that found the leak) put nothing right: what it answered on a part — or on the unit, for a rule that names
+    no part (FC#8) — waits for the repair work of that visit's finding. The answer is a question per part (a
+    component id, or None for the unit): the confirming finding whose corrective work is the repair to wait for, or
+    None when the work put it right (close it). The visit's findings are read once, at the first question."""
+    read: list[dict[int | None, Finding]] = []
+
+    def awaited(component_id: int | None) -> Finding | None:
+        if not read:
+            read.append(confirming_findings(work_order))
+        return _confirmed_for(read[0], component_id)
+
+    return awaited
 
 
 def findings_reopen_for_rework(*, work_order: WorkOrder, by: User | None) -> list[Finding]:
@@ -207,7 +227,7 @@ def findings_reopen_for_rework(*, work_order: WorkOrder, by: User | None) -> lis
             actor=by,
             obj=finding,
             action="finding_reopen",
-            organisation=finding.organisation,
+            organisation_id=finding.organisation_id,
             changes={"work_order": str(work_order.public_id), "reason": "corrective work sent back for rework"},
         )
     return found

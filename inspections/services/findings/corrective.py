@@ -208,7 +208,7 @@ def finding_work_order_attach(*, finding: Finding, work_order: WorkOrder, by: Us
         actor=acting_person(by),
         obj=locked,
         action="finding_work_order_attach",
-        organisation=locked.organisation,
+        organisation_id=locked.organisation_id,
         changes={"work_order": str(work_order.public_id), "replaced": str(held.public_id) if held else None},
     )
     work_changed(organisation_id=locked.organisation_id)  # no work order changed: nobody's today

@@ -101,7 +101,7 @@ def _observe(
         actor=by,
         obj=finding,
         action="finding_observe",
-        organisation=finding.organisation,
+        organisation_id=finding.organisation_id,
         changes={
             "inspection": inspection.pk,
             "evaluation": ev.pk,

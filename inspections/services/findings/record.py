@@ -88,6 +88,6 @@ def finding_close(
         actor=by,
         obj=finding,
         action="finding_close",
-        organisation=finding.organisation,
+        organisation_id=finding.organisation_id,
         changes={"cause": cause, **({"note": note} if note else {}), **changes},
     )
