@@ -270,3 +270,44 @@ def test_one_function_decides_that_a_confirmed_leak_waits_for_its_repair(unit, a
         assert fault.corrective_work_order.condition_code == "valve_leak" and fault.corrective_work_order.component
     else:
         assert (fault.state, fault.finding.state) == (Fault.State.CLOSED, Finding.State.CLOSED)
+
+
+def test_a_valve_that_will_not_close_is_titled_as_its_actuator_not_as_a_leak(unit, api_client):
+    """The technician finds the cooling valve will not close (its actuator stops short): the step's finding and its
+    work say so — "Coil valve not closing when commanded shut (actuator or linkage)" — never "passing water when
+    shut", which only the measured change across the shut coil may say (the leak-by readings here hold)."""
+    ahu, points = unit
+    put_day(points, START, FREE_COOLING)
+    with time_machine.travel(START + dt.timedelta(days=1, hours=1), tick=False):
+        unit_day_judge(ahu=ahu, day=DAY)
+    [fault] = Fault.objects.filter(ahu=ahu, state=Fault.State.OPEN)
+    supervisor = make_person(organisation=ahu.building.site.organisation, role=Role.SUPERVISOR)
+    tech = make_person(organisation=ahu.building.site.organisation, role=Role.TECHNICIAN)
+    finished = START + dt.timedelta(days=2, hours=10)
+    with time_machine.travel(finished - dt.timedelta(hours=2), tick=False):
+        wo = corrective_work_order_approve(work_order=fault.corrective_work_order, by=supervisor)
+        wo = work_order_assign(work_order=wo, assignee=tech, by=supervisor)
+    cooling = ahu.components.get(name="Cooling coil")
+    readings = [r("visit.run_hours", 5_000)]
+    for coil in ahu.components.filter(kind="coil"):
+        stuck = coil == cooling
+        readings += [
+            r(
+                "coil_valve_leak.valve_closed",
+                "not_ok" if stuck else "ok",
+                coil,
+                note="actuator stops at 30 %" if stuck else "",
+            ),
+            r("coil_valve_leak.settled", "ok", coil),
+            r("coil_valve_leak.leak_air_in", 14.4, coil),
+            r("coil_valve_leak.leak_air_out", 14.6 if coil.specs.get("duty") == "cooling" else 15.0, coil),
+        ]
+    api_client.force_authenticate(tech)
+    with time_machine.travel(finished + dt.timedelta(minutes=5), tick=False):
+        res = api_client.post(SYNC_URL, {"forms": [sync_form(wo, readings, finished_at=finished)]}, format="json")
+    assert res.status_code == 200, res.content
+    [finding] = Finding.objects.filter(ahu=ahu, source=Finding.Source.INSPECTION, component=cooling)
+    assert finding.title == "Coil valve not closing when commanded shut (actuator or linkage) — Cooling coil"
+    assert "passing water" not in finding.title
+    repair = finding.corrective_work_order
+    assert repair.title.startswith("Coil valve not closing when commanded shut (actuator or linkage) — Cooling coil")

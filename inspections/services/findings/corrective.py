@@ -15,7 +15,7 @@ from accounts.services import audit_record
 from inventory.models import Component, Site
 
 from ...models import Finding, Inspection
-from .problems import CONDITION_TITLES, FILTER_BYPASS_TITLE, FREEZE_LEAD_DAYS, PRIORITY, SEVERITY_ORDER
+from .problems import CONDITION_TITLES, FILTER_BYPASS_TITLE, FREEZE_LEAD_DAYS, PRIORITY, SEVERITY_ORDER, STEP_TITLES
 from .record import acting_person
 
 if TYPE_CHECKING:
@@ -113,8 +113,11 @@ def corrective_for_group(
         worst = max((f.severity for f in findings), key=SEVERITY_ORDER.index)
         if condition:
             title = CONDITION_TITLES.get(condition, findings[0].title)
-            if all(f.title.startswith(FILTER_BYPASS_TITLE) for f in findings):
-                title = FILTER_BYPASS_TITLE  # not a loaded filter: its media is missing, torn or bypassed
+            for own in (FILTER_BYPASS_TITLE, *STEP_TITLES.values()):
+                # Not the condition's problem (a filter's media missing, torn or bypassed; a valve that will not
+                # close): the work says what its findings say.
+                if all(f.title.startswith(own) for f in findings):
+                    title = own
             title += f" — {component.name}" if component is not None else _parts_named(findings)
         else:
             title = findings[0].title

@@ -70,6 +70,14 @@ CONDITION_TITLES = {
     "freeze_protection_failed": "Freeze protection failed",
     "valve_leak": "Coil valve passing water when shut",
 }
+# A step whose failure is another problem than the one its test's condition names, in its own words: a coil valve
+# that will not close is its actuator or linkage (the step's help says so), not water passing a shut seat.
+STEP_TITLES = {
+    "coil_valve_leak.valve_closed": "Coil valve not closing when commanded shut (actuator or linkage)",
+}
+# Conditions whose title says what a measurement found (the leak-by test's change across the shut coil): the test's
+# other failed steps are titled by the test ("Coil valve leak-by test: <step>"), never by that finding.
+MEASURED_CONDITIONS = frozenset({"valve_leak"})
 # Condition codes the scheduling engine knows (each has its title above); other fails raise corrective work without one.
 KNOWN_CONDITIONS = frozenset(CONDITION_TITLES)
 # A filter reading below its clean pressure drop is about missing or bypassed media, not loading.
@@ -140,10 +148,11 @@ def finding_title(
     if res.check in FILTER_CHECKS and (getattr(res, "derived", None) or {}).get("media_bypass_suspected") is True:
         words = FILTER_BYPASS_TITLE
     if words is None and res.check in STEP_CHECKS:
+        words = STEP_TITLES.get(res.item)
         found = labels.get(res.item)
-        if found is not None:
+        if words is None and found is not None:
             test, step = found
-            words = f"{CONDITION_TITLES.get(condition, test)}: {step}"
+            words = f"{test if condition in MEASURED_CONDITIONS else CONDITION_TITLES.get(condition, test)}: {step}"
     if words is None:
         words = CONDITION_TITLES.get(condition, "Deficiency")
     return title_fit(words + where, limit=TITLE_MAX)
