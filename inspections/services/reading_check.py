@@ -151,7 +151,7 @@ def run_hours_check(parsed: Parsed, raw_readings: list[Any], errors: Errors) -> 
     i = next(
         (n for n, raw in enumerate(raw_readings) if isinstance(raw, dict) and raw.get("item") == "visit.run_hours"), 0
     )
-    neighbours = meter_neighbours(ahu=parsed.work_order.ahu, component=None, taken_at=parsed.finished_at)
+    neighbours = meter_neighbours(ahu=parsed.work_order.ahu, component=None, taken_at=finished_at)
     if parsed.unit_locked:  # read under the request's lock of the unit: the store checks against the same read
         parsed.meter_neighbours = neighbours
     try:
