@@ -352,10 +352,12 @@ def test_a_meter_reading_leaves_every_answer_kept_and_right(world):
 # --- ETag round trip -------------------------------------------------------------------------------------------
 def test_etag_round_trip(world):
     """200 with an ETag; the same ETag in If-None-Match gets 304 with no body (kept or not); after a change,
-    200 with a new ETag, and the old one no longer matches."""
+    200 with a new ETag, and the old one no longer matches. Another technician's ETag still gets 304 from their
+    kept answer (one query)."""
     client = world.a.today
     first = client.get(TODAY_URL)
     assert first.status_code == 200 and first["ETag"]
+    theirs = world.a.other.get(TODAY_URL)["ETag"]
     for _ in range(2):  # built by the view, then from the kept answer
         again = client.get(TODAY_URL, HTTP_IF_NONE_MATCH=first["ETag"])
         assert again.status_code == 304 and again.content == b""
@@ -366,3 +368,6 @@ def test_etag_round_trip(world):
     assert "Belt check" in today_titles(changed.json())
     assert client.get(TODAY_URL, HTTP_IF_NONE_MATCH=changed["ETag"]).status_code == 304
     assert world.b.today.get(TODAY_URL, HTTP_IF_NONE_MATCH=first["ETag"]).status_code == 200
+    with CaptureQueriesContext(connection) as seen:
+        unchanged = world.a.other.get(TODAY_URL, HTTP_IF_NONE_MATCH=theirs)
+    assert unchanged.status_code == 304 and len(seen) == 1
