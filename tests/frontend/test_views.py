@@ -249,3 +249,34 @@ def test_a_completed_work_orders_page_opens_on_its_result_not_on_safety_banners(
     folded = re.search(r"<details[^>]*data-done-cautions.*?</details>", page, re.S)
     assert folded and "licensed practice" in folded.group(0)
     assert 'class="caution"' not in page.replace(folded.group(0), "")
+
+
+def test_dashboard_queries_do_not_grow_with_units_that_have_a_history(client, clock):
+    """A property manager given five times the units, each with a year of visits, readings, findings, filter
+    banks, overdue work and freeze protection (the benchmark's synthetic portfolio, invented), sees every one of
+    their sites with the same number of queries: the figures of all units are read together, not unit by unit."""
+    from django.db import connection
+    from django.test.utils import CaptureQueriesContext
+
+    from accounts.models import User
+    from accounts.services import site_grant
+    from bench.generate import portfolio_generate
+    from inventory.models import AHU, Site
+    from tests.conftest import TEST_NOW
+
+    portfolio = portfolio_generate(sites=10, ahus=60, years=1, seed=3, today=TEST_NOW.date())  # the clock's day
+    manager = User.objects.get(username=portfolio.main.property_manager)
+    client.force_login(manager)
+    client.get(reverse("frontend:dashboard"))  # the process's first page reads what it keeps
+    with CaptureQueriesContext(connection) as few:
+        client.get(reverse("frontend:dashboard"))
+    organisation = manager.memberships.get().organisation
+    sites = list(Site.objects.filter(organisation=organisation))
+    granted = manager.site_grants.count()  # the portfolio grants its manager a fifth of its sites
+    for site in sites:
+        site_grant(user=manager, site=site)
+    with CaptureQueriesContext(connection) as many:
+        html = client.get(reverse("frontend:dashboard")).content.decode()
+    assert len(sites) == 10 and granted == 2 and AHU.objects.filter(building__site__in=sites).count() == 60
+    assert all(site.name in html for site in sites)
+    assert len(many) == len(few), f"{granted} sites: {len(few)} queries; {len(sites)} sites: {len(many)}"
