@@ -23,7 +23,8 @@ def test_a_blank_or_unusable_field_offline_clears_the_old_figure_and_names_the_f
 ):
     """Offline, a US technician works a filter figure (1.26 in. w.c., fail), then empties the final pressure
     drop: the old figure goes and the page says which field is missing and what it takes. Typing 1e400 (more
-    than any number the phone holds; the browser drops it) says "not a usable number" with the range."""
+    than any number the phone holds) says it is "not a usable number" with the range. A decimal comma is a decimal
+    point: 0,75 is 0.75 (issue 19: a browser's number field had turned it into 75 unseen)."""
     from tests.frontend import scenario as scenario_module
 
     world = scenario_module.build(unit_system="us")
@@ -53,7 +54,14 @@ def test_a_blank_or_unusable_field_offline_clears_the_old_figure_and_names_the_f
 
     final.press_sequentially("1e400")
     form.get_by_role("button", name="Calculate").click()
-    expect(result).to_contain_text(f"Final pressure drop: not a usable number; allowed {ALLOWED}")
+    expect(result).to_contain_text(f"Final pressure drop: 1e400 is not a usable number; allowed {ALLOWED}")
     expect(result.locator("table")).to_have_count(0)
     expect(form.locator("#filter-loading-final_dp_pa-allowed")).to_have_text(f"Allowed {ALLOWED}")
     form.screenshot(path=str(screenshots / "calculator-unusable-offline.png"))
+
+    final.fill("1,20")
+    form.locator("input[name='dp_pa']").fill("0,75")
+    expect(form.locator("input[name='dp_pa']")).to_have_value("0,75")
+    form.get_by_role("button", name="Calculate").click()
+    expect(result).to_contain_text("1.26 in. w.c.")
+    expect(result).to_contain_text("final 1.20 in. w.c.")

@@ -245,7 +245,7 @@ def test_a_technician_fills_a_visit_faster_and_reads_it_all_in_us_units(
     page.goto(f"{live_server.url}/calc/")
     wait_app(page)
     for form in page.locator("form[data-calc]").all():
-        for field in form.locator("input[type=number]").all():
+        for field in form.locator("input[data-number]").all():
             field.fill(typed[field.get_attribute("name")])
         form.get_by_role("button", name="Calculate").click()
         expect(form.locator("[data-calc-result] table")).to_be_visible()

@@ -2,6 +2,7 @@
 // proven equal by the agreement test), online or offline; the server answers only if the page came without
 // its calculator context.
 import { calculate } from "./calc.js";
+import { parseNumber } from "./numbers.js";
 
 function calculatorContext() {
   const node = document.getElementById("calculator-context");
@@ -12,22 +13,21 @@ function csrfToken() {
   return match ? decodeURIComponent(match[1]) : "";
 }
 
-// What each field holds: its text, NaN where the browser dropped what was typed (1e400 in a number field reads
-// as ""; validity.badInput tells it apart from a blank), a choice's value.
+// What each field holds: its text as typed (a number field is a text field: a browser's number field turned
+// "12,5" into 125 unseen), a choice's value; calc.js reads the numbers as the server does (numbers.js).
 function typedValues(form) {
-  return Object.fromEntries([...form.querySelectorAll("input[type=number], select")].map((i) => [i.name, i.validity && i.validity.badInput ? NaN : i.value]));
+  return Object.fromEntries([...form.querySelectorAll("input[data-number], select")].map((i) => [i.name, i.value]));
 }
 
 // Without the calculator context (a page from before it): the shown ranges only, in the server's words.
 function rangeProblems(form) {
   const problems = [];
-  for (const input of form.querySelectorAll("input[type=number]")) {
+  for (const input of form.querySelectorAll("input[data-number]")) {
     const label = form.querySelector(`label[for="${input.id}"]`).textContent;
     const allowed = input.dataset.allowed || "";
-    const v = Number(input.value);
-    if (input.validity && input.validity.badInput) { problems.push(`${label}: not a usable number; allowed ${allowed}`); continue; }
+    const v = parseNumber(input.value);
     if (input.value.trim() === "") { problems.push(`${label}: missing; enter a number ${allowed}`); continue; }
-    if (!Number.isFinite(v)) { problems.push(`${label}: ${input.value} is not a usable number; allowed ${allowed}`); continue; }
+    if (v === null) { problems.push(`${label}: ${input.value.trim()} is not a usable number; allowed ${allowed}`); continue; }
     const lo = input.dataset.min === undefined ? null : Number(input.dataset.min);
     const hi = input.dataset.max === undefined ? null : Number(input.dataset.max);
     if ((lo !== null && v < lo) || (hi !== null && v > hi)) problems.push(`${label}: ${input.value} ${input.dataset.unit} is outside the allowed range, ${allowed}`);
@@ -67,7 +67,7 @@ async function run(form) {
     return;
   }
   if (problems.length) { show(box, [], problems, ""); return; }
-  const values = Object.fromEntries([...form.querySelectorAll("input[type=number], select")].map((i) => [i.name, i.value]));
+  const values = typedValues(form);
   try {
     const response = await fetch(`/api/calc/${form.dataset.calc}/`, {
       method: "POST", credentials: "same-origin",
