@@ -29,6 +29,7 @@ from brickschema.namespaces import BRICK, QUDT, REC, UNIT
 from django.db import models
 from rdflib import RDF, RDFS, Literal, Namespace, URIRef
 
+from engineering.formatting import count_text
 from inventory.models import AHU, Component, Site
 from inventory.specs import SpecErrors, validate_specs
 
@@ -80,7 +81,7 @@ class BrickProblem:
 class BrickImportFailed(Exception):
     def __init__(self, problems: list[BrickProblem]):
         self.problems = problems
-        super().__init__(f"{len(problems)} problem(s) found in the Brick model; nothing was imported")
+        super().__init__(f"{count_text(len(problems), 'problem')} found in the Brick model; nothing was imported")
 
 
 # ---------------------------------------------------------------------------

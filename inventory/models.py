@@ -15,6 +15,7 @@ from django.urls import reverse
 from django.utils import timezone
 
 from accounts.models import Organisation
+from engineering.formatting import count_text
 from engineering.ventilation import ZONE_AIR_DISTRIBUTION_EFFECTIVENESS
 
 from .specs import SPECS, SpecErrors, validate_specs
@@ -119,7 +120,13 @@ class Site(models.Model):
                 raise ValidationError({name: exc.messages}) from None
         bad = [m + 1 for m, (lo, hi) in enumerate(zip(self.normals_min_c, self.normals_max_c, strict=True)) if lo > hi]
         if bad:
-            raise ValidationError({"normals_max_c": f"monthly maximum is below the minimum in month(s) {bad}"})
+            raise ValidationError(
+                {
+                    "normals_max_c": f"monthly maximum is below the minimum in {count_text(len(bad), 'month')} (month "
+                    + ", ".join(str(m) for m in bad)
+                    + ")"
+                }
+            )
 
 
 class Building(models.Model):

@@ -38,6 +38,7 @@ from engineering.faults.consequences import CONSEQUENCES, Consequence
 from engineering.faults.rules import RULES, SECTION, FaultRule, oa_fraction
 from engineering.faults.states import OperatingState, changes_since, operating_states
 from engineering.faults.thresholds import G36_DEFAULTS, FaultThresholds
+from engineering.formatting import count_text
 
 Time = datetime | float
 
@@ -188,7 +189,7 @@ def evaluate_ahus(
         missing = [r for r in rule.needs if r not in raw]
         reason = ""
         if missing:
-            reason = "missing point(s): " + ", ".join(missing)
+            reason = f"missing {count_text(len(missing), 'point')}: " + ", ".join(missing)
         elif not have_states and set(rule.states) != {1, 2, 3, 4, 5}:
             reason = "operating states unknown (no oa_damper/oa_damper_min)"
         elif rule.condition is None and base.step_s > t.state_window_s / (t.max_state_changes + 1):

@@ -13,6 +13,8 @@ from typing import Any, TextIO
 
 from django.core.exceptions import NON_FIELD_ERRORS
 
+from engineering.formatting import count_text
+
 from ..specs import SPECS
 
 KINDS = ("sites", "ahus", "components")
@@ -37,7 +39,7 @@ class RowError:
 class ImportFailed(Exception):
     def __init__(self, errors: list[RowError]):
         self.errors = errors
-        super().__init__(f"{len(errors)} problem(s) found; nothing was imported")
+        super().__init__(f"{count_text(len(errors), 'problem')} found; nothing was imported")
 
 
 @dataclass

@@ -16,6 +16,7 @@ from django.utils.dateparse import parse_datetime
 
 from accounts.inputs import EARLIEST_DATE, in_zone, local_text, reading_time_problem, shown, text_problem
 from accounts.models import Organisation, User
+from engineering.formatting import count_text
 from inventory.models import AHU, Component
 
 from ..models import MeterReading
@@ -320,8 +321,8 @@ def meter_readings_import_csv(*, organisation: Organisation, text: str, by: User
         raise ValidationError(
             {
                 "file": [
-                    f"missing column(s) {', '.join(missing)}; expected {', '.join(CSV_COLUMNS)}"
-                    f" and optionally {', '.join(CSV_OPTIONAL)}"
+                    f"missing {count_text(len(missing), 'column')} ({', '.join(missing)}); "
+                    f"expected {', '.join(CSV_COLUMNS)} and optionally {', '.join(CSV_OPTIONAL)}"
                 ]
             }
         )

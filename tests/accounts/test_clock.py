@@ -122,3 +122,30 @@ def test_the_phone_writes_every_moment_as_the_server_does(tmp_path, node):
     phone = json.loads(run.stdout)
     problems = [f"{c}: server {s!r}, phone {p!r}" for c, s, p in zip(cases, expected, phone, strict=True) if s != p]
     assert not problems, "\n".join(problems[:10])
+
+
+COUNT_RUNNER = """
+import { readFileSync } from "node:fs";
+import { countText } from "./units.js";
+const cases = JSON.parse(readFileSync(process.argv[2], "utf8"));
+console.log(JSON.stringify(cases.map((c) => countText(c.n, c.noun, c.plural))));
+"""
+
+
+def test_the_phone_counts_with_its_noun_as_the_server_does(tmp_path, node):
+    """The phone's ``countText`` (units.js; the outbox bar's "1 form needs fixing") says a count as the server's
+    ``engineering.formatting.count_text`` does, word for word — never "form(s)"."""
+    from engineering.formatting import count_text
+
+    cases = [{"n": n, "noun": noun, "plural": plural} for n in (0, 1, 2, 12) for noun, plural in
+             (("form", None), ("finished form", None), ("child", "children"))]  # fmt: skip
+    (tmp_path / "runner.mjs").write_text(COUNT_RUNNER)
+    for f in JS.glob("*.js"):
+        (tmp_path / f.name).write_text(f.read_text())
+    (tmp_path / "cases.json").write_text(json.dumps(cases))
+    run = subprocess.run(
+        ["node", "runner.mjs", "cases.json"], capture_output=True, text=True, timeout=120, cwd=tmp_path, check=False
+    )
+    assert run.returncode == 0, run.stderr
+    assert json.loads(run.stdout) == [count_text(c["n"], c["noun"], c["plural"]) for c in cases]
+    assert "(s)" not in (JS / "app.js").read_text()

@@ -79,6 +79,7 @@ def test_import_lists_every_problem_and_saves_nothing(plant):
     assert "Supply_Air_Temperature_Sensor" in problems["brick_class"].reason
     assert not Site.objects.filter(organisation=fresh).exists()
     assert not AHU.objects.filter(building__site__organisation=fresh).exists()
+    assert str(caught.value).startswith("3 problems found in the Brick model")
 
 
 def test_import_refuses_text_that_is_not_turtle(db):
@@ -86,3 +87,4 @@ def test_import_refuses_text_that_is_not_turtle(db):
     with pytest.raises(BrickImportFailed) as caught:
         site_brick_import(organisation=OrganisationFactory(), text="this is { not turtle")
     assert caught.value.problems[0].field == "turtle"
+    assert str(caught.value) == "1 problem found in the Brick model; nothing was imported"  # a count, not "(s)"

@@ -55,7 +55,7 @@ def test_three_forms_the_middle_one_refused(page, context, live_server, world, s
     expect(pending).to_contain_text("The server refused this form", timeout=20000)
     expect(pending).to_contain_text("control characters")
     expect(pending).not_to_contain_text("readings[0]")
-    expect(page.locator("[data-outbox-error]")).to_contain_text("1 form(s) need fixing")
+    expect(page.locator("[data-outbox-error]")).to_contain_text("1 form needs fixing")
     page.screenshot(path=screenshots / "technician-outbox-refused-360.png", full_page=True)
 
     stored = set(Inspection.objects.values_list("client_uuid", flat=True))

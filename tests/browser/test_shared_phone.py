@@ -103,7 +103,8 @@ def test_two_technicians_one_phone(page, live_server, world, sign_in, monkeypatc
         page.get_by_role("button", name="Sign out").click()
     accept(second.value)
     expect(page).to_have_url(re.compile(r"/login/"))
-    assert warnings and "1 finished form(s)" in warnings[0] and "next time you sign in" in warnings[0]
+    assert warnings and "1 finished form of yours has not reached the server yet" in warnings[0]
+    assert "next time you sign in" in warnings[0]
     assert page.evaluate(DATA_CACHES) == {}
     [(uuid, tess_owner, work)] = page.evaluate(OUTBOX)
     assert tess_owner and work == str(world.work_a.public_id)

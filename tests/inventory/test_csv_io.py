@@ -45,6 +45,7 @@ def test_bad_site_rows_import_nothing_and_each_problem_is_reported():
     assert "not a number" in found[(4, "longitude")].reason
     assert "12 monthly values" in found[(5, "normals_min_c")].reason
     assert Site.objects.count() == 0
+    assert str(exc.value) == f"{len(exc.value.errors)} problems found; nothing was imported"
 
 
 @pytest.mark.django_db

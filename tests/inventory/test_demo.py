@@ -93,4 +93,4 @@ def test_command_prints_logins_twice_the_same(db, capsys):
     second = capsys.readouterr().out
     assert "role" in first and "ruth.supervisor" in first and "plenum-demo-1" in first
     assert first.splitlines()[1:] == second.splitlines()[1:]
-    assert "0 record(s) created or changed" in second
+    assert "0 records created or changed" in second

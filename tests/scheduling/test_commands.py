@@ -94,7 +94,7 @@ def test_meter_import_names_missing_columns(tmp_path):
     ahu = AHUFactory()
     path = tmp_path / "meters.csv"
     path.write_text(f"unit,hours\n{ahu.label_code},10\n")
-    with pytest.raises(CommandError, match=r"missing column\(s\) unit_label, taken_at; expected"):
+    with pytest.raises(CommandError, match=r"missing 2 columns \(unit_label, taken_at\); expected"):
         call_command("import_meter_readings", str(path), organisation=ahu.building.site.organisation.slug)
     out = StringIO()
     path.write_text(f"unit_label,taken_at,hours\n{ahu.label_code},2025-01-10 08:00,10\n")

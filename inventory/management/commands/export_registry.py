@@ -5,6 +5,7 @@ from pathlib import Path
 
 from django.core.management.base import BaseCommand, CommandError
 
+from engineering.formatting import count_text
 from inventory import csv_io
 from inventory.models import Site
 
@@ -35,4 +36,4 @@ class Command(BaseCommand):
                 count = csv_io.registry_export(kind=kind, sites=sites, out=out)
         except OSError as exc:
             raise CommandError(f"cannot write {file}: {exc.strerror}") from None
-        self.stdout.write(f"{kind}: wrote {count} row(s) to {file}")
+        self.stdout.write(f"{kind}: wrote {count_text(count, 'row')} to {file}")

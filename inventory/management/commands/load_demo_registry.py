@@ -2,6 +2,7 @@
 
 from django.core.management.base import BaseCommand
 
+from engineering.formatting import count_text
 from inventory.demo import demo_logins_table, demo_registry_load
 
 
@@ -11,7 +12,8 @@ class Command(BaseCommand):
     def handle(self, *args, **options):
         loaded = demo_registry_load()
         self.stdout.write(
-            f"Demo registry: {len(loaded['sites'])} sites, {len(loaded['buildings'])} buildings, "
-            f"{len(loaded['ahus'])} units; {loaded['changed']} record(s) created or changed."
+            f"Demo registry: {count_text(len(loaded['sites']), 'site')}, "
+            f"{count_text(len(loaded['buildings']), 'building')}, {count_text(len(loaded['ahus']), 'unit')}; "
+            f"{count_text(loaded['changed'], 'record')} created or changed."
         )
         self.stdout.write(demo_logins_table(loaded["logins"]))

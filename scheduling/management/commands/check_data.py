@@ -2,6 +2,7 @@
 
 from django.core.management.base import BaseCommand
 
+from engineering.formatting import count_text
 from scheduling.services.data_check import stored_data_check
 
 
@@ -21,6 +22,6 @@ class Command(BaseCommand):
             self.stdout.write(f"problem: {line}")
         for line in result.repaired:
             self.stdout.write(f"repaired: {line}")
-        self.stdout.write(f"{len(result.problems)} problem(s) found, {len(result.repaired)} repaired")
+        self.stdout.write(f"{count_text(len(result.problems), 'problem')} found, {len(result.repaired)} repaired")
         if result.problems and not repair:
             self.stdout.write("run again with --repair to empty what can be emptied safely; correct the rest by hand")

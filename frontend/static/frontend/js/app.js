@@ -1,7 +1,7 @@
 // App start: service worker, the outbox bar, replay on start and on reconnect, page modules, sign-out.
 // A shared phone: the bar counts only the signed-in person's forms; the worker keeps only their pages.
 import { currentOwner, myMeta, myOutbox, syncOutbox } from "./sync.js";
-import { pageClock, timeText } from "./units.js";
+import { countText, pageClock, timeText } from "./units.js";
 
 // As the server writes times: on the clock the page ships (the site's, or where the person works), zone named.
 function formatTime(iso) {
@@ -18,7 +18,7 @@ export async function renderOutbox() {
   bar.querySelector("[data-outbox-network]").textContent = navigator.onLine ? "Online" : "Offline";
   const error = (await myMeta("last_error")) || "";
   bar.querySelector("[data-outbox-error]").textContent =
-    refused ? `${refused} form(s) need fixing` + (error ? `; ${error}` : "") : error;
+    refused ? `${countText(refused, "form")} ${refused === 1 ? "needs" : "need"} fixing` + (error ? `; ${error}` : "") : error;
   // The one line: the network, and that something needs a look (its words in full are a tap away).
   const trouble = refused ? `${refused} to fix` : error ? "not sent yet" : "";
   bar.querySelector("[data-outbox-state]").textContent = ` · ${navigator.onLine ? "Online" : "Offline"}`;
@@ -61,7 +61,7 @@ async function signOut(event) {
   if (waiting.length) {
     const refused = waiting.filter((i) => i.state === "refused").length;
     const ok = window.confirm(
-      `${waiting.length} finished form(s) of yours have not reached the server yet` +
+      `${countText(waiting.length, "finished form")} of yours ${waiting.length === 1 ? "has" : "have"} not reached the server yet` +
       (refused ? ` (${refused} refused and need fixing)` : "") +
       ". They stay on this phone, hidden from anyone else, and are sent the next time you sign in here. " +
       "Sign out anyway? (Cancel to stay and send them.)");

@@ -10,6 +10,14 @@ function spec(units, quantity, system) {
   return q[system === "us" ? "us" : "si"];
 }
 
+/**
+ * A count with its noun as people say it, "1 form", "3 forms": the phone's twin of the server's
+ * ``engineering.formatting.count_text`` (``plural`` where adding "s" is wrong).
+ */
+export function countText(n, noun, plural) {
+  return `${n} ${n === 1 ? noun : plural || `${noun}s`}`;
+}
+
 /** Stored SI value → the person's display unit. */
 export function toDisplay(units, value, quantity, system) {
   if (value === null || value === undefined) return value;
