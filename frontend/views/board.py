@@ -16,6 +16,7 @@ from accounts.inputs import date_problem
 from accounts.models import User
 from inspections.selectors import corrective_work_already_resolved, flagged_forms_for
 from inventory.today import today_for
+from scheduling.due_basis import due_bases
 from scheduling.inputs import stored_problems
 from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
 from scheduling.selectors import (
@@ -123,8 +124,11 @@ def board(request):
     resolved = corrective_work_already_resolved(
         work_order_ids=[facts[r["id"]]["pk"] for r in rows if r["kind"] == WorkOrder.Kind.CORRECTIVE]
     )
+    # A run-hour task's due date says the meter it was projected from (scheduling.due_basis).
+    bases = due_bases(work_order_ids=[facts[r["id"]]["pk"] for r in rows], today=today)
     for r in rows:
         r["findings_resolved"] = facts[r["id"]]["pk"] in resolved
+        r["due_basis"] = bases.get(facts[r["id"]]["pk"], "")
     columns = [
         {"key": key, "title": title, "rows": data[key], "total": data["counts"][key]}
         for key, title in (("overdue", "Overdue"), ("due", "Due, not assigned"), ("assigned", "Assigned"))
