@@ -35,6 +35,7 @@ from reports.documents.common import shown
 from reports.documents.history_cells import judged_cells
 from scheduling.models import WorkOrder
 
+from .automation_faults import site_choice
 from .technician import photo_urls, unit_records_context
 
 SEVERITY_ORDER = {"critical": 0, "high": 1, "medium": 2, "low": 3}
@@ -112,11 +113,10 @@ def _filters(request, sites) -> tuple[dict, dict]:
     severities = {"": "any", **{v: label.lower() for v, label in Finding.Severity.choices}}
     severity = _choice(severity_raw, severities, label="Severity", errors=errors)
     site_raw = request.GET.get("site", "").strip()
-    site = None
-    if site_raw:
-        site = next((s for s in sites if str(s.pk) == site_raw), None)
-        if site is None:
-            errors["site"] = f"Site: {site_raw[:40]!r} is not one of your sites; choose one from the list"
+    # The faults pages' own site filter: the same refusal for a site she may not see, a word or no site at all.
+    site, problem = site_choice(site_raw, sites)
+    if problem:
+        errors["site"] = problem
     return {"state": state or "open", "severity": severity, "site": site, "site_raw": site_raw[:40]}, errors
 
 

@@ -83,8 +83,9 @@ def test_filters_by_state_site_and_severity_and_name_a_bad_value_at_its_field(w,
     assert f'data-finding="{w.finding_a.pk}"' in client.get(f"/site-findings/?site={w.s.site_a.pk}").content.decode()
     assert f'data-finding="{w.finding_a.pk}"' not in client.get("/site-findings/?severity=low").content.decode()
     for query, field, words in (
-        (f"site={w.s.site_b.pk}", "site", f"Site: '{w.s.site_b.pk}' is not one of your sites"),
-        ("site=abc", "site", "Site: 'abc' is not one of your sites"),
+        (f"site={w.s.site_b.pk}", "site", f"Site: '{w.s.site_b.pk}' is not one of the sites you may see"),
+        ("site=abc", "site", "Site: 'abc' is not one of the sites you may see; choose one of the list."),
+        ("site=999999", "site", "Site: '999999' is not one of the sites you may see; choose one of the list."),
         ("severity=dreadful", "severity", "Severity: 'dreadful' is not offered; allowed: any, low, medium, high"),
         ("state=maybe", "state", "State: 'maybe' is not offered; allowed: Open, Closed"),
     ):
@@ -93,6 +94,24 @@ def test_filters_by_state_site_and_severity_and_name_a_bad_value_at_its_field(w,
         html = res.content.decode()
         assert f'id="ff-{field}-error"' in html and words in text_of(html).replace("&#x27;", "'"), query
         assert "data-manager-findings" not in html
+
+
+def test_an_unseen_site_is_refused_in_the_faults_pages_own_words(w, client):
+    """Her findings and her faults answer a site she may not see with the same 400 and the same sentence
+    (frontend.views.automation_faults.site_choice): she never reads two rules for one filter."""
+    client.force_login(w.s.manager_a)
+    for query in (f"site={w.s.site_b.pk}", "site=abc", "site=999999"):
+        findings = client.get(f"/site-findings/?{query}")
+        faults = client.get(f"/faults/?{query}")
+        assert (findings.status_code, faults.status_code) == (400, 400), query
+        said = [
+            re.search(
+                r"Site: '[^']*' is not one of the sites you may see; choose one of the list\.",
+                text_of(r.content.decode()).replace("&#x27;", "'"),
+            )
+            for r in (findings, faults)
+        ]
+        assert all(said) and said[0].group(0) == said[1].group(0), query
 
 
 def test_finding_page_shows_photos_history_corrective_work_and_record_form(w, client):
