@@ -15,7 +15,7 @@ import pytest
 import time_machine
 from django.core.management import call_command
 
-from automation.demo import FILTER, FREEZE_NIGHT, LEAKING_VALVE, SEEDED, STUCK_DAMPER
+from automation.demo_values import FILTER, FREEZE_NIGHT, LEAKING_VALVE, SEEDED, STUCK_DAMPER
 from automation.models import Fault, FilterDay, Point, TrendDay
 from inspections.freeze import NOT_READY, freeze_readiness
 from inspections.models import Finding, Reading
