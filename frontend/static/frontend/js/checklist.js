@@ -320,8 +320,8 @@ function el(tag, attrs = {}, ...children) {
   return node;
 }
 
-// Words a person reads for the server's codes (as the server's own rendering, inspections/display.py).
-// The verdicts' labels (engineering/controls.py Verdict, as inspections/display.py VERDICT_WORDS reads them).
+// Words a person reads for the server's codes (as the server's own rendering, inspections/display/).
+// The verdicts' labels (engineering/controls.py Verdict, as inspections.display VERDICT_WORDS reads them).
 const VERDICT_WORDS = { ok: "OK", watch: "Watch", fail: "Fail", na: "Not applicable" };
 const STATUS_WORDS = {
   stored: "stored", flagged: "flagged for the supervisor", verified: "verified", duplicate: "already received",

@@ -54,7 +54,7 @@ function rangeParts(low, high, quantity, lowOpen = false, highOpen = false) {
   return out.length ? out : ["any finite number"];
 }
 
-/** An engineering refusal as reason parts: its numbers as SI quantities when it has them (inspections/display.py: refusal_parts). */
+/** An engineering refusal as reason parts: its numbers as SI quantities when it has them (inspections.display: refusal_parts). */
 export function refusalParts(exc) {
   return exc && exc.parts && exc.parts.length ? [...exc.parts] : [plainMessage(exc)];
 }
