@@ -23,6 +23,7 @@ from accounts.api_errors import ErrorOutput
 from accounts.inputs import FieldErrors, check_reading_time
 from accounts.selectors import does_field_work, technician_of
 from inventory.selectors import ahus_visible_to, sites_visible_to
+from inventory.today import today_for
 
 from . import serializers as s
 from .api_answers import over_capacity_answer, revalidated, work_order_answer
@@ -36,6 +37,7 @@ from .api_requests import (
     work_order_managed,
     work_order_seen,
 )
+from .due_basis import due_bases
 from .models import MeterReading, OutdoorTemperature, WorkOrder
 from .selectors import (
     BOARD_LIMIT_MAX,
@@ -93,8 +95,9 @@ class WorkOrderList(APIView):
             qs = qs.filter(state=request.query_params["state"])
         if request.query_params.get("site"):
             qs = qs.filter(ahu__building__site__code=request.query_params["site"])
-        qs = qs.order_by("due_date", "id")[:500]
-        return Response(s.WorkOrderOutput(qs, many=True).data)
+        orders = list(qs.order_by("due_date", "id")[:500])
+        bases = due_bases(work_order_ids=[o.pk for o in orders], today=today_for(request.user))
+        return Response(s.WorkOrderOutput(orders, many=True, context={"due_bases": bases}).data)
 
 
 class WorkOrderDetail(APIView):

@@ -5,8 +5,10 @@ from rest_framework import serializers
 
 from accounts import api_fields
 from accounts.api_errors import ErrorOutput
+from inventory.today import today_for
 
 from . import shapes
+from .due_basis import due_bases
 from .models import MeterReading, OutdoorTemperature, TaskDefinition, WorkOrder, WorkOrderTask
 
 
@@ -129,13 +131,28 @@ class WorkOrderOutput(serializers.ModelSerializer):
     assignee = _ShapeField(PersonRefOutput(allow_null=True))
     tasks = WorkOrderTaskOutput(many=True)
     allowed_states = serializers.ListField(child=serializers.CharField(), read_only=True)
+    due_basis = serializers.CharField(
+        read_only=True,
+        help_text=(
+            "The run-hour meter its run-hour tasks' due dates were projected from, in words: \"from the supply fan's "
+            'run-hours in the building-automation trends (last reading 2 Dec)" or "from the unit\'s typed run-hour '
+            "meter\"; empty when it holds no run-hour task, and in the technician's today (its visits are read in one "
+            "query, without the meters)."
+        ),
+    )
 
     class Meta:
         model = WorkOrder
         fields = list(shapes.WORK_ORDER_FIELDS)
 
     def to_representation(self, instance) -> dict:
-        return shapes.work_order_shape(instance, tasks=[shapes.task_shape(t) for t in instance.tasks.all()])
+        # The list reads every work order's basis at once (context "due_bases"); one work order reads its own.
+        bases = self.context.get("due_bases")
+        if bases is None:
+            bases = due_bases(work_order_ids=[instance.pk], today=today_for(instance.ahu.building.site))
+        return shapes.work_order_shape(
+            instance, tasks=[shapes.task_shape(t) for t in instance.tasks.all()], due_basis=bases.get(instance.pk, "")
+        )
 
 
 class VersionInput(serializers.Serializer):

@@ -217,6 +217,7 @@ WORK_ORDER_FIELDS = (
     "due_date",
     "due_by",
     "overdue_on",
+    "due_basis",
     "scheduled_for",
     "started_at",
     "completed_at",
@@ -234,9 +235,12 @@ def work_order_shape(
     fields: tuple[str, ...] = WORK_ORDER_FIELDS,
     unit: Callable[[Get], dict] = unit_brief,
     site: Callable[[Get], dict] = site_place,
+    due_basis: str = "",
 ) -> dict:
     """A work order as the API shows it (``WorkOrderOutput``): from an instance (with its unit, site and
-    assignee joined) or a row of ``WORK_ORDER_COLUMNS``; ``tasks`` already shaped (:func:`task_shape`).
+    assignee joined) or a row of ``WORK_ORDER_COLUMNS``; ``tasks`` already shaped (:func:`task_shape`);
+    ``due_basis`` the meter its run-hour tasks' due dates were projected from (``scheduling.due_basis``, read for
+    many work orders at once by the caller; "" for none).
 
     ``fields``, ``unit`` and ``site`` give a smaller view of the same shape (the board's row,
     :func:`board_item_shape`); only the columns of the fields asked for are read."""
@@ -253,6 +257,8 @@ def work_order_shape(
             out[name] = list(tasks)
         elif name == "allowed_states":
             out[name] = allowed_states(get("state"))
+        elif name == "due_basis":
+            out[name] = due_basis
         else:
             out[name] = get("public_id" if name == "id" else name)
     return out

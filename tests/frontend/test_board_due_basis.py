@@ -65,6 +65,31 @@ def test_a_date_from_the_fans_trend_says_so_with_its_last_reading(client):
     assert "typed run-hour meter" not in row
 
 
+def test_the_api_work_order_says_the_same_basis(api_client):
+    """The work order's API answer (one, and the list) carries the same words in ``due_basis``; work with no run-hour
+    task says none."""
+    ahu, boss = _unit("AHU-T3")
+    for day, hours in ((dt.date(2026, 1, 3), 1000), (dt.date(2026, 1, 13), 1240)):
+        at = dt.datetime.combine(day, dt.time(9), tzinfo=dt.UTC)
+        with time_machine.travel(at, tick=False):
+            meter_reading_record(ahu=ahu, hours=hours, taken_at=at)
+    with time_machine.travel(NOW, tick=False):
+        work_orders_generate(organisation=ahu.building.site.organisation, horizon_days=400)
+    task = WorkOrderTask.objects.filter(ahu=ahu, task_code="filter_replace", occurrence_key__startswith="h:").first()
+    api_client.force_authenticate(boss)
+    with time_machine.travel(NOW, tick=False):
+        one = api_client.get(f"/api/scheduling/work-orders/{task.work_order.public_id}/").json()
+        listed = api_client.get("/api/scheduling/work-orders/").json()
+    assert one["due_basis"] == "from the unit's typed run-hour meter"
+    by_id = {w["id"]: w["due_basis"] for w in listed}
+    assert by_id[str(task.work_order.public_id)] == one["due_basis"]
+    runtime = {str(p) for p in WorkOrderTask.objects.filter(occurrence_key__startswith="h:").values_list(
+        "work_order__public_id", flat=True)}  # fmt: skip
+    calendar = [w for w in listed if w["id"] not in runtime]
+    assert calendar and all(w["due_basis"] == "" for w in calendar)
+    assert all(w["due_basis"] == "from the unit's typed run-hour meter" for w in listed if w["id"] in runtime)
+
+
 def test_a_date_from_the_typed_meter_says_so(client):
     ahu, boss = _unit("AHU-T2")
     for day, hours in ((dt.date(2026, 1, 3), 1000), (dt.date(2026, 1, 13), 1240)):
