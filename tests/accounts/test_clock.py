@@ -149,3 +149,24 @@ def test_the_phone_counts_with_its_noun_as_the_server_does(tmp_path, node):
     assert run.returncode == 0, run.stderr
     assert json.loads(run.stdout) == [count_text(c["n"], c["noun"], c["plural"]) for c in cases]
     assert "(s)" not in (JS / "app.js").read_text()
+
+
+def test_a_moment_at_night_names_the_night_it_belongs_to():
+    """A freeze at 04:15 belongs to the night that began the evening before; evening and morning of one night read
+    the same night; a night across a month or a year names both ends; by day a moment reads on its day."""
+    from accounts.clock import moment_words
+
+    zone = "Europe/Amsterdam"  # CET, UTC+1 in winter
+    assert moment_words(dt.datetime(2026, 12, 4, 3, 15, tzinfo=dt.UTC), zone=zone) == (
+        "04:15 CET on the night of 3–4 Dec 2026"
+    )
+    assert moment_words(dt.datetime(2026, 12, 3, 21, 40, tzinfo=dt.UTC), zone=zone) == (
+        "22:40 CET on the night of 3–4 Dec 2026"
+    )
+    assert moment_words(dt.datetime(2026, 1, 31, 23, 0, tzinfo=dt.UTC), zone=zone).endswith(
+        "on the night of 31 Jan – 1 Feb 2026"
+    )
+    assert moment_words(dt.datetime(2026, 12, 31, 22, 0, tzinfo=dt.UTC), zone=zone).endswith(
+        "on the night of 31 Dec 2026 – 1 Jan 2027"
+    )
+    assert moment_words(dt.datetime(2026, 12, 4, 13, 20, tzinfo=dt.UTC), zone=zone) == "14:20 CET on 4 Dec 2026"
