@@ -112,6 +112,51 @@ def unit_parts(unit: dict) -> list:
     return reasons.flatten(out)
 
 
+def _open(read: dict | None) -> float | None:
+    """A command's value (a fraction), None when not mapped or not sampled."""
+    if read is None or read.get("value") is None:
+        return None
+    return float(read["value"])
+
+
+def response_parts(stage: str, unit: dict) -> list:
+    """Whether the unit did, at its coldest moment, what the guideline's freeze protection does at ``stage``
+    (``STAGE_ACTIONS``), as reason parts: at stage 3 the supply fan stops and the outdoor-air damper closes; at stage
+    2 the outdoor air is shut off; at stage 1 the heating is turned up. Each thing it did not do is named; a thing no
+    trend point says is left to the clauses that say so. Empty when nothing can be compared."""
+    tolerance = G36_DEFAULTS.command_tolerance  # a command at or below 1 % reads shut (the rules' own tolerance)
+    n = stage_number(stage)
+    wrong: list[list] = []
+    checked = False
+    if n >= 3:
+        ran = fan_ran(unit)
+        if ran is not None:
+            checked = True
+            if ran:
+                wrong.append(["the supply fan kept running"])
+    damper = _open(unit.get("oa_damper"))
+    if n >= 2 and damper is not None:
+        checked = True
+        if damper > tolerance:
+            wrong.append(["the outdoor-air damper was still ", reasons.q(damper * 100, "percent"), " open"])
+    heat = [v for read in unit.get("heating") or [] if (v := _open(read)) is not None]
+    if heat and not unit.get("heating_unmapped"):
+        checked = True
+        if max(heat) <= tolerance:
+            wrong.append(["no heating or preheat was commanded"])
+    if wrong:
+        out: list = [f". The unit did not do what {stage} calls for: "]
+        for i, clause in enumerate(wrong):
+            out += ([" and " if i == len(wrong) - 1 else ", "] if i else []) + clause
+        out.append(
+            " — check the freeze-protection sequence, its wiring and the low-limit thermostat before the next frost"
+        )
+        return out
+    if checked:
+        return [f". The unit did what {stage} calls for, as far as its trend points show"]
+    return []
+
+
 def freeze_parts(windows: list[dict], zone: str) -> list:
     """What a freeze event's latest day says, as reason parts (SI, rendered in the reader's units): how low the air
     went and when on the site's clock (``zone``), how long it stayed below the temperature of the highest stage it
@@ -152,8 +197,18 @@ def freeze_parts(windows: list[dict], zone: str) -> list:
             parts.append(f". At {stage.name} of the guideline's freeze protection {action}")
     if coldest.get("unit"):
         parts += [f". When the {air} was coldest: ", *unit_parts(coldest["unit"])]
+        if staged and _after_alarm(coldest, w):
+            parts += response_parts(stage.name, coldest["unit"])
     parts.append(". The unit is not ready for freeze protection until its freeze-protection test passes again")
     return reasons.flatten(parts)
+
+
+def _after_alarm(coldest: dict, window: dict) -> bool:
+    """Whether the coldest moment came once the stage was reached (its alarm time): only then is what the unit did
+    its response to that stage. A window kept without an alarm time is taken as reached before its coldest moment."""
+    if not coldest.get("lowest_at") or not window.get("alarm_at"):
+        return True
+    return dt.datetime.fromisoformat(coldest["lowest_at"]) >= dt.datetime.fromisoformat(window["alarm_at"])
 
 
 def freeze_text(windows: list[dict], system: str = "si", *, zone: str) -> str:

@@ -164,3 +164,35 @@ def test_points_not_mapped_are_said_plainly():
     assert "the supply fan was commanded off (trend point F.SPD)" in gap
     assert "the outdoor-air damper's trend point F.OAD has no sample from that time" in gap
     assert "the Preheat coil valve was commanded 100 % open (trend point F.PHV)" in gap
+
+
+def test_the_words_say_whether_the_unit_did_what_the_stage_calls_for(client, world):
+    """At stage 2 the guideline's freeze protection shuts the outdoor air off: a damper still commanded 20 % open
+    when the air was coldest (after the stage was reached) is named as what the unit did not do, with what to
+    check; a unit whose trends show the stage's response is said to have done it."""
+    text = page(client, world["boss"], reverse("frontend:fault", kwargs={"pk": world["fault"].pk}))
+    assert (
+        "The unit did not do what stage 2 calls for: the outdoor-air damper was still 20 % open — check the "
+        "freeze-protection sequence, its wiring and the low-limit thermostat before the next frost." in text
+    ), text
+    from automation.freeze_words import response_parts
+
+    def said(stage, unit):
+        return reasons.render(response_parts(stage, unit), "si")
+
+    closed = {"fan_status": {"point": "F.STS", "value": 0.0}, "oa_damper": {"point": "F.OAD", "value": 0.0}}
+    assert said("stage 3", closed) == ". The unit did what stage 3 calls for, as far as its trend points show"
+    running = {"fan_status": {"point": "F.STS", "value": 1.0}, "oa_damper": {"point": "F.OAD", "value": 1.0}}
+    assert said("stage 3", running) == (
+        ". The unit did not do what stage 3 calls for: the supply fan kept running and the outdoor-air damper was "
+        "still 100 % open — check the freeze-protection sequence, its wiring and the low-limit thermostat before "
+        "the next frost"
+    )
+    # Stage 1 asks no fan stop and no damper closing (the damper goes to its minimum, which the trends do not
+    # know): a running fan and an open damper are not held against it; heating left shut is.
+    shut = {**running, "heating": [{"part": "Preheat coil", "point": "F.PHV", "value": 0.0}]}
+    assert said("stage 1", shut) == (
+        ". The unit did not do what stage 1 calls for: no heating or preheat was commanded — check the "
+        "freeze-protection sequence, its wiring and the low-limit thermostat before the next frost"
+    )
+    assert said("stage 2", {"fan_status": None, "oa_damper": None}) == ""
