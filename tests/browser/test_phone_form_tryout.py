@@ -149,7 +149,7 @@ def test_the_outbox_bar_is_one_line_with_its_details_a_tap_away(
     assert bar.bounding_box()["height"] <= ONE_LINE_PX, bar.bounding_box()
     expect(sync).to_be_visible()
     toggle.click()
-    expect(details.locator("[data-outbox-error]")).to_contain_text("1 form(s) need fixing")
+    expect(details.locator("[data-outbox-error]")).to_contain_text("1 form needs fixing")
     page.screenshot(path=screenshots / "issue19-after-outbox-trouble-360.png")
     offline(False)
 
