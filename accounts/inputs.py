@@ -26,6 +26,7 @@ from django.core.exceptions import ValidationError
 from django.utils.dateparse import parse_datetime
 
 from accounts.clock import local_time_text
+from accounts.typed_numbers import comma_words, parse_number  # the typed-number reader, answered from here too
 from engineering.errors import EngineeringInputError
 from engineering.units import to_display, unit_label
 
@@ -124,33 +125,6 @@ def number_problem(
     return None
 
 
-# A typed number: a sign, digits with one decimal point or comma, an exponent; ASCII digits only (Python's float
-# alone would also take '1_000', '١٢' and 'infinity'). The phone reads typed text by the same rule (numbers.js
-# parseNumber; tests/inspections/test_phone_agreement.py holds the two together).
-_TYPED_NUMBER = re.compile(r"[+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?", re.ASCII)
-
-
-def parse_number(raw: Any) -> float | None:
-    """A finite float from a JSON number or typed text ('1,5' reads 1.5); None when it is none.
-
-    'nan', 'inf', '1e309', '12,5a' and friends are not numbers a person means."""
-    if isinstance(raw, bool) or raw is None:
-        return None
-    if isinstance(raw, int | float):
-        try:
-            value = float(raw)
-        except OverflowError:  # a 400-digit JSON integer
-            return None
-    elif isinstance(raw, str):
-        text = raw.strip().replace(",", ".")
-        if not text or len(text) > 40 or not _TYPED_NUMBER.fullmatch(text):
-            return None
-        value = float(text)
-    else:
-        return None
-    return value if math.isfinite(value) else None
-
-
 def check_number(
     raw: Any,
     *,
@@ -175,7 +149,8 @@ def check_number(
         return None
     value = parse_number(raw)
     if value is None:
-        errors.add(key, f"{label}: {shown(raw)} is not a finite number; allowed: {allowed}")
+        ambiguous = comma_words(raw)
+        errors.add(key, f"{label}: {ambiguous}" if ambiguous else f"{label}: {shown(raw)} is not a finite number; allowed: {allowed}")
         return None
     problem = number_problem(
         value, label=label, minimum=minimum, maximum=maximum, unit=unit, quantity=quantity, system=system

@@ -14,6 +14,7 @@ from typing import Any
 from django.utils.dateparse import parse_datetime
 
 from accounts.inputs import FieldErrors, check_reading_time, parse_number
+from accounts.typed_numbers import comma_readings
 from engineering.units import SYSTEMS, UnitSystem, from_display, sensible_bound, to_display, unit_label
 from inventory.csv_io import ImportFailed, RowError, binary_problem
 from inventory.csv_io.file_format import visible
@@ -165,6 +166,8 @@ def cell_value(raw: str, point: Point, system: str = "si") -> tuple[float | None
     number = parse_number(text)
     low, high = plausible_range(point.brick_class, point.unit)
     allowed = plausible_words(point, system)
+    if number is None and (readings := comma_readings(text)):
+        return None, f"could be {readings[0]} or {readings[1]}: write {readings[0]} or {readings[1]}"
     if number is None:
         return None, f"is not a number; allowed: {allowed}"
     quantity = UNIT_QUANTITY.get(point.unit)

@@ -99,10 +99,12 @@ def stored_value(value: float, *, quantity: str, system: str) -> float:
 
 
 def format_number(x: float, *, decimals: int) -> str:
-    """A number as people read it: ``decimals`` places (a tie rounds as Python's format does), thousands
-    grouped from 10 000 (154,000 Btu/h; 1200 cfm), a true minus sign (−), never "−0"."""
-    text = f"{x:,.{decimals}f}" if abs(x) >= 10_000 else f"{x:.{decimals}f}"
-    if float(text.replace(",", "")) == 0:
+    """A number as people read it: ``decimals`` places (a tie rounds as Python's format does), a true minus
+    sign (−), never "−0", and no thousands separator (154000 Btu/h, 12075 h): a number a person reads may be
+    typed back into a field, where a comma is a decimal comma (``accounts.inputs.parse_number``), so "12,075"
+    would read 12.075; typed as shown, it reads the same number."""
+    text = f"{x:.{decimals}f}"
+    if float(text) == 0:
         text = text.lstrip("-")
     return text.replace("-", "−")
 
@@ -115,7 +117,7 @@ def number_text(value_si: float, *, quantity: str, system: str, decimals: int | 
 
 
 def quantity_text(value_si: float, *, quantity: str, system: str, decimals: int | None = None) -> str:
-    """A stored SI value with its unit label, e.g. "0.84 in. w.c.", "12,000 L/s", "45 %"; precision as
+    """A stored SI value with its unit label, e.g. "0.84 in. w.c.", "12000 L/s", "45 %"; precision as
     ``number_text``."""
     text = number_text(value_si, quantity=quantity, system=system, decimals=decimals)
     unit = unit_text(quantity=quantity, system=system)

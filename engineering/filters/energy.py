@@ -87,7 +87,7 @@ def economic_change_point(
     k = v.positive("filter_set_cost", filter_set_cost, label="filter set cost")
     t = math.sqrt(2.0 * eta * k * 1000.0 / (price * q * r))
     limited = False
-    reason = f"extra fan energy costs as much as a new set ({k:g}) after {t:,.0f} run-hours"
+    reason = f"extra fan energy costs as much as a new set ({k:g}) after {t:.0f} run-hours"
     if (clean_dp_pa is None) != (final_dp_pa is None):
         raise EngineeringInputError(
             field="final_dp_pa",
@@ -110,7 +110,7 @@ def economic_change_point(
         if t_final < t:
             t, limited = t_final, True
             reason = (
-                f"final pressure drop {final:.0f} Pa is reached after {t:,.0f} run-hours, "
+                f"final pressure drop {final:.0f} Pa is reached after {t:.0f} run-hours, "
                 "before the energy cost would pay for a new set"
             )
     cost = price * q * r * t * t / (2.0 * eta * 1000.0)

@@ -58,7 +58,7 @@ def rule_words(task: TaskDefinition) -> str:
         unit = str(task.interval_unit).rstrip("s")
         when = f"Every {_plural(task.interval_value, unit, unit + 's')} ({task.get_anchor_display().lower()})"
     elif task.trigger == Trigger.RUNTIME and task.run_hours:
-        when = f"Every {task.run_hours:,} run-hours"
+        when = f"Every {task.run_hours} run-hours"
     elif task.trigger == Trigger.SEASON:
         season = task.get_season_display().lower() or "season"
         when = f"{_plural(task.lead_days or 0, 'day', 'days')} before the {season} starts"

@@ -90,6 +90,10 @@ def reading_parse(parsed: Parsed, i: int, raw: object, seen: set[tuple[str, int 
         return  # photo items are answered by their photos
     else:
         x = check.number(value)
+        ambiguous = check.ambiguous_comma(value)
+        if ambiguous:  # "12,075": 12075 h or 12.075 h; the technician says which
+            errors.add(f"{at}.value", f"{label}: {ambiguous}")
+            return
         system = parsed.unit_system
         if system is None:  # an unknown unit system (refused under unit_system): no limits to judge a number by
             if x is None:

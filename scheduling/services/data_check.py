@@ -169,7 +169,7 @@ def _check_readings(out: DataCheckResult) -> None:
     for r in candidates:
         name = f"run-hour reading of {_unit_name(r.ahu)}"
         if not (isinstance(r.hours, float) and math.isfinite(r.hours)) or not 0 <= r.hours <= METER_HOURS_MAX:
-            out.problems.append(f"{name}: {r.hours} h is out of range; allowed: 0 to {METER_HOURS_MAX:,} h")
+            out.problems.append(f"{name}: {r.hours} h is out of range; allowed: 0 to {METER_HOURS_MAX} h")
         problem = reading_time_problem(r.taken_at, label="reading time", now=now, tz=r.ahu.building.site.time_zone)
         if problem:
             out.problems.append(f"{name}: {problem}")

@@ -71,7 +71,9 @@ def meter_neighbours(*, ahu: AHU, component: Component | None, taken_at: dt.date
 
 
 def _hours_text(h: float) -> str:
-    return f"{h:,.0f} h" if abs(h - round(h)) < 0.05 else f"{h:,.1f} h"
+    """Whole hours unless a tenth matters, never grouped ("12075 h", as the form's field reads it back:
+    ``engineering.formatting.format_number``)."""
+    return f"{h:.0f} h" if abs(h - round(h)) < 0.05 else f"{h:.1f} h"
 
 
 def _local_text(*, ahu: AHU, at: dt.datetime) -> str:
@@ -254,7 +256,7 @@ def _meter_reading_record(
         raise ValidationError({"hours": [f"hours={hours!r} is not a number of run-hours"]})
     if not math.isfinite(hours) or not 0 <= hours <= METER_HOURS_MAX:
         raise ValidationError(
-            {"hours": [f"Run hours {shown(hours)} is out of range; allowed: a number from 0 to {METER_HOURS_MAX:,} h"]}
+            {"hours": [f"Run hours {shown(hours)} is out of range; allowed: a number from 0 to {METER_HOURS_MAX} h"]}
         )
     if timezone.is_naive(taken_at):
         raise ValidationError({"taken_at": [f"taken_at={taken_at.isoformat()} needs a time zone offset"]})

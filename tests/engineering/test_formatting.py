@@ -19,7 +19,7 @@ EVERY_KIND = [
     ("temperature_difference", 1.5, "1.5 K", "2.7 Δ°F"),  # a difference: × 1.8, no 32 added
     ("airflow", 3.0, "3000 L/s", "6357 cfm"),  # 3000 / 0.471947 = 6356.6
     ("water_flow", 0.002, "2.00 L/s", "31.7 gpm"),  # 2 / 0.0630902 = 31.70
-    ("heat_rate", 45_000.0, "45.0 kW", "153,546 Btu/h"),  # 45 000 × 3.41214 = 153 546
+    ("heat_rate", 45_000.0, "45.0 kW", "153546 Btu/h"),  # 45 000 × 3.41214 = 153 546
     ("co2", 800.0, "800 ppm", "800 ppm"),
     ("relative_humidity", 45.4, "45 %", "45 %"),
     ("percent", 37.5, "38 %", "38 %"),  # a tie: Python's format rounds 37.5 to even, 38
@@ -27,7 +27,7 @@ EVERY_KIND = [
     ("time", 12.4, "12 s", "12 s"),
     ("rotational_speed", 20.0, "1200 rpm", "1200 rpm"),  # stored in rev/s
     ("frequency", 50.0, "50.0 Hz", "50.0 Hz"),
-    ("run_hours", 16_500.0, "16,500 h", "16,500 h"),
+    ("run_hours", 16_500.0, "16500 h", "16500 h"),
     ("length", 350.0, "350.00 m", "1148.3 ft"),  # 350 / 0.3048 = 1148.29
 ]
 
@@ -62,14 +62,27 @@ def test_the_number_is_the_text_without_its_unit(quantity, value_si, si_text, us
         (-0.05, 1, "−0.1"),  # a true minus sign
         (-0.04, 1, "0.0"),  # never "−0.0"
         (-0.4, 0, "0"),
-        (9_999.4, 0, "9999"),  # grouped only from 10 000
-        (10_000.0, 0, "10,000"),
-        (-12_345.678, 1, "−12,345.7"),
-        (154_000.0, 0, "154,000"),
+        (9_999.4, 0, "9999"),
+        (10_000.0, 0, "10000"),  # never grouped: "10,000" typed back would read 10.000
+        (-12_345.678, 1, "−12345.7"),
+        (154_000.0, 0, "154000"),
     ],
 )
-def test_numbers_round_as_python_formats_them_with_a_true_minus_and_grouping_from_ten_thousand(x, decimals, text):
+def test_numbers_round_as_python_formats_them_with_a_true_minus_and_no_grouping(x, decimals, text):
     assert fmt.format_number(x, decimals=decimals) == text
+
+
+def test_a_large_number_as_shown_reads_back_as_the_same_number_when_typed():
+    """Tryout (HIGH): "last: 12,075 h" typed as shown stored 12.075 h, the comma read as a decimal comma. A number
+    people read is never grouped, so what they copy into a field is the number they saw."""
+    from accounts.inputs import parse_number
+
+    for value_si, quantity in ((12_075.0, "run_hours"), (45_000.0, "heat_rate"), (100.0, "airflow")):
+        for system in ("si", "us"):
+            text = fmt.number_text(value_si, quantity=quantity, system=system)
+            assert "," not in text, text
+            back = fmt.stored_value(parse_number(text), quantity=quantity, system=system)
+            assert back == pytest.approx(value_si, rel=1e-4), (quantity, system, text)
 
 
 def test_a_value_at_the_rounding_edge_reads_the_same_in_the_unit():

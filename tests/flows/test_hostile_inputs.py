@@ -160,7 +160,7 @@ def test_a_time_without_a_zone_is_the_sites_time_in_the_api_and_the_csv(world, a
 @pytest.mark.parametrize(
     ("payload", "field", "said"),
     [
-        ({"hours": 1e308, "taken_at": "2025-03-01T08:00Z"}, "hours", "allowed: a number from 0 to 1,000,000 h"),
+        ({"hours": 1e308, "taken_at": "2025-03-01T08:00Z"}, "hours", "allowed: a number from 0 to 1000000 h"),
         ({"hours": 10, "taken_at": "0001-01-01T00:00Z"}, "taken_at", "is before 2000"),
         ({"hours": 10, "taken_at": "9999-12-31T23:59Z"}, "taken_at", "is later than now"),
     ],

@@ -780,7 +780,18 @@ TYPED = [
     "12", "12.5", "12,5", " 12,5 ", "-3,25", "+4", ".5", ",5", "5.", "5,", "1e3", "1E-2", "1,5e2",
     "12,5a", "abc", "a12", "12..5", "1,2,3", "1.234,5", "1_000", "١٢", "Infinity", "-inf", "nan", "1e400",
     "0x10", "12 5", "", "   ", "−5", "5 °C", "1" * 41,
+    # A comma before exactly three digits after a whole part that is not zero: thousands or decimals? Refused.
+    "12,075", "1,250", " 1,250 ", "-12,075", "+1,250", "012,075", "12,075e2", "12,075.5",
+    # Decimal commas all the same: a whole part of zero, or not three digits after the comma.
+    "0,125", "00,125", "-0,125", "12,5", "12,50", "1,2345", "12,0750", ",075",
 ]  # fmt: skip
+
+COMMA_RUNNER = """
+import { readFileSync } from "node:fs";
+import { commaWords } from "./numbers.js";
+const cases = JSON.parse(readFileSync(process.argv[2], "utf8"));
+console.log(JSON.stringify(cases.map((c) => commaWords(c))));
+"""
 
 
 def test_the_phone_reads_a_typed_number_as_the_server_does(tmp_path):
@@ -796,3 +807,22 @@ def test_the_phone_reads_a_typed_number_as_the_server_does(tmp_path):
     assert dict(zip(TYPED, server, strict=True))["12,5a"] is None
     # The page posted without scripts keeps what is no number as typed, for the server to name.
     assert typed_number("12,5") == 12.5 and typed_number("12,5a") == "12,5a"
+
+
+def test_a_comma_that_may_group_thousands_is_refused_alike_with_both_readings(tmp_path):
+    """Tryout (HIGH): "12,075" typed as the form showed a last meter reading stored 12.075 h. A comma before exactly
+    three digits after a whole part that is not zero may be a thousands separator or a decimal comma: no number on
+    either side, and both say the two readings in the same words; "0,125", "12,5" and "1,2345" stay decimal commas."""
+    from accounts.inputs import comma_words, parse_number
+
+    server = [comma_words(t) for t in TYPED]
+    assert COMMA_RUNNER and node_json(tmp_path, COMMA_RUNNER, TYPED) == server
+    words = dict(zip(TYPED, server, strict=True))
+    assert words["12,075"] == "“12,075” could be 12075 or 12.075: type 12075 or 12.075"
+    assert words["-12,075"] == "“-12,075” could be -12075 or -12.075: type -12075 or -12.075"
+    assert words["012,075"] == "“012,075” could be 12075 or 12.075: type 12075 or 12.075"
+    refused = {t for t, w in words.items() if w}
+    assert refused == {"12,075", "1,250", " 1,250 ", "-12,075", "+1,250", "012,075"}
+    assert all(parse_number(t) is None for t in refused)
+    assert (parse_number("0,125"), parse_number("12,50"), parse_number("1,2345")) == (0.125, 12.5, 1.2345)
+    assert parse_number("12075") == 12075 and parse_number("12.075") == 12.075

@@ -19,7 +19,7 @@ from tests.factories.inspections import component, make_visit, r, sync_form
 
 def test_a_filter_airflow_refusal_reads_in_each_readers_units():
     """1,200 cfm (0.566 m³/s) on a 2.8 m³/s bank is outside 0.5–1.5 × design = 1.4–4.2 m³/s
-    (= 2966–8899 cfm; 5933 cfm design; thousands are grouped from 10,000, as every reason groups them);
+    (= 2966–8899 cfm; 5933 cfm design; never grouped, engineering.formatting.format_number);
     SI in L/s, no unrounded number in either."""
     with pytest.raises(EngineeringInputError) as caught:
         filters.corrected_pressure_drop(dp_pa=100, airflow_m3s=1200 / 2118.88, design_airflow_m3s=2.8)
@@ -60,7 +60,7 @@ def test_an_open_limit_reads_as_what_is_allowed_not_as_outside_a_band():
             system="us",
         )
     (message,) = caught.value.errors["airflow_m3s"]
-    assert message == "Airflow now: airflow 0 cfm must be above 0 cfm and at most 211,888 cfm"
+    assert message == "Airflow now: airflow 0 cfm must be above 0 cfm and at most 211888 cfm"
 
 
 @pytest.mark.parametrize(

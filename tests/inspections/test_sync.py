@@ -364,5 +364,5 @@ def test_two_forms_for_one_unit_in_one_request_each_judge_the_meter_as_the_form_
     one, two = post(api_client, tech, forms)
     assert one["status"] == "stored", one
     assert two["status"] == "flagged" and [f["code"] for f in two["flags"]] == ["meter_reading_refused"], two
-    assert "below the previous reading of 1,200 h" in two["flags"][0]["reason"], two["flags"]
+    assert "below the previous reading of 1200 h" in two["flags"][0]["reason"], two["flags"]
     assert list(MeterReading.objects.filter(ahu=first.ahu).values_list("hours", flat=True)) == [1200]

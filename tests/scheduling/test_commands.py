@@ -85,7 +85,7 @@ def test_meter_import_reports_every_bad_row_and_stores_nothing(tmp_path):
     assert f"unit_label={stranger.label_code!r} is not a unit of" in lines[1]
     assert "taken_at='yesterday' is not a date-time" in lines[2]
     assert "component_label='NOPE-1' is not a component of" in lines[3]
-    assert "Run hours 900 h is below the previous reading of 1,000 h" in lines[4]
+    assert "Run hours 900 h is below the previous reading of 1000 h" in lines[4]
     assert not MeterReading.objects.exists()
 
 

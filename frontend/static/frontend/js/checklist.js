@@ -5,7 +5,7 @@ import { evaluate, readingKey, reasonIn } from "./evaluate.js";
 import { formFlags } from "./formcheck.js";
 import { startFormNav } from "./formnav.js";
 import { plausibility } from "./limits.js";
-import { parseNumber } from "./numbers.js";
+import { commaWords, parseNumber } from "./numbers.js";
 import { meterPlausibleText, meterReadingCheck } from "./meter.js";
 import { newUuid, outboxPut } from "./outbox.js";
 import { attachSignature } from "./signature.js";
@@ -83,8 +83,11 @@ function readingsOf(form, ctx) {
   return { readings, blocks, system };
 }
 
-// "“12,5a” is not a number; allowed −40 to 60 °C, a decimal comma or point": the value as typed and what is allowed.
+// "“12,5a” is not a number; allowed −40 to 60 °C, a decimal comma or point": the value as typed and what is allowed;
+// "“12,075” could be 12075 or 12.075: type 12075 or 12.075" for a comma that may group thousands (numbers.js).
 function notANumber(range) {
+  const ambiguous = commaWords(range.typed);
+  if (ambiguous) return ambiguous;
   const allowed = range.text ? `${range.text}, ` : "allowed ";
   return `“${range.typed}” is not a number; ${allowed}a number with a decimal point or comma`;
 }
@@ -137,7 +140,7 @@ function showVerdicts(form, ctx) {
       else input.removeAttribute("aria-invalid");
     }
     if (range.unusable) {
-      out.append(badge("fail", "not a number"), ` ${notANumber(range)}`);
+      out.append(badge("fail", commaWords(range.typed) ? "which number?" : "not a number"), ` ${notANumber(range)}`);
       continue;
     }
     if (value === null || value === "na") continue;

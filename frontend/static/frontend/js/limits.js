@@ -12,13 +12,12 @@ export function within(band, value) {
   return lowOk && highOk;
 }
 
-// A limit as a person reads it: at the quantity's display precision when known (a converted 5,000 Pa is
-// "20.07 in. w.c.", not 20.0732), else at most 6 significant digits; thousands grouped from 10 000 and a true
-// minus sign, as the reasons show numbers (inspections/reasons.py).
+// A limit as a person reads it: at the quantity's display precision when known (a converted 5000 Pa is
+// "20.07 in. w.c.", not 20.0732), else at most 6 significant digits; never grouped (12075, not 12,075, which a
+// field reads as a decimal comma) and a true minus sign, as the reasons show numbers (inspections/reasons.py).
 export function nice(x, decimals = null) {
   const n = decimals === null || decimals === undefined ? Number(Number(x).toPrecision(6)) : Number(Number(x).toFixed(decimals));
-  const text = Math.abs(n) >= 10000 ? n.toLocaleString("en-US", { maximumFractionDigits: 6 }) : String(n);
-  return text.replace("-", "−");
+  return String(n).replace("-", "−");
 }
 
 export function describe(band, unit, decimals = null) {

@@ -2,20 +2,11 @@
 // checklist: the same arithmetic, with the unit's latest reading and the rule's numbers shipped in
 // the evaluation context ("meter", inspections/phone.py). Pure: no DOM, no network.
 // tests/inspections/test_meter_agreement.py runs both sides on the same cases.
-import { pyRound } from "./units.js";
+import { fixed } from "./units.js";
 
-/** Python's f"{x:,.{d}f}" (thousands always grouped, as the server's messages write hours). */
-function grouped(x, d) {
-  const text = pyRound(x, d).toFixed(d);
-  const [whole, frac] = text.split(".");
-  const sign = whole.startsWith("-") ? "-" : "";
-  const digits = whole.replace("-", "").replace(/\B(?=(\d{3})+(?!\d))/g, ",");
-  return `${sign}${digits}${frac !== undefined ? `.${frac}` : ""}`;
-}
-
-/** scheduling.services.meters._hours_text: whole hours unless a tenth matters. */
+/** scheduling.services.meters._hours_text: whole hours unless a tenth matters, never grouped ("12075 h"). */
 export function hoursText(h) {
-  return Math.abs(h - Math.round(h)) < 0.05 ? `${grouped(h, 0)} h` : `${grouped(h, 1)} h`;
+  return Math.abs(h - Math.round(h)) < 0.05 ? `${fixed(h, 0)} h` : `${fixed(h, 1)} h`;
 }
 
 /** scheduling.services.meters.max_gain_h: elapsed + max(2 %, 1 h). */

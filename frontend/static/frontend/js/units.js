@@ -63,12 +63,13 @@ export function fixed(x, d) {
   return x < 0 && Number(text) === 0 ? `-${text}` : text; // Python keeps the sign of a negative that rounds to 0
 }
 
-/** Python's f"{x:,.{d}f}" (thousands grouped from 10 000), with a true minus sign (engineering/formatting.py format_number). */
+/**
+ * Python's f"{x:.{d}f}" with a true minus sign, never grouped (engineering/formatting.py format_number): "12075 h"
+ * typed back reads 12075, where "12,075" would read as a decimal comma.
+ */
 export function formatNumber(x, decimals) {
-  let text = Math.abs(x) >= 10000
-    ? pyRound(x, decimals).toLocaleString("en-US", { minimumFractionDigits: decimals, maximumFractionDigits: decimals })
-    : fixed(x, decimals);
-  if (Number(text.replace(/,/g, "")) === 0) text = text.replace(/^-/, "");
+  let text = fixed(x, decimals);
+  if (Number(text) === 0) text = text.replace(/^-/, "");
   return text.replace("-", "−");
 }
 
