@@ -150,7 +150,12 @@ def check_number(
     value = parse_number(raw)
     if value is None:
         ambiguous = comma_words(raw)
-        errors.add(key, f"{label}: {ambiguous}" if ambiguous else f"{label}: {shown(raw)} is not a finite number; allowed: {allowed}")
+        errors.add(
+            key,
+            f"{label}: {ambiguous}"
+            if ambiguous
+            else f"{label}: {shown(raw)} is not a finite number; allowed: {allowed}",
+        )
         return None
     problem = number_problem(
         value, label=label, minimum=minimum, maximum=maximum, unit=unit, quantity=quantity, system=system

@@ -1,5 +1,5 @@
-"""The record's numbers in the reader's units at the quantity's usual precision, grouped as the reasons
-group them (thousands from 10,000); coil-balance figures as magnitudes, as the reason states them."""
+"""The record's numbers in the reader's units at the quantity's usual precision, never grouped, as the reasons
+show them (engineering.formatting.format_number); coil-balance figures as magnitudes, as the reason states them."""
 
 from types import SimpleNamespace
 
@@ -18,7 +18,7 @@ def _reading(value_si: float, quantity: str, decimals: int) -> SimpleNamespace:
 @pytest.mark.parametrize(
     ("value_si", "quantity", "decimals", "system", "shown"),
     [
-        (16_500, "run_hours", 0, "si", "16,500 h"),
+        (16_500, "run_hours", 0, "si", "16500 h"),
         (1200 / 2118.88, "airflow", 2, "us", "1200 cfm"),  # 1 m³/s = 2118.88 cfm (pint)
         (1200 / 2118.88, "airflow", 2, "si", "566 L/s"),
         (-5.0, "temperature", 1, "si", "−5.0 °C"),
