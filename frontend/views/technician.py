@@ -80,6 +80,11 @@ def today(request):
         wo["kind_label"] = WorkOrder.Kind(wo["kind"]).label
         wo["priority_label"] = WorkOrder.Priority(wo["priority"]).label
         wo["state_label"] = WorkOrder.State(wo["state"]).label
+        # Past due: in grace or overdue by whole days, as the board and the PDFs say it (WorkOrder.due_words_on).
+        site_day = today_for(wo["ahu"].building.site, now=now)
+        late = WorkOrder(state=wo["state"], due_date=wo["due_date"], overdue_on=wo["overdue_on"])
+        wo["due_text"] = late.due_words_on(site_day) if wo["due_date"] and wo["due_date"] < site_day else ""
+        wo["overdue"] = late.is_overdue_on(site_day)
     return render(
         request,
         "frontend/technician/today.html",

@@ -20,6 +20,7 @@ from django.db.models import Min, Q
 from inspections.models import Finding, finding_age_days
 from inventory.models import AHU, Site
 from inventory.today import today_for
+from scheduling.lateness import days_overdue
 from scheduling.models import WorkOrder, WorkOrderTask
 
 from .filter_status import filter_rows
@@ -142,7 +143,16 @@ def compliance_figures(*, site_ids: list[int], start: date, end: date, as_of: da
             deadline = wo.due_date + timedelta(days=wo.min_grace or 0)
         today = today_of[wo.ahu.building.site_id]
         if deadline < today:
-            overdue.append({"work_order": wo, "deadline": deadline, "days_overdue": (today - deadline).days})
+            # Counted from the first day past the grace, as every page says it (scheduling.lateness).
+            since = deadline + timedelta(days=1)
+            overdue.append(
+                {
+                    "work_order": wo,
+                    "deadline": deadline,
+                    "since": since,
+                    "days_overdue": days_overdue(since=since, today=today),
+                }
+            )
 
     matrix = {sev: {label: 0 for _, _, label in AGE_BUCKETS} for sev in SEVERITIES}
     findings_total = 0

@@ -12,6 +12,7 @@ from accounts.models import Organisation
 from inventory.models import AHU, Component
 from inventory.today import today_for
 
+from ..lateness import days_overdue, overdue_words
 from .tasks import TaskDefinition
 
 
@@ -143,21 +144,22 @@ class WorkOrder(models.Model):
         return max(self.overdue_on, after_due) if self.overdue_on else after_due
 
     def days_overdue_on(self, today: dt.date) -> int:
-        """Days overdue on ``today`` (1 on :attr:`overdue_from`); 0 when not overdue."""
+        """Whole days from :attr:`overdue_from` to ``today`` (``scheduling.lateness.days_overdue``: 0 on that first
+        overdue day); 0 when not overdue."""
         if not self.is_overdue_on(today) or self.overdue_from is None:
             return 0
-        return (today - self.overdue_from).days + 1
+        return days_overdue(since=self.overdue_from, today=today)
 
     def due_words_on(self, today: dt.date) -> str:
         """The due date as every page says it, on ``today`` (the site's date): "due 4 Sep 2026"; past due but
-        inside its grace window "due 19 Nov 2026, in grace until 3 Dec 2026"; past that "due 4 Sep 2026,
-        76 days overdue (since 19 Sep 2026)". Empty for closed work or work with no due date."""
+        inside its grace window "due 19 Nov 2026, in grace until 3 Dec 2026"; past that, on 3 Dec, "due 4 Sep 2026,
+        75 days overdue (since 19 Sep 2026)" (``scheduling.lateness.overdue_words``: 3 Dec − 19 Sep = 75). Empty
+        for closed work or work with no due date."""
         if self.state not in self.OPEN_STATES or self.due_date is None or self.overdue_from is None:
             return ""
         words = f"due {self.due_date:%-d %b %Y}"
-        days = self.days_overdue_on(today)
-        if days:
-            return f"{words}, {days} day{'s' if days != 1 else ''} overdue (since {self.overdue_from:%-d %b %Y})"
+        if self.is_overdue_on(today):
+            return f"{words}, {overdue_words(since=self.overdue_from, today=today)}"
         if self.due_date < today:
             last = self.overdue_from - dt.timedelta(days=1)
             return f"{words}, in grace until {last:%-d %b %Y}"

@@ -119,7 +119,7 @@ def test_late_work_stays_on_this_weeks_board_and_is_overdue_after_its_grace_on_p
     page, on_page, on_api, _ = sections(LATE)
     assert key in on_page["overdue"] and key in on_api["overdue"]
     assert key not in on_page["due"] and key not in on_api["due"]
-    words = "due 14 Jan 2026, 16 days overdue (since 29 Jan 2026)"
+    words = "due 14 Jan 2026, 15 days overdue (since 29 Jan 2026)"  # 13 Feb − 29 Jan = 15
     assert words in page.content.decode()
     with time_machine.travel(LATE, tick=False):
         assert WorkOrder.objects.get(pk=wo.pk).is_overdue
@@ -135,7 +135,57 @@ def test_the_due_words_count_from_the_grace_window():
     wo = WorkOrder(due_date=dt.date(2026, 9, 4), overdue_on=dt.date(2026, 9, 19), state="planned")
     assert wo.due_words_on(dt.date(2026, 9, 4)) == "due 4 Sep 2026"
     assert wo.due_words_on(dt.date(2026, 9, 18)) == "due 4 Sep 2026, in grace until 18 Sep 2026"
-    assert wo.due_words_on(dt.date(2026, 9, 19)) == "due 4 Sep 2026, 1 day overdue (since 19 Sep 2026)"
-    assert wo.due_words_on(dt.date(2026, 12, 3)) == "due 4 Sep 2026, 76 days overdue (since 19 Sep 2026)"
+    assert wo.due_words_on(dt.date(2026, 9, 19)) == "due 4 Sep 2026, overdue since today (19 Sep 2026)"
+    assert wo.due_words_on(dt.date(2026, 9, 20)) == "due 4 Sep 2026, 1 day overdue (since 19 Sep 2026)"
+    assert wo.due_words_on(dt.date(2026, 12, 3)) == "due 4 Sep 2026, 75 days overdue (since 19 Sep 2026)"
     no_grace = WorkOrder(due_date=dt.date(2026, 11, 30), overdue_on=None, state="planned")
-    assert no_grace.due_words_on(dt.date(2026, 12, 3)) == "due 30 Nov 2026, 3 days overdue (since 1 Dec 2026)"
+    assert no_grace.due_words_on(dt.date(2026, 12, 3)) == "due 30 Nov 2026, 2 days overdue (since 1 Dec 2026)"
+    # The tryout's cases on 4 December: the count is what a reader gets by subtracting the "since" day.
+    for due, since, days in (
+        (dt.date(2026, 11, 4), dt.date(2026, 11, 6), 28),
+        (dt.date(2026, 12, 1), dt.date(2026, 12, 3), 1),
+    ):
+        late = WorkOrder(due_date=due, overdue_on=since, state="assigned")
+        assert late.days_overdue_on(dt.date(2026, 12, 4)) == (dt.date(2026, 12, 4) - since).days == days
+
+
+# Amsterdam leaves summer time on Sunday 25 October 2026 (EU rule: last Sunday of October, common practice).
+FIRST_LATE = dt.datetime(2026, 10, 21, 22, 30, tzinfo=dt.UTC)  # 00:30 CEST on Thursday 22 October at the site
+AFTER_MONTH_END = dt.datetime(2026, 11, 1, 23, 30, tzinfo=dt.UTC)  # 00:30 CET on Monday 2 November (UTC: 1 Nov)
+
+
+def test_every_page_counts_the_days_from_the_day_it_names_across_a_month_end_and_a_clock_change(client, world):
+    """Due 20 Oct, grace ending 21 Oct: overdue since 22 Oct. Just after midnight on 2 November at the site (still
+    1 November in UTC, after the clocks went back) every page says 11 days (2 Nov − 22 Oct); on 22 October itself
+    it says "overdue since today". The board, the finding, the site page, a technician's today and the
+    compliance figures of the PDF read the one count (scheduling.lateness)."""
+    from reports.compliance.figures import compliance_figures
+
+    wo = approve(client, world["wo"])
+    tech = make_person(organisation=world["org"], role=Role.TECHNICIAN, username="ana")
+    WorkOrder.objects.filter(pk=wo.pk).update(
+        due_date=dt.date(2026, 10, 20),
+        overdue_on=dt.date(2026, 10, 22),
+        scheduled_for=None,
+        assignee=tech,
+        state=WorkOrder.State.ASSIGNED,
+    )
+    words = "due 20 Oct 2026, 11 days overdue (since 22 Oct 2026)"
+    pages = (
+        reverse("frontend:board"),
+        reverse("frontend:manager_finding", kwargs={"pk": world["fault"].finding_id}),
+        reverse("frontend:dashboard_site", kwargs={"pk": world["site"].pk}),
+    )
+    for url in pages:
+        page = at(AFTER_MONTH_END, client, url)
+        assert page.status_code == 200, url
+        assert words in page.content.decode(), url
+        assert "overdue since today (22 Oct 2026)" in at(FIRST_LATE, client, url).content.decode(), url
+    client.force_login(tech)
+    assert words[0].upper() + words[1:] in at(AFTER_MONTH_END, client, reverse("frontend:today")).content.decode()
+    with time_machine.travel(AFTER_MONTH_END, tick=False):
+        f = compliance_figures(
+            site_ids=[world["site"].pk], start=dt.date(2026, 10, 1), end=dt.date(2026, 10, 31), as_of=AFTER_MONTH_END
+        )
+    late = next(o for o in f.overdue if o["work_order"].pk == wo.pk)
+    assert (late["since"], late["days_overdue"]) == (dt.date(2026, 10, 22), 11)

@@ -253,7 +253,7 @@ def test_corrective_work_past_its_overdue_day_reads_overdue_on_every_page(w, cli
         get(client, w.s.manager_a, "/site-findings/").content.decode().split(f'data-finding="{w.finding_a.pk}"')[1]
     ).split("</tr>")[0]
     # Overdue from 3 November (its overdue day), said with its due date and the days it is overdue by.
-    late = f"due 2 nov 2026, {(dt.date(2026, 12, 2) - dt.date(2026, 11, 3)).days + 1} days overdue (since 3 nov 2026)"
+    late = f"due 2 nov 2026, {(dt.date(2026, 12, 2) - dt.date(2026, 11, 3)).days} days overdue (since 3 nov 2026)"
     assert late in row.lower(), row
     page = text_of(get(client, w.s.manager_a, f"/site-findings/{w.finding_a.pk}/").content.decode())
     assert late in page.lower()

@@ -96,7 +96,9 @@ def test_figures_from_database_match_hand_count(estate, django_assert_max_num_qu
     assert by["coils_drain_pans"].counts[ON_TIME] == 1
     assert f.total.on_time_share == pytest.approx(3 / 5)
     assert [o["work_order"].ahu.tag for o in f.overdue] == ["AHU-02"]
-    assert f.overdue[0]["days_overdue"] == (dt.date(2025, 5, 10) - dt.date(2025, 3, 12)).days
+    # Grace ended 12 Mar: overdue since 13 Mar, counted from that day as every page says it (scheduling.lateness).
+    assert f.overdue[0]["since"] == dt.date(2025, 3, 13)
+    assert f.overdue[0]["days_overdue"] == (dt.date(2025, 5, 10) - dt.date(2025, 3, 13)).days
     assert f.findings_total == 2  # the closed one is not open
     assert f.findings_matrix["high"]["31–90 days"] == 1  # 25 Mar → 10 May: 46 days
     assert f.findings_matrix["medium"]["over 180 days"] == 1  # 1 Nov → 10 May: 190 days
