@@ -52,8 +52,9 @@ def overdue_escalation_send(*, organisation: Organisation, today: dt.date, repea
     if not orders:
         return 0
     lines = [
-        f"- {wo.ahu.tag} at {wo.ahu.building.site.name}: {wo.title}, due {wo.due_date}"
-        f" ({(today - wo.due_date).days} days ago), {wo.assignee or 'not assigned'}"
+        # The due date and how late, as the board and the PDFs say it (WorkOrder.due_words_on, scheduling.lateness).
+        f"- {wo.ahu.tag} at {wo.ahu.building.site.name}: {wo.title}, {wo.due_words_on(today)},"
+        f" {wo.assignee or 'not assigned'}"
         for wo in orders
     ]
     WorkOrder.objects.filter(pk__in=[wo.pk for wo in orders]).update(escalated_on=today)

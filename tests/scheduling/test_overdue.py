@@ -5,6 +5,7 @@ import importlib
 
 import pytest
 from django.apps import apps as django_apps
+from django.core import mail
 
 from scheduling.engine import work_orders_generate
 from scheduling.models import TaskDefinition, WorkOrder
@@ -41,6 +42,8 @@ def test_escalation_mails_from_the_first_day_after_grace(filter_visit, django_ca
     with django_capture_on_commit_callbacks(execute=True):
         assert overdue_escalation_send(organisation=org, today=dt.date(2025, 3, 8)) == 0
         assert overdue_escalation_send(organisation=org, today=dt.date(2025, 3, 9)) == 1
+    # Said as every page says it: counted from the first overdue day it names.
+    assert "due 1 Mar 2025, overdue since today (9 Mar 2025)" in mail.outbox[-1].body
 
 
 def test_board_counts_overdue_from_the_first_day_after_grace(filter_visit):
