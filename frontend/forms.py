@@ -48,7 +48,7 @@ class AssignForm(forms.Form):
             return None
         day = parse_day(raw)
         if day is None:
-            raise ValidationError(f"{day_refusal(raw, label='Scheduled day')}.")
+            raise ValidationError(f"{day_refusal(raw, label='Day')}.")
         return day
 
     def clean_version(self) -> int | None:

@@ -189,6 +189,9 @@ def _trend_page(request, *, ahu, fault: Fault | None):
     site = ahu.building.site
     system = request.user.unit_system
     first, days, problems = _stretch(request, zone=site.time_zone, fault=fault)
+    # The From field keeps a refused day as typed beside its refusal, never the default in its place.
+    refused = any(p.startswith("From:") for p in problems)
+    start_text = request.GET.get("start", "")[:40] if refused else first.isoformat()
     tz = zoneinfo.ZoneInfo(site.time_zone)
     start = dt.datetime.combine(first, dt.time(), tzinfo=tz)
     end = dt.datetime.combine(first + dt.timedelta(days=days), dt.time(), tzinfo=tz)
@@ -203,6 +206,7 @@ def _trend_page(request, *, ahu, fault: Fault | None):
             "site": site,
             "fault": fault,
             "fault_row": fault_row(fault, system) if fault else None,
+            "start_text": start_text,
             "points": [
                 {
                     "point": line.point,

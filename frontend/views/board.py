@@ -12,7 +12,7 @@ from django.shortcuts import redirect, render
 from django.urls import reverse
 from django.views.decorators.http import require_POST
 
-from accounts.inputs import date_problem
+from accounts.inputs import date_problem, day_refusal, parse_day
 from accounts.models import User
 from inspections.selectors import corrective_work_already_resolved, flagged_forms_for
 from inventory.today import today_for
@@ -90,10 +90,12 @@ def board(request):
     data, rows = _board_sections(org=org, week=week, today=today, show_all=request.GET.get("all", ""))
     board_suggestions(organisation=org, rows=rows)  # the least-loaded technician with the skills for its day
     facts, needed, skills = _row_facts(rows)
-    # "Back to change it" from the over-capacity page: that row's form keeps the technician and day chosen.
+    # "Back to change it" from the over-capacity page, or a day the board could not read: that row's form keeps
+    # the technician and the day as typed, with the refusal beside the day (never another day in its place).
     changing = request.GET.get("change", "")[:36]
     kept_assignee = request.GET.get("assignee", "")[:18]
-    kept_day = _kept_day(request.GET.get("day", ""))
+    kept_text = request.GET.get("day", "")[:40]
+    kept_day = parse_day(kept_text)
     zone_today: dict[str, dt.date] = {}
     for r in rows:
         # The day offered for the visit: its plan, else its due date, never a day already past where the
@@ -111,6 +113,8 @@ def board(request):
         kept = None
         if changing and str(r["id"]) == changing:
             r["plan_default"] = kept_day or r["plan_default"]
+            if kept_text.strip() and kept_day is None:
+                r["plan_text"], r["plan_refusal"] = kept_text, f"{day_refusal(kept_text, label='Day')}."
             kept = int(kept_assignee) if kept_assignee.isdigit() else None
         assignee_id = r["assignee"]["id"] if r["assignee"] else None
         r["selected_pk"] = kept or assignee_id or (r["suggested"]["id"] if r["suggested"] else None)
@@ -158,14 +162,6 @@ def board(request):
     )
 
 
-def _kept_day(raw: str) -> dt.date | None:
-    """The day the over-capacity page hands back to the board's row form; None when it is not a day."""
-    try:
-        return dt.date.fromisoformat(raw) if len(raw) == 10 else None
-    except ValueError:
-        return None
-
-
 @login_required
 @require_POST
 def assign(request, public_id):
@@ -177,6 +173,11 @@ def assign(request, public_id):
     if not form.is_valid():
         for text in (t for texts in form.errors.values() for t in texts):
             messages.error(request, text)
+        if "scheduled_for" in form.errors:
+            # Back to the row with the day as typed, refused beside it; nothing is saved.
+            kept = {"change": str(wo.public_id), "assignee": request.POST.get("assignee", "")[:18]}
+            kept["day"] = request.POST.get("scheduled_for", "")[:40]
+            return redirect(f"{back}&{urlencode(kept)}#row-{wo.public_id}")
         return redirect(back)
     technician, day, version = (form.cleaned_data[k] for k in ("assignee", "scheduled_for", "version"))
     try:

@@ -157,6 +157,9 @@ def test_a_stretch_typed_day_first_with_dots_is_read_as_that_day(client, world):
         "From: &#x27;08/01/2026&#x27; is not a date (with slashes it could be day or month first); allowed: a date as "
         "YYYY-MM-DD or DD.MM.YYYY (31 January 2026: 2026-01-31 or 31.01.2026) from 2000-01-01"
     ) in html
+    # The field is text the server reads (not the browser's locale), and keeps the refused day as typed.
+    field = html.split('id="start"')[0].rsplit("<input", 1)[1] + html.split('id="start"')[1].split(">", 1)[0]
+    assert 'type="text"' in field and 'value="08/01/2026"' in field
 
 
 def test_values_are_in_the_persons_units(client, world):

@@ -38,9 +38,12 @@ def hours_of(response, technician) -> dict:
 
 
 def test_board_offers_the_due_date_as_the_day(scenario, visit, login):
-    """Each row's form has a date field for the visit, filled with its due date, no earlier than today."""
+    """Each row's form has a day field for the visit, filled with its due date in ISO: a text field the server
+    reads (YYYY-MM-DD or DD.MM.YYYY, whatever the browser's locale), never a native date field."""
     html = login(scenario.supervisor).get("/board/").content.decode()
-    assert f'id="plan-{visit.public_id}" name="scheduled_for" value="2025-03-07" min="2025-03-05"' in html
+    assert f'id="plan-{visit.public_id}" name="scheduled_for" value="2025-03-07"' in html
+    field = html.split(f'id="plan-{visit.public_id}"')[0].rsplit("<input", 1)[1]
+    assert 'type="text"' in field and 'placeholder="YYYY-MM-DD or DD.MM.YYYY"' in field
     assert f'<label for="plan-{visit.public_id}">' in html
 
 
@@ -71,6 +74,25 @@ def test_a_past_day_is_refused_and_nothing_is_saved(scenario, visit, login):
     assert "scheduled day 2025-03-04" in text and "scheduled_for" not in text
     wo = WorkOrder.objects.get(pk=visit.pk)
     assert (wo.state, wo.assignee_id, wo.scheduled_for) == ("planned", None, None)
+
+
+def test_a_typed_day_is_read_day_first_with_dots_and_a_slashed_one_is_refused_beside_the_field(scenario, visit, login):
+    """06/03/2025 could be 6 March or 3 June: refused beside the row's Day, naming the field and the value, kept
+    as typed, nothing saved. 06.03.2025 is Thursday 6 March and saved so (accounts.inputs.parse_day)."""
+    client = login(scenario.supervisor)
+    url = reverse("frontend:assign", kwargs={"public_id": visit.public_id})
+    sent = {"assignee": scenario.technician.pk, "version": visit.version, "week": "2025-03-03"}
+    response = client.post(url, {**sent, "scheduled_for": "06/03/2025"})
+    assert response.status_code == 302 and response.url.endswith(f"#row-{visit.public_id}")
+    assert WorkOrder.objects.get(pk=visit.pk).scheduled_for is None
+    row = client.get(response.url).content.decode().split(f'id="row-{visit.public_id}"')[1].split("</tr>")[0]
+    assert "Day: &#x27;06/03/2025&#x27; is not a date (with slashes it could be day or month first)" in row
+    assert 'value="06/03/2025"' in row and 'aria-invalid="true"' in row
+    wo = WorkOrder.objects.get(pk=visit.pk)
+    assert (wo.state, wo.assignee_id, wo.scheduled_for) == ("planned", None, None)
+    client.post(url, {**sent, "scheduled_for": "06.03.2025"})
+    wo = WorkOrder.objects.get(pk=visit.pk)
+    assert (wo.assignee_id, wo.scheduled_for) == (scenario.technician.pk, dt.date(2025, 3, 6))
 
 
 def test_a_stale_form_is_a_message_not_an_error_page(scenario, visit, login):
@@ -124,7 +146,7 @@ def test_the_day_offered_is_never_before_the_sites_own_today(scenario, login):
         assert scenario.unit_a.building.site.time_zone == "Europe/Amsterdam"
         client = login(scenario.supervisor)
         html = client.get("/board/?week=2025-03-05").content.decode()
-        assert f'id="plan-{wo.public_id}" name="scheduled_for" value="2025-03-06" min="2025-03-06"' in html
+        assert f'id="plan-{wo.public_id}" name="scheduled_for" value="2025-03-06"' in html
         client.post(
             reverse("frontend:assign", kwargs={"public_id": wo.public_id}),
             {"assignee": scenario.technician.pk, "version": wo.version, "scheduled_for": "2025-03-06"},
