@@ -72,7 +72,7 @@ def allowed_text(field: Field, system: str) -> str:
     if field.kind == "choice":
         return "one of " + ", ".join(str(label) for _, label in field.choices)
     if field.kind == "date":
-        return "a date as YYYY-MM-DD"
+        return "a date as YYYY-MM-DD or DD.MM.YYYY"  # read by accounts.inputs.check_date (parse_day)
     if field.kind == "bool":
         return ""
     return f"text of at most {field.max_length} characters"

@@ -457,9 +457,13 @@ def test_a_part_goes_in_at_its_place_in_the_airstream_and_is_moved_inside_anothe
     coil = ahu.components.get(name="Cooling coil")
     page = _visible(client.get(reverse("frontend:registry_component_edit", args=[pan.pk])))
     assert "Part of" in page and "Place in the airstream" in page and "Installed on" in page
+    # A day is text the server reads (accounts.inputs.parse_day), not a field the browser reads by its locale.
+    html = client.get(reverse("frontend:registry_component_edit", args=[pan.pk])).content.decode()
+    assert 'type="date"' not in html and 'placeholder="YYYY-MM-DD or DD.MM.YYYY"' in html
+    assert "Allowed: a date as YYYY-MM-DD or DD.MM.YYYY" in html
     r = client.post(
         reverse("frontend:registry_component_edit", args=[pan.pk]),
-        _edit_post(pan, parent=str(coil.pk), position="1", installed_on="2024-05-02"),
+        _edit_post(pan, parent=str(coil.pk), position="1", installed_on="02.05.2024"),  # day first, with dots
     )
     assert r.status_code == 302, _text(r)
     pan.refresh_from_db()
