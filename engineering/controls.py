@@ -287,6 +287,12 @@ def sensor_drift_check(
 
 
 COIL_DUTIES = ("cooling", "heating", "preheat")
+# What a shut coil's air changing the wrong way beyond the allowance says, by duty (valve_leak_check's WATCH).
+WRONG_WAY = {
+    "cooling": "warmed across a shut cooling coil (sensor error or heat from another coil)",
+    "heating": "cooled across a shut heating coil (sensor error or cooling from another coil)",
+    "preheat": "cooled across a shut preheat coil (sensor error or cooling from another coil)",
+}
 
 
 def valve_leak_check(*, entering_c: float, leaving_c: float, duty: str, limit_k: float | None = None) -> Check:
@@ -296,7 +302,10 @@ def valve_leak_check(*, entering_c: float, leaving_c: float, duty: str, limit_k:
     above ``limit_k`` means water passes the closed valve (FAIL); below it the valve holds (OK). The default
     limit is the one the trend rules FC#14/FC#15 use (ASHRAE Guideline 36-2018 5.16.14, from memory):
     ``FaultThresholds().coil_change_k``, the two coil sensors' errors in quadrature plus the fan's heat, 2.68 K.
-    A change the other way (air warmed by a closed cooling coil) is the fan's heat or a sensor, never a leak.
+    A change the other way within the same allowance (air warmed a little by a closed cooling coil) is the fan's
+    heat or a sensor: OK. Beyond it (entering 18 °C, leaving 25 °C across a shut cooling coil; a heating coil whose
+    air cools markedly) the reading shows a sensor error or heat (or cold) from elsewhere, such as a heating valve
+    passing upstream: WATCH, re-check, for it cannot show that the valve holds.
     """
     t_in = v.air_temperature("entering_c", entering_c, label="entering air temperature")
     t_out = v.air_temperature("leaving_c", leaving_c, label="leaving air temperature")
@@ -309,10 +318,19 @@ def valve_leak_check(*, entering_c: float, leaving_c: float, duty: str, limit_k:
         )
     limit = FaultThresholds().coil_change_k if limit_k is None else v.non_negative("limit_k", limit_k, unit="K")
     change = t_in - t_out if duty == "cooling" else t_out - t_in
-    verdict = Verdict.FAIL if round(change, _ROUND) >= round(limit, _ROUND) else Verdict.OK
     what = "drop" if duty == "cooling" else "rise"
     reason = (
         f"air {t_in:.1f} °C entering, {t_out:.1f} °C leaving the closed coil: a {what} of {change:.1f} K "
         f"(a leak from {limit:.1f} K)"
     )
+    if round(change, _ROUND) >= round(limit, _ROUND):
+        verdict = Verdict.FAIL
+    elif round(-change, _ROUND) >= round(limit, _ROUND):
+        verdict = Verdict.WATCH
+        reason = (
+            f"re-check: air {WRONG_WAY[duty]}: {t_in:.1f} °C entering, "
+            f"{t_out:.1f} °C leaving, {abs(change):.1f} K the wrong way, beyond the {limit:.1f} K allowance"
+        )
+    else:
+        verdict = Verdict.OK
     return Check(verdict=verdict, value=change, limits={"change_k": change, "limit_k": limit}, reason=reason)

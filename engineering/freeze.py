@@ -26,6 +26,7 @@ __all__ = [
     "daily_values_from_normals",
     "freeze_risk",
     "freeze_season_start",
+    "freeze_trip_setting_check",
     "heating_degree_days",
     "heating_degree_days_65f",
 ]
@@ -235,4 +236,41 @@ def freeze_risk(
         value=t,
         limits={"threshold_c": th, "margin_k": m},
         reason=f"minimum outdoor {t:.1f} °C, {words}",
+    )
+
+
+def freeze_trip_setting_check(*, trip_c: float, ok_low: float, ok_high: float, fail_below: float) -> Check:
+    """A freeze-protection (low-limit) thermostat's trip setting against its recommended band.
+
+    The two sides are not alike. A trip set too low leaves the coil unprotected: below ``fail_below`` FAIL,
+    between it and ``ok_low`` WATCH (too little margin). A trip set too high still protects the coil; it only
+    trips on cool mornings and stops the unit when it need not (nuisance trips): above ``ok_high`` WATCH, never
+    FAIL. A trip that does not happen when tested is the trip test's failure, not this setting's. The band is
+    the caller's (a typical setting is about 2–5 °C, 35–40 °F: common practice, from memory).
+    ``limits["above_band_k"]`` is how far above ``ok_high`` the setting is (0 when not above).
+    """
+    t = v.finite("trip_c", trip_c)
+    lo, hi, floor = v.finite("ok_low", ok_low), v.finite("ok_high", ok_high), v.finite("fail_below", fail_below)
+    if not floor <= lo <= hi:
+        raise EngineeringInputError(
+            field="ok_low",
+            value=(floor, lo, hi),
+            allowed="fail_below ≤ ok_low ≤ ok_high",
+            message=f"limits fail_below={floor:g}, ok_low={lo:g}, ok_high={hi:g} are not in order",
+        )
+    x = round(t, 9)
+    if x < floor:
+        verdict, words = Verdict.FAIL, f"below {floor:.1f} °C: the coil can freeze before it trips"
+    elif x < lo:
+        verdict, words = Verdict.WATCH, f"below the recommended {lo:.1f}–{hi:.1f} °C: too little margin"
+    elif x <= hi:
+        verdict, words = Verdict.OK, f"within the recommended {lo:.1f}–{hi:.1f} °C"
+    else:
+        verdict = Verdict.WATCH
+        words = f"above the recommended {lo:.1f}–{hi:.1f} °C: set higher than needed, nuisance trips likely"
+    return Check(
+        verdict=verdict,
+        value=t,
+        limits={"ok_low": lo, "ok_high": hi, "fail_below": floor, "above_band_k": max(0.0, t - hi)},
+        reason=f"freeze-protection trip at {t:.1f} °C, {words}",
     )

@@ -7,6 +7,8 @@ no published source.
 
 from __future__ import annotations
 
+from scheduling.library import SHUT_COIL_FREEZE
+
 LOCKOUT = (
     "Lock out and tag out the fan motor (and any electric heater) and prove it dead before opening an "
     "access door: fans coast for minutes after switch-off."
@@ -27,6 +29,8 @@ LOADED_FILTERS = (
     "Wear eye and hand protection when handling loaded filters: bag used filters at the unit "
     "so the dust they hold stays in."
 )
+# A valve held shut with cold outdoor air on its coil (the leak-by test): the task library's words, one place.
+SHUT_COIL_COLD_AIR = SHUT_COIL_FREEZE
 GENERAL_CAUTIONS = [LOCKOUT, HOT_COILS, LOCAL_CODES]
 # Water and steam coils: common practice (no published source), as the other cautions here.
 PRESSURISED_COILS = (

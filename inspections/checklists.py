@@ -25,6 +25,7 @@ from .cautions import (
     LOCAL_CODES,
     LOCKOUT,
     RUNNING_FAN,
+    SHUT_COIL_COLD_AIR,
 )
 from .checklist_items import (
     CO2_PHYSICAL,
@@ -52,13 +53,14 @@ DUCT_HEATER_SOURCE = (
 # 5.16.12 stages its freeze protection at supply air below 4.4 °C, 3.3 °C and, for the last stage
 # (fans off, outdoor air closed), 3.3 °C for 15 min or 1 °C for 5 min (as summarised in PNNL's
 # ConStrain rule library). A trip below 2 °C leaves too little margin over 1 °C and fails; 2.0–2.5 °C
-# is watch; ok 2.5–5.5 °C covers the 38 °F habit and the 5 °C (41 °F) European one; above 5.5 °C it
-# trips on mild days (watch up to 7 °C, then fail: the fan stops when it need not).
+# is watch; ok 2.5–5.5 °C covers the 38 °F habit and the 5 °C (41 °F) European one. Above 5.5 °C it
+# still protects the coil but trips on mild mornings and stops the unit when it need not: watch
+# (nuisance trips), never fail, however high (inspections.evaluation.freeze_checks judges the item).
 FREEZE_TRIP_OK = (2.5, 5.5)
-FREEZE_TRIP_WATCH = (2.0, 7.0)
+FREEZE_TRIP_WATCH = (2.0, None)
 FREEZE_TRIP_SOURCE = (
-    "ok 2.5–5.5 °C, watch 2–7 °C, fail below 2 °C: usual setting about 3.3 °C (38 °F), common practice; "
-    "ASHRAE Guideline 36-2021 5.16.12 last freeze stage below 1 °C"
+    "ok 2.5–5.5 °C, watch 2–2.5 °C, fail below 2 °C, above 5.5 °C watch (nuisance trips): usual setting about "
+    "3.3 °C (38 °F), common practice; ASHRAE Guideline 36-2021 5.16.12 last freeze stage below 1 °C"
 )
 
 # ``unit_where``: the unit fields an item needs (value or list of values), so an item whose
@@ -506,8 +508,9 @@ TEMPLATES: list[dict[str, Any]] = [
     {
         "code": "preheater_freeze",
         # 2: airflow interlock and automatic-reset primary limit added (electric duct heaters); the frost
-        # thermostat fails below 2 °C instead of only asking to watch it.
-        "version": 2,
+        # thermostat fails below 2 °C instead of only asking to watch it. 3: a frost thermostat set above its
+        # band is a watch (nuisance trips), never a fail: no upper watch limit.
+        "version": 3,
         "title": "Preheater and freeze protection",
         "cautions": [LOCKOUT, ELECTRIC, HOT_COILS, LOCAL_CODES],
         "items": [
@@ -879,11 +882,12 @@ TEMPLATES: list[dict[str, Any]] = [
         # Raised by a leaking-valve fault in the trends (FC#8, FC#14, FC#15) or a supervisor: the valve
         # commanded shut with the fan running, the coil must leave the air as it found it, within the
         # sensors' errors and the fan's heat (engineering.controls.valve_leak_check; the same figure as the
-        # trend rules). Ten minutes for the coil to settle: common practice.
+        # trend rules). Ten minutes for the coil to settle: common practice. 2: the freeze caution (a valve held
+        # shut with cold outdoor air on its coil).
         "code": "coil_valve_leak",
-        "version": 1,
+        "version": 2,
         "title": "Coil valve leak-by test",
-        "cautions": [HOT_COILS, RUNNING_FAN, LOCAL_CODES],
+        "cautions": [SHUT_COIL_COLD_AIR, HOT_COILS, RUNNING_FAN, LOCAL_CODES],
         "items": [
             check(
                 "valve_closed",
@@ -898,6 +902,8 @@ TEMPLATES: list[dict[str, Any]] = [
                 "Fan running and the valve shut for at least 10 minutes before reading",
                 per="coil",
                 required=True,
+                help="Outdoor air below about 5 °C: only with the outdoor-air damper closed or the unit on "
+                "recirculation, watching the frost thermostat (see the cautions).",
             ),
             air_temp("leak_air_in", "Air temperature entering the coil (valve shut)", per="coil", required=True),
             air_temp(

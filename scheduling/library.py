@@ -30,6 +30,14 @@ HOT_COILS = (
     "Hot-water and steam coils and their pipework can burn: isolate and let them cool, and lock out the fan "
     "before reaching into the unit. " + PRECEDENCE
 )
+# A water coil's valve held shut with cold outdoor air flowing through the coil can freeze it within minutes (the
+# leak-by test shuts the valve with the fan running). About 5 °C is the preheat threshold of engineering.freeze
+# (DEFAULT_FREEZE_THRESHOLD_C, common practice). The checklist shows the same words (inspections.cautions).
+SHUT_COIL_FREEZE = (
+    "Freeze risk: do not shut a preheat coil's valve (or any water coil's) while outdoor air below about 5 °C "
+    "flows through it, unless the outdoor-air damper is closed or the unit runs on recirculation; watch the "
+    "frost thermostat and the air leaving the coil throughout, and open the valve at once if it nears the trip."
+)
 ELECTRICAL = "Live-circuit tests only by a competent person with the right PPE; otherwise lock out first. " + PRECEDENCE
 
 # Field defaults: interval tasks are fixed to the calendar with a 7-day grace unless said otherwise.
@@ -288,8 +296,9 @@ LIBRARY: list[dict] = [
         "estimated_minutes": 30,
         "skill": "controls",
         # The readings are taken with the fan running: no lockout while measuring, and none of the coil's
-        # pipework touched. Opening the unit to look at the valve is then done under lockout.
-        "safety_notes": HOT_COILS + " " + LOTO_FAN,
+        # pipework touched. Opening the unit to look at the valve is then done under lockout. The freeze
+        # caution first: the valve is held shut with the fan running, in winter too.
+        "safety_notes": SHUT_COIL_FREEZE + " " + HOT_COILS + " " + LOTO_FAN,
         "source": (
             "Common practice: raised when the trends (ASHRAE Guideline 36-2018 5.16.14 FC#8, FC#14, FC#15, "
             "from memory) or a visit show a shut valve passing water."

@@ -9,7 +9,8 @@ plain reason, the method and the derived values (SI, units in the key names).
 
 One module per family of checks: ``readings`` (single answers and numbers),
 ``filter_checks``, ``ventilation_checks``, ``heat_checks`` (coils, heat
-recovery), ``control_checks`` (set points, dampers, sensor drift), ``valve_checks`` (a shut coil's leak-by); what they
+recovery), ``control_checks`` (set points, dampers, sensor drift), ``valve_checks`` (a shut coil's leak-by),
+``freeze_checks`` (the frost thermostat's trip setting); what they
 read is ``form``, what they give is ``results``.
 """
 
@@ -18,6 +19,7 @@ from __future__ import annotations
 from .control_checks import damper_checks, drift_checks, duct_static_checks, supply_temperature_checks
 from .filter_checks import filter_change_checks, filter_loading_checks
 from .form import Form, Value
+from .freeze_checks import freeze_trip_checks
 from .heat_checks import coil_checks, heat_recovery_checks
 from .readings import reading_result
 from .results import CHECKS, Result
@@ -43,6 +45,7 @@ def evaluate(form: Form) -> list[Result]:
         drift_checks,
         heat_recovery_checks,
         valve_leak_checks,
+        freeze_trip_checks,
     ):
         results.extend(fn(form, consumed))
     for slot in form.slots:

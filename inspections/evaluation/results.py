@@ -26,7 +26,11 @@ CHECKS = (
     "sensor_drift",
     "heat_recovery",
     "coil_valve_leak",  # a shut coil still changing the air: its valve passes water
+    "freeze_trip_setting",  # the frost thermostat's trip setting: too low fails, too high only trips needlessly
 )
+# A frost thermostat set above its band: a watch that still protects the coil (nuisance trips). Its results carry
+# this condition, not "freeze_protection_failed", so freeze readiness (inspections.freeze) counts the step passed.
+FREEZE_TRIP_SET_HIGH = "freeze_trip_set_high"
 
 # Severity of a failed check by what it puts at risk (common practice):
 # frozen coils and unproven fans stop the building; the rest degrades it.

@@ -24,7 +24,8 @@ LEAK_METHOD = (
 
 def valve_leak_checks(form: Form, consumed: set) -> list[Result]:
     """Each coil with both leak-by readings: FAIL when the shut coil still cools (cooling duty) or warms
-    (heating, preheat) the air by the limit or more."""
+    (heating, preheat) the air by the limit or more; WATCH (re-check) when the air changes the other way by as
+    much, which is a sensor or another coil, not proof that the valve holds."""
     out = []
     for coil in (c for c in form.components if c.kind == "coil"):
         t_in = form.num("coil_valve_leak.leak_air_in", coil)
@@ -49,18 +50,25 @@ def valve_leak_checks(form: Form, consumed: set) -> list[Result]:
                 "limit_k": round(LEAK_LIMIT_K, 2),
             },
         )
-        what = "drop" if duty == "cooling" else "rise"
-        held = "the valve passes water" if chk.verdict == controls.Verdict.FAIL else "the valve holds"
-        res.say(
+        # Said the way the air went: a cooling coil's negative drop is a rise.
+        what = ("drop" if change >= 0 else "rise") if duty == "cooling" else ("rise" if change >= 0 else "drop")
+        head = [
             f"{coil.name}: air ",
             qty(t_in, "temperature"),
             " entering, ",
             qty(t_out, "temperature"),
             f" leaving the shut coil, a {what} of ",
-            qty(change, "temperature_difference"),
-            f" — {held} (a leak from ",
-            qty(LEAK_LIMIT_K, "temperature_difference"),
-            ")",
-        )
+            qty(abs(change), "temperature_difference"),
+        ]
+        if chk.verdict == controls.Verdict.WATCH:
+            res.say(
+                *head,
+                f" — re-check: air {controls.WRONG_WAY[duty]}; beyond the ",
+                qty(LEAK_LIMIT_K, "temperature_difference"),
+                " allowance it cannot show whether the valve holds",
+            )
+        else:
+            held = "the valve passes water" if chk.verdict == controls.Verdict.FAIL else "the valve holds"
+            res.say(*head, f" — {held} (a leak from ", qty(LEAK_LIMIT_K, "temperature_difference"), ")")
         out.append(res)
     return out

@@ -19,6 +19,7 @@ from inventory.today import today_for
 from scheduling.models import work_order_state_words
 
 from .. import checklists
+from ..evaluation.results import FREEZE_TRIP_SET_HIGH
 from ..models import Amendment, Evaluation, Finding
 from .rules import (
     BLOCKING_SEVERITIES,
@@ -121,6 +122,11 @@ _VERDICT_WORDS: dict[str | None, str] = {
 }
 
 
+def _protecting(verdict: str | None, condition: str) -> str | None:
+    """A step's verdict as readiness reads it: a watch that still protects the coil is an ok."""
+    return controls.Verdict.OK if verdict == controls.Verdict.WATCH and condition == FREEZE_TRIP_SET_HIGH else verdict
+
+
 def _corrective_state(wo_state: str | None, approval: str | None) -> str:
     if wo_state is None:
         return ""
@@ -154,12 +160,13 @@ def freeze_readiness(
     if not protected:
         return []
     ids = list(protected)
-    # Step verdicts of every test: the form's judgements, then amendments in order.
+    # Step verdicts of every test: the form's judgements, then amendments in order. A watch that still protects the
+    # coil (a frost thermostat set above its band: nuisance trips, ``FREEZE_TRIP_SET_HIGH``) counts as passed.
     verdicts: dict[int, dict[tuple[str, int | None], str | None]] = defaultdict(dict)
     test_of: dict[int, tuple[int, dt.datetime]] = {}  # inspection id: (unit id, finished at)
     amended: set[int] = set()
     corrected = Amendment.objects.filter(inspection_id=OuterRef("inspection_id"), created_at__lte=as_of)
-    for insp_id, ahu_id, finished_at, key, comp_id, verdict, has_amendment in (
+    for insp_id, ahu_id, finished_at, key, comp_id, verdict, condition, has_amendment in (
         Evaluation.objects.filter(
             inspection__ahu_id__in=ids,
             inspection__finished_at__lte=as_of,
@@ -175,11 +182,12 @@ def freeze_readiness(
             "item_key",
             "component_id",
             "verdict",
+            "condition_code",
             "has_amendment",
         )
     ):
         test_of[insp_id] = (ahu_id, finished_at)
-        verdicts[insp_id][(key, comp_id)] = verdict
+        verdicts[insp_id][(key, comp_id)] = _protecting(verdict, condition)
         if has_amendment:
             amended.add(insp_id)
     if amended:  # read only when a test was corrected: most portfolios pay no query for it
@@ -195,7 +203,8 @@ def freeze_readiness(
                     continue
                 comp = change.get("component")
                 comp_id = labels.get(comp) if comp else None
-                after = (change.get("after") or {}).get("verdict") or None
+                judged = change.get("after") or {}
+                after = _protecting(judged.get("verdict") or None, judged.get("condition_code", ""))
                 verdicts[insp_id][(key, comp_id)] = None if after == controls.Verdict.NOT_APPLICABLE else after
     corrective_of_test: dict[int, set[str]] = defaultdict(set)
     open_of_unit: dict[int, list[OpenFinding]] = defaultdict(list)

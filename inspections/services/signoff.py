@@ -116,6 +116,7 @@ def inspection_amend(
                     "value_text": r.value_text,
                     "note": r.note,
                     "verdict": res.verdict if res else "",
+                    "condition_code": res.condition_code if res else "",
                     "reason": res.reason if res else "",
                     "reason_parts": res.reason_parts if res else [],
                 },

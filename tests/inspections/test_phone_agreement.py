@@ -291,12 +291,22 @@ def _valve_leak(rng, ahu, comps, values, points):
     # ASHRAE Guideline 36-2018 5.16.14 FC#14/FC#15 sensor errors and fan heat, from memory), either sign.
     from inspections.evaluation.valve_checks import LEAK_LIMIT_K
 
+    # The other way too: air warmed across a shut cooling coil (cooled across a heating one) by the same
+    # allowance or more is a re-check (watch).
     for coil in (c for c in comps if c.kind == "coil"):
         t_in = rng.uniform(-15, 32)
-        change = rng.choice([LEAK_LIMIT_K, LEAK_LIMIT_K - 0.01, LEAK_LIMIT_K + 0.01, rng.uniform(-2, 8)])
+        edges = [LEAK_LIMIT_K, LEAK_LIMIT_K - 0.01, LEAK_LIMIT_K + 0.01]
+        change = rng.choice([*edges, *(-e for e in edges), rng.uniform(-8, 8), rng.uniform(-8, 8)])
         t_out = t_in - change if coil.specs["duty"] == "cooling" else t_in + change
         values[("coil_valve_leak.leak_air_in", coil.pk)] = t_in
         values[("coil_valve_leak.leak_air_out", coil.pk)] = t_out
+
+
+def _freeze_trip(rng, ahu, comps, values, points):
+    # The frost thermostat's trip setting on and beside its band's edges (ok 2.5–5.5 °C, fail below 2 °C, above
+    # 5.5 °C watch however high: inspections.checklists.FREEZE_TRIP_*, common practice) and anywhere -5–20 °C.
+    edges = [1.99, 2.0, 2.49, 2.5, 5.5, 5.51, 12.5]
+    values[("preheater_freeze.freeze_trip_temp", None)] = rng.choice([*edges, rng.uniform(-5, 20)])
 
 
 def _setpoint(rng, ahu, comps, values, points):
@@ -385,6 +395,7 @@ FOCUS = {
     "full_oa": _full_oa,
     "coil": _coil,
     "valve_leak": _valve_leak,
+    "freeze_trip": _freeze_trip,
     "setpoint": _setpoint,
     "static": _static,
     "damper": _damper,
@@ -555,8 +566,8 @@ def test_phone_and_server_agree_on_every_verdict_and_number(agreement):
     thin = {c: per_check[c] for c in evaluation.CHECKS if per_check[c] < 200}
     assert not thin, f"fewer than 200 cases for {thin}"
     for check in evaluation.CHECKS:
-        # Answers are ok or not; the leak-by test too: the guideline's one limit already allows for the sensors.
-        binary = ("check", "choice", "coil_valve_leak")
+        # Answers are ok or not.
+        binary = ("check", "choice")
         wanted = {"ok", "fail"} if check in binary else {"ok", "watch", "fail"}
         assert wanted <= verdicts[check], f"{check}: only {verdicts[check]} among the cases"
 
@@ -619,6 +630,41 @@ def test_a_coil_with_no_heat_on_either_side_reads_the_same_plain_words_on_both(t
     assert py["verdict"] == js["verdict"] == "watch"
     assert py["reason"] == js["reason"]
     assert py["reason"].endswith("cannot balance the coil: both sides carry almost no heat: nothing to compare")
+
+
+def test_the_tryout_readings_read_the_same_on_both(tmp_path):
+    """The new-user tryout: a frost thermostat set to trip at 12.5 °C (above the usual 2–5 °C, 35–40 °F, common
+    practice) is a watch on both, nuisance trips and not a freeze-protection failure; a shut cooling coil whose
+    air goes from 18 °C to 25 °C (7 K the wrong way, beyond the 2.68 K allowance of ASHRAE Guideline 36-2018
+    5.16.14 FC#14's sensor errors and fan heat, from memory) is a re-check on both, never "the valve holds"."""
+    rng = random.Random(3)
+    ahu, comps = _unit(rng)
+    cooling = next(c for c in comps if c.kind == "coil" and c.specs["duty"] == "cooling")
+    values = {
+        ("preheater_freeze.freeze_trip_temp", None): 12.5,
+        ("coil_valve_leak.leak_air_in", cooling.pk): 18.0,
+        ("coil_valve_leak.leak_air_out", cooling.pk): 25.0,
+    }
+    case = {
+        "ahu": ahu,
+        "components": comps,
+        "slots": _slots(ahu, comps),
+        "values": values,
+        "points": {},
+        "codes": {c.pk: c.label_code for c in comps},
+    }
+    py = {r.check: r for r in evaluate_case(case)}
+    js = {r["check"]: r for r in run_js([js_input(case)], tmp_path)["out"][0]["results"]}
+    trip, leak = py["freeze_trip_setting"], py["coil_valve_leak"]
+    assert trip.verdict == js["freeze_trip_setting"]["verdict"] == "watch"
+    assert trip.condition_code == js["freeze_trip_setting"]["condition_code"] == "freeze_trip_set_high"
+    assert trip.reason == js["freeze_trip_setting"]["reason"]
+    assert "set higher than needed, nuisance trips likely" in trip.reason
+    assert "adjust to the recommended setting" in trip.reason
+    assert leak.verdict == js["coil_valve_leak"]["verdict"] == "watch"
+    assert leak.reason == js["coil_valve_leak"]["reason"]
+    assert "a rise of 7.0 K" in leak.reason and "— the valve holds" not in leak.reason
+    assert "re-check: air warmed across a shut cooling coil (sensor error or heat from another coil)" in leak.reason
 
 
 # ---------------------------------------------------------------------------

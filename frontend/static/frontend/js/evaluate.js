@@ -16,7 +16,7 @@ export const FAIL = "fail";
 export const CHECKS = [
   "check", "choice", "limits", "filter_loading", "filter_after_change", "oa_fraction_temperature", "oa_fraction_co2",
   "full_oa_airflow", "coil_balance", "supply_temperature", "duct_static", "damper_position", "sensor_drift", "heat_recovery",
-  "coil_valve_leak",
+  "coil_valve_leak", "freeze_trip_setting",
 ];
 
 const RANK = { [OK]: 0, [WATCH]: 1, [FAIL]: 2 };
@@ -1002,8 +1002,15 @@ function driftChecks(form, consumed) {
 }
 
 // A shut coil's leak-by test (inspections/evaluation/valve_checks.py): FAIL when the coil still cools (cooling
-// duty) or warms (heating, preheat) the air by the trend rules' limit or more (constants.valve_leak_limit_k).
+// duty) or warms (heating, preheat) the air by the trend rules' limit or more (constants.valve_leak_limit_k);
+// WATCH when the air changes the other way by as much (a sensor or another coil: re-check).
 const COIL_DUTIES = ["cooling", "heating", "preheat"];
+// The air changing the wrong way beyond the allowance: WATCH, re-check (engineering.controls.WRONG_WAY).
+const WRONG_WAY = {
+  cooling: "warmed across a shut cooling coil (sensor error or heat from another coil)",
+  heating: "cooled across a shut heating coil (sensor error or cooling from another coil)",
+  preheat: "cooled across a shut preheat coil (sensor error or cooling from another coil)",
+};
 
 function valveLeakChecks(form, consumed) {
   const out = [];
@@ -1017,15 +1024,67 @@ function valveLeakChecks(form, consumed) {
     airTemperature("entering_c", tIn, "entering air temperature");
     airTemperature("leaving_c", tOut, "leaving air temperature");
     const change = duty === "cooling" ? tIn - tOut : tOut - tIn;
-    const leaks = pyRound(change, 9) >= pyRound(limit, 9);
+    let verdict = OK;
+    if (pyRound(change, 9) >= pyRound(limit, 9)) verdict = FAIL;
+    else if (pyRound(-change, 9) >= pyRound(limit, 9)) verdict = WATCH;
     const res = result({
-      check: "coil_valve_leak", item: "coil_valve_leak.leak_air_out", component: coil.code, verdict: leaks ? FAIL : OK,
+      check: "coil_valve_leak", item: "coil_valve_leak.leak_air_out", component: coil.code, verdict,
       condition_code: "valve_leak", method: form.ctx.constants.valve_leak_method,
       derived: { entering_c: tIn, leaving_c: tOut, change_k: pyRound(change, 2), limit_k: pyRound(limit, 2) },
     });
-    say(res, `${coil.name}: air `, q(tIn, "temperature"), " entering, ", q(tOut, "temperature"),
-      ` leaving the shut coil, a ${duty === "cooling" ? "drop" : "rise"} of `, q(change, "temperature_difference"),
-      ` — ${leaks ? "the valve passes water" : "the valve holds"} (a leak from `, q(limit, "temperature_difference"), ")");
+    // Said the way the air went: a cooling coil's negative drop is a rise.
+    const what = duty === "cooling" ? (change >= 0 ? "drop" : "rise") : (change >= 0 ? "rise" : "drop");
+    const head = [`${coil.name}: air `, q(tIn, "temperature"), " entering, ", q(tOut, "temperature"),
+      ` leaving the shut coil, a ${what} of `, q(Math.abs(change), "temperature_difference")];
+    if (verdict === WATCH) {
+      say(res, ...head, ` — re-check: air ${WRONG_WAY[duty]}; beyond the `, q(limit, "temperature_difference"),
+        " allowance it cannot show whether the valve holds");
+    } else {
+      say(res, ...head, ` — ${verdict === FAIL ? "the valve passes water" : "the valve holds"} (a leak from `,
+        q(limit, "temperature_difference"), ")");
+    }
+    out.push(res);
+  }
+  return out;
+}
+
+// The frost thermostat's trip setting (inspections/evaluation/freeze_checks.py, engineering.freeze
+// .freeze_trip_setting_check): FAIL below the band's floor, WATCH just below the band (too little margin) or
+// above it (nuisance trips, still protecting: condition freeze_trip_set_high), from the item's own band.
+const TRIP_ITEM = "preheater_freeze.freeze_trip_temp";
+
+function freezeTripChecks(form, consumed) {
+  const out = [];
+  for (const slot of form.ctx.slots.filter((s) => s.item === TRIP_ITEM)) {
+    const key = readingKey(TRIP_ITEM, slot.component);
+    const t = form.readings[key];
+    const lim = slot.limits;
+    const lo = lim.ok_min ?? null;
+    const hi = lim.ok_max ?? null;
+    if (typeof t !== "number" || lo === null || hi === null) continue;
+    const floor = lim.watch_min ?? lo;
+    consumed.add(key);
+    const x = pyRound(t, 9);
+    let verdict = OK;
+    if (x < floor) verdict = FAIL;
+    else if (x < lo || x > hi) verdict = WATCH;
+    const high = verdict === WATCH && x > hi;
+    const res = result({
+      check: "freeze_trip_setting", item: TRIP_ITEM, component: slot.component, verdict,
+      condition_code: high ? "freeze_trip_set_high" : "freeze_protection_failed",
+      method: `trip setting against its band; too high: nuisance trips, never a failure; ${slot.limits_source || "common practice"}`,
+      derived: { trip_c: t, ok_min: lo, ok_max: hi, watch_min: floor },
+    });
+    const d = slot.decimals;
+    const head = ["freeze-protection trip temperature ", q(t, "temperature", d)];
+    const band = span(lo, hi, "temperature", d);
+    if (verdict === FAIL) say(res, ...head, " is below ", q(floor, "temperature", d), ": the coil can freeze before it trips");
+    else if (verdict === OK) say(res, ...head, " is within the recommended ", band);
+    else if (high) {
+      say(res, ...head, " is above the recommended ", band,
+        ": set higher than needed, nuisance trips likely (the unit stops on cool mornings); "
+        + "adjust to the recommended setting. The coil is still protected.");
+    } else say(res, ...head, " is below the recommended ", band, ": too little margin; adjust up and retest");
     out.push(res);
   }
   return out;
@@ -1140,7 +1199,7 @@ export function evaluate(ctx, readings, { finishedOn = new Date().toISOString().
     ...filterChecks(form, consumed), ...filterChangeChecks(form, consumed), ...oaChecks(form, consumed), ...fullOaChecks(form),
     ...coilChecks(form, consumed),
     ...setpointChecks(form, consumed), ...driftChecks(form, consumed), ...heatRecoveryChecks(form, consumed),
-    ...valveLeakChecks(form, consumed),
+    ...valveLeakChecks(form, consumed), ...freezeTripChecks(form, consumed),
   ];
   for (const slot of ctx.slots) {
     const key = readingKey(slot.item, slot.component);

@@ -1,0 +1,60 @@
+"""The freeze-protection (low-limit) thermostat's trip setting: a setting too low leaves the coil unprotected, one too
+high only trips on cool mornings (``engineering.freeze.freeze_trip_setting_check``). The band is the checklist item's
+own (``inspections.checklists.FREEZE_TRIP_OK``, ``FREEZE_TRIP_WATCH``), as the phone receives it with the item."""
+
+from __future__ import annotations
+
+from engineering.controls import Verdict
+from engineering.freeze import freeze_trip_setting_check
+from inspections.reasons import q as qty
+from inspections.reasons import span
+
+from .form import Form
+from .results import FREEZE_TRIP_SET_HIGH, ITEM_CONDITIONS, Result
+
+TRIP_ITEM = "preheater_freeze.freeze_trip_temp"
+
+
+def freeze_trip_checks(form: Form, consumed: set) -> list[Result]:
+    """The trip setting against its band: FAIL below the band's floor, WATCH just below it (too little margin) or
+    above it (nuisance trips: still protecting, so ``FREEZE_TRIP_SET_HIGH``, not the freeze-protection condition)."""
+    out = []
+    for slot in (s for s in form.slots if s.item.api_key == TRIP_ITEM):
+        t = form.num(TRIP_ITEM, slot.component)
+        lim = slot.limits
+        lo, hi = lim.get("ok_min"), lim.get("ok_max")
+        if t is None or lo is None or hi is None:
+            continue
+        floor = lim.get("watch_min") if lim.get("watch_min") is not None else lo
+        consumed.add((TRIP_ITEM, slot.component.pk if slot.component else None))
+        chk = freeze_trip_setting_check(trip_c=t, ok_low=lo, ok_high=hi, fail_below=floor)
+        high = chk.verdict == Verdict.WATCH and chk.limits["above_band_k"] > 0
+        res = Result(
+            check="freeze_trip_setting",
+            item=TRIP_ITEM,
+            component=slot.component,
+            verdict=chk.verdict.value,
+            condition_code=FREEZE_TRIP_SET_HIGH if high else ITEM_CONDITIONS[TRIP_ITEM],
+            method="trip setting against its band; too high: nuisance trips, never a failure; "
+            + (slot.item.limits_source or "common practice"),
+            derived={"trip_c": t, "ok_min": lo, "ok_max": hi, "watch_min": floor},
+        )
+        d = slot.item.decimals
+        head = ["freeze-protection trip temperature ", qty(t, "temperature", d)]
+        band = span(lo, hi, "temperature", d)
+        if chk.verdict == Verdict.FAIL:
+            res.say(*head, " is below ", qty(floor, "temperature", d), ": the coil can freeze before it trips")
+        elif chk.verdict == Verdict.OK:
+            res.say(*head, " is within the recommended ", band)
+        elif high:
+            res.say(
+                *head,
+                " is above the recommended ",
+                band,
+                ": set higher than needed, nuisance trips likely (the unit stops on cool mornings); "
+                "adjust to the recommended setting. The coil is still protected.",
+            )
+        else:
+            res.say(*head, " is below the recommended ", band, ": too little margin; adjust up and retest")
+        out.append(res)
+    return out
