@@ -58,6 +58,7 @@ from engineering.freeze import (
     daily_values_from_normals,
     freeze_risk,
     freeze_season_start,
+    freeze_trip_setting_check,
     heating_degree_days,
     heating_degree_days_65f,
 )
@@ -138,6 +139,7 @@ __all__ = [
     "fraction_check",
     "freeze_risk",
     "freeze_season_start",
+    "freeze_trip_setting_check",
     "from_display",
     "heat_recovery_check",
     "heat_recovery_effectiveness",

@@ -30,14 +30,14 @@ def freeze_trip_checks(form: Form, consumed: set) -> list[Result]:
         chk = freeze_trip_setting_check(trip_c=t, ok_low=lo, ok_high=hi, fail_below=floor)
         high = chk.verdict == Verdict.WATCH and chk.limits["above_band_k"] > 0
         res = Result(
-            check="freeze_trip_setting",
+            check="limits",  # a number against its band, as every single reading: pages, PDFs and findings read it so
             item=TRIP_ITEM,
             component=slot.component,
             verdict=chk.verdict.value,
             condition_code=FREEZE_TRIP_SET_HIGH if high else ITEM_CONDITIONS[TRIP_ITEM],
-            method="trip setting against its band; too high: nuisance trips, never a failure; "
+            method="reading against its band, too high a watch (nuisance trips), never a failure; "
             + (slot.item.limits_source or "common practice"),
-            derived={"trip_c": t, "ok_min": lo, "ok_max": hi, "watch_min": floor},
+            derived={"value": t, "ok_min": lo, "ok_max": hi, "watch_min": floor},
         )
         d = slot.item.decimals
         head = ["freeze-protection trip temperature ", qty(t, "temperature", d)]

@@ -26,7 +26,6 @@ CHECKS = (
     "sensor_drift",
     "heat_recovery",
     "coil_valve_leak",  # a shut coil still changing the air: its valve passes water
-    "freeze_trip_setting",  # the frost thermostat's trip setting: too low fails, too high only trips needlessly
 )
 # A frost thermostat set above its band: a watch that still protects the coil (nuisance trips). Its results carry
 # this condition, not "freeze_protection_failed", so freeze readiness (inspections.freeze) counts the step passed.

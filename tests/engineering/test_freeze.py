@@ -13,6 +13,7 @@ from engineering import (
     daily_minimums_from_normals,
     freeze_risk,
     freeze_season_start,
+    freeze_trip_setting_check,
     heating_degree_days,
     heating_degree_days_65f,
 )
@@ -83,3 +84,34 @@ def test_wrong_number_of_normals_and_nan_are_refused():
         daily_minimums_from_normals(monthly_min_c=[1.0] * 11, start=date(2025, 1, 1), days=10)
     with pytest.raises(EngineeringInputError, match="not a finite number"):
         heating_degree_days(daily_mean_c=[float("nan")])
+
+
+# The frost thermostat's band as the checklist sets it: ok 2.5–5.5 °C, fail below 2 °C (usual setting about
+# 3.3 °C / 38 °F, typical 2–5 °C / 35–40 °F: common practice, from memory; inspections.checklists.FREEZE_TRIP_*).
+@pytest.mark.parametrize(
+    ("trip_c", "verdict"),
+    [
+        (1.9, "fail"),
+        (2.0, "watch"),
+        (2.4, "watch"),
+        (2.5, "ok"),
+        (3.3, "ok"),
+        (5.5, "ok"),
+        (5.6, "watch"),
+        (12.5, "watch"),
+    ],
+)
+def test_a_trip_set_too_high_is_a_watch_too_low_a_failure(trip_c, verdict):
+    chk = freeze_trip_setting_check(trip_c=trip_c, ok_low=2.5, ok_high=5.5, fail_below=2.0)
+    assert chk.verdict == verdict
+    if trip_c > 5.5:
+        assert "set higher than needed, nuisance trips likely" in chk.reason
+        assert chk.limits["above_band_k"] == pytest.approx(trip_c - 5.5)
+    else:
+        assert chk.limits["above_band_k"] == 0.0
+
+
+def test_a_trip_band_out_of_order_is_refused_by_name():
+    with pytest.raises(EngineeringInputError) as e:
+        freeze_trip_setting_check(trip_c=3.0, ok_low=2.5, ok_high=5.5, fail_below=3.0)
+    assert e.value.field == "ok_low"

@@ -325,3 +325,39 @@ def test_a_retest_on_the_corrective_work_that_fails_again_keeps_the_fault_open_w
     assert says["api"]["reason"].startswith("not ready — test failed on 8 Oct 2025: ")
     assert says["api"]["reason"].endswith("; corrective work planned"), says["api"]["reason"]
     assert "0 of 1 freeze-protected units ready" in says["pdf"]
+
+
+@pytest.mark.django_db
+def test_a_frost_thermostat_set_too_high_is_a_watch_and_the_unit_stays_ready(
+    api_client, client, time_machine, django_capture_on_commit_callbacks
+):
+    """The new-user tryout: the frost thermostat trips at 12.5 °C, far above the usual 2–5 °C (35–40 °F, common
+    practice; the band is inspections.checklists.FREEZE_TRIP_OK), and every other step passes. A trip set too
+    high still protects the coil, it only stops the unit on cool mornings: the step is a watch saying so, no
+    finding opens, and the site page, the dashboard, the API and the PDF all say ready."""
+    from inspections.models import Evaluation
+
+    wo, tech, _heater, site, _boss, manager = _unit_with_a_preheater()
+    time_machine.move_to(FAILED_ON + dt.timedelta(hours=1), tick=False)
+    out = _send(
+        api_client,
+        tech,
+        wo,
+        {"preheater_freeze.stage_on_temp": THRESHOLD_C, "preheater_freeze.freeze_trip_temp": 12.5},
+        FAILED_ON,
+    )
+    assert out["findings"] == []
+    assert not Finding.objects.filter(ahu=wo.ahu).exists()
+    trip = Evaluation.objects.get(inspection_id=out["inspection_id"], item_key="preheater_freeze.freeze_trip_temp")
+    assert (trip.verdict, trip.check_name, trip.condition_code) == ("watch", "limits", "freeze_trip_set_high")
+    assert "set higher than needed, nuisance trips likely" in trip.reason
+    assert "adjust to the recommended setting" in trip.reason
+
+    time_machine.move_to(dt.datetime(2025, 10, 5, 9, tzinfo=dt.UTC), tick=False)
+    says = _what_everyone_says(client, api_client, manager, site, django_capture_on_commit_callbacks)
+    assert says["api"]["status"] == "ready" and says["api"]["ready"]
+    assert says["api"]["reason"] == "ready — every step passed on 3 Oct 2025"
+    assert "Not ready" not in says["page"] and "every step passed on 3 Oct 2025" in says["page"]
+    assert "1 of 1" in says["dashboard"] and "not ready" not in says["dashboard"]
+    assert "1 of 1 freeze-protected units ready" in says["pdf"]
+    assert "Freeze protection failed" not in says["page"] + says["pdf"]

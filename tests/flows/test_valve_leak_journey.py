@@ -96,6 +96,11 @@ def test_a_supply_mixed_air_fault_brings_a_leak_by_test_that_finds_the_passing_v
         assert name in text
     assert "Air temperature leaving the coil (valve shut)" in text
     assert "hot enough to burn" in text
+    # Shutting a water coil's valve with the fan running in winter can freeze it: the freeze caution (about 5 °C,
+    # the preheat threshold of engineering.freeze, common practice) and the local-codes-first line come with it.
+    assert "Freeze risk: do not shut a preheat coil's valve" in text and "below about 5 °C" in text
+    assert "outdoor-air damper is closed or the unit runs on recirculation" in text
+    assert "Local codes, the manufacturer's instructions and licensed practice take precedence" in text
 
     cooling, heating = coils["Cooling coil"], coils["Heating coil"]
     readings = [r("visit.run_hours", 5_000)]
@@ -202,6 +207,18 @@ def test_the_leak_by_verdict_on_both_sides_of_the_limit(duty, t_in, t_out, verdi
     from engineering.controls import valve_leak_check
 
     assert valve_leak_check(entering_c=t_in, leaving_c=t_out, duty=duty).verdict == verdict
+
+
+def test_air_changing_the_wrong_way_says_re_check_not_that_the_valve_holds():
+    """Entering 18 °C, leaving 25 °C across a shut cooling coil (the tryout): 7 K warmer, beyond the 2.68 K
+    allowance (FC#14, from memory) is a sensor or heat from another coil. A heating coil cooling the air 6 K alike."""
+    from engineering.controls import valve_leak_check
+
+    cool = valve_leak_check(entering_c=18.0, leaving_c=25.0, duty="cooling")
+    assert cool.verdict == "watch" and "holds" not in cool.reason
+    assert cool.reason.startswith("re-check: air warmed across a shut cooling coil (sensor error or heat from another")
+    heat = valve_leak_check(entering_c=18.0, leaving_c=12.0, duty="heating")
+    assert heat.verdict == "watch" and "cooled across a shut heating coil" in heat.reason
 
 
 def test_a_coil_duty_or_temperature_out_of_range_is_refused_by_name():

@@ -478,7 +478,8 @@ def test_failed_freeze_test_in_summer_waits_for_approval(api_client, django_capt
 
 @pytest.mark.django_db
 def test_freeze_trip_temperature_too_low_fails(api_client):
-    """A frost thermostat tripping at 0 °C acts too late (ok 2–6 °C, watch 1–7 °C: common practice)."""
+    """A frost thermostat tripping at 0 °C acts too late (ok 2.5–5.5 °C, fail below 2 °C: common practice;
+    inspections.checklists.FREEZE_TRIP_*): judged as a trip setting, a failure of freeze protection."""
     out = submit_visit(
         api_client,
         "preheater_freeze",
@@ -491,6 +492,7 @@ def test_freeze_trip_temperature_too_low_fails(api_client):
     )
     ev = result(out, "limits")
     assert ev["item"] == "preheater_freeze.freeze_trip_temp" and ev["verdict"] == "fail"
+    assert "the coil can freeze before it trips" in ev["reason"]
 
 
 def _exchanger(ahu, design_pct):

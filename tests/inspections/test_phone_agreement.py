@@ -653,12 +653,13 @@ def test_the_tryout_readings_read_the_same_on_both(tmp_path):
         "points": {},
         "codes": {c.pk: c.label_code for c in comps},
     }
-    py = {r.check: r for r in evaluate_case(case)}
-    js = {r["check"]: r for r in run_js([js_input(case)], tmp_path)["out"][0]["results"]}
-    trip, leak = py["freeze_trip_setting"], py["coil_valve_leak"]
-    assert trip.verdict == js["freeze_trip_setting"]["verdict"] == "watch"
-    assert trip.condition_code == js["freeze_trip_setting"]["condition_code"] == "freeze_trip_set_high"
-    assert trip.reason == js["freeze_trip_setting"]["reason"]
+    py = {r.item: r for r in evaluate_case(case)}
+    js = {r["item"]: r for r in run_js([js_input(case)], tmp_path)["out"][0]["results"]}
+    trip, leak = py["preheater_freeze.freeze_trip_temp"], py["coil_valve_leak.leak_air_out"]
+    js["limits"], js["coil_valve_leak"] = js["preheater_freeze.freeze_trip_temp"], js["coil_valve_leak.leak_air_out"]
+    assert trip.verdict == js["limits"]["verdict"] == "watch"
+    assert trip.condition_code == js["limits"]["condition_code"] == "freeze_trip_set_high"
+    assert trip.reason == js["limits"]["reason"]
     assert "set higher than needed, nuisance trips likely" in trip.reason
     assert "adjust to the recommended setting" in trip.reason
     assert leak.verdict == js["coil_valve_leak"]["verdict"] == "watch"

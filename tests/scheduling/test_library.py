@@ -60,6 +60,17 @@ def test_fan_and_heater_tasks_carry_lockout_cautions():
         assert "take precedence" in notes
 
 
+def test_the_leak_by_test_warns_against_shutting_a_coil_valve_in_cold_outdoor_air():
+    """The leak-by test holds a coil's valve shut with the fan running; with outdoor air below about 5 °C (the
+    preheat threshold, common practice) that can freeze a preheat or any water coil: its notes say so first."""
+    task_library_install()
+    notes = TaskDefinition.objects.get(code="coil_valve_leak", organisation__isnull=True).safety_notes
+    assert notes.startswith("Freeze risk: do not shut a preheat coil's valve (or any water coil's)")
+    assert "below about 5 °C" in notes and "outdoor-air damper is closed or the unit runs on recirculation" in notes
+    assert "frost thermostat" in notes
+    assert "Lock out and tag out" in notes and "take precedence" in notes
+
+
 def test_override_changes_frequency_for_one_organisation_only():
     """A supervisor's new frequency applies to their organisation; others keep the library value."""
     task_library_install()

@@ -16,7 +16,7 @@ export const FAIL = "fail";
 export const CHECKS = [
   "check", "choice", "limits", "filter_loading", "filter_after_change", "oa_fraction_temperature", "oa_fraction_co2",
   "full_oa_airflow", "coil_balance", "supply_temperature", "duct_static", "damper_position", "sensor_drift", "heat_recovery",
-  "coil_valve_leak", "freeze_trip_setting",
+  "coil_valve_leak",
 ];
 
 const RANK = { [OK]: 0, [WATCH]: 1, [FAIL]: 2 };
@@ -1070,10 +1070,10 @@ function freezeTripChecks(form, consumed) {
     else if (x < lo || x > hi) verdict = WATCH;
     const high = verdict === WATCH && x > hi;
     const res = result({
-      check: "freeze_trip_setting", item: TRIP_ITEM, component: slot.component, verdict,
+      check: "limits", item: TRIP_ITEM, component: slot.component, verdict,
       condition_code: high ? "freeze_trip_set_high" : "freeze_protection_failed",
-      method: `trip setting against its band; too high: nuisance trips, never a failure; ${slot.limits_source || "common practice"}`,
-      derived: { trip_c: t, ok_min: lo, ok_max: hi, watch_min: floor },
+      method: `reading against its band, too high a watch (nuisance trips), never a failure; ${slot.limits_source || "common practice"}`,
+      derived: { value: t, ok_min: lo, ok_max: hi, watch_min: floor },
     });
     const d = slot.decimals;
     const head = ["freeze-protection trip temperature ", q(t, "temperature", d)];
