@@ -19,7 +19,7 @@ import functools
 from collections.abc import Callable
 from typing import Any
 
-from engineering import filters
+from engineering import controls, filters
 from engineering import formatting as fmt
 from engineering import units as eng_units
 from engineering.airside import fluid_properties
@@ -151,6 +151,7 @@ def constants() -> dict[str, Any]:
         "filter_after_change_high_fail": filters.AFTER_CHANGE_HIGH_FAIL,
         "valve_leak_limit_k": valve_checks.LEAK_LIMIT_K,
         "valve_leak_method": valve_checks.LEAK_METHOD,
+        "valve_leak_wrong_way": dict(controls.WRONG_WAY),
     }
 
 

@@ -1005,13 +1005,6 @@ function driftChecks(form, consumed) {
 // duty) or warms (heating, preheat) the air by the trend rules' limit or more (constants.valve_leak_limit_k);
 // WATCH when the air changes the other way by as much (a sensor or another coil: re-check).
 const COIL_DUTIES = ["cooling", "heating", "preheat"];
-// The air changing the wrong way beyond the allowance: WATCH, re-check (engineering.controls.WRONG_WAY).
-const WRONG_WAY = {
-  cooling: "warmed across a shut cooling coil (sensor error or heat from another coil)",
-  heating: "cooled across a shut heating coil (sensor error or cooling from another coil)",
-  preheat: "cooled across a shut preheat coil (sensor error or cooling from another coil)",
-};
-
 function valveLeakChecks(form, consumed) {
   const out = [];
   const limit = form.ctx.constants.valve_leak_limit_k;
@@ -1037,7 +1030,8 @@ function valveLeakChecks(form, consumed) {
     const head = [`${coil.name}: air `, q(tIn, "temperature"), " entering, ", q(tOut, "temperature"),
       ` leaving the shut coil, a ${what} of `, q(Math.abs(change), "temperature_difference")];
     if (verdict === WATCH) {
-      say(res, ...head, ` — re-check: air ${WRONG_WAY[duty]}; beyond the `, q(limit, "temperature_difference"),
+      // The words by duty: engineering.controls.WRONG_WAY, in the evaluation constants.
+      say(res, ...head, ` — re-check: air ${form.ctx.constants.valve_leak_wrong_way[duty]}; beyond the `, q(limit, "temperature_difference"),
         " allowance it cannot show whether the valve holds");
     } else {
       say(res, ...head, ` — ${verdict === FAIL ? "the valve passes water" : "the valve holds"} (a leak from `,
