@@ -215,3 +215,42 @@ def test_the_api_lists_only_visible_units_and_names_a_bad_site_parameter(unit, a
     stranger = make_person(organisation=OrganisationFactory(), role=Role.PROPERTY_MANAGER)
     api_client.force_authenticate(stranger)
     assert api_client.get("/api/inspections/freeze-readiness/").json() == []
+
+
+def test_a_trip_set_too_high_still_proves_the_step_a_trip_near_too_low_does_not(unit):
+    """A frost thermostat set above its band (nuisance trips; the watch carries FREEZE_TRIP_SET_HIGH) still
+    protects the coil: the step passes. The same watch for a setting just below the band (too little margin,
+    the freeze-protection condition) does not: near its limit, not proven. Bands: common practice
+    (inspections.checklists.FREEZE_TRIP_*)."""
+    from inspections.evaluation.results import FREEZE_TRIP_SET_HIGH
+    from inspections.models import Evaluation
+
+    insp = b.freeze_test(
+        unit["visit"],
+        unit["tech"],
+        finished="2025-10-01",
+        heaters=[unit["heater"]],
+        verdicts={"freeze_trip_temp": "watch"},
+    )
+    near = _readiness(unit["ahu"])
+    assert near.status == NOT_READY and "(near its limit, not proven)" in near.reason
+    Evaluation.objects.filter(inspection=insp, item_key="preheater_freeze.freeze_trip_temp").update(
+        condition_code=FREEZE_TRIP_SET_HIGH
+    )
+    r = _readiness(unit["ahu"])
+    assert (r.status, r.reason) == (READY, "ready — every step passed on 1 Oct 2025")
+
+
+def test_an_amendment_to_a_setting_too_high_keeps_the_unit_ready(unit):
+    """The trip setting amended to one above the band: the amendment's watch carries its condition, so the step
+    still passes; an amendment's watch without that condition is near a limit, not proven."""
+    from inspections.evaluation.results import FREEZE_TRIP_SET_HIGH
+
+    insp = b.freeze_test(unit["visit"], unit["tech"], finished="2025-10-01", heaters=[unit["heater"]])
+    watch = {"verdict": "watch", "condition_code": FREEZE_TRIP_SET_HIGH}
+    change = {"item": "preheater_freeze.freeze_trip_temp", "component": None, "after": watch}
+    b.amendment(insp, unit["tech"], reason="the setting was 12.5 °C", changes=[change], created="2025-10-02")
+    assert _readiness(unit["ahu"]).status == READY
+    change = {"item": "preheater_freeze.freeze_trip_temp", "component": None, "after": {"verdict": "watch"}}
+    b.amendment(insp, unit["tech"], reason="the setting was 2.2 °C", changes=[change], created="2025-10-03")
+    assert _readiness(unit["ahu"]).status == NOT_READY
