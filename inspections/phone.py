@@ -147,6 +147,7 @@ def constants() -> dict[str, Any]:
         "filter_airflow_ratio": list(filters.AIRFLOW_RATIO),
         "filter_bypass_fail_fraction": filters.BYPASS_FAIL_FRACTION,
         "filter_bypass_watch_fraction": filters.BYPASS_WATCH_FRACTION,
+        "filter_fall_watch_fraction": filters.FALL_WATCH_FRACTION,
         "filter_after_change_tolerance": filters.AFTER_CHANGE_TOLERANCE,
         "filter_after_change_high_fail": filters.AFTER_CHANGE_HIGH_FAIL,
         "valve_leak_limit_k": valve_checks.LEAK_LIMIT_K,
@@ -249,7 +250,7 @@ def checklist_context(*, checklist, as_of: dt.datetime) -> dict[str, Any]:
             ahu=ahu,
             components=components,
             slots=checklist.slots,
-            filter_points=lambda bank: series[bank.pk].current.forecast_points(),
+            filter_points=lambda bank: series[bank.pk].current.points_for_next_reading(),
         ),
         "meter": meter_context(ahu=ahu, as_of=as_of),
         # A reading no check judges, in the server's words (inspections.display).

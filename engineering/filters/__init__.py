@@ -15,9 +15,11 @@ from .forecast import FilterForecast, FilterPoint, filter_forecast
 from .loading import (
     AFTER_CHANGE_HIGH_FAIL,
     AFTER_CHANGE_TOLERANCE,
+    BELOW_CLEAN_RULE,
     BYPASS_FAIL_FRACTION,
     BYPASS_WATCH_FRACTION,
     DEFAULT_EXPONENT,
+    FALL_WATCH_FRACTION,
     FilterAfterChange,
     FilterLoading,
     corrected_pressure_drop,
@@ -36,9 +38,11 @@ from .loading import (
 __all__ = [
     "AFTER_CHANGE_HIGH_FAIL",
     "AFTER_CHANGE_TOLERANCE",
+    "BELOW_CLEAN_RULE",
     "BYPASS_FAIL_FRACTION",
     "BYPASS_WATCH_FRACTION",
     "DEFAULT_EXPONENT",
+    "FALL_WATCH_FRACTION",
     "EconomicChangePoint",
     "FilterAfterChange",
     "FilterEnergy",

@@ -16,9 +16,11 @@ from engineering.errors import EngineeringInputError
 __all__ = [
     "AFTER_CHANGE_HIGH_FAIL",
     "AFTER_CHANGE_TOLERANCE",
+    "BELOW_CLEAN_RULE",
     "BYPASS_FAIL_FRACTION",
     "BYPASS_WATCH_FRACTION",
     "DEFAULT_EXPONENT",
+    "FALL_WATCH_FRACTION",
     "FilterAfterChange",
     "FilterLoading",
     "corrected_pressure_drop",
@@ -44,6 +46,16 @@ FILTER_DP_PA = (0.0, 2_500.0)
 # watched (common practice; maker's clean values carry roughly ±10–15 %).
 BYPASS_FAIL_FRACTION = 0.5
 BYPASS_WATCH_FRACTION = 0.8
+# A filter's pressure drop at design airflow only rises in service (dust held in the media); it falls only with a
+# change, torn or bypassed media, or a gauge, sensor or tubing fault. A reading below 80 % of the last value of the
+# same filters is watched as such (common practice: a gauge's scatter and the airflow correction stay well
+# within 20 %, as AFTER_CHANGE_TOLERANCE allows a new filter against its rated value).
+FALL_WATCH_FRACTION = 0.8
+# What a reading between 80 % of clean and clean means, in the words of every reason that says it.
+BELOW_CLEAN_RULE = (
+    f"within the rated value's tolerance; watch below {BYPASS_WATCH_FRACTION * 100:.0f} %, "
+    f"fail below {BYPASS_FAIL_FRACTION * 100:.0f} % of clean as missing, torn or bypassed media"
+)
 # Straight after a change the bank should read its rated clean pressure drop:
 # more than 20 % above or below it (at design airflow) is watched (common
 # practice: a different class or size fitted, a gauge line off, or media
@@ -177,7 +189,10 @@ def filter_loading(
 
     fraction = (Δp_corrected − Δp_clean) / (Δp_final − Δp_clean). WATCH at
     ≥ 0.75 and FAIL at ≥ 0.95 of that span by default (common practice: plan
-    the change at three quarters, change before the final value).
+    the change at three quarters, change before the final value), judged on
+    the whole percent the reason shows ("75 %" is watched when the rule says
+    "watch from 75 %"). A reading below clean is said as such, never as a
+    negative share of the span.
 
     A corrected pressure drop below ``BYPASS_FAIL_FRACTION`` (50 %) of the
     clean value FAILS as missing, torn or bypassed media, and one below
@@ -220,21 +235,38 @@ def filter_loading(
             media_bypass_suspected=True,
             parts=parts,
         )
-    verdict = Verdict.FAIL if f >= ff else Verdict.WATCH if f >= wf else Verdict.OK
-    reason = (
-        f"filter {corrected:.0f} Pa at design airflow, {loading_percent(frac):.0f} % of the way from clean "
-        f"{clean:.0f} Pa to final {final:.0f} Pa (watch from {wf * 100:.0f} %, fail from "
-        f"{ff * 100:.0f} %)"
-    )
-    parts = (
-        "filter ",
-        _pa(corrected),
-        f" at design airflow, {loading_percent(frac):.0f} % of the way from clean ",
-        _pa(clean),
-        " to final ",
-        _pa(final),
-        f" (watch from {wf * 100:.0f} %, fail from {ff * 100:.0f} %)",
-    )
+    # Judged on the whole percent the words show against the thresholds as they are written: "75 %" is watched
+    # when the rule reads "watch from 75 %" (74.88 % is shown as 75 % and so judged), never "75 %" and OK.
+    shown, watch_at, fail_at = (float(f"{x:.0f}") for x in (loading_percent(frac), wf * 100, ff * 100))
+    verdict = Verdict.FAIL if shown >= fail_at else Verdict.WATCH if shown >= watch_at else Verdict.OK
+    rule = f"(watch from {watch_at:.0f} %, fail from {fail_at:.0f} %)"
+    if f < 0:
+        # Below clean (not so far as to suspect bypassed media): no loading to say, never a negative share.
+        reason = (
+            f"filter {corrected:.0f} Pa at design airflow, below its clean pressure drop {clean:.0f} Pa "
+            f"({of_clean * 100:.0f} % of clean; {BELOW_CLEAN_RULE})"
+        )
+        parts = (
+            "filter ",
+            _pa(corrected),
+            " at design airflow, below its clean pressure drop ",
+            _pa(clean),
+            f" ({of_clean * 100:.0f} % of clean; {BELOW_CLEAN_RULE})",
+        )
+    else:
+        reason = (
+            f"filter {corrected:.0f} Pa at design airflow, {shown:.0f} % of the way from clean "
+            f"{clean:.0f} Pa to final {final:.0f} Pa {rule}"
+        )
+        parts = (
+            "filter ",
+            _pa(corrected),
+            f" at design airflow, {shown:.0f} % of the way from clean ",
+            _pa(clean),
+            " to final ",
+            _pa(final),
+            f" {rule}",
+        )
     return FilterLoading(
         corrected_dp_pa=corrected,
         fraction_of_span=frac,

@@ -11,7 +11,7 @@ from django.shortcuts import render
 from django.views.decorators.http import require_GET
 
 from engineering.units import to_display, unit_label
-from inspections import reasons
+from inspections import display, reasons
 from inspections.freeze import season_window
 from inspections.reasons import text_without_subject
 from inspections.selectors import reason_for
@@ -119,7 +119,7 @@ def site_detail(request, pk: int):
     for row in figures.filters:
         d = row["derived"]
         row["corrected_dp"] = shown(row["corrected_dp_pa"], "pressure", system)
-        row["loading"] = f"{d['loading_pct']:.0f} %" if isinstance(d.get("loading_pct"), int | float) else "—"
+        row["loading"] = display.loading_words(d.get("loading_pct"))
         if row["outlook"] is not None:
             # Dates as the rest of the page writes them ("5 Jun 2025"), on the site's day.
             row["forecast"] = row["outlook"].words()

@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 import re
 
-from .words import DERIVED, DERIVED_HIDDEN, _date, _minus, _shown, derived_rows, plain_message
+from .words import DERIVED, DERIVED_HIDDEN, _date, _shown, derived_rows, loading_words, plain_message
 
 # Yes/no values as whole sentences (shown when true).
 FLAG_SENTENCES = {
@@ -74,8 +74,9 @@ def _filter_sentences(d: dict, system: str) -> list[str]:
         out.append(_end(f"At the design airflow{f' ({design})' if design else ''} it would be {corrected}"))
     loading, final = d.get("loading_pct"), shown("final_dp_pa")
     if isinstance(loading, int | float) and not isinstance(loading, bool) and math.isfinite(loading):
-        text = _minus(f"Loaded {loading:.0f} % of the way from clean to final")
-        out.append(text + (f" ({final})." if final else "."))
+        said = loading_words(loading)
+        text = "Below its clean pressure drop: no loading" if said == "below clean" else f"Loaded {said} of the way"
+        out.append(text + " from clean to final" + (f" ({final})." if final else "."))
     elif final:
         out.append(_end(f"Final pressure drop {final}"))
     return out

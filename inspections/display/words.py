@@ -70,9 +70,10 @@ DERIVED: dict[str, tuple[str, Any]] = {
     # filters
     "dp_pa": ("measured pressure drop", "pressure"),
     "corrected_dp_pa": ("pressure drop at design airflow", "pressure"),
+    "last_corrected_dp_pa": ("last value of these filters at design airflow", "pressure"),
     "clean_dp_pa": ("clean pressure drop", "pressure"),
     "final_dp_pa": ("final pressure drop", "pressure"),
-    "loading_pct": ("loading between clean and final", "pct"),
+    "loading_pct": ("loading between clean and final", "loading"),
     "fraction_of_clean_pct": ("pressure drop against a clean filter", "pct"),
     "airflow_m3s": ("airflow", "airflow"),
     "design_airflow_m3s": ("design airflow", "airflow"),
@@ -206,6 +207,8 @@ def _shown(value: Any, how: Any, system: str, item: str) -> str:
         return f"{value * 100:.0f} %"
     if how == "points":
         return f"± {value * 100:.0f} points"
+    if how == "loading":
+        return loading_words(value, decimals=1)
     if how == "pct":
         return _minus(f"{value:.1f} %")
     if how == "pct_magnitude":
@@ -227,6 +230,17 @@ def _shown(value: Any, how: Any, system: str, item: str) -> str:
     if how == "density":
         return _in_units(value, "density", system, 3)
     return _quantity(value, how, system)
+
+
+def loading_words(loading_pct: object, *, decimals: int = 0) -> str:
+    """A filter's loading (percent of its clean-to-final span) as the tables, pages and records say it: "43 %";
+    a reading below its clean pressure drop has no loading to say, never a negative share ("below clean");
+    "—" with none."""
+    if isinstance(loading_pct, bool) or not isinstance(loading_pct, int | float) or not math.isfinite(loading_pct):
+        return "—"
+    if round(loading_pct, 6) < 0:
+        return "below clean"
+    return f"{loading_pct:.{decimals}f} %"
 
 
 def derived_rows(derived: dict, system: str, *, item: str = "") -> list[tuple[str, str]]:

@@ -40,6 +40,44 @@ def _filter_derived(*, dp: float, q: float, q_how: str, design_q: float, clean: 
     }
 
 
+# Why a judged filter has no forecast, kept in the evaluation's derived values (``forecast_note``) for the tables
+# (reports.compliance.outlook.stored_filter_outlook says them in words).
+BELOW_CLEAN_NOTE = "below its clean pressure drop: no loading to forecast from"
+RECHECK_NOTE = "re-check: this reading and the earlier values of these filters disagree"
+
+
+def _fallen_since_last(form: Form, res: Result, *, bank, design_q: float, loading: Any) -> Result | None:
+    """``res`` judged WATCH and worded when this reading at design airflow is below
+    ``filters.FALL_WATCH_FRACTION`` of the last value of the same filters (a technician's reading or a trend day):
+    a filter's pressure drop does not fall in service without a change, so the gauge or sensor, its tubing or
+    the media is at fault and neither value is trusted for a forecast. None when it has not fallen so far."""
+    earlier = form.filter_points(bank)
+    if not earlier or form.text("filter_replace.replaced", bank) == "ok":
+        return None
+    last = earlier[-1]
+    try:
+        last_dp = filters.corrected_pressure_drop(
+            dp_pa=last.dp_pa, airflow_m3s=last.airflow_m3s, design_airflow_m3s=design_q
+        )
+    except EngineeringInputError:
+        return None
+    if last_dp <= 0 or round(loading.corrected_dp_pa / last_dp, 9) >= filters.FALL_WATCH_FRACTION:
+        return None
+    if res.verdict == Verdict.OK:
+        res.verdict = Verdict.WATCH
+    res.derived.update(last_corrected_dp_pa=round(last_dp, 1), forecast_note=RECHECK_NOTE)
+    res.say(
+        f"{bank.name}: filter reads ",
+        qty(loading.corrected_dp_pa, "pressure"),
+        f" at design airflow, {loading.corrected_dp_pa / last_dp * 100:.0f} % of the last value of these filters (",
+        qty(last_dp, "pressure"),
+        f" on {_fmt_date(last.when)}): a filter's pressure drop does not fall without a change; re-check the "
+        "gauge or sensor and its tubing, and look for torn, missing or bypassed media "
+        f"(watch below {filters.FALL_WATCH_FRACTION * 100:.0f} % of the last value)",
+    )
+    return res
+
+
 def _no_forecast_words(exc: EngineeringInputError) -> str:
     """Why a filter bank has no change date, in plain words (the refusal of ``filters.filter_forecast``)."""
     if exc.allowed == "a rising pressure drop":
@@ -119,6 +157,22 @@ def filter_loading_checks(form: Form, consumed: set) -> list[Result]:
             )
             out.append(res)
             continue
+        if (fallen := _fallen_since_last(form, res, bank=bank, design_q=design_q, loading=loading)) is not None:
+            out.append(fallen)
+            continue
+        if round(loading.fraction_of_span, 9) < 0:
+            # Below clean, not so far as to suspect bypassed media: no loading to say, nor to forecast from.
+            res.say(
+                f"{bank.name}: filter reads ",
+                qty(loading.corrected_dp_pa, "pressure"),
+                " at design airflow, below its clean pressure drop ",
+                qty(specs["clean_dp_pa"], "pressure"),
+                f" ({loading.fraction_of_clean * 100:.0f} % of clean; {filters.BELOW_CLEAN_RULE}): "
+                "no loading to forecast from",
+            )
+            res.derived["forecast_note"] = BELOW_CLEAN_NOTE
+            out.append(res)
+            continue
         forecast_text = _loading_forecast(form, res, bank=bank, dp=dp, q=q, design_q=design_q, loading=loading)
         res.say(
             f"{bank.name}: filter at {pct:.0f} % of its span after correcting to design airflow (",
@@ -145,10 +199,8 @@ def _loading_forecast(form: Form, res: Result, *, bank, dp: float, q: float, des
         forecast_text = "; the reading before the change: these filters were replaced on this visit"
         res.derived["replaced_on_visit"] = True
     elif hours is not None:
-        points = [
-            *form.filter_points(bank),
-            FilterPoint(run_hours=hours, dp_pa=dp, airflow_m3s=q, when=form.finished_at.date()),
-        ]
+        # This reading joins the earlier points on one meter (``FilterLife.forecast_points``): the newest evidence.
+        points = form.filter_points(bank, FilterPoint(run_hours=hours, dp_pa=dp, airflow_m3s=q, when=form.finished_at))
         try:
             fc = filters.filter_forecast(points=points, design_airflow_m3s=design_q, final_dp_pa=specs["final_dp_pa"])
         except EngineeringInputError as exc:
@@ -172,6 +224,17 @@ def _loading_forecast(form: Form, res: Result, *, bank, dp: float, q: float, des
                 if fc.at_final_now
                 else f"; change forecast {_fmt_date(fc.date_at_final)}"
             )
+            if fc.at_final_now and res.verdict != Verdict.FAIL:
+                # The line through the earlier values says "change now", this reading does not: the row never says
+                # both "ok" and "change now". The newest reading is not outvoted; both are to be re-checked.
+                res.verdict = Verdict.WATCH
+                res.derived.update(
+                    forecast_at_final_now=False, forecast_change_date=None, forecast_note=RECHECK_NOTE
+                )
+                forecast_text = (
+                    "; the trend of the earlier values is at its final pressure drop but this reading is not: "
+                    "re-check the gauge or sensor and its tubing before changing the filters"
+                )
     if round(loading.fraction_of_span, 9) >= 1.0 and not res.derived.get("replaced_on_visit"):
         # At or over the final value: change now, never a date ahead or "no date".
         forecast_text = "; at or over its final pressure drop: change now"

@@ -4,12 +4,20 @@ from __future__ import annotations
 
 import datetime as dt
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 from engineering import units as eng_units
 from engineering.fans import expected_flow_at_speed
 from engineering.filters import FilterPoint
+
+
+def _alone(reading: FilterPoint | None) -> list[FilterPoint]:
+    """A form's own filter reading with no earlier points (a form with no history given), dated by its day."""
+    if reading is None:
+        return []
+    when = reading.when.date() if isinstance(reading.when, dt.datetime) else reading.when
+    return [replace(reading, when=when)]
 
 
 @dataclass
@@ -31,8 +39,9 @@ class Form:
     values: dict[tuple[str, int | None], Value]
     slots: list[Any]  # inspections.selectors.checklist.Slot
     finished_at: dt.datetime
-    # Earlier (run_hours, dp_pa, airflow_m3s, when) points of a filter bank since its last change.
-    filter_points: Callable[[Any], list[FilterPoint]] = lambda component: []
+    # Earlier (run_hours, dp_pa, airflow_m3s, when) points of a filter bank since its last change, on one meter;
+    # ``filter_points(bank, reading)``: with this form's own reading joined to them (FilterLife.forecast_points).
+    filter_points: Callable[..., list[FilterPoint]] = field(default=lambda component, reading=None: _alone(reading))
 
     def num(self, key: str, component=None) -> float | None:
         v = self.values.get((key, component.pk if component is not None else None))

@@ -73,31 +73,66 @@ class FilterLife:
     changed_at: dt.datetime | None
     points: tuple[FilterSeriesPoint, ...]
 
-    def forecast_points(self) -> list[FilterPoint]:
+    def forecast_points(self, reading: FilterPoint | None = None) -> list[FilterPoint]:
         """The points with run-hours, as engineering.filters.filter_forecast takes them, on one meter's scale.
+
+        ``reading``: a technician's new reading of these filters (on the unit's typed meter, ``when`` the moment
+        its form was finished), newer than every point here: it joins them as a typed reading, on the same scale
+        by the same rule (a form's own reading is never laid beside trend days counted from another zero).
 
         A technician's reading carries the unit's typed meter; a trend day the trend-fed fan meter, which counts
         the same running from another zero. Where both are in this set of filters, the trend days are shifted by
         the two meters' difference at the reading closest in time to a trend day (at most a day apart); with no
-        such pair the two cannot be put on one line, and the source with more points is used alone."""
-        with_hours = [p for p in self.points if p.run_hours is not None]
-        typed = [p for p in with_hours if p.source == FILTER_READING]
-        other = [p for p in with_hours if p.source != FILTER_READING]
-        if typed and other:
-            pairs = [(abs((t.at - r.at).total_seconds()), r, t) for r in typed for t in other]
-            gap, r, t = min(pairs, key=lambda x: x[0])
-            if gap <= 86400:
-                offset = r.run_hours - t.run_hours
-                with_hours = sorted(
-                    typed + [_shifted(p, offset) for p in other], key=lambda p: (p.at, p.source == FILTER_READING)
-                )
-            else:
-                with_hours = typed if len(typed) >= len(other) else other
-        return [
-            FilterPoint(run_hours=p.run_hours, dp_pa=p.dp_pa, airflow_m3s=p.airflow_m3s, when=p.at.date())
-            for p in with_hours
-            if p.run_hours is not None and p.run_hours >= 0
-        ]
+        such pair the two cannot be put on one line, and the source of the newest point is used alone: the newest
+        evidence supersedes (a reading after the last trend day, or trend days after the last reading)."""
+        points = self.points
+        if reading is not None:
+            at = reading.when
+            if not isinstance(at, dt.datetime):
+                at = dt.datetime.combine(at, dt.time(12), tzinfo=dt.UTC)
+            new = FilterSeriesPoint(
+                at=at,
+                inspection_id=None,
+                dp_pa=reading.dp_pa,
+                airflow_m3s=reading.airflow_m3s,
+                corrected_dp_pa=reading.dp_pa,  # not read here: the forecast corrects each point itself
+                run_hours=reading.run_hours,
+                after_change=False,
+            )
+            points = (*points, new)
+        return _on_one_meter(points, next_typed=False)
+
+    def points_for_next_reading(self) -> list[FilterPoint]:
+        """The points a technician's next reading (on the typed meter, newer than every point) joins, for a
+        forecast made before its run-hours are known (the phone's, offline): ``forecast_points``'s when the trend
+        days are already on the typed meter's scale; with no reading near a trend day, the typed readings alone
+        (the next reading is the newest evidence, and trend days from another zero cannot join it)."""
+        return _on_one_meter(self.points, next_typed=True)
+
+
+def _on_one_meter(points, *, next_typed: bool) -> list[FilterPoint]:
+    """``FilterLife.forecast_points`` of ``points``; ``next_typed``: a typed reading is to come after them all."""
+    with_hours = [p for p in points if p.run_hours is not None]
+    typed = [p for p in with_hours if p.source == FILTER_READING]
+    other = [p for p in with_hours if p.source != FILTER_READING]
+    if typed and other:
+        pairs = [(abs((t.at - r.at).total_seconds()), r, t) for r in typed for t in other]
+        gap, r, t = min(pairs, key=lambda x: x[0])
+        if gap <= 86400:
+            offset = r.run_hours - t.run_hours
+            with_hours = sorted(
+                typed + [_shifted(p, offset) for p in other], key=lambda p: (p.at, p.source == FILTER_READING)
+            )
+        else:
+            newest = max(with_hours, key=lambda p: (p.at, p.source == FILTER_READING))
+            with_hours = typed if next_typed or newest.source == FILTER_READING else other
+    elif next_typed:
+        with_hours = typed  # trend days alone are on another meter than the reading to come
+    return [
+        FilterPoint(run_hours=p.run_hours, dp_pa=p.dp_pa, airflow_m3s=p.airflow_m3s, when=p.at.date())
+        for p in with_hours
+        if p.run_hours is not None and p.run_hours >= 0
+    ]
 
 
 def _shifted(p: FilterSeriesPoint, offset: float) -> FilterSeriesPoint:

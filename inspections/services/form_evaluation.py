@@ -22,14 +22,15 @@ def filter_points_for(
     finished_at: dt.datetime,
     history: Callable[[], selectors.FilterHistory] | None = None,
 ) -> Callable[[Component], list[FilterPoint]]:
-    """Earlier readings of a bank's present filters, for its change forecast (``selectors.filter_series``).
+    """Earlier readings of a bank's present filters, for its change forecast (``selectors.filter_series``); asked
+    with the form's own ``reading``, that reading joined to them on one meter (``FilterLife.forecast_points``).
 
     ``unit``: the AHU, or its components as already loaded. Every bank of the unit is read at the first
     question, in the fixed queries of ``filter_series_for``: a unit with 13 banks costs what one with one does;
     none when the history ``history()`` gives (asked then, not before) holds its banks."""
     series: dict[int | None, selectors.FilterSeries | None] = {}
 
-    def points(component: Component) -> list[FilterPoint]:
+    def points(component: Component, reading: FilterPoint | None = None) -> list[FilterPoint]:
         if not series:
             components = unit if isinstance(unit, list) else list(unit.components.all())
             held = history() if history is not None else None
@@ -39,7 +40,7 @@ def filter_points_for(
         found = series.get(component.pk)
         if found is None:  # not one of the unit's banks as loaded (never expected): asked on its own
             found = selectors.filter_series(component=component, before=finished_at)
-        return found.current.forecast_points()
+        return found.current.forecast_points(reading)
 
     return points
 

@@ -68,13 +68,17 @@ def stored_filter_outlook(*, derived: dict, today: date) -> FilterOutlook:
     note = str(derived.get("forecast_note") or "")
     if note and outlook.forecast_on is None and not outlook.at_final:
         # The evaluation said why it made no forecast: the table says it too rather than a bare dash.
-        why = NO_DATE_NOT_RISING if "rising" in note else NO_FORECAST_YET
+        why = next((words for key, words in _NOTE_WORDS if key in note), NO_FORECAST_YET)
         outlook = FilterOutlook(at_final=False, due_now=False, forecast_on=None, no_forecast=why)
     return outlook
 
 
 NO_FORECAST_YET = "no forecast yet: the readings since the change give no trend"
 NO_DATE_NOT_RISING = "no change date: the pressure drop is not rising"
+NO_FORECAST_RECHECK = "no forecast: the reading and the earlier values disagree, re-check them"
+NO_FORECAST_BELOW_CLEAN = "no forecast: reads below its clean pressure drop"
+# A stored evaluation's ``forecast_note`` (inspections.evaluation.filter_checks) → the words of the table.
+_NOTE_WORDS = (("re-check", NO_FORECAST_RECHECK), ("below its clean", NO_FORECAST_BELOW_CLEAN), ("rising", NO_DATE_NOT_RISING))
 
 
 def filter_forecast_text(*, derived: dict, today: date) -> str:

@@ -15,6 +15,7 @@ from django.core.exceptions import ValidationError
 
 from accounts.models import Organisation
 from engineering.controls import Verdict
+from inspections import display
 from inventory.display import usual_zone
 from inventory.selectors import sites_visible_to
 from reports import charts
@@ -70,7 +71,7 @@ def build(*, report) -> Built:
     for row in figures.filters:
         d = row["derived"]
         row["corrected_dp"] = shown(row["corrected_dp_pa"], "pressure", system)
-        row["loading"] = f"{d['loading_pct']:.0f} %" if isinstance(d.get("loading_pct"), int | float) else "—"
+        row["loading"] = display.loading_words(d.get("loading_pct"))
     filter_rows = _filter_rows(figures.filters)
     filter_counts = dict.fromkeys((Verdict.OK, Verdict.WATCH, Verdict.FAIL, "none"), 0)
     for row in figures.filters:

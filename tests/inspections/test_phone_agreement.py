@@ -439,9 +439,16 @@ def evaluate_case(case) -> list[evaluation.Result]:
         values={k: _python_value(v) for k, v in case["values"].items()},
         slots=case["slots"],
         finished_at=FINISHED,
-        filter_points=lambda c: case["points"].get(c.label_code, []),
+        filter_points=lambda c, reading=None: [*case["points"].get(c.label_code, []), *_day_of(reading)],
     )
     return evaluation.evaluate(form)
+
+
+def _day_of(reading) -> list:
+    """The form's own filter reading as the phone appends it (dated by its day), none without one."""
+    import dataclasses
+
+    return [] if reading is None else [dataclasses.replace(reading, when=reading.when.date())]
 
 
 def python_results(case) -> list[dict]:

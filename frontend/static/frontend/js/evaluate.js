@@ -152,12 +152,27 @@ export function filterLoading(ctx, { dp, q, qd, clean, final, watchFraction = 0.
       `: ${word} (fail below ${pct(c.filter_bypass_fail_fraction)} %, watch below ${pct(c.filter_bypass_watch_fraction)} % of clean)`];
     return { corrected, fraction: frac, ofClean, bypass: true, verdict, reason, parts };
   }
-  const verdict = f >= failFraction ? FAIL : f >= watchFraction ? WATCH : OK;
+  // Judged on the whole percent the words show against the thresholds as written (engineering.filters.filter_loading).
   const loaded = fixed(loadingPercent(frac), 0);
-  const reason = `filter ${fixed(corrected, 0)} Pa at design airflow, ${loaded} % of the way from clean ${fixed(clean, 0)} Pa to final ${fixed(final, 0)} Pa (watch from ${pct(watchFraction)} %, fail from ${pct(failFraction)} %)`;
+  const [shown, watchAt, failAt] = [Number(loaded), Number(pct(watchFraction)), Number(pct(failFraction))];
+  const verdict = shown >= failAt ? FAIL : shown >= watchAt ? WATCH : OK;
+  if (f < 0) {
+    // Below clean, not so far as to suspect bypassed media: never a negative share of the span.
+    const tail = ` (${pct(ofClean)} % of clean; ${belowCleanRule(ctx)})`;
+    const reason = `filter ${fixed(corrected, 0)} Pa at design airflow, below its clean pressure drop ${fixed(clean, 0)} Pa${tail}`;
+    const parts = ["filter ", pa(corrected), " at design airflow, below its clean pressure drop ", pa(clean), tail];
+    return { corrected, fraction: frac, ofClean, bypass: false, verdict, reason, parts };
+  }
+  const reason = `filter ${fixed(corrected, 0)} Pa at design airflow, ${loaded} % of the way from clean ${fixed(clean, 0)} Pa to final ${fixed(final, 0)} Pa (watch from ${watchAt} %, fail from ${failAt} %)`;
   const parts = ["filter ", pa(corrected), ` at design airflow, ${loaded} % of the way from clean `, pa(clean), " to final ", pa(final),
-    ` (watch from ${pct(watchFraction)} %, fail from ${pct(failFraction)} %)`];
+    ` (watch from ${watchAt} %, fail from ${failAt} %)`];
   return { corrected, fraction: frac, ofClean, bypass: false, verdict, reason, parts };
+}
+
+// engineering.filters.BELOW_CLEAN_RULE: what a reading between 80 % of clean and clean means.
+function belowCleanRule(ctx) {
+  const c = ctx.constants;
+  return `within the rated value's tolerance; watch below ${fixed(c.filter_bypass_watch_fraction * 100, 0)} %, fail below ${fixed(c.filter_bypass_fail_fraction * 100, 0)} % of clean as missing, torn or bypassed media`;
 }
 
 // A pressure as a reason part (SI), shown in the reader's unit (engineering/filters/loading.py: _pa).
@@ -582,6 +597,33 @@ function afterChangeForecast(form, res, { bank, dp, flow, qd }) {
   return "";
 }
 
+// inspections.evaluation.filter_checks: why a judged filter has no forecast (its derived forecast_note).
+const BELOW_CLEAN_NOTE = "below its clean pressure drop: no loading to forecast from";
+const RECHECK_NOTE = "re-check: this reading and the earlier values of these filters disagree";
+
+// As inspections.evaluation.filter_checks._fallen_since_last: below 80 % of the last value of the same filters.
+function fallenSinceLast(form, res, { bank, qd, loading }) {
+  const earlier = form.ctx.filter_points[bank.code] || [];
+  if (!earlier.length || form.text("filter_replace.replaced", bank) === "ok") return false;
+  const last = earlier[earlier.length - 1];
+  let lastDp;
+  try {
+    lastDp = correctedPressureDrop(form.ctx, last.dp_pa, last.airflow_m3s, qd);
+  } catch (exc) {
+    if (!(exc instanceof EngineeringInputError)) throw exc;
+    return false;
+  }
+  const fall = form.ctx.constants.filter_fall_watch_fraction;
+  if (lastDp <= 0 || pyRound(loading.corrected / lastDp, 9) >= fall) return false;
+  if (res.verdict === OK) res.verdict = WATCH;
+  Object.assign(res.derived, { last_corrected_dp_pa: pyRound(lastDp, 1), forecast_note: RECHECK_NOTE });
+  say(res, `${bank.name}: filter reads `, q(loading.corrected, "pressure"),
+    ` at design airflow, ${fixed(loading.corrected / lastDp * 100, 0)} % of the last value of these filters (`, q(lastDp, "pressure"),
+    ` on ${fmtDate(last.when)}): a filter's pressure drop does not fall without a change; re-check the gauge or sensor and its tubing, `
+    + `and look for torn, missing or bypassed media (watch below ${fixed(fall * 100, 0)} % of the last value)`);
+  return true;
+}
+
 function filterChecks(form, consumed) {
   const out = [];
   const [flow, how] = supplyAirflow(form);
@@ -624,6 +666,18 @@ function filterChecks(form, consumed) {
       out.push(res);
       continue;
     }
+    if (fallenSinceLast(form, res, { bank, qd, loading })) {
+      out.push(res);
+      continue;
+    }
+    if (pyRound(loading.fraction, 9) < 0) {
+      // Below clean, not so far as to suspect bypassed media: no loading to say, nor to forecast from.
+      say(res, `${bank.name}: filter reads `, q(loading.corrected, "pressure"), " at design airflow, below its clean pressure drop ",
+        q(specs.clean_dp_pa, "pressure"), ` (${fixed(loading.ofClean * 100, 0)} % of clean; ${belowCleanRule(form.ctx)}): no loading to forecast from`);
+      res.derived.forecast_note = BELOW_CLEAN_NOTE;
+      out.push(res);
+      continue;
+    }
     let forecastText = "";
     const hours = form.num("visit.run_hours");
     if (form.text("filter_replace.replaced", bank) === "ok") {
@@ -643,6 +697,13 @@ function filterChecks(form, consumed) {
         forecastText = fc.atFinalNow
           ? "; at its final pressure drop by the trend: change now"
           : `; change forecast ${fmtDate(fc.dateAtFinal)}`;
+        if (fc.atFinalNow && res.verdict !== FAIL) {
+          // The line says "change now", this reading does not: never "ok" and "change now" on one row (as Python).
+          res.verdict = WATCH;
+          Object.assign(res.derived, { forecast_at_final_now: false, forecast_change_date: null, forecast_note: RECHECK_NOTE });
+          forecastText = "; the trend of the earlier values is at its final pressure drop but this reading is not: "
+            + "re-check the gauge or sensor and its tubing before changing the filters";
+        }
       } catch (exc) {
         if (!(exc instanceof EngineeringInputError)) throw exc;
         forecastText = noForecastWords(exc);
