@@ -246,3 +246,30 @@ def test_the_loading_said_in_a_reason_is_the_loading_kept_for_tables():
     # 245.97 Pa between clean 90 and final 250 Pa: 97.48 % of the span, said 97 %.
     judged = filter_loading(dp_pa=245.97, airflow_m3s=1.0, design_airflow_m3s=1.0, clean_dp_pa=90.0, final_dp_pa=250.0)
     assert "97 % of the way" in judged.reason
+
+
+@pytest.mark.parametrize(
+    ("dp", "verdict", "shown"),
+    [
+        # Clean 95 Pa, final 300 Pa (invented, as the demo's final filters). The rule filter_loading prints beside
+        # the loading, "watch from 75 %, fail from 95 %" (its watch_fraction 0.75 and fail_fraction 0.95 defaults,
+        # common practice), is judged on the whole percent the words show: "from 75 %" means shown as 75 % or more.
+        (248.0, Verdict.WATCH, "75 %"),  # 74.63 % of the span, shown as 75 %: watched, as the rule says
+        (247.0, Verdict.OK, "74 %"),  # 74.15 %, shown as 74 %
+        (289.7, Verdict.FAIL, "95 %"),  # 94.98 %, shown as 95 %: fails, as "fail from 95 %" says
+    ],
+)
+def test_the_loading_is_judged_as_the_rule_beside_it_reads(dp, verdict, shown):
+    result = filter_loading(dp_pa=dp, airflow_m3s=6.5, design_airflow_m3s=6.5, clean_dp_pa=95.0, final_dp_pa=300.0)
+    assert f"{shown} of the way from clean" in result.reason
+    assert "(watch from 75 %, fail from 95 %)" in result.reason
+    assert result.verdict is verdict
+
+
+def test_a_reading_below_clean_is_said_so_never_as_a_negative_share_of_the_span():
+    # 90 Pa against clean 95 Pa: 95 % of clean, within BYPASS_WATCH_FRACTION (80 %, common practice), so ok; the
+    # reason says "below its clean pressure drop", never "-2 % of the way".
+    result = filter_loading(dp_pa=90.0, airflow_m3s=6.5, design_airflow_m3s=6.5, clean_dp_pa=95.0, final_dp_pa=300.0)
+    assert result.verdict is Verdict.OK and not result.media_bypass_suspected
+    assert "below its clean pressure drop 95 Pa (95 % of clean;" in result.reason
+    assert "-" not in result.reason.replace("built-in", "")

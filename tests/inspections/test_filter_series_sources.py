@@ -7,6 +7,7 @@ meters' difference (here 10,000 − 100 = 9,900 h), so one line is fitted over b
 
 import datetime as dt
 
+from engineering.filters import FilterPoint
 from inspections.selectors import (
     FILTER_READING,
     FILTER_TREND,
@@ -62,3 +63,20 @@ def test_without_a_reading_near_a_trend_day_the_larger_source_is_used_alone():
         points=(_p(1, 9_000, FILTER_READING), _p(20, 100, FILTER_TREND), _p(21, 120, FILTER_TREND)),
     )
     assert [p.run_hours for p in life.forecast_points()] == [100, 120]
+
+
+def test_with_no_reading_near_a_trend_day_the_newest_evidence_is_used_alone():
+    """Three trend days, then a technician's reading a week later on the typed meter: the reading's own meter
+    (the newest evidence), never the trend days' with the new reading's 10,000 h laid after their 120 h."""
+    life = FilterLife(
+        changed_at=None,
+        points=(_p(1, 9_000, FILTER_READING), _p(5, 100, FILTER_TREND), _p(6, 110, FILTER_TREND), _p(7, 120, FILTER_TREND)),
+    )
+    assert [p.run_hours for p in life.forecast_points()] == [100, 110, 120]
+    reading = FilterPoint(run_hours=9_500, dp_pa=100.0, airflow_m3s=3.0, when=dt.datetime(2027, 1, 14, tzinfo=UTC))
+    assert [p.run_hours for p in life.forecast_points(reading)] == [9_000, 9_500]
+    # Within a day of the last trend day, the new reading puts the trend days on its meter: +9,380 h.
+    near = FilterPoint(run_hours=9_500, dp_pa=100.0, airflow_m3s=3.0, when=dt.datetime(2027, 1, 7, 12, tzinfo=UTC))
+    assert [p.run_hours for p in life.forecast_points(near)] == [9_000, 9_480, 9_490, 9_500, 9_500]
+    # The phone, before the run-hours are known, forecasts from the typed readings alone.
+    assert [p.run_hours for p in life.points_for_next_reading()] == [9_000]
