@@ -228,9 +228,7 @@ def _loading_forecast(form: Form, res: Result, *, bank, dp: float, q: float, des
                 # The line through the earlier values says "change now", this reading does not: the row never says
                 # both "ok" and "change now". The newest reading is not outvoted; both are to be re-checked.
                 res.verdict = Verdict.WATCH
-                res.derived.update(
-                    forecast_at_final_now=False, forecast_change_date=None, forecast_note=RECHECK_NOTE
-                )
+                res.derived.update(forecast_at_final_now=False, forecast_change_date=None, forecast_note=RECHECK_NOTE)
                 forecast_text = (
                     "; the trend of the earlier values is at its final pressure drop but this reading is not: "
                     "re-check the gauge or sensor and its tubing before changing the filters"

@@ -78,7 +78,11 @@ NO_DATE_NOT_RISING = "no change date: the pressure drop is not rising"
 NO_FORECAST_RECHECK = "no forecast: the reading and the earlier values disagree, re-check them"
 NO_FORECAST_BELOW_CLEAN = "no forecast: reads below its clean pressure drop"
 # A stored evaluation's ``forecast_note`` (inspections.evaluation.filter_checks) → the words of the table.
-_NOTE_WORDS = (("re-check", NO_FORECAST_RECHECK), ("below its clean", NO_FORECAST_BELOW_CLEAN), ("rising", NO_DATE_NOT_RISING))
+_NOTE_WORDS = (
+    ("re-check", NO_FORECAST_RECHECK),
+    ("below its clean", NO_FORECAST_BELOW_CLEAN),
+    ("rising", NO_DATE_NOT_RISING),
+)
 
 
 def filter_forecast_text(*, derived: dict, today: date) -> str:

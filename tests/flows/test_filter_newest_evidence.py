@@ -68,11 +68,7 @@ def unit_read_after_the_trend(api_client):
 
 
 def _filter_rows(result) -> dict[str, dict]:
-    return {
-        e["reason"].split(":")[0]: e
-        for e in result["evaluation"]
-        if e["check"] == "filter_loading"
-    }
+    return {e["reason"].split(":")[0]: e for e in result["evaluation"] if e["check"] == "filter_loading"}
 
 
 def test_the_work_order_page_gives_each_filter_bank_one_verdict(unit_read_after_the_trend, client):

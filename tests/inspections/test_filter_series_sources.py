@@ -70,7 +70,12 @@ def test_with_no_reading_near_a_trend_day_the_newest_evidence_is_used_alone():
     (the newest evidence), never the trend days' with the new reading's 10,000 h laid after their 120 h."""
     life = FilterLife(
         changed_at=None,
-        points=(_p(1, 9_000, FILTER_READING), _p(5, 100, FILTER_TREND), _p(6, 110, FILTER_TREND), _p(7, 120, FILTER_TREND)),
+        points=(
+            _p(1, 9_000, FILTER_READING),
+            _p(5, 100, FILTER_TREND),
+            _p(6, 110, FILTER_TREND),
+            _p(7, 120, FILTER_TREND),
+        ),
     )
     assert [p.run_hours for p in life.forecast_points()] == [100, 110, 120]
     reading = FilterPoint(run_hours=9_500, dp_pa=100.0, airflow_m3s=3.0, when=dt.datetime(2027, 1, 14, tzinfo=UTC))
