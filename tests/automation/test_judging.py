@@ -153,7 +153,8 @@ def test_run_hours_from_fan_status_move_the_runtime_rule_and_a_rerun_adds_nothin
 # Final filters: clean 90 Pa, final 250 Pa at 3.0 m³/s design (tests.factories.inventory.FILTER_SPECS). The fan
 # runs at 80 % speed: 2.4 m³/s by the first fan law (design flow 3.0 m³/s at full speed), so each reading is
 # multiplied by (3.0 / 2.4)^1.5 = 1.397542 (engineering.filters, n = 1.5, common practice). Worked by hand:
-# 150 → 209.6 Pa (75 % of the span, watch), 160 → 223.6 (84 %), 170 → 237.6 (92 %), 176 → 246.0 Pa (97.5 %,
+# 150 → 209.6 Pa (74.8 % of the span, shown as 75 %: watched, as the rule printed beside it, "watch from 75 %",
+# reads), 160 → 223.6 (84 %), 170 → 237.6 (92 %), 176 → 246.0 Pa (97.5 %,
 # past the 95 % fail fraction: change now).
 FILTER_DP = [150, 160, 170, 176]
 CORRECTED = [209.63, 223.61, 237.58, 245.97]
@@ -169,7 +170,7 @@ def test_a_filter_crossing_its_limit_in_the_trend_gets_a_change_planned_without_
             assert not WorkOrder.objects.filter(ahu=ahu, condition_code="filter_loaded").exists()
     days = list(FilterDay.objects.filter(component=bank).order_by("day"))
     assert [round(d.corrected_dp_pa, 2) for d in days] == CORRECTED
-    assert [d.verdict for d in days] == ["ok", "watch", "watch", "fail"]
+    assert [d.verdict for d in days] == ["watch", "watch", "watch", "fail"]
     assert days[0].airflow_source.startswith("from the supply fan's speed command by the first fan law")
     assert [d.run_hours for d in days] == [24.0, 48.0, 72.0, 96.0]  # the fan's meter, fed the same nights
 
