@@ -118,3 +118,25 @@ def test_the_compliance_pdf_gives_each_filter_bank_one_verdict(unit_read_after_t
     assert "below clean" in section  # the final filters' loading cell
     assert "WATCH" in section and "re-check" in section  # the final filters: verdict and forecast agree
     assert "40 %" in section  # the pre-filters' loading, with a date ahead
+
+
+def test_a_reading_below_the_fail_mark_is_never_said_due_now_by_the_line_through_earlier_ones(api_client):
+    """Final filters read 170, 210, 245 and then 220 Pa at 1,000–1,300 run-hours (at design airflow): the
+    Theil–Sen line through the four reaches the final 250 Pa at about 1,286 h, before the last reading, which
+    is itself 81 % of the span (watch, below the 95 % fail mark) and 90 % of the 245 Pa before it (not a fall
+    below FALL_WATCH_FRACTION, 80 %). The row is watched with a re-check, never "change now" beside it.
+
+    Worked by hand: pairwise slopes 0.40, 0.375, 0.167, 0.35, 0.05, −0.25 Pa/h, median 0.258; intercept
+    median(y) − slope × median(x) = 215 − 0.258 × 1,150 = −82.1 Pa; 250 Pa at (250 + 82.1) / 0.258 = 1,286 h.
+    """
+    first, tech = make_visit(tasks=["filter_check"])
+    ahu = first.ahu
+    results = [
+        _visit(api_client, ahu, tech, days=days, hours=hours, pre=60, final=final)[1]
+        for days, hours, final in ((0, 1_000, 170), (30, 1_100, 210), (60, 1_200, 245), (90, 1_300, 220))
+    ]
+    last = _filter_rows(results[-1])["Final filters"]
+    assert last["verdict"] == "watch", last["reason"]
+    assert "change now" not in last["reason"]
+    assert "re-check the gauge or sensor and its tubing" in last["reason"]
+    assert last["derived"]["forecast_at_final_now"] is False
