@@ -154,6 +154,7 @@ DERIVED_HIDDEN = {
     "ok_max",
     "watch_min",
     "watch_max",
+    "watch_open_high",
     "plausible_min",
     "plausible_max",
     "physical_min",

@@ -37,7 +37,7 @@ def freeze_trip_checks(form: Form, consumed: set) -> list[Result]:
             condition_code=FREEZE_TRIP_SET_HIGH if high else ITEM_CONDITIONS[TRIP_ITEM],
             method="reading against its band, too high a watch (nuisance trips), never a failure; "
             + (slot.item.limits_source or "common practice"),
-            derived={"value": t, "ok_min": lo, "ok_max": hi, "watch_min": floor},
+            derived={"value": t, "ok_min": lo, "ok_max": hi, "watch_min": floor, "watch_open_high": True},
         )
         d = slot.item.decimals
         head = ["freeze-protection trip temperature ", qty(t, "temperature", d)]

@@ -42,6 +42,12 @@ class ReadingBeforeOutput(serializers.Serializer):
 
 
 class ReadingAfterOutput(ReadingBeforeOutput):
+    condition_code = serializers.CharField(
+        required=False,
+        allow_blank=True,
+        help_text="The condition the corrected reading's judgement names (empty: none); amendments made before it was "
+        "kept leave it out.",
+    )
     reason = serializers.CharField(help_text="Why, as recorded (SI).")
     reason_parts = serializers.ListField(
         child=serializers.JSONField(), help_text="The reason as text and SI quantities (inspections.reasons)."

@@ -149,7 +149,7 @@ def _band_limit(d: dict, reading: Reading | None, system: str) -> str:
     text = f"ok {ok}"
     if d.get("watch_min") is not None or d.get("watch_max") is not None:
         lo = d.get("watch_min", d.get("ok_min"))
-        hi = d.get("watch_max", d.get("ok_max"))
+        hi = None if d.get("watch_open_high") else d.get("watch_max", d.get("ok_max"))
         text += f"; watch {reasons.render_part(reasons.span(lo, hi, qty, decimals), system)}"
     return text
 

@@ -55,6 +55,8 @@ def _limit(evaluation, quantity: str, system: str, decimals: int | None = None) 
         ok = reasons.render([reasons.span(low, high, quantity, decimals)], system)
         w_low = derived.get("watch_min") if derived.get("watch_min") is not None else low
         w_high = derived.get("watch_max") if derived.get("watch_max") is not None else high
+        if derived.get("watch_open_high"):  # above the ok band is a watch however high (a frost thermostat's trip)
+            w_high = None
         if (w_low, w_high) == (low, high):
             return ok
         watch = reasons.render([reasons.span(w_low, w_high, quantity, decimals)], system)

@@ -84,6 +84,18 @@ def test_a_band_check_shows_its_ok_and_watch_bands(banded):
     visits, _components, _cautions = visit_records(
         work_order=banded["wo"], system="si", photo_src=lambda ph: "", signature_src=lambda insp: ""
     )
-    rows = [row for group in visits[0]["parts"] for row in group["rows"] if " outside " in f" {row['reason']}"]
+    rows = [
+        row
+        for group in visits[0]["parts"]
+        for row in group["rows"]
+        if " outside " in f" {row['reason']}" or " the recommended " in row["reason"]
+    ]
     assert rows
-    assert all(row["limit"].startswith("ok ") and "; watch " in row["limit"] for row in rows if "but" in row["reason"])
+    assert all(
+        row["limit"].startswith("ok ") and "; watch " in row["limit"]
+        for row in rows
+        if "but" in row["reason"] or " the recommended " in row["reason"]
+    )
+    # A frost thermostat's trip is watched below its band down to the failure and above it however high.
+    trip = [row for row in rows if row["reason"].startswith("freeze-protection trip temperature")]
+    assert trip and all(row["limit"].endswith("; watch at least 2.0 °C") for row in trip), trip
