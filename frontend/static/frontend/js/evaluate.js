@@ -1128,7 +1128,7 @@ function freezeTripChecks(form, consumed) {
       check: "limits", item: TRIP_ITEM, component: slot.component, verdict,
       condition_code: high ? "freeze_trip_set_high" : "freeze_protection_failed",
       method: `reading against its band, too high a watch (nuisance trips), never a failure; ${slot.limits_source || "common practice"}`,
-      derived: { value: t, ok_min: lo, ok_max: hi, watch_min: floor },
+      derived: { value: t, ok_min: lo, ok_max: hi, watch_min: floor, watch_open_high: true },
     });
     const d = slot.decimals;
     const head = ["freeze-protection trip temperature ", q(t, "temperature", d)];
