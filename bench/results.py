@@ -290,6 +290,14 @@ def _mixed_day(sizes: list[dict]) -> list[str]:
                     f"{_num(f.get('rps'), '{:.1f}')} | {_num(f.get('p50_ms'), '{:.1f}')} | "
                     f"{_num(f.get('p95_ms'), '{:.1f}')} |"
                 )
+    for s in sizes:
+        d = s.get("mixed_day")
+        if not _skipped(d) and d.get("writers_ran_out"):
+            detail.append(
+                f"\nAt {s['ahus']} units the prepared material ran out under writers "
+                f"({', '.join(d['writers_ran_out'])}): those writers stopped, so the targets are not judged (—); "
+                "run again with more `--day-forms`."
+            )
     shown = [s for s in sizes if not _skipped(s.get("mixed_day"))]
     if shown:
         d = shown[-1]["mixed_day"]
