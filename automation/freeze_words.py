@@ -176,6 +176,7 @@ def freeze_parts(windows: list[dict], zone: str) -> list:
         parts.append(f" at {moment_words(dt.datetime.fromisoformat(coldest['lowest_at']), zone=zone)}")
     elif days:
         parts.append(f" on {dt.date.fromisoformat(str(max(days))):%-d %b %Y}")  # the pages' date style
+    reached: tuple[dict, FreezeStage] | None = None  # the highest stage's window, and that stage
     if staged:
         top = max(stage_number(st.name) for _, st in staged)
         # The window of the highest stage at its warmest temperature: the longest time the air stayed that cold.
@@ -183,6 +184,7 @@ def freeze_parts(windows: list[dict], zone: str) -> list:
             ((w, st) for w, st in staged if stage_number(st.name) == top),
             key=lambda pair: (pair[1].below_c, float(pair[0].get("duration_s") or 0.0)),
         )
+        reached = (w, stage)
         if w.get("duration_s") is not None:
             parts += [" and stayed below ", reasons.q(stage.below_c, "temperature")]
             parts.append(f" for {duration_words(float(w['duration_s']))}")
@@ -197,8 +199,8 @@ def freeze_parts(windows: list[dict], zone: str) -> list:
             parts.append(f". At {stage.name} of the guideline's freeze protection {action}")
     if coldest.get("unit"):
         parts += [f". When the {air} was coldest: ", *unit_parts(coldest["unit"])]
-        if staged and _after_alarm(coldest, w):
-            parts += response_parts(stage.name, coldest["unit"])
+        if reached is not None and _after_alarm(coldest, reached[0]):
+            parts += response_parts(reached[1].name, coldest["unit"])
     parts.append(". The unit is not ready for freeze protection until its freeze-protection test passes again")
     return reasons.flatten(parts)
 

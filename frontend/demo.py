@@ -220,14 +220,16 @@ def _assign_upcoming(*, organisation, today: dt.date) -> int:
             due_date__lte=today + dt.timedelta(days=ASSIGN_AHEAD_DAYS),
         )
         .exclude(kind=WorkOrder.Kind.CORRECTIVE, approval="pending")
-        .select_related("ahu__building")
+        .select_related("ahu__building__site")
         .order_by("due_date", "id")
     )
     count = 0
     for wo in open_orders:
         # The site's technician if the work fits their day (its due date, or today when overdue); else the
         # least-loaded technician with the skills if it fits theirs; else it waits on the board to be planned.
-        day = weekday_on_or_near(max(wo.due_date, today), today=today)
+        # The site's own today: the service refuses a day already past there (after midnight in its zone).
+        site_day = max(today, today_for(wo.ahu.building.site))
+        day = weekday_on_or_near(max(wo.due_date, site_day), today=site_day)
         check = assignment_check(work_order=wo, technician=owner[wo.ahu.building.site_id], day=day)
         if check.over or check.missing_skills:
             pick = check.suggestion

@@ -256,3 +256,16 @@ def test_every_demo_site_tells_the_technician_how_to_get_in(loaded):
     for site in Site.objects.all():
         assert len(site.access_notes) > 40, site.name
     assert "sign the contractor book" in Site.objects.get(code="gullwharf").access_notes
+
+
+@pytest.mark.django_db
+def test_the_demo_loads_in_the_hour_after_midnight_at_its_sites():
+    """23:01 UTC on 4 December 2026 (a Friday) is already 00:01 on Saturday 5 December in the sites' zone
+    (Europe/…, UTC+1 in winter): the server's date is a day behind the sites'. ``make run`` then loaded no demo
+    ("scheduled day 2026-12-04 is in the past at Elderbank Campus"). Every visit it plans lies on or after its
+    site's own today."""
+    with time_machine.travel(dt.datetime(2026, 12, 4, 23, 1, tzinfo=dt.UTC), tick=False):
+        call_command("load_demo")
+        planned = WorkOrder.objects.filter(scheduled_for__isnull=False).select_related("ahu__building__site")
+        assert planned.exists()
+        assert all(wo.scheduled_for >= today_for(wo.ahu.building.site) for wo in planned if wo.is_open)
