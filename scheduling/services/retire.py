@@ -5,6 +5,7 @@ from __future__ import annotations
 from django.core.exceptions import ValidationError
 from django.db import transaction
 
+from accounts.changes import changes_deferred
 from accounts.models import User
 from inventory.models import AHU
 from inventory.services import ahu_retire
@@ -29,7 +30,10 @@ def unit_retire(*, ahu: AHU, by: User | None, reason: str = "") -> int:
         )
     why = f"Unit retired{': ' + reason if reason else ''}"[:300]
     open_work = list(ahu.work_orders.filter(state__in=[WorkOrder.State.PLANNED, WorkOrder.State.ASSIGNED]))
-    for wo in open_work:
-        work_order_cancel(work_order=wo, by=by, reason=why)
+    # One move of each version for the whole loop, people before the organisation: a move per visit would lock
+    # person, organisation, person… and could deadlock against a sync holding them in the documented order.
+    with changes_deferred():
+        for wo in open_work:
+            work_order_cancel(work_order=wo, by=by, reason=why)
     ahu_retire(ahu=ahu, by=by, reason=reason)
     return len(open_work)

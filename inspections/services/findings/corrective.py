@@ -9,7 +9,7 @@ from typing import TYPE_CHECKING, TypeGuard
 
 from django.db import transaction
 
-from accounts.changes import work_changed
+from accounts.changes import changes_deferred, work_changed
 from accounts.models import User
 from accounts.services import audit_record
 from inventory.models import Component, Site
@@ -33,12 +33,15 @@ def proposals_withdraw_resolved(*, findings: list[Finding], by: User | None) -> 
     ids = {f.corrective_work_order_id for f in findings if f.corrective_work_order_id is not None}
     if not ids:  # most visits close nothing: no query built for none
         return
-    for wo in WorkOrder.objects.select_for_update().filter(pk__in=ids).order_by("pk"):
-        if wo.approval != WorkOrder.Approval.PENDING or wo.state not in WorkOrder.OPEN_STATES:
-            continue
-        if Finding.objects.filter(corrective_work_order=wo, state=Finding.State.OPEN).exists():
-            continue
-        work_order_cancel(work_order=wo, by=by, reason=RESOLVED_WITHDRAWN)
+    # The versions move once for the loop, people before the organisation (accounts.changes: per call the order
+    # holds; a move per visit would interleave them).
+    with transaction.atomic(), changes_deferred():
+        for wo in WorkOrder.objects.select_for_update().filter(pk__in=ids).order_by("pk"):
+            if wo.approval != WorkOrder.Approval.PENDING or wo.state not in WorkOrder.OPEN_STATES:
+                continue
+            if Finding.objects.filter(corrective_work_order=wo, state=Finding.State.OPEN).exists():
+                continue
+            work_order_cancel(work_order=wo, by=by, reason=RESOLVED_WITHDRAWN)
 
 
 DESIGN_REVIEW_WITHDRAWN = (
