@@ -52,8 +52,12 @@ def freeze_test_visits(*, site, today: dt.date, months: int) -> dict[dt.date, st
             out[d] = season_key(season="freeze", start=start, latitude=site.latitude)
     if judged is not None and opens is not None:
         window = [d for d in visits if opens <= d <= judged]
-        for d in window[-1:]:
-            out[d] = season_key(season="freeze", start=judged, latitude=site.latitude)
+        if window:
+            key = season_key(season="freeze", start=judged, latitude=site.latitude)
+            # One test proves a season: an earlier visit that took the same season's key above (its start
+            # the judged one, the visit before the window opened) gives it up to the window's latest.
+            out = {d: k for d, k in out.items() if k != key}
+            out[window[-1]] = key
     return out
 
 

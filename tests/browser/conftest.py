@@ -1,13 +1,15 @@
 """Playwright against Debian's Chromium (never a downloaded browser) and Django's live server."""
 
+import datetime as dt
 import os
 import time
 from pathlib import Path
 
 import pytest
-from playwright.sync_api import Page
+import time_machine
+from playwright.sync_api import Browser, Page
 
-from tests.conftest import OUTPUT_DIR, service_missing
+from tests.conftest import OUTPUT_DIR, TEST_NOW, service_missing
 from tests.frontend import scenario as scenario_module
 
 # Playwright's sync API runs an event loop in the test thread; the ORM calls in tests are still synchronous.
@@ -53,6 +55,30 @@ def browser_type_launch_args(browser_type_launch_args):
     if not Path(CHROMIUM).exists():
         service_missing(f"Chromium is not installed at {CHROMIUM} (apt-get install chromium)")
     return {**browser_type_launch_args, "executable_path": CHROMIUM, "args": CHROMIUM_ARGS, "headless": True}
+
+
+@pytest.fixture(autouse=True)
+def browser_clock(monkeypatch):
+    """The server and every phone or desk browser on one controlled clock, ticking from ``TEST_NOW``.
+
+    A journey read the machine's real date: the board offered the next weekday for a visit due "today" on a
+    Saturday, or the hour after the sites' midnight (Europe/Amsterdam) made UTC's today their yesterday, and a
+    visit assigned on the board did not show on the technician's today. Each test starts at the same Wednesday
+    10:00 UTC (the same date in every zone the tests' sites use); the live server (a thread of this process)
+    reads it through time_machine, and each browser context created in the test gets Playwright's clock set to
+    the server's now at that moment, so the phone's "today" and its form times agree with the server's. A test
+    that travels elsewhere itself (the board's March 2025 world) starts its browsers there.
+    """
+    original = Browser.new_context
+
+    def new_context(self, *args, **kwargs):
+        context = original(self, *args, **kwargs)
+        context.clock.install(time=dt.datetime.now(dt.UTC))  # the travelled now; it flows on as the server's
+        return context
+
+    monkeypatch.setattr(Browser, "new_context", new_context)
+    with time_machine.travel(TEST_NOW, tick=True):
+        yield
 
 
 @pytest.fixture

@@ -3,12 +3,11 @@
 import datetime as dt
 from dataclasses import dataclass
 
-from django.utils import timezone
-
 from accounts.models import Organisation, Role, User
 from accounts.services import site_grant
 from inspections.services import checklist_library_install
 from inventory.models import AHU, Site
+from inventory.today import today_for
 from scheduling.models import WorkOrder
 from scheduling.services.library import task_library_install
 from tests.factories.accounts import OrganisationFactory, make_person
@@ -34,7 +33,7 @@ class Scenario:
 
 
 def make_work(*, ahu: AHU, assignee=None, title="Quarterly service", due=None, state=None) -> WorkOrder:
-    due = due or timezone.localdate()
+    due = due or today_for(ahu.building.site)  # the site's today, as the technician's page reads it
     wo = WorkOrderFactory(
         ahu=ahu,
         title=title,
@@ -73,6 +72,6 @@ def build(*, unit_system: str = "si") -> Scenario:
     site_grant(user=manager_a, site=site_a)
     work_a = make_work(ahu=unit_a, assignee=technician, title="Quarterly service")
     work_b = make_work(
-        ahu=unit_b, assignee=other, title="Filter round", due=timezone.localdate() + dt.timedelta(days=1)
+        ahu=unit_b, assignee=other, title="Filter round", due=today_for(unit_b.building.site) + dt.timedelta(days=1)
     )
     return Scenario(org, site_a, site_b, unit_a, unit_b, technician, other, supervisor, manager_a, work_a, work_b)
