@@ -64,10 +64,8 @@ def spec_rows(*, fields, values: dict, errors: dict, system: str) -> list[dict]:
                 "value": "" if value is None else value,
                 "errors": errors.get(s.name, []),
                 "choices": keep_typed_choice([(c, c) for c in s.choices], value) if s.kind == "choice" else [],
-                # What the browser is told: whole numbers step by 1 within the range, text has a length.
-                "step": "1" if s.kind == "integer" else "any",
-                "min": int(s.minimum) if s.kind == "integer" else None,
-                "max": int(s.maximum) if s.kind == "integer" else None,
+                # Numbers are typed as text and read by the one reader (accounts.typed_numbers), its refusal
+                # naming the value: a browser number field drops letters and commas unseen. Text has a length.
                 "maxlength": SPEC_TEXT_MAX,
             }
         )

@@ -137,8 +137,14 @@ def test_the_component_edit_form_tells_the_browser_its_limits(scenario, login, h
     page = login(scenario.supervisor).get(reverse("frontend:registry_component_edit", kwargs={"pk": heater.pk}))
     page = page.content.decode()
     assert re.search(r'<input[^>]*name="name"[^>]*maxlength="120"[^>]*required', page)
-    assert re.search(r'<input type="number" step="1" min="1" max="12" id="spec-stages"', page)
-    assert re.search(r'<input type="number" step="any"[^>]*id="spec-power_w"', page)
+    # Numbers are text fields read by the server's one reader (a number field would drop "12a" to "" unseen),
+    # the allowed range said beside each and tied to it.
+    assert re.search(
+        r'<input type="text" inputmode="numeric"[^>]*id="spec-stages"[^>]*aria-describedby="spec-stages-allowed"', page
+    )
+    assert re.search(r'<input type="text" inputmode="decimal"[^>]*id="spec-power_w"', page)
+    assert re.search(r'id="spec-stages-allowed">Allowed: a whole number from 1 to 12', page)
+    assert 'type="number"' not in page
 
 
 def test_a_good_component_edit_is_saved(scenario, login, heater):
