@@ -37,6 +37,17 @@ def reading_words() -> dict[str, str]:
     return {"recorded": RECORDED_WORDS, "unjudged": UNJUDGED_WORDS}
 
 
+def reading_verdict_words(code: str | None, *, judged: bool) -> tuple[str, str]:
+    """A reading's verdict as pages and PDFs show it beside the reading: (its words, what they mean).
+
+    A reading no check judged reads ("Recorded", "no limit applies to this reading"), the words the phone shows
+    beside the field (``reading_words``); a judged reading its verdict's words and nothing more ("" for none).
+    """
+    if code:
+        return verdict_words(code), ""
+    return ("", "") if judged else (RECORDED_WORDS, UNJUDGED_WORDS)
+
+
 # A keyword argument's name followed by "=" in an engineering message ("airflow_m3s=0.4",
 # "points[2].run_hours=…"). The phone's twin strips the same (evaluate.js plainMessage).
 _ARGUMENT = re.compile(r"[A-Za-z_][A-Za-z0-9_]*(?:\[\d+\])?(?:\.[A-Za-z_][A-Za-z0-9_]*)*=")

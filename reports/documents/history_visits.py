@@ -15,7 +15,7 @@ from inspections.selectors import check_label, reason_for
 from inspections.services.findings import problem_of
 
 from .history_cells import VALUE_KEYS, judged_cells, keep_units
-from .visit_words import VERDICTS, reading_value
+from .visit_words import VERDICTS, reading_value, reading_verdict
 
 # The unit's own readings of a visit, said in its heading (the items' labels are a question for the phone).
 VISIT_WORDS = {
@@ -121,15 +121,16 @@ def history_visit(
     for r in recorded + [
         r for rs in loose.values() for r in rs if (r.item.template.code, r.component_id) not in attached
     ]:
+        verdict, unjudged = reading_verdict(r, judged=False)  # no judgement owns it
         rows.append(
             {
                 "check": r.item.label,
                 "parts": [r.component.name] if r.component_id else [],
                 "values": keep_units(reading_value(r, system)),
                 "limit": "",
-                "verdict": VERDICTS.get(r.verdict, "recorded") if r.verdict else "recorded",
+                "verdict": verdict,
                 "verdict_code": r.verdict,
-                "reason": f"note: {r.note}" if r.note else "",
+                "reason": "; ".join(part for part in (unjudged, f"note: {r.note}" if r.note else "") if part),
                 "answer": False,
                 "order": _row_order(f"{r.item.template.code}.{r.item.key}", r.component, r, order),
             }

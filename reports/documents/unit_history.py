@@ -12,7 +12,8 @@ was judged on in the reader's units (a damper's commanded and measured position 
 reading with the airflow it was read at and its value at design airflow, so a fail below the final value
 reads as what it is), the limit, the verdict and, when it is not ok, the reason. A yes/no answer or a
 choice given alike for several parts is one row naming the parts. A reading no judgement used is a row
-of its own ("recorded"); the unit's own readings of the visit (run-hours, airflow) stand in its heading.
+of its own ("Recorded": no limit applies to this reading, as the phone says it); the unit's own readings of the
+visit (run-hours, airflow) stand in its heading.
 
 The document prints landscape on the reader's paper (``reports.rendering.paper_for``): the tables keep
 short terms (kinds, states, verdicts) whole and break names between words.

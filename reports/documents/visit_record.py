@@ -23,6 +23,7 @@ from .visit_words import (
     derived_text_for_visit,
     number_shown,
     reading_value,
+    reading_verdict,
     reason_as_of,
     row_reason,
 )
@@ -88,6 +89,7 @@ def visit_records(
     for insp in inspections:
         visit_day = insp.finished_at.astimezone(zone).date() if insp.finished_at else None
         groups: dict[str, list] = {}
+        judged = {(e.item_key, e.component_id) for e in insp.evaluations.all()}
         for r in insp.readings.all():
             if r.component_id:
                 components[r.component_id] = r.component
@@ -96,7 +98,8 @@ def visit_records(
                     "label": r.item.label,
                     "component": r.component,
                     "value": reading_value(r, system),
-                    "verdict": VERDICTS.get(r.verdict, ""),
+                    "verdict": (said := reading_verdict(r, judged=(r.item.api_key, r.component_id) in judged))[0],
+                    "unjudged": said[1],
                     "verdict_code": r.verdict,
                     # The row names the part: its reason does not begin with it again.
                     # …and a reason that only repeats the row ("confirmed: <item>", "<item>: Clean") is not shown.

@@ -14,7 +14,7 @@ from inspections import reasons
 from inspections.models import Inspection
 from inspections.selectors import reason_for
 
-from .visit_words import VERDICTS, reading_value, says_nothing_more
+from .visit_words import reading_value, reading_verdict, says_nothing_more
 
 # The band a judgement names in its derived values, shown in the "Limit" column: (key, words, quantity).
 _LIMIT_KEYS = (
@@ -160,7 +160,8 @@ def visit_parts(insp: Inspection, evaluations: list[dict], system: str) -> tuple
         if main is not None:
             reason = main["reason"] or reason
         limit, reason = _row_limit(main["e"] if main else None, item.quantity, system, reason, item.decimals)
-        shown_reason = "" if says_nothing_more(reason, item.label, value, r.verdict) else reason
+        verdict, unjudged = reading_verdict(r, judged=bool(judged))
+        shown_reason = unjudged or ("" if says_nothing_more(reason, item.label, value, r.verdict) else reason)
         already = " ".join([value, limit, reason, *(ev["e"].method for ev in judged)])
         details = [d for ev in judged for d in _details(ev["derived"], already=already, readings=values)]
         group_for(r.component if r.component_id else None, item.template.title, item.template.code)["rows"].append(
@@ -168,7 +169,7 @@ def visit_parts(insp: Inspection, evaluations: list[dict], system: str) -> tuple
                 "check": item.label,
                 "value": value,
                 "limit": limit,
-                "verdict": VERDICTS.get(r.verdict, ""),
+                "verdict": verdict,
                 "verdict_code": r.verdict,
                 "reason": shown_reason,
                 "details": details,

@@ -18,6 +18,18 @@ CHECK_VALUES = {"ok": "OK", "not_ok": "Not OK", "na": "N/A"}
 VERDICTS = {code: words for code, words in VERDICT_WORDS.items() if code}
 
 
+def reading_verdict(reading: Reading, *, judged: bool) -> tuple[str, str]:
+    """A reading's verdict beside it on the record page and in the PDFs, as the phone says it (``judged``: a check
+    judged it): (its words, what they mean), "Recorded" and "no limit applies to this reading" for a value no
+    check judged (inspections.display.reading_verdict_words). A photo, a note, an N/A or an empty answer has no
+    value to judge: ("", "")."""
+    item = reading.item
+    nothing = reading.value_text == "na" or (reading.value_si is None and not reading.value_text)
+    if not reading.verdict and (item.kind in (item.Kind.PHOTO, item.Kind.TEXT) or nothing):
+        return "", ""
+    return display.reading_verdict_words(reading.verdict, judged=judged)
+
+
 def reading_value(reading: Reading, system: str) -> str:
     item = reading.item
     if reading.value_text == "na":
