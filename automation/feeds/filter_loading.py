@@ -14,6 +14,7 @@ from django.db import connection
 from engineering import filters
 from engineering.controls import Verdict
 from engineering.errors import EngineeringInputError
+from inspections.evaluation.filter_checks import forecast_agreeing
 from inventory.models import Component
 
 from ..fault_findings import filter_finding_clear, filter_finding_keep
@@ -159,31 +160,38 @@ def filter_days_forecast(*, days: list[tuple[Component, FilterDay]], day: dt.dat
     statement."""
     if not days:
         return
-    words = _forecast_words_for(banks=[bank for bank, _ in days], day=day)
+    forecasts = _forecasts_for(banks=[bank for bank, _ in days], day=day)
     changed = []
     for bank, row in days:
-        if words.get(bank.pk):
-            row.reason = f"{row.reason}; {words[bank.pk]}"
-            changed.append(row)
+        fc = forecasts.get(bank.pk)
+        if fc is None:
+            continue
+        # Worded as a technician's reading is, beside the row's own verdict: never "ok" and "change now".
+        over_final = row.loading_pct is not None and row.corrected_dp_pa >= bank.specs["final_dp_pa"]
+        said = forecast_agreeing(fc, verdict=row.verdict, over_final=over_final)
+        row.reason = f"{row.reason}; {said.words}"
+        row.verdict = said.verdict
+        changed.append(row)
     if changed:
         _reasons_write(changed)
 
 
 def _reasons_write(rows: list[FilterDay]) -> None:
-    """The rows' reasons in one statement (``bulk_update``'s CASE costs more to build than the rows do)."""
+    """The rows' reasons and verdicts in one statement (``bulk_update``'s CASE costs more to build than the rows
+    do)."""
     table = connection.ops.quote_name(FilterDay._meta.db_table)
-    ids, reasons = [r.pk for r in rows], [r.reason for r in rows]
+    ids, reasons, verdicts = [r.pk for r in rows], [r.reason for r in rows], [r.verdict for r in rows]
     with connection.cursor() as cursor:
         if connection.vendor == "postgresql":
             cursor.execute(
-                f"UPDATE {table} AS f SET reason = v.reason "  # noqa: S608 (the model's table)
-                "FROM unnest(%s::bigint[], %s::text[]) AS v(id, reason) WHERE f.id = v.id",
-                [ids, reasons],
+                f"UPDATE {table} AS f SET reason = v.reason, verdict = v.verdict "  # noqa: S608 (the model's table)
+                "FROM unnest(%s::bigint[], %s::text[], %s::text[]) AS v(id, reason, verdict) WHERE f.id = v.id",
+                [ids, reasons, verdicts],
             )
         else:
             cursor.executemany(
-                f"UPDATE {table} SET reason = %s WHERE id = %s",  # noqa: S608 (the model's table)
-                list(zip(reasons, ids, strict=True)),
+                f"UPDATE {table} SET reason = %s, verdict = %s WHERE id = %s",  # noqa: S608 (the model's table)
+                list(zip(reasons, verdicts, ids, strict=True)),
             )
 
 
@@ -238,10 +246,11 @@ def _filter_day_judged(
     return FilterResult(bank=bank, day=row, judged=judged)
 
 
-def _forecast_words_for(*, banks: list[Component], day: dt.date) -> dict[int, str]:
-    """{bank id: the change date from the filters fitted now, in words} (none without a forecast): the shared
-    filter series (``inspections.selectors.filter_series_for``: the technicians' readings and these trend days, up
-    to the end of ``day``), as the charts, the unit history and the phone forecast it; every bank in one read."""
+def _forecasts_for(*, banks: list[Component], day: dt.date) -> dict[int, filters.FilterForecast]:
+    """{bank id: the change forecast from the filters fitted now} (none without one): the shared filter series
+    (``inspections.selectors.filter_series_for``: the technicians' readings and these trend days, up to the end of
+    ``day``, on one meter by ``FilterLife.forecast_points``), as the charts, the unit history and the phone
+    forecast it; every bank in one read."""
     from inspections.selectors import filter_series_for
 
     from ..series import site_day_window
@@ -251,23 +260,19 @@ def _forecast_words_for(*, banks: list[Component], day: dt.date) -> dict[int, st
         return {}
     _, end = site_day_window(ahu=wanted[0].ahu, day=day)
     all_series = filter_series_for(components=wanted, before=end + dt.timedelta(microseconds=1))
-    out: dict[int, str] = {}
+    out: dict[int, filters.FilterForecast] = {}
     for bank in wanted:
         series = all_series.get(bank.pk)
         if series is None:
             continue
         try:
-            fc = filters.filter_forecast(
+            out[bank.pk] = filters.filter_forecast(
                 points=series.current.forecast_points(),
                 design_airflow_m3s=series.design_airflow_m3s,
                 final_dp_pa=bank.specs["final_dp_pa"],
             )
         except EngineeringInputError:
             continue
-        if fc.at_final_now:
-            out[bank.pk] = "at its final pressure drop by the trend: change now"
-        elif fc.date_at_final:
-            out[bank.pk] = f"change forecast {fc.date_at_final.isoformat()}"
     return out
 
 

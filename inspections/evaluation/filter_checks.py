@@ -4,6 +4,7 @@ after a change against the rated clean pressure drop."""
 from __future__ import annotations
 
 import datetime as dt
+from dataclasses import dataclass
 from typing import Any
 
 from engineering import filters
@@ -187,6 +188,39 @@ def filter_loading_checks(form: Form, consumed: set) -> list[Result]:
     return out
 
 
+@dataclass(frozen=True)
+class ForecastSaid:
+    verdict: str  # the reading's verdict beside its forecast: an "ok" the line says is due now reads "watch"
+    words: str
+    recheck: bool  # the line says change now, the reading does not: both to be re-checked
+
+
+RECHECK_WORDS = (
+    "the trend of the earlier values is at its final pressure drop but this reading is not: "
+    "re-check the gauge or sensor and its tubing before changing the filters"
+)
+
+
+OVER_FINAL_WORDS = "at or over its final pressure drop: change now"
+
+
+def forecast_agreeing(fc: filters.FilterForecast, *, verdict: str, over_final: bool = False) -> ForecastSaid:
+    """A filter reading's change forecast in words that agree with the reading's own ``verdict``: the line through
+    the earlier values and this one (``FilterLife.forecast_points``) at its final pressure drop says "change now"
+    beside a failed reading; beside one that has not failed, the row never says both "ok" (or "watch") and "change
+    now": the reading is watched and both are to be re-checked (the newest reading is not outvoted). Technicians'
+    readings and building-automation trend days are worded by this one rule (the phone's twin: evaluate.js); a
+    reading not judged (``verdict`` "") has no verdict to disagree with. A reading at or over its final value
+    (``over_final``) is to be changed now, never on a date ahead."""
+    if over_final:
+        return ForecastSaid(verdict, OVER_FINAL_WORDS, recheck=False)
+    if not fc.at_final_now:
+        return ForecastSaid(verdict, f"change forecast {_fmt_date(fc.date_at_final)}", recheck=False)
+    if verdict in (Verdict.FAIL, ""):  # failed, or not judged (no clean value): no verdict says otherwise
+        return ForecastSaid(verdict, "at its final pressure drop by the trend: change now", recheck=False)
+    return ForecastSaid(Verdict.WATCH.value, RECHECK_WORDS, recheck=True)
+
+
 def _loading_forecast(form: Form, res: Result, *, bank, dp: float, q: float, design_q: float, loading: Any) -> str:
     """The words of a loaded bank's change forecast (from the readings since its last change and this one); the
     forecast's numbers go into ``res.derived`` and its method onto ``res.method``."""
@@ -219,23 +253,14 @@ def _loading_forecast(form: Form, res: Result, *, bank, dp: float, q: float, des
                 }
             )
             res.method += "; forecast: " + fc.method
-            forecast_text = (
-                "; at its final pressure drop by the trend: change now"
-                if fc.at_final_now
-                else f"; change forecast {_fmt_date(fc.date_at_final)}"
-            )
-            if fc.at_final_now and res.verdict != Verdict.FAIL:
-                # The line through the earlier values says "change now", this reading does not: the row never says
-                # both "ok" and "change now". The newest reading is not outvoted; both are to be re-checked.
-                res.verdict = Verdict.WATCH
+            said = forecast_agreeing(fc, verdict=res.verdict)
+            res.verdict = said.verdict
+            forecast_text = f"; {said.words}"
+            if said.recheck:
                 res.derived.update(forecast_at_final_now=False, forecast_change_date=None, forecast_note=RECHECK_NOTE)
-                forecast_text = (
-                    "; the trend of the earlier values is at its final pressure drop but this reading is not: "
-                    "re-check the gauge or sensor and its tubing before changing the filters"
-                )
     if round(loading.fraction_of_span, 9) >= 1.0 and not res.derived.get("replaced_on_visit"):
         # At or over the final value: change now, never a date ahead or "no date".
-        forecast_text = "; at or over its final pressure drop: change now"
+        forecast_text = f"; {OVER_FINAL_WORDS}"
         res.derived["forecast_at_final_now"] = True
     return forecast_text
 
