@@ -164,3 +164,25 @@ def test_a_reading_no_check_judges_reads_in_plain_words(page, live_server, world
             continue  # the run-hour value is judged against the meter instead
         # (A value outside its plausible range adds "; unusual value …, please re-check" after these words.)
         expect(box).to_have_text(re.compile(r"^Recorded — no limit applies to this reading(;|$)"))
+
+
+def test_an_impossible_number_is_said_with_its_value_and_range_and_marked_invalid(page, live_server, world, sign_in):
+    """−300 °C in the supply-air field: beside it and at "Finish and sign", the field, the value typed and what is
+    allowed, in the server's words (tests/inspections/test_out_of_range_words.py holds them equal); the field is
+    marked invalid until a possible value replaces it."""
+    _open_form(page, live_server, world, sign_in)
+    block = page.locator("[data-item='controls_check.supply_air']")
+    field = block.locator("input[data-number]")
+    field.scroll_into_view_if_needed()
+    field.fill("-300")
+    said = "Supply-air temperature: −300 °C is impossible; allowed −60 to 120 °C"
+    expect(block.locator("[data-verdict]")).to_contain_text(said)
+    expect(field).to_have_attribute("aria-invalid", "true")
+
+    draw_signature(page)
+    page.get_by_role("button", name="Finish and sign").click()
+    expect(page.locator("[data-finish-problems] [data-refusals]")).to_contain_text(said)
+
+    field.fill("17")
+    expect(block.locator("[data-verdict]")).not_to_contain_text("impossible")
+    expect(field).not_to_have_attribute("aria-invalid", "true")

@@ -4,7 +4,7 @@ import { debounce, loadDraft, saveDraft } from "./drafts.js";
 import { evaluate, readingKey, reasonIn } from "./evaluate.js";
 import { formFlags } from "./formcheck.js";
 import { startFormNav } from "./formnav.js";
-import { plausibility } from "./limits.js";
+import { outOfRange, plausibility } from "./limits.js";
 import { commaWords, parseNumber } from "./numbers.js";
 import { meterPlausibleText, meterReadingCheck } from "./meter.js";
 import { newUuid, outboxPut } from "./outbox.js";
@@ -74,13 +74,19 @@ function readingsOf(form, ctx) {
       // Typed, but no number ("12,5a", "abc", "1e400"): said at the field at once, the text kept as typed.
       range = { impossible: true, improbable: false, unusable: true, typed, text: plausibility(Infinity, limits, input.dataset.unit || "", decimals).allowed };
     } else if (typeof value === "number") {
-      range = plausibility(value, limits, input.dataset.unit || "", decimals);
+      range = { ...plausibility(value, limits, input.dataset.unit || "", decimals), typed };
       // Entered in the person's units; judged in SI, converted exactly as the server converts.
       if (!range.impossible) readings[key] = slot ? fromDisplay(ctx.units, value, slot.quantity, system) : value;
     } else if (value !== null) readings[key] = value;
     blocks.push({ block, key, value, range });
   }
   return { readings, blocks, system };
+}
+
+// "Supply-air temperature: −300 °C is impossible; allowed −60 to 120 °C": the server's words for it (limits.js).
+function impossibleText(block, range) {
+  const input = block.querySelector("input[data-number]");
+  return outOfRange(captionOf(block), range.typed, (input && input.dataset.unit) || "", range.allowed);
 }
 
 // "“12,5a” is not a number; allowed −40 to 60 °C, a decimal comma or point": the value as typed and what is allowed;
@@ -136,7 +142,8 @@ function showVerdicts(form, ctx) {
     out.replaceChildren();
     const input = block.querySelector("input[data-number]");
     if (input) {
-      if (range.unusable) input.setAttribute("aria-invalid", "true");
+      // A value the server refuses (no number, or outside what can be): the field is marked as wrong.
+      if (range.unusable || range.impossible) input.setAttribute("aria-invalid", "true");
       else input.removeAttribute("aria-invalid");
     }
     if (range.unusable) {
@@ -145,7 +152,7 @@ function showVerdicts(form, ctx) {
     }
     if (value === null || value === "na") continue;
     if (range.impossible) {
-      out.append(badge("fail", "impossible"), ` ${range.text}`);
+      out.append(badge("fail", "out of range"), ` ${impossibleText(block, range)}`);
       continue;
     }
     const mine = byKey.get(key) || [];
@@ -195,7 +202,7 @@ function finishProblems(form, ctx) {
   for (const { block, key, value, range } of judged.blocks) {
     const label = captionOf(block);
     if (range.unusable) refusals.push({ key, text: `${label}: ${notANumber(range)}` });
-    else if (range.impossible) refusals.push({ key, text: `${label}: ${value} ${block.querySelector("input[data-number]").dataset.unit || ""} is not possible; ${range.text}` });
+    else if (range.impossible) refusals.push({ key, text: impossibleText(block, range) });
     if (key === RUN_HOURS_KEY && judged.meterCheck && judged.meterCheck.verdict === "fail") refusals.push({ key, text: judged.meterCheck.message });
   }
   for (const block of form.querySelectorAll("[data-item]")) {

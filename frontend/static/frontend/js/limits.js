@@ -42,3 +42,13 @@ export function plausibility(value, limits, unit = "", decimals = null) {
   }
   return { impossible: false, improbable: false, text: "", allowed };
 }
+
+/**
+ * A number outside its physical range as the server refuses it (inspections/services/reading_check.py): the field,
+ * the value as typed, and what is allowed: "Supply-air temperature: −300 °C is impossible; allowed −60 to 120 °C".
+ * ``allowed`` is ``plausibility(...).allowed``; beside the field and in "Finish and sign" alike.
+ */
+export function outOfRange(label, typed, unit, allowed) {
+  const value = String(typed).trim().replace(/^-/, "−");
+  return `${label ? `${label}: ` : ""}${value}${unit ? ` ${unit}` : ""} is impossible${allowed ? `; ${allowed}` : ""}`;
+}
