@@ -675,6 +675,51 @@ def test_the_tryout_readings_read_the_same_on_both(tmp_path):
     assert "re-check: air warmed across a shut cooling coil (sensor error or heat from another coil)" in leak.reason
 
 
+@pytest.mark.parametrize(
+    "limits",
+    [
+        {"watch_min": 3.0},  # the floor above the band's bottom (2.5 °C)
+        {"ok_min": 5.5, "ok_max": 2.5},  # the band's ends reversed
+        {"ok_min": 5.5, "ok_max": 2.5, "watch_min": 6.0},  # and the floor above both
+    ],
+)
+def test_a_trip_band_out_of_order_reads_the_same_never_ok_on_both(tmp_path, limits):
+    """The frost thermostat's band with its limits out of order (a configuration error): on both the reading is
+    judged never ok, saying the limits are inconsistent, a fail only below every limit; the same verdict, words and
+    numbers for settings on and beside every limit and across -5–20 °C (the server used to refuse the form; the
+    phone judged against the misordered band and could read ok)."""
+    rng = random.Random(4)
+    ahu, comps = _unit(rng)
+    slots = _slots(ahu, comps)
+    [trip] = [s for s in slots if s.item.api_key == "preheater_freeze.freeze_trip_temp"]
+    trip.limits = {**trip.limits, **limits}
+    edges = sorted({v for k, v in trip.limits.items() if k in ("ok_min", "ok_max", "watch_min") and v is not None})
+    settings = [*edges, *(e - 0.01 for e in edges), *(e + 0.01 for e in edges), -5.0, 1.0, 12.5, 20.0]
+    cases = [
+        {
+            "ahu": ahu,
+            "components": comps,
+            "slots": slots,
+            "values": {("preheater_freeze.freeze_trip_temp", None): t},
+            "points": {},
+            "codes": {c.pk: c.label_code for c in comps},
+        }
+        for t in settings
+    ]
+    js = run_js([js_input(c) for c in cases], tmp_path)["out"]
+    problems, seen = [], set()
+    for t, case, j in zip(settings, cases, js, strict=True):
+        assert "error" not in j, j["error"]
+        py = python_results(case)
+        problems.extend(f"{t}: {x}" for x in compare(case, py, j["results"]))
+        [p] = [r for r in py if r["item"] == "preheater_freeze.freeze_trip_temp"]
+        assert p["verdict"] != "ok" and "the limits for this check are inconsistent" in p["reason"], p
+        assert p["verdict"] == ("fail" if t < min(edges) else "watch"), (t, p)
+        seen.add(p["verdict"])
+    assert not problems, "\n".join(problems[:25])
+    assert seen == {"watch", "fail"}
+
+
 # ---------------------------------------------------------------------------
 # The field calculator: frontend/calculators.py against calc.js
 # ---------------------------------------------------------------------------

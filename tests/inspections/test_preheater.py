@@ -196,3 +196,41 @@ def test_the_new_steps_are_required_on_every_electric_preheater(api_client):
         assert "424" in items[key]["limits_source"]
     trip = items["preheater_freeze.freeze_trip_temp"]["limits"]["si"]
     assert trip["ok"] == {"min": 2.5, "max": 5.5} and trip["watch"] == {"min": 2.0, "max": None}
+
+
+@pytest.mark.django_db
+@pytest.mark.parametrize(
+    ("limits", "trip_temp", "verdict"),
+    [
+        ({"watch_min": 3.0}, 4.0, "watch"),  # the floor above the band's bottom (2.5 °C)
+        ({"watch_min": 3.0}, 2.7, "watch"),  # between the two: was a fail on the phone, a 500 on the server
+        ({"ok_min": 5.5, "ok_max": 2.5}, 4.0, "watch"),  # the band's ends reversed
+        ({"ok_min": 5.5, "ok_max": 2.5}, 12.5, "watch"),
+        ({"watch_min": 3.0}, 1.0, "fail"),  # below every limit, whichever was meant as the floor
+    ],
+)
+def test_a_trip_band_out_of_order_is_recorded_as_inconsistent_never_ok(api_client, limits, trip_temp, verdict):
+    """A checklist whose frost-thermostat limits are out of order is a configuration error: the form is stored (no
+    500), the reading is recorded with a result saying the limits are inconsistent, and it is never ok. It carries
+    the freeze-protection condition (so readiness never counts it passed); below every limit it fails and opens the
+    finding."""
+    from config.caches import clear_module_caches
+    from inspections.models import ChecklistItem, Evaluation
+    from inspections.services.library import templates_current
+
+    templates_current()  # installed, then its trip band put out of order (as a mistaken library edit would)
+    assert ChecklistItem.objects.filter(template__code="preheater_freeze", key="freeze_trip_temp").update(**limits)
+    clear_module_caches()
+    wo, tech, heater = _visit()
+    out = _submit(api_client, wo, tech, heater, stage_on=THRESHOLD_C, trip_temp=trip_temp, on=dt.date(2024, 9, 20))
+    ev = _verdict(out, "preheater_freeze.freeze_trip_temp")
+    assert ev["verdict"] == verdict
+    assert "the limits for this check are inconsistent: fail below" in ev["reason"], ev["reason"]
+    findings = Finding.objects.filter(inspection_id=out["inspection_id"])
+    if verdict == "fail":
+        [f] = findings
+        assert f.condition_code == "freeze_protection_failed"
+    else:
+        assert not findings.exists()
+    row = Evaluation.objects.get(inspection_id=out["inspection_id"], item_key="preheater_freeze.freeze_trip_temp")
+    assert row.condition_code == "freeze_protection_failed" and row.derived["limits_inconsistent"] is True

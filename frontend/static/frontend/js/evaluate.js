@@ -1119,6 +1119,10 @@ function freezeTripChecks(form, consumed) {
     if (typeof t !== "number" || lo === null || hi === null) continue;
     const floor = lim.watch_min ?? lo;
     consumed.add(key);
+    if (!(floor <= lo && lo <= hi)) {
+      out.push(freezeTripInconsistent(slot, t, lo, hi, floor));
+      continue;
+    }
     const x = pyRound(t, 9);
     let verdict = OK;
     if (x < floor) verdict = FAIL;
@@ -1143,6 +1147,24 @@ function freezeTripChecks(form, consumed) {
     out.push(res);
   }
   return out;
+}
+
+// A band whose limits are out of order (freeze_checks._inconsistent): never ok. A fail when the setting is below
+// every one of the limits, otherwise a watch (not proven); the freeze-protection condition, so readiness never passes it.
+function freezeTripInconsistent(slot, t, lo, hi, floor) {
+  const belowAll = pyRound(t, 9) < Math.min(floor, lo, hi);
+  const res = result({
+    check: "limits", item: TRIP_ITEM, component: slot.component, verdict: belowAll ? FAIL : WATCH,
+    condition_code: "freeze_protection_failed",
+    method: `reading against its band, not judged: the band's limits are out of order; ${slot.limits_source || "common practice"}`,
+    derived: { value: t, ok_min: lo, ok_max: hi, watch_min: floor, watch_open_high: true, limits_inconsistent: true },
+  });
+  const d = slot.decimals;
+  say(res, "freeze-protection trip temperature ", q(t, "temperature", d),
+    belowAll ? " is below every limit set for it: the coil can freeze before it trips; " : " is not proven: ",
+    "the limits for this check are inconsistent: fail below ", q(floor, "temperature", d), ", ok from ",
+    q(lo, "temperature", d), " to ", q(hi, "temperature", d), "; each must be at most the next. Correct the checklist's limits");
+  return res;
 }
 
 function heatRecoveryChecks(form) {
