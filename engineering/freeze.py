@@ -246,7 +246,7 @@ def freeze_trip_setting_check(*, trip_c: float, ok_low: float, ok_high: float, f
     between it and ``ok_low`` WATCH (too little margin). A trip set too high still protects the coil; it only
     trips on cool mornings and stops the unit when it need not (nuisance trips): above ``ok_high`` WATCH, never
     FAIL. A trip that does not happen when tested is the trip test's failure, not this setting's. The band is
-    the caller's (a typical setting is about 2–5 °C, 35–40 °F: common practice, from memory).
+    the caller's (a typical setting is about 2–5 °C, 35.6–41 °F: common practice, from memory).
     ``limits["above_band_k"]`` is how far above ``ok_high`` the setting is (0 when not above).
     """
     t = v.finite("trip_c", trip_c)

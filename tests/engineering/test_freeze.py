@@ -86,8 +86,25 @@ def test_wrong_number_of_normals_and_nan_are_refused():
         heating_degree_days(daily_mean_c=[float("nan")])
 
 
-# The frost thermostat's band as the checklist sets it: ok 2.5–5.5 °C, fail below 2 °C (usual setting about
-# 3.3 °C / 38 °F, typical 2–5 °C / 35–40 °F: common practice, from memory; inspections.checklists.FREEZE_TRIP_*).
+# The frost thermostat's band as the checklist sets it (inspections.checklists.FREEZE_TRIP_*), each value's source:
+# - 2.0 °C (35.6 °F), fail below: common practice, a margin over the 1 °C (34 °F) of ASHRAE Guideline 36-2021
+#   5.16.12.3 (its last freeze stage: supply air below 3.3 °C for 15 min or below 1 °C for 5 min shuts the unit
+#   down; as summarised in PNNL's ConStrain rule library).
+# - 2.5 °C (36.5 °F), bottom of the ok band: common practice (no published source).
+# - 3.3 °C (38 °F), the usual setting: the 3.3 °C of the same Guideline 36 stage; 38 °F frost thermostats from memory.
+# - 5.5 °C (41.9 °F), top of the ok band: common practice, covering the 5 °C (41 °F) setting usual in Europe (from
+#   memory). A typical setting is thus 2–5 °C, about 36–41 °F (1.8 × °C + 32).
+FREEZE_OK_LOW_C, FREEZE_OK_HIGH_C, FREEZE_FAIL_BELOW_C = 2.5, 5.5, 2.0
+
+
+def test_the_band_here_is_the_checklists():
+    """The values above are the ones the checklist ships (so the sources named here are the checklist's)."""
+    from inspections.checklists import FREEZE_TRIP_OK, FREEZE_TRIP_WATCH
+
+    assert FREEZE_TRIP_OK == (FREEZE_OK_LOW_C, FREEZE_OK_HIGH_C)
+    assert FREEZE_TRIP_WATCH[0] == FREEZE_FAIL_BELOW_C
+
+
 @pytest.mark.parametrize(
     ("trip_c", "verdict"),
     [
@@ -102,16 +119,18 @@ def test_wrong_number_of_normals_and_nan_are_refused():
     ],
 )
 def test_a_trip_set_too_high_is_a_watch_too_low_a_failure(trip_c, verdict):
-    chk = freeze_trip_setting_check(trip_c=trip_c, ok_low=2.5, ok_high=5.5, fail_below=2.0)
+    chk = freeze_trip_setting_check(
+        trip_c=trip_c, ok_low=FREEZE_OK_LOW_C, ok_high=FREEZE_OK_HIGH_C, fail_below=FREEZE_FAIL_BELOW_C
+    )
     assert chk.verdict == verdict
-    if trip_c > 5.5:
+    if trip_c > FREEZE_OK_HIGH_C:
         assert "set higher than needed, nuisance trips likely" in chk.reason
-        assert chk.limits["above_band_k"] == pytest.approx(trip_c - 5.5)
+        assert chk.limits["above_band_k"] == pytest.approx(trip_c - FREEZE_OK_HIGH_C)
     else:
         assert chk.limits["above_band_k"] == 0.0
 
 
 def test_a_trip_band_out_of_order_is_refused_by_name():
     with pytest.raises(EngineeringInputError) as e:
-        freeze_trip_setting_check(trip_c=3.0, ok_low=2.5, ok_high=5.5, fail_below=3.0)
+        freeze_trip_setting_check(trip_c=3.0, ok_low=FREEZE_OK_LOW_C, ok_high=FREEZE_OK_HIGH_C, fail_below=3.0)
     assert e.value.field == "ok_low"

@@ -331,7 +331,7 @@ def test_a_retest_on_the_corrective_work_that_fails_again_keeps_the_fault_open_w
 def test_a_frost_thermostat_set_too_high_is_a_watch_and_the_unit_stays_ready(
     api_client, client, time_machine, django_capture_on_commit_callbacks
 ):
-    """The new-user tryout: the frost thermostat trips at 12.5 °C, far above the usual 2–5 °C (35–40 °F, common
+    """The new-user tryout: the frost thermostat trips at 12.5 °C, far above the usual 2–5 °C (about 36–41 °F, common
     practice; the band is inspections.checklists.FREEZE_TRIP_OK), and every other step passes. A trip set too
     high still protects the coil, it only stops the unit on cool mornings: the step is a watch saying so, no
     finding opens, and the site page, the dashboard, the API and the PDF all say ready."""

@@ -640,7 +640,7 @@ def test_a_coil_with_no_heat_on_either_side_reads_the_same_plain_words_on_both(t
 
 
 def test_the_tryout_readings_read_the_same_on_both(tmp_path):
-    """The new-user tryout: a frost thermostat set to trip at 12.5 °C (above the usual 2–5 °C, 35–40 °F, common
+    """The new-user tryout: a frost thermostat set to trip at 12.5 °C (above the usual 2–5 °C, about 36–41 °F, common
     practice) is a watch on both, nuisance trips and not a freeze-protection failure; a shut cooling coil whose
     air goes from 18 °C to 25 °C (7 K the wrong way, beyond the 2.68 K allowance of ASHRAE Guideline 36-2018
     5.16.14 FC#14's sensor errors and fan heat, from memory) is a re-check on both, never "the valve holds"."""

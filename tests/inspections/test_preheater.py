@@ -1,7 +1,7 @@
 """Electric preheater stage test and freeze-protection trip on a unit that has a preheater.
 
 Bands: stage 1 should switch on within 1 K of the set threshold (watch within 2 K): common practice,
-no published source. The frost thermostat should trip at 2.5–5.5 °C (watch 2–7 °C, below 2 °C fails):
+no published source. The frost thermostat should trip at 2.5–5.5 °C (watch 2–2.5 °C and above 5.5 °C, below 2 °C fails):
 the usual setting is about 3.3 °C (38 °F), common practice; ASHRAE Guideline 36-2021 5.16.12 takes its
 last freeze stage at supply air below 1 °C (as summarised in PNNL's ConStrain rule library). The
 airflow interlock and the automatic-reset primary limit beside the manual-reset high limit follow
