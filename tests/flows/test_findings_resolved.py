@@ -173,3 +173,49 @@ def test_a_later_partial_ok_does_not_close_a_freeze_protection_finding(api_clien
     assert res.json()["results"][0]["status"] in ("stored", "flagged")
     trip.refresh_from_db()
     assert trip.state == Finding.State.OPEN and trip.close_cause == ""
+
+
+@pytest.mark.parametrize(
+    ("trip_c", "closes"),
+    [
+        (12.5, True),  # set too high now: the too-low condition is gone; the nuisance-trip watch is its own matter
+        (3.3, True),  # within the band
+        (2.2, False),  # still below the band (too little margin): the freeze-protection condition is still there
+    ],
+)
+def test_a_later_complete_freeze_test_settles_a_trip_set_too_low(api_client, time_machine, trip_c, closes):
+    """Visit 1: the frost thermostat trips at 1.0 °C, below the 2 °C floor (fail; ok 2.5–5.5 °C, above 5.5 °C a watch
+    for nuisance trips: common practice, inspections.checklists.FREEZE_TRIP_*): a freeze-protection finding opens,
+    its corrective work awaiting approval (the season is far off). Visit 2, a week later, is a complete freeze test
+    (every step answered) on a new preventive visit. A setting now above the band (12.5 °C, a watch that still
+    protects the coil) or within it settles the finding "ok on a later visit" and withdraws the proposal; one still
+    just below the band (2.2 °C, a watch for too little margin) does not."""
+    from inspections.models import Evaluation
+    from inventory.models import Site
+    from tests.flows.test_freeze_readiness import FAILED_ON, _send, _unit_with_a_preheater
+
+    wo, tech, _heater, site, _boss, _manager = _unit_with_a_preheater()
+    Site.objects.filter(pk=site.pk).update(freeze_season_start=None)  # mild normals: the season far off
+    time_machine.move_to(FAILED_ON + dt.timedelta(hours=1), tick=False)
+    _send(api_client, tech, wo, {"preheater_freeze.freeze_trip_temp": 1.0}, FAILED_ON)
+    [low] = Finding.objects.filter(ahu=wo.ahu, state=Finding.State.OPEN)
+    assert (low.problem, low.condition_code) == ("preheater_freeze.freeze_trip_temp", "freeze_protection_failed")
+    proposal = low.corrective_work_order
+    assert proposal.approval == WorkOrder.Approval.PENDING
+
+    later, _ = make_visit(tasks=["preheater_freeze"], ahu=wo.ahu, organisation=wo.organisation, technician=tech)
+    retest_on = FAILED_ON + dt.timedelta(days=7)
+    time_machine.move_to(retest_on + dt.timedelta(hours=1), tick=False)
+    out = _send(api_client, tech, later, {"preheater_freeze.freeze_trip_temp": trip_c}, retest_on)
+    trip = Evaluation.objects.get(inspection_id=out["inspection_id"], item_key="preheater_freeze.freeze_trip_temp")
+    assert trip.verdict == ("ok" if trip_c == 3.3 else "watch")
+    low.refresh_from_db()
+    proposal.refresh_from_db()
+    assert out["findings"] == []
+    if closes:
+        assert (low.state, low.close_cause, low.closed_at) == (Finding.State.CLOSED, "ok_later", retest_on)
+        assert proposal.state == WorkOrder.State.CANCELLED and "resolved" in proposal.cancel_reason
+        assert not Finding.objects.filter(ahu=wo.ahu, state=Finding.State.OPEN).exists(), "the watch opens none"
+    else:
+        assert (low.state, low.close_cause) == (Finding.State.OPEN, "")
+        assert proposal.state in WorkOrder.OPEN_STATES

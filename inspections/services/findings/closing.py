@@ -16,13 +16,14 @@ from engineering.controls import Verdict
 from ...evaluation import Result
 from ...models import Amendment, Evaluation, Finding, Inspection
 from .corrective import corrective_for_group, proposals_withdraw_resolved
-from .problems import FILTER_CHECKS, known_condition, problem_of
+from .problems import FILTER_CHECKS, condition_of, known_condition, problem_of, template_conditions
 from .record import finding_close
 
 if TYPE_CHECKING:
     from scheduling.models import WorkOrder
 
-# Findings a later partial ok must not close: the freeze-protection test closes by the corrective retest.
+# Findings a later partial test must not close: a freeze-protection finding closes by its corrective retest, or by a
+# later complete test (every required step of the form answered: the inspection's ``complete``), never by one step.
 NOT_RESOLVED_BY_LATER_OK = {"freeze_protection_failed"}
 
 
@@ -51,21 +52,27 @@ def findings_resolve(
 ) -> list[Finding]:
     """Close the open findings of this unit that this visit (finished at ``at``) shows resolved.
 
-    A finding is resolved when the visit judges the same check of the same part ok ("ok on a later visit"), or
-    for a filter finding when that bank's filters were replaced ("filters replaced"); closed at ``at``, audited.
-    Findings this visit saw fail (``failed``), findings seen on a visit after this one (an older form synced
-    late), and freeze-protection findings (closed by the corrective retest) stay open. Corrective work still
-    awaiting approval whose findings are then all closed is withdrawn.
+    A finding is resolved when the visit judges the same check of the same part without the finding's condition
+    ("ok on a later visit"): ok, or a watch that stands for another condition (a frost thermostat found too low,
+    now set too high: the too-low condition is gone, the nuisance-trip watch is its own matter); a watch of the
+    finding's own condition (near the same limit) leaves it open. A filter finding is also resolved when that bank's
+    filters were replaced ("filters replaced"). Closed at ``at``, audited. Findings this visit saw fail
+    (``failed``), findings seen on a visit after this one (an older form synced late), and freeze-protection
+    findings on a form that is not complete (a partial retest: ``NOT_RESOLVED_BY_LATER_OK``) stay open. Corrective
+    work still awaiting approval whose findings are then all closed is withdrawn.
 
     ``open_rows``: the unit's open findings as the caller read and locked them in this transaction (else read).
     """
-    ok = {
-        (problem_of(check=res.check, item=res.item), res.component.pk if res.component else None)
-        for ev, res in zip(evaluations, results, strict=True)
-        if ev.verdict == Verdict.OK
-    }
+    by_template = template_conditions()
+    # {(problem, part id): the conditions its judgements on this visit stand for, None for an ok}; fails aside.
+    judged: dict[tuple[str, int | None], set[str | None]] = {}
+    for ev, res in zip(evaluations, results, strict=True):
+        if ev.verdict == Verdict.FAIL:
+            continue
+        key = (problem_of(check=res.check, item=res.item), res.component.pk if res.component else None)
+        judged.setdefault(key, set()).add(None if ev.verdict == Verdict.OK else condition_of(res, by_template))
     replaced = banks_replaced(results=results)
-    if not ok and not replaced:
+    if not judged and not replaced:
         return []
     closed = []
     if open_rows is None:
@@ -76,7 +83,9 @@ def findings_resolve(
         (
             f
             for f in open_rows
-            if f.state == Finding.State.OPEN and f.pk not in failed and f.condition_code not in NOT_RESOLVED_BY_LATER_OK
+            if f.state == Finding.State.OPEN
+            and f.pk not in failed
+            and (f.condition_code not in NOT_RESOLVED_BY_LATER_OK or inspection.complete)
         ),
         key=lambda f: f.pk,
     )
@@ -85,7 +94,7 @@ def findings_resolve(
             continue
         if finding.component_id in replaced and _is_filter_finding(finding):
             cause = Finding.CloseCause.REPLACED
-        elif (finding.problem, finding.component_id) in ok:
+        elif judged.get((finding.problem, finding.component_id), {finding.condition_code}) - {finding.condition_code}:
             cause = Finding.CloseCause.OK_LATER
         else:
             continue

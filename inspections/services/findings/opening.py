@@ -21,6 +21,7 @@ from .closing import banks_replaced, findings_resolve
 from .corrective import corrective_for_group, proposal_withdraw_for_design_review
 from .problems import (
     STEP_CHECKS,
+    condition_of,
     finding_text_parts,
     finding_title,
     freeze_season_near,
@@ -204,9 +205,7 @@ def findings_open(
             continue
         if res.check == "filter_loading" and res.component is not None and res.component.pk in replaced:
             continue  # the old set, read before it was replaced on this visit: the replacement answers it
-        condition = res.condition_code
-        if not condition and res.check in STEP_CHECKS:
-            condition = by_template.get(res.item.split(".", 1)[0], "")
+        condition = condition_of(res, by_template)
         urgent = condition == "freeze_protection_failed" and freeze_season_near(
             site=site, on=seen_at.astimezone(zoneinfo.ZoneInfo(site.time_zone)).date()
         )

@@ -101,6 +101,14 @@ def template_conditions() -> dict[str, str]:
     return {key.split(".", 1)[0]: code for key, code in ITEM_CONDITIONS.items()}
 
 
+def condition_of(res: Result, by_template: dict[str, str]) -> str:
+    """The scheduling condition a judgement stands for: its own, else (a step of a test) its test's
+    (``by_template``: ``template_conditions()``). A finding keeps the condition of the failure that opened it."""
+    if res.condition_code or res.check not in STEP_CHECKS:
+        return res.condition_code
+    return by_template.get(res.item.split(".", 1)[0], "")
+
+
 def problem_of(*, check: str, item: str) -> str:
     """The problem a failed judgement is about: one open finding per unit, part and problem.
 
