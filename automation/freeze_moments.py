@@ -60,10 +60,11 @@ def freeze_moment(trends: UnitTrends, event: FreezeEvent, *, air: str) -> dict:
     """The moment the ``air`` role (``sat`` or ``preheat_leaving``) was lowest in ``event`` and what the unit did
     then: ``{"air", "lowest_at" (ISO, UTC), "unit": {"fan_status", "fan_speed", "oa_damper", "frost_stat"
     (each a point's read, or None when no point of that role is mapped), "heating" (a read per heating or
-    preheat valve command, with its part), "heating_unmapped" (the heating and preheat parts no command is
-    mapped for)}}``. Without ``lowest_at`` when no sample of the air lies in the window. A point's last sample
-    holds its value as long as the run-hour feed holds a fan's (``feeds.RUN_HOLD_MAX_S``): a status or a command
-    logged on change of value may stay quiet for hours."""
+    preheat valve command, with its part and ``before``: its value when the air first fell below the stage's
+    temperature, so the words can tell a valve turned up from one left where it was), "heating_unmapped" (the
+    heating and preheat parts no command is mapped for)}}``. Without ``lowest_at`` when no sample of the air lies in
+    the window. A point's last sample holds its value as long as the run-hour feed holds a fan's
+    (``feeds.RUN_HOLD_MAX_S``): a status or a command logged on change of value may stay quiet for hours."""
     out: dict = {"air": air}
     at_s = _lowest_at(trends.of(air), event)
     if at_s is None:
@@ -80,7 +81,8 @@ def freeze_moment(trends: UnitTrends, event: FreezeEvent, *, air: str) -> dict:
     for p in sorted(trends.points, key=lambda p: p.name):
         c = p.component
         if p.brick_class == VALVE_COMMAND and c is not None and (c.specs or {}).get("duty") in ("heating", "preheat"):
-            heating.append({"part": c.name, **_read(trends, p, at_s, hold)})
+            before = _value(trends, p, _seconds(event.start), hold)
+            heating.append({"part": c.name, **_read(trends, p, at_s, hold), "before": before})
             mapped_parts.add(c.pk)
     unmapped = [c.name for c in _heating_parts(trends) if c.pk not in mapped_parts]
     frost = next((p for p in sorted(trends.points, key=lambda p: p.name) if p.brick_class == FROST_STAT), None)

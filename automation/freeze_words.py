@@ -119,31 +119,50 @@ def _open(read: dict | None) -> float | None:
     return float(read["value"])
 
 
+def _turned_up(read: dict, tolerance: float) -> bool | None:
+    """Whether a heating valve was turned up by the coldest moment: commanded fully open (within the tolerance), or
+    more open than when the air first fell below the stage's temperature; None when that earlier value is unknown
+    (no sample then, or a moment kept before it was read) and the valve is not fully open."""
+    now = float(read["value"])
+    if now >= 1.0 - tolerance:
+        return True
+    before = read.get("before")
+    return None if before is None else now > float(before) + tolerance
+
+
 def response_parts(stage: str, unit: dict) -> list:
     """Whether the unit did, at its coldest moment, what the guideline's freeze protection does at ``stage``
     (``STAGE_ACTIONS``), as reason parts: at stage 3 the supply fan stops and the outdoor-air damper closes; at stage
-    2 the outdoor air is shut off; at stage 1 the heating is turned up. Each thing it did not do is named; a thing no
-    trend point says is left to the clauses that say so. Empty when nothing can be compared."""
+    2 the outdoor air is shut off; at stage 1 the heating is turned up (a valve merely open, left where it was before
+    the stage, is not a response). Each thing it did not do is named; a thing no trend point says is left to the
+    clauses that say so. The unit is said to have done what the stage calls for only when every response the stage
+    calls for was read and done, so a stage that did not respond, or whose response the trends cannot show, never
+    reads as done. Empty when nothing is wrong and not every response could be read."""
     tolerance = G36_DEFAULTS.command_tolerance  # a command at or below 1 % reads shut (the rules' own tolerance)
     n = stage_number(stage)
     wrong: list[list] = []
-    checked = False
+    unread = False  # a response the stage calls for that the trends do not show
     if n >= 3:
         ran = fan_ran(unit)
-        if ran is not None:
-            checked = True
-            if ran:
-                wrong.append(["the supply fan kept running"])
+        unread = unread or ran is None
+        if ran:
+            wrong.append(["the supply fan kept running"])
     damper = _open(unit.get("oa_damper"))
-    if n >= 2 and damper is not None:
-        checked = True
-        if damper > tolerance:
+    if n >= 2:
+        unread = unread or damper is None
+        if damper is not None and damper > tolerance:
             wrong.append(["the outdoor-air damper was still ", reasons.q(damper * 100, "percent"), " open"])
-    heat = [v for read in unit.get("heating") or [] if (v := _open(read)) is not None]
-    if heat and not unit.get("heating_unmapped"):
-        checked = True
-        if max(heat) <= tolerance:
-            wrong.append(["no heating or preheat was commanded"])
+    reads = unit.get("heating") or []
+    # Every heating and preheat command mapped and sampled: else what the heating did is not known.
+    heat_known = bool(reads) and not unit.get("heating_unmapped") and all(_open(r) is not None for r in reads)
+    if heat_known and max(float(r["value"]) for r in reads) <= tolerance:
+        wrong.append(["no heating or preheat was commanded"])
+    elif n == 1:
+        up = [_turned_up(r, tolerance) for r in reads] if heat_known else [None]
+        if heat_known and not any(up) and None not in up:
+            wrong.append(["the heating was not turned up (no heating or preheat valve opened further)"])
+        elif not any(up):
+            unread = True
     if wrong:
         out: list = [f". The unit did not do what {stage} calls for: "]
         for i, clause in enumerate(wrong):
@@ -152,7 +171,7 @@ def response_parts(stage: str, unit: dict) -> list:
             " — check the freeze-protection sequence, its wiring and the low-limit thermostat before the next frost"
         )
         return out
-    if checked:
+    if not unread:
         return [f". The unit did what {stage} calls for, as far as its trend points show"]
     return []
 

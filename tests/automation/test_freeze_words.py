@@ -196,3 +196,50 @@ def test_the_words_say_whether_the_unit_did_what_the_stage_calls_for(client, wor
         "freeze-protection sequence, its wiring and the low-limit thermostat before the next frost"
     )
     assert said("stage 2", {"fan_status": None, "oa_damper": None}) == ""
+
+
+def test_the_moment_keeps_each_heating_valve_as_it_was_when_the_air_first_fell(world):
+    """What the heating did is judged against what it was doing before: the heating valve's command when the air
+    first fell below the stage's temperature is kept beside its command at the coldest moment (shut at both here)."""
+    windows = [w for w in world["fault"].windows if (w.get("unit") or {}).get("heating")]
+    assert windows, world["fault"].windows
+    for w in windows:
+        [valve] = w["unit"]["heating"]
+        assert (valve["point"], valve["value"], valve["before"]) == ("AHU-F1.HCV", 0.0, 0.0)
+
+
+def test_a_stage_that_did_not_respond_or_cannot_be_shown_to_never_reads_as_done():
+    """The unit is said to have done what a stage calls for only when every response the stage calls for was read
+    and done. Stage 1 (ASHRAE Guideline 36-2021 5.16.12.1, as engineering.faults.freeze.STAGE_ACTIONS words it) turns
+    the heating up: a valve left where it was before the stage is not a response, a valve opened further or fully
+    open is; a valve whose earlier command is unknown shows nothing either way. Stage 3 stops the fan and closes the
+    damper: a shut damper with no fan status or speed read does not show the stage was done. Commands as fractions;
+    at or below the rules' 1 % command tolerance reads shut (G36_DEFAULTS.command_tolerance)."""
+    from automation.freeze_words import response_parts
+
+    def said(stage, unit):
+        return reasons.render(response_parts(stage, unit), "si")
+
+    def valve(value, before):
+        return {"part": "Heating coil", "point": "F.HCV", "value": value, "before": before}
+
+    done = ". The unit did what stage 1 calls for, as far as its trend points show"
+    left = {"heating": [valve(0.3, 0.3)], "heating_unmapped": []}
+    assert said("stage 1", left) == (
+        ". The unit did not do what stage 1 calls for: the heating was not turned up (no heating or preheat valve "
+        "opened further) — check the freeze-protection sequence, its wiring and the low-limit thermostat before the "
+        "next frost"
+    )
+    assert said("stage 1", {"heating": [valve(0.8, 0.3)], "heating_unmapped": []}) == done
+    assert said("stage 1", {"heating": [valve(1.0, None)], "heating_unmapped": []}) == done
+    for unknown in (
+        {"heating": [valve(0.3, None)], "heating_unmapped": []},  # a window kept before the earlier command was read
+        {"heating": [valve(0.3, 0.3)], "heating_unmapped": ["Electric preheater"]},  # another heater not mapped
+        {"heating": [valve(0.0, 0.0), valve(None, None)], "heating_unmapped": []},  # one valve not sampled
+        {"heating": [], "heating_unmapped": []},
+    ):
+        assert said("stage 1", unknown) == "", unknown
+    shut_no_fan = {"fan_status": None, "fan_speed": None, "oa_damper": {"point": "F.OAD", "value": 0.0}}
+    assert said("stage 3", shut_no_fan) == ""
+    shut_stopped = {**shut_no_fan, "fan_status": {"point": "F.STS", "value": 0.0}}
+    assert said("stage 3", shut_stopped) == ". The unit did what stage 3 calls for, as far as its trend points show"
