@@ -59,8 +59,9 @@ def inspection_amend(
     judgement that fails now but did not fail before (on the form or an
     earlier amendment) is stored as an Evaluation of this amendment and opens
     a Finding pointing to it, with its corrective work proposed like a synced
-    failure; an open finding of this inspection whose check is now ok is
-    closed as cleared by the amendment. The original readings and evaluations
+    failure; an open finding of this inspection whose check is now judged
+    without its condition (ok, or a watch of another condition:
+    ``findings_close_cleared``) is closed as cleared by the amendment. The original readings and evaluations
     stay as they were.
     """
 

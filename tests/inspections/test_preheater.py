@@ -234,3 +234,32 @@ def test_a_trip_band_out_of_order_is_recorded_as_inconsistent_never_ok(api_clien
         assert not findings.exists()
     row = Evaluation.objects.get(inspection_id=out["inspection_id"], item_key="preheater_freeze.freeze_trip_temp")
     assert row.condition_code == "freeze_protection_failed" and row.derived["limits_inconsistent"] is True
+
+
+@pytest.mark.django_db
+@pytest.mark.parametrize(("corrected", "clears"), [(12.5, True), (3.3, True), (2.2, False)])
+def test_a_trip_setting_corrected_from_too_low_clears_its_finding_unless_still_below_the_band(
+    api_client, corrected, clears
+):
+    """The technician typed 1.0 °C (below the 2 °C floor: a freeze-protection finding) and amends it: to 12.5 °C
+    (above the band, a nuisance-trip watch that still protects the coil) or 3.3 °C (ok), the too-low condition is
+    gone and the finding is cleared by the amendment; to 2.2 °C (a watch for too little margin, the same condition)
+    it stays open. Bands: inspections.checklists.FREEZE_TRIP_*, common practice."""
+    from inspections.models import Inspection
+    from inspections.services import inspection_amend
+
+    wo, tech, heater = _visit()
+    out = _submit(api_client, wo, tech, heater, stage_on=THRESHOLD_C, trip_temp=1.0, on=dt.date(2024, 9, 20))
+    [finding] = Finding.objects.filter(inspection_id=out["inspection_id"])
+    inspection_amend(
+        inspection=Inspection.objects.get(pk=out["inspection_id"]),
+        by=tech,
+        reason="misread the thermostat's dial",
+        readings=[r("preheater_freeze.freeze_trip_temp", corrected)],
+        unit_system="si",
+    )
+    finding.refresh_from_db()
+    if clears:
+        assert (finding.state, finding.close_cause) == (Finding.State.CLOSED, Finding.CloseCause.AMENDED)
+    else:
+        assert (finding.state, finding.close_cause) == (Finding.State.OPEN, "")

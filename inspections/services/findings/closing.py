@@ -246,23 +246,31 @@ def findings_close_cleared(
     *, inspection: Inspection, amendment: Amendment, results: Iterable[Result], by: User | None
 ) -> list[Finding]:
     """Close the open findings last seen on this inspection whose check the amendment's corrected readings
-    now pass (ok). A finding seen again on a later visit stays open: the later failure stands.
+    now judge without the finding's condition, as a later visit would (``findings_resolve``). A finding seen again
+    on a later visit stays open: the later failure stands.
 
-    Only an ok clears a finding: a watch (near a limit, or a check that cannot judge) leaves it open for the
-    supervisor. The corrective work it proposed is left as it is; the supervisor may reject or cancel it.
+    An ok clears a finding, and so does a watch that stands for another condition (a frost thermostat corrected from
+    too low to too high); a watch of the finding's own condition (near the same limit, or a check that cannot judge)
+    leaves it open for the supervisor. The corrective work it proposed is left as it is; the supervisor may reject
+    or cancel it.
     """
-    passing = {
-        (res.check, res.item, res.component.pk if res.component else None)
-        for res in results
-        if res.verdict == Verdict.OK
-    }
+    by_template = template_conditions()
+    passing: dict[tuple[str, str, int | None], set[str | None]] = {}
+    for res in results:
+        if res.verdict != Verdict.FAIL:
+            key = (res.check, res.item, res.component.pk if res.component else None)
+            passing.setdefault(key, set()).add(None if res.verdict == Verdict.OK else condition_of(res, by_template))
     found = [
         f
         for f in Finding.objects.select_for_update(of=("self",))  # lock the findings, not their (nullable) parts
         .filter(latest_inspection=inspection, state=Finding.State.OPEN)
         .select_related("latest_evaluation", "component")
         if f.latest_evaluation is not None  # a visit's finding always has one
-        and (f.latest_evaluation.check_name, f.latest_evaluation.item_key, f.latest_evaluation.component_id) in passing
+        and passing.get(
+            (f.latest_evaluation.check_name, f.latest_evaluation.item_key, f.latest_evaluation.component_id),
+            {f.condition_code},
+        )
+        - {f.condition_code}
     ]
     for finding in found:
         finding.cleared_by_amendment = amendment
