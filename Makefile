@@ -61,7 +61,7 @@ TYPED := engineering accounts/services inventory/services.py reports/services.py
   scheduling/services scheduling/task_rows.py inspections/services/__init__.py inspections/services/findings \
   inspections/services/reading_check.py inspections/services/form_evaluation.py inspections/services/photos.py \
   inspections/services/library.py inspections/services/form_check.py inspections/services/signoff.py \
-  inspections/services/sync.py
+  inspections/services/sync.py inspections/services/sync_flags.py inspections/services/sync_answers.py
 
 lint: install ## ruff, the import-layering contracts and mypy (strict on engineering/ and the typed services)
 	$(VENV)/bin/ruff check .

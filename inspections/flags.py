@@ -1,13 +1,14 @@
 """Every flag a stored form may carry for the supervisor, named once.
 
 ``FORM_FLAGS`` are the ones a phone can know from the form alone before it is sent: the server raises them
-(``services.sync._flags``) with these very words, and the phone checks them on "Finish and sign" from the
-checklist document (``phone.evaluation_context`` ships ``FORM_FLAGS`` as ``form_flags`` and each slot's
+(``services.sync_flags.form_flags_raised``) with these very words, and the phone checks them on "Finish and sign"
+from the checklist document (``phone.evaluation_context`` ships ``FORM_FLAGS`` as ``form_flags`` and each slot's
 ``required`` / ``note_required_when_not_ok`` / ``photo_required_when_not_ok``), so both say the same thing.
 ``SERVER_FLAGS`` depend on what only the server knows when the form arrives (the work order's state and
 version, the phone's clock, the meter's history) or are shown beside the field as it is typed (an unusual
-value). tests/inspections/test_form_flags.py fails when ``services.sync`` raises a code named in neither,
-and when the phone's checker (``frontend/static/frontend/js/formcheck.js``) lacks a code of ``FORM_FLAGS``.
+value). tests/inspections/test_form_flags.py fails when the sync (``services.sync``, ``services.sync_flags``)
+raises a code named in neither, and when the phone's checker (``frontend/static/frontend/js/formcheck.js``) lacks
+a code of ``FORM_FLAGS``.
 """
 
 from __future__ import annotations

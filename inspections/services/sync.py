@@ -13,7 +13,6 @@ work order's completion.
 from __future__ import annotations
 
 import copy
-import datetime as dt
 import logging
 import uuid
 from collections.abc import Iterable
@@ -30,10 +29,8 @@ from accounts.services import audit_record, audits_deferred
 from engineering.controls import Verdict
 from scheduling.models import WorkOrder
 
-from .. import check, evaluation, selectors
-from .. import flags as form_flags
-from ..check import Errors
-from ..models import Evaluation, Finding, Inspection, Photo, Reading
+from .. import evaluation
+from ..models import Inspection, Photo, Reading
 from . import findings as findings_service
 from . import photos as photo_service
 from .form_check import (
@@ -45,140 +42,10 @@ from .form_check import (
     form_parse,
     uuid_or_none,
 )
+from .sync_answers import duplicate_result, failed_result, refused_result, result_json
+from .sync_flags import form_flags_raised
 
 logger = logging.getLogger(__name__)
-
-
-# ---------------------------------------------------------------------------
-# Storing
-# ---------------------------------------------------------------------------
-def _not_ok(reading: Reading) -> bool:
-    return reading.verdict == Verdict.FAIL
-
-
-def _flags(parsed: Parsed, user: User, wo: WorkOrder) -> list[dict[str, str]]:
-    flags: list[dict[str, str]] = []
-    if wo.state == WorkOrder.State.CANCELLED:
-        flags.append(
-            {
-                "code": "work_order_cancelled",
-                "reason": f"the work order was cancelled ({wo.cancel_reason or 'no reason given'}) before "
-                "this form arrived",
-            }
-        )
-    elif wo.state in (WorkOrder.State.COMPLETED, WorkOrder.State.VERIFIED):
-        flags.append(
-            {"code": "work_order_closed", "reason": f"the work order was already {wo.state} when this form arrived"}
-        )
-    if wo.assignee_id != user.pk and wo.state != WorkOrder.State.CANCELLED:
-        to = f"is now assigned to {wo.assignee}" if wo.assignee else "is no longer assigned to anyone"
-        flags.append({"code": "work_order_reassigned", "reason": f"sent by {user}, but the work order {to}"})
-    if wo.version != parsed.version_seen:
-        flags.append(
-            {
-                "code": "work_order_changed",
-                "reason": f"the work order changed after the phone saw it (version {parsed.version_seen}, "
-                f"now {wo.version})",
-            }
-        )
-    for text in parsed.improbable:
-        flags.append({"code": "improbable_value", "reason": text})
-    clock = parsed.clock
-    if clock is not None and clock.skew is not None and clock.beyond_tolerance:
-        flags.append({"code": "phone_clock", "reason": _clock_reason(clock, clock.skew)})
-    answered = {(r.item.api_key, r.component.pk if r.component else None) for r in parsed.readings}
-    photographed = {
-        (p["slot"].item.api_key, p["slot"].component.pk if p["slot"].component else None) for p, _ in parsed.photos
-    }
-    missing = [
-        s
-        for s in parsed.checklist.slots
-        if s.item.required and s.key not in (photographed if s.item.kind == "photo" else answered)
-    ]
-    if missing:
-        flags.append(form_flags.flag_incomplete([form_flags.slot_place(s) for s in missing]))
-    slots = {s.key: s for s in parsed.checklist.slots}
-    for r in parsed.readings:
-        key = (r.item.api_key, r.component.pk if r.component else None)
-        if not _not_ok(r):
-            continue
-        label = form_flags.slot_label(slots[key])
-        if slots[key].item.photo_required_when_not_ok and key not in photographed:
-            flags.append(form_flags.flag_for("missing_photo", label=label))
-        if slots[key].item.note_required_when_not_ok and not r.note.strip():
-            flags.append(form_flags.flag_for("missing_note", label=label))
-    return flags
-
-
-def _clock_reason(placed: check.Placed, skew: dt.timedelta) -> str:
-    how = "" if placed.measured else "at least "
-    return (
-        f"the phone's clock was {how}{check.skew_text(skew)} the server's when the form arrived; "
-        f"its finish and signature times are placed on the server's clock (finished "
-        f"{placed.finished_at:%Y-%m-%d %H:%M} UTC); set the phone to the network time"
-    )
-
-
-def _result_json(
-    inspection: Inspection,
-    status: str,
-    flags: list[dict[str, str]],
-    evals: list[Evaluation],
-    found: list[Finding],
-    wo: WorkOrder,
-    *,
-    unit_system: str = "si",
-) -> dict[str, Any]:
-    """The answer to the phone; reasons in ``unit_system`` (the sender's), ``reason_si`` as recorded."""
-    return {
-        "client_uuid": str(inspection.client_uuid),
-        "status": status,
-        "inspection_id": inspection.pk,
-        "work_order_state": wo.state,
-        "flags": flags,
-        "errors": {},
-        "evaluation": [
-            {
-                "check": e.check_name,
-                "item": e.item_key,
-                "component": e.component.label_code if e.component else None,
-                "verdict": e.verdict,
-                "reason": selectors.reason_for(evaluation=e, unit_system=unit_system),
-                "reason_si": e.reason,
-                "method": e.method,
-                "derived": e.derived,
-            }
-            for e in evals
-        ],
-        "findings": [selectors.finding_shape(finding=f, unit_system=unit_system) for f in found],
-        "clock_skew_s": inspection.clock_skew_s,
-    }
-
-
-def duplicate_result(inspection: Inspection, *, user: User) -> dict[str, Any]:
-    if inspection.technician_id != user.pk:
-        errors = Errors()
-        errors.add(
-            "client_uuid",
-            f"The form's id {inspection.client_uuid} is already used by another person's form; generate a new one",
-        )
-        return refused_result(inspection.client_uuid, errors)
-    first = dict(inspection.sync_result)
-    return {**first, "status": "duplicate", "first_status": first.get("status")}
-
-
-def refused_result(client_uuid: uuid.UUID | None, errors: Errors) -> dict[str, Any]:
-    return {
-        "client_uuid": str(client_uuid) if client_uuid else None,
-        "status": "refused",
-        "inspection_id": None,
-        "work_order_state": None,
-        "flags": [],
-        "errors": dict(errors),
-        "evaluation": [],
-        "findings": [],
-        "clock_skew_s": None,
-    }
 
 
 def _files_delete(files: Iterable[FieldFile]) -> None:
@@ -249,7 +116,7 @@ def _store(parsed: Parsed, user: User, results: list[evaluation.Result], batch: 
                 batch.moved.append((parsed.work_order, wo))
             else:
                 wo = WorkOrder.objects.select_for_update().get(pk=parsed.work_order.pk)
-            flags = _flags(parsed, user, wo)
+            flags = form_flags_raised(parsed, user, wo)
             inspection.flags = flags
             inspection.flag_reason = "; ".join(f["reason"] for f in flags)[:5000]
             inspection.complete = not any(f["code"] == "incomplete" for f in flags)
@@ -308,7 +175,7 @@ def _store(parsed: Parsed, user: User, results: list[evaluation.Result], batch: 
             inspection.flags = flags
             inspection.flag_reason = "; ".join(f["reason"] for f in flags)[:5000]
             status = "flagged" if flags else "stored"
-            result = _result_json(
+            result = result_json(
                 inspection, status, flags, evals, found, wo, unit_system=getattr(user, "unit_system", "si")
             )
             inspection.sync_result = result
@@ -384,18 +251,6 @@ def _first_stored(form: object) -> Inspection | None:
     return Inspection.objects.filter(client_uuid=key).first() if key is not None else None
 
 
-def _failed_result(form: object) -> dict[str, Any]:
-    """A form the server could not handle (a defect, logged): kept on the phone and sent again later."""
-    raw_id = form.get("client_uuid") if isinstance(form, dict) else None
-    errors = Errors()
-    errors.add("form", "the server could not store this form just now; it stays on the phone and is sent again")
-    return {
-        **refused_result(None, errors),  # the same empty answer, with its own status
-        "client_uuid": raw_id if isinstance(raw_id, str) and len(raw_id) <= 36 else None,
-        "status": "error",
-    }
-
-
 def inspection_sync(*, user: User, forms: object, sent_at: object = None) -> list[dict[str, Any]]:
     """One result per form, in order. Each form is stored whole or not at all and never holds back the others.
 
@@ -430,15 +285,15 @@ def inspection_sync(*, user: User, forms: object, sent_at: object = None) -> lis
                         out.append(duplicate_result(first, user=user))
                         continue
                     logger.exception("sync: one form failed in the database")
-                    out.append(_failed_result(form))
+                    out.append(failed_result(form))
                 except DatabaseError as exc:
                     if not isinstance(exc, DataError):
                         raise
                     logger.exception("sync: one form failed in the database")
-                    out.append(_failed_result(form))
+                    out.append(failed_result(form))
                 except Exception:
                     logger.exception("sync: one form failed")
-                    out.append(_failed_result(form))
+                    out.append(failed_result(form))
     except BaseException:  # the batch is rolled back whole: so are the files of its forms stored so far
         _files_delete(batch.written if batch is not None else [])
         raise

@@ -161,7 +161,7 @@ def test_a_form_cut_off_after_moving_its_work_order_leaves_no_move_and_no_audit(
     tech, forms = _batch()
     third = WorkOrder.objects.get(public_id=forms[2]["work_order"])
     forms.append(filter_form(third))  # the same visit sent again under a new id, after the crash
-    real = sync_module._result_json
+    real = sync_module.result_json
     calls = {"n": 0}
 
     def flaky(*args, **kwargs):
@@ -170,7 +170,7 @@ def test_a_form_cut_off_after_moving_its_work_order_leaves_no_move_and_no_audit(
             raise RuntimeError("worker killed mid-form")
         return real(*args, **kwargs)
 
-    monkeypatch.setattr(sync_module, "_result_json", flaky)
+    monkeypatch.setattr(sync_module, "result_json", flaky)
     results = inspection_sync(user=tech, forms=forms)
     assert [r["status"] for r in results] == ["stored", "stored", "error", "stored", "stored", "stored"]
     third.refresh_from_db()
