@@ -1,11 +1,9 @@
 """Every compliance figure of some sites in one pass: ``compliance_figures``, and the figures' today.
 
-Overdue now: Open work orders (planned, assigned, in progress), of any kind, whose
-deadline is before the date of ``as_of``. The deadline of a work order is
-the last day of its grace window: the day before the scheduler's
-``overdue_on`` (its first overdue day) when set, else ``due_date`` plus the
-smallest grace of its tasks (0 without tasks). The board, the escalation
-e-mails and these figures therefore call the same day overdue.
+Overdue now: open work orders (planned, assigned, in progress), of any kind, overdue on their site's date at
+``as_of`` (``WorkOrder.is_overdue_on``), since their first overdue day (``WorkOrder.overdue_from``) and for the days
+``scheduling.lateness.days_overdue`` counts from it. The board, the escalation e-mails, the work order pages and these
+figures therefore call the same day overdue and count the same days.
 """
 
 from __future__ import annotations
@@ -13,9 +11,9 @@ from __future__ import annotations
 import zoneinfo
 from collections.abc import Iterable
 from dataclasses import dataclass, field
-from datetime import date, datetime, timedelta
+from datetime import date, datetime
 
-from django.db.models import Min, Q
+from django.db.models import Q
 
 from inspections.models import Finding, finding_age_days
 from inventory.models import AHU, Site
@@ -132,27 +130,15 @@ def compliance_figures(*, site_ids: list[int], start: date, end: date, as_of: da
         WorkOrder.objects.filter(
             ahu__building__site_id__in=site_ids, state__in=WorkOrder.OPEN_STATES, due_date__lte=report_day
         )
-        .annotate(min_grace=Min("tasks__task__grace_days"))
         .select_related("ahu__building__site", "assignee")
         .order_by("due_date", "ahu__building__site__name", "ahu__tag", "pk")
     )
     for wo in open_orders:
-        if wo.overdue_on is not None:
-            deadline = wo.overdue_on - timedelta(days=1)
-        else:
-            deadline = wo.due_date + timedelta(days=wo.min_grace or 0)
         today = today_of[wo.ahu.building.site_id]
-        if deadline < today:
+        since = wo.overdue_from
+        if since is not None and wo.is_overdue_on(today):
             # Counted from the first day past the grace, as every page says it (scheduling.lateness).
-            since = deadline + timedelta(days=1)
-            overdue.append(
-                {
-                    "work_order": wo,
-                    "deadline": deadline,
-                    "since": since,
-                    "days_overdue": days_overdue(since=since, today=today),
-                }
-            )
+            overdue.append({"work_order": wo, "since": since, "days_overdue": days_overdue(since=since, today=today)})
 
     matrix = {sev: {label: 0 for _, _, label in AGE_BUCKETS} for sev in SEVERITIES}
     findings_total = 0

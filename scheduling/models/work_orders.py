@@ -12,7 +12,7 @@ from accounts.models import Organisation
 from inventory.models import AHU, Component
 from inventory.today import today_for
 
-from ..lateness import days_overdue, overdue_words
+from ..lateness import overdue_words
 from .tasks import TaskDefinition
 
 
@@ -142,13 +142,6 @@ class WorkOrder(models.Model):
             return None
         after_due = self.due_date + dt.timedelta(days=1)
         return max(self.overdue_on, after_due) if self.overdue_on else after_due
-
-    def days_overdue_on(self, today: dt.date) -> int:
-        """Whole days from :attr:`overdue_from` to ``today`` (``scheduling.lateness.days_overdue``: 0 on that first
-        overdue day); 0 when not overdue."""
-        if not self.is_overdue_on(today) or self.overdue_from is None:
-            return 0
-        return days_overdue(since=self.overdue_from, today=today)
 
     def due_words_on(self, today: dt.date) -> str:
         """The due date as every page says it, on ``today`` (the site's date): "due 4 Sep 2026"; past due but

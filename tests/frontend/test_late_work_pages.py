@@ -15,6 +15,7 @@ from django.utils.html import escape
 from accounts.models import Role
 from inspections import cautions
 from inspections.selectors import repair_cautions
+from scheduling.lateness import days_overdue
 from scheduling.models import WorkOrder
 from tests.factories.accounts import make_person
 from tests.frontend.test_automation_pages import stuck_damper_world
@@ -146,7 +147,9 @@ def test_the_due_words_count_from_the_grace_window():
         (dt.date(2026, 12, 1), dt.date(2026, 12, 3), 1),
     ):
         late = WorkOrder(due_date=due, overdue_on=since, state="assigned")
-        assert late.days_overdue_on(dt.date(2026, 12, 4)) == (dt.date(2026, 12, 4) - since).days == days
+        today = dt.date(2026, 12, 4)
+        assert late.is_overdue_on(today) and late.overdue_from == since
+        assert days_overdue(since=late.overdue_from, today=today) == (today - since).days == days
 
 
 # Amsterdam leaves summer time on Sunday 25 October 2026 (EU rule: last Sunday of October, common practice).

@@ -15,7 +15,7 @@ from PIL import Image
 
 from inspections.models import Amendment, Evaluation, Finding, Inspection, Photo, Reading
 from inspections.services.findings import problem_of
-from scheduling.models import TaskDefinition, WorkOrder
+from scheduling.models import TaskDefinition, WorkOrder, overdue_day
 from scheduling.services.library import task_library_install
 from tests.factories.scheduling import add_task
 
@@ -41,8 +41,10 @@ def preventive(
     component=None,
     **wo_fields,
 ) -> WorkOrder:
-    """A preventive visit with one task occurrence; ``done`` completes both on that day."""
+    """A preventive visit with one task occurrence; ``done`` completes both on that day. Its first overdue day is
+    the scheduler's (``overdue_day`` of the due date and the task's grace) unless ``overdue_on`` is given."""
     done_at = at(done) if done else None
+    wo_fields.setdefault("overdue_on", overdue_day(dt.date.fromisoformat(due), task.grace_days))
     wo = WorkOrder.objects.create(
         organisation=ahu.building.site.organisation,
         ahu=ahu,
