@@ -43,17 +43,17 @@ from dataclasses import dataclass
 
 from inventory.models import AHU
 
-from .demo_points import _points
+from .demo_points import unit_points
 from .demo_values import (
     FREEZE_NIGHT,
     HEALTHY_DAYS,
     JUDGE_DAYS,
     SEEDED,
     YEAR_DAYS,
-    _key,
-    _outdoor,
-    _unit_values,
     freeze_night,
+    outdoor_days,
+    unit_key,
+    unit_values,
 )
 from .models import Point, TrendDay
 
@@ -90,19 +90,19 @@ def demo_trends_load(*, organisation, today: dt.date) -> DemoTrends:
     ranges: dict[int, tuple[object, set[tuple[dt.date, dt.date]]]] = {}
     for ahu in units:
         site = ahu.building.site
-        fault = SEEDED.get(_key(ahu))
+        fault = SEEDED.get(unit_key(ahu))
         span = YEAR_DAYS if fault else HEALTHY_DAYS
         days = [today - dt.timedelta(days=k) for k in range(span, 0, -1)]
         with transaction.atomic():
-            points, created = _points(ahu)
+            points, created = unit_points(ahu)
         summary.units += 1
         summary.points_created += created
         tz = zoneinfo.ZoneInfo(site.time_zone or "UTC")
         first_utc = dt.datetime.combine(days[0], dt.time(), tzinfo=tz).astimezone(dt.UTC).date()
         last_utc = dt.datetime.combine(days[-1], dt.time(23, 45), tzinfo=tz).astimezone(dt.UTC).date()
         if not _stored_through(points, first_utc, last_utc):
-            samples = _unit_values(
-                ahu=ahu, points=points, days=days, outdoor=_outdoor(site, days), today=today, fault=fault
+            samples = unit_values(
+                ahu=ahu, points=points, days=days, outdoor=outdoor_days(site, days), today=today, fault=fault
             )
             with transaction.atomic():
                 summary.values += trend_samples_store(samples).values

@@ -32,7 +32,7 @@ def _object_type(brick_class: str) -> str:
     return BacnetObjectType.ANALOG_INPUT
 
 
-def _points(ahu: AHU) -> tuple[dict[str, Point], int]:
+def unit_points(ahu: AHU) -> tuple[dict[str, Point], int]:
     """The unit's demo points by job (created once through the point service)."""
     parts = list(ahu.components.filter(retired_on__isnull=True).order_by("position", "pk"))
     sensors = [c for c in parts if c.kind == "sensor"]

@@ -39,7 +39,7 @@ def _seed(*parts: object) -> int:
     return int.from_bytes(hashlib.sha256(":".join(map(str, parts)).encode()).digest()[:8], "big")
 
 
-def _key(ahu: AHU) -> tuple[str, str, str]:
+def unit_key(ahu: AHU) -> tuple[str, str, str]:
     return (ahu.building.site.code, ahu.building.code, ahu.tag)
 
 
@@ -54,7 +54,7 @@ def _day_times(tz: zoneinfo.ZoneInfo, day: dt.date) -> tuple[np.ndarray, np.ndar
     return secs, hours
 
 
-def _outdoor(site, days: list[dt.date]) -> dict[dt.date, tuple[float, float]]:
+def outdoor_days(site, days: list[dt.date]) -> dict[dt.date, tuple[float, float]]:
     lows = dict(daily_values_from_normals(monthly_c=site.normals_min_c, start=days[0], days=len(days)))
     highs = dict(daily_values_from_normals(monthly_c=site.normals_max_c, start=days[0], days=len(days)))
     out = {}
@@ -90,7 +90,7 @@ def _filter_loading(changes: list[dt.datetime], t: np.ndarray, *, loaded: bool, 
     return out
 
 
-def _unit_values(
+def unit_values(
     *,
     ahu: AHU,
     points: dict[str, Point],
@@ -106,7 +106,7 @@ def _unit_values(
     sp = float(ahu.supply_air_setpoint_c or 17.0)
     f_min = float(ahu.design_min_oa_fraction)
     full_oa = bool(ahu.full_outdoor_air)
-    all_day = _key(ahu) in ALL_DAY_UNITS
+    all_day = unit_key(ahu) in ALL_DAY_UNITS
     today_s = dt.datetime.combine(today, dt.time(), tzinfo=tz).timestamp()
     night = freeze_night(site, today) if fault == FREEZE_NIGHT else None
     secs_all, cols = [], {job: [] for job in points}

@@ -7,7 +7,7 @@ import math
 from collections.abc import Iterable
 from typing import Any
 
-from engineering.errors import EngineeringInputError, _fmt
+from engineering.errors import EngineeringInputError, value_text
 
 # Plausibility bands (SI). Wider values are refused rather than computed,
 # because a typo (a °F value typed as °C, kPa typed as Pa) is far more likely
@@ -19,7 +19,7 @@ CO2_PPM = (0.0, 50_000.0)
 
 
 def fmt(value: float) -> str:
-    return _fmt(value)
+    return value_text(value)
 
 
 def finite(name: str, value: object, label: str = "", unit: str = "") -> float:

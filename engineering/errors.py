@@ -54,7 +54,7 @@ class EngineeringInputError(ValueError):
         self.unit = unit
         self.parts = list(parts or [])
         if message is None:
-            message = f"{field}={_fmt(value)} is outside {allowed}"
+            message = f"{field}={value_text(value)} is outside {allowed}"
         super().__init__(message)
 
     @property
@@ -71,7 +71,7 @@ class InsufficientDataError(EngineeringInputError):
     """Too few usable data points, or a trend with no usable slope."""
 
 
-def _fmt(value: object) -> str:
+def value_text(value: object) -> str:
     if isinstance(value, float):
         return f"{value:g}"
     return str(value)

@@ -112,10 +112,10 @@ def _median(sorted_values: list[float]) -> float:
 def days_since(when: date | datetime, origin: date | datetime) -> float:
     """Days from origin to when, fractional for datetimes; mixing a date with
     a datetime treats the date as its midnight."""
-    return (_as_datetime(when) - _as_datetime(origin)).total_seconds() / 86_400.0
+    return (as_datetime(when) - as_datetime(origin)).total_seconds() / 86_400.0
 
 
-def _as_datetime(d: date | datetime) -> datetime:
+def as_datetime(d: date | datetime) -> datetime:
     if isinstance(d, datetime):
         return d.replace(tzinfo=None) if d.tzinfo is None else d
     return datetime(d.year, d.month, d.day)
@@ -135,5 +135,5 @@ def run_hours_per_day(*, readings: Sequence[tuple[date | datetime, float]]) -> R
             message=f"a run-hour rate needs at least 2 readings; got {len(readings)}",
             low=2,
         )
-    origin = min((r[0] for r in readings), key=_as_datetime)
+    origin = min((r[0] for r in readings), key=as_datetime)
     return robust_rate(points=[(days_since(when, origin), h) for when, h in readings])

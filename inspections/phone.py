@@ -124,7 +124,7 @@ def _requirement(need) -> dict[str, Any] | None:
         "vou_m3s": need.vou_m3s,
         "ev": need.ev,
         "method": need.method,
-        "words": ventilation_checks._requirement_words(need),
+        "words": ventilation_checks.requirement_words(need),
     }
 
 

@@ -1,7 +1,7 @@
 """Which run-hour meter a runtime task's due date was projected from, in words for the reader.
 
 The engine dates a runtime task by the fan meter the building-automation trends feed while it is current, else by
-the unit's typed meter (``engine._Meters.basis_for``), and names the trend basis in the occurrence key:
+the unit's typed meter (``engine.Meters.basis_for``), and names the trend basis in the occurrence key:
 ``h:<reset>:<target>`` on the typed meter, ``h:<reset>:<target>:fan<id>`` on the trend-fed meter of fan ``<id>``.
 ``basis_words`` is the one phrase for it — "from the supply fan's run-hours in the building-automation trends (last
 reading 2 Dec)" or "from the unit's typed run-hour meter" — and ``due_bases`` says it for many work orders at once.
@@ -71,7 +71,7 @@ def due_bases(*, work_order_ids: list[int], today: dt.date) -> dict[int, str]:
     for the work orders holding a run-hour task; four queries whatever their number.
 
     A key without the trend tag was projected on the typed basis, which the engine takes as the unit's own meter,
-    else its fans' (supply first: ``engine._Meters.meter_for``): when that is a fan meter the trends feed (its
+    else its fans' (supply first: ``engine.Meters.meter_for``): when that is a fan meter the trends feed (its
     latest reading from them), the date came from the trends all the same, and is said so."""
     from inventory.models import Component
 

@@ -10,7 +10,7 @@ from engineering import _validate as v
 from engineering.controls import Verdict
 from engineering.errors import EngineeringInputError
 
-from .fluids import FLUIDS, GLYCOLS, _fluid_range, fluid_properties
+from .fluids import FLUIDS, GLYCOLS, fluid_properties, fluid_range
 
 __all__ = ["CoilBalance", "coil_balance", "water_side_heat_w"]
 
@@ -44,7 +44,7 @@ def water_side_heat_w(
     else:
         q = v.in_range("flow_l_s", flow_l_s, 0.0, 1000.0, unit="L/s", label="fluid flow") / 1000.0
     name = v.choice("fluid", fluid, [*FLUIDS, *GLYCOLS])
-    lo, hi = _fluid_range(name, glycol_pct)
+    lo, hi = fluid_range(name, glycol_pct)
     label = name.replace("_", " ")
     if name in GLYCOLS:
         label = f"{v.fmt(glycol_pct or 0.0)} % {label}"

@@ -219,7 +219,7 @@ def _glycol_pct(kind: str, glycol_pct: object) -> float:
     )
 
 
-def _fluid_range(fluid: str, glycol_pct: float | None = None) -> tuple[float, float]:
+def fluid_range(fluid: str, glycol_pct: float | None = None) -> tuple[float, float]:
     """Temperature range (°C) a fluid's properties are known over."""
     if fluid not in GLYCOLS:
         rows = FLUIDS[fluid]
@@ -263,7 +263,7 @@ def fluid_properties(*, fluid: str, temperature_c: float, glycol_pct: float | No
     name = v.choice("fluid", fluid, [*FLUIDS, *GLYCOLS])
     if name in GLYCOLS:
         pct = _glycol_pct(name, glycol_pct)
-        lo, hi = _fluid_range(name, pct)
+        lo, hi = fluid_range(name, pct)
         t = v.in_range(
             "temperature_c", temperature_c, lo, hi, unit="°C", label=f"{pct:g} % {name.replace('_', ' ')} temperature"
         )

@@ -8,7 +8,7 @@ from dataclasses import dataclass
 from engineering import _validate as v
 from engineering.errors import EngineeringInputError
 
-from .loading import FILTER_DP_PA, _dp
+from .loading import FILTER_DP_PA, pressure_drop_input
 
 __all__ = ["EconomicChangePoint", "FilterEnergy", "economic_change_point", "filter_extra_energy"]
 
@@ -38,7 +38,7 @@ def filter_extra_energy(
     rating (from memory). η is fan × motor × drive efficiency.
     """
     q = v.in_range("airflow_m3s", airflow_m3s, 0.0, 100.0, unit="m³/s", label="airflow")
-    clean = _dp("clean_dp_pa", clean_dp_pa, "clean filter pressure drop")
+    clean = pressure_drop_input("clean_dp_pa", clean_dp_pa, "clean filter pressure drop")
     final = v.in_range(
         "final_dp_pa", final_dp_pa, clean, FILTER_DP_PA[1], unit="Pa", label="final filter pressure drop"
     )
@@ -96,7 +96,7 @@ def economic_change_point(
             message="give both clean_dp_pa and final_dp_pa, or neither",
         )
     if clean_dp_pa is not None and final_dp_pa is not None:
-        clean = _dp("clean_dp_pa", clean_dp_pa, "clean filter pressure drop")
+        clean = pressure_drop_input("clean_dp_pa", clean_dp_pa, "clean filter pressure drop")
         final = v.in_range(
             "final_dp_pa",
             final_dp_pa,

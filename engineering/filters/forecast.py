@@ -8,9 +8,9 @@ from datetime import date, datetime, timedelta
 
 from engineering import _validate as v
 from engineering.errors import EngineeringInputError, InsufficientDataError
-from engineering.trends import _as_datetime, robust_rate, run_hours_per_day
+from engineering.trends import as_datetime, robust_rate, run_hours_per_day
 
-from .loading import AIRFLOW_RATIO, DEFAULT_EXPONENT, _dp, _exponent, corrected_pressure_drop
+from .loading import AIRFLOW_RATIO, DEFAULT_EXPONENT, corrected_pressure_drop, exponent_input, pressure_drop_input
 
 __all__ = ["FilterForecast", "FilterPoint", "filter_forecast"]
 
@@ -75,8 +75,8 @@ def filter_forecast(
     ``at_final_now`` is set and every date is the last reading's, even if
     the fitted line is still below the final value or no run-hour rate is known.
     """
-    final = _dp("final_dp_pa", final_dp_pa, "final filter pressure drop")
-    n = _exponent(exponent)
+    final = pressure_drop_input("final_dp_pa", final_dp_pa, "final filter pressure drop")
+    n = exponent_input(exponent)
     min_rise = v.non_negative("min_rise_pa", min_rise_pa, unit="Pa")
     hpd = (
         None
@@ -155,7 +155,7 @@ def filter_forecast(
         except InsufficientDataError:
             hpd = None
 
-    latest = max(_as_datetime(w) for _, _, w in usable)
+    latest = max(as_datetime(w) for _, _, w in usable)
 
     def to_date(h: float | None) -> date | datetime | None:
         if h is None:
@@ -167,7 +167,7 @@ def filter_forecast(
             return None
         # Never before the reading the forecast comes from (nor any reading given).
         try:
-            dt = max(_as_datetime(last_when) + timedelta(days=max(h - last_h, 0.0) / hpd), latest)
+            dt = max(as_datetime(last_when) + timedelta(days=max(h - last_h, 0.0) / hpd), latest)
             if isinstance(last_when, datetime):
                 return dt
             return (dt + timedelta(hours=12)).date()  # nearest whole day

@@ -65,11 +65,11 @@ AFTER_CHANGE_TOLERANCE = 0.2
 AFTER_CHANGE_HIGH_FAIL = 1.5
 
 
-def _exponent(value: object) -> float:
+def exponent_input(value: object) -> float:
     return v.in_range("exponent", value, 1.0, 2.0, label="pressure-drop exponent")
 
 
-def _dp(name: str, value: object, label: str = "filter pressure drop") -> float:
+def pressure_drop_input(name: str, value: object, label: str = "filter pressure drop") -> float:
     return v.in_range(name, value, *FILTER_DP_PA, unit="Pa", label=label)
 
 
@@ -119,8 +119,8 @@ def corrected_pressure_drop(
     flow, n = 1, and the square law, n = 2; common practice). Readings taken
     outside 0.5–1.5 × design airflow are refused.
     """
-    dp = _dp("dp_pa", dp_pa)
-    n = _exponent(exponent)
+    dp = pressure_drop_input("dp_pa", dp_pa)
+    n = exponent_input(exponent)
     r = _ratio(airflow_m3s, design_airflow_m3s)
     return float(dp * r ** (-n))
 
@@ -135,7 +135,7 @@ def corrected_pressure_drops(
     """``corrected_pressure_drop`` of many readings at once (a trend's samples): NaN for each reading it would
     refuse (not a finite number, a pressure drop outside its range, an airflow not above 0 or outside 0.5–1.5 ×
     design). A design airflow or an exponent it would refuse is refused here, as for every reading."""
-    n = _exponent(exponent)
+    n = exponent_input(exponent)
     qd = v.in_range(
         "design_airflow_m3s", design_airflow_m3s, 0.0, 100.0, unit="m³/s", label="design airflow", low_open=True
     )
@@ -205,8 +205,8 @@ def filter_loading(
         design_airflow_m3s=design_airflow_m3s,
         exponent=exponent,
     )
-    clean = _dp("clean_dp_pa", clean_dp_pa, "clean filter pressure drop")
-    final = _dp("final_dp_pa", final_dp_pa, "final filter pressure drop")
+    clean = pressure_drop_input("clean_dp_pa", clean_dp_pa, "clean filter pressure drop")
+    final = pressure_drop_input("final_dp_pa", final_dp_pa, "final filter pressure drop")
     if final <= clean:
         raise EngineeringInputError(
             field="final_dp_pa",

@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 import re
 
-from .words import DERIVED, DERIVED_HIDDEN, _date, _shown, derived_rows, loading_words, plain_message
+from .words import DERIVED, DERIVED_HIDDEN, date_words, derived_rows, loading_words, plain_message, shown_words
 
 # Yes/no values as whole sentences (shown when true).
 FLAG_SENTENCES = {
@@ -53,7 +53,7 @@ def _filter_sentences(d: dict, system: str) -> list[str]:
     def shown(key: str) -> str:
         if key not in d or d[key] is None:
             return ""
-        return _shown(d[key], DERIVED[key][1], system, "")
+        return shown_words(d[key], DERIVED[key][1], system, "")
 
     out = []
     dp, airflow, source = shown("dp_pa"), shown("airflow_m3s"), shown("airflow_source")
@@ -93,13 +93,13 @@ def _source_words(source: str) -> str:
 
 
 def _forecast_sentence(d: dict, system: str) -> str:
-    date = _date(d["forecast_change_date"]) if d.get("forecast_change_date") else ""
-    early = _date(d["forecast_earliest_date"]) if d.get("forecast_earliest_date") else ""
-    late = _date(d["forecast_latest_date"]) if d.get("forecast_latest_date") else ""
+    date = date_words(d["forecast_change_date"]) if d.get("forecast_change_date") else ""
+    early = date_words(d["forecast_earliest_date"]) if d.get("forecast_earliest_date") else ""
+    late = date_words(d["forecast_latest_date"]) if d.get("forecast_latest_date") else ""
     hours = d.get("forecast_run_hours")
     at = ""
     if isinstance(hours, int | float) and not isinstance(hours, bool) and math.isfinite(hours):
-        at = _shown(hours, "run_hours", system, "")
+        at = shown_words(hours, "run_hours", system, "")
     if not (date or at):
         return ""
     text = "Filter change forecast " + (date or f"at {at} on the run-hour meter")

@@ -184,7 +184,7 @@ DRIFT_QUANTITIES = {
 _FORECAST_DATES = {"forecast_change_date", "forecast_earliest_date", "forecast_latest_date"}
 
 
-def _date(value: str) -> str:
+def date_words(value: str) -> str:
     try:
         d = dt.date.fromisoformat(str(value)[:10])
     except ValueError:
@@ -206,13 +206,13 @@ def _minus(text: str) -> str:
     return text.replace("-", "−")
 
 
-def _shown(value: Any, how: Any, system: str, item: str) -> str:
+def shown_words(value: Any, how: Any, system: str, item: str) -> str:
     if isinstance(how, dict):
         return how.get(value, "") if isinstance(value, str) else ""
     if how in ("words", "message"):
         return plain_message(value) if isinstance(value, str) else ""
     if how == "date":
-        return _date(value)
+        return date_words(value)
     if isinstance(value, bool) or not isinstance(value, int | float) or not math.isfinite(value):
         return ""  # a number stored before the input policy may be NaN or infinite: nothing to read
     if how == "fraction":
@@ -276,7 +276,7 @@ def derived_rows(derived: dict, system: str, *, item: str = "") -> list[tuple[st
         if key not in DERIVED:
             continue
         label, how = DERIVED[key]
-        text = _shown(value, how, system, item)
+        text = shown_words(value, how, system, item)
         if text:
             out.append((label, text))
     return out

@@ -61,7 +61,7 @@ def space_label(ahu) -> str:
     return kind.label.lower() if kind is not None else "the space served"
 
 
-def _requirement_words(need: ventilation.OutdoorAirIntake) -> str:
+def requirement_words(need: ventilation.OutdoorAirIntake) -> str:
     """How the requirement was found, in plain words with its numbers (Ez, D, Ev)."""
     if need.system == "multi_zone":
         ev = f"system ventilation efficiency {need.ev:.2f}" + (
@@ -188,7 +188,7 @@ def _judge_oa_fraction(
         parts += [
             "; the space needs ",
             qty(required_q, "airflow"),
-            f" = {need * 100:.0f} % of the supply air for {space_label(ahu)} ({_requirement_words(need_vr)}, "
+            f" = {need * 100:.0f} % of the supply air for {space_label(ahu)} ({requirement_words(need_vr)}, "
             f"ASHRAE 62.1 ventilation rate procedure): {REQUIREMENT_WORDS[req.verdict.value]}",
         ]
         if res.derived["design_shortfall"]:
@@ -275,7 +275,7 @@ def full_oa_checks(form: Form, consumed: set) -> list[Result]:
         parts += [
             "; the space needs ",
             qty(need.vot_m3s, "airflow"),
-            f" for {space_label(ahu)} ({_requirement_words(need)}, ASHRAE 62.1 ventilation rate procedure): "
+            f" for {space_label(ahu)} ({requirement_words(need)}, ASHRAE 62.1 ventilation rate procedure): "
             f"{REQUIREMENT_WORDS[req_verdict]}",
         ]
         if need.vot_m3s > design:

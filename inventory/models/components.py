@@ -8,7 +8,7 @@ from django.urls import reverse
 
 from ..specs import SPECS, SpecErrors, validate_specs
 from .codes import new_component_code
-from .units import AHU, _today_at
+from .units import AHU, today_at
 
 
 class ComponentKind(models.TextChoices):
@@ -52,7 +52,7 @@ class Component(models.Model):
     def clean(self) -> None:
         from ..inputs import COMPONENT_TEXTS, component_date_problems, text_field_problems
 
-        errors: dict = dict(component_date_problems(self, today=_today_at(self, "ahu__building__site")))
+        errors: dict = dict(component_date_problems(self, today=today_at(self, "ahu__building__site")))
         errors.update(text_field_problems(self, texts=COMPONENT_TEXTS))
         try:
             self.specs = validate_specs(kind=self.kind, specs=self.specs)

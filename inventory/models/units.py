@@ -28,7 +28,7 @@ class VentilationZones(models.TextChoices):
     MULTI = "multi_zone", "Several zones with recirculated air"
 
 
-def _today_at(obj: models.Model, path: str) -> dt.date:
+def today_at(obj: models.Model, path: str) -> dt.date:
     """Today at the site ``obj`` belongs to (``path``: the relations to it), by ``inventory.today``: the day its
     dates are judged on. A record not filed under a site yet (a form or a file row naming none) has no other
     day to go by than the server's."""
@@ -177,7 +177,7 @@ class AHU(models.Model):
 
         own = {"occupant_diversity", "system_ventilation_efficiency"}
         problems = {}
-        for name, message in ahu_problems(self, today=_today_at(self, "building__site")).items():
+        for name, message in ahu_problems(self, today=today_at(self, "building__site")).items():
             value = getattr(self, name)
             if name in own or (
                 isinstance(value, int | float) and math.isfinite(value) and _refused_by_field(self, name)

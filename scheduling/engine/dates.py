@@ -45,5 +45,5 @@ def calendar_occurrences(*, anchor: dt.date, value: int, unit: str, start: dt.da
         k += 1
 
 
-def _local(when: dt.datetime, tz: zoneinfo.ZoneInfo) -> dt.date:
+def local_date(when: dt.datetime, tz: zoneinfo.ZoneInfo) -> dt.date:
     return when.astimezone(tz).date()

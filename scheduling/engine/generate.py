@@ -21,10 +21,10 @@ from ..inputs import unit_problem
 from ..models import TaskDefinition, UnitTaskSetting, WorkOrder, WorkOrderTask
 from ..selectors import effective_tasks, unit_rule_numbers
 from ..services.seasons import season_key, season_starts_for_sites
-from .meters import METER_HISTORY_DAYS, _Meters
-from .occurrences import _occurrences, _Rules, _SiteDay
-from .rows import MOVABLE_STATES, GenerationResult, Trigger, _Occ, _units
-from .writes import _basis_tag, _write_moves, _write_new
+from .meters import METER_HISTORY_DAYS, Meters
+from .occurrences import Rules, SiteDay, unit_occurrences
+from .rows import MOVABLE_STATES, GenerationResult, Occ, Trigger, unit_rows
+from .writes import basis_tag, write_moves, write_new
 
 BUNDLE_DAYS = 14
 
@@ -51,7 +51,7 @@ def work_orders_generate(
     result = GenerationResult()
     if not tasks:
         return result
-    units, sites = _units(ahus_qs)
+    units, sites = unit_rows(ahus_qs)
     if not units:
         return result
     ahu_ids = ahus_qs.values("pk")
@@ -64,15 +64,15 @@ def work_orders_generate(
         .values("ahu_id", "task_code", "component_key")
         .annotate(last=Max("completed_at"))
     }
-    meters = _Meters(ahu_ids, now)
+    meters = Meters(ahu_ids, now)
     zones = {pk: zoneinfo.ZoneInfo(s.time_zone) for pk, s in sites.items()}
     local_today = {pk: today or today_for(s, now=now) for pk, s in sites.items()}
     starts = season_starts_for_sites(sites=sites.values(), today_by_site=local_today)
-    days: dict[int, _SiteDay] = {}
+    days: dict[int, SiteDay] = {}
     for pk, s in sites.items():
         day = local_today[pk]
         freeze, cooling, _ = starts[pk]
-        days[pk] = _SiteDay(
+        days[pk] = SiteDay(
             tz=zones[pk],
             today=day,
             end=day + dt.timedelta(days=horizon_days),
@@ -82,8 +82,8 @@ def work_orders_generate(
             },
         )
 
-    rules = _Rules(tasks, result.skipped)
-    wanted: list[_Occ] = []
+    rules = Rules(tasks, result.skipped)
+    wanted: list[Occ] = []
     for unit in units:
         site_day = days[unit.site_id]
         where = f"{unit.tag} at {sites[unit.site_id].name}"
@@ -92,7 +92,7 @@ def work_orders_generate(
             result.skipped.append(f"{where}: {problem}")
             continue
         wanted.extend(
-            _occurrences(
+            unit_occurrences(
                 unit=unit,
                 site=site_day,
                 rules=rules,
@@ -131,9 +131,9 @@ def work_orders_generate(
     ):
         projected[(ahu_id, code, ck, key)] = (pk, due, wo_id)
         if done_at is None and key.startswith("h:"):
-            open_runtime[(ahu_id, code, ck)][_basis_tag(key)] = (pk, due, wo_id)
+            open_runtime[(ahu_id, code, ck)][basis_tag(key)] = (pk, due, wo_id)
 
-    new: list[_Occ] = []
+    new: list[Occ] = []
     candidates: list[tuple[int, dt.date, int, tuple]] = []
     for occ in wanted:
         if not occ.movable:
@@ -146,7 +146,7 @@ def work_orders_generate(
         if found is None and occ.key.startswith("h:"):
             # The run-hour basis changed (the trend-fed meter took over, or its trend stopped): the open occurrence
             # projected on the other basis moves to this one's key and date rather than being duplicated.
-            other = {t: f for t, f in open_runtime.get(occ.ident[:3], {}).items() if t != _basis_tag(occ.key)}
+            other = {t: f for t, f in open_runtime.get(occ.ident[:3], {}).items() if t != basis_tag(occ.key)}
             if other:
                 pk, due, wo_id = min(other.values(), key=lambda f: f[1])
                 candidates.append((pk, occ.due, wo_id, occ.ident))
@@ -177,11 +177,11 @@ def work_orders_generate(
 
     with transaction.atomic():
         audit: list[AuditEvent] = []
-        _write_new(
+        write_new(
             organisation=organisation, new=new, ahu_ids=ahu_ids, bundle_days=bundle_days, result=result, audit=audit
         )
         if moves:
-            _write_moves(moves, organisation=organisation, audit=audit)
+            write_moves(moves, organisation=organisation, audit=audit)
         AuditEvent.objects.bulk_create(audit, batch_size=1000)
         organisation_changed(organisation_id=organisation.pk)
     return result

@@ -15,7 +15,7 @@ from engineering.errors import EngineeringInputError
 from engineering.trends import run_hours_per_day
 
 from ..models import MeterReading
-from .rows import _plain_rows, _Unit
+from .rows import UnitRow, plain_rows
 
 RATE_WINDOW_DAYS = 120  # "recent" run-hour rate: readings of the last four months (common practice)
 RATE_MAX_READINGS = 20
@@ -41,7 +41,7 @@ def _rate_per_day(readings: tuple[tuple[dt.datetime, float], ...]) -> float | No
         return None
 
 
-class _Meters:
+class Meters:
     """Run-hour readings of the units, grouped per meter, since each meter's last reset."""
 
     def __init__(self, ahu_ids, now: dt.datetime):
@@ -59,7 +59,7 @@ class _Meters:
             .values_list("ahu_id", "component_id", "taken_text", "hours", "is_reset", "id", "source")
         )
         parse = dt.datetime.fromisoformat
-        for ahu_id, comp_id, taken_text, hours, is_reset, pk, source in _plain_rows(rows):
+        for ahu_id, comp_id, taken_text, hours, is_reset, pk, source in plain_rows(rows):
             taken_at = parse(taken_text)
             if taken_at.tzinfo is None:  # SQLite keeps naive UTC
                 taken_at = taken_at.replace(tzinfo=dt.UTC)
@@ -69,7 +69,7 @@ class _Meters:
             series.append((taken_at, hours, bool(is_reset), pk))
             self.source[(ahu_id, comp_id or 0)] = source
 
-    def meter_for(self, unit: _Unit) -> tuple[int, int] | None:
+    def meter_for(self, unit: UnitRow) -> tuple[int, int] | None:
         """The typed basis: the unit's own meter, else its (supply first) fan's."""
         if self.by_meter.get((unit.pk, 0)):
             return (unit.pk, 0)
@@ -79,10 +79,10 @@ class _Meters:
         return None
 
     @staticmethod
-    def _fans(unit: _Unit) -> list:
+    def _fans(unit: UnitRow) -> list:
         return sorted(unit.by_kind.get("fan", ()), key=lambda c: (c.specs.get("role") != "supply", c.pk))
 
-    def trend_meter_for(self, unit: _Unit) -> tuple[int, int] | None:
+    def trend_meter_for(self, unit: UnitRow) -> tuple[int, int] | None:
         """The fan meter the building-automation trend feeds (supply fan first), while it is current: its latest
         reading came from the trend at most ``TREND_METER_CURRENT_DAYS`` ago."""
         since = self.now - dt.timedelta(days=TREND_METER_CURRENT_DAYS)
@@ -93,7 +93,7 @@ class _Meters:
                 return meter
         return None
 
-    def basis_for(self, unit: _Unit, *, last_done: dt.datetime | None) -> tuple[tuple[int, int] | None, str]:
+    def basis_for(self, unit: UnitRow, *, last_done: dt.datetime | None) -> tuple[tuple[int, int] | None, str]:
         """(meter, why) a runtime task of ``unit`` last done at ``last_done`` is projected on.
 
         The trend-fed fan meter while it is current and reaches back to the task's last completion (a meter that

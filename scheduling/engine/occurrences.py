@@ -11,19 +11,19 @@ from ..models import TaskDefinition
 from ..selectors import task_for_unit
 from ..services.seasons import SEASON_LOOKBACK_DAYS
 from ..targets import TaskTargets
-from .dates import _local, add_interval, calendar_occurrences
-from .rows import Trigger, _Occ, _Unit
+from .dates import add_interval, calendar_occurrences, local_date
+from .rows import Occ, Trigger, UnitRow
 
 
 @dataclass(slots=True)
-class _SiteDay:
+class SiteDay:
     tz: zoneinfo.ZoneInfo
     today: dt.date
     end: dt.date
     seasons: dict[str, tuple[dt.date | None, str]]  # season -> (start, occurrence key)
 
 
-class _Rules:
+class Rules:
     """The organisation's generated tasks with what the loop needs of each, worked out once per run."""
 
     def __init__(self, tasks: list[TaskDefinition], skipped: list[str] | None = None):
@@ -48,25 +48,25 @@ class _Rules:
         return days
 
 
-def _occurrences(
+def unit_occurrences(
     *,
-    unit: _Unit,
-    site: _SiteDay,
-    rules: _Rules,
+    unit: UnitRow,
+    site: SiteDay,
+    rules: Rules,
     disabled,
     last_done,
     meters,
     skipped: list[str],
     where: str = "",
     own_numbers: dict | None = None,
-) -> list[_Occ]:
+) -> list[Occ]:
     """Every due occurrence of every (enabled) task on one unit within the site's horizon.
 
     A task whose dates cannot be worked out for this unit (date arithmetic past the calendar's end, from a
     row stored before the input policy) is left out and named in ``skipped``; the unit's other tasks stay.
     ``own_numbers`` ((unit id, code) -> numbers) are a unit's own interval, grace, lead time or run-hours,
     which hold for that unit instead of the organisation's (a unit's number out of bounds skips that rule)."""
-    out: list[_Occ] = []
+    out: list[Occ] = []
     meter = False  # not looked up yet
     for task, targets in rules.items:
         if (unit.pk, task.code) in disabled:
@@ -96,9 +96,9 @@ def _occurrences(
     return out
 
 
-def _task_occurrences(*, unit: _Unit, task, targets, site: _SiteDay, rules: _Rules, last_done, meters, meter):
+def _task_occurrences(*, unit: UnitRow, task, targets, site: SiteDay, rules: Rules, last_done, meters, meter):
     """The due occurrences of one task on one unit, and the unit's meter (looked up once, on first need)."""
-    out: list[_Occ] = []
+    out: list[Occ] = []
     today, end = site.today, site.end
     comps = targets.components_grouped(ahu=unit, components_by_kind=unit.by_kind, order=lambda c: c.position)
     if not comps:
@@ -109,15 +109,15 @@ def _task_occurrences(*, unit: _Unit, task, targets, site: _SiteDay, rules: _Rul
             for comp in comps:
                 ck = comp.pk if comp else 0
                 done = last_done.get((unit.pk, task.code, ck))
-                basis = _local(done, site.tz) if done else unit.anchor
+                basis = local_date(done, site.tz) if done else unit.anchor
                 due = max(add_interval(basis, task.interval_value, task.interval_unit), today)
                 if due <= end:
-                    out.append(_Occ(unit, task, ck, due, f"after:{basis.isoformat()}", False))
+                    out.append(Occ(unit, task, ck, due, f"after:{basis.isoformat()}", False))
         else:
             days = rules.grid(unit.anchor, task, today, end)
             for comp in comps:
                 ck = comp.pk if comp else 0
-                out.extend(_Occ(unit, task, ck, due, f"c:{due.isoformat()}", False) for due in days)
+                out.extend(Occ(unit, task, ck, due, f"c:{due.isoformat()}", False) for due in days)
     elif trigger == Trigger.RUNTIME:
         for comp in comps:
             ck = comp.pk if comp else 0
@@ -129,9 +129,9 @@ def _task_occurrences(*, unit: _Unit, task, targets, site: _SiteDay, rules: _Rul
             if proj is None:
                 continue
             key, when = proj
-            natural = _local(when, site.tz)
+            natural = local_date(when, site.tz)
             if natural <= end:
-                out.append(_Occ(unit, task, ck, max(natural, today), key, True, natural < today))
+                out.append(Occ(unit, task, ck, max(natural, today), key, True, natural < today))
     elif trigger == Trigger.SEASON:
         start, key = site.seasons.get(task.season, (None, ""))
         if start is None or start < today - dt.timedelta(days=SEASON_LOOKBACK_DAYS):
@@ -139,5 +139,5 @@ def _task_occurrences(*, unit: _Unit, task, targets, site: _SiteDay, rules: _Rul
         natural = start - dt.timedelta(days=task.lead_days or 0)
         if natural <= end:
             due, clamped = max(natural, today), natural < today
-            out.extend(_Occ(unit, task, comp.pk if comp else 0, due, key, True, clamped) for comp in comps)
+            out.extend(Occ(unit, task, comp.pk if comp else 0, due, key, True, clamped) for comp in comps)
     return out, meter

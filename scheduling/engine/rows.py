@@ -16,7 +16,7 @@ from django.db.models.functions import Cast
 from inventory.models import Component, Site
 
 from ..models import TaskDefinition, WorkOrder
-from .dates import _local
+from .dates import local_date
 
 MOVABLE_STATES = frozenset({WorkOrder.State.PLANNED, WorkOrder.State.ASSIGNED})
 Trigger = TaskDefinition.Trigger
@@ -53,7 +53,7 @@ class _Part:
 
 
 @dataclass(slots=True)
-class _Unit:
+class UnitRow:
     """An in-service AHU as the engine needs it."""
 
     pk: int
@@ -66,8 +66,8 @@ class _Unit:
 
 
 @dataclass(slots=True)
-class _Occ:
-    unit: _Unit
+class Occ:
+    unit: UnitRow
     task: TaskDefinition
     ck: int  # component id, 0 for the unit itself
     due: dt.date
@@ -80,7 +80,7 @@ class _Occ:
         return (self.unit.pk, self.task.code, self.ck, self.key)
 
 
-def _plain_rows(values_qs) -> list[tuple]:
+def plain_rows(values_qs) -> list[tuple]:
     """The rows of a ``values_list`` query as the database driver returns them, without Django's per-value
     converters: on the meter history (over 100,000 readings on a large portfolio) making each reading's time
     aware one by one took half the read. Callers make datetimes aware and booleans ``bool`` themselves."""
@@ -90,25 +90,25 @@ def _plain_rows(values_qs) -> list[tuple]:
         return cursor.fetchall()
 
 
-def _units(ahus_qs) -> tuple[list[_Unit], dict[int, Site]]:
+def unit_rows(ahus_qs) -> tuple[list[UnitRow], dict[int, Site]]:
     """Light rows of the in-service units and their components, plus the sites they are on (3 queries)."""
     rows = list(
         ahus_qs.values_list("pk", "tag", "building__site_id", "full_outdoor_air", "service_start", "created_at")
     )
     sites = {s.pk: s for s in Site.objects.filter(pk__in={r[2] for r in rows})}
-    units: dict[int, _Unit] = {}
+    units: dict[int, UnitRow] = {}
     zones: dict[int, zoneinfo.ZoneInfo] = {}
     for pk, tag, site_id, full_oa, service_start, created_at in rows:
         if site_id not in zones:
             zones[site_id] = zoneinfo.ZoneInfo(sites[site_id].time_zone)
-        units[pk] = _Unit(pk, tag, site_id, full_oa, service_start or _local(created_at, zones[site_id]))
+        units[pk] = UnitRow(pk, tag, site_id, full_oa, service_start or local_date(created_at, zones[site_id]))
     parts = (
         Component.objects.filter(ahu_id__in=ahus_qs.values("pk"), retired_on__isnull=True)  # retired: no new work
         .order_by("ahu_id", "position", "id")
         .annotate(specs_text=Cast("specs", TextField()))
         .values_list("ahu_id", "pk", "kind", "specs_text")
     )
-    for ahu_id, pk, kind, text in _plain_rows(parts):
+    for ahu_id, pk, kind, text in plain_rows(parts):
         unit = units.get(ahu_id)
         if unit is None:
             continue

@@ -13,7 +13,7 @@ from accounts.models import AuditEvent
 
 from ..models import TaskDefinition, WorkOrder, WorkOrderTask, overdue_day
 from ..titles import visit_title
-from .rows import MOVABLE_STATES, GenerationResult, _Occ
+from .rows import MOVABLE_STATES, GenerationResult, Occ
 
 _WO_LABEL = WorkOrder._meta.label_lower
 
@@ -40,8 +40,8 @@ def _audit_row(*, organisation, wo_id: int, action: str, changes: dict) -> Audit
     )
 
 
-def _write_new(
-    *, organisation, new: list[_Occ], ahu_ids, bundle_days: int, result: GenerationResult, audit: list
+def write_new(
+    *, organisation, new: list[Occ], ahu_ids, bundle_days: int, result: GenerationResult, audit: list
 ) -> None:
     """Bundle per unit: attach to an open visit within the window, else start a new visit; insert in bulk."""
     if not new:
@@ -52,8 +52,8 @@ def _write_new(
     ).values_list("id", "ahu_id", "due_date"):
         open_visits[ahu_id].append([wo_id, due, None])
     new.sort(key=lambda o: (o.unit.pk, o.due, o.task.code))
-    fresh: list[tuple[WorkOrder, list[_Occ]]] = []
-    attach: list[tuple[int, _Occ]] = []
+    fresh: list[tuple[WorkOrder, list[Occ]]] = []
+    attach: list[tuple[int, Occ]] = []
     for occ in new:
         visits = open_visits[occ.unit.pk]
         home = next((v for v in visits if abs((v[1] - occ.due).days) <= bundle_days), None)
@@ -79,7 +79,7 @@ def _write_new(
         wo.overdue_on = min(overdue_day(o.due, o.task.grace_days) for o in occs)
     WorkOrder.objects.bulk_create([wo for wo, _ in fresh], batch_size=1000)
 
-    def row(wo_id: int, o: _Occ) -> WorkOrderTask:
+    def row(wo_id: int, o: Occ) -> WorkOrderTask:
         return WorkOrderTask(
             work_order_id=wo_id,
             task_id=o.task.pk,
@@ -119,13 +119,13 @@ def _write_new(
         _join_visits(attach, organisation=organisation, audit=audit)
 
 
-def _join_visits(attach: list[tuple[int, _Occ]], *, organisation, audit: list) -> None:
+def _join_visits(attach: list[tuple[int, Occ]], *, organisation, audit: list) -> None:
     """Visits that new occurrences joined follow their tasks: earliest due date, earliest overdue day, title.
 
     Read back from the stored tasks, so a visit whose joined rows a concurrent run had already written
     ends up the same, and one that is already right is not touched (no version bump, no audit).
     """
-    joined: dict[int, list[_Occ]] = defaultdict(list)
+    joined: dict[int, list[Occ]] = defaultdict(list)
     for wo_id, occ in attach:
         joined[wo_id].append(occ)
     stored: dict[int, list[tuple[str, dt.date]]] = defaultdict(list)
@@ -166,13 +166,13 @@ def _join_visits(attach: list[tuple[int, _Occ]], *, organisation, audit: list) -
     WorkOrder.objects.bulk_update(changed, ["due_date", "overdue_on", "title", "version", "updated_at"])
 
 
-def _basis_tag(key: str) -> str:
+def basis_tag(key: str) -> str:
     """The run-hour basis an ``h:`` key was projected on: '' (the typed basis) or 'fan<id>' (a trend-fed meter)."""
     parts = key.split(":")
     return parts[3] if len(parts) > 3 else ""
 
 
-def _write_moves(moves: list[tuple[int, dt.date, int, tuple]], *, organisation, audit: list) -> None:
+def write_moves(moves: list[tuple[int, dt.date, int, tuple]], *, organisation, audit: list) -> None:
     """Move projected occurrences to their new dates (and keys, when a run-hour basis changed); each touched
     visit follows its first task."""
     task_rows = [WorkOrderTask(pk=pk, due_date=due, occurrence_key=ident[3]) for pk, due, _, ident in moves]

@@ -4,7 +4,7 @@ Tenancy always goes through inventory.selectors.
 ``rules`` (a unit's tasks and numbers), ``work_orders`` (which work a person sees, one by id), ``board`` (the board's
 rows and suggestions, work to verify), ``load`` (technicians' day loads), ``assignment`` (an assignment's effect on a
 day), ``today`` (a technician's day in route order), ``meters`` (the latest run-hour reading).
-``_day_load``, ``_least_loaded`` and ``_least_loaded_for`` are answered too: ``scheduling.services.assignment`` plans
+``day_load``, ``least_loaded`` and ``least_loaded_for`` are answered too: ``scheduling.services.assignment`` plans
 with them.
 """
 
@@ -26,11 +26,11 @@ from .load import (
     DayLoad,
     Visit_,
     WorkNeed,
-    _day_load,
-    _least_loaded,
-    _least_loaded_for,
     board_load_rows,
     capacity_on,
+    day_load,
+    least_loaded,
+    least_loaded_for,
     skills_needed,
     suggested_technicians,
     technician_day_loads,
@@ -52,16 +52,16 @@ __all__ = [
     "DayLoad",
     "Visit_",
     "WorkNeed",
-    "_day_load",
-    "_least_loaded",
-    "_least_loaded_for",
     "assignment_check",
     "board_load_rows",
     "board_page_for",
     "board_suggestions",
     "capacity_on",
+    "day_load",
     "effective_tasks",
     "latest_meter_reading",
+    "least_loaded",
+    "least_loaded_for",
     "offered_day",
     "skills_needed",
     "suggested_technicians",

@@ -10,7 +10,7 @@ from dataclasses import dataclass
 from inventory.today import today_for
 
 from ..models import WorkOrder
-from .load import DayLoad, _least_loaded, capacity_on, skills_needed, technician_day_loads, weekday_on_or_near
+from .load import DayLoad, capacity_on, least_loaded, skills_needed, technician_day_loads, weekday_on_or_near
 
 
 @dataclass(frozen=True)
@@ -76,7 +76,7 @@ def assignment_check(*, work_order: WorkOrder, technician, day: dt.date) -> Assi
     chosen = next((load for user, (load,) in loads if user.pk == technician.pk), None)
     if chosen is None:  # not a technician of the organisation: the service refuses it in its own words
         chosen = DayLoad(date=day, capacity_hours=capacity_on(technician, day))
-    suggestion = _least_loaded([(user, load) for user, (load,) in loads if needed <= set(user.skills or [])])
+    suggestion = least_loaded([(user, load) for user, (load,) in loads if needed <= set(user.skills or [])])
     return AssignmentCheck(
         technician=technician,
         day=day,

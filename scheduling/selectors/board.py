@@ -16,7 +16,7 @@ from .. import shapes
 from ..models import WorkOrder
 from .assignment import offered_day
 from .load import WorkNeed, suggested_technicians
-from .work_orders import _person, _planned_within
+from .work_orders import person_of, planned_within
 
 
 def _overdue(today: dt.date) -> Q:
@@ -25,11 +25,11 @@ def _overdue(today: dt.date) -> Q:
 
 
 def _on_week(week_start: dt.date, today: dt.date) -> Q:
-    """Work on the week starting ``week_start``: its day (:func:`_planned_within`) in the week; on the week
+    """Work on the week starting ``week_start``: its day (:func:`planned_within`) in the week; on the week
     holding ``today`` also open work whose day is already behind it (past due but still inside its grace
     window, or planned for a day gone by), so late work never drops off the board before it turns overdue."""
     week_end = week_start + dt.timedelta(days=7)
-    rows = _planned_within(week_start, week_end)
+    rows = planned_within(week_start, week_end)
     if week_start <= today < week_end:
         rows |= Q(scheduled_for__lt=week_start) | Q(scheduled_for__isnull=True, due_date__lt=week_start)
     return rows
@@ -47,7 +47,7 @@ def _board_section(*, week_start: dt.date, today: dt.date) -> Case:
     """The board's one rule, as SQL so counts and pages come from the database: overdue once past due
     and past the grace window (see :func:`_overdue`), whatever week it is planned for; else due (unassigned)
     or assigned in the week of its day: the day it is planned for, else the day it is due
-    (:func:`_planned_within`), work whose day is behind this week carried to the week of ``today``
+    (:func:`planned_within`), work whose day is behind this week carried to the week of ``today``
     (:func:`_on_week`); else NULL (on no section).
 
     :func:`board_page_for` (the board page and the board API alike) annotates with this; there is no
@@ -182,7 +182,7 @@ def board_suggestions(*, organisation, rows: list[dict]) -> list[dict]:
     picks = suggested_technicians(organisation=organisation, days=days)
     for r in rows:
         pick = picks.get(by_public.get(r["id"])) if r["assignee"] is None else None
-        r["suggested"] = None if pick is None else {**_person(pick[0]), "load": pick[1].as_dict()}
+        r["suggested"] = None if pick is None else {**person_of(pick[0]), "load": pick[1].as_dict()}
     return rows
 
 

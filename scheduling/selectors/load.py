@@ -13,8 +13,8 @@ from accounts.selectors import technicians_of
 
 from .. import routing
 from ..models import WorkOrder
-from .today import _route
-from .work_orders import _person, _planned_within
+from .today import route_legs
+from .work_orders import person_of, planned_within
 
 
 @dataclass(frozen=True)
@@ -61,7 +61,7 @@ def _route_km(points: dict[int, tuple[float, float]]) -> float:
     first site due, as the technician's today shows it (:func:`today_visits_for`)."""
     if len(points) < 2:
         return 0.0
-    return sum(leg for _, _, leg in _route(points=points, start=None))
+    return sum(leg for _, _, leg in route_legs(points=points, start=None))
 
 
 WEEKEND = (5, 6)  # Saturday, Sunday (date.weekday())
@@ -84,7 +84,7 @@ def weekday_on_or_near(day: dt.date, *, today: dt.date) -> dt.date:
     return friday if friday >= today else day + dt.timedelta(days=7 - day.weekday())
 
 
-def _day_load(
+def day_load(
     *, day: dt.date, capacity: float, visits: list[tuple[int, int, tuple[float, float]]], km_of: dict | None = None
 ) -> DayLoad:
     """``visits``: (minutes, site id, site position) per work order, first due first. ``km_of``: the route
@@ -115,7 +115,7 @@ def _loaded_visits(*, organisation, start: dt.date, end: dt.date, leave_out=()) 
     if leave_out:
         rows = rows.exclude(pk__in=list(leave_out))
     rows = (
-        rows.filter(_planned_within(start, end))
+        rows.filter(planned_within(start, end))
         .values(
             "id",
             "assignee_id",
@@ -169,12 +169,12 @@ def technician_day_loads(
             todo = list(visits.get((user.pk, d), []))
             if extra is not None and d == adding_day:
                 todo.append(extra)
-            per_day.append(_day_load(day=d, capacity=capacity_on(user, d), visits=todo))
+            per_day.append(day_load(day=d, capacity=capacity_on(user, d), visits=todo))
         out.append((user, per_day))
     return out
 
 
-def _least_loaded(candidates: list[tuple]) -> tuple | None:
+def least_loaded(candidates: list[tuple]) -> tuple | None:
     """The (user, DayLoad) with the smallest share of capacity once the work is added, within capacity first;
     ties by name."""
     return min(
@@ -203,7 +203,7 @@ class WorkNeed:
 
 
 def _load_key(user, load: DayLoad, place: int) -> tuple:
-    """:func:`_least_loaded`'s order, with the candidate's place last (``min`` keeps the first of equals)."""
+    """:func:`least_loaded`'s order, with the candidate's place last (``min`` keeps the first of equals)."""
     return (load.over, load.hours / max(load.capacity_hours, 0.1), str(user), place)
 
 
@@ -237,8 +237,8 @@ def _least_travel_km(*, day_visits: list[Visit_], need: WorkNeed, km_of: dict) -
     return max(0.0, _known_km(points, km_of) - 0.01 * (len(points) + 2))
 
 
-def _least_loaded_for(*, techs: list, day: dt.date, visits: dict, need: WorkNeed, km_of: dict) -> tuple | None:
-    """:func:`_least_loaded` of the qualified technicians' days with the work added, working out only the routes
+def least_loaded_for(*, techs: list, day: dt.date, visits: dict, need: WorkNeed, km_of: dict) -> tuple | None:
+    """:func:`least_loaded` of the qualified technicians' days with the work added, working out only the routes
     that can change the answer. A day with the work added takes at least its tasks' hours and the drive of the
     day's route without it (:func:`_least_travel_km`), so candidates are tried from the smallest of those bounds,
     and once the bound reaches the best day found no later one can beat it. The same pick and the same day as
@@ -265,7 +265,7 @@ def _least_loaded_for(*, techs: list, day: dt.date, visits: dict, need: WorkNeed
     for lower_key, user, capacity, todo in bounded:
         if best is not None and lower_key >= best[0]:
             break
-        load = _day_load(day=day, capacity=capacity, visits=todo, km_of=km_of)
+        load = day_load(day=day, capacity=capacity, visits=todo, km_of=km_of)
         key = _load_key(user, load, lower_key[-1])
         if best is None or key < best[0]:
             best = (key, user, load)
@@ -286,7 +286,7 @@ def suggested_technicians(*, organisation, days: dict[int, tuple[WorkNeed, dt.da
     km_of: dict = {}
     out = {}
     for pk, (need, day) in days.items():
-        pick = _least_loaded_for(techs=techs, day=day, visits=visits, need=need, km_of=km_of)
+        pick = least_loaded_for(techs=techs, day=day, visits=visits, need=need, km_of=km_of)
         if pick is not None:
             out[pk] = pick
     return out
@@ -304,7 +304,7 @@ def technician_load(*, organisation, start: dt.date, days: int) -> list[dict]:
 def board_load_rows(*, organisation, start: dt.date, days: int = 7) -> list[dict]:
     """:func:`technician_load` in the board API's plain shape (the person as a reference)."""
     return [
-        {"technician": _person(user), "days": [d.as_dict() for d in per_day]}
+        {"technician": person_of(user), "days": [d.as_dict() for d in per_day]}
         for user, per_day in technician_day_loads(organisation=organisation, start=start, days=days)
     ]
 

@@ -26,7 +26,7 @@ def _suggest_order(origin: tuple[float, float], coords: tuple[tuple[float, float
     return tuple(routing.suggest_order(start=origin, stops=coords))
 
 
-def _route(*, points: dict[int, tuple[float, float]], start: tuple[float, float] | None):
+def route_legs(*, points: dict[int, tuple[float, float]], start: tuple[float, float] | None):
     """(order, site id, leg km) per stop in the suggested order; ``points`` in first-due order."""
     ids = list(points)
     coords = tuple(points[i] for i in ids)
@@ -87,5 +87,5 @@ def today_visits_for(*, technician, day: dt.date, start: tuple[float, float] | N
     points = {pk: (site["latitude"], site["longitude"]) for pk, site in sites.items()}
     return [
         {"order": n, "leg_km": leg, "site": sites[pk], "work_orders": by_site[pk]}
-        for n, pk, leg in _route(points=points, start=start)
+        for n, pk, leg in route_legs(points=points, start=start)
     ]

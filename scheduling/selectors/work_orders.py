@@ -59,14 +59,14 @@ def work_order_for(*, user, public_id, write: bool = False) -> WorkOrder:
     return wo
 
 
-def _planned_within(start: dt.date, end: dt.date) -> Q:
+def planned_within(start: dt.date, end: dt.date) -> Q:
     """Work whose day is in [start, end): the day it is planned for, else (no plan) the day it is due."""
     return Q(scheduled_for__gte=start, scheduled_for__lt=end) | Q(
         scheduled_for__isnull=True, due_date__gte=start, due_date__lt=end
     )
 
 
-def _person(user) -> dict | None:
+def person_of(user) -> dict | None:
     if user is None:
         return None
     return shapes.person_ref(id=user.pk, username=user.username, first_name=user.first_name, last_name=user.last_name)

@@ -1,8 +1,8 @@
 """The board's suggested technician, picked with a bound, is the pick of working out every candidate's day.
 
-``_least_loaded_for`` skips the routes that cannot change the answer (a day with a visit added takes at least
-its tasks' hours and the drive of its route without the visit); these cases compare it with ``_least_loaded``
-over every qualified technician's whole day (``_day_load``), on random days of up to 12 sites (past
+``least_loaded_for`` skips the routes that cannot change the answer (a day with a visit added takes at least
+its tasks' hours and the drive of its route without the visit); these cases compare it with ``least_loaded``
+over every qualified technician's whole day (``day_load``), on random days of up to 12 sites (past
 ``routing.EXACT_LIMIT`` too), equal loads, equal names, sites already on the day and days over capacity.
 Pure Python: no database.
 """
@@ -11,7 +11,7 @@ import datetime as dt
 import random
 from dataclasses import dataclass, field
 
-from scheduling.selectors import WorkNeed, _day_load, _least_loaded, _least_loaded_for, capacity_on
+from scheduling.selectors import WorkNeed, capacity_on, day_load, least_loaded, least_loaded_for
 
 DAY = dt.date(2026, 3, 10)
 
@@ -70,9 +70,9 @@ def _case(rng: random.Random):
 
 
 def _every_route(techs, visits, need):
-    return _least_loaded(
+    return least_loaded(
         [
-            (u, _day_load(day=DAY, capacity=capacity_on(u, DAY), visits=[*visits.get((u.pk, DAY), []), need.visit]))
+            (u, day_load(day=DAY, capacity=capacity_on(u, DAY), visits=[*visits.get((u.pk, DAY), []), need.visit]))
             for u in techs
             if need.skills <= set(u.skills or [])
         ]
@@ -85,7 +85,7 @@ def test_the_bounded_pick_is_the_pick_of_every_route():
     for _ in range(400):
         techs, visits, need = _case(rng)
         expected = _every_route(techs, visits, need)
-        got = _least_loaded_for(techs=techs, day=DAY, visits=visits, need=need, km_of={})
+        got = least_loaded_for(techs=techs, day=DAY, visits=visits, need=need, km_of={})
         if expected is None:
             assert got is None
             continue
