@@ -339,3 +339,17 @@ def test_back_to_change_it_from_the_confirm_page_keeps_what_was_typed(desk, worl
     assert f'<option value="{world.tess.pk}" selected' in form
     assert "data-over-capacity" not in form
     assert not WorkOrder.objects.filter(kind="call_out").exists()
+
+
+def test_a_call_outs_due_time_shows_on_its_own_page(desk, world):
+    """The work order's page (the technician's form, the supervisor's view) says the call-out's time on the site's
+    clock beside its day, as the board does; a planned visit with only a due day says no time."""
+    desk.post(NEW, callout(world, confirm="1"))
+    wo = WorkOrder.objects.get(kind="call_out")
+    for person in (world.tess, world.supervisor):
+        desk.force_login(person)
+        html = desk.get(reverse("frontend:checklist", kwargs={"public_id": wo.public_id})).content.decode()
+        assert 'due 5 Mar 2025 by <strong data-due-by>14:00 CET</strong>' in html, person
+    planned = WorkOrder.objects.filter(due_by=None).exclude(kind="call_out").first()
+    html = desk.get(reverse("frontend:checklist", kwargs={"public_id": planned.public_id})).content.decode()
+    assert "data-due-by" not in html
