@@ -258,6 +258,32 @@ def test_every_demo_site_tells_the_technician_how_to_get_in(loaded):
     assert "sign the contractor book" in Site.objects.get(code="gullwharf").access_notes
 
 
+PLACE_WORDS = ("roof", "basement", "mezzanine")  # the kinds of place the demo's unit locations name
+
+
+def _places(text: str) -> set[str]:
+    return {word for word in PLACE_WORDS if word in text.lower()}
+
+
+def test_each_demo_sites_access_notes_agree_with_where_its_units_are():
+    """A site's access notes (one text for all its buildings, shown on the phone for every unit there) name each
+    building and, in that building's part, the kind of place its units are in and no other: a tryout found
+    "Plant room on roof level 5" shown for Ropewalk Hall's AHU-01 in the basement."""
+    import json
+
+    from inventory.demo import DEMO_FILE
+
+    for site in json.loads(DEMO_FILE.read_text())["sites"]:
+        notes, buildings = site["access_notes"], site["buildings"]
+        named = [(notes.find(b["name"]), b) for b in buildings] if len(buildings) > 1 else [(0, buildings[0])]
+        starts = sorted(named, key=lambda pair: pair[0])
+        assert all(at >= 0 for at, _ in starts), (site["code"], "every building named", notes)
+        for (at, building), (end, _) in zip(starts, [*starts[1:], (len(notes), None)], strict=True):
+            part = notes[at:end]
+            where = set().union(*(_places(ahu["location"]) for ahu in building["ahus"]))
+            assert _places(part) == where, (site["code"], building["name"], part, where)
+
+
 @pytest.mark.django_db
 def test_the_demo_loads_in_the_hour_after_midnight_at_its_sites():
     """23:01 UTC on 4 December 2026 (a Friday) is already 00:01 on Saturday 5 December in the sites' zone
