@@ -349,7 +349,7 @@ def test_a_call_outs_due_time_shows_on_its_own_page(desk, world):
     for person in (world.tess, world.supervisor):
         desk.force_login(person)
         html = desk.get(reverse("frontend:checklist", kwargs={"public_id": wo.public_id})).content.decode()
-        assert 'due 5 Mar 2025 by <strong data-due-by>14:00 CET</strong>' in html, person
+        assert "due 5 Mar 2025 by <strong data-due-by>14:00 CET</strong>" in html, person
     planned = WorkOrder.objects.filter(due_by=None).exclude(kind="call_out").first()
     html = desk.get(reverse("frontend:checklist", kwargs={"public_id": planned.public_id})).content.decode()
     assert "data-due-by" not in html
