@@ -5,21 +5,32 @@ Drawn by hand like ``frontend.charts`` (no inline style: SVG presentation attrib
 holds). The key (the title, each line's name, the shaded windows, each limit line's words) is the page's own text,
 so it wraps on a phone and never prints over the plot; the plot scales to its box's width (``.chart svg`` in
 app.css) and holds only the axes' numbers and dates, sized to stay legible on a 360 px phone. The value axis has
-round ticks (``nice_ticks``).
+round ticks (``nice_ticks``); the time axis a tick at the site's midnight each day, fewer on a long stretch
+(``day_ticks``). Lines that read the same for a good part of the stretch (a damper at 0 % under a stopped fan) are
+drawn wider the earlier they are drawn, so each shows as a band beside the ones on top of it, and the key says which
+lines they lie beneath and for how much of the stretch (``coinciding``).
 """
 
 from __future__ import annotations
 
 import datetime as dt
+import itertools
 import zoneinfo
 from dataclasses import dataclass
 from html import escape
+
+from engineering.formatting import format_number
 
 from .charts import axis_labels
 
 # Lines are told apart by their dash as well as their colour (for people who do not see the colour).
 STROKES = (("#1f5fa8", ""), ("#b3541e", "8 4"), ("#2e7d32", "2 4"), ("#6a3d9a", "12 4 2 4"), ("#555555", "4 4"))
 MAX_POINTS = 700  # per line: more samples than a phone's width can show are thinned
+DAY_STEPS = (1, 2, 7, 14, 28)  # days between the time axis's ticks: one a day, fewer on a long stretch
+MOST_DAY_TICKS = 10  # about 45 units apart in a 520-wide view at the most
+LINE_WIDTH, WIDER = 2.0, 1.5  # a line's stroke, and how much wider for each line drawn on top of it
+TOGETHER = 0.01  # two lines within 1 % of the value axis at a moment read as one line there
+TOGETHER_SHARE = 0.1  # lines reading as one for at least a tenth of their common moments are said to coincide
 
 
 @dataclass(frozen=True)
@@ -66,24 +77,81 @@ LIMIT_DASHES = ("3 5", "10 4", "1 3", "12 4 2 4")
 BAND_FILL = "#d32f2f"
 
 
-def _swatch(*, colour: str, dash: str = "", band: bool = False) -> str:
+def day_ticks(start: dt.datetime, end: dt.datetime, zone: str) -> list[dt.datetime]:
+    """The time axis's ticks: the site's midnights inside (start, end), every day, or every 2, 7, 14 or 28 days
+    when a tick a day would be more than ``MOST_DAY_TICKS`` (a 31-day stretch: weekly)."""
+    tz = zoneinfo.ZoneInfo(zone)
+    first, last = start.astimezone(tz), end.astimezone(tz)
+    midnights = []
+    day = first.date() + dt.timedelta(days=1)
+    while (midnight := dt.datetime.combine(day, dt.time(), tzinfo=tz)) < last:
+        midnights.append(midnight)
+        day += dt.timedelta(days=1)
+    step = next((s for s in DAY_STEPS if len(midnights) <= MOST_DAY_TICKS * s), DAY_STEPS[-1])
+    return midnights[step - 1 :: step]
+
+
+def coinciding(lines: list[ChartLine], *, span: float) -> dict[int, list[tuple[int, float]]]:
+    """For each line (by its index), the later lines drawn on top of it where they read the same, each with the
+    share of the two lines' common moments they do (within ``TOGETHER`` of the value axis's ``span``), from
+    ``TOGETHER_SHARE`` up."""
+    readings = [dict(line.samples) for line in lines]
+    out: dict[int, list[tuple[int, float]]] = {}
+    for i, j in itertools.combinations(range(len(lines)), 2):
+        common = readings[i].keys() & readings[j].keys()
+        if not common:
+            continue
+        same = sum(abs(readings[i][t] - readings[j][t]) <= span * TOGETHER for t in common) / len(common)
+        if same >= TOGETHER_SHARE:
+            out.setdefault(i, []).append((j, same))
+    return out
+
+
+def _widths(count: int, under: dict[int, list[tuple[int, float]]]) -> list[float]:
+    """Each line's stroke: wider by ``WIDER`` for each layer of coinciding lines drawn on top of it, so a stack of
+    lines reading the same shows every one of them as a band around the next."""
+    depth = [0] * count
+    for i in reversed(range(count)):
+        depth[i] = max((depth[j] + 1 for j, _ in under.get(i, [])), default=0)
+    return [LINE_WIDTH + WIDER * d for d in depth]
+
+
+def _swatch(*, colour: str, dash: str = "", band: bool = False, width: float = 3) -> str:
     """A key's sample of a line (its colour and dash) or of a shaded window, a small inline SVG."""
     if band:
         shape = f'<rect x="0" y="1" width="32" height="12" fill="{BAND_FILL}" fill-opacity="0.25"/>'
     else:
         dash_attr = f' stroke-dasharray="{dash}"' if dash else ""
-        shape = f'<line x1="0" y1="7" x2="32" y2="7" stroke="{colour}" stroke-width="3"{dash_attr}/>'
+        shape = f'<line x1="0" y1="7" x2="32" y2="7" stroke="{colour}" stroke-width="{width:g}"{dash_attr}/>'
     return f'<svg class="swatch" viewBox="0 0 32 14" width="32" height="14" aria-hidden="true">{shape}</svg>'
 
 
-def _key(*, label: str, lines: list[ChartLine], bands: list[Band], limits: list[tuple[float, str]]) -> str:
-    """The chart's title and key as HTML above the plot: each line's sample and name, the shaded windows' title and
-    each limit line's dash and words. Text of the page's own size, wrapping on a phone: nothing is squeezed and
-    nothing prints over the plot or over another label."""
+def _key(
+    *,
+    label: str,
+    lines: list[ChartLine],
+    bands: list[Band],
+    limits: list[tuple[float, str]],
+    under: dict[int, list[tuple[int, float]]],
+    widths: list[float],
+) -> str:
+    """The chart's title and key as HTML above the plot: each line's sample and name (and the lines drawn on top of
+    it where they read the same), the shaded windows' title and each limit line's dash and words. Text of the page's
+    own size, wrapping on a phone: nothing is squeezed and nothing prints over the plot or over another label."""
     items = []
     for i, line in enumerate(lines):
         colour, dash = STROKES[i % len(STROKES)]
-        items.append(f"<li>{_swatch(colour=colour, dash=dash)} <span>{escape(line.label)}</span></li>")
+        beneath = ", ".join(
+            f"{escape(lines[j].label)} {format_number(share * 100, decimals=0)}\u00a0%" for j, share in under.get(i, [])
+        )
+        said = (
+            ' <span class="hint" data-coincides>'
+            f"drawn wider, beneath where they read the same: {beneath} of the time</span>"
+        )
+        items.append(
+            f"<li>{_swatch(colour=colour, dash=dash, width=min(widths[i] + 1, 9))} <span>{escape(line.label)}</span>"
+            f"{said if beneath else ''}</li>"
+        )
     titles = list(dict.fromkeys(b.title for b in bands))
     for title in titles:
         items.append(
@@ -136,8 +204,10 @@ def trend_chart(
         return bottom + (v - v0) / ((v1 - v0) or 1.0) * (top - bottom)
 
     label = f"{title} ({unit})"
+    under = coinciding(lines, span=v1 - v0)
+    widths = _widths(len(lines), under)
     parts = [
-        _key(label=label, lines=lines, bands=bands, limits=limits),
+        _key(label=label, lines=lines, bands=bands, limits=limits, under=under, widths=widths),
         f'<svg viewBox="0 0 {width} {height}" role="img" aria-label="{escape(label)}" '
         'xmlns="http://www.w3.org/2000/svg">',
         f"<title>{escape(label)}</title>",
@@ -171,12 +241,13 @@ def trend_chart(
         f'<text x="{right}" y="{bottom + 28}" text-anchor="end" fill="currentColor" font-size="{fs}">'
         f"{last.day} {last:%b %Y}</text>",
     ]
-    # A faint tick at each local midnight inside the stretch.
-    day = dt.datetime.combine(first.date() + dt.timedelta(days=1), dt.time(), tzinfo=tz)
-    while day < last:
+    # A faint tick at the site's midnight, each day or fewer on a long stretch.
+    for day in day_ticks(start, end, zone):
         dx = x(day)
-        parts.append(f'<line x1="{dx:.1f}" y1="{bottom}" x2="{dx:.1f}" y2="{bottom + 8}" stroke="currentColor"/>')
-        day = dt.datetime.combine(day.date() + dt.timedelta(days=1), dt.time(), tzinfo=tz)
+        parts.append(
+            f'<line x1="{dx:.1f}" y1="{bottom}" x2="{dx:.1f}" y2="{bottom + 8}" stroke="currentColor" '
+            f'data-day-tick="{day.date().isoformat()}"/>'
+        )
     # Limit lines carry no words on the plot (close lines, 3.3 and 1.0 °C, would print them over each other): each
     # has its own dash, named in the key.
     for i, (value, words) in enumerate(sorted(limits, key=lambda lim: -lim[0])):
@@ -193,6 +264,9 @@ def trend_chart(
         colour, dash = STROKES[i % len(STROKES)]
         dash_attr = f' stroke-dasharray="{dash}"' if dash else ""
         d = " ".join(f"{'M' if j == 0 else 'L'}{x(t):.1f},{y(v):.1f}" for j, (t, v) in enumerate(samples))
-        parts.append(f'<path d="{d}" fill="none" stroke="{colour}" stroke-width="2"{dash_attr}/>')
+        parts.append(
+            f'<path d="{d}" fill="none" stroke="{colour}" stroke-width="{widths[i]:g}"{dash_attr} '
+            f'data-line="{escape(line.label)}"/>'
+        )
     parts.append("</svg>")
     return "".join(parts)

@@ -1,11 +1,13 @@
 """A trend chart's value axis has round ticks and its limit lines' words never print on top of each other."""
 
 import datetime as dt
+import itertools
 import re
+import zoneinfo
 
 import pytest
 
-from frontend.trend_charts import ChartLine, nice_ticks, trend_chart
+from frontend.trend_charts import MOST_DAY_TICKS, ChartLine, day_ticks, nice_ticks, trend_chart
 
 START = dt.datetime(2026, 1, 12, tzinfo=dt.UTC)
 END = START + dt.timedelta(days=1)
@@ -81,3 +83,64 @@ def test_a_dated_chart_in_inches_of_water_labels_its_axis_with_decimals():
     assert re.search(r'text-anchor="end"[^>]*>0\.2</text>', svg) and re.search(
         r'text-anchor="end"[^>]*>1\.3</text>', svg
     )
+
+
+AMS = "Europe/Amsterdam"
+
+
+def _day_ticks(start: dt.datetime, days: int, zone: str = AMS) -> list[str]:
+    line = ChartLine("Supply fan speed", [(start, 0.0), (start + dt.timedelta(days=days), 100.0)])
+    svg = trend_chart(
+        title="Commands", unit="%", lines=[line], start=start, end=start + dt.timedelta(days=days), zone=zone
+    )
+    return re.findall(r'data-day-tick="([^"]+)"', svg)
+
+
+def test_the_time_axis_has_one_tick_a_day_at_the_sites_midnight():
+    """A week from a Monday's midnight in Amsterdam: a tick at each of the six midnights inside it, never two in a
+    day; across the spring clock change (29 March 2026) still one a day at local midnight."""
+    monday = dt.datetime(2026, 11, 23, tzinfo=zoneinfo.ZoneInfo(AMS))
+    ticks = _day_ticks(monday, 7)
+    assert ticks == [f"2026-11-{day}" for day in range(24, 30)]
+    spring = dt.datetime(2026, 3, 28, tzinfo=zoneinfo.ZoneInfo(AMS))
+    assert _day_ticks(spring, 3) == ["2026-03-29", "2026-03-30"]
+    ticks_at = day_ticks(spring, spring + dt.timedelta(days=3), AMS)
+    assert [t.astimezone(zoneinfo.ZoneInfo(AMS)).hour for t in ticks_at] == [0, 0]
+
+
+def test_a_long_stretch_has_fewer_ticks_evenly_spaced():
+    """31 days would be 30 ticks in a 520-wide view: weekly ones instead (at most MOST_DAY_TICKS)."""
+    start = dt.datetime(2026, 11, 1, tzinfo=zoneinfo.ZoneInfo(AMS))
+    ticks = [dt.date.fromisoformat(t) for t in _day_ticks(start, 31)]
+    assert 2 <= len(ticks) <= MOST_DAY_TICKS
+    assert {(b - a).days for a, b in itertools.pairwise(ticks)} == {7}
+
+
+def _commands(damper: list[float], fan: list[float]) -> str:
+    samples = [START + dt.timedelta(hours=i) for i in range(len(fan))]
+    lines = [ChartLine("Outdoor-air damper position", list(zip(samples, damper, strict=True)))]
+    lines.append(ChartLine("Supply fan speed", list(zip(samples, fan, strict=True))))
+    return trend_chart(title="Commands", unit="%", lines=lines, start=START, end=END, zone="UTC")
+
+
+def _widths(svg: str) -> dict[str, float]:
+    return {label: float(w) for w, label in re.findall(r'stroke-width="([^"]+)"[^>]*data-line="([^"]+)"', svg)}
+
+
+def test_a_line_reading_the_same_as_one_drawn_over_it_shows_wider_and_the_key_says_so():
+    """A damper at 0 % while the fan is stopped (half the day) lies under the fan's line there: it is drawn wider,
+    a band either side of the fan's line, and its key names the line on top and for how much of the time."""
+    fan = [0.0] * 12 + [88.0] * 12
+    damper = [0.0] * 12 + [35.0] * 12
+    svg = _commands(damper, fan)
+    widths = _widths(svg)
+    assert widths["Outdoor-air damper position"] > widths["Supply fan speed"]
+    key = svg.split("<svg viewBox=")[0]
+    assert re.findall(r"<span class=\"hint\" data-coincides>([^<]+)</span>", key) == [
+        "drawn wider, beneath where they read the same: Supply fan speed 50\u00a0% of the time"
+    ]
+
+
+def test_lines_that_never_meet_keep_the_same_width_and_no_note():
+    svg = _commands([30.0 + i for i in range(24)], [88.0] * 24)
+    assert len(set(_widths(svg).values())) == 1 and "data-coincides" not in svg
