@@ -21,6 +21,7 @@ from .views import (
     shell,
     supervisor,
     technician,
+    visit_start,
     work_pages,
 )
 
@@ -44,6 +45,7 @@ urlpatterns = [
     path("u/<str:code>/", technician.unit, name="unit"),
     path("w/<uuid:public_id>/", technician.checklist, name="checklist"),
     path("w/<uuid:public_id>/result/", technician.checklist_result, name="checklist_result"),
+    path("w/<uuid:public_id>/start/", visit_start.start_visit, name="start_visit"),
     path("w/<uuid:public_id>/verify/", supervisor.verify, name="verify"),
     path("w/<uuid:public_id>/amend/", technician.amend, name="amend"),
     path("calc/", calculator.calculator, name="calculator"),

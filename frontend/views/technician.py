@@ -32,6 +32,7 @@ from .. import selectors
 from ..checklist_form import caution_blocks, cautions_for, form_sections, payload_from_post, typed_number
 from ..phone_form import site_where, with_last_values
 from .records import LAYOUTS
+from .visit_start import may_start
 
 
 def checklist_api_url(public_id: uuid.UUID) -> str:
@@ -250,6 +251,7 @@ def checklist(request, public_id):
             "wo": wo,
             "done": done,
             "show_form": not done and may_submit and data is not None,
+            "can_start": not done and may_submit and data is not None and may_start(work_order=wo, user=request.user),
             "checklist": data,
             # Each reading with its value on the unit's last visit, in the reader's units (frontend/phone_form.py).
             "sections": sections,

@@ -71,6 +71,7 @@ FILL: dict[str, Fill] = {
     "frontend:checklist_result": {"public_id": lambda c: c.work_order.public_id},
     "frontend:verify": {"public_id": lambda c: c.work_order.public_id},
     "frontend:amend": {"public_id": lambda c: c.work_order.public_id},
+    "frontend:start_visit": {"public_id": lambda c: c.work_order.public_id},
     "frontend:assign": {"public_id": lambda c: c.open_work_order.public_id},
     "frontend:registry_unit": {"pk": lambda c: c.ahu.pk},
     "frontend:registry_unit_edit": {"pk": lambda c: c.ahu.pk},

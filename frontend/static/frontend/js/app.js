@@ -143,8 +143,23 @@ function guardForms() {
   });
 }
 
+// "Start visit" needs the server: offline the button is hidden and a note says the form, once sent, marks the
+// visit started and done (frontend/views/visit_start.py).
+function startVisitWhenOnline() {
+  const box = document.querySelector("[data-start-visit]");
+  if (!box) return;
+  const show = () => {
+    box.querySelector("[data-start-online]").hidden = !navigator.onLine;
+    box.querySelector("[data-start-offline]").hidden = navigator.onLine;
+  };
+  window.addEventListener("online", show);
+  window.addEventListener("offline", show);
+  show();
+}
+
 async function start() {
   keepClearOfOutbox();
+  startVisitWhenOnline();
   guardForms();
   document.addEventListener("plenum:outbox", renderOutbox);
   window.addEventListener("online", () => { renderOutbox(); syncOutbox(); });

@@ -1,0 +1,82 @@
+"""The technician's "Start visit" on a work order's page (frontend/views/visit_start.py), on the board world's clock:
+Wednesday 5 March 2025, 10:00 UTC = 11:00 CET in Amsterdam (tests/flows/board_world.py).
+
+Tess's assigned coil clean at Mill Block: the page offers "Start visit"; pressed, the visit is in progress from
+11:00 CET (the scheduling service's own move, as the API's transition makes it) and the page says so instead of the
+button. A page read before someone changed the work order, an unreadable version, another technician's visit and a
+visit already done are refused and nothing moves.
+"""
+
+import pytest
+import time_machine
+from django.contrib.messages import get_messages
+from django.urls import reverse
+
+from scheduling.models import WorkOrder
+from tests.flows import board_world
+
+pytestmark = pytest.mark.django_db
+
+
+@pytest.fixture
+def world(db):
+    with time_machine.travel(board_world.NOW, tick=False):
+        yield board_world.build()
+
+
+def _page(wo) -> str:
+    return reverse("frontend:checklist", kwargs={"public_id": wo.public_id})
+
+
+def _start(client, wo, version) -> object:
+    return client.post(reverse("frontend:start_visit", kwargs={"public_id": wo.public_id}), {"version": version})
+
+
+def _said(response) -> str:
+    return " ".join(str(m) for m in get_messages(response.wsgi_request))
+
+
+def _coil_clean(world) -> WorkOrder:
+    return WorkOrder.objects.get(assignee=world.tess, title="Coil deep clean")
+
+
+def test_the_technician_starts_her_assigned_visit(client, world):
+    wo = _coil_clean(world)
+    client.force_login(world.tess)
+    html = client.get(_page(wo)).content.decode()
+    assert "data-start-visit" in html and ">Start visit</button>" in html and "data-start-offline hidden" in html
+    response = _start(client, wo, wo.version)
+    assert response.status_code == 302 and response["Location"] == _page(wo)
+    assert "Coil deep clean: visit started 5 Mar 2025 11:00 CET." in _said(response)
+    wo.refresh_from_db()
+    assert wo.state == WorkOrder.State.IN_PROGRESS and wo.started_at == board_world.NOW
+    html = client.get(_page(wo)).content.decode()
+    assert "data-start-visit" not in html and "Visit started 5 Mar 2025 11:00 CET." in html
+    assert "data-checklist" in html  # the form is still there to fill
+
+
+@pytest.mark.parametrize("version", ["stale", "", "x", "1e309"])
+def test_a_page_read_before_a_change_or_an_unreadable_version_moves_nothing(client, world, version):
+    wo = _coil_clean(world)
+    client.force_login(world.tess)
+    sent = wo.version - 1 if version == "stale" else version
+    response = _start(client, wo, sent)
+    assert "someone changed it meanwhile; here it is as it is now" in _said(response)
+    wo.refresh_from_db()
+    assert wo.state == WorkOrder.State.ASSIGNED and wo.started_at is None
+
+
+def test_only_the_assigned_technician_starts_it_and_only_an_assigned_visit(client, world):
+    wo = _coil_clean(world)
+    client.force_login(world.omar)
+    assert "data-start-visit" not in client.get(_page(wo)).content.decode()
+    assert _start(client, wo, wo.version).status_code == 403
+    done = WorkOrder.objects.get(assignee=world.tess, state=WorkOrder.State.COMPLETED)
+    client.force_login(world.tess)
+    assert "data-start-visit" not in client.get(_page(done)).content.decode()
+    response = _start(client, done, done.version)
+    assert "is completed: only an assigned visit not yet started can be started" in _said(response)
+    done.refresh_from_db()
+    assert done.state == WorkOrder.State.COMPLETED
+    wo.refresh_from_db()
+    assert wo.state == WorkOrder.State.ASSIGNED
