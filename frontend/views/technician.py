@@ -22,6 +22,7 @@ from reports.documents.visit_record import visit_records
 from reports.rendering import stored_file_data_uri
 from scheduling.models import WorkOrder
 from scheduling.selectors import (
+    next_visit_day,
     today_visits_for,
     work_order_for,
     work_orders_managed_by,
@@ -66,15 +67,9 @@ def offline_urls(visits) -> list[str]:
     return urls
 
 
-@login_required
-@require_GET
-def today(request):
-    now = timezone.now()
-    zone = time_zone_for(request.user)  # the clock the person works by (inventory.today)
-    day = today_for(zone, now=now)
-    visits = today_visits_for(technician=request.user, day=day)
-    # The API's answer, with what the page says beside each work order: the unit with its building and
-    # place (and its site's clock for a due time), and the words of its kind, priority and state.
+def _with_page_words(visits: list[dict], *, now) -> list[dict]:
+    """The API's answer, with what the page says beside each work order: the unit with its building and place
+    (and its site's clock for a due time), and the words of its kind, priority and state."""
     units = selectors.ahus_by_id(ids={wo["unit"]["id"] for visit in visits for wo in visit["work_orders"]})
     for wo in (wo for visit in visits for wo in visit["work_orders"]):
         wo["ahu"] = units[wo["unit"]["id"]]
@@ -86,15 +81,31 @@ def today(request):
         late = WorkOrder(state=wo["state"], due_date=wo["due_date"], overdue_on=wo["overdue_on"])
         wo["due_text"] = late.due_words_on(site_day) if wo["due_date"] and wo["due_date"] < site_day else ""
         wo["overdue"] = late.is_overdue_on(site_day)
+    return visits
+
+
+@login_required
+@require_GET
+def today(request):
+    now = timezone.now()
+    zone = time_zone_for(request.user)  # the clock the person works by (inventory.today)
+    day = today_for(zone, now=now)
+    visits = _with_page_words(today_visits_for(technician=request.user, day=day), now=now)
+    # Nothing today (a weekend, a day off): the next day with visits, to look at and prepare (and saved for
+    # offline like today's, for a phone that goes out of signal on the way).
+    next_day = None if visits else next_visit_day(technician=request.user, after=day)
+    coming = _with_page_words(today_visits_for(technician=request.user, day=next_day), now=now) if next_day else []
     return render(
         request,
         "frontend/technician/today.html",
         {
             "visits": visits,
+            "next_day": next_day,
+            "next_visits": coming,
             # The forms they signed today, each on its site's clock (inspections/done_today.py).
             "done_today": done_today_for(technician=request.user, now=now),
             "today": day,
-            "offline_urls": offline_urls(visits),
+            "offline_urls": offline_urls(visits or coming),
             # The outbox bar's times on the clock the person works by (the phone has no other idea of it).
             "site_clock": zone_clock(zone, around=now),
         },

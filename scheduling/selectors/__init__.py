@@ -39,7 +39,7 @@ from .load import (
 )
 from .meters import latest_meter_reading
 from .rules import effective_tasks, task_for_unit, unit_rule_numbers
-from .today import today_visits_for
+from .today import next_visit_day, today_visits_for
 from .work_orders import work_order_for, work_orders_managed_by, work_orders_visible_to
 
 __all__ = [
@@ -62,6 +62,7 @@ __all__ = [
     "latest_meter_reading",
     "least_loaded",
     "least_loaded_for",
+    "next_visit_day",
     "offered_day",
     "skills_needed",
     "suggested_technicians",

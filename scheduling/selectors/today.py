@@ -17,6 +17,23 @@ def _today_orders(*, technician, day: dt.date) -> QuerySet[WorkOrder]:
     ).filter(Q(scheduled_for=day) | Q(scheduled_for__isnull=True, due_date__lte=day))
 
 
+def next_visit_day(*, technician, after: dt.date) -> dt.date | None:
+    """The first day after ``after`` with an open visit of the technician's (planned that day, or unplanned and
+    due then): what the phone offers when today holds none (a weekend, a day off), so the next round can be
+    looked at and prepared."""
+    from django.db.models import Min
+
+    open_orders = WorkOrder.objects.filter(
+        assignee=technician, state__in=[WorkOrder.State.ASSIGNED, WorkOrder.State.IN_PROGRESS]
+    )
+    days = open_orders.aggregate(
+        planned=Min("scheduled_for", filter=Q(scheduled_for__gt=after)),
+        unplanned=Min("due_date", filter=Q(scheduled_for__isnull=True, due_date__gt=after)),
+    )
+    found = [d for d in days.values() if d is not None]
+    return min(found) if found else None
+
+
 @functools.lru_cache(maxsize=4096)
 def _suggest_order(origin: tuple[float, float], coords: tuple[tuple[float, float], ...]) -> tuple[int, ...]:
     # The exact order of 10 stops costs milliseconds and a phone asks for the same day again and again. A board

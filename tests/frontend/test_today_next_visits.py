@@ -1,0 +1,80 @@
+"""A technician with nothing today sees the next day with visits of theirs, to look at and prepare.
+
+A demo tried on a Saturday showed the technician "No visits for you today" and nothing else: the round planned
+for Monday could not be reached from the phone's first page. On the controlled clock (tests/conftest.TEST_NOW,
+Wednesday 10 June 2026, 10:00 UTC = 12:00 in Amsterdam, the test sites' zone).
+"""
+
+import datetime as dt
+import json
+import re
+
+import pytest
+from django.urls import reverse
+
+from scheduling.models import WorkOrder
+from tests.frontend import scenario
+
+pytestmark = [pytest.mark.django_db, pytest.mark.usefixtures("clock")]
+
+SATURDAY = dt.datetime(2026, 6, 13, 10, 0, tzinfo=dt.UTC)
+MONDAY = dt.date(2026, 6, 15)
+
+
+@pytest.fixture
+def world():
+    return scenario.build()
+
+
+def _today(client, user) -> str:
+    client.force_login(user)
+    response = client.get(reverse("frontend:today"))
+    assert response.status_code == 200
+    return response.content.decode()
+
+
+def _offline_urls(page: str) -> list[str]:
+    found = re.search(r'<script id="offline-urls" type="application/json">(.*?)</script>', page, re.S)
+    assert found, "the today page carries no offline list"
+    return json.loads(found.group(1))
+
+
+def test_nothing_today_shows_the_next_day_with_its_visits(client, world):
+    """Omar's filter round is due tomorrow (Thursday), unplanned: today is empty, tomorrow is offered."""
+    page = _today(client, world.other_technician)
+    assert "No visits for you today." in page
+    assert "Next visits: Thursday 11 June" in page
+    assert f'data-work-order="{world.work_b.public_id}"' in page
+    assert "Filter round" in page
+    checklist = reverse("frontend:checklist", kwargs={"public_id": world.work_b.public_id})
+    assert checklist in page and checklist in _offline_urls(page)
+
+
+def test_on_a_saturday_the_round_planned_for_monday_is_offered(client, world, clock):
+    clock.move_to(SATURDAY)
+    # Tess's quarterly service (due Wednesday) is planned for Monday: nothing is open for her this weekend.
+    WorkOrder.objects.filter(pk=world.work_a.pk).update(scheduled_for=MONDAY)
+    page = _today(client, world.technician)
+    assert "Today, Saturday 13 June" in page
+    assert "No visits for you today." in page
+    assert "Next visits: Monday 15 June" in page
+    assert f'data-work-order="{world.work_a.public_id}"' in page
+    # Her work planned further out is not mixed in: only Monday's visits.
+    later = scenario.make_work(ahu=world.unit_b, assignee=world.technician, title="Coil clean", due=MONDAY)
+    WorkOrder.objects.filter(pk=later.pk).update(scheduled_for=MONDAY + dt.timedelta(days=2))
+    page = _today(client, world.technician)
+    assert f'data-work-order="{world.work_a.public_id}"' in page
+    assert f'data-work-order="{later.public_id}"' not in page
+
+
+def test_a_day_with_visits_offers_no_next_day(client, world):
+    page = _today(client, world.technician)
+    assert f'data-work-order="{world.work_a.public_id}"' in page
+    assert "Next visits" not in page
+
+
+def test_no_open_work_at_all_says_so_and_offers_nothing(client, world):
+    WorkOrder.objects.filter(assignee=world.other_technician).update(state=WorkOrder.State.COMPLETED)
+    page = _today(client, world.other_technician)
+    assert "No visits for you today." in page
+    assert "Next visits" not in page
