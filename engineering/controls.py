@@ -9,15 +9,18 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from enum import StrEnum
+from itertools import pairwise
 
 from engineering import _validate as v
 from engineering.errors import EngineeringInputError
 from engineering.faults.thresholds import FaultThresholds
 
 __all__ = [
+    "BAND_ORDER",
     "Check",
     "Verdict",
     "band_check",
+    "band_in_order",
     "damper_position_check",
     "sensor_drift_check",
     "static_pressure_check",
@@ -98,6 +101,23 @@ def _ordered_limits(watch_name: str, watch: float, fail_name: str, fail: float, 
         )
 
 
+# The order of a band's limits (any may be open): what band_check, a checklist's installed limits and the readings
+# judged against a band all hold to (inspections.services.library, inspections.evaluation.readings).
+BAND_ORDER = "watch_low ≤ ok_low ≤ ok_high ≤ watch_high"
+
+
+def band_in_order(
+    *,
+    ok_low: float | None = None,
+    ok_high: float | None = None,
+    watch_low: float | None = None,
+    watch_high: float | None = None,
+) -> bool:
+    """Whether the limits that are set (None: open) are in the order ``BAND_ORDER``: each at most the next."""
+    ordered = [x for x in (watch_low, ok_low, ok_high, watch_high) if x is not None]
+    return all(a <= b for a, b in pairwise(ordered))
+
+
 def band_check(
     *,
     value: float,
@@ -120,13 +140,13 @@ def band_check(
             lims[name] = v.finite(name, lim)
     wl = lims.get("watch_low", lims.get("ok_low"))
     wh = lims.get("watch_high", lims.get("ok_high"))
-    ordered = [lims[k] for k in ("watch_low", "ok_low", "ok_high", "watch_high") if k in lims]
-    if ordered != sorted(ordered):
+    if not band_in_order(**lims):
+        ordered = tuple(lims[k] for k in ("watch_low", "ok_low", "ok_high", "watch_high") if k in lims)
         raise EngineeringInputError(
             field="ok_low",
-            value=tuple(ordered),
-            allowed="watch_low ≤ ok_low ≤ ok_high ≤ watch_high",
-            message=f"limits {lims} are not in order watch_low ≤ ok_low ≤ ok_high ≤ watch_high",
+            value=ordered,
+            allowed=BAND_ORDER,
+            message=f"limits {lims} are not in order {BAND_ORDER}",
         )
     u = f" {unit}" if unit else ""
     ok_lo, ok_hi = lims.get("ok_low"), lims.get("ok_high")

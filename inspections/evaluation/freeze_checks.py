@@ -3,20 +3,20 @@ high only trips on cool mornings (``engineering.freeze.freeze_trip_setting_check
 own (``inspections.checklists.FREEZE_TRIP_OK``, ``FREEZE_TRIP_WATCH``), as the phone receives it with the item.
 
 A band whose limits are out of order (the floor above the band, or the band's ends reversed) is a configuration error
-that the engineering check refuses. The reading is still recorded, with a result saying the limits are inconsistent,
-and that result is never ok: a fail when the setting is below every one of the limits (whichever was meant as the
-floor, the setting is under it), otherwise a watch (not proven). It keeps the freeze-protection condition, so
-freeze readiness does not count the step as passed."""
+that the engineering check refuses. The reading is still recorded as every reading against such a band is
+(``readings.inconsistent_band``): never ok, a fail when the setting is below every one of the limits (whichever was
+meant as the floor, the setting is under it), otherwise a watch (not proven); a setting too high never fails. It keeps
+the freeze-protection condition, so freeze readiness does not count the step as passed."""
 
 from __future__ import annotations
 
-from engineering.controls import Verdict
-from engineering.errors import EngineeringInputError
+from engineering.controls import Verdict, band_in_order
 from engineering.freeze import freeze_trip_setting_check
 from inspections.reasons import q as qty
 from inspections.reasons import span
 
 from .form import Form
+from .readings import inconsistent_band
 from .results import FREEZE_TRIP_SET_HIGH, ITEM_CONDITIONS, Result
 
 TRIP_ITEM = "preheater_freeze.freeze_trip_temp"
@@ -34,11 +34,24 @@ def freeze_trip_checks(form: Form, consumed: set) -> list[Result]:
             continue
         floor = lim.get("watch_min") if lim.get("watch_min") is not None else lo
         consumed.add((TRIP_ITEM, slot.component.pk if slot.component else None))
-        try:
-            chk = freeze_trip_setting_check(trip_c=t, ok_low=lo, ok_high=hi, fail_below=floor)
-        except EngineeringInputError:
-            out.append(_inconsistent(slot, t, lo, hi, floor))
+        if not band_in_order(watch_low=floor, ok_low=lo, ok_high=hi):
+            res = Result(
+                check="limits", item=TRIP_ITEM, component=slot.component, condition_code=ITEM_CONDITIONS[TRIP_ITEM]
+            )
+            out.append(
+                inconsistent_band(
+                    res,
+                    head=["freeze-protection trip temperature ", qty(t, "temperature", slot.item.decimals)],
+                    x=t,
+                    lim={"ok_min": lo, "ok_max": hi, "watch_min": floor},
+                    item=slot.item,
+                    derived={"value": t, "ok_min": lo, "ok_max": hi, "watch_min": floor, "watch_open_high": True},
+                    open_high=True,
+                    harm=": the coil can freeze before it trips",
+                )
+            )
             continue
+        chk = freeze_trip_setting_check(trip_c=t, ok_low=lo, ok_high=hi, fail_below=floor)
         high = chk.verdict == Verdict.WATCH and chk.limits["above_band_k"] > 0
         res = Result(
             check="limits",  # a number against its band, as every single reading: pages, PDFs and findings read it so
@@ -69,39 +82,3 @@ def freeze_trip_checks(form: Form, consumed: set) -> list[Result]:
             res.say(*head, " is below the recommended ", band, ": too little margin; adjust up and retest")
         out.append(res)
     return out
-
-
-def _inconsistent(slot, t: float, lo: float, hi: float, floor: float) -> Result:
-    """The trip setting against a band whose limits are out of order: never ok (see the module's docstring)."""
-    below_all = round(t, 9) < min(floor, lo, hi)
-    res = Result(
-        check="limits",
-        item=TRIP_ITEM,
-        component=slot.component,
-        verdict=(Verdict.FAIL if below_all else Verdict.WATCH).value,
-        condition_code=ITEM_CONDITIONS[TRIP_ITEM],
-        method="reading against its band, not judged: the band's limits are out of order; "
-        + (slot.item.limits_source or "common practice"),
-        derived={
-            "value": t,
-            "ok_min": lo,
-            "ok_max": hi,
-            "watch_min": floor,
-            "watch_open_high": True,
-            "limits_inconsistent": True,
-        },
-    )
-    d = slot.item.decimals
-    head = ["freeze-protection trip temperature ", qty(t, "temperature", d)]
-    res.say(
-        *head,
-        " is below every limit set for it: the coil can freeze before it trips; " if below_all else " is not proven: ",
-        "the limits for this check are inconsistent: fail below ",
-        qty(floor, "temperature", d),
-        ", ok from ",
-        qty(lo, "temperature", d),
-        " to ",
-        qty(hi, "temperature", d),
-        "; each must be at most the next. Correct the checklist's limits",
-    )
-    return res

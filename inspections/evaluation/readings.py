@@ -1,4 +1,10 @@
-"""Single readings judged on their own: a yes/no answer, a choice, a number against its band."""
+"""Single readings judged on their own: a yes/no answer, a choice, a number against its band.
+
+A band whose limits are out of order (``engineering.controls.BAND_ORDER``; a fail-below above the ok band's low end,
+or the band's ends reversed) is a configuration error. The reading is still recorded, with a result saying the limits
+are inconsistent (``inconsistent_band``), and that result is never ok: a fail when the value is beyond every limit on
+a side that fails (below them all, or above them all where the band fails high), otherwise a watch (not proven). The
+frost thermostat's trip setting is judged so too (``freeze_checks``), and the phone alike (evaluate.js)."""
 
 from __future__ import annotations
 
@@ -36,6 +42,15 @@ def reading_result(slot, value: Value) -> Result | None:
         lim = slot.limits
         if all(lim.get(k) is None for k in ("ok_min", "ok_max")):
             return None
+        derived = {"value": value.number, **{k: v for k, v in lim.items() if v is not None and "_m" in k}}
+        if not controls.band_in_order(
+            ok_low=lim.get("ok_min"),
+            ok_high=lim.get("ok_max"),
+            watch_low=lim.get("watch_min"),
+            watch_high=lim.get("watch_max"),
+        ):
+            head = [f"{it.label.lower()} ", qty(value.number, it.quantity, it.decimals)]
+            return inconsistent_band(res, head=head, x=value.number, lim=lim, item=it, derived=derived)
         check = controls.band_check(
             value=value.number,
             ok_low=lim.get("ok_min"),
@@ -49,7 +64,7 @@ def reading_result(slot, value: Value) -> Result | None:
         res.verdict = check.verdict.value
         res.say(_band_parts(it, value.number, lim, check.verdict.value))
         res.method = "reading against its band; " + (it.limits_source or "common practice")
-        res.derived = {"value": value.number, **{k: v for k, v in lim.items() if v is not None and "_m" in k}}
+        res.derived = derived
         return res
     return None
 
@@ -75,3 +90,53 @@ def _band_parts(it, x: float, lim: dict, verdict: str) -> list:
     if verdict == Verdict.WATCH:
         return [*head, " is", *outside(ok_lo, ok_hi), " but", *inside(w_lo, w_hi)]
     return [*head, " is", *outside(w_lo, w_hi)]
+
+
+def inconsistent_band(
+    res: Result, *, head: list, x: float, lim: dict, item, derived: dict, open_high: bool = False, harm: str = ""
+) -> Result:
+    """``res`` as a reading against a band whose limits are out of order: never ok (see the module's docstring).
+
+    ``head``: the reading's words and value; ``lim``: its ok_min, ok_max, watch_min (the fail-below), watch_max (any
+    None); ``open_high``: the band never fails above (the frost thermostat's); ``harm``: what a value below every
+    limit means (": the coil can freeze before it trips"). The phone's twin: evaluate.js inconsistentBand."""
+    w_lo, ok_lo, ok_hi, w_hi = (lim.get(k) for k in ("watch_min", "ok_min", "ok_max", "watch_max"))
+    fail_lo = w_lo if w_lo is not None else ok_lo
+    fail_hi = None if open_high else (w_hi if w_hi is not None else ok_hi)
+    limits = [v for v in (w_lo, ok_lo, ok_hi, w_hi) if v is not None]
+    v = round(x, 9)
+    below = fail_lo is not None and v < min(limits)
+    above = fail_hi is not None and v > max(limits)
+    res.check = "limits"
+    res.verdict = (Verdict.FAIL if below or above else Verdict.WATCH).value
+    res.method = "reading against its band, not judged: the band's limits are out of order; " + (
+        item.limits_source or "common practice"
+    )
+    res.derived = {**derived, "limits_inconsistent": True}
+
+    def at(y: float) -> object:
+        return qty(y, item.quantity, item.decimals)
+
+    said: list = []
+    if fail_lo is not None:
+        said += ["fail below ", at(fail_lo)]
+    if ok_lo is not None or ok_hi is not None:
+        said += [", " if said else "", "ok "]
+        said += ["from ", at(ok_lo)] if ok_lo is not None else []
+        said += [" to " if ok_lo is not None else "up to ", at(ok_hi)] if ok_hi is not None else []
+    if fail_hi is not None:
+        said += [", fail above ", at(fail_hi)]
+    if below:
+        verdict_words = f" is below every limit set for it{harm}; "
+    elif above:
+        verdict_words = " is above every limit set for it; "
+    else:
+        verdict_words = " is not proven: "
+    res.say(
+        *head,
+        verdict_words,
+        "the limits for this check are inconsistent: ",
+        *said,
+        "; each must be at most the next. Correct the checklist's limits",
+    )
+    return res

@@ -720,6 +720,64 @@ def test_a_trip_band_out_of_order_reads_the_same_never_ok_on_both(tmp_path, limi
     assert seen == {"watch", "fail"}
 
 
+@pytest.mark.parametrize(
+    ("item", "component", "limits"),
+    [
+        # a one-sided band (ok at most 80 %, fail above 90 %) with its fail-above under the ok band's top
+        ("humidifier.rh_downstream", "Steam humidifier", {"watch_max": 70.0}),
+        # the ok band's ends reversed under a fail-above
+        ("humidifier.rh_downstream", "Steam humidifier", {"ok_min": 85.0}),
+        # a rule's band (motor_fla: ok at most the full-load current, watch to 110 %) with its ends swapped
+        ("fan_bearings.motor_current", "Supply fan", {"ok_max": 12.1, "watch_max": 11.0}),
+        # a two-sided band with every limit out of order
+        (
+            "damper_actuator.stroke_time",
+            "Outdoor-air damper",
+            {"watch_min": 200.0, "ok_min": 150.0, "ok_max": 90.0, "watch_max": 60.0},
+        ),
+    ],
+)
+def test_a_reading_band_out_of_order_reads_the_same_never_ok_on_both(tmp_path, item, component, limits):
+    """Any numeric reading whose band has its limits out of order (a configuration error): on both it is judged
+    never ok, saying the limits are inconsistent, a fail only beyond every limit on a side that fails; the same
+    verdict, words and numbers on and beside every limit and far outside them (the server used to refuse the form;
+    the phone judged against the misordered band and could read ok). The limits are invented for the test."""
+    rng = random.Random(5)
+    ahu, comps = _unit(rng)
+    slots = _slots(ahu, comps)
+    [slot] = [s for s in slots if s.item.api_key == item and s.component.name == component]
+    slot.limits = {**slot.limits, **limits}
+    band = {k: slot.limits.get(k) for k in ("watch_min", "ok_min", "ok_max", "watch_max")}
+    edges = sorted({v for v in band.values() if v is not None})
+    values = [*edges, *(e - 0.01 for e in edges), *(e + 0.01 for e in edges), min(edges) / 2, max(edges) * 2]
+    cases = [
+        {
+            "ahu": ahu,
+            "components": comps,
+            "slots": slots,
+            "values": {(item, slot.component.pk): x},
+            "points": {},
+            "codes": {c.pk: c.label_code for c in comps},
+        }
+        for x in values
+    ]
+    js = run_js([js_input(c) for c in cases], tmp_path)["out"]
+    fails_low = band["watch_min"] is not None or band["ok_min"] is not None
+    fails_high = band["watch_max"] is not None or band["ok_max"] is not None
+    problems, seen = [], set()
+    for x, case, j in zip(values, cases, js, strict=True):
+        assert "error" not in j, j["error"]
+        py = python_results(case)
+        problems.extend(f"{x}: {p}" for p in compare(case, py, j["results"]))
+        [p] = [r for r in py if r["item"] == item]
+        assert p["verdict"] != "ok" and "the limits for this check are inconsistent" in p["reason"], p
+        beyond = (fails_low and x < min(edges)) or (fails_high and x > max(edges))
+        assert p["verdict"] == ("fail" if beyond else "watch"), (x, p)
+        seen.add(p["verdict"])
+    assert not problems, "\n".join(problems[:25])
+    assert seen == {"watch", "fail"}
+
+
 # ---------------------------------------------------------------------------
 # The field calculator: frontend/calculators.py against calc.js
 # ---------------------------------------------------------------------------

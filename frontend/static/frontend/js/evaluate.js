@@ -1119,8 +1119,12 @@ function freezeTripChecks(form, consumed) {
     if (typeof t !== "number" || lo === null || hi === null) continue;
     const floor = lim.watch_min ?? lo;
     consumed.add(key);
-    if (!(floor <= lo && lo <= hi)) {
-      out.push(freezeTripInconsistent(slot, t, lo, hi, floor));
+    if (!bandInOrder(floor, lo, hi, null)) {
+      const res = result({ check: "limits", item: TRIP_ITEM, component: slot.component, condition_code: "freeze_protection_failed" });
+      out.push(inconsistentBand(res, ["freeze-protection trip temperature ", q(t, "temperature", slot.decimals)], t,
+        { ok_min: lo, ok_max: hi, watch_min: floor }, slot,
+        { value: t, ok_min: lo, ok_max: hi, watch_min: floor, watch_open_high: true },
+        { openHigh: true, harm: ": the coil can freeze before it trips" }));
       continue;
     }
     const x = pyRound(t, 9);
@@ -1147,24 +1151,6 @@ function freezeTripChecks(form, consumed) {
     out.push(res);
   }
   return out;
-}
-
-// A band whose limits are out of order (freeze_checks._inconsistent): never ok. A fail when the setting is below
-// every one of the limits, otherwise a watch (not proven); the freeze-protection condition, so readiness never passes it.
-function freezeTripInconsistent(slot, t, lo, hi, floor) {
-  const belowAll = pyRound(t, 9) < Math.min(floor, lo, hi);
-  const res = result({
-    check: "limits", item: TRIP_ITEM, component: slot.component, verdict: belowAll ? FAIL : WATCH,
-    condition_code: "freeze_protection_failed",
-    method: `reading against its band, not judged: the band's limits are out of order; ${slot.limits_source || "common practice"}`,
-    derived: { value: t, ok_min: lo, ok_max: hi, watch_min: floor, watch_open_high: true, limits_inconsistent: true },
-  });
-  const d = slot.decimals;
-  say(res, "freeze-protection trip temperature ", q(t, "temperature", d),
-    belowAll ? " is below every limit set for it: the coil can freeze before it trips; " : " is not proven: ",
-    "the limits for this check are inconsistent: fail below ", q(floor, "temperature", d), ", ok from ",
-    q(lo, "temperature", d), " to ", q(hi, "temperature", d), "; each must be at most the next. Correct the checklist's limits");
-  return res;
 }
 
 function heatRecoveryChecks(form) {
@@ -1209,6 +1195,45 @@ function heatRecoveryChecks(form) {
   return out;
 }
 
+// engineering.controls.band_in_order: the limits that are set (null: open) each at most the next.
+function bandInOrder(watchLow, okLow, okHigh, watchHigh) {
+  const set = [watchLow, okLow, okHigh, watchHigh].filter((x) => x !== null && x !== undefined);
+  return set.every((x, i) => i === 0 || set[i - 1] <= x);
+}
+
+// A reading against a band whose limits are out of order (evaluation.readings.inconsistent_band): never ok. A fail
+// when the value is beyond every limit on a side that fails (below them all; above them all unless openHigh),
+// otherwise a watch (not proven); the words name the limits as they are, to be corrected.
+function inconsistentBand(res, head, x, lim, slot, derived, { openHigh = false, harm = "" } = {}) {
+  const has = (k) => lim[k] !== null && lim[k] !== undefined;
+  const [wLo, okLo, okHi, wHi] = ["watch_min", "ok_min", "ok_max", "watch_max"].map((k) => (has(k) ? lim[k] : null));
+  const failLo = wLo !== null ? wLo : okLo;
+  const failHi = openHigh ? null : (wHi !== null ? wHi : okHi);
+  const limits = [wLo, okLo, okHi, wHi].filter((v) => v !== null);
+  const v = pyRound(x, 9);
+  const below = failLo !== null && v < Math.min(...limits);
+  const above = failHi !== null && v > Math.max(...limits);
+  res.check = "limits";
+  res.verdict = below || above ? FAIL : WATCH;
+  res.method = `reading against its band, not judged: the band's limits are out of order; ${slot.limits_source || "common practice"}`;
+  res.derived = { ...derived, limits_inconsistent: true };
+  const at = (y) => q(y, slot.quantity, slot.decimals);
+  const said = [];
+  if (failLo !== null) said.push("fail below ", at(failLo));
+  if (okLo !== null || okHi !== null) {
+    said.push(said.length ? ", " : "", "ok ");
+    if (okLo !== null) said.push("from ", at(okLo));
+    if (okHi !== null) said.push(okLo !== null ? " to " : "up to ", at(okHi));
+  }
+  if (failHi !== null) said.push(", fail above ", at(failHi));
+  let words = " is not proven: ";
+  if (below) words = ` is below every limit set for it${harm}; `;
+  else if (above) words = " is above every limit set for it; ";
+  say(res, ...head, words, "the limits for this check are inconsistent: ", ...said,
+    "; each must be at most the next. Correct the checklist's limits");
+  return res;
+}
+
 function bandParts(slot, x, lim, verdict) {
   const d = slot.decimals;
   const okLo = lim.ok_min ?? null;
@@ -1246,6 +1271,11 @@ function readingResult(slot, value) {
     const lim = slot.limits;
     const has = (k) => lim[k] !== null && lim[k] !== undefined;
     if (!has("ok_min") && !has("ok_max")) return null;
+    const derived = { value };
+    for (const [k, v] of Object.entries(lim)) if (v !== null && v !== undefined && k.includes("_m")) derived[k] = v;
+    if (!bandInOrder(lim.watch_min, lim.ok_min, lim.ok_max, lim.watch_max)) {
+      return inconsistentBand(res, [`${slot.label.toLowerCase()} `, q(value, slot.quantity, slot.decimals)], value, lim, slot, derived);
+    }
     const okLo = has("ok_min") ? lim.ok_min : -Infinity;
     const okHi = has("ok_max") ? lim.ok_max : Infinity;
     const wLo = has("watch_min") ? lim.watch_min : okLo;
@@ -1257,8 +1287,7 @@ function readingResult(slot, value) {
     res.verdict = verdict;
     say(res, bandParts(slot, value, lim, verdict));
     res.method = `reading against its band; ${slot.limits_source || "common practice"}`;
-    res.derived = { value };
-    for (const [k, v] of Object.entries(lim)) if (v !== null && v !== undefined && k.includes("_m")) res.derived[k] = v;
+    res.derived = derived;
     return res;
   }
   return null;
