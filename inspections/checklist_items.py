@@ -6,7 +6,10 @@ rows hold (``inspections.services.library``).
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from typing import Any
+
+from engineering.controls import band_in_order
 
 # Ranges that no reading in an AHU can leave (SI). Air from −60 to 120 °C
 # covers any climate and a heater outlet; fluids −40 to 200 °C cover brine to
@@ -19,6 +22,26 @@ CO2_PHYSICAL = (0.0, 50_000.0)
 PCT = (0.0, 100.0)
 
 OK_CHOICE = "ok"  # marker key in choice dicts
+
+# An item's ok/watch band, in the order its limits must keep (engineering.controls.BAND_ORDER): below watch_min
+# fails, below ok_min a watch, above ok_max a watch, above watch_max fails; any may be blank (open).
+BAND_FIELDS = ("watch_min", "ok_min", "ok_max", "watch_max")
+BAND_ALLOWED = "watch_min ≤ ok_min ≤ ok_max ≤ watch_max, each at most the next (any may be blank)"
+
+
+def band_order_problem(limits: Mapping[str, float | None]) -> str:
+    """What is wrong with a band whose limits are out of order, and what is allowed; "" when they are in order.
+
+    The one rule (``band_in_order``) the evaluation holds readings to: a library template installed
+    (``services.library.template_check``) or a template row cleaned is refused by it, and the limit rules
+    (``inspections.limits.dynamic_limits``) are held to it over every part the registry accepts
+    (tests/inspections/test_band_order.py). A band out of order that still reaches a reading (a row changed in the
+    database, specs saved before the registry checked them) is judged never ok (``evaluation.readings``)."""
+    w_lo, ok_lo, ok_hi, w_hi = (limits.get(k) for k in BAND_FIELDS)
+    if band_in_order(watch_low=w_lo, ok_low=ok_lo, ok_high=ok_hi, watch_high=w_hi):
+        return ""
+    given = ", ".join(f"{k} {limits[k]:g}" for k in BAND_FIELDS if limits.get(k) is not None)
+    return f"limits {given} are not in order; allowed: {BAND_ALLOWED}"
 
 
 def choice(value: str, label: str, ok: bool = True) -> dict:

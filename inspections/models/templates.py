@@ -2,7 +2,10 @@
 
 from __future__ import annotations
 
+from django.core.exceptions import ValidationError
 from django.db import models
+
+from inspections.checklist_items import BAND_FIELDS, band_order_problem
 
 
 class ChecklistTemplate(models.Model):
@@ -71,6 +74,14 @@ class ChecklistItem(models.Model):
 
     def __str__(self) -> str:
         return self.api_key
+
+    def clean(self) -> None:
+        """A band whose limits are out of order is refused, naming the item, its limits and what is allowed."""
+        super().clean()
+        problem = band_order_problem({k: getattr(self, k) for k in BAND_FIELDS})
+        if problem:
+            name = self.api_key if self.template_id else self.key
+            raise ValidationError({"ok_min": [f"{name}: {problem}"]})
 
     @property
     def api_key(self) -> str:

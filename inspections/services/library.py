@@ -1,10 +1,13 @@
 """Install the checklist library (inspections/checklists.py) as template rows."""
 
 import functools
+from typing import Any
 
+from django.core.exceptions import ValidationError
 from django.db import IntegrityError, transaction
 
 from inspections import checklists
+from inspections.checklist_items import band_order_problem
 from inspections.models import ChecklistItem, ChecklistTemplate
 
 _ITEM_FIELDS = [f.name for f in ChecklistItem._meta.get_fields() if f.concrete and f.name not in {"id", "template"}]
@@ -15,9 +18,12 @@ def checklist_library_install() -> list[ChecklistTemplate]:
 
     Idempotent: an existing (code, version) is left untouched, so inspections
     filled against it keep pointing at exactly what they were filled against.
+    A template to install with an item whose band is out of order is refused before anything is written
+    (``ValidationError`` keyed by the item's API key, naming its limits and what is allowed).
     """
     out = []
     existing = {(t.code, t.version): t for t in ChecklistTemplate.objects.all()}
+    template_check([s for s in checklists.all_templates() if (s["code"], s["version"]) not in existing])
     for spec in checklists.all_templates():
         template = existing.get((spec["code"], spec["version"]))
         if template is None:
@@ -39,6 +45,19 @@ def checklist_library_install() -> list[ChecklistTemplate]:
                 template = ChecklistTemplate.objects.get(code=spec["code"], version=spec["version"])
         out.append(template)
     return out
+
+
+def template_check(specs: list[dict[str, Any]]) -> None:
+    """Refuse library templates with an item whose ok/watch band is out of order (``band_order_problem``): every such
+    item, by API key, with its limits and what is allowed."""
+    problems = {
+        f"{spec['code']}.{it['key']}": [problem]
+        for spec in specs
+        for it in spec["items"]
+        if (problem := band_order_problem(it))
+    }
+    if problems:
+        raise ValidationError(problems)
 
 
 def templates_current(*, codes: list[str] | None = None) -> dict[str, ChecklistTemplate]:
