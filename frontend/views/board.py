@@ -105,7 +105,9 @@ def board(request):
         if zone not in zone_today:
             zone_today[zone] = today_for(zone)
         r["site_zone"], r["site_today"] = zone, zone_today[zone]
-        r["plan_default"] = offered_day(scheduled_for=r["scheduled_for"], due_date=r["due_date"], today=r["site_today"])
+        r["plan_default"] = offered_day(
+            scheduled_for=r["scheduled_for"], due_date=r["due_date"], today=r["site_today"], priority=r["priority"]
+        )
         due = WorkOrder(state=r["state"], due_date=r["due_date"], overdue_on=r["overdue_on"])
         r["due_text"] = due.due_words_on(r["site_today"]) if r["due_date"] < r["site_today"] else ""
         r["kind_label"] = WorkOrder.Kind(r["kind"]).label

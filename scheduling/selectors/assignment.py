@@ -87,7 +87,13 @@ def assignment_check(*, work_order: WorkOrder, technician, day: dt.date) -> Assi
     )
 
 
-def offered_day(*, scheduled_for: dt.date | None, due_date: dt.date, today: dt.date) -> dt.date:
+def offered_day(*, scheduled_for: dt.date | None, due_date: dt.date, today: dt.date, priority: str) -> dt.date:
     """The day a board row offers for its visit: its plan, else its due date, never a day already past at its
-    site (``today`` is the site's: the schedule service refuses a day before it) nor a weekend day."""
-    return scheduled_for or weekday_on_or_near(max(due_date, today), today=today)
+    site (``today`` is the site's: the schedule service refuses a day before it) nor a weekend day
+    (:func:`weekday_on_or_near`). Urgent work already due or overdue is offered ``today`` itself, weekend or
+    not: it is not pushed past a weekend (freeze protection on a frosty Saturday)."""
+    if scheduled_for:
+        return scheduled_for
+    if priority == WorkOrder.Priority.URGENT and due_date <= today:
+        return today
+    return weekday_on_or_near(max(due_date, today), today=today)

@@ -155,6 +155,7 @@ def board_suggestions(*, organisation, rows: list[dict]) -> list[dict]:
             "public_id",
             "scheduled_for",
             "due_date",
+            "priority",
             "ahu__building__site_id",
             "ahu__building__site__latitude",
             "ahu__building__site__longitude",
@@ -174,7 +175,9 @@ def board_suggestions(*, organisation, rows: list[dict]) -> list[dict]:
         if site_id not in site_today:
             site_today[site_id] = today_for(wo["ahu__building__site__time_zone"] or "UTC")  # as today_for(site)
         today = site_today[site_id]
-        day = offered_day(scheduled_for=wo["scheduled_for"], due_date=wo["due_date"], today=today)
+        day = offered_day(
+            scheduled_for=wo["scheduled_for"], due_date=wo["due_date"], today=today, priority=wo["priority"]
+        )
         if date_problem(day, label="day", today=today) is None:
             where = (wo["ahu__building__site__latitude"], wo["ahu__building__site__longitude"])
             days[pk] = (WorkNeed(wo["minutes"], site_id, where, frozenset(wo["skills"])), day)

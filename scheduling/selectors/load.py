@@ -71,7 +71,7 @@ def capacity_on(user, day: dt.date) -> float:
     """Hours of field work ``user`` has on ``day``: their daily capacity. Every day counts alike, weekends too:
     work left unplanned is counted on its due date, which the calendar rules put on any day, and a weekend due
     date must not read as an overload. Weekend work is avoided where it is chosen instead: the day offered for
-    it is a weekday (:func:`weekday_on_or_near`)."""
+    it is a weekday (:func:`weekday_on_or_near`), save for Urgent work already due (``offered_day``)."""
     return float(user.daily_capacity_hours)
 
 
