@@ -33,6 +33,7 @@ from .api_requests import (
     TODAY,
     board_params,
     caller_organisation,
+    kept_zone,
     today_params,
     work_order_managed,
     work_order_seen,
@@ -247,7 +248,8 @@ class TodayVisits(APIView):
         day, start = key = today_params(request, request.user)
 
         def build():
-            return today_visits_for(technician=request.user, day=day, start=start)
+            today = today_for(kept_zone(request, request.user))  # the caller's today: their visits in progress
+            return today_visits_for(technician=request.user, day=day, start=start, today=today)
 
         answer = json_answer(request, polled=TODAY, key=key, build=build)
         return revalidated(answer or Response(build()))

@@ -90,11 +90,15 @@ def today(request):
     now = timezone.now()
     zone = time_zone_for(request.user)  # the clock the person works by (inventory.today)
     day = today_for(zone, now=now)
-    visits = _with_page_words(today_visits_for(technician=request.user, day=day), now=now)
+    visits = _with_page_words(today_visits_for(technician=request.user, day=day, today=day), now=now)
     # Nothing today (a weekend, a day off): the next day with visits, to look at and prepare (and saved for
     # offline like today's, for a phone that goes out of signal on the way).
     next_day = None if visits else next_visit_day(technician=request.user, after=day)
-    coming = _with_page_words(today_visits_for(technician=request.user, day=next_day), now=now) if next_day else []
+    coming = (
+        _with_page_words(today_visits_for(technician=request.user, day=next_day, today=day), now=now)
+        if next_day
+        else []
+    )
     return render(
         request,
         "frontend/technician/today.html",

@@ -7,14 +7,22 @@ import functools
 
 from django.db.models import Q, QuerySet
 
+from inventory.today import today_for
+
 from .. import routing, shapes
 from ..models import WorkOrder
 
 
-def _today_orders(*, technician, day: dt.date) -> QuerySet[WorkOrder]:
+def _today_orders(*, technician, day: dt.date, today: dt.date) -> QuerySet[WorkOrder]:
+    """Open visits of ``technician`` for ``day``: planned that day, or unplanned and due by then; on ``today`` (the
+    technician's) also every visit of theirs already in progress, whatever day it was planned for (a visit planned
+    for Monday and started on Saturday is on Saturday's list)."""
+    on_day = Q(scheduled_for=day) | Q(scheduled_for__isnull=True, due_date__lte=day)
+    if day == today:
+        on_day |= Q(state=WorkOrder.State.IN_PROGRESS)
     return WorkOrder.objects.filter(
         assignee=technician, state__in=[WorkOrder.State.ASSIGNED, WorkOrder.State.IN_PROGRESS]
-    ).filter(Q(scheduled_for=day) | Q(scheduled_for__isnull=True, due_date__lte=day))
+    ).filter(on_day)
 
 
 def next_visit_day(*, technician, after: dt.date) -> dt.date | None:
@@ -67,15 +75,18 @@ _TODAY_COLUMNS = (
 )
 
 
-def today_visits_for(*, technician, day: dt.date, start: tuple[float, float] | None = None) -> list[dict]:
-    """The technician's open visits for ``day`` (scheduled that day, or unscheduled and due by then), one stop
-    per site, in a suggested driving order from ``start`` (default: the first site due): the today API's answer
+def today_visits_for(
+    *, technician, day: dt.date, start: tuple[float, float] | None = None, today: dt.date | None = None
+) -> list[dict]:
+    """The technician's open visits for ``day`` (scheduled that day, or unscheduled and due by then; on their
+    ``today``, by default ``inventory.today.today_for(technician)``, also those in progress whatever their day), one
+    stop per site, in a suggested driving order from ``start`` (default: the first site due): the today API's answer
     and the today page's list alike.
 
     Plain dicts in the API's visit shape (each work order as the work-order endpoint shows it, with its tasks,
     :mod:`scheduling.shapes`), read in one query: work orders left-joined to their tasks."""
     rows = (
-        _today_orders(technician=technician, day=day)
+        _today_orders(technician=technician, day=day, today=today or today_for(technician))
         .order_by("due_date", "id", "tasks__due_date", "tasks__id")
         .values(*_TODAY_COLUMNS)
     )

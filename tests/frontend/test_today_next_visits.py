@@ -78,3 +78,29 @@ def test_no_open_work_at_all_says_so_and_offers_nothing(client, world):
     page = _today(client, world.other_technician)
     assert "No visits for you today." in page
     assert "Next visits" not in page
+
+
+def test_a_visit_in_progress_planned_for_monday_is_on_saturdays_today(client, api_client, world, clock):
+    """Tess started Monday's visit on Saturday: it is on her today (page and API), not under Monday; her other
+    visit planned for Monday (not started) and Omar's visit in progress stay off her today."""
+    clock.move_to(SATURDAY)
+    started = world.work_a
+    WorkOrder.objects.filter(pk=started.pk).update(scheduled_for=MONDAY, state=WorkOrder.State.IN_PROGRESS)
+    waiting = scenario.make_work(ahu=world.unit_b, assignee=world.technician, title="Coil clean", due=MONDAY)
+    WorkOrder.objects.filter(pk=waiting.pk).update(scheduled_for=MONDAY)
+    WorkOrder.objects.filter(pk=world.work_b.pk).update(
+        assignee=world.other_technician, scheduled_for=MONDAY, state=WorkOrder.State.IN_PROGRESS
+    )
+    page = _today(client, world.technician)
+    assert "Today, Saturday 13 June" in page
+    assert "No visits for you today." not in page and "Next visits" not in page
+    assert f'data-work-order="{started.public_id}"' in page
+    assert f'data-work-order="{waiting.public_id}"' not in page
+    assert f'data-work-order="{world.work_b.public_id}"' not in page
+    api_client.force_authenticate(world.technician)
+    for path in ("/api/scheduling/today/", "/api/scheduling/today/?day=2026-06-13"):
+        visits = api_client.get(path).json()
+        assert [w["id"] for v in visits for w in v["work_orders"]] == [str(started.public_id)], path
+    # Monday's list itself is unchanged: both of her visits planned for it.
+    monday = api_client.get(f"/api/scheduling/today/?day={MONDAY.isoformat()}").json()
+    assert {w["id"] for v in monday for w in v["work_orders"]} == {str(started.public_id), str(waiting.public_id)}
