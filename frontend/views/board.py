@@ -24,6 +24,7 @@ from scheduling.selectors import (
     board_page_for,
     board_suggestions,
     offered_day,
+    overdue_awaiting_approval,
     technician_load,
     work_order_for,
     work_orders_to_verify,
@@ -139,6 +140,10 @@ def board(request):
         {"key": key, "title": title, "rows": data[key], "total": data["counts"][key]}
         for key, title in (("overdue", "Overdue"), ("due", "Due, not assigned"), ("assigned", "Assigned"))
     ]
+    # Overdue proposed work the sections leave out until it is approved: shown, with the way to approve it.
+    awaiting = overdue_awaiting_approval(organisation=org)
+    for wo in awaiting:
+        wo.due_text = wo.due_words_on(wo.site_today)
     load = technician_load(organisation=org, start=week, days=7)
     to_verify = list(work_orders_to_verify(organisation=org))
     flagged = {f.work_order_id: f for f in flagged_forms_for(user=request.user)}
@@ -159,6 +164,7 @@ def board(request):
             "columns": columns,
             "skipped": stored_problems(organisation=org, today=today),
             "to_verify": to_verify,
+            "overdue_awaiting": awaiting,
             "flagged": list(flagged.values()),
         },
     )

@@ -17,6 +17,7 @@ from .board import (
     TO_VERIFY_FIELDS,
     board_page_for,
     board_suggestions,
+    overdue_awaiting_approval,
     to_verify_rows,
     work_orders_to_verify,
 )
@@ -64,6 +65,7 @@ __all__ = [
     "least_loaded_for",
     "next_visit_day",
     "offered_day",
+    "overdue_awaiting_approval",
     "skills_needed",
     "suggested_technicians",
     "task_for_unit",

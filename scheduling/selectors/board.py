@@ -189,6 +189,30 @@ def board_suggestions(*, organisation, rows: list[dict]) -> list[dict]:
     return rows
 
 
+def overdue_awaiting_approval(*, organisation) -> list[WorkOrder]:
+    """Proposed corrective work still awaiting approval (the corrective page's list) that is overdue at its site
+    (:meth:`WorkOrder.is_overdue_on` on the site's today), due date first, each with ``site_today``. The board's
+    sections leave unapproved work out; this is said beside them so the supervisor sees it, as the property
+    manager's dashboard and the compliance PDF count it overdue."""
+    latest_today = today_for(organisation) + dt.timedelta(days=2)  # no zone's date is two days ahead of another's
+    found = []
+    for wo in (
+        WorkOrder.objects.filter(
+            organisation=organisation,
+            kind=WorkOrder.Kind.CORRECTIVE,
+            approval=WorkOrder.Approval.PENDING,
+            state__in=WorkOrder.OPEN_STATES,
+            due_date__lt=latest_today,
+        )
+        .select_related("ahu__building__site")
+        .order_by("due_date", "id")
+    ):
+        wo.site_today = today_for(wo.ahu.building.site)
+        if wo.is_overdue_on(wo.site_today):
+            found.append(wo)
+    return found
+
+
 def work_orders_to_verify(*, organisation, limit: int = 100) -> QuerySet[WorkOrder]:
     """Completed work waiting for the supervisor's verification, longest waiting first."""
     return (
