@@ -57,15 +57,26 @@ class OaFraction:
     outdoor_return_difference: float
 
 
+# A fraction and its uncertainty are kept in a record to three decimals (0.311 ± 0.035).
+KEPT_DECIMALS = 3
+
+
+def kept(x: float) -> float:
+    """A fraction or its uncertainty as a record keeps it (``KEPT_DECIMALS``); every text says this value, so
+    the words said at the visit and those said later from the record (findings, PDF) are the same."""
+    return round(x, KEPT_DECIMALS)
+
+
 def points_words(uncertainty: float) -> str:
-    """An uncertainty of a fraction as every text states it: "± 3 points" (percentage points, whole)."""
-    return f"± {uncertainty * 100:.0f} points"
+    """An uncertainty of a fraction as every text states it: "± 3 points" (percentage points, whole, of the
+    value as kept: 0.0348 is kept 0.035 and reads "± 4 points" at the visit and from the record alike)."""
+    return f"± {kept(uncertainty) * 100:.0f} points"
 
 
 def fraction_words(fraction: float, uncertainty: float) -> str:
-    """A fraction and its uncertainty as every text states them: "41 % ± 3 points" (the phone's evaluate.js
-    has the same words, fractionWords)."""
-    return f"{fraction * 100:.0f} % {points_words(uncertainty)}"
+    """A fraction and its uncertainty as every text states them: "41 % ± 3 points", of the values as kept (the
+    phone's evaluate.js has the same words, fractionWords)."""
+    return f"{kept(fraction) * 100:.0f} % {points_words(uncertainty)}"
 
 
 # The measurement a fraction was found by, in words for messages.

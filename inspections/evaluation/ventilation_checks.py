@@ -118,8 +118,8 @@ def oa_fraction_checks(form: Form, consumed: set) -> list[Result]:
             continue
         oa_q = outdoor_air.outdoor_airflow_m3s(fraction=frac.fraction, supply_airflow_m3s=q)
         res.derived = {
-            "oa_fraction": round(frac.fraction, 3),
-            "uncertainty": round(frac.uncertainty, 3),
+            "oa_fraction": outdoor_air.kept(frac.fraction),  # kept as every text says it (fraction_words)
+            "uncertainty": outdoor_air.kept(frac.uncertainty),
             "outdoor_airflow_m3s": round(oa_q, 3),
             "supply_airflow_m3s": q,
             "airflow_source": q_how,

@@ -983,3 +983,34 @@ def test_a_comma_that_may_group_thousands_is_refused_alike_with_both_readings(tm
     assert all(parse_number(t) is None for t in refused)
     assert (parse_number("0,125"), parse_number("12,50"), parse_number("1,2345")) == (0.125, 12.5, 1.2345)
     assert parse_number("12075") == 12075 and parse_number("12.075") == 12.075
+
+
+def test_an_outdoor_air_fraction_says_one_uncertainty_on_the_phone_the_server_and_the_finding(tmp_path):
+    """Tryout: outdoor 0 °C, return 18 °C, mixed 12.4 °C. x = (18 − 12.4)/18 = 0.311 and, with ±0.5 K on each
+    sensor (common practice) propagated to first order (GUM §5.1.2, from memory), u = 0.0348: kept as 0.035 in the
+    record. The phone said "± 3 points" from u unrounded, the finding and the PDF "± 4 points" from the kept 0.035;
+    every text now says the kept value, so all three read the same."""
+    from engineering.outdoor_air import fraction_words
+
+    rng = random.Random(5)
+    ahu, comps = _unit(rng)
+    values = {
+        ("ventilation_check.outdoor_air", None): 0.0,
+        ("ventilation_check.return_air", None): 18.0,
+        ("ventilation_check.mixed_air", None): 12.4,
+    }
+    case = {
+        "ahu": ahu,
+        "components": comps,
+        "slots": _slots(ahu, comps),
+        "values": values,
+        "points": {},
+        "codes": {c.pk: c.label_code for c in comps},
+    }
+    [py] = [r for r in python_results(case) if r["check"] == "oa_fraction_temperature"]
+    [js] = [r for r in run_js([js_input(case)], tmp_path)["out"][0]["results"] if r["check"] == "oa_fraction_temperature"]
+    kept = fraction_words(py["derived"]["oa_fraction"], py["derived"]["uncertainty"])  # as the finding says it
+    assert py["derived"]["uncertainty"] == js["derived"]["uncertainty"] == 0.035
+    assert kept in py["reason"] and kept in js["reason"], (kept, py["reason"], js["reason"])
+    assert py["reason"] == js["reason"]
+

@@ -351,14 +351,17 @@ export function filterForecast(ctx, { points, qd, final, confidence = 0.9, minRi
   };
 }
 
-/** An uncertainty of a fraction as every text states it: "± 3 points" (engineering/outdoor_air.py: points_words). */
+// A fraction and its uncertainty as a record keeps them, three decimals (engineering/outdoor_air.py: kept).
+const keptFraction = (x) => pyRound(x, 3);
+
+/** An uncertainty of a fraction as every text states it, of the value as kept: "± 3 points" (engineering/outdoor_air.py: points_words). */
 export function pointsWords(u) {
-  return `± ${fixed(u * 100, 0)} points`;
+  return `± ${fixed(keptFraction(u) * 100, 0)} points`;
 }
 
-/** A fraction and its uncertainty: "41 % ± 3 points" (engineering/outdoor_air.py: fraction_words). */
+/** A fraction and its uncertainty, as kept: "41 % ± 3 points" (engineering/outdoor_air.py: fraction_words). */
 export function fractionWords(x, u) {
-  return `${fixed(x * 100, 0)} % ${pointsWords(u)}`;
+  return `${fixed(keptFraction(x) * 100, 0)} % ${pointsWords(u)}`;
 }
 
 function oaFraction({ method, outdoor, ret, mixed, accO, accR, accM, minDifference, maxUncertainty = 0.5, unit, names }) {
@@ -796,7 +799,7 @@ function oaChecks(form) {
     const need = u.ventilation_requirement;
     const designMinQ = u.design_min_oa_fraction * u.design_supply_airflow_m3s;
     res.derived = {
-      oa_fraction: pyRound(frac.fraction, 3), uncertainty: pyRound(frac.uncertainty, 3),
+      oa_fraction: keptFraction(frac.fraction), uncertainty: keptFraction(frac.uncertainty),
       outdoor_airflow_m3s: pyRound(oaQ, 3), supply_airflow_m3s: flow, airflow_source: how,
       design_min_oa_fraction: u.design_min_oa_fraction,
       design_min_outdoor_airflow_m3s: pyRound(designMinQ, 3),
