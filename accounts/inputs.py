@@ -26,7 +26,7 @@ from django.core.exceptions import ValidationError
 from django.utils.dateparse import parse_datetime
 
 from accounts.clock import local_time_text
-from accounts.typed_numbers import comma_words, parse_number  # the typed-number reader, answered from here too
+from accounts.typed_numbers import comma_words, parse_number, typed_words  # the typed-number reader, answered from here too
 from engineering.errors import EngineeringInputError
 from engineering.units import to_display, unit_label
 
@@ -149,7 +149,7 @@ def check_number(
         return None
     value = parse_number(raw)
     if value is None:
-        ambiguous = comma_words(raw)
+        ambiguous = typed_words(raw)
         errors.add(
             key,
             f"{label}: {ambiguous}"
