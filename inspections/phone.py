@@ -24,15 +24,15 @@ from engineering import formatting as fmt
 from engineering import units as eng_units
 from engineering.airside import fluid_properties
 from engineering.errors import EngineeringInputError
-from engineering.filters import FilterPoint
 from engineering.psychro import pressure_from_altitude
 from engineering.units import SYSTEMS
 from inspections import flags
 from inspections.display import DRIFT_QUANTITIES, reading_words
 from inspections.evaluation import control_checks, heat_checks, valve_checks, ventilation_checks
 from inspections.evaluation.results import ITEM_CONDITIONS
+from inspections.selectors.filter_banks import FILTER_READING
 
-CONTEXT_VERSION = 1
+CONTEXT_VERSION = 2  # 2: filter points carry their source and time (evaluate.js onOneMeter)
 # Quantities of readings and reasons; plain ones (percent, current, time) have no conversion.
 _UNIT_QUANTITIES = (*eng_units.QUANTITIES, *(q for q in fmt.PLAIN_UNITS if q))
 
@@ -156,26 +156,39 @@ def constants() -> dict[str, Any]:
     }
 
 
+def _filter_point(p: Any) -> dict[str, Any]:
+    """A point of a bank's present filters as the phone joins its own reading to them (evaluate.js onOneMeter,
+    the twin of ``FilterLife.forecast_points``): a series point (``FilterSeriesPoint``, with its source and time)
+    or a plain ``FilterPoint`` (a technician's reading at noon UTC of its day)."""
+    at = getattr(p, "at", None) or p.when
+    if not isinstance(at, dt.datetime):
+        at = dt.datetime.combine(at, dt.time(12), tzinfo=dt.UTC)
+    return {
+        "run_hours": p.run_hours,
+        "dp_pa": p.dp_pa,
+        "airflow_m3s": p.airflow_m3s,
+        "when": at.date().isoformat(),
+        "at": at.astimezone(dt.UTC).isoformat(),
+        "source": getattr(p, "source", FILTER_READING),
+    }
+
+
 def evaluation_context(
     *,
     ahu,
     components: list,
     slots: list,
-    filter_points: Callable[[Any], list[FilterPoint]] = lambda component: [],
+    filter_points: Callable[[Any], list[Any]] = lambda component: [],
 ) -> dict[str, Any]:
-    """The phone's evaluation context: the same inputs ``evaluation.Form`` gives ``evaluate``, as JSON (SI)."""
+    """The phone's evaluation context: the same inputs ``evaluation.Form`` gives ``evaluate``, as JSON (SI).
+
+    ``filter_points(bank)``: the points of the bank's present filters as read (``FilterLife.points``), every
+    source on its own meter; the phone joins its own reading to them by the server's rule (evaluate.js
+    onOneMeter, ``FilterLife.forecast_points``), so both forecast from the same points."""
     points: dict[str, list[dict]] = {}
     for c in components:
         if c.kind == "filter_bank":
-            points[c.label_code] = [
-                {
-                    "run_hours": p.run_hours,
-                    "dp_pa": p.dp_pa,
-                    "airflow_m3s": p.airflow_m3s,
-                    "when": (p.when.date() if isinstance(p.when, dt.datetime) else p.when).isoformat(),
-                }
-                for p in filter_points(c)
-            ]
+            points[c.label_code] = [_filter_point(p) for p in filter_points(c)]
     need = ventilation_checks.ventilation_requirement(ahu)
     return {
         "version": CONTEXT_VERSION,
@@ -250,7 +263,7 @@ def checklist_context(*, checklist, as_of: dt.datetime) -> dict[str, Any]:
             ahu=ahu,
             components=components,
             slots=checklist.slots,
-            filter_points=lambda bank: series[bank.pk].current.points_for_next_reading(),
+            filter_points=lambda bank: series[bank.pk].current.points,
         ),
         "meter": meter_context(ahu=ahu, as_of=as_of),
         # A reading no check judges, in the server's words (inspections.display).

@@ -100,18 +100,12 @@ class FilterLife:
                 after_change=False,
             )
             points = (*points, new)
-        return _on_one_meter(points, next_typed=False)
-
-    def points_for_next_reading(self) -> list[FilterPoint]:
-        """The points a technician's next reading (on the typed meter, newer than every point) joins, for a
-        forecast made before its run-hours are known (the phone's, offline): ``forecast_points``'s when the trend
-        days are already on the typed meter's scale; with no reading near a trend day, the typed readings alone
-        (the next reading is the newest evidence, and trend days from another zero cannot join it)."""
-        return _on_one_meter(self.points, next_typed=True)
+        return _on_one_meter(points)
 
 
-def _on_one_meter(points, *, next_typed: bool) -> list[FilterPoint]:
-    """``FilterLife.forecast_points`` of ``points``; ``next_typed``: a typed reading is to come after them all."""
+def _on_one_meter(points) -> list[FilterPoint]:
+    """``FilterLife.forecast_points`` of ``points`` (the phone's twin: evaluate.js onOneMeter, which joins its own
+    reading to the same points by this rule: tests/inspections/test_phone_agreement.py)."""
     with_hours = [p for p in points if p.run_hours is not None]
     typed = [p for p in with_hours if p.source == FILTER_READING]
     other = [p for p in with_hours if p.source != FILTER_READING]
@@ -125,9 +119,7 @@ def _on_one_meter(points, *, next_typed: bool) -> list[FilterPoint]:
             )
         else:
             newest = max(with_hours, key=lambda p: (p.at, p.source == FILTER_READING))
-            with_hours = typed if next_typed or newest.source == FILTER_READING else other
-    elif next_typed:
-        with_hours = typed  # trend days alone are on another meter than the reading to come
+            with_hours = typed if newest.source == FILTER_READING else other
     return [
         FilterPoint(run_hours=p.run_hours, dp_pa=p.dp_pa, airflow_m3s=p.airflow_m3s, when=p.at.date())
         for p in with_hours

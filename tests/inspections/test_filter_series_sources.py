@@ -83,5 +83,3 @@ def test_with_no_reading_near_a_trend_day_the_newest_evidence_is_used_alone():
     # Within a day of the last trend day, the new reading puts the trend days on its meter: +9,380 h.
     near = FilterPoint(run_hours=9_500, dp_pa=100.0, airflow_m3s=3.0, when=dt.datetime(2027, 1, 7, 12, tzinfo=UTC))
     assert [p.run_hours for p in life.forecast_points(near)] == [9_000, 9_480, 9_490, 9_500, 9_500]
-    # The phone, before the run-hours are known, forecasts from the typed readings alone.
-    assert [p.run_hours for p in life.points_for_next_reading()] == [9_000]

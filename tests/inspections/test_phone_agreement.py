@@ -46,7 +46,8 @@ import { evaluate, CHECKS } from "./evaluate.js";
 const { shared, cases } = JSON.parse(readFileSync(process.argv[2], "utf8"));
 const out = cases.map((c) => {
   try {
-    return { results: evaluate({ ...c.context, ...shared }, c.readings, { finishedOn: c.finished_on }) };
+    const when = { finishedOn: c.finished_on, finishedAt: c.finished_at };
+    return { results: evaluate({ ...c.context, ...shared }, c.readings, when) };
   } catch (error) {
     return { error: String(error && error.stack || error) };
   }
@@ -477,6 +478,7 @@ def js_input(case) -> dict:
         "context": json.loads(json.dumps(context)),
         "readings": readings,
         "finished_on": FINISHED.date().isoformat(),
+        "finished_at": case.get("finished_at", FINISHED).isoformat(),
     }
 
 
@@ -1008,7 +1010,9 @@ def test_an_outdoor_air_fraction_says_one_uncertainty_on_the_phone_the_server_an
         "codes": {c.pk: c.label_code for c in comps},
     }
     [py] = [r for r in python_results(case) if r["check"] == "oa_fraction_temperature"]
-    [js] = [r for r in run_js([js_input(case)], tmp_path)["out"][0]["results"] if r["check"] == "oa_fraction_temperature"]
+    [js] = [
+        r for r in run_js([js_input(case)], tmp_path)["out"][0]["results"] if r["check"] == "oa_fraction_temperature"
+    ]
     kept = fraction_words(py["derived"]["oa_fraction"], py["derived"]["uncertainty"])  # as the finding says it
     assert py["derived"]["uncertainty"] == js["derived"]["uncertainty"] == 0.035
     assert kept in py["reason"] and kept in js["reason"], (kept, py["reason"], js["reason"])
@@ -1039,3 +1043,75 @@ def test_a_number_typed_with_an_exponent_is_refused_alike_naming_the_exponent(tm
     assert said["1e5"][1] == "“1e5” is written with an exponent (e): type the number in full digits"
     assert said["100000"] == [100000, None] and said["12,5"] == [12.5, None]
     assert said["12,075"][1].startswith("“12,075” could be 12075 or 12.075")
+
+
+def test_a_filter_forecast_from_readings_and_trend_days_is_the_same_on_both(tmp_path):
+    """Tryout (AHU-01): a bank with an earlier technician's reading and building-automation trend days up to the
+    evening before the visit. The server joins the visit's own reading to them on one meter (the trend days shifted
+    by the two meters' difference at the reading within a day of the last trend day, FilterLife.forecast_points);
+    the phone was given the typed readings alone (points_for_next_reading), so it forecast from other points and
+    said another date. Both now get the same points and join the reading by the same rule: the same words, date
+    and numbers. The trend rises 0.02 Pa per run-hour, 20 h a day (invented demo data)."""
+    from inspections.evaluation import filter_checks  # noqa: F401  (the check under test)
+    from inspections.selectors.filter_banks import FILTER_READING, FILTER_TREND, FilterLife, FilterSeriesPoint
+
+    rng = random.Random(6)
+    ahu, comps = _unit(rng)
+    bank = comps[1]
+    bank.specs = {"clean_dp_pa": 30.0, "final_dp_pa": 150.0}
+    design = ahu.design_supply_airflow_m3s
+    other_bank = comps[0]
+
+    def point(at, hours, dp, source):
+        return FilterSeriesPoint(
+            at=at, inspection_id=None, dp_pa=dp, airflow_m3s=design, corrected_dp_pa=dp, run_hours=hours,
+            after_change=False, source=source,
+        )  # fmt: skip
+
+    start = FINISHED - dt.timedelta(days=61)
+    typed = [point(start - dt.timedelta(days=30), 9_000.0, 40.0, FILTER_READING)]
+    trend = [
+        point(
+            dt.datetime.combine((start + dt.timedelta(days=i)).date(), dt.time(23, 59), tzinfo=dt.UTC),
+            2_000.0 + 20 * i,
+            50.0 + 0.02 * 20 * i,
+            FILTER_TREND,
+        )
+        for i in range(61)
+    ]
+    life = FilterLife(changed_at=None, points=(*typed, *trend))
+    lives = {bank.label_code: life, other_bank.label_code: FilterLife(changed_at=None, points=())}
+    values = {
+        ("visit.supply_airflow", None): design,
+        ("visit.run_hours", None): 10_230.0,
+        ("filter_check.dp", bank.pk): 75.0,
+    }
+    slots = _slots(ahu, comps)
+    form = evaluation.Form(
+        ahu=ahu,
+        components=comps,
+        values={k: _python_value(v) for k, v in values.items()},
+        slots=slots,
+        finished_at=FINISHED,
+        filter_points=lambda c, reading=None: lives[c.label_code].forecast_points(reading),
+    )
+    [py] = [r for r in evaluation.evaluate(form) if r.check == "filter_loading" and r.component is bank]
+    context = phone.evaluation_context(
+        ahu=ahu, components=comps, slots=slots, filter_points=lambda c: list(lives[c.label_code].points)
+    )
+    codes = {c.pk: c.label_code for c in comps}
+    js_in = {
+        "context": json.loads(json.dumps(context)),
+        "readings": {f"{item}|{codes.get(pk, '') if pk else ''}": v for (item, pk), v in values.items()},
+        "finished_on": FINISHED.date().isoformat(),
+        "finished_at": FINISHED.isoformat(),
+    }
+    out = run_js([js_in], tmp_path)["out"][0]
+    assert "error" not in out, out
+    [js] = [r for r in out["results"] if r["check"] == "filter_loading" and r["component"] == bank.label_code]
+    assert py.derived["points_used"] == 63, py.reason  # the typed reading, 61 trend days and this reading
+    assert "change forecast" in py.reason
+    assert py.reason == js["reason"]
+    assert py.verdict == js["verdict"]
+    assert py.derived["forecast_change_date"] == js["derived"]["forecast_change_date"]
+    assert py.derived["points_used"] == js["derived"]["points_used"]

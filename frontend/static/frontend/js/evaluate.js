@@ -518,10 +518,11 @@ const span = (low, high, quantity, decimals) => ({ low: low ?? null, high: high 
 export const readingKey = (item, component) => `${item}|${component || ""}`;
 
 class Form {
-  constructor(ctx, readings, finishedOn) {
+  constructor(ctx, readings, finishedOn, finishedAt) {
     this.ctx = ctx;
     this.readings = readings;
     this.finishedOn = finishedOn;
+    this.finishedAt = finishedAt;
     this.components = ctx.components;
     this.unit = ctx.unit;
   }
@@ -604,9 +605,45 @@ function afterChangeForecast(form, res, { bank, dp, flow, qd }) {
 const BELOW_CLEAN_NOTE = "below its clean pressure drop: no loading to forecast from";
 const RECHECK_NOTE = "re-check: this reading and the earlier values of these filters disagree";
 
+/**
+ * The points of a bank's present filters on one meter's scale, with this form's own reading joined (null: none),
+ * as the server's inspections/selectors/filter_banks.py FilterLife.forecast_points gives them: a technician's
+ * reading carries the typed meter, a trend day the trend-fed meter; where a reading (this one included) is within a
+ * day of a trend day, the trend days are shifted by the two meters' difference at the closest such pair; else the
+ * source of the newest point is used alone. points: the context's filter_points (at, source, when, run_hours, ...).
+ */
+export function onOneMeter(points, reading) {
+  // A context saved offline before points carried their source and time held typed readings on one meter.
+  const all = points.map((p) => ({ ...p, source: p.source || FILTER_READING, t: Date.parse(p.at || `${p.when}T12:00:00Z`) }));
+  if (reading) all.push({ ...reading, source: FILTER_READING, t: Date.parse(reading.at) });
+  let withHours = all.filter((p) => p.run_hours !== null && p.run_hours !== undefined);
+  const typed = withHours.filter((p) => p.source === FILTER_READING);
+  const other = withHours.filter((p) => p.source !== FILTER_READING);
+  const order = (a, b) => a.t - b.t || (a.source === FILTER_READING) - (b.source === FILTER_READING);
+  if (typed.length && other.length) {
+    let best = null;
+    for (const r of typed) for (const t of other) {
+      const gap = Math.abs(t.t - r.t) / 1000;
+      if (best === null || gap < best.gap) best = { gap, r, t };
+    }
+    if (best.gap <= 86400) {
+      const offset = best.r.run_hours - best.t.run_hours;
+      withHours = [...typed, ...other.map((p) => ({ ...p, run_hours: p.run_hours + offset }))].sort(order);
+    } else {
+      const newest = withHours.reduce((m, p) => (order(p, m) > 0 ? p : m));
+      withHours = newest.source === FILTER_READING ? typed : other;
+    }
+  }
+  return withHours.filter((p) => p.run_hours >= 0)
+    .map((p) => ({ run_hours: p.run_hours, dp_pa: p.dp_pa, airflow_m3s: p.airflow_m3s, when: p.when }));
+}
+
+// inspections/selectors/filter_banks.py FILTER_READING: a technician's reading among a bank's points.
+const FILTER_READING = "reading";
+
 // As inspections.evaluation.filter_checks._fallen_since_last: below 80 % of the last value of the same filters.
 function fallenSinceLast(form, res, { bank, qd, loading }) {
-  const earlier = form.ctx.filter_points[bank.code] || [];
+  const earlier = onOneMeter(form.ctx.filter_points[bank.code] || [], null);
   if (!earlier.length || form.text("filter_replace.replaced", bank) === "ok") return false;
   const last = earlier[earlier.length - 1];
   let lastDp;
@@ -688,7 +725,9 @@ function filterChecks(form, consumed) {
       forecastText = "; the reading before the change: these filters were replaced on this visit";
       res.derived.replaced_on_visit = true;
     } else if (hours !== null) {
-      const points = [...(form.ctx.filter_points[bank.code] || []), { run_hours: hours, dp_pa: dp, airflow_m3s: flow, when: form.finishedOn }];
+      // This reading joins the earlier points on one meter, by the server's rule (onOneMeter).
+      const reading = { run_hours: hours, dp_pa: dp, airflow_m3s: flow, when: form.finishedOn, at: form.finishedAt };
+      const points = onOneMeter(form.ctx.filter_points[bank.code] || [], reading);
       try {
         const fc = filterForecast(form.ctx, { points, qd, final: specs.final_dp_pa });
         Object.assign(res.derived, {
@@ -1299,10 +1338,13 @@ function readingResult(slot, value) {
 /**
  * Every judgement of one form, as inspections.evaluation.evaluate gives it.
  * readings: {readingKey(item, component code): SI number | "ok" | "not_ok" | "na" | choice value | text}.
- * finishedOn: the ISO date of the visit (the filter forecast's last point).
+ * finishedAt: the ISO moment the form is finished (its filter reading's time, joined to the earlier points by it);
+ * finishedOn: its ISO date (the filter forecast's last point), the UTC day of finishedAt unless given; given alone,
+ * the moment is noon UTC of that day (as the server takes a reading dated by its day).
  */
-export function evaluate(ctx, readings, { finishedOn = new Date().toISOString().slice(0, 10) } = {}) {
-  const form = new Form(ctx, readings, finishedOn);
+export function evaluate(ctx, readings, { finishedAt, finishedOn } = {}) {
+  const at = finishedAt || (finishedOn ? `${finishedOn}T12:00:00Z` : new Date().toISOString());
+  const form = new Form(ctx, readings, finishedOn || at.slice(0, 10), at);
   const consumed = new Set();
   const results = [
     ...filterChecks(form, consumed), ...filterChangeChecks(form, consumed), ...oaChecks(form, consumed), ...fullOaChecks(form),
