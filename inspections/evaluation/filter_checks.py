@@ -26,6 +26,13 @@ def _fmt_date(d: dt.date | dt.datetime | None) -> str:
     return f"{d.day} {d:%B %Y}"
 
 
+def kept_dp(pa: float) -> float:
+    """A pressure drop at design airflow as the record keeps it (a tenth of a pascal); the words say this value,
+    so the reason and the record's rows never show two roundings of one number (120.46 Pa: "120 Pa" in both,
+    never "121 Pa" beside "120 Pa"). The phone's twin: evaluate.js keptDp."""
+    return round(pa, 1)
+
+
 def _filter_derived(*, dp: float, q: float, q_how: str, design_q: float, clean: float, judged: Any) -> dict[str, Any]:
     """The derived values both filter checks keep: the reading, its airflow, and its correction to design
     airflow against the clean pressure drop (``judged``: a FilterLoading or a FilterAfterChange)."""
@@ -34,7 +41,7 @@ def _filter_derived(*, dp: float, q: float, q_how: str, design_q: float, clean: 
         "airflow_m3s": q,
         "airflow_source": q_how,
         "design_airflow_m3s": design_q,
-        "corrected_dp_pa": round(judged.corrected_dp_pa, 1),
+        "corrected_dp_pa": kept_dp(judged.corrected_dp_pa),
         "clean_dp_pa": clean,
         "fraction_of_clean_pct": round(judged.fraction_of_clean * 100, 1),
         "media_bypass_suspected": judged.media_bypass_suspected,
@@ -66,12 +73,12 @@ def _fallen_since_last(form: Form, res: Result, *, bank, design_q: float, loadin
         return None
     if res.verdict == Verdict.OK:
         res.verdict = Verdict.WATCH
-    res.derived.update(last_corrected_dp_pa=round(last_dp, 1), forecast_note=RECHECK_NOTE)
+    res.derived.update(last_corrected_dp_pa=kept_dp(last_dp), forecast_note=RECHECK_NOTE)
     res.say(
         f"{bank.name}: filter reads ",
-        qty(loading.corrected_dp_pa, "pressure"),
+        qty(kept_dp(loading.corrected_dp_pa), "pressure"),
         f" at design airflow, {loading.corrected_dp_pa / last_dp * 100:.0f} % of the last value of these filters (",
-        qty(last_dp, "pressure"),
+        qty(kept_dp(last_dp), "pressure"),
         f" on {_fmt_date(last.when)}): a filter's pressure drop does not fall without a change; re-check the "
         "gauge or sensor and its tubing, and look for torn, missing or bypassed media "
         f"(watch below {filters.FALL_WATCH_FRACTION * 100:.0f} % of the last value)",
@@ -144,7 +151,7 @@ def filter_loading_checks(form: Form, consumed: set) -> list[Result]:
             # A reading below clean says nothing about loading: no forecast from it.
             res.say(
                 f"{bank.name}: filter reads ",
-                qty(loading.corrected_dp_pa, "pressure"),
+                qty(kept_dp(loading.corrected_dp_pa), "pressure"),
                 f" at design airflow, {loading.fraction_of_clean * 100:.0f} % of its clean pressure drop ",
                 qty(specs["clean_dp_pa"], "pressure"),
                 ": "
@@ -165,7 +172,7 @@ def filter_loading_checks(form: Form, consumed: set) -> list[Result]:
             # Below clean, not so far as to suspect bypassed media: no loading to say, nor to forecast from.
             res.say(
                 f"{bank.name}: filter reads ",
-                qty(loading.corrected_dp_pa, "pressure"),
+                qty(kept_dp(loading.corrected_dp_pa), "pressure"),
                 " at design airflow, below its clean pressure drop ",
                 qty(specs["clean_dp_pa"], "pressure"),
                 f" ({loading.fraction_of_clean * 100:.0f} % of clean; {filters.BELOW_CLEAN_RULE}): "
@@ -177,7 +184,7 @@ def filter_loading_checks(form: Form, consumed: set) -> list[Result]:
         forecast_text = _loading_forecast(form, res, bank=bank, dp=dp, q=q, design_q=design_q, loading=loading)
         res.say(
             f"{bank.name}: filter at {pct:.0f} % of its span after correcting to design airflow (",
-            qty(loading.corrected_dp_pa, "pressure"),
+            qty(kept_dp(loading.corrected_dp_pa), "pressure"),
             " at design, clean ",
             qty(specs["clean_dp_pa"], "pressure"),
             ", final ",
@@ -305,7 +312,7 @@ def filter_change_checks(form: Form, consumed: set) -> list[Result]:
             what = "as rated"
         res.say(
             f"{bank.name}: after the change the filter reads ",
-            qty(chk.corrected_dp_pa, "pressure"),
+            qty(kept_dp(chk.corrected_dp_pa), "pressure"),
             f" at design airflow, {chk.fraction_of_clean * 100:.0f} % of its rated clean pressure drop ",
             qty(clean, "pressure"),
             f": {what} (ok within ±{tol * 100:.0f} %, fail below {filters.BYPASS_FAIL_FRACTION * 100:.0f} % "

@@ -1115,3 +1115,31 @@ def test_a_filter_forecast_from_readings_and_trend_days_is_the_same_on_both(tmp_
     assert py.verdict == js["verdict"]
     assert py.derived["forecast_change_date"] == js["derived"]["forecast_change_date"]
     assert py.derived["points_used"] == js["derived"]["points_used"]
+
+
+def test_a_filter_reading_at_design_airflow_shows_one_rounding_on_both_and_in_the_record(tmp_path):
+    """Tryout PDF: "(121 Pa at design …)" in the reason beside "pressure drop at design airflow: 120 Pa" in the
+    record's rows, two roundings of one number: 120.52 Pa said whole read 121, kept to a tenth (120.5) read 120
+    (half to even). The words now say the kept value, on the phone and the server alike."""
+    from inspections.display import derived_rows
+
+    rng = random.Random(7)
+    ahu, comps = _unit(rng)
+    bank = comps[1]
+    bank.specs = {"clean_dp_pa": 30.0, "final_dp_pa": 250.0}
+    values = {("visit.supply_airflow", None): ahu.design_supply_airflow_m3s, ("filter_check.dp", bank.pk): 120.52}
+    case = {
+        "ahu": ahu,
+        "components": comps,
+        "slots": _slots(ahu, comps),
+        "values": values,
+        "points": {},
+        "codes": {c.pk: c.label_code for c in comps},
+    }
+    [py] = [r for r in python_results(case) if r["check"] == "filter_loading" and r["component"] == bank.label_code]
+    out = run_js([js_input(case)], tmp_path)["out"][0]["results"]
+    [js] = [r for r in out if r["check"] == "filter_loading" and r["component"] == bank.label_code]
+    [(_, row)] = derived_rows({"corrected_dp_pa": py["derived"]["corrected_dp_pa"]}, "si")
+    assert py["derived"]["corrected_dp_pa"] == 120.5 and row.startswith("120 ")
+    assert f"({row} at design" in py["reason"], (row, py["reason"])
+    assert py["reason"] == js["reason"]

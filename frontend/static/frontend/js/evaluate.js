@@ -601,6 +601,9 @@ function afterChangeForecast(form, res, { bank, dp, flow, qd }) {
   return "";
 }
 
+// inspections.evaluation.filter_checks.kept_dp: a pressure drop at design airflow as kept and said (a tenth of a pascal).
+const keptDp = (pa) => pyRound(pa, 1);
+
 // inspections.evaluation.filter_checks: why a judged filter has no forecast (its derived forecast_note).
 const BELOW_CLEAN_NOTE = "below its clean pressure drop: no loading to forecast from";
 const RECHECK_NOTE = "re-check: this reading and the earlier values of these filters disagree";
@@ -656,9 +659,9 @@ function fallenSinceLast(form, res, { bank, qd, loading }) {
   const fall = form.ctx.constants.filter_fall_watch_fraction;
   if (lastDp <= 0 || pyRound(loading.corrected / lastDp, 9) >= fall) return false;
   if (res.verdict === OK) res.verdict = WATCH;
-  Object.assign(res.derived, { last_corrected_dp_pa: pyRound(lastDp, 1), forecast_note: RECHECK_NOTE });
-  say(res, `${bank.name}: filter reads `, q(loading.corrected, "pressure"),
-    ` at design airflow, ${fixed(loading.corrected / lastDp * 100, 0)} % of the last value of these filters (`, q(lastDp, "pressure"),
+  Object.assign(res.derived, { last_corrected_dp_pa: keptDp(lastDp), forecast_note: RECHECK_NOTE });
+  say(res, `${bank.name}: filter reads `, q(keptDp(loading.corrected), "pressure"),
+    ` at design airflow, ${fixed(loading.corrected / lastDp * 100, 0)} % of the last value of these filters (`, q(keptDp(lastDp), "pressure"),
     ` on ${fmtDate(last.when)}): a filter's pressure drop does not fall without a change; re-check the gauge or sensor and its tubing, `
     + `and look for torn, missing or bypassed media (watch below ${fixed(fall * 100, 0)} % of the last value)`);
   return true;
@@ -691,7 +694,7 @@ function filterChecks(form, consumed) {
     res.verdict = loading.verdict;
     res.derived = {
       dp_pa: dp, airflow_m3s: flow, airflow_source: how, design_airflow_m3s: qd,
-      corrected_dp_pa: pyRound(loading.corrected, 1), loading_pct: pct,
+      corrected_dp_pa: keptDp(loading.corrected), loading_pct: pct,
       clean_dp_pa: specs.clean_dp_pa, final_dp_pa: specs.final_dp_pa,
       fraction_of_clean_pct: pyRound(loading.ofClean * 100, 1), media_bypass_suspected: loading.bypass,
     };
@@ -699,7 +702,7 @@ function filterChecks(form, consumed) {
     res.method = `Δp × (Q_design/Q)^${c.filter_exponent} against the clean-to-final span; below ${fixed(c.filter_bypass_fail_fraction * 100, 0)} % of clean fails, below ${fixed(c.filter_bypass_watch_fraction * 100, 0)} % watch (missing, torn or bypassed media; common practice); airflow: ${how}`;
     if (loading.bypass) {
       // A reading below clean says nothing about loading: no forecast from it.
-      say(res, `${bank.name}: filter reads `, q(loading.corrected, "pressure"),
+      say(res, `${bank.name}: filter reads `, q(keptDp(loading.corrected), "pressure"),
         ` at design airflow, ${fixed(loading.ofClean * 100, 0)} % of its clean pressure drop `, q(specs.clean_dp_pa, "pressure"),
         `: ${res.verdict === FAIL ? "missing, torn or bypassed media" : "lower than a filter in service should read, check for torn or bypassed media"}`
         + ` (fail below ${fixed(c.filter_bypass_fail_fraction * 100, 0)} %, watch below ${fixed(c.filter_bypass_watch_fraction * 100, 0)} % of clean)`);
@@ -712,7 +715,7 @@ function filterChecks(form, consumed) {
     }
     if (pyRound(loading.fraction, 9) < 0) {
       // Below clean, not so far as to suspect bypassed media: no loading to say, nor to forecast from.
-      say(res, `${bank.name}: filter reads `, q(loading.corrected, "pressure"), " at design airflow, below its clean pressure drop ",
+      say(res, `${bank.name}: filter reads `, q(keptDp(loading.corrected), "pressure"), " at design airflow, below its clean pressure drop ",
         q(specs.clean_dp_pa, "pressure"), ` (${fixed(loading.ofClean * 100, 0)} % of clean; ${belowCleanRule(form.ctx)}): no loading to forecast from`);
       res.derived.forecast_note = BELOW_CLEAN_NOTE;
       out.push(res);
@@ -758,7 +761,7 @@ function filterChecks(form, consumed) {
       res.derived.forecast_at_final_now = true;
     }
     say(res, `${bank.name}: filter at ${fixed(pct, 0)} % of its span after correcting to design airflow (`,
-      q(loading.corrected, "pressure"), " at design, clean ", q(specs.clean_dp_pa, "pressure"),
+      q(keptDp(loading.corrected), "pressure"), " at design, clean ", q(specs.clean_dp_pa, "pressure"),
       ", final ", q(specs.final_dp_pa, "pressure"), `)${forecastText}`);
     out.push(res);
   }
@@ -789,7 +792,7 @@ function filterChangeChecks(form, consumed) {
     const tol = c.filter_after_change_tolerance;
     res.verdict = chk.verdict;
     res.derived = {
-      dp_pa: dp, airflow_m3s: flow, airflow_source: how, design_airflow_m3s: qd, corrected_dp_pa: pyRound(chk.corrected, 1),
+      dp_pa: dp, airflow_m3s: flow, airflow_source: how, design_airflow_m3s: qd, corrected_dp_pa: keptDp(chk.corrected),
       clean_dp_pa: clean, fraction_of_clean_pct: pyRound(chk.ofClean * 100, 1), media_bypass_suspected: chk.bypass,
     };
     const pctOf = (x) => fixed(x * 100, 0);
@@ -799,7 +802,7 @@ function filterChangeChecks(form, consumed) {
     if (chk.bypass) what = "missing, torn or bypassed media";
     else if (r < 1 - tol) what = "lower than a new filter should read, check the media is seated and sealed";
     else if (r > 1 + tol) what = "higher than a new filter should read, check the class and size fitted and the gauge lines";
-    say(res, `${bank.name}: after the change the filter reads `, q(chk.corrected, "pressure"),
+    say(res, `${bank.name}: after the change the filter reads `, q(keptDp(chk.corrected), "pressure"),
       ` at design airflow, ${pctOf(chk.ofClean)} % of its rated clean pressure drop `, q(clean, "pressure"),
       `: ${what} (ok within ±${pctOf(tol)} %, fail below ${pctOf(c.filter_bypass_fail_fraction)} % or above ${pctOf(c.filter_after_change_high_fail)} %)`,
       afterChangeForecast(form, res, { bank, dp, flow, qd }));
