@@ -26,7 +26,10 @@ from django.core.exceptions import ValidationError
 from django.utils.dateparse import parse_datetime
 
 from accounts.clock import local_time_text
-from accounts.typed_numbers import comma_words, parse_number, typed_words  # the typed-number reader, answered from here too
+
+# The typed-number reader, answered from here too.
+from accounts.typed_numbers import comma_words as comma_words
+from accounts.typed_numbers import parse_number, typed_words
 from engineering.errors import EngineeringInputError
 from engineering.units import to_display, unit_label
 
