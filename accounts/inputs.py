@@ -218,12 +218,14 @@ def equipment_date_window(*, today: dt.date, planned: bool = False) -> tuple[dt.
 
 
 def equipment_date_problem(day: dt.date | None, *, label: str, today: dt.date, planned: bool = False) -> str | None:
-    """'installed on 2031-01-01 is outside 1950–2026; allowed: …' for an equipment date outside its window."""
+    """'Installed on 2031-01-01 is out of range; allowed: 1950-01-01 to 2026-12-05' for an equipment date outside
+    its window (today on the site's clock)."""
     return window_problem(day, label=label, window=equipment_date_window(today=today, planned=planned))
 
 
 def date_problem(day: dt.date | None, *, label: str, today: dt.date) -> str | None:
-    """'planned for 9999-12-31 is outside 2000–2036' for a stored date outside the plan window, else None."""
+    """'planned for 9999-12-31 is out of range; allowed: 2000-01-01 to 2036-12-05' for a stored date outside the
+    plan window, else None."""
     return window_problem(day, label=label, window=date_window(today=today))
 
 
@@ -233,10 +235,9 @@ def window_problem(day: dt.date | None, *, label: str, window: tuple[dt.date, dt
     earliest, latest = window
     if earliest <= day <= latest:
         return None
-    return (
-        f"{label} {day.isoformat()} is outside {earliest.year}–{latest.year}; "
-        f"allowed: {earliest.isoformat()} to {latest.isoformat()}"
-    )
+    # One statement of the window, by its first and last day: never a second, coarser range beside it (a
+    # year span 1950–2026 said next to 'to 2026-12-05' read as two different rules).
+    return f"{label} {day.isoformat()} is out of range; allowed: {earliest.isoformat()} to {latest.isoformat()}"
 
 
 # A day as a person types it into a page: ISO (2026-12-04) or the day-first European form with dots and a

@@ -30,7 +30,7 @@ class GenerationResult:
     work_orders_created: int = 0
     lines: list[str] = field(default_factory=list)
     # Units and rules left out of this run, one line each in plain words ("AHU-03 at Site X: service start
-    # 9999-12-31 is outside 2000–2036"); the rest of the organisation's work is generated.
+    # 9999-12-31 is out of range; allowed: 2000-01-01 to 2036-…"); the rest of the organisation's work is generated.
     skipped: list[str] = field(default_factory=list)
 
 

@@ -46,4 +46,4 @@ def test_a_refusal_names_the_field_the_value_and_the_forms_with_an_example():
     assert not errors
     # The window holds for either form.
     assert check_date("01.01.1999", key="start", label="From", today=TODAY, errors=errors) is None
-    assert errors["start"] == ["From 1999-01-01 is outside 2000–2036; allowed: 2000-01-01 to 2036-12-04"]
+    assert errors["start"] == ["From 1999-01-01 is out of range; allowed: 2000-01-01 to 2036-12-04"]
