@@ -27,7 +27,10 @@ class Field:
     max_length: int = 200
     minimum: float | None = None  # SI
     maximum: float | None = None
-    unit: str = ""  # a unit with no display quantity (people, fraction…)
+    unit: str = ""  # a unit with no display quantity (people…)
+    # Stored as a fraction 0–1 (the server's one reader, e.g. inventory.inputs.AHU_NUMBERS, checks it so), shown
+    # and typed in % like every other share on the pages: 0.35 reads 35 %, 35 typed is stored 0.35.
+    per_cent: bool = False
     quantity: str | None = None  # engineering.units quantity: shown and typed in the person's units
     choices: tuple = ()
     hint: str = ""
@@ -44,6 +47,8 @@ def shown_value(field: Field, value, system: str):
         return ""
     if field.kind == "number" and field.quantity and isinstance(value, int | float):
         return figure(to_display(value=value, quantity=field.quantity, system=system))
+    if field.kind == "number" and field.per_cent and isinstance(value, int | float):
+        return figure(value * 100)
     if field.kind == "number" and isinstance(value, int | float):
         return figure(value)
     if field.kind == "date":
@@ -52,6 +57,8 @@ def shown_value(field: Field, value, system: str):
 
 
 def unit_text(field: Field, system: str) -> str:
+    if field.per_cent:
+        return "%"
     return unit_label(quantity=field.quantity, system=system) if field.quantity else field.unit
 
 
@@ -63,6 +70,8 @@ def allowed_text(field: Field, system: str) -> str:
         lo, hi = (
             (to_display(value=v, quantity=field.quantity, system=system) for v in (field.minimum, field.maximum))
             if field.quantity
+            else (field.minimum * 100, field.maximum * 100)
+            if field.per_cent
             else (field.minimum, field.maximum)
         )
         unit = unit_text(field, system)
@@ -97,7 +106,10 @@ def _number(field: Field, raw: str, *, system: str, errors: FieldErrors):
         )
         return None
     try:
-        value = from_display(value=typed, quantity=field.quantity, system=system) if field.quantity else typed
+        if field.quantity:
+            value = from_display(value=typed, quantity=field.quantity, system=system)
+        else:
+            value = typed / 100 if field.per_cent else typed  # 35 / 100 is 0.35 exactly as stored
     except (EngineeringInputError, OverflowError):
         value = math.inf
     # A value typed at the edge of the range in another unit may convert a hair past it.

@@ -25,7 +25,9 @@ from .staff import managed_ahu, managed_organisation
 from .technician import unit_records_context
 
 
-def _ahu_number(name: str, quantity: str | None = None, *, required: bool = False, hint: str = "") -> Field:
+def _ahu_number(
+    name: str, quantity: str | None = None, *, required: bool = False, hint: str = "", per_cent: bool = False
+) -> Field:
     r = AHU_NUMBERS[name]
     kind = "integer" if r.whole else "number"
     unit = "" if quantity else r.unit
@@ -39,6 +41,7 @@ def _ahu_number(name: str, quantity: str | None = None, *, required: bool = Fals
         unit=unit,
         quantity=quantity,
         hint=hint,
+        per_cent=per_cent,
     )
 
 
@@ -56,7 +59,8 @@ def unit_fields(*, status: str | None) -> list[Field]:
         _ahu_number(
             "design_min_oa_fraction",
             required=True,
-            hint="Outdoor air as a fraction of the supply airflow at minimum, 0–1 (0.25 is a quarter).",
+            per_cent=True,
+            hint="Outdoor air as a share of the supply airflow at minimum, in % (25 for a quarter).",
         ),
         Field("full_outdoor_air", "100 % outdoor air (no recirculation)", kind="bool"),
         Field("ventilation_zones", "Zones served", kind="choice", required=True, choices=_choices("ventilation_zones")),
@@ -310,6 +314,7 @@ def unit_design(*, ahu: AHU, system: str) -> list[tuple[str, str]]:
         elif f.kind in {"number", "integer"}:
             unit = unit_text(f, system)
             shown = to_display(value=value, quantity=f.quantity, system=system) if f.quantity else value
+            shown = value * 100 if f.per_cent else shown
             out.append((f.label, f"{plain_number(shown)}{f' {unit}' if unit else ''}"))
         elif f.kind == "date":
             out.append((f.label, f"{value:%d %b %Y}"))

@@ -58,7 +58,7 @@ def test_the_supervisor_adds_a_unit_with_a_component_tree_and_retires_a_part(
     _label(page, "Tag").fill("AHU-01")
     _label(page, "Location").fill("Roof plant room")
     _label(page, "Design supply airflow (L/s)").fill("2500")
-    _label(page, "Design minimum outdoor-air fraction").fill("0.3")
+    _label(page, "Design minimum outdoor-air fraction").fill("30")
     _label(page, "Supply-air setpoint (°C)").fill("18")
     page.get_by_role("button", name="Add unit").click()
     expect(page.locator(".messages")).to_contain_text("AHU-01 (Store A) added")

@@ -52,7 +52,7 @@ UNIT = {
     "location": "Roof plant room",
     "area_served": "Offices 1–3",
     "design_supply_airflow_m3s": "2500",  # L/s for an SI person
-    "design_min_oa_fraction": "0.3",
+    "design_min_oa_fraction": "30",
     "ventilation_zones": "single_zone",
     "air_distribution": "ceiling_supply_cool",
     "heat_recovery": "plate",

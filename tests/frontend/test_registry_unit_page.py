@@ -47,3 +47,36 @@ def test_a_future_install_date_is_refused_with_one_statement_of_the_allowed_days
     assert "1950–2026" not in page
     pan.refresh_from_db()
     assert pan.installed_on is None
+
+
+def test_the_design_minimum_outdoor_air_fraction_reads_in_per_cent_on_the_page_and_the_form(scenario, login):
+    """Stored as a fraction (0.35; the one reader, inventory.inputs.AHU_NUMBERS, checks 0–1), it reads 35 % on the
+    unit page and its form, and 40 typed on the form is stored 0.4; the form posted back unchanged keeps 0.35."""
+    from frontend.views.registry_units import unit_form_initial
+
+    ahu = scenario.unit_a
+    AHU = type(ahu)
+    AHU.objects.filter(pk=ahu.pk).update(design_min_oa_fraction=0.35, full_outdoor_air=False)
+    ahu.refresh_from_db()
+    client = login(scenario.supervisor)
+    page = _visible(client.get(reverse("frontend:registry_unit", args=[ahu.pk])))
+    assert "Design minimum outdoor-air fraction 35 %" in page and "0.35" not in page
+    form = _visible(client.get(reverse("frontend:registry_unit_edit", args=[ahu.pk])))
+    assert "Design minimum outdoor-air fraction (%)" in form and "a number from 0 to 100 %" in form
+    initial = unit_form_initial(ahu=ahu, system="si")
+    assert initial["design_min_oa_fraction"] == "35"
+    post = {k: v for k, v in initial.items() if v not in (None, False, "")}
+    post["full_outdoor_air"] = ""
+    r = client.post(reverse("frontend:registry_unit_edit", args=[ahu.pk]), post)
+    assert r.status_code == 302, _visible(r)
+    ahu.refresh_from_db()
+    assert ahu.design_min_oa_fraction == 0.35  # unchanged, not 0.35000000000000003
+    r = client.post(reverse("frontend:registry_unit_edit", args=[ahu.pk]), {**post, "design_min_oa_fraction": "40"})
+    assert r.status_code == 302, _visible(r)
+    ahu.refresh_from_db()
+    assert ahu.design_min_oa_fraction == 0.4
+    r = client.post(reverse("frontend:registry_unit_edit", args=[ahu.pk]), {**post, "design_min_oa_fraction": "135"})
+    said = "Design minimum outdoor-air fraction: 135 % is out of range; allowed: a number from 0 to 100 %"
+    assert said in _visible(r)
+    ahu.refresh_from_db()
+    assert ahu.design_min_oa_fraction == 0.4

@@ -344,7 +344,7 @@ WRITES: dict[tuple[str, str], Write] = {
                 "building": str(c.building.pk),
                 "tag": "AHU-PROBE",
                 "design_supply_airflow_m3s": "1500",
-                "design_min_oa_fraction": "0.3",
+                "design_min_oa_fraction": "30",
                 "ventilation_zones": "single_zone",
                 "air_distribution": "ceiling_supply_cool",
                 "heat_recovery": "none",
