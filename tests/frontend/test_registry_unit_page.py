@@ -80,3 +80,18 @@ def test_the_design_minimum_outdoor_air_fraction_reads_in_per_cent_on_the_page_a
     assert said in _visible(r)
     ahu.refresh_from_db()
     assert ahu.design_min_oa_fraction == 0.4
+
+
+def test_a_part_inside_another_reads_as_in_it_not_as_a_place_before_the_first(scenario, login):
+    """A drain pan inside the cooling coil at 90 has its own place 0 among the coil's parts: the unit page said
+    '90. Cooling coil' then '0. Drain pan', read as a part at the intake listed last. It now says where it is."""
+    ahu = scenario.unit_a
+    for place, comp in enumerate(ahu.components.filter(parent__isnull=True).order_by("id")):
+        type(comp).objects.filter(pk=comp.pk).update(position=place * 10)
+    coil = ahu.components.get(name="Cooling coil")
+    ahu.components.filter(name="Drain pan").update(parent=coil, position=0)
+    page = _visible(login(scenario.supervisor).get(reverse("frontend:registry_unit", args=[ahu.pk])))
+    listed = page[page.index("Components in airstream order") : page.index("Records")]
+    numbers = [int(n) for n in re.findall(r"(?:^| )(\d+)\. ", listed)]
+    assert numbers == sorted(numbers) and len(numbers) == ahu.components.filter(parent__isnull=True).count()
+    assert f"{coil.position}. Cooling coil" in listed and "in Cooling coil: Drain pan" in listed
