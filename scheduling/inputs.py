@@ -86,7 +86,8 @@ def visits_outside_window(*, today: dt.date) -> Q:
 
 def stored_problems(*, organisation, today: dt.date) -> list[str]:
     """What the jobs skip for this organisation, one line each: 'AHU-03 at Site X: service start 9999-12-31
-    is out of range; allowed: 2000-01-01 to …'. Read by the board page; the same checks as the engine and the calendar feed."""
+    is out of range; allowed: 2000-01-01 to …'. Read by the board page; the same checks as the engine and the
+    calendar feed."""
     from inventory.models import AHU
 
     from .selectors import effective_tasks
