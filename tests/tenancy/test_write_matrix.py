@@ -503,6 +503,10 @@ WRITES: dict[tuple[str, str], Write] = {
         in_body=True,
     ),
     ("frontend:checklist", "post"): Write(FIELD, _checklist_post),
+    # The phone's "Start visit": only the technician the visit is assigned to (frontend/views/visit_start.py).
+    ("frontend:start_visit", "post"): Write(
+        frozenset({TECHNICIAN}), lambda w, c: (lambda call: Call(call.params, call.body, "form"))(_wo(c))
+    ),
     # Amending a signed form: the technician who signed it (site A's was ours) or a supervisor of the site.
     ("inspections_api:amend", "post"): Write(FIELD, lambda w, c: _amend(c)),
     ("frontend:amend", "post"): Write(
