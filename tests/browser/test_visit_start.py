@@ -13,6 +13,7 @@ from playwright.sync_api import expect
 from scheduling.models import WorkOrder
 
 from .conftest import PHONE
+from .test_pwa import draw_signature, fill_checklist
 
 pytestmark = [pytest.mark.browser, pytest.mark.django_db(transaction=True)]
 
@@ -48,3 +49,36 @@ def test_start_visit_online_and_its_note_offline(page, live_server, world, sign_
     expect(page.locator("form[data-checklist]")).to_be_visible()
     wo = WorkOrder.objects.get(public_id=public_id)
     assert wo.state == WorkOrder.State.IN_PROGRESS and wo.started_at is not None
+
+
+def test_a_form_finished_offline_ends_the_start_offer_and_online_the_done_note_links_the_record(
+    page, live_server, world, sign_in, offline
+):
+    """Offline she fills and signs without starting: the form waits in the outbox and the page no longer offers
+    "Start visit". Back online it is sent and completes the work order: still no "Start visit", and the done note
+    links the signed record instead of asking for a connection the phone has."""
+    page.set_viewport_size(PHONE)
+    sign_in(page, world.technician)
+    page.get_by_role("link", name=re.compile("AHU-01")).first.click()
+    wait_app(page)
+    public_id = page.url.rstrip("/").split("/")[-1]
+    start = page.locator("[data-start-visit]")
+    expect(start).to_be_visible()
+
+    offline(True)
+    fill_checklist(page)
+    draw_signature(page)
+    page.get_by_role("button", name="Finish and sign").click()
+    expect(page.locator("[data-outbox-count]")).to_have_text("1")
+    expect(start).to_be_hidden()
+
+    offline(False)
+    page.evaluate("window.dispatchEvent(new Event('online'))")
+    expect(page.locator("[data-outbox-count]")).to_have_text("0", timeout=20000)
+    expect(page.locator("[data-server-done]")).to_be_visible(timeout=20000)
+    expect(start).to_be_hidden()
+    expect(page.get_by_role("button", name="Start visit")).to_be_hidden()
+    expect(page.locator("[data-done-offline]")).to_be_hidden()
+    expect(page.locator("[data-done-online]")).to_be_visible()
+    expect(page.locator("[data-server-done]")).not_to_contain_text("with a connection", use_inner_text=True)
+    assert WorkOrder.objects.get(public_id=public_id).state == WorkOrder.State.COMPLETED

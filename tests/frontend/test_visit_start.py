@@ -80,3 +80,24 @@ def test_only_the_assigned_technician_starts_it_and_only_an_assigned_visit(clien
     assert done.state == WorkOrder.State.COMPLETED
     wo.refresh_from_db()
     assert wo.state == WorkOrder.State.ASSIGNED
+
+
+@pytest.mark.parametrize("state", [WorkOrder.State.COMPLETED, WorkOrder.State.VERIFIED])
+def test_a_done_visit_offers_no_start_even_to_its_technician(client, world, state):
+    """Completed or verified, even were it still hers: the page shows no "Start visit" and no form."""
+    wo = _coil_clean(world)
+    WorkOrder.objects.filter(pk=wo.pk).update(state=state)
+    client.force_login(world.tess)
+    html = client.get(_page(wo)).content.decode()
+    assert "data-start-visit" not in html and ">Start visit</button>" not in html
+    assert "data-checklist" not in html
+
+
+def test_the_open_form_says_open_with_a_connection_only_offline(client, world):
+    """The done note the phone shows over a stale copy: its "open with a connection" words come hidden (shown by
+    checklist.js only while offline), beside a link to the record."""
+    wo = _coil_clean(world)
+    client.force_login(world.tess)
+    html = client.get(_page(wo)).content.decode()
+    assert "<span data-done-offline hidden>Open this page with a connection to see the record.</span>" in html
+    assert f'<span data-done-online><a href="{_page(wo)}">Open its signed record</a>.</span>' in html

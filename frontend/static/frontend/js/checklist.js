@@ -445,6 +445,23 @@ function showDone(form, results) {
   form.hidden = done;
   const note = document.querySelector("[data-server-done]");
   if (note) note.hidden = !done;
+  doneWhere();
+}
+
+// The done note's last words follow the connection: a link to the record online, "open it with a connection"
+// only while offline.
+function doneWhere() {
+  const online = document.querySelector("[data-done-online]");
+  const offline = document.querySelector("[data-done-offline]");
+  if (online) online.hidden = !navigator.onLine;
+  if (offline) offline.hidden = navigator.onLine;
+}
+
+// "Start visit" is for a visit not yet done: once this work order's form is finished (waiting in the outbox or
+// sent) or the server has it done, the page no longer offers it (frontend/views/visit_start.py).
+function hideStart(finished) {
+  const box = document.querySelector("[data-start-visit]");
+  if (box && finished) box.hidden = true;
 }
 
 // ---------------------------------------------------------------------------------------------------------------
@@ -569,6 +586,7 @@ async function showState(form) {
   const results = (await myResults()).filter((r) => r.work_order === wo);
   results.sort((a, b) => (a.received_at < b.received_at ? 1 : -1));
   showDone(form, pending.length ? [] : results);
+  hideStart(pending.some((i) => i.state !== "refused") || results.length > 0);
   if (pending.length) {
     const last = pending[pending.length - 1];
     renderPending(box, last);
@@ -613,6 +631,8 @@ export function startChecklist() {
   const pad = attachSignature(form.querySelector("canvas.signature"));
   form.querySelector("[data-signature-clear]").addEventListener("click", () => pad.clear());
   document.addEventListener("plenum:outbox", () => { if (restored) showState(form); });
+  window.addEventListener("online", doneWhere);
+  window.addEventListener("offline", doneWhere);
   (async () => {
     try {
       const draft = await loadDraft(owner, form.dataset.workOrder);
