@@ -274,7 +274,8 @@ def checklist(request, public_id):
             "site_where": site_where(wo.ahu.building.site),
             "cautions": cautions_for(data or {}),
             "caution_blocks": caution_blocks(cautions_for(data or {})),
-            "started_at": timezone.now().isoformat(),
+            # The visit's start: when "Start visit" was pressed, else when this page was opened (WorkOrder.arrived_by).
+            "started_at": wo.arrived_by(timezone.now()).isoformat(),
             # The phone writes the times it shows (a form waiting in the outbox, the last sync) on the site's clock.
             "site_clock": zone_clock(wo.ahu.building.site.time_zone, around=timezone.now()),
             "result": None

@@ -356,7 +356,8 @@ def form_parse(
     _signature(parsed, raw.get("signature"), errors)
     if started is not None and finished is not None:
         # before the readings: the meter reading is dated on the server's timeline
-        _clock(parsed, raw, sent_at, errors, started_at=started, finished_at=finished)
+        arrived = work_order.arrived_by(started)  # a visit started before its page was (re)opened began then
+        _clock(parsed, raw, sent_at, errors, started_at=arrived, finished_at=finished)
     seen: set[tuple[str, int | None]] = set()
     for i, r in enumerate(readings or []):
         reading_parse(parsed, i, r, seen, errors)

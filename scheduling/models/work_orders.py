@@ -176,6 +176,16 @@ class WorkOrder(models.Model):
     def is_open(self) -> bool:
         return self.state in self.OPEN_STATES
 
+    def arrived_by(self, opened_at: dt.datetime) -> dt.datetime:
+        """When the technician arrived, for a form whose page was opened at ``opened_at``: the moment the visit
+        was started ("Start visit", ``started_at``) while it is in progress and that was earlier, else
+        ``opened_at``. The form's page and the sync both place a visit's start by it, so the record's "Arrived"
+        is the start the board showed, not a later reload of the page."""
+        started = self.started_at
+        if self.state == self.State.IN_PROGRESS and started is not None and started < opened_at:
+            return started
+        return opened_at
+
     def can_move_to(self, state: str) -> bool:
         return state in self.TRANSITIONS.get(self.state, frozenset())
 

@@ -7,12 +7,22 @@ button. A page read before someone changed the work order, an unreadable version
 visit already done are refused and nothing moves.
 """
 
+import datetime as dt
+
 import pytest
 import time_machine
 from django.contrib.messages import get_messages
 from django.urls import reverse
 
+from inspections.models import Inspection
+from inspections.selectors import checklist_for
+from inspections.services import inspection_sync
+from reports.models import Report
+from reports.services import report_request
 from scheduling.models import WorkOrder
+from tests.factories.inspections import sync_form
+from tests.flows.test_work_order_record import filled_readings
+from tests.reports.conftest import pdf_text
 from tests.flows import board_world
 
 pytestmark = pytest.mark.django_db
@@ -101,3 +111,29 @@ def test_the_open_form_says_open_with_a_connection_only_offline(client, world):
     html = client.get(_page(wo)).content.decode()
     assert "<span data-done-offline hidden>Open this page with a connection to see the record.</span>" in html
     assert f'<span data-done-online><a href="{_page(wo)}">Open its signed record</a>.</span>' in html
+
+
+def test_arrived_on_the_record_is_when_the_visit_was_started(client, world, django_capture_on_commit_callbacks):
+    """Started at 11:00 CET; the page reloaded at 11:02 carries 11:00 as the form's start, and a form from a page
+    opened at 11:02 (a copy from before the reload) and signed at 11:04 is placed as arrived 11:00 all the same:
+    the PDF record says "Arrived 5 Mar 2025 11:00 CET", not the later page or signing time."""
+    wo = _coil_clean(world)
+    client.force_login(world.tess)
+    _start(client, wo, wo.version)
+    wo.refresh_from_db()
+    later = board_world.NOW + dt.timedelta(minutes=2)
+    with time_machine.travel(later, tick=False):
+        html = client.get(_page(wo)).content.decode()
+    assert f'name="started_at" value="{board_world.NOW.isoformat()}"' in html
+    signed = board_world.NOW + dt.timedelta(minutes=4)
+    form = sync_form(wo, filled_readings(checklist_for(work_order=wo, user=world.tess), {}), finished_at=signed)
+    form["started_at"] = later.isoformat()
+    with time_machine.travel(signed, tick=False):
+        assert inspection_sync(user=world.tess, forms=[form])[0]["status"] in ("stored", "flagged")
+        assert Inspection.objects.get(work_order=wo).started_at == board_world.NOW
+        with django_capture_on_commit_callbacks(execute=True):
+            report = report_request(user=world.tess, kind="inspection", parameters={"work_order": str(wo.public_id)})
+    report.refresh_from_db()
+    assert report.status == Report.Status.DONE, report.error
+    text = " ".join(pdf_text(report).split())
+    assert "Arrived 5 Mar 2025 11:00 CET" in text and "Signed 5 Mar 2025 11:04 CET" in text
