@@ -32,6 +32,7 @@ from scheduling.selectors import (
 from .. import selectors
 from ..checklist_form import caution_blocks, cautions_for, form_sections, payload_from_post, typed_number
 from ..phone_form import site_where, with_last_values
+from ..work_origins import work_order_origins
 from .records import LAYOUTS
 from .visit_start import may_start
 
@@ -272,6 +273,10 @@ def checklist(request, public_id):
             "sections": sections,
             "askable_total": sum(s["askable"] for s in sections),
             "site_where": site_where(wo.ahu.building.site),
+            # Why corrective work exists: the findings or faults that proposed it, as the supervisor reads them.
+            "origins": work_order_origins(work_order=wo, unit_system=system)
+            if wo.kind == WorkOrder.Kind.CORRECTIVE
+            else [],
             "cautions": cautions_for(data or {}),
             "caution_blocks": caution_blocks(cautions_for(data or {})),
             # The visit's start: when "Start visit" was pressed, else when this page was opened (WorkOrder.arrived_by).
