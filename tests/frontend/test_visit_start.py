@@ -21,9 +21,9 @@ from reports.models import Report
 from reports.services import report_request
 from scheduling.models import WorkOrder
 from tests.factories.inspections import sync_form
+from tests.flows import board_world
 from tests.flows.test_work_order_record import filled_readings
 from tests.reports.conftest import pdf_text
-from tests.flows import board_world
 
 pytestmark = pytest.mark.django_db
 
