@@ -3,7 +3,7 @@
 ``FORM_FLAGS`` are the ones a phone can know from the form alone before it is sent: the server raises them
 (``services.sync_flags.form_flags_raised``) with these very words, and the phone checks them on "Finish and sign"
 from the checklist document (``phone.evaluation_context`` ships ``FORM_FLAGS`` as ``form_flags`` and each slot's
-``required`` / ``note_required_when_not_ok`` / ``photo_required_when_not_ok``), so both say the same thing.
+``required`` / ``photo_required_when_not_ok``; a note is asked on every fail), so both say the same thing.
 ``SERVER_FLAGS`` depend on what only the server knows when the form arrives (the work order's state and
 version, the phone's clock, the meter's history) or are shown beside the field as it is typed (an unusual
 value). tests/inspections/test_form_flags.py fails when the sync (``services.sync``, ``services.sync_flags``)
@@ -17,7 +17,8 @@ from __future__ import annotations
 FORM_FLAGS: dict[str, str] = {
     "incomplete": "required items not answered: {items}",
     "missing_photo": "{label} was marked Not OK without a photo of what is wrong",
-    "missing_note": "{label} was marked Not OK without a note saying what is wrong",
+    # Every fail: the phone asks "say what you found in the note" beside each one (DESIGN.md is silent on it).
+    "missing_note": "{label} failed without a note saying what was found",
 }
 
 SERVER_FLAGS: tuple[str, ...] = (

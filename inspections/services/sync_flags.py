@@ -72,7 +72,8 @@ def form_flags_raised(parsed: Parsed, user: User, wo: WorkOrder) -> list[dict[st
         label = form_flags.slot_label(slots[key])
         if slots[key].item.photo_required_when_not_ok and key not in photographed:
             flags.append(form_flags.flag_for("missing_photo", label=label))
-        if slots[key].item.note_required_when_not_ok and not r.note.strip():
+        # Every fail says what was found: the phone asks for it on each one (checklist.js), so none goes unflagged.
+        if not r.note.strip():
             flags.append(form_flags.flag_for("missing_note", label=label))
     return flags
 

@@ -32,7 +32,7 @@ export const FORM_FLAG_CHECKS = {
     return perItem(ctx, answers, "missing_photo", (s, a) => s.photo_required_when_not_ok && !a.photographed);
   },
   missing_note(ctx, answers) {
-    return perItem(ctx, answers, "missing_note", (s, a) => s.note_required_when_not_ok && !(a.note || "").trim());
+    return perItem(ctx, answers, "missing_note", (s, a) => !(a.note || "").trim());
   },
 };
 
