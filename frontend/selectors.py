@@ -13,6 +13,7 @@ from django.utils import timezone
 
 from engineering.controls import Verdict
 from inspections import display
+from inspections.freeze import seasons_words
 from inspections.models import Finding, Inspection
 from inspections.reasons import text_said_once
 from inspections.selectors import check_label, filter_series_for, filter_sources_words
@@ -65,6 +66,7 @@ def site_summaries(*, user, as_of: dt.datetime | None = None) -> tuple[complianc
             "filters_to_change": [],
             "freeze": dict.fromkeys(compliance.FREEZE_LABELS, 0),
             "freeze_not_ready": [],
+            "freeze_seasons": set(),
         }
         for s in figures.sites
     }
@@ -83,6 +85,7 @@ def site_summaries(*, user, as_of: dt.datetime | None = None) -> tuple[complianc
                 )
     for item in figures.freeze:
         rows[item["unit"].building.site_id]["freeze"][item["status"]] += 1
+        rows[item["unit"].building.site_id]["freeze_seasons"].add((item["season_start"], item["season_running"]))
         if item["status"] != compliance.FREEZE_READY:
             # Each unit that is not ready says why (inspections.freeze's words), not only a count.
             rows[item["unit"].building.site_id]["freeze_not_ready"].append(
@@ -90,6 +93,8 @@ def site_summaries(*, user, as_of: dt.datetime | None = None) -> tuple[complianc
             )
     for row in rows.values():
         row["freeze_text"] = freeze_text(row["freeze"])
+        # The season judged, as the compliance report names it ("… that began 19 Oct 2026" while it runs).
+        row["freeze_season_words"] = seasons_words(row["freeze_seasons"]) if row["freeze_seasons"] else ""
         per_site = figures.by_site.get(row["site"].pk, {})
         row["total"] = per_site.get("total")
         row["findings_total"] = per_site.get("findings_total", 0)

@@ -83,7 +83,7 @@ from .rules import (
     Verdict,
     freeze_verdict,
 )
-from .season import last_season_end, season_window
+from .season import last_season_end, season_window, season_words, seasons_words
 
 __all__ = [
     "BLOCKING_SEVERITIES",
@@ -108,4 +108,6 @@ __all__ = [
     "protected_units",
     "readiness_json",
     "season_window",
+    "season_words",
+    "seasons_words",
 ]

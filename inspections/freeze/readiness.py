@@ -32,7 +32,7 @@ from .rules import (
     OpenFinding,
     freeze_verdict,
 )
-from .season import season_window
+from .season import season_window, season_words
 
 # Sources of freeze events found between visits (the building-automation trends register one from an app above,
 # so this module imports nothing of it): called with (unit_ids=, as_of=), each returns
@@ -56,6 +56,7 @@ class FreezeReadiness:
     season_start: dt.date | None
     window_opens: dt.date | None
     tested_on: dt.date | None = None  # the latest test, whatever it found (the "last test")
+    season_running: bool = False  # the judged season has begun on the site's today (``season_window``)
     not_passed: list[str] = field(default_factory=list)
 
     @property
@@ -75,6 +76,16 @@ class FreezeReadiness:
         _head, sep, rest = self.reason.partition(" — ")
         return rest if sep else self.reason
 
+    @property
+    def season_words(self) -> str:
+        """The judged season named: "the freeze season that began …" while it runs, else "… starting …"."""
+        return season_words(season_start=self.season_start, running=self.season_running)
+
+    @property
+    def counts_from(self) -> dt.date | None:
+        """The first day a test counts for this season (``freeze_verdict`` takes tests after ``window_opens``)."""
+        return self.window_opens + dt.timedelta(days=1) if self.window_opens else None
+
     def as_row(self) -> dict:
         """The dict shape the compliance figures have always given (``done_on`` kept for templates)."""
         return {
@@ -89,6 +100,9 @@ class FreezeReadiness:
             "not_passed": self.not_passed,
             "season_start": self.season_start,
             "window_opens": self.window_opens,
+            "counts_from": self.counts_from,
+            "season_running": self.season_running,
+            "season_words": self.season_words,
         }
 
 
@@ -300,6 +314,7 @@ def freeze_readiness(
                 reason=verdict.reason,
                 season_start=season_start,
                 window_opens=opens,
+                season_running=season_start is not None and season_start <= today,
                 tested_on=verdict.latest.on if verdict.latest else None,
                 not_passed=list(verdict.decided_by.not_passed) if verdict.decided_by else [],
             )

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import datetime as dt
 
+from accounts.clock import local_date_of
 from engineering.freeze import daily_minimums_from_normals
 from inventory.models import Site
 
@@ -40,3 +41,29 @@ def season_window(*, site: Site, today: dt.date) -> tuple[dt.date | None, dt.dat
     if running <= today <= coming_opens:
         return running, last_season_end(site=site, season_start=running)
     return coming, coming_opens
+
+
+def season_words(*, season_start: dt.date | None, running: bool) -> str:
+    """The judged season in words, as pages and PDFs name it: "the freeze season that began 19 Oct 2026" while it
+    runs (``season_window`` judges the running one then), else "the freeze season starting 19 Oct 2027"."""
+    if season_start is None:
+        return "a freeze season not yet known (no site normals)"
+    if running:
+        return f"the freeze season that began {local_date_of(season_start)}"
+    return f"the freeze season starting {local_date_of(season_start)}"
+
+
+def seasons_words(seasons: set[tuple[dt.date | None, bool]]) -> str:
+    """Several sites' judged seasons (start, running) in one phrase, for a summary over them: one season in its own
+    words (``season_words``), else whether they run or are coming, with their starts."""
+    if not seasons:
+        return "the coming freeze season"
+    if len(seasons) == 1:
+        start, running = next(iter(seasons))
+        return season_words(season_start=start, running=running)
+    starts = ", ".join(local_date_of(d) for d in sorted({d for d, _ in seasons if d is not None}))
+    if all(running for d, running in seasons if d is not None):
+        return f"the freeze seasons under way (began {starts})"
+    if not any(running for _, running in seasons):
+        return f"the coming freeze seasons (starting {starts})"
+    return "each site's freeze season, under way or coming (dates per unit below)"

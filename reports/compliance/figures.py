@@ -15,6 +15,7 @@ from datetime import date, datetime
 
 from django.db.models import Q
 
+from inspections.freeze import seasons_words
 from inspections.models import Finding, finding_age_days
 from inventory.models import AHU, Site
 from inventory.today import today_for
@@ -53,6 +54,12 @@ class ComplianceFigures:
     def freeze_ready_now(self) -> int:
         """Units proven ready now, on time or late (``inspections.freeze.FreezeReadiness.ready``)."""
         return sum(1 for r in self.freeze if r["ready"])
+
+    @property
+    def freeze_season_words(self) -> str:
+        """The season(s) the freeze readiness is judged for, in words (``inspections.freeze.seasons_words``): "the
+        freeze season that began 19 Oct 2026" while it runs, not "the coming season"."""
+        return seasons_words({(r["season_start"], r["season_running"]) for r in self.freeze})
 
     @property
     def age_labels(self) -> list[str]:

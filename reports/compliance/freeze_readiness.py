@@ -1,4 +1,4 @@
-"""Freeze-protection readiness before the coming season, counted per state.
+"""Freeze-protection readiness for the season judged (the running one while it runs), counted per state.
 
 For each unit with an electric preheater or a preheat coil, from what its
 latest freeze-protection test found and the freeze findings still open:

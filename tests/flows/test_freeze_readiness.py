@@ -172,7 +172,9 @@ def test_failed_preheater_test_says_not_ready_everywhere_until_a_passing_retest(
     assert "0 of 1" in says["dashboard"] and "1 not ready" in says["dashboard"]
     assert "test failed on 3 Oct 2025" in says["dashboard"]
     assert "Not ready" in says["pdf"] and "test failed on 3 Oct 2025" in says["pdf"] and STAGE_ONE in says["pdf"]
-    assert "0 of 1 freeze-protected units ready" in says["pdf"]
+    assert "0 of 1 freeze-protected units ready for the freeze season starting 20 Oct 2025" in says["pdf"]
+    assert "Freeze-protection readiness for the freeze season starting 20 Oct 2025" in says["pdf"]
+    assert "for the freeze season starting 20 Oct 2025" in says["dashboard"]
 
     # 8 October: the corrective work is assigned and the technician retests on it; every step passes.
     work_order_assign(work_order=cwo, assignee=tech, by=boss)
@@ -272,6 +274,8 @@ def test_the_latest_freeze_test_of_the_demo_round_is_what_everyone_reads(
         assert "Not ready" in heater_line and f"test failed on {DEMO_TESTED}" in heater_line, heater_line
         dashboard = " ".join(client.get(reverse("frontend:dashboard")).content.decode().split())
         assert f"test failed on {DEMO_TESTED}" in dashboard
+        # In December the judged season is the running one: named as begun, not as coming.
+        assert "for the freeze season that began 5 Nov 2026" in dashboard and "coming" not in dashboard
 
         api_client.force_authenticate(manager)
         with django_capture_on_commit_callbacks(execute=True):
@@ -284,14 +288,19 @@ def test_the_latest_freeze_test_of_the_demo_round_is_what_everyone_reads(
         report = Report.objects.get(public_id=res.json()["public_id"])
         assert report.status == Report.Status.DONE, report.error
         pdf = " ".join(pdf_text(report).split())
-        # The readiness table: unit, season starts, window opened, status, last test, why.
+        # The season under way, named as such on page 1 and over the table (not "the coming season").
+        assert "units ready for the freeze season that began 5 Nov 2026" in pdf
+        assert "Freeze-protection readiness for the freeze season that began 5 Nov 2026" in pdf
+        assert "coming season" not in pdf
+        # The readiness table: unit, season (began), the first day a test counts, status, last test, why.
         assert re.search(
-            r"AHU-S1 \(Elderbank Sports Hall\) 5 Nov 2026 \d+ \w{3} \d{4} Ready 2 Dec 2026 "
+            r"AHU-S1 \(Elderbank Sports Hall\) began 5 Nov 2026 \d+ \w{3} \d{4} Ready 2 Dec 2026 "
             r"every step passed on 2 Dec 2026;",
             pdf,
         )
         assert re.search(
-            r"AHU-L1 \(Elderbank Library\) 5 Nov 2026 \d+ \w{3} \d{4} Not ready 2 Dec 2026 test failed on 2 Dec 2026:",
+            r"AHU-L1 \(Elderbank Library\) began 5 Nov 2026 \d+ \w{3} \d{4} Not ready 2 Dec 2026 "
+            r"test failed on 2 Dec 2026:",
             pdf,
         )
 
