@@ -56,6 +56,16 @@ class ComplianceFigures:
         return sum(1 for r in self.freeze if r["ready"])
 
     @property
+    def critical_open(self) -> int:
+        """Critical findings open at ``as_of`` (the findings matrix's own count)."""
+        return sum(self.findings_matrix.get(Finding.Severity.CRITICAL, {}).values())
+
+    @property
+    def corrective_overdue(self) -> int:
+        """Corrective work orders overdue now, of ``overdue`` (``WorkOrder.is_overdue_on``, the one overdue rule)."""
+        return sum(1 for o in self.overdue if o["work_order"].kind == WorkOrder.Kind.CORRECTIVE)
+
+    @property
     def freeze_season_words(self) -> str:
         """The season(s) the freeze readiness is judged for, in words (``inspections.freeze.seasons_words``): "the
         freeze season that began 19 Oct 2026" while it runs, not "the coming season"."""

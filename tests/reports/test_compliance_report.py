@@ -346,3 +346,43 @@ def test_the_reports_today_is_the_sites_not_the_requests_utc_date(org, superviso
     assert refused.json()["errors"]["start"] == [
         "From: 6 Mar 2025 is after today (5 Mar 2025); a report covers days that have begun"
     ]
+
+
+def test_page_one_does_not_read_clean_beside_an_open_critical_finding_and_overdue_corrective_work(
+    estate, supervisor, make_report, time_machine
+):
+    """Every preventive freeze test done on time, yet a critical freeze-protection finding 60 days old whose
+    corrective work is past its due date: page 1 names both beside the on-time share, counted by the one overdue
+    rule (``WorkOrder.is_overdue_on``). Corrective work due in the future, or inside its grace, is not counted."""
+    site, a1, a2 = estate["site"], estate["a1"], estate["a2"]
+    insp = b.inspection(a1.work_orders.order_by("pk").first(), estate["tech"], finished="2025-03-11")
+    ev = b.evaluation(insp, "preheater_freeze", "preheater_freeze.freeze_trip_test", verdict="fail", reason="no trip")
+    critical = b.finding(insp, ev, severity="critical", title="Frost thermostat did not trip", opened="2025-03-11")
+    late = corrective(a1, approval="approved", due="2025-04-01")  # past due on 10 May: overdue
+    Finding.objects.filter(pk=critical.pk).update(corrective_work_order=late)
+    corrective(a2, approval="approved", due="2025-05-20")  # not yet due: not counted
+    corrective(a2, approval="approved", due="2025-05-05", overdue_on=dt.date(2025, 5, 12))  # in its grace: not counted
+    f = compliance_figures(site_ids=[site.pk], start=dt.date(2025, 1, 1), end=dt.date(2025, 3, 31), as_of=AS_OF)
+    assert (f.critical_open, f.corrective_overdue) == (1, 1)
+
+    time_machine.move_to(AS_OF, tick=False)
+    report = make_report(
+        user=supervisor, kind="compliance", parameters={"sites": [site.pk], "start": "2025-01-01", "end": "2025-03-31"}
+    )
+    first_page = " ".join(pdf_text(report).split("Page 1 of")[0].split())
+    assert "60.0 %" in first_page  # the on-time share itself is unchanged
+    assert "yet 1 critical finding open and 1 corrective work order overdue" in first_page
+    assert "1 / 1 critical findings open / corrective work orders overdue now" in first_page
+    assert "Not all in order: the on-time share counts preventive work only." in first_page
+
+
+def test_page_one_says_no_critical_finding_and_no_overdue_corrective_work_plainly(estate, supervisor, make_report):
+    """Without either, the figure reads 0 / 0 and page 1 makes no 'not all in order' remark."""
+    report = make_report(
+        user=supervisor,
+        kind="compliance",
+        parameters={"sites": [estate["site"].pk], "start": "2025-01-01", "end": "2025-03-31"},
+    )
+    first_page = " ".join(pdf_text(report).split("Page 1 of")[0].split())
+    assert "0 / 0 critical findings open / corrective work orders overdue now" in first_page
+    assert "Not all in order" not in first_page and ", yet " not in first_page
