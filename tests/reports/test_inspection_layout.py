@@ -176,6 +176,10 @@ def test_a_typical_visit_is_a_compact_legible_record(monthly_visit, org, make_re
     # page never holds the safety box alone.
     assert flat.index("Result") < flat.index("Safety") < flat.index("Readings") < flat.index("Sign-off")
     assert "Photo 1" in flat and "Photo 2" in flat
+    # The sign-off is never alone on a last page: it shares its page with the section before it (the photos).
+    pages = [" ".join(page.extract_text().split()) for page in PdfReader(io.BytesIO(pdf)).pages]
+    [signoff_page] = [t for t in pages if "Sign-off" in t]
+    assert "Photo 2" in signoff_page.split("Sign-off")[0], signoff_page[:400]
     # No internal names: stored keys, dotted paths, Python's None or NaN.
     url_free = flat.replace(label_absolute_url(code=ahu.label_code), "")
     assert not leaks(url_free), sorted(set(leaks(url_free)))
