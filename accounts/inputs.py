@@ -26,10 +26,7 @@ from django.core.exceptions import ValidationError
 from django.utils.dateparse import parse_datetime
 
 from accounts.clock import local_time_text
-
-# The typed-number reader, answered from here too.
-from accounts.typed_numbers import comma_words as comma_words
-from accounts.typed_numbers import parse_number, typed_words
+from accounts.typed_numbers import comma_words, parse_number  # the typed-number reader, answered from here too
 from engineering.errors import EngineeringInputError
 from engineering.units import to_display, unit_label
 
@@ -152,7 +149,7 @@ def check_number(
         return None
     value = parse_number(raw)
     if value is None:
-        ambiguous = typed_words(raw)
+        ambiguous = comma_words(raw)
         errors.add(
             key,
             f"{label}: {ambiguous}"

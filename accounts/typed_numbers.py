@@ -7,7 +7,7 @@ that is not zero ("12,075", "1,250") may as well be a thousands separator: it is
 (``engineering.formatting.format_number``), so a number typed as shown reads the same.
 
 The phone reads typed text by the same rule: ``frontend/static/frontend/js/numbers.js`` (``parseNumber``,
-``commaWords``, ``typedWords``); tests/inspections/test_phone_agreement.py holds the two together. ``accounts.inputs``
+``commaWords``); tests/inspections/test_phone_agreement.py holds the two together. ``accounts.inputs``
 answers with these names.
 """
 
@@ -17,12 +17,9 @@ import math
 import re
 from typing import Any
 
-# A typed number: a sign, digits with one decimal point or comma; ASCII digits only (Python's float alone would
-# also take '1_000', '١٢' and 'infinity'). No exponent: a technician never types one ("1e5" is more likely a slip
-# than 100000), and ``exponent_words`` names it, for every field alike.
-_TYPED_NUMBER = re.compile(r"[+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)", re.ASCII)
-# A number in exponent notation, with a decimal point or comma: "1e5", "-2.5E3", "1,5e2".
-_EXPONENT = re.compile(r"[+-]?(?:[0-9]+[.,]?[0-9]*|[.,][0-9]+)[eE][+-]?[0-9]+", re.ASCII)
+# A typed number: a sign, digits with one decimal point or comma, an exponent; ASCII digits only (Python's float
+# alone would also take '1_000', '١٢' and 'infinity').
+_TYPED_NUMBER = re.compile(r"[+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?", re.ASCII)
 # One comma, exactly three digits after it, nothing else: a thousands separator or a decimal comma.
 _AMBIGUOUS_COMMA = re.compile(r"([+-]?)([0-9]+),([0-9]{3})", re.ASCII)
 
@@ -51,25 +48,11 @@ def comma_words(raw: Any) -> str | None:
     return f"“{str(raw).strip()}” could be {grouped} or {decimal}: type {grouped} or {decimal}"
 
 
-def exponent_words(raw: Any) -> str | None:
-    """ "“1e5” is written with an exponent (e): type the number in full digits" for a number typed in exponent
-    notation, else None; the caller puts the field's name before it."""
-    if not isinstance(raw, str) or _EXPONENT.fullmatch(raw.strip()) is None:
-        return None
-    return f"“{raw.strip()}” is written with an exponent (e): type the number in full digits"
-
-
-def typed_words(raw: Any) -> str | None:
-    """Why typed text that looks like a number is none, in words (an ambiguous comma, ``comma_words``; an
-    exponent, ``exponent_words``), else None; the caller puts the field's name before it."""
-    return comma_words(raw) or exponent_words(raw)
-
-
 def parse_number(raw: Any) -> float | None:
     """A finite float from a JSON number or typed text ('1,5' reads 1.5); None when it is none.
 
-    'nan', 'inf', '12,5a' and friends are not numbers a person means; nor is '12,075', which may mean
-    12075 or 12.075 (``comma_words`` says so), nor '1e5' (``exponent_words``)."""
+    'nan', 'inf', '1e309', '12,5a' and friends are not numbers a person means; nor is '12,075', which may mean
+    12075 or 12.075 (``comma_words`` says so)."""
     if isinstance(raw, bool) or raw is None:
         return None
     if isinstance(raw, int | float):

@@ -7,7 +7,7 @@ import math
 from collections.abc import Callable
 from dataclasses import dataclass
 
-from accounts.inputs import parse_number, typed_words
+from accounts.inputs import comma_words, parse_number
 from engineering.formatting import decimals_of, format_number
 from engineering.units import from_display, sensible_bound, to_display, unit_label
 
@@ -80,7 +80,7 @@ def check_number(spec: Input, raw: object, system: str) -> tuple[float | None, s
     if raw is None or (isinstance(raw, str) and not raw.strip()):
         return None, f"{spec.label}: missing; enter a number {allowed}"
     number = parse_number(raw)
-    if number is None and (ambiguous := typed_words(raw)):
+    if number is None and (ambiguous := comma_words(raw)):
         return None, f"{spec.label}: {ambiguous}"
     if number is None:
         said = "" if isinstance(raw, float) else f"{typed_text(raw)} is "  # a lost entry (the browser's NaN)

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 
-from accounts.inputs import FieldErrors, check_integer, number_allowed, number_problem, parse_number, typed_words
+from accounts.inputs import FieldErrors, check_integer, comma_words, number_allowed, number_problem, parse_number
 from engineering.errors import EngineeringInputError
 from engineering.units import from_display, to_display, unit_label
 from inventory.specs import SpecField, spec_fields
@@ -102,7 +102,7 @@ def specs_from_post(*, kind: str, post, system: str) -> tuple[dict, dict]:
             unit = unit_label(quantity=q, system=system) if q else s.unit
             typed = parse_number(raw)
             if typed is None:
-                ambiguous = typed_words(raw)
+                ambiguous = comma_words(raw)
                 errors[s.name] = [
                     f"{s.label}: {ambiguous}"
                     if ambiguous

@@ -18,7 +18,7 @@ from django.core.exceptions import ValidationError
 from django.utils import timezone
 from django.utils.dateparse import parse_datetime
 
-from accounts.inputs import FieldErrors, control_characters, parse_number, typed_words
+from accounts.inputs import FieldErrors, comma_words, control_characters, parse_number
 from accounts.inputs import shown as _shown
 
 # PostgreSQL's integer column (PositiveIntegerField and friends).
@@ -33,9 +33,8 @@ CLOCK_TOLERANCE = dt.timedelta(minutes=5)
 Errors = FieldErrors
 # A finite number from a JSON number or typed text ("0,84"); ``None`` for 1e309, NaN, a list (the input policy's).
 number = parse_number
-# "“12,075” could be 12075 or 12.075: type 12075 or 12.075" for a comma that may group thousands, "“1e5” is written
-# with an exponent (e): …" for an exponent, else None (accounts.typed_numbers.typed_words).
-ambiguous_comma = typed_words
+# "“12,075” could be 12075 or 12.075: type 12075 or 12.075" for a comma that may group thousands, else None.
+ambiguous_comma = comma_words
 
 
 def shown(raw: object, limit: int = 60) -> str:

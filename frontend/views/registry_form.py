@@ -10,7 +10,7 @@ from django.core.exceptions import ValidationError
 from django.shortcuts import render
 from django.utils.text import slugify
 
-from accounts.inputs import FieldErrors, check_date, check_integer, check_text, parse_number, typed_words
+from accounts.inputs import FieldErrors, check_date, check_integer, check_text, comma_words, parse_number
 from engineering.errors import EngineeringInputError
 from engineering.units import from_display, to_display, unit_label
 from inventory.specs import spec_fields
@@ -97,7 +97,7 @@ def _number(field: Field, raw: str, *, system: str, errors: FieldErrors):
         return None
     typed = parse_number(raw)
     if typed is None:
-        ambiguous = typed_words(raw)
+        ambiguous = comma_words(raw)
         errors.add(
             field.name,
             f"{field.label}: {ambiguous}"

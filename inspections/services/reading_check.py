@@ -91,7 +91,7 @@ def reading_parse(parsed: Parsed, i: int, raw: object, seen: set[tuple[str, int 
     else:
         x = check.number(value)
         ambiguous = check.ambiguous_comma(value)
-        if ambiguous:  # "12,075": 12075 h or 12.075 h, the technician says which; "1e5": typed in full
+        if ambiguous:  # "12,075": 12075 h or 12.075 h; the technician says which
             errors.add(f"{at}.value", f"{label}: {ambiguous}")
             return
         system = parsed.unit_system

@@ -7,6 +7,7 @@ growth is judged by counting, which does not depend on the machine.
 """
 
 import datetime as dt
+import re
 from types import SimpleNamespace
 
 import pydyf
@@ -122,7 +123,7 @@ def test_building_the_document_asks_the_same_queries_for_80_units_as_for_20(org,
         assert html.count("corrective work assigned, due") == units
         assert html.count(">Final filters<") == 2 * units  # a filter row and a finding row per unit
         assert f"Overdue now ({units})" in html  # each unit's coil visit, due 1 Mar
-        assert html.count('<table class="wide fixed">') == 4
+        assert len(re.findall(r'<table class="wide fixed[ "]', html)) == 4  # the overdue table adds its own class
 
 
 def test_the_pdf_of_more_units_has_proportionally_more_pages(org, supervisor, time_machine):

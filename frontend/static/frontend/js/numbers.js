@@ -1,10 +1,9 @@
 // A number as a person types it on the phone: a sign, digits with one decimal point or comma ("12,5" reads 12.5),
-// no exponent (a technician never types one: "1e5" is named by exponentWords); anything else ("12,5a", "abc", "1_000", "Infinity") is no number. A comma followed by exactly three
+// an exponent; anything else ("12,5a", "abc", "1_000", "Infinity") is no number. A comma followed by exactly three
 // digits after a whole part that is not zero ("12,075") may be a thousands separator as well: no number either,
 // and commaWords says both readings. The twin of the server's reader, accounts/typed_numbers.py parse_number and
 // comma_words (tests/inspections/test_phone_agreement.py holds the two together).
-const TYPED_NUMBER = /^[+-]?(\d+\.?\d*|\.\d+)$/;
-const EXPONENT = /^[+-]?(\d+[.,]?\d*|[.,]\d+)e[+-]?\d+$/i;
+const TYPED_NUMBER = /^[+-]?(\d+\.?\d*|\.\d+)(e[+-]?\d+)?$/i;
 const AMBIGUOUS_COMMA = /^([+-]?)(\d+),(\d{3})$/;
 
 /** The two numbers an ambiguous comma may mean, as typed ("12,075": ["12075", "12.075"]), or null. */
@@ -23,17 +22,6 @@ export function commaWords(raw) {
   if (!readings) return null;
   const [grouped, decimal] = readings;
   return `“${String(raw).trim()}” could be ${grouped} or ${decimal}: type ${grouped} or ${decimal}`;
-}
-
-/** "“1e5” is written with an exponent (e): type the number in full digits" for exponent notation, else null. */
-export function exponentWords(raw) {
-  if (typeof raw !== "string" || !EXPONENT.test(raw.trim())) return null;
-  return `“${raw.trim()}” is written with an exponent (e): type the number in full digits`;
-}
-
-/** Why typed text that looks like a number is none (an ambiguous comma, an exponent), else null (typed_words). */
-export function typedWords(raw) {
-  return commaWords(raw) || exponentWords(raw);
 }
 
 /** A finite number from typed text or a number, or null. */
