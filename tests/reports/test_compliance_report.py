@@ -7,6 +7,7 @@ import pytest
 import time_machine
 
 from accounts.models import Role
+from accounts.services import site_grant
 from inspections.models import Finding
 from inventory.models import Site
 from reports.compliance import FREEZE_DUE, FREEZE_READY, LATE, MISSED, ON_TIME, age_bucket, compliance_figures
@@ -348,12 +349,9 @@ def test_the_reports_today_is_the_sites_not_the_requests_utc_date(org, superviso
     ]
 
 
-def test_page_one_does_not_read_clean_beside_an_open_critical_finding_and_overdue_corrective_work(
-    estate, supervisor, make_report, time_machine
-):
-    """Every preventive freeze test done on time, yet a critical freeze-protection finding 60 days old whose
-    corrective work is past its due date: page 1 names both beside the on-time share, counted by the one overdue
-    rule (``WorkOrder.is_overdue_on``). Corrective work due in the future, or inside its grace, is not counted."""
+def critical_finding_with_late_corrective_work(estate) -> Site:
+    """A critical freeze-protection finding of 11 Mar 2025 whose corrective work was due 1 Apr (overdue on 10 May),
+    beside corrective work not yet due and work inside its grace (neither counted)."""
     site, a1, a2 = estate["site"], estate["a1"], estate["a2"]
     insp = b.inspection(a1.work_orders.order_by("pk").first(), estate["tech"], finished="2025-03-11")
     ev = b.evaluation(insp, "preheater_freeze", "preheater_freeze.freeze_trip_test", verdict="fail", reason="no trip")
@@ -362,6 +360,16 @@ def test_page_one_does_not_read_clean_beside_an_open_critical_finding_and_overdu
     Finding.objects.filter(pk=critical.pk).update(corrective_work_order=late)
     corrective(a2, approval="approved", due="2025-05-20")  # not yet due: not counted
     corrective(a2, approval="approved", due="2025-05-05", overdue_on=dt.date(2025, 5, 12))  # in its grace: not counted
+    return site
+
+
+def test_page_one_does_not_read_clean_beside_an_open_critical_finding_and_overdue_corrective_work(
+    estate, supervisor, make_report, time_machine
+):
+    """Every preventive freeze test done on time, yet a critical freeze-protection finding 60 days old whose
+    corrective work is past its due date: page 1 names both beside the on-time share, counted by the one overdue
+    rule (``WorkOrder.is_overdue_on``). Corrective work due in the future, or inside its grace, is not counted."""
+    site = critical_finding_with_late_corrective_work(estate)
     f = compliance_figures(site_ids=[site.pk], start=dt.date(2025, 1, 1), end=dt.date(2025, 3, 31), as_of=AS_OF)
     assert (f.critical_open, f.corrective_overdue) == (1, 1)
 
@@ -386,3 +394,17 @@ def test_page_one_says_no_critical_finding_and_no_overdue_corrective_work_plainl
     first_page = " ".join(pdf_text(report).split("Page 1 of")[0].split())
     assert "0 / 0 critical findings open / corrective work orders overdue now" in first_page
     assert "Not all in order" not in first_page and ", yet " not in first_page
+
+
+def test_the_managers_dashboard_and_site_page_count_what_page_one_counts(estate, org, client, time_machine):
+    """The property manager's dashboard and site page give the critical findings open and the corrective work overdue
+    beside their overdue and open-findings figures, from the same ComplianceFigures as the PDF's page 1."""
+    site = critical_finding_with_late_corrective_work(estate)
+    manager = make_person(organisation=org, role=Role.PROPERTY_MANAGER, username="pm.counts")
+    site_grant(user=manager, site=site)
+    time_machine.move_to(AS_OF, tick=False)
+    client.force_login(manager)
+    for url in ("/dashboard/", f"/dashboard/site/{site.pk}/"):
+        page = client.get(url).content.decode()
+        assert 'data-kpi="critical">1 critical<' in page, url
+        assert 'data-kpi="corrective-overdue">1 of them corrective work<' in page, url
