@@ -26,6 +26,7 @@ from scheduling.targets import task_targets
 from scheduling.task_rows import work_order_task_rows
 
 from .demo_calendar import VISIT_DAYS, freeze_test_visits, outdoor_c, part_load
+from .evaluation.ventilation_checks import required_outdoor_airflow_m3s
 from .models import Inspection
 from .services.sync import inspection_submit
 
@@ -39,6 +40,20 @@ FREEZE_FAULTS = {("elderbank", "AHU-L1"): "stage_late"}
 # history shows a filter reading at reduced airflow that the evaluation corrects to design airflow. That
 # visit does no ventilation check (outdoor air is judged at the unit's normal airflow).
 REDUCED_AIRFLOW_MONTHS_AGO, REDUCED_AIRFLOW_SHARE = 2, 0.8
+
+
+# What the demo technician writes beside the outdoor-air readings of a unit whose design minimum outdoor air is below
+# what its space needs (ASHRAE 62.1, judged each visit): a failed reading comes with a note, as a real one would, so
+# the supervisor's flagged forms hold what needs a decision, not a known design shortfall every month.
+SHORT_DESIGN_NOTE = "outdoor air below what the space needs at the design minimum: known, raised for a design review"
+
+
+def design_short_of_requirement(ahu: AHU) -> bool:
+    """Whether the unit's design minimum outdoor airflow is below its space's requirement (the evaluation's own
+    requirement, ``required_outdoor_airflow_m3s``)."""
+    need = required_outdoor_airflow_m3s(ahu)
+    design = (ahu.design_min_oa_fraction or 0) * (ahu.design_supply_airflow_m3s or 0)
+    return need is not None and need > design
 
 
 def _signature_png(name: str) -> str:
@@ -228,6 +243,7 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                     ]
             change_due = {b.pk for b in banks if loading[b.pk] > 0.85}
             t_out = outdoor_c(site, due, rng)
+            design_short = design_short_of_requirement(ahu)
             t_ret = round(22 + rng.uniform(-1, 1), 1)
             x = max(ahu.design_min_oa_fraction, 0.1) + rng.uniform(0.02, 0.08)
             vent = [{"item": "ventilation_check.outdoor_air", "component": None, "value": t_out}]
@@ -238,6 +254,7 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                         "item": "ventilation_check.mixed_air",
                         "component": None,
                         "value": round(t_ret - x * (t_ret - t_out) + rng.uniform(-0.2, 0.2), 1),
+                        "note": SHORT_DESIGN_NOTE if design_short else "",
                     },
                 ]
             if not reduced:  # drawn all the same, so the rest of the history stays as it was
