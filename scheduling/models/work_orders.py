@@ -146,13 +146,16 @@ class WorkOrder(models.Model):
     def due_words_on(self, today: dt.date) -> str:
         """The due date as every page says it, on ``today`` (the site's date): "due 4 Sep 2026"; past due but
         inside its grace window "due 19 Nov 2026, in grace until 3 Dec 2026"; past that, on 3 Dec, "due 4 Sep 2026,
-        75 days overdue (since 19 Sep 2026)" (``scheduling.lateness.overdue_words``: 3 Dec − 19 Sep = 75). Empty
-        for closed work or work with no due date."""
+        grace to 18 Sep 2026, 75 days overdue (since 19 Sep 2026)" (``scheduling.lateness.overdue_words``: 3 Dec −
+        19 Sep = 75; the grace named so the count reads right beside the due date; none named for work without one).
+        Empty for closed work or work with no due date."""
         if self.state not in self.OPEN_STATES or self.due_date is None or self.overdue_from is None:
             return ""
         words = f"due {self.due_date:%-d %b %Y}"
         if self.is_overdue_on(today):
-            return f"{words}, {overdue_words(since=self.overdue_from, today=today)}"
+            last = self.overdue_from - dt.timedelta(days=1)
+            grace = f", grace to {last:%-d %b %Y}" if last > self.due_date else ""
+            return f"{words}{grace}, {overdue_words(since=self.overdue_from, today=today)}"
         if self.due_date < today:
             last = self.overdue_from - dt.timedelta(days=1)
             return f"{words}, in grace until {last:%-d %b %Y}"

@@ -120,7 +120,7 @@ def test_late_work_stays_on_this_weeks_board_and_is_overdue_after_its_grace_on_p
     page, on_page, on_api, _ = sections(LATE)
     assert key in on_page["overdue"] and key in on_api["overdue"]
     assert key not in on_page["due"] and key not in on_api["due"]
-    words = "due 14 Jan 2026, 15 days overdue (since 29 Jan 2026)"  # 13 Feb − 29 Jan = 15
+    words = "due 14 Jan 2026, grace to 28 Jan 2026, 15 days overdue (since 29 Jan 2026)"  # 13 Feb − 29 Jan = 15
     assert words in page.content.decode()
     with time_machine.travel(LATE, tick=False):
         assert WorkOrder.objects.get(pk=wo.pk).is_overdue
@@ -136,9 +136,11 @@ def test_the_due_words_count_from_the_grace_window():
     wo = WorkOrder(due_date=dt.date(2026, 9, 4), overdue_on=dt.date(2026, 9, 19), state="planned")
     assert wo.due_words_on(dt.date(2026, 9, 4)) == "due 4 Sep 2026"
     assert wo.due_words_on(dt.date(2026, 9, 18)) == "due 4 Sep 2026, in grace until 18 Sep 2026"
-    assert wo.due_words_on(dt.date(2026, 9, 19)) == "due 4 Sep 2026, overdue since today (19 Sep 2026)"
-    assert wo.due_words_on(dt.date(2026, 9, 20)) == "due 4 Sep 2026, 1 day overdue (since 19 Sep 2026)"
-    assert wo.due_words_on(dt.date(2026, 12, 3)) == "due 4 Sep 2026, 75 days overdue (since 19 Sep 2026)"
+    assert wo.due_words_on(dt.date(2026, 9, 19)) == "due 4 Sep 2026, grace to 18 Sep 2026, overdue since today (19 Sep 2026)"
+    assert wo.due_words_on(dt.date(2026, 9, 20)) == "due 4 Sep 2026, grace to 18 Sep 2026, 1 day overdue (since 19 Sep 2026)"
+    assert wo.due_words_on(dt.date(2026, 12, 3)) == (
+        "due 4 Sep 2026, grace to 18 Sep 2026, 75 days overdue (since 19 Sep 2026)"
+    )
     no_grace = WorkOrder(due_date=dt.date(2026, 11, 30), overdue_on=None, state="planned")
     assert no_grace.due_words_on(dt.date(2026, 12, 3)) == "due 30 Nov 2026, 2 days overdue (since 1 Dec 2026)"
     # The tryout's cases on 4 December: the count is what a reader gets by subtracting the "since" day.
@@ -173,7 +175,7 @@ def test_every_page_counts_the_days_from_the_day_it_names_across_a_month_end_and
         assignee=tech,
         state=WorkOrder.State.ASSIGNED,
     )
-    words = "due 20 Oct 2026, 11 days overdue (since 22 Oct 2026)"
+    words = "due 20 Oct 2026, grace to 21 Oct 2026, 11 days overdue (since 22 Oct 2026)"
     pages = (
         reverse("frontend:board"),
         reverse("frontend:manager_finding", kwargs={"pk": world["fault"].finding_id}),

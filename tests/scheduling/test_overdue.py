@@ -43,7 +43,7 @@ def test_escalation_mails_from_the_first_day_after_grace(filter_visit, django_ca
         assert overdue_escalation_send(organisation=org, today=dt.date(2025, 3, 8)) == 0
         assert overdue_escalation_send(organisation=org, today=dt.date(2025, 3, 9)) == 1
     # Said as every page says it: counted from the first overdue day it names.
-    assert "due 1 Mar 2025, overdue since today (9 Mar 2025)" in mail.outbox[-1].body
+    assert "due 1 Mar 2025, grace to 8 Mar 2025, overdue since today (9 Mar 2025)" in mail.outbox[-1].body
 
 
 def test_board_counts_overdue_from_the_first_day_after_grace(filter_visit):
