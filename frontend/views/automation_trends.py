@@ -101,9 +101,11 @@ def _stretch(request, *, zone: str, fault: Fault | None) -> tuple[dt.date, int, 
         if asked is None:
             problems.append(f"{day_refusal(raw_start[:40], label='From', allowed=window)}.")
         elif asked < EARLIEST_DATE or asked > today:
-            problems.append(f"From: {raw_start[:20]!r} is outside the days with trends; allowed: {window}.")
+            problems.append(f"From: {raw_start[:20]!r} is not allowed; allowed: {window}.")
         else:
             start = asked
+    if start + dt.timedelta(days=days - 1) > today:  # no trends come from days not yet begun: end the stretch today
+        days = (today - start).days + 1
     return start, days, problems
 
 
@@ -192,6 +194,9 @@ def _trend_page(request, *, ahu, fault: Fault | None):
     # The From field keeps a refused day as typed beside its refusal, never the default in its place.
     refused = any(p.startswith("From:") for p in problems)
     start_text = request.GET.get("start", "")[:40] if refused else first.isoformat()
+    # So does the Days field: a refused number stays as typed beside its refusal.
+    days_refused = any(p.startswith("Days:") for p in problems)
+    days_text = request.GET.get("days", "")[:20] if days_refused else str(days)
     tz = zoneinfo.ZoneInfo(site.time_zone)
     start = dt.datetime.combine(first, dt.time(), tzinfo=tz)
     end = dt.datetime.combine(first + dt.timedelta(days=days), dt.time(), tzinfo=tz)
@@ -207,6 +212,7 @@ def _trend_page(request, *, ahu, fault: Fault | None):
             "fault": fault,
             "fault_row": fault_row(fault, system) if fault else None,
             "start_text": start_text,
+            "days_text": days_text,
             "points": [
                 {
                     "point": line.point,

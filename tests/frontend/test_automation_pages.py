@@ -138,11 +138,32 @@ def test_a_bad_stretch_is_named_and_the_default_shown(client, world):
         "(31 January 2026: 2026-01-31 or 31.01.2026) from 2000-01-01"
     ) in html
     assert 'data-chart="temperatures"' in html
-    for start, words in (("2026-02-30", "is not a date"), ("1999-12-31", "is outside the days with trends")):
+    for start, words in (
+        ("2026-02-30", "is not a date"),
+        ("1999-12-31", "is not allowed; allowed: from 2000-01-01 to 2026-01-14"),
+    ):
         html = get(
             client, world["boss"], reverse("frontend:unit_trends", kwargs={"pk": world["ahu"].pk}), start=start
         ).content.decode()
         assert f"From: &#x27;{start}&#x27; {words}" in html
+
+
+def test_a_refused_days_value_stays_as_typed_and_a_stretch_ends_today(client, world):
+    """Tryout: the Days field was reset to 7 beside the refusal of what was typed; and From today with 31 days drew
+    empty charts up to a month ahead. A refused value stays in its field; a stretch ends on the site's today."""
+    url = reverse("frontend:unit_trends", kwargs={"pk": world["ahu"].pk})
+    for typed in ("0", "32", "-1", "abc", "1e5", "7.5"):
+        page = get(client, world["boss"], url, days=typed)
+        assert page.status_code == 400, typed
+        html = page.content.decode()
+        assert f'name="days" value="{typed}"' in html, typed
+        assert f"Days: &#x27;{typed}&#x27; is not allowed; allowed: a whole number from 1 to 31." in html
+    today = AFTER.astimezone(zoneinfo.ZoneInfo(ZONE)).date()  # 14 Jan 2026
+    page = get(client, world["boss"], url, start=(today - dt.timedelta(days=2)).isoformat(), days="31")
+    assert page.status_code == 200
+    html = page.content.decode()
+    assert 'name="days" value="3"' in html
+    assert "12 Jan 2026 – 14 Jan 2026 on the site" in html
 
 
 def test_a_stretch_typed_day_first_with_dots_is_read_as_that_day(client, world):
