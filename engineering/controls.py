@@ -11,7 +11,7 @@ from dataclasses import dataclass, field
 from enum import StrEnum
 from itertools import pairwise
 
-from engineering import _validate as v
+from engineering import validate as v
 from engineering.errors import EngineeringInputError
 from engineering.faults.thresholds import FaultThresholds
 

@@ -12,7 +12,7 @@ import calendar
 from collections.abc import Iterable, Sequence
 from datetime import date, timedelta
 
-from engineering import _validate as v
+from engineering import validate as v
 from engineering.controls import Check, Verdict
 from engineering.errors import EngineeringInputError
 

@@ -18,7 +18,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from engineering import _validate as v
+from engineering import validate as v
 from engineering.controls import Check, Verdict
 from engineering.errors import EngineeringInputError, IndeterminateError
 

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import psychrolib
 
-from engineering import _validate as v
+from engineering import validate as v
 from engineering.errors import EngineeringInputError
 
 psychrolib.SetUnitSystem(psychrolib.SI)

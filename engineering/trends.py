@@ -16,7 +16,7 @@ from datetime import date, datetime
 import numpy as np
 from scipy import stats
 
-from engineering import _validate as v
+from engineering import validate as v
 from engineering.errors import InsufficientDataError
 
 # scipy's Theil–Sen itself, without its array-API wrapper (axis, NaN policy, broadcasting): the points here are

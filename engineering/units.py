@@ -28,7 +28,7 @@ from typing import Any
 
 import pint
 
-from engineering import _validate as v
+from engineering import validate as v
 
 __all__ = [
     "QUANTITIES",

@@ -10,8 +10,8 @@ from __future__ import annotations
 from collections.abc import Callable
 from dataclasses import dataclass
 
-from engineering import _validate as limits
 from engineering import airside, filters, outdoor_air
+from engineering import validate as limits
 from engineering.errors import EngineeringInputError
 from engineering.formatting import format_number, number_text
 from engineering.psychro import STANDARD_PRESSURE_PA, pressure_from_altitude

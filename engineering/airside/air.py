@@ -6,8 +6,8 @@ from dataclasses import dataclass
 
 import psychrolib
 
-from engineering import _validate as v
 from engineering import psychro  # noqa: F401  (sets psychrolib to SI once)
+from engineering import validate as v
 from engineering.errors import EngineeringInputError
 from engineering.psychro import STANDARD_PRESSURE_PA, AirState
 

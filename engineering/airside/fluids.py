@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import itertools
 
-from engineering import _validate as v
+from engineering import validate as v
 from engineering.errors import EngineeringInputError
 
 __all__ = ["FLUIDS", "GLYCOLS", "fluid_properties"]

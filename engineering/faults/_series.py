@@ -17,7 +17,7 @@ from typing import Any
 
 import numpy as np
 
-from engineering import _validate as v
+from engineering import validate as v
 from engineering.errors import EngineeringInputError
 
 # role: (label, low, high, SI unit). Fractions are 0–1, never percent.

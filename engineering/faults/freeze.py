@@ -23,7 +23,7 @@ from typing import Any
 
 import numpy as np
 
-from engineering import _validate as v
+from engineering import validate as v
 from engineering.errors import EngineeringInputError
 from engineering.faults import _series as s
 

@@ -17,7 +17,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, fields
 
-from engineering import _validate as v
+from engineering import validate as v
 
 F_TO_K = 5.0 / 9.0  # a temperature difference of 1 °F in K
 IN_WC_TO_PA = 249.0889  # 1 in. w.c. at 4 °C in Pa

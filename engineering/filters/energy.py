@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from engineering import _validate as v
+from engineering import validate as v
 from engineering.errors import EngineeringInputError
 
 from .loading import FILTER_DP_PA, pressure_drop_input

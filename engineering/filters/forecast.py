@@ -6,7 +6,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import date, datetime, timedelta
 
-from engineering import _validate as v
+from engineering import validate as v
 from engineering.errors import EngineeringInputError, InsufficientDataError
 from engineering.trends import as_datetime, robust_rate, run_hours_per_day
 

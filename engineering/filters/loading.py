@@ -9,7 +9,7 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
-from engineering import _validate as v
+from engineering import validate as v
 from engineering.controls import Verdict
 from engineering.errors import EngineeringInputError
 

@@ -40,7 +40,7 @@ export class EngineeringInputError extends Error {
   }
 }
 
-// SI unit (or label) → display quantity, so a refusal's numbers read in the person's units (engineering/_validate.py).
+// SI unit (or label) → display quantity, so a refusal's numbers read in the person's units (engineering/validate.py).
 const QUANTITY_OF_UNIT = { "m³/s": "airflow", Pa: "pressure", "°C": "temperature", K: "temperature_difference", ppm: "co2", W: "heat_rate" };
 const QUANTITY_OF_LABEL = { "absolute pressure": "absolute_pressure", "fluid flow": "water_flow" };
 const quantityOf = (unit, label = "") => QUANTITY_OF_LABEL[label] || QUANTITY_OF_UNIT[unit] || null;

@@ -1,5 +1,5 @@
-"""Shared argument checks; every public function validates through these so
-messages read the same everywhere."""
+"""The engineering functions' argument checks and plausibility bands (public: every module of
+``engineering`` and the field calculator validate through these, so refusals read the same everywhere)."""
 
 from __future__ import annotations
 
