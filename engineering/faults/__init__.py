@@ -12,7 +12,6 @@
 Pure numpy, vectorised over units × samples; no Django, DRF or Celery.
 """
 
-from engineering.faults._series import ROLES, Resampled, resample
 from engineering.faults.consequences import Consequence
 from engineering.faults.engine import (
     AhuFaults,
@@ -30,6 +29,7 @@ from engineering.faults.freeze import (
     freeze_events_batch,
 )
 from engineering.faults.rules import RULES, RULES_BY_CODE, FaultRule
+from engineering.faults.series import ROLES, Resampled, resample
 from engineering.faults.states import STATE_NAMES, OperatingState, operating_states
 from engineering.faults.thresholds import G36_DEFAULTS, FaultThresholds
 

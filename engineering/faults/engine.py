@@ -33,7 +33,7 @@ import numpy as np
 
 from engineering import validate as v
 from engineering.errors import EngineeringInputError
-from engineering.faults import _series as s
+from engineering.faults import series as s
 from engineering.faults.consequences import CONSEQUENCES, Consequence
 from engineering.faults.rules import RULES, SECTION, FaultRule, oa_fraction
 from engineering.faults.states import OperatingState, changes_since, operating_states

@@ -25,7 +25,7 @@ import numpy as np
 
 from engineering import validate as v
 from engineering.errors import EngineeringInputError
-from engineering.faults import _series as s
+from engineering.faults import series as s
 
 Time = datetime | float
 

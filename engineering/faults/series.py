@@ -4,6 +4,9 @@ Everything works on 2-D float arrays shaped (units, samples) so one call can
 judge thousands of units that share a time base; a 1-D series is one unit.
 A missing sample is NaN and stays "unknown": it never counts as a fault nor
 as a healthy sample.
+
+Its public names are shared by the rules' engine (``engine``) and the freeze events (``freeze``); the package
+answers with ``ROLES``, ``Resampled`` and ``resample``.
 """
 
 from __future__ import annotations
@@ -390,6 +393,3 @@ def _median_step(steps: np.ndarray) -> float:
     if steps.size and bool((steps == steps[0]).all()):
         return float(steps[0])
     return float(np.median(steps))
-
-
-__all__ = ["AVERAGED_ROLES", "ROLES", "Resampled", "TimeBase", "resample"]
