@@ -136,5 +136,10 @@ def _spans(zone: str, until_year: int) -> tuple[tuple[int, int, str], ...]:
     return tuple(spans)
 
 
+def cache_clear() -> None:
+    """Forget a zone's daylight-saving spans kept in this process (``config.caches.clear_module_caches``)."""
+    _spans.cache_clear()
+
+
 def _ms(at: dt.datetime) -> int:
     return int(at.timestamp()) * 1000

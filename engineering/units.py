@@ -35,6 +35,7 @@ __all__ = [
     "SYSTEMS",
     "DisplayUnit",
     "UnitSystem",
+    "cache_clear",
     "from_display",
     "sensible_bound",
     "to_display",
@@ -107,6 +108,11 @@ def _convert(x: float, source: str, target: str) -> float:
     """``x`` in ``source`` → ``target`` by pint, kept (callers pass −0 as 0): a form converts the same limits
     and values again and again, and one pint conversion costs about as much as a database query."""
     return float(ureg.Quantity(x, source).to(target).magnitude)
+
+
+def cache_clear() -> None:
+    """Forget the unit conversions kept in this process (``config.caches.clear_module_caches``)."""
+    _convert.cache_clear()
 
 
 def to_display(*, value: float, quantity: str, system: str = "si") -> float:

@@ -91,3 +91,8 @@ def _templates_read(newest: tuple[tuple[str, int, int], ...]) -> dict[str, Check
         t.pk: t for t in ChecklistTemplate.objects.filter(pk__in=[pk for *_, pk in newest]).prefetch_related("items")
     }
     return {code: rows[pk] for code, _version, pk in newest}
+
+
+def cache_clear() -> None:
+    """Forget the checklist templates read and kept in this process (``config.caches.clear_module_caches``)."""
+    _templates_read.cache_clear()

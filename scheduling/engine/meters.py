@@ -41,6 +41,11 @@ def _rate_per_day(readings: tuple[tuple[dt.datetime, float], ...]) -> float | No
         return None
 
 
+def cache_clear() -> None:
+    """Forget the meters' run-hour rates kept in this process (``config.caches.clear_module_caches``)."""
+    _rate_per_day.cache_clear()
+
+
 class Meters:
     """Run-hour readings of the units, grouped per meter, since each meter's last reset."""
 

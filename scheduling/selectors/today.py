@@ -51,6 +51,11 @@ def _suggest_order(origin: tuple[float, float], coords: tuple[tuple[float, float
     return tuple(routing.suggest_order(start=origin, stops=coords))
 
 
+def cache_clear() -> None:
+    """Forget the day's suggested route orders kept in this process (``config.caches.clear_module_caches``)."""
+    _suggest_order.cache_clear()
+
+
 def route_legs(*, points: dict[int, tuple[float, float]], start: tuple[float, float] | None):
     """(order, site id, leg km) per stop in the suggested order; ``points`` in first-due order."""
     ids = list(points)

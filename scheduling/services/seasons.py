@@ -65,6 +65,11 @@ def _starts(
     return freeze, cooling, source
 
 
+def cache_clear() -> None:
+    """Forget the seasons' starts kept in this process (``config.caches.clear_module_caches``)."""
+    _starts.cache_clear()
+
+
 def season_starts(
     *, site: Site, today: dt.date, stored: Iterable[tuple[dt.date, float, float, str]] = ()
 ) -> tuple[dt.date | None, dt.date | None, str]:
