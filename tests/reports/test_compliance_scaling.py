@@ -2,7 +2,7 @@
 database as many questions as building that of 20 (no query per unit, per row or per page), and the PDF's
 tagging reads its page references without rebuilding them for every tagged box.
 
-Timed figures belong in the benchmark (bench/scenarios.py, "PDF reports": at most 1 s per 100 units); here the
+Timed figures belong in the benchmark (bench/scenarios/documents.py, "PDF reports": at most 1 s per 100 units); here the
 growth is judged by counting, which does not depend on the machine.
 """
 
