@@ -1,4 +1,4 @@
-"""The synthetic portfolio generator (bench/generate.py) at a tiny size."""
+"""The synthetic portfolio generator (bench/generate/) at a tiny size."""
 
 import datetime as dt
 
