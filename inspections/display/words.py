@@ -37,15 +37,18 @@ def reading_words() -> dict[str, str]:
     return {"recorded": RECORDED_WORDS, "unjudged": UNJUDGED_WORDS}
 
 
-def reading_verdict_words(code: str | None, *, judged: bool) -> tuple[str, str]:
+def reading_verdict_words(code: str | None, *, judged: bool, checked: str = "") -> tuple[str, str]:
     """A reading's verdict as pages and PDFs show it beside the reading: (its words, what they mean).
 
     A reading no check judged reads ("Recorded", "no limit applies to this reading"), the words the phone shows
-    beside the field (``reading_words``); a judged reading its verdict's words and nothing more ("" for none).
+    beside the field (``reading_words``), or ("Recorded", ``checked``) where a rule checked it without judging it
+    (a run-hour value against the meter's last reading: "plausible: 615 h since …",
+    ``scheduling.services.meter_plausible_words``, as the phone said it); a judged reading its verdict's words and
+    nothing more ("" for none).
     """
     if code:
         return verdict_words(code), ""
-    return ("", "") if judged else (RECORDED_WORDS, UNJUDGED_WORDS)
+    return ("", "") if judged else (RECORDED_WORDS, checked or UNJUDGED_WORDS)
 
 
 # A keyword argument's name followed by "=" in an engineering message ("airflow_m3s=0.4",

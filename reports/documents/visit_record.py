@@ -26,6 +26,7 @@ from .visit_words import (
     reading_verdict,
     reason_as_of,
     row_reason,
+    run_hours_words,
 )
 
 
@@ -90,6 +91,7 @@ def visit_records(
         visit_day = insp.finished_at.astimezone(zone).date() if insp.finished_at else None
         groups: dict[str, list] = {}
         judged = {(e.item_key, e.component_id) for e in insp.evaluations.all()}
+        meter_words = run_hours_words(insp, ahu=work_order.ahu, zone=zone)  # as the phone said it, at the finish
         for r in insp.readings.all():
             if r.component_id:
                 components[r.component_id] = r.component
@@ -98,7 +100,11 @@ def visit_records(
                     "label": r.item.label,
                     "component": r.component,
                     "value": reading_value(r, system),
-                    "verdict": (said := reading_verdict(r, judged=(r.item.api_key, r.component_id) in judged))[0],
+                    "verdict": (
+                        said := reading_verdict(
+                            r, judged=(r.item.api_key, r.component_id) in judged, meter_words=meter_words
+                        )
+                    )[0],
                     "unjudged": said[1],
                     "verdict_code": r.verdict,
                     # The row names the part: its reason does not begin with it again.
@@ -126,7 +132,7 @@ def visit_records(
             }
             for e in insp.evaluations.all()
         ]
-        parts, methods = visit_parts(insp, evaluations, system)
+        parts, methods = visit_parts(insp, evaluations, system, meter_words=meter_words)
         visits.append(
             {
                 "inspection": insp,

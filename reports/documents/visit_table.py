@@ -118,11 +118,14 @@ def _formula_html(method: str) -> SafeString:
     return mark_safe(text)  # escaped above: only the sub and sup tags are markup
 
 
-def visit_parts(insp: Inspection, evaluations: list[dict], system: str) -> tuple[list[dict], list[SafeString]]:
+def visit_parts(
+    insp: Inspection, evaluations: list[dict], system: str, *, meter_words: str = ""
+) -> tuple[list[dict], list[SafeString]]:
     """The visit's readings as one table by part: the unit's own readings first, then each part in its
     position, each reading once with its value, the band it was judged against, its verdict, and below it only
     what its judgement adds (the reason when the columns do not say it, derived values, the note). Judgements
-    of no single reading follow in their part. Methods are numbered once each for the notes under the table."""
+    of no single reading follow in their part. Methods are numbered once each for the notes under the table.
+    ``meter_words``: what the meter rule checked of the run-hour value (``visit_words.run_hours_words``)."""
     by_key: dict[tuple[str, int | None], list[dict]] = {}
     for ev in evaluations:
         by_key.setdefault((ev["e"].item_key, ev["e"].component_id), []).append(ev)
@@ -160,7 +163,7 @@ def visit_parts(insp: Inspection, evaluations: list[dict], system: str) -> tuple
         if main is not None:
             reason = main["reason"] or reason
         limit, reason = _row_limit(main["e"] if main else None, item.quantity, system, reason, item.decimals)
-        verdict, unjudged = reading_verdict(r, judged=bool(judged))
+        verdict, unjudged = reading_verdict(r, judged=bool(judged), meter_words=meter_words)
         shown_reason = unjudged or ("" if says_nothing_more(reason, item.label, value, r.verdict) else reason)
         already = " ".join([value, limit, reason, *(ev["e"].method for ev in judged)])
         details = [d for ev in judged for d in _details(ev["derived"], already=already, readings=values)]

@@ -10,24 +10,43 @@ from engineering.controls import Verdict
 from engineering.formatting import quantity_text
 from inspections import display, reasons
 from inspections.display import VERDICT_WORDS
-from inspections.models import Reading
+from inspections.models import Inspection, Reading
 from inspections.selectors import reason_for
+from inventory.models import AHU
+from scheduling.services import meter_reading_words
 
+# The visit's run-hour value (its meter reading is stored from it, inspections.services.sync).
+RUN_HOURS_ITEM = "visit.run_hours"
 CHECK_VALUES = {"ok": "OK", "not_ok": "Not OK", "na": "N/A"}
 # Verdicts in words, as the phone and the record page say them (inspections.display).
 VERDICTS = {code: words for code, words in VERDICT_WORDS.items() if code}
 
 
-def reading_verdict(reading: Reading, *, judged: bool) -> tuple[str, str]:
+def reading_verdict(reading: Reading, *, judged: bool, meter_words: str = "") -> tuple[str, str]:
     """A reading's verdict beside it on the record page and in the PDFs, as the phone says it (``judged``: a check
     judged it): (its words, what they mean), "Recorded" and "no limit applies to this reading" for a value no
-    check judged (inspections.display.reading_verdict_words). A photo, a note, an N/A or an empty answer has no
-    value to judge: ("", "")."""
+    check judged (inspections.display.reading_verdict_words), or for the run-hour value what the meter rule checked
+    of it (``meter_words``, from ``run_hours_words``). A photo, a note, an N/A or an empty answer has no value to
+    judge: ("", "")."""
     item = reading.item
     nothing = reading.value_text == "na" or (reading.value_si is None and not reading.value_text)
     if not reading.verdict and (item.kind in (item.Kind.PHOTO, item.Kind.TEXT) or nothing):
         return "", ""
-    return display.reading_verdict_words(reading.verdict, judged=judged)
+    checked = meter_words if item.api_key == RUN_HOURS_ITEM else ""
+    return display.reading_verdict_words(reading.verdict, judged=judged, checked=checked)
+
+
+def run_hours_words(inspection: Inspection, *, ahu: AHU, zone: dt.tzinfo) -> str:
+    """What the meter rule checked of the visit's run-hour value as of the form's finish time ("plausible: 615 h
+    since the last reading of 12000 h on …", the phone's words beside the field), "" for none
+    (``scheduling.services.meter_reading_words``). One query, only for a visit with a run-hour value."""
+    hours = next(
+        (r.value_si for r in inspection.readings.all() if r.item.api_key == RUN_HOURS_ITEM and not r.verdict),
+        None,
+    )
+    if hours is None:
+        return ""
+    return meter_reading_words(ahu=ahu, hours=hours, finished_at=inspection.finished_at, zone=zone)
 
 
 def reading_value(reading: Reading, system: str) -> str:

@@ -5,7 +5,13 @@ from .calendar_feeds import calendar_feed_issue, calendar_feed_revoke, calendar_
 from .corrective import corrective_work_order_approve, corrective_work_order_propose, corrective_work_order_reject
 from .escalation import overdue_escalation_send
 from .library import task_definition_create, task_definition_override, task_library_install, unit_task_set
-from .meters import meter_neighbours, meter_reading_check, meter_reading_record, meter_readings_import_csv
+from .meter_words import meter_plausible_words, meter_reading_words
+from .meters import (
+    meter_neighbours,
+    meter_reading_check,
+    meter_reading_record,
+    meter_readings_import_csv,
+)
 from .seasons import outdoor_temperatures_import_csv, outdoor_temperatures_store, site_seasons_refresh
 from .work_orders import (
     WorkOrderConflict,
@@ -33,8 +39,10 @@ __all__ = [
     "corrective_work_order_propose",
     "corrective_work_order_reject",
     "meter_neighbours",
+    "meter_plausible_words",
     "meter_reading_check",
     "meter_reading_record",
+    "meter_reading_words",
     "meter_readings_import_csv",
     "outdoor_temperatures_import_csv",
     "outdoor_temperatures_store",

@@ -70,7 +70,7 @@ def meter_neighbours(*, ahu: AHU, component: Component | None, taken_at: dt.date
     return prev, nxt
 
 
-def _hours_text(h: float) -> str:
+def hours_text(h: float) -> str:
     """Whole hours unless a tenth matters, never grouped ("12075 h", as the form's field reads it back:
     ``engineering.formatting.format_number``)."""
     return f"{h:.0f} h" if abs(h - round(h)) < 0.05 else f"{h:.1f} h"
@@ -134,8 +134,8 @@ def meter_reading_check(
                 {
                     "hours": [
                         ValidationError(
-                            f"{what} {_hours_text(hours)} is below the previous reading of "
-                            f"{_hours_text(prev.hours)} taken {_local_text(ahu=ahu, at=prev.taken_at)}; a meter does "
+                            f"{what} {hours_text(hours)} is below the previous reading of "
+                            f"{hours_text(prev.hours)} taken {_local_text(ahu=ahu, at=prev.taken_at)}; a meter does "
                             f"not run backwards — if the meter was replaced, {if_replaced}",
                             code="meter_backwards",
                         )
@@ -150,10 +150,10 @@ def meter_reading_check(
                     {
                         "hours": [
                             ValidationError(
-                                f"{what} {_hours_text(hours)} is more than the meter can have run: the previous "
-                                f"reading was {_hours_text(prev.hours)} on {_local_text(ahu=ahu, at=prev.taken_at)}, "
-                                f"{_hours_text(elapsed.total_seconds() / 3600)} of clock time earlier, so at most "
-                                f"{_hours_text(most)} is possible (the time passed plus 2 %, at least 1 h). Check the "
+                                f"{what} {hours_text(hours)} is more than the meter can have run: the previous "
+                                f"reading was {hours_text(prev.hours)} on {_local_text(ahu=ahu, at=prev.taken_at)}, "
+                                f"{hours_text(elapsed.total_seconds() / 3600)} of clock time earlier, so at most "
+                                f"{hours_text(most)} is possible (the time passed plus 2 %, at least 1 h). Check the "
                                 f"number; if the meter was replaced, {if_replaced}",
                                 code="meter_too_fast",
                             )
@@ -166,7 +166,7 @@ def meter_reading_check(
                 {
                     "hours": [
                         ValidationError(
-                            f"{what} {_hours_text(hours)} is above the later reading of {_hours_text(nxt.hours)} "
+                            f"{what} {hours_text(hours)} is above the later reading of {hours_text(nxt.hours)} "
                             f"taken {_local_text(ahu=ahu, at=nxt.taken_at)}",
                             code="meter_backwards",
                         )
@@ -180,10 +180,10 @@ def meter_reading_check(
                 {
                     "hours": [
                         ValidationError(
-                            f"{what} {_hours_text(hours)} is too low for the later reading of "
-                            f"{_hours_text(nxt.hours)} on {_local_text(ahu=ahu, at=nxt.taken_at)}, "
-                            f"{_hours_text(elapsed.total_seconds() / 3600)} of clock time later: at least "
-                            f"{_hours_text(least)} is possible here (the time passed plus 2 %, at least 1 h)",
+                            f"{what} {hours_text(hours)} is too low for the later reading of "
+                            f"{hours_text(nxt.hours)} on {_local_text(ahu=ahu, at=nxt.taken_at)}, "
+                            f"{hours_text(elapsed.total_seconds() / 3600)} of clock time later: at least "
+                            f"{hours_text(least)} is possible here (the time passed plus 2 %, at least 1 h)",
                             code="meter_too_fast",
                         )
                     ]

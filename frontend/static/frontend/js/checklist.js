@@ -107,27 +107,30 @@ function badge(verdict, label) {
 
 const RUN_HOURS_KEY = readingKey("visit.run_hours", null);
 
-/** The run-hour value against the unit's last meter reading, by the server's rule (meter.js), as of the phone's clock. */
-function meterVerdict(ctx, hours) {
+/** The run-hour value against the unit's last meter reading, by the server's rule (meter.js), as of ``at``: the
+ * form's finish time (the server judges the stored form by it), the phone's clock now until the form is finished. */
+function meterVerdict(ctx, hours, at) {
   const slot = (ctx.slots || []).find((s) => readingKey(s.item, s.component) === RUN_HOURS_KEY);
   try {
-    return meterReadingCheck(ctx.meter, hours, new Date(), slot ? slot.label : "Run hours");
+    return meterReadingCheck(ctx.meter, hours, at, slot ? slot.label : "Run hours");
   } catch (error) {
     return null;
   }
 }
 
-function showVerdicts(form, ctx) {
+// Every verdict as of one moment ``at``, the form's finish time (a Date; now while the form is being filled in):
+// the meter rule, what it checked and the evaluation all read the same clock, as the server reads the form's.
+function showVerdicts(form, ctx, at = new Date()) {
   const { readings, blocks, system } = readingsOf(form, ctx);
   const found = { blocks, byKey: new Map(), meterCheck: null };
-  const meterCheck = ctx ? meterVerdict(ctx, readings[RUN_HOURS_KEY]) : null;
+  const meterCheck = ctx ? meterVerdict(ctx, readings[RUN_HOURS_KEY], at) : null;
   // A run-hour value the server refuses never reaches a filter forecast: judged without it, as the server
   // stores no form with it.
   const judged = meterCheck && meterCheck.verdict === "fail" ? { ...readings, [RUN_HOURS_KEY]: undefined } : readings;
   if (judged !== readings) delete judged[RUN_HOURS_KEY];
   let results = [];
   try {
-    results = ctx ? evaluate(ctx, judged) : [];
+    results = ctx ? evaluate(ctx, judged, { finishedAt: at.toISOString() }) : [];
   } catch (error) {
     results = [];
   }
@@ -168,10 +171,12 @@ function showVerdicts(form, ctx) {
       if (meter.verdict === "fail") out.append(" — the server will refuse this form with this value unless the meter was replaced");
       mine.push(meter);
     }
-    const checked = key === RUN_HOURS_KEY && !meter && ctx ? meterPlausibleText(ctx.meter, value, new Date()) : "";
-    // No check judges it: the server's words (inspections.display reading_words, in the checklist's context).
+    const checked = key === RUN_HOURS_KEY && !meter && ctx ? meterPlausibleText(ctx.meter, value, at) : "";
+    // No check judges it: the server's words (inspections.display reading_words, in the checklist's context), or
+    // for run-hours what the meter rule checked, as the record says it (meter_words.meter_plausible_words).
     const words = (ctx && ctx.words) || {};
-    if (!mine.length) out.append(badge("recorded", words.recorded), checked ? ` ${checked}` : words.unjudged ? ` — ${words.unjudged}` : "");
+    const said = checked || words.unjudged;
+    if (!mine.length) out.append(badge("recorded", words.recorded), said ? ` — ${said}` : "");
     if (range.improbable) out.append(`; ${range.text}`);
     out.dataset.phoneVerdict = mine.length ? mine.map((r) => r.verdict).join(" ") : "recorded";
   }
@@ -195,8 +200,8 @@ function fieldOf(block, what) {
   return block.querySelector("input[data-number], textarea, input[type=radio], input[type=file]");
 }
 
-function finishProblems(form, ctx) {
-  const judged = showVerdicts(form, ctx);
+function finishProblems(form, ctx, at = new Date()) {
+  const judged = showVerdicts(form, ctx, at);
   const refusals = [];
   const answers = new Map();
   for (const { block, key, value, range } of judged.blocks) {
@@ -278,7 +283,8 @@ async function photoDataUrl(file) {
   return canvas.toDataURL("image/jpeg", 0.85);
 }
 
-async function collect(form, pad) {
+// The form as it goes to the server, finished at ``at`` (a Date: the moment "Finish and sign" judged it).
+async function collect(form, pad, at) {
   const readings = [];
   const photos = [];
   for (const block of form.querySelectorAll("[data-item]")) {
@@ -309,7 +315,7 @@ async function collect(form, pad) {
     }
     if (value !== null) readings.push({ item, component, value, note });
   }
-  const now = new Date().toISOString();
+  const now = at.toISOString();
   return {
     client_uuid: form.dataset.clientUuid,
     work_order: form.dataset.workOrder,
@@ -652,7 +658,8 @@ export function startChecklist() {
     error.hidden = true;
     const acceptFlags = form.dataset.acceptFlags === "1";
     delete form.dataset.acceptFlags;
-    const problems = finishProblems(form, ctx);
+    const finishedAt = new Date(); // the form's finish time: judged by it here, sent as it, judged by it there
+    const problems = finishProblems(form, ctx, finishedAt);
     if (acceptFlags) problems.flags = [];
     showProblems(form, problemsBox, problems);
     if (problems.refusals.length || problems.flags.length) {
@@ -668,7 +675,7 @@ export function startChecklist() {
     button.disabled = true;
     try {
       await keep();
-      const payload = await collect(form, pad);
+      const payload = await collect(form, pad, finishedAt);
       await outboxPut({
         client_uuid: payload.client_uuid, owner: currentOwner(), state: "waiting", form: payload, saved_at: payload.finished_at,
       });

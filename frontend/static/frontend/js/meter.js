@@ -4,7 +4,7 @@
 // tests/inspections/test_meter_agreement.py runs both sides on the same cases.
 import { fixed } from "./units.js";
 
-/** scheduling.services.meters._hours_text: whole hours unless a tenth matters, never grouped ("12075 h"). */
+/** scheduling.services.meters.hours_text: whole hours unless a tenth matters, never grouped ("12075 h"). */
 export function hoursText(h) {
   return Math.abs(h - Math.round(h)) < 0.05 ? `${fixed(h, 0)} h` : `${fixed(h, 1)} h`;
 }
@@ -51,11 +51,14 @@ export function meterReadingCheck(meter, hours, now, label = "Run hours") {
 }
 
 /**
- * What the phone checked of a run-hour value the rule accepts, in words ("" when nothing was checked:
- * no last reading, no number, a value below the last one, or a last reading later than ``now``).
+ * What the meter rule checked of a run-hour value it accepts, in words ("" when nothing was checked: no last
+ * reading, no number, a value below the last one or more than the clock allows, or a last reading later than
+ * ``now``, the form's finish time). The twin of scheduling.services.meter_words.meter_plausible_words, which the
+ * record page and the PDFs say beside the stored reading (tests/inspections/test_meter_words.py).
  */
 export function meterPlausibleText(meter, hours, now) {
   if (!meter || !meter.last || typeof hours !== "number" || !Number.isFinite(hours) || hours < meter.last.hours) return "";
-  if (!((now.getTime() - Date.parse(meter.last.taken_at)) / 1000 >= 0)) return "";
+  const elapsedSeconds = (now.getTime() - Date.parse(meter.last.taken_at)) / 1000;
+  if (!(elapsedSeconds >= 0) || hours > meter.last.hours + maxGainH(meter, elapsedSeconds) + 1e-9) return "";
   return `plausible: ${hoursText(hours - meter.last.hours)} since the last reading of ${hoursText(meter.last.hours)} on ${meter.last.taken_text}`;
 }
