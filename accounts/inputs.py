@@ -26,7 +26,10 @@ from django.core.exceptions import ValidationError
 from django.utils.dateparse import parse_datetime
 
 from accounts.clock import local_time_text
-from accounts.typed_numbers import comma_words, parse_number  # the typed-number reader, answered from here too
+
+# The typed-number reader, answered from here too.
+from accounts.typed_numbers import comma_words, parse_number
+from accounts.typed_numbers import exponent_words as exponent_words
 from engineering.errors import EngineeringInputError
 from engineering.units import to_display, unit_label
 
@@ -147,9 +150,9 @@ def check_number(
         if required:
             errors.add(key, f"{label} is required; allowed: {allowed}")
         return None
-    value = parse_number(raw)
+    value = parse_number(raw, exponent=False)  # typed text: "1e5" is refused, with the range (a JSON 1e5 reads)
     if value is None:
-        ambiguous = comma_words(raw)
+        ambiguous = comma_words(raw) or exponent_words(raw, f"allowed: {allowed}")
         errors.add(
             key,
             f"{label}: {ambiguous}"

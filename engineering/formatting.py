@@ -13,6 +13,8 @@ in in. w.c. two decimals; a thermometer 0.1 °C or 0.1 °F.
 
 from __future__ import annotations
 
+from decimal import Decimal
+
 from engineering import units
 from engineering.units import UnitSystem
 
@@ -126,8 +128,14 @@ def quantity_text(value_si: float, *, quantity: str, system: str, decimals: int 
 
 def significant_text(x: float, *, figures: int = 4) -> str:
     """A typed number echoed back to its sender at ``figures`` significant figures, without trailing zeros
-    and with a true minus sign: 249.08891 → "249.1", 100000 → "100000", −0.5 → "−0.5"."""
-    return f"{float(f'{x:.{figures}g}'):g}".replace("-", "−")
+    and with a true minus sign: 249.08891 → "249.1", 100000 → "100000", 1000000 → "1000000" (never "1e+06": a
+    range said so would ask for the exponent it refuses), −0.5 → "−0.5"; past 10^15 or below 10^-6 an exponent."""
+    rounded = float(f"{x:.{figures}g}")
+    text = f"{rounded:g}"
+    if "e" in text and 1e-6 <= abs(rounded) < 1e15:
+        text = format(Decimal(repr(rounded)), "f")
+        text = text.rstrip("0").rstrip(".") if "." in text else text
+    return text.replace("-", "−")
 
 
 def count_text(n: int, noun: str, plural: str | None = None) -> str:

@@ -7,7 +7,7 @@ import math
 from collections.abc import Callable
 from dataclasses import dataclass
 
-from accounts.inputs import comma_words, parse_number
+from accounts.inputs import comma_words, exponent_words, parse_number
 from engineering.formatting import decimals_of, format_number
 from engineering.units import from_display, sensible_bound, to_display, unit_label
 
@@ -79,8 +79,8 @@ def check_number(spec: Input, raw: object, system: str) -> tuple[float | None, s
     allowed = allowed_text(spec, system)
     if raw is None or (isinstance(raw, str) and not raw.strip()):
         return None, f"{spec.label}: missing; enter a number {allowed}"
-    number = parse_number(raw)
-    if number is None and (ambiguous := comma_words(raw)):
+    number = parse_number(raw, exponent=False)  # "1e5" typed is refused with the range (calc.js the same)
+    if number is None and (ambiguous := comma_words(raw) or exponent_words(raw, f"allowed {allowed}")):
         return None, f"{spec.label}: {ambiguous}"
     if number is None:
         said = "" if isinstance(raw, float) else f"{typed_text(raw)} is "  # a lost entry (the browser's NaN)

@@ -71,8 +71,8 @@ def caution_blocks(cautions: list[str]) -> list[dict]:
 def typed_number(raw: str):
     """A typed number as a float (a decimal comma read as a point: ``accounts.inputs.parse_number``, the phone's
     twin is numbers.js ``parseNumber``); text that is no number is kept as typed for the server, which names the
-    field, the value and what is allowed."""
-    value = parse_number(raw)
+    field, the value and what is allowed ("1e5" too: a person never types an exponent)."""
+    value = parse_number(raw, exponent=False)
     return raw if value is None else value
 
 

@@ -4,7 +4,15 @@ from __future__ import annotations
 
 import math
 
-from accounts.inputs import FieldErrors, check_integer, comma_words, number_allowed, number_problem, parse_number
+from accounts.inputs import (
+    FieldErrors,
+    check_integer,
+    comma_words,
+    exponent_words,
+    number_allowed,
+    number_problem,
+    parse_number,
+)
 from engineering.errors import EngineeringInputError
 from engineering.units import from_display, to_display, unit_label
 from inventory.specs import SpecField, spec_fields
@@ -100,9 +108,9 @@ def specs_from_post(*, kind: str, post, system: str) -> tuple[dict, dict]:
             # The input policy: 'nan', 'inf' and 1e308 are refused here, with the range in the person's units.
             allowed = number_allowed(minimum=s.minimum, maximum=s.maximum, unit=s.unit, quantity=q, system=system)
             unit = unit_label(quantity=q, system=system) if q else s.unit
-            typed = parse_number(raw)
-            if typed is None:
-                ambiguous = comma_words(raw)
+            typed = parse_number(raw, exponent=False)
+            if typed is None:  # "12,075": which number? "1e5": typed in full, within the field's range
+                ambiguous = comma_words(raw) or exponent_words(raw, f"allowed: {allowed}")
                 errors[s.name] = [
                     f"{s.label}: {ambiguous}"
                     if ambiguous

@@ -18,7 +18,7 @@ from django.core.exceptions import ValidationError
 from django.utils import timezone
 from django.utils.dateparse import parse_datetime
 
-from accounts.inputs import FieldErrors, comma_words, control_characters, parse_number
+from accounts.inputs import FieldErrors, comma_words, control_characters, exponent_words, parse_number
 from accounts.inputs import shown as _shown
 
 # PostgreSQL's integer column (PositiveIntegerField and friends).
@@ -31,10 +31,17 @@ LATEST = dt.datetime(2100, 1, 1, tzinfo=dt.UTC)
 CLOCK_TOLERANCE = dt.timedelta(minutes=5)
 # ``{field: [message, ...]}``, the API's error shape (config/api.py): the input policy's own collector.
 Errors = FieldErrors
-# A finite number from a JSON number or typed text ("0,84"); ``None`` for 1e309, NaN, a list (the input policy's).
-number = parse_number
 # "“12,075” could be 12075 or 12.075: type 12075 or 12.075" for a comma that may group thousands, else None.
 ambiguous_comma = comma_words
+# "“1e5” is not a plain number; type digits with an optional decimal point or comma, allowed …" for a number typed
+# with an exponent, else None (accounts.typed_numbers.exponent_words; the phone's twin numbers.js exponentWords).
+exponent = exponent_words
+
+
+def number(raw: object) -> float | None:
+    """A finite number from a JSON number or text a person typed ("0,84"); ``None`` for 1e309, NaN, a list, and
+    text with an exponent ("1e5", said by ``exponent``): the input policy's reader of a typed number."""
+    return parse_number(raw, exponent=False)
 
 
 def shown(raw: object, limit: int = 60) -> str:

@@ -10,7 +10,15 @@ from django.core.exceptions import ValidationError
 from django.shortcuts import render
 from django.utils.text import slugify
 
-from accounts.inputs import FieldErrors, check_date, check_integer, check_text, comma_words, parse_number
+from accounts.inputs import (
+    FieldErrors,
+    check_date,
+    check_integer,
+    check_text,
+    comma_words,
+    exponent_words,
+    parse_number,
+)
 from engineering.errors import EngineeringInputError
 from engineering.units import from_display, to_display, unit_label
 from inventory.specs import spec_fields
@@ -95,9 +103,9 @@ def _number(field: Field, raw: str, *, system: str, errors: FieldErrors):
         if field.required:
             errors.add(field.name, f"{field.label} is required; allowed: {allowed}")
         return None
-    typed = parse_number(raw)
-    if typed is None:
-        ambiguous = comma_words(raw)
+    typed = parse_number(raw, exponent=False)
+    if typed is None:  # "12,075": which number? "1e5": typed in full, within the field's range
+        ambiguous = comma_words(raw) or exponent_words(raw, f"allowed: {allowed}")
         errors.add(
             field.name,
             f"{field.label}: {ambiguous}"

@@ -97,16 +97,18 @@ def reading_parse(parsed: Parsed, i: int, raw: object, seen: set[tuple[str, int 
         system = parsed.unit_system
         if system is None:  # an unknown unit system (refused under unit_system): no limits to judge a number by
             if x is None:
-                errors.add(f"{at}.value", f"{label}: {check.shown(value)} is not a number")
+                errors.add(
+                    f"{at}.value", f"{label}: {check.exponent(value) or f'{check.shown(value)} is not a number'}"
+                )
             return
         unit = limits.display_unit_label(it.quantity, system)
         lim = slot.limits
         lo = limits.to_display(lim.get("physical_min"), it.quantity, system)
         hi = limits.to_display(lim.get("physical_max"), it.quantity, system)
-        if x is None:
-            errors.add(
-                f"{at}.value", f"{label}: {check.shown(value)} is not a number; allowed {_range_text(lo, hi, unit)}"
-            )
+        if x is None:  # "1e5": typed with an exponent, said so with the range (the phone's numbers.js exponentWords)
+            in_range = f"allowed {_range_text(lo, hi, unit)}"
+            said = check.exponent(value, in_range) or f"{check.shown(value)} is not a number; {in_range}"
+            errors.add(f"{at}.value", f"{label}: {said}")
             return
         try:
             si = limits.from_display(x, it.quantity, system)

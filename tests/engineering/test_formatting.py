@@ -138,7 +138,10 @@ def test_an_unknown_quantity_is_refused_with_its_name():
 
 @pytest.mark.parametrize(
     ("x", "text"),
-    [(249.08891, "249.1"), (100_000.0, "100000"), (-0.5, "−0.5"), (0.000123456, "0.0001235"), (2.0, "2")],
+    [
+        *[(249.08891, "249.1"), (100_000.0, "100000"), (-0.5, "−0.5"), (0.000123456, "0.0001235"), (2.0, "2")],
+        *[(1_000_000.0, "1000000"), (1_234_567.0, "1235000"), (1e308, "1e+308")],  # never "1e+06" below 10^15
+    ],
 )
 def test_a_typed_number_is_echoed_at_four_significant_figures(x, text):
     assert fmt.significant_text(x) == text

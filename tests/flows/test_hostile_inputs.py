@@ -23,6 +23,9 @@ from scheduling.services import calendar_feed_issue, task_library_install
 from scheduling.services.meters import meter_readings_import_csv
 from tests.frontend import scenario as scenario_module
 
+# A number typed with an exponent (accounts.typed_numbers.exponent_words), before the field's range.
+PLAIN = "is not a plain number; type digits with an optional decimal point or comma"
+
 pytestmark = pytest.mark.django_db
 NOW = dt.datetime(2025, 3, 3, 9, 0, tzinfo=dt.UTC)
 
@@ -58,7 +61,16 @@ def _unit_form(ahu: AHU, **changes) -> dict:
 
 @pytest.mark.parametrize(
     ("typed", "said"),
-    [("nan", "'nan' is not a finite number"), ("inf", "'inf' is not a finite number"), ("1e308", "1e308 L/s is out")],
+    [
+        ("nan", "'nan' is not a finite number"),
+        ("inf", "'inf' is not a finite number"),
+        # Typed with an exponent: refused as typed with the range, never read as a number (accounts.typed_numbers).
+        (
+            "1e308",
+            f"“1e308” {PLAIN}, allowed: a number from 10 to 100000 L/s",
+        ),
+        ("1000000000", "1000000000 L/s is out"),
+    ],
 )
 def test_the_unit_form_refuses_nan_inf_and_1e308_naming_field_value_and_range(world, client, typed, said):
     """'nan', 'inf' and 1e308 typed as the design airflow are refused beside the field, with the range; nothing
@@ -184,7 +196,14 @@ def test_the_component_form_refuses_nan_and_1e308_in_the_persons_units(db, clien
         world.supervisor.save(update_fields=["unit_system"])
         comp = Component.objects.filter(ahu=world.unit_a, kind="filter_bank").first()
         client.force_login(world.supervisor)
-        for typed, said in (("nan", "'nan' is not a finite number"), ("1e308", "1e308 in. w.c. is out of range")):
+        for typed, said in (
+            ("nan", "'nan' is not a finite number"),
+            (
+                "1e308",
+                f"“1e308” {PLAIN}, allowed: a number from 0.0200",
+            ),
+            ("99999", "99999 in. w.c. is out of range"),
+        ):
             post = {"name": comp.name, **{f"spec_{k}": "" for k in comp.specs}, "spec_clean_dp_pa": typed}
             r = client.post(f"/registry/component/{comp.pk}/edit/", post)
             assert r.status_code == 400  # refused: the form again, the message beside the field

@@ -9,6 +9,9 @@ from frontend import calculator_inputs, calculators
 from frontend.calculators import CalcError, calculate, calculator_context
 from tests.phone_js import node_json
 
+# A number typed with an exponent (accounts.typed_numbers.exponent_words), before the field's range.
+PLAIN = "is not a plain number; type digits with an optional decimal point or comma"
+
 # 1,200 cfm heated from 50 to 80 °F (the tryout's case).
 TYPED_US = {"airflow_m3s": "1200", "t_in_c": "50", "t_out_c": "80"}
 
@@ -152,14 +155,22 @@ def test_a_shown_bound_typed_back_is_allowed_and_one_past_it_is_refused_naming_t
     ("typed", "message"),
     [
         ("", "Final pressure drop: missing; enter a number from 0 to 10 in. w.c."),
-        ("1e400", "Final pressure drop: 1e400 is not a usable number; allowed from 0 to 10 in. w.c."),
+        (
+            "1e400",
+            f"Final pressure drop: “1e400” {PLAIN}, allowed from 0 to 10 in. w.c.",
+        ),
         ("abc", "Final pressure drop: abc is not a usable number; allowed from 0 to 10 in. w.c."),
-        ("1e300", "Final pressure drop: 1e300 in. w.c. is outside the allowed range, from 0 to 10 in. w.c."),
+        (
+            "1e300",
+            f"Final pressure drop: “1e300” {PLAIN}, allowed from 0 to 10 in. w.c.",
+        ),
+        ("300000", "Final pressure drop: 300000 in. w.c. is outside the allowed range, from 0 to 10 in. w.c."),
     ],
 )
 def test_a_blank_or_unusable_field_is_named_with_its_range(tmp_path, typed, message):
-    """Blank, 1e400 (beyond any float), text and 1e300 each get a message naming the field, what was typed and
-    the range, never a 300-digit number or a silent blank, on the server and the phone alike."""
+    """Blank, 1e400 (beyond any float), text, 1e300 (a number written with an exponent: typed in full or not at
+    all) and a number far out of range each get a message naming the field, what was typed and the range, never a
+    300-digit number or a silent blank, on the server and the phone alike."""
     case = {"name": "filter-loading", "values": {**FILTER_US, "final_dp_pa": typed}, "system": "us"}
     server = _server(case)
     assert server == {"errors": {"final_dp_pa": [message]}}

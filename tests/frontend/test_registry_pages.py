@@ -17,6 +17,9 @@ from scheduling.models import WorkOrder, WorkOrderTask
 from tests.factories.accounts import OrganisationFactory, make_person
 from tests.factories.inventory import BuildingFactory, SiteFactory, make_full_unit
 
+# A number typed with an exponent (accounts.typed_numbers.exponent_words), before the field's range.
+PLAIN = "is not a plain number; type digits with an optional decimal point or comma"
+
 pytestmark = pytest.mark.django_db
 NOW = dt.datetime(2026, 3, 9, 9, 30, tzinfo=dt.UTC)  # a Monday morning; any fixed moment would do
 
@@ -140,7 +143,9 @@ def test_the_unit_form_speaks_plain_words_in_the_persons_units(scenario, login):
     ("field", "typed", "said"),
     [
         ("design_supply_airflow_m3s", "-2", "Design supply airflow: -2 L/s is out of range; allowed: a number from 10 to 100000 L/s"),  # noqa: E501
-        ("design_supply_airflow_m3s", "1e400", "Design supply airflow: '1e400' is not a finite number"),
+        # Typed with an exponent: the value as typed and the field's range (never read as 1e400 or 100000).
+        ("design_supply_airflow_m3s", "1e400", f"Design supply airflow: “1e400” {PLAIN}, allowed: a number from 10 to 100000 L/s"),  # noqa: E501
+        ("design_supply_airflow_m3s", "1e3", f"Design supply airflow: “1e3” {PLAIN}, allowed: a number from 10 to 100000 L/s"),  # noqa: E501
         ("design_supply_airflow_m3s", "NaN", "Design supply airflow: 'NaN' is not a finite number"),
         ("tag", "", "Tag is required"),
         ("tag", "AHU\x00-9", "Tag: the text contains control characters (such as NUL)"),
@@ -171,7 +176,7 @@ def test_a_bad_unit_value_is_refused_at_its_field_and_nothing_is_saved(scenario,
         ("spec_count", "six", "Number of filters: 'six' is not a whole number; allowed: a whole number from 1 to 200"),
         ("spec_merv", "25", "MERV class (ASHRAE 52.2): '25' is not one of the choices; allowed: one of 1, 2"),
         ("spec_size", "592\x00", "control characters"),
-        ("spec_final_dp_pa", "1e400", "Final (change) pressure drop: '1e400' is not a finite number"),
+        ("spec_final_dp_pa", "1e400", f"Final (change) pressure drop: “1e400” {PLAIN}, allowed: a number from"),
         ("spec_clean_dp_pa", "nan", "Clean (initial) pressure drop: 'nan' is not a finite number"),
         ("name", "", "Name is required"),
     ],
@@ -197,9 +202,7 @@ def test_a_site_with_bad_values_is_not_added(scenario, login):
     )  # fmt: skip
     assert r.status_code == 400
     assert "Site name: 'Harbour House' is already a site of" in _field_errors(r, "f-name")
-    assert "Latitude: '1e400' is not a finite number; allowed: a number from -90 to 90 °" in _field_errors(
-        r, "f-latitude"
-    )
+    assert f"Latitude: “1e400” {PLAIN}, allowed: a number from -90 to 90 °" in _field_errors(r, "f-latitude")
     assert "Longitude: 'NaN' is not a finite number" in _field_errors(r, "f-longitude")
     assert "Time zone: 'Mars/Olympus' is not one of the choices" in _field_errors(r, "f-time_zone")
     assert "control characters" in _field_errors(r, "f-access_notes")

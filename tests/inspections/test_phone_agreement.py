@@ -960,12 +960,40 @@ def test_the_phone_reads_a_typed_number_as_the_server_does(tmp_path):
     from frontend.checklist_form import typed_number
 
     phone = node_json(tmp_path, NUMBER_RUNNER, TYPED)
-    server = [parse_number(t) for t in TYPED]
+    server = [parse_number(t, exponent=False) for t in TYPED]  # a person's typed number: no exponent
     assert phone == server, [(t, s, p) for t, s, p in zip(TYPED, server, phone, strict=True) if s != p]
     assert dict(zip(TYPED, server, strict=True))["12,5"] == 12.5
     assert dict(zip(TYPED, server, strict=True))["12,5a"] is None
     # The page posted without scripts keeps what is no number as typed, for the server to name.
     assert typed_number("12,5") == 12.5 and typed_number("12,5a") == "12,5a"
+
+
+EXPONENT_RUNNER = """
+import { readFileSync } from "node:fs";
+import { exponentWords, parseNumber } from "./numbers.js";
+const cases = JSON.parse(readFileSync(process.argv[2], "utf8"));
+console.log(JSON.stringify(cases.map((c) => [parseNumber(c), exponentWords(c, "allowed 0 to 1000000 h")])));
+"""
+
+
+def test_a_number_typed_with_an_exponent_is_refused_alike_with_the_fields_range(tmp_path):
+    """Tryout: "1e5" typed for run-hours read 100000 h on the phone. A person never types an exponent (common
+    practice: it is more likely a slip): no number on either side, said in the same words with the field's own
+    range; a number written out in full still reads, and machine data (a CSV cell) still reads an exponent."""
+    from accounts.inputs import exponent_words, parse_number
+
+    typed = [*TYPED, "1e5", "1E5", " 1e5 ", "2E3", "-2.5E3", ".5e1", "100000"]
+    phone = node_json(tmp_path, EXPONENT_RUNNER, typed)
+    server = [[parse_number(t, exponent=False), exponent_words(t, "allowed 0 to 1000000 h")] for t in typed]
+    assert phone == server, [(t, s, p) for t, s, p in zip(typed, server, phone, strict=True) if s != p]
+    said = dict(zip(typed, server, strict=True))
+    for t in ("1e3", "1E-2", "1,5e2", "1e400", "12,075e2", "1e5", "1E5", " 1e5 ", "2E3", "-2.5E3", ".5e1"):
+        assert said[t][0] is None and "is not a plain number" in said[t][1], (t, said[t])
+    assert said["1e5"][1] == (
+        "“1e5” is not a plain number; type digits with an optional decimal point or comma, allowed 0 to 1000000 h"
+    )
+    assert said["100000"] == [100000, None] and said["12,5"] == [12.5, None] and said["abc"] == [None, None]
+    assert parse_number("1e5") == 100000  # machine data: a trend or meter CSV cell, an API value
 
 
 def test_a_comma_that_may_group_thousands_is_refused_alike_with_both_readings(tmp_path):

@@ -5,7 +5,7 @@ import {
   EngineeringInputError, filterLoading, loadingPercent, fractionWords, plainMessage, oaFractionFromCo2, oaFractionFromTemperatures, pyRound, sensibleHeatW,
 } from "./evaluate.js";
 import { displayNumber, fixed, formatNumber, fromDisplay, render, unitLabel } from "./units.js";
-import { commaWords, parseNumber } from "./numbers.js";
+import { commaWords, exponentWords, parseNumber } from "./numbers.js";
 
 // A figure in the reader's unit at the quantity's usual precision (frontend/calculators.py: _row).
 function row(ctx, label, value, quantity, system) {
@@ -60,7 +60,7 @@ export function checkNumber(ctx, spec, raw, system) {
   const allowed = spec.allowed[sys(system)];
   if (raw === undefined || raw === null || (typeof raw === "string" && raw.trim() === "")) return { problem: `${spec.label}: missing; enter a number ${allowed}` };
   const number = parseNumber(raw);
-  const ambiguous = number === null ? commaWords(raw) : null;
+  const ambiguous = number === null ? commaWords(raw) || exponentWords(raw, `allowed ${allowed}`) : null;
   if (ambiguous) return { problem: `${spec.label}: ${ambiguous}` };
   if (number === null) {
     const said = typeof raw === "number" ? "" : `${typedText(raw)} is `;

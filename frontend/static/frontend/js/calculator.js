@@ -2,7 +2,7 @@
 // proven equal by the agreement test), online or offline; the server answers only if the page came without
 // its calculator context.
 import { calculate } from "./calc.js";
-import { commaWords, parseNumber } from "./numbers.js";
+import { commaWords, exponentWords, parseNumber } from "./numbers.js";
 
 function calculatorContext() {
   const node = document.getElementById("calculator-context");
@@ -27,7 +27,8 @@ function rangeProblems(form) {
     const allowed = input.dataset.allowed || "";
     const v = parseNumber(input.value);
     if (input.value.trim() === "") { problems.push(`${label}: missing; enter a number ${allowed}`); continue; }
-    if (v === null && commaWords(input.value)) { problems.push(`${label}: ${commaWords(input.value)}`); continue; }
+    const ambiguous = v === null ? commaWords(input.value) || exponentWords(input.value, `allowed ${allowed}`) : null;
+    if (ambiguous) { problems.push(`${label}: ${ambiguous}`); continue; }
     if (v === null) { problems.push(`${label}: ${input.value.trim()} is not a usable number; allowed ${allowed}`); continue; }
     const lo = input.dataset.min === undefined ? null : Number(input.dataset.min);
     const hi = input.dataset.max === undefined ? null : Number(input.dataset.max);

@@ -5,7 +5,7 @@ import { evaluate, readingKey, reasonIn } from "./evaluate.js";
 import { formFlags } from "./formcheck.js";
 import { startFormNav } from "./formnav.js";
 import { outOfRange, plausibility } from "./limits.js";
-import { commaWords, parseNumber } from "./numbers.js";
+import { commaWords, exponentWords, parseNumber } from "./numbers.js";
 import { meterPlausibleText, meterReadingCheck } from "./meter.js";
 import { newUuid, outboxPut } from "./outbox.js";
 import { attachSignature } from "./signature.js";
@@ -90,9 +90,11 @@ function impossibleText(block, range) {
 }
 
 // "“12,5a” is not a number; allowed −40 to 60 °C, a decimal comma or point": the value as typed and what is allowed;
-// "“12,075” could be 12075 or 12.075: type 12075 or 12.075" for a comma that may group thousands (numbers.js).
+// "“12,075” could be 12075 or 12.075: type 12075 or 12.075" for a comma that may group thousands, "“1e5” is not a
+// plain number; type digits …, allowed 0 to 1000000 h" for an exponent, with the field's range (numbers.js; the
+// server's words, inspections/services/reading_check.py).
 function notANumber(range) {
-  const ambiguous = commaWords(range.typed);
+  const ambiguous = commaWords(range.typed) || exponentWords(range.typed, range.text);
   if (ambiguous) return ambiguous;
   const allowed = range.text ? `${range.text}, ` : "allowed ";
   return `“${range.typed}” is not a number; ${allowed}a number with a decimal point or comma`;
