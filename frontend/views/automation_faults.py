@@ -173,18 +173,34 @@ def faults(request):
     )
 
 
+def _freeze_events(read: list[Fault], readiness: dict) -> list[dict]:
+    """The freeze events of ``read`` that keep their unit from being ready (``readiness``: {unit id:
+    ``inspections.freeze.FreezeReadiness``}), each with its unit's readiness and its corrective work in words."""
+    out = []
+    for f in (f for f in read if f.code == Fault.FREEZE):
+        r = readiness.get(f.ahu_id)
+        if r is not None and r.ready:
+            continue
+        if f.state == Fault.State.CLOSED and r is None:
+            continue
+        work = f.corrective_work_order.state_words if f.corrective_work_order else ""
+        out.append({"fault": f, "readiness": r, "work_words": work})
+    return out
+
+
 def _manager_summary(request):
     """Her sites' active faults and loaded filters counted per site, then each one in plain words: the unit, what
     was found, since when, what the service company does about it and her finding's page (its evidence in words);
-    the freeze events that keep a unit from being ready. Filtered by one of her sites (``?site=``, refused as the
-    supervisor's page refuses it). The faults are read once: the open ones and every freeze event together. The
-    evidence charts stay the supervisors'."""
+    the freeze events that keep a unit from being ready, and the units not ready for freeze protection without one
+    (a failed or missing test) in her dashboard's words (``inspections.freeze``'s reason). Filtered by one of her
+    sites (``?site=``, refused as the supervisor's page refuses it). The faults are read once: the open ones and
+    every freeze event together. The evidence charts stay the supervisors'."""
     system = request.user.unit_system
     sites = list(sites_visible_to(user=request.user).order_by("name"))
     chosen, problem = site_choice(request.GET.get("site", ""), sites)
     shown_sites = [chosen] if chosen is not None else sites
     counts: dict[int, int] = defaultdict(int)
-    active, freeze = [], []
+    active, freeze, not_ready, readiness = [], [], [], {}
     if not problem:
         read = list(
             faults_visible_to(user=request.user, site=chosen, open_only=False).filter(
@@ -206,19 +222,10 @@ def _manager_summary(request):
                 user=request.user, site_ids=[chosen.pk] if chosen else None, as_of=timezone.now()
             )
         }
-        for f in (f for f in read if f.code == Fault.FREEZE):
-            r = readiness.get(f.ahu_id)
-            if r is not None and r.ready:
-                continue
-            if f.state == Fault.State.CLOSED and r is None:
-                continue
-            freeze.append(
-                {
-                    "fault": f,
-                    "readiness": r,
-                    "work_words": f.corrective_work_order.state_words if f.corrective_work_order else "",
-                }
-            )
+        freeze = _freeze_events(read, readiness)
+        events_of = {e["fault"].ahu_id for e in freeze}
+        # The units not ready without a freeze event to show (a failed or missing test): the dashboard's words.
+        not_ready = [r for r in readiness.values() if not r.ready and r.unit.pk not in events_of]
     return render(
         request,
         "frontend/automation/manager_faults.html",
@@ -226,6 +233,8 @@ def _manager_summary(request):
             "rows": [{"site": s, "active": counts.get(s.pk, 0)} for s in shown_sites],
             "active": active,
             "freeze": freeze,
+            "freeze_not_ready": not_ready,
+            "freeze_protected": bool(readiness),
             "sites": sites,
             "chosen": chosen,
             "site_problem": problem,
