@@ -20,6 +20,7 @@ from accounts.inputs import EARLIEST_DATE, day_refusal, parse_day
 from accounts.selectors import primary_role
 from automation.fault_models import Fault
 from automation.fault_selectors import fault_for, faults_visible_to, unit_trend_view
+from automation.oa_agreement import oa_disagreement
 from automation.vocabulary import UNIT_QUANTITY, PointUnit, point_class_label
 from engineering import formatting as fmt
 from engineering.faults.freeze import G36_FREEZE_STAGES, stage_line_words, stage_lines
@@ -211,6 +212,7 @@ def _trend_page(request, *, ahu, fault: Fault | None):
             "site": site,
             "fault": fault,
             "fault_row": fault_row(fault, system) if fault else None,
+            "oa_note": oa_disagreement(ahu_id=ahu.pk, zone=site.time_zone, fault=fault) if fault else "",
             "start_text": start_text,
             "days_text": days_text,
             "points": [
