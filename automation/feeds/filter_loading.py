@@ -14,7 +14,7 @@ from django.db import connection
 from engineering import filters
 from engineering.controls import Verdict
 from engineering.errors import EngineeringInputError
-from inspections.evaluation.filter_checks import forecast_agreeing
+from inspections.evaluation.filter_checks import forecast_agreeing, forecast_said
 from inventory.models import Component
 
 from ..fault_findings import filter_finding_clear, filter_finding_keep
@@ -164,8 +164,8 @@ def filter_days_forecast(*, days: list[tuple[Component, FilterDay]], day: dt.dat
     changed = []
     for bank, row in days:
         fc = forecasts.get(bank.pk)
-        if fc is None:
-            continue
+        if fc is None or not forecast_said(_fraction_of_span(bank, row)):
+            continue  # no forecast, or a day a technician's reading would say none beside (not judged, below clean)
         # Worded as a technician's reading is, beside the row's own verdict: never "ok" and "change now".
         over_final = row.loading_pct is not None and row.corrected_dp_pa >= bank.specs["final_dp_pa"]
         said = forecast_agreeing(fc, verdict=row.verdict, over_final=over_final)
@@ -174,6 +174,15 @@ def filter_days_forecast(*, days: list[tuple[Component, FilterDay]], day: dt.dat
         changed.append(row)
     if changed:
         _reasons_write(changed)
+
+
+def _fraction_of_span(bank: Component, row: FilterDay) -> float | None:
+    """The day's place in its bank's clean-to-final span (0 clean, 1 final), None when it was not judged."""
+    specs = bank.specs or {}
+    if row.loading_pct is None or specs.get("clean_dp_pa") is None or specs.get("final_dp_pa") is None:
+        return None
+    span = float(specs["final_dp_pa"]) - float(specs["clean_dp_pa"])
+    return (row.corrected_dp_pa - float(specs["clean_dp_pa"])) / span if span > 0 else None
 
 
 def _reasons_write(rows: list[FilterDay]) -> None:

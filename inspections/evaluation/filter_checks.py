@@ -168,7 +168,7 @@ def filter_loading_checks(form: Form, consumed: set) -> list[Result]:
         if (fallen := _fallen_since_last(form, res, bank=bank, design_q=design_q, loading=loading)) is not None:
             out.append(fallen)
             continue
-        if round(loading.fraction_of_span, 9) < 0:
+        if not forecast_said(loading.fraction_of_span):
             # Below clean, not so far as to suspect bypassed media: no loading to say, nor to forecast from.
             res.say(
                 f"{bank.name}: filter reads ",
@@ -209,6 +209,15 @@ RECHECK_WORDS = (
 
 
 OVER_FINAL_WORDS = "at or over its final pressure drop: change now"
+
+
+def forecast_said(fraction_of_span: float | None) -> bool:
+    """Whether a filter reading's change forecast is said beside it: only beside a reading judged against its
+    clean-to-final span (``fraction_of_span``, None when it could not be: no clean or final value in the registry)
+    at or above its clean value. A reading below clean — torn or bypassed media, or filters that read low — says
+    nothing of loading, so no forecast (nor "change now") stands beside it. Technicians' readings and
+    building-automation trend days are said by this one rule."""
+    return fraction_of_span is not None and round(fraction_of_span, 9) >= 0
 
 
 def forecast_agreeing(fc: filters.FilterForecast, *, verdict: str, over_final: bool = False) -> ForecastSaid:

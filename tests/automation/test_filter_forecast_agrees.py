@@ -79,3 +79,36 @@ def test_every_stored_day_agrees_with_its_forecast_words(unit):
             assert d.verdict == "fail", (d.day, d.reason)
         if d.corrected_dp_pa >= 250:  # at or over final: change now, never a date ahead (as a reading says it)
             assert d.reason.endswith("; at or over its final pressure drop: change now"), d.reason
+
+
+# A day the trend cannot judge, or one whose media reads torn or bypassed, gets no forecast words, as a technician's
+# reading in that state gets none (``inspections.evaluation.filter_checks.forecast_said``): the line through the
+# earlier days at its final value says nothing of filters that read below their clean value or cannot be judged.
+
+
+def test_a_day_with_no_clean_value_in_the_registry_never_says_change_now(unit):
+    from inventory.models import Component
+
+    ahu, points = unit
+    judge_days(unit, OVER_FINAL)
+    bank = Component.objects.get(ahu=ahu, name="Final filters")
+    bank.specs = {k: v for k, v in bank.specs.items() if k != "clean_dp_pa"}
+    bank.save(update_fields=["specs"])
+    day = DAY1 + dt.timedelta(days=len(OVER_FINAL))
+    start = dt.datetime.combine(day, dt.time(), tzinfo=dt.UTC)
+    put_day(points, start, {"SF-STS": 1, "SF-SPD": 100, "FILT-DP": 150})
+    with time_machine.travel(start + dt.timedelta(days=1, hours=1), tick=False):
+        unit_day_judge(ahu=ahu, day=day)
+    last = FilterDay.objects.get(component=bank, day=day)
+    assert last.verdict == ""
+    assert last.reason == (
+        "cannot judge the filter loading: the filter bank has no clean or final pressure drop in the registry"
+    )
+
+
+@pytest.mark.parametrize("last_dp", [30, 60, 80])  # 33 % of clean (fail), 67 % (watch), 89 % (below clean)
+def test_a_day_reading_torn_bypassed_or_below_clean_gets_no_forecast_words(unit, last_dp):
+    last = judge_days(unit, [*OVER_FINAL, last_dp])[-1]
+    assert "change now" not in last.reason and "forecast" not in last.reason and "re-check" not in last.reason
+    if last_dp < 72:
+        assert "torn or bypassed media" in last.reason, last.reason
