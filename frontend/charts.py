@@ -26,6 +26,79 @@ def _scale(lo: float, hi: float, a: float, b: float):
     return lambda v: a + (v - lo) / span * (b - a)
 
 
+GLYPH_EM = 0.6  # a glyph's average width in ems, generous for DejaVu Sans (about 0.55; common practice for an estimate)
+Box = tuple[float, float, float, float]  # x0, y0, x1, y1 in view units
+Segment = tuple[float, float, float, float]
+
+
+def text_box(x: float, y: float, text: str, fs: float, anchor: str = "start") -> Box:
+    """The box a line of text takes, estimated: its baseline at ``y`` (ascenders a font size above, descenders a
+    third below), as wide as ``GLYPH_EM`` ems a character."""
+    w = len(text) * fs * GLYPH_EM
+    x0 = x - w if anchor == "end" else x - w / 2 if anchor == "middle" else x
+    return (x0, y - fs, x0 + w, y + fs / 3)
+
+
+def segment_hits(seg: Segment, box: Box, margin: float = 2.0) -> bool:
+    """Whether a line segment crosses or touches ``box`` widened by ``margin`` (Liang–Barsky clipping)."""
+    x1, y1, x2, y2 = seg
+    bx0, by0, bx1, by1 = box[0] - margin, box[1] - margin, box[2] + margin, box[3] + margin
+    u0, u1 = 0.0, 1.0
+    for p, q in ((x1 - x2, x1 - bx0), (x2 - x1, bx1 - x1), (y1 - y2, y1 - by0), (y2 - y1, by1 - y1)):
+        if p == 0:
+            if q < 0:
+                return False
+            continue
+        t = q / p
+        if p < 0:
+            u0 = max(u0, t)
+        else:
+            u1 = min(u1, t)
+        if u0 > u1:
+            return False
+    return True
+
+
+def _boxes_meet(a: Box, b: Box) -> bool:
+    return a[0] < b[2] and b[0] < a[2] and a[1] < b[3] and b[1] < a[3]
+
+
+def _segments(points: list[tuple[float, float]]) -> list[Segment]:
+    if len(points) == 1:
+        return [(*points[0], *points[0])]
+    return [(*a, *b) for a, b in itertools.pairwise(points)]
+
+
+def _limit_label(
+    words: str, hy: float, *, obstacles: list[Segment], boxes: list[Box], fs: float, plot: Box, height: float
+) -> str:
+    """A limit line's words where they cross nothing drawn: just above or below the line, from its right end
+    leftwards; where every such place is taken, under the plot between its dates with a sample of the line's dash."""
+    x0, y0, x1, y1 = plot
+    w = len(words) * fs * GLYPH_EM
+    for gap in (0.0, 0.25, 0.5, 0.75, 1.0):
+        tx = x1 - 4 - gap * (x1 - x0 - 8 - w)
+        for ty in (hy - fs / 3 - 3, hy + fs + 3):  # just above the line (its descenders clear of it), else below
+            box = text_box(tx, ty, words, fs, "end")
+            if box[1] < y0 or box[3] > y1 or box[0] < x0:
+                continue
+            if segment_hits((x0, hy, x1, hy), box, margin=1.0):
+                continue
+            if any(segment_hits(s, box) for s in obstacles) or any(_boxes_meet(box, b) for b in boxes):
+                continue
+            return (
+                f'<text x="{tx:.1f}" y="{ty:.1f}" text-anchor="end" fill="currentColor" font-size="{fs}" '
+                f'data-limit-label="{escape(words)}">{escape(words)}</text>'
+            )
+    start, ty = (x0 + x1) / 2 - (w + 36) / 2, height - 12
+    return (
+        f'<line x1="{start:.1f}" y1="{ty - fs / 3:.1f}" x2="{start + 30:.1f}" y2="{ty - fs / 3:.1f}" '
+        'stroke="currentColor" stroke-dasharray="2 4"/>'
+        f'<text x="{start + 36:.1f}" y="{ty:.1f}" fill="currentColor" font-size="{fs}" '
+        f'data-limit-label="{escape(words)}">{escape(words)}</text>'
+    )
+
+
 def line_chart(
     *,
     title: str,
@@ -66,8 +139,11 @@ def line_chart(
     x = _scale(d0.toordinal(), d1.toordinal(), left, right)
     y = _scale(v0, v1, bottom, top)
 
+    def path_points(data) -> list[tuple[float, float]]:
+        return [(x(d.toordinal()), y(v)) for d, v in data]
+
     def path(data):
-        return " ".join(f"{'M' if i == 0 else 'L'}{x(d.toordinal()):.1f},{y(v):.1f}" for i, (d, v) in enumerate(data))
+        return " ".join(f"{'M' if i == 0 else 'L'}{px:.1f},{py:.1f}" for i, (px, py) in enumerate(path_points(data)))
 
     parts = [
         f'<svg viewBox="0 0 {width} {height}" role="img" aria-label="{escape(title)}" xmlns="http://www.w3.org/2000/svg">',
@@ -89,15 +165,14 @@ def line_chart(
         f'<text x="{right}" y="{height - 12}" text-anchor="end" fill="currentColor" font-size="{fs}">'
         f"{d1.day} {d1:%b %Y}</text>",
     ]
-    if hline:
-        hy = y(hline[0])
-        parts.append(
-            f'<line x1="{left}" y1="{hy:.1f}" x2="{right}" y2="{hy:.1f}" stroke="currentColor" stroke-dasharray="2 4"/>'
-        )
-        parts.append(
-            f'<text x="{right}" y="{hy - 4:.1f}" text-anchor="end" fill="currentColor" font-size="{fs}">'
-            f"{escape(hline[1])}</text>"
-        )
+    # What is drawn, as segments a limit's words must keep clear of: each line and the dashed forecast, every point,
+    # each marked date's line and its words.
+    drawn = [_segments(path_points(seg)) for seg in segments]
+    if forecast:
+        drawn.append(_segments(path_points(([series[-1]] if series else []) + forecast)))
+    for px, py in path_points(series):  # each point's dot, radius 3
+        drawn.append([(px - 3, py, px + 3, py), (px, py - 3, px, py + 3)])
+    mark_boxes = []
     for i, (day, label) in enumerate(marks):
         vx = x(day.toordinal())
         parts.append(
@@ -108,6 +183,24 @@ def line_chart(
         parts.append(
             f'<text x="{tx:.1f}" y="{top - 8 - (i % 2) * 20:.0f}" text-anchor="{anchor}" fill="currentColor" '
             f'font-size="{fs}">{escape(label)}</text>'
+        )
+        drawn.append([(vx, top, vx, bottom)])
+        mark_boxes.append(text_box(tx, top - 8 - (i % 2) * 20, label, fs, anchor))
+    if hline:
+        hy = y(hline[0])
+        parts.append(
+            f'<line x1="{left}" y1="{hy:.1f}" x2="{right}" y2="{hy:.1f}" stroke="currentColor" stroke-dasharray="2 4"/>'
+        )
+        parts.append(
+            _limit_label(
+                hline[1],
+                hy,
+                obstacles=[s for d in drawn for s in d],
+                boxes=mark_boxes,
+                fs=fs,
+                plot=(left, 28, right, bottom),
+                height=height,
+            )
         )
     for seg in segments:
         parts.append(f'<path d="{path(seg)}" fill="none" stroke="currentColor" stroke-width="2.5"/>')

@@ -7,8 +7,8 @@ so it wraps on a phone and never prints over the plot; the plot scales to its bo
 app.css) and holds only the axes' numbers and dates, sized to stay legible on a 360 px phone. The value axis has
 round ticks (``nice_ticks``); the time axis a tick at the site's midnight each day, fewer on a long stretch
 (``day_ticks``). Lines that read the same for a good part of the stretch (a damper at 0 % under a stopped fan) are
-drawn wider the earlier they are drawn, so each shows as a band beside the ones on top of it, and the key says which
-lines they lie beneath and for how much of the stretch (``coinciding``).
+drawn wider the earlier they are drawn, so each shows as a band beside the ones on top of it, and the key says in
+plain words which line lies on top of which and for how much of the stretch (``coinciding``).
 """
 
 from __future__ import annotations
@@ -126,6 +126,22 @@ def _swatch(*, colour: str, dash: str = "", band: bool = False, width: float = 3
     return f'<svg class="swatch" viewBox="0 0 32 14" width="32" height="14" aria-hidden="true">{shape}</svg>'
 
 
+def _on_top_words(label: str, over: list[tuple[str, float]]) -> str:
+    """Plain words for the lines drawn on top of ``label`` where they read the same (``coinciding``): "Supply fan
+    speed lies on top of Outdoor-air damper position 50 % of the time, reading the same; Outdoor-air damper position
+    shows as the wider line around it"; "" when none does."""
+    if not over:
+        return ""
+    (first, share), *more = over
+    words = f"{first} lies on top of {label} {_pct(share)} of the time"
+    words += "".join(f", {name} {_pct(other)}" for name, other in more)
+    return words + f", reading the same; {label} shows as the wider line around {'it' if not more else 'them'}"
+
+
+def _pct(share: float) -> str:
+    return f"{format_number(share * 100, decimals=0)}\u00a0%"
+
+
 def _key(
     *,
     label: str,
@@ -141,16 +157,11 @@ def _key(
     items = []
     for i, line in enumerate(lines):
         colour, dash = STROKES[i % len(STROKES)]
-        beneath = ", ".join(
-            f"{escape(lines[j].label)} {format_number(share * 100, decimals=0)}\u00a0%" for j, share in under.get(i, [])
-        )
-        said = (
-            ' <span class="hint" data-coincides>'
-            f"drawn wider, beneath where they read the same: {beneath} of the time</span>"
-        )
+        said = _on_top_words(line.label, [(lines[j].label, share) for j, share in under.get(i, [])])
+        note = f' <span class="hint" data-coincides>{escape(said)}</span>' if said else ""
         items.append(
             f"<li>{_swatch(colour=colour, dash=dash, width=min(widths[i] + 1, 9))} <span>{escape(line.label)}</span>"
-            f"{said if beneath else ''}</li>"
+            f"{note}</li>"
         )
     titles = list(dict.fromkeys(b.title for b in bands))
     for title in titles:

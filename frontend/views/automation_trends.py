@@ -172,8 +172,10 @@ def _charts(view, *, system: str, zone: str) -> list[dict]:
             bands=bands,
             limits=limits,
         )
-        out.append({"key": key, "title": title, "svg": mark_safe(svg)})  # built with escape()
-    return out
+        plotted = any(line.samples for line in chart_lines)
+        out.append({"key": key, "title": title, "svg": mark_safe(svg), "plotted": plotted})  # built with escape()
+    # The charts with samples first, side by side at a desk; the groups without any in this stretch after them.
+    return sorted(out, key=lambda c: not c["plotted"])
 
 
 def distinct_windows(windows: list[dict]) -> list[dict]:

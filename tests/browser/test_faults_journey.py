@@ -133,7 +133,7 @@ def test_the_freeze_evidence_chart_is_readable_on_a_phone_and_its_labels_never_o
     card = figure.bounding_box()
     box = plot.bounding_box()
     assert card is not None and box is not None
-    if size == PHONE:  # the card's width, bar its padding (at a desk it stops at 40rem)
+    if size == PHONE:  # the card's width, bar its padding (at a desk the charts stand side by side)
         assert box["width"] >= card["width"] - 40 and box["width"] >= 0.8 * size["width"], (box, card)
     tick = plot.locator("text[data-tick]").first.bounding_box()
     assert tick is not None and tick["height"] >= 14, tick  # a 13 px font or more (the old chart's read 10 px)
@@ -149,3 +149,30 @@ def test_the_freeze_evidence_chart_is_readable_on_a_phone_and_its_labels_never_o
     expect(page.locator("[data-fault-reason]")).to_contain_text("stayed below")
     _no_sideways_scroll(page, size["width"])
     page.screenshot(path=str(screenshots / f"freeze-evidence-{name}.png"), full_page=True)
+
+
+def test_at_a_desk_the_trend_charts_use_the_pages_width(page, live_server, freeze_world, sign_in, screenshots):
+    """At 1280 px the charts stood at 40rem, half the page's width, the other half empty: they now stand side by side,
+    each as wide as its column, together as wide as the page's content; the key's words say plainly which line lies
+    on top of which."""
+    fault = freeze_world["freeze"]
+    page.set_viewport_size(DESKTOP)
+    sign_in(page, freeze_world["boss"])
+    page.goto(f"{live_server.url}/faults/{fault.pk}/")
+    grid = page.locator(".trend-charts").bounding_box()
+    heading = page.locator("h1").bounding_box()
+    assert grid is not None and heading is not None
+    figures = page.locator("figure.chart.trend")
+    assert figures.count() >= 2
+    boxes = [figures.nth(i).bounding_box() for i in range(figures.count())]
+    assert abs(boxes[0]["y"] - boxes[1]["y"]) < 1 and boxes[1]["x"] > boxes[0]["x"] + boxes[0]["width"]  # side by side
+    assert boxes[1]["x"] + boxes[1]["width"] >= grid["x"] + grid["width"] - 1  # the row reaches the content's edge
+    assert grid["width"] >= 0.8 * DESKTOP["width"]
+    plotted = page.locator("figure.chart.trend:has(> svg)")
+    assert plotted.count() >= 2
+    for i in range(plotted.count()):
+        box, plot = plotted.nth(i).bounding_box(), plotted.nth(i).locator(":scope > svg").bounding_box()
+        assert plot["width"] >= box["width"] - 40 and plot["width"] >= 0.4 * grid["width"], (plot, box)
+    assert "drawn wider" not in page.content()
+    _no_sideways_scroll(page, DESKTOP["width"])
+    page.screenshot(path=str(screenshots / "trend-charts-desk-1280.png"), full_page=True)

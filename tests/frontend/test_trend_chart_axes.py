@@ -137,7 +137,8 @@ def test_a_line_reading_the_same_as_one_drawn_over_it_shows_wider_and_the_key_sa
     assert widths["Outdoor-air damper position"] > widths["Supply fan speed"]
     key = svg.split("<svg viewBox=")[0]
     assert re.findall(r"<span class=\"hint\" data-coincides>([^<]+)</span>", key) == [
-        "drawn wider, beneath where they read the same: Supply fan speed 50\u00a0% of the time"
+        "Supply fan speed lies on top of Outdoor-air damper position 50\u00a0% of the time, reading the same; "
+        "Outdoor-air damper position shows as the wider line around it"
     ]
 
 
