@@ -17,6 +17,10 @@ The units (15-minute samples, the site's zone):
   with 100 % outdoor air; cooling at minimum outdoor air when the outdoor air is warmer than the return air.
   Mixed air is return air plus the outdoor-air fraction of the difference; the supply air holds its set point
   (plus 0.8 K fan heat where nothing acts on it);
+- a unit with a preheater or a preheat coil: the air after it held at ``PREHEAT_C`` or above while the fan runs
+  (the preheat coil's valve opening for it), its frost thermostat at rest; on the seeded freezing night the
+  preheater trips, the air passes it unheated and the frost thermostat trips, so the freeze event's words read
+  the air after the preheater and the thermostat's point;
 - each filter bank's pressure drop rises with the days since its last change recorded in the demo history
   (``inspections.selectors.filter_series``) and falls at each change; the measured value is at the fan's speed
   (the filter law, Δp ∝ Q^1.5).

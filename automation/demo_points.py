@@ -60,6 +60,17 @@ def unit_points(ahu: AHU) -> tuple[dict[str, Point], int]:
     for bank in parts:
         if bank.kind == "filter_bank":
             want.append((f"filter:{bank.pk}", "Filter_Differential_Pressure_Sensor", bank))
+    # A unit with freeze protection: the air after its preheater, its frost thermostat and a preheat coil's valve
+    # (an electric preheater's stages have no command class in the point vocabulary), after the others so a rerun
+    # keeps the numbers of the points mapped before.
+    preheater = next((c for c in parts if c.kind == "electric_preheater"), None) or _first(
+        parts, "coil", duty="preheat"
+    )
+    if preheater is not None:
+        if preheater.kind == "coil":
+            want.append(("preheat_valve", "Valve_Position_Command", preheater))
+        want.append(("preheat_leaving", "Preheat_Supply_Air_Temperature_Sensor", preheater))
+        want.append(("frost_stat", "Freeze_Status", preheater))
     names = {
         "oat": "OAT",
         "sat": "SAT",
@@ -71,6 +82,9 @@ def unit_points(ahu: AHU) -> tuple[dict[str, Point], int]:
         "oa_damper": "OAD-CMD",
         "heating_valve": "HC-VLV",
         "cooling_valve": "CC-VLV",
+        "preheat_valve": "PH-VLV",
+        "preheat_leaving": "PH-LAT",
+        "frost_stat": "FRZ-STAT",
     }
     existing = {p.name: p for p in Point.objects.filter(ahu=ahu).select_related("component")}
     out, created = {}, 0

@@ -20,6 +20,7 @@ YEAR_DAYS = 365
 HEALTHY_DAYS = 21
 JUDGE_DAYS = 14
 FAN_HEAT_K = 0.8  # temperature rise across a supply fan, invented but typical
+PREHEAT_C = 8.0  # a preheater holds the air after it at or above this while the fan runs (invented)
 RETURN_C = 22.0
 # (site code, building code, unit tag): the seeded fault.
 FILTER, STUCK_DAMPER, LEAKING_VALVE, FREEZE_NIGHT = "filter", "stuck_damper", "leaking_valve", "freeze_night"
@@ -179,6 +180,16 @@ def unit_values(
         mat = np.where(off, idle_c + rng.normal(0, 0.1, n), mat)
         for arr in (heat, cool, damper):
             arr[off] = 0.0
+        # The preheater brings the air entering it (the mixed air; outdoor air on a full-outdoor-air unit) up to
+        # PREHEAT_C; on the freezing night it tripped: the air passes it unheated and the frost thermostat trips.
+        entering = np.where(off, idle_c, mat)
+        preheat = np.where(on, np.clip((PREHEAT_C - entering) / 20.0, 0.0, 0.95), 0.0)
+        preheat = np.where(preheat > 0, np.maximum(preheat, 0.03), 0.0)
+        after = np.maximum(entering, np.where(on, PREHEAT_C, entering)) + rng.normal(0, 0.15, n)
+        frost = np.zeros(n)
+        if night == day:
+            after = np.where(tripped & on, entering + 0.3, after)
+            frost = np.where(tripped, 1.0, frost)
         values = {
             "oat": oat,
             "sat": sat,
@@ -190,6 +201,9 @@ def unit_values(
             "oa_damper": damper * 100.0,
             "heating_valve": heat * 100.0,
             "cooling_valve": cool * 100.0,
+            "preheat_valve": preheat * 100.0,
+            "preheat_leaving": after,
+            "frost_stat": frost,
         }
         for job in points:
             if not job.startswith("filter:"):

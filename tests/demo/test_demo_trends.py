@@ -107,6 +107,15 @@ def test_demo_trends_carry_the_seeded_faults_and_only_them():
         frozen = _unit(FREEZE_NIGHT)
         freeze = Fault.objects.get(ahu=frozen, code=Fault.FREEZE)
         assert min(w["lowest_c"] for w in freeze.windows) < 4.4  # G36 stage 1, 4.4 °C (automation FREEZE_SECTION)
+        # Its preheater's points tell the journey: the air after the tripped preheater and its frost thermostat.
+        assert "The air after the preheater fell to " in freeze.reason, freeze.reason
+        assert f"the frost thermostat had tripped (trend point {frozen.tag}.FRZ-STAT)" in freeze.reason
+        # Every unit with freeze protection has them, AHU-L1 (electric preheater) too, and its healthy days trip
+        # nothing; a preheat coil's valve is mapped beside them.
+        for tag in ("AHU-L1", "AHU-S1", "AHU-S2"):
+            names = set(Point.objects.filter(ahu__tag=tag).values_list("name", flat=True))
+            assert {f"{tag}.PH-LAT", f"{tag}.FRZ-STAT"} <= names, (tag, names)
+        assert "AHU-S1.PH-VLV" in set(Point.objects.filter(ahu__tag="AHU-S1").values_list("name", flat=True))
         units = list(AHU.objects.select_related("building__site"))
         readiness = {r.unit.pk: r for r in freeze_readiness(units=units, as_of=AT)}
         assert readiness[frozen.pk].status == NOT_READY
