@@ -19,6 +19,14 @@ ELECTRIC = (
     "Electric preheaters are live at mains voltage: only a qualified person tests stages, "
     "with the heater isolated except for the test itself."
 )
+# Proving a preheater's stages on a mild day goes through its controller, never around its safeties (NFPA 70 (NEC)
+# 424.63/424.64 require the airflow interlock and the limits; their being bypassed is how duct heaters start fires:
+# common practice).
+HEATER_SAFETIES = (
+    "Never bypass or jumper an electric heater's high-limit cut-outs or its airflow interlock, not even for a test: "
+    "make a stage call through its controller (test mode, a lowered set point or a simulated sensor input) and put "
+    "everything back as found."
+)
 # Proving a fan means stopping and starting it with the unit live, so lockout cannot cover the test itself.
 RUNNING_FAN = (
     "Fans under test start and stop under control (schedule, building automation, fire and smoke "
@@ -41,7 +49,7 @@ PRESSURISED_COILS = (
 # exists); any other kind sits in the airstream beside the fan, so lockout first.
 COMPONENT_CAUTIONS: dict[str, list[str]] = {
     "fan": [LOCKOUT, RUNNING_FAN],
-    "electric_preheater": [LOCKOUT, ELECTRIC, HOT_COILS],
+    "electric_preheater": [LOCKOUT, ELECTRIC, HEATER_SAFETIES, HOT_COILS],
     "coil": [LOCKOUT, HOT_COILS, PRESSURISED_COILS],
     "humidifier": [LOCKOUT, HOT_COILS],
 }

@@ -20,6 +20,7 @@ from typing import Any
 
 from .cautions import (
     ELECTRIC,
+    HEATER_SAFETIES,
     HOT_COILS,
     LOADED_FILTERS,
     LOCAL_CODES,
@@ -27,6 +28,7 @@ from .cautions import (
     RUNNING_FAN,
     SHUT_COIL_COLD_AIR,
 )
+from .checklist_freeze import PREHEAT_COIL_ITEMS, STAGE_ON_HELP, STAGES_HELP, STAGES_SOURCE, glycol_freeze_point
 from .checklist_items import (
     CO2_PHYSICAL,
     LIQUIDS,
@@ -315,7 +317,8 @@ TEMPLATES: list[dict[str, Any]] = [
     {
         "code": "coil_clean",
         # 2: the fluid readings are asked of glycol coils too (the heat balance takes the glycol's properties).
-        "version": 2,
+        # 3: a glycol heating coil's freezing point (a glycol preheat coil's is asked in its freeze-protection test).
+        "version": 3,
         "title": "Coils",
         "cautions": [LOCKOUT, HOT_COILS, LOCAL_CODES],
         "items": [
@@ -357,6 +360,7 @@ TEMPLATES: list[dict[str, Any]] = [
                 plausible=(0.000_01, 0.5),
                 decimals=2,
             ),
+            glycol_freeze_point(duty="heating"),
             photo("photo", "Photo of the coil face", per="coil"),
         ],
     },
@@ -509,10 +513,12 @@ TEMPLATES: list[dict[str, Any]] = [
         "code": "preheater_freeze",
         # 2: airflow interlock and automatic-reset primary limit added (electric duct heaters); the frost
         # thermostat fails below 2 °C instead of only asking to watch it. 3: a frost thermostat set above its
-        # band is a watch (nuisance trips), never a fail: no upper watch limit.
-        "version": 3,
+        # band is a watch (nuisance trips), never a fail: no upper watch limit. 4: how to make the stages call on a
+        # mild day (through the controller, never around the heater's safeties) and set points restored; a preheat
+        # coil's valve fail-safe position, its pump and a glycol coil's freezing point.
+        "version": 4,
         "title": "Preheater and freeze protection",
-        "cautions": [LOCKOUT, ELECTRIC, HOT_COILS, LOCAL_CODES],
+        "cautions": [LOCKOUT, ELECTRIC, HEATER_SAFETIES, HOT_COILS, LOCAL_CODES],
         "items": [
             air_temp(
                 "stage_on_temp",
@@ -522,6 +528,7 @@ TEMPLATES: list[dict[str, Any]] = [
                 required=True,
                 note=True,
                 source="ok within 1 K of the set threshold, watch within 2 K (" + CP + ")",
+                help=STAGE_ON_HELP,
             ),
             check(
                 "stages",
@@ -529,6 +536,8 @@ TEMPLATES: list[dict[str, Any]] = [
                 per="electric_preheater",
                 required=True,
                 note=True,
+                source=STAGES_SOURCE,
+                help=STAGES_HELP,
             ),
             check(
                 "airflow_interlock",
@@ -555,6 +564,16 @@ TEMPLATES: list[dict[str, Any]] = [
                 note=True,
                 source=DUCT_HEATER_SOURCE,
             ),
+            check(
+                "set_points_restored",
+                "Set points, sensor inputs and the controller's test mode put back as found after the test",
+                per="electric_preheater",
+                required=True,
+                note=True,
+                source=CP,
+                help="Write down each value before changing it; read the controller again after the test.",
+            ),
+            *PREHEAT_COIL_ITEMS,
             air_temp(
                 "freeze_trip_temp",
                 "Freeze-protection trip temperature (air leaving the first coil)",

@@ -19,6 +19,7 @@ from PIL import Image, ImageDraw
 
 from accounts.models import Membership, Role
 from engineering import units as eng_units
+from engineering.glycol import glycol_freeze_point_c
 from inventory.models import AHU
 from scheduling.models import TaskDefinition, WorkOrder, WorkOrderTask
 from scheduling.services import task_library_install
@@ -303,7 +304,9 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                         {"item": "preheater_freeze.airflow_interlock", "component": heater.label_code, "value": "ok"},
                         {"item": "preheater_freeze.primary_limit", "component": heater.label_code, "value": "ok"},
                         {"item": "preheater_freeze.high_limit", "component": heater.label_code, "value": "ok"},
+                        {"item": "preheater_freeze.set_points_restored", "component": heater.label_code, "value": "ok"},
                     ]
+                readings += preheat_coil_readings(ahu)
                 readings += [
                     {
                         "item": "preheater_freeze.freeze_trip_temp",
@@ -372,3 +375,22 @@ def demo_history_load(*, organisation, today: dt.date, months: int = 12) -> dict
                 counts["inspections"] += 1
                 counts["findings"] += len(result["findings"])
     return counts
+
+
+def preheat_coil_readings(ahu: AHU) -> list[dict]:
+    """A freeze-protection test's steps of the unit's preheat coils, passing: valve fails open, pump runs, and a
+    glycol coil's freezing point read 0.4 K warmer than its design concentration's (no draw from the demo's random
+    sequence, so the rest of its history stays as it was)."""
+    out: list[dict] = []
+    for coil in ahu.components.filter(kind="coil", specs__duty="preheat").order_by("position", "id"):
+        code = coil.label_code
+        out += [
+            {"item": "preheater_freeze.coil_valve_fail_open", "component": code, "value": "ok"},
+            {"item": "preheater_freeze.coil_pump_runs", "component": code, "value": "ok"},
+        ]
+        specs = coil.specs or {}
+        if specs.get("fluid") == "glycol" and specs.get("glycol_kind") and specs.get("glycol_pct"):
+            design = glycol_freeze_point_c(kind=specs["glycol_kind"], mass_pct=float(specs["glycol_pct"]))
+            value = round(design + 0.4, 1)
+            out.append({"item": "preheater_freeze.glycol_freeze_point", "component": code, "value": value})
+    return out

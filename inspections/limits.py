@@ -5,6 +5,16 @@ from __future__ import annotations
 
 from engineering import filters as eng_filters
 from engineering import formatting as fmt
+from engineering.errors import EngineeringInputError
+from engineering.glycol import glycol_freeze_point_c
+
+# A glycol coil's freezing point read on a refractometer, against the freezing point of the coil's design
+# concentration (engineering.glycol): ok up to 2 K warmer (a few points of concentration lost to top-ups with
+# water), watch up to 4 K warmer, warmer fails; a mix richer than designed only costs heat transfer, so more than
+# 8 K colder is a watch, never a fail. Common practice, no published source.
+GLYCOL_OK_WARMER_K = 2.0
+GLYCOL_WATCH_WARMER_K = 4.0
+GLYCOL_OK_COLDER_K = 8.0
 
 
 # A reading's units, labels and conversion are engineering.formatting's; these take a missing value through.
@@ -52,6 +62,8 @@ def dynamic_limits(*, rule: str, ahu, component) -> dict[str, float | None]:
     if rule == "damper_stroke":
         rated = specs.get("stroke_time_s")
         return {} if rated is None else {"ok_max": 1.2 * rated, "watch_max": 1.5 * rated}
+    if rule == "glycol_freeze_point":
+        return _glycol_limits(specs)
     if rule == "preheat_threshold":
         th = specs.get("switch_on_c")
         if th is None:
@@ -63,3 +75,21 @@ def dynamic_limits(*, rule: str, ahu, component) -> dict[str, float | None]:
             "watch_max": th + 2.0,
         }
     return {}
+
+
+def _glycol_limits(specs: dict) -> dict[str, float | None]:
+    """The band of a glycol coil's freezing point around its design concentration's; {} without kind or
+    concentration in the registry."""
+    kind, pct = specs.get("glycol_kind"), specs.get("glycol_pct")
+    if specs.get("fluid") != "glycol" or not pct:
+        return {}
+    try:
+        design = glycol_freeze_point_c(kind=str(kind), mass_pct=float(pct))
+    except EngineeringInputError:
+        return {}
+    return {
+        "ok_min": design - GLYCOL_OK_COLDER_K,
+        "ok_max": design + GLYCOL_OK_WARMER_K,
+        "watch_min": None,
+        "watch_max": design + GLYCOL_WATCH_WARMER_K,
+    }

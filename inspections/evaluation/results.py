@@ -27,6 +27,18 @@ CHECKS = (
     "heat_recovery",
     "coil_valve_leak",  # a shut coil still changing the air: its valve passes water
 )
+# Checks of several readings that name one of them only as the place the phone shows them (the last of their
+# inputs typed): never that reading's own verdict. A coil's heat balance needs both air temperatures, both fluid
+# temperatures and the flow, and names the flow; the flow itself is not what failed. Pages and PDFs show such a
+# check on a row of its own (``own_judgement``).
+SPANNING_CHECKS = frozenset({"coil_balance"})
+
+
+def own_judgement(check: str) -> bool:
+    """Is a judgement of ``check`` the verdict of the reading it names (not a check of several readings)?"""
+    return check not in SPANNING_CHECKS
+
+
 # A frost thermostat set above its band: a watch that still protects the coil (nuisance trips). Its results carry
 # this condition, not "freeze_protection_failed", so freeze readiness (inspections.freeze) counts the step passed.
 FREEZE_TRIP_SET_HIGH = "freeze_trip_set_high"
@@ -59,6 +71,12 @@ ITEM_CONDITIONS = {
     "preheater_freeze.airflow_interlock": "freeze_protection_failed",
     "preheater_freeze.primary_limit": "freeze_protection_failed",
     "preheater_freeze.high_limit": "freeze_protection_failed",
+    # A heater left on a lowered set point or in test mode, a preheat coil valve that fails shut, a coil pump that
+    # does not run or a glycol too weak for its design: the first coil can freeze (common practice).
+    "preheater_freeze.set_points_restored": "freeze_protection_failed",
+    "preheater_freeze.coil_valve_fail_open": "freeze_protection_failed",
+    "preheater_freeze.coil_pump_runs": "freeze_protection_failed",
+    "preheater_freeze.glycol_freeze_point": "freeze_protection_failed",
     "damper_actuator.stroke_time": "damper_position",
     "damper_actuator.linkage": "damper_position",
     # A valve that will not shut is the same repair as one that shuts and passes water.

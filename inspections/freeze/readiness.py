@@ -20,7 +20,7 @@ from scheduling.models import work_order_state_words
 
 from .. import checklists
 from ..evaluation.results import FREEZE_TRIP_SET_HIGH
-from ..models import Amendment, Evaluation, Finding
+from ..models import Amendment, ChecklistItem, Evaluation, Finding
 from .rules import (
     BLOCKING_SEVERITIES,
     CONDITION,
@@ -113,8 +113,12 @@ class _Step:
     words: str  # plain: the item's label, with the part's name when there are several
 
 
-def _steps_of(unit_components: list[tuple[int, str, str, str]]) -> list[_Step]:
-    """The required steps of the current template on a unit, from ``(id, kind, name, label code)`` of its parts."""
+Part = tuple[int, str, str, str, dict]  # (component id, kind, name, label code, specs)
+
+
+def _steps_of(unit_components: list[Part]) -> list[_Step]:
+    """The required steps of the current template on a unit, from its protecting parts: an item per part is a step
+    of each part of its kind its ``where`` (component specs) matches, as the checklist asks it."""
     template = next(t for t in checklists.TEMPLATES if t["code"] == TEMPLATE)
     steps = []
     for it in template["items"]:
@@ -124,10 +128,35 @@ def _steps_of(unit_components: list[tuple[int, str, str, str]]) -> list[_Step]:
         if not it["component_kind"]:
             steps.append(_Step(key, None, it["label"]))
             continue
-        parts = [(pk, name) for pk, kind, name, _ in unit_components if kind == it["component_kind"]]
+        wanted = it["component_filter"] or {}
+        parts = [
+            (pk, name)
+            for pk, kind, name, _, specs in unit_components
+            if kind == it["component_kind"] and all(_allowed((specs or {}).get(k), v) for k, v in wanted.items())
+        ]
         for pk, name in parts:
             steps.append(_Step(key, pk, f"{it['label']} ({name})" if len(parts) > 1 else it["label"]))
     return steps
+
+
+def _allowed(value: object, wanted: object) -> bool:
+    """A spec filter's value: one allowed value, or a list of them (as the checklist reads ``where``)."""
+    return value in wanted if isinstance(wanted, list) else value == wanted
+
+
+def _keys_of_older(versions: set[int]) -> dict[int, set[str]]:
+    """{version: its item api keys} of the template's installed versions older than the library's: a test filled
+    against one is held to the steps it had (read only when such a test is among those judged)."""
+    current = next(t["version"] for t in checklists.TEMPLATES if t["code"] == TEMPLATE)
+    older = {v for v in versions if v < current}
+    if not older:
+        return {}
+    out: dict[int, set[str]] = defaultdict(set)
+    for version, key in ChecklistItem.objects.filter(template__code=TEMPLATE, template__version__in=older).values_list(
+        "template__version", "key"
+    ):
+        out[version].add(f"{TEMPLATE}.{key}")
+    return dict(out)
 
 
 _VERDICT_WORDS: dict[str | None, str] = {
@@ -147,16 +176,17 @@ def _corrective_state(wo_state: str | None, approval: str | None) -> str:
     return work_order_state_words(wo_state, approval)
 
 
-def protected_units(*, units: Iterable[AHU]) -> dict[int, list[tuple[int, str, str, str]]]:
-    """{unit id: [(component id, kind, name, label code)]} of the units with an electric preheater or a preheat coil."""
-    out: dict[int, list[tuple[int, str, str, str]]] = {}
-    for ahu_id, pk, kind, name, code in (
+def protected_units(*, units: Iterable[AHU]) -> dict[int, list[Part]]:
+    """{unit id: [(component id, kind, name, label code, specs)]} of the units with an electric preheater or a
+    preheat coil."""
+    out: dict[int, list[Part]] = {}
+    for ahu_id, pk, kind, name, code, specs in (
         Component.objects.filter(ahu__in=[u.pk for u in units])
         .filter(Q(kind=ComponentKind.ELECTRIC_PREHEATER) | Q(kind=ComponentKind.COIL, specs__duty="preheat"))
         .order_by("position", "pk")
-        .values_list("ahu_id", "pk", "kind", "name", "label_code")
+        .values_list("ahu_id", "pk", "kind", "name", "label_code", "specs")
     ):
-        out.setdefault(ahu_id, []).append((pk, kind, name, code))
+        out.setdefault(ahu_id, []).append((pk, kind, name, code, specs or {}))
     return out
 
 
@@ -180,7 +210,8 @@ def freeze_readiness(
     test_of: dict[int, tuple[int, dt.datetime]] = {}  # inspection id: (unit id, finished at)
     amended: set[int] = set()
     corrected = Amendment.objects.filter(inspection_id=OuterRef("inspection_id"), created_at__lte=as_of)
-    for insp_id, ahu_id, finished_at, key, comp_id, verdict, condition, has_amendment in (
+    version_of: dict[int, int] = {}  # inspection id: the template version it was filled against, where known
+    for insp_id, ahu_id, finished_at, key, comp_id, verdict, condition, has_amendment, versions in (
         Evaluation.objects.filter(
             inspection__ahu_id__in=ids,
             inspection__finished_at__lte=as_of,
@@ -198,14 +229,17 @@ def freeze_readiness(
             "verdict",
             "condition_code",
             "has_amendment",
+            "inspection__template_versions",
         )
     ):
         test_of[insp_id] = (ahu_id, finished_at)
+        if isinstance((versions or {}).get(TEMPLATE), int):
+            version_of[insp_id] = versions[TEMPLATE]
         verdicts[insp_id][(key, comp_id)] = _protecting(verdict, condition)
         if has_amendment:
             amended.add(insp_id)
     if amended:  # read only when a test was corrected: most portfolios pay no query for it
-        labels = {code: pk for parts in protected.values() for pk, _, _, code in parts}
+        labels = {code: pk for parts in protected.values() for pk, _, _, code, _ in parts}
         for insp_id, changes in (
             Amendment.objects.filter(inspection_id__in=list(amended), created_at__lte=as_of)
             .order_by("created_at", "pk")
@@ -251,10 +285,14 @@ def freeze_readiness(
             open_of_unit[ahu_id].append(OpenFinding(opened_at.astimezone(tz).date(), title, words))
     tests_of_unit: dict[int, list[FreezeTest]] = defaultdict(list)
     steps_of_unit = {ahu_id: _steps_of(parts) for ahu_id, parts in protected.items()}
+    keys_of_older = _keys_of_older(set(version_of.values()))
     for insp_id, (ahu_id, finished_at) in sorted(test_of.items(), key=lambda kv: (kv[1][1], kv[0])):
         got = verdicts[insp_id]
         not_passed, failed = [], False
+        had = keys_of_older.get(version_of.get(insp_id, 0))
         for step in steps_of_unit[ahu_id]:
+            if had is not None and step.key not in had:
+                continue  # a step the test's own (older) version did not ask
             v = got.get((step.key, step.component_id))
             if v == controls.Verdict.OK:
                 continue

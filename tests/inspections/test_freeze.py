@@ -254,3 +254,42 @@ def test_an_amendment_to_a_setting_too_high_keeps_the_unit_ready(unit):
     change = {"item": "preheater_freeze.freeze_trip_temp", "component": None, "after": {"verdict": "watch"}}
     b.amendment(insp, unit["tech"], reason="the setting was 2.2 °C", changes=[change], created="2025-10-03")
     assert _readiness(unit["ahu"]).status == NOT_READY
+
+
+def test_a_test_filled_against_an_older_version_is_held_to_the_steps_it_had(unit):
+    """A test passed on version 3 (before 'set points restored' and a preheat coil's valve and glycol steps were
+    asked) stays ready: a newer version's steps do not undo a test that could not answer them."""
+    from inspections import checklists
+    from inspections.models import ChecklistItem, ChecklistTemplate, Inspection
+
+    current = next(t for t in checklists.TEMPLATES if t["code"] == "preheater_freeze")
+    older = ChecklistTemplate.objects.create(code="preheater_freeze", version=current["version"] - 1, title="old")
+    for i, it in enumerate(i for i in current["items"] if i["key"] != "set_points_restored"):
+        ChecklistItem.objects.create(template=older, position=i, key=it["key"], kind=it["kind"], label=it["label"])
+    insp = b.freeze_test(unit["visit"], unit["tech"], finished="2025-10-01", heaters=[])
+    Inspection.objects.filter(pk=insp.pk).update(template_versions={"preheater_freeze": older.version})
+    for key in b.FREEZE_STEPS_PER_HEATER[:-1]:
+        b.evaluation(insp, "check", f"preheater_freeze.{key}", component=unit["heater"], verdict="ok", reason="ok")
+    assert _readiness(unit["ahu"]).status == READY
+    Inspection.objects.filter(pk=insp.pk).update(template_versions={})  # the current version: the step is missing
+    r = _readiness(unit["ahu"])
+    assert r.status == NOT_READY and "put back as found after the test (not checked)" in r.reason
+
+
+def test_a_water_preheat_coil_is_not_held_to_a_glycol_step_and_a_glycol_one_is(unit):
+    """The steps of a preheat coil are those its checklist asks: a glycol freezing point only of a glycol coil."""
+    from tests.factories.inventory import ComponentFactory
+
+    coil = ComponentFactory(
+        ahu=unit["ahu"],
+        kind="coil",
+        name="Preheat coil",
+        specs={"duty": "preheat", "fluid": "water", "design_capacity_w": 9000},
+    )
+    insp = b.freeze_test(unit["visit"], unit["tech"], finished="2025-10-01", heaters=[unit["heater"]])
+    b.evaluation(insp, "check", "preheater_freeze.coil_valve_fail_open", component=coil, verdict="ok", reason="ok")
+    assert _readiness(unit["ahu"]).status == READY
+    coil.specs = {**coil.specs, "fluid": "glycol", "glycol_pct": 30, "glycol_kind": "propylene"}
+    coil.save(update_fields=["specs"])
+    r = _readiness(unit["ahu"])
+    assert r.status == NOT_READY and "Glycol freezing point by refractometer (not checked)" in r.reason

@@ -68,6 +68,7 @@ def _submit(
         r("preheater_freeze.airflow_interlock", interlock, heater, note="stages on with the fan stopped"),
         r("preheater_freeze.primary_limit", primary, heater, note="primary limit stuck closed"),
         r("preheater_freeze.high_limit", "ok", heater),
+        r("preheater_freeze.set_points_restored", "ok", heater),
         r("preheater_freeze.freeze_trip_temp", trip_temp),
         r("preheater_freeze.freeze_trip_test", trip_test, note="trip test"),
     ]

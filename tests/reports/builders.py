@@ -196,7 +196,14 @@ def amendment(insp: Inspection, user, *, reason: str, changes: list, created: st
     )
 
 
-FREEZE_STEPS_PER_HEATER = ("stage_on_temp", "stages", "airflow_interlock", "primary_limit", "high_limit")
+FREEZE_STEPS_PER_HEATER = (
+    "stage_on_temp",
+    "stages",
+    "airflow_interlock",
+    "primary_limit",
+    "high_limit",
+    "set_points_restored",
+)
 FREEZE_STEPS_PER_UNIT = ("freeze_trip_temp", "freeze_trip_test")
 
 
