@@ -22,11 +22,11 @@ from .form import Form, Value
 from .freeze_checks import freeze_trip_checks
 from .heat_checks import coil_checks, heat_recovery_checks
 from .readings import reading_result
-from .results import CHECKS, Result
+from .results import CHECKS, Result, own_judgement
 from .valve_checks import valve_leak_checks
 from .ventilation_checks import full_oa_checks, oa_fraction_checks
 
-__all__ = ["CHECKS", "Form", "Result", "Value", "evaluate"]
+__all__ = ["CHECKS", "Form", "Result", "Value", "evaluate", "own_judgement"]
 
 
 def evaluate(form: Form) -> list[Result]:

@@ -99,7 +99,8 @@ def inspection_amend(
     )
     by_item: dict[tuple[str, int | None], evaluation.Result] = {}
     for judged in results:
-        by_item.setdefault((judged.item, judged.component.pk if judged.component else None), judged)
+        if evaluation.own_judgement(judged.check):
+            by_item.setdefault((judged.item, judged.component.pk if judged.component else None), judged)
     changes: list[dict[str, Any]] = []
     for r in parsed.readings:
         key = (r.item.api_key, r.component.pk if r.component else None)

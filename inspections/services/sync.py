@@ -99,7 +99,8 @@ def _store(parsed: Parsed, user: User, results: list[evaluation.Result], batch: 
     # Reading verdicts from the evaluation of the reading itself.
     by_reading: dict[tuple[str, int | None], evaluation.Result] = {}
     for res in results:
-        by_reading.setdefault((res.item, res.component.pk if res.component else None), res)
+        if evaluation.own_judgement(res.check):
+            by_reading.setdefault((res.item, res.component.pk if res.component else None), res)
     for r in parsed.readings:
         own = by_reading.get((r.item.api_key, r.component.pk if r.component else None))
         if r.value_text == "na":

@@ -11,6 +11,7 @@ from django.db.models import Prefetch
 from accounts.clock import time_zone
 from accounts.models import AuditEvent
 from inspections import reasons
+from inspections.evaluation import own_judgement
 from inspections.models import Amendment, Evaluation, Inspection, Photo, Reading
 from inspections.selectors import check_label, findings_seen_on, item_labels, reason_for
 from scheduling.models import WorkOrder
@@ -90,7 +91,8 @@ def visit_records(
     for insp in inspections:
         visit_day = insp.finished_at.astimezone(zone).date() if insp.finished_at else None
         groups: dict[str, list] = {}
-        judged = {(e.item_key, e.component_id) for e in insp.evaluations.all()}
+        # A check of several readings (a coil's heat balance) judges none of them (its own row, ``visit_parts``).
+        judged = {(e.item_key, e.component_id) for e in insp.evaluations.all() if own_judgement(e.check_name)}
         meter_words = run_hours_words(insp, ahu=work_order.ahu, zone=zone)  # as the phone said it, at the finish
         for r in insp.readings.all():
             if r.component_id:

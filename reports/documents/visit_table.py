@@ -11,6 +11,7 @@ from django.utils.safestring import SafeString, mark_safe
 
 from engineering.controls import Verdict
 from inspections import reasons
+from inspections.evaluation import own_judgement
 from inspections.models import Inspection
 from inspections.selectors import reason_for
 
@@ -128,7 +129,10 @@ def visit_parts(
     ``meter_words``: what the meter rule checked of the run-hour value (``visit_words.run_hours_words``)."""
     by_key: dict[tuple[str, int | None], list[dict]] = {}
     for ev in evaluations:
-        by_key.setdefault((ev["e"].item_key, ev["e"].component_id), []).append(ev)
+        e = ev["e"]
+        # A check of several readings (a coil's heat balance) is a row of its own, never the reading it names.
+        key = e.item_key if own_judgement(e.check_name) else f"{e.item_key} {e.check_name}"
+        by_key.setdefault((key, e.component_id), []).append(ev)
     methods: list[str] = []
     groups: dict[tuple, dict] = {}
     template_titles = {r.item.template.code: r.item.template.title for r in insp.readings.all()}
