@@ -89,6 +89,7 @@ def monthly_visit(org):
         r("preheater_freeze.airflow_interlock", "ok", heater),
         r("preheater_freeze.primary_limit", "ok", heater),
         r("preheater_freeze.high_limit", "ok", heater),
+        r("preheater_freeze.set_points_restored", "ok", heater),
         r("preheater_freeze.freeze_trip_temp", 3.5),
         r("preheater_freeze.freeze_trip_test", "ok"),
     ]
