@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import itertools
 
-from engineering import _validate as v
+from engineering import validate as v
 
 __all__ = ["FREEZE_POINTS_C", "glycol_freeze_point_c"]
 
