@@ -5,7 +5,7 @@ from __future__ import annotations
 import datetime as dt
 import functools
 
-from django.db.models import Q, QuerySet
+from django.db.models import Min, Q, QuerySet
 
 from inventory.today import today_for
 
@@ -29,8 +29,6 @@ def next_visit_day(*, technician, after: dt.date) -> dt.date | None:
     """The first day after ``after`` with an open visit of the technician's (planned that day, or unplanned and
     due then): what the phone offers when today holds none (a weekend, a day off), so the next round can be
     looked at and prepared."""
-    from django.db.models import Min
-
     open_orders = WorkOrder.objects.filter(
         assignee=technician, state__in=[WorkOrder.State.ASSIGNED, WorkOrder.State.IN_PROGRESS]
     )

@@ -104,3 +104,19 @@ def test_a_visit_in_progress_planned_for_monday_is_on_saturdays_today(client, ap
     # Monday's list itself is unchanged: both of her visits planned for it.
     monday = api_client.get(f"/api/scheduling/today/?day={MONDAY.isoformat()}").json()
     assert {w["id"] for v in monday for w in v["work_orders"]} == {str(started.public_id), str(waiting.public_id)}
+
+
+def test_the_lists_are_marked_by_named_flags_never_by_attribute_text(client, world, clock):
+    """The today page's list of visits carries ``data-visits``, the next day's ``data-next-visits``: the include
+    takes a plain flag (``next=True``), so no attribute text is handed to the template as a string."""
+    from django.template.loader import render_to_string
+
+    assert '<ol class="visits" data-visits>' in _today(client, world.technician)
+    clock.move_to(SATURDAY)
+    WorkOrder.objects.filter(pk=world.work_a.pk).update(scheduled_for=MONDAY)
+    assert '<ol class="visits" data-next-visits>' in _today(client, world.technician)
+    include = "frontend/technician/_visits.html"
+    assert '<ol class="visits" data-visits>' in render_to_string(include, {"list": []})
+    assert '<ol class="visits" data-next-visits>' in render_to_string(include, {"list": [], "next": True})
+    hostile = render_to_string(include, {"list": [], "marker": 'onclick="x()"'})
+    assert "onclick" not in hostile
