@@ -14,15 +14,15 @@ from ..models import WorkOrder
 
 
 def _today_orders(*, technician, day: dt.date, today: dt.date) -> QuerySet[WorkOrder]:
-    """Open visits of ``technician`` for ``day``: planned that day, or unplanned and due by then; on ``today`` (the
-    technician's) also every visit of theirs already in progress, whatever day it was planned for (a visit planned
-    for Monday and started on Saturday is on Saturday's list)."""
+    """Open visits of ``technician`` for ``day``: planned that day, or unplanned and due by then. A visit already
+    in progress is on the technician's ``today`` alone, whatever day it was planned for, and on no other day's
+    list (a visit planned for Monday and started on Saturday is on Saturday's list, not Monday's): listed once."""
     on_day = Q(scheduled_for=day) | Q(scheduled_for__isnull=True, due_date__lte=day)
     if day == today:
-        on_day |= Q(state=WorkOrder.State.IN_PROGRESS)
-    return WorkOrder.objects.filter(
-        assignee=technician, state__in=[WorkOrder.State.ASSIGNED, WorkOrder.State.IN_PROGRESS]
-    ).filter(on_day)
+        return WorkOrder.objects.filter(assignee=technician).filter(
+            Q(state=WorkOrder.State.IN_PROGRESS) | (Q(state=WorkOrder.State.ASSIGNED) & on_day)
+        )
+    return WorkOrder.objects.filter(assignee=technician, state=WorkOrder.State.ASSIGNED).filter(on_day)
 
 
 def next_visit_day(*, technician, after: dt.date) -> dt.date | None:

@@ -288,3 +288,40 @@ def test_the_default_day_of_both_answers_is_the_callers_not_the_servers(api_clie
         api_client.force_authenticate(sup)
         board = api_client.get("/api/scheduling/board/").json()
     assert (board["today"], board["week_start"]) == ("2025-03-09", "2025-03-03")
+
+
+def test_a_started_visit_is_listed_once_on_the_callers_today_and_on_no_other_day(api_client):
+    """Saturday 8 March: the technician started the visit planned for Monday 10 March, and still has the one
+    started on Thursday 6 March (planned then) in progress. Asked through the API for Saturday (the default) and
+    for each planned day, every started visit is listed once, on Saturday; Monday lists only the visit waiting for
+    it, Thursday nothing."""
+    ahu = AHUFactory(building__site__time_zone="Europe/Amsterdam")
+    org = ahu.building.site.organisation
+    sup, tech = make_supervisor(org), make_technician(org)
+    thursday, monday = dt.date(2025, 3, 6), dt.date(2025, 3, 10)
+
+    def visit(title, day, state):
+        wo = WorkOrderFactory(organisation=org, ahu=ahu, due_date=day, title=title)
+        work_order_assign(work_order=wo, assignee=tech, by=sup)
+        WorkOrder.objects.filter(pk=wo.pk).update(scheduled_for=day, state=state)
+        return title
+
+    visit("Started for Monday", monday, WorkOrder.State.IN_PROGRESS)
+    visit("Started on Thursday", thursday, WorkOrder.State.IN_PROGRESS)
+    visit("Waiting for Monday", monday, WorkOrder.State.ASSIGNED)
+    api_client.force_authenticate(tech)
+    with time_machine.travel(dt.datetime(2025, 3, 8, 10, tzinfo=dt.UTC), tick=False):
+        lists = {
+            day: [w["title"] for v in api_client.get(path).json() for w in v["work_orders"]]
+            for day, path in (
+                ("saturday", "/api/scheduling/today/"),
+                ("saturday by name", "/api/scheduling/today/?day=2025-03-08"),
+                ("monday", f"/api/scheduling/today/?day={monday.isoformat()}"),
+                ("thursday", f"/api/scheduling/today/?day={thursday.isoformat()}"),
+            )
+        }
+    assert (
+        sorted(lists["saturday"]) == sorted(lists["saturday by name"]) == ["Started for Monday", "Started on Thursday"]
+    )
+    assert lists["monday"] == ["Waiting for Monday"]
+    assert lists["thursday"] == []

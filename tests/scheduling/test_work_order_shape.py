@@ -82,7 +82,7 @@ def _board_item(wo, org, name):
 
 
 def _today_row(wo, tech, name):
-    visits = today_visits_for(technician=tech, day=TODAY)
+    visits = today_visits_for(technician=tech, day=TODAY, today=TODAY)  # the technician's today: in progress shows
     shown = [w for v in visits for w in v["work_orders"] if w["id"] == wo.public_id]
     if name in ON_TODAY:
         assert len(shown) == 1, f"{name} work is on the technician's today"
