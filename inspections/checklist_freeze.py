@@ -64,7 +64,6 @@ def glycol_freeze_point(*, duty: str | list[str]) -> dict[str, Any]:
         plausible=(-55.0, 0.0),
         limits_from="glycol_freeze_point",
         required=True,
-        note=True,
         source=GLYCOL_SOURCE,
         help=GLYCOL_HELP,
     )
@@ -80,7 +79,6 @@ PREHEAT_COIL_ITEMS = [
         per="coil",
         where={"duty": "preheat"},
         required=True,
-        note=True,
         source=VALVE_SOURCE,
         help="Switch off the actuator's supply, then its signal only: watch the stem or the position indicator.",
     ),
@@ -90,7 +88,6 @@ PREHEAT_COIL_ITEMS = [
         "and on a freeze trip (n.a. if the coil has no pump)",
         per="coil",
         where={"duty": "preheat"},
-        note=True,
         source=CP,
     ),
     glycol_freeze_point(duty="preheat"),

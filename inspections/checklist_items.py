@@ -65,7 +65,6 @@ def item(
     source: str = "",
     required: bool = False,
     photo: bool = False,
-    note: bool = False,
     server: bool = False,
     choices: list[dict] | None = None,
     help: str = "",
@@ -95,7 +94,6 @@ def item(
         "judged_on_server": server,
         "required": required,
         "photo_required_when_not_ok": photo,
-        "note_required_when_not_ok": note,
     }
 
 

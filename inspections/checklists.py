@@ -129,7 +129,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 limits_from="filter_span",
                 server=True,
                 required=True,
-                note=True,
                 decimals=0,
                 source=(
                     "bands at 75 % / 95 % of the clean-to-final span; below 80 % / 50 % of clean "
@@ -143,7 +142,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 per="filter_bank",
                 required=True,
                 photo=True,
-                note=True,
             ),
             item(
                 "media",
@@ -172,7 +170,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 "Filters replaced with the class and size on the label",
                 per="filter_bank",
                 required=True,
-                note=True,
             ),
             item(
                 "dp_after",
@@ -185,7 +182,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 limits_from="filter_clean",
                 decimals=0,
                 required=True,
-                note=True,
                 source="ok within 0.8–1.2 × the rated clean pressure drop, watch 0.5–1.5 × (" + CP + ")",
             ),
             check("old_bagged", "Used filters bagged and removed", per="filter_bank"),
@@ -206,7 +202,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 where={"drive": "belt"},
                 required=True,
                 photo=True,
-                note=True,
                 choices=[
                     choice("good", "Good"),
                     choice("worn", "Worn or glazed", ok=False),
@@ -220,7 +215,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 per="fan",
                 where={"drive": "belt"},
                 required=True,
-                note=True,
                 choices=[
                     choice("correct", "Within the maker's deflection"),
                     choice("loose", "Loose", ok=False),
@@ -232,7 +226,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 "Pulleys aligned (straight edge)",
                 per="fan",
                 where={"drive": "belt"},
-                note=True,
             ),
             check(
                 "guard",
@@ -256,7 +249,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 "Vibration and bearing noise",
                 per="fan",
                 required=True,
-                note=True,
                 choices=[
                     choice("normal", "Normal"),
                     choice("rough", "Rough or noisy", ok=False),
@@ -288,7 +280,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 plausible=(0.05, 2_000),
                 limits_from="motor_fla",
                 decimals=1,
-                note=True,
                 source="ok up to the nameplate full-load current, watch to 1.1 × (service factor; " + CP + ")",
             ),
         ],
@@ -304,7 +295,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 "Proving switch / flow status drops out when the fan stops and the alarm shows",
                 per="fan",
                 required=True,
-                note=True,
             ),
             check(
                 "running_status",
@@ -377,7 +367,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 per="drain_pan",
                 required=True,
                 photo=True,
-                note=True,
                 choices=[
                     choice("clean", "Clean and dry or draining"),
                     choice("slime", "Slime or debris: cleaned now"),
@@ -390,7 +379,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 "Water poured into the pan drains away freely",
                 per="drain_pan",
                 required=True,
-                note=True,
             ),
             check("trap_primed", "Trap primed (n.a. if no trap)", per="drain_pan"),
             photo("photo", "Photo of the pan", per="drain_pan"),
@@ -448,7 +436,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 "valve_strokes",
                 "Chilled-water valve strokes fully open and closed",
                 required=True,
-                note=True,
             ),
         ],
     },
@@ -480,7 +467,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 decimals=0,
                 required=True,
                 server=True,
-                note=True,
             ),
             item(
                 "stroke_time",
@@ -492,7 +478,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 plausible=(1, 900),
                 limits_from="damper_stroke",
                 decimals=0,
-                note=True,
                 source="ok up to 1.2 × rated stroke time, watch to 1.5 × (" + CP + ")",
             ),
             check(
@@ -526,7 +511,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 per="electric_preheater",
                 limits_from="preheat_threshold",
                 required=True,
-                note=True,
                 source="ok within 1 K of the set threshold, watch within 2 K (" + CP + ")",
                 help=STAGE_ON_HELP,
             ),
@@ -535,7 +519,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 "Every stage energises in sequence and its current is drawn",
                 per="electric_preheater",
                 required=True,
-                note=True,
                 source=STAGES_SOURCE,
                 help=STAGES_HELP,
             ),
@@ -544,7 +527,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 "Fan stopped or airflow switch open: every stage switches off, none can be energised without airflow",
                 per="electric_preheater",
                 required=True,
-                note=True,
                 source=DUCT_HEATER_SOURCE,
                 help="Stop the fan (or open the airflow switch) with the heater called on: every stage must drop out.",
             ),
@@ -553,7 +535,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 "Automatic-reset primary limit opens on overheat and closes again once cooled",
                 per="electric_preheater",
                 required=True,
-                note=True,
                 source=DUCT_HEATER_SOURCE,
             ),
             check(
@@ -561,7 +542,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 "High-limit cut-out trips and needs a manual reset",
                 per="electric_preheater",
                 required=True,
-                note=True,
                 source=DUCT_HEATER_SOURCE,
             ),
             check(
@@ -569,7 +549,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 "Set points, sensor inputs and the controller's test mode put back as found after the test",
                 per="electric_preheater",
                 required=True,
-                note=True,
                 source=CP,
                 help="Write down each value before changing it; read the controller again after the test.",
             ),
@@ -580,7 +559,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 ok=FREEZE_TRIP_OK,
                 watch=FREEZE_TRIP_WATCH,
                 required=True,
-                note=True,
                 source=FREEZE_TRIP_SOURCE,
             ),
             check(
@@ -588,7 +566,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 "On trip: fan stops, outdoor damper closes, heating valve opens, alarm shows",
                 required=True,
                 photo=False,
-                note=True,
             ),
         ],
     },
@@ -622,7 +599,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 decimals=0,
                 required=True,
                 server=True,
-                note=True,
             ),
             air_temp(
                 "temp_sensor",
@@ -638,7 +614,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 where={"measures": "temperature"},
                 required=True,
                 server=True,
-                note=True,
             ),
             item(
                 "rh_sensor",
@@ -662,7 +637,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 plausible=(2, 98),
                 required=True,
                 server=True,
-                note=True,
             ),
             item(
                 "pressure_sensor",
@@ -688,7 +662,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 decimals=0,
                 required=True,
                 server=True,
-                note=True,
             ),
         ],
     },
@@ -716,7 +689,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 "drive",
                 "Wheel turns / bypass damper works (n.a. if none)",
                 per="heat_recovery",
-                note=True,
             ),
             air_temp("outdoor_in", "Outdoor air entering", per="heat_recovery"),
             air_temp(
@@ -750,7 +722,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 "surroundings",
                 "No exhaust, cooling-tower drift or rubbish near the intake",
                 per="intake_screen",
-                note=True,
             ),
             photo("photo", "Photo of the intake", per="intake_screen"),
         ],
@@ -800,7 +771,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 "Supply-air temperature",
                 required=True,
                 server=True,
-                note=True,
             ),
             air_temp(
                 "supply_setpoint",
@@ -816,7 +786,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 plausible=(0, 2_500),
                 decimals=0,
                 server=True,
-                note=True,
             ),
             item(
                 "duct_static_setpoint",
@@ -831,7 +800,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 "alarms",
                 "No standing alarms on the controller",
                 required=True,
-                note=True,
             ),
             check("schedule", "Time schedule matches the building's hours", required=True),
         ],
@@ -913,7 +881,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 "Valve commanded closed at the controller, its actuator at the closed end of its stroke",
                 per="coil",
                 required=True,
-                note=True,
                 help="If it will not close, say why in the note: the actuator or linkage is the fault, not the seat.",
             ),
             check(
@@ -931,7 +898,6 @@ TEMPLATES: list[dict[str, Any]] = [
                 per="coil",
                 required=True,
                 server=True,
-                note=True,
             ),
         ],
     },

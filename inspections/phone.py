@@ -274,7 +274,7 @@ def checklist_context(*, checklist, as_of: dt.datetime) -> dict[str, Any]:
 
 def form_flags_context(*, slots: list) -> dict[str, Any]:
     """What the phone checks on "Finish and sign" with the server's own rules and words (``inspections.flags``):
-    each slot's required / note / photo flags and its names as the flags word them."""
+    each slot's required and photo flags (a note is asked on every fail) and its names as the flags word them."""
     return {
         "form_flags": dict(flags.FORM_FLAGS),
         "form_flags_named": flags.INCOMPLETE_NAMED,
@@ -284,7 +284,6 @@ def form_flags_context(*, slots: list) -> dict[str, Any]:
                 "component": s.component.label_code if s.component is not None else None,
                 "kind": s.item.kind,
                 "required": bool(s.item.required),
-                "note_required_when_not_ok": bool(s.item.note_required_when_not_ok),
                 "photo_required_when_not_ok": bool(s.item.photo_required_when_not_ok),
                 "label": flags.slot_label(s),
                 "place": flags.slot_place(s),

@@ -66,7 +66,6 @@ class ChecklistItem(models.Model):
     judged_on_server = models.BooleanField(default=False)
     required = models.BooleanField(default=False)
     photo_required_when_not_ok = models.BooleanField(default=False)
-    note_required_when_not_ok = models.BooleanField(default=False)
 
     class Meta:
         ordering = ["template", "position", "id"]

@@ -228,7 +228,6 @@ def _item_entry(slot: Slot, system: str) -> dict:
         "choices": it.choices,
         "required": it.required,
         "photo_required_when_not_ok": it.photo_required_when_not_ok,
-        "note_required_when_not_ok": it.note_required_when_not_ok,
         "limits": None,
         "limits_source": it.limits_source,
         "judged_on_server": it.judged_on_server,

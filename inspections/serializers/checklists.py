@@ -88,7 +88,6 @@ class ChecklistItemOutput(serializers.Serializer):
     choices = ChoiceOutput(many=True)
     required = serializers.BooleanField()  # type: ignore[assignment]
     photo_required_when_not_ok = serializers.BooleanField()
-    note_required_when_not_ok = serializers.BooleanField()
     limits = LimitsOutput(allow_null=True, help_text="Number items only.")
     limits_source = serializers.CharField()
     judged_on_server = serializers.BooleanField(

@@ -50,13 +50,12 @@ def _run(tmp_path, ctx, answers):
     return json.loads(out.stdout)
 
 
-def _slot(key, label, *, kind="check", component=None, required=False, note=False, photo=False, title="Filter check"):
+def _slot(key, label, *, kind="check", component=None, required=False, photo=False, title="Filter check"):
     item = NS(
         api_key=key,
         kind=kind,
         label=label,
         required=required,
-        note_required_when_not_ok=note,
         photo_required_when_not_ok=photo,
     )
     comp = NS(label_code=component, name=f"Bank {component}") if component else None
@@ -80,7 +79,7 @@ def test_the_phone_knows_every_form_flag_and_words_it_as_the_server(tmp_path):
     """Two required items unanswered, a failed reading with neither note nor photo: the phone's flags read word for
     word as the server's (inspections.flags), and its checker knows every code of FORM_FLAGS."""
     slots = [
-        _slot("filter_check.dp", "Pressure drop", kind="number", component="F1", required=True, note=True),
+        _slot("filter_check.dp", "Pressure drop", kind="number", component="F1", required=True),
         _slot("filter_check.condition", "Media condition", required=True, photo=True),
         _slot("filter_check.photo", "Photo of the bank", kind="photo", required=True),
         _slot("visit.notes", "Notes", kind="text"),
@@ -105,9 +104,9 @@ def test_the_phone_knows_every_form_flag_and_words_it_as_the_server(tmp_path):
 
 
 def test_every_fail_without_a_note_is_flagged_on_the_phone_and_the_server_alike(tmp_path):
-    """The phone asks "say what you found in the note" beside every fail: a fail with no note is flagged whether
-    or not the item asks for a note (DESIGN.md is silent; the supervisor sees "failed without a note"); a fail with a
-    note, and an ok without one, are not."""
+    """The phone asks "say what you found in the note" beside every fail: a fail with no note is flagged, on every
+    item (no item says whether it wants one; DESIGN.md is silent; the supervisor sees "failed without a note"); a
+    fail with a note, and an ok without one, are not."""
     slots = [
         _slot("belt.tension", "Belt tension"),
         _slot("belt.wear", "Belt wear"),
@@ -158,3 +157,23 @@ def test_the_server_flags_a_fail_without_a_note_and_not_one_with_a_note():
     missing = [f["reason"] for f in bare.get("flags", []) if f["code"] == "missing_note"]
     assert len(missing) == 1 and missing[0].endswith("failed without a note saying what was found"), bare
     assert not [f for f in noted.get("flags", []) if f["code"] == "missing_note"], noted
+
+
+@pytest.mark.django_db
+def test_the_phone_is_served_no_per_item_note_rule(api_client):
+    """A note is asked on every fail (above), so no item carries a rule of its own about notes: the checklist the
+    phone downloads and its "Finish and sign" checks hold the required and photo rules only, nothing a reader could
+    take for "this item needs no note"."""
+    from inspections.models import ChecklistItem
+
+    with time_machine.travel(findings_world.FIRST_VISIT, tick=False):
+        s = scenario.build()
+        wo = make_work(ahu=s.unit_a, assignee=s.technician, title="Filter check", due=findings_world.FIRST_VISIT.date())
+        api_client.force_authenticate(s.technician)
+        doc = api_client.get(f"/api/inspections/work-orders/{wo.public_id}/checklist/").json()
+    items = [i for t in doc["templates"] for i in t["items"]]
+    assert items and all("photo_required_when_not_ok" in i for i in items)
+    assert not [i["key"] for i in items if "note_required_when_not_ok" in i]
+    slots = phone.form_flags_context(slots=[_slot("belt.tension", "Belt tension")])["form_slots"]
+    assert slots and not [slot for slot in slots if "note_required_when_not_ok" in slot]
+    assert "note_required_when_not_ok" not in {f.name for f in ChecklistItem._meta.get_fields()}
