@@ -21,7 +21,7 @@ from inventory.models import AHU, ComponentKind
 from inventory.today import today_for
 from scheduling.demo import ROUND_REF, demo_round_visit, demo_round_visit_due, demo_schedule_load
 from scheduling.models import WorkOrder
-from scheduling.selectors import assignment_check, today_visits_for, weekday_on_or_near
+from scheduling.selectors import assignment_check, offered_day, today_visits_for, weekday_on_or_near
 from scheduling.services import (
     outdoor_temperatures_store,
     site_seasons_refresh,
@@ -228,8 +228,10 @@ def _assign_upcoming(*, organisation, today: dt.date) -> int:
         # The site's technician if the work fits their day (its due date, or today when overdue); else the
         # least-loaded technician with the skills if it fits theirs; else it waits on the board to be planned.
         # The site's own today: the service refuses a day already past there (after midnight in its zone).
+        # The day the board offers (one rule, offered_day): urgent work already due on the site's today, weekend
+        # or not; other work a weekday.
         site_day = max(today, today_for(wo.ahu.building.site))
-        day = weekday_on_or_near(max(wo.due_date, site_day), today=site_day)
+        day = offered_day(scheduled_for=None, due_date=wo.due_date, today=site_day, priority=wo.priority)
         check = assignment_check(work_order=wo, technician=owner[wo.ahu.building.site_id], day=day)
         if check.over or check.missing_skills:
             pick = check.suggestion
@@ -239,7 +241,7 @@ def _assign_upcoming(*, organisation, today: dt.date) -> int:
         else:
             person = check.technician
         wo = work_order_assign(work_order=wo, assignee=person, by=supervisor)
-        if day != (wo.scheduled_for or wo.due_date):  # due on a weekend: planned for the weekday offered
+        if day != (wo.scheduled_for or wo.due_date):  # overdue, or due on a weekend: planned for the day offered
             work_order_schedule(work_order=wo, day=day, by=supervisor)
         count += 1
     # A technician with nothing due yet gets the soonest visit on their sites (theirs already, or still
@@ -265,6 +267,6 @@ def _assign_upcoming(*, organisation, today: dt.date) -> int:
             count += 1
         # The site's own today: the service refuses a day already past there (after midnight in its zone).
         site_day = max(today, today_for(soonest.ahu.building.site))
-        day = weekday_on_or_near(site_day, today=site_day)
+        day = offered_day(scheduled_for=None, due_date=site_day, today=site_day, priority=soonest.priority)
         work_order_schedule(work_order=soonest, day=day, by=supervisor)
     return count

@@ -34,7 +34,7 @@ from inventory.models import AHU
 from inventory.selectors import sites_managed_by
 from inventory.today import today_for
 from scheduling.models import TaskDefinition, WorkOrder
-from scheduling.selectors import assignment_check, effective_tasks, weekday_on_or_near
+from scheduling.selectors import assignment_check, effective_tasks, offered_day, weekday_on_or_near
 from scheduling.services.made_work import (
     ONE_OFF_MINUTES,
     OneOffTask,
@@ -124,19 +124,22 @@ def _library_for(ahu: AHU) -> list[dict]:
     return out
 
 
-def _default_due(site, now: dt.datetime) -> tuple[str, str]:
-    """Two hours from now on the site's clock, on the hour; tomorrow noon when that runs past 22:00."""
+def _default_due(site, now: dt.datetime, *, priority: str) -> tuple[str, str]:
+    """Two hours from now on the site's clock, on the hour; tomorrow noon when that runs past 22:00. On a weekend
+    day the board's rule (``offered_day``) decides: urgent work due today stays today, weekend or not; other work
+    moves to the Friday before, else the Monday after, at noon."""
     local = now.astimezone(zoneinfo.ZoneInfo(site.time_zone))
     due = (local + dt.timedelta(hours=2)).replace(minute=0, second=0, microsecond=0)
     if due.date() != local.date() or due.hour >= 22:
         due = (local + dt.timedelta(days=1)).replace(hour=12, minute=0, second=0, microsecond=0)
-    # Technicians do not work weekends: a Saturday or Sunday moves to the Friday before, else the Monday after,
-    # at noon. The Friday before a weekend due day is never later than today here (the due day is at most
-    # tomorrow), and today's noon may be past, so that case is the Monday.
-    day = weekday_on_or_near(due.date(), today=local.date() + dt.timedelta(days=1))
-    if day != due.date():
-        return day.isoformat(), "12:00"
-    return due.date().isoformat(), f"{due:%H:%M}"
+    day = offered_day(scheduled_for=None, due_date=due.date(), today=local.date(), priority=priority)
+    if day == due.date():
+        return due.date().isoformat(), f"{due:%H:%M}"
+    if day <= local.date():
+        # The Friday before a weekend due day is today here (the due day is at most tomorrow), whose noon may be
+        # past: the Monday after.
+        day = weekday_on_or_near(due.date(), today=local.date() + dt.timedelta(days=1))
+    return day.isoformat(), "12:00"
 
 
 def _due_by(post, site, errors: dict) -> dt.datetime | None:
@@ -212,10 +215,7 @@ def _context(request, *, ahu, values, errors, finding=None, org=None):
 
 
 def _initial(request, *, ahu, finding) -> dict:
-    values: dict = {"kind": WorkOrder.Kind.CALL_OUT, "priority": WorkOrder.Priority.HIGH, "task": []}
-    if ahu is not None:
-        values["unit"] = str(ahu.pk)
-        values["due_date"], values["due_time"] = _default_due(ahu.building.site, timezone.now())
+    values: dict = {"kind": WorkOrder.Kind.CALL_OUT, "priority": _asked_priority(request), "task": []}
     if finding is not None:
         values.update(
             kind=WorkOrder.Kind.CORRECTIVE,
@@ -224,7 +224,19 @@ def _initial(request, *, ahu, finding) -> dict:
             description=reason_for(evaluation=finding, unit_system=request.user.unit_system),
             finding=str(finding.pk),
         )
+    if ahu is not None:
+        values["unit"] = str(ahu.pk)
+        values["due_date"], values["due_time"] = _default_due(
+            ahu.building.site, timezone.now(), priority=values["priority"]
+        )
     return values
+
+
+def _asked_priority(request) -> str:
+    """The priority the unit was chosen with (``?priority=``, the first step's field), else High: a call-out is
+    answered soon. It decides the default due day (``_default_due``)."""
+    asked = request.GET.get("priority", "")
+    return asked if asked in WorkOrder.Priority.values else WorkOrder.Priority.HIGH
 
 
 def _say_due(wo: WorkOrder) -> str:

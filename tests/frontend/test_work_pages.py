@@ -353,3 +353,17 @@ def test_a_call_outs_due_time_shows_on_its_own_page(desk, world):
     planned = WorkOrder.objects.filter(due_by=None).exclude(kind="call_out").first()
     html = desk.get(reverse("frontend:checklist", kwargs={"public_id": planned.public_id})).content.decode()
     assert "data-due-by" not in html
+
+
+def test_the_due_day_offered_on_a_saturday_follows_the_boards_rule(desk, world):
+    """Saturday 8 March 2025, 11:00 CET: an urgent call-out is offered today, 13:00 (two hours on, on the hour), as
+    the board offers urgent work due on the site's today, weekend or not; a high-priority one (the default) the
+    Monday after at noon, the board's weekday rule (scheduling.selectors.offered_day, one function)."""
+    unit = world.mill_unit.pk
+    with time_machine.travel(dt.datetime(2025, 3, 8, 10, tzinfo=dt.UTC), tick=False):
+        urgent = desk.get(NEW, {"unit": unit, "priority": "urgent"}).content.decode()
+        high = desk.get(NEW, {"unit": unit}).content.decode()
+    assert 'name="due_date" value="2025-03-08"' in urgent and 'name="due_time" value="13:00"' in urgent
+    assert '<option value="urgent" selected>' in urgent
+    assert 'name="due_date" value="2025-03-10"' in high and 'name="due_time" value="12:00"' in high
+    assert "urgent work due today stays today, weekend or not" in high
