@@ -26,7 +26,7 @@ from inventory.selectors import ahus_visible_to, sites_visible_to
 from inventory.today import today_for
 
 from . import serializers as s
-from .api_answers import over_capacity_answer, revalidated, work_order_answer
+from .api_answers import board_answer, over_capacity_answer, revalidated, work_order_answer
 from .api_requests import (
     BOARD,
     CONDITIONAL,
@@ -43,11 +43,7 @@ from .models import MeterReading, OutdoorTemperature, WorkOrder
 from .selectors import (
     BOARD_LIMIT_MAX,
     BOARD_SECTIONS,
-    board_load_rows,
-    board_page_for,
-    board_suggestions,
     effective_tasks,
-    to_verify_rows,
     today_visits_for,
     work_orders_managed_by,
     work_orders_visible_to,
@@ -279,15 +275,7 @@ class Board(APIView):
             org = caller_organisation(request.user, managing=True)
             if org is None:
                 raise PermissionDenied("the board is for supervisors")
-            page = board_page_for(
-                organisation=org, week_start=week, today=today, limit=limit, offset=offset, section=section
-            )
-            board_suggestions(organisation=org, rows=[*page["overdue"], *page["due"], *page["assigned"]])
-            return {
-                **page,
-                "load": board_load_rows(organisation=org, start=week, days=7),
-                "to_verify": to_verify_rows(organisation=org),
-            }
+            return board_answer(organisation=org, week=week, today=today, limit=limit, offset=offset, section=section)
 
         answer = json_answer(request, polled=BOARD, key=key, build=build)
         return revalidated(answer or Response(build()))

@@ -1,8 +1,10 @@
 """What the scheduling API's views answer beyond a serializer: the work order as it now stands (every work-order
-route's answer), the 409 that warns before a technician's day passes their capacity, and the polled reads' caching
-headers."""
+route's answer), the board's answer, the 409 that warns before a technician's day passes their capacity, and the
+polled reads' caching headers."""
 
 from __future__ import annotations
+
+import datetime as dt
 
 from django.utils.cache import patch_cache_control, patch_vary_headers
 from rest_framework import status
@@ -10,6 +12,7 @@ from rest_framework.response import Response
 
 from . import serializers as s
 from .api_requests import work_order_seen
+from .selectors import board_load_rows, board_page_for, board_suggestions, overdue_awaiting_rows, to_verify_rows
 
 
 def work_order_answer(request, public_id) -> Response:
@@ -33,6 +36,22 @@ def over_capacity_answer(check) -> Response:
         "suggestion": suggestion,
     }
     return Response(body, status=status.HTTP_409_CONFLICT)
+
+
+def board_answer(*, organisation, week: dt.date, today: dt.date, limit: int, offset: int, section: str | None) -> dict:
+    """The board API's answer (``BoardOutput``): a page of each section with the suggested technician of each
+    unassigned row, the technicians' week, the work to verify and the overdue work awaiting approval, each from the
+    function the board page reads it with."""
+    page = board_page_for(
+        organisation=organisation, week_start=week, today=today, limit=limit, offset=offset, section=section
+    )
+    board_suggestions(organisation=organisation, rows=[*page["overdue"], *page["due"], *page["assigned"]])
+    return {
+        **page,
+        "load": board_load_rows(organisation=organisation, start=week, days=7),
+        "to_verify": to_verify_rows(organisation=organisation),
+        "overdue_awaiting": overdue_awaiting_rows(organisation=organisation),
+    }
 
 
 def revalidated(response: Response) -> Response:

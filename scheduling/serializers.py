@@ -336,6 +336,21 @@ class ToVerifyOutput(serializers.Serializer):
     version = serializers.IntegerField()
 
 
+class OverdueAwaitingOutput(serializers.Serializer):
+    id = serializers.UUIDField()
+    title = serializers.CharField()
+    kind = serializers.CharField()
+    priority = serializers.CharField()
+    unit = UnitRefOutput()
+    site = SiteRefOutput()
+    due_date = serializers.DateField()
+    overdue_on = serializers.DateField(allow_null=True)
+    version = serializers.IntegerField(help_text="Send it to approve or reject the work.")
+    due_words = serializers.CharField(
+        help_text='The due date in words on the site\'s today: "due 20 Sep 2026, 75 days overdue (since 21 Sep 2026)".'
+    )
+
+
 class BoardOutput(serializers.Serializer):
     week_start = serializers.DateField(help_text="The Monday of the week shown.")
     today = serializers.DateField(help_text="The day overdue is judged on.")
@@ -348,6 +363,13 @@ class BoardOutput(serializers.Serializer):
     assigned = BoardItemOutput(many=True, help_text="Rows offset to offset + limit of the assigned work of the week.")
     load = TechnicianLoadOutput(many=True, help_text="Each technician's day: tasks plus travel against capacity.")
     to_verify = ToVerifyOutput(many=True, help_text="Completed work waiting for verification, longest waiting first.")
+    overdue_awaiting = OverdueAwaitingOutput(
+        many=True,
+        help_text=(
+            "Proposed corrective work overdue at its site and awaiting approval, due first: the sections leave it out "
+            "until it is approved, while the property manager's dashboard and the compliance record count it overdue."
+        ),
+    )
 
 
 class CalendarFeedOutput(serializers.Serializer):

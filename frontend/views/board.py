@@ -24,7 +24,7 @@ from scheduling.selectors import (
     board_page_for,
     board_suggestions,
     offered_day,
-    overdue_awaiting_approval,
+    overdue_awaiting_rows,
     technician_load,
     work_order_for,
     work_orders_to_verify,
@@ -141,9 +141,7 @@ def board(request):
         for key, title in (("overdue", "Overdue"), ("due", "Due, not assigned"), ("assigned", "Assigned"))
     ]
     # Overdue proposed work the sections leave out until it is approved: shown, with the way to approve it.
-    awaiting = overdue_awaiting_approval(organisation=org)
-    for wo in awaiting:
-        wo.due_text = wo.due_words_on(wo.site_today)
+    awaiting = overdue_awaiting_rows(organisation=org)  # as the board API lists it
     load = technician_load(organisation=org, start=week, days=7)
     to_verify = list(work_orders_to_verify(organisation=org))
     flagged = {f.work_order_id: f for f in flagged_forms_for(user=request.user)}

@@ -18,6 +18,7 @@ from .board import (
     board_page_for,
     board_suggestions,
     overdue_awaiting_approval,
+    overdue_awaiting_rows,
     to_verify_rows,
     work_orders_to_verify,
 )
@@ -66,6 +67,7 @@ __all__ = [
     "next_visit_day",
     "offered_day",
     "overdue_awaiting_approval",
+    "overdue_awaiting_rows",
     "skills_needed",
     "suggested_technicians",
     "task_for_unit",

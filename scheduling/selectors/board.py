@@ -213,6 +213,22 @@ def overdue_awaiting_approval(*, organisation) -> list[WorkOrder]:
     return found
 
 
+OVERDUE_AWAITING_FIELDS = ("id", "title", "kind", "priority", "unit", "site", "due_date", "overdue_on", "version")
+
+
+def overdue_awaiting_rows(*, organisation) -> list[dict]:
+    """:func:`overdue_awaiting_approval` as the board page and the board API both list it: each work order in a
+    plain shape (the board's unit and site names) with its due date in words on its site's today (``due_words``,
+    :meth:`WorkOrder.due_words_on`)."""
+    return [
+        {
+            **shapes.work_order_shape(wo, fields=OVERDUE_AWAITING_FIELDS, unit=shapes.unit_ref, site=shapes.site_ref),
+            "due_words": wo.due_words_on(wo.site_today),
+        }
+        for wo in overdue_awaiting_approval(organisation=organisation)
+    ]
+
+
 def work_orders_to_verify(*, organisation, limit: int = 100) -> QuerySet[WorkOrder]:
     """Completed work waiting for the supervisor's verification, longest waiting first."""
     return (
