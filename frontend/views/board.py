@@ -26,6 +26,7 @@ from scheduling.selectors import (
     offered_day,
     overdue_awaiting_rows,
     technician_load,
+    weekend_plan_words,
     work_order_for,
     work_orders_to_verify,
 )
@@ -228,4 +229,8 @@ def assign(request, public_id):
                 f", over capacity: {check.load.hours:.1f} h of {check.load.capacity_hours:.1f} h on {check.day_words()}"
             )
         messages.success(request, f"{wo.ahu.display_name} — {wo.title} assigned to {technician}{planned}{over}.")
+        site_today = today_for(wo.ahu.building.site)
+        weekend = weekend_plan_words(day=day, due_date=wo.due_date, today=site_today, priority=wo.priority)
+        if weekend:
+            messages.warning(request, f"{wo.ahu.display_name} — {wo.title}: {weekend}.")
     return redirect(back)

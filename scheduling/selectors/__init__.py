@@ -10,7 +10,7 @@ with them.
 
 from __future__ import annotations
 
-from .assignment import AssignmentCheck, assignment_check, offered_day
+from .assignment import AssignmentCheck, assignment_check, offered_day, weekend_plan_words
 from .board import (
     BOARD_LIMIT_MAX,
     BOARD_SECTIONS,
@@ -77,6 +77,7 @@ __all__ = [
     "today_visits_for",
     "unit_rule_numbers",
     "weekday_on_or_near",
+    "weekend_plan_words",
     "work_order_for",
     "work_orders_managed_by",
     "work_orders_to_verify",

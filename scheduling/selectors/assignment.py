@@ -10,7 +10,15 @@ from dataclasses import dataclass
 from inventory.today import today_for
 
 from ..models import WorkOrder
-from .load import DayLoad, capacity_on, least_loaded, skills_needed, technician_day_loads, weekday_on_or_near
+from .load import (
+    WEEKEND,
+    DayLoad,
+    capacity_on,
+    least_loaded,
+    skills_needed,
+    technician_day_loads,
+    weekday_on_or_near,
+)
 
 
 @dataclass(frozen=True)
@@ -97,3 +105,18 @@ def offered_day(*, scheduled_for: dt.date | None, due_date: dt.date, today: dt.d
     if priority == WorkOrder.Priority.URGENT and due_date <= today:
         return today
     return weekday_on_or_near(max(due_date, today), today=today)
+
+
+def weekend_plan_words(*, day: dt.date | None, due_date: dt.date, today: dt.date, priority: str) -> str:
+    """The warning beside a plan for a Saturday or Sunday that :func:`offered_day`'s rule would not offer (anything
+    but urgent work already due, planned for the site's ``today``), else "". The plan is kept: weekend work is
+    allowed (a shutdown out of hours, a technician on a weekend rota); the words make sure it was meant."""
+    if day is None or day.weekday() not in WEEKEND:
+        return ""
+    if day == today and offered_day(scheduled_for=None, due_date=due_date, today=today, priority=priority) == day:
+        return ""
+    return (
+        f"Day {day.isoformat()} is a {day:%A}: kept as typed, but the board offers a weekday (Monday to Friday), "
+        "and a Saturday or Sunday only to urgent work already due, on the site's today; make sure the technician "
+        "works that day"
+    )

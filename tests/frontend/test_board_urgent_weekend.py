@@ -62,3 +62,40 @@ def test_urgent_work_due_is_offered_today_on_a_saturday_and_other_work_the_monda
         assert "on Mon 7 Dec with this work" in suggestion_of(html, wo)
         assert suggested_day(response, wo) == dt.date(2026, 12, 7)
     assert "except Urgent work already due or overdue: it is offered today, weekend or not" in html
+
+
+def test_a_weekend_day_typed_for_work_the_board_would_not_offer_it_is_kept_with_a_warning(clock, login):
+    """The service allows a weekend plan (a shutdown out of hours, a weekend rota: every day has the person's
+    capacity), so a Sunday typed for normal work is saved as typed, and the page warns after saving, naming the day
+    typed and what the board offers. Urgent work already due typed for the site's today, the Saturday, is the
+    board's own offer: no warning."""
+    from django.contrib.messages import get_messages
+    from django.urls import reverse
+
+    clock.move_to(SATURDAY)
+    scenario = scenario_module.build()
+    normal = make_work(ahu=scenario.unit_a, title="Filter check", due=dt.date(2026, 12, 7))
+    urgent = make_work(ahu=scenario.unit_a, title="Frost thermostat check", due=dt.date(2026, 12, 4))
+    WorkOrder.objects.filter(pk=urgent.pk).update(priority=WorkOrder.Priority.URGENT)
+    urgent.refresh_from_db()
+    client = login(scenario.supervisor)
+
+    def plan(wo, day):
+        url = reverse("frontend:assign", kwargs={"public_id": wo.public_id})
+        sent = {"assignee": scenario.technician.pk, "version": wo.version, "scheduled_for": day, "week": ""}
+        response = client.post(url, sent, follow=True)
+        wo.refresh_from_db()
+        return response
+
+    page = plan(normal, "2026-12-06")
+    assert normal.scheduled_for == dt.date(2026, 12, 6) and normal.assignee == scenario.technician
+    html = page.content.decode()
+    warning = html.split('class="warning" data-warning>')[1].split("</li>")[0]
+    assert "AHU-01 (North block) — Filter check: Day 2026-12-06 is a Sunday: kept as typed" in warning
+    assert "the board offers a weekday (Monday to Friday)" in warning
+    assert "a Saturday or Sunday only to urgent work already due, on the site&#x27;s today" in warning
+
+    page = plan(urgent, "05.12.2026")
+    assert urgent.scheduled_for == dt.date(2026, 12, 5)
+    assert "data-warning" not in page.content.decode()
+    assert not [m for m in get_messages(page.wsgi_request) if m.level_tag == "warning"]
