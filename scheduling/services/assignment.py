@@ -48,12 +48,18 @@ def work_order_assign_and_plan(
 
     Before anything is written, the technician's day the work would count on (the day asked for, else its
     plan, else its due date) is checked against their capacity: over it and not confirmed raises
-    :class:`OverCapacity` with the check. A stale ``expected_version`` or a day outside the plan window is not
-    checked: the services refuse those in their own words. Returns the check made (None when none was)."""
+    :class:`OverCapacity` with the check. A stale ``expected_version``, a day outside the plan window or a day
+    asked for that is already past at the site is not checked: the services refuse those in their own words (never
+    a capacity warning for a day that is then refused). Returns the check made (None when none was)."""
     on_day = (day if plan else work_order.scheduled_for) or work_order.due_date
     check = None
     site_today = today_for(work_order.ahu.building.site)
-    if expected_version == work_order.version and date_problem(on_day, label="day", today=site_today) is None:
+    past = plan and day is not None and day < site_today
+    if (
+        expected_version == work_order.version
+        and date_problem(on_day, label="day", today=site_today) is None
+        and not past
+    ):
         check = assignment_check(work_order=work_order, technician=assignee, day=on_day)
         if check.over and not confirm_over_capacity:
             raise OverCapacity(check)

@@ -286,3 +286,32 @@ def test_the_day_offered_for_weekend_work_already_past_its_friday_is_the_monday_
         wo = make_work(ahu=scenario.unit_a, title="Sunday check", due=dt.date(2025, 3, 9))
         html = login(scenario.supervisor).get("/board/?week=2025-03-03").content.decode()
     assert f'id="plan-{wo.public_id}" name="scheduled_for" value="2025-03-10"' in html
+
+
+def test_a_past_day_for_a_full_day_is_refused_at_once_in_one_date_format(scenario, visit, login, api_client):
+    """A past day typed for a technician whose day is full is refused straight away, in the words every plan
+    refusal uses (days in ISO: "allowed: 2025-03-05 or later"), never first an over-capacity page naming the day
+    in another form ("Tue 4 Mar") for a plan that is then refused; the API answers the same 400, not a 409."""
+    scenario.technician.daily_capacity_hours = 0.25
+    scenario.technician.save(update_fields=["daily_capacity_hours"])
+    client = login(scenario.supervisor)
+    response = client.post(
+        reverse("frontend:assign", kwargs={"public_id": visit.public_id}),
+        {"assignee": scenario.technician.pk, "version": visit.version, "scheduled_for": "04.03.2025"},
+    )
+    assert response.status_code == 302, "no over-capacity page for a day that is refused"
+    (text,) = [str(m) for m in get_messages(response.wsgi_request)]
+    assert text.endswith("scheduled day 2025-03-04 is in the past at Harbour House; allowed: 2025-03-05 or later")
+    assert not re.search(r"\d{1,2} (Jan|Feb|Mar|Apr|May|Jun|Jul|Aug|Sep|Oct|Nov|Dec)\b", text), text
+    api_client.force_authenticate(scenario.supervisor)
+    answer = api_client.post(
+        f"/api/scheduling/work-orders/{visit.public_id}/assign/",
+        {"assignee": scenario.technician.username, "version": visit.version, "scheduled_for": "2025-03-04"},
+        format="json",
+    )
+    assert answer.status_code == 400
+    assert answer.json()["errors"]["scheduled_for"] == [
+        "scheduled day 2025-03-04 is in the past at Harbour House; allowed: 2025-03-05 or later"
+    ]
+    wo = WorkOrder.objects.get(pk=visit.pk)
+    assert (wo.state, wo.assignee_id, wo.scheduled_for) == ("planned", None, None)
