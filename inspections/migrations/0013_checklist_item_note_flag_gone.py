@@ -6,7 +6,7 @@ from django.db import migrations, models
 
 class Migration(migrations.Migration):
     dependencies = [
-        ("inspections", "0011_finding_sources"),
+        ("inspections", "0012_coil_balance_off_the_flow_reading"),
     ]
 
     operations = [
