@@ -140,6 +140,8 @@ def constants() -> dict[str, Any]:
     return {
         "coil_tolerance_pct": heat_checks.COIL_TOLERANCE_PCT,
         "requirement_words": dict(ventilation_checks.REQUIREMENT_WORDS),
+        "supply_taken": ventilation_checks.SUPPLY_TAKEN,
+        "not_met_at_all": ventilation_checks.NOT_MET_AT_ALL,
         "airflow_uncertainty": dict(ventilation_checks.AIRFLOW_UNCERTAINTY),
         "drift_defaults": {k: list(v) for k, v in control_checks.DRIFT_DEFAULTS.items()},
         "drift_quantities": {k: list(v) for k, v in DRIFT_QUANTITIES.items()},

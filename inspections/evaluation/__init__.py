@@ -12,6 +12,9 @@ One module per family of checks: ``readings`` (single answers and numbers),
 recovery), ``control_checks`` (set points, dampers, sensor drift), ``valve_checks`` (a shut coil's leak-by),
 ``freeze_checks`` (the frost thermostat's trip setting); what they
 read is ``form``, what they give is ``results``.
+
+A number outside its plausible range is recorded and flagged (``services.reading_check``) but no check uses it
+(``Form.set_aside``): each does what it does without it, and its reason says which reading was not used and why.
 """
 
 from __future__ import annotations
@@ -47,7 +50,11 @@ def evaluate(form: Form) -> list[Result]:
         valve_leak_checks,
         freeze_trip_checks,
     ):
-        results.extend(fn(form, consumed))
+        form.asked.clear()
+        found = fn(form, consumed)
+        for res in found:
+            _say_set_aside(res, form)
+        results.extend(found)
     for slot in form.slots:
         key = (slot.item.api_key, slot.component.pk if slot.component else None)
         if key in consumed or key not in form.values:
@@ -56,3 +63,12 @@ def evaluate(form: Form) -> list[Result]:
         if res is not None:
             results.append(res)
     return results
+
+
+def _say_set_aside(res: Result, form: Form) -> None:
+    """Add to a check's reason the readings it asked for and did not use (``Form.set_aside``): a unit's reading to
+    every result of the check, a part's reading to that part's result."""
+    pk = res.component.pk if res.component is not None else None
+    notes = [why for (key, part), why in form.set_aside.items() if (key, part) in form.asked and part in (None, pk)]
+    if notes:
+        res.say(res.reason_parts, *(["; ", *why] for why in notes))

@@ -7,9 +7,15 @@ from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from typing import Any
 
+from engineering import formatting as fmt
 from engineering import units as eng_units
 from engineering.fans import expected_flow_at_speed
 from engineering.filters import FilterPoint
+from inspections.reasons import q as qty
+from inspections.reasons import span
+
+# A reading's key in a form: (item api key, part id or None).
+Key = tuple[str, int | None]
 
 
 def _alone(reading: FilterPoint | None) -> list[FilterPoint]:
@@ -42,14 +48,57 @@ class Form:
     # Earlier (run_hours, dp_pa, airflow_m3s, when) points of a filter bank since its last change, on one meter;
     # ``filter_points(bank, reading)``: with this form's own reading joined to them (FilterLife.forecast_points).
     filter_points: Callable[..., list[FilterPoint]] = field(default=lambda component, reading=None: _alone(reading))
+    # Numbers outside their plausible range (kept and flagged at the sync), set aside: {key: why, in reason parts}.
+    # ``num`` answers None for them, so every check does what it does without them; ``asked`` records the ones a
+    # check asked for, whose words ``evaluate`` adds to that check's reasons.
+    set_aside: dict[Key, list] = field(init=False)
+    asked: set[Key] = field(init=False, default_factory=set)
+
+    def __post_init__(self) -> None:
+        self.set_aside = implausible_values(self.slots, self.values)
 
     def num(self, key: str, component=None) -> float | None:
-        v = self.values.get((key, component.pk if component is not None else None))
+        k = (key, component.pk if component is not None else None)
+        if k in self.set_aside:
+            self.asked.add(k)
+            return None
+        v = self.values.get(k)
         return v.number if v is not None and not v.na else None
 
     def text(self, key: str, component=None) -> str:
         v = self.values.get((key, component.pk if component is not None else None))
         return v.text if v is not None else ""
+
+
+def _shown_decimals(item) -> int | None:
+    """Decimals a set-aside value shows in SI: the item's own (else its quantity's), and a tenth where those are
+    whole units, so a typed 12.5 rpm reads 12.5, not 12 or 13."""
+    d = item.decimals if item.decimals is not None else fmt.decimals_of(quantity=item.quantity or "", system="si")
+    return 1 if d == 0 else d
+
+
+def implausible_values(slots: list[Any], values: dict[Key, Value]) -> dict[Key, list]:
+    """The form's numbers outside their item's plausible range (the range ``services.reading_check`` flags by), in
+    slot order, each with its words: "supply fan speed now 12.5 rpm not used: outside the plausible 50–5000 rpm"."""
+    out: dict[Key, list] = {}
+    for slot in slots:
+        it = slot.item
+        key = (it.api_key, slot.component.pk if slot.component is not None else None)
+        v = values.get(key)
+        lim = slot.limits or {}
+        lo, hi = lim.get("plausible_min"), lim.get("plausible_max")
+        if v is None or v.na or v.number is None or it.kind != "number":
+            continue
+        x, quantity = v.number, it.quantity or ""
+        if not ((lo is not None and x < lo) or (hi is not None and x > hi)):
+            continue
+        if lo is not None and hi is not None:
+            where = [" not used: outside the plausible ", span(lo, hi, quantity)]
+        else:
+            where = [" not used: below the plausible ", qty(lo, quantity)] if lo is not None else []
+            where = where or [" not used: above the plausible ", qty(hi, quantity)]
+        out[key] = [f"{it.label.lower()} ", qty(x, quantity, _shown_decimals(it)), *where]
+    return out
 
 
 def _fan(form: Form):
@@ -58,7 +107,9 @@ def _fan(form: Form):
 
 
 def supply_airflow(form: Form) -> tuple[float, str]:
-    """Airflow at the time of the visit, m³/s, and how it was found."""
+    """Airflow at the time of the visit, m³/s, and how it was found: measured, else from the fan speed by the first fan
+    law (airflow ∝ speed; ASHRAE Handbook—HVAC Systems and Equipment, the fans chapter; from memory), else the
+    design. A reading set aside as implausible (``Form.set_aside``) is passed over as if not given."""
     measured = form.num("visit.supply_airflow")
     if measured:
         return measured, "measured"

@@ -176,31 +176,50 @@ def _judge_oa_fraction(
     parts = [
         f"by {label}: outdoor air {outdoor_air.fraction_words(frac.fraction, frac.uncertainty)} (",
         qty(oa_q, "airflow"),
-        f"); the unit's design minimum {ahu.design_min_oa_fraction * 100:.0f} % (",
+        f"); against the unit's design minimum {ahu.design_min_oa_fraction * 100:.0f} % (",
         qty(design_min_q, "airflow"),
         f"): {REQUIREMENT_WORDS[chk.verdict.value]}",
     ]
     if need_vr is not None and q > 0:
         required_q = need_vr.vot_m3s
-        need = min(required_q / q, 1.0)
-        req = outdoor_air.fraction_check(fraction=frac.fraction, uncertainty=frac.uncertainty, minimum=need)
-        verdict = controls.worst(verdict, req.verdict)
-        parts += [
-            "; the space needs ",
-            qty(required_q, "airflow"),
-            f" = {need * 100:.0f} % of the supply air for {space_label(ahu)} ({requirement_words(need_vr)}, "
-            f"ASHRAE 62.1 ventilation rate procedure): {REQUIREMENT_WORDS[req.verdict.value]}",
-        ]
+        basis = f" for {space_label(ahu)} ({requirement_words(need_vr)}, ASHRAE 62.1 ventilation rate procedure)"
+        parts += ["; against what the space needs, ", qty(required_q, "airflow")]
+        if required_q > q:
+            # More than all the air the unit supplied: even 100 % outdoor air (the fraction is at most 1) falls short.
+            req_verdict = Verdict.FAIL
+            parts += [basis, ": more than the ", qty(q, "airflow"), f" {SUPPLY_TAKEN}, {NOT_MET_AT_ALL}"]
+        else:
+            req = outdoor_air.fraction_check(
+                fraction=frac.fraction, uncertainty=frac.uncertainty, minimum=required_q / q
+            )
+            req_verdict = req.verdict
+            parts.append(f" = {required_q / q * 100:.0f} % of the supply air{basis}: {REQUIREMENT_WORDS[req_verdict]}")
+        verdict = controls.worst(verdict, req_verdict)
         if res.derived["design_shortfall"]:
             parts += [
                 "; the requirement is above the unit's design minimum outdoor air ",
                 qty(design_min_q, "airflow"),
                 ": the design falls short",
             ]
-        if verdict != chk.verdict:
-            parts.append("; judged by the requirement")
+        parts.append(judged_by(verdict=verdict, design=chk.verdict, need=req_verdict, design_name="the design minimum"))
     res.verdict = verdict.value
     res.say(parts)
+
+
+# The supply airflow an outdoor-air check took (measured, from the fan speed, or the design), and a requirement
+# above it: never "100 % of the supply air", which would hide that all of it is not enough.
+SUPPLY_TAKEN = "supply airflow taken for this visit"
+NOT_MET_AT_ALL = "not met even at 100 % outdoor air"
+
+
+def judged_by(*, verdict: Verdict | str, design: Verdict | str, need: Verdict | str, design_name: str) -> str:
+    """Which comparison decides a ventilation verdict, in words ("" when both say the same): the design's
+    ("; judged by the design minimum") when the verdict is the design's alone, else the space's ("; judged by what
+    the space needs"; a 100 % outdoor-air unit short of its design with the space's need met is only a watch). The
+    phone's twin is evaluate.js ``judgedBy``."""
+    if Verdict(design) == Verdict(need):
+        return ""
+    return f"; judged by {design_name if Verdict(verdict) == Verdict(design) else 'what the space needs'}"
 
 
 # Uncertainty of the supply airflow a 100 % outdoor-air unit delivers, as a fraction of it: a field
@@ -254,7 +273,7 @@ def full_oa_checks(form: Form, consumed: set) -> list[Result]:
     parts = [
         "100 % outdoor-air unit: outdoor air delivered ",
         qty(q, "airflow"),
-        f" ± {u_rel * 100:.0f} % ({q_how}); the unit's design airflow ",
+        f" ± {u_rel * 100:.0f} % ({q_how}); against the unit's design airflow ",
         qty(design, "airflow"),
         f": {REQUIREMENT_WORDS[design_verdict]}",
     ]
@@ -273,15 +292,16 @@ def full_oa_checks(form: Form, consumed: set) -> list[Result]:
         # Short of the design but the space's requirement met: a unit to look after, not a ventilation failure.
         verdict = controls.worst(req_verdict, Verdict.WATCH if design_verdict != Verdict.OK else Verdict.OK)
         parts += [
-            "; the space needs ",
+            "; against what the space needs, ",
             qty(need.vot_m3s, "airflow"),
             f" for {space_label(ahu)} ({requirement_words(need)}, ASHRAE 62.1 ventilation rate procedure): "
             f"{REQUIREMENT_WORDS[req_verdict]}",
         ]
         if need.vot_m3s > design:
             parts += ["; the requirement is above the unit's design airflow: the design falls short"]
-        if verdict != design_verdict:
-            parts.append("; judged by the requirement")
+        parts.append(
+            judged_by(verdict=verdict, design=design_verdict, need=req_verdict, design_name="the design airflow")
+        )
     res.verdict = verdict
     res.say(parts)
     return [res]

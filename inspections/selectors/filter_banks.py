@@ -380,10 +380,12 @@ def filter_series(*, component: Component, before: dt.datetime | None = None) ->
 
 
 def visit_values(*, inspection_ids: list[int]) -> dict[int, dict[str, float]]:
-    """Run-hours, airflow and fan speed of the given inspections, {inspection id: {key: SI value}}."""
+    """Run-hours, airflow and fan speed of the given inspections, {inspection id: {key: SI value}}. A value outside
+    its plausible range (kept and flagged ``improbable`` at the sync) is left out, as the evaluation sets it aside
+    (``inspections.evaluation.form.Form.set_aside``): the airflow is then found as without it."""
     out: dict[int, dict[str, float]] = {}
     for insp_id, key, value in Reading.objects.filter(
-        inspection_id__in=inspection_ids, item__template__code="visit", value_si__isnull=False
+        inspection_id__in=inspection_ids, item__template__code="visit", value_si__isnull=False, improbable=False
     ).values_list("inspection_id", "item__key", "value_si"):
         out.setdefault(insp_id, {})[key] = value
     return out

@@ -201,7 +201,7 @@ def test_a_requirement_above_the_design_minimum_is_a_design_shortfall_said_plain
     reason = ev["reason"]
     assert "the unit's design minimum 35 %" in reason and "): met" in reason
     assert "78 % of the supply air for sales (retail)" in reason and "not met" in reason
-    assert "the design falls short" in reason and "judged by the requirement" in reason
+    assert "the design falls short" in reason and "judged by what the space needs" in reason
     assert "retail_sales" not in reason and "fail" not in reason
 
 
@@ -565,7 +565,7 @@ def test_heat_recovery_without_a_design_value_says_so(api_client):
         # Office 1200 m², 60 people: Vbz = 2.5 × 60 + 0.3 × 1200 = 510 L/s (ASHRAE 62.1 Table 6-1, from
         # memory); ceiling supply of cool air Ez = 1.0 (Table 6-4, from memory); 100 % outdoor air: Vot = Voz
         # = 510 L/s. Measured airflow ±10 % (common practice). Design airflow 600 L/s.
-        (620, "ok", "the space needs 510 L/s for office space"),
+        (620, "ok", "against what the space needs, 510 L/s for office space"),
         # 480 L/s is below 510 but 480 + 48 = 528 reaches it: within the uncertainty, watch.
         (480, "watch", "cannot decide"),
         # 440 + 44 = 484 L/s stays below 510: fails.
@@ -606,7 +606,7 @@ def test_full_outdoor_air_unit_designed_below_the_requirement_is_a_design_review
     ev = result(out, "full_oa_airflow")
     assert ev["verdict"] == "fail"
     assert ev["derived"]["design_shortfall"] is True
-    assert "the design falls short" in ev["reason"] and "judged by the requirement" in ev["reason"]
+    assert "the design falls short" in ev["reason"] and "judged by what the space needs" in ev["reason"]
     [f] = out["findings"]
     finding = Finding.objects.get(pk=f["id"])
     assert finding.kind == Finding.Kind.DESIGN_REVIEW and finding.corrective_work_order is None

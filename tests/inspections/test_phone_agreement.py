@@ -1145,3 +1145,83 @@ def test_a_filter_reading_at_design_airflow_shows_one_rounding_on_both_and_in_th
     assert py["derived"]["corrected_dp_pa"] == 120.5 and row.startswith("120 ")
     assert f"({row} at design" in py["reason"], (row, py["reason"])
     assert py["reason"] == js["reason"]
+
+
+@pytest.mark.parametrize("speed_rpm", [12.5, 6000.0])
+def test_a_fan_speed_outside_its_plausible_range_is_set_aside_alike_on_both(tmp_path, speed_rpm):
+    """The tryout: "Supply fan speed now" typed as 12.5 rpm (plausible 50–5000 rpm) on a fan designed for 6.5 m³/s at
+    1120 rpm. By the first fan law (airflow ∝ speed, ASHRAE Handbook—HVAC Systems and Equipment, fans chapter; from
+    memory) it would give 0.073 m³/s; neither side uses it: the torn pre-filter (12.5 Pa against a clean 30 Pa, 42 %,
+    below the 50 % that fails, common practice) still fails at design airflow, and the outdoor-air check judges the
+    design airflow, both saying in the same words the speed was not used (likewise a speed above the range)."""
+    rng = random.Random(5)
+    ahu, comps = _unit(rng)
+    ahu.full_outdoor_air, ahu.ventilation_system = False, "single_zone"
+    ahu.design_supply_airflow_m3s, ahu.design_min_oa_fraction = 6.5, 0.3
+    ahu.space_kind, ahu.floor_area_m2, ahu.design_occupants = "office", 3000.0, 348
+    pre = next(c for c in comps if c.name == "Pre-filters")
+    pre.specs = {"clean_dp_pa": 30.0, "final_dp_pa": 150.0}
+    fan = next(c for c in comps if c.kind == "fan")
+    fan.specs = {**fan.specs, "design_speed_rpm": 1120.0, "design_flow_m3s": 6.5}
+    values = {
+        ("visit.supply_fan_speed", None): speed_rpm / 60,  # rev/s
+        ("filter_check.dp", pre.pk): 12.5,
+        ("ventilation_check.outdoor_co2", None): 420.0,
+        ("ventilation_check.return_co2", None): 900.0,
+        ("ventilation_check.supply_co2", None): 775.0,
+    }
+    case = {
+        "ahu": ahu,
+        "components": comps,
+        "slots": _slots(ahu, comps),
+        "values": values,
+        "points": {},
+        "codes": {c.pk: c.label_code for c in comps},
+    }
+    py = python_results(case)
+    js = run_js([js_input(case)], tmp_path)["out"][0]
+    assert "error" not in js, js
+    assert not compare(case, py, js["results"])
+    shown = f"{speed_rpm:.1f}"
+    where = f"supply fan speed now {shown} rpm not used: outside the plausible 50–5000 rpm"
+    [torn] = [r for r in py if r["check"] == "filter_loading" and r["component"] == pre.label_code]
+    assert torn["verdict"] == "fail" and where in torn["reason"], torn["reason"]
+    assert torn["derived"]["airflow_source"] == "design airflow assumed (not measured)"
+    [co2] = [r for r in py if r["check"] == "oa_fraction_co2"]
+    assert where in co2["reason"] and "100 % of the supply air" not in co2["reason"], co2["reason"]
+
+
+def test_a_requirement_above_the_supply_airflow_reads_the_same_on_both(tmp_path):
+    """The space needs 1.77 m³/s (ASHRAE 62.1 office, 2.5 L/s per person and 0.3 L/s per m², from memory) and
+    0.5 m³/s was measured: both say the need is more than the supply airflow taken for this visit and fail, never
+    "100 % of the supply air"."""
+    rng = random.Random(6)
+    ahu, comps = _unit(rng)
+    ahu.full_outdoor_air, ahu.ventilation_system, ahu.air_distribution = False, "single_zone", "ceiling_supply_cool"
+    ahu.design_supply_airflow_m3s, ahu.design_min_oa_fraction = 6.5, 0.3
+    ahu.space_kind, ahu.floor_area_m2, ahu.design_occupants = "office", 3000.0, 348
+    values = {
+        ("visit.supply_airflow", None): 0.5,
+        ("ventilation_check.outdoor_co2", None): 420.0,
+        ("ventilation_check.return_co2", None): 900.0,
+        ("ventilation_check.supply_co2", None): 500.0,
+    }
+    case = {
+        "ahu": ahu,
+        "components": comps,
+        "slots": _slots(ahu, comps),
+        "values": values,
+        "points": {},
+        "codes": {c.pk: c.label_code for c in comps},
+    }
+    py = python_results(case)
+    js = run_js([js_input(case)], tmp_path)["out"][0]
+    assert "error" not in js, js
+    assert not compare(case, py, js["results"])
+    [co2] = [r for r in py if r["check"] == "oa_fraction_co2"]
+    assert co2["verdict"] == "fail"
+    assert "1770 L/s for office space" in co2["reason"], co2["reason"]
+    assert (
+        "more than the 500 L/s supply airflow taken for this visit, not met even at 100 % outdoor air" in co2["reason"]
+    )
+    assert co2["reason"].endswith("; judged by what the space needs")

@@ -14,6 +14,7 @@ from scheduling.titles import title_fit
 
 from ... import reasons as rs
 from ...evaluation.results import ITEM_CONDITIONS, SEVERITY, Result
+from ...evaluation.ventilation_checks import NOT_MET_AT_ALL, SUPPLY_TAKEN
 from ...models import ChecklistTemplate, Evaluation, Finding
 
 FREEZE_LEAD_DAYS = 30
@@ -215,18 +216,23 @@ def _outdoor_air_parts(*, check: str, derived: dict[str, Any], ahu: AHU, design_
         ")",
     ]
     required = derived.get("required_outdoor_airflow_m3s")
+    # A requirement above the supply airflow is said as such, never capped at "100 %" (ventilation_checks).
+    beyond = required is not None and bool(supply_q) and required > supply_q
     if required is not None and supply_q:
         kind = SPACE_KINDS.get(ahu.space_kind)
         space = f" for {kind.label.lower()}" if kind is not None else ""
-        parts += [
-            f"; the space needs {min(required / supply_q, 1.0) * 100:.0f} % (",
-            rs.q(required, "airflow"),
-            f"){space} by the ASHRAE 62.1 ventilation rate procedure",
-        ]
+        how = f"{space} by the ASHRAE 62.1 ventilation rate procedure"
+        if beyond:
+            parts += ["; the space needs ", rs.q(required, "airflow"), f"{how}, more than the "]
+            parts += [rs.q(supply_q, "airflow"), f" {SUPPLY_TAKEN}"]
+        else:
+            parts += [f"; the space needs {required / supply_q * 100:.0f} % (", rs.q(required, "airflow"), f"){how}"]
     if x + u < dmin:
         parts.append(f". Fails: below the design minimum {dmin * 100:.0f} %")
+    elif beyond:
+        parts.append(f". Fails: {NOT_MET_AT_ALL}")
     elif required is not None and supply_q:
-        parts.append(f". Fails: below the {min(required / supply_q, 1.0) * 100:.0f} % the space needs")
+        parts.append(f". Fails: below the {required / supply_q * 100:.0f} % the space needs")
     if design_review:
         parts.append(
             ". The unit's design minimum is below what the space needs: a design review, "

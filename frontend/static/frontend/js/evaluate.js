@@ -517,6 +517,38 @@ const span = (low, high, quantity, decimals) => ({ low: low ?? null, high: high 
 /** Key of one reading: item and component label code ("" for the unit itself). */
 export const readingKey = (item, component) => `${item}|${component || ""}`;
 
+// Decimals a set-aside value shows in SI (inspections.evaluation.form._shown_decimals): the item's own, else its
+// quantity's, and a tenth where those are whole units (a typed 12.5 rpm reads 12.5).
+function shownDecimals(ctx, slot) {
+  const d = slot.decimals !== null && slot.decimals !== undefined ? slot.decimals : ((ctx.decimals || {})[slot.quantity] || [1, 1])[0];
+  return d === 0 ? 1 : d;
+}
+
+/**
+ * The form's numbers outside their plausible range (flagged, kept), in slot order, each with its words, as
+ * inspections.evaluation.form.implausible_values: "supply fan speed now 12.5 rpm not used: outside the plausible
+ * 50–5000 rpm". No check uses them.
+ */
+function implausibleValues(ctx, readings) {
+  const out = new Map();
+  for (const slot of ctx.slots) {
+    const key = readingKey(slot.item, slot.component);
+    const x = readings[key];
+    const lim = slot.limits || {};
+    const lo = lim.plausible_min ?? null;
+    const hi = lim.plausible_max ?? null;
+    if (slot.kind !== "number" || typeof x !== "number" || !Number.isFinite(x)) continue;
+    if (!((lo !== null && x < lo) || (hi !== null && x > hi))) continue;
+    const quantity = slot.quantity || "";
+    let where;
+    if (lo !== null && hi !== null) where = [" not used: outside the plausible ", span(lo, hi, quantity)];
+    else if (lo !== null) where = [" not used: below the plausible ", q(lo, quantity)];
+    else where = [" not used: above the plausible ", q(hi, quantity)];
+    out.set(key, { component: slot.component || "", parts: [`${slot.label.toLowerCase()} `, q(x, quantity, shownDecimals(ctx, slot)), ...where] });
+  }
+  return out;
+}
+
 class Form {
   constructor(ctx, readings, finishedOn, finishedAt) {
     this.ctx = ctx;
@@ -525,6 +557,8 @@ class Form {
     this.finishedAt = finishedAt;
     this.components = ctx.components;
     this.unit = ctx.unit;
+    this.setAside = implausibleValues(ctx, readings);
+    this.asked = new Set();
   }
 
   raw(key, component) { return this.readings[readingKey(key, component && component.code)]; }
@@ -532,6 +566,11 @@ class Form {
   has(key, component) { return this.raw(key, component) !== undefined; }
 
   num(key, component = null) {
+    const k = readingKey(key, component && component.code);
+    if (this.setAside.has(k)) {
+      this.asked.add(k);
+      return null;
+    }
     const v = this.raw(key, component);
     return typeof v === "number" && Number.isFinite(v) ? v : null;
   }
@@ -871,20 +910,28 @@ function oaChecks(form) {
     const words = form.ctx.constants.requirement_words;
     const chk = fractionCheck(frac.fraction, frac.uncertainty, u.design_min_oa_fraction);
     let verdict = chk.verdict;
+    const c = form.ctx.constants;
     const parts = [
       `by ${label}: outdoor air ${fractionWords(frac.fraction, frac.uncertainty)} (`, q(oaQ, "airflow"),
-      `); the unit's design minimum ${fixed(u.design_min_oa_fraction * 100, 0)} % (`, q(designMinQ, "airflow"), `): ${words[chk.verdict]}`,
+      `); against the unit's design minimum ${fixed(u.design_min_oa_fraction * 100, 0)} % (`, q(designMinQ, "airflow"), `): ${words[chk.verdict]}`,
     ];
     if (need && flow > 0) {
-      const share = Math.min(need.vot_m3s / flow, 1.0);
-      const req = fractionCheck(frac.fraction, frac.uncertainty, share);
-      verdict = worst(verdict, req.verdict);
-      parts.push("; the space needs ", q(need.vot_m3s, "airflow"),
-        ` = ${fixed(share * 100, 0)} % of the supply air for ${u.space_label || "the space served"} (${need.words}, ASHRAE 62.1 ventilation rate procedure): ${words[req.verdict]}`);
+      const basis = ` for ${u.space_label || "the space served"} (${need.words}, ASHRAE 62.1 ventilation rate procedure)`;
+      parts.push("; against what the space needs, ", q(need.vot_m3s, "airflow"));
+      let reqVerdict;
+      if (need.vot_m3s > flow) {
+        // More than all the air the unit supplied: even 100 % outdoor air falls short (never capped at 100 %).
+        reqVerdict = FAIL;
+        parts.push(basis, ": more than the ", q(flow, "airflow"), ` ${c.supply_taken}, ${c.not_met_at_all}`);
+      } else {
+        reqVerdict = fractionCheck(frac.fraction, frac.uncertainty, need.vot_m3s / flow).verdict;
+        parts.push(` = ${fixed((need.vot_m3s / flow) * 100, 0)} % of the supply air${basis}: ${words[reqVerdict]}`);
+      }
+      verdict = worst(verdict, reqVerdict);
       if (res.derived.design_shortfall) {
         parts.push("; the requirement is above the unit's design minimum outdoor air ", q(designMinQ, "airflow"), ": the design falls short");
       }
-      if (verdict !== chk.verdict) parts.push("; judged by the requirement");
+      parts.push(judgedBy(verdict, chk.verdict, reqVerdict, "the design minimum"));
     }
     res.verdict = verdict;
     say(res, parts);
@@ -895,6 +942,12 @@ function oaChecks(form) {
 
 // A 100 % outdoor-air unit's delivered outdoor air (evaluation.ventilation_checks.full_oa_checks): its supply airflow against
 // the space's requirement and its design airflow, each within the airflow's uncertainty.
+// Which comparison decides a ventilation verdict (inspections.evaluation.ventilation_checks.judged_by).
+function judgedBy(verdict, design, need, designName) {
+  if (design === need) return "";
+  return `; judged by ${verdict === design ? designName : "what the space needs"}`;
+}
+
 function airflowBandVerdict(flow, u, minimum) {
   if (flow >= minimum) return OK;
   if (flow + u >= minimum) return WATCH;
@@ -925,7 +978,7 @@ function fullOaChecks(form) {
   const designVerdict = airflowBandVerdict(flow, band, design);
   const parts = [
     "100 % outdoor-air unit: outdoor air delivered ", q(flow, "airflow"),
-    ` ± ${fixed(uRel * 100, 0)} % (${how}); the unit's design airflow `, q(design, "airflow"), `: ${words[designVerdict]}`,
+    ` ± ${fixed(uRel * 100, 0)} % (${how}); against the unit's design airflow `, q(design, "airflow"), `: ${words[designVerdict]}`,
   ];
   let verdict = designVerdict;
   if (need) {
@@ -936,10 +989,10 @@ function fullOaChecks(form) {
     const reqVerdict = airflowBandVerdict(flow, band, need.vot_m3s);
     // Short of the design but the space's requirement met: a unit to look after, not a ventilation failure.
     verdict = worst(reqVerdict, designVerdict !== OK ? WATCH : OK);
-    parts.push("; the space needs ", q(need.vot_m3s, "airflow"),
+    parts.push("; against what the space needs, ", q(need.vot_m3s, "airflow"),
       ` for ${u.space_label || "the space served"} (${need.words}, ASHRAE 62.1 ventilation rate procedure): ${words[reqVerdict]}`);
     if (need.vot_m3s > design) parts.push("; the requirement is above the unit's design airflow: the design falls short");
-    if (verdict !== designVerdict) parts.push("; judged by the requirement");
+    parts.push(judgedBy(verdict, designVerdict, reqVerdict, "the design airflow"));
   }
   res.verdict = verdict;
   say(res, parts);
@@ -1338,6 +1391,14 @@ function readingResult(slot, value) {
   return null;
 }
 
+// A check's reason with the readings it asked for and did not use (inspections.evaluation._say_set_aside).
+function saySetAside(res, form) {
+  const notes = [...form.setAside].filter(([k, why]) => form.asked.has(k) && (why.component === "" || why.component === res.component));
+  if (!notes.length) return;
+  const head = res.parts.length ? res.parts : (res.reason ? [res.reason] : []);
+  say(res, head, ...notes.map(([, why]) => ["; ", ...why.parts]));
+}
+
 /**
  * Every judgement of one form, as inspections.evaluation.evaluate gives it.
  * readings: {readingKey(item, component code): SI number | "ok" | "not_ok" | "na" | choice value | text}.
@@ -1349,12 +1410,14 @@ export function evaluate(ctx, readings, { finishedAt, finishedOn } = {}) {
   const at = finishedAt || (finishedOn ? `${finishedOn}T12:00:00Z` : new Date().toISOString());
   const form = new Form(ctx, readings, finishedOn || at.slice(0, 10), at);
   const consumed = new Set();
-  const results = [
-    ...filterChecks(form, consumed), ...filterChangeChecks(form, consumed), ...oaChecks(form, consumed), ...fullOaChecks(form),
-    ...coilChecks(form, consumed),
-    ...setpointChecks(form, consumed), ...driftChecks(form, consumed), ...heatRecoveryChecks(form, consumed),
-    ...valveLeakChecks(form, consumed), ...freezeTripChecks(form, consumed),
-  ];
+  const results = [];
+  for (const fn of [filterChecks, filterChangeChecks, oaChecks, fullOaChecks, coilChecks, setpointChecks, driftChecks,
+    heatRecoveryChecks, valveLeakChecks, freezeTripChecks]) {
+    form.asked.clear();
+    const found = fn(form, consumed);
+    for (const res of found) saySetAside(res, form);
+    results.push(...found);
+  }
   for (const slot of ctx.slots) {
     const key = readingKey(slot.item, slot.component);
     if (consumed.has(key) || !(key in readings)) continue;
