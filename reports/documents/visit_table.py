@@ -66,9 +66,13 @@ def _limit(evaluation, quantity: str, system: str, decimals: int | None = None) 
     if _number(fraction):
         design = f"design minimum {fraction * 100:.0f} %"
         required, supply = derived.get("required_outdoor_airflow_m3s"), derived.get("supply_airflow_m3s")
+        if _number(required) and _number(supply) and supply > required:
+            # The same share the judgement compares with (inspections.evaluation: required ÷ supply).
+            return f"space needs {required / supply * 100:.0f} %; {design}"
         if _number(required) and _number(supply) and supply > 0:
-            # The same share the judgement compares with (inspections.evaluation: required ÷ supply, at most all).
-            return f"space needs {min(required / supply, 1.0) * 100:.0f} %; {design}"
+            # More than all the supply air: said as an airflow, never capped at 100 % (ventilation_checks).
+            need = reasons.render([reasons.q(required, "airflow")], system)
+            return f"space needs {need}, more than the supply airflow; {design}"
         return f"{design} outdoor air"
     for key, words, qty in _LIMIT_KEYS:
         value = derived.get(key)

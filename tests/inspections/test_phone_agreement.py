@@ -203,7 +203,8 @@ def _airflow(rng, ahu, values):
     if roll < 0.45:
         values[("visit.supply_airflow", None)] = ahu.design_supply_airflow_m3s * rng.uniform(0.4, 1.6)
     elif roll < 0.75:
-        values[("visit.supply_fan_speed", None)] = rng.uniform(8.0, 26.0)  # rev/s
+        # rev/s; a tenth of these a hundredth as fast (5–16 rpm, below the plausible 50 rpm): set aside on both
+        values[("visit.supply_fan_speed", None)] = rng.uniform(8.0, 26.0) * (0.01 if roll > 0.72 else 1.0)
 
 
 def _filter(rng, ahu, comps, values, points):
