@@ -65,6 +65,12 @@ class Form:
         v = self.values.get(k)
         return v.number if v is not None and not v.na else None
 
+    def own(self, key: str, component=None) -> float | None:
+        """A number as typed, set aside or not: for a check that judges that reading on its own (the frost
+        thermostat's trip setting, ``freeze_checks``), as ``reading_result`` judges any reading against its band."""
+        v = self.values.get((key, component.pk if component is not None else None))
+        return v.number if v is not None and not v.na else None
+
     def text(self, key: str, component=None) -> str:
         v = self.values.get((key, component.pk if component is not None else None))
         return v.text if v is not None else ""

@@ -27,7 +27,7 @@ def freeze_trip_checks(form: Form, consumed: set) -> list[Result]:
     above it (nuisance trips: still protecting, so ``FREEZE_TRIP_SET_HIGH``, not the freeze-protection condition)."""
     out = []
     for slot in (s for s in form.slots if s.item.api_key == TRIP_ITEM):
-        t = form.num(TRIP_ITEM, slot.component)
+        t = form.own(TRIP_ITEM, slot.component)  # the reading judged on its own: never set aside (Form.own)
         lim = slot.limits
         lo, hi = lim.get("ok_min"), lim.get("ok_max")
         if t is None or lo is None or hi is None:

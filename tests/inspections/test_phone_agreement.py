@@ -1226,3 +1226,26 @@ def test_a_requirement_above_the_supply_airflow_reads_the_same_on_both(tmp_path)
         "more than the 500 L/s supply airflow taken for this visit, not met even at 100 % outdoor air" in co2["reason"]
     )
     assert co2["reason"].endswith("; judged by what the space needs")
+
+
+def test_a_trip_setting_outside_its_plausible_range_is_still_judged_on_its_own_alike_on_both(tmp_path):
+    """The frost thermostat's trip setting typed as 65 °C (plausible −40 to 60 °C) is flagged, but it is the
+    reading judged, not an input to another judgement: both judge it against its band as typed, a watch with
+    nuisance trips (still protecting), never set aside into a freeze-protection failure."""
+    rng = random.Random(7)
+    ahu, comps = _unit(rng)
+    values = {("preheater_freeze.freeze_trip_temp", None): 65.0}
+    case = {
+        "ahu": ahu,
+        "components": comps,
+        "slots": _slots(ahu, comps),
+        "values": values,
+        "points": {},
+        "codes": {c.pk: c.label_code for c in comps},
+    }
+    py = python_results(case)
+    js = run_js([js_input(case)], tmp_path)["out"][0]
+    assert "error" not in js, js
+    assert not compare(case, py, js["results"])
+    [trip] = [r for r in py if r["item"] == "preheater_freeze.freeze_trip_temp"]
+    assert trip["verdict"] == "watch" and "not used" not in trip["reason"], trip["reason"]

@@ -1210,7 +1210,7 @@ function freezeTripChecks(form, consumed) {
   const out = [];
   for (const slot of form.ctx.slots.filter((s) => s.item === TRIP_ITEM)) {
     const key = readingKey(TRIP_ITEM, slot.component);
-    const t = form.readings[key];
+    const t = form.readings[key]; // the reading judged on its own, as typed: never set aside (Form.own on the server)
     const lim = slot.limits;
     const lo = lim.ok_min ?? null;
     const hi = lim.ok_max ?? null;
