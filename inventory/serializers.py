@@ -248,7 +248,7 @@ class AHUTreeOutput(serializers.Serializer):
 class SpecFieldOutput(serializers.Serializer):
     name = serializers.CharField()
     label = serializers.CharField()
-    type = serializers.CharField(help_text="number, integer, choice, text, date or bool")
+    type = serializers.CharField(help_text="number, integer, choice, text, size (W×H×D mm), date or bool")
     unit = serializers.CharField(allow_blank=True)
     min = serializers.FloatField(allow_null=True)
     max = serializers.FloatField(allow_null=True)
@@ -263,11 +263,21 @@ class ComponentKindOutput(serializers.Serializer):
     fields = SpecFieldOutput(many=True)
 
 
+class ImportWarningOutput(serializers.Serializer):
+    line = serializers.IntegerField()
+    column = serializers.CharField()
+    value = serializers.CharField(allow_blank=True)
+    reason = serializers.CharField()
+
+
 class ImportResultOutput(serializers.Serializer):
     kind = serializers.CharField()
     created = serializers.IntegerField()
     updated = serializers.IntegerField()
     dry_run = serializers.BooleanField()
+    warnings = ImportWarningOutput(
+        many=True, help_text="Values taken but unlikely (odd plants exist): check them; the rows were not refused."
+    )
 
 
 class ImportInput(serializers.Serializer):

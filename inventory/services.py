@@ -12,6 +12,7 @@ from django.db.models import ProtectedError
 from django.urls import reverse
 
 from accounts.changes import organisation_changed, organisations_changed
+from engineering.registry_checks import SpecWarning, spec_warnings
 
 from .models import AHU, Building, Component, Site
 from .specs import SpecErrors, validate_specs
@@ -203,6 +204,19 @@ def component_update(*, component: Component, by: "User | None" = None, **fields
     _audit(by, component, "component_update", _said(fields))
     _changed(component)
     return component
+
+
+def component_warnings(*, component: Component, system: str = "si") -> list[SpecWarning]:
+    """What is allowed but unlikely in a saved part's specs (each with its spec field), in words in ``system``'s
+    units: a filter bank's
+    airflow far from its unit's, a fan motor far from its design point's power (engineering.registry_checks).
+    Saving goes ahead (odd plants exist); the page and the CSV import's report say these."""
+    return spec_warnings(
+        kind=component.kind,
+        specs=component.specs or {},
+        unit_airflow_m3s=component.ahu.design_supply_airflow_m3s,
+        system=system,
+    )
 
 
 @transaction.atomic

@@ -13,12 +13,13 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from accounts.inputs import control_characters, shown
+from engineering.registry_checks import SIZE_ALLOWED, filter_size_parse, motor_power_below_air_power
 
 
 @dataclass(frozen=True)
 class SpecField:
     name: str
-    kind: str  # "number" | "integer" | "choice" | "text" | "date" | "bool"
+    kind: str  # "number" | "integer" | "choice" | "text" | "date" | "bool" | "size" (W×H×D mm)
     label: str
     unit: str = ""
     minimum: float | None = None
@@ -37,6 +38,8 @@ class SpecField:
             return "a date as YYYY-MM-DD"
         if self.kind == "bool":
             return "true or false"
+        if self.kind == "size":
+            return SIZE_ALLOWED
         return "text up to 200 characters without control characters"
 
 
@@ -64,6 +67,10 @@ def _c(name, label, choices, required=False):
 
 def _t(name, label, required=False):
     return SpecField(name=name, kind="text", label=label, required=required)
+
+
+def _z(name, label, required=False):
+    return SpecField(name=name, kind="size", label=label, required=required)
 
 
 def _d(name, label, required=False):
@@ -97,7 +104,7 @@ SPECS: dict[str, tuple[SpecField, ...]] = {
         _c("merv", "MERV class (ASHRAE 52.2)", MERV_CLASSES),
         _c("iso_16890", "ISO 16890 group", ISO_16890_GROUPS),
         _i("iso_16890_pct", "ISO 16890 efficiency", 0, 100, unit="%"),
-        _t("size", "Nominal size (W×H×D mm)", required=True),
+        _z("size", "Nominal size (W×H×D mm)", required=True),
         _i("count", "Number of filters", 1, 200, required=True),
         _n("clean_dp_pa", "Clean (initial) pressure drop", "Pa", 5, 500, required=True),
         _n("final_dp_pa", "Final (change) pressure drop", "Pa", 20, 1000, required=True),
@@ -219,6 +226,8 @@ def _coerce(spec: SpecField, raw: Any) -> Any:
         raise ValueError(f"contains control characters (such as NUL): {found}")
     if len(value) > 200:
         raise ValueError("is too long")
+    if spec.kind == "size":
+        return filter_size_parse(value).text()
     return value
 
 
@@ -280,6 +289,12 @@ def _cross_checks(kind: str, s: dict[str, Any], *, given: set[str] | None = None
             )
         if "merv" not in given and "iso_16890" not in given:
             errors["merv"] = "MERV class or ISO 16890 group: neither is given; allowed: one of them, or both"
+    if kind == "fan" and {"motor_power_w", "design_flow_m3s", "design_pressure_pa"} <= set(s):
+        refused = motor_power_below_air_power(
+            motor_power_w=s["motor_power_w"], flow_m3s=s["design_flow_m3s"], pressure_pa=s["design_pressure_pa"]
+        )
+        if refused:
+            errors["motor_power_w"] = refused
     if kind == "coil" and "fluid" in s:
         errors.update(_coil_fluid_checks(s))
     if kind == "sensor" and "measures" in s:

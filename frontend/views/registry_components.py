@@ -110,8 +110,11 @@ def component_new(request, pk):
     spec_values: dict = {}
     errors: dict = {}
     if request.method == "POST":
-        clean, errors = read_fields(fields, request.POST, system=system, today=today_for(ahu.building.site))
-        values = {f.name: request.POST.get(f.name, "") for f in fields}
+        # A form without the place field (an older page) puts the part last; a place emptied is refused.
+        post = request.POST.copy()
+        post.setdefault("position", str(next_place))
+        clean, errors = read_fields(fields, post, system=system, today=today_for(ahu.building.site))
+        values = {f.name: post.get(f.name, "") for f in fields}
         specs, spec_errors = specs_from_post(kind=kind, post=request.POST, system=system)
         spec_values = {s.name: request.POST.get(f"spec_{s.name}", "") for s in spec_fields(kind)}
         spec_values.update(
@@ -129,12 +132,13 @@ def component_new(request, pk):
                     parent=parent,
                     specs=specs,
                     installed_on=clean["installed_on"],
-                    position=next_place if clean.get("position") is None else clean["position"],
+                    position=clean["position"],
                 )
             except ValidationError as exc:
                 errors = service_errors(exc)
             else:
                 messages.success(request, f"{component.name} added to {ahu.display_name}.")
+                _warn(request, component, system)
                 return redirect(back)
     rows = field_rows(fields, values=values, errors=errors, system=system)
     spec = spec_field_rows(kind, values=spec_values, errors=errors, system=system)
@@ -150,6 +154,12 @@ def component_new(request, pk):
         hidden={"kind": kind},
         status=400 if errors else 200,
     )
+
+
+def _warn(request, component: Component, system: str) -> None:
+    """Say what was saved but is unlikely (inventory.services.component_warnings) on the page shown next."""
+    for warning in inventory_services.component_warnings(component=component, system=system):
+        messages.warning(request, f"Saved, but check {component.name}: {warning.message}")
 
 
 SPECS_KINDS = set(ComponentKind.values)
@@ -171,6 +181,8 @@ def _position_field(ahu: AHU, *, but: Component | None = None) -> Field:
         "position",
         "Place in the airstream",
         kind="integer",
+        # Required: an emptied place is refused naming the range, never silently kept (the column holds no "none").
+        required=True,
         minimum=0,
         maximum=POSITION_MAX,
         hint="Parts are listed from the outdoor-air intake to the supply outlet: a lower number comes first "
@@ -261,15 +273,20 @@ def component_edit(request, pk):
         errors.update(checked)
         if not errors:
             parent = ahu.components.filter(pk=clean["parent"]).first() if clean.get("parent") else None
-            changes = {"name": clean_name, "specs": specs, "parent": parent, "installed_on": clean["installed_on"]}
-            if clean.get("position") is not None:
-                changes["position"] = clean["position"]
+            changes = {
+                "name": clean_name,
+                "specs": specs,
+                "parent": parent,
+                "installed_on": clean["installed_on"],
+                "position": clean["position"],
+            }
             try:
                 inventory_services.component_update(component=component, by=request.user, **changes)
             except ValidationError as exc:
                 errors = exc.message_dict if hasattr(exc, "error_dict") else {"__all__": exc.messages}
             else:
                 messages.success(request, f"{component.name} saved.")
+                _warn(request, component, system)
                 return redirect("frontend:registry_unit", pk=ahu.pk)
         errors = {key.removeprefix("specs."): texts for key, texts in errors.items()}
         status = 400

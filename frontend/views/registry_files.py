@@ -226,7 +226,13 @@ def files(request):
         return _page(request, org=org, status=400, kind=kind, refused=refused)
     token = uuid.uuid4().hex
     request.session[SESSION_KEY] = {"token": token, "kind": kind, "org": org.pk, "text": text, "name": name}
-    checked = {"name": name, "kind": KIND_NAMES[kind], "created": result.created, "updated": result.updated}
+    checked = {
+        "name": name,
+        "kind": KIND_NAMES[kind],
+        "created": result.created,
+        "updated": result.updated,
+        "warnings": result.warnings,
+    }
     return _page(request, org=org, kind=kind, checked=checked, token=token)
 
 
@@ -311,6 +317,7 @@ def import_confirm(request):
         "updated": result.updated,
         "rows": [{"line": line, "what": what, "new": not existed} for line, what, existed in keys[:SHOWN_ROWS]],
         "more": max(len(keys) - SHOWN_ROWS, 0),
+        "warnings": result.warnings,
     }
     messages.success(
         request, f"Imported {name}: {result.created} new, {result.updated} updated ({KIND_NAMES[kind].lower()})."

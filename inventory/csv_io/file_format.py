@@ -8,7 +8,7 @@ import io
 import math
 import re
 from collections.abc import Callable
-from dataclasses import asdict, dataclass
+from dataclasses import asdict, dataclass, field
 from typing import Any, TextIO
 
 from django.core.exceptions import NON_FIELD_ERRORS
@@ -48,9 +48,17 @@ class ImportResult:
     created: int = 0
     updated: int = 0
     dry_run: bool = False
+    # Values taken but unlikely (inventory.services.component_warnings), by line and column like a refusal.
+    warnings: list[RowError] = field(default_factory=list)
 
     def as_dict(self) -> dict[str, Any]:
-        return {"kind": self.kind, "created": self.created, "updated": self.updated, "dry_run": self.dry_run}
+        return {
+            "kind": self.kind,
+            "created": self.created,
+            "updated": self.updated,
+            "dry_run": self.dry_run,
+            "warnings": [w.as_dict() for w in self.warnings],
+        }
 
 
 class CellError(ValueError):

@@ -161,6 +161,7 @@ def _check_row(checker, raw: dict, line: int, plan: ImportPlan, result: ImportRe
         result.created += 1
     else:
         result.updated += 1
+    result.warnings.extend(RowError(line, col, row.get(col, ""), words) for col, words in plan.warnings_taken())
     return []
 
 

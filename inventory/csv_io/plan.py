@@ -59,6 +59,7 @@ class ImportPlan:
         self.changed: dict[type, dict[int, Any]] = {Site: {}, Building: {}, AHU: {}, Component: {}}
         self.changed_fields: dict[type, set[str]] = {Site: set(), Building: set(), AHU: set(), Component: set()}
         self.labelled: dict[str, Any] = {}  # label codes given in the file -> the record that took each
+        self.warnings: list[tuple[str, str]] = []  # (column, words) of the row just checked: saved, but unlikely
         keys = _key_cells(text, kind)
         self.sites = {s.code: s for s in Site.objects.filter(organisation=organisation)}
         self.clients = {o.slug: o for o in Organisation.objects.filter(slug__in=keys["client"])}
@@ -163,6 +164,11 @@ class ImportPlan:
         if problems:
             raise RowProblems(problems)
         self.remember(instance, values)
+
+    def warnings_taken(self) -> list[tuple[str, str]]:
+        """The warnings of the row just checked, (column, words); the list is emptied for the next row."""
+        taken, self.warnings = self.warnings, []
+        return taken
 
     def remember(self, instance, values: dict[str, Any]) -> None:
         """Keep a checked record for the write."""

@@ -10,6 +10,7 @@ from accounts.inputs import (
 )
 
 from ..models import AHU, Building, Component, ComponentKind, Site
+from ..services import component_warnings
 from ..today import today_for
 from .file_format import AHU_COLUMNS, COMPONENT_COLUMNS, SITE_COLUMNS, parse_int
 from .plan import ImportPlan, RowProblems
@@ -173,4 +174,7 @@ def check_component_row(row: dict[str, str], plan: ImportPlan) -> bool:
     plan.remember(component, values)
     if created:
         named.setdefault(values["name"], []).append(component)
+    # Allowed but unlikely (a bank's airflow far from its unit's, a motor far from its fan's design point): the
+    # report says so beside the cell; the file is imported (odd plants exist). A file's values are SI.
+    plan.warnings.extend((f"spec.{w.field}", w.message) for w in component_warnings(component=component, system="si"))
     return created

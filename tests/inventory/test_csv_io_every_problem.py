@@ -86,12 +86,17 @@ def test_an_unknown_site_lists_the_organisations_codes_and_still_checks_the_othe
 
 @pytest.mark.django_db
 def test_a_components_row_reports_bad_cells_and_the_pressure_drop_rule_together():
-    """Clean 300 Pa above final 250 Pa is said beside MERV 25 and count 'six', in the form's words."""
+    """Clean 300 Pa above final 250 Pa is said beside MERV 25, count 'six' and a size without its depth, in the
+    form's words."""
     ahu = make_full_unit()
     key = f"{ahu.building.site.code},{ahu.building.code},{ahu.tag}"
     text = COMPONENTS_HEADER + f"{key},New filters,filter_bank,final,25,six,300,250,3,592x592\n"
     found = _problems("components", text, ahu.building.site.organisation)
-    assert set(found) == {(2, "spec.merv"), (2, "spec.count"), (2, "spec.final_dp_pa")}
+    assert set(found) == {(2, "spec.merv"), (2, "spec.count"), (2, "spec.final_dp_pa"), (2, "spec.size")}
+    assert found[(2, "spec.size")].reason.startswith(
+        "Nominal size (W×H×D mm): '592x592' is not three whole numbers of mm as width × height × depth; "
+        "allowed: width × height × depth in whole mm"
+    )
     assert found[(2, "spec.merv")].reason.startswith(
         "MERV class (ASHRAE 52.2): '25' is not one of the choices; allowed: one of 1, 2, 3"
     )
@@ -109,7 +114,7 @@ def test_a_components_row_reports_bad_cells_and_the_pressure_drop_rule_together(
 def test_an_empty_name_does_not_hide_a_negative_airflow():
     ahu = make_full_unit()
     key = f"{ahu.building.site.code},{ahu.building.code},{ahu.tag}"
-    text = COMPONENTS_HEADER + f"{key},,filter_bank,final,13,6,90,250,-2,592x592\n"
+    text = COMPONENTS_HEADER + f"{key},,filter_bank,final,13,6,90,250,-2,592x592x292\n"
     found = _problems("components", text, ahu.building.site.organisation)
     assert set(found) == {(2, "name"), (2, "spec.design_airflow_m3s")}
     assert found[(2, "name")].reason.startswith("Name is required; allowed:")
@@ -122,7 +127,9 @@ def test_an_empty_name_does_not_hide_a_negative_airflow():
 def test_an_unknown_unit_still_checks_the_parts_cells():
     ahu = make_full_unit()
     site = ahu.building.site
-    text = COMPONENTS_HEADER + f"{site.code},{ahu.building.code},AHU-NOPE,X,filter_bank,final,25,6,90,250,3,592x592\n"
+    text = (
+        COMPONENTS_HEADER + f"{site.code},{ahu.building.code},AHU-NOPE,X,filter_bank,final,25,6,90,250,3,592x592x292\n"
+    )
     found = _problems("components", text, site.organisation)
     assert found[(2, "ahu_tag")].reason.startswith(f"Unit tag: no unit 'AHU-NOPE' in building '{ahu.building.code}'")
     assert ahu.tag in found[(2, "ahu_tag")].reason

@@ -160,7 +160,7 @@ def test_spec_text_with_control_characters_is_refused_naming_field_value_and_all
     assert "control characters (such as NUL)" in message
     bad = next(ch for ch in value if ord(ch) < 32)
     assert f'"\\x{ord(bad):02x}"' in message
-    assert "text up to 200 characters without control characters" in message
+    assert "width × height × depth in whole mm" in message  # the size's own allowed (a W×H×D in mm)
 
 
 @pytest.mark.django_db
