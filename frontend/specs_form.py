@@ -169,7 +169,8 @@ def _allowed_shown(s: SpecField, system: str) -> str:
 # What the unit page says of each part: the few values a technician or supervisor looks for first.
 KEY_SPECS = {
     "filter_bank": ("stage", "merv", "iso_16890", "clean_dp_pa", "final_dp_pa", "count", "size"),
-    "fan": ("role", "motor_power_w", "design_flow_m3s", "design_pressure_pa", "vsd"),
+    # The design speed is what the first fan law scales from when a visit reads the fan's speed.
+    "fan": ("role", "motor_power_w", "design_flow_m3s", "design_pressure_pa", "design_speed_rpm", "vsd"),
     "electric_preheater": ("stages", "power_w", "switch_on_c", "high_limit_c"),
     "coil": ("duty", "fluid", "design_capacity_w", "glycol_pct"),
     "damper": ("role", "actuator", "fail_position"),
@@ -190,6 +191,7 @@ PLAIN_LABELS = {
     "motor_power_w": "motor",
     "design_flow_m3s": "design airflow",
     "design_pressure_pa": "design pressure",
+    "design_speed_rpm": "design speed",
     "vsd": "variable-speed drive",
     "stages": "stages",
     "power_w": "rated power",
