@@ -112,6 +112,13 @@ def _fan(form: Form):
     return fans[0] if fans else None
 
 
+def fixed_speed_words(specs: dict) -> str:
+    """Said beside a speed reading's use when the fan has no variable-speed drive (its twin in evaluate.js)."""
+    if specs.get("vsd") is False:
+        return " (the fan has no variable-speed drive: its speed moves only with belt slip or a pulley change)"
+    return ""
+
+
 def supply_airflow(form: Form) -> tuple[float, str]:
     """Airflow at the time of the visit, m³/s, and how it was found: measured, else from the fan speed by the first fan
     law (airflow ∝ speed; ASHRAE Handbook—HVAC Systems and Equipment, the fans chapter; from memory), else the
@@ -126,5 +133,5 @@ def supply_airflow(form: Form) -> tuple[float, str]:
         q = expected_flow_at_speed(
             design_flow_m3s=fan.specs["design_flow_m3s"], design_speed=fan.specs["design_speed_rpm"], measured_speed=rpm
         )
-        return q, f"from fan speed {rpm:.0f} rpm by the first fan law"
+        return q, f"from fan speed {rpm:.0f} rpm by the first fan law{fixed_speed_words(fan.specs)}"
     return form.ahu.design_supply_airflow_m3s, "design airflow assumed (not measured)"

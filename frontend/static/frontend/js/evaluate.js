@@ -596,6 +596,14 @@ function say(res, ...pieces) {
   res.parts = out;
 }
 
+// Said beside a speed reading's use when the fan has no variable-speed drive (twin of fixed_speed_words, form.py).
+function fixedSpeedWords(specs) {
+  if (specs.vsd === false) {
+    return " (the fan has no variable-speed drive: its speed moves only with belt slip or a pulley change)";
+  }
+  return "";
+}
+
 function supplyAirflow(form) {
   const measured = form.num("visit.supply_airflow");
   if (measured) return [measured, "measured"];
@@ -604,7 +612,7 @@ function supplyAirflow(form) {
   if (speed && fan && fan.specs.design_speed_rpm && fan.specs.design_flow_m3s) {
     const rpm = speed * 60; // stored rev/s, engineering.units rotational_speed
     const flow = (fan.specs.design_flow_m3s * rpm) / fan.specs.design_speed_rpm; // first fan law
-    return [flow, `from fan speed ${fixed(rpm, 0)} rpm by the first fan law`];
+    return [flow, `from fan speed ${fixed(rpm, 0)} rpm by the first fan law${fixedSpeedWords(fan.specs)}`];
   }
   return [form.unit.design_supply_airflow_m3s, "design airflow assumed (not measured)"];
 }
