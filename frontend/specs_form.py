@@ -14,6 +14,9 @@ from accounts.inputs import (
     parse_number,
 )
 from engineering.errors import EngineeringInputError
+from engineering.fans import fan_air_power_w
+from engineering.formatting import quantity_text
+from engineering.registry_checks import motor_power_below_air_power
 from engineering.units import from_display, to_display, unit_label
 from inventory.specs import SpecField, spec_fields
 
@@ -155,7 +158,32 @@ def _plain_checks(*, kind: str, specs: dict, errors: dict, system: str) -> dict:
             ]
         if not specs.get("merv") and not specs.get("iso_16890") and "merv" not in errors:
             out["merv"] = ["MERV class or ISO 16890 group: neither is given; allowed: one of them, or both"]
+    if kind == "fan" and "motor_power_w" not in errors:
+        out.update(_motor_below_air_power(specs, system))
     return out
+
+
+def _motor_below_air_power(specs: dict, system: str) -> dict:
+    """The registry's refusal of a motor rated below its fan's air power Q·p
+    (engineering.registry_checks.motor_power_below_air_power), said in the person's units."""
+    motor, flow, pressure = (specs.get(k) for k in ("motor_power_w", "design_flow_m3s", "design_pressure_pa"))
+    if None in (motor, flow, pressure) or not motor_power_below_air_power(
+        motor_power_w=motor, flow_m3s=flow, pressure_pa=pressure
+    ):
+        return {}
+    air = fan_air_power_w(flow_m3s=flow, pressure_pa=pressure)
+
+    def said(value: float, quantity: str) -> str:
+        # A motor's power to two decimals: the limit is the air power itself, not a rounding of it.
+        return quantity_text(value, quantity=quantity, system=system, decimals=2 if quantity == "motor_power" else None)
+
+    return {
+        "motor_power_w": [
+            f"Motor rated power: {said(motor, 'motor_power')} is below the fan's air power of "
+            f"{said(air, 'motor_power')} ({said(flow, 'airflow')} at {said(pressure, 'pressure')}, fan air power "
+            f"Q·p); no fan runs its design point on it; allowed: a motor rated at least {said(air, 'motor_power')}"
+        ]
+    }
 
 
 def _allowed_shown(s: SpecField, system: str) -> str:

@@ -143,6 +143,18 @@ def test_a_motor_far_from_its_fans_design_point_is_saved_with_a_warning_and_one_
     assert fan.specs["motor_power_w"] == pytest.approx(11000)
 
 
+def test_a_us_supervisor_hears_the_motor_refusal_in_hp_cfm_and_in_wc(scenario, login, big_unit):
+    scenario.supervisor.unit_system = "us"
+    scenario.supervisor.save(update_fields=["unit_system"])
+    client = login(scenario.supervisor)
+    us_fan = {**FAN, "spec_motor_power_w": "3", "spec_design_flow_m3s": "13773", "spec_design_pressure_pa": "3.61"}
+    r = client.post(reverse("frontend:registry_component_new", args=[big_unit.pk]), us_fan)
+    assert r.status_code == 400
+    errors = _field_errors(r, "spec-motor_power_w")
+    assert "Motor rated power: 3.00 hp is below the fan's air power of 7.84 hp" in errors, errors
+    assert "13773 cfm" in errors
+
+
 def test_an_emptied_place_in_the_airstream_is_refused_not_kept(scenario, login):
     from tests.frontend.test_registry_pages import _edit_post
 
