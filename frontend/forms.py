@@ -12,6 +12,7 @@ from django import forms
 from django.core.exceptions import ValidationError
 
 from accounts.inputs import INT32_MAX, FieldErrors, check_integer, day_refusal, parse_day
+from scheduling.selectors import WARNING_CODES
 from scheduling.services.work_orders import no_technician
 
 
@@ -25,7 +26,17 @@ class AssignForm(forms.Form):
     assignee = forms.Field(required=False)
     scheduled_for = forms.Field(required=False)
     version = forms.Field(required=False)
-    confirm_over_capacity = forms.BooleanField(required=False)
+    confirm_warnings = forms.BooleanField(required=False)  # "Assign anyway" on the warnings page
+    confirm_over_capacity = forms.BooleanField(required=False)  # its older name, still read
+
+    @property
+    def seen(self) -> set[str]:
+        """The warnings already read, by code, sent by "Assign to ... instead" (unknown codes are ignored)."""
+        return {code for code in self.data.getlist("seen_warnings") if code in WARNING_CODES}
+
+    @property
+    def confirmed(self) -> bool:
+        return bool(self.cleaned_data.get("confirm_warnings") or self.cleaned_data.get("confirm_over_capacity"))
 
     def __init__(self, data, *, technicians) -> None:
         super().__init__(data)

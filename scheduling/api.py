@@ -26,7 +26,7 @@ from inventory.selectors import ahus_visible_to, sites_visible_to
 from inventory.today import today_for
 
 from . import serializers as s
-from .api_answers import board_answer, over_capacity_answer, revalidated, work_order_answer
+from .api_answers import assignment_warnings_answer, board_answer, revalidated, work_order_answer
 from .api_requests import (
     BOARD,
     CONDITIONAL,
@@ -49,7 +49,7 @@ from .selectors import (
     work_orders_visible_to,
 )
 from .services import (
-    OverCapacity,
+    AssignmentWarnings,
     WorkOrderConflict,
     calendar_feed_issue,
     corrective_work_order_approve,
@@ -106,12 +106,15 @@ class WorkOrderDetail(APIView):
 class WorkOrderAssign(WorkOrderChangeView):
     @extend_schema(
         request=s.AssignInput,
-        responses={200: s.WorkOrderOutput, 409: s.OverCapacityOutput, **ERRORS},
+        responses={200: s.WorkOrderOutput, 409: s.AssignmentWarningOutput, **ERRORS},
         summary="Assign or reassign to a technician",
         description=(
-            "A stale version is a 409 with current_version. So is an assignment that would take the technician's "
-            "day (tasks plus travel between the day's sites) past their capacity, unless confirm_over_capacity is "
-            "true: nothing is saved, and the answer names the day's hours and the least-loaded qualified technician."
+            "A stale version is a 409 with current_version. So, unless confirm_warnings is true, is an assignment "
+            "that warns: the technician's day (tasks plus travel between the day's sites) past their capacity, a "
+            "skill the work's tasks need that the technician lacks, or a day after the work's due date (urgent "
+            "work late, or work that will show overdue). Nothing is saved; the answer says each warning (naming "
+            "the technician, the skill, the day and the due date), the day's hours and the least-loaded qualified "
+            "technician. Send the same request with confirm_warnings: true to assign anyway."
         ),
     )
     def post(self, request, public_id):
@@ -129,10 +132,10 @@ class WorkOrderAssign(WorkOrderChangeView):
                 expected_version=data.validated_data["version"],
                 plan="scheduled_for" in data.validated_data,
                 day=data.validated_data.get("scheduled_for"),
-                confirm_over_capacity=data.validated_data.get("confirm_over_capacity", False),
+                confirm=data.validated_data["confirm_warnings"] or data.validated_data["confirm_over_capacity"],
             )
-        except OverCapacity as warning:
-            return over_capacity_answer(warning.check)
+        except AssignmentWarnings as warning:
+            return assignment_warnings_answer(warning.check)
         return work_order_answer(request, public_id)
 
 

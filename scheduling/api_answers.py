@@ -1,6 +1,6 @@
 """What the scheduling API's views answer beyond a serializer: the work order as it now stands (every work-order
-route's answer), the board's answer, the 409 that warns before a technician's day passes their capacity, and the
-polled reads' caching headers."""
+route's answer), the board's answer, the 409 that warns before an assignment is saved (capacity, skills, due
+date), and the polled reads' caching headers."""
 
 from __future__ import annotations
 
@@ -21,17 +21,20 @@ def work_order_answer(request, public_id) -> Response:
     return Response(s.WorkOrderOutput(work_order_seen(request, public_id)).data)
 
 
-def over_capacity_answer(check) -> Response:
-    """The 409 that warns before a technician's day passes their capacity (tasks plus travel), as the board page
-    does (``work_order_assign_and_plan`` decides when)."""
+def assignment_warnings_answer(check) -> Response:
+    """The 409 that warns before an assignment passes the technician's capacity (tasks plus travel), gives the
+    work to someone without a skill it needs, or plans it after its due date, as the board page does
+    (``work_order_assign_and_plan`` decides when)."""
     suggestion = None
     if check.suggestion is not None:
         user, load = check.suggestion
         suggestion = {"id": user.pk, "username": user.username, "name": str(user), "load": load.as_dict()}
-    message = f"{check.message()} {check.suggestion_words()}"
+    said = check.warnings()
+    message = f"{' '.join(said)} {check.suggestion_words()}"
     body = {
         "detail": message,
-        "errors": {"confirm_over_capacity": [f"{message} Send confirm_over_capacity: true to assign anyway."]},
+        "errors": {"confirm_warnings": [f"{message} Send confirm_warnings: true to assign anyway."]},
+        "warnings": [{"code": code, "message": text} for code, text in zip(check.codes(), said, strict=True)],
         "load": s.DayLoadOutput(check.load.as_dict()).data,
         "suggestion": suggestion,
     }

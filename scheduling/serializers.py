@@ -175,13 +175,20 @@ class AssignInput(VersionInput):
         allow_null=True,
         help_text="Optionally plan the visit for this day too (the site's local date, today or later).",
     )
-    confirm_over_capacity = serializers.BooleanField(
+    confirm_warnings = serializers.BooleanField(
         required=False,
         default=False,
         help_text=(
-            "Assign even though the technician's day (tasks plus travel) would pass their capacity; without it "
-            "such an assignment answers 409 with the warning and the least-loaded qualified technician."
+            "Assign even though the assignment warns: the technician's day (tasks plus travel) would pass their "
+            "capacity, the technician lacks a skill the work's tasks need, or the day is after the work's due date "
+            "(urgent work, or work that would show overdue). Without it such an assignment answers 409 with the "
+            "warnings and nothing is saved."
         ),
+    )
+    confirm_over_capacity = serializers.BooleanField(
+        required=False,
+        default=False,
+        help_text="The older name of confirm_warnings: true confirms every warning, as confirm_warnings does.",
     )
 
 
@@ -218,10 +225,18 @@ class SuggestedOutput(PersonRefOutput):
     load = DayLoadOutput(help_text="Their day with this work added: tasks plus travel against capacity.")
 
 
-class OverCapacityOutput(ErrorOutput):
-    """A refusal whose `detail` names the technician, the day, the hours and the capacity, and whose `errors` say
-    under `confirm_over_capacity` what to send to assign anyway; with the day's load and a suggestion."""
+class AssignmentWarningOutput(ErrorOutput):
+    """A refusal whose `detail` says each warning (the technician and the day's hours against their capacity, the
+    skills they lack, the day against the due date), and whose `errors` say under `confirm_warnings` what to send
+    to assign anyway; with each warning by code, the day's load and a suggestion."""
 
+    warnings = serializers.ListField(
+        child=serializers.DictField(child=serializers.CharField()),
+        help_text=(
+            "Each warning as {code, message}: code over_capacity, missing_skill or after_due_date; the message "
+            "names the technician, the skill, the day and the due date."
+        ),
+    )
     load = DayLoadOutput(help_text="The technician's day with this work added.")
     suggestion = SuggestedOutput(allow_null=True, help_text="The least-loaded technician with the skills.")
 

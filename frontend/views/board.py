@@ -30,12 +30,13 @@ from scheduling.selectors import (
     work_order_for,
     work_orders_to_verify,
 )
-from scheduling.services.assignment import OverCapacity, work_order_assign_and_plan
+from scheduling.services.assignment import AssignmentWarnings, work_order_assign_and_plan
 from scheduling.services.work_orders import WorkOrderConflict, work_order_plan_words
 
 from ..forms import AssignForm
 from .staff import changed_meanwhile, managed_organisation, organisation_technicians
 
+REFUSAL_KEY = "board_refusal"  # the session's refused day of one row, said beside its Day field once
 SKILL_WORDS = {str(v): str(label).lower() for v, label in TaskDefinition.Skill.choices}
 
 
@@ -92,12 +93,14 @@ def board(request):
     data, rows = _board_sections(org=org, week=week, today=today, show_all=request.GET.get("all", ""))
     board_suggestions(organisation=org, rows=rows)  # the least-loaded technician with the skills for its day
     facts, needed, skills = _row_facts(rows)
-    # "Back to change it" from the over-capacity page, or a day the board could not read: that row's form keeps
-    # the technician and the day as typed, with the refusal beside the day (never another day in its place).
+    # "Back to change it" from the warnings page, or a day refused (unreadable, past, outside the plan window):
+    # that row's form keeps the technician and the day as typed, with the refusal beside the day, said there
+    # only (never another day in its place).
     changing = request.GET.get("change", "")[:36]
     kept_assignee = request.GET.get("assignee", "")[:18]
     kept_text = request.GET.get("day", "")[:40]
     kept_day = parse_day(kept_text)
+    refusal = request.session.pop(REFUSAL_KEY, None) or {}
     zone_today: dict[str, dt.date] = {}
     for r in rows:
         # The day offered for the visit: its plan, else its due date, never a day already past where the
@@ -117,8 +120,11 @@ def board(request):
         kept = None
         if changing and str(r["id"]) == changing:
             r["plan_default"] = kept_day or r["plan_default"]
-            if kept_text.strip() and kept_day is None:
-                r["plan_text"], r["plan_refusal"] = kept_text, f"{day_refusal(kept_text, label='Day')}."
+            said = refusal.get("text", "") if refusal.get("row") == changing else ""
+            if not said and kept_text.strip() and kept_day is None:
+                said = f"{day_refusal(kept_text, label='Day')}."
+            if said:
+                r["plan_text"], r["plan_refusal"] = kept_text, said
             kept = int(kept_assignee) if kept_assignee.isdigit() else None
         assignee_id = r["assignee"]["id"] if r["assignee"] else None
         r["selected_pk"] = kept or assignee_id or (r["suggested"]["id"] if r["suggested"] else None)
@@ -169,22 +175,66 @@ def board(request):
     )
 
 
+def _refused_at_row(request, wo, back: str, text: str):
+    """Back to the row with the technician and the day as they were typed, the refusal said once, beside the
+    day; the top of the page only points to it. Nothing is saved."""
+    request.session[REFUSAL_KEY] = {"row": str(wo.public_id), "text": text}
+    messages.error(request, f"{wo.ahu.display_name} — {wo.title}: not saved; the day is refused beside it.")
+    kept = {"change": str(wo.public_id), "assignee": request.POST.get("assignee", "")[:18]}
+    kept["day"] = request.POST.get("scheduled_for", "")[:40]
+    return redirect(f"{back}&{urlencode(kept)}#row-{wo.public_id}")
+
+
+def _warned(request, wo, form, check, back: str):
+    """The warnings page: each warning (capacity, skill, due date), "Assign anyway" and the way back; nothing is
+    saved yet."""
+    raw_day = request.POST.get("scheduled_for", "").strip()
+    return render(
+        request,
+        "frontend/supervisor/board_confirm.html",
+        {
+            "wo": wo,
+            "check": check,
+            "warnings": check.warnings(),
+            "week": request.POST.get("week", ""),
+            "raw_day": raw_day if form.plan else None,
+            "back": back,
+            "change": back
+            + "&"
+            + urlencode({"change": str(wo.public_id), "assignee": check.technician.pk, "day": raw_day})
+            + f"#row-{wo.public_id}",
+        },
+    )
+
+
+def _saved_words(wo, technician, day, check) -> str:
+    planned = f" {work_order_plan_words(work_order=wo, today=today_for(wo.ahu.building.site))}" if day else ""
+    words = f"{wo.ahu.display_name} — {wo.title} assigned to {technician}{planned}"
+    if check is not None and check.over:
+        words += (
+            f", over capacity: {check.load.hours:.1f} h of {check.load.capacity_hours:.1f} h on {check.day_words()}"
+        )
+    if check is not None and check.missing_skills:
+        words += f", without the skill {', '.join(check.skill_words())}"
+    return words + "."
+
+
 @login_required
 @require_POST
 def assign(request, public_id):
     """The board's row form: a technician and the day the visit is planned for, saved together or not at all
-    (``work_order_assign_and_plan``, as the API's assign route)."""
+    (``work_order_assign_and_plan``, as the API's assign route). An assignment that warns (over capacity, a skill
+    missing, after the due date) shows the warnings first; a refused day goes back to its row, said beside it."""
     wo = work_order_for(user=request.user, public_id=public_id, write=True)
     form = AssignForm(request.POST, technicians=organisation_technicians(wo.organisation))
     back = reverse("frontend:board") + "?" + urlencode({"week": request.POST.get("week", "")})
     if not form.is_valid():
-        for text in (t for texts in form.errors.values() for t in texts):
-            messages.error(request, text)
+        for key, texts in form.errors.items():
+            if key != "scheduled_for":
+                for text in texts:
+                    messages.error(request, text)
         if "scheduled_for" in form.errors:
-            # Back to the row with the day as typed, refused beside it; nothing is saved.
-            kept = {"change": str(wo.public_id), "assignee": request.POST.get("assignee", "")[:18]}
-            kept["day"] = request.POST.get("scheduled_for", "")[:40]
-            return redirect(f"{back}&{urlencode(kept)}#row-{wo.public_id}")
+            return _refused_at_row(request, wo, back, " ".join(form.errors["scheduled_for"]))
         return redirect(back)
     technician, day, version = (form.cleaned_data[k] for k in ("assignee", "scheduled_for", "version"))
     try:
@@ -197,38 +247,20 @@ def assign(request, public_id):
             expected_version=version,
             plan=form.plan,
             day=day,
-            confirm_over_capacity=form.cleaned_data["confirm_over_capacity"],
+            confirm=form.confirmed,
+            seen=form.seen,
         )
-    except OverCapacity as warning:
-        # Nothing is saved: the supervisor sees the day it would make and chooses.
-        raw_day = request.POST.get("scheduled_for", "").strip()
-        return render(
-            request,
-            "frontend/supervisor/board_confirm.html",
-            {
-                "wo": wo,
-                "check": warning.check,
-                "week": request.POST.get("week", ""),
-                "raw_day": raw_day if form.plan else None,
-                "back": back,
-                "change": back
-                + "&"
-                + urlencode({"change": str(wo.public_id), "assignee": technician.pk, "day": raw_day})
-                + f"#row-{wo.public_id}",
-            },
-        )
+    except AssignmentWarnings as warning:
+        return _warned(request, wo, form, warning.check, back)
     except ValidationError as exc:
+        said = exc.message_dict if hasattr(exc, "error_dict") else {}
+        if "scheduled_for" in said:
+            return _refused_at_row(request, wo, back, " ".join(said["scheduled_for"]))
         messages.error(request, f"{wo.ahu.display_name} — {wo.title}: {' '.join(exc.messages)}")
     except WorkOrderConflict:
         messages.error(request, changed_meanwhile(wo))
     else:
-        planned = f" {work_order_plan_words(work_order=wo, today=today_for(wo.ahu.building.site))}" if day else ""
-        over = ""
-        if check is not None and check.over:
-            over = (
-                f", over capacity: {check.load.hours:.1f} h of {check.load.capacity_hours:.1f} h on {check.day_words()}"
-            )
-        messages.success(request, f"{wo.ahu.display_name} — {wo.title} assigned to {technician}{planned}{over}.")
+        messages.success(request, _saved_words(wo, technician, day, check))
         site_today = today_for(wo.ahu.building.site)
         weekend = weekend_plan_words(day=day, due_date=wo.due_date, today=site_today, priority=wo.priority)
         if weekend:

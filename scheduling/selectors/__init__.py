@@ -10,7 +10,7 @@ with them.
 
 from __future__ import annotations
 
-from .assignment import AssignmentCheck, assignment_check, offered_day, weekend_plan_words
+from .assignment import WARNING_CODES, AssignmentCheck, assignment_check, offered_day, weekend_plan_words
 from .board import (
     BOARD_LIMIT_MAX,
     BOARD_SECTIONS,
@@ -49,6 +49,7 @@ __all__ = [
     "BOARD_SECTIONS",
     "LOADED_STATES",
     "TO_VERIFY_FIELDS",
+    "WARNING_CODES",
     "WEEKEND",
     "AssignmentCheck",
     "DayLoad",

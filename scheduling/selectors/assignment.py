@@ -7,9 +7,10 @@ from __future__ import annotations
 import datetime as dt
 from dataclasses import dataclass
 
+from accounts.clock import day_text
 from inventory.today import today_for
 
-from ..models import WorkOrder
+from ..models import TaskDefinition, WorkOrder
 from .load import (
     WEEKEND,
     DayLoad,
@@ -19,6 +20,8 @@ from .load import (
     technician_day_loads,
     weekday_on_or_near,
 )
+
+WARNING_CODES = ("over_capacity", "missing_skill", "after_due_date")  # in the order of AssignmentCheck.warnings
 
 
 @dataclass(frozen=True)
@@ -31,14 +34,68 @@ class AssignmentCheck:
     missing_skills: tuple[str, ...]
     suggestion: tuple | None  # (user, DayLoad with the work added) of the least-loaded qualified technician
     today: dt.date
+    due_date: dt.date | None = None
+    overdue_from: dt.date | None = None  # the first day the work counts as overdue (WorkOrder.overdue_from)
+    priority: str = WorkOrder.Priority.NORMAL
 
     @property
     def over(self) -> bool:
         return self.load.over
 
-    def day_words(self) -> str:
-        from accounts.clock import day_text
+    @property
+    def late(self) -> bool:
+        """Planned after its due date, where a day no later was still to be had (overdue work planned for today,
+        the soonest day there is, is not late)."""
+        return self.due_date is not None and self.day > max(self.due_date, self.today)
 
+    @property
+    def needs_confirm(self) -> bool:
+        """Something to read before the assignment is saved: over capacity, a skill missing, or planned late."""
+        return self.over or bool(self.missing_skills) or self.late
+
+    def codes(self) -> list[str]:
+        """The code of each warning, in the order of :meth:`warnings` (the API's 409 lists them so)."""
+        on = (self.over, bool(self.missing_skills), self.late)
+        return [code for code, warns in zip(WARNING_CODES, on, strict=True) if warns]
+
+    def said_of_suggestion(self) -> list[str]:
+        """The codes of the warnings already said of the suggested technician with this check: the day after the
+        due date (whoever does the work) and their day over capacity (:meth:`suggestion_words`). Never a missing
+        skill: the suggestion has every skill the work needs. Choosing them instead carries these as read."""
+        if self.suggestion is None:
+            return []
+        on = {"over_capacity": self.suggestion[1].over, "after_due_date": self.late}
+        return [code for code in WARNING_CODES if on.get(code)]
+
+    def skill_words(self) -> list[str]:
+        names = {str(v): str(label).lower() for v, label in TaskDefinition.Skill.choices}
+        return [names.get(s, s) for s in self.missing_skills]
+
+    def late_words(self) -> str:
+        """ "Urgent work due 5 Dec would be planned for Sun 6 Dec, after its due date: ..." """
+        due = day_text(self.due_date, today=self.today) if self.due_date else ""
+        words = f"{WorkOrder.Priority(self.priority).label} work due {due} would be planned for {self.day_words()}, "
+        words += "after its due date"
+        if self.priority == WorkOrder.Priority.URGENT:
+            return words + ": urgent work is meant to be done by then."
+        if self.overdue_from is not None and self.day >= self.overdue_from:
+            return words + f"; it will show overdue from {day_text(self.overdue_from, today=self.today)}."
+        return words + "; it will show past due."
+
+    def warnings(self) -> list[str]:
+        """Each thing to confirm, in words naming the technician, the skill, the day and the due date."""
+        out = [self.message()] if self.over else []
+        if self.missing_skills:
+            skills = self.skill_words()
+            out.append(
+                f"{self.technician} lacks the skill{'s' if len(skills) > 1 else ''} this work needs: "
+                f"{', '.join(skills)}."
+            )
+        if self.late:
+            out.append(self.late_words())
+        return out
+
+    def day_words(self) -> str:
         return f"{self.day:%a} {day_text(self.day, today=self.today)}"
 
     def load_words(self, load: DayLoad | None = None) -> str:
@@ -75,8 +132,9 @@ class AssignmentCheck:
 
 def assignment_check(*, work_order: WorkOrder, technician, day: dt.date) -> AssignmentCheck:
     """The day ``technician`` would have if given ``work_order`` on ``day`` (tasks plus travel, against their
-    capacity), the skills they lack, and the least-loaded technician who has every skill the work needs
-    (smallest share of their capacity with the work added; ties by name). Reads only; nothing is saved."""
+    capacity), the skills they lack, whether the day is after the due date, and the least-loaded technician who
+    has every skill the work needs (smallest share of their capacity with the work added; ties by name). Reads
+    only; nothing is saved."""
     loads = technician_day_loads(
         organisation=work_order.organisation, start=day, days=1, adding=work_order, adding_day=day
     )
@@ -92,6 +150,9 @@ def assignment_check(*, work_order: WorkOrder, technician, day: dt.date) -> Assi
         missing_skills=tuple(sorted(needed - set(technician.skills or []))),
         suggestion=suggestion,
         today=today_for(work_order.ahu.building.site),
+        due_date=work_order.due_date,
+        overdue_from=work_order.overdue_from,
+        priority=work_order.priority,
     )
 
 

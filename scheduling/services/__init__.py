@@ -1,6 +1,6 @@
 """Writes of the scheduling app. Import from here: ``from scheduling.services import work_order_assign``."""
 
-from .assignment import OverCapacity, work_order_assign_and_plan
+from .assignment import AssignmentWarnings, work_order_assign_and_plan
 from .calendar_feeds import calendar_feed_issue, calendar_feed_revoke, calendar_feeds_revoke_for_password
 from .corrective import corrective_work_order_approve, corrective_work_order_propose, corrective_work_order_reject
 from .escalation import overdue_escalation_send
@@ -29,7 +29,7 @@ from .work_orders import (
 )
 
 __all__ = [
-    "OverCapacity",
+    "AssignmentWarnings",
     "WorkOrderConflict",
     "WorkOrderTransitionError",
     "calendar_feed_issue",

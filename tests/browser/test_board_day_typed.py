@@ -49,6 +49,10 @@ def test_a_typed_day_is_saved_as_typed_or_refused_beside_the_field(browser, live
         expect(refusal).to_contain_text("YYYY-MM-DD or DD.MM.YYYY")
         expect(row.locator("input[name=scheduled_for]")).to_have_value("06/03/2025")
         expect(row.locator("input[name=scheduled_for]")).to_have_attribute("aria-invalid", "true")
+        # The technician chosen is kept too, and the refusal is said once: the top only points to the row.
+        expect(row.locator("select[name=assignee]")).to_have_value(str(board.omar.pk))
+        expect(page.locator(".messages")).to_contain_text("not saved; the day is refused beside it")
+        expect(page.locator(".messages")).not_to_contain_text("is not a date")
         no_sideways_scroll(page, size)
         visit.refresh_from_db()
         assert visit.assignee_id is None and visit.scheduled_for is None and visit.version == 1, "saved"

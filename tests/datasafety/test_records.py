@@ -7,7 +7,7 @@ from django.core.exceptions import ValidationError
 from accounts.models import AuditEvent, Role
 from inspections.models import Inspection
 from inspections.services import flagged_form_resolve, inspection_amend, inspection_edit
-from scheduling.models import WorkOrder
+from scheduling.models import TaskDefinition, WorkOrder
 from tests.factories.accounts import make_person
 from tests.factories.inspections import component, make_visit, r
 from tests.tenancy.world import filter_form
@@ -25,7 +25,8 @@ def events(obj) -> list[str]:
 def visit(db):
     wo, tech = make_visit(tasks=["filter_check"])
     supervisor = make_person(organisation=wo.organisation, role=Role.SUPERVISOR)
-    other = make_person(organisation=wo.organisation, role=Role.TECHNICIAN)
+    # Has every skill: the assignments here are saved at once (no missing-skill warning to confirm).
+    other = make_person(organisation=wo.organisation, role=Role.TECHNICIAN, skills=TaskDefinition.Skill.values)
     return wo, tech, supervisor, other
 
 
@@ -38,7 +39,9 @@ def test_every_step_of_a_visit_is_in_the_audit_trail(api_client, visit):
     res = api_client.post(f"{base}/assign/", {"assignee": other.username, "version": wo.version}, format="json")
     assert res.status_code == 200, res.content
     v = res.json()["version"]
-    res = api_client.post(f"{base}/assign/", {"assignee": tech.username, "version": v}, format="json")
+    # Ana has no skills recorded: the reassignment is confirmed past its missing-skill warning.
+    body = {"assignee": tech.username, "version": v, "confirm_warnings": True}
+    res = api_client.post(f"{base}/assign/", body, format="json")
     v = res.json()["version"]
     api_client.force_authenticate(tech)
     res = api_client.post(f"{base}/transition/", {"to_state": "in_progress", "version": v}, format="json")

@@ -8,7 +8,8 @@ import time_machine
 from django.contrib.messages import get_messages
 from django.urls import reverse
 
-from scheduling.models import WorkOrder
+from accounts.models import User
+from scheduling.models import TaskDefinition, WorkOrder
 from tests.factories.scheduling import add_task
 
 from . import scenario as scenario_module
@@ -21,7 +22,11 @@ WEDNESDAY = dt.date(2025, 3, 5)
 @pytest.fixture
 def scenario(db):
     with time_machine.travel(dt.datetime(2025, 3, 5, 10, tzinfo=dt.UTC), tick=False):
-        yield scenario_module.build()
+        world = scenario_module.build()
+        # Tess has every skill: these assignments are saved at once, no missing-skill warning to confirm.
+        User.objects.filter(pk=world.technician.pk).update(skills=TaskDefinition.Skill.values)
+        world.technician.refresh_from_db()
+        yield world
 
 
 @pytest.fixture
@@ -64,14 +69,16 @@ def test_assigning_with_a_day_plans_it_and_the_load_follows(scenario, visit, log
 
 
 def test_a_past_day_is_refused_and_nothing_is_saved(scenario, visit, login):
-    """A day before today is refused with a message naming the field and the day; the work stays unassigned."""
+    """A day before today is refused beside the row's Day, naming the day; the work stays unassigned."""
     client = login(scenario.supervisor)
     response = client.post(
         reverse("frontend:assign", kwargs={"public_id": visit.public_id}),
         {"assignee": scenario.technician.pk, "version": visit.version, "scheduled_for": "2025-03-04"},
+        follow=True,
     )
-    text = " ".join(str(m) for m in get_messages(response.wsgi_request))
-    assert "scheduled day 2025-03-04" in text and "scheduled_for" not in text
+    row = response.content.decode().split(f'id="row-{visit.public_id}"')[1].split("</tr>")[0]
+    text = row.split("data-day-refusal>")[1].split("</p>")[0]
+    assert "2025-03-04" in text and "scheduled_for" not in text
     wo = WorkOrder.objects.get(pk=visit.pk)
     assert (wo.state, wo.assignee_id, wo.scheduled_for) == ("planned", None, None)
 
@@ -165,10 +172,11 @@ def test_a_day_planned_years_ahead_names_its_year_and_that_it_is_after_the_overd
     WorkOrder.objects.filter(pk=visit.pk).update(overdue_on=dt.date(2025, 3, 9))
     client = login(scenario.supervisor)
     with time_machine.travel(dt.datetime(2025, 3, 5, 10, tzinfo=dt.UTC), tick=False):
-        response = client.post(
-            reverse("frontend:assign", kwargs={"public_id": visit.public_id}),
-            {"assignee": scenario.technician.pk, "version": visit.version, "scheduled_for": "2034-12-01"},
-        )
+        url = reverse("frontend:assign", kwargs={"public_id": visit.public_id})
+        form = {"assignee": scenario.technician.pk, "version": visit.version, "scheduled_for": "2034-12-01"}
+        warned = client.post(url, form)  # after its due date: warned first, saved once confirmed
+        assert "it will show overdue from 9 Mar" in " ".join(warned.context["warnings"])
+        response = client.post(url, {**form, "confirm_warnings": "1"})
         said = [str(m) for m in get_messages(response.wsgi_request)]
         assert any("for 1 Dec 2034, after its overdue date 9 Mar 2025" in m for m in said), said
         visit.refresh_from_db()
@@ -291,7 +299,8 @@ def test_the_day_offered_for_weekend_work_already_past_its_friday_is_the_monday_
 def test_a_past_day_for_a_full_day_is_refused_at_once_in_one_date_format(scenario, visit, login, api_client):
     """A past day typed for a technician whose day is full is refused straight away, in the words every plan
     refusal uses (days in ISO: "allowed: 2025-03-05 or later"), never first an over-capacity page naming the day
-    in another form ("Tue 4 Mar") for a plan that is then refused; the API answers the same 400, not a 409."""
+    in another form ("Tue 4 Mar") for a plan that is then refused: said beside the row's Day (the top message only
+    points to it); the API answers the same 400, not a 409."""
     scenario.technician.daily_capacity_hours = 0.25
     scenario.technician.save(update_fields=["daily_capacity_hours"])
     client = login(scenario.supervisor)
@@ -300,7 +309,10 @@ def test_a_past_day_for_a_full_day_is_refused_at_once_in_one_date_format(scenari
         {"assignee": scenario.technician.pk, "version": visit.version, "scheduled_for": "04.03.2025"},
     )
     assert response.status_code == 302, "no over-capacity page for a day that is refused"
-    (text,) = [str(m) for m in get_messages(response.wsgi_request)]
+    (top,) = [str(m) for m in get_messages(response.wsgi_request)]
+    assert "over capacity" not in top and "refused beside it" in top
+    row = client.get(response.url).content.decode().split(f'id="row-{visit.public_id}"')[1].split("</tr>")[0]
+    text = row.split("data-day-refusal>")[1].split("</p>")[0]
     assert text.endswith("scheduled day 2025-03-04 is in the past at Harbour House; allowed: 2025-03-05 or later")
     assert not re.search(r"\d{1,2} (Jan|Feb|Mar|Apr|May|Jun|Jul|Aug|Sep|Oct|Nov|Dec)\b", text), text
     api_client.force_authenticate(scenario.supervisor)

@@ -74,6 +74,9 @@ def test_a_weekend_day_typed_for_work_the_board_would_not_offer_it_is_kept_with_
 
     clock.move_to(SATURDAY)
     scenario = scenario_module.build()
+    # Every skill: the plans are saved at once, no missing-skill warning to confirm first.
+    scenario.technician.skills = TaskDefinition.Skill.values
+    scenario.technician.save(update_fields=["skills"])
     normal = make_work(ahu=scenario.unit_a, title="Filter check", due=dt.date(2026, 12, 7))
     urgent = make_work(ahu=scenario.unit_a, title="Frost thermostat check", due=dt.date(2026, 12, 4))
     WorkOrder.objects.filter(pk=urgent.pk).update(priority=WorkOrder.Priority.URGENT)

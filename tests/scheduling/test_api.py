@@ -8,11 +8,13 @@ from django.test.utils import CaptureQueriesContext
 from icalendar import Calendar
 
 from scheduling.engine import work_orders_generate
-from scheduling.models import WorkOrder
+from scheduling.models import TaskDefinition, WorkOrder
 from scheduling.services import calendar_feed_issue, calendar_feed_revoke, work_order_assign
 from tests.conftest import TEST_NOW
 from tests.factories.inventory import make_full_unit
 from tests.factories.scheduling import make_supervisor, make_technician
+
+SKILLS = TaskDefinition.Skill.values  # the technician has every skill: no missing-skill warning to confirm
 
 pytestmark = pytest.mark.django_db
 TODAY = dt.date(2025, 3, 3)
@@ -25,7 +27,13 @@ def world(library):
     work_orders_generate(organisation=org, today=TODAY)
     other = make_full_unit(service_start=dt.date(2024, 1, 15))
     work_orders_generate(organisation=other.building.site.organisation, today=TODAY)
-    return {"ahu": ahu, "org": org, "sup": make_supervisor(org), "tech": make_technician(org), "other": other}
+    return {
+        "ahu": ahu,
+        "org": org,
+        "sup": make_supervisor(org),
+        "tech": make_technician(org, skills=SKILLS),
+        "other": other,
+    }
 
 
 def test_work_orders_of_another_organisation_are_invisible(api_client, world):

@@ -37,7 +37,7 @@ def test_a_nested_refusal_reads_plainly(api_client):
 
 # The shapes a documented refusal may have: the one error shape, one built on it, a refused file's rows, a refused
 # Brick model's problems, and a stale version's 409 (the current version instead of field errors).
-ERROR_SHAPES = {"ErrorOutput", "OverCapacityOutput", "RowErrorsOutput", "BrickProblemsOutput", "ConflictOutput"}
+ERROR_SHAPES = {"ErrorOutput", "AssignmentWarningOutput", "RowErrorsOutput", "BrickProblemsOutput", "ConflictOutput"}
 
 
 def _schema() -> dict[str, Any]:
@@ -72,4 +72,4 @@ def test_every_documented_refusal_uses_one_of_the_shared_error_shapes() -> None:
         if component.get("properties", {}).get("detail")
         and component["properties"].get("errors", {}).get("type") == "object"
     }
-    assert copies == {"ErrorOutput", "OverCapacityOutput"}
+    assert copies == {"ErrorOutput", "AssignmentWarningOutput"}

@@ -419,7 +419,9 @@ WRITES: dict[tuple[str, str], Write] = {
     ),
     # Planning and approving work: supervisors and admins.
     ("scheduling_api:work-order-assign", "post"): Write(
-        MANAGERS, lambda w, c: _wo(c, assignee=_other_technician(w, c))
+        # Confirmed past any warning (skills, capacity, due date): the probe asks who may write, not what warns.
+        MANAGERS,
+        lambda w, c: _wo(c, assignee=_other_technician(w, c), confirm_warnings=True),
     ),
     ("scheduling_api:work-order-schedule", "post"): Write(
         MANAGERS, lambda w, c: _wo(c, scheduled_for=(timezone.localdate() + dt.timedelta(days=3)).isoformat())
@@ -437,7 +439,11 @@ WRITES: dict[tuple[str, str], Write] = {
     ("frontend:assign", "post"): Write(
         MANAGERS,
         lambda w, c: (
-            lambda call: Call(call.params, {"assignee": str(w.b.technician.pk), **call.body, "week": ""}, "form")
+            lambda call: Call(
+                call.params,
+                {"assignee": str(w.b.technician.pk), **call.body, "week": "", "confirm_warnings": "1"},
+                "form",
+            )
         )(_wo(c)),
     ),
     ("frontend:corrective", "post"): Write(
