@@ -25,6 +25,7 @@ from .visit_words import (
     number_shown,
     reading_value,
     reading_verdict,
+    reading_verdict_code,
     reason_as_of,
     row_reason,
     run_hours_words,
@@ -93,7 +94,7 @@ def visit_records(
         groups: dict[str, list] = {}
         # A check of several readings (a coil's heat balance) judges none of them (its own row, ``visit_parts``).
         judged = {(e.item_key, e.component_id) for e in insp.evaluations.all() if own_judgement(e.check_name)}
-        meter_words = run_hours_words(insp, ahu=work_order.ahu, zone=zone)  # as the phone said it, at the finish
+        meter = run_hours_words(insp, ahu=work_order.ahu, zone=zone)  # as the phone said it, at the finish
         for r in insp.readings.all():
             if r.component_id:
                 components[r.component_id] = r.component
@@ -103,12 +104,10 @@ def visit_records(
                     "component": r.component,
                     "value": reading_value(r, system),
                     "verdict": (
-                        said := reading_verdict(
-                            r, judged=(r.item.api_key, r.component_id) in judged, meter_words=meter_words
-                        )
+                        said := reading_verdict(r, judged=(r.item.api_key, r.component_id) in judged, meter=meter)
                     )[0],
                     "unjudged": said[1],
-                    "verdict_code": r.verdict,
+                    "verdict_code": reading_verdict_code(r, meter=meter),
                     # The row names the part: its reason does not begin with it again.
                     # …and a reason that only repeats the row ("confirmed: <item>", "<item>: Clean") is not shown.
                     "reason": row_reason(r, system, visit_day),
@@ -134,7 +133,7 @@ def visit_records(
             }
             for e in insp.evaluations.all()
         ]
-        parts, methods = visit_parts(insp, evaluations, system, meter_words=meter_words)
+        parts, methods = visit_parts(insp, evaluations, system, meter=meter)
         visits.append(
             {
                 "inspection": insp,

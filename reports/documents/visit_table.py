@@ -15,7 +15,7 @@ from inspections.evaluation import own_judgement
 from inspections.models import Inspection
 from inspections.selectors import reason_for
 
-from .visit_words import reading_value, reading_verdict, says_nothing_more
+from .visit_words import MeterSaid, reading_value, reading_verdict, reading_verdict_code, says_nothing_more
 
 # The band a judgement names in its derived values, shown in the "Limit" column: (key, words, quantity).
 _LIMIT_KEYS = (
@@ -124,13 +124,13 @@ def _formula_html(method: str) -> SafeString:
 
 
 def visit_parts(
-    insp: Inspection, evaluations: list[dict], system: str, *, meter_words: str = ""
+    insp: Inspection, evaluations: list[dict], system: str, *, meter: MeterSaid = ("", "")
 ) -> tuple[list[dict], list[SafeString]]:
     """The visit's readings as one table by part: the unit's own readings first, then each part in its
     position, each reading once with its value, the band it was judged against, its verdict, and below it only
     what its judgement adds (the reason when the columns do not say it, derived values, the note). Judgements
     of no single reading follow in their part. Methods are numbered once each for the notes under the table.
-    ``meter_words``: what the meter rule checked of the run-hour value (``visit_words.run_hours_words``)."""
+    ``meter``: what the meter rule says of the run-hour value (``visit_words.run_hours_words``)."""
     by_key: dict[tuple[str, int | None], list[dict]] = {}
     for ev in evaluations:
         e = ev["e"]
@@ -171,7 +171,7 @@ def visit_parts(
         if main is not None:
             reason = main["reason"] or reason
         limit, reason = _row_limit(main["e"] if main else None, item.quantity, system, reason, item.decimals)
-        verdict, unjudged = reading_verdict(r, judged=bool(judged), meter_words=meter_words)
+        verdict, unjudged = reading_verdict(r, judged=bool(judged), meter=meter)
         shown_reason = unjudged or ("" if says_nothing_more(reason, item.label, value, r.verdict) else reason)
         already = " ".join([value, limit, reason, *(ev["e"].method for ev in judged)])
         details = [d for ev in judged for d in _details(ev["derived"], already=already, readings=values)]
@@ -181,7 +181,7 @@ def visit_parts(
                 "value": value,
                 "limit": limit,
                 "verdict": verdict,
-                "verdict_code": r.verdict,
+                "verdict_code": reading_verdict_code(r, meter=meter),
                 "reason": shown_reason,
                 "details": details,
                 "note": r.note,

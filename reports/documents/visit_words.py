@@ -22,30 +22,44 @@ CHECK_VALUES = {"ok": "OK", "not_ok": "Not OK", "na": "N/A"}
 VERDICTS = {code: words for code, words in VERDICT_WORDS.items() if code}
 
 
-def reading_verdict(reading: Reading, *, judged: bool, meter_words: str = "") -> tuple[str, str]:
+# What the meter rule says of the visit's run-hour value: (verdict code, words), ``run_hours_words``.
+MeterSaid = tuple[str, str]
+
+
+def reading_verdict(reading: Reading, *, judged: bool, meter: MeterSaid = ("", "")) -> tuple[str, str]:
     """A reading's verdict beside it on the record page and in the PDFs, as the phone says it (``judged``: a check
     judged it): (its words, what they mean), "Recorded" and "no limit applies to this reading" for a value no
-    check judged (inspections.display.reading_verdict_words), or for the run-hour value what the meter rule checked
-    of it (``meter_words``, from ``run_hours_words``). A photo, a note, an N/A or an empty answer has no value to
-    judge: ("", "")."""
+    check judged (inspections.display.reading_verdict_words), or for the run-hour value what the meter rule says of
+    it (``meter``, from ``run_hours_words``): "Recorded — plausible: …", or "Watch — below the last reading of …
+    — meter replaced or misread?". A photo, a note, an N/A or an empty answer has no value to judge: ("", "")."""
     item = reading.item
     nothing = reading.value_text == "na" or (reading.value_si is None and not reading.value_text)
     if not reading.verdict and (item.kind in (item.Kind.PHOTO, item.Kind.TEXT) or nothing):
         return "", ""
-    checked = meter_words if item.api_key == RUN_HOURS_ITEM else ""
-    return display.reading_verdict_words(reading.verdict, judged=judged, checked=checked)
+    code, words = meter if item.api_key == RUN_HOURS_ITEM and not reading.verdict else ("", "")
+    if code:
+        return display.verdict_words(code), words
+    return display.reading_verdict_words(reading.verdict, judged=judged, checked=words)
 
 
-def run_hours_words(inspection: Inspection, *, ahu: AHU, zone: dt.tzinfo) -> str:
-    """What the meter rule checked of the visit's run-hour value as of the form's finish time ("plausible: 615 h
-    since the last reading of 12000 h on …", the phone's words beside the field), "" for none
-    (``scheduling.services.meter_reading_words``). One query, only for a visit with a run-hour value."""
+def reading_verdict_code(reading: Reading, *, meter: MeterSaid = ("", "")) -> str:
+    """The verdict code a reading's row is marked with: its own, or the meter rule's for the run-hour value."""
+    if reading.verdict or reading.item.api_key != RUN_HOURS_ITEM:
+        return reading.verdict
+    return meter[0]
+
+
+def run_hours_words(inspection: Inspection, *, ahu: AHU, zone: dt.tzinfo) -> MeterSaid:
+    """What the meter rule says of the visit's run-hour value as of the form's finish time, as the phone said it
+    beside the field: ("", "plausible: 615 h since the last reading of 12000 h on …"), ("watch", "below the last
+    reading of … — meter replaced or misread?"), ("", "") for nothing (``scheduling.services.meter_reading_words``).
+    One query, only for a visit with a run-hour value."""
     hours = next(
         (r.value_si for r in inspection.readings.all() if r.item.api_key == RUN_HOURS_ITEM and not r.verdict),
         None,
     )
     if hours is None:
-        return ""
+        return "", ""
     return meter_reading_words(ahu=ahu, hours=hours, finished_at=inspection.finished_at, zone=zone)
 
 

@@ -5,7 +5,7 @@ from .calendar_feeds import calendar_feed_issue, calendar_feed_revoke, calendar_
 from .corrective import corrective_work_order_approve, corrective_work_order_propose, corrective_work_order_reject
 from .escalation import overdue_escalation_send
 from .library import task_definition_create, task_definition_override, task_library_install, unit_task_set
-from .meter_words import meter_plausible_words, meter_reading_words
+from .meter_words import meter_below_words, meter_plausible_words, meter_reading_words, meter_words
 from .meters import (
     meter_neighbours,
     meter_reading_check,
@@ -38,12 +38,14 @@ __all__ = [
     "corrective_work_order_approve",
     "corrective_work_order_propose",
     "corrective_work_order_reject",
+    "meter_below_words",
     "meter_neighbours",
     "meter_plausible_words",
     "meter_reading_check",
     "meter_reading_record",
     "meter_reading_words",
     "meter_readings_import_csv",
+    "meter_words",
     "outdoor_temperatures_import_csv",
     "outdoor_temperatures_store",
     "overdue_escalation_send",

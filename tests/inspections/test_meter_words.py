@@ -1,9 +1,10 @@
-"""The run-hour value the meter rule accepts reads alike on the phone and in the record.
+"""The run-hour value reads alike on the phone and in the record.
 
 While the technician types the unit's run-hours the phone says what the meter rule checked of it ("plausible: 615 h
-since the last reading of 12000 h on …", meter.js ``meterPlausibleText``); the record page and the PDFs said
-"Recorded — no limit applies to this reading" for that same reading. Both now say it from one rule: the server's
-``scheduling.services.meter_plausible_words``, as of the form's finish time. Seeded cases (within what the clock
+since the last reading of 12000 h on …") or, below the last reading, "Watch — below the last reading of … — meter
+replaced or misread?" (meter.js ``meterWords``); the record page and the PDFs said "Recorded — no limit applies to
+this reading" for that same reading. Both now say it from one rule: the server's
+``scheduling.services.meter_words``, as of the form's finish time. Seeded cases (within what the clock
 allows, at its edge, beyond it, below the last reading, tenths, a last reading later than the finish, none) go
 through both, the phone fed only by ``inspections.phone.meter_context``.
 """
@@ -17,7 +18,7 @@ import pytest
 
 from inspections import phone
 from scheduling.models import MeterReading
-from scheduling.services import meter_plausible_words
+from scheduling.services import meter_plausible_words, meter_words
 from tests.factories.inventory import AHUFactory
 from tests.phone_js import node_json
 
@@ -26,9 +27,14 @@ CASES = 120
 
 RUNNER = """
 import { readFileSync } from "node:fs";
-import { meterPlausibleText } from "./meter.js";
+import { meterReadingCheck, meterWords } from "./meter.js";
 const cases = JSON.parse(readFileSync(process.argv[2], "utf8"));
-console.log(JSON.stringify(cases.map((c) => meterPlausibleText(c.meter, c.hours, new Date(c.now)))));
+const said = (c) => {
+  const { verdict, text } = meterWords(c.meter, c.hours, new Date(c.now));
+  const check = meterReadingCheck(c.meter, c.hours, new Date(c.now));  // the watch the phone shows beside the field
+  return [verdict, text, check && check.verdict === "watch" ? check.message : ""];
+};
+console.log(JSON.stringify(cases.map(said)));
 """
 
 pytestmark = [pytest.mark.django_db]
@@ -64,9 +70,7 @@ def test_phone_and_record_say_the_same_words_for_a_run_hour_value(tmp_path):
         meter = phone.meter_context(ahu=ahu, as_of=now)
         cases.append({"meter": meter, "hours": hours, "now": now.isoformat()})
         last = MeterReading.objects.get(ahu=ahu)
-        server.append(
-            meter_plausible_words(hours=hours, last_hours=last.hours, last_at=last.taken_at, at=now, zone=zone)
-        )
+        server.append(meter_words(hours=hours, last_hours=last.hours, last_at=last.taken_at, at=now, zone=zone))
     # A last reading later than the finish time, and none at all: nothing checked on either side.
     later = {**cases[0]["meter"], "last": {**cases[0]["meter"]["last"], "taken_at": "2030-01-01T00:00:00+00:00"}}
     cases += [
@@ -74,20 +78,26 @@ def test_phone_and_record_say_the_same_words_for_a_run_hour_value(tmp_path):
         {"meter": {**later, "last": None}, "hours": 5.0, "now": T0.isoformat()},
     ]
     server += [
-        meter_plausible_words(
-            hours=5.0, last_hours=0.0, last_at=dt.datetime(2030, 1, 1, tzinfo=dt.UTC), at=T0, zone=zone
-        ),
-        meter_plausible_words(hours=5.0, last_hours=None, last_at=None, at=T0, zone=zone),
+        meter_words(hours=5.0, last_hours=0.0, last_at=dt.datetime(2030, 1, 1, tzinfo=dt.UTC), at=T0, zone=zone),
+        meter_words(hours=5.0, last_hours=None, last_at=None, at=T0, zone=zone),
     ]
     js = node_json(tmp_path, RUNNER, cases, timeout=120)
-    problems = [f"{c}\nserver: {s!r}\nphone:  {p!r}" for c, s, p in zip(cases, server, js, strict=True) if s != p]
+    problems = [
+        f"{c}\nserver: {s!r}\nphone:  {p!r}"
+        for c, s, p in zip(cases, server, js, strict=True)
+        if list(s) != p[:2] or p[2] != (s[1] if s[0] == "watch" else "")  # the watch beside the field: the same
+    ]
     assert not problems, "\n".join(problems[:5])
-    said = [s for s in server if s]
-    assert len(said) >= CASES // 3 and all(s.startswith("plausible: ") for s in said)
-    assert server[-2:] == ["", ""]
-    for case, words in zip(cases, server, strict=True):
-        if case["meter"]["last"] and case["hours"] < case["meter"]["last"]["hours"]:
-            assert words == ""  # below the last reading: the meter rule's watch says it, not "plausible"
+    plausible = [w for v, w in server if w and not v]
+    watched = [w for v, w in server if v]
+    assert len(plausible) >= CASES // 3 and all(w.startswith("plausible: ") for w in plausible)
+    assert len(watched) >= CASES // 8 and all(
+        w.startswith("below the last reading of ") and w.endswith(" — meter replaced or misread?") for w in watched
+    )
+    assert server[-2:] == [("", ""), ("", "")]
+    for case, (verdict, _) in zip(cases, server, strict=True):
+        below = bool(case["meter"]["last"]) and case["hours"] < case["meter"]["last"]["hours"]
+        assert (verdict == "watch") == (below and case is not cases[-2])  # later than the finish: nothing said
 
 
 def test_the_words_name_the_gain_the_last_reading_and_its_time_on_the_sites_clock():
@@ -101,3 +111,14 @@ def test_the_words_name_the_gain_the_last_reading_and_its_time_on_the_sites_cloc
         meter_plausible_words(hours=13000, last_hours=12000, last_at=at, at=at + dt.timedelta(days=30), zone="UTC")
         == ""
     )
+
+
+def test_a_value_below_the_last_reading_is_a_watch_naming_the_reading_and_its_time():
+    at = dt.datetime(2026, 12, 2, 8, 15, tzinfo=dt.UTC)
+    later = at + dt.timedelta(days=30)
+    assert meter_words(hours=11000, last_hours=12000, last_at=at, at=later, zone="Europe/Berlin") == (
+        "watch",
+        "below the last reading of 12000 h on 2 Dec 2026 09:15 CET — meter replaced or misread?",
+    )
+    # The same value before the last reading was taken: nothing to compare with.
+    assert meter_words(hours=11000, last_hours=12000, last_at=later, at=at, zone="UTC") == ("", "")

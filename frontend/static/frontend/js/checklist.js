@@ -6,7 +6,7 @@ import { formFlags } from "./formcheck.js";
 import { startFormNav } from "./formnav.js";
 import { outOfRange, plausibility } from "./limits.js";
 import { commaWords, exponentWords, parseNumber } from "./numbers.js";
-import { meterPlausibleText, meterReadingCheck } from "./meter.js";
+import { meterReadingCheck, meterWords } from "./meter.js";
 import { newUuid, outboxPut } from "./outbox.js";
 import { attachSignature } from "./signature.js";
 import { announce, currentOwner, myOutbox, myResults, syncOutbox } from "./sync.js";
@@ -173,9 +173,9 @@ function showVerdicts(form, ctx, at = new Date()) {
       if (meter.verdict === "fail") out.append(" — the server will refuse this form with this value unless the meter was replaced");
       mine.push(meter);
     }
-    const checked = key === RUN_HOURS_KEY && !meter && ctx ? meterPlausibleText(ctx.meter, value, at) : "";
+    const checked = key === RUN_HOURS_KEY && !meter && ctx ? meterWords(ctx.meter, value, at).text : "";
     // No check judges it: the server's words (inspections.display reading_words, in the checklist's context), or
-    // for run-hours what the meter rule checked, as the record says it (meter_words.meter_plausible_words).
+    // for run-hours what the meter rule checked, as the record says it (meter_words.meter_words).
     const words = (ctx && ctx.words) || {};
     const said = checked || words.unjudged;
     if (!mine.length) out.append(badge("recorded", words.recorded), said ? ` — ${said}` : "");

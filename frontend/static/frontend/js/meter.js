@@ -27,13 +27,7 @@ export function meterReadingCheck(meter, hours, now, label = "Run hours") {
   const lastAt = Date.parse(last.taken_at);
   const elapsedSeconds = (now.getTime() - lastAt) / 1000;
   if (!(elapsedSeconds >= 0)) return null; // the server compares only with a reading at or before the form's time
-  if (hours < last.hours) {
-    return {
-      verdict: "watch",
-      code: "meter_backwards",
-      message: `below the last reading of ${hoursText(last.hours)} on ${last.taken_text} — meter replaced or misread?`,
-    };
-  }
+  if (hours < last.hours) return { verdict: "watch", code: "meter_backwards", message: meterBelowText(meter, hours, now) };
   const most = last.hours + maxGainH(meter, elapsedSeconds);
   if (hours > most + 1e-9) {
     return {
@@ -61,4 +55,24 @@ export function meterPlausibleText(meter, hours, now) {
   const elapsedSeconds = (now.getTime() - Date.parse(meter.last.taken_at)) / 1000;
   if (!(elapsedSeconds >= 0) || hours > meter.last.hours + maxGainH(meter, elapsedSeconds) + 1e-9) return "";
   return `plausible: ${hoursText(hours - meter.last.hours)} since the last reading of ${hoursText(meter.last.hours)} on ${meter.last.taken_text}`;
+}
+
+/**
+ * A run-hour value below the meter's last reading at or before ``now``, in words ("" for any other value). The twin
+ * of scheduling.services.meter_words.meter_below_words (the record page and the PDFs say it beside the reading).
+ */
+export function meterBelowText(meter, hours, now) {
+  if (!meter || !meter.last || typeof hours !== "number" || !Number.isFinite(hours) || hours >= meter.last.hours) return "";
+  if (!(now.getTime() - Date.parse(meter.last.taken_at) >= 0)) return "";
+  return `below the last reading of ${hoursText(meter.last.hours)} on ${meter.last.taken_text} — meter replaced or misread?`;
+}
+
+/**
+ * A run-hour value against the meter's last reading as the record says it beside the value: {verdict, text},
+ * verdict "watch" below the last reading (meterBelowText), "" otherwise with what the rule checked
+ * (meterPlausibleText, "" for nothing). The twin of scheduling.services.meter_words.meter_words.
+ */
+export function meterWords(meter, hours, now) {
+  const below = meterBelowText(meter, hours, now);
+  return below ? { verdict: "watch", text: below } : { verdict: "", text: meterPlausibleText(meter, hours, now) };
 }
