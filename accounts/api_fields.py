@@ -11,7 +11,7 @@ from __future__ import annotations
 from rest_framework import serializers
 from rest_framework.fields import empty
 
-from .inputs import shown
+from .inputs import INT64_MAX, FieldErrors, check_integer, shown
 
 
 class _Named:
@@ -26,10 +26,14 @@ class _Named:
         except serializers.ValidationError:
             if data is empty or data is None:
                 raise  # 'This field is required.' / 'may not be null' say what is wrong already
-            label = self.label or (self.field_name or "value").replace("_", " ").capitalize()
             raise serializers.ValidationError(
-                f"{label}: {shown(data)} is not allowed; allowed: {self.allowed()}"
+                f"{_label(self)}: {shown(data)} is not allowed; allowed: {self.allowed()}"
             ) from None
+
+
+def _label(field) -> str:
+    """A field's name as a person reads it: its label, or its name in words ("grace_days": "Grace days")."""
+    return field.label or (field.field_name or "value").replace("_", " ").capitalize()
 
 
 def _range_text(kind: str, minimum, maximum) -> str:
@@ -43,8 +47,29 @@ def _range_text(kind: str, minimum, maximum) -> str:
 
 
 class IntegerField(_Named, serializers.IntegerField):
+    """Read by ``accounts.inputs.check_integer``, the one reader of whole numbers: a negative is a whole number,
+    refused as out of range ("Estimated minutes: -1 is out of range; allowed: a whole number from 1 to 1440"), and
+    text that is none is told the range too."""
+
     def allowed(self) -> str:
         return _range_text("a whole number", self.min_value, self.max_value)
+
+    def run_validation(self, data=empty):
+        if data is empty or data is None or (isinstance(data, str) and not data.strip()):
+            return super().run_validation(data)
+        errors = FieldErrors()
+        value = check_integer(
+            data,
+            key="value",
+            label=_label(self),
+            minimum=-INT64_MAX - 1 if self.min_value is None else self.min_value,
+            maximum=INT64_MAX if self.max_value is None else self.max_value,
+            allowed=self.allowed(),
+            errors=errors,
+        )
+        if value is None:
+            raise serializers.ValidationError(errors["value"][0])
+        return super().run_validation(value)
 
 
 class FloatField(_Named, serializers.FloatField):

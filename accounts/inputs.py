@@ -179,9 +179,13 @@ def check_integer(
     maximum: int = INT32_MAX,
     unit: str = "",
     required: bool = False,
+    allowed: str = "",
 ) -> int | None:
-    """A whole number within [minimum, maximum] (default: what a database integer column holds)."""
-    allowed = f"a whole number from {minimum} to {maximum}{f' {unit}' if unit else ''}"
+    """A whole number within [minimum, maximum] (default: what a database integer column holds): the one reader of
+    whole numbers from forms, queries and JSON. A negative is a whole number; outside the range it reads "Estimated
+    minutes: -1 is out of range; allowed: a whole number from 1 to 960", text that is none "Estimated minutes:
+    '12a' is not a whole number; allowed: a whole number from 1 to 960" (``allowed``: other words for the range)."""
+    allowed = allowed or f"a whole number from {minimum} to {maximum}{f' {unit}' if unit else ''}"
     if raw is None or (isinstance(raw, str) and not raw.strip()):
         if required:
             errors.add(key, f"{label} is required; allowed: {allowed}")
@@ -197,7 +201,9 @@ def check_integer(
         errors.add(key, f"{label}: {shown(raw)} is not a whole number; allowed: {allowed}")
         return None
     if not minimum <= value <= maximum:
-        errors.add(key, f"{label}: {shown(value)} is out of range; allowed: {allowed}")
+        errors.add(
+            key, f"{label}: {shown(raw if isinstance(raw, float) else value)} is out of range; allowed: {allowed}"
+        )
         return None
     return value
 

@@ -14,7 +14,7 @@ from rest_framework.exceptions import PermissionDenied
 
 from accounts.answers import Polled, kept
 from accounts.changes import Scope
-from accounts.inputs import FieldErrors, check_number, date_problem
+from accounts.inputs import FieldErrors, check_integer, check_number, date_problem
 from accounts.models import Membership, Role, User
 from accounts.selectors import MANAGING_ROLES
 from inventory.today import time_zone_for, today_for
@@ -99,13 +99,10 @@ def int_param(query, name: str, *, default: int, low: int, high: int) -> int:
     raw = query.get(name)
     if raw in (None, ""):
         return default
-    try:
-        value = int(raw)
-    except ValueError:
-        value = None
-    if value is None or not low <= value <= high:
-        raise ValidationError({name: [f"{name}={raw!r} is not a whole number from {low} to {high}"]})
-    return value
+    errors = FieldErrors()
+    value = check_integer(raw, key=name, label=name.capitalize(), minimum=low, maximum=high, errors=errors)
+    errors.raise_if_any()
+    return default if value is None else value
 
 
 def board_params(request, user) -> tuple[dt.date, dt.date, int, int, str | None]:

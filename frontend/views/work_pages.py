@@ -27,7 +27,7 @@ from django.utils import timezone
 from django.views.decorators.http import require_POST
 
 from accounts.clock import day_text, local_time_text
-from accounts.inputs import DATE_FORMATS, FieldErrors, day_refusal, parse_day, shown
+from accounts.inputs import DATE_FORMATS, FieldErrors, check_integer, day_refusal, parse_day, shown
 from inspections.selectors import findings_visible_to, reason_for
 from inspections.services.findings import finding_work_order_attach
 from inventory.models import AHU
@@ -180,12 +180,13 @@ def _one_off(post, errors: dict) -> list[OneOffTask]:
         errors.setdefault("task_minutes", []).append(
             f"Estimated minutes are required for the task said in words; allowed: a whole number from {lo} to {hi}"
         )
-    elif not re.fullmatch(r"\d{1,6}", minutes_raw):
-        errors.setdefault("task_minutes", []).append(
-            f"Estimated minutes: {shown(minutes_raw)} is not a whole number; allowed: {lo} to {hi}"
-        )
     else:
-        minutes = int(minutes_raw)
+        said = FieldErrors()
+        minutes = check_integer(
+            minutes_raw, key="task_minutes", label="Estimated minutes", minimum=lo, maximum=hi, errors=said
+        )
+        for key, messages in said.items():
+            errors.setdefault(key, []).extend(messages)
     return [OneOffTask(name=name, minutes=minutes if minutes is not None else -1, skill=skill)]
 
 

@@ -132,7 +132,10 @@ def _check_tasks(
         check_text(t.name, key=key, label="Task", max_length=200, errors=errors, required=True)
         lo, hi = ONE_OFF_MINUTES
         if not isinstance(t.minutes, int) or not lo <= t.minutes <= hi:
-            errors.add("task_minutes", f"Estimated minutes: {t.minutes!r} is out of range; allowed: {lo} to {hi}")
+            errors.add(
+                "task_minutes",
+                f"Estimated minutes: {t.minutes!r} is out of range; allowed: a whole number from {lo} to {hi}",
+            )
         if t.skill not in TaskDefinition.Skill.values:
             errors.add(
                 "task_skill",

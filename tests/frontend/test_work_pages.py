@@ -169,8 +169,11 @@ def test_without_a_technician_it_waits_on_the_board(desk, world):
             "Due day: &#x27;5/3/2025&#x27; is not a date (with slashes it could be day or month first); allowed: "
             "a date as YYYY-MM-DD or DD.MM.YYYY (31 January 2026: 2026-01-31 or 31.01.2026)",
         ),
-        ({"task_minutes": "lots"}, "Estimated minutes: &#x27;lots&#x27; is not a whole number; allowed: 1 to 960"),
-        ({"task_minutes": "0"}, "Estimated minutes: 0 is out of range; allowed: 1 to 960"),
+        (
+            {"task_minutes": "lots"},
+            "Estimated minutes: &#x27;lots&#x27; is not a whole number; allowed: a whole number from 1 to 960",
+        ),
+        ({"task_minutes": "0"}, "Estimated minutes: 0 is out of range; allowed: a whole number from 1 to 960"),
         ({"task_skill": "juggling"}, "Skill: &#x27;juggling&#x27; is not one of mechanical"),
         ({"task_name": "", "task_minutes": ""}, "Tasks: none chosen"),
         ({"kind": "corrective"}, "Kind: corrective work is made from a finding"),
@@ -182,6 +185,24 @@ def test_bad_input_is_refused_at_its_field(desk, world, changes, words):
     html = response.content.decode()
     assert response.status_code == 200 and words in html, html[html.find("errorlist") - 200 :][:1500]
     assert "Nothing was saved" in html
+    assert not WorkOrder.objects.filter(kind="call_out").exists()
+
+
+@pytest.mark.parametrize(
+    ("typed", "words"),
+    [
+        ("-1", "Estimated minutes: -1 is out of range; allowed: a whole number from 1 to 960"),
+        ("961", "Estimated minutes: 961 is out of range; allowed: a whole number from 1 to 960"),
+        ("12a", "Estimated minutes: &#x27;12a&#x27; is not a whole number; allowed: a whole number from 1 to 960"),
+        ("2.5", "Estimated minutes: &#x27;2.5&#x27; is not a whole number; allowed: a whole number from 1 to 960"),
+    ],
+)
+def test_minutes_outside_the_range_are_named_with_the_range(desk, world, typed, words):
+    """Tryout: a supervisor typed -1 minutes on New work and read "'-1' is not a whole number": -1 is a whole number,
+    the range is what it misses. The field, the value and the range are said; a non-number is told the range too."""
+    html = desk.post(NEW, callout(world, task_minutes=typed)).content.decode()
+    assert words in html, html[html.find("errorlist") - 200 :][:1500]
+    assert "-1&#x27; is not a whole number" not in html
     assert not WorkOrder.objects.filter(kind="call_out").exists()
 
 

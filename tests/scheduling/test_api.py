@@ -171,6 +171,14 @@ def test_generate_command_prints_counts(world, capsys):
         ("interval_value", 1e308, ["Interval value", "1e+308", "a whole number"]),
         ("interval_value", "inf", ["Interval value", "'inf'", "a whole number"]),
         ("grace_days", 366, ["Grace days", "366", "from 0 to 365"]),
+        # A negative is a whole number: the range is what it misses (tryout); a non-number is told the range too.
+        ("estimated_minutes", -1, ["Estimated minutes: -1 is out of range; allowed: a whole number from 1 to 1440"]),
+        ("estimated_minutes", "-1", ["Estimated minutes: -1 is out of range; allowed: a whole number from 1 to 1440"]),
+        (
+            "estimated_minutes",
+            "12a",
+            ["Estimated minutes: '12a' is not a whole number; allowed: a whole number from 1 to 1440"],
+        ),
     ],
 )
 def test_task_fields_refused_name_the_field_the_value_and_the_range(api_client, world, field, value, says):
