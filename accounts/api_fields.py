@@ -11,6 +11,8 @@ from __future__ import annotations
 from rest_framework import serializers
 from rest_framework.fields import empty
 
+from engineering.formatting import bound_text
+
 from .inputs import INT64_MAX, FieldErrors, check_integer, shown
 
 
@@ -38,11 +40,11 @@ def _label(field) -> str:
 
 def _range_text(kind: str, minimum, maximum) -> str:
     if minimum is not None and maximum is not None:
-        return f"{kind} from {minimum:g} to {maximum:g}"
+        return f"{kind} from {bound_text(minimum)} to {bound_text(maximum)}"
     if minimum is not None:
-        return f"{kind} of at least {minimum:g}"
+        return f"{kind} of at least {bound_text(minimum)}"
     if maximum is not None:
-        return f"{kind} of at most {maximum:g}"
+        return f"{kind} of at most {bound_text(maximum)}"
     return kind
 
 

@@ -13,6 +13,7 @@ in in. w.c. two decimals; a thermometer 0.1 °C or 0.1 °F.
 
 from __future__ import annotations
 
+import math
 from decimal import Decimal
 
 from engineering import units
@@ -22,6 +23,7 @@ __all__ = [
     "DECIMALS",
     "PLAIN_UNITS",
     "UnitSystem",
+    "bound_text",
     "decimals_of",
     "display_value",
     "format_number",
@@ -126,16 +128,34 @@ def quantity_text(value_si: float, *, quantity: str, system: str, decimals: int 
     return f"{text} {unit}" if unit else text
 
 
+# Past these a number said to a person is said in words, never with an exponent ("2.5e−07" asks for the exponent a
+# typed number is refused for): at least 10^15 reads "more than 1000000000000000", a non-zero size below 10^-12
+# "about 0"; between them plain digits.
+PLAIN_LARGEST = 1e15
+PLAIN_SMALLEST = 1e-12
+
+
 def significant_text(x: float, *, figures: int = 4) -> str:
-    """A typed number echoed back to its sender at ``figures`` significant figures, without trailing zeros
-    and with a true minus sign: 249.08891 → "249.1", 100000 → "100000", 1000000 → "1000000" (never "1e+06": a
-    range said so would ask for the exponent it refuses), −0.5 → "−0.5"; past 10^15 or below 10^-6 an exponent."""
+    """A typed number echoed back to its sender at ``figures`` significant figures, in plain digits without
+    trailing zeros and with a true minus sign: 249.08891 → "249.1", 100000 → "100000", 1000000 → "1000000" (never
+    "1e+06"), −0.5 → "−0.5", 2.5e-7 → "0.00000025". Never an exponent: from 10^15 on "more than 1000000000000000"
+    ("less than −1000000000000000"), a size below 10^-12 "about 0"."""
+    if not math.isfinite(x):
+        return f"{x:g}".replace("-", "−")
     rounded = float(f"{x:.{figures}g}")
-    text = f"{rounded:g}"
-    if "e" in text and 1e-6 <= abs(rounded) < 1e15:
-        text = format(Decimal(repr(rounded)), "f")
-        text = text.rstrip("0").rstrip(".") if "." in text else text
-    return text.replace("-", "−")
+    if abs(rounded) >= PLAIN_LARGEST:
+        return f"{'less than −' if rounded < 0 else 'more than '}{PLAIN_LARGEST:.0f}"
+    if rounded and abs(rounded) < PLAIN_SMALLEST:
+        return "about 0"
+    text = format(Decimal(repr(rounded)), "f")
+    text = text.rstrip("0").rstrip(".") if "." in text else text
+    return ("0" if text in ("-0", "") else text).replace("-", "−")
+
+
+def bound_text(x: float) -> str:
+    """A range bound of a form as the person types it back: exact plain digits with a hyphen minus, never an
+    exponent (2118880, not 2.11888e+06; -60): ``significant_text`` at 15 figures."""
+    return significant_text(x, figures=15).replace("−", "-")
 
 
 def count_text(n: int, noun: str, plural: str | None = None) -> str:

@@ -15,7 +15,7 @@ from accounts.inputs import (
 )
 from engineering.errors import EngineeringInputError
 from engineering.fans import fan_air_power_w
-from engineering.formatting import quantity_text
+from engineering.formatting import bound_text, quantity_text
 from engineering.registry_checks import motor_power_below_air_power
 from engineering.units import from_display, to_display, unit_label
 from inventory.specs import SpecField, spec_fields
@@ -34,6 +34,11 @@ QUANTITY_OF_FIELD = {"motor_power_w": "motor_power", "power_w": "electric_power"
 
 def _quantity(spec: SpecField) -> str | None:
     return QUANTITY_OF_FIELD.get(spec.name) or QUANTITY_OF_UNIT.get(spec.unit)
+
+
+def _bound(s: SpecField, value: float, system: str) -> str:
+    """A range bound in the person's units as plain digits (never an exponent: ``bound_text``)."""
+    return bound_text(_shown(s, value, system))
 
 
 def _shown(spec: SpecField, value, system: str):
@@ -63,7 +68,7 @@ def spec_rows(*, fields, values: dict, errors: dict, system: str) -> list[dict]:
         unit = unit_label(quantity=q, system=system) if q else s.unit
         allowed = s.allowed()
         if q and s.minimum is not None and s.maximum is not None:
-            allowed = f"a number from {_shown(s, s.minimum, system):g} to {_shown(s, s.maximum, system):g} {unit}"
+            allowed = f"a number from {_bound(s, s.minimum, system)} to {_bound(s, s.maximum, system)} {unit}"
         value = values.get(s.name)
         rows.append(
             {
@@ -190,7 +195,7 @@ def _allowed_shown(s: SpecField, system: str) -> str:
     q = _quantity(s)
     if q and s.minimum is not None and s.maximum is not None:
         unit = unit_label(quantity=q, system=system)
-        return f"a number from {_shown(s, s.minimum, system):g} to {_shown(s, s.maximum, system):g} {unit}"
+        return f"a number from {_bound(s, s.minimum, system)} to {_bound(s, s.maximum, system)} {unit}"
     return s.allowed()
 
 

@@ -12,6 +12,7 @@ import datetime as dt
 import zoneinfo
 from dataclasses import dataclass
 
+from engineering.formatting import significant_text
 from inventory.models import AHU
 
 from . import reasons
@@ -81,7 +82,11 @@ def last_value_words(*, last: LastReading, kind: str, quantity: str, choices, sy
     if last.value_text == "na":
         value = "not applicable"
     elif kind == "number" and last.value_si is not None:
-        value = reasons.render([reasons.q(last.value_si, quantity)], system) if quantity else f"{last.value_si:g}"
+        value = (
+            reasons.render([reasons.q(last.value_si, quantity)], system)
+            if quantity
+            else significant_text(last.value_si, figures=6)
+        )
     elif kind == "check":
         value = CHECK_WORDS.get(last.value_text, last.value_text)
     elif kind == "choice":

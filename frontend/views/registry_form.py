@@ -20,6 +20,7 @@ from accounts.inputs import (
     parse_number,
 )
 from engineering.errors import EngineeringInputError
+from engineering.formatting import bound_text
 from engineering.units import from_display, to_display, unit_label
 from inventory.specs import spec_fields
 
@@ -85,7 +86,8 @@ def allowed_text(field: Field, system: str) -> str:
         unit = unit_text(field, system)
         return f"a number from {figure(lo)} to {figure(hi)}{f' {unit}' if unit else ''}"
     if field.kind == "integer":
-        return f"a whole number from {field.minimum:g} to {field.maximum:g}{f' {field.unit}' if field.unit else ''}"
+        unit = f" {field.unit}" if field.unit else ""
+        return f"a whole number from {bound_text(field.minimum)} to {bound_text(field.maximum)}{unit}"
     if field.kind == "choice":
         return "one of " + ", ".join(str(label) for _, label in field.choices)
     if field.kind == "date":

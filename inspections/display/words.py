@@ -233,7 +233,7 @@ def shown_words(value: Any, how: Any, system: str, item: str) -> str:
     if how == "pct_points":
         return _minus(f"{value:.1f} points")
     if how in ("number", "count"):
-        return _minus(f"{value:g}")
+        return fmt.significant_text(value, figures=6)  # never an exponent ("2.5e−07")
     if how == "rate":
         return _in_units(value, "pressure", system, 4 if system == UnitSystem.US else 3) + " per run-hour"
     if how in ("drift_value", "drift_difference"):

@@ -7,7 +7,7 @@ import math
 from django.core.exceptions import ValidationError
 
 from engineering.errors import EngineeringInputError
-from engineering.formatting import quantity_text
+from engineering.formatting import quantity_text, significant_text
 from engineering.units import SYSTEMS, UnitSystem
 
 
@@ -26,7 +26,7 @@ def shown(value_si: float | None, quantity: str, system: str, *, decimals: int |
     try:
         return quantity_text(value_si, quantity=quantity, system=system, decimals=decimals)
     except EngineeringInputError:
-        return f"{value_si:g}"
+        return significant_text(value_si, figures=6)
 
 
 def percent(share: float | None, places: int = 0) -> str:

@@ -140,11 +140,27 @@ def test_an_unknown_quantity_is_refused_with_its_name():
     ("x", "text"),
     [
         *[(249.08891, "249.1"), (100_000.0, "100000"), (-0.5, "−0.5"), (0.000123456, "0.0001235"), (2.0, "2")],
-        *[(1_000_000.0, "1000000"), (1_234_567.0, "1235000"), (1e308, "1e+308")],  # never "1e+06" below 10^15
+        *[(1_000_000.0, "1000000"), (1_234_567.0, "1235000")],  # never "1e+06"
+        # Never an exponent (tryout: "2.5e−07"): tiny sizes in plain digits, past 10^15 and below 10^-12 in words.
+        *[(2.5e-7, "0.00000025"), (-2.5e-7, "−0.00000025"), (1e-12, "0.000000000001"), (-0.0, "0"), (0.0, "0")],
+        *[(1e-300, "about 0"), (1e308, "more than 1000000000000000"), (-1e20, "less than −1000000000000000")],
+        *[(999_999_999_999_999.0, "more than 1000000000000000"), (123_456_789_012.0, "123500000000")],
     ],
 )
 def test_a_typed_number_is_echoed_at_four_significant_figures(x, text):
     assert fmt.significant_text(x) == text
+
+
+def test_a_number_said_to_a_person_never_carries_an_exponent():
+    for exp in range(-330, 310):
+        for mantissa in (1.0, 2.5, -7.25, 9.9999):
+            try:
+                x = mantissa * 10.0**exp
+            except OverflowError:
+                continue
+            text = fmt.significant_text(x)
+            assert "e" not in text.replace("more than", "").replace("less than", ""), (x, text)
+            assert len(text) <= 30, (x, text)
 
 
 def test_the_unit_systems_are_one_list():

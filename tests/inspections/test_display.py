@@ -126,3 +126,13 @@ def test_loading_rate_and_air_density_read_in_the_readers_units_at_their_own_pre
     through the same number formatting as the reasons, at finer precision than their quantities' usual."""
     rows = dict(display.derived_rows({"rate_pa_per_hour": 0.04, "air_density_kg_m3": 1.1644}, system))
     assert rows == {"pressure drop rising by": rate, "air density": density}
+
+
+def test_a_derived_number_is_said_without_an_exponent():
+    """Tryout: a derived value of 2.5e-07 read "2.5e−07" (the minus of the exponent made true); a person never
+    reads an exponent: plain digits at six figures (engineering.formatting.significant_text)."""
+    from inspections.display import derived_rows
+
+    rows = dict(derived_rows({"occupant_diversity": 2.5e-7, "zone_air_distribution_effectiveness": -0.8}, "si"))
+    assert rows == {"occupant diversity": "0.00000025", "air distribution effectiveness": "−0.8"}
+    assert dict(derived_rows({"points_used": 12}, "si")) == {"readings in the trend": "12"}

@@ -92,3 +92,27 @@ def test_the_number_typed_in_full_is_stored(api_client):
     [res] = post(api_client, tech, [sync_form(wo, [r("visit.run_hours", "100000")])])
     assert res["status"] in {"stored", "flagged"}, res
     assert MeterReading.objects.get().hours == 100000
+
+
+@pytest.mark.parametrize(
+    ("sent", "said"),
+    [
+        (1e308, "Supply-air temperature: more than 1000000000000000 °C is impossible; allowed −60 to 120 °C"),
+        (-2.5e-7, None),  # a tiny size is a possible temperature: stored, no words to say
+    ],
+)
+def test_a_machine_number_is_said_back_without_an_exponent(api_client, sent, said):
+    """Tryout: a JSON number the sync reads (an exponent is machine data there) was said back as "1e+308 °C" and a
+    tiny one as "2.5e−07": a person never reads an exponent (engineering.formatting.significant_text)."""
+    wo, tech = make_visit(tasks=["controls_check"])
+    form = sync_form(wo, [r("visit.run_hours", 1200), r("controls_check.supply_air", sent)])
+    [res] = post(api_client, tech, [form])
+    words = [
+        *(m for ms in res["errors"].values() for m in ms),
+        *(f["reason"] for f in res["flags"]),
+        *(e["reason"] for e in res["evaluation"]),
+        *(f["text"] for f in res["findings"]),
+    ]
+    assert words and not any(re.search(r"\de[+\-−]?\d", w) for w in words), words
+    if said:
+        assert res["status"] == "refused" and said in res["errors"]["readings[1].value"][0], res
