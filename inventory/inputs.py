@@ -14,6 +14,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from accounts.inputs import FieldErrors, check_number, equipment_date_problem, number_problem, text_problem
+from engineering.formatting import bound_text, significant_text
 
 
 @dataclass(frozen=True)
@@ -83,7 +84,11 @@ def ahu_problems(ahu, *, today: dt.date) -> dict[str, str]:
         if value is None or (isinstance(value, str) and not value):
             continue
         if isinstance(value, float) and math.isfinite(value) and r.whole and value != int(value):
-            out[name] = f"{r.label}: {value:g} is not a whole number"
+            unit = f" {r.unit}" if r.unit else ""
+            out[name] = (
+                f"{r.label}: {significant_text(value, figures=6)} is not a whole number; "
+                f"allowed: a whole number from {bound_text(r.minimum)} to {bound_text(r.maximum)}{unit}"
+            )
             continue
         problem = number_problem(value, label=r.label, minimum=r.minimum, maximum=r.maximum, unit=r.unit)
         if problem:
