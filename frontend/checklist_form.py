@@ -15,6 +15,7 @@ from django.utils import timezone
 
 from accounts.inputs import parse_number
 from inspections.cautions import cautions_once
+from inspections.display import place_heading
 
 
 def field_name(prefix: str, key: str, component: str | None) -> str:
@@ -49,8 +50,23 @@ def form_sections(checklist: dict) -> list[dict]:
                     "step": "any",
                 }
             )
-        sections.append({**template, "items": items})
+        sections.append({**template, "items": _with_part_headings(items)})
     return sections
+
+
+def _with_part_headings(items: list[dict]) -> list[dict]:
+    """A section that asks items of a part heads each place's run with its sub-heading (``part_heading``:
+    ``inspections.display.place_heading``, "Heating coil — Coil · label C8EM9HA", the whole unit's items
+    "Whole unit"), so two coils' leak-by items never read as the same list twice; the record page and the
+    inspection report head each part alike. A section of the unit's items alone has none."""
+    if not any(i.get("component") for i in items):
+        return items
+    out, last = [], object()
+    for i in items:
+        code = i["component_code"] or None
+        out.append({**i, "part_heading": place_heading(i.get("component"))} if code != last else i)
+        last = code
+    return out
 
 
 def cautions_for(checklist: dict) -> list[str]:

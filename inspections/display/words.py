@@ -7,12 +7,16 @@ from __future__ import annotations
 import datetime as dt
 import math
 import re
+from collections.abc import Mapping
 from typing import Any
+
+from django.utils.text import capfirst
 
 from engineering import formatting as fmt
 from engineering.controls import Verdict
 from engineering.units import UnitSystem
 from engineering.ventilation import VENTILATION_SYSTEMS
+from inventory.models import ComponentKind
 
 from .. import reasons as rs
 
@@ -35,6 +39,32 @@ def verdict_words(code: str | None) -> str:
 def reading_words() -> dict[str, str]:
     """The words of a reading no check judges, as the phone shows them beside the field."""
     return {"recorded": RECORDED_WORDS, "unjudged": UNJUDGED_WORDS}
+
+
+# Where a reading or task belongs when it has no part of its own (the frost thermostat's trip, a unit-level task).
+WHOLE_UNIT_WORDS = "whole unit"
+
+
+def place_words(component: object | None) -> str:
+    """Where a reading (or a task) belongs, as every record names it: its part's name, or "whole unit" when it
+    has none. The inspection report (its task table and readings table), the unit history and the record page all
+    read it here, so one reading never stands on a coil in one and on the unit in another."""
+    return str(getattr(component, "name", "")) if component is not None else WHOLE_UNIT_WORDS
+
+
+def place_heading(component: object | None) -> dict[str, str]:
+    """A place's sub-heading where a list asks or records several places' items (the leak-by test of each coil):
+    its title, ``place_words`` capitalised ("Heating coil", "Whole unit"), and for a part what it is and its label
+    ("Coil · label C8EM9HA"), as the phone's form, the record page and the inspection report head each part.
+    ``component``: a part, the checklist document's part ({"name", "kind", "label_code"}) or None."""
+    if component is None:
+        return {"title": capfirst(WHOLE_UNIT_WORDS), "sub": ""}
+    if isinstance(component, Mapping):
+        name, kind, code = (str(component.get(k) or "") for k in ("name", "kind", "label_code"))
+    else:
+        name, kind, code = (str(getattr(component, k, "") or "") for k in ("name", "kind", "label_code"))
+    what = str(ComponentKind(kind).label) if kind in ComponentKind.values else kind.replace("_", " ").capitalize()
+    return {"title": capfirst(name), "sub": " · ".join(w for w in (what, f"label {code}" if code else "") if w)}
 
 
 def reading_verdict_words(code: str | None, *, judged: bool, checked: str = "") -> tuple[str, str]:

@@ -35,6 +35,7 @@ from .checklist import (
     checklist_cautions,
     checklist_for,
     item_limits,
+    item_runs,
     repair_cautions,
     work_order_cautions,
 )
@@ -108,6 +109,7 @@ __all__ = [
     "inspections_visible_to",
     "item_labels",
     "item_limits",
+    "item_runs",
     "photo_for",
     "photo_visible_to",
     "reason_for",

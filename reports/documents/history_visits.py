@@ -10,6 +10,7 @@ from collections import defaultdict
 from engineering.controls import Verdict
 from inspections import reasons
 from inspections.checklists import TASK_CODES
+from inspections.display import place_words
 from inspections.models import Finding, Inspection, Reading
 from inspections.selectors import check_label, reason_for
 from inspections.services.findings import problem_of
@@ -80,6 +81,7 @@ def history_visit(
         code = e.item_key.partition(".")[0]
         reading = owned.get((e.item_key, e.component_id))
         part = e.component.name if e.component_id else ""
+        place = place_words(e.component if e.component_id else None)
         values, limit = judged_cells(evaluation=e, reading=reading, system=system)
         if e.check_name not in (*ANSWERS, "limits") and (code, e.component_id) not in attached:
             # The readings this judgement was made from that its values do not already say.
@@ -108,7 +110,8 @@ def history_visit(
         rows.append(
             {
                 "check": check_label(check=e.check_name, item=e.item_key, labels=labels),
-                "parts": [part] if part else [],
+                "parts": [place],
+                "on_part": bool(part),
                 "values": keep_units("; ".join(v for v in values if v)),
                 "limit": keep_units(limit),
                 "verdict": VERDICTS.get(e.verdict, e.verdict),
@@ -125,7 +128,8 @@ def history_visit(
         rows.append(
             {
                 "check": r.item.label,
-                "parts": [r.component.name] if r.component_id else [],
+                "parts": [place_words(r.component if r.component_id else None)],
+                "on_part": bool(r.component_id),
                 "values": keep_units(reading_value(r, system)),
                 "limit": "",
                 "verdict": verdict,
@@ -159,7 +163,7 @@ def _merge_answers(rows: list[dict]) -> list[dict]:
     out: list[dict] = []
     same: dict[tuple, dict] = {}
     for row in rows:
-        if row["answer"] and row["verdict_code"] == Verdict.OK and not row["reason"] and row["parts"]:
+        if row["answer"] and row["verdict_code"] == Verdict.OK and not row["reason"] and row["on_part"]:
             key = (row["check"], row["values"])
             if key in same:
                 same[key]["parts"].append(row["parts"][0])

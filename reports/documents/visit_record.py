@@ -11,9 +11,10 @@ from django.db.models import Prefetch
 from accounts.clock import time_zone
 from accounts.models import AuditEvent
 from inspections import reasons
+from inspections.display import place_heading, place_words
 from inspections.evaluation import own_judgement
 from inspections.models import Amendment, Evaluation, Inspection, Photo, Reading
-from inspections.selectors import check_label, findings_seen_on, item_labels, reason_for
+from inspections.selectors import check_label, findings_seen_on, item_labels, item_runs, reason_for
 from scheduling.models import WorkOrder
 
 from .visit_table import verdict_counts, visit_parts
@@ -95,13 +96,16 @@ def visit_records(
         # A check of several readings (a coil's heat balance) judges none of them (its own row, ``visit_parts``).
         judged = {(e.item_key, e.component_id) for e in insp.evaluations.all() if own_judgement(e.check_name)}
         meter = run_hours_words(insp, ahu=work_order.ahu, zone=zone)  # as the phone said it, at the finish
-        for r in insp.readings.all():
+        for r in in_checklist_order(list(insp.readings.all())):
             if r.component_id:
                 components[r.component_id] = r.component
             groups.setdefault(r.item.template.title, []).append(
                 {
                     "label": r.item.label,
                     "component": r.component,
+                    # Where it belongs (its part, or the whole unit), as the PDFs say it; the visit's own readings
+                    # (run-hours, airflow, notes) are the unit's by their group.
+                    "place": "" if r.item.template.code == "visit" else place_words(r.component),
                     "value": reading_value(r, system),
                     "verdict": (
                         said := reading_verdict(r, judged=(r.item.api_key, r.component_id) in judged, meter=meter)
@@ -137,7 +141,7 @@ def visit_records(
         visits.append(
             {
                 "inspection": insp,
-                "groups": list(groups.items()),
+                "groups": [(title, place_blocks(rows)) for title, rows in groups.items()],
                 "evaluations": evaluations,
                 "parts": parts,
                 "methods": methods,
@@ -152,6 +156,40 @@ def visit_records(
             }
         )
     return visits, components, template_cautions
+
+
+def in_checklist_order(readings: list[Reading]) -> list[Reading]:
+    """A visit's readings in the order its checklist asked them (``inspections.selectors.checklist_build``):
+    template by template, a run of per-part items part by part (every item of the first coil, then of the next),
+    never the first item of each coil, then the second of each."""
+    order: dict[int, tuple[int, int]] = {}
+    for code in dict.fromkeys(r.item.template.code for r in readings):
+        items = sorted(
+            {r.item.pk: r.item for r in readings if r.item.template.code == code}.values(), key=lambda i: i.position
+        )
+        for run_at, run in enumerate(item_runs(items)):
+            order.update((item.pk, (run_at, item.position)) for item in run)
+
+    def key(r: Reading) -> tuple:
+        run_at, position = order[r.item.pk]
+        place = (r.component.position, r.component.pk) if r.component_id else (0, 0)
+        return (r.item.template.code, run_at, place, position)
+
+    return sorted(readings, key=key)
+
+
+def place_blocks(rows: list[dict]) -> list[dict]:
+    """A checklist's rows on the record page cut into runs of one place, each headed as the phone's form heads it
+    (``inspections.display.place_heading``) where the checklist asks items of a part; one run without a heading
+    where it asks only the unit's."""
+    if not any(r["component"] is not None for r in rows):
+        return [{"heading": None, "rows": rows}]
+    blocks: list[dict] = []
+    for r in rows:
+        if not blocks or blocks[-1]["rows"][-1]["component"] != r["component"]:
+            blocks.append({"heading": place_heading(r["component"]), "rows": []})
+        blocks[-1]["rows"].append(r)
+    return blocks
 
 
 def _work_order_verification(work_order: WorkOrder) -> dict | None:

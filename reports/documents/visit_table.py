@@ -11,6 +11,7 @@ from django.utils.safestring import SafeString, mark_safe
 
 from engineering.controls import Verdict
 from inspections import reasons
+from inspections.display import place_heading
 from inspections.evaluation import own_judgement
 from inspections.models import Inspection
 from inspections.selectors import reason_for
@@ -144,11 +145,12 @@ def visit_parts(
 
     def group_for(component, template_title: str, template_code: str) -> dict:
         if component is not None:
-            key = (1, component.position, component.pk, "")
-            title, sub = component.name, f"{component.get_kind_display()} · label {component.label_code}"
-        else:
-            key = (0 if template_code == "visit" else 2, 0, 0, template_code)
-            title, sub = template_title, ""
+            key, heading = (1, component.position, component.pk, ""), place_heading(component)
+            title, sub = heading["title"], heading["sub"]
+        elif template_code == "visit":
+            key, title, sub = (0, 0, 0, template_code), template_title, ""
+        else:  # the unit's own readings of a task: their place, then the task's checklist
+            key, title, sub = (2, 0, 0, template_code), place_heading(None)["title"], template_title
         return groups.setdefault(key, {"title": title, "sub": sub, "rows": []})
 
     def method_number(method: str) -> int | None:

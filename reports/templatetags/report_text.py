@@ -5,6 +5,7 @@ import datetime as dt
 from django import template
 
 from accounts.clock import local_date_of
+from inspections.display import place_words
 from inventory.display import site_date_text, site_time_text
 
 register = template.Library()
@@ -13,6 +14,8 @@ register = template.Library()
 register.filter("site_time", site_time_text)
 # The day of a moment on the site's clock, "2 Dec 2026" ("" without a moment).
 register.filter("site_day", site_date_text)
+# Where a task or reading belongs: its part's name, or "whole unit" (one function for every record).
+register.filter("place", place_words)
 
 
 @register.filter
