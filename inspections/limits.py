@@ -3,6 +3,8 @@
 
 from __future__ import annotations
 
+import math
+
 from engineering import filters as eng_filters
 from engineering import formatting as fmt
 from engineering.errors import EngineeringInputError
@@ -16,10 +18,34 @@ GLYCOL_OK_WARMER_K = 2.0
 GLYCOL_WATCH_WARMER_K = 4.0
 GLYCOL_OK_COLDER_K = 8.0
 
+# A conversion's noise (120 °C read back as 120.00000000001) is no bound: below this many display steps it is
+# ignored when a bound is rounded inward (the phone's limits.js BOUND_NOISE is the same).
+BOUND_NOISE = 1e-6
+
+
+def bound_text(x: float, *, decimals: int, side: str) -> str:
+    """A range's bound ("allowed −40.14 to 40.14 in. w.c.", "expected …") at ``decimals``, rounded inward: a
+    maximum (``side="max"``) down, a minimum up, so every value the words allow the check allows and every value
+    it refuses or flags lies outside them (to the nearest, 10 000 Pa read "40.15 in. w.c." and a typed 40.15 was
+    refused with words that allowed it). No grouping, a true minus sign, no trailing zeros; the phone's twin is
+    ``limits.js`` ``bound``."""
+    scale = 10**decimals
+    steps = x * scale
+    steps = math.floor(steps + BOUND_NOISE) if side == "max" else math.ceil(steps - BOUND_NOISE)
+    text = f"{steps / scale:.{decimals}f}"
+    text = text.rstrip("0").rstrip(".") if "." in text else text
+    return "0" if text in ("-0", "") else text.replace("-", "−")
+
 
 # A reading's units, labels and conversion are engineering.formatting's; these take a missing value through.
 def display_unit_label(quantity: str, system: str) -> str:
     return fmt.unit_text(quantity=quantity, system=system)
+
+
+def display_decimals(quantity: str, system: str) -> int | None:
+    """The decimals the phone says a range of ``quantity`` at (its checklist context's table, the quantity's
+    own, never an item's); None for a quantity the table does not know (then 4 significant figures)."""
+    return fmt.DECIMALS[quantity][1 if system == "us" else 0] if quantity in fmt.DECIMALS else None
 
 
 def to_display(value: float | None, quantity: str, system: str) -> float | None:

@@ -27,13 +27,19 @@ def _num_text(x: float | None) -> str:
     return "any" if x is None else significant_text(x)
 
 
-def _range_text(lo: float | None, hi: float | None, unit: str) -> str:
+def _bound(x: float, decimals: int | None, side: str) -> str:
+    return significant_text(x) if decimals is None else limits.bound_text(x, decimals=decimals, side=side)
+
+
+def _range_text(lo: float | None, hi: float | None, unit: str, decimals: int | None) -> str:
+    """A range in the person's units as the phone says it (limits.js ``describe``): each bound at the quantity's
+    display ``decimals`` rounded inward (``limits.bound_text``), so no value the words allow is refused."""
     u = f" {unit}" if unit else ""
     if lo is not None and hi is not None:
-        return f"{_num_text(lo)} to {_num_text(hi)}{u}"
+        return f"{_bound(lo, decimals, 'min')} to {_bound(hi, decimals, 'max')}{u}"
     if lo is not None:
-        return f"at least {_num_text(lo)}{u}"
-    return f"at most {_num_text(hi)}{u}"
+        return f"at least {_bound(lo, decimals, 'min')}{u}"
+    return "any value" if hi is None else f"at most {_bound(hi, decimals, 'max')}{u}"
 
 
 def reading_parse(parsed: Parsed, i: int, raw: object, seen: set[tuple[str, int | None]], errors: Errors) -> None:
@@ -102,11 +108,12 @@ def reading_parse(parsed: Parsed, i: int, raw: object, seen: set[tuple[str, int 
                 )
             return
         unit = limits.display_unit_label(it.quantity, system)
+        places = limits.display_decimals(it.quantity, system)
         lim = slot.limits
         lo = limits.to_display(lim.get("physical_min"), it.quantity, system)
         hi = limits.to_display(lim.get("physical_max"), it.quantity, system)
         if x is None:  # "1e5": typed with an exponent, said so with the range (the phone's numbers.js exponentWords)
-            in_range = f"allowed {_range_text(lo, hi, unit)}"
+            in_range = f"allowed {_range_text(lo, hi, unit, places)}"
             said = check.exponent(value, in_range) or f"{check.shown(value)} is not a number; {in_range}"
             errors.add(f"{at}.value", f"{label}: {said}")
             return
@@ -119,7 +126,8 @@ def reading_parse(parsed: Parsed, i: int, raw: object, seen: set[tuple[str, int 
         pmin, pmax = lim.get("physical_min"), lim.get("physical_max")
         if (pmin is not None and si < pmin - tol) or (pmax is not None and si > pmax + tol):
             errors.add(
-                f"{at}.value", f"{label}: {_num_text(x)} {unit} is impossible; allowed {_range_text(lo, hi, unit)}"
+                f"{at}.value",
+                f"{label}: {_num_text(x)} {unit} is impossible; allowed {_range_text(lo, hi, unit, places)}",
             )
             return
         reading.value_si = si
@@ -130,7 +138,7 @@ def reading_parse(parsed: Parsed, i: int, raw: object, seen: set[tuple[str, int 
             dhi = limits.to_display(phi, it.quantity, system)
             parsed.improbable.append(
                 f"{label}: {_num_text(x)} {unit} is outside the plausible "
-                f"{_range_text(dlo, dhi, unit)}; please check it"
+                f"{_range_text(dlo, dhi, unit, places)}; please check it"
             )
     parsed.readings.append(reading)
 

@@ -20,13 +20,28 @@ export function nice(x, decimals = null) {
   return String(n).replace("-", "−");
 }
 
+// A conversion's noise (120 °C read back as 120.00000000001) is no bound (inspections/limits.py BOUND_NOISE).
+const BOUND_NOISE = 1e-6;
+
+// A range's bound at the quantity's display precision, rounded inward (a maximum down, a minimum up), so every
+// value the words allow is allowed and every value refused or flagged lies outside them: 10 000 Pa is "40.14 in.
+// w.c.", never "40.15" beside a refused 40.15 (inspections/limits.py bound_text, its twin). Without a precision
+// known: ``nice``.
+export function bound(x, decimals, side) {
+  if (decimals === null || decimals === undefined) return nice(x);
+  const scale = 10 ** decimals;
+  const steps = side === "max" ? Math.floor(x * scale + BOUND_NOISE) : Math.ceil(x * scale - BOUND_NOISE);
+  const n = Number((steps / scale).toFixed(decimals));
+  return String(n === 0 ? 0 : n).replace("-", "−");
+}
+
 export function describe(band, unit, decimals = null) {
   if (!present(band)) return "any value";
   const u = unit ? ` ${unit}` : "";
   const has = (v) => v !== null && v !== undefined;
-  if (has(band.min) && has(band.max)) return `${nice(band.min, decimals)} to ${nice(band.max, decimals)}${u}`;
-  if (has(band.min)) return `at least ${nice(band.min, decimals)}${u}`;
-  return `at most ${nice(band.max, decimals)}${u}`;
+  if (has(band.min) && has(band.max)) return `${bound(band.min, decimals, "min")} to ${bound(band.max, decimals, "max")}${u}`;
+  if (has(band.min)) return `at least ${bound(band.min, decimals, "min")}${u}`;
+  return `at most ${bound(band.max, decimals, "max")}${u}`;
 }
 
 /**
