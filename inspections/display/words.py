@@ -25,6 +25,9 @@ from .. import reasons as rs
 # context (``reading_words``, inspections.phone.checklist_context), never a copy of its own.
 RECORDED_WORDS = "Recorded"
 UNJUDGED_WORDS = "no limit applies to this reading"
+# A reading set aside as implausible that no check judged: a limit may apply, but nothing judged it ("Not judged —
+# 75.0 °C is outside the plausible 0.0–60.0 °C; re-check the reading", inspections.evaluation.set_aside_parts).
+NOT_JUDGED_WORDS = "Not judged"
 
 # Verdicts as people read them: the labels of ``engineering.controls.Verdict``, and "Recorded" for a reading
 # no check judged (the phone's twin: checklist.js VERDICT_WORDS).
@@ -38,7 +41,7 @@ def verdict_words(code: str | None) -> str:
 
 def reading_words() -> dict[str, str]:
     """The words of a reading no check judges, as the phone shows them beside the field."""
-    return {"recorded": RECORDED_WORDS, "unjudged": UNJUDGED_WORDS}
+    return {"recorded": RECORDED_WORDS, "unjudged": UNJUDGED_WORDS, "not_judged": NOT_JUDGED_WORDS}
 
 
 # Where a reading or task belongs when it has no part of its own (the frost thermostat's trip, a unit-level task).
@@ -67,18 +70,22 @@ def place_heading(component: object | None) -> dict[str, str]:
     return {"title": capfirst(name), "sub": " · ".join(w for w in (what, f"label {code}" if code else "") if w)}
 
 
-def reading_verdict_words(code: str | None, *, judged: bool, checked: str = "") -> tuple[str, str]:
+def reading_verdict_words(code: str | None, *, judged: bool, checked: str = "", set_aside: str = "") -> tuple[str, str]:
     """A reading's verdict as pages and PDFs show it beside the reading: (its words, what they mean).
 
     A reading no check judged reads ("Recorded", "no limit applies to this reading"), the words the phone shows
     beside the field (``reading_words``), or ("Recorded", ``checked``) where a rule checked it without judging it
     (a run-hour value against the meter's last reading: "plausible: 615 h since …",
-    ``scheduling.services.meter_plausible_words``, as the phone said it); a judged reading its verdict's words and
-    nothing more ("" for none).
+    ``scheduling.services.meter_plausible_words``, as the phone said it), or ("Not judged", ``set_aside``) where it
+    was set aside as implausible ("75.0 °C is outside the plausible 0.0–60.0 °C; re-check the reading",
+    ``inspections.evaluation.set_aside_parts``: the check that would judge it cannot run without it); a judged
+    reading its verdict's words and nothing more ("" for none).
     """
     if code:
         return verdict_words(code), ""
-    return ("", "") if judged else (RECORDED_WORDS, checked or UNJUDGED_WORDS)
+    if judged:
+        return "", ""
+    return (NOT_JUDGED_WORDS, set_aside) if set_aside else (RECORDED_WORDS, checked or UNJUDGED_WORDS)
 
 
 # A keyword argument's name followed by "=" in an engineering message ("airflow_m3s=0.4",

@@ -21,7 +21,7 @@ from __future__ import annotations
 
 from .control_checks import damper_checks, drift_checks, duct_static_checks, supply_temperature_checks
 from .filter_checks import filter_change_checks, filter_loading_checks
-from .form import Form, Value
+from .form import Form, Value, set_aside_parts
 from .freeze_checks import freeze_trip_checks
 from .heat_checks import coil_checks, heat_recovery_checks
 from .readings import reading_result
@@ -29,7 +29,7 @@ from .results import CHECKS, Result, own_judgement
 from .valve_checks import valve_leak_checks
 from .ventilation_checks import full_oa_checks, oa_fraction_checks
 
-__all__ = ["CHECKS", "Form", "Result", "Value", "evaluate", "own_judgement"]
+__all__ = ["CHECKS", "Form", "Result", "Value", "evaluate", "own_judgement", "set_aside_parts"]
 
 
 def evaluate(form: Form) -> list[Result]:

@@ -98,13 +98,37 @@ def implausible_values(slots: list[Any], values: dict[Key, Value]) -> dict[Key, 
         x, quantity = v.number, it.quantity or ""
         if not ((lo is not None and x < lo) or (hi is not None and x > hi)):
             continue
-        if lo is not None and hi is not None:
-            where = [" not used: outside the plausible ", span(lo, hi, quantity)]
-        else:
-            where = [" not used: below the plausible ", qty(lo, quantity)] if lo is not None else []
-            where = where or [" not used: above the plausible ", qty(hi, quantity)]
-        out[key] = [f"{it.label.lower()} ", qty(x, quantity, _shown_decimals(it)), *where]
+        out[key] = [
+            f"{it.label.lower()} ",
+            qty(x, quantity, _shown_decimals(it)),
+            " not used: ",
+            *_outside(lo, hi, quantity),
+        ]
     return out
+
+
+def _outside(lo: float | None, hi: float | None, quantity: str) -> list:
+    """Where a number lies against its plausible range, as reason parts: "outside the plausible 50–5000 rpm"."""
+    if lo is not None and hi is not None:
+        return ["outside the plausible ", span(lo, hi, quantity)]
+    return (
+        ["below the plausible ", qty(lo, quantity)] if lo is not None else ["above the plausible ", qty(hi, quantity)]
+    )
+
+
+def set_aside_parts(item: Any, value: float | None, limits: dict) -> list:
+    """Why a reading set aside as implausible was not judged, as reason parts: "75.0 °C is outside the plausible
+    0.0–60.0 °C; re-check the reading" (a limit may well apply to it; it was not judged because no check used it,
+    ``Form.set_aside``); [] for a value within its plausible range. The phone's twin: evaluate.js setAsideParts."""
+    lo, hi = limits.get("plausible_min"), limits.get("plausible_max")
+    if (
+        value is None
+        or item.kind != "number"
+        or not ((lo is not None and value < lo) or (hi is not None and value > hi))
+    ):
+        return []
+    quantity = item.quantity or ""
+    return [qty(value, quantity, _shown_decimals(item)), " is ", *_outside(lo, hi, quantity), "; re-check the reading"]
 
 
 def _fan(form: Form):

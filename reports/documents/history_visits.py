@@ -124,7 +124,7 @@ def history_visit(
     for r in recorded + [
         r for rs in loose.values() for r in rs if (r.item.template.code, r.component_id) not in attached
     ]:
-        verdict, unjudged = reading_verdict(r, judged=False)  # no judgement owns it
+        verdict, unjudged = reading_verdict(r, judged=False, system=system)  # no judgement owns it
         rows.append(
             {
                 "check": r.item.label,

@@ -108,7 +108,12 @@ def visit_records(
                     "place": "" if r.item.template.code == "visit" else place_words(r.component),
                     "value": reading_value(r, system),
                     "verdict": (
-                        said := reading_verdict(r, judged=(r.item.api_key, r.component_id) in judged, meter=meter)
+                        said := reading_verdict(
+                            r,
+                            judged=(r.item.api_key, r.component_id) in judged,
+                            meter=meter,
+                            system=system,
+                        )
                     )[0],
                     "unjudged": said[1],
                     "verdict_code": reading_verdict_code(r, meter=meter),

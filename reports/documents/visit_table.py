@@ -173,7 +173,7 @@ def visit_parts(
         if main is not None:
             reason = main["reason"] or reason
         limit, reason = _row_limit(main["e"] if main else None, item.quantity, system, reason, item.decimals)
-        verdict, unjudged = reading_verdict(r, judged=bool(judged), meter=meter)
+        verdict, unjudged = reading_verdict(r, judged=bool(judged), meter=meter, system=system)
         shown_reason = unjudged or ("" if says_nothing_more(reason, item.label, value, r.verdict) else reason)
         already = " ".join([value, limit, reason, *(ev["e"].method for ev in judged)])
         details = [d for ev in judged for d in _details(ev["derived"], already=already, readings=values)]

@@ -10,8 +10,9 @@ from engineering.controls import Verdict
 from engineering.formatting import quantity_text
 from inspections import display, reasons
 from inspections.display import VERDICT_WORDS
+from inspections.evaluation import set_aside_parts
 from inspections.models import Inspection, Reading
-from inspections.selectors import reason_for
+from inspections.selectors import item_limits, reason_for
 from inventory.models import AHU
 from scheduling.services import meter_reading_words
 
@@ -26,12 +27,13 @@ VERDICTS = {code: words for code, words in VERDICT_WORDS.items() if code}
 MeterSaid = tuple[str, str]
 
 
-def reading_verdict(reading: Reading, *, judged: bool, meter: MeterSaid = ("", "")) -> tuple[str, str]:
+def reading_verdict(reading: Reading, *, judged: bool, meter: MeterSaid = ("", ""), system: str) -> tuple[str, str]:
     """A reading's verdict beside it on the record page and in the PDFs, as the phone says it (``judged``: a check
     judged it): (its words, what they mean), "Recorded" and "no limit applies to this reading" for a value no
     check judged (inspections.display.reading_verdict_words), or for the run-hour value what the meter rule says of
     it (``meter``, from ``run_hours_words``): "Recorded — plausible: …", or "Watch — below the last reading of …
-    — meter replaced or misread?". A photo, a note, an N/A or an empty answer has no value to judge: ("", "")."""
+    — meter replaced or misread?"; or "Not judged" and why for a value set aside as implausible (``set_aside_words``,
+    in the reader's ``system``). A photo, a note, an N/A or an empty answer has no value to judge: ("", "")."""
     item = reading.item
     nothing = reading.value_text == "na" or (reading.value_si is None and not reading.value_text)
     if not reading.verdict and (item.kind in (item.Kind.PHOTO, item.Kind.TEXT) or nothing):
@@ -39,7 +41,16 @@ def reading_verdict(reading: Reading, *, judged: bool, meter: MeterSaid = ("", "
     code, words = meter if item.api_key == RUN_HOURS_ITEM and not reading.verdict else ("", "")
     if code:
         return display.verdict_words(code), words
-    return display.reading_verdict_words(reading.verdict, judged=judged, checked=words)
+    said = set_aside_words(reading, system) if reading.improbable and not (reading.verdict or judged) else ""
+    return display.reading_verdict_words(reading.verdict, judged=judged, checked=words, set_aside=said)
+
+
+def set_aside_words(reading: Reading, system: str) -> str:
+    """Why a reading set aside as implausible was not judged, in the reader's units ("75.0 °C is outside the
+    plausible 0.0–60.0 °C; re-check the reading", inspections.evaluation.set_aside_parts, as the phone says it),
+    against the limits its checklist gave it; "" for a value within them."""
+    limits = item_limits(item=reading.item, ahu=reading.inspection.ahu, component=reading.component)
+    return reasons.render(set_aside_parts(reading.item, reading.value_si, limits), system)
 
 
 def reading_verdict_code(reading: Reading, *, meter: MeterSaid = ("", "")) -> str:

@@ -1,4 +1,5 @@
-"""On the phone, a reading outside its plausible range is said unusual and used by no check (the server alike)."""
+"""On the phone, a reading outside its plausible range is used by no check (the server alike), and one no check
+judged reads "Not judged" and why, as the record says it (inspections.display reading_verdict_words)."""
 
 import re
 
@@ -37,7 +38,9 @@ def test_a_fan_speed_typed_as_12_5_rpm_does_not_hide_a_torn_pre_filter(page, liv
     wait_app(page)
 
     page.locator("#r-visit-supply_fan_speed-unit").fill("12.5")
-    expect(page.locator("#r-visit-supply_fan_speed-unit-verdict")).to_contain_text("unusual value")
+    # Set aside and judged by nothing: said so, as the record will say it, never "no limit applies".
+    speed = page.locator("#r-visit-supply_fan_speed-unit-verdict")
+    expect(speed).to_have_text("Not judged — 12.5 rpm is outside the plausible 50–5000 rpm; re-check the reading")
     dp_id = f"r-filter_check-dp-{bank.label_code}"
     page.locator(f"#{dp_id}").fill("12.5")
     verdict = page.locator(f"#{dp_id}-verdict")

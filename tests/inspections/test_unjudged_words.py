@@ -16,7 +16,7 @@ from tests.factories.inspections import make_visit
 
 pytestmark = pytest.mark.django_db
 
-PLAIN = {"recorded": "Recorded", "unjudged": "no limit applies to this reading"}
+PLAIN = {"recorded": "Recorded", "unjudged": "no limit applies to this reading", "not_judged": "Not judged"}
 
 
 def test_the_words_are_plain_and_name_no_judge():

@@ -1,7 +1,7 @@
 // The checklist page: every reading judged on the phone the moment it is entered (evaluate.js, the
 // twin of the server's evaluation), photos, signature, and the finished form into the outbox.
 import { debounce, loadDraft, saveDraft } from "./drafts.js";
-import { evaluate, readingKey, reasonIn } from "./evaluate.js";
+import { evaluate, readingKey, reasonIn, setAsideParts } from "./evaluate.js";
 import { formFlags } from "./formcheck.js";
 import { startFormNav } from "./formnav.js";
 import { outOfRange, plausibility } from "./limits.js";
@@ -10,7 +10,7 @@ import { meterReadingCheck, meterWords } from "./meter.js";
 import { newUuid, outboxPut } from "./outbox.js";
 import { attachSignature } from "./signature.js";
 import { announce, currentOwner, myOutbox, myResults, syncOutbox } from "./sync.js";
-import { fromDisplay, pageClock, timeText, toDisplay } from "./units.js";
+import { fromDisplay, pageClock, render, timeText, toDisplay } from "./units.js";
 
 const PHOTO_MAX_SIDE = 1600;
 
@@ -176,10 +176,13 @@ function showVerdicts(form, ctx, at = new Date()) {
     const checked = key === RUN_HOURS_KEY && !meter && ctx ? meterWords(ctx.meter, value, at).text : "";
     // No check judges it: the server's words (inspections.display reading_words, in the checklist's context), or
     // for run-hours what the meter rule checked, as the record says it (meter_words.meter_words).
+    // Set aside as implausible and judged by nothing: "Not judged — 75.0 °C is outside the plausible 0.0–60.0 °C;
+    // re-check the reading" (inspections.display reading_verdict_words), never the words of a reading no limit has.
     const words = (ctx && ctx.words) || {};
-    const said = checked || words.unjudged;
-    if (!mine.length) out.append(badge("recorded", words.recorded), said ? ` — ${said}` : "");
-    if (range.improbable) out.append(`; ${range.text}`);
+    const aside = !mine.length && range.improbable && ctx ? render(ctx, setAsideParts(ctx, key, readings[key]), system) : "";
+    const said = aside || checked || words.unjudged;
+    if (!mine.length) out.append(badge("recorded", aside ? words.not_judged : words.recorded), said ? ` — ${said}` : "");
+    if (range.improbable && !aside) out.append(`; ${range.text}`);
     out.dataset.phoneVerdict = mine.length ? mine.map((r) => r.verdict).join(" ") : "recorded";
   }
   found.byKey = byKey;

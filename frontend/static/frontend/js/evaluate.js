@@ -540,13 +540,32 @@ function implausibleValues(ctx, readings) {
     if (slot.kind !== "number" || typeof x !== "number" || !Number.isFinite(x)) continue;
     if (!((lo !== null && x < lo) || (hi !== null && x > hi))) continue;
     const quantity = slot.quantity || "";
-    let where;
-    if (lo !== null && hi !== null) where = [" not used: outside the plausible ", span(lo, hi, quantity)];
-    else if (lo !== null) where = [" not used: below the plausible ", q(lo, quantity)];
-    else where = [" not used: above the plausible ", q(hi, quantity)];
-    out.set(key, { component: slot.component || "", parts: [`${slot.label.toLowerCase()} `, q(x, quantity, shownDecimals(ctx, slot)), ...where] });
+    const where = outsidePlausible(lo, hi, quantity);
+    out.set(key, { component: slot.component || "", parts: [`${slot.label.toLowerCase()} `, q(x, quantity, shownDecimals(ctx, slot)), " not used: ", ...where] });
   }
   return out;
+}
+
+// Where a number lies against its plausible range (inspections.evaluation.form._outside).
+function outsidePlausible(lo, hi, quantity) {
+  if (lo !== null && hi !== null) return ["outside the plausible ", span(lo, hi, quantity)];
+  return lo !== null ? ["below the plausible ", q(lo, quantity)] : ["above the plausible ", q(hi, quantity)];
+}
+
+/**
+ * Why a reading set aside as implausible was not judged, as reason parts (inspections.evaluation.set_aside_parts):
+ * "75.0 °C is outside the plausible 0.0–60.0 °C; re-check the reading"; [] for a value within its range or a
+ * reading the checklist does not ask. ``x`` is in SI, as the readings ``evaluate`` takes.
+ */
+export function setAsideParts(ctx, key, x) {
+  const slot = (ctx.slots || []).find((s) => readingKey(s.item, s.component) === key);
+  if (!slot || slot.kind !== "number" || typeof x !== "number" || !Number.isFinite(x)) return [];
+  const lim = slot.limits || {};
+  const lo = lim.plausible_min ?? null;
+  const hi = lim.plausible_max ?? null;
+  if (!((lo !== null && x < lo) || (hi !== null && x > hi))) return [];
+  const quantity = slot.quantity || "";
+  return [q(x, quantity, shownDecimals(ctx, slot)), " is ", ...outsidePlausible(lo, hi, quantity), "; re-check the reading"];
 }
 
 class Form {
