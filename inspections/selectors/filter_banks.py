@@ -250,12 +250,14 @@ def filter_series_for(
 
 def _filter_rows(*, banks: list[Component], before: dt.datetime | None):
     """The banks' filter readings and changes, (component id, template code, item key, value, inspection id,
-    finished at), in time order; of forms finished before ``before`` only, when given (one query)."""
+    finished at), in time order; of forms finished before ``before`` only, when given (one query). A pressure drop
+    outside its plausible range (flagged ``improbable`` at the sync) is left out, as the evaluation sets it aside."""
+    dp = Q(value_si__isnull=False, improbable=False)
     rows = (
         Reading.objects.filter(component__in=banks)
         .filter(
-            Q(item__template__code="filter_check", item__key="dp", value_si__isnull=False)
-            | Q(item__template__code="filter_replace", item__key="dp_after", value_si__isnull=False)
+            Q(dp, item__template__code="filter_check", item__key="dp")
+            | Q(dp, item__template__code="filter_replace", item__key="dp_after")
             | Q(item__template__code="filter_replace", item__key="replaced", value_text="ok")
         )
         .values_list(

@@ -220,3 +220,19 @@ def test_a_form_sees_the_filter_readings_of_an_earlier_form_of_the_same_request(
     # first form's reading there would be two, and "no change forecast yet".
     [final] = [reason for reason in together if reason.startswith("Final filters")]
     assert "change forecast 28 April 2025" in final and "no change forecast" not in final, final
+
+
+def test_a_pressure_drop_outside_its_plausible_range_stays_out_of_the_filter_history_and_forecast(api_client):
+    """Final filters read 120 Pa, then 1400 Pa (a slip: plausible 5–1000 Pa, kept and flagged, judged by no check),
+    then 170 Pa, at design airflow: the series, and so the change forecast of the next visit, read 120 and 170 Pa
+    only, as the evaluation sets such a reading aside for the visit itself (``Form.set_aside``)."""
+    first, tech = make_visit(tasks=["filter_check"])
+    ahu = first.ahu
+    flagged = _visit(api_client, ahu, tech, 30, 1_300, 3.0, 1_400, None)
+    assert flagged["status"] == "flagged"
+    for days, hours, dp in ((0, 1_000, 120), (60, 1_600, 170)):
+        _visit(api_client, ahu, tech, days, hours, 3.0, dp, None)
+    final = ahu.components.get(name="Final filters")
+    assert [round(p.dp_pa) for p in filter_series(component=final).points] == [120, 170]
+    points = filter_points_for(ahu, DAY0 + dt.timedelta(days=90))(final)
+    assert [(round(p.dp_pa), p.run_hours) for p in points] == [(120, 1_000), (170, 1_600)]
