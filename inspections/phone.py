@@ -29,7 +29,7 @@ from engineering.units import SYSTEMS
 from inspections import flags
 from inspections.display import DRIFT_QUANTITIES, reading_words
 from inspections.evaluation import control_checks, heat_checks, valve_checks, ventilation_checks
-from inspections.evaluation.results import ITEM_CONDITIONS
+from inspections.evaluation.results import ITEM_CONDITIONS, SPANNING_CHECKS
 from inspections.selectors.filter_banks import FILTER_READING
 
 CONTEXT_VERSION = 2  # 2: filter points carry their source and time (evaluate.js onOneMeter)
@@ -250,6 +250,14 @@ def meter_context(*, ahu, as_of: dt.datetime) -> dict[str, Any]:
     }
 
 
+def check_labels() -> dict[str, str]:
+    """The plain names of the checks of several readings (``SPANNING_CHECKS``), as the record page names them
+    (``selectors.CHECK_LABELS``): the phone shows each on a line of its own (evaluate.js ownLineLabel)."""
+    from inspections.selectors import CHECK_LABELS
+
+    return {check: CHECK_LABELS[check] for check in sorted(SPANNING_CHECKS)}
+
+
 def checklist_context(*, checklist, as_of: dt.datetime) -> dict[str, Any]:
     """The evaluation context of one work order's checklist (``selectors.checklist_build``), as of a moment.
 
@@ -270,6 +278,7 @@ def checklist_context(*, checklist, as_of: dt.datetime) -> dict[str, Any]:
         "meter": meter_context(ahu=ahu, as_of=as_of),
         # A reading no check judges, in the server's words (inspections.display).
         "words": reading_words(),
+        "check_labels": check_labels(),
         **form_flags_context(slots=checklist.slots),
     }
 

@@ -116,3 +116,51 @@ def test_calculator_works_offline_in_the_persons_units(page, context, live_serve
     expect(result).to_contain_text(f"{server['Pressure drop at design airflow']} in. w.c.")
     expect(result).to_contain_text(f"{server['Loading (clean = 0 %, final = 100 %)']} %")
     assert server["Verdict"] == "fail"
+
+
+def test_a_coil_heat_balance_shows_on_its_own_line_under_the_coil_and_the_flow_reads_recorded(
+    page, live_server, sign_in, offline
+):
+    """Offline at 360 px: a heating coil whose air side (3 m³/s, 10 → 30 °C, 70.3 kW) and water side (0.5 L/s,
+    70 → 50 °C, 41.2 kW) are 41 % apart fails its heat balance (20 % watch limit, common practice) on a line of its
+    own after the coil's last field, "Coil heat balance — Heating coil", as the record page says it; the flow,
+    which no check judges, reads "Recorded" (the balance is not the flow's verdict)."""
+    from tests.factories.scheduling import add_task
+    from tests.frontend import scenario as scenario_module
+
+    world = scenario_module.build()
+    coil = world.unit_a.components.get(name="Heating coil")
+    add_task(world.work_a, "coil_clean", coil)
+
+    page.set_viewport_size(PHONE)
+    sign_in(page, world.technician)
+    expect(page).to_have_url(re.compile(r"/today/$"))
+    page.wait_for_function("Number(document.documentElement.dataset.offlineSaved) >= 3", timeout=20000)
+    page.get_by_role("link", name=re.compile("AHU-01")).first.click()
+    wait_app(page)
+
+    offline(True)
+    page.locator("#r-visit-supply_airflow-unit").fill("3")
+    for key, value in [("air_in", "10"), ("air_out", "30"), ("water_in", "70"), ("water_out", "50")]:
+        page.locator(f"#r-coil_clean-{key}-{coil.label_code}").fill(value)
+    flow_id = f"r-coil_clean-water_flow-{coil.label_code}"
+    line = page.locator("output[data-own-check]")
+    expect(line).to_have_count(0)  # four of its five readings: nothing to balance yet
+    page.locator(f"#{flow_id}").fill("0.5")
+    expect(line).to_have_count(1)
+    expect(line.locator(".verdict")).to_have_text("Fail")
+    expect(line).to_contain_text("Coil heat balance — Heating coil:")
+    expect(line).to_contain_text("% apart")
+    expect(line).not_to_contain_text("Heating coil: Heating coil")
+    flow = page.locator(f"#{flow_id}-verdict")
+    expect(flow).to_contain_text("Recorded")
+    expect(flow).not_to_contain_text("apart")
+    # Under the coil's fields, inside the phone's width.
+    coil_fields = page.locator(f"[data-item^='coil_clean.'][data-component='{coil.label_code}']")
+    last = coil_fields.nth(coil_fields.count() - 1).bounding_box()
+    box = line.bounding_box()
+    assert last and box and box["y"] >= last["y"] + last["height"] - 1
+    assert box["x"] >= 0 and box["x"] + box["width"] <= PHONE["width"]
+    # A reading it needs cleared: the line goes.
+    page.locator(f"#{flow_id}").fill("")
+    expect(line).to_have_count(0)

@@ -1,7 +1,7 @@
 // The checklist page: every reading judged on the phone the moment it is entered (evaluate.js, the
 // twin of the server's evaluation), photos, signature, and the finished form into the outbox.
 import { debounce, loadDraft, saveDraft } from "./drafts.js";
-import { evaluate, readingKey, reasonIn, setAsideParts } from "./evaluate.js";
+import { evaluate, ownJudgement, ownLineLabel, readingKey, reasonIn, resultsByPlace, setAsideParts } from "./evaluate.js";
 import { formFlags } from "./formcheck.js";
 import { startFormNav } from "./formnav.js";
 import { outOfRange, plausibility } from "./limits.js";
@@ -136,11 +136,9 @@ function showVerdicts(form, ctx, at = new Date()) {
   } catch (error) {
     results = [];
   }
-  const byKey = new Map();
-  for (const r of results) {
-    const key = readingKey(r.item, r.component);
-    byKey.set(key, [...(byKey.get(key) || []), r]);
-  }
+  // A reading's own verdicts under it; a check of several readings (a coil's heat balance) on a line of its own
+  // under its part, never as the verdict of the reading it names (the server's own_judgement).
+  const { byReading: byKey, ownLines } = resultsByPlace(ctx, results);
   for (const { block, key, value, range } of blocks) {
     const out = verdictBox(block);
     if (!out) continue;
@@ -185,9 +183,32 @@ function showVerdicts(form, ctx, at = new Date()) {
     if (range.improbable && !aside) out.append(`; ${range.text}`);
     out.dataset.phoneVerdict = mine.length ? mine.map((r) => r.verdict).join(" ") : "recorded";
   }
+  showOwnLines(form, ctx, ownLines, system);
   found.byKey = byKey;
   found.meterCheck = meterCheck;
   return found;
+}
+
+// The checks of several readings, each on a line after the last field of its part in its checklist: "Fail Coil
+// heat balance — Heating coil: air side 70.3 kW, water side 41.2 kW, 41 % apart". Kept while it stands, so a
+// screen reader hears a change once; gone when a reading it needs is cleared.
+function showOwnLines(form, ctx, ownLines, system) {
+  const kept = new Set();
+  for (const { result: r, label } of ownLines) {
+    const template = r.item.split(".")[0];
+    const blocks = [...form.querySelectorAll(`[data-item^="${template}."][data-component="${r.component || ""}"]`)];
+    if (!blocks.length) continue;
+    const id = `${r.check}|${template}|${r.component || ""}`;
+    let out = [...form.querySelectorAll("output[data-own-check]")].find((o) => o.dataset.ownCheck === id);
+    if (!out) {
+      out = el("output", { class: "hint own-check", "data-own-check": id, "aria-live": "polite" });
+    }
+    blocks[blocks.length - 1].after(out);
+    out.replaceChildren(badge(r.verdict), ` ${label}: ${withoutPart(reasonIn(ctx, r, system), label)}`);
+    out.dataset.phoneVerdict = r.verdict;
+    kept.add(out);
+  }
+  for (const old of form.querySelectorAll("output[data-own-check]")) if (!kept.has(old)) old.remove();
 }
 
 // ---------------------------------------------------------------------------------------------------------------
@@ -389,7 +410,7 @@ function formLabels() {
   return labels;
 }
 
-async function renderResult(box, result) {
+async function renderResult(box, result, ctx = evaluationContext()) {
   const section = el("section", { class: "card", "data-server-result": result.status });
   section.append(el("h2", {}, "Evaluation by the server"));
   const state = result.work_order_state ? STATE_WORDS[result.work_order_state] || "" : "";
@@ -404,7 +425,8 @@ async function renderResult(box, result) {
     // The derived values wait for the server's own rendering (labelled, in the person's units).
     // The label names the part ("Pressure drop — Final filters"): the reason does not say it again
     // (inspections/reasons.py text_without_subject).
-    const label = labels.get(readingKey(e.item, e.component || null)) || "Evaluation";
+    // A check of several readings (a coil's heat balance) by its own name and part, never the reading it names.
+    const label = ownJudgement(e.check) ? labels.get(readingKey(e.item, e.component || null)) || "Evaluation" : ownLineLabel(ctx, e);
     const reason = withoutPart(e.reason, label);
     list.append(el("li", {}, el("span", { class: `verdict ${e.verdict}` }, VERDICT_WORDS[e.verdict] || "Recorded"),
       ` ${label}: ${reason}`));

@@ -19,6 +19,12 @@ export const CHECKS = [
   "coil_valve_leak",
 ];
 
+// Checks of several readings (inspections/evaluation/results.py SPANNING_CHECKS): a coil's heat balance names the
+// flow only as its place, never as the flow's verdict. The form shows each on a line of its own under its part, as
+// the record page and the PDF do (tests/inspections/test_phone_agreement.py holds the two lists equal).
+export const SPANNING_CHECKS = ["coil_balance"];
+export const ownJudgement = (check) => !SPANNING_CHECKS.includes(check);
+
 const RANK = { [OK]: 0, [WATCH]: 1, [FAIL]: 2 };
 const worst = (...vs) => vs.reduce((a, b) => (RANK[b] > RANK[a] ? b : a), OK);
 
@@ -566,6 +572,27 @@ export function setAsideParts(ctx, key, x) {
   if (!((lo !== null && x < lo) || (hi !== null && x > hi))) return [];
   const quantity = slot.quantity || "";
   return [q(x, quantity, shownDecimals(ctx, slot)), " is ", ...outsidePlausible(lo, hi, quantity), "; re-check the reading"];
+}
+
+/** The plain name of a check of several readings and its part: "Coil heat balance — Heating coil" (the server's
+ * CHECK_LABELS, shipped as ``ctx.check_labels``; the part's name from the context's components). */
+export function ownLineLabel(ctx, res) {
+  const part = ((ctx && ctx.components) || []).find((c) => c.code === res.component);
+  const name = ((ctx && ctx.check_labels) || {})[res.check] || "Check of several readings";
+  return part ? `${name} — ${part.name}` : name;
+}
+
+/** Results as the form shows them: each reading's own verdicts by its reading key, and the checks of several
+ * readings apart, each with its label (``ownLineLabel``) and the reading key it is shown under. */
+export function resultsByPlace(ctx, results) {
+  const byReading = new Map();
+  const ownLines = [];
+  for (const res of results) {
+    const key = readingKey(res.item, res.component);
+    if (ownJudgement(res.check)) byReading.set(key, [...(byReading.get(key) || []), res]);
+    else ownLines.push({ result: res, key, label: ownLineLabel(ctx, res) });
+  }
+  return { byReading, ownLines };
 }
 
 class Form {
