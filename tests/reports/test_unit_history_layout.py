@@ -158,6 +158,7 @@ def _visit(ahu, tech, parts, month, hours, airflow_ls, pre_dp, final_dp, t_out) 
             _r("preheater_freeze.airflow_interlock", "ok", heater),
             _r("preheater_freeze.primary_limit", "ok", heater),
             _r("preheater_freeze.high_limit", "ok", heater),
+            _r("preheater_freeze.set_points_restored", "ok", heater),
             _r("preheater_freeze.freeze_trip_temp", 4.5),
             _r("preheater_freeze.freeze_trip_test", "ok"),
         ]
@@ -166,6 +167,8 @@ def _visit(ahu, tech, parts, month, hours, airflow_ls, pre_dp, final_dp, t_out) 
     with time_machine.travel(finished + dt.timedelta(hours=1), tick=False):
         result = inspection_submit(user=tech, form=form)
     assert result["status"] in ("stored", "flagged"), result
+    if month == PREHEATER_TEST:  # every step of the freeze-protection test answered: not flagged incomplete
+        assert not [f for f in result["flags"] if f["code"] == "incomplete"], result["flags"]
 
 
 @pytest.fixture
