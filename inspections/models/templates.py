@@ -62,7 +62,7 @@ class ChecklistItem(models.Model):
     limits_from = models.CharField(
         max_length=40, blank=True, help_text="Name of a rule that sets the bands from the unit or component."
     )
-    limits_source = models.CharField(max_length=200, blank=True)
+    limits_source = models.TextField(blank=True)  # a source named beside the check value, as long as it needs
     judged_on_server = models.BooleanField(default=False)
     required = models.BooleanField(default=False)
     photo_required_when_not_ok = models.BooleanField(default=False)
