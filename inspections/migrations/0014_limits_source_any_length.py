@@ -5,7 +5,7 @@ from django.db import migrations, models
 
 class Migration(migrations.Migration):
     dependencies = [
-        ("inspections", "0012_coil_balance_off_the_flow_reading"),
+        ("inspections", "0013_checklist_item_note_flag_gone"),
     ]
 
     operations = [
