@@ -30,12 +30,14 @@ from .models import Component
 from .serializers import (
     AHUInput,
     AHUOutput,
+    AHUSavedOutput,
     AHUTreeOutput,
     BuildingInput,
     BuildingOutput,
     ComponentInput,
     ComponentKindOutput,
     ComponentOutput,
+    ComponentSavedOutput,
     ImportInput,
     ImportJobOutput,
     ImportResultOutput,
@@ -160,13 +162,13 @@ class AHUListView(APIView):
         qs = selectors.ahus_visible_to(user=request.user)
         return page_answer(request, self, filtered(AHUFilter, request, qs), AHUOutput)
 
-    @extend_schema(summary="Add a unit", request=AHUInput, responses={201: AHUOutput, 400: R400, 403: R403})
+    @extend_schema(summary="Add a unit", request=AHUInput, responses={201: AHUSavedOutput, 400: R400, 403: R403})
     def post(self, request):
         data = AHUInput(data=request.data, context={"request": request})
         data.is_valid(raise_exception=True)
         require_manages(user=request.user, site_id=data.validated_data["building"].site_id)
         ahu = services.ahu_create(**data.validated_data)
-        return Response(AHUOutput(ahu).data, status=status.HTTP_201_CREATED)
+        return Response(AHUSavedOutput(ahu).data, status=status.HTTP_201_CREATED)
 
 
 class AHUDetailView(APIView):
@@ -178,7 +180,11 @@ class AHUDetailView(APIView):
         return Response(AHUOutput(self._get(request, pk)).data)
 
     @extend_schema(
-        summary="Change a unit", request=AHUInput, responses={200: AHUOutput, 400: R400, 403: R403, 404: R404}
+        summary="Change a unit",
+        description="The answer's `warnings` judge the unit's parts against it as saved (a filter bank's design "
+        "airflow outside 50–110 % of the unit's design supply airflow, a fan motor far from its design point).",
+        request=AHUInput,
+        responses={200: AHUSavedOutput, 400: R400, 403: R403, 404: R404},
     )
     def patch(self, request, pk: int):
         ahu = self._get(request, pk)
@@ -188,7 +194,7 @@ class AHUDetailView(APIView):
         if "building" in data.validated_data:
             require_manages(user=request.user, site_id=data.validated_data["building"].site_id)
         ahu = services.ahu_update(ahu=ahu, **data.validated_data)
-        return Response(AHUOutput(ahu).data)
+        return Response(AHUSavedOutput(ahu).data)
 
 
 class AHUTreeView(APIView):
@@ -218,16 +224,17 @@ class ComponentListView(APIView):
 
     @extend_schema(
         summary="Add a component",
-        description="Specs are validated per kind (see component-kinds); errors are keyed `specs.<field>`.",
+        description="Specs are validated per kind (see component-kinds); errors are keyed `specs.<field>`. Values "
+        "saved but unlikely are listed in the answer's `warnings`, keyed alike.",
         request=ComponentInput,
-        responses={201: ComponentOutput, 400: R400, 403: R403},
+        responses={201: ComponentSavedOutput, 400: R400, 403: R403},
     )
     def post(self, request):
         data = ComponentInput(data=request.data, context={"request": request})
         data.is_valid(raise_exception=True)
         require_manages(user=request.user, site_id=data.validated_data["ahu"].building.site_id)
         component = services.component_create(**data.validated_data)
-        return Response(ComponentOutput(component).data, status=status.HTTP_201_CREATED)
+        return Response(ComponentSavedOutput(component).data, status=status.HTTP_201_CREATED)
 
 
 class ComponentDetailView(APIView):
@@ -241,7 +248,7 @@ class ComponentDetailView(APIView):
     @extend_schema(
         summary="Change a component",
         request=ComponentInput,
-        responses={200: ComponentOutput, 400: R400, 403: R403, 404: R404},
+        responses={200: ComponentSavedOutput, 400: R400, 403: R403, 404: R404},
     )
     def patch(self, request, pk: int):
         component = self._get(request, pk)
@@ -251,7 +258,7 @@ class ComponentDetailView(APIView):
         if "ahu" in data.validated_data:
             require_manages(user=request.user, site_id=data.validated_data["ahu"].building.site_id)
         component = services.component_update(component=component, **data.validated_data)
-        return Response(ComponentOutput(component).data)
+        return Response(ComponentSavedOutput(component).data)
 
     @extend_schema(
         summary="Remove a component (and the parts inside it)",

@@ -15,7 +15,7 @@ from accounts.models import Organisation
 from . import selectors
 from .inputs import ahu_number_check
 from .models import AHU, Building, Component, ImportJob, Site
-from .services import label_absolute_url
+from .services import component_warnings, label_absolute_url, unit_warnings
 
 
 class NamesValueMixin:
@@ -214,6 +214,52 @@ class ComponentOutput(serializers.ModelSerializer):
 
     def get_label_url(self, obj) -> str:
         return label_absolute_url(code=obj.label_code)
+
+
+class PartWarningOutput(serializers.Serializer):
+    component = serializers.IntegerField(help_text="The part (component id) the warning is about.")
+    component_name = serializers.CharField()
+    field = serializers.CharField(help_text="Its spec field, keyed as a refusal of it is: `specs.<field>`.")
+    message = serializers.CharField(help_text="What is unlikely and what is usual, in SI units.")
+
+
+def _part_warnings(pairs: list) -> list[dict]:
+    rows = [
+        {"component": part.pk, "component_name": part.name, "field": f"specs.{w.field}", "message": w.message}
+        for part, w in pairs
+    ]
+    return list(PartWarningOutput(rows, many=True).data)
+
+
+WARNINGS_HELP = "Values saved but unlikely (odd plants exist): check them; nothing was refused."
+
+
+class ComponentSavedOutput(ComponentOutput):
+    """A component as saved, with what is unlikely in its specs (inventory.services.component_warnings)."""
+
+    warnings = serializers.SerializerMethodField(help_text=WARNINGS_HELP)
+
+    class Meta(ComponentOutput.Meta):
+        fields = [*ComponentOutput.Meta.fields, "warnings"]
+        read_only_fields = fields
+
+    @extend_schema_field(PartWarningOutput(many=True))
+    def get_warnings(self, obj) -> list[dict]:
+        return _part_warnings([(obj, w) for w in component_warnings(component=obj)])
+
+
+class AHUSavedOutput(AHUOutput):
+    """A unit as saved, with what its design supply airflow makes unlikely in its parts (unit_warnings)."""
+
+    warnings = serializers.SerializerMethodField(help_text=WARNINGS_HELP + " Each names the part it is about.")
+
+    class Meta(AHUOutput.Meta):
+        fields = [*AHUOutput.Meta.fields, "warnings"]
+        read_only_fields = fields
+
+    @extend_schema_field(PartWarningOutput(many=True))
+    def get_warnings(self, obj) -> list[dict]:
+        return _part_warnings(unit_warnings(ahu=obj))
 
 
 class ComponentInput(NamesValueMixin, serializers.ModelSerializer):

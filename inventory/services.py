@@ -219,6 +219,13 @@ def component_warnings(*, component: Component, system: str = "si") -> list[Spec
     )
 
 
+def unit_warnings(*, ahu: AHU, system: str = "si") -> list[tuple[Component, SpecWarning]]:
+    """What is allowed but unlikely in the specs of a unit's parts in service, each with its part: after the unit's
+    own design supply airflow changes its filter banks are judged against it anew (component_warnings)."""
+    parts = ahu.components.filter(retired_on__isnull=True).order_by("position", "pk")
+    return [(part, warning) for part in parts for warning in component_warnings(component=part, system=system)]
+
+
 @transaction.atomic
 def component_retire(
     *, component: Component, on: dt.date, by: "User | None" = None, reason: str = ""

@@ -162,6 +162,7 @@ def _unit_form(request, *, ahu: AHU | None):
                 else:
                     inventory_services.ahu_update(ahu=ahu, by=request.user, **clean)
                     messages.success(request, f"{ahu.display_name} saved.")
+                    _warn_parts(request, ahu, system)
                 return redirect("frontend:registry_unit", pk=ahu.pk)
             except ValidationError as exc:
                 errors = service_errors(exc)
@@ -190,6 +191,12 @@ def _unit_form(request, *, ahu: AHU | None):
         back=reverse("frontend:registry_unit", args=[ahu.pk]),
         status=200,
     )
+
+
+def _warn_parts(request, ahu: AHU, system: str) -> None:
+    """Say what the saved unit makes unlikely in its parts (inventory.services.unit_warnings) on the next page."""
+    for part, warning in inventory_services.unit_warnings(ahu=ahu, system=system):
+        messages.warning(request, f"Saved, but check {part.name}: {warning.message}")
 
 
 @login_required

@@ -180,3 +180,24 @@ def test_the_unit_page_shows_each_fans_design_speed_and_its_drive(scenario, logi
     page = _visible(client.get(reverse("frontend:registry_unit", args=[big_unit.pk])))
     assert "design speed 1120 rpm" in page
     assert "variable-speed drive: no" in page
+
+
+def test_changing_a_units_design_airflow_warns_of_its_filter_banks_anew_after_saving(scenario, login, big_unit):
+    """Bag filters sized for the unit's 6500 L/s: the unit raised to 20000 L/s leaves them at 32 %, said on the page
+    that follows the save (saved all the same); back at 6500 L/s, nothing said of them."""
+    from frontend.views.registry_units import unit_form_initial
+
+    client = login(scenario.supervisor)
+    assert client.post(reverse("frontend:registry_component_new", args=[big_unit.pk]), FILTERS).status_code == 302
+    form = {k: "1" if v is True else "" if v in (None, False) else str(v)
+            for k, v in unit_form_initial(ahu=big_unit, system="si").items()}  # fmt: skip
+    edit = reverse("frontend:registry_unit_edit", args=[big_unit.pk])
+    r = client.post(edit, {**form, "design_supply_airflow_m3s": "20000"}, follow=True)
+    page = _visible(r)
+    assert "saved." in page
+    assert "Saved, but check Bag filters: Design airflow: 6500 L/s is 32% of the unit's design supply airflow" in page
+    assert 'class="warning" data-warning' in r.content.decode()
+    big_unit.refresh_from_db()
+    assert big_unit.design_supply_airflow_m3s == pytest.approx(20.0)
+    r = client.post(edit, {**form, "design_supply_airflow_m3s": "6500"}, follow=True)
+    assert "Saved, but check Bag filters" not in _visible(r)
