@@ -27,6 +27,7 @@ from .registry_form import (
     field_rows,
     form_page,
     read_fields,
+    say_saved_warnings,
     service_errors,
     spec_field_rows,
 )
@@ -158,8 +159,8 @@ def component_new(request, pk):
 
 def _warn(request, component: Component, system: str) -> None:
     """Say what was saved but is unlikely (inventory.services.component_warnings) on the page shown next."""
-    for warning in inventory_services.component_warnings(component=component, system=system):
-        messages.warning(request, f"Saved, but check {component.name}: {warning.message}")
+    warnings = inventory_services.component_warnings(component=component, system=system)
+    say_saved_warnings(request, [(component, w) for w in warnings])
 
 
 SPECS_KINDS = set(ComponentKind.values)

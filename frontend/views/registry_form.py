@@ -6,6 +6,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+from django.contrib import messages
 from django.core.exceptions import ValidationError
 from django.shortcuts import render
 from django.utils.text import slugify
@@ -283,3 +284,10 @@ def unique_code(name: str, taken) -> str:
 
 
 REASON = Field("reason", "Reason", kind="lines", max_length=300, hint="e.g. Replaced by AHU-05; removed in the refit.")
+
+
+def say_saved_warnings(request, pairs) -> None:
+    """Say on the page shown next what was saved but is unlikely, per part (``(component, SpecWarning)`` pairs
+    from inventory.services.component_warnings or unit_warnings), in one form for every registry page."""
+    for part, warning in pairs:
+        messages.warning(request, f"Saved, but check {part.name}: {warning.message}")

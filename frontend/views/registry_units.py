@@ -19,7 +19,17 @@ from inventory.today import today_for
 from scheduling.services.retire import unit_retire as unit_retire_service
 
 from ..specs_form import plain_number, spec_summary
-from .registry_form import REASON, Field, field_rows, form_page, read_fields, service_errors, shown_value, unit_text
+from .registry_form import (
+    REASON,
+    Field,
+    field_rows,
+    form_page,
+    read_fields,
+    say_saved_warnings,
+    service_errors,
+    shown_value,
+    unit_text,
+)
 from .registry_records import managed_buildings
 from .staff import managed_ahu, managed_organisation
 from .technician import unit_records_context
@@ -162,7 +172,7 @@ def _unit_form(request, *, ahu: AHU | None):
                 else:
                     inventory_services.ahu_update(ahu=ahu, by=request.user, **clean)
                     messages.success(request, f"{ahu.display_name} saved.")
-                    _warn_parts(request, ahu, system)
+                    say_saved_warnings(request, inventory_services.unit_warnings(ahu=ahu, system=system))
                 return redirect("frontend:registry_unit", pk=ahu.pk)
             except ValidationError as exc:
                 errors = service_errors(exc)
@@ -191,12 +201,6 @@ def _unit_form(request, *, ahu: AHU | None):
         back=reverse("frontend:registry_unit", args=[ahu.pk]),
         status=200,
     )
-
-
-def _warn_parts(request, ahu: AHU, system: str) -> None:
-    """Say what the saved unit makes unlikely in its parts (inventory.services.unit_warnings) on the next page."""
-    for part, warning in inventory_services.unit_warnings(ahu=ahu, system=system):
-        messages.warning(request, f"Saved, but check {part.name}: {warning.message}")
 
 
 @login_required
