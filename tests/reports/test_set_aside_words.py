@@ -37,7 +37,7 @@ def test_the_record_page_says_the_reading_was_not_judged_and_why(visit, client):
     client.force_login(visit.assignee)
     page = client.get(f"/w/{visit.public_id}/").content.decode()
     record = flat(page[page.index("data-record=") :])
-    row = record.split("Supply-air temperature:</span>", 1)[1].split("</li>", 1)[0]
+    row = record.split("Supply-air temperature — whole unit:</span>", 1)[1].split("</li>", 1)[0]
     assert f'<span class="verdict recorded">Not judged</span> — {WHY}' in row
     assert "no limit applies" not in row
 
