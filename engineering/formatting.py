@@ -14,7 +14,7 @@ in in. w.c. two decimals; a thermometer 0.1 °C or 0.1 °F.
 from __future__ import annotations
 
 import math
-from decimal import Decimal
+from decimal import ROUND_HALF_UP, Context, Decimal
 
 from engineering import units
 from engineering.units import UnitSystem
@@ -32,6 +32,7 @@ __all__ = [
     "significant_text",
     "storage_text",
     "stored_value",
+    "typed_decimals",
     "unit_text",
 ]
 
@@ -58,6 +59,11 @@ DECIMALS: dict[str, tuple[int, int]] = {
 }
 # A quantity not in the table reads to one decimal in either system.
 _OTHER_DECIMALS = (1, 1)
+# A value as typed shows at most this many decimals beyond none (a finer one is conversion noise, not typing).
+TYPED_DECIMALS_CAP = 3
+# Significant figures a value keeps when its typed decimals are counted: a value typed in one system and shown
+# back in it after storage in SI (0.055 in. w.c. → 13.699… Pa → 0.05500000000000001) reads as typed.
+_TYPED_FIGURES = 12
 
 
 def decimals_of(*, quantity: str, system: str, si_decimals: int | None = None) -> int:
@@ -103,27 +109,50 @@ def stored_value(value: float, *, quantity: str, system: str) -> float:
 
 
 def format_number(x: float, *, decimals: int) -> str:
-    """A number as people read it: ``decimals`` places (a tie rounds as Python's format does), a true minus
-    sign (−), never "−0", and no thousands separator (154000 Btu/h, 12075 h): a number a person reads may be
-    typed back into a field, where a comma is a decimal comma (``accounts.inputs.parse_number``), so "12,075"
-    would read 12.075; typed as shown, it reads the same number."""
-    text = f"{x:.{decimals}f}"
-    if float(text) == 0:
+    """A number as people read it: ``decimals`` places, a tie rounded half up (away from zero) on the number as
+    written (its shortest text, so 12.5 → "13", 0.15 → "0.2", 2.675 → "2.68"), a true minus sign (−), never
+    "−0", and no thousands separator (154000 Btu/h, 12075 h): a number a person reads may be typed back into a
+    field, where a comma is a decimal comma (``accounts.inputs.parse_number``), so "12,075" would read 12.075;
+    typed as shown, it reads the same number. The phone's twin is formatNumber in units.js."""
+    if not math.isfinite(x):
+        return f"{x:.{decimals}f}".replace("-", "−")
+    exact = Decimal(repr(float(x)))
+    places = max(exact.adjusted() + 1, 1) + decimals + 2
+    rounded = exact.quantize(Decimal(1).scaleb(-decimals), rounding=ROUND_HALF_UP, context=Context(prec=places))
+    text = f"{rounded:f}"
+    if rounded == 0:
         text = text.lstrip("-")
     return text.replace("-", "−")
 
 
-def number_text(value_si: float, *, quantity: str, system: str, decimals: int | None = None) -> str:
+def typed_decimals(x: float, *, decimals: int) -> int:
+    """Decimals that show ``x`` as typed: at least ``decimals``, more where the value has them (12.5 rpm on an
+    item of whole rpm reads "12.5", 21.25 °C "21.25"), up to ``TYPED_DECIMALS_CAP``; a value needing more (a
+    conversion's 566.3369 L/s) reads at ``decimals``. Counted on ``x`` at ``_TYPED_FIGURES`` significant figures,
+    so a value stored in SI and shown back in the unit it was typed in counts as typed."""
+    if not math.isfinite(x):
+        return decimals
+    needed = max(0, -int(Decimal(f"{x:.{_TYPED_FIGURES}g}").normalize().as_tuple().exponent))
+    return max(decimals, needed) if needed <= TYPED_DECIMALS_CAP else decimals
+
+
+def number_text(
+    value_si: float, *, quantity: str, system: str, decimals: int | None = None, typed: bool = False
+) -> str:
     """A stored SI value as a reader sees it, without its unit label: in ``system``'s unit at the quantity's
-    usual precision, or at ``decimals`` in either system."""
+    usual precision, or at ``decimals`` in either system; ``typed`` (a reading as its person typed it) widens
+    that to the decimals the value has (``typed_decimals``), so 12.5 rpm never reads "12 rpm"."""
     d = decimals_of(quantity=quantity, system=system) if decimals is None else decimals
-    return format_number(display_value(value_si, quantity=quantity, system=system), decimals=d)
+    x = display_value(value_si, quantity=quantity, system=system)
+    return format_number(x, decimals=typed_decimals(x, decimals=d) if typed else d)
 
 
-def quantity_text(value_si: float, *, quantity: str, system: str, decimals: int | None = None) -> str:
+def quantity_text(
+    value_si: float, *, quantity: str, system: str, decimals: int | None = None, typed: bool = False
+) -> str:
     """A stored SI value with its unit label, e.g. "0.84 in. w.c.", "12000 L/s", "45 %"; precision as
     ``number_text``."""
-    text = number_text(value_si, quantity=quantity, system=system, decimals=decimals)
+    text = number_text(value_si, quantity=quantity, system=system, decimals=decimals, typed=typed)
     unit = unit_text(quantity=quantity, system=system)
     return f"{text} {unit}" if unit else text
 

@@ -157,5 +157,6 @@ def supply_airflow(form: Form) -> tuple[float, str]:
         q = expected_flow_at_speed(
             design_flow_m3s=fan.specs["design_flow_m3s"], design_speed=fan.specs["design_speed_rpm"], measured_speed=rpm
         )
-        return q, f"from fan speed {rpm:.0f} rpm by the first fan law{fixed_speed_words(fan.specs)}"
+        as_typed = fmt.format_number(rpm, decimals=fmt.typed_decimals(rpm, decimals=0))  # 12.5 rpm, never "12 rpm"
+        return q, f"from fan speed {as_typed} rpm by the first fan law{fixed_speed_words(fan.specs)}"
     return form.ahu.design_supply_airflow_m3s, "design airflow assumed (not measured)"

@@ -91,9 +91,10 @@ def reading_value(reading: Reading, system: str) -> str:
 
 
 def number_shown(value_si: float, quantity: str, system: str) -> str:
-    """A number of the record in the reader's unit at its quantity's usual precision, grouped as the reasons
-    group it ("16,500 h", "1200 cfm"): a reading, and each side of an amended one."""
-    return quantity_text(value_si, quantity=quantity, system=system)
+    """A number of the record in the reader's unit as typed: at least its quantity's usual precision, more where the
+    value has them (12.5 rpm, never "12 rpm"; engineering.formatting.typed_decimals), never grouped ("16500 h",
+    "1200 cfm"): a reading, and each side of an amended one."""
+    return quantity_text(value_si, quantity=quantity, system=system, typed=True)
 
 
 _FORECAST_KEYS = ("forecast_change_date", "forecast_earliest_date", "forecast_latest_date")

@@ -53,23 +53,42 @@ def test_the_number_is_the_text_without_its_unit(quantity, value_si, si_text, us
 @pytest.mark.parametrize(
     ("x", "decimals", "text"),
     [
-        (0.05, 1, "0.1"),  # 0.05 is 0.05000000000000000277 in binary: up
-        (0.15, 1, "0.1"),  # 0.1499999999999999944: down
-        (0.25, 1, "0.2"),  # an exact tie: to even
-        (0.35, 1, "0.3"),  # 0.34999999999999997780: down
-        (2.5, 0, "2"),  # exact tie: to even
-        (3.5, 0, "4"),
-        (-0.05, 1, "−0.1"),  # a true minus sign
+        (0.05, 1, "0.1"),
+        (0.15, 1, "0.2"),  # half up on the number as written, not on its binary 0.1499999999999999944
+        (0.25, 1, "0.3"),  # a tie: up, never to even
+        (0.35, 1, "0.4"),
+        (2.5, 0, "3"),
+        (12.5, 0, "13"),  # Python's round(12.5) is 12
+        (2.675, 2, "2.68"),
+        (-12.5, 0, "−13"),  # away from zero, with a true minus sign
+        (-0.05, 1, "−0.1"),
         (-0.04, 1, "0.0"),  # never "−0.0"
         (-0.4, 0, "0"),
         (9_999.4, 0, "9999"),
+        (9.995, 2, "10.00"),
         (10_000.0, 0, "10000"),  # never grouped: "10,000" typed back would read 10.000
         (-12_345.678, 1, "−12345.7"),
         (154_000.0, 0, "154000"),
     ],
 )
-def test_numbers_round_as_python_formats_them_with_a_true_minus_and_no_grouping(x, decimals, text):
+def test_numbers_round_half_up_with_a_true_minus_and_no_grouping(x, decimals, text):
     assert fmt.format_number(x, decimals=decimals) == text
+
+
+@pytest.mark.parametrize(
+    ("x", "decimals", "shown"),
+    [
+        (12.5, 0, 1),  # 12.5 rpm on an item of whole rpm reads "12.5 rpm"
+        (12.0, 0, 0),
+        (21.25, 1, 2),
+        (21.2, 1, 1),  # never fewer than the item's
+        (0.05500000000000001, 2, 3),  # typed 0.055 in. w.c., stored in Pa, shown back
+        (566.3369327, 0, 0),  # a conversion's noise is no typing: usual precision
+        (1200.0000000000002, 0, 0),
+    ],
+)
+def test_a_typed_value_shows_the_decimals_it_has_up_to_three(x, decimals, shown):
+    assert fmt.typed_decimals(x, decimals=decimals) == shown
 
 
 def test_a_large_number_as_shown_reads_back_as_the_same_number_when_typed():

@@ -22,10 +22,17 @@ def _reading(value_si: float, quantity: str, decimals: int) -> SimpleNamespace:
         (1200 / 2118.88, "airflow", 2, "us", "1200 cfm"),  # 1 m³/s = 2118.88 cfm (pint)
         (1200 / 2118.88, "airflow", 2, "si", "566 L/s"),
         (-5.0, "temperature", 1, "si", "−5.0 °C"),
+        (12.5 / 60, "rotational_speed", 0, "si", "12.5 rpm"),  # as typed, never "12 rpm" (stored rev/s)
+        (12.5, "pressure", 0, "si", "12.5 Pa"),
+        (12.5, "percent", 0, "si", "12.5 %"),
+        (12.0, "pressure", 0, "si", "12 Pa"),  # no trailing zeros beyond the usual precision
+        (21.25, "temperature", 1, "si", "21.25 °C"),
+        (12.5, "pressure", 0, "us", "0.05 in. w.c."),  # 0.0502 in. w.c.: the conversion adds no typed decimals
     ],
 )
 def test_the_record_shows_a_reading_at_its_usual_precision(value_si, quantity, decimals, system, shown):
-    """Not "16500 h", "1200.00 cfm" or "-5.0 °C" (hyphen): grouped, usual precision, true minus sign."""
+    """Not "16,500 h", "1200.00 cfm", "-5.0 °C" (hyphen) or "12 rpm" for a typed 12.5: never grouped, at least the
+    usual precision and as many decimals as typed (up to 3), true minus sign."""
     assert reading_value(_reading(value_si, quantity, decimals), system) == shown
 
 

@@ -3,7 +3,7 @@
 // Pure: no DOM, no network. SI values in, SI values out; reasons as parts rendered in the
 // person's units (units.js). tests/inspections/test_phone_agreement.py runs both sides on
 // the same cases and fails on any disagreement, or on a server check this file lacks.
-import { fixed, pyRound, render } from "./units.js";
+import { fixed, formatNumber, pyRound, render, typedDecimals } from "./units.js";
 
 export { fixed, pyRound };
 
@@ -658,7 +658,8 @@ function supplyAirflow(form) {
   if (speed && fan && fan.specs.design_speed_rpm && fan.specs.design_flow_m3s) {
     const rpm = speed * 60; // stored rev/s, engineering.units rotational_speed
     const flow = (fan.specs.design_flow_m3s * rpm) / fan.specs.design_speed_rpm; // first fan law
-    return [flow, `from fan speed ${fixed(rpm, 0)} rpm by the first fan law${fixedSpeedWords(fan.specs)}`];
+    const asTyped = formatNumber(rpm, typedDecimals(rpm, 0)); // 12.5 rpm, never "12 rpm"
+    return [flow, `from fan speed ${asTyped} rpm by the first fan law${fixedSpeedWords(fan.specs)}`];
   }
   return [form.unit.design_supply_airflow_m3s, "design airflow assumed (not measured)"];
 }

@@ -63,14 +63,43 @@ export function fixed(x, d) {
   return x < 0 && Number(text) === 0 ? `-${text}` : text; // Python keeps the sign of a negative that rounds to 0
 }
 
+/** |x| as it is written at its shortest (Python's repr, JS's String): [its digits, the power of ten of the last]. */
+function writtenDigits(x) {
+  const m = /^(\d+)(?:\.(\d+))?(?:e([+-]\d+))?$/.exec(String(Math.abs(x)));
+  const fraction = m[2] || "";
+  return [m[1] + fraction, Number(m[3] || 0) - fraction.length];
+}
+
 /**
- * Python's f"{x:.{d}f}" with a true minus sign, never grouped (engineering/formatting.py format_number): "12075 h"
- * typed back reads 12075, where "12,075" would read as a decimal comma.
+ * engineering/formatting.py format_number: ``decimals`` places, a tie rounded half up (away from zero) on the
+ * number as written (12.5 → "13", 0.15 → "0.2"; toFixed rounds the binary value, 0.15 → "0.1"), a true minus
+ * sign, never "−0", never grouped: "12075 h" typed back reads 12075, where "12,075" would read as a decimal comma.
  */
 export function formatNumber(x, decimals) {
-  let text = fixed(x, decimals);
-  if (Number(text) === 0) text = text.replace(/^-/, "");
-  return text.replace("-", "−");
+  if (!Number.isFinite(x)) return fixed(x, decimals).replace("-", "−");
+  const [digits, exp] = writtenDigits(x);
+  const shift = exp + decimals;
+  let n;
+  if (shift >= 0) {
+    n = BigInt(digits) * 10n ** BigInt(shift);
+  } else {
+    const padded = digits.padStart(1 - shift, "0");
+    n = BigInt(padded.slice(0, shift)) + (padded[padded.length + shift] >= "5" ? 1n : 0n);
+  }
+  const text = n.toString().padStart(decimals + 1, "0");
+  const number = decimals > 0 ? `${text.slice(0, -decimals)}.${text.slice(-decimals)}` : text;
+  return x < 0 && n !== 0n ? `−${number}` : number;
+}
+
+/**
+ * engineering/formatting.py typed_decimals: at least ``decimals``, more where the value has them (12.5 rpm reads
+ * "12.5"), up to 3 (TYPED_DECIMALS_CAP); counted at 12 significant figures, so conversion noise is not typing.
+ */
+export function typedDecimals(x, decimals) {
+  if (!Number.isFinite(x)) return decimals;
+  const [, exp] = writtenDigits(Number(x.toPrecision(12)));
+  const needed = Math.max(0, -exp);
+  return needed <= 3 ? Math.max(decimals, needed) : decimals;
 }
 
 function decimalsOf(decimalsTable, part, system) {
@@ -79,9 +108,14 @@ function decimalsOf(decimalsTable, part, system) {
   return part.decimals !== undefined && part.decimals !== null ? part.decimals : si;
 }
 
-/** A stored SI value as a reader sees it (engineering/formatting.py: number_text), without its unit label. */
-export function displayNumber(ctx, value, quantity, system) {
-  return formatNumber(toDisplay(ctx.units, value, quantity, system), decimalsOf(ctx.decimals, { quantity }, system));
+/**
+ * A stored SI value as a reader sees it (engineering/formatting.py: number_text), without its unit label; ``typed``
+ * (a reading as typed) widens the precision to the decimals the value has (typedDecimals).
+ */
+export function displayNumber(ctx, value, quantity, system, typed = false) {
+  const x = toDisplay(ctx.units, value, quantity, system);
+  const d = decimalsOf(ctx.decimals, { quantity }, system);
+  return formatNumber(x, typed ? typedDecimals(x, d) : d);
 }
 
 function withUnit(units, text, quantity, system) {
