@@ -220,3 +220,35 @@ def test_a_forecast_date_before_the_visit_is_not_called_a_forecast(site, supervi
     flat = " ".join(pdf_text(report).split())
     assert "change forecast: 2 March 2025" not in flat and "change forecast 2 March 2025" not in flat
     assert "2 March 2025" in flat and "before this visit" in flat
+
+
+def _heading_pages(words) -> tuple[int, int]:
+    """The page of the "Readings" heading (the word before the table's "Check Value Limit Verdict") and the page
+    of the table's first reading ("Run-hour meter")."""
+    texts = [w.text for w in words]
+    at = next(i for i in range(len(words) - 2) if texts[i : i + 3] == ["Readings", "Check", "Value"])
+    first = next(i for i in range(at, len(words) - 1) if texts[i : i + 2] == ["Run-hour", "meter"])
+    return words[at].page, words[first].page
+
+
+def test_the_readings_heading_stays_with_the_first_reading(monthly_visit, org, make_report):
+    """Tryout: page 1 ended with the "Readings" heading, the table's head and its empty first group title ("Unit
+    at the time of the visit"), the readings on page 2. Flags in the result box (two or three lines each) move the
+    heading down page 1 line by line until it passes onto page 2; on each, the heading's page holds the first
+    reading."""
+    from inspections.models import Inspection
+
+    insp = Inspection.objects.get(work_order=monthly_visit)
+    short, long = "a value to review.", "a value to review, " + "with a longer explanation of why " * 3 + "it was kept."
+    seen = set()
+    for lines in range(21, 60):
+        flags = [{"code": "review", "reason": short}] * (lines // 2 - lines % 2) + [
+            {"code": "review", "reason": long}
+        ] * (lines % 2)
+        Inspection.objects.filter(pk=insp.pk).update(flags=flags)
+        heading, first = _heading_pages(pdf_words(pdf_bytes(_report(make_report, org, monthly_visit, "si"))))
+        assert heading == first, (lines, heading, first)
+        seen.add(heading)
+        if heading > 1:
+            break
+    assert seen == {1, 2}, seen
