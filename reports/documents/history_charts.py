@@ -12,7 +12,7 @@ from engineering.controls import supply_temperature_check
 from engineering.errors import EngineeringInputError
 from engineering.filters import filter_forecast
 from engineering.units import to_display, unit_label
-from inspections.models import Inspection
+from inspections.models import Inspection, Reading
 from inspections.selectors import filter_series_for, filter_sources_words
 from inventory.models import AHU, ComponentKind
 from reports import charts
@@ -20,6 +20,7 @@ from reports.compliance import filter_outlook
 from reports.rendering import svg_data_uri
 
 from .common import shown
+from .visit_words import number_shown
 
 
 def filter_charts(
@@ -37,6 +38,7 @@ def filter_charts(
         today = (hi - timedelta(days=1)).date()
     banks = [c for c in ahu.components.all().order_by("position", "pk") if c.kind == ComponentKind.FILTER_BANK]
     all_series = filter_series_for(components=banks, before=hi)
+    unplotted = _unplotted(banks=banks, series=all_series, lo=lo, hi=hi, system=system, tz=tz)
     out = []
     p_label = unit_label(quantity="pressure", system=system)
     for bank in banks:
@@ -78,7 +80,17 @@ def filter_charts(
                 )
                 lines.append((name, shown_pts))
         if not lines:
-            out.append({"bank": bank, "svg": None, "note": "No filter readings in the period.", "forecast": None})
+            out.append(
+                {
+                    "bank": bank,
+                    "svg": None,
+                    "note": "No filter reading of the period could be corrected to design airflow."
+                    if bank.pk in unplotted
+                    else "No filter readings in the period.",
+                    "forecast": None,
+                    "unplotted": unplotted.get(bank.pk, ""),
+                }
+            )
             continue
         if len(lines) == 1 and not any(life.changed_at and life.changed_at >= lo for life in series.lives):
             lines = [("At design airflow", lines[0][1])]
@@ -124,11 +136,34 @@ def filter_charts(
                 "outlook": outlook,
                 "due_now": outlook.due_now,
                 "final": shown(final, "pressure", system),
+                "unplotted": unplotted.get(bank.pk, ""),
                 # The plotted numbers (SI), one (name, [(day, Pa at design airflow)]) per set of filters.
                 "lines": lines,
             }
         )
     return out
+
+
+def _unplotted(*, banks: list, series: dict, lo: datetime, hi: datetime, system: str, tz: zoneinfo.ZoneInfo) -> dict:
+    """Per bank, in words, the technicians' pressure drops of the period that have no point on its chart: read at
+    an airflow too far from design to correct them to design airflow (``inspections.selectors.filter_banks``), so
+    the latest visit's reading never silently goes missing ("162 Pa on 5 Dec 2026")."""
+    plotted = {(bank_pk, p.inspection_id) for bank_pk, s in series.items() for p in s.points}
+    readings = Reading.objects.filter(
+        component__in=banks,
+        item__template__code="filter_check",
+        item__key="dp",
+        value_si__isnull=False,
+        inspection__finished_at__gte=lo,
+        inspection__finished_at__lt=hi,
+    ).select_related("inspection")
+    words: dict[int, list[str]] = defaultdict(list)
+    for r in sorted(readings, key=lambda r: r.inspection.finished_at):
+        if (r.component_id, r.inspection_id) not in plotted:
+            day = r.inspection.finished_at.astimezone(tz).date()
+            words[r.component_id].append(f"{number_shown(r.value_si, 'pressure', system)} on {local_date_of(day)}")
+    why = "read at an airflow too far from design airflow to correct to it (see the visit's record)"
+    return {pk: f"{', '.join(w)} {why}" for pk, w in words.items()}
 
 
 def supply_chart(*, inspections: list[Inspection], system: str, tz: zoneinfo.ZoneInfo | None = None) -> dict:

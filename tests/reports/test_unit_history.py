@@ -200,3 +200,24 @@ def test_corrective_work_awaiting_approval_reads_so_as_on_the_pages(history, sup
     )
     flat = " ".join(pdf_text(report).split())
     assert "Free the outdoor-air damper linkage Corrective Awaiting approval" in flat
+
+
+def test_a_reading_the_chart_cannot_plot_is_named_under_it(site, supervisor, make_report, time_machine):
+    """Tryout: the latest visit's filter reading was missing from the chart without a word: read at a fan speed
+    far below design (73 L/s against 3000 L/s), it cannot be corrected to design airflow (outside the ratio
+    engineering.filters.corrected_pressure_drop accepts), so it has no point; the history names it instead."""
+    time_machine.move_to(b.at("2025-05-02"), tick=False)
+    lib = b.library()
+    ahu = make_full_unit(building=BuildingFactory(site=site), tag="AHU-07")
+    bank = ahu.components.get(name="Final filters")
+    tech = make_person(organisation=site.organisation, role=Role.TECHNICIAN, first_name="Ana", last_name="Field")
+    for day, q, dp in (("2025-04-03", 3.0, 180.0), ("2025-04-24", 0.073, 12.5)):
+        insp = b.inspection(b.preventive(ahu, lib["filter_check"], day, done=day), tech, finished=day)
+        b.reading(insp, "visit.supply_airflow", value_si=q)
+        b.reading(insp, "filter_check.dp", component=bank, value_si=dp)
+    report = make_report(
+        user=supervisor, kind="unit_history", parameters={"unit": ahu.pk, "start": "2025-04-01", "end": "2025-04-30"}
+    )
+    flat = " ".join(pdf_text(report).split())
+    assert "Not plotted: 12.5 Pa on 24 Apr 2025 read at an airflow too far from design airflow" in flat, flat[:3000]
+    assert "180 Pa on" not in flat
