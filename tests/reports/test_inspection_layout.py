@@ -241,7 +241,7 @@ def test_the_readings_heading_stays_with_the_first_reading(monthly_visit, org, m
     insp = Inspection.objects.get(work_order=monthly_visit)
     short, long = "a value to review.", "a value to review, " + "with a longer explanation of why " * 3 + "it was kept."
     seen = set()
-    for lines in range(21, 60):
+    for lines in range(12, 60):
         flags = [{"code": "review", "reason": short}] * (lines // 2 - lines % 2) + [
             {"code": "review", "reason": long}
         ] * (lines % 2)
