@@ -333,7 +333,7 @@ def work_order_moved(sender, *, work_order, before: str, by, **kwargs) -> None:
     unless the work's own visit found the problem it was raised for (``closing.repair_awaited`` decides it, for the
     fault's finding too): then the fault stays open and holds the repair work of that visit's finding, and closes
     when the repair is completed."""
-    from inspections.services.findings.closing import repair_awaited
+    from inspections.services.findings.closing import freeze_unproven, repair_awaited
     from scheduling.models import WorkOrder
 
     if work_order.state != WorkOrder.State.COMPLETED:
@@ -349,7 +349,10 @@ def work_order_moved(sender, *, work_order, before: str, by, **kwargs) -> None:
         .values_list("pk", flat=True)
     )
     awaited = repair_awaited(work_order=work_order)
+    unproven = bool(ids) and freeze_unproven(work_order=work_order)
     for fault in Fault.objects.filter(pk__in=ids).select_related("finding") if ids else []:
+        if unproven and fault.code == Fault.FREEZE:
+            continue  # the work's own freeze test left a step unproven (an implausible reading): not corrected
         held = awaited(fault.component_id)
         if held is not None:
             # The work's own test found the fault's problem (a valve leak-by test that failed): nothing was put

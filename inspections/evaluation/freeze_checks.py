@@ -15,7 +15,7 @@ from engineering.freeze import freeze_trip_setting_check
 from inspections.reasons import q as qty
 from inspections.reasons import span
 
-from .form import Form
+from .form import Form, set_aside_parts
 from .readings import inconsistent_band
 from .results import FREEZE_TRIP_SET_HIGH, ITEM_CONDITIONS, Result
 
@@ -52,6 +52,9 @@ def freeze_trip_checks(form: Form, consumed: set) -> list[Result]:
             )
             continue
         chk = freeze_trip_setting_check(trip_c=t, ok_low=lo, ok_high=hi, fail_below=floor)
+        if chk.verdict != Verdict.FAIL and (TRIP_ITEM, slot.component.pk if slot.component else None) in form.set_aside:
+            out.append(_implausible(slot, t, lo, hi, floor))
+            continue
         high = chk.verdict == Verdict.WATCH and chk.limits["above_band_k"] > 0
         res = Result(
             check="limits",  # a number against its band, as every single reading: pages, PDFs and findings read it so
@@ -82,3 +85,33 @@ def freeze_trip_checks(form: Form, consumed: set) -> list[Result]:
             res.say(*head, " is below the recommended ", band, ": too little margin; adjust up and retest")
         out.append(res)
     return out
+
+
+def _implausible(slot, t: float, lo: float, hi: float, floor: float) -> Result:
+    """A trip setting outside its plausible range that is not below the floor: a watch of the freeze-protection
+    condition (not proven; freeze readiness never counts it as passed), with words saying so. The phone's twin:
+    evaluate.js freezeTripChecks."""
+    res = Result(
+        check="limits",
+        item=TRIP_ITEM,
+        component=slot.component,
+        verdict=Verdict.WATCH.value,
+        condition_code=ITEM_CONDITIONS[TRIP_ITEM],
+        method="reading against its plausible range: a setting outside it is not proven; "
+        + (slot.item.limits_source or "common practice"),
+        derived={
+            "value": t,
+            "ok_min": lo,
+            "ok_max": hi,
+            "watch_min": floor,
+            "watch_open_high": True,
+            "implausible": True,
+        },
+    )
+    parts = set_aside_parts(slot.item, t, slot.limits)
+    res.say(
+        "freeze-protection trip temperature ",
+        *parts[:-1],
+        ": not proven that the coil is protected; re-check the reading",
+    )
+    return res

@@ -211,7 +211,9 @@ def freeze_readiness(
     amended: set[int] = set()
     corrected = Amendment.objects.filter(inspection_id=OuterRef("inspection_id"), created_at__lte=as_of)
     version_of: dict[int, int] = {}  # inspection id: the template version it was filled against, where known
-    for insp_id, ahu_id, finished_at, key, comp_id, verdict, condition, has_amendment, versions in (
+    # A reading outside its plausible range is never proven: its step's words say why (its judgement's reason).
+    outside: dict[int, dict[tuple[str, int | None], str]] = defaultdict(dict)
+    for insp_id, ahu_id, finished_at, key, comp_id, verdict, condition, has_amendment, versions, derived, reason in (
         Evaluation.objects.filter(
             inspection__ahu_id__in=ids,
             inspection__finished_at__lte=as_of,
@@ -230,8 +232,11 @@ def freeze_readiness(
             "condition_code",
             "has_amendment",
             "inspection__template_versions",
+            "derived",
+            "reason",
         )
     ):
+        outside[insp_id].update({(key, comp_id): reason} if (derived or {}).get("implausible") else {})
         test_of[insp_id] = (ahu_id, finished_at)
         if isinstance((versions or {}).get(TEMPLATE), int):
             version_of[insp_id] = versions[TEMPLATE]
@@ -253,6 +258,7 @@ def freeze_readiness(
                 comp_id = labels.get(comp) if comp else None
                 judged = change.get("after") or {}
                 after = _protecting(judged.get("verdict") or None, judged.get("condition_code", ""))
+                outside[insp_id].pop((key, comp_id), None)
                 verdicts[insp_id][(key, comp_id)] = None if after == controls.Verdict.NOT_APPLICABLE else after
     corrective_of_test: dict[int, set[str]] = defaultdict(set)
     open_of_unit: dict[int, list[OpenFinding]] = defaultdict(list)
@@ -297,7 +303,8 @@ def freeze_readiness(
             if v == controls.Verdict.OK:
                 continue
             failed = failed or v == controls.Verdict.FAIL
-            not_passed.append(step.words + _VERDICT_WORDS.get(v, ""))
+            why = outside[insp_id].get((step.key, step.component_id))
+            not_passed.append(f"{step.words} {why}" if why else step.words + _VERDICT_WORDS.get(v, ""))
         # A judgement outside the expected steps (an optional item, an older template's) that failed counts too.
         expected = {(s.key, s.component_id) for s in steps_of_unit[ahu_id]}
         for (key, comp_id), v in got.items():

@@ -70,7 +70,7 @@ def _answers(doc: dict, values: dict) -> list[dict]:
     return readings
 
 
-def _send(api_client, tech, wo, values, finished_at) -> dict:
+def _send(api_client, tech, wo, values, finished_at, status="stored") -> dict:
     api_client.force_authenticate(tech)
     doc = api_client.get(f"/api/inspections/work-orders/{wo.public_id}/checklist/").json()
     # The answers are in the person's own units, as the phone sends them.
@@ -82,7 +82,7 @@ def _send(api_client, tech, wo, values, finished_at) -> dict:
         unit_system=doc["unit_system"],
     )
     [out] = api_client.post(SYNC, {"forms": [form]}, format="json").json()["results"]
-    assert out["status"] == "stored", out["flags"]
+    assert out["status"] == status, out["flags"]
     return out
 
 
@@ -370,3 +370,50 @@ def test_a_frost_thermostat_set_too_high_is_a_watch_and_the_unit_stays_ready(
     assert "1 of 1" in says["dashboard"] and "not ready" not in says["dashboard"]
     assert "1 of 1 freeze-protected units ready" in says["pdf"]
     assert "Freeze protection failed" not in says["page"] + says["pdf"]
+
+
+@pytest.mark.django_db
+def test_a_trip_setting_outside_its_plausible_range_is_never_proven_until_a_plausible_retest(
+    api_client, client, time_machine, django_capture_on_commit_callbacks
+):
+    """The new-user tryout: on the corrective retest of a failed freeze test, the frost thermostat's trip setting
+    typed as 75 °C (plausible −40 to 60 °C) and every other step passing. An implausible reading proves nothing:
+    the step is a watch saying "not proven … re-check the reading" (never "the coil is still protected"), the unit
+    stays not ready naming the value, and the freeze findings stay open; a later retest with a plausible passing
+    setting makes it ready."""
+    from inspections.models import Evaluation
+
+    wo, tech, _heater, site, boss, manager = _unit_with_a_preheater()
+    time_machine.move_to(FAILED_ON + dt.timedelta(hours=1), tick=False)
+    out = _send(api_client, tech, wo, {"preheater_freeze.freeze_trip_test": "not_ok"}, FAILED_ON)
+    [finding] = Finding.objects.filter(inspection_id=out["inspection_id"])
+    cwo = finding.corrective_work_order
+
+    work_order_assign(work_order=cwo, assignee=tech, by=boss)
+    time_machine.move_to(RETEST_ON + dt.timedelta(hours=1), tick=False)
+    values = {"preheater_freeze.stage_on_temp": THRESHOLD_C, "preheater_freeze.freeze_trip_temp": 75.0}
+    retest = _send(api_client, tech, cwo, values, RETEST_ON, status="flagged")
+    trip = Evaluation.objects.get(inspection_id=retest["inspection_id"], item_key="preheater_freeze.freeze_trip_temp")
+    assert (trip.verdict, trip.condition_code) == ("watch", "freeze_protection_failed")
+    assert "still protected" not in trip.reason and "not proven" in trip.reason, trip.reason
+    assert "outside the plausible" in trip.reason and "re-check the reading" in trip.reason, trip.reason
+    assert Finding.objects.filter(pk=finding.pk, state=Finding.State.OPEN).exists()
+
+    time_machine.move_to(dt.datetime(2025, 10, 9, 9, tzinfo=dt.UTC), tick=False)
+    says = _what_everyone_says(client, api_client, manager, site, django_capture_on_commit_callbacks)
+    reason = says["api"]["reason"]
+    assert says["api"]["status"] == "not_ready" and not says["api"]["ready"], reason
+    assert reason.startswith("not ready — "), reason
+    assert "outside the plausible" in reason and "re-check the reading" in reason, reason
+    assert "0 of 1 freeze-protected units ready" in says["pdf"]
+
+    # 10 October: retested with a plausible setting inside the band: every step passes, the unit is ready.
+    later = RETEST_ON + dt.timedelta(days=2)
+    time_machine.move_to(later + dt.timedelta(hours=1), tick=False)
+    again, _ = make_visit(tasks=["preheater_freeze"], organisation=wo.organisation, ahu=wo.ahu, technician=tech)
+    values["preheater_freeze.freeze_trip_temp"] = 3.5
+    _send(api_client, tech, again, values, later)
+    assert not Finding.objects.filter(ahu=wo.ahu, state=Finding.State.OPEN).exists()
+    time_machine.move_to(dt.datetime(2025, 10, 11, 9, tzinfo=dt.UTC), tick=False)
+    says = _what_everyone_says(client, api_client, manager, site, django_capture_on_commit_callbacks)
+    assert says["api"]["status"] == "ready", says["api"]["reason"]

@@ -1231,8 +1231,8 @@ def test_a_requirement_above_the_supply_airflow_reads_the_same_on_both(tmp_path)
 
 def test_a_trip_setting_outside_its_plausible_range_is_still_judged_on_its_own_alike_on_both(tmp_path):
     """The frost thermostat's trip setting typed as 65 °C (plausible −40 to 60 °C) is flagged, but it is the
-    reading judged, not an input to another judgement: both judge it against its band as typed, a watch with
-    nuisance trips (still protecting), never set aside into a freeze-protection failure."""
+    reading judged, not an input to another judgement: both judge it on its own as typed, a watch (not proven, so
+    never counted as a passed freeze step; the words say re-check it), never set aside as "not used"."""
     rng = random.Random(7)
     ahu, comps = _unit(rng)
     values = {("preheater_freeze.freeze_trip_temp", None): 65.0}
@@ -1250,3 +1250,6 @@ def test_a_trip_setting_outside_its_plausible_range_is_still_judged_on_its_own_a
     assert not compare(case, py, js["results"])
     [trip] = [r for r in py if r["item"] == "preheater_freeze.freeze_trip_temp"]
     assert trip["verdict"] == "watch" and "not used" not in trip["reason"], trip["reason"]
+    # Not proven (readiness never counts it as passed), and words that say so on both.
+    assert "still protected" not in trip["reason"] and "not proven" in trip["reason"], trip["reason"]
+    assert "outside the plausible" in trip["reason"], trip["reason"]

@@ -14,6 +14,7 @@ from accounts.services import audit_record
 from engineering.controls import Verdict
 
 from ...evaluation import Result
+from ...evaluation.results import FREEZE_TRIP_SET_HIGH
 from ...models import Amendment, Evaluation, Finding, Inspection
 from .corrective import corrective_for_group, proposals_withdraw_resolved
 from .problems import FILTER_CHECKS, condition_of, known_condition, problem_of, template_conditions
@@ -34,6 +35,38 @@ def banks_replaced(*, results: Iterable[Result]) -> set[int]:
         for res in results
         if res.item == "filter_replace.replaced" and res.verdict == Verdict.OK and res.component is not None
     }
+
+
+def freeze_proven(results: Iterable[Result]) -> bool:
+    """Every freeze-protection step of the form proven as freeze readiness reads it: ok, or a trip setting above its
+    band that still protects the coil; a watch of the freeze condition (a trip setting outside its plausible range,
+    near its limit) is not proven, so no freeze finding closes on such a test."""
+    return all(
+        res.verdict == Verdict.OK or res.condition_code == FREEZE_TRIP_SET_HIGH
+        for res in results
+        if res.item.startswith("preheater_freeze.") and res.verdict != Verdict.NOT_APPLICABLE
+    )
+
+
+def freeze_unproven(*, work_order: WorkOrder) -> bool:
+    """Did the completed work's latest freeze-protection test leave a step unproven (``freeze_proven``: a watch of
+    the freeze condition, such as a trip setting outside its plausible range)? False when it had no such test."""
+    latest = (
+        Inspection.objects.filter(work_order=work_order, evaluations__item_key__startswith="preheater_freeze.")
+        .order_by("-finished_at", "-pk")
+        .values_list("pk", flat=True)
+        .first()
+    )
+    if latest is None:
+        return False
+    return (
+        Evaluation.objects.filter(
+            inspection_id=latest, item_key__startswith="preheater_freeze.", amendment__isnull=True
+        )
+        .exclude(verdict__in=[Verdict.OK, Verdict.NOT_APPLICABLE])
+        .exclude(condition_code=FREEZE_TRIP_SET_HIGH)
+        .exists()
+    )
 
 
 def _is_filter_finding(finding: Finding) -> bool:
@@ -85,7 +118,7 @@ def findings_resolve(
             for f in open_rows
             if f.state == Finding.State.OPEN
             and f.pk not in failed
-            and (f.condition_code not in NOT_RESOLVED_BY_LATER_OK or inspection.complete)
+            and (f.condition_code not in NOT_RESOLVED_BY_LATER_OK or (inspection.complete and freeze_proven(results)))
         ),
         key=lambda f: f.pk,
     )
@@ -167,6 +200,9 @@ def findings_close_corrected(*, work_order: WorkOrder, by: User | None) -> list[
                 organisation_id=finding.organisation_id,
             )
             still_failing_elsewhere.append(finding)
+    if any(f.condition_code in NOT_RESOLVED_BY_LATER_OK for f in found) and freeze_unproven(work_order=work_order):
+        # The work's own freeze test did not prove every step (an implausible trip setting): not corrected yet.
+        still_failing_elsewhere += [f for f in found if f.condition_code in NOT_RESOLVED_BY_LATER_OK]
     closed = [f for f in found if f not in still_failing and f not in still_failing_elsewhere]
     for finding in closed:
         finding_close(

@@ -1281,6 +1281,20 @@ function freezeTripChecks(form, consumed) {
       continue;
     }
     const x = pyRound(t, 9);
+    const outside = setAsideParts(form.ctx, key, t);
+    if (x >= floor && outside.length) {
+      // Outside its plausible range and not below the floor: not proven (freeze_checks._implausible).
+      const res = result({
+        check: "limits", item: TRIP_ITEM, component: slot.component, verdict: WATCH,
+        condition_code: "freeze_protection_failed",
+        method: `reading against its plausible range: a setting outside it is not proven; ${slot.limits_source || "common practice"}`,
+        derived: { value: t, ok_min: lo, ok_max: hi, watch_min: floor, watch_open_high: true, implausible: true },
+      });
+      say(res, "freeze-protection trip temperature ", ...outside.slice(0, -1),
+        ": not proven that the coil is protected; re-check the reading");
+      out.push(res);
+      continue;
+    }
     let verdict = OK;
     if (x < floor) verdict = FAIL;
     else if (x < lo || x > hi) verdict = WATCH;
