@@ -31,7 +31,7 @@ from scheduling.selectors import (
     work_orders_to_verify,
 )
 from scheduling.services.assignment import AssignmentWarnings, work_order_assign_and_plan
-from scheduling.services.work_orders import WorkOrderConflict, work_order_plan_words
+from scheduling.services.work_orders import WorkOrderConflict, plan_day_refusal, work_order_plan_words
 
 from ..forms import AssignForm
 from .staff import changed_meanwhile, managed_organisation, organisation_technicians
@@ -71,7 +71,9 @@ def _row_facts(rows: list[dict]) -> tuple[dict, dict, dict]:
     ids = [r["id"] for r in rows]
     facts = {
         f["public_id"]: f
-        for f in WorkOrder.objects.filter(public_id__in=ids).values("public_id", "pk", "ahu__building__site__time_zone")
+        for f in WorkOrder.objects.filter(public_id__in=ids).values(
+            "public_id", "pk", "ahu__building__site__time_zone", "ahu__building__site__name"
+        )
     }
     needed: dict = defaultdict(set)
     for public_id, skill in WorkOrderTask.objects.filter(work_order__public_id__in=ids).values_list(
@@ -121,8 +123,8 @@ def board(request):
         if changing and str(r["id"]) == changing:
             r["plan_default"] = kept_day or r["plan_default"]
             said = refusal.get("text", "") if refusal.get("row") == changing else ""
-            if not said and kept_text.strip() and kept_day is None:
-                said = f"{day_refusal(kept_text, label='Day')}."
+            if not said and kept_text.strip():  # said from the day itself, whatever became of the session's words
+                said = _day_refused(kept_text, kept_day, today=r["site_today"], site=fact["ahu__building__site__name"])
             if said:
                 r["plan_text"], r["plan_refusal"] = kept_text, said
             kept = int(kept_assignee) if kept_assignee.isdigit() else None
@@ -173,6 +175,15 @@ def board(request):
             "flagged": list(flagged.values()),
         },
     )
+
+
+def _day_refused(text: str, day: dt.date | None, *, today: dt.date, site: str) -> str:
+    """The refusal of a row's typed Day: unreadable (``day_refusal``), or a day the schedule service refuses there
+    (``plan_day_refusal``: past at the site, beyond the plan window); "" for a day it takes."""
+    if day is None:
+        return f"{day_refusal(text, label='Day')}."
+    refused = plan_day_refusal(day=day, today=today, site_name=site)
+    return f"{refused}." if refused else ""
 
 
 def _refused_at_row(request, wo, back: str, text: str):

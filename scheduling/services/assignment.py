@@ -18,7 +18,7 @@ from accounts.models import User
 from inventory.today import today_for
 
 from ..models import WorkOrder
-from ..selectors import AssignmentCheck, assignment_check
+from ..selectors import AssignmentCheck, assignment_check, offered_day
 from .work_orders import (
     work_order_assign_locked,
     work_order_copy_back,
@@ -51,15 +51,19 @@ def work_order_assign_and_plan(
     off), in one transaction: a refused day leaves the assignment unsaved too.
 
     Before anything is written, the technician's day the work would count on (the day asked for, else its
-    plan, else its due date) is checked (``assignment_check``): over their capacity, a skill they lack or a day
+    plan, else the day the board offers, ``offered_day``)
+    is checked (``assignment_check``): over their capacity, a skill they lack or a day
     after the due date, not confirmed, raises :class:`AssignmentWarnings` with the check. ``seen`` confirms only
     the warnings of those codes (``AssignmentCheck.codes``; already read, as the board's "Assign to ... instead"
     sends them): any other still raises. A stale
     ``expected_version``, a day before the site's today or outside the plan window is not checked: the
     services refuse those in their own words. Returns the check made (None when none was)."""
-    on_day = (day if plan else work_order.scheduled_for) or work_order.due_date
     check = None
     site_today = today_for(work_order.ahu.building.site)
+    # No day (none asked for, none planned): the day the board offers, never a due date already past.
+    on_day = (day if plan else work_order.scheduled_for) or offered_day(
+        scheduled_for=None, due_date=work_order.due_date, today=site_today, priority=work_order.priority
+    )
     refused_day = plan and day is not None and day < site_today  # the schedule service refuses it in its words
     if (
         expected_version == work_order.version

@@ -237,16 +237,31 @@ def work_order_assign_locked(*, work_order: WorkOrder, assignee: User, by: User 
 
 
 def work_order_plan_words(*, work_order: WorkOrder, today: dt.date) -> str:
-    """How the planned day reads in a message: "for 1 Dec 2036, after its overdue date 3 Dec 2026" (the warning
-    when the plan is later than the day the work turns overdue; the plan is kept), "" without a plan."""
+    """How the planned day reads in a message: "for 1 Dec 2036, after its due date 1 Dec 2026" (the warning when
+    the plan is later than the day the work turns overdue; the plan is kept; the date named is the due date, the
+    day the work was meant to be done by), "" without a plan."""
     day = work_order.scheduled_for
     if day is None:
         return ""
     words = f"for {day_text(day, today=today)}"
     overdue = work_order.overdue_on
     if overdue is not None and day > overdue:
-        words += f", after its overdue date {local_date_of(overdue)}"
+        words += f", after its due date {local_date_of(work_order.due_date)}"
     return words
+
+
+def plan_day_refusal(*, day: dt.date, today: dt.date, site_name: str) -> str:
+    """Why a visit cannot be planned for ``day`` at a site whose today is ``today`` (a day before it, or past the
+    plan window), "" when it can: the schedule service's refusal, and the board's words beside a row's Day."""
+    latest = latest_plan_date(today=today)
+    if day > latest:
+        return (
+            f"Planned day {day.isoformat()} is more than {PLAN_YEARS_AHEAD} years ahead; "
+            f"allowed: {today.isoformat()} to {latest.isoformat()}"
+        )
+    if day < today:
+        return f"scheduled day {day.isoformat()} is in the past at {site_name}; allowed: {today.isoformat()} or later"
+    return ""
 
 
 @transaction.atomic
@@ -279,26 +294,10 @@ def work_order_schedule_locked(*, work_order: WorkOrder, day: dt.date | None, by
             }
         )
     if day is not None:
-        today = today_for(wo.ahu.building.site)
-        latest = latest_plan_date(today=today)
-        if day > latest:
-            raise ValidationError(
-                {
-                    "scheduled_for": [
-                        f"Planned day {day.isoformat()} is more than {PLAN_YEARS_AHEAD} years ahead; "
-                        f"allowed: {today.isoformat()} to {latest.isoformat()}"
-                    ]
-                }
-            )
-        if day < today:
-            raise ValidationError(
-                {
-                    "scheduled_for": [
-                        f"scheduled day {day.isoformat()} is in the past at {wo.ahu.building.site.name}; "
-                        f"allowed: {today.isoformat()} or later"
-                    ]
-                }
-            )
+        site = wo.ahu.building.site
+        refusal = plan_day_refusal(day=day, today=today_for(site), site_name=site.name)
+        if refusal:
+            raise ValidationError({"scheduled_for": [refusal]})
     if day == wo.scheduled_for:
         return
     before = wo.scheduled_for

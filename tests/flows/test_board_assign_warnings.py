@@ -173,3 +173,29 @@ def test_assign_to_the_suggested_technician_instead_carries_on_without_asking_ag
     assert (freeze.assignee, freeze.scheduled_for) == (suggested, dt.date(2025, 3, 7))
     words = " ".join(str(m) for m in get_messages(done.wsgi_request))
     assert f"assigned to {suggested}" in words and "without the skill" not in words
+
+
+def test_a_past_day_is_said_beside_its_row_even_when_the_board_is_read_again(client, world, freeze):
+    """The refusal of a day before the site's today is said beside the row's Day from the day itself, not only
+    from the words the refused request left: the page read again (another tab, a reload) still says it there."""
+    client.force_login(world.supervisor)
+    url = reverse("frontend:assign", kwargs={"public_id": freeze.public_id})
+    sent = client.post(url, _row_form(world, freeze, scheduled_for="2025-02-20"))
+    client.get(reverse("frontend:board"))  # takes the session's words first
+    row = client.get(sent.url).content.decode().split(f'id="row-{freeze.public_id}"')[1].split("</tr>")[0]
+    said = row.split("data-day-refusal>")[1].split("</p>")[0]
+    assert "scheduled day 2025-02-20 is in the past" in said and "allowed: 2025-03-05 or later" in said
+    assert 'name="scheduled_for" value="2025-02-20"' in row
+
+
+def test_an_empty_day_is_checked_on_the_day_the_board_offers_never_a_past_due_date(client, world):
+    """Urgent work due Monday 3 March, overdue now, with the Day left empty: the warnings page speaks of today,
+    Wednesday 5 March (the day the board offers it, ``offered_day``), never of the past due date."""
+    wo = _work(world, priority=WorkOrder.Priority.URGENT, due=dt.date(2025, 3, 3), title="Frost thermostat")
+    client.force_login(world.supervisor)
+    url = reverse("frontend:assign", kwargs={"public_id": wo.public_id})
+    warned = client.post(url, _row_form(world, wo, scheduled_for=""))
+    assert warned.status_code == 200
+    assert warned.context["check"].day == dt.date(2025, 3, 5)
+    html = warned.content.decode()
+    assert "Wed 5 Mar" in html and "Mon 3 Mar" not in html
