@@ -50,20 +50,21 @@ def work_order_assign_and_plan(
     """Assign ``work_order`` to ``assignee`` and, with ``plan``, plan it for ``day`` (``None`` takes the plan
     off), in one transaction: a refused day leaves the assignment unsaved too.
 
-    Before anything is written, the technician's day the work would count on (the day asked for, else its
-    plan, else the day the board offers, ``offered_day``)
-    is checked (``assignment_check``): over their capacity, a skill they lack or a day
-    after the due date, not confirmed, raises :class:`AssignmentWarnings` with the check. ``seen`` confirms only
+    Before anything is written, the technician's day the work would count on (the day asked for, the day the
+    board offers when the day is sent empty (``offered_day``), else its plan, else its due date) is checked
+    (``assignment_check``): over their capacity, a skill they lack or a day after the due date,
+    not confirmed, raises :class:`AssignmentWarnings` with the check. ``seen`` confirms only
     the warnings of those codes (``AssignmentCheck.codes``; already read, as the board's "Assign to ... instead"
     sends them): any other still raises. A stale
     ``expected_version``, a day before the site's today or outside the plan window is not checked: the
     services refuse those in their own words. Returns the check made (None when none was)."""
     check = None
     site_today = today_for(work_order.ahu.building.site)
-    # No day (none asked for, none planned): the day the board offers, never a due date already past.
-    on_day = (day if plan else work_order.scheduled_for) or offered_day(
+    # A Day sent empty: the day the board offers (never a due date already past); no Day sent: its plan, else due.
+    offered = offered_day(
         scheduled_for=None, due_date=work_order.due_date, today=site_today, priority=work_order.priority
     )
+    on_day = (day or offered) if plan else (work_order.scheduled_for or work_order.due_date)
     refused_day = plan and day is not None and day < site_today  # the schedule service refuses it in its words
     if (
         expected_version == work_order.version
