@@ -101,9 +101,20 @@ def ahus_create(*, buildings: list, n_ahus: int, run: GenerationRun) -> tuple[li
     return ahus, kinds
 
 
+# IEC standard motor ratings, W (IEC 60072-1, common practice): a fan's motor is the part's listed one or, on a unit
+# whose airflow needs more, the next size up from the air power at an overall efficiency of 0.7, so every generated
+# fan passes the registry's spec check (a motor never below its fan's air power; engineering.registry_checks).
+MOTOR_SIZES_W = (750, 1100, 1500, 2200, 3000, 4000, 5500, 7500, 11000, 15000, 18500, 22000, 30000, 37000, 45000)
+
+
 def part_specs(part: str, airflow: float) -> dict:
-    """The specs of ``part`` with "@airflow" read as ``airflow``."""
-    return {k: (airflow if v == "@airflow" else v) for k, v in PARTS[part][2].items()}
+    """The specs of ``part`` with "@airflow" read as ``airflow``, and a fan's motor sized up where that needs it."""
+    specs = {k: (airflow if v == "@airflow" else v) for k, v in PARTS[part][2].items()}
+    if "motor_power_w" in specs and "design_pressure_pa" in specs:
+        needed = airflow * specs["design_pressure_pa"] / 0.7
+        if specs["motor_power_w"] < needed:
+            specs["motor_power_w"] = next((s for s in MOTOR_SIZES_W if s >= needed), MOTOR_SIZES_W[-1])
+    return specs
 
 
 def components_create(*, ahus: list, kinds: list[int], run: GenerationRun) -> dict[int, list]:

@@ -129,7 +129,11 @@ def test_library_tasks_go_on_the_parts_they_are_done_on(world):
         ({"priority": "sometime"}, "priority", "'sometime' is not one of low, normal, high, urgent"),
         ({"due_by": dt.datetime(2025, 12, 3, 9, 0, tzinfo=AMS)}, "due_by", "is in the past at Harbour Yard"),
         ({"one_off": []}, "tasks", "none chosen"),
-        ({"one_off": [OneOffTask(name="Look", minutes=0, skill="mechanical")]}, "task_minutes", "allowed: 1 to 960"),
+        (
+            {"one_off": [OneOffTask(name="Look", minutes=0, skill="mechanical")]},
+            "task_minutes",
+            "allowed: a whole number from 1 to 960",
+        ),
         ({"one_off": [OneOffTask(name="Look", minutes=30, skill="juggling")]}, "task_skill", "'juggling'"),
     ],
 )
