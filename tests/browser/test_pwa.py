@@ -126,6 +126,9 @@ def test_supervisor_assignment_shows_on_technician_today(browser, live_server, w
     row = page.locator(f"tr[data-work-order='{extra.public_id}']")
     row.get_by_label(re.compile("Technician for")).select_option(label="Tess Field")
     row.get_by_role("button", name="Assign").click()
+    # Tess has no skills on record: the board says so before anything is saved, and the supervisor confirms.
+    expect(page.get_by_text("Tess Field lacks the skill this work needs")).to_be_visible()
+    page.get_by_role("button", name="Assign to Tess Field anyway").click()
     expect(page.locator(".messages")).to_contain_text("assigned to Tess Field")
     page.screenshot(path=screenshots / "supervisor-board-1280.png", full_page=True)
     boss.close()
