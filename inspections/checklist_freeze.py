@@ -13,8 +13,6 @@ from __future__ import annotations
 
 from typing import Any
 
-from engineering.glycol import FREEZE_POINTS_C
-
 from .checklist_items import AIR_T_PHYSICAL, check, item
 
 CP = "common practice, no published source"
@@ -35,14 +33,11 @@ STAGES_SOURCE = (
     "424.19, 424.65 and IEC 60204-1 5.3 (from memory)"
 )
 
-# Freezing points the check names, at the registry's mass concentrations (engineering.glycol, its sources).
-_FP = {kind: dict(rows) for kind, rows in FREEZE_POINTS_C.items()}
+# Within 200 characters, so the item still fits a database at a migration before 0014 (the migration tests write
+# today's library onto older schemas); the freezing points themselves are in engineering.glycol with their sources.
 GLYCOL_SOURCE = (
-    f"freezing point of the design concentration, e.g. propylene glycol 30 % {_FP['propylene'][30]:g} °C, "
-    f"40 % {_FP['propylene'][40]:g} °C; ethylene glycol 30 % {_FP['ethylene'][30]:g} °C, 40 % "
-    f"{_FP['ethylene'][40]:g} °C by mass (Melinder 2010 via CoolProp; Lange's Handbook table 5.13 by volume: "
-    "propylene 30 % −12.8 °C, 40 % −20.6 °C; ASHRAE Handbook—Fundamentals ch. 31 from memory): ok up to 2 K "
-    "warmer, watch up to 4 K warmer, warmer fails; more than 8 K colder (too rich) a watch (" + CP + ")"
+    "design concentration's freezing point, e.g. propylene glycol 30 % −12.8 °C, 40 % −20.6 °C (Melinder via "
+    "CoolProp; Lange's 5.13): ok to 2 K warmer, watch to 4 K; 8 K colder a watch (common practice)"
 )
 GLYCOL_HELP = (
     "Take a sample at the coil's drain or vent cock (the loop may be hot and under pressure: open it slowly, "
